@@ -1,0 +1,110 @@
+// Benchmark: least-squares cylinder on 1e3 .. 1e6 points of a tilted bore off the origin (full
+// circle, random angles and heights, 1 um Gaussian radial noise, fixed seed). Prints one line
+// per size: points, best and median wall time of several runs, and ns per point; the same
+// geometry is timed with scipy by bench/scipy_fit_cylinder.py (bench/run_benchmarks.sh runs both).
+//
+//   bench_fit_cylinder [--sizes 1000,10000,...] [--runs N]
+#include <algorithm>
+#include <chrono>
+#include <cmath>
+#include <cstdio>
+#include <cstdlib>
+#include <cstring>
+#include <random>
+#include <ctime>
+#include <string>
+#include <vector>
+
+#include <Eigen/Geometry>
+
+#include "cylzone/fit_cylinder.hpp"
+
+namespace {
+
+constexpr double pi = 3.14159265358979323846;
+
+struct Bore {
+  Eigen::Vector3d point{412.5, -237.25, 88.0};  // mm
+  Eigen::Vector3d direction;
+  double radius = 12.5;
+  double length = 40.0;
+  double noise = 0.001;  // 1 um
+};
+
+Eigen::Matrix3Xd make_bore(const Bore& bore, Eigen::Index n, std::uint64_t seed) {
+  std::mt19937_64 rng(seed);
+  std::uniform_real_distribution<double> unit(0.0, 1.0);
+  std::normal_distribution<double> gauss(0.0, 1.0);
+  const Eigen::Vector3d w = bore.direction.normalized();
+  const Eigen::Vector3d u = w.cross(Eigen::Vector3d::UnitZ()).normalized();
+  const Eigen::Vector3d v = w.cross(u);
+  Eigen::Matrix3Xd p(3, n);
+  for (Eigen::Index i = 0; i < n; ++i) {
+    const double a = 2.0 * pi * unit(rng);
+    const double t = bore.length * unit(rng);
+    const double r = bore.radius + bore.noise * gauss(rng);
+    p.col(i) = bore.point + t * w + r * (std::cos(a) * u + std::sin(a) * v);
+  }
+  return p;
+}
+
+// CPU time of the whole process (all threads), in ms: on a shared machine it shows the work
+// done, where the wall time also shows the waiting for a core.
+double process_cpu_ms() {
+  timespec t;
+  clock_gettime(CLOCK_PROCESS_CPUTIME_ID, &t);
+  return 1e3 * static_cast<double>(t.tv_sec) + 1e-6 * static_cast<double>(t.tv_nsec);
+}
+
+double median(std::vector<double> v) {
+  std::sort(v.begin(), v.end());
+  const std::size_t m = v.size() / 2;
+  return v.size() % 2 ? v[m] : 0.5 * (v[m - 1] + v[m]);
+}
+
+}  // namespace
+
+int main(int argc, char** argv) {
+  std::vector<Eigen::Index> sizes = {1000, 10000, 100000, 1000000};
+  int runs = 0;
+  for (int i = 1; i < argc; ++i) {
+    if (!std::strcmp(argv[i], "--sizes") && i + 1 < argc) {
+      sizes.clear();
+      for (char* s = std::strtok(argv[++i], ","); s; s = std::strtok(nullptr, ","))
+        sizes.push_back(std::atol(s));
+    } else if (!std::strcmp(argv[i], "--runs") && i + 1 < argc) {
+      runs = std::atoi(argv[++i]);
+    } else {
+      std::fprintf(stderr, "usage: bench_fit_cylinder [--sizes N,N,...] [--runs N]\n");
+      return 2;
+    }
+  }
+  Bore bore;
+  bore.direction = Eigen::Vector3d(std::sin(0.12) * std::cos(0.6), std::sin(0.12) * std::sin(0.6),
+                                   std::cos(0.12));
+  std::printf("# least-squares cylinder, tilted bore off the origin, 1 um noise\n");
+  std::printf("# %10s %10s %10s %10s %12s %12s %12s\n", "points", "best_ms", "median_ms",
+              "ns/point", "cpu_med_ms", "axis_err_mm", "radius_err_mm");
+  for (const Eigen::Index n : sizes) {
+    const Eigen::Matrix3Xd points = make_bore(bore, n, 20240611u + static_cast<std::uint64_t>(n));
+    const int repeat = runs > 0 ? runs : (n >= 1000000 ? 9 : n >= 100000 ? 15 : 41);
+    std::vector<double> ms, cpu;
+    cylzone::CylinderFit fit;
+    for (int r = 0; r < repeat; ++r) {
+      const double c0 = process_cpu_ms();
+      const auto t0 = std::chrono::steady_clock::now();
+      fit = cylzone::fit_cylinder_least_squares(points);
+      const auto t1 = std::chrono::steady_clock::now();
+      cpu.push_back(process_cpu_ms() - c0);
+      ms.push_back(std::chrono::duration<double, std::milli>(t1 - t0).count());
+    }
+    // Sanity, not a test: distance of the true axis point from the fitted axis, radius error.
+    const Eigen::Vector3d d = bore.point - fit.axis.point;
+    const double axis_err = (d - d.dot(fit.axis.direction) * fit.axis.direction).norm();
+    const double best = *std::min_element(ms.begin(), ms.end());
+    std::printf("  %10ld %10.3f %10.3f %10.2f %12.3f %12.2e %12.2e\n", static_cast<long>(n), best,
+                median(ms), 1e6 * best / static_cast<double>(n), median(cpu), axis_err,
+                std::abs(fit.radius - bore.radius));
+  }
+  return 0;
+}

@@ -1,0 +1,108 @@
+#pragma once
+/// \file datum_frame.hpp
+/// The datum reference frame built from probed datum features (ASME Y14.5-2018 section 4 /
+/// ISO 5459:2011). Convention, used everywhere in cylzone (docs/datum-frame.md):
+///  * z is the normal of the associated datum plane A, pointing OUT of the material;
+///  * the origin is where the axis of datum B (its related actual mating envelope, constrained
+///    perpendicular to A) meets plane A; without B, the projection of the measurement origin;
+///  * x is clocked by datum C so that C lies at its basic location (bore/pin) or its outward
+///    normal has its basic direction (plane); without C, x is the measurement x (or y) axis
+///    projected onto A, and rotation about z is a free degree of freedom;
+///  * y = z cross x (right-handed). Depths inside the material are negative z.
+
+#include <Eigen/Core>
+#include <optional>
+#include <string>
+#include <vector>
+
+#include "cylzone/fit_cylinder.hpp"
+#include "cylzone/fit_plane.hpp"
+#include "cylzone/plan.hpp"
+#include "cylzone/point_cloud.hpp"
+
+namespace cylzone {
+
+/// Rigid transform from measurement coordinates to the frame: p_frame = rotation (p - origin).
+struct DatumFrame {
+  Eigen::Matrix3d rotation = Eigen::Matrix3d::Identity();  ///< rows: frame x, y, z axes
+  Eigen::Vector3d origin = Eigen::Vector3d::Zero();         ///< measurement coordinates
+
+  Eigen::Vector3d point_to_frame(const Eigen::Vector3d& p) const { return rotation * (p - origin); }
+  Eigen::Matrix3Xd points_to_frame(const Eigen::Matrix3Xd& p) const {
+    return rotation * (p.colwise() - origin);
+  }
+  Eigen::Vector3d direction_to_frame(const Eigen::Vector3d& d) const { return rotation * d; }
+  Eigen::Vector3d point_to_measurement(const Eigen::Vector3d& q) const {
+    return rotation.transpose() * q + origin;
+  }
+};
+
+struct PlaneDatumResult {
+  char label = 'A';
+  PlaneAssociation association = PlaneAssociation::tangent_least_squares;
+  PlaneFit plane;  ///< measurement coordinates; normal out of the material
+  double flatness = 0.0;  ///< minimum-zone flatness of the datum feature's points
+  bool material_side_inferred = false;
+};
+
+/// A cylindrical datum feature of size (B, or C when it is a bore or pin).
+struct SizeDatumResult {
+  char label = 'B';
+  FeatureKind kind = FeatureKind::bore;
+  /// Related actual mating envelope, axis constrained perpendicular to A (measurement coords):
+  /// maximum inscribed cylinder of a bore, minimum circumscribed of a pin.
+  CylinderFit related_envelope;
+  double mating_size = 0.0;  ///< diameter of the related envelope
+  MaterialBoundary boundary = MaterialBoundary::rmb;  ///< most demanding use in the plan
+  std::optional<double> mmb_size;
+  /// Radius of the circle within which the datum axis may move relative to an MMB simulator:
+  /// (mating - MMB) / 2 for a bore, (MMB - mating) / 2 for a pin (ASME Y14.5-2018, datum
+  /// feature shift). establish_datum_frame computes it as if referenced at MMB whenever an MMB
+  /// size is known (it does not know the references) and leaves `boundary` at RMB; the caller
+  /// sets the boundary it uses. 0 without a size, and 0 with a note when the feature violates
+  /// its MMB (it does not fit the simulator).
+  double shift_allowance = 0.0;
+  std::optional<SizeLimits> size;
+  Eigen::Vector3d axis_on_a = Eigen::Vector3d::Zero();  ///< where its axis meets A (measurement)
+};
+
+/// Clocking datum C given as a plane (tangent plane on its material side, perpendicular to A).
+struct ClockingPlaneResult {
+  PlaneFit plane;  ///< measurement coordinates; normal out of the material
+};
+
+struct DatumFrameOptions {
+  /// Overrides datum A's association (used for the sensitivity study).
+  std::optional<PlaneAssociation> a_association;
+  FitOptions fit;
+};
+
+struct DatumFrameResult {
+  DatumFrame frame;
+  PlaneDatumResult a;
+  std::optional<SizeDatumResult> b;
+  std::optional<SizeDatumResult> c_feature;  ///< C as a bore or pin
+  std::optional<ClockingPlaneResult> c_plane;  ///< C as a plane
+  bool rotation_fixed = false;     ///< C present
+  bool translation_fixed = false;  ///< B present
+  std::vector<std::string> notes;
+};
+
+/// Direction from plane A into the material, inferred as the side of A on which the bores'
+/// points lie (bores are cut into the material): +-a_least_squares.normal. Points within A's
+/// form (residual span) of the plane do not count; at least three in four of the others must be
+/// on one side. Throws FitError when the points straddle A more evenly, or none is off A.
+Eigen::Vector3d infer_material_side(const PlaneFit& a_least_squares,
+                                    const std::vector<const Eigen::Matrix3Xd*>& bore_points);
+
+/// Builds the frame. `datums` and `clouds` are parallel (A first, then B and C when present);
+/// `a_material_side` is the direction into the material for A in measurement coordinates (given
+/// in the plan or inferred). Throws FitError naming the datum for degenerate datum features
+/// (e.g. "datum B: axis parallel to A ...", or a fit's own message prefixed "datum B: "), and
+/// std::invalid_argument when `datums` and `clouds` differ in length or hold more than three.
+DatumFrameResult establish_datum_frame(const std::vector<PlanDatum>& datums,
+                                       const std::vector<PointCloud>& clouds,
+                                       const Eigen::Vector3d& a_material_side,
+                                       const DatumFrameOptions& options = {});
+
+}  // namespace cylzone

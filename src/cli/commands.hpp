@@ -1,0 +1,22 @@
+#pragma once
+// Sub-commands of the cylzone tool. Each add_*_command registers its options with CLI11 and
+// sets `result.run` to the action that runs after parsing succeeded.
+#include <CLI/CLI.hpp>
+#include <functional>
+#include <string>
+
+namespace cylzone::cli {
+
+inline constexpr int exit_success = 0;
+inline constexpr int exit_nonconforming = 1;
+inline constexpr int exit_input_error = 2;
+
+struct CommandResult {
+  std::function<int()> run;
+  std::string context;  ///< prefix for fit errors, e.g. "points.csv: "
+};
+
+void add_fit_command(CLI::App& app, CommandResult& result);
+void add_check_command(CLI::App& app, CommandResult& result);
+
+}  // namespace cylzone::cli

@@ -1,0 +1,390 @@
+// The datum reference frame from probed datum features (ASME Y14.5-2018 section 4; ISO
+// 5459:2011), with the convention of datum_frame.hpp and docs/datum-frame.md.
+//
+// Order of constraint follows the datum precedence: A fixes the normal (z) and the height; B,
+// associated with A's orientation held, fixes the origin in A; C, associated with A's
+// orientation held and B's location known, fixes the rotation about z.
+#include "cylzone/datum_frame.hpp"
+
+#include <Eigen/Geometry>
+#include <algorithm>
+#include <cmath>
+#include <cstddef>
+#include <optional>
+#include <stdexcept>
+#include <string>
+#include <utility>
+#include <vector>
+
+#include "cylzone/errors.hpp"
+#include "cylzone/fit_circle.hpp"
+#include "cylzone/material_condition.hpp"
+#include "cylzone/tangent_plane.hpp"
+#include "detail/fit_support.hpp"
+#include "detail/tangent_line.hpp"
+
+namespace cylzone {
+namespace {
+
+constexpr double degrees_per_radian = 180.0 / 3.14159265358979323846;
+// A secondary or tertiary feature whose least-squares axis (or plane normal) is more than this
+// from the orientation the frame needs (axis along A's normal; plane normal in A) is taken to
+// be the wrong feature for the role: the association would be meaningless, not merely poor.
+constexpr double orientation_limit_deg = 45.0;
+// Beyond this, the feature's own orientation is worth a note: its envelope is held to A.
+constexpr double orientation_note_deg = 1.0;
+// Without C, measurement x is used unless it is within about 8 degrees of A's normal.
+constexpr double nearly_parallel_cosine = 0.99;
+// See tangent_plane.cpp: the material side must make a clear angle with the plane.
+constexpr double least_material_cosine = 0.2;
+
+std::string label_text(char label) { return std::string("datum ") + label; }
+
+// Runs `associate`, naming the datum in any FitError it throws.
+template <class Associate>
+auto for_datum(char label, Associate&& associate) -> decltype(associate()) {
+  try {
+    return associate();
+  } catch (const FitError& error) {
+    throw FitError(label_text(label) + ": " + error.what());
+  }
+}
+
+double angle_deg(const Eigen::Vector3d& a, const Eigen::Vector3d& b) {
+  return std::atan2(a.cross(b).norm(), a.dot(b)) * degrees_per_radian;
+}
+
+// Angle between the feature's own least-squares axis and A's normal, 0..90 degrees; empty when
+// the points fix no axis (one cross-section of a short bore gives the circle's normal instead).
+std::optional<double> own_axis_angle_deg(const PointCloud& cloud, const Eigen::Vector3d& z,
+                                         const FitOptions& fit) {
+  FitOptions free = fit;
+  free.fixed_direction.reset();
+  free.axis_hint = z;
+  try {
+    const CylinderFit cylinder = cloud.has_vectors()
+                                     ? fit_cylinder_least_squares(cloud.points, cloud.vectors, free)
+                                     : fit_cylinder_least_squares(cloud.points, free);
+    return angle_deg(cylinder.axis.direction, z);
+  } catch (const FitError&) {
+  }
+  try {
+    return angle_deg(fit_circle_least_squares(cloud.points, free).normal, z);
+  } catch (const FitError&) {
+  }
+  return std::nullopt;
+}
+
+// Datum plane A by its association method; normal out of the material, residuals along it.
+PlaneFit associate_plane(const Eigen::Matrix3Xd& points, PlaneAssociation method,
+                         const Eigen::Vector3d& material_side, const FitOptions& fit) {
+  switch (method) {
+    case PlaneAssociation::tangent_least_squares:
+      return fit_plane_tangent_least_squares(points, material_side, fit);
+    case PlaneAssociation::tangent_minimax:
+      return fit_plane_tangent_minimax(points, material_side, fit);
+    case PlaneAssociation::least_squares:
+    case PlaneAssociation::minimum_zone:
+      break;
+  }
+  PlaneFit plane = method == PlaneAssociation::least_squares
+                       ? fit_plane_least_squares(points, fit)
+                       : fit_plane_minimum_zone(points, fit);
+  const Eigen::Vector3d side = detail::checked_direction(material_side, "the material side of A");
+  const double cosine = plane.normal.dot(side);
+  if (std::abs(cosine) < least_material_cosine)
+    throw FitError("the material side direction lies almost in the plane (" +
+                   detail::format_number(std::acos(std::abs(cosine)) * degrees_per_radian, 1) +
+                   " degrees from its normal); it must point into the material");
+  if (cosine > 0.0) {
+    plane.normal = -plane.normal;
+    plane.residuals.values = -plane.residuals.values;
+  }
+  return plane;
+}
+
+// Where the line through `axis` meets plane A.
+Eigen::Vector3d meet_plane(const Axis& axis, const PlaneFit& plane) {
+  const double t = (plane.point - axis.point).dot(plane.normal) / axis.direction.dot(plane.normal);
+  return axis.point + t * axis.direction;
+}
+
+// A bore or pin used as datum B or as clocking datum C: its related actual mating envelope
+// with the axis held along A's normal (maximum inscribed for a bore, minimum circumscribed for
+// a pin: ASME Y14.5-2018, related actual mating envelope).
+SizeDatumResult associate_size_datum(const PlanDatum& datum, const PointCloud& cloud,
+                                     const PlaneFit& a, const FitOptions& fit,
+                                     std::vector<std::string>& notes) {
+  const Eigen::Vector3d& z = a.normal;
+  if (const std::optional<double> angle = own_axis_angle_deg(cloud, z, fit)) {
+    // The axis direction's sign is arbitrary: 0 and 180 degrees are both perpendicular to A.
+    const double tilt = std::min(*angle, 180.0 - *angle);
+    if (tilt > orientation_limit_deg)
+      throw FitError("axis parallel to A (its least-squares axis is " +
+                     detail::format_number(tilt, 1) +
+                     " degrees from A's normal); a datum feature of size must cross A");
+    if (tilt > orientation_note_deg)
+      notes.push_back(label_text(datum.label) + ": its least-squares axis is " +
+                      detail::format_number(tilt, 2) +
+                      " degrees from A's normal; its mating envelope is held perpendicular to A");
+  }
+  FitOptions held = fit;
+  held.fixed_direction = z;
+  held.axis_hint = z;
+  SizeDatumResult result;
+  result.label = datum.label;
+  result.kind = datum.kind;
+  result.related_envelope = datum.kind == FeatureKind::pin
+                                ? fit_cylinder_minimum_circumscribed(cloud.points, held)
+                                : fit_cylinder_maximum_inscribed(cloud.points, held);
+  result.mating_size = result.related_envelope.diameter();
+  result.axis_on_a = meet_plane(result.related_envelope.axis, a);
+  result.size = datum.size;
+  if (datum.mmb_size)
+    result.mmb_size = datum.mmb_size;
+  else if (datum.size)
+    result.mmb_size = datum.size->mmc(datum.kind);
+  if (result.mmb_size) {
+    // As if referenced at MMB; the caller knows the references and sets `boundary`.
+    result.shift_allowance = datum_shift_allowance(MaterialBoundary::mmb, datum.kind,
+                                                   result.mating_size, *result.mmb_size);
+    const bool violates = datum.kind == FeatureKind::pin ? result.mating_size > *result.mmb_size
+                                                         : result.mating_size < *result.mmb_size;
+    if (violates)
+      notes.push_back(label_text(datum.label) + ": related mating size " +
+                      detail::format_number(result.mating_size, 4) + " mm violates its MMB " +
+                      detail::format_number(*result.mmb_size, 4) +
+                      " mm: it does not fit an MMB simulator, no datum shift is available");
+  }
+  return result;
+}
+
+// Frame x with a measured in-plane direction `measured` (unit, perpendicular to z) turned to
+// the angle of `basic` (its direction in the frame): measured = cos(phi) x + sin(phi) y.
+Eigen::Vector3d clocked_x(const Eigen::Vector3d& measured, const Eigen::Vector2d& basic,
+                          const Eigen::Vector3d& z) {
+  const Eigen::Vector2d unit = basic.normalized();
+  return unit.x() * measured - unit.y() * z.cross(measured);
+}
+
+Eigen::Vector3d in_plane_unit(const Eigen::Vector3d& v, const Eigen::Vector3d& z) {
+  return (v - v.dot(z) * z).normalized();
+}
+
+// Clocking datum plane C: the tangent least-squares plane of C's points constrained to contain
+// A's normal, i.e. the tangent line of their projections onto A (detail/tangent_line.hpp).
+ClockingPlaneResult associate_clocking_plane(const PlanDatum& datum, const PointCloud& cloud,
+                                             const PlaneFit& a,
+                                             const std::optional<Eigen::Vector3d>& b_axis_on_a,
+                                             const FitOptions& fit,
+                                             std::vector<std::string>& notes) {
+  const Eigen::Vector3d& z = a.normal;
+  FitOptions plain = fit;
+  plain.fixed_direction.reset();
+  plain.axis_hint.reset();
+  // Also checks the points (count, collinearity).
+  const PlaneFit own = fit_plane_least_squares(cloud.points, plain);
+  const double tilt = 90.0 - std::min(angle_deg(own.normal, z), 180.0 - angle_deg(own.normal, z));
+  if (tilt > orientation_limit_deg)
+    throw FitError("plane parallel to A (its least-squares normal is " +
+                   detail::format_number(90.0 - tilt, 1) +
+                   " degrees from A's normal); a clocking plane must be perpendicular to A");
+  if (tilt > orientation_note_deg)
+    notes.push_back(label_text(datum.label) + ": its least-squares plane is " +
+                    detail::format_number(tilt, 2) +
+                    " degrees out of perpendicular to A; it is associated perpendicular to A");
+
+  const Eigen::Matrix3d basis = detail::basis_from_direction(z);
+  const Eigen::Matrix2Xd projected = detail::planar_coordinates(cloud.points, a.point, basis);
+  Eigen::Vector3d side;
+  if (datum.material_side) {
+    side = detail::checked_direction(*datum.material_side, "the material side of C");
+    if (side.cross(z).norm() < least_material_cosine)
+      throw FitError("its material side direction is almost along A's normal; it must point "
+                     "into the material across plane C");
+  } else if (b_axis_on_a) {
+    // The side containing B's axis: B is a feature of the same part, so it lies in the material
+    // behind the face C.
+    const double offset = (*b_axis_on_a - own.point).dot(own.normal);
+    const double band = std::max(own.residuals.form,
+                                 1e-9 * detail::data_scale(cloud.points, own.point));
+    if (std::abs(offset) <= band)
+      throw FitError("the axis of datum B lies in plane C, so C's material side cannot be told; "
+                     "give C's material_side in the plan");
+    side = *b_axis_on_a - detail::centroid(cloud.points);
+  } else {
+    throw FitError("its material side is needed: there is no datum B to tell it");
+  }
+  const Eigen::Vector2d side_in_a = basis.leftCols<2>().transpose() * side;
+  const detail::TangentLine2d line =
+      detail::fit_line_2d_tangent_least_squares(projected, side_in_a, fit);
+
+  ClockingPlaneResult result;
+  PlaneFit& plane = result.plane;
+  plane.normal = (basis.leftCols<2>() * line.normal).normalized();
+  const Eigen::Vector3d on_line = a.point + basis.leftCols<2>() * line.point;
+  const Eigen::Vector3d centre = detail::centroid(cloud.points);
+  plane.point = centre - (centre - on_line).dot(plane.normal) * plane.normal;
+  // The 2D residuals, recomputed in space and moved so that the largest is exactly 0.
+  Eigen::VectorXd residuals = (cloud.points.colwise() - plane.point).transpose() * plane.normal;
+  const double outermost = residuals.maxCoeff();
+  plane.point += outermost * plane.normal;
+  residuals.array() -= outermost;
+  plane.residuals = detail::make_residuals(std::move(residuals));
+  plane.summary.method = FitMethod::least_squares;
+  plane.summary.status = line.status;
+  plane.summary.iterations = line.iterations;
+  plane.summary.point_count = cloud.size();
+  plane.summary.message =
+      "tangent least-squares plane perpendicular to A: " +
+      detail::iteration_message(line.status, line.iterations, fit) + ", " +
+      std::to_string(line.contacts) + (line.contacts == 1 ? " contact point" : " contact points");
+  return result;
+}
+
+}  // namespace
+
+Eigen::Vector3d infer_material_side(const PlaneFit& a_least_squares,
+                                    const std::vector<const Eigen::Matrix3Xd*>& bore_points) {
+  const Eigen::Vector3d n = detail::checked_direction(a_least_squares.normal, "the normal of A");
+  // Points within A's own form of the plane (the mouths of the bores) cannot tell a side.
+  const double band = std::max(a_least_squares.residuals.form, 0.0);
+  std::size_t positive = 0, negative = 0;
+  for (const Eigen::Matrix3Xd* points : bore_points) {
+    if (points == nullptr) throw std::invalid_argument("infer_material_side: null point set");
+    const Eigen::VectorXd d = (points->colwise() - a_least_squares.point).transpose() * n;
+    positive += static_cast<std::size_t>((d.array() > band).count());
+    negative += static_cast<std::size_t>((d.array() < -band).count());
+  }
+  // Bores are cut into the material, so their points lie on its side of A. Burrs, chamfers or
+  // a bore entered from the far face may put a few on the other side: a clear majority of
+  // three to one decides; anything closer is reported rather than guessed.
+  const std::size_t total = positive + negative;
+  if (total == 0)
+    throw FitError("cannot infer the material side of datum A: no bore point lies off A by more "
+                   "than its form (" + detail::format_number(band, 4) +
+                   " mm); give material_side for A in the plan");
+  if (4 * std::max(positive, negative) < 3 * total)
+    throw FitError("cannot infer the material side of datum A: " + std::to_string(positive) +
+                   " bore points lie on one side of A and " + std::to_string(negative) +
+                   " on the other; give material_side for A in the plan");
+  return positive > negative ? n : Eigen::Vector3d(-n);
+}
+
+DatumFrameResult establish_datum_frame(const std::vector<PlanDatum>& datums,
+                                       const std::vector<PointCloud>& clouds,
+                                       const Eigen::Vector3d& a_material_side,
+                                       const DatumFrameOptions& options) {
+  if (datums.empty() || datums.size() != clouds.size() || datums.size() > 3)
+    throw std::invalid_argument("establish_datum_frame: " + std::to_string(datums.size()) +
+                                " datums and " + std::to_string(clouds.size()) +
+                                " point clouds; expected 1 to 3 of each, in the same order");
+  DatumFrameResult result;
+  const FitOptions& fit = options.fit;
+
+  // ---- primary: plane A
+  const PlanDatum& a_datum = datums[0];
+  if (a_datum.kind != FeatureKind::plane)
+    throw FitError(label_text(a_datum.label) + ": the primary datum must be a plane, not a " +
+                   std::string(feature_kind_name(a_datum.kind)));
+  result.a.label = a_datum.label;
+  result.a.association = options.a_association.value_or(a_datum.association);
+  result.a.material_side_inferred = !a_datum.material_side.has_value();
+  FitOptions plane_fit = fit;
+  plane_fit.fixed_direction.reset();
+  plane_fit.axis_hint.reset();
+  result.a.plane = for_datum(a_datum.label, [&] {
+    return associate_plane(clouds[0].points, result.a.association, a_material_side, plane_fit);
+  });
+  const bool zone_known = result.a.association == PlaneAssociation::tangent_minimax ||
+                          result.a.association == PlaneAssociation::minimum_zone;
+  result.a.flatness = zone_known ? result.a.plane.residuals.form
+                                 : for_datum(a_datum.label, [&] {
+                                     return fit_plane_minimum_zone(clouds[0].points, plane_fit)
+                                         .residuals.form;
+                                   });
+  const Eigen::Vector3d z = result.a.plane.normal;
+
+  // ---- secondary: bore or pin B, locating the origin
+  Eigen::Vector3d origin = result.a.plane.point.dot(z) * z;  // measurement origin projected on A
+  if (datums.size() >= 2) {
+    const PlanDatum& b_datum = datums[1];
+    if (b_datum.kind == FeatureKind::plane)
+      throw FitError(label_text(b_datum.label) +
+                     ": a secondary datum plane is not supported; B must be a bore or a pin");
+    result.b = for_datum(b_datum.label, [&] {
+      return associate_size_datum(b_datum, clouds[1], result.a.plane, fit, result.notes);
+    });
+    origin = result.b->axis_on_a;
+    result.translation_fixed = true;
+  } else {
+    result.notes.push_back("no datum B: the origin is the measurement origin projected onto " +
+                           label_text(a_datum.label) + "; translation in A is not constrained");
+  }
+
+  // ---- tertiary: C, clocking the rotation about z
+  Eigen::Vector3d x;
+  if (datums.size() == 3) {
+    const PlanDatum& c_datum = datums[2];
+    if (c_datum.kind == FeatureKind::plane) {
+      if (!c_datum.outward_normal || !(c_datum.outward_normal->norm() > 0.0))
+        throw FitError(label_text(c_datum.label) +
+                       ": the basic direction of its outward normal is needed to clock the frame");
+      const std::optional<Eigen::Vector3d> b_axis =
+          result.b ? std::optional<Eigen::Vector3d>(result.b->axis_on_a) : std::nullopt;
+      result.c_plane = for_datum(c_datum.label, [&] {
+        return associate_clocking_plane(c_datum, clouds[2], result.a.plane, b_axis, fit,
+                                        result.notes);
+      });
+      x = clocked_x(in_plane_unit(result.c_plane->plane.normal, z), *c_datum.outward_normal, z);
+      result.notes.push_back(
+          label_text(c_datum.label) +
+          " (plane): tangent least-squares plane perpendicular to A; the frame is turned so its "
+          "outward normal has its basic direction");
+    } else {
+      if (!c_datum.basic_location || !(c_datum.basic_location->norm() > 0.0))
+        throw FitError(label_text(c_datum.label) +
+                       ": its basic location (away from B's axis) is needed to clock the frame");
+      result.c_feature = for_datum(c_datum.label, [&] {
+        return associate_size_datum(c_datum, clouds[2], result.a.plane, fit, result.notes);
+      });
+      const Eigen::Vector3d towards_c = result.c_feature->axis_on_a - origin;
+      const Eigen::Vector3d in_a = towards_c - towards_c.dot(z) * z;
+      // Within the envelopes' own form of each other the direction from B to C is not fixed by
+      // the points; below 1e-9 of the data's size it is rounding.
+      const double b_form = result.b ? result.b->related_envelope.residuals.form : 0.0;
+      const double band =
+          std::max(b_form + result.c_feature->related_envelope.residuals.form,
+                   1e-9 * std::max(1.0, detail::data_scale(clouds[2].points,
+                                                          detail::centroid(clouds[2].points))));
+      if (in_a.norm() <= band)
+        throw FitError(label_text(c_datum.label) + ": its axis coincides with the axis of " +
+                       (result.b ? label_text(result.b->label) : std::string("the origin")) +
+                       " (" + detail::format_number(in_a.norm(), 6) +
+                       " mm apart on A), so it cannot clock the frame");
+      x = clocked_x(in_a.normalized(), *c_datum.basic_location, z);
+      // Common practice for a tertiary datum feature of size at RMB: it removes the rotation
+      // about the datum axis only; its distance from B is the part's, not the simulator's.
+      result.notes.push_back(
+          label_text(c_datum.label) + " (" + std::string(feature_kind_name(c_datum.kind)) +
+          "): clocks the frame only; the frame is turned so its axis lies in the direction of "
+          "its basic location from B, its distance from B is not used");
+    }
+    result.rotation_fixed = true;
+  } else {
+    const Eigen::Vector3d measurement_x = Eigen::Vector3d::UnitX();
+    const bool use_y = std::abs(measurement_x.dot(z)) > nearly_parallel_cosine;
+    x = in_plane_unit(use_y ? Eigen::Vector3d::UnitY() : measurement_x, z);
+    result.notes.push_back(std::string("no datum C: x is the measurement ") +
+                           (use_y ? "y" : "x") +
+                           " axis projected onto A; rotation about A's normal is not constrained");
+  }
+
+  result.frame.origin = origin;
+  result.frame.rotation.row(0) = x.transpose();
+  result.frame.rotation.row(1) = z.cross(x).transpose();
+  result.frame.rotation.row(2) = z.transpose();
+  return result;
+}
+
+}  // namespace cylzone

@@ -1,0 +1,251 @@
+#pragma once
+// Private helpers shared by the fit modules: centring, frames, sign conventions, residual
+// statistics, coverage and degeneracy checks. Not installed.
+
+#include <Eigen/Cholesky>
+#include <Eigen/Core>
+#include <Eigen/Eigenvalues>
+#include <algorithm>
+#include <cmath>
+#include <cstddef>
+#include <optional>
+#include <string>
+#include <utility>
+#include <vector>
+
+#include "cylzone/errors.hpp"
+#include "cylzone/fit_types.hpp"
+
+namespace cylzone::detail {
+
+/// Mean of the columns. Throws FitError on an empty set.
+Eigen::Vector3d centroid(const Eigen::Matrix3Xd& points);
+
+/// Largest distance of a point from `centre`: the data's size, used to scale tolerances.
+double data_scale(const Eigen::Matrix3Xd& points, const Eigen::Vector3d& centre);
+
+/// Largest distance of a planar point from the planar points' centroid (the 2D data scale).
+double planar_scale(const Eigen::Matrix2Xd& uv);
+
+/// Right-handed orthonormal basis (u, v, w) with w = direction / |direction|. Deterministic:
+/// u is the unit vector orthogonal to w closest to whichever of x, y is less parallel to w.
+Eigen::Matrix3d basis_from_direction(const Eigen::Vector3d& direction);
+
+/// Unit `direction` with the project's sign rule: same side as `hint` if given (and not
+/// perpendicular to it), otherwise toward +z, then +y, then +x.
+Eigen::Vector3d canonical_direction(const Eigen::Vector3d& direction,
+                                    const std::optional<Eigen::Vector3d>& hint);
+
+/// Coordinates of the points in a local frame: column i is basis^T (p_i - origin).
+Eigen::Matrix3Xd local_coordinates(const Eigen::Matrix3Xd& points, const Eigen::Vector3d& origin,
+                                   const Eigen::Matrix3d& basis);
+
+/// The first two local coordinates only: the points projected onto the plane through `origin`
+/// spanned by basis columns 0 and 1 (used for circles and fixed-direction cylinders).
+Eigen::Matrix2Xd planar_coordinates(const Eigen::Matrix3Xd& points, const Eigen::Vector3d& origin,
+                                    const Eigen::Matrix3d& basis);
+
+/// Canonical axis: direction by canonical_direction, point = foot of the perpendicular from
+/// `centroid` onto the line through `point_on_axis`.
+Axis canonical_axis(const Eigen::Vector3d& point_on_axis, const Eigen::Vector3d& direction,
+                    const Eigen::Vector3d& centroid, const std::optional<Eigen::Vector3d>& hint);
+
+/// [min, max] of (p - axis.point).axis.direction.
+std::pair<double, double> axial_extent(const Eigen::Matrix3Xd& points, const Axis& axis);
+
+/// rms and form = max - min of the values.
+Residuals make_residuals(Eigen::VectorXd values);
+
+/// 360 minus the largest angular gap, in degrees, of the points' angles about `centre` in the
+/// plane of `basis` columns 0 and 1 (see ArcCoverage for the method and its resolution).
+double angular_coverage_deg(const Eigen::Matrix3Xd& points, const Eigen::Vector3d& centre,
+                            const Eigen::Matrix3d& basis);
+
+/// Angular coverage accumulated point by point (so a fit's final pass can feed it): add() the
+/// in-plane offset (x, y) of each point from the centre, then degrees() = 360 minus the largest
+/// angular gap. O(n), no sort: the maximum-gap bucket method (Gonzalez 1975; Preparata & Shamos,
+/// Computational Geometry, 1985, 6.4): with n angles in n equal buckets the largest gap is at
+/// least one bucket wide, so it runs between neighbouring non-empty buckets and only each
+/// bucket's lowest and highest angle is kept. Up to 2^15 points (as announced to the
+/// constructor) the angles are exact atan2 values and the result is exact. Beyond that, a cheap
+/// monotone pseudo-angle (the "diamond angle" y / (|x| + |y|) per half-plane) fills 2^15 buckets
+/// (512 KB, cache-resident) and only the buckets' extremes are converted to true angles: exact
+/// whenever the largest gap is at least 0.014 degrees (a bucket's widest true span: the
+/// pseudo-angle's slope varies by a factor 2), otherwise within that.
+class ArcCoverage {
+ public:
+  explicit ArcCoverage(std::size_t expected_points);
+  void add(double x, double y) {  // inline: it runs once per point in the fits' final passes
+    if (x == 0.0 && y == 0.0) return;  // a point on the axis has no angle
+    double a;
+    if (exact_) {
+      a = std::atan2(y, x);
+      if (a < 0.0) a += 2.0 * 3.14159265358979323846;
+    } else {
+      // The "diamond angle" in [0, 4]: p = y / (|x| + |y|) is monotone in the true angle on
+      // each half-plane: p for x >= 0, 2 - p for x < 0, plus 4 below zero. Written with
+      // copysign, not branches: random quadrants would mispredict (3x slower, measured).
+      const double p = y / (std::abs(x) + std::abs(y));
+      a = 1.0 - std::copysign(1.0, x) * (1.0 - p);
+      a += 2.0 - 2.0 * std::copysign(1.0, a);
+    }
+    const std::size_t b =
+        std::min(bounds_.size() / 2 - 1, static_cast<std::size_t>(a * per_unit_));
+    double* pair = bounds_.data() + 2 * b;
+    pair[0] = std::min(pair[0], a);
+    pair[1] = std::max(pair[1], a);
+    ++count_;
+  }
+  /// Adds the points of `other` (built with the same expected_points), e.g. from another thread.
+  void merge(const ArcCoverage& other);
+  double degrees() const;
+
+ private:
+  bool exact_;
+  std::size_t count_ = 0;
+  double per_unit_;            // buckets per radian (exact) or per pseudo-angle unit
+  std::vector<double> bounds_;  // lowest and highest angle of each bucket, interleaved
+};
+
+/// Throws FitError "a <element> needs at least <needed> points, got <n>" when n < needed.
+void require_point_count(std::size_t n, std::size_t needed, const char* element);
+
+/// sigma^2 (J^T J)^-1 with sigma^2 = ssr / (n - p); zero sigma^2 when n == p.
+Eigen::MatrixXd covariance_from_normal_matrix(const Eigen::MatrixXd& jtj, double ssr,
+                                              std::size_t n);
+
+/// Adds the coverage warning to `summary` when coverage < options.coverage_warning_deg.
+void warn_on_coverage(FitSummary& summary, double coverage_deg, const FitOptions& options);
+
+/// Fixed-precision number for messages, e.g. format_number(0.12345, 4) == "0.1235".
+std::string format_number(double value, int decimals);
+
+/// Centred scatter matrix sum (p - centre)(p - centre)^T, accumulated without temporaries.
+Eigen::Matrix3d scatter_matrix(const Eigen::Matrix3Xd& points, const Eigen::Vector3d& centre);
+
+/// Principal axes of the points about `centre`: `directions` columns in ascending order of
+/// spread (column 0 = normal of the least-squares plane, column 2 = least-squares line
+/// direction), `rms` the rms spread along each, `scale` the largest distance from `centre`.
+struct PrincipalAxes {
+  Eigen::Matrix3d directions = Eigen::Matrix3d::Identity();
+  Eigen::Vector3d rms = Eigen::Vector3d::Zero();
+  double scale = 0.0;
+};
+PrincipalAxes principal_axes(const Eigen::Matrix3Xd& points, const Eigen::Vector3d& centre);
+
+/// A set whose rms spread across a line (or plane) is below this fraction of its spread along
+/// it is treated as lying exactly on it: coordinate rounding alone gives ~1e-16.
+inline constexpr double degenerate_spread_ratio = 1e-10;
+
+/// Throws FitError "all N points coincide; a <element> needs distinct points" when the largest
+/// distance from the centroid is at the rounding level of the coordinates (1e-12 relative).
+/// Returns that largest distance (data_scale), so callers need not compute it again.
+double require_distinct_points(const Eigen::Matrix3Xd& points, const Eigen::Vector3d& centroid,
+                             const char* element);
+
+/// direction / |direction|; throws FitError naming `what` when it is zero or not finite.
+Eigen::Vector3d checked_direction(const Eigen::Vector3d& direction, const char* what);
+
+/// Summary line of an iterative fit: "converged in N iterations" or the iteration-limit text.
+std::string iteration_message(FitStatus status, int iterations, const FitOptions& options);
+
+/// atan2(y, x) mapped to [0, 2 pi), within 1e-15 rad of the correctly rounded value: octant
+/// reduction, then the Taylor series of atan on |s| <= tan(pi/8) (remainder below 2e-16).
+double polar_angle(double x, double y) noexcept;
+
+/// Outcome of gauss_newton().
+template <int P>
+struct GaussNewtonResult {
+  FitStatus status = FitStatus::converged;
+  int iterations = 0;  ///< Gauss-Newton steps taken
+  double ssr = 0.0;    ///< sum of squared residuals at the returned state
+  Eigen::Matrix<double, P, P> normal_matrix = Eigen::Matrix<double, P, P>::Zero();  ///< J^T J there
+};
+
+/// Gauss-Newton with step halving for small dense problems (Forbes 1989, section 3; Bjorck,
+/// Numerical Methods for Least Squares Problems, 1996, 9.2). `evaluate(state, jtj, jtr)` returns
+/// the sum of squares at `state` and fills J^T J and J^T r; `apply(state, step)` returns the state
+/// moved by `step`. Stops (converged) when |step_weights .* step| <= step_tolerance * scale, or
+/// when a step that fails to lower the sum predicts a reduction the sum cannot resolve in double
+/// precision (the rounding floor of ill-conditioned sets, e.g. short arcs); returns the last
+/// evaluated state, so normal_matrix belongs to it. Throws FitError(singular_message) when J^T J
+/// is numerically singular.
+template <int P, class State, class Evaluate, class Apply>
+GaussNewtonResult<P> gauss_newton(State& state, Evaluate&& evaluate, Apply&& apply,
+                                  const Eigen::Matrix<double, P, 1>& step_weights, double scale,
+                                  const FitOptions& options, const std::string& singular_message);
+
+/// True when the Jacobi-scaled normal matrix has a reciprocal condition number below 1e-14
+/// (or a zero or non-finite diagonal): the parameters are not determined by the points.
+/// Fixed-size matrices are handled without heap allocation.
+template <class Derived>
+bool normal_matrix_is_singular(const Eigen::MatrixBase<Derived>& jtj) {
+  using Matrix = typename Derived::PlainObject;
+  const Matrix m = jtj;
+  if (!m.allFinite() || (m.diagonal().array() <= 0.0).any()) return true;
+  // Jacobi scaling makes the test independent of the parameters' units (lengths, angles).
+  const auto scale = m.diagonal().cwiseSqrt().cwiseInverse().eval();
+  const Matrix scaled = scale.asDiagonal() * m * scale.asDiagonal();
+  const Eigen::SelfAdjointEigenSolver<Matrix> eigen(scaled, Eigen::EigenvaluesOnly);
+  const auto& lambda = eigen.eigenvalues();
+  return !(lambda(0) > 1e-14 * lambda(lambda.size() - 1));
+}
+
+// ---------------------------------------------------------------- template definitions
+
+template <int P, class State, class Evaluate, class Apply>
+GaussNewtonResult<P> gauss_newton(State& state, Evaluate&& evaluate, Apply&& apply,
+                                  const Eigen::Matrix<double, P, 1>& step_weights, double scale,
+                                  const FitOptions& options, const std::string& singular_message) {
+  using Matrix = Eigen::Matrix<double, P, P>;
+  using Vector = Eigen::Matrix<double, P, 1>;
+  // A sum of n squares carries a relative rounding error of order n * eps at worst; a predicted
+  // reduction below this fraction cannot be confirmed or refuted by re-evaluating the sum.
+  constexpr double unresolvable_reduction = 1e-12;
+  // A Gauss-Newton direction is a descent direction; if 1/4096 of the step still does not
+  // descend, the point is a minimum to working precision.
+  constexpr int max_halvings = 12;
+  GaussNewtonResult<P> result;
+  Matrix jtj;
+  Vector jtr;
+  double ssr = evaluate(state, jtj, jtr);
+  const double tolerance = options.step_tolerance * scale;
+  for (int iteration = 0;; ++iteration) {
+    if (normal_matrix_is_singular(jtj)) throw FitError(singular_message);
+    if (iteration == options.max_iterations) {
+      result.status = FitStatus::iteration_limit;
+      break;
+    }
+    const Vector step = jtj.ldlt().solve(-jtr);
+    if (!step.allFinite()) throw FitError(singular_message);
+    if (step_weights.cwiseProduct(step).norm() <= tolerance) break;
+    // Gauss-Newton's predicted reduction of the sum, -2 jtr.step - step' jtj step = step' jtj step.
+    const double predicted = step.dot(jtj * step);
+    double fraction = 1.0;
+    bool accepted = false;
+    for (int halving = 0; halving < max_halvings; ++halving, fraction *= 0.5) {
+      State trial = apply(state, Vector(fraction * step));
+      Matrix trial_jtj;
+      Vector trial_jtr;
+      const double trial_ssr = evaluate(trial, trial_jtj, trial_jtr);
+      if (trial_ssr < ssr || (trial_ssr == ssr && fraction == 1.0)) {
+        state = std::move(trial);
+        ssr = trial_ssr;
+        jtj = trial_jtj;
+        jtr = trial_jtr;
+        accepted = true;
+        break;
+      }
+      if (fraction * fraction * predicted <= unresolvable_reduction * ssr ||
+          fraction * step_weights.cwiseProduct(step).norm() <= tolerance)
+        break;
+    }
+    result.iterations = iteration + 1;
+    if (!accepted) break;  // at the rounding floor: the last evaluated state is the solution
+  }
+  result.ssr = ssr;
+  result.normal_matrix = jtj;
+  return result;
+}
+
+}  // namespace cylzone::detail

@@ -1,0 +1,598 @@
+// evaluate_bore on synthetic bores whose every figure is known in closed form:
+//  * three-lobed cylinders (tests/support/reference_data.hpp, the Chebyshev shortcut of the
+//    null-space method of ISO 10360-6 test sets; Forbes & Minh 2012): the generating cylinder is
+//    at once the least-squares, minimum-zone (cylindricity 2 eps) and both mating envelopes
+//    (radius r - eps inscribed, r + eps circumscribed), so the toleranced axis is the known one;
+//    and an odd number of lobes gives every two-point size 2r exactly (a fact of roundness
+//    measurement: two-point measurement does not see odd lobing; common practice);
+//  * circles with known centres on a symmetrically bent axis, so the least-squares axis is
+//    parallel to the bend's chord and the section centres are the generated ones;
+//  * position, perpendicularity, bonus and virtual condition from their definitions
+//    (ASME Y14.5-2018; ISO 1101:2017; ISO 2692:2021 -- clause numbers from memory), evaluated
+//    here directly on the generating geometry, not with the library's helpers.
+
+#include <catch2/catch.hpp>
+#include <cstdio>
+
+#include <Eigen/Geometry>
+#include <cmath>
+#include <random>
+
+#include "cylzone/bore_evaluation.hpp"
+#include "cylzone/errors.hpp"
+#include "reference_data.hpp"
+
+using namespace cylzone;
+using Catch::Matchers::Contains;
+using cylzone::testing::direction_from_angles;
+using cylzone::testing::make_lobed_cylinder;
+
+namespace {
+
+constexpr double pi = 3.14159265358979323846;
+constexpr double deg = pi / 180.0;
+/// Agreement required with the closed forms, mm (measured: within 1e-13 mm on these sets).
+constexpr double agreement = 1e-11;
+
+PlanTolerance tolerance(double t, MaterialCondition condition = MaterialCondition::rfs) {
+  PlanTolerance p;
+  p.tolerance = t;
+  p.condition = condition;
+  p.datums = {{'A', MaterialBoundary::rmb}, {'B', MaterialBoundary::rmb}};
+  return p;
+}
+
+/// The actual axis' deviation from the true-position axis at height h along the zone's w, by
+/// its definition: the point of the axis in the plane perpendicular to w at height h, in (u, v)
+/// of a zone frame built here independently.
+struct TrueAxis {
+  Eigen::Vector3d origin;  // true position on A
+  Eigen::Vector3d u, v, w;
+};
+
+TrueAxis true_axis(const Eigen::Vector2d& basic, const Eigen::Vector3d& w) {
+  TrueAxis t;
+  t.origin = Eigen::Vector3d(basic.x(), basic.y(), 0.0);
+  t.w = w.normalized();
+  t.u = (Eigen::Vector3d::UnitX() - t.w.x() * t.w).normalized();
+  t.v = t.w.cross(t.u);
+  return t;
+}
+
+Eigen::Vector2d deviation_at(const Axis& actual, const TrueAxis& zone, double h) {
+  const Eigen::Vector3d d = actual.direction.normalized();
+  const double s = (h - (actual.point - zone.origin).dot(zone.w)) / d.dot(zone.w);
+  const Eigen::Vector3d p = actual.point + s * d - zone.origin;
+  return {p.dot(zone.u), p.dot(zone.v)};
+}
+
+/// Distance of the two axes' lines at the given heights of the first one (0 when identical).
+double axis_gap(const Axis& a, const Axis& b, double h1, double h2) {
+  double worst = 0.0;
+  for (double h : {h1, h2}) {
+    const Eigen::Vector3d p = a.point + h * a.direction.normalized();
+    const Eigen::Vector3d q = p - b.point;
+    worst = std::max(worst, (q - q.dot(b.direction.normalized()) * b.direction.normalized()).norm());
+  }
+  return worst;
+}
+
+/// Radial distance of every point from the true-position axis (for the virtual condition).
+std::pair<double, double> radial_extremes(const Eigen::Matrix3Xd& p, const TrueAxis& zone) {
+  double lo = 1e300, hi = 0.0;
+  for (Eigen::Index i = 0; i < p.cols(); ++i) {
+    const Eigen::Vector3d q = p.col(i) - zone.origin;
+    const double r = (q - q.dot(zone.w) * zone.w).norm();
+    lo = std::min(lo, r);
+    hi = std::max(hi, r);
+  }
+  return {lo, hi};
+}
+
+struct LobedBore {
+  PlanBore plan;
+  Axis axis;  // generating axis (datum frame)
+  double radius = 6.005;
+  double eps = 0.002;
+  Eigen::Matrix3Xd points;
+};
+
+/// A perpendicular bore P1 at (40, 25): deviation e0 at z = 0, tilted by `tilt` rad at azimuth
+/// 30 degrees, three-lobed, 9 levels of 24 points from z ~ -1 to -63.
+LobedBore tilted_bore(double tilt = 3e-4) {
+  LobedBore b;
+  b.plan.id = "P1";
+  b.plan.basic_location = {40.0, 25.0};
+  b.plan.size = SizeLimits{12.000, 12.018};
+  b.axis.point = Eigen::Vector3d(40.006, 24.995, 0.0);
+  b.axis.direction =
+      Eigen::Vector3d(std::tan(tilt) * std::cos(30 * deg), std::tan(tilt) * std::sin(30 * deg), 1.0)
+          .normalized();
+  b.points = make_lobed_cylinder(b.axis, b.radius, -1.0, -63.0, 9, 24, b.eps, 11.0).points;
+  return b;
+}
+
+}  // namespace
+
+TEST_CASE("tilted, offset, lobed bore: every figure against its closed form", "[bore_evaluation]") {
+  LobedBore b = tilted_bore();
+  b.plan.depth_top = 0.0;
+  b.plan.depth_bottom = -64.0;
+  b.plan.position = tolerance(0.025, MaterialCondition::mmc);
+  b.plan.perpendicularity = tolerance(0.015);
+  b.plan.perpendicularity->datums = {{'A', MaterialBoundary::rmb}};
+  b.plan.cylindricity = 0.005;
+  const BoreResult r = evaluate_bore(b.plan, b.points);
+  const TrueAxis zone = true_axis(b.plan.basic_location, Eigen::Vector3d::UnitZ());
+
+  // Fits: the generating cylinder (reference-set construction, see file comment).
+  CHECK(axis_gap(r.least_squares.axis, b.axis, -1.0, -63.0) < agreement);
+  CHECK(axis_gap(r.mating_envelope.axis, b.axis, -1.0, -63.0) < agreement);
+  CHECK(r.axis_method == BoreAxisMethod::mating_envelope);
+  CHECK(axis_gap(r.axis, b.axis, -1.0, -63.0) < agreement);
+
+  // Size.
+  CHECK(r.size.least_squares == Approx(2 * b.radius).margin(agreement));
+  CHECK(r.size.mating_envelope == Approx(2 * (b.radius - b.eps)).margin(agreement));
+  CHECK(r.size.minimum_material_envelope == Approx(2 * (b.radius + b.eps)).margin(agreement));
+  // A cylinder constrained in orientation cannot be larger than the free one.
+  CHECK(r.size.related_mating_envelope <= r.size.mating_envelope + 1e-12);
+  CHECK(r.size.two_point_min == Approx(2 * b.radius).margin(1e-10));
+  CHECK(r.size.two_point_max == Approx(2 * b.radius).margin(1e-10));
+  CHECK(r.size.two_point_count == 9 * 12);  // 12 diametral pairs per level of 24 points
+  REQUIRE(r.size.verdict.has_value());
+  CHECK(*r.size.verdict == Verdict::conforms);  // 12.006 >= 12.000, 12.010 <= 12.018
+  CHECK(r.sections.size() == 9);
+
+  // Form.
+  CHECK(r.form.cylindricity == Approx(2 * b.eps).margin(agreement));
+  REQUIRE(r.form.verdict.has_value());
+  CHECK(*r.form.verdict == Verdict::conforms);
+
+  // Position over the full depth: 2 max |e| at the ends of [-64, 0].
+  REQUIRE(r.position.has_value());
+  const PositionResult& p = *r.position;
+  const Eigen::Vector2d e_top = deviation_at(b.axis, zone, 0.0);
+  const Eigen::Vector2d e_bottom = deviation_at(b.axis, zone, -64.0);
+  CHECK((e_top - Eigen::Vector2d(0.006, -0.005)).norm() < 1e-14);  // the construction itself
+  CHECK(p.range_top == 0.0);
+  CHECK(p.range_bottom == -64.0);
+  CHECK_FALSE(p.projected);
+  CHECK((p.top.offset - e_top).norm() < agreement);
+  CHECK((p.bottom.offset - e_bottom).norm() < agreement);
+  CHECK(p.top.diameter() == Approx(2 * e_top.norm()).margin(agreement));
+  CHECK(p.value == Approx(2 * std::max(e_top.norm(), e_bottom.norm())).margin(agreement));
+  CHECK(p.worst.height == -64.0);
+  // Bonus at MMC from the unrelated mating envelope: 12.006 - 12.000.
+  CHECK(p.bonus == Approx(2 * (b.radius - b.eps) - 12.000).margin(agreement));
+  CHECK(p.allowed == Approx(0.025 + p.bonus).margin(1e-15));
+  CHECK(p.value > p.allowed);
+  CHECK(p.verdict == Verdict::does_not_conform);
+  // Where the axis leaves the allowed zone: |e0 + h k| = allowed / 2, solved here directly.
+  {
+    const Eigen::Vector2d k = (e_bottom - e_top) / -64.0;
+    const double R = 0.5 * p.allowed;
+    const double A = k.squaredNorm(), B = e_top.dot(k), C = e_top.squaredNorm() - R * R;
+    const double h = (-B - std::sqrt(B * B - A * C)) / A;  // the root below the mouth
+    REQUIRE(p.leaves_zone_at.has_value());
+    CHECK(*p.leaves_zone_at == Approx(h).margin(1e-5));
+    CHECK(*p.leaves_zone_at < 0.0);
+    CHECK(*p.leaves_zone_at > -64.0);
+  }
+
+  // Perpendicularity over the bore's own depth: 64 tan(tilt).
+  REQUIRE(r.perpendicularity.has_value());
+  CHECK(r.perpendicularity->value == Approx(64.0 * std::tan(3e-4)).margin(agreement));
+  CHECK(r.perpendicularity->bonus == 0.0);  // RFS
+  CHECK(r.perpendicularity->verdict == Verdict::does_not_conform);  // 0.0192 > 0.015
+
+  // Tilt.
+  CHECK(r.tilt.angle_rad == Approx(3e-4).margin(1e-10));
+  CHECK(r.tilt.azimuth_deg == Approx(30.0).margin(1e-5));
+
+  // Virtual condition at MMC: 12.000 - 0.025; the largest cylinder on the true-position axis
+  // clear of every point.
+  REQUIRE(r.virtual_condition.has_value());
+  CHECK(r.virtual_condition->boundary == Approx(11.975).margin(1e-15));
+  CHECK(r.virtual_condition->on_true_position);
+  CHECK(r.virtual_condition->comparison == ">=");
+  CHECK(r.virtual_condition->clearance == Approx(2 * radial_extremes(b.points, zone).first).margin(1e-12));
+  CHECK(r.virtual_condition->verdict == (r.virtual_condition->clearance >= 11.975
+                                             ? Verdict::conforms : Verdict::does_not_conform));
+
+  // The plan's depth reaches 1 mm beyond each end of a 62 mm probed band: normal (a probe
+  // cannot reach the edges), not warned about.
+  for (const std::string& w : r.warnings) CHECK(w.find("extrapolated") == std::string::npos);
+
+  // Judged over 90 mm from a 62 mm band: the extrapolation (28 mm) is warned about, with both
+  // ends' lengths.
+  LobedBore deep = b;
+  deep.plan.depth_bottom = -90.0;
+  const BoreResult d = evaluate_bore(deep.plan, deep.points);
+  std::string warning;
+  for (const std::string& w : d.warnings)
+    if (w.find("extrapolated") != std::string::npos) warning = w;
+  INFO(warning);
+  CHECK(warning.find(" mm above and 2") != std::string::npos);  // ~1 mm above, ~27 mm below
+  char span[32];
+  std::snprintf(span, sizeof span, "band of %.4f mm", d.probed_top - d.probed_bottom);
+  CHECK(warning.find(span) != std::string::npos);
+}
+
+TEST_CASE("probed extent is the default range; a bore inside its zone conforms", "[bore_evaluation]") {
+  LobedBore b = tilted_bore(1e-4);
+  b.plan.position = tolerance(0.030);
+  const BoreResult r = evaluate_bore(b.plan, b.points);
+  const TrueAxis zone = true_axis(b.plan.basic_location, Eigen::Vector3d::UnitZ());
+  double zmin = 1e300, zmax = -1e300;
+  for (Eigen::Index i = 0; i < b.points.cols(); ++i) {
+    zmin = std::min(zmin, b.points(2, i));
+    zmax = std::max(zmax, b.points(2, i));
+  }
+  CHECK(r.probed_top == Approx(zmax).margin(1e-12));
+  CHECK(r.probed_bottom == Approx(zmin).margin(1e-12));
+  REQUIRE(r.position.has_value());
+  CHECK(r.position->range_top == r.probed_top);
+  CHECK(r.position->range_bottom == r.probed_bottom);
+  const double expected = 2 * std::max(deviation_at(b.axis, zone, zmax).norm(),
+                                        deviation_at(b.axis, zone, zmin).norm());
+  CHECK(r.position->value == Approx(expected).margin(agreement));
+  CHECK(r.position->bonus == 0.0);
+  CHECK(r.position->verdict == Verdict::conforms);
+  CHECK_FALSE(r.position->leaves_zone_at.has_value());
+  CHECK_FALSE(r.virtual_condition.has_value());  // RFS
+  for (const std::string& w : r.warnings) CHECK(w.find("extrapolated") == std::string::npos);
+}
+
+TEST_CASE("the least-squares axis method uses the least-squares cylinder", "[bore_evaluation]") {
+  LobedBore b = tilted_bore();
+  b.plan.axis = BoreAxisMethod::least_squares;
+  b.plan.position = tolerance(0.05);
+  const BoreResult r = evaluate_bore(b.plan, b.points);
+  CHECK(axis_gap(r.axis, r.least_squares.axis, -1.0, -63.0) < 1e-12);
+  CHECK(axis_gap(r.axis, b.axis, -1.0, -63.0) < agreement);
+}
+
+TEST_CASE("projected tolerance zone: position on the axis' extension above A", "[bore_evaluation]") {
+  // ASME Y14.5-2018 projected tolerance zone (from memory): the zone of height P lies above A,
+  // out of the material, and the straight axis is extended into it.
+  LobedBore b = tilted_bore();
+  b.plan.position = tolerance(0.050, MaterialCondition::mmc);
+  b.plan.position->projected_height = 15.0;
+  b.plan.perpendicularity = tolerance(0.030);
+  const BoreResult r = evaluate_bore(b.plan, b.points);
+  const TrueAxis zone = true_axis(b.plan.basic_location, Eigen::Vector3d::UnitZ());
+  REQUIRE(r.position.has_value());
+  const PositionResult& p = *r.position;
+  CHECK(p.projected);
+  CHECK(p.range_top == 15.0);
+  CHECK(p.range_bottom == 0.0);
+  const Eigen::Vector2d at_top = deviation_at(b.axis, zone, 15.0);
+  const Eigen::Vector2d at_a = deviation_at(b.axis, zone, 0.0);
+  CHECK(p.value == Approx(2 * std::max(at_top.norm(), at_a.norm())).margin(agreement));
+  CHECK((p.top.offset - at_top).norm() < agreement);
+  CHECK(p.top.height == 15.0);
+  // Perpendicularity keeps the bore's own (probed) depth.
+  REQUIRE(r.perpendicularity.has_value());
+  CHECK(r.perpendicularity->range_top == r.probed_top);
+  CHECK(r.perpendicularity->value ==
+        Approx((r.probed_top - r.probed_bottom) * std::tan(3e-4)).margin(agreement));
+  // Virtual condition in the projected zone: the extended mating envelope against the boundary
+  // cylinder on the true axis, worst at an end of the zone: 2 (R - max |e|).
+  REQUIRE(r.virtual_condition.has_value());
+  CHECK(r.virtual_condition->clearance ==
+        Approx(2 * (b.radius - b.eps) - 2 * std::max(at_top.norm(), at_a.norm())).margin(agreement));
+  CHECK(r.virtual_condition->boundary == Approx(12.000 - 0.050).margin(1e-15));
+
+  // The median line has no extension: refused.
+  b.plan.axis = BoreAxisMethod::median_line;
+  CHECK_THROWS_WITH(evaluate_bore(b.plan, b.points),
+                    Contains("bore P1") && Contains("projected"));
+}
+
+TEST_CASE("median line on a bent axis: section centres, position, perpendicularity", "[bore_evaluation]") {
+  // Circles of radius 5 with centres c(z) = basic + (dx - k (z - zm)^2, dy): symmetric about zm,
+  // so the least-squares axis is parallel to z and the sections at the probed levels are the
+  // circles' own planes; each least-squares circle is then the generating circle. The bow is
+  // largest mid-depth: the mouth is inside the zone, the middle outside.
+  const Eigen::Vector2d basic(-30.0, 12.5);
+  const double dx = 0.009, dy = -0.004, zm = -32.0, k = 0.012 / (30.0 * 30.0), radius = 5.0;
+  std::vector<double> levels;
+  for (int j = 0; j <= 10; ++j) levels.push_back(-2.0 - 6.0 * j);
+  const int per_level = 24;
+  Eigen::Matrix3Xd points(3, static_cast<Eigen::Index>(levels.size()) * per_level);
+  std::vector<Eigen::Vector2d> expected_offset;
+  Eigen::Index col = 0;
+  for (double z : levels) {
+    const Eigen::Vector2d off(dx - k * (z - zm) * (z - zm), dy);
+    expected_offset.push_back(off);
+    for (int i = 0; i < per_level; ++i) {
+      const double a = 7.0 * deg + 2 * pi * i / per_level;
+      points.col(col++) << basic.x() + off.x() + radius * std::cos(a),
+          basic.y() + off.y() + radius * std::sin(a), z;
+    }
+  }
+  PlanBore plan;
+  plan.id = "M1";
+  plan.basic_location = basic;
+  plan.axis = BoreAxisMethod::median_line;
+  plan.position = tolerance(0.016);
+  plan.perpendicularity = tolerance(0.010);
+  const BoreResult r = evaluate_bore(plan, points);
+  REQUIRE(r.sections.size() == levels.size());
+  REQUIRE(r.position.has_value());
+  const PositionResult& p = *r.position;
+  REQUIRE(p.section_centres.size() == levels.size());
+  // From the top down, each centre is the generated one.
+  double largest = 0.0;
+  for (std::size_t j = 0; j < levels.size(); ++j) {
+    CHECK(p.section_centres[j].height == Approx(levels[j]).margin(1e-9));
+    CHECK((p.section_centres[j].offset - expected_offset[j]).norm() < 1e-9);
+    largest = std::max(largest, expected_offset[j].norm());
+  }
+  CHECK(p.value == Approx(2 * largest).margin(1e-9));
+  CHECK(p.value == Approx(2 * std::hypot(dx, dy)).margin(1e-9));
+  // Perpendicularity: the centres lie on a line in x from dx - 0.012 to dx: the smallest
+  // enclosing circle is that segment's.
+  REQUIRE(r.perpendicularity.has_value());
+  CHECK(r.perpendicularity->value == Approx(0.012).margin(1e-9));
+  CHECK(r.perpendicularity->verdict == Verdict::does_not_conform);
+  // The top centre is inside the 0.016 zone, the middle one outside: the median line leaves the
+  // zone between two sections, where the straight segment joining them crosses radius 0.008.
+  REQUIRE(p.leaves_zone_at.has_value());
+  const double h = *p.leaves_zone_at;
+  std::size_t j = 1;
+  while (j < levels.size() && levels[j] > h) ++j;
+  REQUIRE(j < levels.size());
+  CHECK(expected_offset[0].norm() < 0.008);
+  CHECK(expected_offset[j - 1].norm() <= 0.008);
+  CHECK(expected_offset[j].norm() > 0.008);
+  const double f = (h - levels[j - 1]) / (levels[j] - levels[j - 1]);
+  const Eigen::Vector2d at = expected_offset[j - 1] + f * (expected_offset[j] - expected_offset[j - 1]);
+  CHECK(at.norm() == Approx(0.008).margin(1e-9));
+  CHECK(p.verdict == Verdict::does_not_conform);
+  // The reported axis is the centres' least-squares line: parallel to z here.
+  CHECK(r.tilt.angle_rad < 1e-9);
+}
+
+TEST_CASE("a scanned cloud without levels is cut into slabs", "[bore_evaluation]") {
+  // 20,000 points on an exact cylinder at random angles and evenly spread heights: no probed
+  // levels, so sections are slabs of the section gap.
+  std::mt19937_64 rng(5150);
+  std::uniform_real_distribution<double> angle(0.0, 2 * pi);
+  Axis axis;
+  axis.point = Eigen::Vector3d(-12.0, 8.004, 0.0);
+  axis.direction = Eigen::Vector3d(2e-4, -1e-4, 1.0).normalized();
+  const double radius = 4.0;
+  const Eigen::Vector3d u = axis.direction.cross(Eigen::Vector3d::UnitX()).normalized();
+  const Eigen::Vector3d v = axis.direction.cross(u);
+  const int n = 20000;
+  Eigen::Matrix3Xd points(3, n);
+  for (int i = 0; i < n; ++i) {
+    const double t = -0.5 - 39.5 * i / (n - 1.0), a = angle(rng);
+    points.col(i) = axis.point + t * axis.direction + radius * (std::cos(a) * u + std::sin(a) * v);
+  }
+  PlanBore plan;
+  plan.id = "S1";
+  plan.basic_location = {-12.0, 8.0};
+  plan.size = SizeLimits{7.995, 8.010};
+  plan.position = tolerance(0.020, MaterialCondition::mmc);
+  BoreEvaluationOptions options;
+  options.section_gap = 0.5;
+  const BoreResult r = evaluate_bore(plan, points, options);
+  CHECK(r.sections.size() == 79);  // ceil(39.5 / 0.5)
+  const TrueAxis zone = true_axis(plan.basic_location, Eigen::Vector3d::UnitZ());
+  REQUIRE(r.position.has_value());
+  const double expected = 2 * std::max(deviation_at(axis, zone, r.probed_top).norm(),
+                                       deviation_at(axis, zone, r.probed_bottom).norm());
+  CHECK(r.position->value == Approx(expected).margin(1e-11));
+  CHECK(r.size.mating_envelope == Approx(8.0).margin(1e-11));
+  CHECK(r.form.cylindricity < 1e-11);
+  // Two-point sizes: chords between points whose directions differ from opposite by at most
+  // half the mean spacing pi / n_section, so 2r cos(pi / (2 n)) <= size <= 2r.
+  std::size_t fewest = n;
+  for (const SectionCircle& s : r.sections)
+    fewest = std::min<std::size_t>(fewest, static_cast<std::size_t>(s.circle.residuals.values.size()));
+  CHECK(r.size.two_point_count > 79 * 50);
+  CHECK(r.size.two_point_max <= 2 * radius + 1e-9);
+  CHECK(r.size.two_point_min >= 2 * radius * std::cos(pi / (2.0 * fewest)) - 1e-9);
+}
+
+TEST_CASE("an inclined bore is evaluated along its nominal direction", "[bore_evaluation]") {
+  const Eigen::Vector3d nominal = direction_from_angles(15.0, 120.0);
+  const Eigen::Vector2d basic(10.0, -5.0);
+  const TrueAxis zone = true_axis(basic, nominal);
+  // Actual axis: through the true position + (0.004, 0.002) in (u, v) on A, tilted 2e-4 rad.
+  Axis axis;
+  axis.point = zone.origin + 0.004 * zone.u + 0.002 * zone.v;
+  axis.direction = (nominal + 2e-4 * zone.u).normalized();
+  const Eigen::Matrix3Xd points = make_lobed_cylinder(axis, 3.0, -2.0, -30.0, 8, 18, 0.001).points;
+  PlanBore plan;
+  plan.id = "I1";
+  plan.basic_location = basic;
+  plan.nominal_direction = nominal;
+  plan.depth_top = 0.0;
+  plan.depth_bottom = -25.0;  // frame z; heights along w are z / w_z
+  plan.position = tolerance(0.03);
+  const BoreResult r = evaluate_bore(plan, points);
+  REQUIRE(r.position.has_value());
+  const double h_bottom = -25.0 / nominal.z();
+  CHECK(r.position->range_bottom == Approx(h_bottom).epsilon(1e-15));
+  const Eigen::Vector2d e0 = deviation_at(axis, zone, 0.0), e1 = deviation_at(axis, zone, h_bottom);
+  CHECK((r.position->top.offset - e0).norm() < agreement);
+  CHECK((r.position->bottom.offset - e1).norm() < agreement);
+  CHECK(r.position->value == Approx(2 * std::max(e0.norm(), e1.norm())).margin(agreement));
+  CHECK(r.tilt.angle_rad == Approx(std::atan(2e-4)).margin(1e-10));
+  // A nominal direction given into the material is the same axis.
+  plan.nominal_direction = -nominal;
+  const BoreResult reversed = evaluate_bore(plan, points);
+  CHECK(reversed.position->value == Approx(r.position->value).margin(1e-12));
+  CHECK(reversed.zone.basis.col(2).dot(nominal) == Approx(1.0));
+}
+
+TEST_CASE("size verdict per Rule #1 names the failed limit", "[bore_evaluation]") {
+  LobedBore b = tilted_bore();
+  b.plan.position = tolerance(0.05);
+  // Mating envelope 12.006 below a lower limit of 12.008.
+  b.plan.size = SizeLimits{12.008, 12.030};
+  BoreResult r = evaluate_bore(b.plan, b.points);
+  REQUIRE(r.size.verdict.has_value());
+  CHECK(*r.size.verdict == Verdict::does_not_conform);
+  CHECK_THAT(r.size.reason, Contains("actual mating envelope 12.0060") && Contains("lower limit 12.0080"));
+  CHECK(*r.size.lower_verdict == Verdict::does_not_conform);
+  CHECK(*r.size.upper_verdict == Verdict::conforms);
+  // Two-point size 12.010 above an upper limit of 12.009 (the mating envelope is fine).
+  b.plan.size = SizeLimits{12.000, 12.009};
+  r = evaluate_bore(b.plan, b.points);
+  CHECK(*r.size.verdict == Verdict::does_not_conform);
+  CHECK_THAT(r.size.reason, Contains("largest two-point size 12.0100") && Contains("upper limit 12.0090"));
+  CHECK(r.size.reason.find("mating") == std::string::npos);
+  CHECK(*r.size.lower_verdict == Verdict::conforms);
+  CHECK(*r.size.upper_verdict == Verdict::does_not_conform);
+  // No limits: no verdict.
+  b.plan.size.reset();
+  r = evaluate_bore(b.plan, b.points);
+  CHECK_FALSE(r.size.verdict.has_value());
+  CHECK_FALSE(r.size.lower_verdict.has_value());
+}
+
+TEST_CASE("LMC: bonus from the minimum material envelope, boundary around the bore", "[bore_evaluation]") {
+  LobedBore b = tilted_bore();
+  b.plan.position = tolerance(0.040, MaterialCondition::lmc);
+  const BoreResult r = evaluate_bore(b.plan, b.points);
+  const TrueAxis zone = true_axis(b.plan.basic_location, Eigen::Vector3d::UnitZ());
+  REQUIRE(r.position.has_value());
+  // LMC 12.018 - minimum material envelope 12.014.
+  CHECK(r.position->bonus == Approx(12.018 - 2 * (b.radius + b.eps)).margin(agreement));
+  REQUIRE(r.virtual_condition.has_value());
+  CHECK(r.virtual_condition->boundary == Approx(12.018 + 0.040).margin(1e-15));
+  CHECK(r.virtual_condition->comparison == "<=");
+  // The smallest cylinder on the true-position axis containing every point.
+  CHECK(r.virtual_condition->clearance == Approx(2 * radial_extremes(b.points, zone).second).margin(1e-12));
+  CHECK(r.virtual_condition->verdict == Verdict::conforms);
+}
+
+TEST_CASE("perpendicularity at MMC alone: its boundary is free in location", "[bore_evaluation]") {
+  // The bore's axis wanders w = 62 sin(3e-4) = 0.0186 across the probed depth. A cylinder
+  // perpendicular to A inside it has, in the sections at both ends, its axis at least w/2 from
+  // one section's centre, and in that section the lobed profile r + eps cos(3 theta) (sampled
+  // every 15 degrees) lies within r + eps - (w/2) cos(7.5 deg) of it on the near side: its
+  // diameter is at most 2 (r + eps) - w cos(7.5 deg). Placed mid-wander it clears every point
+  // by r - eps - w/2: its diameter is at least 2 (r - eps) - w. (Geometry of the construction.)
+  const double wander = 62.0 * std::sin(3e-4);
+  for (double t : {0.002, 0.030}) {
+    LobedBore b = tilted_bore();
+    b.plan.position = tolerance(0.1);
+    b.plan.perpendicularity = tolerance(t, MaterialCondition::mmc);
+    b.plan.perpendicularity->datums = {{'A', MaterialBoundary::rmb}};
+    const BoreResult r = evaluate_bore(b.plan, b.points);
+    REQUIRE(r.perpendicularity.has_value());
+    CHECK(r.perpendicularity->bonus == Approx(2 * (b.radius - b.eps) - 12.000).margin(agreement));
+    REQUIRE(r.virtual_condition.has_value());
+    CHECK_FALSE(r.virtual_condition->on_true_position);
+    CHECK(r.virtual_condition->boundary == Approx(12.000 - t).margin(1e-15));
+    CHECK(r.virtual_condition->clearance == Approx(r.size.related_mating_envelope).margin(1e-15));
+    // Margin 1e-5: second-order terms (w^2 / 4r ~ 1.4e-5 is kept explicitly) and the 3e-4
+    // tilt of the section planes against A.
+    CHECK(r.size.related_mating_envelope <= 2 * (b.radius + b.eps) - wander * std::cos(7.5 * deg) +
+                                                wander * wander / (4 * (b.radius - b.eps)) + 1e-5);
+    CHECK(r.size.related_mating_envelope >= 2 * (b.radius - b.eps) - wander - 1e-5);
+    // 11.998 is above the upper bound 11.9956; 11.970 below the lower bound 11.9874.
+    CHECK(r.virtual_condition->verdict == (t < 0.01 ? Verdict::does_not_conform : Verdict::conforms));
+  }
+}
+
+TEST_CASE("moving the frame: re-evaluation equals evaluating the moved points", "[bore_evaluation]") {
+  // Independent path: transform the points into the moved frame and evaluate again.
+  LobedBore b = tilted_bore();
+  b.plan.depth_top = 0.0;
+  b.plan.depth_bottom = -64.0;
+  b.plan.position = tolerance(0.025, MaterialCondition::mmc);
+  const BoreResult r = evaluate_bore(b.plan, b.points);
+  FrameMotion motion;
+  motion.shift = {0.004, -0.003};
+  motion.rotation_rad = 2e-4;
+  const Eigen::Matrix3d rt =
+      Eigen::AngleAxisd(motion.rotation_rad, Eigen::Vector3d::UnitZ()).toRotationMatrix().transpose();
+  const Eigen::Matrix3Xd moved =
+      rt * (b.points.colwise() - Eigen::Vector3d(motion.shift.x(), motion.shift.y(), 0.0));
+  const BoreResult again = evaluate_bore(b.plan, moved);
+  const PositionResult p = position_after_frame_motion(r, b.plan, motion);
+  CHECK(p.value == Approx(again.position->value).margin(agreement));
+  CHECK((p.top.offset - again.position->top.offset).norm() < agreement);
+  CHECK((p.bottom.offset - again.position->bottom.offset).norm() < agreement);
+  CHECK(p.bonus == r.position->bonus);
+  // The identity motion changes nothing.
+  const PositionResult same = position_after_frame_motion(r, b.plan, FrameMotion{});
+  CHECK(same.value == Approx(r.position->value).margin(1e-15));
+  // Shifting the frame onto the axis' mouth removes the offset there.
+  FrameMotion onto;
+  onto.shift = r.position->top.offset;
+  CHECK(position_after_frame_motion(r, b.plan, onto).top.offset.norm() < 1e-12);
+}
+
+TEST_CASE("moved_to_frame equals evaluating the points in the other frame", "[bore_evaluation]") {
+  // The sensitivity study's shortcut (fits are invariant under rigid motions) against the
+  // direct path: move the points and evaluate again. A re-associated datum A differs by
+  // micro-radians and micrometres.
+  const Eigen::Matrix3d rotation =
+      (Eigen::AngleAxisd(2e-5, Eigen::Vector3d::UnitX()) * Eigen::AngleAxisd(-1e-5, Eigen::Vector3d::UnitY()) *
+       Eigen::AngleAxisd(3e-5, Eigen::Vector3d::UnitZ()))
+          .toRotationMatrix();
+  const Eigen::Vector3d translation(0.001, -0.002, 0.003);
+  for (BoreAxisMethod method : {BoreAxisMethod::mating_envelope, BoreAxisMethod::median_line}) {
+    LobedBore b = tilted_bore();
+    b.plan.axis = method;
+    b.plan.depth_top = 0.0;
+    b.plan.depth_bottom = -64.0;
+    b.plan.position = tolerance(0.025, MaterialCondition::mmc);
+    b.plan.perpendicularity = tolerance(0.015);
+    const BoreResult r = evaluate_bore(b.plan, b.points);
+    const BoreResult moved = moved_to_frame(r, b.plan, rotation, translation);
+    const Eigen::Matrix3Xd points = (rotation * b.points).colwise() + translation;
+    const BoreResult direct = evaluate_bore(b.plan, points);
+    CHECK(moved.position->value == Approx(direct.position->value).margin(1e-11));
+    CHECK((moved.position->bottom.offset - direct.position->bottom.offset).norm() < 1e-11);
+    CHECK(moved.perpendicularity->value == Approx(direct.perpendicularity->value).margin(1e-11));
+    CHECK(moved.tilt.angle_rad == Approx(direct.tilt.angle_rad).margin(1e-12));
+    CHECK(moved.position->bonus == Approx(direct.position->bonus).margin(1e-12));
+    // The probed extent is estimated from the axis: within the radius times the change of tilt.
+    CHECK(moved.probed_top == Approx(direct.probed_top).margin(6.1 * 3e-5));
+    // The motion really changed the figures.
+    CHECK(std::abs(moved.position->value - r.position->value) > 1e-4);
+  }
+}
+
+TEST_CASE("degenerate bores: FitError naming the bore", "[bore_evaluation]") {
+  PlanBore plan;
+  plan.id = "P9";
+  plan.position = tolerance(0.02);
+  Eigen::Matrix3Xd few(3, 4);
+  few << 1, 0, -1, 0, 0, 1, 0, -1, -1, -2, -3, -4;
+  CHECK_THROWS_WITH(evaluate_bore(plan, few), Contains("bore P9: "));
+  // All points in one cross-section.
+  Eigen::Matrix3Xd ring(3, 24);
+  for (int i = 0; i < 24; ++i) ring.col(i) << 5 * std::cos(i * pi / 12), 5 * std::sin(i * pi / 12), -3.0;
+  CHECK_THROWS_AS(evaluate_bore(plan, ring), FitError);
+  CHECK_THROWS_WITH(evaluate_bore(plan, ring), Contains("bore P9: "));
+  // A nominal direction parallel to A.
+  LobedBore b = tilted_bore();
+  b.plan.nominal_direction = Eigen::Vector3d::UnitX();
+  CHECK_THROWS_WITH(evaluate_bore(b.plan, b.points), Contains("bore P1") && Contains("parallel to datum plane A"));
+  // A median line over a depth range with no section in it.
+  b = tilted_bore();
+  b.plan.axis = BoreAxisMethod::median_line;
+  b.plan.position = tolerance(0.05);
+  b.plan.depth_top = -20.0;
+  b.plan.depth_bottom = -21.0;
+  CHECK_THROWS_WITH(evaluate_bore(b.plan, b.points), Contains("bore P1") && Contains("no section"));
+  // Non-finite coordinates.
+  b = tilted_bore();
+  b.points(1, 7) = std::numeric_limits<double>::quiet_NaN();
+  CHECK_THROWS_WITH(evaluate_bore(b.plan, b.points), Contains("bore P1") && Contains("non-finite"));
+}
+
+TEST_CASE("verdict names", "[bore_evaluation]") {
+  CHECK(verdict_name(Verdict::conforms) == "conforms");
+  CHECK(verdict_name(Verdict::does_not_conform) == "does not conform");
+}

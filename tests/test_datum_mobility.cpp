@@ -1,0 +1,421 @@
+// Datum mobility: the degrees of freedom a datum reference leaves (ASME Y14.5-2018 datum
+// feature shift at MMB and the simultaneous requirement; clause numbers from memory), and the
+// best frame motion for a pattern. References: patterns whose best motion is known by
+// symmetry or construction (a uniformly displaced pattern is re-centred by the shift that
+// undoes the displacement; a rotated pattern by the inverse rotation; a limited shift stops on
+// the disk's boundary along the displacement), and scipy.optimize.minimize (SLSQP, several
+// starts) on random patterns in tests/reference/crosscheck_evaluation.py, fed by the hidden
+// case "[mobility-cases]" below.
+
+#include <catch2/catch.hpp>
+
+#include <Eigen/Geometry>
+#include <cmath>
+#include <cstdlib>
+#include <fstream>
+#include <iomanip>
+#include <random>
+
+#include "cylzone/datum_mobility.hpp"
+#include "cylzone/errors.hpp"
+
+using namespace cylzone;
+using Catch::Matchers::Contains;
+
+namespace {
+
+constexpr double pi = 3.14159265358979323846;
+
+Eigen::Vector2d rotated(const Eigen::Vector2d& p, double angle) {
+  return Eigen::Rotation2Dd(angle) * p;
+}
+
+/// A perpendicular bore with a straight axis whose deviations at the top (h = 0) and bottom
+/// (h = -depth) are given in frame coordinates, as evaluate_bore would leave it.
+struct PatternBore {
+  PlanBore plan;
+  BoreResult result;
+};
+
+PatternBore straight_bore(const std::string& id, const Eigen::Vector2d& basic,
+                          const Eigen::Vector2d& top_xy, const Eigen::Vector2d& bottom_xy,
+                          double depth, double tolerance) {
+  PatternBore b;
+  b.plan.id = id;
+  b.plan.basic_location = basic;
+  PlanTolerance t;
+  t.tolerance = tolerance;
+  t.datums = {{'A', MaterialBoundary::rmb}, {'B', MaterialBoundary::mmb}};
+  b.plan.position = t;
+  b.result.id = id;
+  b.result.zone = ZoneFrame::at(basic, Eigen::Vector3d::UnitZ());
+  b.result.axis.point = Eigen::Vector3d(top_xy.x(), top_xy.y(), 0.0);
+  b.result.axis.direction =
+      Eigen::Vector3d(top_xy.x() - bottom_xy.x(), top_xy.y() - bottom_xy.y(), depth).normalized();
+  b.result.axis_in_zone = StraightAxis::from_axis(b.result.axis, b.result.zone);
+  PositionResult p;
+  p.spec = t;
+  p.range_top = 0.0;
+  p.range_bottom = -depth;
+  p.allowed = tolerance;
+  b.result.position = p;
+  b.result.position = position_after_frame_motion(b.result, b.plan, FrameMotion{});
+  return b;
+}
+
+struct Pattern {
+  std::vector<PatternBore> bores;
+  std::vector<const BoreResult*> results() const {
+    std::vector<const BoreResult*> r;
+    for (const auto& b : bores) r.push_back(&b.result);
+    return r;
+  }
+  std::vector<const PlanBore*> plans() const {
+    std::vector<const PlanBore*> r;
+    for (const auto& b : bores) r.push_back(&b.plan);
+    return r;
+  }
+  MobilityResult best(const FrameMobility& m) const { return best_frame_motion(results(), plans(), m); }
+};
+
+/// The four-bore pattern at (+-30, +-20) with every axis moved by `motion` of the part: its
+/// points p become R(angle) p + shift. The best frame motion then is the same (angle, shift).
+Pattern moved_pattern(double angle, const Eigen::Vector2d& shift, double tolerance = 0.025) {
+  Pattern pattern;
+  int k = 0;
+  for (const Eigen::Vector2d& basic : {Eigen::Vector2d(30, 20), Eigen::Vector2d(-30, 20),
+                                      Eigen::Vector2d(-30, -20), Eigen::Vector2d(30, -20)}) {
+    const Eigen::Vector2d at = rotated(basic, angle) + shift;
+    pattern.bores.push_back(straight_bore("H" + std::to_string(++k), basic, at, at, 40.0, tolerance));
+  }
+  return pattern;
+}
+
+SizeDatumResult size_datum(char label, FeatureKind kind, double mating, double mmb) {
+  SizeDatumResult d;
+  d.label = label;
+  d.kind = kind;
+  d.mating_size = mating;
+  d.mmb_size = mmb;
+  d.size = SizeLimits{mmb, mmb + 0.021};
+  d.shift_allowance = std::abs(mating - mmb) / 2.0;
+  return d;
+}
+
+std::vector<DatumReference> refs(std::initializer_list<DatumReference> list) { return list; }
+
+}  // namespace
+
+TEST_CASE("mobility of a datum reference", "[datum_mobility]") {
+  DatumFrameResult frame;
+  // A frame turned and moved against the measurement coordinates, so C's location must be
+  // converted.
+  frame.frame.rotation = Eigen::AngleAxisd(0.3, Eigen::Vector3d(0.1, 0.2, 1.0).normalized()).toRotationMatrix();
+  frame.frame.origin = Eigen::Vector3d(100.0, -50.0, 20.0);
+  frame.b = size_datum('B', FeatureKind::bore, 20.012, 20.000);
+  frame.c_feature = size_datum('C', FeatureKind::bore, 8.010, 8.000);
+  frame.c_feature->axis_on_a = frame.frame.point_to_measurement(Eigen::Vector3d(70.0, 0.0, 0.0));
+  const auto A = DatumReference{'A', MaterialBoundary::rmb};
+  const auto B = DatumReference{'B', MaterialBoundary::rmb};
+  const auto BM = DatumReference{'B', MaterialBoundary::mmb};
+  const auto C = DatumReference{'C', MaterialBoundary::rmb};
+  const auto CM = DatumReference{'C', MaterialBoundary::mmb};
+
+  FrameMobility m = mobility_of(refs({A}), frame);
+  CHECK(m.translation_free);
+  CHECK(m.rotation_free);
+  CHECK(m.any());
+  CHECK_THAT(m.description(), Contains("no datum B") && Contains("no datum C"));
+
+  m = mobility_of(refs({A, B}), frame);
+  CHECK_FALSE(m.translation_free);
+  CHECK(m.rotation_free);
+  CHECK(m.shift_allowance == 0.0);
+
+  // B at MMB: (20.012 - 20.000) / 2.
+  m = mobility_of(refs({A, BM}), frame);
+  CHECK(m.shift_allowance == Approx(0.006).margin(1e-15));
+  CHECK(m.rotation_free);
+  CHECK_THAT(m.description(), Contains("datum B at MMB: shift up to 0.0060 mm"));
+
+  // C at RMB while B shifts: rotation follows C; C's location in frame coordinates.
+  m = mobility_of(refs({A, BM, C}), frame);
+  CHECK(m.rotation_follows_c);
+  CHECK_FALSE(m.rotation_free);
+  CHECK((m.c_location - Eigen::Vector2d(70.0, 0.0)).norm() < 1e-12);
+  CHECK_THAT(m.description(), Contains("rotation follows datum C"));
+
+  // C at MMB: its own allowance (8.010 - 8.000) / 2.
+  m = mobility_of(refs({A, B, CM}), frame);
+  CHECK(m.c_shift_allowance == Approx(0.005).margin(1e-15));
+  CHECK_FALSE(m.rotation_follows_c);
+  CHECK(m.shift_allowance == 0.0);
+
+  // Fully fixed.
+  m = mobility_of(refs({A, B, C}), frame);
+  CHECK_FALSE(m.any());
+  CHECK(m.description() == "frame fully fixed");
+
+  // A datum bore smaller than its MMB violates it: no shift.
+  DatumFrameResult small = frame;
+  small.b = size_datum('B', FeatureKind::bore, 19.998, 20.000);
+  CHECK(mobility_of(refs({A, BM}), small).shift_allowance == 0.0);
+  // A datum pin: MMB - mating.
+  small.b = size_datum('B', FeatureKind::pin, 19.990, 20.000);
+  CHECK(mobility_of(refs({A, BM}), small).shift_allowance == Approx(0.005).margin(1e-15));
+
+  // LMB is not applied, and says so.
+  m = mobility_of(refs({A, DatumReference{'B', MaterialBoundary::lmb}}), frame);
+  CHECK(m.shift_allowance == 0.0);
+  CHECK_THAT(m.description(), Contains("LMB"));
+
+  // C as a plane does not follow a shift (its direction alone clocks the frame).
+  DatumFrameResult plane_c = frame;
+  plane_c.c_feature.reset();
+  plane_c.c_plane = ClockingPlaneResult{};
+  m = mobility_of(refs({A, BM, C}), plane_c);
+  CHECK_FALSE(m.rotation_follows_c);
+  CHECK_FALSE(m.rotation_free);
+
+  // A reference to a datum the frame lacks.
+  DatumFrameResult no_b = frame;
+  no_b.b.reset();
+  CHECK_THROWS_AS(mobility_of(refs({A, B}), no_b), FitError);
+}
+
+TEST_CASE("a uniformly displaced pattern is re-centred by the datum shift", "[datum_mobility]") {
+  const Eigen::Vector2d v(0.004, -0.003);  // |v| = 0.005 < 0.006
+  const Pattern pattern = moved_pattern(0.0, v);
+  for (const auto& b : pattern.bores) REQUIRE(b.result.position->value == Approx(0.010).margin(1e-12));
+  FrameMobility m;
+  m.shift_allowance = 0.006;
+  const MobilityResult r = pattern.best(m);
+  CHECK((r.motion.shift - v).norm() < 1e-11);
+  CHECK(r.motion.rotation_rad == 0.0);
+  CHECK(r.worst_ratio < 1e-10);
+  for (const PositionResult& p : r.positions) {
+    CHECK(p.value < 1e-11);
+    CHECK(p.verdict == Verdict::conforms);
+  }
+}
+
+TEST_CASE("a shift beyond the allowance stops on the allowance's boundary", "[datum_mobility]") {
+  const Eigen::Vector2d v(0.010, 0.005);
+  const Pattern pattern = moved_pattern(0.0, v, 0.020);
+  FrameMobility m;
+  m.shift_allowance = 0.006;
+  const MobilityResult r = pattern.best(m);
+  // On the boundary the worst ratio is flat to first order along the circle, so the shift is
+  // known to about the square root of the ratio's tolerance; the ratio itself to 1e-12.
+  CHECK((r.motion.shift - 0.006 * v.normalized()).norm() < 1e-9);
+  CHECK(r.motion.shift.norm() <= 0.006 * (1 + 1e-15));
+  const double remaining = 2.0 * (v.norm() - 0.006);
+  for (const PositionResult& p : r.positions) CHECK(p.value == Approx(remaining).margin(1e-12));
+  CHECK(r.worst_ratio == Approx(remaining / 0.020).margin(1e-12));
+}
+
+TEST_CASE("with rotation free, a rotated pattern is turned back", "[datum_mobility]") {
+  const double phi = 1.5e-4;
+  const Pattern pattern = moved_pattern(phi, Eigen::Vector2d::Zero());
+  FrameMobility m;
+  m.rotation_free = true;
+  const MobilityResult r = pattern.best(m);
+  CHECK(r.motion.rotation_rad == Approx(phi).margin(1e-12));
+  CHECK(r.motion.shift.norm() == 0.0);
+  for (const PositionResult& p : r.positions) CHECK(p.value < 1e-11);
+}
+
+TEST_CASE("with A alone, rotation and translation are both recovered", "[datum_mobility]") {
+  const double phi = -2.2e-4;
+  const Eigen::Vector2d v(-0.007, 0.011);
+  const Pattern pattern = moved_pattern(phi, v);
+  FrameMobility m;
+  m.translation_free = true;
+  m.rotation_free = true;
+  const MobilityResult r = pattern.best(m);
+  CHECK(r.motion.rotation_rad == Approx(phi).margin(1e-12));
+  CHECK((r.motion.shift - v).norm() < 1e-11);
+  CHECK(r.worst_ratio < 1e-10);
+}
+
+TEST_CASE("rotation follows C at RMB while the frame shifts", "[datum_mobility]") {
+  // The part moved by a motion that keeps C on its basic ray: s0 in the disk, theta0 the angle
+  // that turns C's direction to c - s0. The frame can follow exactly.
+  const Eigen::Vector2d c(70.0, 10.0);
+  const Eigen::Vector2d s0(0.003, 0.004);
+  const double theta0 = std::atan2((c - s0).y(), (c - s0).x()) - std::atan2(c.y(), c.x());
+  const Pattern pattern = moved_pattern(theta0, s0);
+  FrameMobility m;
+  m.shift_allowance = 0.006;
+  m.rotation_follows_c = true;
+  m.c_location = c;
+  const MobilityResult r = pattern.best(m);
+  CHECK((r.motion.shift - s0).norm() < 1e-11);
+  CHECK(r.motion.rotation_rad == Approx(theta0).margin(1e-12));
+  CHECK(r.worst_ratio < 1e-10);
+  // The motion found satisfies the constraint.
+  const Eigen::Vector2d moved_c = c - r.motion.shift;
+  CHECK(std::atan2(moved_c.y(), moved_c.x()) - std::atan2(c.y(), c.x()) ==
+        Approx(r.motion.rotation_rad).margin(1e-15));
+}
+
+TEST_CASE("C at MMB limits the rotation to its own allowance", "[datum_mobility]") {
+  // B at RMB (no shift), C at 60 mm with 0.003 of room: |sin theta| <= 0.003 / 60. A pattern
+  // rotated by more stops at the limit, on the side of the rotation.
+  const Eigen::Vector2d c(60.0, 0.0);
+  const double limit = std::asin(0.003 / 60.0);
+  const Pattern pattern = moved_pattern(3 * limit, Eigen::Vector2d::Zero());
+  FrameMobility m;
+  m.c_shift_allowance = 0.003;
+  m.c_location = c;
+  const MobilityResult r = pattern.best(m);
+  CHECK(r.motion.rotation_rad == Approx(limit).margin(1e-12));
+  CHECK(r.motion.shift.norm() == 0.0);
+  // Within the limit the pattern is turned back exactly.
+  const MobilityResult inside = moved_pattern(0.5 * limit, Eigen::Vector2d::Zero()).best(m);
+  CHECK(inside.motion.rotation_rad == Approx(0.5 * limit).margin(1e-12));
+  CHECK(inside.worst_ratio < 1e-10);
+}
+
+TEST_CASE("a median-line bore moves with the pattern", "[datum_mobility]") {
+  const Eigen::Vector2d v(-0.002, 0.003);
+  Pattern pattern = moved_pattern(0.0, v);
+  // Replace the first bore by a bent median line displaced by the same v.
+  PatternBore& b = pattern.bores.front();
+  b.result.axis_method = BoreAxisMethod::median_line;
+  b.result.position->section_centres.clear();
+  for (int k = 0; k < 8; ++k) {
+    const double h = -5.0 * k;
+    const double bend = 0.004 * std::sin(0.1 * k);
+    b.result.position->section_centres.push_back({h, v + Eigen::Vector2d(bend, -0.5 * bend)});
+  }
+  b.result.position = position_after_frame_motion(b.result, b.plan, FrameMotion{});
+  FrameMobility m;
+  m.shift_allowance = 0.01;
+  const MobilityResult r = pattern.best(m);
+  // The straight bores want exactly v; the bent one's centres spread around v + bend: the best
+  // shift balances them, and the worst ratio can only be lower than with s = v.
+  FrameMotion at_v;
+  at_v.shift = v;
+  double worst_at_v = 0.0;
+  for (const auto& pb : pattern.bores) {
+    const PositionResult p = position_after_frame_motion(pb.result, pb.plan, at_v);
+    worst_at_v = std::max(worst_at_v, p.value / p.allowed);
+  }
+  CHECK(r.worst_ratio <= worst_at_v + 1e-10);
+  CHECK(r.positions.front().section_centres.size() == 8);
+}
+
+TEST_CASE("the best motion is never worse than the unmoved frame, nor than a fine grid",
+          "[datum_mobility]") {
+  // Reference: exhaustive search on a grid of the allowed motions (shift disk x rotation).
+  std::mt19937_64 rng(404);
+  std::normal_distribution<double> g(0.0, 0.006);
+  std::uniform_real_distribution<double> place(-60.0, 60.0);
+  Pattern pattern;
+  for (int k = 0; k < 5; ++k) {
+    const Eigen::Vector2d basic(place(rng), place(rng));
+    pattern.bores.push_back(straight_bore("R" + std::to_string(k), basic,
+                                          basic + Eigen::Vector2d(g(rng), g(rng)),
+                                          basic + Eigen::Vector2d(g(rng), g(rng)), 50.0, 0.03));
+  }
+  FrameMobility m;
+  m.shift_allowance = 0.005;
+  m.rotation_free = true;
+  const MobilityResult r = pattern.best(m);
+  double unmoved = 0.0;
+  for (const auto& b : pattern.bores) unmoved = std::max(unmoved, b.result.position->value / 0.03);
+  CHECK(r.worst_ratio <= unmoved + 1e-12);
+  CHECK(r.motion.shift.norm() <= 0.005 + 1e-12);
+  double grid_best = 1e300;
+  for (int i = -12; i <= 12; ++i)
+    for (int j = -12; j <= 12; ++j) {
+      FrameMotion motion;
+      motion.shift = Eigen::Vector2d(i, j) * (0.005 / 12.0);
+      if (motion.shift.norm() > 0.005) continue;
+      for (int k = -10; k <= 10; ++k) {
+        motion.rotation_rad = r.motion.rotation_rad + k * 2e-6;
+        double worst = 0.0;
+        for (const auto& b : pattern.bores) {
+          const PositionResult p = position_after_frame_motion(b.result, b.plan, motion);
+          worst = std::max(worst, p.value / p.allowed);
+        }
+        grid_best = std::min(grid_best, worst);
+      }
+    }
+  CHECK(r.worst_ratio <= grid_best + 1e-10);
+  // The reported ratio is the positions' own.
+  double worst = 0.0;
+  for (const PositionResult& p : r.positions) worst = std::max(worst, p.value / p.allowed);
+  CHECK(r.worst_ratio == worst);
+}
+
+TEST_CASE("nothing free: the unmoved frame", "[datum_mobility]") {
+  const Pattern pattern = moved_pattern(0.0, Eigen::Vector2d(0.004, 0.0));
+  const MobilityResult r = pattern.best(FrameMobility{});
+  CHECK(r.motion.shift.norm() == 0.0);
+  CHECK(r.motion.rotation_rad == 0.0);
+  CHECK(r.worst_ratio == Approx(0.008 / 0.025).margin(1e-12));
+  // Inputs must be parallel and evaluated.
+  std::vector<const PlanBore*> one_plan = {&pattern.bores[0].plan};
+  CHECK_THROWS_AS(best_frame_motion(pattern.results(), one_plan, FrameMobility{}), FitError);
+  PatternBore unevaluated = pattern.bores[0];
+  unevaluated.result.position.reset();
+  FrameMobility m;
+  m.shift_allowance = 0.01;
+  CHECK_THROWS_WITH(best_frame_motion({&unevaluated.result}, {&unevaluated.plan}, m), Contains("H1"));
+}
+
+// Writes random patterns and cylzone's best motion for tests/reference/crosscheck_evaluation.py.
+// Hidden: run by ctest as its own test (evaluation_mobility_cases) with the output path in
+// CYLZONE_MOBILITY_CASES.
+TEST_CASE("write datum mobility cases for the scipy cross-check", "[.][mobility-cases]") {
+  const char* path = std::getenv("CYLZONE_MOBILITY_CASES");
+  REQUIRE(path != nullptr);
+  std::ofstream out(path);
+  REQUIRE(out.good());
+  out << std::setprecision(17);
+  std::mt19937_64 rng(1234567);
+  std::normal_distribution<double> g(0.0, 1.0);
+  std::uniform_real_distribution<double> unit(0.0, 1.0);
+  const char* kinds[] = {"disk", "disk+rot", "rot", "free", "follow", "cmmb"};
+  int written = 0;
+  for (int trial = 0; trial < 24; ++trial) {
+    const std::string kind = kinds[trial % 6];
+    FrameMobility m;
+    m.shift_allowance = 0.003 + 0.007 * unit(rng);
+    if (kind == "rot" || kind == "free") m.shift_allowance = 0.0;
+    m.rotation_free = kind == "disk+rot" || kind == "rot" || kind == "free";
+    m.translation_free = kind == "free";
+    m.c_location = Eigen::Vector2d(50.0 + 30.0 * unit(rng), 20.0 * g(rng));
+    m.rotation_follows_c = kind == "follow";
+    if (kind == "cmmb") m.c_shift_allowance = 0.002 + 0.004 * unit(rng);
+    Pattern pattern;
+    const int n = 3 + trial % 4;
+    for (int k = 0; k < n; ++k) {
+      const Eigen::Vector2d basic(60.0 * (2 * unit(rng) - 1), 60.0 * (2 * unit(rng) - 1));
+      const Eigen::Vector2d top = basic + 0.008 * Eigen::Vector2d(g(rng), g(rng));
+      const Eigen::Vector2d bottom = basic + 0.008 * Eigen::Vector2d(g(rng), g(rng));
+      pattern.bores.push_back(straight_bore("B" + std::to_string(k), basic, top, bottom,
+                                            20.0 + 60.0 * unit(rng), 0.02 + 0.02 * unit(rng)));
+    }
+    const MobilityResult r = pattern.best(m);
+    out << "case " << kind << ' ' << n << '\n';
+    out << "mobility " << m.translation_free << ' ' << m.rotation_free << ' ' << m.shift_allowance
+        << ' ' << m.rotation_follows_c << ' ' << m.c_location.x() << ' ' << m.c_location.y() << ' '
+        << m.c_shift_allowance << '\n';
+    for (const auto& b : pattern.bores) {
+      const PositionResult& p = *b.result.position;
+      const AxisDeviation top = b.result.axis_in_zone.at(p.range_top);
+      const AxisDeviation bottom = b.result.axis_in_zone.at(p.range_bottom);
+      out << "bore " << b.plan.basic_location.x() << ' ' << b.plan.basic_location.y() << ' '
+          << p.allowed << ' ' << p.range_top << ' ' << p.range_bottom << ' ' << top.offset.x() << ' '
+          << top.offset.y() << ' ' << bottom.offset.x() << ' ' << bottom.offset.y() << '\n';
+    }
+    out << "result " << r.motion.shift.x() << ' ' << r.motion.shift.y() << ' '
+        << r.motion.rotation_rad << ' ' << r.worst_ratio << '\n';
+    ++written;
+  }
+  REQUIRE(out.good());
+  CHECK(written == 24);
+}

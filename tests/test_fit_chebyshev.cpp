@@ -1,0 +1,676 @@
+// Chebyshev (minimum-zone) and mating-envelope fits, checked against point sets whose optimum is
+// known in closed form:
+//  * three-lobed circles and cylinders (tests/support/reference_data.hpp; Forbes & Minh,
+//    Int. J. Metrol. Qual. Eng. 3(3), 2012): the ideal element is at once the minimum-zone
+//    (width 2 eps), maximum-inscribed (r - eps) and minimum-circumscribed (r + eps) element,
+//    by the Chebyshev alternation property (6 alternating extremes per section);
+//  * plane and line sets built from the Karush-Kuhn-Tucker conditions of the linear programme
+//    (common practice): contacts at +-h whose gradients balance with positive multipliers, all
+//    other points strictly inside the zone.
+// To make every fit travel from its least-squares start, points strictly inside the ideal zone
+// are added on one side: they move the least-squares element but cannot change a minimax
+// optimum (a superset cannot have a smaller minimax value, and the ideal element still attains
+// it). Agreement is required to 1e-9 mm.
+#include <Eigen/Geometry>
+#include <catch2/catch.hpp>
+#include <cmath>
+#include <functional>
+#include <random>
+#include <regex>
+#include <string>
+
+#include "cylzone/errors.hpp"
+#include "cylzone/fit_circle.hpp"
+#include "cylzone/fit_cylinder.hpp"
+#include "cylzone/fit_line.hpp"
+#include "cylzone/fit_plane.hpp"
+#include "detail/chebyshev.hpp"
+#include "detail/fit_support.hpp"
+#include "reference_data.hpp"
+
+using namespace cylzone;
+using cylzone::testing::direction_from_angles;
+using cylzone::testing::make_circle_reference;
+using cylzone::testing::make_cylinder_reference;
+using cylzone::testing::make_lobed_cylinder;
+using cylzone::testing::ReferenceSet;
+
+namespace {
+
+constexpr double pi = 3.14159265358979323846;
+constexpr double agreement = 1e-9;  // mm
+
+// Orthonormal (u, v) perpendicular to w, written here so the checks share no code with the
+// library's frame helpers.
+void perpendicular_pair(const Eigen::Vector3d& w, Eigen::Vector3d& u, Eigen::Vector3d& v) {
+  const Eigen::Vector3d n = w.normalized();
+  const Eigen::Vector3d seed =
+      std::abs(n.x()) < 0.6 ? Eigen::Vector3d::UnitX() : Eigen::Vector3d::UnitY();
+  u = n.cross(seed).normalized();
+  v = n.cross(u);
+}
+
+double distance_to_line(const Eigen::Vector3d& p, const Axis& line) {
+  return (p - line.point).cross(line.direction.normalized()).norm();
+}
+
+// Largest distance of the fitted axis from the ideal one over the ideal axis' span [t0, t1].
+double axis_separation(const Axis& fitted, const Axis& ideal, double t0, double t1) {
+  const Eigen::Vector3d d = ideal.direction.normalized();
+  double worst = 0.0;
+  for (double t : {t0, t1}) {
+    const Eigen::Vector3d on_ideal = ideal.point + t * d;
+    // The fitted axis' point at the same station.
+    const Eigen::Vector3d f = fitted.direction.normalized();
+    const double s = (on_ideal - fitted.point).dot(f);
+    worst = std::max(worst, (fitted.point + s * f - on_ideal).norm());
+  }
+  return worst;
+}
+
+double sine_between(const Eigen::Vector3d& a, const Eigen::Vector3d& b) {
+  return a.normalized().cross(b.normalized()).norm();
+}
+
+// The three objectives, to be minimised, from distances.
+double objective_of(FitMethod method, const Eigen::VectorXd& d) {
+  switch (method) {
+    case FitMethod::minimum_zone: return d.maxCoeff() - d.minCoeff();
+    case FitMethod::maximum_inscribed: return -d.minCoeff();
+    case FitMethod::minimum_circumscribed: return d.maxCoeff();
+    case FitMethod::least_squares: break;
+  }
+  return 0.0;
+}
+
+Eigen::VectorXd distances_to_axis(const Eigen::Matrix3Xd& points, const Axis& axis) {
+  Eigen::VectorXd d(points.cols());
+  for (Eigen::Index i = 0; i < points.cols(); ++i) d(i) = distance_to_line(points.col(i), axis);
+  return d;
+}
+
+// In-plane distances from the centre of a circle with the given normal.
+Eigen::VectorXd distances_in_plane(const Eigen::Matrix3Xd& points, const Eigen::Vector3d& centre,
+                                   const Eigen::Vector3d& normal) {
+  return distances_to_axis(points, Axis{centre, normal});
+}
+
+// Direct-search certificate, independent of the linear programme: no element displaced by
+// `step` in any of `trials` random directions is better than the fitted one.
+void require_no_better_neighbour(
+    const std::function<double(const Eigen::VectorXd&)>& objective_at, int parameters,
+    double step, std::uint64_t seed) {
+  std::mt19937_64 rng(seed);
+  std::normal_distribution<double> normal(0.0, 1.0);
+  const double at_fit = objective_at(Eigen::VectorXd::Zero(parameters));
+  for (int trial = 0; trial < 64; ++trial) {
+    // Plain loops: GCC 12 reports a spurious -Warray-bounds on Eigen's vectorised norm of a
+    // two-element dynamic vector here.
+    Eigen::VectorXd x(parameters);
+    double length2 = 0.0;
+    for (int k = 0; k < parameters; ++k) {
+      x(k) = normal(rng);
+      length2 += x(k) * x(k);
+    }
+    for (int k = 0; k < parameters; ++k) x(k) *= step / std::sqrt(length2);
+    CHECK(objective_at(x) >= at_fit - 1e-12);
+  }
+}
+
+// Points strictly inside the ideal zone (deviation `fraction` * eps, |fraction| < 1), on an arc
+// [a0, a1] degrees and axial stations [t0, t1] of the ideal cylinder (t0 == t1: circle).
+void append_inside_zone(Eigen::Matrix3Xd& points, const Axis& axis, double radius, double eps,
+                        double fraction, double a0, double a1, double t0, double t1, int count) {
+  Eigen::Vector3d u, v;
+  const Eigen::Vector3d d = axis.direction.normalized();
+  perpendicular_pair(d, u, v);
+  const Eigen::Index old = points.cols();
+  points.conservativeResize(3, old + count);
+  for (int k = 0; k < count; ++k) {
+    const double s = count > 1 ? double(k) / (count - 1) : 0.0;
+    const double a = (a0 + (a1 - a0) * s) * pi / 180.0;
+    const double t = t0 + (t1 - t0) * std::fmod(s * 7.0, 1.0);
+    points.col(old + k) =
+        axis.point + t * d + (radius + fraction * eps) * (std::cos(a) * u + std::sin(a) * v);
+  }
+}
+
+std::string first_number_after(const std::string& text, const std::string& lead) {
+  std::smatch m;
+  const std::regex pattern(lead + " ([0-9.]+)");
+  return std::regex_search(text, m, pattern) ? m[1].str() : std::string();
+}
+
+}  // namespace
+
+// ------------------------------------------------------------------ circles
+
+TEST_CASE("three-lobed circle: minimum zone, inscribed and circumscribed are known",
+          "[chebyshev][circle]") {
+  // Lobed-set shortcut (Forbes & Minh 2012) plus the alternation property: 3 outer and 3 inner
+  // contacts alternating round the circle.
+  struct Case {
+    const char* name;
+    Axis axis;
+  };
+  const Case cases[] = {
+      {"tilted, off the origin", Axis{{12.0, -7.5, 3.25}, direction_from_angles(35.0, 70.0)}},
+      {"far from the origin (metres)",
+       Axis{{1500.0, -2300.0, 800.0}, direction_from_angles(80.0, -20.0)}},
+  };
+  const double r = 12.5, eps = 0.004;
+  for (const Case& c : cases) {
+    SECTION(c.name) {
+      const ReferenceSet lobed = make_lobed_cylinder(c.axis, r, 0.0, 0.0, 1, 36, eps, 10.0);
+      Eigen::Matrix3Xd points = lobed.points;
+      append_inside_zone(points, c.axis, r, eps, 0.8, 0.0, 50.0, 0.0, 0.0, 12);
+      const CircleFit ls = fit_circle_least_squares(points);
+      // The start is genuinely displaced, so each fit has to move.
+      REQUIRE((ls.centre - c.axis.point).norm() > 1e-4);
+
+      const CircleFit mz = fit_circle_minimum_zone(points);
+      CHECK(mz.summary.method == FitMethod::minimum_zone);
+      CHECK(mz.summary.status == FitStatus::converged);
+      CHECK(mz.residuals.form == Approx(2.0 * eps).margin(agreement));
+      CHECK(mz.radius == Approx(r).margin(agreement));
+      CHECK((mz.centre - c.axis.point).norm() < agreement);
+      CHECK(sine_between(mz.normal, c.axis.direction) < 1e-12);
+      CHECK(mz.covariance.matrix.size() == 0);
+
+      const CircleFit mi = fit_circle_maximum_inscribed(points);
+      CHECK(mi.summary.method == FitMethod::maximum_inscribed);
+      CHECK(mi.radius == Approx(r - eps).margin(agreement));
+      CHECK((mi.centre - c.axis.point).norm() < agreement);
+      CHECK(mi.residuals.values.minCoeff() == Approx(0.0).margin(1e-12));
+
+      const CircleFit mc = fit_circle_minimum_circumscribed(points);
+      CHECK(mc.summary.method == FitMethod::minimum_circumscribed);
+      CHECK(mc.radius == Approx(r + eps).margin(agreement));
+      CHECK((mc.centre - c.axis.point).norm() < agreement);
+      CHECK(mc.residuals.values.maxCoeff() == Approx(0.0).margin(1e-12));
+      CHECK(mc.diameter() == Approx(2.0 * (r + eps)).margin(2.0 * agreement));
+    }
+  }
+}
+
+TEST_CASE("smallest circle on two diametral points (an optimum that is not an LP vertex)",
+          "[chebyshev][circle]") {
+  // Elementary geometry: when every other point is strictly inside the circle on the segment
+  // of two points as diameter, that circle is the smallest enclosing one. Only two contacts
+  // for three unknowns: the objective is flat to first order along the common tangent, so
+  // objective comparisons alone place the centre only to ~sqrt(rounding * r) (~1e-7 mm); the
+  // Newton refinement on the contacts must reach the exact midpoint.
+  const Eigen::Vector3d centre(40.0, 25.0, -10.0);
+  const double r = 8.0;
+  Eigen::Matrix3Xd points(3, 26);
+  points.col(0) = centre + Eigen::Vector3d(r, 0.0, 0.0);
+  points.col(1) = centre - Eigen::Vector3d(r, 0.0, 0.0);
+  for (int k = 0; k < 24; ++k) {  // an offset ring inside: moves the least-squares centre
+    const double a = 2.0 * pi * k / 24.0;
+    points.col(2 + k) = centre + Eigen::Vector3d(0.3 + 7.2 * std::cos(a), 0.2 + 7.2 * std::sin(a), 0.0);
+  }
+  const CircleFit mc = fit_circle_minimum_circumscribed(points);
+  CHECK(mc.summary.status == FitStatus::converged);
+  CHECK(mc.radius == Approx(r).margin(agreement));
+  CHECK((mc.centre - centre).norm() < agreement);
+}
+
+TEST_CASE("Chebyshev circles on asymmetric noise beat the least-squares circle",
+          "[chebyshev][circle]") {
+  // Skewed (one-sided, exponential) radial deviations: the least-squares circle is pulled by
+  // the mass of the points, the Chebyshev circles are not. Each must be at least as good as
+  // the least-squares circle for its own objective, here strictly better, and no neighbour
+  // found by direct search may be better.
+  std::mt19937_64 rng(20240611);
+  std::exponential_distribution<double> spike(1.0);
+  const Eigen::Vector3d centre(-3.0, 8.0, 2.0), normal = direction_from_angles(20.0, 200.0);
+  Eigen::Vector3d u, v;
+  perpendicular_pair(normal, u, v);
+  const double r = 20.0;
+  const int n = 90;
+  Eigen::Matrix3Xd points(3, n);
+  for (int i = 0; i < n; ++i) {
+    const double a = 2.0 * pi * (i + 0.3 * std::sin(i)) / n;
+    const double e = 0.002 * spike(rng) * (a < 2.0 ? 3.0 : 1.0);
+    points.col(i) = centre + (r + e) * (std::cos(a) * u + std::sin(a) * v);
+  }
+  const CircleFit ls = fit_circle_least_squares(points);
+  const Eigen::VectorXd ls_d = distances_in_plane(points, ls.centre, ls.normal);
+
+  for (FitMethod method : {FitMethod::minimum_zone, FitMethod::maximum_inscribed,
+                           FitMethod::minimum_circumscribed}) {
+    const CircleFit fit = method == FitMethod::minimum_zone ? fit_circle_minimum_zone(points)
+                          : method == FitMethod::maximum_inscribed
+                              ? fit_circle_maximum_inscribed(points)
+                              : fit_circle_minimum_circumscribed(points);
+    INFO(method_name(method));
+    CHECK(fit.summary.status == FitStatus::converged);
+    const Eigen::VectorXd d = distances_in_plane(points, fit.centre, fit.normal);
+    CHECK(objective_of(method, d) < objective_of(method, ls_d) - 1e-5);
+    // Reported values are the exact values at the reported centre.
+    CHECK(fit.residuals.form == Approx(d.maxCoeff() - d.minCoeff()).margin(1e-12));
+    Eigen::Vector3d pu, pv;
+    perpendicular_pair(fit.normal, pu, pv);
+    for (double step : {1e-3, 1e-6})
+      require_no_better_neighbour(
+          [&](const Eigen::VectorXd& x) {
+            return objective_of(method, distances_in_plane(
+                                            points, fit.centre + x(0) * pu + x(1) * pv,
+                                            fit.normal));
+          },
+          2, step, 99);
+  }
+}
+
+TEST_CASE("maximum-inscribed circle on a short arc is unbounded", "[chebyshev][circle]") {
+  const ReferenceSet arc = make_circle_reference({5.0, 5.0, 0.0}, Eigen::Vector3d::UnitZ(), 10.0,
+                                                 0.0, 90.0, 30, 0.001, 3);
+  try {
+    fit_circle_maximum_inscribed(arc.points);
+    FAIL("no FitError for a 90 degree arc");
+  } catch (const FitError& e) {
+    const std::string what = e.what();
+    INFO(what);
+    CHECK_THAT(what, Catch::Contains("unbounded"));
+    const std::string covered = first_number_after(what, "cover only");
+    REQUIRE(!covered.empty());
+    CHECK(std::stod(covered) == Approx(90.0).margin(1.0));
+  }
+  // The other two are bounded on the same arc.
+  CHECK_NOTHROW(fit_circle_minimum_circumscribed(arc.points));
+}
+
+TEST_CASE("the engine stops a maximum-inscribed iteration that leaves the points' hull",
+          "[chebyshev][engine]") {
+  // Started at the centre of a 90 degree arc (outside the points' hull), every distance grows
+  // as the centre recedes: the engine must report unbounded rather than iterate to a huge
+  // circle. (The public fits refuse such arcs before iterating; this is the safety net.)
+  const ReferenceSet arc = make_circle_reference(Eigen::Vector3d::Zero(), Eigen::Vector3d::UnitZ(),
+                                                 10.0, 0.0, 90.0, 30, 0.001, 3);
+  const Eigen::Matrix2Xd uv = arc.points.topRows<2>();
+  const double scale = detail::planar_scale(uv);
+  detail::CircleZoneModel model(uv, Eigen::Vector2d::Zero());
+  detail::ZoneOptions options;
+  options.scale = scale;
+  options.location_limit = scale;
+  const detail::ZoneSummary summary =
+      detail::solve_zone(model, detail::ZoneObjective::maximum_inscribed, options);
+  CHECK(summary.status == detail::ZoneStatus::unbounded);
+  CHECK(model.location_offset() > scale);
+  CHECK(summary.iterations < options.max_iterations);
+}
+
+TEST_CASE("degenerate circles are refused", "[chebyshev][circle]") {
+  // The Chebyshev fits reuse the least-squares fit's checks, so the messages are its messages.
+  Eigen::Matrix3Xd two(3, 2);
+  two << 0, 1, 0, 0, 0, 0;
+  CHECK_THROWS_WITH(fit_circle_minimum_zone(two), Catch::Contains("at least 3 points"));
+  Eigen::Matrix3Xd collinear(3, 5);
+  for (int i = 0; i < 5; ++i) collinear.col(i) = Eigen::Vector3d(i, 2.0 * i, -i);
+  CHECK_THROWS_WITH(fit_circle_minimum_zone(collinear), Catch::Contains("straight line"));
+  CHECK_THROWS_WITH(fit_circle_maximum_inscribed(collinear), Catch::Contains("straight line"));
+  CHECK_THROWS_WITH(fit_circle_minimum_circumscribed(collinear), Catch::Contains("straight line"));
+  CHECK_THROWS_AS(fit_circle_minimum_zone(Eigen::Matrix3Xd(3, 0)), FitError);
+}
+
+// ------------------------------------------------------------------ cylinders
+
+TEST_CASE("three-lobed cylinder: cylindricity and both mating envelopes are known",
+          "[chebyshev][cylinder]") {
+  struct Case {
+    const char* name;
+    Axis axis;
+  };
+  const Case cases[] = {
+      {"tilted, off the origin", Axis{{-20.0, 14.0, 35.0}, direction_from_angles(25.0, 130.0)}},
+      {"far from the origin (metres)",
+       Axis{{-1200.0, 2600.0, 1750.0}, direction_from_angles(90.0, 45.0)}},
+  };
+  const double r = 6.0, eps = 0.003, t0 = -15.0, t1 = 25.0;
+  for (const Case& c : cases) {
+    SECTION(c.name) {
+      const ReferenceSet lobed = make_lobed_cylinder(c.axis, r, t0, t1, 7, 24, eps, 5.0);
+      Eigen::Matrix3Xd points = lobed.points;
+      // One-sided clusters at both ends, opposite sides: tilt and shift the least-squares axis.
+      append_inside_zone(points, c.axis, r, eps, 0.8, 0.0, 40.0, t1 - 8.0, t1, 20);
+      append_inside_zone(points, c.axis, r, eps, -0.7, 170.0, 220.0, t0, t0 + 8.0, 20);
+      const CylinderFit ls = fit_cylinder_least_squares(points);
+      REQUIRE(axis_separation(ls.axis, c.axis, t0, t1) > 1e-4);
+
+      const CylinderFit mz = fit_cylinder_minimum_zone(points);
+      CHECK(mz.summary.method == FitMethod::minimum_zone);
+      CHECK(mz.summary.status == FitStatus::converged);
+      CHECK(mz.residuals.form == Approx(2.0 * eps).margin(agreement));
+      CHECK(mz.radius == Approx(r).margin(agreement));
+      CHECK(axis_separation(mz.axis, c.axis, t0, t1) < agreement);
+      CHECK(mz.covariance.matrix.size() == 0);
+
+      const CylinderFit mi = fit_cylinder_maximum_inscribed(points);
+      CHECK(mi.summary.status == FitStatus::converged);
+      CHECK(mi.radius == Approx(r - eps).margin(agreement));
+      CHECK(axis_separation(mi.axis, c.axis, t0, t1) < agreement);
+
+      const CylinderFit mc = fit_cylinder_minimum_circumscribed(points);
+      CHECK(mc.summary.status == FitStatus::converged);
+      CHECK(mc.radius == Approx(r + eps).margin(agreement));
+      CHECK(axis_separation(mc.axis, c.axis, t0, t1) < agreement);
+
+      // Canonical form: the axis point is the foot of the centroid, the extent spans the data.
+      const Eigen::Vector3d centroid = points.rowwise().mean();
+      CHECK((centroid - mz.axis.point).dot(mz.axis.direction) == Approx(0.0).margin(1e-9));
+      CHECK(mz.extent_max - mz.extent_min == Approx(t1 - t0).margin(1e-9));
+      CHECK(mz.angular_coverage_deg > 340.0);
+    }
+  }
+}
+
+TEST_CASE("fixed-direction cylinder reduces to the circle of the projected points",
+          "[chebyshev][cylinder]") {
+  const Axis axis{{3.0, -4.0, 10.0}, direction_from_angles(12.0, 300.0)};
+  const double r = 9.0, eps = 0.002;
+  const ReferenceSet lobed = make_lobed_cylinder(axis, r, -10.0, 10.0, 5, 30, eps, 0.0);
+  Eigen::Matrix3Xd points = lobed.points;
+  append_inside_zone(points, axis, r, eps, 0.9, 100.0, 140.0, -10.0, 10.0, 25);
+  FitOptions options;
+  options.fixed_direction = axis.direction;
+  const CylinderFit mz = fit_cylinder_minimum_zone(points, options);
+  const CylinderFit mi = fit_cylinder_maximum_inscribed(points, options);
+  const CylinderFit mc = fit_cylinder_minimum_circumscribed(points, options);
+  CHECK(sine_between(mz.axis.direction, axis.direction) < 1e-15);
+  CHECK(mz.residuals.form == Approx(2.0 * eps).margin(agreement));
+  CHECK(mi.radius == Approx(r - eps).margin(agreement));
+  CHECK(mc.radius == Approx(r + eps).margin(agreement));
+  for (const CylinderFit* f : {&mz, &mi, &mc})
+    CHECK(axis_separation(f->axis, axis, -10.0, 10.0) < agreement);
+
+  // A fixed direction that is not the true one: the same answer as the circle fit of the
+  // points projected along it (the circle fit's plane is perpendicular to fixed_direction).
+  options.fixed_direction = direction_from_angles(13.0, 301.0);
+  const CylinderFit tilted = fit_cylinder_minimum_zone(points, options);
+  const CircleFit circle = fit_circle_minimum_zone(points, options);
+  CHECK(tilted.residuals.form == Approx(circle.residuals.form).margin(1e-12));
+  CHECK(tilted.radius == Approx(circle.radius).margin(1e-12));
+  CHECK(distance_to_line(circle.centre, tilted.axis) < 1e-9);
+}
+
+TEST_CASE("Chebyshev cylinders on asymmetric noise beat the least-squares cylinder",
+          "[chebyshev][cylinder]") {
+  std::mt19937_64 rng(77);
+  std::exponential_distribution<double> spike(1.0);
+  std::uniform_real_distribution<double> unit(0.0, 1.0);
+  const Axis axis{{0.5, 1.5, -2.0}, direction_from_angles(8.0, 40.0)};
+  Eigen::Vector3d u, v;
+  perpendicular_pair(axis.direction, u, v);
+  const double r = 5.0;
+  const int n = 400;
+  Eigen::Matrix3Xd points(3, n);
+  for (int i = 0; i < n; ++i) {
+    const double a = 2.0 * pi * unit(rng), t = -12.0 + 24.0 * unit(rng);
+    const double e = 0.003 * spike(rng) * (t > 6.0 && a < 1.5 ? 4.0 : 1.0);
+    points.col(i) = axis.point + t * axis.direction + (r + e) * (std::cos(a) * u + std::sin(a) * v);
+  }
+  const CylinderFit ls = fit_cylinder_least_squares(points);
+  const Eigen::VectorXd ls_d = distances_to_axis(points, ls.axis);
+  for (FitMethod method : {FitMethod::minimum_zone, FitMethod::maximum_inscribed,
+                           FitMethod::minimum_circumscribed}) {
+    const CylinderFit fit = method == FitMethod::minimum_zone ? fit_cylinder_minimum_zone(points)
+                            : method == FitMethod::maximum_inscribed
+                                ? fit_cylinder_maximum_inscribed(points)
+                                : fit_cylinder_minimum_circumscribed(points);
+    INFO(method_name(method));
+    CHECK(fit.summary.status == FitStatus::converged);
+    const Eigen::VectorXd d = distances_to_axis(points, fit.axis);
+    CHECK(objective_of(method, d) < objective_of(method, ls_d) - 1e-5);
+    CHECK(fit.residuals.form == Approx(d.maxCoeff() - d.minCoeff()).margin(1e-12));
+    CHECK(fit.radius - (method == FitMethod::maximum_inscribed ? d.minCoeff()
+                        : method == FitMethod::minimum_circumscribed
+                            ? d.maxCoeff()
+                            : 0.5 * (d.minCoeff() + d.maxCoeff())) ==
+          Approx(0.0).margin(1e-12));
+    // Direct search over shifts (mm) and tilts (as displacements over the bore's half-length).
+    Eigen::Vector3d pu, pv;
+    perpendicular_pair(fit.axis.direction, pu, pv);
+    const double half_length = 12.0;
+    for (double step : {1e-3, 1e-6})
+      require_no_better_neighbour(
+          [&](const Eigen::VectorXd& x) {
+            const Axis moved{fit.axis.point + x(0) * pu + x(1) * pv,
+                             fit.axis.direction + (x(2) * pu + x(3) * pv) / half_length};
+            return objective_of(method, distances_to_axis(points, moved));
+          },
+          4, step, 5);
+  }
+}
+
+TEST_CASE("maximum-inscribed cylinder on one side of a bore is unbounded",
+          "[chebyshev][cylinder]") {
+  const Axis axis{{0.0, 0.0, 0.0}, Eigen::Vector3d::UnitZ()};
+  const ReferenceSet side = make_cylinder_reference(axis, 10.0, -10.0, 10.0, 5, 30, 120.0, 0.002, 11);
+  for (bool fixed : {false, true}) {
+    FitOptions options;
+    if (fixed) options.fixed_direction = Eigen::Vector3d::UnitZ();
+    INFO((fixed ? "fixed direction" : "free axis"));
+    try {
+      fit_cylinder_maximum_inscribed(side.points, options);
+      FAIL("no FitError for points on a 120 degree arc");
+    } catch (const FitError& e) {
+      const std::string what = e.what();
+      INFO(what);
+      CHECK_THAT(what, Catch::Contains("maximum-inscribed cylinder is unbounded"));
+      const std::string covered = first_number_after(what, "cover only");
+      REQUIRE(!covered.empty());
+      CHECK(std::stod(covered) == Approx(120.0).margin(3.0));
+    }
+  }
+}
+
+TEST_CASE("degenerate cylinders are refused", "[chebyshev][cylinder]") {
+  // One cross-section: the axis direction is not determined.
+  const ReferenceSet section = make_lobed_cylinder(
+      Axis{{1.0, 2.0, 3.0}, Eigen::Vector3d::UnitZ()}, 4.0, 0.0, 0.0, 1, 24, 0.001);
+  CHECK_THROWS_WITH(fit_cylinder_minimum_zone(section.points),
+                    Catch::Contains("one cross-section"));
+  CHECK_THROWS_WITH(fit_cylinder_maximum_inscribed(section.points),
+                    Catch::Contains("one cross-section"));
+  CHECK_THROWS_WITH(fit_cylinder_minimum_circumscribed(section.points),
+                    Catch::Contains("one cross-section"));
+  Eigen::Matrix3Xd three(3, 3);
+  three << 0, 1, 0, 0, 0, 1, 0, 1, 2;
+  CHECK_THROWS_WITH(fit_cylinder_minimum_zone(three), Catch::Contains("at least"));
+  // With a fixed direction one cross-section is enough; collinear projections are not.
+  FitOptions fixed;
+  fixed.fixed_direction = Eigen::Vector3d::UnitZ();
+  CHECK_NOTHROW(fit_cylinder_minimum_zone(section.points, fixed));
+  Eigen::Matrix3Xd wall(3, 6);
+  for (int i = 0; i < 6; ++i) wall.col(i) = Eigen::Vector3d(i, 0.5 * i, i % 2);
+  CHECK_THROWS_WITH(fit_cylinder_minimum_zone(wall, fixed), Catch::Contains("straight line"));
+}
+
+TEST_CASE("the iteration limit is reported, not hidden", "[chebyshev][cylinder]") {
+  const Axis axis{{0.0, 0.0, 0.0}, direction_from_angles(5.0, 0.0)};
+  const ReferenceSet noisy = make_cylinder_reference(axis, 7.0, -10.0, 10.0, 6, 40, 360.0, 0.01, 5);
+  FitOptions options;
+  options.max_iterations = 1;
+  const CylinderFit fit = fit_cylinder_minimum_zone(noisy.points, options);
+  CHECK(fit.summary.status == FitStatus::iteration_limit);
+  CHECK(fit.summary.iterations == 1);
+  CHECK_THAT(fit.summary.message, Catch::Contains("iteration limit"));
+  // Still a valid element: its reported form is the exact zone about its axis.
+  const Eigen::VectorXd d = distances_to_axis(noisy.points, fit.axis);
+  CHECK(fit.residuals.form == Approx(d.maxCoeff() - d.minCoeff()).margin(1e-12));
+}
+
+TEST_CASE("constraint generation returns the optimum of the full linear programme",
+          "[chebyshev][engine]") {
+  // The same sequential linear programme once with a working set and once with every point in
+  // every linear programme: the optimum must not depend on it.
+  const Axis axis{{2.0, -1.0, 4.0}, direction_from_angles(15.0, 60.0)};
+  const ReferenceSet noisy =
+      make_cylinder_reference(axis, 12.0, -20.0, 20.0, 25, 120, 360.0, 0.008, 21);  // 3000 points
+  const Eigen::Vector3d centroid = noisy.points.rowwise().mean();
+  const double scale = (noisy.points.colwise() - centroid).colwise().norm().maxCoeff();
+  const Axis start{axis.point + Eigen::Vector3d(0.01, -0.02, 0.0),
+                   (axis.direction + Eigen::Vector3d(0.001, 0.0, -0.0005)).normalized()};
+  for (auto objective : {detail::ZoneObjective::minimum_zone,
+                         detail::ZoneObjective::maximum_inscribed,
+                         detail::ZoneObjective::minimum_circumscribed}) {
+    detail::ZoneOptions options;
+    options.scale = scale;
+    options.initial_trust_radius = 0.02;
+    options.location_limit = scale;
+    detail::AxisZoneModel with_working_set(noisy.points, start);
+    const detail::ZoneSummary a = detail::solve_zone(with_working_set, objective, options);
+    options.full_set_limit = static_cast<std::size_t>(noisy.points.cols());
+    detail::AxisZoneModel with_all_points(noisy.points, start);
+    const detail::ZoneSummary b = detail::solve_zone(with_all_points, objective, options);
+    INFO(a.message << " / " << b.message);
+    REQUIRE(a.status == detail::ZoneStatus::converged);
+    REQUIRE(b.status == detail::ZoneStatus::converged);
+    CHECK(a.largest_working_set < b.largest_working_set);
+    CHECK(detail::zone_radius(objective, a.distances) ==
+          Approx(detail::zone_radius(objective, b.distances)).margin(1e-11));
+    CHECK(a.distances.maxCoeff() - a.distances.minCoeff() ==
+          Approx(b.distances.maxCoeff() - b.distances.minCoeff()).margin(1e-11));
+    CHECK(axis_separation(with_working_set.axis(), with_all_points.axis(), -20.0, 20.0) < 1e-10);
+  }
+}
+
+// ------------------------------------------------------------------ planes
+
+namespace {
+
+// Plane sets from the KKT conditions of  min (top - bottom)  s.t.  bottom <= s_i <= top:
+// contacts at +h (multipliers lambda) and -h (mu), sum lambda = sum mu = 1 and
+// sum lambda_i x_i = sum mu_j x_j for the in-plane positions x: the convex hulls of the upper
+// and lower contacts' projections meet. All other points strictly inside (|s| <= 0.9 h), more
+// of them on one side so the least-squares plane is tilted away from the ideal one.
+Eigen::Matrix3Xd kkt_plane_set(const Eigen::Vector3d& point, const Eigen::Vector3d& normal,
+                               const std::vector<Eigen::Vector2d>& upper,
+                               const std::vector<Eigen::Vector2d>& lower, double h, int interior,
+                               std::uint64_t seed) {
+  Eigen::Vector3d u, v;
+  perpendicular_pair(normal, u, v);
+  const Eigen::Vector3d n = normal.normalized();
+  std::mt19937_64 rng(seed);
+  std::uniform_real_distribution<double> unit(-1.0, 1.0);
+  const Eigen::Index count = static_cast<Eigen::Index>(upper.size() + lower.size()) + interior;
+  Eigen::Matrix3Xd points(3, count);
+  Eigen::Index k = 0;
+  for (const auto& x : upper) points.col(k++) = point + x(0) * u + x(1) * v + h * n;
+  for (const auto& x : lower) points.col(k++) = point + x(0) * u + x(1) * v - h * n;
+  for (int i = 0; i < interior; ++i) {
+    const double x = 40.0 * unit(rng), y = 30.0 * unit(rng);
+    const double s = x > 10.0 ? 0.9 * h * std::abs(unit(rng)) : 0.9 * h * unit(rng);
+    points.col(k++) = point + x * u + y * v + s * n;
+  }
+  return points;
+}
+
+}  // namespace
+
+TEST_CASE("minimum-zone plane: KKT-constructed flatness sets", "[chebyshev][plane]") {
+  const Eigen::Vector3d point(700.0, -350.0, 1200.0), normal = direction_from_angles(40.0, 15.0);
+  const double h = 0.006;
+  SECTION("three upper contacts round one lower contact") {
+    // The lower contact (4, 3) lies inside the upper triangle: positive barycentric weights.
+    const Eigen::Matrix3Xd points =
+        kkt_plane_set(point, normal, {{-30.0, -20.0}, {35.0, -15.0}, {5.0, 28.0}}, {{4.0, 3.0}},
+                      h, 300, 8);
+    const PlaneFit ls = fit_plane_least_squares(points);
+    REQUIRE(sine_between(ls.normal, normal) > 1e-6);
+    const PlaneFit mz = fit_plane_minimum_zone(points);
+    CHECK(mz.summary.status == FitStatus::converged);
+    CHECK(mz.summary.method == FitMethod::minimum_zone);
+    CHECK(mz.residuals.form == Approx(2.0 * h).margin(agreement));
+    CHECK(sine_between(mz.normal, normal) < agreement / 40.0);
+    CHECK(std::abs((mz.point - point).dot(normal)) < agreement);  // the mid-plane is the ideal
+    CHECK(mz.residuals.form < ls.residuals.form);
+  }
+  SECTION("two upper and two lower contacts on crossing segments") {
+    const Eigen::Matrix3Xd points = kkt_plane_set(
+        point, normal, {{-32.0, -5.0}, {30.0, 7.0}}, {{-3.0, 25.0}, {2.0, -26.0}}, h, 300, 9);
+    const PlaneFit mz = fit_plane_minimum_zone(points);
+    CHECK(mz.residuals.form == Approx(2.0 * h).margin(agreement));
+    CHECK(sine_between(mz.normal, normal) < agreement / 40.0);
+    CHECK(std::abs((mz.point - point).dot(normal)) < agreement);
+    CHECK(mz.residuals.values.maxCoeff() == Approx(h).margin(agreement));
+  }
+}
+
+TEST_CASE("degenerate planes are refused", "[chebyshev][plane]") {
+  Eigen::Matrix3Xd collinear(3, 6);
+  for (int i = 0; i < 6; ++i) collinear.col(i) = Eigen::Vector3d(1.0 + i, 2.0 - i, 0.5 * i);
+  CHECK_THROWS_WITH(fit_plane_minimum_zone(collinear), Catch::Contains("straight line"));
+}
+
+TEST_CASE("degenerate lines are refused", "[chebyshev][line]") {
+  Eigen::Matrix3Xd same(3, 4);
+  for (int i = 0; i < 4; ++i) same.col(i) = Eigen::Vector3d(2.0, -1.0, 7.0);
+  CHECK_THROWS_WITH(fit_line_minimum_zone(same), Catch::Contains("coincide"));
+  // Exactly collinear points: a zone of zero diameter, found at once.
+  Eigen::Matrix3Xd straight(3, 5);
+  for (int i = 0; i < 5; ++i) straight.col(i) = Eigen::Vector3d(1.0 + i, 2.0 - 2.0 * i, 0.5 * i);
+  const LineFit fit = fit_line_minimum_zone(straight);
+  CHECK(fit.residuals.form == Approx(0.0).margin(1e-12));
+  CHECK(fit.summary.status == FitStatus::converged);
+}
+
+// ------------------------------------------------------------------ lines
+
+TEST_CASE("minimum-zone line: KKT-constructed straightness sets", "[chebyshev][line]") {
+  // Smallest cylinder containing the points. KKT: contacts at radius h with unit radial
+  // directions n_i at stations t_i, multipliers lambda_i > 0 with sum lambda n = 0 and
+  // sum lambda t n = 0: three contacts at each end whose directions enclose the axis (each gap
+  // under 180 degrees) give positive weights per end, and the two ends balance the moments.
+  const Axis axis{{-250.0, 400.0, 90.0}, direction_from_angles(65.0, 110.0)};
+  Eigen::Vector3d u, v;
+  perpendicular_pair(axis.direction, u, v);
+  const double h = 0.004, t0 = -60.0, t1 = 45.0;
+  std::vector<std::pair<double, double>> contacts = {{t0, 10.0}, {t0, 140.0}, {t0, 250.0},
+                                                     {t1, 70.0}, {t1, 200.0}, {t1, 300.0}};
+  std::mt19937_64 rng(4);
+  std::uniform_real_distribution<double> unit(0.0, 1.0);
+  const int interior = 200;
+  Eigen::Matrix3Xd points(3, static_cast<Eigen::Index>(contacts.size()) + interior);
+  Eigen::Index k = 0;
+  for (const auto& [t, a_deg] : contacts) {
+    const double a = a_deg * pi / 180.0;
+    points.col(k++) = axis.point + t * axis.direction + h * (std::cos(a) * u + std::sin(a) * v);
+  }
+  for (int i = 0; i < interior; ++i) {
+    const double t = t0 + (t1 - t0) * unit(rng);
+    const double a = (t > 0.0 ? 0.5 : 2.0 * pi) * unit(rng);  // crowded on one side near one end
+    const double rho = 0.9 * h * unit(rng);
+    points.col(k++) = axis.point + t * axis.direction + rho * (std::cos(a) * u + std::sin(a) * v);
+  }
+  const LineFit ls = fit_line_least_squares(points);
+  REQUIRE(axis_separation(ls.axis, axis, t0, t1) > 1e-4);
+  const LineFit mz = fit_line_minimum_zone(points);
+  CHECK(mz.summary.status == FitStatus::converged);
+  CHECK(mz.summary.method == FitMethod::minimum_zone);
+  CHECK(mz.residuals.form == Approx(2.0 * h).margin(agreement));
+  CHECK(axis_separation(mz.axis, axis, t0, t1) < agreement);
+  CHECK(mz.extent_max - mz.extent_min == Approx(t1 - t0).margin(1e-6));
+  CHECK(mz.residuals.values.minCoeff() >= 0.0);
+  CHECK(mz.residuals.form <= ls.residuals.form);
+}
+
+TEST_CASE("minimum-zone line on noisy data is no worse than least squares",
+          "[chebyshev][line]") {
+  const Axis axis{{1.0, 2.0, 3.0}, direction_from_angles(30.0, 30.0)};
+  const auto set = cylzone::testing::make_line_reference(axis, -50.0, 50.0, 80, 0.01, 12);
+  const LineFit ls = fit_line_least_squares(set.points);
+  const LineFit mz = fit_line_minimum_zone(set.points);
+  CHECK(mz.summary.status == FitStatus::converged);
+  CHECK(mz.residuals.form < ls.residuals.form - 1e-5);
+  Eigen::Vector3d pu, pv;
+  perpendicular_pair(mz.axis.direction, pu, pv);
+  for (double step : {1e-3, 1e-6})
+    require_no_better_neighbour(
+        [&](const Eigen::VectorXd& x) {
+          const Axis moved{mz.axis.point + x(0) * pu + x(1) * pv,
+                           mz.axis.direction + (x(2) * pu + x(3) * pv) / 50.0};
+          return distances_to_axis(set.points, moved).maxCoeff();
+        },
+        4, step, 6);
+}

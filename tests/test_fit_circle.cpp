@@ -1,0 +1,143 @@
+// Least-squares circles in space (least-squares plane, then the geometric circle of the
+// projections) against null-space reference sets with known solutions (Forbes & Minh 2012, the
+// construction of ISO 10360-6 test sets), and the 2D circle used by cylinders and sections.
+#include <catch2/catch.hpp>
+
+#include <Eigen/Geometry>
+#include <cmath>
+#include <cstdio>
+
+#include "cylzone/errors.hpp"
+#include "cylzone/fit_circle.hpp"
+#include "detail/circle_2d.hpp"
+#include "reference_data.hpp"
+
+using namespace cylzone;
+using namespace cylzone::testing;
+using Catch::Matchers::Contains;
+
+namespace {
+struct CircleCase {
+  const char* name;
+  Eigen::Vector3d centre;
+  double polar_deg, azimuth_deg;
+  double radius, start_deg, arc_deg;
+  int count;
+  double amplitude;
+};
+}  // namespace
+
+TEST_CASE("least-squares circle reproduces null-space reference circles", "[circle][least_squares]") {
+  const CircleCase cases[] = {
+      {"full, tilted, off the origin", {35.0, -12.0, 8.0}, 28.0, 115.0, 12.5, 0.0, 360.0, 72, 0.004},
+      {"half circle", {-4.0, 9.0, 2.0}, 60.0, -20.0, 30.0, 40.0, 180.0, 50, 0.002},
+      {"120 degrees", {1.0, 2.0, 3.0}, 15.0, 70.0, 8.0, 200.0, 120.0, 40, 0.001},
+      {"90 degrees", {7.0, 7.0, -7.0}, 45.0, 45.0, 20.0, -30.0, 90.0, 40, 0.001},
+      {"far from the origin", {2500.0, -1800.0, 3200.0}, 80.0, 200.0, 45.0, 0.0, 360.0, 90, 0.005},
+      {"small hole", {0.5, -0.5, 0.25}, 5.0, 0.0, 0.75, 0.0, 360.0, 24, 0.0002},
+      {"large radius", {120.0, 300.0, -50.0}, 89.0, 10.0, 750.0, 10.0, 300.0, 120, 0.01},
+  };
+  for (const CircleCase& c : cases) {
+    SECTION(c.name) {
+      const Eigen::Vector3d normal = direction_from_angles(c.polar_deg, c.azimuth_deg);
+      const ReferenceSet set = make_circle_reference(c.centre, normal, c.radius, c.start_deg,
+                                                     c.arc_deg, c.count, c.amplitude, 41);
+      const CircleFit fit = fit_circle_least_squares(set.points);
+      CHECK((fit.centre - c.centre).norm() < 1e-9);
+      CHECK(std::abs(fit.radius - c.radius) < 1e-9);
+      CHECK(angle_between_lines(fit.normal, normal) < 1e-9);
+      CHECK(fit.normal.z() > 0.0);  // canonical sign
+      CHECK(fit.diameter() == 2.0 * fit.radius);
+      // Radial residuals are the deviations e_i (they do not depend on the normal's sign).
+      CHECK((fit.residuals.values - set.deviations).cwiseAbs().maxCoeff() < 1e-9);
+      CHECK(fit.summary.status == FitStatus::converged);
+      CHECK(fit.summary.iterations >= 1);
+      CHECK_THAT(fit.summary.message, Contains("converged"));
+      const double expected_coverage = c.arc_deg >= 360.0 ? 360.0 - 360.0 / c.count : c.arc_deg;
+      CHECK(fit.angular_coverage_deg == Approx(expected_coverage).margin(1e-6));
+      // Coverage below the default 180 degrees is a warning naming the coverage.
+      // (An arc of exactly 180 degrees sits on the threshold and is not checked.)
+      if (c.arc_deg < 179.0) {
+        REQUIRE(fit.summary.warnings.size() == 1);
+        char expected[32];
+        std::snprintf(expected, sizeof expected, "%.1f degrees", c.arc_deg);
+        CHECK_THAT(fit.summary.warnings[0], Contains(expected));
+      } else if (c.arc_deg > 181.0) {
+        CHECK(fit.summary.warnings.empty());
+      }
+    }
+  }
+}
+
+TEST_CASE("circle with a fixed direction fits in the plane perpendicular to it",
+          "[circle][least_squares]") {
+  const Eigen::Vector3d normal = direction_from_angles(12.0, 33.0);
+  const ReferenceSet set =
+      make_circle_reference({100.0, 50.0, -20.0}, normal, 15.0, 0.0, 360.0, 36, 0.003, 8);
+  FitOptions options;
+  options.fixed_direction = -normal;
+  const CircleFit fixed = fit_circle_least_squares(set.points, options);
+  CHECK(angle_between_lines(fixed.normal, normal) < 1e-15);
+  CHECK((fixed.centre - Eigen::Vector3d(100.0, 50.0, -20.0)).norm() < 1e-9);
+  CHECK(std::abs(fixed.radius - 15.0) < 1e-9);
+  // The hint decides the sign of the reported normal.
+  options.axis_hint = -normal;
+  CHECK(fit_circle_least_squares(set.points, options).normal.dot(normal) < 0.0);
+  options.fixed_direction = Eigen::Vector3d::Zero();
+  CHECK_THROWS_WITH(fit_circle_least_squares(set.points, options), Contains("fixed direction"));
+}
+
+TEST_CASE("circle covariance equals sigma^2 (J^T J)^-1 at the known solution",
+          "[circle][least_squares][covariance]") {
+  // For N equally spaced points on a full circle, J rows (cos a, sin a, 1) give
+  // J^T J = diag(N/2, N/2, N) exactly, so the law of propagation (JCGM 100:2008, GUM 5.1.2)
+  // predicts var(centre_u) = var(centre_v) = 2 s^2 / N, var(r) = s^2 / N, all covariances zero,
+  // with s^2 = sum e^2 / (N - 3) (common practice for least-squares circles).
+  const int n = 48;
+  const ReferenceSet set = make_circle_reference({3.0, 4.0, 5.0}, direction_from_angles(30.0, 10.0),
+                                                 25.0, 7.0, 360.0, n, 0.005, 12);
+  const CircleFit fit = fit_circle_least_squares(set.points);
+  const double s2 = set.deviations.squaredNorm() / (n - 3);
+  REQUIRE(fit.covariance.matrix.rows() == 3);
+  const Eigen::MatrixXd& c = fit.covariance.matrix;
+  CHECK(c(0, 0) == Approx(2 * s2 / n).epsilon(1e-6));
+  CHECK(c(1, 1) == Approx(2 * s2 / n).epsilon(1e-6));
+  CHECK(c(2, 2) == Approx(s2 / n).epsilon(1e-6));
+  CHECK(std::abs(c(0, 1)) < 1e-6 * c(0, 0));
+  CHECK(std::abs(c(0, 2)) < 1e-6 * c(0, 0));
+  CHECK((fit.covariance.basis.col(2) - fit.normal).norm() < 1e-15);
+}
+
+TEST_CASE("2D least-squares circle and its algebraic start", "[circle][least_squares]") {
+  // Points of the circle centre (2000.5, -300.25), r = 4 with the null-space deviations of a
+  // 150 degree arc, in plane coordinates.
+  const ReferenceSet set = make_circle_reference({2000.5, -300.25, 0.0}, Eigen::Vector3d::UnitZ(),
+                                                 4.0, 10.0, 150.0, 30, 0.0005, 77);
+  const Eigen::Matrix2Xd uv = set.points.topRows<2>();
+  const detail::Circle2dFit algebraic = detail::fit_circle_2d_algebraic(uv);
+  CHECK((algebraic.centre - Eigen::Vector2d(2000.5, -300.25)).norm() < 0.01);  // a start only
+  const detail::Circle2dFit fit = detail::fit_circle_2d_least_squares(uv, FitOptions{});
+  CHECK((fit.centre - Eigen::Vector2d(2000.5, -300.25)).norm() < 1e-9);
+  CHECK(std::abs(fit.radius - 4.0) < 1e-9);
+  CHECK(fit.ssr == Approx(set.deviations.squaredNorm()).epsilon(1e-9));
+  CHECK(fit.status == FitStatus::converged);
+  FitOptions one;
+  one.max_iterations = 1;
+  CHECK(detail::fit_circle_2d_least_squares(uv, one).status == FitStatus::iteration_limit);
+}
+
+TEST_CASE("degenerate circles are FitErrors", "[circle][least_squares][degenerate]") {
+  Eigen::Matrix3Xd line(3, 5);
+  for (int i = 0; i < 5; ++i) line.col(i) = Eigen::Vector3d(10.0, 20.0, 30.0) + i * Eigen::Vector3d(1, -1, 2);
+  CHECK_THROWS_WITH(fit_circle_least_squares(line), Contains("lie on a straight line"));
+  CHECK_THROWS_WITH(fit_circle_least_squares(line.leftCols(2)), Contains("needs at least 3 points, got 2"));
+  Eigen::Matrix3Xd same(3, 4);
+  same.colwise() = Eigen::Vector3d(1.0, 2.0, 3.0);
+  CHECK_THROWS_WITH(fit_circle_least_squares(same), Contains("coincide"));
+  // Collinear in the plane perpendicular to a fixed direction.
+  FitOptions options;
+  options.fixed_direction = Eigen::Vector3d::UnitZ();
+  Eigen::Matrix3Xd wall(3, 4);
+  wall << 0, 1, 2, 3, 0, 1, 2, 3, 0, 5, 1, 7;
+  CHECK_THROWS_WITH(fit_circle_least_squares(wall, options), Contains("straight line"));
+}

@@ -1,0 +1,295 @@
+// Tests of the private fit helpers (src/detail/fit_support.hpp). References: libm's atan2 and a
+// sort for angles and gaps; closed-form inverses for the covariance helper; hand-checkable
+// geometry for frames and sign rules.
+#include <catch2/catch.hpp>
+
+#include <Eigen/Geometry>
+#include <algorithm>
+#include <cmath>
+#include <random>
+#include <vector>
+
+#include "cylzone/errors.hpp"
+#include "detail/fit_support.hpp"
+#include "reference_data.hpp"
+
+using namespace cylzone;
+using Catch::Matchers::Contains;
+
+namespace {
+constexpr double pi = 3.14159265358979323846;
+
+// Reference coverage by sorting libm angles: 360 minus the largest gap, the definition itself.
+double coverage_by_sorting(const std::vector<double>& x, const std::vector<double>& y) {
+  std::vector<double> a;
+  for (std::size_t i = 0; i < x.size(); ++i)
+    if (x[i] != 0.0 || y[i] != 0.0) a.push_back(std::atan2(y[i], x[i]));
+  if (a.size() < 2) return 0.0;
+  std::sort(a.begin(), a.end());
+  double gap = a.front() + 2 * pi - a.back();
+  for (std::size_t i = 1; i < a.size(); ++i) gap = std::max(gap, a[i] - a[i - 1]);
+  return (2 * pi - gap) * 180.0 / pi;
+}
+
+Eigen::Matrix3Xd planar_points(const std::vector<double>& x, const std::vector<double>& y) {
+  Eigen::Matrix3Xd p(3, static_cast<Eigen::Index>(x.size()));
+  for (std::size_t i = 0; i < x.size(); ++i) p.col(static_cast<Eigen::Index>(i)) << x[i], y[i], 0.0;
+  return p;
+}
+}  // namespace
+
+TEST_CASE("basis_from_direction is a right-handed orthonormal frame with w along the direction",
+          "[fit_support]") {
+  std::mt19937_64 rng(11);
+  std::normal_distribution<double> g;
+  for (int k = 0; k < 200; ++k) {
+    const Eigen::Vector3d d(g(rng), g(rng), g(rng));
+    const Eigen::Matrix3d b = detail::basis_from_direction(d);
+    CHECK((b.transpose() * b - Eigen::Matrix3d::Identity()).norm() < 1e-14);
+    CHECK(b.determinant() == Approx(1.0).margin(1e-14));
+    CHECK((b.col(2) - d.normalized()).norm() < 1e-15);
+  }
+  // Deterministic: the same direction always gives the same frame.
+  CHECK(detail::basis_from_direction({0.3, -0.2, 0.9}) == detail::basis_from_direction({0.3, -0.2, 0.9}));
+}
+
+TEST_CASE("canonical_direction follows the hint, then +z, +y, +x", "[fit_support]") {
+  const Eigen::Vector3d d(0.2, -0.3, -0.9);
+  CHECK(detail::canonical_direction(d, std::nullopt).z() > 0.0);
+  CHECK(detail::canonical_direction(-d, std::nullopt).z() > 0.0);
+  CHECK(detail::canonical_direction(d, Eigen::Vector3d(0, 0, -1)).z() < 0.0);
+  CHECK(detail::canonical_direction({0.0, -1.0, 0.0}, std::nullopt).y() > 0.0);
+  CHECK(detail::canonical_direction({-1.0, 0.0, 0.0}, std::nullopt).x() > 0.0);
+  // A hint perpendicular to the direction cannot decide; the fixed rule applies.
+  CHECK(detail::canonical_direction({0.0, 0.0, -2.0}, Eigen::Vector3d(1, 0, 0)) ==
+        Eigen::Vector3d(0, 0, 1));
+  CHECK(detail::canonical_direction({0.0, 0.0, -2.0}, std::nullopt).norm() == Approx(1.0));
+}
+
+TEST_CASE("canonical_axis puts the point at the foot of the perpendicular from the centroid",
+          "[fit_support]") {
+  const Eigen::Vector3d centroid(10.0, -4.0, 7.0);
+  const Axis a = detail::canonical_axis({1.0, 2.0, 3.0}, {0.0, 0.0, -5.0}, centroid, std::nullopt);
+  CHECK(a.direction == Eigen::Vector3d(0, 0, 1));
+  CHECK((a.point - Eigen::Vector3d(1.0, 2.0, 7.0)).norm() < 1e-14);
+  CHECK(std::abs((centroid - a.point).dot(a.direction)) < 1e-14);
+}
+
+TEST_CASE("axial_extent, make_residuals", "[fit_support]") {
+  Eigen::Matrix3Xd p(3, 3);
+  p << 0, 1, 2,  //
+      0, 0, 0,   //
+      -1, 4, 2;
+  const Axis a{Eigen::Vector3d(0, 0, 1), Eigen::Vector3d(0, 0, 1)};
+  const auto [lo, hi] = detail::axial_extent(p, a);
+  CHECK(lo == -2.0);
+  CHECK(hi == 3.0);
+  Eigen::VectorXd v(4);
+  v << 3, -4, 0, 1;
+  const Residuals r = detail::make_residuals(v);
+  CHECK(r.rms == Approx(std::sqrt(26.0 / 4.0)));
+  CHECK(r.form == 7.0);
+  CHECK(r.values == v);
+}
+
+TEST_CASE("scatter_matrix and principal_axes", "[fit_support]") {
+  // Points on a 10 x 4 x 1 box's corners about (3, 2, 1): spreads 5, 2, 0.5 along x, y, z.
+  Eigen::Matrix3Xd p(3, 8);
+  int k = 0;
+  for (double x : {-5.0, 5.0})
+    for (double y : {-2.0, 2.0})
+      for (double z : {-0.5, 0.5}) p.col(k++) = Eigen::Vector3d(3 + x, 2 + y, 1 + z);
+  const Eigen::Vector3d c = detail::centroid(p);
+  CHECK((c - Eigen::Vector3d(3, 2, 1)).norm() < 1e-15);
+  const Eigen::Matrix3d s = detail::scatter_matrix(p, c);
+  CHECK((s - Eigen::Vector3d(200.0, 32.0, 2.0).asDiagonal().toDenseMatrix()).norm() < 1e-12);
+  const detail::PrincipalAxes axes = detail::principal_axes(p, c);
+  CHECK(axes.rms(0) == Approx(0.5));
+  CHECK(axes.rms(1) == Approx(2.0));
+  CHECK(axes.rms(2) == Approx(5.0));
+  CHECK(std::abs(axes.directions.col(0).z()) == Approx(1.0));
+  CHECK(std::abs(axes.directions.col(2).x()) == Approx(1.0));
+  CHECK(axes.scale == Approx(std::sqrt(25.0 + 4.0 + 0.25)));
+}
+
+TEST_CASE("polar_angle agrees with libm atan2 to 1e-15 rad", "[fit_support]") {
+  std::mt19937_64 rng(5);
+  std::normal_distribution<double> g;
+  double worst = 0.0;
+  auto reference = [](double x, double y) {
+    const double a = std::atan2(y, x);
+    return a < 0 ? a + 2 * pi : a;
+  };
+  std::vector<std::pair<double, double>> cases = {{1, 0}, {0, 1}, {-1, 0}, {0, -1}, {1, 1},
+                                                  {-1, 1}, {-1, -1}, {1, -1}, {1, 0.41421356237309503},
+                                                  {1e-300, 1}, {3, 1e-300}};
+  for (int k = 0; k < 100000; ++k) cases.emplace_back(g(rng), g(rng));
+  for (const auto& [x, y] : cases) {
+    double diff = std::abs(detail::polar_angle(x, y) - reference(x, y));
+    diff = std::min(diff, 2 * pi - diff);  // 0 and 2 pi are the same direction
+    worst = std::max(worst, diff);
+  }
+  CHECK(worst < 1e-15);
+  CHECK(detail::polar_angle(0.0, 0.0) == 0.0);
+}
+
+TEST_CASE("angular coverage agrees with sorting libm angles", "[fit_support]") {
+  std::mt19937_64 rng(7);
+  std::uniform_real_distribution<double> unit(0.0, 1.0);
+  SECTION("random arcs, exact range (up to 2^15 points)") {
+    for (const int n : {2, 3, 10, 100, 5000, 32768}) {
+      for (const double arc_deg : {30.0, 90.0, 200.0, 359.0, 360.0}) {
+        std::vector<double> x, y;
+        const double start = 2 * pi * unit(rng);
+        for (int i = 0; i < n; ++i) {
+          const double a = start + arc_deg * pi / 180 * unit(rng);
+          const double r = 5.0 + unit(rng);
+          x.push_back(r * std::cos(a));
+          y.push_back(r * std::sin(a));
+        }
+        const double got = detail::angular_coverage_deg(planar_points(x, y), Eigen::Vector3d::Zero(),
+                                                        Eigen::Matrix3d::Identity());
+        CHECK(got == Approx(coverage_by_sorting(x, y)).margin(1e-9));
+      }
+    }
+  }
+  SECTION("large sets: exact when the largest gap exceeds 0.014 degrees, else within it") {
+    for (const double arc_deg : {90.0, 300.0, 359.9, 360.0}) {
+      std::vector<double> x, y;
+      for (int i = 0; i < 200000; ++i) {
+        const double a = 1.0 + arc_deg * pi / 180 * unit(rng);
+        x.push_back(std::cos(a));
+        y.push_back(std::sin(a));
+      }
+      const double expected = coverage_by_sorting(x, y);
+      const double got = detail::angular_coverage_deg(planar_points(x, y), Eigen::Vector3d::Zero(),
+                                                      Eigen::Matrix3d::Identity());
+      if (360.0 - expected >= 0.014)
+        CHECK(got == Approx(expected).margin(1e-9));
+      else
+        CHECK(std::abs(got - expected) <= 0.014);
+    }
+    // Equally spaced points (a scan): every gap is 360/n degrees.
+    std::vector<double> x, y;
+    for (int i = 0; i < 100000; ++i) {
+      x.push_back(std::cos(2 * pi * i / 100000.0));
+      y.push_back(std::sin(2 * pi * i / 100000.0));
+    }
+    const double got = detail::angular_coverage_deg(planar_points(x, y), Eigen::Vector3d::Zero(),
+                                                    Eigen::Matrix3d::Identity());
+    CHECK(got <= 360.0);
+    CHECK(got >= 360.0 - 0.014);
+  }
+  SECTION("points on the axis have no angle and are ignored; fewer than 2 give 0") {
+    CHECK(detail::angular_coverage_deg(planar_points({0.0, 1.0}, {0.0, 0.0}), Eigen::Vector3d::Zero(),
+                                       Eigen::Matrix3d::Identity()) == 0.0);
+    CHECK(detail::angular_coverage_deg(planar_points({0.0, 1.0, 0.0}, {0.0, 0.0, 1.0}),
+                                       Eigen::Vector3d::Zero(),
+                                       Eigen::Matrix3d::Identity()) == Approx(90.0));
+  }
+  SECTION("merging per-thread accumulators equals one accumulator") {
+    detail::ArcCoverage whole(100000), first(100000), second(100000);
+    for (int i = 0; i < 100000; ++i) {
+      const double a = 4.0 * unit(rng);  // 229 degrees of arc
+      whole.add(std::cos(a), std::sin(a));
+      (i % 2 ? first : second).add(std::cos(a), std::sin(a));
+    }
+    first.merge(second);
+    CHECK(first.degrees() == whole.degrees());
+    CHECK(whole.degrees() == Approx(4.0 * 180 / pi).margin(0.014));
+  }
+}
+
+TEST_CASE("covariance_from_normal_matrix is sigma^2 (J^T J)^-1 with sigma^2 = ssr / (n - p)",
+          "[fit_support]") {
+  Eigen::Matrix2d jtj;
+  jtj << 4, 1, 1, 3;
+  // Closed-form inverse of a 2x2 matrix: [d -b; -c a] / (ad - bc).
+  Eigen::Matrix2d inverse;
+  inverse << 3, -1, -1, 4;
+  inverse /= 11.0;
+  const Eigen::MatrixXd c = detail::covariance_from_normal_matrix(jtj, 6.0, 5);  // sigma^2 = 2
+  CHECK((c - 2.0 * inverse).norm() < 1e-15);
+  CHECK(detail::covariance_from_normal_matrix(jtj, 6.0, 2).norm() == 0.0);  // no redundancy
+}
+
+TEST_CASE("normal_matrix_is_singular", "[fit_support]") {
+  Eigen::Matrix3d m = Eigen::Matrix3d::Identity();
+  CHECK_FALSE(detail::normal_matrix_is_singular(m));
+  // Badly scaled but regular: Jacobi scaling makes it the identity.
+  m.diagonal() << 1e-20, 1.0, 1e20;
+  CHECK_FALSE(detail::normal_matrix_is_singular(m));
+  Eigen::Matrix3d dependent;
+  dependent << 1, 2, 3, 2, 4, 6, 3, 6, 10;  // rank 2
+  CHECK(detail::normal_matrix_is_singular(dependent));
+  m = Eigen::Matrix3d::Identity();
+  m(1, 1) = 0.0;
+  CHECK(detail::normal_matrix_is_singular(m));
+}
+
+TEST_CASE("gauss_newton solves a small nonlinear problem and reports the iteration limit",
+          "[fit_support]") {
+  // Fit y = exp(b t) to exact data with b = 0.7: residual r_i = exp(b t_i) - y_i,
+  // J_i = t_i exp(b t_i). The solution is known exactly.
+  std::vector<double> t, y;
+  for (int i = 0; i < 20; ++i) {
+    t.push_back(0.1 * i);
+    y.push_back(std::exp(0.7 * 0.1 * i));
+  }
+  auto evaluate = [&](const Eigen::Matrix<double, 1, 1>& b, Eigen::Matrix<double, 1, 1>& jtj,
+                      Eigen::Matrix<double, 1, 1>& jtr) {
+    jtj.setZero();
+    jtr.setZero();
+    double ssr = 0.0;
+    for (std::size_t i = 0; i < t.size(); ++i) {
+      const double e = std::exp(b(0) * t[i]);
+      const double r = e - y[i], j = t[i] * e;
+      jtj(0) += j * j;
+      jtr(0) += j * r;
+      ssr += r * r;
+    }
+    return ssr;
+  };
+  auto apply = [](const Eigen::Matrix<double, 1, 1>& b, const Eigen::Matrix<double, 1, 1>& step) {
+    return Eigen::Matrix<double, 1, 1>(b + step);
+  };
+  FitOptions options;
+  Eigen::Matrix<double, 1, 1> b;
+  b << 3.0;  // far start: the first full steps overshoot and are halved
+  const auto outcome = detail::gauss_newton<1>(b, evaluate, apply, Eigen::Matrix<double, 1, 1>::Ones(),
+                                               1.0, options, "singular");
+  CHECK(outcome.status == FitStatus::converged);
+  CHECK(b(0) == Approx(0.7).margin(1e-12));
+  CHECK(outcome.ssr < 1e-20);
+  b << 3.0;
+  options.max_iterations = 2;
+  const auto limited = detail::gauss_newton<1>(b, evaluate, apply, Eigen::Matrix<double, 1, 1>::Ones(),
+                                               1.0, options, "singular");
+  CHECK(limited.status == FitStatus::iteration_limit);
+  CHECK(limited.iterations == 2);
+  CHECK(std::abs(b(0) - 0.7) > 1e-6);
+}
+
+TEST_CASE("degeneracy helpers give one-line messages", "[fit_support]") {
+  CHECK_THROWS_WITH(detail::require_point_count(2, 3, "circle"),
+                    "a circle needs at least 3 points, got 2");
+  Eigen::Matrix3Xd same(3, 4);
+  same.colwise() = Eigen::Vector3d(2500.0, -1800.0, 3200.0);
+  CHECK_THROWS_WITH(detail::require_distinct_points(same, detail::centroid(same), "line"),
+                    "all 4 points coincide; a line needs distinct points");
+  CHECK_THROWS_AS(detail::centroid(Eigen::Matrix3Xd(3, 0)), FitError);
+  CHECK_THROWS_WITH(detail::checked_direction(Eigen::Vector3d::Zero(), "fixed direction"),
+                    Contains("fixed direction must be a finite, non-zero vector"));
+  CHECK(detail::checked_direction({0, 3, 4}, "x") == Eigen::Vector3d(0, 0.6, 0.8));
+  FitOptions options;
+  CHECK(detail::iteration_message(FitStatus::converged, 1, options) == "converged in 1 iteration");
+  CHECK_THAT(detail::iteration_message(FitStatus::iteration_limit, 100, options),
+             Contains("iteration limit (100)"));
+  FitSummary summary;
+  detail::warn_on_coverage(summary, 84.04, options);
+  REQUIRE(summary.warnings.size() == 1);
+  CHECK_THAT(summary.warnings[0], Contains("84.0 degrees"));
+  detail::warn_on_coverage(summary, 270.0, options);
+  CHECK(summary.warnings.size() == 1);
+  CHECK(detail::format_number(0.12345, 4) == "0.1235");
+}

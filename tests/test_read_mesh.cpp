@@ -1,0 +1,598 @@
+// Mesh and cloud input (PLY, OBJ, OFF, STL). Every file is written at test time by the small
+// writers below, which follow the published format descriptions and share no code with the
+// reader or with OpenMesh, so the reader is checked against independently written bytes:
+//  - PLY: G. Turk, "The PLY polygon file format" (1994);
+//  - OBJ: Wavefront "Object Files (.obj)", Advanced Visualizer manual, appendix B1;
+//  - OFF: Geomview manual, section "OFF files" (OpenMesh reads binary OFF in machine byte order);
+//  - STL: 3D Systems "StereoLithography Interface Specification" (1989): binary is an 80-byte
+//    header, a little-endian uint32 facet count and 50 bytes per facet.
+#include <catch2/catch.hpp>
+
+#include <fcntl.h>
+#include <unistd.h>
+
+#include <algorithm>
+#include <array>
+#include <cmath>
+#include <cstdint>
+#include <cstdio>
+#include <cstring>
+#include <filesystem>
+#include <fstream>
+#include <functional>
+#include <iostream>
+#include <limits>
+#include <optional>
+#include <random>
+#include <sstream>
+#include <string>
+#include <vector>
+
+#include "cylzone/errors.hpp"
+#include "cylzone/read_points.hpp"
+#include "expect_input_error.hpp"
+#include "temporary_folder.hpp"
+
+namespace fs = std::filesystem;
+using cylzone::PointCloud;
+using cylzone::ReadOptions;
+using cylzone::testing::expect_input_error;
+using cylzone::testing::TemporaryFolder;
+
+namespace {
+
+// ---------------------------------------------------------------- test data
+
+/// Random points in a 1 m box with all 53 bits of mantissa in use, and un-normalised normals.
+struct Cloud {
+  Eigen::Matrix3Xd points;
+  Eigen::Matrix3Xd normals;
+};
+
+Cloud random_cloud(int n, std::uint64_t seed) {
+  std::mt19937_64 rng(seed);
+  std::uniform_real_distribution<double> coordinate(-500.0, 500.0);
+  std::normal_distribution<double> direction(0.0, 1.0);
+  Cloud cloud{Eigen::Matrix3Xd(3, n), Eigen::Matrix3Xd(3, n)};
+  for (int i = 0; i < n; ++i) {
+    cloud.points.col(i) = Eigen::Vector3d(coordinate(rng), coordinate(rng), coordinate(rng));
+    Eigen::Vector3d v(direction(rng), direction(rng), direction(rng));
+    cloud.normals.col(i) = 2.5 * v / v.norm();
+  }
+  return cloud;
+}
+
+/// Triangles of a fan over consecutive points: (0,1,2), (0,2,3), ... sharing vertices.
+std::vector<std::array<int, 3>> fan(int n) {
+  std::vector<std::array<int, 3>> faces;
+  for (int i = 1; i + 1 < n; ++i) faces.push_back({0, i, i + 1});
+  return faces;
+}
+
+std::string g17(double value) {
+  char buffer[40];
+  std::snprintf(buffer, sizeof buffer, "%.17g", value);
+  return buffer;
+}
+
+// ---------------------------------------------------------------- independent writers
+
+template <class T>
+void put_binary(std::string& out, T value, bool big_endian) {
+  unsigned char b[sizeof(T)];
+  std::memcpy(b, &value, sizeof(T));
+  // The test machine is little-endian (x86-64); reverse for big-endian files.
+  if (big_endian) std::reverse(b, b + sizeof(T));
+  out.append(reinterpret_cast<const char*>(b), sizeof(T));
+}
+
+enum class PlyEncoding { ascii, little_endian, big_endian };
+
+std::string write_ply(const Cloud& cloud, bool normals, PlyEncoding encoding, bool doubles,
+                      bool faces) {
+  const auto n = static_cast<int>(cloud.points.cols());
+  const char* type = doubles ? "double" : "float";
+  std::string out = "ply\nformat ";
+  out += encoding == PlyEncoding::ascii           ? "ascii"
+         : encoding == PlyEncoding::little_endian ? "binary_little_endian"
+                                                  : "binary_big_endian";
+  out += " 1.0\ncomment written by the cylzone tests\nelement vertex " + std::to_string(n) + "\n";
+  for (const char* name : {"x", "y", "z"}) out += std::string("property ") + type + " " + name + "\n";
+  if (normals)
+    for (const char* name : {"nx", "ny", "nz"}) out += std::string("property ") + type + " " + name + "\n";
+  out += "property uchar quality\n";  // an extra property the reader must skip
+  const auto triangles = fan(n);
+  if (faces)
+    out += "element face " + std::to_string(triangles.size()) +
+           "\nproperty list uchar int vertex_indices\n";
+  out += "end_header\n";
+  for (int i = 0; i < n; ++i) {
+    double values[6] = {cloud.points(0, i), cloud.points(1, i), cloud.points(2, i),
+                        cloud.normals(0, i), cloud.normals(1, i), cloud.normals(2, i)};
+    const int count = normals ? 6 : 3;
+    if (encoding == PlyEncoding::ascii) {
+      for (int k = 0; k < count; ++k) out += g17(values[k]) + " ";
+      out += "7\n";
+    } else {
+      const bool big = encoding == PlyEncoding::big_endian;
+      for (int k = 0; k < count; ++k) {
+        if (doubles) put_binary(out, values[k], big);
+        else put_binary(out, static_cast<float>(values[k]), big);
+      }
+      put_binary(out, static_cast<std::uint8_t>(7), big);
+    }
+  }
+  if (faces)
+    for (const auto& t : triangles) {
+      if (encoding == PlyEncoding::ascii) {
+        out += "3 " + std::to_string(t[0]) + " " + std::to_string(t[1]) + " " + std::to_string(t[2]) + "\n";
+      } else {
+        const bool big = encoding == PlyEncoding::big_endian;
+        put_binary(out, static_cast<std::uint8_t>(3), big);
+        for (int v : t) put_binary(out, static_cast<std::int32_t>(v), big);
+      }
+    }
+  return out;
+}
+
+std::string write_obj(const Cloud& cloud, bool normals) {
+  const auto n = static_cast<int>(cloud.points.cols());
+  std::string out = "# written by the cylzone tests\no scan\n";
+  for (int i = 0; i < n; ++i)
+    out += "v " + g17(cloud.points(0, i)) + " " + g17(cloud.points(1, i)) + " " +
+           g17(cloud.points(2, i)) + "\n";
+  if (normals)
+    for (int i = 0; i < n; ++i)
+      out += "vn " + g17(cloud.normals(0, i)) + " " + g17(cloud.normals(1, i)) + " " +
+             g17(cloud.normals(2, i)) + "\n";
+  for (const auto& t : fan(n)) {
+    out += "f";
+    for (int v : t) out += " " + std::to_string(v + 1) + (normals ? "//" + std::to_string(v + 1) : "");
+    out += "\n";
+  }
+  return out;
+}
+
+std::string write_off(const Cloud& cloud, bool normals) {
+  const auto n = static_cast<int>(cloud.points.cols());
+  const auto triangles = fan(n);
+  // No '#' comment: the format allows them, OpenMesh's OFF reader does not (see the bad cases).
+  std::string out = std::string(normals ? "NOFF" : "OFF") + "\n" + std::to_string(n) + " " +
+                    std::to_string(triangles.size()) + " 0\n";
+  for (int i = 0; i < n; ++i) {
+    out += g17(cloud.points(0, i)) + " " + g17(cloud.points(1, i)) + " " + g17(cloud.points(2, i));
+    if (normals)
+      out += " " + g17(cloud.normals(0, i)) + " " + g17(cloud.normals(1, i)) + " " +
+             g17(cloud.normals(2, i));
+    out += "\n";
+  }
+  for (const auto& t : triangles)
+    out += "3 " + std::to_string(t[0]) + " " + std::to_string(t[1]) + " " + std::to_string(t[2]) + "\n";
+  return out;
+}
+
+std::string write_stl(const Cloud& cloud, bool binary) {
+  const auto triangles = fan(static_cast<int>(cloud.points.cols()));
+  std::string out;
+  if (binary) {
+    // Binary files may start with "solid" too; the size decides.
+    const std::string header = "solid-looking header of a binary STL";
+    out = header + std::string(80 - header.size(), ' ');
+    put_binary(out, static_cast<std::uint32_t>(triangles.size()), false);
+    for (const auto& t : triangles) {
+      for (int k = 0; k < 3; ++k) put_binary(out, 0.0f, false);  // facet normal
+      for (int v : t)
+        for (int k = 0; k < 3; ++k) put_binary(out, static_cast<float>(cloud.points(k, v)), false);
+      put_binary(out, static_cast<std::uint16_t>(0), false);
+    }
+    return out;
+  }
+  out = "solid scan\n";
+  for (const auto& t : triangles) {
+    out += "  facet normal 0 0 0\n    outer loop\n";
+    for (int v : t)
+      out += "      vertex " + g17(static_cast<float>(cloud.points(0, v))) + " " +
+             g17(static_cast<float>(cloud.points(1, v))) + " " +
+             g17(static_cast<float>(cloud.points(2, v))) + "\n";
+    out += "    endloop\n  endfacet\n";
+  }
+  return out + "endsolid scan\n";
+}
+
+// ---------------------------------------------------------------- comparisons
+
+Eigen::Matrix3Xd normalised(const Eigen::Matrix3Xd& v) { return v.colwise().normalized(); }
+
+double max_relative_difference(const Eigen::Matrix3Xd& a, const Eigen::Matrix3Xd& b) {
+  REQUIRE(a.cols() == b.cols());
+  double worst = 0.0;
+  for (Eigen::Index i = 0; i < a.cols(); ++i)
+    for (int r = 0; r < 3; ++r)
+      worst = std::max(worst, std::abs(a(r, i) - b(r, i)) / std::max(std::abs(b(r, i)), 1e-300));
+  return worst;
+}
+
+/// Columns sorted lexicographically, for formats whose vertex order is the reader's (STL).
+std::vector<std::array<double, 3>> sorted_columns(const Eigen::Matrix3Xd& m) {
+  std::vector<std::array<double, 3>> out;
+  for (Eigen::Index i = 0; i < m.cols(); ++i) out.push_back({m(0, i), m(1, i), m(2, i)});
+  std::sort(out.begin(), out.end());
+  return out;
+}
+
+Eigen::Matrix3Xd as_floats(const Eigen::Matrix3Xd& m) {
+  return m.cast<float>().cast<double>();
+}
+
+/// Redirects the process's stdout and stderr (file descriptors 1 and 2) into a file for its
+/// lifetime, so a test sees whatever a library would print to the terminal by any route.
+class TerminalCapture {
+ public:
+  explicit TerminalCapture(const fs::path& file) : file_(file) {
+    flush_all();
+    const int fd = ::open(file.c_str(), O_CREAT | O_TRUNC | O_WRONLY, 0600);
+    saved_out_ = ::dup(1);
+    saved_err_ = ::dup(2);
+    ::dup2(fd, 1);
+    ::dup2(fd, 2);
+    ::close(fd);
+  }
+  ~TerminalCapture() { release(); }
+  /// Restores the terminal and returns what was written meanwhile.
+  std::string release() {
+    if (saved_out_ >= 0) {
+      flush_all();
+      ::dup2(saved_out_, 1);
+      ::dup2(saved_err_, 2);
+      ::close(saved_out_);
+      ::close(saved_err_);
+      saved_out_ = saved_err_ = -1;
+    }
+    std::ifstream in(file_, std::ios::binary);
+    std::ostringstream text;
+    text << in.rdbuf();
+    return text.str();
+  }
+
+ private:
+  static void flush_all() {
+    std::cout.flush();
+    std::cerr.flush();
+    std::clog.flush();
+    std::fflush(nullptr);
+  }
+  fs::path file_;
+  int saved_out_ = -1;
+  int saved_err_ = -1;
+};
+
+}  // namespace
+
+// ====================================================================== reading back
+
+TEST_CASE("ASCII PLY keeps double precision, with and without normals and faces", "[read][mesh]") {
+  TemporaryFolder folder("read-mesh");
+  const Cloud cloud = random_cloud(30, 1);
+  for (const bool normals : {false, true})
+    for (const bool faces : {false, true}) {
+      INFO("normals " << normals << ", faces " << faces);
+      const fs::path file = folder.write("scan.ply", write_ply(cloud, normals, PlyEncoding::ascii, true, faces));
+      const PointCloud read = cylzone::read_points(file);
+      REQUIRE(read.size() == 30);
+      // %.17g round-trips a double, so nothing less than equality is right (brief: 1e-12).
+      CHECK(max_relative_difference(read.points, cloud.points) == 0.0);
+      CHECK(read.has_vectors() == normals);
+      if (normals) CHECK(max_relative_difference(read.vectors, normalised(cloud.normals)) <= 4e-16);
+    }
+}
+
+TEST_CASE("binary PLY: double and float, both byte orders", "[read][mesh]") {
+  TemporaryFolder folder("read-mesh");
+  const Cloud cloud = random_cloud(24, 2);
+  for (const PlyEncoding encoding : {PlyEncoding::little_endian, PlyEncoding::big_endian})
+    for (const bool doubles : {true, false})
+      for (const bool normals : {false, true}) {
+        INFO("big endian " << (encoding == PlyEncoding::big_endian) << ", doubles " << doubles
+                           << ", normals " << normals);
+        const fs::path file = folder.write("scan.ply", write_ply(cloud, normals, encoding, doubles, true));
+        const PointCloud read = cylzone::read_points(file);
+        REQUIRE(read.size() == 24);
+        CHECK(read.points == (doubles ? cloud.points : as_floats(cloud.points)));
+        REQUIRE(read.has_vectors() == normals);
+        if (normals) {
+          const Eigen::Matrix3Xd written = doubles ? cloud.normals : as_floats(cloud.normals);
+          CHECK(max_relative_difference(read.vectors, normalised(written)) <= 4e-16);
+        }
+      }
+}
+
+TEST_CASE("a vertex-only PLY cloud (no face element) loads", "[read][mesh]") {
+  TemporaryFolder folder("read-mesh");
+  const Cloud cloud = random_cloud(1000, 3);
+  const fs::path file =
+      folder.write("cloud.ply", write_ply(cloud, false, PlyEncoding::little_endian, false, false));
+  const PointCloud read = cylzone::read_points(file);
+  CHECK(read.size() == 1000);
+  CHECK(read.points == as_floats(cloud.points));
+  CHECK_FALSE(read.has_vectors());
+}
+
+TEST_CASE("fixture: hand-written ASCII PLY cloud with normals", "[read][mesh]") {
+  const fs::path file = fs::path(CYLZONE_TEST_DATA_DIR) / "input" / "cloud_vertices.ply";
+  const PointCloud read = cylzone::read_points(file);
+  REQUIRE(read.size() == 4);
+  REQUIRE(read.has_vectors());
+  CHECK(read.points.col(1) == Eigen::Vector3d(0, 12.5, -3.25));
+  CHECK(read.vectors.col(1) == Eigen::Vector3d(0, 1, 0));
+  CHECK(read.vectors.col(3).isApprox(Eigen::Vector3d(0, -std::sqrt(0.5), std::sqrt(0.5)), 1e-15));
+}
+
+TEST_CASE("PLY elements before the vertex element are skipped", "[read][mesh]") {
+  TemporaryFolder folder("read-mesh");
+  const std::string text =
+      "ply\nformat ascii 1.0\nelement camera 2\nproperty float view\nproperty float zoom\n"
+      "element vertex 2\nproperty float w\nproperty double x\nproperty double y\nproperty double z\n"
+      "end_header\n1.5 2\n2.5 0\n9 0.125 -1e-3 1234.5678901234567\n9 1 2 3\n";
+  const PointCloud read = cylzone::read_points(folder.write("cam.ply", text));
+  REQUIRE(read.size() == 2);
+  CHECK(read.points.col(0) == Eigen::Vector3d(0.125, -1e-3, 1234.5678901234567));
+  CHECK(read.points.col(1) == Eigen::Vector3d(1, 2, 3));
+}
+
+TEST_CASE("OBJ with vn keeps double coordinates and gets its normals", "[read][mesh]") {
+  TemporaryFolder folder("read-mesh");
+  const Cloud cloud = random_cloud(20, 4);
+  const PointCloud with = cylzone::read_points(folder.write("part.obj", write_obj(cloud, true)));
+  REQUIRE(with.size() == 20);
+  CHECK(max_relative_difference(with.points, cloud.points) == 0.0);
+  REQUIRE(with.has_vectors());
+  // OpenMesh stores OBJ normals in single precision; direction agrees to float rounding.
+  CHECK(max_relative_difference(with.vectors, normalised(cloud.normals)) <= 1e-6);
+  const PointCloud without = cylzone::read_points(folder.write("plain.obj", write_obj(cloud, false)));
+  CHECK(without.points == cloud.points);
+  CHECK_FALSE(without.has_vectors());
+}
+
+TEST_CASE("OBJ normals are used only when every vertex gets one", "[read][mesh]") {
+  TemporaryFolder folder("read-mesh");
+  const auto read = [&](const std::string& text) {
+    return cylzone::read_points(folder.write("n.obj", text));
+  };
+  // Every vertex named with a normal by some face corner, relative and v/t/n forms included.
+  const PointCloud all = read("v 1 0 0\nv 0 1 0\nv 0 0 1\nvt 0 0\nvn 0 0 2\nvn 0 3 0\n"
+                              "f -3//1 -2/1/2 -1//1\n");
+  REQUIRE(all.has_vectors());
+  CHECK(all.vectors.col(1) == Eigen::Vector3d(0, 1, 0));
+  CHECK(all.vectors.col(2) == Eigen::Vector3d(0, 0, 1));
+  // No faces: the n-th vn belongs to the n-th vertex when the counts match.
+  CHECK(read("v 1 0 0\nv 0 1 0\nvn 1 0 0\nvn 0 1 0\n").has_vectors());
+  // Otherwise some vertex would have no normal: no vectors at all, points still read.
+  const PointCloud partial = read("v 1 0 0\nv 0 1 0\nv 0 0 1\nv 5 5 5\nvn 0 0 1\nf 1//1 2//1 3//1\n");
+  CHECK(partial.size() == 4);
+  CHECK_FALSE(partial.has_vectors());
+  CHECK_FALSE(read("v 1 0 0\nv 0 1 0\nv 0 0 1\nvn 0 0 1\n").has_vectors());
+  CHECK_FALSE(read("v 1 0 0\nv 0 1 0\nv 0 0 1\nvn 0 0 1\nvn 0 1 0\nvn 1 0 0\nf 1 2 3\n").has_vectors());
+}
+
+TEST_CASE("OFF and NOFF keep double coordinates", "[read][mesh]") {
+  TemporaryFolder folder("read-mesh");
+  const Cloud cloud = random_cloud(15, 5);
+  const PointCloud plain = cylzone::read_points(folder.write("part.off", write_off(cloud, false)));
+  CHECK(plain.points == cloud.points);
+  CHECK_FALSE(plain.has_vectors());
+  const PointCloud with = cylzone::read_points(folder.write("normals.off", write_off(cloud, true)));
+  CHECK(with.points == cloud.points);
+  REQUIRE(with.has_vectors());
+  CHECK(max_relative_difference(with.vectors, normalised(cloud.normals)) <= 4e-16);
+}
+
+TEST_CASE("binary OFF (float32, machine byte order) loads", "[read][mesh]") {
+  TemporaryFolder folder("read-mesh");
+  const Cloud cloud = random_cloud(6, 6);
+  std::string bytes = "OFF BINARY\n";
+  for (const std::int32_t count : {6, 0, 0}) put_binary(bytes, count, false);
+  for (int i = 0; i < 6; ++i)
+    for (int k = 0; k < 3; ++k) put_binary(bytes, static_cast<float>(cloud.points(k, i)), false);
+  const PointCloud read = cylzone::read_points(folder.write("binary.off", bytes));
+  CHECK(read.points == as_floats(cloud.points));
+}
+
+TEST_CASE("ASCII and binary STL: the distinct facet corners become points", "[read][mesh]") {
+  TemporaryFolder folder("read-mesh");
+  const Cloud cloud = random_cloud(12, 7);  // 10 fan triangles, 30 corners, 12 vertices
+  const auto expected = sorted_columns(as_floats(cloud.points));
+  for (const bool binary : {false, true}) {
+    INFO("binary " << binary);
+    const PointCloud read = cylzone::read_points(folder.write("part.stl", write_stl(cloud, binary)));
+    CHECK(read.size() == 12);
+    CHECK(sorted_columns(read.points) == expected);
+    CHECK_FALSE(read.has_vectors());  // STL has facet normals only
+  }
+}
+
+TEST_CASE("a forced mesh format works under any name", "[read][mesh]") {
+  TemporaryFolder folder("read-mesh");
+  const Cloud cloud = random_cloud(9, 8);
+  ReadOptions options;
+  options.format = cylzone::PointFileFormat::ply;
+  CHECK(cylzone::read_points(folder.write("scan.dat", write_ply(cloud, true, PlyEncoding::big_endian, true, true)),
+                             options).points == cloud.points);
+  options.format = cylzone::PointFileFormat::stl;
+  CHECK(cylzone::read_points(folder.write("scan.bin", write_stl(cloud, true)), options).size() == 9);
+  options.format = cylzone::PointFileFormat::obj;
+  CHECK(cylzone::read_points(folder.write("scan.txt", write_obj(cloud, false)), options).points == cloud.points);
+}
+
+TEST_CASE("mesh files in inches are converted to mm", "[read][mesh]") {
+  // 25.4 mm per inch exactly (international inch, 1959; common practice).
+  TemporaryFolder folder("read-mesh");
+  const Cloud cloud = random_cloud(5, 9);
+  ReadOptions inch;
+  inch.unit = cylzone::LengthUnit::inch;
+  const PointCloud read =
+      cylzone::read_points(folder.write("scan.ply", write_ply(cloud, true, PlyEncoding::ascii, true, false)), inch);
+  CHECK(read.file_unit == cylzone::LengthUnit::inch);
+  CHECK(read.points == cloud.points * 25.4);
+  CHECK(max_relative_difference(read.vectors, normalised(cloud.normals)) <= 4e-16);
+}
+
+// ====================================================================== bad input
+
+namespace {
+
+struct BadMesh {
+  std::string name;
+  std::string bytes;
+  std::size_t line;
+  std::string problem;
+  std::optional<cylzone::PointFileFormat> format = std::nullopt;
+};
+
+std::vector<BadMesh> bad_meshes() {
+  const Cloud cloud = random_cloud(10, 10);
+  const std::string binary_ply = write_ply(cloud, false, PlyEncoding::little_endian, true, true);
+  const std::string ascii_ply = write_ply(cloud, false, PlyEncoding::ascii, true, false);
+  const std::size_t header_end = binary_ply.find("end_header\n") + 11;
+  const std::string ascii_header = ascii_ply.substr(0, ascii_ply.find("end_header\n") + 11);
+  // Vertex k (1-based) of the ASCII file is on line header_lines + k.
+  const auto header_lines = static_cast<std::size_t>(std::count(ascii_header.begin(), ascii_header.end(), '\n'));
+  std::string ascii_nan = ascii_header;
+  ascii_nan += "1 2 3 7\n4 nan 6 7\n";
+  ascii_nan.replace(ascii_nan.find("vertex 10"), 9, "vertex 2");
+  std::string binary_nan = binary_ply;
+  const double nan = std::numeric_limits<double>::quiet_NaN();
+  std::memcpy(&binary_nan[header_end + 3 * 25 + 8], &nan, sizeof nan);  // vertex 4, y
+  std::string zero_normal =
+      "ply\nformat ascii 1.0\nelement vertex 2\nproperty float x\nproperty float y\n"
+      "property float z\nproperty float nx\nproperty float ny\nproperty float nz\nend_header\n"
+      "1 2 3 0 0 1\n4 5 6 0 0 0\n";
+  const std::string binary_stl = write_stl(cloud, true);
+  const std::string ascii_stl = write_stl(cloud, false);
+  std::mt19937_64 rng(11);
+  std::string noise(3000, '\0');
+  for (char& c : noise) c = static_cast<char>(rng() & 0xff);
+
+  return {
+      // PLY
+      {"cut-vertices.ply", binary_ply.substr(0, header_end + 5 * 25 + 7), 0,
+       "binary little-endian PLY data ends in vertex 6 of 10 (truncated?)"},
+      {"cut-faces.ply", binary_ply.substr(0, binary_ply.size() - 6), 0,
+       "OpenMesh could not read it as binary little-endian PLY"},
+      {"cut-ascii.ply", ascii_ply.substr(0, ascii_ply.size() - 30), header_lines + 10,
+       "ASCII PLY data ends in vertex 10 of 10 (truncated?)"},
+      {"cut-header.ply", ascii_ply.substr(0, 60), 4, "unknown PLY header keyword 'el'"},
+      {"no-end-header.ply", ascii_header.substr(0, ascii_header.size() - 11), header_lines - 1,
+       "PLY header has no 'end_header' line"},
+      {"no-vertex.ply", "ply\nformat ascii 1.0\nelement point 1\nproperty float x\nend_header\n1\n", 0,
+       "PLY file has no 'vertex' element"},
+      {"no-z.ply", "ply\nformat ascii 1.0\nelement vertex 1\nproperty float x\nproperty float y\nend_header\n1 2\n",
+       0, "PLY vertex element has no property 'z'"},
+      {"not-ply.ply", "solid nothing\nendsolid\n", 1, "not a PLY file"},
+      {"noise.ply", noise, 1, "not a PLY file"},
+      {"nan.ply", ascii_nan, header_lines + 2, "ASCII PLY vertex 2: property 'y' is NaN or infinite: 'nan'"},
+      {"nan-binary.ply", binary_nan, 0, "binary little-endian PLY vertex 4 has a NaN or infinite coordinate"},
+      {"zero.ply", "ply\nformat ascii 1.0\nelement vertex 0\nproperty float x\nproperty float y\n"
+                   "property float z\nend_header\n", 0, "declares 0 vertices"},
+      {"huge.ply", "ply\nformat binary_little_endian 1.0\nelement vertex 4000000000\nproperty float x\n"
+                   "property float y\nproperty float z\nend_header\n" + std::string(24, '\0'), 0,
+       "declares 4000000000 vertices but only 24 bytes"},
+      {"zero-normal.ply", zero_normal, 12, "vertex 2 has a zero-length normal"},
+      {"unknown-type.ply", "ply\nformat ascii 1.0\nelement vertex 1\nproperty float128 x\nend_header\n", 4,
+       "unknown PLY property type 'float128'"},
+      {"empty.ply", "", 0, "the file is empty"},
+      // Valid PLY that OpenMesh 9 misreads (a list property outside the face element).
+      {"vertex-list.ply", "ply\nformat ascii 1.0\nelement vertex 2\nproperty double x\nproperty double y\n"
+                          "property double z\nproperty list uchar float k\nend_header\n"
+                          "0.5 -1 2 2 7 7\n1 2 3 0\n", 10,
+       "ASCII PLY vertex 2: coordinate read as 7 by OpenMesh but 1 by the structure "
+       "scan (OpenMesh's PLY reader supports list properties only in the face element)"},
+      // OBJ
+      {"noise.obj", noise, 0, "looks like binary data; not OBJ text"},
+      {"short.obj", "v 1 2 3\nv 4 5\n", 2, "OBJ vertex 2 needs x y z, found 2 values"},
+      {"nan.obj", "# c\nv 1 2 3\nv 4 5 inf\n", 3, "OBJ vertex 2: z is NaN or infinite: 'inf'"},
+      {"novertex.obj", "# only normals\nvn 0 0 1\n", 0, "no points: the OBJ file has no 'v' lines"},
+      {"empty.obj", "", 0, "the file is empty"},
+      // OFF
+      {"cut.off", "OFF\n3 0 0\n1 2 3\n4 5 6\n", 4, "OFF file ends after 2 of 3 vertices (truncated?)"},
+      {"short.off", "OFF\n3 0 0\n1 2 3\n4 5\n7 8 9\n", 4, "OFF vertex 2 has 2 values, needs x y z"},
+      {"nan.off", "OFF\n# comment\n2 0 0\n1 2 3\nnan 5 6\n", 5, "ASCII OFF vertex 2: x is NaN or infinite"},
+      {"not.off", "ply\n3 0 0\n", 1, "not an OFF file: it starts with 'ply'"},
+      {"noise.off", noise, 0, "looks like binary data; not OFF"},
+      {"zero.off", "OFF\n0 0 0\n", 2, "declares 0 vertices"},
+      // Valid OFF that OpenMesh 9 misreads (nothing, or garbage): refused, never returned.
+      {"comment-after.off", "OFF\n# c\n3 0 0\n1 2 3\n4 5 6\n7 8 9\n", 0,
+       "OpenMesh read 0 vertices but the ASCII OFF holds 3 (OpenMesh's OFF reader accepts no '#'"},
+      {"comment-before.off", "# c\nOFF\n3 0 0\n1 2 3\n4 5 6\n7 8 9\n", 0,
+       "OpenMesh could not read it as ASCII OFF"},
+      {"comment-inside.off", "OFF\n3 0 0\n# c\n1 2 3\n4 5 6\n7 8 9\n", 4,
+       "ASCII OFF vertex 1: coordinate read as"},
+      {"counts-on-keyword-line.off", "OFF 3 0 0\n1 2 3\n4 5 6\n7 8 9\n", 0, "OpenMesh read 1 vertices"},
+      {"points.txt", "OFF\n1 0 0\n1 2 3\n", 0, "OpenMesh reads OFF files only under a .off name",
+       cylzone::PointFileFormat::off},
+      // STL
+      {"cut.stl", binary_stl.substr(0, binary_stl.size() - 20), 0,
+       "binary STL header declares 8 facets (484 bytes) but the file has 464 bytes"},
+      {"cut-ascii.stl", ascii_stl.substr(0, ascii_stl.size() / 2), 0,
+       "ASCII STL does not end with an 'endsolid' line (truncated?)"},
+      {"tiny.stl", "abc", 0, "not an STL file"},
+      {"empty.stl", "", 0, "the file is empty"},
+      {"no-facets.stl", std::string(80, 'h') + std::string(4, '\0'), 0, "the binary STL has 0 facets"},
+      {"nan.stl", "solid s\nfacet normal 0 0 1\nouter loop\nvertex 0 0 0\nvertex 1 0 nan\nvertex 0 1 0\n"
+                  "endloop\nendfacet\nendsolid s\n", 5, "ASCII STL facet corner 2: z is NaN or infinite: 'nan'"},
+  };
+}
+
+}  // namespace
+
+TEST_CASE("bad mesh files give one InputError naming file, line and problem", "[read][mesh]") {
+  TemporaryFolder folder("read-mesh");
+  for (const BadMesh& bad : bad_meshes()) {
+    INFO("file " << bad.name);
+    const fs::path file = folder.write(bad.name, bad.bytes);
+    ReadOptions options;
+    options.format = bad.format;
+    expect_input_error([&] { cylzone::read_points(file, options); }, file.string(), bad.line,
+                       bad.problem);
+  }
+}
+
+TEST_CASE("nothing reaches the terminal while meshes are read, good or bad", "[read][mesh]") {
+  TemporaryFolder folder("read-mesh");
+  const Cloud cloud = random_cloud(10, 12);
+  std::vector<fs::path> files;
+  for (const BadMesh& bad : bad_meshes()) files.push_back(folder.write(bad.name, bad.bytes));
+  // Faces OpenMesh refuses (a repeated vertex, an index out of range) make it complain on its
+  // log stream while the vertices still load.
+  files.push_back(folder.write("odd-faces.ply",
+                               "ply\nformat ascii 1.0\nelement vertex 3\nproperty float x\nproperty float y\n"
+                               "property float z\nelement face 2\nproperty list uchar int vertex_indices\n"
+                               "end_header\n0 0 0\n1 0 0\n0 1 0\n3 0 0 1\n3 0 1 9\n"));
+  files.push_back(folder.write("good.ply", write_ply(cloud, true, PlyEncoding::big_endian, true, true)));
+  files.push_back(folder.write("good.obj", write_obj(cloud, true)));
+  files.push_back(folder.write("good.stl", write_stl(cloud, false)));
+
+  std::vector<std::string> outcomes;
+  std::string printed;
+  {
+    TerminalCapture capture(folder.path() / "terminal.txt");
+    for (const fs::path& file : files) {
+      try {
+        outcomes.push_back("read " + std::to_string(cylzone::read_points(file).size()));
+      } catch (const cylzone::InputError& e) {
+        outcomes.push_back(std::string("InputError ") + e.what());
+      } catch (const std::exception& e) {
+        outcomes.push_back(std::string("other exception ") + e.what());
+      }
+    }
+    printed = capture.release();
+  }
+  CHECK(printed.empty());
+  INFO("printed: " << printed);
+  REQUIRE(outcomes.size() == files.size());
+  const std::size_t bad_count = bad_meshes().size();
+  for (std::size_t i = 0; i < outcomes.size(); ++i) {
+    INFO(files[i].filename().string() << ": " << outcomes[i]);
+    CHECK(outcomes[i].rfind(i < bad_count ? "InputError " : "read ", 0) == 0);
+  }
+  CHECK(outcomes[outcomes.size() - 4] == "read 3");
+}

@@ -1,0 +1,128 @@
+// Cross-sections of a bore and their least-squares circles (ISO 17450-3: extracted median line
+// from least-squares circle centres in sections perpendicular to the associated axis), against
+// null-space reference circles with known centres (Forbes & Minh 2012, as for ISO 10360-6).
+#include <catch2/catch.hpp>
+
+#include <Eigen/Geometry>
+#include <cmath>
+#include <vector>
+
+#include "cylzone/errors.hpp"
+#include "cylzone/sections.hpp"
+#include "reference_data.hpp"
+
+using namespace cylzone;
+using namespace cylzone::testing;
+using Catch::Matchers::Contains;
+
+namespace {
+
+// A bore whose median line bends: level k has its own known centre and radius.
+struct BentBore {
+  Axis axis;
+  std::vector<double> heights;
+  std::vector<Eigen::Vector3d> centres;
+  std::vector<double> radii;
+  Eigen::Matrix3Xd points;
+};
+
+BentBore make_bent_bore() {
+  BentBore bore;
+  bore.axis = {{2500.0, -1800.0, 3200.0}, direction_from_angles(10.0, 70.0)};
+  const Eigen::Vector3d u = bore.axis.direction.unitOrthogonal();
+  const Eigen::Vector3d v = bore.axis.direction.cross(u);
+  bore.heights = {2.0, 8.0, 14.0, 20.0, 26.0};
+  std::vector<ReferenceSet> levels;
+  Eigen::Index total = 0;
+  for (std::size_t k = 0; k < bore.heights.size(); ++k) {
+    const double h = bore.heights[k];
+    bore.centres.push_back(bore.axis.point + h * bore.axis.direction + 0.003 * std::sin(h) * u +
+                           0.002 * std::cos(h) * v);
+    bore.radii.push_back(7.5 + 0.001 * static_cast<double>(k));
+    levels.push_back(make_circle_reference(bore.centres.back(), bore.axis.direction,
+                                           bore.radii.back(), 15.0 * k, 360.0, 36, 0.001, 50 + k));
+    total += levels.back().points.cols();
+  }
+  bore.points.resize(3, total);
+  Eigen::Index at = 0;
+  for (const ReferenceSet& level : levels) {
+    bore.points.middleCols(at, level.points.cols()) = level.points;
+    at += level.points.cols();
+  }
+  return bore;
+}
+
+}  // namespace
+
+TEST_CASE("find_section_levels clusters the probed levels", "[sections]") {
+  const BentBore bore = make_bent_bore();
+  const std::vector<double> levels = find_section_levels(bore.points, bore.axis, 1.0);
+  REQUIRE(levels.size() == bore.heights.size());
+  for (std::size_t k = 0; k < levels.size(); ++k) CHECK(levels[k] == Approx(bore.heights[k]).margin(1e-9));
+  // A gap larger than the level spacing merges everything into one level at the mean height.
+  const std::vector<double> one = find_section_levels(bore.points, bore.axis, 10.0);
+  REQUIRE(one.size() == 1);
+  CHECK(one[0] == Approx(14.0).margin(1e-9));
+  CHECK(find_section_levels(Eigen::Matrix3Xd(3, 0), bore.axis, 1.0).empty());
+  CHECK_THROWS_WITH(find_section_levels(bore.points, bore.axis, 0.0), Contains("gap must be positive"));
+}
+
+TEST_CASE("section circles reproduce the known centres of a bent bore", "[sections][least_squares]") {
+  const BentBore bore = make_bent_bore();
+  const SectionsResult result = fit_sections_least_squares(bore.points, bore.axis, bore.heights);
+  REQUIRE(result.sections.size() == bore.heights.size());
+  CHECK(result.summary.warnings.empty());
+  CHECK(result.summary.point_count == static_cast<std::size_t>(bore.points.cols()));
+  CHECK_THAT(result.summary.message, Contains("5 of 5 sections"));
+  for (std::size_t k = 0; k < bore.heights.size(); ++k) {
+    const SectionCircle& s = result.sections[k];
+    CHECK(s.height == bore.heights[k]);
+    CHECK((s.circle.centre - bore.centres[k]).norm() < 1e-9);
+    CHECK(std::abs(s.circle.radius - bore.radii[k]) < 1e-9);
+    CHECK(angle_between_lines(s.circle.normal, bore.axis.direction) < 1e-15);
+    CHECK(s.circle.normal.dot(bore.axis.direction) > 0.0);  // normals follow the axis
+    CHECK((s.circle.centre - bore.axis.point).dot(bore.axis.direction) ==
+          Approx(bore.heights[k]).margin(1e-9));
+  }
+}
+
+TEST_CASE("section membership, placement and skipped sections", "[sections]") {
+  const BentBore bore = make_bent_bore();
+  SectionOptions options;
+  options.half_thickness = 0.5;
+  SECTION("a section height between planes takes the points within the half thickness") {
+    const SectionsResult r = fit_sections_least_squares(bore.points, bore.axis, {2.4, 7.4}, options);
+    REQUIRE(r.sections.size() == 1);  // 7.4 is 0.6 from the level at 8
+    CHECK(r.sections[0].height == 2.4);
+    // The level-2 circle, moved along the axis into the plane at 2.4.
+    CHECK((r.sections[0].circle.centre - (bore.centres[0] + 0.4 * bore.axis.direction)).norm() < 1e-9);
+    REQUIRE(r.summary.warnings.size() == 1);
+    CHECK_THAT(r.summary.warnings[0], Contains("section at height 7.4000 mm skipped") &&
+                                          Contains("0 points"));
+  }
+  SECTION("too few points") {
+    options.min_points = 40;
+    const SectionsResult r = fit_sections_least_squares(bore.points, bore.axis, {8.0}, options);
+    CHECK(r.sections.empty());
+    REQUIRE(r.summary.warnings.size() == 1);
+    CHECK_THAT(r.summary.warnings[0], Contains("36 points") && Contains("at least 40"));
+    CHECK_THAT(r.summary.message, Contains("0 of 1"));
+  }
+  SECTION("a section whose points cannot fix a circle is skipped with the reason") {
+    Eigen::Matrix3Xd wall(3, 6);
+    for (int i = 0; i < 6; ++i)
+      wall.col(i) = bore.axis.point + bore.axis.direction.unitOrthogonal() * i;
+    const SectionsResult r = fit_sections_least_squares(wall, bore.axis, {0.0}, options);
+    CHECK(r.sections.empty());
+    REQUIRE(r.summary.warnings.size() == 1);
+    CHECK_THAT(r.summary.warnings[0], Contains("straight line"));
+  }
+  SECTION("bad options") {
+    options.half_thickness = 0.0;
+    CHECK_THROWS_WITH(fit_sections_least_squares(bore.points, bore.axis, {8.0}, options),
+                      Contains("half thickness must be positive"));
+    Axis no_direction = bore.axis;
+    no_direction.direction.setZero();
+    CHECK_THROWS_AS(fit_sections_least_squares(bore.points, no_direction, {8.0}), FitError);
+  }
+}
