@@ -67,6 +67,17 @@ struct PassFrame {
 #pragma GCC diagnostic ignored "-Wpsabi"
 typedef double Lanes __attribute__((vector_size(32)));
 
+/// Points p[0..3] (xyz interleaved) in the pass frame's local coordinates, four lanes at once.
+inline __attribute__((always_inline)) void local_lanes(const double* p, const PassFrame& f,
+                                                       Lanes& x, Lanes& y, Lanes& z) {
+  const Lanes px = Lanes{p[0], p[3], p[6], p[9]} - f.origin.x();
+  const Lanes py = Lanes{p[1], p[4], p[7], p[10]} - f.origin.y();
+  const Lanes pz = Lanes{p[2], p[5], p[8], p[11]} - f.origin.z();
+  x = f.basis(0, 0) * px + f.basis(1, 0) * py + f.basis(2, 0) * pz;
+  y = f.basis(0, 1) * px + f.basis(1, 1) * py + f.basis(2, 1) * pz;
+  z = f.basis(0, 2) * px + f.basis(1, 2) * py + f.basis(2, 2) * pz;
+}
+
 // sqrt of each lane: a single instruction through the intrinsics, independent of whether the
 // compiler must keep errno for std::sqrt (-fno-math-errno).
 #if CYLZONE_X86_LANES
@@ -96,21 +107,13 @@ struct BaselineSqrt {
 template <class Sqrt>
 inline __attribute__((always_inline)) Sums accumulate_lanes(const double* xyz, Eigen::Index begin,
                                                             Eigen::Index end, const PassFrame& f) {
-  const double b00 = f.basis(0, 0), b10 = f.basis(1, 0), b20 = f.basis(2, 0);
-  const double b01 = f.basis(0, 1), b11 = f.basis(1, 1), b21 = f.basis(2, 1);
-  const double b02 = f.basis(0, 2), b12 = f.basis(1, 2), b22 = f.basis(2, 2);
-  const double ox = f.origin.x(), oy = f.origin.y(), oz = f.origin.z(), r = f.radius;
+  const double r = f.radius;
   const Sqrt lane_sqrt{};
   Lanes acc[sum_count] = {};
   Eigen::Index i = begin;
   for (; i + 4 <= end; i += 4) {
-    const double* p = xyz + 3 * i;
-    const Lanes px = Lanes{p[0], p[3], p[6], p[9]} - ox;
-    const Lanes py = Lanes{p[1], p[4], p[7], p[10]} - oy;
-    const Lanes pz = Lanes{p[2], p[5], p[8], p[11]} - oz;
-    const Lanes x = b00 * px + b10 * py + b20 * pz;
-    const Lanes y = b01 * px + b11 * py + b21 * pz;
-    const Lanes z = b02 * px + b12 * py + b22 * pz;
+    Lanes x, y, z;
+    local_lanes(xyz + 3 * i, f, x, y, z);
     const Lanes rho = lane_sqrt(x * x + y * y);
     const Lanes inv = 1.0 / rho;
     const Lanes d = rho - r;
@@ -172,22 +175,14 @@ template <class Sqrt>
 inline __attribute__((always_inline)) std::pair<double, double> finish_lanes(
     const double* xyz, Eigen::Index begin, Eigen::Index end, const PassFrame& f,
     double* residuals, detail::ArcCoverage& coverage) {
-  const double b00 = f.basis(0, 0), b10 = f.basis(1, 0), b20 = f.basis(2, 0);
-  const double b01 = f.basis(0, 1), b11 = f.basis(1, 1), b21 = f.basis(2, 1);
-  const double b02 = f.basis(0, 2), b12 = f.basis(1, 2), b22 = f.basis(2, 2);
-  const double ox = f.origin.x(), oy = f.origin.y(), oz = f.origin.z(), r = f.radius;
+  const double r = f.radius;
   const Sqrt lane_sqrt{};
   constexpr double inf = std::numeric_limits<double>::infinity();
   Lanes lo = {inf, inf, inf, inf}, hi = -lo;
   Eigen::Index i = begin;
   for (; i + 4 <= end; i += 4) {
-    const double* p = xyz + 3 * i;
-    const Lanes px = Lanes{p[0], p[3], p[6], p[9]} - ox;
-    const Lanes py = Lanes{p[1], p[4], p[7], p[10]} - oy;
-    const Lanes pz = Lanes{p[2], p[5], p[8], p[11]} - oz;
-    const Lanes x = b00 * px + b10 * py + b20 * pz;
-    const Lanes y = b01 * px + b11 * py + b21 * pz;
-    const Lanes z = b02 * px + b12 * py + b22 * pz;
+    Lanes x, y, z;
+    local_lanes(xyz + 3 * i, f, x, y, z);
     const Lanes d = lane_sqrt(x * x + y * y) - r;
     for (int l = 0; l < 4; ++l) {
       residuals[i + l] = d[l];
