@@ -22,31 +22,15 @@
 #include <string>
 #include <vector>
 
+#include "bench_timing.hpp"
 #include "cylzone/read_points.hpp"
 
 namespace fs = std::filesystem;
 
 namespace {
 
-struct Timing {
-  double best_ms = 0.0;    ///< wall clock
-  double median_ms = 0.0;  ///< wall clock
-  double best_cpu_ms = 0.0;  ///< process CPU time: what the run costs when the machine is shared
-};
-
-Timing time_runs(int runs, const std::function<void()>& run) {
-  std::vector<double> wall, cpu;
-  for (int i = 0; i < runs; ++i) {
-    const auto start = std::chrono::steady_clock::now();
-    const std::clock_t cpu_start = std::clock();
-    run();
-    cpu.push_back(1e3 * static_cast<double>(std::clock() - cpu_start) / CLOCKS_PER_SEC);
-    wall.push_back(std::chrono::duration<double, std::milli>(std::chrono::steady_clock::now() - start).count());
-  }
-  std::sort(wall.begin(), wall.end());
-  std::sort(cpu.begin(), cpu.end());
-  return {wall.front(), wall[wall.size() / 2], cpu.front()};
-}
+using cylzone::bench::Timing;
+using cylzone::bench::time_runs;
 
 void report(const char* what, std::size_t points, std::size_t bytes, const Timing& t) {
   const double mb = static_cast<double>(bytes) / 1e6;

@@ -55,3 +55,11 @@ if [ -x "$reader" ]; then
   echo "point-file reader (bench_read_points)"
   "$reader"
 fi
+
+for extra in bench_fit_chebyshev bench_stray_points; do
+  if [ -x "$build/bench/$extra" ]; then
+    echo
+    echo "$extra"
+    "$build/bench/$extra"
+  fi
+done

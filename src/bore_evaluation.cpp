@@ -16,6 +16,7 @@
 #include "cylzone/fit_line.hpp"
 #include "cylzone/material_condition.hpp"
 #include "detail/fit_support.hpp"
+#include "detail/stray_point_message.hpp"
 
 namespace cylzone {
 namespace {
@@ -421,6 +422,35 @@ BoreResult evaluate_bore(const PlanBore& bore, const Eigen::Matrix3Xd& points,
   take_warnings(warnings, "related mating envelope", result.related_envelope.summary);
   take_warnings(warnings, "minimum material envelope", result.minimum_material.summary);
   take_warnings(warnings, "minimum-zone cylinder", result.minimum_zone.summary);
+
+  // ---- Prepare: stray-point screen (stray_points.hpp) on the least-squares residuals. The
+  // mating envelopes rest on extreme points, so a suspect point that is one of their contacts
+  // is named: the size (and, for this axis method, the axis) then rest on it. Nothing is
+  // removed; every figure below uses all points.
+  result.stray_points = for_bore(bore, [&] {
+    return find_stray_points(points, result.least_squares.residuals.values, options.stray_points);
+  });
+  if (!result.stray_points.points.empty()) {
+    const auto contacts_of = [&](const CylinderFit& envelope) {
+      return suspect_contacts(result.stray_points, envelope.residuals.values, ContactSide::lowest);
+    };
+    const std::vector<std::size_t> actual = contacts_of(result.mating_envelope);
+    const std::vector<std::size_t> related_contacts = contacts_of(result.related_envelope);
+    const bool axis_rests = bore.axis == BoreAxisMethod::mating_envelope;
+    std::vector<detail::SuspectContact> contacts;
+    if (!actual.empty() && actual == related_contacts) {
+      contacts.push_back({actual, "the actual and the related mating envelopes",
+                          axis_rests ? "the mating sizes and the axis rest on"
+                                     : "the mating sizes rest on"});
+    } else {
+      contacts.push_back({actual, "the actual mating envelope",
+                          axis_rests ? "the mating size and axis rest on" : "the mating size rests on"});
+      contacts.push_back({related_contacts, "the related mating envelope",
+                          "the related mating size rests on"});
+    }
+    warnings.push_back(detail::stray_point_message(result.stray_points, contacts,
+                                                   "verdicts use all points: review the data"));
+  }
 
   // ---- Sections along the least-squares axis (ISO 17450-3: sections perpendicular to the
   // associated cylinder's axis, least-squares circles).

@@ -21,6 +21,7 @@
 #include "cylzone/material_condition.hpp"
 #include "cylzone/tangent_plane.hpp"
 #include "detail/fit_support.hpp"
+#include "detail/stray_point_message.hpp"
 #include "detail/tangent_line.hpp"
 
 namespace cylzone {
@@ -75,6 +76,26 @@ std::optional<double> own_axis_angle_deg(const PointCloud& cloud, const Eigen::V
   return std::nullopt;
 }
 
+// The frame is built from all points; a suspect point is only named.
+constexpr const char* stray_closing = "the frame uses all points: review the data";
+
+// Adds the note for a datum feature with suspect points: "datum B: 2 suspect point(s) ...".
+void note_stray_points(std::vector<std::string>& notes, char label,
+                       const StrayPointReport& report,
+                       const std::vector<detail::SuspectContact>& contacts) {
+  if (report.points.empty()) return;
+  notes.push_back(label_text(label) + ": " +
+                  detail::stray_point_message(report, contacts, stray_closing));
+}
+
+// Residuals of the least-squares plane of `points` along `outward` (so a positive residual
+// stands proud of the surface), for the stray-point screen.
+Eigen::VectorXd outward_plane_residuals(const PlaneFit& least_squares,
+                                        const Eigen::Vector3d& outward) {
+  return least_squares.normal.dot(outward) < 0.0 ? Eigen::VectorXd(-least_squares.residuals.values)
+                                                 : least_squares.residuals.values;
+}
+
 // Datum plane A by its association method; normal out of the material, residuals along it.
 PlaneFit associate_plane(const Eigen::Matrix3Xd& points, PlaneAssociation method,
                          const Eigen::Vector3d& material_side, const FitOptions& fit) {
@@ -114,6 +135,7 @@ Eigen::Vector3d meet_plane(const Axis& axis, const PlaneFit& plane) {
 // a pin: ASME Y14.5-2018, related actual mating envelope).
 SizeDatumResult associate_size_datum(const PlanDatum& datum, const PointCloud& cloud,
                                      const PlaneFit& a, const FitOptions& fit,
+                                     const StrayPointOptions& stray_options,
                                      std::vector<std::string>& notes) {
   const Eigen::Vector3d& z = a.normal;
   if (const std::optional<double> angle = own_axis_angle_deg(cloud, z, fit)) {
@@ -139,6 +161,20 @@ SizeDatumResult associate_size_datum(const PlanDatum& datum, const PointCloud& c
                                 : fit_cylinder_maximum_inscribed(cloud.points, held);
   result.mating_size = result.related_envelope.diameter();
   result.axis_on_a = meet_plane(result.related_envelope.axis, a);
+  // Stray-point screen on the residuals of the least-squares cylinder held perpendicular to A
+  // (stray_points.hpp); the datum axis rests on the envelope's contacts. Too few points to
+  // screen (fewer than neighbours + 1) need no fit: the report stays empty.
+  if (cloud.size() > stray_options.neighbours) {
+    const CylinderFit least_squares = fit_cylinder_least_squares(cloud.points, held);
+    result.stray_points =
+        find_stray_points(cloud.points, least_squares.residuals.values, stray_options);
+    const std::vector<std::size_t> contacts = suspect_contacts(
+        result.stray_points, result.related_envelope.residuals.values,
+        datum.kind == FeatureKind::pin ? ContactSide::highest : ContactSide::lowest);
+    note_stray_points(notes, datum.label, result.stray_points,
+                      {{contacts, "its related mating envelope",
+                        "the datum axis and its mating size rest on"}});
+  }
   result.size = datum.size;
   if (datum.mmb_size)
     result.mmb_size = datum.mmb_size;
@@ -177,6 +213,7 @@ ClockingPlaneResult associate_clocking_plane(const PlanDatum& datum, const Point
                                              const PlaneFit& a,
                                              const std::optional<Eigen::Vector3d>& b_axis_on_a,
                                              const FitOptions& fit,
+                                             const StrayPointOptions& stray_options,
                                              std::vector<std::string>& notes) {
   const Eigen::Vector3d& z = a.normal;
   FitOptions plain = fit;
@@ -239,6 +276,14 @@ ClockingPlaneResult associate_clocking_plane(const PlanDatum& datum, const Point
       "tangent least-squares plane perpendicular to A: " +
       detail::iteration_message(line.status, line.iterations, fit) + ", " +
       std::to_string(line.contacts) + (line.contacts == 1 ? " contact point" : " contact points");
+  // Stray-point screen on the least-squares plane's residuals (stray_points.hpp); the clocking
+  // plane rests on its contacts (residual 0, all others below).
+  result.stray_points = find_stray_points(
+      cloud.points, outward_plane_residuals(own, plane.normal), stray_options);
+  note_stray_points(notes, datum.label, result.stray_points,
+                    {{suspect_contacts(result.stray_points, plane.residuals.values,
+                                       ContactSide::highest),
+                      "the clocking plane", "the frame's rotation about A's normal rests on"}});
   return result;
 }
 
@@ -304,6 +349,34 @@ DatumFrameResult establish_datum_frame(const std::vector<PlanDatum>& datums,
                                          .residuals.form;
                                    });
   const Eigen::Vector3d z = result.a.plane.normal;
+  // Stray-point screen of A on its least-squares plane's residuals (stray_points.hpp). A
+  // tangent plane rests on its highest points (residual 0); a minimax or minimum-zone plane is
+  // set by the extremes on both sides; a least-squares plane has no contacts.
+  result.a.stray_points = for_datum(a_datum.label, [&] {
+    if (clouds[0].size() <= options.stray_points.neighbours) return StrayPointReport{};
+    const PlaneFit least_squares = result.a.association == PlaneAssociation::least_squares
+                                       ? result.a.plane
+                                       : fit_plane_least_squares(clouds[0].points, plane_fit);
+    return find_stray_points(clouds[0].points, outward_plane_residuals(least_squares, z),
+                             options.stray_points);
+  });
+  {
+    std::vector<std::size_t> contacts;
+    const Eigen::VectorXd& r = result.a.plane.residuals.values;
+    const auto add = [&](ContactSide side) {
+      for (std::size_t i : suspect_contacts(result.a.stray_points, r, side))
+        if (std::find(contacts.begin(), contacts.end(), i) == contacts.end()) contacts.push_back(i);
+    };
+    if (result.a.association != PlaneAssociation::least_squares) add(ContactSide::highest);
+    if (result.a.association == PlaneAssociation::tangent_minimax ||
+        result.a.association == PlaneAssociation::minimum_zone)
+      add(ContactSide::lowest);
+    note_stray_points(result.notes, a_datum.label, result.a.stray_points,
+                      {{contacts,
+                        "the " + std::string(association_name(result.a.association)) +
+                            " datum plane",
+                        "the frame's orientation and height rest on"}});
+  }
 
   // ---- secondary: bore or pin B, locating the origin
   Eigen::Vector3d origin = result.a.plane.point.dot(z) * z;  // measurement origin projected on A
@@ -313,7 +386,8 @@ DatumFrameResult establish_datum_frame(const std::vector<PlanDatum>& datums,
       throw FitError(label_text(b_datum.label) +
                      ": a secondary datum plane is not supported; B must be a bore or a pin");
     result.b = for_datum(b_datum.label, [&] {
-      return associate_size_datum(b_datum, clouds[1], result.a.plane, fit, result.notes);
+      return associate_size_datum(b_datum, clouds[1], result.a.plane, fit, options.stray_points,
+                                  result.notes);
     });
     origin = result.b->axis_on_a;
     result.translation_fixed = true;
@@ -334,7 +408,7 @@ DatumFrameResult establish_datum_frame(const std::vector<PlanDatum>& datums,
           result.b ? std::optional<Eigen::Vector3d>(result.b->axis_on_a) : std::nullopt;
       result.c_plane = for_datum(c_datum.label, [&] {
         return associate_clocking_plane(c_datum, clouds[2], result.a.plane, b_axis, fit,
-                                        result.notes);
+                                        options.stray_points, result.notes);
       });
       x = clocked_x(in_plane_unit(result.c_plane->plane.normal, z), *c_datum.outward_normal, z);
       result.notes.push_back(
@@ -346,7 +420,8 @@ DatumFrameResult establish_datum_frame(const std::vector<PlanDatum>& datums,
         throw FitError(label_text(c_datum.label) +
                        ": its basic location (away from B's axis) is needed to clock the frame");
       result.c_feature = for_datum(c_datum.label, [&] {
-        return associate_size_datum(c_datum, clouds[2], result.a.plane, fit, result.notes);
+        return associate_size_datum(c_datum, clouds[2], result.a.plane, fit, options.stray_points,
+                                    result.notes);
       });
       const Eigen::Vector3d towards_c = result.c_feature->axis_on_a - origin;
       const Eigen::Vector3d in_a = towards_c - towards_c.dot(z) * z;

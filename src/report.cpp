@@ -75,6 +75,16 @@ json position_json(const PositionResult& p, const ReportUnits& u) {
   return j;
 }
 
+/// Suspect points, numbered 1-based as in the point file's data order.
+json stray_json(const StrayPointReport& r, const ReportUnits& u) {
+  json points = json::array();
+  for (const StrayPoint& p : r.points)
+    points.push_back({{"point_number", p.index + 1},
+                      {"residual", u.length(p.residual)},
+                      {"excess", u.length(p.excess)}});
+  return {{"screened", r.screened}, {"robust_scale", u.length(r.robust_scale)}, {"points", points}};
+}
+
 json fit_json(const CylinderFit& f, const ReportUnits& u) {
   return {{"axis", {{"point", u.point(f.axis.point)}, {"direction", direction(f.axis.direction)}}},
           {"diameter", u.length(f.diameter())},
@@ -94,7 +104,8 @@ json size_datum_json(const SizeDatumResult& d, const ReportUnits& u) {
           {"boundary", std::string(boundary_name(d.boundary))},
           {"mmb_size", optional_number(d.mmb_size, u)},
           {"shift_allowance",
-           d.boundary == MaterialBoundary::rmb ? 0.0 : u.length(d.shift_allowance)}};
+           d.boundary == MaterialBoundary::rmb ? 0.0 : u.length(d.shift_allowance)},
+          {"stray_points", stray_json(d.stray_points, u)}};
 }
 
 json bore_json(const BoreResult& b, const BoreSensitivity* s, const ReportUnits& u) {
@@ -171,6 +182,7 @@ json bore_json(const BoreResult& b, const BoreSensitivity* s, const ReportUnits&
                 ? json(std::string(verdict_name(*row.perpendicularity_verdict)))
                 : json(nullptr)}});
   j["sensitivity"] = sensitivity;
+  j["stray_points"] = stray_json(b.stray_points, u);
   j["warnings"] = b.warnings;
   return j;
 }
@@ -276,7 +288,8 @@ std::string format_json(const PartCheckResult& r) {
                  {"point", u.point(r.datums.a.plane.point)},
                  {"normal", direction(r.datums.a.plane.normal)},
                  {"flatness", u.length(r.datums.a.flatness)},
-                 {"material_side_inferred", r.datums.a.material_side_inferred}};
+                 {"material_side_inferred", r.datums.a.material_side_inferred},
+                 {"stray_points", stray_json(r.datums.a.stray_points, u)}};
   if (r.datums.b) datums["B"] = size_datum_json(*r.datums.b, u);
   if (r.datums.c_feature) {
     datums["C"] = size_datum_json(*r.datums.c_feature, u);
@@ -287,7 +300,8 @@ std::string format_json(const PartCheckResult& r) {
   if (r.datums.c_plane)
     datums["C"] = {{"feature", "plane"},
                    {"point", u.point(r.datums.c_plane->plane.point)},
-                   {"normal", direction(r.datums.c_plane->plane.normal)}};
+                   {"normal", direction(r.datums.c_plane->plane.normal)},
+                   {"stray_points", stray_json(r.datums.c_plane->stray_points, u)}};
   j["datums"] = datums;
 
   json bores = json::array();

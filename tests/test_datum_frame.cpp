@@ -35,6 +35,7 @@
 #include "cylzone/tangent_plane.hpp"
 #include "detail/constrained_least_squares.hpp"
 #include "detail/tangent_line.hpp"
+#include "case_file.hpp"
 #include "reference_data.hpp"
 
 using namespace cylzone;
@@ -856,17 +857,7 @@ TEST_CASE("write tangent-plane cases and answers for crosscheck_datum.py", "[.][
   }
   json << "]\n}\n";
 
-  // Written to a temporary name and renamed, so a reader never sees a partial file.
-  const char* destination = std::getenv("CYLZONE_DATUM_CASES");
-  if (destination == nullptr) FAIL("set CYLZONE_DATUM_CASES to the file to write");
-  const std::filesystem::path file = destination;
-  if (!file.parent_path().empty()) std::filesystem::create_directories(file.parent_path());
-  const std::filesystem::path partial = file.string() + ".partial";
-  {
-    std::ofstream out(partial);
-    out << json.str();
-    REQUIRE(out.good());
-  }
-  std::filesystem::rename(partial, file);
+  const std::filesystem::path file =
+      cylzone::testing::write_case_file("CYLZONE_DATUM_CASES", json.str());
   CHECK(std::filesystem::file_size(file) > 1000);
 }

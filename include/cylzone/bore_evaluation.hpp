@@ -13,6 +13,7 @@
 #include "cylzone/fit_cylinder.hpp"
 #include "cylzone/plan.hpp"
 #include "cylzone/sections.hpp"
+#include "cylzone/stray_points.hpp"
 
 namespace cylzone {
 
@@ -129,6 +130,9 @@ struct BoreResult {
   CylinderFit minimum_material;   ///< minimum circumscribed, free axis
   CylinderFit minimum_zone;       ///< cylindricity
   std::vector<SectionCircle> sections;  ///< LS circles at the probed levels (median line)
+  /// Suspect points among the bore's points, screened against the least-squares cylinder's
+  /// residuals (stray_points.hpp). Reported only: every figure uses all points.
+  StrayPointReport stray_points;
   TiltResult tilt;
   SizeResult size;
   FormResult form;
@@ -154,6 +158,7 @@ struct BoreEvaluationOptions {
   /// levels; scanned clouds without levels are cut into slabs of this thickness.
   double section_gap = 0.5;
   std::size_t min_section_points = 6;
+  StrayPointOptions stray_points;
 };
 
 /// Evaluates one bore. `points` are in the datum frame (the bore's points transformed by the

@@ -19,6 +19,7 @@
 #include "cylzone/fit_plane.hpp"
 #include "cylzone/plan.hpp"
 #include "cylzone/point_cloud.hpp"
+#include "cylzone/stray_points.hpp"
 
 namespace cylzone {
 
@@ -43,6 +44,9 @@ struct PlaneDatumResult {
   PlaneFit plane;  ///< measurement coordinates; normal out of the material
   double flatness = 0.0;  ///< minimum-zone flatness of the datum feature's points
   bool material_side_inferred = false;
+  /// Suspect points of the datum feature, screened against its least-squares plane's residuals
+  /// along the outward normal (positive: standing proud of the surface). Reported only.
+  StrayPointReport stray_points;
 };
 
 /// A cylindrical datum feature of size (B, or C when it is a bore or pin).
@@ -64,17 +68,24 @@ struct SizeDatumResult {
   double shift_allowance = 0.0;
   std::optional<SizeLimits> size;
   Eigen::Vector3d axis_on_a = Eigen::Vector3d::Zero();  ///< where its axis meets A (measurement)
+  /// Suspect points, screened against the residuals of its least-squares cylinder held
+  /// perpendicular to A (positive: away from the axis). Reported only.
+  StrayPointReport stray_points;
 };
 
 /// Clocking datum C given as a plane (tangent plane on its material side, perpendicular to A).
 struct ClockingPlaneResult {
   PlaneFit plane;  ///< measurement coordinates; normal out of the material
+  /// Suspect points, screened against its least-squares plane's residuals along the outward
+  /// normal. Reported only.
+  StrayPointReport stray_points;
 };
 
 struct DatumFrameOptions {
   /// Overrides datum A's association (used for the sensitivity study).
   std::optional<PlaneAssociation> a_association;
   FitOptions fit;
+  StrayPointOptions stray_points;
 };
 
 struct DatumFrameResult {
@@ -85,6 +96,7 @@ struct DatumFrameResult {
   std::optional<ClockingPlaneResult> c_plane;  ///< C as a plane
   bool rotation_fixed = false;     ///< C present
   bool translation_fixed = false;  ///< B present
+  /// Remarks on the frame, including one per datum feature with suspect (stray) points.
   std::vector<std::string> notes;
 };
 

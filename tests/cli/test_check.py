@@ -102,4 +102,123 @@ with tempfile.TemporaryDirectory() as tmp:
 if failures:
     print("\n".join(failures))
     sys.exit(1)
-print("cylzone check behaves")
+print("cylzone check behaves in mm")
+
+
+# ---- The same part in inches: every reported length must be the millimetre value / 25.4
+# (the inch is 25.4 mm exactly by definition, common practice), and every verdict the same.
+import tomllib
+
+LENGTH_KEYS = {"tip_diameter", "basic", "lower", "upper", "mmb", "top", "bottom", "tolerance",
+               "cylindricity", "projected"}
+
+
+def scaled(value, key):
+    if key in LENGTH_KEYS:
+        return [v / 25.4 for v in value] if isinstance(value, list) else value / 25.4
+    if isinstance(value, dict):
+        return {k: scaled(v, k) for k, v in value.items()}
+    return value
+
+
+def toml_value(v):
+    if isinstance(v, str):
+        return json.dumps(v)
+    if isinstance(v, bool):
+        return "true" if v else "false"
+    if isinstance(v, (int, float)):
+        return repr(float(v))
+    if isinstance(v, list):
+        return "[" + ", ".join(toml_value(x) for x in v) + "]"
+    if isinstance(v, dict):
+        return "{ " + ", ".join(f"{k} = {toml_value(x)}" for k, x in v.items()) + " }"
+    raise TypeError(v)
+
+
+def write_inch_copy(plan_path, directory):
+    with open(plan_path, "rb") as f:
+        plan = tomllib.load(f)
+    base = os.path.dirname(plan_path)
+    lines = []
+    for key, value in plan.items():
+        if not isinstance(value, (dict, list)) or (isinstance(value, list) and key != "bore"):
+            lines.append(f"{key} = {toml_value('inch' if key == 'units' else value)}")
+    for section in ("probe",):
+        if section in plan:
+            lines.append(f"[{section}]")
+            lines += [f"{k} = {toml_value(scaled(v, k))}" for k, v in plan[section].items()]
+    items = [(f"datum.{label}", table) for label, table in plan["datum"].items()]
+    items += [("[bore]", table) for table in plan["bore"]]
+    for header, table in items:
+        lines.append(f"[{header}]")
+        for k, v in table.items():
+            lines.append(f"{k} = {toml_value(scaled(v, k))}")
+            if k == "points":
+                source = os.path.join(base, v)
+                target = os.path.join(directory, v)
+                os.makedirs(os.path.dirname(target), exist_ok=True)
+                with open(source) as fin, open(target, "w") as fout:
+                    rows = fin.read().splitlines()
+                    fout.write(rows[0] + "\n")
+                    for row in rows[1:]:
+                        fields = row.split(",")
+                        xyz = [f"{float(x) / 25.4:.17g}" for x in fields[:3]]
+                        fout.write(",".join(xyz + fields[3:]) + "\n")
+    path = os.path.join(directory, "plan-inch.toml")
+    with open(path, "w") as f:
+        f.write("\n".join(lines) + "\n")
+    return path
+
+
+def numbers(node, path=""):
+    """Every (path, value) pair of numbers in a JSON tree."""
+    if isinstance(node, dict):
+        for k, v in node.items():
+            yield from numbers(v, f"{path}.{k}")
+    elif isinstance(node, list):
+        for i, v in enumerate(node):
+            yield from numbers(v, f"{path}[{i}]")
+    elif isinstance(node, (int, float)) and not isinstance(node, bool):
+        yield path, float(node)
+
+
+# Numbers without a length unit, by the name of their own key (array elements take their
+# array's name): directions, angles, counts and point numbers.
+UNITLESS = {"direction", "normal", "x_axis", "y_axis", "z_axis", "points", "two_point_count",
+            "screened", "point_number"}
+
+
+def unitless(path):
+    import re
+    name = re.sub(r"(\[\d+\])+$", "", path).rsplit(".", 1)[-1]
+    return name in UNITLESS or name.endswith("_rad") or name.endswith("_deg")
+
+with tempfile.TemporaryDirectory() as tmp:
+    mm_json = os.path.join(tmp, "mm.json")
+    inch_json = os.path.join(tmp, "inch.json")
+    inch_plan = write_inch_copy(PLAN, tmp)
+    run("check", PLAN, "--json", mm_json, "--quiet")
+    p = run("check", inch_plan, "--json", inch_json, "--quiet")
+    check(p.returncode == 1, f"inch plan: exit {p.returncode}: {p.stderr.strip()}")
+    if os.path.exists(inch_json):
+        a, b = json.load(open(mm_json)), json.load(open(inch_json))
+        check(b["plan"]["units"] == "inch", "inch report states its unit")
+        pa = dict(numbers(a["bores"], "bores"))
+        pb = dict(numbers(b["bores"], "bores"))
+        check(pa.keys() == pb.keys(), "same report structure in mm and inch")
+        worst = 0.0
+        for key, value in pa.items():
+            if key not in pb:
+                continue
+            expected = value if unitless(key) else value / 25.4
+            worst = max(worst, abs(pb[key] - expected))
+        # Rounding of the inch files to 17 digits and the fits' tolerances: far below 1 nm.
+        check(len(pa) > 500, f"too few numbers compared: {len(pa)}")
+        check(worst < 1e-8, f"inch report differs from mm / 25.4 by {worst:.3g}")
+        verdicts = lambda r: [(x["id"], x["verdict"]) for x in r["bores"]]
+        check(verdicts(a) == verdicts(b), "verdicts differ between mm and inch")
+
+if failures:
+    print("\n".join(failures))
+    sys.exit(1)
+print("the inch part reports the same figures")

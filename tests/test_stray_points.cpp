@@ -1,0 +1,613 @@
+// Stray-point screen (stray_points.hpp) and its use by evaluate_bore and establish_datum_frame.
+//
+// References outside the code under test:
+//  * reference sets with known form (three-lobed cylinders of tests/support/reference_data.hpp,
+//    the null-space construction of ISO 10360-6 test sets; Forbes & Minh, Int. J. Metrol. Qual.
+//    Eng. 3(3), 2012) with ONE point displaced by a known amount: the truth is the index chosen
+//    here, and the known form (lobing, bell-mouth) must not be flagged;
+//  * gaussian probing noise: the excess e_i - median of k independent neighbours has variance
+//    sigma^2 (1 + pi / (2k)) (the large-sample variance of the median, pi sigma^2 / (2k); common
+//    practice), and |Z| > 6 has probability 2e-9 per point (common practice);
+//  * the criterion's definition applied by hand to small sets (ties in distance to the lower
+//    index);
+//  * tests/reference/crosscheck_stray_points.py: scipy.spatial.cKDTree and numpy median / MAD
+//    compute the same statistic independently on the random cases written by the hidden case
+//    "[stray-cases]" below, compared index by index.
+
+#include <catch2/catch.hpp>
+
+#include <Eigen/Geometry>
+#include <algorithm>
+#include <cmath>
+#include <cstdlib>
+#include <filesystem>
+#include <fstream>
+#include <iomanip>
+#include <limits>
+#include <random>
+#include <sstream>
+#include <stdexcept>
+#include <string>
+#include <vector>
+
+#include "cylzone/bore_evaluation.hpp"
+#include "cylzone/datum_frame.hpp"
+#include "cylzone/errors.hpp"
+#include "cylzone/fit_cylinder.hpp"
+#include "cylzone/fit_plane.hpp"
+#include "cylzone/stray_points.hpp"
+#include "case_file.hpp"
+#include "reference_data.hpp"
+
+using namespace cylzone;
+using Catch::Matchers::Contains;
+using cylzone::testing::direction_from_angles;
+using cylzone::testing::make_lobed_cylinder;
+using cylzone::testing::ReferenceSet;
+
+namespace {
+
+constexpr double um = 0.001;  // mm
+
+/// A tilted, off-origin, three-lobed bore of 13 levels x 48 points (eps 2 um), as a CMM would
+/// probe it; residuals are taken from its least-squares cylinder.
+ReferenceSet lobed_bore(const Axis& axis, int levels = 13, int per_level = 48, double t0 = -1.0,
+                        double t1 = -49.0) {
+  return make_lobed_cylinder(axis, 6.005, t0, t1, levels, per_level, 2.0 * um, 11.0);
+}
+
+Axis tilted_axis() {
+  Axis a;
+  a.point = Eigen::Vector3d(37.5, -12.25, 104.0);
+  a.direction = direction_from_angles(4.0, 35.0);
+  return a;
+}
+
+Eigen::VectorXd least_squares_residuals(const Eigen::Matrix3Xd& points, const Axis& hint) {
+  FitOptions options;
+  options.axis_hint = hint.direction;
+  return fit_cylinder_least_squares(points, options).residuals.values;
+}
+
+void add_noise(ReferenceSet& set, double sigma, std::uint64_t seed) {
+  std::mt19937_64 rng(seed);
+  std::normal_distribution<double> normal(0.0, sigma);
+  for (Eigen::Index i = 0; i < set.points.cols(); ++i)
+    set.points.col(i) += normal(rng) * set.normals.col(i);
+}
+
+/// Bell-mouth: radius larger by `amplitude` at the mouth (height t0 along the axis), fading out
+/// quadratically over `length` (the smooth flare of a reamed or honed bore's entry).
+void add_bell_mouth(ReferenceSet& set, const Axis& axis, double t0, double amplitude,
+                    double length) {
+  for (Eigen::Index i = 0; i < set.points.cols(); ++i) {
+    const double t = axis.direction.dot(set.points.col(i) - axis.point);
+    const double q = std::max(0.0, 1.0 - (t0 - t) / length);
+    set.points.col(i) += amplitude * q * q * set.normals.col(i);
+  }
+}
+
+StrayPointOptions flag_everything() {
+  StrayPointOptions o;
+  o.threshold = 0.0;
+  o.floor = 0.0;
+  return o;
+}
+
+}  // namespace
+
+TEST_CASE("one point pushed 20 um inward on a tilted, off-origin lobed bore is the one flagged",
+          "[stray_points]") {
+  const Axis axis = tilted_axis();
+  ReferenceSet set = lobed_bore(axis);
+  const Eigen::Index spike = 6 * 48 + 17;  // mid-depth, between lobes
+  set.points.col(spike) -= 20.0 * um * set.normals.col(spike);
+
+  SECTION("lobing only besides the spike, default options and without the floor") {
+    const Eigen::VectorXd residuals = least_squares_residuals(set.points, axis);
+    for (const StrayPointOptions& options : {StrayPointOptions{}, [] {
+           StrayPointOptions o;
+           o.floor = 0.0;  // the scale alone must carry the decision
+           return o;
+         }()}) {
+      const StrayPointReport report = find_stray_points(set.points, residuals, options);
+      CHECK(report.screened == static_cast<std::size_t>(set.points.cols()));
+      REQUIRE(report.points.size() == 1);
+      CHECK(report.points[0].index == static_cast<std::size_t>(spike));
+      CHECK(report.points[0].residual == residuals(spike));
+      // The displacement itself, less the lobing's local variation (at most 2 eps).
+      CHECK(report.points[0].excess == Approx(-20.0 * um).margin(2.0 * 2.0 * um));
+      CHECK(report.robust_scale > 0.0);
+      CHECK(std::abs(report.points[0].excess) > 6.0 * report.robust_scale);
+    }
+  }
+  SECTION("with 0.5 um gaussian probing noise") {
+    add_noise(set, 0.5 * um, 7);
+    const StrayPointReport report =
+        find_stray_points(set.points, least_squares_residuals(set.points, axis));
+    REQUIRE(report.points.size() == 1);
+    CHECK(report.points[0].index == static_cast<std::size_t>(spike));
+    CHECK(report.points[0].excess == Approx(-20.0 * um).margin(2.0 * 2.0 * um + 3.0 * um));
+  }
+}
+
+TEST_CASE("form shared by neighbours is not flagged: lobing, bell-mouth, gaussian noise",
+          "[stray_points]") {
+  const Axis axis = tilted_axis();
+  SECTION("three-lobed bore, default options and without the floor") {
+    const ReferenceSet set = lobed_bore(axis);
+    const Eigen::VectorXd residuals = least_squares_residuals(set.points, axis);
+    CHECK(find_stray_points(set.points, residuals).points.empty());
+    StrayPointOptions no_floor;
+    no_floor.floor = 0.0;
+    const StrayPointReport report = find_stray_points(set.points, residuals, no_floor);
+    CHECK(report.points.empty());
+    CHECK(report.screened == static_cast<std::size_t>(set.points.cols()));
+    // The lobing is not cancelled completely (neighbours lie 7.5 and 15 degrees away on a
+    // 3-lobe wave), so the scale is a fraction of eps, not zero: the threshold decides.
+    CHECK(report.robust_scale > 0.1 * um);
+    CHECK(report.robust_scale < 2.0 * um);
+  }
+  SECTION("bell-mouth of 5 um fading over 15 mm, on a scanned bore (rows 0.5 mm apart)") {
+    ReferenceSet set = lobed_bore(axis, 97, 72);
+    add_bell_mouth(set, axis, -1.0, 5.0 * um, 15.0);
+    CHECK(find_stray_points(set.points, least_squares_residuals(set.points, axis)).points.empty());
+    // The same with 0.5 um noise.
+    add_noise(set, 0.5 * um, 11);
+    CHECK(find_stray_points(set.points, least_squares_residuals(set.points, axis)).points.empty());
+  }
+  SECTION("bell-mouth of 10 um fading over 5 mm, CMM levels 2 mm apart, 0.5 um noise") {
+    ReferenceSet set = lobed_bore(axis, 25, 48);
+    add_bell_mouth(set, axis, -1.0, 10.0 * um, 5.0);
+    add_noise(set, 0.5 * um, 13);
+    CHECK(find_stray_points(set.points, least_squares_residuals(set.points, axis)).points.empty());
+  }
+  SECTION("0.5 um gaussian noise alone: nothing flagged, scale as the normal theory predicts") {
+    for (std::uint64_t seed : {1u, 2u, 3u}) {
+      ReferenceSet set = make_lobed_cylinder(axis, 6.005, -1.0, -49.0, 25, 48, 0.0);
+      add_noise(set, 0.5 * um, seed);
+      const StrayPointReport report =
+          find_stray_points(set.points, least_squares_residuals(set.points, axis));
+      CHECK(report.points.empty());
+      // sigma sqrt(1 + pi / 16) = 0.547 um for k = 8 (see file comment); 1200 points estimate
+      // it within a few percent.
+      CHECK(report.robust_scale == Approx(0.5 * um * std::sqrt(1.0 + 3.14159265358979 / 16.0))
+                                       .epsilon(0.08));
+    }
+  }
+}
+
+TEST_CASE("the criterion on small sets by hand: ties go to the lower index, self excluded",
+          "[stray_points]") {
+  // Point 0 with six neighbours at exactly distance 1 (coordinates exact in binary). k = 2: of
+  // the six tied neighbours the two of lowest index form point 0's reference, whatever order
+  // the tree visits them in; reversing the indices of the same geometry changes which two.
+  const Eigen::Vector3d centre(10.0, 20.0, 30.0);
+  const Eigen::Vector3d steps[6] = {Eigen::Vector3d::UnitX(),  -Eigen::Vector3d::UnitX(),
+                                    Eigen::Vector3d::UnitY(),  -Eigen::Vector3d::UnitY(),
+                                    Eigen::Vector3d::UnitZ(),  -Eigen::Vector3d::UnitZ()};
+  Eigen::Matrix3Xd points(3, 7);
+  Eigen::VectorXd residuals(7);
+  points.col(0) = centre;
+  residuals(0) = 0.0;
+  for (int order : {0, 1}) {
+    for (int j = 0; j < 6; ++j) {
+      const int slot = order == 0 ? j : 5 - j;  // the same geometry, indices reversed
+      points.col(1 + slot) = centre + steps[j];
+      residuals(1 + slot) = (1.0 + j) * um;
+    }
+    StrayPointOptions options = flag_everything();
+    options.neighbours = 2;
+    const StrayPointReport report = find_stray_points(points, residuals, options);
+    const auto it = std::find_if(report.points.begin(), report.points.end(),
+                                 [](const StrayPoint& p) { return p.index == 0; });
+    REQUIRE(it != report.points.end());
+    // Reference of point 0: the residuals at indices 1 and 2.
+    CHECK(it->excess == Approx(-(residuals(1) + residuals(2)) / 2.0).margin(1e-15));
+    // Every point's excess is reported (threshold and floor 0), by decreasing |excess|.
+    for (std::size_t k = 1; k < report.points.size(); ++k)
+      CHECK(std::abs(report.points[k - 1].excess) >= std::abs(report.points[k].excess));
+    // Same data, same answer.
+    const StrayPointReport again = find_stray_points(points, residuals, options);
+    REQUIRE(again.points.size() == report.points.size());
+    for (std::size_t k = 0; k < report.points.size(); ++k) {
+      CHECK(again.points[k].index == report.points[k].index);
+      CHECK(again.points[k].excess == report.points[k].excess);
+    }
+  }
+
+  SECTION("coincident points: the neighbours are copies, the point itself is excluded") {
+    // Twelve copies of one point (a repeated probing), residual 0 except copy 7 (+3 um): every
+    // neighbourhood holds 8 copies at distance 0, chosen by index, so copy 7's reference is 0
+    // and the reference of a copy that has copy 7 among its 8 is still the median 0.
+    const Eigen::Matrix3Xd same = Eigen::Vector3d(-4.5, 250.0, 17.25).replicate(1, 12);
+    Eigen::VectorXd r = Eigen::VectorXd::Zero(12);
+    r(7) = 3.0 * um;
+    const StrayPointReport report = find_stray_points(same, r, flag_everything());
+    REQUIRE(report.points.size() == 1);
+    CHECK(report.points[0].index == 7);
+    CHECK(report.points[0].excess == 3.0 * um);
+  }
+  SECTION("a lone spike on a line of points: median of the neighbours, MAD scale by hand") {
+    // Nine points 1 mm apart on a line; k = 2. Residuals 0 except point 4 (+10 um).
+    Eigen::Matrix3Xd line(3, 9);
+    Eigen::VectorXd r = Eigen::VectorXd::Zero(9);
+    for (int i = 0; i < 9; ++i) line.col(i) = Eigen::Vector3d(50.0 + i, -3.0, 7.0);
+    r(4) = 10.0 * um;
+    // Excesses by hand: point 4: 10 - median(0, 0) = 10 um; points 3 and 5 have it as one of
+    // their two neighbours: 0 - (0 + 10) / 2 = -5 um; the rest 0. MAD of {10, -5, -5, 0 x 6}
+    // about the median 0 is 0, so only the floor (0.5 um) stands against the three.
+    StrayPointOptions options;
+    options.neighbours = 2;
+    const StrayPointReport report = find_stray_points(line, r, options);
+    CHECK(report.robust_scale == 0.0);
+    REQUIRE(report.points.size() == 3);
+    CHECK(report.points[0].index == 4);
+    CHECK(report.points[0].excess == Approx(10.0 * um).margin(1e-15));
+    CHECK(report.points[1].index == 3);  // |-5| tie: lower index first
+    CHECK(report.points[2].index == 5);
+    CHECK(report.points[1].excess == Approx(-5.0 * um).margin(1e-15));
+  }
+}
+
+TEST_CASE("too few points and bad arguments", "[stray_points]") {
+  const ReferenceSet set = lobed_bore(tilted_axis(), 2, 6);  // 12 points
+  const Eigen::VectorXd residuals = Eigen::VectorXd::Constant(12, 1.0 * um);
+  StrayPointOptions options;
+  options.neighbours = 11;
+  CHECK(find_stray_points(set.points, residuals, options).screened == 12);
+  options.neighbours = 12;  // needs 13 points
+  const StrayPointReport none = find_stray_points(set.points, residuals, options);
+  CHECK(none.screened == 0);
+  CHECK(none.points.empty());
+  CHECK(none.robust_scale == 0.0);
+
+  CHECK_THROWS_AS(find_stray_points(set.points, Eigen::VectorXd::Zero(11)), std::invalid_argument);
+  options.neighbours = 0;
+  CHECK_THROWS_AS(find_stray_points(set.points, residuals, options), std::invalid_argument);
+  options = {};
+  options.threshold = std::numeric_limits<double>::quiet_NaN();
+  CHECK_THROWS_AS(find_stray_points(set.points, residuals, options), std::invalid_argument);
+  options = {};
+  options.floor = -1.0;
+  CHECK_THROWS_AS(find_stray_points(set.points, residuals, options), std::invalid_argument);
+
+  Eigen::Matrix3Xd bad = set.points;
+  bad(1, 2) = std::numeric_limits<double>::infinity();
+  CHECK_THROWS_MATCHES(find_stray_points(bad, residuals), FitError,
+                       Catch::Matchers::Message("point #3 has a non-finite coordinate"));
+  Eigen::VectorXd bad_residuals = residuals;
+  bad_residuals(9) = std::numeric_limits<double>::quiet_NaN();
+  CHECK_THROWS_MATCHES(find_stray_points(set.points, bad_residuals), FitError,
+                       Catch::Matchers::Message("point #10 has a non-finite residual"));
+
+  // suspect_contacts: within 1e-6 mm of the extreme on the given side.
+  StrayPointReport report;
+  report.points = {{3, 0.0, 1.0}, {5, 0.0, 1.0}, {7, 0.0, 1.0}};
+  Eigen::VectorXd envelope = Eigen::VectorXd::Constant(12, 0.004);
+  envelope(3) = 0.0;
+  envelope(5) = 0.9e-6;
+  envelope(7) = 1.1e-6;
+  CHECK(suspect_contacts(report, envelope, ContactSide::lowest) == std::vector<std::size_t>{3, 5});
+  CHECK(suspect_contacts(report, -envelope, ContactSide::highest) ==
+        std::vector<std::size_t>{3, 5});
+  CHECK_THROWS_AS(suspect_contacts(report, Eigen::VectorXd::Zero(6), ContactSide::lowest),
+                  std::invalid_argument);
+}
+
+TEST_CASE("evaluate_bore warns of a suspect point and says when the mating envelope rests on it",
+          "[stray_points][bore_evaluation]") {
+  // A perpendicular bore P1 at (40, 25) in the datum frame, tilted 0.3 mrad, three-lobed.
+  PlanBore plan;
+  plan.id = "P1";
+  plan.basic_location = {40.0, 25.0};
+  plan.size = SizeLimits{12.000, 12.018};
+  Axis axis;
+  axis.point = Eigen::Vector3d(40.006, 24.995, 0.0);
+  axis.direction = direction_from_angles(0.3e-3 * 180.0 / 3.14159265358979, 30.0);
+  ReferenceSet set = make_lobed_cylinder(axis, 6.005, -1.0, -61.0, 13, 48, 2.0 * um, 11.0);
+  const Eigen::Index spike = 7 * 48 + 29;
+  const std::string number = "#" + std::to_string(spike + 1);
+
+  SECTION("pushed 20 um inward: the innermost point, so a contact of both mating envelopes") {
+    set.points.col(spike) -= 20.0 * um * set.normals.col(spike);
+    const BoreResult r = evaluate_bore(plan, set.points);
+    REQUIRE(r.stray_points.points.size() == 1);
+    CHECK(r.stray_points.points[0].index == static_cast<std::size_t>(spike));
+    // Independent of the screen: the spike is at most r + eps - 20 um from the generating axis
+    // and its opposite point (48 per level) at most r + eps, so no inscribed cylinder can
+    // exceed the radius r + eps - 10 um (moving the axis away from one brings it nearer the
+    // other): the mating size is set by the spike.
+    CHECK(r.size.mating_envelope <= 2.0 * (6.005 + 2.0 * um - 10.0 * um) + 1e-9);
+    CHECK(r.mating_envelope.residuals.values(spike) < 1e-6);
+    const auto warning = std::find_if(r.warnings.begin(), r.warnings.end(), [](const std::string& w) {
+      return w.find("suspect point") != std::string::npos;
+    });
+    REQUIRE(warning != r.warnings.end());
+    CHECK_THAT(*warning, Contains("1 suspect point(s) (largest local excess -0.0"));
+    CHECK_THAT(*warning, Contains(" mm at point " + number + " of the file)"));
+    CHECK_THAT(*warning, Contains("point " + number + " is a contact of the actual and the related "
+                                  "mating envelopes: the mating sizes and the axis rest on it"));
+    CHECK_THAT(*warning, Contains("verdicts use all points: review the data"));
+    CHECK(std::count_if(r.warnings.begin(), r.warnings.end(), [](const std::string& w) {
+            return w.find("suspect point") != std::string::npos;
+          }) == 1);
+  }
+  SECTION("pushed 20 um outward: flagged, but no envelope rests on it") {
+    set.points.col(spike) += 20.0 * um * set.normals.col(spike);
+    const BoreResult r = evaluate_bore(plan, set.points);
+    REQUIRE(r.stray_points.points.size() == 1);
+    CHECK(r.stray_points.points[0].index == static_cast<std::size_t>(spike));
+    CHECK(r.stray_points.points[0].excess > 0.0);
+    const auto warning = std::find_if(r.warnings.begin(), r.warnings.end(), [](const std::string& w) {
+      return w.find("suspect point") != std::string::npos;
+    });
+    REQUIRE(warning != r.warnings.end());
+    CHECK_THAT(*warning, Contains(" mm at point " + number + " of the file)"));
+    CHECK_THAT(*warning, !Contains("contact"));
+  }
+  SECTION("no spike: no stray-point warning") {
+    const BoreResult r = evaluate_bore(plan, set.points);
+    CHECK(r.stray_points.points.empty());
+    CHECK(r.stray_points.screened == static_cast<std::size_t>(set.points.cols()));
+    for (const std::string& w : r.warnings) CHECK_THAT(w, !Contains("suspect"));
+  }
+}
+
+TEST_CASE("establish_datum_frame notes suspect points of A and B and the contacts they make",
+          "[stray_points][datum_frame]") {
+  // A: a face 80 x 60 mm through (5, -3, 12), normal 0.5 degrees off +z, 1 um noise, material
+  // below; B: a three-lobed bore perpendicular to A at (30, 20) on it.
+  const Eigen::Vector3d a_point(5.0, -3.0, 12.0);
+  const Eigen::Vector3d n = direction_from_angles(0.5, 20.0);
+  const Eigen::Vector3d u = n.unitOrthogonal(), v = n.cross(u);
+  std::mt19937_64 rng(21);
+  std::normal_distribution<double> noise(0.0, 1.0 * um);
+  PointCloud a_cloud;
+  a_cloud.points.resize(3, 16 * 12);
+  for (int i = 0; i < 16; ++i)
+    for (int j = 0; j < 12; ++j)
+      a_cloud.points.col(12 * i + j) =
+          a_point + (-40.0 + 80.0 * i / 15.0) * u + (-30.0 + 60.0 * j / 11.0) * v + noise(rng) * n;
+  const Eigen::Index a_spike = 5 * 12 + 7;
+  a_cloud.points.col(a_spike) += 15.0 * um * n;  // a chip standing proud of the face
+
+  Axis b_axis;
+  b_axis.point = a_point + 10.0 * u + 8.0 * v;
+  b_axis.direction = n;
+  ReferenceSet b_set = make_lobed_cylinder(b_axis, 10.002, -2.0, -30.0, 8, 48, 2.0 * um, 5.0);
+  const Eigen::Index b_spike = 3 * 48 + 10;
+  b_set.points.col(b_spike) -= 25.0 * um * b_set.normals.col(b_spike);
+  PointCloud b_cloud;
+  b_cloud.points = b_set.points;
+
+  PlanDatum a;
+  a.label = 'A';
+  a.kind = FeatureKind::plane;
+  a.association = PlaneAssociation::tangent_least_squares;
+  PlanDatum b;
+  b.label = 'B';
+  b.kind = FeatureKind::bore;
+  const DatumFrameResult frame = establish_datum_frame({a, b}, {a_cloud, b_cloud}, -n);
+
+  REQUIRE(frame.a.stray_points.points.size() == 1);
+  CHECK(frame.a.stray_points.points[0].index == static_cast<std::size_t>(a_spike));
+  CHECK(frame.a.stray_points.points[0].excess == Approx(15.0 * um).margin(4.0 * um));
+  REQUIRE(frame.b.has_value());
+  REQUIRE(frame.b->stray_points.points.size() == 1);
+  CHECK(frame.b->stray_points.points[0].index == static_cast<std::size_t>(b_spike));
+  CHECK(frame.b->stray_points.points[0].excess < -20.0 * um);
+
+  const auto note_of = [&](const std::string& start) {
+    const auto it = std::find_if(frame.notes.begin(), frame.notes.end(), [&](const std::string& s) {
+      return s.rfind(start, 0) == 0 && s.find("suspect") != std::string::npos;
+    });
+    REQUIRE(it != frame.notes.end());
+    return *it;
+  };
+  const std::string a_note = note_of("datum A: ");
+  CHECK_THAT(a_note, Contains("1 suspect point(s) (largest local excess 0.01"));
+  CHECK_THAT(a_note, Contains("point #" + std::to_string(a_spike + 1) +
+                              " is a contact of the tangent-least-squares datum plane"));
+  CHECK_THAT(a_note, Contains("the frame uses all points: review the data"));
+  const std::string b_note = note_of("datum B: ");
+  CHECK_THAT(b_note, Contains("point #" + std::to_string(b_spike + 1) +
+                              " is a contact of its related mating envelope"));
+
+  // The same A associated by least squares: still flagged, but no plane rests on it.
+  a.association = PlaneAssociation::least_squares;
+  const DatumFrameResult ls = establish_datum_frame({a, b}, {a_cloud, b_cloud}, -n);
+  REQUIRE(ls.a.stray_points.points.size() == 1);
+  const auto a_ls = std::find_if(ls.notes.begin(), ls.notes.end(), [](const std::string& s) {
+    return s.rfind("datum A: ", 0) == 0 && s.find("suspect") != std::string::npos;
+  });
+  REQUIRE(a_ls != ls.notes.end());
+  CHECK_THAT(*a_ls, !Contains("contact"));
+}
+
+// ================================================================ export for the scipy check
+
+namespace {
+
+std::string json_number(double x) {
+  std::ostringstream s;
+  s << std::setprecision(17) << x;
+  return s.str();
+}
+
+struct ScreenCase {
+  std::string name;
+  Eigen::Matrix3Xd points;
+  Eigen::VectorXd residuals;
+  StrayPointOptions options;
+  std::vector<Eigen::Index> injected;
+};
+
+/// Gaussian noise of `sigma` on every residual and `spikes` spikes of +-(4..40) sigma (and a few
+/// near the decision limit) at random indices; returns their indices.
+std::vector<Eigen::Index> perturb(Eigen::VectorXd& r, double sigma, int spikes, std::mt19937_64& rng) {
+  std::normal_distribution<double> normal(0.0, sigma);
+  std::uniform_real_distribution<double> unit(0.0, 1.0);
+  for (Eigen::Index i = 0; i < r.size(); ++i) r(i) += normal(rng);
+  std::vector<Eigen::Index> at;
+  for (int s = 0; s < spikes; ++s) {
+    const Eigen::Index i = static_cast<Eigen::Index>(unit(rng) * static_cast<double>(r.size()));
+    const double size = (4.0 + 36.0 * unit(rng)) * sigma;
+    r(std::min<Eigen::Index>(i, r.size() - 1)) += unit(rng) < 0.5 ? -size : size;
+    at.push_back(std::min<Eigen::Index>(i, r.size() - 1));
+  }
+  return at;
+}
+
+std::vector<ScreenCase> screen_cases() {
+  std::vector<ScreenCase> cases;
+  std::mt19937_64 rng(20240611);
+  std::uniform_real_distribution<double> unit(0.0, 1.0);
+  // Bores, CMM-like and scan-like, with residuals from their least-squares cylinders.
+  for (int k = 0; k < 6; ++k) {
+    ScreenCase c;
+    c.name = "bore-" + std::to_string(k);
+    Axis axis;
+    axis.point = Eigen::Vector3d(200.0 * unit(rng) - 100.0, 200.0 * unit(rng) - 100.0, 50.0 * unit(rng));
+    axis.direction = direction_from_angles(10.0 * unit(rng), 360.0 * unit(rng));
+    const int levels = k % 2 == 0 ? 9 + k : 40 + 10 * k;
+    const int per_level = k % 2 == 0 ? 36 : 60;
+    ReferenceSet set = make_lobed_cylinder(axis, 4.0 + 4.0 * unit(rng), -1.0, -40.0, levels,
+                                           per_level, 2.0 * um * unit(rng), 360.0 * unit(rng));
+    c.points = set.points;
+    c.residuals = least_squares_residuals(set.points, axis);
+    c.injected = perturb(c.residuals, (0.3 + 1.7 * unit(rng)) * um, 2 + k, rng);
+    c.options.neighbours = std::vector<std::size_t>{4, 6, 8, 8, 12, 16}[static_cast<std::size_t>(k)];
+    c.options.threshold = k % 3 == 2 ? 4.0 : 6.0;
+    cases.push_back(c);
+  }
+  // Planes (datum faces) with random in-plane positions.
+  for (int k = 0; k < 2; ++k) {
+    ScreenCase c;
+    c.name = "plane-" + std::to_string(k);
+    const int n = 400 + 300 * k;
+    c.points.resize(3, n);
+    const Eigen::Vector3d normal = direction_from_angles(30.0 * unit(rng), 360.0 * unit(rng));
+    const Eigen::Vector3d u = normal.unitOrthogonal(), v = normal.cross(u);
+    for (int i = 0; i < n; ++i)
+      c.points.col(i) = Eigen::Vector3d(-300.0, 150.0, 20.0) + 90.0 * unit(rng) * u + 60.0 * unit(rng) * v;
+    c.residuals = Eigen::VectorXd::Zero(n);
+    c.injected = perturb(c.residuals, 1.0 * um, 5, rng);
+    c.options.neighbours = 6;
+    c.options.threshold = 5.0;
+    cases.push_back(c);
+  }
+  // A 3D grid of spacing 0.5 (exact in binary): many exact ties in distance.
+  {
+    ScreenCase c;
+    c.name = "grid-ties";
+    c.points.resize(3, 8 * 7 * 6);
+    int i = 0;
+    for (int x = 0; x < 8; ++x)
+      for (int y = 0; y < 7; ++y)
+        for (int z = 0; z < 6; ++z) c.points.col(i++) = Eigen::Vector3d(100.0 + 0.5 * x, -20.0 + 0.5 * y, 0.5 * z);
+    c.residuals = Eigen::VectorXd::Zero(c.points.cols());
+    c.injected = perturb(c.residuals, 1.0 * um, 4, rng);
+    c.options.neighbours = 8;  // 6 face neighbours + 2 of the 12 tied edge neighbours
+    cases.push_back(c);
+  }
+  // Coincident points (a repeated probing): 2 to 5 copies of each, k = 3.
+  {
+    ScreenCase c;
+    c.name = "coincident";
+    std::vector<Eigen::Vector3d> p;
+    for (int j = 0; j < 60; ++j) {
+      const Eigen::Vector3d q(10.0 * unit(rng), 10.0 * unit(rng), 10.0 * unit(rng));
+      for (int copy = 0; copy < 2 + j % 4; ++copy) p.push_back(q);
+    }
+    std::shuffle(p.begin(), p.end(), rng);
+    c.points.resize(3, static_cast<Eigen::Index>(p.size()));
+    for (std::size_t j = 0; j < p.size(); ++j) c.points.col(static_cast<Eigen::Index>(j)) = p[j];
+    c.residuals = Eigen::VectorXd::Zero(c.points.cols());
+    c.injected = perturb(c.residuals, 1.0 * um, 3, rng);
+    c.options.neighbours = 3;
+    cases.push_back(c);
+  }
+  // A scattered cloud with heavy-tailed residuals (Student t, 3 degrees of freedom).
+  {
+    ScreenCase c;
+    c.name = "scattered-heavy-tails";
+    const int n = 1500;
+    c.points.resize(3, n);
+    c.residuals.resize(n);
+    std::student_t_distribution<double> t3(3.0);
+    for (int i = 0; i < n; ++i) {
+      c.points.col(i) = Eigen::Vector3d(40.0 * unit(rng), 40.0 * unit(rng), 5.0 * unit(rng));
+      c.residuals(i) = 1.0 * um * t3(rng);
+    }
+    c.options.neighbours = 12;
+    c.options.threshold = 3.0;
+    c.options.floor = 0.0;
+    cases.push_back(c);
+  }
+  // The smallest set that is screened: k + 1 points.
+  {
+    ScreenCase c;
+    c.name = "smallest";
+    c.points.resize(3, 9);
+    for (Eigen::Index i = 0; i < 9; ++i)
+      c.points.col(i) = Eigen::Vector3d(5.0 * unit(rng), 5.0 * unit(rng), 5.0 * unit(rng));
+    c.residuals = Eigen::VectorXd::Zero(9);
+    c.injected = perturb(c.residuals, 1.0 * um, 1, rng);
+    cases.push_back(c);
+  }
+  // A scanned bore of 21600 points, 1 um noise, 12 spikes.
+  {
+    ScreenCase c;
+    c.name = "scan-large";
+    Axis axis;
+    axis.point = Eigen::Vector3d(812.25, -433.5, 96.0);
+    axis.direction = direction_from_angles(2.0, 250.0);
+    ReferenceSet set = make_lobed_cylinder(axis, 9.5, -0.5, -60.0, 180, 120, 1.5 * um, 3.0);
+    c.points = set.points;
+    c.residuals = least_squares_residuals(set.points, axis);
+    c.injected = perturb(c.residuals, 1.0 * um, 12, rng);
+    cases.push_back(c);
+  }
+  return cases;
+}
+
+}  // namespace
+
+TEST_CASE("write stray-point cases and answers for crosscheck_stray_points.py",
+          "[.][stray-cases]") {
+  std::ostringstream json;
+  json << "{\"cases\": [\n";
+  const std::vector<ScreenCase> cases = screen_cases();
+  std::size_t flagged = 0;
+  for (std::size_t k = 0; k < cases.size(); ++k) {
+    const ScreenCase& c = cases[k];
+    const StrayPointReport report = find_stray_points(c.points, c.residuals, c.options);
+    flagged += report.points.size();
+    json << (k ? ",\n" : "") << "{\"name\": \"" << c.name
+         << "\", \"neighbours\": " << c.options.neighbours
+         << ", \"threshold\": " << json_number(c.options.threshold)
+         << ", \"floor\": " << json_number(c.options.floor) << ",\n\"injected\": [";
+    for (std::size_t j = 0; j < c.injected.size(); ++j) json << (j ? ", " : "") << c.injected[j];
+    json << "],\n\"points\": [";
+    for (Eigen::Index i = 0; i < c.points.cols(); ++i)
+      json << (i ? ", " : "") << "[" << json_number(c.points(0, i)) << ", "
+           << json_number(c.points(1, i)) << ", " << json_number(c.points(2, i)) << "]";
+    json << "],\n\"residuals\": [";
+    for (Eigen::Index i = 0; i < c.residuals.size(); ++i)
+      json << (i ? ", " : "") << json_number(c.residuals(i));
+    json << "],\n\"result\": {\"screened\": " << report.screened
+         << ", \"robust_scale\": " << json_number(report.robust_scale) << ", \"flagged\": [";
+    for (std::size_t j = 0; j < report.points.size(); ++j)
+      json << (j ? ", " : "") << "[" << report.points[j].index << ", "
+           << json_number(report.points[j].residual) << ", "
+           << json_number(report.points[j].excess) << "]";
+    json << "]}}";
+  }
+  json << "\n]}\n";
+  CHECK(flagged > 20);  // the injected spikes are found, so the comparison is not vacuous
+
+  const std::filesystem::path file =
+      cylzone::testing::write_case_file("CYLZONE_STRAY_CASES", json.str());
+  CHECK(std::filesystem::file_size(file) > 100000);
+}
