@@ -3,7 +3,14 @@
 // profile twisting along the bore plus 1 um Gaussian radial noise (fixed seed). Each timing
 // includes the least-squares start, which is timed on its own for comparison. Prints one line
 // per size and method: best and median wall time, process CPU time, linear programmes solved,
-// and the largest linear programme (rows) of the constraint-generation working set.
+// the ambiguity (0: the optimum was proven unique at no extra cost) and the message (largest
+// working set; the linear programmes spent on the ambiguity when it had to be measured).
+//
+// A last line per size times the costly case: the same bore with a maximum-inscribed
+// cylinder that can roll (the construction of tests/test_fit_chebyshev.cpp, 0.05 mm inside
+// the bore): two ridges on opposite generatrices, two pads beside one of them at mid-depth
+// and two stops at the ends, so the mating envelope is not unique and its ambiguity
+// (about 0.5 um) has to be walked out.
 //
 //   bench_fit_chebyshev [--sizes 1000,10000,...] [--runs N]
 #include <Eigen/Geometry>
@@ -43,6 +50,31 @@ Eigen::Matrix3Xd make_lobed_bore(Eigen::Index n, std::uint64_t seed) {
   return p;
 }
 
+/// The lobed bore plus the rolling construction in its frame (pivot at mid-depth).
+Eigen::Matrix3Xd make_rolling_bore(Eigen::Index n, std::uint64_t seed) {
+  const Eigen::Matrix3Xd bore = make_lobed_bore(n, seed);
+  const Eigen::Vector3d point(-152.0, 318.5, 47.25);
+  const Eigen::Vector3d w = Eigen::Vector3d(0.05, -0.03, 1.0).normalized();
+  const Eigen::Vector3d u = w.cross(Eigen::Vector3d::UnitX()).normalized();
+  const Eigen::Vector3d v = w.cross(u);
+  const double r = 12.45, half = 20.0, stop = 5e-4, pad = 2e-3;
+  std::vector<Eigen::Vector3d> local;
+  for (int k = -4; k <= 4; ++k) {
+    local.emplace_back(r, 0.0, 5.0 * k);
+    local.emplace_back(-r, 0.0, 5.0 * k);
+  }
+  local.emplace_back(r * std::cos(pad), r * std::sin(pad), 0.0);
+  local.emplace_back(r * std::cos(pad), -r * std::sin(pad), 0.0);
+  local.emplace_back(0.0, r + stop, half);
+  local.emplace_back(0.0, r + stop, -half);
+  Eigen::Matrix3Xd p(3, bore.cols() + static_cast<Eigen::Index>(local.size()));
+  p.leftCols(bore.cols()) = bore;
+  for (std::size_t i = 0; i < local.size(); ++i)
+    p.col(bore.cols() + static_cast<Eigen::Index>(i)) =
+        point + (half + local[i].z()) * w + local[i].x() * u + local[i].y() * v;
+  return p;
+}
+
 double process_cpu_ms() {
   timespec t;
   clock_gettime(CLOCK_PROCESS_CPUTIME_ID, &t);
@@ -74,19 +106,30 @@ int main(int argc, char** argv) {
   }
 
   using Fit = std::function<cylzone::CylinderFit(const Eigen::Matrix3Xd&)>;
-  const std::vector<std::pair<const char*, Fit>> methods = {
-      {"least-squares", [](const Eigen::Matrix3Xd& p) { return cylzone::fit_cylinder_least_squares(p); }},
-      {"minimum-zone", [](const Eigen::Matrix3Xd& p) { return cylzone::fit_cylinder_minimum_zone(p); }},
-      {"max-inscribed", [](const Eigen::Matrix3Xd& p) { return cylzone::fit_cylinder_maximum_inscribed(p); }},
+  const Fit inscribed = [](const Eigen::Matrix3Xd& p) {
+    return cylzone::fit_cylinder_maximum_inscribed(p);
+  };
+  struct Method {
+    const char* name;
+    Fit fit;
+    bool rolling;  // on the bore with the rolling construction
+  };
+  const std::vector<Method> methods = {
+      {"least-squares", [](const Eigen::Matrix3Xd& p) { return cylzone::fit_cylinder_least_squares(p); }, false},
+      {"minimum-zone", [](const Eigen::Matrix3Xd& p) { return cylzone::fit_cylinder_minimum_zone(p); }, false},
+      {"max-inscribed", inscribed, false},
       {"min-circumscribed",
-       [](const Eigen::Matrix3Xd& p) { return cylzone::fit_cylinder_minimum_circumscribed(p); }},
+       [](const Eigen::Matrix3Xd& p) { return cylzone::fit_cylinder_minimum_circumscribed(p); }, false},
+      {"max-inscribed/roll", inscribed, true},
   };
 
-  std::printf("%9s  %-17s %10s %10s %10s %5s  %s\n", "points", "method", "best ms", "median ms",
-              "cpu ms", "iter", "form mm / message");
+  std::printf("%9s  %-18s %10s %10s %10s %5s %10s  %s\n", "points", "method", "best ms",
+              "median ms", "cpu ms", "iter", "amb mm", "form mm / message");
   for (Eigen::Index n : sizes) {
-    const Eigen::Matrix3Xd points = make_lobed_bore(n, 42);
-    for (const auto& [name, fit] : methods) {
+    const Eigen::Matrix3Xd lobed = make_lobed_bore(n, 42);
+    const Eigen::Matrix3Xd rolling = make_rolling_bore(n, 42);
+    for (const auto& [name, fit, roll] : methods) {
+      const Eigen::Matrix3Xd& points = roll ? rolling : lobed;
       std::vector<double> wall;
       cylzone::CylinderFit last;
       const double cpu0 = process_cpu_ms();
@@ -98,9 +141,10 @@ int main(int argc, char** argv) {
                            .count());
       }
       const double cpu = (process_cpu_ms() - cpu0) / runs;
-      std::printf("%9ld  %-17s %10.2f %10.2f %10.2f %5d  %.6f / %s\n", static_cast<long>(n), name,
-                  *std::min_element(wall.begin(), wall.end()), median(wall), cpu,
-                  last.summary.iterations, last.residuals.form, last.summary.message.c_str());
+      std::printf("%9ld  %-18s %10.2f %10.2f %10.2f %5d %10.6f  %.6f / %s\n", static_cast<long>(n),
+                  name, *std::min_element(wall.begin(), wall.end()), median(wall), cpu,
+                  last.summary.iterations, last.ambiguity, last.residuals.form,
+                  last.summary.message.c_str());
     }
   }
   return 0;

@@ -161,6 +161,9 @@ SizeDatumResult associate_size_datum(const PlanDatum& datum, const PointCloud& c
                                 : fit_cylinder_maximum_inscribed(cloud.points, held);
   result.mating_size = result.related_envelope.diameter();
   result.axis_on_a = meet_plane(result.related_envelope.axis, a);
+  // The envelope's own warnings (coverage, a non-unique envelope) concern the datum: pass them on.
+  for (const std::string& warning : result.related_envelope.summary.warnings)
+    notes.push_back(label_text(datum.label) + ": related mating envelope: " + warning);
   // Stray-point screen on the residuals of the least-squares cylinder held perpendicular to A
   // (stray_points.hpp); the datum axis rests on the envelope's contacts. Too few points to
   // screen (fewer than neighbours + 1) need no fit: the report stays empty.

@@ -37,8 +37,10 @@ CircleFit fit_circle_chebyshev(const Eigen::Matrix3Xd& points, const FitOptions&
   fit.radius = detail::zone_radius(objective, zone.distances);
   fit.angular_coverage_deg = detail::angular_coverage_deg(points, fit.centre, basis);
   fit.residuals = detail::make_residuals(zone.distances.array() - fit.radius);
+  fit.ambiguity = zone.ambiguity;
   fit.summary = detail::zone_fit_summary(method, zone, static_cast<std::size_t>(points.cols()));
   detail::warn_on_coverage(fit.summary, fit.angular_coverage_deg, options);
+  detail::warn_on_ambiguity(fit.summary, "circle", zone);
   return fit;
 }
 

@@ -26,8 +26,11 @@ CylinderFit cylinder_result(const Eigen::Matrix3Xd& points, const Axis& axis,
   fit.angular_coverage_deg = detail::angular_coverage_deg(
       points, fit.axis.point, detail::basis_from_direction(fit.axis.direction));
   fit.residuals = detail::make_residuals(zone.distances.array() - fit.radius);
+  // A held direction makes it a circle problem: the centre's displacement is the axis'.
+  fit.ambiguity = zone.ambiguity;
   fit.summary = detail::zone_fit_summary(method, zone, static_cast<std::size_t>(points.cols()));
   detail::warn_on_coverage(fit.summary, fit.angular_coverage_deg, options);
+  detail::warn_on_ambiguity(fit.summary, "cylinder", zone);
   return fit;
 }
 

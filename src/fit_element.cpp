@@ -67,6 +67,7 @@ ElementFit from(const CircleFit& f) {
   e.normal = f.normal;
   e.radius = f.radius;
   e.angular_coverage_deg = f.angular_coverage_deg;
+  if (f.summary.method != FitMethod::least_squares) e.ambiguity = f.ambiguity;
   e.residuals = f.residuals;
   e.covariance = f.covariance;
   e.summary = f.summary;
@@ -92,6 +93,7 @@ ElementFit from(const CylinderFit& f) {
   e.extent_min = f.extent_min;
   e.extent_max = f.extent_max;
   e.angular_coverage_deg = f.angular_coverage_deg;
+  if (f.summary.method != FitMethod::least_squares) e.ambiguity = f.ambiguity;
   e.residuals = f.residuals;
   e.covariance = f.covariance;
   e.summary = f.summary;

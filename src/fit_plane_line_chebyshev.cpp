@@ -30,6 +30,7 @@ PlaneFit fit_plane_minimum_zone(const Eigen::Matrix3Xd& points, const FitOptions
       ((points.colwise() - fit.point).transpose() * fit.normal).eval());
   fit.summary = detail::zone_fit_summary(FitMethod::minimum_zone, zone,
                                          static_cast<std::size_t>(points.cols()));
+  detail::warn_on_ambiguity(fit.summary, "plane", zone);
   return fit;
 }
 
@@ -52,6 +53,7 @@ LineFit fit_line_minimum_zone(const Eigen::Matrix3Xd& points, const FitOptions& 
   fit.residuals.form = 2.0 * zone.distances.maxCoeff();  // diameter of the cylindrical zone
   fit.summary = detail::zone_fit_summary(FitMethod::minimum_zone, zone,
                                          static_cast<std::size_t>(points.cols()));
+  detail::warn_on_ambiguity(fit.summary, "line", zone);
   return fit;
 }
 

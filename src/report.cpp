@@ -90,6 +90,7 @@ json fit_json(const CylinderFit& f, const ReportUnits& u) {
           {"diameter", u.length(f.diameter())},
           {"rms", u.length(f.residuals.rms)},
           {"form", u.length(f.residuals.form)},
+          {"ambiguity", u.length(f.ambiguity)},
           {"points", f.summary.point_count},
           {"status", f.summary.status == FitStatus::converged ? "converged" : "iteration-limit"},
           {"message", f.summary.message}};
@@ -98,6 +99,7 @@ json fit_json(const CylinderFit& f, const ReportUnits& u) {
 json size_datum_json(const SizeDatumResult& d, const ReportUnits& u) {
   return {{"feature", std::string(feature_kind_name(d.kind))},
           {"mating_size", u.length(d.mating_size)},
+          {"ambiguity", u.length(d.related_envelope.ambiguity)},
           {"axis", {{"point", u.point(d.related_envelope.axis.point)},
                     {"direction", direction(d.related_envelope.axis.direction)}}},
           {"axis_on_a", u.point(d.axis_on_a)},

@@ -15,6 +15,7 @@
 #include <catch2/catch.hpp>
 #include <cmath>
 #include <functional>
+#include <limits>
 #include <random>
 #include <regex>
 #include <string>
@@ -673,4 +674,223 @@ TEST_CASE("minimum-zone line on noisy data is no worse than least squares",
           return distances_to_axis(set.points, moved).maxCoeff();
         },
         4, step, 6);
+}
+
+// ------------------------------------------------------------------ uniqueness
+
+namespace {
+
+// The objective tolerance of the uniqueness check, as docs/chebyshev.md defines it:
+// ambiguity_tolerance (64 units in the last place) x max(data size, largest distance).
+double objective_tolerance(double size, double largest_distance) {
+  return detail::ZoneOptions{}.ambiguity_tolerance * std::max(size, largest_distance);
+}
+
+double size_about_centroid(const Eigen::Matrix3Xd& points) {
+  const Eigen::Vector3d c = points.rowwise().mean();
+  return (points.colwise() - c).colwise().norm().maxCoeff();
+}
+
+bool warns_not_unique(const FitSummary& summary) {
+  for (const std::string& w : summary.warnings)
+    if (w.find("not unique") != std::string::npos) return true;
+  return false;
+}
+
+}  // namespace
+
+TEST_CASE("unique optima have no ambiguity (three-lobed sets)", "[chebyshev][uniqueness]") {
+  // Forbes & Minh 2012 lobed sets: the ideal element is the only minimax element (Chebyshev
+  // alternation: 3 + 3 alternating extremes per section pin every parameter to first order).
+  const Axis circle_axis{{12.0, -7.5, 3.25}, direction_from_angles(35.0, 70.0)};
+  const ReferenceSet circle = make_lobed_cylinder(circle_axis, 12.5, 0.0, 0.0, 1, 36, 0.004, 10.0);
+  for (const CircleFit& fit : {fit_circle_minimum_zone(circle.points),
+                               fit_circle_maximum_inscribed(circle.points),
+                               fit_circle_minimum_circumscribed(circle.points)}) {
+    INFO(method_name(fit.summary.method) << ": " << fit.summary.message);
+    CHECK(fit.ambiguity == 0.0);
+    CHECK_FALSE(warns_not_unique(fit.summary));
+  }
+  const Axis bore{{-1200.0, 2600.0, 1750.0}, direction_from_angles(90.0, 45.0)};
+  const ReferenceSet lobed = make_lobed_cylinder(bore, 6.0, -15.0, 25.0, 7, 24, 0.003, 5.0);
+  for (const CylinderFit& fit : {fit_cylinder_minimum_zone(lobed.points),
+                                 fit_cylinder_maximum_inscribed(lobed.points),
+                                 fit_cylinder_minimum_circumscribed(lobed.points)}) {
+    INFO(method_name(fit.summary.method) << ": " << fit.summary.message);
+    CHECK(fit.ambiguity == 0.0);
+    CHECK_FALSE(warns_not_unique(fit.summary));
+  }
+  // Least squares has no such question: the field stays 0.
+  CHECK(fit_cylinder_least_squares(lobed.points).ambiguity == 0.0);
+}
+
+TEST_CASE("a sharp optimum is proven unique without further linear programmes",
+          "[chebyshev][uniqueness][engine]") {
+  // Three-lobed circle: 3 outer contacts at 120 degrees with equal multipliers 1/3 and full
+  // rank (common practice: a vertex of the linear programme with positive multipliers).
+  const ReferenceSet lobed = make_lobed_cylinder(
+      Axis{{0.0, 0.0, 0.0}, Eigen::Vector3d::UnitZ()}, 10.0, 0.0, 0.0, 1, 36, 0.002, 0.0);
+  const Eigen::Matrix2Xd uv = lobed.points.topRows<2>();
+  detail::ZoneOptions options;
+  options.scale = detail::planar_scale(uv);
+  detail::CircleZoneModel model(uv, Eigen::Vector2d(0.003, -0.002));
+  const detail::ZoneSummary summary =
+      detail::solve_zone(model, detail::ZoneObjective::minimum_circumscribed, options);
+  CHECK(summary.proven_unique);
+  CHECK(summary.ambiguity == 0.0);
+  CHECK(summary.ambiguity_programmes == 0);
+}
+
+TEST_CASE("smallest circle on two diametral points: the centre is held only to second order",
+          "[chebyshev][uniqueness][circle]") {
+  // Two points A, B at +-r from the centre along u, every other point well inside. Moving the
+  // centre by s along the bisector gives the circumscribed radius sqrt(r^2 + s^2) (Pythagoras):
+  // flat to first order, so the contacts do not prove uniqueness, and the circles whose radius
+  // is within the tolerance delta of r have their centres in the lens of the discs of radius
+  // r + delta about A and B, whose farthest points from the midpoint are on the bisector at
+  //   s = sqrt((r + delta)^2 - r^2).
+  // That is the exact ambiguity: about 1.4 nm for r = 8 mm (no warning), about 0.7 um for a
+  // circle of r = 4 m (warning), since s grows as r (2 x 64 ulp)^(1/2). Unlike a genuine
+  // freedom (next test), s depends on delta itself: the computed radii carry a rounding of a
+  // few units in the last place of r, so delta, hence s^2, is known to about 8 ulp in 64.
+  const Eigen::Vector3d centre(40.0, 25.0, -10.0), normal = direction_from_angles(30.0, 110.0);
+  Eigen::Vector3d u, v;
+  perpendicular_pair(normal, u, v);
+  for (double r : {8.0, 4000.0}) {
+    INFO("r = " << r);
+    Eigen::Matrix3Xd points(3, 26);
+    points.col(0) = centre + r * u;
+    points.col(1) = centre - r * u;
+    for (int k = 0; k < 24; ++k) {  // an offset ring inside, at most 0.945 r from the centre
+      const double a = 2.0 * pi * k / 24.0;
+      points.col(2 + k) = centre + (0.0375 * r + 0.9 * r * std::cos(a)) * u +
+                          (0.025 * r + 0.9 * r * std::sin(a)) * v;
+    }
+    const CircleFit mc = fit_circle_minimum_circumscribed(points);
+    REQUIRE(mc.summary.status == FitStatus::converged);
+    CHECK(mc.radius == Approx(r).epsilon(1e-14));
+    CHECK((mc.centre - centre).norm() < 1e-9 * r);
+    const double delta = objective_tolerance(size_about_centroid(points), r);
+    const double rounding = 8.0 * std::numeric_limits<double>::epsilon() * r;
+    const double low = std::sqrt((r + delta - rounding) * (r + delta - rounding) - r * r);
+    const double high = std::sqrt((r + delta + rounding) * (r + delta + rounding) - r * r);
+    CHECK(mc.ambiguity >= low);
+    CHECK(mc.ambiguity <= high);
+    if (r < 100.0) {
+      CHECK(mc.ambiguity < detail::ambiguity_warning_length);
+      CHECK_FALSE(warns_not_unique(mc.summary));
+    } else {
+      REQUIRE(mc.ambiguity > detail::ambiguity_warning_length);
+      REQUIRE(mc.summary.warnings.size() == 1);
+      CHECK(mc.summary.warnings[0] ==
+            "the minimum-circumscribed circle is not unique: its centre can move by up to " +
+                detail::format_number(mc.ambiguity, 6) +
+                " mm without changing the size; figures based on this centre carry that "
+                "ambiguity");
+    }
+  }
+}
+
+TEST_CASE("maximum-inscribed cylinder that can roll: the ambiguity is the roll's reach",
+          "[chebyshev][uniqueness][cylinder]") {
+  // Construction (nominal axis z through the pivot O, local frame (x, y, z), R = 10, T = 20),
+  // derived here (common practice: first-order analysis of the contacts, then the exact
+  // distances along the free motion):
+  //  * two straight ridges, the generatrices x = +-R, y = 0, sampled every 5 mm over
+  //    z in [-T, T]. On their own they cannot hold a maximum-inscribed cylinder: an axis
+  //    shifted by s across their plane is sqrt(R^2 + s^2) > R from every ridge point, so the
+  //    cylinder would grow;
+  //  * so two pads P+- = (R cos f, +-R sin f, 0), f = 2 mrad, beside the +x ridge at the middle
+  //    station stop that shift (their distances change by -+ s sin f);
+  //  * first order at the nominal axis (radius R; contacts: ridges and pads): a displacement
+  //    a(z) of the axis changes a contact's distance by -e.a(z_contact) (e its radial
+  //    direction). The ridges fix a_x(z) = 0 at every station, the pads a_y(0) = 0. Free:
+  //    a_y(z) = theta z, the roll of the axis about O in the plane through the axis
+  //    perpendicular to the generatrices' plane;
+  //  * exactly along that roll (direction (0, sin theta, cos theta) through O) a ridge point
+  //    (+-R, 0, z) is sqrt(R^2 + z^2 sin^2 theta) >= R from the axis (R at z = 0) and a pad is
+  //    R (1 - sin^2 f sin^2 theta)^(1/2), lower than R by R sin^2 f theta^2 / 2 < 2e-14 mm for
+  //    |theta| <= 2.5e-5: every such roll keeps the size to within the tolerance (64 ulp of
+  //    the ~22 mm data size, ~3e-13 mm); the criterion cannot choose between them;
+  //  * two stops S+- = (0, R + g, +-T), g = 0.5 um, end the roll: S+ is (R + g) cos theta -
+  //    T sin theta from the rolled axis, which reaches R at theta+ = acos(R / A) - atan2(T,
+  //    R + g) with A = ((R + g)^2 + T^2)^(1/2) (~ g / T); S- likewise at -theta+. A guard at
+  //    (0, -(R + G), 0), G = 20 um < 2 R sin f, keeps a larger shift toward -y from growing
+  //    the cylinder past the pads.
+  // The equally good axes are the rolls theta in [-theta+, theta+] about O. The fit returns one
+  // of them; its ambiguity is the largest distance, at the ends of the points' extent and in
+  // the planes perpendicular to the fitted axis, between the fitted axis and the two extreme
+  // rolls (the definition in fit_cylinder.hpp), computed here from the fitted axis.
+  struct Case {
+    const char* name;
+    Eigen::Vector3d pivot;
+    Eigen::Vector3d direction;
+  };
+  const Case cases[] = {
+      {"tilted, off the origin", {-35.0, 120.0, 48.0}, direction_from_angles(20.0, 75.0)},
+      {"far from the origin (metres)", {1800.0, -2400.0, 950.0}, direction_from_angles(70.0, -40.0)},
+  };
+  const double R = 10.0, T = 20.0, g = 5e-4, G = 0.02, f = 2e-3;
+  for (const Case& c : cases) {
+    SECTION(c.name) {
+      Eigen::Vector3d x, y;
+      perpendicular_pair(c.direction, x, y);
+      const Eigen::Vector3d z = c.direction.normalized();
+      std::vector<Eigen::Vector3d> local;
+      for (int k = -4; k <= 4; ++k) {
+        local.emplace_back(R, 0.0, 5.0 * k);
+        local.emplace_back(-R, 0.0, 5.0 * k);
+      }
+      local.emplace_back(R * std::cos(f), R * std::sin(f), 0.0);
+      local.emplace_back(R * std::cos(f), -R * std::sin(f), 0.0);
+      local.emplace_back(0.0, R + g, T);
+      local.emplace_back(0.0, R + g, -T);
+      local.emplace_back(0.0, -(R + G), 0.0);
+      Eigen::Matrix3Xd points(3, static_cast<Eigen::Index>(local.size()));
+      for (std::size_t i = 0; i < local.size(); ++i)
+        points.col(static_cast<Eigen::Index>(i)) =
+            c.pivot + local[i].x() * x + local[i].y() * y + local[i].z() * z;
+
+      const CylinderFit mi = fit_cylinder_maximum_inscribed(points);
+      INFO(mi.summary.message);
+      REQUIRE(mi.summary.status == FitStatus::converged);
+      CHECK(mi.radius == Approx(R).margin(agreement));
+      // The fitted axis is one of the rolls: through the pivot, not tilted toward x.
+      CHECK(distance_to_line(c.pivot, mi.axis) < agreement);
+      CHECK(std::abs(mi.axis.direction.dot(x)) < 1e-11);
+
+      const double A = std::hypot(R + g, T);
+      const double theta = std::acos(R / A) - std::atan2(T, R + g);
+      REQUIRE(theta == Approx(g / T).epsilon(1e-4));
+      double expected = 0.0;
+      for (double roll : {theta, -theta}) {
+        const Eigen::Vector3d extreme = std::cos(roll) * z + std::sin(roll) * y;
+        for (double t : {mi.extent_min, mi.extent_max}) {
+          const Eigen::Vector3d on_fit = mi.axis.point + t * mi.axis.direction;
+          const double s = (on_fit - c.pivot).dot(mi.axis.direction) / extreme.dot(mi.axis.direction);
+          expected = std::max(expected, (c.pivot + s * extreme - on_fit).norm());
+        }
+      }
+      CHECK(expected > 4.9e-4);
+      CHECK(mi.ambiguity == Approx(expected).margin(agreement));
+      REQUIRE(mi.summary.warnings.size() == 1);
+      CHECK(mi.summary.warnings[0] ==
+            "the maximum-inscribed cylinder is not unique: its axis can move by up to " +
+                detail::format_number(mi.ambiguity, 6) +
+                " mm at the ends without changing the size; figures based on this axis carry "
+                "that ambiguity");
+    }
+  }
+}
+
+TEST_CASE("a KKT-constructed flatness zone is proven unique", "[chebyshev][uniqueness][plane]") {
+  // The plane set of the tests above: 3 + 1 contacts with positive multipliers whose rows
+  // (gradient, bound) span the 4 unknowns (tilts and both bounds) by construction, so the
+  // engine proves the zone unique at once and warns of nothing.
+  const Eigen::Vector3d point(700.0, -350.0, 1200.0), normal = direction_from_angles(40.0, 15.0);
+  const PlaneFit plane = fit_plane_minimum_zone(kkt_plane_set(
+      point, normal, {{-30.0, -20.0}, {35.0, -15.0}, {5.0, 28.0}}, {{4.0, 3.0}}, 0.006, 300, 8));
+  INFO(plane.summary.message);
+  CHECK(plane.summary.warnings.empty());
+  CHECK(plane.summary.message.find("not proven unique") == std::string::npos);
 }

@@ -19,6 +19,11 @@ struct CircleFit {
   double angular_coverage_deg = 0.0;  ///< 360 minus the largest angular gap between points
   Residuals residuals;                ///< in-plane radial deviations (roundness for minimum zone)
   ParameterCovariance covariance;
+  /// Chebyshev and mating fits: largest displacement of the centre among elements whose
+  /// objective is within the tolerance of the optimum; 0 when the optimum is unique (to that
+  /// tolerance) and for least squares (docs/chebyshev.md, "Non-unique optima"). A warning is
+  /// added above 1e-4 mm.
+  double ambiguity = 0.0;
   FitSummary summary;
 
   double diameter() const noexcept { return 2.0 * radius; }

@@ -26,6 +26,11 @@ struct CylinderFit {
   double angular_coverage_deg = 0.0;
   Residuals residuals;  ///< distance from the axis minus radius (cylindricity for minimum zone)
   ParameterCovariance covariance;
+  /// Chebyshev and mating fits: largest displacement of the axis at either end of the extent
+  /// among elements whose objective is within the tolerance of the optimum; 0 when the
+  /// optimum is unique (to that tolerance) and for least squares (docs/chebyshev.md,
+  /// "Non-unique optima"). A warning is added above 1e-4 mm.
+  double ambiguity = 0.0;
   FitSummary summary;
 
   double diameter() const noexcept { return 2.0 * radius; }

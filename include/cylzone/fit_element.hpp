@@ -26,6 +26,9 @@ struct ElementFit {
   std::optional<double> radius;           ///< circle, sphere, cylinder
   std::optional<double> extent_min, extent_max;     ///< line, cylinder
   std::optional<double> angular_coverage_deg;       ///< circle, cylinder
+  /// Circle and cylinder by a Chebyshev or mating method: how far the element can move without
+  /// a worse objective (0 = unique); see CylinderFit::ambiguity.
+  std::optional<double> ambiguity;
   Residuals residuals;
   ParameterCovariance covariance;
   FitSummary summary;

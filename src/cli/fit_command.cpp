@@ -56,6 +56,7 @@ nlohmann::json fit_json(const ElementFit& fit, const PointCloud& cloud, LengthUn
   if (fit.centre) j["centre"] = vector_json(*fit.centre, mm);
   if (fit.radius) j["diameter"] = 2.0 * *fit.radius / mm;
   if (fit.angular_coverage_deg) j["angular_coverage_deg"] = *fit.angular_coverage_deg;
+  if (fit.ambiguity) j["ambiguity"] = *fit.ambiguity / mm;
   j["status"] = fit.summary.status == FitStatus::converged ? "converged" : "iteration-limit";
   j["iterations"] = fit.summary.iterations;
   j["message"] = fit.summary.message;
@@ -95,6 +96,7 @@ void print_fit(std::ostream& out, const ElementFit& fit, const PointCloud& cloud
   if (fit.radius) out << "  diameter         " << fixed(2.0 * *fit.radius / mm, d) << '\n';
   if (fit.angular_coverage_deg)
     out << "  coverage         " << fixed(*fit.angular_coverage_deg, 1) << " deg\n";
+  if (fit.ambiguity) out << "  ambiguity        " << fixed(*fit.ambiguity / mm, d) << '\n';
   out << "  rms              " << fixed(fit.residuals.rms / mm, d) << '\n';
   out << "  form             " << fixed(fit.residuals.form / mm, d)
       << (fit.element == Element::line ? "  (cylindrical zone diameter)" : "") << '\n';

@@ -19,6 +19,8 @@
 // generation on a working set; it returns the optimum of the full linear programme. The
 // final contacts are refined by Newton's method on the optimality (KKT) conditions, which
 // places the element exactly where the objective alone cannot (fewer contacts than unknowns).
+// Finally the engine decides whether the optimum is unique and, when it cannot prove it,
+// measures how far the element can move without a worse objective (ZoneSummary::ambiguity).
 // docs/chebyshev.md describes the method.
 
 #include <Eigen/Core>
@@ -38,6 +40,18 @@ enum class ZoneObjective { minimum_zone, maximum_inscribed, minimum_circumscribe
 
 /// The ZoneObjective of a Chebyshev-type method. Throws std::invalid_argument for least squares.
 ZoneObjective zone_objective(FitMethod method);
+
+/// Where a model measures how far its element moves (the ambiguity of a non-unique optimum):
+/// a few reference points of the element (a centre; an axis at both ends of the points'
+/// extent; a plane at the corners of the points' box), each displaced by a vector of
+/// `dimension` components. To first order the components are `functionals` x step
+/// (+ offset_weight x the change of the zone's mid-offset, for a plane); ZoneModel::displacements
+/// gives them exactly.
+struct DisplacementGauge {
+  Eigen::MatrixXd functionals;  ///< (points x dimension) x parameter_count(), lengths per length
+  double offset_weight = 0.0;   ///< weight of the mid-offset change (r + R)/2 (planes: 1)
+  int dimension = 2;            ///< components per reference point
+};
 
 /// The element-specific half of a Chebyshev fit: the current element and a local
 /// parametrisation about it. Parameters are in length units (tilts are scaled by the data's
@@ -61,6 +75,14 @@ class ZoneModel {
   /// The same element, frame and parametrisation over the given points only (column k of the
   /// copy is point indices[k]); used to work on the contact points alone.
   virtual std::unique_ptr<ZoneModel> subset(const std::vector<Eigen::Index>& indices) const = 0;
+  /// The reference points of the current element and their first-order displacements.
+  virtual DisplacementGauge displacement_gauge() const = 0;
+  /// Exact displacement components (as the gauge's rows) of the element displaced by `step`,
+  /// given the distances at that step and at the current element (a plane's mid-offset is the
+  /// mean of the extreme distances).
+  virtual Eigen::VectorXd displacements(const Eigen::VectorXd& step,
+                                        const Eigen::VectorXd& distances_at_step,
+                                        const Eigen::VectorXd& distances_here) const = 0;
 };
 
 /// Radial distances |q_i - c| of points in a plane from a centre c (circles, and cylinders with
@@ -75,10 +97,15 @@ class CircleZoneModel final : public ZoneModel {
   void move(const Eigen::VectorXd& step) override;
   double location_offset() const override;
   std::unique_ptr<ZoneModel> subset(const std::vector<Eigen::Index>& indices) const override;
+  DisplacementGauge displacement_gauge() const override;
+  Eigen::VectorXd displacements(const Eigen::VectorXd& step, const Eigen::VectorXd& distances_at_step,
+                                const Eigen::VectorXd& distances_here) const override;
 
   const Eigen::Vector2d& centre() const noexcept { return centre_; }
 
  private:
+  CircleZoneModel() = default;  // for subset()
+
   Eigen::Matrix2Xd points_;
   Eigen::Vector2d centroid_;
   Eigen::Vector2d centre_;
@@ -99,11 +126,15 @@ class AxisZoneModel final : public ZoneModel {
   void move(const Eigen::VectorXd& step) override;
   double location_offset() const override;
   std::unique_ptr<ZoneModel> subset(const std::vector<Eigen::Index>& indices) const override;
+  DisplacementGauge displacement_gauge() const override;
+  Eigen::VectorXd displacements(const Eigen::VectorXd& step, const Eigen::VectorXd& distances_at_step,
+                                const Eigen::VectorXd& distances_here) const override;
 
   /// Current axis: point = foot of the perpendicular from the centroid, unit direction.
   Axis axis() const;
 
  private:
+  AxisZoneModel() = default;  // for subset()
   void set_frame(const Eigen::Vector3d& point_on_axis, const Eigen::Vector3d& direction);
 
   Eigen::Matrix3Xd points_;
@@ -126,12 +157,18 @@ class PlaneZoneModel final : public ZoneModel {
   void move(const Eigen::VectorXd& step) override;
   double location_offset() const override { return 0.0; }
   std::unique_ptr<ZoneModel> subset(const std::vector<Eigen::Index>& indices) const override;
+  DisplacementGauge displacement_gauge() const override;
+  Eigen::VectorXd displacements(const Eigen::VectorXd& step, const Eigen::VectorXd& distances_at_step,
+                                const Eigen::VectorXd& distances_here) const override;
 
   const Eigen::Vector3d& centroid() const noexcept { return centroid_; }
   Eigen::Vector3d normal() const { return basis_.col(2); }
 
  private:
+  PlaneZoneModel() = default;  // for subset()
   void set_frame(const Eigen::Vector3d& normal);
+  /// Lowest (column 0) and highest (column 1) in-plane coordinates of the points.
+  Eigen::Matrix2d box() const;
 
   Eigen::Matrix3Xd points_;
   Eigen::Vector3d centroid_;
@@ -158,6 +195,18 @@ struct ZoneOptions {
   std::size_t full_set_limit = 400;
   /// Working set: this many points nearest each active bound, plus a stride sample of as many.
   std::size_t working_points_per_side = 48;
+  /// Uniqueness of the optimum (docs/chebyshev.md, "Non-unique optima"): elements whose
+  /// objective is within ambiguity_tolerance x max(scale, largest distance) of the optimum's
+  /// count as equally good. 64 units in the last place: several times the rounding of one
+  /// distance evaluation, so rounding cannot pass for a difference, and far below any
+  /// difference of size or zone a measurement could show.
+  double ambiguity_tolerance = 64.0 * std::numeric_limits<double>::epsilon();
+  /// First trust-box half-width of the ambiguity walks, relative to scale; it grows tenfold
+  /// whenever a verified step reaches the box, up to ambiguity_box_limit. Small, so that the
+  /// linear programmes' feasibility tolerance (1e-10 of the box) stays below the objective
+  /// tolerance.
+  double ambiguity_box = 1e-6;
+  double ambiguity_box_limit = 0.1;
 };
 
 enum class ZoneStatus { converged, iteration_limit, unbounded };
@@ -169,6 +218,16 @@ struct ZoneSummary {
   bool polished = false;               ///< the final contacts were refined by Newton's method
   Eigen::VectorXd distances;           ///< exact distances at the final element
   std::string message;
+  /// The final contacts determine the element to first order (full rank, positive
+  /// multipliers): the optimum is unique and `ambiguity` is 0 without further work.
+  bool proven_unique = false;
+  /// Largest verified displacement of the element's reference points (DisplacementGauge) among
+  /// elements whose objective is within the tolerance of the optimum's; 0 when proven unique
+  /// and when the iteration did not converge (not assessed).
+  double ambiguity = 0.0;
+  int ambiguity_programmes = 0;  ///< linear programmes solved to measure it
+  /// Why the ambiguity could not be measured (a linear programme failed); empty otherwise.
+  std::string ambiguity_failure;
 };
 
 /// Runs the sequential linear programme from the model's current element; on return the model
@@ -185,6 +244,17 @@ double zone_radius(ZoneObjective objective, const Eigen::VectorXd& distances);
 
 /// FitSummary (method, status, iterations, message) for a finished solve_zone.
 FitSummary zone_fit_summary(FitMethod method, const ZoneSummary& zone, std::size_t point_count);
+
+/// Fits warn when their ambiguity exceeds this length (mm): 0.1 um, the last digit of the
+/// lengths in cylzone's reports (4 decimals of a millimetre); a smaller ambiguity is at the
+/// level of the reports' rounding.
+inline constexpr double ambiguity_warning_length = 1e-4;
+
+/// Adds "the maximum-inscribed cylinder is not unique: its axis can move by up to X mm at the
+/// ends without changing the size; ..." to `summary` (whose method is set) when the zone's
+/// ambiguity exceeds ambiguity_warning_length, or a warning that it could not be measured.
+/// `element`: "circle", "cylinder", "line" or "plane".
+void warn_on_ambiguity(FitSummary& summary, const char* element, const ZoneSummary& zone);
 
 /// Throws FitError for an unbounded maximum-inscribed element, e.g. "maximum-inscribed
 /// cylinder is unbounded: the points cover only 90.0 degrees around the least-squares axis ...".
