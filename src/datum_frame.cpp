@@ -6,10 +6,12 @@
 // orientation held and B's location known, fixes the rotation about z.
 #include "cylzone/datum_frame.hpp"
 
+#include <Eigen/Eigenvalues>
 #include <Eigen/Geometry>
 #include <algorithm>
 #include <cmath>
 #include <cstddef>
+#include <limits>
 #include <optional>
 #include <stdexcept>
 #include <string>
@@ -20,6 +22,7 @@
 #include "cylzone/fit_circle.hpp"
 #include "cylzone/material_condition.hpp"
 #include "cylzone/tangent_plane.hpp"
+#include "detail/clocking_width.hpp"
 #include "detail/fit_support.hpp"
 #include "detail/stray_point_message.hpp"
 #include "detail/tangent_line.hpp"
@@ -40,6 +43,27 @@ constexpr double nearly_parallel_cosine = 0.99;
 constexpr double least_material_cosine = 0.2;
 
 std::string label_text(char label) { return std::string("datum ") + label; }
+
+// The MMB of a datum feature of size, the plan's or else its MMC size, and the shift it allows
+// as if referenced at MMB (the caller knows the references and sets `boundary`). A feature
+// violating its MMB allows nothing and gets a note (ASME Y14.5-2018 datum feature shift;
+// common practice).
+void set_mmb_boundary(const PlanDatum& datum, double mating, const std::string& measure,
+                      const std::string& allowance_name, std::optional<double>& mmb_size,
+                      double& shift_allowance, std::vector<std::string>& notes) {
+  if (datum.mmb_size)
+    mmb_size = datum.mmb_size;
+  else if (datum.size)
+    mmb_size = datum.size->mmc(datum.kind);
+  if (!mmb_size) return;
+  shift_allowance = datum_shift_allowance(MaterialBoundary::mmb, datum.kind, mating, *mmb_size);
+  const bool violates = is_external(datum.kind) ? mating > *mmb_size : mating < *mmb_size;
+  if (violates)
+    notes.push_back(label_text(datum.label) + ": related mating " + measure + " " +
+                    detail::format_number(mating, 4) + " mm violates its MMB " +
+                    detail::format_number(*mmb_size, 4) + " mm: it does not fit an MMB simulator, no " +
+                    allowance_name + " is available");
+}
 
 // Runs `associate`, naming the datum in any FitError it throws.
 template <class Associate>
@@ -179,22 +203,8 @@ SizeDatumResult associate_size_datum(const PlanDatum& datum, const PointCloud& c
                         "the datum axis and its mating size rest on"}});
   }
   result.size = datum.size;
-  if (datum.mmb_size)
-    result.mmb_size = datum.mmb_size;
-  else if (datum.size)
-    result.mmb_size = datum.size->mmc(datum.kind);
-  if (result.mmb_size) {
-    // As if referenced at MMB; the caller knows the references and sets `boundary`.
-    result.shift_allowance = datum_shift_allowance(MaterialBoundary::mmb, datum.kind,
-                                                   result.mating_size, *result.mmb_size);
-    const bool violates = datum.kind == FeatureKind::pin ? result.mating_size > *result.mmb_size
-                                                         : result.mating_size < *result.mmb_size;
-    if (violates)
-      notes.push_back(label_text(datum.label) + ": related mating size " +
-                      detail::format_number(result.mating_size, 4) + " mm violates its MMB " +
-                      detail::format_number(*result.mmb_size, 4) +
-                      " mm: it does not fit an MMB simulator, no datum shift is available");
-  }
+  set_mmb_boundary(datum, result.mating_size, "size", "datum shift", result.mmb_size,
+                   result.shift_allowance, notes);
   return result;
 }
 
@@ -287,6 +297,150 @@ ClockingPlaneResult associate_clocking_plane(const PlanDatum& datum, const Point
                     {{suspect_contacts(result.stray_points, plane.residuals.values,
                                        ContactSide::highest),
                       "the clocking plane", "the frame's rotation about A's normal rests on"}});
+  return result;
+}
+
+// Clocking datum C as a slot or tab (detail/clocking_width.hpp): the simulator's two planes
+// perpendicular to A, symmetric about a centre plane through B's axis (`origin`, on A), at
+// RMB expand (slot) or contract (tab) to the feature while the centre plane turns about B's
+// axis. Distances to planes containing A's normal are the in-plane distances of the points
+// projected onto A, so the problem is solved in A's plane about B's axis.
+ClockingWidthResult associate_clocking_width(const PlanDatum& datum, const PointCloud& cloud,
+                                             const PlaneFit& a, const Eigen::Vector3d& origin,
+                                             const FitOptions& fit,
+                                             const StrayPointOptions& stray_options,
+                                             std::vector<std::string>& notes) {
+  const Eigen::Vector3d& z = a.normal;
+  const bool internal = !is_external(datum.kind);
+  const std::string feature(feature_kind_name(datum.kind));
+  const Eigen::Matrix3d basis = detail::basis_from_direction(z);
+  const Eigen::Matrix2Xd projected = detail::planar_coordinates(cloud.points, origin, basis);
+  const detail::WidthAboutAxis width = detail::fit_width_about_origin(projected, internal);
+
+  ClockingWidthResult result;
+  result.label = datum.label;
+  result.kind = datum.kind;
+  result.mating_width = width.mating_width;
+  result.iterations = width.evaluations;
+  const Eigen::Vector2d u(std::cos(width.angle), std::sin(width.angle));
+  const Eigen::Vector2d n(-u.y(), u.x());
+  result.centre_direction = (basis.leftCols<2>() * u).normalized();
+  result.centre_plane_normal = z.cross(result.centre_direction).normalized();
+  const Eigen::Vector2d centroid = projected.rowwise().mean();
+  result.centre_on_a = origin + centroid.dot(u) * result.centre_direction;
+  const Eigen::Index count = projected.cols();
+  const Eigen::Index positive = (width.face.array() > 0).count();
+  result.positive_face.resize(3, positive);
+  result.negative_face.resize(3, count - positive);
+  for (Eigen::Index i = 0, p = 0, m = 0; i < count; ++i) {
+    const Eigen::Vector3d on_a = origin + basis.leftCols<2>() * projected.col(i);
+    if (width.face(i) > 0)
+      result.positive_face.col(p++) = on_a;
+    else
+      result.negative_face.col(m++) = on_a;
+  }
+
+  // Each face's own least-squares plane against A: the simulator holds its planes
+  // perpendicular to A whatever the faces do, which is worth a note when they lean (a draft,
+  // a tilted cutter), and a face nearly parallel to A is the wrong feature for the role.
+  FitOptions plain = fit;
+  plain.fixed_direction.reset();
+  plain.axis_hint.reset();
+  for (const int face : {1, -1}) {
+    Eigen::Matrix3Xd face_points(3, face > 0 ? positive : count - positive);
+    for (Eigen::Index i = 0, k = 0; i < count; ++i)
+      if (width.face(i) == face) face_points.col(k++) = cloud.points.col(i);
+    // Named as in detail/clocking_width.hpp: +1 is left of the centre line.
+    const std::string side = "of the " + feature + (face > 0 ? " left" : " right") +
+                             " of its centre line (seen from outside the material looking "
+                             "from B toward C)";
+    // Points of one face that fix no plane (2 points, or a line of points) cannot tell its
+    // orientation; the association itself needs only their projections.
+    std::optional<double> tilt;
+    try {
+      const PlaneFit own = fit_plane_least_squares(face_points, plain);
+      tilt = 90.0 - std::min(angle_deg(own.normal, z), 180.0 - angle_deg(own.normal, z));
+    } catch (const FitError&) {
+    }
+    if (tilt && *tilt > orientation_limit_deg)
+      throw FitError("the face " + side + " is parallel to A (its least-squares normal " +
+                     "is " + detail::format_number(90.0 - *tilt, 1) +
+                     " degrees from A's normal); its faces must be perpendicular to A");
+    if (tilt && *tilt > orientation_note_deg)
+      notes.push_back(label_text(datum.label) + ": the face " + side + " is " +
+                      detail::format_number(*tilt, 2) +
+                      " degrees out of perpendicular to A; the simulator's planes are held "
+                      "perpendicular to A");
+  }
+
+  // Signed distances d from the centre plane, and each point's residual from the simulator's
+  // plane on its face, <= 0 with the contacts at 0: slot w/2 - s d, tab s d - w/2.
+  const Eigen::VectorXd d = projected.transpose() * n;
+  const Eigen::VectorXd s = width.face.cast<double>();
+  const Eigen::VectorXd on_face = s.cwiseProduct(d);
+  // The faces are told apart by the side of the centre line through B's axis each point lies
+  // on. Points of one face only (or of a feature far off B's axis) are split all the same, into
+  // two "faces" that lie across each other: a real face's spread across the centre plane is its
+  // form and its small lean against the simulator, far less than the gap between the faces.
+  {
+    double gap = 0.0;
+    double spread = 0.0;
+    for (const int face : {1, -1}) {
+      double lo = std::numeric_limits<double>::infinity(), hi = -lo;
+      for (Eigen::Index i = 0; i < count; ++i)
+        if (width.face(i) == face) {
+          lo = std::min(lo, on_face(i));
+          hi = std::max(hi, on_face(i));
+        }
+      gap += lo;
+      spread = std::max(spread, hi - lo);
+    }
+    if (!(spread < 0.5 * gap))
+      throw FitError("its two faces are not told apart: split by the centre line through datum "
+                     "B's axis they are " + detail::format_number(gap, 4) +
+                     " mm apart at their nearest points while a face spreads " +
+                     detail::format_number(spread, 4) +
+                     " mm across the centre plane; give points on both faces of the " + feature);
+  }
+
+  const Eigen::VectorXd simulator_residuals =
+      internal ? Eigen::VectorXd((0.5 * width.mating_width - on_face.array()).matrix())
+               : Eigen::VectorXd((on_face.array() - 0.5 * width.mating_width).matrix());
+
+  // Stray-point screen (stray_points.hpp) on the residuals of each face's least-squares line
+  // in A, positive out of the material: toward the centre plane for a slot, away from it for a
+  // tab. The simulator rests on its contacts.
+  if (cloud.size() > stray_options.neighbours) {
+    Eigen::VectorXd residuals(count);
+    for (const int face : {1, -1}) {
+      std::vector<Eigen::Index> members;
+      for (Eigen::Index i = 0; i < count; ++i)
+        if (width.face(i) == face) members.push_back(i);
+      Eigen::Matrix2Xd q(2, static_cast<Eigen::Index>(members.size()));
+      for (std::size_t k = 0; k < members.size(); ++k)
+        q.col(static_cast<Eigen::Index>(k)) = projected.col(members[k]);
+      const Eigen::Vector2d mean = q.rowwise().mean();
+      const Eigen::Matrix2Xd centred = q.colwise() - mean;
+      // Least-squares line: its normal is the eigenvector of the smaller eigenvalue of the
+      // scatter (Pearson 1901; common practice), turned away from the centre plane.
+      const Eigen::SelfAdjointEigenSolver<Eigen::Matrix2d> eigen(centred * centred.transpose());
+      Eigen::Vector2d normal = eigen.eigenvectors().col(0);
+      if (normal.dot(n) * face < 0.0) normal = -normal;
+      const double outward = internal ? -1.0 : 1.0;
+      for (std::size_t k = 0; k < members.size(); ++k)
+        residuals(members[k]) = outward * centred.col(static_cast<Eigen::Index>(k)).dot(normal);
+    }
+    result.stray_points = find_stray_points(cloud.points, residuals, stray_options);
+    note_stray_points(notes, datum.label, result.stray_points,
+                      {{suspect_contacts(result.stray_points, simulator_residuals,
+                                         ContactSide::highest),
+                        "the " + feature + "'s simulator",
+                        "the frame's rotation about A's normal rests on"}});
+  }
+
+  result.size = datum.size;
+  set_mmb_boundary(datum, result.mating_width, "width", "rotation allowance", result.mmb_size,
+                   result.shift_allowance, notes);
   return result;
 }
 
@@ -388,6 +542,11 @@ DatumFrameResult establish_datum_frame(const std::vector<PlanDatum>& datums,
     if (b_datum.kind == FeatureKind::plane)
       throw FitError(label_text(b_datum.label) +
                      ": a secondary datum plane is not supported; B must be a bore or a pin");
+    if (b_datum.kind == FeatureKind::slot || b_datum.kind == FeatureKind::tab)
+      throw FitError(label_text(b_datum.label) + ": a " +
+                     std::string(feature_kind_name(b_datum.kind)) +
+                     " cannot be datum B, which locates the origin with its axis; B must be a "
+                     "bore or a pin");
     result.b = for_datum(b_datum.label, [&] {
       return associate_size_datum(b_datum, clouds[1], result.a.plane, fit, options.stray_points,
                                   result.notes);
@@ -418,6 +577,25 @@ DatumFrameResult establish_datum_frame(const std::vector<PlanDatum>& datums,
           label_text(c_datum.label) +
           " (plane): tangent least-squares plane perpendicular to A; the frame is turned so its "
           "outward normal has its basic direction");
+    } else if (c_datum.kind == FeatureKind::slot || c_datum.kind == FeatureKind::tab) {
+      const std::string kind(feature_kind_name(c_datum.kind));
+      if (!c_datum.basic_location || !(c_datum.basic_location->norm() > 0.0))
+        throw FitError(label_text(c_datum.label) +
+                       ": its basic location (away from B's axis) is needed to clock the frame");
+      result.c_width = for_datum(c_datum.label, [&] {
+        return associate_clocking_width(c_datum, clouds[2], result.a.plane, origin, fit,
+                                        options.stray_points, result.notes);
+      });
+      x = clocked_x(in_plane_unit(result.c_width->centre_direction, z), *c_datum.basic_location,
+                    z);
+      // ASME Y14.5-2018: a tertiary datum feature of size at RMB, its simulator located by the
+      // datum axis B (from memory for the clause).
+      result.notes.push_back(
+          label_text(c_datum.label) + " (" + kind + "): its simulator, two parallel planes "
+          "perpendicular to A about a centre plane through B's axis, " +
+          (c_datum.kind == FeatureKind::slot ? "expands" : "contracts") +
+          " to the " + kind + " (related mating width); the frame is turned so the centre plane "
+          "runs from B in the direction of C's basic location");
     } else {
       if (!c_datum.basic_location || !(c_datum.basic_location->norm() > 0.0))
         throw FitError(label_text(c_datum.label) +

@@ -35,13 +35,13 @@
 #include "cylzone/errors.hpp"
 #include "cylzone/material_condition.hpp"
 #include "detail/fit_support.hpp"
+#include "detail/golden_section.hpp"
 
 namespace cylzone {
 namespace {
 
 constexpr double pi = 3.14159265358979323846;
 constexpr double infinity = std::numeric_limits<double>::infinity();
-constexpr double golden = 0.38196601125010515180;  // (3 - sqrt 5) / 2
 
 const DatumReference* find_reference(const std::vector<DatumReference>& datums, char label) {
   for (const DatumReference& d : datums)
@@ -49,13 +49,23 @@ const DatumReference* find_reference(const std::vector<DatumReference>& datums, 
   return nullptr;
 }
 
-/// Shift allowance of a datum feature of size at MMB, from its related envelope and its MMB
-/// size (the plan's, or the MMC size). Falls back on the frame's own figure without limits.
-double mmb_allowance(const SizeDatumResult& datum) {
+/// Shift allowance of a datum feature of size at MMB, from its related envelope (or width) and
+/// its MMB size (the plan's, or the MMC size). Falls back on the frame's own figure without
+/// limits.
+template <class Datum>
+double mmb_allowance(const Datum& datum, double mating_size) {
   std::optional<double> boundary = datum.mmb_size;
   if (!boundary && datum.size) boundary = datum.size->mmc(datum.kind);
   if (!boundary) return datum.shift_allowance;
-  return datum_shift_allowance(MaterialBoundary::mmb, datum.kind, datum.mating_size, *boundary);
+  return datum_shift_allowance(MaterialBoundary::mmb, datum.kind, mating_size, *boundary);
+}
+
+/// The MMB size a datum feature's simulator has: the plan's, or else the MMC size.
+template <class Datum>
+std::optional<double> mmb_size_of(const Datum& datum) {
+  if (datum.mmb_size) return datum.mmb_size;
+  if (datum.size) return datum.size->mmc(datum.kind);
+  return std::nullopt;
 }
 
 /// One evaluated height of one bore: its deviation M s + b, weighted by 2 / allowed.
@@ -198,45 +208,6 @@ double worst_ratio(const std::vector<Term>& terms, const Eigen::Vector2d& s) {
   return worst;
 }
 
-/// Golden-section search for the minimum of a unimodal f on [a, b]; returns (argmin, min),
-/// the best of all evaluated points including both ends.
-template <class F>
-std::pair<double, double> golden_minimum(F&& f, double a, double b, double tolerance,
-                                         int max_iterations) {
-  if (b < a) std::swap(a, b);
-  double best_x = a, best_f = f(a);
-  const auto keep = [&](double x, double fx) {
-    if (fx < best_f) {
-      best_f = fx;
-      best_x = x;
-    }
-  };
-  if (b == a) return {best_x, best_f};
-  keep(b, f(b));
-  double x1 = a + golden * (b - a), x2 = b - golden * (b - a);
-  double f1 = f(x1), f2 = f(x2);
-  keep(x1, f1);
-  keep(x2, f2);
-  for (int it = 0; it < max_iterations && b - a > tolerance; ++it) {
-    if (f1 <= f2) {
-      b = x2;
-      x2 = x1;
-      f2 = f1;
-      x1 = a + golden * (b - a);
-      f1 = f(x1);
-      keep(x1, f1);
-    } else {
-      a = x1;
-      x1 = x2;
-      f1 = f2;
-      x2 = b - golden * (b - a);
-      f2 = f(x2);
-      keep(x2, f2);
-    }
-  }
-  return {best_x, best_f};
-}
-
 struct InnerSolution {
   Eigen::Vector2d shift = Eigen::Vector2d::Zero();
   double ratio = infinity;
@@ -268,7 +239,7 @@ class InnerSolver {
       const double half = std::sqrt(disc);
       const auto along = [&](double tau) { return f(Eigen::Vector2d(p0 + tau * u)); };
       const auto [tau, value] =
-          golden_minimum(along, -half, half, s_tolerance_, options_.max_iterations);
+          detail::golden_minimum(along, -half, half, s_tolerance_, options_.max_iterations);
       out.shift = p0 + tau * u;
       out.ratio = value;
       return out;
@@ -284,22 +255,19 @@ class InnerSolver {
     Eigen::Vector2d e1(1.0, 0.0);
     double x_lo = -radius, x_hi = radius;
     if (mobility_.c_shift_allowance > 0.0) {
-      // |(c - s) . n(alpha + theta)| <= c allowance: C's axis within its allowance of the ray.
-      const Eigen::Vector2d& c = mobility_.c_location;
-      const double alpha = std::atan2(c.y(), c.x());
-      e1 = Eigen::Vector2d(-std::sin(alpha + theta), std::cos(alpha + theta));
-      const double cn = c.dot(e1);
-      x_lo = std::max(x_lo, cn - mobility_.c_shift_allowance);
-      x_hi = std::min(x_hi, cn + mobility_.c_shift_allowance);
+      const Strip strip = c_strip(theta);
+      e1 = strip.normal;
+      x_lo = std::max(x_lo, strip.lo);
+      x_hi = std::min(x_hi, strip.hi);
       if (x_lo > x_hi) return out;
     }
     const Eigen::Vector2d e2(-e1.y(), e1.x());
     const auto across = [&](double x) {
       const double half = std::sqrt(std::max(0.0, radius * radius - x * x));
-      return golden_minimum([&](double y) { return f(Eigen::Vector2d(x * e1 + y * e2)); }, -half,
+      return detail::golden_minimum([&](double y) { return f(Eigen::Vector2d(x * e1 + y * e2)); }, -half,
                             half, s_tolerance_, options_.max_iterations);
     };
-    const auto [x, value] = golden_minimum([&](double xx) { return across(xx).second; }, x_lo,
+    const auto [x, value] = detail::golden_minimum([&](double xx) { return across(xx).second; }, x_lo,
                                            x_hi, s_tolerance_, options_.max_iterations);
     out.shift = x * e1 + across(x).first * e2;
     out.ratio = value;
@@ -320,11 +288,55 @@ class InnerSolver {
     return bound * (1.0 + 1e-9) + 1e-12;
   }
 
-  bool strip_contains_origin(double theta) const {
+  /// C at MMB: the origins s it allows at rotation theta, lo <= s . normal <= hi, with normal
+  /// n(alpha + theta) the normal of C's basic ray in the moved frame.
+  struct Strip {
+    Eigen::Vector2d normal = Eigen::Vector2d::UnitY();
+    double lo = 0.0;
+    double hi = 0.0;
+  };
+  Strip c_strip(double theta) const {
     const Eigen::Vector2d& c = mobility_.c_location;
     const double alpha = std::atan2(c.y(), c.x());
-    const Eigen::Vector2d n(-std::sin(alpha + theta), std::cos(alpha + theta));
-    return std::abs(c.dot(n)) <= mobility_.c_shift_allowance;
+    Strip strip;
+    strip.normal = Eigen::Vector2d(-std::sin(alpha + theta), std::cos(alpha + theta));
+    if (!mobility_.c_width) {
+      // |(c - s) . n| <= c allowance: C's axis within its allowance of the ray.
+      const double cn = c.dot(strip.normal);
+      strip.lo = cn - mobility_.c_shift_allowance;
+      strip.hi = cn + mobility_.c_shift_allowance;
+      return strip;
+    }
+    // A point q of C is at (q - s) . n from the simulator's centre plane. A slot's simulator
+    // (a block MMB wide) must leave the positive face at >= MMB / 2 and the negative one at
+    // <= -MMB / 2; a tab's (two plates MMB apart) must hold every point within +-MMB / 2
+    // (ASME Y14.5-2018, datum feature simulator at MMB; from memory for the clause).
+    const FrameMobility::WidthSimulator& w = *mobility_.c_width;
+    const auto extremes = [&](const std::vector<Eigen::Vector2d>& face) {
+      std::pair<double, double> range{infinity, -infinity};
+      for (const Eigen::Vector2d& q : face) {
+        const double v = q.dot(strip.normal);
+        range.first = std::min(range.first, v);
+        range.second = std::max(range.second, v);
+      }
+      return range;
+    };
+    const auto [positive_min, positive_max] = extremes(w.positive_face);
+    const auto [negative_min, negative_max] = extremes(w.negative_face);
+    const double half = 0.5 * w.mmb_width;
+    if (w.internal) {
+      strip.lo = negative_max + half;
+      strip.hi = positive_min - half;
+    } else {
+      strip.lo = std::max(positive_max, negative_max) - half;
+      strip.hi = std::min(positive_min, negative_min) + half;
+    }
+    return strip;
+  }
+
+  bool strip_contains_origin(double theta) const {
+    const Strip strip = c_strip(theta);
+    return strip.lo <= 0.0 && 0.0 <= strip.hi;
   }
 
   const FrameMobility& mobility_;
@@ -332,11 +344,51 @@ class InnerSolver {
   double s_tolerance_;
 };
 
+/// Half-width of the rotations a slot or tab C at MMB can allow, with the origin within
+/// `shift` of its place. In coordinates (t along C's basic ray, d across it) a point moves, at
+/// rotation theta and origin s, to d cos theta -+ t sin theta - s.n from the simulator's centre
+/// plane, with |s.n| <= shift. Each point gives a necessary condition on sigma = |sin theta|
+/// for the sense of rotation that moves it toward the simulator's plane on its side:
+///   slot (stays >= MMB / 2 out):  t sigma <= |d| - MMB / 2 + shift   (cos theta <= 1);
+///   tab (stays <= MMB / 2 in):    |d| (1 - sigma^2) + t sigma <= MMB / 2 + shift
+///                                 (cos theta >= 1 - sigma^2 for |theta| <= pi/2),
+/// whose smaller root bounds sigma when the larger lies beyond 1. Beyond pi/2 a slot's faces
+/// would cross the block; a tab turned that far no longer presents its faces to the plates.
+double width_rotation_bracket(const FrameMobility::WidthSimulator& w, const Eigen::Vector2d& c,
+                              double shift) {
+  const Eigen::Vector2d u = c.normalized();
+  const Eigen::Vector2d n(-u.y(), u.x());
+  const double half = 0.5 * w.mmb_width;
+  const auto bound = [&](const std::vector<Eigen::Vector2d>& face) {
+    double sigma = 1.0;
+    for (const Eigen::Vector2d& q : face) {
+      const double t = q.dot(u), d = std::abs(q.dot(n));
+      if (!(t > 0.0)) continue;
+      if (w.internal) {
+        sigma = std::min(sigma, std::max(0.0, d - half + shift) / t);
+      } else {
+        // d sigma^2 - t sigma + k >= 0 with k = MMB / 2 + shift - d >= 0.
+        const double k = std::max(0.0, half + shift - d);
+        const double disc = t * t - 4.0 * d * k;
+        if (disc < 0.0) continue;
+        const double root = std::sqrt(disc);
+        if (d > 0.0 && (t + root) / (2.0 * d) <= 1.0) continue;  // a second feasible range
+        sigma = std::min(sigma, 2.0 * k / (t + root));
+      }
+    }
+    return sigma;
+  };
+  const double sigma = std::max(bound(w.positive_face), bound(w.negative_face));
+  return std::asin(std::min(1.0, sigma));
+}
+
 /// Half-width of the rotation bracket: no rotation beyond it can beat the unmoved frame. The
 /// bounds follow from |offset| <= F0 / w at the start and at the optimum, with the rotation
 /// moving a lever arm q by 2 sin(|theta| / 2) |q| (exact for a bore perpendicular to A; the
 /// bound is doubled for inclined bores). 0 when no rotation can matter.
 double rotation_bracket(const PatternModel& model, const FrameMobility& mobility, double f0) {
+  if (mobility.c_width && mobility.c_shift_allowance > 0.0 && !mobility.rotation_follows_c)
+    return width_rotation_bracket(*mobility.c_width, mobility.c_location, mobility.shift_allowance);
   if (mobility.rotation_follows_c || mobility.c_shift_allowance > 0.0) {
     const double c = mobility.c_location.norm();
     const double reach = mobility.rotation_follows_c
@@ -379,7 +431,11 @@ std::string FrameMobility::description() const {
   if (rotation_free) parts.push_back("no datum C: rotation about the frame's z axis free");
   if (shift_allowance > 0.0) parts.push_back("datum B at MMB: shift up to " + mm(shift_allowance) + " mm");
   if (rotation_follows_c) parts.push_back("rotation follows datum C (RMB)");
-  if (c_shift_allowance > 0.0)
+  if (c_shift_allowance > 0.0 && c_width)
+    parts.push_back(std::string("datum C (") + (c_width->internal ? "slot" : "tab") +
+                    ") at MMB: its centre plane may move up to " + mm(c_shift_allowance) +
+                    " mm off the simulator's, less as the frame turns");
+  else if (c_shift_allowance > 0.0)
     parts.push_back("datum C at MMB: C may move up to " + mm(c_shift_allowance) + " mm off its basic direction");
   for (const std::string& note : notes) parts.push_back(note);
   if (parts.empty()) return "frame fully fixed";
@@ -395,20 +451,47 @@ FrameMobility mobility_of(const std::vector<DatumReference>& datums, const Datum
   m.translation_free = b == nullptr;
   m.rotation_free = c == nullptr;
   if (b && !frame.b) throw FitError("datum B is referenced but the frame has no datum B");
-  if (c && !frame.c_feature && !frame.c_plane)
+  if (c && !frame.c_feature && !frame.c_plane && !frame.c_width)
     throw FitError("datum C is referenced but the frame has no datum C");
-  if (b && b->boundary == MaterialBoundary::mmb) m.shift_allowance = mmb_allowance(*frame.b);
+  if (b && b->boundary == MaterialBoundary::mmb)
+    m.shift_allowance = mmb_allowance(*frame.b, frame.b->mating_size);
   if (b && b->boundary == MaterialBoundary::lmb)
     m.notes.push_back("datum B at LMB: shift not applied (conservative)");
-  if (c && frame.c_feature) {
-    m.c_location = frame.frame.point_to_frame(frame.c_feature->axis_on_a).head<2>();
-    if (c->boundary == MaterialBoundary::mmb) m.c_shift_allowance = mmb_allowance(*frame.c_feature);
+  if (c && (frame.c_feature || frame.c_width)) {
+    if (frame.c_width) {
+      // A slot or tab: located by its centre on its centre line (its points' centroid
+      // projected there), which the frame's clocking put on the basic ray.
+      const ClockingWidthResult& w = *frame.c_width;
+      m.c_location = frame.frame.point_to_frame(w.centre_on_a).head<2>();
+      if (c->boundary == MaterialBoundary::mmb) m.c_shift_allowance = mmb_allowance(w, w.mating_width);
+      const std::optional<double> mmb = mmb_size_of(w);
+      if (m.c_shift_allowance > 0.0 && mmb) {
+        FrameMobility::WidthSimulator simulator;
+        simulator.internal = !is_external(w.kind);
+        simulator.mmb_width = *mmb;
+        const auto face_hull = [&](const Eigen::Matrix3Xd& face) {
+          std::vector<Eigen::Vector2d> in_frame;
+          for (Eigen::Index i = 0; i < face.cols(); ++i)
+            in_frame.push_back(frame.frame.point_to_frame(face.col(i)).head<2>());
+          return hull_vertices(std::move(in_frame));
+        };
+        simulator.positive_face = face_hull(w.positive_face);
+        simulator.negative_face = face_hull(w.negative_face);
+        m.c_width = std::move(simulator);
+      }
+    } else {
+      m.c_location = frame.frame.point_to_frame(frame.c_feature->axis_on_a).head<2>();
+      if (c->boundary == MaterialBoundary::mmb)
+        m.c_shift_allowance = mmb_allowance(*frame.c_feature, frame.c_feature->mating_size);
+    }
     if (c->boundary == MaterialBoundary::lmb)
       m.notes.push_back("datum C at LMB: rotation allowance not applied (conservative)");
     // With no room of its own, C holds the rotation exactly and follows a shifting frame.
     if (m.c_shift_allowance == 0.0 && m.shift_allowance > 0.0) m.rotation_follows_c = true;
     if ((m.rotation_follows_c || m.c_shift_allowance > 0.0) && m.c_location.norm() <= 1e-9)
-      throw FitError("datum C's axis coincides with datum B's: it cannot clock the frame");
+      throw FitError(frame.c_width
+                         ? "datum C's centre lies on datum B's axis: it cannot clock the frame"
+                         : "datum C's axis coincides with datum B's: it cannot clock the frame");
   }
   return m;
 }
@@ -489,7 +572,7 @@ MobilityResult best_frame_motion(const std::vector<const BoreResult*>& bores,
   const double lo = std::max(-bracket, (best_k - 1) * step);
   const double hi = std::min(bracket, (best_k + 1) * step);
   // `consider` keeps the best motion seen, so the search's own return value is not needed.
-  golden_minimum(
+  detail::golden_minimum(
       [&](double t) {
         ++result.iterations;
         const InnerSolution s = solve_at(t);

@@ -397,7 +397,7 @@ class PlanParser {
       check_keys(table, path, kDatumBKeys, "for datum B");
     else if (peeked == "plane")
       check_keys(table, path, kDatumCPlaneKeys, "for datum C as a plane");
-    else if (peeked == "bore" || peeked == "pin")
+    else if (peeked == "bore" || peeked == "pin" || peeked == "slot" || peeked == "tab")
       check_keys(table, path, kDatumCSizeKeys, "for datum C as a " + peeked);
     else
       check_keys(table, path, kDatumCAnyKeys, "for datum C");
@@ -407,24 +407,31 @@ class PlanParser {
     d.where = {line_of(table), path};
 
     const std::string feature_key = path + ".feature";
-    const std::string allowed_text = label == 'A'   ? "\"plane\""
-                                     : label == 'B' ? "\"bore\" or \"pin\""
-                                                    : "\"bore\", \"pin\" or \"plane\"";
+    const std::string allowed_text =
+        label == 'A'   ? "\"plane\""
+        : label == 'B' ? "\"bore\" or \"pin\""
+                       : "\"bore\", \"pin\", \"slot\", \"tab\" or \"plane\"";
     const toml::node& feature = require(table, path, "feature", allowed_text);
     const std::string kind = read_string(feature, feature_key, allowed_text);
+    const bool width = kind == "slot" || kind == "tab";
     if (kind == "plane" && label != 'B')
       d.kind = FeatureKind::plane;
     else if (kind == "bore" && label != 'A')
       d.kind = FeatureKind::bore;
     else if (kind == "pin" && label != 'A')
       d.kind = FeatureKind::pin;
-    else if (label == 'A' && (kind == "bore" || kind == "pin"))
+    else if (kind == "slot" && label == 'C')
+      d.kind = FeatureKind::slot;
+    else if (kind == "tab" && label == 'C')
+      d.kind = FeatureKind::tab;
+    else if (label == 'A' && (kind == "bore" || kind == "pin" || width))
       fail(line_of(feature), feature_key,
            "datum A must be a plane: the frame is built on a primary datum plane (found " +
                in_quotes(kind) + ")");
-    else if (label == 'B' && kind == "plane")
+    else if (label == 'B' && (kind == "plane" || width))
       fail(line_of(feature), feature_key,
-           "datum B must be a bore or a pin: it locates the frame's origin (found \"plane\")");
+           "datum B must be a bore or a pin: it locates the frame's origin with its axis (found " +
+               in_quotes(kind) + ")");
     else
       fail(line_of(feature), feature_key,
            "unknown feature " + in_quotes(kind) + ": expected " + allowed_text);
@@ -457,25 +464,31 @@ class PlanParser {
       // The MMB of a datum feature of size is its MMC size or, with an orientation or location
       // tolerance at MMC, its virtual condition: never larger than MMC for a bore, never smaller
       // for a pin (ASME Y14.5-2018, datum feature simulators; common practice).
+      // A slot follows the rule of a bore, a tab that of a pin.
       const double mmc = d.size->mmc(d.kind);
       const double tol = 1e-12 * std::max(1.0, mmc);
-      if (d.kind == FeatureKind::bore && value > mmc + tol)
+      const std::string kind_text(feature_kind_name(d.kind));
+      if (!is_external(d.kind) && value > mmc + tol)
         fail(line_of(*mmb), key,
-             "the MMB of a bore must not exceed its MMC size (lower limit " +
+             "the MMB of a " + kind_text + " must not exceed its MMC size (lower limit " +
                  number_text(mmc / mm_per_unit_) + "), found " + number_text(value / mm_per_unit_));
-      if (d.kind == FeatureKind::pin && value < mmc - tol)
+      if (is_external(d.kind) && value < mmc - tol)
         fail(line_of(*mmb), key,
-             "the MMB of a pin must not be below its MMC size (upper limit " +
+             "the MMB of a " + kind_text + " must not be below its MMC size (upper limit " +
                  number_text(mmc / mm_per_unit_) + "), found " + number_text(value / mm_per_unit_));
       d.mmb_size = value;
     }
 
     if (label == 'C' && d.kind != FeatureKind::plane) {
+      // A bore or pin C is located by its axis; a slot or tab by its centre on A, whose
+      // direction from B is the basic direction of its centre plane.
+      const bool width_c = d.kind == FeatureKind::slot || d.kind == FeatureKind::tab;
+      const std::string what = width_c ? "C's centre (on its centre plane)" : "C's axis";
       const std::string key = path + ".basic";
       const toml::node& basic =
-          require(table, path, "basic", "the basic location [x, y] of C's axis in the frame");
+          require(table, path, "basic", "the basic location [x, y] of " + what + " in the frame");
       d.basic_location =
-          read_vector<2>(basic, key, "the basic location [x, y] of C's axis (2 numbers)") *
+          read_vector<2>(basic, key, "the basic location [x, y] of " + what + " (2 numbers)") *
           mm_per_unit_;
       if (!(d.basic_location->norm() > 1e-9))
         fail(line_of(basic), key,

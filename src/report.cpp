@@ -106,7 +106,7 @@ json size_datum_json(const SizeDatumResult& d, const ReportUnits& u) {
           {"boundary", std::string(boundary_name(d.boundary))},
           {"mmb_size", optional_number(d.mmb_size, u)},
           {"shift_allowance",
-           d.boundary == MaterialBoundary::rmb ? 0.0 : u.length(d.shift_allowance)},
+           d.boundary == MaterialBoundary::mmb ? u.length(d.shift_allowance) : 0.0},
           {"stray_points", stray_json(d.stray_points, u)}};
 }
 
@@ -299,6 +299,22 @@ std::string format_json(const PartCheckResult& r) {
       datums["C"]["basic"] = json::array({u.length(c->basic_location->x()),
                                           u.length(c->basic_location->y())});
   }
+  if (r.datums.c_width) {
+    const ClockingWidthResult& w = *r.datums.c_width;
+    datums["C"] = {{"feature", std::string(feature_kind_name(w.kind))},
+                   {"mating_width", u.length(w.mating_width)},
+                   {"centre_plane_normal", direction(w.centre_plane_normal)},
+                   {"centre_direction", direction(w.centre_direction)},
+                   {"basic", nullptr},
+                   {"boundary", std::string(boundary_name(w.boundary))},
+                   {"mmb_size", optional_number(w.mmb_size, u)},
+                   {"shift_allowance",
+                    w.boundary == MaterialBoundary::mmb ? u.length(w.shift_allowance) : 0.0},
+                   {"stray_points", stray_json(w.stray_points, u)}};
+    if (const PlanDatum* c = r.plan.datum('C'); c && c->basic_location)
+      datums["C"]["basic"] = json::array({u.length(c->basic_location->x()),
+                                          u.length(c->basic_location->y())});
+  }
   if (r.datums.c_plane)
     datums["C"] = {{"feature", "plane"},
                    {"point", u.point(r.datums.c_plane->plane.point)},
@@ -342,15 +358,26 @@ std::string format_table(const PartCheckResult& r) {
   out << "  A  plane, " << association_name(d.a.association) << ", flatness "
       << u.text(d.a.flatness) << (d.a.material_side_inferred ? ", material side inferred" : "")
       << '\n';
-  auto size_datum = [&](const SizeDatumResult& s) {
-    out << "  " << s.label << "  " << feature_kind_name(s.kind) << ", related mating size "
-        << u.text(s.mating_size) << ", " << boundary_name(s.boundary);
-    if (s.boundary != MaterialBoundary::rmb && s.mmb_size)
-      out << " " << u.text(*s.mmb_size) << ", shift allowance " << u.text(s.shift_allowance);
+  // One line per datum feature of size: its related mating size (a diameter, or a width), the
+  // boundary it is used at and, at MMB or LMB, the boundary size and the shift it allows.
+  auto size_line = [&](char label, FeatureKind kind, const char* measure, double mating,
+                       MaterialBoundary boundary, const std::optional<double>& mmb,
+                       double allowance) {
+    out << "  " << label << "  " << feature_kind_name(kind) << ", related mating " << measure
+        << " " << u.text(mating) << ", " << boundary_name(boundary);
+    // The datum mobility applies MMB only; LMB is left fixed, which is conservative.
+    if (boundary == MaterialBoundary::mmb && mmb)
+      out << " " << u.text(*mmb) << ", shift allowance " << u.text(allowance);
+    if (boundary == MaterialBoundary::lmb) out << " (shift not applied: conservative)";
     out << '\n';
   };
-  if (d.b) size_datum(*d.b);
-  if (d.c_feature) size_datum(*d.c_feature);
+  for (const auto* s : {&d.b, &d.c_feature})
+    if (*s)
+      size_line((*s)->label, (*s)->kind, "size", (*s)->mating_size, (*s)->boundary,
+                (*s)->mmb_size, (*s)->shift_allowance);
+  if (d.c_width)
+    size_line(d.c_width->label, d.c_width->kind, "width", d.c_width->mating_width,
+              d.c_width->boundary, d.c_width->mmb_size, d.c_width->shift_allowance);
   if (d.c_plane) out << "  C  plane, tangent least squares perpendicular to A\n";
   for (const std::string& note : d.notes) out << "  note: " << note << '\n';
   out << '\n';

@@ -25,6 +25,8 @@ std::string_view feature_kind_name(FeatureKind kind) noexcept {
     case FeatureKind::plane: return "plane";
     case FeatureKind::bore: return "bore";
     case FeatureKind::pin: return "pin";
+    case FeatureKind::slot: return "slot";
+    case FeatureKind::tab: return "tab";
   }
   return "plane";
 }

@@ -368,6 +368,230 @@ TEST_CASE("nothing free: the unmoved frame", "[datum_mobility]") {
   CHECK_THROWS_WITH(best_frame_motion({&unevaluated.result}, {&unevaluated.plan}, m), Contains("H1"));
 }
 
+// ---- Datum C a slot or tab at MMB: the simulator's faces bound the rotation.
+
+namespace {
+
+/// A width datum C on its basic ray (alpha = 0), faces at d = +-3 mm from the centre plane for
+/// t = 40 .. 60 mm along it (frame coordinates), with a simulator `mmb` wide.
+FrameMobility::WidthSimulator straight_faces(bool internal, double mmb) {
+  FrameMobility::WidthSimulator w;
+  w.internal = internal;
+  w.mmb_width = mmb;
+  for (double t : {40.0, 45.0, 50.0, 55.0, 60.0}) {
+    w.positive_face.emplace_back(t, 3.0);
+    w.negative_face.emplace_back(t, -3.0);
+  }
+  return w;
+}
+
+/// Worst ratio of moved_pattern(angle, 0) after the frame turns by theta about the origin: every
+/// bore at basic b is off by |R(angle - theta) b - b| = 2 |sin((angle - theta) / 2)| |b|, and
+/// |b| = sqrt(30^2 + 20^2) for all four (plane geometry, common practice).
+double turned_pattern_ratio(double angle, double theta, double tolerance = 0.025) {
+  return 2.0 * 2.0 * std::abs(std::sin(0.5 * (angle - theta))) * std::hypot(30.0, 20.0) / tolerance;
+}
+
+/// Both point sets hold the same points (any order), each within `tolerance`.
+bool same_points(const std::vector<Eigen::Vector2d>& got, const std::vector<Eigen::Vector2d>& want,
+                 double tolerance) {
+  if (got.size() != want.size()) return false;
+  for (const Eigen::Vector2d& w : want) {
+    int matches = 0;
+    for (const Eigen::Vector2d& g : got) matches += (g - w).norm() <= tolerance ? 1 : 0;
+    if (matches != 1) return false;
+  }
+  return true;
+}
+
+// A slot or tab C at MMB (`m`, C at (50, 0) with 0.005 of room, faces reaching to 60 mm)
+// whose rotation limit is `limit`: a pattern turned three times as far stops at the limit, on
+// the side of its rotation; one turned by half of it is turned back exactly. A bore C at the
+// same place with the same room is bounded by its centre alone, 50 |sin theta| <= 0.005: a
+// larger limit, so the faces hold the frame tighter than C's centre would.
+void check_width_rotation_limit(const FrameMobility& m, double limit) {
+  for (double sense : {1.0, -1.0}) {
+    const MobilityResult r = moved_pattern(sense * 3 * limit, Eigen::Vector2d::Zero()).best(m);
+    CHECK(r.motion.rotation_rad == Approx(sense * limit).margin(1e-12));
+    CHECK(r.motion.shift.norm() == 0.0);
+    const double expected = turned_pattern_ratio(sense * 3 * limit, sense * limit);
+    CHECK(r.worst_ratio == Approx(expected).epsilon(1e-9));
+  }
+  const MobilityResult inside = moved_pattern(0.5 * limit, Eigen::Vector2d::Zero()).best(m);
+  CHECK(inside.motion.rotation_rad == Approx(0.5 * limit).margin(1e-12));
+  CHECK(inside.worst_ratio < 1e-10);
+
+  FrameMobility bore = m;
+  bore.c_width.reset();
+  const double bore_limit = std::asin(0.005 / 50.0);
+  CHECK(bore_limit > 1.15 * limit);
+  const MobilityResult rb = moved_pattern(3 * limit, Eigen::Vector2d::Zero()).best(bore);
+  CHECK(rb.motion.rotation_rad == Approx(bore_limit).margin(1e-12));
+  const MobilityResult rw = moved_pattern(3 * limit, Eigen::Vector2d::Zero()).best(m);
+  CHECK(rw.worst_ratio > rb.worst_ratio * 1.05);
+}
+
+}  // namespace
+
+TEST_CASE("a slot C at MMB stops the rotation where a face's far end meets the block",
+          "[datum_mobility]") {
+  // Closed form (plane geometry, common practice). B at RMB, so the origin stays. At rotation
+  // theta the block, 5.99 wide about the centre plane through the origin at angle theta (the
+  // moved frame's x axis is R(theta) x), has normal n = (-sin theta, cos theta); a face point
+  // (t, +-3) lies at -t sin theta +- 3 cos theta from its centre plane and must stay at least
+  // 2.995 outside it: the positive face bounds theta > 0, the negative face theta < 0, and the
+  // far end t = 60 reaches the block first: 3 cos theta - 60 |sin theta| >= 2.995, i.e.
+  // R cos(|theta| + atan2(60, 3)) >= 2.995 with R = sqrt(3^2 + 60^2).
+  const double radius = std::hypot(3.0, 60.0);
+  const double limit = std::acos(2.995 / radius) - std::atan2(60.0, 3.0);
+  REQUIRE(limit > 0.0);
+  REQUIRE(3.0 * std::cos(limit) - 60.0 * std::sin(limit) == Approx(2.995).margin(1e-13));
+  FrameMobility m;
+  m.c_location = Eigen::Vector2d(50.0, 0.0);
+  m.c_shift_allowance = 0.005;  // (6.0 - 5.99) / 2: the slot's mating width is 6.0
+  m.c_width = straight_faces(true, 5.99);
+
+  check_width_rotation_limit(m, limit);
+}
+
+TEST_CASE("a tab C at MMB stops the rotation where a face's far end meets a plate",
+          "[datum_mobility]") {
+  // Closed form (plane geometry, common practice), as for the slot: two plates 6.01 apart about
+  // the centre plane at angle theta must hold every point of the tab, |-t sin theta +- 3 cos
+  // theta| <= 3.005. The negative face bounds theta > 0, the positive face theta < 0, the far
+  // end first: 3 cos theta + 60 |sin theta| <= 3.005, i.e. R cos(|theta| - atan2(60, 3)) <= 3.005.
+  const double radius = std::hypot(3.0, 60.0);
+  const double limit = std::atan2(60.0, 3.0) - std::acos(3.005 / radius);
+  REQUIRE(limit > 0.0);
+  REQUIRE(3.0 * std::cos(limit) + 60.0 * std::sin(limit) == Approx(3.005).margin(1e-13));
+  FrameMobility m;
+  m.c_location = Eigen::Vector2d(50.0, 0.0);
+  m.c_shift_allowance = 0.005;  // (6.01 - 6.0) / 2: the tab's mating width is 6.0
+  m.c_width = straight_faces(false, 6.01);
+  check_width_rotation_limit(m, limit);
+}
+
+TEST_CASE("mobility of a slot or tab datum C", "[datum_mobility]") {
+  DatumFrameResult frame;
+  // A frame turned and moved against the measurement coordinates, so C's centre and faces must
+  // be converted.
+  frame.frame.rotation =
+      Eigen::AngleAxisd(-0.4, Eigen::Vector3d(0.2, -0.1, 1.0).normalized()).toRotationMatrix();
+  frame.frame.origin = Eigen::Vector3d(-30.0, 80.0, 15.0);
+  frame.b = size_datum('B', FeatureKind::bore, 20.012, 20.000);
+  const auto measured = [&](const std::vector<Eigen::Vector3d>& in_frame) {
+    Eigen::Matrix3Xd p(3, static_cast<Eigen::Index>(in_frame.size()));
+    for (std::size_t i = 0; i < in_frame.size(); ++i)
+      p.col(static_cast<Eigen::Index>(i)) = frame.frame.point_to_measurement(in_frame[i]);
+    return p;
+  };
+  // Each face's points at several depths; projected onto A their convex hull is the four
+  // corners, the other points lie inside it.
+  const std::vector<Eigen::Vector2d> positive_hull = {{40.0, 2.999}, {60.0, 2.999}, {60.0, 3.002},
+                                                      {40.0, 3.002}};
+  const std::vector<Eigen::Vector2d> negative_hull = {{40.0, -2.999}, {60.0, -2.999},
+                                                      {60.0, -3.002}, {40.0, -3.002}};
+  ClockingWidthResult slot;
+  slot.kind = FeatureKind::slot;
+  slot.mating_width = 6.0;
+  slot.mmb_size = 5.99;
+  slot.size = SizeLimits{5.99, 6.03};
+  slot.shift_allowance = 0.005;
+  slot.centre_on_a = frame.frame.point_to_measurement(Eigen::Vector3d(50.0, 0.0, 0.0));
+  slot.positive_face = measured({{40.0, 2.999, -1.0}, {60.0, 2.999, -4.0}, {50.0, 3.0005, -3.0},
+                                 {60.0, 3.002, -1.0}, {45.0, 3.001, -2.0}, {40.0, 3.002, -6.0},
+                                 {60.0, 3.002, -5.0}});
+  slot.negative_face = measured({{52.0, -3.001, -2.0}, {40.0, -2.999, -3.0}, {60.0, -2.999, -3.0},
+                                 {60.0, -3.002, -7.0}, {40.0, -3.002, -1.0}});
+  frame.c_width = slot;
+  const auto A = DatumReference{'A', MaterialBoundary::rmb};
+  const auto B = DatumReference{'B', MaterialBoundary::rmb};
+  const auto BM = DatumReference{'B', MaterialBoundary::mmb};
+  const auto C = DatumReference{'C', MaterialBoundary::rmb};
+  const auto CM = DatumReference{'C', MaterialBoundary::mmb};
+
+  // Slot at MMB: room (mating - MMB) / 2 = (6.0 - 5.99) / 2 (ASME Y14.5-2018 datum feature
+  // shift, internal feature; from memory for the clause).
+  FrameMobility m = mobility_of(refs({A, B, CM}), frame);
+  CHECK((m.c_location - Eigen::Vector2d(50.0, 0.0)).norm() < 1e-12);
+  CHECK(m.c_shift_allowance == Approx(0.005).margin(1e-15));
+  CHECK(m.shift_allowance == 0.0);
+  CHECK_FALSE(m.rotation_follows_c);
+  CHECK(m.any());
+  REQUIRE(m.c_width);
+  CHECK(m.c_width->internal);
+  CHECK(m.c_width->mmb_width == 5.99);
+  CHECK(same_points(m.c_width->positive_face, positive_hull, 1e-12));
+  CHECK(same_points(m.c_width->negative_face, negative_hull, 1e-12));
+  CHECK_THAT(m.description(),
+             Contains("datum C (slot) at MMB: its centre plane may move up to 0.0050 mm off the "
+                      "simulator's, less as the frame turns"));
+
+  // Tab at MMB, its MMB the MMC width (the upper limit of an external feature): room
+  // (MMB - mating) / 2 = (6.01 - 6.0) / 2.
+  DatumFrameResult tab_frame = frame;
+  tab_frame.c_width->kind = FeatureKind::tab;
+  tab_frame.c_width->mmb_size.reset();
+  tab_frame.c_width->size = SizeLimits{5.97, 6.01};
+  m = mobility_of(refs({A, BM, CM}), tab_frame);
+  CHECK(m.c_shift_allowance == Approx(0.005).margin(1e-15));
+  CHECK(m.shift_allowance == Approx(0.006).margin(1e-15));
+  CHECK_FALSE(m.rotation_follows_c);
+  REQUIRE(m.c_width);
+  CHECK_FALSE(m.c_width->internal);
+  CHECK(m.c_width->mmb_width == 6.01);
+  CHECK(same_points(m.c_width->positive_face, positive_hull, 1e-12));
+  CHECK_THAT(m.description(), Contains("datum B at MMB: shift up to 0.0060 mm") &&
+                                  Contains("datum C (tab) at MMB: its centre plane may move up to "
+                                           "0.0050 mm"));
+
+  // C at RMB: no simulator; with B at MMB the rotation follows C's centre.
+  m = mobility_of(refs({A, BM, C}), frame);
+  CHECK(m.c_shift_allowance == 0.0);
+  CHECK_FALSE(m.c_width);
+  CHECK(m.rotation_follows_c);
+  CHECK((m.c_location - Eigen::Vector2d(50.0, 0.0)).norm() < 1e-12);
+
+  // A slot narrower than its MMB (or a tab wider) violates it: no room, no simulator.
+  DatumFrameResult violating = frame;
+  violating.c_width->mating_width = 5.985;
+  m = mobility_of(refs({A, B, CM}), violating);
+  CHECK(m.c_shift_allowance == 0.0);
+  CHECK_FALSE(m.c_width);
+  CHECK_FALSE(m.any());
+  violating = tab_frame;
+  violating.c_width->mating_width = 6.02;
+  m = mobility_of(refs({A, BM, CM}), violating);
+  CHECK(m.c_shift_allowance == 0.0);
+  CHECK_FALSE(m.c_width);
+  CHECK(m.rotation_follows_c);
+
+  // A centre on B's axis cannot clock the frame.
+  DatumFrameResult centred = frame;
+  centred.c_width->centre_on_a = frame.frame.origin;
+  CHECK_THROWS_WITH(mobility_of(refs({A, B, CM}), centred),
+                    Contains("datum C's centre lies on datum B's axis"));
+}
+
+namespace {
+
+// The "bore" lines of a pattern (basic, allowed, range, top and bottom offsets) and the
+// "result" line of cylzone's best motion, as crosscheck_evaluation.py reads them.
+void write_pattern_and_result(std::ostream& out, const Pattern& pattern, const MobilityResult& r) {
+  for (const auto& b : pattern.bores) {
+    const PositionResult& p = *b.result.position;
+    const AxisDeviation top = b.result.axis_in_zone.at(p.range_top);
+    const AxisDeviation bottom = b.result.axis_in_zone.at(p.range_bottom);
+    out << "bore " << b.plan.basic_location.x() << ' ' << b.plan.basic_location.y() << ' '
+        << p.allowed << ' ' << p.range_top << ' ' << p.range_bottom << ' ' << top.offset.x() << ' '
+        << top.offset.y() << ' ' << bottom.offset.x() << ' ' << bottom.offset.y() << '\n';
+  }
+  out << "result " << r.motion.shift.x() << ' ' << r.motion.shift.y() << ' '
+      << r.motion.rotation_rad << ' ' << r.worst_ratio << '\n';
+}
+
+}  // namespace
+
 // Writes random patterns and cylzone's best motion for tests/reference/crosscheck_evaluation.py.
 // Hidden: run by ctest as its own test (evaluation_mobility_cases) with the output path in
 // CYLZONE_MOBILITY_CASES.
@@ -403,18 +627,104 @@ TEST_CASE("write datum mobility cases for the scipy cross-check", "[.][mobility-
     out << "mobility " << m.translation_free << ' ' << m.rotation_free << ' ' << m.shift_allowance
         << ' ' << m.rotation_follows_c << ' ' << m.c_location.x() << ' ' << m.c_location.y() << ' '
         << m.c_shift_allowance << '\n';
-    for (const auto& b : pattern.bores) {
-      const PositionResult& p = *b.result.position;
-      const AxisDeviation top = b.result.axis_in_zone.at(p.range_top);
-      const AxisDeviation bottom = b.result.axis_in_zone.at(p.range_bottom);
-      out << "bore " << b.plan.basic_location.x() << ' ' << b.plan.basic_location.y() << ' '
-          << p.allowed << ' ' << p.range_top << ' ' << p.range_bottom << ' ' << top.offset.x() << ' '
-          << top.offset.y() << ' ' << bottom.offset.x() << ' ' << bottom.offset.y() << '\n';
-    }
-    out << "result " << r.motion.shift.x() << ' ' << r.motion.shift.y() << ' '
-        << r.motion.rotation_rad << ' ' << r.worst_ratio << '\n';
+    write_pattern_and_result(out, pattern, r);
     ++written;
   }
   CHECK(written == 24);
+
+  // Datum C a slot ("cslot") or tab ("ctab") at MMB, with datum B at RMB or at MMB, built by
+  // mobility_of from a turned and moved frame. The file gets the simulator (internal flag, MMB
+  // width) and every face point in frame coordinates, not only the hull the library keeps, so
+  // the script checks the simulator against all of them. A generator of their own, so the cases
+  // above keep their seeds.
+  std::mt19937_64 width_rng(7654321);
+  std::uniform_real_distribution<double> width_unit(0.0, 1.0);
+  std::normal_distribution<double> width_normal(0.0, 1.0);
+  const auto wu = [&] { return width_unit(width_rng); };
+  const auto wg = [&] { return width_normal(width_rng); };
+  for (int trial = 0; trial < 16; ++trial) {
+    const bool internal = trial % 2 == 0;
+    const bool b_shift = (trial / 2) % 2 == 1;
+    DatumFrameResult frame;
+    const double frame_turn = 2.0 * pi * wu();
+    const Eigen::Vector3d frame_axis = Eigen::Vector3d(0.1 * wg(), 0.1 * wg(), 1.0).normalized();
+    frame.frame.rotation = Eigen::AngleAxisd(frame_turn, frame_axis).toRotationMatrix();
+    frame.frame.origin = Eigen::Vector3d(100.0 * wg(), 100.0 * wg(), 10.0 * wg());
+    frame.b = size_datum('B', FeatureKind::bore, 20.0 + 2.0 * (0.003 + 0.007 * wu()), 20.0);
+    // C's basic ray at any angle; its faces parallel to it at +-half_width, with a form error
+    // that keeps a slot's points outside and a tab's inside that nominal width.
+    const double alpha = pi * (2.0 * wu() - 1.0);
+    const Eigen::Vector2d along(std::cos(alpha), std::sin(alpha)), across(-along.y(), along.x());
+    const double centre = 40.0 + 40.0 * wu(), length = 8.0 + 24.0 * wu();
+    const double half_width = 2.0 + 4.0 * wu(), form = 0.002 * wu();
+    const double c_room = 0.002 + 0.004 * wu();
+    Eigen::Matrix3Xd faces[2];
+    double nearest = half_width + form, farthest = 0.0;  // bounds of d
+    for (int side = 0; side < 2; ++side) {
+      const int count = 6 + (trial + side) % 5;
+      faces[side].resize(3, count);
+      for (int k = 0; k < count; ++k) {
+        const double t = centre + length * (wu() - 0.5);
+        const double d = internal ? half_width + form * wu() : half_width - form * wu();
+        nearest = std::min(nearest, d);
+        farthest = std::max(farthest, d);
+        const Eigen::Vector2d q = t * along + (side == 0 ? d : -d) * across;
+        const Eigen::Vector3d at_depth(q.x(), q.y(), -10.0 * wu());
+        faces[side].col(k) = frame.frame.point_to_measurement(at_depth);
+      }
+    }
+    ClockingWidthResult width;
+    width.kind = internal ? FeatureKind::slot : FeatureKind::tab;
+    // The widest block (narrowest pair of plates) about the centre plane through B's axis.
+    width.mating_width = internal ? 2.0 * nearest : 2.0 * farthest;
+    const double mmb =
+        internal ? width.mating_width - 2.0 * c_room : width.mating_width + 2.0 * c_room;
+    width.mmb_size = mmb;
+    width.size = internal ? SizeLimits{mmb, mmb + 0.05} : SizeLimits{mmb - 0.05, mmb};
+    width.shift_allowance = c_room;
+    width.centre_on_a = frame.frame.point_to_measurement(Eigen::Vector3d(
+        centre * along.x(), centre * along.y(), 0.0));
+    width.positive_face = faces[0];
+    width.negative_face = faces[1];
+    frame.c_width = width;
+    const std::vector<DatumReference> datums = {
+        {'A', MaterialBoundary::rmb}, {'B', b_shift ? MaterialBoundary::mmb : MaterialBoundary::rmb},
+        {'C', MaterialBoundary::mmb}};
+    const FrameMobility m = mobility_of(datums, frame);
+    REQUIRE(m.c_width);
+    REQUIRE(m.c_shift_allowance == Approx(c_room).margin(1e-12));
+    // The pattern turned by up to about three times what C allows and shifted by about B's room, so
+    // that the simulator's limits matter, plus each axis end's own error.
+    const double turn = 3.0 * c_room / (centre + 0.5 * length) * wg();
+    const Eigen::Vector2d moved_by = 0.004 * Eigen::Vector2d(wg(), wg());
+    Pattern pattern;
+    const int n = 3 + trial % 4;
+    for (int k = 0; k < n; ++k) {
+      const Eigen::Vector2d basic(60.0 * (2 * wu() - 1), 60.0 * (2 * wu() - 1));
+      const Eigen::Vector2d at = rotated(basic, turn) + moved_by;
+      const Eigen::Vector2d top = at + 0.004 * Eigen::Vector2d(wg(), wg());
+      const Eigen::Vector2d bottom = at + 0.004 * Eigen::Vector2d(wg(), wg());
+      pattern.bores.push_back(straight_bore("W" + std::to_string(k), basic, top, bottom,
+                                            20.0 + 60.0 * wu(), 0.02 + 0.02 * wu()));
+    }
+    const MobilityResult r = pattern.best(m);
+    const std::string kind = internal ? "cslot" : "ctab";
+    out << "case " << kind << ' ' << n << '\n';
+    out << "mobility " << m.translation_free << ' ' << m.rotation_free << ' ' << m.shift_allowance
+        << ' ' << m.rotation_follows_c << ' ' << m.c_location.x() << ' ' << m.c_location.y() << ' '
+        << m.c_shift_allowance << '\n';
+    out << "width " << m.c_width->internal << ' ' << m.c_width->mmb_width << '\n';
+    for (int side = 0; side < 2; ++side) {
+      out << (side == 0 ? "positive" : "negative");
+      for (Eigen::Index k = 0; k < faces[side].cols(); ++k) {
+        const Eigen::Vector3d q = frame.frame.point_to_frame(faces[side].col(k));
+        out << ' ' << q.x() << ' ' << q.y();
+      }
+      out << '\n';
+    }
+    write_pattern_and_result(out, pattern, r);
+    ++written;
+  }
+  CHECK(written == 24 + 16);
   cylzone::testing::write_case_file("CYLZONE_MOBILITY_CASES", out.str());
 }

@@ -763,6 +763,83 @@ TEST_CASE("ball-centre points are refused until probe compensation exists", "[pl
   CHECK_FALSE(plan.probe.ball_centres);
 }
 
+// ====================================================================== datum C as a width feature
+
+TEST_CASE("datum C as a slot or a tab", "[plan][slot]") {
+  // A slot is an internal feature of size like a bore (MMC at its smallest width), a tab an
+  // external one like a pin (MMC at its largest) (ASME Y14.5-2018, maximum material condition;
+  // common practice).
+  const std::string slot = replaced(
+      replaced(kBase, kDatumCBody,
+               "feature = \"slot\"\npoints = \"c.csv\"\nbasic = [0.0, -45.0]\n"
+               "size = { lower = 6.000, upper = 6.030 }\nmmb = 5.995"),
+      "\"A|B(M)|C\"", "\"A|B|C(M)\"");
+  const PartPlan plan = parse_plan(slot, kPlanFile, false);
+  const PlanDatum& c = *plan.datum('C');
+  CHECK(c.kind == FeatureKind::slot);
+  REQUIRE(c.basic_location);
+  CHECK(*c.basic_location == Eigen::Vector2d(0.0, -45.0));
+  REQUIRE(c.size);
+  CHECK(c.size->mmc(c.kind) == 6.000);
+  CHECK(c.size->lmc(c.kind) == 6.030);
+  REQUIRE(c.mmb_size);
+  CHECK(*c.mmb_size == 5.995);
+  CHECK_FALSE(c.outward_normal);
+  CHECK(plan.bores[0].position->datums[2].boundary == MaterialBoundary::mmb);
+
+  const std::string tab =
+      replaced(replaced(slot, "feature = \"slot\"", "feature = \"tab\""), "mmb = 5.995",
+               "mmb = 6.040");
+  const PartPlan tab_plan = parse_plan(tab, kPlanFile, false);
+  const PlanDatum& t = *tab_plan.datum('C');
+  CHECK(t.kind == FeatureKind::tab);
+  CHECK(t.size->mmc(t.kind) == 6.030);
+  CHECK(t.size->lmc(t.kind) == 6.000);
+  CHECK(*t.mmb_size == 6.040);
+
+  // Inch plans convert the basic location of the slot's centre like any length.
+  const PartPlan inch = parse_plan(replaced(slot, "units = \"mm\"", "units = \"inch\""),
+                                   kPlanFile, false);
+  CHECK(inch.datum('C')->basic_location->y() == Approx(-45.0 * 25.4).epsilon(1e-15));
+
+  SECTION("errors") {
+    check_error(replaced(slot, "basic = [0.0, -45.0]\n", ""), "[datum.C]", "datum.C.basic",
+                "required key is missing: expected the basic location [x, y] of C's centre");
+    check_error(replaced(slot, "basic = [0.0, -45.0]", "basic = [0.0, -45.0]\n"
+                                                        "outward_normal = [0, -1]"),
+                "outward_normal", "datum.C.outward_normal",
+                "unknown key for datum C as a slot (allowed: feature, points, basic, size, mmb)");
+    check_error(replaced(tab, "basic = [0.0, -45.0]", "basic = [0.0, -45.0]\n"
+                                                       "material_side = [0, 1, 0]"),
+                "material_side", "datum.C.material_side", "unknown key for datum C as a tab");
+    check_error(replaced(slot, "basic = [0.0, -45.0]", "basic = [0, 0]"), "basic = [0, 0]",
+                "datum.C.basic", "must not be at datum B's axis");
+    // The MMB of a slot is at most its MMC width (the lower limit), of a tab at least its MMC
+    // width (the upper limit): as for a bore and a pin.
+    check_error(replaced(slot, "mmb = 5.995", "mmb = 6.001"), "mmb = 6.001", "datum.C.mmb",
+                "the MMB of a slot must not exceed its MMC size (lower limit 6), found 6.001");
+    check_error(replaced(tab, "mmb = 6.040", "mmb = 6.020"), "mmb = 6.020", "datum.C.mmb",
+                "the MMB of a tab must not be below its MMC size (upper limit 6.03), found 6.02");
+    check_error(replaced(slot, "\nsize = { lower = 6.000, upper = 6.030 }\nmmb = 5.995", ""),
+                "\"A|B|C(M)\"", "bore[P1].position.datums",
+                "datum C is referenced at MMB but [datum.C] has no size");
+    // B locates the origin with its axis: a width feature cannot be B.
+    check_error(replaced(kBase, "[datum.B]\nfeature = \"bore\"", "[datum.B]\nfeature = \"slot\""),
+                "\"slot\"", "datum.B.feature",
+                "datum B must be a bore or a pin: it locates the frame's origin with its axis "
+                "(found \"slot\")");
+    check_error(replaced(kBase, "[datum.B]\nfeature = \"bore\"", "[datum.B]\nfeature = \"tab\""),
+                "\"tab\"", "datum.B.feature", "datum B must be a bore or a pin");
+    check_error(replaced(kBase, "feature = \"plane\"", "feature = \"tab\""), "\"tab\"",
+                "datum.A.feature", "datum A must be a plane");
+    check_error(replaced(kBase, "feature = \"bore\"\npoints = \"c.csv\"",
+                         "feature = \"keyway\"\npoints = \"c.csv\""),
+                "\"keyway\"", "datum.C.feature",
+                "unknown feature \"keyway\": expected \"bore\", \"pin\", \"slot\", \"tab\" or "
+                "\"plane\"");
+  }
+}
+
 // ====================================================================== names
 
 TEST_CASE("names of the tolerancing vocabulary round-trip", "[plan][names]") {
@@ -776,6 +853,19 @@ TEST_CASE("names of the tolerancing vocabulary round-trip", "[plan][names]") {
   CHECK(feature_kind_name(FeatureKind::plane) == "plane");
   CHECK(feature_kind_name(FeatureKind::bore) == "bore");
   CHECK(feature_kind_name(FeatureKind::pin) == "pin");
+  CHECK(feature_kind_name(FeatureKind::slot) == "slot");
+  CHECK(feature_kind_name(FeatureKind::tab) == "tab");
+  // Internal features (bore, slot) are at MMC at their lower limit, external ones (pin, tab)
+  // at their upper limit (ASME Y14.5-2018 definition of MMC; common practice).
+  const SizeLimits limits{10.0, 10.2};
+  for (FeatureKind k : {FeatureKind::bore, FeatureKind::slot}) {
+    CHECK_FALSE(is_external(k));
+    CHECK(limits.mmc(k) == 10.0);
+  }
+  for (FeatureKind k : {FeatureKind::pin, FeatureKind::tab}) {
+    CHECK(is_external(k));
+    CHECK(limits.mmc(k) == 10.2);
+  }
   CHECK(datum_references_text({}) == "");
   CHECK(datum_references_text({{'A', MaterialBoundary::rmb},
                                {'B', MaterialBoundary::lmb},

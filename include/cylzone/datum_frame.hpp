@@ -5,8 +5,9 @@
 ///  * z is the normal of the associated datum plane A, pointing OUT of the material;
 ///  * the origin is where the axis of datum B (its related actual mating envelope, constrained
 ///    perpendicular to A) meets plane A; without B, the projection of the measurement origin;
-///  * x is clocked by datum C so that C lies at its basic location (bore/pin) or its outward
-///    normal has its basic direction (plane); without C, x is the measurement x (or y) axis
+///  * x is clocked by datum C so that C lies at its basic location (bore/pin), its outward
+///    normal has its basic direction (plane), or its centre plane runs from B toward C's basic
+///    location (slot/tab); without C, x is the measurement x (or y) axis
 ///    projected onto A, and rotation about z is a free degree of freedom;
 ///  * y = z cross x (right-handed). Depths inside the material are negative z.
 
@@ -57,7 +58,7 @@ struct SizeDatumResult {
   /// maximum inscribed cylinder of a bore, minimum circumscribed of a pin.
   CylinderFit related_envelope;
   double mating_size = 0.0;  ///< diameter of the related envelope
-  MaterialBoundary boundary = MaterialBoundary::rmb;  ///< most demanding use in the plan
+  MaterialBoundary boundary = MaterialBoundary::rmb;  ///< MMB if any reference uses it, else LMB if any, else RMB
   std::optional<double> mmb_size;
   /// Radius of the circle within which the datum axis may move relative to an MMB simulator:
   /// (mating - MMB) / 2 for a bore, (MMB - mating) / 2 for a pin (ASME Y14.5-2018, datum
@@ -81,6 +82,44 @@ struct ClockingPlaneResult {
   StrayPointReport stray_points;
 };
 
+/// Clocking datum C given as a width feature of size: a slot (internal: two parallel faces
+/// facing each other) or a tab (external: two parallel faces facing away from each other).
+/// Associated at RMB as ASME Y14.5-2018 simulates a tertiary datum feature of size (from memory
+/// for the clause): two parallel planes perpendicular to A, symmetric about a centre plane that
+/// contains datum axis B, expanding (slot) or contracting (tab) to the feature while the centre
+/// plane turns about B's axis. The related mating width is the largest (slot) or smallest (tab)
+/// width so reached; the centre plane clocks the frame (docs/datum-frame.md).
+struct ClockingWidthResult {
+  char label = 'C';
+  FeatureKind kind = FeatureKind::slot;  ///< slot or tab
+  double mating_width = 0.0;  ///< distance between the simulator's planes, mm
+  /// Unit normal of the centre plane, measurement coordinates, perpendicular to A:
+  /// z x centre_direction (it points to the face called positive below).
+  Eigen::Vector3d centre_plane_normal = Eigen::Vector3d::UnitY();
+  /// Unit direction of the centre plane in A, from B's axis toward the feature's points
+  /// (measurement coordinates). The frame is clocked so that it has C's basic direction.
+  Eigen::Vector3d centre_direction = Eigen::Vector3d::UnitX();
+  /// The centroid of C's points projected onto A and onto the centre plane (measurement
+  /// coordinates): the feature's location on its centre line, used by the datum mobility.
+  Eigen::Vector3d centre_on_a = Eigen::Vector3d::Zero();
+  /// C's points projected onto A (measurement coordinates), split by face: the face on the
+  /// side of +centre_plane_normal and the other. The datum mobility checks an MMB simulator
+  /// against them.
+  Eigen::Matrix3Xd positive_face;
+  Eigen::Matrix3Xd negative_face;
+  MaterialBoundary boundary = MaterialBoundary::rmb;  ///< MMB if any reference uses it, else LMB if any, else RMB
+  std::optional<SizeLimits> size;
+  std::optional<double> mmb_size;  ///< the plan's MMB, or else the MMC width when a size is given
+  /// As SizeDatumResult::shift_allowance, for the width: (mating - MMB) / 2 for a slot,
+  /// (MMB - mating) / 2 for a tab, how far the centre plane may move off an MMB simulator's;
+  /// 0 without a size, and 0 with a note when the feature violates its MMB.
+  double shift_allowance = 0.0;
+  int iterations = 0;  ///< objective evaluations of the one-dimensional search
+  /// Suspect points, screened against the residuals of each face's least-squares line in A
+  /// (positive: into the gap for a slot, away from the material... see datum_frame.cpp).
+  StrayPointReport stray_points;
+};
+
 struct DatumFrameOptions {
   /// Overrides datum A's association (used for the sensitivity study).
   std::optional<PlaneAssociation> a_association;
@@ -94,6 +133,7 @@ struct DatumFrameResult {
   std::optional<SizeDatumResult> b;
   std::optional<SizeDatumResult> c_feature;  ///< C as a bore or pin
   std::optional<ClockingPlaneResult> c_plane;  ///< C as a plane
+  std::optional<ClockingWidthResult> c_width;  ///< C as a slot or tab
   bool rotation_fixed = false;     ///< C present
   bool translation_fixed = false;  ///< B present
   /// Remarks on the frame, including one per datum feature with suspect (stray) points.

@@ -9,6 +9,7 @@
 /// motion chosen minimises the largest ratio position / allowed over the pattern.
 
 #include <Eigen/Core>
+#include <optional>
 #include <string>
 #include <vector>
 
@@ -28,8 +29,23 @@ struct FrameMobility {
   /// C's axis on A, frame coordinates; the frame was clocked so that it lies on its basic ray.
   Eigen::Vector2d c_location = Eigen::Vector2d::Zero();
   /// C at MMB: how far C's axis may move off the ray from the origin at its basic angle, mm
-  /// (C clocks the frame only, as the frame's C at RMB does: docs/evaluation.md).
+  /// (C clocks the frame only, as the frame's C at RMB does: docs/evaluation.md). For a slot
+  /// or tab, how far its centre plane may move off the MMB simulator's at the start.
   double c_shift_allowance = 0.0;
+  /// C a slot or tab at MMB: its simulator, two parallel planes `mmb_width` apart about a
+  /// centre plane through the moved origin at C's basic angle, must leave a slot's faces
+  /// outside it and a tab's inside it. The shifts it allows at a rotation form a strip across
+  /// the centre plane, found exactly from the faces' extreme points rather than from C's
+  /// location alone, because a rotation moves the far end of a long face furthest.
+  struct WidthSimulator {
+    bool internal = true;  ///< slot (true) or tab
+    double mmb_width = 0.0;  ///< mm
+    /// Convex hull vertices of each face's points projected onto A, frame coordinates; the
+    /// positive face lies on the side of +z x (C's basic direction).
+    std::vector<Eigen::Vector2d> positive_face;
+    std::vector<Eigen::Vector2d> negative_face;
+  };
+  std::optional<WidthSimulator> c_width;
   /// What the reference asks for that the mobility does not apply (e.g. a datum at LMB), so
   /// that the result is conservative and says why.
   std::vector<std::string> notes;

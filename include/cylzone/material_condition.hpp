@@ -2,7 +2,8 @@
 /// \file material_condition.hpp
 /// Bonus tolerance, virtual condition and datum feature shift (ASME Y14.5-2018 sections 2.11,
 /// 2.12, 7.3; ISO 2692:2021 for the ISO maximum/least material requirements). Sizes are
-/// diameters in millimetres.
+/// diameters (widths for a slot or tab) in millimetres. A slot follows the rules of a bore
+/// (internal), a tab those of a pin (external): is_external() in tolerance_types.hpp.
 
 #include "cylzone/tolerance_types.hpp"
 

@@ -28,16 +28,24 @@ enum class MaterialBoundary {
 enum class FeatureKind {
   plane,
   bore,  ///< internal cylindrical feature of size (a hole)
-  pin    ///< external cylindrical feature of size (a shaft, boss)
+  pin,   ///< external cylindrical feature of size (a shaft, boss)
+  slot,  ///< internal width feature of size: two parallel opposed faces (a keyway, a slot)
+  tab    ///< external width feature of size: two parallel faces facing away (a key, a tab)
 };
 
-/// Limits of size, in millimetres. For a bore MMC is `lower`, LMC is `upper`; for a pin the
-/// reverse.
+/// An external feature of size (pin, tab): material lies inside it, so it is at MMC at its
+/// largest size. Bores and slots are internal; a plane is no feature of size.
+constexpr bool is_external(FeatureKind kind) noexcept {
+  return kind == FeatureKind::pin || kind == FeatureKind::tab;
+}
+
+/// Limits of size, in millimetres. For an internal feature (bore, slot) MMC is `lower`, LMC is
+/// `upper`; for an external one (pin, tab) the reverse.
 struct SizeLimits {
   double lower = 0.0;
   double upper = 0.0;
-  double mmc(FeatureKind kind) const noexcept { return kind == FeatureKind::pin ? upper : lower; }
-  double lmc(FeatureKind kind) const noexcept { return kind == FeatureKind::pin ? lower : upper; }
+  double mmc(FeatureKind kind) const noexcept { return is_external(kind) ? upper : lower; }
+  double lmc(FeatureKind kind) const noexcept { return is_external(kind) ? lower : upper; }
 };
 
 /// One entry of a feature control frame's datum section, e.g. "B(M)".
@@ -46,7 +54,7 @@ struct DatumReference {
   MaterialBoundary boundary = MaterialBoundary::rmb;
 };
 
-/// "RFS", "MMC", "LMC" / "RMB", "MMB", "LMB" / "plane", "bore", "pin".
+/// "RFS", "MMC", "LMC" / "RMB", "MMB", "LMB" / "plane", "bore", "pin", "slot", "tab".
 std::string_view condition_name(MaterialCondition condition) noexcept;
 std::string_view boundary_name(MaterialBoundary boundary) noexcept;
 std::string_view feature_kind_name(FeatureKind kind) noexcept;
