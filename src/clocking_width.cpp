@@ -253,10 +253,9 @@ WidthAboutAxis fit_width_about_origin(const Eigen::Matrix2Xd& points, bool inter
   // material, so left as seen from outside the material looking from B toward C.
   for (const auto& [count, side] : {std::pair<Eigen::Index, const char*>{positive, "left"},
                                     std::pair<Eigen::Index, const char*>{negative, "right"}}) {
-    if (count == 0)
-      throw FitError("all its points lie on one side of the centre line through datum B's axis "
-                     "(none " + std::string(side) + " of it, seen from outside the material "
-                     "looking from B toward C): a " + feature + " needs points on both faces");
+    // A face cannot be empty: every point lies ahead of B (t > 0), and for the least-squares
+    // line through B sum t_i d_i = 0, so the d_i cannot all have one sign; the line midway
+    // between two faces has points on both sides by construction.
     if (count < 2)
       throw FitError("the face " + std::string(side) + " of the centre line (seen from outside " +
                      "the material looking from B toward C) has " + std::to_string(count) +

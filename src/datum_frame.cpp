@@ -9,6 +9,7 @@
 #include <Eigen/Eigenvalues>
 #include <Eigen/Geometry>
 #include <algorithm>
+#include <array>
 #include <cmath>
 #include <cstddef>
 #include <limits>
@@ -220,6 +221,13 @@ Eigen::Vector3d in_plane_unit(const Eigen::Vector3d& v, const Eigen::Vector3d& z
   return (v - v.dot(z) * z).normalized();
 }
 
+// How far a plane with unit normal `normal` leans from perpendicular to A (normal z), degrees:
+// 0 for a plane containing z, 90 for a plane parallel to A. The normal's sign is arbitrary.
+double lean_from_perpendicular_deg(const Eigen::Vector3d& normal, const Eigen::Vector3d& z) {
+  const double angle = angle_deg(normal, z);
+  return 90.0 - std::min(angle, 180.0 - angle);
+}
+
 // Clocking datum plane C: the tangent least-squares plane of C's points constrained to contain
 // A's normal, i.e. the tangent line of their projections onto A (detail/tangent_line.hpp).
 ClockingPlaneResult associate_clocking_plane(const PlanDatum& datum, const PointCloud& cloud,
@@ -234,7 +242,7 @@ ClockingPlaneResult associate_clocking_plane(const PlanDatum& datum, const Point
   plain.axis_hint.reset();
   // Also checks the points (count, collinearity).
   const PlaneFit own = fit_plane_least_squares(cloud.points, plain);
-  const double tilt = 90.0 - std::min(angle_deg(own.normal, z), 180.0 - angle_deg(own.normal, z));
+  const double tilt = lean_from_perpendicular_deg(own.normal, z);
   if (tilt > orientation_limit_deg)
     throw FitError("plane parallel to A (its least-squares normal is " +
                    detail::format_number(90.0 - tilt, 1) +
@@ -328,17 +336,20 @@ ClockingWidthResult associate_clocking_width(const PlanDatum& datum, const Point
   result.centre_plane_normal = z.cross(result.centre_direction).normalized();
   const Eigen::Vector2d centroid = projected.rowwise().mean();
   result.centre_on_a = origin + centroid.dot(u) * result.centre_direction;
+  // The points of each face, by index: [0] the face +1 (left of the centre line), [1] the other.
   const Eigen::Index count = projected.cols();
-  const Eigen::Index positive = (width.face.array() > 0).count();
-  result.positive_face.resize(3, positive);
-  result.negative_face.resize(3, count - positive);
-  for (Eigen::Index i = 0, p = 0, m = 0; i < count; ++i) {
-    const Eigen::Vector3d on_a = origin + basis.leftCols<2>() * projected.col(i);
-    if (width.face(i) > 0)
-      result.positive_face.col(p++) = on_a;
-    else
-      result.negative_face.col(m++) = on_a;
-  }
+  std::array<std::vector<Eigen::Index>, 2> members;
+  for (Eigen::Index i = 0; i < count; ++i) members[width.face(i) > 0 ? 0 : 1].push_back(i);
+  const auto columns = [&](const Eigen::Matrix3Xd& points, const std::vector<Eigen::Index>& of) {
+    Eigen::Matrix3Xd picked(3, static_cast<Eigen::Index>(of.size()));
+    for (std::size_t k = 0; k < of.size(); ++k)
+      picked.col(static_cast<Eigen::Index>(k)) = points.col(of[k]);
+    return picked;
+  };
+  // C's points projected onto A, in measurement coordinates.
+  const Eigen::Matrix3Xd on_a = (basis.leftCols<2>() * projected).colwise() + origin;
+  result.positive_face = columns(on_a, members[0]);
+  result.negative_face = columns(on_a, members[1]);
 
   // Each face's own least-squares plane against A: the simulator holds its planes
   // perpendicular to A whatever the faces do, which is worth a note when they lean (a draft,
@@ -347,9 +358,7 @@ ClockingWidthResult associate_clocking_width(const PlanDatum& datum, const Point
   plain.fixed_direction.reset();
   plain.axis_hint.reset();
   for (const int face : {1, -1}) {
-    Eigen::Matrix3Xd face_points(3, face > 0 ? positive : count - positive);
-    for (Eigen::Index i = 0, k = 0; i < count; ++i)
-      if (width.face(i) == face) face_points.col(k++) = cloud.points.col(i);
+    const Eigen::Matrix3Xd face_points = columns(cloud.points, members[face > 0 ? 0 : 1]);
     // Named as in detail/clocking_width.hpp: +1 is left of the centre line.
     const std::string side = "of the " + feature + (face > 0 ? " left" : " right") +
                              " of its centre line (seen from outside the material looking "
@@ -359,7 +368,7 @@ ClockingWidthResult associate_clocking_width(const PlanDatum& datum, const Point
     std::optional<double> tilt;
     try {
       const PlaneFit own = fit_plane_least_squares(face_points, plain);
-      tilt = 90.0 - std::min(angle_deg(own.normal, z), 180.0 - angle_deg(own.normal, z));
+      tilt = lean_from_perpendicular_deg(own.normal, z);
     } catch (const FitError&) {
     }
     if (tilt && *tilt > orientation_limit_deg)
@@ -385,13 +394,12 @@ ClockingWidthResult associate_clocking_width(const PlanDatum& datum, const Point
   {
     double gap = 0.0;
     double spread = 0.0;
-    for (const int face : {1, -1}) {
+    for (const std::vector<Eigen::Index>& of : members) {
       double lo = std::numeric_limits<double>::infinity(), hi = -lo;
-      for (Eigen::Index i = 0; i < count; ++i)
-        if (width.face(i) == face) {
-          lo = std::min(lo, on_face(i));
-          hi = std::max(hi, on_face(i));
-        }
+      for (const Eigen::Index i : of) {
+        lo = std::min(lo, on_face(i));
+        hi = std::max(hi, on_face(i));
+      }
       gap += lo;
       spread = std::max(spread, hi - lo);
     }
@@ -413,12 +421,10 @@ ClockingWidthResult associate_clocking_width(const PlanDatum& datum, const Point
   if (cloud.size() > stray_options.neighbours) {
     Eigen::VectorXd residuals(count);
     for (const int face : {1, -1}) {
-      std::vector<Eigen::Index> members;
-      for (Eigen::Index i = 0; i < count; ++i)
-        if (width.face(i) == face) members.push_back(i);
-      Eigen::Matrix2Xd q(2, static_cast<Eigen::Index>(members.size()));
-      for (std::size_t k = 0; k < members.size(); ++k)
-        q.col(static_cast<Eigen::Index>(k)) = projected.col(members[k]);
+      const std::vector<Eigen::Index>& of = members[face > 0 ? 0 : 1];
+      Eigen::Matrix2Xd q(2, static_cast<Eigen::Index>(of.size()));
+      for (std::size_t k = 0; k < of.size(); ++k)
+        q.col(static_cast<Eigen::Index>(k)) = projected.col(of[k]);
       const Eigen::Vector2d mean = q.rowwise().mean();
       const Eigen::Matrix2Xd centred = q.colwise() - mean;
       // Least-squares line: its normal is the eigenvector of the smaller eigenvalue of the
@@ -427,8 +433,8 @@ ClockingWidthResult associate_clocking_width(const PlanDatum& datum, const Point
       Eigen::Vector2d normal = eigen.eigenvectors().col(0);
       if (normal.dot(n) * face < 0.0) normal = -normal;
       const double outward = internal ? -1.0 : 1.0;
-      for (std::size_t k = 0; k < members.size(); ++k)
-        residuals(members[k]) = outward * centred.col(static_cast<Eigen::Index>(k)).dot(normal);
+      for (std::size_t k = 0; k < of.size(); ++k)
+        residuals(of[k]) = outward * centred.col(static_cast<Eigen::Index>(k)).dot(normal);
     }
     result.stray_points = find_stray_points(cloud.points, residuals, stray_options);
     note_stray_points(notes, datum.label, result.stray_points,

@@ -49,23 +49,21 @@ const DatumReference* find_reference(const std::vector<DatumReference>& datums, 
   return nullptr;
 }
 
-/// Shift allowance of a datum feature of size at MMB, from its related envelope (or width) and
-/// its MMB size (the plan's, or the MMC size). Falls back on the frame's own figure without
-/// limits.
-template <class Datum>
-double mmb_allowance(const Datum& datum, double mating_size) {
-  std::optional<double> boundary = datum.mmb_size;
-  if (!boundary && datum.size) boundary = datum.size->mmc(datum.kind);
-  if (!boundary) return datum.shift_allowance;
-  return datum_shift_allowance(MaterialBoundary::mmb, datum.kind, mating_size, *boundary);
-}
-
 /// The MMB size a datum feature's simulator has: the plan's, or else the MMC size.
 template <class Datum>
 std::optional<double> mmb_size_of(const Datum& datum) {
   if (datum.mmb_size) return datum.mmb_size;
   if (datum.size) return datum.size->mmc(datum.kind);
   return std::nullopt;
+}
+
+/// Shift allowance of a datum feature of size at MMB, from its related envelope (or width) and
+/// its MMB size. Falls back on the frame's own figure without limits.
+template <class Datum>
+double mmb_allowance(const Datum& datum, double mating_size) {
+  const std::optional<double> boundary = mmb_size_of(datum);
+  if (!boundary) return datum.shift_allowance;
+  return datum_shift_allowance(MaterialBoundary::mmb, datum.kind, mating_size, *boundary);
 }
 
 /// One evaluated height of one bore: its deviation M s + b, weighted by 2 / allowed.

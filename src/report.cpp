@@ -293,11 +293,15 @@ std::string format_json(const PartCheckResult& r) {
                  {"material_side_inferred", r.datums.a.material_side_inferred},
                  {"stray_points", stray_json(r.datums.a.stray_points, u)}};
   if (r.datums.b) datums["B"] = size_datum_json(*r.datums.b, u);
+  // The plan's basic location of a bore, pin, slot or tab C (the plan requires it), in the frame.
+  const auto c_basic = [&]() -> json {
+    const PlanDatum* c = r.plan.datum('C');
+    if (!c || !c->basic_location) return nullptr;
+    return json::array({u.length(c->basic_location->x()), u.length(c->basic_location->y())});
+  };
   if (r.datums.c_feature) {
     datums["C"] = size_datum_json(*r.datums.c_feature, u);
-    if (const PlanDatum* c = r.plan.datum('C'); c && c->basic_location)
-      datums["C"]["basic"] = json::array({u.length(c->basic_location->x()),
-                                          u.length(c->basic_location->y())});
+    datums["C"]["basic"] = c_basic();
   }
   if (r.datums.c_width) {
     const ClockingWidthResult& w = *r.datums.c_width;
@@ -305,15 +309,12 @@ std::string format_json(const PartCheckResult& r) {
                    {"mating_width", u.length(w.mating_width)},
                    {"centre_plane_normal", direction(w.centre_plane_normal)},
                    {"centre_direction", direction(w.centre_direction)},
-                   {"basic", nullptr},
+                   {"basic", c_basic()},
                    {"boundary", std::string(boundary_name(w.boundary))},
                    {"mmb_size", optional_number(w.mmb_size, u)},
                    {"shift_allowance",
                     w.boundary == MaterialBoundary::mmb ? u.length(w.shift_allowance) : 0.0},
                    {"stray_points", stray_json(w.stray_points, u)}};
-    if (const PlanDatum* c = r.plan.datum('C'); c && c->basic_location)
-      datums["C"]["basic"] = json::array({u.length(c->basic_location->x()),
-                                          u.length(c->basic_location->y())});
   }
   if (r.datums.c_plane)
     datums["C"] = {{"feature", "plane"},

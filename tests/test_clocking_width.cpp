@@ -277,11 +277,10 @@ TEST_CASE("clocking width: faces with very different point counts", "[clocking-w
 
 TEST_CASE("clocking width: every documented error is a FitError with its reason",
           "[clocking-width][errors]") {
-  // Messages as documented in detail/clocking_width.hpp. The implementation also has a message
-  // for "all its points lie on one side of the centre line"; no input reaches it: the start
-  // either lies strictly between two non-empty faces or is an eigenvector u of sum q q^T, for
-  // which sum t_i d_i = u^T (sum q q^T) u_perp = 0 (to rounding) with every t_i > 0 and every
-  // |d_i| > 1e-9 |q|max checked before, so the d_i cannot all have one sign.
+  // Messages as documented in detail/clocking_width.hpp. No input leaves a face empty: the
+  // start either lies strictly between two non-empty faces or is an eigenvector u of sum q q^T,
+  // for which sum t_i d_i = u^T (sum q q^T) u_perp = 0 (to rounding) with every t_i > 0 and
+  // every |d_i| > 1e-9 |q|max checked before, so the d_i cannot all have one sign.
   for (const bool internal : {true, false}) {
     const std::string feature = internal ? "slot" : "tab";
     INFO(feature);
