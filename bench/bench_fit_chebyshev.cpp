@@ -26,7 +26,7 @@
 #include <string>
 #include <vector>
 
-#include "cylzone/fit_cylinder.hpp"
+#include "cylzone/fit/fit_cylinder.hpp"
 
 namespace {
 

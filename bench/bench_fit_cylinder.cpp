@@ -17,7 +17,7 @@
 
 #include <Eigen/Geometry>
 
-#include "cylzone/fit_cylinder.hpp"
+#include "cylzone/fit/fit_cylinder.hpp"
 
 namespace {
 

@@ -23,7 +23,7 @@
 #include <vector>
 
 #include "bench_timing.hpp"
-#include "cylzone/read_points.hpp"
+#include "cylzone/io/read_points.hpp"
 
 namespace fs = std::filesystem;
 

@@ -18,9 +18,9 @@
 #include <string>
 #include <vector>
 
-#include "cylzone/bore_evaluation.hpp"
-#include "cylzone/fit_cylinder.hpp"
-#include "cylzone/stray_points.hpp"
+#include "cylzone/evaluate/bore_evaluation.hpp"
+#include "cylzone/fit/fit_cylinder.hpp"
+#include "cylzone/prepare/stray_points.hpp"
 #include "bench_timing.hpp"
 
 namespace {

@@ -10,8 +10,8 @@
 #include <cmath>
 #include <random>
 
-#include "cylzone/axis_zone.hpp"
-#include "cylzone/errors.hpp"
+#include "cylzone/evaluate/axis_zone.hpp"
+#include "cylzone/core/errors.hpp"
 #include "reference_data.hpp"
 
 using namespace cylzone;

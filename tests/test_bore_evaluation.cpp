@@ -18,8 +18,8 @@
 #include <cmath>
 #include <random>
 
-#include "cylzone/bore_evaluation.hpp"
-#include "cylzone/errors.hpp"
+#include "cylzone/evaluate/bore_evaluation.hpp"
+#include "cylzone/core/errors.hpp"
 #include "reference_data.hpp"
 
 using namespace cylzone;

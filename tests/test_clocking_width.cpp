@@ -26,8 +26,8 @@
 #include <utility>
 #include <vector>
 
-#include "cylzone/errors.hpp"
-#include "detail/clocking_width.hpp"
+#include "cylzone/core/errors.hpp"
+#include "datum/detail/clocking_width.hpp"
 #include "case_file.hpp"
 
 using namespace cylzone;

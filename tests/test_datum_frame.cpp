@@ -29,12 +29,12 @@
 #include <string>
 #include <vector>
 
-#include "cylzone/datum_frame.hpp"
-#include "cylzone/errors.hpp"
-#include "cylzone/fit_plane.hpp"
-#include "cylzone/tangent_plane.hpp"
-#include "detail/constrained_least_squares.hpp"
-#include "detail/tangent_line.hpp"
+#include "cylzone/datum/datum_frame.hpp"
+#include "cylzone/core/errors.hpp"
+#include "cylzone/fit/fit_plane.hpp"
+#include "cylzone/datum/tangent_plane.hpp"
+#include "datum/detail/constrained_least_squares.hpp"
+#include "datum/detail/tangent_line.hpp"
 #include "case_file.hpp"
 #include "reference_data.hpp"
 

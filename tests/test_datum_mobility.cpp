@@ -18,8 +18,8 @@
 #include <sstream>
 
 #include "case_file.hpp"
-#include "cylzone/datum_mobility.hpp"
-#include "cylzone/errors.hpp"
+#include "cylzone/evaluate/datum_mobility.hpp"
+#include "cylzone/core/errors.hpp"
 
 using namespace cylzone;
 using Catch::Matchers::Contains;

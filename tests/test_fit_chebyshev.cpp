@@ -20,12 +20,12 @@
 #include <regex>
 #include <string>
 
-#include "cylzone/errors.hpp"
-#include "cylzone/fit_circle.hpp"
-#include "cylzone/fit_cylinder.hpp"
-#include "cylzone/fit_line.hpp"
-#include "cylzone/fit_plane.hpp"
-#include "detail/chebyshev.hpp"
+#include "cylzone/core/errors.hpp"
+#include "cylzone/fit/fit_circle.hpp"
+#include "cylzone/fit/fit_cylinder.hpp"
+#include "cylzone/fit/fit_line.hpp"
+#include "cylzone/fit/fit_plane.hpp"
+#include "fit/detail/chebyshev.hpp"
 #include "detail/fit_support.hpp"
 #include "reference_data.hpp"
 

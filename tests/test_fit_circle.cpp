@@ -7,9 +7,9 @@
 #include <cmath>
 #include <cstdio>
 
-#include "cylzone/errors.hpp"
-#include "cylzone/fit_circle.hpp"
-#include "detail/circle_2d.hpp"
+#include "cylzone/core/errors.hpp"
+#include "cylzone/fit/fit_circle.hpp"
+#include "fit/detail/circle_2d.hpp"
 #include "reference_data.hpp"
 
 using namespace cylzone;

@@ -10,8 +10,8 @@
 #include <vector>
 #include <random>
 
-#include "cylzone/errors.hpp"
-#include "cylzone/fit_cylinder.hpp"
+#include "cylzone/core/errors.hpp"
+#include "cylzone/fit/fit_cylinder.hpp"
 #include "reference_data.hpp"
 
 using namespace cylzone;

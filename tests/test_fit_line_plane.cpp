@@ -6,9 +6,9 @@
 #include <Eigen/Geometry>
 #include <cmath>
 
-#include "cylzone/errors.hpp"
-#include "cylzone/fit_line.hpp"
-#include "cylzone/fit_plane.hpp"
+#include "cylzone/core/errors.hpp"
+#include "cylzone/fit/fit_line.hpp"
+#include "cylzone/fit/fit_plane.hpp"
 #include "reference_data.hpp"
 
 using namespace cylzone;

@@ -5,8 +5,8 @@
 #include <Eigen/Geometry>
 #include <cmath>
 
-#include "cylzone/errors.hpp"
-#include "cylzone/fit_sphere.hpp"
+#include "cylzone/core/errors.hpp"
+#include "cylzone/fit/fit_sphere.hpp"
 #include "reference_data.hpp"
 
 using namespace cylzone;

@@ -9,7 +9,7 @@
 #include <random>
 #include <vector>
 
-#include "cylzone/errors.hpp"
+#include "cylzone/core/errors.hpp"
 #include "detail/fit_support.hpp"
 #include "reference_data.hpp"
 

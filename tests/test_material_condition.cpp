@@ -4,7 +4,7 @@
 
 #include <catch2/catch.hpp>
 
-#include "cylzone/material_condition.hpp"
+#include "cylzone/evaluate/material_condition.hpp"
 
 using namespace cylzone;
 

@@ -13,10 +13,10 @@
 #include <sstream>
 #include <string>
 
-#include "cylzone/errors.hpp"
-#include "cylzone/plan.hpp"
-#include "cylzone/tolerance_types.hpp"
-#include "cylzone/units.hpp"
+#include "cylzone/core/errors.hpp"
+#include "cylzone/plan/plan.hpp"
+#include "cylzone/plan/tolerance_types.hpp"
+#include "cylzone/core/units.hpp"
 
 namespace fs = std::filesystem;
 using namespace cylzone;

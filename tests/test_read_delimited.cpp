@@ -12,9 +12,9 @@
 #include <string>
 #include <vector>
 
-#include "cylzone/errors.hpp"
-#include "cylzone/read_points.hpp"
-#include "detail/text_parsing.hpp"
+#include "cylzone/core/errors.hpp"
+#include "cylzone/io/read_points.hpp"
+#include "io/detail/text_parsing.hpp"
 #include "expect_input_error.hpp"
 #include "temporary_folder.hpp"
 

@@ -28,8 +28,8 @@
 #include <string>
 #include <vector>
 
-#include "cylzone/errors.hpp"
-#include "cylzone/read_points.hpp"
+#include "cylzone/core/errors.hpp"
+#include "cylzone/io/read_points.hpp"
 #include "expect_input_error.hpp"
 #include "temporary_folder.hpp"
 

@@ -8,8 +8,8 @@
 #include <string>
 #include <unistd.h>
 
-#include "cylzone/errors.hpp"
-#include "cylzone/report.hpp"
+#include "cylzone/core/errors.hpp"
+#include "cylzone/report/report.hpp"
 
 namespace fs = std::filesystem;
 using namespace cylzone;

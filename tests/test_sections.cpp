@@ -7,8 +7,8 @@
 #include <cmath>
 #include <vector>
 
-#include "cylzone/errors.hpp"
-#include "cylzone/sections.hpp"
+#include "cylzone/core/errors.hpp"
+#include "cylzone/fit/sections.hpp"
 #include "reference_data.hpp"
 
 using namespace cylzone;

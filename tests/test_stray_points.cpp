@@ -30,12 +30,12 @@
 #include <string>
 #include <vector>
 
-#include "cylzone/bore_evaluation.hpp"
-#include "cylzone/datum_frame.hpp"
-#include "cylzone/errors.hpp"
-#include "cylzone/fit_cylinder.hpp"
-#include "cylzone/fit_plane.hpp"
-#include "cylzone/stray_points.hpp"
+#include "cylzone/evaluate/bore_evaluation.hpp"
+#include "cylzone/datum/datum_frame.hpp"
+#include "cylzone/core/errors.hpp"
+#include "cylzone/fit/fit_cylinder.hpp"
+#include "cylzone/fit/fit_plane.hpp"
+#include "cylzone/prepare/stray_points.hpp"
 #include "case_file.hpp"
 #include "reference_data.hpp"
 

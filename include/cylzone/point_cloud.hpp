@@ -1,26 +1,4 @@
 #pragma once
 /// \file point_cloud.hpp
-/// The value type every reader produces and every fit consumes.
-
-#include <Eigen/Core>
-#include <cstddef>
-#include <string>
-
-#include "cylzone/units.hpp"
-
-namespace cylzone {
-
-/// Points in millimetres, stored contiguously as the columns of a 3xN matrix (x, y, z of one
-/// point are adjacent in memory). `vectors` is either empty (0 columns) or has one unit vector
-/// per point: the probe approach / surface normal as written in the file (not re-oriented).
-struct PointCloud {
-  Eigen::Matrix3Xd points;
-  Eigen::Matrix3Xd vectors;
-  std::string source;                            ///< file name as given, for messages and reports
-  LengthUnit file_unit = LengthUnit::millimetre;  ///< the unit the file was written in
-
-  std::size_t size() const noexcept { return static_cast<std::size_t>(points.cols()); }
-  bool has_vectors() const noexcept { return vectors.cols() == points.cols() && points.cols() > 0; }
-};
-
-}  // namespace cylzone
+/// Compatibility: the header moved to cylzone/io/point_cloud.hpp when the library was grouped by stage.
+#include "cylzone/io/point_cloud.hpp"

@@ -7,9 +7,9 @@
 #include <vector>
 
 #include "cli/commands.hpp"
-#include "cylzone/part_check.hpp"
-#include "cylzone/plan.hpp"
-#include "cylzone/report.hpp"
+#include "cylzone/check/part_check.hpp"
+#include "cylzone/plan/plan.hpp"
+#include "cylzone/report/report.hpp"
 
 namespace cylzone::cli {
 namespace {

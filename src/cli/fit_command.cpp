@@ -8,9 +8,9 @@
 
 #include "cli/commands.hpp"
 #include "cli/vector_option.hpp"
-#include "cylzone/errors.hpp"
-#include "cylzone/fit_element.hpp"
-#include "cylzone/read_points.hpp"
+#include "cylzone/core/errors.hpp"
+#include "cylzone/fit/fit_element.hpp"
+#include "cylzone/io/read_points.hpp"
 #include "cylzone/version.hpp"
 
 namespace cylzone::cli {

@@ -5,7 +5,7 @@
 #include <iostream>
 
 #include "cli/commands.hpp"
-#include "cylzone/errors.hpp"
+#include "cylzone/core/errors.hpp"
 #include "cylzone/version.hpp"
 
 int main(int argc, char** argv) {

@@ -13,8 +13,8 @@
 #include <utility>
 #include <vector>
 
-#include "cylzone/errors.hpp"
-#include "cylzone/fit_types.hpp"
+#include "cylzone/core/errors.hpp"
+#include "cylzone/fit/fit_types.hpp"
 
 namespace cylzone::detail {
 

@@ -1,6 +1,6 @@
 #!/usr/bin/python3
 """Exact cross-check of cylzone's related mating width of a slot or tab about datum B's axis
-(src/detail/clocking_width.hpp, fit_width_about_origin), solved here again with numpy alone.
+(src/datum/detail/clocking_width.hpp, fit_width_about_origin), solved here again with numpy alone.
 
 Usage: /usr/bin/python3 crosscheck_clocking_width.py CASES.json
 

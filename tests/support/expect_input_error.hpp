@@ -6,7 +6,7 @@
 #include <cstddef>
 #include <string>
 
-#include "cylzone/errors.hpp"
+#include "cylzone/core/errors.hpp"
 
 namespace cylzone::testing {
 

@@ -16,7 +16,7 @@
 #include <cstdint>
 #include <random>
 
-#include "cylzone/fit_types.hpp"
+#include "cylzone/fit/fit_types.hpp"
 
 namespace cylzone::testing {
 

@@ -1,0 +1,188 @@
+#pragma once
+/// \file bore_evaluation.hpp
+/// Evaluation of one bore in the datum reference frame: its fits, the toleranced axis, position
+/// over the full depth (or a projected zone), perpendicularity to A, size, form, bonus and
+/// virtual condition, each with a verdict. docs/evaluation.md gives the definitions and sources.
+
+#include <Eigen/Core>
+#include <optional>
+#include <string>
+#include <vector>
+
+#include "cylzone/evaluate/axis_zone.hpp"
+#include "cylzone/fit/fit_cylinder.hpp"
+#include "cylzone/plan/plan.hpp"
+#include "cylzone/fit/sections.hpp"
+#include "cylzone/prepare/stray_points.hpp"
+
+namespace cylzone {
+
+enum class Verdict { conforms, does_not_conform };
+/// "conforms", "does not conform".
+std::string_view verdict_name(Verdict verdict) noexcept;
+
+/// Position (cylindrical zone about the true-position axis) over the evaluated range.
+struct PositionResult {
+  PlanTolerance spec;
+  /// Heights evaluated, along the nominal direction from A (datum frame z for a perpendicular
+  /// bore): the plan's depth, else the probed extent; a projected zone: [0, projected height].
+  double range_top = 0.0;
+  double range_bottom = 0.0;
+  bool projected = false;     ///< range is a projected tolerance zone above A
+  double value = 0.0;         ///< diameter: 2 x largest radial deviation over the range
+  double bonus = 0.0;
+  double allowed = 0.0;       ///< tolerance + bonus
+  AxisDeviation top;          ///< at range_top: (dx, dy) and the single-plane 2D position
+  AxisDeviation bottom;       ///< at range_bottom
+  AxisDeviation worst;        ///< where the radial deviation is largest
+  /// First height, scanning from the top of the range down, where the axis is outside the
+  /// allowed zone; empty when it stays inside.
+  std::optional<double> leaves_zone_at;
+  /// Median-line evaluation only: the section centres within the range, from the top down. The
+  /// median line is taken as straight between centres where it leaves the zone.
+  std::vector<AxisDeviation> section_centres;
+  Verdict verdict = Verdict::conforms;
+};
+
+/// Perpendicularity to A: smallest cylinder perpendicular to A containing the axis over the range.
+struct PerpendicularityResult {
+  PlanTolerance spec;
+  double range_top = 0.0;
+  double range_bottom = 0.0;
+  double value = 0.0;
+  double bonus = 0.0;
+  double allowed = 0.0;
+  Verdict verdict = Verdict::conforms;
+};
+
+/// Sizes (diameters, mm). The size verdict applies the limits as ASME Y14.5-2018 Rule #1 does
+/// for a bore: the actual mating envelope must not be smaller than the lower limit, and every
+/// actual local (two-point) size must lie within the limits. Without any opposed point pair
+/// the upper limit is checked with the minimum material envelope (a warning says so).
+struct SizeResult {
+  std::optional<SizeLimits> limits;
+  double least_squares = 0.0;
+  double mating_envelope = 0.0;            ///< unrelated: maximum inscribed cylinder (free axis)
+  /// Maximum inscribed cylinder with its axis along the nominal direction (perpendicular to A).
+  double related_mating_envelope = 0.0;
+  double minimum_material_envelope = 0.0;  ///< minimum circumscribed cylinder (free axis)
+  double two_point_min = 0.0;              ///< actual local sizes from opposed points in sections
+  double two_point_max = 0.0;
+  std::size_t two_point_count = 0;
+  std::optional<Verdict> verdict;          ///< empty without limits; both sides must conform
+  /// Mating envelope >= lower limit, and the smallest two-point size too.
+  std::optional<Verdict> lower_verdict;
+  /// Largest two-point size <= upper limit (the minimum material envelope without pairs).
+  std::optional<Verdict> upper_verdict;
+  std::string reason;                      ///< which limit failed, when one did
+};
+
+struct FormResult {
+  double cylindricity = 0.0;  ///< minimum-zone radial separation
+  std::optional<double> tolerance;
+  std::optional<Verdict> verdict;
+};
+
+/// The toleranced feature must not violate its virtual condition boundary (the surface
+/// interpretation of a tolerance at MMC/LMC, ASME Y14.5-2018; ISO 2692:2021 maximum/least
+/// material virtual condition). For position the boundary is a perfect cylinder of the virtual
+/// condition size on the true-position axis, over the evaluated depth inside the material (a
+/// projected zone: over the zone above A, with the perfect envelope extended into it). For a
+/// perpendicularity at MMC/LMC without a material-modified position, the boundary is
+/// perpendicular to A and free in location.
+///  * MMC (bore): `clearance` is the diameter of the largest cylinder on that axis (or
+///    perpendicular to A) clear of every point; conforms when clearance >= boundary.
+///  * LMC (bore): `clearance` is the diameter of the smallest such cylinder containing every
+///    point; conforms when clearance <= boundary.
+struct VirtualConditionResult {
+  double boundary = 0.0;   ///< virtual condition size (bore at MMC: MMC - t; at LMC: LMC + t)
+  double clearance = 0.0;  ///< see above
+  std::string comparison = ">=";  ///< how clearance is compared with boundary: ">=" or "<="
+  bool on_true_position = true;   ///< false: perpendicularity's boundary, free in location
+  Verdict verdict = Verdict::conforms;
+};
+
+struct TiltResult {
+  double angle_rad = 0.0;     ///< angle of the toleranced axis from the nominal direction
+  double azimuth_deg = 0.0;   ///< direction of the tilt in the frame, from +x toward +y
+};
+
+/// A rigid motion of the frame in the plane of A: rotation about the frame's z axis through the
+/// origin (datum B's axis), then a shift in x, y.
+struct FrameMotion {
+  Eigen::Vector2d shift = Eigen::Vector2d::Zero();
+  double rotation_rad = 0.0;
+};
+
+struct BoreResult {
+  std::string id;
+  BoreAxisMethod axis_method = BoreAxisMethod::mating_envelope;
+  Axis axis;                  ///< toleranced axis, datum frame (median line: its LS line)
+  StraightAxis axis_in_zone;  ///< the same in zone coordinates
+  /// Zone frame; w is the plan's nominal direction, reversed if it was given pointing into the
+  /// material, so heights inside the material are negative.
+  ZoneFrame zone;
+  double probed_top = 0.0;    ///< height extent of the bore's points
+  double probed_bottom = 0.0;
+  CylinderFit least_squares;      ///< datum frame
+  CylinderFit mating_envelope;    ///< maximum inscribed, free axis
+  CylinderFit related_envelope;   ///< maximum inscribed, axis perpendicular to A
+  CylinderFit minimum_material;   ///< minimum circumscribed, free axis
+  CylinderFit minimum_zone;       ///< cylindricity
+  std::vector<SectionCircle> sections;  ///< LS circles at the probed levels (median line)
+  /// Suspect points among the bore's points, screened against the least-squares cylinder's
+  /// residuals (stray_points.hpp). Reported only: every figure uses all points.
+  StrayPointReport stray_points;
+  TiltResult tilt;
+  SizeResult size;
+  FormResult form;
+  std::optional<PositionResult> position;
+  std::optional<PerpendicularityResult> perpendicularity;
+  std::optional<VirtualConditionResult> virtual_condition;
+  /// Position re-evaluated after the best frame motion the datum reference allows (datum
+  /// feature shift at MMB, or degrees of freedom it leaves free), shared by all bores with the
+  /// same datum reference (simultaneous requirement). Empty when the frame is fully fixed.
+  /// When present, its verdict decides the position characteristic.
+  std::optional<PositionResult> position_with_mobility;
+  std::optional<FrameMotion> mobility_motion;
+  std::string mobility_reason;  ///< e.g. "datum B at MMB: shift up to 0.0123"
+  /// The bore's decision: does_not_conform when any characteristic does not (set by
+  /// check_part, the decision stage, from the verdicts above).
+  Verdict verdict = Verdict::conforms;
+  std::vector<std::string> warnings;
+};
+
+struct BoreEvaluationOptions {
+  FitOptions fit;
+  /// Section levels for the median line and two-point sizes: gap (mm) that separates probed
+  /// levels; scanned clouds without levels are cut into slabs of this thickness.
+  double section_gap = 0.5;
+  std::size_t min_section_points = 6;
+  StrayPointOptions stray_points;
+};
+
+/// Evaluates one bore. `points` are in the datum frame (the bore's points transformed by the
+/// frame). Throws FitError when the points cannot determine the bore.
+BoreResult evaluate_bore(const PlanBore& bore, const Eigen::Matrix3Xd& points,
+                         const BoreEvaluationOptions& options = {});
+
+/// Re-evaluates position of an already-fitted bore after the frame moves by a rigid motion
+/// within the plane of A: the moved frame has its origin at `shift` and its x axis turned by
+/// `rotation_rad` about z (both in the old frame), so a point p of the old frame has
+/// coordinates R(rotation)^T (p - shift) in the moved one. The toleranced axis (or the median
+/// line's section centres) is transformed, the range, bonus and allowed zone are kept. Used for
+/// datum mobility (MMB) and free degrees of freedom. The virtual condition is not re-evaluated
+/// (it needs the points). Throws FitError when the bore has no position tolerance.
+PositionResult position_after_frame_motion(const BoreResult& bore, const PlanBore& plan,
+                                           const FrameMotion& motion);
+
+/// The bore's frame-dependent figures (axis, tilt, position, perpendicularity) recomputed after
+/// the datum frame changes by a rigid motion, q_new = rotation q_old + translation, without
+/// refitting: every fit except the related envelope is invariant under rigid motions of the
+/// points, so its axis and the section centres are moved instead. Used by the sensitivity study
+/// (datum A associated by another method). The related envelope, the virtual condition
+/// clearance and mobility results are carried over unchanged.
+BoreResult moved_to_frame(const BoreResult& bore, const PlanBore& plan,
+                          const Eigen::Matrix3d& rotation, const Eigen::Vector3d& translation);
+
+}  // namespace cylzone

@@ -1,0 +1,83 @@
+#pragma once
+/// \file datum_mobility.hpp
+/// What a datum reference leaves free, and the best use of it. A datum feature of size
+/// referenced at MMB may shift within its simulator (ASME Y14.5-2018, datum feature shift); a
+/// reference without C leaves rotation about B free, one with A alone leaves translation free as
+/// well. Bores with the same datum reference are one pattern and move together (the
+/// simultaneous requirement of ASME Y14.5-2018, from memory for the clause number). The part
+/// conforms when some allowed motion puts every bore of the pattern inside its zone, so the
+/// motion chosen minimises the largest ratio position / allowed over the pattern.
+
+#include <Eigen/Core>
+#include <optional>
+#include <string>
+#include <vector>
+
+#include "cylzone/evaluate/bore_evaluation.hpp"
+#include "cylzone/datum/datum_frame.hpp"
+#include "cylzone/plan/plan.hpp"
+
+namespace cylzone {
+
+struct FrameMobility {
+  bool translation_free = false;  ///< no B in the reference
+  bool rotation_free = false;     ///< no C in the reference
+  double shift_allowance = 0.0;   ///< B at MMB: radius of the allowed shift, mm (LMB: 0, a note)
+  /// C a feature of size at RMB (or at MMB without room) while the frame shifts: the rotation
+  /// follows so that C stays on the ray from the origin at its basic angle.
+  bool rotation_follows_c = false;
+  /// C's axis on A, frame coordinates; the frame was clocked so that it lies on its basic ray.
+  Eigen::Vector2d c_location = Eigen::Vector2d::Zero();
+  /// C at MMB: how far C's axis may move off the ray from the origin at its basic angle, mm
+  /// (C clocks the frame only, as the frame's C at RMB does: docs/evaluation.md). For a slot
+  /// or tab, how far its centre plane may move off the MMB simulator's at the start.
+  double c_shift_allowance = 0.0;
+  /// C a slot or tab at MMB: its simulator, two parallel planes `mmb_width` apart about a
+  /// centre plane through the moved origin at C's basic angle, must leave a slot's faces
+  /// outside it and a tab's inside it. The shifts it allows at a rotation form a strip across
+  /// the centre plane, found exactly from the faces' extreme points rather than from C's
+  /// location alone, because a rotation moves the far end of a long face furthest.
+  struct WidthSimulator {
+    bool internal = true;  ///< slot (true) or tab
+    double mmb_width = 0.0;  ///< mm
+    /// Convex hull vertices of each face's points projected onto A, frame coordinates; the
+    /// positive face lies on the side of +z x (C's basic direction).
+    std::vector<Eigen::Vector2d> positive_face;
+    std::vector<Eigen::Vector2d> negative_face;
+  };
+  std::optional<WidthSimulator> c_width;
+  /// What the reference asks for that the mobility does not apply (e.g. a datum at LMB), so
+  /// that the result is conservative and says why.
+  std::vector<std::string> notes;
+  bool any() const noexcept {
+    return translation_free || rotation_free || shift_allowance > 0.0 || c_shift_allowance > 0.0;
+  }
+  std::string description() const;  ///< e.g. "datum B at MMB: shift up to 0.012 mm"
+};
+
+/// The mobility a datum reference leaves, given the frame that was built.
+FrameMobility mobility_of(const std::vector<DatumReference>& datums, const DatumFrameResult& frame);
+
+struct MobilityOptions {
+  int max_iterations = 200;  ///< per one-dimensional search
+  double tolerance = 1e-10;  ///< on the worst ratio
+};
+
+struct MobilityResult {
+  FrameMotion motion;
+  double worst_ratio = 0.0;  ///< largest position / allowed over the pattern after the motion
+  std::vector<PositionResult> positions;  ///< parallel to the input bores
+  int iterations = 0;  ///< rotations examined by the outer search (1 when rotation is fixed)
+};
+
+/// Best motion for a pattern of already-evaluated bores (each with a position tolerance): the
+/// motion (FrameMotion, as position_after_frame_motion applies it) that minimises the largest
+/// position / allowed over the pattern, subject to the mobility. The result is never worse than
+/// the unmoved frame. Deterministic. Throws FitError when a bore has no position result or the
+/// inputs are not parallel.
+MobilityResult best_frame_motion(const std::vector<const BoreResult*>& bores,
+                                 const std::vector<const PlanBore*>& plans,
+                                 const FrameMobility& mobility,
+                                 const MobilityOptions& options = {});
+
+}  // namespace cylzone

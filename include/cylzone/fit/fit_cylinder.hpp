@@ -1,0 +1,60 @@
+#pragma once
+/// \file fit_cylinder.hpp
+/// Cylinders. Least squares follows Forbes (NPL DITC 140/89) and Shakarji (J. Res. NIST 103,
+/// 1998): translate to the centroid, rotate so the trial axis is z, solve for five parameters
+/// (two shifts, two tilts, radius) by Gauss-Newton with analytic Jacobian, re-centre and repeat;
+/// several starting axes are tried and the lowest sum of squares is kept. Minimum zone
+/// (cylindricity), maximum inscribed and minimum circumscribed start from the least-squares
+/// cylinder and are solved as described in docs/methods.md.
+///
+/// With FitOptions::fixed_direction the axis direction is held and only its location and the
+/// radius are fitted: the problem is then the corresponding circle fit of the points projected
+/// along that direction.
+
+#include "cylzone/fit/fit_types.hpp"
+
+namespace cylzone {
+
+/// Covariance parameters (least squares only) in basis (u, v, w = axis direction), origin at
+/// axis.point: [shift_u, shift_v, tilt_u, tilt_v, radius]; with a fixed direction only
+/// [shift_u, shift_v, radius].
+struct CylinderFit {
+  Axis axis;
+  double radius = 0.0;
+  double extent_min = 0.0;  ///< axial extent of the points measured from axis.point
+  double extent_max = 0.0;
+  double angular_coverage_deg = 0.0;
+  Residuals residuals;  ///< distance from the axis minus radius (cylindricity for minimum zone)
+  ParameterCovariance covariance;
+  /// Chebyshev and mating fits: largest displacement of the axis at either end of the extent
+  /// among elements whose objective is within the tolerance of the optimum; 0 when the
+  /// optimum is unique (to that tolerance) and for least squares (docs/chebyshev.md,
+  /// "Non-unique optima"). A warning is added above 1e-4 mm.
+  double ambiguity = 0.0;
+  FitSummary summary;
+
+  double diameter() const noexcept { return 2.0 * radius; }
+};
+
+/// Needs at least 5 points (6 with a free axis is the practical minimum) spread along the axis.
+/// Throws FitError when the points lie in one cross-section (the message gives the axial span
+/// found) or otherwise cannot fix the cylinder.
+CylinderFit fit_cylinder_least_squares(const Eigen::Matrix3Xd& points,
+                                       const FitOptions& options = {});
+/// Same, seeding starting axes from per-point vectors when the cloud has them.
+CylinderFit fit_cylinder_least_squares(const Eigen::Matrix3Xd& points,
+                                       const Eigen::Matrix3Xd& vectors,
+                                       const FitOptions& options = {});
+
+/// Cylindricity: two coaxial cylinders of least radial separation; radius = mean of the two.
+CylinderFit fit_cylinder_minimum_zone(const Eigen::Matrix3Xd& points,
+                                      const FitOptions& options = {});
+/// Largest cylinder with no point inside: the actual mating envelope of a hole (ASME Y14.5).
+/// Throws FitError when it is unbounded.
+CylinderFit fit_cylinder_maximum_inscribed(const Eigen::Matrix3Xd& points,
+                                           const FitOptions& options = {});
+/// Smallest cylinder containing every point: the actual mating envelope of a pin.
+CylinderFit fit_cylinder_minimum_circumscribed(const Eigen::Matrix3Xd& points,
+                                               const FitOptions& options = {});
+
+}  // namespace cylzone

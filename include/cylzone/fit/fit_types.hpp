@@ -1,0 +1,94 @@
+#pragma once
+/// \file fit_types.hpp
+/// Vocabulary shared by every fit: the association method, options in, a summary out, residuals.
+///
+/// Conventions (docs/methods.md explains them with their sources):
+///  * All fits work on orthogonal (geometric) distances in double precision, on data centred at
+///    its centroid first, so parts several metres from the origin lose no accuracy.
+///  * Directions (line and cylinder axes, plane and circle normals) are unit vectors with a
+///    defined sign: pointing to the same side as `FitOptions::axis_hint` when one is given,
+///    otherwise toward +z (then +y, then +x when perpendicular).
+///  * An axis point is the foot of the perpendicular from the points' centroid onto the axis; a
+///    plane point is the centroid projected onto the plane; the extent of a line or cylinder is
+///    [min, max] of (p - point).direction over the points.
+///  * Residuals are signed orthogonal distances: along the normal for a plane; distance from
+///    the axis (or centre) minus the radius for circles, cylinders and spheres, so positive
+///    means farther from the axis; the plain distance (>= 0) for a line.
+///  * form is the span max - min of the residuals, except for a line, where it is the diameter
+///    of the cylindrical zone about the fitted line (2 x the largest distance).
+
+#include <Eigen/Core>
+#include <cstddef>
+#include <optional>
+#include <string>
+#include <string_view>
+#include <vector>
+
+namespace cylzone {
+
+/// How the ideal element is associated with the points.
+enum class FitMethod {
+  least_squares,         ///< Gaussian: minimise the sum of squared orthogonal distances
+  minimum_zone,          ///< Chebyshev: minimise the largest distance / the zone width
+  maximum_inscribed,     ///< largest circle/cylinder with every point outside (hole mating envelope)
+  minimum_circumscribed  ///< smallest circle/cylinder with every point inside (pin mating envelope)
+};
+
+/// "least-squares", "minimum-zone", "max-inscribed", "min-circumscribed".
+std::string_view method_name(FitMethod method) noexcept;
+/// Inverse of method_name; empty when the text names no method.
+std::optional<FitMethod> parse_method(std::string_view text) noexcept;
+
+enum class FitStatus {
+  converged,       ///< the step (or the LP's improvement) fell below the tolerance
+  iteration_limit  ///< stopped at max_iterations; the element is the best found, not proven optimal
+};
+
+struct FitOptions {
+  int max_iterations = 100;
+  /// Convergence when a parameter step is below this fraction of the data's size (its largest
+  /// distance from the centroid).
+  double step_tolerance = 1e-13;
+  /// Preferred axis / normal direction: used as a starting axis and to fix the sign of the result.
+  std::optional<Eigen::Vector3d> axis_hint;
+  /// A constraint, not a hint: the cylinder axis (or circle normal) direction is held at this
+  /// direction and only location and size are fitted (e.g. a bore perpendicular to datum A).
+  std::optional<Eigen::Vector3d> fixed_direction;
+  /// Use the points' vectors (when the cloud has them) to propose starting axes for cylinders.
+  bool use_point_vectors = true;
+  /// A warning is added when the points cover less than this angle around a circle or cylinder.
+  double coverage_warning_deg = 180.0;
+};
+
+/// Ceres-style summary: what happened, in one line, plus warnings a user must see.
+struct FitSummary {
+  FitMethod method = FitMethod::least_squares;
+  FitStatus status = FitStatus::converged;
+  int iterations = 0;
+  std::size_t point_count = 0;
+  std::string message;                ///< one line, e.g. "converged in 6 iterations (start 2 of 4)"
+  std::vector<std::string> warnings;  ///< e.g. "points cover only 84.0 degrees of arc"
+};
+
+struct Residuals {
+  Eigen::VectorXd values;  ///< one per point, in the cloud's order
+  double rms = 0.0;
+  double form = 0.0;       ///< see file comment
+};
+
+/// A straight line in space: a point on it and a unit direction.
+struct Axis {
+  Eigen::Vector3d point = Eigen::Vector3d::Zero();
+  Eigen::Vector3d direction = Eigen::Vector3d::UnitZ();
+};
+
+/// Parameter covariance of a least-squares fit, sigma^2 (J^T J)^-1 with sigma^2 = SSR / (n - p),
+/// expressed in a local frame at the solution. Empty (0x0) for Chebyshev and mating fits.
+/// `basis` columns are (u, v, w) with w the element's direction/normal; the parameter order of
+/// each element is documented beside its result type.
+struct ParameterCovariance {
+  Eigen::MatrixXd matrix;
+  Eigen::Matrix3d basis = Eigen::Matrix3d::Identity();
+};
+
+}  // namespace cylzone

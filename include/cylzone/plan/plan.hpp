@@ -1,0 +1,130 @@
+#pragma once
+/// \file plan.hpp
+/// The part plan: a human-written TOML file saying where the points of each datum feature and
+/// bore are, the datum reference frame to build, and each bore's basic location, size limits and
+/// tolerances. docs/plan.md documents the format with a complete annotated example.
+///
+/// All lengths are converted to millimetres on reading; `unit` keeps the plan's unit for
+/// reporting. Paths are resolved against the plan's directory. Every error is an InputError
+/// naming the plan file, the line and the key.
+
+#include <Eigen/Core>
+#include <cstddef>
+#include <filesystem>
+#include <optional>
+#include <string>
+#include <string_view>
+#include <vector>
+
+#include "cylzone/plan/tolerance_types.hpp"
+#include "cylzone/core/units.hpp"
+
+namespace cylzone {
+
+/// How datum plane A is associated with its points (ASME Y14.5-2018 and ISO 5459:2011).
+enum class PlaneAssociation {
+  tangent_least_squares,  ///< constrained L2 plane on the material side (default; Y14.5-2018)
+  tangent_minimax,        ///< minimax plane on the material side (ISO 5459 default)
+  least_squares,          ///< Gaussian plane through the points (not a datum per the standards)
+  minimum_zone            ///< mid-plane of the Chebyshev (flatness) zone
+};
+
+/// Which axis of a bore is toleranced.
+enum class BoreAxisMethod {
+  mating_envelope,  ///< axis of the unrelated actual mating envelope (ASME Y14.5; default)
+  least_squares,    ///< least-squares cylinder axis
+  median_line       ///< derived median line: LS circle centres of sections (ISO 1101, 17450-3)
+};
+
+/// "tangent-least-squares", "tangent-minimax", "least-squares", "minimum-zone".
+std::string_view association_name(PlaneAssociation method) noexcept;
+std::optional<PlaneAssociation> parse_association(std::string_view text) noexcept;
+/// "mating-envelope", "least-squares", "median-line".
+std::string_view axis_method_name(BoreAxisMethod method) noexcept;
+std::optional<BoreAxisMethod> parse_axis_method(std::string_view text) noexcept;
+
+/// Where something was written in the plan, for messages.
+struct PlanLocation {
+  std::size_t line = 0;
+  /// Dotted key path, e.g. "datum.B.size" or "bore[P3].position.tolerance": a bore is named by
+  /// its id, or by its 1-based index ("bore[3].id") for errors in the id itself.
+  std::string key;
+};
+
+struct ProbeSettings {
+  /// Points are stylus-ball centres. A plan saying so is refused for now (compensation is not
+  /// yet supported), so a plan that was read always has surface points.
+  bool ball_centres = false;
+  double tip_diameter = 0.0;   ///< mm
+};
+
+struct PlanDatum {
+  char label = 'A';
+  FeatureKind kind = FeatureKind::plane;
+  std::filesystem::path points;
+  /// Plane datums: association method, and optionally the direction INTO the material in
+  /// measurement coordinates (otherwise inferred from the bores' points).
+  PlaneAssociation association = PlaneAssociation::tangent_least_squares;
+  std::optional<Eigen::Vector3d> material_side;
+  /// Features of size: limits of size and the maximum material boundary for MMB references.
+  /// `mmb_size` is empty unless the plan gives it; then the MMC size applies, which is right when
+  /// the feature has no orientation tolerance at MMC.
+  std::optional<SizeLimits> size;
+  std::optional<double> mmb_size;
+  /// Clocking feature C: basic location of its axis (bore/pin) in the frame, or for a plane the
+  /// direction of its outward normal in the frame (a unit 2-vector in the xy plane).
+  std::optional<Eigen::Vector2d> basic_location;
+  std::optional<Eigen::Vector2d> outward_normal;
+  PlanLocation where;
+};
+
+struct PlanTolerance {
+  double tolerance = 0.0;  ///< diameter of the cylindrical zone, mm
+  MaterialCondition condition = MaterialCondition::rfs;
+  std::vector<DatumReference> datums;  ///< in order of precedence; perpendicularity: just A
+  std::optional<double> projected_height;  ///< projected tolerance zone height above A, mm
+  PlanLocation where;
+};
+
+struct PlanBore {
+  std::string id;
+  std::filesystem::path points;
+  Eigen::Vector2d basic_location = Eigen::Vector2d::Zero();  ///< true position (x, y) on A
+  /// Nominal axis direction in the frame (unit, z > 0: out of the material); perpendicular to A,
+  /// i.e. (0, 0, 1), by default.
+  Eigen::Vector3d nominal_direction = Eigen::Vector3d::UnitZ();
+  /// Depth range to evaluate, as z in the frame: top (nearer A) and bottom, each optional; an end
+  /// not given is the probed extent. When both are given, top > bottom.
+  std::optional<double> depth_top;
+  std::optional<double> depth_bottom;
+  std::optional<SizeLimits> size;
+  BoreAxisMethod axis = BoreAxisMethod::mating_envelope;
+  std::optional<PlanTolerance> position;
+  std::optional<PlanTolerance> perpendicularity;
+  std::optional<double> cylindricity;  ///< tolerance, mm
+  PlanLocation where;
+};
+
+struct PartPlan {
+  std::filesystem::path file;
+  std::string name;
+  LengthUnit unit = LengthUnit::millimetre;
+  ProbeSettings probe;
+  std::vector<PlanDatum> datums;  ///< A, then B and C when present, in that order
+  std::vector<PlanBore> bores;
+
+  const PlanDatum* datum(char label) const noexcept;
+};
+
+/// Reads and validates a plan. Throws InputError (file, line, key, problem) on any error:
+/// syntax, unknown or missing keys, unknown datum, missing point file, negative or zero
+/// tolerance, a modifier on a datum that is not a feature of size, a bore with no tolerance,
+/// duplicate bore ids, ball-centre points (not yet supported), and so on.
+PartPlan read_plan(const std::filesystem::path& file);
+
+/// Same, from text; `file` names it in messages and is the base for relative paths.
+/// With `check_files` false, point files are not required to exist (for tests of the parser).
+PartPlan parse_plan(std::string_view text, const std::filesystem::path& file,
+                    bool check_files = true);
+
+}  // namespace cylzone

@@ -1,0 +1,652 @@
+// The datum reference frame from probed datum features (ASME Y14.5-2018 section 4; ISO
+// 5459:2011), with the convention of datum_frame.hpp and docs/datum-frame.md.
+//
+// Order of constraint follows the datum precedence: A fixes the normal (z) and the height; B,
+// associated with A's orientation held, fixes the origin in A; C, associated with A's
+// orientation held and B's location known, fixes the rotation about z.
+#include "cylzone/datum/datum_frame.hpp"
+
+#include <Eigen/Eigenvalues>
+#include <Eigen/Geometry>
+#include <algorithm>
+#include <array>
+#include <cmath>
+#include <cstddef>
+#include <limits>
+#include <optional>
+#include <stdexcept>
+#include <string>
+#include <utility>
+#include <vector>
+
+#include "cylzone/core/errors.hpp"
+#include "cylzone/fit/fit_circle.hpp"
+#include "cylzone/evaluate/material_condition.hpp"
+#include "cylzone/datum/tangent_plane.hpp"
+#include "datum/detail/clocking_width.hpp"
+#include "detail/fit_support.hpp"
+#include "prepare/detail/stray_point_message.hpp"
+#include "datum/detail/tangent_line.hpp"
+
+namespace cylzone {
+namespace {
+
+constexpr double degrees_per_radian = 180.0 / 3.14159265358979323846;
+// A secondary or tertiary feature whose least-squares axis (or plane normal) is more than this
+// from the orientation the frame needs (axis along A's normal; plane normal in A) is taken to
+// be the wrong feature for the role: the association would be meaningless, not merely poor.
+constexpr double orientation_limit_deg = 45.0;
+// Beyond this, the feature's own orientation is worth a note: its envelope is held to A.
+constexpr double orientation_note_deg = 1.0;
+// Without C, measurement x is used unless it is within about 8 degrees of A's normal.
+constexpr double nearly_parallel_cosine = 0.99;
+// See tangent_plane.cpp: the material side must make a clear angle with the plane.
+constexpr double least_material_cosine = 0.2;
+
+std::string label_text(char label) { return std::string("datum ") + label; }
+
+// The MMB of a datum feature of size, the plan's or else its MMC size, and the shift it allows
+// as if referenced at MMB (the caller knows the references and sets `boundary`). A feature
+// violating its MMB allows nothing and gets a note (ASME Y14.5-2018 datum feature shift;
+// common practice).
+void set_mmb_boundary(const PlanDatum& datum, double mating, const std::string& measure,
+                      const std::string& allowance_name, std::optional<double>& mmb_size,
+                      double& shift_allowance, std::vector<std::string>& notes) {
+  if (datum.mmb_size)
+    mmb_size = datum.mmb_size;
+  else if (datum.size)
+    mmb_size = datum.size->mmc(datum.kind);
+  if (!mmb_size) return;
+  shift_allowance = datum_shift_allowance(MaterialBoundary::mmb, datum.kind, mating, *mmb_size);
+  const bool violates = is_external(datum.kind) ? mating > *mmb_size : mating < *mmb_size;
+  if (violates)
+    notes.push_back(label_text(datum.label) + ": related mating " + measure + " " +
+                    detail::format_number(mating, 4) + " mm violates its MMB " +
+                    detail::format_number(*mmb_size, 4) + " mm: it does not fit an MMB simulator, no " +
+                    allowance_name + " is available");
+}
+
+// Runs `associate`, naming the datum in any FitError it throws.
+template <class Associate>
+auto for_datum(char label, Associate&& associate) -> decltype(associate()) {
+  try {
+    return associate();
+  } catch (const FitError& error) {
+    throw FitError(label_text(label) + ": " + error.what());
+  }
+}
+
+double angle_deg(const Eigen::Vector3d& a, const Eigen::Vector3d& b) {
+  return std::atan2(a.cross(b).norm(), a.dot(b)) * degrees_per_radian;
+}
+
+// Angle between the feature's own least-squares axis and A's normal, 0..90 degrees; empty when
+// the points fix no axis (one cross-section of a short bore gives the circle's normal instead).
+std::optional<double> own_axis_angle_deg(const PointCloud& cloud, const Eigen::Vector3d& z,
+                                         const FitOptions& fit) {
+  FitOptions free = fit;
+  free.fixed_direction.reset();
+  free.axis_hint = z;
+  try {
+    const CylinderFit cylinder = cloud.has_vectors()
+                                     ? fit_cylinder_least_squares(cloud.points, cloud.vectors, free)
+                                     : fit_cylinder_least_squares(cloud.points, free);
+    return angle_deg(cylinder.axis.direction, z);
+  } catch (const FitError&) {
+  }
+  try {
+    return angle_deg(fit_circle_least_squares(cloud.points, free).normal, z);
+  } catch (const FitError&) {
+  }
+  return std::nullopt;
+}
+
+// The frame is built from all points; a suspect point is only named.
+constexpr const char* stray_closing = "the frame uses all points: review the data";
+
+// Adds the note for a datum feature with suspect points: "datum B: 2 suspect point(s) ...".
+void note_stray_points(std::vector<std::string>& notes, char label,
+                       const StrayPointReport& report,
+                       const std::vector<detail::SuspectContact>& contacts) {
+  if (report.points.empty()) return;
+  notes.push_back(label_text(label) + ": " +
+                  detail::stray_point_message(report, contacts, stray_closing));
+}
+
+// Residuals of the least-squares plane of `points` along `outward` (so a positive residual
+// stands proud of the surface), for the stray-point screen.
+Eigen::VectorXd outward_plane_residuals(const PlaneFit& least_squares,
+                                        const Eigen::Vector3d& outward) {
+  return least_squares.normal.dot(outward) < 0.0 ? Eigen::VectorXd(-least_squares.residuals.values)
+                                                 : least_squares.residuals.values;
+}
+
+// Datum plane A by its association method; normal out of the material, residuals along it.
+PlaneFit associate_plane(const Eigen::Matrix3Xd& points, PlaneAssociation method,
+                         const Eigen::Vector3d& material_side, const FitOptions& fit) {
+  switch (method) {
+    case PlaneAssociation::tangent_least_squares:
+      return fit_plane_tangent_least_squares(points, material_side, fit);
+    case PlaneAssociation::tangent_minimax:
+      return fit_plane_tangent_minimax(points, material_side, fit);
+    case PlaneAssociation::least_squares:
+    case PlaneAssociation::minimum_zone:
+      break;
+  }
+  PlaneFit plane = method == PlaneAssociation::least_squares
+                       ? fit_plane_least_squares(points, fit)
+                       : fit_plane_minimum_zone(points, fit);
+  const Eigen::Vector3d side = detail::checked_direction(material_side, "the material side of A");
+  const double cosine = plane.normal.dot(side);
+  if (std::abs(cosine) < least_material_cosine)
+    throw FitError("the material side direction lies almost in the plane (" +
+                   detail::format_number(std::acos(std::abs(cosine)) * degrees_per_radian, 1) +
+                   " degrees from its normal); it must point into the material");
+  if (cosine > 0.0) {
+    plane.normal = -plane.normal;
+    plane.residuals.values = -plane.residuals.values;
+  }
+  return plane;
+}
+
+// Where the line through `axis` meets plane A.
+Eigen::Vector3d meet_plane(const Axis& axis, const PlaneFit& plane) {
+  const double t = (plane.point - axis.point).dot(plane.normal) / axis.direction.dot(plane.normal);
+  return axis.point + t * axis.direction;
+}
+
+// A bore or pin used as datum B or as clocking datum C: its related actual mating envelope
+// with the axis held along A's normal (maximum inscribed for a bore, minimum circumscribed for
+// a pin: ASME Y14.5-2018, related actual mating envelope).
+SizeDatumResult associate_size_datum(const PlanDatum& datum, const PointCloud& cloud,
+                                     const PlaneFit& a, const FitOptions& fit,
+                                     const StrayPointOptions& stray_options,
+                                     std::vector<std::string>& notes) {
+  const Eigen::Vector3d& z = a.normal;
+  if (const std::optional<double> angle = own_axis_angle_deg(cloud, z, fit)) {
+    // The axis direction's sign is arbitrary: 0 and 180 degrees are both perpendicular to A.
+    const double tilt = std::min(*angle, 180.0 - *angle);
+    if (tilt > orientation_limit_deg)
+      throw FitError("axis parallel to A (its least-squares axis is " +
+                     detail::format_number(tilt, 1) +
+                     " degrees from A's normal); a datum feature of size must cross A");
+    if (tilt > orientation_note_deg)
+      notes.push_back(label_text(datum.label) + ": its least-squares axis is " +
+                      detail::format_number(tilt, 2) +
+                      " degrees from A's normal; its mating envelope is held perpendicular to A");
+  }
+  FitOptions held = fit;
+  held.fixed_direction = z;
+  held.axis_hint = z;
+  SizeDatumResult result;
+  result.label = datum.label;
+  result.kind = datum.kind;
+  result.related_envelope = datum.kind == FeatureKind::pin
+                                ? fit_cylinder_minimum_circumscribed(cloud.points, held)
+                                : fit_cylinder_maximum_inscribed(cloud.points, held);
+  result.mating_size = result.related_envelope.diameter();
+  result.axis_on_a = meet_plane(result.related_envelope.axis, a);
+  // The envelope's own warnings (coverage, a non-unique envelope) concern the datum: pass them on.
+  for (const std::string& warning : result.related_envelope.summary.warnings)
+    notes.push_back(label_text(datum.label) + ": related mating envelope: " + warning);
+  // Stray-point screen on the residuals of the least-squares cylinder held perpendicular to A
+  // (stray_points.hpp); the datum axis rests on the envelope's contacts. Too few points to
+  // screen (fewer than neighbours + 1) need no fit: the report stays empty.
+  if (cloud.size() > stray_options.neighbours) {
+    const CylinderFit least_squares = fit_cylinder_least_squares(cloud.points, held);
+    result.stray_points =
+        find_stray_points(cloud.points, least_squares.residuals.values, stray_options);
+    const std::vector<std::size_t> contacts = suspect_contacts(
+        result.stray_points, result.related_envelope.residuals.values,
+        datum.kind == FeatureKind::pin ? ContactSide::highest : ContactSide::lowest);
+    note_stray_points(notes, datum.label, result.stray_points,
+                      {{contacts, "its related mating envelope",
+                        "the datum axis and its mating size rest on"}});
+  }
+  result.size = datum.size;
+  set_mmb_boundary(datum, result.mating_size, "size", "datum shift", result.mmb_size,
+                   result.shift_allowance, notes);
+  return result;
+}
+
+// Frame x with a measured in-plane direction `measured` (unit, perpendicular to z) turned to
+// the angle of `basic` (its direction in the frame): measured = cos(phi) x + sin(phi) y.
+Eigen::Vector3d clocked_x(const Eigen::Vector3d& measured, const Eigen::Vector2d& basic,
+                          const Eigen::Vector3d& z) {
+  const Eigen::Vector2d unit = basic.normalized();
+  return unit.x() * measured - unit.y() * z.cross(measured);
+}
+
+Eigen::Vector3d in_plane_unit(const Eigen::Vector3d& v, const Eigen::Vector3d& z) {
+  return (v - v.dot(z) * z).normalized();
+}
+
+// How far a plane with unit normal `normal` leans from perpendicular to A (normal z), degrees:
+// 0 for a plane containing z, 90 for a plane parallel to A. The normal's sign is arbitrary.
+double lean_from_perpendicular_deg(const Eigen::Vector3d& normal, const Eigen::Vector3d& z) {
+  const double angle = angle_deg(normal, z);
+  return 90.0 - std::min(angle, 180.0 - angle);
+}
+
+// Clocking datum plane C: the tangent least-squares plane of C's points constrained to contain
+// A's normal, i.e. the tangent line of their projections onto A (detail/tangent_line.hpp).
+ClockingPlaneResult associate_clocking_plane(const PlanDatum& datum, const PointCloud& cloud,
+                                             const PlaneFit& a,
+                                             const std::optional<Eigen::Vector3d>& b_axis_on_a,
+                                             const FitOptions& fit,
+                                             const StrayPointOptions& stray_options,
+                                             std::vector<std::string>& notes) {
+  const Eigen::Vector3d& z = a.normal;
+  FitOptions plain = fit;
+  plain.fixed_direction.reset();
+  plain.axis_hint.reset();
+  // Also checks the points (count, collinearity).
+  const PlaneFit own = fit_plane_least_squares(cloud.points, plain);
+  const double tilt = lean_from_perpendicular_deg(own.normal, z);
+  if (tilt > orientation_limit_deg)
+    throw FitError("plane parallel to A (its least-squares normal is " +
+                   detail::format_number(90.0 - tilt, 1) +
+                   " degrees from A's normal); a clocking plane must be perpendicular to A");
+  if (tilt > orientation_note_deg)
+    notes.push_back(label_text(datum.label) + ": its least-squares plane is " +
+                    detail::format_number(tilt, 2) +
+                    " degrees out of perpendicular to A; it is associated perpendicular to A");
+
+  const Eigen::Matrix3d basis = detail::basis_from_direction(z);
+  const Eigen::Matrix2Xd projected = detail::planar_coordinates(cloud.points, a.point, basis);
+  Eigen::Vector3d side;
+  if (datum.material_side) {
+    side = detail::checked_direction(*datum.material_side, "the material side of C");
+    if (side.cross(z).norm() < least_material_cosine)
+      throw FitError("its material side direction is almost along A's normal; it must point "
+                     "into the material across plane C");
+  } else if (b_axis_on_a) {
+    // The side containing B's axis: B is a feature of the same part, so it lies in the material
+    // behind the face C.
+    const double offset = (*b_axis_on_a - own.point).dot(own.normal);
+    const double band = std::max(own.residuals.form,
+                                 1e-9 * detail::data_scale(cloud.points, own.point));
+    if (std::abs(offset) <= band)
+      throw FitError("the axis of datum B lies in plane C, so C's material side cannot be told; "
+                     "give C's material_side in the plan");
+    side = *b_axis_on_a - detail::centroid(cloud.points);
+  } else {
+    throw FitError("its material side is needed: there is no datum B to tell it");
+  }
+  const Eigen::Vector2d side_in_a = basis.leftCols<2>().transpose() * side;
+  const detail::TangentLine2d line =
+      detail::fit_line_2d_tangent_least_squares(projected, side_in_a, fit);
+
+  ClockingPlaneResult result;
+  PlaneFit& plane = result.plane;
+  plane.normal = (basis.leftCols<2>() * line.normal).normalized();
+  const Eigen::Vector3d on_line = a.point + basis.leftCols<2>() * line.point;
+  const Eigen::Vector3d centre = detail::centroid(cloud.points);
+  plane.point = centre - (centre - on_line).dot(plane.normal) * plane.normal;
+  // The 2D residuals, recomputed in space and moved so that the largest is exactly 0.
+  Eigen::VectorXd residuals = (cloud.points.colwise() - plane.point).transpose() * plane.normal;
+  const double outermost = residuals.maxCoeff();
+  plane.point += outermost * plane.normal;
+  residuals.array() -= outermost;
+  plane.residuals = detail::make_residuals(std::move(residuals));
+  plane.summary.method = FitMethod::least_squares;
+  plane.summary.status = line.status;
+  plane.summary.iterations = line.iterations;
+  plane.summary.point_count = cloud.size();
+  plane.summary.message =
+      "tangent least-squares plane perpendicular to A: " +
+      detail::iteration_message(line.status, line.iterations, fit) + ", " +
+      std::to_string(line.contacts) + (line.contacts == 1 ? " contact point" : " contact points");
+  // Stray-point screen on the least-squares plane's residuals (stray_points.hpp); the clocking
+  // plane rests on its contacts (residual 0, all others below).
+  result.stray_points = find_stray_points(
+      cloud.points, outward_plane_residuals(own, plane.normal), stray_options);
+  note_stray_points(notes, datum.label, result.stray_points,
+                    {{suspect_contacts(result.stray_points, plane.residuals.values,
+                                       ContactSide::highest),
+                      "the clocking plane", "the frame's rotation about A's normal rests on"}});
+  return result;
+}
+
+// Clocking datum C as a slot or tab (detail/clocking_width.hpp): the simulator's two planes
+// perpendicular to A, symmetric about a centre plane through B's axis (`origin`, on A), at
+// RMB expand (slot) or contract (tab) to the feature while the centre plane turns about B's
+// axis. Distances to planes containing A's normal are the in-plane distances of the points
+// projected onto A, so the problem is solved in A's plane about B's axis.
+ClockingWidthResult associate_clocking_width(const PlanDatum& datum, const PointCloud& cloud,
+                                             const PlaneFit& a, const Eigen::Vector3d& origin,
+                                             const FitOptions& fit,
+                                             const StrayPointOptions& stray_options,
+                                             std::vector<std::string>& notes) {
+  const Eigen::Vector3d& z = a.normal;
+  const bool internal = !is_external(datum.kind);
+  const std::string feature(feature_kind_name(datum.kind));
+  const Eigen::Matrix3d basis = detail::basis_from_direction(z);
+  const Eigen::Matrix2Xd projected = detail::planar_coordinates(cloud.points, origin, basis);
+  const detail::WidthAboutAxis width = detail::fit_width_about_origin(projected, internal);
+
+  ClockingWidthResult result;
+  result.label = datum.label;
+  result.kind = datum.kind;
+  result.mating_width = width.mating_width;
+  result.iterations = width.evaluations;
+  const Eigen::Vector2d u(std::cos(width.angle), std::sin(width.angle));
+  const Eigen::Vector2d n(-u.y(), u.x());
+  result.centre_direction = (basis.leftCols<2>() * u).normalized();
+  result.centre_plane_normal = z.cross(result.centre_direction).normalized();
+  const Eigen::Vector2d centroid = projected.rowwise().mean();
+  result.centre_on_a = origin + centroid.dot(u) * result.centre_direction;
+  // The points of each face, by index: [0] the face +1 (left of the centre line), [1] the other.
+  const Eigen::Index count = projected.cols();
+  std::array<std::vector<Eigen::Index>, 2> members;
+  for (Eigen::Index i = 0; i < count; ++i) members[width.face(i) > 0 ? 0 : 1].push_back(i);
+  const auto columns = [&](const Eigen::Matrix3Xd& points, const std::vector<Eigen::Index>& of) {
+    Eigen::Matrix3Xd picked(3, static_cast<Eigen::Index>(of.size()));
+    for (std::size_t k = 0; k < of.size(); ++k)
+      picked.col(static_cast<Eigen::Index>(k)) = points.col(of[k]);
+    return picked;
+  };
+  // C's points projected onto A, in measurement coordinates.
+  const Eigen::Matrix3Xd on_a = (basis.leftCols<2>() * projected).colwise() + origin;
+  result.positive_face = columns(on_a, members[0]);
+  result.negative_face = columns(on_a, members[1]);
+
+  // Each face's own least-squares plane against A: the simulator holds its planes
+  // perpendicular to A whatever the faces do, which is worth a note when they lean (a draft,
+  // a tilted cutter), and a face nearly parallel to A is the wrong feature for the role.
+  FitOptions plain = fit;
+  plain.fixed_direction.reset();
+  plain.axis_hint.reset();
+  for (const int face : {1, -1}) {
+    const Eigen::Matrix3Xd face_points = columns(cloud.points, members[face > 0 ? 0 : 1]);
+    // Named as in detail/clocking_width.hpp: +1 is left of the centre line.
+    const std::string side = "of the " + feature + (face > 0 ? " left" : " right") +
+                             " of its centre line (seen from outside the material looking "
+                             "from B toward C)";
+    // Points of one face that fix no plane (2 points, or a line of points) cannot tell its
+    // orientation; the association itself needs only their projections.
+    std::optional<double> tilt;
+    try {
+      const PlaneFit own = fit_plane_least_squares(face_points, plain);
+      tilt = lean_from_perpendicular_deg(own.normal, z);
+    } catch (const FitError&) {
+    }
+    if (tilt && *tilt > orientation_limit_deg)
+      throw FitError("the face " + side + " is parallel to A (its least-squares normal " +
+                     "is " + detail::format_number(90.0 - *tilt, 1) +
+                     " degrees from A's normal); its faces must be perpendicular to A");
+    if (tilt && *tilt > orientation_note_deg)
+      notes.push_back(label_text(datum.label) + ": the face " + side + " is " +
+                      detail::format_number(*tilt, 2) +
+                      " degrees out of perpendicular to A; the simulator's planes are held "
+                      "perpendicular to A");
+  }
+
+  // Signed distances d from the centre plane, and each point's residual from the simulator's
+  // plane on its face, <= 0 with the contacts at 0: slot w/2 - s d, tab s d - w/2.
+  const Eigen::VectorXd d = projected.transpose() * n;
+  const Eigen::VectorXd s = width.face.cast<double>();
+  const Eigen::VectorXd on_face = s.cwiseProduct(d);
+  // The faces are told apart by the side of the centre line through B's axis each point lies
+  // on. Points of one face only (or of a feature far off B's axis) are split all the same, into
+  // two "faces" that lie across each other: a real face's spread across the centre plane is its
+  // form and its small lean against the simulator, far less than the gap between the faces.
+  {
+    double gap = 0.0;
+    double spread = 0.0;
+    for (const std::vector<Eigen::Index>& of : members) {
+      double lo = std::numeric_limits<double>::infinity(), hi = -lo;
+      for (const Eigen::Index i : of) {
+        lo = std::min(lo, on_face(i));
+        hi = std::max(hi, on_face(i));
+      }
+      gap += lo;
+      spread = std::max(spread, hi - lo);
+    }
+    if (!(spread < 0.5 * gap))
+      throw FitError("its two faces are not told apart: split by the centre line through datum "
+                     "B's axis they are " + detail::format_number(gap, 4) +
+                     " mm apart at their nearest points while a face spreads " +
+                     detail::format_number(spread, 4) +
+                     " mm across the centre plane; give points on both faces of the " + feature);
+  }
+
+  const Eigen::VectorXd simulator_residuals =
+      internal ? Eigen::VectorXd((0.5 * width.mating_width - on_face.array()).matrix())
+               : Eigen::VectorXd((on_face.array() - 0.5 * width.mating_width).matrix());
+
+  // Stray-point screen (stray_points.hpp) on the residuals of each face's least-squares line
+  // in A, positive out of the material: toward the centre plane for a slot, away from it for a
+  // tab. The simulator rests on its contacts.
+  if (cloud.size() > stray_options.neighbours) {
+    Eigen::VectorXd residuals(count);
+    for (const int face : {1, -1}) {
+      const std::vector<Eigen::Index>& of = members[face > 0 ? 0 : 1];
+      Eigen::Matrix2Xd q(2, static_cast<Eigen::Index>(of.size()));
+      for (std::size_t k = 0; k < of.size(); ++k)
+        q.col(static_cast<Eigen::Index>(k)) = projected.col(of[k]);
+      const Eigen::Vector2d mean = q.rowwise().mean();
+      const Eigen::Matrix2Xd centred = q.colwise() - mean;
+      // Least-squares line: its normal is the eigenvector of the smaller eigenvalue of the
+      // scatter (Pearson 1901; common practice), turned away from the centre plane.
+      const Eigen::SelfAdjointEigenSolver<Eigen::Matrix2d> eigen(centred * centred.transpose());
+      Eigen::Vector2d normal = eigen.eigenvectors().col(0);
+      if (normal.dot(n) * face < 0.0) normal = -normal;
+      const double outward = internal ? -1.0 : 1.0;
+      for (std::size_t k = 0; k < of.size(); ++k)
+        residuals(of[k]) = outward * centred.col(static_cast<Eigen::Index>(k)).dot(normal);
+    }
+    result.stray_points = find_stray_points(cloud.points, residuals, stray_options);
+    note_stray_points(notes, datum.label, result.stray_points,
+                      {{suspect_contacts(result.stray_points, simulator_residuals,
+                                         ContactSide::highest),
+                        "the " + feature + "'s simulator",
+                        "the frame's rotation about A's normal rests on"}});
+  }
+
+  result.size = datum.size;
+  set_mmb_boundary(datum, result.mating_width, "width", "rotation allowance", result.mmb_size,
+                   result.shift_allowance, notes);
+  return result;
+}
+
+}  // namespace
+
+Eigen::Vector3d infer_material_side(const PlaneFit& a_least_squares,
+                                    const std::vector<const Eigen::Matrix3Xd*>& bore_points) {
+  const Eigen::Vector3d n = detail::checked_direction(a_least_squares.normal, "the normal of A");
+  // Points within A's own form of the plane (the mouths of the bores) cannot tell a side.
+  const double band = std::max(a_least_squares.residuals.form, 0.0);
+  std::size_t positive = 0, negative = 0;
+  for (const Eigen::Matrix3Xd* points : bore_points) {
+    if (points == nullptr) throw std::invalid_argument("infer_material_side: null point set");
+    const Eigen::VectorXd d = (points->colwise() - a_least_squares.point).transpose() * n;
+    positive += static_cast<std::size_t>((d.array() > band).count());
+    negative += static_cast<std::size_t>((d.array() < -band).count());
+  }
+  // Bores are cut into the material, so their points lie on its side of A. Burrs, chamfers or
+  // a bore entered from the far face may put a few on the other side: a clear majority of
+  // three to one decides; anything closer is reported rather than guessed.
+  const std::size_t total = positive + negative;
+  if (total == 0)
+    throw FitError("cannot infer the material side of datum A: no bore point lies off A by more "
+                   "than its form (" + detail::format_number(band, 4) +
+                   " mm); give material_side for A in the plan");
+  if (4 * std::max(positive, negative) < 3 * total)
+    throw FitError("cannot infer the material side of datum A: " + std::to_string(positive) +
+                   " bore points lie on one side of A and " + std::to_string(negative) +
+                   " on the other; give material_side for A in the plan");
+  return positive > negative ? n : Eigen::Vector3d(-n);
+}
+
+DatumFrameResult establish_datum_frame(const std::vector<PlanDatum>& datums,
+                                       const std::vector<PointCloud>& clouds,
+                                       const Eigen::Vector3d& a_material_side,
+                                       const DatumFrameOptions& options) {
+  if (datums.empty() || datums.size() != clouds.size() || datums.size() > 3)
+    throw std::invalid_argument("establish_datum_frame: " + std::to_string(datums.size()) +
+                                " datums and " + std::to_string(clouds.size()) +
+                                " point clouds; expected 1 to 3 of each, in the same order");
+  DatumFrameResult result;
+  const FitOptions& fit = options.fit;
+
+  // ---- primary: plane A
+  const PlanDatum& a_datum = datums[0];
+  if (a_datum.kind != FeatureKind::plane)
+    throw FitError(label_text(a_datum.label) + ": the primary datum must be a plane, not a " +
+                   std::string(feature_kind_name(a_datum.kind)));
+  result.a.label = a_datum.label;
+  result.a.association = options.a_association.value_or(a_datum.association);
+  result.a.material_side_inferred = !a_datum.material_side.has_value();
+  FitOptions plane_fit = fit;
+  plane_fit.fixed_direction.reset();
+  plane_fit.axis_hint.reset();
+  result.a.plane = for_datum(a_datum.label, [&] {
+    return associate_plane(clouds[0].points, result.a.association, a_material_side, plane_fit);
+  });
+  const bool zone_known = result.a.association == PlaneAssociation::tangent_minimax ||
+                          result.a.association == PlaneAssociation::minimum_zone;
+  result.a.flatness = zone_known ? result.a.plane.residuals.form
+                                 : for_datum(a_datum.label, [&] {
+                                     return fit_plane_minimum_zone(clouds[0].points, plane_fit)
+                                         .residuals.form;
+                                   });
+  const Eigen::Vector3d z = result.a.plane.normal;
+  // Stray-point screen of A on its least-squares plane's residuals (stray_points.hpp). A
+  // tangent plane rests on its highest points (residual 0); a minimax or minimum-zone plane is
+  // set by the extremes on both sides; a least-squares plane has no contacts.
+  result.a.stray_points = for_datum(a_datum.label, [&] {
+    if (clouds[0].size() <= options.stray_points.neighbours) return StrayPointReport{};
+    const PlaneFit least_squares = result.a.association == PlaneAssociation::least_squares
+                                       ? result.a.plane
+                                       : fit_plane_least_squares(clouds[0].points, plane_fit);
+    return find_stray_points(clouds[0].points, outward_plane_residuals(least_squares, z),
+                             options.stray_points);
+  });
+  {
+    std::vector<std::size_t> contacts;
+    const Eigen::VectorXd& r = result.a.plane.residuals.values;
+    const auto add = [&](ContactSide side) {
+      for (std::size_t i : suspect_contacts(result.a.stray_points, r, side))
+        if (std::find(contacts.begin(), contacts.end(), i) == contacts.end()) contacts.push_back(i);
+    };
+    if (result.a.association != PlaneAssociation::least_squares) add(ContactSide::highest);
+    if (result.a.association == PlaneAssociation::tangent_minimax ||
+        result.a.association == PlaneAssociation::minimum_zone)
+      add(ContactSide::lowest);
+    note_stray_points(result.notes, a_datum.label, result.a.stray_points,
+                      {{contacts,
+                        "the " + std::string(association_name(result.a.association)) +
+                            " datum plane",
+                        "the frame's orientation and height rest on"}});
+  }
+
+  // ---- secondary: bore or pin B, locating the origin
+  Eigen::Vector3d origin = result.a.plane.point.dot(z) * z;  // measurement origin projected on A
+  if (datums.size() >= 2) {
+    const PlanDatum& b_datum = datums[1];
+    if (b_datum.kind == FeatureKind::plane)
+      throw FitError(label_text(b_datum.label) +
+                     ": a secondary datum plane is not supported; B must be a bore or a pin");
+    if (b_datum.kind == FeatureKind::slot || b_datum.kind == FeatureKind::tab)
+      throw FitError(label_text(b_datum.label) + ": a " +
+                     std::string(feature_kind_name(b_datum.kind)) +
+                     " cannot be datum B, which locates the origin with its axis; B must be a "
+                     "bore or a pin");
+    result.b = for_datum(b_datum.label, [&] {
+      return associate_size_datum(b_datum, clouds[1], result.a.plane, fit, options.stray_points,
+                                  result.notes);
+    });
+    origin = result.b->axis_on_a;
+    result.translation_fixed = true;
+  } else {
+    result.notes.push_back("no datum B: the origin is the measurement origin projected onto " +
+                           label_text(a_datum.label) + "; translation in A is not constrained");
+  }
+
+  // ---- tertiary: C, clocking the rotation about z
+  Eigen::Vector3d x;
+  if (datums.size() == 3) {
+    const PlanDatum& c_datum = datums[2];
+    if (c_datum.kind == FeatureKind::plane) {
+      if (!c_datum.outward_normal || !(c_datum.outward_normal->norm() > 0.0))
+        throw FitError(label_text(c_datum.label) +
+                       ": the basic direction of its outward normal is needed to clock the frame");
+      const std::optional<Eigen::Vector3d> b_axis =
+          result.b ? std::optional<Eigen::Vector3d>(result.b->axis_on_a) : std::nullopt;
+      result.c_plane = for_datum(c_datum.label, [&] {
+        return associate_clocking_plane(c_datum, clouds[2], result.a.plane, b_axis, fit,
+                                        options.stray_points, result.notes);
+      });
+      x = clocked_x(in_plane_unit(result.c_plane->plane.normal, z), *c_datum.outward_normal, z);
+      result.notes.push_back(
+          label_text(c_datum.label) +
+          " (plane): tangent least-squares plane perpendicular to A; the frame is turned so its "
+          "outward normal has its basic direction");
+    } else if (c_datum.kind == FeatureKind::slot || c_datum.kind == FeatureKind::tab) {
+      const std::string kind(feature_kind_name(c_datum.kind));
+      if (!c_datum.basic_location || !(c_datum.basic_location->norm() > 0.0))
+        throw FitError(label_text(c_datum.label) +
+                       ": its basic location (away from B's axis) is needed to clock the frame");
+      result.c_width = for_datum(c_datum.label, [&] {
+        return associate_clocking_width(c_datum, clouds[2], result.a.plane, origin, fit,
+                                        options.stray_points, result.notes);
+      });
+      x = clocked_x(in_plane_unit(result.c_width->centre_direction, z), *c_datum.basic_location,
+                    z);
+      // ASME Y14.5-2018: a tertiary datum feature of size at RMB, its simulator located by the
+      // datum axis B (from memory for the clause).
+      result.notes.push_back(
+          label_text(c_datum.label) + " (" + kind + "): its simulator, two parallel planes "
+          "perpendicular to A about a centre plane through B's axis, " +
+          (c_datum.kind == FeatureKind::slot ? "expands" : "contracts") +
+          " to the " + kind + " (related mating width); the frame is turned so the centre plane "
+          "runs from B in the direction of C's basic location");
+    } else {
+      if (!c_datum.basic_location || !(c_datum.basic_location->norm() > 0.0))
+        throw FitError(label_text(c_datum.label) +
+                       ": its basic location (away from B's axis) is needed to clock the frame");
+      result.c_feature = for_datum(c_datum.label, [&] {
+        return associate_size_datum(c_datum, clouds[2], result.a.plane, fit, options.stray_points,
+                                    result.notes);
+      });
+      const Eigen::Vector3d towards_c = result.c_feature->axis_on_a - origin;
+      const Eigen::Vector3d in_a = towards_c - towards_c.dot(z) * z;
+      // Within the envelopes' own form of each other the direction from B to C is not fixed by
+      // the points; below 1e-9 of the data's size it is rounding.
+      const double b_form = result.b ? result.b->related_envelope.residuals.form : 0.0;
+      const double band =
+          std::max(b_form + result.c_feature->related_envelope.residuals.form,
+                   1e-9 * std::max(1.0, detail::data_scale(clouds[2].points,
+                                                          detail::centroid(clouds[2].points))));
+      if (in_a.norm() <= band)
+        throw FitError(label_text(c_datum.label) + ": its axis coincides with the axis of " +
+                       (result.b ? label_text(result.b->label) : std::string("the origin")) +
+                       " (" + detail::format_number(in_a.norm(), 6) +
+                       " mm apart on A), so it cannot clock the frame");
+      x = clocked_x(in_a.normalized(), *c_datum.basic_location, z);
+      // Common practice for a tertiary datum feature of size at RMB: it removes the rotation
+      // about the datum axis only; its distance from B is the part's, not the simulator's.
+      result.notes.push_back(
+          label_text(c_datum.label) + " (" + std::string(feature_kind_name(c_datum.kind)) +
+          "): clocks the frame only; the frame is turned so its axis lies in the direction of "
+          "its basic location from B, its distance from B is not used");
+    }
+    result.rotation_fixed = true;
+  } else {
+    const Eigen::Vector3d measurement_x = Eigen::Vector3d::UnitX();
+    const bool use_y = std::abs(measurement_x.dot(z)) > nearly_parallel_cosine;
+    x = in_plane_unit(use_y ? Eigen::Vector3d::UnitY() : measurement_x, z);
+    result.notes.push_back(std::string("no datum C: x is the measurement ") +
+                           (use_y ? "y" : "x") +
+                           " axis projected onto A; rotation about A's normal is not constrained");
+  }
+
+  result.frame.origin = origin;
+  result.frame.rotation.row(0) = x.transpose();
+  result.frame.rotation.row(1) = z.cross(x).transpose();
+  result.frame.rotation.row(2) = z.transpose();
+  return result;
+}
+
+}  // namespace cylzone

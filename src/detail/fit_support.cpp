@@ -1,0 +1,313 @@
+#include "detail/fit_support.hpp"
+
+#include <Eigen/Eigenvalues>
+#include <Eigen/Geometry>
+#include <algorithm>
+#include <array>
+#include <cmath>
+#include <cstdio>
+#include <limits>
+#include <stdexcept>
+#include <vector>
+
+#include "cylzone/core/errors.hpp"
+
+namespace cylzone::detail {
+
+Eigen::Vector3d centroid(const Eigen::Matrix3Xd& points) {
+  const Eigen::Index n = points.cols();
+  if (n == 0) throw FitError("no points to fit");
+  // Four interleaved partial sums: independent addition chains (several times faster than one)
+  // and a fixed order of additions, hence the same result on every run.
+  Eigen::Vector3d lane[4] = {Eigen::Vector3d::Zero(), Eigen::Vector3d::Zero(),
+                             Eigen::Vector3d::Zero(), Eigen::Vector3d::Zero()};
+  Eigen::Index i = 0;
+  for (; i + 4 <= n; i += 4)
+    for (int k = 0; k < 4; ++k) lane[k] += points.col(i + k);
+  for (; i < n; ++i) lane[0] += points.col(i);
+  return ((lane[0] + lane[1]) + (lane[2] + lane[3])) / static_cast<double>(n);
+}
+
+double data_scale(const Eigen::Matrix3Xd& points, const Eigen::Vector3d& centre) {
+  if (points.cols() == 0) return 0.0;
+  return std::sqrt((points.colwise() - centre).colwise().squaredNorm().maxCoeff());
+}
+
+double planar_scale(const Eigen::Matrix2Xd& uv) {
+  if (uv.cols() == 0) return 0.0;
+  // Evaluate the mean once: inside the column-wise expression Eigen would recompute it per column.
+  const Eigen::Vector2d mean = uv.rowwise().mean();
+  return (uv.colwise() - mean).colwise().norm().maxCoeff();
+}
+
+Eigen::Matrix3d basis_from_direction(const Eigen::Vector3d& direction) {
+  const Eigen::Vector3d w = direction.normalized();
+  // Start from the coordinate axis least parallel to w, so u is well conditioned.
+  const Eigen::Vector3d seed =
+      std::abs(w.x()) <= std::abs(w.y()) ? Eigen::Vector3d::UnitX() : Eigen::Vector3d::UnitY();
+  const Eigen::Vector3d u = (seed - seed.dot(w) * w).normalized();
+  const Eigen::Vector3d v = w.cross(u);
+  Eigen::Matrix3d basis;
+  basis << u, v, w;
+  return basis;
+}
+
+Eigen::Matrix3Xd local_coordinates(const Eigen::Matrix3Xd& points, const Eigen::Vector3d& origin,
+                                   const Eigen::Matrix3d& basis) {
+  return basis.transpose() * (points.colwise() - origin);
+}
+
+Eigen::Matrix2Xd planar_coordinates(const Eigen::Matrix3Xd& points, const Eigen::Vector3d& origin,
+                                    const Eigen::Matrix3d& basis) {
+  return basis.leftCols<2>().transpose() * (points.colwise() - origin);
+}
+
+Eigen::Vector3d canonical_direction(const Eigen::Vector3d& direction,
+                                    const std::optional<Eigen::Vector3d>& hint) {
+  Eigen::Vector3d d = direction.normalized();
+  constexpr double tiny = 1e-12;
+  if (hint) {
+    const double s = d.dot(*hint);
+    if (std::abs(s) > tiny * hint->norm()) return s < 0 ? Eigen::Vector3d(-d) : d;
+  }
+  for (int k : {2, 1, 0}) {
+    if (std::abs(d(k)) > tiny) return d(k) < 0 ? Eigen::Vector3d(-d) : d;
+  }
+  return d;
+}
+
+Axis canonical_axis(const Eigen::Vector3d& point_on_axis, const Eigen::Vector3d& direction,
+                    const Eigen::Vector3d& centroid, const std::optional<Eigen::Vector3d>& hint) {
+  Axis axis;
+  axis.direction = canonical_direction(direction, hint);
+  axis.point = point_on_axis + (centroid - point_on_axis).dot(axis.direction) * axis.direction;
+  return axis;
+}
+
+std::pair<double, double> axial_extent(const Eigen::Matrix3Xd& points, const Axis& axis) {
+  if (points.cols() == 0) return {0.0, 0.0};
+  const Eigen::RowVectorXd t = axis.direction.transpose() * (points.colwise() - axis.point);
+  return {t.minCoeff(), t.maxCoeff()};
+}
+
+Residuals make_residuals(Eigen::VectorXd values) {
+  Residuals r;
+  if (values.size() > 0) {
+    r.rms = std::sqrt(values.squaredNorm() / static_cast<double>(values.size()));
+    r.form = values.maxCoeff() - values.minCoeff();
+  }
+  r.values = std::move(values);
+  return r;
+}
+
+namespace {
+constexpr double two_pi = 6.283185307179586476925286766559;
+constexpr std::size_t coverage_buckets = std::size_t(1) << 15;
+
+// Exact inverse of ArcCoverage's diamond angle: the direction it stands for, then its true
+// angle in [0, 2 pi] (a pseudo-angle rounded up to 4 is the direction 2 pi).
+double true_angle(double diamond) {
+  if (diamond <= 1.0) return std::atan2(diamond, 1.0 - diamond);  // [0, pi/2]
+  if (diamond < 3.0) {                                             // (pi/2, 3 pi/2)
+    const double y = 2.0 - diamond;
+    const double a = std::atan2(y, -(1.0 - std::abs(y)));
+    return a < 0.0 ? a + two_pi : a;
+  }
+  const double y = diamond - 4.0;  // [3, 4] -> (3 pi/2, 2 pi], 4 itself (rounded) -> 2 pi
+  return std::atan2(y, 1.0 + y) + two_pi;
+}
+}  // namespace
+
+double polar_angle(double x, double y) noexcept {
+  constexpr double pi = 3.14159265358979323846;
+  constexpr double tan_pi_8 = 0.41421356237309504880;  // sqrt(2) - 1
+  const double ax = std::abs(x), ay = std::abs(y);
+  const double big = std::max(ax, ay);
+  if (big == 0.0) return 0.0;
+  const double t = std::min(ax, ay) / big;  // tan of the angle within the octant, in [0, 1]
+  // atan(t) = pi/4 + atan((t - 1)/(t + 1)) brings the argument to |s| <= tan(pi/8).
+  const bool upper = t > tan_pi_8;
+  const double s = upper ? (t - 1.0) / (t + 1.0) : t;
+  const double w = s * s;
+  // atan(s) = s sum_k (-1)^k w^k / (2k + 1); alternating, so the remainder after k = 17 is below
+  // w^18 / 37 <= 4.5e-16 (relative) for w <= tan^2(pi/8) = 0.1716.
+  static constexpr int terms = 18;
+  static constexpr std::array<double, terms> coefficient = [] {
+    std::array<double, terms> c{};
+    for (int k = 0; k < terms; ++k) c[k] = (k % 2 == 0 ? 1.0 : -1.0) / (2 * k + 1);
+    return c;
+  }();
+  double series = coefficient[terms - 1];
+  for (int k = terms - 2; k >= 0; --k) series = coefficient[k] + w * series;
+  double a = s * series + (upper ? pi / 4.0 : 0.0);
+  if (ay > ax) a = pi / 2.0 - a;
+  if (x < 0.0) a = pi - a;
+  if (y < 0.0) a = 2.0 * pi - a;
+  return a;
+}
+
+ArcCoverage::ArcCoverage(std::size_t expected_points)
+    : exact_(expected_points <= coverage_buckets) {
+  const std::size_t buckets = exact_ ? std::max<std::size_t>(expected_points, 1) : coverage_buckets;
+  per_unit_ = static_cast<double>(buckets) / (exact_ ? two_pi : 4.0);
+  // Interleaved (low, high) pairs: one cache line per update.
+  bounds_.resize(2 * buckets);
+  for (std::size_t b = 0; b < buckets; ++b) {
+    bounds_[2 * b] = std::numeric_limits<double>::infinity();
+    bounds_[2 * b + 1] = -std::numeric_limits<double>::infinity();
+  }
+}
+
+void ArcCoverage::merge(const ArcCoverage& other) {
+  if (other.bounds_.size() != bounds_.size() || other.exact_ != exact_)
+    throw std::invalid_argument("ArcCoverage::merge: different bucket layouts");
+  for (std::size_t k = 0; k < bounds_.size(); k += 2) {
+    bounds_[k] = std::min(bounds_[k], other.bounds_[k]);
+    bounds_[k + 1] = std::max(bounds_[k + 1], other.bounds_[k + 1]);
+  }
+  count_ += other.count_;
+}
+
+double ArcCoverage::degrees() const {
+  if (count_ < 2) return 0.0;
+  // Gaps between neighbouring non-empty buckets (and the wrap-around gap), in stored units.
+  const double period = exact_ ? two_pi : 4.0;
+  double first = 0.0, previous = 0.0, largest_stored = 0.0;
+  bool seen = false;
+  for (std::size_t k = 0; k < bounds_.size(); k += 2) {
+    if (!(bounds_[k] <= bounds_[k + 1])) continue;  // empty bucket
+    if (!seen) {
+      first = bounds_[k];
+      seen = true;
+    } else {
+      largest_stored = std::max(largest_stored, bounds_[k] - previous);
+    }
+    previous = bounds_[k + 1];
+  }
+  const double wrap_stored = first + period - previous;
+  largest_stored = std::max(largest_stored, wrap_stored);
+  if (exact_) return (two_pi - largest_stored) * 360.0 / two_pi;
+  // Diamond angles: a true gap lies between 1 and 2 times its pseudo-gap (the slope of the true
+  // angle against the pseudo-angle is within [1, 2]), so only gaps of at least half the largest
+  // pseudo-gap can be the largest true gap; only their ends are converted.
+  const double candidate = 0.5 * largest_stored;
+  double largest = 0.0;
+  seen = false;
+  for (std::size_t k = 0; k < bounds_.size(); k += 2) {
+    if (!(bounds_[k] <= bounds_[k + 1])) continue;
+    if (seen && bounds_[k] - previous >= candidate)
+      largest = std::max(largest, true_angle(bounds_[k]) - true_angle(previous));
+    seen = true;
+    previous = bounds_[k + 1];
+  }
+  if (wrap_stored >= candidate)
+    largest = std::max(largest, true_angle(first) + two_pi - true_angle(previous));
+  return (two_pi - largest) * 360.0 / two_pi;
+}
+
+double angular_coverage_deg(const Eigen::Matrix3Xd& points, const Eigen::Vector3d& centre,
+                            const Eigen::Matrix3d& basis) {
+  ArcCoverage coverage(static_cast<std::size_t>(points.cols()));
+  const Eigen::Vector3d u = basis.col(0), v = basis.col(1);
+  for (Eigen::Index i = 0; i < points.cols(); ++i) {
+    const Eigen::Vector3d d = points.col(i) - centre;
+    coverage.add(d.dot(u), d.dot(v));
+  }
+  return coverage.degrees();
+}
+
+void require_point_count(std::size_t n, std::size_t needed, const char* element) {
+  if (n < needed)
+    throw FitError(std::string("a ") + element + " needs at least " + std::to_string(needed) +
+                   " points, got " + std::to_string(n));
+}
+
+Eigen::MatrixXd covariance_from_normal_matrix(const Eigen::MatrixXd& jtj, double ssr,
+                                              std::size_t n) {
+  const auto p = static_cast<std::size_t>(jtj.rows());
+  const double sigma2 = n > p ? ssr / static_cast<double>(n - p) : 0.0;
+  // jtj is symmetric positive definite for a non-degenerate fit; LDLT is stable and cheap.
+  const Eigen::MatrixXd inverse =
+      jtj.ldlt().solve(Eigen::MatrixXd::Identity(jtj.rows(), jtj.cols()));
+  return sigma2 * inverse;
+}
+
+void warn_on_coverage(FitSummary& summary, double coverage_deg, const FitOptions& options) {
+  if (coverage_deg < options.coverage_warning_deg)
+    summary.warnings.push_back("points cover only " + format_number(coverage_deg, 1) +
+                               " degrees of arc; radius and centre are poorly determined");
+}
+
+std::string format_number(double value, int decimals) {
+  char buffer[64];
+  std::snprintf(buffer, sizeof buffer, "%.*f", decimals, value);
+  return buffer;
+}
+
+Eigen::Matrix3d scatter_matrix(const Eigen::Matrix3Xd& points, const Eigen::Vector3d& centre) {
+  // Six independent sums of the upper triangle; one pass, no centred copy of the points.
+  double xx = 0, xy = 0, xz = 0, yy = 0, yz = 0, zz = 0;
+  for (Eigen::Index i = 0; i < points.cols(); ++i) {
+    const double x = points(0, i) - centre.x();
+    const double y = points(1, i) - centre.y();
+    const double z = points(2, i) - centre.z();
+    xx += x * x;
+    xy += x * y;
+    xz += x * z;
+    yy += y * y;
+    yz += y * z;
+    zz += z * z;
+  }
+  Eigen::Matrix3d s;
+  s << xx, xy, xz, xy, yy, yz, xz, yz, zz;
+  return s;
+}
+
+PrincipalAxes principal_axes(const Eigen::Matrix3Xd& points, const Eigen::Vector3d& centre) {
+  PrincipalAxes axes;
+  const Eigen::SelfAdjointEigenSolver<Eigen::Matrix3d> eigen(scatter_matrix(points, centre));
+  axes.directions = eigen.eigenvectors();
+  // The eigenvalues resolve a spread only down to ~sqrt(eps) of the largest; the eigenvectors
+  // are accurate to ~eps, so the spreads are measured by projecting the points on them (an
+  // exactly planar or collinear set then shows rounding-level spread, as it must).
+  Eigen::Vector3d sum2 = Eigen::Vector3d::Zero();
+  double scale2 = 0.0;
+  const Eigen::Matrix3d dt = axes.directions.transpose();
+  for (Eigen::Index i = 0; i < points.cols(); ++i) {
+    const Eigen::Vector3d d = points.col(i) - centre;
+    sum2 += (dt * d).cwiseAbs2();
+    scale2 = std::max(scale2, d.squaredNorm());
+  }
+  const double n = static_cast<double>(std::max<Eigen::Index>(points.cols(), 1));
+  axes.rms = (sum2 / n).cwiseSqrt();
+  axes.scale = std::sqrt(scale2);
+  return axes;
+}
+
+double require_distinct_points(const Eigen::Matrix3Xd& points, const Eigen::Vector3d& centroid,
+                               const char* element) {
+  const double magnitude = std::max(1.0, centroid.cwiseAbs().maxCoeff());
+  const double scale = data_scale(points, centroid);
+  if (scale <= 1e-12 * magnitude)
+    throw FitError("all " + std::to_string(points.cols()) + " points coincide; a " + element +
+                   " needs distinct points");
+  return scale;
+}
+
+Eigen::Vector3d checked_direction(const Eigen::Vector3d& direction, const char* what) {
+  const double norm = direction.norm();
+  if (!(norm > 0.0) || !std::isfinite(norm))
+    throw FitError(std::string(what) + " must be a finite, non-zero vector");
+  return direction / norm;
+}
+
+std::string iteration_message(FitStatus status, int iterations, const FitOptions& options) {
+  if (status == FitStatus::converged)
+    return "converged in " + std::to_string(iterations) +
+           (iterations == 1 ? " iteration" : " iterations");
+  return "stopped at the iteration limit (" + std::to_string(options.max_iterations) +
+         "); the element is the best found, not proven optimal";
+}
+
+
+}  // namespace cylzone::detail

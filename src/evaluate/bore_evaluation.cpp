@@ -1,0 +1,698 @@
+// Evaluation of one bore in the datum reference frame. docs/evaluation.md defines every figure
+// and gives its source; the comments here say which definition a step implements.
+
+#include "cylzone/evaluate/bore_evaluation.hpp"
+
+#include <Eigen/Geometry>
+#include <algorithm>
+#include <cmath>
+#include <limits>
+#include <numeric>
+#include <string>
+#include <utility>
+#include <vector>
+
+#include "cylzone/core/errors.hpp"
+#include "cylzone/fit/fit_line.hpp"
+#include "cylzone/evaluate/material_condition.hpp"
+#include "detail/fit_support.hpp"
+#include "prepare/detail/stray_point_message.hpp"
+
+namespace cylzone {
+namespace {
+
+constexpr double pi = 3.14159265358979323846;
+/// Verdicts compare value <= allowed with this slack (mm) to absorb rounding only.
+constexpr double verdict_slack = 1e-12;
+/// More probed levels than this, or levels thicker than the section gap, mean a scanned cloud.
+constexpr std::size_t max_probed_levels = 50;
+/// Heights within this distance (mm) of the range's ends count as inside it.
+constexpr double range_slack = 1e-9;
+
+std::string mm(double value) { return detail::format_number(value, 4); }
+
+/// Runs `f`, prefixing any FitError with the bore's id ("bore P3: ...").
+template <class F>
+auto for_bore(const PlanBore& bore, F&& f) -> decltype(f()) {
+  try {
+    return f();
+  } catch (const FitError& error) {
+    throw FitError("bore " + bore.id + ": " + error.what());
+  }
+}
+
+void take_warnings(std::vector<std::string>& out, const char* what, const FitSummary& summary) {
+  for (const std::string& w : summary.warnings) out.push_back(std::string(what) + ": " + w);
+  if (summary.status == FitStatus::iteration_limit)
+    out.push_back(std::string(what) +
+                  ": stopped at the iteration limit; the result is the best found, not proven "
+                  "optimal");
+}
+
+/// Rotation about z by `angle` (radians).
+Eigen::Matrix3d rotation_about_z(double angle) {
+  return Eigen::AngleAxisd(angle, Eigen::Vector3d::UnitZ()).toRotationMatrix();
+}
+
+/// A point in zone coordinates (offset, height) back in the datum frame.
+Eigen::Vector3d zone_to_frame(const ZoneFrame& zone, const AxisDeviation& d) {
+  return zone.origin + zone.basis * Eigen::Vector3d(d.offset.x(), d.offset.y(), d.height);
+}
+
+AxisDeviation frame_to_zone(const ZoneFrame& zone, const Eigen::Vector3d& p) {
+  const Eigen::Vector3d local = zone.basis.transpose() * (p - zone.origin);
+  return {local.z(), local.head<2>()};
+}
+
+/// The toleranced axis as the position evaluation sees it: a straight line, or the derived
+/// median line's points (section centres) within the range.
+struct AxisGeometry {
+  bool median = false;
+  StraightAxis straight;
+  std::vector<AxisDeviation> centres;
+};
+
+/// Position over [bottom, top] (ASME Y14.5-2018 7.2 / ISO 1101:2017 18.x, from memory for the
+/// clause numbers): the whole axis must lie in the cylinder of diameter `allowed` about the
+/// true-position axis, so value = 2 x the largest radial deviation over the range. For a
+/// straight axis it is reached at an end (convexity); for the median line at a section centre.
+PositionResult evaluate_position(const PlanTolerance& spec, double top, double bottom,
+                                 bool projected, double bonus, const AxisGeometry& axis) {
+  PositionResult r;
+  r.spec = spec;
+  r.range_top = top;
+  r.range_bottom = bottom;
+  r.projected = projected;
+  r.bonus = bonus;
+  r.allowed = spec.tolerance + bonus;
+  // The zone used for "where does it leave" is the one the verdict uses, slack included.
+  const double zone = r.allowed + verdict_slack;
+  if (!axis.median) {
+    r.value = position_over_range(axis.straight, top, bottom);
+    r.top = axis.straight.at(top);
+    r.bottom = axis.straight.at(bottom);
+    r.worst = worst_end(axis.straight, top, bottom);
+    r.leaves_zone_at = first_height_outside(axis.straight, top, bottom, zone);
+  } else {
+    std::vector<AxisDeviation> c = axis.centres;
+    std::sort(c.begin(), c.end(),
+              [](const AxisDeviation& a, const AxisDeviation& b) { return a.height > b.height; });
+    r.section_centres = c;
+    r.value = position_of_points(c);
+    r.top = c.front();
+    r.bottom = c.back();
+    r.worst = *std::max_element(c.begin(), c.end(), [](const AxisDeviation& a,
+                                                       const AxisDeviation& b) {
+      return a.radial() < b.radial();
+    });
+    // The median line is known at the section centres; between two of them it is taken as the
+    // straight segment joining them, so the height where it leaves is interpolated.
+    const double r2 = 0.25 * zone * zone;
+    for (std::size_t k = 0; k < c.size(); ++k) {
+      if (c[k].offset.squaredNorm() <= r2) continue;
+      if (k == 0 || c[k - 1].height == c[k].height) {
+        r.leaves_zone_at = c[k].height;
+      } else {
+        StraightAxis segment;
+        segment.slope = (c[k].offset - c[k - 1].offset) / (c[k].height - c[k - 1].height);
+        segment.at_zero = c[k].offset - c[k].height * segment.slope;
+        r.leaves_zone_at = first_height_outside(segment, c[k - 1].height, c[k].height, zone);
+      }
+      break;
+    }
+  }
+  r.verdict = r.value <= r.allowed + verdict_slack ? Verdict::conforms : Verdict::does_not_conform;
+  return r;
+}
+
+/// Section heights along the least-squares axis. Probed levels (CMM circles, on-machine probe
+/// rings) are used as they are; a scanned cloud without distinct levels is cut into slabs.
+struct SectionPlan {
+  std::vector<double> heights;
+  double half_thickness = 0.0;
+  bool slabs = false;
+};
+
+SectionPlan plan_sections(const Eigen::Matrix3Xd& points, const Axis& axis,
+                          const std::vector<double>& sorted_heights, double gap) {
+  SectionPlan plan;
+  std::vector<double> levels = find_section_levels(points, axis, gap);
+  std::sort(levels.begin(), levels.end());
+  bool scanned = levels.size() > max_probed_levels || levels.empty();
+  double largest_deviation = 0.0;
+  if (!scanned) {
+    // Span of every level: each point belongs to its nearest level.
+    std::vector<double> lo(levels.size(), std::numeric_limits<double>::infinity());
+    std::vector<double> hi(levels.size(), -std::numeric_limits<double>::infinity());
+    for (double t : sorted_heights) {
+      auto it = std::lower_bound(levels.begin(), levels.end(), t);
+      std::size_t k = static_cast<std::size_t>(it - levels.begin());
+      if (k == levels.size() || (k > 0 && t - levels[k - 1] < *it - t)) --k;
+      lo[k] = std::min(lo[k], t);
+      hi[k] = std::max(hi[k], t);
+      largest_deviation = std::max(largest_deviation, std::abs(t - levels[k]));
+    }
+    for (std::size_t k = 0; k < levels.size(); ++k)
+      if (hi[k] - lo[k] > gap) scanned = true;
+  }
+  if (!scanned) {
+    plan.heights = levels;
+    // Every level is at most `gap` thick and more than `gap` from the next one, so this
+    // thickness takes all points of a level and none of its neighbours.
+    plan.half_thickness = 0.5 * (gap + largest_deviation);
+    return plan;
+  }
+  plan.slabs = true;
+  const double t0 = sorted_heights.front(), t1 = sorted_heights.back();
+  const std::size_t n = std::max<std::size_t>(1, static_cast<std::size_t>(std::ceil((t1 - t0) / gap)));
+  const double thickness = (t1 - t0) / static_cast<double>(n);
+  for (std::size_t k = 0; k < n; ++k) plan.heights.push_back(t0 + (k + 0.5) * thickness);
+  plan.half_thickness = 0.5 * thickness;
+  return plan;
+}
+
+struct TwoPointSizes {
+  double min = 0.0;
+  double max = 0.0;
+  std::size_t count = 0;
+};
+
+/// Two-point (actual local) sizes (ISO 14405-1:2016 two-point size; ASME Y14.5-2018 actual
+/// local size, from memory for the clause numbers): in each section every point is paired with
+/// the point nearest the opposite direction about the section's least-squares centre, accepted
+/// when that direction is matched within half the mean angular spacing; the size is the
+/// distance of the two points in the section plane (the plane perpendicular to the section
+/// axis, so slabs of a scanned cloud do not add their thickness to the size).
+TwoPointSizes two_point_sizes(const Eigen::Matrix3Xd& points, const std::vector<double>& heights,
+                              const std::vector<Eigen::Index>& order,
+                              const std::vector<SectionCircle>& sections, const Axis& axis,
+                              double half_thickness) {
+  TwoPointSizes out;
+  out.min = std::numeric_limits<double>::infinity();
+  out.max = 0.0;
+  const Eigen::Matrix3d basis = detail::basis_from_direction(axis.direction);
+  std::vector<std::pair<Eigen::Index, Eigen::Index>> pairs;
+  for (const SectionCircle& section : sections) {
+    // Points of the section: a contiguous run of the height-sorted order.
+    const auto by_height = [&](Eigen::Index i, double h) { return heights[i] < h; };
+    auto first = std::lower_bound(order.begin(), order.end(), section.height - half_thickness,
+                                  by_height);
+    auto last = std::lower_bound(first, order.end(),
+                                 std::nextafter(section.height + half_thickness,
+                                                std::numeric_limits<double>::infinity()),
+                                 by_height);
+    const std::size_t n = static_cast<std::size_t>(last - first);
+    if (n < 2) continue;
+    Eigen::Matrix2Xd uv(2, static_cast<Eigen::Index>(n));
+    std::vector<double> angle(n);
+    for (std::size_t k = 0; k < n; ++k) {
+      uv.col(static_cast<Eigen::Index>(k)) =
+          basis.leftCols<2>().transpose() * (points.col(first[k]) - section.circle.centre);
+      angle[k] = detail::polar_angle(uv(0, k), uv(1, k));
+    }
+    std::vector<std::size_t> by_angle(n);
+    std::iota(by_angle.begin(), by_angle.end(), std::size_t{0});
+    std::sort(by_angle.begin(), by_angle.end(),
+              [&](std::size_t a, std::size_t b) { return angle[a] < angle[b]; });
+    std::vector<double> sorted(n);
+    for (std::size_t k = 0; k < n; ++k) sorted[k] = angle[by_angle[k]];
+    const double acceptance = 0.5 * (2.0 * pi / static_cast<double>(n)) * (1.0 + 1e-9);
+    pairs.clear();
+    for (std::size_t i = 0; i < n; ++i) {
+      double target = angle[i] + pi;
+      if (target >= 2.0 * pi) target -= 2.0 * pi;
+      const std::size_t at =
+          static_cast<std::size_t>(std::lower_bound(sorted.begin(), sorted.end(), target) -
+                                   sorted.begin());
+      std::size_t best = n;
+      double best_gap = std::numeric_limits<double>::infinity();
+      for (std::size_t candidate : {at % n, (at + n - 1) % n}) {
+        double gap = std::abs(sorted[candidate] - target);
+        gap = std::min(gap, 2.0 * pi - gap);
+        if (gap < best_gap) {
+          best_gap = gap;
+          best = by_angle[candidate];
+        }
+      }
+      if (best == n || best == i || best_gap > acceptance) continue;
+      pairs.emplace_back(std::min<Eigen::Index>(i, best), std::max<Eigen::Index>(i, best));
+    }
+    std::sort(pairs.begin(), pairs.end());
+    pairs.erase(std::unique(pairs.begin(), pairs.end()), pairs.end());
+    for (const auto& [i, j] : pairs) {
+      const double size = (uv.col(i) - uv.col(j)).norm();
+      out.min = std::min(out.min, size);
+      out.max = std::max(out.max, size);
+    }
+    out.count += pairs.size();
+  }
+  if (out.count == 0) out.min = 0.0;
+  return out;
+}
+
+/// The nominal direction, unit, pointing out of the material (+z side of A) so that heights
+/// inside the material are negative.
+Eigen::Vector3d nominal_direction(const PlanBore& bore) {
+  const double length = bore.nominal_direction.norm();
+  if (!(length > 0.0) || !bore.nominal_direction.allFinite())
+    throw FitError("bore " + bore.id + ": the nominal direction has zero length");
+  Eigen::Vector3d w = bore.nominal_direction / length;
+  if (std::abs(w.z()) < 1e-6)
+    throw FitError("bore " + bore.id +
+                   ": the nominal direction is parallel to datum plane A; a zone relative to A "
+                   "cannot be evaluated along it");
+  if (w.z() < 0.0) w = -w;
+  return w;
+}
+
+void check_limits(const PlanBore& bore, const PlanTolerance& spec) {
+  if (spec.condition != MaterialCondition::rfs && !bore.size)
+    throw InputError("", bore.where.line,
+                     "a tolerance at " + std::string(condition_name(spec.condition)) +
+                         " needs the bore's size limits",
+                     spec.where.key.empty() ? bore.where.key : spec.where.key);
+}
+
+/// The bore's own depth range in heights: the plan's depth (frame z / w_z), else the probed
+/// extent. Throws FitError when it is empty.
+std::pair<double, double> own_range(const PlanBore& bore, const BoreResult& result) {
+  const double wz = result.zone.basis(2, 2);
+  const double top = bore.depth_top ? *bore.depth_top / wz : result.probed_top;
+  const double bottom = bore.depth_bottom ? *bore.depth_bottom / wz : result.probed_bottom;
+  if (!(top > bottom))
+    throw FitError("bore " + bore.id + ": the depth range is empty (top " + mm(top) + ", bottom " +
+                   mm(bottom) + ")");
+  return {top, bottom};
+}
+
+/// Everything that depends on the frame: the toleranced axis (2.) in the zone, tilt (10.),
+/// position (5.) and perpendicularity (6.). Needs the fits, the sections, the zone and the
+/// probed extent in `result`; used by evaluate_bore and moved_to_frame.
+void evaluate_in_zone(BoreResult& result, const PlanBore& bore, const FitOptions& fit) {
+  const Eigen::Vector3d w = result.zone.basis.col(2);
+  const auto [own_top, own_bottom] = own_range(bore, result);
+  AxisGeometry geometry;
+  std::vector<AxisDeviation> all_centres;
+  switch (bore.axis) {
+    case BoreAxisMethod::mating_envelope:
+      result.axis = result.mating_envelope.axis;
+      break;
+    case BoreAxisMethod::least_squares:
+      result.axis = result.least_squares.axis;
+      break;
+    case BoreAxisMethod::median_line: {
+      // Derived median line: the section centres (ISO 1101:2017, ISO 17450-3); its
+      // least-squares line is reported as the axis and gives the tilt.
+      if (result.sections.size() < 2)
+        throw FitError("bore " + bore.id + ": the median line needs at least 2 sections, found " +
+                       std::to_string(result.sections.size()));
+      Eigen::Matrix3Xd centres(3, static_cast<Eigen::Index>(result.sections.size()));
+      for (std::size_t k = 0; k < result.sections.size(); ++k) {
+        centres.col(static_cast<Eigen::Index>(k)) = result.sections[k].circle.centre;
+        all_centres.push_back(frame_to_zone(result.zone, result.sections[k].circle.centre));
+      }
+      FitOptions line_options = fit;
+      line_options.fixed_direction.reset();
+      line_options.axis_hint = w;
+      result.axis = for_bore(bore, [&] { return fit_line_least_squares(centres, line_options); }).axis;
+      geometry.median = true;
+      break;
+    }
+  }
+  result.axis_in_zone = for_bore(bore, [&] { return StraightAxis::from_axis(result.axis, result.zone); });
+  geometry.straight = result.axis_in_zone;
+  result.tilt.angle_rad = result.axis_in_zone.tilt_rad();
+  result.tilt.azimuth_deg = result.axis_in_zone.tilt_azimuth_deg();
+
+  const auto centres_in = [&](double top, double bottom) {
+    std::vector<AxisDeviation> in;
+    for (const AxisDeviation& c : all_centres)
+      if (c.height <= top + range_slack && c.height >= bottom - range_slack) in.push_back(c);
+    if (geometry.median && in.empty())
+      throw FitError("bore " + bore.id + ": no section of the median line lies within the depth "
+                     "range " + mm(bottom) + " to " + mm(top));
+    return in;
+  };
+
+  // Bonus for both position and perpendicularity comes from the UNRELATED actual mating
+  // envelope (MMC) or the unrelated minimum material envelope (LMC): ASME Y14.5-2009 and -2018
+  // apply position and orientation tolerances at MMC to the unrelated AME's axis and size
+  // (from memory for the clause; docs/evaluation.md explains the choice and the surface check
+  // of evaluate_bore, which covers the related condition).
+  const auto bonus_for = [&](const PlanTolerance& spec) {
+    check_limits(bore, spec);
+    return bore.size ? bonus_tolerance(spec.condition, FeatureKind::bore, *bore.size,
+                                       result.mating_envelope.diameter(),
+                                       result.minimum_material.diameter())
+                     : 0.0;
+  };
+
+  // Position over the full depth, or over a projected zone above A.
+  result.position.reset();
+  if (bore.position) {
+    const PlanTolerance& spec = *bore.position;
+    const bool projected = spec.projected_height.has_value();
+    if (projected && geometry.median)
+      throw FitError("bore " + bore.id + ": a projected tolerance zone needs a straight axis; the "
+                     "derived median line has no extension above A");
+    if (projected && !(*spec.projected_height > 0.0))
+      throw FitError("bore " + bore.id + ": the projected height must be positive");
+    // Projected zone (ASME Y14.5-2018 7.4.1; ISO 1101:2017 with ISO 10578 for the projected
+    // zone, from memory): the zone lies above A, out of the material, and the straight axis is
+    // extended into it.
+    const double top = projected ? *spec.projected_height : own_top;
+    const double bottom = projected ? 0.0 : own_bottom;
+    if (geometry.median) geometry.centres = centres_in(top, bottom);
+    result.position = evaluate_position(spec, top, bottom, projected, bonus_for(spec), geometry);
+  }
+
+  // Perpendicularity to A over the bore's own depth (never projected).
+  result.perpendicularity.reset();
+  if (bore.perpendicularity) {
+    const PlanTolerance& spec = *bore.perpendicularity;
+    PerpendicularityResult p;
+    p.spec = spec;
+    p.range_top = own_top;
+    p.range_bottom = own_bottom;
+    p.value = geometry.median ? perpendicularity_of_points(centres_in(own_top, own_bottom))
+                              : perpendicularity_over_range(result.axis_in_zone, own_top, own_bottom);
+    p.bonus = bonus_for(spec);
+    p.allowed = spec.tolerance + p.bonus;
+    p.verdict = p.value <= p.allowed + verdict_slack ? Verdict::conforms : Verdict::does_not_conform;
+    result.perpendicularity = p;
+  }
+}
+
+}  // namespace
+
+std::string_view verdict_name(Verdict verdict) noexcept {
+  return verdict == Verdict::conforms ? "conforms" : "does not conform";
+}
+
+BoreResult evaluate_bore(const PlanBore& bore, const Eigen::Matrix3Xd& points,
+                         const BoreEvaluationOptions& options) {
+  BoreResult result;
+  result.id = bore.id;
+  result.axis_method = bore.axis;
+  if (!(options.section_gap > 0.0))
+    throw FitError("bore " + bore.id + ": the section gap must be positive");
+  if (!points.allFinite())
+    throw FitError("bore " + bore.id + ": the points contain a non-finite coordinate");
+  const Eigen::Vector3d w = nominal_direction(bore);
+  std::vector<std::string>& warnings = result.warnings;
+
+  // ---- 1. Associated cylinders (fit_cylinder.hpp; docs/methods.md).
+  FitOptions free_axis = options.fit;
+  free_axis.fixed_direction.reset();
+  free_axis.axis_hint = w;
+  FitOptions related = free_axis;
+  related.fixed_direction = w;
+  for_bore(bore, [&] {
+    result.least_squares = fit_cylinder_least_squares(points, free_axis);
+    // Unrelated actual mating envelope of a hole: the largest inscribed cylinder, free axis.
+    result.mating_envelope = fit_cylinder_maximum_inscribed(points, free_axis);
+    // Related actual mating envelope, constrained in orientation to the nominal direction.
+    result.related_envelope = fit_cylinder_maximum_inscribed(points, related);
+    // Actual minimum material envelope of a hole: the smallest circumscribed cylinder.
+    result.minimum_material = fit_cylinder_minimum_circumscribed(points, free_axis);
+    result.minimum_zone = fit_cylinder_minimum_zone(points, free_axis);
+  });
+  take_warnings(warnings, "least-squares cylinder", result.least_squares.summary);
+  take_warnings(warnings, "actual mating envelope", result.mating_envelope.summary);
+  take_warnings(warnings, "related mating envelope", result.related_envelope.summary);
+  take_warnings(warnings, "minimum material envelope", result.minimum_material.summary);
+  take_warnings(warnings, "minimum-zone cylinder", result.minimum_zone.summary);
+
+  // ---- Prepare: stray-point screen (stray_points.hpp) on the least-squares residuals. The
+  // mating envelopes rest on extreme points, so a suspect point that is one of their contacts
+  // is named: the size (and, for this axis method, the axis) then rest on it. Nothing is
+  // removed; every figure below uses all points.
+  result.stray_points = for_bore(bore, [&] {
+    return find_stray_points(points, result.least_squares.residuals.values, options.stray_points);
+  });
+  if (!result.stray_points.points.empty()) {
+    const auto contacts_of = [&](const CylinderFit& envelope) {
+      return suspect_contacts(result.stray_points, envelope.residuals.values, ContactSide::lowest);
+    };
+    const std::vector<std::size_t> actual = contacts_of(result.mating_envelope);
+    const std::vector<std::size_t> related_contacts = contacts_of(result.related_envelope);
+    const bool axis_rests = bore.axis == BoreAxisMethod::mating_envelope;
+    std::vector<detail::SuspectContact> contacts;
+    if (!actual.empty() && actual == related_contacts) {
+      contacts.push_back({actual, "the actual and the related mating envelopes",
+                          axis_rests ? "the mating sizes and the axis rest on"
+                                     : "the mating sizes rest on"});
+    } else {
+      contacts.push_back({actual, "the actual mating envelope",
+                          axis_rests ? "the mating size and axis rest on" : "the mating size rests on"});
+      contacts.push_back({related_contacts, "the related mating envelope",
+                          "the related mating size rests on"});
+    }
+    warnings.push_back(detail::stray_point_message(result.stray_points, contacts,
+                                                   "verdicts use all points: review the data"));
+  }
+
+  // ---- Sections along the least-squares axis (ISO 17450-3: sections perpendicular to the
+  // associated cylinder's axis, least-squares circles).
+  const Axis& ls_axis = result.least_squares.axis;
+  const Eigen::Index n = points.cols();
+  std::vector<double> ls_height(static_cast<std::size_t>(n));
+  for (Eigen::Index i = 0; i < n; ++i)
+    ls_height[static_cast<std::size_t>(i)] = ls_axis.direction.dot(points.col(i) - ls_axis.point);
+  std::vector<Eigen::Index> order(static_cast<std::size_t>(n));
+  std::iota(order.begin(), order.end(), Eigen::Index{0});
+  std::sort(order.begin(), order.end(), [&](Eigen::Index a, Eigen::Index b) {
+    return ls_height[static_cast<std::size_t>(a)] < ls_height[static_cast<std::size_t>(b)];
+  });
+  std::vector<double> sorted_heights(order.size());
+  for (std::size_t k = 0; k < order.size(); ++k)
+    sorted_heights[k] = ls_height[static_cast<std::size_t>(order[k])];
+  const SectionPlan section_plan = for_bore(
+      bore, [&] { return plan_sections(points, ls_axis, sorted_heights, options.section_gap); });
+  SectionOptions section_options;
+  section_options.half_thickness = section_plan.half_thickness;
+  section_options.min_points = std::max<std::size_t>(3, options.min_section_points);
+  section_options.fit = options.fit;
+  const SectionsResult sections = for_bore(bore, [&] {
+    return fit_sections_least_squares(points, ls_axis, section_plan.heights, section_options);
+  });
+  result.sections = sections.sections;
+  for (const std::string& warning : sections.summary.warnings)
+    warnings.push_back("sections: " + warning);
+  if (result.sections.size() < 3)
+    warnings.push_back("only " + std::to_string(result.sections.size()) +
+                       " sections with enough points: the two-point sizes" +
+                       (bore.axis == BoreAxisMethod::median_line ? " and the median line" : "") +
+                       " rest on few cross-sections");
+
+  // ---- 3. Zone frame; 4. the probed extent and the bore's own depth range.
+  result.zone = ZoneFrame::at(bore.basic_location, w);
+  const Eigen::Matrix3Xd local = result.zone.basis.transpose() * (points.colwise() - result.zone.origin);
+  result.probed_top = local.row(2).maxCoeff();
+  result.probed_bottom = local.row(2).minCoeff();
+  const auto [own_top, own_bottom] = own_range(bore, result);
+  // The zone applies over the full depth, so a short extrapolation beyond the probed band (a
+  // probe cannot reach the very edge) is normal and shown in the report's depth table. An axis
+  // determined from a band much shorter than the range it is judged over deserves a warning:
+  // its uncertainty at the ends grows roughly with evaluated depth / probed span (law of
+  // propagation, JCGM 100:2008).
+  const double above = std::max(0.0, own_top - result.probed_top);
+  const double below = std::max(0.0, result.probed_bottom - own_bottom);
+  const double probed_span = result.probed_top - result.probed_bottom;
+  if (above + below > range_slack && above + below > 0.1 * probed_span)
+    warnings.push_back("the depth range extends " + mm(above) + " mm above and " + mm(below) +
+                       " mm below the probed band of " + mm(probed_span) +
+                       " mm: the axis is extrapolated over more than a tenth of its support");
+
+  // ---- 2., 5., 6., 10. The toleranced axis, position, perpendicularity, tilt.
+  evaluate_in_zone(result, bore, options.fit);
+  const double mating_size = result.mating_envelope.diameter();
+  const double minimum_material_size = result.minimum_material.diameter();
+
+  // ---- 7. Size per Rule #1 (ASME Y14.5-2018 5.8, from memory) with two-point local sizes.
+  SizeResult& size = result.size;
+  size.limits = bore.size;
+  size.least_squares = result.least_squares.diameter();
+  size.mating_envelope = mating_size;
+  size.related_mating_envelope = result.related_envelope.diameter();
+  size.minimum_material_envelope = minimum_material_size;
+  const TwoPointSizes local_sizes = two_point_sizes(points, ls_height, order, result.sections,
+                                                    ls_axis, section_plan.half_thickness);
+  size.two_point_count = local_sizes.count;
+  size.two_point_min = local_sizes.min;
+  size.two_point_max = local_sizes.max;
+  if (local_sizes.count == 0)
+    warnings.push_back("no opposed point pairs in any section: no two-point sizes; the upper "
+                       "limit is checked with the minimum material envelope instead");
+  if (bore.size) {
+    const SizeLimits& limits = *bore.size;
+    std::vector<std::string> reasons;
+    bool lower_ok = true, upper_ok = true;
+    // Envelope requirement: no perfect cylinder of MMC size may be prevented from entering.
+    if (mating_size < limits.lower - verdict_slack) {
+      lower_ok = false;
+      reasons.push_back("actual mating envelope " + mm(mating_size) + " is below the lower limit " +
+                        mm(limits.lower));
+    }
+    if (local_sizes.count > 0) {
+      if (local_sizes.min < limits.lower - verdict_slack) {
+        lower_ok = false;
+        reasons.push_back("smallest two-point size " + mm(local_sizes.min) +
+                          " is below the lower limit " + mm(limits.lower));
+      }
+      if (local_sizes.max > limits.upper + verdict_slack) {
+        upper_ok = false;
+        reasons.push_back("largest two-point size " + mm(local_sizes.max) +
+                          " exceeds the upper limit " + mm(limits.upper));
+      }
+    } else if (minimum_material_size > limits.upper + verdict_slack) {
+      upper_ok = false;
+      reasons.push_back("minimum material envelope " + mm(minimum_material_size) +
+                        " exceeds the upper limit " + mm(limits.upper));
+    }
+    const auto verdict_of = [](bool ok) { return ok ? Verdict::conforms : Verdict::does_not_conform; };
+    size.lower_verdict = verdict_of(lower_ok);
+    size.upper_verdict = verdict_of(upper_ok);
+    size.verdict = verdict_of(lower_ok && upper_ok);
+    for (std::size_t k = 0; k < reasons.size(); ++k)
+      size.reason += (k ? "; " : "") + reasons[k];
+  }
+
+  // ---- 8. Cylindricity: minimum-zone radial separation (ISO 12180-1; ASME Y14.5-2018 5.4.4).
+  result.form.cylindricity = result.minimum_zone.residuals.form;
+  result.form.tolerance = bore.cylindricity;
+  if (bore.cylindricity)
+    result.form.verdict = result.form.cylindricity <= *bore.cylindricity + verdict_slack
+                              ? Verdict::conforms
+                              : Verdict::does_not_conform;
+
+  // ---- 9. Virtual condition: the surface interpretation of a tolerance at MMC/LMC.
+  const auto material_modified = [](const std::optional<PlanTolerance>& t) {
+    return t && t->condition != MaterialCondition::rfs;
+  };
+  if (material_modified(bore.position) || material_modified(bore.perpendicularity)) {
+    VirtualConditionResult vc;
+    const bool on_position = material_modified(bore.position);
+    const PlanTolerance& spec = on_position ? *bore.position : *bore.perpendicularity;
+    const bool at_mmc = spec.condition == MaterialCondition::mmc;
+    vc.boundary = virtual_condition(spec.condition, FeatureKind::bore, *bore.size, spec.tolerance);
+    vc.on_true_position = on_position;
+    vc.comparison = at_mmc ? ">=" : "<=";
+    if (on_position && result.position->projected) {
+      // The boundary stands above A, where the bore has no surface: the perfect envelope is
+      // extended into it. At MMC the extended envelope (radius R, axis offset e(h) from the
+      // true-position axis) must contain the boundary cylinder of radius Rv on the true axis:
+      // |e(h)| + Rv <= R over the zone, i.e. clearance 2R - 2 max|e| >= 2 Rv. At LMC the
+      // minimum material envelope must stay inside the boundary: 2R + 2 max|e| <= 2 Rv. |e| is
+      // largest at an end of the zone (convexity).
+      const CylinderFit& envelope = at_mmc ? result.mating_envelope : result.minimum_material;
+      const StraightAxis e = for_bore(bore, [&] { return StraightAxis::from_axis(envelope.axis, result.zone); });
+      const double reach = position_over_range(e, result.position->range_top,
+                                               result.position->range_bottom);
+      vc.clearance = at_mmc ? envelope.diameter() - reach : envelope.diameter() + reach;
+    } else if (on_position) {
+      // The largest (MMC) / smallest (LMC) cylinder on the true-position axis clear of / around
+      // every point within the evaluated depth.
+      double nearest = std::numeric_limits<double>::infinity(), farthest = 0.0;
+      std::size_t used = 0;
+      for (Eigen::Index i = 0; i < n; ++i) {
+        const double h = local(2, i);
+        if (h > own_top + range_slack || h < own_bottom - range_slack) continue;
+        const double radial = local.col(i).head<2>().norm();
+        nearest = std::min(nearest, radial);
+        farthest = std::max(farthest, radial);
+        ++used;
+      }
+      if (used == 0)
+        throw FitError("bore " + bore.id + ": no point lies within the depth range " +
+                       mm(own_bottom) + " to " + mm(own_top));
+      vc.clearance = 2.0 * (at_mmc ? nearest : farthest);
+    } else {
+      // Perpendicularity only: the boundary is perpendicular to A but free in location, so the
+      // related envelope (orientation-constrained) is compared with it.
+      if (at_mmc) {
+        vc.clearance = result.related_envelope.diameter();
+      } else {
+        const CylinderFit outer =
+            for_bore(bore, [&] { return fit_cylinder_minimum_circumscribed(points, related); });
+        take_warnings(warnings, "related minimum material envelope", outer.summary);
+        vc.clearance = outer.diameter();
+      }
+    }
+    const bool ok = at_mmc ? vc.clearance >= vc.boundary - verdict_slack
+                           : vc.clearance <= vc.boundary + verdict_slack;
+    vc.verdict = ok ? Verdict::conforms : Verdict::does_not_conform;
+    result.virtual_condition = vc;
+  }
+  return result;
+}
+
+PositionResult position_after_frame_motion(const BoreResult& bore, const PlanBore& plan,
+                                           const FrameMotion& motion) {
+  if (!bore.position || !plan.position)
+    throw FitError("bore " + bore.id + ": it has no position tolerance to re-evaluate");
+  const PositionResult& before = *bore.position;
+  // The moved frame: origin at `shift`, axes turned by `rotation_rad` about z (old frame
+  // coordinates); a point p of the old frame has coordinates R^T (p - shift) in the new one.
+  const Eigen::Matrix3d r_t = rotation_about_z(motion.rotation_rad).transpose();
+  const Eigen::Vector3d shift(motion.shift.x(), motion.shift.y(), 0.0);
+  const auto moved = [&](const Eigen::Vector3d& p) -> Eigen::Vector3d { return r_t * (p - shift); };
+  AxisGeometry geometry;
+  geometry.median = bore.axis_method == BoreAxisMethod::median_line;
+  if (geometry.median) {
+    for (const AxisDeviation& c : before.section_centres)
+      geometry.centres.push_back(frame_to_zone(bore.zone, moved(zone_to_frame(bore.zone, c))));
+    if (geometry.centres.empty())
+      throw FitError("bore " + bore.id + ": the median line has no section centre to re-evaluate");
+  } else {
+    Axis axis;
+    axis.point = moved(bore.axis.point);
+    axis.direction = r_t * bore.axis.direction;
+    geometry.straight = for_bore(plan, [&] { return StraightAxis::from_axis(axis, bore.zone); });
+  }
+  return evaluate_position(before.spec, before.range_top, before.range_bottom, before.projected,
+                           before.bonus, geometry);
+}
+
+BoreResult moved_to_frame(const BoreResult& bore, const PlanBore& plan,
+                          const Eigen::Matrix3d& rotation, const Eigen::Vector3d& translation) {
+  // Least squares, minimum zone and both free mating envelopes are defined by distances
+  // between the points and the element, which a rigid motion preserves: the moved element is
+  // the element of the moved points. So is each section circle, because the sections are cut
+  // perpendicular to the (moved) least-squares axis at the same heights along it.
+  const auto move_point = [&](const Eigen::Vector3d& p) -> Eigen::Vector3d {
+    return rotation * p + translation;
+  };
+  const auto move_axis = [&](const Axis& a) {
+    return Axis{move_point(a.point), rotation * a.direction};
+  };
+  const auto move_cylinder = [&](CylinderFit& c) {
+    c.axis = move_axis(c.axis);
+    c.covariance.basis = rotation * c.covariance.basis;
+  };
+  BoreResult moved = bore;
+  move_cylinder(moved.least_squares);
+  move_cylinder(moved.mating_envelope);
+  move_cylinder(moved.related_envelope);  // its size is not re-optimised for the new direction
+  move_cylinder(moved.minimum_material);
+  move_cylinder(moved.minimum_zone);
+  for (SectionCircle& s : moved.sections) {
+    s.circle.centre = move_point(s.circle.centre);
+    s.circle.normal = rotation * s.circle.normal;
+    s.circle.covariance.basis = rotation * s.circle.covariance.basis;
+  }
+  // The probed extent without the points: the heights of the toleranced axis' points at the
+  // old extent, moved (exact for points on the axis; off it by the radius times the change of
+  // tilt, a micro-radian effect).
+  const Eigen::Vector3d w = bore.zone.basis.col(2);
+  const auto moved_height = [&](double h) {
+    const AxisDeviation d = bore.axis_in_zone.at(h);
+    return w.dot(move_point(zone_to_frame(bore.zone, d)) - bore.zone.origin);
+  };
+  moved.probed_top = moved_height(bore.probed_top);
+  moved.probed_bottom = moved_height(bore.probed_bottom);
+  evaluate_in_zone(moved, plan, FitOptions{});
+  return moved;
+}
+
+}  // namespace cylzone

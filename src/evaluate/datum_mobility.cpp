@@ -1,0 +1,584 @@
+// Datum mobility: what a datum reference leaves free, and the best use of it for a pattern.
+//
+// Method of best_frame_motion. The moved frame has its origin at s and its axes turned by theta
+// about z (see position_after_frame_motion). For a fixed theta, every bore's deviation at an
+// evaluated height (the ends of a straight axis, or a median line's section centres) is an
+// affine function M s + b of the shift, so the worst ratio
+//     F(s; theta) = max_m  w_m |M_m s + b_m|,   w_m = 2 / allowed of the term's bore,
+// is a maximum of norms of affine maps: convex in s (a second-order cone programme in two
+// unknowns). The allowed shifts form a convex set: a disk (datum feature shift at MMB), the
+// plane (no datum B), the origin (B at RMB), intersected with a strip when datum C at MMB lets
+// the rotation deviate within C's own allowance, or a chord when C at RMB makes the rotation
+// follow C. The rotation is one-dimensional and F is not convex in it in general.
+//
+// Solution: an outer search over theta (a coarse scan of the bracket, then golden-section
+// search on the interval around the best sample, which handles several local minima of a
+// non-convex function as long as the scan resolves them) around an inner convex solve in s:
+// nested golden-section searches (Kiefer 1953; Press et al., Numerical Recipes 3rd ed., 10.2)
+// in the coordinates of the strip (or of the frame): G(x) = min over y of F(x, y) is convex
+// because partial minimisation of a convex function over a convex set preserves convexity
+// (Boyd & Vandenberghe, Convex Optimization, 3.2.5), so both levels are unimodal and the
+// golden-section search converges to the minimum; its interval shrinks by 0.618 per step, to a
+// length below tolerance / (Lipschitz constant of F), so the worst ratio is found to
+// MobilityOptions::tolerance. No random starts, no hidden state: deterministic.
+
+#include "cylzone/evaluate/datum_mobility.hpp"
+
+#include <Eigen/Geometry>
+#include <Eigen/SVD>
+#include <algorithm>
+#include <cmath>
+#include <limits>
+#include <optional>
+#include <utility>
+
+#include "cylzone/core/errors.hpp"
+#include "cylzone/evaluate/material_condition.hpp"
+#include "detail/fit_support.hpp"
+#include "detail/golden_section.hpp"
+
+namespace cylzone {
+namespace {
+
+constexpr double pi = 3.14159265358979323846;
+constexpr double infinity = std::numeric_limits<double>::infinity();
+
+const DatumReference* find_reference(const std::vector<DatumReference>& datums, char label) {
+  for (const DatumReference& d : datums)
+    if (d.label == label) return &d;
+  return nullptr;
+}
+
+/// The MMB size a datum feature's simulator has: the plan's, or else the MMC size.
+template <class Datum>
+std::optional<double> mmb_size_of(const Datum& datum) {
+  if (datum.mmb_size) return datum.mmb_size;
+  if (datum.size) return datum.size->mmc(datum.kind);
+  return std::nullopt;
+}
+
+/// Shift allowance of a datum feature of size at MMB, from its related envelope (or width) and
+/// its MMB size. Falls back on the frame's own figure without limits.
+template <class Datum>
+double mmb_allowance(const Datum& datum, double mating_size) {
+  const std::optional<double> boundary = mmb_size_of(datum);
+  if (!boundary) return datum.shift_allowance;
+  return datum_shift_allowance(MaterialBoundary::mmb, datum.kind, mating_size, *boundary);
+}
+
+/// One evaluated height of one bore: its deviation M s + b, weighted by 2 / allowed.
+struct Term {
+  Eigen::Matrix2d m = Eigen::Matrix2d::Zero();
+  Eigen::Vector2d b = Eigen::Vector2d::Zero();
+  double weight = 0.0;
+};
+
+/// Convex hull vertices of 2D points (Andrew's monotone chain, Comput. Geom. 1979); all points
+/// when fewer than three.
+std::vector<Eigen::Vector2d> hull_vertices(std::vector<Eigen::Vector2d> p) {
+  if (p.size() < 3) return p;
+  std::sort(p.begin(), p.end(), [](const Eigen::Vector2d& a, const Eigen::Vector2d& b) {
+    return a.x() < b.x() || (a.x() == b.x() && a.y() < b.y());
+  });
+  const auto cross = [](const Eigen::Vector2d& o, const Eigen::Vector2d& a,
+                        const Eigen::Vector2d& b) {
+    return (a.x() - o.x()) * (b.y() - o.y()) - (a.y() - o.y()) * (b.x() - o.x());
+  };
+  std::vector<Eigen::Vector2d> h(2 * p.size());
+  std::size_t k = 0;
+  for (std::size_t i = 0; i < p.size(); ++i) {
+    while (k >= 2 && cross(h[k - 2], h[k - 1], p[i]) <= 0.0) --k;
+    h[k++] = p[i];
+  }
+  for (std::size_t i = p.size() - 1, t = k + 1; i > 0; --i) {
+    while (k >= t && cross(h[k - 2], h[k - 1], p[i - 1]) <= 0.0) --k;
+    h[k++] = p[i - 1];
+  }
+  h.resize(k > 1 ? k - 1 : k);
+  return h;
+}
+
+/// The pattern's deviations as functions of the frame motion.
+class PatternModel {
+ public:
+  explicit PatternModel(const std::vector<const BoreResult*>& bores) {
+    for (std::size_t i = 0; i < bores.size(); ++i) {
+      const BoreResult& bore = *bores[i];
+      if (!bore.position)
+        throw FitError("bore " + bore.id + ": datum mobility needs its position result");
+      const PositionResult& p = *bore.position;
+      if (!(p.allowed > 0.0))
+        throw FitError("bore " + bore.id + ": the allowed position zone is not positive");
+      BoreData d;
+      d.zone = bore.zone;
+      d.weight = 2.0 / p.allowed;
+      d.median = bore.axis_method == BoreAxisMethod::median_line;
+      if (d.median) {
+        for (const AxisDeviation& c : p.section_centres)
+          d.centres.push_back(bore.zone.origin +
+                              bore.zone.basis * Eigen::Vector3d(c.offset.x(), c.offset.y(), c.height));
+        if (d.centres.empty())
+          throw FitError("bore " + bore.id + ": the median line has no section centre in range");
+      } else {
+        d.point = bore.axis.point;
+        d.direction = bore.axis.direction;
+        d.heights = {p.range_top, p.range_bottom};
+      }
+      data_.push_back(std::move(d));
+    }
+  }
+
+  /// Terms at rotation theta, in the moved frame: p' = R^T (p - s), zone coordinates
+  /// B^T (p' - o), so a local point is a0 - K s with K = B^T R^T [e_x e_y].
+  void terms_at(double theta, std::vector<Term>& out) const {
+    out.clear();
+    const Eigen::Matrix3d r_t =
+        Eigen::AngleAxisd(theta, Eigen::Vector3d::UnitZ()).toRotationMatrix().transpose();
+    for (const BoreData& d : data_) {
+      const Eigen::Matrix3d bt = d.zone.basis.transpose();
+      const Eigen::Matrix<double, 3, 2> k = bt * r_t.leftCols<2>();
+      if (d.median) {
+        std::vector<Eigen::Vector2d> offsets;
+        offsets.reserve(d.centres.size());
+        for (const Eigen::Vector3d& c : d.centres)
+          offsets.push_back((bt * (r_t * c - d.zone.origin)).head<2>());
+        // Every centre of one median line shares M and the weight, and the largest of
+        // |M s + b_k| over k is reached at a vertex of the convex hull of the b_k.
+        for (const Eigen::Vector2d& b : hull_vertices(std::move(offsets))) {
+          Term t;
+          t.m = -k.topRows<2>();
+          t.b = b;
+          t.weight = d.weight;
+          out.push_back(t);
+        }
+      } else {
+        const Eigen::Vector3d a0 = bt * (r_t * d.point - d.zone.origin);
+        const Eigen::Vector3d e = bt * (r_t * d.direction);
+        const Eigen::Vector2d slope = e.head<2>() / e.z();
+        // offset(h) = a.xy + (h - a.z) slope with a = a0 - K s.
+        const Eigen::Matrix2d m = -k.topRows<2>() + slope * k.row(2);
+        for (double h : d.heights) {
+          Term t;
+          t.m = m;
+          t.b = a0.head<2>() + (h - a0.z()) * slope;
+          t.weight = d.weight;
+          out.push_back(t);
+        }
+      }
+    }
+  }
+
+  /// Frame xy of every term's axis point at theta = 0: the lever arms of a rotation.
+  std::vector<std::pair<Eigen::Vector2d, double>> levers() const {
+    std::vector<std::pair<Eigen::Vector2d, double>> out;
+    for (const BoreData& d : data_) {
+      if (d.median) {
+        for (const Eigen::Vector3d& c : d.centres) out.emplace_back(c.head<2>(), d.weight);
+      } else {
+        const StraightAxis axis = StraightAxis::from_axis({d.point, d.direction}, d.zone);
+        for (double h : d.heights) {
+          const AxisDeviation dev = axis.at(h);
+          const Eigen::Vector3d p = d.zone.origin + d.zone.basis * Eigen::Vector3d(
+                                                        dev.offset.x(), dev.offset.y(), h);
+          out.emplace_back(p.head<2>(), d.weight);
+        }
+      }
+    }
+    return out;
+  }
+
+ private:
+  struct BoreData {
+    ZoneFrame zone;
+    double weight = 0.0;
+    bool median = false;
+    Eigen::Vector3d point = Eigen::Vector3d::Zero();
+    Eigen::Vector3d direction = Eigen::Vector3d::UnitZ();
+    std::vector<double> heights;
+    std::vector<Eigen::Vector3d> centres;
+  };
+  std::vector<BoreData> data_;
+};
+
+double worst_ratio(const std::vector<Term>& terms, const Eigen::Vector2d& s) {
+  double worst = 0.0;
+  for (const Term& t : terms) worst = std::max(worst, t.weight * (t.m * s + t.b).norm());
+  return worst;
+}
+
+struct InnerSolution {
+  Eigen::Vector2d shift = Eigen::Vector2d::Zero();
+  double ratio = infinity;
+};
+
+/// The inner convex problem at one rotation.
+class InnerSolver {
+ public:
+  InnerSolver(const FrameMobility& mobility, const MobilityOptions& options, double s_tolerance)
+      : mobility_(mobility), options_(options), s_tolerance_(s_tolerance) {}
+
+  InnerSolution solve(const std::vector<Term>& terms, double theta) const {
+    const auto f = [&](const Eigen::Vector2d& s) { return worst_ratio(terms, s); };
+    InnerSolution out;
+    const double r = mobility_.shift_allowance;
+    if (mobility_.rotation_follows_c) {
+      // C at RMB: C's axis stays on its basic ray, so the new origin s satisfies
+      // c - s = t u(alpha + theta), t > 0: a chord of the shift disk.
+      const Eigen::Vector2d& c = mobility_.c_location;
+      const double alpha = std::atan2(c.y(), c.x());
+      // Parametrised from the line's point nearest the origin, p0 = (c . u') u' with u' normal
+      // to u, as s = p0 + tau u: |s|^2 = |p0|^2 + tau^2 without the cancellation of
+      // |c|^2 - (c . u)^2, so the chord's ends stay inside the disk.
+      const Eigen::Vector2d u(std::cos(alpha + theta), std::sin(alpha + theta));
+      const Eigen::Vector2d normal(-u.y(), u.x());
+      const Eigen::Vector2d p0 = c.dot(normal) * normal;
+      const double disc = r * r - p0.squaredNorm();
+      if (disc < 0.0) return out;  // no allowed shift at this rotation
+      const double half = std::sqrt(disc);
+      const auto along = [&](double tau) { return f(Eigen::Vector2d(p0 + tau * u)); };
+      const auto [tau, value] =
+          detail::golden_minimum(along, -half, half, s_tolerance_, options_.max_iterations);
+      out.shift = p0 + tau * u;
+      out.ratio = value;
+      return out;
+    }
+    double radius = r;
+    if (mobility_.translation_free) radius = free_radius(terms);
+    if (!(radius > 0.0)) {
+      if (mobility_.c_shift_allowance > 0.0 && !strip_contains_origin(theta)) return out;
+      out.ratio = f(Eigen::Vector2d::Zero());
+      return out;
+    }
+    // Coordinates: x along the strip's normal (C at MMB) or the frame's x, y across.
+    Eigen::Vector2d e1(1.0, 0.0);
+    double x_lo = -radius, x_hi = radius;
+    if (mobility_.c_shift_allowance > 0.0) {
+      const Strip strip = c_strip(theta);
+      e1 = strip.normal;
+      x_lo = std::max(x_lo, strip.lo);
+      x_hi = std::min(x_hi, strip.hi);
+      if (x_lo > x_hi) return out;
+    }
+    const Eigen::Vector2d e2(-e1.y(), e1.x());
+    const auto across = [&](double x) {
+      const double half = std::sqrt(std::max(0.0, radius * radius - x * x));
+      return detail::golden_minimum([&](double y) { return f(Eigen::Vector2d(x * e1 + y * e2)); }, -half,
+                            half, s_tolerance_, options_.max_iterations);
+    };
+    const auto [x, value] = detail::golden_minimum([&](double xx) { return across(xx).second; }, x_lo,
+                                           x_hi, s_tolerance_, options_.max_iterations);
+    out.shift = x * e1 + across(x).first * e2;
+    out.ratio = value;
+    return out;
+  }
+
+ private:
+  /// Without datum B the shift is free, but any s with F(s) <= F(0) has, for every term,
+  /// sigma_min(M) |s| - |b| <= F(0) / w: the optimum lies in the disk of the smallest such bound.
+  static double free_radius(const std::vector<Term>& terms) {
+    const double f0 = worst_ratio(terms, Eigen::Vector2d::Zero());
+    double bound = infinity;
+    for (const Term& t : terms) {
+      const double sigma = Eigen::JacobiSVD<Eigen::Matrix2d>(t.m).singularValues()(1);
+      if (sigma > 1e-9) bound = std::min(bound, (f0 / t.weight + t.b.norm()) / sigma);
+    }
+    if (!std::isfinite(bound)) return 0.0;
+    return bound * (1.0 + 1e-9) + 1e-12;
+  }
+
+  /// C at MMB: the origins s it allows at rotation theta, lo <= s . normal <= hi, with normal
+  /// n(alpha + theta) the normal of C's basic ray in the moved frame.
+  struct Strip {
+    Eigen::Vector2d normal = Eigen::Vector2d::UnitY();
+    double lo = 0.0;
+    double hi = 0.0;
+  };
+  Strip c_strip(double theta) const {
+    const Eigen::Vector2d& c = mobility_.c_location;
+    const double alpha = std::atan2(c.y(), c.x());
+    Strip strip;
+    strip.normal = Eigen::Vector2d(-std::sin(alpha + theta), std::cos(alpha + theta));
+    if (!mobility_.c_width) {
+      // |(c - s) . n| <= c allowance: C's axis within its allowance of the ray.
+      const double cn = c.dot(strip.normal);
+      strip.lo = cn - mobility_.c_shift_allowance;
+      strip.hi = cn + mobility_.c_shift_allowance;
+      return strip;
+    }
+    // A point q of C is at (q - s) . n from the simulator's centre plane. A slot's simulator
+    // (a block MMB wide) must leave the positive face at >= MMB / 2 and the negative one at
+    // <= -MMB / 2; a tab's (two plates MMB apart) must hold every point within +-MMB / 2
+    // (ASME Y14.5-2018, datum feature simulator at MMB; from memory for the clause).
+    const FrameMobility::WidthSimulator& w = *mobility_.c_width;
+    const auto extremes = [&](const std::vector<Eigen::Vector2d>& face) {
+      std::pair<double, double> range{infinity, -infinity};
+      for (const Eigen::Vector2d& q : face) {
+        const double v = q.dot(strip.normal);
+        range.first = std::min(range.first, v);
+        range.second = std::max(range.second, v);
+      }
+      return range;
+    };
+    const auto [positive_min, positive_max] = extremes(w.positive_face);
+    const auto [negative_min, negative_max] = extremes(w.negative_face);
+    const double half = 0.5 * w.mmb_width;
+    if (w.internal) {
+      strip.lo = negative_max + half;
+      strip.hi = positive_min - half;
+    } else {
+      strip.lo = std::max(positive_max, negative_max) - half;
+      strip.hi = std::min(positive_min, negative_min) + half;
+    }
+    return strip;
+  }
+
+  bool strip_contains_origin(double theta) const {
+    const Strip strip = c_strip(theta);
+    return strip.lo <= 0.0 && 0.0 <= strip.hi;
+  }
+
+  const FrameMobility& mobility_;
+  const MobilityOptions& options_;
+  double s_tolerance_;
+};
+
+/// Half-width of the rotations a slot or tab C at MMB can allow, with the origin within
+/// `shift` of its place. In coordinates (t along C's basic ray, d across it) a point moves, at
+/// rotation theta and origin s, to d cos theta -+ t sin theta - s.n from the simulator's centre
+/// plane, with |s.n| <= shift. Each point gives a necessary condition on sigma = |sin theta|
+/// for the sense of rotation that moves it toward the simulator's plane on its side:
+///   slot (stays >= MMB / 2 out):  t sigma <= |d| - MMB / 2 + shift   (cos theta <= 1);
+///   tab (stays <= MMB / 2 in):    |d| (1 - sigma^2) + t sigma <= MMB / 2 + shift
+///                                 (cos theta >= 1 - sigma^2 for |theta| <= pi/2),
+/// whose smaller root bounds sigma when the larger lies beyond 1. Beyond pi/2 a slot's faces
+/// would cross the block; a tab turned that far no longer presents its faces to the plates.
+double width_rotation_bracket(const FrameMobility::WidthSimulator& w, const Eigen::Vector2d& c,
+                              double shift) {
+  const Eigen::Vector2d u = c.normalized();
+  const Eigen::Vector2d n(-u.y(), u.x());
+  const double half = 0.5 * w.mmb_width;
+  const auto bound = [&](const std::vector<Eigen::Vector2d>& face) {
+    double sigma = 1.0;
+    for (const Eigen::Vector2d& q : face) {
+      const double t = q.dot(u), d = std::abs(q.dot(n));
+      if (!(t > 0.0)) continue;
+      if (w.internal) {
+        sigma = std::min(sigma, std::max(0.0, d - half + shift) / t);
+      } else {
+        // d sigma^2 - t sigma + k >= 0 with k = MMB / 2 + shift - d >= 0.
+        const double k = std::max(0.0, half + shift - d);
+        const double disc = t * t - 4.0 * d * k;
+        if (disc < 0.0) continue;
+        const double root = std::sqrt(disc);
+        if (d > 0.0 && (t + root) / (2.0 * d) <= 1.0) continue;  // a second feasible range
+        sigma = std::min(sigma, 2.0 * k / (t + root));
+      }
+    }
+    return sigma;
+  };
+  const double sigma = std::max(bound(w.positive_face), bound(w.negative_face));
+  return std::asin(std::min(1.0, sigma));
+}
+
+/// Half-width of the rotation bracket: no rotation beyond it can beat the unmoved frame. The
+/// bounds follow from |offset| <= F0 / w at the start and at the optimum, with the rotation
+/// moving a lever arm q by 2 sin(|theta| / 2) |q| (exact for a bore perpendicular to A; the
+/// bound is doubled for inclined bores). 0 when no rotation can matter.
+double rotation_bracket(const PatternModel& model, const FrameMobility& mobility, double f0) {
+  if (mobility.c_width && mobility.c_shift_allowance > 0.0 && !mobility.rotation_follows_c)
+    return width_rotation_bracket(*mobility.c_width, mobility.c_location, mobility.shift_allowance);
+  if (mobility.rotation_follows_c || mobility.c_shift_allowance > 0.0) {
+    const double c = mobility.c_location.norm();
+    const double reach = mobility.rotation_follows_c
+                             ? mobility.shift_allowance
+                             : mobility.shift_allowance + mobility.c_shift_allowance;
+    return c > reach ? std::asin(reach / c) : pi;
+  }
+  const auto levers = model.levers();
+  const auto half_angle = [](double ratio) { return 2.0 * std::asin(std::min(1.0, ratio)); };
+  double bound = pi;
+  bool any = false;
+  if (mobility.translation_free) {
+    for (std::size_t i = 0; i < levers.size(); ++i)
+      for (std::size_t j = i + 1; j < levers.size(); ++j) {
+        const double arm = (levers[i].first - levers[j].first).norm();
+        if (arm <= 1e-9) continue;
+        any = true;
+        bound = std::min(bound, half_angle(f0 * (1.0 / levers[i].second + 1.0 / levers[j].second) /
+                                           arm));
+      }
+  } else {
+    for (const auto& [q, w] : levers) {
+      const double arm = q.norm();
+      if (arm <= 1e-9) continue;
+      any = true;
+      bound = std::min(bound, half_angle((2.0 * f0 / w + mobility.shift_allowance) / (2.0 * arm)));
+    }
+  }
+  if (!any) return 0.0;
+  return std::min(pi, 2.0 * bound);
+}
+
+std::string mm(double value) { return detail::format_number(value, 4); }
+
+}  // namespace
+
+std::string FrameMobility::description() const {
+  std::vector<std::string> parts;
+  if (translation_free) parts.push_back("no datum B: translation in A free");
+  if (rotation_free) parts.push_back("no datum C: rotation about the frame's z axis free");
+  if (shift_allowance > 0.0) parts.push_back("datum B at MMB: shift up to " + mm(shift_allowance) + " mm");
+  if (rotation_follows_c) parts.push_back("rotation follows datum C (RMB)");
+  if (c_shift_allowance > 0.0 && c_width)
+    parts.push_back(std::string("datum C (") + (c_width->internal ? "slot" : "tab") +
+                    ") at MMB: its centre plane may move up to " + mm(c_shift_allowance) +
+                    " mm off the simulator's, less as the frame turns");
+  else if (c_shift_allowance > 0.0)
+    parts.push_back("datum C at MMB: C may move up to " + mm(c_shift_allowance) + " mm off its basic direction");
+  for (const std::string& note : notes) parts.push_back(note);
+  if (parts.empty()) return "frame fully fixed";
+  std::string text = parts.front();
+  for (std::size_t k = 1; k < parts.size(); ++k) text += "; " + parts[k];
+  return text;
+}
+
+FrameMobility mobility_of(const std::vector<DatumReference>& datums, const DatumFrameResult& frame) {
+  FrameMobility m;
+  const DatumReference* b = find_reference(datums, 'B');
+  const DatumReference* c = find_reference(datums, 'C');
+  m.translation_free = b == nullptr;
+  m.rotation_free = c == nullptr;
+  if (b && !frame.b) throw FitError("datum B is referenced but the frame has no datum B");
+  if (c && !frame.c_feature && !frame.c_plane && !frame.c_width)
+    throw FitError("datum C is referenced but the frame has no datum C");
+  if (b && b->boundary == MaterialBoundary::mmb)
+    m.shift_allowance = mmb_allowance(*frame.b, frame.b->mating_size);
+  if (b && b->boundary == MaterialBoundary::lmb)
+    m.notes.push_back("datum B at LMB: shift not applied (conservative)");
+  if (c && (frame.c_feature || frame.c_width)) {
+    if (frame.c_width) {
+      // A slot or tab: located by its centre on its centre line (its points' centroid
+      // projected there), which the frame's clocking put on the basic ray.
+      const ClockingWidthResult& w = *frame.c_width;
+      m.c_location = frame.frame.point_to_frame(w.centre_on_a).head<2>();
+      if (c->boundary == MaterialBoundary::mmb) m.c_shift_allowance = mmb_allowance(w, w.mating_width);
+      const std::optional<double> mmb = mmb_size_of(w);
+      if (m.c_shift_allowance > 0.0 && mmb) {
+        FrameMobility::WidthSimulator simulator;
+        simulator.internal = !is_external(w.kind);
+        simulator.mmb_width = *mmb;
+        const auto face_hull = [&](const Eigen::Matrix3Xd& face) {
+          std::vector<Eigen::Vector2d> in_frame;
+          for (Eigen::Index i = 0; i < face.cols(); ++i)
+            in_frame.push_back(frame.frame.point_to_frame(face.col(i)).head<2>());
+          return hull_vertices(std::move(in_frame));
+        };
+        simulator.positive_face = face_hull(w.positive_face);
+        simulator.negative_face = face_hull(w.negative_face);
+        m.c_width = std::move(simulator);
+      }
+    } else {
+      m.c_location = frame.frame.point_to_frame(frame.c_feature->axis_on_a).head<2>();
+      if (c->boundary == MaterialBoundary::mmb)
+        m.c_shift_allowance = mmb_allowance(*frame.c_feature, frame.c_feature->mating_size);
+    }
+    if (c->boundary == MaterialBoundary::lmb)
+      m.notes.push_back("datum C at LMB: rotation allowance not applied (conservative)");
+    // With no room of its own, C holds the rotation exactly and follows a shifting frame.
+    if (m.c_shift_allowance == 0.0 && m.shift_allowance > 0.0) m.rotation_follows_c = true;
+    if ((m.rotation_follows_c || m.c_shift_allowance > 0.0) && m.c_location.norm() <= 1e-9)
+      throw FitError(frame.c_width
+                         ? "datum C's centre lies on datum B's axis: it cannot clock the frame"
+                         : "datum C's axis coincides with datum B's: it cannot clock the frame");
+  }
+  return m;
+}
+
+MobilityResult best_frame_motion(const std::vector<const BoreResult*>& bores,
+                                 const std::vector<const PlanBore*>& plans,
+                                 const FrameMobility& mobility, const MobilityOptions& options) {
+  if (bores.size() != plans.size())
+    throw FitError("datum mobility: bores and plans are not parallel");
+  for (std::size_t i = 0; i < bores.size(); ++i)
+    if (!bores[i] || !plans[i]) throw FitError("datum mobility: a bore is missing");
+  MobilityResult result;
+  const auto finish = [&](const FrameMotion& motion) {
+    result.motion = motion;
+    result.positions.clear();
+    result.worst_ratio = 0.0;
+    for (std::size_t i = 0; i < bores.size(); ++i) {
+      result.positions.push_back(position_after_frame_motion(*bores[i], *plans[i], motion));
+      const PositionResult& p = result.positions.back();
+      result.worst_ratio = std::max(result.worst_ratio, p.value / p.allowed);
+    }
+    return result;
+  };
+  if (bores.empty()) return result;
+  const PatternModel model(bores);
+  std::vector<Term> terms;
+  model.terms_at(0.0, terms);
+  const double f0 = worst_ratio(terms, Eigen::Vector2d::Zero());
+  result.iterations = 1;
+  const bool rotation_fixed =
+      !mobility.rotation_free && !mobility.rotation_follows_c && mobility.c_shift_allowance <= 0.0;
+  const bool shift_fixed = !mobility.translation_free && mobility.shift_allowance <= 0.0;
+  if ((rotation_fixed && shift_fixed) || f0 == 0.0) return finish(FrameMotion{});
+
+  // Argument tolerances from the Lipschitz constants of F: |dF/ds| <= max w |M|, and a
+  // rotation moves a term by at most its lever arm (plus the largest shift) per radian.
+  double ls = 0.0, arm = 0.0;
+  for (const Term& t : terms) ls = std::max(ls, t.weight * t.m.norm());
+  for (const auto& [q, w] : model.levers()) arm = std::max(arm, w * (q.norm() + 1.0));
+  const double s_tolerance = std::max(options.tolerance / std::max(ls, 1e-300), 1e-15);
+  const double theta_tolerance = std::max(options.tolerance / std::max(arm, 1e-300), 1e-16);
+  const InnerSolver inner(mobility, options, s_tolerance);
+
+  FrameMotion best;  // the unmoved frame is always allowed
+  double best_ratio = f0;
+  const auto consider = [&](double theta, const InnerSolution& s) {
+    if (s.ratio < best_ratio) {
+      best_ratio = s.ratio;
+      best.rotation_rad = theta;
+      best.shift = s.shift;
+    }
+  };
+  const auto solve_at = [&](double theta) {
+    model.terms_at(theta, terms);
+    return inner.solve(terms, theta);
+  };
+
+  const double bracket = rotation_fixed ? 0.0 : rotation_bracket(model, mobility, f0);
+  if (bracket <= 0.0) {
+    consider(0.0, solve_at(0.0));
+    return finish(best);
+  }
+  // Coarse scan (0 is a sample), then golden section around the best sample.
+  constexpr int half_samples = 16;
+  const double step = bracket / half_samples;
+  int best_k = 0;
+  double best_scan = infinity;
+  result.iterations = 0;
+  for (int k = -half_samples; k <= half_samples; ++k) {
+    const InnerSolution s = solve_at(k * step);
+    ++result.iterations;
+    consider(k * step, s);
+    if (s.ratio < best_scan) {
+      best_scan = s.ratio;
+      best_k = k;
+    }
+  }
+  const double lo = std::max(-bracket, (best_k - 1) * step);
+  const double hi = std::min(bracket, (best_k + 1) * step);
+  // `consider` keeps the best motion seen, so the search's own return value is not needed.
+  detail::golden_minimum(
+      [&](double t) {
+        ++result.iterations;
+        const InnerSolution s = solve_at(t);
+        consider(t, s);
+        return s.ratio;
+      },
+      lo, hi, theta_tolerance, options.max_iterations);
+  return finish(best);
+}
+
+}  // namespace cylzone

@@ -1,0 +1,163 @@
+// Least-squares circles: the 2D geometric fit shared by circles, fixed-direction cylinders and
+// sections (detail/circle_2d.hpp), and the 3D circle in its least-squares plane (Shakarji 1998,
+// J. Res. NIST 103(6), section on 3D circles).
+#include <Eigen/Cholesky>
+#include <Eigen/Eigenvalues>
+#include <cmath>
+#include <string>
+
+#include "cylzone/core/errors.hpp"
+#include "cylzone/fit/fit_circle.hpp"
+#include "fit/detail/circle_2d.hpp"
+#include "detail/fit_support.hpp"
+
+namespace cylzone {
+namespace detail {
+namespace {
+
+// Centred copy statistics of a 2D set: centroid, the largest distance from it, and the spread
+// perpendicular to the principal direction (for the collinearity test).
+struct PlanarSpread {
+  Eigen::Vector2d centroid;
+  double scale = 0.0;
+  double along_rms = 0.0;    // rms along the principal direction
+  double across_rms = 0.0;   // rms perpendicular to it
+};
+
+PlanarSpread planar_spread(const Eigen::Matrix2Xd& uv) {
+  PlanarSpread s;
+  const double n = static_cast<double>(uv.cols());
+  s.centroid = uv.rowwise().mean();
+  double xx = 0, xy = 0, yy = 0;
+  for (Eigen::Index i = 0; i < uv.cols(); ++i) {
+    const double x = uv(0, i) - s.centroid.x(), y = uv(1, i) - s.centroid.y();
+    xx += x * x;
+    xy += x * y;
+    yy += y * y;
+    s.scale = std::max(s.scale, std::sqrt(x * x + y * y));
+  }
+  Eigen::Matrix2d m;
+  m << xx, xy, xy, yy;
+  const Eigen::SelfAdjointEigenSolver<Eigen::Matrix2d> eigen(m, Eigen::EigenvaluesOnly);
+  s.across_rms = std::sqrt(std::max(0.0, eigen.eigenvalues()(0)) / n);
+  s.along_rms = std::sqrt(std::max(0.0, eigen.eigenvalues()(1)) / n);
+  return s;
+}
+
+}  // namespace
+
+Circle2dFit fit_circle_2d_algebraic(const Eigen::Matrix2Xd& uv) {
+  require_point_count(static_cast<std::size_t>(uv.cols()), 3, "circle");
+  const PlanarSpread spread = planar_spread(uv);
+  if (spread.across_rms <= degenerate_spread_ratio * spread.along_rms)
+    throw FitError("the points lie on a straight line (rms " +
+                   format_number(spread.across_rms, 9) + " mm off it over " +
+                   format_number(2.0 * spread.scale, 6) +
+                   " mm); a circle needs points not on one line");
+  // Kasa: minimise sum (x^2 + y^2 + D x + E y + F)^2 over (D, E, F), a linear problem, on the
+  // centred points (centring keeps the normal equations well scaled).
+  Eigen::Matrix3d ata = Eigen::Matrix3d::Zero();
+  Eigen::Vector3d atb = Eigen::Vector3d::Zero();
+  for (Eigen::Index i = 0; i < uv.cols(); ++i) {
+    const double x = uv(0, i) - spread.centroid.x(), y = uv(1, i) - spread.centroid.y();
+    const Eigen::Vector3d a(x, y, 1.0);
+    ata.noalias() += a * a.transpose();
+    atb += a * -(x * x + y * y);
+  }
+  const Eigen::Vector3d def = ata.ldlt().solve(atb);
+  Circle2dFit fit;
+  const Eigen::Vector2d c(-0.5 * def(0), -0.5 * def(1));
+  const double r2 = c.squaredNorm() - def(2);
+  fit.centre = spread.centroid + c;
+  // r2 > 0 for any set not on a line; the mean distance is a safe start otherwise.
+  fit.radius = r2 > 0.0 ? std::sqrt(r2) : (uv.colwise() - fit.centre).colwise().norm().mean();
+  return fit;
+}
+
+Circle2dFit fit_circle_2d_least_squares(const Eigen::Matrix2Xd& uv, const FitOptions& options) {
+  const Circle2dFit start = fit_circle_2d_algebraic(uv);
+  // Work in coordinates centred at the start centre's neighbourhood: subtract the centroid so
+  // parts far from the origin keep full precision.
+  const Eigen::Vector2d origin = uv.rowwise().mean();
+  const double scale = (uv.colwise() - origin).colwise().norm().maxCoeff();
+  Eigen::Vector3d state(start.centre.x() - origin.x(), start.centre.y() - origin.y(),
+                        start.radius);
+  // d_i = |q_i - c| - r, J_i = (-(q_i - c)/|q_i - c|, -1) (Forbes 1989, 2D circle).
+  auto evaluate = [&](const Eigen::Vector3d& p, Eigen::Matrix3d& jtj, Eigen::Vector3d& jtr) {
+    jtj.setZero();
+    jtr.setZero();
+    double ssr = 0.0;
+    for (Eigen::Index i = 0; i < uv.cols(); ++i) {
+      const double dx = uv(0, i) - origin.x() - p(0), dy = uv(1, i) - origin.y() - p(1);
+      const double rho = std::sqrt(dx * dx + dy * dy);
+      const double d = rho - p(2);
+      const double inv = rho > 0.0 ? 1.0 / rho : 0.0;
+      const Eigen::Vector3d j(-dx * inv, -dy * inv, -1.0);
+      jtj.noalias() += j * j.transpose();
+      jtr += j * d;
+      ssr += d * d;
+    }
+    return ssr;
+  };
+  auto apply = [](const Eigen::Vector3d& p, const Eigen::Vector3d& step) {
+    return Eigen::Vector3d(p + step);
+  };
+  const auto outcome =
+      gauss_newton<3>(state, evaluate, apply, Eigen::Vector3d::Ones(), scale, options,
+                      "the circle is not determined by the points (too few distinct points)");
+  if (!(state(2) > 0.0))
+    throw FitError("no least-squares circle exists for these points (the radius tends to zero)");
+  Circle2dFit fit;
+  fit.centre = origin + state.head<2>();
+  fit.radius = state(2);
+  fit.ssr = outcome.ssr;
+  fit.normal_matrix = outcome.normal_matrix;
+  fit.status = outcome.status;
+  fit.iterations = outcome.iterations;
+  return fit;
+}
+
+}  // namespace detail
+
+CircleFit fit_circle_least_squares(const Eigen::Matrix3Xd& points, const FitOptions& options) {
+  const auto n = static_cast<std::size_t>(points.cols());
+  detail::require_point_count(n, 3, "circle");
+  const Eigen::Vector3d centroid = detail::centroid(points);
+  detail::require_distinct_points(points, centroid, "circle");
+  Eigen::Vector3d normal;
+  if (options.fixed_direction) {
+    normal = detail::checked_direction(*options.fixed_direction, "fixed direction");
+  } else {
+    const detail::PrincipalAxes axes = detail::principal_axes(points, centroid);
+    if (axes.rms(1) <= detail::degenerate_spread_ratio * axes.rms(2))
+      throw FitError("the points lie on a straight line (rms " +
+                     detail::format_number(axes.rms(1), 9) + " mm off it over " +
+                     detail::format_number(2.0 * axes.scale, 6) +
+                     " mm); a circle needs points not on one line");
+    normal = axes.directions.col(0);  // the least-squares plane's normal
+  }
+  normal = detail::canonical_direction(normal, options.axis_hint);
+  const Eigen::Matrix3d basis = detail::basis_from_direction(normal);
+  const Eigen::Matrix2Xd uv = detail::planar_coordinates(points, centroid, basis);
+  const detail::Circle2dFit planar = detail::fit_circle_2d_least_squares(uv, options);
+
+  CircleFit fit;
+  fit.normal = normal;
+  fit.radius = planar.radius;
+  fit.centre = centroid + basis.leftCols<2>() * planar.centre;
+  fit.residuals = detail::make_residuals(
+      ((uv.colwise() - planar.centre).colwise().norm().array() - planar.radius).matrix().transpose());
+  fit.angular_coverage_deg = detail::angular_coverage_deg(points, fit.centre, basis);
+  fit.covariance.basis = basis;
+  fit.covariance.matrix =
+      detail::covariance_from_normal_matrix(planar.normal_matrix, planar.ssr, n);
+  fit.summary.method = FitMethod::least_squares;
+  fit.summary.point_count = n;
+  fit.summary.status = planar.status;
+  fit.summary.iterations = planar.iterations;
+  fit.summary.message = detail::iteration_message(planar.status, planar.iterations, options);
+  detail::warn_on_coverage(fit.summary, fit.angular_coverage_deg, options);
+  return fit;
+}
+
+}  // namespace cylzone

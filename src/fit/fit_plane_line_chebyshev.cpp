@@ -1,0 +1,60 @@
+// Minimum-zone planes (flatness: two parallel planes of least separation) and lines
+// (straightness in a cylindrical zone: the smallest cylinder containing the points), by the
+// sequential linear programme of detail/chebyshev.hpp, started from the least-squares element.
+#include <Eigen/Core>
+#include <tuple>
+#include <utility>
+
+#include "cylzone/fit/fit_line.hpp"
+#include "cylzone/fit/fit_plane.hpp"
+#include "fit/detail/chebyshev.hpp"
+#include "detail/fit_support.hpp"
+
+namespace cylzone {
+
+PlaneFit fit_plane_minimum_zone(const Eigen::Matrix3Xd& points, const FitOptions& options) {
+  // The least-squares plane checks the points (count, collinearity) and is the start.
+  const PlaneFit start = fit_plane_least_squares(points, options);
+  detail::PlaneZoneModel model(points, start.normal);
+  const double scale = detail::data_scale(points, model.centroid());
+  const detail::ZoneSummary zone =
+      detail::solve_zone(model, detail::ZoneObjective::minimum_zone,
+                         detail::zone_options(options, scale, start.residuals.form));
+
+  // The reported plane is the mid-plane of the zone; its point is the centroid projected on it.
+  const double mid = 0.5 * (zone.distances.maxCoeff() + zone.distances.minCoeff());
+  PlaneFit fit;
+  fit.point = model.centroid() + mid * model.normal();
+  fit.normal = detail::canonical_direction(model.normal(), options.axis_hint);
+  fit.residuals = detail::make_residuals(
+      ((points.colwise() - fit.point).transpose() * fit.normal).eval());
+  fit.summary = detail::zone_fit_summary(FitMethod::minimum_zone, zone,
+                                         static_cast<std::size_t>(points.cols()));
+  detail::warn_on_ambiguity(fit.summary, "plane", zone);
+  return fit;
+}
+
+LineFit fit_line_minimum_zone(const Eigen::Matrix3Xd& points, const FitOptions& options) {
+  // The smallest cylinder containing the points is a minimum-circumscribed problem on the
+  // orthogonal distances from the line (the same axis model as the cylinder).
+  const LineFit start = fit_line_least_squares(points, options);
+  detail::AxisZoneModel model(points, start.axis);
+  const Eigen::Vector3d c = detail::centroid(points);
+  const double scale = detail::data_scale(points, c);
+  const detail::ZoneSummary zone =
+      detail::solve_zone(model, detail::ZoneObjective::minimum_circumscribed,
+                         detail::zone_options(options, scale, start.residuals.form));
+
+  LineFit fit;
+  const Axis axis = model.axis();
+  fit.axis = detail::canonical_axis(axis.point, axis.direction, c, options.axis_hint);
+  std::tie(fit.extent_min, fit.extent_max) = detail::axial_extent(points, fit.axis);
+  fit.residuals = detail::make_residuals(zone.distances);
+  fit.residuals.form = 2.0 * zone.distances.maxCoeff();  // diameter of the cylindrical zone
+  fit.summary = detail::zone_fit_summary(FitMethod::minimum_zone, zone,
+                                         static_cast<std::size_t>(points.cols()));
+  detail::warn_on_ambiguity(fit.summary, "line", zone);
+  return fit;
+}
+
+}  // namespace cylzone

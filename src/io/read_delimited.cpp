@@ -1,0 +1,435 @@
+// Delimited text point files (CSV, semicolon-, tab- or space-separated). The whole text is in
+// memory; lines and fields are walked with pointers (memchr for line ends) and numbers parsed
+// with std::from_chars, so no per-line allocation happens and the locale never matters.
+#include <Eigen/Core>
+#include <algorithm>
+#include <array>
+#include <cctype>
+#include <charconv>
+#include <cmath>
+#include <cstring>
+#include <string>
+#include <string_view>
+#include <vector>
+
+#include "cylzone/core/errors.hpp"
+#include "cylzone/io/read_points.hpp"
+#include "io/detail/page_hints.hpp"
+#include "io/detail/text_parsing.hpp"
+
+namespace cylzone {
+namespace {
+
+using detail::NumberStatus;
+
+enum class Separator { comma, semicolon, tab, whitespace };
+
+constexpr int no_role = -1;
+constexpr std::array<const char*, 6> role_names = {"x", "y", "z", "i", "j", "k"};
+
+struct Line {
+  const char* begin = nullptr;  ///< first non-blank character
+  const char* end = nullptr;    ///< one past the last non-blank character before any comment
+  std::size_t number = 0;       ///< 1-based
+};
+
+/// Walks the content lines: strips the line end (LF or CRLF), a `#` comment and surrounding
+/// blanks, and skips lines left empty.
+class ContentLines {
+ public:
+  ContentLines(const char* begin, const char* end) : pos_(begin), end_(end) {}
+
+  bool next(Line& line) {
+    while (pos_ != end_) {
+      ++number_;
+      const char* start = pos_;
+      const auto* newline =
+          static_cast<const char*>(std::memchr(start, '\n', static_cast<std::size_t>(end_ - start)));
+      const char* stop = newline ? newline : end_;
+      pos_ = newline ? newline + 1 : end_;
+      if (const auto* hash = static_cast<const char*>(
+              std::memchr(start, '#', static_cast<std::size_t>(stop - start))))
+        stop = hash;
+      while (start != stop && detail::is_blank(*start)) ++start;
+      while (stop != start && detail::is_blank(stop[-1])) --stop;
+      if (start == stop) continue;
+      line = Line{start, stop, number_};
+      return true;
+    }
+    return false;
+  }
+
+ private:
+  const char* pos_;
+  const char* end_;
+  std::size_t number_ = 0;
+};
+
+/// The separator of a line: a semicolon anywhere wins (a file in the decimal-comma convention
+/// separates by ';'), then comma, then tab when the tab-separated fields hold no blanks (else the
+/// tabs are just blanks among others), else runs of blanks.
+Separator detect_separator(const Line& line) {
+  const std::string_view text(line.begin, static_cast<std::size_t>(line.end - line.begin));
+  if (text.find(';') != std::string_view::npos) return Separator::semicolon;
+  if (text.find(',') != std::string_view::npos) return Separator::comma;
+  if (text.find('\t') == std::string_view::npos) return Separator::whitespace;
+  for (std::size_t start = 0; start <= text.size();) {
+    const std::size_t tab = std::min(text.find('\t', start), text.size());
+    std::string_view field = text.substr(start, tab - start);
+    while (!field.empty() && detail::is_blank(field.front())) field.remove_prefix(1);
+    while (!field.empty() && detail::is_blank(field.back())) field.remove_suffix(1);
+    if (std::any_of(field.begin(), field.end(), detail::is_blank)) return Separator::whitespace;
+    start = tab + 1;
+  }
+  return Separator::tab;
+}
+
+std::string separator_name(Separator separator) {
+  switch (separator) {
+    case Separator::comma: return "','";
+    case Separator::semicolon: return "';'";
+    case Separator::tab: return "tab";
+    case Separator::whitespace: return "blanks";
+  }
+  return {};
+}
+
+/// Splits a content line into fields (blanks around each trimmed). With a character separator an
+/// empty field stays (so "1,,3" is seen as having an empty field) and a field wholly in double
+/// quotes loses them (RFC 4180 section 2 allows any field to be quoted).
+void split_fields(const Line& line, Separator separator, std::vector<std::string_view>& fields) {
+  fields.clear();
+  const char* p = line.begin;
+  if (separator == Separator::whitespace) {
+    while (p != line.end) {
+      const char* start = p;
+      while (p != line.end && !detail::is_blank(*p)) ++p;
+      fields.emplace_back(start, static_cast<std::size_t>(p - start));
+      while (p != line.end && detail::is_blank(*p)) ++p;
+    }
+    return;
+  }
+  const char mark = separator == Separator::comma ? ',' : separator == Separator::semicolon ? ';' : '\t';
+  for (;;) {
+    const auto* next =
+        static_cast<const char*>(std::memchr(p, mark, static_cast<std::size_t>(line.end - p)));
+    const char* stop = next ? next : line.end;
+    const char* start = p;
+    while (start != stop && detail::is_blank(*start)) ++start;
+    const char* finish = stop;
+    while (finish != start && detail::is_blank(finish[-1])) --finish;
+    if (finish - start >= 2 && *start == '"' && finish[-1] == '"') {
+      ++start;
+      --finish;
+    }
+    fields.emplace_back(start, static_cast<std::size_t>(finish - start));
+    if (!next) return;
+    p = next + 1;
+  }
+}
+
+std::string lower_case(std::string_view text) {
+  std::string out(text);
+  std::transform(out.begin(), out.end(), out.begin(),
+                 [](unsigned char c) { return static_cast<char>(std::tolower(c)); });
+  return out;
+}
+
+/// Role of a header name: 0..2 for x y z, 3..5 for the vector components, no_role otherwise.
+int role_of(const std::string& name) {
+  static const std::array<std::array<const char*, 3>, 6> accepted = {{
+      {"x", nullptr, nullptr},
+      {"y", nullptr, nullptr},
+      {"z", nullptr, nullptr},
+      {"i", "nx", "u"},
+      {"j", "ny", "v"},
+      {"k", "nz", "w"},
+  }};
+  for (int role = 0; role < 6; ++role)
+    for (const char* alias : accepted[static_cast<std::size_t>(role)])
+      if (alias && name == alias) return role;
+  return no_role;
+}
+
+bool is_number(std::string_view field) {
+  double value = 0.0;
+  return !field.empty() && detail::parse_number(field.data(), field.data() + field.size(),
+                                                value) != NumberStatus::not_a_number;
+}
+
+/// Numbers and empty fields: a first line of these is data (an empty field is reported there).
+bool is_number_or_empty(std::string_view field) { return field.empty() || is_number(field); }
+
+/// Column layout: which field index holds x, y, z (and i, j, k when present).
+struct Columns {
+  std::array<int, 6> field_of_role = {no_role, no_role, no_role, no_role, no_role, no_role};
+  std::vector<std::string> names;  ///< name of each field for messages
+  std::size_t field_count = 0;
+  bool has_vectors = false;
+  bool from_header = false;
+  std::size_t defining_line = 0;  ///< the header line, or the first data line
+};
+
+Columns columns_from_header(const std::vector<std::string_view>& fields, const Line& line,
+                            const std::string& source) {
+  Columns columns;
+  columns.from_header = true;
+  columns.field_count = fields.size();
+  columns.defining_line = line.number;
+  for (std::size_t f = 0; f < fields.size(); ++f) {
+    std::string name = lower_case(fields[f]);
+    const int role = role_of(name);
+    if (role != no_role) {
+      auto& slot = columns.field_of_role[static_cast<std::size_t>(role)];
+      if (slot != no_role)
+        throw InputError(source, line.number,
+                         "header columns " + std::to_string(slot + 1) + " ('" +
+                             columns.names[static_cast<std::size_t>(slot)] + "') and " +
+                             std::to_string(f + 1) + " ('" + name + "') both give " +
+                             role_names[static_cast<std::size_t>(role)]);
+      slot = static_cast<int>(f);
+    }
+    columns.names.push_back(std::move(name));
+  }
+  for (int role = 0; role < 3; ++role) {
+    if (columns.field_of_role[static_cast<std::size_t>(role)] != no_role) continue;
+    // A first line that is partly numeric is more likely bad data than a header: name the
+    // field that failed to parse rather than a missing column.
+    if (std::any_of(fields.begin(), fields.end(), is_number)) {
+      const auto bad = std::find_if_not(fields.begin(), fields.end(), is_number);
+      throw InputError(source, line.number,
+                       "field " + std::to_string(bad - fields.begin() + 1) + " " +
+                           detail::describe_number_problem(NumberStatus::not_a_number, *bad) +
+                           " (the line is not a header either: it has no column '" +
+                           role_names[static_cast<std::size_t>(role)] + "')");
+    }
+    std::string found;
+    for (const std::string& name : columns.names) found += (found.empty() ? "" : ", ") + name;
+    throw InputError(source, line.number,
+                     std::string("header has no column '") +
+                         role_names[static_cast<std::size_t>(role)] +
+                         "' (x, y and z are required; found: " + found + ")");
+  }
+  int vector_columns = 0;
+  for (int role = 3; role < 6; ++role)
+    vector_columns += columns.field_of_role[static_cast<std::size_t>(role)] != no_role;
+  if (vector_columns != 0 && vector_columns != 3) {
+    for (int role = 3; role < 6; ++role)
+      if (columns.field_of_role[static_cast<std::size_t>(role)] == no_role)
+        throw InputError(source, line.number,
+                         std::string("header has vector columns but no '") +
+                             role_names[static_cast<std::size_t>(role)] +
+                             "' (a vector needs i, j and k, or nx, ny and nz)");
+  }
+  columns.has_vectors = vector_columns == 3;
+  return columns;
+}
+
+Columns columns_without_header(std::size_t field_count, const Line& line,
+                               const std::string& source) {
+  if (field_count != 3 && field_count != 6)
+    throw InputError(source, line.number,
+                     "found " + std::to_string(field_count) +
+                         " fields; without a header line each line needs 3 (x y z) or 6 "
+                         "(x y z i j k)");
+  Columns columns;
+  columns.field_count = field_count;
+  columns.defining_line = line.number;
+  columns.has_vectors = field_count == 6;
+  for (std::size_t role = 0; role < field_count; ++role) {
+    columns.field_of_role[role] = static_cast<int>(role);
+    columns.names.emplace_back(role_names[role]);
+  }
+  return columns;
+}
+
+std::size_t count_lines(const char* begin, const char* end) {
+  return static_cast<std::size_t>(std::count(begin, end, '\n')) + 1;
+}
+
+/// The common case of a data line, parsed in one pass without splitting it: every used field a
+/// plain number as std::from_chars reads it (and finite), fields separated as the file's
+/// separator says. Returns false on anything else; the caller then parses the line again with
+/// parse_fields(), which gives the same values wherever both accept a line and the precise
+/// message where it does not. The two-tier scheme halves the reading time of large files.
+bool parse_plain_line(const Line& line, Separator separator,
+                      const std::vector<int>& role_of_field, double* values) {
+  const char* p = line.begin;
+  const char* const e = line.end;
+  const bool blanks = separator == Separator::whitespace;
+  // With blanks as separator no character is the mark; '\n' never occurs inside a line.
+  const char mark = separator == Separator::comma       ? ','
+                    : separator == Separator::semicolon ? ';'
+                    : separator == Separator::tab       ? '\t'
+                                                        : '\n';
+  const std::size_t count = role_of_field.size();
+  for (std::size_t f = 0; f < count; ++f) {
+    if (f > 0) {
+      if (blanks) {
+        if (p == e || !detail::is_blank(*p)) return false;
+      } else {
+        while (p != e && detail::is_blank(*p) && *p != mark) ++p;
+        if (p == e || *p != mark) return false;
+        ++p;
+      }
+      while (p != e && detail::is_blank(*p) && *p != mark) ++p;
+    }
+    const int role = role_of_field[f];
+    if (role >= 0) {
+      double value = 0.0;
+      const auto [end, ec] = std::from_chars(p, e, value);
+      if (ec != std::errc() || !std::isfinite(value)) return false;
+      values[role] = value;
+      p = end;
+    } else if (blanks) {
+      while (p != e && !detail::is_blank(*p)) ++p;
+    } else {
+      while (p != e && *p != mark) ++p;
+    }
+  }
+  return p == e;
+}
+
+/// Any data line: split into fields, checked against the column layout and parsed with
+/// detail::parse_number; throws the line's first problem.
+void parse_fields(const std::vector<std::string_view>& fields, const Line& line,
+                  Separator separator, const Columns& columns, std::size_t header_line,
+                  const std::string& source, double* values) {
+  if (fields.size() != columns.field_count) {
+    const std::string expected = columns.from_header
+                                     ? "as in the header on line " + std::to_string(header_line)
+                                     : "as on line " + std::to_string(columns.defining_line);
+    throw InputError(source, line.number,
+                     "found " + std::to_string(fields.size()) + " field" +
+                         (fields.size() == 1 ? "" : "s") + ", expected " +
+                         std::to_string(columns.field_count) + " " + expected +
+                         " (fields separated by " + separator_name(separator) + ")");
+  }
+  const int used_roles = columns.has_vectors ? 6 : 3;
+  for (int role = 0; role < used_roles; ++role) {
+    const auto f = static_cast<std::size_t>(columns.field_of_role[static_cast<std::size_t>(role)]);
+    const std::string_view field = fields[f];
+    const NumberStatus status =
+        field.empty() ? NumberStatus::not_a_number
+                      : detail::parse_number(field.data(), field.data() + field.size(), values[role]);
+    if (status != NumberStatus::ok) {
+      std::string problem = "field " + std::to_string(f + 1) + " (" + columns.names[f] + ") " +
+                            detail::describe_number_problem(status, field);
+      if (separator == Separator::semicolon && field.find(',') != std::string_view::npos)
+        problem += "; decimal commas are not supported, write 1.5 rather than 1,5";
+      throw InputError(source, line.number, problem);
+    }
+  }
+}
+
+}  // namespace
+
+PointCloud parse_delimited_points(std::string_view text, const std::string& source,
+                                  const ReadOptions& options) {
+  // UTF-16 would pass as "binary" below; name it, since spreadsheet tools produce it.
+  if (text.size() >= 2 && ((static_cast<unsigned char>(text[0]) == 0xff &&
+                            static_cast<unsigned char>(text[1]) == 0xfe) ||
+                           (static_cast<unsigned char>(text[0]) == 0xfe &&
+                            static_cast<unsigned char>(text[1]) == 0xff)))
+    throw InputError(source, 0, "text is UTF-16 encoded; save it as UTF-8 or ASCII");
+  if (text.size() >= 3 && text.compare(0, 3, "\xEF\xBB\xBF") == 0) text.remove_prefix(3);
+  if (const auto offset = detail::find_binary_byte(text))
+    throw InputError(source, 0,
+                     "looks like binary data; expected delimited text with x y z [i j k] per "
+                     "line (" +
+                         detail::describe_byte(static_cast<unsigned char>(text[*offset]), *offset) +
+                         "; mesh files need a .ply, .obj, .off or .stl extension)");
+
+  const char* const begin = text.data();
+  const char* const end = begin + text.size();
+  ContentLines lines(begin, end);
+  Line line;
+  if (!lines.next(line)) {
+    const bool blank = std::all_of(begin, end, [](char c) { return detail::is_blank(c) || c == '\n'; });
+    throw InputError(source, 0,
+                     blank ? "no points: the file is empty"
+                           : "no points: the file has only comments and blank lines");
+  }
+
+  // The separator is decided on the first data line (numbers never hold blanks, header names
+  // may); the first content line is split once beforehand only to tell header from data.
+  Separator separator = detect_separator(line);
+  std::vector<std::string_view> fields;
+  fields.reserve(16);
+  split_fields(line, separator, fields);
+  Columns columns;
+  std::size_t header_line = 0;
+  if (std::all_of(fields.begin(), fields.end(), is_number_or_empty)) {
+    columns = columns_without_header(fields.size(), line, source);
+  } else {
+    const Line header = line;
+    header_line = header.number;
+    if (!lines.next(line)) {
+      columns_from_header(fields, header, source);  // a bad header is the first problem to name
+      throw InputError(source, 0,
+                       "no points: header on line " + std::to_string(header_line) +
+                           " but no data lines");
+    }
+    separator = detect_separator(line);
+    split_fields(header, separator, fields);
+    columns = columns_from_header(fields, header, source);
+  }
+
+  // Upper bound on the number of points: the number of lines from the first data line on.
+  const std::size_t capacity = count_lines(line.begin, end);
+  Eigen::Matrix3Xd points(3, static_cast<Eigen::Index>(capacity));
+  detail::prefer_huge_pages(points.data(), sizeof(double) * 3 * capacity);
+  Eigen::Matrix3Xd vectors;
+  if (columns.has_vectors) {
+    vectors.resize(3, static_cast<Eigen::Index>(capacity));
+    detail::prefer_huge_pages(vectors.data(), sizeof(double) * 3 * capacity);
+  }
+  const double scale = millimetres_per(options.unit);
+  const int used_roles = columns.has_vectors ? 6 : 3;
+
+  // Role of each field (-1: ignored column), for the one-pass parse of plain lines.
+  std::vector<int> role_of_field(columns.field_count, no_role);
+  for (int role = 0; role < used_roles; ++role)
+    role_of_field[static_cast<std::size_t>(columns.field_of_role[static_cast<std::size_t>(role)])] = role;
+
+  Eigen::Index n = 0;
+  do {
+    double values[6];
+    if (!parse_plain_line(line, separator, role_of_field, values)) {
+      split_fields(line, separator, fields);
+      parse_fields(fields, line, separator, columns, header_line, source, values);
+    }
+    for (int r = 0; r < 3; ++r) {
+      const double mm = values[r] * scale;
+      if (!std::isfinite(mm))
+        throw InputError(source, line.number,
+                         "field " + std::to_string(columns.field_of_role[static_cast<std::size_t>(r)] + 1) +
+                             " is out of the range of a double after conversion to mm");
+      points(r, n) = mm;
+    }
+    if (columns.has_vectors) {
+      // Scale by the largest component first so neither overflow nor underflow can spoil the
+      // norm of a vector written with huge or tiny components.
+      const double largest =
+          std::max({std::abs(values[3]), std::abs(values[4]), std::abs(values[5])});
+      if (largest == 0.0)
+        throw InputError(source, line.number, "vector (i j k) has zero length");
+      const Eigen::Vector3d v = Eigen::Vector3d(values[3], values[4], values[5]) / largest;
+      vectors.col(n) = v / v.norm();
+    }
+    ++n;
+  } while (lines.next(line));
+
+  PointCloud cloud;
+  points.conservativeResize(3, n);
+  cloud.points = std::move(points);
+  if (columns.has_vectors) {
+    vectors.conservativeResize(3, n);
+    cloud.vectors = std::move(vectors);
+  }
+  cloud.source = source;
+  cloud.file_unit = options.unit;
+  return cloud;
+}
+
+}  // namespace cylzone
