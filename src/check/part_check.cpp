@@ -103,7 +103,7 @@ PartCheckResult check_part(const PartPlan& plan, const CheckOptions& options) {
 
   PartCheckResult result;
   result.plan = plan;
-  result.inputs.push_back({"plan", plan.file, detail::sha256_of_file(plan.file), 0});
+  result.inputs.push_back({"plan", plan.file, plan.sha256, 0});
 
   ReadOptions read;
   read.unit = plan.unit;

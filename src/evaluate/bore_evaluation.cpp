@@ -385,9 +385,6 @@ void evaluate_in_zone(BoreResult& result, const PlanBore& bore, const FitOptions
 
 }  // namespace
 
-std::string_view verdict_name(Verdict verdict) noexcept {
-  return verdict == Verdict::conforms ? "conforms" : "does not conform";
-}
 
 BoreResult evaluate_bore(const PlanBore& bore, const Eigen::Matrix3Xd& points,
                          const BoreEvaluationOptions& options) {

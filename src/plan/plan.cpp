@@ -1,4 +1,5 @@
 #include "cylzone/plan/plan.hpp"
+#include "io/detail/file_digest.hpp"
 
 #include <toml++/toml.h>
 
@@ -798,7 +799,9 @@ class PlanParser {
 }  // namespace
 
 PartPlan parse_plan(std::string_view text, const std::filesystem::path& file, bool check_files) {
-  return PlanParser(file, check_files).parse(text);
+  PartPlan plan = PlanParser(file, check_files).parse(text);
+  plan.sha256 = detail::sha256_of_bytes(text);
+  return plan;
 }
 
 PartPlan read_plan(const std::filesystem::path& file) {

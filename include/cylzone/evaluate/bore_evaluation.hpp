@@ -9,6 +9,7 @@
 #include <string>
 #include <vector>
 
+#include "cylzone/decide/characteristic.hpp"
 #include "cylzone/evaluate/axis_zone.hpp"
 #include "cylzone/fit/fit_cylinder.hpp"
 #include "cylzone/plan/plan.hpp"
@@ -17,9 +18,6 @@
 
 namespace cylzone {
 
-enum class Verdict { conforms, does_not_conform };
-/// "conforms", "does not conform".
-std::string_view verdict_name(Verdict verdict) noexcept;
 
 /// Position (cylindrical zone about the true-position axis) over the evaluated range.
 struct PositionResult {

@@ -107,6 +107,8 @@ struct PlanBore {
 
 struct PartPlan {
   std::filesystem::path file;
+  /// SHA-256 (lower-case hex) of exactly the plan text that was parsed, for the input records.
+  std::string sha256;
   std::string name;
   LengthUnit unit = LengthUnit::millimetre;
   ProbeSettings probe;
