@@ -19,6 +19,7 @@
 #include <random>
 
 #include "cylzone/evaluate/bore_evaluation.hpp"
+#include "cylzone/decide/bore_characteristics.hpp"
 #include "cylzone/core/errors.hpp"
 #include "reference_data.hpp"
 
@@ -28,6 +29,18 @@ using cylzone::testing::direction_from_angles;
 using cylzone::testing::make_lobed_cylinder;
 
 namespace {
+
+/// The decided verdict of the characteristics of `r` whose id starts with "<bore>/<prefix>"
+/// (decide/bore_characteristics.hpp), combined; empty when there is none.
+std::optional<Verdict> verdict_of(const BoreResult& r, const std::string& prefix) {
+  std::vector<Characteristic> group;
+  for (const Characteristic& c : bore_characteristics(r))
+    if (c.id.rfind(r.id + "/" + prefix, 0) == 0) group.push_back(c);
+  if (group.empty()) return std::nullopt;
+  return combine(group);
+}
+
+std::string size_reason_of(const BoreResult& r) { return size_reason(bore_characteristics(r), r.id); }
 
 constexpr double pi = 3.14159265358979323846;
 constexpr double deg = pi / 180.0;
@@ -140,14 +153,14 @@ TEST_CASE("tilted, offset, lobed bore: every figure against its closed form", "[
   CHECK(r.size.two_point_min == Approx(2 * b.radius).margin(1e-10));
   CHECK(r.size.two_point_max == Approx(2 * b.radius).margin(1e-10));
   CHECK(r.size.two_point_count == 9 * 12);  // 12 diametral pairs per level of 24 points
-  REQUIRE(r.size.verdict.has_value());
-  CHECK(*r.size.verdict == Verdict::conforms);  // 12.006 >= 12.000, 12.010 <= 12.018
+  REQUIRE(verdict_of(r, "size/").has_value());
+  CHECK(*verdict_of(r, "size/") == Verdict::conforms);  // 12.006 >= 12.000, 12.010 <= 12.018
   CHECK(r.sections.size() == 9);
 
   // Form.
   CHECK(r.form.cylindricity == Approx(2 * b.eps).margin(agreement));
-  REQUIRE(r.form.verdict.has_value());
-  CHECK(*r.form.verdict == Verdict::conforms);
+  REQUIRE(verdict_of(r, "cylindricity").has_value());
+  CHECK(*verdict_of(r, "cylindricity") == Verdict::conforms);
 
   // Position over the full depth: 2 max |e| at the ends of [-64, 0].
   REQUIRE(r.position.has_value());
@@ -167,7 +180,7 @@ TEST_CASE("tilted, offset, lobed bore: every figure against its closed form", "[
   CHECK(p.bonus == Approx(2 * (b.radius - b.eps) - 12.000).margin(agreement));
   CHECK(p.allowed == Approx(0.025 + p.bonus).margin(1e-15));
   CHECK(p.value > p.allowed);
-  CHECK(p.verdict == Verdict::does_not_conform);
+  CHECK(*verdict_of(r, "position") == Verdict::does_not_conform);
   // Where the axis leaves the allowed zone: |e0 + h k| = allowed / 2, solved here directly.
   {
     const Eigen::Vector2d k = (e_bottom - e_top) / -64.0;
@@ -184,7 +197,7 @@ TEST_CASE("tilted, offset, lobed bore: every figure against its closed form", "[
   REQUIRE(r.perpendicularity.has_value());
   CHECK(r.perpendicularity->value == Approx(64.0 * std::tan(3e-4)).margin(agreement));
   CHECK(r.perpendicularity->bonus == 0.0);  // RFS
-  CHECK(r.perpendicularity->verdict == Verdict::does_not_conform);  // 0.0192 > 0.015
+  CHECK(*verdict_of(r, "perpendicularity") == Verdict::does_not_conform);  // 0.0192 > 0.015
 
   // Tilt.
   CHECK(r.tilt.angle_rad == Approx(3e-4).margin(1e-10));
@@ -195,9 +208,9 @@ TEST_CASE("tilted, offset, lobed bore: every figure against its closed form", "[
   REQUIRE(r.virtual_condition.has_value());
   CHECK(r.virtual_condition->boundary == Approx(11.975).margin(1e-15));
   CHECK(r.virtual_condition->on_true_position);
-  CHECK(r.virtual_condition->comparison == ">=");
+  CHECK(r.virtual_condition->comparison == Comparison::at_least);
   CHECK(r.virtual_condition->clearance == Approx(2 * radial_extremes(b.points, zone).first).margin(1e-12));
-  CHECK(r.virtual_condition->verdict == (r.virtual_condition->clearance >= 11.975
+  CHECK(*verdict_of(r, "virtual-condition") == (r.virtual_condition->clearance >= 11.975
                                              ? Verdict::conforms : Verdict::does_not_conform));
 
   // The plan's depth reaches 1 mm beyond each end of a 62 mm probed band: normal (a probe
@@ -238,7 +251,7 @@ TEST_CASE("probed extent is the default range; a bore inside its zone conforms",
                                         deviation_at(b.axis, zone, zmin).norm());
   CHECK(r.position->value == Approx(expected).margin(agreement));
   CHECK(r.position->bonus == 0.0);
-  CHECK(r.position->verdict == Verdict::conforms);
+  CHECK(*verdict_of(r, "position") == Verdict::conforms);
   CHECK_FALSE(r.position->leaves_zone_at.has_value());
   CHECK_FALSE(r.virtual_condition.has_value());  // RFS
   for (const std::string& w : r.warnings) CHECK(w.find("extrapolated") == std::string::npos);
@@ -336,7 +349,7 @@ TEST_CASE("median line on a bent axis: section centres, position, perpendiculari
   // enclosing circle is that segment's.
   REQUIRE(r.perpendicularity.has_value());
   CHECK(r.perpendicularity->value == Approx(0.012).margin(1e-9));
-  CHECK(r.perpendicularity->verdict == Verdict::does_not_conform);
+  CHECK(*verdict_of(r, "perpendicularity") == Verdict::does_not_conform);
   // The top centre is inside the 0.016 zone, the middle one outside: the median line leaves the
   // zone between two sections, where the straight segment joining them crosses radius 0.008.
   REQUIRE(p.leaves_zone_at.has_value());
@@ -350,7 +363,7 @@ TEST_CASE("median line on a bent axis: section centres, position, perpendiculari
   const double f = (h - levels[j - 1]) / (levels[j] - levels[j - 1]);
   const Eigen::Vector2d at = expected_offset[j - 1] + f * (expected_offset[j] - expected_offset[j - 1]);
   CHECK(at.norm() == Approx(0.008).margin(1e-9));
-  CHECK(p.verdict == Verdict::does_not_conform);
+  CHECK(*verdict_of(r, "position") == Verdict::does_not_conform);
   // The reported axis is the centres' least-squares line: parallel to z here.
   CHECK(r.tilt.angle_rad < 1e-9);
 }
@@ -436,24 +449,24 @@ TEST_CASE("size verdict per Rule #1 names the failed limit", "[bore_evaluation]"
   // Mating envelope 12.006 below a lower limit of 12.008.
   b.plan.size = SizeLimits{12.008, 12.030};
   BoreResult r = evaluate_bore(b.plan, b.points);
-  REQUIRE(r.size.verdict.has_value());
-  CHECK(*r.size.verdict == Verdict::does_not_conform);
-  CHECK_THAT(r.size.reason, Contains("actual mating envelope 12.0060") && Contains("lower limit 12.0080"));
-  CHECK(*r.size.lower_verdict == Verdict::does_not_conform);
-  CHECK(*r.size.upper_verdict == Verdict::conforms);
+  REQUIRE(verdict_of(r, "size/").has_value());
+  CHECK(*verdict_of(r, "size/") == Verdict::does_not_conform);
+  CHECK_THAT(size_reason_of(r), Contains("actual mating envelope 12.0060") && Contains("lower limit 12.0080"));
+  CHECK(*verdict_of(r, "size/lower") == Verdict::does_not_conform);
+  CHECK(*verdict_of(r, "size/upper") == Verdict::conforms);
   // Two-point size 12.010 above an upper limit of 12.009 (the mating envelope is fine).
   b.plan.size = SizeLimits{12.000, 12.009};
   r = evaluate_bore(b.plan, b.points);
-  CHECK(*r.size.verdict == Verdict::does_not_conform);
-  CHECK_THAT(r.size.reason, Contains("largest two-point size 12.0100") && Contains("upper limit 12.0090"));
-  CHECK(r.size.reason.find("mating") == std::string::npos);
-  CHECK(*r.size.lower_verdict == Verdict::conforms);
-  CHECK(*r.size.upper_verdict == Verdict::does_not_conform);
+  CHECK(*verdict_of(r, "size/") == Verdict::does_not_conform);
+  CHECK_THAT(size_reason_of(r), Contains("largest two-point size 12.0100") && Contains("upper limit 12.0090"));
+  CHECK(size_reason_of(r).find("mating") == std::string::npos);
+  CHECK(*verdict_of(r, "size/lower") == Verdict::conforms);
+  CHECK(*verdict_of(r, "size/upper") == Verdict::does_not_conform);
   // No limits: no verdict.
   b.plan.size.reset();
   r = evaluate_bore(b.plan, b.points);
-  CHECK_FALSE(r.size.verdict.has_value());
-  CHECK_FALSE(r.size.lower_verdict.has_value());
+  CHECK_FALSE(verdict_of(r, "size/").has_value());
+  CHECK_FALSE(verdict_of(r, "size/lower").has_value());
 }
 
 TEST_CASE("LMC: bonus from the minimum material envelope, boundary around the bore", "[bore_evaluation]") {
@@ -466,10 +479,10 @@ TEST_CASE("LMC: bonus from the minimum material envelope, boundary around the bo
   CHECK(r.position->bonus == Approx(12.018 - 2 * (b.radius + b.eps)).margin(agreement));
   REQUIRE(r.virtual_condition.has_value());
   CHECK(r.virtual_condition->boundary == Approx(12.018 + 0.040).margin(1e-15));
-  CHECK(r.virtual_condition->comparison == "<=");
+  CHECK(r.virtual_condition->comparison == Comparison::at_most);
   // The smallest cylinder on the true-position axis containing every point.
   CHECK(r.virtual_condition->clearance == Approx(2 * radial_extremes(b.points, zone).second).margin(1e-12));
-  CHECK(r.virtual_condition->verdict == Verdict::conforms);
+  CHECK(*verdict_of(r, "virtual-condition") == Verdict::conforms);
 }
 
 TEST_CASE("perpendicularity at MMC alone: its boundary is free in location", "[bore_evaluation]") {
@@ -498,7 +511,7 @@ TEST_CASE("perpendicularity at MMC alone: its boundary is free in location", "[b
                                                 wander * wander / (4 * (b.radius - b.eps)) + 1e-5);
     CHECK(r.size.related_mating_envelope >= 2 * (b.radius - b.eps) - wander - 1e-5);
     // 11.998 is above the upper bound 11.9956; 11.970 below the lower bound 11.9874.
-    CHECK(r.virtual_condition->verdict == (t < 0.01 ? Verdict::does_not_conform : Verdict::conforms));
+    CHECK(*verdict_of(r, "virtual-condition") == (t < 0.01 ? Verdict::does_not_conform : Verdict::conforms));
   }
 }
 

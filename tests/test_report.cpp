@@ -9,6 +9,7 @@
 #include <unistd.h>
 
 #include "cylzone/core/errors.hpp"
+#include "cylzone/decide/bore_characteristics.hpp"
 #include "cylzone/report/report.hpp"
 
 namespace fs = std::filesystem;
@@ -56,15 +57,14 @@ PartCheckResult hand_made_result() {
   p.value = 0.100;
   p.bonus = 0.010;
   p.allowed = 0.090;
-  p.verdict = Verdict::does_not_conform;
   b.position = p;
   PositionResult moved = p;
   moved.value = 0.085;
-  moved.verdict = Verdict::conforms;
   b.position_with_mobility = moved;
   b.mobility_motion = FrameMotion{};
   r.bores.push_back(b);
-  r.verdict = Verdict::conforms;
+  r.characteristics = bore_characteristics(b);
+  r.verdict = combine(r.characteristics);
   return r;
 }
 

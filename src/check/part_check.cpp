@@ -7,6 +7,7 @@
 #include <map>
 #include <utility>
 
+#include "cylzone/decide/bore_characteristics.hpp"
 #include "cylzone/evaluate/datum_mobility.hpp"
 #include "cylzone/core/errors.hpp"
 #include "cylzone/fit/fit_plane.hpp"
@@ -77,20 +78,12 @@ void apply_mobility(const PartPlan& plan, const DatumFrameResult& frame,
   }
 }
 
-/// The position result that decides the characteristic.
-const PositionResult* deciding_position(const BoreResult& bore) {
-  if (bore.position_with_mobility) return &*bore.position_with_mobility;
-  return bore.position ? &*bore.position : nullptr;
-}
-
-bool conforms(const BoreResult& bore) {
-  auto ok = [](const auto& opt) { return !opt || opt->verdict == Verdict::conforms; };
-  const PositionResult* position = deciding_position(bore);
-  if (position && position->verdict != Verdict::conforms) return false;
-  if (!ok(bore.perpendicularity) || !ok(bore.virtual_condition)) return false;
-  if (bore.size.verdict && *bore.size.verdict != Verdict::conforms) return false;
-  if (bore.form.verdict && *bore.form.verdict != Verdict::conforms) return false;
-  return true;
+/// The decisive position characteristic of a bore (after mobility when the frame may move).
+const Characteristic* deciding_position(const std::vector<Characteristic>& characteristics,
+                                        const std::string& bore_id) {
+  if (const Characteristic* m = find_characteristic(characteristics, bore_id + "/position/mobility"))
+    return m;
+  return find_characteristic(characteristics, bore_id + "/position");
 }
 
 std::string datum_role(char label) { return std::string("datum ") + label; }
@@ -191,13 +184,15 @@ PartCheckResult check_part(const PartPlan& plan, const CheckOptions& options) {
       for (std::size_t i = 0; i < plan.bores.size(); ++i) {
         AssociationSensitivity row;
         row.association = method;
-        if (const PositionResult* p = deciding_position(moved[i])) {
+        const std::vector<Characteristic> decided = bore_characteristics(moved[i], options.decision);
+        if (const Characteristic* p = deciding_position(decided, moved[i].id)) {
           row.position = p->value;
           row.position_verdict = p->verdict;
         }
-        if (moved[i].perpendicularity) {
-          row.perpendicularity = moved[i].perpendicularity->value;
-          row.perpendicularity_verdict = moved[i].perpendicularity->verdict;
+        if (const Characteristic* p =
+                find_characteristic(decided, moved[i].id + "/perpendicularity")) {
+          row.perpendicularity = p->value;
+          row.perpendicularity_verdict = p->verdict;
         }
         result.sensitivity[i].rows.push_back(row);
       }
@@ -214,11 +209,11 @@ PartCheckResult check_part(const PartPlan& plan, const CheckOptions& options) {
     }
   }
 
-  result.verdict = Verdict::conforms;
-  for (BoreResult& bore : result.bores) {
-    bore.verdict = conforms(bore) ? Verdict::conforms : Verdict::does_not_conform;
-    if (bore.verdict != Verdict::conforms) result.verdict = Verdict::does_not_conform;
-  }
+  // Decide: every characteristic of every bore, by the one decision function.
+  for (const BoreResult& bore : result.bores)
+    for (Characteristic& c : bore_characteristics(bore, options.decision))
+      result.characteristics.push_back(std::move(c));
+  result.verdict = combine(result.characteristics);
   return result;
 }
 

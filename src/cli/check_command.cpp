@@ -36,7 +36,12 @@ int run_check(const CheckArguments& args) {
   if (!args.json.empty()) write_file_atomically(args.json, json, inputs);
   if (!args.csv.empty()) write_file_atomically(args.csv, csv, inputs);
   if (!args.quiet) std::cout << format_table(result);
-  return result.verdict == Verdict::conforms ? exit_success : exit_nonconforming;
+  switch (result.verdict) {
+    case Verdict::conforms: return exit_success;
+    case Verdict::does_not_conform: return exit_nonconforming;
+    case Verdict::not_proven: return exit_not_proven;
+  }
+  return exit_not_proven;
 }
 
 }  // namespace

@@ -10,6 +10,9 @@ namespace cylzone::cli {
 inline constexpr int exit_success = 0;
 inline constexpr int exit_nonconforming = 1;
 inline constexpr int exit_input_error = 2;
+/// Not every characteristic could be decided (e.g. a decision rule that counts the measurement
+/// uncertainty proved neither conformance nor non-conformance), and none is proven not to conform.
+inline constexpr int exit_not_proven = 3;
 
 struct CommandResult {
   std::function<int()> run;

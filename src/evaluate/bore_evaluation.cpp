@@ -22,8 +22,9 @@ namespace cylzone {
 namespace {
 
 constexpr double pi = 3.14159265358979323846;
-/// Verdicts compare value <= allowed with this slack (mm) to absorb rounding only.
-constexpr double verdict_slack = 1e-12;
+/// The rounding slack of the decision rule (decide/characteristic.hpp), so that "where the axis
+/// leaves the zone" uses the zone the decision uses.
+const double verdict_slack = DecisionRule{}.slack;
 /// More probed levels than this, or levels thicker than the section gap, mean a scanned cloud.
 constexpr std::size_t max_probed_levels = 50;
 /// Heights within this distance (mm) of the range's ends count as inside it.
@@ -121,7 +122,6 @@ PositionResult evaluate_position(const PlanTolerance& spec, double top, double b
       break;
     }
   }
-  r.verdict = r.value <= r.allowed + verdict_slack ? Verdict::conforms : Verdict::does_not_conform;
   return r;
 }
 
@@ -378,7 +378,6 @@ void evaluate_in_zone(BoreResult& result, const PlanBore& bore, const FitOptions
                               : perpendicularity_over_range(result.axis_in_zone, own_top, own_bottom);
     p.bonus = bonus_for(spec);
     p.allowed = spec.tolerance + p.bonus;
-    p.verdict = p.value <= p.allowed + verdict_slack ? Verdict::conforms : Verdict::does_not_conform;
     result.perpendicularity = p;
   }
 }
@@ -521,47 +520,10 @@ BoreResult evaluate_bore(const PlanBore& bore, const Eigen::Matrix3Xd& points,
   if (local_sizes.count == 0)
     warnings.push_back("no opposed point pairs in any section: no two-point sizes; the upper "
                        "limit is checked with the minimum material envelope instead");
-  if (bore.size) {
-    const SizeLimits& limits = *bore.size;
-    std::vector<std::string> reasons;
-    bool lower_ok = true, upper_ok = true;
-    // Envelope requirement: no perfect cylinder of MMC size may be prevented from entering.
-    if (mating_size < limits.lower - verdict_slack) {
-      lower_ok = false;
-      reasons.push_back("actual mating envelope " + mm(mating_size) + " is below the lower limit " +
-                        mm(limits.lower));
-    }
-    if (local_sizes.count > 0) {
-      if (local_sizes.min < limits.lower - verdict_slack) {
-        lower_ok = false;
-        reasons.push_back("smallest two-point size " + mm(local_sizes.min) +
-                          " is below the lower limit " + mm(limits.lower));
-      }
-      if (local_sizes.max > limits.upper + verdict_slack) {
-        upper_ok = false;
-        reasons.push_back("largest two-point size " + mm(local_sizes.max) +
-                          " exceeds the upper limit " + mm(limits.upper));
-      }
-    } else if (minimum_material_size > limits.upper + verdict_slack) {
-      upper_ok = false;
-      reasons.push_back("minimum material envelope " + mm(minimum_material_size) +
-                        " exceeds the upper limit " + mm(limits.upper));
-    }
-    const auto verdict_of = [](bool ok) { return ok ? Verdict::conforms : Verdict::does_not_conform; };
-    size.lower_verdict = verdict_of(lower_ok);
-    size.upper_verdict = verdict_of(upper_ok);
-    size.verdict = verdict_of(lower_ok && upper_ok);
-    for (std::size_t k = 0; k < reasons.size(); ++k)
-      size.reason += (k ? "; " : "") + reasons[k];
-  }
 
   // ---- 8. Cylindricity: minimum-zone radial separation (ISO 12180-1; ASME Y14.5-2018 5.4.4).
   result.form.cylindricity = result.minimum_zone.residuals.form;
   result.form.tolerance = bore.cylindricity;
-  if (bore.cylindricity)
-    result.form.verdict = result.form.cylindricity <= *bore.cylindricity + verdict_slack
-                              ? Verdict::conforms
-                              : Verdict::does_not_conform;
 
   // ---- 9. Virtual condition: the surface interpretation of a tolerance at MMC/LMC.
   const auto material_modified = [](const std::optional<PlanTolerance>& t) {
@@ -574,7 +536,7 @@ BoreResult evaluate_bore(const PlanBore& bore, const Eigen::Matrix3Xd& points,
     const bool at_mmc = spec.condition == MaterialCondition::mmc;
     vc.boundary = virtual_condition(spec.condition, FeatureKind::bore, *bore.size, spec.tolerance);
     vc.on_true_position = on_position;
-    vc.comparison = at_mmc ? ">=" : "<=";
+    vc.comparison = at_mmc ? Comparison::at_least : Comparison::at_most;
     if (on_position && result.position->projected) {
       // The boundary stands above A, where the bore has no surface: the perfect envelope is
       // extended into it. At MMC the extended envelope (radius R, axis offset e(h) from the
@@ -616,9 +578,6 @@ BoreResult evaluate_bore(const PlanBore& bore, const Eigen::Matrix3Xd& points,
         vc.clearance = outer.diameter();
       }
     }
-    const bool ok = at_mmc ? vc.clearance >= vc.boundary - verdict_slack
-                           : vc.clearance <= vc.boundary + verdict_slack;
-    vc.verdict = ok ? Verdict::conforms : Verdict::does_not_conform;
     result.virtual_condition = vc;
   }
   return result;

@@ -6,6 +6,7 @@
 #include <nlohmann/json.hpp>
 #include <sstream>
 
+#include "cylzone/decide/bore_characteristics.hpp"
 #include "cylzone/version.hpp"
 
 namespace cylzone {
@@ -38,11 +39,19 @@ json optional_number(const std::optional<double>& v, const ReportUnits& u) {
   return v ? json(u.length(*v)) : json(nullptr);
 }
 
-std::string tolerance_reference(const PlanTolerance& spec) {
-  std::string text = datum_references_text(spec.datums);
-  if (spec.condition != MaterialCondition::rfs) text += " " + std::string(condition_name(spec.condition));
-  if (spec.projected_height) text += " projected";
-  return text;
+/// The decided verdict of characteristic `id`, or null when the bore has no such characteristic.
+json verdict_json(const std::vector<Characteristic>& cs, const std::string& id) {
+  const Characteristic* c = find_characteristic(cs, id);
+  return c ? json(std::string(verdict_name(c->verdict))) : json(nullptr);
+}
+
+/// The combined verdict of the characteristics whose id starts with `prefix` (e.g. a bore's
+/// size limits), or null when there are none.
+json group_verdict_json(const std::vector<Characteristic>& cs, const std::string& prefix) {
+  std::vector<Characteristic> group;
+  for (const Characteristic& c : cs)
+    if (c.id.compare(0, prefix.size(), prefix) == 0) group.push_back(c);
+  return group.empty() ? json(nullptr) : json(std::string(verdict_name(combine(group))));
 }
 
 json deviation_json(const AxisDeviation& d, const ReportUnits& u) {
@@ -52,7 +61,7 @@ json deviation_json(const AxisDeviation& d, const ReportUnits& u) {
           {"position", u.length(d.diameter())}};
 }
 
-json position_json(const PositionResult& p, const ReportUnits& u) {
+json position_json(const PositionResult& p, json verdict, const ReportUnits& u) {
   json j = {{"tolerance", u.length(p.spec.tolerance)},
             {"modifier", std::string(condition_name(p.spec.condition))},
             {"datums", datum_references_text(p.spec.datums)},
@@ -66,7 +75,7 @@ json position_json(const PositionResult& p, const ReportUnits& u) {
             {"bottom", deviation_json(p.bottom, u)},
             {"worst", deviation_json(p.worst, u)},
             {"leaves_zone_at", optional_number(p.leaves_zone_at, u)},
-            {"verdict", std::string(verdict_name(p.verdict))}};
+            {"verdict", std::move(verdict)}};
   if (!p.section_centres.empty()) {
     json centres = json::array();
     for (const AxisDeviation& c : p.section_centres) centres.push_back(deviation_json(c, u));
@@ -110,10 +119,11 @@ json size_datum_json(const SizeDatumResult& d, const ReportUnits& u) {
           {"stray_points", stray_json(d.stray_points, u)}};
 }
 
-json bore_json(const BoreResult& b, const BoreSensitivity* s, const ReportUnits& u) {
+json bore_json(const BoreResult& b, const BoreSensitivity* s,
+               const std::vector<Characteristic>& cs, const ReportUnits& u) {
   json j;
   j["id"] = b.id;
-  j["verdict"] = std::string(verdict_name(b.verdict));
+  j["verdict"] = std::string(verdict_name(feature_verdict(cs, b.id)));
   j["axis_method"] = std::string(axis_method_name(b.axis_method));
   j["axis"] = {{"point", u.point(b.axis.point)}, {"direction", direction(b.axis.direction)}};
   j["probed"] = {{"top", u.length(b.probed_top)}, {"bottom", u.length(b.probed_bottom)}};
@@ -127,16 +137,15 @@ json bore_json(const BoreResult& b, const BoreSensitivity* s, const ReportUnits&
                {"two_point_min", u.length(b.size.two_point_min)},
                {"two_point_max", u.length(b.size.two_point_max)},
                {"two_point_count", b.size.two_point_count},
-               {"verdict", b.size.verdict ? json(std::string(verdict_name(*b.size.verdict)))
-                                          : json(nullptr)},
-               {"reason", b.size.reason}};
+               {"verdict", group_verdict_json(cs, b.id + "/size/")},
+               {"reason", size_reason(cs, b.id)}};
   j["form"] = {{"cylindricity", u.length(b.form.cylindricity)},
                {"tolerance", optional_number(b.form.tolerance, u)},
-               {"verdict", b.form.verdict ? json(std::string(verdict_name(*b.form.verdict)))
-                                          : json(nullptr)}};
-  j["position"] = b.position ? position_json(*b.position, u) : json(nullptr);
+               {"verdict", verdict_json(cs, b.id + "/cylindricity")}};
+  j["position"] =
+      b.position ? position_json(*b.position, verdict_json(cs, b.id + "/position"), u) : json(nullptr);
   if (b.position_with_mobility) {
-    json m = position_json(*b.position_with_mobility, u);
+    json m = position_json(*b.position_with_mobility, verdict_json(cs, b.id + "/position/mobility"), u);
     m["motion"] = {{"shift", json::array({u.length(b.mobility_motion->shift.x()),
                                           u.length(b.mobility_motion->shift.y())})},
                    {"rotation_rad", b.mobility_motion->rotation_rad}};
@@ -154,7 +163,7 @@ json bore_json(const BoreResult& b, const BoreSensitivity* s, const ReportUnits&
                              {"value", u.length(p.value)},
                              {"bonus", u.length(p.bonus)},
                              {"allowed", u.length(p.allowed)},
-                             {"verdict", std::string(verdict_name(p.verdict))}};
+                             {"verdict", verdict_json(cs, b.id + "/perpendicularity")}};
   } else {
     j["perpendicularity"] = nullptr;
   }
@@ -162,7 +171,7 @@ json bore_json(const BoreResult& b, const BoreSensitivity* s, const ReportUnits&
       b.virtual_condition
           ? json{{"boundary", u.length(b.virtual_condition->boundary)},
                  {"clearance", u.length(b.virtual_condition->clearance)},
-                 {"verdict", std::string(verdict_name(b.virtual_condition->verdict))}}
+                 {"verdict", verdict_json(cs, b.id + "/virtual-condition")}}
           : json(nullptr);
   j["fits"] = {{"least_squares", fit_json(b.least_squares, u)},
                {"mating_envelope", fit_json(b.mating_envelope, u)},
@@ -219,46 +228,9 @@ std::string pad_left(std::string text, std::size_t width) {
 
 std::vector<CharacteristicRow> characteristic_rows(const PartCheckResult& result) {
   std::vector<CharacteristicRow> rows;
-  for (const BoreResult& b : result.bores) {
-    if (b.position) {
-      const PositionResult& p = *b.position;
-      const std::string name = p.projected ? "position (projected zone)" : "position";
-      if (b.position_with_mobility) {
-        const PositionResult& m = *b.position_with_mobility;
-        rows.push_back({b.id, name + ", frame fixed", tolerance_reference(p.spec), p.value,
-                        p.spec.tolerance, p.bonus, p.allowed, "<=", p.verdict, false});
-        rows.push_back({b.id, name + ", datum mobility", tolerance_reference(m.spec), m.value,
-                        m.spec.tolerance, m.bonus, m.allowed, "<=", m.verdict, true});
-      } else {
-        rows.push_back({b.id, name, tolerance_reference(p.spec), p.value, p.spec.tolerance,
-                        p.bonus, p.allowed, "<=", p.verdict, true});
-      }
-    }
-    if (b.perpendicularity) {
-      const PerpendicularityResult& p = *b.perpendicularity;
-      std::string ref = "A";
-      if (p.spec.condition != MaterialCondition::rfs)
-        ref += " " + std::string(condition_name(p.spec.condition));
-      rows.push_back({b.id, "perpendicularity", ref, p.value, p.spec.tolerance, p.bonus,
-                      p.allowed, "<=", p.verdict, true});
-    }
-    if (b.size.limits && b.size.lower_verdict && b.size.upper_verdict) {
-      const SizeLimits& l = *b.size.limits;
-      rows.push_back({b.id, "size, mating envelope", "lower limit", b.size.mating_envelope,
-                      l.lower, 0.0, l.lower, ">=", *b.size.lower_verdict, true});
-      rows.push_back({b.id, "size, largest two-point", "upper limit", b.size.two_point_max,
-                      l.upper, 0.0, l.upper, "<=", *b.size.upper_verdict, true});
-    }
-    if (b.form.tolerance && b.form.verdict)
-      rows.push_back({b.id, "cylindricity", "", b.form.cylindricity, *b.form.tolerance, 0.0,
-                      *b.form.tolerance, "<=", *b.form.verdict, true});
-    if (b.virtual_condition) {
-      const VirtualConditionResult& v = *b.virtual_condition;
-      rows.push_back({b.id, "virtual condition",
-                      v.on_true_position ? "on true position" : "perpendicular to A",
-                      v.clearance, v.boundary, 0.0, v.boundary, v.comparison, v.verdict, true});
-    }
-  }
+  for (const Characteristic& c : result.characteristics)
+    rows.push_back({c.feature, c.name, c.reference, c.value, c.tolerance, c.bonus, c.allowed,
+                    std::string(comparison_symbol(c.comparison)), c.verdict, c.decisive});
   return rows;
 }
 
@@ -324,7 +296,8 @@ std::string format_json(const PartCheckResult& r) {
   j["datums"] = datums;
 
   json bores = json::array();
-  for (const BoreResult& b : r.bores) bores.push_back(bore_json(b, sensitivity_of(r, b.id), u));
+  for (const BoreResult& b : r.bores)
+    bores.push_back(bore_json(b, sensitivity_of(r, b.id), r.characteristics, u));
   j["bores"] = bores;
   j["verdict"] = std::string(verdict_name(r.verdict));
   j["warnings"] = r.warnings;
@@ -466,7 +439,8 @@ std::string format_table(const PartCheckResult& r) {
   for (const std::string& warning : r.warnings) out << "warning: " << warning << '\n';
 
   std::size_t failing = 0;
-  for (const BoreResult& b : r.bores) failing += b.verdict == Verdict::does_not_conform;
+  for (const BoreResult& b : r.bores)
+    failing += feature_verdict(r.characteristics, b.id) == Verdict::does_not_conform;
   out << "\nPart verdict: "
       << (r.verdict == Verdict::conforms ? std::string("CONFORMS")
                                          : "DOES NOT CONFORM (" + std::to_string(failing) +

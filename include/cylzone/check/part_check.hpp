@@ -9,6 +9,7 @@
 #include <string>
 #include <vector>
 
+#include "cylzone/decide/characteristic.hpp"
 #include "cylzone/evaluate/bore_evaluation.hpp"
 #include "cylzone/evaluate/datum_mobility.hpp"
 #include "cylzone/datum/datum_frame.hpp"
@@ -45,6 +46,7 @@ struct CheckOptions {
   bool sensitivity = true;  ///< re-run the frame with every association of A
   BoreEvaluationOptions evaluation;
   MobilityOptions mobility;
+  DecisionRule decision;  ///< how every characteristic is decided
 };
 
 struct PartCheckResult {
@@ -53,7 +55,10 @@ struct PartCheckResult {
   DatumFrameResult datums;
   std::vector<BoreResult> bores;  ///< plan order
   std::vector<BoreSensitivity> sensitivity;
-  Verdict verdict = Verdict::conforms;  ///< does_not_conform when any characteristic does not
+  /// Every bore's characteristics, decided (decide/bore_characteristics.hpp), in plan order.
+  std::vector<Characteristic> characteristics;
+  /// The part's decision: combine() over the characteristics.
+  Verdict verdict = Verdict::conforms;
   std::vector<std::string> warnings;
 };
 

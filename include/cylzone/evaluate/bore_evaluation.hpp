@@ -2,7 +2,8 @@
 /// \file bore_evaluation.hpp
 /// Evaluation of one bore in the datum reference frame: its fits, the toleranced axis, position
 /// over the full depth (or a projected zone), perpendicularity to A, size, form, bonus and
-/// virtual condition, each with a verdict. docs/evaluation.md gives the definitions and sources.
+/// virtual condition. Values only: the decide stage (decide/bore_characteristics.hpp) compares
+/// them with their limits. docs/evaluation.md gives the definitions and sources.
 
 #include <Eigen/Core>
 #include <optional>
@@ -39,7 +40,6 @@ struct PositionResult {
   /// Median-line evaluation only: the section centres within the range, from the top down. The
   /// median line is taken as straight between centres where it leaves the zone.
   std::vector<AxisDeviation> section_centres;
-  Verdict verdict = Verdict::conforms;
 };
 
 /// Perpendicularity to A: smallest cylinder perpendicular to A containing the axis over the range.
@@ -50,10 +50,9 @@ struct PerpendicularityResult {
   double value = 0.0;
   double bonus = 0.0;
   double allowed = 0.0;
-  Verdict verdict = Verdict::conforms;
 };
 
-/// Sizes (diameters, mm). The size verdict applies the limits as ASME Y14.5-2018 Rule #1 does
+/// Sizes (diameters, mm). The decide stage applies the limits as ASME Y14.5-2018 Rule #1 does
 /// for a bore: the actual mating envelope must not be smaller than the lower limit, and every
 /// actual local (two-point) size must lie within the limits. Without any opposed point pair
 /// the upper limit is checked with the minimum material envelope (a warning says so).
@@ -67,18 +66,11 @@ struct SizeResult {
   double two_point_min = 0.0;              ///< actual local sizes from opposed points in sections
   double two_point_max = 0.0;
   std::size_t two_point_count = 0;
-  std::optional<Verdict> verdict;          ///< empty without limits; both sides must conform
-  /// Mating envelope >= lower limit, and the smallest two-point size too.
-  std::optional<Verdict> lower_verdict;
-  /// Largest two-point size <= upper limit (the minimum material envelope without pairs).
-  std::optional<Verdict> upper_verdict;
-  std::string reason;                      ///< which limit failed, when one did
 };
 
 struct FormResult {
   double cylindricity = 0.0;  ///< minimum-zone radial separation
   std::optional<double> tolerance;
-  std::optional<Verdict> verdict;
 };
 
 /// The toleranced feature must not violate its virtual condition boundary (the surface
@@ -89,15 +81,15 @@ struct FormResult {
 /// perpendicularity at MMC/LMC without a material-modified position, the boundary is
 /// perpendicular to A and free in location.
 ///  * MMC (bore): `clearance` is the diameter of the largest cylinder on that axis (or
-///    perpendicular to A) clear of every point; conforms when clearance >= boundary.
+///    perpendicular to A) clear of every point; it conforms when clearance >= boundary.
 ///  * LMC (bore): `clearance` is the diameter of the smallest such cylinder containing every
-///    point; conforms when clearance <= boundary.
+///    point; it conforms when clearance <= boundary.
 struct VirtualConditionResult {
   double boundary = 0.0;   ///< virtual condition size (bore at MMC: MMC - t; at LMC: LMC + t)
   double clearance = 0.0;  ///< see above
-  std::string comparison = ">=";  ///< how clearance is compared with boundary: ">=" or "<="
+  /// How clearance is compared with boundary: at_least (MMC) or at_most (LMC).
+  Comparison comparison = Comparison::at_least;
   bool on_true_position = true;   ///< false: perpendicularity's boundary, free in location
-  Verdict verdict = Verdict::conforms;
 };
 
 struct TiltResult {
@@ -140,13 +132,10 @@ struct BoreResult {
   /// Position re-evaluated after the best frame motion the datum reference allows (datum
   /// feature shift at MMB, or degrees of freedom it leaves free), shared by all bores with the
   /// same datum reference (simultaneous requirement). Empty when the frame is fully fixed.
-  /// When present, its verdict decides the position characteristic.
+  /// When present, it decides the position characteristic (decide stage).
   std::optional<PositionResult> position_with_mobility;
   std::optional<FrameMotion> mobility_motion;
   std::string mobility_reason;  ///< e.g. "datum B at MMB: shift up to 0.0123"
-  /// The bore's decision: does_not_conform when any characteristic does not (set by
-  /// check_part, the decision stage, from the verdicts above).
-  Verdict verdict = Verdict::conforms;
   std::vector<std::string> warnings;
 };
 

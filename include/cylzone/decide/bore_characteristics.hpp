@@ -1,0 +1,55 @@
+#pragma once
+/// \file bore_characteristics.hpp
+/// The characteristics of an evaluated bore, each decided: the decide stage between evaluation
+/// (values, evaluate/bore_evaluation.hpp) and the reports. Ids and names are listed in
+/// docs/report-schema.md; the rules follow ASME Y14.5-2018 and ISO 1101/2692 as described in
+/// docs/evaluation.md.
+///
+///  id                          value                         compared with
+///  <bore>/position             position in the fixed frame   <= tolerance + bonus
+///  <bore>/position/mobility    position after datum mobility <= tolerance + bonus
+///  <bore>/perpendicularity     perpendicularity to A         <= tolerance + bonus
+///  <bore>/size/lower           actual mating envelope        >= lower limit
+///  <bore>/size/lower/two-point smallest two-point size       >= lower limit
+///  <bore>/size/upper           largest two-point size        <= upper limit
+///                              (minimum material envelope without opposed point pairs)
+///  <bore>/cylindricity         minimum-zone cylindricity     <= tolerance
+///  <bore>/virtual-condition    clearance on the boundary     >= (MMC) / <= (LMC) boundary
+///
+/// The size limits follow Rule #1 of ASME Y14.5-2018 (the envelope requirement for the lower
+/// limit of a hole, actual local sizes within both limits). When the datum reference lets the
+/// frame move, the fixed-frame position is shown for comparison only (not decisive): the
+/// moved frame's position decides.
+
+#include <string>
+#include <string_view>
+#include <vector>
+
+#include "cylzone/decide/characteristic.hpp"
+#include "cylzone/evaluate/bore_evaluation.hpp"
+
+namespace cylzone {
+
+/// Every characteristic of `bore` in the order above (those its plan does not tolerance are
+/// left out), each decided under `rule`.
+std::vector<Characteristic> bore_characteristics(const BoreResult& bore,
+                                                 const DecisionRule& rule = {});
+
+/// The characteristic with this id, or nullptr.
+const Characteristic* find_characteristic(const std::vector<Characteristic>& characteristics,
+                                          std::string_view id) noexcept;
+
+/// The decision of one feature: combine() over the characteristics whose `feature` it is.
+Verdict feature_verdict(const std::vector<Characteristic>& characteristics,
+                        std::string_view feature);
+
+/// Why a bore's size does not conform, in words, e.g. "largest two-point size 12.0213 exceeds
+/// the upper limit 12.0180" (several joined by "; "); empty when every size limit conforms.
+std::string size_reason(const std::vector<Characteristic>& characteristics,
+                        std::string_view feature);
+
+/// The datum reference and modifier of a tolerance, as reports print it: "A|B(M)|C MMC",
+/// "A projected".
+std::string tolerance_reference(const PlanTolerance& spec);
+
+}  // namespace cylzone

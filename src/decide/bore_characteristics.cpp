@@ -1,0 +1,136 @@
+// A bore's characteristics, built from its evaluated values and decided by the one decision
+// function (decide/characteristic.hpp). The table, CSV and JSON reports print these.
+#include "cylzone/decide/bore_characteristics.hpp"
+
+#include "detail/fit_support.hpp"
+
+namespace cylzone {
+namespace {
+
+std::string mm(double value) { return detail::format_number(value, 4); }
+
+Characteristic make(const BoreResult& bore, std::string kind, std::string name,
+                    std::string reference, double value, double tolerance, double bonus,
+                    double allowed, Comparison comparison, bool decisive = true) {
+  Characteristic c;
+  c.id = bore.id + "/" + kind;
+  c.feature = bore.id;
+  c.name = std::move(name);
+  c.reference = std::move(reference);
+  c.value = value;
+  c.tolerance = tolerance;
+  c.bonus = bonus;
+  c.allowed = allowed;
+  c.comparison = comparison;
+  c.decisive = decisive;
+  return c;
+}
+
+Characteristic position_characteristic(const BoreResult& bore, const PositionResult& p,
+                                       std::string kind, std::string name, bool decisive) {
+  return make(bore, std::move(kind), std::move(name), tolerance_reference(p.spec), p.value,
+              p.spec.tolerance, p.bonus, p.allowed, Comparison::at_most, decisive);
+}
+
+}  // namespace
+
+std::string tolerance_reference(const PlanTolerance& spec) {
+  std::string text = datum_references_text(spec.datums);
+  if (spec.condition != MaterialCondition::rfs)
+    text += " " + std::string(condition_name(spec.condition));
+  if (spec.projected_height) text += " projected";
+  return text;
+}
+
+std::vector<Characteristic> bore_characteristics(const BoreResult& b, const DecisionRule& rule) {
+  std::vector<Characteristic> out;
+  if (b.position) {
+    const std::string name = b.position->projected ? "position (projected zone)" : "position";
+    if (b.position_with_mobility) {
+      out.push_back(position_characteristic(b, *b.position, "position", name + ", frame fixed",
+                                            false));
+      out.push_back(position_characteristic(b, *b.position_with_mobility, "position/mobility",
+                                            name + ", datum mobility", true));
+    } else {
+      out.push_back(position_characteristic(b, *b.position, "position", name, true));
+    }
+  }
+  if (b.perpendicularity) {
+    const PerpendicularityResult& p = *b.perpendicularity;
+    std::string reference = "A";
+    if (p.spec.condition != MaterialCondition::rfs)
+      reference += " " + std::string(condition_name(p.spec.condition));
+    out.push_back(make(b, "perpendicularity", "perpendicularity", reference, p.value,
+                       p.spec.tolerance, p.bonus, p.allowed, Comparison::at_most));
+  }
+  if (b.size.limits) {
+    const SizeLimits& l = *b.size.limits;
+    // Rule #1 (ASME Y14.5-2018): the envelope of perfect form at MMC must fit, and every actual
+    // local size must lie within the limits.
+    out.push_back(make(b, "size/lower", "size, mating envelope", "lower limit",
+                       b.size.mating_envelope, l.lower, 0.0, l.lower, Comparison::at_least));
+    if (b.size.two_point_count > 0) {
+      out.push_back(make(b, "size/lower/two-point", "size, smallest two-point", "lower limit",
+                         b.size.two_point_min, l.lower, 0.0, l.lower, Comparison::at_least));
+      out.push_back(make(b, "size/upper", "size, largest two-point", "upper limit",
+                         b.size.two_point_max, l.upper, 0.0, l.upper, Comparison::at_most));
+    } else {
+      out.push_back(make(b, "size/upper", "size, minimum material envelope", "upper limit",
+                         b.size.minimum_material_envelope, l.upper, 0.0, l.upper,
+                         Comparison::at_most));
+    }
+  }
+  if (b.form.tolerance)
+    out.push_back(make(b, "cylindricity", "cylindricity", "", b.form.cylindricity,
+                       *b.form.tolerance, 0.0, *b.form.tolerance, Comparison::at_most));
+  if (b.virtual_condition) {
+    const VirtualConditionResult& v = *b.virtual_condition;
+    out.push_back(make(b, "virtual-condition", "virtual condition",
+                       v.on_true_position ? "on true position" : "perpendicular to A",
+                       v.clearance, v.boundary, 0.0, v.boundary, v.comparison));
+  }
+  for (Characteristic& c : out) {
+    c.verdict = decide(c, rule);
+    c.rule = rule.kind;
+  }
+  return out;
+}
+
+const Characteristic* find_characteristic(const std::vector<Characteristic>& characteristics,
+                                          std::string_view id) noexcept {
+  for (const Characteristic& c : characteristics)
+    if (c.id == id) return &c;
+  return nullptr;
+}
+
+Verdict feature_verdict(const std::vector<Characteristic>& characteristics,
+                        std::string_view feature) {
+  std::vector<Characteristic> own;
+  for (const Characteristic& c : characteristics)
+    if (c.feature == feature) own.push_back(c);
+  return combine(own);
+}
+
+std::string size_reason(const std::vector<Characteristic>& characteristics,
+                        std::string_view feature) {
+  std::string reason;
+  for (const Characteristic& c : characteristics) {
+    if (c.feature != feature || c.verdict != Verdict::does_not_conform) continue;
+    const std::string_view kind = std::string_view(c.id).substr(feature.size() + 1);
+    std::string what;
+    if (kind == "size/lower")
+      what = "actual mating envelope " + mm(c.value) + " is below the lower limit ";
+    else if (kind == "size/lower/two-point")
+      what = "smallest two-point size " + mm(c.value) + " is below the lower limit ";
+    else if (kind == "size/upper")
+      what = (c.name == "size, largest two-point" ? "largest two-point size "
+                                                  : "minimum material envelope ") +
+             mm(c.value) + " exceeds the upper limit ";
+    else
+      continue;
+    reason += (reason.empty() ? "" : "; ") + what + mm(c.tolerance);
+  }
+  return reason;
+}
+
+}  // namespace cylzone
