@@ -1,6 +1,6 @@
 // `cylzone check PLAN`: the main job. Parses arguments, runs the library's part check, prints
-// the table and writes the requested reports. Exit 0: all conform; 1: something does not
-// conform; 2: input error.
+// the table and writes the requested reports (all of them or none, io/atomic_write.hpp).
+// Exit 0: all conform; 1: something does not conform (or is not proven); 2: input error.
 #include <iostream>
 #include <memory>
 #include <string>
@@ -9,6 +9,7 @@
 #include "cli/commands.hpp"
 #include "cylzone/check/part_check.hpp"
 #include "cylzone/plan/plan.hpp"
+#include "cylzone/io/atomic_write.hpp"
 #include "cylzone/report/report.hpp"
 
 namespace cylzone::cli {
@@ -22,21 +23,39 @@ struct CheckArguments {
   bool quiet = false;
 };
 
+/// Every file the plan reads: reports must never be written over one of them.
+std::vector<std::filesystem::path> plan_inputs(const PartPlan& plan) {
+  std::vector<std::filesystem::path> inputs{plan.file};
+  for (const PlanDatum& d : plan.datums) inputs.push_back(d.points);
+  for (const PlanBore& b : plan.bores) inputs.push_back(b.points);
+  return inputs;
+}
+
 int run_check(const CheckArguments& args) {
   const PartPlan plan = read_plan(args.plan);
+  // Output paths are checked before the evaluation: a bad one costs nothing and leaves nothing.
+  std::vector<OutputTarget> targets;
+  if (!args.json.empty()) targets.push_back({args.json, "--json"});
+  if (!args.csv.empty()) targets.push_back({args.csv, "--csv"});
+  validate_outputs(targets, plan_inputs(plan));
+
   CheckOptions options;
   options.sensitivity = !args.no_sensitivity;
   const PartCheckResult result = check_part(plan, options);
+  const ReportModel model = make_report_model(result);
 
   std::vector<std::filesystem::path> inputs;
   for (const InputRecord& input : result.inputs) inputs.push_back(input.path);
-  // Render everything before writing anything, so an error cannot leave one report behind.
-  const std::string json = args.json.empty() ? std::string() : format_json(result);
-  const std::string csv = args.csv.empty() ? std::string() : format_csv(result);
-  if (!args.json.empty()) write_file_atomically(args.json, json, inputs);
-  if (!args.csv.empty()) write_file_atomically(args.csv, csv, inputs);
-  if (!args.quiet) std::cout << format_table(result);
-  return result.verdict == Verdict::conforms ? exit_success : exit_nonconforming;
+  // Render everything, then commit the files as a set: all of them or none.
+  std::vector<OutputFile> files;
+  for (const OutputTarget& t : targets)
+    files.push_back({t, t.role == "--json" ? format_json(model) : format_csv(model)});
+  write_outputs(files, inputs, std::cout);
+  // A report on standard output keeps it machine-readable: the table then goes to stderr.
+  bool report_on_stdout = false;
+  for (const OutputTarget& t : targets) report_on_stdout |= is_standard_output(t.path);
+  if (!args.quiet) (report_on_stdout ? std::cerr : std::cout) << format_table(model);
+  return model.verdict == Verdict::conforms ? exit_success : exit_nonconforming;
 }
 
 }  // namespace
@@ -46,11 +65,11 @@ void add_check_command(CLI::App& app, CommandResult& result) {
   CLI::App* check = app.add_subcommand(
       "check", "Check every bore of a part plan against its zones over the full depth");
   check->add_option("PLAN", args->plan, "part plan (TOML, docs/plan.md)")->required();
-  check->add_option("--json", args->json, "write the complete report as JSON to this file");
-  check->add_option("--csv", args->csv, "write one CSV row per characteristic to this file");
+  check->add_option("--json", args->json, "write the complete report as JSON to this file ('-': standard output)");
+  check->add_option("--csv", args->csv, "write one CSV row per characteristic to this file ('-': standard output)");
   check->add_flag("--no-sensitivity", args->no_sensitivity,
                   "skip re-evaluating with the other associations of datum A");
-  check->add_flag("--quiet", args->quiet, "do not print the table");
+  check->add_flag("--quiet", args->quiet, "do not print the table (printed to stderr when a report goes to standard output)");
   check->callback([args, &result]() {
     result.context = args->plan + ": ";
     result.run = [args]() { return run_check(*args); };
