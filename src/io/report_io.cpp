@@ -127,7 +127,8 @@ fs::path write_temporary(const fs::path& file, std::string_view content, const s
     temp = directory / temporary_name(file.filename().string(), pid, n);
     fd = ::open(temp.c_str(), O_WRONLY | O_CREAT | O_EXCL | O_CLOEXEC | O_NOFOLLOW, 0600);
     if (fd < 0 && (errno != EEXIST || n > 1000))
-      throw InputError(name, 0, "cannot create temporary file: " + errno_text(errno));
+      throw InputError(name, 0, "cannot create a temporary file in " + quoted(directory) + ": " +
+                                    errno_text(errno));
   }
   const auto fail = [&](const std::string& what) {
     const std::string reason = errno_text(errno);
