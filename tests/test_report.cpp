@@ -259,8 +259,8 @@ TEST_CASE("JSON reader: malformed input names the source and the JSON path") {
   const std::string good = format_json(result_with_size(LengthUnit::millimetre));
   CHECK(error_of("{\n  \"schema\": ,\n}").find("earlier.json:2") != std::string::npos);
   CHECK(error_of("[1, 2]").find("expected a JSON object") != std::string::npos);
-  CHECK(error_of(replaced(good, "cylzone-report-1", "cylzone-report-9", "{")).find("cylzone-report-9") !=
-        std::string::npos);
+  const std::string schema = error_of(replaced(good, "cylzone-report-1", "cylzone-report-9", "{"));
+  CHECK(schema.find("cylzone-report-9") != std::string::npos);
   std::string key;
   error_of(replaced(good, "\"value\": 0.1", "\"value\": \"0.1\""), &key);
   CHECK(key == "characteristics[0].value");
@@ -270,7 +270,8 @@ TEST_CASE("JSON reader: malformed input names the source and the JSON path") {
   CHECK(key.find(".comparison") != std::string::npos);
   error_of(replaced(good, "\"characteristics\": [", "\"characteristic_list\": [", "{"), &key);
   CHECK(key == "characteristics");
-  const std::string units = error_of(replaced(good, "\"units\": \"mm\"", "\"units\": \"cubit\"", "\"plan\": {"), &key);
+  const std::string units = error_of(
+      replaced(good, "\"units\": \"mm\"", "\"units\": \"cubit\"", "\"plan\": {"), &key);
   CHECK(key == "plan.units");
   CHECK(units.find("cubit") != std::string::npos);
 }

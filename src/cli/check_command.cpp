@@ -4,12 +4,13 @@
 #include <iostream>
 #include <memory>
 #include <string>
+#include <utility>
 #include <vector>
 
 #include "cli/commands.hpp"
 #include "cylzone/check/part_check.hpp"
-#include "cylzone/plan/plan.hpp"
 #include "cylzone/io/atomic_write.hpp"
+#include "cylzone/plan/plan.hpp"
 #include "cylzone/report/report.hpp"
 
 namespace cylzone::cli {
@@ -34,9 +35,12 @@ std::vector<std::filesystem::path> plan_inputs(const PartPlan& plan) {
 int run_check(const CheckArguments& args) {
   const PartPlan plan = read_plan(args.plan);
   // Output paths are checked before the evaluation: a bad one costs nothing and leaves nothing.
+  using Renderer = std::string (*)(const ReportModel&);
+  std::vector<std::pair<OutputTarget, Renderer>> outputs;
+  if (!args.json.empty()) outputs.push_back({{args.json, "--json"}, &format_json});
+  if (!args.csv.empty()) outputs.push_back({{args.csv, "--csv"}, &format_csv});
   std::vector<OutputTarget> targets;
-  if (!args.json.empty()) targets.push_back({args.json, "--json"});
-  if (!args.csv.empty()) targets.push_back({args.csv, "--csv"});
+  for (const auto& output : outputs) targets.push_back(output.first);
   validate_outputs(targets, plan_inputs(plan));
 
   CheckOptions options;
@@ -48,8 +52,7 @@ int run_check(const CheckArguments& args) {
   for (const InputRecord& input : result.inputs) inputs.push_back(input.path);
   // Render everything, then commit the files as a set: all of them or none.
   std::vector<OutputFile> files;
-  for (const OutputTarget& t : targets)
-    files.push_back({t, t.role == "--json" ? format_json(model) : format_csv(model)});
+  for (const auto& [target, render] : outputs) files.push_back({target, render(model)});
   write_outputs(files, inputs, std::cout);
   // A report on standard output keeps it machine-readable: the table then goes to stderr.
   bool report_on_stdout = false;
@@ -65,11 +68,14 @@ void add_check_command(CLI::App& app, CommandResult& result) {
   CLI::App* check = app.add_subcommand(
       "check", "Check every bore of a part plan against its zones over the full depth");
   check->add_option("PLAN", args->plan, "part plan (TOML, docs/plan.md)")->required();
-  check->add_option("--json", args->json, "write the complete report as JSON to this file ('-': standard output)");
-  check->add_option("--csv", args->csv, "write one CSV row per characteristic to this file ('-': standard output)");
+  check->add_option("--json", args->json,
+                    "write the complete report as JSON to this file ('-': standard output)");
+  check->add_option("--csv", args->csv,
+                    "write one CSV row per characteristic to this file ('-': standard output)");
   check->add_flag("--no-sensitivity", args->no_sensitivity,
                   "skip re-evaluating with the other associations of datum A");
-  check->add_flag("--quiet", args->quiet, "do not print the table (printed to stderr when a report goes to standard output)");
+  check->add_flag("--quiet", args->quiet,
+                  "do not print the table (it goes to stderr when a report goes to stdout)");
   check->callback([args, &result]() {
     result.context = args->plan + ": ";
     result.run = [args]() { return run_check(*args); };

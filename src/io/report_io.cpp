@@ -51,7 +51,9 @@ ResolvedTarget resolve_target(const fs::path& target) {
     if (::access(directory.c_str(), W_OK | X_OK) != 0)
       throw InputError(name, 0, "cannot write report: directory " + quoted(directory) +
                                     " is not writable (" + errno_text(errno) + ")");
-    return {fs::absolute(fs::weakly_canonical(target, ec)), false};
+    fs::path file = fs::weakly_canonical(fs::absolute(target), ec);
+    if (ec || file.empty()) throw InputError(name, 0, "cannot write report: " + ec.message());
+    return {std::move(file), false};
   }
   struct stat info = link_info;
   if (S_ISLNK(link_info.st_mode) && ::stat(target.c_str(), &info) != 0)

@@ -450,7 +450,8 @@ ReportModel read_report_json(std::string_view bytes, const std::string& source) 
       s.mating_is_width = d.contains("mating_width");
       s.mating_size = mm(d, path, s.mating_is_width ? "mating_width" : "mating_size");
       const std::string boundary = in.text(d, path, "boundary");
-      for (MaterialBoundary b : {MaterialBoundary::rmb, MaterialBoundary::mmb, MaterialBoundary::lmb})
+      for (MaterialBoundary b :
+           {MaterialBoundary::rmb, MaterialBoundary::mmb, MaterialBoundary::lmb})
         if (boundary == boundary_name(b)) s.boundary = b;
       if (!s.boundary) in.fail(path + ".boundary", "unknown boundary '" + boundary + "'");
       s.mmb_size = mm_or_null(d, path, "mmb_size");

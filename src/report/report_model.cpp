@@ -11,7 +11,8 @@ namespace {
 
 std::string tolerance_reference(const PlanTolerance& spec) {
   std::string text = datum_references_text(spec.datums);
-  if (spec.condition != MaterialCondition::rfs) text += " " + std::string(condition_name(spec.condition));
+  if (spec.condition != MaterialCondition::rfs)
+    text += " " + std::string(condition_name(spec.condition));
   if (spec.projected_height) text += " projected";
   return text;
 }
@@ -58,7 +59,8 @@ DepthProfile depth_profile(const PositionResult& p, const std::string& id, std::
   d.samples.push_back(p.top);
   for (std::size_t k = 1; k + 1 < count; ++k) {
     const double t = static_cast<double>(k) / static_cast<double>(count - 1);
-    d.samples.push_back({p.top.height + t * span, p.top.offset + t * (p.bottom.offset - p.top.offset)});
+    d.samples.push_back(
+        {p.top.height + t * span, p.top.offset + t * (p.bottom.offset - p.top.offset)});
   }
   d.samples.push_back(p.bottom);
   return d;
