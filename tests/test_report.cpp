@@ -3,6 +3,7 @@
 #include <catch2/catch.hpp>
 #include <cmath>
 #include <sstream>
+#include <stdexcept>
 #include <string>
 
 #include "cylzone/core/errors.hpp"
@@ -163,6 +164,29 @@ TEST_CASE("model: the depth profile of a straight axis, top to bottom") {
   CHECK(format_table(m).find("H1         0.0000   0.0400   0.0300   0.1000") != std::string::npos);
 }
 
+TEST_CASE("model: a derived median line's profile is its section centres, top to bottom") {
+  PartCheckResult r = hand_made_result();
+  BoreResult& b = r.bores.front();
+  b.position_with_mobility.reset();
+  b.mobility_motion.reset();
+  // Three centres of a median line that bends: no straight line through them, so a profile
+  // interpolated between the ends would miss the middle one (-20: 0.05 off-line in dx).
+  b.position->section_centres = {{-2.0, Eigen::Vector2d(0.01, 0.00)},
+                                 {-20.0, Eigen::Vector2d(0.06, 0.00)},
+                                 {-38.0, Eigen::Vector2d(0.01, 0.00)}};
+  b.position->top = b.position->section_centres.front();
+  b.position->bottom = b.position->section_centres.back();
+  const ReportModel m = make_report_model(r);
+  REQUIRE(m.bores.front().depth);
+  const DepthProfile& d = *m.bores.front().depth;
+  CHECK(d.characteristic_id == "H1/position");
+  REQUIRE(d.samples.size() == 3);
+  CHECK(d.samples[1].height == -20.0);
+  CHECK(d.samples[1].offset.x() == 0.06);
+  // Single-plane position at that section: 2 x 0.06 (common practice).
+  CHECK(d.samples[1].diameter() == Approx(0.12));
+}
+
 TEST_CASE("CSV: RFC 4180 quoting, four decimals in mm, one row per characteristic") {
   // RFC 4180 (Common Format for CSV Files): fields with commas or quotes are quoted and inner
   // quotes doubled. RFC 4180 has no comment lines: the caution is a column of every row.
@@ -250,6 +274,8 @@ TEST_CASE("JSON round trip: rendered, read back, every characteristic equal") {
     REQUIRE(read.bores[0].depth);
     CHECK(read.bores[0].depth->samples.size() == written.bores[0].depth->samples.size());
     CHECK(read.evaluation == nullptr);
+    // It has no evaluation to render the JSON's detailed blocks from, and says so.
+    CHECK_THROWS_AS(format_json(read), std::invalid_argument);
     // A model read back renders the same CSV as the one it was written from.
     if (unit == LengthUnit::millimetre) CHECK(format_csv(read) == format_csv(written));
   }
