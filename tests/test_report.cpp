@@ -1,42 +1,19 @@
-// Reports: atomic writing that never damages an input, and the CSV/JSON rendering of a result
-// assembled by hand (so the values are known without running any fit).
+// Reports: the report model built from a result assembled by hand (so the values are known
+// without running any fit), its renderers (CSV, JSON, table) and the JSON reader.
 #include <catch2/catch.hpp>
-#include <cstdio>
-#include <filesystem>
-#include <fstream>
+#include <cmath>
 #include <sstream>
+#include <stdexcept>
 #include <string>
-#include <unistd.h>
 
 #include "cylzone/core/errors.hpp"
 #include "cylzone/decide/bore_characteristics.hpp"
 #include "cylzone/report/report.hpp"
+#include "cylzone/report/report_reader.hpp"
 
-namespace fs = std::filesystem;
 using namespace cylzone;
 
 namespace {
-
-fs::path scratch_directory() {
-  char name[] = "/tmp/cylzone-report-XXXXXX";
-  REQUIRE(::mkdtemp(name) != nullptr);
-  return name;
-}
-
-std::string slurp(const fs::path& p) {
-  std::ifstream in(p, std::ios::binary);
-  std::ostringstream s;
-  s << in.rdbuf();
-  return s.str();
-}
-
-void spit(const fs::path& p, const std::string& text) { std::ofstream(p, std::ios::binary) << text; }
-
-bool has_temporary_files(const fs::path& dir) {
-  for (const auto& entry : fs::directory_iterator(dir))
-    if (entry.path().filename().string().find(".tmp-") != std::string::npos) return true;
-  return false;
-}
 
 /// A result with one bore at true position offsets (0.04, 0.03) at the top: a positional
 /// diameter of 0.100 (2 sqrt(0.04^2 + 0.03^2), common practice), tolerance 0.080 + bonus 0.010.
@@ -68,67 +45,151 @@ PartCheckResult hand_made_result() {
   return r;
 }
 
-}  // namespace
-
-TEST_CASE("write_file_atomically replaces the target whole and leaves no temporary file") {
-  const fs::path dir = scratch_directory();
-  const fs::path target = dir / "report.json";
-  spit(target, "old contents");
-  write_file_atomically(target, "{\"new\": true}\n", {});
-  CHECK(slurp(target) == "{\"new\": true}\n");
-  CHECK_FALSE(has_temporary_files(dir));
-  fs::remove_all(dir);
+/// The same bore with size limits (the mating envelope below the lower limit: a lower-limit
+/// failure) and a cylindricity tolerance, in `unit`.
+PartCheckResult result_with_size(LengthUnit unit) {
+  PartCheckResult r = hand_made_result();
+  r.plan.unit = unit;
+  BoreResult& b = r.bores.front();
+  b.size.limits = SizeLimits{12.000, 12.027};
+  b.size.mating_envelope = 11.9953;
+  // No opposed point pairs: the upper limit is checked with the minimum material envelope.
+  b.size.minimum_material_envelope = 12.0150;
+  b.form.cylindricity = 0.0041;
+  b.form.tolerance = 0.005;
+  r.inputs.push_back({"bore H1", "points/H1.csv",
+                      "e3b0c44298fc1c149afbf4c8996fb92427ae41e4649b934ca495991b7852b855", 0});
+  r.characteristics = bore_characteristics(b);
+  r.verdict = combine(r.characteristics);
+  return r;
 }
 
-TEST_CASE("write_file_atomically refuses to write over an input, also through another name") {
-  const fs::path dir = scratch_directory();
-  const fs::path input = dir / "points.csv";
-  spit(input, "1,2,3\n");
-  const fs::path alias = dir / "alias.csv";
-  fs::create_hard_link(input, alias);  // same file, different name: identity, not spelling
-  for (const fs::path& target : {input, alias, dir / "." / "points.csv"}) {
-    try {
-      write_file_atomically(target, "overwritten", {input});
-      FAIL("no error for " << target);
-    } catch (const InputError& e) {
-      CHECK(std::string(e.what()).find("input") != std::string::npos);
-      CHECK(e.file() == target.string());
+/// CSV fields of one line, RFC 4180 quoting undone.
+std::vector<std::string> csv_fields(const std::string& line) {
+  std::vector<std::string> fields(1);
+  bool quoted = false;
+  for (std::size_t k = 0; k < line.size(); ++k) {
+    const char c = line[k];
+    if (quoted && c == '"' && k + 1 < line.size() && line[k + 1] == '"') {
+      fields.back() += '"';
+      ++k;
+    } else if (c == '"') {
+      quoted = !quoted;
+    } else if (c == ',' && !quoted) {
+      fields.emplace_back();
+    } else {
+      fields.back() += c;
     }
   }
-  CHECK(slurp(input) == "1,2,3\n");
-  CHECK_FALSE(has_temporary_files(dir));
-  fs::remove_all(dir);
+  return fields;
 }
 
-TEST_CASE("write_file_atomically names a missing directory") {
-  const fs::path dir = scratch_directory();
-  const fs::path target = dir / "missing" / "report.csv";
+std::string error_of(std::string_view json, std::string* key = nullptr) {
   try {
-    write_file_atomically(target, "x", {});
-    FAIL("no error");
+    read_report_json(json, "earlier.json");
   } catch (const InputError& e) {
-    CHECK(std::string(e.what()).find("does not exist") != std::string::npos);
-    CHECK(std::string(e.what()).find("missing") != std::string::npos);
+    CHECK(e.file() == "earlier.json");
+    if (key) *key = e.key();
+    return e.what();
   }
-  CHECK_FALSE(fs::exists(target));
-  fs::remove_all(dir);
+  FAIL("no InputError");
+  return {};
 }
 
-TEST_CASE("characteristic rows: the datum-mobility row decides, the fixed frame is shown beside") {
-  const auto rows = characteristic_rows(hand_made_result());
+/// `text` with the first `from` after `anchor` replaced by `to`.
+std::string replaced(std::string text, const std::string& from, const std::string& to,
+                     const std::string& anchor = "\"characteristics\": [") {
+  const std::size_t start = text.find(anchor);
+  REQUIRE(start != std::string::npos);
+  const std::size_t at = text.find(from, start);
+  REQUIRE(at != std::string::npos);
+  return text.replace(at, from.size(), to);
+}
+
+}  // namespace
+
+TEST_CASE("characteristics: the datum-mobility one decides, the fixed frame is shown beside") {
+  const auto rows = report_characteristics(hand_made_result());
   REQUIRE(rows.size() == 2);
-  CHECK(rows[0].characteristic == "position, frame fixed");
+  CHECK(rows[0].id == "H1/position");
+  CHECK(rows[0].feature == "H1");
+  CHECK(rows[0].name == "position, frame fixed");
   CHECK_FALSE(rows[0].decisive);
   CHECK(rows[0].verdict == Verdict::does_not_conform);
-  CHECK(rows[1].characteristic == "position, datum mobility");
+  CHECK(rows[1].id == "H1/position/mobility");
+  CHECK(rows[1].name == "position, datum mobility");
   CHECK(rows[1].decisive);
   CHECK(rows[1].reference == "A|B(M) MMC");
 }
 
+TEST_CASE("model: verdicts combine the characteristics; size and form carry their ids") {
+  const PartCheckResult r = result_with_size(LengthUnit::millimetre);
+  const ReportModel m = make_report_model(r);
+  REQUIRE(m.characteristics.size() == 5);
+  REQUIRE(m.find("H1/size/lower"));
+  CHECK(m.find("H1/size/lower")->comparison == Comparison::at_least);
+  CHECK(m.find("H1/size/upper")->comparison == Comparison::at_most);
+  CHECK(m.find("H1/cylindricity")->allowed == 0.005);
+  CHECK(m.find("H1/perpendicularity") == nullptr);
+  // The non-decisive fixed-frame position does not count; the lower size limit fails.
+  CHECK(m.bores.front().verdict == Verdict::does_not_conform);
+  CHECK(m.verdict == Verdict::does_not_conform);
+  // Without the size and form, only the conforming mobility position decides.
+  CHECK(make_report_model(hand_made_result()).verdict == Verdict::conforms);
+}
+
+TEST_CASE("model: the depth profile of a straight axis, top to bottom") {
+  ReportModelOptions options;
+  options.depth_samples = 5;
+  const PartCheckResult r = hand_made_result();
+  const ReportModel m = make_report_model(r, options);
+  REQUIRE(m.bores.front().depth);
+  const DepthProfile& d = *m.bores.front().depth;
+  CHECK(d.characteristic_id == "H1/position/mobility");
+  CHECK(d.allowed == 0.090);
+  REQUIRE(d.samples.size() == 5);
+  // A straight axis deviates affinely with height (common practice): through (0.04, 0.03) at
+  // z = 0 and (0.01, 0) at z = -40, at z = -10 it is (0.0325, 0.0225), single-plane position
+  // 2 sqrt(0.0325^2 + 0.0225^2) = 0.079057 (common practice: position = 2 x radial deviation).
+  CHECK(d.samples[0].height == 0.0);
+  CHECK(d.samples[1].height == Approx(-10.0));
+  CHECK(d.samples[1].offset.x() == Approx(0.0325).margin(1e-15));
+  CHECK(d.samples[1].offset.y() == Approx(0.0225).margin(1e-15));
+  CHECK(d.samples[1].diameter() == Approx(2.0 * std::hypot(0.0325, 0.0225)));
+  CHECK(d.samples.back().height == -40.0);
+  CHECK(d.samples.back().offset.x() == 0.01);
+  // The table's along-the-depth line reads the profile's ends.
+  CHECK(format_table(m).find("H1         0.0000   0.0400   0.0300   0.1000") != std::string::npos);
+}
+
+TEST_CASE("model: a derived median line's profile is its section centres, top to bottom") {
+  PartCheckResult r = hand_made_result();
+  BoreResult& b = r.bores.front();
+  b.position_with_mobility.reset();
+  b.mobility_motion.reset();
+  // Three centres of a median line that bends: no straight line through them, so a profile
+  // interpolated between the ends would miss the middle one (-20: 0.05 off-line in dx).
+  b.position->section_centres = {{-2.0, Eigen::Vector2d(0.01, 0.00)},
+                                 {-20.0, Eigen::Vector2d(0.06, 0.00)},
+                                 {-38.0, Eigen::Vector2d(0.01, 0.00)}};
+  b.position->top = b.position->section_centres.front();
+  b.position->bottom = b.position->section_centres.back();
+  const ReportModel m = make_report_model(r);
+  REQUIRE(m.bores.front().depth);
+  const DepthProfile& d = *m.bores.front().depth;
+  CHECK(d.characteristic_id == "H1/position");
+  REQUIRE(d.samples.size() == 3);
+  CHECK(d.samples[1].height == -20.0);
+  CHECK(d.samples[1].offset.x() == 0.06);
+  // Single-plane position at that section: 2 x 0.06 (common practice).
+  CHECK(d.samples[1].diameter() == Approx(0.12));
+}
+
 TEST_CASE("CSV: RFC 4180 quoting, four decimals in mm, one row per characteristic") {
   // RFC 4180 (Common Format for CSV Files): fields with commas or quotes are quoted and inner
-  // quotes doubled.
+  // quotes doubled. RFC 4180 has no comment lines: the caution is a column of every row.
   const std::string csv = format_csv(hand_made_result());
+  const std::string caution = "\"" + std::string(safety_caution) + "\"";
   std::istringstream lines(csv);
   std::string header, first, second, extra;
   std::getline(lines, header);
@@ -137,13 +198,24 @@ TEST_CASE("CSV: RFC 4180 quoting, four decimals in mm, one row per characteristi
   CHECK_FALSE(std::getline(lines, extra));
   CHECK(header ==
         "part,bore,characteristic,reference,value,tolerance,bonus,allowed,comparison,verdict,"
-        "decisive,units");
+        "decisive,units,id,caution");
   CHECK(first ==
         "\"Bracket, \"\"first\"\" article, rev B\",H1,\"position, frame fixed\",A|B(M) MMC,"
-        "0.1000,0.0800,0.0100,0.0900,<=,does not conform,no,mm");
+        "0.1000,0.0800,0.0100,0.0900,<=,does not conform,no,mm,H1/position," + caution);
   CHECK(second ==
         "\"Bracket, \"\"first\"\" article, rev B\",H1,\"position, datum mobility\",A|B(M) MMC,"
-        "0.0850,0.0800,0.0100,0.0900,<=,conforms,yes,mm");
+        "0.0850,0.0800,0.0100,0.0900,<=,conforms,yes,mm,H1/position/mobility," + caution);
+  const std::vector<std::string> fields = csv_fields(second);
+  REQUIRE(fields.size() == 14);
+  CHECK(fields[0] == "Bracket, \"first\" article, rev B");
+  CHECK(fields[13] == safety_caution);
+}
+
+TEST_CASE("CSV in inch: five decimals, lengths / 25.4") {
+  // The inch is 25.4 mm exactly (common practice): 11.9953 mm = 0.472256 in, 12 mm = 0.47244 in.
+  const std::string csv = format_csv(result_with_size(LengthUnit::inch));
+  CHECK(csv.find(",\"size, mating envelope\",lower limit,0.47226,0.47244,0.00000,0.47244,>=,"
+                 "does not conform,yes,inch,H1/size/lower,") != std::string::npos);
 }
 
 TEST_CASE("JSON and table carry the safety caution and the single-plane position") {
@@ -155,4 +227,75 @@ TEST_CASE("JSON and table carry the safety caution and the single-plane position
   CHECK(table.find("Caution:") != std::string::npos);
   // Single-plane position at the top, 2 sqrt(0.04^2 + 0.03^2) = 0.100 (common practice).
   CHECK(table.find("0.1000") != std::string::npos);
+}
+
+TEST_CASE("JSON: every characteristic with its id, decisive flag and verdict; bores' profile") {
+  const std::string json = format_json(result_with_size(LengthUnit::millimetre));
+  CHECK(json.find("\"characteristics\": [") != std::string::npos);
+  CHECK(json.find("\"id\": \"H1/position/mobility\"") != std::string::npos);
+  CHECK(json.find("\"decisive\": false") != std::string::npos);
+  CHECK(json.find("\"depth_profile\": {") != std::string::npos);
+}
+
+TEST_CASE("JSON round trip: rendered, read back, every characteristic equal") {
+  for (LengthUnit unit : {LengthUnit::millimetre, LengthUnit::inch}) {
+    const PartCheckResult r = result_with_size(unit);
+    const ReportModel written = make_report_model(r);
+    const ReportModel read = read_report_json(format_json(written), "report.json");
+    REQUIRE(read.characteristics.size() == written.characteristics.size());
+    // mm: the JSON's shortest round-trip decimal gives the same double back (exactly). inch:
+    // x / 25.4 * 25.4 may differ from x in the last bit or two of the double.
+    const double eps = unit == LengthUnit::millimetre ? 0.0 : 1e-15;
+    for (std::size_t k = 0; k < read.characteristics.size(); ++k) {
+      const Characteristic& a = written.characteristics[k];
+      const Characteristic& b = read.characteristics[k];
+      CHECK(b.id == a.id);
+      CHECK(b.feature == a.feature);
+      CHECK(b.name == a.name);
+      CHECK(b.reference == a.reference);
+      CHECK(b.value == Approx(a.value).epsilon(eps).margin(0.0));
+      CHECK(b.tolerance == Approx(a.tolerance).epsilon(eps).margin(0.0));
+      CHECK(b.bonus == Approx(a.bonus).epsilon(eps).margin(0.0));
+      CHECK(b.allowed == Approx(a.allowed).epsilon(eps).margin(0.0));
+      CHECK(b.comparison == a.comparison);
+      CHECK(b.decisive == a.decisive);
+      CHECK(b.verdict == a.verdict);
+      if (unit == LengthUnit::millimetre) CHECK(b.value == a.value);
+    }
+    CHECK(read.units.unit() == unit);
+    CHECK(read.plan_name == written.plan_name);
+    CHECK(read.verdict == written.verdict);
+    REQUIRE(read.inputs.size() == 1);
+    CHECK(read.inputs[0].sha256 == written.inputs[0].sha256);
+    REQUIRE(read.bores.size() == 1);
+    CHECK(read.bores[0].verdict == written.bores[0].verdict);
+    REQUIRE(read.bores[0].depth);
+    CHECK(read.bores[0].depth->samples.size() == written.bores[0].depth->samples.size());
+    CHECK(read.evaluation == nullptr);
+    // It has no evaluation to render the JSON's detailed blocks from, and says so.
+    CHECK_THROWS_AS(format_json(read), std::invalid_argument);
+    // A model read back renders the same CSV as the one it was written from.
+    if (unit == LengthUnit::millimetre) CHECK(format_csv(read) == format_csv(written));
+  }
+}
+
+TEST_CASE("JSON reader: malformed input names the source and the JSON path") {
+  const std::string good = format_json(result_with_size(LengthUnit::millimetre));
+  CHECK(error_of("{\n  \"schema\": ,\n}").find("earlier.json:2") != std::string::npos);
+  CHECK(error_of("[1, 2]").find("expected a JSON object") != std::string::npos);
+  const std::string schema = error_of(replaced(good, "cylzone-report-1", "cylzone-report-9", "{"));
+  CHECK(schema.find("cylzone-report-9") != std::string::npos);
+  std::string key;
+  error_of(replaced(good, "\"value\": 0.1", "\"value\": \"0.1\""), &key);
+  CHECK(key == "characteristics[0].value");
+  CHECK(error_of(replaced(good, "\"verdict\": \"conforms\"", "\"verdict\": \"fine\""))
+            .find("unknown verdict 'fine'") != std::string::npos);
+  error_of(replaced(good, "\"comparison\": \">=\"", "\"comparison\": \"=>\""), &key);
+  CHECK(key.find(".comparison") != std::string::npos);
+  error_of(replaced(good, "\"characteristics\": [", "\"characteristic_list\": [", "{"), &key);
+  CHECK(key == "characteristics");
+  const std::string units = error_of(
+      replaced(good, "\"units\": \"mm\"", "\"units\": \"cubit\"", "\"plan\": {"), &key);
+  CHECK(key == "plan.units");
+  CHECK(units.find("cubit") != std::string::npos);
 }

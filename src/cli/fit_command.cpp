@@ -1,8 +1,6 @@
 // `cylzone fit ELEMENT POINTS`: one associated element, printed for people or as one JSON object.
-#include <cstdio>
 #include <iostream>
 #include <memory>
-#include <nlohmann/json.hpp>
 #include <string>
 #include <vector>
 
@@ -11,7 +9,7 @@
 #include "cylzone/core/errors.hpp"
 #include "cylzone/fit/fit_element.hpp"
 #include "cylzone/io/read_points.hpp"
-#include "cylzone/version.hpp"
+#include "cylzone/report/fit_report.hpp"
 
 namespace cylzone::cli {
 namespace {
@@ -25,86 +23,6 @@ struct FitArguments {
   std::string units = "mm";
   bool json = false;
 };
-
-nlohmann::json vector_json(const Eigen::Vector3d& v, double scale) {
-  return nlohmann::json::array({v.x() / scale, v.y() / scale, v.z() / scale});
-}
-
-nlohmann::json fit_json(const ElementFit& fit, const PointCloud& cloud, LengthUnit unit) {
-  const double mm = millimetres_per(unit);
-  nlohmann::json j;
-  j["tool"] = std::string("cylzone ") + version_string;
-  j["source"] = cloud.source;
-  j["element"] = std::string(element_name(fit.element));
-  j["method"] = std::string(method_name(fit.summary.method));
-  j["points"] = fit.summary.point_count;
-  j["units"] = std::string(unit_name(unit));
-  j["rms"] = fit.residuals.rms / mm;
-  j["form"] = fit.residuals.form / mm;
-  if (fit.residuals.values.size() > 0) {
-    j["residual_min"] = fit.residuals.values.minCoeff() / mm;
-    j["residual_max"] = fit.residuals.values.maxCoeff() / mm;
-  }
-  if (fit.axis) {
-    j["axis"] = {{"point", vector_json(fit.axis->point, mm)},
-                 {"direction", vector_json(fit.axis->direction, 1.0)}};
-  }
-  if (fit.extent_min && fit.extent_max)
-    j["extent"] = nlohmann::json::array({*fit.extent_min / mm, *fit.extent_max / mm});
-  if (fit.point) j["point"] = vector_json(*fit.point, mm);
-  if (fit.normal) j["normal"] = vector_json(*fit.normal, 1.0);
-  if (fit.centre) j["centre"] = vector_json(*fit.centre, mm);
-  if (fit.radius) j["diameter"] = 2.0 * *fit.radius / mm;
-  if (fit.angular_coverage_deg) j["angular_coverage_deg"] = *fit.angular_coverage_deg;
-  if (fit.ambiguity) j["ambiguity"] = *fit.ambiguity / mm;
-  j["status"] = fit.summary.status == FitStatus::converged ? "converged" : "iteration-limit";
-  j["iterations"] = fit.summary.iterations;
-  j["message"] = fit.summary.message;
-  j["warnings"] = fit.summary.warnings;
-  return j;
-}
-
-std::string fixed(double value, int decimals) {
-  char buffer[64];
-  std::snprintf(buffer, sizeof buffer, "%.*f", decimals, value);
-  return buffer;
-}
-
-std::string triple(const Eigen::Vector3d& v, double scale, int decimals) {
-  return fixed(v.x() / scale, decimals) + "  " + fixed(v.y() / scale, decimals) + "  " +
-         fixed(v.z() / scale, decimals);
-}
-
-void print_fit(std::ostream& out, const ElementFit& fit, const PointCloud& cloud,
-               LengthUnit unit) {
-  const double mm = millimetres_per(unit);
-  const int d = unit == LengthUnit::inch ? 7 : 6;  // 0.1 µin / 1 nm: below any probing noise
-  const std::string u(unit_name(unit));
-  out << "cylzone fit: " << element_name(fit.element) << ", " << method_name(fit.summary.method)
-      << ", " << fit.summary.point_count << " points from " << cloud.source << " (" << u
-      << ")\n";
-  if (fit.axis && fit.element != Element::circle) {
-    out << "  axis point       " << triple(fit.axis->point, mm, d) << '\n';
-    out << "  axis direction   " << triple(fit.axis->direction, 1.0, 9) << '\n';
-  }
-  if (fit.point) out << "  point            " << triple(*fit.point, mm, d) << '\n';
-  if (fit.centre) out << "  centre           " << triple(*fit.centre, mm, d) << '\n';
-  if (fit.normal) out << "  normal           " << triple(*fit.normal, 1.0, 9) << '\n';
-  if (fit.extent_min && fit.extent_max)
-    out << "  extent           " << fixed(*fit.extent_min / mm, d) << " .. "
-        << fixed(*fit.extent_max / mm, d) << " along the axis\n";
-  if (fit.radius) out << "  diameter         " << fixed(2.0 * *fit.radius / mm, d) << '\n';
-  if (fit.angular_coverage_deg)
-    out << "  coverage         " << fixed(*fit.angular_coverage_deg, 1) << " deg\n";
-  if (fit.ambiguity) out << "  ambiguity        " << fixed(*fit.ambiguity / mm, d) << '\n';
-  out << "  rms              " << fixed(fit.residuals.rms / mm, d) << '\n';
-  out << "  form             " << fixed(fit.residuals.form / mm, d)
-      << (fit.element == Element::line ? "  (cylindrical zone diameter)" : "") << '\n';
-  out << "  status           "
-      << (fit.summary.status == FitStatus::converged ? "converged" : "ITERATION LIMIT") << ": "
-      << fit.summary.message << '\n';
-  for (const auto& w : fit.summary.warnings) out << "  warning: " << w << '\n';
-}
 
 int run_fit(const FitArguments& args, CommandResult& result) {
   const auto element = parse_element(args.element);
@@ -130,10 +48,8 @@ int run_fit(const FitArguments& args, CommandResult& result) {
   result.context = args.points + ": ";
   const ElementFit fit = fit_element(*element, *method, cloud.points, cloud.vectors, options);
 
-  if (args.json)
-    std::cout << fit_json(fit, cloud, *unit).dump(2) << '\n';
-  else
-    print_fit(std::cout, fit, cloud, *unit);
+  std::cout << (args.json ? format_fit_json(fit, cloud.source, *unit)
+                          : format_fit_text(fit, cloud.source, *unit));
   return exit_success;
 }
 

@@ -85,7 +85,7 @@ with tempfile.TemporaryDirectory() as tmp:
     p = run("check", plan_copy, "--json", report, "--quiet")
     check(p.returncode == 1 and p.stdout == "", "--quiet run")
     check(json.load(open(report)).get("schema") == "cylzone-report-1", "report not replaced")
-    check(not [n for n in os.listdir(tmp) if ".tmp-" in n], "temporary file left behind")
+    check(not [n for n in os.listdir(tmp) if ".tmp-" in n or "cylzone-tmp" in n], "temporary file left behind")
 
     # A broken plan: exit 2, a one-line message naming the plan file and the line, no report.
     broken = os.path.join(work, "broken.toml")

@@ -1,0 +1,143 @@
+#pragma once
+/// \file report_model.hpp
+/// The report model: what every report of a part check says, built once from a
+/// `PartCheckResult` and rendered by one renderer per format (report.hpp: table, JSON, CSV).
+///
+/// Units. The model holds lengths in millimetres, as the library does, together with one
+/// `ReportUnits` (the plan's unit). Every renderer converts and formats lengths through that one
+/// object and nowhere else, so the table, the JSON and the CSV cannot disagree on a unit or a
+/// rounding. docs/report-schema.md describes the model and the formats.
+///
+/// Verdicts. Every verdict a report prints comes from the model's characteristics (found by id)
+/// or from `combine()` over them: a bore's verdict combines its characteristics, the part's
+/// combines all of them.
+
+#include <Eigen/Core>
+#include <filesystem>
+#include <optional>
+#include <string>
+#include <string_view>
+#include <vector>
+
+#include "cylzone/check/part_check.hpp"
+#include "cylzone/core/units.hpp"
+#include "cylzone/decide/characteristic.hpp"
+#include "cylzone/evaluate/axis_zone.hpp"
+
+namespace cylzone {
+
+/// Printed in every report: verdicts support, and do not replace, the approved procedure.
+inline constexpr std::string_view safety_caution =
+    "Caution: cylzone's verdicts support, and do not replace, the approved inspection "
+    "procedure, the governing standard named on the drawing and sign-off by qualified "
+    "personnel. Parts may go into safety-critical assemblies.";
+
+/// The schema identifier written into, and required by the reader of, the JSON report.
+inline constexpr std::string_view report_schema = "cylzone-report-1";
+
+/// Lengths from millimetres to the report's unit, and their fixed-point text.
+class ReportUnits {
+ public:
+  explicit ReportUnits(LengthUnit unit = LengthUnit::millimetre) noexcept;
+  LengthUnit unit() const noexcept { return unit_; }
+  std::string_view name() const noexcept { return unit_name(unit_); }
+  /// mm: 4 decimals (0.1 µm); inch: 5 decimals (0.25 µm): finer than a micrometre.
+  int decimals() const noexcept { return unit_ == LengthUnit::inch ? 5 : 4; }
+  /// A length in mm expressed in the report's unit.
+  double length(double mm) const noexcept { return mm * per_mm_; }
+  /// A length in the report's unit back in mm (the reader's direction).
+  double millimetres(double length) const noexcept { return length * millimetres_per(unit_); }
+  /// `length(mm)` with `decimals()` decimals.
+  std::string text(double mm) const { return fixed(length(mm), decimals()); }
+  /// "%.*f": fixed-point text of any number (also angles and unitless figures).
+  static std::string fixed(double value, int decimals);
+
+ private:
+  LengthUnit unit_;
+  double per_mm_;
+};
+
+/// The axis along the depth, for plots (a top view of dx, dy and a side view of the single-plane
+/// position against height) and for the table's along-the-depth lines. All lengths in mm.
+struct DepthProfile {
+  std::string characteristic_id;  ///< the deciding position characteristic, e.g. "P2/position"
+  double range_top = 0.0;         ///< evaluated range, heights from A along the nominal direction
+  double range_bottom = 0.0;
+  bool projected = false;          ///< the range is a projected zone above A
+  double allowed = 0.0;            ///< diameter of the zone allowed (tolerance + bonus)
+  /// From range_top to range_bottom: deviation (dx, dy) from the true-position axis and the
+  /// single-plane position 2 sqrt(dx^2 + dy^2) at each height. A straight axis is sampled at
+  /// evenly spaced heights, both ends exact (its deviation is affine in height, axis_zone.hpp);
+  /// a derived median line gives its section centres.
+  std::vector<AxisDeviation> samples;
+  std::optional<double> leaves_zone_at;  ///< first height, from the top, outside the zone
+};
+
+/// One datum feature as the reports summarise it. Lengths in mm.
+struct DatumSummary {
+  char label = 'A';
+  std::string feature;  ///< "plane", "bore", "pin", "slot", "tab"
+  std::string association;  ///< datum A: how the plane was associated; else empty
+  std::optional<double> flatness;  ///< datum A
+  bool material_side_inferred = false;
+  /// A feature of size: its related mating size (a diameter, or for a slot or tab a width).
+  std::optional<double> mating_size;
+  bool mating_is_width = false;
+  std::optional<MaterialBoundary> boundary;
+  std::optional<double> mmb_size;
+  double shift_allowance = 0.0;
+};
+
+/// One bore as the reports summarise it. Lengths in mm.
+struct BoreSummary {
+  std::string id;
+  Verdict verdict = Verdict::conforms;  ///< combine() of the bore's characteristics
+  std::string axis_method;
+  double probed_top = 0.0;
+  double probed_bottom = 0.0;
+  double tilt_rad = 0.0;
+  double tilt_azimuth_deg = 0.0;
+  std::optional<DepthProfile> depth;  ///< when the bore has a position tolerance
+  std::vector<std::string> warnings;
+};
+
+struct ReportModelOptions {
+  /// Heights sampled along a straight axis for the depth profile, both ends included (>= 2).
+  std::size_t depth_samples = 11;
+};
+
+struct ReportModel {
+  std::string tool_version;
+  ReportUnits units;
+  std::string plan_name;
+  std::filesystem::path plan_file;
+  std::vector<InputRecord> inputs;
+  std::vector<DatumSummary> datums;     ///< A, B, C as present
+  std::vector<std::string> frame_notes;
+  std::vector<Characteristic> characteristics;  ///< every bore's, plan order
+  std::vector<BoreSummary> bores;               ///< plan order
+  std::vector<BoreSensitivity> sensitivity;
+  Verdict verdict = Verdict::conforms;  ///< combine() of every characteristic
+  std::vector<std::string> warnings;    ///< part-level
+  /// The result the model was built from, for the JSON report's detailed blocks (fits, datum
+  /// geometry, stray points). Not owned: it must outlive the model. Null in a model read back
+  /// from JSON (report_reader.hpp), which carries the summary only.
+  const PartCheckResult* evaluation = nullptr;
+
+  /// The characteristic with this id, or null.
+  const Characteristic* find(std::string_view id) const noexcept;
+  /// The characteristics of one feature (bore or datum), in order.
+  std::vector<Characteristic> of_feature(std::string_view feature) const;
+};
+
+/// Every bore's characteristics, decided, in plan order, with ids "<bore>/position",
+/// "<bore>/position/mobility", "<bore>/perpendicularity", "<bore>/size/lower",
+/// "<bore>/size/upper", "<bore>/cylindricity", "<bore>/virtual-condition"
+/// (decide/characteristic.hpp). The one place the report takes them from.
+std::vector<Characteristic> report_characteristics(const PartCheckResult& result);
+
+/// Builds the model. `result` must outlive it (see ReportModel::evaluation).
+ReportModel make_report_model(const PartCheckResult& result,
+                              const ReportModelOptions& options = {});
+
+}  // namespace cylzone

@@ -1,0 +1,47 @@
+// The CSV report: one row per characteristic (RFC 4180 quoting), the model's characteristics in
+// order. Columns are documented in docs/report-schema.md; new columns are appended at the end so
+// readers that index columns by position keep working.
+#include <sstream>
+
+#include "cylzone/report/report.hpp"
+
+namespace cylzone {
+namespace {
+
+/// RFC 4180 (Common Format for CSV Files): a field with a comma, quote or line break is quoted
+/// and its quotes doubled.
+std::string csv_field(std::string_view text) {
+  if (text.find_first_of(",\"\r\n") == std::string_view::npos) return std::string(text);
+  std::string quoted = "\"";
+  for (char c : text) {
+    if (c == '"') quoted += '"';
+    quoted += c;
+  }
+  return quoted + "\"";
+}
+
+}  // namespace
+
+std::string format_csv(const ReportModel& m) {
+  const ReportUnits& u = m.units;
+  // RFC 4180 has no comment lines, so the safety caution travels as a column of every row: a
+  // row copied or filtered on its own still carries it.
+  const std::string caution = csv_field(safety_caution);
+  std::ostringstream out;
+  out << "part,bore,characteristic,reference,value,tolerance,bonus,allowed,comparison,verdict,"
+         "decisive,units,id,caution\n";
+  for (const Characteristic& c : m.characteristics) {
+    out << csv_field(m.plan_name) << ',' << csv_field(c.feature) << ',' << csv_field(c.name) << ','
+        << csv_field(c.reference) << ',' << u.text(c.value) << ',' << u.text(c.tolerance) << ','
+        << u.text(c.bonus) << ',' << u.text(c.allowed) << ',' << comparison_symbol(c.comparison)
+        << ',' << verdict_name(c.verdict) << ',' << (c.decisive ? "yes" : "no") << ','
+        << u.name() << ',' << csv_field(c.id) << ',' << caution << '\n';
+  }
+  return out.str();
+}
+
+std::string format_csv(const PartCheckResult& result) {
+  return format_csv(make_report_model(result));
+}
+
+}  // namespace cylzone

@@ -1,0 +1,573 @@
+// Everything JSON in the library (nlohmann-json stays in this file): the part report writer
+// (schema cylzone-report-1, docs/report-schema.md), its reader, and the `cylzone fit` object
+// (docs/fit-json.md). Keep each in step with its document.
+#include <nlohmann/json.hpp>
+#include <stdexcept>
+
+#include "cylzone/core/errors.hpp"
+#include "cylzone/decide/bore_characteristics.hpp"
+#include "cylzone/report/fit_report.hpp"
+#include "cylzone/report/report.hpp"
+#include "cylzone/report/report_reader.hpp"
+#include "cylzone/version.hpp"
+
+namespace cylzone {
+namespace {
+
+using nlohmann::json;
+
+// ---------------------------------------------------------------------------------- writer
+
+json direction(const Eigen::Vector3d& d) { return json::array({d.x(), d.y(), d.z()}); }
+
+json point(const Eigen::Vector3d& p, const ReportUnits& u) {
+  return json::array({u.length(p.x()), u.length(p.y()), u.length(p.z())});
+}
+
+json optional_number(const std::optional<double>& v, const ReportUnits& u) {
+  return v ? json(u.length(*v)) : json(nullptr);
+}
+
+json verdict_json(const std::optional<Verdict>& v) {
+  return v ? json(std::string(verdict_name(*v))) : json(nullptr);
+}
+
+/// The verdict of the characteristic `id`, or null when the model has none.
+json verdict_of(const ReportModel& m, const std::string& id) {
+  const Characteristic* c = m.find(id);
+  return c ? json(std::string(verdict_name(c->verdict))) : json(nullptr);
+}
+
+/// combine() of the characteristics with these ids that exist, or null when none does.
+json combined_verdict(const ReportModel& m, std::initializer_list<std::string> ids) {
+  std::vector<Characteristic> found;
+  for (const std::string& id : ids)
+    if (const Characteristic* c = m.find(id)) found.push_back(*c);
+  return found.empty() ? json(nullptr) : json(std::string(verdict_name(combine(found))));
+}
+
+json deviation_json(const AxisDeviation& d, const ReportUnits& u) {
+  return {{"z", u.length(d.height)},
+          {"dx", u.length(d.offset.x())},
+          {"dy", u.length(d.offset.y())},
+          {"position", u.length(d.diameter())}};
+}
+
+json position_json(const PositionResult& p, json verdict, const ReportUnits& u) {
+  json j = {{"tolerance", u.length(p.spec.tolerance)},
+            {"modifier", std::string(condition_name(p.spec.condition))},
+            {"datums", datum_references_text(p.spec.datums)},
+            {"projected", p.projected},
+            {"projected_height", optional_number(p.spec.projected_height, u)},
+            {"range", {{"top", u.length(p.range_top)}, {"bottom", u.length(p.range_bottom)}}},
+            {"value", u.length(p.value)},
+            {"bonus", u.length(p.bonus)},
+            {"allowed", u.length(p.allowed)},
+            {"top", deviation_json(p.top, u)},
+            {"bottom", deviation_json(p.bottom, u)},
+            {"worst", deviation_json(p.worst, u)},
+            {"leaves_zone_at", optional_number(p.leaves_zone_at, u)},
+            {"verdict", std::move(verdict)}};
+  if (!p.section_centres.empty()) {
+    json centres = json::array();
+    for (const AxisDeviation& c : p.section_centres) centres.push_back(deviation_json(c, u));
+    j["section_centres"] = centres;
+  }
+  return j;
+}
+
+/// Suspect points, numbered 1-based as in the point file's data order.
+json stray_json(const StrayPointReport& r, const ReportUnits& u) {
+  json points = json::array();
+  for (const StrayPoint& p : r.points)
+    points.push_back({{"point_number", p.index + 1},
+                      {"residual", u.length(p.residual)},
+                      {"excess", u.length(p.excess)}});
+  return {{"screened", r.screened}, {"robust_scale", u.length(r.robust_scale)}, {"points", points}};
+}
+
+json fit_json(const CylinderFit& f, const ReportUnits& u) {
+  return {{"axis", {{"point", point(f.axis.point, u)}, {"direction", direction(f.axis.direction)}}},
+          {"diameter", u.length(f.diameter())},
+          {"rms", u.length(f.residuals.rms)},
+          {"form", u.length(f.residuals.form)},
+          {"ambiguity", u.length(f.ambiguity)},
+          {"points", f.summary.point_count},
+          {"status", f.summary.status == FitStatus::converged ? "converged" : "iteration-limit"},
+          {"message", f.summary.message}};
+}
+
+json size_datum_json(const SizeDatumResult& d, const ReportUnits& u) {
+  return {{"feature", std::string(feature_kind_name(d.kind))},
+          {"mating_size", u.length(d.mating_size)},
+          {"ambiguity", u.length(d.related_envelope.ambiguity)},
+          {"axis", {{"point", point(d.related_envelope.axis.point, u)},
+                    {"direction", direction(d.related_envelope.axis.direction)}}},
+          {"axis_on_a", point(d.axis_on_a, u)},
+          {"boundary", std::string(boundary_name(d.boundary))},
+          {"mmb_size", optional_number(d.mmb_size, u)},
+          {"shift_allowance",
+           d.boundary == MaterialBoundary::mmb ? u.length(d.shift_allowance) : 0.0},
+          {"stray_points", stray_json(d.stray_points, u)}};
+}
+
+json depth_json(const std::optional<DepthProfile>& d, const ReportUnits& u) {
+  if (!d) return nullptr;
+  json samples = json::array();
+  for (const AxisDeviation& s : d->samples) samples.push_back(deviation_json(s, u));
+  return {{"characteristic", d->characteristic_id},
+          {"range", {{"top", u.length(d->range_top)}, {"bottom", u.length(d->range_bottom)}}},
+          {"projected", d->projected},
+          {"allowed", u.length(d->allowed)},
+          {"leaves_zone_at", optional_number(d->leaves_zone_at, u)},
+          {"samples", samples}};
+}
+
+json characteristic_json(const Characteristic& c, const ReportUnits& u) {
+  return {{"id", c.id},
+          {"feature", c.feature},
+          {"name", c.name},
+          {"reference", c.reference},
+          {"value", u.length(c.value)},
+          {"tolerance", u.length(c.tolerance)},
+          {"bonus", u.length(c.bonus)},
+          {"allowed", u.length(c.allowed)},
+          {"comparison", std::string(comparison_symbol(c.comparison))},
+          {"decisive", c.decisive},
+          {"verdict", std::string(verdict_name(c.verdict))},
+          {"rule", std::string(decision_rule_name(c.rule))}};
+}
+
+json bore_json(const BoreResult& b, const BoreSummary& s, const BoreSensitivity* sens,
+               const ReportModel& m) {
+  const ReportUnits& u = m.units;
+  json j;
+  j["id"] = b.id;
+  j["verdict"] = std::string(verdict_name(s.verdict));
+  j["axis_method"] = s.axis_method;
+  j["axis"] = {{"point", point(b.axis.point, u)}, {"direction", direction(b.axis.direction)}};
+  j["probed"] = {{"top", u.length(s.probed_top)}, {"bottom", u.length(s.probed_bottom)}};
+  j["tilt"] = {{"angle_rad", s.tilt_rad}, {"azimuth_deg", s.tilt_azimuth_deg}};
+  j["size"] = {{"lower", b.size.limits ? json(u.length(b.size.limits->lower)) : json(nullptr)},
+               {"upper", b.size.limits ? json(u.length(b.size.limits->upper)) : json(nullptr)},
+               {"least_squares", u.length(b.size.least_squares)},
+               {"mating_envelope", u.length(b.size.mating_envelope)},
+               {"related_mating_envelope", u.length(b.size.related_mating_envelope)},
+               {"minimum_material_envelope", u.length(b.size.minimum_material_envelope)},
+               {"two_point_min", u.length(b.size.two_point_min)},
+               {"two_point_max", u.length(b.size.two_point_max)},
+               {"two_point_count", b.size.two_point_count},
+               {"verdict", combined_verdict(m, {b.id + "/size/lower",
+                                                b.id + "/size/lower/two-point",
+                                                b.id + "/size/upper"})},
+               {"reason", size_reason(m.characteristics, b.id)}};
+  j["form"] = {{"cylindricity", u.length(b.form.cylindricity)},
+               {"tolerance", optional_number(b.form.tolerance, u)},
+               {"verdict", verdict_of(m, b.id + "/cylindricity")}};
+  j["position"] =
+      b.position ? position_json(*b.position, verdict_of(m, b.id + "/position"), u) : json(nullptr);
+  if (b.position_with_mobility) {
+    json p = position_json(*b.position_with_mobility,
+                           verdict_of(m, b.id + "/position/mobility"), u);
+    p["motion"] = {{"shift", json::array({u.length(b.mobility_motion->shift.x()),
+                                          u.length(b.mobility_motion->shift.y())})},
+                   {"rotation_rad", b.mobility_motion->rotation_rad}};
+    p["reason"] = b.mobility_reason;
+    j["position_with_mobility"] = p;
+  } else {
+    j["position_with_mobility"] = nullptr;
+  }
+  if (b.perpendicularity) {
+    const PerpendicularityResult& p = *b.perpendicularity;
+    j["perpendicularity"] = {{"tolerance", u.length(p.spec.tolerance)},
+                             {"modifier", std::string(condition_name(p.spec.condition))},
+                             {"range", {{"top", u.length(p.range_top)},
+                                        {"bottom", u.length(p.range_bottom)}}},
+                             {"value", u.length(p.value)},
+                             {"bonus", u.length(p.bonus)},
+                             {"allowed", u.length(p.allowed)},
+                             {"verdict", verdict_of(m, b.id + "/perpendicularity")}};
+  } else {
+    j["perpendicularity"] = nullptr;
+  }
+  j["virtual_condition"] =
+      b.virtual_condition
+          ? json{{"boundary", u.length(b.virtual_condition->boundary)},
+                 {"clearance", u.length(b.virtual_condition->clearance)},
+                 {"verdict", verdict_of(m, b.id + "/virtual-condition")}}
+          : json(nullptr);
+  j["fits"] = {{"least_squares", fit_json(b.least_squares, u)},
+               {"mating_envelope", fit_json(b.mating_envelope, u)},
+               {"related_envelope", fit_json(b.related_envelope, u)},
+               {"minimum_material", fit_json(b.minimum_material, u)},
+               {"minimum_zone", fit_json(b.minimum_zone, u)}};
+  json sensitivity = json::array();
+  if (sens)
+    for (const AssociationSensitivity& row : sens->rows)
+      sensitivity.push_back({{"association", std::string(association_name(row.association))},
+                             {"position", u.length(row.position)},
+                             {"position_verdict", verdict_json(row.position_verdict)},
+                             {"perpendicularity", u.length(row.perpendicularity)},
+                             {"perpendicularity_verdict",
+                              verdict_json(row.perpendicularity_verdict)}});
+  j["sensitivity"] = sensitivity;
+  j["depth_profile"] = depth_json(s.depth, u);
+  j["stray_points"] = stray_json(b.stray_points, u);
+  j["warnings"] = s.warnings;
+  return j;
+}
+
+const BoreSensitivity* sensitivity_of(const ReportModel& m, const std::string& id) {
+  for (const BoreSensitivity& s : m.sensitivity)
+    if (s.bore_id == id) return &s;
+  return nullptr;
+}
+
+json datums_json(const PartCheckResult& r, const ReportUnits& u) {
+  json datums;
+  datums["A"] = {{"feature", "plane"},
+                 {"association", std::string(association_name(r.datums.a.association))},
+                 {"point", point(r.datums.a.plane.point, u)},
+                 {"normal", direction(r.datums.a.plane.normal)},
+                 {"flatness", u.length(r.datums.a.flatness)},
+                 {"material_side_inferred", r.datums.a.material_side_inferred},
+                 {"stray_points", stray_json(r.datums.a.stray_points, u)}};
+  if (r.datums.b) datums["B"] = size_datum_json(*r.datums.b, u);
+  // The plan's basic location of a bore, pin, slot or tab C (the plan requires it), in the frame.
+  const auto c_basic = [&]() -> json {
+    const PlanDatum* c = r.plan.datum('C');
+    if (!c || !c->basic_location) return nullptr;
+    return json::array({u.length(c->basic_location->x()), u.length(c->basic_location->y())});
+  };
+  if (r.datums.c_feature) {
+    datums["C"] = size_datum_json(*r.datums.c_feature, u);
+    datums["C"]["basic"] = c_basic();
+  }
+  if (r.datums.c_width) {
+    const ClockingWidthResult& w = *r.datums.c_width;
+    datums["C"] = {{"feature", std::string(feature_kind_name(w.kind))},
+                   {"mating_width", u.length(w.mating_width)},
+                   {"centre_plane_normal", direction(w.centre_plane_normal)},
+                   {"centre_direction", direction(w.centre_direction)},
+                   {"basic", c_basic()},
+                   {"boundary", std::string(boundary_name(w.boundary))},
+                   {"mmb_size", optional_number(w.mmb_size, u)},
+                   {"shift_allowance",
+                    w.boundary == MaterialBoundary::mmb ? u.length(w.shift_allowance) : 0.0},
+                   {"stray_points", stray_json(w.stray_points, u)}};
+  }
+  if (r.datums.c_plane)
+    datums["C"] = {{"feature", "plane"},
+                   {"point", point(r.datums.c_plane->plane.point, u)},
+                   {"normal", direction(r.datums.c_plane->plane.normal)},
+                   {"stray_points", stray_json(r.datums.c_plane->stray_points, u)}};
+  return datums;
+}
+
+// ---------------------------------------------------------------------------------- reader
+
+/// Walks a parsed report; every failure is an InputError naming the source and the JSON path.
+class ReportReader {
+ public:
+  explicit ReportReader(std::string source) : source_(std::move(source)) {}
+
+  [[noreturn]] void fail(const std::string& path, const std::string& problem) const {
+    throw InputError(source_, 0, problem, path);
+  }
+  const json& key(const json& object, const std::string& path, const char* name) const {
+    if (!object.is_object()) fail(path, "expected an object");
+    const auto it = object.find(name);
+    if (it == object.end()) fail(join(path, name), "missing");
+    return *it;
+  }
+  static std::string join(const std::string& path, const char* name) {
+    return path.empty() ? std::string(name) : path + "." + name;
+  }
+  const json& array(const json& object, const std::string& path, const char* name) const {
+    const json& a = key(object, path, name);
+    if (!a.is_array()) fail(join(path, name), "expected an array");
+    return a;
+  }
+  std::string text(const json& object, const std::string& path, const char* name) const {
+    const json& v = key(object, path, name);
+    if (!v.is_string()) fail(join(path, name), "expected a string");
+    return v.get<std::string>();
+  }
+  double number(const json& object, const std::string& path, const char* name) const {
+    const json& v = key(object, path, name);
+    if (!v.is_number()) fail(join(path, name), "expected a number");
+    return v.get<double>();
+  }
+  std::optional<double> number_or_null(const json& object, const std::string& path,
+                                       const char* name) const {
+    const json& v = key(object, path, name);
+    if (v.is_null()) return std::nullopt;
+    return number(object, path, name);
+  }
+  bool boolean(const json& object, const std::string& path, const char* name) const {
+    const json& v = key(object, path, name);
+    if (!v.is_boolean()) fail(join(path, name), "expected true or false");
+    return v.get<bool>();
+  }
+  std::vector<std::string> texts(const json& object, const std::string& path,
+                                 const char* name) const {
+    std::vector<std::string> out;
+    const json& a = array(object, path, name);
+    for (std::size_t k = 0; k < a.size(); ++k) {
+      if (!a[k].is_string())
+        fail(join(path, name) + "[" + std::to_string(k) + "]", "expected a string");
+      out.push_back(a[k].get<std::string>());
+    }
+    return out;
+  }
+  Verdict verdict(const json& object, const std::string& path, const char* name) const {
+    const std::string v = text(object, path, name);
+    for (Verdict candidate : {Verdict::conforms, Verdict::does_not_conform, Verdict::not_proven})
+      if (v == verdict_name(candidate)) return candidate;
+    fail(join(path, name), "unknown verdict '" + v + "'");
+  }
+  std::size_t count(const json& object, const std::string& path, const char* name) const {
+    const json& v = key(object, path, name);
+    if (!v.is_number_unsigned()) fail(join(path, name), "expected a non-negative integer");
+    return v.get<std::size_t>();
+  }
+
+ private:
+  std::string source_;
+};
+
+std::size_t line_of(std::string_view bytes, std::size_t byte) {
+  std::size_t line = 1;
+  for (std::size_t k = 0; k < byte && k < bytes.size(); ++k) line += bytes[k] == '\n';
+  return line;
+}
+
+}  // namespace
+
+std::string format_json(const ReportModel& m) {
+  if (!m.evaluation)
+    throw std::invalid_argument("format_json: the model has no evaluation (it was read back)");
+  const PartCheckResult& r = *m.evaluation;
+  const ReportUnits& u = m.units;
+  json j;
+  j["schema"] = std::string(report_schema);
+  j["tool"] = {{"name", "cylzone"}, {"version", m.tool_version}};
+  j["caution"] = std::string(safety_caution);
+  j["plan"] = {{"name", m.plan_name}, {"file", m.plan_file.string()},
+               {"units", std::string(u.name())}};
+  json inputs = json::array();
+  for (const InputRecord& in : m.inputs)
+    inputs.push_back({{"role", in.role}, {"path", in.path.string()}, {"sha256", in.sha256},
+                      {"points", in.points}});
+  j["inputs"] = inputs;
+
+  const DatumFrame& f = r.datums.frame;
+  j["frame"] = {{"origin", point(f.origin, u)},
+                {"x_axis", direction(f.rotation.row(0).transpose())},
+                {"y_axis", direction(f.rotation.row(1).transpose())},
+                {"z_axis", direction(f.rotation.row(2).transpose())},
+                {"rotation_fixed", r.datums.rotation_fixed},
+                {"translation_fixed", r.datums.translation_fixed},
+                {"notes", m.frame_notes}};
+  j["datums"] = datums_json(r, u);
+
+  json characteristics = json::array();
+  for (const Characteristic& c : m.characteristics)
+    characteristics.push_back(characteristic_json(c, u));
+  j["characteristics"] = characteristics;
+
+  json bores = json::array();
+  for (std::size_t k = 0; k < r.bores.size() && k < m.bores.size(); ++k)
+    bores.push_back(bore_json(r.bores[k], m.bores[k], sensitivity_of(m, r.bores[k].id), m));
+  j["bores"] = bores;
+  j["verdict"] = std::string(verdict_name(m.verdict));
+  j["warnings"] = m.warnings;
+  return j.dump(2) + "\n";
+}
+
+std::string format_json(const PartCheckResult& result) {
+  return format_json(make_report_model(result));
+}
+
+ReportModel read_report_json(std::string_view bytes, const std::string& source) {
+  json j;
+  try {
+    j = json::parse(bytes.begin(), bytes.end());
+  } catch (const json::parse_error& e) {
+    // e.byte is 1-based, the position where parsing stopped.
+    throw InputError(source, line_of(bytes, e.byte > 0 ? e.byte - 1 : 0),
+                     "not valid JSON (parse error at byte " + std::to_string(e.byte) + ")");
+  }
+  const ReportReader in(source);
+  if (!j.is_object()) in.fail("", "expected a JSON object (a cylzone report)");
+  const std::string schema = in.text(j, "", "schema");
+  if (schema != report_schema)
+    in.fail("schema", "expected '" + std::string(report_schema) + "', found '" + schema + "'");
+
+  ReportModel m;
+  m.tool_version = in.text(in.key(j, "", "tool"), "tool", "version");
+  const json& plan = in.key(j, "", "plan");
+  m.plan_name = in.text(plan, "plan", "name");
+  m.plan_file = in.text(plan, "plan", "file");
+  const std::string units = in.text(plan, "plan", "units");
+  const std::optional<LengthUnit> unit = parse_unit(units);
+  if (!unit) in.fail("plan.units", "unknown unit '" + units + "' (expected mm or inch)");
+  m.units = ReportUnits(*unit);
+  const ReportUnits& u = m.units;
+  const auto mm = [&](const json& o, const std::string& path, const char* name) {
+    return u.millimetres(in.number(o, path, name));
+  };
+  const auto mm_or_null = [&](const json& o, const std::string& path,
+                              const char* name) -> std::optional<double> {
+    const std::optional<double> v = in.number_or_null(o, path, name);
+    return v ? std::optional<double>(u.millimetres(*v)) : std::nullopt;
+  };
+
+  const json& inputs = in.array(j, "", "inputs");
+  for (std::size_t k = 0; k < inputs.size(); ++k) {
+    const std::string path = "inputs[" + std::to_string(k) + "]";
+    InputRecord r;
+    r.role = in.text(inputs[k], path, "role");
+    r.path = in.text(inputs[k], path, "path");
+    r.sha256 = in.text(inputs[k], path, "sha256");
+    r.points = in.count(inputs[k], path, "points");
+    m.inputs.push_back(std::move(r));
+  }
+
+  const json& frame = in.key(j, "", "frame");
+  m.frame_notes = in.texts(frame, "frame", "notes");
+  const json& datums = in.key(j, "", "datums");
+  if (!datums.is_object()) in.fail("datums", "expected an object");
+  for (const char* label : {"A", "B", "C"}) {
+    if (!datums.contains(label)) continue;
+    const std::string path = std::string("datums.") + label;
+    const json& d = datums[label];
+    DatumSummary s;
+    s.label = label[0];
+    s.feature = in.text(d, path, "feature");
+    if (s.label == 'A') {
+      s.association = in.text(d, path, "association");
+      s.flatness = mm(d, path, "flatness");
+      s.material_side_inferred = in.boolean(d, path, "material_side_inferred");
+    } else if (s.feature != "plane") {
+      s.mating_is_width = d.contains("mating_width");
+      s.mating_size = mm(d, path, s.mating_is_width ? "mating_width" : "mating_size");
+      const std::string boundary = in.text(d, path, "boundary");
+      for (MaterialBoundary b :
+           {MaterialBoundary::rmb, MaterialBoundary::mmb, MaterialBoundary::lmb})
+        if (boundary == boundary_name(b)) s.boundary = b;
+      if (!s.boundary) in.fail(path + ".boundary", "unknown boundary '" + boundary + "'");
+      s.mmb_size = mm_or_null(d, path, "mmb_size");
+      s.shift_allowance = mm(d, path, "shift_allowance");
+    }
+    m.datums.push_back(std::move(s));
+  }
+
+  const json& characteristics = in.array(j, "", "characteristics");
+  for (std::size_t k = 0; k < characteristics.size(); ++k) {
+    const std::string path = "characteristics[" + std::to_string(k) + "]";
+    const json& o = characteristics[k];
+    Characteristic c;
+    c.id = in.text(o, path, "id");
+    c.feature = in.text(o, path, "feature");
+    c.name = in.text(o, path, "name");
+    c.reference = in.text(o, path, "reference");
+    c.value = mm(o, path, "value");
+    c.tolerance = mm(o, path, "tolerance");
+    c.bonus = mm(o, path, "bonus");
+    c.allowed = mm(o, path, "allowed");
+    const std::string comparison = in.text(o, path, "comparison");
+    if (comparison == comparison_symbol(Comparison::at_most))
+      c.comparison = Comparison::at_most;
+    else if (comparison == comparison_symbol(Comparison::at_least))
+      c.comparison = Comparison::at_least;
+    else
+      in.fail(path + ".comparison", "unknown comparison '" + comparison + "' (expected <= or >=)");
+    c.decisive = in.boolean(o, path, "decisive");
+    c.verdict = in.verdict(o, path, "verdict");
+    const std::string rule = in.text(o, path, "rule");
+    if (rule != decision_rule_name(DecisionRuleKind::simple_acceptance))
+      in.fail(path + ".rule", "unknown decision rule '" + rule + "'");
+    m.characteristics.push_back(std::move(c));
+  }
+
+  const json& bores = in.array(j, "", "bores");
+  for (std::size_t k = 0; k < bores.size(); ++k) {
+    const std::string path = "bores[" + std::to_string(k) + "]";
+    const json& o = bores[k];
+    BoreSummary b;
+    b.id = in.text(o, path, "id");
+    b.verdict = in.verdict(o, path, "verdict");
+    b.axis_method = in.text(o, path, "axis_method");
+    const json& probed = in.key(o, path, "probed");
+    b.probed_top = mm(probed, path + ".probed", "top");
+    b.probed_bottom = mm(probed, path + ".probed", "bottom");
+    const json& tilt = in.key(o, path, "tilt");
+    b.tilt_rad = in.number(tilt, path + ".tilt", "angle_rad");
+    b.tilt_azimuth_deg = in.number(tilt, path + ".tilt", "azimuth_deg");
+    const json& depth = in.key(o, path, "depth_profile");
+    if (!depth.is_null()) {
+      const std::string dp = path + ".depth_profile";
+      DepthProfile d;
+      d.characteristic_id = in.text(depth, dp, "characteristic");
+      const json& range = in.key(depth, dp, "range");
+      d.range_top = mm(range, dp + ".range", "top");
+      d.range_bottom = mm(range, dp + ".range", "bottom");
+      d.projected = in.boolean(depth, dp, "projected");
+      d.allowed = mm(depth, dp, "allowed");
+      d.leaves_zone_at = mm_or_null(depth, dp, "leaves_zone_at");
+      const json& samples = in.array(depth, dp, "samples");
+      for (std::size_t s = 0; s < samples.size(); ++s) {
+        const std::string sp = dp + ".samples[" + std::to_string(s) + "]";
+        d.samples.push_back({mm(samples[s], sp, "z"),
+                             Eigen::Vector2d(mm(samples[s], sp, "dx"), mm(samples[s], sp, "dy"))});
+      }
+      b.depth = std::move(d);
+    }
+    b.warnings = in.texts(o, path, "warnings");
+    m.bores.push_back(std::move(b));
+  }
+  m.verdict = in.verdict(j, "", "verdict");
+  m.warnings = in.texts(j, "", "warnings");
+  return m;
+}
+
+// ------------------------------------------------------------------------ `cylzone fit` JSON
+
+std::string format_fit_json(const ElementFit& fit, const std::string& source, LengthUnit unit) {
+  const double mm = millimetres_per(unit);
+  const auto vector_json = [](const Eigen::Vector3d& v, double scale) {
+    return json::array({v.x() / scale, v.y() / scale, v.z() / scale});
+  };
+  json j;
+  j["tool"] = std::string("cylzone ") + version_string;
+  j["source"] = source;
+  j["element"] = std::string(element_name(fit.element));
+  j["method"] = std::string(method_name(fit.summary.method));
+  j["points"] = fit.summary.point_count;
+  j["units"] = std::string(unit_name(unit));
+  j["rms"] = fit.residuals.rms / mm;
+  j["form"] = fit.residuals.form / mm;
+  if (fit.residuals.values.size() > 0) {
+    j["residual_min"] = fit.residuals.values.minCoeff() / mm;
+    j["residual_max"] = fit.residuals.values.maxCoeff() / mm;
+  }
+  if (fit.axis)
+    j["axis"] = {{"point", vector_json(fit.axis->point, mm)},
+                 {"direction", vector_json(fit.axis->direction, 1.0)}};
+  if (fit.extent_min && fit.extent_max)
+    j["extent"] = json::array({*fit.extent_min / mm, *fit.extent_max / mm});
+  if (fit.point) j["point"] = vector_json(*fit.point, mm);
+  if (fit.normal) j["normal"] = vector_json(*fit.normal, 1.0);
+  if (fit.centre) j["centre"] = vector_json(*fit.centre, mm);
+  if (fit.radius) j["diameter"] = 2.0 * *fit.radius / mm;
+  if (fit.angular_coverage_deg) j["angular_coverage_deg"] = *fit.angular_coverage_deg;
+  if (fit.ambiguity) j["ambiguity"] = *fit.ambiguity / mm;
+  j["status"] = fit.summary.status == FitStatus::converged ? "converged" : "iteration-limit";
+  j["iterations"] = fit.summary.iterations;
+  j["message"] = fit.summary.message;
+  j["warnings"] = fit.summary.warnings;
+  return j.dump(2) + "\n";
+}
+
+}  // namespace cylzone
