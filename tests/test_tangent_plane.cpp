@@ -18,6 +18,7 @@
 #include <catch2/catch.hpp>
 #include <cmath>
 #include <cstdint>
+#include <algorithm>
 #include <cstdio>
 #include <filesystem>
 #include <random>
@@ -263,6 +264,110 @@ TEST_CASE("tangent line in a plane satisfies its KKT conditions", "[datum][tange
   CHECK_THROWS_WITH(detail::fit_line_2d_tangent_least_squares(
                         Eigen::Matrix2Xd::Constant(2, 5, 3.0), n, {}),
                     Contains("coincide"));
+}
+
+// ================================================================ known supports
+
+namespace {
+
+// A face with a known support, in its own frame (u, v in the plane, w out of the material):
+// three contacts on w = 0 at the corners of a triangle, and interior points receding into the
+// material by depth h_i, each at least 1 mm (far more than its depth) from every edge. For
+// the orthogonal distances: any plane on the material side is non-negative at the corners, so
+// its zero line misses the triangle's interior, and at an interior point at distance d from
+// the nearest edge, tilted by theta, the orthogonal distance is at least
+// d sin(theta) + h cos(theta) >= h whenever d >= h tan(theta / 2). So w = 0 makes every term of
+// the sum of squares least: it is the tangent least-squares plane (the constrained L2 datum
+// plane of Shakarji & Srinivasan, J. Computing and Information Science in Engineering 15(4),
+// 2015; from memory). With `lower` > 0 three further points at depth exactly `lower`, whose
+// triangle contains the first triangle's centroid, also fix the minimum zone: upper and lower
+// contacts whose projections' hulls intersect hold the two parallel planes w = 0 and
+// w = -lower (the alternation condition for flatness; common practice). Here directly: with
+// the centroid z inside both hulls, planes tilted by theta satisfy, vertically, U(z) >= tan
+// theta r_u and -lower - L(z) >= tan theta r_l (r: z's distance from each triangle's edges), so
+// the orthogonal width is at least lower cos(theta) + (r_u + r_l) sin(theta) >= lower, as
+// r_u + r_l >> lower. The tangent minimax plane is w = 0 too, with form `lower`.
+struct KnownSupport {
+  Eigen::Matrix3Xd points;
+  Eigen::Vector3d outward;  // w
+  Eigen::Vector3d on_plane;
+  Eigen::VectorXd depth;  // h_i >= 0
+};
+
+KnownSupport known_support(const Eigen::Vector3d& origin, const Eigen::Vector3d& outward,
+                           int interior, double max_depth, double lower, std::uint64_t seed) {
+  const Eigen::Vector3d w = outward.normalized();
+  const Eigen::Vector3d u = w.unitOrthogonal(), v = w.cross(u);
+  const Eigen::Vector2d corner[3] = {{-60.0, -40.0}, {70.0, -35.0}, {5.0, 65.0}};
+  std::mt19937_64 rng(seed);
+  std::uniform_real_distribution<double> unit(0.0, 1.0);
+  std::vector<Eigen::Vector3d> local;  // (u, v, -depth)
+  for (const Eigen::Vector2d& c : corner) local.emplace_back(c.x(), c.y(), 0.0);
+  // The lower contacts: the triangle turned half a turn about its centroid and shrunk to 0.3
+  // (barycentric coordinates 0.43, 0.43, 0.13: inside, about 13 mm from every edge), so both
+  // hulls contain the centroid.
+  const Eigen::Vector2d centre = (corner[0] + corner[1] + corner[2]) / 3.0;
+  if (lower > 0.0)
+    for (const Eigen::Vector2d& c : corner) {
+      const Eigen::Vector2d turned = centre - 0.3 * (c - centre);
+      local.emplace_back(turned.x(), turned.y(), -lower);
+    }
+  // Interior points by barycentric coordinates of at least 0.05 each: at least 0.05 times the
+  // triangle's smallest height (about 100 mm) from every edge, i.e. 5 mm >> max_depth.
+  while (static_cast<int>(local.size()) < 3 + (lower > 0.0 ? 3 : 0) + interior) {
+    double a = unit(rng), b = unit(rng);
+    if (a + b > 1.0) a = 1.0 - a, b = 1.0 - b;
+    const double c = 1.0 - a - b;
+    if (a < 0.05 || b < 0.05 || c < 0.05) continue;
+    const Eigen::Vector2d q = a * corner[0] + b * corner[1] + c * corner[2];
+    const double h = (lower > 0.0 ? std::min(max_depth, 0.99 * lower) : max_depth) *
+                     (0.05 + 0.95 * unit(rng));
+    local.emplace_back(q.x(), q.y(), -h);
+  }
+  KnownSupport k;
+  k.outward = w;
+  k.on_plane = origin;
+  k.points.resize(3, static_cast<Eigen::Index>(local.size()));
+  k.depth.resize(static_cast<Eigen::Index>(local.size()));
+  for (std::size_t i = 0; i < local.size(); ++i) {
+    const auto col = static_cast<Eigen::Index>(i);
+    k.points.col(col) = origin + local[i].x() * u + local[i].y() * v + local[i].z() * w;
+    k.depth(col) = -local[i].z();
+  }
+  return k;
+}
+
+}  // namespace
+
+TEST_CASE("tangent least-squares plane on a face with a known support is that support",
+          "[datum][tangent]") {
+  const KnownSupport k = known_support({412.5, -187.25, 233.125},
+                                       testing::direction_from_angles(63.0, -141.0), 400, 0.02,
+                                       0.0, 41);
+  const PlaneFit fit = fit_plane_tangent_least_squares(k.points, -k.outward);
+  CHECK((fit.normal - k.outward).norm() <= 1e-12);
+  CHECK(std::abs((fit.point - k.on_plane).dot(k.outward)) <= 1e-11);
+  // Residuals are minus the depths, the contacts exactly 0.
+  CHECK((fit.residuals.values + k.depth).cwiseAbs().maxCoeff() <= 1e-11);
+  CHECK(fit.residuals.form == Approx(k.depth.maxCoeff()).epsilon(1e-9));
+}
+
+TEST_CASE("tangent minimax plane on a face with a known minimum zone is its outer plane",
+          "[datum][tangent]") {
+  const double lower = 0.015;
+  const KnownSupport k = known_support({-35.0, 640.0, -90.0},
+                                       testing::direction_from_angles(141.0, 200.0), 300, 0.02,
+                                       lower, 42);
+  const PlaneFit minimax = fit_plane_tangent_minimax(k.points, -k.outward);
+  CHECK((minimax.normal - k.outward).norm() <= 1e-9);
+  CHECK(std::abs((minimax.point - k.on_plane).dot(k.outward)) <= 1e-9);
+  CHECK(minimax.residuals.form == Approx(lower).epsilon(1e-9));
+  CHECK(minimax.residuals.values.maxCoeff() == 0.0);
+  // The least-squares tangent plane of the same face is also the support (the lower
+  // contacts are interior points like the others).
+  const PlaneFit ls = fit_plane_tangent_least_squares(k.points, -k.outward);
+  CHECK((ls.normal - k.outward).norm() <= 1e-12);
+  CHECK((ls.residuals.values + k.depth).cwiseAbs().maxCoeff() <= 1e-11);
 }
 
 // ================================================================ export for the scipy check
