@@ -141,3 +141,24 @@ TEST_CASE("degenerate circles are FitErrors", "[circle][least_squares][degenerat
   wall << 0, 1, 2, 3, 0, 1, 2, 3, 0, 5, 1, 7;
   CHECK_THROWS_WITH(fit_circle_least_squares(wall, options), Contains("straight line"));
 }
+
+TEST_CASE("circles on coordinates whose powers overflow are FitErrors, not NaN elements",
+          "[circle][degenerate][overflow]") {
+  // IEEE 754 binary64 (IEEE 754-2019, 3.6): largest finite value about 1.8e308. The circle fits
+  // sum fourth powers of centred distances (algebraic start), so a reference circle scaled by
+  // 1e80 is refused in words, not reported as "not determined"; scaled by 1e60 its radius
+  // scales exactly with it (common practice: least-squares elements follow similarities).
+  const ReferenceSet set = make_circle_reference({3.0, -2.0, 5.0}, direction_from_angles(20.0, 40.0),
+                                                 10.0, 0.0, 360.0, 36, 0.002, 3);
+  for (const double factor : {1e80, 1e200}) {
+    INFO("scale " << factor);
+    const Eigen::Matrix3Xd huge = factor * set.points;
+    CHECK_THROWS_WITH(fit_circle_least_squares(huge), Contains("coordinates too large"));
+    CHECK_THROWS_WITH(fit_circle_minimum_zone(huge), Contains("coordinates too large"));
+    CHECK_THROWS_WITH(fit_circle_maximum_inscribed(huge), Contains("coordinates too large"));
+    CHECK_THROWS_WITH(fit_circle_minimum_circumscribed(huge), Contains("coordinates too large"));
+  }
+  const CircleFit unit = fit_circle_least_squares(set.points);
+  const CircleFit large = fit_circle_least_squares(1e60 * set.points);
+  CHECK(large.radius == Approx(1e60 * unit.radius).epsilon(1e-9));
+}

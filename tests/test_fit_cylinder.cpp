@@ -255,3 +255,27 @@ TEST_CASE("cylinder covariance agrees with a Monte Carlo repetition",
   const Eigen::MatrixXd gum = sigma * sigma * jtj.inverse();
   for (int i = 0; i < 5; ++i) CHECK(predicted(i, i) == Approx(gum(i, i)).epsilon(0.05));
 }
+
+TEST_CASE("cylinders on coordinates whose powers overflow are FitErrors, not NaN elements",
+          "[cylinder][degenerate][overflow]") {
+  // IEEE 754 binary64 (IEEE 754-2019, 3.6): largest finite value about 1.8e308. Without the
+  // check the cylinder's normal equations overflow and the fit reported a singular system; the
+  // refusal names the cause. Scaled by 1e60 the reference cylinder's radius scales exactly
+  // with it (common practice: similarity invariance).
+  const Axis axis{{15.0, -4.0, 2.0}, direction_from_angles(25.0, 110.0)};
+  const ReferenceSet set = make_cylinder_reference(axis, 8.0, -20.0, 20.0, 5, 24, 360.0, 0.002, 6);
+  for (const double factor : {1e80, 1e200}) {
+    INFO("scale " << factor);
+    const Eigen::Matrix3Xd huge = factor * set.points;
+    CHECK_THROWS_WITH(fit_cylinder_least_squares(huge), Contains("coordinates too large"));
+    CHECK_THROWS_WITH(fit_cylinder_least_squares(huge, set.normals),
+                      Contains("coordinates too large"));
+    CHECK_THROWS_WITH(fit_cylinder_minimum_zone(huge), Contains("coordinates too large"));
+    CHECK_THROWS_WITH(fit_cylinder_maximum_inscribed(huge), Contains("coordinates too large"));
+    CHECK_THROWS_WITH(fit_cylinder_minimum_circumscribed(huge), Contains("coordinates too large"));
+  }
+  const CylinderFit unit = fit_cylinder_least_squares(set.points);
+  const CylinderFit large = fit_cylinder_least_squares(1e60 * set.points);
+  CHECK(large.radius == Approx(1e60 * unit.radius).epsilon(1e-9));
+  CHECK(angle_between_lines(large.axis.direction, unit.axis.direction) < 1e-9);
+}

@@ -5,6 +5,7 @@
 
 #include <Eigen/Geometry>
 #include <cmath>
+#include <limits>
 
 #include "cylzone/core/errors.hpp"
 #include "cylzone/fit/fit_line.hpp"
@@ -170,4 +171,32 @@ TEST_CASE("degenerate planes are FitErrors", "[plane][least_squares][degenerate]
   for (int i = 0; i < 6; ++i) line.col(i) = Eigen::Vector3d(2500.0, -1800.0, 3200.0) + i * Eigen::Vector3d(1, 2, 3);
   CHECK_THROWS_WITH(fit_plane_least_squares(line), Contains("lie on a straight line"));
   CHECK_THROWS_WITH(fit_plane_least_squares(line.leftCols(2)), Contains("needs at least 3 points"));
+}
+
+TEST_CASE("coordinates whose squares overflow are FitErrors, not NaN elements",
+          "[line][plane][degenerate][overflow]") {
+  // IEEE 754 binary64 (IEEE 754-2019, 3.6): the largest finite value is about 1.8e308, so the
+  // squared (and fourth-power) distances of points 1e190 apart overflow. A null-space reference
+  // plane scaled by 1e190 (a similarity: the least-squares plane's normal is unchanged) must be
+  // refused in words; the same plane scaled by 1e60 is still within double precision, and its
+  // normal must equal the unscaled one (common practice: the least-squares plane is invariant
+  // under similarities).
+  const Eigen::Vector3d normal = direction_from_angles(30.0, 60.0);
+  const ReferenceSet set =
+      make_plane_reference({40.0, -12.0, 7.5}, normal, 80.0, 50.0, 100, 0.003, 5);
+  const Eigen::Matrix3Xd huge = 1e190 * set.points;
+  CHECK_THROWS_WITH(fit_plane_least_squares(huge), Contains("coordinates too large"));
+  CHECK_THROWS_WITH(fit_plane_least_squares(huge), Contains("a plane cannot be fitted"));
+  CHECK_THROWS_WITH(fit_line_least_squares(huge), Contains("coordinates too large"));
+  CHECK_THROWS_AS(fit_plane_minimum_zone(huge), FitError);
+  CHECK_THROWS_AS(fit_line_minimum_zone(huge), FitError);
+  const PlaneFit large = fit_plane_least_squares(1e60 * set.points);
+  CHECK(angle_between_lines(large.normal, fit_plane_least_squares(set.points).normal) < 1e-12);
+  CHECK(std::isfinite(large.residuals.rms));
+  // A coordinate that is not a number reaches the library only through its API (the readers
+  // refuse it): it is named, never fitted.
+  Eigen::Matrix3Xd with_nan = set.points;
+  with_nan(1, 7) = std::numeric_limits<double>::quiet_NaN();
+  CHECK_THROWS_WITH(fit_plane_least_squares(with_nan), Contains("not finite"));
+  CHECK_THROWS_WITH(fit_line_least_squares(with_nan), Contains("not finite"));
 }

@@ -79,3 +79,19 @@ TEST_CASE("degenerate spheres are FitErrors", "[sphere][least_squares][degenerat
   CHECK_THROWS_WITH(fit_sphere_least_squares(ring), Contains("lie in one plane"));
   CHECK_THROWS_WITH(fit_sphere_least_squares(ring.leftCols(3)), Contains("needs at least 4 points, got 3"));
 }
+
+TEST_CASE("spheres on coordinates whose powers overflow are FitErrors, not NaN elements",
+          "[sphere][degenerate][overflow]") {
+  // IEEE 754 binary64 (IEEE 754-2019, 3.6): largest finite value about 1.8e308; the sphere's
+  // algebraic start sums fourth powers of centred distances. Scaled by 1e60 the reference
+  // sphere's radius scales exactly with it (common practice: similarity invariance).
+  const ReferenceSet set =
+      make_sphere_reference({12.0, -7.0, 30.0}, 25.0, direction_from_angles(10.0, 80.0), 120.0,
+                            200, 0.002, 4);
+  CHECK_THROWS_WITH(fit_sphere_least_squares(1e80 * set.points), Contains("coordinates too large"));
+  CHECK_THROWS_WITH(fit_sphere_least_squares(1e200 * set.points),
+                    Contains("a sphere cannot be fitted"));
+  const SphereFit unit = fit_sphere_least_squares(set.points);
+  CHECK(fit_sphere_least_squares(1e60 * set.points).radius ==
+        Approx(1e60 * unit.radius).epsilon(1e-9));
+}

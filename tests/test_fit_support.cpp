@@ -6,6 +6,8 @@
 #include <Eigen/Geometry>
 #include <algorithm>
 #include <cmath>
+#include <limits>
+#include <optional>
 #include <random>
 #include <vector>
 
@@ -292,4 +294,54 @@ TEST_CASE("degeneracy helpers give one-line messages", "[fit_support]") {
   detail::warn_on_coverage(summary, 270.0, options);
   CHECK(summary.warnings.size() == 1);
   CHECK(detail::format_number(0.12345, 4) == "0.1235");
+}
+
+TEST_CASE("finiteness checks refuse overflowing and non-finite data in words",
+          "[fit_support][overflow]") {
+  // IEEE 754 binary64 (IEEE 754-2019, 3.6): the largest finite value is (2 - 2^-52) 2^1023,
+  // std::numeric_limits<double>::max(). require_finite_sums accepts `count` fourth powers of
+  // `scale` exactly while their sum stays below it.
+  const double largest = std::numeric_limits<double>::max();
+  const std::size_t count = 1000;
+  const double limit = std::pow(largest / static_cast<double>(count), 0.25);
+  CHECK_NOTHROW(detail::require_finite_sums(limit * (1.0 - 1e-9), count, "plane"));
+  CHECK_THROWS_WITH(detail::require_finite_sums(limit * (1.0 + 1e-9), count, "plane"),
+                    Contains("coordinates too large") && Contains("a plane cannot be fitted"));
+  CHECK_THROWS_AS(detail::require_finite_sums(std::numeric_limits<double>::infinity(), 1, "line"),
+                  FitError);
+
+  // require_distinct_points: a NaN or an infinite coordinate, a mean that overflows, squared
+  // offsets that overflow.
+  Eigen::Matrix3Xd p(3, 4);
+  p << 0, 1, 0, 1, 0, 0, 1, 1, 0, 0, 0, 1;
+  Eigen::Matrix3Xd bad = p;
+  bad(2, 3) = std::numeric_limits<double>::quiet_NaN();
+  CHECK_THROWS_WITH(detail::require_distinct_points(bad, detail::centroid(bad), "sphere"),
+                    Contains("not finite"));
+  bad(2, 3) = std::numeric_limits<double>::infinity();
+  CHECK_THROWS_WITH(detail::require_distinct_points(bad, detail::centroid(bad), "sphere"),
+                    Contains("not finite"));
+  const Eigen::Matrix3Xd beyond = 0.9 * largest * p;  // the sum of two such x overflows
+  CHECK_THROWS_WITH(detail::require_distinct_points(beyond, detail::centroid(beyond), "plane"),
+                    Contains("mean overflows"));
+  const Eigen::Matrix3Xd spread = 1e200 * p;  // finite mean, squared offsets overflow
+  CHECK_THROWS_WITH(detail::require_distinct_points(spread, detail::centroid(spread), "plane"),
+                    Contains("coordinates too large") && Contains("7.5e+199 mm"));
+  CHECK(detail::require_distinct_points(p, detail::centroid(p), "plane") ==
+        Approx(std::sqrt(1.0625)));  // (1, 1, 1) is farthest from the centroid (0.5, 0.5, 0.25)
+
+  // Results: residuals and directions that are not finite never leave a fit.
+  Eigen::VectorXd values(3);
+  values << 0.1, -0.2, std::numeric_limits<double>::quiet_NaN();
+  CHECK_THROWS_WITH(detail::make_residuals(values), Contains("coordinates too large"));
+  values(2) = 1e200;  // finite, but the rms squares it
+  CHECK_THROWS_AS(detail::make_residuals(values), FitError);
+  values(2) = 0.3;
+  const Residuals r = detail::make_residuals(values);
+  CHECK(r.form == Approx(0.5));
+  CHECK(r.rms == Approx(std::sqrt((0.01 + 0.04 + 0.09) / 3.0)));
+  CHECK_THROWS_WITH(detail::canonical_direction(
+                        Eigen::Vector3d(std::numeric_limits<double>::quiet_NaN(), 0.0, 1.0),
+                        std::nullopt),
+                    Contains("not finite"));
 }

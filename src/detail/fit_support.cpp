@@ -64,6 +64,11 @@ Eigen::Matrix2Xd planar_coordinates(const Eigen::Matrix3Xd& points, const Eigen:
 
 Eigen::Vector3d canonical_direction(const Eigen::Vector3d& direction,
                                     const std::optional<Eigen::Vector3d>& hint) {
+  // Every fitted direction passes through here: a NaN from an overflowed scatter matrix or
+  // solve must stop the fit, not become the reported axis or normal.
+  if (!direction.allFinite())
+    throw FitError("coordinates too large: the fitted direction is not finite (its computation "
+                   "overflowed double precision)");
   Eigen::Vector3d d = direction.normalized();
   constexpr double tiny = 1e-12;
   if (hint) {
@@ -96,6 +101,13 @@ Residuals make_residuals(Eigen::VectorXd values) {
     r.rms = std::sqrt(values.squaredNorm() / static_cast<double>(values.size()));
     r.form = values.maxCoeff() - values.minCoeff();
   }
+  // Every fit's residuals pass through here, and a non-finite element (centre, axis, normal,
+  // radius) makes them non-finite too: this is where a fit that overflowed is stopped, rather
+  // than reported as a number or a null.
+  if (!values.allFinite() || !std::isfinite(r.rms) || !std::isfinite(r.form))
+    throw FitError(
+        "coordinates too large: the residuals overflow double precision (or a coordinate is "
+        "not finite); the element cannot be determined");
   r.values = std::move(values);
   return r;
 }
@@ -284,14 +296,47 @@ PrincipalAxes principal_axes(const Eigen::Matrix3Xd& points, const Eigen::Vector
   return axes;
 }
 
+namespace {
+
+[[noreturn]] void throw_powers_overflow(double spread, const char* element) {
+  char text[32];
+  std::snprintf(text, sizeof text, "%.3g", spread);
+  throw FitError(std::string("coordinates too large: the points lie up to ") + text +
+                 " mm from their centroid, and the squared (and fourth-power) distances the "
+                 "fits sum overflow double precision; a " + element + " cannot be fitted");
+}
+
+}  // namespace
+
 double require_distinct_points(const Eigen::Matrix3Xd& points, const Eigen::Vector3d& centroid,
                                const char* element) {
+  // A NaN or an infinity in any coordinate reaches the centroid; a finite centroid with a
+  // non-finite size means the squared distances themselves overflowed.
+  if (!centroid.allFinite())
+    throw FitError(std::string("coordinates too large or not finite: their mean overflows "
+                               "double precision; a ") +
+                   element + " cannot be fitted");
   const double magnitude = std::max(1.0, centroid.cwiseAbs().maxCoeff());
   const double scale = data_scale(points, centroid);
+  // data_scale squares the offsets: when that overflowed, the message quotes the largest
+  // coordinate offset instead, which is finite.
+  if (!std::isfinite(scale))
+    throw_powers_overflow((points.colwise() - centroid).cwiseAbs().maxCoeff(), element);
+  require_finite_sums(scale, static_cast<std::size_t>(points.cols()), element);
   if (scale <= 1e-12 * magnitude)
     throw FitError("all " + std::to_string(points.cols()) + " points coincide; a " + element +
                    " needs distinct points");
   return scale;
+}
+
+void require_finite_sums(double scale, std::size_t count, const char* element) {
+  // The fits sum up to `count` centred squared distances (scatter matrices, normal equations,
+  // sums of squared residuals) and, in the algebraic circle and sphere starts and the
+  // cylinder's normal equations, their squares; with any sum infinite every result derived from
+  // it is NaN or a false "not determined", so the set is refused here, in words, first.
+  const double squares = scale * scale;
+  const double bound = squares * squares * static_cast<double>(std::max<std::size_t>(count, 1));
+  if (!std::isfinite(bound)) throw_powers_overflow(scale, element);
 }
 
 Eigen::Vector3d checked_direction(const Eigen::Vector3d& direction, const char* what) {

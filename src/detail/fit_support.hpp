@@ -32,7 +32,8 @@ double planar_scale(const Eigen::Matrix2Xd& uv);
 Eigen::Matrix3d basis_from_direction(const Eigen::Vector3d& direction);
 
 /// Unit `direction` with the project's sign rule: same side as `hint` if given (and not
-/// perpendicular to it), otherwise toward +z, then +y, then +x.
+/// perpendicular to it), otherwise toward +z, then +y, then +x. Throws FitError when
+/// `direction` is not finite (a fit whose arithmetic overflowed).
 Eigen::Vector3d canonical_direction(const Eigen::Vector3d& direction,
                                     const std::optional<Eigen::Vector3d>& hint);
 
@@ -53,7 +54,9 @@ Axis canonical_axis(const Eigen::Vector3d& point_on_axis, const Eigen::Vector3d&
 /// [min, max] of (p - axis.point).axis.direction.
 std::pair<double, double> axial_extent(const Eigen::Matrix3Xd& points, const Axis& axis);
 
-/// rms and form = max - min of the values.
+/// rms and form = max - min of the values. Throws FitError ("coordinates too large ...") when a
+/// value, the rms or the form is not finite: every fit's residuals pass through here, so no fit
+/// returns a non-finite element.
 Residuals make_residuals(Eigen::VectorXd values);
 
 /// 360 minus the largest angular gap, in degrees, of the points' angles about `centre` in the
@@ -138,10 +141,19 @@ PrincipalAxes principal_axes(const Eigen::Matrix3Xd& points, const Eigen::Vector
 inline constexpr double degenerate_spread_ratio = 1e-10;
 
 /// Throws FitError "all N points coincide; a <element> needs distinct points" when the largest
-/// distance from the centroid is at the rounding level of the coordinates (1e-12 relative).
+/// distance from the centroid is at the rounding level of the coordinates (1e-12 relative), and
+/// FitError "coordinates too large ..." when the centroid is not finite (a NaN or infinite
+/// coordinate, or a sum that overflowed) or when require_finite_sums refuses the set.
 /// Returns that largest distance (data_scale), so callers need not compute it again.
 double require_distinct_points(const Eigen::Matrix3Xd& points, const Eigen::Vector3d& centroid,
                              const char* element);
+
+/// Throws FitError "coordinates too large: ..." unless `count` fourth powers of `scale` (the
+/// data's size about its centroid) can be summed in double precision: the fits sum centred
+/// squared distances and, in the circle, sphere and cylinder fits, their squares; overflowed
+/// sums would make every result derived from them NaN. The limit, about 1e76 mm, is far beyond
+/// any part, so only corrupt or mis-scaled coordinates meet it.
+void require_finite_sums(double scale, std::size_t count, const char* element);
 
 /// direction / |direction|; throws FitError naming `what` when it is zero or not finite.
 Eigen::Vector3d checked_direction(const Eigen::Vector3d& direction, const char* what);

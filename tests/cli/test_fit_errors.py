@@ -92,6 +92,23 @@ with tempfile.TemporaryDirectory() as tmp:
     expect_error("inscribed circle of a 90-degree arc", ["fit", "circle", arc, "--method",
                                                          "max-inscribed"], "arc.csv")
 
+    # --- coordinates whose squares overflow double precision (IEEE 754 binary64: largest finite
+    # value about 1.8e308): refused in words for every element, never "rms": null and exit 0
+    huge = write(tmp, "huge.csv", "".join(
+        f"{1e200 + 1e190 * math.cos(a):.17g},{2e200 + 1e190 * math.sin(a):.17g},"
+        f"{3e200 + 1e189 * math.cos(2 * a):.17g}\n"
+        for a in (2 * math.pi * k / 24 for k in range(24))))
+    for element in ("line", "plane", "circle", "sphere", "cylinder"):
+        expect_error(f"overflowing {element}", ["fit", element, huge], "huge.csv",
+                     "coordinates too large", f"a {element} cannot be fitted")
+        expect_error(f"overflowing {element}, JSON", ["fit", element, huge, "--json"],
+                     "huge.csv", "coordinates too large")
+    expect_error("overflowing plane, minimum zone", ["fit", "plane", huge, "--method",
+                                                     "minimum-zone"], "coordinates too large")
+    expect_error("overflowing cylinder, maximum inscribed", ["fit", "cylinder", huge, "--method",
+                                                             "max-inscribed"],
+                 "coordinates too large")
+
     # --- and a good run answers with exactly one JSON object and exit code 0
     code, out, err = run("fit", "plane", good, "--json")
     if code != 0:

@@ -4,7 +4,7 @@
 
 Usage: /usr/bin/python3 crosscheck_clocking_width.py CASES.json
 
-CASES.json is written by the hidden Catch2 case "[width-cases]" of test_datum_frame (ctest runs
+CASES.json is written by the hidden Catch2 case "[width-cases]" of test_clocking_width (ctest runs
 it first, as a fixture): random noisy slots and tabs, their points in A's plane about B's axis,
 the generator's face (+1 left of the direction from B toward the feature, -1 right) of each
 point, the generator's parameters, and cylzone's answer (centre-line angle, width, faces).

@@ -1,6 +1,6 @@
 """Cross-check of the tangent (material-side) datum planes against references computed here,
 independently of the library, with numpy and scipy. The cases and cylzone's answers are written
-by the hidden Catch2 case "[crosscheck]" of test_datum_frame (ctest runs it first, as a fixture).
+by the hidden Catch2 case "[crosscheck]" of test_tangent_plane (ctest runs it first, as a fixture).
 
   tangent least-squares plane  scipy.optimize.minimize(method="SLSQP") in the unknowns (n, d)
       of the plane n.p = d with the equality |n|^2 = 1 and one inequality d - n.p_i >= 0 per
@@ -172,7 +172,7 @@ def main():
         with open(sys.argv[1]) as f:
             cases = json.load(f)
     except (OSError, ValueError) as error:
-        sys.exit(f"{sys.argv[1]}: cannot read the cases ({error}); run test_datum_frame "
+        sys.exit(f"{sys.argv[1]}: cannot read the cases ({error}); run test_tangent_plane "
                  "\"[crosscheck]\" first")
 
     for case in cases["planes"]:

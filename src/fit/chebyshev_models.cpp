@@ -1,0 +1,249 @@
+// The zone models of the Chebyshev engine (fit/detail/chebyshev.hpp): orthogonal distances of
+// the points to a circle, an axis and a plane, and their gradients with respect to a local
+// parametrisation in length units; the engine never sees which element it is fitting.
+#include <Eigen/Geometry>
+#include <algorithm>
+#include <cmath>
+#include <memory>
+#include <utility>
+#include <vector>
+
+#include "detail/fit_support.hpp"
+#include "fit/detail/chebyshev.hpp"
+
+namespace cylzone::detail {
+
+namespace {
+
+// A derivative of |x| at a point on the axis / at the centre does not exist; any subgradient
+// of norm <= 1 is valid there and 0 keeps such a point out of the linear model's way.
+inline double inverse_or_zero(double x) { return x > 0.0 ? 1.0 / x : 0.0; }
+
+// The size used to turn tilts into lengths: the data's extent, never zero.
+double tilt_scale_of(const Eigen::Matrix3Xd& points, const Eigen::Vector3d& centroid) {
+  const double s = data_scale(points, centroid);
+  return s > 0.0 ? s : 1.0;
+}
+
+}  // namespace
+
+CircleZoneModel::CircleZoneModel(Eigen::Matrix2Xd points, const Eigen::Vector2d& start_centre)
+    : points_(std::move(points)), centre_(start_centre) {
+  centroid_ = points_.cols() > 0 ? Eigen::Vector2d(points_.rowwise().mean())
+                                 : Eigen::Vector2d::Zero();
+  local_ = points_.colwise() - centre_;
+}
+
+void CircleZoneModel::evaluate(const Eigen::VectorXd& step, Eigen::VectorXd& distances,
+                               Eigen::MatrixXd* gradients) const {
+  const Eigen::Index n = local_.cols();
+  const Eigen::Vector2d a = step.head<2>();
+  distances.resize(n);
+  if (gradients) gradients->resize(n, 2);
+  for (Eigen::Index i = 0; i < n; ++i) {
+    const Eigen::Vector2d w = local_.col(i) - a;
+    const double d = w.norm();
+    distances(i) = d;
+    if (gradients) gradients->row(i) = -w.transpose() * inverse_or_zero(d);  // -(q - c)/|q - c|
+  }
+}
+
+void CircleZoneModel::move(const Eigen::VectorXd& step) {
+  centre_ += step.head<2>();
+  local_ = points_.colwise() - centre_;
+}
+
+// The subsets are built member by member: copying the whole model first would cost
+// O(all points) for a copy of a few.
+std::unique_ptr<ZoneModel> CircleZoneModel::subset(const std::vector<Eigen::Index>& indices) const {
+  std::unique_ptr<CircleZoneModel> copy(new CircleZoneModel());
+  copy->points_ = points_(Eigen::all, indices);
+  copy->centroid_ = centroid_;
+  copy->centre_ = centre_;
+  copy->local_ = local_(Eigen::all, indices);
+  return copy;
+}
+
+double CircleZoneModel::location_offset() const { return (centre_ - centroid_).norm(); }
+
+DisplacementGauge CircleZoneModel::displacement_gauge() const {
+  DisplacementGauge gauge;  // the centre's shift is the parameter itself
+  gauge.functionals = Eigen::MatrixXd::Identity(2, 2);
+  return gauge;
+}
+
+Eigen::VectorXd CircleZoneModel::displacements(const Eigen::VectorXd& step,
+                                               const Eigen::VectorXd&,
+                                               const Eigen::VectorXd&) const {
+  return step.head<2>();
+}
+
+AxisZoneModel::AxisZoneModel(Eigen::Matrix3Xd points, const Axis& start)
+    : points_(std::move(points)) {
+  centroid_ = detail::centroid(points_);
+  tilt_scale_ = tilt_scale_of(points_, centroid_);
+  set_frame(start.point, start.direction);
+}
+
+void AxisZoneModel::set_frame(const Eigen::Vector3d& point_on_axis,
+                              const Eigen::Vector3d& direction) {
+  const Eigen::Vector3d w = direction.normalized();
+  origin_ = point_on_axis + (centroid_ - point_on_axis).dot(w) * w;
+  basis_ = basis_from_direction(w);
+  local_ = local_coordinates(points_, origin_, basis_);
+}
+
+void AxisZoneModel::evaluate(const Eigen::VectorXd& step, Eigen::VectorXd& distances,
+                             Eigen::MatrixXd* gradients) const {
+  // The axis through a = (shift_u, shift_v, 0) along m = (b_u, b_v, 1), b = tilt / L:
+  // d = |(q - a) x m| / |m|. |c| with c = (q - a) x m keeps full precision where
+  // |q - a|^2 - ((q - a).m)^2 / |m|^2 would cancel. Derivatives: dc/da_u = (0, 1, -b_v),
+  // dc/da_v = (-1, 0, b_u), dc/db_u = (0, w_z, -w_y), dc/db_v = (-w_z, 0, w_x) with w = q - a,
+  // and d|m|/db = b / |m|. At zero step they reduce to Forbes' (NPL DITC 140/89):
+  // -(x, y)/d and -z (x, y)/d.
+  const double bu = step(2) / tilt_scale_, bv = step(3) / tilt_scale_;
+  const Eigen::Vector3d a(step(0), step(1), 0.0), m(bu, bv, 1.0);
+  const double s = m.norm();
+  const double inv_l = 1.0 / tilt_scale_;
+  const Eigen::Index n = local_.cols();
+  distances.resize(n);
+  if (gradients) gradients->resize(n, 4);
+  for (Eigen::Index i = 0; i < n; ++i) {
+    const Eigen::Vector3d w = local_.col(i) - a;
+    const Eigen::Vector3d c = w.cross(m);
+    const double cn = c.norm();
+    distances(i) = cn / s;
+    if (!gradients) continue;
+    const double k = inverse_or_zero(cn) / s;
+    auto& g = *gradients;
+    g(i, 0) = k * (c.y() - bv * c.z());
+    g(i, 1) = k * (-c.x() + bu * c.z());
+    g(i, 2) = (k * (w.z() * c.y() - w.y() * c.z()) - cn * bu / (s * s * s)) * inv_l;
+    g(i, 3) = (k * (-w.z() * c.x() + w.x() * c.z()) - cn * bv / (s * s * s)) * inv_l;
+  }
+}
+
+void AxisZoneModel::move(const Eigen::VectorXd& step) {
+  const Eigen::Vector3d point = origin_ + basis_ * Eigen::Vector3d(step(0), step(1), 0.0);
+  const Eigen::Vector3d dir =
+      basis_ * Eigen::Vector3d(step(2) / tilt_scale_, step(3) / tilt_scale_, 1.0);
+  set_frame(point, dir);
+}
+
+std::unique_ptr<ZoneModel> AxisZoneModel::subset(const std::vector<Eigen::Index>& indices) const {
+  std::unique_ptr<AxisZoneModel> copy(new AxisZoneModel());
+  copy->points_ = points_(Eigen::all, indices);
+  copy->centroid_ = centroid_;
+  copy->tilt_scale_ = tilt_scale_;
+  copy->origin_ = origin_;
+  copy->basis_ = basis_;
+  copy->local_ = local_(Eigen::all, indices);
+  return copy;
+}
+
+double AxisZoneModel::location_offset() const { return (centroid_ - origin_).norm(); }
+
+Axis AxisZoneModel::axis() const { return Axis{origin_, basis_.col(2)}; }
+
+DisplacementGauge AxisZoneModel::displacement_gauge() const {
+  // The displaced axis passes through (shift, 0) along (tilt / L, 1): it meets the plane z = t
+  // (the cross-section at station t) at shift + t tilt / L, exactly. Reference points: the
+  // axis at both ends of the points' extent, where a position or perpendicularity zone is
+  // decided for a straight axis.
+  DisplacementGauge gauge;
+  gauge.functionals = Eigen::MatrixXd::Zero(4, 4);
+  const double ends[2] = {local_.row(2).minCoeff(), local_.row(2).maxCoeff()};
+  for (int e = 0; e < 2; ++e) {
+    gauge.functionals(2 * e, 0) = 1.0;
+    gauge.functionals(2 * e, 2) = ends[e] / tilt_scale_;
+    gauge.functionals(2 * e + 1, 1) = 1.0;
+    gauge.functionals(2 * e + 1, 3) = ends[e] / tilt_scale_;
+  }
+  return gauge;
+}
+
+Eigen::VectorXd AxisZoneModel::displacements(const Eigen::VectorXd& step,
+                                             const Eigen::VectorXd&,
+                                             const Eigen::VectorXd&) const {
+  return displacement_gauge().functionals * step;  // exact, see displacement_gauge
+}
+
+PlaneZoneModel::PlaneZoneModel(Eigen::Matrix3Xd points, const Eigen::Vector3d& start_normal)
+    : points_(std::move(points)) {
+  centroid_ = detail::centroid(points_);
+  tilt_scale_ = tilt_scale_of(points_, centroid_);
+  set_frame(start_normal);
+}
+
+void PlaneZoneModel::set_frame(const Eigen::Vector3d& normal) {
+  basis_ = basis_from_direction(normal);
+  local_ = local_coordinates(points_, centroid_, basis_);
+}
+
+Eigen::Matrix2d PlaneZoneModel::box() const {
+  Eigen::Matrix2d b;  // columns: lowest and highest in-plane coordinates
+  b.col(0) = local_.topRows<2>().rowwise().minCoeff();
+  b.col(1) = local_.topRows<2>().rowwise().maxCoeff();
+  return b;
+}
+
+DisplacementGauge PlaneZoneModel::displacement_gauge() const {
+  // The displaced mid-plane {q : q.m / |m| = mid} with m = (b, 1), b = slope / L, has height
+  // z = mid |m| - b.(X, Y) above the in-plane point (X, Y); to first order its change is the
+  // change of mid minus b.(X, Y). Reference points: the corners of the points' box.
+  DisplacementGauge gauge;
+  gauge.dimension = 1;
+  gauge.offset_weight = 1.0;
+  gauge.functionals.resize(4, 2);
+  const Eigen::Matrix2d b = box();
+  for (int c = 0; c < 4; ++c) {
+    gauge.functionals(c, 0) = -b(0, c & 1) / tilt_scale_;
+    gauge.functionals(c, 1) = -b(1, (c >> 1) & 1) / tilt_scale_;
+  }
+  return gauge;
+}
+
+Eigen::VectorXd PlaneZoneModel::displacements(const Eigen::VectorXd& step,
+                                              const Eigen::VectorXd& distances_at_step,
+                                              const Eigen::VectorXd& distances_here) const {
+  const Eigen::Vector2d b = step.head<2>() / tilt_scale_;
+  const double norm = std::sqrt(1.0 + b.squaredNorm());
+  auto mid = [](const Eigen::VectorXd& s) { return 0.5 * (s.maxCoeff() + s.minCoeff()); };
+  const double mid_step = mid(distances_at_step), mid_here = mid(distances_here);
+  const Eigen::Matrix2d corners = box();
+  Eigen::VectorXd out(4);
+  for (int c = 0; c < 4; ++c) {
+    const Eigen::Vector2d corner(corners(0, c & 1), corners(1, (c >> 1) & 1));
+    out(c) = mid_step * norm - b.dot(corner) - mid_here;
+  }
+  return out;
+}
+
+void PlaneZoneModel::evaluate(const Eigen::VectorXd& step, Eigen::VectorXd& distances,
+                              Eigen::MatrixXd* gradients) const {
+  // s_i = q_i.m / |m| with m = (b_u, b_v, 1), b = slope / L; ds/db = q_xy / |m| - s_i b / |m|^2.
+  const Eigen::Vector3d m(step(0) / tilt_scale_, step(1) / tilt_scale_, 1.0);
+  const double norm = m.norm();
+  distances = (m.transpose() * local_).transpose() / norm;
+  if (!gradients) return;
+  gradients->resize(local_.cols(), 2);
+  for (int k = 0; k < 2; ++k)
+    gradients->col(k) =
+        (local_.row(k).transpose() / norm - distances * (m(k) / (norm * norm))) / tilt_scale_;
+}
+
+std::unique_ptr<ZoneModel> PlaneZoneModel::subset(const std::vector<Eigen::Index>& indices) const {
+  std::unique_ptr<PlaneZoneModel> copy(new PlaneZoneModel());
+  copy->points_ = points_(Eigen::all, indices);
+  copy->centroid_ = centroid_;
+  copy->tilt_scale_ = tilt_scale_;
+  copy->basis_ = basis_;
+  copy->local_ = local_(Eigen::all, indices);
+  return copy;
+}
+
+void PlaneZoneModel::move(const Eigen::VectorXd& step) {
+  set_frame(basis_ * Eigen::Vector3d(step(0) / tilt_scale_, step(1) / tilt_scale_, 1.0));
+}
+
+}  // namespace cylzone::detail

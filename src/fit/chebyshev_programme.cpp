@@ -1,0 +1,322 @@
+// The linear programme of one step of the Chebyshev engine and of its ambiguity walks
+// (fit/detail/chebyshev_programme.hpp). This is the only file that talks to Clp.
+#include "fit/detail/chebyshev_programme.hpp"
+
+#include <ClpSimplex.hpp>
+#include <CoinError.hpp>
+#include <CoinPackedMatrix.hpp>
+#include <algorithm>
+#include <cmath>
+#include <initializer_list>
+#include <string>
+#include <utility>
+#include <vector>
+
+#include "cylzone/core/errors.hpp"
+
+namespace cylzone::detail::zone_lp {
+
+/// Rows of the programme in row-major (CSR) form, as Clp takes them.
+struct RowBlock {
+  std::vector<double> lower, upper, elements;
+  std::vector<int> columns;
+  std::vector<CoinBigIndex> starts;
+  int count() const { return static_cast<int>(lower.size()); }
+};
+
+// A row can bind (or be violated) only when (U0 - d_i)/Delta <= |g_i|_1 + |g_top|_1 (the top
+// point's row is always present, so R' >= g_top.y >= -|g_top|_1, and |g_i.y| <= |g_i|_1): rows
+// outside that band are redundant for this programme and are left out (likewise below).
+void ZoneProgramme::candidates(const Eigen::VectorXd& d, const Eigen::VectorXd& g_l1,
+                               double delta, Side side, std::vector<Eigen::Index>& out) const {
+  Eigen::Index extreme = 0;
+  if (side == Side::upper)
+    d.maxCoeff(&extreme);
+  else
+    d.minCoeff(&extreme);
+  const double reach = g_l1(extreme);
+  const double bound = d(extreme);
+  out.clear();
+  for (Eigen::Index i = 0; i < n_; ++i) {
+    const double gap = side == Side::upper ? bound - d(i) : d(i) - bound;
+    if (gap <= delta * (g_l1(i) + reach) * (1.0 + 1e-9) + 1e-300) out.push_back(i);
+  }
+}
+
+void ZoneProgramme::initial_rows(const Eigen::VectorXd& d, const std::vector<Eigen::Index>& cand,
+                                 Side side, std::vector<Constraint>& rows) {
+  auto& member = side == Side::upper ? in_upper_ : in_lower_;
+  auto take = [&](Eigen::Index i) {
+    if (!member[static_cast<std::size_t>(i)]) {
+      member[static_cast<std::size_t>(i)] = 1;
+      rows.push_back({i, side});
+    }
+  };
+  if (cand.size() <= options_.full_set_limit) {
+    for (Eigen::Index i : cand) take(i);
+    return;
+  }
+  // The points nearest the bound ...
+  const std::size_t k = std::min(options_.working_points_per_side, cand.size());
+  std::vector<Eigen::Index> order(cand);
+  auto more_extreme = [&](Eigen::Index a, Eigen::Index b) {
+    return side == Side::upper ? d(a) > d(b) : d(a) < d(b);
+  };
+  std::nth_element(order.begin(), order.begin() + static_cast<std::ptrdiff_t>(k - 1), order.end(),
+                   more_extreme);
+  for (std::size_t j = 0; j < k; ++j) take(order[j]);
+  // ... a stride sample, so the first programme sees the whole surface ...
+  const std::size_t stride = std::max<std::size_t>(1, cand.size() / k);
+  for (std::size_t j = 0; j < cand.size(); j += stride) take(cand[j]);
+  // ... and the rows that bound the previous step.
+  for (const Constraint& c : binding_)
+    if (c.side == side) take(c.point);
+}
+
+std::vector<Constraint> ZoneProgramme::first_rows(const Eigen::VectorXd& d,
+                                                  const Eigen::VectorXd& g_l1, double delta) {
+  in_upper_.assign(static_cast<std::size_t>(n_), 0);
+  in_lower_.assign(static_cast<std::size_t>(n_), 0);
+  std::vector<Constraint> rows;
+  std::vector<Eigen::Index> cand;
+  if (upper_col_ >= 0) {
+    candidates(d, g_l1, delta, Side::upper, cand);
+    initial_rows(d, cand, Side::upper, rows);
+  }
+  if (lower_col_ >= 0) {
+    candidates(d, g_l1, delta, Side::lower, cand);
+    initial_rows(d, cand, Side::lower, rows);
+  }
+  return rows;
+}
+
+RowBlock ZoneProgramme::make_rows(const Eigen::VectorXd& d, const Eigen::MatrixXd& g, double u0,
+                                  double l0, double delta,
+                                  const std::vector<Constraint>& rows) const {
+  RowBlock block;
+  const auto count = rows.size();
+  block.lower.resize(count);
+  block.upper.resize(count);
+  block.starts.assign(count + 1, 0);
+  block.elements.reserve(count * static_cast<std::size_t>(p_ + 1));
+  block.columns.reserve(block.elements.capacity());
+  for (std::size_t r = 0; r < count; ++r) {
+    const Constraint& c = rows[r];
+    for (int k = 0; k < p_; ++k) {
+      block.columns.push_back(k);
+      block.elements.push_back(g(c.point, k));
+    }
+    if (c.side == Side::upper) {
+      // g_i.y - R' <= -(d_i - U0)/Delta
+      block.columns.push_back(upper_col_);
+      block.elements.push_back(-1.0);
+      block.lower[r] = -COIN_DBL_MAX;
+      block.upper[r] = -(d(c.point) - u0) / delta;
+    } else {
+      // g_i.y - r' >= -(d_i - L0)/Delta
+      block.columns.push_back(lower_col_);
+      block.elements.push_back(-1.0);
+      block.lower[r] = -(d(c.point) - l0) / delta;
+      block.upper[r] = COIN_DBL_MAX;
+    }
+    block.starts[r + 1] = static_cast<CoinBigIndex>(block.columns.size());
+  }
+  return block;
+}
+
+// y = 0 with R' = r' = 0 is feasible with objective 0 (the extreme points' rows are present),
+// so an optimum above 0 is a solver failure, not a property of the data: it is retried once
+// from scratch and otherwise reported. The same holds for farthest_step's programmes.
+void ZoneProgramme::run_simplex(ClpSimplex& lp) const {
+  constexpr double impossible = 1e-9;
+  auto solved = [&] { return lp.isProvenOptimal() && lp.objectiveValue() <= impossible; };
+  try {
+    lp.dual();
+    if (!solved()) lp.initialSolve();
+  } catch (const CoinError& e) {
+    throw FitError("Chebyshev fit: the linear programme failed: " + e.message());
+  }
+  if (!solved())
+    throw FitError("Chebyshev fit: the linear programme failed (Clp status " +
+                   std::to_string(lp.status()) + ", secondary " +
+                   std::to_string(lp.secondaryStatus()) + ")");
+}
+
+void ZoneProgramme::load(ClpSimplex& lp, const RowBlock& block, double reach,
+                         int extra_columns) const {
+  // Column bounds and costs. The bound variables are free in principle; at the optimum
+  // |R'|, |r'| <= max_i |g_i|_1 (the extreme point's row is present and |g_i.y| <= |g_i|_1), so
+  // a box of twice that (`reach`) is never active and keeps every column bounded.
+  const int columns = columns_ + extra_columns;
+  std::vector<double> column_lower(static_cast<std::size_t>(columns), -1.0);
+  std::vector<double> column_upper(static_cast<std::size_t>(columns), 1.0);
+  std::vector<double> cost(static_cast<std::size_t>(columns), 0.0);
+  for (int col : {upper_col_, lower_col_}) {
+    if (col < 0) continue;
+    column_lower[static_cast<std::size_t>(col)] = -reach;
+    column_upper[static_cast<std::size_t>(col)] = reach;
+  }
+  for (int col = columns_; col < columns; ++col) column_lower[static_cast<std::size_t>(col)] = 0.0;
+  switch (objective_) {
+    case ZoneObjective::minimum_zone:  // min R' - r'
+      cost[static_cast<std::size_t>(upper_col_)] = 1.0;
+      cost[static_cast<std::size_t>(lower_col_)] = -1.0;
+      break;
+    case ZoneObjective::maximum_inscribed:  // min -r'
+      cost[static_cast<std::size_t>(lower_col_)] = -1.0;
+      break;
+    case ZoneObjective::minimum_circumscribed:  // min R'
+      cost[static_cast<std::size_t>(upper_col_)] = 1.0;
+      break;
+  }
+  std::vector<int> lengths(static_cast<std::size_t>(block.count()));
+  for (std::size_t r = 0; r < lengths.size(); ++r)
+    lengths[r] = static_cast<int>(block.starts[r + 1] - block.starts[r]);
+  const CoinPackedMatrix matrix(false, columns, block.count(),
+                                static_cast<CoinBigIndex>(block.elements.size()),
+                                block.elements.data(), block.columns.data(), block.starts.data(),
+                                lengths.data());
+  lp.setLogLevel(0);  // the numeric core never prints
+  // Tighter than Clp's defaults (1e-7): the rows are in units of Delta, and the step must be
+  // accurate well below the tolerance of the outer iteration.
+  lp.setPrimalTolerance(1e-10);
+  lp.setDualTolerance(1e-10);
+  // The rows are already scaled (coefficients O(1), right-hand sides in units of Delta); Clp's
+  // own scaling was seen to end the dual simplex at a wrong "optimal" basis on such models.
+  lp.scaling(0);
+  lp.loadProblem(matrix, column_lower.data(), column_upper.data(), cost.data(),
+                 block.lower.data(), block.upper.data());
+}
+
+// Constraint generation: check every point against the step, add the violated rows (worst
+// first) and re-solve from the previous basis with the dual simplex, until none is violated.
+// The relaxation's optimum is then feasible, hence optimal, for the full programme.
+void ZoneProgramme::add_violated_rows(ClpSimplex& lp, const Eigen::VectorXd& d,
+                                      const Eigen::MatrixXd& g, double u0, double l0,
+                                      double delta, std::vector<Constraint>& rows) {
+  constexpr double violation_tolerance = 1e-9;  // in units of Delta, above Clp's tolerance
+  const std::size_t max_added = std::max<std::size_t>(64, 2 * options_.working_points_per_side);
+  Eigen::VectorXd y(p_), moved(n_);
+  std::vector<std::pair<double, Constraint>> violated;
+  for (;;) {
+    const double* x = lp.primalColumnSolution();
+    for (int k = 0; k < p_; ++k) y(k) = x[k];
+    moved.noalias() = g * y;
+    violated.clear();
+    for (Eigen::Index i = 0; i < n_; ++i) {
+      const auto s = static_cast<std::size_t>(i);
+      if (upper_col_ >= 0 && !in_upper_[s]) {
+        const double excess = (d(i) - u0) / delta + moved(i) - x[upper_col_];
+        if (excess > violation_tolerance) violated.push_back({excess, {i, Side::upper}});
+      }
+      if (lower_col_ >= 0 && !in_lower_[s]) {
+        const double excess = x[lower_col_] - ((d(i) - l0) / delta + moved(i));
+        if (excess > violation_tolerance) violated.push_back({excess, {i, Side::lower}});
+      }
+    }
+    if (violated.empty()) return;
+    const std::size_t take = std::min(max_added, violated.size());
+    std::partial_sort(violated.begin(), violated.begin() + static_cast<std::ptrdiff_t>(take),
+                      violated.end(),
+                      [](const auto& a, const auto& b) { return a.first > b.first; });
+    std::vector<Constraint> added;
+    added.reserve(take);
+    for (std::size_t j = 0; j < take; ++j) {
+      const Constraint& c = violated[j].second;
+      (c.side == Side::upper ? in_upper_ : in_lower_)[static_cast<std::size_t>(c.point)] = 1;
+      added.push_back(c);
+    }
+    const RowBlock more = make_rows(d, g, u0, l0, delta, added);
+    lp.addRows(more.count(), more.lower.data(), more.upper.data(), more.starts.data(),
+               more.columns.data(), more.elements.data());
+    rows.insert(rows.end(), added.begin(), added.end());
+    run_simplex(lp);
+  }
+}
+
+LinearStep ZoneProgramme::solve(const Eigen::VectorXd& d, const Eigen::MatrixXd& g,
+                                double delta) {
+  const double u0 = d.maxCoeff(), l0 = d.minCoeff();
+  const Eigen::VectorXd g_l1 = g.cwiseAbs().rowwise().sum();
+  std::vector<Constraint> rows = first_rows(d, g_l1, delta);
+  ClpSimplex lp;
+  load(lp, make_rows(d, g, u0, l0, delta, rows), 2.0 * g_l1.maxCoeff() + 1.0, 0);
+  run_simplex(lp);
+  add_violated_rows(lp, d, g, u0, l0, delta, rows);
+
+  binding_.clear();
+  multipliers_.clear();
+  const double* dual = lp.dualRowSolution();
+  for (std::size_t r = 0; r < rows.size(); ++r)
+    if (lp.getRowStatus(static_cast<int>(r)) != ClpSimplex::basic) {
+      binding_.push_back(rows[r]);
+      multipliers_.push_back(std::abs(dual[r]));
+    }
+
+  const double* x = lp.primalColumnSolution();
+  LinearStep result;
+  result.step = delta * Eigen::Map<const Eigen::VectorXd>(x, p_);
+  result.predicted = std::max(0.0, -delta * lp.objectiveValue());
+  result.rows = rows.size();
+  return result;
+}
+
+Eigen::VectorXd ZoneProgramme::farthest_step(const Eigen::VectorXd& d, const Eigen::MatrixXd& g,
+                                             double delta, const Eigen::RowVectorXd& functional,
+                                             double offset_weight) {
+  const double u0 = d.maxCoeff(), l0 = d.minCoeff();
+  const Eigen::VectorXd g_l1 = g.cwiseAbs().rowwise().sum();
+  std::vector<Constraint> rows = first_rows(d, g_l1, delta);
+  ClpSimplex lp;
+  // Columns: the programme's own, then z_k >= |y_k| (k < p) for the penalty.
+  load(lp, make_rows(d, g, u0, l0, delta, rows), 2.0 * g_l1.maxCoeff() + 1.0, p_);
+
+  // Extra rows (constraint generation appends after them): the linearised objective no worse
+  // than the current element's (0 in these variables), and z_k - y_k >= 0, z_k + y_k >= 0. No
+  // slack is given to the objective: the vertex would spend it on directions where the
+  // objective rises to first order (a shift that adds a little to the component), and the
+  // verification on the true objective would then find the tolerance used up before the flat
+  // directions are. The tolerance is applied there, on the true objective, only.
+  RowBlock extra;
+  extra.starts.push_back(0);
+  auto add = [&](std::initializer_list<std::pair<int, double>> entries, double lo, double hi) {
+    for (const auto& [col, value] : entries) {
+      extra.columns.push_back(col);
+      extra.elements.push_back(value);
+    }
+    extra.lower.push_back(lo);
+    extra.upper.push_back(hi);
+    extra.starts.push_back(static_cast<CoinBigIndex>(extra.columns.size()));
+  };
+  switch (objective_) {
+    case ZoneObjective::minimum_zone:  // R' - r' <= 0
+      add({{upper_col_, 1.0}, {lower_col_, -1.0}}, -COIN_DBL_MAX, 0.0);
+      break;
+    case ZoneObjective::maximum_inscribed:  // -r' <= 0
+      add({{lower_col_, -1.0}}, -COIN_DBL_MAX, 0.0);
+      break;
+    case ZoneObjective::minimum_circumscribed:  // R' <= 0
+      add({{upper_col_, 1.0}}, -COIN_DBL_MAX, 0.0);
+      break;
+  }
+  for (int k = 0; k < p_; ++k) {
+    add({{columns_ + k, 1.0}, {k, -1.0}}, 0.0, COIN_DBL_MAX);
+    add({{columns_ + k, 1.0}, {k, 1.0}}, 0.0, COIN_DBL_MAX);
+  }
+  lp.addRows(extra.count(), extra.lower.data(), extra.upper.data(), extra.starts.data(),
+             extra.columns.data(), extra.elements.data());
+
+  // Minimise -(displacement component) / Delta + penalty x sum z. The penalty only breaks ties
+  // among steps that move the component equally far: it is far below the functional's
+  // coefficients (O(1): a station over the data's size at most).
+  constexpr double penalty = 1e-6;
+  for (int k = 0; k < p_; ++k) lp.setObjectiveCoefficient(k, -functional(k));
+  for (int col : {upper_col_, lower_col_})
+    if (col >= 0) lp.setObjectiveCoefficient(col, -0.5 * offset_weight);
+  for (int k = 0; k < p_; ++k) lp.setObjectiveCoefficient(columns_ + k, penalty);
+  run_simplex(lp);
+  add_violated_rows(lp, d, g, u0, l0, delta, rows);
+  return delta * Eigen::Map<const Eigen::VectorXd>(lp.primalColumnSolution(), p_);
+}
+
+}  // namespace cylzone::detail::zone_lp

@@ -1,0 +1,104 @@
+#pragma once
+// Private to the fit stage: the linear programme of one step of the Chebyshev engine
+// (fit/detail/chebyshev.hpp), solved with COIN-OR Clp. Only chebyshev_programme.cpp includes
+// Clp; the engine's driver and its uniqueness walks see this interface alone.
+
+#include <Eigen/Core>
+#include <cstddef>
+#include <vector>
+
+#include "fit/detail/chebyshev.hpp"
+
+class ClpSimplex;
+
+namespace cylzone::detail::zone_lp {
+
+inline bool uses_upper(ZoneObjective o) { return o != ZoneObjective::maximum_inscribed; }
+inline bool uses_lower(ZoneObjective o) { return o != ZoneObjective::minimum_circumscribed; }
+
+/// The true objective, to be minimised: zone width, minus the inscribed radius, or the
+/// circumscribed radius.
+inline double true_objective(ZoneObjective o, const Eigen::VectorXd& d) {
+  switch (o) {
+    case ZoneObjective::minimum_zone: return d.maxCoeff() - d.minCoeff();
+    case ZoneObjective::maximum_inscribed: return -d.minCoeff();
+    case ZoneObjective::minimum_circumscribed: return d.maxCoeff();
+  }
+  return 0.0;
+}
+
+enum class Side { upper, lower };
+
+struct Constraint {
+  Eigen::Index point;
+  Side side;
+};
+
+struct LinearStep {
+  Eigen::VectorXd step;    ///< in the model's parameters (lengths)
+  double predicted = 0.0;  ///< decrease of the objective the linear model predicts (>= 0)
+  std::size_t rows = 0;
+};
+
+/// Rows of the programme in row-major (CSR) form, as Clp takes them (defined with the solver).
+struct RowBlock;
+
+/// The linearised problem at one element, in scaled variables y = x / Delta (|y_k| <= 1) and
+/// bounds R' = (R - U0) / Delta, r' = (r - L0) / Delta, with U0, L0 the current largest and
+/// smallest distance. Every row then reads  (d_i - U0)/Delta + g_i.y <= R'  (upper) or
+/// (d_i - L0)/Delta + g_i.y >= r'  (lower), and the objective's decrease is -Delta times the
+/// programme's optimum for all three kinds. Keeps the rows that were binding at the previous
+/// element, which are the likeliest to bind again.
+class ZoneProgramme {
+ public:
+  ZoneProgramme(ZoneObjective objective, const ZoneOptions& options, Eigen::Index n, int p)
+      : objective_(objective), options_(options), n_(n), p_(p) {
+    int col = p_;
+    if (uses_upper(objective_)) upper_col_ = col++;
+    if (uses_lower(objective_)) lower_col_ = col++;
+    columns_ = col;
+  }
+
+  LinearStep solve(const Eigen::VectorXd& d, const Eigen::MatrixXd& g, double delta);
+
+  /// Rows binding at the last solution, and their multipliers (|dual|; they sum to 1 per side).
+  const std::vector<Constraint>& binding() const noexcept { return binding_; }
+  const std::vector<double>& multipliers() const noexcept { return multipliers_; }
+
+  /// One programme of an ambiguity walk (see walk()): the step in the box |x_k| <= delta that
+  /// moves one displacement component, `functional` x step (+ offset_weight x the change of the
+  /// bounds' mean), farthest, subject to every linearised row and to a linearised objective no
+  /// worse than the current element's. A small penalty on |x|_1 keeps directions that do not
+  /// serve the component at zero.
+  Eigen::VectorXd farthest_step(const Eigen::VectorXd& d, const Eigen::MatrixXd& g, double delta,
+                                const Eigen::RowVectorXd& functional, double offset_weight);
+
+ private:
+  void candidates(const Eigen::VectorXd& d, const Eigen::VectorXd& g_l1, double delta, Side side,
+                  std::vector<Eigen::Index>& out) const;
+  void initial_rows(const Eigen::VectorXd& d, const std::vector<Eigen::Index>& cand, Side side,
+                    std::vector<Constraint>& rows);
+  /// The first working set of a programme at this element (resets the membership flags).
+  std::vector<Constraint> first_rows(const Eigen::VectorXd& d, const Eigen::VectorXd& g_l1,
+                                     double delta);
+  RowBlock make_rows(const Eigen::VectorXd& d, const Eigen::MatrixXd& g, double u0, double l0,
+                     double delta, const std::vector<Constraint>& rows) const;
+  /// Loads the rows, the box and the zone objective's costs, with `extra_columns` columns in
+  /// [0, 1] (cost 0) after the programme's own.
+  void load(ClpSimplex& lp, const RowBlock& block, double reach, int extra_columns) const;
+  /// Constraint generation: adds the violated rows (worst first) and re-solves until none is.
+  void add_violated_rows(ClpSimplex& lp, const Eigen::VectorXd& d, const Eigen::MatrixXd& g,
+                         double u0, double l0, double delta, std::vector<Constraint>& rows);
+  void run_simplex(ClpSimplex& lp) const;
+
+  ZoneObjective objective_;
+  ZoneOptions options_;
+  Eigen::Index n_;
+  int p_;
+  int upper_col_ = -1, lower_col_ = -1, columns_ = 0;
+  std::vector<unsigned char> in_upper_, in_lower_;  // membership in the current working set
+  std::vector<Constraint> binding_;                  // binding rows of the previous solve
+  std::vector<double> multipliers_;                  // and their multipliers
+};
+
+}  // namespace cylzone::detail::zone_lp
