@@ -519,7 +519,7 @@ TEST_CASE("unknown keys are errors", "[plan][errors]") {
   check_error(replaced(kBase, "tolerance = 0.025", "tolerence = 0.025"), "tolerence",
               "bore[P1].position.tolerence",
               "unknown key in a position tolerance (allowed: tolerance, modifier, datums, "
-              "projected)");
+              "projected, projected_from)");
   check_error(replaced(kBase, "cylindricity = 0.008", "cylindricity = 0.008\ndiameter = 12"),
               "diameter", "bore[P2].diameter", "unknown key in a [[bore]]");
   check_error(kBase + "\n[datum.D]\nfeature = \"plane\"\npoints = \"d.csv\"\n", "[datum.D]",

@@ -63,4 +63,18 @@ double datum_shift_allowance(MaterialBoundary boundary, FeatureKind kind, double
   return room > 0.0 ? 0.5 * room : 0.0;
 }
 
+DatumShiftAtMmb datum_shift_at_mmb(FeatureKind kind, const std::optional<SizeLimits>& limits,
+                                   const std::optional<double>& given_mmb, double mating_size) {
+  DatumShiftAtMmb result;
+  if (given_mmb)
+    result.boundary_size = given_mmb;
+  else if (limits)
+    result.boundary_size = limits->mmc(kind);
+  if (!result.boundary_size) return result;
+  const double boundary = *result.boundary_size;
+  result.allowance = datum_shift_allowance(MaterialBoundary::mmb, kind, mating_size, boundary);
+  result.violates = is_external(kind) ? mating_size > boundary : mating_size < boundary;
+  return result;
+}
+
 }  // namespace cylzone
