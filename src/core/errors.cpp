@@ -50,7 +50,7 @@ std::string compose(const std::string& file, std::size_t line, const std::string
   // File and key get a fixed share so that the line number and the problem always show; the
   // problem gets what is left of message_limit.
   constexpr std::size_t file_limit = 120;
-  constexpr std::size_t key_limit = 100;
+  constexpr std::size_t key_limit = 140;
   std::string text = file.empty() ? std::string("<input>") : printable_part(file, file_limit);
   if (line > 0) text += ":" + std::to_string(line);
   text += ": ";

@@ -253,8 +253,11 @@ class PlanRules {
     }
     if (bore.cylindricity) {
       const PlanLocation c_at = at.at("cylindricity");
-      positive_length(*bore.cylindricity, c_at, "the cylindricity tolerance");
-      below_tolerance_ceiling(*bore.cylindricity, c_at, "the cylindricity tolerance");
+      const double value = *bore.cylindricity;
+      if (!(value > 0.0))
+        fail(c_at, "the cylindricity tolerance must be greater than zero (found " + shown(value) +
+                       ")");
+      below_tolerance_ceiling(value, c_at, "the cylindricity tolerance");
     }
     if (!bore.position && !bore.perpendicularity && !bore.cylindricity)
       fail(at, "the bore has no tolerance: give position, perpendicularity or cylindricity");
