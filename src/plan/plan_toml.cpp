@@ -8,6 +8,7 @@
 #include <cctype>
 #include <cmath>
 #include <system_error>
+#include <type_traits>
 #include <utility>
 
 #include "cylzone/core/errors.hpp"
@@ -166,13 +167,8 @@ class PlanParser {
     plan.name = read_string(name, "name", "the part's name (a string)");
 
     const toml::node& units = require(root, "", "units", "\"mm\" or \"inch\"");
-    const std::string unit_text = read_string(units, "units", "\"mm\" or \"inch\"");
-    const std::optional<LengthUnit> unit = parse_unit(unit_text);
-    if (!unit)
-      fail(line_of(units), "units",
-           "unknown unit " + quoted_for_message(unit_text) + ": expected \"mm\" or \"inch\"");
-    plan.unit = *unit;
-    mm_per_unit_ = millimetres_per(*unit);
+    plan.unit = read_word(units, "units", "unit", "\"mm\" or \"inch\"", parse_unit);
+    mm_per_unit_ = millimetres_per(plan.unit);
 
     if (const toml::node* probe = root.get("probe")) plan.probe = read_probe(*probe);
     if (const toml::node* gap = root.get("section_gap"))
@@ -226,6 +222,20 @@ class PlanParser {
                           const std::string& expected) const {
     if (const auto* s = node.as_string()) return s->get();
     fail(line_of(node), key, "expected " + expected + ", found " + type_text(node));
+  }
+
+  /// One of a fixed set of words, e.g. an axis method: `parse` maps the text to its value (an
+  /// optional); an unknown word is "unknown WHAT "text": expected EXPECTED".
+  template <class Parse>
+  auto read_word(const toml::node& node, const std::string& key, const std::string& what,
+                 const std::string& expected, Parse parse) const ->
+      typename std::invoke_result_t<Parse, const std::string&>::value_type {
+    const std::string value = read_string(node, key, expected);
+    const auto parsed = parse(value);
+    if (!parsed)
+      fail(line_of(node), key,
+           "unknown " + what + " " + quoted_for_message(value) + ": expected " + expected);
+    return *parsed;
   }
 
   /// A finite number; TOML integers are accepted where a number is expected (`basic = [40, 25]`).
@@ -390,32 +400,23 @@ class PlanParser {
         : label == 'B' ? "\"bore\" or \"pin\""
                        : "\"bore\", \"pin\", \"slot\", \"tab\" or \"plane\"";
     const toml::node& feature = require(table, path, "feature", allowed_text);
-    const std::string kind = read_string(feature, feature_key, allowed_text);
     // Which kinds each datum may be is a rule (validate_plan); here only the word is read.
-    bool known = false;
-    for (FeatureKind k : {FeatureKind::plane, FeatureKind::bore, FeatureKind::pin,
-                          FeatureKind::slot, FeatureKind::tab})
-      if (kind == feature_kind_name(k)) {
-        d.kind = k;
-        known = true;
-      }
-    if (!known)
-      fail(line_of(feature), feature_key,
-           "unknown feature " + quoted_for_message(kind) + ": expected " + allowed_text);
+    d.kind = read_word(feature, feature_key, "feature", allowed_text,
+                       [](const std::string& text) -> std::optional<FeatureKind> {
+                         for (FeatureKind k : {FeatureKind::plane, FeatureKind::bore,
+                                               FeatureKind::pin, FeatureKind::slot,
+                                               FeatureKind::tab})
+                           if (text == feature_kind_name(k)) return k;
+                         return std::nullopt;
+                       });
 
     d.points = read_points_path(table, path);
 
-    if (const toml::node* association = table.get("association")) {
-      const std::string expected =
-          "\"tangent-least-squares\", \"tangent-minimax\", \"least-squares\" or "
-          "\"minimum-zone\"";
-      const std::string value = read_string(*association, path + ".association", expected);
-      const std::optional<PlaneAssociation> method = parse_association(value);
-      if (!method)
-        fail(line_of(*association), path + ".association",
-             "unknown association " + quoted_for_message(value) + ": expected " + expected);
-      d.association = *method;
-    }
+    if (const toml::node* association = table.get("association"))
+      d.association = read_word(*association, path + ".association", "association",
+                                "\"tangent-least-squares\", \"tangent-minimax\", "
+                                "\"least-squares\" or \"minimum-zone\"",
+                                parse_association);
     if (const toml::node* side = table.get("material_side"))
       d.material_side = read_direction<3>(*side, path + ".material_side",
                                           "a direction [x, y, z] in measurement coordinates");
@@ -496,15 +497,10 @@ class PlanParser {
     if (const toml::node* depth = table.get("depth")) read_depth(*depth, path + ".depth", bore);
     if (const toml::node* size = table.get("size")) bore.size = read_size(*size, path + ".size");
 
-    if (const toml::node* axis = table.get("axis")) {
-      const std::string expected = "\"mating-envelope\", \"least-squares\" or \"median-line\"";
-      const std::string value = read_string(*axis, path + ".axis", expected);
-      const std::optional<BoreAxisMethod> method = parse_axis_method(value);
-      if (!method)
-        fail(line_of(*axis), path + ".axis",
-             "unknown axis " + quoted_for_message(value) + ": expected " + expected);
-      bore.axis = *method;
-    }
+    if (const toml::node* axis = table.get("axis"))
+      bore.axis = read_word(*axis, path + ".axis", "axis",
+                            "\"mating-envelope\", \"least-squares\" or \"median-line\"",
+                            parse_axis_method);
     if (const toml::node* gap = table.get("section_gap"))
       bore.section_gap = read_length(*gap, path + ".section_gap", "the section gap (a number)");
 
@@ -551,20 +547,16 @@ class PlanParser {
         require(table, key, "tolerance", "the diameter of the tolerance zone (a number)");
     t.tolerance = read_length(tolerance, key + ".tolerance", "the tolerance (a number)");
 
-    if (const toml::node* modifier = table.get("modifier")) {
-      const std::string expected = "\"RFS\", \"MMC\" or \"LMC\"";
-      const std::string value = read_string(*modifier, key + ".modifier", expected);
-      bool known = false;
-      for (MaterialCondition c :
-           {MaterialCondition::rfs, MaterialCondition::mmc, MaterialCondition::lmc})
-        if (value == condition_name(c)) {
-          t.condition = c;
-          known = true;
-        }
-      if (!known)
-        fail(line_of(*modifier), key + ".modifier",
-             "unknown modifier " + quoted_for_message(value) + ": expected " + expected);
-    }
+    if (const toml::node* modifier = table.get("modifier"))
+      t.condition = read_word(*modifier, key + ".modifier", "modifier",
+                              "\"RFS\", \"MMC\" or \"LMC\"",
+                              [](const std::string& text) -> std::optional<MaterialCondition> {
+                                for (MaterialCondition c : {MaterialCondition::rfs,
+                                                            MaterialCondition::mmc,
+                                                            MaterialCondition::lmc})
+                                  if (text == condition_name(c)) return c;
+                                return std::nullopt;
+                              });
 
     if (is_position) {
       const toml::node& datums =
