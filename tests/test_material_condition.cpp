@@ -118,6 +118,10 @@ TEST_CASE("datum shift at MMB: the MMB is the given boundary, else the MMC size"
   s = datum_shift_at_mmb(FeatureKind::pin, SizeLimits{15.990, 16.010}, std::nullopt, 16.012);
   CHECK(s.violates);
   CHECK(s.allowance == 0.0);
+  // The boundary size alone.
+  CHECK(*mmb_size_of(FeatureKind::pin, SizeLimits{15.990, 16.010}, std::nullopt) == 16.010);
+  CHECK(*mmb_size_of(FeatureKind::slot, SizeLimits{5.990, 6.030}, 5.985) == 5.985);
+  CHECK_FALSE(mmb_size_of(FeatureKind::tab, std::nullopt, std::nullopt));
   // Neither limits nor a stated MMB: no boundary, no shift.
   s = datum_shift_at_mmb(FeatureKind::bore, std::nullopt, std::nullopt, 20.0);
   CHECK_FALSE(s.boundary_size);

@@ -49,12 +49,6 @@ const DatumReference* find_reference(const std::vector<DatumReference>& datums, 
   return nullptr;
 }
 
-/// The MMB size a datum feature's simulator has: the plan's, or else the MMC size.
-template <class Datum>
-std::optional<double> mmb_size_of(const Datum& datum) {
-  return datum_shift_at_mmb(datum.kind, datum.size, datum.mmb_size, 0.0).boundary_size;
-}
-
 /// Shift allowance of a datum feature of size at MMB, from its related envelope (or width) and
 /// its MMB size. Falls back on the frame's own figure without limits.
 template <class Datum>
@@ -459,7 +453,7 @@ FrameMobility mobility_of(const std::vector<DatumReference>& datums, const Datum
       const ClockingWidthResult& w = *frame.c_width;
       m.c_location = frame.frame.point_to_frame(w.centre_on_a).head<2>();
       if (c->boundary == MaterialBoundary::mmb) m.c_shift_allowance = mmb_allowance(w, w.mating_width);
-      const std::optional<double> mmb = mmb_size_of(w);
+      const std::optional<double> mmb = mmb_size_of(w.kind, w.size, w.mmb_size);
       if (m.c_shift_allowance > 0.0 && mmb) {
         FrameMobility::WidthSimulator simulator;
         simulator.internal = !is_external(w.kind);

@@ -34,11 +34,15 @@ double virtual_condition(MaterialCondition condition, FeatureKind kind, const Si
 double datum_shift_allowance(MaterialBoundary boundary, FeatureKind kind, double mating_size,
                              double boundary_size);
 
+/// The size of a datum feature's maximum material boundary: `given_mmb` (the plan's MMB, e.g.
+/// a virtual condition) when present, else the MMC size of `limits`; empty when neither is
+/// known (ASME Y14.5-2018 datum feature simulators, from memory for the clause; common practice).
+std::optional<double> mmb_size_of(FeatureKind kind, const std::optional<SizeLimits>& limits,
+                                  const std::optional<double>& given_mmb);
+
 /// A datum feature of size against its maximum material boundary (MMB).
 struct DatumShiftAtMmb {
-  /// The MMB's size: the plan's MMB when given (e.g. a virtual condition), else the MMC size of
-  /// the limits; empty when neither is known.
-  std::optional<double> boundary_size;
+  std::optional<double> boundary_size;  ///< mmb_size_of()
   /// datum_shift_allowance at MMB: bore or slot (mating - MMB) / 2, pin or tab
   /// (MMB - mating) / 2; 0 without a boundary size or when the feature violates it.
   double allowance = 0.0;
