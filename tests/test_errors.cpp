@@ -140,6 +140,17 @@ TEST_CASE("hostile plans give one printable bounded line naming file, line and k
     CHECK(e.key() == "bore[1].id");
     CHECK_THAT(std::string(e.what()), Contains("(found \"P\\x1b1\")"));
   }
+  SECTION("a dotted key 20000 tables deep") {
+    std::string deep = "x";
+    for (int i = 0; i < 20000; ++i) deep += ".x";
+    const InputError e = plan_error("format = \"cylzone-plan-1\"\n" + deep + " = 1\n" +
+                                    kPlanHead.substr(kPlanHead.find("name")) +
+                                    "cylindricity = 0.01\n");
+    check_printable_line(e.what());
+    CHECK(e.line() == 2);
+    CHECK(e.key() == "x");
+    CHECK_THAT(e.problem(), Contains("unknown key at the top level"));
+  }
   SECTION("a plan file name with a newline") {
     const InputError e = plan_error(kPlanHead + "cylindricity = -1\n", "odd\ndir/plan\x1b.toml");
     const std::string what = e.what();

@@ -69,13 +69,17 @@ std::size_t line_of(const toml::node& node) {
   return static_cast<std::size_t>(node.source().begin.line);
 }
 
-/// Records the line of every key of `table` (and of its sub-tables, by dotted name) in `lines`.
+/// Records the line of every key of `table` and of its sub-tables down to `levels` deep (by
+/// dotted name, e.g. "size.lower") in `lines`. Two levels reach every key a rule names
+/// ("probe.points" from the top, "position.tolerance" from a bore); the bound also keeps a
+/// hostile plan's deeply nested keys from recursing without end.
 void record_lines(const toml::table& table, const std::string& prefix,
-                  std::map<std::string, std::size_t, std::less<>>& lines) {
+                  std::map<std::string, std::size_t, std::less<>>& lines, int levels = 2) {
   for (auto&& [key, value] : table) {
     const std::string name = detail::join_key(prefix, std::string(key.str()));
     lines.emplace(name, line_of(value));
-    if (const toml::table* sub = value.as_table()) record_lines(*sub, name, lines);
+    if (const toml::table* sub = value.as_table(); sub && levels > 1)
+      record_lines(*sub, name, lines, levels - 1);
   }
 }
 
