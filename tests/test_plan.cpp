@@ -921,6 +921,10 @@ TEST_CASE("plan numbers are bounded to the physically meaningful", "[plan][error
   // Directions must be finite: TOML's inf is refused where the number is read.
   check_error(replaced(kBase, at, at + "\ndirection = [0, 0, inf]"), "direction",
               "bore[P1].direction", "found inf");
+  // A direction carries no unit: a huge one is normalised without overflow.
+  const PartPlan huge = parse_plan(replaced(kBase, at, at + "\ndirection = [0, 0, 1e308]"),
+                                   kPlanFile, false);
+  CHECK((huge.bores[0].nominal_direction - Eigen::Vector3d::UnitZ()).norm() <= 1e-15);
   // At the bounds: accepted.
   const PartPlan edge = parse_plan(
       replaced(replaced(kBase, at, at + "\ndepth = { top = 0, bottom = -10000 }"),

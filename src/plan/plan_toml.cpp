@@ -19,9 +19,9 @@
 // syntax, key sets, types and units, and where each value was written (PlanLocation::lines).
 // The rules that give the values their meaning are validate_plan's (validate_plan.cpp), applied
 // to the plan once it is read. toml++ is included here only. Every error names the plan file,
-// the line of the offending key (toml++ source regions) and its dotted key path. Bores are named in key paths by their id, `bore[P3].position`, once
-// the id is known; errors in the id itself, or in a bore without a usable id, use the 1-based
-// index of the [[bore]] table, `bore[3].id`.
+// the line of the offending key (toml++ source regions) and its dotted key path. Bores are named
+// in key paths by their id, `bore[P3].position`, once the id is known; errors in the id itself,
+// or in a bore without a usable id, use the 1-based index of the [[bore]] table, `bore[3].id`.
 
 namespace cylzone {
 
@@ -286,7 +286,7 @@ class PlanParser {
   Eigen::Matrix<double, N, 1> read_direction(const toml::node& node, const std::string& key,
                                              const std::string& expected) const {
     const Eigen::Matrix<double, N, 1> v = read_vector<N>(node, key, expected);
-    const double length = v.norm();
+    const double length = v.stableNorm();  // no overflow for components near 1e308
     if (!(length > 1e-12)) fail(line_of(node), key, "direction has zero length");
     return v / length;
   }
