@@ -303,6 +303,32 @@ TEST_CASE("projected tolerance zone: position on the axis' extension above A", "
                     Contains("bore P1") && Contains("projected"));
 }
 
+TEST_CASE("projected zone standing on a face above A: [from, from + height]", "[bore_evaluation]") {
+  // A zone projected from the top of a boss 6 mm above A (ASME Y14.5-2018 projected tolerance
+  // zone, from memory for the clause: it starts at the face the mating part rests on). Position
+  // from its definition: twice the largest distance of the extended straight axis from the true
+  // axis, at an end of the zone (the distance is convex along a straight line).
+  LobedBore b = tilted_bore();
+  b.plan.position = tolerance(0.025, MaterialCondition::mmc);
+  b.plan.position->projected_height = 15.0;
+  b.plan.position->projected_from = 6.0;
+  const BoreResult r = evaluate_bore(b.plan, b.points);
+  REQUIRE(r.position.has_value());
+  const PositionResult& p = *r.position;
+  CHECK(p.projected);
+  CHECK(p.range_bottom == 6.0);
+  CHECK(p.range_top == 21.0);
+  const TrueAxis zone = true_axis(b.plan.basic_location, Eigen::Vector3d::UnitZ());
+  const Eigen::Vector2d at_top = deviation_at(b.axis, zone, 21.0);
+  const Eigen::Vector2d at_face = deviation_at(b.axis, zone, 6.0);
+  CHECK(p.value == Approx(2 * std::max(at_top.norm(), at_face.norm())).margin(agreement));
+  // The same zone from A would end lower and read less: the axis leans away with height.
+  b.plan.position->projected_from.reset();
+  const BoreResult from_a = evaluate_bore(b.plan, b.points);
+  CHECK(from_a.position->range_top == 15.0);
+  CHECK(from_a.position->value < p.value);
+}
+
 TEST_CASE("median line on a bent axis: section centres, position, perpendicularity", "[bore_evaluation]") {
   // Circles of radius 5 with centres c(z) = basic + (dx - k (z - zm)^2, dy): symmetric about zm,
   // so the least-squares axis is parallel to z and the sections at the probed levels are the
@@ -409,6 +435,12 @@ TEST_CASE("a scanned cloud without levels is cut into slabs", "[bore_evaluation]
   CHECK(r.size.two_point_count > 79 * 50);
   CHECK(r.size.two_point_max <= 2 * radius + 1e-9);
   CHECK(r.size.two_point_min >= 2 * radius * std::cos(pi / (2.0 * fewest)) - 1e-9);
+
+  // The plan's section gap for the bore (the `section_gap` plan key) overrides the option's:
+  // slabs of 1 mm over the 39.5 mm probed span.
+  plan.section_gap = 1.0;
+  const BoreResult coarse = evaluate_bore(plan, points, options);
+  CHECK(coarse.sections.size() == 40);  // ceil(39.5 / 1.0)
 }
 
 TEST_CASE("an inclined bore is evaluated along its nominal direction", "[bore_evaluation]") {

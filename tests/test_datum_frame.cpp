@@ -224,6 +224,7 @@ TEST_CASE("frame with a pin as datum B", "[datum][frame]") {
   std::vector<PlanDatum> datums = {plane_datum('A'), size_datum('B', FeatureKind::pin),
                                    size_datum('C', FeatureKind::bore)};
   datums[1].size = SizeLimits{15.990, 16.010};
+  datums[1].boundary = MaterialBoundary::mmb;  // as validate_plan settles it for B(M)
   datums[2].basic_location = Eigen::Vector2d(-30.0, 30.0);
   const std::vector<PointCloud> clouds = {
       cloud(motion.apply(face_a_points()), "A.csv"),
@@ -245,6 +246,7 @@ TEST_CASE("frame with a pin as datum B", "[datum][frame]") {
 TEST_CASE("datum B size: MMB, shift allowance and a violated boundary", "[datum][frame]") {
   const Motion motion = generic_motion();
   std::vector<PlanDatum> datums = {plane_datum('A'), size_datum('B', FeatureKind::bore)};
+  datums[1].boundary = MaterialBoundary::mmb;  // as validate_plan settles it for B(M)
   const std::vector<PointCloud> clouds = {
       cloud(motion.apply(face_a_points()), "A.csv"),
       cloud(motion.apply(lobed_feature(0.0, 0.0, 10.0, -40.0, -3.0, 0.004)), "B.csv")};
@@ -577,6 +579,7 @@ TEST_CASE("C slot or tab: MMB, shift allowance and a violated boundary", "[datum
   const PointCloud slot = cloud(motion.apply(width_feature(true, 0.0, 0.0, 3.0, -2.0, -12.0)), "C.csv");
   const PointCloud tab = cloud(motion.apply(width_feature(false, 0.0, 0.0, 3.0, 2.0, 10.0)), "C.csv");
   PlanDatum c = width_datum(FeatureKind::slot, 0.0);
+  c.boundary = MaterialBoundary::mmb;  // as validate_plan settles it for C(M)
   SECTION("slot, MMB from the MMC width") {
     c.size = SizeLimits{5.990, 6.030};
     const DatumFrameResult r =
@@ -587,6 +590,7 @@ TEST_CASE("C slot or tab: MMB, shift allowance and a violated boundary", "[datum
   }
   SECTION("tab, MMB given") {
     c = width_datum(FeatureKind::tab, 0.0);
+    c.boundary = MaterialBoundary::mmb;
     c.size = SizeLimits{5.970, 6.010};
     c.mmb_size = 6.016;
     const DatumFrameResult r =

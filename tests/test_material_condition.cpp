@@ -85,3 +85,46 @@ TEST_CASE("datum feature shift: half the departure from the MMB simulator", "[ma
   CHECK(datum_shift_allowance(MaterialBoundary::lmb, FeatureKind::bore, 20.015, 20.021) ==
         Approx(0.003).margin(1e-15));
 }
+
+TEST_CASE("datum shift at MMB: the MMB is the given boundary, else the MMC size",
+          "[material_condition]") {
+  // ASME Y14.5-2018 datum feature shift (from memory for the clause): a datum bore shifts by
+  // (mating - MMB) / 2, a pin by (MMB - mating) / 2; the MMB simulator has the MMC size unless
+  // the drawing states another boundary (e.g. a virtual condition) -- common practice.
+  const SizeLimits bore{19.990, 20.011};
+  // MMB from the MMC size (bore: lower limit 19.990); mating 19.996: shift 0.003.
+  DatumShiftAtMmb s = datum_shift_at_mmb(FeatureKind::bore, bore, std::nullopt, 19.996);
+  REQUIRE(s.boundary_size);
+  CHECK(*s.boundary_size == 19.990);
+  CHECK(s.allowance == Approx(0.003).margin(1e-15));
+  CHECK_FALSE(s.violates);
+  // A stated MMB wins over the MMC size: 19.985 gives (19.996 - 19.985) / 2 = 0.0055.
+  s = datum_shift_at_mmb(FeatureKind::bore, bore, 19.985, 19.996);
+  CHECK(*s.boundary_size == 19.985);
+  CHECK(s.allowance == Approx(0.0055).margin(1e-15));
+  // Pin: MMC is the upper limit 16.010; mating 16.006 gives (16.010 - 16.006) / 2 = 0.002.
+  s = datum_shift_at_mmb(FeatureKind::pin, SizeLimits{15.990, 16.010}, std::nullopt, 16.006);
+  CHECK(*s.boundary_size == 16.010);
+  CHECK(s.allowance == Approx(0.002).margin(1e-15));
+  // A tab follows the pin, a slot the bore.
+  s = datum_shift_at_mmb(FeatureKind::tab, SizeLimits{5.970, 6.010}, 6.016, 6.000);
+  CHECK(s.allowance == Approx(0.008).margin(1e-15));
+  s = datum_shift_at_mmb(FeatureKind::slot, SizeLimits{5.990, 6.030}, std::nullopt, 6.000);
+  CHECK(s.allowance == Approx(0.005).margin(1e-15));
+  // A bore smaller than its MMB (a pin larger) does not fit the simulator: no shift.
+  s = datum_shift_at_mmb(FeatureKind::bore, bore, std::nullopt, 19.988);
+  CHECK(s.violates);
+  CHECK(s.allowance == 0.0);
+  s = datum_shift_at_mmb(FeatureKind::pin, SizeLimits{15.990, 16.010}, std::nullopt, 16.012);
+  CHECK(s.violates);
+  CHECK(s.allowance == 0.0);
+  // The boundary size alone.
+  CHECK(*mmb_size_of(FeatureKind::pin, SizeLimits{15.990, 16.010}, std::nullopt) == 16.010);
+  CHECK(*mmb_size_of(FeatureKind::slot, SizeLimits{5.990, 6.030}, 5.985) == 5.985);
+  CHECK_FALSE(mmb_size_of(FeatureKind::tab, std::nullopt, std::nullopt));
+  // Neither limits nor a stated MMB: no boundary, no shift.
+  s = datum_shift_at_mmb(FeatureKind::bore, std::nullopt, std::nullopt, 20.0);
+  CHECK_FALSE(s.boundary_size);
+  CHECK(s.allowance == 0.0);
+  CHECK_FALSE(s.violates);
+}

@@ -519,7 +519,7 @@ TEST_CASE("unknown keys are errors", "[plan][errors]") {
   check_error(replaced(kBase, "tolerance = 0.025", "tolerence = 0.025"), "tolerence",
               "bore[P1].position.tolerence",
               "unknown key in a position tolerance (allowed: tolerance, modifier, datums, "
-              "projected)");
+              "projected, projected_from)");
   check_error(replaced(kBase, "cylindricity = 0.008", "cylindricity = 0.008\ndiameter = 12"),
               "diameter", "bore[P2].diameter", "unknown key in a [[bore]]");
   check_error(kBase + "\n[datum.D]\nfeature = \"plane\"\npoints = \"d.csv\"\n", "[datum.D]",
@@ -882,4 +882,109 @@ TEST_CASE("names of the tolerancing vocabulary round-trip", "[plan][names]") {
     CHECK(parse_axis_method(axis_method_name(m)) == m);
   CHECK(axis_method_name(BoreAxisMethod::median_line) == "median-line");
   CHECK_FALSE(parse_axis_method(""));
+}
+
+// ====================================================================== bounds and new keys
+
+TEST_CASE("plan numbers are bounded to the physically meaningful", "[plan][errors][bounds]") {
+  // docs/plan.md "Bounds": lengths within 10 m, tolerances at most 100 mm. A depth of 1e308
+  // once reached the report as inf.
+  const std::string at = "basic = [40.0, 25.0]";
+  check_error(replaced(kBase, at, at + "\ndepth = { top = 1e308, bottom = -5 }"), "depth",
+              "bore[P1].depth.top",
+              "the top of the range is beyond the plan's bound of 10 m (10000 mm) in magnitude: "
+              "found 1e+308 mm");
+  check_error(replaced(kBase, at, at + "\ndepth = { bottom = -1e308 }"), "bottom = -1e308",
+              "bore[P1].depth.bottom", "found -1e+308 mm");
+  check_error(replaced(kBase, at, "basic = [40.0, 25000.0]"), "basic = [40.0, 25000.0]",
+              "bore[P1].basic", "the true position (element 2) is beyond the plan's bound");
+  check_error(replaced(kBase, "basic = [90.0, 0.0]", "basic = [90.0, -1e12]"), "-1e12",
+              "datum.C.basic", "the basic location of C (element 2) is beyond");
+  check_error(replaced(kBase, "upper = 12.018", "upper = 12018.0"), "upper = 12018.0",
+              "bore[P1].size.upper", "the upper limit of size is beyond");
+  check_error(replaced(kBase, "tolerance = 0.025", "tolerance = 250"), "tolerance = 250",
+              "bore[P1].position.tolerance",
+              "the tolerance exceeds the plan's ceiling of 100 mm: found 250 mm");
+  check_error(replaced(kBase, "cylindricity = 0.008", "cylindricity = 1e300"), "cylindricity",
+              "bore[P2].cylindricity", "exceeds the plan's ceiling of 100 mm");
+  check_error(replaced(kBase, "datums = \"A|B(M)|C\"", "datums = \"A|B(M)|C\", projected = 1e9"),
+              "projected = 1e9", "bore[P1].position.projected", "the projected height is beyond");
+  // In inch: 400 inch = 10160 mm is beyond; the message quotes the plan's own number and unit.
+  const std::string inch = replaced(kBase, "units = \"mm\"", "units = \"inch\"");
+  check_error(replaced(inch, at, "basic = [400, 1]"), "basic = [400, 1]", "bore[P1].basic",
+              "found 400 inch");
+  check_error(replaced(inch, "tolerance = 0.025", "tolerance = 4"), "tolerance = 4",
+              "bore[P1].position.tolerance", "ceiling of 100 mm: found 4 inch");
+  // 1e307 inch overflows to inf in millimetres: still refused, never carried on.
+  check_error(replaced(inch, at, at + "\ndepth = { top = 1e307 }"), "depth",
+              "bore[P1].depth.top", "is beyond the plan's bound");
+  // Directions must be finite: TOML's inf is refused where the number is read.
+  check_error(replaced(kBase, at, at + "\ndirection = [0, 0, inf]"), "direction",
+              "bore[P1].direction", "found inf");
+  // A direction carries no unit: a huge one is normalised without overflow.
+  const PartPlan huge = parse_plan(replaced(kBase, at, at + "\ndirection = [0, 0, 1e308]"),
+                                   kPlanFile, false);
+  CHECK((huge.bores[0].nominal_direction - Eigen::Vector3d::UnitZ()).norm() <= 1e-15);
+  // At the bounds: accepted.
+  const PartPlan edge = parse_plan(
+      replaced(replaced(kBase, at, at + "\ndepth = { top = 0, bottom = -10000 }"),
+               "tolerance = 0.025", "tolerance = 100"),
+      kPlanFile, false);
+  CHECK(*edge.bores[0].depth_bottom == -10000.0);
+  CHECK(edge.bores[0].position->tolerance == 100.0);
+}
+
+TEST_CASE("section gap: plan-wide, overridden per bore", "[plan][section_gap]") {
+  const std::string wide = replaced(kBase, "units = \"mm\"", "units = \"mm\"\nsection_gap = 1.5");
+  const PartPlan plan = parse_plan(
+      replaced(wide, "cylindricity = 0.008", "cylindricity = 0.008\nsection_gap = 0.25"),
+      kPlanFile, false);
+  REQUIRE(plan.section_gap);
+  CHECK(*plan.section_gap == 1.5);
+  CHECK(*plan.bores[0].section_gap == 1.5);   // P1: the plan-wide gap
+  CHECK(*plan.bores[1].section_gap == 0.25);  // P2: its own
+  // Without either, the evaluation's option applies.
+  CHECK_FALSE(parse_plan(kBase, kPlanFile, false).bores[0].section_gap);
+  // In inch, converted at 25.4 mm per inch (exact by definition of the inch).
+  const PartPlan inch = parse_plan(
+      replaced(replaced(kBase, "units = \"mm\"", "units = \"inch\"\nsection_gap = 0.02"),
+               "tolerance = 0.025", "tolerance = 0.001"),
+      kPlanFile, false);
+  CHECK(*inch.bores[1].section_gap == Approx(0.508).epsilon(1e-15));
+
+  check_error(replaced(kBase, "units = \"mm\"", "units = \"mm\"\nsection_gap = 0"), "section_gap",
+              "section_gap", "the section gap must be greater than zero (found 0)");
+  check_error(replaced(kBase, "cylindricity = 0.008", "cylindricity = 0.008\nsection_gap = -1"),
+              "section_gap", "bore[P2].section_gap", "must be greater than zero (found -1)");
+  check_error(replaced(kBase, "units = \"mm\"", "units = \"mm\"\nsection_gap = \"fine\""),
+              "section_gap", "section_gap", "expected the section gap (a number), found a string");
+}
+
+TEST_CASE("projected zone from a face other than datum A", "[plan][projected]") {
+  // ASME Y14.5-2018 projected tolerance zone (from memory for the clause): the zone starts at
+  // the face the mating part rests on; projected_from gives its height in the frame.
+  const std::string with_from = replaced(kBase, "datums = \"A|B(M)|C\"",
+                                         "datums = \"A|B(M)|C\", projected = 15, projected_from = 6.5");
+  const PartPlan plan = parse_plan(with_from, kPlanFile, false);
+  REQUIRE(plan.bores[0].position->projected_from);
+  CHECK(*plan.bores[0].position->projected_from == 6.5);
+  CHECK(*plan.bores[0].position->projected_height == 15.0);
+  // A face below A (a counterbore floor) is a negative height.
+  const PartPlan below = parse_plan(replaced(with_from, "6.5", "-4"), kPlanFile, false);
+  CHECK(*below.bores[0].position->projected_from == -4.0);
+  // Inch: 0.25 inch = 6.35 mm.
+  const PartPlan inch = parse_plan(
+      replaced(replaced(replaced(with_from, "units = \"mm\"", "units = \"inch\""), "6.5", "0.25"),
+               "tolerance = 0.025", "tolerance = 0.001"),
+      kPlanFile, false);
+  CHECK(*inch.bores[0].position->projected_from == Approx(6.35).epsilon(1e-15));
+
+  check_error(replaced(kBase, "datums = \"A|B(M)|C\"", "datums = \"A|B(M)|C\", projected_from = 3"),
+              "projected_from", "bore[P1].position.projected_from",
+              "projected_from is given without projected");
+  check_error(replaced(with_from, "6.5", "20000"), "projected_from",
+              "bore[P1].position.projected_from", "is beyond the plan's bound");
+  check_error(replaced(kBase, "{ tolerance = 0.010 }", "{ tolerance = 0.010, projected_from = 2 }"),
+              "projected_from = 2", "bore[P1].perpendicularity.projected_from",
+              "unknown key in a perpendicularity tolerance");
 }

@@ -29,21 +29,6 @@ auto for_feature(const std::string& feature, Step&& step) -> decltype(step()) {
   }
 }
 
-/// The boundary a plan uses for a datum feature of size, as reported: MMB when any position or
-/// perpendicularity references it at MMB (its shift must be computed), else LMB when any does,
-/// else RMB.
-MaterialBoundary boundary_used(const PartPlan& plan, char label) {
-  MaterialBoundary used = MaterialBoundary::rmb;
-  for (const PlanBore& bore : plan.bores)
-    for (const auto* tol : {&bore.position, &bore.perpendicularity})
-      if (*tol)
-        for (const DatumReference& ref : (*tol)->datums)
-          if (ref.label == label && ref.boundary != MaterialBoundary::rmb &&
-              used != MaterialBoundary::mmb)
-            used = ref.boundary;
-  return used;
-}
-
 /// Bores sharing one datum reference (same datums, same boundaries) form one pattern that moves
 /// together when the reference leaves the frame mobile (simultaneous requirement).
 std::map<std::string, std::vector<std::size_t>> patterns_by_reference(const PartPlan& plan) {
@@ -136,10 +121,6 @@ PartCheckResult check_part(const PartPlan& plan, const CheckOptions& options) {
   result.datums.a.material_side_inferred = inferred;
   if (inferred)
     result.warnings.push_back("material side of datum A inferred from the bores' points");
-  for (auto* feature : {&result.datums.b, &result.datums.c_feature})
-    if (*feature) (*feature)->boundary = boundary_used(plan, (*feature)->label);
-  if (result.datums.c_width)
-    result.datums.c_width->boundary = boundary_used(plan, result.datums.c_width->label);
 
   for (std::size_t i = 0; i < plan.bores.size(); ++i) {
     const PlanBore& bore = plan.bores[i];

@@ -45,21 +45,20 @@ constexpr double least_material_cosine = 0.2;
 
 std::string label_text(char label) { return std::string("datum ") + label; }
 
-// The MMB of a datum feature of size, the plan's or else its MMC size, and the shift it allows
-// as if referenced at MMB (the caller knows the references and sets `boundary`). A feature
-// violating its MMB allows nothing and gets a note (ASME Y14.5-2018 datum feature shift;
-// common practice).
+// The boundary the plan settled for the datum feature (validate_plan), its MMB size (the plan's
+// or else its MMC size, reported whatever the boundary) and, at MMB only, the shift it allows:
+// a feature violating its MMB allows nothing and gets a note (ASME Y14.5-2018 datum feature
+// shift; common practice). Only MMB moves the datum: RMB and LMB leave the shift at 0.
 void set_mmb_boundary(const PlanDatum& datum, double mating, const std::string& measure,
-                      const std::string& allowance_name, std::optional<double>& mmb_size,
-                      double& shift_allowance, std::vector<std::string>& notes) {
-  if (datum.mmb_size)
-    mmb_size = datum.mmb_size;
-  else if (datum.size)
-    mmb_size = datum.size->mmc(datum.kind);
-  if (!mmb_size) return;
-  shift_allowance = datum_shift_allowance(MaterialBoundary::mmb, datum.kind, mating, *mmb_size);
-  const bool violates = is_external(datum.kind) ? mating > *mmb_size : mating < *mmb_size;
-  if (violates)
+                      const std::string& allowance_name, MaterialBoundary& boundary,
+                      std::optional<double>& mmb_size, double& shift_allowance,
+                      std::vector<std::string>& notes) {
+  boundary = datum.boundary;
+  const DatumShiftAtMmb shift = datum_shift_at_mmb(datum.kind, datum.size, datum.mmb_size, mating);
+  mmb_size = shift.boundary_size;
+  if (boundary != MaterialBoundary::mmb || !mmb_size) return;
+  shift_allowance = shift.allowance;
+  if (shift.violates)
     notes.push_back(label_text(datum.label) + ": related mating " + measure + " " +
                     detail::format_number(mating, 4) + " mm violates its MMB " +
                     detail::format_number(*mmb_size, 4) + " mm: it does not fit an MMB simulator, no " +
@@ -204,8 +203,8 @@ SizeDatumResult associate_size_datum(const PlanDatum& datum, const PointCloud& c
                         "the datum axis and its mating size rest on"}});
   }
   result.size = datum.size;
-  set_mmb_boundary(datum, result.mating_size, "size", "datum shift", result.mmb_size,
-                   result.shift_allowance, notes);
+  set_mmb_boundary(datum, result.mating_size, "size", "datum shift", result.boundary,
+                   result.mmb_size, result.shift_allowance, notes);
   return result;
 }
 
@@ -445,8 +444,8 @@ ClockingWidthResult associate_clocking_width(const PlanDatum& datum, const Point
   }
 
   result.size = datum.size;
-  set_mmb_boundary(datum, result.mating_width, "width", "rotation allowance", result.mmb_size,
-                   result.shift_allowance, notes);
+  set_mmb_boundary(datum, result.mating_width, "width", "rotation allowance", result.boundary,
+                   result.mmb_size, result.shift_allowance, notes);
   return result;
 }
 

@@ -360,8 +360,11 @@ void evaluate_in_zone(BoreResult& result, const PlanBore& bore, const FitOptions
     // Projected zone (ASME Y14.5-2018 7.4.1; ISO 1101:2017 with ISO 10578 for the projected
     // zone, from memory): the zone lies above A, out of the material, and the straight axis is
     // extended into it.
-    const double top = projected ? *spec.projected_height : own_top;
-    const double bottom = projected ? 0.0 : own_bottom;
+    // The zone stands on datum plane A (z = 0) or on the face the plan names (a boss, a
+    // spot face), whose height is projected_from.
+    const double base = spec.projected_from.value_or(0.0);
+    const double top = projected ? base + *spec.projected_height : own_top;
+    const double bottom = projected ? base : own_bottom;
     if (geometry.median) geometry.centres = centres_in(top, bottom);
     result.position = evaluate_position(spec, top, bottom, projected, bonus_for(spec), geometry);
   }
@@ -390,7 +393,9 @@ BoreResult evaluate_bore(const PlanBore& bore, const Eigen::Matrix3Xd& points,
   BoreResult result;
   result.id = bore.id;
   result.axis_method = bore.axis;
-  if (!(options.section_gap > 0.0))
+  // The plan's section gap for this bore, when it gives one, else the option's.
+  const double section_gap = bore.section_gap.value_or(options.section_gap);
+  if (!(section_gap > 0.0))
     throw FitError("bore " + bore.id + ": the section gap must be positive");
   if (!points.allFinite())
     throw FitError("bore " + bore.id + ": the points contain a non-finite coordinate");
@@ -464,7 +469,7 @@ BoreResult evaluate_bore(const PlanBore& bore, const Eigen::Matrix3Xd& points,
   for (std::size_t k = 0; k < order.size(); ++k)
     sorted_heights[k] = ls_height[static_cast<std::size_t>(order[k])];
   const SectionPlan section_plan = for_bore(
-      bore, [&] { return plan_sections(points, ls_axis, sorted_heights, options.section_gap); });
+      bore, [&] { return plan_sections(points, ls_axis, sorted_heights, section_gap); });
   SectionOptions section_options;
   section_options.half_thickness = section_plan.half_thickness;
   section_options.min_points = std::max<std::size_t>(3, options.min_section_points);

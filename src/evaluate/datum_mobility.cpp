@@ -49,21 +49,12 @@ const DatumReference* find_reference(const std::vector<DatumReference>& datums, 
   return nullptr;
 }
 
-/// The MMB size a datum feature's simulator has: the plan's, or else the MMC size.
-template <class Datum>
-std::optional<double> mmb_size_of(const Datum& datum) {
-  if (datum.mmb_size) return datum.mmb_size;
-  if (datum.size) return datum.size->mmc(datum.kind);
-  return std::nullopt;
-}
-
 /// Shift allowance of a datum feature of size at MMB, from its related envelope (or width) and
 /// its MMB size. Falls back on the frame's own figure without limits.
 template <class Datum>
 double mmb_allowance(const Datum& datum, double mating_size) {
-  const std::optional<double> boundary = mmb_size_of(datum);
-  if (!boundary) return datum.shift_allowance;
-  return datum_shift_allowance(MaterialBoundary::mmb, datum.kind, mating_size, *boundary);
+  const DatumShiftAtMmb shift = datum_shift_at_mmb(datum.kind, datum.size, datum.mmb_size, mating_size);
+  return shift.boundary_size ? shift.allowance : datum.shift_allowance;
 }
 
 /// One evaluated height of one bore: its deviation M s + b, weighted by 2 / allowed.
@@ -462,7 +453,7 @@ FrameMobility mobility_of(const std::vector<DatumReference>& datums, const Datum
       const ClockingWidthResult& w = *frame.c_width;
       m.c_location = frame.frame.point_to_frame(w.centre_on_a).head<2>();
       if (c->boundary == MaterialBoundary::mmb) m.c_shift_allowance = mmb_allowance(w, w.mating_width);
-      const std::optional<double> mmb = mmb_size_of(w);
+      const std::optional<double> mmb = mmb_size_of(w.kind, w.size, w.mmb_size);
       if (m.c_shift_allowance > 0.0 && mmb) {
         FrameMobility::WidthSimulator simulator;
         simulator.internal = !is_external(w.kind);

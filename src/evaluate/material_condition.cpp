@@ -63,4 +63,22 @@ double datum_shift_allowance(MaterialBoundary boundary, FeatureKind kind, double
   return room > 0.0 ? 0.5 * room : 0.0;
 }
 
+std::optional<double> mmb_size_of(FeatureKind kind, const std::optional<SizeLimits>& limits,
+                                  const std::optional<double>& given_mmb) {
+  if (given_mmb) return given_mmb;
+  if (limits) return limits->mmc(kind);
+  return std::nullopt;
+}
+
+DatumShiftAtMmb datum_shift_at_mmb(FeatureKind kind, const std::optional<SizeLimits>& limits,
+                                   const std::optional<double>& given_mmb, double mating_size) {
+  DatumShiftAtMmb result;
+  result.boundary_size = mmb_size_of(kind, limits, given_mmb);
+  if (!result.boundary_size) return result;
+  const double boundary = *result.boundary_size;
+  result.allowance = datum_shift_allowance(MaterialBoundary::mmb, kind, mating_size, boundary);
+  result.violates = is_external(kind) ? mating_size > boundary : mating_size < boundary;
+  return result;
+}
+
 }  // namespace cylzone

@@ -58,14 +58,14 @@ struct SizeDatumResult {
   /// maximum inscribed cylinder of a bore, minimum circumscribed of a pin.
   CylinderFit related_envelope;
   double mating_size = 0.0;  ///< diameter of the related envelope
-  MaterialBoundary boundary = MaterialBoundary::rmb;  ///< MMB if any reference uses it, else LMB if any, else RMB
-  std::optional<double> mmb_size;
+  /// The plan datum's settled boundary (PlanDatum::boundary, set by validate_plan): MMB if
+  /// any reference uses it, else LMB if any, else RMB.
+  MaterialBoundary boundary = MaterialBoundary::rmb;
+  std::optional<double> mmb_size;  ///< the plan's MMB, or else the MMC size when a size is given
   /// Radius of the circle within which the datum axis may move relative to an MMB simulator:
   /// (mating - MMB) / 2 for a bore, (MMB - mating) / 2 for a pin (ASME Y14.5-2018, datum
-  /// feature shift). establish_datum_frame computes it as if referenced at MMB whenever an MMB
-  /// size is known (it does not know the references) and leaves `boundary` at RMB; the caller
-  /// sets the boundary it uses. 0 without a size, and 0 with a note when the feature violates
-  /// its MMB (it does not fit the simulator).
+  /// feature shift; datum_shift_at_mmb). Computed only when `boundary` is MMB; 0 otherwise,
+  /// without a size, and (with a note) when the feature violates its MMB.
   double shift_allowance = 0.0;
   std::optional<SizeLimits> size;
   Eigen::Vector3d axis_on_a = Eigen::Vector3d::Zero();  ///< where its axis meets A (measurement)
@@ -107,12 +107,13 @@ struct ClockingWidthResult {
   /// against them.
   Eigen::Matrix3Xd positive_face;
   Eigen::Matrix3Xd negative_face;
-  MaterialBoundary boundary = MaterialBoundary::rmb;  ///< MMB if any reference uses it, else LMB if any, else RMB
+  MaterialBoundary boundary = MaterialBoundary::rmb;  ///< as SizeDatumResult::boundary
   std::optional<SizeLimits> size;
   std::optional<double> mmb_size;  ///< the plan's MMB, or else the MMC width when a size is given
   /// As SizeDatumResult::shift_allowance, for the width: (mating - MMB) / 2 for a slot,
   /// (MMB - mating) / 2 for a tab, how far the centre plane may move off an MMB simulator's;
-  /// 0 without a size, and 0 with a note when the feature violates its MMB.
+  /// computed only at MMB; 0 otherwise, without a size, and (with a note) when the feature
+  /// violates its MMB.
   double shift_allowance = 0.0;
   int iterations = 0;  ///< objective evaluations of the one-dimensional search
   /// Suspect points, screened against the residuals of each face's least-squares line in A

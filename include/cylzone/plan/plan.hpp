@@ -7,10 +7,17 @@
 /// All lengths are converted to millimetres on reading; `unit` keeps the plan's unit for
 /// reporting. Paths are resolved against the plan's directory. Every error is an InputError
 /// naming the plan file, the line and the key.
+///
+/// Reading (parse_plan, read_plan) checks syntax, types and units and records where each value
+/// was written; the rules that give the values their meaning (limits of size in order, datum
+/// references to defined datums, tolerances within bounds, ...) are validate_plan's
+/// (validate_plan.hpp), so a plan built in code is held to exactly the same rules.
 
 #include <Eigen/Core>
 #include <cstddef>
 #include <filesystem>
+#include <functional>
+#include <map>
 #include <optional>
 #include <string>
 #include <string_view>
@@ -49,6 +56,14 @@ struct PlanLocation {
   /// Dotted key path, e.g. "datum.B.size" or "bore[P3].position.tolerance": a bore is named by
   /// its id, or by its 1-based index ("bore[3].id") for errors in the id itself.
   std::string key;
+  /// Lines of the keys written inside this table, by their dotted name relative to it (e.g.
+  /// "mmb", "size.lower"), so that a rule can name the very line of the value it refuses.
+  /// Empty for a plan built in code.
+  std::map<std::string, std::size_t, std::less<>> lines;
+
+  /// The location of key `name` inside this table: its own line when recorded, else the
+  /// table's; the key path `key.name` (or `name` alone at the top level).
+  PlanLocation at(std::string_view name) const;
 };
 
 struct ProbeSettings {
@@ -75,6 +90,10 @@ struct PlanDatum {
   /// direction of its outward normal in the frame (a unit 2-vector in the xy plane).
   std::optional<Eigen::Vector2d> basic_location;
   std::optional<Eigen::Vector2d> outward_normal;
+  /// The material boundary this datum feature is referenced at, settled by validate_plan from
+  /// the plan's datum references: MMB when any position or perpendicularity references it at
+  /// MMB (its shift must be known), else LMB when any does, else RMB. A plane is always RMB.
+  MaterialBoundary boundary = MaterialBoundary::rmb;
   PlanLocation where;
 };
 
@@ -82,7 +101,11 @@ struct PlanTolerance {
   double tolerance = 0.0;  ///< diameter of the cylindrical zone, mm
   MaterialCondition condition = MaterialCondition::rfs;
   std::vector<DatumReference> datums;  ///< in order of precedence; perpendicularity: just A
-  std::optional<double> projected_height;  ///< projected tolerance zone height above A, mm
+  std::optional<double> projected_height;  ///< projected tolerance zone height, mm
+  /// Where a projected zone starts: the height (z in the frame, mm) of the face it stands on,
+  /// e.g. the top of a boss above A. Empty: datum plane A (z = 0). The zone spans
+  /// [projected_from, projected_from + projected_height].
+  std::optional<double> projected_from;
   PlanLocation where;
 };
 
@@ -102,6 +125,10 @@ struct PlanBore {
   std::optional<PlanTolerance> position;
   std::optional<PlanTolerance> perpendicularity;
   std::optional<double> cylindricity;  ///< tolerance, mm
+  /// Gap (mm) that separates probed section levels, and the slab thickness of scanned clouds
+  /// (BoreEvaluationOptions::section_gap). Empty: the evaluation's option. A parsed plan holds
+  /// the bore's own `section_gap`, else the plan-wide one.
+  std::optional<double> section_gap;
   PlanLocation where;
 };
 
@@ -114,14 +141,20 @@ struct PartPlan {
   ProbeSettings probe;
   std::vector<PlanDatum> datums;  ///< A, then B and C when present, in that order
   std::vector<PlanBore> bores;
+  /// The plan-wide section gap, mm (already applied by the parser to bores without their own).
+  std::optional<double> section_gap;
+  /// The top level: line 1, lines of its keys (e.g. "name", "probe.points").
+  PlanLocation where;
 
   const PlanDatum* datum(char label) const noexcept;
 };
 
-/// Reads and validates a plan. Throws InputError (file, line, key, problem) on any error:
-/// syntax, unknown or missing keys, unknown datum, missing point file, negative or zero
-/// tolerance, a modifier on a datum that is not a feature of size, a bore with no tolerance,
-/// duplicate bore ids, ball-centre points (not yet supported), and so on.
+/// Reads and validates a plan (validate_plan). Throws InputError (file, line, key, problem) on
+/// any error: syntax, unknown or missing keys, values of the wrong type, a missing point file,
+/// and every rule of validate_plan (unknown datum, negative or zero tolerance, a modifier on a
+/// datum that is not a feature of size, a bore with no tolerance, duplicate bore ids,
+/// ball-centre points, values beyond the plan's bounds, and so on). Messages quote user text
+/// escaped and bounded (quoted_for_message).
 PartPlan read_plan(const std::filesystem::path& file);
 
 /// Same, from text; `file` names it in messages and is the base for relative paths.

@@ -1,0 +1,641 @@
+#include "cylzone/plan/plan.hpp"
+#include "io/detail/file_digest.hpp"
+
+#include <toml++/toml.h>
+
+#include <algorithm>
+#include <array>
+#include <cctype>
+#include <cmath>
+#include <system_error>
+#include <type_traits>
+#include <utility>
+
+#include "cylzone/core/errors.hpp"
+#include "cylzone/plan/validate_plan.hpp"
+#include "plan/detail/plan_text.hpp"
+
+// The plan format is documented for users in docs/plan.md; this file reads exactly that text:
+// syntax, key sets, types and units, and where each value was written (PlanLocation::lines).
+// The rules that give the values their meaning are validate_plan's (validate_plan.cpp), applied
+// to the plan once it is read. toml++ is included here only. Every error names the plan file,
+// the line of the offending key (toml++ source regions) and its dotted key path. Bores are named
+// in key paths by their id, `bore[P3].position`, once the id is known; errors in the id itself,
+// or in a bore without a usable id, use the 1-based index of the [[bore]] table, `bore[3].id`.
+
+namespace cylzone {
+
+namespace {
+
+constexpr std::string_view kFormat = "cylzone-plan-1";
+
+// Text of the plan's own constants (formats, allowed values); user text is quoted with
+// quoted_for_message, which escapes and bounds it.
+std::string in_quotes(std::string_view text) { return "\"" + std::string(text) + "\""; }
+
+using detail::plan_number_text;
+
+std::string join_path(const std::string& path, std::string_view name) {
+  return detail::join_key(path, std::string(name));
+}
+
+/// A key as a key path shows it: itself when it is a short bare TOML key, else quoted and
+/// escaped as TOML writes a quoted key (a key may hold anything, even a newline or 1 MB).
+std::string key_text(std::string_view key) {
+  const bool bare = !key.empty() && key.size() <= message_text_limit &&
+                    std::all_of(key.begin(), key.end(), [](char c) {
+                      return std::isalnum(static_cast<unsigned char>(c)) || c == '_' || c == '-';
+                    });
+  return bare ? std::string(key) : quoted_for_message(key);
+}
+
+std::string type_text(const toml::node& node) {
+  switch (node.type()) {
+    case toml::node_type::table: return "a table";
+    case toml::node_type::array: return "an array";
+    case toml::node_type::string: return "a string";
+    case toml::node_type::integer: return "an integer";
+    case toml::node_type::floating_point: return "a floating-point number";
+    case toml::node_type::boolean: return "a boolean";
+    case toml::node_type::date: return "a date";
+    case toml::node_type::time: return "a time";
+    case toml::node_type::date_time: return "a date-time";
+    case toml::node_type::none: break;
+  }
+  return "nothing";
+}
+
+std::size_t line_of(const toml::node& node) {
+  return static_cast<std::size_t>(node.source().begin.line);
+}
+
+/// Records the line of every key of `table` and of its sub-tables down to `levels` deep (by
+/// dotted name, e.g. "size.lower") in `lines`. Two levels reach every key a rule names
+/// ("probe.points" from the top, "position.tolerance" from a bore); the bound also keeps a
+/// hostile plan's deeply nested keys from recursing without end.
+void record_lines(const toml::table& table, const std::string& prefix,
+                  std::map<std::string, std::size_t, std::less<>>& lines, int levels = 2) {
+  for (auto&& [key, value] : table) {
+    const std::string name = detail::join_key(prefix, std::string(key.str()));
+    lines.emplace(name, line_of(value));
+    if (const toml::table* sub = value.as_table(); sub && levels > 1)
+      record_lines(*sub, name, lines, levels - 1);
+  }
+}
+
+/// The location of a table: its line, its key path and the lines of its keys.
+PlanLocation location_of(const toml::table& table, const std::string& key) {
+  PlanLocation where;
+  where.line = line_of(table);
+  where.key = key;
+  record_lines(table, "", where.lines);
+  return where;
+}
+
+template <typename... Names>
+constexpr std::array<std::string_view, sizeof...(Names)> keys(Names... names) {
+  return {std::string_view(names)...};
+}
+
+template <std::size_t N>
+std::string list_text(const std::array<std::string_view, N>& names) {
+  std::string text;
+  for (std::string_view n : names) {
+    if (!text.empty()) text += ", ";
+    text += n;
+  }
+  return text;
+}
+
+template <std::size_t N>
+bool contains(const std::array<std::string_view, N>& names, std::string_view name) {
+  for (std::string_view n : names)
+    if (n == name) return true;
+  return false;
+}
+
+// Key sets of each table (docs/plan.md lists them with their meaning).
+constexpr auto kRootKeys =
+    keys("format", "name", "units", "probe", "section_gap", "datum", "bore");
+constexpr auto kProbeKeys = keys("points", "tip_diameter");
+constexpr auto kDatumAKeys = keys("feature", "points", "association", "material_side");
+constexpr auto kDatumBKeys = keys("feature", "points", "size", "mmb");
+constexpr auto kDatumCSizeKeys = keys("feature", "points", "basic", "size", "mmb");
+constexpr auto kDatumCPlaneKeys = keys("feature", "points", "outward_normal", "material_side");
+constexpr auto kDatumCAnyKeys =
+    keys("feature", "points", "basic", "size", "mmb", "outward_normal", "material_side");
+constexpr auto kBoreKeys = keys("id", "points", "basic", "direction", "depth", "size", "axis",
+                                "section_gap", "position", "perpendicularity", "cylindricity");
+constexpr auto kSizeKeys = keys("lower", "upper");
+constexpr auto kDepthKeys = keys("top", "bottom");
+constexpr auto kPositionKeys =
+    keys("tolerance", "modifier", "datums", "projected", "projected_from");
+constexpr auto kPerpendicularityKeys = keys("tolerance", "modifier", "datums");
+
+enum class ToleranceKind { position, perpendicularity };
+
+/// Reads one plan. Holds only what every error message needs (the file name, the base folder,
+/// the unit once known); one instance per parse, no state survives it.
+class PlanParser {
+ public:
+  PlanParser(const std::filesystem::path& file, bool check_files)
+      : file_(file),
+        file_name_(file.string()),
+        base_(file.parent_path()),
+        check_files_(check_files) {}
+
+  PartPlan parse(std::string_view text) {
+    toml::table root;
+    try {
+      root = toml::parse(text, std::string_view(file_name_));
+    } catch (const toml::parse_error& e) {
+      fail(static_cast<std::size_t>(e.source().begin.line), {},
+           "TOML syntax error: " + std::string(e.description()));
+    }
+
+    PartPlan plan;
+    plan.file = file_;
+    plan.where = location_of(root, "");
+    plan.where.line = 1;
+
+    // `format` first: a TOML file that is not a plan at all gets the most useful message.
+    const toml::node& format = require(root, "", "format", "the plan format " + in_quotes(kFormat));
+    const std::string format_text = read_string(format, "format", "a string");
+    if (format_text != kFormat)
+      fail(line_of(format), "format",
+           "unsupported plan format " + quoted_for_message(format_text) + ": expected " +
+               in_quotes(kFormat));
+    check_keys(root, "", kRootKeys, "at the top level");
+
+    const toml::node& name = require(root, "", "name", "the part's name (a string)");
+    plan.name = read_string(name, "name", "the part's name (a string)");
+
+    const toml::node& units = require(root, "", "units", "\"mm\" or \"inch\"");
+    plan.unit = read_word(units, "units", "unit", "\"mm\" or \"inch\"", parse_unit);
+    mm_per_unit_ = millimetres_per(plan.unit);
+
+    if (const toml::node* probe = root.get("probe")) plan.probe = read_probe(*probe);
+    if (const toml::node* gap = root.get("section_gap"))
+      plan.section_gap = read_length(*gap, "section_gap", "the section gap (a number)");
+    read_datums(root, plan);
+    read_bores(root, plan);
+    // The plan-wide section gap is the default of every bore that gives none.
+    for (PlanBore& bore : plan.bores)
+      if (!bore.section_gap) bore.section_gap = plan.section_gap;
+    return plan;
+  }
+
+ private:
+  [[noreturn]] void fail(std::size_t line, const std::string& key,
+                         const std::string& problem) const {
+    throw InputError(file_name_, line, problem, key);
+  }
+
+  // ------------------------------------------------------------------ generic accessors
+
+  const toml::node& require(const toml::table& table, const std::string& path,
+                            std::string_view name, const std::string& expected) const {
+    if (const toml::node* node = table.get(name)) return *node;
+    fail(line_of(table), join_path(path, name), "required key is missing: expected " + expected);
+  }
+
+  /// Unknown keys are errors (they are usually typos, e.g. `tolerence`). The first one in the
+  /// file is reported; toml++ keeps keys sorted, so the earliest line is looked for.
+  template <std::size_t N>
+  void check_keys(const toml::table& table, const std::string& path,
+                  const std::array<std::string_view, N>& allowed, std::string_view where) const {
+    const toml::key* first = nullptr;
+    for (auto&& [key, value] : table) {
+      (void)value;
+      if (contains(allowed, key.str())) continue;
+      if (!first || key.source().begin.line < first->source().begin.line) first = &key;
+    }
+    if (first)
+      fail(static_cast<std::size_t>(first->source().begin.line),
+           join_path(path, key_text(first->str())),
+           "unknown key " + std::string(where) + " (allowed: " + list_text(allowed) + ")");
+  }
+
+  const toml::table& as_table(const toml::node& node, const std::string& key,
+                              const std::string& expected) const {
+    if (const toml::table* t = node.as_table()) return *t;
+    fail(line_of(node), key, "expected " + expected + ", found " + type_text(node));
+  }
+
+  std::string read_string(const toml::node& node, const std::string& key,
+                          const std::string& expected) const {
+    if (const auto* s = node.as_string()) return s->get();
+    fail(line_of(node), key, "expected " + expected + ", found " + type_text(node));
+  }
+
+  /// One of a fixed set of words, e.g. an axis method: `parse` maps the text to its value (an
+  /// optional); an unknown word is "unknown WHAT "text": expected EXPECTED".
+  template <class Parse>
+  auto read_word(const toml::node& node, const std::string& key, const std::string& what,
+                 const std::string& expected, Parse parse) const ->
+      typename std::invoke_result_t<Parse, const std::string&>::value_type {
+    const std::string value = read_string(node, key, expected);
+    const auto parsed = parse(value);
+    if (!parsed)
+      fail(line_of(node), key,
+           "unknown " + what + " " + quoted_for_message(value) + ": expected " + expected);
+    return *parsed;
+  }
+
+  /// A finite number; TOML integers are accepted where a number is expected (`basic = [40, 25]`).
+  double read_number(const toml::node& node, const std::string& key,
+                     const std::string& expected) const {
+    double value = 0.0;
+    if (const auto* f = node.as_floating_point())
+      value = f->get();
+    else if (const auto* i = node.as_integer())
+      value = static_cast<double>(i->get());
+    else
+      fail(line_of(node), key, "expected " + expected + ", found " + type_text(node));
+    if (!std::isfinite(value))
+      fail(line_of(node), key, "expected " + expected + ", found " + plan_number_text(value));
+    return value;
+  }
+
+  /// A length in the plan's unit, returned in millimetres.
+  double read_length(const toml::node& node, const std::string& key,
+                     const std::string& expected) const {
+    return read_number(node, key, expected) * mm_per_unit_;
+  }
+
+
+  template <int N>
+  Eigen::Matrix<double, N, 1> read_vector(const toml::node& node, const std::string& key,
+                                          const std::string& expected) const {
+    const toml::array* array = node.as_array();
+    if (!array) fail(line_of(node), key, "expected " + expected + ", found " + type_text(node));
+    if (array->size() != static_cast<std::size_t>(N))
+      fail(line_of(node), key,
+           "expected " + expected + ", found an array of " + std::to_string(array->size()) +
+               (array->size() == 1 ? " element" : " elements"));
+    Eigen::Matrix<double, N, 1> v;
+    for (int i = 0; i < N; ++i) {
+      const toml::node& element = *array->get(static_cast<std::size_t>(i));
+      v[i] = read_number(element, key, expected + " (element " + std::to_string(i + 1) + ")");
+    }
+    return v;
+  }
+
+  /// A direction: any non-zero length, returned as a unit vector (directions carry no unit).
+  template <int N>
+  Eigen::Matrix<double, N, 1> read_direction(const toml::node& node, const std::string& key,
+                                             const std::string& expected) const {
+    const Eigen::Matrix<double, N, 1> v = read_vector<N>(node, key, expected);
+    const double length = v.stableNorm();  // no overflow for components near 1e308
+    if (!(length > 1e-12)) fail(line_of(node), key, "direction has zero length");
+    return v / length;
+  }
+
+  std::filesystem::path read_points_path(const toml::table& table, const std::string& path) const {
+    const std::string key = join_path(path, "points");
+    const toml::node& node =
+        require(table, path, "points", "the path of the point file (a string)");
+    const std::string given = read_string(node, key, "the path of the point file (a string)");
+    if (given.empty()) fail(line_of(node), key, "the path of the point file is empty");
+    // Relative paths are relative to the plan's folder, so a plan and its points move together.
+    const std::filesystem::path resolved =
+        (base_ / std::filesystem::path(given)).lexically_normal();
+    if (check_files_) {
+      std::error_code ec;
+      const std::filesystem::file_status status = std::filesystem::status(resolved, ec);
+      if (ec && ec != std::errc::no_such_file_or_directory)
+        fail(line_of(node), key,
+             "point file " + quoted_for_message(resolved.string()) +
+                 " cannot be accessed: " + ec.message());
+      if (!std::filesystem::exists(status))
+        fail(line_of(node), key,
+             "point file " + quoted_for_message(resolved.string()) +
+                 " does not exist (paths are relative to the plan's folder)");
+      if (std::filesystem::is_directory(status))
+        fail(line_of(node), key,
+             quoted_for_message(resolved.string()) + " is a folder, not a point file");
+    }
+    return resolved;
+  }
+
+  SizeLimits read_size(const toml::node& node, const std::string& key) const {
+    const std::string expected = "limits of size { lower = ..., upper = ... }";
+    const toml::table& table = as_table(node, key, expected);
+    check_keys(table, key, kSizeKeys, "in a size");
+    const toml::node& lower = require(table, key, "lower", "the lower limit of size (a number)");
+    const toml::node& upper = require(table, key, "upper", "the upper limit of size (a number)");
+    return SizeLimits{read_length(lower, key + ".lower", "the lower limit of size (a number)"),
+                      read_length(upper, key + ".upper", "the upper limit of size (a number)")};
+  }
+
+  // ------------------------------------------------------------------ [probe]
+
+  ProbeSettings read_probe(const toml::node& node) const {
+    const toml::table& table = as_table(node, "probe", "a [probe] table");
+    check_keys(table, "probe", kProbeKeys, "in [probe]");
+    ProbeSettings probe;
+    if (const toml::node* points = table.get("points")) {
+      const std::string expected = "\"surface\" or \"ball-centre\"";
+      const std::string value = read_string(*points, "probe.points", expected);
+      if (value != "surface" && value != "ball-centre")
+        fail(line_of(*points), "probe.points",
+             "unknown kind of points " + quoted_for_message(value) + ": expected " + expected);
+      probe.ball_centres = value == "ball-centre";  // refused by validate_plan for now
+    }
+    if (const toml::node* tip = table.get("tip_diameter")) {
+      // A tip diameter of 0 stands for "not given" in ProbeSettings: a written 0 is refused here.
+      const double value = read_number(*tip, "probe.tip_diameter", "the tip diameter (a number)");
+      if (value == 0.0)
+        fail(line_of(*tip), "probe.tip_diameter",
+             "the tip diameter must be greater than zero (found 0)");
+      probe.tip_diameter = value * mm_per_unit_;
+    }
+    return probe;
+  }
+
+  // ------------------------------------------------------------------ [datum.*]
+
+  void read_datums(const toml::table& root, PartPlan& plan) const {
+    const toml::node* datum_node = root.get("datum");
+    if (!datum_node)
+      fail(line_of(root), "datum.A",
+           "required table is missing: expected [datum.A], the primary datum plane");
+    const toml::table& datums =
+        as_table(*datum_node, "datum", "[datum.A], [datum.B], [datum.C] tables");
+    check_keys(datums, "datum", keys("A", "B", "C"),
+               "under [datum]: datums are A (primary plane), B (secondary) and C (tertiary)");
+    const toml::node* a = datums.get("A");
+    if (!a)
+      fail(line_of(datums), "datum.A",
+           "required table is missing: expected [datum.A], the primary datum plane");
+    plan.datums.push_back(read_datum(*a, 'A'));
+    if (const toml::node* b = datums.get("B")) plan.datums.push_back(read_datum(*b, 'B'));
+    if (const toml::node* c = datums.get("C")) plan.datums.push_back(read_datum(*c, 'C'));
+  }
+
+  PlanDatum read_datum(const toml::node& node, char label) const {
+    const std::string path = std::string("datum.") + label;
+    const toml::table& table = as_table(node, path, "a [" + path + "] table");
+
+    // The keys allowed depend on the kind of feature; a key of another kind of datum (`size` on
+    // a plane) is reported as not allowed here. When the kind cannot be read yet, any datum key
+    // passes this check and `feature` itself is reported below.
+    std::string peeked;
+    if (const toml::node* f = table.get("feature"))
+      if (const auto* s = f->as_string()) peeked = s->get();
+    if (label == 'A')
+      check_keys(table, path, kDatumAKeys, "for datum A");
+    else if (label == 'B')
+      check_keys(table, path, kDatumBKeys, "for datum B");
+    else if (peeked == "plane")
+      check_keys(table, path, kDatumCPlaneKeys, "for datum C as a plane");
+    else if (peeked == "bore" || peeked == "pin" || peeked == "slot" || peeked == "tab")
+      check_keys(table, path, kDatumCSizeKeys, "for datum C as a " + peeked);
+    else
+      check_keys(table, path, kDatumCAnyKeys, "for datum C");
+
+    PlanDatum d;
+    d.label = label;
+    d.where = location_of(table, path);
+
+    const std::string feature_key = path + ".feature";
+    const std::string allowed_text =
+        label == 'A'   ? "\"plane\""
+        : label == 'B' ? "\"bore\" or \"pin\""
+                       : "\"bore\", \"pin\", \"slot\", \"tab\" or \"plane\"";
+    const toml::node& feature = require(table, path, "feature", allowed_text);
+    // Which kinds each datum may be is a rule (validate_plan); here only the word is read.
+    d.kind = read_word(feature, feature_key, "feature", allowed_text,
+                       [](const std::string& text) -> std::optional<FeatureKind> {
+                         for (FeatureKind k : {FeatureKind::plane, FeatureKind::bore,
+                                               FeatureKind::pin, FeatureKind::slot,
+                                               FeatureKind::tab})
+                           if (text == feature_kind_name(k)) return k;
+                         return std::nullopt;
+                       });
+
+    d.points = read_points_path(table, path);
+
+    if (const toml::node* association = table.get("association"))
+      d.association = read_word(*association, path + ".association", "association",
+                                "\"tangent-least-squares\", \"tangent-minimax\", "
+                                "\"least-squares\" or \"minimum-zone\"",
+                                parse_association);
+    if (const toml::node* side = table.get("material_side"))
+      d.material_side = read_direction<3>(*side, path + ".material_side",
+                                          "a direction [x, y, z] in measurement coordinates");
+
+    if (const toml::node* size = table.get("size")) d.size = read_size(*size, path + ".size");
+    if (const toml::node* mmb = table.get("mmb"))
+      d.mmb_size = read_length(*mmb, path + ".mmb", "the maximum material boundary (a number)");
+
+    if (label == 'C' && d.kind != FeatureKind::plane) {
+      // A bore or pin C is located by its axis; a slot or tab by its centre on A, whose
+      // direction from B is the basic direction of its centre plane.
+      const bool width_c = d.kind == FeatureKind::slot || d.kind == FeatureKind::tab;
+      const std::string what = width_c ? "C's centre (on its centre plane)" : "C's axis";
+      const std::string key = path + ".basic";
+      const toml::node& basic =
+          require(table, path, "basic", "the basic location [x, y] of " + what + " in the frame");
+      d.basic_location =
+          read_vector<2>(basic, key, "the basic location [x, y] of " + what + " (2 numbers)") *
+          mm_per_unit_;
+    }
+    if (label == 'C' && d.kind == FeatureKind::plane) {
+      const std::string expected = "the direction [x, y] of C's outward normal in the frame";
+      const toml::node& normal = require(table, path, "outward_normal", expected);
+      d.outward_normal = read_direction<2>(normal, path + ".outward_normal", expected);
+    }
+    return d;
+  }
+
+  // ------------------------------------------------------------------ [[bore]]
+
+  void read_bores(const toml::table& root, PartPlan& plan) const {
+    const toml::node* node = root.get("bore");
+    if (!node)
+      fail(line_of(root), "bore", "no [[bore]] table: a plan needs at least one toleranced bore");
+    const toml::array* array = node->as_array();
+    if (array && array->empty())
+      fail(line_of(*node), "bore", "no bore: a plan needs at least one toleranced bore");
+    if (!array || !array->is_array_of_tables())
+      fail(line_of(*node), "bore",
+           "expected one [[bore]] table per bore (an array of tables), found " + type_text(*node) +
+               (node->is_table() ? ": write [[bore]], not [bore]" : ""));
+    for (std::size_t i = 0; i < array->size(); ++i)
+      plan.bores.push_back(read_bore(*array->get(i)->as_table(), i + 1));
+  }
+
+  PlanBore read_bore(const toml::table& table, std::size_t index) const {
+    const std::string index_path = "bore[" + std::to_string(index) + "]";
+
+    // The key path names the bore by its id when it has a usable one (see the file comment).
+    std::string path = index_path;
+    if (const toml::node* id = table.get("id"))
+      if (const auto* s = id->as_string(); s && detail::usable_bore_id(s->get()))
+        path = "bore[" + s->get() + "]";
+    check_keys(table, path, kBoreKeys, "in a [[bore]]");
+
+    PlanBore bore;
+    const toml::node& id = require(table, index_path, "id", "the bore's identifier (a string)");
+    bore.id = read_string(id, index_path + ".id", "the bore's identifier (a string)");
+    bore.where = location_of(table, path);
+
+    bore.points = read_points_path(table, path);
+
+    const toml::node& basic =
+        require(table, path, "basic", "the true position [x, y] on datum plane A");
+    bore.basic_location =
+        read_vector<2>(basic, path + ".basic", "the true position [x, y] (2 numbers)") *
+        mm_per_unit_;
+
+    if (const toml::node* direction = table.get("direction")) {
+      Eigen::Vector3d d = read_direction<3>(*direction, path + ".direction",
+                                            "a direction [x, y, z] in the frame");
+      // The sense of an axis carries no information; it is stored pointing out of the material
+      // (+z), the sense of the default and of the zone frame's heights.
+      if (d.z() < 0.0) d = -d;
+      bore.nominal_direction = d;
+    }
+
+    if (const toml::node* depth = table.get("depth")) read_depth(*depth, path + ".depth", bore);
+    if (const toml::node* size = table.get("size")) bore.size = read_size(*size, path + ".size");
+
+    if (const toml::node* axis = table.get("axis"))
+      bore.axis = read_word(*axis, path + ".axis", "axis",
+                            "\"mating-envelope\", \"least-squares\" or \"median-line\"",
+                            parse_axis_method);
+    if (const toml::node* gap = table.get("section_gap"))
+      bore.section_gap = read_length(*gap, path + ".section_gap", "the section gap (a number)");
+
+    if (const toml::node* position = table.get("position"))
+      bore.position = read_tolerance(*position, path + ".position", ToleranceKind::position);
+    if (const toml::node* perpendicularity = table.get("perpendicularity"))
+      bore.perpendicularity = read_tolerance(*perpendicularity, path + ".perpendicularity",
+                                             ToleranceKind::perpendicularity);
+    if (const toml::node* cylindricity = table.get("cylindricity"))
+      bore.cylindricity = read_length(*cylindricity, path + ".cylindricity",
+                                      "the cylindricity tolerance (a number)");
+    return bore;
+  }
+
+  void read_depth(const toml::node& node, const std::string& key, PlanBore& bore) const {
+    const toml::table& table =
+        as_table(node, key, "a depth range { top = ..., bottom = ... } (z in the frame)");
+    check_keys(table, key, kDepthKeys, "in a depth range");
+    const toml::node* top = table.get("top");
+    const toml::node* bottom = table.get("bottom");
+    if (!top && !bottom)
+      fail(line_of(table), key, "the depth range is empty: give top, bottom or both");
+    if (top) bore.depth_top = read_length(*top, key + ".top", "the top of the range (a number)");
+    if (bottom)
+      bore.depth_bottom =
+          read_length(*bottom, key + ".bottom", "the bottom of the range (a number)");
+  }
+
+  PlanTolerance read_tolerance(const toml::node& node, const std::string& key,
+                               ToleranceKind kind) const {
+    const bool is_position = kind == ToleranceKind::position;
+    const toml::table& table =
+        as_table(node, key,
+                 is_position ? "a table { tolerance = ..., datums = \"A|B|C\" }"
+                             : "a table { tolerance = ... }");
+    if (is_position)
+      check_keys(table, key, kPositionKeys, "in a position tolerance");
+    else
+      check_keys(table, key, kPerpendicularityKeys, "in a perpendicularity tolerance");
+
+    PlanTolerance t;
+    t.where = location_of(table, key);
+    const toml::node& tolerance =
+        require(table, key, "tolerance", "the diameter of the tolerance zone (a number)");
+    t.tolerance = read_length(tolerance, key + ".tolerance", "the tolerance (a number)");
+
+    if (const toml::node* modifier = table.get("modifier"))
+      t.condition = read_word(*modifier, key + ".modifier", "modifier",
+                              "\"RFS\", \"MMC\" or \"LMC\"",
+                              [](const std::string& text) -> std::optional<MaterialCondition> {
+                                for (MaterialCondition c : {MaterialCondition::rfs,
+                                                            MaterialCondition::mmc,
+                                                            MaterialCondition::lmc})
+                                  if (text == condition_name(c)) return c;
+                                return std::nullopt;
+                              });
+
+    if (is_position) {
+      const toml::node& datums =
+          require(table, key, "datums", "the datum reference, e.g. \"A|B|C\" (a string)");
+      t.datums = read_datum_references(datums, key + ".datums");
+      if (const toml::node* projected = table.get("projected"))
+        t.projected_height =
+            read_length(*projected, key + ".projected", "the projected height (a number)");
+      if (const toml::node* from = table.get("projected_from"))
+        t.projected_from = read_length(*from, key + ".projected_from",
+                                       "the height the projected zone starts from (a number)");
+    } else {
+      // Perpendicularity in cylzone is always to datum plane A: "A" when not written.
+      t.datums = {DatumReference{'A', MaterialBoundary::rmb}};
+      if (const toml::node* datums = table.get("datums"))
+        t.datums = read_datum_references(*datums, key + ".datums");
+    }
+    return t;
+  }
+
+  /// The datum section of a feature control frame as written: datum letters separated by '|',
+  /// each optionally followed by (M) (MMB) or (L) (LMB), e.g. "A|B(M)|C". Which datums, in
+  /// which order, with which modifiers, is a rule (validate_plan).
+  std::vector<DatumReference> read_datum_references(const toml::node& node,
+                                                    const std::string& key) const {
+    const std::string text =
+        read_string(node, key, "the datum reference, e.g. \"A|B|C\" (a string)");
+    const std::size_t line = line_of(node);
+    std::vector<DatumReference> refs;
+    std::size_t start = 0;
+    while (true) {
+      const std::size_t bar = text.find('|', start);
+      std::string part =
+          text.substr(start, bar == std::string::npos ? std::string::npos : bar - start);
+      const std::size_t first = part.find_first_not_of(' ');
+      const std::size_t last = part.find_last_not_of(' ');
+      part = first == std::string::npos ? std::string() : part.substr(first, last - first + 1);
+
+      if (part.empty())
+        fail(line, key,
+             "empty datum in " + quoted_for_message(text) +
+                 ": expected \"A\", \"A|B\" or \"A|B|C\"");
+      const bool letter = part[0] >= 'A' && part[0] <= 'Z';
+      const std::string rest = part.substr(1);
+      if (!letter || !(rest.empty() || rest == "(M)" || rest == "(L)"))
+        fail(line, key,
+             quoted_for_message(part) +
+                 " is not a datum reference: expected a datum letter, optionally "
+                 "followed by (M) or (L), e.g. \"A|B(M)|C\"");
+      DatumReference ref;
+      ref.label = part[0];
+      ref.boundary = rest == "(M)"   ? MaterialBoundary::mmb
+                     : rest == "(L)" ? MaterialBoundary::lmb
+                                     : MaterialBoundary::rmb;
+      refs.push_back(ref);
+      if (bar == std::string::npos) break;
+      start = bar + 1;
+    }
+    return refs;
+  }
+
+  std::filesystem::path file_;
+  std::string file_name_;
+  std::filesystem::path base_;
+  bool check_files_ = true;
+  double mm_per_unit_ = 1.0;
+};
+
+}  // namespace
+
+PartPlan parse_plan(std::string_view text, const std::filesystem::path& file, bool check_files) {
+  PartPlan plan = PlanParser(file, check_files).parse(text);
+  validate_plan(plan);
+  plan.sha256 = detail::sha256_of_bytes(text);
+  return plan;
+}
+
+}  // namespace cylzone

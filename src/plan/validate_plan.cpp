@@ -1,0 +1,391 @@
+// The rules of a part plan (validate_plan.hpp, docs/plan.md). Every message names the plan
+// file, the line where the value was written (recorded by the reader in PlanLocation::lines;
+// 0 for a plan built in code) and the key path, and quotes user text with quoted_for_message.
+#include "cylzone/plan/validate_plan.hpp"
+
+#include <algorithm>
+#include <cmath>
+#include <string>
+#include <vector>
+
+#include "cylzone/core/errors.hpp"
+#include "plan/detail/plan_text.hpp"
+
+namespace cylzone {
+namespace {
+
+using detail::plan_number_text;
+
+constexpr double pi = 3.14159265358979323846;
+
+/// Checks one plan; holds the file name and unit that every message needs.
+class PlanRules {
+ public:
+  explicit PlanRules(const PartPlan& plan)
+      : plan_(plan),
+        file_name_(plan.file.string()),
+        mm_per_unit_(millimetres_per(plan.unit)),
+        unit_(unit_name(plan.unit)) {}
+
+  void check() const {
+    const PlanLocation& top = plan_.where;
+    if (plan_.name.find_first_not_of(" \t") == std::string::npos)
+      fail(top.at("name"), "the part's name must not be empty");
+    if (plan_.probe.ball_centres)
+      fail(top.at("probe.points"),
+           "probe compensation of ball-centre points is not yet supported: export compensated "
+           "surface points");
+    // 0 means "not given" (ProbeSettings); the reader refuses a written 0.
+    if (plan_.probe.tip_diameter != 0.0)
+      positive_length(plan_.probe.tip_diameter, top.at("probe.tip_diameter"), "the tip diameter");
+    if (plan_.section_gap)
+      positive_length(*plan_.section_gap, top.at("section_gap"), "the section gap");
+    check_datums();
+    check_bores();
+  }
+
+ private:
+  [[noreturn]] void fail(const PlanLocation& at, const std::string& problem) const {
+    throw InputError(file_name_, at.line, problem, at.key);
+  }
+
+  /// A length as written in the plan (its unit), for messages.
+  std::string shown(double mm) const { return plan_number_text(mm / mm_per_unit_); }
+
+  void bounded_length(double value, const PlanLocation& at, const std::string& what) const {
+    if (!(std::abs(value) <= plan_length_limit))
+      fail(at, what + " is beyond the plan's bound of 10 m (" +
+                   plan_number_text(plan_length_limit) + " mm) in magnitude: found " +
+                   shown(value) + " " + unit_);
+  }
+
+  void positive_length(double value, const PlanLocation& at, const std::string& what) const {
+    if (!(value > 0.0))
+      fail(at, what + " must be greater than zero (found " + shown(value) + ")");
+    bounded_length(value, at, what);
+  }
+
+  void below_tolerance_ceiling(double value, const PlanLocation& at,
+                               const std::string& what) const {
+    if (!(value <= plan_tolerance_limit))
+      fail(at, what + " exceeds the plan's ceiling of " + plan_number_text(plan_tolerance_limit) +
+                   " mm: found " + shown(value) + " " + unit_);
+  }
+
+  template <class Vector>
+  void unit_direction(const Vector& v, const PlanLocation& at) const {
+    const double length = v.norm();
+    if (!v.allFinite()) fail(at, "the direction must be finite");
+    if (!(length > 1e-12)) fail(at, "direction has zero length");
+    if (std::abs(length - 1.0) > 1e-9)
+      fail(at, "the direction must be a unit vector (found length " + plan_number_text(length) +
+                   ")");
+  }
+
+  template <class Vector>
+  void bounded_location(const Vector& v, const PlanLocation& at, const std::string& what) const {
+    for (Eigen::Index i = 0; i < v.size(); ++i)
+      bounded_length(v[i], at, what + " (element " + std::to_string(i + 1) + ")");
+  }
+
+  void check_size(const SizeLimits& size, const PlanLocation& at) const {
+    if (!(size.lower > 0.0))
+      fail(at.at("lower"), "the lower limit of size must be greater than zero (found " +
+                               shown(size.lower) + ")");
+    if (!(size.lower < size.upper))
+      fail(at, "the lower limit " + shown(size.lower) + " must be less than the upper limit " +
+                   shown(size.upper));
+    bounded_length(size.upper, at.at("upper"), "the upper limit of size");
+  }
+
+  // ---------------------------------------------------------------- datums
+
+  void check_datums() const {
+    const std::vector<PlanDatum>& datums = plan_.datums;
+    if (datums.empty() || datums.front().label != 'A')
+      fail(plan_.where.at("datum.A"),
+           "required table is missing: expected [datum.A], the primary datum plane");
+    for (std::size_t i = 0; i < datums.size(); ++i) {
+      const PlanDatum& d = datums[i];
+      const PlanLocation at = located(d);
+      const bool known = d.label == 'A' || d.label == 'B' || d.label == 'C';
+      if (!known || (i > 0 && d.label <= datums[i - 1].label))
+        fail(at, "datums are A (primary plane), then B (secondary), then C (tertiary), each once");
+      if (d.label == 'C' && !plan_.datum('B'))
+        fail(at, "datum C needs datum B: C clocks the frame about B's axis (define [datum.B], or "
+                 "name this datum B)");
+      check_datum(d, at);
+    }
+  }
+
+  PlanLocation located(const PlanDatum& d) const {
+    if (!d.where.key.empty()) return d.where;
+    PlanLocation at = d.where;
+    at.key = std::string("datum.") + d.label;
+    return at;
+  }
+
+  void check_datum(const PlanDatum& d, const PlanLocation& at) const {
+    const std::string kind = quoted_for_message(feature_kind_name(d.kind));
+    if (d.label == 'A' && d.kind != FeatureKind::plane)
+      fail(at.at("feature"),
+           "datum A must be a plane: the frame is built on a primary datum plane (found " + kind +
+               ")");
+    if (d.label == 'B' && d.kind != FeatureKind::bore && d.kind != FeatureKind::pin)
+      fail(at.at("feature"),
+           "datum B must be a bore or a pin: it locates the frame's origin with its axis (found " +
+               kind + ")");
+    if (d.points.empty()) fail(at.at("points"), "the path of the point file is empty");
+    if (d.material_side) unit_direction(*d.material_side, at.at("material_side"));
+    if (d.size) check_size(*d.size, at.at("size"));
+    if (d.mmb_size) check_mmb(d, at.at("mmb"));
+
+    if (d.label == 'C' && d.kind != FeatureKind::plane) {
+      const PlanLocation basic = at.at("basic");
+      if (!d.basic_location)
+        fail(basic, "required key is missing: expected the basic location [x, y] of C in the "
+                    "frame");
+      bounded_location(*d.basic_location, basic, "the basic location of C");
+      if (!(d.basic_location->norm() > 1e-9))
+        fail(basic,
+             "the basic location of C must not be at datum B's axis (the origin): C clocks the "
+             "frame by its direction from B");
+    }
+    if (d.label == 'C' && d.kind == FeatureKind::plane) {
+      const PlanLocation normal = at.at("outward_normal");
+      if (!d.outward_normal)
+        fail(normal, "required key is missing: expected the direction [x, y] of C's outward "
+                     "normal in the frame");
+      unit_direction(*d.outward_normal, normal);
+    }
+  }
+
+  void check_mmb(const PlanDatum& d, const PlanLocation& at) const {
+    const double value = *d.mmb_size;
+    positive_length(value, at, "the maximum material boundary");
+    if (!d.size)
+      fail(at, "mmb is given without size: give the limits of size too, size = { lower = ..., "
+               "upper = ... }");
+    // The MMB of a datum feature of size is its MMC size or, with an orientation or location
+    // tolerance at MMC, its virtual condition: never larger than MMC for a bore, never smaller
+    // for a pin (ASME Y14.5-2018, datum feature simulators; common practice).
+    // A slot follows the rule of a bore, a tab that of a pin.
+    const double mmc = d.size->mmc(d.kind);
+    const double tol = 1e-12 * std::max(1.0, mmc);
+    const std::string kind_text(feature_kind_name(d.kind));
+    if (!is_external(d.kind) && value > mmc + tol)
+      fail(at, "the MMB of a " + kind_text + " must not exceed its MMC size (lower limit " +
+                   shown(mmc) + "), found " + shown(value));
+    if (is_external(d.kind) && value < mmc - tol)
+      fail(at, "the MMB of a " + kind_text + " must not be below its MMC size (upper limit " +
+                   shown(mmc) + "), found " + shown(value));
+  }
+
+  // ---------------------------------------------------------------- bores
+
+  void check_bores() const {
+    if (plan_.bores.empty())
+      fail(plan_.where.at("bore"), "no bore: a plan needs at least one toleranced bore");
+    for (std::size_t i = 0; i < plan_.bores.size(); ++i) check_bore(i);
+  }
+
+  void check_bore(std::size_t i) const {
+    const PlanBore& bore = plan_.bores[i];
+    const std::string index_path = "bore[" + std::to_string(i + 1) + "]";
+    PlanLocation at = bore.where;
+    if (at.key.empty()) at.key = detail::usable_bore_id(bore.id) ? "bore[" + bore.id + "]" : index_path;
+
+    PlanLocation id_at = at.at("id");
+    id_at.key = index_path + ".id";
+    if (!detail::usable_bore_id(bore.id))
+      fail(id_at,
+           "the bore's identifier must be non-empty, without control characters or leading or "
+           "trailing spaces (found " +
+               quoted_for_message(bore.id) + ")");
+    for (std::size_t j = 0; j < i; ++j)
+      if (plan_.bores[j].id == bore.id)
+        fail(id_at, "duplicate bore id " + quoted_for_message(bore.id) +
+                        ": already used by bore " + std::to_string(j + 1) +
+                        (plan_.bores[j].where.line > 0
+                             ? " (line " + std::to_string(plan_.bores[j].where.line) + ")"
+                             : std::string()));
+    if (bore.points.empty()) fail(at.at("points"), "the path of the point file is empty");
+    bounded_location(bore.basic_location, at.at("basic"), "the true position");
+
+    const PlanLocation direction = at.at("direction");
+    const Eigen::Vector3d& d = bore.nominal_direction;
+    unit_direction(d, direction);
+    // A bore's axis must cross A, where its true position is given.
+    if (std::abs(d.z()) < 1e-6)
+      fail(direction,
+           "the direction lies in datum plane A: a bore's axis must cross A, where its basic "
+           "location is given");
+    // The sense of an axis carries no information; it is held pointing out of the material
+    // (+z), the sense of the default and of the zone frame's heights. The reader turns it so.
+    if (d.z() < 0.0)
+      fail(direction, "the nominal direction must point out of the material (z > 0)");
+
+    if (bore.depth_top) bounded_length(*bore.depth_top, at.at("depth.top"), "the top of the range");
+    if (bore.depth_bottom)
+      bounded_length(*bore.depth_bottom, at.at("depth.bottom"), "the bottom of the range");
+    if (bore.depth_top && bore.depth_bottom && !(*bore.depth_top > *bore.depth_bottom))
+      fail(at.at("depth"), "top " + shown(*bore.depth_top) + " must be greater than bottom " +
+                               shown(*bore.depth_bottom) +
+                               " (z in the frame, negative inside the material)");
+    if (bore.size) check_size(*bore.size, at.at("size"));
+    if (bore.section_gap) positive_length(*bore.section_gap, at.at("section_gap"), "the section gap");
+
+    if (bore.position) check_tolerance(*bore.position, bore, at, "position");
+    if (bore.perpendicularity) {
+      const PlanTolerance& t = *bore.perpendicularity;
+      const PlanLocation t_at = tolerance_location(t, at, "perpendicularity");
+      check_tolerance(t, bore, at, "perpendicularity");
+      // Perpendicularity is an orientation tolerance at 90 degrees to A; an inclined nominal
+      // axis would call for angularity (ASME Y14.5-2018; ISO 1101:2017), which cylzone does
+      // not evaluate.
+      const double inclination = std::atan2(std::hypot(d.x(), d.y()), d.z());
+      if (inclination > 1e-9)
+        fail(t_at, "perpendicularity needs a nominal direction perpendicular to A, but direction" +
+                       (direction.line > 0 ? " (line " + std::to_string(direction.line) + ")"
+                                           : std::string()) +
+                       " is inclined " + plan_number_text(inclination * 180.0 / pi, 4) +
+                       " degrees from A's normal");
+    }
+    if (bore.cylindricity) {
+      const PlanLocation c_at = at.at("cylindricity");
+      const double value = *bore.cylindricity;
+      if (!(value > 0.0))
+        fail(c_at, "the cylindricity tolerance must be greater than zero (found " + shown(value) +
+                       ")");
+      below_tolerance_ceiling(value, c_at, "the cylindricity tolerance");
+    }
+    if (!bore.position && !bore.perpendicularity && !bore.cylindricity)
+      fail(at, "the bore has no tolerance: give position, perpendicularity or cylindricity");
+  }
+
+  static PlanLocation tolerance_location(const PlanTolerance& t, const PlanLocation& bore,
+                                         const std::string& name) {
+    if (!t.where.key.empty()) return t.where;
+    PlanLocation at = bore.at(name);
+    at.lines = t.where.lines;
+    return at;
+  }
+
+  void check_tolerance(const PlanTolerance& t, const PlanBore& bore, const PlanLocation& bore_at,
+                       const std::string& name) const {
+    const bool is_position = name == "position";
+    const PlanLocation at = tolerance_location(t, bore_at, name);
+    const PlanLocation tolerance = at.at("tolerance");
+    // Zero is allowed here and checked against the modifier below: "0 at MMC" is legitimate
+    // zero tolerancing at MMC (ASME Y14.5-2018, from memory for the section), the whole zone
+    // coming from the bonus.
+    if (!(t.tolerance >= 0.0))
+      fail(tolerance, "the tolerance must not be negative (found " + shown(t.tolerance) + ")");
+    below_tolerance_ceiling(t.tolerance, tolerance, "the tolerance");
+    // MMC/LMC give a bonus from the bore's actual size: its limits must be known
+    // (ASME Y14.5-2018; ISO 2692:2021).
+    if (t.condition != MaterialCondition::rfs && !bore.size)
+      fail(at.at("modifier"), "a tolerance at " + std::string(condition_name(t.condition)) +
+                                  " needs the bore's limits of size: give size = { lower = ..., "
+                                  "upper = ... }");
+    if (t.tolerance == 0.0 && t.condition == MaterialCondition::rfs)
+      fail(tolerance,
+           "the tolerance must be greater than zero (found 0); a zero tolerance is only "
+           "meaningful at MMC or LMC");
+
+    if (is_position) {
+      check_datum_references(t.datums, at.at("datums"));
+      if (t.projected_height) {
+        const PlanLocation projected = at.at("projected");
+        positive_length(*t.projected_height, projected, "the projected height");
+        // A projected zone extends the axis of the feature as a straight line beyond A; a
+        // derived median line is not straight and cannot be projected (ISO 1101:2017).
+        if (bore.axis == BoreAxisMethod::median_line)
+          fail(projected,
+               "a projected tolerance zone needs a straight axis: not available with axis = "
+               "\"median-line\"");
+      }
+      if (t.projected_from) {
+        const PlanLocation from = at.at("projected_from");
+        if (!t.projected_height)
+          fail(from, "projected_from is given without projected: give the projected height too");
+        bounded_length(*t.projected_from, from, "the face the projected zone starts from");
+        bounded_length(*t.projected_from + *t.projected_height, from,
+                       "the far end of the projected zone");
+      }
+    } else {
+      // Perpendicularity in cylzone is always to datum plane A (RMB: a plane has no size).
+      if (t.datums.size() != 1 || t.datums.front().label != 'A' ||
+          t.datums.front().boundary != MaterialBoundary::rmb)
+        fail(at.at("datums"),
+             "perpendicularity is always to datum A: datums must be \"A\" (found " +
+                 quoted_for_message(datum_references_text(t.datums)) + ")");
+      if (t.projected_height || t.projected_from)
+        fail(at.at("projected"), "perpendicularity is evaluated over the bore's own depth: it "
+                                 "takes no projected zone");
+    }
+  }
+
+  /// The datum section of a feature control frame: "A", "A|B", "A|B|C", each of B and C
+  /// optionally at MMB or LMB. cylzone's frame is A (plane, primary), B (origin), C
+  /// (clocking), so that is the only order (ASME Y14.5-2018; ISO 5459:2011).
+  void check_datum_references(const std::vector<DatumReference>& refs,
+                              const PlanLocation& at) const {
+    const std::string text = quoted_for_message(datum_references_text(refs));
+    if (refs.empty())
+      fail(at, "required key is missing: expected the datum reference, e.g. \"A|B|C\"");
+    std::string defined;
+    for (const PlanDatum& d : plan_.datums) {
+      if (!defined.empty()) defined += ", ";
+      defined += d.label;
+    }
+    for (std::size_t k = 0; k < refs.size(); ++k) {
+      const DatumReference& ref = refs[k];
+      const std::string label = std::string("datum ") + ref.label;
+      const PlanDatum* datum = plan_.datum(ref.label);
+      if (!datum) fail(at, label + " is not defined (defined: " + defined + ")");
+      for (std::size_t j = 0; j < k; ++j)
+        if (refs[j].label == ref.label) fail(at, label + " is repeated in " + text);
+      if (k >= 3 || ref.label != "ABC"[k])
+        fail(at,
+             "datum order must be A first, then B, then C: expected \"A\", \"A|B\" or \"A|B|C\" "
+             "(found " + text + ")");
+      if (ref.boundary != MaterialBoundary::rmb) {
+        const std::string modifier = ref.boundary == MaterialBoundary::mmb ? "(M)" : "(L)";
+        if (datum->kind == FeatureKind::plane)
+          fail(at, label + " is a plane, not a feature of size: it takes no " + modifier +
+                       " modifier");
+        if (!datum->size)
+          fail(at, label + " is referenced at " + std::string(boundary_name(ref.boundary)) +
+                       " but [datum." + ref.label +
+                       "] has no size: give size = { lower = ..., upper = ... }");
+      }
+    }
+  }
+
+  const PartPlan& plan_;
+  std::string file_name_;
+  double mm_per_unit_;
+  std::string unit_;
+};
+
+}  // namespace
+
+MaterialBoundary referenced_boundary(const PartPlan& plan, char label) noexcept {
+  MaterialBoundary used = MaterialBoundary::rmb;
+  for (const PlanBore& bore : plan.bores)
+    for (const auto* tolerance : {&bore.position, &bore.perpendicularity})
+      if (*tolerance)
+        for (const DatumReference& ref : (*tolerance)->datums)
+          if (ref.label == label && ref.boundary != MaterialBoundary::rmb &&
+              used != MaterialBoundary::mmb)
+            used = ref.boundary;
+  return used;
+}
+
+void validate_plan(PartPlan& plan) {
+  PlanRules(plan).check();
+  for (PlanDatum& datum : plan.datums) datum.boundary = referenced_boundary(plan, datum.label);
+}
+
+}  // namespace cylzone
