@@ -20,12 +20,14 @@ struct CheckArguments {
   std::string csv;
   bool no_sensitivity = false;
   bool quiet = false;
+  std::size_t threads = hardware_threads();
 };
 
 int run_check(const CheckArguments& args) {
   const PartPlan plan = read_plan(args.plan);
   CheckOptions options;
   options.sensitivity = !args.no_sensitivity;
+  options.evaluation.threads = args.threads;
   const PartCheckResult result = check_part(plan, options);
 
   std::vector<std::filesystem::path> inputs;
@@ -51,6 +53,10 @@ void add_check_command(CLI::App& app, CommandResult& result) {
   check->add_flag("--no-sensitivity", args->no_sensitivity,
                   "skip re-evaluating with the other associations of datum A");
   check->add_flag("--quiet", args->quiet, "do not print the table");
+  check->add_option("--threads", args->threads,
+                    "run at most this many threads (default: the machine's cores); results do "
+                    "not depend on it")
+      ->check(CLI::Range(std::size_t{1}, std::size_t{1024}));
   check->callback([args, &result]() {
     result.context = args->plan + ": ";
     result.run = [args]() { return run_check(*args); };
