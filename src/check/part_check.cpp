@@ -96,6 +96,12 @@ bool conforms(const BoreResult& bore) {
   return true;
 }
 
+/// Every evaluation starts from datum A, a plane; check_part asks before loading anything.
+void require_datum_a(const PartPlan& plan) {
+  if (plan.datums.empty() || plan.datums.front().kind != FeatureKind::plane)
+    throw InputError(plan.file.string(), 0, "the plan needs datum A, a plane");
+}
+
 /// The options every stage below evaluate_part receives: the one thread option and the
 /// evaluation profile written into them.
 BoreEvaluationOptions stage_options(const EvaluationOptions& options, std::size_t threads) {
@@ -127,8 +133,7 @@ std::vector<DatumInput> datum_inputs(const PartPlan& plan, const PartInputs& inp
 
 PartEvaluation evaluate_part(const PartPlan& plan, const PartInputs& inputs,
                              const EvaluationOptions& options) {
-  if (plan.datums.empty() || plan.datums.front().kind != FeatureKind::plane)
-    throw InputError(plan.file.string(), 0, "the plan needs datum A, a plane");
+  require_datum_a(plan);
   if (inputs.datums.size() != plan.datums.size() || inputs.bores.size() != plan.bores.size())
     throw std::invalid_argument(
         "evaluate_part: " + std::to_string(inputs.datums.size()) + " datum and " +
@@ -254,8 +259,7 @@ std::vector<BoreSensitivity> association_sensitivity(const PartPlan& plan,
 }
 
 PartCheckResult check_part(const PartPlan& plan, const CheckOptions& options) {
-  if (plan.datums.empty() || plan.datums.front().kind != FeatureKind::plane)
-    throw InputError(plan.file.string(), 0, "the plan needs datum A, a plane");
+  require_datum_a(plan);
 
   PartCheckResult result;
   result.plan = plan;
