@@ -21,6 +21,7 @@
 #include <Eigen/Geometry>
 #include <cmath>
 #include <filesystem>
+#include <stdexcept>
 #include <string>
 #include <thread>
 #include <vector>
@@ -311,6 +312,29 @@ TEST_CASE("the evaluation profile skips two-point sizes and the screen, and noth
   }
   CHECK(quick.datums.frame.rotation == full.datums.frame.rotation);
   CHECK(quick.datums.frame.origin == full.datums.frame.origin);
+  // The profile reaches the datum features' preparation too.
+  CHECK(full.datums.a.stray_points.screened > 0);
+  CHECK(quick.datums.a.stray_points.screened == 0);
+  REQUIRE(full.datums.b);
+  CHECK(full.datums.b->stray_points.screened > 0);
+  CHECK(quick.datums.b->stray_points.screened == 0);
+}
+
+TEST_CASE("the stray-point options reach every datum feature and every bore", "[check][prepare]") {
+  const PartPlan plan = read_plan(demo_plan);
+  const PartInputs inputs = load_part_inputs(plan);
+  // More neighbours than any feature has points: nothing can be screened (stray_points.hpp).
+  EvaluationOptions wide;
+  wide.bore.stray_points.neighbours = 1000000;
+  const PartEvaluation e = evaluate_part(plan, inputs, wide);
+  CHECK(e.datums.a.stray_points.screened == 0);
+  REQUIRE(e.datums.b);
+  CHECK(e.datums.b->stray_points.screened == 0);
+  for (const BoreResult& b : e.bores) CHECK(b.stray_points.screened == 0);
+  // An impossible threshold is refused, wherever it would be used first.
+  EvaluationOptions bad;
+  bad.bore.stray_points.threshold = -1.0;
+  CHECK_THROWS_AS(evaluate_part(plan, inputs, bad), std::invalid_argument);
 }
 
 TEST_CASE("check_part is load_part_inputs, evaluate_part, the sensitivity study and decide",
