@@ -212,7 +212,8 @@ std::vector<BoreSensitivity> association_sensitivity(const PartPlan& plan,
   std::vector<BoreSensitivity> sensitivity(plan.bores.size());
   for (std::size_t i = 0; i < plan.bores.size(); ++i) sensitivity[i].bore_id = plan.bores[i].id;
 
-  DatumFrameOptions alternative = frame_options(stage_options(options, std::max<std::size_t>(1, options.threads)));
+  DatumFrameOptions alternative =
+      frame_options(stage_options(options, std::max<std::size_t>(1, options.threads)));
   alternative.stray_screen = false;
   for (PlaneAssociation method : methods) {
     std::vector<BoreResult> moved;

@@ -383,7 +383,6 @@ void evaluate_in_zone(BoreResult& result, const PlanBore& bore, const FitOptions
   }
 }
 
-
 /// Checks what evaluation needs before any fit; returns the nominal direction.
 Eigen::Vector3d checked_bore(const PlanBore& bore, const Eigen::Matrix3Xd& points,
                              const BoreEvaluationOptions& options) {
@@ -417,8 +416,9 @@ BoreResult evaluate_bore(const PlanBore& bore, const Eigen::Matrix3Xd& points,
   checked_bore(bore, points, options);
   PointCloud cloud;
   cloud.points = points;
-  const PreparedFeature prepared = for_bore(
-      bore, [&] { return prepare_feature(FeatureKind::bore, cloud, bore_prepare_options(bore, options)); });
+  const PreparedFeature prepared = for_bore(bore, [&] {
+    return prepare_feature(FeatureKind::bore, cloud, bore_prepare_options(bore, options));
+  });
   return evaluate_bore(BoreInput{bore, prepared}, options);
 }
 
