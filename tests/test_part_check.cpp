@@ -192,6 +192,26 @@ TEST_CASE("evaluate_part gives the same bits for 1 and 2 threads", "[check][thre
   same_evaluation(evaluate_part(plan, inputs, one), evaluate_part(plan, inputs, two));
 }
 
+TEST_CASE("the sensitivity study gives the same bits for 1 and 3 threads", "[check][threads]") {
+  const PartPlan plan = read_plan(demo_plan);
+  const PartInputs inputs = load_part_inputs(plan);
+  EvaluationOptions one, three;
+  one.threads = 1;
+  three.threads = 3;
+  const PartEvaluation nominal = evaluate_part(plan, inputs, one);
+  const std::vector<BoreSensitivity> a = association_sensitivity(plan, inputs, nominal, one);
+  const std::vector<BoreSensitivity> b = association_sensitivity(plan, inputs, nominal, three);
+  REQUIRE(a.size() == b.size());
+  for (std::size_t i = 0; i < a.size(); ++i) {
+    REQUIRE(a[i].rows.size() == b[i].rows.size());
+    for (std::size_t r = 0; r < a[i].rows.size(); ++r) {
+      CHECK(a[i].rows[r].association == b[i].rows[r].association);
+      CHECK(a[i].rows[r].position == b[i].rows[r].position);
+      CHECK(a[i].rows[r].perpendicularity == b[i].rows[r].perpendicularity);
+    }
+  }
+}
+
 TEST_CASE("evaluate_part is re-entrant: two concurrent calls equal their serial results",
           "[check][threads]") {
   const PartPlan plan = read_plan(demo_plan);

@@ -212,17 +212,22 @@ std::vector<BoreSensitivity> association_sensitivity(const PartPlan& plan,
   std::vector<BoreSensitivity> sensitivity(plan.bores.size());
   for (std::size_t i = 0; i < plan.bores.size(); ++i) sensitivity[i].bore_id = plan.bores[i].id;
 
+  // The alternative frames are independent: one chunk each, each result in its own slot.
+  const std::size_t threads = std::max<std::size_t>(1, options.threads);
+  const std::size_t workers = detail::worker_count(methods.size(), threads);
   DatumFrameOptions alternative =
-      frame_options(stage_options(options, std::max<std::size_t>(1, options.threads)));
+      frame_options(stage_options(options, std::max<std::size_t>(1, threads / workers)));
   alternative.stray_screen = false;
-  for (PlaneAssociation method : methods) {
-    std::vector<BoreResult> moved;
-    if (method == a.association) {
+  std::vector<std::vector<BoreResult>> moved_by_method(methods.size());
+  detail::parallel_for(methods.size(), workers, [&](std::size_t m, std::size_t) {
+    std::vector<BoreResult>& moved = moved_by_method[m];
+    if (methods[m] == a.association) {
       moved = nominal.bores;
     } else {
-      alternative.a_association = method;
+      DatumFrameOptions frame = alternative;
+      frame.a_association = methods[m];
       const DatumFrameResult other =
-          establish_datum_frame(datum_inputs(plan, inputs), nominal.material_side, alternative);
+          establish_datum_frame(datum_inputs(plan, inputs), nominal.material_side, frame);
       // q_other = R_o (R^T q + o - o_o): the rigid motion from this frame to the other.
       const DatumFrame& f = nominal.datums.frame;
       const DatumFrame& g = other.frame;
@@ -232,6 +237,10 @@ std::vector<BoreSensitivity> association_sensitivity(const PartPlan& plan,
         moved.push_back(moved_to_frame(nominal.bores[i], plan.bores[i], rotation, translation));
       apply_mobility(plan, other, moved, options.mobility);
     }
+  });
+  for (std::size_t m = 0; m < methods.size(); ++m) {
+    const PlaneAssociation method = methods[m];
+    const std::vector<BoreResult>& moved = moved_by_method[m];
     for (std::size_t i = 0; i < plan.bores.size(); ++i) {
       AssociationSensitivity row;
       row.association = method;
