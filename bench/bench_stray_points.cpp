@@ -5,7 +5,9 @@
 // evaluation of a bore. The bore is a 10 mm hole in the datum frame at (40, 25), tilted 0.5
 // mrad, 314 points per row (0.1 mm apart) on rows 0.1 mm apart, 1 um noise and ten spikes.
 // The screen is also timed on the same cloud in random order. Each size runs 7 times (3 at 10^6
-// points); best and median wall clock and the best CPU time (both threads together) are printed.
+// points); best and median wall clock and the best CPU time (all threads together) are printed.
+// The screen runs on StrayPointOptions::threads (default: the machine's cores) and once more on
+// one thread (column 1thread), whose report must be identical.
 //
 // Usage: bench_stray_points [--sizes 10000,100000,1000000]
 #include <Eigen/Geometry>
@@ -72,8 +74,9 @@ int main(int argc, char** argv) {
   plan.basic_location = {40.0, 25.0};
   plan.size = cylzone::SizeLimits{10.0, 10.015};
   std::printf("# stray-point screen (k = 8), least-squares cylinder and evaluate_bore; ms\n");
-  std::printf("# %9s %9s %9s %9s %9s %9s %11s %11s %11s %7s\n", "points", "screen", "median",
-              "ns/point", "cpu", "shuffled", "ls_cylinder", "evaluate", "eval_median", "share");
+  std::printf("# %9s %9s %9s %9s %9s %9s %9s %11s %11s %11s %7s\n", "points", "screen", "median",
+              "ns/point", "cpu", "1thread", "shuffled", "ls_cylinder", "evaluate", "eval_median",
+              "share");
   for (const std::size_t n : sizes) {
     const Eigen::Matrix3Xd points = scanned_bore(n);
     const int runs = n >= 1000000 ? 3 : 7;
@@ -83,6 +86,22 @@ int main(int argc, char** argv) {
     cylzone::StrayPointReport report;
     const Timing screen_time = time_runs(
         runs, [&] { report = cylzone::find_stray_points(points, fit.residuals.values); });
+    cylzone::StrayPointOptions one_thread;
+    one_thread.threads = 1;
+    cylzone::StrayPointReport serial;
+    const Timing serial_time = time_runs(runs, [&] {
+      serial = cylzone::find_stray_points(points, fit.residuals.values, one_thread);
+    });
+    bool identical = serial.robust_scale == report.robust_scale &&
+                     serial.points.size() == report.points.size();
+    for (std::size_t i = 0; identical && i < serial.points.size(); ++i)
+      identical = serial.points[i].index == report.points[i].index &&
+                  serial.points[i].excess == report.points[i].excess;
+    if (!identical) {
+      std::fprintf(stderr, "bench_stray_points: 1 thread and %zu threads differ\n",
+                   cylzone::StrayPointOptions{}.threads);
+      return 1;
+    }
     // The same cloud in random order (a scanner export need not be in scan order).
     Eigen::Matrix3Xd shuffled(3, points.cols());
     Eigen::VectorXd shuffled_residuals(points.cols());
@@ -99,10 +118,10 @@ int main(int argc, char** argv) {
         runs, [&] { cylzone::find_stray_points(shuffled, shuffled_residuals); });
     cylzone::BoreResult bore;
     const Timing bore_time = time_runs(runs, [&] { bore = cylzone::evaluate_bore(plan, points); });
-    std::printf("  %9zu %9.2f %9.2f %9.1f %9.2f %9.2f %11.2f %11.2f %11.2f %6.0f%%   (%zu flagged)\n",
+    std::printf("  %9zu %9.2f %9.2f %9.1f %9.2f %9.2f %9.2f %11.2f %11.2f %11.2f %6.0f%%   (%zu flagged)\n",
                 n, screen_time.best_ms, screen_time.median_ms,
                 1e6 * screen_time.best_ms / static_cast<double>(n), screen_time.best_cpu_ms,
-                shuffled_time.best_ms, fit_time.best_ms, bore_time.best_ms, bore_time.median_ms,
+                serial_time.best_ms, shuffled_time.best_ms, fit_time.best_ms, bore_time.best_ms, bore_time.median_ms,
                 100.0 * screen_time.best_ms / bore_time.best_ms, report.points.size());
   }
   std::printf("# shuffled = the screen on the same cloud in random order; share = screen best /\n"

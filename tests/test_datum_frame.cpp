@@ -20,6 +20,8 @@
 #include "cylzone/core/errors.hpp"
 #include "cylzone/fit/fit_plane.hpp"
 #include "cylzone/datum/tangent_plane.hpp"
+#include "case_file.hpp"
+#include "datum_inputs.hpp"
 #include "reference_data.hpp"
 
 using namespace cylzone;
@@ -140,7 +142,7 @@ TEST_CASE("frame from A, B bore and C bore is the inverse of the part's placemen
        {PlaneAssociation::tangent_least_squares, PlaneAssociation::tangent_minimax}) {
     DatumFrameOptions options;
     options.a_association = method;
-    const DatumFrameResult r = establish_datum_frame(datums, clouds, into_material, options);
+    const DatumFrameResult r = establish_datum_frame(test::paired(datums, clouds), into_material, options);
     INFO(std::string(association_name(method)));
     check_frame_is_inverse(r.frame, motion, 1e-9);
     CHECK(r.rotation_fixed);
@@ -175,7 +177,7 @@ TEST_CASE("C bore clocks by direction only: a C off its basic distance keeps the
       cloud(motion.apply(lobed_feature(0.0, 0.0, 10.0, -40.0, -3.0, 0.004)), "B.csv"),
       cloud(motion.apply(lobed_feature(70.0, 0.0, 4.0, -25.0, -3.0, 0.002)), "C.csv")};
   const DatumFrameResult r =
-      establish_datum_frame(datums, clouds, motion.direction(-Eigen::Vector3d::UnitZ()));
+      establish_datum_frame(test::paired(datums, clouds), motion.direction(-Eigen::Vector3d::UnitZ()));
   check_frame_is_inverse(r.frame, motion, 1e-9);
   CHECK(std::any_of(r.notes.begin(), r.notes.end(),
                     [](const std::string& n) { return n.find("clocks the frame only") != std::string::npos; }));
@@ -193,7 +195,7 @@ TEST_CASE("frame from A, B bore and C plane", "[datum][frame]") {
   const Eigen::Vector3d into_material = motion.direction(-Eigen::Vector3d::UnitZ());
 
   SECTION("material side of C from B's axis") {
-    const DatumFrameResult r = establish_datum_frame(datums, clouds, into_material);
+    const DatumFrameResult r = establish_datum_frame(test::paired(datums, clouds), into_material);
     check_frame_is_inverse(r.frame, motion, 1e-9);
     REQUIRE(r.c_plane);
     CHECK(!r.c_feature);
@@ -203,14 +205,14 @@ TEST_CASE("frame from A, B bore and C plane", "[datum][frame]") {
   }
   SECTION("material side of C given") {
     datums[2].material_side = motion.direction(Eigen::Vector3d(0.2, 1.0, 0.3));
-    const DatumFrameResult r = establish_datum_frame(datums, clouds, into_material);
+    const DatumFrameResult r = establish_datum_frame(test::paired(datums, clouds), into_material);
     check_frame_is_inverse(r.frame, motion, 1e-9);
   }
   SECTION("another basic direction turns the frame") {
     // Outward normal declared as +x in the frame: the frame turns by -90 degrees about z
     // relative to the part's own axes, so the part's -y axis becomes the frame's +x axis.
     datums[2].outward_normal = Eigen::Vector2d(1.0, 0.0);
-    const DatumFrameResult r = establish_datum_frame(datums, clouds, into_material);
+    const DatumFrameResult r = establish_datum_frame(test::paired(datums, clouds), into_material);
     const Eigen::Vector3d frame_x = r.frame.rotation.row(0).transpose();
     CHECK((frame_x - motion.direction(-Eigen::Vector3d::UnitY())).norm() <= 1e-9);
     CHECK((r.frame.rotation.row(2).transpose() - motion.direction(Eigen::Vector3d::UnitZ())).norm() <= 1e-9);
@@ -231,7 +233,7 @@ TEST_CASE("frame with a pin as datum B", "[datum][frame]") {
       cloud(motion.apply(lobed_feature(0.0, 0.0, 8.0, 3.0, 25.0, 0.003)), "B.csv"),
       cloud(motion.apply(lobed_feature(-30.0, 30.0, 3.0, -20.0, -2.0, 0.001)), "C.csv")};
   const DatumFrameResult r =
-      establish_datum_frame(datums, clouds, motion.direction(-Eigen::Vector3d::UnitZ()));
+      establish_datum_frame(test::paired(datums, clouds), motion.direction(-Eigen::Vector3d::UnitZ()));
   check_frame_is_inverse(r.frame, motion, 1e-9);
   REQUIRE(r.b);
   CHECK(r.b->kind == FeatureKind::pin);
@@ -254,7 +256,7 @@ TEST_CASE("datum B size: MMB, shift allowance and a violated boundary", "[datum]
   // Mating size 19.992 (lobed: 2 (10 - 0.004)).
   SECTION("MMB from the MMC size") {
     datums[1].size = SizeLimits{19.980, 20.021};
-    const DatumFrameResult r = establish_datum_frame(datums, clouds, side);
+    const DatumFrameResult r = establish_datum_frame(test::paired(datums, clouds), side);
     CHECK(*r.b->mmb_size == 19.980);
     CHECK(r.b->shift_allowance == Approx(0.006).epsilon(1e-9));
     CHECK(r.b->size->upper == 20.021);
@@ -262,13 +264,13 @@ TEST_CASE("datum B size: MMB, shift allowance and a violated boundary", "[datum]
   SECTION("MMB given") {
     datums[1].size = SizeLimits{19.980, 20.021};
     datums[1].mmb_size = 19.985;
-    const DatumFrameResult r = establish_datum_frame(datums, clouds, side);
+    const DatumFrameResult r = establish_datum_frame(test::paired(datums, clouds), side);
     CHECK(*r.b->mmb_size == 19.985);
     CHECK(r.b->shift_allowance == Approx(0.0035).epsilon(1e-9));
   }
   SECTION("a bore smaller than its MMB has no shift and a note") {
     datums[1].size = SizeLimits{19.995, 20.021};
-    const DatumFrameResult r = establish_datum_frame(datums, clouds, side);
+    const DatumFrameResult r = establish_datum_frame(test::paired(datums, clouds), side);
     CHECK(r.b->shift_allowance == 0.0);
     CHECK(std::any_of(r.notes.begin(), r.notes.end(), [](const std::string& n) {
       return n.find("violates its MMB") != std::string::npos;
@@ -283,7 +285,7 @@ TEST_CASE("frame without C: x is the measurement x axis projected onto A", "[dat
       cloud(motion.apply(face_a_points()), "A.csv"),
       cloud(motion.apply(lobed_feature(0.0, 0.0, 10.0, -40.0, -3.0, 0.004)), "B.csv")};
   const DatumFrameResult r =
-      establish_datum_frame(datums, clouds, motion.direction(-Eigen::Vector3d::UnitZ()));
+      establish_datum_frame(test::paired(datums, clouds), motion.direction(-Eigen::Vector3d::UnitZ()));
   const Eigen::Vector3d z = motion.direction(Eigen::Vector3d::UnitZ());
   const Eigen::Vector3d x = (Eigen::Vector3d::UnitX() - z.x() * z).normalized();
   CHECK((r.frame.rotation.row(2).transpose() - z).norm() <= 1e-9);
@@ -301,7 +303,7 @@ TEST_CASE("frame without C: x is the measurement x axis projected onto A", "[dat
         cloud(side_on.apply(face_a_points()), "A.csv"),
         cloud(side_on.apply(lobed_feature(0.0, 0.0, 10.0, -40.0, -3.0, 0.004)), "B.csv")};
     const DatumFrameResult s =
-        establish_datum_frame(datums, turned, side_on.direction(-Eigen::Vector3d::UnitZ()));
+        establish_datum_frame(test::paired(datums, turned), side_on.direction(-Eigen::Vector3d::UnitZ()));
     CHECK((s.frame.rotation.row(2).transpose() - Eigen::Vector3d::UnitX()).norm() <= 1e-9);
     CHECK((s.frame.rotation.row(0).transpose() - Eigen::Vector3d::UnitY()).norm() <= 1e-9);
   }
@@ -313,7 +315,7 @@ TEST_CASE("frame without B: origin is the measurement origin projected onto A",
   const std::vector<PlanDatum> datums = {plane_datum('A')};
   const std::vector<PointCloud> clouds = {cloud(motion.apply(face_a_points()), "A.csv")};
   const DatumFrameResult r =
-      establish_datum_frame(datums, clouds, motion.direction(-Eigen::Vector3d::UnitZ()));
+      establish_datum_frame(test::paired(datums, clouds), motion.direction(-Eigen::Vector3d::UnitZ()));
   const Eigen::Vector3d z = motion.direction(Eigen::Vector3d::UnitZ());
   CHECK((r.frame.origin - motion.translation.dot(z) * z).norm() <= 1e-9);
   CHECK(std::abs(r.frame.point_to_frame(motion.translation).z()) <= 1e-9);
@@ -334,7 +336,7 @@ TEST_CASE("datum A by every association", "[datum][frame]") {
         PlaneAssociation::least_squares, PlaneAssociation::minimum_zone}) {
     DatumFrameOptions options;
     options.a_association = method;
-    const DatumFrameResult r = establish_datum_frame(datums, {cloud(a, "A.csv")}, side, options);
+    const DatumFrameResult r = establish_datum_frame(test::paired(datums, {cloud(a, "A.csv")}), side, options);
     INFO(std::string(association_name(method)));
     CHECK(r.a.plane.normal.dot(side) < 0.0);
     CHECK(r.a.flatness == Approx(zone.residuals.form).epsilon(1e-12));
@@ -366,7 +368,7 @@ TEST_CASE("material side of A inferred from the bores", "[datum][frame]") {
   const Eigen::Matrix3Xd mouth = motion.apply(lobed_feature(20.0, 0.0, 5.0, -0.001, -0.001, 0.0));
   CHECK_THROWS_WITH(infer_material_side(ls, {&mouth}), Contains("no bore point lies off A"));
   // The frame records that the side was inferred (the plan gave none).
-  const DatumFrameResult r = establish_datum_frame({plane_datum('A')}, {cloud(a, "A.csv")}, side);
+  const DatumFrameResult r = establish_datum_frame(test::paired({plane_datum('A')}, {cloud(a, "A.csv")}), side);
   CHECK(r.a.material_side_inferred);
 }
 
@@ -382,8 +384,8 @@ TEST_CASE("degenerate datum features give a FitError naming the datum", "[datum]
         Axis{Eigen::Vector3d(0.0, 0.0, -15.0), Eigen::Vector3d::UnitX()}, 5.0, -20.0, 20.0, 8,
         24, 360.0, 0.0, 41).points;
     CHECK_THROWS_WITH(
-        establish_datum_frame({plane_datum('A'), size_datum('B', FeatureKind::bore)},
-                              {a, cloud(motion.apply(lying), "B.csv")}, side),
+        establish_datum_frame(test::paired({plane_datum('A'), size_datum('B', FeatureKind::bore)},
+                              {a, cloud(motion.apply(lying), "B.csv")}), side),
         Contains("datum B: axis parallel to A"));
   }
   SECTION("C coincident with B") {
@@ -392,19 +394,19 @@ TEST_CASE("degenerate datum features give a FitError naming the datum", "[datum]
     const PointCloud concentric =
         cloud(motion.apply(lobed_feature(0.0, 0.0, 4.0, -30.0, -5.0, 0.001)), "C.csv");
     CHECK_THROWS_WITH(
-        establish_datum_frame({plane_datum('A'), size_datum('B', FeatureKind::bore), c},
-                              {a, b, concentric}, side),
+        establish_datum_frame(test::paired({plane_datum('A'), size_datum('B', FeatureKind::bore), c},
+                              {a, b, concentric}), side),
         Contains("datum C: its axis coincides with the axis of datum B"));
   }
   SECTION("too few points on A") {
-    CHECK_THROWS_WITH(establish_datum_frame({plane_datum('A')},
-                                            {cloud(a.points.leftCols(2), "A.csv")}, side),
+    CHECK_THROWS_WITH(establish_datum_frame(test::paired({plane_datum('A')},
+                                            {cloud(a.points.leftCols(2), "A.csv")}), side),
                       Contains("datum A: "));
   }
   SECTION("too few points on B") {
     CHECK_THROWS_WITH(
-        establish_datum_frame({plane_datum('A'), size_datum('B', FeatureKind::bore)},
-                              {a, cloud(b.points.leftCols(2), "B.csv")}, side),
+        establish_datum_frame(test::paired({plane_datum('A'), size_datum('B', FeatureKind::bore)},
+                              {a, cloud(b.points.leftCols(2), "B.csv")}), side),
         Contains("datum B: "));
   }
   SECTION("C plane parallel to A") {
@@ -413,8 +415,8 @@ TEST_CASE("degenerate datum features give a FitError naming the datum", "[datum]
     const Eigen::Matrix3Xd floor = testing::make_plane_reference(
         Eigen::Vector3d(0.0, 0.0, -50.0), Eigen::Vector3d::UnitZ(), 60.0, 60.0, 50, 0.0, 42).points;
     CHECK_THROWS_WITH(
-        establish_datum_frame({plane_datum('A'), size_datum('B', FeatureKind::bore), c},
-                              {a, b, cloud(motion.apply(floor), "C.csv")}, side),
+        establish_datum_frame(test::paired({plane_datum('A'), size_datum('B', FeatureKind::bore), c},
+                              {a, b, cloud(motion.apply(floor), "C.csv")}), side),
         Contains("datum C: plane parallel to A"));
   }
   SECTION("C plane through B's axis without a material side") {
@@ -423,16 +425,16 @@ TEST_CASE("degenerate datum features give a FitError naming the datum", "[datum]
     const Eigen::Matrix3Xd through = testing::make_plane_reference(
         Eigen::Vector3d(0.0, 0.0, -20.0), Eigen::Vector3d::UnitX(), 30.0, 30.0, 50, 0.0, 43).points;
     CHECK_THROWS_WITH(
-        establish_datum_frame({plane_datum('A'), size_datum('B', FeatureKind::bore), c},
-                              {a, b, cloud(motion.apply(through), "C.csv")}, side),
+        establish_datum_frame(test::paired({plane_datum('A'), size_datum('B', FeatureKind::bore), c},
+                              {a, b, cloud(motion.apply(through), "C.csv")}), side),
         Contains("datum C: the axis of datum B lies in plane C"));
   }
   SECTION("a plane as datum B") {
-    CHECK_THROWS_WITH(establish_datum_frame({plane_datum('A'), plane_datum('B')}, {a, a}, side),
+    CHECK_THROWS_WITH(establish_datum_frame(test::paired({plane_datum('A'), plane_datum('B')}, {a, a}), side),
                       Contains("datum B: a secondary datum plane is not supported"));
   }
   SECTION("material side of A in its plane") {
-    CHECK_THROWS_WITH(establish_datum_frame({plane_datum('A')}, {a},
+    CHECK_THROWS_WITH(establish_datum_frame(test::paired({plane_datum('A')}, {a}),
                                             motion.direction(Eigen::Vector3d::UnitX())),
                       Contains("datum A: the material side direction lies almost in the plane"));
   }
@@ -496,8 +498,8 @@ TEST_CASE("frame from A, B bore and C slot or tab is the inverse of the part's p
   SECTION("slot cut into the material") {
     const std::vector<PlanDatum> datums = {plane_datum('A'), size_datum('B', FeatureKind::bore),
                                            width_datum(FeatureKind::slot, angle)};
-    const DatumFrameResult r = establish_datum_frame(
-        datums, {a, b, cloud(motion.apply(width_feature(true, angle, 0.0, 3.0, -2.0, -12.0)), "C.csv")},
+    const DatumFrameResult r = establish_datum_frame(test::paired(
+        datums, {a, b, cloud(motion.apply(width_feature(true, angle, 0.0, 3.0, -2.0, -12.0)), "C.csv")}),
         into_material);
     check_frame_is_inverse(r.frame, motion, 1e-9);
     REQUIRE(r.c_width);
@@ -531,8 +533,8 @@ TEST_CASE("frame from A, B bore and C slot or tab is the inverse of the part's p
   SECTION("tab standing out of face A") {
     const std::vector<PlanDatum> datums = {plane_datum('A'), size_datum('B', FeatureKind::bore),
                                            width_datum(FeatureKind::tab, angle)};
-    const DatumFrameResult r = establish_datum_frame(
-        datums, {a, b, cloud(motion.apply(width_feature(false, angle, 0.0, 2.5, 2.0, 10.0)), "C.csv")},
+    const DatumFrameResult r = establish_datum_frame(test::paired(
+        datums, {a, b, cloud(motion.apply(width_feature(false, angle, 0.0, 2.5, 2.0, 10.0)), "C.csv")}),
         into_material);
     check_frame_is_inverse(r.frame, motion, 1e-9);
     REQUIRE(r.c_width);
@@ -553,7 +555,7 @@ TEST_CASE("frame from A, B bore and C slot or tab is the inverse of the part's p
     const std::vector<PlanDatum> datums = {plane_datum('A'), size_datum('B', FeatureKind::bore),
                                            width_datum(FeatureKind::slot, angle)};
     const DatumFrameResult r =
-        establish_datum_frame(datums, {a, b, cloud(motion.apply(exact), "C.csv")}, into_material);
+        establish_datum_frame(test::paired(datums, {a, b, cloud(motion.apply(exact), "C.csv")}), into_material);
     REQUIRE(r.c_width);
     CHECK(r.c_width->mating_width ==
           Approx(2.0 * ((h - e) * std::cos(d) + t1 * std::sin(d))).epsilon(1e-12));
@@ -583,7 +585,7 @@ TEST_CASE("C slot or tab: MMB, shift allowance and a violated boundary", "[datum
   SECTION("slot, MMB from the MMC width") {
     c.size = SizeLimits{5.990, 6.030};
     const DatumFrameResult r =
-        establish_datum_frame({plane_datum('A'), size_datum('B', FeatureKind::bore), c}, {a, b, slot}, side);
+        establish_datum_frame(test::paired({plane_datum('A'), size_datum('B', FeatureKind::bore), c}, {a, b, slot}), side);
     REQUIRE(r.c_width->mmb_size);
     CHECK(*r.c_width->mmb_size == 5.990);
     CHECK(r.c_width->shift_allowance == Approx(0.005).epsilon(1e-9));
@@ -594,14 +596,14 @@ TEST_CASE("C slot or tab: MMB, shift allowance and a violated boundary", "[datum
     c.size = SizeLimits{5.970, 6.010};
     c.mmb_size = 6.016;
     const DatumFrameResult r =
-        establish_datum_frame({plane_datum('A'), size_datum('B', FeatureKind::bore), c}, {a, b, tab}, side);
+        establish_datum_frame(test::paired({plane_datum('A'), size_datum('B', FeatureKind::bore), c}, {a, b, tab}), side);
     CHECK(*r.c_width->mmb_size == 6.016);
     CHECK(r.c_width->shift_allowance == Approx(0.008).epsilon(1e-9));
   }
   SECTION("a slot narrower than its MMB has no allowance and a note") {
     c.size = SizeLimits{6.010, 6.040};
     const DatumFrameResult r =
-        establish_datum_frame({plane_datum('A'), size_datum('B', FeatureKind::bore), c}, {a, b, slot}, side);
+        establish_datum_frame(test::paired({plane_datum('A'), size_datum('B', FeatureKind::bore), c}, {a, b, slot}), side);
     CHECK(r.c_width->shift_allowance == 0.0);
     CHECK(std::any_of(r.notes.begin(), r.notes.end(), [](const std::string& n) {
       return n.find("datum C: related mating width 6.0000 mm violates its MMB 6.0100 mm") !=
@@ -625,8 +627,8 @@ TEST_CASE("C slot or tab: leaning faces, wrong features and missing datums",
     const double t = std::tan(2.0 * pi / 180.0);
     for (Eigen::Index i = 0; i < drafted.cols(); ++i)
       drafted(1, i) += (drafted(1, i) > 0 ? 1.0 : -1.0) * (-drafted(2, i)) * t;
-    const DatumFrameResult r = establish_datum_frame(
-        {plane_datum('A'), size_datum('B', FeatureKind::bore), c}, {a, b, cloud(motion.apply(drafted), "C.csv")},
+    const DatumFrameResult r = establish_datum_frame(test::paired(
+        {plane_datum('A'), size_datum('B', FeatureKind::bore), c}, {a, b, cloud(motion.apply(drafted), "C.csv")}),
         side);
     CHECK(std::any_of(r.notes.begin(), r.notes.end(), [](const std::string& n) {
       return n.find("datum C: the face of the slot left of its centre line (seen from outside the material "
@@ -644,28 +646,28 @@ TEST_CASE("C slot or tab: leaning faces, wrong features and missing datums",
       const Eigen::Index k = i - 25;
       floor.col(i) << 36.0 + 4.0 * static_cast<double>(k % 5), -1.0 - 0.4 * static_cast<double>(k / 5), -12.0;
     }
-    CHECK_THROWS_WITH(establish_datum_frame({plane_datum('A'), size_datum('B', FeatureKind::bore), c},
-                                            {a, b, cloud(motion.apply(floor), "C.csv")}, side),
+    CHECK_THROWS_WITH(establish_datum_frame(test::paired({plane_datum('A'), size_datum('B', FeatureKind::bore), c},
+                                            {a, b, cloud(motion.apply(floor), "C.csv")}), side),
                       Contains("datum C: the face of the slot right of its centre line (seen from outside the material "
                                "looking from B toward C) is parallel to A"));
   }
   SECTION("all points on one face") {
     const Eigen::Matrix3Xd one = exact.leftCols(25);
-    CHECK_THROWS_WITH(establish_datum_frame({plane_datum('A'), size_datum('B', FeatureKind::bore), c},
-                                            {a, b, cloud(motion.apply(one), "C.csv")}, side),
+    CHECK_THROWS_WITH(establish_datum_frame(test::paired({plane_datum('A'), size_datum('B', FeatureKind::bore), c},
+                                            {a, b, cloud(motion.apply(one), "C.csv")}), side),
                       Contains("datum C: its two faces are not told apart"));
   }
   SECTION("no basic location") {
     PlanDatum bare = c;
     bare.basic_location.reset();
-    CHECK_THROWS_WITH(establish_datum_frame({plane_datum('A'), size_datum('B', FeatureKind::bore), bare},
-                                            {a, b, cloud(motion.apply(exact), "C.csv")}, side),
+    CHECK_THROWS_WITH(establish_datum_frame(test::paired({plane_datum('A'), size_datum('B', FeatureKind::bore), bare},
+                                            {a, b, cloud(motion.apply(exact), "C.csv")}), side),
                       Contains("datum C: its basic location (away from B's axis) is needed"));
   }
   SECTION("a slot as datum B") {
     CHECK_THROWS_WITH(
-        establish_datum_frame({plane_datum('A'), size_datum('B', FeatureKind::slot)},
-                              {a, cloud(motion.apply(exact), "B.csv")}, side),
+        establish_datum_frame(test::paired({plane_datum('A'), size_datum('B', FeatureKind::slot)},
+                              {a, cloud(motion.apply(exact), "B.csv")}), side),
         Contains("datum B: a slot cannot be datum B"));
   }
 }

@@ -37,6 +37,7 @@
 #include "cylzone/fit/fit_plane.hpp"
 #include "cylzone/prepare/stray_points.hpp"
 #include "case_file.hpp"
+#include "datum_inputs.hpp"
 #include "reference_data.hpp"
 
 using namespace cylzone;
@@ -388,7 +389,7 @@ TEST_CASE("establish_datum_frame notes suspect points of A and B and the contact
   PlanDatum b;
   b.label = 'B';
   b.kind = FeatureKind::bore;
-  const DatumFrameResult frame = establish_datum_frame({a, b}, {a_cloud, b_cloud}, -n);
+  const DatumFrameResult frame = establish_datum_frame(test::paired({a, b}, {a_cloud, b_cloud}), -n);
 
   REQUIRE(frame.a.stray_points.points.size() == 1);
   CHECK(frame.a.stray_points.points[0].index == static_cast<std::size_t>(a_spike));
@@ -416,7 +417,7 @@ TEST_CASE("establish_datum_frame notes suspect points of A and B and the contact
 
   // The same A associated by least squares: still flagged, but no plane rests on it.
   a.association = PlaneAssociation::least_squares;
-  const DatumFrameResult ls = establish_datum_frame({a, b}, {a_cloud, b_cloud}, -n);
+  const DatumFrameResult ls = establish_datum_frame(test::paired({a, b}, {a_cloud, b_cloud}), -n);
   REQUIRE(ls.a.stray_points.points.size() == 1);
   const auto a_ls = std::find_if(ls.notes.begin(), ls.notes.end(), [](const std::string& s) {
     return s.rfind("datum A: ", 0) == 0 && s.find("suspect") != std::string::npos;

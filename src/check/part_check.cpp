@@ -1,18 +1,21 @@
-// The main job, end to end: read -> datum frame -> evaluate every bore -> datum mobility ->
-// sensitivity to datum A's association -> decide. Only orchestration lives here; every figure
-// is computed by the module that owns it.
+// The main job, end to end: load (part_inputs.cpp) -> evaluate_part (prepare, datum frame,
+// every bore, datum mobility) -> sensitivity to datum A's association -> decide. Only
+// orchestration lives here; every figure is computed by the module that owns it, and nothing
+// below load_part_inputs reads a file.
 #include "cylzone/check/part_check.hpp"
 
 #include <algorithm>
 #include <map>
+#include <stdexcept>
+#include <string>
 #include <utility>
 
 #include "cylzone/decide/bore_characteristics.hpp"
 #include "cylzone/evaluate/datum_mobility.hpp"
 #include "cylzone/core/errors.hpp"
 #include "cylzone/fit/fit_plane.hpp"
-#include "cylzone/io/read_points.hpp"
-#include "io/detail/file_digest.hpp"
+#include "cylzone/prepare/prepare.hpp"
+#include "detail/parallel.hpp"
 
 namespace cylzone {
 namespace {
@@ -71,124 +74,190 @@ const Characteristic* deciding_position(const std::vector<Characteristic>& chara
   return find_characteristic(characteristics, bore_id + "/position");
 }
 
-std::string datum_role(char label) { return std::string("datum ") + label; }
+/// Every evaluation starts from datum A, a plane; check_part asks before loading anything.
+void require_datum_a(const PartPlan& plan) {
+  if (plan.datums.empty() || plan.datums.front().kind != FeatureKind::plane)
+    throw InputError(plan.file.string(), 0, "the plan needs datum A, a plane");
+}
+
+/// The options every stage below evaluate_part receives: the one thread option and the
+/// evaluation profile written into them.
+BoreEvaluationOptions stage_options(const EvaluationOptions& options, std::size_t threads) {
+  BoreEvaluationOptions bore = options.bore;
+  bore.fit.threads = threads;
+  bore.fit.assess_ambiguity = options.profile.ambiguity;
+  bore.two_point_sizes = options.profile.two_point_sizes;
+  bore.stray_screen = options.profile.stray_screen;
+  bore.stray_points.threads = threads;
+  return bore;
+}
+
+DatumFrameOptions frame_options(const BoreEvaluationOptions& stage) {
+  DatumFrameOptions frame;
+  frame.fit = stage.fit;
+  frame.stray_screen = stage.stray_screen;
+  frame.stray_points = stage.stray_points;
+  return frame;
+}
+
+std::vector<DatumInput> datum_inputs(const PartPlan& plan, const PartInputs& inputs) {
+  std::vector<DatumInput> datums;
+  for (std::size_t k = 0; k < plan.datums.size(); ++k)
+    datums.push_back({plan.datums[k], inputs.datums[k]});
+  return datums;
+}
 
 }  // namespace
 
-PartCheckResult check_part(const PartPlan& plan, const CheckOptions& options) {
-  if (plan.datums.empty() || plan.datums.front().kind != FeatureKind::plane)
-    throw InputError(plan.file.string(), 0, "the plan needs datum A, a plane");
-
-  PartCheckResult result;
-  result.plan = plan;
-  result.inputs.push_back({"plan", plan.file, plan.sha256, 0});
-
-  ReadOptions read;
-  read.unit = plan.unit;
-  std::vector<PointCloud> datum_clouds;
-  for (const PlanDatum& datum : plan.datums) {
-    datum_clouds.push_back(read_points(datum.points, read));
-    result.inputs.push_back({datum_role(datum.label), datum.points,
-                             detail::sha256_of_file(datum.points), datum_clouds.back().size()});
-  }
-  std::vector<PointCloud> bore_clouds;
-  for (const PlanBore& bore : plan.bores) {
-    bore_clouds.push_back(read_points(bore.points, read));
-    result.inputs.push_back({"bore " + bore.id, bore.points, detail::sha256_of_file(bore.points),
-                             bore_clouds.back().size()});
-  }
+PartEvaluation evaluate_part(const PartPlan& plan, const PartInputs& inputs,
+                             const EvaluationOptions& options) {
+  require_datum_a(plan);
+  if (inputs.datums.size() != plan.datums.size() || inputs.bores.size() != plan.bores.size())
+    throw std::invalid_argument(
+        "evaluate_part: " + std::to_string(inputs.datums.size()) + " datum and " +
+        std::to_string(inputs.bores.size()) + " bore clouds for a plan with " +
+        std::to_string(plan.datums.size()) + " datums and " + std::to_string(plan.bores.size()) +
+        " bores");
+  const std::size_t threads = std::max<std::size_t>(1, options.threads);
+  const BoreEvaluationOptions stage = stage_options(options, threads);
+  PartEvaluation result;
 
   // Which side of A is material: from the plan, or the side the bores' points lie on.
   const PlanDatum& a = plan.datums.front();
-  Eigen::Vector3d material_side;
   bool inferred = false;
   if (a.material_side) {
-    material_side = *a.material_side;
+    result.material_side = *a.material_side;
   } else {
     std::vector<const Eigen::Matrix3Xd*> bore_points;
-    for (const PointCloud& cloud : bore_clouds) bore_points.push_back(&cloud.points);
-    material_side = for_feature("datum A", [&] {
-      return infer_material_side(fit_plane_least_squares(datum_clouds.front().points,
-                                                         options.evaluation.fit),
+    for (const PointCloud& cloud : inputs.bores) bore_points.push_back(&cloud.points);
+    result.material_side = for_feature("datum A", [&] {
+      return infer_material_side(fit_plane_least_squares(inputs.datums.front().points, stage.fit),
                                  bore_points);
     });
     inferred = true;
   }
 
-  DatumFrameOptions frame_options;
-  frame_options.fit = options.evaluation.fit;
-  result.datums = establish_datum_frame(plan.datums, datum_clouds, material_side, frame_options);
+  result.datums = establish_datum_frame(datum_inputs(plan, inputs), result.material_side,
+                                        frame_options(stage));
   result.datums.a.material_side_inferred = inferred;
   if (inferred)
     result.warnings.push_back("material side of datum A inferred from the bores' points");
 
-  for (std::size_t i = 0; i < plan.bores.size(); ++i) {
+  // Bores in parallel, one chunk each, each result in its own slot: the same bits for any
+  // thread count. The threads left over go to each bore's own fits.
+  const std::size_t workers = detail::worker_count(plan.bores.size(), threads);
+  BoreEvaluationOptions per_bore = stage;
+  per_bore.fit.threads = per_bore.stray_points.threads = std::max<std::size_t>(1, threads / workers);
+  result.bores.resize(plan.bores.size());
+  detail::parallel_for(plan.bores.size(), workers, [&](std::size_t i, std::size_t) {
     const PlanBore& bore = plan.bores[i];
-    const Eigen::Matrix3Xd in_frame = result.datums.frame.points_to_frame(bore_clouds[i].points);
-    result.bores.push_back(for_feature("bore " + bore.id, [&] {
-      return evaluate_bore(bore, in_frame, options.evaluation);
-    }));
-  }
+    result.bores[i] = for_feature("bore " + bore.id, [&] {
+      PointCloud in_frame;
+      in_frame.points = result.datums.frame.points_to_frame(inputs.bores[i].points);
+      if (inputs.bores[i].has_vectors())
+        in_frame.vectors = result.datums.frame.rotation * inputs.bores[i].vectors;
+      in_frame.source = inputs.bores[i].source;
+      in_frame.file_unit = inputs.bores[i].file_unit;
+      const PreparedFeature prepared =
+          prepare_feature(FeatureKind::bore, in_frame, bore_prepare_options(bore, per_bore));
+      return evaluate_bore(BoreInput{bore, prepared}, per_bore);
+    });
+  });
   apply_mobility(plan, result.datums, result.bores, options.mobility);
+  return result;
+}
 
-  if (options.sensitivity) {
-    // Every association of A, the plan's own first. The bores are not refitted: their fits are
-    // invariant under rigid motions, so each is moved into the alternative frame.
-    std::vector<PlaneAssociation> methods = {a.association};
-    for (PlaneAssociation m :
-         {PlaneAssociation::tangent_least_squares, PlaneAssociation::tangent_minimax,
-          PlaneAssociation::least_squares, PlaneAssociation::minimum_zone})
-      if (m != a.association) methods.push_back(m);
+std::vector<BoreSensitivity> association_sensitivity(const PartPlan& plan,
+                                                     const PartInputs& inputs,
+                                                     const PartEvaluation& nominal,
+                                                     const EvaluationOptions& options,
+                                                     const DecisionRule& rule) {
+  if (nominal.bores.size() != plan.bores.size())
+    throw std::invalid_argument("association_sensitivity: the evaluation does not match the plan");
+  const PlanDatum& a = plan.datums.front();
+  // Every association of A, the plan's own first. The bores are not refitted: their fits are
+  // invariant under rigid motions, so each is moved into the alternative frame. The frame's
+  // stray-point notes are not used here, so its screen is skipped.
+  std::vector<PlaneAssociation> methods = {a.association};
+  for (PlaneAssociation m :
+       {PlaneAssociation::tangent_least_squares, PlaneAssociation::tangent_minimax,
+        PlaneAssociation::least_squares, PlaneAssociation::minimum_zone})
+    if (m != a.association) methods.push_back(m);
 
-    result.sensitivity.resize(plan.bores.size());
-    for (std::size_t i = 0; i < plan.bores.size(); ++i)
-      result.sensitivity[i].bore_id = plan.bores[i].id;
+  std::vector<BoreSensitivity> sensitivity(plan.bores.size());
+  for (std::size_t i = 0; i < plan.bores.size(); ++i) sensitivity[i].bore_id = plan.bores[i].id;
 
-    for (PlaneAssociation method : methods) {
-      std::vector<BoreResult> moved;
-      if (method == a.association) {
-        moved = result.bores;
-      } else {
-        DatumFrameOptions alternative = frame_options;
-        alternative.a_association = method;
-        const DatumFrameResult other =
-            establish_datum_frame(plan.datums, datum_clouds, material_side, alternative);
-        // q_other = R_o (R^T q + o - o_o): the rigid motion from this frame to the other.
-        const DatumFrame& f = result.datums.frame;
-        const DatumFrame& g = other.frame;
-        const Eigen::Matrix3d rotation = g.rotation * f.rotation.transpose();
-        const Eigen::Vector3d translation = g.rotation * (f.origin - g.origin);
-        for (std::size_t i = 0; i < plan.bores.size(); ++i)
-          moved.push_back(moved_to_frame(result.bores[i], plan.bores[i], rotation, translation));
-        apply_mobility(plan, other, moved, options.mobility);
-      }
-      for (std::size_t i = 0; i < plan.bores.size(); ++i) {
-        AssociationSensitivity row;
-        row.association = method;
-        const std::vector<Characteristic> decided = bore_characteristics(moved[i], options.decision);
-        if (const Characteristic* p = deciding_position(decided, moved[i].id)) {
-          row.position = p->value;
-          row.position_verdict = p->verdict;
-        }
-        if (const Characteristic* p =
-                find_characteristic(decided, moved[i].id + "/perpendicularity")) {
-          row.perpendicularity = p->value;
-          row.perpendicularity_verdict = p->verdict;
-        }
-        result.sensitivity[i].rows.push_back(row);
-      }
+  // The alternative frames are independent: one chunk each, each result in its own slot.
+  const std::size_t threads = std::max<std::size_t>(1, options.threads);
+  const std::size_t workers = detail::worker_count(methods.size(), threads);
+  DatumFrameOptions alternative =
+      frame_options(stage_options(options, std::max<std::size_t>(1, threads / workers)));
+  alternative.stray_screen = false;
+  std::vector<std::vector<BoreResult>> moved_by_method(methods.size());
+  detail::parallel_for(methods.size(), workers, [&](std::size_t m, std::size_t) {
+    std::vector<BoreResult>& moved = moved_by_method[m];
+    if (methods[m] == a.association) {
+      moved = nominal.bores;
+    } else {
+      DatumFrameOptions frame = alternative;
+      frame.a_association = methods[m];
+      const DatumFrameResult other =
+          establish_datum_frame(datum_inputs(plan, inputs), nominal.material_side, frame);
+      // q_other = R_o (R^T q + o - o_o): the rigid motion from this frame to the other.
+      const DatumFrame& f = nominal.datums.frame;
+      const DatumFrame& g = other.frame;
+      const Eigen::Matrix3d rotation = g.rotation * f.rotation.transpose();
+      const Eigen::Vector3d translation = g.rotation * (f.origin - g.origin);
+      for (std::size_t i = 0; i < plan.bores.size(); ++i)
+        moved.push_back(moved_to_frame(nominal.bores[i], plan.bores[i], rotation, translation));
+      apply_mobility(plan, other, moved, options.mobility);
     }
-    for (BoreSensitivity& s : result.sensitivity) {
-      auto spread = [&](double AssociationSensitivity::*field) {
-        const auto [lo, hi] = std::minmax_element(
-            s.rows.begin(), s.rows.end(),
-            [&](const auto& l, const auto& r) { return l.*field < r.*field; });
-        return (*hi).*field - (*lo).*field;
-      };
-      s.position_spread = spread(&AssociationSensitivity::position);
-      s.perpendicularity_spread = spread(&AssociationSensitivity::perpendicularity);
+  });
+  for (std::size_t m = 0; m < methods.size(); ++m) {
+    const PlaneAssociation method = methods[m];
+    const std::vector<BoreResult>& moved = moved_by_method[m];
+    for (std::size_t i = 0; i < plan.bores.size(); ++i) {
+      AssociationSensitivity row;
+      row.association = method;
+      const std::vector<Characteristic> decided = bore_characteristics(moved[i], rule);
+      if (const Characteristic* p = deciding_position(decided, moved[i].id)) {
+        row.position = p->value;
+        row.position_verdict = p->verdict;
+      }
+      if (const Characteristic* p = find_characteristic(decided, moved[i].id + "/perpendicularity")) {
+        row.perpendicularity = p->value;
+        row.perpendicularity_verdict = p->verdict;
+      }
+      sensitivity[i].rows.push_back(row);
     }
   }
+  for (BoreSensitivity& s : sensitivity) {
+    auto spread = [&](double AssociationSensitivity::*field) {
+      const auto [lo, hi] = std::minmax_element(
+          s.rows.begin(), s.rows.end(),
+          [&](const auto& l, const auto& r) { return l.*field < r.*field; });
+      return (*hi).*field - (*lo).*field;
+    };
+    s.position_spread = spread(&AssociationSensitivity::position);
+    s.perpendicularity_spread = spread(&AssociationSensitivity::perpendicularity);
+  }
+  return sensitivity;
+}
+
+PartCheckResult check_part(const PartPlan& plan, const CheckOptions& options) {
+  require_datum_a(plan);
+
+  PartCheckResult result;
+  result.plan = plan;
+  const PartInputs inputs = load_part_inputs(plan);
+  result.inputs = inputs.records;
+  PartEvaluation evaluation = evaluate_part(plan, inputs, options.evaluation);
+  if (options.sensitivity)
+    result.sensitivity =
+        association_sensitivity(plan, inputs, evaluation, options.evaluation, options.decision);
+  result.datums = std::move(evaluation.datums);
+  result.bores = std::move(evaluation.bores);
+  result.warnings = std::move(evaluation.warnings);
 
   // Decide: every characteristic of every bore, by the one decision function.
   for (const BoreResult& bore : result.bores)

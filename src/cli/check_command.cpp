@@ -22,6 +22,7 @@ struct CheckArguments {
   std::string csv;
   bool no_sensitivity = false;
   bool quiet = false;
+  std::size_t threads = hardware_threads();
 };
 
 /// Every file the plan reads: reports must never be written over one of them.
@@ -45,6 +46,7 @@ int run_check(const CheckArguments& args) {
 
   CheckOptions options;
   options.sensitivity = !args.no_sensitivity;
+  options.evaluation.threads = args.threads;
   const PartCheckResult result = check_part(plan, options);
   const ReportModel model = make_report_model(result);
 
@@ -81,6 +83,10 @@ void add_check_command(CLI::App& app, CommandResult& result) {
                   "skip re-evaluating with the other associations of datum A");
   check->add_flag("--quiet", args->quiet,
                   "do not print the table (it goes to stderr when a report goes to stdout)");
+  check->add_option("--threads", args->threads,
+                    "run at most this many threads (default: the machine's cores); results do "
+                    "not depend on it")
+      ->check(CLI::Range(std::size_t{1}, std::size_t{1024}));
   check->callback([args, &result]() {
     result.context = args->plan + ": ";
     result.run = [args]() { return run_check(*args); };

@@ -23,6 +23,7 @@
 #include "cylzone/fit/fit_circle.hpp"
 #include "cylzone/evaluate/material_condition.hpp"
 #include "cylzone/datum/tangent_plane.hpp"
+#include "cylzone/prepare/prepare.hpp"
 #include "datum/detail/clocking_width.hpp"
 #include "detail/fit_support.hpp"
 #include "prepare/detail/stray_point_message.hpp"
@@ -112,14 +113,6 @@ void note_stray_points(std::vector<std::string>& notes, char label,
                   detail::stray_point_message(report, contacts, stray_closing));
 }
 
-// Residuals of the least-squares plane of `points` along `outward` (so a positive residual
-// stands proud of the surface), for the stray-point screen.
-Eigen::VectorXd outward_plane_residuals(const PlaneFit& least_squares,
-                                        const Eigen::Vector3d& outward) {
-  return least_squares.normal.dot(outward) < 0.0 ? Eigen::VectorXd(-least_squares.residuals.values)
-                                                 : least_squares.residuals.values;
-}
-
 // Datum plane A by its association method; normal out of the material, residuals along it.
 PlaneFit associate_plane(const Eigen::Matrix3Xd& points, PlaneAssociation method,
                          const Eigen::Vector3d& material_side, const FitOptions& fit) {
@@ -159,7 +152,7 @@ Eigen::Vector3d meet_plane(const Axis& axis, const PlaneFit& plane) {
 // a pin: ASME Y14.5-2018, related actual mating envelope).
 SizeDatumResult associate_size_datum(const PlanDatum& datum, const PointCloud& cloud,
                                      const PlaneFit& a, const FitOptions& fit,
-                                     const StrayPointOptions& stray_options,
+                                     const PrepareOptions& prepare,
                                      std::vector<std::string>& notes) {
   const Eigen::Vector3d& z = a.normal;
   if (const std::optional<double> angle = own_axis_angle_deg(cloud, z, fit)) {
@@ -188,20 +181,17 @@ SizeDatumResult associate_size_datum(const PlanDatum& datum, const PointCloud& c
   // The envelope's own warnings (coverage, a non-unique envelope) concern the datum: pass them on.
   for (const std::string& warning : result.related_envelope.summary.warnings)
     notes.push_back(label_text(datum.label) + ": related mating envelope: " + warning);
-  // Stray-point screen on the residuals of the least-squares cylinder held perpendicular to A
-  // (stray_points.hpp); the datum axis rests on the envelope's contacts. Too few points to
-  // screen (fewer than neighbours + 1) need no fit: the report stays empty.
-  if (cloud.size() > stray_options.neighbours) {
-    const CylinderFit least_squares = fit_cylinder_least_squares(cloud.points, held);
-    result.stray_points =
-        find_stray_points(cloud.points, least_squares.residuals.values, stray_options);
-    const std::vector<std::size_t> contacts = suspect_contacts(
-        result.stray_points, result.related_envelope.residuals.values,
-        datum.kind == FeatureKind::pin ? ContactSide::highest : ContactSide::lowest);
-    note_stray_points(notes, datum.label, result.stray_points,
-                      {{contacts, "its related mating envelope",
-                        "the datum axis and its mating size rest on"}});
-  }
+  // Prepare (prepare.hpp): the stray-point screen on the residuals of the least-squares
+  // cylinder held perpendicular to A; the datum axis rests on the envelope's contacts.
+  PrepareOptions screen = prepare;
+  screen.fit = held;
+  result.stray_points = prepare_feature(datum.kind, cloud, screen).record.stray_points;
+  const std::vector<std::size_t> contacts = suspect_contacts(
+      result.stray_points, result.related_envelope.residuals.values,
+      datum.kind == FeatureKind::pin ? ContactSide::highest : ContactSide::lowest);
+  note_stray_points(notes, datum.label, result.stray_points,
+                    {{contacts, "its related mating envelope",
+                      "the datum axis and its mating size rest on"}});
   result.size = datum.size;
   set_mmb_boundary(datum, result.mating_size, "size", "datum shift", result.boundary,
                    result.mmb_size, result.shift_allowance, notes);
@@ -233,7 +223,7 @@ ClockingPlaneResult associate_clocking_plane(const PlanDatum& datum, const Point
                                              const PlaneFit& a,
                                              const std::optional<Eigen::Vector3d>& b_axis_on_a,
                                              const FitOptions& fit,
-                                             const StrayPointOptions& stray_options,
+                                             const PrepareOptions& prepare,
                                              std::vector<std::string>& notes) {
   const Eigen::Vector3d& z = a.normal;
   FitOptions plain = fit;
@@ -296,10 +286,12 @@ ClockingPlaneResult associate_clocking_plane(const PlanDatum& datum, const Point
       "tangent least-squares plane perpendicular to A: " +
       detail::iteration_message(line.status, line.iterations, fit) + ", " +
       std::to_string(line.contacts) + (line.contacts == 1 ? " contact point" : " contact points");
-  // Stray-point screen on the least-squares plane's residuals (stray_points.hpp); the clocking
-  // plane rests on its contacts (residual 0, all others below).
-  result.stray_points = find_stray_points(
-      cloud.points, outward_plane_residuals(own, plane.normal), stray_options);
+  // Prepare (prepare.hpp): the stray-point screen on the least-squares plane's residuals; the
+  // clocking plane rests on its contacts (residual 0, all others below).
+  PrepareOptions screen = prepare;
+  screen.fit = plain;
+  screen.outward = plane.normal;
+  result.stray_points = prepare_feature(datum.kind, cloud, screen).record.stray_points;
   note_stray_points(notes, datum.label, result.stray_points,
                     {{suspect_contacts(result.stray_points, plane.residuals.values,
                                        ContactSide::highest),
@@ -315,7 +307,7 @@ ClockingPlaneResult associate_clocking_plane(const PlanDatum& datum, const Point
 ClockingWidthResult associate_clocking_width(const PlanDatum& datum, const PointCloud& cloud,
                                              const PlaneFit& a, const Eigen::Vector3d& origin,
                                              const FitOptions& fit,
-                                             const StrayPointOptions& stray_options,
+                                             const PrepareOptions& prepare,
                                              std::vector<std::string>& notes) {
   const Eigen::Vector3d& z = a.normal;
   const bool internal = !is_external(datum.kind);
@@ -417,7 +409,7 @@ ClockingWidthResult associate_clocking_width(const PlanDatum& datum, const Point
   // Stray-point screen (stray_points.hpp) on the residuals of each face's least-squares line
   // in A, positive out of the material: toward the centre plane for a slot, away from it for a
   // tab. The simulator rests on its contacts.
-  if (cloud.size() > stray_options.neighbours) {
+  if (prepare.stray_screen && cloud.size() > prepare.stray_points.neighbours) {
     Eigen::VectorXd residuals(count);
     for (const int face : {1, -1}) {
       const std::vector<Eigen::Index>& of = members[face > 0 ? 0 : 1];
@@ -435,7 +427,9 @@ ClockingWidthResult associate_clocking_width(const PlanDatum& datum, const Point
       for (std::size_t k = 0; k < of.size(); ++k)
         residuals(of[k]) = outward * centred.col(static_cast<Eigen::Index>(k)).dot(normal);
     }
-    result.stray_points = find_stray_points(cloud.points, residuals, stray_options);
+    PrepareOptions screen = prepare;
+    screen.residuals = std::move(residuals);
+    result.stray_points = prepare_feature(datum.kind, cloud, screen).record.stray_points;
     note_stray_points(notes, datum.label, result.stray_points,
                       {{suspect_contacts(result.stray_points, simulator_residuals,
                                          ContactSide::highest),
@@ -478,19 +472,23 @@ Eigen::Vector3d infer_material_side(const PlaneFit& a_least_squares,
   return positive > negative ? n : Eigen::Vector3d(-n);
 }
 
-DatumFrameResult establish_datum_frame(const std::vector<PlanDatum>& datums,
-                                       const std::vector<PointCloud>& clouds,
+DatumFrameResult establish_datum_frame(const std::vector<DatumInput>& datums,
                                        const Eigen::Vector3d& a_material_side,
                                        const DatumFrameOptions& options) {
-  if (datums.empty() || datums.size() != clouds.size() || datums.size() > 3)
+  if (datums.empty() || datums.size() > 3)
     throw std::invalid_argument("establish_datum_frame: " + std::to_string(datums.size()) +
-                                " datums and " + std::to_string(clouds.size()) +
-                                " point clouds; expected 1 to 3 of each, in the same order");
+                                " datums; expected 1 to 3 (A first, then B and C)");
   DatumFrameResult result;
   const FitOptions& fit = options.fit;
+  // Each datum feature is prepared (prepare.hpp) as soon as the element its screen needs is
+  // known: B's least-squares cylinder is held perpendicular to A, so A comes first.
+  PrepareOptions prepare;
+  prepare.stray_screen = options.stray_screen;
+  prepare.stray_points = options.stray_points;
+  const auto cloud_of = [&](std::size_t k) -> const PointCloud& { return datums[k].points; };
 
   // ---- primary: plane A
-  const PlanDatum& a_datum = datums[0];
+  const PlanDatum& a_datum = datums[0].plan;
   if (a_datum.kind != FeatureKind::plane)
     throw FitError(label_text(a_datum.label) + ": the primary datum must be a plane, not a " +
                    std::string(feature_kind_name(a_datum.kind)));
@@ -501,13 +499,13 @@ DatumFrameResult establish_datum_frame(const std::vector<PlanDatum>& datums,
   plane_fit.fixed_direction.reset();
   plane_fit.axis_hint.reset();
   result.a.plane = for_datum(a_datum.label, [&] {
-    return associate_plane(clouds[0].points, result.a.association, a_material_side, plane_fit);
+    return associate_plane(cloud_of(0).points, result.a.association, a_material_side, plane_fit);
   });
   const bool zone_known = result.a.association == PlaneAssociation::tangent_minimax ||
                           result.a.association == PlaneAssociation::minimum_zone;
   result.a.flatness = zone_known ? result.a.plane.residuals.form
                                  : for_datum(a_datum.label, [&] {
-                                     return fit_plane_minimum_zone(clouds[0].points, plane_fit)
+                                     return fit_plane_minimum_zone(cloud_of(0).points, plane_fit)
                                          .residuals.form;
                                    });
   const Eigen::Vector3d z = result.a.plane.normal;
@@ -515,12 +513,10 @@ DatumFrameResult establish_datum_frame(const std::vector<PlanDatum>& datums,
   // tangent plane rests on its highest points (residual 0); a minimax or minimum-zone plane is
   // set by the extremes on both sides; a least-squares plane has no contacts.
   result.a.stray_points = for_datum(a_datum.label, [&] {
-    if (clouds[0].size() <= options.stray_points.neighbours) return StrayPointReport{};
-    const PlaneFit least_squares = result.a.association == PlaneAssociation::least_squares
-                                       ? result.a.plane
-                                       : fit_plane_least_squares(clouds[0].points, plane_fit);
-    return find_stray_points(clouds[0].points, outward_plane_residuals(least_squares, z),
-                             options.stray_points);
+    PrepareOptions screen = prepare;
+    screen.fit = plane_fit;
+    screen.outward = z;
+    return prepare_feature(a_datum.kind, cloud_of(0), screen).record.stray_points;
   });
   {
     std::vector<std::size_t> contacts;
@@ -543,7 +539,7 @@ DatumFrameResult establish_datum_frame(const std::vector<PlanDatum>& datums,
   // ---- secondary: bore or pin B, locating the origin
   Eigen::Vector3d origin = result.a.plane.point.dot(z) * z;  // measurement origin projected on A
   if (datums.size() >= 2) {
-    const PlanDatum& b_datum = datums[1];
+    const PlanDatum& b_datum = datums[1].plan;
     if (b_datum.kind == FeatureKind::plane)
       throw FitError(label_text(b_datum.label) +
                      ": a secondary datum plane is not supported; B must be a bore or a pin");
@@ -553,7 +549,7 @@ DatumFrameResult establish_datum_frame(const std::vector<PlanDatum>& datums,
                      " cannot be datum B, which locates the origin with its axis; B must be a "
                      "bore or a pin");
     result.b = for_datum(b_datum.label, [&] {
-      return associate_size_datum(b_datum, clouds[1], result.a.plane, fit, options.stray_points,
+      return associate_size_datum(b_datum, cloud_of(1), result.a.plane, fit, prepare,
                                   result.notes);
     });
     origin = result.b->axis_on_a;
@@ -566,7 +562,7 @@ DatumFrameResult establish_datum_frame(const std::vector<PlanDatum>& datums,
   // ---- tertiary: C, clocking the rotation about z
   Eigen::Vector3d x;
   if (datums.size() == 3) {
-    const PlanDatum& c_datum = datums[2];
+    const PlanDatum& c_datum = datums[2].plan;
     if (c_datum.kind == FeatureKind::plane) {
       if (!c_datum.outward_normal || !(c_datum.outward_normal->norm() > 0.0))
         throw FitError(label_text(c_datum.label) +
@@ -574,8 +570,8 @@ DatumFrameResult establish_datum_frame(const std::vector<PlanDatum>& datums,
       const std::optional<Eigen::Vector3d> b_axis =
           result.b ? std::optional<Eigen::Vector3d>(result.b->axis_on_a) : std::nullopt;
       result.c_plane = for_datum(c_datum.label, [&] {
-        return associate_clocking_plane(c_datum, clouds[2], result.a.plane, b_axis, fit,
-                                        options.stray_points, result.notes);
+        return associate_clocking_plane(c_datum, cloud_of(2), result.a.plane, b_axis, fit,
+                                        prepare, result.notes);
       });
       x = clocked_x(in_plane_unit(result.c_plane->plane.normal, z), *c_datum.outward_normal, z);
       result.notes.push_back(
@@ -588,8 +584,8 @@ DatumFrameResult establish_datum_frame(const std::vector<PlanDatum>& datums,
         throw FitError(label_text(c_datum.label) +
                        ": its basic location (away from B's axis) is needed to clock the frame");
       result.c_width = for_datum(c_datum.label, [&] {
-        return associate_clocking_width(c_datum, clouds[2], result.a.plane, origin, fit,
-                                        options.stray_points, result.notes);
+        return associate_clocking_width(c_datum, cloud_of(2), result.a.plane, origin, fit,
+                                        prepare, result.notes);
       });
       x = clocked_x(in_plane_unit(result.c_width->centre_direction, z), *c_datum.basic_location,
                     z);
@@ -606,7 +602,7 @@ DatumFrameResult establish_datum_frame(const std::vector<PlanDatum>& datums,
         throw FitError(label_text(c_datum.label) +
                        ": its basic location (away from B's axis) is needed to clock the frame");
       result.c_feature = for_datum(c_datum.label, [&] {
-        return associate_size_datum(c_datum, clouds[2], result.a.plane, fit, options.stray_points,
+        return associate_size_datum(c_datum, cloud_of(2), result.a.plane, fit, prepare,
                                     result.notes);
       });
       const Eigen::Vector3d towards_c = result.c_feature->axis_on_a - origin;
@@ -616,8 +612,8 @@ DatumFrameResult establish_datum_frame(const std::vector<PlanDatum>& datums,
       const double b_form = result.b ? result.b->related_envelope.residuals.form : 0.0;
       const double band =
           std::max(b_form + result.c_feature->related_envelope.residuals.form,
-                   1e-9 * std::max(1.0, detail::data_scale(clouds[2].points,
-                                                          detail::centroid(clouds[2].points))));
+                   1e-9 * std::max(1.0, detail::data_scale(cloud_of(2).points,
+                                                          detail::centroid(cloud_of(2).points))));
       if (in_a.norm() <= band)
         throw FitError(label_text(c_datum.label) + ": its axis coincides with the axis of " +
                        (result.b ? label_text(result.b->label) : std::string("the origin")) +

@@ -385,27 +385,62 @@ void evaluate_in_zone(BoreResult& result, const PlanBore& bore, const FitOptions
   }
 }
 
-}  // namespace
+/// The plan's section gap for this bore, when it gives one, else the option's.
+double section_gap_of(const PlanBore& bore, const BoreEvaluationOptions& options) {
+  return bore.section_gap.value_or(options.section_gap);
+}
 
-
-BoreResult evaluate_bore(const PlanBore& bore, const Eigen::Matrix3Xd& points,
-                         const BoreEvaluationOptions& options) {
-  BoreResult result;
-  result.id = bore.id;
-  result.axis_method = bore.axis;
-  // The plan's section gap for this bore, when it gives one, else the option's.
-  const double section_gap = bore.section_gap.value_or(options.section_gap);
-  if (!(section_gap > 0.0))
+/// Checks what evaluation needs before any fit; returns the nominal direction.
+Eigen::Vector3d checked_bore(const PlanBore& bore, const Eigen::Matrix3Xd& points,
+                             const BoreEvaluationOptions& options) {
+  if (!(section_gap_of(bore, options) > 0.0))
     throw FitError("bore " + bore.id + ": the section gap must be positive");
   if (!points.allFinite())
     throw FitError("bore " + bore.id + ": the points contain a non-finite coordinate");
-  const Eigen::Vector3d w = nominal_direction(bore);
+  return nominal_direction(bore);
+}
+
+/// Free-axis fit options of a bore: started from and signed by its nominal direction `w`.
+FitOptions free_axis_options(const FitOptions& fit, const Eigen::Vector3d& w) {
+  FitOptions free_axis = fit;
+  free_axis.fixed_direction.reset();
+  free_axis.axis_hint = w;
+  return free_axis;
+}
+
+}  // namespace
+
+PrepareOptions bore_prepare_options(const PlanBore& bore, const BoreEvaluationOptions& options) {
+  PrepareOptions prepare;
+  prepare.stray_screen = options.stray_screen;
+  prepare.stray_points = options.stray_points;
+  prepare.fit = free_axis_options(options.fit, nominal_direction(bore));
+  return prepare;
+}
+
+BoreResult evaluate_bore(const PlanBore& bore, const Eigen::Matrix3Xd& points,
+                         const BoreEvaluationOptions& options) {
+  checked_bore(bore, points, options);
+  PointCloud cloud;
+  cloud.points = points;
+  const PreparedFeature prepared = for_bore(bore, [&] {
+    return prepare_feature(FeatureKind::bore, cloud, bore_prepare_options(bore, options));
+  });
+  return evaluate_bore(BoreInput{bore, prepared}, options);
+}
+
+BoreResult evaluate_bore(const BoreInput& input, const BoreEvaluationOptions& options) {
+  const PlanBore& bore = input.plan;
+  const Eigen::Matrix3Xd& points = input.prepared.cloud.points;
+  BoreResult result;
+  result.id = bore.id;
+  result.axis_method = bore.axis;
+  const Eigen::Vector3d w = checked_bore(bore, points, options);
+  const double section_gap = section_gap_of(bore, options);
   std::vector<std::string>& warnings = result.warnings;
 
   // ---- 1. Associated cylinders (fit_cylinder.hpp; docs/methods.md).
-  FitOptions free_axis = options.fit;
-  free_axis.fixed_direction.reset();
-  free_axis.axis_hint = w;
+  const FitOptions free_axis = free_axis_options(options.fit, w);
   FitOptions related = free_axis;
   related.fixed_direction = w;
   for_bore(bore, [&] {
@@ -424,13 +459,11 @@ BoreResult evaluate_bore(const PlanBore& bore, const Eigen::Matrix3Xd& points,
   take_warnings(warnings, "minimum material envelope", result.minimum_material.summary);
   take_warnings(warnings, "minimum-zone cylinder", result.minimum_zone.summary);
 
-  // ---- Prepare: stray-point screen (stray_points.hpp) on the least-squares residuals. The
-  // mating envelopes rest on extreme points, so a suspect point that is one of their contacts
-  // is named: the size (and, for this axis method, the axis) then rest on it. Nothing is
-  // removed; every figure below uses all points.
-  result.stray_points = for_bore(bore, [&] {
-    return find_stray_points(points, result.least_squares.residuals.values, options.stray_points);
-  });
+  // ---- Suspect points from the prepare record (prepare.hpp: the stray-point screen on the
+  // least-squares residuals). The mating envelopes rest on extreme points, so a suspect point
+  // that is one of their contacts is named: the size (and, for this axis method, the axis)
+  // then rest on it. Nothing is removed; every figure below uses all points.
+  result.stray_points = input.prepared.record.stray_points;
   if (!result.stray_points.points.empty()) {
     const auto contacts_of = [&](const CylinderFit& envelope) {
       return suspect_contacts(result.stray_points, envelope.residuals.values, ContactSide::lowest);
@@ -517,12 +550,17 @@ BoreResult evaluate_bore(const PlanBore& bore, const Eigen::Matrix3Xd& points,
   size.mating_envelope = mating_size;
   size.related_mating_envelope = result.related_envelope.diameter();
   size.minimum_material_envelope = minimum_material_size;
-  const TwoPointSizes local_sizes = two_point_sizes(points, ls_height, order, result.sections,
-                                                    ls_axis, section_plan.half_thickness);
+  const TwoPointSizes local_sizes =
+      options.two_point_sizes ? two_point_sizes(points, ls_height, order, result.sections, ls_axis,
+                                                section_plan.half_thickness)
+                              : TwoPointSizes{};
   size.two_point_count = local_sizes.count;
   size.two_point_min = local_sizes.min;
   size.two_point_max = local_sizes.max;
-  if (local_sizes.count == 0)
+  if (!options.two_point_sizes)
+    warnings.push_back("two-point sizes not computed (switched off in the evaluation options): "
+                       "the upper limit is checked with the minimum material envelope instead");
+  else if (local_sizes.count == 0)
     warnings.push_back("no opposed point pairs in any section: no two-point sizes; the upper "
                        "limit is checked with the minimum material envelope instead");
 

@@ -243,7 +243,7 @@ ZoneSummary solve_zone(ZoneModel& model, ZoneObjective objective, const ZoneOpti
     }
     // The polish keeps the programme's contacts, so its binding rows and multipliers still
     // describe the optimum.
-    assess_uniqueness(model, objective, options, programme, d, summary);
+    if (options.assess_ambiguity) assess_uniqueness(model, objective, options, programme, d, summary);
   }
   // The polish may have run earlier, but the message reports how the final element was found.
 
@@ -259,7 +259,8 @@ ZoneSummary solve_zone(ZoneModel& model, ZoneObjective objective, const ZoneOpti
                                    std::to_string(summary.ambiguity_programmes) +
                                    " linear programmes measured its ambiguity"
                              : "") +
-                        (summary.ambiguity_failure.empty() ? "" : "; ambiguity not assessed");
+                        (summary.ambiguity_failure.empty() ? "" : "; ambiguity not assessed") +
+                        (options.assess_ambiguity ? "" : "; uniqueness not assessed (off)");
       break;
     case ZoneStatus::iteration_limit:
       summary.message = "stopped at the iteration limit of " +
@@ -278,6 +279,7 @@ ZoneOptions zone_options(const FitOptions& options, double scale, double start_f
   z.max_iterations = options.max_iterations;
   z.step_tolerance = options.step_tolerance;
   z.scale = scale;
+  z.assess_ambiguity = options.assess_ambiguity;
   // The Chebyshev element lies within about the least-squares residual span of the start.
   z.initial_trust_radius = start_form > 0.0 ? start_form : 0.0;
   return z;

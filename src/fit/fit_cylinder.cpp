@@ -8,7 +8,8 @@
 // Speed (bench/bench_fit_cylinder.cpp): every iteration is one pass over the points that
 // accumulates J^T J (5x5) and J^T d directly, without storing J, in four SIMD lanes (AVX2 when
 // the processor has it, chosen at run time) and in fixed-size chunks summed in a fixed order, so
-// the result depends neither on the instruction set nor on how many threads ran the chunks. Starting axes are screened on a deterministic subsample and only
+// the result depends neither on the instruction set nor on how many threads (FitOptions::threads)
+// ran the chunks. Starting axes are screened on a deterministic subsample and only
 // the best is refined on all points.
 #include <Eigen/Eigenvalues>
 #include <algorithm>
@@ -17,7 +18,6 @@
 #include <limits>
 #include <optional>
 #include <string>
-#include <thread>
 #include <utility>
 #include <vector>
 
@@ -25,6 +25,7 @@
 #include "cylzone/fit/fit_cylinder.hpp"
 #include "fit/detail/circle_2d.hpp"
 #include "detail/fit_support.hpp"
+#include "detail/parallel.hpp"
 
 #if defined(__GNUC__) && defined(__x86_64__)
 #include <immintrin.h>
@@ -79,22 +80,26 @@ inline __attribute__((always_inline)) void local_lanes(const double* p, const Pa
 }
 
 // sqrt of each lane: a single instruction through the intrinsics, independent of whether the
-// compiler must keep errno for std::sqrt (-fno-math-errno).
+// compiler must keep errno for std::sqrt (-fno-math-errno). The lanes go in and out by
+// reference: Clang refuses a 32-byte vector passed by value to a function compiled without
+// AVX (the baseline), as that would change the calling convention.
 #if CYLZONE_X86_LANES
 struct BaselineSqrt {
-  Lanes operator()(Lanes s) const {
+  void operator()(const Lanes& s, Lanes& out) const {
     const __m128d lo = _mm_sqrt_pd(__m128d{s[0], s[1]});
     const __m128d hi = _mm_sqrt_pd(__m128d{s[2], s[3]});
-    return Lanes{lo[0], lo[1], hi[0], hi[1]};
+    out = Lanes{lo[0], lo[1], hi[0], hi[1]};
   }
 };
 struct Avx2Sqrt {
-  __attribute__((target("avx2"))) Lanes operator()(Lanes s) const { return _mm256_sqrt_pd(s); }
+  __attribute__((target("avx2"))) void operator()(const Lanes& s, Lanes& out) const {
+    out = _mm256_sqrt_pd(s);
+  }
 };
 #else
 struct BaselineSqrt {
-  Lanes operator()(Lanes s) const {
-    return Lanes{std::sqrt(s[0]), std::sqrt(s[1]), std::sqrt(s[2]), std::sqrt(s[3])};
+  void operator()(const Lanes& s, Lanes& out) const {
+    out = Lanes{std::sqrt(s[0]), std::sqrt(s[1]), std::sqrt(s[2]), std::sqrt(s[3])};
   }
 };
 #endif
@@ -114,7 +119,8 @@ inline __attribute__((always_inline)) Sums accumulate_lanes(const double* xyz, E
   for (; i + 4 <= end; i += 4) {
     Lanes x, y, z;
     local_lanes(xyz + 3 * i, f, x, y, z);
-    const Lanes rho = lane_sqrt(x * x + y * y);
+    Lanes rho;
+    lane_sqrt(x * x + y * y, rho);
     const Lanes inv = 1.0 / rho;
     const Lanes d = rho - r;
     const Lanes j0 = -x * inv, j1 = -y * inv;
@@ -183,7 +189,9 @@ inline __attribute__((always_inline)) std::pair<double, double> finish_lanes(
   for (; i + 4 <= end; i += 4) {
     Lanes x, y, z;
     local_lanes(xyz + 3 * i, f, x, y, z);
-    const Lanes d = lane_sqrt(x * x + y * y) - r;
+    Lanes rho;
+    lane_sqrt(x * x + y * y, rho);
+    const Lanes d = rho - r;
     for (int l = 0; l < 4; ++l) {
       residuals[i + l] = d[l];
       coverage.add(x[l], y[l]);
@@ -240,39 +248,21 @@ LaneKernels select_kernels() {
 /// Points are summed in chunks of this many; chunk sums are added in order (deterministic and,
 /// as a pairwise-like summation, more accurate than one long running sum).
 constexpr Eigen::Index chunk_points = 8192;
-/// Below this many points a pass runs on the calling thread only (a thread costs ~50 us).
+/// Below this many points a pass runs on the calling thread only (a thread costs ~50 us);
+/// above it, on up to FitOptions::threads (the chunks, and so the result, stay the same).
 constexpr Eigen::Index threaded_points = 200000;
 
-unsigned pass_threads(Eigen::Index n) {
-  if (n < threaded_points) return 1;
-  return std::max(1u, std::min(2u, std::thread::hardware_concurrency()));
-}
-
-/// Runs work(thread, first_chunk, last_chunk) over `chunks` chunks on `threads` threads, in
-/// contiguous blocks of chunks; the caller combines per-chunk results in chunk order.
-template <class Work>
-void for_chunks(Eigen::Index chunks, unsigned threads, Work&& work) {
-  if (threads <= 1 || chunks <= 1) {
-    work(0u, Eigen::Index(0), chunks);
-    return;
-  }
-  const Eigen::Index per = (chunks + threads - 1) / threads;
-  std::vector<std::thread> workers;
-  for (unsigned t = 1; t < threads; ++t)
-    workers.emplace_back([&work, t, per, chunks] {
-      work(t, std::min(chunks, t * per), std::min(chunks, (t + 1) * per));
-    });
-  work(0u, Eigen::Index(0), std::min(chunks, per));
-  for (auto& w : workers) w.join();
+std::size_t pass_threads(Eigen::Index n, const FitOptions& options) {
+  return n < threaded_points ? 1 : std::max<std::size_t>(1, options.threads);
 }
 
 /// One Gauss-Newton pass over a point set, with its chunk buffer allocated once.
 class NormalEquations {
  public:
-  explicit NormalEquations(const Eigen::Matrix3Xd& points)
+  NormalEquations(const Eigen::Matrix3Xd& points, const FitOptions& options)
       : points_(points),
         chunk_sums_(static_cast<std::size_t>((points.cols() + chunk_points - 1) / chunk_points)),
-        threads_(pass_threads(points.cols())),
+        threads_(pass_threads(points.cols(), options)),
         accumulate_(select_kernels().accumulate) {}
 
   /// Sum of squares at `state` (centred coordinates about `centroid`), J^T J and J^T d.
@@ -281,13 +271,11 @@ class NormalEquations {
     const PassFrame frame{detail::basis_from_direction(state.direction), centroid + state.point,
                           state.radius};
     const Eigen::Index n = points_.cols();
-    for_chunks(static_cast<Eigen::Index>(chunk_sums_.size()), threads_,
-               [&](unsigned, Eigen::Index first, Eigen::Index last) {
-                 for (Eigen::Index c = first; c < last; ++c)
-                   chunk_sums_[static_cast<std::size_t>(c)] = accumulate_(
-                       points_.data(), c * chunk_points, std::min(n, (c + 1) * chunk_points),
-                       frame);
-               });
+    detail::parallel_for(chunk_sums_.size(), threads_, [&](std::size_t chunk, std::size_t) {
+      const auto c = static_cast<Eigen::Index>(chunk);
+      chunk_sums_[chunk] =
+          accumulate_(points_.data(), c * chunk_points, std::min(n, (c + 1) * chunk_points), frame);
+    });
     Sums s{};
     for (const Sums& part : chunk_sums_)
       for (int k = 0; k < sum_count; ++k) s[k] += part[k];
@@ -303,7 +291,7 @@ class NormalEquations {
  private:
   const Eigen::Matrix3Xd& points_;
   std::vector<Sums> chunk_sums_;
-  unsigned threads_;
+  std::size_t threads_;
   AccumulateFunction accumulate_;
 };
 
@@ -327,7 +315,7 @@ struct GaussNewtonRun {
 
 GaussNewtonRun refine(const Eigen::Matrix3Xd& points, const Eigen::Vector3d& centroid,
                       AxisState start, double scale, const FitOptions& options) {
-  NormalEquations equations(points);
+  NormalEquations equations(points, options);
   auto evaluate = [&](const AxisState& s, Matrix5d& jtj, Vector5d& jtr) {
     return equations(s, centroid, jtj, jtr);
   };
@@ -412,23 +400,25 @@ struct FinalPass {
 };
 
 FinalPass final_pass(const Eigen::Matrix3Xd& points, const Axis& axis, const Eigen::Matrix3d& basis,
-                     double radius) {
+                     double radius, const FitOptions& options) {
   FinalPass f;
   const Eigen::Index n = points.cols();
   f.residuals.resize(n);
   const Eigen::Index chunks = (n + chunk_points - 1) / chunk_points;
   std::vector<std::pair<double, double>> z_range(static_cast<std::size_t>(chunks));
-  const unsigned threads = pass_threads(n);
-  std::vector<detail::ArcCoverage> coverage(threads, detail::ArcCoverage(static_cast<std::size_t>(n)));
+  const std::size_t workers =
+      detail::worker_count(static_cast<std::size_t>(chunks), pass_threads(n, options));
+  // Coverage keeps a per-bin min/max, which any grouping of the points gives alike: one per
+  // worker, merged.
+  std::vector<detail::ArcCoverage> coverage(workers, detail::ArcCoverage(static_cast<std::size_t>(n)));
   const PassFrame frame{basis, axis.point, radius};
   const FinishFunction finish = select_kernels().finish;
-  for_chunks(chunks, threads, [&](unsigned t, Eigen::Index first, Eigen::Index last) {
-    for (Eigen::Index c = first; c < last; ++c)
-      z_range[static_cast<std::size_t>(c)] =
-          finish(points.data(), c * chunk_points, std::min(n, (c + 1) * chunk_points), frame,
-                 f.residuals.data(), coverage[t]);
+  detail::parallel_for(static_cast<std::size_t>(chunks), workers, [&](std::size_t chunk, std::size_t w) {
+    const auto c = static_cast<Eigen::Index>(chunk);
+    z_range[chunk] = finish(points.data(), c * chunk_points, std::min(n, (c + 1) * chunk_points),
+                            frame, f.residuals.data(), coverage[w]);
   });
-  for (unsigned t = 1; t < threads; ++t) coverage[0].merge(coverage[t]);
+  for (std::size_t w = 1; w < workers; ++w) coverage[0].merge(coverage[w]);
   f.coverage_deg = coverage[0].degrees();
   f.extent_min = std::numeric_limits<double>::infinity();
   f.extent_max = -f.extent_min;
@@ -447,7 +437,7 @@ CylinderFit make_result(const Eigen::Matrix3Xd& points, const Eigen::Vector3d& c
                                     options.axis_hint);
   fit.radius = state.radius;
   const Eigen::Matrix3d basis = detail::basis_from_direction(fit.axis.direction);
-  FinalPass pass = final_pass(points, fit.axis, basis, fit.radius);
+  FinalPass pass = final_pass(points, fit.axis, basis, fit.radius, options);
   fit.extent_min = pass.extent_min;
   fit.extent_max = pass.extent_max;
   fit.residuals = detail::make_residuals(std::move(pass.residuals));
@@ -596,7 +586,7 @@ CylinderFit fit_fixed_direction(const Eigen::Matrix3Xd& points, const FitOptions
   fit.axis = detail::canonical_axis(centroid + basis.leftCols<2>() * circle.centre, w, centroid,
                                     options.axis_hint);
   fit.radius = circle.radius;
-  FinalPass pass = final_pass(points, fit.axis, basis, fit.radius);
+  FinalPass pass = final_pass(points, fit.axis, basis, fit.radius, options);
   fit.extent_min = pass.extent_min;
   fit.extent_max = pass.extent_max;
   fit.residuals = detail::make_residuals(std::move(pass.residuals));

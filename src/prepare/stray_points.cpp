@@ -1,10 +1,8 @@
 // Stray-point screen: local excess over the median of the k nearest neighbours, judged against
 // the normal-consistent MAD of all excesses. stray_points.hpp states the criterion and its
-// sources. nanoflann supplies the KD-tree; it stays in this file.
+// sources; the neighbours come from NeighbourIndex (neighbour_index.hpp).
 
 #include "cylzone/prepare/stray_points.hpp"
-
-#include <nanoflann.hpp>
 
 #include <algorithm>
 #include <cmath>
@@ -12,11 +10,12 @@
 #include <limits>
 #include <stdexcept>
 #include <string>
-#include <thread>
 #include <vector>
 
 #include "cylzone/core/errors.hpp"
+#include "cylzone/prepare/neighbour_index.hpp"
 #include "detail/fit_support.hpp"
+#include "detail/parallel.hpp"
 #include "prepare/detail/stray_point_message.hpp"
 
 namespace cylzone {
@@ -25,83 +24,6 @@ namespace {
 /// 1 / Phi^-1(3/4): makes the MAD a consistent estimate of a normal standard deviation
 /// (Rousseeuw & Croux 1993, from memory; common practice).
 constexpr double mad_to_sigma = 1.4826;
-
-/// nanoflann dataset adaptor over the caller's 3 x n matrix: reads the columns in place, so the
-/// tree holds only its index permutation, never a copy of the points.
-class ColumnPoints {
- public:
-  explicit ColumnPoints(const Eigen::Matrix3Xd& points) : data_(points.data()), n_(points.cols()) {}
-  std::size_t kdtree_get_point_count() const { return static_cast<std::size_t>(n_); }
-  double kdtree_get_pt(std::uint32_t i, std::size_t dim) const {
-    return data_[3 * static_cast<std::size_t>(i) + dim];
-  }
-  // No precomputed bounding box: nanoflann computes it while building.
-  template <class Box>
-  bool kdtree_get_bbox(Box&) const {
-    return false;
-  }
-
- private:
-  const double* data_;
-  Eigen::Index n_;
-};
-
-using Metric = nanoflann::L2_Simple_Adaptor<double, ColumnPoints, double, std::uint32_t>;
-using Tree = nanoflann::KDTreeSingleIndexAdaptor<Metric, ColumnPoints, 3, std::uint32_t>;
-
-/// The `capacity` nearest points in the strict order (squared distance, index), so that ties in
-/// distance go to the lower index whatever order the tree visits them in. nanoflann admits a
-/// candidate only when its distance is below worstDist() and skips a subtree farther than
-/// worstDist(); once full, worstDist() is therefore just above the current k-th distance, so
-/// candidates at exactly that distance are still seen and decided by index.
-class OrderedNearest {
- public:
-  using DistanceType = double;
-  using IndexType = std::uint32_t;
-  using CountType = std::size_t;
-
-  explicit OrderedNearest(std::size_t capacity)
-      : capacity_(capacity), distance_(capacity), index_(capacity) {}
-
-  void clear() {
-    count_ = 0;
-    worst_ = std::numeric_limits<double>::infinity();
-  }
-  std::size_t size() const { return count_; }
-  bool full() const { return count_ == capacity_; }
-  double worstDist() const { return worst_; }
-  std::uint32_t index(std::size_t k) const { return index_[k]; }
-
-  bool addPoint(double distance, std::uint32_t index) {
-    if (full() && !before(distance, index, distance_[capacity_ - 1], index_[capacity_ - 1]))
-      return true;
-    std::size_t k = full() ? capacity_ - 1 : count_++;
-    for (; k > 0 && before(distance, index, distance_[k - 1], index_[k - 1]); --k) {
-      distance_[k] = distance_[k - 1];
-      index_[k] = index_[k - 1];
-    }
-    distance_[k] = distance;
-    index_[k] = index;
-    if (full()) {
-      // At least the next double above the k-th distance (0 included), without a libm call.
-      const double d = distance_[capacity_ - 1];
-      worst_ = d + d * std::numeric_limits<double>::epsilon() +
-               std::numeric_limits<double>::denorm_min();
-    }
-    return true;  // keep searching: the search itself stops at worstDist()
-  }
-
- private:
-  static bool before(double d1, std::uint32_t i1, double d2, std::uint32_t i2) {
-    return d1 < d2 || (d1 == d2 && i1 < i2);
-  }
-
-  std::size_t capacity_;
-  std::size_t count_ = 0;
-  double worst_ = std::numeric_limits<double>::infinity();
-  std::vector<double> distance_;
-  std::vector<std::uint32_t> index_;
-};
 
 /// Median of `values` (reordered in place); the mean of the two middle values for an even
 /// count. `values` must not be empty.
@@ -123,37 +45,24 @@ double median_in_place(std::vector<double>& values) {
   return 0.5 * (lower + upper);
 }
 
-/// Leaf size of the KD-tree: the screen's time is flat (within 5%) from 12 to 32 (measured).
-constexpr std::size_t leaf_points = 16;
-/// Below this many points the screen runs on the calling thread only (a thread costs ~50 us,
-/// the screen ~0.65 us per point).
-constexpr std::size_t threaded_points = 4096;
-
-unsigned screening_threads(std::size_t n) {
-  if (n < threaded_points) return 1;
-  return std::max(1u, std::min(2u, std::thread::hardware_concurrency()));
-}
+/// Points per chunk of the screen's visit: fixed, so the chunks (and the result, which does not
+/// depend on them anyway) are the same for any thread count; below two chunks (a thread costs
+/// ~50 us, the screen ~0.65 us per point) it runs on the calling thread only.
+constexpr std::size_t chunk_points = 4096;
 
 /// excess[i] = residual_i - median of the residuals of its k nearest neighbours, for the points
 /// i in [first, last).
-void local_excesses(const Tree& tree, const Eigen::Matrix3Xd& points,
-                    const Eigen::VectorXd& residuals, std::size_t k, const std::uint32_t* first,
-                    const std::uint32_t* last, std::vector<double>& excess) {
-  // Each query returns the point itself too (distance 0), hence k + 1.
-  OrderedNearest nearest(k + 1);
-  std::vector<double> local(k);
+void local_excesses(const NeighbourIndex& index, const Eigen::VectorXd& residuals, std::size_t k,
+                    const std::uint32_t* first, const std::uint32_t* last,
+                    std::vector<double>& excess) {
+  NeighbourIndex::Query query(k);
+  std::vector<double> local;
+  local.reserve(k);
   for (const std::uint32_t* at = first; at != last; ++at) {
     const Eigen::Index i = static_cast<Eigen::Index>(*at);
-    nearest.clear();
-    tree.findNeighbors(nearest, points.col(i).data(), nanoflann::SearchParams());
-    // The point itself is normally first; with k + 1 or more coincident points of lower index
-    // it is absent, and then the first k are all at distance 0 from it anyway.
-    std::size_t m = 0;
-    for (std::size_t j = 0; j < nearest.size() && m < k; ++j) {
-      const std::uint32_t other = nearest.index(j);
-      if (static_cast<Eigen::Index>(other) == i) continue;
-      local[m++] = residuals(other);
-    }
+    local.clear();
+    for (const std::uint32_t other : query.of_point(index, static_cast<std::size_t>(i)))
+      local.push_back(residuals(other));
     excess[static_cast<std::size_t>(i)] = residuals(i) - median_in_place(local);
   }
 }
@@ -190,26 +99,20 @@ StrayPointReport find_stray_points(const Eigen::Matrix3Xd& points, const Eigen::
   const std::size_t k = options.neighbours;
   if (static_cast<std::size_t>(n) <= k) return report;  // fewer than k + 1 points
 
-  const ColumnPoints dataset(points);
-  const Tree tree(3, dataset, nanoflann::KDTreeSingleIndexAdaptorParams(leaf_points));
+  const NeighbourIndex index(points);
   std::vector<double> excess(static_cast<std::size_t>(n));
   // Points are visited in the tree's own order (its index permutation, leaf by leaf), so
   // consecutive queries touch the same nodes whatever the input order: a shuffled cloud of 10^6
   // points costs about 1.5x a scan-ordered one instead of 5x in input order (measured,
-  // bench/bench_stray_points.cpp). Each excess depends only on the data, so
-  // splitting the visit between threads changes no result.
-  const std::vector<std::uint32_t>& order = tree.vAcc;
-  const unsigned threads = screening_threads(static_cast<std::size_t>(n));
-  const std::size_t per = (order.size() + threads - 1) / threads;
-  const auto work = [&](std::size_t first, std::size_t last) {
-    local_excesses(tree, points, residuals, k, order.data() + first, order.data() + last, excess);
-  };
-  std::vector<std::thread> workers;
-  for (unsigned t = 1; t < threads; ++t)
-    workers.emplace_back(work, std::min(order.size(), t * per),
-                         std::min(order.size(), (t + 1) * per));
-  work(0, std::min(order.size(), per));
-  for (std::thread& w : workers) w.join();
+  // bench/bench_stray_points.cpp). Each excess depends only on the data, so splitting the
+  // visit into chunks and the chunks between threads changes no result.
+  const std::vector<std::uint32_t>& order = index.locality_order();
+  const std::size_t chunks = (order.size() + chunk_points - 1) / chunk_points;
+  detail::parallel_for(chunks, options.threads, [&](std::size_t c, std::size_t) {
+    const std::size_t first = c * chunk_points;
+    const std::size_t last = std::min(order.size(), first + chunk_points);
+    local_excesses(index, residuals, k, order.data() + first, order.data() + last, excess);
+  });
 
   std::vector<double> spread = excess;
   const double centre = median_in_place(spread);

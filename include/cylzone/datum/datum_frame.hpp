@@ -124,8 +124,17 @@ struct ClockingWidthResult {
 struct DatumFrameOptions {
   /// Overrides datum A's association (used for the sensitivity study).
   std::optional<PlaneAssociation> a_association;
-  FitOptions fit;
+  FitOptions fit;  ///< its `threads` is the thread option of the frame's fits and screens
+  /// The prepare stage of each datum feature (prepare.hpp): the stray-point screen, on or off.
+  bool stray_screen = true;
   StrayPointOptions stray_points;
+};
+
+/// One datum feature's specification paired with its points (measurement coordinates, as
+/// loaded). Both are referenced, not copied: they must outlive the call.
+struct DatumInput {
+  const PlanDatum& plan;
+  const PointCloud& points;
 };
 
 struct DatumFrameResult {
@@ -148,13 +157,14 @@ struct DatumFrameResult {
 Eigen::Vector3d infer_material_side(const PlaneFit& a_least_squares,
                                     const std::vector<const Eigen::Matrix3Xd*>& bore_points);
 
-/// Builds the frame. `datums` and `clouds` are parallel (A first, then B and C when present);
-/// `a_material_side` is the direction into the material for A in measurement coordinates (given
-/// in the plan or inferred). Throws FitError naming the datum for degenerate datum features
-/// (e.g. "datum B: axis parallel to A ...", or a fit's own message prefixed "datum B: "), and
-/// std::invalid_argument when `datums` and `clouds` differ in length or hold more than three.
-DatumFrameResult establish_datum_frame(const std::vector<PlanDatum>& datums,
-                                       const std::vector<PointCloud>& clouds,
+/// Builds the frame from `datums` (A first, then B and C when present); `a_material_side` is
+/// the direction into the material for A in measurement coordinates (given in the plan or
+/// inferred). Each datum feature is prepared (prepare.hpp) inside, as soon as the element its
+/// screen is judged against is known (B's cylinder is held perpendicular to A); its record is
+/// the `stray_points` of its result. No IO, no state. Throws FitError naming the datum for
+/// degenerate datum features (e.g. "datum B: axis parallel to A ...", or a fit's own message
+/// prefixed "datum B: "), and std::invalid_argument for no datum or more than three.
+DatumFrameResult establish_datum_frame(const std::vector<DatumInput>& datums,
                                        const Eigen::Vector3d& a_material_side,
                                        const DatumFrameOptions& options = {});
 

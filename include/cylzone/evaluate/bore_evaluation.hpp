@@ -15,6 +15,7 @@
 #include "cylzone/fit/fit_cylinder.hpp"
 #include "cylzone/plan/plan.hpp"
 #include "cylzone/fit/sections.hpp"
+#include "cylzone/prepare/prepare.hpp"
 #include "cylzone/prepare/stray_points.hpp"
 
 namespace cylzone {
@@ -121,7 +122,8 @@ struct BoreResult {
   CylinderFit minimum_zone;       ///< cylindricity
   std::vector<SectionCircle> sections;  ///< LS circles at the probed levels (median line)
   /// Suspect points among the bore's points, screened against the least-squares cylinder's
-  /// residuals (stray_points.hpp). Reported only: every figure uses all points.
+  /// residuals (stray_points.hpp) when it was prepared (prepare.hpp): the prepare record.
+  /// Reported only: every figure uses all points.
   StrayPointReport stray_points;
   TiltResult tilt;
   SizeResult size;
@@ -145,11 +147,33 @@ struct BoreEvaluationOptions {
   /// levels; scanned clouds without levels are cut into slabs of this thickness.
   double section_gap = 0.5;
   std::size_t min_section_points = 6;
+  /// Two-point (actual local) sizes. Off (e.g. Monte Carlo trials of position only), none is
+  /// computed and the upper size limit is checked with the minimum material envelope, with a
+  /// warning saying so.
+  bool two_point_sizes = true;
+  /// The prepare stage evaluate_bore(plan, points) runs (bore_prepare_options).
+  bool stray_screen = true;
   StrayPointOptions stray_points;
 };
 
-/// Evaluates one bore. `points` are in the datum frame (the bore's points transformed by the
-/// frame). Throws FitError when the points cannot determine the bore.
+/// One bore's specification paired with its prepared points, in the datum frame. Both are
+/// referenced, not copied: they must outlive the call.
+struct BoreInput {
+  const PlanBore& plan;
+  const PreparedFeature& prepared;
+};
+
+/// Evaluates one prepared bore; the prepare record's suspect points are checked against the
+/// mating envelopes' contacts and reported. No IO, no state. Throws FitError when the points
+/// cannot determine the bore.
+BoreResult evaluate_bore(const BoreInput& bore, const BoreEvaluationOptions& options = {});
+
+/// The prepare options of a bore (prepare.hpp): its least-squares cylinder with a free axis
+/// started from and signed by the nominal direction, the screen as `options` say. Throws
+/// FitError for a nominal direction of zero length or parallel to A.
+PrepareOptions bore_prepare_options(const PlanBore& bore, const BoreEvaluationOptions& options);
+
+/// Prepares `points` (datum frame) with bore_prepare_options and evaluates them.
 BoreResult evaluate_bore(const PlanBore& bore, const Eigen::Matrix3Xd& points,
                          const BoreEvaluationOptions& options = {});
 

@@ -24,6 +24,8 @@
 #include <string_view>
 #include <vector>
 
+#include "cylzone/core/threads.hpp"
+
 namespace cylzone {
 
 /// How the ideal element is associated with the points.
@@ -58,6 +60,13 @@ struct FitOptions {
   bool use_point_vectors = true;
   /// A warning is added when the points cover less than this angle around a circle or cylinder.
   double coverage_warning_deg = 180.0;
+  /// Chebyshev fits (minimum zone, mating envelopes): when the optimum is not proven unique by
+  /// its contacts, walk the near-optimal set to measure how far the element can move
+  /// (docs/chebyshev.md). Off, the element is the same and `ambiguity` stays 0 (not assessed):
+  /// for repeated trials (Monte Carlo) that need the element only.
+  bool assess_ambiguity = true;
+  /// Threads a fit may run at once (core/threads.hpp); results do not depend on it.
+  std::size_t threads = hardware_threads();
 };
 
 /// Ceres-style summary: what happened, in one line, plus warnings a user must see.

@@ -32,6 +32,8 @@ struct ReadOptions {
 /// normals only and gives no vectors. Coordinates keep double precision in PLY (any encoding),
 /// OBJ, ASCII OFF and ASCII STL; binary STL and binary OFF hold float32. An OFF file must have
 /// the .off extension, and OFF files with '#' comments are refused (OpenMesh misreads them).
+///
+/// read_points is load() then parse_points() (load.hpp): the file is read once.
 PointCloud read_points(const std::filesystem::path& file, const ReadOptions& options = {});
 
 /// Parses delimited text already in memory. `source` names it in messages.

@@ -26,12 +26,14 @@
 /// variant of the Hampel identifier (a local median reference, a MAD scale; common practice)
 /// with the scale taken over all points, so a smooth, spike-free surface sets it.
 ///
-/// The neighbours are found with a KD-tree (Bentley, Commun. ACM 18 (1975) 509-517), built
-/// over the caller's matrix without copying it: O(n log n) in all.
+/// The neighbours are found with a KD-tree (Bentley, Commun. ACM 18 (1975) 509-517; see
+/// NeighbourIndex), built over the caller's matrix without copying it: O(n log n) in all.
 
 #include <Eigen/Core>
 #include <cstddef>
 #include <vector>
+
+#include "cylzone/core/threads.hpp"
 
 namespace cylzone {
 
@@ -39,6 +41,8 @@ struct StrayPointOptions {
   std::size_t neighbours = 8;  ///< k nearest neighbours (3D) forming a point's local reference
   double threshold = 6.0;      ///< flag when |excess| > threshold x robust scale ...
   double floor = 0.0005;       ///< ... and > this absolute value, mm (so perfect data flags nothing)
+  /// Threads the screen may run at once (core/threads.hpp); the report does not depend on it.
+  std::size_t threads = hardware_threads();
 };
 
 /// One flagged point.

@@ -207,6 +207,8 @@ struct ZoneOptions {
   /// tolerance.
   double ambiguity_box = 1e-6;
   double ambiguity_box_limit = 0.1;
+  /// Off: uniqueness is neither proven nor measured (FitOptions::assess_ambiguity).
+  bool assess_ambiguity = true;
 };
 
 enum class ZoneStatus { converged, iteration_limit, unbounded };

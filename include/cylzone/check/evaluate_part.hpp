@@ -1,0 +1,93 @@
+#pragma once
+/// \file evaluate_part.hpp
+/// The evaluation core: from a plan and its loaded inputs (part_inputs.hpp) to every datum and
+/// bore result, with no file IO, no printing and no state. It prepares every feature
+/// (prepare.hpp), builds the datum reference frame, evaluates every bore over its full depth
+/// and applies the datum reference's mobility. Deterministic and re-entrant: the same inputs
+/// and options give the same bits, for any `threads`, from any number of callers at once. A
+/// Monte Carlo study calls it once per trial on perturbed inputs held in memory.
+
+#include <Eigen/Core>
+#include <cstddef>
+#include <optional>
+#include <string>
+#include <vector>
+
+#include "cylzone/check/part_inputs.hpp"
+#include "cylzone/core/threads.hpp"
+#include "cylzone/datum/datum_frame.hpp"
+#include "cylzone/evaluate/bore_evaluation.hpp"
+#include "cylzone/evaluate/datum_mobility.hpp"
+#include "cylzone/plan/plan.hpp"
+
+namespace cylzone {
+
+/// What to compute beyond the figures themselves. Default: everything. A trial that needs only
+/// positions and sizes turns off what it does not read.
+struct EvaluationProfile {
+  /// Measure how far each Chebyshev fit (mating envelopes, minimum zone, minimum-zone flatness)
+  /// can move when its optimum is not proven unique (FitOptions::assess_ambiguity).
+  bool ambiguity = true;
+  /// Run the stray-point screen of every datum and bore (prepare.hpp).
+  bool stray_screen = true;
+  /// Two-point (actual local) sizes of every bore (BoreEvaluationOptions::two_point_sizes).
+  bool two_point_sizes = true;
+};
+
+struct EvaluationOptions {
+  /// Fits, sections and the stray-point screen's parameters, for datums and bores alike. Its
+  /// `fit.threads`, `fit.assess_ambiguity`, `two_point_sizes`, `stray_screen` and
+  /// `stray_points.threads` are set from `threads` and `profile` by evaluate_part.
+  BoreEvaluationOptions bore;
+  MobilityOptions mobility;
+  EvaluationProfile profile;
+  /// The one thread option: every parallel loop of the evaluation (across bores, inside the
+  /// fits, in the screen) runs on at most this many threads. Results do not depend on it.
+  std::size_t threads = hardware_threads();
+};
+
+struct PartEvaluation {
+  DatumFrameResult datums;
+  std::vector<BoreResult> bores;  ///< plan order
+  /// Direction into the material at A (measurement coordinates): the plan's or inferred.
+  Eigen::Vector3d material_side = Eigen::Vector3d::Zero();
+  std::vector<std::string> warnings;
+};
+
+/// Evaluates the part. `inputs` must hold one cloud per plan datum and per plan bore, in plan
+/// order (as load_part_inputs gives them; they may also be built in memory). Throws
+/// InputError when the plan has no datum A plane, FitError (with the feature named) for
+/// geometry that cannot be evaluated, and std::invalid_argument when the clouds do not match
+/// the plan.
+PartEvaluation evaluate_part(const PartPlan& plan, const PartInputs& inputs,
+                             const EvaluationOptions& options = {});
+
+/// Position and perpendicularity of a bore when datum A is associated by another method: shows
+/// when the datum method, not the part, explains a difference between software.
+struct AssociationSensitivity {
+  PlaneAssociation association = PlaneAssociation::tangent_least_squares;
+  double position = 0.0;          ///< decision-basis position value under that association
+  double perpendicularity = 0.0;
+  std::optional<Verdict> position_verdict;          ///< under that association
+  std::optional<Verdict> perpendicularity_verdict;
+};
+
+struct BoreSensitivity {
+  std::string bore_id;
+  std::vector<AssociationSensitivity> rows;  ///< one per association, the plan's first
+  double position_spread = 0.0;        ///< max - min over the rows
+  double perpendicularity_spread = 0.0;
+};
+
+/// The datum-association sensitivity study, on top of an evaluation: the frame is built again
+/// with every other association of A and each bore of `nominal` is moved into it (its fits are
+/// invariant under rigid motions, so none is refitted), then the datum mobility is applied
+/// again. One entry per bore, plan order; the plan's own association is the first row; each
+/// row's verdicts are decided under `rule` (decide stage). No IO.
+std::vector<BoreSensitivity> association_sensitivity(const PartPlan& plan,
+                                                     const PartInputs& inputs,
+                                                     const PartEvaluation& nominal,
+                                                     const EvaluationOptions& options = {},
+                                                     const DecisionRule& rule = {});
+
+}  // namespace cylzone

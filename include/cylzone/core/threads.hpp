@@ -1,0 +1,18 @@
+#pragma once
+/// \file threads.hpp
+/// The default of every `threads` option. Work is split into chunks fixed by the data, never by
+/// the thread count, and chunk results are combined in chunk order, so any thread count gives
+/// bit-identical results; `threads` only sets how many run at once.
+
+#include <algorithm>
+#include <cstddef>
+#include <thread>
+
+namespace cylzone {
+
+/// The machine's hardware threads (std::thread::hardware_concurrency()), at least 1.
+inline std::size_t hardware_threads() noexcept {
+  return std::max<std::size_t>(1, std::thread::hardware_concurrency());
+}
+
+}  // namespace cylzone

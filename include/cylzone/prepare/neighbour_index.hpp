@@ -1,0 +1,63 @@
+#pragma once
+/// \file neighbour_index.hpp
+/// Nearest spatial neighbours of the points of one cloud, through a KD-tree (Bentley, Commun.
+/// ACM 18 (1975) 509-517) built once and queried many times: the stray-point screen uses it, and
+/// any later preparation step that needs neighbourhoods (outlier rejection, segmentation) takes
+/// the same index. nanoflann implements the tree and stays behind this header.
+///
+/// Neighbours come in a strict order, (Euclidean distance, index), so that ties in distance go
+/// to the lower index whatever order the tree visits them in: results depend on the data only.
+
+#include <Eigen/Core>
+#include <cstddef>
+#include <cstdint>
+#include <memory>
+#include <vector>
+
+namespace cylzone {
+
+class NeighbourIndex {
+ public:
+  /// Indexes the columns of `points` (3 x n, finite, n < 2^32) in place, without copying them:
+  /// `points` must stay alive and unchanged while the index is used. O(n log n).
+  explicit NeighbourIndex(const Eigen::Matrix3Xd& points);
+  ~NeighbourIndex();
+  NeighbourIndex(NeighbourIndex&&) noexcept;
+  NeighbourIndex(const NeighbourIndex&) = delete;
+  NeighbourIndex& operator=(const NeighbourIndex&) = delete;
+  NeighbourIndex& operator=(NeighbourIndex&&) = delete;
+
+  std::size_t size() const noexcept;
+
+  /// The points in the tree's own order, leaf by leaf: visiting them in this order keeps
+  /// consecutive queries on the same nodes (much faster than file order for shuffled clouds).
+  const std::vector<std::uint32_t>& locality_order() const noexcept;
+
+  /// Reusable buffers for the queries of one thread (an index may serve several threads, each
+  /// with its own Query).
+  class Query {
+   public:
+    /// Queries for the `k` nearest neighbours (k >= 1).
+    explicit Query(std::size_t k);
+    ~Query();
+    Query(Query&&) noexcept;
+    Query(const Query&) = delete;
+    Query& operator=(const Query&) = delete;
+    Query& operator=(Query&&) = delete;
+
+    /// The k nearest points to point `i` of `index`, the point itself excluded, in (distance,
+    /// index) order; fewer when the index holds k points or less. The reference stays valid
+    /// until the next call.
+    const std::vector<std::uint32_t>& of_point(const NeighbourIndex& index, std::size_t i);
+
+   private:
+    struct Buffers;
+    std::unique_ptr<Buffers> buffers_;
+  };
+
+ private:
+  struct Tree;
+  std::unique_ptr<Tree> tree_;
+};
+
+}  // namespace cylzone

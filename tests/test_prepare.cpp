@@ -1,0 +1,198 @@
+// The prepare stage (prepare.hpp) and the neighbour index (neighbour_index.hpp).
+//
+// References outside the code under test:
+//  * reference sets with known form (the null-space construction of ISO 10360-6 test sets,
+//    Forbes & Minh, Int. J. Metrol. Qual. Eng. 3(3), 2012; tests/support/reference_data.hpp)
+//    with ONE point displaced by a known amount: the truth is the index chosen here;
+//  * the nearest neighbours by exhaustive search over all pairs, ordered by (distance, index)
+//    as the index documents (brute force; common practice);
+//  * the screen's definition applied to the least-squares element's residuals, as
+//    stray_points.hpp states it (the same criterion, fed by prepare's own element).
+
+#include <catch2/catch.hpp>
+
+#include <Eigen/Geometry>
+#include <algorithm>
+#include <cstdint>
+#include <numeric>
+#include <random>
+#include <stdexcept>
+#include <vector>
+
+#include "cylzone/fit/fit_cylinder.hpp"
+#include "cylzone/prepare/neighbour_index.hpp"
+#include "cylzone/prepare/prepare.hpp"
+#include "cylzone/prepare/stray_points.hpp"
+#include "reference_data.hpp"
+
+using namespace cylzone;
+using cylzone::testing::make_lobed_cylinder;
+using cylzone::testing::make_plane_reference;
+using cylzone::testing::ReferenceSet;
+
+namespace {
+
+constexpr double um = 1e-3;
+
+Axis tilted_axis() {
+  // Off the origin, tilted: frame and sign mistakes show.
+  return Axis{Eigen::Vector3d(41.0, -17.5, 3.0),
+              Eigen::Vector3d(0.012, -0.007, 1.0).normalized()};
+}
+
+PointCloud cloud_of(const Eigen::Matrix3Xd& points) {
+  PointCloud c;
+  c.points = points;
+  return c;
+}
+
+}  // namespace
+
+TEST_CASE("prepare_feature flags the one point pushed off a lobed bore and keeps every point",
+          "[prepare]") {
+  ReferenceSet set = make_lobed_cylinder(tilted_axis(), 6.005, -1.0, -49.0, 13, 48, 2.0 * um, 11.0);
+  const Eigen::Index pushed = 301;
+  // 20 um toward the axis (inward): a chip or a trigger error.
+  set.points.col(pushed) -= 20.0 * um * set.normals.col(pushed);
+  PrepareOptions options;
+  options.fit.axis_hint = tilted_axis().direction;
+  const PreparedFeature prepared = prepare_feature(FeatureKind::bore, cloud_of(set.points), options);
+
+  // Truth by construction: only the pushed point.
+  REQUIRE(prepared.record.stray_points.points.size() == 1);
+  CHECK(prepared.record.stray_points.points.front().index == static_cast<std::size_t>(pushed));
+  CHECK(prepared.record.stray_points.points.front().excess < -15.0 * um);
+  CHECK(prepared.record.stray_points.screened == static_cast<std::size_t>(set.points.cols()));
+  // The screen reports; it removes and moves nothing.
+  CHECK(prepared.cloud.points == set.points);
+
+  // The same criterion on the least-squares cylinder's residuals (stray_points.hpp).
+  const CylinderFit ls = fit_cylinder_least_squares(set.points, options.fit);
+  const StrayPointReport direct = find_stray_points(set.points, ls.residuals.values);
+  REQUIRE(direct.points.size() == 1);
+  CHECK(direct.points.front().excess == prepared.record.stray_points.points.front().excess);
+}
+
+TEST_CASE("prepare_feature screens a plane along its outward direction", "[prepare]") {
+  const Eigen::Vector3d normal = Eigen::Vector3d(0.05, -0.03, 1.0).normalized();
+  ReferenceSet set = make_plane_reference(Eigen::Vector3d(12.0, 7.0, -3.0), normal, 60.0, 40.0,
+                                          400, 1.0 * um, 7);
+  const Eigen::Index proud = 123;
+  set.points.col(proud) += 25.0 * um * normal;  // a chip standing proud of the face
+  PrepareOptions options;
+  options.outward = normal;
+  const PreparedFeature out = prepare_feature(FeatureKind::plane, cloud_of(set.points), options);
+  REQUIRE(out.record.stray_points.points.size() == 1);
+  CHECK(out.record.stray_points.points.front().index == static_cast<std::size_t>(proud));
+  CHECK(out.record.stray_points.points.front().residual > 0.0);  // proud: positive outward
+
+  options.outward = -normal;  // the other side: the same point, now below the surface
+  const PreparedFeature in = prepare_feature(FeatureKind::plane, cloud_of(set.points), options);
+  REQUIRE(in.record.stray_points.points.size() == 1);
+  CHECK(in.record.stray_points.points.front().residual ==
+        -out.record.stray_points.points.front().residual);
+}
+
+TEST_CASE("prepare_feature: the screen switched off, too few points, and what it needs",
+          "[prepare]") {
+  ReferenceSet set = make_lobed_cylinder(tilted_axis(), 6.005, -1.0, -49.0, 13, 48, 2.0 * um, 11.0);
+  set.points.col(17) -= 20.0 * um * set.normals.col(17);
+  PrepareOptions off;
+  off.stray_screen = false;
+  const PreparedFeature skipped = prepare_feature(FeatureKind::bore, cloud_of(set.points), off);
+  CHECK(skipped.record.stray_points.points.empty());
+  CHECK(skipped.record.stray_points.screened == 0);
+  CHECK(skipped.cloud.points == set.points);
+
+  PrepareOptions few;
+  const PreparedFeature small =
+      prepare_feature(FeatureKind::bore, cloud_of(set.points.leftCols(8)), few);  // 8 <= k
+  CHECK(small.record.stray_points.screened == 0);
+
+  PrepareOptions plane;  // no outward direction
+  CHECK_THROWS_AS(prepare_feature(FeatureKind::plane, cloud_of(set.points), plane),
+                  std::invalid_argument);
+  CHECK_THROWS_AS(prepare_feature(FeatureKind::slot, cloud_of(set.points), plane),
+                  std::invalid_argument);
+  PrepareOptions given;
+  given.residuals = Eigen::VectorXd::Zero(set.points.cols() - 1);
+  CHECK_THROWS_AS(prepare_feature(FeatureKind::slot, cloud_of(set.points), given),
+                  std::invalid_argument);
+  // The caller's residuals are used as given: one spike, flagged by index.
+  given.residuals = Eigen::VectorXd::Zero(set.points.cols());
+  given.residuals(40) = 0.05;
+  const PreparedFeature slot = prepare_feature(FeatureKind::slot, cloud_of(set.points), given);
+  REQUIRE(slot.record.stray_points.points.size() == 1);
+  CHECK(slot.record.stray_points.points.front().index == 40);
+}
+
+TEST_CASE("NeighbourIndex gives the exhaustive search's neighbours, ties to the lower index",
+          "[prepare][neighbours]") {
+  std::mt19937_64 rng(2024);
+  std::uniform_real_distribution<double> unit(-1.0, 1.0);
+  // Random points plus a grid with many equal distances (ties).
+  Eigen::Matrix3Xd points(3, 300);
+  for (Eigen::Index i = 0; i < 200; ++i)
+    points.col(i) = Eigen::Vector3d(5.0 + unit(rng), -2.0 + unit(rng), 30.0 + unit(rng));
+  for (Eigen::Index i = 0; i < 100; ++i)
+    points.col(200 + i) = Eigen::Vector3d(10.0 + i % 10, 3.0 + (i / 10) % 10, 30.0);
+  points.col(299) = points.col(250);  // a coincident pair
+  const NeighbourIndex index(points);
+  CHECK(index.size() == 300);
+  std::vector<std::uint32_t> order = index.locality_order();
+  std::sort(order.begin(), order.end());
+  for (std::size_t i = 0; i < order.size(); ++i) REQUIRE(order[i] == i);  // a permutation
+
+  const std::size_t k = 8;
+  NeighbourIndex::Query query(k);
+  for (Eigen::Index i = 0; i < points.cols(); ++i) {
+    std::vector<std::uint32_t> all;
+    for (Eigen::Index j = 0; j < points.cols(); ++j)
+      if (j != i) all.push_back(static_cast<std::uint32_t>(j));
+    const auto d2 = [&](std::uint32_t j) { return (points.col(j) - points.col(i)).squaredNorm(); };
+    std::sort(all.begin(), all.end(), [&](std::uint32_t a, std::uint32_t b) {
+      return d2(a) < d2(b) || (d2(a) == d2(b) && a < b);
+    });
+    all.resize(k);
+    INFO("point " << i);
+    REQUIRE(query.of_point(index, static_cast<std::size_t>(i)) == all);
+  }
+  CHECK_THROWS_AS(NeighbourIndex::Query(0), std::invalid_argument);
+}
+
+TEST_CASE("the screen gives the same report for 1 and 4 threads", "[prepare][threads]") {
+  // 30 000 points: several fixed chunks, so 4 threads really split the work.
+  ReferenceSet set = make_lobed_cylinder(tilted_axis(), 6.005, -1.0, -49.0, 250, 120, 2.0 * um, 11.0);
+  set.points.col(12345) += 30.0 * um * set.normals.col(12345);
+  const CylinderFit ls = fit_cylinder_least_squares(set.points);
+  StrayPointOptions one, four;
+  one.threads = 1;
+  four.threads = 4;
+  const StrayPointReport a = find_stray_points(set.points, ls.residuals.values, one);
+  const StrayPointReport b = find_stray_points(set.points, ls.residuals.values, four);
+  CHECK(a.robust_scale == b.robust_scale);
+  REQUIRE(a.points.size() == b.points.size());
+  REQUIRE(!a.points.empty());
+  CHECK(a.points.front().index == 12345);
+  for (std::size_t i = 0; i < a.points.size(); ++i) {
+    CHECK(a.points[i].index == b.points[i].index);
+    CHECK(a.points[i].excess == b.points[i].excess);
+  }
+}
+
+TEST_CASE("the least-squares cylinder is bit-identical for 1 and 3 threads", "[prepare][threads]") {
+  // Above the fit's threaded threshold (200 000 points), so its passes are really split.
+  const ReferenceSet set = make_lobed_cylinder(tilted_axis(), 6.005, -1.0, -49.0, 500, 420, 2.0 * um, 11.0);
+  FitOptions one, three;
+  one.threads = 1;
+  three.threads = 3;
+  const CylinderFit a = fit_cylinder_least_squares(set.points, one);
+  const CylinderFit b = fit_cylinder_least_squares(set.points, three);
+  CHECK(a.axis.point == b.axis.point);
+  CHECK(a.axis.direction == b.axis.direction);
+  CHECK(a.radius == b.radius);
+  CHECK(a.residuals.values == b.residuals.values);
+  CHECK(a.angular_coverage_deg == b.angular_coverage_deg);
+  // And it is the reference cylinder (null-space construction: the least-squares solution).
+  CHECK(testing::angle_between_lines(a.axis.direction, tilted_axis().direction) < 1e-9);
+}
