@@ -695,6 +695,18 @@ TEST_CASE("hostile meshes are refused before anything is allocated or handed on"
        9, "ASCII PLY vertex 2: property 'y' is declared float but holds '1e308'"},
       {"float-count.ply", "ply\nformat ascii 1.0\nelement vertex 1e3\nend_header\n", 3,
        "PLY 'element' line needs a name and a count"},
+      // Found by fuzzing: OpenMesh reads OBJ values as float and skips one it cannot hold, so
+      // its faces then wrote normals past its vertices (heap overflow).
+      {"float-overflow.obj", "v 0 0 0\nv " + std::string(120, '3') + " 0 0\nv 0 1 0\nvn 0 0 1\nf 1//1 2//1 3//1\n",
+       2, "OBJ vertex 2: x '3333333333333333333333333333333333333333...' is beyond the range of a float"},
+      {"int-range.ply",
+       "ply\nformat ascii 1.0\nelement vertex 1\nproperty float x\nproperty float y\nproperty float z\n"
+       "property uchar q\nend_header\n1 2 3 256\n",
+       9, "ASCII PLY vertex 1: property 'q' '256' is outside the range of its type (0 to 255)"},
+      {"ascii-word.ply",
+       "ply\nformat ascii 1.0\nelement vertex 1\nproperty float x\nproperty float y\nproperty float z\n"
+       "property float q\nend_header\n1 2 3 abc\n",
+       9, "ASCII PLY vertex 1: property 'q' is not a number: 'abc'"},
   };
   for (const BadMesh& bad : cases) {
     INFO("file " << bad.name);

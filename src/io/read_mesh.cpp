@@ -88,6 +88,17 @@ double text_number(std::string_view token, std::size_t line, const std::string& 
   return value;
 }
 
+double text_float_range_number(std::string_view token, std::size_t line, const std::string& item,
+                               const std::string& what, const std::string& kind,
+                               const std::string& source) {
+  const double value = text_number(token, line, item, what, kind, source);
+  if (std::abs(value) > FLT_MAX)
+    throw InputError(source, line,
+                     kind + " " + item + ": " + what + " " + quoted_excerpt(token) +
+                         " is beyond the range of a float (3.4e38), which OpenMesh reads it as");
+  return value;
+}
+
 std::string count_exceeds_bytes(const std::string& kind, const std::string& what,
                                 std::size_t count, std::size_t remaining) {
   return kind + " declares " + std::to_string(count) + " " + what + " but only " +

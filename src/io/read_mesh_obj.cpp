@@ -61,8 +61,8 @@ ScanResult scan_obj(std::string_view bytes, const std::string& source) {
                          "OBJ " + item + " needs " + (normal ? "i j k" : "u [v [w]]") +
                              ", found " + std::to_string(w.size()) + " values");
       for (std::size_t r = 0; r < w.size(); ++r)
-        text_number(w[r], number, item, std::string(1, "ijkuvw"[r + (normal ? 0 : 3)]), scan.kind,
-                    source);
+        text_float_range_number(w[r], number, item, std::string(1, "ijkuvw"[r + (normal ? 0 : 3)]),
+                                scan.kind, source);
     } else if (keyword == "f") {
       has_faces = true;
       if (w.size() < 3)
@@ -111,8 +111,8 @@ ScanResult scan_obj(std::string_view bytes, const std::string& source) {
                          "OBJ " + vertex_label(index) + " needs x y z, found " +
                              std::to_string(w.size()) + " values");
       for (int r = 0; r < 3; ++r)
-        xyz.push_back(text_number(w[static_cast<std::size_t>(r)], number, vertex_label(index),
-                                  names[r], scan.kind, source));
+        xyz.push_back(text_float_range_number(w[static_cast<std::size_t>(r)], number,
+                                              vertex_label(index), names[r], scan.kind, source));
       scan.vertex_lines.push_back(number);
       given_normal.push_back(false);
     }

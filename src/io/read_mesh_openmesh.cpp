@@ -3,14 +3,19 @@
 // structure scan accepted them.
 // OpenMesh's property containers copy default-constructed (deliberately uninitialised) vectors,
 // which g++ 12 flags inside OpenMesh's own headers.
+#if defined(__GNUC__) && !defined(__clang__)
 #pragma GCC diagnostic push
 #pragma GCC diagnostic ignored "-Wmaybe-uninitialized"
+#endif
 #include <OpenMesh/Core/IO/MeshIO.hh>
 #include <OpenMesh/Core/Mesh/PolyMesh_ArrayKernelT.hh>
 #include <OpenMesh/Core/System/omstream.hh>
+#if defined(__GNUC__) && !defined(__clang__)
 #pragma GCC diagnostic pop
+#endif
 
 #include <algorithm>
+#include <iostream>
 #include <istream>
 #include <mutex>
 #include <sstream>
@@ -75,11 +80,19 @@ class OpenMeshLogCapture {
     err_ = omerr().rdbuf(&text_);
     out_ = omout().rdbuf(&text_);
     log_ = omlog().rdbuf(&text_);
+    // Some of OpenMesh 9's PLY messages ("unsupported conversion type ...", found by fuzzing)
+    // go to std::cerr directly: the standard streams are captured too for the read.
+    cerr_ = std::cerr.rdbuf(&text_);
+    cout_ = std::cout.rdbuf(&text_);
+    clog_ = std::clog.rdbuf(&text_);
   }
   ~OpenMeshLogCapture() {
     omerr().rdbuf(err_);
     omout().rdbuf(out_);
     omlog().rdbuf(log_);
+    std::cerr.rdbuf(cerr_);
+    std::cout.rdbuf(cout_);
+    std::clog.rdbuf(clog_);
   }
   OpenMeshLogCapture(const OpenMeshLogCapture&) = delete;
   OpenMeshLogCapture& operator=(const OpenMeshLogCapture&) = delete;
@@ -112,6 +125,9 @@ class OpenMeshLogCapture {
   std::streambuf* err_ = nullptr;
   std::streambuf* out_ = nullptr;
   std::streambuf* log_ = nullptr;
+  std::streambuf* cerr_ = nullptr;
+  std::streambuf* cout_ = nullptr;
+  std::streambuf* clog_ = nullptr;
 };
 
 /// A read-only stream buffer over bytes in memory, with seeking (OpenMesh's readers seek).

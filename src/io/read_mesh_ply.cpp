@@ -179,6 +179,19 @@ double read_ply_scalar(const unsigned char* p, PlyScalar type, bool swap) {
   return 0.0;
 }
 
+/// Smallest and largest value of an integer PLY type.
+std::pair<long long, long long> integer_range(PlyScalar type) {
+  switch (type) {
+    case PlyScalar::int8: return {INT8_MIN, INT8_MAX};
+    case PlyScalar::uint8: return {0, UINT8_MAX};
+    case PlyScalar::int16: return {INT16_MIN, INT16_MAX};
+    case PlyScalar::uint16: return {0, UINT16_MAX};
+    case PlyScalar::int32: return {INT32_MIN, INT32_MAX};
+    case PlyScalar::uint32: return {0, UINT32_MAX};
+    default: return {0, 0};
+  }
+}
+
 /// A value of an ASCII PLY property that is not read here must still be what OpenMesh expects
 /// (it reads each with operator>>, so "1.5" in an integer property or a word would shift every
 /// value after it): an integer for integer types, a finite number for float types.
@@ -192,12 +205,21 @@ void check_ascii_value(std::string_view token, PlyScalar type, std::size_t line,
     const auto [end, ec] = std::from_chars(token.data(), token.data() + token.size(), value);
     if (ec != std::errc() || end != token.data() + token.size())
       throw InputError(source, line, item + "is not an integer: " + quoted_excerpt(token));
+    const auto [low, high] = integer_range(type);
+    if (value < low || value > high)
+      throw InputError(source, line,
+                       item + quoted_excerpt(token) + " is outside the range of its type (" +
+                           std::to_string(low) + " to " + std::to_string(high) + ")");
     return;
   }
   double value = 0.0;
   const NumberStatus status = parse_number(token.data(), token.data() + token.size(), value);
   if (status != NumberStatus::ok)
     throw InputError(source, line, item + describe_number_problem(status, token));
+  if (type == PlyScalar::float32 && std::abs(value) > FLT_MAX)
+    throw InputError(source, line,
+                     item + "is declared float but holds " + quoted_excerpt(token) +
+                         ", beyond the range of a float");
 }
 
 /// Which vertex properties give x y z and nx ny nz: indices into the element's properties.
@@ -223,6 +245,15 @@ PlyVertexLayout ply_vertex_layout(const PlyHeader& header, const std::string& so
     if (layout.property_of_role[static_cast<std::size_t>(role)] < 0)
       throw InputError(source, 0,
                        std::string("PLY vertex element has no property '") + names[role] + "'");
+  // Coordinates and normals of a measurement are real numbers; OpenMesh 9 cannot convert an
+  // integer-typed one (it complains on the terminal and leaves the value unset).
+  for (int role = 0; role < 6; ++role) {
+    const int p = layout.property_of_role[static_cast<std::size_t>(role)];
+    if (p >= 0 && is_integer(vertex->properties[static_cast<std::size_t>(p)].type))
+      throw InputError(source, vertex->line,
+                       std::string("PLY vertex property '") + names[role] +
+                           "' has an integer type; coordinates and normals must be float or double");
+  }
   const int normal_roles = (layout.property_of_role[3] >= 0) + (layout.property_of_role[4] >= 0) +
                            (layout.property_of_role[5] >= 0);
   if (normal_roles != 0 && normal_roles != 3) {
@@ -320,11 +351,11 @@ ScanResult scan_ply(std::string_view bytes, const std::string& source) {
           if (e == layout.element && p == 0) scan.vertex_lines[i] = tokens.token_line();
           if (property.is_list) {
             const auto items = parse_count(token);
-            if (!items)
+            if (!items || *items > static_cast<std::size_t>(integer_range(property.count_type).second))
               throw InputError(source, tokens.token_line(),
                                "ASCII PLY " + element.name + " " + std::to_string(i + 1) +
                                    ": list length " + quoted_excerpt(token) +
-                                   " is not a count");
+                                   " is not a count of its type");
             for (std::size_t k = 0; k < *items; ++k) {
               const std::string_view item = tokens.next();
               if (item.empty()) throw truncated(e, i);

@@ -30,7 +30,7 @@ void scan_stl_vertices(std::string_view bytes, ScanResult& scan, const std::stri
     double p[3];
     for (int r = 0; r < 3; ++r) {
       const std::string_view value = tokens.next();
-      p[r] = text_number(value, tokens.token_line(), "facet corner " + std::to_string(corner + 1),
+      p[r] = text_float_range_number(value, tokens.token_line(), "facet corner " + std::to_string(corner + 1),
                          names[r], "ASCII STL", source);
     }
     ++corner;

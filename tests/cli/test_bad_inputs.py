@@ -144,6 +144,10 @@ CASES = [
                                                                "property double nz"])])
      + le_doubles(1, 2, 3, 0, float("nan"), 1), None, "NaN or infinite normal",
      "a NaN normal component that is not the first", False),
+    ("integer-x.ply", ply_header("binary_little_endian", [("vertex", 1, ["property uchar x", "property float y",
+                                                                       "property float z"])])
+     + b"\x01" + struct.pack("<ff", 2, 3), 3, "integer type",
+     "an integer-typed coordinate (OpenMesh printed to the terminal)", False),
     ("no-vertex.ply", ply_header("ascii", [("point", 1, ["property float x"])]) + b"1\n", None,
      "no 'vertex' element", "no vertex element", False),
     ("no-z.ply", ply_header("ascii", [("vertex", 1, XYZ_FLOAT[:2])]) + b"1 2\n", None,
@@ -184,6 +188,8 @@ CASES = [
      "names no normal", "a corner naming normal 7 of 1", False),
     ("texture-out-of-range.obj", b"v 0 0 0\nv 1 0 0\nv 0 1 0\nf 1/4 2/1 3/1\n", 4,
      "texture vertex", "a corner naming a texture vertex that does not exist", False),
+    ("float-overflow.obj", b"v 0 0 0\nv " + b"3" * 120 + b" 0 0\nv 0 1 0\nvn 0 0 1\nf 1//1 2//1 3//1\n", 2,
+     "beyond the range of a float", "a coordinate OpenMesh cannot hold (once a heap overflow)", False),
     ("short-vertex.obj", b"v 1 2 3\nv 4 5\n", 2, "needs x y z", "a vertex of two values", False),
     ("nan-vertex.obj", b"v 1 2 3\nv nan 5 6\n", 2, "NaN", "a NaN vertex", False),
     ("nan-normal.obj", b"v 1 2 3\nvn 0 nan 1\n", 2, "NaN", "a NaN normal", False),

@@ -100,6 +100,12 @@ void require_text(std::string_view bytes, const std::string& kind, const std::st
 double text_number(std::string_view token, std::size_t line, const std::string& item,
                    const std::string& what, const std::string& kind, const std::string& source);
 
+/// The same for a value OpenMesh also reads, as a float: beyond the float range it would fail
+/// (and skip or misplace the value), so such a value is refused here with the item named.
+double text_float_range_number(std::string_view token, std::size_t line, const std::string& item,
+                               const std::string& what, const std::string& kind,
+                               const std::string& source);
+
 /// Message for a declared count the remaining bytes cannot hold: refused before anything is
 /// allocated for it.
 std::string count_exceeds_bytes(const std::string& kind, const std::string& what,
