@@ -27,6 +27,27 @@ std::optional<std::size_t> obj_index(std::string_view text, std::size_t defined)
   return static_cast<std::size_t>(value > 0 ? value - 1 : count + value);
 }
 
+/// One OBJ line: its keyword and the text after it, a trailing '#' comment removed; `start` is
+/// where the keyword begins. Only v, vn, vt and f lines matter here.
+struct ObjLine {
+  std::string_view keyword;
+  std::string_view rest;
+  std::size_t start = 0;
+  bool relevant() const { return keyword == "v" || keyword == "vn" || keyword == "vt" || keyword == "f"; }
+};
+
+ObjLine split_obj_line(std::string_view line) {
+  std::size_t i = 0;
+  while (i < line.size() && is_blank(line[i])) ++i;
+  std::size_t keyword_end = i;
+  while (keyword_end < line.size() && !is_blank(line[keyword_end])) ++keyword_end;
+  const auto comment = line.find('#', keyword_end);
+  return {line.substr(i, keyword_end - i),
+          line.substr(keyword_end, comment == std::string_view::npos ? std::string_view::npos
+                                                                     : comment - keyword_end),
+          i};
+}
+
 }  // namespace
 
 ScanResult scan_obj(std::string_view bytes, const std::string& source) {
@@ -41,15 +62,10 @@ ScanResult scan_obj(std::string_view bytes, const std::string& source) {
   std::string_view line;
   static const char* names[] = {"x", "y", "z"};
   while (lines.next(line)) {
-    std::size_t i = 0;
-    while (i < line.size() && is_blank(line[i])) ++i;
-    std::size_t keyword_end = i;
-    while (keyword_end < line.size() && !is_blank(line[keyword_end])) ++keyword_end;
-    const std::string_view keyword = line.substr(i, keyword_end - i);
-    if (keyword != "v" && keyword != "vn" && keyword != "vt" && keyword != "f") continue;
-    const auto comment = line.find('#', keyword_end);
-    const std::vector<std::string_view> w = words(line.substr(
-        keyword_end, comment == std::string_view::npos ? std::string_view::npos : comment - keyword_end));
+    const ObjLine parts = split_obj_line(line);
+    if (!parts.relevant()) continue;
+    const std::string_view keyword = parts.keyword;
+    const std::vector<std::string_view> w = words(parts.rest);
     const std::size_t number = lines.number();
     if (keyword == "vn" || keyword == "vt") {
       const bool normal = keyword == "vn";
@@ -137,18 +153,9 @@ std::string obj_lines_for_openmesh(std::string_view bytes) {
   LineReader lines(bytes.data(), bytes.data() + bytes.size());
   std::string_view line;
   while (lines.next(line)) {
-    std::size_t i = 0;
-    while (i < line.size() && is_blank(line[i])) ++i;
-    std::size_t keyword_end = i;
-    while (keyword_end < line.size() && !is_blank(line[keyword_end])) ++keyword_end;
-    const std::string_view keyword = line.substr(i, keyword_end - i);
-    if (keyword != "v" && keyword != "vn" && keyword != "vt" && keyword != "f") {
-      kept += '\n';  // keeps OpenMesh's line numbers those of the file
-      continue;
-    }
-    const auto comment = line.find('#', keyword_end);
-    kept.append(line.substr(i, comment == std::string_view::npos ? std::string_view::npos : comment - i));
-    kept += '\n';
+    const ObjLine parts = split_obj_line(line);
+    if (parts.relevant()) kept.append(line.substr(parts.start, parts.keyword.size() + parts.rest.size()));
+    kept += '\n';  // an empty line for any other: OpenMesh's line numbers stay those of the file
   }
   return kept;
 }
