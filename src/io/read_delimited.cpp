@@ -8,6 +8,7 @@
 #include <charconv>
 #include <cmath>
 #include <cstring>
+#include <new>
 #include <string>
 #include <string_view>
 #include <vector>
@@ -335,10 +336,9 @@ void parse_fields(const std::vector<std::string_view>& fields, const Line& line,
   }
 }
 
-}  // namespace
 
-PointCloud parse_delimited_points(std::string_view text, const std::string& source,
-                                  const ReadOptions& options) {
+PointCloud parse_delimited_unguarded(std::string_view text, const std::string& source,
+                                     const ReadOptions& options) {
   // UTF-16 would pass as "binary" below; name it, since spreadsheet tools produce it.
   if (text.size() >= 2 && ((static_cast<unsigned char>(text[0]) == 0xff &&
                             static_cast<unsigned char>(text[1]) == 0xfe) ||
@@ -443,6 +443,20 @@ PointCloud parse_delimited_points(std::string_view text, const std::string& sour
   cloud.source = source;
   cloud.file_unit = options.unit;
   return cloud;
+}
+
+}  // namespace
+
+PointCloud parse_delimited_points(std::string_view text, const std::string& source,
+                                  const ReadOptions& options) {
+  try {
+    return parse_delimited_unguarded(text, source, options);
+  } catch (const std::bad_alloc&) {
+    // The cloud takes about as much memory as the text; say so rather than a bare bad_alloc.
+    throw InputError(source, 0,
+                     "not enough memory to hold the points of this file (" +
+                         std::to_string(text.size()) + " bytes of text)");
+  }
 }
 
 }  // namespace cylzone

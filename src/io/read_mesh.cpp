@@ -18,6 +18,7 @@
 #include <cfloat>
 #include <cmath>
 #include <cstdio>
+#include <new>
 #include <string>
 
 #include "cylzone/core/errors.hpp"
@@ -161,11 +162,9 @@ Eigen::Matrix3Xd unit_normals(const Eigen::Matrix3Xd& normals, const ScanResult&
   return unit;
 }
 
-}  // namespace
 
-PointCloud read_mesh_points(const std::filesystem::path& /*file*/, std::string_view content,
-                            PointFileFormat format, const ReadOptions& options,
-                            const std::string& source) {
+PointCloud read_mesh_unguarded(std::string_view content, PointFileFormat format,
+                               const ReadOptions& options, const std::string& source) {
   if (content.empty()) throw InputError(source, 0, "no points: the file is empty");
   ScanResult scan;
   switch (format) {
@@ -218,6 +217,22 @@ PointCloud read_mesh_points(const std::filesystem::path& /*file*/, std::string_v
                            std::string(unit_name(options.unit)) + " to millimetres");
   }
   return cloud;
+}
+
+}  // namespace
+
+PointCloud read_mesh_points(const std::filesystem::path& /*file*/, std::string_view content,
+                            PointFileFormat format, const ReadOptions& options,
+                            const std::string& source) {
+  try {
+    return read_mesh_unguarded(content, format, options, source);
+  } catch (const std::bad_alloc&) {
+    // Declared counts are bounded by the file's size before allocation, so this is a file
+    // larger than the memory available, not a lying header; say so rather than a bare bad_alloc.
+    throw InputError(source, 0,
+                     "not enough memory to hold the points of this file (" +
+                         std::to_string(content.size()) + " bytes)");
+  }
 }
 
 }  // namespace cylzone::detail
