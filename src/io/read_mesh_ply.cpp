@@ -127,7 +127,7 @@ PlyHeader parse_ply_header(std::string_view bytes, const std::string& source) {
       if (!count)
         throw InputError(source, number,
                          "PLY 'element' line needs a name and a count (a non-negative integer)");
-      header.elements.push_back(PlyElement{std::string(w[1]), *count, number, {}});
+      header.elements.push_back(PlyElement{printable_excerpt(w[1]), *count, number, {}});
     } else if (keyword == "property") {
       if (header.elements.empty())
         throw InputError(source, number, "PLY 'property' line before any 'element' line");
@@ -151,7 +151,7 @@ PlyHeader parse_ply_header(std::string_view bytes, const std::string& source) {
       property.is_list = list;
       property.type = *type;
       property.count_type = *count_type;
-      property.name = std::string(w[needed - 1]);
+      property.name = printable_excerpt(w[needed - 1]);
       header.elements.back().properties.push_back(std::move(property));
     } else {
       throw InputError(source, number, "unknown PLY header keyword " + quoted_excerpt(keyword));
@@ -258,13 +258,14 @@ PlyVertexLayout ply_vertex_layout(const PlyHeader& header, const std::string& so
                            (layout.property_of_role[5] >= 0);
   if (normal_roles != 0 && normal_roles != 3) {
     std::string have, missing;
-    for (int role = 3; role < 6; ++role)
-      (layout.property_of_role[static_cast<std::size_t>(role)] >= 0 ? have : missing) +=
-          std::string(have.empty() && layout.property_of_role[static_cast<std::size_t>(role)] >= 0 ? "" : " ") +
-          "'" + names[role] + "'";
+    for (int role = 3; role < 6; ++role) {
+      std::string& list = layout.property_of_role[static_cast<std::size_t>(role)] >= 0 ? have : missing;
+      list += (list.empty() ? "'" : " '") + std::string(names[role]) + "'";
+    }
     throw InputError(source, vertex->line,
-                     "PLY vertex element has normal component" + (normal_roles > 1 ? std::string("s ") : " ") +
-                         have + " but no" + missing + ": a vertex normal needs nx, ny and nz");
+                     "PLY vertex element has normal component" +
+                         std::string(normal_roles > 1 ? "s " : " ") + have + " but no " + missing +
+                         ": a vertex normal needs nx, ny and nz");
   }
   layout.has_normals = normal_roles == 3;
   return layout;
