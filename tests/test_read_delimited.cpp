@@ -2,6 +2,8 @@
 // header, comment and line-ending variant, units, vectors, and every bad-input case.
 #include <catch2/catch.hpp>
 
+#include <algorithm>
+
 #include <cmath>
 #include <cstdint>
 #include <cstdio>
@@ -316,6 +318,24 @@ TEST_CASE("header problems name the missing or repeated column", "[read][delimit
   expect_parse_error("x,y,z,i,j\n1,2,3,4,5\n", 1, "header has vector columns but no 'k'");
   expect_parse_error("1.5,abc,3\n", 1, "field 2 is not a number: 'abc'");
   expect_parse_error("x,y,z\n", 0, "header on line 1 but no data lines");
+}
+
+TEST_CASE("a first line that is neither header nor data is named, never read past", "[read][delimited]") {
+  // A quoted number loses its quotes only with a character separator (RFC 4180 section 2), so a
+  // one-field '"1"' line over tab-separated rows is all numbers and no header: the message must
+  // say so (it once dereferenced the end of the field list and printed heap bytes).
+  expect_parse_error("\"1\"\n2\t3\t4\n", 1, "neither a header nor data");
+  // Names from a hostile header are quoted, cut and made printable in the message.
+  try {
+    // U+2028 LINE SEPARATOR in UTF-8: some terminals break the line there.
+    parse("q,\xe2\x80\xa8,y\n1,2,3\n");
+    FAIL("no error");
+  } catch (const cylzone::InputError& e) {
+    const std::string message = e.what();
+    CHECK(std::none_of(message.begin(), message.end(),
+                       [](char c) { return static_cast<unsigned char>(c) >= 0x80; }));
+    CHECK_THAT(message, Catch::Matchers::Contains("found: 'q', '?\?\?', 'y'"));
+  }
 }
 
 TEST_CASE("a zero-length vector names its line", "[read][delimited]") {

@@ -462,6 +462,18 @@ void require_axial_spread(const Eigen::Matrix3Xd& screen, const AxisState& state
   if (plane_rms > planar_noise_factor * rms) return;
   const Axis axis{centroid + state.point, state.direction};
   const auto [lo, hi] = detail::axial_extent(screen, axis);
+  // Planar in two ways: one level across the bore (the fitted axis crosses the points' plane),
+  // or a narrow strip along it (the fitted axis lies in that plane). Name the one that applies.
+  const Eigen::Vector3d plane_normal = detail::principal_axes(screen, centroid).directions.col(0);
+  if (std::abs(plane_normal.dot(state.direction)) < 0.5) {
+    const double coverage = detail::angular_coverage_deg(
+        screen, axis.point, detail::basis_from_direction(axis.direction));
+    throw FitError("the points cover only " + detail::format_number(coverage, 1) +
+                   " degrees of arc (axial span " + detail::format_number(hi - lo, 6) +
+                   " mm): within their noise they lie in one plane, so the cylinder's radius and "
+                   "axis cannot be told apart from a plane; probe a wider arc of the bore, or "
+                   "fit a plane");
+  }
   throw FitError(cross_section_message(hi - lo, state.radius));
 }
 

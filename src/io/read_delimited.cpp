@@ -8,6 +8,7 @@
 #include <charconv>
 #include <cmath>
 #include <cstring>
+#include <new>
 #include <string>
 #include <string_view>
 #include <vector>
@@ -183,9 +184,10 @@ Columns columns_from_header(const std::vector<std::string_view>& fields, const L
       auto& slot = columns.field_of_role[static_cast<std::size_t>(role)];
       if (slot != no_role)
         throw InputError(source, line.number,
-                         "header columns " + std::to_string(slot + 1) + " ('" +
-                             columns.names[static_cast<std::size_t>(slot)] + "') and " +
-                             std::to_string(f + 1) + " ('" + name + "') both give " +
+                         "header columns " + std::to_string(slot + 1) + " (" +
+                             detail::quoted_excerpt(columns.names[static_cast<std::size_t>(slot)]) +
+                             ") and " + std::to_string(f + 1) + " (" + detail::quoted_excerpt(name) +
+                             ") both give " +
                              role_names[static_cast<std::size_t>(role)]);
       slot = static_cast<int>(f);
     }
@@ -195,8 +197,14 @@ Columns columns_from_header(const std::vector<std::string_view>& fields, const L
     if (columns.field_of_role[static_cast<std::size_t>(role)] != no_role) continue;
     // A first line that is partly numeric is more likely bad data than a header: name the
     // field that failed to parse rather than a missing column.
+    const auto bad = std::find_if_not(fields.begin(), fields.end(), is_number);
+    if (bad == fields.end())
+      throw InputError(source, line.number,
+                       "the first line holds " + std::to_string(fields.size()) +
+                           " number(s) but is split with a different separator than the data "
+                           "lines, so it is neither a header nor data (it has no column '" +
+                           role_names[static_cast<std::size_t>(role)] + "')");
     if (std::any_of(fields.begin(), fields.end(), is_number)) {
-      const auto bad = std::find_if_not(fields.begin(), fields.end(), is_number);
       throw InputError(source, line.number,
                        "field " + std::to_string(bad - fields.begin() + 1) + " " +
                            detail::describe_number_problem(NumberStatus::not_a_number, *bad) +
@@ -204,7 +212,13 @@ Columns columns_from_header(const std::vector<std::string_view>& fields, const L
                            role_names[static_cast<std::size_t>(role)] + "')");
     }
     std::string found;
-    for (const std::string& name : columns.names) found += (found.empty() ? "" : ", ") + name;
+    for (const std::string& name : columns.names) {
+      if (found.size() > 200) {
+        found += ", ...";
+        break;
+      }
+      found += (found.empty() ? "" : ", ") + detail::quoted_excerpt(name, 20);
+    }
     throw InputError(source, line.number,
                      std::string("header has no column '") +
                          role_names[static_cast<std::size_t>(role)] +
@@ -322,10 +336,9 @@ void parse_fields(const std::vector<std::string_view>& fields, const Line& line,
   }
 }
 
-}  // namespace
 
-PointCloud parse_delimited_points(std::string_view text, const std::string& source,
-                                  const ReadOptions& options) {
+PointCloud parse_delimited_unguarded(std::string_view text, const std::string& source,
+                                     const ReadOptions& options) {
   // UTF-16 would pass as "binary" below; name it, since spreadsheet tools produce it.
   if (text.size() >= 2 && ((static_cast<unsigned char>(text[0]) == 0xff &&
                             static_cast<unsigned char>(text[1]) == 0xfe) ||
@@ -430,6 +443,20 @@ PointCloud parse_delimited_points(std::string_view text, const std::string& sour
   cloud.source = source;
   cloud.file_unit = options.unit;
   return cloud;
+}
+
+}  // namespace
+
+PointCloud parse_delimited_points(std::string_view text, const std::string& source,
+                                  const ReadOptions& options) {
+  try {
+    return parse_delimited_unguarded(text, source, options);
+  } catch (const std::bad_alloc&) {
+    // The cloud takes about as much memory as the text; say so rather than a bare bad_alloc.
+    throw InputError(source, 0,
+                     "not enough memory to hold the points of this file (" +
+                         std::to_string(text.size()) + " bytes of text)");
+  }
 }
 
 }  // namespace cylzone

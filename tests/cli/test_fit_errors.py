@@ -86,6 +86,23 @@ with tempfile.TemporaryDirectory() as tmp:
     one_level = write(tmp, "one_level.csv", circle_rows(24, [5.0]))
     expect_error("cylinder in one cross-section", ["fit", "cylinder", one_level],
                  "one_level.csv", "cross-section")
+    # A 5-degree strip along 36 mm of a 10 mm radius bore, with 5 um radial noise: its sagitta
+    # (10 (1 - cos 2.5 deg) = 9.5 um, common practice geometry) is within the noise, so it is a
+    # plane to the fit. The message must name the arc, not "one cross-section".
+    import random
+    rng = random.Random(3)
+    strip = []
+    for z in range(0, 37, 4):
+        for k in range(11):
+            a = math.radians(0.5 * k)
+            r = 10.0 + rng.gauss(0.0, 0.005)
+            strip.append(f"{3 + r * math.cos(a):.9f},{-2 + r * math.sin(a):.9f},{z:.9f}\n")
+    strip_file = write(tmp, "strip.csv", "".join(strip))
+    expect_error("cylinder on a 5-degree strip", ["fit", "cylinder", strip_file], "strip.csv",
+                 "degrees of arc (axial span 36.0")
+    code, out, err = run("fit", "cylinder", strip_file)
+    if "cross-section" in err:
+        failures.append(f"5-degree strip blamed on one cross-section: {err.strip()}")
     arc = write(tmp, "arc.csv", "".join(
         f"{10*math.cos(math.radians(a)):.9f},{10*math.sin(math.radians(a)):.9f},0\n"
         for a in range(0, 91, 5)))

@@ -27,11 +27,12 @@ struct ReadOptions {
 /// as text, non-numeric field, NaN/Inf, wrong column count, unknown header name, mesh reader
 /// failure) and never returns a partial cloud.
 ///
-/// Mesh and cloud files are read through OpenMesh: the vertices become the points, vertex
-/// normals (PLY nx ny nz, NOFF, OBJ vn when every vertex gets one) the vectors; STL has facet
-/// normals only and gives no vectors. Coordinates keep double precision in PLY (any encoding),
-/// OBJ, ASCII OFF and ASCII STL; binary STL and binary OFF hold float32. An OFF file must have
-/// the .off extension, and OFF files with '#' comments are refused (OpenMesh misreads them).
+/// Mesh and cloud files: the vertices become the points, vertex normals (PLY nx ny nz, NOFF, OBJ
+/// vn when every vertex gets one) the vectors; STL has facet normals only and gives no vectors.
+/// Coordinates keep double precision in PLY (any encoding), OBJ, ASCII OFF and ASCII STL; binary
+/// STL and binary OFF (machine byte order) hold float32. PLY, OBJ and STL are read by a strict
+/// structure scan and by OpenMesh, which must agree; OFF by the structure scan alone. Declared
+/// counts the file cannot hold are refused before anything is allocated for them.
 ///
 /// read_points is load() then parse_points() (load.hpp): the file is read once.
 PointCloud read_points(const std::filesystem::path& file, const ReadOptions& options = {});

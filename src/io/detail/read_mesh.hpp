@@ -1,6 +1,5 @@
 #pragma once
-// Private entry point of the mesh / cloud reader (src/read_mesh.cpp), the only translation unit
-// that sees OpenMesh. Not installed.
+// Private entry point of the mesh / cloud readers (src/io/read_mesh*.cpp). Not installed.
 
 #include <filesystem>
 #include <string>
@@ -12,9 +11,10 @@
 namespace cylzone::detail {
 
 /// Reads the vertices (and vertex normals, where the file has them) of a PLY, OBJ, OFF or STL
-/// file. `content` is the whole file as read_points() read it: the structure checks and the
-/// double-precision coordinate pass run on it, and OpenMesh reads `file` itself. `format` must
-/// not be delimited_text. Throws InputError naming `source`, the format and the reason.
+/// file from `content`, the whole file as read_points() read (and hashed) it: only these bytes
+/// are parsed, the file is never opened again. `file` is kept for the caller's convenience and
+/// not read. `format` must not be delimited_text. Throws InputError naming `source`, the format
+/// and the reason; declared counts the bytes cannot hold are refused before any allocation.
 PointCloud read_mesh_points(const std::filesystem::path& file, std::string_view content,
                             PointFileFormat format, const ReadOptions& options,
                             const std::string& source);

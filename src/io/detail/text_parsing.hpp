@@ -92,17 +92,21 @@ inline std::string describe_byte(unsigned char byte, std::size_t offset) {
   return text + " at offset " + std::to_string(offset);
 }
 
-/// `text` in single quotes for a message, cut to `max_chars` with "..." and with anything but
-/// printable ASCII shown as '?', so a message stays one printable line whatever the bytes.
-inline std::string quoted_excerpt(std::string_view text, std::size_t max_chars = 40) {
-  std::string out = "'";
-  const bool cut = text.size() > max_chars;
+/// `text` cut to `max_chars` with "..." and with anything but printable ASCII shown as '?', so
+/// a message stays one printable line whatever the bytes (for names read from a file).
+inline std::string printable_excerpt(std::string_view text, std::size_t max_chars = 40) {
+  std::string out;
   for (std::size_t i = 0; i < text.size() && i < max_chars; ++i) {
     const auto c = static_cast<unsigned char>(text[i]);
     out += (c < 0x20 || c >= 0x7f) ? '?' : static_cast<char>(c);
   }
-  if (cut) out += "...";
-  return out + "'";
+  if (text.size() > max_chars) out += "...";
+  return out;
+}
+
+/// printable_excerpt() in single quotes, for quoting offending text in a message.
+inline std::string quoted_excerpt(std::string_view text, std::size_t max_chars = 40) {
+  return "'" + printable_excerpt(text, max_chars) + "'";
 }
 
 /// Message fragment for a number that did not parse; `status` is not ok.
