@@ -58,6 +58,7 @@ json position_json(const PositionResult& p, json verdict, const ReportUnits& u) 
             {"modifier", std::string(condition_name(p.spec.condition))},
             {"datums", datum_references_text(p.spec.datums)},
             {"projected", p.projected},
+            {"range_source", range_source_name(p.range_source)},
             {"projected_height", optional_number(p.spec.projected_height, u)},
             {"range", {{"top", u.length(p.range_top)}, {"bottom", u.length(p.range_bottom)}}},
             {"value", u.length(p.value)},
@@ -118,9 +119,21 @@ json depth_json(const std::optional<DepthProfile>& d, const ReportUnits& u) {
   return {{"characteristic", d->characteristic_id},
           {"range", {{"top", u.length(d->range_top)}, {"bottom", u.length(d->range_bottom)}}},
           {"projected", d->projected},
+          {"range_source", range_source_name(d->range_source)},
           {"allowed", u.length(d->allowed)},
           {"leaves_zone_at", optional_number(d->leaves_zone_at, u)},
           {"samples", samples}};
+}
+
+json text_or_null(const std::string& text) { return text.empty() ? json(nullptr) : json(text); }
+
+json part_json(const PartIdentity& p) {
+  json notes = json::object();
+  for (const auto& [key, value] : p.notes) notes[key] = value;
+  return {{"id", text_or_null(p.id)},
+          {"serial", text_or_null(p.serial)},
+          {"timestamp", text_or_null(p.timestamp)},
+          {"notes", notes}};
 }
 
 json characteristic_json(const Characteristic& c, const ReportUnits& u) {
@@ -147,6 +160,7 @@ json bore_json(const BoreResult& b, const BoreSummary& s, const BoreSensitivity*
   j["axis_method"] = s.axis_method;
   j["axis"] = {{"point", point(b.axis.point, u)}, {"direction", direction(b.axis.direction)}};
   j["probed"] = {{"top", u.length(s.probed_top)}, {"bottom", u.length(s.probed_bottom)}};
+  j["depth_source"] = range_source_name(s.depth_source);
   j["tilt"] = {{"angle_rad", s.tilt_rad}, {"azimuth_deg", s.tilt_azimuth_deg}};
   j["size"] = {{"lower", b.size.limits ? json(u.length(b.size.limits->lower)) : json(nullptr)},
                {"upper", b.size.limits ? json(u.length(b.size.limits->upper)) : json(nullptr)},
@@ -304,6 +318,24 @@ class ReportReader {
     if (v.is_null()) return std::nullopt;
     return number(object, path, name);
   }
+  /// A string or null (null and a missing key read as empty).
+  std::string text_or_empty(const json& object, const std::string& path, const char* name) const {
+    if (!object.is_object()) fail(path, "expected an object");
+    const auto it = object.find(name);
+    if (it == object.end() || it->is_null()) return {};
+    return text(object, path, name);
+  }
+  /// A range source by its name; `fallback` when the key is missing (a report written before
+  /// the key existed).
+  RangeSource range_source(const json& object, const std::string& path, const char* name,
+                           RangeSource fallback) const {
+    if (!object.is_object() || !object.contains(name)) return fallback;
+    const std::string v = text(object, path, name);
+    for (RangeSource s : {RangeSource::plan_depth, RangeSource::probed_extent,
+                          RangeSource::plan_depth_and_probed, RangeSource::projected_zone})
+      if (v == range_source_name(s)) return s;
+    fail(join(path, name), "unknown range source '" + v + "'");
+  }
   bool boolean(const json& object, const std::string& path, const char* name) const {
     const json& v = key(object, path, name);
     if (!v.is_boolean()) fail(join(path, name), "expected true or false");
@@ -355,6 +387,7 @@ std::string format_json(const ReportModel& m) {
   j["caution"] = std::string(safety_caution);
   j["plan"] = {{"name", m.plan_name}, {"file", m.plan_file.string()},
                {"units", std::string(u.name())}};
+  j["part"] = part_json(m.part);
   json inputs = json::array();
   for (const InputRecord& in : m.inputs)
     inputs.push_back({{"role", in.role}, {"path", in.path.string()}, {"sha256", in.sha256},
@@ -413,6 +446,18 @@ ReportModel read_report_json(std::string_view bytes, const std::string& source) 
   const std::optional<LengthUnit> unit = parse_unit(units);
   if (!unit) in.fail("plan.units", "unknown unit '" + units + "' (expected mm or inch)");
   m.units = ReportUnits(*unit);
+  if (j.contains("part")) {  // absent in reports written before identity fields existed
+    const json& part = j["part"];
+    m.part.id = in.text_or_empty(part, "part", "id");
+    m.part.serial = in.text_or_empty(part, "part", "serial");
+    m.part.timestamp = in.text_or_empty(part, "part", "timestamp");
+    const json& notes = in.key(part, "part", "notes");
+    if (!notes.is_object()) in.fail("part.notes", "expected an object");
+    for (const auto& [key, value] : notes.items()) {
+      if (!value.is_string()) in.fail("part.notes." + key, "expected a string");
+      m.part.notes.emplace_back(key, value.get<std::string>());
+    }
+  }
   const ReportUnits& u = m.units;
   const auto mm = [&](const json& o, const std::string& path, const char* name) {
     return u.millimetres(in.number(o, path, name));
@@ -502,6 +547,7 @@ ReportModel read_report_json(std::string_view bytes, const std::string& source) 
     const json& probed = in.key(o, path, "probed");
     b.probed_top = mm(probed, path + ".probed", "top");
     b.probed_bottom = mm(probed, path + ".probed", "bottom");
+    b.depth_source = in.range_source(o, path, "depth_source", RangeSource::plan_depth);
     const json& tilt = in.key(o, path, "tilt");
     b.tilt_rad = in.number(tilt, path + ".tilt", "angle_rad");
     b.tilt_azimuth_deg = in.number(tilt, path + ".tilt", "azimuth_deg");
@@ -514,6 +560,8 @@ ReportModel read_report_json(std::string_view bytes, const std::string& source) 
       d.range_top = mm(range, dp + ".range", "top");
       d.range_bottom = mm(range, dp + ".range", "bottom");
       d.projected = in.boolean(depth, dp, "projected");
+      d.range_source = in.range_source(
+          depth, dp, "range_source", d.projected ? RangeSource::projected_zone : b.depth_source);
       d.allowed = mm(depth, dp, "allowed");
       d.leaves_zone_at = mm_or_null(depth, dp, "leaves_zone_at");
       const json& samples = in.array(depth, dp, "samples");
