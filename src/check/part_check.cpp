@@ -96,7 +96,7 @@ PartCheckResult check_part(const PartPlan& plan, const CheckOptions& options) {
 
   PartCheckResult result;
   result.plan = plan;
-  result.inputs.push_back({"plan", plan.file, plan.sha256, 0});
+  result.inputs.push_back({"plan", plan.file, plan.sha256, 0, {}});
 
   ReadOptions read;
   read.unit = plan.unit;
@@ -104,13 +104,14 @@ PartCheckResult check_part(const PartPlan& plan, const CheckOptions& options) {
   for (const PlanDatum& datum : plan.datums) {
     datum_clouds.push_back(read_points(datum.points, read));
     result.inputs.push_back({datum_role(datum.label), datum.points,
-                             detail::sha256_of_file(datum.points), datum_clouds.back().size()});
+                             detail::sha256_of_file(datum.points), datum_clouds.back().size(),
+                             datum_clouds.back().lines});
   }
   std::vector<PointCloud> bore_clouds;
   for (const PlanBore& bore : plan.bores) {
     bore_clouds.push_back(read_points(bore.points, read));
     result.inputs.push_back({"bore " + bore.id, bore.points, detail::sha256_of_file(bore.points),
-                             bore_clouds.back().size()});
+                             bore_clouds.back().size(), bore_clouds.back().lines});
   }
 
   // Which side of A is material: from the plan, or the side the bores' points lie on.

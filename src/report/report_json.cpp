@@ -77,11 +77,15 @@ json position_json(const PositionResult& p, json verdict, const ReportUnits& u) 
   return j;
 }
 
-/// Suspect points, numbered 1-based as in the point file's data order.
-json stray_json(const StrayPointReport& r, const ReportUnits& u) {
+/// Suspect points, numbered 1-based as in the point file's data order, with the file line of
+/// each when the input `role` has them (null otherwise: a mesh has no lines).
+json stray_json(const StrayPointReport& r, const ReportModel& m, const std::string& role) {
+  const ReportUnits& u = m.units;
   json points = json::array();
   for (const StrayPoint& p : r.points)
     points.push_back({{"point_number", p.index + 1},
+                      {"line", m.file_line(role, p.index) ? json(*m.file_line(role, p.index))
+                                                          : json(nullptr)},
                       {"residual", u.length(p.residual)},
                       {"excess", u.length(p.excess)}});
   return {{"screened", r.screened}, {"robust_scale", u.length(r.robust_scale)}, {"points", points}};
@@ -98,7 +102,8 @@ json fit_json(const CylinderFit& f, const ReportUnits& u) {
           {"message", f.summary.message}};
 }
 
-json size_datum_json(const SizeDatumResult& d, const ReportUnits& u) {
+json size_datum_json(const SizeDatumResult& d, const ReportModel& m) {
+  const ReportUnits& u = m.units;
   return {{"feature", std::string(feature_kind_name(d.kind))},
           {"mating_size", u.length(d.mating_size)},
           {"ambiguity", u.length(d.related_envelope.ambiguity)},
@@ -109,7 +114,7 @@ json size_datum_json(const SizeDatumResult& d, const ReportUnits& u) {
           {"mmb_size", optional_number(d.mmb_size, u)},
           {"shift_allowance",
            d.boundary == MaterialBoundary::mmb ? u.length(d.shift_allowance) : 0.0},
-          {"stray_points", stray_json(d.stray_points, u)}};
+          {"stray_points", stray_json(d.stray_points, m, std::string("datum ") + d.label)}};
 }
 
 json depth_json(const std::optional<DepthProfile>& d, const ReportUnits& u) {
@@ -226,7 +231,7 @@ json bore_json(const BoreResult& b, const BoreSummary& s, const BoreSensitivity*
                               verdict_json(row.perpendicularity_verdict)}});
   j["sensitivity"] = sensitivity;
   j["depth_profile"] = depth_json(s.depth, u);
-  j["stray_points"] = stray_json(b.stray_points, u);
+  j["stray_points"] = stray_json(b.stray_points, m, "bore " + b.id);
   j["warnings"] = s.warnings;
   return j;
 }
@@ -237,7 +242,8 @@ const BoreSensitivity* sensitivity_of(const ReportModel& m, const std::string& i
   return nullptr;
 }
 
-json datums_json(const PartCheckResult& r, const ReportUnits& u) {
+json datums_json(const PartCheckResult& r, const ReportModel& m) {
+  const ReportUnits& u = m.units;
   json datums;
   datums["A"] = {{"feature", "plane"},
                  {"association", std::string(association_name(r.datums.a.association))},
@@ -245,8 +251,8 @@ json datums_json(const PartCheckResult& r, const ReportUnits& u) {
                  {"normal", direction(r.datums.a.plane.normal)},
                  {"flatness", u.length(r.datums.a.flatness)},
                  {"material_side_inferred", r.datums.a.material_side_inferred},
-                 {"stray_points", stray_json(r.datums.a.stray_points, u)}};
-  if (r.datums.b) datums["B"] = size_datum_json(*r.datums.b, u);
+                 {"stray_points", stray_json(r.datums.a.stray_points, m, "datum A")}};
+  if (r.datums.b) datums["B"] = size_datum_json(*r.datums.b, m);
   // The plan's basic location of a bore, pin, slot or tab C (the plan requires it), in the frame.
   const auto c_basic = [&]() -> json {
     const PlanDatum* c = r.plan.datum('C');
@@ -254,7 +260,7 @@ json datums_json(const PartCheckResult& r, const ReportUnits& u) {
     return json::array({u.length(c->basic_location->x()), u.length(c->basic_location->y())});
   };
   if (r.datums.c_feature) {
-    datums["C"] = size_datum_json(*r.datums.c_feature, u);
+    datums["C"] = size_datum_json(*r.datums.c_feature, m);
     datums["C"]["basic"] = c_basic();
   }
   if (r.datums.c_width) {
@@ -268,13 +274,13 @@ json datums_json(const PartCheckResult& r, const ReportUnits& u) {
                    {"mmb_size", optional_number(w.mmb_size, u)},
                    {"shift_allowance",
                     w.boundary == MaterialBoundary::mmb ? u.length(w.shift_allowance) : 0.0},
-                   {"stray_points", stray_json(w.stray_points, u)}};
+                   {"stray_points", stray_json(w.stray_points, m, std::string("datum ") + w.label)}};
   }
   if (r.datums.c_plane)
     datums["C"] = {{"feature", "plane"},
                    {"point", point(r.datums.c_plane->plane.point, u)},
                    {"normal", direction(r.datums.c_plane->plane.normal)},
-                   {"stray_points", stray_json(r.datums.c_plane->stray_points, u)}};
+                   {"stray_points", stray_json(r.datums.c_plane->stray_points, m, "datum C")}};
   return datums;
 }
 
@@ -402,7 +408,7 @@ std::string format_json(const ReportModel& m) {
                 {"rotation_fixed", r.datums.rotation_fixed},
                 {"translation_fixed", r.datums.translation_fixed},
                 {"notes", m.frame_notes}};
-  j["datums"] = datums_json(r, u);
+  j["datums"] = datums_json(r, m);
 
   json characteristics = json::array();
   for (const Characteristic& c : m.characteristics)

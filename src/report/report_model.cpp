@@ -87,6 +87,21 @@ std::string in_report_unit(const std::string& text, const ReportUnits& units) {
   return out;
 }
 
+std::string with_file_lines(const std::string& text, const std::vector<std::size_t>& lines) {
+  if (lines.empty() || text.find("suspect point") == std::string::npos) return text;
+  static const std::regex number(R"(#(\d+))");
+  std::string out;
+  auto from = text.cbegin();
+  for (std::sregex_iterator it(text.begin(), text.end(), number), end; it != end; ++it) {
+    out.append(from, (*it)[0].second);
+    const std::size_t n = std::stoul((*it)[1].str());
+    if (n >= 1 && n <= lines.size()) out += " (line " + std::to_string(lines[n - 1]) + ")";
+    from = (*it)[0].second;
+  }
+  out.append(from, text.cend());
+  return out;
+}
+
 ReportUnits::ReportUnits(LengthUnit unit) noexcept
     : unit_(unit), per_mm_(1.0 / millimetres_per(unit)) {}
 
@@ -100,6 +115,19 @@ const Characteristic* ReportModel::find(std::string_view id) const noexcept {
   for (const Characteristic& c : characteristics)
     if (c.id == id) return &c;
   return nullptr;
+}
+
+const InputRecord* ReportModel::input(std::string_view role) const noexcept {
+  for (const InputRecord& in : inputs)
+    if (in.role == role) return &in;
+  return nullptr;
+}
+
+std::optional<std::size_t> ReportModel::file_line(std::string_view role,
+                                                  std::size_t index) const noexcept {
+  const InputRecord* in = input(role);
+  if (!in || index >= in->point_lines.size()) return std::nullopt;
+  return in->point_lines[index];
 }
 
 const BoreSummary* ReportModel::bore(std::string_view id) const noexcept {
@@ -164,7 +192,14 @@ ReportModel make_report_model(const PartCheckResult& r, const ReportModelOptions
     c.feature = "plane";
     m.datums.push_back(c);
   }
-  for (const std::string& note : d.notes) m.frame_notes.push_back(in_report_unit(note, m.units));
+  for (const std::string& note : d.notes) {
+    // A datum's stray-point note starts with its role, "datum B: ...".
+    const InputRecord* in = note.size() > 7 && note.compare(0, 6, "datum ") == 0
+                                ? m.input(note.substr(0, 7))
+                                : nullptr;
+    m.frame_notes.push_back(
+        in_report_unit(in ? with_file_lines(note, in->point_lines) : note, m.units));
+  }
 
   m.characteristics = report_characteristics(r);
   for (const BoreResult& b : r.bores) {
@@ -182,7 +217,9 @@ ReportModel make_report_model(const PartCheckResult& r, const ReportModelOptions
                               options.depth_samples);
     else if (b.position)
       s.depth = depth_profile(*b.position, b.id + "/position", options.depth_samples);
-    for (const std::string& w : b.warnings) s.warnings.push_back(in_report_unit(w, m.units));
+    const InputRecord* in = m.input("bore " + b.id);
+    for (const std::string& w : b.warnings)
+      s.warnings.push_back(in_report_unit(in ? with_file_lines(w, in->point_lines) : w, m.units));
     m.bores.push_back(std::move(s));
   }
   m.sensitivity = r.sensitivity;

@@ -23,6 +23,8 @@ struct InputRecord {
   std::filesystem::path path;
   std::string sha256;  ///< hex digest of the file's bytes
   std::size_t points = 0;
+  /// 1-based file line of each point (PointCloud::lines); empty when the format has no lines.
+  std::vector<std::size_t> point_lines;
 };
 
 /// Position and perpendicularity of a bore when datum A is associated by another method: shows

@@ -156,6 +156,10 @@ struct ReportModel {
 
   /// The characteristic with this id, or null.
   const Characteristic* find(std::string_view id) const noexcept;
+  /// The input record with this role ("datum A", "bore P3"), or null.
+  const InputRecord* input(std::string_view role) const noexcept;
+  /// The file line of point `index` (0-based, data order) of the input `role`, when known.
+  std::optional<std::size_t> file_line(std::string_view role, std::size_t index) const noexcept;
   /// The summary of the bore with this id, or null.
   const BoreSummary* bore(std::string_view id) const noexcept;
   /// Where the range of characteristic `c` comes from: its bore's depth profile for a position,
@@ -176,8 +180,14 @@ std::vector<Characteristic> report_characteristics(const PartCheckResult& result
 /// in" for an inch report). Unchanged for a millimetre report.
 std::string in_report_unit(const std::string& text, const ReportUnits& units);
 
+/// `text` with every point number "#N" of a stray-point message (1-based, the file's data order;
+/// prepare/stray_points.hpp) followed by its file line: "#N (line L)". Unchanged when `text` is
+/// not a stray-point message or `lines` is empty (a mesh has no lines).
+std::string with_file_lines(const std::string& text, const std::vector<std::size_t>& lines);
+
 /// Builds the model. `result` must outlive it (see ReportModel::evaluation). Warnings and frame
-/// notes are given in the report's unit (in_report_unit).
+/// notes are given in the report's unit (in_report_unit), stray points with their file lines
+/// (with_file_lines).
 ReportModel make_report_model(const PartCheckResult& result,
                               const ReportModelOptions& options = {});
 
