@@ -191,7 +191,7 @@ json bore_json(const BoreResult& b, const BoreSummary& s, const BoreSensitivity*
     p["motion"] = {{"shift", json::array({u.length(b.mobility_motion->shift.x()),
                                           u.length(b.mobility_motion->shift.y())})},
                    {"rotation_rad", b.mobility_motion->rotation_rad}};
-    p["reason"] = b.mobility_reason;
+    p["reason"] = in_report_unit(b.mobility_reason, u);
     j["position_with_mobility"] = p;
   } else {
     j["position_with_mobility"] = nullptr;
