@@ -444,6 +444,8 @@ PartCheckResult sensitivity_result() {
   second.perpendicularity->value = 0.0123;
   second.perpendicularity->allowed = 0.015;
   r.bores.push_back(second);
+  second.id = "manifold-cross-bore-left-upper-08";  // shortens like the one before
+  r.bores.push_back(second);
   r.characteristics.clear();
   for (const BoreResult& b : r.bores)
     for (const Characteristic& c : bore_characteristics(b)) r.characteristics.push_back(c);
@@ -475,6 +477,8 @@ TEST_CASE("table: widths from the content, long ids shortened and listed, lines 
   // Cut at 16 columns with "~", listed in full once below.
   CHECK(table.find("manifold-cross-~") != std::string::npos);
   CHECK(table.find("  manifold-cross-~ = manifold-cross-bore-left-upper-07\n") != std::string::npos);
+  // One that would shorten alike gets a number after the marker.
+  CHECK(table.find("  manifold-cross~2 = manifold-cross-bore-left-upper-08\n") != std::string::npos);
   // ASCII: every byte below 0x80 (ISO/IEC 646), angles in "deg", tilts in "urad".
   for (char c : table) CHECK(static_cast<unsigned char>(c) < 0x80);
   CHECK(table.find("tilt urad") != std::string::npos);

@@ -372,7 +372,8 @@ void evaluate_in_zone(BoreResult& result, const PlanBore& bore, const FitOptions
     const double bottom = projected ? 0.0 : own_bottom;
     if (geometry.median) geometry.centres = centres_in(top, bottom);
     result.position = evaluate_position(spec, top, bottom, projected, bonus_for(spec), geometry);
-    result.position->range_source = projected ? RangeSource::projected_zone : own_range_source(bore);
+    result.position->range_source =
+        projected ? RangeSource::projected_zone : own_range_source(bore);
   }
 
   // Perpendicularity to A over the bore's own depth (never projected).

@@ -274,7 +274,8 @@ json datums_json(const PartCheckResult& r, const ReportModel& m) {
                    {"mmb_size", optional_number(w.mmb_size, u)},
                    {"shift_allowance",
                     w.boundary == MaterialBoundary::mmb ? u.length(w.shift_allowance) : 0.0},
-                   {"stray_points", stray_json(w.stray_points, m, std::string("datum ") + w.label)}};
+                   {"stray_points",
+                    stray_json(w.stray_points, m, std::string("datum ") + w.label)}};
   }
   if (r.datums.c_plane)
     datums["C"] = {{"feature", "plane"},

@@ -45,20 +45,23 @@ struct Symbols {
 class Shortener {
  public:
   explicit Shortener(const Symbols& s) : cut_(s.cut) {}
+  /// `text`, or when it is longer than `cap` columns its start and the marker; two texts that
+  /// would shorten alike are told apart by a number after the marker.
   std::string operator()(const std::string& text, std::size_t cap) {
     if (columns(text) <= cap) return text;
-    std::string shortened;
-    std::size_t used = 0;
-    for (std::size_t k = 0; k < text.size(); ++k) {
-      const bool starts = (static_cast<unsigned char>(text[k]) & 0xC0) != 0x80;
-      if (starts && ++used > cap - 1) break;
-      shortened += text[k];
+    for (const auto& [shortened, full] : full_)
+      if (full == text) return shortened;
+    std::string suffix;
+    for (std::size_t n = 1;; ++n) {
+      const std::string candidate = prefix(text, cap - 1 - columns(suffix)) + cut_ + suffix;
+      bool taken = false;
+      for (const auto& [shortened, full] : full_) taken = taken || shortened == candidate;
+      if (!taken) {
+        full_.emplace_back(candidate, text);
+        return candidate;
+      }
+      suffix = std::to_string(n + 1);
     }
-    shortened += cut_;
-    bool listed = false;
-    for (const auto& [s, full] : full_) listed = listed || s == shortened;
-    if (!listed) full_.emplace_back(shortened, text);
-    return shortened;
   }
   void list(std::ostream& out) const {
     for (const auto& [s, full] : full_) out << "  " << s << " = " << full << '\n';
@@ -66,6 +69,16 @@ class Shortener {
   bool empty() const noexcept { return full_.empty(); }
 
  private:
+  /// The first `count` code points of `text`.
+  static std::string prefix(const std::string& text, std::size_t count) {
+    std::string out;
+    std::size_t used = 0;
+    for (char c : text) {
+      if ((static_cast<unsigned char>(c) & 0xC0) != 0x80 && ++used > count) break;
+      out += c;
+    }
+    return out;
+  }
   std::string cut_;
   std::vector<std::pair<std::string, std::string>> full_;
 };
@@ -263,8 +276,8 @@ std::string format_table(const ReportModel& m, const TableOptions& options) {
         const bool has_position = m.find(s.bore_id + "/position") != nullptr;
         const bool has_perpendicularity = m.find(s.bore_id + "/perpendicularity") != nullptr;
         const bool p_changed = has_position && row.position_verdict != planned.position_verdict;
-        const bool q_changed =
-            has_perpendicularity && row.perpendicularity_verdict != planned.perpendicularity_verdict;
+        const bool q_changed = has_perpendicularity &&
+                               row.perpendicularity_verdict != planned.perpendicularity_verdict;
         any_change = any_change || p_changed || q_changed;
         column.cells.push_back(
             (has_position ? u.text(row.position) : sym.none) + (p_changed ? "!" : " ") + "/ " +
