@@ -428,7 +428,11 @@ TEST_CASE("warnings: lengths in the report's unit, stray points with their file 
   CHECK(m.bores.front().warnings.front() ==
         "1 suspect point(s) (largest local excess 0.00100 inch at point #2 (line 4) of the file); "
         "verdicts use all points: review the data");
-  CHECK(format_json(m).find("\"line\": 4") != std::string::npos);
+  const std::string json = format_json(m);
+  CHECK(json.find("\"line\": 4") != std::string::npos);
+  // The size reason in inch too: 11.9953 mm = 0.4723 inch, 12 mm = 0.4724 inch (4 decimals).
+  CHECK(json.find("\"reason\": \"actual mating envelope 0.4723 is below the lower limit 0.4724\"") !=
+        std::string::npos);
 }
 
 namespace {

@@ -130,6 +130,18 @@ json depth_json(const std::optional<DepthProfile>& d, const ReportUnits& u) {
           {"samples", samples}};
 }
 
+/// size_reason() with its figures in the report's unit (it prints the characteristics' values
+/// and limits as they are, and those are in mm).
+std::string size_reason_in_unit(const ReportModel& m, const std::string& bore) {
+  if (m.units.unit() == LengthUnit::millimetre) return size_reason(m.characteristics, bore);
+  std::vector<Characteristic> own = m.of_feature(bore);
+  for (Characteristic& c : own) {
+    c.value = m.units.length(c.value);
+    c.tolerance = m.units.length(c.tolerance);
+  }
+  return size_reason(own, bore);
+}
+
 json text_or_null(const std::string& text) { return text.empty() ? json(nullptr) : json(text); }
 
 json part_json(const PartIdentity& p) {
@@ -179,7 +191,7 @@ json bore_json(const BoreResult& b, const BoreSummary& s, const BoreSensitivity*
                {"verdict", combined_verdict(m, {b.id + "/size/lower",
                                                 b.id + "/size/lower/two-point",
                                                 b.id + "/size/upper"})},
-               {"reason", size_reason(m.characteristics, b.id)}};
+               {"reason", size_reason_in_unit(m, b.id)}};
   j["form"] = {{"cylindricity", u.length(b.form.cylindricity)},
                {"tolerance", optional_number(b.form.tolerance, u)},
                {"verdict", verdict_of(m, b.id + "/cylindricity")}};
