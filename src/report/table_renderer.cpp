@@ -83,12 +83,12 @@ class Shortener {
   std::vector<std::pair<std::string, std::string>> full_;
 };
 
-/// `text` after `lead`, wrapped at blanks so no line exceeds `width` columns (a word longer
+/// `text` after `opening`, wrapped at blanks so no line exceeds `width` columns (a word longer
 /// than a line stays whole); continuation lines are indented by `indent` blanks.
-std::string wrapped(const std::string& lead, const std::string& text, std::size_t width,
+std::string wrapped(const std::string& opening, const std::string& text, std::size_t width,
                     std::size_t indent) {
-  std::string out = lead, line_start_pad(indent, ' ');
-  std::size_t used = columns(lead);
+  std::string out = opening, line_start_pad(indent, ' ');
+  std::size_t used = columns(opening);
   std::istringstream words(text);
   std::string word;
   bool first = true;
