@@ -3,11 +3,13 @@
 #include <catch2/catch.hpp>
 #include <cmath>
 #include <sstream>
+#include <regex>
 #include <stdexcept>
 #include <string>
 
 #include "cylzone/core/errors.hpp"
 #include "cylzone/decide/bore_characteristics.hpp"
+#include "cylzone/io/read_points.hpp"
 #include "cylzone/report/report.hpp"
 #include "cylzone/report/report_reader.hpp"
 
@@ -58,7 +60,7 @@ PartCheckResult result_with_size(LengthUnit unit) {
   b.form.cylindricity = 0.0041;
   b.form.tolerance = 0.005;
   r.inputs.push_back({"bore H1", "points/H1.csv",
-                      "e3b0c44298fc1c149afbf4c8996fb92427ae41e4649b934ca495991b7852b855", 0});
+                      "e3b0c44298fc1c149afbf4c8996fb92427ae41e4649b934ca495991b7852b855", 0, {}});
   r.characteristics = bore_characteristics(b);
   r.verdict = combine(r.characteristics);
   return r;
@@ -198,15 +200,17 @@ TEST_CASE("CSV: RFC 4180 quoting, four decimals in mm, one row per characteristi
   CHECK_FALSE(std::getline(lines, extra));
   CHECK(header ==
         "part,bore,characteristic,reference,value,tolerance,bonus,allowed,comparison,verdict,"
-        "decisive,units,id,caution");
+        "decisive,units,id,caution,part_id,serial,timestamp,notes,range_source");
   CHECK(first ==
         "\"Bracket, \"\"first\"\" article, rev B\",H1,\"position, frame fixed\",A|B(M) MMC,"
-        "0.1000,0.0800,0.0100,0.0900,<=,does not conform,no,mm,H1/position," + caution);
+        "0.1000,0.0800,0.0100,0.0900,<=,does not conform,no,mm,H1/position," + caution +
+            ",,,,,plan depth");
   CHECK(second ==
         "\"Bracket, \"\"first\"\" article, rev B\",H1,\"position, datum mobility\",A|B(M) MMC,"
-        "0.0850,0.0800,0.0100,0.0900,<=,conforms,yes,mm,H1/position/mobility," + caution);
+        "0.0850,0.0800,0.0100,0.0900,<=,conforms,yes,mm,H1/position/mobility," + caution +
+            ",,,,,plan depth");
   const std::vector<std::string> fields = csv_fields(second);
-  REQUIRE(fields.size() == 14);
+  REQUIRE(fields.size() == 19);
   CHECK(fields[0] == "Bracket, \"first\" article, rev B");
   CHECK(fields[13] == safety_caution);
 }
@@ -298,4 +302,206 @@ TEST_CASE("JSON reader: malformed input names the source and the JSON path") {
       replaced(good, "\"units\": \"mm\"", "\"units\": \"cubit\"", "\"plan\": {"), &key);
   CHECK(key == "plan.units");
   CHECK(units.find("cubit") != std::string::npos);
+}
+
+// ------------------------------------------------------------------ full depth, identity, table
+
+TEST_CASE("range source: a bore without a plan depth says its range is the probed extent") {
+  // ASME Y14.5-2018 (position, from memory for the clause): the zone applies over the full
+  // length of the feature; a range taken from the probed band is not that, and every report
+  // must say so.
+  PartCheckResult r = hand_made_result();
+  BoreResult& b = r.bores.front();
+  b.depth_source = RangeSource::probed_extent;
+  b.position->range_source = RangeSource::probed_extent;
+  b.position_with_mobility->range_source = RangeSource::probed_extent;
+  const ReportModel m = make_report_model(r);
+  REQUIRE(m.bores.front().depth);
+  CHECK(m.bores.front().depth->range_source == RangeSource::probed_extent);
+  CHECK(m.range_source(*m.find("H1/position/mobility")) == RangeSource::probed_extent);
+
+  const std::string json = format_json(m);
+  CHECK(json.find("\"depth_source\": \"probed extent\"") != std::string::npos);
+  CHECK(json.find("\"range_source\": \"probed extent\"") != std::string::npos);
+  std::istringstream csv(format_csv(m));
+  std::string header, row;
+  std::getline(csv, header);
+  std::getline(csv, row);
+  CHECK(csv_fields(row).back() == "probed extent");
+  const std::string table = format_table(m);
+  CHECK(table.find("no full depth in the plan for H1") != std::string::npos);
+
+  // Read back: the source survives the round trip; a projected zone keeps its own source.
+  CHECK(read_report_json(json, "r.json").bores.front().depth->range_source ==
+        RangeSource::probed_extent);
+  b.position_with_mobility->range_source = RangeSource::projected_zone;
+  b.depth_source = RangeSource::plan_depth;
+  const ReportModel projected = make_report_model(r);
+  CHECK(projected.range_source(*projected.find("H1/position/mobility")) ==
+        RangeSource::projected_zone);
+  CHECK(format_table(projected).find("no full depth") == std::string::npos);
+}
+
+TEST_CASE("part identity: CSV columns after the existing ones, a JSON object, the table header") {
+  ReportModelOptions options;
+  options.part.id = "HM-3207";
+  options.part.serial = "S 0042";
+  options.part.timestamp = "2026-12-02T17:40:00Z";
+  options.part.notes = {{"operator", "Lee"}, {"fixture", "F2, rev \"b\""}};
+  const PartCheckResult r = hand_made_result();
+  const ReportModel m = make_report_model(r, options);
+
+  std::istringstream csv(format_csv(m));
+  std::string header, row;
+  std::getline(csv, header);
+  std::getline(csv, row);
+  const std::vector<std::string> names = csv_fields(header), fields = csv_fields(row);
+  REQUIRE(fields.size() == names.size());
+  // The first 14 columns keep their positions; identity follows the caution.
+  CHECK(names[13] == "caution");
+  CHECK(names[14] == "part_id");
+  CHECK(fields[14] == "HM-3207");
+  CHECK(fields[15] == "S 0042");
+  CHECK(fields[16] == "2026-12-02T17:40:00Z");
+  // RFC 4180: the comma and quotes of a note survive quoting.
+  CHECK(fields[17] == "operator=Lee; fixture=F2, rev \"b\"");
+
+  const std::string json = format_json(m);
+  const ReportModel back = read_report_json(json, "r.json");
+  CHECK(back.part.id == "HM-3207");
+  CHECK(back.part.serial == "S 0042");
+  CHECK(back.part.timestamp == "2026-12-02T17:40:00Z");
+  REQUIRE(back.part.notes.size() == 2);  // a JSON object: read back in key order
+  CHECK(back.part.notes[0] == std::make_pair(std::string("fixture"), std::string("F2, rev \"b\"")));
+
+  const std::string table = format_table(m);
+  CHECK(table.find("part: id HM-3207, serial S 0042, time 2026-12-02T17:40:00Z, operator=Lee; "
+                   "fixture=F2, rev \"b\"\n") != std::string::npos);
+  // Nothing given: null in JSON, empty CSV cells, no header line.
+  CHECK(format_json(make_report_model(r)).find("\"serial\": null") != std::string::npos);
+  CHECK(format_table(make_report_model(r)).find("part: ") == std::string::npos);
+}
+
+TEST_CASE("timestamps: ISO 8601 date-times with a zone") {
+  // RFC 3339 section 5.8 examples (a profile of ISO 8601-1:2019, extended format).
+  CHECK(is_iso8601_timestamp("1985-04-12T23:20:50.52Z"));
+  CHECK(is_iso8601_timestamp("1996-12-19T16:39:57-08:00"));
+  CHECK(is_iso8601_timestamp("1990-12-31T23:59:60Z"));  // a leap second
+  CHECK(is_iso8601_timestamp("2026-12-02T17:40Z"));     // ISO 8601 reduced precision
+  CHECK_FALSE(is_iso8601_timestamp("2026-12-02"));                 // no time: not a run's time
+  CHECK_FALSE(is_iso8601_timestamp("2026-12-02T17:40:00"));        // local time without zone
+  CHECK_FALSE(is_iso8601_timestamp("2026-13-02T17:40:00Z"));       // month 13
+  CHECK_FALSE(is_iso8601_timestamp("2026-12-02T24:00:00Z"));       // hour 24
+  CHECK_FALSE(is_iso8601_timestamp("2026-12-02 17:40:00Z"));       // blank for T
+  CHECK_FALSE(is_iso8601_timestamp("2026-12-02T17:40:00Z; rm"));   // trailing text
+}
+
+TEST_CASE("warnings: lengths in the report's unit, stray points with their file lines") {
+  // The inch is 25.4 mm exactly (common practice): 0.0254 mm = 0.001 inch, 2.54 mm = 0.1 inch.
+  const ReportUnits inch(LengthUnit::inch);
+  CHECK(in_report_unit("the depth range extends 0.0254 mm above and 2.5400 mm below", inch) ==
+        "the depth range extends 0.00100 inch above and 0.10000 inch below");
+  CHECK(in_report_unit("shift up to 12.7000 mm; 3 mmb", inch) == "shift up to 0.50000 inch; 3 mmb");
+  CHECK(in_report_unit("0.0254 mm", ReportUnits()) == "0.0254 mm");  // mm: unchanged
+
+  // Data order 1-based -> the file's lines.
+  const std::vector<std::size_t> lines{3, 4, 7, 8};
+  CHECK(with_file_lines("2 suspect point(s) (largest local excess 0.0100 mm at point #3 of the "
+                        "file); points #1, #4 are contacts",
+                        lines) ==
+        "2 suspect point(s) (largest local excess 0.0100 mm at point #3 (line 7) of the "
+        "file); points #1 (line 3), #4 (line 8) are contacts");
+  CHECK(with_file_lines("per ASME Rule #1", lines) == "per ASME Rule #1");  // not a stray message
+
+  // The delimited reader records each point's line: comments, a header and blank lines skipped.
+  const PointCloud cloud =
+      parse_delimited_points("# probe log\nx,y,z\n1,2,3\n\n4,5,6  # note\n# end\n7,8,9\n", "p.csv");
+  CHECK(cloud.lines == std::vector<std::size_t>{3, 5, 7});
+
+  // Through the model: a bore's stray-point warning names the lines, the JSON each point's line.
+  PartCheckResult r = result_with_size(LengthUnit::inch);
+  r.inputs.front().point_lines = lines;
+  r.bores.front().warnings = {"1 suspect point(s) (largest local excess 0.0254 mm at point #2 of "
+                              "the file); verdicts use all points: review the data"};
+  r.bores.front().stray_points.points.push_back({1, 0.03, 0.0254});
+  const ReportModel m = make_report_model(r);
+  CHECK(m.bores.front().warnings.front() ==
+        "1 suspect point(s) (largest local excess 0.00100 inch at point #2 (line 4) of the file); "
+        "verdicts use all points: review the data");
+  const std::string json = format_json(m);
+  CHECK(json.find("\"line\": 4") != std::string::npos);
+  // The size reason in inch too: 11.9953 mm = 0.4723 inch, 12 mm = 0.4724 inch (4 decimals).
+  CHECK(json.find("\"reason\": \"actual mating envelope 0.4723 is below the lower limit 0.4724\"") !=
+        std::string::npos);
+}
+
+namespace {
+
+/// A result with three bores: a long id, one without a perpendicularity tolerance, and a
+/// sensitivity study where two associations give identical figures for every bore.
+PartCheckResult sensitivity_result() {
+  PartCheckResult r = hand_made_result();
+  BoreResult second = r.bores.front();
+  second.id = "manifold-cross-bore-left-upper-07";  // longer than the column's cap
+  second.perpendicularity = PerpendicularityResult{};
+  second.perpendicularity->spec.tolerance = 0.015;
+  second.perpendicularity->value = 0.0123;
+  second.perpendicularity->allowed = 0.015;
+  r.bores.push_back(second);
+  second.id = "manifold-cross-bore-left-upper-08";  // shortens like the one before
+  r.bores.push_back(second);
+  r.characteristics.clear();
+  for (const BoreResult& b : r.bores)
+    for (const Characteristic& c : bore_characteristics(b)) r.characteristics.push_back(c);
+  for (const BoreResult& b : r.bores) {
+    BoreSensitivity s;
+    s.bore_id = b.id;
+    const double q = b.perpendicularity ? 0.0123 : 0.0;
+    s.rows = {{PlaneAssociation::tangent_least_squares, 0.0850, q, Verdict::conforms, {}},
+              {PlaneAssociation::tangent_minimax, 0.0861, q + 0.001, Verdict::conforms, {}},
+              {PlaneAssociation::least_squares, 0.0840, q, Verdict::conforms, {}},
+              {PlaneAssociation::minimum_zone, 0.0861, q + 0.001, Verdict::conforms, {}}};
+    s.position_spread = 0.0021;
+    s.perpendicularity_spread = 0.001;
+    r.sensitivity.push_back(s);
+  }
+  return r;
+}
+
+}  // namespace
+
+TEST_CASE("table: widths from the content, long ids shortened and listed, lines within 120") {
+  const PartCheckResult r = sensitivity_result();
+  const ReportModel m = make_report_model(r);
+  TableOptions ascii;
+  const std::string table = format_table(m, ascii);
+  std::istringstream lines(table);
+  std::string line;
+  while (std::getline(lines, line)) CHECK(line.size() <= 120);
+  // Cut at 16 columns with "~", listed in full once below.
+  CHECK(table.find("manifold-cross-~") != std::string::npos);
+  CHECK(table.find("  manifold-cross-~ = manifold-cross-bore-left-upper-07\n") != std::string::npos);
+  // One that would shorten alike gets a number after the marker.
+  CHECK(table.find("  manifold-cross~2 = manifold-cross-bore-left-upper-08\n") != std::string::npos);
+  // ASCII: every byte below 0x80 (ISO/IEC 646), angles in "deg", tilts in "urad".
+  for (char c : table) CHECK(static_cast<unsigned char>(c) < 0x80);
+  CHECK(table.find("tilt urad") != std::string::npos);
+  CHECK(table.find(" deg\n") != std::string::npos);
+  // Identical figures of two associations: one column headed with both names.
+  CHECK(table.find("tangent-minimax = minimum-zone") != std::string::npos);
+  CHECK(table.find("minimum-zone", table.find("minimum-zone") + 1) == std::string::npos);
+  // H1 has no perpendicularity tolerance: "-", never 0.0000, in its sensitivity cells.
+  const std::size_t h1 = table.find("\nH1 ", table.find("Sensitivity"));
+  REQUIRE(h1 != std::string::npos);
+  const std::string h1_row = table.substr(h1 + 1, table.find('\n', h1 + 1) - h1 - 1);
+  CHECK(h1_row.find("0.0850 / -") != std::string::npos);
+  CHECK(h1_row.find("0.0000") == std::string::npos);
+
+  TableOptions unicode;
+  unicode.unicode = true;
+  const std::string utf8 = format_table(m, unicode);
+  CHECK(utf8.find("tilt \u00b5rad") != std::string::npos);
+  CHECK(utf8.find("\u00b0\n") != std::string::npos);
+  CHECK(utf8.find("0.0850 / \u2014") != std::string::npos);
+  CHECK(utf8.find("manifold-cross-\u2026") != std::string::npos);
 }

@@ -13,7 +13,8 @@ PointCloud load_and_record(const std::filesystem::path& file, const std::string&
   const LoadedFile loaded = load(file);
   PointCloud cloud = parse_points(loaded.bytes(), file.string(),
                                   read.format.value_or(format_from_extension(file)), read);
-  records.push_back({role, file, detail::sha256_of_bytes(loaded.bytes()), cloud.size()});
+  records.push_back(
+      {role, file, detail::sha256_of_bytes(loaded.bytes()), cloud.size(), cloud.lines});
   return cloud;
 }
 
@@ -21,7 +22,7 @@ PointCloud load_and_record(const std::filesystem::path& file, const std::string&
 
 PartInputs load_part_inputs(const PartPlan& plan) {
   PartInputs inputs;
-  inputs.records.push_back({"plan", plan.file, plan.sha256, 0});
+  inputs.records.push_back({"plan", plan.file, plan.sha256, 0, {}});
   ReadOptions read;
   read.unit = plan.unit;
   for (const PlanDatum& datum : plan.datums)

@@ -1,6 +1,9 @@
 // `cylzone check PLAN`: the main job. Parses arguments, runs the library's part check, prints
 // the table and writes the requested reports (all of them or none, io/atomic_write.hpp).
-// Exit 0: all conform; 1: something does not conform (or is not proven); 2: input error.
+// Exit 0: all conform; 1: something does not conform; 2: input error; 3: not proven.
+#include <cctype>
+#include <cstdlib>
+#include <ctime>
 #include <iostream>
 #include <memory>
 #include <string>
@@ -12,6 +15,7 @@
 #include "cylzone/io/atomic_write.hpp"
 #include "cylzone/plan/plan.hpp"
 #include "cylzone/report/report.hpp"
+#include "cylzone/report/report_model.hpp"
 
 namespace cylzone::cli {
 namespace {
@@ -23,7 +27,70 @@ struct CheckArguments {
   bool no_sensitivity = false;
   bool quiet = false;
   std::size_t threads = hardware_threads();
+  std::string part_id;
+  std::string serial;
+  std::string time;                ///< ISO 8601; empty: the run's UTC time
+  std::vector<std::string> notes;  ///< KEY=VALUE
 };
+
+/// The run's time in UTC, ISO 8601 ("2026-12-02T17:40:00Z").
+std::string utc_now() {
+  const std::time_t now = std::time(nullptr);
+  std::tm utc{};
+  gmtime_r(&now, &utc);
+  char buffer[32];
+  std::strftime(buffer, sizeof buffer, "%Y-%m-%dT%H:%M:%SZ", &utc);
+  return buffer;
+}
+
+/// A text option must be one printable line: it ends up in CSV cells and a table header.
+void require_printable(const std::string& text, const std::string& option) {
+  for (char c : text)
+    if (static_cast<unsigned char>(c) < 0x20 || c == 0x7f)
+      throw std::invalid_argument(option + ": control characters are not allowed");
+  if (text.size() > 200) throw std::invalid_argument(option + ": longer than 200 characters");
+}
+
+PartIdentity part_identity(const CheckArguments& args) {
+  PartIdentity part;
+  require_printable(args.part_id, "--part-id");
+  require_printable(args.serial, "--serial");
+  part.id = args.part_id;
+  part.serial = args.serial;
+  if (!args.time.empty() && !is_iso8601_timestamp(args.time))
+    throw std::invalid_argument("--time: '" + args.time +
+                                "' is not an ISO 8601 date-time with a zone "
+                                "(e.g. 2026-12-02T17:40:00Z)");
+  part.timestamp = args.time.empty() ? utc_now() : args.time;
+  for (const std::string& note : args.notes) {
+    require_printable(note, "--note");
+    const std::size_t eq = note.find('=');
+    const std::string key = note.substr(0, eq);
+    if (eq == std::string::npos || key.empty())
+      throw std::invalid_argument("--note: expected KEY=VALUE, got '" + note + "'");
+    for (char c : key)
+      if (!std::isalnum(static_cast<unsigned char>(c)) && c != '_' && c != '-' && c != '.')
+        throw std::invalid_argument("--note: the key '" + key +
+                                    "' may hold letters, digits, '_', '-' and '.' only");
+    for (const auto& [seen, value] : part.notes)
+      if (seen == key) throw std::invalid_argument("--note: key '" + key + "' given twice");
+    part.notes.emplace_back(key, note.substr(eq + 1));
+  }
+  return part;
+}
+
+/// UTF-8 output when the locale says so (LC_ALL, else LC_CTYPE, else LANG: the first one set
+/// decides, as POSIX orders them).
+bool utf8_locale() {
+  for (const char* name : {"LC_ALL", "LC_CTYPE", "LANG"}) {
+    const char* value = std::getenv(name);
+    if (!value || !*value) continue;
+    std::string v(value);
+    for (char& c : v) c = static_cast<char>(std::tolower(static_cast<unsigned char>(c)));
+    return v.find("utf-8") != std::string::npos || v.find("utf8") != std::string::npos;
+  }
+  return false;
+}
 
 /// Every file the plan reads: reports must never be written over one of them.
 std::vector<std::filesystem::path> plan_inputs(const PartPlan& plan) {
@@ -34,6 +101,8 @@ std::vector<std::filesystem::path> plan_inputs(const PartPlan& plan) {
 }
 
 int run_check(const CheckArguments& args) {
+  ReportModelOptions model_options;
+  model_options.part = part_identity(args);  // argument errors before any file is read
   const PartPlan plan = read_plan(args.plan);
   // Output paths are checked before the evaluation: a bad one costs nothing and leaves nothing.
   using Renderer = std::string (*)(const ReportModel&);
@@ -48,7 +117,7 @@ int run_check(const CheckArguments& args) {
   options.sensitivity = !args.no_sensitivity;
   options.evaluation.threads = args.threads;
   const PartCheckResult result = check_part(plan, options);
-  const ReportModel model = make_report_model(result);
+  const ReportModel model = make_report_model(result, model_options);
 
   std::vector<std::filesystem::path> inputs;
   for (const InputRecord& input : result.inputs) inputs.push_back(input.path);
@@ -57,9 +126,11 @@ int run_check(const CheckArguments& args) {
   for (const auto& [target, render] : outputs) files.push_back({target, render(model)});
   write_outputs(files, inputs, std::cout);
   // A report on standard output keeps it machine-readable: the table then goes to stderr.
+  TableOptions table_options;
+  table_options.unicode = utf8_locale();
   bool report_on_stdout = false;
   for (const OutputTarget& t : targets) report_on_stdout |= is_standard_output(t.path);
-  if (!args.quiet) (report_on_stdout ? std::cerr : std::cout) << format_table(model);
+  if (!args.quiet) (report_on_stdout ? std::cerr : std::cout) << format_table(model, table_options);
   switch (model.verdict) {
     case Verdict::conforms: return exit_success;
     case Verdict::does_not_conform: return exit_nonconforming;
@@ -87,6 +158,15 @@ void add_check_command(CLI::App& app, CommandResult& result) {
                     "run at most this many threads (default: the machine's cores); results do "
                     "not depend on it")
       ->check(CLI::Range(std::size_t{1}, std::size_t{1024}));
+  check->add_option("--part-id", args->part_id,
+                    "part number or id, written into the table, JSON and CSV");
+  check->add_option("--serial", args->serial, "serial number of the part");
+  check->add_option("--time", args->time,
+                    "ISO 8601 date-time of the measurement, e.g. 2026-12-02T17:40:00Z "
+                    "(default: the run's UTC time; give it for reproducible reports)");
+  check->add_option("--note", args->notes,
+                    "KEY=VALUE free text, repeatable (operator, machine, order, ...)")
+      ->allow_extra_args(false);
   check->callback([args, &result]() {
     result.context = args->plan + ": ";
     result.run = [args]() { return run_check(*args); };

@@ -4,6 +4,7 @@
 #include <CLI/CLI.hpp>
 #include <functional>
 #include <string>
+#include <string_view>
 
 namespace cylzone::cli {
 
@@ -13,6 +14,15 @@ inline constexpr int exit_input_error = 2;
 /// Not every characteristic could be decided (e.g. a decision rule that counts the measurement
 /// uncertainty proved neither conformance nor non-conformance), and none is proven not to conform.
 inline constexpr int exit_not_proven = 3;
+
+/// The exit codes as `--help` lists them.
+inline constexpr std::string_view exit_code_help =
+    "Exit codes: 0 every characteristic conforms (fit: success), 1 a characteristic does not "
+    "conform, 2 input or argument error, 3 conformance not proven.";
+
+/// `text` as one printable line of at most `limit` bytes: control characters become '?', a
+/// longer text is cut and ends in "...". Error messages may quote file contents or arguments.
+std::string one_line(std::string_view text, std::size_t limit = 400);
 
 struct CommandResult {
   std::function<int()> run;

@@ -62,12 +62,14 @@ void add_fit_command(CLI::App& app, CommandResult& result) {
   fit->add_option("POINTS", args->points, "point file (.csv/.txt/.xyz, .ply, .obj, .off, .stl)")
       ->required();
   fit->add_option("--method", args->method,
-                  "least-squares (default), minimum-zone, max-inscribed, min-circumscribed");
+                  "least-squares, minimum-zone, max-inscribed or min-circumscribed")
+      ->capture_default_str();
   fit->add_option("--axis-hint", args->axis_hint,
                   "I,J,K: starting axis and sign of the reported direction");
   fit->add_option("--fixed-axis", args->fixed_axis,
                   "I,J,K: hold the cylinder axis / circle normal at this direction");
-  fit->add_option("--units", args->units, "unit of the point file and of the output: mm or inch");
+  fit->add_option("--units", args->units, "unit of the point file and of the output: mm or inch")
+      ->capture_default_str();
   fit->add_flag("--json", args->json, "print one JSON object (docs/fit-json.md)");
   fit->callback([args, &result]() {
     result.run = [args, &result]() { return run_fit(*args, result); };

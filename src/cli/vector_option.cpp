@@ -1,5 +1,7 @@
 #include "cli/vector_option.hpp"
 
+#include "cli/commands.hpp"
+
 #include <charconv>
 #include <cmath>
 #include <stdexcept>
@@ -27,6 +29,17 @@ Eigen::Vector3d parse_direction(const std::string& text, const std::string& opti
     throw std::invalid_argument(option + " expects three numbers I,J,K, got '" + text + "'");
   if (v.norm() == 0.0) throw std::invalid_argument(option + " must not be the zero vector");
   return v;
+}
+
+std::string one_line(std::string_view text, std::size_t limit) {
+  const bool cut = text.size() > limit;
+  if (cut) text = text.substr(0, limit > 3 ? limit - 3 : 0);
+  std::string out;
+  for (char c : text) {
+    const auto byte = static_cast<unsigned char>(c);
+    out += (byte < 0x20 || byte == 0x7f) ? '?' : c;  // UTF-8 bytes >= 0x80 are kept
+  }
+  return cut ? out + "..." : out;
 }
 
 }  // namespace cylzone::cli

@@ -285,6 +285,14 @@ std::pair<double, double> own_range(const PlanBore& bore, const BoreResult& resu
   return {top, bottom};
 }
 
+/// Where own_range() took its ends from.
+RangeSource own_range_source(const PlanBore& bore) {
+  const int from_plan = bore.depth_top.has_value() + bore.depth_bottom.has_value();
+  return from_plan == 2   ? RangeSource::plan_depth
+         : from_plan == 1 ? RangeSource::plan_depth_and_probed
+                          : RangeSource::probed_extent;
+}
+
 /// Everything that depends on the frame: the toleranced axis (2.) in the zone, tilt (10.),
 /// position (5.) and perpendicularity (6.). Needs the fits, the sections, the zone and the
 /// probed extent in `result`; used by evaluate_bore and moved_to_frame.
@@ -367,6 +375,8 @@ void evaluate_in_zone(BoreResult& result, const PlanBore& bore, const FitOptions
     const double bottom = projected ? base : own_bottom;
     if (geometry.median) geometry.centres = centres_in(top, bottom);
     result.position = evaluate_position(spec, top, bottom, projected, bonus_for(spec), geometry);
+    result.position->range_source =
+        projected ? RangeSource::projected_zone : own_range_source(bore);
   }
 
   // Perpendicularity to A over the bore's own depth (never projected).
@@ -525,6 +535,7 @@ BoreResult evaluate_bore(const BoreInput& input, const BoreEvaluationOptions& op
   result.probed_top = local.row(2).maxCoeff();
   result.probed_bottom = local.row(2).minCoeff();
   const auto [own_top, own_bottom] = own_range(bore, result);
+  result.depth_source = own_range_source(bore);
   // The zone applies over the full depth, so a short extrapolation beyond the probed band (a
   // probe cannot reach the very edge) is normal and shown in the report's depth table. An axis
   // determined from a band much shorter than the range it is judged over deserves a warning:
@@ -649,8 +660,10 @@ PositionResult position_after_frame_motion(const BoreResult& bore, const PlanBor
     axis.direction = r_t * bore.axis.direction;
     geometry.straight = for_bore(plan, [&] { return StraightAxis::from_axis(axis, bore.zone); });
   }
-  return evaluate_position(before.spec, before.range_top, before.range_bottom, before.projected,
-                           before.bonus, geometry);
+  PositionResult after = evaluate_position(before.spec, before.range_top, before.range_bottom,
+                                           before.projected, before.bonus, geometry);
+  after.range_source = before.range_source;
+  return after;
 }
 
 BoreResult moved_to_frame(const BoreResult& bore, const PlanBore& plan,

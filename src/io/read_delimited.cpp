@@ -405,6 +405,8 @@ PointCloud parse_delimited_unguarded(std::string_view text, const std::string& s
   for (int role = 0; role < used_roles; ++role)
     role_of_field[static_cast<std::size_t>(columns.field_of_role[static_cast<std::size_t>(role)])] = role;
 
+  std::vector<std::size_t> point_lines;  // file line of each point, for reports
+  point_lines.reserve(capacity);
   Eigen::Index n = 0;
   do {
     double values[6];
@@ -430,6 +432,7 @@ PointCloud parse_delimited_unguarded(std::string_view text, const std::string& s
       const Eigen::Vector3d v = Eigen::Vector3d(values[3], values[4], values[5]) / largest;
       vectors.col(n) = v / v.norm();
     }
+    point_lines.push_back(line.number);
     ++n;
   } while (lines.next(line));
 
@@ -442,6 +445,7 @@ PointCloud parse_delimited_unguarded(std::string_view text, const std::string& s
   }
   cloud.source = source;
   cloud.file_unit = options.unit;
+  cloud.lines = std::move(point_lines);
   return cloud;
 }
 

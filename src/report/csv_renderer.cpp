@@ -29,13 +29,19 @@ std::string format_csv(const ReportModel& m) {
   const std::string caution = csv_field(safety_caution);
   std::ostringstream out;
   out << "part,bore,characteristic,reference,value,tolerance,bonus,allowed,comparison,verdict,"
-         "decisive,units,id,caution\n";
+         "decisive,units,id,caution,part_id,serial,timestamp,notes,range_source\n";
+  // Identity columns, the same on every row: rows of many parts can be told apart.
+  const std::string identity = csv_field(m.part.id) + ',' + csv_field(m.part.serial) + ',' +
+                               csv_field(m.part.timestamp) + ',' +
+                               csv_field(m.part.notes_text());
   for (const Characteristic& c : m.characteristics) {
+    const std::optional<RangeSource> source = m.range_source(c);
     out << csv_field(m.plan_name) << ',' << csv_field(c.feature) << ',' << csv_field(c.name) << ','
         << csv_field(c.reference) << ',' << u.text(c.value) << ',' << u.text(c.tolerance) << ','
         << u.text(c.bonus) << ',' << u.text(c.allowed) << ',' << comparison_symbol(c.comparison)
         << ',' << verdict_name(c.verdict) << ',' << (c.decisive ? "yes" : "no") << ','
-        << u.name() << ',' << csv_field(c.id) << ',' << caution << '\n';
+        << u.name() << ',' << csv_field(c.id) << ',' << caution << ',' << identity << ','
+        << (source ? range_source_name(*source) : "") << '\n';
   }
   return out.str();
 }

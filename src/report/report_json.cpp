@@ -58,6 +58,7 @@ json position_json(const PositionResult& p, json verdict, const ReportUnits& u) 
             {"modifier", std::string(condition_name(p.spec.condition))},
             {"datums", datum_references_text(p.spec.datums)},
             {"projected", p.projected},
+            {"range_source", range_source_name(p.range_source)},
             {"projected_height", optional_number(p.spec.projected_height, u)},
             {"range", {{"top", u.length(p.range_top)}, {"bottom", u.length(p.range_bottom)}}},
             {"value", u.length(p.value)},
@@ -76,11 +77,15 @@ json position_json(const PositionResult& p, json verdict, const ReportUnits& u) 
   return j;
 }
 
-/// Suspect points, numbered 1-based as in the point file's data order.
-json stray_json(const StrayPointReport& r, const ReportUnits& u) {
+/// Suspect points, numbered 1-based as in the point file's data order, with the file line of
+/// each when the input `role` has them (null otherwise: a mesh has no lines).
+json stray_json(const StrayPointReport& r, const ReportModel& m, const std::string& role) {
+  const ReportUnits& u = m.units;
   json points = json::array();
   for (const StrayPoint& p : r.points)
     points.push_back({{"point_number", p.index + 1},
+                      {"line", m.file_line(role, p.index) ? json(*m.file_line(role, p.index))
+                                                          : json(nullptr)},
                       {"residual", u.length(p.residual)},
                       {"excess", u.length(p.excess)}});
   return {{"screened", r.screened}, {"robust_scale", u.length(r.robust_scale)}, {"points", points}};
@@ -97,7 +102,8 @@ json fit_json(const CylinderFit& f, const ReportUnits& u) {
           {"message", f.summary.message}};
 }
 
-json size_datum_json(const SizeDatumResult& d, const ReportUnits& u) {
+json size_datum_json(const SizeDatumResult& d, const ReportModel& m) {
+  const ReportUnits& u = m.units;
   return {{"feature", std::string(feature_kind_name(d.kind))},
           {"mating_size", u.length(d.mating_size)},
           {"ambiguity", u.length(d.related_envelope.ambiguity)},
@@ -108,7 +114,7 @@ json size_datum_json(const SizeDatumResult& d, const ReportUnits& u) {
           {"mmb_size", optional_number(d.mmb_size, u)},
           {"shift_allowance",
            d.boundary == MaterialBoundary::mmb ? u.length(d.shift_allowance) : 0.0},
-          {"stray_points", stray_json(d.stray_points, u)}};
+          {"stray_points", stray_json(d.stray_points, m, std::string("datum ") + d.label)}};
 }
 
 json depth_json(const std::optional<DepthProfile>& d, const ReportUnits& u) {
@@ -118,9 +124,33 @@ json depth_json(const std::optional<DepthProfile>& d, const ReportUnits& u) {
   return {{"characteristic", d->characteristic_id},
           {"range", {{"top", u.length(d->range_top)}, {"bottom", u.length(d->range_bottom)}}},
           {"projected", d->projected},
+          {"range_source", range_source_name(d->range_source)},
           {"allowed", u.length(d->allowed)},
           {"leaves_zone_at", optional_number(d->leaves_zone_at, u)},
           {"samples", samples}};
+}
+
+/// size_reason() with its figures in the report's unit (it prints the characteristics' values
+/// and limits as they are, and those are in mm).
+std::string size_reason_in_unit(const ReportModel& m, const std::string& bore) {
+  if (m.units.unit() == LengthUnit::millimetre) return size_reason(m.characteristics, bore);
+  std::vector<Characteristic> own = m.of_feature(bore);
+  for (Characteristic& c : own) {
+    c.value = m.units.length(c.value);
+    c.tolerance = m.units.length(c.tolerance);
+  }
+  return size_reason(own, bore);
+}
+
+json text_or_null(const std::string& text) { return text.empty() ? json(nullptr) : json(text); }
+
+json part_json(const PartIdentity& p) {
+  json notes = json::object();
+  for (const auto& [key, value] : p.notes) notes[key] = value;
+  return {{"id", text_or_null(p.id)},
+          {"serial", text_or_null(p.serial)},
+          {"timestamp", text_or_null(p.timestamp)},
+          {"notes", notes}};
 }
 
 json characteristic_json(const Characteristic& c, const ReportUnits& u) {
@@ -147,6 +177,7 @@ json bore_json(const BoreResult& b, const BoreSummary& s, const BoreSensitivity*
   j["axis_method"] = s.axis_method;
   j["axis"] = {{"point", point(b.axis.point, u)}, {"direction", direction(b.axis.direction)}};
   j["probed"] = {{"top", u.length(s.probed_top)}, {"bottom", u.length(s.probed_bottom)}};
+  j["depth_source"] = range_source_name(s.depth_source);
   j["tilt"] = {{"angle_rad", s.tilt_rad}, {"azimuth_deg", s.tilt_azimuth_deg}};
   j["size"] = {{"lower", b.size.limits ? json(u.length(b.size.limits->lower)) : json(nullptr)},
                {"upper", b.size.limits ? json(u.length(b.size.limits->upper)) : json(nullptr)},
@@ -160,7 +191,7 @@ json bore_json(const BoreResult& b, const BoreSummary& s, const BoreSensitivity*
                {"verdict", combined_verdict(m, {b.id + "/size/lower",
                                                 b.id + "/size/lower/two-point",
                                                 b.id + "/size/upper"})},
-               {"reason", size_reason(m.characteristics, b.id)}};
+               {"reason", size_reason_in_unit(m, b.id)}};
   j["form"] = {{"cylindricity", u.length(b.form.cylindricity)},
                {"tolerance", optional_number(b.form.tolerance, u)},
                {"verdict", verdict_of(m, b.id + "/cylindricity")}};
@@ -172,7 +203,7 @@ json bore_json(const BoreResult& b, const BoreSummary& s, const BoreSensitivity*
     p["motion"] = {{"shift", json::array({u.length(b.mobility_motion->shift.x()),
                                           u.length(b.mobility_motion->shift.y())})},
                    {"rotation_rad", b.mobility_motion->rotation_rad}};
-    p["reason"] = b.mobility_reason;
+    p["reason"] = in_report_unit(b.mobility_reason, u);
     j["position_with_mobility"] = p;
   } else {
     j["position_with_mobility"] = nullptr;
@@ -212,7 +243,7 @@ json bore_json(const BoreResult& b, const BoreSummary& s, const BoreSensitivity*
                               verdict_json(row.perpendicularity_verdict)}});
   j["sensitivity"] = sensitivity;
   j["depth_profile"] = depth_json(s.depth, u);
-  j["stray_points"] = stray_json(b.stray_points, u);
+  j["stray_points"] = stray_json(b.stray_points, m, "bore " + b.id);
   j["warnings"] = s.warnings;
   return j;
 }
@@ -223,7 +254,8 @@ const BoreSensitivity* sensitivity_of(const ReportModel& m, const std::string& i
   return nullptr;
 }
 
-json datums_json(const PartCheckResult& r, const ReportUnits& u) {
+json datums_json(const PartCheckResult& r, const ReportModel& m) {
+  const ReportUnits& u = m.units;
   json datums;
   datums["A"] = {{"feature", "plane"},
                  {"association", std::string(association_name(r.datums.a.association))},
@@ -231,8 +263,8 @@ json datums_json(const PartCheckResult& r, const ReportUnits& u) {
                  {"normal", direction(r.datums.a.plane.normal)},
                  {"flatness", u.length(r.datums.a.flatness)},
                  {"material_side_inferred", r.datums.a.material_side_inferred},
-                 {"stray_points", stray_json(r.datums.a.stray_points, u)}};
-  if (r.datums.b) datums["B"] = size_datum_json(*r.datums.b, u);
+                 {"stray_points", stray_json(r.datums.a.stray_points, m, "datum A")}};
+  if (r.datums.b) datums["B"] = size_datum_json(*r.datums.b, m);
   // The plan's basic location of a bore, pin, slot or tab C (the plan requires it), in the frame.
   const auto c_basic = [&]() -> json {
     const PlanDatum* c = r.plan.datum('C');
@@ -240,7 +272,7 @@ json datums_json(const PartCheckResult& r, const ReportUnits& u) {
     return json::array({u.length(c->basic_location->x()), u.length(c->basic_location->y())});
   };
   if (r.datums.c_feature) {
-    datums["C"] = size_datum_json(*r.datums.c_feature, u);
+    datums["C"] = size_datum_json(*r.datums.c_feature, m);
     datums["C"]["basic"] = c_basic();
   }
   if (r.datums.c_width) {
@@ -254,13 +286,14 @@ json datums_json(const PartCheckResult& r, const ReportUnits& u) {
                    {"mmb_size", optional_number(w.mmb_size, u)},
                    {"shift_allowance",
                     w.boundary == MaterialBoundary::mmb ? u.length(w.shift_allowance) : 0.0},
-                   {"stray_points", stray_json(w.stray_points, u)}};
+                   {"stray_points",
+                    stray_json(w.stray_points, m, std::string("datum ") + w.label)}};
   }
   if (r.datums.c_plane)
     datums["C"] = {{"feature", "plane"},
                    {"point", point(r.datums.c_plane->plane.point, u)},
                    {"normal", direction(r.datums.c_plane->plane.normal)},
-                   {"stray_points", stray_json(r.datums.c_plane->stray_points, u)}};
+                   {"stray_points", stray_json(r.datums.c_plane->stray_points, m, "datum C")}};
   return datums;
 }
 
@@ -303,6 +336,24 @@ class ReportReader {
     const json& v = key(object, path, name);
     if (v.is_null()) return std::nullopt;
     return number(object, path, name);
+  }
+  /// A string or null (null and a missing key read as empty).
+  std::string text_or_empty(const json& object, const std::string& path, const char* name) const {
+    if (!object.is_object()) fail(path, "expected an object");
+    const auto it = object.find(name);
+    if (it == object.end() || it->is_null()) return {};
+    return text(object, path, name);
+  }
+  /// A range source by its name; `fallback` when the key is missing (a report written before
+  /// the key existed).
+  RangeSource range_source(const json& object, const std::string& path, const char* name,
+                           RangeSource fallback) const {
+    if (!object.is_object() || !object.contains(name)) return fallback;
+    const std::string v = text(object, path, name);
+    for (RangeSource s : {RangeSource::plan_depth, RangeSource::probed_extent,
+                          RangeSource::plan_depth_and_probed, RangeSource::projected_zone})
+      if (v == range_source_name(s)) return s;
+    fail(join(path, name), "unknown range source '" + v + "'");
   }
   bool boolean(const json& object, const std::string& path, const char* name) const {
     const json& v = key(object, path, name);
@@ -355,6 +406,7 @@ std::string format_json(const ReportModel& m) {
   j["caution"] = std::string(safety_caution);
   j["plan"] = {{"name", m.plan_name}, {"file", m.plan_file.string()},
                {"units", std::string(u.name())}};
+  j["part"] = part_json(m.part);
   json inputs = json::array();
   for (const InputRecord& in : m.inputs)
     inputs.push_back({{"role", in.role}, {"path", in.path.string()}, {"sha256", in.sha256},
@@ -369,7 +421,7 @@ std::string format_json(const ReportModel& m) {
                 {"rotation_fixed", r.datums.rotation_fixed},
                 {"translation_fixed", r.datums.translation_fixed},
                 {"notes", m.frame_notes}};
-  j["datums"] = datums_json(r, u);
+  j["datums"] = datums_json(r, m);
 
   json characteristics = json::array();
   for (const Characteristic& c : m.characteristics)
@@ -413,6 +465,18 @@ ReportModel read_report_json(std::string_view bytes, const std::string& source) 
   const std::optional<LengthUnit> unit = parse_unit(units);
   if (!unit) in.fail("plan.units", "unknown unit '" + units + "' (expected mm or inch)");
   m.units = ReportUnits(*unit);
+  if (j.contains("part")) {  // absent in reports written before identity fields existed
+    const json& part = j["part"];
+    m.part.id = in.text_or_empty(part, "part", "id");
+    m.part.serial = in.text_or_empty(part, "part", "serial");
+    m.part.timestamp = in.text_or_empty(part, "part", "timestamp");
+    const json& notes = in.key(part, "part", "notes");
+    if (!notes.is_object()) in.fail("part.notes", "expected an object");
+    for (const auto& [key, value] : notes.items()) {
+      if (!value.is_string()) in.fail("part.notes." + key, "expected a string");
+      m.part.notes.emplace_back(key, value.get<std::string>());
+    }
+  }
   const ReportUnits& u = m.units;
   const auto mm = [&](const json& o, const std::string& path, const char* name) {
     return u.millimetres(in.number(o, path, name));
@@ -502,6 +566,7 @@ ReportModel read_report_json(std::string_view bytes, const std::string& source) 
     const json& probed = in.key(o, path, "probed");
     b.probed_top = mm(probed, path + ".probed", "top");
     b.probed_bottom = mm(probed, path + ".probed", "bottom");
+    b.depth_source = in.range_source(o, path, "depth_source", RangeSource::plan_depth);
     const json& tilt = in.key(o, path, "tilt");
     b.tilt_rad = in.number(tilt, path + ".tilt", "angle_rad");
     b.tilt_azimuth_deg = in.number(tilt, path + ".tilt", "azimuth_deg");
@@ -514,6 +579,8 @@ ReportModel read_report_json(std::string_view bytes, const std::string& source) 
       d.range_top = mm(range, dp + ".range", "top");
       d.range_bottom = mm(range, dp + ".range", "bottom");
       d.projected = in.boolean(depth, dp, "projected");
+      d.range_source = in.range_source(
+          depth, dp, "range_source", d.projected ? RangeSource::projected_zone : b.depth_source);
       d.allowed = mm(depth, dp, "allowed");
       d.leaves_zone_at = mm_or_null(depth, dp, "leaves_zone_at");
       const json& samples = in.array(depth, dp, "samples");

@@ -3,6 +3,7 @@
 #include "cylzone/report/report_model.hpp"
 
 #include <cstdio>
+#include <regex>
 
 #include "cylzone/version.hpp"
 
@@ -16,6 +17,7 @@ DepthProfile depth_profile(const PositionResult& p, const std::string& id, std::
   d.range_top = p.range_top;
   d.range_bottom = p.range_bottom;
   d.projected = p.projected;
+  d.range_source = p.range_source;
   d.allowed = p.allowed;
   d.leaves_zone_at = p.leaves_zone_at;
   if (!p.section_centres.empty()) {
@@ -53,6 +55,53 @@ DatumSummary size_datum_summary(const SizeDatumResult& s) {
 
 }  // namespace
 
+std::string PartIdentity::notes_text() const {
+  std::string text;
+  for (const auto& [key, value] : notes) text += (text.empty() ? "" : "; ") + key + "=" + value;
+  return text;
+}
+
+bool is_iso8601_timestamp(std::string_view text) {
+  // YYYY-MM-DDThh:mm[:ss[.f+]](Z|+hh:mm|-hh:mm)
+  static const std::regex form(
+      R"((\d{4})-(\d{2})-(\d{2})T(\d{2}):(\d{2})(?::(\d{2})(?:\.\d+)?)?(Z|[+-](\d{2}):(\d{2})))");
+  std::match_results<std::string_view::const_iterator> g;
+  if (!std::regex_match(text.begin(), text.end(), g, form)) return false;
+  const auto n = [&](int k) { return g[k].matched ? std::stoi(g[k].str()) : 0; };
+  return n(2) >= 1 && n(2) <= 12 && n(3) >= 1 && n(3) <= 31 && n(4) <= 23 && n(5) <= 59 &&
+         n(6) <= 60 && n(8) <= 23 && n(9) <= 59;
+}
+
+std::string in_report_unit(const std::string& text, const ReportUnits& units) {
+  if (units.unit() == LengthUnit::millimetre) return text;
+  // A number directly followed by " mm" as a word: the form every evaluation message uses.
+  static const std::regex length(R"((-?\d+(?:\.\d+)?(?:[eE][-+]?\d+)?) mm\b)");
+  std::string out;
+  auto from = text.cbegin();
+  for (std::sregex_iterator it(text.begin(), text.end(), length), end; it != end; ++it) {
+    out.append(from, (*it)[0].first);
+    out += units.text(std::stod((*it)[1].str())) + " " + std::string(units.name());
+    from = (*it)[0].second;
+  }
+  out.append(from, text.cend());
+  return out;
+}
+
+std::string with_file_lines(const std::string& text, const std::vector<std::size_t>& lines) {
+  if (lines.empty() || text.find("suspect point") == std::string::npos) return text;
+  static const std::regex number(R"(#(\d+))");
+  std::string out;
+  auto from = text.cbegin();
+  for (std::sregex_iterator it(text.begin(), text.end(), number), end; it != end; ++it) {
+    out.append(from, (*it)[0].second);
+    const std::size_t n = std::stoul((*it)[1].str());
+    if (n >= 1 && n <= lines.size()) out += " (line " + std::to_string(lines[n - 1]) + ")";
+    from = (*it)[0].second;
+  }
+  out.append(from, text.cend());
+  return out;
+}
+
 ReportUnits::ReportUnits(LengthUnit unit) noexcept
     : unit_(unit), per_mm_(1.0 / millimetres_per(unit)) {}
 
@@ -66,6 +115,33 @@ const Characteristic* ReportModel::find(std::string_view id) const noexcept {
   for (const Characteristic& c : characteristics)
     if (c.id == id) return &c;
   return nullptr;
+}
+
+const InputRecord* ReportModel::input(std::string_view role) const noexcept {
+  for (const InputRecord& in : inputs)
+    if (in.role == role) return &in;
+  return nullptr;
+}
+
+std::optional<std::size_t> ReportModel::file_line(std::string_view role,
+                                                  std::size_t index) const noexcept {
+  const InputRecord* in = input(role);
+  if (!in || index >= in->point_lines.size()) return std::nullopt;
+  return in->point_lines[index];
+}
+
+const BoreSummary* ReportModel::bore(std::string_view id) const noexcept {
+  for (const BoreSummary& b : bores)
+    if (b.id == id) return &b;
+  return nullptr;
+}
+
+std::optional<RangeSource> ReportModel::range_source(const Characteristic& c) const noexcept {
+  const BoreSummary* b = bore(c.feature);
+  if (!b) return std::nullopt;
+  if (b->depth && (c.id == b->id + "/position" || c.id == b->id + "/position/mobility"))
+    return b->depth->range_source;
+  return b->depth_source;
 }
 
 std::vector<Characteristic> ReportModel::of_feature(std::string_view feature) const {
@@ -85,6 +161,7 @@ ReportModel make_report_model(const PartCheckResult& r, const ReportModelOptions
   m.units = ReportUnits(r.plan.unit);
   m.plan_name = r.plan.name;
   m.plan_file = r.plan.file;
+  m.part = options.part;
   m.inputs = r.inputs;
   m.evaluation = &r;
 
@@ -115,7 +192,14 @@ ReportModel make_report_model(const PartCheckResult& r, const ReportModelOptions
     c.feature = "plane";
     m.datums.push_back(c);
   }
-  m.frame_notes = d.notes;
+  for (const std::string& note : d.notes) {
+    // A datum's stray-point note starts with its role, "datum B: ...".
+    const InputRecord* in = note.size() > 7 && note.compare(0, 6, "datum ") == 0
+                                ? m.input(note.substr(0, 7))
+                                : nullptr;
+    m.frame_notes.push_back(
+        in_report_unit(in ? with_file_lines(note, in->point_lines) : note, m.units));
+  }
 
   m.characteristics = report_characteristics(r);
   for (const BoreResult& b : r.bores) {
@@ -125,6 +209,7 @@ ReportModel make_report_model(const PartCheckResult& r, const ReportModelOptions
     s.axis_method = std::string(axis_method_name(b.axis_method));
     s.probed_top = b.probed_top;
     s.probed_bottom = b.probed_bottom;
+    s.depth_source = b.depth_source;
     s.tilt_rad = b.tilt.angle_rad;
     s.tilt_azimuth_deg = b.tilt.azimuth_deg;
     if (b.position_with_mobility)
@@ -132,12 +217,14 @@ ReportModel make_report_model(const PartCheckResult& r, const ReportModelOptions
                               options.depth_samples);
     else if (b.position)
       s.depth = depth_profile(*b.position, b.id + "/position", options.depth_samples);
-    s.warnings = b.warnings;
+    const InputRecord* in = m.input("bore " + b.id);
+    for (const std::string& w : b.warnings)
+      s.warnings.push_back(in_report_unit(in ? with_file_lines(w, in->point_lines) : w, m.units));
     m.bores.push_back(std::move(s));
   }
   m.sensitivity = r.sensitivity;
   m.verdict = combine(m.characteristics);
-  m.warnings = r.warnings;
+  for (const std::string& w : r.warnings) m.warnings.push_back(in_report_unit(w, m.units));
   return m;
 }
 

@@ -1,6 +1,9 @@
 // The terminal table: the report model for people. Values in the plan's unit through the
 // model's ReportUnits; verdicts as words, never colour alone (docs/report-schema.md).
+#include <algorithm>
 #include <sstream>
+#include <utility>
+#include <vector>
 
 #include "cylzone/report/report.hpp"
 #include "cylzone/version.hpp"
@@ -8,17 +11,105 @@
 namespace cylzone {
 namespace {
 
+/// Columns a UTF-8 text takes on a terminal: one per code point (no wide characters are
+/// printed by the table; continuation bytes 10xxxxxx take none).
+std::size_t columns(std::string_view text) {
+  std::size_t n = 0;
+  for (char c : text) n += (static_cast<unsigned char>(c) & 0xC0) != 0x80;
+  return n;
+}
+
 std::string pad(std::string text, std::size_t width) {
-  if (text.size() < width) text.append(width - text.size(), ' ');
+  const std::size_t used = columns(text);
+  if (used < width) text.append(width - used, ' ');
   return text;
 }
 
 std::string pad_left(std::string text, std::size_t width) {
-  if (text.size() < width) text.insert(0, width - text.size(), ' ');
+  const std::size_t used = columns(text);
+  if (used < width) text.insert(0, width - used, ' ');
   return text;
 }
 
-void datum_lines(std::ostream& out, const ReportModel& m) {
+/// The symbols of one table, UTF-8 or ASCII.
+struct Symbols {
+  std::string degree, microradian, none, cut;
+  explicit Symbols(bool unicode)
+      : degree(unicode ? "\u00b0" : " deg"),
+        microradian(unicode ? "\u00b5rad" : "urad"),
+        none(unicode ? "\u2014" : "-"),
+        cut(unicode ? "\u2026" : "~") {}
+};
+
+/// Texts longer than a column's cap are cut with a marker and listed in full below the table.
+class Shortener {
+ public:
+  explicit Shortener(const Symbols& s) : cut_(s.cut) {}
+  /// `text`, or when it is longer than `cap` columns its start and the marker; two texts that
+  /// would shorten alike are told apart by a number after the marker.
+  std::string operator()(const std::string& text, std::size_t cap) {
+    if (columns(text) <= cap) return text;
+    for (const auto& [shortened, full] : full_)
+      if (full == text) return shortened;
+    std::string suffix;
+    for (std::size_t n = 1;; ++n) {
+      const std::string candidate = prefix(text, cap - 1 - columns(suffix)) + cut_ + suffix;
+      bool taken = false;
+      for (const auto& [shortened, full] : full_) taken = taken || shortened == candidate;
+      if (!taken) {
+        full_.emplace_back(candidate, text);
+        return candidate;
+      }
+      suffix = std::to_string(n + 1);
+    }
+  }
+  void list(std::ostream& out) const {
+    for (const auto& [s, full] : full_) out << "  " << s << " = " << full << '\n';
+  }
+  bool empty() const noexcept { return full_.empty(); }
+
+ private:
+  /// The first `count` code points of `text`.
+  static std::string prefix(const std::string& text, std::size_t count) {
+    std::string out;
+    std::size_t used = 0;
+    for (char c : text) {
+      if ((static_cast<unsigned char>(c) & 0xC0) != 0x80 && ++used > count) break;
+      out += c;
+    }
+    return out;
+  }
+  std::string cut_;
+  std::vector<std::pair<std::string, std::string>> full_;
+};
+
+/// `text` after `opening`, wrapped at blanks so no line exceeds `width` columns (a word longer
+/// than a line stays whole); continuation lines are indented by `indent` blanks.
+std::string wrapped(const std::string& opening, const std::string& text, std::size_t width,
+                    std::size_t indent) {
+  std::string out = opening, line_start_pad(indent, ' ');
+  std::size_t used = columns(opening);
+  std::istringstream words(text);
+  std::string word;
+  bool first = true;
+  while (words >> word) {
+    const std::size_t need = columns(word) + (first ? 0 : 1);
+    if (!first && used + need > width) {
+      out += "\n" + line_start_pad + word;
+      used = indent + columns(word);
+    } else {
+      out += (first ? "" : " ") + word;
+      used += need;
+    }
+    first = false;
+  }
+  return out + "\n";
+}
+
+constexpr std::size_t feature_cap = 16;    ///< bore ids longer than this are shortened
+constexpr std::size_t reference_cap = 24;  ///< datum references and projected-zone labels
+
+void datum_lines(std::ostream& out, const ReportModel& m, std::size_t width) {
   const ReportUnits& u = m.units;
   out << "Datum reference frame\n";
   for (const DatumSummary& d : m.datums) {
@@ -40,22 +131,55 @@ void datum_lines(std::ostream& out, const ReportModel& m) {
       out << ", tangent least squares perpendicular to A\n";
     }
   }
-  for (const std::string& note : m.frame_notes) out << "  note: " << note << '\n';
+  for (const std::string& note : m.frame_notes) out << wrapped("  note: ", note, width, 8);
   out << '\n';
 }
 
+/// "id X, serial Y, time T, KEY=VALUE; ..." of the parts given; empty when none is.
+std::string identity_line(const PartIdentity& p) {
+  std::string line;
+  const auto add = [&](const char* label, const std::string& value) {
+    if (!value.empty()) line += (line.empty() ? "" : ", ") + std::string(label) + value;
+  };
+  add("id ", p.id);
+  add("serial ", p.serial);
+  add("time ", p.timestamp);
+  add("", p.notes_text());
+  return line;
+}
+
+/// One sensitivity column: an association (or two giving identical figures) and its cells.
+struct SensitivityColumn {
+  std::string header;
+  std::vector<std::string> cells;  ///< one per bore
+};
+
 }  // namespace
 
-std::string format_table(const ReportModel& m) {
+std::string format_table(const ReportModel& m, const TableOptions& options) {
   const ReportUnits& u = m.units;
+  const Symbols sym(options.unicode);
+  Shortener shorten(sym);
   const int w = u.decimals() + 5;
   std::ostringstream out;
   out << "cylzone " << m.tool_version << " check: " << m.plan_name << "  ("
-      << m.plan_file.filename().string() << ", values in " << u.name() << ")\n\n";
-  datum_lines(out, m);
+      << m.plan_file.filename().string() << ", values in " << u.name() << ")\n";
+  const std::string identity = identity_line(m.part);
+  if (!identity.empty()) out << wrapped("part: ", identity, options.width, 6);
+  out << '\n';
+  datum_lines(out, m, options.width);
 
-  // One row per bore and characteristic.
-  out << pad("bore", 7) << pad("characteristic", 33) << pad("reference", 19)
+  // One row per bore and characteristic; the text columns as wide as their content.
+  std::size_t feature_w = 4, name_w = 14, reference_w = 9;
+  for (const Characteristic& c : m.characteristics) {
+    feature_w = std::max(feature_w, std::min(columns(c.feature), feature_cap));
+    name_w = std::max(name_w, columns(c.name));
+    reference_w = std::max(reference_w, std::min(columns(c.reference), reference_cap));
+  }
+  feature_w += 2;
+  name_w += 2;
+  reference_w += 2;
+  out << pad("bore", feature_w) << pad("characteristic", name_w) << pad("reference", reference_w)
       << pad_left("value", w) << "    " << pad_left("limit", w) << pad_left("bonus", w)
       << pad_left("allowed", w) << "   verdict\n";
   std::string previous;
@@ -70,72 +194,146 @@ std::string format_table(const ReportModel& m) {
     } else if (c.verdict == Verdict::does_not_conform) {
       verdict = "DOES NOT CONFORM";
     }
-    out << pad(c.feature, 7) << pad(c.name, 33) << pad(c.reference, 19)
-        << pad_left(u.text(c.value), w) << ' ' << comparison_symbol(c.comparison) << ' '
-        << pad_left(u.text(c.tolerance), w) << pad_left(u.text(c.bonus), w)
-        << pad_left(u.text(c.allowed), w) << "   " << verdict << '\n';
+    out << pad(shorten(c.feature, feature_cap), feature_w) << pad(c.name, name_w)
+        << pad(shorten(c.reference, reference_cap), reference_w) << pad_left(u.text(c.value), w)
+        << ' ' << comparison_symbol(c.comparison) << ' ' << pad_left(u.text(c.tolerance), w)
+        << pad_left(u.text(c.bonus), w) << pad_left(u.text(c.allowed), w) << "   " << verdict
+        << '\n';
   }
   if (footnote)
     out << "\n* shown for comparison: the datum reference lets the frame move, and the "
            "'datum mobility' row decides.\n";
 
   // Along the depth: what single-plane summaries hide.
+  const std::size_t bore_w = std::max<std::size_t>(8, std::min(feature_w, feature_cap + 2));
   out << "\nAlong the depth (z from datum A; dx, dy from true position; 2D = single-plane "
          "position)\n";
-  out << pad("bore", 8) << pad_left("top z", w) << pad_left("dx", w) << pad_left("dy", w)
+  out << pad("bore", bore_w) << pad_left("top z", w) << pad_left("dx", w) << pad_left("dy", w)
       << pad_left("2D", w) << pad_left("bottom z", w + 1) << pad_left("dx", w)
-      << pad_left("dy", w) << pad_left("2D", w) << pad_left("probed z", 17)
-      << pad_left("tilt urad", 11) << pad_left("toward", 8) << "  leaves zone at\n";
+      << pad_left("dy", w) << pad_left("2D", w) << "  leaves zone at\n";
   for (const BoreSummary& b : m.bores) {
     if (!b.depth || b.depth->samples.empty()) continue;
     const AxisDeviation& top = b.depth->samples.front();
     const AxisDeviation& bottom = b.depth->samples.back();
-    out << pad(b.id, 8) << pad_left(u.text(top.height), w) << pad_left(u.text(top.offset.x()), w)
-        << pad_left(u.text(top.offset.y()), w) << pad_left(u.text(top.diameter()), w)
-        << pad_left(u.text(bottom.height), w + 1) << pad_left(u.text(bottom.offset.x()), w)
-        << pad_left(u.text(bottom.offset.y()), w) << pad_left(u.text(bottom.diameter()), w)
-        << pad_left(ReportUnits::fixed(u.length(b.probed_top), u.decimals() - 2) + " .. " +
-                        ReportUnits::fixed(u.length(b.probed_bottom), u.decimals() - 2),
-                    17)
-        << pad_left(ReportUnits::fixed(b.tilt_rad * 1e6, 1), 11)
-        << pad_left(ReportUnits::fixed(b.tilt_azimuth_deg, 0), 7) << "d  "
+    out << pad(shorten(b.id, feature_cap), bore_w) << pad_left(u.text(top.height), w)
+        << pad_left(u.text(top.offset.x()), w) << pad_left(u.text(top.offset.y()), w)
+        << pad_left(u.text(top.diameter()), w) << pad_left(u.text(bottom.height), w + 1)
+        << pad_left(u.text(bottom.offset.x()), w) << pad_left(u.text(bottom.offset.y()), w)
+        << pad_left(u.text(bottom.diameter()), w) << "  "
         << (b.depth->leaves_zone_at ? "z = " + u.text(*b.depth->leaves_zone_at)
                                     : std::string("stays inside"))
         << '\n';
   }
 
+  // The axis and where its evaluated range comes from: a range from the probed extent is not
+  // the bore's full depth, and the table says so.
+  out << "\nAxis and evaluated range (range from: where the z range above comes from)\n";
+  std::size_t source_w = 10;
+  for (const BoreSummary& b : m.bores)
+    source_w = std::max(source_w, columns(range_source_name(
+                                      b.depth ? b.depth->range_source : b.depth_source)));
+  source_w += 2;
+  out << pad("bore", bore_w) << pad("range from", source_w) << pad_left("probed z", 17)
+      << pad_left("tilt " + sym.microradian, 12) << pad_left("toward", 10) << '\n';
+  std::vector<std::string> unknown_depth;
+  for (const BoreSummary& b : m.bores) {
+    const RangeSource source = b.depth ? b.depth->range_source : b.depth_source;
+    if (b.depth_source != RangeSource::plan_depth) unknown_depth.push_back(b.id);
+    out << pad(shorten(b.id, feature_cap), bore_w) << pad(range_source_name(source), source_w)
+        << pad_left(ReportUnits::fixed(u.length(b.probed_top), u.decimals() - 2) + " .. " +
+                        ReportUnits::fixed(u.length(b.probed_bottom), u.decimals() - 2),
+                    17)
+        << pad_left(ReportUnits::fixed(b.tilt_rad * 1e6, 1), 12)
+        << pad_left(ReportUnits::fixed(b.tilt_azimuth_deg, 0) + sym.degree, 10) << '\n';
+  }
+  if (!unknown_depth.empty()) {
+    std::string ids;
+    for (const std::string& id : unknown_depth) ids += (ids.empty() ? "" : ", ") + id;
+    out << wrapped("note: ",
+                   "no full depth in the plan for " + ids +
+                       ": the zone was checked over the probed extent only, and the bore's full "
+                       "depth is unknown to cylzone. Give `depth` in the plan to check the full "
+                       "depth.",
+                   options.width, 6);
+  }
+
   if (!m.sensitivity.empty() && !m.sensitivity.front().rows.empty()) {
-    out << "\nSensitivity to the association of datum A (position / perpendicularity; ! = the "
-           "verdict differs from the plan's association)\n";
-    out << pad("bore", 8);
-    for (const AssociationSensitivity& row : m.sensitivity.front().rows)
-      out << pad_left(std::string(association_name(row.association)), 2 * w + 6);
-    out << pad_left("spread", 2 * w + 6) << '\n';
+    // Columns of cells; an association whose cells equal an earlier column's for every bore
+    // (tangent minimax and minimum zone of A give the same orientation) joins that column.
+    std::vector<SensitivityColumn> table;
     bool any_change = false;
-    for (const BoreSensitivity& s : m.sensitivity) {
-      out << pad(s.bore_id, 8);
-      const AssociationSensitivity& planned = s.rows.front();
-      for (const AssociationSensitivity& row : s.rows) {
-        const bool p_changed = row.position_verdict != planned.position_verdict;
-        const bool q_changed = row.perpendicularity_verdict != planned.perpendicularity_verdict;
+    const std::size_t associations = m.sensitivity.front().rows.size();
+    for (std::size_t k = 0; k < associations; ++k) {
+      SensitivityColumn column;
+      column.header = association_name(m.sensitivity.front().rows[k].association);
+      for (const BoreSensitivity& s : m.sensitivity) {
+        if (k >= s.rows.size()) {
+          column.cells.push_back(sym.none);
+          continue;
+        }
+        const AssociationSensitivity& planned = s.rows.front();
+        const AssociationSensitivity& row = s.rows[k];
+        const bool has_position = m.find(s.bore_id + "/position") != nullptr;
+        const bool has_perpendicularity = m.find(s.bore_id + "/perpendicularity") != nullptr;
+        const bool p_changed = has_position && row.position_verdict != planned.position_verdict;
+        const bool q_changed = has_perpendicularity &&
+                               row.perpendicularity_verdict != planned.perpendicularity_verdict;
         any_change = any_change || p_changed || q_changed;
-        out << pad_left(u.text(row.position) + (p_changed ? "!" : " ") + "/ " +
-                            u.text(row.perpendicularity) + (q_changed ? "!" : " "),
-                        2 * w + 6);
+        column.cells.push_back(
+            (has_position ? u.text(row.position) : sym.none) + (p_changed ? "!" : " ") + "/ " +
+            (has_perpendicularity ? u.text(row.perpendicularity) : sym.none) +
+            (q_changed ? "!" : " "));
       }
-      out << pad_left(u.text(s.position_spread) + " / " + u.text(s.perpendicularity_spread) + " ",
-                      2 * w + 6)
-          << '\n';
+      bool merged = false;
+      for (SensitivityColumn& earlier : table)
+        if (earlier.cells == column.cells) {
+          earlier.header += " = " + column.header;
+          merged = true;
+          break;
+        }
+      if (!merged) table.push_back(std::move(column));
+    }
+    SensitivityColumn spread{"spread", {}};
+    for (const BoreSensitivity& s : m.sensitivity) {
+      const bool has_perpendicularity = m.find(s.bore_id + "/perpendicularity") != nullptr;
+      spread.cells.push_back(u.text(s.position_spread) + " / " +
+                             (has_perpendicularity ? u.text(s.perpendicularity_spread) : sym.none) +
+                             " ");
+    }
+    table.push_back(std::move(spread));
+    out << "\nSensitivity to the association of datum A (position / perpendicularity; ! = the "
+           "verdict differs\nfrom the plan's association; a = b: both give the same figures for "
+           "every bore)\n";
+    std::vector<std::size_t> widths;
+    out << pad("bore", bore_w);
+    for (const SensitivityColumn& c : table) {
+      std::size_t cw = columns(c.header);
+      for (const std::string& cell : c.cells) cw = std::max(cw, columns(cell));
+      widths.push_back(cw + 2);
+      out << pad_left(c.header, widths.back());
+    }
+    out << '\n';
+    for (std::size_t row = 0; row < m.sensitivity.size(); ++row) {
+      out << pad(shorten(m.sensitivity[row].bore_id, feature_cap), bore_w);
+      for (std::size_t k = 0; k < table.size(); ++k)
+        out << pad_left(table[k].cells[row], widths[k]);
+      out << '\n';
     }
     if (any_change)
       out << "A verdict that changes with the association of A is decided by the datum method, "
              "not the part:\nagree the method with the customer before comparing results.\n";
   }
 
+  if (!shorten.empty()) {
+    out << "\nShortened above:\n";
+    shorten.list(out);
+  }
+
   for (const BoreSummary& b : m.bores)
     for (const std::string& warning : b.warnings)
-      out << "warning: bore " << b.id << ": " << warning << '\n';
-  for (const std::string& warning : m.warnings) out << "warning: " << warning << '\n';
+      out << wrapped("warning: bore " + b.id + ": ", warning, options.width, 4);
+  for (const std::string& warning : m.warnings)
+    out << wrapped("warning: ", warning, options.width, 4);
 
   std::size_t failing = 0;
   for (const BoreSummary& b : m.bores) failing += b.verdict == Verdict::does_not_conform;
@@ -145,7 +343,8 @@ std::string format_table(const ReportModel& m) {
               std::to_string(m.bores.size()) + " bores)";
   else if (m.verdict == Verdict::not_proven)
     verdict = "NOT PROVEN (conformance not proven within the measurement uncertainty)";
-  out << "\nPart verdict: " << verdict << "\n\n" << safety_caution << '\n';
+  out << "\nPart verdict: " << verdict << "\n\n"
+      << wrapped("", std::string(safety_caution), std::min<std::size_t>(options.width, 100), 0);
   return out.str();
 }
 

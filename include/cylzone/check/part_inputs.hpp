@@ -20,6 +20,8 @@ struct InputRecord {
   std::filesystem::path path;
   std::string sha256;  ///< hex digest (FIPS 180-4) of the bytes parsed
   std::size_t points = 0;
+  /// 1-based file line of each point (PointCloud::lines); empty when the format has no lines.
+  std::vector<std::size_t> point_lines;
 };
 
 /// A part's measured inputs, in the plan's order.

@@ -21,6 +21,27 @@
 namespace cylzone {
 
 
+/// Where the evaluated range of heights comes from. Only `plan_depth` and `projected_zone` are
+/// ranges the drawing fixes; `probed_extent` means the bore's full depth is unknown to the tool
+/// and the zone was checked over the probed band only.
+enum class RangeSource {
+  plan_depth,              ///< both ends from the plan's `depth`
+  probed_extent,           ///< no `depth` in the plan: the probed extent of the bore's points
+  plan_depth_and_probed,   ///< one end from the plan's `depth`, the other the probed extent
+  projected_zone,          ///< a projected tolerance zone above A
+};
+
+/// "plan depth", "probed extent", "plan depth and probed extent", "projected zone".
+inline const char* range_source_name(RangeSource s) noexcept {
+  switch (s) {
+    case RangeSource::plan_depth: return "plan depth";
+    case RangeSource::probed_extent: return "probed extent";
+    case RangeSource::plan_depth_and_probed: return "plan depth and probed extent";
+    case RangeSource::projected_zone: return "projected zone";
+  }
+  return "probed extent";
+}
+
 /// Position (cylindrical zone about the true-position axis) over the evaluated range.
 struct PositionResult {
   PlanTolerance spec;
@@ -29,6 +50,7 @@ struct PositionResult {
   double range_top = 0.0;
   double range_bottom = 0.0;
   bool projected = false;     ///< range is a projected tolerance zone above A
+  RangeSource range_source = RangeSource::plan_depth;
   double value = 0.0;         ///< diameter: 2 x largest radial deviation over the range
   double bonus = 0.0;
   double allowed = 0.0;       ///< tolerance + bonus
@@ -115,6 +137,8 @@ struct BoreResult {
   ZoneFrame zone;
   double probed_top = 0.0;    ///< height extent of the bore's points
   double probed_bottom = 0.0;
+  /// Where the bore's own depth range (perpendicularity, position unless projected) comes from.
+  RangeSource depth_source = RangeSource::plan_depth;
   CylinderFit least_squares;      ///< datum frame
   CylinderFit mating_envelope;    ///< maximum inscribed, free axis
   CylinderFit related_envelope;   ///< maximum inscribed, axis perpendicular to A

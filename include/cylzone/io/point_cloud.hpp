@@ -5,6 +5,7 @@
 #include <Eigen/Core>
 #include <cstddef>
 #include <string>
+#include <vector>
 
 #include "cylzone/core/units.hpp"
 
@@ -18,6 +19,9 @@ struct PointCloud {
   Eigen::Matrix3Xd vectors;
   std::string source;                            ///< file name as given, for messages and reports
   LengthUnit file_unit = LengthUnit::millimetre;  ///< the unit the file was written in
+  /// 1-based file line of each point, so reports can name a point by the line it came from;
+  /// filled by the delimited-text reader, empty for formats without lines (meshes).
+  std::vector<std::size_t> lines;
 
   std::size_t size() const noexcept { return static_cast<std::size_t>(points.cols()); }
   bool has_vectors() const noexcept { return vectors.cols() == points.cols() && points.cols() > 0; }

@@ -12,9 +12,21 @@
 
 namespace cylzone {
 
+/// How the table is written for its terminal.
+struct TableOptions {
+  /// UTF-8 symbols ("°", "µrad", "—", "…"); false: ASCII only ("deg", "urad", "-", "~"). The
+  /// library does not look at the locale: the caller decides (the CLI from LC_ALL / LC_CTYPE /
+  /// LANG).
+  bool unicode = false;
+  /// Lines are kept within this many columns where the content allows: long bore ids and
+  /// references are shortened with a marker and listed in full below the table, notes and the
+  /// caution are wrapped.
+  std::size_t width = 120;
+};
+
 /// The terminal table. Values in the plan's unit, micrometre resolution (0.00001 inch for inch
-/// plans).
-std::string format_table(const ReportModel& model);
+/// plans). Column widths follow the content.
+std::string format_table(const ReportModel& model, const TableOptions& options = {});
 /// The JSON report. Needs `model.evaluation` (a model built by make_report_model) for the
 /// detailed blocks; throws std::invalid_argument for a model read back from JSON.
 std::string format_json(const ReportModel& model);

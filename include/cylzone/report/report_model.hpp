@@ -17,12 +17,14 @@
 #include <optional>
 #include <string>
 #include <string_view>
+#include <utility>
 #include <vector>
 
 #include "cylzone/check/part_check.hpp"
 #include "cylzone/core/units.hpp"
 #include "cylzone/decide/characteristic.hpp"
 #include "cylzone/evaluate/axis_zone.hpp"
+#include "cylzone/evaluate/bore_evaluation.hpp"
 
 namespace cylzone {
 
@@ -64,6 +66,9 @@ struct DepthProfile {
   double range_top = 0.0;         ///< evaluated range, heights from A along the nominal direction
   double range_bottom = 0.0;
   bool projected = false;          ///< the range is a projected zone above A
+  /// Where the range comes from: only plan_depth and projected_zone are fixed by the drawing;
+  /// probed_extent means the bore's full depth is unknown to the tool.
+  RangeSource range_source = RangeSource::plan_depth;
   double allowed = 0.0;            ///< diameter of the zone allowed (tolerance + bonus)
   /// From range_top to range_bottom: deviation (dx, dy) from the true-position axis and the
   /// single-plane position 2 sqrt(dx^2 + dy^2) at each height. A straight axis is sampled at
@@ -95,21 +100,46 @@ struct BoreSummary {
   std::string axis_method;
   double probed_top = 0.0;
   double probed_bottom = 0.0;
+  /// Where the bore's own depth range (perpendicularity, position unless projected) comes from.
+  RangeSource depth_source = RangeSource::plan_depth;
   double tilt_rad = 0.0;
   double tilt_azimuth_deg = 0.0;
   std::optional<DepthProfile> depth;  ///< when the bore has a position tolerance
   std::vector<std::string> warnings;
 };
 
+/// Which part the report is about, so rows from many parts can be told apart (CSV columns,
+/// the JSON's `part` object, the table's header). Given by the caller: the library reads no
+/// clock, so `timestamp` is whatever the caller passes (the CLI: the run's UTC time, ISO 8601).
+struct PartIdentity {
+  std::string id;         ///< part number / id; empty: not given
+  std::string serial;     ///< serial number; empty: not given
+  std::string timestamp;  ///< ISO 8601, e.g. "2026-12-02T17:40:00Z"; empty: not given
+  std::vector<std::pair<std::string, std::string>> notes;  ///< free KEY=VALUE, given order
+
+  bool empty() const noexcept {
+    return id.empty() && serial.empty() && timestamp.empty() && notes.empty();
+  }
+  /// The notes as "KEY=VALUE; KEY=VALUE" (the CSV's `notes` column and the table header).
+  std::string notes_text() const;
+};
+
+/// Checks `text` as an ISO 8601 date-time with a zone: YYYY-MM-DDThh:mm[:ss[.fff]] followed by
+/// Z or +hh:mm / -hh:mm (ISO 8601-1:2019, extended format; RFC 3339 profile). Field ranges are
+/// checked (month 1-12, day 1-31, hour 0-23, minute and second 0-59, 60 for a leap second).
+bool is_iso8601_timestamp(std::string_view text);
+
 struct ReportModelOptions {
   /// Heights sampled along a straight axis for the depth profile, both ends included (>= 2).
   std::size_t depth_samples = 11;
+  PartIdentity part;
 };
 
 struct ReportModel {
   std::string tool_version;
   ReportUnits units;
   std::string plan_name;
+  PartIdentity part;
   std::filesystem::path plan_file;
   std::vector<InputRecord> inputs;
   std::vector<DatumSummary> datums;     ///< A, B, C as present
@@ -126,6 +156,15 @@ struct ReportModel {
 
   /// The characteristic with this id, or null.
   const Characteristic* find(std::string_view id) const noexcept;
+  /// The input record with this role ("datum A", "bore P3"), or null.
+  const InputRecord* input(std::string_view role) const noexcept;
+  /// The file line of point `index` (0-based, data order) of the input `role`, when known.
+  std::optional<std::size_t> file_line(std::string_view role, std::size_t index) const noexcept;
+  /// The summary of the bore with this id, or null.
+  const BoreSummary* bore(std::string_view id) const noexcept;
+  /// Where the range of characteristic `c` comes from: its bore's depth profile for a position,
+  /// its bore's own depth range otherwise; empty for a feature that is not a bore.
+  std::optional<RangeSource> range_source(const Characteristic& c) const noexcept;
   /// The characteristics of one feature (bore or datum), in order.
   std::vector<Characteristic> of_feature(std::string_view feature) const;
 };
@@ -136,7 +175,19 @@ struct ReportModel {
 /// (decide/characteristic.hpp). The one place the report takes them from.
 std::vector<Characteristic> report_characteristics(const PartCheckResult& result);
 
-/// Builds the model. `result` must outlive it (see ReportModel::evaluation).
+/// `text` (a warning or note written by the evaluation in millimetres) with every length in the
+/// form "<number> mm" rewritten in `units` through ReportUnits::text ("0.0123 mm" -> "0.00048
+/// in" for an inch report). Unchanged for a millimetre report.
+std::string in_report_unit(const std::string& text, const ReportUnits& units);
+
+/// `text` with every point number "#N" of a stray-point message (1-based, the file's data order;
+/// prepare/stray_points.hpp) followed by its file line: "#N (line L)". Unchanged when `text` is
+/// not a stray-point message or `lines` is empty (a mesh has no lines).
+std::string with_file_lines(const std::string& text, const std::vector<std::size_t>& lines);
+
+/// Builds the model. `result` must outlive it (see ReportModel::evaluation). Warnings and frame
+/// notes are given in the report's unit (in_report_unit), stray points with their file lines
+/// (with_file_lines).
 ReportModel make_report_model(const PartCheckResult& result,
                               const ReportModelOptions& options = {});
 
