@@ -716,7 +716,7 @@ class PlanParser {
   }
 
   /// The datum section of a feature control frame: "A", "A|B", "A|B|C", each of B and C
-  /// optionally followed by (M) (MMB) or (L) (LMB). cylzone's frame is A (plane, primary), B
+  /// optionally followed by (M) (MMB) or (L) (LMB), and C by (T) (translating). cylzone's frame is A (plane, primary), B
   /// (origin), C (clocking), so that is the only order (ASME Y14.5-2018; ISO 5459:2011).
   std::vector<DatumReference> read_datum_references(const toml::node& node, const std::string& key,
                                                     const PartPlan& plan) const {
@@ -744,12 +744,21 @@ class PlanParser {
         fail(line, key,
              "empty datum in " + in_quotes(text) + ": expected \"A\", \"A|B\" or \"A|B|C\"");
       const bool letter = part[0] >= 'A' && part[0] <= 'Z';
-      const std::string rest = part.substr(1);
+      std::string rest = part.substr(1);
+      // "(T)" last: datum C's simulator translates (docs/plan.md); the default keeps it fixed
+      // at its basic location.
+      if (rest.size() >= 3 && rest.compare(rest.size() - 3, 3, "(T)") == 0) {
+        ref.translating = true;
+        rest.erase(rest.size() - 3);
+      }
       if (!letter || !(rest.empty() || rest == "(M)" || rest == "(L)"))
         fail(line, key,
              in_quotes(part) +
                  " is not a datum reference: expected a datum letter, optionally "
-                 "followed by (M) or (L), e.g. \"A|B(M)|C\"");
+                 "followed by (M) or (L) and, for C, (T), e.g. \"A|B(M)|C\"");
+      if (ref.translating && part[0] != 'C')
+        fail(line, key,
+             in_quotes(part) + ": the translating simulator (T) applies to datum C only");
       ref.label = part[0];
       ref.boundary = rest == "(M)"   ? MaterialBoundary::mmb
                      : rest == "(L)" ? MaterialBoundary::lmb
@@ -768,6 +777,9 @@ class PlanParser {
              "datum order must be A first, then B, then C: expected \"A\", \"A|B\" or \"A|B|C\" "
              "(found " +
                  in_quotes(text) + ")");
+      if (ref.translating && datum->kind == FeatureKind::plane)
+        fail(line, key,
+             "datum C is a plane, not a feature of size: it takes no (T) modifier");
       if (ref.boundary != MaterialBoundary::rmb) {
         const std::string modifier = ref.boundary == MaterialBoundary::mmb ? "(M)" : "(L)";
         if (datum->kind == FeatureKind::plane)
