@@ -132,6 +132,7 @@ ReportModel make_report_model(const PartCheckResult& r, const ReportModelOptions
                               options.depth_samples);
     else if (b.position)
       s.depth = depth_profile(*b.position, b.id + "/position", options.depth_samples);
+    if (b.position_with_mobility) s.mobility = b.mobility_reason;
     s.warnings = b.warnings;
     m.bores.push_back(std::move(s));
   }

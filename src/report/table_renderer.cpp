@@ -133,6 +133,8 @@ std::string format_table(const ReportModel& m) {
   }
 
   for (const BoreSummary& b : m.bores)
+    if (!b.mobility.empty()) out << "datum mobility, bore " << b.id << ": " << b.mobility << '\n';
+  for (const BoreSummary& b : m.bores)
     for (const std::string& warning : b.warnings)
       out << "warning: bore " << b.id << ": " << warning << '\n';
   for (const std::string& warning : m.warnings) out << "warning: " << warning << '\n';

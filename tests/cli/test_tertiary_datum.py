@@ -110,6 +110,12 @@ def run_part(directory, rotation, translation):
     if p.returncode not in (0, 1):
         failures.append(f"cylzone check exited {p.returncode}: {p.stderr.strip()[:300]}")
         return None
+    # The terminal report names the reading per bore too.
+    for bore_id, phrase in (("FIX", "simulator fixed at its basic location"),
+                            ("SLIDE", "its simulator translating")):
+        lines = [l for l in p.stdout.splitlines() if l.startswith(f"datum mobility, bore {bore_id}:")]
+        check(f"terminal, {bore_id}", len(lines) == 1 and phrase in lines[0],
+              f"expected one 'datum mobility' line with {phrase!r}, got {lines}")
     with open(out) as f:
         return {b["id"]: b for b in json.load(f)["bores"]}
 

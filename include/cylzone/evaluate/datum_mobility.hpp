@@ -3,10 +3,12 @@
 /// What a datum reference leaves free, and the best use of it. A datum feature of size
 /// referenced at MMB may shift within its simulator (ASME Y14.5-2018, datum feature shift); a
 /// reference without C leaves rotation about B free, one with A alone leaves translation free as
-/// well. Bores with the same datum reference are one pattern and move together (the
-/// simultaneous requirement of ASME Y14.5-2018, from memory for the clause number). The part
-/// conforms when some allowed motion puts every bore of the pattern inside its zone, so the
-/// motion chosen minimises the largest ratio position / allowed over the pattern.
+/// well. Datum C's simulator stays at its basic location relative to B's unless the reference
+/// marks it translating (TertiarySimulator). Bores with the same datum reference are one
+/// pattern and move together (the simultaneous requirement of ASME Y14.5-2018, from memory for
+/// the clause number). The part conforms when some allowed motion puts every bore of the pattern
+/// inside its zone, so the motion chosen minimises the largest ratio position / allowed over the
+/// pattern.
 
 #include <Eigen/Core>
 #include <optional>
@@ -35,8 +37,9 @@ struct FrameMobility {
   bool translation_free = false;  ///< no B in the reference
   bool rotation_free = false;     ///< no C in the reference
   double shift_allowance = 0.0;   ///< B at MMB: radius of the allowed shift, mm (LMB: 0, a note)
-  /// C a feature of size at RMB (or at MMB without room) while the frame shifts: the rotation
-  /// follows so that C stays on the ray from the origin at its basic angle.
+  /// C a feature of size at RMB (or at MMB without room) while the frame shifts, its simulator
+  /// translating (C(T), or a slot or tab): the rotation follows so that C stays on the ray from
+  /// the origin at its basic angle.
   bool rotation_follows_c = false;
   /// C a bore or pin without room of its own (RMB, or MMB with none) while the frame shifts,
   /// its simulator fixed at basic: the part's C axis stays on C's simulator, which lies on the
