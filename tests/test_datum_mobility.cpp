@@ -183,6 +183,11 @@ TEST_CASE("mobility of a datum reference", "[datum_mobility]") {
   CHECK(m.c_shift_allowance == Approx(0.005).margin(1e-15));
   CHECK_FALSE(m.rotation_follows_c);
   CHECK(m.shift_allowance == 0.0);
+  // With room of its own C keeps the translating reading, and says so unless (T) asked for it.
+  CHECK(m.c_simulator == TertiarySimulator::translating);
+  CHECK_THAT(m.description(), Contains("datum C at MMB keeps the translating reading"));
+  CHECK(mobility_of(refs({A, B, DatumReference{'C', MaterialBoundary::mmb, true}}), frame)
+            .notes.empty());
 
   // Fully fixed.
   m = mobility_of(refs({A, B, C}), frame);
@@ -208,7 +213,10 @@ TEST_CASE("mobility of a datum reference", "[datum_mobility]") {
   plane_c.c_plane = ClockingPlaneResult{};
   m = mobility_of(refs({A, BM, C}), plane_c);
   CHECK_FALSE(m.rotation_follows_c);
+  CHECK_FALSE(m.rotation_about_c);
   CHECK_FALSE(m.rotation_free);
+  CHECK(m.c_simulator == TertiarySimulator::none);
+  CHECK_THAT(m.description(), Contains("datum C (plane) keeps its direction while B shifts"));
 
   // A reference to a datum the frame lacks.
   DatumFrameResult no_b = frame;

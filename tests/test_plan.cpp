@@ -655,6 +655,8 @@ TEST_CASE("material boundary modifiers only on datum features of size with a siz
   CHECK_NOTHROW(parse_plan(plane_c, kPlanFile, false));
   check_error(replaced(plane_c, "\"A|B(M)|C\"", "\"A|B|C(L)\""), "\"A|B|C(L)\"", key,
               "datum C is a plane, not a feature of size: it takes no (L) modifier");
+  check_error(replaced(plane_c, "\"A|B(M)|C\"", "\"A|B(M)|C(T)\""), "\"A|B(M)|C(T)\"", key,
+              "datum C is a plane, not a feature of size: it takes no (T) modifier");
 
   const std::string no_size = replaced(kBase, "size = { lower = 19.990, upper = 20.011 }\n", "");
   check_error(no_size, "\"A|B(M)|C\"", key,
