@@ -178,16 +178,24 @@ TEST_CASE("mobility of a datum reference", "[datum_mobility]") {
   CHECK_FALSE(mobility_of(refs({A, B, C}), frame, Eigen::Vector2d(70.0, 0.0)).any());
   CHECK_FALSE(mobility_of(refs({A, B, CT}), frame).any());
 
-  // C at MMB: its own allowance (8.010 - 8.000) / 2.
-  m = mobility_of(refs({A, B, CM}), frame);
+  // C at MMB: its own allowance (8.010 - 8.000) / 2; its simulator fixed at basic by default
+  // (C's axis within the allowance of its basic location), translating with (T) (within the
+  // allowance of its basic ray).
+  const auto CMT = DatumReference{'C', MaterialBoundary::mmb, true};
+  m = mobility_of(refs({A, B, CMT}), frame);
   CHECK(m.c_shift_allowance == Approx(0.005).margin(1e-15));
   CHECK_FALSE(m.rotation_follows_c);
+  CHECK_FALSE(m.rotation_about_c);
   CHECK(m.shift_allowance == 0.0);
-  // With room of its own C keeps the translating reading, and says so unless (T) asked for it.
   CHECK(m.c_simulator == TertiarySimulator::translating);
-  CHECK_THAT(m.description(), Contains("datum C at MMB keeps the translating reading"));
-  CHECK(mobility_of(refs({A, B, DatumReference{'C', MaterialBoundary::mmb, true}}), frame)
-            .notes.empty());
+  CHECK(m.notes.empty());
+  m = mobility_of(refs({A, B, CM}), frame, Eigen::Vector2d(70.0, 0.0));
+  CHECK(m.c_shift_allowance == Approx(0.005).margin(1e-15));
+  CHECK(m.rotation_about_c);
+  CHECK(m.c_held_distance == 70.0);
+  CHECK(m.c_simulator == TertiarySimulator::fixed_at_basic);
+  CHECK_THAT(m.description(), Contains("datum C at MMB: its axis may move up to 0.0050 mm off "
+                                       "its simulator's"));
 
   // Fully fixed.
   m = mobility_of(refs({A, B, C}), frame);
@@ -796,9 +804,9 @@ DatumFrameResult tertiary_frame(const Eigen::Vector2d& c) {
   return frame;
 }
 
-std::vector<DatumReference> a_bm_c(bool translating) {
-  return {{'A', MaterialBoundary::rmb}, {'B', MaterialBoundary::mmb},
-          {'C', MaterialBoundary::rmb, translating}};
+std::vector<DatumReference> a_bm_c(bool translating, bool b_mmb = true, bool c_mmb = false) {
+  return {{'A', MaterialBoundary::rmb}, {'B', b_mmb ? MaterialBoundary::mmb : MaterialBoundary::rmb},
+          {'C', c_mmb ? MaterialBoundary::mmb : MaterialBoundary::rmb, translating}};
 }
 
 /// The four-bore pattern turned by `angle` about C's axis at `c`: p -> c + R (p - c).
@@ -839,6 +847,31 @@ TEST_CASE("C fixed at basic: the part turns about C's axis within B's clearance"
   CHECK(translating.worst_ratio < 1e-9);
   CHECK(fixed.worst_ratio > 0.05);
   CHECK(fixed.worst_ratio <= 2.0 * 0.004 / 0.025 + 1e-12);
+}
+
+TEST_CASE("C at MMB fixed at basic: its axis stays within its room of its basic location",
+          "[datum_mobility]") {
+  // B at RMB, C at 60 mm with 0.005 of room (envelope 8.010, MMB 8.000): the origin stays and
+  // C's axis must stay within 0.005 of its basic location, |c - R c| = 2 |c| sin(|theta| / 2)
+  // <= 0.005 (law of cosines). A pattern turned by more stops there; within, it is turned back.
+  const Eigen::Vector2d c(60.0, 0.0);
+  const FrameMobility m = mobility_of(a_bm_c(false, false, true), tertiary_frame(c), c);
+  REQUIRE(m.rotation_about_c);
+  REQUIRE(m.shift_allowance == 0.0);
+  const double limit = 2.0 * std::asin(0.005 / 120.0);
+  const MobilityResult beyond = moved_pattern(3.0 * limit, Eigen::Vector2d::Zero()).best(m);
+  CHECK(beyond.motion.rotation_rad == Approx(limit).margin(1e-12));
+  CHECK(beyond.motion.shift.norm() == 0.0);
+  const MobilityResult inside = moved_pattern(-0.5 * limit, Eigen::Vector2d::Zero()).best(m);
+  CHECK(inside.motion.rotation_rad == Approx(-0.5 * limit).margin(1e-12));
+  CHECK(inside.worst_ratio < 1e-9);
+  // C 0.004 beyond its basic distance leaves less: sqrt(0.005^2 - 0.004^2) = 0.003 across.
+  const FrameMobility off = mobility_of(a_bm_c(false, false, true),
+                                        tertiary_frame(Eigen::Vector2d(60.004, 0.0)), c);
+  const double off_limit = 2.0 * std::asin(std::sqrt((0.005 * 0.005 - 0.004 * 0.004) /
+                                                     (4.0 * 60.004 * 60.0)));
+  const MobilityResult less = moved_pattern(3.0 * limit, Eigen::Vector2d::Zero()).best(off);
+  CHECK(less.motion.rotation_rad == Approx(off_limit).margin(1e-12));
 }
 
 TEST_CASE("C fixed at basic off its basic distance: B's clearance is spent on it",
@@ -910,14 +943,16 @@ TEST_CASE("write tertiary datum cases for the scipy cross-check", "[.][tertiary-
   std::ostringstream out;
   out << std::setprecision(17);
   const auto write = [&](const std::string& label, bool translating, const Eigen::Vector2d& c,
-                         double basic_distance, const Pattern& pattern) {
+                         double basic_distance, const Pattern& pattern, bool b_mmb = true,
+                         bool c_mmb = false) {
     const Eigen::Vector2d basic = basic_distance * c.normalized();
-    const FrameMobility m = mobility_of(a_bm_c(translating), tertiary_frame(c), basic);
+    const FrameMobility m =
+        mobility_of(a_bm_c(translating, b_mmb, c_mmb), tertiary_frame(c), basic);
     const MobilityResult r = pattern.best(m);
     out << "case " << (translating ? "translating" : "fixed") << ' ' << pattern.bores.size()
         << ' ' << label << '\n';
     out << "datum " << m.shift_allowance << ' ' << c.x() << ' ' << c.y() << ' ' << basic_distance
-        << '\n';
+        << ' ' << m.c_shift_allowance << '\n';
     write_pattern_and_result(out, pattern, r);
   };
   const Eigen::Vector2d c(100.0, 0.0);
@@ -942,6 +977,11 @@ TEST_CASE("write tertiary datum cases for the scipy cross-check", "[.][tertiary-
                                             20.0 + 60.0 * unit(rng), 0.04 + 0.06 * unit(rng)));
     }
     write("random", trial % 2 == 1, at, distance - off, pattern);
+    // C at MMB (0.005 of room) fixed at basic, with B at MMB or at RMB, and C off its basic
+    // distance by up to 0.02 (within the room of B and C, or of C alone when B is at RMB).
+    const bool b_mmb = trial % 2 == 0;
+    const double c_off = (b_mmb ? 0.02 : 0.004) * (2.0 * unit(rng) - 1.0);
+    write("mmb", false, at, distance - c_off, pattern, b_mmb, true);
   }
   cylzone::testing::write_case_file("CYLZONE_TERTIARY_CASES", out.str());
 }

@@ -10,7 +10,8 @@
 // plane (no datum B), the origin (B at RMB), intersected with a strip when datum C at MMB lets
 // the rotation deviate within C's own allowance, or a chord when C's simulator translates and
 // the rotation follows C; with C's simulator fixed at basic the shift is a function of the
-// rotation (the part turns about C's axis), a single point per rotation. The rotation is
+// rotation (the part turns about C's axis), a single point per rotation, or with C at MMB the
+// overlap of B's disk and a disk of C's room about that point. The rotation is
 // one-dimensional and F is not convex in it in general.
 //
 // Solution: an outer search over theta (a coarse scan of the bracket, then golden-section
@@ -75,11 +76,13 @@ Eigen::Vector2d origin_about_c(const FrameMobility& m, double theta) {
   return m.c_location - Eigen::Rotation2Dd(theta) * held;
 }
 
-/// The rotations that keep |c - R(theta) c_held| within B's clearance r: by the law of cosines
+/// The rotations that keep |c - R(theta) c_held| within r, B's clearance plus C's own room at
+/// MMB (the two disks of the allowed origins then meet): by the law of cosines
 /// |theta| <= 2 asin(sqrt((r^2 - (|c| - held)^2) / (4 |c| held))), written so that a small
 /// angle keeps its digits.
 double rotation_about_c_limit(const FrameMobility& m) {
-  const double c = m.c_location.norm(), held = m.c_held_distance, r = m.shift_allowance;
+  const double c = m.c_location.norm(), held = m.c_held_distance;
+  const double r = m.shift_allowance + m.c_shift_allowance;
   const double gap = c - held;
   // C held at the end of the clearance (mobility_of clamps it there) leaves no rotation; the
   // test allows for the rounding of that clamp.
@@ -244,12 +247,41 @@ class InnerSolver {
     const auto f = [&](const Eigen::Vector2d& s) { return worst_ratio(terms, s); };
     InnerSolution out;
     const double r = mobility_.shift_allowance;
-    if (mobility_.rotation_about_c) {
+    if (mobility_.rotation_about_c && mobility_.c_shift_allowance <= 0.0) {
       // One origin per rotation. Rounding may leave it a hair outside the disk at the ends of
       // the rotation bracket; 1e-9 of B's clearance is far below any reported digit.
       out.shift = origin_about_c(mobility_, theta);
       if (out.shift.norm() > r * (1.0 + 1e-9)) return out;
       out.ratio = f(out.shift);
+      return out;
+    }
+    if (mobility_.rotation_about_c) {
+      // C at MMB with room, its simulator fixed at basic: the origins within C's room rho of
+      // p = c - R(theta) c_held and within B's clearance r of 0, two disks. In coordinates x
+      // along p, y across, x runs over the overlap of [-r, r] and [|p| - rho, |p| + rho], and
+      // at x, |y| is bounded by both disks' chords.
+      const Eigen::Vector2d p = origin_about_c(mobility_, theta);
+      const double rho = mobility_.c_shift_allowance, d = p.norm();
+      const Eigen::Vector2d e1 = d > 0.0 ? Eigen::Vector2d(p / d) : Eigen::Vector2d::UnitX();
+      const Eigen::Vector2d e2(-e1.y(), e1.x());
+      const double x_lo = std::max(-r, d - rho), x_hi = std::min(r, d + rho);
+      if (x_lo > x_hi + 1e-9 * (r + rho)) return out;
+      if (!(r > 0.0)) {  // B at RMB: the origin stays
+        out.shift = Eigen::Vector2d::Zero();
+        out.ratio = f(out.shift);
+        return out;
+      }
+      const auto across = [&](double x) {
+        const double half = std::sqrt(
+            std::max(0.0, std::min(r * r - x * x, rho * rho - (x - d) * (x - d))));
+        return detail::golden_minimum([&](double y) { return f(Eigen::Vector2d(x * e1 + y * e2)); },
+                                      -half, half, s_tolerance_, options_.max_iterations);
+      };
+      const auto [x, value] =
+          detail::golden_minimum([&](double xx) { return across(xx).second; }, x_lo,
+                                 std::max(x_lo, x_hi), s_tolerance_, options_.max_iterations);
+      out.shift = x * e1 + across(x).first * e2;
+      out.ratio = value;
       return out;
     }
     if (mobility_.rotation_follows_c) {
@@ -479,6 +511,9 @@ std::string FrameMobility::description() const {
     parts.push_back(std::string("datum C (") + (c_width->internal ? "slot" : "tab") +
                     ") at MMB: its centre plane may move up to " + mm(c_shift_allowance) +
                     " mm off the simulator's, less as the frame turns");
+  else if (c_shift_allowance > 0.0 && rotation_about_c)
+    parts.push_back("datum C at MMB: its axis may move up to " + mm(c_shift_allowance) +
+                    " mm off its simulator's");
   else if (c_shift_allowance > 0.0)
     parts.push_back("datum C at MMB: C may move up to " + mm(c_shift_allowance) + " mm off its basic direction");
   for (const std::string& note : notes) parts.push_back(note);
@@ -531,13 +566,17 @@ FrameMobility mobility_of(const std::vector<DatumReference>& datums, const Datum
     }
     if (c->boundary == MaterialBoundary::lmb)
       m.notes.push_back("datum C at LMB: rotation allowance not applied (conservative)");
-    // The reading of C's simulator. Fixed at basic is modelled for a bore or pin without room
-    // of its own; a slot or tab, and C with room at MMB, keep the translating reading.
-    const bool modelled = !frame.c_width && m.c_shift_allowance == 0.0;
+    // The reading of C's simulator. Fixed at basic is modelled for a bore or pin; a slot or tab
+    // keeps the translating reading.
+    const bool modelled = !frame.c_width;
     m.c_simulator = c->translating || !modelled ? TertiarySimulator::translating
                                                 : TertiarySimulator::fixed_at_basic;
     // With no room of its own, C holds the rotation exactly: it follows a shifting frame
-    // (translating), or the part turns about it (fixed at basic).
+    // (translating), or the part turns about it (fixed at basic). With room at MMB, C's axis
+    // stays within it of its simulator: off C's basic ray (translating), or off its basic
+    // location (fixed at basic).
+    if (m.c_shift_allowance > 0.0 && m.c_simulator == TertiarySimulator::fixed_at_basic)
+      m.rotation_about_c = true;
     if (m.c_shift_allowance == 0.0 && m.shift_allowance > 0.0) {
       m.rotation_follows_c = m.c_simulator == TertiarySimulator::translating;
       m.rotation_about_c = m.c_simulator == TertiarySimulator::fixed_at_basic;
@@ -547,9 +586,6 @@ FrameMobility mobility_of(const std::vector<DatumReference>& datums, const Datum
                           ") keeps the translating reading: a width simulator fixed at basic is "
                           "not modelled");
     }
-    if (!c->translating && !modelled && m.c_shift_allowance > 0.0)
-      m.notes.push_back("datum C at MMB keeps the translating reading: C's MMB simulator fixed at "
-                        "basic is not modelled");
     if ((m.rotation_follows_c || m.rotation_about_c || m.c_shift_allowance > 0.0) &&
         m.c_location.norm() <= 1e-9)
       throw FitError(frame.c_width
@@ -559,14 +595,15 @@ FrameMobility mobility_of(const std::vector<DatumReference>& datums, const Datum
       if (!c_basic_location || !(c_basic_location->norm() > 0.0))
         throw FitError("datum C's simulator is fixed at its basic location, which is not given "
                        "(give C's basic location, or reference C as C(T) to let it translate)");
-      // C's expanding simulator centres C when B's clearance allows; beyond it, it meets C with
-      // the clearance used up along C's direction, the part held there.
+      // C's simulator centres C (RMB) or clears it (MMB) when the room allows; beyond it, it
+      // meets C with the room used up along C's direction, the part held there.
       const double basic = c_basic_location->norm(), actual = m.c_location.norm();
-      m.c_held_distance = std::clamp(basic, actual - m.shift_allowance, actual + m.shift_allowance);
+      const double room = m.shift_allowance + m.c_shift_allowance;
+      m.c_held_distance = std::clamp(basic, actual - room, actual + room);
       if (m.c_held_distance != basic)
         m.notes.push_back("datum C lies " + mm(std::abs(actual - basic)) +
-                          " mm off its basic distance from B, beyond B's clearance: C's "
-                          "simulator meets C with the clearance used up, no motion left");
+                          " mm off its basic distance from B, beyond the room of B and C: C's "
+                          "simulator meets C with the room used up, no motion left");
     }
   } else if (c && m.shift_allowance > 0.0) {
     m.notes.push_back("datum C (plane) keeps its direction while B shifts; its simulator fixed at "
@@ -606,7 +643,8 @@ MobilityResult best_frame_motion(const std::vector<const BoreResult*>& bores,
   // C's simulator fixed at basic holds the part at C: the unmoved frame is one of the allowed
   // motions only when C lies at its held distance.
   const bool unmoved_allowed =
-      !mobility.rotation_about_c || mobility.c_location.norm() == mobility.c_held_distance;
+      !mobility.rotation_about_c ||
+      std::abs(mobility.c_location.norm() - mobility.c_held_distance) <= mobility.c_shift_allowance;
   if ((rotation_fixed && shift_fixed) || (f0 == 0.0 && unmoved_allowed))
     return finish(FrameMotion{});
 
@@ -639,8 +677,10 @@ MobilityResult best_frame_motion(const std::vector<const BoreResult*>& bores,
   const double bracket = rotation_fixed ? 0.0 : rotation_bracket(model, mobility, f0);
   if (bracket <= 0.0) {
     consider(0.0, solve_at(0.0));
-    if (!std::isfinite(best_ratio))  // C held at the end of B's clearance: the only motion
-      best.shift = origin_about_c(mobility, 0.0);
+    if (!std::isfinite(best_ratio)) {  // C held at the end of the room: the only motion
+      const Eigen::Vector2d p = origin_about_c(mobility, 0.0);
+      best.shift = p * std::min(1.0, mobility.shift_allowance / std::max(p.norm(), 1e-300));
+    }
     return finish(best);
   }
   // Coarse scan (0 is a sample), then golden section around the best sample.

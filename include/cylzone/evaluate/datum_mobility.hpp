@@ -41,25 +41,28 @@ struct FrameMobility {
   /// translating (C(T), or a slot or tab): the rotation follows so that C stays on the ray from
   /// the origin at its basic angle.
   bool rotation_follows_c = false;
-  /// C a bore or pin without room of its own (RMB, or MMB with none) while the frame shifts,
-  /// its simulator fixed at basic: the part's C axis stays on C's simulator, which lies on the
+  /// C a bore or pin, its simulator fixed at basic: without room of its own (RMB, or MMB with
+  /// none) while the frame shifts, the part's C axis stays on C's simulator, which lies on the
   /// basic ray at `c_held_distance` from the moved origin, so the part turns about C's axis
-  /// within B's clearance. At rotation theta the origin is s = c - R(theta) c_held, with c_held
-  /// the point of the ray at that distance; the rotations with |s| <= shift_allowance are
-  /// allowed. The unmoved frame is then allowed only when C lies at its basic distance.
+  /// within B's clearance: at rotation theta the origin is s = c - R(theta) c_held, with c_held
+  /// the point of the ray at that distance, allowed while |s| <= shift_allowance. With room at
+  /// MMB (c_shift_allowance), the origin may be anywhere within that room of this s and within
+  /// B's clearance of the frame's origin. The unmoved frame is then allowed only when C lies
+  /// within its room of its basic distance.
   bool rotation_about_c = false;
   /// C's basic distance from B when it is within B's clearance of C's actual distance; else
   /// the nearest distance that is, where C's expanding simulator meets C with B's clearance
   /// used up along C's direction, and a note says so.
   double c_held_distance = 0.0;
-  /// The reading of C's simulator that the mobility applies (a slot, a tab, and C at MMB with
-  /// room of its own keep the translating reading, with a note when the reference asked for
-  /// the default: docs/evaluation.md).
+  /// The reading of C's simulator that the mobility applies (a slot or tab keeps the
+  /// translating reading, with a note when the reference asked for the default:
+  /// docs/evaluation.md).
   TertiarySimulator c_simulator = TertiarySimulator::none;
   /// C's axis on A, frame coordinates; the frame was clocked so that it lies on its basic ray.
   Eigen::Vector2d c_location = Eigen::Vector2d::Zero();
   /// C at MMB: how far C's axis may move off the ray from the origin at its basic angle, mm
-  /// (C clocks the frame only, as the frame's C at RMB does: docs/evaluation.md). For a slot
+  /// (C clocks the frame only, as the frame's C at RMB does: docs/evaluation.md), or off its
+  /// basic location when rotation_about_c. For a slot
   /// or tab, how far its centre plane may move off the MMB simulator's at the start.
   double c_shift_allowance = 0.0;
   /// C a slot or tab at MMB: its simulator, two parallel planes `mmb_width` apart about a
