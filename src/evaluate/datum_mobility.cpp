@@ -580,12 +580,12 @@ FrameMobility mobility_of(const std::vector<DatumReference>& datums, const Datum
     if (m.c_shift_allowance == 0.0 && m.shift_allowance > 0.0) {
       m.rotation_follows_c = m.c_simulator == TertiarySimulator::translating;
       m.rotation_about_c = m.c_simulator == TertiarySimulator::fixed_at_basic;
-      if (!c->translating && !modelled)
-        m.notes.push_back(std::string("datum C (") +
-                          std::string(feature_kind_name(frame.c_width->kind)) +
-                          ") keeps the translating reading: a width simulator fixed at basic is "
-                          "not modelled");
     }
+    if (!c->translating && !modelled && (m.shift_allowance > 0.0 || m.c_shift_allowance > 0.0))
+      m.notes.push_back(std::string("datum C (") +
+                        std::string(feature_kind_name(frame.c_width->kind)) +
+                        ") keeps the translating reading: a width simulator fixed at basic is "
+                        "not modelled");
     if ((m.rotation_follows_c || m.rotation_about_c || m.c_shift_allowance > 0.0) &&
         m.c_location.norm() <= 1e-9)
       throw FitError(frame.c_width
