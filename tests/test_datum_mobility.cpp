@@ -805,8 +805,9 @@ DatumFrameResult tertiary_frame(const Eigen::Vector2d& c) {
 }
 
 std::vector<DatumReference> a_bm_c(bool translating, bool b_mmb = true, bool c_mmb = false) {
-  return {{'A', MaterialBoundary::rmb}, {'B', b_mmb ? MaterialBoundary::mmb : MaterialBoundary::rmb},
-          {'C', c_mmb ? MaterialBoundary::mmb : MaterialBoundary::rmb, translating}};
+  const MaterialBoundary b = b_mmb ? MaterialBoundary::mmb : MaterialBoundary::rmb;
+  const MaterialBoundary c = c_mmb ? MaterialBoundary::mmb : MaterialBoundary::rmb;
+  return {{'A', MaterialBoundary::rmb}, {'B', b}, {'C', c, translating}};
 }
 
 /// The four-bore pattern turned by `angle` about C's axis at `c`: p -> c + R (p - c).
@@ -880,7 +881,8 @@ TEST_CASE("C fixed at basic off its basic distance: B's clearance is spent on it
   // clearance (origin at s = (0.010, 0) at no rotation), and a pattern turned about C is found
   // again within the smaller rotation left, 2 asin(sqrt((0.025^2 - 0.010^2) / (4 c basic))).
   const Eigen::Vector2d c(100.010, 0.0);
-  const FrameMobility m = mobility_of(a_bm_c(false), tertiary_frame(c), Eigen::Vector2d(100.0, 0.0));
+  const FrameMobility m =
+      mobility_of(a_bm_c(false), tertiary_frame(c), Eigen::Vector2d(100.0, 0.0));
   REQUIRE(m.c_held_distance == 100.0);
   const Eigen::Vector2d held(100.0, 0.0);
   // The pattern as the simulators would hold it turned by phi: p -> c + R (p - held).
@@ -895,8 +897,8 @@ TEST_CASE("C fixed at basic off its basic distance: B's clearance is spent on it
   CHECK(centred.worst_ratio > 0.0);
   CHECK(centred.worst_ratio <= 2.0 * 0.010 / 0.025 + 1e-12);
   // Beyond the clearance (C 0.030 off), no motion is left: the part held at the end of it.
-  const FrameMobility far = mobility_of(a_bm_c(false), tertiary_frame(Eigen::Vector2d(100.030, 0.0)),
-                                        Eigen::Vector2d(100.0, 0.0));
+  const FrameMobility far = mobility_of(
+      a_bm_c(false), tertiary_frame(Eigen::Vector2d(100.030, 0.0)), Eigen::Vector2d(100.0, 0.0));
   CHECK(far.c_held_distance == Approx(100.005).margin(1e-12));
   CHECK_THAT(far.description(), Contains("0.0300 mm off its basic distance"));
   const MobilityResult held_there = moved_pattern(0.0, Eigen::Vector2d::Zero()).best(far);
