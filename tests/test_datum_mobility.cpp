@@ -121,6 +121,7 @@ TEST_CASE("mobility of a datum reference", "[datum_mobility]") {
   const auto B = DatumReference{'B', MaterialBoundary::rmb};
   const auto BM = DatumReference{'B', MaterialBoundary::mmb};
   const auto C = DatumReference{'C', MaterialBoundary::rmb};
+  const auto CT = DatumReference{'C', MaterialBoundary::rmb, true};
   const auto CM = DatumReference{'C', MaterialBoundary::mmb};
 
   FrameMobility m = mobility_of(refs({A}), frame);
@@ -140,18 +141,61 @@ TEST_CASE("mobility of a datum reference", "[datum_mobility]") {
   CHECK(m.rotation_free);
   CHECK_THAT(m.description(), Contains("datum B at MMB: shift up to 0.0060 mm"));
 
-  // C at RMB while B shifts: rotation follows C; C's location in frame coordinates.
-  m = mobility_of(refs({A, BM, C}), frame);
+  // C at RMB, its simulator translating, while B shifts: rotation follows C; C's location in
+  // frame coordinates.
+  m = mobility_of(refs({A, BM, CT}), frame);
   CHECK(m.rotation_follows_c);
+  CHECK_FALSE(m.rotation_about_c);
+  CHECK(m.c_simulator == TertiarySimulator::translating);
   CHECK_FALSE(m.rotation_free);
   CHECK((m.c_location - Eigen::Vector2d(70.0, 0.0)).norm() < 1e-12);
   CHECK_THAT(m.description(), Contains("rotation follows datum C"));
 
-  // C at MMB: its own allowance (8.010 - 8.000) / 2.
-  m = mobility_of(refs({A, B, CM}), frame);
+  // C at RMB by default: its simulator fixed at its basic location (70 mm), the part turns
+  // about C's axis within B's clearance.
+  m = mobility_of(refs({A, BM, C}), frame, Eigen::Vector2d(70.0, 0.0));
+  CHECK(m.rotation_about_c);
+  CHECK_FALSE(m.rotation_follows_c);
+  CHECK_FALSE(m.rotation_free);
+  CHECK(m.c_simulator == TertiarySimulator::fixed_at_basic);
+  CHECK(m.c_held_distance == Approx(70.0).margin(1e-12));
+  CHECK(m.notes.empty());
+  CHECK_THAT(m.description(), Contains("datum C's simulator fixed at its basic location, "
+                                       "70.0000 mm from B"));
+  CHECK(tertiary_simulator_name(m.c_simulator) == "fixed_at_basic");
+  // Its basic location is needed, and the message says how to do without it.
+  CHECK_THROWS_WITH(mobility_of(refs({A, BM, C}), frame), Contains("C(T)"));
+  // Within B's clearance of C's actual distance, the basic distance holds C; beyond it, C's
+  // simulator meets C at the end of the clearance (0.006), with a note.
+  m = mobility_of(refs({A, BM, C}), frame, Eigen::Vector2d(69.997, 0.0));
+  CHECK(m.c_held_distance == 69.997);
+  CHECK(m.notes.empty());
+  m = mobility_of(refs({A, BM, C}), frame, Eigen::Vector2d(70.010, 0.0));
+  CHECK(m.c_held_distance == Approx(70.006).margin(1e-12));
+  REQUIRE(m.notes.size() == 1);
+  CHECK_THAT(m.notes.front(), Contains("0.0100 mm off its basic distance"));
+  // With B at RMB nothing moves, whichever reading.
+  CHECK_FALSE(mobility_of(refs({A, B, C}), frame, Eigen::Vector2d(70.0, 0.0)).any());
+  CHECK_FALSE(mobility_of(refs({A, B, CT}), frame).any());
+
+  // C at MMB: its own allowance (8.010 - 8.000) / 2; its simulator fixed at basic by default
+  // (C's axis within the allowance of its basic location), translating with (T) (within the
+  // allowance of its basic ray).
+  const auto CMT = DatumReference{'C', MaterialBoundary::mmb, true};
+  m = mobility_of(refs({A, B, CMT}), frame);
   CHECK(m.c_shift_allowance == Approx(0.005).margin(1e-15));
   CHECK_FALSE(m.rotation_follows_c);
+  CHECK_FALSE(m.rotation_about_c);
   CHECK(m.shift_allowance == 0.0);
+  CHECK(m.c_simulator == TertiarySimulator::translating);
+  CHECK(m.notes.empty());
+  m = mobility_of(refs({A, B, CM}), frame, Eigen::Vector2d(70.0, 0.0));
+  CHECK(m.c_shift_allowance == Approx(0.005).margin(1e-15));
+  CHECK(m.rotation_about_c);
+  CHECK(m.c_held_distance == 70.0);
+  CHECK(m.c_simulator == TertiarySimulator::fixed_at_basic);
+  CHECK_THAT(m.description(), Contains("datum C at MMB: its axis may move up to 0.0050 mm off "
+                                       "its simulator's"));
 
   // Fully fixed.
   m = mobility_of(refs({A, B, C}), frame);
@@ -177,7 +221,10 @@ TEST_CASE("mobility of a datum reference", "[datum_mobility]") {
   plane_c.c_plane = ClockingPlaneResult{};
   m = mobility_of(refs({A, BM, C}), plane_c);
   CHECK_FALSE(m.rotation_follows_c);
+  CHECK_FALSE(m.rotation_about_c);
   CHECK_FALSE(m.rotation_free);
+  CHECK(m.c_simulator == TertiarySimulator::none);
+  CHECK_THAT(m.description(), Contains("datum C (plane) keeps its direction while B shifts"));
 
   // A reference to a datum the frame lacks.
   DatumFrameResult no_b = frame;
@@ -545,11 +592,15 @@ TEST_CASE("mobility of a slot or tab datum C", "[datum_mobility]") {
                                   Contains("datum C (tab) at MMB: its centre plane may move up to "
                                            "0.0050 mm"));
 
-  // C at RMB: no simulator; with B at MMB the rotation follows C's centre.
+  // C at RMB: no simulator; with B at MMB the rotation follows C's centre, the translating
+  // reading, which a slot keeps (with a note) when the default is asked for.
   m = mobility_of(refs({A, BM, C}), frame);
   CHECK(m.c_shift_allowance == 0.0);
   CHECK_FALSE(m.c_width);
   CHECK(m.rotation_follows_c);
+  CHECK_FALSE(m.rotation_about_c);
+  CHECK(m.c_simulator == TertiarySimulator::translating);
+  CHECK_THAT(m.description(), Contains("datum C (slot) keeps the translating reading"));
   CHECK((m.c_location - Eigen::Vector2d(50.0, 0.0)).norm() < 1e-12);
 
   // A slot narrower than its MMB (or a tab wider) violates it: no room, no simulator.
@@ -727,4 +778,212 @@ TEST_CASE("write datum mobility cases for the scipy cross-check", "[.][mobility-
   }
   CHECK(written == 24 + 16);
   cylzone::testing::write_case_file("CYLZONE_MOBILITY_CASES", out.str());
+}
+
+// ---- Datum C a bore or pin at RMB while B shifts: its simulator fixed at basic (the default)
+// or translating (C(T)). ASME Y14.5-2018 keeps datum feature simulators at their basic
+// locations relative to one another unless the translation modifier is applied (from memory for
+// the clause).
+
+namespace {
+
+/// A frame with B a bore of 12.000-12.050 whose MMB is its virtual condition 11.980 (a
+/// perpendicularity of 0.020 at MMC) and related envelope 12.030, so that B may shift 0.025;
+/// and C a bore whose axis lies at `c` (frame coordinates).
+DatumFrameResult tertiary_frame(const Eigen::Vector2d& c) {
+  DatumFrameResult frame;
+  SizeDatumResult b;
+  b.label = 'B';
+  b.kind = FeatureKind::bore;
+  b.mating_size = 12.030;
+  b.mmb_size = 11.980;
+  b.size = SizeLimits{12.000, 12.050};
+  frame.b = b;
+  frame.c_feature = size_datum('C', FeatureKind::bore, 8.010, 8.000);
+  frame.c_feature->axis_on_a = Eigen::Vector3d(c.x(), c.y(), 0.0);
+  return frame;
+}
+
+std::vector<DatumReference> a_bm_c(bool translating, bool b_mmb = true, bool c_mmb = false) {
+  const MaterialBoundary b = b_mmb ? MaterialBoundary::mmb : MaterialBoundary::rmb;
+  const MaterialBoundary c = c_mmb ? MaterialBoundary::mmb : MaterialBoundary::rmb;
+  return {{'A', MaterialBoundary::rmb}, {'B', b}, {'C', c, translating}};
+}
+
+/// The four-bore pattern turned by `angle` about C's axis at `c`: p -> c + R (p - c).
+Pattern turned_about(const Eigen::Vector2d& c, double angle) {
+  return moved_pattern(angle, c - rotated(c, angle));
+}
+
+}  // namespace
+
+TEST_CASE("C fixed at basic: the part turns about C's axis within B's clearance",
+          "[datum_mobility]") {
+  // Reference: construction. A pattern turned about C by less than B's clearance allows is
+  // turned back exactly; by more, the rotation stops where B's axis meets its clearance,
+  // |c - R c| = 2 |c| sin(|theta| / 2) = 0.025 (law of cosines).
+  const Eigen::Vector2d c(100.0, 0.0);
+  const FrameMobility m = mobility_of(a_bm_c(false), tertiary_frame(c), c);
+  REQUIRE(m.rotation_about_c);
+  REQUIRE(m.shift_allowance == Approx(0.025).margin(1e-15));
+  const double limit = 2.0 * std::asin(0.025 / 200.0);
+  const MobilityResult inside = turned_about(c, -0.6 * limit).best(m);
+  CHECK(inside.motion.rotation_rad == Approx(-0.6 * limit).margin(1e-12));
+  CHECK((inside.motion.shift - (c - rotated(c, -0.6 * limit))).norm() < 1e-12);
+  CHECK(inside.worst_ratio < 1e-9);
+  const MobilityResult beyond = turned_about(c, 2.0 * limit).best(m);
+  CHECK(beyond.motion.rotation_rad == Approx(limit).margin(1e-12));
+  CHECK(beyond.motion.shift.norm() <= 0.025 * (1.0 + 1e-9));
+  CHECK(beyond.motion.shift.norm() == Approx(0.025).epsilon(1e-9));
+  // The motion keeps the part's C axis on C's simulator, at its basic location.
+  const Eigen::Vector2d moved_c =
+      Eigen::Rotation2Dd(-beyond.motion.rotation_rad) * (c - beyond.motion.shift);
+  CHECK((moved_c - c).norm() < 1e-12);
+  // A uniform shift toward C, which the translating reading undoes exactly, is no rotation
+  // about C: the fixed reading cannot undo it; the unmoved frame is one allowed motion, so the
+  // result is no worse than it.
+  const Pattern shifted = moved_pattern(0.0, Eigen::Vector2d(0.004, 0.0));
+  const MobilityResult fixed = shifted.best(m);
+  const MobilityResult translating = shifted.best(mobility_of(a_bm_c(true), tertiary_frame(c)));
+  CHECK(translating.worst_ratio < 1e-9);
+  CHECK(fixed.worst_ratio > 0.05);
+  CHECK(fixed.worst_ratio <= 2.0 * 0.004 / 0.025 + 1e-12);
+}
+
+TEST_CASE("C at MMB fixed at basic: its axis stays within its room of its basic location",
+          "[datum_mobility]") {
+  // B at RMB, C at 60 mm with 0.005 of room (envelope 8.010, MMB 8.000): the origin stays and
+  // C's axis must stay within 0.005 of its basic location, |c - R c| = 2 |c| sin(|theta| / 2)
+  // <= 0.005 (law of cosines). A pattern turned by more stops there; within, it is turned back.
+  const Eigen::Vector2d c(60.0, 0.0);
+  const FrameMobility m = mobility_of(a_bm_c(false, false, true), tertiary_frame(c), c);
+  REQUIRE(m.rotation_about_c);
+  REQUIRE(m.shift_allowance == 0.0);
+  const double limit = 2.0 * std::asin(0.005 / 120.0);
+  const MobilityResult beyond = moved_pattern(3.0 * limit, Eigen::Vector2d::Zero()).best(m);
+  CHECK(beyond.motion.rotation_rad == Approx(limit).margin(1e-12));
+  CHECK(beyond.motion.shift.norm() == 0.0);
+  const MobilityResult inside = moved_pattern(-0.5 * limit, Eigen::Vector2d::Zero()).best(m);
+  CHECK(inside.motion.rotation_rad == Approx(-0.5 * limit).margin(1e-12));
+  CHECK(inside.worst_ratio < 1e-9);
+  // C 0.004 beyond its basic distance leaves less: sqrt(0.005^2 - 0.004^2) = 0.003 across.
+  const FrameMobility off = mobility_of(a_bm_c(false, false, true),
+                                        tertiary_frame(Eigen::Vector2d(60.004, 0.0)), c);
+  const double off_limit = 2.0 * std::asin(std::sqrt((0.005 * 0.005 - 0.004 * 0.004) /
+                                                     (4.0 * 60.004 * 60.0)));
+  const MobilityResult less = moved_pattern(3.0 * limit, Eigen::Vector2d::Zero()).best(off);
+  CHECK(less.motion.rotation_rad == Approx(off_limit).margin(1e-12));
+}
+
+TEST_CASE("C fixed at basic off its basic distance: B's clearance is spent on it",
+          "[datum_mobility]") {
+  // C's axis lies 0.010 beyond its basic 100 mm: the part sits 0.010 toward C in B's
+  // clearance (origin at s = (0.010, 0) at no rotation), and a pattern turned about C is found
+  // again within the smaller rotation left, 2 asin(sqrt((0.025^2 - 0.010^2) / (4 c basic))).
+  const Eigen::Vector2d c(100.010, 0.0);
+  const FrameMobility m =
+      mobility_of(a_bm_c(false), tertiary_frame(c), Eigen::Vector2d(100.0, 0.0));
+  REQUIRE(m.c_held_distance == 100.0);
+  const Eigen::Vector2d held(100.0, 0.0);
+  // The pattern as the simulators would hold it turned by phi: p -> c + R (p - held).
+  const double phi = 1.0e-4;
+  const Pattern pattern = moved_pattern(phi, c - rotated(held, phi));
+  const MobilityResult r = pattern.best(m);
+  CHECK(r.motion.rotation_rad == Approx(phi).margin(1e-12));
+  CHECK(r.worst_ratio < 1e-9);
+  // A part on position in the frame is not on position once C is centred: every bore moves by
+  // the 0.010 that C's distance takes out of B's clearance, or its rotated equivalent.
+  const MobilityResult centred = moved_pattern(0.0, Eigen::Vector2d::Zero()).best(m);
+  CHECK(centred.worst_ratio > 0.0);
+  CHECK(centred.worst_ratio <= 2.0 * 0.010 / 0.025 + 1e-12);
+  // Beyond the clearance (C 0.030 off), no motion is left: the part held at the end of it.
+  const FrameMobility far = mobility_of(
+      a_bm_c(false), tertiary_frame(Eigen::Vector2d(100.030, 0.0)), Eigen::Vector2d(100.0, 0.0));
+  CHECK(far.c_held_distance == Approx(100.005).margin(1e-12));
+  CHECK_THAT(far.description(), Contains("0.0300 mm off its basic distance"));
+  const MobilityResult held_there = moved_pattern(0.0, Eigen::Vector2d::Zero()).best(far);
+  CHECK(held_there.motion.rotation_rad == 0.0);
+  CHECK((held_there.motion.shift - Eigen::Vector2d(0.025, 0.0)).norm() < 1e-12);
+  CHECK(held_there.worst_ratio == Approx(2.0 * 0.025 / 0.025).margin(1e-9));
+}
+
+namespace {
+
+/// One bore 100 mm off B and 25 mm behind it (basic (-25, -100)), on position at its mouth and
+/// 0.060, 0.030 off at its bottom 40 mm down: position 0.134164 in the fixed frame, tolerance
+/// 0.100 RFS; the frame of tertiary_frame with C at its basic 100 mm.
+Pattern tilted_bore() {
+  Pattern pattern;
+  const Eigen::Vector2d basic(-25.0, -100.0);
+  PatternBore b = straight_bore("T1", basic, basic, basic + Eigen::Vector2d(0.060, 0.030), 40.0,
+                                0.100);
+  pattern.bores.push_back(b);
+  return pattern;
+}
+
+}  // namespace
+
+TEST_CASE("a tilted bore: the reading of C's simulator decides the verdict", "[datum_mobility]") {
+  // Reference: scipy.optimize.minimize (SLSQP) with the simulators' constraints written out,
+  // tests/reference/crosscheck_tertiary.py (the case "tilted" of "[tertiary-cases]"); the
+  // fixed-frame figure is 2 sqrt(0.060^2 + 0.030^2).
+  const Eigen::Vector2d c(100.0, 0.0);
+  const Pattern pattern = tilted_bore();
+  REQUIRE(pattern.bores.front().result.position->value == Approx(0.134164).margin(5e-7));
+  const MobilityResult fixed = pattern.best(mobility_of(a_bm_c(false), tertiary_frame(c), c));
+  const MobilityResult translating = pattern.best(mobility_of(a_bm_c(true), tertiary_frame(c)));
+  CHECK(fixed.positions.front().value == Approx(0.131185).margin(5e-7));
+  CHECK(translating.positions.front().value == Approx(0.092162).margin(5e-7));
+  CHECK(fixed.positions.front().value > 0.100);        // does not conform
+  CHECK(translating.positions.front().value < 0.100);  // conforms
+}
+
+// Writes patterns with cylzone's best motion under both readings of C's simulator for
+// tests/reference/crosscheck_tertiary.py. Hidden: run by ctest as tertiary_mobility_cases with
+// the output path in CYLZONE_TERTIARY_CASES.
+TEST_CASE("write tertiary datum cases for the scipy cross-check", "[.][tertiary-cases]") {
+  std::ostringstream out;
+  out << std::setprecision(17);
+  const auto write = [&](const std::string& label, bool translating, const Eigen::Vector2d& c,
+                         double basic_distance, const Pattern& pattern, bool b_mmb = true,
+                         bool c_mmb = false) {
+    const Eigen::Vector2d basic = basic_distance * c.normalized();
+    const FrameMobility m =
+        mobility_of(a_bm_c(translating, b_mmb, c_mmb), tertiary_frame(c), basic);
+    const MobilityResult r = pattern.best(m);
+    out << "case " << (translating ? "translating" : "fixed") << ' ' << pattern.bores.size()
+        << ' ' << label << '\n';
+    out << "datum " << m.shift_allowance << ' ' << c.x() << ' ' << c.y() << ' ' << basic_distance
+        << ' ' << m.c_shift_allowance << '\n';
+    write_pattern_and_result(out, pattern, r);
+  };
+  const Eigen::Vector2d c(100.0, 0.0);
+  write("tilted", false, c, 100.0, tilted_bore());
+  write("tilted", true, c, 100.0, tilted_bore());
+  std::mt19937_64 rng(2468);
+  std::normal_distribution<double> g(0.0, 1.0);
+  std::uniform_real_distribution<double> unit(0.0, 1.0);
+  for (int trial = 0; trial < 20; ++trial) {
+    const double angle = pi * (2.0 * unit(rng) - 1.0), distance = 40.0 + 80.0 * unit(rng);
+    const Eigen::Vector2d at = distance * Eigen::Vector2d(std::cos(angle), std::sin(angle));
+    // C's actual distance off its basic one by up to 0.02 (B's clearance is 0.025), and once
+    // beyond the clearance.
+    const double off = trial == 18 ? 0.04 : 0.02 * (2.0 * unit(rng) - 1.0);
+    Pattern pattern;
+    const int n = 2 + trial % 4;
+    for (int k = 0; k < n; ++k) {
+      const Eigen::Vector2d basic(60.0 * (2 * unit(rng) - 1), 60.0 * (2 * unit(rng) - 1));
+      const Eigen::Vector2d top = basic + 0.015 * Eigen::Vector2d(g(rng), g(rng));
+      const Eigen::Vector2d bottom = basic + 0.015 * Eigen::Vector2d(g(rng), g(rng));
+      pattern.bores.push_back(straight_bore("R" + std::to_string(k), basic, top, bottom,
+                                            20.0 + 60.0 * unit(rng), 0.04 + 0.06 * unit(rng)));
+    }
+    write("random", trial % 2 == 1, at, distance - off, pattern);
+    // C at MMB (0.005 of room) fixed at basic, with B at MMB or at RMB, and C off its basic
+    // distance by up to 0.02 (within the room of B and C, or of C alone when B is at RMB).
+    const bool b_mmb = trial % 2 == 0;
+    const double c_off = (b_mmb ? 0.02 : 0.004) * (2.0 * unit(rng) - 1.0);
+    write("mmb", false, at, distance - c_off, pattern, b_mmb, true);
+  }
+  cylzone::testing::write_case_file("CYLZONE_TERTIARY_CASES", out.str());
 }

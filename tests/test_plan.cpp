@@ -374,6 +374,15 @@ TEST_CASE("datum references accept spaces and every defined order", "[plan]") {
   const PartPlan c_mmb =
       parse_plan(replaced(kBase, "\"A|B(M)|C\"", "\"A|B|C(M)\""), kPlanFile, false);
   CHECK(c_mmb.bores[0].position->datums[2].boundary == MaterialBoundary::mmb);
+  CHECK_FALSE(c_mmb.bores[0].position->datums[2].translating);
+  // C's simulator translating: "(T)" after any material boundary modifier, read and written.
+  for (const char* text : {"A|B(M)|C(T)", "A|B(M)|C(M)(T)"}) {
+    const PartPlan t = parse_plan(replaced(kBase, "\"A|B(M)|C\"", "\"" + std::string(text) + "\""),
+                                  kPlanFile, false);
+    CHECK(t.bores[0].position->datums[2].translating);
+    CHECK_FALSE(t.bores[0].position->datums[1].translating);
+    CHECK(datum_references_text(t.bores[0].position->datums) == text);
+  }
 }
 
 TEST_CASE("read_plan reads a plan file and checks that its point files exist", "[plan]") {
@@ -631,6 +640,10 @@ TEST_CASE("datum references name defined datums in the order A, B, C", "[plan][e
               "\"a\" is not a datum reference");
   check_error(replaced(kBase, "\"A|B(M)|C\"", "\"ABC\""), "\"ABC\"", key,
               "\"ABC\" is not a datum reference");
+  check_error(replaced(kBase, "\"A|B(M)|C\"", "\"A|B(T)|C\""), "\"A|B(T)|C\"", key,
+              "\"B(T)\": the translating simulator (T) applies to datum C only");
+  check_error(replaced(kBase, "\"A|B(M)|C\"", "\"A|B|C(T)(M)\""), "\"A|B|C(T)(M)\"", key,
+              "\"C(T)(M)\" is not a datum reference");
 }
 
 TEST_CASE("material boundary modifiers only on datum features of size with a size",
@@ -642,6 +655,8 @@ TEST_CASE("material boundary modifiers only on datum features of size with a siz
   CHECK_NOTHROW(parse_plan(plane_c, kPlanFile, false));
   check_error(replaced(plane_c, "\"A|B(M)|C\"", "\"A|B|C(L)\""), "\"A|B|C(L)\"", key,
               "datum C is a plane, not a feature of size: it takes no (L) modifier");
+  check_error(replaced(plane_c, "\"A|B(M)|C\"", "\"A|B(M)|C(T)\""), "\"A|B(M)|C(T)\"", key,
+              "datum C is a plane, not a feature of size: it takes no (T) modifier");
 
   const std::string no_size = replaced(kBase, "size = { lower = 19.990, upper = 20.011 }\n", "");
   check_error(no_size, "\"A|B(M)|C\"", key,

@@ -47,8 +47,9 @@ std::map<std::string, std::vector<std::size_t>> patterns_by_reference(const Part
 void apply_mobility(const PartPlan& plan, const DatumFrameResult& frame,
                     std::vector<BoreResult>& bores, const MobilityOptions& options) {
   for (const auto& [reference, members] : patterns_by_reference(plan)) {
-    const FrameMobility mobility =
-        mobility_of(plan.bores[members.front()].position->datums, frame);
+    const PlanDatum* c = plan.datum('C');
+    const FrameMobility mobility = mobility_of(plan.bores[members.front()].position->datums,
+                                               frame, c ? c->basic_location : std::nullopt);
     if (!mobility.any()) continue;
     std::vector<const BoreResult*> results;
     std::vector<const PlanBore*> plans;
@@ -62,6 +63,7 @@ void apply_mobility(const PartPlan& plan, const DatumFrameResult& frame,
       bore.position_with_mobility = best.positions[k];
       bore.mobility_motion = best.motion;
       bore.mobility_reason = mobility.description();
+      bore.mobility_c_simulator = std::string(tertiary_simulator_name(mobility.c_simulator));
     }
   }
 }

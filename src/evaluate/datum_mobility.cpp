@@ -8,8 +8,11 @@
 // is a maximum of norms of affine maps: convex in s (a second-order cone programme in two
 // unknowns). The allowed shifts form a convex set: a disk (datum feature shift at MMB), the
 // plane (no datum B), the origin (B at RMB), intersected with a strip when datum C at MMB lets
-// the rotation deviate within C's own allowance, or a chord when C at RMB makes the rotation
-// follow C. The rotation is one-dimensional and F is not convex in it in general.
+// the rotation deviate within C's own allowance, or a chord when C's simulator translates and
+// the rotation follows C; with C's simulator fixed at basic the shift is a function of the
+// rotation (the part turns about C's axis), a single point per rotation, or with C at MMB the
+// overlap of B's disk and a disk of C's room about that point. The rotation is
+// one-dimensional and F is not convex in it in general.
 //
 // Solution: an outer search over theta (a coarse scan of the bracket, then golden-section
 // search on the interval around the best sample, which handles several local minima of a
@@ -55,6 +58,29 @@ template <class Datum>
 double mmb_allowance(const Datum& datum, double mating_size) {
   const DatumShiftAtMmb shift = datum_shift_at_mmb(datum.kind, datum.size, datum.mmb_size, mating_size);
   return shift.boundary_size ? shift.allowance : datum.shift_allowance;
+}
+
+/// C's simulator fixed at basic: the origin s = c - R(theta) c_held that keeps the part's C axis
+/// on the simulator, which lies on C's basic ray at the held distance from the moved origin.
+Eigen::Vector2d origin_about_c(const FrameMobility& m, double theta) {
+  const Eigen::Vector2d held = (m.c_held_distance / m.c_location.norm()) * m.c_location;
+  return m.c_location - Eigen::Rotation2Dd(theta) * held;
+}
+
+/// The rotations that keep |c - R(theta) c_held| within r, B's clearance plus C's own room at
+/// MMB (the two disks of the allowed origins then meet): by the law of cosines
+/// |theta| <= 2 asin(sqrt((r^2 - (|c| - held)^2) / (4 |c| held))), written so that a small
+/// angle keeps its digits.
+double rotation_about_c_limit(const FrameMobility& m) {
+  const double c = m.c_location.norm(), held = m.c_held_distance;
+  const double r = m.shift_allowance + m.c_shift_allowance;
+  const double gap = c - held;
+  // C held at the end of the clearance (mobility_of clamps it there) leaves no rotation; the
+  // test allows for the rounding of that clamp.
+  if (!(std::abs(gap) < r * (1.0 - 1e-9))) return 0.0;
+  const double q = (r - gap) * (r + gap) / (4.0 * c * held);
+  if (!(q > 0.0)) return 0.0;
+  return q >= 1.0 ? pi : 2.0 * std::asin(std::sqrt(q));
 }
 
 /// One evaluated height of one bore: its deviation M s + b, weighted by 2 / allowed.
@@ -212,6 +238,43 @@ class InnerSolver {
     const auto f = [&](const Eigen::Vector2d& s) { return worst_ratio(terms, s); };
     InnerSolution out;
     const double r = mobility_.shift_allowance;
+    if (mobility_.rotation_about_c && mobility_.c_shift_allowance <= 0.0) {
+      // One origin per rotation. Rounding may leave it a hair outside the disk at the ends of
+      // the rotation bracket; 1e-9 of B's clearance is far below any reported digit.
+      out.shift = origin_about_c(mobility_, theta);
+      if (out.shift.norm() > r * (1.0 + 1e-9)) return out;
+      out.ratio = f(out.shift);
+      return out;
+    }
+    if (mobility_.rotation_about_c) {
+      // C at MMB with room, its simulator fixed at basic: the origins within C's room rho of
+      // p = c - R(theta) c_held and within B's clearance r of 0, two disks. In coordinates x
+      // along p, y across, x runs over the overlap of [-r, r] and [|p| - rho, |p| + rho], and
+      // at x, |y| is bounded by both disks' chords.
+      const Eigen::Vector2d p = origin_about_c(mobility_, theta);
+      const double rho = mobility_.c_shift_allowance, d = p.norm();
+      const Eigen::Vector2d e1 = d > 0.0 ? Eigen::Vector2d(p / d) : Eigen::Vector2d::UnitX();
+      const Eigen::Vector2d e2(-e1.y(), e1.x());
+      const double x_lo = std::max(-r, d - rho), x_hi = std::min(r, d + rho);
+      if (x_lo > x_hi + 1e-9 * (r + rho)) return out;
+      if (!(r > 0.0)) {  // B at RMB: the origin stays
+        out.shift = Eigen::Vector2d::Zero();
+        out.ratio = f(out.shift);
+        return out;
+      }
+      const auto across = [&](double x) {
+        const double half = std::sqrt(
+            std::max(0.0, std::min(r * r - x * x, rho * rho - (x - d) * (x - d))));
+        return detail::golden_minimum([&](double y) { return f(Eigen::Vector2d(x * e1 + y * e2)); },
+                                      -half, half, s_tolerance_, options_.max_iterations);
+      };
+      const auto [x, value] =
+          detail::golden_minimum([&](double xx) { return across(xx).second; }, x_lo,
+                                 std::max(x_lo, x_hi), s_tolerance_, options_.max_iterations);
+      out.shift = x * e1 + across(x).first * e2;
+      out.ratio = value;
+      return out;
+    }
     if (mobility_.rotation_follows_c) {
       // C at RMB: C's axis stays on its basic ray, so the new origin s satisfies
       // c - s = t u(alpha + theta), t > 0: a chord of the shift disk.
@@ -376,6 +439,7 @@ double width_rotation_bracket(const FrameMobility::WidthSimulator& w, const Eige
 /// moving a lever arm q by 2 sin(|theta| / 2) |q| (exact for a bore perpendicular to A; the
 /// bound is doubled for inclined bores). 0 when no rotation can matter.
 double rotation_bracket(const PatternModel& model, const FrameMobility& mobility, double f0) {
+  if (mobility.rotation_about_c) return rotation_about_c_limit(mobility);
   if (mobility.c_width && mobility.c_shift_allowance > 0.0 && !mobility.rotation_follows_c)
     return width_rotation_bracket(*mobility.c_width, mobility.c_location, mobility.shift_allowance);
   if (mobility.rotation_follows_c || mobility.c_shift_allowance > 0.0) {
@@ -414,16 +478,33 @@ std::string mm(double value) { return detail::format_number(value, 4); }
 
 }  // namespace
 
+std::string_view tertiary_simulator_name(TertiarySimulator simulator) noexcept {
+  switch (simulator) {
+    case TertiarySimulator::fixed_at_basic: return "fixed_at_basic";
+    case TertiarySimulator::translating: return "translating";
+    case TertiarySimulator::none: break;
+  }
+  return "none";
+}
+
 std::string FrameMobility::description() const {
   std::vector<std::string> parts;
   if (translation_free) parts.push_back("no datum B: translation in A free");
   if (rotation_free) parts.push_back("no datum C: rotation about the frame's z axis free");
   if (shift_allowance > 0.0) parts.push_back("datum B at MMB: shift up to " + mm(shift_allowance) + " mm");
-  if (rotation_follows_c) parts.push_back("rotation follows datum C (RMB)");
+  if (rotation_follows_c)
+    parts.push_back("rotation follows datum C (RMB), its simulator translating along its basic "
+                    "direction");
+  if (rotation_about_c)
+    parts.push_back("datum C's simulator fixed at its basic location, " + mm(c_held_distance) +
+                    " mm from B: the part turns about C's axis within datum B's clearance");
   if (c_shift_allowance > 0.0 && c_width)
     parts.push_back(std::string("datum C (") + (c_width->internal ? "slot" : "tab") +
                     ") at MMB: its centre plane may move up to " + mm(c_shift_allowance) +
                     " mm off the simulator's, less as the frame turns");
+  else if (c_shift_allowance > 0.0 && rotation_about_c)
+    parts.push_back("datum C at MMB: its axis may move up to " + mm(c_shift_allowance) +
+                    " mm off its simulator's");
   else if (c_shift_allowance > 0.0)
     parts.push_back("datum C at MMB: C may move up to " + mm(c_shift_allowance) + " mm off its basic direction");
   for (const std::string& note : notes) parts.push_back(note);
@@ -433,7 +514,8 @@ std::string FrameMobility::description() const {
   return text;
 }
 
-FrameMobility mobility_of(const std::vector<DatumReference>& datums, const DatumFrameResult& frame) {
+FrameMobility mobility_of(const std::vector<DatumReference>& datums, const DatumFrameResult& frame,
+                          const std::optional<Eigen::Vector2d>& c_basic_location) {
   FrameMobility m;
   const DatumReference* b = find_reference(datums, 'B');
   const DatumReference* c = find_reference(datums, 'C');
@@ -475,12 +557,48 @@ FrameMobility mobility_of(const std::vector<DatumReference>& datums, const Datum
     }
     if (c->boundary == MaterialBoundary::lmb)
       m.notes.push_back("datum C at LMB: rotation allowance not applied (conservative)");
-    // With no room of its own, C holds the rotation exactly and follows a shifting frame.
-    if (m.c_shift_allowance == 0.0 && m.shift_allowance > 0.0) m.rotation_follows_c = true;
-    if ((m.rotation_follows_c || m.c_shift_allowance > 0.0) && m.c_location.norm() <= 1e-9)
+    // The reading of C's simulator. Fixed at basic is modelled for a bore or pin; a slot or tab
+    // keeps the translating reading.
+    const bool modelled = !frame.c_width;
+    m.c_simulator = c->translating || !modelled ? TertiarySimulator::translating
+                                                : TertiarySimulator::fixed_at_basic;
+    // With no room of its own, C holds the rotation exactly: it follows a shifting frame
+    // (translating), or the part turns about it (fixed at basic). With room at MMB, C's axis
+    // stays within it of its simulator: off C's basic ray (translating), or off its basic
+    // location (fixed at basic).
+    if (m.c_shift_allowance > 0.0 && m.c_simulator == TertiarySimulator::fixed_at_basic)
+      m.rotation_about_c = true;
+    if (m.c_shift_allowance == 0.0 && m.shift_allowance > 0.0) {
+      m.rotation_follows_c = m.c_simulator == TertiarySimulator::translating;
+      m.rotation_about_c = m.c_simulator == TertiarySimulator::fixed_at_basic;
+    }
+    if (!c->translating && !modelled && (m.shift_allowance > 0.0 || m.c_shift_allowance > 0.0))
+      m.notes.push_back(std::string("datum C (") +
+                        std::string(feature_kind_name(frame.c_width->kind)) +
+                        ") keeps the translating reading: a width simulator fixed at basic is "
+                        "not modelled");
+    if ((m.rotation_follows_c || m.rotation_about_c || m.c_shift_allowance > 0.0) &&
+        m.c_location.norm() <= 1e-9)
       throw FitError(frame.c_width
                          ? "datum C's centre lies on datum B's axis: it cannot clock the frame"
                          : "datum C's axis coincides with datum B's: it cannot clock the frame");
+    if (m.rotation_about_c) {
+      if (!c_basic_location || !(c_basic_location->norm() > 0.0))
+        throw FitError("datum C's simulator is fixed at its basic location, which is not given "
+                       "(give C's basic location, or reference C as C(T) to let it translate)");
+      // C's simulator centres C (RMB) or clears it (MMB) when the room allows; beyond it, it
+      // meets C with the room used up along C's direction, the part held there.
+      const double basic = c_basic_location->norm(), actual = m.c_location.norm();
+      const double room = m.shift_allowance + m.c_shift_allowance;
+      m.c_held_distance = std::clamp(basic, actual - room, actual + room);
+      if (m.c_held_distance != basic)
+        m.notes.push_back("datum C lies " + mm(std::abs(actual - basic)) +
+                          " mm off its basic distance from B, beyond the room of B and C: C's "
+                          "simulator meets C with the room used up, no motion left");
+    }
+  } else if (c && m.shift_allowance > 0.0) {
+    m.notes.push_back("datum C (plane) keeps its direction while B shifts; its simulator fixed at "
+                      "basic, which would keep the part in contact, is not modelled");
   }
   return m;
 }
@@ -510,22 +628,31 @@ MobilityResult best_frame_motion(const std::vector<const BoreResult*>& bores,
   model.terms_at(0.0, terms);
   const double f0 = worst_ratio(terms, Eigen::Vector2d::Zero());
   result.iterations = 1;
-  const bool rotation_fixed =
-      !mobility.rotation_free && !mobility.rotation_follows_c && mobility.c_shift_allowance <= 0.0;
+  const bool rotation_fixed = !mobility.rotation_free && !mobility.rotation_follows_c &&
+                              !mobility.rotation_about_c && mobility.c_shift_allowance <= 0.0;
   const bool shift_fixed = !mobility.translation_free && mobility.shift_allowance <= 0.0;
-  if ((rotation_fixed && shift_fixed) || f0 == 0.0) return finish(FrameMotion{});
+  // C's simulator fixed at basic holds the part at C: the unmoved frame is one of the allowed
+  // motions only when C lies at its held distance.
+  const bool unmoved_allowed =
+      !mobility.rotation_about_c ||
+      std::abs(mobility.c_location.norm() - mobility.c_held_distance) <= mobility.c_shift_allowance;
+  if ((rotation_fixed && shift_fixed) || (f0 == 0.0 && unmoved_allowed))
+    return finish(FrameMotion{});
 
   // Argument tolerances from the Lipschitz constants of F: |dF/ds| <= max w |M|, and a
   // rotation moves a term by at most its lever arm (plus the largest shift) per radian.
   double ls = 0.0, arm = 0.0;
   for (const Term& t : terms) ls = std::max(ls, t.weight * t.m.norm());
-  for (const auto& [q, w] : model.levers()) arm = std::max(arm, w * (q.norm() + 1.0));
+  // Turning about C also moves the origin by |c| per radian.
+  const double about_c_arm = mobility.rotation_about_c ? mobility.c_location.norm() : 0.0;
+  for (const auto& [q, w] : model.levers())
+    arm = std::max(arm, w * (q.norm() + about_c_arm + 1.0));
   const double s_tolerance = std::max(options.tolerance / std::max(ls, 1e-300), 1e-15);
   const double theta_tolerance = std::max(options.tolerance / std::max(arm, 1e-300), 1e-16);
   const InnerSolver inner(mobility, options, s_tolerance);
 
-  FrameMotion best;  // the unmoved frame is always allowed
-  double best_ratio = f0;
+  FrameMotion best;  // the unmoved frame, when allowed
+  double best_ratio = unmoved_allowed ? f0 : infinity;
   const auto consider = [&](double theta, const InnerSolution& s) {
     if (s.ratio < best_ratio) {
       best_ratio = s.ratio;
@@ -541,6 +668,10 @@ MobilityResult best_frame_motion(const std::vector<const BoreResult*>& bores,
   const double bracket = rotation_fixed ? 0.0 : rotation_bracket(model, mobility, f0);
   if (bracket <= 0.0) {
     consider(0.0, solve_at(0.0));
+    if (!std::isfinite(best_ratio)) {  // C held at the end of the room: the only motion
+      const Eigen::Vector2d p = origin_about_c(mobility, 0.0);
+      best.shift = p * std::min(1.0, mobility.shift_allowance / std::max(p.norm(), 1e-300));
+    }
     return finish(best);
   }
   // Coarse scan (0 is a sample), then golden section around the best sample.

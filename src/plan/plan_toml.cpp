@@ -582,7 +582,8 @@ class PlanParser {
   }
 
   /// The datum section of a feature control frame as written: datum letters separated by '|',
-  /// each optionally followed by (M) (MMB) or (L) (LMB), e.g. "A|B(M)|C". Which datums, in
+  /// each optionally followed by (M) (MMB) or (L) (LMB), and C by (T) (a translating
+  /// simulator), e.g. "A|B(M)|C". Which datums, in
   /// which order, with which modifiers, is a rule (validate_plan).
   std::vector<DatumReference> read_datum_references(const toml::node& node,
                                                     const std::string& key) const {
@@ -604,13 +605,19 @@ class PlanParser {
              "empty datum in " + quoted_for_message(text) +
                  ": expected \"A\", \"A|B\" or \"A|B|C\"");
       const bool letter = part[0] >= 'A' && part[0] <= 'Z';
-      const std::string rest = part.substr(1);
+      std::string rest = part.substr(1);
+      DatumReference ref;
+      // "(T)" last: datum C's simulator translates (docs/plan.md); the default keeps it fixed
+      // at its basic location.
+      if (rest.size() >= 3 && rest.compare(rest.size() - 3, 3, "(T)") == 0) {
+        ref.translating = true;
+        rest.erase(rest.size() - 3);
+      }
       if (!letter || !(rest.empty() || rest == "(M)" || rest == "(L)"))
         fail(line, key,
              quoted_for_message(part) +
                  " is not a datum reference: expected a datum letter, optionally "
-                 "followed by (M) or (L), e.g. \"A|B(M)|C\"");
-      DatumReference ref;
+                 "followed by (M) or (L) and, for C, (T), e.g. \"A|B(M)|C\"");
       ref.label = part[0];
       ref.boundary = rest == "(M)"   ? MaterialBoundary::mmb
                      : rest == "(L)" ? MaterialBoundary::lmb

@@ -35,13 +35,14 @@ std::string datum_references_text(const std::vector<DatumReference>& datums) {
   // Written as in the datum section of a feature control frame, compartments separated by '|'
   // and the material boundary modifier in parentheses after the letter: (M) for MMB, (L) for
   // LMB, nothing for RMB, which is the default and has no symbol (ASME Y14.5-2018; common
-  // practice).
+  // practice); then (T), cylzone's own mark for a translating simulator.
   std::string text;
   for (const DatumReference& d : datums) {
     if (!text.empty()) text += '|';
     text += d.label;
     if (d.boundary == MaterialBoundary::mmb) text += "(M)";
     if (d.boundary == MaterialBoundary::lmb) text += "(L)";
+    if (d.translating) text += "(T)";
   }
   return text;
 }

@@ -350,6 +350,11 @@ class PlanRules {
         fail(at,
              "datum order must be A first, then B, then C: expected \"A\", \"A|B\" or \"A|B|C\" "
              "(found " + text + ")");
+      if (ref.translating && ref.label != 'C')
+        fail(at, quoted_for_message(std::string(1, ref.label) + "(T)") +
+                     ": the translating simulator (T) applies to datum C only");
+      if (ref.translating && datum->kind == FeatureKind::plane)
+        fail(at, "datum C is a plane, not a feature of size: it takes no (T) modifier");
       if (ref.boundary != MaterialBoundary::rmb) {
         const std::string modifier = ref.boundary == MaterialBoundary::mmb ? "(M)" : "(L)";
         if (datum->kind == FeatureKind::plane)

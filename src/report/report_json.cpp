@@ -204,6 +204,7 @@ json bore_json(const BoreResult& b, const BoreSummary& s, const BoreSensitivity*
                                           u.length(b.mobility_motion->shift.y())})},
                    {"rotation_rad", b.mobility_motion->rotation_rad}};
     p["reason"] = in_report_unit(b.mobility_reason, u);
+    p["datum_c_simulator"] = b.mobility_c_simulator;
     j["position_with_mobility"] = p;
   } else {
     j["position_with_mobility"] = nullptr;

@@ -217,6 +217,7 @@ ReportModel make_report_model(const PartCheckResult& r, const ReportModelOptions
                               options.depth_samples);
     else if (b.position)
       s.depth = depth_profile(*b.position, b.id + "/position", options.depth_samples);
+    if (b.position_with_mobility) s.mobility = in_report_unit(b.mobility_reason, m.units);
     const InputRecord* in = m.input("bore " + b.id);
     for (const std::string& w : b.warnings)
       s.warnings.push_back(in_report_unit(in ? with_file_lines(w, in->point_lines) : w, m.units));

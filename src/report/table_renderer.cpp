@@ -330,6 +330,8 @@ std::string format_table(const ReportModel& m, const TableOptions& options) {
   }
 
   for (const BoreSummary& b : m.bores)
+    if (!b.mobility.empty()) out << "datum mobility, bore " << b.id << ": " << b.mobility << '\n';
+  for (const BoreSummary& b : m.bores)
     for (const std::string& warning : b.warnings)
       out << wrapped("warning: bore " + b.id + ": ", warning, options.width, 4);
   for (const std::string& warning : m.warnings)

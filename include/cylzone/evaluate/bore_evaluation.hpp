@@ -162,6 +162,9 @@ struct BoreResult {
   std::optional<PositionResult> position_with_mobility;
   std::optional<FrameMotion> mobility_motion;
   std::string mobility_reason;  ///< e.g. "datum B at MMB: shift up to 0.0123"
+  /// How datum C's simulator was read: "fixed_at_basic", "translating" or "none"
+  /// (tertiary_simulator_name).
+  std::string mobility_c_simulator;
   std::vector<std::string> warnings;
 };
 

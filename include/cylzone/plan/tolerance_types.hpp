@@ -52,6 +52,10 @@ struct SizeLimits {
 struct DatumReference {
   char label = 'A';
   MaterialBoundary boundary = MaterialBoundary::rmb;
+  /// Datum C only: its simulator translates along C's basic direction (the translation
+  /// modifier of ASME Y14.5-2018, from memory for the clause), written "C(T)". Without it the
+  /// simulators stay at their basic locations relative to one another.
+  bool translating = false;
 };
 
 /// "RFS", "MMC", "LMC" / "RMB", "MMB", "LMB" / "plane", "bore", "pin", "slot", "tab".
@@ -59,7 +63,7 @@ std::string_view condition_name(MaterialCondition condition) noexcept;
 std::string_view boundary_name(MaterialBoundary boundary) noexcept;
 std::string_view feature_kind_name(FeatureKind kind) noexcept;
 
-/// The datum section as written on a drawing: "A|B(M)|C".
+/// The datum section as written on a drawing: "A|B(M)|C", "A|B(M)|C(T)".
 std::string datum_references_text(const std::vector<DatumReference>& datums);
 
 }  // namespace cylzone

@@ -105,6 +105,9 @@ struct BoreSummary {
   double tilt_rad = 0.0;
   double tilt_azimuth_deg = 0.0;
   std::optional<DepthProfile> depth;  ///< when the bore has a position tolerance
+  /// What the datum reference let the frame do for the bore's pattern, with the reading of datum
+  /// C's simulator (BoreResult::mobility_reason); empty when the frame stayed fixed.
+  std::string mobility;
   std::vector<std::string> warnings;
 };
 
