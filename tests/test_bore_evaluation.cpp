@@ -208,7 +208,7 @@ TEST_CASE("tilted, offset, lobed bore: every figure against its closed form", "[
   REQUIRE(r.virtual_condition.has_value());
   CHECK(r.virtual_condition->boundary == Approx(11.975).margin(1e-15));
   CHECK(r.virtual_condition->on_true_position);
-  CHECK(r.virtual_condition->comparison == Comparison::at_least);
+  CHECK(r.virtual_condition->condition == MaterialCondition::mmc);
   CHECK(r.virtual_condition->clearance == Approx(2 * radial_extremes(b.points, zone).first).margin(1e-12));
   CHECK(*verdict_of(r, "virtual-condition") == (r.virtual_condition->clearance >= 11.975
                                              ? Verdict::conforms : Verdict::does_not_conform));
@@ -511,7 +511,7 @@ TEST_CASE("LMC: bonus from the minimum material envelope, boundary around the bo
   CHECK(r.position->bonus == Approx(12.018 - 2 * (b.radius + b.eps)).margin(agreement));
   REQUIRE(r.virtual_condition.has_value());
   CHECK(r.virtual_condition->boundary == Approx(12.018 + 0.040).margin(1e-15));
-  CHECK(r.virtual_condition->comparison == Comparison::at_most);
+  CHECK(r.virtual_condition->condition == MaterialCondition::lmc);
   // The smallest cylinder on the true-position axis containing every point.
   CHECK(r.virtual_condition->clearance == Approx(2 * radial_extremes(b.points, zone).second).margin(1e-12));
   CHECK(*verdict_of(r, "virtual-condition") == Verdict::conforms);

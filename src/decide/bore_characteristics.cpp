@@ -87,7 +87,9 @@ std::vector<Characteristic> bore_characteristics(const BoreResult& b, const Deci
     const VirtualConditionResult& v = *b.virtual_condition;
     out.push_back(make(b, "virtual-condition", "virtual condition",
                        v.on_true_position ? "on true position" : "perpendicular to A",
-                       v.clearance, v.boundary, 0.0, v.boundary, v.comparison));
+                       v.clearance, v.boundary, 0.0, v.boundary,
+                       v.condition == MaterialCondition::lmc ? Comparison::at_most
+                                                             : Comparison::at_least));
   }
   for (Characteristic& c : out) {
     c.verdict = decide(c, rule);

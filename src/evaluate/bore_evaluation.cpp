@@ -22,9 +22,8 @@ namespace cylzone {
 namespace {
 
 constexpr double pi = 3.14159265358979323846;
-/// The rounding slack of the decision rule (decide/characteristic.hpp), so that "where the axis
-/// leaves the zone" uses the zone the decision uses.
-const double verdict_slack = DecisionRule{}.slack;
+/// "Where the axis leaves the zone" uses the zone the decision uses, rounding slack included.
+constexpr double verdict_slack = zone_rounding_slack;
 /// More probed levels than this, or levels thicker than the section gap, mean a scanned cloud.
 constexpr std::size_t max_probed_levels = 50;
 /// Heights within this distance (mm) of the range's ends count as inside it.
@@ -590,7 +589,7 @@ BoreResult evaluate_bore(const BoreInput& input, const BoreEvaluationOptions& op
     const bool at_mmc = spec.condition == MaterialCondition::mmc;
     vc.boundary = virtual_condition(spec.condition, FeatureKind::bore, *bore.size, spec.tolerance);
     vc.on_true_position = on_position;
-    vc.comparison = at_mmc ? Comparison::at_least : Comparison::at_most;
+    vc.condition = spec.condition;
     if (on_position && result.position->projected) {
       // The boundary stands above A, where the bore has no surface: the perfect envelope is
       // extended into it. At MMC the extended envelope (radius R, axis offset e(h) from the

@@ -17,6 +17,7 @@
 #include "cylzone/core/threads.hpp"
 #include "cylzone/datum/datum_frame.hpp"
 #include "cylzone/evaluate/bore_evaluation.hpp"
+#include "cylzone/decide/characteristic.hpp"
 #include "cylzone/evaluate/datum_mobility.hpp"
 #include "cylzone/plan/plan.hpp"
 

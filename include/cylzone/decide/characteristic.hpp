@@ -20,6 +20,8 @@
 #include <string_view>
 #include <vector>
 
+#include "cylzone/evaluate/axis_zone.hpp"
+
 namespace cylzone {
 
 enum class Verdict { conforms, does_not_conform, not_proven };
@@ -47,7 +49,7 @@ struct DecisionRule {
   DecisionRuleKind kind = DecisionRuleKind::simple_acceptance;
   /// Rounding allowance, mm: a value within this of the limit counts as on the limit. It absorbs
   /// floating-point rounding of the fits only (1e-12 mm, far below any probing resolution).
-  double slack = 1e-12;
+  double slack = zone_rounding_slack;
 };
 
 struct Characteristic {

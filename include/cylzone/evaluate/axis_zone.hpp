@@ -22,6 +22,12 @@
 
 namespace cylzone {
 
+/// Rounding allowance, mm, of every comparison of a figure with its zone or limit: a value
+/// within it of the limit counts as on the limit. It absorbs floating-point rounding of the fits
+/// only (far below any probing resolution). The decide stage's default rule uses it, and so does
+/// the height where an axis leaves its zone.
+inline constexpr double zone_rounding_slack = 1e-12;
+
 /// Local frame of one bore's zone, inside the datum reference frame.
 struct ZoneFrame {
   Eigen::Vector3d origin = Eigen::Vector3d::Zero();  ///< true position on A, datum frame

@@ -10,7 +10,6 @@
 #include <string>
 #include <vector>
 
-#include "cylzone/decide/characteristic.hpp"
 #include "cylzone/evaluate/axis_zone.hpp"
 #include "cylzone/fit/fit_cylinder.hpp"
 #include "cylzone/plan/plan.hpp"
@@ -110,8 +109,9 @@ struct FormResult {
 struct VirtualConditionResult {
   double boundary = 0.0;   ///< virtual condition size (bore at MMC: MMC - t; at LMC: LMC + t)
   double clearance = 0.0;  ///< see above
-  /// How clearance is compared with boundary: at_least (MMC) or at_most (LMC).
-  Comparison comparison = Comparison::at_least;
+  /// The material condition of the boundary: MMC (clearance must reach the boundary) or LMC
+  /// (the boundary must contain the points); the decide stage compares accordingly.
+  MaterialCondition condition = MaterialCondition::mmc;
   bool on_true_position = true;   ///< false: perpendicularity's boundary, free in location
 };
 
