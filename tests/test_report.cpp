@@ -304,6 +304,19 @@ TEST_CASE("JSON reader: malformed input names the source and the JSON path") {
   CHECK(units.find("cubit") != std::string::npos);
 }
 
+TEST_CASE("JSON reader: what fuzzing found is refused as an InputError") {
+  const std::string good = format_json(result_with_size(LengthUnit::millimetre));
+  // A number beyond the range of an IEEE 754 binary64 double is valid JSON syntax (RFC 8259,
+  // section 6, leaves the range to implementations): refused, not an escaping exception.
+  CHECK(error_of(replaced(good, "\"value\": 0.1", "\"value\": -30.00067021e30849293044"))
+            .find("not a readable JSON report") != std::string::npos);
+  // Characteristics are matched by id: an id that is not of its own feature is no report of ours.
+  std::string key;
+  error_of(replaced(good, "\"id\": \"H1/position\"", "\"id\": \"P0/position\""), &key);
+  CHECK(key.find("characteristics[") == 0);
+  CHECK(key.find(".id") != std::string::npos);
+}
+
 // ------------------------------------------------------------------ full depth, identity, table
 
 TEST_CASE("range source: a bore without a plan depth says its range is the probed extent") {

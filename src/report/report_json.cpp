@@ -450,6 +450,9 @@ ReportModel read_report_json(std::string_view bytes, const std::string& source) 
     // e.byte is 1-based, the position where parsing stopped.
     throw InputError(source, line_of(bytes, e.byte > 0 ? e.byte - 1 : 0),
                      "not valid JSON (parse error at byte " + std::to_string(e.byte) + ")");
+  } catch (const json::exception& e) {
+    // Valid syntax the parser still cannot hold, e.g. a number beyond double range.
+    throw InputError(source, 0, std::string("not a readable JSON report: ") + e.what());
   }
   const ReportReader in(source);
   if (!j.is_object()) in.fail("", "expected a JSON object (a cylzone report)");
@@ -535,6 +538,10 @@ ReportModel read_report_json(std::string_view bytes, const std::string& source) 
     Characteristic c;
     c.id = in.text(o, path, "id");
     c.feature = in.text(o, path, "feature");
+    // Later steps match characteristics by id; an id of another feature is no report of ours.
+    if (c.feature.empty() || c.id.compare(0, c.feature.size() + 1, c.feature + "/") != 0)
+      in.fail(path + ".id", "'" + c.id + "' is not an id of feature '" + c.feature +
+                                "' (expected '" + c.feature + "/<kind>')");
     c.name = in.text(o, path, "name");
     c.reference = in.text(o, path, "reference");
     c.value = mm(o, path, "value");
