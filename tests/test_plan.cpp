@@ -1003,3 +1003,63 @@ TEST_CASE("projected zone from a face other than datum A", "[plan][projected]") 
               "projected_from = 2", "bore[P1].perpendicularity.projected_from",
               "unknown key in a perpendicularity tolerance");
 }
+
+TEST_CASE("the [part] table: id, serial, a zoned time and notes in the order written",
+          "[plan][identity]") {
+  // Time: a TOML offset date-time (TOML v1.0.0, RFC 3339), kept as ISO 8601 (ISO 8601-1:2019).
+  const std::string text = kBase + R"(
+[part]
+id = "HM-3207"
+serial = "SN 0042"
+time = 2026-12-02T17:40:00+01:30
+notes = { shift = "night", operator = "J. Moreau", "machine.cell" = "C-2" }
+)";
+  const PartPlan plan = parse_plan(text, kPlanFile, false);
+  CHECK(plan.part.id == "HM-3207");
+  CHECK(plan.part.serial == "SN 0042");
+  CHECK(plan.part.timestamp == "2026-12-02T17:40:00+01:30");
+  using Note = std::pair<std::string, std::string>;
+  // Written order, not toml++'s sorted order.
+  CHECK(plan.part.notes == std::vector<Note>{{"shift", "night"}, {"operator", "J. Moreau"},
+                                             {"machine.cell", "C-2"}});
+  CHECK(parse_plan(replaced(text, "+01:30", "Z"), kPlanFile, false).part.timestamp ==
+        "2026-12-02T17:40:00Z");
+  // Without [part]: all empty.
+  CHECK(parse_plan(kBase, kPlanFile, false).part.id.empty());
+
+  check_error(replaced(text, "2026-12-02T17:40:00+01:30", "2026-12-02T17:40:00"), "time =",
+              "part.time", "without a zone");
+  check_error(replaced(text, "2026-12-02T17:40:00+01:30", "\"today\""), "time =", "part.time",
+              "a date-time with a zone");
+  check_error(replaced(text, "serial = \"SN 0042\"", "serial = 42"), "serial =", "part.serial",
+              "found an integer");
+  check_error(replaced(text, "serial = ", "batch = "), "batch =", "part.batch", "unknown key");
+  check_error(replaced(text, "operator = \"J. Moreau\"", "operator = 3"), "operator = 3",
+              "part.notes.operator", "expected a string");
+  check_error(replaced(text, "SN 0042", "SN\\u001b[31m"), "serial =", "part.serial",
+              "control characters");
+}
+
+TEST_CASE("wide_zone_intended acknowledges a zone wider than the bore", "[plan][plausibility]") {
+  // P1 is 12.000-12.018: a 20 mm zone (typed for 0.020) is refused at its line, naming the
+  // value meant; the key that acknowledges it is a boolean.
+  const std::string wide = replaced(kBase, "tolerance = 0.025, modifier", "tolerance = 20, modifier");
+  check_error(wide, "tolerance = 20,", "bore[P1].position.tolerance", "was 0.02 meant?");
+  const PartPlan plan = parse_plan(
+      replaced(wide, "datums = \"A|B(M)|C\" }", "datums = \"A|B(M)|C\", wide_zone_intended = true }"),
+      kPlanFile, false);
+  CHECK(plan.bores[0].position->wide_zone_intended);
+  CHECK(plan.warnings.empty());
+  check_error(replaced(kBase, "perpendicularity = { tolerance = 0.010 }",
+                       "perpendicularity = { tolerance = 0.010, wide_zone_intended = \"yes\" }"),
+              "wide_zone_intended", "bore[P1].perpendicularity.wide_zone_intended",
+              "expected true or false");
+  // 2 on 12 (16.7 %): a warning with the line of the tolerance.
+  const PartPlan warned =
+      parse_plan(replaced(kBase, "tolerance = 0.025, modifier", "tolerance = 2, modifier"),
+                 kPlanFile, false);
+  REQUIRE(warned.warnings.size() == 1);
+  CHECK_THAT(warned.warnings[0],
+             Contains("bore[P1].position.tolerance (line " +
+                      std::to_string(line_of(kBase, "tolerance = 0.025, modifier")) + ")"));
+}

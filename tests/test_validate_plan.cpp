@@ -267,3 +267,71 @@ TEST_CASE("validate_plan bounds lengths and tolerances", "[plan][validate]") {
   at_bounds.bores[0].position->tolerance = plan_tolerance_limit;
   CHECK_NOTHROW(validate_plan(at_bounds));
 }
+
+// ---- plausibility of tolerances and the part identity (docs/evaluation.md, "Plausibility
+// checks"). A position or perpendicularity zone of a deep bore is microns on millimetres of
+// diameter (ISO 286-1 grades and the tolerances drawn with them; common practice): one of the
+// size's order is a value typed in the wrong unit, 20 for 0.020.
+
+TEST_CASE("a zone wider than the bore is refused unless intended; above a tenth, a warning",
+          "[plan][validate][plausibility]") {
+  // P1: size 12.000-12.018. 20 (meant 0.020) is 167 % of the size: refused, naming the key.
+  check_refused([](PartPlan& p) { p.bores[0].position->tolerance = 20.0; },
+                "bore[P1].position.tolerance", "was 0.02 meant?");
+  check_refused([](PartPlan& p) { p.bores[0].perpendicularity->tolerance = 12.5; },
+                "bore[P1].perpendicularity.tolerance", "wider than the bore itself");
+
+  // 1.5 on 12 is 12.5 %: accepted with one warning naming the key, the numbers and the share.
+  PartPlan plan = code_plan();
+  plan.bores[0].position->tolerance = 1.5;
+  REQUIRE_NOTHROW(validate_plan(plan));
+  REQUIRE(plan.warnings.size() == 1);
+  CHECK_THAT(plan.warnings[0], Contains("bore[P1].position.tolerance"));
+  CHECK_THAT(plan.warnings[0], Contains("1.5 mm is 12.5 % of the bore's size 12 mm, more than "
+                                        "10 %"));
+  CHECK(plan.warnings[0].find('\n') == std::string::npos);
+
+  // Exactly a tenth is not above it; the demo's 0.025 on 12 is 0.2 %: no warning.
+  plan.bores[0].position->tolerance = 1.2;
+  validate_plan(plan);
+  CHECK(plan.warnings.empty());
+
+  // Acknowledged: neither the error nor the warning.
+  plan.bores[0].position->tolerance = 20.0;
+  plan.bores[0].position->wide_zone_intended = true;
+  REQUIRE_NOTHROW(validate_plan(plan));
+  CHECK(plan.warnings.empty());
+
+  // Inch plan: the message quotes the plan's unit (0.8 in on a 0.5 in bore is 160 %).
+  PartPlan inch = code_plan();
+  inch.unit = LengthUnit::inch;
+  inch.bores[0].size = SizeLimits{0.5 * 25.4, 0.5005 * 25.4};
+  inch.bores[0].position->tolerance = 0.8 * 25.4;
+  try {
+    validate_plan(inch);
+    FAIL("accepted");
+  } catch (const InputError& e) {
+    CHECK_THAT(e.problem(), Contains("0.8 inch"));
+    CHECK_THAT(e.problem(), Contains("160 %"));
+    CHECK_THAT(e.problem(), Contains("was 0.0008 meant?"));
+  }
+}
+
+TEST_CASE("the plan's part identity is one printable line per field",
+          "[plan][validate][identity]") {
+  check_refused([](PartPlan& p) { p.part.serial = "S-1\x1b[31m"; }, "part.serial",
+                "control characters");
+  check_refused([](PartPlan& p) { p.part.id = std::string(201, 'x'); }, "part.id",
+                "longer than 200 bytes");
+  check_refused([](PartPlan& p) { p.part.notes = {{"operator", "A"}, {"operator", "B"}}; },
+                "part.notes.operator", "given twice");
+  check_refused([](PartPlan& p) { p.part.notes = {{"op erator", "A"}}; }, "part.notes",
+                "letters, digits");
+  check_refused([](PartPlan& p) { p.part.notes = {{"shift", "night\nday"}}; },
+                "part.notes.shift", "one printable line");
+  PartPlan plan = code_plan();
+  plan.part.id = "HM-3207";
+  plan.part.serial = "SN 0042";
+  plan.part.notes = {{"operator", "J. Moreau"}, {"machine.cell", "C-2"}};
+  CHECK_NOTHROW(validate_plan(plan));
+}

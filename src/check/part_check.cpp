@@ -10,6 +10,7 @@
 #include <string>
 #include <utility>
 
+#include "cylzone/check/plausibility.hpp"
 #include "cylzone/decide/bore_characteristics.hpp"
 #include "cylzone/evaluate/datum_mobility.hpp"
 #include "cylzone/core/errors.hpp"
@@ -254,6 +255,8 @@ PartCheckResult check_part(const PartPlan& plan, const CheckOptions& options) {
   const PartInputs inputs = load_part_inputs(plan);
   result.inputs = inputs.records;
   PartEvaluation evaluation = evaluate_part(plan, inputs, options.evaluation);
+  // Plan and data must describe the same part: refuse what would be meaningless, warn the rest.
+  check_plausibility(plan, inputs, evaluation);
   if (options.sensitivity)
     result.sensitivity =
         association_sensitivity(plan, inputs, evaluation, options.evaluation, options.decision);

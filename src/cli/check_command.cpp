@@ -61,7 +61,7 @@ PartIdentity part_identity(const CheckArguments& args) {
     throw std::invalid_argument("--time: '" + args.time +
                                 "' is not an ISO 8601 date-time with a zone "
                                 "(e.g. 2026-12-02T17:40:00Z)");
-  part.timestamp = args.time.empty() ? utc_now() : args.time;
+  part.timestamp = args.time;  // empty: the plan's [part] time, else the run's (run_check)
   for (const std::string& note : args.notes) {
     require_printable(note, "--note");
     const std::size_t eq = note.find('=');
@@ -102,8 +102,11 @@ std::vector<std::filesystem::path> plan_inputs(const PartPlan& plan) {
 
 int run_check(const CheckArguments& args) {
   ReportModelOptions model_options;
-  model_options.part = part_identity(args);  // argument errors before any file is read
+  const PartIdentity given = part_identity(args);  // argument errors before any file is read
   const PartPlan plan = read_plan(args.plan);
+  // The command line overrides the plan's [part] table field by field.
+  model_options.part = merged_identity(plan.part, given);
+  if (model_options.part.timestamp.empty()) model_options.part.timestamp = utc_now();
   // Output paths are checked before the evaluation: a bad one costs nothing and leaves nothing.
   using Renderer = std::string (*)(const ReportModel&);
   std::vector<std::pair<OutputTarget, Renderer>> outputs;
@@ -159,13 +162,16 @@ void add_check_command(CLI::App& app, CommandResult& result) {
                     "not depend on it")
       ->check(CLI::Range(std::size_t{1}, std::size_t{1024}));
   check->add_option("--part-id", args->part_id,
-                    "part number or id, written into the table, JSON and CSV");
+                    "part number or id, written into the table, JSON and CSV (overrides the "
+                    "plan's [part] id)");
   check->add_option("--serial", args->serial, "serial number of the part");
   check->add_option("--time", args->time,
                     "ISO 8601 date-time of the measurement, e.g. 2026-12-02T17:40:00Z "
-                    "(default: the run's UTC time; give it for reproducible reports)");
+                    "(default: the plan's [part] time, else the run's UTC time; give it for "
+                    "reproducible reports)");
   check->add_option("--note", args->notes,
-                    "KEY=VALUE free text, repeatable (operator, machine, order, ...)")
+                    "KEY=VALUE free text, repeatable (operator, machine, order, ...); replaces "
+                    "the plan's note of the same key")
       ->allow_extra_args(false);
   check->callback([args, &result]() {
     result.context = args->plan + ": ";

@@ -7,6 +7,8 @@
 #include <array>
 #include <cctype>
 #include <cmath>
+#include <cstdio>
+#include <cstdlib>
 #include <system_error>
 #include <type_traits>
 #include <utility>
@@ -116,7 +118,7 @@ bool contains(const std::array<std::string_view, N>& names, std::string_view nam
 
 // Key sets of each table (docs/plan.md lists them with their meaning).
 constexpr auto kRootKeys =
-    keys("format", "name", "units", "probe", "section_gap", "datum", "bore");
+    keys("format", "name", "units", "probe", "section_gap", "datum", "bore", "part");
 constexpr auto kProbeKeys = keys("points", "tip_diameter");
 constexpr auto kDatumAKeys = keys("feature", "points", "association", "material_side");
 constexpr auto kDatumBKeys = keys("feature", "points", "size", "mmb");
@@ -128,9 +130,11 @@ constexpr auto kBoreKeys = keys("id", "points", "basic", "direction", "depth", "
                                 "section_gap", "position", "perpendicularity", "cylindricity");
 constexpr auto kSizeKeys = keys("lower", "upper");
 constexpr auto kDepthKeys = keys("top", "bottom");
-constexpr auto kPositionKeys =
-    keys("tolerance", "modifier", "datums", "projected", "projected_from");
-constexpr auto kPerpendicularityKeys = keys("tolerance", "modifier", "datums");
+constexpr auto kPositionKeys = keys("tolerance", "modifier", "datums", "projected",
+                                    "projected_from", "wide_zone_intended");
+constexpr auto kPerpendicularityKeys =
+    keys("tolerance", "modifier", "datums", "wide_zone_intended");
+constexpr auto kPartKeys = keys("id", "serial", "time", "notes");
 
 enum class ToleranceKind { position, perpendicularity };
 
@@ -179,6 +183,7 @@ class PlanParser {
       plan.section_gap = read_length(*gap, "section_gap", "the section gap (a number)");
     read_datums(root, plan);
     read_bores(root, plan);
+    if (const toml::node* part = root.get("part")) plan.part = read_part(*part);
     // The plan-wide section gap is the default of every bore that gives none.
     for (PlanBore& bore : plan.bores)
       if (!bore.section_gap) bore.section_gap = plan.section_gap;
@@ -562,6 +567,14 @@ class PlanParser {
                                 return std::nullopt;
                               });
 
+    if (const toml::node* wide = table.get("wide_zone_intended")) {
+      const auto* flag = wide->as_boolean();
+      if (!flag)
+        fail(line_of(*wide), key + ".wide_zone_intended",
+             "expected true or false, found " + type_text(*wide));
+      t.wide_zone_intended = flag->get();
+    }
+
     if (is_position) {
       const toml::node& datums =
           require(table, key, "datums", "the datum reference, e.g. \"A|B|C\" (a string)");
@@ -627,6 +640,59 @@ class PlanParser {
       start = bar + 1;
     }
     return refs;
+  }
+
+  // ------------------------------------------------------------------ [part]
+
+  /// The part's identity: strings as written (validate_plan bounds them); `time` is a TOML
+  /// offset date-time (RFC 3339, so the TOML parser has checked its fields), kept as ISO 8601.
+  PlanPart read_part(const toml::node& node) const {
+    const toml::table& table = as_table(node, "part", "a [part] table");
+    check_keys(table, "part", kPartKeys, "in [part]");
+    PlanPart part;
+    part.where = location_of(table, "part");
+    const std::string expected = "a string";
+    if (const toml::node* id = table.get("id")) part.id = read_string(*id, "part.id", expected);
+    if (const toml::node* serial = table.get("serial"))
+      part.serial = read_string(*serial, "part.serial", expected);
+    if (const toml::node* time = table.get("time")) part.timestamp = read_time(*time);
+    if (const toml::node* notes = table.get("notes")) {
+      const toml::table& list =
+          as_table(*notes, "part.notes", "a table of notes { KEY = \"text\", ... }");
+      std::vector<std::pair<std::size_t, std::pair<std::string, std::string>>> by_line;
+      for (auto&& [key, value] : list) {
+        const std::string name = "part.notes." + key_text(key.str());
+        by_line.push_back({line_of(value),
+                           {std::string(key.str()), read_string(value, name, expected)}});
+      }
+      // toml++ keeps keys sorted; the notes keep the order they were written in.
+      std::stable_sort(by_line.begin(), by_line.end(),
+                       [](const auto& l, const auto& r) { return l.first < r.first; });
+      for (auto& entry : by_line) part.notes.push_back(std::move(entry.second));
+    }
+    return part;
+  }
+
+  std::string read_time(const toml::node& node) const {
+    const std::string expected =
+        "a date-time with a zone, e.g. 2026-12-02T17:40:00Z (a TOML offset date-time)";
+    const auto* value = node.as_date_time();
+    if (!value || !value->get().offset)
+      fail(line_of(node), "part.time", "expected " + expected + ", found " + type_text(node) +
+                                           (value ? " without a zone" : ""));
+    const toml::date_time& t = value->get();
+    char text[48];
+    const int minutes = t.offset->minutes;
+    if (minutes == 0)
+      std::snprintf(text, sizeof text, "%04d-%02d-%02dT%02d:%02d:%02dZ", int(t.date.year),
+                    int(t.date.month), int(t.date.day), int(t.time.hour), int(t.time.minute),
+                    int(t.time.second));
+    else
+      std::snprintf(text, sizeof text, "%04d-%02d-%02dT%02d:%02d:%02d%c%02d:%02d",
+                    int(t.date.year), int(t.date.month), int(t.date.day), int(t.time.hour),
+                    int(t.time.minute), int(t.time.second), minutes < 0 ? '-' : '+',
+                    std::abs(minutes) / 60, std::abs(minutes) % 60);
+    return text;
   }
 
   std::filesystem::path file_;

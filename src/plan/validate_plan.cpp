@@ -4,7 +4,9 @@
 #include "cylzone/plan/validate_plan.hpp"
 
 #include <algorithm>
+#include <cctype>
 #include <cmath>
+#include <optional>
 #include <string>
 #include <vector>
 
@@ -27,7 +29,8 @@ class PlanRules {
         mm_per_unit_(millimetres_per(plan.unit)),
         unit_(unit_name(plan.unit)) {}
 
-  void check() const {
+  /// Checks every rule; returns the plausibility warnings (one line each).
+  std::vector<std::string> check() {
     const PlanLocation& top = plan_.where;
     if (plan_.name.find_first_not_of(" \t") == std::string::npos)
       fail(top.at("name"), "the part's name must not be empty");
@@ -42,6 +45,8 @@ class PlanRules {
       positive_length(*plan_.section_gap, top.at("section_gap"), "the section gap");
     check_datums();
     check_bores();
+    check_part_identity();
+    return std::move(warnings_);
   }
 
  private:
@@ -236,6 +241,9 @@ class PlanRules {
     if (bore.section_gap) positive_length(*bore.section_gap, at.at("section_gap"), "the section gap");
 
     if (bore.position) check_tolerance(*bore.position, bore, at, "position");
+    if (bore.position) check_tolerance_share(*bore.position, bore, at, "position");
+    if (bore.perpendicularity)
+      check_tolerance_share(*bore.perpendicularity, bore, at, "perpendicularity");
     if (bore.perpendicularity) {
       const PlanTolerance& t = *bore.perpendicularity;
       const PlanLocation t_at = tolerance_location(t, at, "perpendicularity");
@@ -368,13 +376,88 @@ class PlanRules {
     }
   }
 
+  // ---------------------------------------------------------------- plausibility
+
+  /// A zone diameter compared with the bore's size (its lower limit, the MMC size): the rule
+  /// of zone_share_finding, unless the plan says `wide_zone_intended = true`.
+  void check_tolerance_share(const PlanTolerance& t, const PlanBore& bore,
+                             const PlanLocation& bore_at, const std::string& name) const {
+    if (!bore.size || t.wide_zone_intended) return;
+    const std::optional<ZoneShareFinding> finding =
+        zone_share_finding(name, t.tolerance, bore.size->lower, "the bore's size", plan_.unit);
+    if (!finding) return;
+    const PlanLocation at = tolerance_location(t, bore_at, name).at("tolerance");
+    if (finding->error) fail(at, finding->message);
+    warnings_.push_back(at.key +
+                        (at.line > 0 ? " (line " + std::to_string(at.line) + ")" : std::string()) +
+                        ": " + finding->message);
+  }
+
+  /// The part's identity ends up in CSV cells, a table header and JSON: one printable line each.
+  void check_part_identity() const {
+    const PlanPart& part = plan_.part;
+    PlanLocation at = part.where;
+    if (at.key.empty()) at.key = "part";
+    const auto printable = [&](const std::string& text, const PlanLocation& where,
+                               const std::string& what) {
+      for (char c : text)
+        if (static_cast<unsigned char>(c) < 0x20 || c == 0x7f)
+          fail(where, what + " must be one printable line: control characters are not allowed");
+      if (text.size() > plan_identity_text_limit)
+        fail(where, what + " is longer than " + std::to_string(plan_identity_text_limit) +
+                        " bytes (found " + std::to_string(text.size()) + ")");
+    };
+    printable(part.id, at.at("id"), "the part id");
+    printable(part.serial, at.at("serial"), "the serial number");
+    for (std::size_t i = 0; i < part.notes.size(); ++i) {
+      const auto& [key, value] = part.notes[i];
+      const bool usable_key =
+          !key.empty() && key.size() <= 64 && std::all_of(key.begin(), key.end(), [](char c) {
+            return std::isalnum(static_cast<unsigned char>(c)) || c == '_' || c == '-' || c == '.';
+          });
+      PlanLocation note = at.at("notes." + key);
+      note.key = usable_key ? "part.notes." + key : std::string("part.notes");
+      if (!usable_key)
+        fail(note, "the note key " + quoted_for_message(key) +
+                       " may hold letters, digits, '_', '-' and '.' only (at most 64)");
+      for (std::size_t j = 0; j < i; ++j)
+        if (part.notes[j].first == key)
+          fail(note, "the note key " + quoted_for_message(key) + " is given twice");
+      printable(value, note, "the note " + key);
+    }
+  }
+
   const PartPlan& plan_;
   std::string file_name_;
   double mm_per_unit_;
   std::string unit_;
+  /// The plausibility warnings found so far (the rules are otherwise const checks).
+  mutable std::vector<std::string> warnings_;
 };
 
 }  // namespace
+
+std::optional<ZoneShareFinding> zone_share_finding(const std::string& name, double tolerance,
+                                                  double size, const std::string& size_what,
+                                                  LengthUnit unit) {
+  if (!(size > 0.0)) return std::nullopt;
+  const double share = tolerance / size;
+  if (!(share > plan_tolerance_share_warning)) return std::nullopt;
+  const double per_unit = millimetres_per(unit);
+  const std::string u(unit_name(unit));
+  ZoneShareFinding finding;
+  finding.error = share > 1.0;
+  finding.message = "the " + name + " tolerance " + plan_number_text(tolerance / per_unit) + " " +
+                    u + " is " + plan_number_text(100.0 * share, 3) + " % of " + size_what + " " +
+                    plan_number_text(size / per_unit) + " " + u +
+                    (finding.error ? ", wider than the bore itself"
+                                   : ", more than " +
+                                         plan_number_text(100.0 * plan_tolerance_share_warning) +
+                                         " %") +
+                    ": was " + plan_number_text(tolerance / per_unit / 1000.0, 6) +
+                    " meant? (wide_zone_intended = true if the zone is intended)";
+  return finding;
+}
 
 MaterialBoundary referenced_boundary(const PartPlan& plan, char label) noexcept {
   MaterialBoundary used = MaterialBoundary::rmb;
@@ -389,7 +472,7 @@ MaterialBoundary referenced_boundary(const PartPlan& plan, char label) noexcept 
 }
 
 void validate_plan(PartPlan& plan) {
-  PlanRules(plan).check();
+  plan.warnings = PlanRules(plan).check();
   for (PlanDatum& datum : plan.datums) datum.boundary = referenced_boundary(plan, datum.label);
 }
 

@@ -2,6 +2,8 @@
 // nothing else but the model (and, for the JSON's detailed blocks, the result it refers to).
 #include "cylzone/report/report_model.hpp"
 
+#include <algorithm>
+
 #include <cstdio>
 #include <regex>
 
@@ -59,6 +61,23 @@ std::string PartIdentity::notes_text() const {
   std::string text;
   for (const auto& [key, value] : notes) text += (text.empty() ? "" : "; ") + key + "=" + value;
   return text;
+}
+
+PartIdentity merged_identity(const PlanPart& plan, const PartIdentity& given) {
+  PartIdentity part;
+  part.id = given.id.empty() ? plan.id : given.id;
+  part.serial = given.serial.empty() ? plan.serial : given.serial;
+  part.timestamp = given.timestamp.empty() ? plan.timestamp : given.timestamp;
+  part.notes = plan.notes;
+  for (const auto& note : given.notes) {
+    auto same = std::find_if(part.notes.begin(), part.notes.end(),
+                             [&](const auto& n) { return n.first == note.first; });
+    if (same != part.notes.end())
+      same->second = note.second;
+    else
+      part.notes.push_back(note);
+  }
+  return part;
 }
 
 bool is_iso8601_timestamp(std::string_view text) {

@@ -21,6 +21,7 @@
 #include <optional>
 #include <string>
 #include <string_view>
+#include <utility>
 #include <vector>
 
 #include "cylzone/plan/tolerance_types.hpp"
@@ -106,6 +107,9 @@ struct PlanTolerance {
   /// e.g. the top of a boss above A. Empty: datum plane A (z = 0). The zone spans
   /// [projected_from, projected_from + projected_height].
   std::optional<double> projected_from;
+  /// Plausibility (validate_plan): the plan acknowledges a zone wider than the feature's size
+  /// (`wide_zone_intended = true`), which is otherwise refused as a likely typing error.
+  bool wide_zone_intended = false;
   PlanLocation where;
 };
 
@@ -132,6 +136,20 @@ struct PlanBore {
   PlanLocation where;
 };
 
+// ---- Part identity and plausibility warnings (docs/plan.md, "[part]").
+
+/// Which part the plan's reports are about, as the plan's optional [part] table gives it; the
+/// command line overrides it field by field (and note by note). Every text is one printable
+/// line of at most `plan_identity_text_limit` bytes (validate_plan).
+struct PlanPart {
+  std::string id;         ///< part number / id; empty: not given
+  std::string serial;     ///< serial number; empty: not given
+  std::string timestamp;  ///< ISO 8601 with a zone, from a TOML offset date-time; empty: none
+  /// Free KEY = "text" notes, in the order written; keys hold letters, digits, '_', '-', '.'.
+  std::vector<std::pair<std::string, std::string>> notes;
+  PlanLocation where;  ///< the [part] table (empty key when the plan has none)
+};
+
 struct PartPlan {
   std::filesystem::path file;
   /// SHA-256 (lower-case hex) of exactly the plan text that was parsed, for the input records.
@@ -145,6 +163,12 @@ struct PartPlan {
   std::optional<double> section_gap;
   /// The top level: line 1, lines of its keys (e.g. "name", "probe.points").
   PlanLocation where;
+  /// Part identity from the plan's [part] table (all empty without one).
+  PlanPart part;
+  /// Plausibility warnings found by validate_plan (e.g. a tolerance above a tenth of the
+  /// bore's size), one line each naming the plan key, lengths in the plan's unit; carried into
+  /// every report by check_part.
+  std::vector<std::string> warnings;
 
   const PlanDatum* datum(char label) const noexcept;
 };

@@ -5,6 +5,9 @@
 /// studies) is held to the same rules by calling validate_plan itself. docs/plan.md states each
 /// rule with its source and the bounds below.
 
+#include <optional>
+#include <string>
+
 #include "cylzone/plan/plan.hpp"
 
 namespace cylzone {
@@ -16,6 +19,31 @@ inline constexpr double plan_length_limit = 10000.0;
 /// Largest tolerance (a zone diameter, or cylindricity), in mm. A 100 mm zone is far beyond any
 /// bore tolerance that needs a measurement; larger values are typing errors.
 inline constexpr double plan_tolerance_limit = 100.0;
+
+/// Plausibility: a position or perpendicularity zone wider than this share of the bore's size
+/// (its lower limit) gets a warning, one wider than the size itself is refused, unless the
+/// tolerance says `wide_zone_intended = true` (docs/evaluation.md, "Plausibility checks").
+inline constexpr double plan_tolerance_share_warning = 0.10;
+/// Longest part id, serial number or note text, in bytes (one line of a report header).
+inline constexpr std::size_t plan_identity_text_limit = 200;
+
+/// A zone that is implausibly wide for its feature (see plan_tolerance_share_warning).
+struct ZoneShareFinding {
+  bool error = false;   ///< wider than the size itself
+  std::string message;  ///< one line, lengths in `unit`, naming the value probably meant
+};
+
+/// The rule on a zone's width against a size (mm both): empty when `tolerance` is at most
+/// plan_tolerance_share_warning of `size`, else a finding ("the position tolerance 20 mm is 167
+/// % of the bore's size 12 mm, wider than the bore itself: was 0.02 meant? ..."), an error above
+/// the size. `name` is "position" or "perpendicularity"; `size_what` names the size. A deep-bore
+/// position or perpendicularity zone is microns on millimetres of diameter (ISO 286-1 grades
+/// and the tolerances drawn with them; common practice): one of the size's order is almost
+/// always a value typed in the wrong unit. validate_plan applies it with the limits of size,
+/// the plausibility checks (check/plausibility.hpp) with the fitted diameter.
+std::optional<ZoneShareFinding> zone_share_finding(const std::string& name, double tolerance,
+                                                  double size, const std::string& size_what,
+                                                  LengthUnit unit);
 
 /// Checks every rule of a plan and settles what follows from them: each datum's `boundary`
 /// (MMB when any position or perpendicularity references it at MMB, else LMB when any does,
@@ -34,7 +62,12 @@ inline constexpr double plan_tolerance_limit = 100.0;
 ///    at MMC or LMC only with the bore's limits of size; position references defined datums
 ///    in the order A, B, C, modifiers only on datum features of size with limits of size;
 ///    perpendicularity references just A; a projected zone needs a straight axis;
-///  * every length is within plan_length_limit; every bore has a tolerance.
+///  * every length is within plan_length_limit; every bore has a tolerance;
+///  * plausibility: a position or perpendicularity zone wider than the bore's size is refused
+///    unless `wide_zone_intended`, one wider than plan_tolerance_share_warning of it warned;
+///  * the [part] identity: printable one-line texts within plan_identity_text_limit, note keys
+///    of letters, digits, '_', '-', '.', each once.
+/// Sets `plan.warnings` to the plausibility warnings (replacing any earlier ones).
 void validate_plan(PartPlan& plan);
 
 /// The boundary datum `label` is referenced at in `plan` (the rule above); RMB when no

@@ -127,6 +127,12 @@ struct PartIdentity {
   std::string notes_text() const;
 };
 
+/// The identity a report carries: the plan's [part] table (PartPlan::part) overridden by
+/// `given` (the command line) field by field: a non-empty id, serial or timestamp replaces the
+/// plan's; a note replaces the plan's note of the same key in its place, new keys follow the
+/// plan's notes in the order given.
+PartIdentity merged_identity(const PlanPart& plan, const PartIdentity& given);
+
 /// Checks `text` as an ISO 8601 date-time with a zone: YYYY-MM-DDThh:mm[:ss[.fff]] followed by
 /// Z or +hh:mm / -hh:mm (ISO 8601-1:2019, extended format; RFC 3339 profile). Field ranges are
 /// checked (month 1-12, day 1-31, hour 0-23, minute and second 0-59, 60 for a leap second).
