@@ -528,7 +528,7 @@ TEST_CASE("unknown keys are errors", "[plan][errors]") {
   check_error(replaced(kBase, "tolerance = 0.025", "tolerence = 0.025"), "tolerence",
               "bore[P1].position.tolerence",
               "unknown key in a position tolerance (allowed: tolerance, modifier, datums, "
-              "projected, projected_from)");
+              "projected, projected_from, wide_zone_intended)");
   check_error(replaced(kBase, "cylindricity = 0.008", "cylindricity = 0.008\ndiameter = 12"),
               "diameter", "bore[P2].diameter", "unknown key in a [[bore]]");
   check_error(kBase + "\n[datum.D]\nfeature = \"plane\"\npoints = \"d.csv\"\n", "[datum.D]",
@@ -940,10 +940,12 @@ TEST_CASE("plan numbers are bounded to the physically meaningful", "[plan][error
   const PartPlan huge = parse_plan(replaced(kBase, at, at + "\ndirection = [0, 0, 1e308]"),
                                    kPlanFile, false);
   CHECK((huge.bores[0].nominal_direction - Eigen::Vector3d::UnitZ()).norm() <= 1e-15);
-  // At the bounds: accepted.
+  // At the bounds: accepted (a 100 mm zone on a 12 mm bore must say it is intended, docs/
+  // evaluation.md "Plausibility checks").
   const PartPlan edge = parse_plan(
-      replaced(replaced(kBase, at, at + "\ndepth = { top = 0, bottom = -10000 }"),
-               "tolerance = 0.025", "tolerance = 100"),
+      replaced(replaced(replaced(kBase, at, at + "\ndepth = { top = 0, bottom = -10000 }"),
+                        "tolerance = 0.025", "tolerance = 100"),
+               "datums = \"A|B(M)|C\" }", "datums = \"A|B(M)|C\", wide_zone_intended = true }"),
       kPlanFile, false);
   CHECK(*edge.bores[0].depth_bottom == -10000.0);
   CHECK(edge.bores[0].position->tolerance == 100.0);

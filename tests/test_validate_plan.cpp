@@ -265,6 +265,7 @@ TEST_CASE("validate_plan bounds lengths and tolerances", "[plan][validate]") {
   PartPlan at_bounds = code_plan();
   at_bounds.bores[0].depth_bottom = -plan_length_limit;
   at_bounds.bores[0].position->tolerance = plan_tolerance_limit;
+  at_bounds.bores[0].position->wide_zone_intended = true;  // 100 mm on a 12 mm bore
   CHECK_NOTHROW(validate_plan(at_bounds));
 }
 

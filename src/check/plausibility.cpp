@@ -157,7 +157,7 @@ class Assessor {
         (fitted > limits.upper ? " above the upper limit " + length(limits.upper)
                                : " below the lower limit " + length(limits.lower)) +
         " (" + detail::format_number(outside / tolerance, 1) + " size tolerances, ratio " +
-        detail::format_number(ratio, 4) + " to the limits' mean)";
+        detail::format_number(ratio, 2) + " to the limits' mean)";
     const bool meaningless = !mixup.empty() ||
                              (outside > options_.size_error_factor * tolerance &&
                               outside > options_.size_error_share * nominal);

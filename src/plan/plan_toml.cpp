@@ -659,16 +659,18 @@ class PlanParser {
     if (const toml::node* notes = table.get("notes")) {
       const toml::table& list =
           as_table(*notes, "part.notes", "a table of notes { KEY = \"text\", ... }");
-      std::vector<std::pair<std::size_t, std::pair<std::string, std::string>>> by_line;
+      // toml++ keeps keys sorted; the notes keep the order they were written in (line, then
+      // column: an inline table holds them all on one line).
+      using Position = std::pair<std::size_t, std::size_t>;
+      std::vector<std::pair<Position, std::pair<std::string, std::string>>> written;
       for (auto&& [key, value] : list) {
         const std::string name = "part.notes." + key_text(key.str());
-        by_line.push_back({line_of(value),
-                           {std::string(key.str()), read_string(value, name, expected)}});
+        const Position at{key.source().begin.line, key.source().begin.column};
+        written.push_back({at, {std::string(key.str()), read_string(value, name, expected)}});
       }
-      // toml++ keeps keys sorted; the notes keep the order they were written in.
-      std::stable_sort(by_line.begin(), by_line.end(),
-                       [](const auto& l, const auto& r) { return l.first < r.first; });
-      for (auto& entry : by_line) part.notes.push_back(std::move(entry.second));
+      std::sort(written.begin(), written.end(),
+                [](const auto& l, const auto& r) { return l.first < r.first; });
+      for (auto& entry : written) part.notes.push_back(std::move(entry.second));
     }
     return part;
   }
