@@ -356,9 +356,80 @@ with tempfile.TemporaryDirectory() as tmp:
         if digest(path) != before:
             failures.append(f"{label}: the input file changed")
 
+# ---- Plausibility between a plan and its data (docs/evaluation.md, "Plausibility checks"): the
+# demo part copied and spoiled one way at a time; each is refused at the plan's line and key.
+DEMO = os.path.join(os.path.dirname(os.path.abspath(__file__)), "..", "..", "point-clouds",
+                    "valve-manifold")
+INCH_KEYS = ("tip_diameter", "basic", "size", "depth", "position", "perpendicularity",
+             "cylindricity")
+
+
+def in_inches(text):
+    """The demo plan with every length written in inches (mm / 25.4, exact by definition)."""
+    import re
+    lines = text.split("\n")
+    for i, l in enumerate(lines):
+        if l.split(" ")[0] in INCH_KEYS:
+            lines[i] = re.sub(r"(?<![\w.])-?\d+\.?\d*(?![\w.])",
+                              lambda m: f"{float(m.group(0)) / 25.4:.7f}", l)
+    return "\n".join(lines).replace('units = "mm"', 'units = "inch"')
+
+
+def after(text, header, old, new):
+    """`text` with the first `old` after `header` replaced by `new`."""
+    at = text.index(old, text.index(header))
+    return text[:at] + new + text[at + len(old):]
+
+
+def reversed_vectors(path):
+    rows = open(path, encoding="utf-8").read().split("\n")
+    out = [rows[0]]
+    for r in rows[1:]:
+        f = r.split(",")
+        out.append(",".join(f[:3] + [f"{-float(v):.7f}" for v in f[3:]]) if len(f) == 6 else r)
+    open(path, "w", encoding="utf-8").write("\n".join(out))
+
+
+# (label, plan edit, point-file edit or None, marker of the line named, key, fragment)
+PLAUSIBILITY = [
+    ("datum B declared a pin, its points and vectors a hole",
+     lambda t: after(t, "[datum.B]", 'feature = "bore"', 'feature = "pin"'), None,
+     'feature = "pin"', "datum.B.feature", "declared a pin"),
+    ("P1's vectors reversed (a boss's)", lambda t: t, "P1.csv", 'points = "points/P1.csv"',
+     "bore[P1].points", "as a pin's do"),
+    ("units = inch on millimetre data", in_inches, None, "size = { lower = 0.7874016",
+     "datum.B.size", "plan units are inch, the data look like mm"),
+    ("a position tolerance of 20 meant as 0.020",
+     lambda t: after(t, 'id = "P1"', "tolerance = 0.030", "tolerance = 20"), None,
+     "tolerance = 20,", "bore[P1].position.tolerance", "was 0.02 meant?"),
+    ("a depth ten times the probed length",
+     lambda t: after(t, 'id = "P1"', "bottom = -60.0", "bottom = -600.0"), None,
+     "bottom = -600.0", "bore[P1].depth", "where it was not measured"),
+]
+
+with tempfile.TemporaryDirectory() as tmp:
+    for index, (reason, edit, points, marker, key, fragment) in enumerate(PLAUSIBILITY):
+        part = os.path.join(tmp, f"part-{index}")
+        shutil.copytree(DEMO, part)
+        plan = os.path.join(part, "plan.toml")
+        text = edit(open(plan, encoding="utf-8").read())
+        open(plan, "w", encoding="utf-8").write(text)
+        if points:
+            reversed_vectors(os.path.join(part, "points", points))
+        line = text[:text.index(marker)].count("\n") + 1
+        before = digest(plan)
+        outputs = [os.path.join(tmp, f"plausible-{index}.json"),
+                   os.path.join(tmp, f"plausible-{index}.csv")]
+        outcome = run(["check", plan, "--json", outputs[0], "--csv", outputs[1]])
+        judge(f"plan.toml ({reason})", outcome, plan, line, fragment, outputs)
+        if key not in outcome[2].decode("utf-8", "replace"):
+            failures.append(f"plan.toml ({reason}): the message does not name key {key}")
+        if digest(plan) != before:
+            failures.append(f"plan.toml ({reason}): the plan changed")
+
 if failures:
     print(f"{len(failures)} of the {len(CASES)} cases misbehave:")
     print("\n".join(failures))
     sys.exit(1)
-print(f"all {len(CASES)} bad inputs refused cleanly"
+print(f"all {len(CASES)} bad inputs and {len(PLAUSIBILITY)} implausible plans refused cleanly"
       + ("" if LIMITED_RUNS else " (address-space-limited runs skipped: sanitized build)"))

@@ -141,6 +141,44 @@ with tempfile.TemporaryDirectory() as tmp:
     for l in table.splitlines() + ascii_table.decode().splitlines():
         check(len(l) <= 120, f"table line longer than 120: {l[:60]!r}...")
 
+# ---- identity in the plan's [part] table (docs/plan.md): the command line overrides it field
+# by field, a --note replaces the plan's note of the same key in its place, new notes follow.
+with tempfile.TemporaryDirectory() as tmp:
+    part = os.path.join(tmp, "part")
+    shutil.copytree(os.path.dirname(PLAN), part)
+    plan = os.path.join(part, "plan.toml")
+    with open(plan, "a", encoding="utf-8") as f:
+        f.write('\n[part]\nid = "HM-3207"\nserial = "S-0007"\ntime = 2026-11-30T08:15:00Z\n'
+                'notes = { operator = "Ada", fixture = "F1" }\n')
+    out = os.path.join(tmp, "plan-only.json")
+    p = run("check", plan, "--json", out, "--quiet")
+    check(p.returncode in (0, 1, 3), f"[part]: exit {p.returncode}: {p.stderr[:300]!r}")
+    if os.path.exists(out):
+        j = json.load(open(out, encoding="utf-8"))
+        check(j["part"] == {"id": "HM-3207", "serial": "S-0007", "timestamp": "2026-11-30T08:15:00Z",
+                            "notes": {"operator": "Ada", "fixture": "F1"}},
+              f"[part] alone: {j['part']}")
+    out = os.path.join(tmp, "overridden.json")
+    out_csv = os.path.join(tmp, "overridden.csv")
+    p = run("check", plan, "--json", out, "--csv", out_csv, "--quiet", "--serial", "S-0042",
+            "--time", FIXED, "--note", "fixture=F2", "--note", "shift=night")
+    check(p.returncode in (0, 1, 3), f"[part] overridden: exit {p.returncode}")
+    if os.path.exists(out):
+        j = json.load(open(out, encoding="utf-8"))
+        check(j["part"]["id"] == "HM-3207" and j["part"]["serial"] == "S-0042"
+              and j["part"]["timestamp"] == FIXED, f"overrides: {j['part']}")
+        check(j["part"]["notes"] == {"operator": "Ada", "fixture": "F2", "shift": "night"},
+              f"notes merged: {j['part']['notes']}")
+    if os.path.exists(out_csv):
+        rows = list(csv.DictReader(open(out_csv, encoding="utf-8", newline="")))
+        check(rows and all(r["notes"] == "operator=Ada; fixture=F2; shift=night" for r in rows),
+              f"CSV notes in merged order: {rows[0]['notes'] if rows else None!r}")
+    with open(plan, "a", encoding="utf-8") as f:
+        f.write("\n")
+    text = open(plan, encoding="utf-8").read().replace('serial = "S-0007"', 'serial = "S\\u0007"')
+    open(plan, "w", encoding="utf-8").write(text)
+    refused("[part] control character", run("check", plan), "part.serial", "control characters")
+
 if failures:
     print("\n".join(failures))
     sys.exit(1)
