@@ -39,9 +39,10 @@ struct PartCheckResult {
   std::vector<std::string> warnings;
 };
 
-/// Runs the whole check: load_part_inputs, evaluate_part, association_sensitivity (when
-/// options.sensitivity), then the decision. Throws InputError for unreadable inputs and
-/// FitError (with the feature named) for geometry that cannot be evaluated.
+/// Runs the whole check: load_part_inputs, evaluate_part, check_plausibility (plausibility.hpp),
+/// association_sensitivity (when options.sensitivity), then the decision. Throws InputError for
+/// unreadable inputs and for a plan and data that cannot describe the same part (plan file,
+/// line, key), and FitError (with the feature named) for geometry that cannot be evaluated.
 PartCheckResult check_part(const PartPlan& plan, const CheckOptions& options = {});
 
 }  // namespace cylzone
