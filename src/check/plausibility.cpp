@@ -86,9 +86,14 @@ class Assessor {
   }
   static std::string percent(double share) { return detail::format_number(100.0 * share, 1); }
 
+  /// An error's key and line go into its InputError; a warning names them in its text.
   void add(FindingSeverity severity, const std::string& feature, const PlanLocation& where,
            const std::string& message) {
-    summary_.findings.push_back({severity, feature, where, feature + ": " + message});
+    std::string text = feature + ": " + message;
+    if (severity == FindingSeverity::warning && !where.key.empty())
+      text += " (plan key " + where.key +
+              (where.line > 0 ? ", line " + std::to_string(where.line) : std::string()) + ")";
+    summary_.findings.push_back({severity, feature, where, std::move(text)});
   }
 
   static std::string file_of(const PointCloud& cloud, const std::filesystem::path& planned) {
@@ -355,7 +360,11 @@ void check_plausibility(const PartPlan& plan, const PartInputs& inputs,
   for (const PlausibilityFinding& f : summary.findings) {
     auto bore = std::find_if(evaluation.bores.begin(), evaluation.bores.end(),
                              [&](const BoreResult& b) { return f.feature == "bore " + b.id; });
-    (bore != evaluation.bores.end() ? bore->warnings : evaluation.warnings).push_back(f.message);
+    // A bore's own warnings are listed under the bore: without the "bore P1: " prefix.
+    if (bore != evaluation.bores.end())
+      bore->warnings.push_back(f.message.substr(f.feature.size() + 2));
+    else
+      evaluation.warnings.push_back(f.message);
   }
 }
 

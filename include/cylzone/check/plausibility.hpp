@@ -86,7 +86,7 @@ void require_plausible(const PartPlan& plan, const PlausibilitySummary& summary)
 
 /// What check_part runs after evaluate_part: assess_plausibility, require_plausible, then the
 /// plan's own warnings (PartPlan::warnings) and each warning finding added to `evaluation`: a
-/// bore's to that bore's warnings, the others to the part's.
+/// bore's to that bore's warnings (without the "bore P1: " prefix), the others to the part's.
 void check_plausibility(const PartPlan& plan, const PartInputs& inputs,
                         PartEvaluation& evaluation, const PlausibilityOptions& options = {});
 
