@@ -117,8 +117,7 @@ class Assessor {
     if (share > options_.vector_error_share) {
       add(FindingSeverity::error, feature, where,
           counted + " point " + reversed + ": " + error_text +
-              " (cylzone reads i,j,k as the surface normal out of the material, docs/"
-              "evaluation.md; reversed vectors must be turned in the file)");
+              " (i,j,k read as the surface normal out of the material: docs/evaluation.md)");
       return;
     }
     add(FindingSeverity::warning, feature, where,
@@ -136,9 +135,7 @@ class Assessor {
     judge_vectors(count, feature, file, where,
                   pin ? "a pin's point away from its axis" : "a bore's point toward its axis",
                   pin ? "toward the axis, as a bore's do" : "away from the axis, as a pin's do",
-                  "declared " + declared + ", the points describe " +
-                      (pin ? std::string("a bore") : std::string("a pin (boss)")) +
-                      ": evaluated as " + declared + " the results would be meaningless");
+                  "declared " + declared + ", the results would be meaningless");
   }
 
   // ---------------------------------------------------------------- sizes
@@ -195,9 +192,8 @@ class Assessor {
       const PlanLocation where = d.material_side ? at.at("material_side") : at.at("points");
       judge_vectors(count, feature, file, where, "a plane's point out of the material",
                     "into the material side",
-                    "the material side " + std::string(d.material_side ? "given" : "inferred") +
-                        " and the vectors disagree: the datum would be associated on the "
-                        "wrong side");
+                    "against the " + std::string(d.material_side ? "given" : "inferred") +
+                        " material side, the datum would be associated on the wrong side");
       return;
     }
 
@@ -228,8 +224,7 @@ class Assessor {
                       tab ? "toward the centre plane, as a slot's do"
                           : "away from the centre plane, as a tab's do",
                       std::string("declared a ") + (tab ? "tab" : "slot") +
-                          ", the points describe a " + (tab ? "slot" : "tab") +
-                          ": the results would be meaningless");
+                          ", the results would be meaningless");
       }
       if (d.size) check_size(*d.size, w.mating_width, "related mating width", feature, at.at("size"));
     }
@@ -306,7 +301,7 @@ class Assessor {
                                : "does not meet the probed band " +
                                      band(result.probed_top, result.probed_bottom)) +
                 ": the axis would be judged where it was not measured; probe the bore over its "
-                "depth or correct depth");
+                "depth or correct it");
     }
     if (result.position && result.position->projected) {
       const PositionResult& p = *result.position;
