@@ -5,6 +5,7 @@
 
 #include <algorithm>
 #include <cmath>
+#include <filesystem>
 #include <stdexcept>
 #include <string>
 
@@ -97,15 +98,15 @@ class Assessor {
   }
 
   static std::string file_of(const PointCloud& cloud, const std::filesystem::path& planned) {
-    const std::string name = cloud.source.empty() ? planned.filename().string()
-                                                  : std::filesystem::path(cloud.source).filename().string();
+    const std::filesystem::path file = cloud.source.empty() ? planned : cloud.source;
+    const std::string name = file.filename().string();
     return quoted_for_message(name);
   }
 
   // ---------------------------------------------------------------- surface vectors
 
-  /// `kind_text` is what the plan declares, `expected` where its vectors point, `other` the
-  /// kind whose vectors point the other way.
+  /// Judges `count`: `expected` says where the declared kind's vectors point, `reversed` where
+  /// the counted ones point instead, `error_text` why most of them so is an error.
   void judge_vectors(const SideCount& count, const std::string& feature, const std::string& file,
                      const PlanLocation& where, const std::string& expected,
                      const std::string& reversed, const std::string& error_text) {
