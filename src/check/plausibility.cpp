@@ -98,7 +98,8 @@ class Assessor {
   }
 
   static std::string file_of(const PointCloud& cloud, const std::filesystem::path& planned) {
-    const std::filesystem::path file = cloud.source.empty() ? planned : cloud.source;
+    const std::filesystem::path file =
+        cloud.source.empty() ? planned : std::filesystem::path(cloud.source);
     const std::string name = file.filename().string();
     return quoted_for_message(name);
   }
