@@ -33,6 +33,8 @@
 #include "cylzone/core/errors.hpp"
 #include "cylzone/decide/bore_characteristics.hpp"
 #include "cylzone/plan/plan.hpp"
+#include "cylzone/plan/validate_plan.hpp"
+#include "expect_input_error.hpp"
 
 using namespace cylzone;
 using Catch::Matchers::Contains;
@@ -371,6 +373,47 @@ TEST_CASE("axis_direction = nominal: position on the held axis, perpendicularity
   const PartEvaluation t = evaluate_part(tilted.plan, tilted.inputs, quick());
   CHECK(t.bores[1].direction_held);
   CHECK(t.bores[1].tilt.angle_rad == Approx(0.0).margin(1e-15));
+}
+
+TEST_CASE("the plan key axis_direction: read, defaulted, validated", "[check][held][plan]") {
+  const auto plan_with = [](const std::string& bore_keys) {
+    return "format = \"cylzone-plan-1\"\nname = \"Block\"\nunits = \"mm\"\n"
+           "[datum.A]\nfeature = \"plane\"\npoints = \"a.csv\"\n"
+           "[[bore]]\nid = \"H1\"\npoints = \"h.csv\"\nbasic = [1.5, 0.75]\n"
+           "position = { tolerance = 0.02, datums = \"A\" }\n" +
+           bore_keys;
+  };
+  CHECK(parse_plan(plan_with(""), "p.toml", false).bores[0].axis_direction ==
+        AxisDirection::fitted);
+  CHECK(parse_plan(plan_with("axis_direction = \"fitted\"\n"), "p.toml", false)
+            .bores[0]
+            .axis_direction == AxisDirection::fitted);
+  const PartPlan held = parse_plan(plan_with("axis_direction = \"nominal\"\n"), "p.toml", false);
+  CHECK(held.bores[0].axis_direction == AxisDirection::nominal);
+  CHECK(axis_direction_name(AxisDirection::nominal) == "nominal");
+  CHECK(parse_axis_direction("fitted") == AxisDirection::fitted);
+  CHECK_FALSE(parse_axis_direction("Nominal").has_value());
+
+  // An unknown value names the key and its line (line 12: after the bore's header and keys).
+  cylzone::testing::expect_input_error(
+      [&] { parse_plan(plan_with("axis_direction = \"held\"\n"), "p.toml", false); }, "p.toml",
+      12, "unknown axis direction \"held\": expected \"fitted\" or \"nominal\"");
+  try {
+    parse_plan(plan_with("axis_direction = \"held\"\n"), "p.toml", false);
+  } catch (const InputError& e) {
+    CHECK(e.key() == "bore[H1].axis_direction");
+  }
+  // With a derived median line there is no single direction to hold.
+  cylzone::testing::expect_input_error(
+      [&] {
+        parse_plan(plan_with("axis = \"median-line\"\naxis_direction = \"nominal\"\n"), "p.toml",
+                   false);
+      },
+      "p.toml", 13, "not available with axis = \"median-line\"");
+  // A plan built in code is held to the same rules.
+  PartPlan in_code = held;
+  in_code.bores[0].axis_direction = static_cast<AxisDirection>(7);
+  CHECK_THROWS_WITH(validate_plan(in_code), Contains("unknown axis direction"));
 }
 
 // Writes the cases of crosscheck_held_direction.py (a ctest fixture): one-level probing of a
