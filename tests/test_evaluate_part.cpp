@@ -35,9 +35,12 @@
 #include "cylzone/plan/plan.hpp"
 #include "cylzone/plan/validate_plan.hpp"
 #include "expect_input_error.hpp"
+#include "same_results.hpp"
 
 using namespace cylzone;
 using Catch::Matchers::Contains;
+using cylzone::testing::same_characteristics;
+using cylzone::testing::same_position;
 
 namespace {
 
@@ -156,15 +159,6 @@ std::vector<Characteristic> decided(const PartPlan& plan, const PartEvaluation& 
   return out;
 }
 
-void same_position(const std::optional<PositionResult>& a, const std::optional<PositionResult>& b) {
-  REQUIRE(a.has_value() == b.has_value());
-  if (!a) return;
-  CHECK(a->value == b->value);
-  CHECK(a->bonus == b->bonus);
-  CHECK(a->top.offset == b->top.offset);
-  CHECK(a->bottom.offset == b->bottom.offset);
-}
-
 /// Every figure of an evaluated bore, compared exactly.
 void same_bore(const BoreResult& x, const BoreResult& y) {
   INFO("bore " << x.id);
@@ -182,13 +176,7 @@ void same_bore(const BoreResult& x, const BoreResult& y) {
   REQUIRE(x.perpendicularity.has_value() == y.perpendicularity.has_value());
   if (x.perpendicularity) CHECK(x.perpendicularity->value == y.perpendicularity->value);
   CHECK(x.warnings == y.warnings);
-  const std::vector<Characteristic> cx = bore_characteristics(x), cy = bore_characteristics(y);
-  REQUIRE(cx.size() == cy.size());
-  for (std::size_t k = 0; k < cx.size(); ++k) {
-    CHECK(cx[k].id == cy[k].id);
-    CHECK(cx[k].value == cy[k].value);
-    CHECK(cx[k].verdict == cy[k].verdict);
-  }
+  same_characteristics(x, y);
 }
 
 }  // namespace

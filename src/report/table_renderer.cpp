@@ -148,6 +148,13 @@ std::string identity_line(const PartIdentity& p) {
   return line;
 }
 
+/// The texts joined by ", " (lists of bore ids in notes).
+std::string joined(const std::vector<std::string>& texts) {
+  std::string out;
+  for (const std::string& t : texts) out += (out.empty() ? "" : ", ") + t;
+  return out;
+}
+
 /// One sensitivity column: an association (or two giving identical figures) and its cells.
 struct SensitivityColumn {
   std::string header;
@@ -275,20 +282,16 @@ std::string format_table(const ReportModel& m, const TableOptions& options) {
         << pad_left(ReportUnits::fixed(b.tilt_azimuth_deg, 0) + sym.degree, 10) << '\n';
   }
   if (!unknown_depth.empty()) {
-    std::string ids;
-    for (const std::string& id : unknown_depth) ids += (ids.empty() ? "" : ", ") + id;
     out << wrapped("note: ",
-                   "no full depth in the plan for " + ids +
+                   "no full depth in the plan for " + joined(unknown_depth) +
                        ": the zone was checked over the probed extent only, and the bore's full "
                        "depth is unknown to cylzone. Give `depth` in the plan to check the full "
                        "depth.",
                    options.width, 6);
   }
   if (!held.empty()) {
-    std::string ids;
-    for (const std::string& id : held) ids += (ids.empty() ? "" : ", ") + id;
     out << wrapped("note: ",
-                   "axis direction held at the nominal direction for " + ids +
+                   "axis direction held at the nominal direction for " + joined(held) +
                        " (axis_direction = \"nominal\"): position is evaluated on that axis, "
                        "its tilt is zero by construction and perpendicularity is not evaluated.",
                    options.width, 6);
@@ -365,11 +368,7 @@ std::string format_table(const ReportModel& m, const TableOptions& options) {
         out << pad_left(table[k].cells[row], widths[k]);
       out << '\n';
     }
-    if (!skipped.empty()) {
-      std::string ids;
-      for (const std::string& id : skipped) ids += (ids.empty() ? "" : ", ") + id;
-      out << wrapped("Skipped: ", ids, options.width, 9);
-    }
+    if (!skipped.empty()) out << wrapped("Skipped: ", joined(skipped), options.width, 9);
     if (any_change)
       out << "A verdict that changes with the association of A is decided by the datum method, "
              "not the part:\nagree the method with the customer before comparing results.\n";
