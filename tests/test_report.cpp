@@ -596,4 +596,11 @@ TEST_CASE("a bore not evaluated: every report lists it with its reason, the part
   REQUIRE(at != std::string::npos);
   broken.replace(at, std::string("\"reason\": ").size(), "\"reason\": null, \"was\": ");
   CHECK_THROWS_AS(read_report_json(broken, "r.json"), InputError);
+  // A status of neither kind is refused, naming the key.
+  std::string unknown = json;
+  const std::size_t status = unknown.find("\"status\": \"not evaluated\"");
+  unknown.replace(status, std::string("\"status\": \"not evaluated\"").size(),
+                  "\"status\": \"skipped\"");
+  CHECK_THROWS_WITH(read_report_json(unknown, "r.json"),
+                    Catch::Matchers::Contains("status") && Catch::Matchers::Contains("skipped"));
 }

@@ -464,6 +464,17 @@ std::string format_json(const PartCheckResult& result) {
   return format_json(make_report_model(result));
 }
 
+/// Whether a characteristic or bore says it was not evaluated: its `status` (absent in reports
+/// written before the key existed: evaluated).
+bool not_evaluated(const ReportReader& in, const json& object, const std::string& path) {
+  if (!object.contains("status")) return false;
+  const std::string status = in.text(object, path, "status");
+  if (status != "evaluated" && status != "not evaluated")
+    in.fail(path + ".status", "unknown status " + quoted_for_message(status) +
+                                  " (expected \"evaluated\" or \"not evaluated\")");
+  return status == "not evaluated";
+}
+
 ReportModel read_report_json(std::string_view bytes, const std::string& source) {
   json j;
   try {
@@ -568,7 +579,7 @@ ReportModel read_report_json(std::string_view bytes, const std::string& source) 
     c.reference = in.text(o, path, "reference");
     // A characteristic not evaluated has a reason and no value (written before status existed:
     // evaluated).
-    if (o.contains("status") && in.text(o, path, "status") == "not evaluated") {
+    if (not_evaluated(in, o, path)) {
       c.not_evaluated = in.text(o, path, "reason");
       if (c.not_evaluated.empty()) in.fail(path + ".reason", "a characteristic not evaluated needs its reason");
     } else {
@@ -601,7 +612,7 @@ ReportModel read_report_json(std::string_view bytes, const std::string& source) 
     b.verdict = in.verdict(o, path, "verdict");
     b.axis_method = in.text(o, path, "axis_method");
     if (o.contains("axis_direction")) b.axis_direction = in.text(o, path, "axis_direction");
-    if (o.contains("status") && in.text(o, path, "status") == "not evaluated") {
+    if (not_evaluated(in, o, path)) {
       b.not_evaluated = in.text(o, path, "reason");
       if (b.not_evaluated.empty()) in.fail(path + ".reason", "a bore not evaluated needs its reason");
       b.warnings = in.texts(o, path, "warnings");
