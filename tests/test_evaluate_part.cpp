@@ -234,7 +234,8 @@ TEST_CASE("a bore probed at one level is not evaluated and the others are evalua
   CHECK(combine(failing_all) == Verdict::does_not_conform);
 
   // The sensitivity study skips Q2 with a note and still studies the others.
-  const std::vector<BoreSensitivity> s = association_sensitivity(with.plan, with.inputs, e, quick());
+  const std::vector<BoreSensitivity> s =
+      association_sensitivity(with.plan, with.inputs, e, quick());
   REQUIRE(s.size() == 3);
   CHECK(s[1].rows.empty());
   CHECK_THAT(s[1].skipped, Contains("not evaluated"));

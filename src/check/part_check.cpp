@@ -36,8 +36,8 @@ auto for_feature(const std::string& feature, Step&& step) -> decltype(step()) {
 /// line naming the bore. When the points cannot fix the axis direction (one probing level) and
 /// the plan lets it be fitted, the reason names the plan key that holds it at the nominal one.
 std::string not_evaluated_reason(const PlanBore& bore, const std::string& what) {
-  std::string reason = what.rfind("bore " + bore.id + ":", 0) == 0 ? what
-                                                                   : "bore " + bore.id + ": " + what;
+  const std::string named = "bore " + bore.id + ":";
+  std::string reason = what.rfind(named, 0) == 0 ? what : named + " " + what;
   for (char& c : reason)
     if (c == '\n' || c == '\r') c = ' ';
   if (bore.axis_direction == AxisDirection::fitted &&

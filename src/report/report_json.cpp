@@ -581,7 +581,8 @@ ReportModel read_report_json(std::string_view bytes, const std::string& source) 
     // evaluated).
     if (not_evaluated(in, o, path)) {
       c.not_evaluated = in.text(o, path, "reason");
-      if (c.not_evaluated.empty()) in.fail(path + ".reason", "a characteristic not evaluated needs its reason");
+      if (c.not_evaluated.empty())
+        in.fail(path + ".reason", "a characteristic not evaluated needs its reason");
     } else {
       c.value = mm(o, path, "value");
     }
@@ -611,10 +612,17 @@ ReportModel read_report_json(std::string_view bytes, const std::string& source) 
     b.id = in.text(o, path, "id");
     b.verdict = in.verdict(o, path, "verdict");
     b.axis_method = in.text(o, path, "axis_method");
-    if (o.contains("axis_direction")) b.axis_direction = in.text(o, path, "axis_direction");
+    if (o.contains("axis_direction")) {  // absent in reports written before the key existed
+      b.axis_direction = in.text(o, path, "axis_direction");
+      if (!parse_axis_direction(b.axis_direction))
+        in.fail(path + ".axis_direction", "unknown axis direction " +
+                                              quoted_for_message(b.axis_direction) +
+                                              " (expected \"fitted\" or \"nominal\")");
+    }
     if (not_evaluated(in, o, path)) {
       b.not_evaluated = in.text(o, path, "reason");
-      if (b.not_evaluated.empty()) in.fail(path + ".reason", "a bore not evaluated needs its reason");
+      if (b.not_evaluated.empty())
+        in.fail(path + ".reason", "a bore not evaluated needs its reason");
       b.warnings = in.texts(o, path, "warnings");
       m.bores.push_back(std::move(b));
       continue;

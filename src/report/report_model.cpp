@@ -202,7 +202,8 @@ ReportModel make_report_model(const PartCheckResult& r, const ReportModelOptions
   }
 
   m.characteristics = report_characteristics(r);
-  for (Characteristic& c : m.characteristics) c.not_evaluated = in_report_unit(c.not_evaluated, m.units);
+  for (Characteristic& c : m.characteristics)
+    c.not_evaluated = in_report_unit(c.not_evaluated, m.units);
   for (const BoreResult& b : r.bores) {
     BoreSummary s;
     s.id = b.id;
