@@ -196,6 +196,13 @@ TEST_CASE("a bore probed at one level is not evaluated and the others are evalua
   CHECK(q2.not_evaluated.find('\n') == std::string::npos);
   CHECK(q2.not_evaluated.size() < 1000);
 
+  // With a derived median line the advice names the axis methods the key works with.
+  Part median = with;
+  median.plan.bores[1].axis = BoreAxisMethod::median_line;
+  const PartEvaluation m = evaluate_part(median.plan, median.inputs, quick());
+  CHECK_THAT(m.bores[1].not_evaluated,
+             Contains("axis = \"least-squares\"") && Contains("axis_direction = \"nominal\""));
+
   // The same part without Q2: Q1 and Q3 bit for bit the same.
   Part without = with;
   without.plan.bores.erase(without.plan.bores.begin() + 1);

@@ -40,12 +40,20 @@ std::string not_evaluated_reason(const PlanBore& bore, const std::string& what) 
   std::string reason = what.rfind(named, 0) == 0 ? what : named + " " + what;
   for (char& c : reason)
     if (c == '\n' || c == '\r') c = ' ';
-  if (bore.axis_direction == AxisDirection::fitted &&
-      reason.find("axis direction cannot be determined") != std::string::npos)
-    reason += "; to evaluate its position on an axis held at the nominal direction, set "
-              "axis_direction = \"nominal\" for bore " + bore.id +
-              " in the plan (perpendicularity is then not evaluated)";
-  return reason;
+  if (bore.axis_direction != AxisDirection::fitted ||
+      reason.find("axis direction cannot be determined") == std::string::npos)
+    return reason;
+  // A derived median line has no single direction to hold (validate_plan refuses the key
+  // with it): the advice names the axis methods that take it.
+  if (bore.axis == BoreAxisMethod::median_line)
+    return reason + "; a derived median line needs sections at two levels or more: to evaluate "
+                    "its position on an axis held at the nominal direction, set axis = "
+                    "\"least-squares\" (or \"mating-envelope\") and axis_direction = "
+                    "\"nominal\" for bore " + bore.id +
+           " in the plan (perpendicularity is then not evaluated)";
+  return reason + "; to evaluate its position on an axis held at the nominal direction, set "
+                  "axis_direction = \"nominal\" for bore " + bore.id +
+         " in the plan (perpendicularity is then not evaluated)";
 }
 
 /// Bores sharing one datum reference (same datums, same boundaries) form one pattern that moves
