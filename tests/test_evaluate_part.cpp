@@ -360,9 +360,36 @@ TEST_CASE("axis_direction = nominal: position on the held axis, perpendicularity
     CHECK(combine(decided(p.plan, e)) == Verdict::not_proven);
   }
 
-  // On a bore probed over its depth the held axis is parallel to z through the least-squares
-  // fit's points projected along z: its position differs from the free fit's, which follows
-  // the bore's tilt.
+  // Results do not depend on how the part sat on the machine (common practice): the same part
+  // turned and moved gives the same held position and the same decisions. The nominal
+  // direction is held in the datum frame, which moves with the part.
+  {
+    p.plan.bores[1].axis = BoreAxisMethod::least_squares;
+    const PartEvaluation before = evaluate_part(p.plan, p.inputs, quick());
+    const Eigen::Matrix3d r =
+        Eigen::AngleAxisd(0.7, Eigen::Vector3d(0.3, -0.5, 0.8).normalized()).toRotationMatrix();
+    const Eigen::Vector3d t(412.5, -230.25, 97.0);
+    Part moved = p;
+    for (PointCloud* cloud : {&moved.inputs.datums[0], &moved.inputs.datums[1],
+                              &moved.inputs.datums[2], &moved.inputs.bores[0],
+                              &moved.inputs.bores[1], &moved.inputs.bores[2]})
+      cloud->points = ((r * cloud->points).colwise() + t).eval();
+    moved.plan.datums[0].material_side = r * *p.plan.datums[0].material_side;
+    const PartEvaluation after = evaluate_part(moved.plan, moved.inputs, quick());
+    REQUIRE(after.bores[1].position);
+    CHECK(after.bores[1].position->value == Approx(before.bores[1].position->value).margin(1e-9));
+    CHECK(after.bores[1].size.least_squares ==
+          Approx(before.bores[1].size.least_squares).margin(1e-9));
+    const std::vector<Characteristic> x = decided(p.plan, before), y = decided(moved.plan, after);
+    REQUIRE(x.size() == y.size());
+    for (std::size_t k = 0; k < x.size(); ++k) {
+      CHECK(x[k].id == y[k].id);
+      CHECK(x[k].verdict == y[k].verdict);
+      CHECK(x[k].not_evaluated == y[k].not_evaluated);
+    }
+  }
+
+  // On a bore probed over its depth the held axis stays parallel to z: no tilt is reported.
   Part tilted = part_abc(MaterialBoundary::rmb);
   add_bores(tilted, abc, rings(-30.0, 25.0, 0.0008, 4.01, deep));
   tilted.plan.bores[1].axis_direction = AxisDirection::nominal;
