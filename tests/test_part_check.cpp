@@ -34,9 +34,12 @@
 #include "cylzone/io/load.hpp"
 #include "cylzone/plan/plan.hpp"
 #include "io/detail/file_digest.hpp"
+#include "same_results.hpp"
 #include "temporary_folder.hpp"
 
 using namespace cylzone;
+using cylzone::testing::same_characteristics;
+using cylzone::testing::same_position;
 
 namespace {
 
@@ -51,20 +54,6 @@ void same_cylinder(const CylinderFit& a, const CylinderFit& b) {
   CHECK(a.ambiguity == b.ambiguity);
   CHECK(a.summary.message == b.summary.message);
   CHECK(a.summary.warnings == b.summary.warnings);
-}
-
-void same_position(const std::optional<PositionResult>& a, const std::optional<PositionResult>& b) {
-  REQUIRE(a.has_value() == b.has_value());
-  if (!a) return;
-  CHECK(a->value == b->value);
-  CHECK(a->bonus == b->bonus);
-  CHECK(a->allowed == b->allowed);
-  CHECK(a->range_top == b->range_top);
-  CHECK(a->range_bottom == b->range_bottom);
-  CHECK(a->top.offset == b->top.offset);
-  CHECK(a->bottom.offset == b->bottom.offset);
-  CHECK(a->worst.height == b->worst.height);
-  CHECK(a->leaves_zone_at == b->leaves_zone_at);
 }
 
 void same_report(const StrayPointReport& a, const StrayPointReport& b) {
@@ -122,13 +111,7 @@ void same_evaluation(const PartEvaluation& a, const PartEvaluation& b) {
     same_report(x.stray_points, y.stray_points);
     CHECK(x.warnings == y.warnings);
     // The same decisions: every characteristic's value and verdict.
-    const std::vector<Characteristic> cx = bore_characteristics(x), cy = bore_characteristics(y);
-    REQUIRE(cx.size() == cy.size());
-    for (std::size_t k = 0; k < cx.size(); ++k) {
-      CHECK(cx[k].id == cy[k].id);
-      CHECK(cx[k].value == cy[k].value);
-      CHECK(cx[k].verdict == cy[k].verdict);
-    }
+    same_characteristics(x, y);
   }
 }
 

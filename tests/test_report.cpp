@@ -1,6 +1,7 @@
 // Reports: the report model built from a result assembled by hand (so the values are known
 // without running any fit), its renderers (CSV, JSON, table) and the JSON reader.
 #include <catch2/catch.hpp>
+#include <algorithm>
 #include <cmath>
 #include <sstream>
 #include <regex>
@@ -200,17 +201,17 @@ TEST_CASE("CSV: RFC 4180 quoting, four decimals in mm, one row per characteristi
   CHECK_FALSE(std::getline(lines, extra));
   CHECK(header ==
         "part,bore,characteristic,reference,value,tolerance,bonus,allowed,comparison,verdict,"
-        "decisive,units,id,caution,part_id,serial,timestamp,notes,range_source");
+        "decisive,units,id,caution,part_id,serial,timestamp,notes,range_source,status,reason");
   CHECK(first ==
         "\"Bracket, \"\"first\"\" article, rev B\",H1,\"position, frame fixed\",A|B(M) MMC,"
         "0.1000,0.0800,0.0100,0.0900,<=,does not conform,no,mm,H1/position," + caution +
-            ",,,,,plan depth");
+            ",,,,,plan depth,evaluated,");
   CHECK(second ==
         "\"Bracket, \"\"first\"\" article, rev B\",H1,\"position, datum mobility\",A|B(M) MMC,"
         "0.0850,0.0800,0.0100,0.0900,<=,conforms,yes,mm,H1/position/mobility," + caution +
-            ",,,,,plan depth");
+            ",,,,,plan depth,evaluated,");
   const std::vector<std::string> fields = csv_fields(second);
-  REQUIRE(fields.size() == 19);
+  REQUIRE(fields.size() == 21);
   CHECK(fields[0] == "Bracket, \"first\" article, rev B");
   CHECK(fields[13] == safety_caution);
 }
@@ -340,7 +341,11 @@ TEST_CASE("range source: a bore without a plan depth says its range is the probe
   std::string header, row;
   std::getline(csv, header);
   std::getline(csv, row);
-  CHECK(csv_fields(row).back() == "probed extent");
+  // The range_source column (later columns, e.g. status, follow it).
+  const std::vector<std::string> names = csv_fields(header);
+  const auto column = std::find(names.begin(), names.end(), "range_source");
+  REQUIRE(column != names.end());
+  CHECK(csv_fields(row).at(static_cast<std::size_t>(column - names.begin())) == "probed extent");
   const std::string table = format_table(m);
   CHECK(table.find("no full depth in the plan for H1") != std::string::npos);
 
@@ -517,4 +522,85 @@ TEST_CASE("table: widths from the content, long ids shortened and listed, lines 
   CHECK(utf8.find("\u00b0\n") != std::string::npos);
   CHECK(utf8.find("0.0850 / \u2014") != std::string::npos);
   CHECK(utf8.find("manifold-cross-\u2026") != std::string::npos);
+}
+
+TEST_CASE("a bore not evaluated: every report lists it with its reason, the part is not proven") {
+  // H1 as above; H2 could not be evaluated (its plan asks for position and size).
+  PartCheckResult r = hand_made_result();
+  PlanBore h1;
+  h1.id = "H1";
+  PlanBore h2;
+  h2.id = "H2";
+  PlanTolerance position;
+  position.tolerance = 0.050;
+  position.datums = {{'A', MaterialBoundary::rmb}};
+  h2.position = position;
+  h2.size = SizeLimits{8.0, 8.02};
+  r.plan.bores = {h1, h2};
+  BoreResult b;
+  b.id = "H2";
+  b.not_evaluated = "bore H2: the points lie in one cross-section (axial span 0.0000 mm)";
+  r.bores.push_back(b);
+  for (Characteristic& c : bore_characteristics(b, h2)) r.characteristics.push_back(c);
+  r.verdict = combine(r.characteristics);
+  // H1's deciding position (after mobility, 0.085 within 0.090) conforms, so the rows not
+  // evaluated decide: not proven (ISO 14253-1:2017 section 5, from memory).
+  REQUIRE(r.verdict == Verdict::not_proven);
+  const ReportModel m = make_report_model(r);
+  REQUIRE(m.bore("H2") != nullptr);
+  CHECK_FALSE(m.bore("H2")->evaluated());
+  CHECK(m.bore("H1")->evaluated());
+  CHECK_FALSE(m.range_source(*m.find("H2/position")).has_value());
+
+  const std::string table = format_table(m);
+  CHECK(table.find("H2 not evaluated: bore H2: the points lie in one cross-section") !=
+        std::string::npos);
+  CHECK(table.find("Part verdict: NOT PROVEN (3 of") != std::string::npos);
+  CHECK(table.find("Caution:") != std::string::npos);
+
+  std::istringstream csv(format_csv(m));
+  std::string header, row;
+  std::getline(csv, header);
+  const std::vector<std::string> names = csv_fields(header);
+  const auto index = [&](const char* name) {
+    return static_cast<std::size_t>(std::find(names.begin(), names.end(), name) - names.begin());
+  };
+  std::size_t not_evaluated_rows = 0;
+  while (std::getline(csv, row)) {
+    const std::vector<std::string> fields = csv_fields(row);
+    REQUIRE(fields.size() == names.size());
+    if (fields[index("bore")] != "H2") {
+      CHECK(fields[index("status")] == "evaluated");
+      continue;
+    }
+    ++not_evaluated_rows;
+    CHECK(fields[index("status")] == "not evaluated");
+    CHECK(fields[index("value")].empty());
+    CHECK(fields[index("verdict")] == "not proven");
+    CHECK(fields[index("reason")] == b.not_evaluated);
+  }
+  CHECK(not_evaluated_rows == 3);  // position, size/lower, size/upper
+
+  const std::string json = format_json(m);
+  CHECK(json.find("\"status\": \"not evaluated\"") != std::string::npos);
+  const ReportModel back = read_report_json(json, "r.json");
+  REQUIRE(back.bore("H2") != nullptr);
+  CHECK(back.bore("H2")->not_evaluated == b.not_evaluated);
+  REQUIRE(back.find("H2/size/lower") != nullptr);
+  CHECK(back.find("H2/size/lower")->not_evaluated == b.not_evaluated);
+  CHECK(back.find("H2/size/lower")->verdict == Verdict::not_proven);
+  CHECK(back.verdict == Verdict::not_proven);
+  // A row not evaluated without its reason is no report of ours.
+  std::string broken = json;
+  const std::size_t at = broken.find("\"reason\": \"bore H2");
+  REQUIRE(at != std::string::npos);
+  broken.replace(at, std::string("\"reason\": ").size(), "\"reason\": null, \"was\": ");
+  CHECK_THROWS_AS(read_report_json(broken, "r.json"), InputError);
+  // A status of neither kind is refused, naming the key.
+  std::string unknown = json;
+  const std::size_t status = unknown.find("\"status\": \"not evaluated\"");
+  unknown.replace(status, std::string("\"status\": \"not evaluated\"").size(),
+                  "\"status\": \"skipped\"");
+  CHECK_THROWS_WITH(read_report_json(unknown, "r.json"),
+                    Catch::Matchers::Contains("status") && Catch::Matchers::Contains("skipped"));
 }

@@ -33,6 +33,30 @@ auto for_feature(const std::string& feature, Step&& step) -> decltype(step()) {
   }
 }
 
+/// The reason a bore is not evaluated, from the FitError of its fits or its evaluation: one
+/// line naming the bore. When the points cannot fix the axis direction (one probing level) and
+/// the plan lets it be fitted, the reason names the plan key that holds it at the nominal one.
+std::string not_evaluated_reason(const PlanBore& bore, const std::string& what) {
+  const std::string named = "bore " + bore.id + ":";
+  std::string reason = what.rfind(named, 0) == 0 ? what : named + " " + what;
+  for (char& c : reason)
+    if (c == '\n' || c == '\r') c = ' ';
+  if (bore.axis_direction != AxisDirection::fitted ||
+      reason.find("axis direction cannot be determined") == std::string::npos)
+    return reason;
+  // A derived median line has no single direction to hold (validate_plan refuses the key
+  // with it): the advice names the axis methods that take it.
+  if (bore.axis == BoreAxisMethod::median_line)
+    return reason + "; a derived median line needs sections at two levels or more: to evaluate "
+                    "its position on an axis held at the nominal direction, set axis = "
+                    "\"least-squares\" (or \"mating-envelope\") and axis_direction = "
+                    "\"nominal\" for bore " + bore.id +
+           " in the plan (perpendicularity is then not evaluated)";
+  return reason + "; to evaluate its position on an axis held at the nominal direction, set "
+                  "axis_direction = \"nominal\" for bore " + bore.id +
+         " in the plan (perpendicularity is then not evaluated)";
+}
+
 /// Bores sharing one datum reference (same datums, same boundaries) form one pattern that moves
 /// together when the reference leaves the frame mobile (simultaneous requirement).
 std::map<std::string, std::vector<std::size_t>> patterns_by_reference(const PartPlan& plan) {
@@ -52,6 +76,24 @@ void apply_mobility(const PartPlan& plan, const DatumFrameResult& frame,
     const FrameMobility mobility = mobility_of(plan.bores[members.front()].position->datums,
                                                frame, c ? c->basic_location : std::nullopt);
     if (!mobility.any()) continue;
+    // A simultaneous requirement needs every member: with one not evaluated, the shared motion
+    // cannot be found, and each evaluated member keeps its fixed-frame figures only.
+    std::string missing;
+    for (std::size_t i : members)
+      if (!bores[i].evaluated()) missing += (missing.empty() ? "" : ", ") + bores[i].id;
+    if (!missing.empty()) {
+      for (std::size_t i : members) {
+        BoreResult& bore = bores[i];
+        bore.mobility_reason = mobility.description();
+        bore.mobility_c_simulator = std::string(tertiary_simulator_name(mobility.c_simulator));
+        if (bore.evaluated())
+          bore.mobility_not_evaluated =
+              "the bores with reference " + reference +
+              " are one pattern (simultaneous requirement) and bore(s) " + missing +
+              " could not be evaluated: the pattern's datum mobility is not evaluated";
+      }
+      continue;
+    }
     std::vector<const BoreResult*> results;
     std::vector<const PlanBore*> plans;
     for (std::size_t i : members) {
@@ -154,17 +196,28 @@ PartEvaluation evaluate_part(const PartPlan& plan, const PartInputs& inputs,
   result.bores.resize(plan.bores.size());
   detail::parallel_for(plan.bores.size(), workers, [&](std::size_t i, std::size_t) {
     const PlanBore& bore = plan.bores[i];
-    result.bores[i] = for_feature("bore " + bore.id, [&] {
-      PointCloud in_frame;
-      in_frame.points = result.datums.frame.points_to_frame(inputs.bores[i].points);
-      if (inputs.bores[i].has_vectors())
-        in_frame.vectors = result.datums.frame.rotation * inputs.bores[i].vectors;
-      in_frame.source = inputs.bores[i].source;
-      in_frame.file_unit = inputs.bores[i].file_unit;
-      const PreparedFeature prepared =
-          prepare_feature(FeatureKind::bore, in_frame, bore_prepare_options(bore, per_bore));
-      return evaluate_bore(BoreInput{bore, prepared}, per_bore);
-    });
+    // A bore whose geometry cannot be evaluated (FitError) does not stop the others: it is
+    // reported as not evaluated. InputError (the plan is wrong) still stops the check.
+    try {
+      result.bores[i] = for_feature("bore " + bore.id, [&] {
+        PointCloud in_frame;
+        in_frame.points = result.datums.frame.points_to_frame(inputs.bores[i].points);
+        if (inputs.bores[i].has_vectors())
+          in_frame.vectors = result.datums.frame.rotation * inputs.bores[i].vectors;
+        in_frame.source = inputs.bores[i].source;
+        in_frame.file_unit = inputs.bores[i].file_unit;
+        const PreparedFeature prepared =
+            prepare_feature(FeatureKind::bore, in_frame, bore_prepare_options(bore, per_bore));
+        return evaluate_bore(BoreInput{bore, prepared}, per_bore);
+      });
+    } catch (const FitError& e) {
+      BoreResult skipped;
+      skipped.id = bore.id;
+      skipped.axis_method = bore.axis;
+      skipped.direction_held = bore.axis_direction == AxisDirection::nominal;
+      skipped.not_evaluated = not_evaluated_reason(bore, e.what());
+      result.bores[i] = std::move(skipped);
+    }
   });
   apply_mobility(plan, result.datums, result.bores, options.mobility);
   return result;
@@ -212,7 +265,10 @@ std::vector<BoreSensitivity> association_sensitivity(const PartPlan& plan,
       const Eigen::Matrix3d rotation = g.rotation * f.rotation.transpose();
       const Eigen::Vector3d translation = g.rotation * (f.origin - g.origin);
       for (std::size_t i = 0; i < plan.bores.size(); ++i)
-        moved.push_back(moved_to_frame(nominal.bores[i], plan.bores[i], rotation, translation));
+        moved.push_back(nominal.bores[i].evaluated()
+                            ? moved_to_frame(nominal.bores[i], plan.bores[i], rotation,
+                                             translation)
+                            : nominal.bores[i]);
       apply_mobility(plan, other, moved, options.mobility);
     }
   });
@@ -220,6 +276,7 @@ std::vector<BoreSensitivity> association_sensitivity(const PartPlan& plan,
     const PlaneAssociation method = methods[m];
     const std::vector<BoreResult>& moved = moved_by_method[m];
     for (std::size_t i = 0; i < plan.bores.size(); ++i) {
+      if (!moved[i].evaluated()) continue;  // skipped: see below
       AssociationSensitivity row;
       row.association = method;
       const std::vector<Characteristic> decided = bore_characteristics(moved[i], rule);
@@ -234,7 +291,11 @@ std::vector<BoreSensitivity> association_sensitivity(const PartPlan& plan,
       sensitivity[i].rows.push_back(row);
     }
   }
+  for (std::size_t i = 0; i < plan.bores.size(); ++i)
+    if (!nominal.bores[i].evaluated())
+      sensitivity[i].skipped = "not evaluated: no figures to compare";
   for (BoreSensitivity& s : sensitivity) {
+    if (s.rows.empty()) continue;
     auto spread = [&](double AssociationSensitivity::*field) {
       const auto [lo, hi] = std::minmax_element(
           s.rows.begin(), s.rows.end(),
@@ -265,8 +326,9 @@ PartCheckResult check_part(const PartPlan& plan, const CheckOptions& options) {
   result.warnings = std::move(evaluation.warnings);
 
   // Decide: every characteristic of every bore, by the one decision function.
-  for (const BoreResult& bore : result.bores)
-    for (Characteristic& c : bore_characteristics(bore, options.decision))
+  // A bore not evaluated gives its characteristics as not proven (bore_characteristics).
+  for (std::size_t i = 0; i < result.bores.size(); ++i)
+    for (Characteristic& c : bore_characteristics(result.bores[i], plan.bores[i], options.decision))
       result.characteristics.push_back(std::move(c));
   result.verdict = combine(result.characteristics);
   return result;

@@ -69,6 +69,8 @@ class Assessor {
     for (std::size_t k = 0; k < plan_.datums.size(); ++k)
       check_datum(plan_.datums[k], inputs.datums[k], frame);
     for (std::size_t i = 0; i < plan_.bores.size(); ++i) {
+      // A bore not evaluated has no fits to compare; its reason is already reported.
+      if (!evaluation.bores[i].evaluated()) continue;
       PointCloud in_frame;
       in_frame.points = frame.frame.points_to_frame(inputs.bores[i].points);
       if (inputs.bores[i].has_vectors())

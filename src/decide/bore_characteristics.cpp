@@ -2,6 +2,9 @@
 // function (decide/characteristic.hpp). The table, CSV and JSON reports print these.
 #include "cylzone/decide/bore_characteristics.hpp"
 
+#include <stdexcept>
+
+#include "cylzone/evaluate/material_condition.hpp"
 #include "detail/fit_support.hpp"
 
 namespace cylzone {
@@ -44,9 +47,22 @@ std::string tolerance_reference(const PlanTolerance& spec) {
 
 std::vector<Characteristic> bore_characteristics(const BoreResult& b, const DecisionRule& rule) {
   std::vector<Characteristic> out;
+  if (!b.evaluated())
+    throw std::invalid_argument("bore_characteristics: bore " + b.id +
+                                " was not evaluated; pass its plan to list its characteristics");
   if (b.position) {
     const std::string name = b.position->projected ? "position (projected zone)" : "position";
-    if (b.position_with_mobility) {
+    if (!b.mobility_not_evaluated.empty()) {
+      // The pattern's simultaneous requirement cannot be evaluated without every member: the
+      // fixed frame's figure is shown, the mobility row is not proven.
+      out.push_back(position_characteristic(b, *b.position, "position", name + ", frame fixed",
+                                            false));
+      Characteristic m = position_characteristic(b, *b.position, "position/mobility",
+                                                 name + ", datum mobility", true);
+      m.value = 0.0;
+      m.not_evaluated = b.mobility_not_evaluated;
+      out.push_back(std::move(m));
+    } else if (b.position_with_mobility) {
       out.push_back(position_characteristic(b, *b.position, "position", name + ", frame fixed",
                                             false));
       out.push_back(position_characteristic(b, *b.position_with_mobility, "position/mobility",
@@ -62,6 +78,12 @@ std::vector<Characteristic> bore_characteristics(const BoreResult& b, const Deci
       reference += " " + std::string(condition_name(p.spec.condition));
     out.push_back(make(b, "perpendicularity", "perpendicularity", reference, p.value,
                        p.spec.tolerance, p.bonus, p.allowed, Comparison::at_most));
+    // An axis held at the nominal direction is perpendicular to A by construction: its
+    // perpendicularity would restate the plan, not measure the part.
+    if (b.direction_held) {
+      out.back().value = 0.0;
+      out.back().not_evaluated = std::string(direction_held_reason);
+    }
   }
   if (b.size.limits) {
     const SizeLimits& l = *b.size.limits;
@@ -90,6 +112,66 @@ std::vector<Characteristic> bore_characteristics(const BoreResult& b, const Deci
                        v.clearance, v.boundary, 0.0, v.boundary,
                        v.condition == MaterialCondition::lmc ? Comparison::at_most
                                                              : Comparison::at_least));
+  }
+  for (Characteristic& c : out) {
+    c.verdict = decide(c, rule);
+    c.rule = rule.kind;
+  }
+  return out;
+}
+
+std::vector<Characteristic> bore_characteristics(const BoreResult& b, const PlanBore& plan,
+                                                 const DecisionRule& rule) {
+  if (b.evaluated()) return bore_characteristics(b, rule);
+  // Not evaluated: one row per characteristic the plan asks for, with the ids an evaluated
+  // bore would have (the two-point lower-limit row depends on the points and is left out),
+  // each not proven with the reason. Tolerances and limits come from the plan; no bonus is
+  // claimed.
+  std::vector<Characteristic> out;
+  const auto add = [&](std::string kind, std::string name, std::string reference,
+                       double tolerance, Comparison comparison, bool decisive = true) {
+    Characteristic c = make(b, std::move(kind), std::move(name), std::move(reference), 0.0,
+                            tolerance, 0.0, tolerance, comparison, decisive);
+    c.not_evaluated = b.not_evaluated;
+    out.push_back(std::move(c));
+  };
+  if (plan.position) {
+    const std::string name = plan.position->projected_height ? "position (projected zone)"
+                                                             : "position";
+    const std::string reference = tolerance_reference(*plan.position);
+    if (!b.mobility_reason.empty()) {
+      add("position", name + ", frame fixed", reference, plan.position->tolerance,
+          Comparison::at_most, false);
+      add("position/mobility", name + ", datum mobility", reference, plan.position->tolerance,
+          Comparison::at_most);
+    } else {
+      add("position", name, reference, plan.position->tolerance, Comparison::at_most);
+    }
+  }
+  if (plan.perpendicularity) {
+    std::string reference = "A";
+    if (plan.perpendicularity->condition != MaterialCondition::rfs)
+      reference += " " + std::string(condition_name(plan.perpendicularity->condition));
+    add("perpendicularity", "perpendicularity", reference, plan.perpendicularity->tolerance,
+        Comparison::at_most);
+  }
+  if (plan.size) {
+    add("size/lower", "size, mating envelope", "lower limit", plan.size->lower,
+        Comparison::at_least);
+    add("size/upper", "size, largest two-point", "upper limit", plan.size->upper,
+        Comparison::at_most);
+  }
+  if (plan.cylindricity)
+    add("cylindricity", "cylindricity", "", *plan.cylindricity, Comparison::at_most);
+  const auto modified = [](const std::optional<PlanTolerance>& t) {
+    return t && t->condition != MaterialCondition::rfs;
+  };
+  if (plan.size && (modified(plan.position) || modified(plan.perpendicularity))) {
+    const PlanTolerance& spec = modified(plan.position) ? *plan.position : *plan.perpendicularity;
+    add("virtual-condition", "virtual condition",
+        modified(plan.position) ? "on true position" : "perpendicular to A",
+        virtual_condition(spec.condition, FeatureKind::bore, *plan.size, spec.tolerance),
+        spec.condition == MaterialCondition::lmc ? Comparison::at_most : Comparison::at_least);
   }
   for (Characteristic& c : out) {
     c.verdict = decide(c, rule);

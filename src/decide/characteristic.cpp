@@ -19,6 +19,8 @@ std::string_view comparison_symbol(Comparison comparison) noexcept {
 std::string_view decision_rule_name(DecisionRuleKind) noexcept { return "simple acceptance"; }
 
 Verdict decide(const Characteristic& c, const DecisionRule& rule) {
+  // A figure that could not be evaluated proves nothing either way.
+  if (!c.not_evaluated.empty()) return Verdict::not_proven;
   // Simple acceptance: the value against the limit, rounding slack only.
   const bool inside = c.comparison == Comparison::at_most ? c.value <= c.allowed + rule.slack
                                                           : c.value >= c.allowed - rule.slack;

@@ -409,11 +409,15 @@ Eigen::Vector3d checked_bore(const PlanBore& bore, const Eigen::Matrix3Xd& point
   return nominal_direction(bore);
 }
 
-/// Free-axis fit options of a bore: started from and signed by its nominal direction `w`.
-FitOptions free_axis_options(const FitOptions& fit, const Eigen::Vector3d& w) {
+/// Fit options of a bore's associated cylinders: started from and signed by its nominal
+/// direction `w`; the direction free, or held at `w` when the plan says `axis_direction =
+/// "nominal"` (every cylinder fit and the sections then honour FitOptions::fixed_direction).
+FitOptions free_axis_options(const PlanBore& bore, const FitOptions& fit,
+                             const Eigen::Vector3d& w) {
   FitOptions free_axis = fit;
   free_axis.fixed_direction.reset();
   free_axis.axis_hint = w;
+  if (bore.axis_direction == AxisDirection::nominal) free_axis.fixed_direction = w;
   return free_axis;
 }
 
@@ -423,7 +427,7 @@ PrepareOptions bore_prepare_options(const PlanBore& bore, const BoreEvaluationOp
   PrepareOptions prepare;
   prepare.stray_screen = options.stray_screen;
   prepare.stray_points = options.stray_points;
-  prepare.fit = free_axis_options(options.fit, nominal_direction(bore));
+  prepare.fit = free_axis_options(bore, options.fit, nominal_direction(bore));
   return prepare;
 }
 
@@ -449,7 +453,8 @@ BoreResult evaluate_bore(const BoreInput& input, const BoreEvaluationOptions& op
   std::vector<std::string>& warnings = result.warnings;
 
   // ---- 1. Associated cylinders (fit_cylinder.hpp; docs/methods.md).
-  const FitOptions free_axis = free_axis_options(options.fit, w);
+  const FitOptions free_axis = free_axis_options(bore, options.fit, w);
+  result.direction_held = bore.axis_direction == AxisDirection::nominal;
   FitOptions related = free_axis;
   related.fixed_direction = w;
   for_bore(bore, [&] {

@@ -45,6 +45,17 @@ std::optional<BoreAxisMethod> parse_axis_method(std::string_view text) noexcept 
   return std::nullopt;
 }
 
+// ---- The direction of a bore's toleranced axis (plan key `axis_direction`).
+std::string_view axis_direction_name(AxisDirection direction) noexcept {
+  return direction == AxisDirection::nominal ? "nominal" : "fitted";
+}
+
+std::optional<AxisDirection> parse_axis_direction(std::string_view text) noexcept {
+  for (AxisDirection d : {AxisDirection::fitted, AxisDirection::nominal})
+    if (text == axis_direction_name(d)) return d;
+  return std::nullopt;
+}
+
 const PlanDatum* PartPlan::datum(char label) const noexcept {
   for (const PlanDatum& d : datums)
     if (d.label == label) return &d;

@@ -127,7 +127,8 @@ constexpr auto kDatumCPlaneKeys = keys("feature", "points", "outward_normal", "m
 constexpr auto kDatumCAnyKeys =
     keys("feature", "points", "basic", "size", "mmb", "outward_normal", "material_side");
 constexpr auto kBoreKeys = keys("id", "points", "basic", "direction", "depth", "size", "axis",
-                                "section_gap", "position", "perpendicularity", "cylindricity");
+                                "section_gap", "position", "perpendicularity", "cylindricity",
+                                "axis_direction");
 constexpr auto kSizeKeys = keys("lower", "upper");
 constexpr auto kDepthKeys = keys("top", "bottom");
 constexpr auto kPositionKeys = keys("tolerance", "modifier", "datums", "projected",
@@ -512,6 +513,10 @@ class PlanParser {
                             parse_axis_method);
     if (const toml::node* gap = table.get("section_gap"))
       bore.section_gap = read_length(*gap, path + ".section_gap", "the section gap (a number)");
+    // ---- axis_direction: fitted (default) or held at the nominal direction.
+    if (const toml::node* held = table.get("axis_direction"))
+      bore.axis_direction = read_word(*held, path + ".axis_direction", "axis direction",
+                                      "\"fitted\" or \"nominal\"", parse_axis_direction);
 
     if (const toml::node* position = table.get("position"))
       bore.position = read_tolerance(*position, path + ".position", ToleranceKind::position);

@@ -239,6 +239,16 @@ class PlanRules {
                                " (z in the frame, negative inside the material)");
     if (bore.size) check_size(*bore.size, at.at("size"));
     if (bore.section_gap) positive_length(*bore.section_gap, at.at("section_gap"), "the section gap");
+    // ---- axis_direction (docs/plan.md): a value the reader knows; a derived median line is
+    // made of section centres and has no single direction to hold.
+    if (bore.axis_direction != AxisDirection::fitted &&
+        bore.axis_direction != AxisDirection::nominal)
+      fail(at.at("axis_direction"), "unknown axis direction: expected \"fitted\" or \"nominal\"");
+    if (bore.axis_direction == AxisDirection::nominal && bore.axis == BoreAxisMethod::median_line)
+      fail(at.at("axis_direction"),
+           "axis_direction = \"nominal\" holds a straight axis's direction: not available with "
+           "axis = \"median-line\" (section centres); use \"mating-envelope\" or "
+           "\"least-squares\"");
 
     if (bore.position) check_tolerance(*bore.position, bore, at, "position");
     if (bore.position) check_tolerance_share(*bore.position, bore, at, "position");

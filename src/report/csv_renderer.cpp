@@ -29,7 +29,7 @@ std::string format_csv(const ReportModel& m) {
   const std::string caution = csv_field(safety_caution);
   std::ostringstream out;
   out << "part,bore,characteristic,reference,value,tolerance,bonus,allowed,comparison,verdict,"
-         "decisive,units,id,caution,part_id,serial,timestamp,notes,range_source\n";
+         "decisive,units,id,caution,part_id,serial,timestamp,notes,range_source,status,reason\n";
   // Identity columns, the same on every row: rows of many parts can be told apart.
   const std::string identity = csv_field(m.part.id) + ',' + csv_field(m.part.serial) + ',' +
                                csv_field(m.part.timestamp) + ',' +
@@ -37,11 +37,16 @@ std::string format_csv(const ReportModel& m) {
   for (const Characteristic& c : m.characteristics) {
     const std::optional<RangeSource> source = m.range_source(c);
     out << csv_field(m.plan_name) << ',' << csv_field(c.feature) << ',' << csv_field(c.name) << ','
-        << csv_field(c.reference) << ',' << u.text(c.value) << ',' << u.text(c.tolerance) << ','
+        << csv_field(c.reference) << ','
+        // A characteristic not evaluated has no value: the field stays empty, never a number.
+        << (c.not_evaluated.empty() ? u.text(c.value) : std::string()) << ','
+        << u.text(c.tolerance) << ','
         << u.text(c.bonus) << ',' << u.text(c.allowed) << ',' << comparison_symbol(c.comparison)
         << ',' << verdict_name(c.verdict) << ',' << (c.decisive ? "yes" : "no") << ','
         << u.name() << ',' << csv_field(c.id) << ',' << caution << ',' << identity << ','
-        << (source ? range_source_name(*source) : "") << '\n';
+        << (source ? range_source_name(*source) : "") << ','
+        << (c.not_evaluated.empty() ? "evaluated" : "not evaluated") << ','
+        << csv_field(c.not_evaluated) << '\n';
   }
   return out.str();
 }

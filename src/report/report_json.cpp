@@ -154,11 +154,14 @@ json part_json(const PartIdentity& p) {
 }
 
 json characteristic_json(const Characteristic& c, const ReportUnits& u) {
+  const bool evaluated = c.not_evaluated.empty();
   return {{"id", c.id},
           {"feature", c.feature},
           {"name", c.name},
           {"reference", c.reference},
-          {"value", u.length(c.value)},
+          {"value", evaluated ? json(u.length(c.value)) : json(nullptr)},
+          {"status", evaluated ? "evaluated" : "not evaluated"},
+          {"reason", text_or_null(c.not_evaluated)},
           {"tolerance", u.length(c.tolerance)},
           {"bonus", u.length(c.bonus)},
           {"allowed", u.length(c.allowed)},
@@ -175,6 +178,20 @@ json bore_json(const BoreResult& b, const BoreSummary& s, const BoreSensitivity*
   j["id"] = b.id;
   j["verdict"] = std::string(verdict_name(s.verdict));
   j["axis_method"] = s.axis_method;
+  j["status"] = s.evaluated() ? "evaluated" : "not evaluated";
+  j["reason"] = text_or_null(s.not_evaluated);
+  j["axis_direction"] = s.axis_direction;
+  if (!s.evaluated()) {
+    // Nothing was measured: no figures, only why (docs/report-schema.md).
+    for (const char* key : {"axis", "probed", "depth_source", "tilt", "size", "form", "position",
+                            "position_with_mobility", "perpendicularity", "virtual_condition",
+                            "fits", "depth_profile", "stray_points"})
+      j[key] = nullptr;
+    j["sensitivity"] = json::array();
+    j["sensitivity_skipped"] = text_or_null(sens ? sens->skipped : std::string());
+    j["warnings"] = s.warnings;
+    return j;
+  }
   j["axis"] = {{"point", point(b.axis.point, u)}, {"direction", direction(b.axis.direction)}};
   j["probed"] = {{"top", u.length(s.probed_top)}, {"bottom", u.length(s.probed_bottom)}};
   j["depth_source"] = range_source_name(s.depth_source);
@@ -206,6 +223,11 @@ json bore_json(const BoreResult& b, const BoreSummary& s, const BoreSensitivity*
     p["reason"] = in_report_unit(b.mobility_reason, u);
     p["datum_c_simulator"] = b.mobility_c_simulator;
     j["position_with_mobility"] = p;
+  } else if (!b.mobility_not_evaluated.empty()) {
+    // The pattern could not be evaluated as a whole: the reason instead of the figures.
+    j["position_with_mobility"] = {{"status", "not evaluated"},
+                                   {"reason", in_report_unit(b.mobility_not_evaluated, u)},
+                                   {"verdict", verdict_of(m, b.id + "/position/mobility")}};
   } else {
     j["position_with_mobility"] = nullptr;
   }
@@ -442,6 +464,17 @@ std::string format_json(const PartCheckResult& result) {
   return format_json(make_report_model(result));
 }
 
+/// Whether a characteristic or bore says it was not evaluated: its `status` (absent in reports
+/// written before the key existed: evaluated).
+bool not_evaluated(const ReportReader& in, const json& object, const std::string& path) {
+  if (!object.contains("status")) return false;
+  const std::string status = in.text(object, path, "status");
+  if (status != "evaluated" && status != "not evaluated")
+    in.fail(path + ".status", "unknown status " + quoted_for_message(status) +
+                                  " (expected \"evaluated\" or \"not evaluated\")");
+  return status == "not evaluated";
+}
+
 ReportModel read_report_json(std::string_view bytes, const std::string& source) {
   json j;
   try {
@@ -544,7 +577,15 @@ ReportModel read_report_json(std::string_view bytes, const std::string& source) 
                                 "' (expected '" + c.feature + "/<kind>')");
     c.name = in.text(o, path, "name");
     c.reference = in.text(o, path, "reference");
-    c.value = mm(o, path, "value");
+    // A characteristic not evaluated has a reason and no value (written before status existed:
+    // evaluated).
+    if (not_evaluated(in, o, path)) {
+      c.not_evaluated = in.text(o, path, "reason");
+      if (c.not_evaluated.empty())
+        in.fail(path + ".reason", "a characteristic not evaluated needs its reason");
+    } else {
+      c.value = mm(o, path, "value");
+    }
     c.tolerance = mm(o, path, "tolerance");
     c.bonus = mm(o, path, "bonus");
     c.allowed = mm(o, path, "allowed");
@@ -571,6 +612,21 @@ ReportModel read_report_json(std::string_view bytes, const std::string& source) 
     b.id = in.text(o, path, "id");
     b.verdict = in.verdict(o, path, "verdict");
     b.axis_method = in.text(o, path, "axis_method");
+    if (o.contains("axis_direction")) {  // absent in reports written before the key existed
+      b.axis_direction = in.text(o, path, "axis_direction");
+      if (!parse_axis_direction(b.axis_direction))
+        in.fail(path + ".axis_direction", "unknown axis direction " +
+                                              quoted_for_message(b.axis_direction) +
+                                              " (expected \"fitted\" or \"nominal\")");
+    }
+    if (not_evaluated(in, o, path)) {
+      b.not_evaluated = in.text(o, path, "reason");
+      if (b.not_evaluated.empty())
+        in.fail(path + ".reason", "a bore not evaluated needs its reason");
+      b.warnings = in.texts(o, path, "warnings");
+      m.bores.push_back(std::move(b));
+      continue;
+    }
     const json& probed = in.key(o, path, "probed");
     b.probed_top = mm(probed, path + ".probed", "top");
     b.probed_bottom = mm(probed, path + ".probed", "bottom");

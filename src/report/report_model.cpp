@@ -157,7 +157,7 @@ const BoreSummary* ReportModel::bore(std::string_view id) const noexcept {
 
 std::optional<RangeSource> ReportModel::range_source(const Characteristic& c) const noexcept {
   const BoreSummary* b = bore(c.feature);
-  if (!b) return std::nullopt;
+  if (!b || !b->evaluated()) return std::nullopt;
   if (b->depth && (c.id == b->id + "/position" || c.id == b->id + "/position/mobility"))
     return b->depth->range_source;
   return b->depth_source;
@@ -221,11 +221,16 @@ ReportModel make_report_model(const PartCheckResult& r, const ReportModelOptions
   }
 
   m.characteristics = report_characteristics(r);
+  for (Characteristic& c : m.characteristics)
+    c.not_evaluated = in_report_unit(c.not_evaluated, m.units);
   for (const BoreResult& b : r.bores) {
     BoreSummary s;
     s.id = b.id;
     s.verdict = combine(m.of_feature(b.id));
     s.axis_method = std::string(axis_method_name(b.axis_method));
+    s.not_evaluated = in_report_unit(b.not_evaluated, m.units);
+    s.axis_direction = std::string(axis_direction_name(
+        b.direction_held ? AxisDirection::nominal : AxisDirection::fitted));
     s.probed_top = b.probed_top;
     s.probed_bottom = b.probed_bottom;
     s.depth_source = b.depth_source;

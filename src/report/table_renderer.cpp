@@ -148,6 +148,13 @@ std::string identity_line(const PartIdentity& p) {
   return line;
 }
 
+/// The texts joined by ", " (lists of bore ids in notes).
+std::string joined(const std::vector<std::string>& texts) {
+  std::string out;
+  for (const std::string& t : texts) out += (out.empty() ? "" : ", ") + t;
+  return out;
+}
+
 /// One sensitivity column: an association (or two giving identical figures) and its cells.
 struct SensitivityColumn {
   std::string header;
@@ -184,10 +191,31 @@ std::string format_table(const ReportModel& m, const TableOptions& options) {
       << pad_left("allowed", w) << "   verdict\n";
   std::string previous;
   bool footnote = false;
+  // A bore's rows not evaluated show no value; their reasons follow the bore's rows, once each.
+  std::vector<std::string> reasons;
+  const auto flush_reasons = [&] {
+    for (const std::string& reason : reasons)
+      out << wrapped("  " + previous + " not evaluated: ", reason, options.width, 4);
+    reasons.clear();
+  };
   for (const Characteristic& c : m.characteristics) {
-    if (!previous.empty() && c.feature != previous) out << '\n';
+    if (!previous.empty() && c.feature != previous) {
+      flush_reasons();
+      out << '\n';
+    }
     previous = c.feature;
     std::string verdict(verdict_name(c.verdict));
+    if (!c.not_evaluated.empty()) {
+      if (std::find(reasons.begin(), reasons.end(), c.not_evaluated) == reasons.end())
+        reasons.push_back(c.not_evaluated);
+      out << pad(shorten(c.feature, feature_cap), feature_w) << pad(c.name, name_w)
+          << pad(shorten(c.reference, reference_cap), reference_w) << pad_left(sym.none, w)
+          << ' ' << comparison_symbol(c.comparison) << ' ' << pad_left(u.text(c.tolerance), w)
+          << pad_left(u.text(c.bonus), w) << pad_left(u.text(c.allowed), w) << "   "
+          << (c.decisive ? "not evaluated" : "(not evaluated)*") << '\n';
+      footnote = footnote || !c.decisive;
+      continue;
+    }
     if (!c.decisive) {
       verdict = "(" + verdict + ")*";
       footnote = true;
@@ -200,6 +228,7 @@ std::string format_table(const ReportModel& m, const TableOptions& options) {
         << pad_left(u.text(c.bonus), w) << pad_left(u.text(c.allowed), w) << "   " << verdict
         << '\n';
   }
+  flush_reasons();
   if (footnote)
     out << "\n* shown for comparison: the datum reference lets the frame move, and the "
            "'datum mobility' row decides.\n";
@@ -236,7 +265,13 @@ std::string format_table(const ReportModel& m, const TableOptions& options) {
   out << pad("bore", bore_w) << pad("range from", source_w) << pad_left("probed z", 17)
       << pad_left("tilt " + sym.microradian, 12) << pad_left("toward", 10) << '\n';
   std::vector<std::string> unknown_depth;
+  std::vector<std::string> held;
   for (const BoreSummary& b : m.bores) {
+    if (!b.evaluated()) {
+      out << pad(shorten(b.id, feature_cap), bore_w) << "not evaluated\n";
+      continue;
+    }
+    if (b.axis_direction == "nominal") held.push_back(b.id);
     const RangeSource source = b.depth ? b.depth->range_source : b.depth_source;
     if (b.depth_source != RangeSource::plan_depth) unknown_depth.push_back(b.id);
     out << pad(shorten(b.id, feature_cap), bore_w) << pad(range_source_name(source), source_w)
@@ -247,25 +282,33 @@ std::string format_table(const ReportModel& m, const TableOptions& options) {
         << pad_left(ReportUnits::fixed(b.tilt_azimuth_deg, 0) + sym.degree, 10) << '\n';
   }
   if (!unknown_depth.empty()) {
-    std::string ids;
-    for (const std::string& id : unknown_depth) ids += (ids.empty() ? "" : ", ") + id;
     out << wrapped("note: ",
-                   "no full depth in the plan for " + ids +
+                   "no full depth in the plan for " + joined(unknown_depth) +
                        ": the zone was checked over the probed extent only, and the bore's full "
                        "depth is unknown to cylzone. Give `depth` in the plan to check the full "
                        "depth.",
                    options.width, 6);
   }
+  if (!held.empty()) {
+    out << wrapped("note: ",
+                   "axis direction held at the nominal direction for " + joined(held) +
+                       " (axis_direction = \"nominal\"): position is evaluated on that axis, "
+                       "its tilt is zero by construction and perpendicularity is not evaluated.",
+                   options.width, 6);
+  }
 
-  if (!m.sensitivity.empty() && !m.sensitivity.front().rows.empty()) {
+  // The study's columns come from the first bore it has rows for (a bore not evaluated has none).
+  const auto studied = std::find_if(m.sensitivity.begin(), m.sensitivity.end(),
+                                    [](const BoreSensitivity& s) { return !s.rows.empty(); });
+  if (studied != m.sensitivity.end()) {
     // Columns of cells; an association whose cells equal an earlier column's for every bore
     // (tangent minimax and minimum zone of A give the same orientation) joins that column.
     std::vector<SensitivityColumn> table;
     bool any_change = false;
-    const std::size_t associations = m.sensitivity.front().rows.size();
+    const std::size_t associations = studied->rows.size();
     for (std::size_t k = 0; k < associations; ++k) {
       SensitivityColumn column;
-      column.header = association_name(m.sensitivity.front().rows[k].association);
+      column.header = association_name(studied->rows[k].association);
       for (const BoreSensitivity& s : m.sensitivity) {
         if (k >= s.rows.size()) {
           column.cells.push_back(sym.none);
@@ -294,7 +337,13 @@ std::string format_table(const ReportModel& m, const TableOptions& options) {
       if (!merged) table.push_back(std::move(column));
     }
     SensitivityColumn spread{"spread", {}};
+    std::vector<std::string> skipped;
     for (const BoreSensitivity& s : m.sensitivity) {
+      if (s.rows.empty()) {
+        spread.cells.push_back(sym.none + " ");
+        if (!s.skipped.empty()) skipped.push_back(s.bore_id + " (" + s.skipped + ")");
+        continue;
+      }
       const bool has_perpendicularity = m.find(s.bore_id + "/perpendicularity") != nullptr;
       spread.cells.push_back(u.text(s.position_spread) + " / " +
                              (has_perpendicularity ? u.text(s.perpendicularity_spread) : sym.none) +
@@ -319,6 +368,7 @@ std::string format_table(const ReportModel& m, const TableOptions& options) {
         out << pad_left(table[k].cells[row], widths[k]);
       out << '\n';
     }
+    if (!skipped.empty()) out << wrapped("Skipped: ", joined(skipped), options.width, 9);
     if (any_change)
       out << "A verdict that changes with the association of A is decided by the datum method, "
              "not the part:\nagree the method with the customer before comparing results.\n";
@@ -343,6 +393,13 @@ std::string format_table(const ReportModel& m, const TableOptions& options) {
   if (m.verdict == Verdict::does_not_conform)
     verdict = "DOES NOT CONFORM (" + std::to_string(failing) + " of " +
               std::to_string(m.bores.size()) + " bores)";
+  std::size_t unevaluated = 0;
+  for (const Characteristic& c : m.characteristics)
+    unevaluated += c.decisive && !c.not_evaluated.empty();
+  if (m.verdict == Verdict::not_proven && unevaluated > 0)
+    verdict = "NOT PROVEN (" + std::to_string(unevaluated) + " of " +
+              std::to_string(m.characteristics.size()) +
+              " characteristics could not be evaluated; see the reasons above)";
   else if (m.verdict == Verdict::not_proven)
     verdict = "NOT PROVEN (conformance not proven within the measurement uncertainty)";
   out << "\nPart verdict: " << verdict << "\n\n"

@@ -56,10 +56,17 @@ struct PartEvaluation {
 };
 
 /// Evaluates the part. `inputs` must hold one cloud per plan datum and per plan bore, in plan
-/// order (as load_part_inputs gives them; they may also be built in memory). Throws
-/// InputError when the plan has no datum A plane, FitError (with the feature named) for
-/// geometry that cannot be evaluated, and std::invalid_argument when the clouds do not match
-/// the plan.
+/// order (as load_part_inputs gives them; they may also be built in memory).
+///
+/// A bore whose geometry cannot be evaluated (a FitError from its preparation, fits or
+/// evaluation: one probing level, too few points, no point within the depth range, ...) does
+/// not stop the others: its BoreResult has `not_evaluated` set to the reason (one line naming
+/// the bore and what to fix) and nothing else, every other bore is evaluated exactly as without
+/// it, and a pattern it belongs to has no shared datum mobility
+/// (BoreResult::mobility_not_evaluated). Throws InputError when the plan has no datum A plane
+/// or a rule of the plan fails during evaluation, FitError (with the datum named) when a datum
+/// feature cannot be evaluated (every bore's zone is located in the frame all datums build, so
+/// nothing could be evaluated), and std::invalid_argument when the clouds do not match the plan.
 PartEvaluation evaluate_part(const PartPlan& plan, const PartInputs& inputs,
                              const EvaluationOptions& options = {});
 
@@ -78,13 +85,16 @@ struct BoreSensitivity {
   std::vector<AssociationSensitivity> rows;  ///< one per association, the plan's first
   double position_spread = 0.0;        ///< max - min over the rows
   double perpendicularity_spread = 0.0;
+  /// Why the study skipped the bore (no rows): it was not evaluated. Empty otherwise.
+  std::string skipped;
 };
 
 /// The datum-association sensitivity study, on top of an evaluation: the frame is built again
 /// with every other association of A and each bore of `nominal` is moved into it (its fits are
 /// invariant under rigid motions, so none is refitted), then the datum mobility is applied
 /// again. One entry per bore, plan order; the plan's own association is the first row; each
-/// row's verdicts are decided under `rule` (decide stage). No IO.
+/// row's verdicts are decided under `rule` (decide stage). A bore that was not evaluated has no
+/// rows and BoreSensitivity::skipped says why. No IO.
 std::vector<BoreSensitivity> association_sensitivity(const PartPlan& plan,
                                                      const PartInputs& inputs,
                                                      const PartEvaluation& nominal,

@@ -40,9 +40,12 @@ struct PartCheckResult {
 };
 
 /// Runs the whole check: load_part_inputs, evaluate_part, check_plausibility (plausibility.hpp),
-/// association_sensitivity (when options.sensitivity), then the decision. Throws InputError for
-/// unreadable inputs and for a plan and data that cannot describe the same part (plan file,
-/// line, key), and FitError (with the feature named) for geometry that cannot be evaluated.
+/// association_sensitivity (when options.sensitivity), then the decision. A bore that cannot be
+/// evaluated is reported with every characteristic its plan asks for not proven (evaluate_part,
+/// bore_characteristics), so the part's verdict is then not_proven unless something is proven
+/// not to conform. Throws InputError for unreadable inputs, a wrong plan, and a plan and data
+/// that cannot describe the same part (plan file, line, key); FitError (with the datum named)
+/// when a datum feature cannot be evaluated.
 PartCheckResult check_part(const PartPlan& plan, const CheckOptions& options = {});
 
 }  // namespace cylzone

@@ -30,10 +30,29 @@
 
 namespace cylzone {
 
-/// Every characteristic of `bore` in the order above (those its plan does not tolerance are
-/// left out), each decided under `rule`.
+/// Every characteristic of an evaluated `bore` in the order above (those its plan does not
+/// tolerance are left out), each decided under `rule`. A bore whose direction was held at the
+/// nominal one (BoreResult::direction_held) has its perpendicularity not evaluated
+/// (direction_held_reason); a bore whose pattern could not be evaluated as a whole
+/// (BoreResult::mobility_not_evaluated) has its "position/mobility" row not evaluated and its
+/// fixed-frame position shown for comparison. Throws std::invalid_argument for a bore that was
+/// not evaluated: use the overload with its plan.
 std::vector<Characteristic> bore_characteristics(const BoreResult& bore,
                                                  const DecisionRule& rule = {});
+
+/// The same for any bore, evaluated or not. A bore that was not evaluated
+/// (BoreResult::not_evaluated) gets one row per characteristic its plan asks for, with the ids
+/// an evaluated bore has ("<bore>/position", "<bore>/position/mobility" when its reference lets
+/// the frame move, "<bore>/perpendicularity", "<bore>/size/lower", "<bore>/size/upper",
+/// "<bore>/cylindricity", "<bore>/virtual-condition"), each not proven with the bore's reason
+/// in Characteristic::not_evaluated; tolerances and limits from the plan, no bonus.
+std::vector<Characteristic> bore_characteristics(const BoreResult& bore, const PlanBore& plan,
+                                                 const DecisionRule& rule = {});
+
+/// The reason a perpendicularity is not evaluated when the axis direction is held.
+inline constexpr std::string_view direction_held_reason =
+    "direction held at nominal (axis_direction = \"nominal\"): the axis is perpendicular by "
+    "construction, so perpendicularity is not measured";
 
 /// The characteristic with this id, or nullptr.
 const Characteristic* find_characteristic(const std::vector<Characteristic>& characteristics,

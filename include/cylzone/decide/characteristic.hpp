@@ -66,11 +66,15 @@ struct Characteristic {
   /// figure shown for comparison only (position in the fixed frame when the datum reference
   /// lets the frame move: the moved frame's position decides).
   bool decisive = true;
+  /// Empty when the value was evaluated. Otherwise why it could not be (one printable line,
+  /// e.g. "bore P3: the points lie in one cross-section ..." or "direction held at nominal"):
+  /// `value` is then meaningless and decide() gives not_proven.
+  std::string not_evaluated;
   Verdict verdict = Verdict::conforms;  ///< set by decide()
   DecisionRuleKind rule = DecisionRuleKind::simple_acceptance;  ///< the rule that set it
 };
 
-/// The verdict of one characteristic under `rule`.
+/// The verdict of one characteristic under `rule`; not_proven when it was not evaluated.
 Verdict decide(const Characteristic& characteristic, const DecisionRule& rule = {});
 
 /// The decision of a feature or a part from its characteristics' verdicts (already decided):

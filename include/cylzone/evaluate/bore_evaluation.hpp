@@ -166,6 +166,22 @@ struct BoreResult {
   /// (tertiary_simulator_name).
   std::string mobility_c_simulator;
   std::vector<std::string> warnings;
+
+  // ---- Evaluation status (docs/evaluation.md, "A bore that cannot be evaluated").
+  /// Empty when the bore was evaluated. Otherwise why its geometry could not be evaluated: one
+  /// printable line naming the bore and what to fix (check stage, evaluate_part); only `id`
+  /// and `axis_method` are then meaningful, and the decide stage reports every characteristic
+  /// the plan asks for as not proven.
+  std::string not_evaluated;
+  /// The axis direction was held at the nominal direction (plan `axis_direction = "nominal"`):
+  /// position is evaluated on that axis, perpendicularity is not evaluated.
+  bool direction_held = false;
+  /// Why the position after datum mobility cannot be evaluated: another bore of the pattern
+  /// (simultaneous requirement) was not evaluated. `position_with_mobility` is then empty and
+  /// `position` (frame fixed) is shown for comparison.
+  std::string mobility_not_evaluated;
+
+  bool evaluated() const noexcept { return not_evaluated.empty(); }
 };
 
 struct BoreEvaluationOptions {

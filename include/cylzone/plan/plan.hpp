@@ -51,6 +51,20 @@ std::optional<PlaneAssociation> parse_association(std::string_view text) noexcep
 std::string_view axis_method_name(BoreAxisMethod method) noexcept;
 std::optional<BoreAxisMethod> parse_axis_method(std::string_view text) noexcept;
 
+// ---- The direction of a bore's toleranced axis (plan key `axis_direction`).
+/// How the direction of a bore's associated cylinders is found.
+enum class AxisDirection {
+  fitted,  ///< free: fitted to the points (default)
+  /// Held at the plan's nominal direction (`direction`, in the datum frame): only the axis's
+  /// location and the size are fitted. For a bore probed at one level, whose direction the
+  /// points cannot determine. Perpendicularity is then not evaluated (it would only restate the
+  /// nominal direction), and position is evaluated on that axis.
+  nominal
+};
+/// "fitted", "nominal".
+std::string_view axis_direction_name(AxisDirection direction) noexcept;
+std::optional<AxisDirection> parse_axis_direction(std::string_view text) noexcept;
+
 /// Where something was written in the plan, for messages.
 struct PlanLocation {
   std::size_t line = 0;
@@ -133,6 +147,8 @@ struct PlanBore {
   /// (BoreEvaluationOptions::section_gap). Empty: the evaluation's option. A parsed plan holds
   /// the bore's own `section_gap`, else the plan-wide one.
   std::optional<double> section_gap;
+  /// Plan key `axis_direction`: the axis direction fitted (default) or held at the nominal one.
+  AxisDirection axis_direction = AxisDirection::fitted;
   PlanLocation where;
 };
 

@@ -109,6 +109,13 @@ struct BoreSummary {
   /// C's simulator (BoreResult::mobility_reason); empty when the frame stayed fixed.
   std::string mobility;
   std::vector<std::string> warnings;
+  // ---- Evaluation status (BoreResult::not_evaluated, direction_held).
+  /// Empty when the bore was evaluated; else why not (then only `id`, `verdict` and
+  /// `axis_method` are meaningful).
+  std::string not_evaluated;
+  /// "fitted" or "nominal" (plan key axis_direction): the axis direction held at the nominal one.
+  std::string axis_direction = "fitted";
+  bool evaluated() const noexcept { return not_evaluated.empty(); }
 };
 
 /// Which part the report is about, so rows from many parts can be told apart (CSV columns,
