@@ -501,7 +501,7 @@ PointCloud width_feature(Shape& shape, bool slot, double width, double from) {
 }
 
 /// How a family's datums are referenced and what datum C is.
-enum class DatumC { none, bore, slot, tab };
+enum class DatumC { none, bore, slot, tab, plane };
 
 struct FamilySpec {
   std::string name;
@@ -528,6 +528,9 @@ std::string plan_text(const FamilySpec& f) {
     case DatumC::slot:
       t << "[datum.C]\nfeature = \"slot\"\npoints = \"c.csv\"\nbasic = [90.0, 0.0]\n"
         << "size = { lower = 6.000, upper = 6.030 }\n\n";
+      break;
+    case DatumC::plane:
+      t << "[datum.C]\nfeature = \"plane\"\npoints = \"c.csv\"\noutward_normal = [1.0, 0.0]\n\n";
       break;
     case DatumC::tab:
       t << "[datum.C]\nfeature = \"tab\"\npoints = \"c.csv\"\nbasic = [90.0, 0.0]\n"
@@ -573,6 +576,17 @@ Family generated_family(const FamilySpec& spec, bool vectors) {
     f.inputs.datums.push_back(width_feature(shape, true, 6.012, 84.0));
   if (spec.c == DatumC::tab)
     f.inputs.datums.push_back(width_feature(shape, false, 5.985, 84.0));
+  if (spec.c == DatumC::plane) {
+    // The block's side face x = 150, leaning 0.2 mrad, with 1 um of waviness; outward +x.
+    PointCloud side;
+    for (double y = -50.0; y <= 70.0; y += 10.0)
+      for (double z = -4.0; z >= -28.0; z -= 6.0)
+        append(side,
+               Eigen::Vector3d(150.0 + 2e-4 * y + 1e-3 * std::sin(y / 17.0 + z) + shape.noise(),
+                               y, z),
+               Eigen::Vector3d::UnitX());
+    f.inputs.datums.push_back(side);
+  }
   // P1 on position at the mouth, leaning 0.4 mrad; P2 off by 12 um and leaning the other way;
   // P3 off by 20 um and leaning 0.6 mrad, so that some tolerances are exceeded.
   f.inputs.bores.push_back(bore(shape, {30.003, 39.996}, {0.0004, 0.0001}, 10.006, 40.0, 7, 0.002));
@@ -681,6 +695,14 @@ TEST_CASE("invariance: position to A|B(M)|C, C a slot", "[invariance][family]") 
 
 TEST_CASE("invariance: position to A|B(M)|C(M), C a tab", "[invariance][family]") {
   check_spec({"A|B(M)|C(M) tab", DatumC::tab, true, "A|B(M)|C(M)", ""}, {}, false);
+}
+
+TEST_CASE("invariance: position to A|B|C, C a plane", "[invariance][family]") {
+  check_spec({"A|B|C plane", DatumC::plane, true, "A|B|C", ""}, {}, false);
+}
+
+TEST_CASE("invariance: position to A|B|C(T), C a bore", "[invariance][family]") {
+  check_spec({"A|B|C(T)", DatumC::bore, true, "A|B|C(T)", ""}, {}, false);
 }
 
 TEST_CASE("invariance: position to A|B(M)|C(T), C a bore", "[invariance][family]") {
