@@ -56,7 +56,6 @@
 #include "cylzone/check/evaluate_part.hpp"
 #include "cylzone/check/part_check.hpp"
 #include "cylzone/check/part_inputs.hpp"
-#include "cylzone/decide/bore_characteristics.hpp"
 #include "cylzone/plan/plan.hpp"
 #include "cylzone/report/report.hpp"
 #include "cylzone/report/report_model.hpp"
@@ -111,24 +110,12 @@ void move_part(const Motion& m, PartPlan& plan, PartInputs& inputs) {
 
 // --------------------------------------------------------------------------- the check
 
-/// check_part on inputs held in memory: its stages composed as part_check.cpp composes them
-/// (evaluate_part, association_sensitivity, the decide step), rendered to JSON.
+/// check_part on inputs held in memory (the sensitivity study and the decide step included),
+/// rendered to JSON.
 json checked_report(const PartPlan& plan, const PartInputs& inputs) {
   CheckOptions options;
   options.evaluation.threads = 2;
-  PartCheckResult result;
-  result.plan = plan;
-  result.inputs = inputs.records;
-  PartEvaluation evaluation = evaluate_part(plan, inputs, options.evaluation);
-  result.sensitivity =
-      association_sensitivity(plan, inputs, evaluation, options.evaluation, options.decision);
-  result.datums = std::move(evaluation.datums);
-  result.bores = std::move(evaluation.bores);
-  result.warnings = std::move(evaluation.warnings);
-  for (const BoreResult& bore : result.bores)
-    for (Characteristic& c : bore_characteristics(bore, options.decision))
-      result.characteristics.push_back(std::move(c));
-  result.verdict = combine(result.characteristics);
+  const PartCheckResult result = check_part(plan, inputs, options);
   return json::parse(format_json(make_report_model(result)));
 }
 

@@ -263,10 +263,13 @@ std::vector<BoreSensitivity> association_sensitivity(const PartPlan& plan,
 
 PartCheckResult check_part(const PartPlan& plan, const CheckOptions& options) {
   require_datum_a(plan);
+  return check_part(plan, load_part_inputs(plan), options);
+}
 
+PartCheckResult check_part(const PartPlan& plan, const PartInputs& inputs,
+                           const CheckOptions& options) {
   PartCheckResult result;
   result.plan = plan;
-  const PartInputs inputs = load_part_inputs(plan);
   result.inputs = inputs.records;
   PartEvaluation evaluation = evaluate_part(plan, inputs, options.evaluation);
   if (options.sensitivity)
