@@ -451,15 +451,17 @@ PointCloud face_a(Shape& shape, const std::vector<Hole>& holes) {
 }
 
 /// A bore: axis through (x0, y0, 0) leaning `lean` (x and y per mm of depth), three lobes of
-/// `lobes` mm, rings from 1 mm to `depth` - 1 mm deep. Vectors point out of the material (into
+/// `lobes` mm, bent by `bend` mm at mid-depth, rings from 1 mm to `depth` - 1 mm deep. Vectors point out of the material (into
 /// the hole).
 PointCloud bore(Shape& shape, const Eigen::Vector2d& at, const Eigen::Vector2d& lean,
-                double diameter, double depth, int levels, double lobes) {
+                double diameter, double depth, int levels, double lobes, double bend = 0.0) {
   PointCloud c;
   const int per_level = 24;
   for (int l = 0; l < levels; ++l) {
     const double z = -1.0 - (depth - 2.0) * l / (levels - 1);
-    const Eigen::Vector2d centre = at - lean * z;
+    // A bend in the xz plane: the axis sags by `bend` at mid-depth (a parabola in depth).
+    const double t = -z / depth;
+    const Eigen::Vector2d centre = at - lean * z + Eigen::Vector2d(4.0 * bend * t * (1.0 - t), 0.0);
     const double start = 0.37 * l, phase = 0.9 * l;
     for (int k = 0; k < per_level; ++k) {
       const double t = start + 2.0 * pi * k / per_level;
@@ -496,6 +498,8 @@ struct FamilySpec {
   bool with_b = true;
   std::string reference;      ///< the position tolerances' datum section, e.g. "A|B(M)|C"
   std::string b_extra;        ///< extra keys of datum B, e.g. "mmb = 19.990"
+  /// P2 bent by 4 um in one plane and P3 toleranced on its derived median line.
+  bool bent = false;
 };
 
 std::string plan_text(const FamilySpec& f) {
@@ -535,6 +539,7 @@ std::string plan_text(const FamilySpec& f) {
     << "position = { tolerance = 0.040, modifier = \"MMC\", datums = \"" << r << "\" }\n"
     << "perpendicularity = { tolerance = 0.020, modifier = \"MMC\" }\ncylindricity = 0.008\n\n"
     << "[[bore]]\nid = \"P3\"\npoints = \"p3.csv\"\nbasic = [100.0, -30.0]\n"
+    << (f.bent ? "axis = \"median-line\"\n" : "")
     << "depth = { top = 0.0, bottom = -36.0 }\nsize = { lower = 12.000, upper = 12.018 }\n"
     << "position = { tolerance = 0.030, modifier = \"LMC\", datums = \"" << r << "\" }\n"
     << "perpendicularity = { tolerance = 0.015 }\n";
@@ -577,7 +582,8 @@ Family generated_family(const FamilySpec& spec, bool vectors) {
   // P1 on position at the mouth, leaning 0.4 mrad; P2 off by 12 um and leaning the other way;
   // P3 off by 20 um and leaning 0.6 mrad, so that some tolerances are exceeded.
   f.inputs.bores.push_back(bore(shape, {30.003, 39.996}, {0.0004, 0.0001}, 10.006, 40.0, 7, 0.002));
-  f.inputs.bores.push_back(bore(shape, {70.012, 50.002}, {-0.0002, 0.0003}, 10.009, 40.0, 7, 0.003));
+  f.inputs.bores.push_back(bore(shape, {70.012, 50.002}, {-0.0002, 0.0003}, 10.009, 40.0, 7, 0.003,
+                                spec.bent ? 0.004 : 0.0));
   f.inputs.bores.push_back(bore(shape, {99.984, -30.012}, {0.0006, -0.0002}, 12.010, 36.0, 6, 0.002));
   if (!vectors) {
     for (PointCloud& c : f.inputs.datums) c.vectors.resize(3, 0);
@@ -682,6 +688,13 @@ TEST_CASE("invariance: position to A|B(M)|C, C a slot", "[invariance][family]") 
 
 TEST_CASE("invariance: position to A|B(M)|C(M), C a tab", "[invariance][family]") {
   check_spec({"A|B(M)|C(M) tab", DatumC::tab, true, "A|B(M)|C(M)", ""}, {}, false);
+}
+
+TEST_CASE("invariance: position to A|B|C, a bent bore and a derived median line",
+          "[invariance][family]") {
+  FamilySpec spec{"A|B|C bent", DatumC::bore, true, "A|B|C", ""};
+  spec.bent = true;
+  check_spec(spec, {}, false);
 }
 
 TEST_CASE("invariance: position to A|B|C, C a plane", "[invariance][family]") {
