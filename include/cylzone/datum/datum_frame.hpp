@@ -121,7 +121,7 @@ struct ClockingWidthResult {
   StrayPointReport stray_points;
 };
 
-/// A point of a toleranced feature that may settle what the datums leave free (FrameAnchor use:
+/// A point of a toleranced feature that settles what the datums leave free (see
 /// DatumFrameOptions::anchors).
 struct FrameAnchor {
   std::string name;         ///< for the frame's note, e.g. "bore P1"
