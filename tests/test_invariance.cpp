@@ -498,7 +498,8 @@ struct FamilySpec {
   bool with_b = true;
   std::string reference;      ///< the position tolerances' datum section, e.g. "A|B(M)|C"
   std::string b_extra;        ///< extra keys of datum B, e.g. "mmb = 19.990"
-  /// P2 bent by 4 um in one plane and P3 toleranced on its derived median line.
+  /// P2 bent by 4 um in one plane and P3 toleranced on its derived median line; stray points
+  /// on face A and in P2 (a chip, a spike) for the screen.
   bool bent = false;
 };
 
@@ -585,6 +586,16 @@ Family generated_family(const FamilySpec& spec, bool vectors) {
   f.inputs.bores.push_back(bore(shape, {70.012, 50.002}, {-0.0002, 0.0003}, 10.009, 40.0, 7, 0.003,
                                 spec.bent ? 0.004 : 0.0));
   f.inputs.bores.push_back(bore(shape, {99.984, -30.012}, {0.0006, -0.0002}, 12.010, 36.0, 6, 0.002));
+  if (spec.bent) {
+    // Stray points: a chip 25 um proud of face A and two 30 um spikes into P2 (prepare stage).
+    PointCloud& a = f.inputs.datums.front();
+    a.points(2, 7) += 0.025;
+    PointCloud& p2 = f.inputs.bores[1];
+    for (Eigen::Index k : {30, 100}) {
+      const Eigen::Vector3d radial(p2.points(0, k) - 70.0, p2.points(1, k) - 50.0, 0.0);
+      p2.points.col(k) -= 0.030 * radial.normalized();
+    }
+  }
   if (!vectors) {
     for (PointCloud& c : f.inputs.datums) c.vectors.resize(3, 0);
     for (PointCloud& c : f.inputs.bores) c.vectors.resize(3, 0);
