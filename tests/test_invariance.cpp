@@ -505,13 +505,16 @@ struct FamilySpec {
   /// P2 bent by 4 um in one plane and P3 toleranced on its derived median line; stray points
   /// on face A and in P2 (a chip, a spike) for the screen.
   bool bent = false;
+  /// The plan gives no material side for A: it is inferred from the bores' points.
+  bool infer_side = false;
 };
 
 std::string plan_text(const FamilySpec& f) {
   std::ostringstream t;
   t << "format = \"cylzone-plan-1\"\nname = \"invariance family " << f.name
     << " (invented test part)\"\nunits = \"mm\"\n\n"
-    << "[datum.A]\nfeature = \"plane\"\npoints = \"a.csv\"\nmaterial_side = [0.0, 0.0, -1.0]\n\n";
+    << "[datum.A]\nfeature = \"plane\"\npoints = \"a.csv\"\n"
+    << (f.infer_side ? "" : "material_side = [0.0, 0.0, -1.0]\n") << "\n";
   if (f.with_b)
     t << "[datum.B]\nfeature = \"bore\"\npoints = \"b.csv\"\n"
       << "size = { lower = 20.000, upper = 20.021 }\n" << f.b_extra << "\n\n";
@@ -685,8 +688,10 @@ TEST_CASE("invariance, known defect: the datum mobility's motion without datum B
   check_spec({"A", DatumC::none, false, "A", ""}, mobility_argmin_without_b(), true);
 }
 
-TEST_CASE("invariance: position to A|B", "[invariance][family]") {
-  check_spec({"A|B", DatumC::none, true, "A|B", ""}, {}, false);
+TEST_CASE("invariance: position to A|B, A's material side inferred", "[invariance][family]") {
+  FamilySpec spec{"A|B", DatumC::none, true, "A|B", ""};
+  spec.infer_side = true;  // and A's material side inferred
+  check_spec(spec, {}, false);
 }
 
 TEST_CASE("invariance: position to A|B(M)", "[invariance][family]") {
