@@ -507,6 +507,8 @@ struct FamilySpec {
   bool bent = false;
   /// The plan gives no material side for A: it is inferred from the bores' points.
   bool infer_side = false;
+  /// Datum B a pin (a boss standing on A) instead of a bore.
+  bool b_pin = false;
 };
 
 std::string plan_text(const FamilySpec& f) {
@@ -516,8 +518,10 @@ std::string plan_text(const FamilySpec& f) {
     << "[datum.A]\nfeature = \"plane\"\npoints = \"a.csv\"\n"
     << (f.infer_side ? "" : "material_side = [0.0, 0.0, -1.0]\n") << "\n";
   if (f.with_b)
-    t << "[datum.B]\nfeature = \"bore\"\npoints = \"b.csv\"\n"
-      << "size = { lower = 20.000, upper = 20.021 }\n" << f.b_extra << "\n\n";
+    t << "[datum.B]\nfeature = \"" << (f.b_pin ? "pin" : "bore") << "\"\npoints = \"b.csv\"\n"
+      << (f.b_pin ? "size = { lower = 19.980, upper = 20.000 }\n"
+                  : "size = { lower = 20.000, upper = 20.021 }\n")
+      << f.b_extra << "\n\n";
   switch (f.c) {
     case DatumC::none: break;
     case DatumC::bore:
@@ -566,9 +570,16 @@ Family generated_family(const FamilySpec& spec, bool vectors) {
   if (spec.c == DatumC::slot || spec.c == DatumC::tab)
     for (double x = 84.0; x <= 96.0; x += 3.0) holes.push_back({{x, 0.0}, 3.0});
   f.inputs.datums.push_back(face_a(shape, holes));
-  if (spec.with_b)
+  if (spec.with_b && !spec.b_pin)
     f.inputs.datums.push_back(
         bore(shape, {0.0, 0.0}, {0.0002, -0.0001}, 20.012, 25.0, 5, 0.0015));
+  if (spec.with_b && spec.b_pin) {
+    // A boss 19.992 standing 25 mm on A: a bore's rings mirrored above A, vectors outward.
+    PointCloud pin = bore(shape, {0.0, 0.0}, {0.0002, -0.0001}, 19.992, 25.0, 5, 0.0015);
+    pin.points.row(2) *= -1.0;
+    pin.vectors *= -1.0;
+    f.inputs.datums.push_back(pin);
+  }
   if (spec.c == DatumC::bore)
     f.inputs.datums.push_back(
         bore(shape, {120.004, 0.003}, {-0.0003, 0.0002}, 8.006, 16.0, 4, 0.001));
@@ -714,6 +725,12 @@ TEST_CASE("invariance: position to A|B|C, a bent bore and a derived median line"
           "[invariance][family]") {
   FamilySpec spec{"A|B|C bent", DatumC::bore, true, "A|B|C", ""};
   spec.bent = true;
+  check_spec(spec, {}, false);
+}
+
+TEST_CASE("invariance: position to A|B(M)|C, B a pin", "[invariance][family]") {
+  FamilySpec spec{"A|B(M)|C pin", DatumC::bore, true, "A|B(M)|C", ""};
+  spec.b_pin = true;
   check_spec(spec, {}, false);
 }
 
