@@ -324,6 +324,52 @@ TEST_CASE("frame without B: origin is the measurement origin projected onto A",
   CHECK(!r.b);
 }
 
+TEST_CASE("free freedoms anchored on the part: the frame is the inverse of its placement",
+          "[datum][frame]") {
+  // Anchors at their basic locations in part coordinates (at some depth below A): a frame in
+  // which each anchor's projection onto A has its basic coordinates is the part's own frame,
+  // whatever the placement (ASME Y14.5-2018 section 4: the part's requirements do not depend
+  // on how it is held; common practice).
+  const Motion motion = generic_motion();
+  const auto anchor = [&](const char* name, double x, double y, double depth) {
+    return FrameAnchor{name, motion.apply(Eigen::Vector3d(x, y, depth)), Eigen::Vector2d(x, y)};
+  };
+  DatumFrameOptions options;
+  options.anchors = {anchor("bore Q0", 0.0, 0.0, -9.0), anchor("bore Q1", 30.0, -25.0, -20.0),
+                     anchor("bore Q2", -40.0, 15.0, -7.0)};
+  SECTION("with B: the first anchor away from B's axis clocks x") {
+    const std::vector<PlanDatum> datums = {plane_datum('A'), size_datum('B', FeatureKind::bore)};
+    const std::vector<PointCloud> clouds = {
+        cloud(motion.apply(face_a_points()), "A.csv"),
+        cloud(motion.apply(lobed_feature(0.0, 0.0, 10.0, -40.0, -3.0, 0.004)), "B.csv")};
+    const DatumFrameResult r = establish_datum_frame(
+        test::paired(datums, clouds), motion.direction(-Eigen::Vector3d::UnitZ()), options);
+    check_frame_is_inverse(r.frame, motion, 1e-9);
+    CHECK(!r.rotation_fixed);
+    CHECK(r.notes.back().find("bore Q1") != std::string::npos);
+  }
+  SECTION("without B: two anchors with distinct basic locations place the origin too") {
+    const std::vector<PlanDatum> datums = {plane_datum('A')};
+    const std::vector<PointCloud> clouds = {cloud(motion.apply(face_a_points()), "A.csv")};
+    const DatumFrameResult r = establish_datum_frame(
+        test::paired(datums, clouds), motion.direction(-Eigen::Vector3d::UnitZ()), options);
+    check_frame_is_inverse(r.frame, motion, 1e-9);
+    CHECK(!r.translation_fixed);
+    CHECK(r.notes.back().find("bore Q0") != std::string::npos);
+    for (const std::string& note : r.notes) CHECK(note.find("measurement origin") == std::string::npos);
+  }
+  SECTION("one anchor without B cannot place the frame: the measurement axes, as the note says") {
+    options.anchors.resize(1);
+    const std::vector<PlanDatum> datums = {plane_datum('A')};
+    const std::vector<PointCloud> clouds = {cloud(motion.apply(face_a_points()), "A.csv")};
+    const DatumFrameResult r = establish_datum_frame(
+        test::paired(datums, clouds), motion.direction(-Eigen::Vector3d::UnitZ()), options);
+    const Eigen::Vector3d z = motion.direction(Eigen::Vector3d::UnitZ());
+    CHECK((r.frame.origin - motion.translation.dot(z) * z).norm() <= 1e-9);
+    CHECK(r.notes.back().find("measurement x") != std::string::npos);
+  }
+}
+
 TEST_CASE("datum A by every association", "[datum][frame]") {
   const Motion motion = generic_motion();
   const Eigen::Matrix3Xd a = motion.apply(face_a_points());

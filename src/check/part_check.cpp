@@ -16,6 +16,7 @@
 #include "cylzone/core/errors.hpp"
 #include "cylzone/fit/fit_plane.hpp"
 #include "cylzone/prepare/prepare.hpp"
+#include "detail/fit_support.hpp"
 #include "detail/parallel.hpp"
 
 namespace cylzone {
@@ -145,6 +146,18 @@ DatumFrameOptions frame_options(const BoreEvaluationOptions& stage) {
   return frame;
 }
 
+/// The bores with a position tolerance, as anchors for what the datum reference leaves free
+/// (DatumFrameOptions::anchors): the centroid of each one's points, in plan order. Read from
+/// the part, so the frame's free freedoms move with it and not with the machine.
+std::vector<FrameAnchor> frame_anchors(const PartPlan& plan, const PartInputs& inputs) {
+  std::vector<FrameAnchor> anchors;
+  for (std::size_t i = 0; i < plan.bores.size(); ++i)
+    if (plan.bores[i].position && inputs.bores[i].points.cols() > 0)
+      anchors.push_back({"bore " + plan.bores[i].id, detail::centroid(inputs.bores[i].points),
+                         plan.bores[i].basic_location});
+  return anchors;
+}
+
 std::vector<DatumInput> datum_inputs(const PartPlan& plan, const PartInputs& inputs) {
   std::vector<DatumInput> datums;
   for (std::size_t k = 0; k < plan.datums.size(); ++k)
@@ -182,8 +195,9 @@ PartEvaluation evaluate_part(const PartPlan& plan, const PartInputs& inputs,
     inferred = true;
   }
 
-  result.datums = establish_datum_frame(datum_inputs(plan, inputs), result.material_side,
-                                        frame_options(stage));
+  DatumFrameOptions frame = frame_options(stage);
+  frame.anchors = frame_anchors(plan, inputs);
+  result.datums = establish_datum_frame(datum_inputs(plan, inputs), result.material_side, frame);
   result.datums.a.material_side_inferred = inferred;
   if (inferred)
     result.warnings.push_back("material side of datum A inferred from the bores' points");
@@ -249,6 +263,7 @@ std::vector<BoreSensitivity> association_sensitivity(const PartPlan& plan,
   DatumFrameOptions alternative =
       frame_options(stage_options(options, std::max<std::size_t>(1, threads / workers)));
   alternative.stray_screen = false;
+  alternative.anchors = frame_anchors(plan, inputs);
   std::vector<std::vector<BoreResult>> moved_by_method(methods.size());
   detail::parallel_for(methods.size(), workers, [&](std::size_t m, std::size_t) {
     std::vector<BoreResult>& moved = moved_by_method[m];
@@ -310,10 +325,13 @@ std::vector<BoreSensitivity> association_sensitivity(const PartPlan& plan,
 
 PartCheckResult check_part(const PartPlan& plan, const CheckOptions& options) {
   require_datum_a(plan);
+  return check_part(plan, load_part_inputs(plan), options);
+}
 
+PartCheckResult check_part(const PartPlan& plan, const PartInputs& inputs,
+                           const CheckOptions& options) {
   PartCheckResult result;
   result.plan = plan;
-  const PartInputs inputs = load_part_inputs(plan);
   result.inputs = inputs.records;
   PartEvaluation evaluation = evaluate_part(plan, inputs, options.evaluation);
   // Plan and data must describe the same part: refuse what would be meaningless, warn the rest.

@@ -210,6 +210,55 @@ Eigen::Vector3d in_plane_unit(const Eigen::Vector3d& v, const Eigen::Vector3d& z
   return (v - v.dot(z) * z).normalized();
 }
 
+/// The frame's x axis and origin where the datums leave them free, from the part's anchors.
+struct AnchoredFreedoms {
+  Eigen::Vector3d x;
+  Eigen::Vector3d origin;
+  std::string note;
+};
+
+/// See DatumFrameOptions::anchors. `origin` is B's axis on A when `translation_fixed`. Anchors
+/// closer than 1e-6 of the part's size to the origin (or to each other), or with a basic
+/// location as close to zero (or to each other's), cannot tell a direction and are passed over.
+std::optional<AnchoredFreedoms> anchored_freedoms(const std::vector<FrameAnchor>& anchors,
+                                                  const PlaneFit& a, const Eigen::Vector3d& z,
+                                                  const Eigen::Vector3d& origin,
+                                                  bool translation_fixed) {
+  std::vector<Eigen::Vector3d> on_a;
+  double size = 0.0;
+  for (const FrameAnchor& anchor : anchors) {
+    on_a.push_back(anchor.point - (anchor.point - a.point).dot(z) * z);
+    size = std::max({size, anchor.basic.norm(), (on_a.back() - a.point).norm()});
+  }
+  const double small = 1e-6 * std::max(size, 1.0);
+  const auto apart = [&](const Eigen::Vector3d& p, const Eigen::Vector3d& q) {
+    return (p - q).norm() > small;
+  };
+  for (std::size_t i = 0; i < anchors.size(); ++i) {
+    if (translation_fixed) {
+      if (anchors[i].basic.norm() <= small || !apart(on_a[i], origin)) continue;
+      return AnchoredFreedoms{
+          clocked_x(in_plane_unit(on_a[i] - origin, z), anchors[i].basic, z), origin,
+          "no datum C: rotation about A's normal is not constrained; the frame is turned so "
+          "that the centroid of " + anchors[i].name +
+              "'s points lies in the direction of its basic location"};
+    }
+    for (std::size_t j = i + 1; j < anchors.size(); ++j) {
+      const Eigen::Vector2d basic = anchors[j].basic - anchors[i].basic;
+      if (basic.norm() <= small || !apart(on_a[j], on_a[i])) continue;
+      const Eigen::Vector3d x = clocked_x(in_plane_unit(on_a[j] - on_a[i], z), basic, z);
+      const Eigen::Vector3d y = z.cross(x);
+      return AnchoredFreedoms{
+          x, on_a[i] - anchors[i].basic.x() * x - anchors[i].basic.y() * y,
+          "no datum B or C: translation in A and rotation about A's normal are not "
+          "constrained; the frame is placed so that the centroid of " + anchors[i].name +
+              "'s points is at its basic location and that of " + anchors[j].name +
+              "'s in the direction of theirs"};
+    }
+  }
+  return std::nullopt;
+}
+
 // How far a plane with unit normal `normal` leans from perpendicular to A (normal z), degrees:
 // 0 for a plane containing z, 90 for a plane parallel to A. The normal's sign is arbitrary.
 double lean_from_perpendicular_deg(const Eigen::Vector3d& normal, const Eigen::Vector3d& z) {
@@ -554,7 +603,10 @@ DatumFrameResult establish_datum_frame(const std::vector<DatumInput>& datums,
     });
     origin = result.b->axis_on_a;
     result.translation_fixed = true;
-  } else {
+  }
+  std::optional<std::size_t> no_b_note;  // replaced when anchors place the origin
+  if (datums.size() < 2) {
+    no_b_note = result.notes.size();
     result.notes.push_back("no datum B: the origin is the measurement origin projected onto " +
                            label_text(a_datum.label) + "; translation in A is not constrained");
   }
@@ -628,6 +680,16 @@ DatumFrameResult establish_datum_frame(const std::vector<DatumInput>& datums,
           "its basic location from B, its distance from B is not used");
     }
     result.rotation_fixed = true;
+  } else if (const std::optional<AnchoredFreedoms> anchored =
+                 anchored_freedoms(options.anchors, result.a.plane, z, origin,
+                                   result.translation_fixed)) {
+    // The freedoms the datums leave are settled by the part's own features, so that nothing
+    // reported in the frame depends on the part's placement on the machine (DatumFrameOptions::
+    // anchors); the datum mobility still explores them.
+    x = anchored->x;
+    origin = anchored->origin;
+    if (no_b_note) result.notes.erase(result.notes.begin() + static_cast<std::ptrdiff_t>(*no_b_note));
+    result.notes.push_back(anchored->note);
   } else {
     const Eigen::Vector3d measurement_x = Eigen::Vector3d::UnitX();
     const bool use_y = std::abs(measurement_x.dot(z)) > nearly_parallel_cosine;

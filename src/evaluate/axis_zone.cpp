@@ -112,7 +112,7 @@ double position_over_range(const StraightAxis& axis, double h1, double h2) {
 
 AxisDeviation worst_end(const StraightAxis& axis, double h1, double h2) {
   const AxisDeviation a = axis.at(h1), b = axis.at(h2);
-  return b.radial() > a.radial() ? b : a;
+  return b.radial() > a.radial() + worst_tie_margin ? b : a;
 }
 
 double perpendicularity_over_range(const StraightAxis& axis, double h1, double h2) {

@@ -101,9 +101,11 @@ PositionResult evaluate_position(const PlanTolerance& spec, double top, double b
     r.value = position_of_points(c);
     r.top = c.front();
     r.bottom = c.back();
-    r.worst = *std::max_element(c.begin(), c.end(), [](const AxisDeviation& a,
-                                                       const AxisDeviation& b) {
-      return a.radial() < b.radial();
+    // The topmost centre within worst_tie_margin of the largest deviation (axis_zone.hpp).
+    double largest = 0.0;
+    for (const AxisDeviation& d : c) largest = std::max(largest, d.radial());
+    r.worst = *std::find_if(c.begin(), c.end(), [&](const AxisDeviation& d) {
+      return d.radial() >= largest - worst_tie_margin;
     });
     // The median line is known at the section centres; between two of them it is taken as the
     // straight segment joining them, so the height where it leaves is interpolated.

@@ -48,4 +48,10 @@ struct PartCheckResult {
 /// when a datum feature cannot be evaluated.
 PartCheckResult check_part(const PartPlan& plan, const CheckOptions& options = {});
 
+/// The same on inputs already loaded or built in memory (part_inputs.hpp): evaluate_part,
+/// association_sensitivity (when options.sensitivity), then the decision; no file is read.
+/// Throws as evaluate_part does.
+PartCheckResult check_part(const PartPlan& plan, const PartInputs& inputs,
+                           const CheckOptions& options = {});
+
 }  // namespace cylzone

@@ -121,9 +121,28 @@ struct ClockingWidthResult {
   StrayPointReport stray_points;
 };
 
+/// A point of a toleranced feature that settles what the datums leave free (see
+/// DatumFrameOptions::anchors).
+struct FrameAnchor {
+  std::string name;         ///< for the frame's note, e.g. "bore P1"
+  Eigen::Vector3d point;    ///< measurement coordinates, e.g. the centroid of the bore's points
+  Eigen::Vector2d basic;    ///< the feature's basic location (x, y) in the frame
+};
+
 struct DatumFrameOptions {
   /// Overrides datum A's association (used for the sensitivity study).
   std::optional<PlaneAssociation> a_association;
+  /// What fixes the freedoms the datum reference leaves free (no B: translation in A; no C:
+  /// rotation about A's normal). The standards leave them to the evaluation (the datum
+  /// mobility), but every figure reported in the frame (deviations, axis points, the frame-fixed
+  /// position, the mobility's motion) needs a start that moves with the part, not with the
+  /// measuring machine, or it would depend on how the part sat on the table. With B and no C,
+  /// the first anchor away from B's axis and from the origin turns x so that its projection
+  /// onto A lies in the direction of its basic location; without B, the first two anchors with
+  /// distinct basic locations fix both the rotation and the origin (the first anchor's
+  /// projection at its basic location). Empty, or too few: the measurement x axis and origin
+  /// projected onto A, as the frame's note says.
+  std::vector<FrameAnchor> anchors;
   FitOptions fit;  ///< its `threads` is the thread option of the frame's fits and screens
   /// The prepare stage of each datum feature (prepare.hpp): the stray-point screen, on or off.
   bool stray_screen = true;

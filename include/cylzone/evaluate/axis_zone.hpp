@@ -63,7 +63,14 @@ struct StraightAxis {
 
 /// 2 x the larger radial deviation at the two ends of [h1, h2].
 double position_over_range(const StraightAxis& axis, double h1, double h2);
-/// The end of [h1, h2] with the larger radial deviation.
+/// Radial deviations (mm) closer than this are a tie for "the worst" height: the end (or
+/// section) nearer the top is named. Where a best fit of the frame (the datum mobility) makes
+/// both ends equal, rounding alone would otherwise pick one, differently for every placement of
+/// the part on the machine; 1e-9 mm is far above that rounding and far below any reported digit.
+inline constexpr double worst_tie_margin = 1e-9;
+
+/// The end of [h1, h2] with the larger radial deviation: h1 unless h2's is larger by more than
+/// worst_tie_margin.
 AxisDeviation worst_end(const StraightAxis& axis, double h1, double h2);
 /// |h2 - h1| x |slope|: the smallest zone perpendicular to A containing the axis over the range.
 double perpendicularity_over_range(const StraightAxis& axis, double h1, double h2);
