@@ -294,8 +294,12 @@ class Assessor {
       const double extra = beyond(top, bottom);
       const double overlap =
           std::min(top, result.probed_top) - std::max(bottom, result.probed_bottom);
+      // With the direction held at nominal (axis_direction = "nominal") no tilt is
+      // extrapolated: the plan states the axis is parallel to its nominal direction, so the
+      // range beyond the band is a warning that the verdict rests on that statement.
       if (!(overlap > 0.0) || extra > options_.depth_error_factor * probed)
-        add(FindingSeverity::error, feature, at.at("depth"),
+        add(result.direction_held ? FindingSeverity::warning : FindingSeverity::error, feature,
+            at.at("depth"),
             "the depth range " + band(top, bottom) + " (heights from A) " +
                 (overlap > 0.0 ? "extends " + length(extra) + " beyond the probed band " +
                                      band(result.probed_top, result.probed_bottom) +
@@ -304,8 +308,11 @@ class Assessor {
                                      " times its length " + length(probed)
                                : "does not meet the probed band " +
                                      band(result.probed_top, result.probed_bottom)) +
-                ": the axis would be judged where it was not measured; probe the bore over its "
-                "depth or correct it");
+                (result.direction_held
+                     ? std::string(": the axis is taken parallel to its nominal direction there, "
+                                   "as the plan's axis_direction says")
+                     : std::string(": the axis would be judged where it was not measured; probe "
+                                   "the bore over its depth or correct it")));
     }
     if (result.position && result.position->projected) {
       const PositionResult& p = *result.position;
