@@ -5,10 +5,12 @@
 
 #include <algorithm>
 #include <cmath>
+#include <cstdint>
 #include <limits>
 #include <stdexcept>
 #include <string>
 
+#include "cylzone/prepare/neighbour_index.hpp"
 #include "detail/fit_support.hpp"
 #include "prepare/detail/robust_scale.hpp"
 
@@ -139,9 +141,40 @@ OutlierResult reject_outliers(const PointCloud& cloud, const ElementResiduals& r
       ++stage.iterations;
       stage.robust_scale = spread.scale;
       const double limit = std::max(options.residual_threshold * spread.scale, options.residual_floor);
+      // Candidates: beyond the limit, with the side they lie on.
+      std::vector<int> side(static_cast<std::size_t>(r.size()), 0);
+      bool any = false;
+      for (Eigen::Index k = 0; k < r.size(); ++k) {
+        const double d = r(k) - spread.centre;
+        if (std::abs(d) > limit) {
+          side[static_cast<std::size_t>(k)] = d > 0.0 ? 1 : -1;
+          any = true;
+        }
+      }
+      if (!any) break;
+      // Form guard: a candidate must also stand out from its nearest neighbours by half the
+      // limit; one that its neighbours follow is an excursion of the surface (a bell-mouth, a
+      // groove), not an outlier, and is kept.
+      const std::size_t k_near = options.neighbours.neighbours;
+      const NeighbourIndex index(kept.cloud.points);
+      NeighbourIndex::Query query(k_near);
       std::vector<std::size_t> drop;
-      for (Eigen::Index k = 0; k < r.size(); ++k)
-        if (std::abs(r(k) - spread.centre) > limit) drop.push_back(static_cast<std::size_t>(k));
+      std::vector<double> local;
+      std::size_t form = 0;
+      for (std::size_t k = 0; k < side.size(); ++k) {
+        if (side[k] == 0) continue;
+        local.clear();
+        for (std::uint32_t j : query.of_point(index, k)) local.push_back(r(static_cast<Eigen::Index>(j)));
+        const double excess =
+            local.empty() ? r(static_cast<Eigen::Index>(k)) - spread.centre
+                          : r(static_cast<Eigen::Index>(k)) - detail::median_in_place(local);
+        if (std::abs(excess) <= 0.5 * limit) {
+          ++form;
+          continue;
+        }
+        drop.push_back(k);
+      }
+      stage.kept_as_form = form;
       if (drop.empty()) break;
       if (2 * (stage.removed.size() + drop.size()) > stage.examined) {
         record.warnings.push_back("residual rejection stopped: removing " +

@@ -409,6 +409,7 @@ json outlier_stage_json(const OutlierStageRecord& s, const ReportUnits& u) {
           {"examined", s.examined},
           {"iterations", s.iterations},
           {"robust_scale", u.length(s.robust_scale)},
+          {"kept_as_form", s.kept_as_form},
           {"removed_count", s.removed.size()},
           {"removed", removed}};
 }

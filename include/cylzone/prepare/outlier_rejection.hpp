@@ -17,12 +17,19 @@
 /// practice), every point with |r - m| > max(c s, floor) is removed (Hampel's identifier:
 /// Hampel, J. Amer. Statist. Assoc. 69 (1974) 383-393, from memory), the element refitted and
 /// the test repeated until no point is removed, at most `max_iterations` times. Removal is
-/// cumulative (a removed point is not readmitted). It never removes more than half of the
-/// points (the MAD's breakdown point): it stops and warns instead.
+/// cumulative (a removed point is not readmitted). Form guard: a point beyond the limit is
+/// removed only when it also stands out from its k nearest spatial neighbours (NeighbourIndex,
+/// k as in stage 1): |r - median of the neighbours' r| > limit / 2. A shared excursion is form
+/// (a bell-mouth, a groove, a step), which residual rejection must not remove: without the
+/// guard a 5 um bell-mouth on a bore with 0.5 um probing noise loses its mouth and its
+/// cylindricity is understated (the demo's bore P6). A spike or a double hit is alone among
+/// its neighbours and is removed. It never removes more than half of the points (the MAD's
+/// breakdown point): it stops and warns instead.
 ///
 /// False rejection. For normally distributed residuals |r - m| > c sigma has probability
 /// 2 (1 - Phi(c)): 5.7e-7 per point at the default c = 5 (common practice: normal tables), so a
-/// clean cloud of 10 000 points loses a point with probability below 0.6 % per pass. A
+/// clean cloud of 10 000 points loses a point with probability below 0.6 % per pass (the form
+/// guard's second condition only lowers it). A
 /// sinusoidal form error of amplitude A (lobing) has s = 1.4826 x 0.707 A = 1.05 A, so c = 5
 /// never removes form: |r| <= A < 5.2 A.
 ///
@@ -69,6 +76,9 @@ struct OutlierStageRecord {
   std::size_t examined = 0;   ///< points the stage started from (0: not run)
   int iterations = 0;         ///< passes (stage 1: 1)
   double robust_scale = 0.0;  ///< the last pass's MAD scale, mm
+  /// Stage 2, last pass: points beyond the limit kept by the form guard (their neighbours
+  /// follow them).
+  std::size_t kept_as_form = 0;
   std::vector<RemovedPoint> removed;  ///< in removal order, then data order
   std::string skipped;        ///< why an enabled stage did not run (empty when it ran)
 };
