@@ -154,7 +154,7 @@ CompensatedPoints compensate_probe_tip(FeatureKind kind, const PointCloud& ball_
     const Eigen::Index minority = outward >= inward ? first_inward : first_outward;
     throw InputError(file, line_of(ball_centres, minority),
                      "the point vectors' sense is ambiguous: " + std::to_string(outward) +
-                         " point out of the material and " + std::to_string(inward) +
+                         " out of the material and " + std::to_string(inward) +
                          " into it (e.g. " + point_name(ball_centres, minority) +
                          "); compensation needs one sense for the whole file");
   }
