@@ -116,7 +116,8 @@ class PlanRules {
   void check_feature_probe(const ProbeOverrides& own, const PlanLocation& where,
                            const std::string& feature, std::optional<double> smallest_hole) const {
     if (own.tip_diameter)
-      positive_length(*own.tip_diameter, where.at("probe.tip_diameter"), "the tip diameter");
+      positive_length(*own.tip_diameter, where.at("probe.tip_diameter"),
+                      "the tip diameter of " + feature);
     const ProbeSettings probe = resolved_probe(plan_.probe, own);
     if (!probe.ball_centres) return;
     const PlanLocation at = own.ball_centres ? where.at("probe.points")
