@@ -115,7 +115,7 @@ std::vector<DatumInput> datum_inputs(const PartPlan& plan, const std::vector<Poi
 /// and starts B's and C's axes (held perpendicular to A in the frame).
 std::vector<PointCloud> prepared_datums(const PartPlan& plan, const PartInputs& inputs,
                                         const Eigen::Vector3d& into_material,
-                                        const FitOptions& fit,
+                                        const BoreEvaluationOptions& stage,
                                         std::vector<FeaturePreparation>& records,
                                         std::vector<std::string>& warnings) {
   std::vector<PointCloud> clouds = inputs.datums;
@@ -127,8 +127,9 @@ std::vector<PointCloud> prepared_datums(const PartPlan& plan, const PartInputs& 
     if (!changes_points(settings)) continue;
     PrepareOptions options;
     options.stray_screen = false;  // the frame screens the points it is built from
-    options.fit = fit;
+    options.fit = stage.fit;
     options.fit.axis_hint = into_material;
+    options.stray_points = stage.stray_points;  // the threads bound, the filter's criterion
     if (d.label == 'A')
       options.outward = -into_material;
     else if (d.material_side)
@@ -173,7 +174,7 @@ PartEvaluation evaluate_part(const PartPlan& plan, const PartInputs& inputs,
   }
 
   result.datum_clouds =
-      prepared_datums(plan, inputs, result.material_side, stage.fit, result.preparation,
+      prepared_datums(plan, inputs, result.material_side, stage, result.preparation,
                       result.warnings);
   result.datums = establish_datum_frame(datum_inputs(plan, result.datum_clouds),
                                         result.material_side, frame_options(stage));

@@ -83,7 +83,9 @@ PreparedFeature prepare_feature(FeatureKind kind, const PointCloud& cloud,
   }
 
   // ---- 2. Outlier stages.
-  const OutlierOptions& outliers = options.outliers;
+  // The neighbour filter applies the screen's own criterion and thread bound.
+  OutlierOptions outliers = options.outliers;
+  outliers.neighbours = options.stray_points;
   if (outliers.neighbour_filter || outliers.residual_rejection) {
     const bool own_element = options.residuals.size() == 0 &&
                              (kind == FeatureKind::bore || kind == FeatureKind::pin ||

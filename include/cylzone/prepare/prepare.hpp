@@ -53,7 +53,8 @@ struct PrepareOptions {
   /// The points are stylus-ball centres: compensate them first (probe_compensation.hpp). Its
   /// `fit` and `outward` are taken from this struct's own.
   std::optional<ProbeTipOptions> probe_tip;
-  /// Outlier stages (outlier_rejection.hpp); both off by default.
+  /// Outlier stages (outlier_rejection.hpp); both off by default. Their `neighbours` are
+  /// replaced by `stray_points` (the screen's criterion and threads): the filter is the screen.
   OutlierOptions outliers;
 };
 
