@@ -76,7 +76,16 @@ double largest_distance(const Eigen::Matrix3Xd& a, const Eigen::Matrix3Xd& b) {
 }
 
 // Off the origin and tilted, so frame and sign mistakes show.
-const Axis kBoreAxis{Eigen::Vector3d(41.0, -17.5, 3.0), Eigen::Vector3d(0.012, -0.007, 1.0).normalized()};
+const Axis kBoreAxis{Eigen::Vector3d(41.0, -17.5, 3.0),
+                     Eigen::Vector3d(0.012, -0.007, 1.0).normalized()};
+
+/// A 2 mm stylus ball on a bore along kBoreAxis.
+ProbeTipOptions two_mm_tip() {
+  ProbeTipOptions options;
+  options.tip_diameter = 2.0;
+  options.fit.axis_hint = kBoreAxis.direction;
+  return options;
+}
 
 }  // namespace
 
@@ -198,10 +207,8 @@ TEST_CASE("a plane probed from either side compensates to the same plane", "[pre
 TEST_CASE("vectors written in the approach sense are detected and used reversed",
           "[prepare][probe]") {
   const Sampled s = sample_cylinder(kBoreAxis, 6.0, -2.0, -30.0, 4, 20);
-  const Eigen::Matrix3Xd centres = s.points - 1.0 * s.radial;
-  ProbeTipOptions options;
-  options.tip_diameter = 2.0;
-  options.fit.axis_hint = kBoreAxis.direction;
+  const Eigen::Matrix3Xd centres = s.points - 1.0 * s.radial;  // a 2 mm ball in the hole
+  ProbeTipOptions options = two_mm_tip();
   // Approach direction: into the material, i.e. away from a hole's axis.
   const CompensatedPoints out =
       compensate_probe_tip(FeatureKind::bore, cloud(centres, s.radial), options);
@@ -216,10 +223,8 @@ TEST_CASE("vectors written in the approach sense are detected and used reversed"
 TEST_CASE("vectors of both senses, far off the normal, or missing where needed are refused",
           "[prepare][probe][errors]") {
   const Sampled s = sample_cylinder(kBoreAxis, 6.0, -2.0, -30.0, 4, 20);
-  const Eigen::Matrix3Xd centres = s.points - 1.0 * s.radial;
-  ProbeTipOptions options;
-  options.tip_diameter = 2.0;
-  options.fit.axis_hint = kBoreAxis.direction;
+  const Eigen::Matrix3Xd centres = s.points - 1.0 * s.radial;  // a 2 mm ball in the hole
+  ProbeTipOptions options = two_mm_tip();
   Eigen::Matrix3Xd vectors = -s.radial;
   vectors.col(7) = s.radial.col(7);  // one point with the other sense: file line 9
   expect_input_error([&] { compensate_probe_tip(FeatureKind::bore, cloud(centres, vectors), options); },

@@ -135,10 +135,12 @@ std::vector<PointCloud> prepared_datums(const PartPlan& plan, const PartInputs& 
     else if (d.material_side)
       options.outward = -*d.material_side;
     apply_probe_settings(settings, options);
-    PreparedFeature prepared = for_feature(role, [&] { return prepare_feature(d.kind, clouds[k], options); });
+    PreparedFeature prepared =
+        for_feature(role, [&] { return prepare_feature(d.kind, clouds[k], options); });
     clouds[k] = std::move(prepared.cloud);
     record.record = std::move(prepared.record);
-    for (const std::string& w : preparation_warnings(record.record)) warnings.push_back(role + ": " + w);
+    for (const std::string& w : preparation_warnings(record.record))
+      warnings.push_back(role + ": " + w);
   }
   return clouds;
 }

@@ -140,39 +140,30 @@ OutlierResult reject_outliers(const PointCloud& cloud, const ElementResiduals& r
           detail::robust_spread(std::vector<double>(r.data(), r.data() + r.size()));
       ++stage.iterations;
       stage.robust_scale = spread.scale;
-      const double limit = std::max(options.residual_threshold * spread.scale, options.residual_floor);
-      // Candidates: beyond the limit, with the side they lie on.
-      std::vector<int> side(static_cast<std::size_t>(r.size()), 0);
-      bool any = false;
-      for (Eigen::Index k = 0; k < r.size(); ++k) {
-        const double d = r(k) - spread.centre;
-        if (std::abs(d) > limit) {
-          side[static_cast<std::size_t>(k)] = d > 0.0 ? 1 : -1;
-          any = true;
-        }
-      }
-      if (!any) break;
-      // Form guard: a candidate must also stand out from its nearest neighbours by half the
-      // limit; one that its neighbours follow is an excursion of the surface (a bell-mouth, a
-      // groove), not an outlier, and is kept.
-      const std::size_t k_near = options.neighbours.neighbours;
-      const NeighbourIndex index(kept.cloud.points);
-      NeighbourIndex::Query query(k_near);
+      const double limit =
+          std::max(options.residual_threshold * spread.scale, options.residual_floor);
+      // Candidates: beyond the limit.
+      std::vector<std::size_t> beyond;
+      for (Eigen::Index k = 0; k < r.size(); ++k)
+        if (std::abs(r(k) - spread.centre) > limit) beyond.push_back(static_cast<std::size_t>(k));
+      if (beyond.empty()) break;
+      // Form guard: a candidate must also stand out from its nearest neighbours (its local
+      // excess, as the stray-point screen defines it) by half the limit; one its neighbours
+      // follow is an excursion of the surface (a bell-mouth, a groove), not an outlier: kept.
       std::vector<std::size_t> drop;
-      std::vector<double> local;
       std::size_t form = 0;
-      for (std::size_t k = 0; k < side.size(); ++k) {
-        if (side[k] == 0) continue;
-        local.clear();
-        for (std::uint32_t j : query.of_point(index, k)) local.push_back(r(static_cast<Eigen::Index>(j)));
-        const double excess =
-            local.empty() ? r(static_cast<Eigen::Index>(k)) - spread.centre
-                          : r(static_cast<Eigen::Index>(k)) - detail::median_in_place(local);
-        if (std::abs(excess) <= 0.5 * limit) {
-          ++form;
-          continue;
+      if (kept.cloud.size() < 2) {
+        drop = beyond;
+      } else {
+        const NeighbourIndex index(kept.cloud.points);
+        NeighbourIndex::Query query(options.neighbours.neighbours);
+        std::vector<double> local;
+        for (std::size_t k : beyond) {
+          if (std::abs(detail::local_excess(index, query, r, k, local)) > 0.5 * limit)
+            drop.push_back(k);
+          else
+            ++form;
         }
-        drop.push_back(k);
       }
       stage.kept_as_form = form;
       if (drop.empty()) break;
@@ -192,7 +183,10 @@ OutlierResult reject_outliers(const PointCloud& cloud, const ElementResiduals& r
 
   // ---- Nothing dropped silently: the share, and removed points the envelope would touch.
   const std::size_t removed = record.removed_count();
-  if (cloud.size() > 0 && static_cast<double>(removed) > options.warn_share * static_cast<double>(cloud.size()))
+  const double share = cloud.size() == 0 ? 0.0
+                                     : static_cast<double>(removed) /
+                                           static_cast<double>(cloud.size());
+  if (share > options.warn_share)
     record.warnings.push_back(std::to_string(removed) + " of " + std::to_string(cloud.size()) +
                               " points removed as outliers (" + share_text(removed, cloud.size()) +
                               ", above " + detail::format_number(100.0 * options.warn_share, 1) +

@@ -104,11 +104,11 @@ PreparedFeature prepare_feature(FeatureKind kind, const PointCloud& cloud,
               ? "the plane's material side is not known here"
               : "a " + std::string(feature_kind_name(kind)) +
                     "'s element is its datum simulator's, not refitted here";
-      for (auto [on, stage] : {std::pair{outliers.neighbour_filter, &prepared.record.outliers.neighbour_filter},
-                               std::pair{outliers.residual_rejection, &prepared.record.outliers.residual_rejection}}) {
-        stage->enabled = on;
-        if (on) stage->skipped = reason;
-      }
+      OutlierRecord& record = prepared.record.outliers;
+      record.neighbour_filter.enabled = outliers.neighbour_filter;
+      record.residual_rejection.enabled = outliers.residual_rejection;
+      for (OutlierStageRecord* stage : {&record.neighbour_filter, &record.residual_rejection})
+        if (stage->enabled) stage->skipped = reason;
     }
   }
   if (prepared.record.kept.empty()) {

@@ -22,8 +22,6 @@
 namespace cylzone {
 namespace {
 
-using detail::median_in_place;
-
 /// Points per chunk of the screen's visit: fixed, so the chunks (and the result, which does not
 /// depend on them anyway) are the same for any thread count; below two chunks (a thread costs
 /// ~50 us, the screen ~0.65 us per point) it runs on the calling thread only.
@@ -37,13 +35,8 @@ void local_excesses(const NeighbourIndex& index, const Eigen::VectorXd& residual
   NeighbourIndex::Query query(k);
   std::vector<double> local;
   local.reserve(k);
-  for (const std::uint32_t* at = first; at != last; ++at) {
-    const Eigen::Index i = static_cast<Eigen::Index>(*at);
-    local.clear();
-    for (const std::uint32_t other : query.of_point(index, static_cast<std::size_t>(i)))
-      local.push_back(residuals(other));
-    excess[static_cast<std::size_t>(i)] = residuals(i) - median_in_place(local);
-  }
+  for (const std::uint32_t* at = first; at != last; ++at)
+    excess[*at] = detail::local_excess(index, query, residuals, *at, local);
 }
 
 void check_options(const StrayPointOptions& options) {

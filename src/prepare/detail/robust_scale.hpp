@@ -1,11 +1,17 @@
 #pragma once
-// Median and normal-consistent MAD scale, shared by the stray-point screen (stray_points.cpp)
-// and the residual rejection (outlier_rejection.cpp). Not installed.
+// Median, normal-consistent MAD scale and local excess, shared by the stray-point screen
+// (stray_points.cpp) and the residual rejection's form guard (outlier_rejection.cpp). Not
+// installed.
 
 #include <algorithm>
 #include <cmath>
 #include <cstddef>
+#include <cstdint>
 #include <vector>
+
+#include <Eigen/Core>
+
+#include "cylzone/prepare/neighbour_index.hpp"
 
 namespace cylzone::detail {
 
@@ -46,6 +52,17 @@ inline RobustSpread robust_spread(std::vector<double> values) {
   for (double& v : values) v = std::abs(v - s.centre);
   s.scale = mad_to_sigma * median_in_place(values);
   return s;
+}
+
+/// The local excess of point i (stray_points.hpp): its residual minus the median residual of
+/// its nearest neighbours in `index`, found with `query`; `buffer` is scratch space. The index
+/// must hold at least two points.
+inline double local_excess(const NeighbourIndex& index, NeighbourIndex::Query& query,
+                           const Eigen::VectorXd& residuals, std::size_t i,
+                           std::vector<double>& buffer) {
+  buffer.clear();
+  for (const std::uint32_t other : query.of_point(index, i)) buffer.push_back(residuals(other));
+  return residuals(static_cast<Eigen::Index>(i)) - median_in_place(buffer);
 }
 
 }  // namespace cylzone::detail
