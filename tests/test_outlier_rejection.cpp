@@ -194,3 +194,23 @@ TEST_CASE("reject_outliers with both stages off returns the cloud and calls noth
                                   ContactSide::lowest, bad),
                   std::invalid_argument);
 }
+
+TEST_CASE("the points removed do not depend on how the part sat on the machine",
+          "[prepare][outliers]") {
+  Eigen::Matrix3Xd points = noisy_bore(10, 40, 0.0, 11);
+  for (Eigen::Index i : {5, 77, 230}) {
+    const Eigen::Vector3d d = points.col(i) - kAxis.point;
+    points.col(i) -= 15.0 * um * (d - kAxis.direction * kAxis.direction.dot(d)).normalized();
+  }
+  const Eigen::Matrix3d turn =
+      Eigen::AngleAxisd(2.2, Eigen::Vector3d(-0.2, 0.9, 0.4).normalized()).toRotationMatrix();
+  PrepareOptions there = both_stages();
+  there.fit.axis_hint = turn * kAxis.direction;
+  const PreparedFeature a = prepare_feature(FeatureKind::bore, with_lines(points), both_stages());
+  const PreparedFeature b = prepare_feature(
+      FeatureKind::bore,
+      with_lines((turn * points).colwise() + Eigen::Vector3d(350.0, -120.0, 64.0)), there);
+  CHECK(removed_indices(a.record.outliers) == std::vector<std::size_t>{5, 77, 230});
+  CHECK(removed_indices(b.record.outliers) == removed_indices(a.record.outliers));
+  CHECK(a.record.kept == b.record.kept);
+}

@@ -265,3 +265,27 @@ TEST_CASE("prepare_feature compensates ball centres before the screen and record
   CHECK(surface.record.probe_tip.mode == CompensationMode::none);
   CHECK((surface.cloud.points.array() == s.points.array()).all());
 }
+
+TEST_CASE("compensation does not depend on how the part sat on the machine", "[prepare][probe]") {
+  // Any rigid motion of the ball centres (and their vectors) moves the compensated points by
+  // the same motion (the ball-centre relation is rigid-invariant; common practice).
+  const Sampled s = sample_cylinder(kBoreAxis, 6.0, -2.0, -30.0, 5, 24);
+  const Eigen::Matrix3Xd centres = s.points - 1.0 * s.radial;
+  const Eigen::Matrix3d turn =
+      (Eigen::AngleAxisd(1.1, Eigen::Vector3d(0.3, -0.5, 0.8).normalized()) *
+       Eigen::AngleAxisd(0.4, Eigen::Vector3d::UnitX()))
+          .toRotationMatrix();
+  const Eigen::Vector3d shift(-812.5, 433.25, 97.0);
+  for (const bool with_vectors : {true, false}) {
+    CAPTURE(with_vectors);
+    ProbeTipOptions here = two_mm_tip();
+    ProbeTipOptions there = two_mm_tip();
+    there.fit.axis_hint = turn * kBoreAxis.direction;
+    const Eigen::Matrix3Xd vectors = with_vectors ? Eigen::Matrix3Xd(-s.radial) : Eigen::Matrix3Xd();
+    const Eigen::Matrix3Xd moved_vectors = with_vectors ? Eigen::Matrix3Xd(turn * vectors) : Eigen::Matrix3Xd();
+    const CompensatedPoints a = compensate_probe_tip(FeatureKind::bore, cloud(centres, vectors), here);
+    const CompensatedPoints b = compensate_probe_tip(
+        FeatureKind::bore, cloud((turn * centres).colwise() + shift, moved_vectors), there);
+    CHECK(largest_distance((turn * a.cloud.points).colwise() + shift, b.cloud.points) < 1e-9);
+  }
+}

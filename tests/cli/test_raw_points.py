@@ -191,6 +191,20 @@ with tempfile.TemporaryDirectory() as tmp:
     off, _ = run(plan, "--neighbour-filter", "off", "--residual-rejection", "off")
     check(figures(off) == figures(spiked), "--...=off did not override the plan")
 
+    # Vectors of both senses in one file: refused, naming the file and the line, exit 2.
+    folder = copy_demo(tmp, "centres-mixed")
+    rewrite(folder, ball_centre)
+    path = os.path.join(folder, "points", "P3.csv")
+    rows = open(path).read().splitlines()
+    v = rows[6].split(",")  # file line 7
+    rows[6] = ",".join(v[:3] + [f"{-float(c):.7f}" for c in v[3:]])
+    open(path, "w").write("\n".join(rows) + "\n")
+    mixed = set_probe(folder, 'points = "ball-centre"\ntip_diameter = 2.0\n')
+    p = subprocess.run([CLI, "check", mixed], capture_output=True, text=True)
+    check(p.returncode == 2 and p.stderr.startswith("cylzone: error:") and
+          "P3.csv:7:" in p.stderr and "ambiguous" in p.stderr and p.stderr.count("\n") == 1,
+          f"mixed vector senses: exit {p.returncode}, stderr {p.stderr!r}")
+
     # A bad switch value: one error line, exit 2.
     p = subprocess.run([CLI, "check", plan, "--neighbour-filter", "maybe"], capture_output=True,
                        text=True)
