@@ -43,7 +43,8 @@ struct PrepareOptions {
   /// a plane; `threads` is the one thread option the preparation obeys.
   FitOptions fit;
   /// Plane: the direction out of the material along which residuals are positive. Required for
-  /// a plane unless `residuals` are given.
+  /// a plane's screen unless `residuals` are given; without it a plane's outlier stages are
+  /// skipped (recorded) and its ball centres need vectors.
   std::optional<Eigen::Vector3d> outward;
   /// The caller's residuals, one per point, used as given instead of an element of prepare's
   /// own (required for a slot or a tab, whose faces only its association tells apart). They
