@@ -28,8 +28,11 @@ def check(condition, message):
         failures.append(message)
 
 
+REPORTS = tempfile.mkdtemp(prefix="cylzone-raw-points-")  # never beside the demo's own plan
+
+
 def run(plan, *args):
-    out = os.path.join(os.path.dirname(plan), "report.json")
+    out = os.path.join(REPORTS, "report.json")
     p = subprocess.run([CLI, "check", plan, "--json", out, "--time", "2026-01-01T00:00:00Z", *args],
                        capture_output=True, text=True)
     check(p.returncode in (0, 1), f"{plan} {args}: exit {p.returncode}: {p.stderr.strip()}")
@@ -211,6 +214,7 @@ with tempfile.TemporaryDirectory() as tmp:
     check(p.returncode == 2 and p.stderr.startswith("cylzone: error:") and
           p.stderr.count("\n") == 1, f"bad switch: exit {p.returncode}, stderr {p.stderr!r}")
 
+shutil.rmtree(REPORTS, ignore_errors=True)
 if failures:
     print("\n".join(failures))
     sys.exit(1)
