@@ -93,8 +93,6 @@ class PlanRules {
     bounded_length(size.upper, at.at("upper"), "the upper limit of size");
   }
 
-  // ---------------------------------------------------------------- datums
-
   // ---- Raw probe points: tip diameters, and ball centres only with a tip to compensate by.
 
   void check_probe() const {
@@ -130,6 +128,8 @@ class PlanRules {
            "the tip diameter " + shown(probe.tip_diameter) + " " + unit_ + " does not fit " +
                feature + " (lower limit of size " + shown(*smallest_hole) + " " + unit_ + ")");
   }
+
+  // ---------------------------------------------------------------- datums
 
   void check_datums() const {
     const std::vector<PlanDatum>& datums = plan_.datums;
