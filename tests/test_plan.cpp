@@ -766,16 +766,66 @@ TEST_CASE("a bore needs a tolerance, a usable and unique id", "[plan][errors]") 
               "unknown key");
 }
 
-TEST_CASE("ball-centre points are refused until probe compensation exists", "[plan][errors]") {
+TEST_CASE("ball-centre points: plan-wide and per-feature probe tables", "[plan][probe]") {
+  // Plan-wide ball centres with a tip, the outlier stages on; bore P1 overrides the tip and
+  // turns the residual rejection off; datum B says its points are surface points.
+  std::string text = replaced(
+      kBase, "[datum.A]",
+      "[probe]\npoints = \"ball-centre\"\ntip_diameter = 2.0\nneighbour_filter = true\n"
+      "residual_rejection = true\n\n[datum.A]");
+  text = replaced(text, "size = { lower = 19.990, upper = 20.011 }",
+                  "size = { lower = 19.990, upper = 20.011 }\nprobe = { points = \"surface\" }");
+  text = replaced(text, "perpendicularity = { tolerance = 0.010 }",
+                  "perpendicularity = { tolerance = 0.010 }\n\n[bore.probe]\ntip_diameter = 1.5\n"
+                  "residual_rejection = false");
+  PartPlan plan = parse_plan(text, kPlanFile, false);
+  CHECK(plan.probe.ball_centres);
+  CHECK(plan.probe.tip_diameter == 2.0);
+  CHECK(plan.probe.neighbour_filter);
+  CHECK(plan.probe.residual_rejection);
+  CHECK_FALSE(plan.datums[0].probe.any());
+  const ProbeSettings b = resolved_probe(plan.probe, plan.datums[1].probe);
+  CHECK_FALSE(b.ball_centres);
+  CHECK(b.neighbour_filter);
+  const ProbeSettings p1 = resolved_probe(plan.probe, plan.bores[0].probe);
+  CHECK(p1.ball_centres);
+  CHECK(p1.tip_diameter == 1.5);
+  CHECK(p1.neighbour_filter);
+  CHECK_FALSE(p1.residual_rejection);
+  CHECK(resolved_probe(plan.probe, plan.bores[1].probe).tip_diameter == 2.0);
+  // The command line overrides the plan and every feature's own setting.
+  override_outlier_stages(plan, false, true);
+  CHECK_FALSE(resolved_probe(plan.probe, plan.bores[0].probe).neighbour_filter);
+  CHECK(resolved_probe(plan.probe, plan.bores[0].probe).residual_rejection);
+  CHECK_FALSE(resolved_probe(plan.probe, plan.datums[1].probe).neighbour_filter);
+  CHECK(resolved_probe(plan.probe, plan.bores[0].probe).tip_diameter == 1.5);  // untouched
+
+  // Ball centres without a tip diameter: refused where the points are said to be ball centres.
   check_error(replaced(kBase, "[datum.A]", "[probe]\npoints = \"ball-centre\"\n\n[datum.A]"),
               "ball-centre", "probe.points",
-              "probe compensation of ball-centre points is not yet supported: export compensated "
-              "surface points");
+              "datum A's points are ball centres but no tip diameter is given");
+  check_error(replaced(kBase, "cylindricity = 0.008", "cylindricity = 0.008\nprobe = { points = \"ball-centre\" }"),
+              "ball-centre", "bore[P2].probe.points",
+              "bore P2's points are ball centres but no tip diameter is given");
+  // A ball that does not fit the hole's lower limit of size.
+  check_error(replaced(kBase, "[datum.A]",
+                       "[probe]\npoints = \"ball-centre\"\ntip_diameter = 9\n\n[datum.A]"),
+              "tip_diameter = 9", "probe.tip_diameter",
+              "the tip diameter 9 mm does not fit datum C (lower limit of size 8 mm)");
+  check_error(replaced(kBase, "[datum.A]", "[probe]\nneighbour_filter = \"yes\"\n\n[datum.A]"),
+              "neighbour_filter", "probe.neighbour_filter", "expected true or false, found a string");
+  check_error(replaced(kBase, "cylindricity = 0.008", "cylindricity = 0.008\nprobe = { tip = 2 }"),
+              "probe = { tip = 2 }", "bore[P2].probe.tip", "unknown key in a probe table");
+  check_error(replaced(kBase, "cylindricity = 0.008", "cylindricity = 0.008\nprobe = { tip_diameter = -1 }"),
+              "tip_diameter = -1", "bore[P2].probe.tip_diameter",
+              "the tip diameter of bore P2 must be greater than zero (found -1)");
   check_error(replaced(kBase, "[datum.A]", "[probe]\npoints = \"centres\"\n\n[datum.A]"), "centres",
               "probe.points", "expected \"surface\" or \"ball-centre\"");
-  const PartPlan plan = parse_plan(
+  const PartPlan surface = parse_plan(
       replaced(kBase, "[datum.A]", "[probe]\npoints = \"surface\"\n\n[datum.A]"), kPlanFile, false);
-  CHECK_FALSE(plan.probe.ball_centres);
+  CHECK_FALSE(surface.probe.ball_centres);
+  CHECK_FALSE(surface.probe.neighbour_filter);
+  CHECK_FALSE(surface.probe.residual_rejection);
 }
 
 // ====================================================================== datum C as a width feature
@@ -823,7 +873,7 @@ TEST_CASE("datum C as a slot or a tab", "[plan][slot]") {
     check_error(replaced(slot, "basic = [0.0, -45.0]", "basic = [0.0, -45.0]\n"
                                                         "outward_normal = [0, -1]"),
                 "outward_normal", "datum.C.outward_normal",
-                "unknown key for datum C as a slot (allowed: feature, points, basic, size, mmb)");
+                "unknown key for datum C as a slot (allowed: feature, points, basic, size, mmb, probe)");
     check_error(replaced(tab, "basic = [0.0, -45.0]", "basic = [0.0, -45.0]\n"
                                                        "material_side = [0, 1, 0]"),
                 "material_side", "datum.C.material_side", "unknown key for datum C as a tab");

@@ -201,17 +201,17 @@ TEST_CASE("CSV: RFC 4180 quoting, four decimals in mm, one row per characteristi
   CHECK_FALSE(std::getline(lines, extra));
   CHECK(header ==
         "part,bore,characteristic,reference,value,tolerance,bonus,allowed,comparison,verdict,"
-        "decisive,units,id,caution,part_id,serial,timestamp,notes,range_source,status,reason");
+        "decisive,units,id,caution,part_id,serial,timestamp,notes,range_source,status,reason,outliers_removed");
   CHECK(first ==
         "\"Bracket, \"\"first\"\" article, rev B\",H1,\"position, frame fixed\",A|B(M) MMC,"
         "0.1000,0.0800,0.0100,0.0900,<=,does not conform,no,mm,H1/position," + caution +
-            ",,,,,plan depth,evaluated,");
+            ",,,,,plan depth,evaluated,,0");
   CHECK(second ==
         "\"Bracket, \"\"first\"\" article, rev B\",H1,\"position, datum mobility\",A|B(M) MMC,"
         "0.0850,0.0800,0.0100,0.0900,<=,conforms,yes,mm,H1/position/mobility," + caution +
-            ",,,,,plan depth,evaluated,");
+            ",,,,,plan depth,evaluated,,0");
   const std::vector<std::string> fields = csv_fields(second);
-  REQUIRE(fields.size() == 21);
+  REQUIRE(fields.size() == 22);
   CHECK(fields[0] == "Bracket, \"first\" article, rev B");
   CHECK(fields[13] == safety_caution);
 }
@@ -451,6 +451,42 @@ TEST_CASE("warnings: lengths in the report's unit, stray points with their file 
   // The size reason in inch too: 11.9953 mm = 0.4723 inch, 12 mm = 0.4724 inch (4 decimals).
   CHECK(json.find("\"reason\": \"actual mating envelope 0.4723 is below the lower limit 0.4724\"") !=
         std::string::npos);
+}
+
+TEST_CASE("preparation: removed outliers by file line in JSON, CSV and table") {
+  // Bore H1's file: 6 points on lines 3..8; the residual rejection removed the third (line 5),
+  // so the fits used file points 1, 2, 4, 5, 6, and the stray point #4 of the fits is line 7.
+  PartCheckResult r = result_with_size(LengthUnit::millimetre);
+  REQUIRE(r.inputs.front().role == "bore H1");
+  r.inputs.front().point_lines = {3, 4, 5, 6, 7, 8};
+  r.bores.front().warnings = {"1 suspect point(s) (largest local excess 0.0020 mm at point #4 of "
+                              "the file); verdicts use all points: review the data"};
+  FeaturePreparation p{"bore H1", {}};
+  p.record.outliers.residual_rejection.enabled = true;
+  p.record.outliers.residual_rejection.examined = 6;
+  p.record.outliers.residual_rejection.removed.push_back({2, 5, -0.025, true});
+  p.record.kept = {0, 1, 3, 4, 5};
+  r.preparation = {FeaturePreparation{"datum A", {}}, p};
+  const ReportModel m = make_report_model(r);
+  CHECK(m.points_prepared());
+  CHECK(m.bores.front().warnings.front().find("point #4 (line 7)") != std::string::npos);
+  const std::string json = format_json(m);
+  CHECK(json.find("\"preparation\"") != std::string::npos);
+  CHECK(json.find("\"removed_count\": 1") != std::string::npos);
+  CHECK(json.find("\"line\": 5") != std::string::npos);
+  CHECK(json.find("\"envelope_contact\": true") != std::string::npos);
+  std::istringstream csv(format_csv(m));
+  std::string header, row;
+  std::getline(csv, header);
+  std::getline(csv, row);
+  CHECK(csv_fields(header).back() == "outliers_removed");
+  CHECK(csv_fields(row).back() == "1");
+  const std::string table = format_table(m);
+  CHECK(table.find("Preparation of the points") != std::string::npos);
+  CHECK(table.find("bore H1: residual rejection: 1 of 6 removed (line 5)") != std::string::npos);
+  // Nothing asked: no section in the table.
+  r.preparation = {FeaturePreparation{"datum A", {}}};
+  CHECK(format_table(make_report_model(r)).find("Preparation") == std::string::npos);
 }
 
 namespace {

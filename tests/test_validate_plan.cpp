@@ -229,7 +229,14 @@ TEST_CASE("validate_plan refuses the faults the reader refuses", "[plan][validat
   check_refused([](PartPlan& p) { p.bores.clear(); }, "bore", "at least one toleranced bore");
   check_refused([](PartPlan& p) { p.name = " "; }, "name", "the part's name must not be empty");
   check_refused([](PartPlan& p) { p.probe.ball_centres = true; }, "probe.points",
-                "ball-centre points is not yet supported");
+                "points are ball centres but no tip diameter is given");
+  check_refused(
+      [](PartPlan& p) {
+        p.probe.tip_diameter = 2.0;
+        p.bores[0].probe.ball_centres = true;
+        p.bores[0].probe.tip_diameter = -2.0;
+      },
+      "probe.tip_diameter", "the tip diameter of bore P1 must be greater than zero (found -2)");
 }
 
 TEST_CASE("validate_plan bounds lengths and tolerances", "[plan][validate]") {

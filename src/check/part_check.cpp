@@ -158,11 +158,47 @@ std::vector<FrameAnchor> frame_anchors(const PartPlan& plan, const PartInputs& i
   return anchors;
 }
 
-std::vector<DatumInput> datum_inputs(const PartPlan& plan, const PartInputs& inputs) {
+std::vector<DatumInput> datum_inputs(const PartPlan& plan, const std::vector<PointCloud>& clouds) {
   std::vector<DatumInput> datums;
   for (std::size_t k = 0; k < plan.datums.size(); ++k)
-    datums.push_back({plan.datums[k], inputs.datums[k]});
+    datums.push_back({plan.datums[k], clouds[k]});
   return datums;
+}
+
+/// Raw datum points: compensated and cleared of outliers as the plan asks, before the frame
+/// is built (prepare.hpp). A datum of surface points with no outlier stage is passed unchanged.
+/// `into_material` is A's material side, which orients A (and C when the plan gives its side)
+/// and starts B's and C's axes (held perpendicular to A in the frame).
+std::vector<PointCloud> prepared_datums(const PartPlan& plan, const PartInputs& inputs,
+                                        const Eigen::Vector3d& into_material,
+                                        const BoreEvaluationOptions& stage,
+                                        std::vector<FeaturePreparation>& records,
+                                        std::vector<std::string>& warnings) {
+  std::vector<PointCloud> clouds = inputs.datums;
+  for (std::size_t k = 0; k < plan.datums.size(); ++k) {
+    const PlanDatum& d = plan.datums[k];
+    const std::string role = std::string("datum ") + d.label;
+    FeaturePreparation& record = records.emplace_back(FeaturePreparation{role, {}});
+    const ProbeSettings settings = resolved_probe(plan.probe, d.probe);
+    if (!changes_points(settings)) continue;
+    PrepareOptions options;
+    options.stray_screen = false;  // the frame screens the points it is built from
+    options.fit = stage.fit;
+    options.fit.axis_hint = into_material;
+    options.stray_points = stage.stray_points;  // the threads bound, the filter's criterion
+    if (d.label == 'A')
+      options.outward = -into_material;
+    else if (d.material_side)
+      options.outward = -*d.material_side;
+    apply_probe_settings(settings, options);
+    PreparedFeature prepared =
+        for_feature(role, [&] { return prepare_feature(d.kind, clouds[k], options); });
+    clouds[k] = std::move(prepared.cloud);
+    record.record = std::move(prepared.record);
+    for (const std::string& w : preparation_warnings(record.record))
+      warnings.push_back(role + ": " + w);
+  }
+  return clouds;
 }
 
 }  // namespace
@@ -195,9 +231,13 @@ PartEvaluation evaluate_part(const PartPlan& plan, const PartInputs& inputs,
     inferred = true;
   }
 
+  result.datum_clouds =
+      prepared_datums(plan, inputs, result.material_side, stage, result.preparation,
+                      result.warnings);
   DatumFrameOptions frame = frame_options(stage);
   frame.anchors = frame_anchors(plan, inputs);
-  result.datums = establish_datum_frame(datum_inputs(plan, inputs), result.material_side, frame);
+  result.datums =
+      establish_datum_frame(datum_inputs(plan, result.datum_clouds), result.material_side, frame);
   result.datums.a.material_side_inferred = inferred;
   if (inferred)
     result.warnings.push_back("material side of datum A inferred from the bores' points");
@@ -208,6 +248,8 @@ PartEvaluation evaluate_part(const PartPlan& plan, const PartInputs& inputs,
   BoreEvaluationOptions per_bore = stage;
   per_bore.fit.threads = per_bore.stray_points.threads = std::max<std::size_t>(1, threads / workers);
   result.bores.resize(plan.bores.size());
+  const std::size_t first_bore = result.preparation.size();
+  for (const PlanBore& bore : plan.bores) result.preparation.push_back({"bore " + bore.id, {}});
   detail::parallel_for(plan.bores.size(), workers, [&](std::size_t i, std::size_t) {
     const PlanBore& bore = plan.bores[i];
     // A bore whose geometry cannot be evaluated (FitError) does not stop the others: it is
@@ -220,9 +262,15 @@ PartEvaluation evaluate_part(const PartPlan& plan, const PartInputs& inputs,
           in_frame.vectors = result.datums.frame.rotation * inputs.bores[i].vectors;
         in_frame.source = inputs.bores[i].source;
         in_frame.file_unit = inputs.bores[i].file_unit;
-        const PreparedFeature prepared =
-            prepare_feature(FeatureKind::bore, in_frame, bore_prepare_options(bore, per_bore));
-        return evaluate_bore(BoreInput{bore, prepared}, per_bore);
+        in_frame.lines = inputs.bores[i].lines;
+        PrepareOptions prepare = bore_prepare_options(bore, per_bore);
+        apply_probe_settings(resolved_probe(plan.probe, bore.probe), prepare);
+        const PreparedFeature prepared = prepare_feature(FeatureKind::bore, in_frame, prepare);
+        result.preparation[first_bore + i].record = prepared.record;
+        BoreResult evaluated = evaluate_bore(BoreInput{bore, prepared}, per_bore);
+        for (std::string& w : preparation_warnings(prepared.record))
+          evaluated.warnings.push_back(std::move(w));
+        return evaluated;
       });
     } catch (const FitError& e) {
       BoreResult skipped;
@@ -272,8 +320,9 @@ std::vector<BoreSensitivity> association_sensitivity(const PartPlan& plan,
     } else {
       DatumFrameOptions frame = alternative;
       frame.a_association = methods[m];
-      const DatumFrameResult other =
-          establish_datum_frame(datum_inputs(plan, inputs), nominal.material_side, frame);
+      const DatumFrameResult other = establish_datum_frame(
+          datum_inputs(plan, nominal.datum_clouds.empty() ? inputs.datums : nominal.datum_clouds),
+          nominal.material_side, frame);
       // q_other = R_o (R^T q + o - o_o): the rigid motion from this frame to the other.
       const DatumFrame& f = nominal.datums.frame;
       const DatumFrame& g = other.frame;
@@ -342,6 +391,7 @@ PartCheckResult check_part(const PartPlan& plan, const PartInputs& inputs,
   result.datums = std::move(evaluation.datums);
   result.bores = std::move(evaluation.bores);
   result.warnings = std::move(evaluation.warnings);
+  result.preparation = std::move(evaluation.preparation);
 
   // Decide: every characteristic of every bore, by the one decision function.
   // A bore not evaluated gives its characteristics as not proven (bore_characteristics).

@@ -66,15 +66,27 @@ class Assessor {
 
   PlausibilitySummary run(const PartInputs& inputs, const PartEvaluation& evaluation) {
     const DatumFrameResult& frame = evaluation.datums;
+    // Ball-centre files whose vectors all point into the material (the approach sense) were
+    // accepted by the probe-tip compensation and used reversed (probe_compensation.hpp): judge
+    // them in the sense the compensation used, so the two steps read a file the same way.
+    const auto as_compensated = [&](const std::string& role, const PointCloud& cloud) {
+      PointCloud judged = cloud;
+      for (const FeaturePreparation& p : evaluation.preparation)
+        if (p.role == role && p.record.probe_tip.vectors_reversed) judged.vectors *= -1.0;
+      return judged;
+    };
     for (std::size_t k = 0; k < plan_.datums.size(); ++k)
-      check_datum(plan_.datums[k], inputs.datums[k], frame);
+      check_datum(plan_.datums[k],
+                  as_compensated(std::string("datum ") + plan_.datums[k].label, inputs.datums[k]),
+                  frame);
     for (std::size_t i = 0; i < plan_.bores.size(); ++i) {
       // A bore not evaluated has no fits to compare; its reason is already reported.
       if (!evaluation.bores[i].evaluated()) continue;
       PointCloud in_frame;
       in_frame.points = frame.frame.points_to_frame(inputs.bores[i].points);
       if (inputs.bores[i].has_vectors())
-        in_frame.vectors = frame.frame.rotation * inputs.bores[i].vectors;
+        in_frame.vectors = frame.frame.rotation *
+                           as_compensated("bore " + plan_.bores[i].id, inputs.bores[i]).vectors;
       in_frame.source = inputs.bores[i].source;
       check_bore(plan_.bores[i], in_frame, evaluation.bores[i]);
     }

@@ -6,6 +6,8 @@
 #include <ctime>
 #include <iostream>
 #include <memory>
+#include <optional>
+#include <stdexcept>
 #include <string>
 #include <utility>
 #include <vector>
@@ -31,7 +33,19 @@ struct CheckArguments {
   std::string serial;
   std::string time;                ///< ISO 8601; empty: the run's UTC time
   std::vector<std::string> notes;  ///< KEY=VALUE
+  // Outlier stages (prepare/outlier_rejection.hpp): "on" or "off" override the plan's [probe]
+  // settings and every feature's own; empty: as the plan says.
+  std::string neighbour_filter;
+  std::string residual_rejection;
 };
+
+/// "on" / "off" of an outlier-stage option, or empty when the option was not given.
+std::optional<bool> switch_value(const std::string& text, const std::string& option) {
+  if (text.empty()) return std::nullopt;
+  if (text == "on") return true;
+  if (text == "off") return false;
+  throw std::invalid_argument(option + ": expected on or off, got '" + text + "'");
+}
 
 /// The run's time in UTC, ISO 8601 ("2026-12-02T17:40:00Z").
 std::string utc_now() {
@@ -103,7 +117,10 @@ std::vector<std::filesystem::path> plan_inputs(const PartPlan& plan) {
 int run_check(const CheckArguments& args) {
   ReportModelOptions model_options;
   const PartIdentity given = part_identity(args);  // argument errors before any file is read
-  const PartPlan plan = read_plan(args.plan);
+  const std::optional<bool> neighbour = switch_value(args.neighbour_filter, "--neighbour-filter");
+  const std::optional<bool> residual = switch_value(args.residual_rejection, "--residual-rejection");
+  PartPlan plan = read_plan(args.plan);
+  override_outlier_stages(plan, neighbour, residual);
   // The command line overrides the plan's [part] table field by field.
   model_options.part = merged_identity(plan.part, given);
   if (model_options.part.timestamp.empty()) model_options.part.timestamp = utc_now();
@@ -169,6 +186,14 @@ void add_check_command(CLI::App& app, CommandResult& result) {
                     "ISO 8601 date-time of the measurement, e.g. 2026-12-02T17:40:00Z "
                     "(default: the plan's [part] time, else the run's UTC time; give it for "
                     "reproducible reports)");
+  check->add_option("--neighbour-filter", args->neighbour_filter,
+                    "on|off: remove the points the stray-point screen flags before fitting "
+                    "(overrides the plan's probe.neighbour_filter)")
+      ->check(CLI::IsMember({"on", "off"}));
+  check->add_option("--residual-rejection", args->residual_rejection,
+                    "on|off: remove points beyond 5 robust sigma of the least-squares residuals, "
+                    "refitting until stable (overrides the plan's probe.residual_rejection)")
+      ->check(CLI::IsMember({"on", "off"}));
   check->add_option("--note", args->notes,
                     "KEY=VALUE free text, repeatable (operator, machine, order, ...); replaces "
                     "the plan's note of the same key")

@@ -62,6 +62,34 @@ const PlanDatum* PartPlan::datum(char label) const noexcept {
   return nullptr;
 }
 
+// ---- Raw probe points (plan.hpp, "Raw probe points").
+
+ProbeSettings resolved_probe(const ProbeSettings& plan_wide, const ProbeOverrides& own) noexcept {
+  ProbeSettings s = plan_wide;
+  if (own.ball_centres) s.ball_centres = *own.ball_centres;
+  if (own.tip_diameter) s.tip_diameter = *own.tip_diameter;
+  if (own.neighbour_filter) s.neighbour_filter = *own.neighbour_filter;
+  if (own.residual_rejection) s.residual_rejection = *own.residual_rejection;
+  return s;
+}
+
+void override_outlier_stages(PartPlan& plan, std::optional<bool> neighbour_filter,
+                             std::optional<bool> residual_rejection) {
+  // A feature's own setting of the stage no longer applies.
+  const auto clear_overrides = [&](std::optional<bool> ProbeOverrides::*member) {
+    for (PlanDatum& d : plan.datums) (d.probe.*member).reset();
+    for (PlanBore& b : plan.bores) (b.probe.*member).reset();
+  };
+  if (neighbour_filter) {
+    plan.probe.neighbour_filter = *neighbour_filter;
+    clear_overrides(&ProbeOverrides::neighbour_filter);
+  }
+  if (residual_rejection) {
+    plan.probe.residual_rejection = *residual_rejection;
+    clear_overrides(&ProbeOverrides::residual_rejection);
+  }
+}
+
 PlanLocation PlanLocation::at(std::string_view name) const {
   PlanLocation location;
   const auto found = lines.find(name);

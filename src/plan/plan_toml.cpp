@@ -119,16 +119,18 @@ bool contains(const std::array<std::string_view, N>& names, std::string_view nam
 // Key sets of each table (docs/plan.md lists them with their meaning).
 constexpr auto kRootKeys =
     keys("format", "name", "units", "probe", "section_gap", "datum", "bore", "part");
-constexpr auto kProbeKeys = keys("points", "tip_diameter");
-constexpr auto kDatumAKeys = keys("feature", "points", "association", "material_side");
-constexpr auto kDatumBKeys = keys("feature", "points", "size", "mmb");
-constexpr auto kDatumCSizeKeys = keys("feature", "points", "basic", "size", "mmb");
-constexpr auto kDatumCPlaneKeys = keys("feature", "points", "outward_normal", "material_side");
-constexpr auto kDatumCAnyKeys =
-    keys("feature", "points", "basic", "size", "mmb", "outward_normal", "material_side");
-constexpr auto kBoreKeys = keys("id", "points", "basic", "direction", "depth", "size", "axis",
-                                "section_gap", "position", "perpendicularity", "cylindricity",
-                                "axis_direction");
+// Raw probe points: the same keys plan-wide ([probe]) and in a feature's own `probe` table.
+constexpr auto kProbeKeys = keys("points", "tip_diameter", "neighbour_filter", "residual_rejection");
+constexpr auto kDatumAKeys = keys("feature", "points", "association", "material_side", "probe");
+constexpr auto kDatumBKeys = keys("feature", "points", "size", "mmb", "probe");
+constexpr auto kDatumCSizeKeys = keys("feature", "points", "basic", "size", "mmb", "probe");
+constexpr auto kDatumCPlaneKeys =
+    keys("feature", "points", "outward_normal", "material_side", "probe");
+constexpr auto kDatumCAnyKeys = keys("feature", "points", "basic", "size", "mmb",
+                                     "outward_normal", "material_side", "probe");
+constexpr auto kBoreKeys =
+    keys("id", "points", "basic", "direction", "depth", "size", "axis", "section_gap",
+         "position", "perpendicularity", "cylindricity", "axis_direction", "probe");
 constexpr auto kSizeKeys = keys("lower", "upper");
 constexpr auto kDepthKeys = keys("top", "bottom");
 constexpr auto kPositionKeys = keys("tolerance", "modifier", "datums", "projected",
@@ -336,27 +338,44 @@ class PlanParser {
 
   // ------------------------------------------------------------------ [probe]
 
-  ProbeSettings read_probe(const toml::node& node) const {
-    const toml::table& table = as_table(node, "probe", "a [probe] table");
-    check_keys(table, "probe", kProbeKeys, "in [probe]");
-    ProbeSettings probe;
+  /// A probe table, plan-wide (`[probe]`, key path "probe") or a feature's own (e.g.
+  /// "bore[P3].probe"): every key optional, a value given overrides the plan-wide one.
+  ProbeOverrides read_probe_table(const toml::node& node, const std::string& path) const {
+    const toml::table& table = as_table(node, path, "a probe table");
+    check_keys(table, path, kProbeKeys, path == "probe" ? "in [probe]" : "in a probe table");
+    ProbeOverrides probe;
     if (const toml::node* points = table.get("points")) {
       const std::string expected = "\"surface\" or \"ball-centre\"";
-      const std::string value = read_string(*points, "probe.points", expected);
+      const std::string key = path + ".points";
+      const std::string value = read_string(*points, key, expected);
       if (value != "surface" && value != "ball-centre")
-        fail(line_of(*points), "probe.points",
+        fail(line_of(*points), key,
              "unknown kind of points " + quoted_for_message(value) + ": expected " + expected);
-      probe.ball_centres = value == "ball-centre";  // refused by validate_plan for now
+      probe.ball_centres = value == "ball-centre";
     }
     if (const toml::node* tip = table.get("tip_diameter")) {
       // A tip diameter of 0 stands for "not given" in ProbeSettings: a written 0 is refused here.
-      const double value = read_number(*tip, "probe.tip_diameter", "the tip diameter (a number)");
-      if (value == 0.0)
-        fail(line_of(*tip), "probe.tip_diameter",
-             "the tip diameter must be greater than zero (found 0)");
+      const std::string key = path + ".tip_diameter";
+      const double value = read_number(*tip, key, "the tip diameter (a number)");
+      if (value == 0.0) fail(line_of(*tip), key, "the tip diameter must be greater than zero (found 0)");
       probe.tip_diameter = value * mm_per_unit_;
     }
+    probe.neighbour_filter = read_switch(table, path, "neighbour_filter");
+    probe.residual_rejection = read_switch(table, path, "residual_rejection");
     return probe;
+  }
+
+  std::optional<bool> read_switch(const toml::table& table, const std::string& path,
+                                  std::string_view name) const {
+    const toml::node* node = table.get(name);
+    if (!node) return std::nullopt;
+    if (const auto* b = node->as_boolean()) return b->get();
+    fail(line_of(*node), join_path(path, name),
+         "expected true or false, found " + type_text(*node));
+  }
+
+  ProbeSettings read_probe(const toml::node& node) const {
+    return resolved_probe(ProbeSettings{}, read_probe_table(node, "probe"));
   }
 
   // ------------------------------------------------------------------ [datum.*]
@@ -432,6 +451,8 @@ class PlanParser {
                                           "a direction [x, y, z] in measurement coordinates");
 
     if (const toml::node* size = table.get("size")) d.size = read_size(*size, path + ".size");
+    if (const toml::node* probe = table.get("probe"))
+      d.probe = read_probe_table(*probe, path + ".probe");
     if (const toml::node* mmb = table.get("mmb"))
       d.mmb_size = read_length(*mmb, path + ".mmb", "the maximum material boundary (a number)");
 
@@ -526,6 +547,8 @@ class PlanParser {
     if (const toml::node* cylindricity = table.get("cylindricity"))
       bore.cylindricity = read_length(*cylindricity, path + ".cylindricity",
                                       "the cylindricity tolerance (a number)");
+    if (const toml::node* probe = table.get("probe"))
+      bore.probe = read_probe_table(*probe, path + ".probe");
     return bore;
   }
 

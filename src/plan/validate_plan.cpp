@@ -34,13 +34,7 @@ class PlanRules {
     const PlanLocation& top = plan_.where;
     if (plan_.name.find_first_not_of(" \t") == std::string::npos)
       fail(top.at("name"), "the part's name must not be empty");
-    if (plan_.probe.ball_centres)
-      fail(top.at("probe.points"),
-           "probe compensation of ball-centre points is not yet supported: export compensated "
-           "surface points");
-    // 0 means "not given" (ProbeSettings); the reader refuses a written 0.
-    if (plan_.probe.tip_diameter != 0.0)
-      positive_length(plan_.probe.tip_diameter, top.at("probe.tip_diameter"), "the tip diameter");
+    check_probe();
     if (plan_.section_gap)
       positive_length(*plan_.section_gap, top.at("section_gap"), "the section gap");
     check_datums();
@@ -101,6 +95,42 @@ class PlanRules {
       fail(at, "the lower limit " + shown(size.lower) + " must be less than the upper limit " +
                    shown(size.upper));
     bounded_length(size.upper, at.at("upper"), "the upper limit of size");
+  }
+
+  // ---- Raw probe points: tip diameters, and ball centres only with a tip to compensate by.
+
+  void check_probe() const {
+    const PlanLocation& top = plan_.where;
+    // 0 means "not given" (ProbeSettings); the reader refuses a written 0.
+    if (plan_.probe.tip_diameter != 0.0)
+      positive_length(plan_.probe.tip_diameter, top.at("probe.tip_diameter"), "the tip diameter");
+    for (const PlanDatum& d : plan_.datums)
+      check_feature_probe(d.probe, d.where, std::string("datum ") + d.label,
+                          d.kind == FeatureKind::bore && d.size ? std::optional<double>(d.size->lower)
+                                                                : std::nullopt);
+    for (const PlanBore& b : plan_.bores)
+      check_feature_probe(b.probe, b.where, "bore " + b.id,
+                          b.size ? std::optional<double>(b.size->lower) : std::nullopt);
+  }
+
+  /// One feature's probe settings; `smallest_hole` is a hole's lower limit of size, which the
+  /// stylus ball must pass.
+  void check_feature_probe(const ProbeOverrides& own, const PlanLocation& where,
+                           const std::string& feature, std::optional<double> smallest_hole) const {
+    if (own.tip_diameter)
+      positive_length(*own.tip_diameter, where.at("probe.tip_diameter"),
+                      "the tip diameter of " + feature);
+    const ProbeSettings probe = resolved_probe(plan_.probe, own);
+    if (!probe.ball_centres) return;
+    const PlanLocation at = own.ball_centres ? where.at("probe.points")
+                                             : plan_.where.at("probe.points");
+    if (!(probe.tip_diameter > 0.0))
+      fail(at, feature + "'s points are ball centres but no tip diameter is given: "
+                         "compensation needs probe.tip_diameter");
+    if (smallest_hole && probe.tip_diameter >= *smallest_hole)
+      fail(own.tip_diameter ? where.at("probe.tip_diameter") : plan_.where.at("probe.tip_diameter"),
+           "the tip diameter " + shown(probe.tip_diameter) + " " + unit_ + " does not fit " +
+               feature + " (lower limit of size " + shown(*smallest_hole) + " " + unit_ + ")");
   }
 
   // ---------------------------------------------------------------- datums

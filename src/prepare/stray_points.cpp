@@ -16,34 +16,11 @@
 #include "cylzone/prepare/neighbour_index.hpp"
 #include "detail/fit_support.hpp"
 #include "detail/parallel.hpp"
+#include "prepare/detail/robust_scale.hpp"
 #include "prepare/detail/stray_point_message.hpp"
 
 namespace cylzone {
 namespace {
-
-/// 1 / Phi^-1(3/4): makes the MAD a consistent estimate of a normal standard deviation
-/// (Rousseeuw & Croux 1993, from memory; common practice).
-constexpr double mad_to_sigma = 1.4826;
-
-/// Median of `values` (reordered in place); the mean of the two middle values for an even
-/// count. `values` must not be empty.
-double median_in_place(std::vector<double>& values) {
-  const std::size_t n = values.size();
-  if (n <= 32) {
-    // A neighbourhood: insertion sort is cheaper than selection at this size.
-    for (std::size_t i = 1; i < n; ++i)
-      for (std::size_t j = i; j > 0 && values[j] < values[j - 1]; --j)
-        std::swap(values[j], values[j - 1]);
-    return n % 2 == 1 ? values[n / 2] : 0.5 * (values[n / 2 - 1] + values[n / 2]);
-  }
-  const auto middle = values.begin() + static_cast<std::ptrdiff_t>(n / 2);
-  std::nth_element(values.begin(), middle, values.end());
-  const double upper = *middle;
-  if (n % 2 == 1) return upper;
-  // After nth_element everything before `middle` is <= it: the lower middle is their largest.
-  const double lower = *std::max_element(values.begin(), middle);
-  return 0.5 * (lower + upper);
-}
 
 /// Points per chunk of the screen's visit: fixed, so the chunks (and the result, which does not
 /// depend on them anyway) are the same for any thread count; below two chunks (a thread costs
@@ -58,13 +35,8 @@ void local_excesses(const NeighbourIndex& index, const Eigen::VectorXd& residual
   NeighbourIndex::Query query(k);
   std::vector<double> local;
   local.reserve(k);
-  for (const std::uint32_t* at = first; at != last; ++at) {
-    const Eigen::Index i = static_cast<Eigen::Index>(*at);
-    local.clear();
-    for (const std::uint32_t other : query.of_point(index, static_cast<std::size_t>(i)))
-      local.push_back(residuals(other));
-    excess[static_cast<std::size_t>(i)] = residuals(i) - median_in_place(local);
-  }
+  for (const std::uint32_t* at = first; at != last; ++at)
+    excess[*at] = detail::local_excess(index, query, residuals, *at, local);
 }
 
 void check_options(const StrayPointOptions& options) {
@@ -114,10 +86,7 @@ StrayPointReport find_stray_points(const Eigen::Matrix3Xd& points, const Eigen::
     local_excesses(index, residuals, k, order.data() + first, order.data() + last, excess);
   });
 
-  std::vector<double> spread = excess;
-  const double centre = median_in_place(spread);
-  for (double& e : spread) e = std::abs(e - centre);
-  report.robust_scale = mad_to_sigma * median_in_place(spread);
+  report.robust_scale = detail::robust_spread(excess).scale;
   report.screened = static_cast<std::size_t>(n);
 
   const double limit = std::max(options.threshold * report.robust_scale, options.floor);

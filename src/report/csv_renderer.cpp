@@ -29,7 +29,7 @@ std::string format_csv(const ReportModel& m) {
   const std::string caution = csv_field(safety_caution);
   std::ostringstream out;
   out << "part,bore,characteristic,reference,value,tolerance,bonus,allowed,comparison,verdict,"
-         "decisive,units,id,caution,part_id,serial,timestamp,notes,range_source,status,reason\n";
+         "decisive,units,id,caution,part_id,serial,timestamp,notes,range_source,status,reason,outliers_removed\n";
   // Identity columns, the same on every row: rows of many parts can be told apart.
   const std::string identity = csv_field(m.part.id) + ',' + csv_field(m.part.serial) + ',' +
                                csv_field(m.part.timestamp) + ',' +
@@ -46,7 +46,10 @@ std::string format_csv(const ReportModel& m) {
         << u.name() << ',' << csv_field(c.id) << ',' << caution << ',' << identity << ','
         << (source ? range_source_name(*source) : "") << ','
         << (c.not_evaluated.empty() ? "evaluated" : "not evaluated") << ','
-        << csv_field(c.not_evaluated) << '\n';
+        << csv_field(c.not_evaluated) << ',';
+    // Points the outlier stages removed from the bore's cloud (listed in the JSON report).
+    const FeaturePreparation* prepared = m.preparation_of("bore " + c.feature);
+    out << (prepared ? prepared->record.outliers.removed_count() : 0) << '\n';
   }
   return out.str();
 }

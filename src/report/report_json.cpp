@@ -418,6 +418,47 @@ std::size_t line_of(std::string_view bytes, std::size_t byte) {
 
 }  // namespace
 
+/// One outlier stage of a feature's preparation: what ran and every point it removed.
+json outlier_stage_json(const OutlierStageRecord& s, const ReportUnits& u) {
+  json removed = json::array();
+  for (const RemovedPoint& p : s.removed)
+    removed.push_back({{"point_number", p.index + 1},
+                       {"line", p.line ? json(p.line) : json(nullptr)},
+                       {"residual", u.length(p.residual)},
+                       {"envelope_contact", p.contact}});
+  return {{"enabled", s.enabled},
+          {"skipped", s.skipped.empty() ? json(nullptr) : json(s.skipped)},
+          {"examined", s.examined},
+          {"iterations", s.iterations},
+          {"robust_scale", u.length(s.robust_scale)},
+          {"kept_as_form", s.kept_as_form},
+          {"removed_count", s.removed.size()},
+          {"removed", removed}};
+}
+
+/// The prepare stage's record of every feature (docs/report-schema.md, "preparation").
+json preparation_json(const ReportModel& m) {
+  const ReportUnits& u = m.units;
+  json out = json::array();
+  for (const FeaturePreparation& p : m.preparation) {
+    const ProbeTipRecord& t = p.record.probe_tip;
+    out.push_back(
+        {{"role", p.role},
+         {"compensation",
+          {{"mode", std::string(compensation_mode_name(t.mode))},
+           {"tip_diameter", t.mode == CompensationMode::none ? json(nullptr)
+                                                             : json(u.length(t.tip_diameter))},
+           {"points", t.points},
+           {"vectors_reversed", t.vectors_reversed},
+           {"largest_vector_angle_deg", t.largest_vector_angle_deg}}},
+         {"neighbour_filter", outlier_stage_json(p.record.outliers.neighbour_filter, u)},
+         {"residual_rejection", outlier_stage_json(p.record.outliers.residual_rejection, u)},
+         {"removed_count", p.record.outliers.removed_count()},
+         {"warnings", p.record.outliers.warnings}});
+  }
+  return out;
+}
+
 std::string format_json(const ReportModel& m) {
   if (!m.evaluation)
     throw std::invalid_argument("format_json: the model has no evaluation (it was read back)");
@@ -455,6 +496,7 @@ std::string format_json(const ReportModel& m) {
   for (std::size_t k = 0; k < r.bores.size() && k < m.bores.size(); ++k)
     bores.push_back(bore_json(r.bores[k], m.bores[k], sensitivity_of(m, r.bores[k].id), m));
   j["bores"] = bores;
+  j["preparation"] = preparation_json(m);
   j["verdict"] = std::string(verdict_name(m.verdict));
   j["warnings"] = m.warnings;
   return j.dump(2) + "\n";

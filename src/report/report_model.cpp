@@ -149,6 +149,22 @@ std::optional<std::size_t> ReportModel::file_line(std::string_view role,
   return in->point_lines[index];
 }
 
+const FeaturePreparation* ReportModel::preparation_of(std::string_view role) const noexcept {
+  for (const FeaturePreparation& p : preparation)
+    if (p.role == role) return &p;
+  return nullptr;
+}
+
+bool ReportModel::points_prepared() const noexcept {
+  for (const FeaturePreparation& p : preparation) {
+    const PrepareRecord& r = p.record;
+    if (r.probe_tip.mode != CompensationMode::none || r.outliers.neighbour_filter.enabled ||
+        r.outliers.residual_rejection.enabled)
+      return true;
+  }
+  return false;
+}
+
 const BoreSummary* ReportModel::bore(std::string_view id) const noexcept {
   for (const BoreSummary& b : bores)
     if (b.id == id) return &b;
@@ -183,6 +199,19 @@ ReportModel make_report_model(const PartCheckResult& r, const ReportModelOptions
   m.part = options.part;
   m.inputs = r.inputs;
   m.evaluation = &r;
+  m.preparation = r.preparation;
+  // Where outliers were removed, the fits' point k is the file's point kept[k]: the lines that
+  // name stray points (file_line, with_file_lines) follow the points the fits used.
+  for (const FeaturePreparation& p : m.preparation) {
+    if (p.record.outliers.removed_count() == 0) continue;
+    for (InputRecord& in : m.inputs) {
+      if (in.role != p.role || in.point_lines.empty()) continue;
+      std::vector<std::size_t> lines;
+      for (std::size_t k : p.record.kept)
+        if (k < in.point_lines.size()) lines.push_back(in.point_lines[k]);
+      in.point_lines = std::move(lines);
+    }
+  }
 
   const DatumFrameResult& d = r.datums;
   DatumSummary a;

@@ -109,6 +109,46 @@ std::string wrapped(const std::string& opening, const std::string& text, std::si
 constexpr std::size_t feature_cap = 16;    ///< bore ids longer than this are shortened
 constexpr std::size_t reference_cap = 24;  ///< datum references and projected-zone labels
 
+/// What the prepare stage did to the points (compensation, outliers removed with their file
+/// lines), one note per feature it changed or examined.
+void preparation_lines(std::ostream& out, const ReportModel& m, std::size_t width) {
+  const ReportUnits& u = m.units;
+  out << "\nPreparation of the points\n";
+  for (const FeaturePreparation& p : m.preparation) {
+    const PrepareRecord& r = p.record;
+    std::string text;
+    if (r.probe_tip.mode != CompensationMode::none) {
+      text = "ball centres compensated by a tip of " + u.text(r.probe_tip.tip_diameter) + " " +
+             std::string(u.name()) + " " + std::string(compensation_mode_name(r.probe_tip.mode));
+      if (r.probe_tip.vectors_reversed) text += " (vectors reversed)";
+    }
+    for (const auto& [name, stage] : {std::pair{"neighbour filter", &r.outliers.neighbour_filter},
+                                      std::pair{"residual rejection", &r.outliers.residual_rejection}}) {
+      if (!stage->enabled) continue;
+      if (!text.empty()) text += "; ";
+      text += std::string(name) + ": ";
+      if (!stage->skipped.empty()) {
+        text += "not run (" + stage->skipped + ")";
+        continue;
+      }
+      text += std::to_string(stage->removed.size()) + " of " + std::to_string(stage->examined) +
+              " removed";
+      std::string lines;
+      std::size_t shown = 0;
+      for (const RemovedPoint& q : stage->removed) {
+        if (++shown > 10) {
+          lines += ", ...";
+          break;
+        }
+        lines += (lines.empty() ? "" : ", ") +
+                 (q.line ? "line " + std::to_string(q.line) : "#" + std::to_string(q.index + 1));
+      }
+      if (!lines.empty()) text += " (" + lines + ")";
+    }
+    if (!text.empty()) out << wrapped("  " + p.role + ": ", text, width, 4);
+  }
+}
+
 void datum_lines(std::ostream& out, const ReportModel& m, std::size_t width) {
   const ReportUnits& u = m.units;
   out << "Datum reference frame\n";
@@ -378,6 +418,8 @@ std::string format_table(const ReportModel& m, const TableOptions& options) {
     out << "\nShortened above:\n";
     shorten.list(out);
   }
+
+  if (m.points_prepared()) preparation_lines(out, m, options.width);
 
   for (const BoreSummary& b : m.bores)
     if (!b.mobility.empty()) out << "datum mobility, bore " << b.id << ": " << b.mobility << '\n';

@@ -36,7 +36,14 @@ void check_plan(const cylzone::PartPlan& plan) {
   for (std::size_t i = 1; i < plan.datums.size(); ++i)
     if (plan.datums[i].label != static_cast<char>('A' + i)) breach("datums out of order A, B, C");
   if (plan.bores.empty()) breach("a plan without bores");
-  if (plan.probe.ball_centres) breach("a plan of ball centres was accepted");
+  for (const cylzone::PlanDatum& d : plan.datums)
+    if (const auto s = cylzone::resolved_probe(plan.probe, d.probe);
+        s.ball_centres && !positive_finite(s.tip_diameter))
+      breach("ball centres accepted without a tip diameter");
+  for (const cylzone::PlanBore& b : plan.bores)
+    if (const auto s = cylzone::resolved_probe(plan.probe, b.probe);
+        s.ball_centres && !positive_finite(s.tip_diameter))
+      breach("ball centres accepted without a tip diameter");
   for (const cylzone::PlanDatum& d : plan.datums) {
     const std::string where = std::string("datum ") + d.label;
     check_size(d.size, where);

@@ -20,6 +20,7 @@
 #include "cylzone/decide/characteristic.hpp"
 #include "cylzone/evaluate/datum_mobility.hpp"
 #include "cylzone/plan/plan.hpp"
+#include "cylzone/prepare/prepare.hpp"
 
 namespace cylzone {
 
@@ -47,12 +48,24 @@ struct EvaluationOptions {
   std::size_t threads = hardware_threads();
 };
 
+/// What the prepare stage did to one feature's points (prepare.hpp): compensation, removed
+/// outliers; for the report.
+struct FeaturePreparation {
+  std::string role;  ///< the feature's input role: "datum A", "bore P3" (InputRecord::role)
+  PrepareRecord record;
+};
+
 struct PartEvaluation {
   DatumFrameResult datums;
   std::vector<BoreResult> bores;  ///< plan order
   /// Direction into the material at A (measurement coordinates): the plan's or inferred.
   Eigen::Vector3d material_side = Eigen::Vector3d::Zero();
   std::vector<std::string> warnings;
+  /// Every datum, then every bore, in plan order.
+  std::vector<FeaturePreparation> preparation;
+  /// The datum clouds the frame was built from (plan order), after compensation and outlier
+  /// rejection: association_sensitivity builds its frames from the same points.
+  std::vector<PointCloud> datum_clouds;
 };
 
 /// Evaluates the part. `inputs` must hold one cloud per plan datum and per plan bore, in plan

@@ -37,6 +37,8 @@ struct PartCheckResult {
   /// The part's decision: combine() over the characteristics.
   Verdict verdict = Verdict::conforms;
   std::vector<std::string> warnings;
+  /// What the prepare stage did to each feature's points, when the plan asked (evaluate_part).
+  std::vector<FeaturePreparation> preparation;
 };
 
 /// Runs the whole check: load_part_inputs, evaluate_part, check_plausibility (plausibility.hpp),

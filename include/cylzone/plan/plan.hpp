@@ -81,12 +81,32 @@ struct PlanLocation {
   PlanLocation at(std::string_view name) const;
 };
 
+// ---- Raw probe points: probe-tip compensation and outlier stages (docs/plan.md, "[probe]";
+// prepare/probe_compensation.hpp, prepare/outlier_rejection.hpp).
+
+/// The plan-wide settings of the raw points, and (resolved) one feature's.
 struct ProbeSettings {
-  /// Points are stylus-ball centres. A plan saying so is refused for now (compensation is not
-  /// yet supported), so a plan that was read always has surface points.
+  /// Points are stylus-ball centres, compensated by half the tip diameter in the prepare step
+  /// (validate_plan requires a tip diameter then).
   bool ball_centres = false;
-  double tip_diameter = 0.0;   ///< mm
+  double tip_diameter = 0.0;   ///< mm; 0: not given
+  bool neighbour_filter = false;    ///< outlier stage 1: remove the stray-point screen's flags
+  bool residual_rejection = false;  ///< outlier stage 2: Hampel's identifier after the fit
 };
+
+/// A feature's own `probe` table: each value given overrides the plan-wide one.
+struct ProbeOverrides {
+  std::optional<bool> ball_centres;
+  std::optional<double> tip_diameter;  ///< mm
+  std::optional<bool> neighbour_filter;
+  std::optional<bool> residual_rejection;
+  bool any() const noexcept {
+    return ball_centres || tip_diameter || neighbour_filter || residual_rejection;
+  }
+};
+
+/// The plan-wide settings with a feature's overrides applied.
+ProbeSettings resolved_probe(const ProbeSettings& plan_wide, const ProbeOverrides& own) noexcept;
 
 struct PlanDatum {
   char label = 'A';
@@ -109,6 +129,7 @@ struct PlanDatum {
   /// the plan's datum references: MMB when any position or perpendicularity references it at
   /// MMB (its shift must be known), else LMB when any does, else RMB. A plane is always RMB.
   MaterialBoundary boundary = MaterialBoundary::rmb;
+  ProbeOverrides probe;  ///< this datum's own `probe` table
   PlanLocation where;
 };
 
@@ -149,6 +170,7 @@ struct PlanBore {
   std::optional<double> section_gap;
   /// Plan key `axis_direction`: the axis direction fitted (default) or held at the nominal one.
   AxisDirection axis_direction = AxisDirection::fitted;
+  ProbeOverrides probe;  ///< this bore's own `probe` table
   PlanLocation where;
 };
 
@@ -189,12 +211,17 @@ struct PartPlan {
   const PlanDatum* datum(char label) const noexcept;
 };
 
+/// Turns an outlier stage on or off for the whole plan, a feature's own setting included (the
+/// command line overrides the plan). An empty optional leaves the stage as the plan says.
+void override_outlier_stages(PartPlan& plan, std::optional<bool> neighbour_filter,
+                             std::optional<bool> residual_rejection);
+
 /// Reads and validates a plan (validate_plan). Throws InputError (file, line, key, problem) on
 /// any error: syntax, unknown or missing keys, values of the wrong type, a missing point file,
 /// and every rule of validate_plan (unknown datum, negative or zero tolerance, a modifier on a
 /// datum that is not a feature of size, a bore with no tolerance, duplicate bore ids,
-/// ball-centre points, values beyond the plan's bounds, and so on). Messages quote user text
-/// escaped and bounded (quoted_for_message).
+/// ball-centre points without a tip diameter, values beyond the plan's bounds, and so on).
+/// Messages quote user text escaped and bounded (quoted_for_message).
 PartPlan read_plan(const std::filesystem::path& file);
 
 /// Same, from text; `file` names it in messages and is the base for relative paths.

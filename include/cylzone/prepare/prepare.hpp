@@ -2,9 +2,14 @@
 /// \file prepare.hpp
 /// The prepare stage: between loading a feature's points and fitting them. Every feature
 /// (datum or bore) passes through prepare_feature(), which returns the points the fits use and
-/// a record of what was done to them. Today it runs the stray-point screen (stray_points.hpp),
-/// which REPORTS suspect points and changes none; probe-tip compensation and outlier rejection
-/// belong here too, so that they change the points once, before any fit.
+/// a record of what was done to them, in this order:
+///  1. probe-tip compensation of ball centres (probe_compensation.hpp), when asked for;
+///  2. outlier rejection (outlier_rejection.hpp): the neighbour filter and the residual
+///     rejection, each when asked for; the removed points are recorded with their file lines;
+///  3. the stray-point screen (stray_points.hpp) of the points kept, which REPORTS suspect
+///     points and changes none.
+/// Steps 1 and 2 change the points once, before any fit; with neither asked for, the points
+/// come out unchanged, in file order.
 ///
 /// The screen judges each point by its residual from an associated element of the feature,
 /// the one its fits are compared with (docs/methods.md, "Stray-point screen"):
@@ -16,10 +21,15 @@
 
 #include <Eigen/Core>
 #include <optional>
+#include <string>
+#include <vector>
 
 #include "cylzone/fit/fit_types.hpp"
 #include "cylzone/io/point_cloud.hpp"
+#include "cylzone/plan/plan.hpp"
 #include "cylzone/plan/tolerance_types.hpp"
+#include "cylzone/prepare/outlier_rejection.hpp"
+#include "cylzone/prepare/probe_compensation.hpp"
 #include "cylzone/prepare/stray_points.hpp"
 
 namespace cylzone {
@@ -33,30 +43,61 @@ struct PrepareOptions {
   /// a plane; `threads` is the one thread option the preparation obeys.
   FitOptions fit;
   /// Plane: the direction out of the material along which residuals are positive. Required for
-  /// a plane unless `residuals` are given.
+  /// a plane's screen unless `residuals` are given; without it a plane's outlier stages are
+  /// skipped (recorded) and its ball centres need vectors.
   std::optional<Eigen::Vector3d> outward;
   /// The caller's residuals, one per point, used as given instead of an element of prepare's
-  /// own (required for a slot or a tab, whose faces only its association tells apart).
+  /// own (required for a slot or a tab, whose faces only its association tells apart). They
+  /// belong to the points as given: compensation is then refused, and outlier stages (which
+  /// refit the element) are skipped with the reason recorded.
   Eigen::VectorXd residuals;
+  /// The points are stylus-ball centres: compensate them first (probe_compensation.hpp). Its
+  /// `fit` and `outward` are taken from this struct's own.
+  std::optional<ProbeTipOptions> probe_tip;
+  /// Outlier stages (outlier_rejection.hpp); both off by default. Their `neighbours` are
+  /// replaced by `stray_points` (the screen's criterion and threads): the filter is the screen.
+  OutlierOptions outliers;
 };
 
 /// What preparation did to one feature's points, for the report.
 struct PrepareRecord {
+  /// Probe-tip compensation (mode none for surface points).
+  ProbeTipRecord probe_tip;
+  /// Points removed by each outlier stage, with their file lines, and the warnings.
+  OutlierRecord outliers;
+  /// Column of the given cloud of each prepared point (identity when nothing was removed):
+  /// the stray points' indices below refer to the prepared cloud, this maps them back.
+  std::vector<std::size_t> kept;
   /// Suspect points (which, and why: residual and local excess); none is removed.
   StrayPointReport stray_points;
 };
 
 struct PreparedFeature {
-  PointCloud cloud;  ///< the points the fits use (today every point, unchanged, in file order)
+  /// The points the fits use: compensated when they were ball centres, without the removed
+  /// outliers, in file order; `lines` follow the points.
+  PointCloud cloud;
   PrepareRecord record;
 };
 
 /// Prepares one feature's `cloud` (3 x n, the coordinates the caller fits in). Deterministic,
-/// no IO, no state. Throws FitError when the associated element cannot be fitted, and
+/// no IO, no state. Throws InputError as compensate_probe_tip does, FitError when the
+/// associated element cannot be fitted, and
 /// std::invalid_argument when a plane has no `outward`, a slot or tab no `residuals`, or the
 /// residuals' count differs from the points' (and as find_stray_points does for bad options).
 /// Too few points to screen (neighbours + 1) need no element: the report stays empty.
 PreparedFeature prepare_feature(FeatureKind kind, const PointCloud& cloud,
                                 const PrepareOptions& options = {});
+
+/// Writes one feature's raw-point settings (plan.hpp: resolved_probe) into `options`:
+/// compensation by half the tip diameter when its points are ball centres, and the outlier
+/// stages it turns on (with their default constants).
+void apply_probe_settings(const ProbeSettings& settings, PrepareOptions& options);
+
+/// The warnings a user must see from `record`: the outlier stages' (share removed, removed
+/// envelope contacts, stages skipped) and vectors written in the approach sense.
+std::vector<std::string> preparation_warnings(const PrepareRecord& record);
+
+/// True when the settings ask prepare_feature to change the points (compensate or remove).
+bool changes_points(const ProbeSettings& settings) noexcept;
 
 }  // namespace cylzone

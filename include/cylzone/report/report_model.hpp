@@ -165,6 +165,9 @@ struct ReportModel {
   std::vector<BoreSensitivity> sensitivity;
   Verdict verdict = Verdict::conforms;  ///< combine() of every characteristic
   std::vector<std::string> warnings;    ///< part-level
+  /// What the prepare stage did to each feature's points (datums, then bores): compensation,
+  /// outliers removed with their file lines. Empty in a model read back from JSON.
+  std::vector<FeaturePreparation> preparation;
   /// The result the model was built from, for the JSON report's detailed blocks (fits, datum
   /// geometry, stray points). Not owned: it must outlive the model. Null in a model read back
   /// from JSON (report_reader.hpp), which carries the summary only.
@@ -176,6 +179,11 @@ struct ReportModel {
   const InputRecord* input(std::string_view role) const noexcept;
   /// The file line of point `index` (0-based, data order) of the input `role`, when known.
   std::optional<std::size_t> file_line(std::string_view role, std::size_t index) const noexcept;
+  /// The prepare record of the input `role` ("datum A", "bore P3"), or null.
+  const FeaturePreparation* preparation_of(std::string_view role) const noexcept;
+  /// Whether any feature's points were compensated or passed an outlier stage (the table then
+  /// lists what was done).
+  bool points_prepared() const noexcept;
   /// The summary of the bore with this id, or null.
   const BoreSummary* bore(std::string_view id) const noexcept;
   /// Where the range of characteristic `c` comes from: its bore's depth profile for a position,
