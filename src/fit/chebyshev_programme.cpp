@@ -263,7 +263,7 @@ LinearStep ZoneProgramme::solve(const Eigen::VectorXd& d, const Eigen::MatrixXd&
 
 Eigen::VectorXd ZoneProgramme::farthest_step(const Eigen::VectorXd& d, const Eigen::MatrixXd& g,
                                              double delta, const Eigen::RowVectorXd& functional,
-                                             double offset_weight) {
+                                             double offset_weight, double allowance) {
   const double u0 = d.maxCoeff(), l0 = d.minCoeff();
   const Eigen::VectorXd g_l1 = g.cwiseAbs().rowwise().sum();
   std::vector<Constraint> rows = first_rows(d, g_l1, delta);
@@ -272,11 +272,13 @@ Eigen::VectorXd ZoneProgramme::farthest_step(const Eigen::VectorXd& d, const Eig
   load(lp, make_rows(d, g, u0, l0, delta, rows), 2.0 * g_l1.maxCoeff() + 1.0, p_);
 
   // Extra rows (constraint generation appends after them): the linearised objective no worse
-  // than the current element's (0 in these variables), and z_k - y_k >= 0, z_k + y_k >= 0. No
+  // than the current element's (0 in these variables; `allowance` worse for an exploring
+  // walk), and z_k - y_k >= 0, z_k + y_k >= 0. No
   // slack is given to the objective: the vertex would spend it on directions where the
   // objective rises to first order (a shift that adds a little to the component), and the
   // verification on the true objective would then find the tolerance used up before the flat
   // directions are. The tolerance is applied there, on the true objective, only.
+  const double worse = std::max(0.0, allowance) / delta;
   RowBlock extra;
   extra.starts.push_back(0);
   auto add = [&](std::initializer_list<std::pair<int, double>> entries, double lo, double hi) {
@@ -290,13 +292,13 @@ Eigen::VectorXd ZoneProgramme::farthest_step(const Eigen::VectorXd& d, const Eig
   };
   switch (objective_) {
     case ZoneObjective::minimum_zone:  // R' - r' <= 0
-      add({{upper_col_, 1.0}, {lower_col_, -1.0}}, -COIN_DBL_MAX, 0.0);
+      add({{upper_col_, 1.0}, {lower_col_, -1.0}}, -COIN_DBL_MAX, worse);
       break;
     case ZoneObjective::maximum_inscribed:  // -r' <= 0
-      add({{lower_col_, -1.0}}, -COIN_DBL_MAX, 0.0);
+      add({{lower_col_, -1.0}}, -COIN_DBL_MAX, worse);
       break;
     case ZoneObjective::minimum_circumscribed:  // R' <= 0
-      add({{upper_col_, 1.0}}, -COIN_DBL_MAX, 0.0);
+      add({{upper_col_, 1.0}}, -COIN_DBL_MAX, worse);
       break;
   }
   for (int k = 0; k < p_; ++k) {

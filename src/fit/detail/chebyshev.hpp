@@ -83,6 +83,10 @@ class ZoneModel {
   virtual Eigen::VectorXd displacements(const Eigen::VectorXd& step,
                                         const Eigen::VectorXd& distances_at_step,
                                         const Eigen::VectorXd& distances_here) const = 0;
+  /// The step from the current element to `other`'s current element (a model of the same
+  /// kind over the same points, e.g. a copy that was moved elsewhere): this element displaced
+  /// by the result is `other`'s. Used to compare distinct optima in one parametrisation.
+  virtual Eigen::VectorXd step_to(const ZoneModel& other) const = 0;
 };
 
 /// Radial distances |q_i - c| of points in a plane from a centre c (circles, and cylinders with
@@ -100,6 +104,7 @@ class CircleZoneModel final : public ZoneModel {
   DisplacementGauge displacement_gauge() const override;
   Eigen::VectorXd displacements(const Eigen::VectorXd& step, const Eigen::VectorXd& distances_at_step,
                                 const Eigen::VectorXd& distances_here) const override;
+  Eigen::VectorXd step_to(const ZoneModel& other) const override;
 
   const Eigen::Vector2d& centre() const noexcept { return centre_; }
 
@@ -129,6 +134,7 @@ class AxisZoneModel final : public ZoneModel {
   DisplacementGauge displacement_gauge() const override;
   Eigen::VectorXd displacements(const Eigen::VectorXd& step, const Eigen::VectorXd& distances_at_step,
                                 const Eigen::VectorXd& distances_here) const override;
+  Eigen::VectorXd step_to(const ZoneModel& other) const override;
 
   /// Current axis: point = foot of the perpendicular from the centroid, unit direction.
   Axis axis() const;
@@ -160,6 +166,7 @@ class PlaneZoneModel final : public ZoneModel {
   DisplacementGauge displacement_gauge() const override;
   Eigen::VectorXd displacements(const Eigen::VectorXd& step, const Eigen::VectorXd& distances_at_step,
                                 const Eigen::VectorXd& distances_here) const override;
+  Eigen::VectorXd step_to(const ZoneModel& other) const override;
 
   const Eigen::Vector3d& centroid() const noexcept { return centroid_; }
   Eigen::Vector3d normal() const { return basis_.col(2); }
@@ -207,6 +214,11 @@ struct ZoneOptions {
   /// tolerance.
   double ambiguity_box = 1e-6;
   double ambiguity_box_limit = 0.1;
+  /// A converged element that is not proven unique is also the start of exploring walks that
+  /// may lose up to this fraction of the data's size in objective, and of descents from their
+  /// ends: they find other local optima across low ridges (docs/chebyshev.md, "Non-unique
+  /// optima"). 0 turns the exploration off.
+  double exploration_allowance = 1e-10;
   /// Off: uniqueness is neither proven nor measured (FitOptions::assess_ambiguity).
   bool assess_ambiguity = true;
 };
