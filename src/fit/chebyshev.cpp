@@ -378,11 +378,13 @@ void explore_optima(ZoneModel& model, ZoneObjective objective, const ZoneOptions
     from.evaluate(x, at, nullptr);
     return largest_displacement(from, x, at, d_from);
   };
-  // The best objective wins. Equally good optima that the first one's own walks reach (a
-  // connected flat set, e.g. a cylinder that can roll) are the same optimum: the first stands.
-  // Distinct ones (mirror images) are ordered by `preferred`, whichever was found first.
+  // The best objective wins. Equally good optima that the first of them (in the order found)
+  // reaches by its own walks (a connected flat set, e.g. a cylinder that can roll) are the
+  // same optimum: that first one stands. Distinct ones (mirror images) are ordered by
+  // `preferred`, whichever was found first.
   double best = optima.front().f;
   for (const Optimum& o : optima) best = std::min(best, o.f);
+  auto tied = [&](const Optimum& o) { return o.f <= best + objective_tolerance(options, o.d); };
   // How far an optimum's own walks moved it within the tolerance (its flat set's reach).
   auto reach_of = [&](const Optimum& o) {
     double r = 0.0;
@@ -391,15 +393,15 @@ void explore_optima(ZoneModel& model, ZoneObjective objective, const ZoneOptions
         r = std::max(r, largest_displacement(*o.model, e.step, e.distances, o.d));
     return r;
   };
-  const Optimum& first = optima.front();
-  const double first_reach = reach_of(first);
-  const Optimum* chosen = nullptr;
-  for (const Optimum& o : optima) {
-    if (!(o.f <= best + objective_tolerance(options, o.d))) continue;
-    const bool distinct = &o == &first || displacement(*first.model, first.d, *o.model) >
-                                              2.0 * first_reach + 10.0 * resolution;
-    if (distinct && (!chosen || preferred(o.d, chosen->d, resolution))) chosen = &o;
-  }
+  const Optimum* base = nullptr;
+  for (const Optimum& o : optima)
+    if (!base && tied(o)) base = &o;
+  const double base_reach = reach_of(*base);
+  const Optimum* chosen = base;
+  for (const Optimum& o : optima)
+    if (&o != base && tied(o) && preferred(o.d, chosen->d, resolution) &&
+        displacement(*base->model, base->d, *o.model) > 2.0 * base_reach + 10.0 * resolution)
+      chosen = &o;
   const double limit = chosen->f + objective_tolerance(options, chosen->d);
 
   const ZoneModel& here = *chosen->model;
@@ -423,7 +425,7 @@ void explore_optima(ZoneModel& model, ZoneObjective objective, const ZoneOptions
   }
   summary.ambiguity = worst > resolution ? worst : 0.0;
   summary.proven_unique = chosen->unique && summary.ambiguity == 0.0;
-  if (&here != first.model.get()) {  // the first is the model's own element
+  if (chosen != &optima.front()) {  // the first is the model's own element
     model.move(model.step_to(here));
     model.evaluate(Eigen::VectorXd::Zero(p), d, nullptr);
   }
