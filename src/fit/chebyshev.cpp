@@ -283,7 +283,7 @@ bool preferred(const Eigen::VectorXd& a, const Eigen::VectorXd& b, double resolu
 void explore_optima(ZoneModel& model, ZoneObjective objective, const ZoneOptions& options,
                     ZoneProgramme& programme, Eigen::VectorXd& d, ZoneSummary& summary) {
   // At most this many further descents: each costs a few linear programmes and walks.
-  constexpr int most_descents = 24;
+  constexpr int most_descents = 16;
   const Eigen::Index n = model.point_count();
   const int p = model.parameter_count();
   const double scale = options.scale > 0.0 ? options.scale : 1.0;
@@ -342,20 +342,24 @@ void explore_optima(ZoneModel& model, ZoneObjective objective, const ZoneOptions
       const double tolerance = objective_tolerance(options, o.d);
       double reach = 0.0;
       std::vector<Eigen::VectorXd> starts;
+      double best_so_far = o.f;
+      for (const Optimum& other : optima) best_so_far = std::min(best_so_far, other.f);
       if (proven_unique(from, objective, options, s.programme, o.d, allowance, reach)) {
         o.unique = true;
-      } else {
+      } else if (o.f <= best_so_far + tolerance) {
+        // The walks measure the ambiguity of an optimum that may be reported; one already
+        // beaten cannot be, and its near-optimal set lies outside the best one's tolerance.
         o.ends = walk_ends(from, objective, options, o.d, 0.0, summary.ambiguity_programmes);
         for (const WalkEnd& e : o.ends)
           if (e.objective < o.f - tolerance) starts.push_back(e.step);
       }
       // A proven optimum whose objective rises past the allowance before a reference point
-      // can move by a tenth of the warning length (to first order) is sharp: explorers would
-      // stay within that reach of it, where another optimum could not raise the ambiguity to a
-      // figure worth a warning, and a descent from their ends comes back to it. Only flat
-      // optima (all those not proven, and proven ones like the mirror-image pair of a bent
-      // bore) are explored; the others pay nothing.
-      if (allowance > tolerance && reach > 0.1 * ambiguity_warning_length)
+      // can move by the warning length (to first order) is sharp: explorers stay within that
+      // reach of it, where another optimum could not raise the ambiguity to a figure worth a
+      // warning, and descents from their ends come back to it. Only flat optima (all those not
+      // proven, and proven ones about as flat as the mirror-image pair of a bent bore) are
+      // explored; the others pay nothing.
+      if (allowance > tolerance && reach > ambiguity_warning_length)
         for (const WalkEnd& e : walk_ends(from, objective, options, o.d, allowance,
                                           summary.ambiguity_programmes))
           starts.push_back(e.step);

@@ -31,6 +31,8 @@ constexpr double gauge_bound = 2.5;
 
 /// A walk along the near-optimal set takes at most this many linear programmes.
 constexpr int longest_walk = 16;
+/// An exploring walk (allowance > 0) at most this many.
+constexpr int longest_exploration = 6;
 
 /// Largest displacement of a reference point: the norm of each group of `dimension` rows.
 double largest_displacement(const Eigen::VectorXd& components, int dimension) {
@@ -172,7 +174,9 @@ Eigen::VectorXd walk(const ZoneModel& model, ZoneObjective objective, const Zone
   distances = d;
   double box = std::min(options.ambiguity_box * scale, largest_box);
   double walked = 0.0;
-  for (int leg = 0; leg < longest_walk; ++leg) {
+  // An exploring walk only has to cross a low ridge near the optimum; its end starts a descent.
+  const int legs = allowance > 0.0 ? longest_exploration : longest_walk;
+  for (int leg = 0; leg < legs; ++leg) {
     const std::unique_ptr<ZoneModel> near =
         model.subset(near_bounds(objective, distances, reach_factor * box));
     near->evaluate(x, d_near, &g_near);
