@@ -20,7 +20,11 @@
 // final contacts are refined by Newton's method on the optimality (KKT) conditions, which
 // places the element exactly where the objective alone cannot (fewer contacts than unknowns).
 // Finally the engine decides whether the optimum is unique and, when it cannot prove it,
-// measures how far the element can move without a worse objective (ZoneSummary::ambiguity).
+// measures how far the element can move without a worse objective (ZoneSummary::ambiguity);
+// a flat optimum is also explored for other local optima (a first-order descent stops at
+// whichever its start leads to), the best is returned, and of distinct equally good ones the
+// one the points themselves prefer, so that the result depends neither on the start nor on the
+// part's placement.
 // docs/chebyshev.md describes the method.
 
 #include <Eigen/Core>
@@ -235,11 +239,13 @@ struct ZoneSummary {
   /// The final contacts determine the element to first order (full rank, positive
   /// multipliers): the optimum is unique and `ambiguity` is 0 without further work.
   bool proven_unique = false;
-  /// Largest verified displacement of the element's reference points (DisplacementGauge) among
-  /// elements whose objective is within the tolerance of the optimum's; 0 when proven unique
-  /// and when the iteration did not converge (not assessed).
+  /// Largest verified displacement of the element's reference points (DisplacementGauge), from
+  /// the returned element to any element found whose objective is within the tolerance of the
+  /// optimum's: the ends of the walks along its near-optimal set and the other distinct optima
+  /// found by the exploration; 0 when proven unique and when the iteration did not converge
+  /// (not assessed).
   double ambiguity = 0.0;
-  int ambiguity_programmes = 0;  ///< linear programmes solved to measure it
+  int ambiguity_programmes = 0;  ///< linear programmes solved to measure it and to explore
   /// Why the ambiguity could not be measured (a linear programme failed); empty otherwise.
   std::string ambiguity_failure;
 };
