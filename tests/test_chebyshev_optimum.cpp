@@ -26,6 +26,7 @@
 #include <algorithm>
 #include <cmath>
 #include <iomanip>
+#include <memory>
 #include <limits>
 #include <sstream>
 #include <string>
@@ -34,6 +35,7 @@
 #include "case_file.hpp"
 #include "cylzone/core/errors.hpp"
 #include "cylzone/fit/fit_cylinder.hpp"
+#include "fit/detail/chebyshev.hpp"
 
 using namespace cylzone;
 
@@ -193,6 +195,32 @@ TEST_CASE("bent bore: minimum zone and minimum circumscribed do not depend on th
       CHECK(ends_apart(fit.axis, reference.axis) <= fit.ambiguity + reference.ambiguity + 1e-9);
       CHECK(fit.ambiguity > 5e-5);
     }
+  }
+}
+
+TEST_CASE("a zone model's step to a moved copy is the step that moved it",
+          "[chebyshev][optimum]") {
+  // Distinct optima are compared in one parametrisation (ZoneModel::step_to): for each model,
+  // a copy moved by a step x must be reached from the original by x again (the parametrisations
+  // are exact: an axis through (shift, 0) along (tilt / L, 1), a centre shift, a normal
+  // (slope / L, 1)).
+  std::vector<Eigen::Index> all(200);
+  for (std::size_t i = 0; i < all.size(); ++i) all[i] = static_cast<Eigen::Index>(i);
+  Eigen::Matrix3Xd points = Eigen::Matrix3Xd::Random(3, 200) * 20.0;
+  points.colwise() += Eigen::Vector3d(300.0, -120.0, 45.0);
+  const Eigen::Vector3d direction = Eigen::Vector3d(0.2, -0.4, 1.0).normalized();
+  detail::AxisZoneModel axis(points, Axis{Eigen::Vector3d(301.0, -119.0, 40.0), direction});
+  detail::PlaneZoneModel plane(points, direction);
+  detail::CircleZoneModel circle(points.topRows<2>(), Eigen::Vector2d(299.0, -121.0));
+  for (detail::ZoneModel* model : {static_cast<detail::ZoneModel*>(&axis),
+                                   static_cast<detail::ZoneModel*>(&plane),
+                                   static_cast<detail::ZoneModel*>(&circle)}) {
+    const Eigen::VectorXd step = Eigen::VectorXd::LinSpaced(model->parameter_count(), 0.3, -0.7);
+    const std::unique_ptr<detail::ZoneModel> moved = model->subset(all);
+    moved->move(step);
+    INFO(model->parameter_count() << " parameters");
+    CHECK((model->step_to(*moved) - step).lpNorm<Eigen::Infinity>() < 1e-12);
+    CHECK(moved->step_to(*moved).lpNorm<Eigen::Infinity>() < 1e-12);
   }
 }
 
