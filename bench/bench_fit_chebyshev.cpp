@@ -12,6 +12,11 @@
 // and two stops at the ends, so the mating envelope is not unique and its ambiguity
 // (about 0.5 um) has to be walked out.
 //
+// A third bore times the exploration of flat optima: a bore bent in one plane (section centres
+// x = 0.010 (z/40)^2 mm over 40 mm, D10, 72 points per section at equal angles, as many
+// sections as the size allows, no noise), whose maximum-inscribed cylinder has two
+// mirror-image optima (tests/test_chebyshev_optimum.cpp), line "max-inscribed/bent".
+//
 //   bench_fit_chebyshev [--sizes 1000,10000,...] [--runs N]
 #include <Eigen/Geometry>
 #include <algorithm>
@@ -75,6 +80,20 @@ Eigen::Matrix3Xd make_rolling_bore(Eigen::Index n, std::uint64_t seed) {
   return p;
 }
 
+/// The bore bent in one plane, n points rounded to whole sections of 72.
+Eigen::Matrix3Xd make_bent_bore(Eigen::Index n) {
+  const Eigen::Index per = 72, sections = std::max<Eigen::Index>(2, n / per);
+  Eigen::Matrix3Xd p(3, per * sections);
+  for (Eigen::Index s = 0; s < sections; ++s)
+    for (Eigen::Index k = 0; k < per; ++k) {
+      const double z = 40.0 * static_cast<double>(s) / static_cast<double>(sections - 1);
+      const double a = 2.0 * pi * static_cast<double>(k) / static_cast<double>(per);
+      p.col(s * per + k) =
+          Eigen::Vector3d(0.010 * (z / 40.0) * (z / 40.0) + 5.0 * std::cos(a), 5.0 * std::sin(a), z);
+    }
+  return p;
+}
+
 double process_cpu_ms() {
   timespec t;
   clock_gettime(CLOCK_PROCESS_CPUTIME_ID, &t);
@@ -112,15 +131,16 @@ int main(int argc, char** argv) {
   struct Method {
     const char* name;
     Fit fit;
-    bool rolling;  // on the bore with the rolling construction
+    int bore;  // 0 the lobed bore, 1 with the rolling construction, 2 the bent bore
   };
   const std::vector<Method> methods = {
-      {"least-squares", [](const Eigen::Matrix3Xd& p) { return cylzone::fit_cylinder_least_squares(p); }, false},
-      {"minimum-zone", [](const Eigen::Matrix3Xd& p) { return cylzone::fit_cylinder_minimum_zone(p); }, false},
-      {"max-inscribed", inscribed, false},
+      {"least-squares", [](const Eigen::Matrix3Xd& p) { return cylzone::fit_cylinder_least_squares(p); }, 0},
+      {"minimum-zone", [](const Eigen::Matrix3Xd& p) { return cylzone::fit_cylinder_minimum_zone(p); }, 0},
+      {"max-inscribed", inscribed, 0},
       {"min-circumscribed",
-       [](const Eigen::Matrix3Xd& p) { return cylzone::fit_cylinder_minimum_circumscribed(p); }, false},
-      {"max-inscribed/roll", inscribed, true},
+       [](const Eigen::Matrix3Xd& p) { return cylzone::fit_cylinder_minimum_circumscribed(p); }, 0},
+      {"max-inscribed/roll", inscribed, 1},
+      {"max-inscribed/bent", inscribed, 2},
   };
 
   std::printf("%9s  %-18s %10s %10s %10s %5s %10s  %s\n", "points", "method", "best ms",
@@ -128,8 +148,9 @@ int main(int argc, char** argv) {
   for (Eigen::Index n : sizes) {
     const Eigen::Matrix3Xd lobed = make_lobed_bore(n, 42);
     const Eigen::Matrix3Xd rolling = make_rolling_bore(n, 42);
-    for (const auto& [name, fit, roll] : methods) {
-      const Eigen::Matrix3Xd& points = roll ? rolling : lobed;
+    const Eigen::Matrix3Xd bent = make_bent_bore(n);
+    for (const auto& [name, fit, bore] : methods) {
+      const Eigen::Matrix3Xd& points = bore == 2 ? bent : bore == 1 ? rolling : lobed;
       std::vector<double> wall;
       cylzone::CylinderFit last;
       const double cpu0 = process_cpu_ms();

@@ -161,8 +161,17 @@ bool polish_on_contacts(ZoneModel& model, ZoneObjective objective,
 
 // ------------------------------------------------------------------ trust-region iteration
 
-ZoneSummary solve_zone(ZoneModel& model, ZoneObjective objective, const ZoneOptions& options) {
-  const Eigen::Index n = model.point_count();
+namespace {
+
+/// One descent of the sequential linear programme from the model's current element to a
+/// first-order stationary element (or the iteration limit, or an escape of a maximum-inscribed
+/// element from the points' hull), finished by the Newton refinement on its contacts. On return
+/// `programme` is the programme solved at the final element and `d` the distances there;
+/// `programmes` counts the linear programmes of the iteration, `summary` records the largest
+/// one and whether the polish ran.
+ZoneStatus descend(ZoneModel& model, ZoneObjective objective, const ZoneOptions& options,
+                   ZoneProgramme& programme, Eigen::VectorXd& d, ZoneSummary& summary,
+                   int& programmes) {
   const int p = model.parameter_count();
   const double scale = options.scale > 0.0 ? options.scale : 1.0;
   const double length_tolerance = options.step_tolerance * scale;
@@ -171,25 +180,26 @@ ZoneSummary solve_zone(ZoneModel& model, ZoneObjective objective, const ZoneOpti
   delta = std::min(std::max(delta, 10.0 * length_tolerance), largest_radius);
   const Eigen::VectorXd no_step = Eigen::VectorXd::Zero(p);
 
-  ZoneSummary summary;
-  Eigen::VectorXd d, trial;
+  Eigen::VectorXd trial;
   Eigen::MatrixXd g;
   model.evaluate(no_step, d, &g);
   double f = true_objective(objective, d);
   const bool watch_location = objective == ZoneObjective::maximum_inscribed;
   auto escaped = [&] { return watch_location && model.location_offset() > options.location_limit; };
 
-  ZoneProgramme programme(objective, options, n, p);
+  ZoneStatus status = ZoneStatus::converged;
   bool programme_is_current = false;  // the last linear programme was set up at this element
+  int iterations = 0;
   if (escaped()) {
-    summary.status = ZoneStatus::unbounded;
+    status = ZoneStatus::unbounded;
   } else {
     for (;;) {
-      if (summary.iterations >= options.max_iterations) {
-        summary.status = ZoneStatus::iteration_limit;
+      if (iterations >= options.max_iterations) {
+        status = ZoneStatus::iteration_limit;
         break;
       }
-      ++summary.iterations;
+      ++iterations;
+      ++programmes;
       const LinearStep s = programme.solve(d, g, delta);
       programme_is_current = true;
       summary.largest_working_set = std::max(summary.largest_working_set, s.rows);
@@ -211,7 +221,7 @@ ZoneSummary solve_zone(ZoneModel& model, ZoneObjective objective, const ZoneOpti
         f = true_objective(objective, d);
         programme_is_current = false;
         if (escaped()) {
-          summary.status = ZoneStatus::unbounded;
+          status = ZoneStatus::unbounded;
           break;
         }
         if (ratio >= 0.75 && step_length >= 0.5 * delta)
@@ -234,7 +244,7 @@ ZoneSummary solve_zone(ZoneModel& model, ZoneObjective objective, const ZoneOpti
     }
   }
 
-  if (summary.status == ZoneStatus::converged) {
+  if (status == ZoneStatus::converged) {
     if (!programme_is_current) programme.solve(d, g, std::max(delta, 10.0 * length_tolerance));
     if (polish_on_contacts(model, objective, programme.binding(), programme.multipliers(),
                            scale)) {
@@ -243,8 +253,197 @@ ZoneSummary solve_zone(ZoneModel& model, ZoneObjective objective, const ZoneOpti
     }
     // The polish keeps the programme's contacts, so its binding rows and multipliers still
     // describe the optimum.
-    if (options.assess_ambiguity) assess_uniqueness(model, objective, options, programme, d, summary);
   }
+  return status;
+}
+
+/// Of two equally good optima, the one to report: a choice that depends on the points alone,
+/// not on their placement (distances are invariant under rigid motion) nor on the start or
+/// the sense of its axis. The first point (in the cloud's order) whose distance differs by
+/// more than `resolution` decides; the element farther from it is taken.
+bool preferred(const Eigen::VectorXd& a, const Eigen::VectorXd& b, double resolution) {
+  for (Eigen::Index i = 0; i < a.size(); ++i)
+    if (std::abs(a(i) - b(i)) > resolution) return a(i) > b(i);
+  return false;
+}
+
+/// A converged element that is not proven unique may be a stationary point that is not an
+/// optimum: where a contact's distance is flat to first order along some motion but convex
+/// along it (a bore bent in one plane: shifting the inscribed axis across the plane of the bend
+/// moves it away from every contact, to second order), the linear programme predicts no gain
+/// and the descent stops, at an element that depends on the start (the sense of its axis, the
+/// programme's ties). The walks along the near-optimal set (walk_ends) pass such motions; an
+/// end with a better objective starts a new descent. All stationary elements found are kept;
+/// the best objective wins, and equally good ones (within the objective tolerance: e.g.
+/// mirror-image optima of a symmetric bore) are ordered by `preferred`, so the result does not
+/// depend on the start. The ambiguity is the largest displacement of the reported element's
+/// reference points to any element found whose objective is within the tolerance of its own:
+/// the other optima and the ends of every optimum's walks (docs/chebyshev.md, "Non-unique
+/// optima"). Leaves the reported element in `model` and its distances in `d`.
+void explore_optima(ZoneModel& model, ZoneObjective objective, const ZoneOptions& options,
+                    ZoneProgramme& programme, Eigen::VectorXd& d, ZoneSummary& summary) {
+  // At most this many further descents: each costs a few linear programmes and walks.
+  constexpr int most_descents = 16;
+  const Eigen::Index n = model.point_count();
+  const int p = model.parameter_count();
+  const double scale = options.scale > 0.0 ? options.scale : 1.0;
+  const double resolution = displacement_resolution(options);
+  // How much worse the exploring walks may go: far above the objective tolerance (64 ulp), so
+  // that they cross the ridges between local optima whose objectives differ by far less than
+  // any measurement could show (1e-10 mm on a bore bent by 10 um), and small enough that the
+  // walks stay near the optimum.
+  const double allowance = options.exploration_allowance * scale;
+  std::vector<Eigen::Index> all(static_cast<std::size_t>(n));
+  for (Eigen::Index i = 0; i < n; ++i) all[static_cast<std::size_t>(i)] = i;
+
+  struct Stationary {
+    std::unique_ptr<ZoneModel> model;
+    Eigen::VectorXd d;
+    ZoneProgramme programme;
+  };
+  struct Optimum {
+    std::unique_ptr<ZoneModel> model;
+    Eigen::VectorXd d;
+    double f = 0.0;
+    std::vector<WalkEnd> ends;
+    bool unique = false;  // proven by its contacts (no walks)
+  };
+  std::vector<Optimum> optima;
+  std::vector<Stationary> pending;
+  pending.push_back({model.subset(all), d, programme});
+  int descents = 0;
+  Eigen::VectorXd at;
+  // Whether a stationary element is one already found (to well below any figure reported).
+  auto known = [&](const ZoneModel& element) {
+    for (const Optimum& o : optima) {
+      const Eigen::VectorXd x = o.model->step_to(element);
+      o.model->evaluate(x, at, nullptr);
+      if (largest_displacement(*o.model, x, at, o.d) <= 10.0 * resolution) return true;
+    }
+    return false;
+  };
+  auto descend_from = [&](const ZoneModel& from, const Eigen::VectorXd& step) {
+    if (descents >= most_descents) return;
+    ++descents;
+    Stationary next{from.subset(all), {}, ZoneProgramme(objective, options, n, p)};
+    next.model->move(step);
+    if (descend(*next.model, objective, options, next.programme, next.d, summary,
+                summary.ambiguity_programmes) == ZoneStatus::converged)
+      pending.push_back(std::move(next));
+  };
+  try {
+    while (!pending.empty()) {
+      Stationary s = std::move(pending.front());
+      pending.erase(pending.begin());
+      if (known(*s.model)) continue;
+      optima.push_back({std::move(s.model), s.d, true_objective(objective, s.d), {}, false});
+      Optimum& o = optima.back();
+      const ZoneModel& from = *o.model;
+      const double tolerance = objective_tolerance(options, o.d);
+      double reach = 0.0;
+      std::vector<Eigen::VectorXd> starts;
+      double best_so_far = o.f;
+      for (const Optimum& other : optima) best_so_far = std::min(best_so_far, other.f);
+      if (proven_unique(from, objective, options, s.programme, o.d, allowance, reach)) {
+        o.unique = true;
+      } else if (o.f <= best_so_far + tolerance) {
+        // The walks measure the ambiguity of an optimum that may be reported; one already
+        // beaten cannot be, and its near-optimal set lies outside the best one's tolerance.
+        o.ends = walk_ends(from, objective, options, o.d, 0.0, summary.ambiguity_programmes);
+        for (const WalkEnd& e : o.ends)
+          if (e.objective < o.f - tolerance) starts.push_back(e.step);
+      }
+      // A proven optimum whose objective rises past the allowance before a reference point
+      // can move by the warning length (to first order) is sharp: explorers stay within that
+      // reach of it, where another optimum could not raise the ambiguity to a figure worth a
+      // warning, and descents from their ends come back to it. Only flat optima (all those not
+      // proven, and proven ones about as flat as the mirror-image pair of a bent bore) are
+      // explored; the others pay nothing.
+      if (allowance > tolerance && reach > ambiguity_warning_length)
+        for (const WalkEnd& e : walk_ends(from, objective, options, o.d, allowance,
+                                          summary.ambiguity_programmes))
+          starts.push_back(e.step);
+      for (const Eigen::VectorXd& step : starts) descend_from(*optima.back().model, step);
+    }
+  } catch (const FitError& e) {
+    // The element itself is valid; only its uniqueness is unknown, and is reported so.
+    summary.ambiguity_failure = e.what();
+  }
+  if (optima.empty()) return;
+  if (optima.size() == 1 && optima.front().unique) {
+    summary.proven_unique = true;
+    return;
+  }
+
+  // Displacement of the reference points of `from` to `element`.
+  auto displacement = [&](const ZoneModel& from, const Eigen::VectorXd& d_from,
+                          const ZoneModel& element) {
+    const Eigen::VectorXd x = from.step_to(element);
+    from.evaluate(x, at, nullptr);
+    return largest_displacement(from, x, at, d_from);
+  };
+  // The best objective wins. Equally good optima that the first of them (in the order found)
+  // reaches by its own walks (a connected flat set, e.g. a cylinder that can roll) are the
+  // same optimum: that first one stands. Distinct ones (mirror images) are ordered by
+  // `preferred`, whichever was found first.
+  double best = optima.front().f;
+  for (const Optimum& o : optima) best = std::min(best, o.f);
+  auto tied = [&](const Optimum& o) { return o.f <= best + objective_tolerance(options, o.d); };
+  // How far an optimum's own walks moved it within the tolerance (its flat set's reach).
+  auto reach_of = [&](const Optimum& o) {
+    double r = 0.0;
+    for (const WalkEnd& e : o.ends)
+      if (e.objective <= o.f + objective_tolerance(options, o.d))
+        r = std::max(r, largest_displacement(*o.model, e.step, e.distances, o.d));
+    return r;
+  };
+  const Optimum* base = nullptr;
+  for (const Optimum& o : optima)
+    if (!base && tied(o)) base = &o;
+  const double base_reach = reach_of(*base);
+  const Optimum* chosen = base;
+  for (const Optimum& o : optima)
+    if (&o != base && tied(o) && preferred(o.d, chosen->d, resolution) &&
+        displacement(*base->model, base->d, *o.model) > 2.0 * base_reach + 10.0 * resolution)
+      chosen = &o;
+  const double limit = chosen->f + objective_tolerance(options, chosen->d);
+
+  const ZoneModel& here = *chosen->model;
+  const Eigen::VectorXd& here_d = chosen->d;
+
+  // The ambiguity: from the reported element to every element found within the tolerance.
+  double worst = 0.0;
+  for (const Optimum& o : optima) {
+    if (!(o.f <= limit)) continue;
+    if (&here != o.model.get()) worst = std::max(worst, displacement(here, here_d, *o.model));
+    for (const WalkEnd& e : o.ends) {
+      if (!(e.objective <= limit)) continue;
+      if (&here == o.model.get()) {  // its own walks: the step is in its parametrisation
+        worst = std::max(worst, largest_displacement(here, e.step, e.distances, here_d));
+        continue;
+      }
+      const std::unique_ptr<ZoneModel> moved = o.model->subset(all);
+      moved->move(e.step);
+      worst = std::max(worst, displacement(here, here_d, *moved));
+    }
+  }
+  summary.ambiguity = worst > resolution ? worst : 0.0;
+  summary.proven_unique = chosen->unique && summary.ambiguity == 0.0;
+  if (chosen != &optima.front()) {  // the first is the model's own element
+    model.move(model.step_to(here));
+    model.evaluate(Eigen::VectorXd::Zero(p), d, nullptr);
+  }
+}
+
+}  // namespace
+
+ZoneSummary solve_zone(ZoneModel& model, ZoneObjective objective, const ZoneOptions& options) {
+  ZoneSummary summary;
+  Eigen::VectorXd d;
+  ZoneProgramme programme(objective, options, model.point_count(), model.parameter_count());
+  summary.status = descend(model, objective, options, programme, d, summary, summary.iterations);
+  if (summary.status == ZoneStatus::converged && options.assess_ambiguity)
+    explore_optima(model, objective, options, programme, d, summary);
   // The polish may have run earlier, but the message reports how the final element was found.
 
   summary.distances = std::move(d);
@@ -254,7 +453,7 @@ ZoneSummary solve_zone(ZoneModel& model, ZoneObjective objective, const ZoneOpti
       summary.message = "converged in " + std::to_string(summary.iterations) +
                         " linear programmes (at most " + rows + " rows)" +
                         (summary.polished ? ", contacts refined by Newton's method" : "") +
-                        (summary.ambiguity_programmes > 0
+                        (summary.ambiguity_programmes > 0 && !summary.proven_unique
                              ? "; not proven unique, " +
                                    std::to_string(summary.ambiguity_programmes) +
                                    " linear programmes measured its ambiguity"

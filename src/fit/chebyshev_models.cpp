@@ -78,6 +78,10 @@ Eigen::VectorXd CircleZoneModel::displacements(const Eigen::VectorXd& step,
   return step.head<2>();
 }
 
+Eigen::VectorXd CircleZoneModel::step_to(const ZoneModel& other) const {
+  return dynamic_cast<const CircleZoneModel&>(other).centre_ - centre_;
+}
+
 AxisZoneModel::AxisZoneModel(Eigen::Matrix3Xd points, const Axis& start)
     : points_(std::move(points)) {
   centroid_ = detail::centroid(points_);
@@ -168,6 +172,18 @@ Eigen::VectorXd AxisZoneModel::displacements(const Eigen::VectorXd& step,
   return displacement_gauge().functionals * step;  // exact, see displacement_gauge
 }
 
+Eigen::VectorXd AxisZoneModel::step_to(const ZoneModel& other) const {
+  // The other axis in this frame, written as this parametrisation's axis through (shift, 0)
+  // along (tilt / L, 1): where it meets the plane w = 0, and its direction scaled to w = 1.
+  const auto& o = dynamic_cast<const AxisZoneModel&>(other);
+  const Eigen::Vector3d m = basis_.transpose() * o.basis_.col(2);
+  const Eigen::Vector3d q = basis_.transpose() * (o.origin_ - origin_);
+  const Eigen::Vector3d at_zero = q - (q.z() / m.z()) * m;
+  Eigen::VectorXd step(4);
+  step << at_zero.x(), at_zero.y(), tilt_scale_ * m.x() / m.z(), tilt_scale_ * m.y() / m.z();
+  return step;
+}
+
 PlaneZoneModel::PlaneZoneModel(Eigen::Matrix3Xd points, const Eigen::Vector3d& start_normal)
     : points_(std::move(points)) {
   centroid_ = detail::centroid(points_);
@@ -240,6 +256,13 @@ std::unique_ptr<ZoneModel> PlaneZoneModel::subset(const std::vector<Eigen::Index
   copy->basis_ = basis_;
   copy->local_ = local_(Eigen::all, indices);
   return copy;
+}
+
+Eigen::VectorXd PlaneZoneModel::step_to(const ZoneModel& other) const {
+  // The other normal in this frame, scaled to a unit third component (either sense).
+  const Eigen::Vector3d m =
+      basis_.transpose() * dynamic_cast<const PlaneZoneModel&>(other).basis_.col(2);
+  return Eigen::Vector2d(m.x() / m.z(), m.y() / m.z()) * tilt_scale_;
 }
 
 void PlaneZoneModel::move(const Eigen::VectorXd& step) {

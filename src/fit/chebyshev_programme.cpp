@@ -7,6 +7,7 @@
 #include <CoinPackedMatrix.hpp>
 #include <algorithm>
 #include <cmath>
+#include <cstdio>
 #include <initializer_list>
 #include <string>
 #include <utility>
@@ -124,22 +125,67 @@ RowBlock ZoneProgramme::make_rows(const Eigen::VectorXd& d, const Eigen::MatrixX
   return block;
 }
 
+namespace {
+
+/// What Clp's status codes mean (ClpModel::status(), secondaryStatus()), for messages.
+std::string describe_status(int status) {
+  switch (status) {
+    case 0: return "reported optimal";
+    case 1: return "reported it infeasible";
+    case 2: return "reported it unbounded";
+    case 3: return "stopped at its iteration limit";
+    case 4: return "stopped on numerical errors";
+    case 5: return "was stopped by an event handler";
+    default: return "ended with status " + std::to_string(status);
+  }
+}
+
+std::string scientific(double value) {
+  char text[32];
+  std::snprintf(text, sizeof text, "%.3g", value);
+  return text;
+}
+
+}  // namespace
+
 // y = 0 with R' = r' = 0 is feasible with objective 0 (the extreme points' rows are present),
-// so an optimum above 0 is a solver failure, not a property of the data: it is retried once
-// from scratch and otherwise reported. The same holds for farthest_step's programmes.
+// so an optimum above 0, or any other outcome, is a solver failure, not a property of the
+// data. Clp's status 0 ("optimal") alone is not enough: on a degenerate programme (many tied
+// contacts: a round bore, coordinates rounded to a grid, duplicated sections) the
+// warm-started dual simplex can stop at a basis it calls optimal whose objective is above 0
+// (its cost perturbation and tolerances; earlier versions reported that as "the linear
+// programme failed (Clp status 0, secondary 0)"). It is retried from the slack basis with the
+// primal simplex and no perturbation, then with the dual simplex the same way; only if all
+// three fail is the programme reported, saying what the solver returned.
 void ZoneProgramme::run_simplex(ClpSimplex& lp) const {
   constexpr double impossible = 1e-9;
   auto solved = [&] { return lp.isProvenOptimal() && lp.objectiveValue() <= impossible; };
   try {
     lp.dual();
-    if (!solved()) lp.initialSolve();
+    if (!solved()) {
+      lp.setPerturbation(100);  // off
+      lp.allSlackBasis(true);
+      lp.primal();
+    }
+    if (!solved()) {
+      lp.allSlackBasis(true);
+      lp.dual();
+    }
   } catch (const CoinError& e) {
-    throw FitError("Chebyshev fit: the linear programme failed: " + e.message());
+    throw FitError("Chebyshev fit: the linear programme solver (Clp) failed: " + e.message());
   }
-  if (!solved())
-    throw FitError("Chebyshev fit: the linear programme failed (Clp status " +
-                   std::to_string(lp.status()) + ", secondary " +
-                   std::to_string(lp.secondaryStatus()) + ")");
+  if (solved()) return;
+  const std::string size = " (" + std::to_string(lp.numberRows()) + " rows, " +
+                           std::to_string(lp.numberColumns()) + " columns)";
+  if (lp.isProvenOptimal())
+    throw FitError("Chebyshev fit: the linear programme solver (Clp) reported an optimum of " +
+                   scientific(lp.objectiveValue()) +
+                   " although the current element, of objective 0, is feasible: a numerical "
+                   "failure on a degenerate programme" + size + ", not a property of the data");
+  throw FitError("Chebyshev fit: the linear programme solver (Clp) " +
+                 describe_status(lp.status()) + " (secondary status " +
+                 std::to_string(lp.secondaryStatus()) +
+                 ") on a programme whose current element is feasible" + size);
 }
 
 void ZoneProgramme::load(ClpSimplex& lp, const RowBlock& block, double reach,
@@ -263,7 +309,7 @@ LinearStep ZoneProgramme::solve(const Eigen::VectorXd& d, const Eigen::MatrixXd&
 
 Eigen::VectorXd ZoneProgramme::farthest_step(const Eigen::VectorXd& d, const Eigen::MatrixXd& g,
                                              double delta, const Eigen::RowVectorXd& functional,
-                                             double offset_weight) {
+                                             double offset_weight, double allowance) {
   const double u0 = d.maxCoeff(), l0 = d.minCoeff();
   const Eigen::VectorXd g_l1 = g.cwiseAbs().rowwise().sum();
   std::vector<Constraint> rows = first_rows(d, g_l1, delta);
@@ -272,11 +318,13 @@ Eigen::VectorXd ZoneProgramme::farthest_step(const Eigen::VectorXd& d, const Eig
   load(lp, make_rows(d, g, u0, l0, delta, rows), 2.0 * g_l1.maxCoeff() + 1.0, p_);
 
   // Extra rows (constraint generation appends after them): the linearised objective no worse
-  // than the current element's (0 in these variables), and z_k - y_k >= 0, z_k + y_k >= 0. No
+  // than the current element's (0 in these variables; `allowance` worse for an exploring
+  // walk), and z_k - y_k >= 0, z_k + y_k >= 0. No
   // slack is given to the objective: the vertex would spend it on directions where the
   // objective rises to first order (a shift that adds a little to the component), and the
   // verification on the true objective would then find the tolerance used up before the flat
   // directions are. The tolerance is applied there, on the true objective, only.
+  const double worse = std::max(0.0, allowance) / delta;
   RowBlock extra;
   extra.starts.push_back(0);
   auto add = [&](std::initializer_list<std::pair<int, double>> entries, double lo, double hi) {
@@ -290,13 +338,13 @@ Eigen::VectorXd ZoneProgramme::farthest_step(const Eigen::VectorXd& d, const Eig
   };
   switch (objective_) {
     case ZoneObjective::minimum_zone:  // R' - r' <= 0
-      add({{upper_col_, 1.0}, {lower_col_, -1.0}}, -COIN_DBL_MAX, 0.0);
+      add({{upper_col_, 1.0}, {lower_col_, -1.0}}, -COIN_DBL_MAX, worse);
       break;
     case ZoneObjective::maximum_inscribed:  // -r' <= 0
-      add({{lower_col_, -1.0}}, -COIN_DBL_MAX, 0.0);
+      add({{lower_col_, -1.0}}, -COIN_DBL_MAX, worse);
       break;
     case ZoneObjective::minimum_circumscribed:  // R' <= 0
-      add({{upper_col_, 1.0}}, -COIN_DBL_MAX, 0.0);
+      add({{upper_col_, 1.0}}, -COIN_DBL_MAX, worse);
       break;
   }
   for (int k = 0; k < p_; ++k) {

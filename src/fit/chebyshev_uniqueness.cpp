@@ -31,6 +31,8 @@ constexpr double gauge_bound = 2.5;
 
 /// A walk along the near-optimal set takes at most this many linear programmes.
 constexpr int longest_walk = 16;
+/// An exploring walk (allowance > 0) at most this many.
+constexpr int longest_exploration = 6;
 
 /// Largest displacement of a reference point: the norm of each group of `dimension` rows.
 double largest_displacement(const Eigen::VectorXd& components, int dimension) {
@@ -47,12 +49,13 @@ double largest_displacement(const Eigen::VectorXd& components, int dimension) {
 /// first-order optimum of the orthogonal distances (the last programme at the element) the
 /// element is then an isolated, sharp optimum: an objective at most `tolerance` worse moves a
 /// reference point by at most gauge_bound x tolerance / (lambda_min sigma_min), to first order.
-/// The optimum counts as proven unique when that bound is below `resolution`. Rows of A_B:
+/// The optimum counts as proven unique when that bound is below `resolution`. `reach` is the
+/// same bound for an objective `allowance` worse (infinite without a proof). Rows of A_B:
 /// (g_i, -1 in the column of the contact's bound), over the programme's variables (x, R, r).
 bool first_order_unique(const ZoneModel& model, ZoneObjective objective,
                         const std::vector<Constraint>& binding,
                         const std::vector<double>& multipliers, double tolerance,
-                        double resolution) {
+                        double resolution, double allowance, double& reach) {
   constexpr double positive = 1e-9;  // multipliers sum to 1 per side
   const int p = model.parameter_count();
   const int aux = (uses_upper(objective) ? 1 : 0) + (uses_lower(objective) ? 1 : 0);
@@ -65,6 +68,7 @@ bool first_order_unique(const ZoneModel& model, ZoneObjective objective,
       points.push_back(binding[k].point);
       lambda_min = std::min(lambda_min, multipliers[k]);
     }
+  reach = std::numeric_limits<double>::infinity();
   if (rows.size() < static_cast<std::size_t>(p + aux)) return false;
   // The contacts' gradients at the element, from a model of their points alone: O(contacts).
   Eigen::VectorXd d;
@@ -78,6 +82,7 @@ bool first_order_unique(const ZoneModel& model, ZoneObjective objective,
     a(i, p + (lower && uses_upper(objective) ? 1 : 0)) = -1.0;
   }
   const double sigma_min = Eigen::JacobiSVD<Eigen::MatrixXd>(a).singularValues()(p + aux - 1);
+  reach = gauge_bound * allowance / (lambda_min * sigma_min);
   return gauge_bound * tolerance <= resolution * lambda_min * sigma_min;
 }
 
@@ -158,7 +163,7 @@ std::vector<Eigen::Index> near_bounds(ZoneObjective objective, const Eigen::Vect
 /// element), with every point's distances there in `distances` (`d`: at the start).
 Eigen::VectorXd walk(const ZoneModel& model, ZoneObjective objective, const ZoneOptions& options,
                      const Eigen::VectorXd& d, const Eigen::RowVectorXd& functional,
-                     double offset_weight, double limit, double resolution,
+                     double offset_weight, double limit, double resolution, double allowance,
                      Eigen::VectorXd& distances, int& programmes) {
   const double scale = options.scale > 0.0 ? options.scale : 1.0;
   const double largest_box = options.ambiguity_box_limit * scale;
@@ -169,13 +174,17 @@ Eigen::VectorXd walk(const ZoneModel& model, ZoneObjective objective, const Zone
   distances = d;
   double box = std::min(options.ambiguity_box * scale, largest_box);
   double walked = 0.0;
-  for (int leg = 0; leg < longest_walk; ++leg) {
+  // An exploring walk only has to cross a low ridge near the optimum; its end starts a descent.
+  const int legs = allowance > 0.0 ? longest_exploration : longest_walk;
+  for (int leg = 0; leg < legs; ++leg) {
     const std::unique_ptr<ZoneModel> near =
         model.subset(near_bounds(objective, distances, reach_factor * box));
     near->evaluate(x, d_near, &g_near);
     ZoneProgramme programme(objective, options, near->point_count(), p);
+    // An exploring walk may lose at most what is left of its allowance on this leg.
+    const double left = allowance > 0.0 ? limit - true_objective(objective, d_near) : 0.0;
     const Eigen::VectorXd step = programme.farthest_step(d_near, g_near, box, functional,
-                                                         offset_weight);
+                                                         offset_weight, left);
     ++programmes;
     double t = verified_fraction(*near, objective, x, step, limit, length, d_near, at_trial);
     // A step that holds and stops inside the box may have been stopped by a contact whose
@@ -212,37 +221,47 @@ Eigen::VectorXd walk(const ZoneModel& model, ZoneObjective objective, const Zone
 
 }  // namespace
 
-void assess_uniqueness(const ZoneModel& model, ZoneObjective objective,
-                       const ZoneOptions& options, const ZoneProgramme& last,
-                       const Eigen::VectorXd& d, ZoneSummary& summary) {
+double objective_tolerance(const ZoneOptions& options, const Eigen::VectorXd& d) {
   const double scale = options.scale > 0.0 ? options.scale : 1.0;
-  const double tolerance =
-      options.ambiguity_tolerance * std::max(scale, d.cwiseAbs().maxCoeff());
-  const double resolution = ambiguity_resolution * scale;
-  if (first_order_unique(model, objective, last.binding(), last.multipliers(), tolerance,
-                         resolution)) {
-    summary.proven_unique = true;
-    return;
-  }
+  return options.ambiguity_tolerance * std::max(scale, d.cwiseAbs().maxCoeff());
+}
+
+double displacement_resolution(const ZoneOptions& options) {
+  return ambiguity_resolution * (options.scale > 0.0 ? options.scale : 1.0);
+}
+
+double largest_displacement(const ZoneModel& model, const Eigen::VectorXd& step,
+                            const Eigen::VectorXd& distances_at_step,
+                            const Eigen::VectorXd& distances_here) {
+  return largest_displacement(model.displacements(step, distances_at_step, distances_here),
+                              model.displacement_gauge().dimension);
+}
+
+bool proven_unique(const ZoneModel& model, ZoneObjective objective, const ZoneOptions& options,
+                   const ZoneProgramme& last, const Eigen::VectorXd& d, double allowance,
+                   double& reach) {
+  return first_order_unique(model, objective, last.binding(), last.multipliers(),
+                            objective_tolerance(options, d), displacement_resolution(options),
+                            allowance, reach);
+}
+
+std::vector<WalkEnd> walk_ends(const ZoneModel& model, ZoneObjective objective,
+                               const ZoneOptions& options, const Eigen::VectorXd& d,
+                               double allowance, int& programmes) {
   const DisplacementGauge gauge = model.displacement_gauge();
-  Eigen::VectorXd at_end;
-  const double limit = true_objective(objective, d) + tolerance;
-  double worst = 0.0;
-  try {
-    for (Eigen::Index row = 0; row < gauge.functionals.rows(); ++row)
-      for (double sign : {1.0, -1.0}) {
-        const Eigen::VectorXd end =
-            walk(model, objective, options, d, sign * gauge.functionals.row(row),
-                 sign * gauge.offset_weight, limit, resolution, at_end,
-                 summary.ambiguity_programmes);
-        worst = std::max(worst, largest_displacement(model.displacements(end, at_end, d),
-                                                     gauge.dimension));
-      }
-  } catch (const FitError& e) {
-    // The element itself is valid; only its uniqueness is unknown, and is reported so.
-    summary.ambiguity_failure = e.what();
-  }
-  summary.ambiguity = worst > resolution ? worst : 0.0;
+  const double limit = true_objective(objective, d) + std::max(allowance, objective_tolerance(options, d));
+  const double resolution = displacement_resolution(options);
+  std::vector<WalkEnd> ends;
+  for (Eigen::Index row = 0; row < gauge.functionals.rows(); ++row)
+    for (double sign : {1.0, -1.0}) {
+      WalkEnd end;
+      end.step = walk(model, objective, options, d, sign * gauge.functionals.row(row),
+                      sign * gauge.offset_weight, limit, resolution, allowance, end.distances,
+                      programmes);
+      end.objective = true_objective(objective, end.distances);
+      ends.push_back(std::move(end));
+    }
+  return ends;
 }
 
 }  // namespace cylzone::detail

@@ -19,10 +19,11 @@ struct CircleFit {
   double angular_coverage_deg = 0.0;  ///< 360 minus the largest angular gap between points
   Residuals residuals;                ///< in-plane radial deviations (roundness for minimum zone)
   ParameterCovariance covariance;
-  /// Chebyshev and mating fits: largest displacement of the centre among elements whose
-  /// objective is within the tolerance of the optimum; 0 when the optimum is unique (to that
-  /// tolerance) and for least squares (docs/chebyshev.md, "Non-unique optima"). A warning is
-  /// added above 1e-4 mm.
+  /// Chebyshev and mating fits: largest displacement of the centre, from the reported one to
+  /// any centre found whose objective is within the tolerance of the optimum's (the walks
+  /// along its near-optimal set and other distinct optima found); 0 when the optimum is proven
+  /// unique and for least squares (docs/chebyshev.md, "Non-unique optima"). A warning is added
+  /// above 1e-4 mm.
   double ambiguity = 0.0;
   FitSummary summary;
 

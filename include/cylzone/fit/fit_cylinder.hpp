@@ -26,10 +26,15 @@ struct CylinderFit {
   double angular_coverage_deg = 0.0;
   Residuals residuals;  ///< distance from the axis minus radius (cylindricity for minimum zone)
   ParameterCovariance covariance;
-  /// Chebyshev and mating fits: largest displacement of the axis at either end of the extent
-  /// among elements whose objective is within the tolerance of the optimum; 0 when the
-  /// optimum is unique (to that tolerance) and for least squares (docs/chebyshev.md,
-  /// "Non-unique optima"). A warning is added above 1e-4 mm.
+  /// Chebyshev and mating fits: how far the optimum can actually move. The largest
+  /// displacement of the axis at either end of the extent, from the reported axis to any axis
+  /// found whose objective is within the tolerance of the optimum's (64 ulp of the data's
+  /// size): the ends of the walks along its near-optimal set and the other, distinct optima
+  /// the exploration found (e.g. the mirror image of the maximum-inscribed axis of a bore bent
+  /// in one plane). 0 when the optimum is proven unique and for least squares. Which of several
+  /// distinct equally good axes is reported depends on the points alone, not on the start or
+  /// the part's placement (docs/chebyshev.md, "Non-unique optima"). A warning is added above
+  /// 1e-4 mm.
   double ambiguity = 0.0;
   FitSummary summary;
 

@@ -61,9 +61,12 @@ struct FitOptions {
   /// A warning is added when the points cover less than this angle around a circle or cylinder.
   double coverage_warning_deg = 180.0;
   /// Chebyshev fits (minimum zone, mating envelopes): when the optimum is not proven unique by
-  /// its contacts, walk the near-optimal set to measure how far the element can move
-  /// (docs/chebyshev.md). Off, the element is the same and `ambiguity` stays 0 (not assessed):
-  /// for repeated trials (Monte Carlo) that need the element only.
+  /// its contacts, walk the near-optimal set to measure how far the element can move, and
+  /// explore flat optima for other, equally good or better, local optima (docs/chebyshev.md,
+  /// "Non-unique optima"). Off, `ambiguity` stays 0 (not assessed) and the element is the
+  /// first optimum the descent reaches: the same as with it on whenever that optimum is proven
+  /// unique (the sharp optima of measured bores), possibly another of the equally good ones
+  /// otherwise. For repeated trials (Monte Carlo) that need the element only.
   bool assess_ambiguity = true;
   /// Threads a fit may run at once (core/threads.hpp); results do not depend on it.
   std::size_t threads = hardware_threads();

@@ -20,7 +20,11 @@
 // final contacts are refined by Newton's method on the optimality (KKT) conditions, which
 // places the element exactly where the objective alone cannot (fewer contacts than unknowns).
 // Finally the engine decides whether the optimum is unique and, when it cannot prove it,
-// measures how far the element can move without a worse objective (ZoneSummary::ambiguity).
+// measures how far the element can move without a worse objective (ZoneSummary::ambiguity);
+// a flat optimum is also explored for other local optima (a first-order descent stops at
+// whichever its start leads to), the best is returned, and of distinct equally good ones the
+// one the points themselves prefer, so that the result depends neither on the start nor on the
+// part's placement.
 // docs/chebyshev.md describes the method.
 
 #include <Eigen/Core>
@@ -83,6 +87,10 @@ class ZoneModel {
   virtual Eigen::VectorXd displacements(const Eigen::VectorXd& step,
                                         const Eigen::VectorXd& distances_at_step,
                                         const Eigen::VectorXd& distances_here) const = 0;
+  /// The step from the current element to `other`'s current element (a model of the same
+  /// kind over the same points, e.g. a copy that was moved elsewhere): this element displaced
+  /// by the result is `other`'s. Used to compare distinct optima in one parametrisation.
+  virtual Eigen::VectorXd step_to(const ZoneModel& other) const = 0;
 };
 
 /// Radial distances |q_i - c| of points in a plane from a centre c (circles, and cylinders with
@@ -100,6 +108,7 @@ class CircleZoneModel final : public ZoneModel {
   DisplacementGauge displacement_gauge() const override;
   Eigen::VectorXd displacements(const Eigen::VectorXd& step, const Eigen::VectorXd& distances_at_step,
                                 const Eigen::VectorXd& distances_here) const override;
+  Eigen::VectorXd step_to(const ZoneModel& other) const override;
 
   const Eigen::Vector2d& centre() const noexcept { return centre_; }
 
@@ -129,6 +138,7 @@ class AxisZoneModel final : public ZoneModel {
   DisplacementGauge displacement_gauge() const override;
   Eigen::VectorXd displacements(const Eigen::VectorXd& step, const Eigen::VectorXd& distances_at_step,
                                 const Eigen::VectorXd& distances_here) const override;
+  Eigen::VectorXd step_to(const ZoneModel& other) const override;
 
   /// Current axis: point = foot of the perpendicular from the centroid, unit direction.
   Axis axis() const;
@@ -160,6 +170,7 @@ class PlaneZoneModel final : public ZoneModel {
   DisplacementGauge displacement_gauge() const override;
   Eigen::VectorXd displacements(const Eigen::VectorXd& step, const Eigen::VectorXd& distances_at_step,
                                 const Eigen::VectorXd& distances_here) const override;
+  Eigen::VectorXd step_to(const ZoneModel& other) const override;
 
   const Eigen::Vector3d& centroid() const noexcept { return centroid_; }
   Eigen::Vector3d normal() const { return basis_.col(2); }
@@ -207,6 +218,11 @@ struct ZoneOptions {
   /// tolerance.
   double ambiguity_box = 1e-6;
   double ambiguity_box_limit = 0.1;
+  /// A converged element that is not proven unique is also the start of exploring walks that
+  /// may lose up to this fraction of the data's size in objective, and of descents from their
+  /// ends: they find other local optima across low ridges (docs/chebyshev.md, "Non-unique
+  /// optima"). 0 turns the exploration off.
+  double exploration_allowance = 1e-10;
   /// Off: uniqueness is neither proven nor measured (FitOptions::assess_ambiguity).
   bool assess_ambiguity = true;
 };
@@ -223,11 +239,13 @@ struct ZoneSummary {
   /// The final contacts determine the element to first order (full rank, positive
   /// multipliers): the optimum is unique and `ambiguity` is 0 without further work.
   bool proven_unique = false;
-  /// Largest verified displacement of the element's reference points (DisplacementGauge) among
-  /// elements whose objective is within the tolerance of the optimum's; 0 when proven unique
-  /// and when the iteration did not converge (not assessed).
+  /// Largest verified displacement of the element's reference points (DisplacementGauge), from
+  /// the returned element to any element found whose objective is within the tolerance of the
+  /// optimum's: the ends of the walks along its near-optimal set and the other distinct optima
+  /// found by the exploration; 0 when proven unique and when the iteration did not converge
+  /// (not assessed).
   double ambiguity = 0.0;
-  int ambiguity_programmes = 0;  ///< linear programmes solved to measure it
+  int ambiguity_programmes = 0;  ///< linear programmes solved to measure it and to explore
   /// Why the ambiguity could not be measured (a linear programme failed); empty otherwise.
   std::string ambiguity_failure;
 };

@@ -69,9 +69,11 @@ class ZoneProgramme {
   /// moves one displacement component, `functional` x step (+ offset_weight x the change of the
   /// bounds' mean), farthest, subject to every linearised row and to a linearised objective no
   /// worse than the current element's. A small penalty on |x|_1 keeps directions that do not
-  /// serve the component at zero.
+  /// serve the component at zero. `allowance` > 0 (a length) lets the linearised objective be
+  /// that much worse: the walks that explore for other optima across low ridges.
   Eigen::VectorXd farthest_step(const Eigen::VectorXd& d, const Eigen::MatrixXd& g, double delta,
-                                const Eigen::RowVectorXd& functional, double offset_weight);
+                                const Eigen::RowVectorXd& functional, double offset_weight,
+                                double allowance = 0.0);
 
  private:
   void candidates(const Eigen::VectorXd& d, const Eigen::VectorXd& g_l1, double delta, Side side,

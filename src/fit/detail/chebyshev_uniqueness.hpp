@@ -4,19 +4,54 @@
 // (docs/chebyshev.md, "Non-unique optima").
 
 #include <Eigen/Core>
+#include <vector>
 
 #include "fit/detail/chebyshev.hpp"
 #include "fit/detail/chebyshev_programme.hpp"
 
 namespace cylzone::detail {
 
-/// The ambiguity of a converged element (docs/chebyshev.md, "Non-unique optima"): 0 when
-/// first_order_unique proves the optimum unique; otherwise the largest displacement of a
-/// reference point of the gauge at the ends of the walks that push each of its components
-/// both ways, with the true objective within the tolerance of the current element's.
-/// `last` is the programme solved at the element; `d` are the distances there.
-void assess_uniqueness(const ZoneModel& model, ZoneObjective objective,
-                       const ZoneOptions& options, const zone_lp::ZoneProgramme& last,
-                       const Eigen::VectorXd& d, ZoneSummary& summary);
+/// Elements whose objective is within this of the optimum's count as equally good:
+/// ZoneOptions::ambiguity_tolerance x max(scale, largest distance).
+double objective_tolerance(const ZoneOptions& options, const Eigen::VectorXd& d);
+
+/// Displacements of the reference points below this length (1e-9 of the data's size) are not a
+/// freedom of the optimum and are reported as 0.
+double displacement_resolution(const ZoneOptions& options);
+
+/// Largest displacement of a reference point of `model`'s gauge for the element displaced by
+/// `step` (distances there and at the current element given).
+double largest_displacement(const ZoneModel& model, const Eigen::VectorXd& step,
+                            const Eigen::VectorXd& distances_at_step,
+                            const Eigen::VectorXd& distances_here);
+
+/// The contacts of the last programme at the element prove it the unique optimum: full rank
+/// with positive multipliers, so that an objective within the tolerance moves no reference
+/// point by more than the resolution, to first order (Mangasarian, Linear Algebra Appl. 25,
+/// 1979, from memory). `d`: the distances at the element. `reach`: how far, to first order, an
+/// objective `allowance` worse can move a reference point (infinite when not proven).
+bool proven_unique(const ZoneModel& model, ZoneObjective objective, const ZoneOptions& options,
+                   const zone_lp::ZoneProgramme& last, const Eigen::VectorXd& d, double allowance,
+                   double& reach);
+
+/// The end of one walk along the near-optimal set: a step from the element, every point's
+/// distances there and the true objective there.
+struct WalkEnd {
+  Eigen::VectorXd step;
+  Eigen::VectorXd distances;
+  double objective = 0.0;
+};
+
+/// The walks that push each displacement component of the gauge both ways while the true
+/// objective stays within the tolerance of the element's (docs/chebyshev.md, "Non-unique
+/// optima"), two per component. An end may have a better objective than the element: the
+/// element was then a stationary point, not an optimum (the engine descends again from there).
+/// With `allowance` > 0 (a length) the walks explore instead: the objective may be up to that
+/// much worse, so that they cross the low ridges between distinct local optima; their ends are
+/// starts of further descents, not members of the near-optimal set.
+/// Throws FitError when a linear programme fails; counts the programmes in `programmes`.
+std::vector<WalkEnd> walk_ends(const ZoneModel& model, ZoneObjective objective,
+                               const ZoneOptions& options, const Eigen::VectorXd& d,
+                               double allowance, int& programmes);
 
 }  // namespace cylzone::detail
