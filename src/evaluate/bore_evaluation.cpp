@@ -699,8 +699,10 @@ VirtualConditionResult virtual_condition_after_frame_motion(const BoreResult& bo
       d.farthest = std::max(d.farthest, radial);
     }
   }
-  vc.clearance =
-      detail::boundary_clearance(at_mmc, p.projected, vc.envelope_surrounded, d).clearance;
+  const detail::BoundaryClearance clearance =
+      detail::boundary_clearance(at_mmc, p.projected, vc.envelope_surrounded, d);
+  vc.clearance = clearance.clearance;
+  vc.conservative = !clearance.exact && !p.projected;
   vc.basis = detail::boundary_basis(at_mmc, p.projected, vc.envelope_surrounded, d);
   vc.motion = motion;
   return vc;
@@ -770,6 +772,8 @@ BoreResult moved_to_frame(const BoreResult& bore, const PlanBore& plan,
     const AxisDeviation d = bore.axis_in_zone.at(h);
     return w.dot(move_point(zone_to_frame(bore.zone, d)) - bore.zone.origin);
   };
+  if (moved.boundary_points.cols() > 0)
+    moved.boundary_points = (rotation * moved.boundary_points).colwise() + translation;
   moved.probed_top = moved_height(bore.probed_top);
   moved.probed_bottom = moved_height(bore.probed_bottom);
   evaluate_in_zone(moved, plan, FitOptions{});

@@ -130,6 +130,9 @@ struct VirtualConditionResult {
   /// envelope figure was taken ("the true-position axis lies outside the actual mating
   /// envelope at z = -60.0000: the boundary cannot be clear").
   std::string basis;
+  /// True when the conservative envelope figure replaced the nearest-point one (the axis
+  /// outside the envelope, or the points not surrounding it): the reports then say why.
+  bool conservative = false;
   /// On the true position at MMC: the points surround the actual mating envelope's axis in
   /// every section within the depth (largest angular gap below 180 degrees), so an axis inside
   /// the envelope lies inside the bore. Motion-invariant, found once.
@@ -254,8 +257,9 @@ VirtualConditionResult virtual_condition_after_frame_motion(const BoreResult& bo
 /// the datum frame changes by a rigid motion, q_new = rotation q_old + translation, without
 /// refitting: every fit except the related envelope is invariant under rigid motions of the
 /// points, so its axis and the section centres are moved instead. Used by the sensitivity study
-/// (datum A associated by another method). The related envelope, the virtual condition
-/// clearance and mobility results are carried over unchanged.
+/// (datum A associated by another method). The boundary points are moved with the frame; the
+/// related envelope, the virtual condition clearance and mobility results are carried over
+/// unchanged.
 BoreResult moved_to_frame(const BoreResult& bore, const PlanBore& plan,
                           const Eigen::Matrix3d& rotation, const Eigen::Vector3d& translation);
 
