@@ -673,6 +673,25 @@ class BoundaryModel {
   double shift_gain_ = 1.0;
 };
 
+/// Which parts of the motion a mobility leaves free, and whether the unmoved frame is one of
+/// the allowed motions: C's simulator fixed at basic holds the part at C, so the unmoved frame
+/// is allowed only when C lies at its held distance (within C's own room).
+struct Freedom {
+  bool rotation_fixed = true;
+  bool shift_fixed = true;
+  bool unmoved_allowed = true;
+};
+Freedom freedom_of(const FrameMobility& mobility) {
+  Freedom f;
+  f.rotation_fixed = !mobility.rotation_free && !mobility.rotation_follows_c &&
+                     !mobility.rotation_about_c && mobility.c_shift_allowance <= 0.0;
+  f.shift_fixed = !mobility.translation_free && mobility.shift_allowance <= 0.0;
+  f.unmoved_allowed =
+      !mobility.rotation_about_c ||
+      std::abs(mobility.c_location.norm() - mobility.c_held_distance) <= mobility.c_shift_allowance;
+  return f;
+}
+
 /// The outer search shared by the position and the boundary problems: `solve_at(theta)` solves
 /// the inner convex (position) or near-convex (boundary) problem at one rotation and returns an
 /// InnerSolution whose `ratio` is minimised. A coarse scan of [-bracket, bracket] (0 is a
@@ -882,14 +901,9 @@ MobilityResult best_frame_motion(const std::vector<const BoreResult*>& bores,
   model.terms_at(0.0, terms);
   const double f0 = worst_ratio(terms, Eigen::Vector2d::Zero());
   result.iterations = 1;
-  const bool rotation_fixed = !mobility.rotation_free && !mobility.rotation_follows_c &&
-                              !mobility.rotation_about_c && mobility.c_shift_allowance <= 0.0;
-  const bool shift_fixed = !mobility.translation_free && mobility.shift_allowance <= 0.0;
-  // C's simulator fixed at basic holds the part at C: the unmoved frame is one of the allowed
-  // motions only when C lies at its held distance.
-  const bool unmoved_allowed =
-      !mobility.rotation_about_c ||
-      std::abs(mobility.c_location.norm() - mobility.c_held_distance) <= mobility.c_shift_allowance;
+  const Freedom freedom = freedom_of(mobility);
+  const bool rotation_fixed = freedom.rotation_fixed, shift_fixed = freedom.shift_fixed;
+  const bool unmoved_allowed = freedom.unmoved_allowed;
   if ((rotation_fixed && shift_fixed) || (f0 == 0.0 && unmoved_allowed))
     return finish(FrameMotion{});
 
@@ -939,12 +953,9 @@ BoundaryMobilityResult best_boundary_motion(const std::vector<const BoreResult*>
   model.at_rotation(0.0);
   const double f0 = model(Eigen::Vector2d::Zero());
   result.iterations = 1;
-  const bool rotation_fixed = !mobility.rotation_free && !mobility.rotation_follows_c &&
-                              !mobility.rotation_about_c && mobility.c_shift_allowance <= 0.0;
-  const bool shift_fixed = !mobility.translation_free && mobility.shift_allowance <= 0.0;
-  const bool unmoved_allowed =
-      !mobility.rotation_about_c ||
-      std::abs(mobility.c_location.norm() - mobility.c_held_distance) <= mobility.c_shift_allowance;
+  const Freedom freedom = freedom_of(mobility);
+  const bool rotation_fixed = freedom.rotation_fixed, shift_fixed = freedom.shift_fixed;
+  const bool unmoved_allowed = freedom.unmoved_allowed;
   if (rotation_fixed && shift_fixed) return finish(FrameMotion{});
 
   // Argument tolerances from the rates of change of the objective, as best_frame_motion's.

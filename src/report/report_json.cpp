@@ -238,7 +238,6 @@ json bore_json(const BoreResult& b, const BoreSummary& s, const BoreSensitivity*
                                                           u.length(v.motion->shift.y())})},
                                    {"rotation_rad", v.motion->rotation_rad}}
                             : json(nullptr);
-    vc["fixed_frame_clearance"] = u.length(b.virtual_condition->clearance);
     j["virtual_condition"] = vc;
   } else {
     j["virtual_condition"] = nullptr;
