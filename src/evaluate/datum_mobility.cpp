@@ -461,10 +461,6 @@ double width_rotation_bracket(const FrameMobility::WidthSimulator& w, const Eige
   return std::asin(std::min(1.0, sigma));
 }
 
-/// Half-width of the rotation bracket: no rotation beyond it can beat the unmoved frame. The
-/// bounds follow from |offset| <= F0 / w at the start and at the optimum, with the rotation
-/// moving a lever arm q by 2 sin(|theta| / 2) |q| (exact for a bore perpendicular to A; the
-/// bound is doubled for inclined bores). 0 when no rotation can matter.
 /// The rotations datum C's simulator allows, when C holds the rotation at all; empty when the
 /// rotation is free (no C).
 std::optional<double> simulator_rotation_bracket(const FrameMobility& mobility) {
@@ -481,6 +477,10 @@ std::optional<double> simulator_rotation_bracket(const FrameMobility& mobility) 
   return std::nullopt;
 }
 
+/// Half-width of the rotation bracket: no rotation beyond it can beat the unmoved frame. The
+/// bounds follow from |offset| <= F0 / w at the start and at the optimum, with the rotation
+/// moving a lever arm q by 2 sin(|theta| / 2) |q| (exact for a bore perpendicular to A; the
+/// bound is doubled for inclined bores). 0 when no rotation can matter.
 double rotation_bracket(const PatternModel& model, const FrameMobility& mobility, double f0) {
   if (const std::optional<double> simulator = simulator_rotation_bracket(mobility))
     return *simulator;
@@ -606,11 +606,14 @@ class BoundaryModel {
   /// at most D - 2|e| once |e| reaches D / 2, at LMC at least 2 |M s + b| for any point.
   double free_radius() const {
     const double f0 = (*this)(Eigen::Vector2d::Zero());
-    // The objective's mean term can lower it by at most mean_weight x the largest |margin|,
-    // which the bounds allow for.
+    // The objective's mean term moves it by at most mean_weight x the largest |margin|, here
+    // and at the optimum; a margin at the optimum is at most D + boundary in size (a
+    // clearance no worse than the unmoved frame's is at most the envelope's, or at LMC the
+    // boundary), which the bounds allow for.
     double slack = 0.0;
     for (std::size_t i = 0; i < data_.size(); ++i)
-      slack = std::max(slack, std::abs(margin(i, Eigen::Vector2d::Zero())));
+      slack = std::max(slack, std::abs(margin(i, Eigen::Vector2d::Zero())) + data_[i].diameter +
+                                  data_[i].boundary);
     const double f = f0 + 2.0 * mean_weight * slack + 1e-9;
     FreeRadius r;
     for (std::size_t i = 0; i < data_.size(); ++i) {
