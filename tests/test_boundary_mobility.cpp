@@ -276,6 +276,50 @@ TEST_CASE("the demo part referenced A|B(M) and A alone: boundaries independent o
   }
 }
 
+TEST_CASE("the boundary search is never worse than the position's own motion, every reading",
+          "[boundary]") {
+  // The demo's bores re-referenced with each kind of mobility. The motion the position search
+  // chose is an allowed motion too, so the pattern's smallest boundary margin after the
+  // boundary search is at least its smallest margin at the position's motion: a bore whose
+  // position conforms after the datum shift is not rejected by a boundary evaluated in a
+  // worse frame than the mobility allows.
+  const PartPlan demo = read_plan(std::filesystem::path(CYLZONE_SOURCE_DIR) /
+                                  "point-clouds/valve-manifold/plan.toml");
+  const PartInputs inputs = load_part_inputs(demo);
+  const DatumReference a{'A', MaterialBoundary::rmb}, b_mmb{'B', MaterialBoundary::mmb};
+  DatumReference c_mmb{'C', MaterialBoundary::mmb}, c_rmb{'C', MaterialBoundary::rmb};
+  DatumReference c_translating{'C', MaterialBoundary::rmb};
+  c_translating.translating = true;
+  const std::vector<std::vector<DatumReference>> references = {
+      {a, b_mmb, c_mmb}, {a, b_mmb, c_rmb}, {a, b_mmb, c_translating}, {a, b_mmb}, {a}};
+  for (const std::vector<DatumReference>& datums : references) {
+    INFO("datum references: " << datums.size() << ", C at "
+                              << (datums.size() == 3 ? int(datums[2].boundary) : -1));
+    PartPlan plan = demo;
+    for (PlanBore& bore : plan.bores)
+      if (bore.position) {
+        bore.position->datums = datums;
+        bore.position->condition = MaterialCondition::mmc;
+      }
+    if (datums.size() > 1) plan.datums[1].boundary = MaterialBoundary::mmb;
+    if (datums.size() > 2) plan.datums[2].boundary = datums[2].boundary;
+    const PartEvaluation e = evaluate_part(plan, inputs, quick());
+    double searched = 1e9, at_position_motion = 1e9;
+    for (const BoreResult& bore : e.bores) {
+      INFO("bore " << bore.id);
+      REQUIRE(bore.virtual_condition_with_mobility);
+      REQUIRE(bore.mobility_motion);
+      const VirtualConditionResult& v = *bore.virtual_condition_with_mobility;
+      searched = std::min(searched, v.clearance - v.boundary);
+      const VirtualConditionResult w =
+          virtual_condition_after_frame_motion(bore, *bore.mobility_motion);
+      at_position_motion = std::min(at_position_motion, w.clearance - w.boundary);
+      CHECK_THAT(boundary_reason(bore), Catch::Matchers::Contains("rotation"));
+    }
+    CHECK(searched >= at_position_motion - 1e-9);
+  }
+}
+
 TEST_CASE("best_boundary_motion on a perfect hole: the shift within B's allowance, closed form",
           "[boundary]") {
   // One perfect hole of radius R = 5.004 whose axis lies d = 0.012 off its true position (along
