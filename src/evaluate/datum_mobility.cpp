@@ -518,7 +518,8 @@ class BoundaryModel {
   /// Weight of the mean margin beside the smallest one (the tie-break of best_boundary_motion).
   static constexpr double mean_weight = 1e-6;
 
-  explicit BoundaryModel(const std::vector<const BoreResult*>& bores) {
+  BoundaryModel(const std::vector<const BoreResult*>& bores, const FrameMobility& mobility)
+      : mobility_(mobility) {
     for (const BoreResult* bore : bores) {
       const VirtualConditionResult* vc =
           bore->virtual_condition ? &*bore->virtual_condition : nullptr;
@@ -561,7 +562,16 @@ class BoundaryModel {
       const Eigen::Vector2d slope = e.head<2>() / e.z();
       r.envelope_m = -k.topRows<2>() + slope * k.row(2);
       for (int h = 0; h < 2; ++h) r.envelope_b[h] = a0.head<2>() + (d.heights[h] - a0.z()) * slope;
+      r.candidates = r.points_b.topRows<2>();
     }
+    // Every shift the inner search tries at this rotation lies in a disk about the origin
+    // (B's clearance, or the free-translation bound), so the points that can be the nearest
+    // (farthest) for some shift in it are found once per rotation.
+    const double radius = mobility_.translation_free ? free_radius() : mobility_.shift_allowance;
+    for (std::size_t i = 0; i < data_.size(); ++i)
+      if (!data_[i].projected)
+        keep_candidates(rotated_[i], rotated_[i].points_m.norm() * radius * (1.0 + 1e-6),
+                        data_[i].at_mmc);
   }
 
   /// Margin of bore i at shift s (clearance - boundary at MMC, boundary - clearance at LMC).
@@ -573,11 +583,15 @@ class BoundaryModel {
     const Eigen::Vector2d te = r.envelope_m * s;
     distances.envelope_reach =
         2.0 * std::max((te + r.envelope_b[0]).norm(), (te + r.envelope_b[1]).norm());
-    if (!d.projected) {
+    // At MMC with the axis outside the envelope the clearance is the envelope figure, at most
+    // 0 and so below twice any distance: the points need not be visited.
+    const bool outside = d.at_mmc && !(distances.envelope_reach < distances.envelope_diameter);
+    if (outside) distances.nearest = infinity;
+    if (!d.projected && !outside) {
       const Eigen::Vector2d t = r.points_m * s;
       double nearest = infinity, farthest = 0.0;
-      for (Eigen::Index j = 0; j < r.points_b.cols(); ++j) {
-        const double radial = (r.points_b.col(j).head<2>() + t).norm();
+      for (Eigen::Index j = 0; j < r.candidates.cols(); ++j) {
+        const double radial = (r.candidates.col(j) + t).norm();
         nearest = std::min(nearest, radial);
         farthest = std::max(farthest, radial);
       }
@@ -668,9 +682,46 @@ class BoundaryModel {
   struct Rotated {
     Eigen::Matrix2d points_m = Eigen::Matrix2d::Zero();
     Eigen::Matrix3Xd points_b;  ///< zone coordinates of the points at s = 0 (rows 0, 1 used)
+    /// The columns of points_b (x, y) that can be the nearest (MMC) or farthest (LMC) point for
+    /// some shift of this rotation's disk: keep_candidates.
+    Eigen::Matrix2Xd candidates;
     Eigen::Matrix2d envelope_m = Eigen::Matrix2d::Zero();
     std::array<Eigen::Vector2d, 2> envelope_b;
   };
+  /// Drops the points that another point of the same narrow angular sector beats for every
+  /// offset t with |t| <= delta: for the nearest, k beats j when |b_j + t|^2 - |b_k + t|^2 =
+  /// |b_j|^2 - |b_k|^2 + 2 t . (b_j - b_k) > 0, which holds for all such t when
+  /// |b_j|^2 - |b_k|^2 > 2 delta |b_j - b_k| (the farthest: the same with j and k exchanged).
+  /// Exact: the nearest (farthest) over the candidates is the nearest over all points. Dense
+  /// scans of a bore perpendicular to A keep about one point per direction.
+  static void keep_candidates(Rotated& r, double delta, bool nearest) {
+    const Eigen::Index n = r.candidates.cols();
+    constexpr int sectors = 4096;
+    std::vector<Eigen::Index> best(sectors, -1);
+    std::vector<int> sector(static_cast<std::size_t>(n));
+    const auto sq = [&](Eigen::Index j) { return r.candidates.col(j).squaredNorm(); };
+    for (Eigen::Index j = 0; j < n; ++j) {
+      const Eigen::Vector2d b = r.candidates.col(j);
+      const int k = std::clamp(
+          static_cast<int>((std::atan2(b.y(), b.x()) + pi) * (sectors / (2.0 * pi))), 0,
+          sectors - 1);
+      sector[static_cast<std::size_t>(j)] = k;
+      Eigen::Index& champion = best[static_cast<std::size_t>(k)];
+      if (champion < 0 || (nearest ? sq(j) < sq(champion) : sq(j) > sq(champion))) champion = j;
+    }
+    Eigen::Index kept = 0;
+    for (Eigen::Index j = 0; j < n; ++j) {
+      const Eigen::Index k = best[static_cast<std::size_t>(sector[static_cast<std::size_t>(j)])];
+      const double lead = nearest ? sq(j) - sq(k) : sq(k) - sq(j);
+      const double reach = 2.0 * delta * (r.candidates.col(j) - r.candidates.col(k)).norm();
+      // A rounding allowance keeps a point the test cannot tell apart.
+      if (j != k && lead > reach + 1e-12 * (1.0 + sq(j))) continue;
+      r.candidates.col(kept++) = r.candidates.col(j);
+    }
+    r.candidates.conservativeResize(2, kept);
+  }
+
+  const FrameMobility& mobility_;
   std::vector<BoreData> data_;
   std::vector<Rotated> rotated_;
   double shift_gain_ = 1.0;
@@ -952,7 +1003,7 @@ BoundaryMobilityResult best_boundary_motion(const std::vector<const BoreResult*>
     return result;
   };
   if (bores.empty()) return result;
-  BoundaryModel model(bores);
+  BoundaryModel model(bores, mobility);
   model.at_rotation(0.0);
   const double f0 = model(Eigen::Vector2d::Zero());
   result.iterations = 1;
