@@ -410,10 +410,10 @@ TEST_CASE("a true-position axis outside the hole gives a negative clearance that
   }
 }
 
-TEST_CASE("the boundary and the position are decided in the same mobile frame with C at MMB",
+TEST_CASE("the virtual-condition row decides with the moved figure when the frame may move",
           "[boundary]") {
-  // A|B(M)|C(M) is not built here in full; what the decision needs is that the row uses the
-  // moved figure whenever the pattern has mobility, and the fixed one otherwise.
+  // The decide stage: one row, the same id, the moved figure whenever the pattern has
+  // mobility, and the frame as built's otherwise.
   const std::vector<DatumReference> a_bm = {{'A', MaterialBoundary::rmb},
                                             {'B', MaterialBoundary::mmb}};
   const Plate flat = plate(0.0, a_bm);
