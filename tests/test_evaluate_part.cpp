@@ -312,6 +312,18 @@ TEST_CASE("a pattern with one bore not evaluated: mobility rows not proven, fixe
   REQUIRE(find_characteristic(all, "Q2/position/mobility") != nullptr);
   CHECK(find_characteristic(all, "Q2/position/mobility")->verdict == Verdict::not_proven);
   CHECK(combine(all) == Verdict::not_proven);
+
+  // Q1 at MMC: its boundary on the true position needs the pattern's shared motion too, so the
+  // virtual-condition row is not proven for the same reason (not decided in the fixed frame).
+  partial.plan.bores[0].position->condition = MaterialCondition::mmc;
+  const PartEvaluation mmc = evaluate_part(partial.plan, partial.inputs, quick());
+  REQUIRE(mmc.bores[0].virtual_condition.has_value());
+  CHECK_FALSE(mmc.bores[0].virtual_condition_with_mobility.has_value());
+  const std::vector<Characteristic> mmc_all = decided(partial.plan, mmc);
+  const Characteristic* boundary = find_characteristic(mmc_all, "Q1/virtual-condition");
+  REQUIRE(boundary != nullptr);
+  CHECK(boundary->verdict == Verdict::not_proven);
+  CHECK(boundary->not_evaluated == mmc.bores[0].mobility_not_evaluated);
 }
 
 TEST_CASE("a datum feature that cannot be evaluated stops the evaluation, naming the datum",

@@ -69,9 +69,12 @@ std::map<std::string, std::vector<std::size_t>> patterns_by_reference(const Part
 }
 
 /// Applies the best allowed frame motion to every pattern of `bores` whose reference leaves the
-/// frame mobile. Returns nothing; fills position_with_mobility, mobility_motion, reason.
+/// frame mobile. Returns nothing; fills position_with_mobility, mobility_motion, reason, and
+/// with `boundaries` the virtual condition boundaries' own best motion
+/// (virtual_condition_with_mobility).
 void apply_mobility(const PartPlan& plan, const DatumFrameResult& frame,
-                    std::vector<BoreResult>& bores, const MobilityOptions& options) {
+                    std::vector<BoreResult>& bores, const MobilityOptions& options,
+                    bool boundaries) {
   for (const auto& [reference, members] : patterns_by_reference(plan)) {
     const PlanDatum* c = plan.datum('C');
     const FrameMobility mobility = mobility_of(plan.bores[members.front()].position->datums,
@@ -108,6 +111,21 @@ void apply_mobility(const PartPlan& plan, const DatumFrameResult& frame,
       bore.mobility_motion = best.motion;
       bore.mobility_reason = mobility.description();
       bore.mobility_c_simulator = std::string(tertiary_simulator_name(mobility.c_simulator));
+    }
+    // The surface interpretation is a simultaneous requirement of its own: the boundaries on
+    // the true position get the motion that best clears them all.
+    std::vector<std::size_t> bounded;
+    for (std::size_t i : members)
+      if (bores[i].virtual_condition && bores[i].virtual_condition->on_true_position)
+        bounded.push_back(i);
+    if (!boundaries || bounded.empty()) continue;
+    std::vector<const BoreResult*> bounded_results;
+    for (std::size_t i : bounded) bounded_results.push_back(&bores[i]);
+    const BoundaryMobilityResult clear = best_boundary_motion(bounded_results, mobility, options);
+    for (std::size_t k = 0; k < bounded.size(); ++k) {
+      VirtualConditionResult v = clear.boundaries[k];
+      v.motion_reason = mobility.description();
+      bores[bounded[k]].virtual_condition_with_mobility = std::move(v);
     }
   }
 }
@@ -281,7 +299,7 @@ PartEvaluation evaluate_part(const PartPlan& plan, const PartInputs& inputs,
       result.bores[i] = std::move(skipped);
     }
   });
-  apply_mobility(plan, result.datums, result.bores, options.mobility);
+  apply_mobility(plan, result.datums, result.bores, options.mobility, true);
   return result;
 }
 
@@ -333,7 +351,8 @@ std::vector<BoreSensitivity> association_sensitivity(const PartPlan& plan,
                             ? moved_to_frame(nominal.bores[i], plan.bores[i], rotation,
                                              translation)
                             : nominal.bores[i]);
-      apply_mobility(plan, other, moved, options.mobility);
+      // The study reports position and perpendicularity only: no boundary search.
+      apply_mobility(plan, other, moved, options.mobility, false);
     }
   });
   for (std::size_t m = 0; m < methods.size(); ++m) {

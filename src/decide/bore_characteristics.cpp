@@ -106,12 +106,24 @@ std::vector<Characteristic> bore_characteristics(const BoreResult& b, const Deci
     out.push_back(make(b, "cylindricity", "cylindricity", "", b.form.cylindricity,
                        *b.form.tolerance, 0.0, *b.form.tolerance, Comparison::at_most));
   if (b.virtual_condition) {
-    const VirtualConditionResult& v = *b.virtual_condition;
+    // With datum mobility the boundary decides after its own best frame motion (one row, the
+    // same id: the fixed frame's figure would depend on how the part sat on the machine when
+    // the reference leaves a degree of freedom free); boundary_reason() says which motion.
+    const bool moved = b.virtual_condition_with_mobility.has_value();
+    const VirtualConditionResult& v = moved ? *b.virtual_condition_with_mobility
+                                            : *b.virtual_condition;
     out.push_back(make(b, "virtual-condition", "virtual condition",
-                       v.on_true_position ? "on true position" : "perpendicular to A",
+                       moved ? "true position, moved"
+                             : v.on_true_position ? "on true position" : "perpendicular to A",
                        v.clearance, v.boundary, 0.0, v.boundary,
                        v.condition == MaterialCondition::lmc ? Comparison::at_most
                                                              : Comparison::at_least));
+    // A pattern with a member not evaluated has no shared motion for its boundaries either:
+    // the fixed frame's clearance would depend on how the part sat on the machine.
+    if (v.on_true_position && !b.mobility_not_evaluated.empty()) {
+      out.back().value = 0.0;
+      out.back().not_evaluated = b.mobility_not_evaluated;
+    }
   }
   for (Characteristic& c : out) {
     c.verdict = decide(c, rule);
@@ -178,6 +190,19 @@ std::vector<Characteristic> bore_characteristics(const BoreResult& b, const Plan
     c.rule = rule.kind;
   }
   return out;
+}
+
+std::string boundary_reason(const BoreResult& bore) {
+  const bool moved = bore.virtual_condition_with_mobility.has_value();
+  if (!bore.virtual_condition) return "";
+  const VirtualConditionResult& v =
+      moved ? *bore.virtual_condition_with_mobility : *bore.virtual_condition;
+  std::string text = "clearance from " + v.basis;
+  if (v.motion)
+    text += "; after the frame motion that best clears the pattern's boundaries: shift (" +
+            mm(v.motion->shift.x()) + ", " + mm(v.motion->shift.y()) + ") mm, rotation " +
+            detail::format_number(v.motion->rotation_rad, 8) + " rad (" + v.motion_reason + ")";
+  return text;
 }
 
 const Characteristic* find_characteristic(const std::vector<Characteristic>& characteristics,

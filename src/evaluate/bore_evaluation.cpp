@@ -16,6 +16,7 @@
 #include "cylzone/fit/fit_line.hpp"
 #include "cylzone/evaluate/material_condition.hpp"
 #include "detail/fit_support.hpp"
+#include "evaluate/detail/boundary_clearance.hpp"
 #include "prepare/detail/stray_point_message.hpp"
 
 namespace cylzone {
@@ -33,12 +34,16 @@ std::string mm(double value) { return detail::format_number(value, 4); }
 
 /// Runs `f`, prefixing any FitError with the bore's id ("bore P3: ...").
 template <class F>
-auto for_bore(const PlanBore& bore, F&& f) -> decltype(f()) {
+auto for_bore_id(const std::string& id, F&& f) -> decltype(f()) {
   try {
     return f();
   } catch (const FitError& error) {
-    throw FitError("bore " + bore.id + ": " + error.what());
+    throw FitError("bore " + id + ": " + error.what());
   }
+}
+template <class F>
+auto for_bore(const PlanBore& bore, F&& f) -> decltype(f()) {
+  return for_bore_id(bore.id, std::forward<F>(f));
 }
 
 void take_warnings(std::vector<std::string>& out, const char* what, const FitSummary& summary) {
@@ -401,6 +406,37 @@ double section_gap_of(const PlanBore& bore, const BoreEvaluationOptions& options
   return bore.section_gap.value_or(options.section_gap);
 }
 
+/// Whether the points `kept` surround `axis` in every section of `plan` that holds three or
+/// more of them: a point lies inside the convex hull of planar points exactly when no half-plane
+/// through it holds them all, that is when the largest angular gap between them, seen from it,
+/// is below 180 degrees. A section with fewer points cannot show it and is not counted; with
+/// none counted, the answer is no (the clearance is then the conservative envelope figure).
+bool surrounds_axis(const Eigen::Matrix3Xd& points, const std::vector<Eigen::Index>& kept,
+                    const Axis& axis, const std::vector<double>& ls_height,
+                    const SectionPlan& plan) {
+  const Eigen::Matrix3d basis = detail::basis_from_direction(axis.direction);
+  std::vector<std::vector<double>> angles(plan.heights.size());
+  for (Eigen::Index i : kept) {
+    const double t = ls_height[static_cast<std::size_t>(i)];
+    const auto it = std::lower_bound(plan.heights.begin(), plan.heights.end(), t);
+    std::size_t k = static_cast<std::size_t>(it - plan.heights.begin());
+    if (k == plan.heights.size() || (k > 0 && t - plan.heights[k - 1] < *it - t)) --k;
+    if (plan.heights.empty() || std::abs(t - plan.heights[k]) > plan.half_thickness) continue;
+    const Eigen::Vector3d q = basis.transpose() * (points.col(i) - axis.point);
+    angles[k].push_back(std::atan2(q.y(), q.x()));
+  }
+  std::size_t counted = 0;
+  for (std::vector<double>& a : angles) {
+    if (a.size() < 3) continue;
+    ++counted;
+    std::sort(a.begin(), a.end());
+    double gap = a.front() + 2.0 * pi - a.back();
+    for (std::size_t j = 1; j < a.size(); ++j) gap = std::max(gap, a[j] - a[j - 1]);
+    if (!(gap < pi)) return false;
+  }
+  return counted > 0;
+}
+
 /// Checks what evaluation needs before any fit; returns the nominal direction.
 Eigen::Vector3d checked_bore(const PlanBore& bore, const Eigen::Matrix3Xd& points,
                              const BoreEvaluationOptions& options) {
@@ -597,35 +633,31 @@ BoreResult evaluate_bore(const BoreInput& input, const BoreEvaluationOptions& op
     vc.boundary = virtual_condition(spec.condition, FeatureKind::bore, *bore.size, spec.tolerance);
     vc.on_true_position = on_position;
     vc.condition = spec.condition;
-    if (on_position && result.position->projected) {
-      // The boundary stands above A, where the bore has no surface: the perfect envelope is
-      // extended into it. At MMC the extended envelope (radius R, axis offset e(h) from the
-      // true-position axis) must contain the boundary cylinder of radius Rv on the true axis:
-      // |e(h)| + Rv <= R over the zone, i.e. clearance 2R - 2 max|e| >= 2 Rv. At LMC the
-      // minimum material envelope must stay inside the boundary: 2R + 2 max|e| <= 2 Rv. |e| is
-      // largest at an end of the zone (convexity).
-      const CylinderFit& envelope = at_mmc ? result.mating_envelope : result.minimum_material;
-      const StraightAxis e = for_bore(bore, [&] { return StraightAxis::from_axis(envelope.axis, result.zone); });
-      const double reach = position_over_range(e, result.position->range_top,
-                                               result.position->range_bottom);
-      vc.clearance = at_mmc ? envelope.diameter() - reach : envelope.diameter() + reach;
-    } else if (on_position) {
-      // The largest (MMC) / smallest (LMC) cylinder on the true-position axis clear of / around
-      // every point within the evaluated depth.
-      double nearest = std::numeric_limits<double>::infinity(), farthest = 0.0;
-      std::size_t used = 0;
-      for (Eigen::Index i = 0; i < n; ++i) {
-        const double h = local(2, i);
-        if (h > own_top + range_slack || h < own_bottom - range_slack) continue;
-        const double radial = local.col(i).head<2>().norm();
-        nearest = std::min(nearest, radial);
-        farthest = std::max(farthest, radial);
-        ++used;
+    if (on_position) {
+      // On the true-position axis (detail/boundary_clearance.hpp gives the rule): the points
+      // within the evaluated depth are kept, so that a moved frame can measure them again, and
+      // whether they surround the mating envelope's axis is found once (a rigid motion of the
+      // frame does not change it).
+      if (!result.position->projected) {
+        std::vector<Eigen::Index> kept;
+        for (Eigen::Index i = 0; i < n; ++i) {
+          const double h = local(2, i);
+          if (h > own_top + range_slack || h < own_bottom - range_slack) continue;
+          kept.push_back(i);
+        }
+        if (kept.empty())
+          throw FitError("bore " + bore.id + ": no point lies within the depth range " +
+                         mm(own_bottom) + " to " + mm(own_top));
+        result.boundary_points.resize(3, static_cast<Eigen::Index>(kept.size()));
+        for (std::size_t k = 0; k < kept.size(); ++k)
+          result.boundary_points.col(static_cast<Eigen::Index>(k)) = points.col(kept[k]);
+        if (at_mmc)
+          vc.envelope_surrounded = surrounds_axis(points, kept, result.mating_envelope.axis,
+                                                  ls_height, section_plan);
       }
-      if (used == 0)
-        throw FitError("bore " + bore.id + ": no point lies within the depth range " +
-                       mm(own_bottom) + " to " + mm(own_top));
-      vc.clearance = 2.0 * (at_mmc ? nearest : farthest);
+      result.virtual_condition = vc;
+      vc = virtual_condition_after_frame_motion(result, FrameMotion{});
+      vc.motion.reset();
     } else {
       // Perpendicularity only: the boundary is perpendicular to A but free in location, so the
       // related envelope (orientation-constrained) is compared with it.
@@ -637,10 +669,50 @@ BoreResult evaluate_bore(const BoreInput& input, const BoreEvaluationOptions& op
         take_warnings(warnings, "related minimum material envelope", outer.summary);
         vc.clearance = outer.diameter();
       }
+      vc.basis = at_mmc ? "related mating envelope" : "related minimum material envelope";
     }
     result.virtual_condition = vc;
   }
   return result;
+}
+
+VirtualConditionResult virtual_condition_after_frame_motion(const BoreResult& bore,
+                                                            const FrameMotion& motion) {
+  if (!bore.virtual_condition || !bore.virtual_condition->on_true_position || !bore.position)
+    throw FitError("bore " + bore.id + ": it has no virtual condition on the true position");
+  VirtualConditionResult vc = *bore.virtual_condition;
+  const PositionResult& p = *bore.position;
+  const bool at_mmc = vc.condition == MaterialCondition::mmc;
+  // The moved frame, as position_after_frame_motion: p' = R^T (p - shift).
+  const Eigen::Matrix3d r_t = rotation_about_z(motion.rotation_rad).transpose();
+  const Eigen::Vector3d shift(motion.shift.x(), motion.shift.y(), 0.0);
+  const CylinderFit& envelope = at_mmc ? bore.mating_envelope : bore.minimum_material;
+  const Axis moved_axis{r_t * (envelope.axis.point - shift), r_t * envelope.axis.direction};
+  const StraightAxis e =
+      for_bore_id(bore.id, [&] { return StraightAxis::from_axis(moved_axis, bore.zone); });
+  detail::BoundaryDistances d;
+  d.envelope_diameter = envelope.diameter();
+  d.envelope_reach = position_over_range(e, p.range_top, p.range_bottom);
+  d.reach_height = worst_end(e, p.range_top, p.range_bottom).height;
+  if (!p.projected) {
+    if (bore.boundary_points.cols() == 0)
+      throw FitError("bore " + bore.id + ": no point lies within the depth range");
+    const Eigen::Matrix3Xd moved = r_t * (bore.boundary_points.colwise() - shift);
+    const Eigen::Matrix3Xd local = bore.zone.basis.transpose() * (moved.colwise() - bore.zone.origin);
+    d.nearest = std::numeric_limits<double>::infinity();
+    for (Eigen::Index i = 0; i < local.cols(); ++i) {
+      const double radial = local.col(i).head<2>().norm();
+      d.nearest = std::min(d.nearest, radial);
+      d.farthest = std::max(d.farthest, radial);
+    }
+  }
+  const detail::BoundaryClearance clearance =
+      detail::boundary_clearance(at_mmc, p.projected, vc.envelope_surrounded, d);
+  vc.clearance = clearance.clearance;
+  vc.conservative = !clearance.exact && !p.projected;
+  vc.basis = detail::boundary_basis(at_mmc, p.projected, vc.envelope_surrounded, d);
+  vc.motion = motion;
+  return vc;
 }
 
 PositionResult position_after_frame_motion(const BoreResult& bore, const PlanBore& plan,
@@ -707,6 +779,8 @@ BoreResult moved_to_frame(const BoreResult& bore, const PlanBore& plan,
     const AxisDeviation d = bore.axis_in_zone.at(h);
     return w.dot(move_point(zone_to_frame(bore.zone, d)) - bore.zone.origin);
   };
+  if (moved.boundary_points.cols() > 0)
+    moved.boundary_points = (rotation * moved.boundary_points).colwise() + translation;
   moved.probed_top = moved_height(bore.probed_top);
   moved.probed_bottom = moved_height(bore.probed_bottom);
   evaluate_in_zone(moved, plan, FitOptions{});

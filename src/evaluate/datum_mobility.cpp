@@ -30,6 +30,7 @@
 #include <Eigen/Geometry>
 #include <Eigen/SVD>
 #include <algorithm>
+#include <array>
 #include <cmath>
 #include <limits>
 #include <optional>
@@ -39,6 +40,7 @@
 #include "cylzone/evaluate/material_condition.hpp"
 #include "detail/fit_support.hpp"
 #include "detail/golden_section.hpp"
+#include "evaluate/detail/boundary_clearance.hpp"
 
 namespace cylzone {
 namespace {
@@ -223,6 +225,40 @@ double worst_ratio(const std::vector<Term>& terms, const Eigen::Vector2d& s) {
   return worst;
 }
 
+/// Smallest singular value of M: |M s| >= sigma_min(M) |s|.
+double smallest_singular_value(const Eigen::Matrix2d& m) {
+  return Eigen::JacobiSVD<Eigen::Matrix2d>(m).singularValues()(1);
+}
+
+/// A disk about the origin from per-term bounds |M s + b| <= limit: sigma_min(M) |s| - |b| <=
+/// limit, so |s| <= (limit + |b|) / sigma_min(M); the smallest bound, widened for rounding.
+/// 0 when no term bounds the shift.
+class FreeRadius {
+ public:
+  void bound(const Eigen::Matrix2d& m, const Eigen::Vector2d& b, double limit) {
+    const double sigma = smallest_singular_value(m);
+    if (sigma > 1e-9) bound_ = std::min(bound_, (limit + b.norm()) / sigma);
+  }
+  double radius() const { return std::isfinite(bound_) ? bound_ * (1.0 + 1e-9) + 1e-12 : 0.0; }
+
+ private:
+  double bound_ = infinity;
+};
+
+/// The position search's objective at one rotation: the pattern's worst ratio.
+struct RatioObjective {
+  const std::vector<Term>& terms;
+  double operator()(const Eigen::Vector2d& s) const { return worst_ratio(terms, s); }
+  /// Without datum B the shift is free, but any s with F(s) <= F(0) has, for every term,
+  /// sigma_min(M) |s| - |b| <= F(0) / w: the optimum lies in the disk of the smallest such bound.
+  double free_radius() const {
+    const double f0 = worst_ratio(terms, Eigen::Vector2d::Zero());
+    FreeRadius r;
+    for (const Term& t : terms) r.bound(t.m, t.b, f0 / t.weight);
+    return r.radius();
+  }
+};
+
 struct InnerSolution {
   Eigen::Vector2d shift = Eigen::Vector2d::Zero();
   double ratio = infinity;
@@ -234,8 +270,12 @@ class InnerSolver {
   InnerSolver(const FrameMobility& mobility, const MobilityOptions& options, double s_tolerance)
       : mobility_(mobility), options_(options), s_tolerance_(s_tolerance) {}
 
-  InnerSolution solve(const std::vector<Term>& terms, double theta) const {
-    const auto f = [&](const Eigen::Vector2d& s) { return worst_ratio(terms, s); };
+  /// `objective(s)` is the function minimised at this rotation; `objective.free_radius()` a
+  /// disk about the origin holding every shift that is no worse than the origin's (used when
+  /// translation is free).
+  template <class Objective>
+  InnerSolution solve(const Objective& objective, double theta) const {
+    const auto f = [&](const Eigen::Vector2d& s) { return objective(s); };
     InnerSolution out;
     const double r = mobility_.shift_allowance;
     if (mobility_.rotation_about_c && mobility_.c_shift_allowance <= 0.0) {
@@ -297,7 +337,7 @@ class InnerSolver {
       return out;
     }
     double radius = r;
-    if (mobility_.translation_free) radius = free_radius(terms);
+    if (mobility_.translation_free) radius = objective.free_radius();
     if (!(radius > 0.0)) {
       if (mobility_.c_shift_allowance > 0.0 && !strip_contains_origin(theta)) return out;
       out.ratio = f(Eigen::Vector2d::Zero());
@@ -327,19 +367,6 @@ class InnerSolver {
   }
 
  private:
-  /// Without datum B the shift is free, but any s with F(s) <= F(0) has, for every term,
-  /// sigma_min(M) |s| - |b| <= F(0) / w: the optimum lies in the disk of the smallest such bound.
-  static double free_radius(const std::vector<Term>& terms) {
-    const double f0 = worst_ratio(terms, Eigen::Vector2d::Zero());
-    double bound = infinity;
-    for (const Term& t : terms) {
-      const double sigma = Eigen::JacobiSVD<Eigen::Matrix2d>(t.m).singularValues()(1);
-      if (sigma > 1e-9) bound = std::min(bound, (f0 / t.weight + t.b.norm()) / sigma);
-    }
-    if (!std::isfinite(bound)) return 0.0;
-    return bound * (1.0 + 1e-9) + 1e-12;
-  }
-
   /// C at MMB: the origins s it allows at rotation theta, lo <= s . normal <= hi, with normal
   /// n(alpha + theta) the normal of C's basic ray in the moved frame.
   struct Strip {
@@ -434,11 +461,9 @@ double width_rotation_bracket(const FrameMobility::WidthSimulator& w, const Eige
   return std::asin(std::min(1.0, sigma));
 }
 
-/// Half-width of the rotation bracket: no rotation beyond it can beat the unmoved frame. The
-/// bounds follow from |offset| <= F0 / w at the start and at the optimum, with the rotation
-/// moving a lever arm q by 2 sin(|theta| / 2) |q| (exact for a bore perpendicular to A; the
-/// bound is doubled for inclined bores). 0 when no rotation can matter.
-double rotation_bracket(const PatternModel& model, const FrameMobility& mobility, double f0) {
+/// The rotations datum C's simulator allows, when C holds the rotation at all; empty when the
+/// rotation is free (no C).
+std::optional<double> simulator_rotation_bracket(const FrameMobility& mobility) {
   if (mobility.rotation_about_c) return rotation_about_c_limit(mobility);
   if (mobility.c_width && mobility.c_shift_allowance > 0.0 && !mobility.rotation_follows_c)
     return width_rotation_bracket(*mobility.c_width, mobility.c_location, mobility.shift_allowance);
@@ -449,6 +474,16 @@ double rotation_bracket(const PatternModel& model, const FrameMobility& mobility
                              : mobility.shift_allowance + mobility.c_shift_allowance;
     return c > reach ? std::asin(reach / c) : pi;
   }
+  return std::nullopt;
+}
+
+/// Half-width of the rotation bracket: no rotation beyond it can beat the unmoved frame. The
+/// bounds follow from |offset| <= F0 / w at the start and at the optimum, with the rotation
+/// moving a lever arm q by 2 sin(|theta| / 2) |q| (exact for a bore perpendicular to A; the
+/// bound is doubled for inclined bores). 0 when no rotation can matter.
+double rotation_bracket(const PatternModel& model, const FrameMobility& mobility, double f0) {
+  if (const std::optional<double> simulator = simulator_rotation_bracket(mobility))
+    return *simulator;
   const auto levers = model.levers();
   const auto half_angle = [](double ratio) { return 2.0 * std::asin(std::min(1.0, ratio)); };
   double bound = pi;
@@ -472,6 +507,298 @@ double rotation_bracket(const PatternModel& model, const FrameMobility& mobility
   }
   if (!any) return 0.0;
   return std::min(pi, 2.0 * bound);
+}
+
+/// The pattern's virtual condition boundaries as functions of the frame motion: at a rotation
+/// every bore's points and envelope axis, in its zone coordinates, are affine in the shift
+/// (M s + b, as PatternModel's terms), so the objective at a shift costs one 2 x 2 product per
+/// bore and one norm per point.
+class BoundaryModel {
+ public:
+  /// Weight of the mean margin beside the smallest one (the tie-break of best_boundary_motion).
+  static constexpr double mean_weight = 1e-6;
+
+  BoundaryModel(const std::vector<const BoreResult*>& bores, const FrameMobility& mobility)
+      : mobility_(mobility) {
+    for (const BoreResult* bore : bores) {
+      const VirtualConditionResult* vc =
+          bore->virtual_condition ? &*bore->virtual_condition : nullptr;
+      if (!vc || !vc->on_true_position || !bore->position)
+        throw FitError("bore " + bore->id +
+                       ": the boundary search needs its virtual condition on the true position");
+      BoreData d;
+      d.zone = bore->zone;
+      d.at_mmc = vc->condition == MaterialCondition::mmc;
+      d.projected = bore->position->projected;
+      d.surrounded = vc->envelope_surrounded;
+      d.boundary = vc->boundary;
+      const CylinderFit& envelope = d.at_mmc ? bore->mating_envelope : bore->minimum_material;
+      d.diameter = envelope.diameter();
+      d.point = envelope.axis.point;
+      d.direction = envelope.axis.direction;
+      d.heights = {bore->position->range_top, bore->position->range_bottom};
+      d.points = bore->boundary_points;
+      if (!d.projected && d.points.cols() == 0)
+        throw FitError("bore " + bore->id + ": no point lies within the depth range");
+      data_.push_back(std::move(d));
+    }
+    rotated_.resize(data_.size());
+  }
+
+  /// Prepares the objective at rotation theta (the moved frame as in PatternModel::terms_at).
+  void at_rotation(double theta) {
+    const Eigen::Matrix3d r_t =
+        Eigen::AngleAxisd(theta, Eigen::Vector3d::UnitZ()).toRotationMatrix().transpose();
+    for (std::size_t i = 0; i < data_.size(); ++i) {
+      const BoreData& d = data_[i];
+      Rotated& r = rotated_[i];
+      const Eigen::Matrix3d bt = d.zone.basis.transpose();
+      const Eigen::Matrix<double, 3, 2> k = bt * r_t.leftCols<2>();
+      r.points_m = -k.topRows<2>();
+      if (!d.projected)
+        r.points_b = ((bt * r_t) * d.points).colwise() - bt * d.zone.origin;
+      const Eigen::Vector3d a0 = bt * (r_t * d.point - d.zone.origin);
+      const Eigen::Vector3d e = bt * (r_t * d.direction);
+      const Eigen::Vector2d slope = e.head<2>() / e.z();
+      r.envelope_m = -k.topRows<2>() + slope * k.row(2);
+      for (int h = 0; h < 2; ++h) r.envelope_b[h] = a0.head<2>() + (d.heights[h] - a0.z()) * slope;
+      r.candidates = r.points_b.topRows<2>();
+    }
+    // Every shift the inner search tries at this rotation lies in a disk about the origin
+    // (B's clearance, or the free-translation bound), so the points that can be the nearest
+    // (farthest) for some shift in it are found once per rotation.
+    const double radius = mobility_.translation_free ? free_radius() : mobility_.shift_allowance;
+    for (std::size_t i = 0; i < data_.size(); ++i)
+      if (!data_[i].projected)
+        keep_candidates(rotated_[i], rotated_[i].points_m.norm() * radius * (1.0 + 1e-6),
+                        data_[i].at_mmc);
+  }
+
+  /// Margin of bore i at shift s (clearance - boundary at MMC, boundary - clearance at LMC).
+  double margin(std::size_t i, const Eigen::Vector2d& s) const {
+    const BoreData& d = data_[i];
+    const Rotated& r = rotated_[i];
+    detail::BoundaryDistances distances;
+    distances.envelope_diameter = d.diameter;
+    const Eigen::Vector2d te = r.envelope_m * s;
+    distances.envelope_reach =
+        2.0 * std::max((te + r.envelope_b[0]).norm(), (te + r.envelope_b[1]).norm());
+    // At MMC with the axis outside the envelope the clearance is the envelope figure, at most
+    // 0 and so below twice any distance: the points need not be visited.
+    const bool outside = d.at_mmc && !(distances.envelope_reach < distances.envelope_diameter);
+    if (outside) distances.nearest = infinity;
+    if (!d.projected && !outside) {
+      const Eigen::Vector2d t = r.points_m * s;
+      double nearest = infinity, farthest = 0.0;
+      for (Eigen::Index j = 0; j < r.candidates.cols(); ++j) {
+        const double radial = (r.candidates.col(j) + t).norm();
+        nearest = std::min(nearest, radial);
+        farthest = std::max(farthest, radial);
+      }
+      distances.nearest = nearest;
+      distances.farthest = farthest;
+    }
+    const double clearance =
+        detail::boundary_clearance(d.at_mmc, d.projected, d.surrounded, distances).clearance;
+    return d.at_mmc ? clearance - d.boundary : d.boundary - clearance;
+  }
+
+  /// The objective: minus the smallest margin, less mean_weight x the mean margin.
+  double operator()(const Eigen::Vector2d& s) const {
+    double worst = infinity, sum = 0.0;
+    for (std::size_t i = 0; i < data_.size(); ++i) {
+      const double m = margin(i, s);
+      worst = std::min(worst, m);
+      sum += m;
+    }
+    return -worst - mean_weight * sum / static_cast<double>(data_.size());
+  }
+
+  /// Without datum B: any shift no worse than the origin keeps every bore's envelope offset
+  /// (or, at LMC in the material, one point's distance) within a bound, so the optimum lies
+  /// in a disk (FreeRadius). The bounds follow from the clearance rule: at MMC the figure is
+  /// at most D - 2|e| once |e| reaches D / 2, at LMC at least 2 |M s + b| for any point.
+  double free_radius() const {
+    const double f0 = (*this)(Eigen::Vector2d::Zero());
+    // The objective's mean term moves it by at most mean_weight x the largest |margin|, here
+    // and at the optimum; a margin at the optimum is at most D + boundary in size (a
+    // clearance no worse than the unmoved frame's is at most the envelope's, or at LMC the
+    // boundary), which the bounds allow for.
+    double slack = 0.0;
+    for (std::size_t i = 0; i < data_.size(); ++i)
+      slack = std::max(slack, std::abs(margin(i, Eigen::Vector2d::Zero())) + data_[i].diameter +
+                                  data_[i].boundary);
+    const double f = f0 + 2.0 * mean_weight * slack + 1e-9;
+    FreeRadius r;
+    for (std::size_t i = 0; i < data_.size(); ++i) {
+      const BoreData& d = data_[i];
+      const Rotated& rot = rotated_[i];
+      if (d.at_mmc || d.projected) {
+        // At MMC 2|e| <= max(D, f + D - boundary) (in the material) or f + D - boundary
+        // (projected); at LMC projected 2|e| <= f + boundary - D.
+        const double reach = d.at_mmc ? std::max(d.projected ? 0.0 : d.diameter,
+                                                 f + d.diameter - d.boundary)
+                                      : f + d.boundary - d.diameter;
+        for (int h = 0; h < 2; ++h)
+          r.bound(rot.envelope_m, rot.envelope_b[h], std::max(0.0, 0.5 * reach));
+      } else {
+        r.bound(rot.points_m, rot.points_b.col(0).head<2>(), std::max(0.0, 0.5 * (f + d.boundary)));
+      }
+    }
+    return r.radius();
+  }
+
+  /// Largest rate of change of a margin per unit shift (2 |M|, plus the mean term) and per
+  /// radian of rotation (2 x the farthest lever arm from the frame's z axis, plus 1 mm).
+  double shift_lipschitz() const { return 2.0 * (1.0 + mean_weight) * shift_gain_; }
+  double rotation_arm() const {
+    double arm = 0.0;
+    for (const BoreData& d : data_) {
+      arm = std::max(arm, d.point.head<2>().norm() + 0.5 * d.diameter);
+      for (Eigen::Index j = 0; j < d.points.cols(); ++j)
+        arm = std::max(arm, d.points.col(j).head<2>().norm());
+    }
+    return 2.0 * (1.0 + mean_weight) * (arm + 1.0);
+  }
+  void measure_shift_gain() {
+    shift_gain_ = 0.0;
+    for (const Rotated& r : rotated_)
+      shift_gain_ = std::max({shift_gain_, r.points_m.norm(), r.envelope_m.norm()});
+  }
+
+ private:
+  struct BoreData {
+    ZoneFrame zone;
+    bool at_mmc = true;
+    bool projected = false;
+    bool surrounded = true;
+    double boundary = 0.0;
+    double diameter = 0.0;  ///< the envelope's
+    Eigen::Vector3d point = Eigen::Vector3d::Zero();  ///< the envelope's axis
+    Eigen::Vector3d direction = Eigen::Vector3d::UnitZ();
+    std::array<double, 2> heights = {0.0, 0.0};
+    Eigen::Matrix3Xd points;  ///< within the depth, frame coordinates
+  };
+  struct Rotated {
+    Eigen::Matrix2d points_m = Eigen::Matrix2d::Zero();
+    Eigen::Matrix3Xd points_b;  ///< zone coordinates of the points at s = 0 (rows 0, 1 used)
+    /// The columns of points_b (x, y) that can be the nearest (MMC) or farthest (LMC) point for
+    /// some shift of this rotation's disk: keep_candidates.
+    Eigen::Matrix2Xd candidates;
+    Eigen::Matrix2d envelope_m = Eigen::Matrix2d::Zero();
+    std::array<Eigen::Vector2d, 2> envelope_b;
+  };
+  /// Drops the points that another point of the same narrow angular sector beats for every
+  /// offset t with |t| <= delta: for the nearest, k beats j when |b_j + t|^2 - |b_k + t|^2 =
+  /// |b_j|^2 - |b_k|^2 + 2 t . (b_j - b_k) > 0, which holds for all such t when
+  /// |b_j|^2 - |b_k|^2 > 2 delta |b_j - b_k| (the farthest: the same with j and k exchanged).
+  /// Exact: the nearest (farthest) over the candidates is the nearest over all points. Dense
+  /// scans of a bore perpendicular to A keep about one point per direction.
+  static void keep_candidates(Rotated& r, double delta, bool nearest) {
+    const Eigen::Index n = r.candidates.cols();
+    constexpr int sectors = 4096;
+    std::vector<Eigen::Index> best(sectors, -1);
+    std::vector<int> sector(static_cast<std::size_t>(n));
+    const auto sq = [&](Eigen::Index j) { return r.candidates.col(j).squaredNorm(); };
+    for (Eigen::Index j = 0; j < n; ++j) {
+      const Eigen::Vector2d b = r.candidates.col(j);
+      const int k = std::clamp(
+          static_cast<int>((std::atan2(b.y(), b.x()) + pi) * (sectors / (2.0 * pi))), 0,
+          sectors - 1);
+      sector[static_cast<std::size_t>(j)] = k;
+      Eigen::Index& champion = best[static_cast<std::size_t>(k)];
+      if (champion < 0 || (nearest ? sq(j) < sq(champion) : sq(j) > sq(champion))) champion = j;
+    }
+    Eigen::Index kept = 0;
+    for (Eigen::Index j = 0; j < n; ++j) {
+      const Eigen::Index k = best[static_cast<std::size_t>(sector[static_cast<std::size_t>(j)])];
+      const double lead = nearest ? sq(j) - sq(k) : sq(k) - sq(j);
+      const double reach = 2.0 * delta * (r.candidates.col(j) - r.candidates.col(k)).norm();
+      // A rounding allowance keeps a point the test cannot tell apart.
+      if (j != k && lead > reach + 1e-12 * (1.0 + sq(j))) continue;
+      r.candidates.col(kept++) = r.candidates.col(j);
+    }
+    r.candidates.conservativeResize(2, kept);
+  }
+
+  const FrameMobility& mobility_;
+  std::vector<BoreData> data_;
+  std::vector<Rotated> rotated_;
+  double shift_gain_ = 1.0;
+};
+
+/// Which parts of the motion a mobility leaves free, and whether the unmoved frame is one of
+/// the allowed motions: C's simulator fixed at basic holds the part at C, so the unmoved frame
+/// is allowed only when C lies at its held distance (within C's own room).
+struct Freedom {
+  bool rotation_fixed = true;
+  bool shift_fixed = true;
+  bool unmoved_allowed = true;
+};
+Freedom freedom_of(const FrameMobility& mobility) {
+  Freedom f;
+  f.rotation_fixed = !mobility.rotation_free && !mobility.rotation_follows_c &&
+                     !mobility.rotation_about_c && mobility.c_shift_allowance <= 0.0;
+  f.shift_fixed = !mobility.translation_free && mobility.shift_allowance <= 0.0;
+  f.unmoved_allowed =
+      !mobility.rotation_about_c ||
+      std::abs(mobility.c_location.norm() - mobility.c_held_distance) <= mobility.c_shift_allowance;
+  return f;
+}
+
+/// The outer search shared by the position and the boundary problems: `solve_at(theta)` solves
+/// the inner convex (position) or near-convex (boundary) problem at one rotation and returns an
+/// InnerSolution whose `ratio` is minimised. A coarse scan of [-bracket, bracket] (0 is a
+/// sample), then golden section around the best sample; the unmoved frame, worth `f0`, is kept
+/// when nothing beats it and it is allowed. `iterations` counts the rotations examined.
+template <class SolveAt>
+FrameMotion search_rotation(const FrameMobility& mobility, const MobilityOptions& options,
+                            SolveAt&& solve_at, double f0, bool unmoved_allowed, double bracket,
+                            double theta_tolerance, int& iterations) {
+  FrameMotion best;  // the unmoved frame, when allowed
+  double best_ratio = unmoved_allowed ? f0 : infinity;
+  const auto consider = [&](double theta, const InnerSolution& s) {
+    if (s.ratio < best_ratio) {
+      best_ratio = s.ratio;
+      best.rotation_rad = theta;
+      best.shift = s.shift;
+    }
+  };
+  if (bracket <= 0.0) {
+    consider(0.0, solve_at(0.0));
+    if (!std::isfinite(best_ratio)) {  // C held at the end of the room: the only motion
+      const Eigen::Vector2d p = origin_about_c(mobility, 0.0);
+      best.shift = p * std::min(1.0, mobility.shift_allowance / std::max(p.norm(), 1e-300));
+    }
+    return best;
+  }
+  // Coarse scan (0 is a sample), then golden section around the best sample.
+  constexpr int half_samples = 16;
+  const double step = bracket / half_samples;
+  int best_k = 0;
+  double best_scan = infinity;
+  iterations = 0;
+  for (int k = -half_samples; k <= half_samples; ++k) {
+    const InnerSolution s = solve_at(k * step);
+    ++iterations;
+    consider(k * step, s);
+    if (s.ratio < best_scan) {
+      best_scan = s.ratio;
+      best_k = k;
+    }
+  }
+  const double lo = std::max(-bracket, (best_k - 1) * step);
+  const double hi = std::min(bracket, (best_k + 1) * step);
+  // `consider` keeps the best motion seen, so the search's own return value is not needed.
+  detail::golden_minimum(
+      [&](double t) {
+        ++iterations;
+        const InnerSolution s = solve_at(t);
+        consider(t, s);
+        return s.ratio;
+      },
+      lo, hi, theta_tolerance, options.max_iterations);
+  return best;
 }
 
 std::string mm(double value) { return detail::format_number(value, 4); }
@@ -628,14 +955,9 @@ MobilityResult best_frame_motion(const std::vector<const BoreResult*>& bores,
   model.terms_at(0.0, terms);
   const double f0 = worst_ratio(terms, Eigen::Vector2d::Zero());
   result.iterations = 1;
-  const bool rotation_fixed = !mobility.rotation_free && !mobility.rotation_follows_c &&
-                              !mobility.rotation_about_c && mobility.c_shift_allowance <= 0.0;
-  const bool shift_fixed = !mobility.translation_free && mobility.shift_allowance <= 0.0;
-  // C's simulator fixed at basic holds the part at C: the unmoved frame is one of the allowed
-  // motions only when C lies at its held distance.
-  const bool unmoved_allowed =
-      !mobility.rotation_about_c ||
-      std::abs(mobility.c_location.norm() - mobility.c_held_distance) <= mobility.c_shift_allowance;
+  const Freedom freedom = freedom_of(mobility);
+  const bool rotation_fixed = freedom.rotation_fixed, shift_fixed = freedom.shift_fixed;
+  const bool unmoved_allowed = freedom.unmoved_allowed;
   if ((rotation_fixed && shift_fixed) || (f0 == 0.0 && unmoved_allowed))
     return finish(FrameMotion{});
 
@@ -651,56 +973,63 @@ MobilityResult best_frame_motion(const std::vector<const BoreResult*>& bores,
   const double theta_tolerance = std::max(options.tolerance / std::max(arm, 1e-300), 1e-16);
   const InnerSolver inner(mobility, options, s_tolerance);
 
-  FrameMotion best;  // the unmoved frame, when allowed
-  double best_ratio = unmoved_allowed ? f0 : infinity;
-  const auto consider = [&](double theta, const InnerSolution& s) {
-    if (s.ratio < best_ratio) {
-      best_ratio = s.ratio;
-      best.rotation_rad = theta;
-      best.shift = s.shift;
-    }
-  };
   const auto solve_at = [&](double theta) {
     model.terms_at(theta, terms);
-    return inner.solve(terms, theta);
+    return inner.solve(RatioObjective{terms}, theta);
   };
-
   const double bracket = rotation_fixed ? 0.0 : rotation_bracket(model, mobility, f0);
-  if (bracket <= 0.0) {
-    consider(0.0, solve_at(0.0));
-    if (!std::isfinite(best_ratio)) {  // C held at the end of the room: the only motion
-      const Eigen::Vector2d p = origin_about_c(mobility, 0.0);
-      best.shift = p * std::min(1.0, mobility.shift_allowance / std::max(p.norm(), 1e-300));
+  return finish(search_rotation(mobility, options, solve_at, f0, unmoved_allowed, bracket,
+                                theta_tolerance, result.iterations));
+}
+
+BoundaryMobilityResult best_boundary_motion(const std::vector<const BoreResult*>& bores,
+                                            const FrameMobility& mobility,
+                                            const MobilityOptions& options) {
+  for (const BoreResult* bore : bores)
+    if (!bore) throw FitError("datum mobility: a bore is missing");
+  BoundaryMobilityResult result;
+  const auto finish = [&](const FrameMotion& motion) {
+    result.motion = motion;
+    result.boundaries.clear();
+    result.worst_margin = infinity;
+    for (const BoreResult* bore : bores) {
+      result.boundaries.push_back(virtual_condition_after_frame_motion(*bore, motion));
+      const VirtualConditionResult& v = result.boundaries.back();
+      result.worst_margin =
+          std::min(result.worst_margin, v.condition == MaterialCondition::lmc
+                                            ? v.boundary - v.clearance
+                                            : v.clearance - v.boundary);
     }
-    return finish(best);
-  }
-  // Coarse scan (0 is a sample), then golden section around the best sample.
-  constexpr int half_samples = 16;
-  const double step = bracket / half_samples;
-  int best_k = 0;
-  double best_scan = infinity;
-  result.iterations = 0;
-  for (int k = -half_samples; k <= half_samples; ++k) {
-    const InnerSolution s = solve_at(k * step);
-    ++result.iterations;
-    consider(k * step, s);
-    if (s.ratio < best_scan) {
-      best_scan = s.ratio;
-      best_k = k;
-    }
-  }
-  const double lo = std::max(-bracket, (best_k - 1) * step);
-  const double hi = std::min(bracket, (best_k + 1) * step);
-  // `consider` keeps the best motion seen, so the search's own return value is not needed.
-  detail::golden_minimum(
-      [&](double t) {
-        ++result.iterations;
-        const InnerSolution s = solve_at(t);
-        consider(t, s);
-        return s.ratio;
-      },
-      lo, hi, theta_tolerance, options.max_iterations);
-  return finish(best);
+    return result;
+  };
+  if (bores.empty()) return result;
+  BoundaryModel model(bores, mobility);
+  model.at_rotation(0.0);
+  const double f0 = model(Eigen::Vector2d::Zero());
+  result.iterations = 1;
+  const Freedom freedom = freedom_of(mobility);
+  const bool rotation_fixed = freedom.rotation_fixed, shift_fixed = freedom.shift_fixed;
+  const bool unmoved_allowed = freedom.unmoved_allowed;
+  if (rotation_fixed && shift_fixed) return finish(FrameMotion{});
+
+  // Argument tolerances from the rates of change of the objective, as best_frame_motion's.
+  model.measure_shift_gain();
+  const double about_c_arm = mobility.rotation_about_c ? 2.0 * mobility.c_location.norm() : 0.0;
+  const double s_tolerance =
+      std::max(options.tolerance / std::max(model.shift_lipschitz(), 1e-300), 1e-15);
+  const double theta_tolerance =
+      std::max(options.tolerance / std::max(model.rotation_arm() + about_c_arm, 1e-300), 1e-16);
+  const InnerSolver inner(mobility, options, s_tolerance);
+  const auto solve_at = [&](double theta) {
+    model.at_rotation(theta);
+    return inner.solve(model, theta);
+  };
+  // A free rotation is searched over the whole turn: unlike the position's ratio, the
+  // clearance gives no bound from the unmoved frame (an axis outside its bore may be anywhere).
+  const double bracket =
+      rotation_fixed ? 0.0 : simulator_rotation_bracket(mobility).value_or(pi);
+  return finish(search_rotation(mobility, options, solve_at, f0, unmoved_allowed, bracket,
+                                theta_tolerance, result.iterations));
 }
 
 }  // namespace cylzone

@@ -244,12 +244,26 @@ json bore_json(const BoreResult& b, const BoreSummary& s, const BoreSensitivity*
   } else {
     j["perpendicularity"] = nullptr;
   }
-  j["virtual_condition"] =
-      b.virtual_condition
-          ? json{{"boundary", u.length(b.virtual_condition->boundary)},
-                 {"clearance", u.length(b.virtual_condition->clearance)},
-                 {"verdict", verdict_of(m, b.id + "/virtual-condition")}}
-          : json(nullptr);
+  if (b.virtual_condition) {
+    // The deciding figure: after the boundaries' own frame motion when the datum reference
+    // leaves the frame mobile (docs/report-schema.md).
+    const VirtualConditionResult& v =
+        b.virtual_condition_with_mobility ? *b.virtual_condition_with_mobility
+                                          : *b.virtual_condition;
+    json vc{{"boundary", u.length(v.boundary)},
+            {"clearance", u.length(v.clearance)},
+            {"verdict", verdict_of(m, b.id + "/virtual-condition")},
+            {"basis", in_report_unit(v.basis, u)},
+            {"conservative", v.conservative},
+            {"reason", in_report_unit(boundary_reason(b), u)}};
+    vc["motion"] = v.motion ? json{{"shift", json::array({u.length(v.motion->shift.x()),
+                                                          u.length(v.motion->shift.y())})},
+                                   {"rotation_rad", v.motion->rotation_rad}}
+                            : json(nullptr);
+    j["virtual_condition"] = vc;
+  } else {
+    j["virtual_condition"] = nullptr;
+  }
   j["fits"] = {{"least_squares", fit_json(b.least_squares, u)},
                {"mating_envelope", fit_json(b.mating_envelope, u)},
                {"related_envelope", fit_json(b.related_envelope, u)},

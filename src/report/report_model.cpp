@@ -7,6 +7,7 @@
 #include <cstdio>
 #include <regex>
 
+#include "cylzone/decide/bore_characteristics.hpp"
 #include "cylzone/version.hpp"
 
 namespace cylzone {
@@ -271,6 +272,10 @@ ReportModel make_report_model(const PartCheckResult& r, const ReportModelOptions
     else if (b.position)
       s.depth = depth_profile(*b.position, b.id + "/position", options.depth_samples);
     if (b.position_with_mobility) s.mobility = in_report_unit(b.mobility_reason, m.units);
+    if (b.virtual_condition &&
+        (b.virtual_condition_with_mobility ||
+         (b.virtual_condition->conservative && b.virtual_condition->on_true_position)))
+      s.boundary = in_report_unit(boundary_reason(b), m.units);
     const InputRecord* in = m.input("bore " + b.id);
     for (const std::string& w : b.warnings)
       s.warnings.push_back(in_report_unit(in ? with_file_lines(w, in->point_lines) : w, m.units));

@@ -421,8 +421,11 @@ std::string format_table(const ReportModel& m, const TableOptions& options) {
 
   if (m.points_prepared()) preparation_lines(out, m, options.width);
 
-  for (const BoreSummary& b : m.bores)
+  for (const BoreSummary& b : m.bores) {
     if (!b.mobility.empty()) out << "datum mobility, bore " << b.id << ": " << b.mobility << '\n';
+    if (!b.boundary.empty())
+      out << wrapped("virtual condition, bore " + b.id + ": ", b.boundary, options.width, 4);
+  }
   for (const BoreSummary& b : m.bores)
     for (const std::string& warning : b.warnings)
       out << wrapped("warning: bore " + b.id + ": ", warning, options.width, 4);

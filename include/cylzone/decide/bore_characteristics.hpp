@@ -67,6 +67,12 @@ Verdict feature_verdict(const std::vector<Characteristic>& characteristics,
 std::string size_reason(const std::vector<Characteristic>& characteristics,
                         std::string_view feature);
 
+/// How the deciding virtual condition figure of `bore` was found, in words: the clearance's
+/// basis ("nearest point", or why the conservative envelope figure was taken) and, when the
+/// datum reference let the frame move, the motion used ("shift (dx, dy) mm, rotation r rad")
+/// and what the reference left free. Empty without a virtual condition.
+std::string boundary_reason(const BoreResult& bore);
+
 /// The datum reference and modifier of a tolerance, as reports print it: "A|B(M)|C MMC",
 /// "A projected".
 std::string tolerance_reference(const PlanTolerance& spec);

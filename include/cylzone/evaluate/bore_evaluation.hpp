@@ -95,6 +95,13 @@ struct FormResult {
   std::optional<double> tolerance;
 };
 
+/// A rigid motion of the frame in the plane of A: rotation about the frame's z axis through the
+/// origin (datum B's axis), then a shift in x, y.
+struct FrameMotion {
+  Eigen::Vector2d shift = Eigen::Vector2d::Zero();
+  double rotation_rad = 0.0;
+};
+
 /// The toleranced feature must not violate its virtual condition boundary (the surface
 /// interpretation of a tolerance at MMC/LMC, ASME Y14.5-2018; ISO 2692:2021 maximum/least
 /// material virtual condition). For position the boundary is a perfect cylinder of the virtual
@@ -103,28 +110,43 @@ struct FormResult {
 /// perpendicularity at MMC/LMC without a material-modified position, the boundary is
 /// perpendicular to A and free in location.
 ///  * MMC (bore): `clearance` is the diameter of the largest cylinder on that axis (or
-///    perpendicular to A) clear of every point; it conforms when clearance >= boundary.
+///    perpendicular to A) clear of every point; it conforms when clearance >= boundary. A
+///    cylinder on an axis that does not lie inside the bore is clear of no surface: when the
+///    true-position axis leaves the actual mating envelope anywhere over the depth, or the
+///    points do not surround the envelope's axis in every section, the clearance is the
+///    conservative envelope figure D - 2 max|e| (e: the envelope axis' offset from the
+///    true-position axis), negative when the axis lies outside the bore (`basis` says which).
 ///  * LMC (bore): `clearance` is the diameter of the smallest such cylinder containing every
-///    point; it conforms when clearance <= boundary.
+///    point; it conforms when clearance <= boundary. It needs no such guard: a cylinder that
+///    contains every point contains their convex hull, wherever its axis lies.
 struct VirtualConditionResult {
   double boundary = 0.0;   ///< virtual condition size (bore at MMC: MMC - t; at LMC: LMC + t)
-  double clearance = 0.0;  ///< see above
+  double clearance = 0.0;  ///< see above; signed
   /// The material condition of the boundary: MMC (clearance must reach the boundary) or LMC
   /// (the boundary must contain the points); the decide stage compares accordingly.
   MaterialCondition condition = MaterialCondition::mmc;
   bool on_true_position = true;   ///< false: perpendicularity's boundary, free in location
+  /// How the clearance was found, for people, e.g. "nearest point", or why the conservative
+  /// envelope figure was taken ("the true-position axis lies outside the actual mating
+  /// envelope at z = -60.0000: the boundary cannot be clear").
+  std::string basis;
+  /// True when the conservative envelope figure replaced the nearest-point one (the axis
+  /// outside the envelope, or the points not surrounding it): the reports then say why.
+  bool conservative = false;
+  /// On the true position at MMC: the points surround the actual mating envelope's axis in
+  /// every section within the depth (largest angular gap below 180 degrees), so an axis inside
+  /// the envelope lies inside the bore. Motion-invariant, found once.
+  bool envelope_surrounded = true;
+  /// The frame motion the figure was taken after (datum mobility), as
+  /// position_after_frame_motion applies it; empty in the frame as built.
+  std::optional<FrameMotion> motion;
+  /// What the datum reference left free (FrameMobility::description), with the motion.
+  std::string motion_reason;
 };
 
 struct TiltResult {
   double angle_rad = 0.0;     ///< angle of the toleranced axis from the nominal direction
   double azimuth_deg = 0.0;   ///< direction of the tilt in the frame, from +x toward +y
-};
-
-/// A rigid motion of the frame in the plane of A: rotation about the frame's z axis through the
-/// origin (datum B's axis), then a shift in x, y.
-struct FrameMotion {
-  Eigen::Vector2d shift = Eigen::Vector2d::Zero();
-  double rotation_rad = 0.0;
 };
 
 struct BoreResult {
@@ -155,6 +177,15 @@ struct BoreResult {
   std::optional<PositionResult> position;
   std::optional<PerpendicularityResult> perpendicularity;
   std::optional<VirtualConditionResult> virtual_condition;
+  /// On the true position, not projected: the bore's points within the evaluated depth (datum
+  /// frame), which a moved frame's boundary check measures again. Empty otherwise.
+  Eigen::Matrix3Xd boundary_points;
+  /// The virtual condition on the true position re-evaluated after the allowed frame motion
+  /// that best clears the boundaries of every bore with the same datum reference (simultaneous
+  /// requirement), chosen on its own (the surface interpretation is a requirement of its own,
+  /// not the position's motion). Empty when the frame is fully fixed. When present, it decides
+  /// the virtual condition characteristic.
+  std::optional<VirtualConditionResult> virtual_condition_with_mobility;
   /// Position re-evaluated after the best frame motion the datum reference allows (datum
   /// feature shift at MMB, or degrees of freedom it leaves free), shared by all bores with the
   /// same datum reference (simultaneous requirement). Empty when the frame is fully fixed.
@@ -230,12 +261,21 @@ BoreResult evaluate_bore(const PlanBore& bore, const Eigen::Matrix3Xd& points,
 PositionResult position_after_frame_motion(const BoreResult& bore, const PlanBore& plan,
                                            const FrameMotion& motion);
 
+/// The virtual condition on the true position re-evaluated after the frame moves by `motion`
+/// (as position_after_frame_motion): the true-position axis moves with the frame, the bore's
+/// points and envelopes stay. The boundary, condition and basis rules are those of
+/// evaluate_bore, and the motion is recorded in the result. Throws FitError when the bore has
+/// no virtual condition on the true position.
+VirtualConditionResult virtual_condition_after_frame_motion(const BoreResult& bore,
+                                                            const FrameMotion& motion);
+
 /// The bore's frame-dependent figures (axis, tilt, position, perpendicularity) recomputed after
 /// the datum frame changes by a rigid motion, q_new = rotation q_old + translation, without
 /// refitting: every fit except the related envelope is invariant under rigid motions of the
 /// points, so its axis and the section centres are moved instead. Used by the sensitivity study
-/// (datum A associated by another method). The related envelope, the virtual condition
-/// clearance and mobility results are carried over unchanged.
+/// (datum A associated by another method). The boundary points are moved with the frame; the
+/// related envelope, the virtual condition clearance and mobility results are carried over
+/// unchanged.
 BoreResult moved_to_frame(const BoreResult& bore, const PlanBore& plan,
                           const Eigen::Matrix3d& rotation, const Eigen::Vector3d& translation);
 

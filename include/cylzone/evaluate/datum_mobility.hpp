@@ -117,4 +117,30 @@ MobilityResult best_frame_motion(const std::vector<const BoreResult*>& bores,
                                  const FrameMobility& mobility,
                                  const MobilityOptions& options = {});
 
+/// Best motion for the virtual condition boundaries of a pattern (bores with the same datum
+/// reference, each with a virtual condition on its true position): the surface interpretation
+/// is one simultaneous requirement too, so some one allowed motion must clear every bore's
+/// boundary. The motion chosen maximises the smallest margin over the pattern, clearance -
+/// boundary at MMC and boundary - clearance at LMC, with the clearance figure of
+/// virtual_condition_after_frame_motion (so a true-position axis that leaves a bore counts as
+/// a negative clearance, and the search is led back into the bore). Among motions with the
+/// same smallest margin, the one with the larger mean margin is taken (a weight of 1e-6), so
+/// that the figures of bores that do not bind do not depend on the search's path, nor on how
+/// the part sat on the machine. The same searches as best_frame_motion (docs/evaluation.md);
+/// the function is not convex in the shift, only close to it near a bore's centre, so the
+/// result is a local optimum reached from the unmoved frame's neighbourhood. Deterministic.
+struct BoundaryMobilityResult {
+  FrameMotion motion;
+  /// Smallest margin over the pattern after the motion, mm (negative: some boundary is
+  /// violated).
+  double worst_margin = 0.0;
+  std::vector<VirtualConditionResult> boundaries;  ///< parallel to the input bores
+  int iterations = 0;  ///< rotations examined by the outer search (1 when rotation is fixed)
+};
+
+/// Throws FitError when a bore has no virtual condition on its true position.
+BoundaryMobilityResult best_boundary_motion(const std::vector<const BoreResult*>& bores,
+                                            const FrameMobility& mobility,
+                                            const MobilityOptions& options = {});
+
 }  // namespace cylzone

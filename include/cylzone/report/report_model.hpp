@@ -108,6 +108,9 @@ struct BoreSummary {
   /// What the datum reference let the frame do for the bore's pattern, with the reading of datum
   /// C's simulator (BoreResult::mobility_reason); empty when the frame stayed fixed.
   std::string mobility;
+  /// How the virtual condition figure was found when it needs saying (boundary_reason): after
+  /// a frame motion of the datum mobility, or the conservative envelope figure; else empty.
+  std::string boundary;
   std::vector<std::string> warnings;
   // ---- Evaluation status (BoreResult::not_evaluated, direction_held).
   /// Empty when the bore was evaluated; else why not (then only `id`, `verdict` and
