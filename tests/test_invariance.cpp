@@ -630,22 +630,12 @@ Family generated_family(const FamilySpec& spec, bool vectors) {
 
 namespace {
 
-/// Known defect, in the Chebyshev fits' ambiguity walks (src/fit/chebyshev_uniqueness.cpp):
-/// where a mating envelope's optimum is not proven unique, the walk measures the set of elements
-/// within 64 ulps of the optimum's objective, and its extent (CylinderFit::ambiguity) is then of
-/// the order of the square root of rounding: bore P6's minimum-material envelope of the demo
-/// reports 4.8e-8 mm as placed and up to 1.8e-7 mm after a motion.
-std::vector<std::regex> chebyshev_ambiguity_at_rounding() {
-  return {std::regex(R"(bores\[[^\]]+\]\.fits\.[a-z_]+\.ambiguity)")};
-}
-
 void check_demo(bool only_known) {
   Family demo;
   demo.name = "demo";
   demo.plan = read_plan(std::filesystem::path(CYLZONE_SOURCE_DIR) /
                         "point-clouds/valve-manifold/plan.toml");
   demo.inputs = load_part_inputs(demo.plan);  // read once, then moved in memory
-  demo.known = chebyshev_ambiguity_at_rounding();
   check_family(demo, only_known);
 }
 
@@ -653,13 +643,6 @@ void check_demo(bool only_known) {
 
 TEST_CASE("invariance: the demo part under random rigid motions", "[invariance][demo]") {
   check_demo(false);
-}
-
-// Known defect (chebyshev_ambiguity_at_rounding): enable, i.e. drop [!mayfail], once the
-// ambiguity walks resolve below rounding.
-TEST_CASE("invariance, known defect: the demo's Chebyshev ambiguity at rounding level",
-          "[invariance][demo][known][!mayfail]") {
-  check_demo(true);
 }
 
 // --------------------------------------------------------------------------- generated families
