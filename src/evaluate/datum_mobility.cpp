@@ -955,7 +955,10 @@ std::optional<FrameMotion> polish_motion(const PatternModel& model, const FrameM
         system(m + n, n + 1 + i) = 1.0;
       }
       residual(m + n) = lambda.sum() - 1.0;
-      const Eigen::FullPivLU<Eigen::MatrixXd> lu(system);
+      Eigen::FullPivLU<Eigen::MatrixXd> lu(system);
+      // A flat set makes the system singular, and rounding would hide it at the default
+      // threshold (a tiny pivot, and a step along the flat set as long as its inverse).
+      lu.setThreshold(1e-10);
       if (lu.rank() < size) {
         degenerate = true;
         return std::nullopt;
@@ -994,6 +997,9 @@ std::optional<FrameMotion> polish_motion(const PatternModel& model, const FrameM
     polished.shift = x.head<2>();
     polished.rotation_rad = x.z();
     if (polished.shift.norm() > shift_limit) return std::nullopt;
+    // The searches place the motion to about the square root of rounding; a polish that went
+    // far from them found another stationary point, and the searches' answer stands.
+    if ((x - x0).head<2>().norm() > 1e-3 || std::abs(x.z() - x0.z()) > 1e-5) return std::nullopt;
     if (!(worst(x) <= f_start * (1.0 + 1e-12))) return std::nullopt;
     return polished;
   }
