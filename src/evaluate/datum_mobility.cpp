@@ -868,11 +868,9 @@ FrameMotion search_rotation(const FrameMobility& mobility, const MobilityOptions
 /// no worse than the start, and keeps the shift within `shift_limit` (infinite when the
 /// translation is free); otherwise nothing, and the searches' answer stands. A singular
 /// system (a flat set of equally good motions, e.g. one bore and a free translation) is left
-/// to the tie-break of best_frame_motion.
+/// to the searches (docs/evaluation.md).
 std::optional<FrameMotion> polish_motion(const PatternModel& model, const FrameMotion& start,
-                                         const std::array<bool, 3>& free, double shift_limit,
-                                         bool& degenerate) {
-  degenerate = false;
+                                         const std::array<bool, 3>& free, double shift_limit) {
   std::vector<int> vars;
   for (int j = 0; j < 3; ++j)
     if (free[j]) vars.push_back(j);
@@ -929,16 +927,16 @@ std::optional<FrameMotion> polish_motion(const PatternModel& model, const FrameM
     if (ratio(k, x0) >= f_start * (1.0 - 1e-6)) active.push_back(k);
   for (int round = 0; round < 12; ++round) {
     const int m = static_cast<int>(active.size());
-    if (m == 0 || m > n + 1) {
-      degenerate = m > n + 1;
-      return std::nullopt;
-    }
+    if (m == 0 || m > n + 1) return std::nullopt;
     const int size = n + 1 + m;
     Eigen::Vector3d x = x0;
     double t = f_start;
     Eigen::VectorXd lambda = Eigen::VectorXd::Constant(m, 1.0 / m);
-    bool converged = false;
+    // Converged once a step is below 1e-9 (mm, or 1e-11 rad) and one more step is taken: the
+    // convergence is quadratic, so that step is at the level of rounding.
+    bool close = false, converged = false;
     for (int iteration = 0; iteration < 40 && !converged; ++iteration) {
+      converged = close;
       Eigen::MatrixXd system = Eigen::MatrixXd::Zero(size, size);
       Eigen::VectorXd residual = Eigen::VectorXd::Zero(size);
       for (int i = 0; i < m; ++i) {
@@ -959,10 +957,7 @@ std::optional<FrameMotion> polish_motion(const PatternModel& model, const FrameM
       // A flat set makes the system singular, and rounding would hide it at the default
       // threshold (a tiny pivot, and a step along the flat set as long as its inverse).
       lu.setThreshold(1e-10);
-      if (lu.rank() < size) {
-        degenerate = true;
-        return std::nullopt;
-      }
+      if (lu.rank() < size) return std::nullopt;
       const Eigen::VectorXd step = lu.solve(-residual);
       for (int a = 0; a < n; ++a) x(vars[a]) += step(a);
       t += step(n);
@@ -970,7 +965,7 @@ std::optional<FrameMotion> polish_motion(const PatternModel& model, const FrameM
       double largest = 0.0;
       for (int a = 0; a < n; ++a)
         largest = std::max(largest, std::abs(step(a)) / (vars[a] == 2 ? 1e-2 : 1.0));
-      converged = largest <= 1e-14;
+      close = largest <= 1e-9;
     }
     if (!converged) return std::nullopt;
     Eigen::Index most_negative = 0;
@@ -1193,9 +1188,8 @@ MobilityResult best_frame_motion(const std::vector<const BoreResult*>& bores,
     const bool shift_free = !shift_fixed;
     const std::array<bool, 3> free{shift_free, shift_free, !rotation_fixed};
     const double limit = mobility.translation_free ? infinity : mobility.shift_allowance;
-    bool degenerate = false;
     if (const std::optional<FrameMotion> polished =
-            polish_motion(model, searched, free, limit, degenerate))
+            polish_motion(model, searched, free, limit))
       return finish(*polished);
   }
   return finish(searched);
