@@ -287,6 +287,99 @@ TEST_CASE("with A alone, rotation and translation are both recovered", "[datum_m
   CHECK(r.worst_ratio < 1e-10);
 }
 
+namespace {
+
+/// Three tilted bores, off position by different amounts, the last far from the others (a
+/// long lever), with every axis moved by the part motion (angle, shift).
+Pattern tilted_pattern(double angle, const Eigen::Vector2d& shift) {
+  struct Spec {
+    Eigen::Vector2d basic, top, bottom;
+    double tolerance;
+  };
+  const Spec specs[] = {
+      {{30, 40}, {30.003, 39.996}, {30.019, 40.000}, 0.050},
+      {{70, 50}, {70.012, 50.002}, {70.004, 50.014}, 0.040},
+      {{100, -30}, {99.984, -30.012}, {100.006, -30.019}, 0.030},
+      {{-60, 10}, {-59.997, 10.001}, {-59.996, 10.003}, 0.060},
+  };
+  Pattern pattern;
+  for (const Spec& b : specs)
+    pattern.bores.push_back(straight_bore("T" + std::to_string(pattern.bores.size() + 1), b.basic,
+                                          rotated(b.top, angle) + shift,
+                                          rotated(b.bottom, angle) + shift, 40.0, b.tolerance));
+  return pattern;
+}
+
+double worst_ratio_after(const Pattern& pattern, const FrameMotion& motion) {
+  double worst = 0.0;
+  for (const PatternBore& b : pattern.bores) {
+    const PositionResult p = position_after_frame_motion(b.result, b.plan, motion);
+    worst = std::max(worst, p.value / p.allowed);
+  }
+  return worst;
+}
+
+}  // namespace
+
+// The motion is located to rounding, not to the square root of rounding that a search on
+// function values reaches (Nocedal & Wright, Numerical Optimization, 2nd ed., 2.1 and 12.3: a
+// minimum of a smooth function is fixed by its first-order conditions, which the polish solves
+// by Newton's method). Reference by construction: the part moved rigidly (R(phi) p + v) must
+// get the same figures, the binding bores' and the others', to 1e-12 mm, and the best motion
+// composed with the part's.
+TEST_CASE("with A alone, the motion is located to rounding: every bore's figure follows",
+          "[datum_mobility]") {
+  FrameMobility m;
+  m.translation_free = true;
+  m.rotation_free = true;
+  const Pattern base = tilted_pattern(0.0, Eigen::Vector2d::Zero());
+  const MobilityResult r0 = base.best(m);
+  REQUIRE(r0.worst_ratio > 0.1);  // no motion puts every axis on position: a genuine minimax
+  for (const auto& [phi, v] : {std::pair<double, Eigen::Vector2d>{3.1e-4, {0.021, -0.013}},
+                               {-2.7e-4, {-0.008, 0.017}}, {1e-6, {0.0, 1e-6}}}) {
+    const Pattern moved = tilted_pattern(phi, v);
+    const MobilityResult r1 = moved.best(m);
+    CHECK(r1.worst_ratio == Approx(r0.worst_ratio).margin(1e-13));
+    CHECK(r1.motion.rotation_rad == Approx(r0.motion.rotation_rad + phi).margin(1e-12));
+    // The moved part's best origin is the part motion applied to the first's.
+    CHECK((r1.motion.shift - (rotated(r0.motion.shift, phi) + v)).norm() < 1e-10);
+    REQUIRE(r1.positions.size() == r0.positions.size());
+    for (std::size_t i = 0; i < r0.positions.size(); ++i)
+      CHECK(r1.positions[i].value == Approx(r0.positions[i].value).margin(1e-12));
+  }
+  // A local minimum of the worst ratio, by its definition: no nearby motion is better.
+  const double f = worst_ratio_after(base, r0.motion);
+  for (int k = 0; k < 16; ++k) {
+    const double a = 2.0 * pi * k / 16.0;
+    for (double step : {1e-7, 1e-5}) {
+      for (double turn : {-1.0, 0.0, 1.0}) {
+        FrameMotion near = r0.motion;
+        near.shift += step * Eigen::Vector2d(std::cos(a), std::sin(a));
+        near.rotation_rad += turn * step * 1e-2;
+        CHECK(worst_ratio_after(base, near) >= f - 1e-14);
+      }
+    }
+  }
+}
+
+// A flat set of equally good motions: one bore and a free translation and rotation. Any
+// motion that centres the axis's ends about the zone's axis is best; its worst figure is the
+// tilt alone, |top - bottom| (by construction: a diameter zone about the centred axis).
+TEST_CASE("with A alone and one bore, the tilt alone is left", "[datum_mobility]") {
+  FrameMobility m;
+  m.translation_free = true;
+  m.rotation_free = true;
+  Pattern pattern;
+  const Eigen::Vector2d top(30.004, 40.002), bottom(30.010, 39.994);
+  pattern.bores.push_back(straight_bore("S", {30, 40}, top, bottom, 40.0, 0.025));
+  const MobilityResult r = pattern.best(m);
+  // The figure is that of a straight axis through its two ends, so the tilt's length in A.
+  const Eigen::Vector3d d = pattern.bores[0].result.axis.direction;
+  const double tilt = 40.0 * std::hypot(d.x(), d.y()) / d.z();
+  CHECK(r.positions[0].value == Approx(tilt).margin(1e-11));
+  CHECK(r.worst_ratio == Approx(tilt / 0.025).margin(1e-9));
+}
+
 TEST_CASE("rotation follows C at RMB while the frame shifts", "[datum_mobility]") {
   // The part moved by a motion that keeps C on its basic ray: s0 in the disk, theta0 the angle
   // that turns C's direction to c - s0. The frame can follow exactly.

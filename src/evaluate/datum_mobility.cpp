@@ -28,6 +28,7 @@
 #include "cylzone/evaluate/datum_mobility.hpp"
 
 #include <Eigen/Geometry>
+#include <Eigen/LU>
 #include <Eigen/SVD>
 #include <algorithm>
 #include <array>
@@ -143,6 +144,10 @@ class PatternModel {
         d.direction = bore.axis.direction;
         d.heights = {p.range_top, p.range_bottom};
       }
+      if (d.median)
+        for (const Eigen::Vector3d& c : d.centres) points_.push_back({i, c, 0.0});
+      else
+        for (double h : d.heights) points_.push_back({i, d.point, h});
       data_.push_back(std::move(d));
     }
   }
@@ -206,7 +211,51 @@ class PatternModel {
     return out;
   }
 
+  /// Every evaluated point of the pattern, one per end of a straight axis and one per section
+  /// centre of a median line (no hull: the polish treats each as one smooth function).
+  std::size_t point_count() const { return points_.size(); }
+  double point_weight(std::size_t k) const { return data_[points_[k].bore].weight; }
+
+  /// Deviation of point k in its zone after the motion x = (s_x, s_y, theta), as terms_at
+  /// builds it, and its derivatives with respect to x (analytic: a turn by theta about z has
+  /// the derivative -J R^T with J the generator of rotations about z).
+  Eigen::Vector2d deviation(std::size_t k, const Eigen::Vector3d& x,
+                            Eigen::Matrix<double, 2, 3>* jacobian) const {
+    const PointRef& p = points_[k];
+    const BoreData& d = data_[p.bore];
+    const Eigen::Matrix3d r_t =
+        Eigen::AngleAxisd(x.z(), Eigen::Vector3d::UnitZ()).toRotationMatrix().transpose();
+    Eigen::Matrix3d generator;
+    generator << 0.0, -1.0, 0.0, 1.0, 0.0, 0.0, 0.0, 0.0, 0.0;
+    const Eigen::Matrix3d bt = d.zone.basis.transpose();
+    const Eigen::Vector3d u = r_t * (p.point - Eigen::Vector3d(x.x(), x.y(), 0.0));
+    const Eigen::Vector3d a = bt * (u - d.zone.origin);
+    Eigen::Matrix3d da;  // columns: d/ds_x, d/ds_y, d/dtheta of a
+    da.leftCols<2>() = -bt * r_t.leftCols<2>();
+    da.col(2) = -bt * (generator * u);
+    if (d.median) {
+      if (jacobian) *jacobian = da.topRows<2>();
+      return a.head<2>();
+    }
+    const Eigen::Vector3d direction = r_t * d.direction;
+    const Eigen::Vector3d e = bt * direction;
+    const Eigen::Vector3d de = -bt * (generator * direction);
+    const Eigen::Vector2d slope = e.head<2>() / e.z();
+    const Eigen::Vector2d dslope = (de.head<2>() - slope * de.z()) / e.z();
+    if (jacobian) {
+      *jacobian = da.topRows<2>() - slope * da.row(2);
+      jacobian->col(2) += (p.height - a.z()) * dslope;
+    }
+    return a.head<2>() + (p.height - a.z()) * slope;
+  }
+
  private:
+  struct PointRef {
+    std::size_t bore = 0;
+    Eigen::Vector3d point = Eigen::Vector3d::Zero();  ///< axis point, or section centre
+    double height = 0.0;                              ///< zone height (straight axis)
+  };
+  std::vector<PointRef> points_;
   struct BoreData {
     ZoneFrame zone;
     double weight = 0.0;
@@ -801,6 +850,157 @@ FrameMotion search_rotation(const FrameMobility& mobility, const MobilityOptions
   return best;
 }
 
+/// Polish of the searches' answer, where the problem is smooth: the golden sections compare
+/// function values, so they locate a smooth minimum only to about the square root of rounding,
+/// and the figures of bores that do not bind move with the argument. At a minimax optimum
+/// with active points A (the points whose ratio f_k = w_k |v_k(x)| equals the worst, t), the
+/// first-order conditions are
+///     f_k(x) = t (k in A),   sum_A lambda_k grad f_k(x) = 0,   sum_A lambda_k = 1,
+/// with lambda_k >= 0 (Madsen & Schjaer-Jacobsen, "Linearly constrained minimax optimization",
+/// Math. Programming 14, 1978; Nocedal & Wright, Numerical Optimization, 2nd ed., 12.3 and
+/// 18.1): a square system in (x, t, lambda), solved by Newton's method with the Hessian of
+/// the Lagrangian, sum lambda_k grad^2 f_k, from the analytic derivatives of the deviations
+/// (the rotation's second derivative by a central difference of the analytic Jacobian, which
+/// only affects the rate of convergence, not the point converged to). The active set starts
+/// as the points within 1e-6 of the worst at the searches' answer; a negative multiplier
+/// drops a point, a point beyond t joins the set, and the system is solved again. Free
+/// coordinates only (`free`: s_x, s_y, theta); the answer is returned when it converged, is
+/// no worse than the start, and keeps the shift within `shift_limit` (infinite when the
+/// translation is free); otherwise nothing, and the searches' answer stands. A singular
+/// system (a flat set of equally good motions, e.g. one bore and a free translation) is left
+/// to the searches (docs/evaluation.md).
+std::optional<FrameMotion> polish_motion(const PatternModel& model, const FrameMotion& start,
+                                         const std::array<bool, 3>& free, double shift_limit) {
+  std::vector<int> vars;
+  for (int j = 0; j < 3; ++j)
+    if (free[j]) vars.push_back(j);
+  const int n = static_cast<int>(vars.size());
+  const std::size_t count = model.point_count();
+  if (n == 0 || count == 0) return std::nullopt;
+  const Eigen::Vector3d x0(start.shift.x(), start.shift.y(), start.rotation_rad);
+  const auto ratio = [&](std::size_t k, const Eigen::Vector3d& x) {
+    return model.point_weight(k) * model.deviation(k, x, nullptr).norm();
+  };
+  const auto worst = [&](const Eigen::Vector3d& x) {
+    double f = 0.0;
+    for (std::size_t k = 0; k < count; ++k) f = std::max(f, ratio(k, x));
+    return f;
+  };
+  const double f_start = worst(x0);
+  if (!(f_start > 0.0)) return std::nullopt;
+  // Ratio, gradient and Hessian of point k in the free coordinates; false where the ratio is
+  // not smooth (the deviation vanishes).
+  constexpr double theta_step = 1e-6;
+  const auto evaluate = [&](std::size_t k, const Eigen::Vector3d& x, double& f,
+                            Eigen::VectorXd& g, Eigen::MatrixXd& h) {
+    Eigen::Matrix<double, 2, 3> j;
+    const Eigen::Vector2d v = model.deviation(k, x, &j);
+    const double w = model.point_weight(k), r = v.norm();
+    if (!(r > 1e-12)) return false;
+    const Eigen::Vector2d u = v / r;
+    Eigen::Matrix3d full = j.transpose() * (Eigen::Matrix2d::Identity() - u * u.transpose()) * j / r;
+    if (free[2]) {
+      Eigen::Matrix<double, 2, 3> jp, jm;
+      const Eigen::Vector3d step(0.0, 0.0, theta_step);
+      model.deviation(k, x + step, &jp);
+      model.deviation(k, x - step, &jm);
+      const Eigen::Vector3d dj = ((jp - jm) / (2.0 * theta_step)).transpose() * u;
+      for (int a = 0; a < 2; ++a) {
+        full(a, 2) += dj(a);
+        full(2, a) += dj(a);
+      }
+      full(2, 2) += dj(2);
+    }
+    const Eigen::Vector3d grad = j.transpose() * u;
+    f = w * r;
+    g.resize(n);
+    h.resize(n, n);
+    for (int a = 0; a < n; ++a) {
+      g(a) = w * grad(vars[a]);
+      for (int b = 0; b < n; ++b) h(a, b) = w * full(vars[a], vars[b]);
+    }
+    return true;
+  };
+
+  std::vector<std::size_t> active;
+  for (std::size_t k = 0; k < count; ++k)
+    if (ratio(k, x0) >= f_start * (1.0 - 1e-6)) active.push_back(k);
+  for (int round = 0; round < 12; ++round) {
+    const int m = static_cast<int>(active.size());
+    if (m == 0 || m > n + 1) return std::nullopt;
+    const int size = n + 1 + m;
+    Eigen::Vector3d x = x0;
+    double t = f_start;
+    Eigen::VectorXd lambda = Eigen::VectorXd::Constant(m, 1.0 / m);
+    // Converged once a step is below 1e-9 (mm, or 1e-11 rad) and one more step is taken: the
+    // convergence is quadratic, so that step is at the level of rounding.
+    bool close = false, converged = false;
+    for (int iteration = 0; iteration < 40 && !converged; ++iteration) {
+      converged = close;
+      Eigen::MatrixXd system = Eigen::MatrixXd::Zero(size, size);
+      Eigen::VectorXd residual = Eigen::VectorXd::Zero(size);
+      for (int i = 0; i < m; ++i) {
+        double f;
+        Eigen::VectorXd g;
+        Eigen::MatrixXd h;
+        if (!evaluate(active[i], x, f, g, h)) return std::nullopt;
+        residual(i) = f - t;
+        system.block(i, 0, 1, n) = g.transpose();
+        system(i, n) = -1.0;
+        residual.segment(m, n) += lambda(i) * g;
+        system.block(m, 0, n, n) += lambda(i) * h;
+        system.block(m, n + 1 + i, n, 1) = g;
+        system(m + n, n + 1 + i) = 1.0;
+      }
+      residual(m + n) = lambda.sum() - 1.0;
+      Eigen::FullPivLU<Eigen::MatrixXd> lu(system);
+      // A flat set makes the system singular, and rounding would hide it at the default
+      // threshold (a tiny pivot, and a step along the flat set as long as its inverse).
+      lu.setThreshold(1e-10);
+      if (lu.rank() < size) return std::nullopt;
+      const Eigen::VectorXd step = lu.solve(-residual);
+      for (int a = 0; a < n; ++a) x(vars[a]) += step(a);
+      t += step(n);
+      lambda += step.tail(m);
+      double largest = 0.0;
+      for (int a = 0; a < n; ++a)
+        largest = std::max(largest, std::abs(step(a)) / (vars[a] == 2 ? 1e-2 : 1.0));
+      close = largest <= 1e-9;
+    }
+    if (!converged) return std::nullopt;
+    Eigen::Index most_negative = 0;
+    if (lambda.minCoeff(&most_negative) < -1e-9) {
+      active.erase(active.begin() + most_negative);
+      continue;
+    }
+    std::size_t beyond = count;
+    double beyond_ratio = t * (1.0 + 1e-12);
+    for (std::size_t k = 0; k < count; ++k) {
+      if (std::find(active.begin(), active.end(), k) != active.end()) continue;
+      const double f = ratio(k, x);
+      if (f > beyond_ratio) {
+        beyond_ratio = f;
+        beyond = k;
+      }
+    }
+    if (beyond < count) {
+      active.push_back(beyond);
+      std::sort(active.begin(), active.end());
+      continue;
+    }
+    FrameMotion polished;
+    polished.shift = x.head<2>();
+    polished.rotation_rad = x.z();
+    if (polished.shift.norm() > shift_limit) return std::nullopt;
+    // The searches place the motion to about the square root of rounding; a polish that went
+    // far from them found another stationary point, and the searches' answer stands.
+    if ((x - x0).head<2>().norm() > 1e-3 || std::abs(x.z() - x0.z()) > 1e-5) return std::nullopt;
+    if (!(worst(x) <= f_start * (1.0 + 1e-12))) return std::nullopt;
+    return polished;
+  }
+  return std::nullopt;
+}
+
 std::string mm(double value) { return detail::format_number(value, 4); }
 
 }  // namespace
@@ -978,8 +1178,21 @@ MobilityResult best_frame_motion(const std::vector<const BoreResult*>& bores,
     return inner.solve(RatioObjective{terms}, theta);
   };
   const double bracket = rotation_fixed ? 0.0 : rotation_bracket(model, mobility, f0);
-  return finish(search_rotation(mobility, options, solve_at, f0, unmoved_allowed, bracket,
-                                theta_tolerance, result.iterations));
+  const FrameMotion searched = search_rotation(mobility, options, solve_at, f0, unmoved_allowed,
+                                               bracket, theta_tolerance, result.iterations);
+  // The polish, where the allowed set is open about the answer: the shift free or within B's
+  // disk, the rotation free or fixed, and no datum C that ties the two together.
+  const bool c_ties = mobility.rotation_follows_c || mobility.rotation_about_c ||
+                      mobility.c_shift_allowance > 0.0 || mobility.c_width;
+  if (!c_ties) {
+    const bool shift_free = !shift_fixed;
+    const std::array<bool, 3> free{shift_free, shift_free, !rotation_fixed};
+    const double limit = mobility.translation_free ? infinity : mobility.shift_allowance;
+    if (const std::optional<FrameMotion> polished =
+            polish_motion(model, searched, free, limit))
+      return finish(*polished);
+  }
+  return finish(searched);
 }
 
 BoundaryMobilityResult best_boundary_motion(const std::vector<const BoreResult*>& bores,

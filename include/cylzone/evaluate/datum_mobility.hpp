@@ -110,8 +110,13 @@ struct MobilityResult {
 /// motion (FrameMotion, as position_after_frame_motion applies it) that minimises the largest
 /// position / allowed over the pattern, subject to the mobility. The result is never worse than
 /// the unmoved frame when that frame is allowed (it is not when C's simulator, fixed at basic,
-/// holds C away from its place in the frame). Deterministic. Throws FitError when a bore has no position result or the
-/// inputs are not parallel.
+/// holds C away from its place in the frame). Where the allowed set is open about the searches'
+/// answer (no datum C tying shift and rotation together), the answer is polished by Newton's
+/// method on the minimax first-order conditions, so that the motion is located to rounding and
+/// the figures of bores that do not bind do not depend on how the part sat on the machine; a
+/// flat set of equally good motions keeps the searches' answer (docs/evaluation.md).
+/// Deterministic. Throws FitError when a bore has no position result or the inputs are not
+/// parallel.
 MobilityResult best_frame_motion(const std::vector<const BoreResult*>& bores,
                                  const std::vector<const PlanBore*>& plans,
                                  const FrameMobility& mobility,
