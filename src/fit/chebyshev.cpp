@@ -411,34 +411,71 @@ void explore_optima(ZoneModel& model, ZoneObjective objective, const ZoneOptions
       chosen = &o;
   const double limit = chosen->f + objective_tolerance(options, chosen->d);
 
-  const ZoneModel& here = *chosen->model;
-  const Eigen::VectorXd& here_d = chosen->d;
+  // The ambiguity is reported only above 1e-8 of the data's size (0.5 nm on a 50 mm bore, far
+  // below the 0.1 um warning length): below it, the walks' reach is set by the objective
+  // tolerance and the conditioning of the programme, not by the part, and the same points
+  // placed elsewhere give a different figure of that order (tests/test_invariance.cpp).
+  //
+  // The tie-break (docs/chebyshev.md, "Non-unique optima", 5): where the chosen optimum's own
+  // near-optimal set reaches farther than that, it is genuinely flat and the descent's element
+  // in it depended on the start; the element reported is then the one of that set that
+  // minimises the sum of squared residuals, a rule of the points alone. (A smaller set is the
+  // tolerance's own width about an isolated optimum, which the descent and the contact polish
+  // locate exactly; a choice at its rim would depend on the tolerance instead.) The ambiguity
+  // is then measured by new walks from that element (the old ones started elsewhere) and to the
+  // distinct optima; the optima in the chosen one's own flat set are covered by those walks.
+  const ZoneModel* here = chosen->model.get();
+  const Eigen::VectorXd* here_d = &chosen->d;
+  std::unique_ptr<ZoneModel> settled;
+  Eigen::VectorXd settled_d;
+  std::vector<WalkEnd> settled_ends;
+  const double reported_from = std::max(resolution, ambiguity_report_fraction * scale);
+  if (!chosen->unique && summary.ambiguity_failure.empty() && reach_of(*chosen) > reported_from) {
+    settled = chosen->model->subset(all);
+    settled_d = chosen->d;
+    try {
+      if (settle_in_optimal_set(*settled, objective, options, options.residuals_about_offset,
+                                limit, settled_d)) {
+        settled_ends =
+            walk_ends(*settled, objective, options, settled_d, 0.0, summary.ambiguity_programmes);
+        here = settled.get();
+        here_d = &settled_d;
+      }
+    } catch (const FitError& e) {
+      summary.ambiguity_failure = e.what();
+    }
+  }
+  const double chosen_reach = settled && here == settled.get() ? reach_of(*chosen) : 0.0;
+  const double here_limit = true_objective(objective, *here_d) + objective_tolerance(options, *here_d);
 
   // The ambiguity: from the reported element to every element found within the tolerance.
   double worst = 0.0;
+  for (const WalkEnd& e : settled_ends)
+    if (e.objective <= here_limit)
+      worst = std::max(worst, largest_displacement(*here, e.step, e.distances, *here_d));
   for (const Optimum& o : optima) {
-    if (!(o.f <= limit)) continue;
-    if (&here != o.model.get()) worst = std::max(worst, displacement(here, here_d, *o.model));
+    if (!(o.f <= here_limit)) continue;
+    if (here != chosen->model.get() &&
+        (&o == chosen ||
+         displacement(*chosen->model, chosen->d, *o.model) <= 2.0 * chosen_reach + 10.0 * resolution))
+      continue;  // the chosen optimum's own flat set: the new walks measured it
+    if (here != o.model.get()) worst = std::max(worst, displacement(*here, *here_d, *o.model));
     for (const WalkEnd& e : o.ends) {
-      if (!(e.objective <= limit)) continue;
-      if (&here == o.model.get()) {  // its own walks: the step is in its parametrisation
-        worst = std::max(worst, largest_displacement(here, e.step, e.distances, here_d));
+      if (!(e.objective <= here_limit)) continue;
+      if (here == o.model.get()) {  // its own walks: the step is in its parametrisation
+        worst = std::max(worst, largest_displacement(*here, e.step, e.distances, *here_d));
         continue;
       }
       const std::unique_ptr<ZoneModel> moved = o.model->subset(all);
       moved->move(e.step);
-      worst = std::max(worst, displacement(here, here_d, *moved));
+      worst = std::max(worst, displacement(*here, *here_d, *moved));
     }
   }
-  // Reported only above 1e-8 of the data's size (0.5 nm on a 50 mm bore, far below the 0.1 um
-  // warning length): below it, the walks' reach is set by the objective tolerance and the
-  // conditioning of the programme, not by the part, and the same points placed elsewhere give a
-  // different figure of that order (tests/test_invariance.cpp).
-  const double reported_from = std::max(resolution, ambiguity_report_fraction * scale);
   summary.ambiguity = worst > reported_from ? worst : 0.0;
   summary.proven_unique = chosen->unique && summary.ambiguity == 0.0;
-  if (chosen != &optima.front()) {  // the first is the model's own element
-    model.move(model.step_to(here));
+  summary.tie_broken = here == settled.get();
+  if (here != optima.front().model.get()) {  // the first is the model's own element
+    model.move(model.step_to(*here));
     model.evaluate(Eigen::VectorXd::Zero(p), d, nullptr);
   }
 }
@@ -461,6 +498,7 @@ ZoneSummary solve_zone(ZoneModel& model, ZoneObjective objective, const ZoneOpti
       summary.message = "converged in " + std::to_string(summary.iterations) +
                         " linear programmes (at most " + rows + " rows)" +
                         (summary.polished ? ", contacts refined by Newton's method" : "") +
+                        (summary.tie_broken ? "; least-squares choice among equally good elements" : "") +
                         (summary.ambiguity_programmes > 0 && !summary.proven_unique
                              ? "; not proven unique, " +
                                    std::to_string(summary.ambiguity_programmes) +

@@ -2,6 +2,7 @@
 // (fit/detail/chebyshev_uniqueness.hpp).
 #include "fit/detail/chebyshev_uniqueness.hpp"
 
+#include <Eigen/Cholesky>
 #include <Eigen/SVD>
 #include <algorithm>
 #include <cmath>
@@ -262,6 +263,178 @@ std::vector<WalkEnd> walk_ends(const ZoneModel& model, ZoneObjective objective,
       ends.push_back(std::move(end));
     }
   return ends;
+}
+
+}  // namespace cylzone::detail
+
+// ------------------------------------------------------------------ tie-break in the optimal set
+
+namespace cylzone::detail {
+
+namespace {
+
+/// min 1/2 z'Hz + h'z subject to N.col(k)'z >= b(k) for every k, H positive definite: the dual
+/// active-set method of Goldfarb & Idnani (Math. Programming 27, 1983). It starts from the
+/// unconstrained minimiser and adds the most violated constraint at a time, keeping the
+/// multipliers of the active ones non-negative, so it needs no feasible start and stops at the
+/// optimum, which is unique (strictly convex objective). With a handful of unknowns the
+/// projections are recomputed from scratch at every step rather than updated. Returns false
+/// when the constraints are inconsistent or the iteration does not settle.
+bool dual_active_set_qp(const Eigen::MatrixXd& hessian, const Eigen::VectorXd& h,
+                        const Eigen::MatrixXd& normals, const Eigen::VectorXd& bounds,
+                        double feasibility, Eigen::VectorXd& z) {
+  const Eigen::LLT<Eigen::MatrixXd> llt(hessian);
+  if (llt.info() != Eigen::Success) return false;
+  const Eigen::Index q = hessian.rows();
+  const Eigen::MatrixXd inverse = llt.solve(Eigen::MatrixXd::Identity(q, q));
+  z = -inverse * h;
+  std::vector<Eigen::Index> active;
+  std::vector<double> u;
+  const int most_steps = 50 * static_cast<int>(q) + 200;
+  for (int steps = 0; steps < most_steps;) {
+    const Eigen::VectorXd slack = normals.transpose() * z - bounds;
+    Eigen::Index worst = 0;
+    if (slack.size() == 0 || slack.minCoeff(&worst) >= -feasibility) return true;
+    double u_new = 0.0;
+    for (; steps < most_steps; ++steps) {
+      const Eigen::VectorXd n = normals.col(worst);
+      const auto k = static_cast<Eigen::Index>(active.size());
+      Eigen::VectorXd r(k), dz;
+      if (k == 0) {
+        dz = inverse * n;
+      } else {
+        Eigen::MatrixXd a(q, k);
+        for (Eigen::Index j = 0; j < k; ++j) a.col(j) = normals.col(active[static_cast<std::size_t>(j)]);
+        const Eigen::MatrixXd ha = inverse * a;
+        r = (a.transpose() * ha).ldlt().solve(ha.transpose() * n);
+        dz = inverse * n - ha * r;
+      }
+      // Partial step: the active constraint whose multiplier reaches 0 first leaves.
+      double t2 = std::numeric_limits<double>::infinity();
+      Eigen::Index leaving = -1;
+      for (Eigen::Index j = 0; j < k; ++j)
+        if (r(j) > 0.0 && u[static_cast<std::size_t>(j)] / r(j) < t2) {
+          t2 = u[static_cast<std::size_t>(j)] / r(j);
+          leaving = j;
+        }
+      // n.dz is the squared (inverse-Hessian) norm of the part of n that the active normals do
+      // not span: relative to n's own, it tells a dependent row.
+      const double curvature = n.dot(dz);
+      const bool dependent = !(curvature > 1e-12 * n.dot(inverse * n));
+      if (dependent && leaving < 0) return false;  // inconsistent constraints
+      const double t1 = dependent ? std::numeric_limits<double>::infinity()
+                                  : -(n.dot(z) - bounds(worst)) / curvature;
+      const double t = std::min(t1, t2);
+      if (!dependent) z += t * dz;
+      for (Eigen::Index j = 0; j < k; ++j) u[static_cast<std::size_t>(j)] -= t * r(j);
+      u_new += t;
+      if (t1 <= t2) {
+        active.push_back(worst);
+        u.push_back(u_new);
+        ++steps;
+        break;
+      }
+      active.erase(active.begin() + leaving);
+      u.erase(u.begin() + leaving);
+    }
+  }
+  return false;
+}
+
+}  // namespace
+
+bool settle_in_optimal_set(ZoneModel& model, ZoneObjective objective, const ZoneOptions& options,
+                           bool free_offset, double limit, Eigen::VectorXd& d) {
+  const double scale = options.scale > 0.0 ? options.scale : 1.0;
+  const int p = model.parameter_count();
+  const Eigen::Index n = model.point_count();
+  // Unknowns: the step x, the residuals' offset rho (free_offset) and, for a minimum zone, the
+  // zone's mid-distance m, so that the width bound reads |d_i + g_i x - m| <= limit / 2.
+  const bool zone = objective == ZoneObjective::minimum_zone;
+  const int mid_col = zone ? p + (free_offset ? 1 : 0) : -1;
+  const int q = p + (free_offset ? 1 : 0) + (zone ? 1 : 0);
+  const double tolerance = objective_tolerance(options, d);
+  // The true objective may exceed the limit by this much at an accepted step (the second-order
+  // part of a step that the linearised bound keeps within the limit); the next linearisation,
+  // exact at the new element, brings it back.
+  const double accept = limit + tolerance;
+  const double settled = 1e-14 * scale;
+  // Linearised rows violated by less than this count as kept: dependent rows (exact ties of a
+  // symmetric part) differ in their bounds by rounding.
+  const double feasibility = 0.1 * tolerance;
+  double box = std::max(options.ambiguity_box * scale, 1e-4 * scale);
+  const double largest_box = options.ambiguity_box_limit * scale;
+  Eigen::VectorXd trial, z;
+  Eigen::MatrixXd g;
+  if (!(true_objective(objective, d) <= accept)) return false;
+  for (int iteration = 0; iteration < 60; ++iteration) {
+    model.evaluate(Eigen::VectorXd::Zero(p), d, &g);
+    // The secondary objective, sum (d_i + g_i x - rho)^2, linearised (Gauss-Newton).
+    Eigen::MatrixXd hessian = Eigen::MatrixXd::Zero(q, q);
+    Eigen::VectorXd h = Eigen::VectorXd::Zero(q);
+    {
+      Eigen::MatrixXd a(n, p + (free_offset ? 1 : 0));
+      a.leftCols(p) = g;
+      if (free_offset) a.col(p).setConstant(-1.0);
+      hessian.topLeftCorner(a.cols(), a.cols()) = a.transpose() * a;
+      h.head(a.cols()) = a.transpose() * d;
+    }
+    if (zone) {
+      // The mid-distance needs a weight of its own (it is not in the secondary objective): a
+      // pull toward the current mid, of the objective's own scale so that the programme stays
+      // well conditioned. It vanishes where the iteration settles (a zero step keeps the mid),
+      // so the settled element satisfies the optimality conditions without it, whatever its
+      // weight.
+      const double weight = std::max(1.0, hessian.diagonal().head(p).mean());
+      hessian(mid_col, mid_col) = weight;
+      h(mid_col) = -weight * 0.5 * (d.maxCoeff() + d.minCoeff());
+    }
+    // Only points that could bind within the box (a step moves every distance by at most
+    // reach_factor / 2 x |x|_inf) enter.
+    const double band = reach_factor * box + (accept - true_objective(objective, d));
+    const double top = d.maxCoeff(), bottom = d.minCoeff();
+    std::vector<std::pair<Eigen::Index, Side>> rows;
+    for (Eigen::Index i = 0; i < n; ++i) {
+      if (uses_upper(objective) && top - d(i) <= band) rows.emplace_back(i, Side::upper);
+      if (uses_lower(objective) && d(i) - bottom <= band) rows.emplace_back(i, Side::lower);
+    }
+    const auto m = static_cast<Eigen::Index>(rows.size());
+    Eigen::MatrixXd normals = Eigen::MatrixXd::Zero(q, m + 2 * p);
+    Eigen::VectorXd bounds(normals.cols());
+    for (Eigen::Index k = 0; k < m; ++k) {
+      const auto [i, side] = rows[static_cast<std::size_t>(k)];
+      // Upper: d_i + g_i x <= bound; lower: d_i + g_i x >= bound, with the bound the limit
+      // (circumscribed), minus the limit (inscribed: -min d <= limit) or m +- limit / 2 (zone).
+      const double sign = side == Side::upper ? -1.0 : 1.0;
+      normals.col(k).head(p) = sign * g.row(i).transpose();
+      double bound = side == Side::upper ? limit : -limit;
+      if (zone) {
+        normals(mid_col, k) = -sign;
+        bound = side == Side::upper ? 0.5 * limit : -0.5 * limit;
+      }
+      bounds(k) = sign * (bound - d(i));
+    }
+    for (int k = 0; k < p; ++k) {  // the box |x_k| <= box
+      normals(k, m + 2 * k) = 1.0;
+      bounds(m + 2 * k) = -box;
+      normals(k, m + 2 * k + 1) = -1.0;
+      bounds(m + 2 * k + 1) = -box;
+    }
+    if (!dual_active_set_qp(hessian, h, normals, bounds, feasibility, z)) return false;
+    const Eigen::VectorXd x = z.head(p);
+    const double length = x.lpNorm<Eigen::Infinity>();
+    if (length <= settled) return true;
+    model.evaluate(x, trial, nullptr);
+    if (!(true_objective(objective, trial) <= accept)) {
+      box = 0.25 * length;  // the linearisation does not hold that far: a smaller box
+      if (box <= settled) return true;
+      continue;
+    }
+    model.move(x);
+    if (length >= 0.99 * box) box = std::min(2.0 * box, largest_box);
+  }
+  model.evaluate(Eigen::VectorXd::Zero(p), d, nullptr);
+  return false;
 }
 
 }  // namespace cylzone::detail

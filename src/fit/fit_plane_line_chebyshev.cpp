@@ -41,9 +41,12 @@ LineFit fit_line_minimum_zone(const Eigen::Matrix3Xd& points, const FitOptions& 
   detail::AxisZoneModel model(points, start.axis);
   const Eigen::Vector3d c = detail::centroid(points);
   const double scale = detail::data_scale(points, c);
+  detail::ZoneOptions zone_options = detail::zone_options(options, scale, start.residuals.form);
+  // Among equally good lines, the one nearest the points in the least-squares sense (the sum of
+  // their squared distances), not about a radius: a line's residuals are its distances.
+  zone_options.residuals_about_offset = false;
   const detail::ZoneSummary zone =
-      detail::solve_zone(model, detail::ZoneObjective::minimum_circumscribed,
-                         detail::zone_options(options, scale, start.residuals.form));
+      detail::solve_zone(model, detail::ZoneObjective::minimum_circumscribed, zone_options);
 
   LineFit fit;
   const Axis axis = model.axis();

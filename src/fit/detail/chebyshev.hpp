@@ -225,6 +225,10 @@ struct ZoneOptions {
   double exploration_allowance = 1e-10;
   /// Off: uniqueness is neither proven nor measured (FitOptions::assess_ambiguity).
   bool assess_ambiguity = true;
+  /// The tie-break's secondary objective (docs/chebyshev.md, "Non-unique optima", 5): the sum
+  /// of squared residuals about a free offset (a radius; a plane's offset), or, off, of the
+  /// distances themselves (a line: its points' distances from it).
+  bool residuals_about_offset = true;
 };
 
 enum class ZoneStatus { converged, iteration_limit, unbounded };
@@ -248,6 +252,9 @@ struct ZoneSummary {
   int ambiguity_programmes = 0;  ///< linear programmes solved to measure it and to explore
   /// Why the ambiguity could not be measured (a linear programme failed); empty otherwise.
   std::string ambiguity_failure;
+  /// The optimum was not proven unique and the element is the tie-break's choice in its
+  /// near-optimal set (the least sum of squared residuals), not the descent's.
+  bool tie_broken = false;
 };
 
 /// Runs the sequential linear programme from the model's current element; on return the model

@@ -54,4 +54,21 @@ std::vector<WalkEnd> walk_ends(const ZoneModel& model, ZoneObjective objective,
                                const ZoneOptions& options, const Eigen::VectorXd& d,
                                double allowance, int& programmes);
 
+/// The tie-break among equally good elements (docs/chebyshev.md, "Non-unique optima", 5): moves
+/// `model` from its element (whose true objective is within `limit`) to the element that
+/// minimises the sum of squared residuals, sum (d_i - rho)^2 over every point with rho free
+/// (`free_offset`: the mean distance, a radius or a plane's offset) or 0 (a line's distances),
+/// among the elements whose true objective is at most `limit`: a lexicographic (pre-emptive)
+/// second stage, the objective first, then a strictly convex secondary objective over its
+/// optimal set (e.g. Nocedal & Wright, Numerical Optimization, 2nd ed., 2006, on multiobjective
+/// and goal programming by priority levels; from memory for the section). Gauss-Newton steps,
+/// each the solution of a strictly convex quadratic programme with the linearised objective
+/// bound and a trust box (Goldfarb & Idnani 1983), verified on the true objective. The
+/// minimiser is unique and defined by the points alone, so it depends neither on the start nor
+/// on a rigid motion of the points. Returns false (the model may have moved to another element
+/// within the limit) when a programme fails or the iteration does not settle; `d` is then
+/// undefined. On success `d` holds the distances at the new element.
+bool settle_in_optimal_set(ZoneModel& model, ZoneObjective objective, const ZoneOptions& options,
+                           bool free_offset, double limit, Eigen::VectorXd& d);
+
 }  // namespace cylzone::detail
