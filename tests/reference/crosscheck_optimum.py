@@ -20,6 +20,22 @@ Checks, per case (bore sampling and placement of the part):
   * cylzone's axis is one of the two optima within 1e-7 mm at the mouth and the bottom;
   * cylzone's ambiguity is at least the distance between the two optima at the ends
     (less 1e-8 mm): the ambiguity must cover the other equally good axis.
+
+Minimum zone (cases with "method": "minimum-zone"). Its axes form a set that is flat across the
+plane of the bend to within about 1.5e-13 mm of width (the width falls by s^2 e / R^2 toward two
+mirror-image corners at a shift of 0.00125 tan 2.5 deg), and cylzone reports the one with the
+least sum of squared residuals among the axes whose width is within its tolerance of the optimum
+(a lexicographic second stage, e.g. Nocedal & Wright, Numerical Optimization, 2nd ed., 2006;
+from memory for the section). Reference, SLSQP again, in the variables (x0, y0, a, b, m, h):
+  * first stage: minimise h subject to |dist_i - m| <= h, from y0 = +-6e-5 (the two corners);
+  * second stage: minimise sum (dist_i - rho)^2 over (x0, y0, a, b, rho, m) subject to
+    |dist_i - m| <= (w + 1e-12) / 2, w the first stage's best width, from both corners.
+Checks, per case:
+  * cylzone's width equals the reference's within 1e-9 mm;
+  * both second-stage runs end at one axis (within 1e-8 mm at the ends), and cylzone's axis is
+    that axis within 1e-7 mm at the mouth and the bottom;
+  * cylzone's ambiguity covers the distance from its axis to either corner (less 1e-7 mm, the
+    resolution of SLSQP's corners).
 Exits non-zero and lists every disagreement otherwise.
 
 Usage: /usr/bin/python3 crosscheck_optimum.py CASES.json
@@ -92,6 +108,100 @@ def inscribed(points, start):
     return v, distances(points, v)[0].min()
 
 
+def zone_constraints(points, v, half):
+    """|dist_i - m| <= half as two non-negative vectors, with their Jacobians; v = (x0, y0, a,
+    b, ..., m) with m at index -1 when `half` is given, else (..., m, h)."""
+    d = distances(points, v)[0]
+    jd = distance_jacobian(points, v)
+    n = len(points)
+    cols = len(v)
+    if half is None:
+        m, h = v[-2], v[-1]
+        im, ih = cols - 2, cols - 1
+    else:
+        m, h = v[-1], half
+        im, ih = cols - 1, None
+    upper = np.empty((n, cols))
+    lower = np.empty((n, cols))
+    upper[:] = 0.0
+    lower[:] = 0.0
+    upper[:, :4] = -jd
+    lower[:, :4] = jd
+    upper[:, im] = 1.0
+    lower[:, im] = -1.0
+    if ih is not None:
+        upper[:, ih] = 1.0
+        lower[:, ih] = 1.0
+    return np.concatenate([h - (d - m), h - (m - d)]), np.vstack([upper, lower])
+
+
+def minimum_zone(points, start):
+    v = np.array(list(start) + [0.0, 0.0])
+    d = distances(points, v)[0]
+    v[4] = 0.5 * (d.max() + d.min())
+    v[5] = 0.5 * (d.max() - d.min())
+    g = np.zeros(6)
+    g[5] = 1.0
+    result = minimize(lambda v: v[5], v, jac=lambda v: g, method="SLSQP",
+                      constraints=[{"type": "ineq", "fun": lambda v: zone_constraints(points, v, None)[0],
+                                    "jac": lambda v: zone_constraints(points, v, None)[1]}],
+                      options={"ftol": 1e-16, "maxiter": 1000})
+    d = distances(points, result.x)[0]
+    return result.x, d.max() - d.min()
+
+
+def least_squares_in_zone(points, start, width):
+    """Among the axes whose zone is at most `width`, the one with the least sum of squared
+    residuals about a free radius rho. v = (x0, y0, a, b, rho, m)."""
+    v = np.array(list(start[:4]) + [0.0, 0.0])
+    d = distances(points, v)[0]
+    v[4] = d.mean()
+    v[5] = 0.5 * (d.max() + d.min())
+    half = 0.5 * width
+
+    def objective(v):
+        e = distances(points, v)[0] - v[4]
+        return float(e @ e)
+
+    def gradient(v):
+        e = distances(points, v)[0] - v[4]
+        g = np.zeros(6)
+        g[:4] = 2.0 * distance_jacobian(points, v).T @ e
+        g[4] = -2.0 * e.sum()
+        return g
+
+    result = minimize(objective, v, jac=gradient, method="SLSQP",
+                      constraints=[{"type": "ineq", "fun": lambda v: zone_constraints(points, v, half)[0],
+                                    "jac": lambda v: zone_constraints(points, v, half)[1]}],
+                      options={"ftol": 1e-18, "maxiter": 1000})
+    return result.x
+
+
+def check_minimum_zone(case, points, name, failures):
+    corners = [minimum_zone(points, (-0.00125, sign * 6e-5, 0.010 / 40.0, 0.0)) for sign in (1.0, -1.0)]
+    width = min(w for _, w in corners)
+    chosen = [least_squares_in_zone(points, v, width + 1e-12) for v, _ in corners]
+    tool_ends = [np.array(e) for e in case["ends"]]
+    agree = max(np.linalg.norm(p - q) for p, q in zip(ends(chosen[0]), ends(chosen[1])))
+    off = max(np.linalg.norm(p - q) for p, q in zip(ends(chosen[0]), tool_ends))
+    to_corner = max(max(np.linalg.norm(p - q) for p, q in zip(ends(v), tool_ends)) for v, _ in corners)
+    print("%s, minimum zone: reference width %.15f (corners %.3e apart in width), cylzone %.15f; "
+          "least-squares choice %.2e mm from cylzone's axis (runs agree to %.1e), corners %.3e "
+          "away, ambiguity %.3e"
+          % (name, width, abs(corners[0][1] - corners[1][1]), case["form"], off, agree, to_corner,
+             case["ambiguity"]))
+    if abs(case["form"] - width) > 1e-9:
+        failures.append("%s: minimum-zone width %.15f, reference %.15f" % (name, case["form"], width))
+    if agree > 1e-8:
+        failures.append("%s: the reference's least-squares choices differ by %.3e" % (name, agree))
+    if off > 1e-7:
+        failures.append("%s: cylzone's minimum-zone axis is %.3e mm from the reference's choice"
+                        % (name, off))
+    if case["ambiguity"] < to_corner - 1e-7:
+        failures.append("%s: ambiguity %.3e below the distance %.3e to a corner optimum"
+                        % (name, case["ambiguity"], to_corner))
+
+
 def ends(v):
     x0, y0, a, b = v[:4]
     return [np.array([x0 + a * z, y0 + b * z]) for z in (0.0, 40.0)]
@@ -104,6 +214,9 @@ def main():
     for case in cases:
         name = "sections every %g mm, %s" % (case["section_step"], case["placement"])
         points = bent_bore(case["section_step"], case["per_section"])
+        if case.get("method") == "minimum-zone":
+            check_minimum_zone(case, points, name, failures)
+            continue
         optima = []
         for sign in (1.0, -1.0):
             v, r = inscribed(points, (-0.00125, sign * 6e-5, 0.010 / 40.0, 0.0))
