@@ -29,14 +29,19 @@
 #include <iomanip>
 #include <limits>
 #include <memory>
+#include <optional>
 #include <random>
 #include <sstream>
 #include <string>
+#include <utility>
 #include <vector>
 
 #include "case_file.hpp"
 #include "cylzone/core/errors.hpp"
+#include "cylzone/fit/fit_circle.hpp"
 #include "cylzone/fit/fit_cylinder.hpp"
+#include "cylzone/fit/fit_line.hpp"
+#include "cylzone/fit/fit_plane.hpp"
 #include "fit/detail/chebyshev.hpp"
 
 using namespace cylzone;
@@ -250,6 +255,134 @@ TEST_CASE("bent bore: the minimum-zone axis is one, whatever the start and the p
       REQUIRE(fit.summary.warnings.empty());  // 5.5e-5 mm: below the 1e-4 mm warning length
     }
   }
+}
+
+namespace {
+
+/// Rigid motions for the circle, plane and line cases: none, two fixed ones far from the
+/// origin and two random ones (fixed seed).
+std::vector<std::pair<Eigen::Matrix3d, Eigen::Vector3d>> rigid_motions() {
+  std::vector<std::pair<Eigen::Matrix3d, Eigen::Vector3d>> out = {
+      {Eigen::Matrix3d::Identity(), Eigen::Vector3d::Zero()},
+      {Eigen::AngleAxisd(0.7, Eigen::Vector3d(1.0, 2.0, 3.0).normalized()).toRotationMatrix(),
+       Eigen::Vector3d(120.0, -45.0, 300.0)},
+      {Eigen::AngleAxisd(2.9, Eigen::Vector3d(-3.0, 1.0, 0.5).normalized()).toRotationMatrix(),
+       Eigen::Vector3d(-800.0, 1500.0, 60.0)}};
+  std::mt19937 random(4711);
+  std::uniform_real_distribution<double> unit(-1.0, 1.0);
+  for (int k = 0; k < 2; ++k) {
+    const Eigen::Vector3d about(unit(random), unit(random), unit(random));
+    out.emplace_back(Eigen::AngleAxisd(3.0 * unit(random), about.normalized()).toRotationMatrix(),
+                     Eigen::Vector3d(500.0 * unit(random), 500.0 * unit(random), 500.0 * unit(random)));
+  }
+  return out;
+}
+
+}  // namespace
+
+TEST_CASE("a circle whose minimum zone is flat: one centre, whatever the start and placement",
+          "[chebyshev][optimum][circle][tie-break]") {
+  // Constructed here, in the plane z = 5 about c = (30, -20, 5): points at 0 and 180 degrees on
+  // radii 9.999 and 10.001 (the contacts of the zone [9.999, 10.001]), at 90 and 270 degrees on
+  // radius 10.00095, and every 30 degrees between on radius 10. A shift s of the centre across
+  // the 0-180 line changes the contacts' distances by s^2 / 2r only (width -1e-5 s^2, below the
+  // objective tolerance for |s| <= 1e-4) until a point at 90 or 270 degrees reaches the outer
+  // bound, at |s| = 5e-5 mm: the optimal set is that segment. It is symmetric under y -> -y and
+  // x -> -x about c, and the least-squares choice in it is unique, so it is c itself (symmetry;
+  // derived here), the zone's width 0.002 mm, and the centre can move 5e-5 mm within the set.
+  const Eigen::Vector3d c(30.0, -20.0, 5.0);
+  std::vector<Eigen::Vector3d> list;
+  auto at = [&](double deg, double r) {
+    const double t = deg * pi / 180.0;
+    list.push_back(c + Eigen::Vector3d(r * std::cos(t), r * std::sin(t), 0.0));
+  };
+  for (double deg : {0.0, 180.0}) {
+    at(deg, 9.999);
+    at(deg, 10.001);
+  }
+  for (double deg : {90.0, 270.0}) at(deg, 10.00095);
+  for (double deg = 30.0; deg < 360.0; deg += 30.0)
+    if (std::fmod(deg, 90.0) != 0.0) at(deg, 10.0);
+  Eigen::Matrix3Xd points(3, static_cast<Eigen::Index>(list.size()));
+  for (std::size_t i = 0; i < list.size(); ++i) points.col(static_cast<Eigen::Index>(i)) = list[i];
+  for (const auto& [r, t] : rigid_motions())
+    for (double sense : {1.0, -1.0}) {
+      INFO("motion " << t.transpose() << ", start normal " << sense << " z");
+      FitOptions options;
+      options.axis_hint = r * Eigen::Vector3d(0.0, 0.0, sense);
+      const CircleFit fit = fit_circle_minimum_zone((r * points).colwise() + t, options);
+      INFO(fit.summary.message);
+      const Eigen::Vector3d centre = r.transpose() * (fit.centre - t);
+      CHECK((centre - c).norm() < 1e-9);
+      CHECK(fit.residuals.form == Approx(0.002).margin(1e-9));
+      CHECK(fit.radius == Approx(10.0).margin(1e-9));
+      CHECK(fit.ambiguity == Approx(5e-5).margin(1e-8));
+    }
+}
+
+TEST_CASE("a plane with two mirror-image minimum zones: one plane, whatever the start and placement",
+          "[chebyshev][optimum][plane][tie-break]") {
+  // Constructed here, about q = (40, 25, -12): A, B = q + (-+10, 0, 0), C = q + (0, 0, 1),
+  // D, E = q + (0, -+10, 0.5). For the plane of normal (-a, -b, 1) the heights z - a x - b y
+  // span 1 + 10|a| (while 10|b| <= 0.5), so a = 0; the orthogonal width 1 / sqrt(1 + b^2)
+  // falls as |b| grows until D or E reaches the top (|b| = 0.05), and grows beyond: two
+  // mirror-image optima b = +-0.05, flatness 1 / sqrt(1.0025) (derived here). Either is a
+  // correct answer; the fit must give the same one from either start and wherever the part is.
+  const Eigen::Vector3d q(40.0, 25.0, -12.0);
+  Eigen::Matrix3Xd points(3, 5);
+  points << -10.0, 10.0, 0.0, 0.0, 0.0,  //
+      0.0, 0.0, 0.0, -10.0, 10.0,        //
+      0.0, 0.0, 1.0, 0.5, 0.5;
+  points.colwise() += q;
+  std::optional<Eigen::Vector3d> first;
+  for (const auto& [r, t] : rigid_motions())
+    for (double sense : {1.0, -1.0}) {
+      INFO("motion " << t.transpose() << ", start normal " << sense << " z");
+      FitOptions options;
+      options.axis_hint = r * Eigen::Vector3d(0.0, 0.0, sense);
+      const PlaneFit fit = fit_plane_minimum_zone((r * points).colwise() + t, options);
+      INFO(fit.summary.message);
+      Eigen::Vector3d normal = r.transpose() * fit.normal;
+      if (normal.z() < 0.0) normal = -normal;
+      CHECK(fit.residuals.form == Approx(1.0 / std::sqrt(1.0025)).margin(1e-12));
+      CHECK(std::abs(normal.x()) < 1e-12);
+      CHECK(std::abs(normal.y() / normal.z()) == Approx(0.05).margin(1e-12));
+      if (!first) first = normal;
+      CHECK((normal - *first).norm() < 1e-12);
+    }
+}
+
+TEST_CASE("a symmetric straightness zone: one line, whatever the start and placement",
+          "[chebyshev][optimum][line][tie-break]") {
+  // Constructed here, along (1, 1, 1)/sqrt(3) through p = (5, -7, 11): stations every 5 mm over
+  // 40 mm, at each a point 0.002 mm off the line, turning by 90 degrees per station, so that the
+  // points are symmetric about the line (a quarter turn and a shift along it). The smallest
+  // cylinder containing them is about that line, diameter 0.004 mm (each point on it, all round;
+  // derived here).
+  const Eigen::Vector3d p(5.0, -7.0, 11.0), w = Eigen::Vector3d(1.0, 1.0, 1.0).normalized();
+  const Eigen::Vector3d u = w.cross(Eigen::Vector3d::UnitZ()).normalized(), v = w.cross(u);
+  Eigen::Matrix3Xd points(3, 9);
+  for (int k = 0; k < 9; ++k) {
+    const double t = k * pi / 2.0;
+    points.col(k) = p + 5.0 * k * w + 0.002 * (std::cos(t) * u + std::sin(t) * v);
+  }
+  for (const auto& [r, t] : rigid_motions())
+    for (double sense : {1.0, -1.0}) {
+      INFO("motion " << t.transpose() << ", start direction " << sense);
+      FitOptions options;
+      options.axis_hint = r * (sense * w);
+      const LineFit fit = fit_line_minimum_zone((r * points).colwise() + t, options);
+      INFO(fit.summary.message);
+      const Eigen::Vector3d point = r.transpose() * (fit.axis.point - t);
+      const Eigen::Vector3d direction = r.transpose() * fit.axis.direction;
+      CHECK(fit.residuals.form == Approx(0.004).margin(1e-12));
+      for (double along : {0.0, 40.0}) {  // the line at both ends of the stations
+        const Eigen::Vector3d end = p + along * w;
+        const Eigen::Vector3d foot =
+            point + (end - point).dot(direction) / direction.squaredNorm() * direction;
+        CHECK((foot - end).norm() < 1e-9);
+      }
+    }
 }
 
 TEST_CASE("a zone model's step to a moved copy is the step that moved it",

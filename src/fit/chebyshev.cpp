@@ -257,13 +257,30 @@ ZoneStatus descend(ZoneModel& model, ZoneObjective objective, const ZoneOptions&
   return status;
 }
 
+/// A point's key for ordering equally good elements: its offset from the middle of the zone,
+/// d_i - (max d + min d) / 2, in the sense that makes the first offset beyond `resolution` (in
+/// the cloud's order) negative. A plane's signed distances then give the same keys whichever
+/// way its normal points, and so do the radial distances of circles and cylinders.
+Eigen::VectorXd ordering_keys(const Eigen::VectorXd& d, double resolution) {
+  Eigen::VectorXd k = d.array() - 0.5 * (d.maxCoeff() + d.minCoeff());
+  for (Eigen::Index i = 0; i < k.size(); ++i)
+    if (std::abs(k(i)) > resolution) {
+      if (k(i) > 0.0) k = -k;
+      break;
+    }
+  return k;
+}
+
 /// Of two equally good optima, the one to report: a choice that depends on the points alone,
 /// not on their placement (distances are invariant under rigid motion) nor on the start or
-/// the sense of its axis. The first point (in the cloud's order) whose distance differs by
-/// more than `resolution` decides; the element farther from it is taken.
+/// the sense of its axis or normal. The first point (in the cloud's order) whose key
+/// (ordering_keys) differs between them by more than `resolution` decides; the element where
+/// it is larger is taken. Mirror images of a symmetric part on which every point is a contact
+/// (all keys equal in size) are told apart by the keys' signs.
 bool preferred(const Eigen::VectorXd& a, const Eigen::VectorXd& b, double resolution) {
-  for (Eigen::Index i = 0; i < a.size(); ++i)
-    if (std::abs(a(i) - b(i)) > resolution) return a(i) > b(i);
+  const Eigen::VectorXd ka = ordering_keys(a, resolution), kb = ordering_keys(b, resolution);
+  for (Eigen::Index i = 0; i < ka.size(); ++i)
+    if (std::abs(ka(i) - kb(i)) > resolution) return ka(i) > kb(i);
   return false;
 }
 
@@ -385,12 +402,12 @@ void explore_optima(ZoneModel& model, ZoneObjective objective, const ZoneOptions
     from.evaluate(x, at, nullptr);
     return largest_displacement(from, x, at, d_from);
   };
-  // The best objective wins. Equally good optima that the first of them (in the order found)
-  // reaches by its own walks (a connected flat set, e.g. a cylinder that can roll) are the
-  // same optimum: that first one stands. Distinct ones (mirror images) are ordered by
-  // `preferred`, whichever was found first.
-  double best = optima.front().f;
-  for (const Optimum& o : optima) best = std::min(best, o.f);
+  // The best objective wins; optima within the tolerance of it are equally good.
+  const Optimum* best_optimum = &optima.front();
+  for (const Optimum& o : optima)
+    if (o.f < best_optimum->f) best_optimum = &o;
+  const double best = best_optimum->f;
+  const double limit = best + objective_tolerance(options, best_optimum->d);
   auto tied = [&](const Optimum& o) { return o.f <= best + objective_tolerance(options, o.d); };
   // How far an optimum's own walks moved it within the tolerance (its flat set's reach).
   auto reach_of = [&](const Optimum& o) {
@@ -400,52 +417,89 @@ void explore_optima(ZoneModel& model, ZoneObjective objective, const ZoneOptions
         r = std::max(r, largest_displacement(*o.model, e.step, e.distances, o.d));
     return r;
   };
-  const Optimum* base = nullptr;
-  for (const Optimum& o : optima)
-    if (!base && tied(o)) base = &o;
-  const double base_reach = reach_of(*base);
-  const Optimum* chosen = base;
-  for (const Optimum& o : optima)
-    if (&o != base && tied(o) && preferred(o.d, chosen->d, resolution) &&
-        displacement(*base->model, base->d, *o.model) > 2.0 * base_reach + 10.0 * resolution)
-      chosen = &o;
-  const double limit = chosen->f + objective_tolerance(options, chosen->d);
-
   // The ambiguity is reported only above 1e-8 of the data's size (0.5 nm on a 50 mm bore, far
   // below the 0.1 um warning length): below it, the walks' reach is set by the objective
   // tolerance and the conditioning of the programme, not by the part, and the same points
   // placed elsewhere give a different figure of that order (tests/test_invariance.cpp).
-  //
-  // The tie-break (docs/chebyshev.md, "Non-unique optima", 5): where the chosen optimum's own
-  // near-optimal set reaches farther than that, it is genuinely flat and the descent's element
-  // in it depended on the start; the element reported is then the one of that set that
-  // minimises the sum of squared residuals, a rule of the points alone. (A smaller set is the
-  // tolerance's own width about an isolated optimum, which the descent and the contact polish
-  // locate exactly; a choice at its rim would depend on the tolerance instead.) The ambiguity
-  // is then measured by new walks from that element (the old ones started elsewhere) and to the
-  // distinct optima; the optima in the chosen one's own flat set are covered by those walks.
-  const ZoneModel* here = chosen->model.get();
-  const Eigen::VectorXd* here_d = &chosen->d;
-  std::unique_ptr<ZoneModel> settled;
-  Eigen::VectorXd settled_d;
-  std::vector<WalkEnd> settled_ends;
   const double reported_from = std::max(resolution, ambiguity_report_fraction * scale);
-  if (!chosen->unique && summary.ambiguity_failure.empty() && reach_of(*chosen) > reported_from) {
-    settled = chosen->model->subset(all);
-    settled_d = chosen->d;
-    try {
-      if (settle_in_optimal_set(*settled, objective, options, options.residuals_about_offset,
-                                limit, settled_d)) {
-        settled_ends =
-            walk_ends(*settled, objective, options, settled_d, 0.0, summary.ambiguity_programmes);
-        here = settled.get();
-        here_d = &settled_d;
+
+  // The tie-break (docs/chebyshev.md, "Non-unique optima", 5). Each equally good optimum that
+  // is not proven unique is moved to the element of least sum of squared residuals among
+  // those within the tolerance of the best objective (settle_in_optimal_set). Optima that
+  // settle on one element lie in one flat set (e.g. anywhere across the plane of a bent bore's
+  // bend, or at either end of that set): that element, a rule of the points alone, stands for
+  // them all. An optimum alone in its set stands for itself where the set is no wider than the
+  // ambiguity's reporting level: it is then the tolerance's own width about an isolated
+  // optimum, which the descent and the contact polish locate exactly, and a choice at its rim
+  // would depend on the tolerance instead (mirror-image inscribed cylinders of a bent bore).
+  // Of the distinct sets, the one whose element the points prefer (`preferred`) is reported.
+  struct Candidate {
+    const Optimum* origin = nullptr;
+    std::unique_ptr<ZoneModel> model;  // the settled element; null where settling failed
+    Eigen::VectorXd d;
+    std::size_t group = 0;
+  };
+  std::vector<Candidate> candidates;
+  for (const Optimum& o : optima) {
+    if (!tied(o)) continue;
+    Candidate c;
+    c.origin = &o;
+    if (!o.unique && summary.ambiguity_failure.empty()) {
+      std::unique_ptr<ZoneModel> moved = o.model->subset(all);
+      Eigen::VectorXd moved_d = o.d;
+      if (settle_in_optimal_set(*moved, objective, options, options.residuals_about_offset, limit,
+                                moved_d)) {
+        c.model = std::move(moved);
+        c.d = std::move(moved_d);
       }
+    }
+    c.group = candidates.size();
+    for (const Candidate& earlier : candidates)
+      if (c.model && earlier.model &&
+          displacement(*earlier.model, earlier.d, *c.model) <= 10.0 * resolution) {
+        c.group = earlier.group;
+        break;
+      }
+    candidates.push_back(std::move(c));
+  }
+  // A group's element: the settled one when several optima share it or the optimum's own set is
+  // wide; otherwise the optimum itself.
+  auto members = [&](std::size_t group) {
+    return std::count_if(candidates.begin(), candidates.end(),
+                         [&](const Candidate& c) { return c.group == group; });
+  };
+  auto uses_settled = [&](const Candidate& c) {
+    return c.model && (members(c.group) > 1 || reach_of(*c.origin) > reported_from);
+  };
+  const Candidate* chosen = nullptr;
+  for (const Candidate& c : candidates) {
+    if (c.group != static_cast<std::size_t>(&c - candidates.data())) continue;  // not a group's first
+    if (!chosen) {
+      chosen = &c;
+      continue;
+    }
+    const Eigen::VectorXd& dc = uses_settled(c) ? c.d : c.origin->d;
+    const Eigen::VectorXd& dk = uses_settled(*chosen) ? chosen->d : chosen->origin->d;
+    if (preferred(dc, dk, resolution)) chosen = &c;
+  }
+  const bool settled = uses_settled(*chosen);
+  const ZoneModel* here = settled ? chosen->model.get() : chosen->origin->model.get();
+  const Eigen::VectorXd* here_d = settled ? &chosen->d : &chosen->origin->d;
+  // A settled element is measured by new walks from it (the optima's walks started elsewhere);
+  // they cover its own set, so the optima of its group are not visited again below.
+  std::vector<WalkEnd> settled_ends;
+  if (settled) {
+    try {
+      settled_ends = walk_ends(*here, objective, options, *here_d, 0.0, summary.ambiguity_programmes);
     } catch (const FitError& e) {
       summary.ambiguity_failure = e.what();
     }
   }
-  const double chosen_reach = settled && here == settled.get() ? reach_of(*chosen) : 0.0;
+  auto in_chosen_group = [&](const Optimum& o) {
+    for (const Candidate& c : candidates)
+      if (c.origin == &o) return c.group == chosen->group;
+    return false;
+  };
   const double here_limit = true_objective(objective, *here_d) + objective_tolerance(options, *here_d);
 
   // The ambiguity: from the reported element to every element found within the tolerance.
@@ -455,10 +509,7 @@ void explore_optima(ZoneModel& model, ZoneObjective objective, const ZoneOptions
       worst = std::max(worst, largest_displacement(*here, e.step, e.distances, *here_d));
   for (const Optimum& o : optima) {
     if (!(o.f <= here_limit)) continue;
-    if (here != chosen->model.get() &&
-        (&o == chosen ||
-         displacement(*chosen->model, chosen->d, *o.model) <= 2.0 * chosen_reach + 10.0 * resolution))
-      continue;  // the chosen optimum's own flat set: the new walks measured it
+    if (settled && in_chosen_group(o)) continue;  // the new walks measured that set
     if (here != o.model.get()) worst = std::max(worst, displacement(*here, *here_d, *o.model));
     for (const WalkEnd& e : o.ends) {
       if (!(e.objective <= here_limit)) continue;
@@ -472,8 +523,8 @@ void explore_optima(ZoneModel& model, ZoneObjective objective, const ZoneOptions
     }
   }
   summary.ambiguity = worst > reported_from ? worst : 0.0;
-  summary.proven_unique = chosen->unique && summary.ambiguity == 0.0;
-  summary.tie_broken = here == settled.get();
+  summary.proven_unique = chosen->origin->unique && summary.ambiguity == 0.0;
+  summary.tie_broken = settled;
   if (here != optima.front().model.get()) {  // the first is the model's own element
     model.move(model.step_to(*here));
     model.evaluate(Eigen::VectorXd::Zero(p), d, nullptr);

@@ -358,7 +358,7 @@ bool settle_in_optimal_set(ZoneModel& model, ZoneObjective objective, const Zone
   // part of a step that the linearised bound keeps within the limit); the next linearisation,
   // exact at the new element, brings it back.
   const double accept = limit + tolerance;
-  const double settled = 1e-14 * scale;
+  const double settled = 1e-11 * scale;
   // Linearised rows violated by less than this count as kept: dependent rows (exact ties of a
   // symmetric part) differ in their bounds by rounding.
   const double feasibility = 0.1 * tolerance;
