@@ -380,6 +380,114 @@ TEST_CASE("with A alone and one bore, the tilt alone is left", "[datum_mobility]
   CHECK(r.worst_ratio == Approx(tilt / 0.025).margin(1e-9));
 }
 
+namespace {
+
+/// One bore binding by its tilt alone (F1: 0.010 mm between its ends over 40 mm, tolerance
+/// 0.025, ratio 0.4) and three others displaced with it and a few um off on their own (ratios
+/// well below 0.4 where F1 is centred), every axis moved by the part motion (angle, shift).
+Pattern one_binding_pattern(double angle, const Eigen::Vector2d& shift, double tolerance_s = 0.025) {
+  struct Spec {
+    Eigen::Vector2d basic, top, bottom;
+    double tolerance;
+  };
+  const Spec specs[] = {
+      {{30, 40}, {30.004, 40.002}, {30.010, 39.994}, tolerance_s},
+      {{70, 50}, {70.0012, 50.0004}, {70.0004, 50.0014}, 0.040},
+      {{100, -30}, {99.9984, -30.0012}, {100.0006, -30.0019}, 0.030},
+      {{-60, 10}, {-59.9997, 10.0011}, {-59.9986, 10.0003}, 0.060},
+  };
+  // The others are displaced with S's mid-depth centre, (0.007, -0.002), plus their own few um.
+  const Eigen::Vector2d common(0.007, -0.002);
+  Pattern pattern;
+  for (const Spec& b : specs) {
+    const Eigen::Vector2d with = pattern.bores.empty() ? Eigen::Vector2d::Zero() : common;
+    pattern.bores.push_back(straight_bore("F" + std::to_string(pattern.bores.size() + 1), b.basic,
+                                          rotated(b.top + with, angle) + shift,
+                                          rotated(b.bottom + with, angle) + shift, 40.0,
+                                          b.tolerance));
+  }
+  return pattern;
+}
+
+/// The tie-break's secondary objective (docs/evaluation.md): the sum over every bore's
+/// evaluated ends of the squared ratio 2 |offset| / allowed.
+double squared_ratios_after(const Pattern& pattern, const FrameMotion& motion) {
+  double sum = 0.0;
+  for (const PatternBore& b : pattern.bores) {
+    const PositionResult p = position_after_frame_motion(b.result, b.plan, motion);
+    for (const AxisDeviation& e : {p.top, p.bottom}) sum += std::pow(e.diameter() / p.allowed, 2);
+  }
+  return sum;
+}
+
+/// The motion that turns `motion` by `turn` about the frame point `pivot` (moved frame's
+/// coordinates unchanged there): R(theta')^T (pivot - s') = R(theta)^T (pivot - s).
+FrameMotion turned_about(const FrameMotion& motion, const Eigen::Vector2d& pivot, double turn) {
+  FrameMotion out;
+  out.rotation_rad = motion.rotation_rad + turn;
+  out.shift = pivot - rotated(pivot - motion.shift, turn);
+  return out;
+}
+
+/// The flat set's tie-break and its invariance, for a mobility with free rotation.
+void check_flat_set_tie_break(const FrameMobility& m, double tolerance_s) {
+  const Pattern base = one_binding_pattern(0.0, Eigen::Vector2d::Zero(), tolerance_s);
+  const MobilityResult r0 = base.best(m);
+  // The binding bore's figure is its tilt alone (by construction: a diameter zone about the
+  // centred axis), |top - bottom| = 0.01 mm.
+  const double tilt = (Eigen::Vector2d(30.004, 40.002) - Eigen::Vector2d(30.010, 39.994)).norm();
+  REQUIRE(r0.positions[0].value == Approx(tilt).margin(1e-11));
+  REQUIRE(r0.worst_ratio == Approx(tilt / tolerance_s).margin(1e-9));
+  for (std::size_t i = 1; i < r0.positions.size(); ++i)
+    REQUIRE(r0.positions[i].value / r0.positions[i].allowed < 0.9 * r0.worst_ratio);
+  // Equally good motions: turning about the binding bore's mid-depth centre (in the moved
+  // frame at its basic location (30, 40)) keeps its figure; the chosen motion has the least
+  // sum of squared ratios among them (by the definition of the tie-break), and is therefore
+  // not the arbitrary point a search on the worst ratio alone stops at.
+  const Eigen::Vector2d pivot = r0.motion.shift + rotated(Eigen::Vector2d(30.0, 40.0), r0.motion.rotation_rad);
+  const double chosen = squared_ratios_after(base, r0.motion);
+  for (double turn : {-1e-5, -1e-6, 1e-6, 1e-5}) {
+    const FrameMotion other = turned_about(r0.motion, pivot, turn);
+    INFO("turn " << turn);
+    CHECK(worst_ratio_after(base, other) == Approx(r0.worst_ratio).margin(1e-9));
+    CHECK(squared_ratios_after(base, other) > chosen);
+  }
+  // The part moved rigidly (R(phi) p + v) gets the same figures and the motion composed with
+  // the part's (by construction).
+  for (const auto& [phi, v] : {std::pair<double, Eigen::Vector2d>{3.1e-4, {0.021, -0.013}},
+                               {-2.7e-4, {-0.008, 0.017}}, {2e-3, {0.03, -0.02}}}) {
+    INFO("part turned by " << phi << " and moved by " << v.transpose());
+    const Pattern moved = one_binding_pattern(phi, v, tolerance_s);
+    const MobilityResult r1 = moved.best(m);
+    CHECK(r1.worst_ratio == Approx(r0.worst_ratio).margin(1e-12));
+    CHECK(r1.motion.rotation_rad == Approx(r0.motion.rotation_rad + phi).margin(1e-11));
+    CHECK((r1.motion.shift - (rotated(r0.motion.shift, phi) + v)).norm() < 1e-9);
+    REQUIRE(r1.positions.size() == r0.positions.size());
+    for (std::size_t i = 0; i < r0.positions.size(); ++i)
+      CHECK(r1.positions[i].value == Approx(r0.positions[i].value).margin(1e-11));
+  }
+}
+
+}  // namespace
+
+TEST_CASE("with A alone and one binding bore, the flat set is tie-broken by the part alone",
+          "[datum_mobility][tie-break]") {
+  FrameMobility m;
+  m.translation_free = true;
+  m.rotation_free = true;
+  check_flat_set_tie_break(m, 0.025);
+}
+
+TEST_CASE("with A|B(M) and one binding bore, the flat set is tie-broken by the part alone",
+          "[datum_mobility][tie-break]") {
+  // B at MMB with room to spare: a shift within 0.1 mm (the answer and the part motions below
+  // stay well inside it), the rotation free (no C).
+  FrameMobility m;
+  m.shift_allowance = 0.1;
+  m.rotation_free = true;
+  check_flat_set_tie_break(m, 0.025);
+}
+
 TEST_CASE("rotation follows C at RMB while the frame shifts", "[datum_mobility]") {
   // The part moved by a motion that keeps C on its basic ray: s0 in the disk, theta0 the angle
   // that turns C's direction to c - s0. The frame can follow exactly.

@@ -867,10 +867,23 @@ FrameMotion search_rotation(const FrameMobility& mobility, const MobilityOptions
 /// coordinates only (`free`: s_x, s_y, theta); the answer is returned when it converged, is
 /// no worse than the start, and keeps the shift within `shift_limit` (infinite when the
 /// translation is free); otherwise nothing, and the searches' answer stands. A singular
-/// system (a flat set of equally good motions, e.g. one bore and a free translation) is left
-/// to the searches (docs/evaluation.md).
+/// system (a flat set of equally good motions, e.g. one bore and a free translation) returns
+/// nothing with `tie_break` off.
+///
+/// With `tie_break` on, the objective is t + eps S(x) instead of t, S the sum of the squared
+/// ratios of every evaluated point of the pattern (the binding ones and the others), eps small:
+/// the tie-break among equally good motions (docs/evaluation.md). Along a flat set t does not
+/// change and eps S is strictly convex, so the system is regular and its solution is the motion
+/// of the set with the least S; across the set t grows at first order (the set's points are
+/// sharp minimax points there), an exact penalty for the eps S term (Fletcher, Practical Methods
+/// of Optimization, 2nd ed., 1987, 14.3, from memory for the section), so the solution stays on
+/// the set: a lexicographic second stage (Nocedal & Wright, 2nd ed., on multiobjective
+/// programming by priorities). eps = 1e-6 t / S at the start: the secondary term is a millionth
+/// of the worst ratio. The solution is a function of the part alone; it may lie far along the
+/// set from the searches' answer, so only its worst ratio is compared with theirs.
 std::optional<FrameMotion> polish_motion(const PatternModel& model, const FrameMotion& start,
-                                         const std::array<bool, 3>& free, double shift_limit) {
+                                         const std::array<bool, 3>& free, double shift_limit,
+                                         bool tie_break = false) {
   std::vector<int> vars;
   for (int j = 0; j < 3; ++j)
     if (free[j]) vars.push_back(j);
@@ -922,6 +935,33 @@ std::optional<FrameMotion> polish_motion(const PatternModel& model, const FrameM
     return true;
   };
 
+  // The tie-break's secondary objective eps S(x), S = sum_k (w_k |v_k(x)|)^2: its gradient and
+  // Gauss-Newton Hessian (the fixed point depends on the gradient only) in the free coordinates.
+  double eps = 0.0;
+  if (tie_break) {
+    double s0 = 0.0;
+    for (std::size_t k = 0; k < count; ++k) s0 += ratio(k, x0) * ratio(k, x0);
+    if (!(s0 > 0.0)) return std::nullopt;
+    eps = 1e-6 * f_start / s0;
+  }
+  const auto secondary = [&](const Eigen::Vector3d& x, Eigen::VectorXd& g, Eigen::MatrixXd& h) {
+    Eigen::Vector3d full_g = Eigen::Vector3d::Zero();
+    Eigen::Matrix3d full_h = Eigen::Matrix3d::Zero();
+    Eigen::Matrix<double, 2, 3> j;
+    for (std::size_t k = 0; k < count; ++k) {
+      const Eigen::Vector2d v = model.deviation(k, x, &j);
+      const double w2 = model.point_weight(k) * model.point_weight(k);
+      full_g += 2.0 * w2 * j.transpose() * v;
+      full_h += 2.0 * w2 * j.transpose() * j;
+    }
+    g.resize(n);
+    h.resize(n, n);
+    for (int a = 0; a < n; ++a) {
+      g(a) = eps * full_g(vars[a]);
+      for (int b = 0; b < n; ++b) h(a, b) = eps * full_h(vars[a], vars[b]);
+    }
+  };
+
   std::vector<std::size_t> active;
   for (std::size_t k = 0; k < count; ++k)
     if (ratio(k, x0) >= f_start * (1.0 - 1e-6)) active.push_back(k);
@@ -953,6 +993,13 @@ std::optional<FrameMotion> polish_motion(const PatternModel& model, const FrameM
         system(m + n, n + 1 + i) = 1.0;
       }
       residual(m + n) = lambda.sum() - 1.0;
+      if (tie_break) {
+        Eigen::VectorXd g;
+        Eigen::MatrixXd h;
+        secondary(x, g, h);
+        residual.segment(m, n) += g;
+        system.block(m, 0, n, n) += h;
+      }
       Eigen::FullPivLU<Eigen::MatrixXd> lu(system);
       // A flat set makes the system singular, and rounding would hide it at the default
       // threshold (a tiny pivot, and a step along the flat set as long as its inverse).
@@ -994,7 +1041,8 @@ std::optional<FrameMotion> polish_motion(const PatternModel& model, const FrameM
     if (polished.shift.norm() > shift_limit) return std::nullopt;
     // The searches place the motion to about the square root of rounding; a polish that went
     // far from them found another stationary point, and the searches' answer stands.
-    if ((x - x0).head<2>().norm() > 1e-3 || std::abs(x.z() - x0.z()) > 1e-5) return std::nullopt;
+    if (!tie_break && ((x - x0).head<2>().norm() > 1e-3 || std::abs(x.z() - x0.z()) > 1e-5))
+      return std::nullopt;
     if (!(worst(x) <= f_start * (1.0 + 1e-12))) return std::nullopt;
     return polished;
   }
@@ -1191,6 +1239,11 @@ MobilityResult best_frame_motion(const std::vector<const BoreResult*>& bores,
     if (const std::optional<FrameMotion> polished =
             polish_motion(model, searched, free, limit))
       return finish(*polished);
+    // Not an isolated optimum (or the polish failed): among the equally good motions, the one
+    // with the least sum of squared ratios.
+    if (const std::optional<FrameMotion> chosen =
+            polish_motion(model, searched, free, limit, true))
+      return finish(*chosen);
   }
   return finish(searched);
 }
