@@ -171,7 +171,8 @@ namespace {
 /// one and whether the polish ran.
 ZoneStatus descend(ZoneModel& model, ZoneObjective objective, const ZoneOptions& options,
                    ZoneProgramme& programme, Eigen::VectorXd& d, ZoneSummary& summary,
-                   int& programmes) {
+                   int& programmes, bool& polished_at_end) {
+  polished_at_end = false;
   const int p = model.parameter_count();
   const double scale = options.scale > 0.0 ? options.scale : 1.0;
   const double length_tolerance = options.step_tolerance * scale;
@@ -250,6 +251,7 @@ ZoneStatus descend(ZoneModel& model, ZoneObjective objective, const ZoneOptions&
                            scale)) {
       model.evaluate(no_step, d, nullptr);
       summary.polished = true;
+      polished_at_end = true;
     }
     // The polish keeps the programme's contacts, so its binding rows and multipliers still
     // describe the optimum.
@@ -301,7 +303,8 @@ bool preferred(const Eigen::VectorXd& a, const Eigen::VectorXd& b, double resolu
 constexpr double ambiguity_report_fraction = 1e-8;
 
 void explore_optima(ZoneModel& model, ZoneObjective objective, const ZoneOptions& options,
-                    ZoneProgramme& programme, Eigen::VectorXd& d, ZoneSummary& summary) {
+                    ZoneProgramme& programme, Eigen::VectorXd& d, ZoneSummary& summary,
+                    bool polished) {
   // At most this many further descents: each costs a few linear programmes and walks.
   constexpr int most_descents = 16;
   const Eigen::Index n = model.point_count();
@@ -320,6 +323,7 @@ void explore_optima(ZoneModel& model, ZoneObjective objective, const ZoneOptions
     std::unique_ptr<ZoneModel> model;
     Eigen::VectorXd d;
     ZoneProgramme programme;
+    bool polished = false;  // the descent ended on a regular Newton refinement of its contacts
   };
   struct Optimum {
     std::unique_ptr<ZoneModel> model;
@@ -327,10 +331,11 @@ void explore_optima(ZoneModel& model, ZoneObjective objective, const ZoneOptions
     double f = 0.0;
     std::vector<WalkEnd> ends;
     bool unique = false;  // proven by its contacts (no walks)
+    bool polished = false;
   };
   std::vector<Optimum> optima;
   std::vector<Stationary> pending;
-  pending.push_back({model.subset(all), d, programme});
+  pending.push_back({model.subset(all), d, programme, polished});
   int descents = 0;
   Eigen::VectorXd at;
   // Whether a stationary element is one already found (to well below any figure reported).
@@ -345,10 +350,10 @@ void explore_optima(ZoneModel& model, ZoneObjective objective, const ZoneOptions
   auto descend_from = [&](const ZoneModel& from, const Eigen::VectorXd& step) {
     if (descents >= most_descents) return;
     ++descents;
-    Stationary next{from.subset(all), {}, ZoneProgramme(objective, options, n, p)};
+    Stationary next{from.subset(all), {}, ZoneProgramme(objective, options, n, p), false};
     next.model->move(step);
     if (descend(*next.model, objective, options, next.programme, next.d, summary,
-                summary.ambiguity_programmes) == ZoneStatus::converged)
+                summary.ambiguity_programmes, next.polished) == ZoneStatus::converged)
       pending.push_back(std::move(next));
   };
   try {
@@ -356,7 +361,8 @@ void explore_optima(ZoneModel& model, ZoneObjective objective, const ZoneOptions
       Stationary s = std::move(pending.front());
       pending.erase(pending.begin());
       if (known(*s.model)) continue;
-      optima.push_back({std::move(s.model), s.d, true_objective(objective, s.d), {}, false});
+      optima.push_back(
+          {std::move(s.model), s.d, true_objective(objective, s.d), {}, false, s.polished});
       Optimum& o = optima.back();
       const ZoneModel& from = *o.model;
       const double tolerance = objective_tolerance(options, o.d);
@@ -428,10 +434,11 @@ void explore_optima(ZoneModel& model, ZoneObjective objective, const ZoneOptions
   // those within the tolerance of the best objective (settle_in_optimal_set). Optima that
   // settle on one element lie in one flat set (e.g. anywhere across the plane of a bent bore's
   // bend, or at either end of that set): that element, a rule of the points alone, stands for
-  // them all. An optimum alone in its set stands for itself where the set is no wider than the
-  // ambiguity's reporting level: it is then the tolerance's own width about an isolated
-  // optimum, which the descent and the contact polish locate exactly, and a choice at its rim
-  // would depend on the tolerance instead (mirror-image inscribed cylinders of a bent bore).
+  // them all. An optimum alone in its set stands for itself where the Newton refinement of its
+  // contacts located it (a regular system: an isolated optimum, e.g. the smallest circle on two
+  // diametral points, whose near-optimal set is the tolerance's own well about it, up to
+  // (2 r delta)^(1/2) wide: a choice at its rim would depend on the tolerance, not on the part)
+  // or where its set is no wider than the ambiguity's reporting level.
   // Of the distinct sets, the one whose element the points prefer (`preferred`) is reported.
   struct Candidate {
     const Optimum* origin = nullptr;
@@ -469,7 +476,8 @@ void explore_optima(ZoneModel& model, ZoneObjective objective, const ZoneOptions
                          [&](const Candidate& c) { return c.group == group; });
   };
   auto uses_settled = [&](const Candidate& c) {
-    return c.model && (members(c.group) > 1 || reach_of(*c.origin) > reported_from);
+    return c.model && (members(c.group) > 1 ||
+                       (!c.origin->polished && reach_of(*c.origin) > reported_from));
   };
   const Candidate* chosen = nullptr;
   for (const Candidate& c : candidates) {
@@ -537,9 +545,11 @@ ZoneSummary solve_zone(ZoneModel& model, ZoneObjective objective, const ZoneOpti
   ZoneSummary summary;
   Eigen::VectorXd d;
   ZoneProgramme programme(objective, options, model.point_count(), model.parameter_count());
-  summary.status = descend(model, objective, options, programme, d, summary, summary.iterations);
+  bool polished = false;
+  summary.status =
+      descend(model, objective, options, programme, d, summary, summary.iterations, polished);
   if (summary.status == ZoneStatus::converged && options.assess_ambiguity)
-    explore_optima(model, objective, options, programme, d, summary);
+    explore_optima(model, objective, options, programme, d, summary, polished);
   // The polish may have run earlier, but the message reports how the final element was found.
 
   summary.distances = std::move(d);

@@ -278,8 +278,11 @@ namespace {
 /// unconstrained minimiser and adds the most violated constraint at a time, keeping the
 /// multipliers of the active ones non-negative, so it needs no feasible start and stops at the
 /// optimum, which is unique (strictly convex objective). With a handful of unknowns the
-/// projections are recomputed from scratch at every step rather than updated. Returns false
-/// when the constraints are inconsistent or the iteration does not settle.
+/// projections are recomputed from scratch at every step rather than updated. A violated row
+/// that the active ones span with no multiplier to give way (inconsistent, in exact arithmetic)
+/// is set aside: the callers' rows are consistent by construction (the current element keeps
+/// them), so that can only be rounding among tied rows, and the callers verify the result on
+/// the true objective. Returns false when the iteration does not settle.
 bool dual_active_set_qp(const Eigen::MatrixXd& hessian, const Eigen::VectorXd& h,
                         const Eigen::MatrixXd& normals, const Eigen::VectorXd& bounds,
                         double feasibility, Eigen::VectorXd& z) {
@@ -290,9 +293,12 @@ bool dual_active_set_qp(const Eigen::MatrixXd& hessian, const Eigen::VectorXd& h
   z = -inverse * h;
   std::vector<Eigen::Index> active;
   std::vector<double> u;
+  std::vector<bool> set_aside(static_cast<std::size_t>(normals.cols()), false);
   const int most_steps = 50 * static_cast<int>(q) + 200;
   for (int steps = 0; steps < most_steps;) {
-    const Eigen::VectorXd slack = normals.transpose() * z - bounds;
+    Eigen::VectorXd slack = normals.transpose() * z - bounds;
+    for (Eigen::Index k = 0; k < slack.size(); ++k)
+      if (set_aside[static_cast<std::size_t>(k)]) slack(k) = 0.0;
     Eigen::Index worst = 0;
     if (slack.size() == 0 || slack.minCoeff(&worst) >= -feasibility) return true;
     double u_new = 0.0;
@@ -321,7 +327,11 @@ bool dual_active_set_qp(const Eigen::MatrixXd& hessian, const Eigen::VectorXd& h
       // not span: relative to n's own, it tells a dependent row.
       const double curvature = n.dot(dz);
       const bool dependent = !(curvature > 1e-12 * n.dot(inverse * n));
-      if (dependent && leaving < 0) return false;  // inconsistent constraints
+      if (dependent && leaving < 0) {  // inconsistent: rounding among tied rows
+        set_aside[static_cast<std::size_t>(worst)] = true;
+        ++steps;
+        break;
+      }
       const double t1 = dependent ? std::numeric_limits<double>::infinity()
                                   : -(n.dot(z) - bounds(worst)) / curvature;
       const double t = std::min(t1, t2);

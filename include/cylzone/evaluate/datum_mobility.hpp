@@ -113,8 +113,12 @@ struct MobilityResult {
 /// holds C away from its place in the frame). Where the allowed set is open about the searches'
 /// answer (no datum C tying shift and rotation together), the answer is polished by Newton's
 /// method on the minimax first-order conditions, so that the motion is located to rounding and
-/// the figures of bores that do not bind do not depend on how the part sat on the machine; a
-/// flat set of equally good motions keeps the searches' answer (docs/evaluation.md).
+/// the figures of bores that do not bind do not depend on how the part sat on the machine.
+/// Where the equally good motions form a flat set (e.g. one bore binding by its tilt, which any
+/// turn about its centre leaves as it is), the motion of that set with the least sum of squared
+/// ratios over every evaluated point of the pattern is taken (a lexicographic second stage, by
+/// the same Newton polish on t + eps S: docs/evaluation.md), so that it too depends on the part
+/// alone. With datum C tying shift and rotation, the searches' answer stands.
 /// Deterministic. Throws FitError when a bore has no position result or the inputs are not
 /// parallel.
 MobilityResult best_frame_motion(const std::vector<const BoreResult*>& bores,

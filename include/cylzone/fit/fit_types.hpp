@@ -16,6 +16,18 @@
 ///    means farther from the axis; the plain distance (>= 0) for a line.
 ///  * form is the span max - min of the residuals, except for a line, where it is the diameter
 ///    of the cylindrical zone about the fitted line (2 x the largest distance).
+///  * Chebyshev fits (minimum zone, mating envelopes) whose optimum is not a single element:
+///    the standards define the value (ISO 1101 and ISO 14405-1 the zone's width and the
+///    envelope's size; ASME Y14.5.1 recognises non-unique mating envelopes, from memory), not
+///    which of the equally good elements is reported, so the choice is cylzone's. Among the
+///    elements whose objective is within the tolerance of the optimum's (docs/chebyshev.md,
+///    "Non-unique optima"), the one with the least sum of squared residuals is reported (about
+///    a free radius or offset; a line's distances themselves): a lexicographic second stage
+///    (goal programming by priorities; Nocedal & Wright, Numerical Optimization, 2nd ed., 2006,
+///    from memory for the section). Distinct optima (mirror images of a symmetric part) are
+///    ordered by the points' offsets from the zone's middle. Both depend on the points alone:
+///    the element reported does not depend on the start, the hint's sense or a rigid motion of
+///    the points. `ambiguity` still reports how far the element can move among the optima.
 
 #include <Eigen/Core>
 #include <cstddef>
