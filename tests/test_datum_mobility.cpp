@@ -391,7 +391,8 @@ namespace {
 /// One bore binding by its tilt alone (F1: 0.010 mm between its ends over 40 mm, tolerance
 /// 0.025, ratio 0.4) and three others displaced with it and a few um off on their own (ratios
 /// well below 0.4 where F1 is centred), every axis moved by the part motion (angle, shift).
-Pattern one_binding_pattern(double angle, const Eigen::Vector2d& shift, double tolerance_s = 0.025) {
+Pattern one_binding_pattern(double angle, const Eigen::Vector2d& shift,
+                            double tolerance_s = 0.025) {
   struct Spec {
     Eigen::Vector2d basic, top, bottom;
     double tolerance;
@@ -450,7 +451,8 @@ void check_flat_set_tie_break(const FrameMobility& m, double tolerance_s) {
   // frame at its basic location (30, 40)) keeps its figure; the chosen motion has the least
   // sum of squared ratios among them (by the definition of the tie-break), and is therefore
   // not the arbitrary point a search on the worst ratio alone stops at.
-  const Eigen::Vector2d pivot = r0.motion.shift + rotated(Eigen::Vector2d(30.0, 40.0), r0.motion.rotation_rad);
+  const Eigen::Vector2d pivot =
+      r0.motion.shift + rotated(Eigen::Vector2d(30.0, 40.0), r0.motion.rotation_rad);
   const double chosen = squared_ratios_after(base, r0.motion);
   for (double turn : {-1e-5, -1e-6, 1e-6, 1e-5}) {
     const FrameMotion other = turned_about(r0.motion, pivot, turn);

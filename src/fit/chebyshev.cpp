@@ -481,7 +481,8 @@ void explore_optima(ZoneModel& model, ZoneObjective objective, const ZoneOptions
   };
   const Candidate* chosen = nullptr;
   for (const Candidate& c : candidates) {
-    if (c.group != static_cast<std::size_t>(&c - candidates.data())) continue;  // not a group's first
+    // Each group once, at its first member.
+    if (c.group != static_cast<std::size_t>(&c - candidates.data())) continue;
     if (!chosen) {
       chosen = &c;
       continue;
@@ -498,7 +499,8 @@ void explore_optima(ZoneModel& model, ZoneObjective objective, const ZoneOptions
   std::vector<WalkEnd> settled_ends;
   if (settled) {
     try {
-      settled_ends = walk_ends(*here, objective, options, *here_d, 0.0, summary.ambiguity_programmes);
+      settled_ends =
+          walk_ends(*here, objective, options, *here_d, 0.0, summary.ambiguity_programmes);
     } catch (const FitError& e) {
       summary.ambiguity_failure = e.what();
     }
@@ -508,7 +510,8 @@ void explore_optima(ZoneModel& model, ZoneObjective objective, const ZoneOptions
       if (c.origin == &o) return c.group == chosen->group;
     return false;
   };
-  const double here_limit = true_objective(objective, *here_d) + objective_tolerance(options, *here_d);
+  const double here_limit =
+      true_objective(objective, *here_d) + objective_tolerance(options, *here_d);
 
   // The ambiguity: from the reported element to every element found within the tolerance.
   double worst = 0.0;
@@ -559,7 +562,9 @@ ZoneSummary solve_zone(ZoneModel& model, ZoneObjective objective, const ZoneOpti
       summary.message = "converged in " + std::to_string(summary.iterations) +
                         " linear programmes (at most " + rows + " rows)" +
                         (summary.polished ? ", contacts refined by Newton's method" : "") +
-                        (summary.tie_broken ? "; least-squares choice among equally good elements" : "") +
+                        (summary.tie_broken
+                             ? "; least-squares choice among equally good elements"
+                             : "") +
                         (summary.ambiguity_programmes > 0 && !summary.proven_unique
                              ? "; not proven unique, " +
                                    std::to_string(summary.ambiguity_programmes) +

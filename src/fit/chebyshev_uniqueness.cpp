@@ -310,7 +310,8 @@ bool dual_active_set_qp(const Eigen::MatrixXd& hessian, const Eigen::VectorXd& h
         dz = inverse * n;
       } else {
         Eigen::MatrixXd a(q, k);
-        for (Eigen::Index j = 0; j < k; ++j) a.col(j) = normals.col(active[static_cast<std::size_t>(j)]);
+        for (Eigen::Index j = 0; j < k; ++j)
+          a.col(j) = normals.col(active[static_cast<std::size_t>(j)]);
         const Eigen::MatrixXd ha = inverse * a;
         r = (a.transpose() * ha).ldlt().solve(ha.transpose() * n);
         dz = inverse * n - ha * r;

@@ -142,10 +142,10 @@ def minimum_zone(points, start):
     v[5] = 0.5 * (d.max() - d.min())
     g = np.zeros(6)
     g[5] = 1.0
+    width_bound = {"type": "ineq", "fun": lambda v: zone_constraints(points, v, None)[0],
+                   "jac": lambda v: zone_constraints(points, v, None)[1]}
     result = minimize(lambda v: v[5], v, jac=lambda v: g, method="SLSQP",
-                      constraints=[{"type": "ineq", "fun": lambda v: zone_constraints(points, v, None)[0],
-                                    "jac": lambda v: zone_constraints(points, v, None)[1]}],
-                      options={"ftol": 1e-16, "maxiter": 1000})
+                      constraints=[width_bound], options={"ftol": 1e-16, "maxiter": 1000})
     d = distances(points, result.x)[0]
     return result.x, d.max() - d.min()
 
@@ -170,28 +170,31 @@ def least_squares_in_zone(points, start, width):
         g[4] = -2.0 * e.sum()
         return g
 
-    result = minimize(objective, v, jac=gradient, method="SLSQP",
-                      constraints=[{"type": "ineq", "fun": lambda v: zone_constraints(points, v, half)[0],
-                                    "jac": lambda v: zone_constraints(points, v, half)[1]}],
+    within = {"type": "ineq", "fun": lambda v: zone_constraints(points, v, half)[0],
+              "jac": lambda v: zone_constraints(points, v, half)[1]}
+    result = minimize(objective, v, jac=gradient, method="SLSQP", constraints=[within],
                       options={"ftol": 1e-18, "maxiter": 1000})
     return result.x
 
 
 def check_minimum_zone(case, points, name, failures):
-    corners = [minimum_zone(points, (-0.00125, sign * 6e-5, 0.010 / 40.0, 0.0)) for sign in (1.0, -1.0)]
+    corners = [minimum_zone(points, (-0.00125, sign * 6e-5, 0.010 / 40.0, 0.0))
+               for sign in (1.0, -1.0)]
     width = min(w for _, w in corners)
     chosen = [least_squares_in_zone(points, v, width + 1e-12) for v, _ in corners]
     tool_ends = [np.array(e) for e in case["ends"]]
     agree = max(np.linalg.norm(p - q) for p, q in zip(ends(chosen[0]), ends(chosen[1])))
     off = max(np.linalg.norm(p - q) for p, q in zip(ends(chosen[0]), tool_ends))
-    to_corner = max(max(np.linalg.norm(p - q) for p, q in zip(ends(v), tool_ends)) for v, _ in corners)
+    to_corner = max(max(np.linalg.norm(p - q) for p, q in zip(ends(v), tool_ends))
+                    for v, _ in corners)
     print("%s, minimum zone: reference width %.15f (corners %.3e apart in width), cylzone %.15f; "
           "least-squares choice %.2e mm from cylzone's axis (runs agree to %.1e), corners %.3e "
           "away, ambiguity %.3e"
           % (name, width, abs(corners[0][1] - corners[1][1]), case["form"], off, agree, to_corner,
              case["ambiguity"]))
     if abs(case["form"] - width) > 1e-9:
-        failures.append("%s: minimum-zone width %.15f, reference %.15f" % (name, case["form"], width))
+        failures.append("%s: minimum-zone width %.15f, reference %.15f"
+                        % (name, case["form"], width))
     if agree > 1e-8:
         failures.append("%s: the reference's least-squares choices differ by %.3e" % (name, agree))
     if off > 1e-7:
