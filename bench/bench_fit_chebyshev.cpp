@@ -15,7 +15,9 @@
 // A third bore times the exploration of flat optima: a bore bent in one plane (section centres
 // x = 0.010 (z/40)^2 mm over 40 mm, D10, 72 points per section at equal angles, as many
 // sections as the size allows, no noise), whose maximum-inscribed cylinder has two
-// mirror-image optima (tests/test_chebyshev_optimum.cpp), line "max-inscribed/bent".
+// mirror-image optima (tests/test_chebyshev_optimum.cpp), line "max-inscribed/bent", and whose
+// minimum zone is flat across the plane of the bend, so that the tie-break settles it (line
+// "minimum-zone/bent").
 //
 //   bench_fit_chebyshev [--sizes 1000,10000,...] [--runs N]
 #include <Eigen/Geometry>
@@ -141,6 +143,7 @@ int main(int argc, char** argv) {
        [](const Eigen::Matrix3Xd& p) { return cylzone::fit_cylinder_minimum_circumscribed(p); }, 0},
       {"max-inscribed/roll", inscribed, 1},
       {"max-inscribed/bent", inscribed, 2},
+      {"minimum-zone/bent", [](const Eigen::Matrix3Xd& p) { return cylzone::fit_cylinder_minimum_zone(p); }, 2},
   };
 
   std::printf("%9s  %-18s %10s %10s %10s %5s %10s  %s\n", "points", "method", "best ms",
