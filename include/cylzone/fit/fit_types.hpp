@@ -76,9 +76,10 @@ struct FitOptions {
   /// its contacts, walk the near-optimal set to measure how far the element can move, and
   /// explore flat optima for other, equally good or better, local optima (docs/chebyshev.md,
   /// "Non-unique optima"). Off, `ambiguity` stays 0 (not assessed) and the element is the
-  /// first optimum the descent reaches: the same as with it on whenever that optimum is proven
-  /// unique (the sharp optima of measured bores), possibly another of the equally good ones
-  /// otherwise. For repeated trials (Monte Carlo) that need the element only.
+  /// first optimum the descent reaches, without the tie-break among equally good ones (file
+  /// comment): the same as with it on whenever that optimum is proven unique (the sharp optima
+  /// of measured bores), possibly another of the equally good ones otherwise, depending on the
+  /// start. For repeated trials (Monte Carlo) that need the element only.
   bool assess_ambiguity = true;
   /// Threads a fit may run at once (core/threads.hpp); results do not depend on it.
   std::size_t threads = hardware_threads();
