@@ -93,17 +93,32 @@ FloorFit gauss_newton_floor(const Eigen::Matrix3Xd& p) {
   f.radius /= static_cast<double>(n);
   for (int iteration = 0; iteration < 50; ++iteration) {
     const Eigen::Vector3d u = f.direction.unitOrthogonal(), v = f.direction.cross(u);
-    Matrix5d jtj = Matrix5d::Zero();
-    Vector5d jtd = Vector5d::Zero();
-    for (Eigen::Index i = 0; i < n; ++i) {
-      const Eigen::Vector3d d = p.col(i) - f.point;
-      const double x = d.dot(u), y = d.dot(v), z = d.dot(f.direction);
-      const double rho = std::sqrt(x * x + y * y);
-      Vector5d j;
-      j << -x / rho, -y / rho, -x * z / rho, -y * z / rho, -1.0;
-      jtj.noalias() += j * j.transpose();
-      jtd += j * (rho - f.radius);
+    // The 15 distinct sums of J^T J and the 5 of J^T d in plain scalars, one pass (the
+    // Jacobian row (-x/rho, -y/rho, -x z/rho, -y z/rho, -1) needs only a, b, z).
+    double s_aa = 0, s_ab = 0, s_bb = 0, s_aaz = 0, s_abz = 0, s_bbz = 0, s_aazz = 0, s_abzz = 0,
+           s_bbzz = 0, s_a = 0, s_b = 0, s_az = 0, s_bz = 0, t_a = 0, t_b = 0, t_az = 0, t_bz = 0,
+           t = 0;
+    const double* xyz = p.data();
+    for (Eigen::Index i = 0; i < n; ++i, xyz += 3) {
+      const double dx = xyz[0] - f.point.x(), dy = xyz[1] - f.point.y(), dz = xyz[2] - f.point.z();
+      const double x = dx * u.x() + dy * u.y() + dz * u.z();
+      const double y = dx * v.x() + dy * v.y() + dz * v.z();
+      const double z = dx * f.direction.x() + dy * f.direction.y() + dz * f.direction.z();
+      const double rho = std::sqrt(x * x + y * y), a = x / rho, b = y / rho, r = rho - f.radius;
+      s_aa += a * a, s_ab += a * b, s_bb += b * b;
+      s_aaz += a * a * z, s_abz += a * b * z, s_bbz += b * b * z;
+      s_aazz += a * a * z * z, s_abzz += a * b * z * z, s_bbzz += b * b * z * z;
+      s_a += a, s_b += b, s_az += a * z, s_bz += b * z;
+      t_a += a * r, t_b += b * r, t_az += a * z * r, t_bz += b * z * r, t += r;
     }
+    Matrix5d jtj;
+    jtj << s_aa, s_ab, s_aaz, s_abz, s_a,  //
+        s_ab, s_bb, s_abz, s_bbz, s_b,      //
+        s_aaz, s_abz, s_aazz, s_abzz, s_az,  //
+        s_abz, s_bbz, s_abzz, s_bbzz, s_bz,  //
+        s_a, s_b, s_az, s_bz, static_cast<double>(n);
+    Vector5d jtd;
+    jtd << -t_a, -t_b, -t_az, -t_bz, -t;
     const Vector5d step = -jtj.ldlt().solve(jtd);
     f.point += step(0) * u + step(1) * v;
     f.direction = (f.direction + step(2) * u + step(3) * v).normalized();
