@@ -15,7 +15,7 @@ namespace cylzone {
 namespace {
 
 /// Leaf size of the KD-tree: the screen's time is flat (within 5%) from 12 to 32 (measured).
-constexpr std::size_t leaf_points = 24;
+constexpr std::size_t leaf_points = 16;
 
 /// nanoflann dataset adaptor over the points of one slab (see Tree): the slab's own copy of
 /// its coordinates, 3 per point; a tree refers to them by their position in that copy.

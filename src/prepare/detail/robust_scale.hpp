@@ -41,20 +41,6 @@ inline double median_in_place(std::vector<double>& values) {
     std::copy(v, v + 8, values.begin());
     return 0.5 * (v[3] + v[4]);
   }
-  if (n <= 16) {
-    // Other small neighbourhoods: each value goes to its rank, counted without a branch, ties
-    // by position, so the sorted order is the one any sort gives.
-    double sorted[16];
-    for (std::size_t i = 0; i < n; ++i) {
-      std::size_t rank = 0;
-      for (std::size_t j = 0; j < n; ++j)
-        rank += static_cast<std::size_t>(values[j] < values[i]) +
-                static_cast<std::size_t>(values[j] == values[i] && j < i);
-      sorted[rank] = values[i];
-    }
-    std::copy(sorted, sorted + n, values.begin());
-    return n % 2 == 1 ? values[n / 2] : 0.5 * (values[n / 2 - 1] + values[n / 2]);
-  }
   if (n <= 32) {
     // A neighbourhood: insertion sort is cheaper than selection at this size.
     for (std::size_t i = 1; i < n; ++i)
