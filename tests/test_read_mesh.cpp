@@ -732,6 +732,10 @@ TEST_CASE("hostile meshes are refused before anything is allocated or handed on"
        "ply\nformat ascii 1.0\nelement junk " + huge + "\nelement vertex 1\nproperty float x\n"
        "property float y\nproperty float z\nend_header\n1 2 3\n",
        3, "PLY element 'junk' declares 18446744073709551615 items but no properties"},
+      {"empty-element-cloud.ply",
+       "ply\nformat binary_little_endian 1.0\nelement junk 0\nelement vertex 1\n" + xyz_double +
+           "property double w\nend_header\n" + le_double_bytes({1, 2}),
+       0, "binary little-endian PLY data ends in vertex 1 of 1 (truncated?)"},
       {"empty-element-binary.ply",
        "ply\nformat binary_little_endian 1.0\nelement junk " + huge + "\nelement vertex 1\n" + xyz_double +
            "end_header\n" + le_double_bytes({1, 2, 3}),

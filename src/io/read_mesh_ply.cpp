@@ -359,8 +359,9 @@ void copy_fixed_binary(std::string_view bytes, const PlyHeader& header,
           }
       stride += ply_size(element.properties[k].type);
     }
+    if (stride == 0) continue;  // no properties: the count bound above allowed only 0 items
     const std::size_t remaining = bytes.size() - at;
-    if (element.count > remaining / stride) {  // stride > 0: the count bound refused empty items
+    if (element.count > remaining / stride) {
       const std::size_t index = remaining / stride;
       throw InputError(source, 0,
                        kind + " data ends in " + element.name + " " + std::to_string(index + 1) +
