@@ -3,6 +3,8 @@
 // geometry for frames and sign rules.
 #include <catch2/catch.hpp>
 
+#include <Eigen/QR>
+
 #include <Eigen/Geometry>
 #include <algorithm>
 #include <cmath>
@@ -227,6 +229,40 @@ TEST_CASE("normal_matrix_is_singular", "[fit_support]") {
   m = Eigen::Matrix3d::Identity();
   m(1, 1) = 0.0;
   CHECK(detail::normal_matrix_is_singular(m));
+}
+
+TEST_CASE("normal_matrix_is_singular decides by the eigenvalue ratio at every conditioning",
+          "[fit_support]") {
+  // The rule: singular when lambda_min < 1e-14 lambda_max of the Jacobi-scaled matrix. A
+  // well-conditioned matrix is recognised by a Cholesky bound first; the decision must be the
+  // eigenvalues' own on either side of the threshold. Matrices Q diag(lambda) Q^T with known
+  // eigenvalues (a random orthogonal Q, then rows and columns scaled, which Jacobi scaling
+  // undoes up to the change of eigenvalues that the unit-diagonal matrix itself shows).
+  std::mt19937_64 rng(5);
+  std::normal_distribution<double> normal(0.0, 1.0);
+  for (const double ratio : {1.0, 1e-3, 1e-8, 1e-11, 1e-12, 1e-13, 1e-15, 1e-16, 0.0}) {
+    for (int trial = 0; trial < 20; ++trial) {
+      INFO("ratio " << ratio << ", trial " << trial);
+      Eigen::Matrix<double, 5, 5> g;
+      for (int k = 0; k < 25; ++k) g(k) = normal(rng);
+      const Eigen::Matrix<double, 5, 5> q = Eigen::HouseholderQR<Eigen::Matrix<double, 5, 5>>(g).householderQ();
+      Eigen::Matrix<double, 5, 1> lambda;
+      lambda << 1.0, 0.7, 0.4, 0.2, ratio;
+      Eigen::Matrix<double, 5, 5> m = q * lambda.asDiagonal() * q.transpose();
+      // The rule as stated, on the scaled matrix, by Eigen's eigenvalues (the reference).
+      const Eigen::Matrix<double, 5, 1> s = m.diagonal().cwiseSqrt().cwiseInverse();
+      const Eigen::Matrix<double, 5, 5> scaled = s.asDiagonal() * m * s.asDiagonal();
+      const Eigen::Matrix<double, 5, 1> e =
+          Eigen::SelfAdjointEigenSolver<Eigen::Matrix<double, 5, 5>>(scaled).eigenvalues();
+      const bool expected = !(e(0) > 1e-14 * e(4));
+      CHECK(detail::normal_matrix_is_singular(m) == expected);
+      Eigen::Matrix<double, 5, 1> units;
+      units << 1e-3, 1.0, 1e4, 1e-6, 10.0;  // mixed parameter units
+      CHECK(detail::normal_matrix_is_singular(Eigen::Matrix<double, 5, 5>(units.asDiagonal() * m * units.asDiagonal())) == expected);
+      if (ratio >= 1e-11) CHECK_FALSE(expected);
+      if (ratio <= 1e-16) CHECK(expected);
+    }
+  }
 }
 
 TEST_CASE("gauss_newton solves a small nonlinear problem and reports the iteration limit",

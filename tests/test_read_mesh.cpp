@@ -286,24 +286,27 @@ TEST_CASE("ASCII PLY keeps double precision, with and without normals and faces"
     }
 }
 
-TEST_CASE("binary PLY: double and float, both byte orders", "[read][mesh]") {
+TEST_CASE("binary PLY: double and float, both byte orders, mesh or cloud", "[read][mesh]") {
+  // With faces the file goes through the structure scan and OpenMesh; without (a cloud, no list
+  // property) the scan copies the values straight from the bytes: the same values either way.
   TemporaryFolder folder("read-mesh");
   const Cloud cloud = random_cloud(24, 2);
   for (const PlyEncoding encoding : {PlyEncoding::little_endian, PlyEncoding::big_endian})
     for (const bool doubles : {true, false})
-      for (const bool normals : {false, true}) {
-        INFO("big endian " << (encoding == PlyEncoding::big_endian) << ", doubles " << doubles
-                           << ", normals " << normals);
-        const fs::path file = folder.write("scan.ply", write_ply(cloud, normals, encoding, doubles, true));
-        const PointCloud read = cylzone::read_points(file);
-        REQUIRE(read.size() == 24);
-        CHECK(read.points == (doubles ? cloud.points : as_floats(cloud.points)));
-        REQUIRE(read.has_vectors() == normals);
-        if (normals) {
-          const Eigen::Matrix3Xd written = doubles ? cloud.normals : as_floats(cloud.normals);
-          CHECK(max_relative_difference(read.vectors, normalised(written)) <= 4e-16);
+      for (const bool normals : {false, true})
+        for (const bool faces : {true, false}) {
+          INFO("big endian " << (encoding == PlyEncoding::big_endian) << ", doubles " << doubles
+                             << ", normals " << normals << ", faces " << faces);
+          const fs::path file = folder.write("scan.ply", write_ply(cloud, normals, encoding, doubles, faces));
+          const PointCloud read = cylzone::read_points(file);
+          REQUIRE(read.size() == 24);
+          CHECK(read.points == (doubles ? cloud.points : as_floats(cloud.points)));
+          REQUIRE(read.has_vectors() == normals);
+          if (normals) {
+            const Eigen::Matrix3Xd written = doubles ? cloud.normals : as_floats(cloud.normals);
+            CHECK(max_relative_difference(read.vectors, normalised(written)) <= 4e-16);
+          }
         }
-      }
 }
 
 TEST_CASE("a vertex-only PLY cloud (no face element) loads", "[read][mesh]") {
@@ -315,6 +318,65 @@ TEST_CASE("a vertex-only PLY cloud (no face element) loads", "[read][mesh]") {
   CHECK(read.size() == 1000);
   CHECK(read.points == as_floats(cloud.points));
   CHECK_FALSE(read.has_vectors());
+}
+
+TEST_CASE("binary PLY clouds (no faces): any property order, read exactly from the bytes", "[read][mesh]") {
+  // Turk's PLY description: binary items are the properties' values in declaration order, in
+  // the declared byte order; properties may come in any order and elements before the vertex
+  // element are skipped. A cloud has no list property, so it takes the fixed-record path, here
+  // with a vertex element whose roles are shuffled among extra values of other types.
+  TemporaryFolder folder("read-mesh");
+  const Cloud cloud = random_cloud(37, 5);
+  for (const bool big : {false, true}) {
+    INFO("big endian " << big);
+    // Roles shuffled, mixed float and double, an element before and one after the vertices.
+    std::string bytes = std::string("ply\nformat ") +
+                        (big ? "binary_big_endian" : "binary_little_endian") +
+                        " 1.0\nelement camera 2\nproperty short id\nproperty float zoom\n"
+                        "element vertex 37\nproperty uchar q\nproperty double nz\n"
+                        "property float z\nproperty int w\nproperty double x\nproperty float nx\n"
+                        "property double y\nproperty double ny\nelement tag 1\nproperty uint t\n"
+                        "end_header\n";
+    for (int c = 0; c < 2; ++c) {
+      put_binary(bytes, static_cast<std::int16_t>(c), big);
+      put_binary(bytes, 1.5f, big);
+    }
+    for (int i = 0; i < 37; ++i) {
+      put_binary(bytes, static_cast<std::uint8_t>(i), big);
+      put_binary(bytes, cloud.normals(2, i), big);
+      put_binary(bytes, static_cast<float>(cloud.points(2, i)), big);
+      put_binary(bytes, static_cast<std::int32_t>(-i), big);
+      put_binary(bytes, cloud.points(0, i), big);
+      put_binary(bytes, static_cast<float>(cloud.normals(0, i)), big);
+      put_binary(bytes, cloud.points(1, i), big);
+      put_binary(bytes, cloud.normals(1, i), big);
+    }
+    put_binary(bytes, static_cast<std::uint32_t>(9), big);
+    const PointCloud read = cylzone::read_points(folder.write("shuffled.ply", bytes));
+    Eigen::Matrix3Xd points = cloud.points, normals = cloud.normals;
+    points.row(2) = as_floats(cloud.points).row(2);
+    normals.row(0) = as_floats(cloud.normals).row(0);
+    REQUIRE(read.size() == 37);
+    CHECK(read.points == points);
+    REQUIRE(read.has_vectors());
+    CHECK(max_relative_difference(read.vectors, normalised(normals)) <= 4e-16);
+    // Cut short in the element after the vertices, in the vertices, and in the element before
+    // (there the count bound of the header, line 6, refuses the vertices before any walk).
+    const std::size_t data = bytes.find("end_header\n") + 11;
+    const std::string kind = big ? "binary big-endian PLY" : "binary little-endian PLY";
+    struct Cut {
+      std::size_t size, line;
+      std::string problem;
+    };
+    for (const Cut& cut :
+         {Cut{bytes.size() - 1, 0, kind + " data ends in tag 1 of 1 (truncated?)"},
+          Cut{data + 12 + 36 * 45 + 44, 0, kind + " data ends in vertex 37 of 37 (truncated?)"},
+          Cut{data + 12 + 29 * 45 + 3, 0, kind + " data ends in vertex 30 of 37 (truncated?)"},
+          Cut{data + 7, 6, "PLY header declares 37 vertices but only 7 bytes of data follow"}}) {
+      const fs::path file = folder.write("cut.ply", bytes.substr(0, cut.size));
+      expect_input_error([&] { cylzone::read_points(file); }, file.string(), cut.line, cut.problem);
+    }
+  }
 }
 
 TEST_CASE("fixture: hand-written ASCII PLY cloud with normals", "[read][mesh]") {
@@ -670,6 +732,10 @@ TEST_CASE("hostile meshes are refused before anything is allocated or handed on"
        "ply\nformat ascii 1.0\nelement junk " + huge + "\nelement vertex 1\nproperty float x\n"
        "property float y\nproperty float z\nend_header\n1 2 3\n",
        3, "PLY element 'junk' declares 18446744073709551615 items but no properties"},
+      {"empty-element-cloud.ply",
+       "ply\nformat binary_little_endian 1.0\nelement junk 0\nelement vertex 1\n" + xyz_double +
+           "property double w\nend_header\n" + le_double_bytes({1, 2}),
+       0, "binary little-endian PLY data ends in vertex 1 of 1 (truncated?)"},
       {"empty-element-binary.ply",
        "ply\nformat binary_little_endian 1.0\nelement junk " + huge + "\nelement vertex 1\n" + xyz_double +
            "end_header\n" + le_double_bytes({1, 2, 3}),

@@ -35,6 +35,7 @@
 #include "cylzone/core/errors.hpp"
 #include "cylzone/fit/fit_cylinder.hpp"
 #include "cylzone/fit/fit_plane.hpp"
+#include "cylzone/prepare/neighbour_index.hpp"
 #include "cylzone/prepare/stray_points.hpp"
 #include "case_file.hpp"
 #include "datum_inputs.hpp"
@@ -249,6 +250,100 @@ TEST_CASE("the criterion on small sets by hand: ties go to the lower index, self
     CHECK(report.points[2].index == 5);
     CHECK(report.points[1].excess == Approx(-5.0 * um).margin(1e-15));
   }
+}
+
+TEST_CASE("the neighbour index of a large cloud finds the brute-force neighbours, ties included",
+          "[stray_points][neighbour_index]") {
+  // A large cloud is indexed in slabs, one tree each (neighbour_index.hpp); the neighbours must
+  // still be the k nearest of the whole cloud in (distance, index) order, so they are compared
+  // with an exhaustive search by that definition. An integer grid makes exact distance ties
+  // everywhere (6 neighbours at distance 1, 12 at sqrt 2, ...), across the slab cuts too; the
+  // grid is shifted off the origin and stored in a scrambled order so index order and space
+  // order differ.
+  const int nx = 90, ny = 72, nz = 64;  // 414,720 points: several slabs along x
+  const std::size_t n = static_cast<std::size_t>(nx) * ny * nz;
+  std::vector<std::uint32_t> slot(n);
+  for (std::size_t i = 0; i < n; ++i) slot[i] = static_cast<std::uint32_t>(i);
+  std::shuffle(slot.begin(), slot.end(), std::mt19937_64(41));
+  Eigen::Matrix3Xd points(3, static_cast<Eigen::Index>(n));
+  for (std::size_t g = 0; g < n; ++g) {
+    const std::size_t x = g % nx, y = (g / nx) % ny, z = g / (static_cast<std::size_t>(nx) * ny);
+    points.col(slot[g]) = Eigen::Vector3d(250.0 + static_cast<double>(x), -75.0 + static_cast<double>(y),
+                                          12.0 + static_cast<double>(z));
+  }
+  const std::size_t k = 8;
+  const auto brute_force = [&](std::size_t i) {
+    std::vector<std::pair<double, std::uint32_t>> all;
+    all.reserve(n);
+    for (std::size_t j = 0; j < n; ++j)
+      if (j != i)
+        all.emplace_back((points.col(static_cast<Eigen::Index>(j)) - points.col(static_cast<Eigen::Index>(i))).squaredNorm(),
+                         static_cast<std::uint32_t>(j));
+    std::partial_sort(all.begin(), all.begin() + static_cast<std::ptrdiff_t>(k), all.end());
+    std::vector<std::uint32_t> nearest;
+    for (std::size_t m = 0; m < k; ++m) nearest.push_back(all[m].second);
+    return nearest;
+  };
+  const NeighbourIndex serial(points, 1), parallel(points, 2);
+  NeighbourIndex::Query a(k), b(k);
+  // Every x column near any possible cut is sampled through random points; plus corners.
+  std::mt19937_64 rng(43);
+  std::vector<std::size_t> samples = {slot[0], slot[n - 1], slot[nx - 1]};
+  for (int s = 0; s < 240; ++s) samples.push_back(static_cast<std::size_t>(rng() % n));
+  for (const std::size_t i : samples) {
+    INFO("point " << i << " at " << points.col(static_cast<Eigen::Index>(i)).transpose());
+    const std::vector<std::uint32_t> expected = brute_force(i);
+    CHECK(a.of_point(serial, i) == expected);
+    CHECK(b.of_point(parallel, i) == expected);
+  }
+  // The locality order visits every point once.
+  std::vector<std::uint32_t> order = serial.locality_order();
+  CHECK(order == parallel.locality_order());
+  std::sort(order.begin(), order.end());
+  bool permutation = order.size() == n;
+  for (std::size_t i = 0; permutation && i < n; ++i) permutation = order[i] == i;
+  CHECK(permutation);
+}
+
+TEST_CASE("the screen of a large scanned bore is the same on one and on two threads",
+          "[stray_points][neighbour_index]") {
+  // Spikes of 20 um on a 300,000-point bore (several slabs of the index): the report must not
+  // depend on the thread count (the library's rule for every parallel loop), and the spikes are
+  // the points flagged (their excess is 20 um against 1 um noise; common practice).
+  const Axis axis = tilted_axis();
+  const Eigen::Vector3d u = axis.direction.unitOrthogonal(), v = axis.direction.cross(u);
+  const Eigen::Index n = 300000, per_row = 500;
+  std::mt19937_64 rng(47);
+  std::normal_distribution<double> noise(0.0, 1.0 * um);
+  Eigen::Matrix3Xd points(3, n);
+  Eigen::VectorXd residuals(n);
+  for (Eigen::Index i = 0; i < n; ++i) {
+    const double angle = 2.0 * M_PI * static_cast<double>(i % per_row) / static_cast<double>(per_row);
+    residuals(i) = noise(rng);
+    points.col(i) = axis.point - 0.05 * static_cast<double>(i / per_row) * axis.direction +
+                    (6.0 + residuals(i)) * (std::cos(angle) * u + std::sin(angle) * v);
+  }
+  std::vector<std::size_t> spikes;
+  for (int s = 0; s < 6; ++s) {
+    const auto i = static_cast<Eigen::Index>((2 * s + 1) * n / 13);
+    residuals(i) += 20.0 * um;
+    spikes.push_back(static_cast<std::size_t>(i));
+  }
+  StrayPointOptions one, two;
+  one.threads = 1;
+  two.threads = 2;
+  const StrayPointReport a = find_stray_points(points, residuals, one);
+  const StrayPointReport b = find_stray_points(points, residuals, two);
+  CHECK(a.robust_scale == b.robust_scale);
+  REQUIRE(a.points.size() == b.points.size());
+  for (std::size_t j = 0; j < a.points.size(); ++j) {
+    CHECK(a.points[j].index == b.points[j].index);
+    CHECK(a.points[j].excess == b.points[j].excess);
+  }
+  std::vector<std::size_t> flagged;
+  for (const StrayPoint& p : a.points) flagged.push_back(p.index);
+  std::sort(flagged.begin(), flagged.end());
+  CHECK(flagged == spikes);
 }
 
 TEST_CASE("too few points and bad arguments", "[stray_points]") {

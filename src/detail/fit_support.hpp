@@ -198,6 +198,18 @@ bool normal_matrix_is_singular(const Eigen::MatrixBase<Derived>& jtj) {
   // Jacobi scaling makes the test independent of the parameters' units (lengths, angles).
   const auto scale = m.diagonal().cwiseSqrt().cwiseInverse().eval();
   const Matrix scaled = scale.asDiagonal() * m * scale.asDiagonal();
+  // The common, well-conditioned case without the eigenvalues (they cost more than the rest of
+  // a small fit's iteration): the scaled matrix has a unit diagonal, so lambda_max <= its trace
+  // (the size), and lambda_min = 1 / lambda_max(inverse) >= 1 / ||inverse||_F. When that bound
+  // clears the test by a factor 100 (far beyond the inverse's rounding at such a condition
+  // number), the eigenvalues would clear it too: same decision, found cheaply.
+  if (Matrix::RowsAtCompileTime != Eigen::Dynamic) {
+    const Eigen::LLT<Matrix> cholesky(scaled);
+    if (cholesky.info() == Eigen::Success) {
+      const double norm = cholesky.solve(Matrix::Identity(m.rows(), m.cols())).norm();
+      if (std::isfinite(norm) && 1.0 / norm > 1e-12 * static_cast<double>(m.rows())) return false;
+    }
+  }
   const Eigen::SelfAdjointEigenSolver<Matrix> eigen(scaled, Eigen::EigenvaluesOnly);
   const auto& lambda = eigen.eigenvalues();
   return !(lambda(0) > 1e-14 * lambda(lambda.size() - 1));

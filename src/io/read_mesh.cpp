@@ -12,6 +12,10 @@
 //  2. OpenMesh (read_mesh_openmesh.cpp), which reads the file as a whole (faces included) and
 //     reports failure. OFF is read by the scan alone: OpenMesh's OFF reader cannot take bytes
 //     from memory (its stream entry point reuses the header flags of the previous file read).
+//     So is a binary PLY without list properties (a cloud, no faces): every item has a fixed
+//     size, the scan checks the counts against the bytes exactly and copies the vertex values
+//     straight from the buffer (one memcpy for doubles x y z in machine byte order), where
+//     OpenMesh would only add a float copy to compare with.
 // The two must agree: same vertex count, and each scanned coordinate within float rounding of
 // OpenMesh's. The scan's doubles are returned where it has them; binary STL (float32 by
 // definition) comes from OpenMesh alone.
@@ -149,13 +153,15 @@ Eigen::Matrix3Xd unit_normals(const Eigen::Matrix3Xd& normals, const ScanResult&
   Eigen::Matrix3Xd unit(3, normals.cols());
   for (Eigen::Index i = 0; i < normals.cols(); ++i) {
     const Eigen::Vector3d v = normals.col(i);
-    const std::string item = scan.kind + " " + vertex_label(static_cast<std::size_t>(i));
+    // The vertex's name only when it is needed: a string per vertex would cost more than the
+    // rest of the loop.
+    const auto item = [&] { return scan.kind + " " + vertex_label(static_cast<std::size_t>(i)); };
     if (!v.allFinite())
-      throw InputError(source, line_of(scan, i), item + " has a NaN or infinite normal component");
+      throw InputError(source, line_of(scan, i), item() + " has a NaN or infinite normal component");
     // Scale by the largest component first so that tiny and huge normals normalise exactly.
     const double largest = v.cwiseAbs().maxCoeff();  // all finite: maxCoeff sees every value
     if (largest == 0.0)
-      throw InputError(source, line_of(scan, i), item + " has a zero-length normal (0 0 0)");
+      throw InputError(source, line_of(scan, i), item() + " has a zero-length normal (0 0 0)");
     const Eigen::Vector3d scaled = v / largest;
     unit.col(i) = scaled / scaled.norm();
   }
@@ -192,12 +198,14 @@ PointCloud read_mesh_unguarded(std::string_view content, PointFileFormat format,
       throw InputError(source, 0, "no points: the " + scan.kind + " has no vertices");
   }
   // Non-finite values first: they would otherwise show as a disagreement between the readers.
-  cloud.points = scan.points ? *scan.points : mesh.points;
-  for (Eigen::Index i = 0; i < cloud.points.cols(); ++i)
-    if (!cloud.points.col(i).allFinite())
-      throw InputError(source, line_of(scan, i),
-                       scan.kind + " " + vertex_label(static_cast<std::size_t>(i)) +
-                           " has a NaN or infinite coordinate");
+  cloud.points = scan.points ? std::move(*scan.points) : std::move(mesh.points);
+  // One vectorised pass for the common case; the column loop only to name the vertex.
+  if (!cloud.points.allFinite())
+    for (Eigen::Index i = 0; i < cloud.points.cols(); ++i)
+      if (!cloud.points.col(i).allFinite())
+        throw InputError(source, line_of(scan, i),
+                         scan.kind + " " + vertex_label(static_cast<std::size_t>(i)) +
+                             " has a NaN or infinite coordinate");
   if (scan.points && !scan.complete)
     check_agreement(cloud.points, mesh.points, scan, "coordinate", source);
 

@@ -12,11 +12,13 @@
 #include <cstring>
 #include <limits>
 #include <string>
+#include <type_traits>
 #include <utility>
 #include <vector>
 
 #include "cylzone/core/errors.hpp"
 #include "io/detail/mesh_scan.hpp"
+#include "io/detail/page_hints.hpp"
 #include "io/detail/text_parsing.hpp"
 
 namespace cylzone::detail {
@@ -279,6 +281,127 @@ std::size_t min_item_bytes(const PlyElement& element, PlyEncoding encoding) {
   return element.properties.size() * (encoding == PlyEncoding::ascii ? 2 : 1);
 }
 
+/// Loads one binary value of type T stored in `swap`ped byte order (memcpy: the bytes need not
+/// be aligned).
+template <class T, bool Swap>
+inline double load_binary(const unsigned char* p) {
+  if constexpr (!Swap) {
+    T v;
+    std::memcpy(&v, p, sizeof v);
+    return static_cast<double>(v);
+  } else {
+    static_assert(sizeof(T) == 4 || sizeof(T) == 8);
+    using Bits = std::conditional_t<sizeof(T) == 8, std::uint64_t, std::uint32_t>;
+    Bits bits;
+    std::memcpy(&bits, p, sizeof bits);
+    if constexpr (sizeof(T) == 8) bits = __builtin_bswap64(bits);
+    else bits = __builtin_bswap32(bits);
+    T v;
+    std::memcpy(&v, &bits, sizeof v);
+    return static_cast<double>(v);
+  }
+}
+
+/// The vertex roles of a record of fixed size: byte offset of each used role inside the record.
+struct FixedRecord {
+  std::size_t stride = 0;
+  int roles = 3;                 ///< 3 (x y z) or 6 (with nx ny nz)
+  std::array<std::size_t, 6> offset{};
+  std::array<PlyScalar, 6> type{};
+};
+
+/// Strided copy of every vertex's roles when they all have the type T: one pass over the
+/// records, the role loop unrolled by the compiler.
+template <class T, bool Swap, int Roles>
+void copy_records(const unsigned char* data, std::size_t count, const FixedRecord& record,
+                  double* points, double* normals) {
+  std::array<std::size_t, Roles> offset;
+  for (int r = 0; r < Roles; ++r) offset[static_cast<std::size_t>(r)] = record.offset[static_cast<std::size_t>(r)];
+  const std::size_t stride = record.stride;
+  for (std::size_t i = 0; i < count; ++i, data += stride) {
+    for (int r = 0; r < 3; ++r) points[3 * i + static_cast<std::size_t>(r)] = load_binary<T, Swap>(data + offset[static_cast<std::size_t>(r)]);
+    if constexpr (Roles == 6)
+      for (int r = 0; r < 3; ++r)
+        normals[3 * i + static_cast<std::size_t>(r)] = load_binary<T, Swap>(data + offset[static_cast<std::size_t>(r) + 3]);
+  }
+}
+
+template <class T, bool Swap>
+void copy_records_of(const unsigned char* data, std::size_t count, const FixedRecord& record,
+                     double* points, double* normals) {
+  if (record.roles == 6) copy_records<T, Swap, 6>(data, count, record, points, normals);
+  else copy_records<T, Swap, 3>(data, count, record, points, normals);
+}
+
+/// Binary PLY whose elements hold scalar properties only (a cloud: without a list property
+/// there are no faces). Every item of an element then has the same size, so each element's
+/// extent is known from the header: the counts are checked against the bytes exactly (the
+/// message names the item where the bytes run out, as the walk does) and the vertex roles are
+/// copied straight from the buffer. A file of doubles x y z in the machine's byte order is one
+/// memcpy.
+void copy_fixed_binary(std::string_view bytes, const PlyHeader& header,
+                       const PlyVertexLayout& layout, bool swap, const std::string& kind,
+                       const std::string& source, Eigen::Matrix3Xd& points,
+                       Eigen::Matrix3Xd& normals) {
+  const auto* const begin = reinterpret_cast<const unsigned char*>(bytes.data());
+  std::size_t at = header.data_offset;
+  const unsigned char* vertex_data = nullptr;
+  FixedRecord record;
+  for (std::size_t e = 0; e < header.elements.size(); ++e) {
+    const PlyElement& element = header.elements[e];
+    std::size_t stride = 0;
+    for (std::size_t k = 0; k < element.properties.size(); ++k) {
+      if (e == layout.element)
+        for (int role = 0; role < 6; ++role)
+          if (layout.property_of_role[static_cast<std::size_t>(role)] == static_cast<int>(k)) {
+            record.offset[static_cast<std::size_t>(role)] = stride;
+            record.type[static_cast<std::size_t>(role)] = element.properties[k].type;
+          }
+      stride += ply_size(element.properties[k].type);
+    }
+    if (stride == 0) continue;  // no properties: the count bound above allowed only 0 items
+    const std::size_t remaining = bytes.size() - at;
+    if (element.count > remaining / stride) {
+      const std::size_t index = remaining / stride;
+      throw InputError(source, 0,
+                       kind + " data ends in " + element.name + " " + std::to_string(index + 1) +
+                           " of " + std::to_string(element.count) + " (truncated?)");
+    }
+    if (e == layout.element) {
+      vertex_data = begin + at;
+      record.stride = stride;
+    }
+    at += element.count * stride;
+  }
+  record.roles = layout.has_normals ? 6 : 3;
+  const std::size_t count = static_cast<std::size_t>(points.cols());
+  double* const p = points.data();
+  double* const n = layout.has_normals ? normals.data() : nullptr;
+  const bool all_double = std::all_of(record.type.begin(), record.type.begin() + record.roles,
+                                      [](PlyScalar t) { return t == PlyScalar::float64; });
+  const bool all_float = std::all_of(record.type.begin(), record.type.begin() + record.roles,
+                                     [](PlyScalar t) { return t == PlyScalar::float32; });
+  if (all_double && !swap && record.roles == 3 && record.stride == 24 && record.offset[0] == 0 &&
+      record.offset[1] == 8 && record.offset[2] == 16) {
+    std::memcpy(p, vertex_data, 24 * count);  // the layout of Matrix3Xd: x y z per column
+  } else if (all_double) {
+    swap ? copy_records_of<double, true>(vertex_data, count, record, p, n)
+         : copy_records_of<double, false>(vertex_data, count, record, p, n);
+  } else if (all_float) {
+    swap ? copy_records_of<float, true>(vertex_data, count, record, p, n)
+         : copy_records_of<float, false>(vertex_data, count, record, p, n);
+  } else {  // mixed float and double roles: per value
+    for (std::size_t i = 0; i < count; ++i) {
+      const unsigned char* item = vertex_data + i * record.stride;
+      for (int role = 0; role < record.roles; ++role) {
+        const auto r = static_cast<std::size_t>(role);
+        const double value = read_ply_scalar(item + record.offset[r], record.type[r], swap);
+        (role < 3 ? p : n)[3 * i + r % 3] = value;
+      }
+    }
+  }
+}
+
 }  // namespace
 
 ScanResult scan_ply(std::string_view bytes, const std::string& source) {
@@ -291,11 +414,14 @@ ScanResult scan_ply(std::string_view bytes, const std::string& source) {
               : header.encoding == PlyEncoding::little_endian ? "binary little-endian PLY"
                                                               : "binary big-endian PLY";
   if (vertex.count == 0) throw InputError(source, 0, "no points: the PLY header declares 0 vertices");
+  bool has_list = false;
   for (const PlyElement& element : header.elements)
-    for (const PlyProperty& property : element.properties)
+    for (const PlyProperty& property : element.properties) {
+      has_list = has_list || property.is_list;
       if (property.is_list && element.name != "face")
         scan.openmesh_limits =
             " (OpenMesh's PLY reader supports list properties only in the face element)";
+    }
 
   // Bound every declared count by what the bytes can hold before allocating or looping for it.
   // An element without properties takes no bytes, so nothing bounds its count: refused.
@@ -318,8 +444,12 @@ ScanResult scan_ply(std::string_view bytes, const std::string& source) {
   }
 
   Eigen::Matrix3Xd points(3, static_cast<Eigen::Index>(vertex.count));
+  prefer_huge_pages(points.data(), sizeof(double) * 3 * vertex.count);
   Eigen::Matrix3Xd normals;
-  if (layout.has_normals) normals.resize(3, static_cast<Eigen::Index>(vertex.count));
+  if (layout.has_normals) {
+    normals.resize(3, static_cast<Eigen::Index>(vertex.count));
+    prefer_huge_pages(normals.data(), sizeof(double) * 3 * vertex.count);
+  }
   const int roles = layout.has_normals ? 6 : 3;
   std::vector<int> role_lookup(vertex.properties.size(), -1);
   for (int role = 0; role < roles; ++role)
@@ -387,6 +517,14 @@ ScanResult scan_ply(std::string_view bytes, const std::string& source) {
 #else
     const bool swap = file_big;
 #endif
+    if (!has_list) {
+      // A cloud: the scan reads it whole and exactly, OpenMesh (float only) would add nothing.
+      copy_fixed_binary(bytes, header, layout, swap, scan.kind, source, points, normals);
+      scan.complete = true;
+      scan.points = std::move(points);
+      if (layout.has_normals) scan.normals = std::move(normals);
+      return scan;
+    }
     const auto* p = reinterpret_cast<const unsigned char*>(bytes.data()) + header.data_offset;
     const auto* const end = reinterpret_cast<const unsigned char*>(bytes.data()) + bytes.size();
     const auto truncated = [&](std::size_t element, std::size_t index) {

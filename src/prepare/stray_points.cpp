@@ -71,7 +71,7 @@ StrayPointReport find_stray_points(const Eigen::Matrix3Xd& points, const Eigen::
   const std::size_t k = options.neighbours;
   if (static_cast<std::size_t>(n) <= k) return report;  // fewer than k + 1 points
 
-  const NeighbourIndex index(points);
+  const NeighbourIndex index(points, options.threads);
   std::vector<double> excess(static_cast<std::size_t>(n));
   // Points are visited in the tree's own order (its index permutation, leaf by leaf), so
   // consecutive queries touch the same nodes whatever the input order: a shuffled cloud of 10^6

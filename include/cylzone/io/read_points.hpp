@@ -31,7 +31,8 @@ struct ReadOptions {
 /// vn when every vertex gets one) the vectors; STL has facet normals only and gives no vectors.
 /// Coordinates keep double precision in PLY (any encoding), OBJ, ASCII OFF and ASCII STL; binary
 /// STL and binary OFF (machine byte order) hold float32. PLY, OBJ and STL are read by a strict
-/// structure scan and by OpenMesh, which must agree; OFF by the structure scan alone. Declared
+/// structure scan and by OpenMesh, which must agree; OFF and binary PLY clouds (no list
+/// properties, hence no faces) by the structure scan alone. Declared
 /// counts the file cannot hold are refused before anything is allocated for them.
 ///
 /// read_points is load() then parse_points() (load.hpp): the file is read once.

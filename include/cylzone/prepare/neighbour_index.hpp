@@ -18,9 +18,14 @@ namespace cylzone {
 
 class NeighbourIndex {
  public:
-  /// Indexes the columns of `points` (3 x n, finite, n < 2^32) in place, without copying them:
-  /// `points` must stay alive and unchanged while the index is used. O(n log n).
-  explicit NeighbourIndex(const Eigen::Matrix3Xd& points);
+  /// Indexes the columns of `points` (3 x n, finite, n < 2^32): the trees keep a copy of the
+  /// coordinates in their own order (a leaf's points adjacent in memory, whatever the input
+  /// order; 24 bytes per point), and queries read their point from `points`, which must stay
+  /// alive and unchanged while the index is used. O(n log n). A large cloud
+  /// is cut into slabs along its longest extent, one tree each, built on up to `threads`
+  /// threads (src/detail/parallel.hpp); the slabs depend on the data alone and the neighbours
+  /// found do not depend on them at all.
+  explicit NeighbourIndex(const Eigen::Matrix3Xd& points, std::size_t threads = 1);
   ~NeighbourIndex();
   NeighbourIndex(NeighbourIndex&&) noexcept;
   NeighbourIndex(const NeighbourIndex&) = delete;

@@ -27,7 +27,7 @@
 /// with the scale taken over all points, so a smooth, spike-free surface sets it.
 ///
 /// The neighbours are found with a KD-tree (Bentley, Commun. ACM 18 (1975) 509-517; see
-/// NeighbourIndex), built over the caller's matrix without copying it: O(n log n) in all.
+/// NeighbourIndex), built once per screen: O(n log n) in all.
 
 #include <Eigen/Core>
 #include <cstddef>

@@ -26,7 +26,8 @@ struct ScanResult {
   std::vector<std::size_t> vertex_lines;    ///< line of each vertex in text formats, else empty
   bool binary_stl = false;
   /// True when the scan read every vertex itself and OpenMesh is not asked (OFF: OpenMesh's OFF
-  /// reader cannot read from memory).
+  /// reader cannot read from memory; a binary PLY cloud without list properties, hence without
+  /// faces: copied straight from the bytes, exactly, where OpenMesh would read floats).
   bool complete = false;
   std::string kind;  ///< e.g. "binary little-endian PLY", for messages
   /// Added to a message when OpenMesh misreads a file the scan understood: the known limits of
