@@ -189,12 +189,12 @@ json sampling_json(const SamplingCoverage& s, const ReportUnits& u) {
                              {"bottom", u.length(s.extrapolation_bottom)}}},
           {"magnification", s.magnification ? json(*s.magnification) : json(nullptr)},
           {"section_count", s.sections.size()},
-          {"section_points", {{"min", s.section_points_min},
-                              {"median", s.section_points_median}}},
+          {"section_points_min", s.section_points_min},
+          {"section_points_median", s.section_points_median},
           {"sparse_sections", s.sparse_sections},
-          {"coverage_deg", {{"overall", s.coverage_deg},
-                            {"worst_section", s.worst_section_coverage_deg},
-                            {"worst_section_z", u.length(s.worst_section_height)}}},
+          {"coverage_deg", s.coverage_deg},
+          {"worst_section_coverage_deg", s.worst_section_coverage_deg},
+          {"worst_section_z", u.length(s.worst_section_height)},
           {"sections", sections},
           {"thresholds", {{"min_section_points", s.thresholds.min_section_points},
                           {"min_coverage_deg", s.thresholds.min_coverage_deg},
@@ -758,14 +758,12 @@ ReportModel read_report_json(std::string_view bytes, const std::string& source) 
       c.extrapolation_top = mm(beyond, sp + ".extrapolation", "top");
       c.extrapolation_bottom = mm(beyond, sp + ".extrapolation", "bottom");
       c.magnification = in.number_or_null(so, sp, "magnification");
-      const json& points = in.key(so, sp, "section_points");
-      c.section_points_min = in.count(points, sp + ".section_points", "min");
-      c.section_points_median = in.number(points, sp + ".section_points", "median");
+      c.section_points_min = in.count(so, sp, "section_points_min");
+      c.section_points_median = in.number(so, sp, "section_points_median");
       c.sparse_sections = in.count(so, sp, "sparse_sections");
-      const json& coverage = in.key(so, sp, "coverage_deg");
-      c.coverage_deg = in.number(coverage, sp + ".coverage_deg", "overall");
-      c.worst_section_coverage_deg = in.number(coverage, sp + ".coverage_deg", "worst_section");
-      c.worst_section_height = mm(coverage, sp + ".coverage_deg", "worst_section_z");
+      c.coverage_deg = in.number(so, sp, "coverage_deg");
+      c.worst_section_coverage_deg = in.number(so, sp, "worst_section_coverage_deg");
+      c.worst_section_height = mm(so, sp, "worst_section_z");
       const json& sections = in.array(so, sp, "sections");
       for (std::size_t s = 0; s < sections.size(); ++s) {
         const std::string at = sp + ".sections[" + std::to_string(s) + "]";

@@ -198,7 +198,7 @@ std::string joined(const std::vector<std::string>& texts) {
 
 /// One line per evaluated bore: the probed span against the evaluated range, the extrapolation
 /// at each end, the factor a tilt error grows by over the range, the sections, points per
-/// section and the angular coverage (evaluate/sampling_coverage.hpp). At most 100 columns.
+/// section and the angular coverage (evaluate/sampling_coverage.hpp). Under 120 columns.
 void sampling_lines(std::ostream& out, const ReportModel& m, std::size_t bore_w,
                     const Symbols& sym, Shortener& shorten) {
   const ReportUnits& u = m.units;
@@ -206,21 +206,21 @@ void sampling_lines(std::ostream& out, const ReportModel& m, std::size_t bore_w,
   out << "\nSampling (probed span against the evaluated range; x tilt: how many times the range "
          "magnifies\nan error in the fitted tilt; coverage: largest arc about the axis, all "
          "points / worst section)\n";
-  out << pad("bore", bore_w) << pad_left("probed", 9) << pad_left("evaluated", 11)
-      << pad_left("beyond top / bottom", 21) << pad_left("x tilt", 8) << pad_left("sections", 10)
-      << pad_left("points min / median", 21) << pad_left("coverage", 19) << '\n';
+  out << pad("bore", bore_w) << pad_left("probed", 8) << pad_left("evaluated", 11)
+      << pad_left("beyond top/bottom", 19) << pad_left("x tilt", 8) << pad_left("sections", 10)
+      << pad_left("points min/median", 19) << pad_left("coverage", 19) << '\n';
   for (const BoreSummary& b : m.bores) {
     if (!b.sampling) continue;
     const SamplingCoverage& s = *b.sampling;
     out << pad(shorten(b.id, feature_cap), bore_w)
-        << pad_left(length(s.span()), 9) << pad_left(length(s.range_top - s.range_bottom), 11)
-        << pad_left(length(s.extrapolation_top) + " / " + length(s.extrapolation_bottom), 21)
+        << pad_left(length(s.span()), 8) << pad_left(length(s.range_top - s.range_bottom), 11)
+        << pad_left(length(s.extrapolation_top) + " / " + length(s.extrapolation_bottom), 19)
         << pad_left(s.magnification ? ReportUnits::fixed(*s.magnification, 2) : sym.none, 8)
         << pad_left(std::to_string(s.sections.size()), 10)
         << pad_left(std::to_string(s.section_points_min) + " / " +
                         ReportUnits::fixed(s.section_points_median,
                                            s.section_points_median == std::floor(s.section_points_median) ? 0 : 1),
-                    21)
+                    19)
         << pad_left(ReportUnits::fixed(s.coverage_deg, 0) + sym.degree + " / " +
                         ReportUnits::fixed(s.worst_section_coverage_deg, 0) + sym.degree,
                     19)
