@@ -17,6 +17,10 @@ namespace {
 
 std::string mm(double value) { return detail::format_number(value, 4); }
 
+/// Coverages (degrees) this close count as equal when the worst section is named: far above
+/// the rounding of an angle (1e-13 degrees) and far below anything a report prints.
+constexpr double worst_tie_deg = 1e-9;
+
 /// Index of the height in `sorted` nearest to t (sorted non-empty).
 std::size_t nearest(const std::vector<double>& sorted, double t) {
   const auto it = std::lower_bound(sorted.begin(), sorted.end(), t);
@@ -143,12 +147,17 @@ SamplingCoverage sampling_coverage(const Eigen::Matrix3Xd& points, const Axis& a
                    });
   s.worst_section_coverage_deg = 360.0;
   for (const SectionSampling& section : s.sections) {
-    if (section.coverage_deg < s.worst_section_coverage_deg) {
-      s.worst_section_coverage_deg = section.coverage_deg;
-      s.worst_section_height = section.height;
-    }
+    s.worst_section_coverage_deg = std::min(s.worst_section_coverage_deg, section.coverage_deg);
     s.sparse_sections += section.points < options.thresholds.min_section_points;
   }
+  // The worst section is the lowest within a rounding margin of the smallest coverage, so that
+  // sections equal but for rounding (evenly spaced levels) do not swap with the part's
+  // placement.
+  for (const SectionSampling& section : s.sections)
+    if (section.coverage_deg <= s.worst_section_coverage_deg + worst_tie_deg) {
+      s.worst_section_height = section.height;
+      break;
+    }
   if (!counts.empty()) {
     std::vector<std::size_t> sorted = counts;
     std::sort(sorted.begin(), sorted.end());
