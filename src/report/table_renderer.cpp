@@ -201,14 +201,19 @@ std::string joined(const std::vector<std::string>& texts) {
 /// section and the angular coverage (evaluate/sampling_coverage.hpp). Under 120 columns.
 void sampling_lines(std::ostream& out, const ReportModel& m, std::size_t bore_w,
                     const Symbols& sym, Shortener& shorten) {
+  if (std::none_of(m.bores.begin(), m.bores.end(),
+                   [](const BoreSummary& b) { return b.sampling.has_value(); }))
+    return;
   const ReportUnits& u = m.units;
   const auto length = [&](double mm) { return ReportUnits::fixed(u.length(mm), u.decimals() - 2); };
+  // A median of an even number of sections may end in .5; whole numbers print without decimals.
+  const auto count = [](double c) { return ReportUnits::fixed(c, c == std::floor(c) ? 0 : 1); };
   out << "\nSampling (probed span against the evaluated range; x tilt: how many times the range "
          "magnifies\nan error in the fitted tilt; coverage: largest arc about the axis, all "
          "points / worst section)\n";
   out << pad("bore", bore_w) << pad_left("probed", 8) << pad_left("evaluated", 11)
       << pad_left("beyond top/bottom", 19) << pad_left("x tilt", 8) << pad_left("sections", 10)
-      << pad_left("points min/median", 19) << pad_left("coverage", 19) << '\n';
+      << pad_left("points min/median", 19) << pad_left("coverage", 22) << '\n';
   for (const BoreSummary& b : m.bores) {
     if (!b.sampling) continue;
     const SamplingCoverage& s = *b.sampling;
@@ -217,13 +222,11 @@ void sampling_lines(std::ostream& out, const ReportModel& m, std::size_t bore_w,
         << pad_left(length(s.extrapolation_top) + " / " + length(s.extrapolation_bottom), 19)
         << pad_left(s.magnification ? ReportUnits::fixed(*s.magnification, 2) : sym.none, 8)
         << pad_left(std::to_string(s.sections.size()), 10)
-        << pad_left(std::to_string(s.section_points_min) + " / " +
-                        ReportUnits::fixed(s.section_points_median,
-                                           s.section_points_median == std::floor(s.section_points_median) ? 0 : 1),
+        << pad_left(std::to_string(s.section_points_min) + " / " + count(s.section_points_median),
                     19)
-        << pad_left(ReportUnits::fixed(s.coverage_deg, 0) + sym.degree + " / " +
-                        ReportUnits::fixed(s.worst_section_coverage_deg, 0) + sym.degree,
-                    19)
+        << pad_left(ReportUnits::fixed(s.coverage_deg, 1) + sym.degree + " / " +
+                        ReportUnits::fixed(s.worst_section_coverage_deg, 1) + sym.degree,
+                    22)
         << '\n';
   }
 }

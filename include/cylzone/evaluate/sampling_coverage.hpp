@@ -17,18 +17,19 @@
 ///    over the evaluated range joined with the span (length L) it is dθ·L. The magnification
 ///    L / S is therefore the factor by which the extrapolation enlarges the lateral error a
 ///    tilt error causes, relative to its size within the probed span (a bore probed over 5 mm
-///    and judged over 40 mm: 8). Statistically it is, if anything, optimistic: the variance of
-///    a least-squares line's prediction at height z grows with (z - z̄)², the squared distance
+///    and judged over 40 mm: 8). For a long extrapolation it is optimistic: the variance of a
+///    least-squares line's prediction at height z grows with (z - z̄)², the squared distance
 ///    from the points' centroid (Draper & Smith, Applied Regression Analysis, 3rd ed. 1998,
-///    ch. 1 and 3, the variance of a predicted value), so far from the span the standard
-///    uncertainty grows about linearly with the lever arm, as L / S does.
+///    the variance of a predicted value; chapters from memory: 1 and 3), so the standard
+///    uncertainty far beyond the span grows with the lever arm from the centroid (13 times
+///    that at the span's ends in the example, for evenly spread points).
 ///  * Sections. The cross-sections the evaluation cut (probed levels, or slabs of a scanned
 ///    cloud; sections.hpp, find_section_levels), or, when none are given, the probed levels
 ///    found by find_section_levels with `section_gap`, each point counted in its nearest level.
 ///    A circle needs 3 points; form and a centre that is not pulled by one point's form error
-///    need many more (ISO 12181-2 and ISO 12180-2 ask for a dense sampling for form; the
-///    default of 8 per section is common practice for position and size of a bore, not a
-///    figure of those standards).
+///    need many more (ISO 12181-2 and ISO 12180-2 ask for a dense sampling for form, from
+///    memory; the default of 8 per section is common practice for position and size of a
+///    bore, not a figure of those standards).
 ///  * Angular coverage. 360 degrees minus the largest angular gap between the points' angles
 ///    about the axis (in the plane perpendicular to it), for all points and for each section:
 ///    the largest arc covered. Below 180 degrees every point lies in one half-plane through
