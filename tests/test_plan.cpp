@@ -1115,3 +1115,45 @@ TEST_CASE("wide_zone_intended acknowledges a zone wider than the bore", "[plan][
              Contains("bore[P1].position.tolerance (line " +
                       std::to_string(line_of(kBase, "tolerance = 0.025, modifier")) + ")"));
 }
+
+TEST_CASE("sampling thresholds: plan-wide [sampling], overridden per bore, value by value",
+          "[plan][sampling]") {
+  // evaluate/sampling_coverage.hpp: a section circle needs 3 points (plane geometry), a
+  // coverage is an arc of at most 360 degrees, the magnification is at least 1 by definition.
+  const std::string wide = replaced(
+      kBase, "units = \"mm\"",
+      "units = \"mm\"\n[sampling]\nmin_section_points = 12\nmax_magnification = 1.5\n");
+  const PartPlan plan = parse_plan(
+      replaced(wide, "cylindricity = 0.008",
+               "cylindricity = 0.008\nsampling = { min_section_points = 5, min_coverage = 270 }"),
+      kPlanFile, false);
+  CHECK(*plan.sampling.min_section_points == 12);
+  CHECK_FALSE(plan.sampling.min_coverage_deg);
+  CHECK(*plan.bores[0].sampling.min_section_points == 12);  // P1: the plan-wide values
+  CHECK(*plan.bores[0].sampling.max_magnification == 1.5);
+  CHECK_FALSE(plan.bores[0].sampling.min_coverage_deg);
+  CHECK(*plan.bores[1].sampling.min_section_points == 5);   // P2: its own, then the plan's
+  CHECK(*plan.bores[1].sampling.min_coverage_deg == 270.0);
+  CHECK(*plan.bores[1].sampling.max_magnification == 1.5);
+  // Without either, the evaluation's defaults apply.
+  CHECK_FALSE(parse_plan(kBase, kPlanFile, false).bores[0].sampling.any());
+
+  check_error(replaced(kBase, "units = \"mm\"", "units = \"mm\"\n[sampling]\nmin_section_points = 2\n"),
+              "min_section_points", "sampling.min_section_points",
+              "from 3 (a circle needs 3) to 100000 (found 2)");
+  check_error(replaced(kBase, "units = \"mm\"", "units = \"mm\"\n[sampling]\nmin_section_points = 8.5\n"),
+              "min_section_points", "sampling.min_section_points",
+              "expected a whole number of points, found a floating-point number");
+  check_error(replaced(kBase, "units = \"mm\"", "units = \"mm\"\n[sampling]\nmin_section_points = -4\n"),
+              "min_section_points", "sampling.min_section_points", "must not be negative (found -4)");
+  check_error(replaced(kBase, "cylindricity = 0.008", "cylindricity = 0.008\nsampling = { min_coverage = 400 }"),
+              "sampling =", "bore[P2].sampling.min_coverage",
+              "above 0 and at most 360 degrees (found 400)");
+  check_error(replaced(kBase, "cylindricity = 0.008", "cylindricity = 0.008\nsampling = { max_magnification = 0.5 }"),
+              "sampling =", "bore[P2].sampling.max_magnification",
+              "from 1 (no extrapolation) to 1000 (found 0.5)");
+  check_error(replaced(kBase, "units = \"mm\"", "units = \"mm\"\n[sampling]\nmin_points = 8\n"),
+              "min_points", "sampling.min_points", "unknown key in [sampling]");
+  check_error(replaced(kBase, "units = \"mm\"", "units = \"mm\"\n[sampling]\nmin_coverage = \"half\"\n"),
+              "min_coverage", "sampling.min_coverage", "expected an angle in degrees (a number), found a string");
+}

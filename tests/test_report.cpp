@@ -201,17 +201,20 @@ TEST_CASE("CSV: RFC 4180 quoting, four decimals in mm, one row per characteristi
   CHECK_FALSE(std::getline(lines, extra));
   CHECK(header ==
         "part,bore,characteristic,reference,value,tolerance,bonus,allowed,comparison,verdict,"
-        "decisive,units,id,caution,part_id,serial,timestamp,notes,range_source,status,reason,outliers_removed");
+        "decisive,units,id,caution,part_id,serial,timestamp,notes,range_source,status,reason,outliers_removed,"
+        "probed_span,evaluated_length,extrapolation_top,extrapolation_bottom,tilt_magnification,"
+        "sections,section_points_min,section_points_median,coverage_deg,"
+        "worst_section_coverage_deg,sampling_warnings");
   CHECK(first ==
         "\"Bracket, \"\"first\"\" article, rev B\",H1,\"position, frame fixed\",A|B(M) MMC,"
         "0.1000,0.0800,0.0100,0.0900,<=,does not conform,no,mm,H1/position," + caution +
-            ",,,,,plan depth,evaluated,,0");
+            ",,,,,plan depth,evaluated,,0" + ",,,,,,,,,,,");  // no sampling measured: empty
   CHECK(second ==
         "\"Bracket, \"\"first\"\" article, rev B\",H1,\"position, datum mobility\",A|B(M) MMC,"
         "0.0850,0.0800,0.0100,0.0900,<=,conforms,yes,mm,H1/position/mobility," + caution +
-            ",,,,,plan depth,evaluated,,0");
+            ",,,,,plan depth,evaluated,,0" + ",,,,,,,,,,,");
   const std::vector<std::string> fields = csv_fields(second);
-  REQUIRE(fields.size() == 22);
+  REQUIRE(fields.size() == 33);
   CHECK(fields[0] == "Bracket, \"first\" article, rev B");
   CHECK(fields[13] == safety_caution);
 }
@@ -479,8 +482,8 @@ TEST_CASE("preparation: removed outliers by file line in JSON, CSV and table") {
   std::string header, row;
   std::getline(csv, header);
   std::getline(csv, row);
-  CHECK(csv_fields(header).back() == "outliers_removed");
-  CHECK(csv_fields(row).back() == "1");
+  CHECK(csv_fields(header)[21] == "outliers_removed");  // the sampling columns follow it
+  CHECK(csv_fields(row)[21] == "1");
   const std::string table = format_table(m);
   CHECK(table.find("Preparation of the points") != std::string::npos);
   CHECK(table.find("bore H1: residual rejection: 1 of 6 removed (line 5)") != std::string::npos);
@@ -639,4 +642,66 @@ TEST_CASE("a bore not evaluated: every report lists it with its reason, the part
                   "\"status\": \"skipped\"");
   CHECK_THROWS_WITH(read_report_json(unknown, "r.json"),
                     Catch::Matchers::Contains("status") && Catch::Matchers::Contains("skipped"));
+}
+
+TEST_CASE("sampling adequacy: JSON round trip, CSV's appended columns, one table line") {
+  // A bore probed over 5 mm of a 40 mm range (magnification 40 / 5 = 8, from the definition in
+  // evaluate/sampling_coverage.hpp), two sections of 12 and 4 points.
+  for (LengthUnit unit : {LengthUnit::millimetre, LengthUnit::inch}) {
+    PartCheckResult r = hand_made_result();
+    r.plan.unit = unit;
+    SamplingCoverage s;
+    s.span_top = 0.0;
+    s.span_bottom = -5.0;
+    s.range_top = 0.0;
+    s.range_bottom = -40.0;
+    s.extrapolation_bottom = 35.0;
+    s.magnification = 8.0;
+    s.sections = {{-5.0, 4, 270.0}, {0.0, 12, 330.0}};
+    s.section_points_min = 4;
+    s.section_points_median = 8.0;
+    s.sparse_sections = 1;
+    s.coverage_deg = 345.0;
+    s.worst_section_coverage_deg = 270.0;
+    s.worst_section_height = -5.0;
+    s.warnings = {"extends 35.0000 mm below"};
+    r.bores.front().sampling = s;
+    const ReportModel written = make_report_model(r);
+    const ReportModel read = read_report_json(format_json(written), "report.json");
+    REQUIRE(read.bores.front().sampling.has_value());
+    const SamplingCoverage& back = *read.bores.front().sampling;
+    const double eps = unit == LengthUnit::millimetre ? 0.0 : 1e-13;
+    CHECK(back.span_bottom == Approx(-5.0).margin(eps));
+    CHECK(back.range_bottom == Approx(-40.0).margin(eps));
+    CHECK(back.extrapolation_bottom == Approx(35.0).margin(eps));
+    CHECK(*back.magnification == 8.0);  // a ratio: no unit
+    REQUIRE(back.sections.size() == 2);
+    CHECK(back.sections[0].points == 4);
+    CHECK(back.sections[1].coverage_deg == 330.0);
+    CHECK(back.worst_section_height == Approx(-5.0).margin(eps));
+    CHECK(back.section_points_median == 8.0);
+    CHECK(back.thresholds.min_section_points == 8);
+    // Warnings in the report's unit: 35 mm = 1.37795 inch (25.4 mm per inch, exact).
+    CHECK(back.warnings.front() ==
+          (unit == LengthUnit::millimetre ? "extends 35.0000 mm below" : "extends 1.37795 inch below"));
+
+    std::istringstream csv(format_csv(written));
+    std::string header, row;
+    std::getline(csv, header);
+    std::getline(csv, row);
+    const std::vector<std::string> names = csv_fields(header), fields = csv_fields(row);
+    REQUIRE(fields.size() == names.size());
+    const auto field = [&](const std::string& name) {
+      return fields[static_cast<std::size_t>(std::find(names.begin(), names.end(), name) - names.begin())];
+    };
+    CHECK(field("probed_span") == (unit == LengthUnit::millimetre ? "5.0000" : "0.19685"));
+    CHECK(field("tilt_magnification") == "8.000");
+    CHECK(field("sections") == "2");
+    CHECK(field("section_points_min") == "4");
+    CHECK(field("worst_section_coverage_deg") == "270.0");
+    CHECK(field("sampling_warnings") == back.warnings.front());
+    const std::string table = format_table(written);
+    CHECK(table.find("Sampling (probed span") != std::string::npos);
+    CHECK(table.find(" 8.00 ") != std::string::npos);
+  }
 }

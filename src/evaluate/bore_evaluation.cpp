@@ -578,21 +578,37 @@ BoreResult evaluate_bore(const BoreInput& input, const BoreEvaluationOptions& op
   result.probed_bottom = local.row(2).minCoeff();
   const auto [own_top, own_bottom] = own_range(bore, result);
   result.depth_source = own_range_source(bore);
-  // The zone applies over the full depth, so a short extrapolation beyond the probed band (a
-  // probe cannot reach the very edge) is normal and shown in the report's depth table. An axis
-  // determined from a band much shorter than the range it is judged over deserves a warning:
-  // its uncertainty at the ends grows roughly with evaluated depth / probed span (law of
-  // propagation, JCGM 100:2008).
-  const double above = std::max(0.0, own_top - result.probed_top);
-  const double below = std::max(0.0, result.probed_bottom - own_bottom);
-  const double probed_span = result.probed_top - result.probed_bottom;
-  if (above + below > range_slack && above + below > 0.1 * probed_span)
-    warnings.push_back("the depth range extends " + mm(above) + " mm above and " + mm(below) +
-                       " mm below the probed band of " + mm(probed_span) +
-                       " mm: the axis is extrapolated over more than a tenth of its support");
 
   // ---- 2., 5., 6., 10. The toleranced axis, position, perpendicularity, tilt.
   evaluate_in_zone(result, bore, options.fit);
+
+  // ---- Sampling adequacy (sampling_coverage.hpp). The zone applies over the full depth, so a
+  // short extrapolation beyond the probed band (a probe cannot reach the very edge) is normal
+  // and shown in the report's depth table; beyond the plan's threshold it is warned about with
+  // the factor it magnifies a tilt error by. Heights along the nominal direction (those of the
+  // range); the sections the evaluation cut and the angles about the least-squares axis.
+  {
+    SamplingOptions sampling;
+    const SamplingThresholds& given = options.sampling;
+    sampling.thresholds.min_section_points =
+        bore.sampling.min_section_points.value_or(given.min_section_points);
+    sampling.thresholds.min_coverage_deg =
+        bore.sampling.min_coverage_deg.value_or(given.min_coverage_deg);
+    sampling.thresholds.max_magnification =
+        bore.sampling.max_magnification.value_or(given.max_magnification);
+    sampling.section_heights = section_plan.heights;
+    sampling.section_half_thickness = section_plan.half_thickness;
+    sampling.height_axis = Axis{result.zone.origin, w};
+    sampling.direction_fitted = !result.direction_held;
+    double top = own_top, bottom = own_bottom;
+    if (result.position) {  // a projected zone reaches above A
+      top = std::max(top, result.position->range_top);
+      bottom = std::min(bottom, result.position->range_bottom);
+    }
+    result.sampling = for_bore(
+        bore, [&] { return sampling_coverage(points, ls_axis, top, bottom, sampling); });
+    for (const std::string& warning : result.sampling->warnings) warnings.push_back(warning);
+  }
   const double mating_size = result.mating_envelope.diameter();
   const double minimum_material_size = result.minimum_material.diameter();
 

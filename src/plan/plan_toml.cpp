@@ -118,7 +118,7 @@ bool contains(const std::array<std::string_view, N>& names, std::string_view nam
 
 // Key sets of each table (docs/plan.md lists them with their meaning).
 constexpr auto kRootKeys =
-    keys("format", "name", "units", "probe", "section_gap", "datum", "bore", "part");
+    keys("format", "name", "units", "probe", "section_gap", "datum", "bore", "part", "sampling");
 // Raw probe points: the same keys plan-wide ([probe]) and in a feature's own `probe` table.
 constexpr auto kProbeKeys = keys("points", "tip_diameter", "neighbour_filter", "residual_rejection");
 constexpr auto kDatumAKeys = keys("feature", "points", "association", "material_side", "probe");
@@ -130,7 +130,7 @@ constexpr auto kDatumCAnyKeys = keys("feature", "points", "basic", "size", "mmb"
                                      "outward_normal", "material_side", "probe");
 constexpr auto kBoreKeys =
     keys("id", "points", "basic", "direction", "depth", "size", "axis", "section_gap",
-         "position", "perpendicularity", "cylindricity", "axis_direction", "probe");
+         "position", "perpendicularity", "cylindricity", "axis_direction", "probe", "sampling");
 constexpr auto kSizeKeys = keys("lower", "upper");
 constexpr auto kDepthKeys = keys("top", "bottom");
 constexpr auto kPositionKeys = keys("tolerance", "modifier", "datums", "projected",
@@ -138,6 +138,7 @@ constexpr auto kPositionKeys = keys("tolerance", "modifier", "datums", "projecte
 constexpr auto kPerpendicularityKeys =
     keys("tolerance", "modifier", "datums", "wide_zone_intended");
 constexpr auto kPartKeys = keys("id", "serial", "time", "notes");
+constexpr auto kSamplingKeys = keys("min_section_points", "min_coverage", "max_magnification");
 
 enum class ToleranceKind { position, perpendicularity };
 
@@ -187,9 +188,17 @@ class PlanParser {
     read_datums(root, plan);
     read_bores(root, plan);
     if (const toml::node* part = root.get("part")) plan.part = read_part(*part);
-    // The plan-wide section gap is the default of every bore that gives none.
-    for (PlanBore& bore : plan.bores)
+    if (const toml::node* sampling = root.get("sampling"))
+      plan.sampling = read_sampling(*sampling, "sampling");
+    // The plan-wide section gap and sampling thresholds are the defaults of every bore that
+    // gives none.
+    for (PlanBore& bore : plan.bores) {
       if (!bore.section_gap) bore.section_gap = plan.section_gap;
+      PlanSampling& own = bore.sampling;
+      if (!own.min_section_points) own.min_section_points = plan.sampling.min_section_points;
+      if (!own.min_coverage_deg) own.min_coverage_deg = plan.sampling.min_coverage_deg;
+      if (!own.max_magnification) own.max_magnification = plan.sampling.max_magnification;
+    }
     return plan;
   }
 
@@ -549,6 +558,8 @@ class PlanParser {
                                       "the cylindricity tolerance (a number)");
     if (const toml::node* probe = table.get("probe"))
       bore.probe = read_probe_table(*probe, path + ".probe");
+    if (const toml::node* sampling = table.get("sampling"))
+      bore.sampling = read_sampling(*sampling, path + ".sampling");
     return bore;
   }
 
@@ -668,6 +679,34 @@ class PlanParser {
       start = bar + 1;
     }
     return refs;
+  }
+
+  // ------------------------------------------------------------------ [sampling]
+
+  /// Sampling thresholds, plan-wide (`[sampling]`) or a bore's own `sampling` table: numbers
+  /// without a unit (a count of points, degrees, a ratio); validate_plan checks their bounds.
+  PlanSampling read_sampling(const toml::node& node, const std::string& path) const {
+    const toml::table& table = as_table(node, path, "a sampling table");
+    check_keys(table, path, kSamplingKeys,
+               path == "sampling" ? "in [sampling]" : "in a sampling table");
+    PlanSampling sampling;
+    if (const toml::node* count = table.get("min_section_points")) {
+      const std::string key = path + ".min_section_points";
+      const auto* value = count->as_integer();
+      if (!value)
+        fail(line_of(*count), key, "expected a whole number of points, found " + type_text(*count));
+      if (value->get() < 0)
+        fail(line_of(*count), key,
+             "the number of points must not be negative (found " + std::to_string(value->get()) + ")");
+      sampling.min_section_points = static_cast<std::size_t>(value->get());
+    }
+    if (const toml::node* coverage = table.get("min_coverage"))
+      sampling.min_coverage_deg =
+          read_number(*coverage, path + ".min_coverage", "an angle in degrees (a number)");
+    if (const toml::node* magnification = table.get("max_magnification"))
+      sampling.max_magnification =
+          read_number(*magnification, path + ".max_magnification", "a ratio (a number)");
+    return sampling;
   }
 
   // ------------------------------------------------------------------ [part]

@@ -37,6 +37,7 @@ class PlanRules {
     check_probe();
     if (plan_.section_gap)
       positive_length(*plan_.section_gap, top.at("section_gap"), "the section gap");
+    check_sampling(plan_.sampling, top, "sampling");
     check_datums();
     check_bores();
     check_part_identity();
@@ -62,6 +63,25 @@ class PlanRules {
     if (!(value > 0.0))
       fail(at, what + " must be greater than zero (found " + shown(value) + ")");
     bounded_length(value, at, what);
+  }
+
+  /// Sampling thresholds (evaluate/sampling_coverage.hpp): a section circle needs 3 points, so
+  /// asking for fewer is meaningless; a coverage is an arc of (0, 360] degrees; the
+  /// magnification is at least 1 by definition (the range joined with the span is never shorter
+  /// than the span); the upper bounds refuse a value typed in the wrong place.
+  void check_sampling(const PlanSampling& s, const PlanLocation& at, const std::string& table) const {
+    if (s.min_section_points && (*s.min_section_points < 3 || *s.min_section_points > 100000))
+      fail(at.at(table + ".min_section_points"),
+           "the least number of points per section must be from 3 (a circle needs 3) to 100000 "
+           "(found " + std::to_string(*s.min_section_points) + ")");
+    if (s.min_coverage_deg && !(*s.min_coverage_deg > 0.0 && *s.min_coverage_deg <= 360.0))
+      fail(at.at(table + ".min_coverage"),
+           "the least angular coverage must be above 0 and at most 360 degrees (found " +
+               plan_number_text(*s.min_coverage_deg) + ")");
+    if (s.max_magnification && !(*s.max_magnification >= 1.0 && *s.max_magnification <= 1000.0))
+      fail(at.at(table + ".max_magnification"),
+           "the largest magnification must be from 1 (no extrapolation) to 1000 (found " +
+               plan_number_text(*s.max_magnification) + ")");
   }
 
   void below_tolerance_ceiling(double value, const PlanLocation& at,
@@ -269,6 +289,7 @@ class PlanRules {
                                " (z in the frame, negative inside the material)");
     if (bore.size) check_size(*bore.size, at.at("size"));
     if (bore.section_gap) positive_length(*bore.section_gap, at.at("section_gap"), "the section gap");
+    check_sampling(bore.sampling, at, "sampling");
     // ---- axis_direction (docs/plan.md): a value the reader knows; a derived median line is
     // made of section centres and has no single direction to hold.
     if (bore.axis_direction != AxisDirection::fitted &&

@@ -20,6 +20,23 @@ std::string csv_field(std::string_view text) {
   return quoted + "\"";
 }
 
+/// The sampling columns of a bore's rows, each preceded by its comma; empty fields for a bore
+/// not evaluated (no figures), never a number that was not measured.
+std::string sampling_fields(const BoreSummary* bore, const ReportUnits& u) {
+  constexpr int columns = 11;
+  if (!bore || !bore->sampling) return std::string(columns, ',');
+  const SamplingCoverage& s = *bore->sampling;
+  std::string warnings;
+  for (const std::string& w : s.warnings) warnings += (warnings.empty() ? "" : " | ") + w;
+  return ',' + u.text(s.span()) + ',' + u.text(s.range_top - s.range_bottom) + ',' +
+         u.text(s.extrapolation_top) + ',' + u.text(s.extrapolation_bottom) + ',' +
+         (s.magnification ? ReportUnits::fixed(*s.magnification, 3) : std::string()) + ',' +
+         std::to_string(s.sections.size()) + ',' + std::to_string(s.section_points_min) + ',' +
+         ReportUnits::fixed(s.section_points_median, 1) + ',' +
+         ReportUnits::fixed(s.coverage_deg, 1) + ',' +
+         ReportUnits::fixed(s.worst_section_coverage_deg, 1) + ',' + csv_field(warnings);
+}
+
 }  // namespace
 
 std::string format_csv(const ReportModel& m) {
@@ -29,7 +46,11 @@ std::string format_csv(const ReportModel& m) {
   const std::string caution = csv_field(safety_caution);
   std::ostringstream out;
   out << "part,bore,characteristic,reference,value,tolerance,bonus,allowed,comparison,verdict,"
-         "decisive,units,id,caution,part_id,serial,timestamp,notes,range_source,status,reason,outliers_removed\n";
+         "decisive,units,id,caution,part_id,serial,timestamp,notes,range_source,status,reason,outliers_removed"
+         // Sampling adequacy of the row's bore (sampling_coverage.hpp), appended last.
+         ",probed_span,evaluated_length,extrapolation_top,extrapolation_bottom,tilt_magnification,"
+         "sections,section_points_min,section_points_median,coverage_deg,"
+         "worst_section_coverage_deg,sampling_warnings\n";
   // Identity columns, the same on every row: rows of many parts can be told apart.
   const std::string identity = csv_field(m.part.id) + ',' + csv_field(m.part.serial) + ',' +
                                csv_field(m.part.timestamp) + ',' +
@@ -49,7 +70,8 @@ std::string format_csv(const ReportModel& m) {
         << csv_field(c.not_evaluated) << ',';
     // Points the outlier stages removed from the bore's cloud (listed in the JSON report).
     const FeaturePreparation* prepared = m.preparation_of("bore " + c.feature);
-    out << (prepared ? prepared->record.outliers.removed_count() : 0) << '\n';
+    out << (prepared ? prepared->record.outliers.removed_count() : 0);
+    out << sampling_fields(m.bore(c.feature), u) << '\n';
   }
   return out.str();
 }

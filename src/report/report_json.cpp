@@ -171,6 +171,37 @@ json characteristic_json(const Characteristic& c, const ReportUnits& u) {
           {"rule", std::string(decision_rule_name(c.rule))}};
 }
 
+/// A bore's sampling adequacy (docs/report-schema.md, "sampling"): heights along the nominal
+/// direction from A, in the report's unit; angles in degrees.
+json sampling_json(const SamplingCoverage& s, const ReportUnits& u) {
+  json sections = json::array();
+  for (const SectionSampling& section : s.sections)
+    sections.push_back({{"z", u.length(section.height)},
+                        {"points", section.points},
+                        {"coverage_deg", section.coverage_deg}});
+  return {{"span", {{"top", u.length(s.span_top)},
+                    {"bottom", u.length(s.span_bottom)},
+                    {"length", u.length(s.span())}}},
+          {"range", {{"top", u.length(s.range_top)},
+                     {"bottom", u.length(s.range_bottom)},
+                     {"length", u.length(s.range_top - s.range_bottom)}}},
+          {"extrapolation", {{"top", u.length(s.extrapolation_top)},
+                             {"bottom", u.length(s.extrapolation_bottom)}}},
+          {"magnification", s.magnification ? json(*s.magnification) : json(nullptr)},
+          {"section_count", s.sections.size()},
+          {"section_points_min", s.section_points_min},
+          {"section_points_median", s.section_points_median},
+          {"sparse_sections", s.sparse_sections},
+          {"coverage_deg", s.coverage_deg},
+          {"worst_section_coverage_deg", s.worst_section_coverage_deg},
+          {"worst_section_z", u.length(s.worst_section_height)},
+          {"sections", sections},
+          {"thresholds", {{"min_section_points", s.thresholds.min_section_points},
+                          {"min_coverage_deg", s.thresholds.min_coverage_deg},
+                          {"max_magnification", s.thresholds.max_magnification}}},
+          {"warnings", s.warnings}};
+}
+
 json bore_json(const BoreResult& b, const BoreSummary& s, const BoreSensitivity* sens,
                const ReportModel& m) {
   const ReportUnits& u = m.units;
@@ -185,7 +216,7 @@ json bore_json(const BoreResult& b, const BoreSummary& s, const BoreSensitivity*
     // Nothing was measured: no figures, only why (docs/report-schema.md).
     for (const char* key : {"axis", "probed", "depth_source", "tilt", "size", "form", "position",
                             "position_with_mobility", "perpendicularity", "virtual_condition",
-                            "fits", "depth_profile", "stray_points"})
+                            "fits", "depth_profile", "stray_points", "sampling"})
       j[key] = nullptr;
     j["sensitivity"] = json::array();
     j["sensitivity_skipped"] = text_or_null(sens ? sens->skipped : std::string());
@@ -281,6 +312,7 @@ json bore_json(const BoreResult& b, const BoreSummary& s, const BoreSensitivity*
   j["sensitivity"] = sensitivity;
   j["depth_profile"] = depth_json(s.depth, u);
   j["stray_points"] = stray_json(b.stray_points, m, "bore " + b.id);
+  j["sampling"] = s.sampling ? sampling_json(*s.sampling, u) : json(nullptr);
   j["warnings"] = s.warnings;
   return j;
 }
@@ -710,6 +742,43 @@ ReportModel read_report_json(std::string_view bytes, const std::string& source) 
                              Eigen::Vector2d(mm(samples[s], sp, "dx"), mm(samples[s], sp, "dy"))});
       }
       b.depth = std::move(d);
+    }
+    // Sampling adequacy: absent in reports written before the key existed.
+    if (o.contains("sampling") && !o.at("sampling").is_null()) {
+      const std::string sp = path + ".sampling";
+      const json& so = o.at("sampling");
+      SamplingCoverage c;
+      const json& span = in.key(so, sp, "span");
+      c.span_top = mm(span, sp + ".span", "top");
+      c.span_bottom = mm(span, sp + ".span", "bottom");
+      const json& range = in.key(so, sp, "range");
+      c.range_top = mm(range, sp + ".range", "top");
+      c.range_bottom = mm(range, sp + ".range", "bottom");
+      const json& beyond = in.key(so, sp, "extrapolation");
+      c.extrapolation_top = mm(beyond, sp + ".extrapolation", "top");
+      c.extrapolation_bottom = mm(beyond, sp + ".extrapolation", "bottom");
+      c.magnification = in.number_or_null(so, sp, "magnification");
+      c.section_points_min = in.count(so, sp, "section_points_min");
+      c.section_points_median = in.number(so, sp, "section_points_median");
+      c.sparse_sections = in.count(so, sp, "sparse_sections");
+      c.coverage_deg = in.number(so, sp, "coverage_deg");
+      c.worst_section_coverage_deg = in.number(so, sp, "worst_section_coverage_deg");
+      c.worst_section_height = mm(so, sp, "worst_section_z");
+      const json& sections = in.array(so, sp, "sections");
+      for (std::size_t s = 0; s < sections.size(); ++s) {
+        const std::string at = sp + ".sections[" + std::to_string(s) + "]";
+        c.sections.push_back({mm(sections[s], at, "z"), in.count(sections[s], at, "points"),
+                              in.number(sections[s], at, "coverage_deg")});
+      }
+      if (in.count(so, sp, "section_count") != c.sections.size())
+        in.fail(sp + ".section_count", "does not match the sections listed");
+      const json& limits = in.key(so, sp, "thresholds");
+      c.thresholds.min_section_points =
+          in.count(limits, sp + ".thresholds", "min_section_points");
+      c.thresholds.min_coverage_deg = in.number(limits, sp + ".thresholds", "min_coverage_deg");
+      c.thresholds.max_magnification = in.number(limits, sp + ".thresholds", "max_magnification");
+      c.warnings = in.texts(so, sp, "warnings");
+      b.sampling = std::move(c);
     }
     b.warnings = in.texts(o, path, "warnings");
     m.bores.push_back(std::move(b));

@@ -276,6 +276,10 @@ ReportModel make_report_model(const PartCheckResult& r, const ReportModelOptions
         (b.virtual_condition_with_mobility ||
          (b.virtual_condition->conservative && b.virtual_condition->on_true_position)))
       s.boundary = in_report_unit(boundary_reason(b), m.units);
+    if (b.evaluated() && b.sampling) {
+      s.sampling = b.sampling;
+      for (std::string& w : s.sampling->warnings) w = in_report_unit(w, m.units);
+    }
     const InputRecord* in = m.input("bore " + b.id);
     for (const std::string& w : b.warnings)
       s.warnings.push_back(in_report_unit(in ? with_file_lines(w, in->point_lines) : w, m.units));

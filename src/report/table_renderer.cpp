@@ -1,6 +1,7 @@
 // The terminal table: the report model for people. Values in the plan's unit through the
 // model's ReportUnits; verdicts as words, never colour alone (docs/report-schema.md).
 #include <algorithm>
+#include <cmath>
 #include <sstream>
 #include <utility>
 #include <vector>
@@ -195,6 +196,41 @@ std::string joined(const std::vector<std::string>& texts) {
   return out;
 }
 
+/// One line per evaluated bore: the probed span against the evaluated range, the extrapolation
+/// at each end, the factor a tilt error grows by over the range, the sections, points per
+/// section and the angular coverage (evaluate/sampling_coverage.hpp). Under 120 columns.
+void sampling_lines(std::ostream& out, const ReportModel& m, std::size_t bore_w,
+                    const Symbols& sym, Shortener& shorten) {
+  if (std::none_of(m.bores.begin(), m.bores.end(),
+                   [](const BoreSummary& b) { return b.sampling.has_value(); }))
+    return;
+  const ReportUnits& u = m.units;
+  const auto length = [&](double mm) { return ReportUnits::fixed(u.length(mm), u.decimals() - 2); };
+  // A median of an even number of sections may end in .5; whole numbers print without decimals.
+  const auto count = [](double c) { return ReportUnits::fixed(c, c == std::floor(c) ? 0 : 1); };
+  out << "\nSampling (probed span against the evaluated range; x tilt: how many times the range "
+         "magnifies\nan error in the fitted tilt; coverage: largest arc about the axis, all "
+         "points / worst section)\n";
+  out << pad("bore", bore_w) << pad_left("probed", 8) << pad_left("evaluated", 11)
+      << pad_left("beyond top/bottom", 19) << pad_left("x tilt", 8) << pad_left("sections", 10)
+      << pad_left("points min/median", 19) << pad_left("coverage", 22) << '\n';
+  for (const BoreSummary& b : m.bores) {
+    if (!b.sampling) continue;
+    const SamplingCoverage& s = *b.sampling;
+    out << pad(shorten(b.id, feature_cap), bore_w)
+        << pad_left(length(s.span()), 8) << pad_left(length(s.range_top - s.range_bottom), 11)
+        << pad_left(length(s.extrapolation_top) + " / " + length(s.extrapolation_bottom), 19)
+        << pad_left(s.magnification ? ReportUnits::fixed(*s.magnification, 2) : sym.none, 8)
+        << pad_left(std::to_string(s.sections.size()), 10)
+        << pad_left(std::to_string(s.section_points_min) + " / " + count(s.section_points_median),
+                    19)
+        << pad_left(ReportUnits::fixed(s.coverage_deg, 1) + sym.degree + " / " +
+                        ReportUnits::fixed(s.worst_section_coverage_deg, 1) + sym.degree,
+                    22)
+        << '\n';
+  }
+}
+
 /// One sensitivity column: an association (or two giving identical figures) and its cells.
 struct SensitivityColumn {
   std::string header;
@@ -336,6 +372,9 @@ std::string format_table(const ReportModel& m, const TableOptions& options) {
                        "its tilt is zero by construction and perpendicularity is not evaluated.",
                    options.width, 6);
   }
+
+  // Sampling adequacy: what the axis rests on against the range it is judged over.
+  sampling_lines(out, m, bore_w, sym, shorten);
 
   // The study's columns come from the first bore it has rows for (a bore not evaluated has none).
   const auto studied = std::find_if(m.sensitivity.begin(), m.sensitivity.end(),

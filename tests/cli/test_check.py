@@ -185,7 +185,10 @@ def numbers(node, path=""):
 # Numbers without a length unit, by the name of their own key (array elements take their
 # array's name): directions, angles, counts and point numbers.
 UNITLESS = {"direction", "normal", "x_axis", "y_axis", "z_axis", "points", "two_point_count",
-            "screened", "point_number"}
+            "screened", "point_number",
+            # sampling adequacy: a ratio and counts
+            "magnification", "max_magnification", "section_count", "section_points_min",
+            "section_points_median", "sparse_sections", "min_section_points"}
 
 
 def unitless(path):

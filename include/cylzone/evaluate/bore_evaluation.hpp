@@ -11,6 +11,7 @@
 #include <vector>
 
 #include "cylzone/evaluate/axis_zone.hpp"
+#include "cylzone/evaluate/sampling_coverage.hpp"
 #include "cylzone/fit/fit_cylinder.hpp"
 #include "cylzone/plan/plan.hpp"
 #include "cylzone/fit/sections.hpp"
@@ -211,6 +212,12 @@ struct BoreResult {
   /// (simultaneous requirement) was not evaluated. `position_with_mobility` is then empty and
   /// `position` (frame fixed) is shown for comparison.
   std::string mobility_not_evaluated;
+  /// Sampling adequacy (sampling_coverage.hpp): the probed span along the nominal direction
+  /// against the evaluated range (the bore's depth joined with a projected zone), the sections
+  /// cut for the median line and two-point sizes, the angular coverage about the least-squares
+  /// axis. Its warnings are also among `warnings`. Motion-invariant, found once. Set by
+  /// evaluate_bore; empty in a result built otherwise.
+  std::optional<SamplingCoverage> sampling;
 
   bool evaluated() const noexcept { return not_evaluated.empty(); }
 };
@@ -228,6 +235,8 @@ struct BoreEvaluationOptions {
   /// The prepare stage evaluate_bore(plan, points) runs (bore_prepare_options).
   bool stray_screen = true;
   StrayPointOptions stray_points;
+  /// Sampling thresholds where the plan gives none (PlanBore::sampling).
+  SamplingThresholds sampling;
 };
 
 /// One bore's specification paired with its prepared points, in the datum frame. Both are

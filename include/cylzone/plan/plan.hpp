@@ -108,6 +108,16 @@ struct ProbeOverrides {
 /// The plan-wide settings with a feature's overrides applied.
 ProbeSettings resolved_probe(const ProbeSettings& plan_wide, const ProbeOverrides& own) noexcept;
 
+/// Sampling thresholds (plan [sampling] plan-wide, or a bore's own `sampling` table; docs/plan.md;
+/// evaluate/sampling_coverage.hpp): each value given overrides the evaluation's default. A
+/// parsed plan holds in every bore its own values, else the plan-wide ones.
+struct PlanSampling {
+  std::optional<std::size_t> min_section_points;  ///< fewer points in a section: warned
+  std::optional<double> min_coverage_deg;         ///< angular coverage below this: warned
+  std::optional<double> max_magnification;        ///< tilt-error magnification above this: warned
+  bool any() const noexcept { return min_section_points || min_coverage_deg || max_magnification; }
+};
+
 struct PlanDatum {
   char label = 'A';
   FeatureKind kind = FeatureKind::plane;
@@ -172,6 +182,8 @@ struct PlanBore {
   AxisDirection axis_direction = AxisDirection::fitted;
   ProbeOverrides probe;  ///< this bore's own `probe` table
   PlanLocation where;
+  /// Sampling thresholds: the bore's own `sampling` table, else the plan-wide [sampling].
+  PlanSampling sampling;
 };
 
 // ---- Part identity and plausibility warnings (docs/plan.md, "[part]").
@@ -207,6 +219,9 @@ struct PartPlan {
   /// bore's size), one line each naming the plan key, lengths in the plan's unit; carried into
   /// every report by check_part.
   std::vector<std::string> warnings;
+  /// The plan-wide [sampling] thresholds (already applied by the parser to every bore, value by
+  /// value, where the bore gives none).
+  PlanSampling sampling;
 
   const PlanDatum* datum(char label) const noexcept;
 };

@@ -118,6 +118,10 @@ struct BoreSummary {
   std::string not_evaluated;
   /// "fitted" or "nominal" (plan key axis_direction): the axis direction held at the nominal one.
   std::string axis_direction = "fitted";
+  /// Sampling adequacy (BoreResult::sampling: probed span against the evaluated range, sections,
+  /// points per section, angular coverage), its warnings in the report's unit. Empty for a bore
+  /// not evaluated and in a model read from a report written before the field existed.
+  std::optional<SamplingCoverage> sampling;
   bool evaluated() const noexcept { return not_evaluated.empty(); }
 };
 
