@@ -1,0 +1,247 @@
+// Segmenting a whole-part scan among the nominal surfaces (segment_scan.hpp states the method).
+#include "cylzone/prepare/segment_scan.hpp"
+
+#include <Eigen/Geometry>
+
+#include <algorithm>
+#include <array>
+#include <cmath>
+#include <stdexcept>
+
+namespace cylzone {
+namespace {
+
+constexpr double kPi = 3.14159265358979323846;
+
+/// An axis-aligned box in the part's coordinates that holds every candidate of a surface: a
+/// point outside it is rejected with six comparisons, so a point costs little per surface.
+struct Box {
+  Eigen::Vector3d low, high;
+  bool holds(const Eigen::Vector3d& p) const {
+    return (p.array() >= low.array()).all() && (p.array() <= high.array()).all();
+  }
+};
+
+/// A unit vector perpendicular to `d`: the azimuth origin about a cylinder's axis.
+Eigen::Vector3d perpendicular(const Eigen::Vector3d& d) {
+  Eigen::Index smallest = 0;
+  d.cwiseAbs().minCoeff(&smallest);
+  Eigen::Vector3d a = Eigen::Vector3d::Zero();
+  a[smallest] = 1.0;
+  return (a - a.dot(d) * d).normalized();
+}
+
+/// A surface prepared for the pass: its box and the margin-widened ranges.
+struct Prepared {
+  const NominalSurface* s = nullptr;
+  Box box;
+  double low = 0.0, high = 0.0;                      // cylinder's axial range with the margin
+  double u_low = 0.0, u_high = 0.0, v_low = 0.0, v_high = 0.0;  // plane's, with the margin
+};
+
+Prepared prepare_surface(const NominalSurface& s, double band, double margin) {
+  Prepared p;
+  p.s = &s;
+  if (s.kind == NominalSurface::Kind::cylinder) {
+    p.low = s.low - margin;
+    p.high = s.high + margin;
+    const Eigen::Vector3d a = s.origin + p.low * s.direction;
+    const Eigen::Vector3d b = s.origin + p.high * s.direction;
+    // A disc of radius r normal to d spans r sqrt(1 - d_i^2) along axis i.
+    const double r = s.radius + band;
+    const Eigen::Vector3d reach =
+        r * (Eigen::Vector3d::Ones() - s.direction.cwiseAbs2()).cwiseMax(0.0).cwiseSqrt();
+    p.box.low = a.cwiseMin(b) - reach;
+    p.box.high = a.cwiseMax(b) + reach;
+  } else {
+    p.u_low = s.u_low - margin;
+    p.u_high = s.u_high + margin;
+    p.v_low = s.v_low - margin;
+    p.v_high = s.v_high + margin;
+    p.box.low = Eigen::Vector3d::Constant(std::numeric_limits<double>::infinity());
+    p.box.high = -p.box.low;
+    for (double u : {p.u_low, p.u_high})
+      for (double v : {p.v_low, p.v_high})
+        for (double w : {-band, band}) {
+          const Eigen::Vector3d c = s.origin + u * s.u_axis + v * s.v_axis + w * s.direction;
+          p.box.low = p.box.low.cwiseMin(c);
+          p.box.high = p.box.high.cwiseMax(c);
+        }
+  }
+  return p;
+}
+
+/// Distance of `q` from the bounded nominal surface (overshoot beyond its range included).
+double bounded_distance(const NominalSurface& s, const Eigen::Vector3d& q) {
+  const Eigen::Vector3d rel = q - s.origin;
+  if (s.kind == NominalSurface::Kind::cylinder) {
+    const double axial = s.direction.dot(rel);
+    const double radial = (rel - axial * s.direction).norm() - s.radius;
+    const double beyond = std::max({0.0, s.low - axial, axial - s.high});
+    return std::hypot(radial, beyond);
+  }
+  const double normal = s.direction.dot(rel);
+  const double u = s.u_axis.dot(rel), v = s.v_axis.dot(rel);
+  const double du = std::max({0.0, s.u_low - u, u - s.u_high});
+  const double dv = std::max({0.0, s.v_low - v, v - s.v_high});
+  return std::sqrt(normal * normal + du * du + dv * dv);
+}
+
+}  // namespace
+
+double largest_angular_gap_deg(const std::vector<double>& degrees) {
+  const std::size_t n = degrees.size();
+  if (n <= 1) return 360.0;
+  std::vector<double> a(n);
+  for (std::size_t i = 0; i < n; ++i) {
+    double x = std::fmod(degrees[i], 360.0);
+    if (x < 0.0) x += 360.0;
+    a[i] = x;
+  }
+  const auto [min_it, max_it] = std::minmax_element(a.begin(), a.end());
+  const double lo = *min_it, hi = *max_it;
+  if (!(hi > lo)) return 360.0;
+  // n values in n + 1 buckets over [lo, hi]: one bucket is empty, so the largest gap is at
+  // least a bucket wide and lies between buckets, never inside one.
+  const std::size_t buckets = n + 1;
+  std::vector<double> bmin(buckets, std::numeric_limits<double>::infinity());
+  std::vector<double> bmax(buckets, -std::numeric_limits<double>::infinity());
+  const double scale = static_cast<double>(buckets) / (hi - lo);
+  for (double x : a) {
+    const std::size_t b =
+        std::min(buckets - 1, static_cast<std::size_t>((x - lo) * scale));
+    bmin[b] = std::min(bmin[b], x);
+    bmax[b] = std::max(bmax[b], x);
+  }
+  double gap = 0.0, previous = lo;
+  for (std::size_t b = 0; b < buckets; ++b) {
+    if (!(bmin[b] <= bmax[b])) continue;
+    gap = std::max(gap, bmin[b] - previous);
+    previous = bmax[b];
+  }
+  return std::max(gap, 360.0 - (hi - lo));  // the gap that wraps through 360 degrees
+}
+
+PointCloud subset_cloud(const PointCloud& cloud, const std::vector<std::size_t>& indices) {
+  PointCloud out;
+  out.source = cloud.source;
+  out.file_unit = cloud.file_unit;
+  const auto count = static_cast<Eigen::Index>(indices.size());
+  out.points.resize(3, count);
+  const bool vectors = cloud.has_vectors();
+  if (vectors) out.vectors.resize(3, count);
+  const bool lines = cloud.lines.size() == cloud.size();
+  if (lines) out.lines.reserve(indices.size());
+  for (Eigen::Index k = 0; k < count; ++k) {
+    const auto i = static_cast<Eigen::Index>(indices[static_cast<std::size_t>(k)]);
+    out.points.col(k) = cloud.points.col(i);
+    if (vectors) out.vectors.col(k) = cloud.vectors.col(i);
+    if (lines) out.lines.push_back(cloud.lines[static_cast<std::size_t>(i)]);
+  }
+  return out;
+}
+
+SegmentationResult segment_scan(const PointCloud& cloud, const RigidPlacement& placement,
+                                const std::vector<NominalSurface>& surfaces,
+                                const SegmentOptions& options) {
+  const double band = options.band;
+  const double margin = options.margin.value_or(band);
+  if (!(band > 0.0) || !std::isfinite(band))
+    throw std::invalid_argument("segment_scan: the band must be a positive finite length");
+  if (!(margin >= 0.0) || !std::isfinite(margin))
+    throw std::invalid_argument("segment_scan: the margin must be a finite length >= 0");
+  if (!(options.normal_agreement_deg > 0.0 && options.normal_agreement_deg <= 90.0))
+    throw std::invalid_argument("segment_scan: the normal agreement must be in (0, 90] degrees");
+
+  std::vector<Prepared> prepared;
+  prepared.reserve(surfaces.size());
+  for (const NominalSurface& s : surfaces) prepared.push_back(prepare_surface(s, band, margin));
+
+  SegmentationResult result;
+  result.surfaces.resize(surfaces.size());
+  result.used_vectors = cloud.has_vectors();
+  const double min_cos = std::cos(options.normal_agreement_deg * kPi / 180.0);
+  const Eigen::Matrix3d& R = placement.rotation;
+  const Eigen::Vector3d& t = placement.translation;
+  const std::size_t n = cloud.size();
+
+  for (std::size_t i = 0; i < n; ++i) {
+    const Eigen::Vector3d q = R * cloud.points.col(static_cast<Eigen::Index>(i)) + t;
+    std::size_t best = surfaces.size();
+    double best_distance = 0.0;
+    for (std::size_t k = 0; k < prepared.size(); ++k) {
+      const Prepared& p = prepared[k];
+      if (!p.box.holds(q)) continue;
+      const NominalSurface& s = *p.s;
+      const Eigen::Vector3d rel = q - s.origin;
+      double distance = 0.0;
+      Eigen::Vector3d normal;
+      if (s.kind == NominalSurface::Kind::cylinder) {
+        const double axial = s.direction.dot(rel);
+        if (axial < p.low || axial > p.high) continue;
+        const Eigen::Vector3d radial = rel - axial * s.direction;
+        const double r = radial.norm();
+        distance = std::abs(r - s.radius);
+        if (distance > band) continue;
+        if (!result.used_vectors) {
+          normal = Eigen::Vector3d::Zero();
+        } else if (r > 0.0) {
+          normal = radial / r;
+        } else {
+          continue;  // on the axis: no surface normal to agree with
+        }
+      } else {
+        distance = std::abs(s.direction.dot(rel));
+        if (distance > band) continue;
+        const double u = s.u_axis.dot(rel), v = s.v_axis.dot(rel);
+        if (u < p.u_low || u > p.u_high || v < p.v_low || v > p.v_high) continue;
+        normal = s.direction;
+      }
+      if (result.used_vectors) {
+        const Eigen::Vector3d vector = R * cloud.vectors.col(static_cast<Eigen::Index>(i));
+        if (std::abs(vector.dot(normal)) < min_cos * vector.norm()) continue;
+      }
+      // Nearest surface wins; strict '<' keeps the first listed on an exact tie.
+      if (best == surfaces.size() || distance < best_distance) {
+        best = k;
+        best_distance = distance;
+      }
+    }
+    if (best == surfaces.size())
+      ++result.unassigned;
+    else
+      result.surfaces[best].indices.push_back(i);
+  }
+
+  for (std::size_t k = 0; k < surfaces.size(); ++k) {
+    const NominalSurface& s = surfaces[k];
+    SurfaceSegment& segment = result.surfaces[k];
+    if (segment.indices.empty()) {
+      // Only for a surface that took nothing: how far its nearest points are, for the message.
+      for (std::size_t i = 0; i < n; ++i)
+        segment.nearest_distance =
+            std::min(segment.nearest_distance, bounded_distance(s, placed_point(cloud, placement, i)));
+      continue;
+    }
+    segment.nearest_distance = 0.0;
+    if (s.kind != NominalSurface::Kind::cylinder) continue;
+    const Eigen::Vector3d u = perpendicular(s.direction);
+    const Eigen::Vector3d v = s.direction.cross(u);
+    std::vector<double> azimuths;
+    azimuths.reserve(segment.indices.size());
+    double s_min = std::numeric_limits<double>::infinity(), s_max = -s_min;
+    for (std::size_t i : segment.indices) {
+      const Eigen::Vector3d rel = placed_point(cloud, placement, i) - s.origin;
+      const double axial = s.direction.dot(rel);
+      s_min = std::min(s_min, axial);
+      s_max = std::max(s_max, axial);
+      azimuths.push_back(std::atan2(v.dot(rel), u.dot(rel)) * 180.0 / kPi);
+    }
+    segment.angular_coverage_deg = 360.0 - largest_angular_gap_deg(azimuths);
+    segment.probed_span = s_max - s_min;
+    segment.nominal_span = s.high - s.low;
+  }
+  return result;
+}
+
+}  // namespace cylzone
