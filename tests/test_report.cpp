@@ -201,17 +201,18 @@ TEST_CASE("CSV: RFC 4180 quoting, four decimals in mm, one row per characteristi
   CHECK_FALSE(std::getline(lines, extra));
   CHECK(header ==
         "part,bore,characteristic,reference,value,tolerance,bonus,allowed,comparison,verdict,"
-        "decisive,units,id,caution,part_id,serial,timestamp,notes,range_source,status,reason,outliers_removed");
+        "decisive,units,id,caution,part_id,serial,timestamp,notes,range_source,status,reason,outliers_removed,"
+        "scan_points,scan_angular_coverage_deg,scan_probed_depth,scan_nominal_depth");
   CHECK(first ==
         "\"Bracket, \"\"first\"\" article, rev B\",H1,\"position, frame fixed\",A|B(M) MMC,"
         "0.1000,0.0800,0.0100,0.0900,<=,does not conform,no,mm,H1/position," + caution +
-            ",,,,,plan depth,evaluated,,0");
+            ",,,,,plan depth,evaluated,,0,,,,");
   CHECK(second ==
         "\"Bracket, \"\"first\"\" article, rev B\",H1,\"position, datum mobility\",A|B(M) MMC,"
         "0.0850,0.0800,0.0100,0.0900,<=,conforms,yes,mm,H1/position/mobility," + caution +
-            ",,,,,plan depth,evaluated,,0");
+            ",,,,,plan depth,evaluated,,0,,,,");
   const std::vector<std::string> fields = csv_fields(second);
-  REQUIRE(fields.size() == 22);
+  REQUIRE(fields.size() == 26);
   CHECK(fields[0] == "Bracket, \"first\" article, rev B");
   CHECK(fields[13] == safety_caution);
 }
@@ -479,8 +480,8 @@ TEST_CASE("preparation: removed outliers by file line in JSON, CSV and table") {
   std::string header, row;
   std::getline(csv, header);
   std::getline(csv, row);
-  CHECK(csv_fields(header).back() == "outliers_removed");
-  CHECK(csv_fields(row).back() == "1");
+  CHECK(csv_fields(header).at(21) == "outliers_removed");
+  CHECK(csv_fields(row).at(21) == "1");
   const std::string table = format_table(m);
   CHECK(table.find("Preparation of the points") != std::string::npos);
   CHECK(table.find("bore H1: residual rejection: 1 of 6 removed (line 5)") != std::string::npos);

@@ -118,11 +118,19 @@ SegmentedScan segment_part_scan(const PartPlan& plan, const PointCloud& cloud,
   for (std::size_t k = 0; k < surfaces.size(); ++k) {
     const SurfaceSegment& segment = result.surfaces[k];
     if (segment.indices.empty()) {
-      const std::string nearest =
+      std::string nearest =
           std::isfinite(segment.nearest_distance)
               ? "its nearest points are " + length_text(segment.nearest_distance, plan.unit) +
                     " from it"
               : "the cloud has no points";
+      // Points inside the band that were all refused by their vectors, or by the margin.
+      if (segment.nearest_distance <= options.band)
+        nearest += result.used_vectors
+                       ? ", but their vectors are more than " +
+                             std::to_string(static_cast<int>(options.normal_agreement_deg)) +
+                             " degrees from its surface normal, or they lie beyond its depth or "
+                             "extent by more than the margin"
+                       : ", but they lie beyond its depth or extent by more than the margin";
       throw InputError(plan.file.string(), where[k]->line,
                        surfaces[k].name + " takes no point of the scan " +
                            quoted_for_message(scan.points.string()) +

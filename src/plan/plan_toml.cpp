@@ -130,8 +130,11 @@ constexpr auto kDatumAKeys =
     keys("feature", "points", "association", "material_side", "probe", "extent");
 constexpr auto kDatumBKeys =
     keys("feature", "points", "size", "mmb", "probe", "nominal_size", "depth");
+// A bore or pin C may take its points from a [scan] and then gives its nominal size and depth;
+// a slot or tab cannot (its nominal faces are not in the plan).
 constexpr auto kDatumCSizeKeys =
     keys("feature", "points", "basic", "size", "mmb", "probe", "nominal_size", "depth");
+constexpr auto kDatumCWidthKeys = keys("feature", "points", "basic", "size", "mmb", "probe");
 constexpr auto kDatumCPlaneKeys =
     keys("feature", "points", "outward_normal", "material_side", "probe");
 constexpr auto kDatumCAnyKeys = keys("feature", "points", "basic", "size", "mmb",
@@ -436,8 +439,10 @@ class PlanParser {
       check_keys(table, path, kDatumBKeys, "for datum B");
     else if (peeked == "plane")
       check_keys(table, path, kDatumCPlaneKeys, "for datum C as a plane");
-    else if (peeked == "bore" || peeked == "pin" || peeked == "slot" || peeked == "tab")
+    else if (peeked == "bore" || peeked == "pin")
       check_keys(table, path, kDatumCSizeKeys, "for datum C as a " + peeked);
+    else if (peeked == "slot" || peeked == "tab")
+      check_keys(table, path, kDatumCWidthKeys, "for datum C as a " + peeked);
     else
       check_keys(table, path, kDatumCAnyKeys, "for datum C");
 

@@ -29,7 +29,8 @@ std::string format_csv(const ReportModel& m) {
   const std::string caution = csv_field(safety_caution);
   std::ostringstream out;
   out << "part,bore,characteristic,reference,value,tolerance,bonus,allowed,comparison,verdict,"
-         "decisive,units,id,caution,part_id,serial,timestamp,notes,range_source,status,reason,outliers_removed\n";
+         "decisive,units,id,caution,part_id,serial,timestamp,notes,range_source,status,reason,outliers_removed,"
+         "scan_points,scan_angular_coverage_deg,scan_probed_depth,scan_nominal_depth\n";
   // Identity columns, the same on every row: rows of many parts can be told apart.
   const std::string identity = csv_field(m.part.id) + ',' + csv_field(m.part.serial) + ',' +
                                csv_field(m.part.timestamp) + ',' +
@@ -49,7 +50,13 @@ std::string format_csv(const ReportModel& m) {
         << csv_field(c.not_evaluated) << ',';
     // Points the outlier stages removed from the bore's cloud (listed in the JSON report).
     const FeaturePreparation* prepared = m.preparation_of("bore " + c.feature);
-    out << (prepared ? prepared->record.outliers.removed_count() : 0) << '\n';
+    out << (prepared ? prepared->record.outliers.removed_count() : 0) << ',';
+    // What the bore took from a whole-part scan; empty when it has a point file of its own.
+    if (const FeatureSegmentation* f = m.segmentation_of("bore " + c.feature))
+      out << f->points << ',' << ReportUnits::fixed(*f->angular_coverage_deg, 1) << ','
+          << u.text(f->probed_span) << ',' << u.text(f->nominal_span) << '\n';
+    else
+      out << ",,,\n";
   }
   return out.str();
 }
