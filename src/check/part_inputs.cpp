@@ -148,8 +148,8 @@ SegmentedScan segment_part_scan(const PartPlan& plan, const PointCloud& cloud,
     f.probed_span = segment.probed_span;
     f.nominal_span = segment.nominal_span;
     record.features.push_back(std::move(f));
-    out.clouds.push_back(subset_cloud(cloud, segment.indices));
   }
+  out.clouds = split_cloud(cloud, result);
   return out;
 }
 

@@ -6,6 +6,9 @@
 #include <algorithm>
 #include <array>
 #include <cmath>
+#include <cstdint>
+#include <limits>
+#include <utility>
 #include <stdexcept>
 
 namespace cylzone {
@@ -18,7 +21,8 @@ constexpr double kPi = 3.14159265358979323846;
 struct Box {
   Eigen::Vector3d low, high;
   bool holds(const Eigen::Vector3d& p) const {
-    return (p.array() >= low.array()).all() && (p.array() <= high.array()).all();
+    return p.x() >= low.x() && p.x() <= high.x() && p.y() >= low.y() && p.y() <= high.y() &&
+           p.z() >= low.z() && p.z() <= high.z();
   }
 };
 
@@ -122,21 +126,33 @@ double largest_angular_gap_deg(const std::vector<double>& degrees) {
   return std::max(gap, 360.0 - (hi - lo));  // the gap that wraps through 360 degrees
 }
 
-PointCloud subset_cloud(const PointCloud& cloud, const std::vector<std::size_t>& indices) {
-  PointCloud out;
-  out.source = cloud.source;
-  out.file_unit = cloud.file_unit;
-  const auto count = static_cast<Eigen::Index>(indices.size());
-  out.points.resize(3, count);
+std::vector<PointCloud> split_cloud(const PointCloud& cloud, const SegmentationResult& segments) {
+  // One pass over the cloud in its order, each point copied to its surface's cloud: the reads
+  // stream through memory once, however the features' points are interleaved in the file.
+  constexpr std::uint32_t none = std::numeric_limits<std::uint32_t>::max();
+  std::vector<std::uint32_t> owner(cloud.size(), none);
+  const std::size_t count = segments.surfaces.size();
+  std::vector<PointCloud> out(count);
   const bool vectors = cloud.has_vectors();
-  if (vectors) out.vectors.resize(3, count);
   const bool lines = cloud.lines.size() == cloud.size();
-  if (lines) out.lines.reserve(indices.size());
-  for (Eigen::Index k = 0; k < count; ++k) {
-    const auto i = static_cast<Eigen::Index>(indices[static_cast<std::size_t>(k)]);
-    out.points.col(k) = cloud.points.col(i);
-    if (vectors) out.vectors.col(k) = cloud.vectors.col(i);
-    if (lines) out.lines.push_back(cloud.lines[static_cast<std::size_t>(i)]);
+  for (std::size_t k = 0; k < count; ++k) {
+    const auto n = static_cast<Eigen::Index>(segments.surfaces[k].indices.size());
+    out[k].source = cloud.source;
+    out[k].file_unit = cloud.file_unit;
+    out[k].points.resize(3, n);
+    if (vectors) out[k].vectors.resize(3, n);
+    if (lines) out[k].lines.resize(static_cast<std::size_t>(n));
+    for (std::size_t i : segments.surfaces[k].indices) owner[i] = static_cast<std::uint32_t>(k);
+  }
+  std::vector<Eigen::Index> next(count, 0);
+  for (std::size_t i = 0; i < owner.size(); ++i) {
+    if (owner[i] == none) continue;
+    PointCloud& to = out[owner[i]];
+    const Eigen::Index at = next[owner[i]]++;
+    const auto from = static_cast<Eigen::Index>(i);
+    to.points.col(at) = cloud.points.col(from);
+    if (vectors) to.vectors.col(at) = cloud.vectors.col(from);
+    if (lines) to.lines[static_cast<std::size_t>(at)] = cloud.lines[i];
   }
   return out;
 }
@@ -164,6 +180,16 @@ SegmentationResult segment_scan(const PointCloud& cloud, const RigidPlacement& p
   const Eigen::Matrix3d& R = placement.rotation;
   const Eigen::Vector3d& t = placement.translation;
   const std::size_t n = cloud.size();
+  // Per cylinder: the azimuth origin, the azimuths of the points taken and their axial range,
+  // gathered in the same pass (the points of one feature may be spread over the whole file).
+  std::vector<std::pair<Eigen::Vector3d, Eigen::Vector3d>> frames;
+  for (const NominalSurface& s : surfaces) {
+    const Eigen::Vector3d u = perpendicular(s.direction);
+    frames.emplace_back(u, s.direction.cross(u));
+  }
+  std::vector<std::vector<double>> azimuths(surfaces.size());
+  std::vector<double> s_min(surfaces.size(), std::numeric_limits<double>::infinity());
+  std::vector<double> s_max(surfaces.size(), -std::numeric_limits<double>::infinity());
 
   for (std::size_t i = 0; i < n; ++i) {
     const Eigen::Vector3d q = R * cloud.points.col(static_cast<Eigen::Index>(i)) + t;
@@ -207,10 +233,19 @@ SegmentationResult segment_scan(const PointCloud& cloud, const RigidPlacement& p
         best_distance = distance;
       }
     }
-    if (best == surfaces.size())
+    if (best == surfaces.size()) {
       ++result.unassigned;
-    else
-      result.surfaces[best].indices.push_back(i);
+      continue;
+    }
+    result.surfaces[best].indices.push_back(i);
+    const NominalSurface& s = surfaces[best];
+    if (s.kind != NominalSurface::Kind::cylinder) continue;
+    const Eigen::Vector3d rel = q - s.origin;
+    const double axial = s.direction.dot(rel);
+    s_min[best] = std::min(s_min[best], axial);
+    s_max[best] = std::max(s_max[best], axial);
+    azimuths[best].push_back(
+        std::atan2(frames[best].second.dot(rel), frames[best].first.dot(rel)) * 180.0 / kPi);
   }
 
   for (std::size_t k = 0; k < surfaces.size(); ++k) {
@@ -225,20 +260,8 @@ SegmentationResult segment_scan(const PointCloud& cloud, const RigidPlacement& p
     }
     segment.nearest_distance = 0.0;
     if (s.kind != NominalSurface::Kind::cylinder) continue;
-    const Eigen::Vector3d u = perpendicular(s.direction);
-    const Eigen::Vector3d v = s.direction.cross(u);
-    std::vector<double> azimuths;
-    azimuths.reserve(segment.indices.size());
-    double s_min = std::numeric_limits<double>::infinity(), s_max = -s_min;
-    for (std::size_t i : segment.indices) {
-      const Eigen::Vector3d rel = placed_point(cloud, placement, i) - s.origin;
-      const double axial = s.direction.dot(rel);
-      s_min = std::min(s_min, axial);
-      s_max = std::max(s_max, axial);
-      azimuths.push_back(std::atan2(v.dot(rel), u.dot(rel)) * 180.0 / kPi);
-    }
-    segment.angular_coverage_deg = 360.0 - largest_angular_gap_deg(azimuths);
-    segment.probed_span = s_max - s_min;
+    segment.angular_coverage_deg = 360.0 - largest_angular_gap_deg(azimuths[k]);
+    segment.probed_span = s_max[k] - s_min[k];
     segment.nominal_span = s.high - s.low;
   }
   return result;

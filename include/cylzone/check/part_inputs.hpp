@@ -72,7 +72,7 @@ std::vector<NominalSurface> scan_surfaces(const PartPlan& plan);
 /// A scan segmented among the plan's features.
 struct SegmentedScan {
   ScanSegmentation record;
-  /// Each feature's points in scan_surfaces' order (subset_cloud: the same points, vectors and
+  /// Each feature's points in scan_surfaces' order (split_cloud: the same points, vectors and
   /// file lines as the cloud, in the cloud's order).
   std::vector<PointCloud> clouds;
 };

@@ -112,8 +112,9 @@ inline Eigen::Vector3d placed_point(const PointCloud& cloud, const RigidPlacemen
          placement.translation;
 }
 
-/// A copy of the cloud's points `indices` (with their vectors and file lines, when present),
-/// in the cloud's own coordinates: the feature's points exactly as a file of them would give.
-PointCloud subset_cloud(const PointCloud& cloud, const std::vector<std::size_t>& indices);
+/// Each surface's points as a cloud of their own (with their vectors and file lines, when
+/// present), in the cloud's own coordinates and order: the feature's points exactly as a file
+/// of them would give. One pass over the cloud.
+std::vector<PointCloud> split_cloud(const PointCloud& cloud, const SegmentationResult& segments);
 
 }  // namespace cylzone
