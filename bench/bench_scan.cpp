@@ -6,10 +6,11 @@
 //   bench_scan generate DIR [POINTS] [ply|csv]   writes DIR/scan.ply (binary little-endian,
 //                                                float64 x y z) or DIR/scan.csv and DIR/plan.toml
 //   bench_scan read DIR                          reads the cloud only (the reader's share)
-//   bench_scan run DIR [--full] [--threads N]    times the check of DIR/plan.toml: the
+//   bench_scan run DIR [--full] [--threads N] [--phases]    times the check of DIR/plan.toml: the
 //                                                cloud read and hashed, segmented, every feature
 //                                                evaluated; prints the phases and the peak
-//                                                resident size (getrusage)
+//                                                resident size (getrusage); --phases then
+//                                                times reading and segmenting alone
 //
 // Run `run` under /usr/bin/time -v for the maximum resident set size as the system reports it
 // (bench/run_benchmarks.sh does). The default profile is the lean one (figures only: no
@@ -165,7 +166,7 @@ int generate(const fs::path& dir, std::size_t n, bool ply) {
   return 0;
 }
 
-int run(const fs::path& dir, bool full, std::size_t threads) {
+int run(const fs::path& dir, bool full, std::size_t threads, bool phases) {
   const auto start = std::chrono::steady_clock::now();
   const double cpu_start = cpu_seconds();
   const cylzone::PartPlan plan = cylzone::read_plan(dir / "plan.toml");
@@ -202,8 +203,9 @@ int run(const fs::path& dir, bool full, std::size_t threads) {
                   (24.0 * static_cast<double>(inputs.scan->points) / 1048576.0));
   std::printf("  peak resident after reading and segmenting: %.1f MB\n", loaded_peak_kb / 1024.0);
   std::printf("  part verdict: %s\n", std::string(cylzone::verdict_name(result.verdict)).c_str());
+  if (!phases) return 0;
   // The first phase broken down, after the peak above was taken: reading alone, segmenting
-  // alone.
+  // alone (the figures above stay alive, so the process's peak grows: not for /usr/bin/time).
   double cpu = cpu_seconds();
   const cylzone::PointCloud cloud = cylzone::read_points(plan.scan->points);
   const double read = cpu_seconds() - cpu;
@@ -234,21 +236,22 @@ int main(int argc, char** argv) {
       return 0;
     }
     if (argc >= 3 && std::strcmp(argv[1], "run") == 0) {
-      bool full = false;
+      bool full = false, phases = false;
       std::size_t threads = 1;
       for (int i = 3; i < argc; ++i) {
         if (std::strcmp(argv[i], "--full") == 0) full = true;
+        if (std::strcmp(argv[i], "--phases") == 0) phases = true;
         if (std::strcmp(argv[i], "--threads") == 0 && i + 1 < argc)
           threads = std::strtoull(argv[++i], nullptr, 10);
       }
-      return run(argv[2], full, threads);
+      return run(argv[2], full, threads, phases);
     }
   } catch (const std::exception& e) {
     std::fprintf(stderr, "bench_scan: %s\n", e.what());
     return 2;
   }
   std::fprintf(stderr,
-               "usage: bench_scan generate DIR [POINTS] [ply|csv] | bench_scan run DIR [--full] "
-               "[--threads N]\n");
+               "usage: bench_scan generate DIR [POINTS] [ply|csv] | bench_scan read DIR | "
+               "bench_scan run DIR [--full] [--threads N] [--phases]\n");
   return 2;
 }

@@ -442,3 +442,47 @@ TEST_CASE("demo scan: a feature with no point in its band is an error naming it 
                                      "surface normal"));
   }
 }
+
+TEST_CASE("demo scan: the cloud and its placement moved together change no point taken, no figure") {
+  // Results never depend on how the part sat on the machine: the scan moved by a rigid motion
+  // M (points and vectors), the placement composed with M^-1 and the measurement-coordinate
+  // material side turned by M, every feature takes the same rows and every figure agrees with
+  // the unmoved scan's to 1e-9 mm (rigid-motion invariance, docs/evaluation.md).
+  const PartPlan plan = read_plan(demo_dir + "plan-scan.toml");
+  const PointCloud cloud = read_points(plan.scan->points);
+  const Eigen::Matrix3d R =
+      Eigen::AngleAxisd(2.1, Eigen::Vector3d(1.0, 2.0, -0.5).normalized()).toRotationMatrix();
+  const Eigen::Vector3d t(-1500.25, 700.5, 2300.125);
+  PointCloud moved = cloud;
+  moved.points = (R * cloud.points).colwise() + t;
+  moved.vectors = R * cloud.vectors;
+  PartPlan moved_plan = plan;
+  RigidPlacement& p = moved_plan.scan->placement;
+  p.rotation = plan.scan->placement.rotation * R.transpose();
+  p.translation = plan.scan->placement.translation - p.rotation * t;
+  for (PlanDatum& d : moved_plan.datums)
+    if (d.material_side) d.material_side = R * *d.material_side;
+
+  const SegmentedScan before = segment_part_scan(plan, cloud, "");
+  const SegmentedScan after = segment_part_scan(moved_plan, moved, "");
+  REQUIRE(before.clouds.size() == after.clouds.size());
+  PartInputs inputs;
+  inputs.records.push_back({"plan", moved_plan.file, "", 0, {}});
+  for (std::size_t k = 0; k < after.clouds.size(); ++k) {
+    INFO(before.record.features[k].role);
+    CHECK(after.clouds[k].lines == before.clouds[k].lines);
+    CHECK(after.record.features[k].angular_coverage_deg.value_or(-1.0) ==
+          Approx(before.record.features[k].angular_coverage_deg.value_or(-1.0)).margin(1e-9));
+    (k < moved_plan.datums.size() ? inputs.datums : inputs.bores).push_back(after.clouds[k]);
+  }
+  inputs.scan = after.record;
+  const PartCheckResult by_moved = check_part(moved_plan, inputs);
+  const PartCheckResult by_scan = check_part(plan);
+  REQUIRE(by_moved.characteristics.size() == by_scan.characteristics.size());
+  for (std::size_t i = 0; i < by_scan.characteristics.size(); ++i) {
+    INFO(by_scan.characteristics[i].id);
+    CHECK(by_moved.characteristics[i].value ==
+          Approx(by_scan.characteristics[i].value).margin(1e-9));
+    CHECK(by_moved.characteristics[i].verdict == by_scan.characteristics[i].verdict);
+  }
+}
