@@ -20,6 +20,7 @@ References:
 
 Usage: /usr/bin/python3 crosscheck_segmentation.py PATH_TO_CYLZONE PLAN_SCAN
 """
+import csv
 import json
 import math
 import os
@@ -142,11 +143,25 @@ def run_check(plan_path, folder):
 
 def compare(plan_path, pts, vec, labels, folder, name):
     plan = tomllib.loads(plan_path.read_text())
-    p, out_json, _ = run_check(plan_path, folder)
+    p, out_json, out_csv = run_check(plan_path, folder)
     check(p.returncode == 1, f"{name}: exit code {p.returncode} (the demo does not conform): {p.stderr}")
     if p.returncode != 1:
         return
     seg = json.load(open(out_json))["segmentation"]
+    # The CSV's scan columns (the last four) and the table's section say the same as the JSON.
+    with open(out_csv, newline="") as f:
+        rows = list(csv.reader(f))
+    head = rows[0]
+    check(head[-4:] == ["scan_points", "scan_angular_coverage_deg", "scan_probed_depth",
+                        "scan_nominal_depth"], f"{name}: CSV header ends {head[-4:]}")
+    by_role = {f["role"]: f for f in seg["features"]}
+    for row in rows[1:]:
+        f = by_role.get("bore " + row[head.index("bore")])
+        check(f is not None and row[-4] == str(f["points"])
+              and row[-3] == f"{f['angular_coverage_deg']:.1f}"
+              and row[-2] == f"{f['probed_depth']:.4f}" and row[-1] == f"{f['nominal_depth']:.4f}",
+              f"{name}: CSV scan columns {row[-4:]} for {row[1]}")
+    check("Scan segmentation: " in p.stdout, f"{name}: the table has no segmentation section")
     expected, unassigned = segment(plan, pts, vec)
     check(seg["unassigned"] == unassigned, f"{name}: unassigned {seg['unassigned']} != numpy {unassigned}")
     check(seg["points"] == len(pts), f"{name}: points {seg['points']} != {len(pts)}")
