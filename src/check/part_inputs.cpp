@@ -3,6 +3,7 @@
 
 #include <cmath>
 #include <cstdio>
+#include <stdexcept>
 #include <utility>
 
 #include "cylzone/core/errors.hpp"
@@ -98,10 +99,31 @@ SegmentedScan segment_part_scan(const PartPlan& plan, const PointCloud& cloud,
   const std::vector<NominalSurface> surfaces = scan_surfaces(plan);
   SegmentOptions options = scan.segment;
   options.margin = options.margin.value_or(options.band);
-  const SegmentationResult result = segment_scan(cloud, scan.placement, surfaces, options);
-
   SegmentedScan out;
   ScanSegmentation& record = out.record;
+  record.placement = scan.placement;
+  if (scan.register_placement) {
+    // The rough placement refined on the datum features alone (they define the frame the
+    // nominal geometry is given in); then every feature is segmented with it.
+    std::vector<NominalSurface> datums;
+    for (const NominalSurface& s : surfaces)
+      if (s.name.rfind("datum ", 0) == 0) datums.push_back(s);
+    RegistrationOptions registration;
+    registration.segment = options;
+    try {
+      record.registration = register_to_nominal(cloud, scan.placement, datums, registration);
+    } catch (const std::invalid_argument&) {
+      throw InputError(plan.file.string(), scan.where.at("register").line,
+                       "no point of the scan lies within the band of " +
+                           length_text(options.band, plan.unit) +
+                           " about a datum feature's nominal surface with the rough placement: "
+                           "the registration has nothing to start from; check the placement",
+                       scan.where.at("register").key);
+    }
+    record.placement = record.registration->placement;
+  }
+  const SegmentationResult result = segment_scan(cloud, record.placement, surfaces, options);
+
   record.path = scan.points;
   record.sha256 = sha256;
   record.points = cloud.size();

@@ -121,7 +121,8 @@ bool contains(const std::array<std::string_view, N>& names, std::string_view nam
 constexpr auto kRootKeys =
     keys("format", "name", "units", "probe", "section_gap", "datum", "bore", "part", "scan");
 // One cloud of the whole part, segmented among the features (docs/plan.md, "[scan]").
-constexpr auto kScanKeys = keys("points", "band", "margin", "normal_agreement", "placement");
+constexpr auto kScanKeys =
+    keys("points", "band", "margin", "normal_agreement", "placement", "register");
 constexpr auto kPlacementKeys = keys("rotation", "translation");
 constexpr auto kExtentKeys = keys("x", "y");
 // Raw probe points: the same keys plan-wide ([probe]) and in a feature's own `probe` table.
@@ -641,6 +642,7 @@ class PlanParser {
         "[...], [0, 0, 0, 1]] or { rotation = [[...], [...], [...]], translation = [x, y, z] }";
     const toml::node& placement = require(table, "scan", "placement", expected);
     scan.placement = read_placement(placement, "scan.placement", expected);
+    scan.register_placement = read_switch(table, "scan", "register").value_or(false);
     return scan;
   }
 

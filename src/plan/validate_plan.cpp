@@ -226,8 +226,12 @@ class PlanRules {
            "the normal agreement is an angle in degrees greater than 0 and at most 90 (found " +
                plan_number_text(agreement) + ")");
     check_placement(scan.placement, at.at("placement"));
-    bool any = false;
-    for (const PlanDatum& d : plan_.datums) any = any || d.from_scan();
+    bool datum = false;
+    for (const PlanDatum& d : plan_.datums) datum = datum || d.from_scan();
+    if (scan.register_placement && !datum)
+      fail(at.at("register"), "register = true registers the scan to the nominal datum features "
+                              "that take their points from it, and none does");
+    bool any = datum;
     for (const PlanBore& b : plan_.bores) any = any || b.from_scan();
     if (!any)
       fail(at, "no feature takes its points from [scan]: every datum and bore names its own "

@@ -479,6 +479,11 @@ json segmentation_json(const ReportModel& m) {
   if (!m.scan) return nullptr;
   const ScanSegmentation& s = *m.scan;
   const ReportUnits& u = m.units;
+  json registration = nullptr;
+  if (const std::optional<RegistrationResult>& r = s.registration)
+    registration = {{"iterations", r->iterations}, {"converged", r->converged},
+                    {"points", r->points}, {"rms", u.length(r->rms)},
+                    {"free_directions", r->free_directions}};
   json features = json::array();
   for (const FeatureSegmentation& f : s.features) {
     json one = {{"role", f.role}, {"points", f.points}};
@@ -504,6 +509,7 @@ json segmentation_json(const ReportModel& m) {
           {"margin", u.length(s.options.margin.value_or(s.options.band))},
           {"normal_agreement_deg", s.options.normal_agreement_deg},
           {"normals_used", s.used_vectors},
+          {"registration", registration},
           {"features", features}};
 }
 

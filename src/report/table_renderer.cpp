@@ -164,6 +164,17 @@ void segmentation_lines(std::ostream& out, const ReportModel& m, const Symbols& 
                                      : std::string(", no normals")) +
                      "; " + std::to_string(s.unassigned) + " points within no feature's band",
                  width, 4);
+  if (const std::optional<RegistrationResult>& r = s.registration)
+    out << wrapped("  placement registered to the datum features: ",
+                   std::to_string(r->iterations) + " iterations" +
+                       (r->converged ? "" : " (not converged)") + ", " +
+                       std::to_string(r->points) + " points, rms " + u.text(r->rms) + " " +
+                       std::string(u.name()) +
+                       (r->free_directions > 0
+                            ? ", " + std::to_string(r->free_directions) +
+                                  " direction(s) not fixed by the datums kept as placed"
+                            : std::string()),
+                   width, 4);
   std::size_t role_w = 8;
   for (const FeatureSegmentation& f : s.features) role_w = std::max(role_w, columns(f.role) + 2);
   out << "  " << pad("feature", role_w) << pad_left("points", 9) << pad_left("angular", 12)

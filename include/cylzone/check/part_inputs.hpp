@@ -47,6 +47,10 @@ struct ScanSegmentation {
   SegmentOptions options;      ///< band, margin (settled), normal agreement
   bool used_vectors = false;   ///< the cloud had vectors: the normal agreement was applied
   std::vector<FeatureSegmentation> features;  ///< datums then bores taking scan points
+  /// The placement the segmentation used: the plan's, or the registered one.
+  RigidPlacement placement;
+  /// With the plan's `register = true`: how the placement was refined.
+  std::optional<RegistrationResult> registration;
 };
 
 /// A part's measured inputs, in the plan's order.

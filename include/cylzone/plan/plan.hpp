@@ -202,6 +202,9 @@ struct PlanScan {
   /// cloud's own coordinates, as with per-feature files.
   RigidPlacement placement;
   SegmentOptions segment;  ///< band, margin, normal agreement (mm, degrees)
+  /// Plan key `register`: refine `placement` by registering the cloud to the nominal datum
+  /// features that take scan points (register_to_nominal) before segmenting.
+  bool register_placement = false;
   PlanLocation where;
 };
 

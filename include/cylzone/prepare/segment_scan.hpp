@@ -112,6 +112,48 @@ inline Eigen::Vector3d placed_point(const PointCloud& cloud, const RigidPlacemen
          placement.translation;
 }
 
+// ---- Refining a rough placement (plan key [scan] register = true).
+
+struct RegistrationOptions {
+  SegmentOptions segment;        ///< the band that picks each iteration's correspondences
+  std::size_t max_iterations = 50;
+  /// Converged when an iteration moves every point within `reach` of the origin by less than
+  /// this (mm): |rotation step| * reach + |translation step|.
+  double tolerance = 1e-9;
+  double reach = 1000.0;         ///< mm
+  /// At most this many points take part (every k-th point of the cloud, in its order).
+  std::size_t max_points = 200000;
+  /// The first stage takes its correspondences from bands this many times wider than
+  /// `segment.band` (the capture range of a rough placement); the second from `segment.band`.
+  double capture_factor = 4.0;
+};
+
+struct RegistrationResult {
+  RigidPlacement placement;      ///< the refined placement
+  std::size_t iterations = 0;
+  bool converged = false;
+  std::size_t points = 0;        ///< correspondences of the last iteration
+  double rms = 0.0;              ///< mm: rms distance of those points from their surfaces
+  /// Degrees of freedom the surfaces cannot fix (e.g. the rotation about a lone bore's axis),
+  /// left as the rough placement had them.
+  std::size_t free_directions = 0;
+};
+
+/// Refines `rough` so that the cloud's points in the bands of `surfaces` (normally the datum
+/// features) lie on them in the least-squares sense: iterative closest point (Besl & McKay,
+/// IEEE PAMI 14(2), 1992) with the point-to-plane error of Chen & Medioni (Image and Vision
+/// Computing 10(3), 1992). The nominal surfaces are analytic, so each point's closest point is
+/// its foot on its surface (no search structure). Each iteration segments the points with the
+/// current placement, linearises the rotation (small-angle) and solves the 6x6 normal equations
+/// by a rank-revealing decomposition: directions the surfaces do not fix are left unchanged.
+/// Two stages: bands widened by `capture_factor` until converged (to reach a placement off by
+/// more than the band), then the band itself (so that the final correspondences are the
+/// segmentation's). `iterations` counts both.
+/// Throws std::invalid_argument when no point lies in any band.
+RegistrationResult register_to_nominal(const PointCloud& cloud, const RigidPlacement& rough,
+                                       const std::vector<NominalSurface>& surfaces,
+                                       const RegistrationOptions& options = {});
+
 /// Each surface's points as a cloud of their own (with their vectors and file lines, when
 /// present), in the cloud's own coordinates and order: the feature's points exactly as a file
 /// of them would give. One pass over the cloud.
