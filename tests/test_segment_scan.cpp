@@ -445,7 +445,7 @@ TEST_CASE("demo scan: a feature with no point in its band is an error naming it 
   }
 }
 
-TEST_CASE("demo scan: the cloud and its placement moved together change no point taken, no figure") {
+TEST_CASE("demo scan: cloud and placement moved together change no point taken, no figure") {
   // Results never depend on how the part sat on the machine: the scan moved by a rigid motion
   // M (points and vectors), the placement composed with M^-1 and the measurement-coordinate
   // material side turned by M, every feature takes the same rows and every figure agrees with
@@ -489,7 +489,7 @@ TEST_CASE("demo scan: the cloud and its placement moved together change no point
   }
 }
 
-TEST_CASE("demo scan: a placement off by more than the band, registered to the datums, takes every row again") {
+TEST_CASE("demo scan: a placement off by more than the band, registered, takes every row again") {
   // The demo's rough placement spoilt by 3 mrad about a skew axis and 0.34 mm: at 150 mm
   // from the origin the bands miss by more than their 0.2 mm. Registration to the nominal datum
   // features (point-to-plane ICP: Besl & McKay 1992; Chen & Medioni 1992) must recover it:

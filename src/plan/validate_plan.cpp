@@ -264,8 +264,9 @@ class PlanRules {
         const PlanLocation key = at.at(std::string("extent.") + name);
         bounded_location(*range, key, std::string("the extent in ") + name);
         if (!((*range)[0] < (*range)[1]))
-          fail(key, std::string("the extent in ") + name + " must be [low, high] with low < high (found [" +
-                        shown((*range)[0]) + ", " + shown((*range)[1]) + "])");
+          fail(key, std::string("the extent in ") + name +
+                        " must be [low, high] with low < high (found [" + shown((*range)[0]) +
+                        ", " + shown((*range)[1]) + "])");
       }
     }
     if (!plan_.scan || !d.from_scan()) return;

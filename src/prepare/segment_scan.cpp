@@ -256,8 +256,8 @@ SegmentationResult segment_scan(const PointCloud& cloud, const RigidPlacement& p
     if (segment.indices.empty()) {
       // Only for a surface that took nothing: how far its nearest points are, for the message.
       for (std::size_t i = 0; i < n; ++i)
-        segment.nearest_distance =
-            std::min(segment.nearest_distance, bounded_distance(s, placed_point(cloud, placement, i)));
+        segment.nearest_distance = std::min(segment.nearest_distance,
+                                            bounded_distance(s, placed_point(cloud, placement, i)));
       continue;
     }
     segment.nearest_distance = 0.0;
@@ -274,15 +274,16 @@ RegistrationResult register_to_nominal(const PointCloud& cloud, const RigidPlace
                                        const RegistrationOptions& options) {
   // A thinned copy of the cloud: every k-th point, vectors kept (normal agreement).
   const std::size_t n = cloud.size();
-  const std::size_t step = std::max<std::size_t>(1, (n + options.max_points - 1) /
-                                                        std::max<std::size_t>(1, options.max_points));
+  const std::size_t most = std::max<std::size_t>(1, options.max_points);
+  const std::size_t step = std::max<std::size_t>(1, (n + most - 1) / most);
   PointCloud thin;
   const auto m = static_cast<Eigen::Index>((n + step - 1) / step);
   thin.points.resize(3, m);
   if (cloud.has_vectors()) thin.vectors.resize(3, m);
   for (Eigen::Index k = 0; k < m; ++k) {
-    thin.points.col(k) = cloud.points.col(k * static_cast<Eigen::Index>(step));
-    if (cloud.has_vectors()) thin.vectors.col(k) = cloud.vectors.col(k * static_cast<Eigen::Index>(step));
+    const Eigen::Index from = k * static_cast<Eigen::Index>(step);
+    thin.points.col(k) = cloud.points.col(from);
+    if (cloud.has_vectors()) thin.vectors.col(k) = cloud.vectors.col(from);
   }
 
   RegistrationResult result;
@@ -292,68 +293,69 @@ RegistrationResult register_to_nominal(const PointCloud& cloud, const RigidPlace
   capture.margin =
       options.segment.margin.value_or(options.segment.band) * std::max(1.0, options.capture_factor);
   const std::array<const SegmentOptions*, 2> stages = {&capture, &options.segment};
-  for (const SegmentOptions* stage : stages)
-  for (std::size_t iteration = 0; iteration < options.max_iterations; ++iteration) {
-    const SegmentationResult taken = segment_scan(thin, result.placement, surfaces, *stage);
-    // Point-to-plane: r_i = n_i . (q_i - foot_i); a small motion (w, v) of the placed points
-    // changes it by (q_i x n_i) . w + n_i . v.
-    Eigen::Matrix<double, 6, 6> normal = Eigen::Matrix<double, 6, 6>::Zero();
-    Eigen::Matrix<double, 6, 1> rhs = Eigen::Matrix<double, 6, 1>::Zero();
-    double squares = 0.0;
-    std::size_t count = 0;
-    for (std::size_t k = 0; k < surfaces.size(); ++k) {
-      const NominalSurface& s = surfaces[k];
-      for (std::size_t i : taken.surfaces[k].indices) {
-        const Eigen::Vector3d q = placed_point(thin, result.placement, i);
-        const Eigen::Vector3d rel = q - s.origin;
-        Eigen::Vector3d nrm = s.direction;
-        double r = s.direction.dot(rel);
-        if (s.kind == NominalSurface::Kind::cylinder) {
-          const Eigen::Vector3d radial = rel - s.direction.dot(rel) * s.direction;
-          const double length = radial.norm();
-          if (!(length > 0.0)) continue;
-          nrm = radial / length;
-          r = length - s.radius;
+  for (const SegmentOptions* stage : stages) {
+    for (std::size_t iteration = 0; iteration < options.max_iterations; ++iteration) {
+      const SegmentationResult taken = segment_scan(thin, result.placement, surfaces, *stage);
+      // Point-to-plane: r_i = n_i . (q_i - foot_i); a small motion (w, v) of the placed points
+      // changes it by (q_i x n_i) . w + n_i . v.
+      Eigen::Matrix<double, 6, 6> normal = Eigen::Matrix<double, 6, 6>::Zero();
+      Eigen::Matrix<double, 6, 1> rhs = Eigen::Matrix<double, 6, 1>::Zero();
+      double squares = 0.0;
+      std::size_t count = 0;
+      for (std::size_t k = 0; k < surfaces.size(); ++k) {
+        const NominalSurface& s = surfaces[k];
+        for (std::size_t i : taken.surfaces[k].indices) {
+          const Eigen::Vector3d q = placed_point(thin, result.placement, i);
+          const Eigen::Vector3d rel = q - s.origin;
+          Eigen::Vector3d nrm = s.direction;
+          double r = s.direction.dot(rel);
+          if (s.kind == NominalSurface::Kind::cylinder) {
+            const Eigen::Vector3d radial = rel - s.direction.dot(rel) * s.direction;
+            const double length = radial.norm();
+            if (!(length > 0.0)) continue;
+            nrm = radial / length;
+            r = length - s.radius;
+          }
+          Eigen::Matrix<double, 6, 1> row;
+          row << q.cross(nrm), nrm;
+          normal.noalias() += row * row.transpose();
+          rhs.noalias() -= row * r;
+          squares += r * r;
+          ++count;
         }
-        Eigen::Matrix<double, 6, 1> row;
-        row << q.cross(nrm), nrm;
-        normal.noalias() += row * row.transpose();
-        rhs.noalias() -= row * r;
-        squares += r * r;
-        ++count;
       }
-    }
-    if (count == 0)
-      throw std::invalid_argument(
-          "register_to_nominal: no point of the cloud lies within the band of a datum feature's "
-          "nominal surface with the rough placement");
-    result.points = count;
-    result.rms = std::sqrt(squares / static_cast<double>(count));
-    // Rank-revealing: a direction the surfaces leave free (its eigenvalue below 1e-10 of the
-    // largest) gets no step.
-    const Eigen::SelfAdjointEigenSolver<Eigen::Matrix<double, 6, 6>> eigen(normal);
-    const double largest = eigen.eigenvalues().maxCoeff();
-    Eigen::Matrix<double, 6, 1> x = Eigen::Matrix<double, 6, 1>::Zero();
-    result.free_directions = 0;
-    for (int j = 0; j < 6; ++j) {
-      const double value = eigen.eigenvalues()[j];
-      if (!(value > 1e-10 * largest)) {
-        ++result.free_directions;
-        continue;
+      if (count == 0)
+        throw std::invalid_argument(
+            "register_to_nominal: no point of the cloud lies within the band of a datum feature's "
+            "nominal surface with the rough placement");
+      result.points = count;
+      result.rms = std::sqrt(squares / static_cast<double>(count));
+      // Rank-revealing: a direction the surfaces leave free (its eigenvalue below 1e-10 of the
+      // largest) gets no step.
+      const Eigen::SelfAdjointEigenSolver<Eigen::Matrix<double, 6, 6>> eigen(normal);
+      const double largest = eigen.eigenvalues().maxCoeff();
+      Eigen::Matrix<double, 6, 1> x = Eigen::Matrix<double, 6, 1>::Zero();
+      result.free_directions = 0;
+      for (int j = 0; j < 6; ++j) {
+        const double value = eigen.eigenvalues()[j];
+        if (!(value > 1e-10 * largest)) {
+          ++result.free_directions;
+          continue;
+        }
+        const Eigen::Matrix<double, 6, 1> v = eigen.eigenvectors().col(j);
+        x += v * (v.dot(rhs) / value);
       }
-      const Eigen::Matrix<double, 6, 1> v = eigen.eigenvectors().col(j);
-      x += v * (v.dot(rhs) / value);
+      const Eigen::Vector3d w = x.head<3>(), v = x.tail<3>();
+      const double angle = w.norm();
+      const Eigen::Matrix3d turn =
+          angle > 0.0 ? Eigen::AngleAxisd(angle, w / angle).toRotationMatrix()
+                      : Eigen::Matrix3d::Identity();
+      result.placement.rotation = turn * result.placement.rotation;
+      result.placement.translation = turn * result.placement.translation + v;
+      ++result.iterations;
+      result.converged = angle * options.reach + v.norm() < options.tolerance;
+      if (result.converged) break;
     }
-    const Eigen::Vector3d w = x.head<3>(), v = x.tail<3>();
-    const double angle = w.norm();
-    const Eigen::Matrix3d turn =
-        angle > 0.0 ? Eigen::AngleAxisd(angle, w / angle).toRotationMatrix()
-                    : Eigen::Matrix3d::Identity();
-    result.placement.rotation = turn * result.placement.rotation;
-    result.placement.translation = turn * result.placement.translation + v;
-    ++result.iterations;
-    result.converged = angle * options.reach + v.norm() < options.tolerance;
-    if (result.converged) break;
   }
   // Keep the rotation orthonormal to rounding after many small turns.
   const Eigen::JacobiSVD<Eigen::Matrix3d> svd(result.placement.rotation,
