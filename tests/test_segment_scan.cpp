@@ -2,8 +2,6 @@
 // check/part_inputs.hpp). References:
 //  * synthetic clouds built from the nominal geometry with known labels: every point is made
 //    at a chosen distance from its surface, so the band rule's answer is known by construction;
-//  * the largest circular gap by its definition (sorted angles, consecutive differences and
-//    the wrap-around), against the linear-time bucketing;
 //  * closed forms for the nearest distance (a point 3 mm off a cylinder's wall is 3 mm from it);
 //  * the demo part: its scan (point-clouds/valve-manifold/scan) holds the rows of the
 //    per-feature point files (the same text, so the same numbers) with a column naming each
@@ -89,29 +87,6 @@ RigidPlacement some_placement() {
 }
 
 }  // namespace
-
-TEST_CASE("largest angular gap: the bucketing equals the sorted definition") {
-  std::mt19937 rng(11);
-  std::uniform_real_distribution<double> angle(-720.0, 720.0);
-  for (int trial = 0; trial < 200; ++trial) {
-    const std::size_t n = 2 + static_cast<std::size_t>(trial % 37);
-    std::vector<double> a(n);
-    for (double& x : a) x = angle(rng);
-    if (trial % 5 == 0) a[1] = a[0];  // a repeated angle
-    // Definition: the largest difference of consecutive sorted angles on [0, 360), with the
-    // gap that wraps from the last back to the first.
-    std::vector<double> s;
-    for (double x : a) s.push_back(x - 360.0 * std::floor(x / 360.0));
-    std::sort(s.begin(), s.end());
-    double gap = 360.0 - (s.back() - s.front());
-    for (std::size_t i = 1; i < s.size(); ++i) gap = std::max(gap, s[i] - s[i - 1]);
-    CHECK(largest_angular_gap_deg(a) == Approx(gap).margin(1e-9));
-  }
-  CHECK(largest_angular_gap_deg({}) == 360.0);
-  CHECK(largest_angular_gap_deg({42.0}) == 360.0);
-  CHECK(largest_angular_gap_deg({10.0, 190.0}) == Approx(180.0));
-  CHECK(largest_angular_gap_deg({0.0, 90.0, 180.0, 270.0}) == Approx(90.0));
-}
 
 TEST_CASE("segment_scan: each point goes to the band it was built in, after the placement") {
   const std::vector<NominalSurface> surfaces = two_surfaces();

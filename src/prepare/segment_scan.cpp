@@ -1,6 +1,8 @@
 // Segmenting a whole-part scan among the nominal surfaces (segment_scan.hpp states the method).
 #include "cylzone/prepare/segment_scan.hpp"
 
+#include "detail/fit_support.hpp"
+
 #include <Eigen/Eigenvalues>
 #include <Eigen/Geometry>
 #include <Eigen/SVD>
@@ -95,39 +97,6 @@ double bounded_distance(const NominalSurface& s, const Eigen::Vector3d& q) {
 
 }  // namespace
 
-double largest_angular_gap_deg(const std::vector<double>& degrees) {
-  const std::size_t n = degrees.size();
-  if (n <= 1) return 360.0;
-  std::vector<double> a(n);
-  for (std::size_t i = 0; i < n; ++i) {
-    double x = std::fmod(degrees[i], 360.0);
-    if (x < 0.0) x += 360.0;
-    a[i] = x;
-  }
-  const auto [min_it, max_it] = std::minmax_element(a.begin(), a.end());
-  const double lo = *min_it, hi = *max_it;
-  if (!(hi > lo)) return 360.0;
-  // n values in n + 1 buckets over [lo, hi]: one bucket is empty, so the largest gap is at
-  // least a bucket wide and lies between buckets, never inside one.
-  const std::size_t buckets = n + 1;
-  std::vector<double> bmin(buckets, std::numeric_limits<double>::infinity());
-  std::vector<double> bmax(buckets, -std::numeric_limits<double>::infinity());
-  const double scale = static_cast<double>(buckets) / (hi - lo);
-  for (double x : a) {
-    const std::size_t b =
-        std::min(buckets - 1, static_cast<std::size_t>((x - lo) * scale));
-    bmin[b] = std::min(bmin[b], x);
-    bmax[b] = std::max(bmax[b], x);
-  }
-  double gap = 0.0, previous = lo;
-  for (std::size_t b = 0; b < buckets; ++b) {
-    if (!(bmin[b] <= bmax[b])) continue;
-    gap = std::max(gap, bmin[b] - previous);
-    previous = bmax[b];
-  }
-  return std::max(gap, 360.0 - (hi - lo));  // the gap that wraps through 360 degrees
-}
-
 std::vector<PointCloud> split_cloud(const PointCloud& cloud, const SegmentationResult& segments) {
   // One pass over the cloud in its order, each point copied to its surface's cloud: the reads
   // stream through memory once, however the features' points are interleaved in the file.
@@ -182,14 +151,18 @@ SegmentationResult segment_scan(const PointCloud& cloud, const RigidPlacement& p
   const Eigen::Matrix3d& R = placement.rotation;
   const Eigen::Vector3d& t = placement.translation;
   const std::size_t n = cloud.size();
-  // Per cylinder: the azimuth origin, the azimuths of the points taken and their axial range,
-  // gathered in the same pass (the points of one feature may be spread over the whole file).
+  // Per cylinder: the azimuth origin, the angular coverage and the axial range of the points
+  // taken, gathered in the same pass (the points of one feature may be spread over the whole
+  // file). The coverage is the fits' maximum-gap bucketing (detail::ArcCoverage), announced the
+  // cloud's size: exact for a cloud of up to 2^15 points, else exact for any gap of 0.014
+  // degrees or more.
   std::vector<std::pair<Eigen::Vector3d, Eigen::Vector3d>> frames;
+  std::vector<detail::ArcCoverage> coverage;
   for (const NominalSurface& s : surfaces) {
     const Eigen::Vector3d u = perpendicular(s.direction);
     frames.emplace_back(u, s.direction.cross(u));
+    coverage.emplace_back(s.kind == NominalSurface::Kind::cylinder ? n : 1);
   }
-  std::vector<std::vector<double>> azimuths(surfaces.size());
   std::vector<double> s_min(surfaces.size(), std::numeric_limits<double>::infinity());
   std::vector<double> s_max(surfaces.size(), -std::numeric_limits<double>::infinity());
 
@@ -246,8 +219,7 @@ SegmentationResult segment_scan(const PointCloud& cloud, const RigidPlacement& p
     const double axial = s.direction.dot(rel);
     s_min[best] = std::min(s_min[best], axial);
     s_max[best] = std::max(s_max[best], axial);
-    azimuths[best].push_back(
-        std::atan2(frames[best].second.dot(rel), frames[best].first.dot(rel)) * 180.0 / kPi);
+    coverage[best].add(frames[best].first.dot(rel), frames[best].second.dot(rel));
   }
 
   for (std::size_t k = 0; k < surfaces.size(); ++k) {
@@ -262,7 +234,7 @@ SegmentationResult segment_scan(const PointCloud& cloud, const RigidPlacement& p
     }
     segment.nearest_distance = 0.0;
     if (s.kind != NominalSurface::Kind::cylinder) continue;
-    segment.angular_coverage_deg = 360.0 - largest_angular_gap_deg(azimuths[k]);
+    segment.angular_coverage_deg = coverage[k].degrees();
     segment.probed_span = s_max[k] - s_min[k];
     segment.nominal_span = s.high - s.low;
   }

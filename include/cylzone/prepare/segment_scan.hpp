@@ -78,7 +78,8 @@ struct SurfaceSegment {
   /// what a surface that took nothing reports. Infinity for an empty cloud.
   double nearest_distance = std::numeric_limits<double>::infinity();
   /// Cylinders with points: 360 degrees minus the largest angular gap between the points'
-  /// azimuths about the nominal axis; the probed axial span (max s - min s) and the nominal one
+  /// azimuths about the nominal axis (exact for a cloud of up to 2^15 points, else for any gap
+  /// of 0.014 degrees or more: the fits' maximum-gap bucketing); the probed axial span (max s - min s) and the nominal one
   /// (high - low). Planes: angular coverage empty, spans 0.
   std::optional<double> angular_coverage_deg;
   double probed_span = 0.0;
@@ -96,14 +97,6 @@ struct SegmentationResult {
 SegmentationResult segment_scan(const PointCloud& cloud, const RigidPlacement& placement,
                                 const std::vector<NominalSurface>& surfaces,
                                 const SegmentOptions& options = {});
-
-/// The largest gap (degrees) between the angles `degrees` (any order, any range; taken modulo
-/// 360) on the circle; 360 for fewer than one angle, and for one angle. Linear time (bucketing
-/// by the pigeonhole argument: with n angles in n buckets the largest gap spans a bucket
-/// boundary, so only bucket minima and maxima are compared; Gonzalez, "Algorithms on sets and
-/// related problems", 1975, as given in Preparata & Shamos, Computational Geometry, 1985, from
-/// memory for the citation).
-double largest_angular_gap_deg(const std::vector<double>& degrees);
 
 /// The cloud's point `index` mapped by `placement`.
 inline Eigen::Vector3d placed_point(const PointCloud& cloud, const RigidPlacement& placement,
