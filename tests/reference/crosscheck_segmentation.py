@@ -15,6 +15,8 @@ References:
     axial parameter;
   * the same without vectors (the cloud rewritten as x, y, z only), so the normal agreement is
     not applied;
+  * a spike appended to the scan on bore P1's wall is removed by the residual rejection and
+    named by its line in the scan file;
   * bad input: a feature whose band holds no point, and a placement that is not a rotation, stop
     with exit code 2 and one `cylzone: error:` line naming the key, and write no report.
 
@@ -233,6 +235,29 @@ with tempfile.TemporaryDirectory() as tmp:
     (tmp / "bad" / "skewed.toml").write_text(skewed)
     expect_error(tmp / "bad" / "skewed.toml", tmp / "bad", "not a rotation", "scan.placement",
                  "not orthonormal")
+
+    # 5. A spike on bore P1's wall appended to the scan: the residual rejection removes it and
+    #    names it by its line in the scan file (each feature's points keep their file lines).
+    spiked = tmp / "spiked"
+    shutil.copytree(scan_path.parent, spiked / "scan")
+    rows = (spiked / plan["scan"]["points"]).read_text().splitlines()
+    k = next(i for i, label in enumerate(labels) if label == "bore P1")
+    spike = pts[k] + 0.03 * vec[k]          # 30 um off the wall, into the hole
+    rows.append(f"{spike[0]:.6f},{spike[1]:.6f},{spike[2]:.6f},"
+                f"{vec[k][0]:.7f},{vec[k][1]:.7f},{vec[k][2]:.7f},bore P1")
+    (spiked / plan["scan"]["points"]).write_text("\n".join(rows) + "\n")
+    (spiked / PLAN.name).write_text(plan_text)
+    out_json = spiked / "report.json"
+    p = subprocess.run([CLI, "check", str(spiked / PLAN.name), "--residual-rejection", "on",
+                        "--json", str(out_json), "--csv", str(spiked / "report.csv")],
+                       capture_output=True, text=True, timeout=300)
+    check(p.returncode in (0, 1), f"spike: exit code {p.returncode}: {p.stderr}")
+    if out_json.exists():
+        report = json.load(open(out_json))
+        removed = [q["line"] for e in report["preparation"] if e["role"] == "bore P1"
+                   for q in e["residual_rejection"]["removed"]]
+        check(removed == [len(rows)], f"spike: bore P1 removed lines {removed}, expected "
+                                      f"[{len(rows)}] (the appended row)")
 
 if failures:
     print("\n".join(failures))
