@@ -63,3 +63,19 @@ for extra in bench_fit_chebyshev bench_stray_points bench_evaluate_part; do
     "$build/bench/$extra"
   fi
 done
+
+# A whole-part scan end to end (bench_scan): 5,000,000 points with 8 bores written once as a
+# binary PLY of doubles, then read, segmented and evaluated under /usr/bin/time -v for the
+# system's maximum resident set size. The cloud takes 120 MB in the temporary folder.
+scan=$build/bench/bench_scan
+if [ -x "$scan" ]; then
+  echo
+  echo "bench_scan (5,000,000 points, 8 bores, binary PLY)"
+  "$scan" generate "$tmp/scan" 5000000 ply > /dev/null
+  if [ -x /usr/bin/time ]; then
+    /usr/bin/time -v "$scan" run "$tmp/scan" --threads "$(nproc)" 2> "$tmp/scan-time.txt"
+    grep -E "Maximum resident set size|Elapsed \(wall clock\)" "$tmp/scan-time.txt"
+  else
+    "$scan" run "$tmp/scan" --threads "$(nproc)"
+  fi
+fi

@@ -204,17 +204,18 @@ TEST_CASE("CSV: RFC 4180 quoting, four decimals in mm, one row per characteristi
         "decisive,units,id,caution,part_id,serial,timestamp,notes,range_source,status,reason,outliers_removed,"
         "probed_span,evaluated_length,extrapolation_top,extrapolation_bottom,tilt_magnification,"
         "sections,section_points_min,section_points_median,coverage_deg,"
-        "worst_section_coverage_deg,sampling_warnings");
+        "worst_section_coverage_deg,sampling_warnings,"
+        "scan_points,scan_angular_coverage_deg,scan_probed_depth,scan_nominal_depth");
   CHECK(first ==
         "\"Bracket, \"\"first\"\" article, rev B\",H1,\"position, frame fixed\",A|B(M) MMC,"
         "0.1000,0.0800,0.0100,0.0900,<=,does not conform,no,mm,H1/position," + caution +
-            ",,,,,plan depth,evaluated,,0" + ",,,,,,,,,,,");  // no sampling measured: empty
+            ",,,,,plan depth,evaluated,,0" + ",,,,,,,,,,," + ",,,,");  // no sampling measured, no scan: empty
   CHECK(second ==
         "\"Bracket, \"\"first\"\" article, rev B\",H1,\"position, datum mobility\",A|B(M) MMC,"
         "0.0850,0.0800,0.0100,0.0900,<=,conforms,yes,mm,H1/position/mobility," + caution +
-            ",,,,,plan depth,evaluated,,0" + ",,,,,,,,,,,");
+            ",,,,,plan depth,evaluated,,0" + ",,,,,,,,,,," + ",,,,");
   const std::vector<std::string> fields = csv_fields(second);
-  REQUIRE(fields.size() == 33);
+  REQUIRE(fields.size() == 37);
   CHECK(fields[0] == "Bracket, \"first\" article, rev B");
   CHECK(fields[13] == safety_caution);
 }
@@ -482,8 +483,8 @@ TEST_CASE("preparation: removed outliers by file line in JSON, CSV and table") {
   std::string header, row;
   std::getline(csv, header);
   std::getline(csv, row);
-  CHECK(csv_fields(header)[21] == "outliers_removed");  // the sampling columns follow it
-  CHECK(csv_fields(row)[21] == "1");
+  CHECK(csv_fields(header).at(21) == "outliers_removed");  // sampling and scan columns follow
+  CHECK(csv_fields(row).at(21) == "1");
   const std::string table = format_table(m);
   CHECK(table.find("Preparation of the points") != std::string::npos);
   CHECK(table.find("bore H1: residual rejection: 1 of 6 removed (line 5)") != std::string::npos);

@@ -4,8 +4,11 @@ points of datum face A, datum bores B and C and seven deep bores P1..P7, the par
 ground truth. Everything here is invented for the demo; no real part or product is described.
 
 Run with Debian's interpreter (numpy only):  /usr/bin/python3 generate.py
-It rewrites points/*.csv, plan.toml and ground-truth.json in this folder. The seed is fixed, so
-the output is the same on every run.
+It rewrites points/*.csv, plan.toml and ground-truth.json in this folder, and the same part as
+one whole-part scan: scan/manifold-scan.csv (every probed point above, in a shuffled order, plus
+points on the block's side faces that belong to no feature) with plan-scan.toml, which takes
+each feature's points from that cloud ([scan]). The seeds are fixed, so the output is the same
+on every run.
 
 How the truth is made exact (README.md explains it in words):
  * The part is built directly in its TRUE datum reference frame: z out of the material, datum
@@ -62,6 +65,15 @@ def rotation(axis, angle):
 _TILT_AXIS = [math.cos(math.radians(TILT_AXIS_AZIMUTH_DEG)),
               math.sin(math.radians(TILT_AXIS_AZIMUTH_DEG)), 0.0]
 R_PLACE = rotation(_TILT_AXIS, TILT_RAD) @ rotation([0, 0, 1], math.radians(YAW_DEG))
+
+# The whole-part scan (scan/, plan-scan.toml): the block's outline in the frame, its side-face
+# points, the band, datum A's nominal extent and the error of the scan's rough placement.
+BLOCK_OUTLINE = ((-30.0, 150.0), (-30.0, 85.0))
+SCAN_SIDE_POINTS = 400
+SCAN_BAND = 0.2
+A_EXTENT = ((-25.0, 145.0), (-25.0, 80.0))
+SCAN_PLACEMENT_ERROR_RAD = 0.35e-3
+SCAN_PLACEMENT_SHIFT_ERROR = (0.03, -0.02, 0.01)
 
 # Datum features of size. Their axes are exactly perpendicular to A (see the docstring).
 DATUM_B = dict(label="B", centre=(0.0, 0.0), diameter=20.0085, size=(20.000, 20.021), depth=30.0,
@@ -226,11 +238,21 @@ def to_measurement(points, normals):
     return points @ R_PLACE.T + T_PLACE, normals @ R_PLACE.T
 
 
-def write_csv(path, points, normals):
+def csv_rows(points, normals):
+    return [f"{p[0]:.6f},{p[1]:.6f},{p[2]:.6f},{n[0]:.7f},{n[1]:.7f},{n[2]:.7f}"
+            for p, n in zip(points, normals)]
+
+
+def write_csv(path, points, normals, scan_rows=None, label=None):
+    """Writes one feature's point file; with `scan_rows`, also keeps its rows (the very same
+    text) with their feature label for the whole-part scan."""
+    rows = csv_rows(points, normals)
     with open(path, "w", newline="\n") as f:
         f.write("x,y,z,i,j,k\n")
-        for p, n in zip(points, normals):
-            f.write(f"{p[0]:.6f},{p[1]:.6f},{p[2]:.6f},{n[0]:.7f},{n[1]:.7f},{n[2]:.7f}\n")
+        for row in rows:
+            f.write(row + "\n")
+    if scan_rows is not None:
+        scan_rows += [(row, label) for row in rows]
 
 
 def deviation(bore, z):
@@ -363,10 +385,32 @@ def verdict(ok):
     return "conforms" if ok else "does not conform"
 
 
-def plan_text():
-    lines = [
+def scan_placement():
+    """A rough placement of the scan in the part's nominal frame, as a 3-2-1 alignment on the
+    machine would give it: the exact inverse of the measurement placement, off by 0.35 mrad
+    about a skew axis and by a few hundredths of a millimetre."""
+    error = rotation([0.3, -0.8, 0.5], SCAN_PLACEMENT_ERROR_RAD)
+    rot = error @ R_PLACE.T
+    return rot, -rot @ T_PLACE + np.array(SCAN_PLACEMENT_SHIFT_ERROR)
+
+
+def plan_text(scan=False):
+    """The demo plan; with `scan`, the same plan taking every feature's points from the
+    whole-part scan (plan-scan.toml)."""
+    def points(path):
+        return [] if scan else [f'points = "{path}"']
+    header = [
         "# Part plan of the invented demo part HM-3207 rev C (hydraulic valve manifold block).",
         "# Written by generate.py: change the generator, not this file. See README.md.",
+    ]
+    if scan:
+        rot, shift = scan_placement()
+        rows = [f"  [{r[0]:.12f}, {r[1]:.12f}, {r[2]:.12f}, {t:.6f}]," for r, t in zip(rot, shift)]
+        header += [
+            "# The same part as one whole-part scan: every feature takes its points from",
+            "# scan/manifold-scan.csv, segmented by the band about its nominal surface.",
+        ]
+    lines = header + [
         'format = "cylzone-plan-1"',
         'name = "HM-3207 rev C valve manifold block, first article (invented demo data)"',
         'units = "mm"',
@@ -374,26 +418,45 @@ def plan_text():
         "[probe]",
         'points = "surface"',
         "tip_diameter = 2.0",
+    ]
+    if scan:
+        lines += [
+            "",
+            "# One cloud of the whole part; placement: cloud -> part's nominal frame (rough).",
+            "[scan]",
+            'points = "scan/manifold-scan.csv"',
+            f"band = {SCAN_BAND:.2f}",
+            "normal_agreement = 20.0",
+            "placement = [",
+            *rows,
+            "  [0.0, 0.0, 0.0, 1.0],",
+            "]",
+        ]
+    lines += [
         "",
         "# Top face of the block, probed on a grid; the part sits with A facing up (+z).",
         "[datum.A]",
         'feature = "plane"',
-        'points = "points/datum-A.csv"',
+        *points("points/datum-A.csv"),
         'association = "tangent-least-squares"',
         "material_side = [0.0, 0.0, -1.0]",
+        *([f"extent = {{ x = [{A_EXTENT[0][0]:.1f}, {A_EXTENT[0][1]:.1f}], "
+           f"y = [{A_EXTENT[1][0]:.1f}, {A_EXTENT[1][1]:.1f}] }}"] if scan else []),
         "",
         "# Locating bore for the mounting spigot, 20 H7, at RMB.",
         "[datum.B]",
         'feature = "bore"',
-        'points = "points/datum-B.csv"',
+        *points("points/datum-B.csv"),
         f"size = {{ lower = {DATUM_B['size'][0]:.3f}, upper = {DATUM_B['size'][1]:.3f} }}",
+        *([f"depth = {{ top = 0.0, bottom = {-DATUM_B['depth']:.1f} }}"] if scan else []),
         "",
         "# Anti-rotation dowel bore, 8 H7, at RMB: clocks the frame.",
         "[datum.C]",
         'feature = "bore"',
-        'points = "points/datum-C.csv"',
+        *points("points/datum-C.csv"),
         f"basic = [{DATUM_C['centre'][0]:.1f}, {DATUM_C['centre'][1]:.1f}]",
         f"size = {{ lower = {DATUM_C['size'][0]:.3f}, upper = {DATUM_C['size'][1]:.3f} }}",
+        *([f"depth = {{ top = 0.0, bottom = {-DATUM_C['depth']:.1f} }}"] if scan else []),
     ]
     for bore in BORES:
         tol, modifier = bore["position"]
@@ -403,7 +466,7 @@ def plan_text():
             f"position {tol:.3f} {modifier} to A|B|C over the full depth",
             "[[bore]]",
             f'id = "{bore["id"]}"',
-            f'points = "points/{bore["id"]}.csv"',
+            *points(f"points/{bore['id']}.csv"),
             f"basic = [{bore['basic'][0]:.1f}, {bore['basic'][1]:.1f}]",
             f"depth = {{ top = 0.0, bottom = {-bore['depth']:.1f} }}",
             f"size = {{ lower = {bore['size'][0]:.3f}, upper = {bore['size'][1]:.3f} }}",
@@ -413,6 +476,42 @@ def plan_text():
         if bore["cylindricity"] is not None:
             lines.append(f"cylindricity = {bore['cylindricity']:.3f}")
     return "\n".join(lines) + "\n"
+
+
+def side_face_points(rng):
+    """Points on the block's four side faces, outside every feature's band: a scan also sees
+    surfaces the plan does not tolerance (they stay unassigned)."""
+    (x0, x1), (y0, y1) = BLOCK_OUTLINE
+    pts, normals = [], []
+    for _ in range(SCAN_SIDE_POINTS):
+        face = rng.integers(4)
+        z = rng.uniform(-70.0, -3.0)
+        if face < 2:
+            y = rng.uniform(y0, y1)
+            pts.append((x0 if face == 0 else x1, y, z))
+            normals.append((-1.0 if face == 0 else 1.0, 0.0, 0.0))
+        else:
+            x = rng.uniform(x0, x1)
+            pts.append((x, y0 if face == 2 else y1, z))
+            normals.append((0.0, -1.0 if face == 2 else 1.0, 0.0))
+    pts, normals = np.array(pts), np.array(normals)
+    return pts + rng.normal(0, SIGMA, len(pts))[:, None] * normals, normals
+
+
+def write_scan(scan_rows):
+    """scan/manifold-scan.csv: the rows of every feature file (the same text, so the same
+    numbers) and the side-face points, shuffled; the last column names the feature a row came
+    from (the reader ignores it; tests use it as the truth of the segmentation)."""
+    rng = np.random.default_rng(SEED + 1)      # its own stream: the demo's points are unchanged
+    side = side_face_points(rng)
+    rows = scan_rows + [(row, "none") for row in csv_rows(*to_measurement(*side))]
+    order = rng.permutation(len(rows))
+    (HERE / "scan").mkdir(exist_ok=True)
+    with open(HERE / "scan" / "manifold-scan.csv", "w", newline="\n") as f:
+        f.write("x,y,z,i,j,k,feature\n")
+        for k in order:
+            f.write(f"{rows[k][0]},{rows[k][1]}\n")
+    (HERE / "plan-scan.toml").write_text(plan_text(scan=True))
 
 
 def main():
@@ -438,14 +537,16 @@ def main():
     ls_normal *= np.sign(ls_normal[2])
     ls_tilt = math.atan2(math.hypot(ls_normal[0], ls_normal[1]), ls_normal[2])
     noisy = a_points + rng.normal(0, SIGMA, len(g))[:, None] * a_normals
-    write_csv(out / "datum-A.csv", *to_measurement(noisy, a_normals))
+    scan_rows = []
+    write_csv(out / "datum-A.csv", *to_measurement(noisy, a_normals), scan_rows, "datum A")
 
     # ---- datums B and C, then the bores
     size_datums = {}
     for datum in (DATUM_B, DATUM_C):
         pts, normals, radii = probe_bore(datum, rng)
         noisy = pts + rng.normal(0, SIGMA, len(pts))[:, None] * normals
-        write_csv(out / f"datum-{datum['label']}.csv", *to_measurement(noisy, normals))
+        write_csv(out / f"datum-{datum['label']}.csv", *to_measurement(noisy, normals),
+                  scan_rows, f"datum {datum['label']}")
         size_datums[datum["label"]] = {
             "axis_point": [*datum["centre"], 0.0], "axis_direction": [0.0, 0.0, 1.0],
             "size": {"lower": datum["size"][0], "upper": datum["size"][1]},
@@ -461,11 +562,13 @@ def main():
     for bore in BORES:
         pts, normals, radii = probe_bore(bore, rng)
         noisy = pts + rng.normal(0, SIGMA, len(pts))[:, None] * normals
-        write_csv(out / f"{bore['id']}.csv", *to_measurement(noisy, normals))
+        write_csv(out / f"{bore['id']}.csv", *to_measurement(noisy, normals), scan_rows,
+                  f"bore {bore['id']}")
         truth_bores.append(truth_for_bore(bore, radii, pts))
         counts[f"bore {bore['id']}"] = len(pts)
 
     (HERE / "plan.toml").write_text(plan_text())
+    write_scan(scan_rows)
 
     truth = {
         "about": "Ground truth of the invented demo part HM-3207 rev C (not a real part). "

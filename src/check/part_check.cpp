@@ -401,6 +401,7 @@ PartCheckResult check_part(const PartPlan& plan, const PartInputs& inputs,
   PartCheckResult result;
   result.plan = plan;
   result.inputs = inputs.records;
+  result.scan = inputs.scan;
   PartEvaluation evaluation = evaluate_part(plan, inputs, options.evaluation);
   // Plan and data must describe the same part: refuse what would be meaningless, warn the rest.
   check_plausibility(plan, inputs, evaluation);

@@ -1,35 +1,211 @@
 // The load stage (part_inputs.hpp): the only part of a check that reads files.
 #include "cylzone/check/part_inputs.hpp"
 
+#include <cmath>
+#include <cstdio>
+#include <stdexcept>
+#include <utility>
+
+#include "cylzone/core/errors.hpp"
 #include "cylzone/io/load.hpp"
 #include "io/detail/file_digest.hpp"
 
 namespace cylzone {
 namespace {
 
+/// Reads `file` once; returns the cloud and the digest of the very bytes parsed. The bytes are
+/// released before returning, so a large scan is not held twice while it is segmented.
+std::pair<PointCloud, std::string> load_hashed(const std::filesystem::path& file,
+                                               const ReadOptions& read) {
+  const LoadedFile loaded = load(file);
+  std::string digest = detail::sha256_of_bytes(loaded.bytes());
+  PointCloud cloud = parse_points(loaded.bytes(), file.string(),
+                                  read.format.value_or(format_from_extension(file)), read);
+  return {std::move(cloud), std::move(digest)};
+}
+
 /// Reads `file` once; the digest is of the very bytes parsed.
 PointCloud load_and_record(const std::filesystem::path& file, const std::string& role,
                            const ReadOptions& read, std::vector<InputRecord>& records) {
-  const LoadedFile loaded = load(file);
-  PointCloud cloud = parse_points(loaded.bytes(), file.string(),
-                                  read.format.value_or(format_from_extension(file)), read);
-  records.push_back(
-      {role, file, detail::sha256_of_bytes(loaded.bytes()), cloud.size(), cloud.lines});
-  return cloud;
+  auto [cloud, digest] = load_hashed(file, read);
+  records.push_back({role, file, std::move(digest), cloud.size(), cloud.lines});
+  return std::move(cloud);
+}
+
+double nominal_size(const std::optional<double>& given, const std::optional<SizeLimits>& size) {
+  return given ? *given : 0.5 * (size->lower + size->upper);
+}
+
+NominalSurface nominal_cylinder(std::string role, const Eigen::Vector2d& basic,
+                                const Eigen::Vector3d& direction, double size, double top,
+                                double bottom) {
+  NominalSurface s;
+  s.kind = NominalSurface::Kind::cylinder;
+  s.name = std::move(role);
+  s.origin = Eigen::Vector3d(basic.x(), basic.y(), 0.0);
+  s.direction = direction;
+  s.radius = 0.5 * size;
+  // The plan's depth ends are heights z in the frame; along an inclined axis through the basic
+  // location on A (z = 0) they lie at s = z / d_z.
+  s.low = bottom / direction.z();
+  s.high = top / direction.z();
+  return s;
+}
+
+/// A length for a message, in the plan's unit.
+std::string length_text(double mm, LengthUnit unit) {
+  char text[64];
+  std::snprintf(text, sizeof text, "%.4g %s", mm / millimetres_per(unit),
+                std::string(unit_name(unit)).c_str());
+  return text;
 }
 
 }  // namespace
+
+std::vector<NominalSurface> scan_surfaces(const PartPlan& plan) {
+  std::vector<NominalSurface> surfaces;
+  for (const PlanDatum& d : plan.datums) {
+    if (!d.from_scan()) continue;
+    const std::string role = std::string("datum ") + d.label;
+    if (d.kind == FeatureKind::plane) {
+      // Datum A: the plane z = 0 of the frame, its normal out of the material.
+      NominalSurface s;
+      s.kind = NominalSurface::Kind::plane;
+      s.name = role;
+      s.u_low = d.extent_x ? (*d.extent_x)[0] : 0.0;
+      s.u_high = d.extent_x ? (*d.extent_x)[1] : 0.0;
+      s.v_low = d.extent_y ? (*d.extent_y)[0] : 0.0;
+      s.v_high = d.extent_y ? (*d.extent_y)[1] : 0.0;
+      surfaces.push_back(s);
+      continue;
+    }
+    surfaces.push_back(nominal_cylinder(
+        role, d.basic_location.value_or(Eigen::Vector2d::Zero()), Eigen::Vector3d::UnitZ(),
+        nominal_size(d.nominal_size, d.size), d.depth_top.value_or(0.0),
+        d.depth_bottom.value_or(0.0)));
+  }
+  for (const PlanBore& b : plan.bores)
+    if (b.from_scan())
+      surfaces.push_back(nominal_cylinder("bore " + b.id, b.basic_location, b.nominal_direction,
+                                          nominal_size(b.nominal_size, b.size),
+                                          b.depth_top.value_or(0.0),
+                                          b.depth_bottom.value_or(0.0)));
+  return surfaces;
+}
+
+SegmentedScan segment_part_scan(const PartPlan& plan, const PointCloud& cloud,
+                                const std::string& sha256) {
+  const PlanScan& scan = *plan.scan;
+  const std::vector<NominalSurface> surfaces = scan_surfaces(plan);
+  SegmentOptions options = scan.segment;
+  options.margin = options.margin.value_or(options.band);
+  SegmentedScan out;
+  ScanSegmentation& record = out.record;
+  record.placement = scan.placement;
+  if (scan.register_placement) {
+    // The rough placement refined on the datum features alone (they define the frame the
+    // nominal geometry is given in); then every feature is segmented with it.
+    std::vector<NominalSurface> datums;
+    for (const NominalSurface& s : surfaces)
+      if (s.name.rfind("datum ", 0) == 0) datums.push_back(s);
+    RegistrationOptions registration;
+    registration.segment = options;
+    try {
+      record.registration = register_to_nominal(cloud, scan.placement, datums, registration);
+    } catch (const std::invalid_argument&) {
+      throw InputError(plan.file.string(), scan.where.at("register").line,
+                       "no point of the scan lies within the band of " +
+                           length_text(options.band, plan.unit) +
+                           " about a datum feature's nominal surface with the rough placement: "
+                           "the registration has nothing to start from; check the placement",
+                       scan.where.at("register").key);
+    }
+    record.placement = record.registration->placement;
+  }
+  const SegmentationResult result = segment_scan(cloud, record.placement, surfaces, options);
+
+  record.path = scan.points;
+  record.sha256 = sha256;
+  record.points = cloud.size();
+  record.unassigned = result.unassigned;
+  record.options = options;
+  record.used_vectors = result.used_vectors;
+  // The tables of the features, in scan_surfaces' order, for messages.
+  std::vector<const PlanLocation*> where;
+  for (const PlanDatum& d : plan.datums)
+    if (d.from_scan()) where.push_back(&d.where);
+  for (const PlanBore& b : plan.bores)
+    if (b.from_scan()) where.push_back(&b.where);
+
+  for (std::size_t k = 0; k < surfaces.size(); ++k) {
+    const SurfaceSegment& segment = result.surfaces[k];
+    if (segment.indices.empty()) {
+      std::string nearest =
+          std::isfinite(segment.nearest_distance)
+              ? "its nearest points are " + length_text(segment.nearest_distance, plan.unit) +
+                    " from it"
+              : "the cloud has no points";
+      // Points inside the band that were all refused by their vectors, or by the margin.
+      if (segment.nearest_distance <= options.band)
+        nearest += result.used_vectors
+                       ? ", but their vectors are more than " +
+                             std::to_string(static_cast<int>(options.normal_agreement_deg)) +
+                             " degrees from its surface normal, or they lie beyond its depth or "
+                             "extent by more than the margin"
+                       : ", but they lie beyond its depth or extent by more than the margin";
+      throw InputError(plan.file.string(), where[k]->line,
+                       surfaces[k].name + " takes no point of the scan " +
+                           quoted_for_message(scan.points.string()) +
+                           ": none lies within the band of " +
+                           length_text(options.band, plan.unit) +
+                           " about its nominal surface (" + nearest +
+                           "); check the scan's placement, the band and the feature's nominal "
+                           "location, size and depth",
+                       where[k]->key);
+    }
+    FeatureSegmentation f;
+    f.role = surfaces[k].name;
+    f.points = segment.indices.size();
+    f.angular_coverage_deg = segment.angular_coverage_deg;
+    f.probed_span = segment.probed_span;
+    f.nominal_span = segment.nominal_span;
+    record.features.push_back(std::move(f));
+  }
+  out.clouds = split_cloud(cloud, result);
+  return out;
+}
 
 PartInputs load_part_inputs(const PartPlan& plan) {
   PartInputs inputs;
   inputs.records.push_back({"plan", plan.file, plan.sha256, 0, {}});
   ReadOptions read;
   read.unit = plan.unit;
-  for (const PlanDatum& datum : plan.datums)
-    inputs.datums.push_back(load_and_record(datum.points, std::string("datum ") + datum.label,
-                                            read, inputs.records));
-  for (const PlanBore& bore : plan.bores)
-    inputs.bores.push_back(load_and_record(bore.points, "bore " + bore.id, read, inputs.records));
+  SegmentedScan scanned;
+  if (plan.scan) {
+    // The whole-part cloud: read and hashed once, segmented, then released.
+    auto [cloud, digest] = load_hashed(plan.scan->points, read);
+    scanned = segment_part_scan(plan, cloud, digest);
+  }
+  std::size_t next = 0;  // the next feature in scan_surfaces' order
+  const auto take = [&](const std::string& role) {
+    PointCloud cloud = std::move(scanned.clouds[next++]);
+    inputs.records.push_back(
+        {role, scanned.record.path, scanned.record.sha256, cloud.size(), cloud.lines});
+    return cloud;
+  };
+  for (const PlanDatum& datum : plan.datums) {
+    const std::string role = std::string("datum ") + datum.label;
+    inputs.datums.push_back(datum.from_scan()
+                                ? take(role)
+                                : load_and_record(datum.points, role, read, inputs.records));
+  }
+  for (const PlanBore& bore : plan.bores) {
+    const std::string role = "bore " + bore.id;
+    inputs.bores.push_back(bore.from_scan()
+                               ? take(role)
+                               : load_and_record(bore.points, role, read, inputs.records));
+  }
+  if (plan.scan) inputs.scan = std::move(scanned.record);
   return inputs;
 }
 

@@ -11,6 +11,7 @@
 #include <cstdlib>
 #include <system_error>
 #include <type_traits>
+#include <tuple>
 #include <utility>
 
 #include "cylzone/core/errors.hpp"
@@ -118,19 +119,32 @@ bool contains(const std::array<std::string_view, N>& names, std::string_view nam
 
 // Key sets of each table (docs/plan.md lists them with their meaning).
 constexpr auto kRootKeys =
-    keys("format", "name", "units", "probe", "section_gap", "datum", "bore", "part", "sampling");
+    keys("format", "name", "units", "probe", "section_gap", "datum", "bore", "part", "sampling", "scan");
+// One cloud of the whole part, segmented among the features (docs/plan.md, "[scan]").
+constexpr auto kScanKeys =
+    keys("points", "band", "margin", "normal_agreement", "placement", "register");
+constexpr auto kPlacementKeys = keys("rotation", "translation");
+constexpr auto kExtentKeys = keys("x", "y");
 // Raw probe points: the same keys plan-wide ([probe]) and in a feature's own `probe` table.
 constexpr auto kProbeKeys = keys("points", "tip_diameter", "neighbour_filter", "residual_rejection");
-constexpr auto kDatumAKeys = keys("feature", "points", "association", "material_side", "probe");
-constexpr auto kDatumBKeys = keys("feature", "points", "size", "mmb", "probe");
-constexpr auto kDatumCSizeKeys = keys("feature", "points", "basic", "size", "mmb", "probe");
+constexpr auto kDatumAKeys =
+    keys("feature", "points", "association", "material_side", "probe", "extent");
+constexpr auto kDatumBKeys =
+    keys("feature", "points", "size", "mmb", "probe", "nominal_size", "depth");
+// A bore or pin C may take its points from a [scan] and then gives its nominal size and depth;
+// a slot or tab cannot (its nominal faces are not in the plan).
+constexpr auto kDatumCSizeKeys =
+    keys("feature", "points", "basic", "size", "mmb", "probe", "nominal_size", "depth");
+constexpr auto kDatumCWidthKeys = keys("feature", "points", "basic", "size", "mmb", "probe");
 constexpr auto kDatumCPlaneKeys =
     keys("feature", "points", "outward_normal", "material_side", "probe");
 constexpr auto kDatumCAnyKeys = keys("feature", "points", "basic", "size", "mmb",
-                                     "outward_normal", "material_side", "probe");
+                                     "outward_normal", "material_side", "probe", "nominal_size",
+                                     "depth");
 constexpr auto kBoreKeys =
     keys("id", "points", "basic", "direction", "depth", "size", "axis", "section_gap",
-         "position", "perpendicularity", "cylindricity", "axis_direction", "probe", "sampling");
+         "position", "perpendicularity", "cylindricity", "axis_direction", "probe",
+         "nominal_size", "sampling");
 constexpr auto kSizeKeys = keys("lower", "upper");
 constexpr auto kDepthKeys = keys("top", "bottom");
 constexpr auto kPositionKeys = keys("tolerance", "modifier", "datums", "projected",
@@ -185,6 +199,9 @@ class PlanParser {
     if (const toml::node* probe = root.get("probe")) plan.probe = read_probe(*probe);
     if (const toml::node* gap = root.get("section_gap"))
       plan.section_gap = read_length(*gap, "section_gap", "the section gap (a number)");
+    // [scan] before the features: with it, a feature's own `points` becomes optional.
+    if (const toml::node* scan = root.get("scan")) plan.scan = read_scan(*scan);
+    scan_given_ = plan.scan.has_value();
     read_datums(root, plan);
     read_bores(root, plan);
     if (const toml::node* part = root.get("part")) plan.part = read_part(*part);
@@ -308,10 +325,19 @@ class PlanParser {
     return v / length;
   }
 
+  /// A feature's point file; empty when the plan has a [scan] and the feature gives none (it
+  /// then takes its points from the scan).
   std::filesystem::path read_points_path(const toml::table& table, const std::string& path) const {
+    if (scan_given_ && !table.get("points")) return {};
+    return read_file_path(table, path);
+  }
+
+  std::filesystem::path read_file_path(const toml::table& table, const std::string& path) const {
     const std::string key = join_path(path, "points");
     const toml::node& node =
-        require(table, path, "points", "the path of the point file (a string)");
+        require(table, path, "points",
+                scan_given_ ? "the path of the point file (a string)"
+                            : "the path of the point file (a string), or a [scan] table");
     const std::string given = read_string(node, key, "the path of the point file (a string)");
     if (given.empty()) fail(line_of(node), key, "the path of the point file is empty");
     // Relative paths are relative to the plan's folder, so a plan and its points move together.
@@ -423,8 +449,10 @@ class PlanParser {
       check_keys(table, path, kDatumBKeys, "for datum B");
     else if (peeked == "plane")
       check_keys(table, path, kDatumCPlaneKeys, "for datum C as a plane");
-    else if (peeked == "bore" || peeked == "pin" || peeked == "slot" || peeked == "tab")
+    else if (peeked == "bore" || peeked == "pin")
       check_keys(table, path, kDatumCSizeKeys, "for datum C as a " + peeked);
+    else if (peeked == "slot" || peeked == "tab")
+      check_keys(table, path, kDatumCWidthKeys, "for datum C as a " + peeked);
     else
       check_keys(table, path, kDatumCAnyKeys, "for datum C");
 
@@ -464,6 +492,13 @@ class PlanParser {
       d.probe = read_probe_table(*probe, path + ".probe");
     if (const toml::node* mmb = table.get("mmb"))
       d.mmb_size = read_length(*mmb, path + ".mmb", "the maximum material boundary (a number)");
+
+    if (const toml::node* nominal = table.get("nominal_size"))
+      d.nominal_size =
+          read_length(*nominal, path + ".nominal_size", "the nominal size (a number)");
+    if (const toml::node* depth = table.get("depth"))
+      std::tie(d.depth_top, d.depth_bottom) = read_depth(*depth, path + ".depth");
+    if (const toml::node* extent = table.get("extent")) read_extent(*extent, path + ".extent", d);
 
     if (label == 'C' && d.kind != FeatureKind::plane) {
       // A bore or pin C is located by its axis; a slot or tab by its centre on A, whose
@@ -534,7 +569,11 @@ class PlanParser {
       bore.nominal_direction = d;
     }
 
-    if (const toml::node* depth = table.get("depth")) read_depth(*depth, path + ".depth", bore);
+    if (const toml::node* depth = table.get("depth"))
+      std::tie(bore.depth_top, bore.depth_bottom) = read_depth(*depth, path + ".depth");
+    if (const toml::node* nominal = table.get("nominal_size"))
+      bore.nominal_size =
+          read_length(*nominal, path + ".nominal_size", "the nominal size (a number)");
     if (const toml::node* size = table.get("size")) bore.size = read_size(*size, path + ".size");
 
     if (const toml::node* axis = table.get("axis"))
@@ -563,7 +602,9 @@ class PlanParser {
     return bore;
   }
 
-  void read_depth(const toml::node& node, const std::string& key, PlanBore& bore) const {
+  /// A z range { top, bottom } (mm): a bore's evaluated range, a datum feature's nominal one.
+  std::pair<std::optional<double>, std::optional<double>> read_depth(
+      const toml::node& node, const std::string& key) const {
     const toml::table& table =
         as_table(node, key, "a depth range { top = ..., bottom = ... } (z in the frame)");
     check_keys(table, key, kDepthKeys, "in a depth range");
@@ -571,10 +612,101 @@ class PlanParser {
     const toml::node* bottom = table.get("bottom");
     if (!top && !bottom)
       fail(line_of(table), key, "the depth range is empty: give top, bottom or both");
-    if (top) bore.depth_top = read_length(*top, key + ".top", "the top of the range (a number)");
+    std::pair<std::optional<double>, std::optional<double>> range;
+    if (top) range.first = read_length(*top, key + ".top", "the top of the range (a number)");
     if (bottom)
-      bore.depth_bottom =
-          read_length(*bottom, key + ".bottom", "the bottom of the range (a number)");
+      range.second = read_length(*bottom, key + ".bottom", "the bottom of the range (a number)");
+    return range;
+  }
+
+  /// Datum A's nominal extent { x = [low, high], y = [low, high] } on the plane z = 0 (mm).
+  void read_extent(const toml::node& node, const std::string& key, PlanDatum& d) const {
+    const std::string expected = "an extent { x = [low, high], y = [low, high] } (in the frame)";
+    const toml::table& table = as_table(node, key, expected);
+    check_keys(table, key, kExtentKeys, "in an extent");
+    const toml::node& x = require(table, key, "x", "the range [low, high] of x (2 numbers)");
+    const toml::node& y = require(table, key, "y", "the range [low, high] of y (2 numbers)");
+    d.extent_x = read_vector<2>(x, key + ".x", "the range [low, high] of x (2 numbers)") *
+                 mm_per_unit_;
+    d.extent_y = read_vector<2>(y, key + ".y", "the range [low, high] of y (2 numbers)") *
+                 mm_per_unit_;
+  }
+
+  // ------------------------------------------------------------------ [scan]
+
+  PlanScan read_scan(const toml::node& node) const {
+    const toml::table& table = as_table(node, "scan", "a [scan] table");
+    check_keys(table, "scan", kScanKeys, "in [scan]");
+    PlanScan scan;
+    scan.where = location_of(table, "scan");
+    scan.points = read_file_path(table, "scan");
+    const toml::node& band =
+        require(table, "scan", "band", "the half-width of the band about each nominal surface");
+    scan.segment.band = read_length(band, "scan.band", "the band's half-width (a number)");
+    if (const toml::node* margin = table.get("margin"))
+      scan.segment.margin = read_length(*margin, "scan.margin", "the margin (a number)");
+    if (const toml::node* agreement = table.get("normal_agreement"))
+      scan.segment.normal_agreement_deg =
+          read_number(*agreement, "scan.normal_agreement", "an angle in degrees (a number)");
+    const std::string expected =
+        "the placement of the cloud in the part's coordinates: a 4x4 matrix [[...], [...], "
+        "[...], [0, 0, 0, 1]] or { rotation = [[...], [...], [...]], translation = [x, y, z] }";
+    const toml::node& placement = require(table, "scan", "placement", expected);
+    scan.placement = read_placement(placement, "scan.placement", expected);
+    scan.register_placement = read_switch(table, "scan", "register").value_or(false);
+    return scan;
+  }
+
+  /// Row `row` of a matrix written as an array of arrays, `columns` numbers long.
+  template <int N>
+  Eigen::Matrix<double, N, 1> read_row(const toml::array& rows, std::size_t row,
+                                       const std::string& key) const {
+    return read_vector<N>(*rows.get(row), key,
+                          "row " + std::to_string(row + 1) + " of the matrix (" +
+                              std::to_string(N) + " numbers)");
+  }
+
+  RigidPlacement read_placement(const toml::node& node, const std::string& key,
+                                const std::string& expected) const {
+    RigidPlacement p;
+    if (const toml::array* rows = node.as_array()) {
+      if (rows->size() != 4)
+        fail(line_of(node), key,
+             "expected a 4x4 matrix (4 rows of 4 numbers), found an array of " +
+                 std::to_string(rows->size()) + (rows->size() == 1 ? " element" : " elements"));
+      for (std::size_t r = 0; r < 4; ++r) {
+        const Eigen::Vector4d row = read_row<4>(*rows, r, key);
+        if (r < 3) {
+          p.rotation.row(static_cast<Eigen::Index>(r)) = row.head<3>().transpose();
+          p.translation[static_cast<Eigen::Index>(r)] = row[3] * mm_per_unit_;
+        } else if (row != Eigen::Vector4d(0, 0, 0, 1)) {
+          fail(line_of(*rows->get(3)), key,
+               "the last row of a rigid placement must be [0, 0, 0, 1], found [" +
+                   plan_number_text(row[0]) + ", " + plan_number_text(row[1]) + ", " +
+                   plan_number_text(row[2]) + ", " + plan_number_text(row[3]) + "]");
+        }
+      }
+      return p;
+    }
+    const toml::table& table = as_table(node, key, expected);
+    check_keys(table, key, kPlacementKeys, "in a placement");
+    const toml::node& rotation =
+        require(table, key, "rotation", "a 3x3 rotation matrix [[...], [...], [...]]");
+    const toml::array* rows = rotation.as_array();
+    if (!rows || rows->size() != 3)
+      fail(line_of(rotation), key + ".rotation",
+           "expected a 3x3 rotation matrix (3 rows of 3 numbers), found " +
+               (rows ? "an array of " + std::to_string(rows->size()) + " elements"
+                     : type_text(rotation)));
+    for (std::size_t r = 0; r < 3; ++r)
+      p.rotation.row(static_cast<Eigen::Index>(r)) =
+          read_row<3>(*rows, r, key + ".rotation").transpose();
+    const toml::node& translation =
+        require(table, key, "translation", "a translation [x, y, z] (3 numbers)");
+    p.translation = read_vector<3>(translation, key + ".translation",
+                                   "a translation [x, y, z] (3 numbers)") *
+                    mm_per_unit_;
+    return p;
   }
 
   PlanTolerance read_tolerance(const toml::node& node, const std::string& key,
@@ -769,6 +901,7 @@ class PlanParser {
   std::filesystem::path base_;
   bool check_files_ = true;
   double mm_per_unit_ = 1.0;
+  bool scan_given_ = false;  ///< the plan has a [scan]: features may leave out `points`
 };
 
 }  // namespace

@@ -3,6 +3,8 @@
 // 0 for a plan built in code) and the key path, and quotes user text with quoted_for_message.
 #include "cylzone/plan/validate_plan.hpp"
 
+#include <Eigen/LU>
+
 #include <algorithm>
 #include <cctype>
 #include <cmath>
@@ -40,6 +42,7 @@ class PlanRules {
     check_sampling(plan_.sampling, top, "sampling");
     check_datums();
     check_bores();
+    check_scan();
     check_part_identity();
     return std::move(warnings_);
   }
@@ -190,7 +193,8 @@ class PlanRules {
       fail(at.at("feature"),
            "datum B must be a bore or a pin: it locates the frame's origin with its axis (found " +
                kind + ")");
-    if (d.points.empty()) fail(at.at("points"), "the path of the point file is empty");
+    if (d.points.empty() && !plan_.scan)
+      fail(at.at("points"), "the path of the point file is empty");
     if (d.material_side) unit_direction(*d.material_side, at.at("material_side"));
     if (d.size) check_size(*d.size, at.at("size"));
     if (d.mmb_size) check_mmb(d, at.at("mmb"));
@@ -213,6 +217,120 @@ class PlanRules {
                      "normal in the frame");
       unit_direction(*d.outward_normal, normal);
     }
+  }
+
+  // ---------------------------------------------------------------- [scan]
+
+  /// The whole-part cloud and the nominal shape of every feature that takes points from it
+  /// (docs/plan.md, "[scan]"): without a shape there is no band to take points from.
+  void check_scan() const {
+    for (const PlanDatum& d : plan_.datums) check_nominal_datum(d, located(d));
+    for (const PlanBore& b : plan_.bores) {
+      PlanLocation at = b.where;
+      if (at.key.empty()) at.key = "bore[" + b.id + "]";
+      check_nominal_bore(b, at);
+    }
+    if (!plan_.scan) return;
+    const PlanScan& scan = *plan_.scan;
+    PlanLocation at = scan.where;
+    if (at.key.empty()) at.key = "scan";
+    if (scan.points.empty()) fail(at.at("points"), "the path of the point file is empty");
+    positive_length(scan.segment.band, at.at("band"), "the band's half-width");
+    if (scan.segment.margin && !(*scan.segment.margin >= 0.0))
+      fail(at.at("margin"), "the margin must not be negative (found " +
+                                shown(*scan.segment.margin) + ")");
+    if (scan.segment.margin) bounded_length(*scan.segment.margin, at.at("margin"), "the margin");
+    const double agreement = scan.segment.normal_agreement_deg;
+    if (!(agreement > 0.0 && agreement <= 90.0))
+      fail(at.at("normal_agreement"),
+           "the normal agreement is an angle in degrees greater than 0 and at most 90 (found " +
+               plan_number_text(agreement) + ")");
+    check_placement(scan.placement, at.at("placement"));
+    bool datum = false;
+    for (const PlanDatum& d : plan_.datums) datum = datum || d.from_scan();
+    if (scan.register_placement && !datum)
+      fail(at.at("register"), "register = true registers the scan to the nominal datum features "
+                              "that take their points from it, and none does");
+    bool any = datum;
+    for (const PlanBore& b : plan_.bores) any = any || b.from_scan();
+    if (!any)
+      fail(at, "no feature takes its points from [scan]: every datum and bore names its own "
+               "point file (leave out a feature's points to segment it from the scan)");
+  }
+
+  /// A rigid placement: a proper rotation (orthonormal, determinant +1) and a bounded shift.
+  void check_placement(const RigidPlacement& p, const PlanLocation& at) const {
+    if (!p.rotation.allFinite()) fail(at, "the placement's rotation must be finite");
+    const double off =
+        (p.rotation.transpose() * p.rotation - Eigen::Matrix3d::Identity()).cwiseAbs().maxCoeff();
+    // 1e-6: a matrix written with 7 significant digits is a rotation to that precision.
+    if (!(off <= 1e-6))
+      fail(at, "the placement's rotation is not orthonormal (R^T R differs from the identity by " +
+                   plan_number_text(off) + "): give a rotation matrix, rows of unit length at "
+                                           "right angles, to 7 digits or better");
+    if (!(p.rotation.determinant() > 0.0))
+      fail(at, "the placement's rotation has determinant -1, a reflection: a rigid placement "
+               "keeps the handedness of the part");
+    bounded_location(p.translation, at, "the placement's translation");
+  }
+
+  /// What segmenting a scan needs of a datum: its nominal shape. A plane C, slot or tab has no
+  /// nominal offset in the plan, so it names its own point file.
+  void check_nominal_datum(const PlanDatum& d, const PlanLocation& at) const {
+    if (d.nominal_size) positive_length(*d.nominal_size, at.at("nominal_size"), "the nominal size");
+    check_depth(d.depth_top, d.depth_bottom, at, false);
+    if (d.extent_x || d.extent_y) {
+      for (const auto& [range, name] : {std::pair{d.extent_x, "x"}, std::pair{d.extent_y, "y"}}) {
+        const PlanLocation key = at.at(std::string("extent.") + name);
+        bounded_location(*range, key, std::string("the extent in ") + name);
+        if (!((*range)[0] < (*range)[1]))
+          fail(key, std::string("the extent in ") + name +
+                        " must be [low, high] with low < high (found [" + shown((*range)[0]) +
+                        ", " + shown((*range)[1]) + "])");
+      }
+    }
+    if (!plan_.scan || !d.from_scan()) return;
+    const std::string name = std::string("datum ") + d.label;
+    if (d.kind == FeatureKind::plane && d.label == 'A') {
+      if (!d.extent_x)
+        fail(at.at("extent"), "datum A takes its points from [scan] and needs its nominal "
+                              "extent on A: give extent = { x = [low, high], y = [low, high] } "
+                              "(in the frame), or its own points");
+      return;
+    }
+    if (d.kind != FeatureKind::bore && d.kind != FeatureKind::pin)
+      fail(at.at("points"), name + " as a " + std::string(feature_kind_name(d.kind)) +
+                                " takes no points from [scan] (its nominal offset is not in the "
+                                "plan): give its own points file");
+    if (!d.nominal_size && !d.size)
+      fail(at.at("nominal_size"),
+           name + " takes its points from [scan] and needs its nominal size: give "
+                  "nominal_size = ... or size = { lower = ..., upper = ... }");
+    check_depth(d.depth_top, d.depth_bottom, at, true);
+  }
+
+  void check_nominal_bore(const PlanBore& b, const PlanLocation& at) const {
+    if (b.nominal_size) positive_length(*b.nominal_size, at.at("nominal_size"), "the nominal size");
+    if (!plan_.scan || !b.from_scan()) return;
+    if (!b.nominal_size && !b.size)
+      fail(at.at("nominal_size"),
+           "bore " + b.id + " takes its points from [scan] and needs its nominal size: give "
+                            "nominal_size = ... or size = { lower = ..., upper = ... }");
+    check_depth(b.depth_top, b.depth_bottom, at, true);
+  }
+
+  /// A z range (a bore's evaluated range, a datum feature's nominal one); `required`: both
+  /// ends, for a feature segmented from a scan.
+  void check_depth(const std::optional<double>& top, const std::optional<double>& bottom,
+                           const PlanLocation& at, bool required) const {
+    if (required && !(top && bottom))
+      fail(at.at("depth"), "a feature that takes its points from [scan] needs its nominal z "
+                           "range: give depth = { top = ..., bottom = ... } with both ends");
+    if (top) bounded_length(*top, at.at("depth.top"), "the top of the range");
+    if (bottom) bounded_length(*bottom, at.at("depth.bottom"), "the bottom of the range");
+    if (top && bottom && !(*top > *bottom))
+      fail(at.at("depth"), "top " + shown(*top) + " must be greater than bottom " +
+                               shown(*bottom) + " (z in the frame, negative inside the material)");
   }
 
   void check_mmb(const PlanDatum& d, const PlanLocation& at) const {
@@ -264,7 +382,8 @@ class PlanRules {
                         (plan_.bores[j].where.line > 0
                              ? " (line " + std::to_string(plan_.bores[j].where.line) + ")"
                              : std::string()));
-    if (bore.points.empty()) fail(at.at("points"), "the path of the point file is empty");
+    if (bore.points.empty() && !plan_.scan)
+      fail(at.at("points"), "the path of the point file is empty");
     bounded_location(bore.basic_location, at.at("basic"), "the true position");
 
     const PlanLocation direction = at.at("direction");
@@ -280,13 +399,7 @@ class PlanRules {
     if (d.z() < 0.0)
       fail(direction, "the nominal direction must point out of the material (z > 0)");
 
-    if (bore.depth_top) bounded_length(*bore.depth_top, at.at("depth.top"), "the top of the range");
-    if (bore.depth_bottom)
-      bounded_length(*bore.depth_bottom, at.at("depth.bottom"), "the bottom of the range");
-    if (bore.depth_top && bore.depth_bottom && !(*bore.depth_top > *bore.depth_bottom))
-      fail(at.at("depth"), "top " + shown(*bore.depth_top) + " must be greater than bottom " +
-                               shown(*bore.depth_bottom) +
-                               " (z in the frame, negative inside the material)");
+    check_depth(bore.depth_top, bore.depth_bottom, at, false);
     if (bore.size) check_size(*bore.size, at.at("size"));
     if (bore.section_gap) positive_length(*bore.section_gap, at.at("section_gap"), "the section gap");
     check_sampling(bore.sampling, at, "sampling");

@@ -47,10 +47,12 @@ std::string format_csv(const ReportModel& m) {
   std::ostringstream out;
   out << "part,bore,characteristic,reference,value,tolerance,bonus,allowed,comparison,verdict,"
          "decisive,units,id,caution,part_id,serial,timestamp,notes,range_source,status,reason,outliers_removed"
-         // Sampling adequacy of the row's bore (sampling_coverage.hpp), appended last.
+         // Sampling adequacy of the row's bore (sampling_coverage.hpp), then what it took from a
+         // whole-part scan; appended last.
          ",probed_span,evaluated_length,extrapolation_top,extrapolation_bottom,tilt_magnification,"
          "sections,section_points_min,section_points_median,coverage_deg,"
-         "worst_section_coverage_deg,sampling_warnings\n";
+         "worst_section_coverage_deg,sampling_warnings,"
+         "scan_points,scan_angular_coverage_deg,scan_probed_depth,scan_nominal_depth\n";
   // Identity columns, the same on every row: rows of many parts can be told apart.
   const std::string identity = csv_field(m.part.id) + ',' + csv_field(m.part.serial) + ',' +
                                csv_field(m.part.timestamp) + ',' +
@@ -71,7 +73,13 @@ std::string format_csv(const ReportModel& m) {
     // Points the outlier stages removed from the bore's cloud (listed in the JSON report).
     const FeaturePreparation* prepared = m.preparation_of("bore " + c.feature);
     out << (prepared ? prepared->record.outliers.removed_count() : 0);
-    out << sampling_fields(m.bore(c.feature), u) << '\n';
+    out << sampling_fields(m.bore(c.feature), u) << ',';
+    // What the bore took from a whole-part scan; empty when it has a point file of its own.
+    if (const FeatureSegmentation* f = m.segmentation_of("bore " + c.feature))
+      out << f->points << ',' << ReportUnits::fixed(*f->angular_coverage_deg, 1) << ','
+          << u.text(f->probed_span) << ',' << u.text(f->nominal_span) << '\n';
+    else
+      out << ",,,\n";
   }
   return out.str();
 }

@@ -505,6 +505,46 @@ json preparation_json(const ReportModel& m) {
   return out;
 }
 
+/// The whole-part scan and what each feature took from it (docs/report-schema.md,
+/// "segmentation"); null without a [scan].
+json segmentation_json(const ReportModel& m) {
+  if (!m.scan) return nullptr;
+  const ScanSegmentation& s = *m.scan;
+  const ReportUnits& u = m.units;
+  json registration = nullptr;
+  if (const std::optional<RegistrationResult>& r = s.registration)
+    registration = {{"iterations", r->iterations}, {"converged", r->converged},
+                    {"points", r->points}, {"rms", u.length(r->rms)},
+                    {"free_directions", r->free_directions}};
+  json features = json::array();
+  for (const FeatureSegmentation& f : s.features) {
+    json one = {{"role", f.role}, {"points", f.points}};
+    if (f.is_cylinder()) {
+      one["angular_coverage_deg"] = *f.angular_coverage_deg;
+      one["probed_depth"] = u.length(f.probed_span);
+      one["nominal_depth"] = u.length(f.nominal_span);
+      one["depth_coverage"] = f.nominal_span > 0.0 ? json(f.probed_span / f.nominal_span)
+                                                   : json(nullptr);
+    } else {
+      one["angular_coverage_deg"] = nullptr;
+      one["probed_depth"] = nullptr;
+      one["nominal_depth"] = nullptr;
+      one["depth_coverage"] = nullptr;
+    }
+    features.push_back(one);
+  }
+  return {{"path", s.path.string()},
+          {"sha256", s.sha256},
+          {"points", s.points},
+          {"unassigned", s.unassigned},
+          {"band", u.length(s.options.band)},
+          {"margin", u.length(s.options.margin.value_or(s.options.band))},
+          {"normal_agreement_deg", s.options.normal_agreement_deg},
+          {"normals_used", s.used_vectors},
+          {"registration", registration},
+          {"features", features}};
+}
+
 std::string format_json(const ReportModel& m) {
   if (!m.evaluation)
     throw std::invalid_argument("format_json: the model has no evaluation (it was read back)");
@@ -543,6 +583,7 @@ std::string format_json(const ReportModel& m) {
     bores.push_back(bore_json(r.bores[k], m.bores[k], sensitivity_of(m, r.bores[k].id), m));
   j["bores"] = bores;
   j["preparation"] = preparation_json(m);
+  j["segmentation"] = segmentation_json(m);
   j["verdict"] = std::string(verdict_name(m.verdict));
   j["warnings"] = m.warnings;
   return j.dump(2) + "\n";

@@ -150,6 +150,13 @@ std::optional<std::size_t> ReportModel::file_line(std::string_view role,
   return in->point_lines[index];
 }
 
+const FeatureSegmentation* ReportModel::segmentation_of(std::string_view role) const noexcept {
+  if (!scan) return nullptr;
+  for (const FeatureSegmentation& f : scan->features)
+    if (f.role == role) return &f;
+  return nullptr;
+}
+
 const FeaturePreparation* ReportModel::preparation_of(std::string_view role) const noexcept {
   for (const FeaturePreparation& p : preparation)
     if (p.role == role) return &p;
@@ -201,6 +208,7 @@ ReportModel make_report_model(const PartCheckResult& r, const ReportModelOptions
   m.inputs = r.inputs;
   m.evaluation = &r;
   m.preparation = r.preparation;
+  m.scan = r.scan;
   // Where outliers were removed, the fits' point k is the file's point kept[k]: the lines that
   // name stray points (file_line, with_file_lines) follow the points the fits used.
   for (const FeaturePreparation& p : m.preparation) {

@@ -150,6 +150,48 @@ void preparation_lines(std::ostream& out, const ReportModel& m, std::size_t widt
   }
 }
 
+/// The whole-part scan: the cloud, the band, and what each feature took from it (points,
+/// angular coverage about the nominal axis, probed against nominal depth).
+void segmentation_lines(std::ostream& out, const ReportModel& m, const Symbols& sym,
+                        std::size_t width) {
+  const ReportUnits& u = m.units;
+  const ScanSegmentation& s = *m.scan;
+  out << wrapped("Scan segmentation: ",
+                 s.path.filename().string() + ", " + std::to_string(s.points) + " points, band " +
+                     u.text(s.options.band) + " " + std::string(u.name()) +
+                     (s.used_vectors ? ", normals within " +
+                                           ReportUnits::fixed(s.options.normal_agreement_deg, 1) +
+                                           sym.degree
+                                     : std::string(", no normals")) +
+                     "; " + std::to_string(s.unassigned) + " points within no feature's band",
+                 width, 4);
+  if (const std::optional<RegistrationResult>& r = s.registration)
+    out << wrapped("  placement registered to the datum features: ",
+                   std::to_string(r->iterations) + " iterations" +
+                       (r->converged ? "" : " (not converged)") + ", " +
+                       std::to_string(r->points) + " points, rms " + u.text(r->rms) + " " +
+                       std::string(u.name()) +
+                       (r->free_directions > 0
+                            ? ", " + std::to_string(r->free_directions) +
+                                  " direction(s) not fixed by the datums kept as placed"
+                            : std::string()),
+                   width, 4);
+  std::size_t role_w = 8;
+  for (const FeatureSegmentation& f : s.features) role_w = std::max(role_w, columns(f.role) + 2);
+  out << "  " << pad("feature", role_w) << pad_left("points", 9) << pad_left("angular", 12)
+      << pad_left("probed depth", 16) << pad_left("nominal", 12) << '\n';
+  for (const FeatureSegmentation& f : s.features) {
+    out << "  " << pad(f.role, role_w) << pad_left(std::to_string(f.points), 9);
+    if (f.is_cylinder())
+      out << pad_left(ReportUnits::fixed(*f.angular_coverage_deg, 1) + sym.degree, 12)
+          << pad_left(u.text(f.probed_span), 16) << pad_left(u.text(f.nominal_span), 12);
+    else
+      out << pad_left(sym.none, 12) << pad_left(sym.none, 16) << pad_left(sym.none, 12);
+    out << '\n';
+  }
+  out << '\n';
+}
+
 void datum_lines(std::ostream& out, const ReportModel& m, std::size_t width) {
   const ReportUnits& u = m.units;
   out << "Datum reference frame\n";
@@ -250,6 +292,7 @@ std::string format_table(const ReportModel& m, const TableOptions& options) {
   const std::string identity = identity_line(m.part);
   if (!identity.empty()) out << wrapped("part: ", identity, options.width, 6);
   out << '\n';
+  if (m.scan) segmentation_lines(out, m, sym, options.width);
   datum_lines(out, m, options.width);
 
   // One row per bore and characteristic; the text columns as wide as their content.

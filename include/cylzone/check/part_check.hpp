@@ -39,6 +39,8 @@ struct PartCheckResult {
   std::vector<std::string> warnings;
   /// What the prepare stage did to each feature's points, when the plan asked (evaluate_part).
   std::vector<FeaturePreparation> preparation;
+  /// How the plan's whole-part scan was segmented (PartInputs::scan); empty without a [scan].
+  std::optional<ScanSegmentation> scan;
 };
 
 /// Runs the whole check: load_part_inputs, evaluate_part, check_plausibility (plausibility.hpp),

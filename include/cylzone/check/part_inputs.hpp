@@ -6,11 +6,13 @@
 /// perturbed copies.
 
 #include <filesystem>
+#include <optional>
 #include <string>
 #include <vector>
 
 #include "cylzone/io/point_cloud.hpp"
 #include "cylzone/plan/plan.hpp"
+#include "cylzone/prepare/segment_scan.hpp"
 
 namespace cylzone {
 
@@ -24,17 +26,74 @@ struct InputRecord {
   std::vector<std::size_t> point_lines;
 };
 
+/// What one feature took from the plan's [scan] (prepare/segment_scan.hpp). Lengths in mm.
+struct FeatureSegmentation {
+  std::string role;  ///< "datum A", "bore P3"
+  std::size_t points = 0;
+  /// Cylinders: 360 degrees minus the largest gap of the points' azimuths about the nominal
+  /// axis; empty for a plane.
+  std::optional<double> angular_coverage_deg;
+  double probed_span = 0.0;   ///< cylinders: axial span of the points taken
+  double nominal_span = 0.0;  ///< cylinders: the nominal depth (plan `depth`, along the axis)
+  bool is_cylinder() const noexcept { return angular_coverage_deg.has_value(); }
+};
+
+/// The record of a whole-part scan and how it was segmented.
+struct ScanSegmentation {
+  std::filesystem::path path;
+  std::string sha256;  ///< of the bytes parsed
+  std::size_t points = 0;      ///< in the cloud
+  std::size_t unassigned = 0;  ///< within no feature's band
+  SegmentOptions options;      ///< band, margin (settled), normal agreement
+  bool used_vectors = false;   ///< the cloud had vectors: the normal agreement was applied
+  std::vector<FeatureSegmentation> features;  ///< datums then bores taking scan points
+  /// The placement the segmentation used: the plan's, or the registered one.
+  RigidPlacement placement;
+  /// With the plan's `register = true`: how the placement was refined.
+  std::optional<RegistrationResult> registration;
+};
+
 /// A part's measured inputs, in the plan's order.
 struct PartInputs {
-  /// The plan first (its own digest, PartPlan::sha256), then each datum, then each bore.
+  /// The plan first (its own digest, PartPlan::sha256), then each datum, then each bore. A
+  /// feature segmented from the plan's [scan] names the scan's file and digest, and the file
+  /// lines of the points it took.
   std::vector<InputRecord> records;
   std::vector<PointCloud> datums;  ///< one per plan.datums entry, measurement coordinates
   std::vector<PointCloud> bores;   ///< one per plan.bores entry, measurement coordinates
+  std::optional<ScanSegmentation> scan;  ///< when the plan has a [scan]
 };
 
+/// The nominal surfaces of the plan's features that take their points from its [scan], datums
+/// then bores, in the part's nominal coordinates (the frame as drawn): datum A the rectangle
+/// `extent` on z = 0 (normal +z); a bore or pin B or C the cylinder of its nominal size
+/// (`nominal_size`, else the middle of `size`) about the axis through the origin (B) or its
+/// basic location (C), perpendicular to A, over its `depth`; a bore that of its nominal size
+/// about its true-position axis along `direction`, over its `depth` (z converted to the length
+/// along the axis). Each surface is named by its role ("datum A", "bore P3").
+std::vector<NominalSurface> scan_surfaces(const PartPlan& plan);
+
+/// A scan segmented among the plan's features.
+struct SegmentedScan {
+  ScanSegmentation record;
+  /// Each feature's points in scan_surfaces' order (split_cloud: the same points, vectors and
+  /// file lines as the cloud, in the cloud's order).
+  std::vector<PointCloud> clouds;
+};
+
+/// Segments `cloud` (the plan's scan, in its own coordinates; `sha256` its digest) among the
+/// features that take their points from it, by the plan's placement, band and normal agreement.
+/// Throws InputError naming the plan file, the feature's line and key when a feature takes no
+/// point: the message gives the distance from its nominal surface to the nearest points of the
+/// cloud. Pure: no file is read.
+SegmentedScan segment_part_scan(const PartPlan& plan, const PointCloud& cloud,
+                                const std::string& sha256);
+
 /// Loads every datum's and bore's points (with vectors where the file has them) in the plan's
-/// unit: each file is read once and hashed from the same buffer it is parsed from. Throws
-/// InputError naming the file for a missing or unreadable file or bad data.
+/// unit: each file is read once and hashed from the same buffer it is parsed from. With a
+/// [scan], its cloud is read once too and segmented (segment_part_scan) among the features
+/// without a point file of their own. Throws InputError naming the file for a missing or
+/// unreadable file or bad data, and as segment_part_scan does.
 PartInputs load_part_inputs(const PartPlan& plan);
 
 }  // namespace cylzone

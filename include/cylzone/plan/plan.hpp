@@ -26,6 +26,7 @@
 
 #include "cylzone/plan/tolerance_types.hpp"
 #include "cylzone/core/units.hpp"
+#include "cylzone/prepare/segment_scan.hpp"
 
 namespace cylzone {
 
@@ -140,6 +141,17 @@ struct PlanDatum {
   /// MMB (its shift must be known), else LMB when any does, else RMB. A plane is always RMB.
   MaterialBoundary boundary = MaterialBoundary::rmb;
   ProbeOverrides probe;  ///< this datum's own `probe` table
+  // ---- Nominal shape, for a datum that takes its points from the plan's [scan] (`points`
+  // empty then). A bore or pin B or C: its nominal size (`nominal_size`, else the middle of
+  // `size`) and its z range (`depth`); its axis is perpendicular to A through the origin (B) or
+  // `basic_location` (C). Datum A: the rectangle it covers on the plane z = 0 (`extent`).
+  std::optional<double> nominal_size;  ///< mm
+  std::optional<double> depth_top;     ///< z in the frame, mm
+  std::optional<double> depth_bottom;
+  std::optional<Eigen::Vector2d> extent_x;  ///< datum A: [low, high] of x in the frame, mm
+  std::optional<Eigen::Vector2d> extent_y;  ///< datum A: [low, high] of y in the frame, mm
+  /// Whether the points come from the plan's [scan] rather than a file of the datum's own.
+  bool from_scan() const noexcept { return points.empty(); }
   PlanLocation where;
 };
 
@@ -181,6 +193,28 @@ struct PlanBore {
   /// Plan key `axis_direction`: the axis direction fitted (default) or held at the nominal one.
   AxisDirection axis_direction = AxisDirection::fitted;
   ProbeOverrides probe;  ///< this bore's own `probe` table
+  /// Nominal diameter for segmenting a [scan] (plan key `nominal_size`); empty: the middle of
+  /// `size`.
+  std::optional<double> nominal_size;
+  /// Whether the points come from the plan's [scan] rather than a file of the bore's own.
+  bool from_scan() const noexcept { return points.empty(); }
+  PlanLocation where;
+};
+
+// ---- One cloud of the whole part (docs/plan.md, "[scan]").
+
+/// The plan's [scan] table: one cloud of the whole part, segmented among the features that give
+/// no point file of their own (prepare/segment_scan.hpp).
+struct PlanScan {
+  std::filesystem::path points;  ///< the cloud (any point format read_points reads)
+  /// The cloud into the part's nominal coordinates (the datum reference frame as drawn):
+  /// p' = rotation p + translation, mm. Only the segmentation uses it: every fit works on the
+  /// cloud's own coordinates, as with per-feature files.
+  RigidPlacement placement;
+  SegmentOptions segment;  ///< band, margin, normal agreement (mm, degrees)
+  /// Plan key `register`: refine `placement` by registering the cloud to the nominal datum
+  /// features that take scan points (register_to_nominal) before segmenting.
+  bool register_placement = false;
   PlanLocation where;
   /// Sampling thresholds: the bore's own `sampling` table, else the plan-wide [sampling].
   PlanSampling sampling;
@@ -215,6 +249,8 @@ struct PartPlan {
   PlanLocation where;
   /// Part identity from the plan's [part] table (all empty without one).
   PlanPart part;
+  /// One cloud of the whole part; empty when every feature names its own point file.
+  std::optional<PlanScan> scan;
   /// Plausibility warnings found by validate_plan (e.g. a tolerance above a tenth of the
   /// bore's size), one line each naming the plan key, lengths in the plan's unit; carried into
   /// every report by check_part.

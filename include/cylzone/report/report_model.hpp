@@ -175,6 +175,11 @@ struct ReportModel {
   /// What the prepare stage did to each feature's points (datums, then bores): compensation,
   /// outliers removed with their file lines. Empty in a model read back from JSON.
   std::vector<FeaturePreparation> preparation;
+  /// How the plan's whole-part scan was segmented among the features: points taken, angular
+  /// and depth coverage (PartInputs::scan); empty without a [scan].
+  std::optional<ScanSegmentation> scan;
+  /// The segmentation record of the input `role` ("datum A", "bore P3"), or null.
+  const FeatureSegmentation* segmentation_of(std::string_view role) const noexcept;
   /// The result the model was built from, for the JSON report's detailed blocks (fits, datum
   /// geometry, stray points). Not owned: it must outlive the model. Null in a model read back
   /// from JSON (report_reader.hpp), which carries the summary only.

@@ -1,0 +1,155 @@
+#pragma once
+/// \file segment_scan.hpp
+/// Segmenting one cloud of the whole part into its features: each nominal surface (a bore's or
+/// pin's cylinder, a datum plane) takes the points that lie within a band about it.
+///
+/// Method (docs/methods.md, "Segmenting a whole-part scan"). The cloud is first mapped into the
+/// part's nominal coordinates by a rough placement p' = R p + t (a rigid motion). A point is a
+/// candidate of a surface when
+///  * cylinder (axis through `origin` along unit `direction`, radius R, axial parameter
+///    s = direction . (p' - origin) in [s_low - margin, s_high + margin]):
+///    | |p' - axis| - R | <= band;
+///  * plane (through `origin`, unit `direction` its normal, in-plane coordinates u, v along
+///    `u_axis`, `v_axis` within [u_low, u_high] x [v_low, v_high]): |n . (p' - origin)| <= band;
+///  * and, where the cloud has vectors, the point's vector (rotated by R) makes an angle of at
+///    most `normal_agreement` with the surface normal there (the radial direction of a cylinder,
+///    the plane's normal), taken without sense: a file's vectors may point either way.
+/// A point that is a candidate of several surfaces goes to the one it is nearest to (its
+/// distance from the surface, |r - R| or |n . (p' - o)|); an exact tie goes to the surface
+/// listed first, so the result never depends on the order of the points. This is the band
+/// classification common in scan inspection (common practice): a point's surface is decided by
+/// its distance from the nominal geometry, never by the data fitted later. The cost is one pass
+/// over the points, each tested against the surfaces whose bounding box holds it: linear in
+/// points.
+///
+/// The indices taken keep the cloud's order, so a feature's points are exactly the cloud's
+/// points in the same order (same points, same answer as a per-feature file of them). Pure: no
+/// IO, no state, no threads.
+
+#include <Eigen/Core>
+#include <cstddef>
+#include <limits>
+#include <optional>
+#include <string>
+#include <vector>
+
+#include "cylzone/io/point_cloud.hpp"
+
+namespace cylzone {
+
+/// A rigid placement p' = rotation * p + translation (mm): the scanned cloud into the part's
+/// nominal coordinates (the datum reference frame as the drawing defines it).
+struct RigidPlacement {
+  Eigen::Matrix3d rotation = Eigen::Matrix3d::Identity();
+  Eigen::Vector3d translation = Eigen::Vector3d::Zero();
+};
+
+/// One nominal surface a feature takes its points from; all in the part's nominal coordinates.
+struct NominalSurface {
+  enum class Kind { cylinder, plane };
+  Kind kind = Kind::cylinder;
+  std::string name;  ///< for messages and reports, e.g. "bore P3", "datum A"
+  Eigen::Vector3d origin = Eigen::Vector3d::Zero();      ///< a point of the axis / the plane
+  Eigen::Vector3d direction = Eigen::Vector3d::UnitZ();  ///< unit axis / unit normal
+  /// Cylinder: radius (mm) and the axial range [low, high] of s = direction . (p - origin).
+  double radius = 0.0;
+  double low = 0.0;
+  double high = 0.0;
+  /// Plane: in-plane unit axes (orthogonal to direction) and the extent along them.
+  Eigen::Vector3d u_axis = Eigen::Vector3d::UnitX();
+  Eigen::Vector3d v_axis = Eigen::Vector3d::UnitY();
+  double u_low = 0.0, u_high = 0.0, v_low = 0.0, v_high = 0.0;
+};
+
+struct SegmentOptions {
+  double band = 0.1;  ///< mm: half-width of the band about each nominal surface, > 0
+  /// mm: a cylinder's axial range and a plane's extent are widened by this much; empty: `band`.
+  std::optional<double> margin;
+  /// Degrees, (0, 90]: the largest angle between a point's vector and the surface normal, used
+  /// when the cloud has vectors.
+  double normal_agreement_deg = 30.0;
+};
+
+/// What one surface took.
+struct SurfaceSegment {
+  std::vector<std::size_t> indices;  ///< into the cloud, ascending
+  /// The smallest distance of any cloud point from the bounded nominal surface (radial and
+  /// axial overshoot combined for a cylinder, normal and in-plane overshoot for a plane), mm:
+  /// what a surface that took nothing reports. Infinity for an empty cloud.
+  double nearest_distance = std::numeric_limits<double>::infinity();
+  /// Cylinders with points: 360 degrees minus the largest angular gap between the points'
+  /// azimuths about the nominal axis (exact for a cloud of up to 2^15 points, else for any gap
+  /// of 0.014 degrees or more: the fits' maximum-gap bucketing); the probed axial span (max s - min s) and the nominal one
+  /// (high - low). Planes: angular coverage empty, spans 0.
+  std::optional<double> angular_coverage_deg;
+  double probed_span = 0.0;
+  double nominal_span = 0.0;
+};
+
+struct SegmentationResult {
+  std::vector<SurfaceSegment> surfaces;  ///< one per surface, in the order given
+  std::size_t unassigned = 0;            ///< points within no band
+  bool used_vectors = false;             ///< the normal agreement was applied
+};
+
+/// Segments `cloud` (its points and, when present, its vectors) among `surfaces` after
+/// `placement` (the method above). Throws std::invalid_argument for options out of range.
+SegmentationResult segment_scan(const PointCloud& cloud, const RigidPlacement& placement,
+                                const std::vector<NominalSurface>& surfaces,
+                                const SegmentOptions& options = {});
+
+/// The cloud's point `index` mapped by `placement`.
+inline Eigen::Vector3d placed_point(const PointCloud& cloud, const RigidPlacement& placement,
+                                    std::size_t index) {
+  return placement.rotation * cloud.points.col(static_cast<Eigen::Index>(index)) +
+         placement.translation;
+}
+
+// ---- Refining a rough placement (plan key [scan] register = true).
+
+struct RegistrationOptions {
+  SegmentOptions segment;        ///< the band that picks each iteration's correspondences
+  std::size_t max_iterations = 50;
+  /// Converged when an iteration moves every point within `reach` of the origin by less than
+  /// this (mm): |rotation step| * reach + |translation step|.
+  double tolerance = 1e-9;
+  double reach = 1000.0;         ///< mm
+  /// At most this many points take part (every k-th point of the cloud, in its order).
+  std::size_t max_points = 200000;
+  /// The first stage takes its correspondences from bands this many times wider than
+  /// `segment.band` (the capture range of a rough placement); the second from `segment.band`.
+  double capture_factor = 4.0;
+};
+
+struct RegistrationResult {
+  RigidPlacement placement;      ///< the refined placement
+  std::size_t iterations = 0;
+  bool converged = false;
+  std::size_t points = 0;        ///< correspondences of the last iteration
+  double rms = 0.0;              ///< mm: rms distance of those points from their surfaces
+  /// Degrees of freedom the surfaces cannot fix (e.g. the rotation about a lone bore's axis),
+  /// left as the rough placement had them.
+  std::size_t free_directions = 0;
+};
+
+/// Refines `rough` so that the cloud's points in the bands of `surfaces` (normally the datum
+/// features) lie on them in the least-squares sense: iterative closest point (Besl & McKay,
+/// IEEE PAMI 14(2), 1992) with the point-to-plane error of Chen & Medioni (Image and Vision
+/// Computing 10(3), 1992). The nominal surfaces are analytic, so each point's closest point is
+/// its foot on its surface (no search structure). Each iteration segments the points with the
+/// current placement, linearises the rotation (small-angle) and solves the 6x6 normal equations
+/// by a rank-revealing decomposition: directions the surfaces do not fix are left unchanged.
+/// Two stages: bands widened by `capture_factor` until converged (to reach a placement off by
+/// more than the band), then the band itself (so that the final correspondences are the
+/// segmentation's). `iterations` counts both.
+/// Throws std::invalid_argument when no point lies in any band.
+RegistrationResult register_to_nominal(const PointCloud& cloud, const RigidPlacement& rough,
+                                       const std::vector<NominalSurface>& surfaces,
+                                       const RegistrationOptions& options = {});
+
+/// Each surface's points as a cloud of their own (with their vectors and file lines, when
+/// present), in the cloud's own coordinates and order: the feature's points exactly as a file
+/// of them would give. One pass over the cloud.
+std::vector<PointCloud> split_cloud(const PointCloud& cloud, const SegmentationResult& segments);
+
+}  // namespace cylzone

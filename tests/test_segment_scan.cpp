@@ -1,0 +1,531 @@
+// Segmenting a whole-part scan (prepare/segment_scan.hpp) and the plan's [scan] (plan.hpp,
+// check/part_inputs.hpp). References:
+//  * synthetic clouds built from the nominal geometry with known labels: every point is made
+//    at a chosen distance from its surface, so the band rule's answer is known by construction;
+//  * closed forms for the nearest distance (a point 3 mm off a cylinder's wall is 3 mm from it);
+//  * the demo part: its scan (point-clouds/valve-manifold/scan) holds the rows of the
+//    per-feature point files (the same text, so the same numbers) with a column naming each
+//    row's feature; segmentation must reproduce that column exactly, and the check on the scan
+//    must give the per-feature plan's figures to 1e-9 mm (same points, same answer).
+#include <catch2/catch.hpp>
+
+#include <Eigen/Geometry>
+#include <algorithm>
+#include <cmath>
+#include <fstream>
+#include <limits>
+#include <map>
+#include <random>
+#include <sstream>
+#include <string>
+
+#include "cylzone/check/part_check.hpp"
+#include "cylzone/check/part_inputs.hpp"
+#include "cylzone/core/errors.hpp"
+#include "cylzone/io/read_points.hpp"
+#include "cylzone/plan/plan.hpp"
+#include "cylzone/prepare/segment_scan.hpp"
+
+#include <nlohmann/json.hpp>
+
+using namespace cylzone;
+
+namespace {
+
+constexpr double kPi = 3.14159265358979323846;
+
+/// A tilted bore off the origin and a plane, in the part's nominal coordinates.
+std::vector<NominalSurface> two_surfaces() {
+  NominalSurface bore;
+  bore.kind = NominalSurface::Kind::cylinder;
+  bore.name = "bore X";
+  bore.origin = Eigen::Vector3d(37.0, -12.5, 0.0);
+  bore.direction = Eigen::Vector3d(0.1, -0.05, 1.0).normalized();
+  bore.radius = 6.0;
+  bore.low = -40.0;
+  bore.high = 0.0;
+  NominalSurface face;
+  face.kind = NominalSurface::Kind::plane;
+  face.name = "datum A";
+  face.u_low = -50.0;
+  face.u_high = 120.0;
+  face.v_low = -60.0;
+  face.v_high = 40.0;
+  return {bore, face};
+}
+
+/// Unit vectors u, v perpendicular to d (any pair: the test's own construction).
+std::pair<Eigen::Vector3d, Eigen::Vector3d> basis(const Eigen::Vector3d& d) {
+  const Eigen::Vector3d u = d.unitOrthogonal();
+  return {u, d.cross(u)};
+}
+
+/// The cloud given in the scanner's coordinates: p_scan = M^-1 p_part, so that the placement
+/// p_part = M p_scan maps it back.
+PointCloud in_scanner(const std::vector<Eigen::Vector3d>& part_points,
+                      const std::vector<Eigen::Vector3d>& part_normals,
+                      const RigidPlacement& placement) {
+  PointCloud cloud;
+  cloud.points.resize(3, static_cast<Eigen::Index>(part_points.size()));
+  if (!part_normals.empty()) cloud.vectors.resize(3, cloud.points.cols());
+  for (std::size_t i = 0; i < part_points.size(); ++i) {
+    const auto k = static_cast<Eigen::Index>(i);
+    cloud.points.col(k) =
+        placement.rotation.transpose() * (part_points[i] - placement.translation);
+    if (!part_normals.empty()) cloud.vectors.col(k) = placement.rotation.transpose() * part_normals[i];
+    cloud.lines.push_back(i + 2);
+  }
+  return cloud;
+}
+
+RigidPlacement some_placement() {
+  RigidPlacement p;
+  p.rotation = (Eigen::AngleAxisd(1.1, Eigen::Vector3d(0.3, -0.5, 0.8).normalized()))
+                   .toRotationMatrix();
+  p.translation = Eigen::Vector3d(-412.3, 88.1, 1250.7);
+  return p;
+}
+
+}  // namespace
+
+TEST_CASE("segment_scan: each point goes to the band it was built in, after the placement") {
+  const std::vector<NominalSurface> surfaces = two_surfaces();
+  const NominalSurface& bore = surfaces[0];
+  const auto [u, v] = basis(bore.direction);
+  std::vector<Eigen::Vector3d> pts;
+  std::vector<int> label;  // 0 bore, 1 plane, -1 none
+  // Bore wall: 24 azimuths x 9 levels, radial offsets within +-0.15 (band 0.2).
+  for (int level = 0; level < 9; ++level)
+    for (int k = 0; k < 24; ++k) {
+      const double t = -38.0 + 4.5 * level, phi = 2 * kPi * k / 24;
+      const double off = 0.15 * std::sin(3.0 * k + level);
+      pts.push_back(bore.origin + t * bore.direction +
+                    (bore.radius + off) * (std::cos(phi) * u + std::sin(phi) * v));
+      label.push_back(0);
+    }
+  // Plane: a grid clear of the hole, normal offsets within +-0.1.
+  for (int i = 0; i < 12; ++i)
+    for (int j = 0; j < 8; ++j) {
+      const Eigen::Vector3d q(-45.0 + 14.0 * i, -55.0 + 12.0 * j, 0.1 * std::cos(i + 2.0 * j));
+      if ((q - bore.origin).head<2>().norm() < bore.radius + 2.0) continue;
+      pts.push_back(q);
+      label.push_back(1);
+    }
+  // Outside every band: 0.3 off the wall, below the bore's range beyond the margin, beside the
+  // plane's extent, 0.25 above the plane.
+  pts.push_back(bore.origin - 20.0 * bore.direction + (bore.radius + 0.3) * u);
+  pts.push_back(bore.origin - 40.5 * bore.direction + bore.radius * v);
+  pts.push_back(Eigen::Vector3d(121.0, 0.0, 0.0));
+  pts.push_back(Eigen::Vector3d(60.0, 20.0, 0.25));
+  label.insert(label.end(), 4, -1);
+
+  const RigidPlacement placement = some_placement();
+  const PointCloud cloud = in_scanner(pts, {}, placement);
+  SegmentOptions options;
+  options.band = 0.2;
+  options.margin = 0.2;
+  const SegmentationResult r = segment_scan(cloud, placement, surfaces, options);
+  REQUIRE(r.surfaces.size() == 2);
+  std::vector<int> got(pts.size(), -1);
+  for (int s = 0; s < 2; ++s)
+    for (std::size_t i : r.surfaces[static_cast<std::size_t>(s)].indices) got[i] = s;
+  CHECK(got == label);
+  CHECK(r.unassigned == 4);
+  CHECK_FALSE(r.used_vectors);
+  // Every azimuth probed at 15 degree steps: the largest gap is one step.
+  REQUIRE(r.surfaces[0].angular_coverage_deg);
+  CHECK(*r.surfaces[0].angular_coverage_deg == Approx(345.0).margin(1e-9));
+  CHECK(r.surfaces[0].probed_span == Approx(36.0).margin(1e-9));
+  CHECK(r.surfaces[0].nominal_span == Approx(40.0));
+  CHECK_FALSE(r.surfaces[1].angular_coverage_deg);
+
+  // The same cloud in another order: the same points for each surface.
+  std::vector<std::size_t> order(pts.size());
+  for (std::size_t i = 0; i < order.size(); ++i) order[i] = (i * 37) % order.size();
+  REQUIRE(std::is_permutation(order.begin(), order.end(),
+                              [&] {
+                                std::vector<std::size_t> id(order.size());
+                                for (std::size_t i = 0; i < id.size(); ++i) id[i] = i;
+                                return id;
+                              }().begin()));
+  std::vector<Eigen::Vector3d> shuffled;
+  for (std::size_t i : order) shuffled.push_back(pts[i]);
+  const SegmentationResult r2 =
+      segment_scan(in_scanner(shuffled, {}, placement), placement, surfaces, options);
+  for (int s = 0; s < 2; ++s) {
+    std::vector<std::size_t> back;
+    for (std::size_t k : r2.surfaces[static_cast<std::size_t>(s)].indices) back.push_back(order[k]);
+    std::sort(back.begin(), back.end());
+    CHECK(back == r.surfaces[static_cast<std::size_t>(s)].indices);
+  }
+}
+
+TEST_CASE("segment_scan: nearest surface wins, exact ties go to the first, normals must agree") {
+  // Two coaxial-free cylinders whose bands overlap: radius 5 about x = 0 and radius 5 about
+  // x = 10.3; a point at x = 5.15 on the line between the axes is 0.15 from both (a tie).
+  NominalSurface a;
+  a.name = "first";
+  a.radius = 5.0;
+  a.low = -10.0;
+  a.high = 0.0;
+  NominalSurface b = a;
+  b.name = "second";
+  b.origin = Eigen::Vector3d(10.3, 0.0, 0.0);
+  std::vector<Eigen::Vector3d> pts = {{5.15, 0.0, -5.0},   // tie: first
+                                      {5.10, 0.0, -5.0},   // 0.10 from a, 0.20 from b: a
+                                      {5.20, 0.0, -5.0}};  // 0.20 from a, 0.10 from b: b
+  SegmentOptions options;
+  options.band = 0.25;
+  const RigidPlacement identity;
+  PointCloud cloud = in_scanner(pts, {}, identity);
+  SegmentationResult r = segment_scan(cloud, identity, {a, b}, options);
+  CHECK(r.surfaces[0].indices == std::vector<std::size_t>{0, 1});
+  CHECK(r.surfaces[1].indices == std::vector<std::size_t>{2});
+  // Listed the other way round, the tie goes to the other surface.
+  r = segment_scan(cloud, identity, {b, a}, options);
+  CHECK(r.surfaces[0].indices == std::vector<std::size_t>{0, 2});
+
+  // With vectors: a radial vector (either sense) agrees, one 30 degrees off does not at 20.
+  const double tilt = 30.0 * kPi / 180.0;
+  cloud = in_scanner({{5.0, 0.0, -5.0}, {-5.0, 0.0, -5.0}, {0.0, 5.0, -5.0}},
+                     {{1.0, 0.0, 0.0}, {1.0, 0.0, 0.0}, {0.0, std::cos(tilt), std::sin(tilt)}},
+                     identity);
+  options.normal_agreement_deg = 20.0;
+  r = segment_scan(cloud, identity, {a}, options);
+  CHECK(r.used_vectors);
+  CHECK(r.surfaces[0].indices == std::vector<std::size_t>{0, 1});
+  options.normal_agreement_deg = 31.0;
+  r = segment_scan(cloud, identity, {a}, options);
+  CHECK(r.surfaces[0].indices == std::vector<std::size_t>{0, 1, 2});
+}
+
+TEST_CASE("segment_scan: an empty band reports the distance to the nearest points") {
+  NominalSurface a;
+  a.name = "bore";
+  a.origin = Eigen::Vector3d(20.0, 30.0, 0.0);
+  a.radius = 4.0;
+  a.low = -10.0;
+  a.high = 0.0;
+  // 3 mm outside the wall at mid-depth (closed form: 3), and 5 mm above the top on the wall
+  // (axial overshoot 5): the nearest is 3.
+  const RigidPlacement identity;
+  const PointCloud cloud =
+      in_scanner({{27.0, 30.0, -5.0}, {24.0, 30.0, 5.0}}, {}, identity);
+  const SegmentationResult r = segment_scan(cloud, identity, {a}, {});
+  CHECK(r.surfaces[0].indices.empty());
+  CHECK(r.surfaces[0].nearest_distance == Approx(3.0).margin(1e-12));
+  SegmentOptions bad;
+  bad.band = 0.0;
+  CHECK_THROWS_AS(segment_scan(cloud, identity, {a}, bad), std::invalid_argument);
+  bad.band = 0.1;
+  bad.normal_agreement_deg = 91.0;
+  CHECK_THROWS_AS(segment_scan(cloud, identity, {a}, bad), std::invalid_argument);
+}
+
+namespace {
+
+const std::string demo_dir = std::string(CYLZONE_SOURCE_DIR) + "/point-clouds/valve-manifold/";
+
+std::string plan_head() {
+  return "format = \"cylzone-plan-1\"\nname = \"scan test\"\nunits = \"mm\"\n";
+}
+
+std::string problem_of(const std::string& text) {
+  try {
+    parse_plan(text, "/tmp/scan-plan.toml", false);
+  } catch (const InputError& e) {
+    return std::string(e.what());
+  }
+  return "no error";
+}
+
+}  // namespace
+
+TEST_CASE("[scan] plan: reading, and every rule names its key") {
+  const std::string scan =
+      "[scan]\npoints = \"cloud.csv\"\nband = 0.2\nnormal_agreement = 25\n"
+      "placement = { rotation = [[0, -1, 0], [1, 0, 0], [0, 0, 1]], translation = [1, 2, 3] }\n";
+  const std::string a = "[datum.A]\nfeature = \"plane\"\nextent = { x = [-10, 90], y = [-5, 50] }\n";
+  const std::string bore =
+      "[[bore]]\nid = \"P1\"\nbasic = [20, 20]\nsize = { lower = 10, upper = 10.02 }\n"
+      "depth = { top = 0, bottom = -30 }\nposition = { tolerance = 0.03, datums = \"A\" }\n";
+  const PartPlan plan = parse_plan(plan_head() + scan + a + bore, "/tmp/scan-plan.toml", false);
+  REQUIRE(plan.scan);
+  CHECK(plan.scan->points == std::filesystem::path("/tmp/cloud.csv"));
+  CHECK(plan.scan->segment.band == 0.2);
+  CHECK(plan.scan->segment.normal_agreement_deg == 25.0);
+  CHECK(plan.scan->placement.rotation(0, 1) == -1.0);
+  CHECK(plan.scan->placement.translation == Eigen::Vector3d(1, 2, 3));
+  CHECK(plan.datums[0].from_scan());
+  CHECK(plan.bores[0].from_scan());
+  // The nominal surfaces: A's rectangle, the bore's cylinder of the middle of its size.
+  const std::vector<NominalSurface> surfaces = scan_surfaces(plan);
+  REQUIRE(surfaces.size() == 2);
+  CHECK(surfaces[0].kind == NominalSurface::Kind::plane);
+  CHECK(surfaces[0].u_high == 90.0);
+  CHECK(surfaces[1].radius == Approx(5.005));
+  CHECK(surfaces[1].low == -30.0);
+  CHECK(surfaces[1].origin == Eigen::Vector3d(20, 20, 0));
+
+  // The same placement as a 4x4 matrix.
+  const std::string matrix =
+      "[scan]\npoints = \"cloud.csv\"\nband = 0.2\n"
+      "placement = [[0, -1, 0, 1], [1, 0, 0, 2], [0, 0, 1, 3], [0, 0, 0, 1]]\n";
+  const PartPlan plan4 = parse_plan(plan_head() + matrix + a + bore, "/tmp/scan-plan.toml", false);
+  CHECK(plan4.scan->placement.rotation == plan.scan->placement.rotation);
+  CHECK(plan4.scan->placement.translation == plan.scan->placement.translation);
+
+  // Rules (docs/plan.md, "[scan]"): the key and the problem.
+  CHECK_THAT(problem_of(plan_head() + a + bore),
+             Catch::Contains("key 'datum.A.points': required key is missing"));
+  CHECK_THAT(problem_of(plan_head() + "[scan]\npoints = \"c.csv\"\nplacement = " +
+                        "[[1,0,0,0],[0,1,0,0],[0,0,1,0],[0,0,0,1]]\n" + a + bore),
+             Catch::Contains("key 'scan.band': required key is missing"));
+  CHECK_THAT(problem_of(plan_head() +
+                        "[scan]\npoints = \"c.csv\"\nband = -1\nplacement = "
+                        "[[1,0,0,0],[0,1,0,0],[0,0,1,0],[0,0,0,1]]\n" + a + bore),
+             Catch::Contains("scan.band': the band's half-width must be greater than zero"));
+  CHECK_THAT(problem_of(plan_head() +
+                        "[scan]\npoints = \"c.csv\"\nband = 0.1\nplacement = "
+                        "[[1,0,0,0],[0,1,0,0],[0,0,1,0],[0,0,0,2]]\n" + a + bore),
+             Catch::Contains("the last row of a rigid placement must be [0, 0, 0, 1]"));
+  CHECK_THAT(problem_of(plan_head() +
+                        "[scan]\npoints = \"c.csv\"\nband = 0.1\nplacement = "
+                        "[[1,0,0,0],[0,1.1,0,0],[0,0,1,0],[0,0,0,1]]\n" + a + bore),
+             Catch::Contains("scan.placement': the placement's rotation is not orthonormal"));
+  CHECK_THAT(problem_of(plan_head() +
+                        "[scan]\npoints = \"c.csv\"\nband = 0.1\nplacement = "
+                        "[[1,0,0,0],[0,1,0,0],[0,0,-1,0],[0,0,0,1]]\n" + a + bore),
+             Catch::Contains("a reflection"));
+  CHECK_THAT(problem_of(plan_head() +
+                        "[scan]\npoints = \"c.csv\"\nband = 0.1\nnormal_agreement = 120\n"
+                        "placement = [[1,0,0,0],[0,1,0,0],[0,0,1,0],[0,0,0,1]]\n" + a + bore),
+             Catch::Contains("scan.normal_agreement'"));
+  CHECK_THAT(problem_of(plan_head() + scan + "[datum.A]\nfeature = \"plane\"\n" + bore),
+             Catch::Contains("key 'datum.A.extent': datum A takes its points from [scan]"));
+  CHECK_THAT(problem_of(plan_head() + scan + a +
+                        "[[bore]]\nid = \"P1\"\nbasic = [20, 20]\ndepth = { top = 0, bottom = "
+                        "-30 }\nposition = { tolerance = 0.03, datums = \"A\" }\n"),
+             Catch::Contains("key 'bore[P1].nominal_size': bore P1 takes its points from [scan] "
+                             "and needs its nominal size"));
+  CHECK_THAT(problem_of(plan_head() + scan + a +
+                        "[[bore]]\nid = \"P1\"\nbasic = [20, 20]\nnominal_size = 10\n"
+                        "depth = { top = 0 }\nposition = { tolerance = 0.03, datums = \"A\" }\n"),
+             Catch::Contains("key 'bore[P1].depth': a feature that takes its points from [scan] "
+                             "needs its nominal z range"));
+  CHECK_THAT(problem_of(plan_head() + scan + a +
+                        "[datum.B]\nfeature = \"bore\"\npoints = \"b.csv\"\n"
+                        "[datum.C]\nfeature = \"slot\"\nbasic = [50, 0]\n" + bore),
+             Catch::Contains("key 'datum.C.points': datum C as a slot takes no points from [scan]"));
+  CHECK_THAT(problem_of(plan_head() + scan + "[datum.A]\nfeature = \"plane\"\npoints = \"a.csv\"\n" +
+                        "[[bore]]\nid = \"P1\"\npoints = \"p.csv\"\nbasic = [20, 20]\n"
+                        "position = { tolerance = 0.03, datums = \"A\" }\n"),
+             Catch::Contains("key 'scan': no feature takes its points from [scan]"));
+  CHECK_THAT(problem_of(plan_head() + scan +
+                        "[datum.A]\nfeature = \"plane\"\nextent = { x = [5, -5], y = [0, 1] }\n" +
+                        bore),
+             Catch::Contains("key 'datum.A.extent.x': the extent in x must be [low, high]"));
+  CHECK_THAT(problem_of(plan_head() + scan + a + "[[bore]]\nid = \"P1\"\nbasic = [20, 20]\n"
+                        "nominal_size = 10\nsize_typo = 1\n"),
+             Catch::Contains("key 'bore[P1].size_typo': unknown key"));
+}
+
+TEST_CASE("demo scan: segmentation reproduces each row's feature, figures equal the files'") {
+  const PartPlan scan_plan = read_plan(demo_dir + "plan-scan.toml");
+  const PartInputs inputs = load_part_inputs(scan_plan);
+  REQUIRE(inputs.scan);
+  // The truth: the last column of the scan names the feature each row came from.
+  std::ifstream in(demo_dir + "scan/manifold-scan.csv");
+  std::string row;
+  std::getline(in, row);
+  std::map<std::string, std::vector<std::size_t>> truth;
+  std::size_t line = 1, none = 0;
+  while (std::getline(in, row)) {
+    ++line;
+    const std::string label = row.substr(row.rfind(',') + 1);
+    if (label == "none")
+      ++none;
+    else
+      truth[label].push_back(line);
+  }
+  CHECK(inputs.scan->unassigned == none);
+  CHECK(inputs.scan->points == line - 1);
+  std::size_t checked = 0;
+  for (const InputRecord& record : inputs.records) {
+    if (record.role == "plan") continue;
+    INFO(record.role);
+    CHECK(record.path == scan_plan.scan->points);
+    CHECK(record.point_lines == truth.at(record.role));
+    ++checked;
+  }
+  CHECK(checked == 10);
+
+  // Same points, same answer: every figure of the per-feature plan, to 1e-9 mm.
+  const PartCheckResult by_scan = check_part(scan_plan, inputs);
+  const PartCheckResult by_files = check_part(read_plan(demo_dir + "plan.toml"));
+  REQUIRE(by_scan.characteristics.size() == by_files.characteristics.size());
+  for (std::size_t i = 0; i < by_scan.characteristics.size(); ++i) {
+    const Characteristic& s = by_scan.characteristics[i];
+    const Characteristic& f = by_files.characteristics[i];
+    INFO(f.id);
+    CHECK(s.id == f.id);
+    CHECK(s.value == Approx(f.value).margin(1e-9));
+    CHECK(s.bonus == Approx(f.bonus).margin(1e-9));
+    CHECK(s.allowed == Approx(f.allowed).margin(1e-9));
+    CHECK(s.verdict == f.verdict);
+  }
+  CHECK(by_scan.verdict == by_files.verdict);
+  REQUIRE(by_scan.scan);
+  CHECK(by_scan.scan->features.size() == 10);
+}
+
+TEST_CASE("demo scan: a feature with no point in its band is an error naming it and the distance") {
+  // P3's basic location moved to (85, 40), between P3 and P7: its band holds no point whose
+  // vector agrees with its surface normal.
+  std::ifstream in(demo_dir + "plan-scan.toml");
+  std::stringstream text;
+  text << in.rdbuf();
+  std::string plan = text.str();
+  const std::string from = "basic = [85.0, 25.0]";
+  REQUIRE(plan.find(from) != std::string::npos);
+  plan.replace(plan.find(from), from.size(), "basic = [85.0, 40.0]");
+  const PartPlan moved = parse_plan(plan, demo_dir + "plan-scan-moved.toml");
+  // The distance by brute force over the scan's points (the test's own computation): the
+  // moved nominal wall, radius 6.0045 (half the middle of 12.000 and 12.018) about the axis
+  // through (85, 40) along z, z in [-56, 0].
+  const PointCloud cloud = read_points(moved.scan->points);
+  double nearest = std::numeric_limits<double>::infinity();
+  for (Eigen::Index i = 0; i < cloud.points.cols(); ++i) {
+    const Eigen::Vector3d q =
+        moved.scan->placement.rotation * cloud.points.col(i) + moved.scan->placement.translation;
+    const double radial = std::hypot(q.x() - 85.0, q.y() - 40.0) - 6.0045;
+    const double beyond = std::max({0.0, q.z(), -56.0 - q.z()});
+    nearest = std::min(nearest, std::hypot(radial, beyond));
+  }
+  // 0.16 mm: within the band, on P3's real wall, whose normals point elsewhere.
+  REQUIRE(nearest < 0.2);
+  try {
+    load_part_inputs(moved);
+    FAIL("no error");
+  } catch (const InputError& e) {
+    const std::string what = e.what();
+    CHECK_THAT(what, Catch::Contains("key 'bore[P3]': bore P3 takes no point of the scan"));
+    CHECK_THAT(what, Catch::Contains("band of 0.2 mm"));
+    const std::string mark = "its nearest points are ";
+    REQUIRE(what.find(mark) != std::string::npos);
+    const double shown = std::stod(what.substr(what.find(mark) + mark.size()));
+    CHECK(shown == Approx(nearest).epsilon(1e-3));
+    CHECK_THAT(what, Catch::Contains("but their vectors are more than 20 degrees from its "
+                                     "surface normal"));
+  }
+}
+
+TEST_CASE("demo scan: cloud and placement moved together change no point taken, no figure") {
+  // Results never depend on how the part sat on the machine: the scan moved by a rigid motion
+  // M (points and vectors), the placement composed with M^-1 and the measurement-coordinate
+  // material side turned by M, every feature takes the same rows and every figure agrees with
+  // the unmoved scan's to 1e-9 mm (rigid-motion invariance, docs/evaluation.md).
+  const PartPlan plan = read_plan(demo_dir + "plan-scan.toml");
+  const PointCloud cloud = read_points(plan.scan->points);
+  const Eigen::Matrix3d R =
+      Eigen::AngleAxisd(2.1, Eigen::Vector3d(1.0, 2.0, -0.5).normalized()).toRotationMatrix();
+  const Eigen::Vector3d t(-1500.25, 700.5, 2300.125);
+  PointCloud moved = cloud;
+  moved.points = (R * cloud.points).colwise() + t;
+  moved.vectors = R * cloud.vectors;
+  PartPlan moved_plan = plan;
+  RigidPlacement& p = moved_plan.scan->placement;
+  p.rotation = plan.scan->placement.rotation * R.transpose();
+  p.translation = plan.scan->placement.translation - p.rotation * t;
+  for (PlanDatum& d : moved_plan.datums)
+    if (d.material_side) d.material_side = R * *d.material_side;
+
+  const SegmentedScan before = segment_part_scan(plan, cloud, "");
+  const SegmentedScan after = segment_part_scan(moved_plan, moved, "");
+  REQUIRE(before.clouds.size() == after.clouds.size());
+  PartInputs inputs;
+  inputs.records.push_back({"plan", moved_plan.file, "", 0, {}});
+  for (std::size_t k = 0; k < after.clouds.size(); ++k) {
+    INFO(before.record.features[k].role);
+    CHECK(after.clouds[k].lines == before.clouds[k].lines);
+    CHECK(after.record.features[k].angular_coverage_deg.value_or(-1.0) ==
+          Approx(before.record.features[k].angular_coverage_deg.value_or(-1.0)).margin(1e-9));
+    (k < moved_plan.datums.size() ? inputs.datums : inputs.bores).push_back(after.clouds[k]);
+  }
+  inputs.scan = after.record;
+  const PartCheckResult by_moved = check_part(moved_plan, inputs);
+  const PartCheckResult by_scan = check_part(plan);
+  REQUIRE(by_moved.characteristics.size() == by_scan.characteristics.size());
+  for (std::size_t i = 0; i < by_scan.characteristics.size(); ++i) {
+    INFO(by_scan.characteristics[i].id);
+    CHECK(by_moved.characteristics[i].value ==
+          Approx(by_scan.characteristics[i].value).margin(1e-9));
+    CHECK(by_moved.characteristics[i].verdict == by_scan.characteristics[i].verdict);
+  }
+}
+
+TEST_CASE("demo scan: a placement off by more than the band, registered, takes every row again") {
+  // The demo's rough placement spoilt by 3 mrad about a skew axis and 0.34 mm: at 150 mm
+  // from the origin the bands miss by more than their 0.2 mm. Registration to the nominal datum
+  // features (point-to-plane ICP: Besl & McKay 1992; Chen & Medioni 1992) must recover it:
+  // every feature takes exactly the rows the generator wrote for it (the scan's `feature`
+  // column), and the registered placement lies close to the generator's true one
+  // (ground-truth.json: p_meas = R p_frame + T), within what the datum features' form and
+  // probing noise allow.
+  PartPlan plan = read_plan(demo_dir + "plan-scan.toml");
+  const Eigen::Matrix3d E =
+      Eigen::AngleAxisd(3e-3, Eigen::Vector3d(0.6, 0.2, 0.77).normalized()).toRotationMatrix();
+  RigidPlacement& p = plan.scan->placement;
+  p.rotation = E * p.rotation;
+  p.translation = E * p.translation + Eigen::Vector3d(0.25, -0.2, 0.1);
+
+  std::ifstream in(demo_dir + "scan/manifold-scan.csv");
+  std::string row;
+  std::getline(in, row);
+  std::map<std::string, std::vector<std::size_t>> truth;
+  for (std::size_t line = 2; std::getline(in, row); ++line)
+    truth[row.substr(row.rfind(',') + 1)].push_back(line);
+  const auto all_rows_taken = [&](const PartInputs& inputs) {
+    for (const InputRecord& record : inputs.records)
+      if (record.role != "plan" && record.point_lines != truth.at(record.role)) return false;
+    return true;
+  };
+  bool spoilt = false;
+  try {
+    spoilt = !all_rows_taken(load_part_inputs(plan));
+  } catch (const InputError&) {
+    spoilt = true;  // a feature took nothing
+  }
+  CHECK(spoilt);
+
+  plan.scan->register_placement = true;
+  const PartInputs inputs = load_part_inputs(plan);
+  CHECK(all_rows_taken(inputs));
+  REQUIRE(inputs.scan->registration);
+  const RegistrationResult& r = *inputs.scan->registration;
+  CHECK(r.converged);
+  CHECK(r.free_directions == 0);
+  // The generator's placement (ground-truth.json "placement") inverted: frame = R^T (meas - T).
+  std::ifstream truth_file(demo_dir + "ground-truth.json");
+  const nlohmann::json g = nlohmann::json::parse(truth_file);
+  Eigen::Matrix3d R;
+  Eigen::Vector3d T;
+  for (int i = 0; i < 3; ++i) {
+    T[i] = g["placement"]["translation"][i].get<double>();
+    for (int j = 0; j < 3; ++j) R(i, j) = g["placement"]["rotation"][i][j].get<double>();
+  }
+  const Eigen::Matrix3d off = r.placement.rotation * R;  // identity when exact
+  const double angle = Eigen::AngleAxisd(off).angle();
+  // A point of the part (the middle of the block, 30 mm deep) mapped both ways.
+  const Eigen::Vector3d middle(60.0, 25.0, -30.0);
+  const Eigen::Vector3d back = r.placement.rotation * (R * middle + T) + r.placement.translation;
+  INFO("angle " << angle << " rad, offset " << (back - middle).norm() << " mm");
+  // The registration fits datum A by least squares; face A is crowned, and its least-squares
+  // plane is tilted from the true (tangent) plane by the ground truth's
+  // least_squares_plane_tilt_rad: the registered rotation differs from the true one by that
+  // tilt, to the probing noise (2 urad). The crown and the lobes of B and C are micrometres:
+  // a point of the part moves by less than 5 um.
+  const double ls_tilt = g["datums"]["A"]["least_squares_plane_tilt_rad"].get<double>();
+  CHECK(angle == Approx(ls_tilt).margin(2e-6));
+  CHECK((back - middle).norm() < 0.005);
+}
