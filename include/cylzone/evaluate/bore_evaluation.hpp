@@ -11,6 +11,7 @@
 #include <vector>
 
 #include "cylzone/evaluate/axis_zone.hpp"
+#include "cylzone/evaluate/surface_map.hpp"
 #include "cylzone/fit/fit_cylinder.hpp"
 #include "cylzone/plan/plan.hpp"
 #include "cylzone/fit/sections.hpp"
@@ -211,6 +212,10 @@ struct BoreResult {
   /// (simultaneous requirement) was not evaluated. `position_with_mobility` is then empty and
   /// `position` (frame fixed) is shown for comparison.
   std::string mobility_not_evaluated;
+  /// The bore's points' least-squares residuals unrolled, angle against depth, averaged per
+  /// cell (surface_map.hpp), in the frame as built: for the report's surface map. Not moved by
+  /// moved_to_frame (the sensitivity study does not draw it).
+  SurfaceMap surface_map;
 
   bool evaluated() const noexcept { return not_evaluated.empty(); }
 };
@@ -228,6 +233,8 @@ struct BoreEvaluationOptions {
   /// The prepare stage evaluate_bore(plan, points) runs (bore_prepare_options).
   bool stray_screen = true;
   StrayPointOptions stray_points;
+  /// The grid of BoreResult::surface_map.
+  SurfaceMapOptions surface_map;
 };
 
 /// One bore's specification paired with its prepared points, in the datum frame. Both are
