@@ -591,10 +591,12 @@ BoreResult evaluate_bore(const BoreInput& input, const BoreEvaluationOptions& op
                        " mm below the probed band of " + mm(probed_span) +
                        " mm: the axis is extrapolated over more than a tenth of its support");
 
-  // The unrolled surface for the report: the least-squares residuals already computed, binned.
-  result.surface_map = radial_deviation_map(points, result.least_squares.residuals.values,
-                                            result.least_squares.axis, result.zone,
-                                            options.surface_map);
+  // The unrolled surface for the report: the least-squares residuals already computed (one
+  // per point, finite: checked_bore), binned.
+  if (result.least_squares.residuals.values.size() == n)
+    result.surface_map = radial_deviation_map(points, result.least_squares.residuals.values,
+                                              result.least_squares.axis, result.zone,
+                                              options.surface_map);
 
   // ---- 2., 5., 6., 10. The toleranced axis, position, perpendicularity, tilt.
   evaluate_in_zone(result, bore, options.fit);

@@ -44,9 +44,12 @@ std::string esc(std::string_view text) {
 /// Fixed-point text of a coordinate on paper (mm, 0.01 mm is far below a printer's dot).
 std::string at(double mm) { return ReportUnits::fixed(mm, 2); }
 
-/// A minus sign as U+2212 in figure labels (typographic; ASCII '-' in tables stays).
+/// A minus sign as U+2212 in figure labels (typographic; ASCII '-' in tables stays); none for a
+/// value that rounds to zero ("-0.00" is "0.00").
 std::string signed_text(const std::string& fixed) {
-  return !fixed.empty() && fixed[0] == '-' ? "\u2212" + fixed.substr(1) : fixed;
+  if (fixed.empty() || fixed[0] != '-') return fixed;
+  if (fixed.find_first_not_of("-0.") == std::string::npos) return fixed.substr(1);
+  return "\u2212" + fixed.substr(1);
 }
 
 /// Micrometres from millimetres, with `decimals`.
@@ -132,27 +135,25 @@ std::string hex(const Rgb& c) {
 
 // ------------------------------------------------------------------ verdicts
 
-/// Words and a symbol, never colour alone: "✔ conforms", "✘ does not conform", "? not proven".
-std::string verdict_text(Verdict v) {
-  switch (v) {
-    case Verdict::conforms: return "\u2714 conforms";
-    case Verdict::does_not_conform: return "\u2718 does not conform";
-    case Verdict::not_proven: return "? not proven";
-  }
-  return "? not proven";
-}
+/// Words and a symbol, never colour alone: "✔ conforms", "✘ does not conform", "? not proven";
+/// with the style class that frames it (thin solid, thick solid, dashed).
+struct VerdictMark {
+  const char* text;
+  const char* style;
+};
 
-std::string verdict_class(Verdict v) {
+VerdictMark verdict_mark(Verdict v) {
   switch (v) {
-    case Verdict::conforms: return "v-ok";
-    case Verdict::does_not_conform: return "v-fail";
-    case Verdict::not_proven: return "v-open";
+    case Verdict::conforms: return {"\u2714 conforms", "v-ok"};
+    case Verdict::does_not_conform: return {"\u2718 does not conform", "v-fail"};
+    case Verdict::not_proven: break;
   }
-  return "v-open";
+  return {"? not proven", "v-open"};
 }
 
 std::string verdict_span(Verdict v) {
-  return "<span class=\"verdict " + verdict_class(v) + "\">" + verdict_text(v) + "</span>";
+  const VerdictMark mark = verdict_mark(v);
+  return std::string("<span class=\"verdict ") + mark.style + "\">" + mark.text + "</span>";
 }
 
 // ------------------------------------------------------------------ figures
@@ -559,7 +560,7 @@ void characteristic_rows(std::ostream& out, const ReportModel& m,
         << "</td><td class=\"num\">" << u.text(c.bonus) << "</td><td class=\"num\">"
         << u.text(c.allowed) << "</td><td>";
     if (!c.decisive) {
-      out << "(" << verdict_text(c.verdict) << ")*";
+      out << "(" << verdict_mark(c.verdict).text << ")*";
       comparison_only = true;
     } else {
       out << verdict_span(c.verdict);
