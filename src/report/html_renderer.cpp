@@ -214,7 +214,7 @@ constexpr const char* svg_open =
 /// right, y up): the allowed zone, the stated zone, the axis from mouth to bottom.
 void top_view(std::ostream& out, const ReportModel& m, const DepthProfile& d) {
   const ZoneSizes z = zone_sizes(m, d);
-  constexpr double width = 72.0, height = 92.0, cx = 36.0, cy = 33.0, room = 26.0;
+  constexpr double width = 72.0, height = 84.0, cx = 36.0, cy = 31.0, room = 26.0;
   const double magnification = magnification_for(figure_extent(d, z), room);
   const auto px = [&](const AxisDeviation& s) { return cx + s.offset.x() * magnification; };
   const auto py = [&](const AxisDeviation& s) { return cy - s.offset.y() * magnification; };
@@ -256,25 +256,25 @@ void top_view(std::ostream& out, const ReportModel& m, const DepthProfile& d) {
   }
   if (d.exit) exit_marker(out, px(*d.exit), py(*d.exit), d.exit->height);
   // Scale bar, magnification, legend.
-  scale_bar(out, 4.0, 69.0, magnification, 12.0);
-  out << "<text x=\"" << at(width - 2) << "\" y=\"68\" text-anchor=\"end\">magnification "
+  scale_bar(out, 4.0, 65.0, magnification, 12.0);
+  out << "<text x=\"" << at(width - 2) << "\" y=\"64\" text-anchor=\"end\">magnification "
       << ratio_text(magnification) << "</text>";
   const ReportUnits& u = m.units;
   out << "<g class=\"legend\">"
-      << "<circle cx=\"5\" cy=\"73.5\" r=\"1.1\" fill=\"#fff\" stroke=\"#000\" stroke-width=\"0.35\"/>"
-      << "<text x=\"9\" y=\"74.4\">top z = " << height_text(u, d.samples.empty() ? d.range_top : d.samples.front().height)
-      << "</text><rect x=\"38\" y=\"72.5\" width=\"2\" height=\"2\" fill=\"#000\"/>"
-      << "<text x=\"42\" y=\"74.4\">bottom z = "
+      << "<circle cx=\"5\" cy=\"69\" r=\"1.1\" fill=\"#fff\" stroke=\"#000\" stroke-width=\"0.35\"/>"
+      << "<text x=\"9\" y=\"69.9\">top z = " << height_text(u, d.samples.empty() ? d.range_top : d.samples.front().height)
+      << "</text><rect x=\"38\" y=\"68\" width=\"2\" height=\"2\" fill=\"#000\"/>"
+      << "<text x=\"42\" y=\"69.9\">bottom z = "
       << height_text(u, d.samples.empty() ? d.range_bottom : d.samples.back().height) << "</text>"
-      << "<path d=\"M2.5 78h5\" stroke=\"#000\" stroke-width=\"0.5\"/><text x=\"9\" y=\"78.9\">zone \u00d8"
+      << "<path d=\"M2.5 73h5\" stroke=\"#000\" stroke-width=\"0.5\"/><text x=\"9\" y=\"73.9\">zone \u00d8"
       << u.text(z.allowed) << (std::abs(z.allowed - z.stated) > 1e-12 ? " with bonus" : "")
       << "</text>";
   if (std::abs(z.allowed - z.stated) > 1e-12)
-    out << "<path d=\"M2.5 82.5h5\" stroke=\"#000\" stroke-width=\"0.3\" stroke-dasharray=\"1.2 0.8\"/>"
-        << "<text x=\"9\" y=\"83.4\">stated zone \u00d8" << u.text(z.stated) << "</text>";
+    out << "<path d=\"M2.5 77h5\" stroke=\"#000\" stroke-width=\"0.3\" stroke-dasharray=\"1.2 0.8\"/>"
+        << "<text x=\"9\" y=\"77.9\">stated zone \u00d8" << u.text(z.stated) << "</text>";
   if (d.exit)
-    out << "<path d=\"M3.7 85.7l2.6 2.6m0 -2.6l-2.6 2.6\" stroke=\"#000\" stroke-width=\"0.5\"/>"
-        << "<text x=\"9\" y=\"87.9\">leaves the zone at z = " << height_text(u, d.exit->height)
+    out << "<path d=\"M3.7 79.7l2.6 2.6m0 -2.6l-2.6 2.6\" stroke=\"#000\" stroke-width=\"0.5\"/>"
+        << "<text x=\"9\" y=\"81.9\">leaves the zone at z = " << height_text(u, d.exit->height)
         << "</text>";
   out << "</g></svg>";
   out << "<figcaption>Top view into the bore (x right, y up): the axis from the top of the "
@@ -289,7 +289,7 @@ void top_view(std::ostream& out, const ReportModel& m, const DepthProfile& d) {
 void side_views(std::ostream& out, const ReportModel& m, const DepthProfile& d) {
   const ReportUnits& u = m.units;
   const ZoneSizes z = zone_sizes(m, d);
-  constexpr double width = 110.0, top_y = 10.0, room_y = 72.0, panel_w = 28.0, half = 13.5,
+  constexpr double width = 110.0, top_y = 10.0, room_y = 64.0, panel_w = 28.0, half = 13.5,
                    left = 13.0, gap = 2.5;
   const double upper = std::max(d.range_top, d.range_bottom);
   const double lower = std::min(d.range_top, d.range_bottom);
@@ -421,8 +421,8 @@ MapScale map_scale(const SurfaceMap& map) {
 /// against height; each cell coloured by its mean deviation, empty cells left white.
 void surface_map(std::ostream& out, const ReportModel& m, const SurfaceMap& map) {
   const ReportUnits& u = m.units;
-  constexpr double width = 180.0, height = 82.0, x0 = 16.0, y0 = 6.0, plot_w = 140.0,
-                   plot_h = 56.0;
+  constexpr double width = 180.0, height = 66.0, x0 = 16.0, y0 = 6.0, plot_w = 140.0,
+                   plot_h = 44.0;
   const MapScale scale = map_scale(map);
   const double cell_w = plot_w / static_cast<double>(map.angle_cells);
   const double cell_h = plot_h / static_cast<double>(map.depth_cells);
@@ -516,7 +516,8 @@ color:#000;background:#fff;max-width:194mm;margin:8mm auto;padding:0 4mm}
 h1{font-size:15pt;margin:0 0 2mm}h2{font-size:12.5pt;margin:5mm 0 2mm;border-bottom:0.4mm solid #000}
 h3{font-size:10.5pt;margin:3mm 0 1.5mm}
 table{border-collapse:collapse;margin:1mm 0 3mm}
-th,td{border:0.2mm solid #888;padding:0.5mm 1.4mm;text-align:left;vertical-align:top}
+th,td{border:0.2mm solid #888;padding:0.4mm 1.4mm;text-align:left;vertical-align:top}
+table.characteristics{width:100%}
 th{background:#f0f0f0}
 td.num{text-align:right;font-variant-numeric:tabular-nums;white-space:nowrap}
 .hash{font-family:"DejaVu Sans Mono",monospace;font-size:7.5pt;word-break:break-all}
@@ -534,9 +535,11 @@ figure.top-view figcaption{max-width:72mm}figure.side-view figcaption{max-width:
 svg text{fill:#000}
 .note{font-size:8.5pt}
 ul{margin:1mm 0 2mm;padding-left:5mm}
-@page{margin:12mm}
+@page{margin:11mm}
 @media print{
- body{max-width:none;margin:0;padding:0;font-size:9pt}
+ body{max-width:none;margin:0;padding:0;font-size:8.5pt}
+ figcaption{font-size:7pt}
+ th,td{padding:0.25mm 1.2mm}
  section.bore{break-before:page}
  .figure-set,figure,table,.caution{break-inside:avoid}
  h2,h3{break-after:avoid}

@@ -6,6 +6,7 @@ Renders the report with Debian's chromium, headless and without network, then ch
 * the DOM chromium built (--dump-dom): one figure set per bore of the JSON report of the same
   run, in order, each with its three figures; the safety caution; no script element and no
   script error on the console; P2's exit mark at the height the JSON gives;
+* printing: on Letter and on A4 every bore's section takes one page of its own;
 * the command line: the HTML is committed with the other reports as one set, '-' and an input
   file are refused with one error line and exit code 2.
 
@@ -197,6 +198,29 @@ check(all(abs(z - exit_z) < 1e-4 for z in marks), f"P2 exit marks at {marks}, JS
 # Bores that stay inside have no exit mark.
 p1 = dom[dom.find('data-bore="P1"'):]
 check('class="exit"' not in p1[:p1.find("</section>")], "P1 stays inside but has an exit mark")
+
+# ---- Print: every bore's section starts a page and fits on it, on Letter and on A4. The
+# document as written leaves the paper to the printer (@page without a size); a copy with the
+# size set stands for each paper. Pages are counted as the PDF's page objects (ISO 32000-1,
+# 7.7.3.3: /Type /Page).
+with tempfile.TemporaryDirectory() as tmp:
+    for paper in ("letter", "A4"):
+        copy = os.path.join(tmp, f"report-{paper}.html")
+        pdf = os.path.join(tmp, f"report-{paper}.pdf")
+        printed = source.replace("@page{", f"@page{{size:{paper};", 1)
+        check(printed != source, "no @page rule in the report")
+        with open(copy, "w", encoding="utf-8") as f:
+            f.write(printed)
+        chromium("--no-pdf-header-footer", f"--print-to-pdf={pdf}", "file://" + copy)
+        if not os.path.isfile(pdf):
+            failures.append(f"{paper}: no PDF printed")
+            continue
+        with open(pdf, "rb") as f:
+            pages = len(re.findall(rb"/Type\s*/Page(?![s\w])", f.read()))
+        # A first page (header, summary, datums), one page per bore, one or two for the rest.
+        check(len(bores) + 1 < pages <= len(bores) + 3,
+              f"{paper}: {pages} printed pages for {len(bores)} bores: a bore's section does not "
+              "fit on one page")
 
 if failures:
     print("FAILED:\n" + "\n".join(failures))
