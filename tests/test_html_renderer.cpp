@@ -11,6 +11,7 @@
 
 #include "cylzone/decide/bore_characteristics.hpp"
 #include "cylzone/report/report.hpp"
+#include "cylzone/report/report_reader.hpp"
 
 using namespace cylzone;
 
@@ -304,4 +305,21 @@ TEST_CASE("HTML: a bore not evaluated keeps its figure set, which says why it is
   CHECK(html.find("No figures: the bore was not evaluated.") != std::string::npos);
   CHECK(html.find("? not proven") != std::string::npos);
   CHECK(html.find("<figure class=\"top-view\"") == std::string::npos);
+}
+
+TEST_CASE("HTML: a model read back from the JSON report draws the zone views and the exit") {
+  const PartCheckResult r = tilted_bore_result();
+  const ReportModel m = make_report_model(r);
+  const ReportModel back = read_report_json(format_json(m), "earlier.json");
+  REQUIRE(back.bores.front().depth);
+  REQUIRE(back.bores.front().depth->exit);
+  CHECK(back.bores.front().depth->exit->height == Approx(exit_height((stated + bonus) / 2)).margin(1e-12));
+  const std::string html = format_html(back);
+  CHECK(occurrences(html, "class=\"figure-set\"") == 1);
+  CHECK(occurrences(html, "<figure class=\"top-view\"") == 1);
+  CHECK(occurrences(html, "class=\"exit\"") == 4);  // top view and three side panels
+  // The JSON carries no surface map: the figure set says so instead of drawing an empty one.
+  CHECK(html.find("<figure class=\"surface-map\"") == std::string::npos);
+  CHECK(html.find("No surface map in this report") != std::string::npos);
+  CHECK(occurrences(html, std::string(safety_caution)) == 2);
 }

@@ -66,7 +66,7 @@ DepthProfile sampled_profile(const PositionResult& p, const std::string& id, std
 /// The same with where the axis leaves the zone located on the samples.
 DepthProfile depth_profile(const PositionResult& p, const std::string& id, std::size_t count) {
   DepthProfile d = sampled_profile(p, id, count);
-  if (d.leaves_zone_at && !d.samples.empty()) d.exit = deviation_at(d.samples, *d.leaves_zone_at);
+  d.exit = exit_deviation(d);
   return d;
 }
 
@@ -82,6 +82,11 @@ DatumSummary size_datum_summary(const SizeDatumResult& s) {
 }
 
 }  // namespace
+
+std::optional<AxisDeviation> exit_deviation(const DepthProfile& profile) {
+  if (!profile.leaves_zone_at || profile.samples.empty()) return std::nullopt;
+  return deviation_at(profile.samples, *profile.leaves_zone_at);
+}
 
 std::string PartIdentity::notes_text() const {
   std::string text;

@@ -84,6 +84,11 @@ struct DepthProfile {
   std::optional<AxisDeviation> exit;
 };
 
+/// The axis's deviation at `profile.leaves_zone_at` (DepthProfile::exit): linear between the
+/// two samples around that height; empty when the axis stays inside or there are no samples.
+/// make_report_model and the JSON reader fill DepthProfile::exit with it.
+std::optional<AxisDeviation> exit_deviation(const DepthProfile& profile);
+
 /// One datum feature as the reports summarise it. Lengths in mm.
 struct DatumSummary {
   char label = 'A';
