@@ -323,3 +323,17 @@ TEST_CASE("HTML: a model read back from the JSON report draws the zone views and
   CHECK(html.find("No surface map in this report") != std::string::npos);
   CHECK(occurrences(html, std::string(safety_caution)) == 2);
 }
+
+TEST_CASE("HTML in inch: lengths and heights in inch, figure deviations in micrometres") {
+  PartCheckResult r = tilted_bore_result();
+  r.plan.unit = LengthUnit::inch;
+  const std::string html = format_html(make_report_model(r));
+  // 0.0329 mm / 25.4 = 0.0012953 in, five decimals (ReportUnits); -60 mm = -2.362 in.
+  CHECK(html.find("zone \u00d80.00130 with bonus") != std::string::npos);
+  CHECK(html.find("bottom z = \u22122.362") != std::string::npos);
+  CHECK(html.find("values in inch") != std::string::npos);
+  // The physical scale does not change with the unit: the same magnification and scale bar.
+  const std::string top = between(html, "<figure class=\"top-view\"", "</figure>");
+  CHECK(attribute(top, "<figure", "data-magnification") == 1000.0);
+  CHECK(top.find(">10 \u00b5m<") != std::string::npos);
+}
