@@ -212,7 +212,7 @@ constexpr const char* svg_open =
 
 /// Top view of the position zone, looking along the nominal direction into the bore (x to the
 /// right, y up): the allowed zone, the stated zone, the axis from mouth to bottom.
-void top_view(std::ostream& out, const ReportModel& m, const DepthProfile& d) {
+void top_view(std::ostream& out, const ReportModel& m, const BoreSummary& b, const DepthProfile& d) {
   const ZoneSizes z = zone_sizes(m, d);
   constexpr double width = 72.0, height = 84.0, cx = 36.0, cy = 31.0, room = 26.0;
   const double magnification = magnification_for(figure_extent(d, z), room);
@@ -277,16 +277,23 @@ void top_view(std::ostream& out, const ReportModel& m, const DepthProfile& d) {
         << "<text x=\"9\" y=\"81.9\">leaves the zone at z = " << height_text(u, d.exit->height)
         << "</text>";
   out << "</g></svg>";
+  // Where the dots are: the section centres of a median line, else evenly spaced heights.
+  std::string dots = "dots at the section centres";
+  if (b.axis_method != "median-line" && d.samples.size() > 2)
+    dots = "dots every " +
+           ReportUnits::fixed(u.length(std::abs(d.samples[1].height - d.samples[0].height)),
+                              u.decimals() - 2) +
+           " " + std::string(u.name()) + " of depth";
   out << "<figcaption>Top view into the bore (x right, y up): the axis from the top of the "
-         "evaluated range (\u25cb) to its bottom (\u25a0), dots at evenly spaced depths, inside "
-         "the position zone. Deviations magnified "
-      << ratio_text(magnification) << " on paper printed at 100 %.</figcaption></figure>";
+         "evaluated range (\u25cb) to its bottom (\u25a0), "
+      << dots << ", inside the position zone. Deviations magnified " << ratio_text(magnification)
+      << " on paper printed at 100 %.</figcaption></figure>";
 }
 
 /// Side views along the depth: the zone's walls and the axis in the x–z and y–z planes, and its
 /// radial distance from the true-position axis (a cylindrical zone is left where that distance
 /// passes the radius, which one plane alone may not show).
-void side_views(std::ostream& out, const ReportModel& m, const DepthProfile& d) {
+void side_views(std::ostream& out, const ReportModel& m, const BoreSummary& b, const DepthProfile& d) {
   const ReportUnits& u = m.units;
   const ZoneSizes z = zone_sizes(m, d);
   constexpr double width = 110.0, top_y = 10.0, room_y = 64.0, panel_w = 28.0, half = 13.5,
@@ -376,6 +383,12 @@ void side_views(std::ostream& out, const ReportModel& m, const DepthProfile& d) 
     out << "<path class=\"exit-level\" d=\"M" << at(left) << ' ' << at(y_of(d.exit->height))
         << "H" << at(right) << "\" stroke=\"#000\" stroke-width=\"0.25\" "
         << "stroke-dasharray=\"0.4 0.6\"/>";
+  // The band the probe covered, beside the panels: beyond it the axis is extrapolated.
+  const double probed_top = std::clamp(std::max(b.probed_top, b.probed_bottom), lower, upper);
+  const double probed_bottom = std::clamp(std::min(b.probed_top, b.probed_bottom), lower, upper);
+  out << "<rect class=\"probed\" x=\"" << at(right + 3.5) << "\" y=\"" << at(y_of(probed_top))
+      << "\" width=\"1.2\" height=\"" << at((probed_top - probed_bottom) * depth_scale)
+      << "\" fill=\"#aaaaaa\"/>";
   scale_bar(out, left, bottom_y + 8.0, magnification, 10.0);
   out << "<text x=\"" << at(right) << "\" y=\"" << at(bottom_y + 7.0)
       << "\" text-anchor=\"end\">deviation " << ratio_text(magnification) << ", depth "
@@ -388,7 +401,8 @@ void side_views(std::ostream& out, const ReportModel& m, const DepthProfile& d) 
       << (std::abs(z.allowed - z.stated) > 1e-12 ? "; dashed: stated \u00d8" + esc(u.text(z.stated)) : "")
       << ") and the axis (thick) in the x\u2013z and y\u2013z planes and as radial distance from "
          "the true-position axis (dash-dot). The zone is a cylinder: the axis leaves it where "
-         "the radial distance passes the wall, which a single plane may not show.</figcaption>"
+         "the radial distance passes the wall, which a single plane may not show. Grey bar: "
+         "the band the probe covered; beyond it the axis is extrapolated.</figcaption>"
       << "</figure>";
 }
 
@@ -626,7 +640,7 @@ void bore_section(std::ostream& out, const ReportModel& m, const BoreSummary& b,
           << height_text(u, b.depth->range_bottom);
     out << "; probed z " << height_text(u, b.probed_top) << " to " << height_text(u, b.probed_bottom)
         << "; tilt " << ReportUnits::fixed(b.tilt_rad * 1e6, 1) << " \u00b5rad toward "
-        << ReportUnits::fixed(b.tilt_azimuth_deg, 0) << "\u00b0";
+        << signed_text(ReportUnits::fixed(b.tilt_azimuth_deg, 0)) << "\u00b0";
     if (b.depth)
       out << "; "
           << (b.depth->leaves_zone_at
@@ -648,8 +662,8 @@ void bore_section(std::ostream& out, const ReportModel& m, const BoreSummary& b,
     out << "<p class=\"note\">No figures: the bore was not evaluated.</p>";
   } else {
     if (b.depth && !b.depth->samples.empty()) {
-      top_view(out, m, *b.depth);
-      side_views(out, m, *b.depth);
+      top_view(out, m, b, *b.depth);
+      side_views(out, m, b, *b.depth);
     } else {
       out << "<p class=\"note\">No position tolerance: no zone to draw.</p>";
     }
