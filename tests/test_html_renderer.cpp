@@ -2,8 +2,8 @@
 // figure's expected geometry follows from numbers the test chose: document structure, escaping
 // of hostile text, the exit point at its depth, the stated magnification and scale bar agreeing
 // with what is drawn, and the colour scale against the published cividis table.
-#include <catch2/catch.hpp>
 #include <algorithm>
+#include <catch2/catch.hpp>
 #include <cmath>
 #include <regex>
 #include <string>
@@ -67,7 +67,8 @@ PartCheckResult tilted_bore_result(const std::string& bore_id = "P2") {
   Eigen::VectorXd dev(4);
   dev << 0.0020, -0.0015, 0.0005, -0.0020;  // largest cell |mean| 2.0 um: 8 classes of 0.5 um
   Axis axis;
-  b.surface_map = radial_deviation_map(points, dev, axis, ZoneFrame::at({0, 0}, Eigen::Vector3d::UnitZ()), grid);
+  b.surface_map = radial_deviation_map(points, dev, axis,
+                                       ZoneFrame::at({0, 0}, Eigen::Vector3d::UnitZ()), grid);
   b.warnings.push_back("note <script>alert('w')</script> & more");
   r.bores.push_back(b);
   r.characteristics = bore_characteristics(b);
@@ -160,11 +161,11 @@ TEST_CASE("HTML: hostile ids, names, paths and notes are escaped") {
   CHECK(html.find("<img") == std::string::npos);
   CHECK(html.find("<b>bold") == std::string::npos);
   CHECK(html.find("&lt;script&gt;alert(&quot;x&quot;)&lt;/script&gt;") != std::string::npos);
-  CHECK(html.find("Manifold &lt;b&gt;bold&lt;/b&gt; &amp; &quot;quoted&quot;") != std::string::npos);
+  CHECK(html.find("Manifold &lt;b&gt;bold&lt;/b&gt; &amp; &quot;quoted&quot;") !=
+        std::string::npos);
   CHECK(html.find("O'Brien &lt;img src=x onerror=alert(1)&gt;") != std::string::npos);
   CHECK(html.find("points/&lt;P2&gt;.csv") != std::string::npos);
-  CHECK(html.find("note &lt;script&gt;alert('w')&lt;/script&gt; &amp; more") !=
-        std::string::npos);
+  CHECK(html.find("note &lt;script&gt;alert('w')&lt;/script&gt; &amp; more") != std::string::npos);
   // Anchors use the bore's index, never its text.
   CHECK(html.find("id=\"bore-1\"") != std::string::npos);
 }
@@ -192,7 +193,10 @@ TEST_CASE("HTML: the axis leaves its zone at the depth found, marked in every vi
   const double depth_scale = attribute(side, "<figure", "data-depth-scale");
   const double top_y = attribute(side, "class=\"panel\"", "y");  // the panel frame's top
   std::smatch g;
-  REQUIRE(std::regex_search(side, g, std::regex("class=\"exit\" data-z=\"(-?[0-9.]+)\" data-x=\"(-?[0-9.]+)\" data-y=\"(-?[0-9.]+)\"")));
+  REQUIRE(std::regex_search(
+      side, g,
+      std::regex(
+          "class=\"exit\" data-z=\"(-?[0-9.]+)\" data-x=\"(-?[0-9.]+)\" data-y=\"(-?[0-9.]+)\"")));
   CHECK(std::stod(g[1].str()) == Approx(z_exit).margin(1e-4));
   CHECK(std::stod(g[3].str()) == Approx(top_y + (top_z - z_exit) * depth_scale).margin(0.01));
   // In the radial panel the exit lies on the allowed wall.
@@ -201,7 +205,8 @@ TEST_CASE("HTML: the axis leaves its zone at the depth found, marked in every vi
   std::smatch wall;
   REQUIRE(std::regex_search(radial, wall, std::regex("class=\"wall\" d=\"M(-?[0-9.]+) ")));
   std::smatch mark;
-  REQUIRE(std::regex_search(radial, mark, std::regex("class=\"exit\" data-z=\"[-0-9.]+\" data-x=\"(-?[0-9.]+)\"")));
+  REQUIRE(std::regex_search(
+      radial, mark, std::regex("class=\"exit\" data-z=\"[-0-9.]+\" data-x=\"(-?[0-9.]+)\"")));
   CHECK(std::stod(mark[1].str()) == Approx(std::stod(wall[1].str())).margin(0.011));
   std::smatch frame;
   REQUIRE(std::regex_search(radial, frame, std::regex("<rect x=\"(-?[0-9.]+)\"")));
@@ -216,7 +221,10 @@ TEST_CASE("HTML: the stated magnification and scale bar are the ones drawn") {
   const std::string top = between(html, "<figure class=\"top-view\"", "</figure>");
   // The SVG's user unit is one millimetre of paper.
   std::smatch size;
-  REQUIRE(std::regex_search(top, size, std::regex("width=\"([0-9.]+)mm\" height=\"([0-9.]+)mm\" viewBox=\"0 0 ([0-9.]+) ([0-9.]+)\"")));
+  REQUIRE(std::regex_search(
+      top, size,
+      std::regex(
+          "width=\"([0-9.]+)mm\" height=\"([0-9.]+)mm\" viewBox=\"0 0 ([0-9.]+) ([0-9.]+)\"")));
   CHECK(size[1].str() == size[3].str());
   CHECK(size[2].str() == size[4].str());
   const double magnification = attribute(top, "<figure", "data-magnification");
@@ -229,7 +237,8 @@ TEST_CASE("HTML: the stated magnification and scale bar are the ones drawn") {
   CHECK(extent * magnification * 2.0 > 26.0);
   CHECK(magnification == 1000.0);
   // Mouth and bottom marks: their distance on paper over the axis' true displacement.
-  const double mx = attribute(top, "class=\"mouth\"", "cx"), my = attribute(top, "class=\"mouth\"", "cy");
+  const double mx = attribute(top, "class=\"mouth\"", "cx"),
+               my = attribute(top, "class=\"mouth\"", "cy");
   const double bx = attribute(top, "class=\"bottom\"", "x") + 1.0;
   const double by = attribute(top, "class=\"bottom\"", "y") + 1.0;
   const Eigen::Vector2d drawn(bx - mx, -(by - my));  // paper y runs down
@@ -239,13 +248,16 @@ TEST_CASE("HTML: the stated magnification and scale bar are the ones drawn") {
   // The zone circle: radius = allowed / 2 x magnification.
   CHECK(attribute(top, "class=\"zone-allowed\"", "r") ==
         Approx((stated + bonus) / 2 * magnification).margin(0.006));
-  CHECK(attribute(top, "class=\"zone-stated\"", "r") == Approx(stated / 2 * magnification).margin(0.006));
+  CHECK(attribute(top, "class=\"zone-stated\"", "r") ==
+        Approx(stated / 2 * magnification).margin(0.006));
   // Scale bar: a round number of micrometres whose drawn length is that many micrometres
   // magnified.
   const double um = attribute(top, "class=\"scale-bar\"", "data-um");
   CHECK(um == 10.0);
   std::smatch bar;
-  REQUIRE(std::regex_search(top, bar, std::regex("class=\"scale-bar\"[^>]*><path d=\"M[-0-9.]+ [-0-9.]+v1h([0-9.]+)v-1")));
+  REQUIRE(std::regex_search(
+      top, bar,
+      std::regex("class=\"scale-bar\"[^>]*><path d=\"M[-0-9.]+ [-0-9.]+v1h([0-9.]+)v-1")));
   CHECK(std::stod(bar[1].str()) == Approx(um / 1000.0 * magnification).margin(0.006));
   CHECK(top.find(">10 \u00b5m<") != std::string::npos);
 }
@@ -262,7 +274,8 @@ TEST_CASE("HTML: the surface map's colour scale is cividis, light rising with th
   const std::string legend = between(map, "<g class=\"legend\">", "</g>");
   std::vector<std::string> fills;  // from the top (largest) down
   const std::regex fill("fill=\"(#[0-9a-f]{6})\"");
-  for (auto it = std::sregex_iterator(legend.begin(), legend.end(), fill); it != std::sregex_iterator(); ++it)
+  for (auto it = std::sregex_iterator(legend.begin(), legend.end(), fill);
+       it != std::sregex_iterator(); ++it)
     fills.push_back((*it)[1].str());
   REQUIRE(fills.size() == 9);  // 8 classes and the white "no points" swatch
   fills.pop_back();
@@ -313,7 +326,8 @@ TEST_CASE("HTML: a model read back from the JSON report draws the zone views and
   const ReportModel back = read_report_json(format_json(m), "earlier.json");
   REQUIRE(back.bores.front().depth);
   REQUIRE(back.bores.front().depth->exit);
-  CHECK(back.bores.front().depth->exit->height == Approx(exit_height((stated + bonus) / 2)).margin(1e-12));
+  CHECK(back.bores.front().depth->exit->height ==
+        Approx(exit_height((stated + bonus) / 2)).margin(1e-12));
   const std::string html = format_html(back);
   CHECK(occurrences(html, "class=\"figure-set\"") == 1);
   CHECK(occurrences(html, "<figure class=\"top-view\"") == 1);

@@ -1,8 +1,8 @@
 // The unrolled surface map (evaluate/surface_map.hpp): points placed by their angle about the
 // axis and their height, residuals averaged per cell. The expected cells are worked out by hand
 // from the geometry (angle = atan2 in the plane normal to the axis; common practice).
-#include <catch2/catch.hpp>
 #include <Eigen/Geometry>
+#include <catch2/catch.hpp>
 #include <cmath>
 #include <stdexcept>
 
@@ -32,12 +32,18 @@ TEST_CASE("surface map: cells by angle from +x toward +y and by height from the 
   Eigen::Matrix3Xd points(3, 6);
   Eigen::VectorXd dev(6);
   // Top level z = -2, bottom z = -42: 8 rows of 5 mm; 36 columns of 10 degrees.
-  points.col(0) = on_bore(40, -25, 5, 3.0, -2.0);     dev[0] = 0.002;   // row 0, column 0
-  points.col(1) = on_bore(40, -25, 5, 7.0, -4.0);     dev[1] = 0.004;   // row 0, column 0
-  points.col(2) = on_bore(40, -25, 5, 95.0, -2.0);    dev[2] = -0.001;  // +y side: column 9
-  points.col(3) = on_bore(40, -25, 5, -90.0, -42.0);  dev[3] = 0.003;   // 270 deg, last row
-  points.col(4) = on_bore(40, -25, 5, 181.0, -22.5);  dev[4] = -0.002;  // row 4 (20..25 below)
-  points.col(5) = on_bore(40, -25, 5, 359.9, -7.1);   dev[5] = 0.001;   // row 1, column 35
+  points.col(0) = on_bore(40, -25, 5, 3.0, -2.0);
+  dev[0] = 0.002;  // row 0, column 0
+  points.col(1) = on_bore(40, -25, 5, 7.0, -4.0);
+  dev[1] = 0.004;  // row 0, column 0
+  points.col(2) = on_bore(40, -25, 5, 95.0, -2.0);
+  dev[2] = -0.001;  // +y side: column 9
+  points.col(3) = on_bore(40, -25, 5, -90.0, -42.0);
+  dev[3] = 0.003;  // 270 deg, last row
+  points.col(4) = on_bore(40, -25, 5, 181.0, -22.5);
+  dev[4] = -0.002;  // row 4 (20..25 below)
+  points.col(5) = on_bore(40, -25, 5, 359.9, -7.1);
+  dev[5] = 0.001;  // row 1, column 35
   SurfaceMapOptions options;
   options.angle_cells = 36;
   options.depth_cells = 8;
@@ -95,7 +101,8 @@ TEST_CASE("surface map: the same under a rigid motion of points, axis and zone t
     dev[i] = 0.001 * std::sin(3.0 * i);
   }
   const SurfaceMap a = radial_deviation_map(points, dev, axis, zone);
-  const Eigen::Matrix3d r = (Eigen::AngleAxisd(0.7, Eigen::Vector3d(1, 2, 3).normalized())).toRotationMatrix();
+  const Eigen::Matrix3d r =
+      (Eigen::AngleAxisd(0.7, Eigen::Vector3d(1, 2, 3).normalized())).toRotationMatrix();
   const Eigen::Vector3d t(500.0, -250.0, 75.0);
   ZoneFrame moved_zone;
   moved_zone.origin = r * zone.origin + t;
@@ -104,7 +111,8 @@ TEST_CASE("surface map: the same under a rigid motion of points, axis and zone t
   const Eigen::Matrix3Xd moved = (r * points).colwise() + t;
   const SurfaceMap b = radial_deviation_map(moved, dev, moved_axis, moved_zone);
   CHECK(a.count == b.count);
-  for (std::size_t k = 0; k < a.mean.size(); ++k) CHECK(a.mean[k] == Approx(b.mean[k]).margin(1e-15));
+  for (std::size_t k = 0; k < a.mean.size(); ++k)
+    CHECK(a.mean[k] == Approx(b.mean[k]).margin(1e-15));
   CHECK(a.top == Approx(b.top));
 }
 
@@ -124,7 +132,8 @@ TEST_CASE("surface map: bad arguments are refused") {
   nan[1] = std::nan("");
   CHECK_THROWS_AS(radial_deviation_map(points, nan, axis, zone), std::invalid_argument);
   // No points: an empty grid of the requested size.
-  const SurfaceMap empty = radial_deviation_map(Eigen::Matrix3Xd(3, 0), Eigen::VectorXd(0), axis, zone);
+  const SurfaceMap empty =
+      radial_deviation_map(Eigen::Matrix3Xd(3, 0), Eigen::VectorXd(0), axis, zone);
   CHECK(empty.mean.size() == 72 * 40);
   CHECK(empty.points == 0);
   CHECK(empty.largest_cell_magnitude() == 0.0);

@@ -62,13 +62,14 @@ SurfaceMap radial_deviation_map(const Eigen::Matrix3Xd& points, const Eigen::Vec
     return std::min(static_cast<std::size_t>(x), cells - 1);
   };
   for (Eigen::Index i = 0; i < n; ++i) {
-    const std::size_t column =
-        clamp_index(angle[i] / 360.0 * static_cast<double>(options.angle_cells), options.angle_cells);
+    const std::size_t column = clamp_index(
+        angle[i] / 360.0 * static_cast<double>(options.angle_cells), options.angle_cells);
     // One level (span 0) puts every point in the first row.
     const std::size_t row =
-        span > 0.0 ? clamp_index((map.top - height[i]) / span * static_cast<double>(options.depth_cells),
-                                 options.depth_cells)
-                   : 0;
+        span > 0.0
+            ? clamp_index((map.top - height[i]) / span * static_cast<double>(options.depth_cells),
+                          options.depth_cells)
+            : 0;
     const std::size_t cell = row * options.angle_cells + column;
     map.mean[cell] += deviations[i];
     ++map.count[cell];

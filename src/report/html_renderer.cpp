@@ -29,10 +29,18 @@ std::string esc(std::string_view text) {
   out.reserve(text.size());
   for (char c : text) {
     switch (c) {
-      case '&': out += "&amp;"; break;
-      case '<': out += "&lt;"; break;
-      case '>': out += "&gt;"; break;
-      case '"': out += "&quot;"; break;
+      case '&':
+        out += "&amp;";
+        break;
+      case '<':
+        out += "&lt;";
+        break;
+      case '>':
+        out += "&gt;";
+        break;
+      case '"':
+        out += "&quot;";
+        break;
       default:
         if ((static_cast<unsigned char>(c) < 0x20 && c != '\t' && c != '\n') || c == 0x7f) break;
         out += c;
@@ -144,9 +152,12 @@ struct VerdictMark {
 
 VerdictMark verdict_mark(Verdict v) {
   switch (v) {
-    case Verdict::conforms: return {"\u2714 conforms", "v-ok"};
-    case Verdict::does_not_conform: return {"\u2718 does not conform", "v-fail"};
-    case Verdict::not_proven: break;
+    case Verdict::conforms:
+      return {"\u2714 conforms", "v-ok"};
+    case Verdict::does_not_conform:
+      return {"\u2718 does not conform", "v-fail"};
+    case Verdict::not_proven:
+      break;
   }
   return {"? not proven", "v-open"};
 }
@@ -201,7 +212,8 @@ void scale_bar(std::ostream& out, double x, double y, double magnification, doub
 /// Cross marker of the exit point (the "×" reads in black and white).
 void exit_marker(std::ostream& out, double x, double y, double z_mm) {
   out << "<g class=\"exit\" data-z=\"" << ReportUnits::fixed(z_mm, 4) << "\" data-x=\"" << at(x)
-      << "\" data-y=\"" << at(y) << "\"><path d=\"M" << at(x - 1.3) << ' ' << at(y - 1.3) << "l2.6 2.6m0 -2.6l-2.6 2.6\" "
+      << "\" data-y=\"" << at(y) << "\"><path d=\"M" << at(x - 1.3) << ' ' << at(y - 1.3)
+      << "l2.6 2.6m0 -2.6l-2.6 2.6\" "
       << "stroke=\"#000\" stroke-width=\"0.6\"/><circle cx=\"" << at(x) << "\" cy=\"" << at(y)
       << "\" r=\"1.9\" fill=\"none\" stroke=\"#000\" stroke-width=\"0.25\"/></g>";
 }
@@ -212,15 +224,16 @@ constexpr const char* svg_open =
 
 /// Top view of the position zone, looking along the nominal direction into the bore (x to the
 /// right, y up): the allowed zone, the stated zone, the axis from mouth to bottom.
-void top_view(std::ostream& out, const ReportModel& m, const BoreSummary& b, const DepthProfile& d) {
+void top_view(std::ostream& out, const ReportModel& m, const BoreSummary& b,
+              const DepthProfile& d) {
   const ZoneSizes z = zone_sizes(m, d);
   constexpr double width = 72.0, height = 84.0, cx = 36.0, cy = 31.0, room = 26.0;
   const double magnification = magnification_for(figure_extent(d, z), room);
   const auto px = [&](const AxisDeviation& s) { return cx + s.offset.x() * magnification; };
   const auto py = [&](const AxisDeviation& s) { return cy - s.offset.y() * magnification; };
   out << "<figure class=\"top-view\" data-magnification=\"" << ReportUnits::fixed(magnification, 0)
-      << "\" data-scale-bar-um=\""
-      << ReportUnits::fixed(scale_bar_um(magnification, 12.0), 2) << "\">";
+      << "\" data-scale-bar-um=\"" << ReportUnits::fixed(scale_bar_um(magnification, 12.0), 2)
+      << "\">";
   out << svg_open << "width=\"" << width << "mm\" height=\"" << height << "mm\" viewBox=\"0 0 "
       << width << ' ' << height << "\" role=\"img\" aria-label=\"top view of the position zone\">";
   // Cross-hairs through the true position.
@@ -261,16 +274,20 @@ void top_view(std::ostream& out, const ReportModel& m, const BoreSummary& b, con
       << ratio_text(magnification) << "</text>";
   const ReportUnits& u = m.units;
   out << "<g class=\"legend\">"
-      << "<circle cx=\"5\" cy=\"69\" r=\"1.1\" fill=\"#fff\" stroke=\"#000\" stroke-width=\"0.35\"/>"
-      << "<text x=\"9\" y=\"69.9\">top z = " << height_text(u, d.samples.empty() ? d.range_top : d.samples.front().height)
+      << "<circle cx=\"5\" cy=\"69\" r=\"1.1\" fill=\"#fff\" stroke=\"#000\" "
+         "stroke-width=\"0.35\"/>"
+      << "<text x=\"9\" y=\"69.9\">top z = "
+      << height_text(u, d.samples.empty() ? d.range_top : d.samples.front().height)
       << "</text><rect x=\"38\" y=\"68\" width=\"2\" height=\"2\" fill=\"#000\"/>"
       << "<text x=\"42\" y=\"69.9\">bottom z = "
       << height_text(u, d.samples.empty() ? d.range_bottom : d.samples.back().height) << "</text>"
-      << "<path d=\"M2.5 73h5\" stroke=\"#000\" stroke-width=\"0.5\"/><text x=\"9\" y=\"73.9\">zone \u00d8"
+      << "<path d=\"M2.5 73h5\" stroke=\"#000\" stroke-width=\"0.5\"/><text x=\"9\" "
+         "y=\"73.9\">zone \u00d8"
       << u.text(z.allowed) << (std::abs(z.allowed - z.stated) > 1e-12 ? " with bonus" : "")
       << "</text>";
   if (std::abs(z.allowed - z.stated) > 1e-12)
-    out << "<path d=\"M2.5 77h5\" stroke=\"#000\" stroke-width=\"0.3\" stroke-dasharray=\"1.2 0.8\"/>"
+    out << "<path d=\"M2.5 77h5\" stroke=\"#000\" stroke-width=\"0.3\" stroke-dasharray=\"1.2 "
+           "0.8\"/>"
         << "<text x=\"9\" y=\"77.9\">stated zone \u00d8" << u.text(z.stated) << "</text>";
   if (d.exit)
     out << "<path d=\"M3.7 79.7l2.6 2.6m0 -2.6l-2.6 2.6\" stroke=\"#000\" stroke-width=\"0.5\"/>"
@@ -293,7 +310,8 @@ void top_view(std::ostream& out, const ReportModel& m, const BoreSummary& b, con
 /// Side views along the depth: the zone's walls and the axis in the x–z and y–z planes, and its
 /// radial distance from the true-position axis (a cylindrical zone is left where that distance
 /// passes the radius, which one plane alone may not show).
-void side_views(std::ostream& out, const ReportModel& m, const BoreSummary& b, const DepthProfile& d) {
+void side_views(std::ostream& out, const ReportModel& m, const BoreSummary& b,
+                const DepthProfile& d) {
   const ReportUnits& u = m.units;
   const ZoneSizes z = zone_sizes(m, d);
   constexpr double width = 110.0, top_y = 10.0, room_y = 64.0, panel_w = 28.0, half = 13.5,
@@ -324,7 +342,8 @@ void side_views(std::ostream& out, const ReportModel& m, const BoreSummary& b, c
     bool radial;
     int component;
   };
-  const Panel panels[] = {{"dx (x\u2013z plane)", false, 0}, {"dy (y\u2013z plane)", false, 1},
+  const Panel panels[] = {{"dx (x\u2013z plane)", false, 0},
+                          {"dy (y\u2013z plane)", false, 1},
                           {"radial distance", true, 0}};
   const auto value = [](const AxisDeviation& s, const Panel& p) {
     return p.radial ? s.radial() : s.offset[p.component];
@@ -334,7 +353,10 @@ void side_views(std::ostream& out, const ReportModel& m, const BoreSummary& b, c
     const double x0 = left + static_cast<double>(k) * (panel_w + gap);
     const double origin = p.radial ? x0 + 1.0 : x0 + panel_w / 2;
     const auto x_of = [&](double v) { return origin + v * magnification; };
-    out << "<g class=\"panel\" data-plane=\"" << (p.radial ? "radial" : k == 0 ? "x" : "y")
+    out << "<g class=\"panel\" data-plane=\""
+        << (p.radial ? "radial"
+            : k == 0 ? "x"
+                     : "y")
         << "\"><rect x=\"" << at(x0) << "\" y=\"" << at(top_y) << "\" width=\"" << at(panel_w)
         << "\" height=\"" << at(bottom_y - top_y) << "\" fill=\"none\" stroke=\"#999\" "
         << "stroke-width=\"0.15\"/><text x=\"" << at(x0 + panel_w / 2) << "\" y=\""
@@ -380,8 +402,8 @@ void side_views(std::ostream& out, const ReportModel& m, const BoreSummary& b, c
         << "\" stroke=\"#000\" stroke-width=\"0.25\"/><text x=\"" << at(right + 0.8) << "\" y=\""
         << at(y_of(0.0) + 0.9) << "\">A</text>";
   if (d.exit)
-    out << "<path class=\"exit-level\" d=\"M" << at(left) << ' ' << at(y_of(d.exit->height))
-        << "H" << at(right) << "\" stroke=\"#000\" stroke-width=\"0.25\" "
+    out << "<path class=\"exit-level\" d=\"M" << at(left) << ' ' << at(y_of(d.exit->height)) << "H"
+        << at(right) << "\" stroke=\"#000\" stroke-width=\"0.25\" "
         << "stroke-dasharray=\"0.4 0.6\"/>";
   // The band the probe covered, beside the panels: beyond it the axis is extrapolated.
   const double probed_top = std::clamp(std::max(b.probed_top, b.probed_bottom), lower, upper);
@@ -397,8 +419,10 @@ void side_views(std::ostream& out, const ReportModel& m, const BoreSummary& b, c
       << (d.exit ? "\u00d7 leaves the zone at z = " + height_text(u, d.exit->height)
                  : std::string("stays inside the zone over the range"))
       << "</text></svg>";
-  out << "<figcaption>Along the depth: the zone's walls (solid: allowed \u00d8" << esc(u.text(z.allowed))
-      << (std::abs(z.allowed - z.stated) > 1e-12 ? "; dashed: stated \u00d8" + esc(u.text(z.stated)) : "")
+  out << "<figcaption>Along the depth: the zone's walls (solid: allowed \u00d8"
+      << esc(u.text(z.allowed))
+      << (std::abs(z.allowed - z.stated) > 1e-12 ? "; dashed: stated \u00d8" + esc(u.text(z.stated))
+                                                 : "")
       << ") and the axis (thick) in the x\u2013z and y\u2013z planes and as radial distance from "
          "the true-position axis (dash-dot). The zone is a cylinder: the axis leaves it where "
          "the radial distance passes the wall, which a single plane may not show. Grey bar: "
@@ -435,8 +459,7 @@ MapScale map_scale(const SurfaceMap& map) {
 /// against height; each cell coloured by its mean deviation, empty cells left white.
 void surface_map(std::ostream& out, const ReportModel& m, const SurfaceMap& map) {
   const ReportUnits& u = m.units;
-  constexpr double width = 180.0, height = 66.0, x0 = 16.0, y0 = 6.0, plot_w = 140.0,
-                   plot_h = 44.0;
+  constexpr double width = 180.0, height = 66.0, x0 = 16.0, y0 = 6.0, plot_w = 140.0, plot_h = 44.0;
   const MapScale scale = map_scale(map);
   const double cell_w = plot_w / static_cast<double>(map.angle_cells);
   const double cell_h = plot_h / static_cast<double>(map.depth_cells);
@@ -507,7 +530,8 @@ void surface_map(std::ostream& out, const ReportModel& m, const SurfaceMap& map)
   }
   out << "<rect x=\"" << at(lx) << "\" y=\"" << at(y0 + plot_h + 2.5)
       << "\" width=\"5\" height=\"2.5\" fill=\"#ffffff\" stroke=\"#000\" stroke-width=\"0.1\"/>"
-      << "<text x=\"" << at(lx + 6) << "\" y=\"" << at(y0 + plot_h + 4.6) << "\">no points</text></g>";
+      << "<text x=\"" << at(lx + 6) << "\" y=\"" << at(y0 + plot_h + 4.6)
+      << "\">no points</text></g>";
   out << "<text x=\"" << at(x0) << "\" y=\"" << at(height - 2) << "\">cell "
       << ReportUnits::fixed(360.0 / static_cast<double>(map.angle_cells), 1) << "\u00b0 \u00d7 "
       << ReportUnits::fixed(u.length(span / static_cast<double>(map.depth_cells)), u.decimals() - 2)
@@ -564,14 +588,15 @@ ul{margin:1mm 0 2mm;padding-left:5mm}
 void characteristic_rows(std::ostream& out, const ReportModel& m,
                          const std::vector<Characteristic>& rows) {
   const ReportUnits& u = m.units;
-  out << "<table class=\"characteristics\"><thead><tr><th>characteristic</th><th>reference</th><th>value</th><th></th><th>limit</th>"
+  out << "<table "
+         "class=\"characteristics\"><thead><tr><th>characteristic</th><th>reference</th><th>value</"
+         "th><th></th><th>limit</th>"
          "<th>bonus</th><th>allowed</th><th>verdict</th></tr></thead><tbody>";
   bool comparison_only = false;
   for (const Characteristic& c : rows) {
     const bool evaluated = c.not_evaluated.empty();
     out << "<tr" << (c.decisive && c.verdict == Verdict::does_not_conform ? " class=\"fail\"" : "")
-        << "><td>" << esc(c.name)
-        << "</td><td>" << esc(c.reference) << "</td><td class=\"num\">"
+        << "><td>" << esc(c.name) << "</td><td>" << esc(c.reference) << "</td><td class=\"num\">"
         << (evaluated ? u.text(c.value) : "\u2014") << "</td><td>"
         << esc(comparison_symbol(c.comparison)) << "</td><td class=\"num\">" << u.text(c.tolerance)
         << "</td><td class=\"num\">" << u.text(c.bonus) << "</td><td class=\"num\">"
@@ -602,8 +627,8 @@ void datum_section(std::ostream& out, const ReportModel& m) {
       out << esc(d.association) << ", flatness " << u.text(*d.flatness) << ' ' << u.name()
           << (d.material_side_inferred ? ", material side inferred" : "");
     } else if (d.mating_size && d.boundary) {
-      out << "related mating " << (d.mating_is_width ? "width " : "size ")
-          << u.text(*d.mating_size) << ", " << esc(boundary_name(*d.boundary));
+      out << "related mating " << (d.mating_is_width ? "width " : "size ") << u.text(*d.mating_size)
+          << ", " << esc(boundary_name(*d.boundary));
       if (*d.boundary == MaterialBoundary::mmb && d.mmb_size)
         out << ' ' << u.text(*d.mmb_size) << ", shift allowance " << u.text(d.shift_allowance);
       if (*d.boundary == MaterialBoundary::lmb) out << " (shift not applied: conservative)";
@@ -638,15 +663,15 @@ void bore_section(std::ostream& out, const ReportModel& m, const BoreSummary& b,
     if (b.depth)
       out << ", z " << height_text(u, b.depth->range_top) << " to "
           << height_text(u, b.depth->range_bottom);
-    out << "; probed z " << height_text(u, b.probed_top) << " to " << height_text(u, b.probed_bottom)
-        << "; tilt " << ReportUnits::fixed(b.tilt_rad * 1e6, 1) << " \u00b5rad toward "
-        << signed_text(ReportUnits::fixed(b.tilt_azimuth_deg, 0)) << "\u00b0";
+    out << "; probed z " << height_text(u, b.probed_top) << " to "
+        << height_text(u, b.probed_bottom) << "; tilt " << ReportUnits::fixed(b.tilt_rad * 1e6, 1)
+        << " \u00b5rad toward " << signed_text(ReportUnits::fixed(b.tilt_azimuth_deg, 0))
+        << "\u00b0";
     if (b.depth)
       out << "; "
-          << (b.depth->leaves_zone_at
-                  ? "<strong>leaves its zone at z = " + height_text(u, *b.depth->leaves_zone_at) +
-                        "</strong>"
-                  : std::string("stays inside its zone"));
+          << (b.depth->leaves_zone_at ? "<strong>leaves its zone at z = " +
+                                            height_text(u, *b.depth->leaves_zone_at) + "</strong>"
+                                      : std::string("stays inside its zone"));
     out << ".</p>";
     if (b.depth_source != RangeSource::plan_depth)
       out << "<p class=\"note\"><strong>Full depth unknown:</strong> the plan gives no depth, so "

@@ -49,8 +49,8 @@ struct SurfaceMap {
   std::vector<double> mean;
   std::vector<std::size_t> count;  ///< points per cell, same layout
   std::size_t points = 0;          ///< points mapped
-  double smallest = 0.0;  ///< smallest point deviation (not cell mean), mm
-  double largest = 0.0;   ///< largest point deviation, mm
+  double smallest = 0.0;           ///< smallest point deviation (not cell mean), mm
+  double largest = 0.0;            ///< largest point deviation, mm
 
   bool empty(std::size_t row, std::size_t column) const {
     return count[row * angle_cells + column] == 0;
