@@ -1,5 +1,6 @@
 // `cylzone check PLAN`: the main job. Parses arguments, runs the library's part check, prints
-// the table and writes the requested reports (all of them or none, io/atomic_write.hpp).
+// the table and writes the requested reports (JSON, CSV, HTML: all of them or none,
+// io/atomic_write.hpp).
 // Exit 0: all conform; 1: something does not conform; 2: input error; 3: not proven.
 #include <cctype>
 #include <cstdlib>
@@ -26,6 +27,7 @@ struct CheckArguments {
   std::string plan;
   std::string json;
   std::string csv;
+  std::string html;
   bool no_sensitivity = false;
   bool quiet = false;
   std::size_t threads = hardware_threads();
@@ -129,6 +131,12 @@ int run_check(const CheckArguments& args) {
   std::vector<std::pair<OutputTarget, Renderer>> outputs;
   if (!args.json.empty()) outputs.push_back({{args.json, "--json"}, &format_json});
   if (!args.csv.empty()) outputs.push_back({{args.csv, "--csv"}, &format_csv});
+  if (!args.html.empty()) {
+    // A document for a browser, not a stream for a pipe: a file only.
+    if (is_standard_output(args.html))
+      throw std::invalid_argument("--html: '-' is not allowed: the HTML report goes to a file");
+    outputs.push_back({{args.html, "--html"}, &format_html});
+  }
   std::vector<OutputTarget> targets;
   for (const auto& output : outputs) targets.push_back(output.first);
   validate_outputs(targets, plan_inputs(plan));
@@ -170,6 +178,9 @@ void add_check_command(CLI::App& app, CommandResult& result) {
                     "write the complete report as JSON to this file ('-': standard output)");
   check->add_option("--csv", args->csv,
                     "write one CSV row per characteristic to this file ('-': standard output)");
+  check->add_option("--html", args->html,
+                    "write the report for people (one self-contained HTML file with figures "
+                    "per bore, printable) to this file");
   check->add_flag("--no-sensitivity", args->no_sensitivity,
                   "skip re-evaluating with the other associations of datum A");
   check->add_flag("--quiet", args->quiet,

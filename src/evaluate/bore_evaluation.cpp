@@ -579,6 +579,13 @@ BoreResult evaluate_bore(const BoreInput& input, const BoreEvaluationOptions& op
   const auto [own_top, own_bottom] = own_range(bore, result);
   result.depth_source = own_range_source(bore);
 
+  // The unrolled surface for the report: the least-squares residuals already computed (one
+  // per point, finite: checked_bore), binned.
+  if (result.least_squares.residuals.values.size() == n)
+    result.surface_map = radial_deviation_map(points, result.least_squares.residuals.values,
+                                              result.least_squares.axis, result.zone,
+                                              options.surface_map);
+
   // ---- 2., 5., 6., 10. The toleranced axis, position, perpendicularity, tilt.
   evaluate_in_zone(result, bore, options.fit);
 

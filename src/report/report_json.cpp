@@ -782,6 +782,7 @@ ReportModel read_report_json(std::string_view bytes, const std::string& source) 
         d.samples.push_back({mm(samples[s], sp, "z"),
                              Eigen::Vector2d(mm(samples[s], sp, "dx"), mm(samples[s], sp, "dy"))});
       }
+      d.exit = exit_deviation(d);
       b.depth = std::move(d);
     }
     // Sampling adequacy: absent in reports written before the key existed.

@@ -3,6 +3,7 @@
 #include "cylzone/report/report_model.hpp"
 
 #include <algorithm>
+#include <cmath>
 
 #include <cstdio>
 #include <regex>
@@ -13,8 +14,25 @@
 namespace cylzone {
 namespace {
 
-/// The axis along the evaluated range of the position that decides.
-DepthProfile depth_profile(const PositionResult& p, const std::string& id, std::size_t count) {
+/// The deviation at `height` on the polyline through `samples` (ordered by height, either way),
+/// linear between the two samples around it; the nearer end outside them.
+AxisDeviation deviation_at(const std::vector<AxisDeviation>& samples, double height) {
+  if (samples.size() == 1) return {height, samples.front().offset};
+  for (std::size_t k = 0; k + 1 < samples.size(); ++k) {
+    const AxisDeviation& a = samples[k];
+    const AxisDeviation& b = samples[k + 1];
+    const double lo = std::min(a.height, b.height), hi = std::max(a.height, b.height);
+    if (height < lo || height > hi) continue;
+    const double t = b.height == a.height ? 0.0 : (height - a.height) / (b.height - a.height);
+    return {height, a.offset + t * (b.offset - a.offset)};
+  }
+  const bool nearer_front = std::abs(height - samples.front().height) <=
+                            std::abs(height - samples.back().height);
+  return {height, (nearer_front ? samples.front() : samples.back()).offset};
+}
+
+/// The axis along the evaluated range of the position that decides, without its exit point.
+DepthProfile sampled_profile(const PositionResult& p, const std::string& id, std::size_t count) {
   DepthProfile d;
   d.characteristic_id = id;
   d.range_top = p.range_top;
@@ -45,6 +63,13 @@ DepthProfile depth_profile(const PositionResult& p, const std::string& id, std::
   return d;
 }
 
+/// The same with where the axis leaves the zone located on the samples.
+DepthProfile depth_profile(const PositionResult& p, const std::string& id, std::size_t count) {
+  DepthProfile d = sampled_profile(p, id, count);
+  d.exit = exit_deviation(d);
+  return d;
+}
+
 DatumSummary size_datum_summary(const SizeDatumResult& s) {
   DatumSummary d;
   d.label = s.label;
@@ -57,6 +82,11 @@ DatumSummary size_datum_summary(const SizeDatumResult& s) {
 }
 
 }  // namespace
+
+std::optional<AxisDeviation> exit_deviation(const DepthProfile& profile) {
+  if (!profile.leaves_zone_at || profile.samples.empty()) return std::nullopt;
+  return deviation_at(profile.samples, *profile.leaves_zone_at);
+}
 
 std::string PartIdentity::notes_text() const {
   std::string text;
@@ -271,6 +301,7 @@ ReportModel make_report_model(const PartCheckResult& r, const ReportModelOptions
         b.direction_held ? AxisDirection::nominal : AxisDirection::fitted));
     s.probed_top = b.probed_top;
     s.probed_bottom = b.probed_bottom;
+    if (b.evaluated() && b.surface_map.angle_cells > 0) s.surface = b.surface_map;
     s.depth_source = b.depth_source;
     s.tilt_rad = b.tilt.angle_rad;
     s.tilt_azimuth_deg = b.tilt.azimuth_deg;

@@ -12,6 +12,7 @@
 
 #include "cylzone/evaluate/axis_zone.hpp"
 #include "cylzone/evaluate/sampling_coverage.hpp"
+#include "cylzone/evaluate/surface_map.hpp"
 #include "cylzone/fit/fit_cylinder.hpp"
 #include "cylzone/plan/plan.hpp"
 #include "cylzone/fit/sections.hpp"
@@ -218,6 +219,10 @@ struct BoreResult {
   /// axis. Its warnings are also among `warnings`. Motion-invariant, found once. Set by
   /// evaluate_bore; empty in a result built otherwise.
   std::optional<SamplingCoverage> sampling;
+  /// The bore's points' least-squares residuals unrolled, angle against depth, averaged per
+  /// cell (surface_map.hpp), in the frame as built: for the report's surface map. Not moved by
+  /// moved_to_frame (the sensitivity study does not draw it).
+  SurfaceMap surface_map;
 
   bool evaluated() const noexcept { return not_evaluated.empty(); }
 };
@@ -237,6 +242,8 @@ struct BoreEvaluationOptions {
   StrayPointOptions stray_points;
   /// Sampling thresholds where the plan gives none (PlanBore::sampling).
   SamplingThresholds sampling;
+  /// The grid of BoreResult::surface_map.
+  SurfaceMapOptions surface_map;
 };
 
 /// One bore's specification paired with its prepared points, in the datum frame. Both are

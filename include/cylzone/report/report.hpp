@@ -1,8 +1,9 @@
 #pragma once
 /// \file report.hpp
-/// Renderers of the report model (report_model.hpp), one per format: a terminal table for
-/// people, JSON (schema `cylzone-report-1`) and CSV (one row per characteristic) for machines.
-/// docs/report-schema.md documents each. All three are pure functions of the model: no IO.
+/// Renderers of the report model (report_model.hpp), one per format: a terminal table and an
+/// HTML report for people, JSON (schema `cylzone-report-1`) and CSV (one row per
+/// characteristic) for machines.
+/// docs/report-schema.md documents each. All are pure functions of the model: no IO.
 /// Files are written with io/atomic_write.hpp.
 
 #include <string>
@@ -32,6 +33,14 @@ std::string format_table(const ReportModel& model, const TableOptions& options =
 std::string format_json(const ReportModel& model);
 /// The CSV report: header line, then one row per characteristic.
 std::string format_csv(const ReportModel& model);
+/// The HTML report for people to read, print and sign: one self-contained HTML5 document
+/// (inline CSS and SVG, no script, nothing fetched). Per bore a figure set: the top view of the
+/// position zone with the axis from mouth to bottom, magnified; side views of the zone's walls
+/// and the axis in two orthogonal planes and radially, with where the axis leaves the zone; the
+/// unrolled surface coloured by the deviation from the least-squares cylinder (cividis scale).
+/// Verdicts as words and symbols; legible in black and white (docs/html-report.md). Works on a
+/// model read back from JSON too (without surface maps or sensitivity).
+std::string format_html(const ReportModel& model);
 
 /// Convenience: the same, for a model built on the spot from `result`.
 std::string format_table(const PartCheckResult& result);

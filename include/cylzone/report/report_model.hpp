@@ -25,6 +25,7 @@
 #include "cylzone/decide/characteristic.hpp"
 #include "cylzone/evaluate/axis_zone.hpp"
 #include "cylzone/evaluate/bore_evaluation.hpp"
+#include "cylzone/evaluate/surface_map.hpp"
 
 namespace cylzone {
 
@@ -76,7 +77,17 @@ struct DepthProfile {
   /// a derived median line gives its section centres.
   std::vector<AxisDeviation> samples;
   std::optional<double> leaves_zone_at;  ///< first height, from the top, outside the zone
+  /// The axis's deviation at leaves_zone_at, for marking the exit in a plot: interpolated
+  /// linearly between the samples around it (exact for a straight axis, whose deviation is
+  /// affine in height; a median line is taken as straight between centres, as where it leaves
+  /// the zone is found). Empty when the axis stays inside.
+  std::optional<AxisDeviation> exit;
 };
+
+/// The axis's deviation at `profile.leaves_zone_at` (DepthProfile::exit): linear between the
+/// two samples around that height; empty when the axis stays inside or there are no samples.
+/// make_report_model and the JSON reader fill DepthProfile::exit with it.
+std::optional<AxisDeviation> exit_deviation(const DepthProfile& profile);
 
 /// One datum feature as the reports summarise it. Lengths in mm.
 struct DatumSummary {
@@ -122,6 +133,10 @@ struct BoreSummary {
   /// points per section, angular coverage), its warnings in the report's unit. Empty for a bore
   /// not evaluated and in a model read from a report written before the field existed.
   std::optional<SamplingCoverage> sampling;
+  /// The unrolled surface: least-squares residuals, angle against depth, mean per cell
+  /// (evaluate/surface_map.hpp), for the HTML report's map. Empty when not evaluated and in a
+  /// model read back from JSON.
+  std::optional<SurfaceMap> surface;
   bool evaluated() const noexcept { return not_evaluated.empty(); }
 };
 
