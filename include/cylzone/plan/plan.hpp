@@ -24,6 +24,7 @@
 #include <utility>
 #include <vector>
 
+#include "cylzone/plan/audit_plan.hpp"
 #include "cylzone/plan/tolerance_types.hpp"
 #include "cylzone/core/units.hpp"
 
@@ -207,6 +208,8 @@ struct PartPlan {
   /// bore's size), one line each naming the plan key, lengths in the plan's unit; carried into
   /// every report by check_part.
   std::vector<std::string> warnings;
+  /// The optional `[audit]` table: how `cylzone audit` reads another system's summary.
+  std::optional<PlanAudit> audit;
 
   const PlanDatum* datum(char label) const noexcept;
 };
