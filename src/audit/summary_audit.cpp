@@ -268,7 +268,7 @@ void explain(AuditResult& result, const PartPlan& plan) {
     Eigen::Vector2d mean = Eigen::Vector2d::Zero();
     for (const Sample& s : samples) mean += s.difference;
     mean /= static_cast<double>(samples.size());
-    if (explains([&](const Sample&) { return mean; })) {
+    if (explains([&](const Sample&) -> Eigen::Vector2d { return mean; })) {
       result.explanation = FrameExplanation::origin_shift;
       result.shift = mean;
       result.explanation_text = "every bore is off by one common vector (" + mm(mean.x()) + ", " +
@@ -283,7 +283,8 @@ void explain(AuditResult& result, const PartPlan& plan) {
     }
     if (den > 0.0) {
       const double theta = num / den;
-      if (explains([&](const Sample& s) {
+      // The model returns a plain vector: an Eigen expression would outlive its operands.
+      if (explains([&](const Sample& s) -> Eigen::Vector2d {
             return Eigen::Vector2d(-s.location.y(), s.location.x()) * theta;
           })) {
         result.explanation = FrameExplanation::rotation_about_a;
