@@ -33,45 +33,14 @@
 #include "cylzone/core/errors.hpp"
 #include "cylzone/plan/plan.hpp"
 #include "expect_input_error.hpp"
+#include "ring_clouds.hpp"
 
 using namespace cylzone;
 using cylzone::testing::expect_input_error;
+using cylzone::testing::plane_a;
+using cylzone::testing::rings;
 
 namespace {
-
-constexpr double pi = 3.14159265358979323846;
-
-PointCloud plane_a() {
-  PointCloud plane;
-  plane.points.resize(3, 169);
-  for (int i = 0; i < 13; ++i)
-    for (int j = 0; j < 13; ++j)
-      plane.points.col(13 * i + j) = Eigen::Vector3d(-90.0 + 15.0 * i, -90.0 + 15.0 * j, 0.0);
-  return plane;
-}
-
-/// Rings on a cylinder of `radius` whose axis passes through (x, y, 0) with slope `slope` in x
-/// per unit of z; each ring perpendicular to the axis, centred on it; optional normal noise.
-PointCloud rings(double x, double y, double slope, double radius, const std::vector<double>& depths,
-                 int per_ring = 24, double noise = 0.0, unsigned seed = 1) {
-  const Eigen::Vector3d w = Eigen::Vector3d(slope, 0.0, 1.0).normalized();
-  const Eigen::Vector3d u = Eigen::Vector3d::UnitY().cross(w).normalized();
-  const Eigen::Vector3d v = w.cross(u);
-  std::mt19937 rng(seed);
-  std::normal_distribution<double> normal(0.0, noise > 0.0 ? noise : 1.0);
-  PointCloud cloud;
-  cloud.points.resize(3, static_cast<Eigen::Index>(depths.size()) * per_ring);
-  Eigen::Index n = 0;
-  for (std::size_t level = 0; level < depths.size(); ++level)
-    for (int k = 0; k < per_ring; ++k) {
-      const double angle = 2.0 * pi * (k + 0.3 * static_cast<double>(level)) / per_ring;
-      // The ring's centre on the axis: (x + slope h, y, h) with h its height along z.
-      const Eigen::Vector3d centre(x + slope * depths[level], y, depths[level]);
-      const double r = radius + (noise > 0.0 ? normal(rng) : 0.0);
-      cloud.points.col(n++) = centre + r * (std::cos(angle) * u + std::sin(angle) * v);
-    }
-  return cloud;
-}
 
 const std::vector<double> deep = {-2.0, -6.0, -10.0, -14.0, -18.0, -22.0, -26.0};
 
@@ -339,6 +308,56 @@ TEST_CASE("same-plane differences and their likeliest cause", "[audit]") {
   }
 }
 
+TEST_CASE("the audit does not depend on how the part sat on the machine", "[audit]") {
+  // A datum reference frame makes a part's figures independent of its placement (ASME
+  // Y14.5-2018 section 4, ISO 5459:2011; from memory for the clauses): every figure of the
+  // audit must be the same after a rigid motion of all the points.
+  const Part p = part(0.0005);
+  Part moved = p;
+  const Eigen::Matrix3d R =
+      (Eigen::AngleAxisd(0.7, Eigen::Vector3d(0.3, -0.5, 0.8).normalized())).toRotationMatrix();
+  const Eigen::Vector3d t(412.8, -267.1, 1180.5);
+  for (auto* clouds : {&moved.inputs.datums, &moved.inputs.bores})
+    for (PointCloud& c : *clouds) c.points = (R * c.points).colwise() + t;
+  moved.plan.datums[0].material_side = R * *p.plan.datums[0].material_side;
+  const AuditResult a = audit_summary(p.plan, evaluated(p), summary("id,dx,dy,position,verdict\n"
+                                                                    "T1,0.0100,0.0000,0.0200,pass\n"
+                                                                    "T2,0.0410,0.0290,0.1000,pass\n"));
+  const AuditResult b = audit_summary(moved.plan, evaluated(moved),
+                                      summary("id,dx,dy,position,verdict\n"
+                                              "T1,0.0100,0.0000,0.0200,pass\n"
+                                              "T2,0.0410,0.0290,0.1000,pass\n"));
+  REQUIRE(a.bores.size() == b.bores.size());
+  for (std::size_t i = 0; i < a.bores.size(); ++i) {
+    const BoreAudit &x = a.bores[i], &y = b.bores[i];
+    INFO("bore " << x.id);
+    CHECK(x.finding == y.finding);
+    CHECK(x.position == Approx(y.position).margin(1e-9));
+    CHECK(x.perpendicularity.value() == Approx(y.perpendicularity.value()).margin(1e-9));
+    REQUIRE(x.centres[0].cylzone.size() == y.centres[0].cylzone.size());
+    CHECK(x.centres[0].compared == y.centres[0].compared);
+    CHECK(x.centres[0].discrepancy == Approx(y.centres[0].discrepancy).margin(1e-9));
+    for (std::size_t k = 0; k < x.centres[0].cylzone.size(); ++k) {
+      CHECK(x.centres[0].cylzone[k].height == Approx(y.centres[0].cylzone[k].height).margin(1e-9));
+      CHECK((x.centres[0].cylzone[k].offset - y.centres[0].cylzone[k].offset).norm() < 1e-9);
+    }
+  }
+  CHECK(a.explanation == b.explanation);
+}
+
+TEST_CASE("coordinates instead of deviations", "[audit]") {
+  const Part p = part();
+  const PartEvaluation e = evaluated(p);
+  // T2's axis at (-30 + 0.04, 25 + 0.03) in the datum frame: deviations (0.04, 0.03).
+  const AuditResult r = audit_summary(
+      p.plan, e, summary("id,z,x,y,position\nT2,-5.0,-29.960,25.030,0.100\n"));
+  const BoreAudit& t2 = audit_of(r, "T2");
+  CHECK((t2.centres[0].offset - t2_offset).norm() < 1e-12);
+  CHECK(t2.internally_consistent);
+  CHECK(t2.centres[0].discrepancy < 1e-6);
+  CHECK(t2.finding == SummaryFinding::consistent);
+}
+
 TEST_CASE("unmatched rows and bores are listed, not errors", "[audit]") {
   const Part p = part();
   const PartEvaluation e = evaluated(p);
@@ -412,4 +431,42 @@ TEST_CASE("write the tilted-bore audit for the numpy cross-check", "[.][audit-ca
         << "]";
   out << "],\n \"basic\": [30.0, 20.0]}\n";
   cylzone::testing::write_case_file("CYLZONE_AUDIT_CASES", out.str());
+}
+
+TEST_CASE("the plan's [audit] table", "[audit]") {
+  const std::string head =
+      "format = \"cylzone-plan-1\"\nname = \"audit plan\"\nunits = \"inch\"\n"
+      "[datum.A]\nfeature = \"plane\"\npoints = \"a.csv\"\n"
+      "[[bore]]\nid = \"H1\"\npoints = \"h1.csv\"\nbasic = [1.0, 1.0]\n"
+      "position = { tolerance = 0.001, datums = \"A\" }\n";
+  SECTION("every key") {
+    const PartPlan plan = parse_plan(
+        head + "[audit]\nsummary = \"out/summary.csv\"\nunits = \"mm\"\n"
+               "same_plane_tolerance = 0.0002\n"
+               "columns = { id = \"Feature\", dx = \"Dev X\", z2 = \"Z low\" }\n",
+        "dir/plan.toml", false);
+    REQUIRE(plan.audit);
+    CHECK(plan.audit->summary == std::filesystem::path("dir/out/summary.csv"));
+    CHECK(plan.audit->units == LengthUnit::millimetre);
+    // A length in the plan's unit (inch, exactly 25.4 mm).
+    CHECK(*plan.audit->same_plane_tolerance == Approx(0.0002 * 25.4).epsilon(1e-15));
+    CHECK(plan.audit->column(SummaryField::id) == "Feature");
+    CHECK(plan.audit->column(SummaryField::dx) == "Dev X");
+    CHECK(plan.audit->column(SummaryField::z2) == "Z low");
+    CHECK(plan.audit->column(SummaryField::dy).empty());
+  }
+  SECTION("errors name the key and its line") {
+    expect_input_error(
+        [&] { parse_plan(head + "[audit]\ncolumns = { idd = \"F\" }\n", "plan.toml", false); },
+        "plan.toml", 13, "key 'audit.columns.idd': unknown summary field");
+    expect_input_error(
+        [&] { parse_plan(head + "[audit]\nsame_plane_tolerance = 0\n", "plan.toml", false); },
+        "plan.toml", 13, "key 'audit.same_plane_tolerance': expected a length above 0");
+    expect_input_error(
+        [&] { parse_plan(head + "[audit]\nunits = \"furlong\"\n", "plan.toml", false); },
+        "plan.toml", 13, "key 'audit.units': unknown unit");
+    expect_input_error(
+        [&] { parse_plan(head + "[audit]\nsumary = \"s.csv\"\n", "plan.toml", false); },
+        "plan.toml", 13, "key 'audit.sumary': unknown key in [audit]");
+  }
 }

@@ -14,13 +14,18 @@
 namespace cylzone {
 namespace {
 
-std::string mm(double value) {
-  std::ostringstream out;
-  out.setf(std::ios::fixed);
-  out.precision(4);
-  out << value;
-  return out.str();
-}
+/// Lengths (mm) as text in a report's unit: 4 decimals for mm, 5 for inch, as the reports print
+/// them, so a reason line reads in the plan's unit.
+struct LengthText {
+  LengthUnit unit = LengthUnit::millimetre;
+  std::string operator()(double mm) const {
+    std::ostringstream out;
+    out.setf(std::ios::fixed);
+    out.precision(unit == LengthUnit::inch ? 5 : 4);
+    out << mm / millimetres_per(unit);
+    return out.str();
+  }
+};
 
 /// Heights of the bore's own depth: the plan's ends, else the probed extent.
 std::pair<double, double> depth_range(const BoreResult& bore, const PlanBore& plan) {
@@ -59,16 +64,18 @@ ReportedCentre compare_centre(const SummaryCentre& c, std::size_t line, bool dev
     r.cylzone.push_back(figures_at(bore, PlaneLabel::mid_depth, 0.5 * (top + bottom)));
   }
   // The plane compared: the stated one, else the one the summary agrees with best (its plane
-  // is unknown; the closest is the fairest reading of it).
-  double best = INFINITY;
-  for (std::size_t i = 0; i < r.cylzone.size(); ++i) {
+  // is unknown; the closest is the fairest reading of it). A straight bore gives all three
+  // alike: a later plane is taken only when closer by more than worst_tie_margin, so rounding
+  // (and with it the part's placement on the machine) never picks the label.
+  r.compared = 0;
+  r.discrepancy = 2.0 * (r.offset - r.cylzone[0].offset).norm();
+  for (std::size_t i = 1; i < r.cylzone.size(); ++i) {
     const double d = 2.0 * (r.offset - r.cylzone[i].offset).norm();
-    if (d < best) {
-      best = d;
+    if (d < r.discrepancy - worst_tie_margin) {
+      r.discrepancy = d;
       r.compared = i;
     }
   }
-  r.discrepancy = best;
   r.discrepancy_allowed = tolerance + 2.0 * r.rounding.norm();
   return r;
 }
@@ -84,7 +91,7 @@ const Characteristic* deciding_position(const std::vector<Characteristic>& cs,
 
 void audit_bore(BoreAudit& a, const std::vector<const SummaryRow*>& rows,
                 const SummaryTable& summary, const BoreResult& bore, const PlanBore& plan,
-                const AuditOptions& options) {
+                const AuditOptions& options, const LengthText& mm) {
   // ---- the summary's own figures
   for (const SummaryRow* row : rows) {
     if (row->position) {
@@ -124,7 +131,7 @@ void audit_bore(BoreAudit& a, const std::vector<const SummaryRow*>& rows,
     if (std::fabs(*p.height - *q.height) < 1e-9)
       throw InputError(summary.file.string(), q.line,
                        "bore " + quoted_for_message(a.id) + " is given twice at z = " +
-                           mm(*p.height) + " (lines " + std::to_string(p.line) + " and " +
+                           LengthText{summary.unit}(*p.height) + " (lines " + std::to_string(p.line) + " and " +
                            std::to_string(q.line) + ")");
   }
   // The summary's arithmetic, within its printed rounding (summary.hpp).
@@ -238,7 +245,7 @@ void audit_bore(BoreAudit& a, const std::vector<const SummaryRow*>& rows,
 /// about A's normal through B's axis (differences theta x (-y, x) of the true positions, theta
 /// by least squares) when that does, else a different association of A or fit. Each model needs
 /// two compared bores at least.
-void explain(AuditResult& result, const PartPlan& plan) {
+void explain(AuditResult& result, const PartPlan& plan, const LengthText& mm) {
   struct Sample {
     Eigen::Vector2d difference, location;
     double allowed;
@@ -358,6 +365,7 @@ AuditResult audit_summary(const PartPlan& plan, const PartEvaluation& evaluation
     throw std::invalid_argument("audit_summary: the evaluation does not match the plan's bores");
   if (!(options.same_plane_tolerance > 0.0) || !std::isfinite(options.same_plane_tolerance))
     throw std::invalid_argument("audit_summary: same_plane_tolerance must be above 0");
+  const LengthText mm{plan.unit};
   AuditResult result;
   result.same_plane_tolerance = options.same_plane_tolerance;
   std::vector<std::vector<const SummaryRow*>> rows_of(plan.bores.size());
@@ -376,10 +384,10 @@ AuditResult audit_summary(const PartPlan& plan, const PartEvaluation& evaluation
     }
     BoreAudit a;
     a.id = plan.bores[i].id;
-    audit_bore(a, rows_of[i], summary, evaluation.bores[i], plan.bores[i], options);
+    audit_bore(a, rows_of[i], summary, evaluation.bores[i], plan.bores[i], options, mm);
     result.bores.push_back(std::move(a));
   }
-  explain(result, plan);
+  explain(result, plan, mm);
   return result;
 }
 

@@ -125,7 +125,7 @@ struct BoreAudit {
   // ---- the finding
   SummaryFinding finding = SummaryFinding::not_decided;
   bool overturned = false;  ///< findings 1 to 4
-  std::string reason;       ///< one line in words, lengths in mm
+  std::string reason;       ///< one line in words, lengths in the plan's unit
 };
 
 /// The likeliest common cause of same-plane differences (docs/evaluation.md says how it is
@@ -152,7 +152,7 @@ struct AuditResult {
   FrameExplanation explanation = FrameExplanation::none;
   Eigen::Vector2d shift = Eigen::Vector2d::Zero();  ///< origin_shift: summary - cylzone, mm
   double rotation_rad = 0.0;             ///< rotation_about_a: counter-clockwise seen from +z
-  std::string explanation_text;          ///< one line in words
+  std::string explanation_text;          ///< one line in words, lengths in the plan's unit
 
   bool any_overturned() const noexcept;
   bool any_not_decided() const noexcept;
