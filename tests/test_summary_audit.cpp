@@ -358,6 +358,25 @@ TEST_CASE("coordinates instead of deviations", "[audit]") {
   CHECK(t2.finding == SummaryFinding::consistent);
 }
 
+TEST_CASE("a bore cylzone cannot evaluate is not decided", "[audit]") {
+  // What is not measured is neither proven to conform nor proven not to (ISO 14253-1:2017
+  // section 5, from memory for the clause): T3 probed at one level only.
+  Part p = part();
+  p.inputs.bores[2] = rings(10.0, -40.0, 0.0, 4.007, {-14.0});
+  const PartEvaluation e = evaluated(p);
+  REQUIRE_FALSE(e.bores[2].evaluated());
+  const AuditResult r = audit_summary(
+      p.plan, e, summary("id,dx,dy,verdict\nT3,0.001,0.000,pass\nT2,0.040,0.030,pass\n"));
+  const BoreAudit& t3 = audit_of(r, "T3");
+  CHECK(t3.finding == SummaryFinding::not_decided);
+  CHECK_FALSE(t3.overturned);
+  CHECK(t3.centres.empty());
+  CHECK_FALSE(t3.not_evaluated.empty());
+  CHECK(audit_of(r, "T2").finding == SummaryFinding::consistent);
+  CHECK(r.any_not_decided());
+  CHECK_FALSE(r.any_overturned());
+}
+
 TEST_CASE("unmatched rows and bores are listed, not errors", "[audit]") {
   const Part p = part();
   const PartEvaluation e = evaluated(p);
@@ -410,6 +429,11 @@ TEST_CASE("malformed summaries: one InputError naming the file, line and column"
                      "a second depth needs");
   expect_input_error([] { summary(std::string("id,dx\0,dy\n", 11)); }, "summary.csv", 0,
                      "binary data");
+  // A fuzzing find: "0.e300010080" is zero printed with no resolution at all.
+  expect_input_error([] { summary("id,dx,dy\nP5,0.e300010080,0.0025\n"); }, "summary.csv", 2,
+                     "field 2 ('dx') is printed too coarsely to be audited");
+  expect_input_error([] { summary("id,dx,dy\nP5,2e7,0.0025\n"); }, "summary.csv", 2,
+                     "is beyond 1e6 mm");
 }
 
 TEST_CASE("write the tilted-bore audit for the numpy cross-check", "[.][audit-cases]") {

@@ -199,7 +199,13 @@ class SummaryParser {
     if (std::fabs(value) > 1e6)
       fail(line, column_name(c) + " is beyond 1e6 " + std::string(unit_name(unit_)) +
                      ": " + detail::quoted_excerpt(cell));
-    return {value * mm_, half_unit_of_last_decimal(cell) * mm_};
+    // A figure printed with an exponent may claim no resolution at all ("0e300"): its rounding
+    // would swallow every comparison, so it is refused like a figure beyond range.
+    const double rounding = half_unit_of_last_decimal(cell);
+    if (!(rounding <= 1e6))
+      fail(line, column_name(c) + " is printed too coarsely to be audited (its last digit stands "
+                                  "for more than 1e6): " + detail::quoted_excerpt(cell));
+    return {value * mm_, rounding * mm_};
   }
 
   std::optional<SummaryNumber> optional_number(const std::vector<std::string_view>& fields,

@@ -11,7 +11,8 @@
 ///
 /// Errors are InputError naming the summary file, the 1-based line and the column (or the
 /// mapping key): a mapped column missing from the header, a cell that is not a number, a verdict
-/// word not understood, an empty file, a row without an id. Bounded, printable, one line.
+/// word not understood, an empty file, a row without an id, a figure beyond 1e6 or printed so
+/// coarsely that its last digit stands for more than 1e6. Bounded, printable, one line.
 
 #include <cstddef>
 #include <filesystem>
@@ -85,7 +86,8 @@ double consistency_allowance(double position_rounding, double dx_rounding,
                              double dy_rounding) noexcept;
 
 /// Half a unit of the last decimal printed in `number` ("0.0072" -> 0.00005, "12" -> 0.5,
-/// "1.5e-3" -> 0.00005); 0 when it is not a plain decimal number.
+/// "1.5e-3" -> 0.00005); 0 when it is not a plain decimal number; infinite when the printed
+/// exponent puts it beyond a double ("0e400").
 double half_unit_of_last_decimal(std::string_view number) noexcept;
 
 }  // namespace cylzone

@@ -46,7 +46,7 @@ struct PlanAudit {
   /// The summary file, relative to the plan's folder (`summary = "..."`); empty: on the command
   /// line only.
   std::filesystem::path summary;
-  /// The `[audit]` table's line and its keys' lines (empty key when the plan has none).
+  /// The `[audit]` table's line in the plan (0: built in code or given on the command line).
   std::size_t line = 0;
 
   const std::string& column(SummaryField f) const noexcept {
