@@ -16,9 +16,8 @@
 //    same points (tests/reference/crosscheck_summary_audit.py, from the hidden case
 //    "[audit-cases]").
 
-#include <catch2/catch.hpp>
-
 #include <Eigen/Geometry>
+#include <catch2/catch.hpp>
 #include <cmath>
 #include <iomanip>
 #include <random>
@@ -98,10 +97,10 @@ Part part(double t1_noise = 0.0) {
                      rings(60.0, 0.0, 0.0, 4.005, deep)};
   p.plan.bores = {bore("T1", 30.0, 20.0, 0.05), bore("T2", -30.0, 25.0, 0.2),
                   bore("T3", 10.0, -40.0, 0.05)};
-  p.inputs.bores = {rings(30.0 + t1_mouth.x(), 20.0 + t1_mouth.y(), t1_slope, 4.008, deep, 24,
-                          t1_noise, 7),
-                    rings(-30.0 + t2_offset.x(), 25.0 + t2_offset.y(), 0.0, 4.006, deep),
-                    rings(10.0, -40.0, 0.0, 4.007, deep)};
+  p.inputs.bores = {
+      rings(30.0 + t1_mouth.x(), 20.0 + t1_mouth.y(), t1_slope, 4.008, deep, 24, t1_noise, 7),
+      rings(-30.0 + t2_offset.x(), 25.0 + t2_offset.y(), 0.0, 4.006, deep),
+      rings(10.0, -40.0, 0.0, 4.007, deep)};
   return p;
 }
 
@@ -205,7 +204,8 @@ TEST_CASE("a tilted bore: its mouth summary passes, the full depth does not", "[
   CHECK(r.unmatched_bores == std::vector<std::string>{"T2", "T3"});
 }
 
-TEST_CASE("without a stated plane: mouth, probed centroid and mid-depth, each labelled", "[audit]") {
+TEST_CASE("without a stated plane: mouth, probed centroid and mid-depth, each labelled",
+          "[audit]") {
   const Part p = part();
   const PartEvaluation e = evaluated(p);
   // The true offset at mid-depth (z = -14) of T1.
@@ -242,8 +242,8 @@ TEST_CASE("two depths: the line through them over the full depth", "[audit]") {
     CHECK(t1.finding == SummaryFinding::blind_to_tilt);
   }
   SECTION("one row with a second column set") {
-    const std::string text = "id,z,dx,dy,z2,dx2,dy2\nT1,0.0,0.0100,0.0000,-20.0," + fixed(bottom) +
-                             ",0.0000\n";
+    const std::string text =
+        "id,z,dx,dy,z2,dx2,dy2\nT1,0.0,0.0100,0.0000,-20.0," + fixed(bottom) + ",0.0000\n";
     const BoreAudit& t1 = audit_of(audit_summary(p.plan, e, summary(text)), "T1");
     REQUIRE(t1.two_depth_position);
     CHECK(*t1.two_depth_position == Approx(0.092).margin(2e-4));
@@ -274,7 +274,8 @@ TEST_CASE("same-plane differences and their likeliest cause", "[audit]") {
   };
   SECTION("every bore off by one vector: a shift of the origin") {
     const AuditResult r = audit_summary(
-        p.plan, e, summary(text([](const Eigen::Vector2d&) { return Eigen::Vector2d(0.008, -0.006); })));
+        p.plan, e,
+        summary(text([](const Eigen::Vector2d&) { return Eigen::Vector2d(0.008, -0.006); })));
     for (const BoreAudit& b : r.bores) CHECK(b.finding == SummaryFinding::disagrees_at_same_plane);
     CHECK(r.explanation == FrameExplanation::origin_shift);
     CHECK(r.shift.x() == Approx(0.008).margin(2e-5));
@@ -282,9 +283,10 @@ TEST_CASE("same-plane differences and their likeliest cause", "[audit]") {
   }
   SECTION("offsets growing with the distance from B at right angles: a rotation about A") {
     const double theta = 3e-4;  // rad
-    const AuditResult r = audit_summary(p.plan, e, summary(text([&](const Eigen::Vector2d& q) -> Eigen::Vector2d {
-                                          return Eigen::Vector2d(-q.y(), q.x()) * theta;
-                                        })));
+    const AuditResult r =
+        audit_summary(p.plan, e, summary(text([&](const Eigen::Vector2d& q) -> Eigen::Vector2d {
+                        return Eigen::Vector2d(-q.y(), q.x()) * theta;
+                      })));
     CHECK(r.explanation == FrameExplanation::rotation_about_a);
     CHECK(r.rotation_rad == Approx(theta).margin(2e-6));
   }
@@ -320,9 +322,10 @@ TEST_CASE("the audit does not depend on how the part sat on the machine", "[audi
   for (auto* clouds : {&moved.inputs.datums, &moved.inputs.bores})
     for (PointCloud& c : *clouds) c.points = (R * c.points).colwise() + t;
   moved.plan.datums[0].material_side = R * *p.plan.datums[0].material_side;
-  const AuditResult a = audit_summary(p.plan, evaluated(p), summary("id,dx,dy,position,verdict\n"
-                                                                    "T1,0.0100,0.0000,0.0200,pass\n"
-                                                                    "T2,0.0410,0.0290,0.1000,pass\n"));
+  const AuditResult a = audit_summary(p.plan, evaluated(p),
+                                      summary("id,dx,dy,position,verdict\n"
+                                              "T1,0.0100,0.0000,0.0200,pass\n"
+                                              "T2,0.0410,0.0290,0.1000,pass\n"));
   const AuditResult b = audit_summary(moved.plan, evaluated(moved),
                                       summary("id,dx,dy,position,verdict\n"
                                               "T1,0.0100,0.0000,0.0200,pass\n"
@@ -349,8 +352,8 @@ TEST_CASE("coordinates instead of deviations", "[audit]") {
   const Part p = part();
   const PartEvaluation e = evaluated(p);
   // T2's axis at (-30 + 0.04, 25 + 0.03) in the datum frame: deviations (0.04, 0.03).
-  const AuditResult r = audit_summary(
-      p.plan, e, summary("id,z,x,y,position\nT2,-5.0,-29.960,25.030,0.100\n"));
+  const AuditResult r =
+      audit_summary(p.plan, e, summary("id,z,x,y,position\nT2,-5.0,-29.960,25.030,0.100\n"));
   const BoreAudit& t2 = audit_of(r, "T2");
   CHECK((t2.centres[0].offset - t2_offset).norm() < 1e-12);
   CHECK(t2.internally_consistent);
@@ -380,8 +383,8 @@ TEST_CASE("a bore cylzone cannot evaluate is not decided", "[audit]") {
 TEST_CASE("unmatched rows and bores are listed, not errors", "[audit]") {
   const Part p = part();
   const PartEvaluation e = evaluated(p);
-  const AuditResult r = audit_summary(
-      p.plan, e, summary("id,dx,dy\nT2,0.04,0.03\nX9,0.0,0.0\nt1,0.0,0.0\n"));
+  const AuditResult r =
+      audit_summary(p.plan, e, summary("id,dx,dy\nT2,0.04,0.03\nX9,0.0,0.0\nt1,0.0,0.0\n"));
   REQUIRE(r.unmatched_rows.size() == 2);
   CHECK(r.unmatched_rows[0].id == "X9");
   CHECK(r.unmatched_rows[0].line == 3);
@@ -396,8 +399,8 @@ TEST_CASE("the reader: mapping, units and rounding", "[audit]") {
   mapping.columns[static_cast<std::size_t>(SummaryField::x)] = "X act";
   mapping.columns[static_cast<std::size_t>(SummaryField::y)] = "Y act";
   mapping.units = LengthUnit::inch;
-  const SummaryTable s = summary(
-      "# exported\nFEATURE;x ACT;Y act;Result\nH1;1.2500;-0.500;OK\n", mapping);
+  const SummaryTable s =
+      summary("# exported\nFEATURE;x ACT;Y act;Result\nH1;1.2500;-0.500;OK\n", mapping);
   CHECK_FALSE(s.deviations);
   REQUIRE(s.rows.size() == 1);
   CHECK(s.rows[0].line == 3);
@@ -447,8 +450,8 @@ TEST_CASE("write the tilted-bore audit for the numpy cross-check", "[.][audit-ca
       << " \"summary\": {\"dx\": 0.01, \"dy\": 0.0, \"position\": 0.02, \"verdict\": \"pass\"},\n"
       << " \"cylzone\": {\"mouth_dx\": " << t1.centres[0].cylzone[0].offset.x()
       << ", \"mouth_dy\": " << t1.centres[0].cylzone[0].offset.y()
-      << ", \"position\": " << t1.position << ", \"allowed\": " << t1.allowed
-      << ", \"finding\": \"" << summary_finding_name(t1.finding) << "\"},\n \"points\": [";
+      << ", \"position\": " << t1.position << ", \"allowed\": " << t1.allowed << ", \"finding\": \""
+      << summary_finding_name(t1.finding) << "\"},\n \"points\": [";
   const Eigen::Matrix3Xd& pts = p.inputs.bores[0].points;
   for (Eigen::Index i = 0; i < pts.cols(); ++i)
     out << (i ? ",\n  " : "\n  ") << "[" << pts(0, i) << ", " << pts(1, i) << ", " << pts(2, i)
@@ -464,11 +467,12 @@ TEST_CASE("the plan's [audit] table", "[audit]") {
       "[[bore]]\nid = \"H1\"\npoints = \"h1.csv\"\nbasic = [1.0, 1.0]\n"
       "position = { tolerance = 0.001, datums = \"A\" }\n";
   SECTION("every key") {
-    const PartPlan plan = parse_plan(
-        head + "[audit]\nsummary = \"out/summary.csv\"\nunits = \"mm\"\n"
-               "same_plane_tolerance = 0.0002\n"
-               "columns = { id = \"Feature\", dx = \"Dev X\", z2 = \"Z low\" }\n",
-        "dir/plan.toml", false);
+    const PartPlan plan =
+        parse_plan(head +
+                       "[audit]\nsummary = \"out/summary.csv\"\nunits = \"mm\"\n"
+                       "same_plane_tolerance = 0.0002\n"
+                       "columns = { id = \"Feature\", dx = \"Dev X\", z2 = \"Z low\" }\n",
+                   "dir/plan.toml", false);
     REQUIRE(plan.audit);
     CHECK(plan.audit->summary == std::filesystem::path("dir/out/summary.csv"));
     CHECK(plan.audit->units == LengthUnit::millimetre);

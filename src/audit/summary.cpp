@@ -30,11 +30,21 @@ std::string lowered(std::string_view text) {
 /// Verdict words, compared without regard to case or surrounding blanks. Words of our own
 /// choosing plus the plain English of the trade; anything else is an error rather than a guess.
 std::optional<bool> verdict_word(std::string_view text) {
-  static const std::array<const char*, 10> yes = {"pass", "passed", "ok", "conforms", "conform",
-                                                  "accept", "accepted", "in", "good", "yes"};
-  static const std::array<const char*, 13> no = {
-      "fail", "failed", "nok", "not ok", "does not conform", "not conforming", "nonconforming",
-      "reject", "rejected", "out", "bad", "no", "nc"};
+  static const std::array<const char*, 10> yes = {"pass",   "passed",   "ok", "conforms", "conform",
+                                                  "accept", "accepted", "in", "good",     "yes"};
+  static const std::array<const char*, 13> no = {"fail",
+                                                 "failed",
+                                                 "nok",
+                                                 "not ok",
+                                                 "does not conform",
+                                                 "not conforming",
+                                                 "nonconforming",
+                                                 "reject",
+                                                 "rejected",
+                                                 "out",
+                                                 "bad",
+                                                 "no",
+                                                 "nc"};
   const std::string word = lowered(text);
   for (const char* w : yes)
     if (word == w) return true;
@@ -43,12 +53,10 @@ std::optional<bool> verdict_word(std::string_view text) {
   return std::nullopt;
 }
 
-constexpr std::array<SummaryField, 5> kFirstSet = {SummaryField::dx, SummaryField::dy,
-                                                   SummaryField::x, SummaryField::y,
-                                                   SummaryField::z};
-constexpr std::array<SummaryField, 5> kSecondSet = {SummaryField::dx2, SummaryField::dy2,
-                                                    SummaryField::x2, SummaryField::y2,
-                                                    SummaryField::z2};
+constexpr std::array<SummaryField, 5> kFirstSet = {
+    SummaryField::dx, SummaryField::dy, SummaryField::x, SummaryField::y, SummaryField::z};
+constexpr std::array<SummaryField, 5> kSecondSet = {
+    SummaryField::dx2, SummaryField::dy2, SummaryField::x2, SummaryField::y2, SummaryField::z2};
 
 class SummaryParser {
  public:
@@ -66,8 +74,9 @@ class SummaryParser {
     detail::ContentLines lines(text.data(), text.data() + text.size());
     detail::Line line;
     if (!lines.next(line))
-      fail(0, "the summary is empty: expected a header row naming its columns, then one row per "
-              "bore");
+      fail(0,
+           "the summary is empty: expected a header row naming its columns, then one row per "
+           "bore");
     separator_ = detail::detect_separator(line);
     std::vector<std::string_view> fields;
     detail::split_fields(line, separator_, fields);
@@ -80,8 +89,7 @@ class SummaryParser {
       detail::split_fields(line, separator_, fields);
       table.rows.push_back(parse_row(fields, line.number));
     }
-    if (table.rows.empty())
-      fail(header_line_, "the summary has a header but no rows");
+    if (table.rows.empty()) fail(header_line_, "the summary has a header but no rows");
     return table;
   }
 
@@ -96,9 +104,7 @@ class SummaryParser {
     const std::string& given = options_.mapping.column(field);
     return given.empty() ? std::string(summary_field_key(field)) : given;
   }
-  bool mapped(SummaryField field) const {
-    return !options_.mapping.column(field).empty();
-  }
+  bool mapped(SummaryField field) const { return !options_.mapping.column(field).empty(); }
 
   void map_columns(const std::vector<std::string_view>& header, std::size_t line) {
     header_line_ = line;
@@ -111,57 +117,67 @@ class SummaryParser {
       for (std::size_t c = 0; c < header.size(); ++c) {
         if (lowered(header[c]) != name) continue;
         if (found)
-          fail(line, "the header names column " + detail::quoted_excerpt(header[c]) +
-                         " twice (fields " + std::to_string(*found + 1) + " and " +
-                         std::to_string(c + 1) + ")",
-               "columns." + std::string(summary_field_key(field)));
+          fail(line,
+               "the header names column " + detail::quoted_excerpt(header[c]) + " twice (fields " +
+                   std::to_string(*found + 1) + " and " + std::to_string(c + 1) + ")",
+               key_of(field));
         found = c;
       }
       // A column the mapping names must be there; a default name is used only when present.
       if (!found && mapped(field))
-        fail(line, "the header has no column " + detail::quoted_excerpt(wanted(field)) +
-                       " (header: " + header_text(header) + ")",
-             "columns." + std::string(summary_field_key(field)));
+        fail(line,
+             "the header has no column " + detail::quoted_excerpt(wanted(field)) +
+                 " (header: " + header_text(header) + ")",
+             key_of(field));
       column_[f] = found;
     }
-    const auto has = [&](SummaryField f) { return column_[static_cast<std::size_t>(f)].has_value(); };
-    const std::string key = "columns.id";
+    const auto has = [&](SummaryField f) { return column(f).has_value(); };
+    const auto quoted = [&](SummaryField f) { return detail::quoted_excerpt(wanted(f)); };
     if (!has(SummaryField::id))
-      fail(line, "the header has no feature id column " + detail::quoted_excerpt(wanted(SummaryField::id)) +
-                     " (header: " + header_text(header) + "); name it with columns.id or --map id=COLUMN",
-           key);
+      fail(line,
+           "the header has no feature id column " + quoted(SummaryField::id) +
+               " (header: " + header_text(header) + "); name it with columns.id or --map id=COLUMN",
+           key_of(SummaryField::id));
     const bool deviations = has(SummaryField::dx) || has(SummaryField::dy);
     const bool coordinates = has(SummaryField::x) || has(SummaryField::y);
     if (deviations && coordinates)
       fail(line, "the summary gives both deviations (dx, dy) and coordinates (x, y): map one pair",
-           "columns.x");
+           key_of(SummaryField::x));
     if (!deviations && !coordinates)
-      fail(line, "the header has neither deviation columns " + detail::quoted_excerpt(wanted(SummaryField::dx)) +
-                     ", " + detail::quoted_excerpt(wanted(SummaryField::dy)) + " nor coordinate columns " +
-                     detail::quoted_excerpt(wanted(SummaryField::x)) + ", " +
-                     detail::quoted_excerpt(wanted(SummaryField::y)) + " (header: " + header_text(header) + ")",
-           "columns.dx");
+      fail(line,
+           "the header has neither deviation columns " + quoted(SummaryField::dx) + ", " +
+               quoted(SummaryField::dy) + " nor coordinate columns " + quoted(SummaryField::x) +
+               ", " + quoted(SummaryField::y) + " (header: " + header_text(header) + ")",
+           key_of(SummaryField::dx));
     deviations_ = deviations;
     const SummaryField u = deviations ? SummaryField::dx : SummaryField::x;
     const SummaryField v = deviations ? SummaryField::dy : SummaryField::y;
     if (!has(u) || !has(v))
-      fail(line, std::string("the summary gives ") + (has(u) ? "only one of" : "only one of") +
-                     " the pair " + std::string(summary_field_key(u)) + ", " +
-                     std::string(summary_field_key(v)) + ": both are needed",
-           "columns." + std::string(summary_field_key(has(u) ? v : u)));
-    // The second set: both of its pair and the same kind as the first, with its z.
+      fail(line,
+           "the summary gives only one of the pair " + std::string(summary_field_key(u)) + ", " +
+               std::string(summary_field_key(v)) + ": both are needed",
+           key_of(has(u) ? v : u));
+    // The second set: both of its pair, the same kind as the first, and both heights.
     const SummaryField u2 = deviations ? SummaryField::dx2 : SummaryField::x2;
     const SummaryField v2 = deviations ? SummaryField::dy2 : SummaryField::y2;
     const SummaryField other_u2 = deviations ? SummaryField::x2 : SummaryField::dx2;
     const SummaryField other_v2 = deviations ? SummaryField::y2 : SummaryField::dy2;
     if (has(other_u2) || has(other_v2))
       fail(line, "the second depth must be given like the first (deviations or coordinates)",
-           "columns." + std::string(summary_field_key(has(other_u2) ? other_u2 : other_v2)));
+           key_of(has(other_u2) ? other_u2 : other_v2));
     second_ = has(u2) || has(v2) || has(SummaryField::z2);
-    if (second_ && !(has(u2) && has(v2) && has(SummaryField::z2) && has(SummaryField::z)))
-      fail(line, "a second depth needs " + std::string(summary_field_key(u2)) + ", " +
-                     std::string(summary_field_key(v2)) + ", z2 and z (the heights of both planes)",
-           "columns." + std::string(summary_field_key(!has(u2) ? u2 : !has(v2) ? v2 : !has(SummaryField::z2) ? SummaryField::z2 : SummaryField::z)));
+    if (second_) {
+      for (SummaryField needed : {u2, v2, SummaryField::z2, SummaryField::z})
+        if (!has(needed))
+          fail(line,
+               "a second depth needs " + std::string(summary_field_key(u2)) + ", " +
+                   std::string(summary_field_key(v2)) + ", z2 and z (the heights of both planes)",
+               key_of(needed));
+    }
+  }
+
+  static std::string key_of(SummaryField field) {
+    return "columns." + std::string(summary_field_key(field));
   }
 
   static std::string header_text(const std::vector<std::string_view>& header) {
@@ -187,9 +203,9 @@ class SummaryParser {
     const std::size_t c = *column(field);
     const std::string_view cell = fields[c];
     double value = 0.0;
-    const NumberStatus status = cell.empty() ? NumberStatus::not_a_number
-                                             : detail::parse_number(cell.data(),
-                                                                    cell.data() + cell.size(), value);
+    const NumberStatus status =
+        cell.empty() ? NumberStatus::not_a_number
+                     : detail::parse_number(cell.data(), cell.data() + cell.size(), value);
     if (status != NumberStatus::ok) {
       std::string problem = column_name(c) + " " + detail::describe_number_problem(status, cell);
       if (separator_ == detail::Separator::semicolon && cell.find(',') != std::string_view::npos)
@@ -197,14 +213,16 @@ class SummaryParser {
       fail(line, problem);
     }
     if (std::fabs(value) > 1e6)
-      fail(line, column_name(c) + " is beyond 1e6 " + std::string(unit_name(unit_)) +
-                     ": " + detail::quoted_excerpt(cell));
+      fail(line, column_name(c) + " is beyond 1e6 " + std::string(unit_name(unit_)) + ": " +
+                     detail::quoted_excerpt(cell));
     // A figure printed with an exponent may claim no resolution at all ("0e300"): its rounding
     // would swallow every comparison, so it is refused like a figure beyond range.
     const double rounding = half_unit_of_last_decimal(cell);
     if (!(rounding <= 1e6))
-      fail(line, column_name(c) + " is printed too coarsely to be audited (its last digit stands "
-                                  "for more than 1e6): " + detail::quoted_excerpt(cell));
+      fail(line, column_name(c) +
+                     " is printed too coarsely to be audited (its last digit stands "
+                     "for more than 1e6): " +
+                     detail::quoted_excerpt(cell));
     return {value * mm_, rounding * mm_};
   }
 
@@ -260,8 +278,9 @@ class SummaryParser {
       }
     }
     if (row.position && row.position->value < 0.0)
-      fail(line, column_name(*column(SummaryField::position)) + " is negative: a position is a "
-                                                               "diameter");
+      fail(line, column_name(*column(SummaryField::position)) +
+                     " is negative: a position is a "
+                     "diameter");
     return row;
   }
 

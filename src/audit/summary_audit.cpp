@@ -102,8 +102,7 @@ void audit_bore(BoreAudit& a, const std::vector<const SummaryRow*>& rows,
       }
     }
     if (row->diameter && !a.reported_diameter) a.reported_diameter = row->diameter->value;
-    if (row->conforms)
-      a.reported_conforms = a.reported_conforms.value_or(true) && *row->conforms;
+    if (row->conforms) a.reported_conforms = a.reported_conforms.value_or(true) && *row->conforms;
     if (!row->verdict_text.empty())
       a.verdict_text += (a.verdict_text.empty() ? "" : " / ") + row->verdict_text;
   }
@@ -125,14 +124,14 @@ void audit_bore(BoreAudit& a, const std::vector<const SummaryRow*>& rows,
   if (a.centres.size() == 2) {
     const ReportedCentre &p = a.centres[0], &q = a.centres[1];
     if (!p.height || !q.height)
-      throw InputError(summary.file.string(), q.line,
-                       "bore " + quoted_for_message(a.id) +
-                           " is given at two planes: each needs its height z");
+      throw InputError(
+          summary.file.string(), q.line,
+          "bore " + quoted_for_message(a.id) + " is given at two planes: each needs its height z");
     if (std::fabs(*p.height - *q.height) < 1e-9)
       throw InputError(summary.file.string(), q.line,
                        "bore " + quoted_for_message(a.id) + " is given twice at z = " +
-                           LengthText{summary.unit}(*p.height) + " (lines " + std::to_string(p.line) + " and " +
-                           std::to_string(q.line) + ")");
+                           LengthText{summary.unit}(*p.height) + " (lines " +
+                           std::to_string(p.line) + " and " + std::to_string(q.line) + ")");
   }
   // The summary's arithmetic, within its printed rounding (summary.hpp).
   for (const ReportedCentre& c : a.centres) {
@@ -162,9 +161,9 @@ void audit_bore(BoreAudit& a, const std::vector<const SummaryRow*>& rows,
     a.reason = "the plan gives bore " + a.id + " no position tolerance: nothing to compare";
     return;
   }
-  const PositionResult& p =
-      (bore.position_with_mobility && pos->id != bore.id + "/position") ? *bore.position_with_mobility
-                                                                       : *bore.position;
+  const PositionResult& p = (bore.position_with_mobility && pos->id != bore.id + "/position")
+                                ? *bore.position_with_mobility
+                                : *bore.position;
   a.position_id = pos->id;
   a.position = pos->value;
   a.allowed = pos->allowed;
@@ -204,13 +203,14 @@ void audit_bore(BoreAudit& a, const std::vector<const SummaryRow*>& rows,
   const bool own_tilt = a.two_depth_position && *a.two_depth_position > a.allowed;
   if (!a.internally_consistent) {
     a.finding = SummaryFinding::internally_inconsistent;
-    a.reason = "its position " + mm(*a.reported_position) + " is not 2 sqrt(dx^2 + dy^2) = " +
-               mm(a.recomputed_position) + " of its own deviations (rounding allows " +
-               mm(a.consistency_allowance) + ")";
+    a.reason = "its position " + mm(*a.reported_position) +
+               " is not 2 sqrt(dx^2 + dy^2) = " + mm(a.recomputed_position) +
+               " of its own deviations (rounding allows " + mm(a.consistency_allowance) + ")";
   } else if (!same_plane) {
     a.finding = SummaryFinding::disagrees_at_same_plane;
-    a.reason = "its centre is " + mm(worst->discrepancy) + " (as a diameter) from cylzone's at the " +
-               plane + ", beyond the " + mm(worst->discrepancy_allowed) + " allowed";
+    a.reason = "its centre is " + mm(worst->discrepancy) +
+               " (as a diameter) from cylzone's at the " + plane + ", beyond the " +
+               mm(worst->discrepancy_allowed) + " allowed";
   } else if (!cylzone_decided) {
     a.finding = SummaryFinding::not_decided;
     a.reason = "cylzone's full-depth position is not proven either way";
@@ -220,9 +220,9 @@ void audit_bore(BoreAudit& a, const std::vector<const SummaryRow*>& rows,
                " apart), but over the full depth the position is " +
                mm(own_tilt && cylzone_ok ? *a.two_depth_position : a.position) + " against " +
                mm(a.allowed) + " allowed" +
-               (a.leaves_zone_at && !cylzone_ok ? "; the axis leaves its zone at z = " +
-                                                      mm(*a.leaves_zone_at)
-                                                : std::string()) +
+               (a.leaves_zone_at && !cylzone_ok
+                    ? "; the axis leaves its zone at z = " + mm(*a.leaves_zone_at)
+                    : std::string()) +
                (own_tilt ? "; the summary's own two depths give " + mm(*a.two_depth_position)
                          : std::string());
   } else if (summary_ok != cylzone_ok) {
@@ -236,8 +236,8 @@ void audit_bore(BoreAudit& a, const std::vector<const SummaryRow*>& rows,
     a.reason = "agrees at the " + plane + " (" + mm(worst->discrepancy) +
                " apart) and with the full-depth verdict";
   }
-  a.overturned = a.finding != SummaryFinding::consistent &&
-                 a.finding != SummaryFinding::not_decided;
+  a.overturned =
+      a.finding != SummaryFinding::consistent && a.finding != SummaryFinding::not_decided;
 }
 
 /// The likeliest common cause of the same-plane differences (docs/evaluation.md): an origin
@@ -258,8 +258,8 @@ void explain(AuditResult& result, const PartPlan& plan, const LengthText& mm) {
     const auto it = std::find_if(plan.bores.begin(), plan.bores.end(),
                                  [&](const PlanBore& b) { return b.id == a.id; });
     for (const ReportedCentre& c : a.centres)
-      samples.push_back({c.offset - c.cylzone[c.compared].offset, it->basic_location,
-                         c.discrepancy_allowed});
+      samples.push_back(
+          {c.offset - c.cylzone[c.compared].offset, it->basic_location, c.discrepancy_allowed});
   }
   if (!any_disagrees) {
     result.explanation = FrameExplanation::none;
@@ -300,9 +300,10 @@ void explain(AuditResult& result, const PartPlan& plan, const LengthText& mm) {
         t.setf(std::ios::fixed);
         t.precision(1);
         t << theta * 1e6;
-        result.explanation_text = "the differences grow with the distance from B at right angles "
-                                  "to it: a rotation about A of " + t.str() +
-                                  " urad (clocking by C)";
+        result.explanation_text =
+            "the differences grow with the distance from B at right angles "
+            "to it: a rotation about A of " +
+            t.str() + " urad (clocking by C)";
         return;
       }
     }
@@ -319,32 +320,46 @@ void explain(AuditResult& result, const PartPlan& plan, const LengthText& mm) {
 
 std::string_view summary_finding_name(SummaryFinding f) noexcept {
   switch (f) {
-    case SummaryFinding::consistent: return "consistent";
-    case SummaryFinding::internally_inconsistent: return "internally inconsistent";
-    case SummaryFinding::disagrees_at_same_plane: return "disagrees at the same plane";
-    case SummaryFinding::blind_to_tilt: return "blind to tilt";
-    case SummaryFinding::verdict_differs: return "verdict differs";
-    case SummaryFinding::not_decided: return "not decided";
+    case SummaryFinding::consistent:
+      return "consistent";
+    case SummaryFinding::internally_inconsistent:
+      return "internally inconsistent";
+    case SummaryFinding::disagrees_at_same_plane:
+      return "disagrees at the same plane";
+    case SummaryFinding::blind_to_tilt:
+      return "blind to tilt";
+    case SummaryFinding::verdict_differs:
+      return "verdict differs";
+    case SummaryFinding::not_decided:
+      return "not decided";
   }
   return "not decided";
 }
 
 std::string_view plane_label_name(PlaneLabel label) noexcept {
   switch (label) {
-    case PlaneLabel::stated: return "stated plane";
-    case PlaneLabel::mouth: return "mouth";
-    case PlaneLabel::centroid: return "probed centroid";
-    case PlaneLabel::mid_depth: return "mid-depth";
+    case PlaneLabel::stated:
+      return "stated plane";
+    case PlaneLabel::mouth:
+      return "mouth";
+    case PlaneLabel::centroid:
+      return "probed centroid";
+    case PlaneLabel::mid_depth:
+      return "mid-depth";
   }
   return "stated plane";
 }
 
 std::string_view frame_explanation_name(FrameExplanation e) noexcept {
   switch (e) {
-    case FrameExplanation::none: return "none";
-    case FrameExplanation::origin_shift: return "origin shift";
-    case FrameExplanation::rotation_about_a: return "rotation about A";
-    case FrameExplanation::association_or_fit: return "different association or fit";
+    case FrameExplanation::none:
+      return "none";
+    case FrameExplanation::origin_shift:
+      return "origin shift";
+    case FrameExplanation::rotation_about_a:
+      return "rotation about A";
+    case FrameExplanation::association_or_fit:
+      return "different association or fit";
   }
   return "none";
 }
@@ -354,9 +369,8 @@ bool AuditResult::any_overturned() const noexcept {
 }
 
 bool AuditResult::any_not_decided() const noexcept {
-  return std::any_of(bores.begin(), bores.end(), [](const BoreAudit& a) {
-    return a.finding == SummaryFinding::not_decided;
-  });
+  return std::any_of(bores.begin(), bores.end(),
+                     [](const BoreAudit& a) { return a.finding == SummaryFinding::not_decided; });
 }
 
 AuditResult audit_summary(const PartPlan& plan, const PartEvaluation& evaluation,

@@ -52,7 +52,8 @@ PlanAudit mapping(const PartPlan& plan, const AuditArguments& args) {
                            " (allowed: id, dx, dy, x, y, z, position, diameter, verdict, dx2, "
                            "dy2, x2, y2, z2)");
     if (column.empty() || column.size() > 200)
-      throw InputError({}, 0, "--map " + key + ": a column's header name must hold 1 to 200 characters");
+      throw InputError({}, 0,
+                       "--map " + key + ": a column's header name must hold 1 to 200 characters");
     audit.columns[static_cast<std::size_t>(*field)] = column;
   }
   if (!args.units.empty()) audit.units = parse_unit(args.units);
@@ -142,24 +143,27 @@ void add_audit_command(CLI::App& app, CommandResult& result) {
   audit->add_option("--summary", args->summary,
                     "the other system's summary: delimited text with a header row (default: the "
                     "plan's [audit] summary)");
-  audit->add_option("--map", args->maps,
-                    "KEY=COLUMN, repeatable: the header name of a summary field (id, dx, dy or "
-                    "x, y, z, position, diameter, verdict; dx2, dy2 or x2, y2, z2 for a second "
-                    "depth); overrides the plan's [audit] columns; default: the key itself")
+  audit
+      ->add_option("--map", args->maps,
+                   "KEY=COLUMN, repeatable: the header name of a summary field (id, dx, dy or "
+                   "x, y, z, position, diameter, verdict; dx2, dy2 or x2, y2, z2 for a second "
+                   "depth); overrides the plan's [audit] columns; default: the key itself")
       ->allow_extra_args(false);
   audit->add_option("--units", args->units, "mm|inch: the summary's unit (default: the plan's)")
       ->check(CLI::IsMember({"mm", "inch"}));
-  audit->add_option("--same-plane-tolerance", args->same_plane_tolerance,
-                    "largest difference (as a diameter, in the plan's unit) between the "
-                    "summary's centre and cylzone's at the same plane (default 0.004 mm)")
+  audit
+      ->add_option("--same-plane-tolerance", args->same_plane_tolerance,
+                   "largest difference (as a diameter, in the plan's unit) between the "
+                   "summary's centre and cylzone's at the same plane (default 0.004 mm)")
       ->check(CLI::Range(1e-9, 1000.0));
   audit->add_option("--json", args->json,
                     "write the audit as JSON to this file ('-': standard output)");
   audit->add_option("--csv", args->csv,
                     "write one CSV row per bore to this file ('-': standard output)");
   audit->add_flag("--quiet", args->quiet, "do not print the table");
-  audit->add_option("--threads", args->threads,
-                    "run at most this many threads; results do not depend on it")
+  audit
+      ->add_option("--threads", args->threads,
+                   "run at most this many threads; results do not depend on it")
       ->check(CLI::Range(std::size_t{1}, std::size_t{1024}));
   audit->add_option("--time", args->time,
                     "ISO 8601 date-time written into the reports (default: the plan's [part] "

@@ -832,7 +832,8 @@ std::string format_audit_json(const AuditReport& r) {
   json bores = json::array();
   for (const BoreAudit& b : a.bores) bores.push_back(audit_bore_json(b, u));
   json rows = json::array();
-  for (const UnmatchedRow& row : a.unmatched_rows) rows.push_back({{"line", row.line}, {"id", row.id}});
+  for (const UnmatchedRow& row : a.unmatched_rows)
+    rows.push_back({{"line", row.line}, {"id", row.id}});
   std::size_t overturned = 0;
   for (const BoreAudit& b : a.bores) overturned += b.overturned;
   const std::string verdict = overturned > 0          ? "overturned"

@@ -470,8 +470,9 @@ std::string format_audit_table(const AuditReport& r, const TableOptions& options
   out << "cylzone " << r.tool_version << " audit: " << r.plan_name << "  (values in " << u.name()
       << ")\n";
   out << wrapped("summary: ",
-                 r.summary_file + " (" + (r.summary_deviations ? "deviations dx, dy" : "coordinates x, y") +
-                     " in " + r.summary_unit + "); same-plane tolerance " +
+                 r.summary_file + " (" +
+                     (r.summary_deviations ? "deviations dx, dy" : "coordinates x, y") + " in " +
+                     r.summary_unit + "); same-plane tolerance " +
                      u.text(a.same_plane_tolerance) + " (as a diameter)",
                  options.width, 4);
   const std::string identity = identity_line(r.part);
@@ -536,8 +537,10 @@ std::string format_audit_table(const AuditReport& r, const TableOptions& options
       out << pad_left(sym.none, w) << pad_left(sym.none, w);
     out << "  " << (b.overturned ? "OVERTURNED: " : "") << summary_finding_name(b.finding) << '\n';
   }
-  if (std::any_of(a.bores.begin(), a.bores.end(), [](const BoreAudit& b) { return b.verdict_implied; }))
-    out << "(i) the summary prints no verdict: its position compared with the zone cylzone allows\n";
+  if (std::any_of(a.bores.begin(), a.bores.end(),
+                  [](const BoreAudit& b) { return b.verdict_implied; }))
+    out << "(i) the summary prints no verdict: its position compared with the zone cylzone "
+           "allows\n";
   if (!shorten.empty()) {
     out << "Shortened:\n";
     shorten.list(out);
@@ -556,17 +559,20 @@ std::string format_audit_table(const AuditReport& r, const TableOptions& options
   out << wrapped("Same-plane differences: ", a.explanation_text, options.width, 4);
   std::string rows, bores;
   for (const UnmatchedRow& row : a.unmatched_rows)
-    rows += (rows.empty() ? "" : ", ") + shorten(row.id, 24) + " (line " + std::to_string(row.line) + ")";
+    rows += (rows.empty() ? "" : ", ") + shorten(row.id, 24) + " (line " +
+            std::to_string(row.line) + ")";
   for (const std::string& id : a.unmatched_bores) bores += (bores.empty() ? "" : ", ") + id;
-  if (!rows.empty()) out << wrapped("Summary rows naming no bore of the plan: ", rows, options.width, 4);
+  if (!rows.empty())
+    out << wrapped("Summary rows naming no bore of the plan: ", rows, options.width, 4);
   if (!bores.empty()) out << wrapped("Bores the summary does not give: ", bores, options.width, 4);
-  for (const std::string& warning : r.warnings) out << wrapped("warning: ", warning, options.width, 4);
+  for (const std::string& warning : r.warnings)
+    out << wrapped("warning: ", warning, options.width, 4);
   std::size_t overturned = 0;
   for (const BoreAudit& b : a.bores) overturned += b.overturned;
   std::string verdict = "EVERY SUMMARY VERDICT STANDS";
   if (overturned > 0)
-    verdict = "OVERTURNED (" + std::to_string(overturned) + " of " + std::to_string(a.bores.size()) +
-              " bores)";
+    verdict = "OVERTURNED (" + std::to_string(overturned) + " of " +
+              std::to_string(a.bores.size()) + " bores)";
   else if (a.any_not_decided())
     verdict = "NOT DECIDED (a bore cylzone could not evaluate or decide)";
   out << "\nSummary verdict: " << verdict << "\n\n"

@@ -40,12 +40,14 @@ void check_table(const cylzone::SummaryTable& table) {
 extern "C" int LLVMFuzzerTestOneInput(const std::uint8_t* data, std::size_t size) {
   const std::string_view text(reinterpret_cast<const char*>(data), size);
   cylzone::SummaryReadOptions plain;
-  cylzone::fuzz::expect_contract([&] { check_table(cylzone::parse_summary(text, "fuzz.csv", plain)); });
+  cylzone::fuzz::expect_contract(
+      [&] { check_table(cylzone::parse_summary(text, "fuzz.csv", plain)); });
   cylzone::SummaryReadOptions mapped;
   mapped.mapping.columns[static_cast<std::size_t>(cylzone::SummaryField::id)] = "Feature";
   mapped.mapping.columns[static_cast<std::size_t>(cylzone::SummaryField::x)] = "X";
   mapped.mapping.columns[static_cast<std::size_t>(cylzone::SummaryField::y)] = "Y";
   mapped.mapping.units = cylzone::LengthUnit::inch;
-  cylzone::fuzz::expect_contract([&] { check_table(cylzone::parse_summary(text, "fuzz.csv", mapped)); });
+  cylzone::fuzz::expect_contract(
+      [&] { check_table(cylzone::parse_summary(text, "fuzz.csv", mapped)); });
   return 0;
 }
