@@ -71,7 +71,8 @@ std::string format_audit_csv(const AuditReport& r) {
          "cylzone_dy,cylzone_2d,apart,apart_allowed,summary_z2,summary_dx2,summary_dy2,"
          "cylzone_dx2,cylzone_dy2,apart2,two_depth_position,position,allowed,position_verdict,"
          "perpendicularity,perpendicularity_allowed,perpendicularity_verdict,reason,units,"
-         "caution,part_id,serial,timestamp,notes\n";
+         "caution,part_id,serial,timestamp,notes,summary_diameter,mating_envelope,"
+         "least_squares_diameter\n";
   const std::string identity = csv_field(r.part.id) + ',' + csv_field(r.part.serial) + ',' +
                                csv_field(r.part.timestamp) + ',' + csv_field(r.part.notes_text());
   const auto centre = [&](const BoreAudit& b, std::size_t k, bool with_plane) {
@@ -115,16 +116,20 @@ std::string format_audit_csv(const AuditReport& r) {
           << verdict_name(b.position_verdict) << ',';
     out << opt(b.perpendicularity) << ',' << opt(b.perpendicularity_allowed) << ','
         << (b.perpendicularity_verdict ? verdict_name(*b.perpendicularity_verdict) : "") << ','
-        << csv_field(b.reason) << ',' << u.name() << ',' << caution << ',' << identity << '\n';
+        << csv_field(b.reason) << ',' << u.name() << ',' << caution << ',' << identity << ','
+        << opt(b.reported_diameter) << ','
+        << (b.position_id.empty() ? "," : u.text(b.mating_envelope) + ',' +
+                                              u.text(b.least_squares_diameter))
+        << '\n';
   }
   for (const UnmatchedRow& row : r.audit.unmatched_rows)
     out << csv_field(r.plan_name) << ',' << csv_field(row.id) << ",unmatched row,no,"
         << row.line << std::string(28, ',') << csv_field("no bore of the plan has this id") << ','
-        << u.name() << ',' << caution << ',' << identity << '\n';
+        << u.name() << ',' << caution << ',' << identity << ",,,\n";
   for (const std::string& id : r.audit.unmatched_bores)
     out << csv_field(r.plan_name) << ',' << csv_field(id) << ",unmatched bore,no,"
         << std::string(28, ',') << csv_field("the summary does not give this bore") << ','
-        << u.name() << ',' << caution << ',' << identity << '\n';
+        << u.name() << ',' << caution << ',' << identity << ",,,\n";
   return out.str();
 }
 

@@ -541,6 +541,20 @@ std::string format_audit_table(const AuditReport& r, const TableOptions& options
                   [](const BoreAudit& b) { return b.verdict_implied; }))
     out << "(i) the summary prints no verdict: its position compared with the zone cylzone "
            "allows\n";
+  // 3. Sizes, when the summary prints them: beside cylzone's unrelated mating envelope (the
+  // size a bore's MMC bonus comes from) and least-squares diameter, for comparison only.
+  if (std::any_of(a.bores.begin(), a.bores.end(),
+                  [](const BoreAudit& b) { return b.reported_diameter.has_value(); })) {
+    out << "\nDiameters (for comparison, not judged)\n"
+        << pad("bore", id_w) << "  " << pad_left("summary", w + 1) << pad_left("mating", w + 1)
+        << pad_left("l. sq.", w + 1) << pad_left("diff.", w + 1) << '\n';
+    for (const BoreAudit& b : a.bores) {
+      if (!b.reported_diameter || b.position_id.empty()) continue;
+      out << pad(shorten(b.id, id_w), id_w) << "  " << ' ' << len(*b.reported_diameter) << ' '
+          << len(b.mating_envelope) << ' ' << len(b.least_squares_diameter) << ' '
+          << len(*b.reported_diameter - b.mating_envelope) << '\n';
+    }
+  }
   if (!shorten.empty()) {
     out << "Shortened:\n";
     shorten.list(out);

@@ -87,6 +87,10 @@ with tempfile.TemporaryDirectory() as folder:
     check(report["unmatched_rows"] == [] and report["unmatched_bores"] == [], "unmatched lists")
     check(report["inputs"][-1]["role"] == "summary", "the summary is not among the inputs")
 
+    with open(out_csv) as f:
+        table_rows = list(csv.reader(f))
+    check(all(len(r) == len(table_rows[0]) for r in table_rows),
+          "CSV: a row's field count differs from the header's")
     rows = list(csv.DictReader(open(out_csv)))
     check(len(rows) == 7, f"CSV: {len(rows)} rows, expected one per bore")
     check(all(r["caution"].startswith("Caution:") for r in rows), "CSV lost the caution")
@@ -96,6 +100,7 @@ with tempfile.TemporaryDirectory() as folder:
     for r in rows:
         s = printed[r["bore"]]
         check(r["summary_dx"] == s[2] and r["summary_dy"] == s[3], f"CSV {r['bore']}: deviations")
+        check(r["summary_diameter"] == s[5], f"CSV {r['bore']}: diameter as printed")
         # The summary's own arithmetic, recomputed from the file (common practice).
         check(abs(2 * math.hypot(float(s[2]), float(s[3])) - float(s[4])) <= 0.0002,
               f"summary {r['bore']}: position is not 2 sqrt(dx^2 + dy^2)")
@@ -109,6 +114,13 @@ with tempfile.TemporaryDirectory() as folder:
         f.write("Feature;Z;DX;DY;Pos\n" + ";".join(printed["P1"][:5]) + "\nQ9;0;0;0;0\n")
     p = run(PLAN, "--summary", mapped, "--map", "id=Feature", "--map", "position=Pos")
     check(p.returncode == 0, f"mapped summary of P1: exit {p.returncode}: {p.stderr}")
+    mapped_csv = os.path.join(folder, "mapped-report.csv")
+    p2 = run(PLAN, "--summary", mapped, "--map", "id=Feature", "--map", "position=Pos",
+             "--csv", mapped_csv)
+    with open(mapped_csv) as f:
+        mrows = list(csv.reader(f))
+    check(all(len(r) == len(mrows[0]) for r in mrows) and len(mrows) == 1 + 1 + 1 + 6,
+          "CSV of the mapped summary: header, P1, the unmatched row, six unmatched bores")
     check("Summary rows naming no bore of the plan: Q9 (line 3)" in p.stdout,
           "the unmatched row is not listed")
     check("Bores the summary does not give: P2, P3, P4, P5, P6, P7" in p.stdout,
