@@ -432,6 +432,12 @@ TEST_CASE("malformed summaries: one InputError naming the file, line and column"
                      "a second depth needs");
   expect_input_error([] { summary(std::string("id,dx\0,dy\n", 11)); }, "summary.csv", 0,
                      "binary data");
+  // Ids go into every report and JSON: UTF-8 text only (RFC 3629).
+  CHECK(summary("id,dx,dy\n\xc3\x98" "10,0,0\n").rows[0].id == "\xc3\x98" "10");
+  expect_input_error([] { summary("id,dx,dy\n\xff\xfeQ,0,0\n"); }, "summary.csv", 2,
+                     "field 1 ('id') is not UTF-8 text");
+  expect_input_error([] { summary("id,dx,dy\n\xed\xa0\x80,0,0\n"); }, "summary.csv", 2,
+                     "is not UTF-8 text");  // a surrogate
   // A fuzzing find: "0.e300010080" is zero printed with no resolution at all.
   expect_input_error([] { summary("id,dx,dy\nP5,0.e300010080,0.0025\n"); }, "summary.csv", 2,
                      "field 2 ('dx') is printed too coarsely to be audited");

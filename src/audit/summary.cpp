@@ -29,6 +29,39 @@ std::string lowered(std::string_view text) {
 
 /// Verdict words, compared without regard to case or surrounding blanks. Words of our own
 /// choosing plus the plain English of the trade; anything else is an error rather than a guess.
+/// Well-formed UTF-8 (RFC 3629: no overlong forms, no surrogates, at most U+10FFFF). An id is
+/// printed in every report and written into JSON, which must be UTF-8 text.
+bool valid_utf8(std::string_view text) {
+  for (std::size_t i = 0; i < text.size();) {
+    const auto c = static_cast<unsigned char>(text[i]);
+    std::size_t n = 0;
+    unsigned long cp = 0;
+    if (c < 0x80) {
+      ++i;
+      continue;
+    } else if (c >= 0xC2 && c <= 0xDF) {
+      n = 1, cp = c & 0x1F;
+    } else if (c >= 0xE0 && c <= 0xEF) {
+      n = 2, cp = c & 0x0F;
+    } else if (c >= 0xF0 && c <= 0xF4) {
+      n = 3, cp = c & 0x07;
+    } else {
+      return false;
+    }
+    for (std::size_t k = 1; k <= n; ++k) {
+      if (i + k >= text.size()) return false;
+      const auto d = static_cast<unsigned char>(text[i + k]);
+      if ((d & 0xC0) != 0x80) return false;
+      cp = (cp << 6) | (d & 0x3F);
+    }
+    if ((n == 2 && cp < 0x800) || (n == 3 && cp < 0x10000) || cp > 0x10FFFF ||
+        (cp >= 0xD800 && cp <= 0xDFFF))
+      return false;
+    i += n + 1;
+  }
+  return true;
+}
+
 std::optional<bool> verdict_word(std::string_view text) {
   static const std::array<const char*, 10> yes = {"pass",   "passed",   "ok", "conforms", "conform",
                                                   "accept", "accepted", "in", "good",     "yes"};
@@ -261,6 +294,7 @@ class SummaryParser {
       if (static_cast<unsigned char>(ch) < 0x20 || ch == 0x7f)
         fail(line, column_name(id_column) + " holds a control character");
     if (id.size() > 64) fail(line, column_name(id_column) + " is longer than 64 characters");
+    if (!valid_utf8(id)) fail(line, column_name(id_column) + " is not UTF-8 text");
     row.id = std::string(id);
     row.centres.push_back(centre(fields, false, line));
     if (second_) row.centres.push_back(centre(fields, true, line));
