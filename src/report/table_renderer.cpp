@@ -503,9 +503,9 @@ std::string format_audit_table(const AuditReport& r, const TableOptions& options
           out << len(c.offset.x()) << len(c.offset.y()) << len(c.position);
         else
           out << std::string(static_cast<std::size_t>(3 * w), ' ');
-        out << "  " << len(p.offset.x()) << len(p.offset.y()) << len(p.position) << "  ";
+        out << "  " << len(p.offset.x()) << len(p.offset.y()) << len(p.position);
         if (i == c.compared)
-          out << len(2.0 * (c.offset - p.offset).norm()) << len(c.discrepancy_allowed);
+          out << "  " << len(2.0 * (c.offset - p.offset).norm()) << len(c.discrepancy_allowed);
         out << '\n';
       }
     }

@@ -107,6 +107,22 @@ with tempfile.TemporaryDirectory() as folder:
         check(r["finding"] == ("blind to tilt" if r["bore"] == "P2" else "consistent"),
               f"CSV {r['bore']}: finding {r['finding']}")
 
+    # The same summary without its z: cylzone's figures at the mouth, the probed centroid and
+    # mid-depth, each labelled; the mouth is the closest for P2, still blind to tilt.
+    no_z = os.path.join(folder, "no-z.csv")
+    with open(no_z, "w") as f:
+        f.write("id,dx,dy,position,verdict\n" + "".join(
+            ",".join([k, v[2], v[3], v[4], v[6]]) + "\n" for k, v in printed.items()))
+    p = run(PLAN, "--summary", no_z, "--json", out_json)
+    check(p.returncode == 1, f"summary without z: exit {p.returncode}: {p.stderr}")
+    for label in ("mouth", "probed centroid", "mid-depth"):
+        check(label in p.stdout, f"summary without z: the table lacks the plane {label!r}")
+    check(all(l == l.rstrip() for l in p.stdout.splitlines()), "table lines end in blanks")
+    p2 = {b["id"]: b for b in json.load(open(out_json))["bores"]}["P2"]
+    check(p2["summary"]["centres"][0]["compared"] == "mouth" and p2["finding"] == "blind to tilt",
+          f"summary without z: P2 compared at {p2['summary']['centres'][0]['compared']}, "
+          f"finding {p2['finding']}")
+
     # A summary of P1 only, under other column names, mapped on the command line; an unknown
     # row is listed. P1's verdict stands: exit 0.
     mapped = os.path.join(folder, "mapped.csv")
