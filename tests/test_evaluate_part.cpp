@@ -35,46 +35,19 @@
 #include "cylzone/plan/plan.hpp"
 #include "cylzone/plan/validate_plan.hpp"
 #include "expect_input_error.hpp"
+#include "ring_clouds.hpp"
 #include "same_results.hpp"
 
 using namespace cylzone;
 using Catch::Matchers::Contains;
 using cylzone::testing::same_characteristics;
 using cylzone::testing::same_position;
+using cylzone::testing::plane_a;
+using cylzone::testing::rings;
 
 namespace {
 
 constexpr double pi = 3.14159265358979323846;
-
-/// Datum A: the plane z = 0 sampled on a grid, material below.
-PointCloud plane_a() {
-  PointCloud plane;
-  plane.points.resize(3, 169);
-  for (int i = 0; i < 13; ++i)
-    for (int j = 0; j < 13; ++j)
-      plane.points.col(13 * i + j) = Eigen::Vector3d(-90.0 + 15.0 * i, -90.0 + 15.0 * j, 0.0);
-  return plane;
-}
-
-/// Rings of `per_ring` points on a cylinder of `radius` whose axis passes through
-/// (x, y, 0) with slope `slope` in x per unit of z, one ring at each depth (z of the ring's
-/// centre), each perpendicular to the axis and started at a different angle.
-PointCloud rings(double x, double y, double slope, double radius, const std::vector<double>& depths,
-                 int per_ring = 24) {
-  const Eigen::Vector3d w = Eigen::Vector3d(slope, 0.0, 1.0).normalized();
-  const Eigen::Vector3d u = Eigen::Vector3d::UnitY().cross(w).normalized();
-  const Eigen::Vector3d v = w.cross(u);
-  PointCloud cloud;
-  cloud.points.resize(3, static_cast<Eigen::Index>(depths.size()) * per_ring);
-  Eigen::Index n = 0;
-  for (std::size_t level = 0; level < depths.size(); ++level)
-    for (int k = 0; k < per_ring; ++k) {
-      const double angle = 2.0 * pi * (k + 0.3 * static_cast<double>(level)) / per_ring;
-      const Eigen::Vector3d centre(x + slope * depths[level], y, depths[level]);
-      cloud.points.col(n++) = centre + radius * (std::cos(angle) * u + std::sin(angle) * v);
-    }
-  return cloud;
-}
 
 const std::vector<double> deep = {-2.0, -6.0, -10.0, -14.0, -18.0, -22.0, -26.0};
 

@@ -4,11 +4,11 @@ points of datum face A, datum bores B and C and seven deep bores P1..P7, the par
 ground truth. Everything here is invented for the demo; no real part or product is described.
 
 Run with Debian's interpreter (numpy only):  /usr/bin/python3 generate.py
-It rewrites points/*.csv, plan.toml and ground-truth.json in this folder, and the same part as
-one whole-part scan: scan/manifold-scan.csv (every probed point above, in a shuffled order, plus
-points on the block's side faces that belong to no feature) with plan-scan.toml, which takes
-each feature's points from that cloud ([scan]). The seeds are fixed, so the output is the same
-on every run.
+It rewrites points/*.csv, plan.toml, ground-truth.json and summary-single-plane.csv in this
+folder, and the same part as one whole-part scan: scan/manifold-scan.csv (every probed point
+above, in a shuffled order, plus points on the block's side faces that belong to no feature)
+with plan-scan.toml, which takes each feature's points from that cloud ([scan]). The seeds are
+fixed, so the output is the same on every run.
 
 How the truth is made exact (README.md explains it in words):
  * The part is built directly in its TRUE datum reference frame: z out of the material, datum
@@ -514,6 +514,26 @@ def write_scan(scan_rows):
     (HERE / "plan-scan.toml").write_text(plan_text(scan=True))
 
 
+def summary_text(truth_bores):
+    """The part as a single-plane evaluation would summarise it (for `cylzone audit`): per bore
+    the X/Y deviation of the true axis from its true position at the mouth (z = 0 on A), the
+    position 2 sqrt(dx^2 + dy^2) of that one plane, the mating size and a verdict against the
+    stated tolerance plus the MMC bonus, each rounded to 4 decimals as such a summary prints
+    them. It sees no tilt, so it passes P2, whose axis leaves its zone further down."""
+    lines = ["# Single-plane summary of HM-3207 rev C (invented demo data, written by generate.py):",
+             "# deviations from true position at the mouth, z = 0 on datum A; values in mm.",
+             "id,z,dx,dy,position,diameter,verdict"]
+    for bore, truth in zip(BORES, truth_bores):
+        dx, dy = deviation(bore, 0.0)
+        dx, dy = round(float(dx), 4), round(float(dy), 4)
+        position = round(2 * math.hypot(dx, dy), 4)
+        allowed = truth["position"]["allowed"]
+        lines.append(f"{bore['id']},0.0000,{dx:.4f},{dy:.4f},{position:.4f},"
+                     f"{truth['size']['mating_envelope']:.4f},"
+                     f"{'pass' if position <= allowed else 'fail'}")
+    return "\n".join(lines) + "\n"
+
+
 def main():
     rng = np.random.default_rng(SEED)
     out = HERE / "points"
@@ -569,6 +589,7 @@ def main():
 
     (HERE / "plan.toml").write_text(plan_text())
     write_scan(scan_rows)
+    (HERE / "summary-single-plane.csv").write_text(summary_text(truth_bores))
 
     truth = {
         "about": "Ground truth of the invented demo part HM-3207 rev C (not a real part). "

@@ -49,15 +49,6 @@ std::optional<bool> switch_value(const std::string& text, const std::string& opt
   throw std::invalid_argument(option + ": expected on or off, got '" + text + "'");
 }
 
-/// The run's time in UTC, ISO 8601 ("2026-12-02T17:40:00Z").
-std::string utc_now() {
-  const std::time_t now = std::time(nullptr);
-  std::tm utc{};
-  gmtime_r(&now, &utc);
-  char buffer[32];
-  std::strftime(buffer, sizeof buffer, "%Y-%m-%dT%H:%M:%SZ", &utc);
-  return buffer;
-}
 
 /// A text option must be one printable line: it ends up in CSV cells and a table header.
 void require_printable(const std::string& text, const std::string& option) {
@@ -95,26 +86,7 @@ PartIdentity part_identity(const CheckArguments& args) {
   return part;
 }
 
-/// UTF-8 output when the locale says so (LC_ALL, else LC_CTYPE, else LANG: the first one set
-/// decides, as POSIX orders them).
-bool utf8_locale() {
-  for (const char* name : {"LC_ALL", "LC_CTYPE", "LANG"}) {
-    const char* value = std::getenv(name);
-    if (!value || !*value) continue;
-    std::string v(value);
-    for (char& c : v) c = static_cast<char>(std::tolower(static_cast<unsigned char>(c)));
-    return v.find("utf-8") != std::string::npos || v.find("utf8") != std::string::npos;
-  }
-  return false;
-}
 
-/// Every file the plan reads: reports must never be written over one of them.
-std::vector<std::filesystem::path> plan_inputs(const PartPlan& plan) {
-  std::vector<std::filesystem::path> inputs{plan.file};
-  for (const PlanDatum& d : plan.datums) inputs.push_back(d.points);
-  for (const PlanBore& b : plan.bores) inputs.push_back(b.points);
-  return inputs;
-}
 
 int run_check(const CheckArguments& args) {
   ReportModelOptions model_options;

@@ -2,7 +2,9 @@
 // Sub-commands of the cylzone tool. Each add_*_command registers its options with CLI11 and
 // sets `result.run` to the action that runs after parsing succeeded.
 #include <CLI/CLI.hpp>
+#include <filesystem>
 #include <functional>
+#include <vector>
 #include <string>
 #include <string_view>
 
@@ -18,11 +20,30 @@ inline constexpr int exit_not_proven = 3;
 /// The exit codes as `--help` lists them.
 inline constexpr std::string_view exit_code_help =
     "Exit codes: 0 every characteristic conforms (fit: success), 1 a characteristic does not "
-    "conform, 2 input or argument error, 3 conformance not proven.";
+    "conform, 2 input or argument error, 3 conformance not proven. audit: 0 every summary "
+    "verdict stands, 1 one is overturned, 3 a bore could not be decided.";
 
 /// `text` as one printable line of at most `limit` bytes: control characters become '?', a
 /// longer text is cut and ends in "...". Error messages may quote file contents or arguments.
 std::string one_line(std::string_view text, std::size_t limit = 400);
+
+/// The run's time in UTC, ISO 8601 ("2026-12-02T17:40:00Z").
+std::string utc_now();
+
+/// UTF-8 output when the locale says so (LC_ALL, else LC_CTYPE, else LANG: the first one set
+/// decides, as POSIX orders them).
+bool utf8_locale();
+
+}  // namespace cylzone::cli
+
+namespace cylzone {
+struct PartPlan;
+}
+
+namespace cylzone::cli {
+
+/// Every file the plan reads: reports must never be written over one of them.
+std::vector<std::filesystem::path> plan_inputs(const PartPlan& plan);
 
 struct CommandResult {
   std::function<int()> run;
@@ -31,5 +52,6 @@ struct CommandResult {
 
 void add_fit_command(CLI::App& app, CommandResult& result);
 void add_check_command(CLI::App& app, CommandResult& result);
+void add_audit_command(CLI::App& app, CommandResult& result);
 
 }  // namespace cylzone::cli

@@ -119,7 +119,8 @@ bool contains(const std::array<std::string_view, N>& names, std::string_view nam
 
 // Key sets of each table (docs/plan.md lists them with their meaning).
 constexpr auto kRootKeys =
-    keys("format", "name", "units", "probe", "section_gap", "datum", "bore", "part", "sampling", "scan");
+    keys("format", "name", "units", "probe", "section_gap", "datum", "bore", "part", "sampling", "scan",
+         "audit");
 // One cloud of the whole part, segmented among the features (docs/plan.md, "[scan]").
 constexpr auto kScanKeys =
     keys("points", "band", "margin", "normal_agreement", "placement", "register");
@@ -153,6 +154,7 @@ constexpr auto kPerpendicularityKeys =
     keys("tolerance", "modifier", "datums", "wide_zone_intended");
 constexpr auto kPartKeys = keys("id", "serial", "time", "notes");
 constexpr auto kSamplingKeys = keys("min_section_points", "min_coverage", "max_magnification");
+constexpr auto kAuditKeys = keys("summary", "units", "same_plane_tolerance", "columns");
 
 enum class ToleranceKind { position, perpendicularity };
 
@@ -207,6 +209,7 @@ class PlanParser {
     if (const toml::node* part = root.get("part")) plan.part = read_part(*part);
     if (const toml::node* sampling = root.get("sampling"))
       plan.sampling = read_sampling(*sampling, "sampling");
+    if (const toml::node* audit = root.get("audit")) plan.audit = read_audit(*audit);
     // The plan-wide section gap and sampling thresholds are the defaults of every bore that
     // gives none.
     for (PlanBore& bore : plan.bores) {
@@ -872,6 +875,50 @@ class PlanParser {
       for (auto& entry : written) part.notes.push_back(std::move(entry.second));
     }
     return part;
+  }
+
+  // ------------------------------------------------------------------ [audit]
+
+  /// The mapping of another system's summary (audit_plan.hpp): column names as written, the
+  /// summary's unit, the same-plane tolerance (a length in the plan's unit, > 0) and the
+  /// summary file (relative to the plan's folder; its existence is checked when it is read).
+  PlanAudit read_audit(const toml::node& node) const {
+    const toml::table& table = as_table(node, "audit", "an [audit] table");
+    check_keys(table, "audit", kAuditKeys, "in [audit]");
+    PlanAudit audit;
+    audit.line = line_of(table);
+    if (const toml::node* summary = table.get("summary")) {
+      const std::string given = read_string(*summary, "audit.summary", "a file path (a string)");
+      if (given.empty()) fail(line_of(*summary), "audit.summary", "the summary path is empty");
+      audit.summary = (base_ / std::filesystem::path(given)).lexically_normal();
+    }
+    if (const toml::node* units = table.get("units"))
+      audit.units = read_word(*units, "audit.units", "unit", "\"mm\" or \"inch\"", parse_unit);
+    if (const toml::node* t = table.get("same_plane_tolerance")) {
+      const double value = read_length(*t, "audit.same_plane_tolerance", "a length (a number)");
+      if (!(value > 0.0) || value > 1000.0)
+        fail(line_of(*t), "audit.same_plane_tolerance",
+             "expected a length above 0 (mm or the plan's unit), found " +
+                 plan_number_text(value / mm_per_unit_));
+      audit.same_plane_tolerance = value;
+    }
+    if (const toml::node* columns = table.get("columns")) {
+      const toml::table& list =
+          as_table(*columns, "audit.columns", "a table of columns { id = \"...\", dx = ... }");
+      for (auto&& [key, value] : list) {
+        const std::string name = "audit.columns." + key_text(key.str());
+        const auto field = parse_summary_field(key.str());
+        if (!field)
+          fail(static_cast<std::size_t>(key.source().begin.line), name,
+               "unknown summary field (allowed: id, dx, dy, x, y, z, position, diameter, "
+               "verdict, dx2, dy2, x2, y2, z2)");
+        const std::string column = read_string(value, name, "a column's header name (a string)");
+        if (column.empty() || column.size() > 200)
+          fail(line_of(value), name, "a column's header name must hold 1 to 200 characters");
+        audit.columns[static_cast<std::size_t>(*field)] = column;
+      }
+    }
+    return audit;
   }
 
   std::string read_time(const toml::node& node) const {

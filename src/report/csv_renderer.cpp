@@ -3,6 +3,7 @@
 // readers that index columns by position keep working.
 #include <sstream>
 
+#include "cylzone/report/audit_report.hpp"
 #include "cylzone/report/report.hpp"
 
 namespace cylzone {
@@ -86,6 +87,80 @@ std::string format_csv(const ReportModel& m) {
 
 std::string format_csv(const PartCheckResult& result) {
   return format_csv(make_report_model(result));
+}
+
+// The audit's CSV: one row per audited bore, then one per unmatched summary row and plan bore.
+// A second depth fills the *2 columns; every figure in the plan's unit, empty when absent.
+std::string format_audit_csv(const AuditReport& r) {
+  const ReportUnits& u = r.units;
+  const std::string caution = csv_field(safety_caution);
+  const auto opt = [&](const std::optional<double>& v) { return v ? u.text(*v) : std::string(); };
+  std::ostringstream out;
+  out << "part,bore,finding,overturned,summary_line,summary_z,summary_dx,summary_dy,summary_2d,"
+         "summary_position,summary_verdict,verdict_implied,compared_plane,compared_z,cylzone_dx,"
+         "cylzone_dy,cylzone_2d,apart,apart_allowed,summary_z2,summary_dx2,summary_dy2,"
+         "cylzone_dx2,cylzone_dy2,apart2,two_depth_position,position,allowed,position_verdict,"
+         "perpendicularity,perpendicularity_allowed,perpendicularity_verdict,reason,units,"
+         "caution,part_id,serial,timestamp,notes,summary_diameter,mating_envelope,"
+         "least_squares_diameter\n";
+  const std::string identity = csv_field(r.part.id) + ',' + csv_field(r.part.serial) + ',' +
+                               csv_field(r.part.timestamp) + ',' + csv_field(r.part.notes_text());
+  const auto centre = [&](const BoreAudit& b, std::size_t k, bool with_plane) {
+    if (k >= b.centres.size()) return std::string(with_plane ? ",,,,,,,," : ",,,,,");
+    const ReportedCentre& c = b.centres[k];
+    const PlaneFigures& p = c.cylzone[c.compared];
+    std::string text = std::to_string(c.line) + ',';
+    if (!with_plane) text.clear();
+    text += opt(c.height) + ',' + u.text(c.offset.x()) + ',' + u.text(c.offset.y()) + ',';
+    if (with_plane) text += u.text(c.position) + ',';
+    if (!with_plane) return text + u.text(p.offset.x()) + ',' + u.text(p.offset.y()) + ',' +
+                            u.text(c.discrepancy);
+    return text;
+  };
+  for (const BoreAudit& b : r.audit.bores) {
+    out << csv_field(r.plan_name) << ',' << csv_field(b.id) << ','
+        << summary_finding_name(b.finding) << ',' << (b.overturned ? "yes" : "no") << ',';
+    if (b.centres.empty()) {
+      out << ",,,,,";
+    } else {
+      out << centre(b, 0, true);
+    }
+    out << opt(b.reported_position) << ','
+        << (b.reported_conforms ? (*b.reported_conforms ? "pass" : "fail") : "") << ','
+        << (b.verdict_implied ? "yes" : "no") << ',';
+    if (b.centres.empty()) {
+      out << ",,,,,,,";
+    } else {
+      const ReportedCentre& c = b.centres[0];
+      const PlaneFigures& p = c.cylzone[c.compared];
+      out << plane_label_name(p.label) << ',' << u.text(p.height) << ',' << u.text(p.offset.x())
+          << ',' << u.text(p.offset.y()) << ',' << u.text(p.position) << ','
+          << u.text(c.discrepancy) << ',' << u.text(c.discrepancy_allowed) << ',';
+    }
+    out << (b.centres.size() > 1 ? centre(b, 1, false) : std::string(",,,,,")) << ','
+        << opt(b.two_depth_position) << ',';
+    if (b.position_id.empty())
+      out << ",,,";
+    else
+      out << u.text(b.position) << ',' << u.text(b.allowed) << ','
+          << verdict_name(b.position_verdict) << ',';
+    out << opt(b.perpendicularity) << ',' << opt(b.perpendicularity_allowed) << ','
+        << (b.perpendicularity_verdict ? verdict_name(*b.perpendicularity_verdict) : "") << ','
+        << csv_field(b.reason) << ',' << u.name() << ',' << caution << ',' << identity << ','
+        << opt(b.reported_diameter) << ','
+        << (b.position_id.empty() ? "," : u.text(b.mating_envelope) + ',' +
+                                              u.text(b.least_squares_diameter))
+        << '\n';
+  }
+  for (const UnmatchedRow& row : r.audit.unmatched_rows)
+    out << csv_field(r.plan_name) << ',' << csv_field(row.id) << ",unmatched row,no,"
+        << row.line << std::string(28, ',') << csv_field("no bore of the plan has this id") << ','
+        << u.name() << ',' << caution << ',' << identity << ",,,\n";
+  for (const std::string& id : r.audit.unmatched_bores)
+    out << csv_field(r.plan_name) << ',' << csv_field(id) << ",unmatched bore,no,"
+        << std::string(28, ',') << csv_field("the summary does not give this bore") << ','
+        << u.name() << ',' << caution << ',' << identity << ",,,\n";
+  return out.str();
 }
 
 }  // namespace cylzone

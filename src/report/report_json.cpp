@@ -6,6 +6,7 @@
 
 #include "cylzone/core/errors.hpp"
 #include "cylzone/decide/bore_characteristics.hpp"
+#include "cylzone/report/audit_report.hpp"
 #include "cylzone/report/fit_report.hpp"
 #include "cylzone/report/report.hpp"
 #include "cylzone/report/report_reader.hpp"
@@ -866,6 +867,112 @@ std::string format_fit_json(const ElementFit& fit, const std::string& source, Le
   j["message"] = fit.summary.message;
   j["warnings"] = fit.summary.warnings;
   return j.dump(2) + "\n";
+}
+
+// ------------------------------------------------------------------ the audit report
+
+namespace {
+
+json plane_json(const PlaneFigures& p, const ReportUnits& u) {
+  return {{"plane", std::string(plane_label_name(p.label))},
+          {"z", u.length(p.height)},
+          {"dx", u.length(p.offset.x())},
+          {"dy", u.length(p.offset.y())},
+          {"position", u.length(p.position)}};
+}
+
+json audit_bore_json(const BoreAudit& b, const ReportUnits& u) {
+  json centres = json::array();
+  for (const ReportedCentre& c : b.centres) {
+    json planes = json::array();
+    for (const PlaneFigures& p : c.cylzone) planes.push_back(plane_json(p, u));
+    centres.push_back({{"line", c.line},
+                       {"z", optional_number(c.height, u)},
+                       {"dx", u.length(c.offset.x())},
+                       {"dy", u.length(c.offset.y())},
+                       {"rounding", {u.length(c.rounding.x()), u.length(c.rounding.y())}},
+                       {"position_2d", u.length(c.position)},
+                       {"cylzone", planes},
+                       {"compared", std::string(plane_label_name(c.cylzone[c.compared].label))},
+                       {"apart", u.length(c.discrepancy)},
+                       {"apart_allowed", u.length(c.discrepancy_allowed)}});
+  }
+  json summary = {{"centres", centres},
+                  {"position", optional_number(b.reported_position, u)},
+                  {"position_rounding", u.length(b.position_rounding)},
+                  {"diameter", optional_number(b.reported_diameter, u)},
+                  {"verdict", b.reported_conforms ? json(*b.reported_conforms ? "conforms"
+                                                                              : "does not conform")
+                                                  : json(nullptr)},
+                  {"verdict_text", text_or_null(b.verdict_text)},
+                  {"verdict_implied", b.verdict_implied},
+                  {"recomputed_position", u.length(b.recomputed_position)},
+                  {"consistency_allowance", u.length(b.consistency_allowance)},
+                  {"internally_consistent", b.internally_consistent},
+                  {"two_depth_position", optional_number(b.two_depth_position, u)}};
+  json full = nullptr;
+  if (!b.position_id.empty())
+    full = {{"position_id", b.position_id},
+            {"range", {{"top", u.length(b.range_top)}, {"bottom", u.length(b.range_bottom)}}},
+            {"position", u.length(b.position)},
+            {"allowed", u.length(b.allowed)},
+            {"position_verdict", std::string(verdict_name(b.position_verdict))},
+            {"leaves_zone_at", optional_number(b.leaves_zone_at, u)},
+            {"perpendicularity", optional_number(b.perpendicularity, u)},
+            {"perpendicularity_allowed", optional_number(b.perpendicularity_allowed, u)},
+            {"perpendicularity_verdict", verdict_json(b.perpendicularity_verdict)},
+            {"least_squares_diameter", u.length(b.least_squares_diameter)},
+            {"mating_envelope", u.length(b.mating_envelope)}};
+  return {{"id", b.id},
+          {"summary", summary},
+          {"cylzone", full},
+          {"not_evaluated", text_or_null(b.not_evaluated)},
+          {"finding", std::string(summary_finding_name(b.finding))},
+          {"overturned", b.overturned},
+          {"reason", b.reason}};
+}
+
+}  // namespace
+
+std::string format_audit_json(const AuditReport& r) {
+  const ReportUnits& u = r.units;
+  const AuditResult& a = r.audit;
+  json inputs = json::array();
+  for (const InputRecord& in : r.inputs)
+    inputs.push_back({{"role", in.role}, {"path", in.path.string()}, {"sha256", in.sha256}});
+  json bores = json::array();
+  for (const BoreAudit& b : a.bores) bores.push_back(audit_bore_json(b, u));
+  json rows = json::array();
+  for (const UnmatchedRow& row : a.unmatched_rows)
+    rows.push_back({{"line", row.line}, {"id", row.id}});
+  std::size_t overturned = 0;
+  for (const BoreAudit& b : a.bores) overturned += b.overturned;
+  const std::string verdict = overturned > 0          ? "overturned"
+                              : a.any_not_decided()   ? "not decided"
+                                                      : "stands";
+  json j = {{"schema", std::string(audit_report_schema)},
+            {"tool", {{"name", "cylzone"}, {"version", r.tool_version}}},
+            {"caution", std::string(safety_caution)},
+            {"units", std::string(u.name())},
+            {"plan", r.plan_name},
+            {"part", part_json(r.part)},
+            {"inputs", inputs},
+            {"summary", {{"file", r.summary_file},
+                         {"units", r.summary_unit},
+                         {"columns", r.summary_deviations ? "deviations" : "coordinates"}}},
+            {"same_plane_tolerance", u.length(a.same_plane_tolerance)},
+            {"bores", bores},
+            {"unmatched_rows", rows},
+            {"unmatched_bores", a.unmatched_bores},
+            {"explanation", {{"kind", std::string(frame_explanation_name(a.explanation))},
+                             {"shift", {u.length(a.shift.x()), u.length(a.shift.y())}},
+                             {"rotation_rad", a.rotation_rad},
+                             {"text", a.explanation_text}}},
+            {"warnings", r.warnings},
+            {"overturned", overturned},
+            {"verdict", verdict}};
+  // Ids and verdict words are the summary's bytes: invalid UTF-8 is replaced, never thrown.
+  return j.dump(2, ' ', false, json::error_handler_t::replace) + "\n";
 }
 
 }  // namespace cylzone

@@ -6,6 +6,7 @@
 #include <utility>
 #include <vector>
 
+#include "cylzone/report/audit_report.hpp"
 #include "cylzone/report/report.hpp"
 #include "cylzone/version.hpp"
 
@@ -536,6 +537,143 @@ std::string format_table(const ReportModel& m, const TableOptions& options) {
 
 std::string format_table(const PartCheckResult& result) {
   return format_table(make_report_model(result));
+}
+
+// ------------------------------------------------------------------ the audit's table
+
+std::string format_audit_table(const AuditReport& r, const TableOptions& options) {
+  const ReportUnits& u = r.units;
+  const Symbols sym(options.unicode);
+  Shortener shorten(sym);
+  const AuditResult& a = r.audit;
+  const int w = u.decimals() + 5;
+  const auto len = [&](double mm) { return pad_left(u.text(mm), static_cast<std::size_t>(w)); };
+  std::ostringstream out;
+  out << "cylzone " << r.tool_version << " audit: " << r.plan_name << "  (values in " << u.name()
+      << ")\n";
+  out << wrapped("summary: ",
+                 r.summary_file + " (" +
+                     (r.summary_deviations ? "deviations dx, dy" : "coordinates x, y") + " in " +
+                     r.summary_unit + "); same-plane tolerance " +
+                     u.text(a.same_plane_tolerance) + " (as a diameter)",
+                 options.width, 4);
+  const std::string identity = identity_line(r.part);
+  if (!identity.empty()) out << wrapped("part: ", identity, options.width, 6);
+
+  std::size_t id_w = 4;
+  for (const BoreAudit& b : a.bores) id_w = std::max(id_w, std::min(columns(b.id), feature_cap));
+  // 1. The summary's centre beside cylzone's at the same plane.
+  out << "\nAt the summary's plane (dx, dy from true position; 2D = 2 sqrt(dx^2 + dy^2); * = the "
+         "plane compared)\n"
+      << pad("bore", id_w) << "  " << pad("plane", 16) << pad_left("z", w) << "  "
+      << pad_left("summ. dx", w) << pad_left("dy", w) << pad_left("2D", w) << "  "
+      << pad_left("cylz. dx", w) << pad_left("dy", w) << pad_left("2D", w) << "  "
+      << pad_left("apart", w) << pad_left("allowed", w) << '\n';
+  for (const BoreAudit& b : a.bores) {
+    if (b.centres.empty()) {
+      out << pad(shorten(b.id, id_w), id_w) << "  not evaluated by cylzone\n";
+      continue;
+    }
+    for (const ReportedCentre& c : b.centres) {
+      for (std::size_t i = 0; i < c.cylzone.size(); ++i) {
+        const PlaneFigures& p = c.cylzone[i];
+        const bool first = i == 0;
+        out << pad(first ? shorten(b.id, id_w) : std::string(), id_w) << "  "
+            << pad(std::string(plane_label_name(p.label)) + (i == c.compared ? " *" : ""), 16)
+            << len(p.height) << "  ";
+        if (first)
+          out << len(c.offset.x()) << len(c.offset.y()) << len(c.position);
+        else
+          out << std::string(static_cast<std::size_t>(3 * w), ' ');
+        out << "  " << len(p.offset.x()) << len(p.offset.y()) << len(p.position);
+        if (i == c.compared)
+          out << "  " << len(2.0 * (c.offset - p.offset).norm()) << len(c.discrepancy_allowed);
+        out << '\n';
+      }
+    }
+  }
+
+  // 2. The summary's verdict against the full depth, and the finding.
+  out << "\nOver the full depth (summary: its own figures; cylzone: the position that decides)\n"
+      << pad("bore", id_w) << "  " << pad_left("summ. pos", w + 1) << "  " << pad("verdict", 10)
+      << pad_left("position", w) << pad_left("allowed", w) << "  " << pad("verdict", 17)
+      << pad_left("perp.", w) << pad_left("allowed", w) << "  finding\n";
+  for (const BoreAudit& b : a.bores) {
+    out << pad(shorten(b.id, id_w), id_w) << "  "
+        << pad_left(b.reported_position ? u.text(*b.reported_position) : sym.none, w + 1) << "  "
+        << pad(b.reported_conforms ? std::string(*b.reported_conforms ? "pass" : "fail") +
+                                         (b.verdict_implied ? " (i)" : "")
+                                   : sym.none,
+               10);
+    if (b.position_id.empty())
+      out << pad_left(sym.none, w) << pad_left(sym.none, w) << "  " << pad(sym.none, 17);
+    else
+      out << len(b.position) << len(b.allowed) << "  "
+          << pad(b.position_verdict == Verdict::does_not_conform
+                     ? std::string("DOES NOT CONFORM")
+                     : std::string(verdict_name(b.position_verdict)),
+                 17);
+    if (b.perpendicularity)
+      out << len(*b.perpendicularity) << len(*b.perpendicularity_allowed);
+    else
+      out << pad_left(sym.none, w) << pad_left(sym.none, w);
+    out << "  " << (b.overturned ? "OVERTURNED: " : "") << summary_finding_name(b.finding) << '\n';
+  }
+  if (std::any_of(a.bores.begin(), a.bores.end(),
+                  [](const BoreAudit& b) { return b.verdict_implied; }))
+    out << "(i) the summary prints no verdict: its position compared with the zone cylzone "
+           "allows\n";
+  // 3. Sizes, when the summary prints them: beside cylzone's unrelated mating envelope (the
+  // size a bore's MMC bonus comes from) and least-squares diameter, for comparison only.
+  if (std::any_of(a.bores.begin(), a.bores.end(),
+                  [](const BoreAudit& b) { return b.reported_diameter.has_value(); })) {
+    out << "\nDiameters (for comparison, not judged)\n"
+        << pad("bore", id_w) << "  " << pad_left("summary", w + 1) << pad_left("mating", w + 1)
+        << pad_left("l. sq.", w + 1) << pad_left("diff.", w + 1) << '\n';
+    for (const BoreAudit& b : a.bores) {
+      if (!b.reported_diameter || b.position_id.empty()) continue;
+      out << pad(shorten(b.id, id_w), id_w) << "  " << ' ' << len(*b.reported_diameter) << ' '
+          << len(b.mating_envelope) << ' ' << len(b.least_squares_diameter) << ' '
+          << len(*b.reported_diameter - b.mating_envelope) << '\n';
+    }
+  }
+  if (!shorten.empty()) {
+    out << "Shortened:\n";
+    shorten.list(out);
+  }
+  out << '\n';
+  for (const BoreAudit& b : a.bores)
+    out << wrapped("  " + b.id + ", " + std::string(summary_finding_name(b.finding)) + ": ",
+                   b.reason, options.width, 6);
+  for (const BoreAudit& b : a.bores)
+    if (b.two_depth_position)
+      out << wrapped("  " + b.id + ": ",
+                     "the line through the summary's two depths gives " +
+                         u.text(*b.two_depth_position) + " over " + u.text(b.range_top) + " .. " +
+                         u.text(b.range_bottom),
+                     options.width, 6);
+  out << wrapped("Same-plane differences: ", a.explanation_text, options.width, 4);
+  std::string rows, bores;
+  for (const UnmatchedRow& row : a.unmatched_rows)
+    rows += (rows.empty() ? "" : ", ") + shorten(row.id, 24) + " (line " +
+            std::to_string(row.line) + ")";
+  for (const std::string& id : a.unmatched_bores) bores += (bores.empty() ? "" : ", ") + id;
+  if (!rows.empty())
+    out << wrapped("Summary rows naming no bore of the plan: ", rows, options.width, 4);
+  if (!bores.empty()) out << wrapped("Bores the summary does not give: ", bores, options.width, 4);
+  for (const std::string& warning : r.warnings)
+    out << wrapped("warning: ", warning, options.width, 4);
+  std::size_t overturned = 0;
+  for (const BoreAudit& b : a.bores) overturned += b.overturned;
+  std::string verdict = "EVERY SUMMARY VERDICT STANDS";
+  if (overturned > 0)
+    verdict = "OVERTURNED (" + std::to_string(overturned) + " of " +
+              std::to_string(a.bores.size()) + " bores)";
+  else if (a.any_not_decided())
+    verdict = "NOT DECIDED (a bore cylzone could not evaluate or decide)";
+  out << "\nSummary verdict: " << verdict << "\n\n"
+      << wrapped("", std::string(safety_caution), std::min<std::size_t>(options.width, 100), 0);
+  return out.str();
 }
 
 }  // namespace cylzone

@@ -16,11 +16,11 @@ if [ ! -f "$build/CMakeCache.txt" ]; then
   CXX=${CXX:-clang++-14} CC=${CC:-clang-14} cmake -S . -B "$build" -DCMAKE_BUILD_TYPE=RelWithDebInfo \
     -DCYLZONE_FUZZ=ON -DBUILD_SHARED_LIBS=OFF
 fi
-cmake --build "$build" -j"$(nproc)" --target fuzz_delimited fuzz_mesh fuzz_plan fuzz_report
+cmake --build "$build" -j"$(nproc)" --target fuzz_delimited fuzz_mesh fuzz_plan fuzz_report fuzz_summary
 
 mkdir -p "$build/findings"
 status=0
-for target in delimited mesh plan report; do
+for target in delimited mesh plan report summary; do
   work="$build/corpus/$target"
   mkdir -p "$work"
   echo "+ fuzz_$target for ${duration}s"

@@ -24,6 +24,7 @@
 #include <utility>
 #include <vector>
 
+#include "cylzone/plan/audit_plan.hpp"
 #include "cylzone/plan/tolerance_types.hpp"
 #include "cylzone/core/units.hpp"
 #include "cylzone/prepare/segment_scan.hpp"
@@ -258,6 +259,8 @@ struct PartPlan {
   /// The plan-wide [sampling] thresholds (already applied by the parser to every bore, value by
   /// value, where the bore gives none).
   PlanSampling sampling;
+  /// The optional `[audit]` table: how `cylzone audit` reads another system's summary.
+  std::optional<PlanAudit> audit;
 
   const PlanDatum* datum(char label) const noexcept;
 };

@@ -1,0 +1,40 @@
+// Helpers the sub-commands share (commands.hpp): the run's time, the locale's UTF-8 question,
+// the files a plan reads.
+#include <cctype>
+#include <cstdlib>
+#include <ctime>
+#include <string>
+
+#include "cli/commands.hpp"
+#include "cylzone/plan/plan.hpp"
+
+namespace cylzone::cli {
+
+std::string utc_now() {
+  const std::time_t now = std::time(nullptr);
+  std::tm utc{};
+  gmtime_r(&now, &utc);
+  char buffer[32];
+  std::strftime(buffer, sizeof buffer, "%Y-%m-%dT%H:%M:%SZ", &utc);
+  return buffer;
+}
+
+bool utf8_locale() {
+  for (const char* name : {"LC_ALL", "LC_CTYPE", "LANG"}) {
+    const char* value = std::getenv(name);
+    if (!value || !*value) continue;
+    std::string v(value);
+    for (char& c : v) c = static_cast<char>(std::tolower(static_cast<unsigned char>(c)));
+    return v.find("utf-8") != std::string::npos || v.find("utf8") != std::string::npos;
+  }
+  return false;
+}
+
+std::vector<std::filesystem::path> plan_inputs(const PartPlan& plan) {
+  std::vector<std::filesystem::path> inputs{plan.file};
+  for (const PlanDatum& d : plan.datums) inputs.push_back(d.points);
+  for (const PlanBore& b : plan.bores) inputs.push_back(b.points);
+  return inputs;
+}
+
+}  // namespace cylzone::cli
