@@ -93,6 +93,8 @@ PartIdentity part_identity(const CheckArguments& args) {
   return part;
 }
 
+}  // namespace
+
 /// UTF-8 output when the locale says so (LC_ALL, else LC_CTYPE, else LANG: the first one set
 /// decides, as POSIX orders them).
 bool utf8_locale() {
@@ -105,6 +107,8 @@ bool utf8_locale() {
   }
   return false;
 }
+
+namespace {
 
 /// Every file the plan reads: reports must never be written over one of them.
 std::vector<std::filesystem::path> plan_inputs(const PartPlan& plan) {

@@ -24,6 +24,9 @@ inline constexpr std::string_view exit_code_help =
 /// longer text is cut and ends in "...". Error messages may quote file contents or arguments.
 std::string one_line(std::string_view text, std::size_t limit = 400);
 
+/// True when the locale (LC_ALL, else LC_CTYPE, else LANG) asks for UTF-8 (check_command.cpp).
+bool utf8_locale();
+
 struct CommandResult {
   std::function<int()> run;
   std::string context;  ///< prefix for fit errors, e.g. "points.csv: "
@@ -31,5 +34,6 @@ struct CommandResult {
 
 void add_fit_command(CLI::App& app, CommandResult& result);
 void add_check_command(CLI::App& app, CommandResult& result);
+void add_forecast_command(CLI::App& app, CommandResult& result);
 
 }  // namespace cylzone::cli

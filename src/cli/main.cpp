@@ -19,6 +19,7 @@ int main(int argc, char** argv) {
   cylzone::cli::CommandResult result;
   cylzone::cli::add_check_command(app, result);
   cylzone::cli::add_fit_command(app, result);
+  cylzone::cli::add_forecast_command(app, result);
   // CLI11 reports a mistyped command as "a subcommand is required": name it instead.
   if (argc > 1 && argv[1][0] != '-' && app.get_subcommands([&](CLI::App* sub) {
         return sub->get_name() == argv[1];
