@@ -10,7 +10,7 @@
 #include <sstream>
 #include <stdexcept>
 #include <string>
-#include <tuple>
+#include <utility>
 #include <vector>
 
 #include "cli/commands.hpp"
@@ -53,19 +53,9 @@ std::string number(double v) {
   return s.str();
 }
 
-void require_finite(double v, const std::string& option) {
-  if (!std::isfinite(v)) throw std::invalid_argument(option + ": must be a finite number");
-}
-
-/// A length option in the given unit, converted to mm: finite, positive (or non-negative) and
-/// below `most_mm`.
-double length_mm(double value, double mm_per_unit, const std::string& option, double most_mm,
-                 bool zero_allowed = false) {
-  require_finite(value, option);
-  if (value < 0.0 || (!zero_allowed && value == 0.0))
-    throw std::invalid_argument(option + ": must be " +
-                                (zero_allowed ? "zero or more" : "greater than zero") + ", got " +
-                                number(value));
+/// A length option in the given unit, in mm. Values beyond `most_mm` are refused as unit
+/// mistakes here; signs and finiteness are the library's checks (validate_capability_options).
+double length_mm(double value, double mm_per_unit, const std::string& option, double most_mm) {
   const double mm = value * mm_per_unit;
   if (mm > most_mm)
     throw std::invalid_argument(option + ": " + number(value) + " is implausible (more than " +
@@ -74,49 +64,54 @@ double length_mm(double value, double mm_per_unit, const std::string& option, do
   return mm;
 }
 
+/// A tilt in µm/m as a slope.
 double slope(double um_per_m, const std::string& option) {
-  require_finite(um_per_m, option);
-  if (um_per_m < 0.0)
-    throw std::invalid_argument(option + ": must be zero or more, got " + number(um_per_m));
   if (um_per_m > most_tilt_um_per_m)
     throw std::invalid_argument(option + ": " + number(um_per_m) +
                                 " um/m is implausible (more than 10000 um/m = 0.57 degrees)");
   return um_per_m * 1e-6;
 }
 
+/// A percentage as a fraction.
 double share(double percent, const std::string& option) {
-  require_finite(percent, option);
   if (!(percent > 0.0 && percent < 100.0))
     throw std::invalid_argument(option + ": must lie between 0 and 100 percent, got " +
                                 number(percent));
   return percent / 100.0;
 }
 
-CapabilityOptions capability_options(const ForecastArguments& a) {
+/// The options with, for each tilt source, the command-line option it came from.
+struct ParsedOptions {
+  CapabilityOptions options;
+  std::vector<std::string> tilt_options;
+};
+
+ParsedOptions capability_options(const ForecastArguments& a) {
   const auto unit = parse_unit(a.units);
   if (!unit) throw std::invalid_argument("--units: expected mm or inch, got '" + a.units + "'");
   const double k = millimetres_per(*unit);
-  CapabilityOptions o;
+  ParsedOptions parsed;
+  CapabilityOptions& o = parsed.options;
   o.x.accuracy = length_mm(a.x_accuracy, k, "--x-accuracy", most_positioning_mm);
   o.x.repeatability = length_mm(a.x_repeatability, k, "--x-repeatability", most_positioning_mm);
   o.y.accuracy = length_mm(a.y_accuracy, k, "--y-accuracy", most_positioning_mm);
   o.y.repeatability = length_mm(a.y_repeatability, k, "--y-repeatability", most_positioning_mm);
-  for (const auto& [accuracy, repeatability, axis] :
-       {std::tuple{o.x.accuracy, o.x.repeatability, "x"},
-        std::tuple{o.y.accuracy, o.y.repeatability, "y"}})
-    if (accuracy < repeatability)
-      throw std::invalid_argument(std::string("--") + axis + "-accuracy: below --" + axis +
-                                  "-repeatability; the ISO 230-2 accuracy band contains the "
-                                  "repeatability band (A >= R)");
-  const double squareness = slope(a.squareness, "--squareness");
-  if (squareness > 0.0)
-    o.tilts.push_back({"squareness of the feed axis to the table", squareness, 0.0});
+  const auto add_tilt = [&](TiltSource t, const char* option) {
+    o.tilts.push_back(std::move(t));
+    parsed.tilt_options.emplace_back(option);
+  };
+  if (a.squareness != 0.0)
+    add_tilt({"squareness of the feed axis to the table", slope(a.squareness, "--squareness"),
+              0.0},
+             "--squareness");
   for (std::size_t i = 0; i < a.tilt_systematic.size(); ++i)
-    o.tilts.push_back({"systematic tilt " + std::to_string(i + 1),
-                       slope(a.tilt_systematic[i], "--tilt-systematic"), 0.0});
+    add_tilt({"systematic tilt " + std::to_string(i + 1),
+              slope(a.tilt_systematic[i], "--tilt-systematic"), 0.0},
+             "--tilt-systematic");
   for (std::size_t i = 0; i < a.tilt_random.size(); ++i)
-    o.tilts.push_back({"random tilt " + std::to_string(i + 1), 0.0,
-                       slope(a.tilt_random[i], "--tilt-random")});
+    add_tilt({"random tilt " + std::to_string(i + 1), 0.0,
+              slope(a.tilt_random[i], "--tilt-random")},
+             "--tilt-random");
   o.depth = length_mm(a.depth, k, "--depth", most_depth_mm);
   o.position_tolerance =
       length_mm(a.position_tolerance, k, "--position-tolerance", most_tolerance_mm);
@@ -129,16 +124,31 @@ CapabilityOptions capability_options(const ForecastArguments& a) {
   o.systematic = a.systematic == "worst" ? SystematicPlacement::worst_corner
                                          : SystematicPlacement::centred;
   o.coverage = share(a.coverage, "--coverage");
-  if (o.coverage < 0.5) throw std::invalid_argument("--coverage: must be at least 50 percent");
   o.share_limit_capable = share(a.capable_share, "--capable-share");
   o.share_limit_marginal = share(a.marginal_share, "--marginal-share");
-  if (o.share_limit_marginal < o.share_limit_capable)
-    throw std::invalid_argument("--marginal-share: must not be below --capable-share");
-  return o;
+  return parsed;
+}
+
+/// The library's checks, with its option keys turned into the command line's option names.
+void validate(const ParsedOptions& parsed) {
+  try {
+    validate_capability_options(parsed.options);
+  } catch (const InputError& e) {
+    std::string option = "--" + e.key();
+    if (e.key() == "share_limit_capable") option = "--capable-share";
+    if (e.key() == "share_limit_marginal") option = "--marginal-share";
+    if (e.key().rfind("tilts[", 0) == 0)
+      option = parsed.tilt_options.at(std::stoul(e.key().substr(6)));
+    for (char& c : option)
+      if (c == '.' || c == '_') c = '-';
+    throw std::invalid_argument(option + ": " + e.problem());
+  }
 }
 
 int run_forecast(const ForecastArguments& args) {
-  const CapabilityOptions options = capability_options(args);
+  const ParsedOptions parsed = capability_options(args);
+  validate(parsed);
+  const CapabilityOptions& options = parsed.options;
   const LengthUnit unit = *parse_unit(args.units);
   std::vector<OutputTarget> targets;
   if (!args.json.empty()) targets.push_back({args.json, "--json"});

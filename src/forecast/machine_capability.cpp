@@ -43,28 +43,56 @@ constexpr std::array<double, 4> gauss_weights = {
     0.129484966168869693270611432679082, 0.279705391489276667901467771423780,
     0.381830050505118944950369775488975, 0.417959183673469387755102040816327};
 
-/// Adaptive Gauss-Kronrod 7-15 of f on [a, b] to an absolute tolerance: an interval whose
-/// Kronrod and Gauss estimates differ by more than its share of the tolerance is halved.
-/// Depth is bounded, so a pathological integrand costs time, never a hang.
+/// Gauss-Kronrod 7-15 on [a, b]: the Kronrod value and the error estimate |Kronrod - Gauss|,
+/// taken as zero when it is below the rounding level of the sum.
+struct Panel {
+  double a, b, value, error;
+};
+
 template <class F>
-double integrate(const F& f, double a, double b, double tolerance, int depth = 0) {
-  if (!(b > a)) return 0.0;
+Panel kronrod_panel(const F& f, double a, double b) {
   const double centre = 0.5 * (a + b), half = 0.5 * (b - a);
   const double fc = f(centre);
   double kronrod = kronrod_weights[7] * fc, gauss = gauss_weights[3] * fc;
+  double magnitude = kronrod_weights[7] * std::abs(fc);
   for (int i = 0; i < 7; ++i) {
     const double dx = half * kronrod_nodes[i];
-    const double sum = f(centre - dx) + f(centre + dx);
-    kronrod += kronrod_weights[i] * sum;
-    if (i % 2 == 1) gauss += gauss_weights[i / 2] * sum;
+    const double f1 = f(centre - dx), f2 = f(centre + dx);
+    kronrod += kronrod_weights[i] * (f1 + f2);
+    magnitude += kronrod_weights[i] * (std::abs(f1) + std::abs(f2));
+    if (i % 2 == 1) gauss += gauss_weights[i / 2] * (f1 + f2);
   }
-  kronrod *= half;
-  gauss *= half;
-  if (std::abs(kronrod - gauss) <= tolerance || depth >= 40 ||
-      half < 1e-15 * std::max(1.0, std::abs(centre)))
-    return kronrod;
-  return integrate(f, a, centre, 0.5 * tolerance, depth + 1) +
-         integrate(f, centre, b, 0.5 * tolerance, depth + 1);
+  double error = half * std::abs(kronrod - gauss);
+  if (error <= 50.0 * 2.2e-16 * half * magnitude) error = 0.0;
+  return {a, b, half * kronrod, error};
+}
+
+/// Globally adaptive Gauss-Kronrod 7-15 of f on [a, b] (the strategy of QUADPACK's qag,
+/// Piessens et al. 1983): the panel with the largest error estimate is halved until the
+/// estimates sum to at most `tolerance` (never asked below 1e-16: these integrals are
+/// probabilities) or `max_panels` panels exist. The budget bounds the cost of any integrand,
+/// also one whose rounding noise no subdivision can remove.
+template <class F>
+double integrate(const F& f, double a, double b, double tolerance, std::size_t max_panels = 100) {
+  if (!(b > a)) return 0.0;
+  tolerance = std::max(tolerance, 1e-16);
+  std::vector<Panel> panels{kronrod_panel(f, a, b)};
+  for (;;) {
+    double error = 0.0;
+    std::size_t worst = 0;
+    for (std::size_t i = 0; i < panels.size(); ++i) {
+      error += panels[i].error;
+      if (panels[i].error > panels[worst].error) worst = i;
+    }
+    const Panel p = panels[worst];
+    const double mid = 0.5 * (p.a + p.b);
+    if (error <= tolerance || panels.size() >= max_panels || !(mid > p.a && mid < p.b)) break;
+    panels[worst] = kronrod_panel(f, p.a, mid);
+    panels.push_back(kronrod_panel(f, mid, p.b));
+  }
+  double total = 0.0;
+  for (const Panel& p : panels) total += p.value;
+  return total;
 }
 
 /// integrate() over [a, b] split at the given break points (kinks of the integrand).
@@ -113,17 +141,22 @@ bool angle_window(double mean, double sigma, double radius, double& lo, double& 
 double angle_of(double x, double radius) { return std::asin(std::clamp(x / radius, -1.0, 1.0)); }
 
 /// The angles (x = radius sin(alpha)) where the chords of the disk |e| <= radius meet the
-/// circle |e + shift| = radius: its leftmost and rightmost x and the two circles' crossings.
-std::vector<double> circle_breaks(double shift_x, double shift_y, double radius) {
-  std::vector<double> breaks = {angle_of(-shift_x - radius, radius),
-                                angle_of(-shift_x + radius, radius)};
+/// circle |e + shift| = other: its leftmost and rightmost x and the crossings of both circles
+/// (kinks of the integrands below), appended to `breaks`.
+void circle_breaks(double shift_x, double shift_y, double radius, double other,
+                   std::vector<double>& breaks) {
+  if (!(other > 0.0)) return;
+  breaks.push_back(angle_of(-shift_x - other, radius));
+  breaks.push_back(angle_of(-shift_x + other, radius));
   const double d = std::hypot(shift_x, shift_y);
-  if (d > 0.0 && d < 2.0 * radius) {
-    const double across = std::sqrt(radius * radius - 0.25 * d * d) / d;
-    for (double sign : {-1.0, 1.0})
-      breaks.push_back(angle_of(-0.5 * shift_x - sign * across * shift_y, radius));
+  if (d > 0.0 && d < radius + other && d > std::abs(radius - other)) {
+    // Crossings of |e| = radius and |e - c| = other, c = -shift: the foot a along c / d and
+    // the half chord h across it.
+    const double a = (radius * radius - other * other + d * d) / (2.0 * d);
+    const double h = std::sqrt(std::max(0.0, radius * radius - a * a));
+    const double cx = -shift_x / d, cy = -shift_y / d;
+    for (double sign : {-1.0, 1.0}) breaks.push_back(angle_of(a * cx - sign * h * cy, radius));
   }
-  return breaks;
 }
 
 }  // namespace
@@ -141,8 +174,9 @@ namespace {
 /// is 1 or 0 to within exp(-72).
 class RiceTable {
  public:
+  static constexpr double reach = 12.0;  ///< half-width of the panels' band, in tau
   RiceTable(double tau, double radius)
-      : lo_(std::max(0.0, radius - 12.0 * tau)), hi_(radius + 12.0 * tau) {
+      : lo_(std::max(0.0, radius - reach * tau)), hi_(radius + reach * tau) {
     panels_ = std::max(1, static_cast<int>(std::ceil((hi_ - lo_) / (2.0 * tau))));
     width_ = (hi_ - lo_) / panels_;
     coefficients_.resize(static_cast<std::size_t>(panels_));
@@ -196,6 +230,11 @@ double disk_probability(double mean_x, double mean_y, double sigma_x, double sig
     return interval_probability(-half, half, mean_y, sigma_y);
   }
   if (sigma_y <= 0.0) return disk_probability(mean_y, mean_x, sigma_y, sigma_x, radius);
+  // The outer coordinate is the one whose mean is nearer the centre: its window then stays
+  // away from the disk's ends, where the chords shrink to nothing and a narrow law would need
+  // a deep subdivision; the inner one takes the disk's edge in closed form.
+  if (std::abs(mean_x) > std::abs(mean_y))
+    return disk_probability(mean_y, mean_x, sigma_y, sigma_x, radius);
   double lo = 0.0, hi = 0.0;
   if (!angle_window(mean_x, sigma_x, radius, lo, hi)) return 0.0;
   // x = r sin(a), dx = r cos(a) da; the chord at x is |y| <= r cos(a).
@@ -219,10 +258,15 @@ double both_ends_probability(double mean_x, double mean_y, double sigma_x, doubl
     sigma_x = std::max(sigma_x, tiny);
     sigma_y = std::max(sigma_y, tiny);
   }
+  if (std::abs(mean_x) > std::abs(mean_y))  // as in disk_probability: the problem mirrored
+    return both_ends_probability(mean_y, mean_x, sigma_y, sigma_x, shift_y, shift_x, tau, radius);
   double lo = 0.0, hi = 0.0;
   if (!angle_window(mean_x, sigma_x, radius, lo, hi)) return 0.0;
   double total = 0.0;
-  if (tau <= 0.0) {
+  // A random tilt below 1e-6 of the radius changes the probability by about (tau / sigma)^2
+  // times the mass at the edge, below 1e-13, while its steps would be narrower than the
+  // rounding of the coordinates: it is taken as none.
+  if (tau <= 1e-6 * radius) {
     // The bottom is e_top + shift exactly: the chord at x is the intersection of both disks'
     // chords, in closed form; the integrand has kinks where the second disk's chord ends.
     const auto chord = [&](double a) {
@@ -234,12 +278,15 @@ double both_ends_probability(double mean_x, double mean_y, double sigma_x, doubl
       return c * normal_density((x - mean_x) / sigma_x) / sigma_x *
              interval_probability(y_lo, y_hi, mean_y, sigma_y);
     };
-    total = integrate_pieces(chord, lo, hi, circle_breaks(shift_x, shift_y, radius),
-                             probability_tolerance);
+    std::vector<double> breaks;
+    circle_breaks(shift_x, shift_y, radius, radius, breaks);
+    total = integrate_pieces(chord, lo, hi, breaks, probability_tolerance);
   } else {
     // Given the mouth e, the bottom is inside with the Rice probability C(|e + shift|),
     // tabulated once (Chebyshev panels) since the double integral asks for it many times.
     const RiceTable bottom_inside(tau, radius);
+    const std::array<double, 3> bands = {radius - RiceTable::reach * tau, radius,
+                                         radius + RiceTable::reach * tau};
     const auto chord = [&](double a) {
       const double x = radius * std::sin(a), c = radius * std::cos(a);
       const double y_lo = std::max(-c, mean_y - sigma_window * sigma_y);
@@ -250,16 +297,21 @@ double both_ends_probability(double mean_x, double mean_y, double sigma_x, doubl
         return normal_density((y - mean_y) / sigma_y) / sigma_y *
                bottom_inside(std::hypot(xb, y + shift_y));
       };
-      std::vector<double> edges;  // where the bottom crosses its circle: C steps there
-      if (std::abs(xb) < radius) {
-        const double cb = std::sqrt(radius * radius - xb * xb);
-        edges = {-shift_y - cb, -shift_y + cb};
-      }
+      // C steps from 1 to 0 across the band radius -+ 12 tau about -shift: its edges and
+      // middle split the chord, so that every piece is smooth on its own scale.
+      std::vector<double> edges;
+      for (double band : bands)
+        if (std::abs(xb) < band) {
+          const double cb = std::sqrt(band * band - xb * xb);
+          edges.push_back(-shift_y - cb);
+          edges.push_back(-shift_y + cb);
+        }
       return c * normal_density((x - mean_x) / sigma_x) / sigma_x *
              integrate_pieces(inner, y_lo, y_hi, edges, 0.1 * probability_tolerance);
     };
-    total = integrate_pieces(chord, lo, hi, circle_breaks(shift_x, shift_y, radius),
-                             probability_tolerance);
+    std::vector<double> breaks;
+    for (double band : bands) circle_breaks(shift_x, shift_y, radius, band, breaks);
+    total = integrate_pieces(chord, lo, hi, breaks, probability_tolerance);
   }
   return std::clamp(total, 0.0, 1.0);
 }
@@ -318,13 +370,14 @@ void validate_capability_options(const CapabilityOptions& o) {
   if (o.perpendicularity_tolerance) positive(*o.perpendicularity_tolerance,
                                              "perpendicularity_tolerance");
   finite(o.coverage, "coverage");
-  if (!(o.coverage >= 0.5 && o.coverage < 1.0)) fail("coverage", "must lie in [0.5, 1)");
+  if (!(o.coverage >= 0.5 && o.coverage < 1.0))
+    fail("coverage", "must lie in [0.5, 1), i.e. from 50 % to below 100 %");
   finite(o.share_limit_capable, "share_limit_capable");
   finite(o.share_limit_marginal, "share_limit_marginal");
   if (!(o.share_limit_capable > 0.0 && o.share_limit_capable < 1.0))
     fail("share_limit_capable", "must lie in (0, 1)");
   if (!(o.share_limit_marginal >= o.share_limit_capable && o.share_limit_marginal < 1.0))
-    fail("share_limit_marginal", "must lie in [share_limit_capable, 1)");
+    fail("share_limit_marginal", "must not be below the capable share limit, and below 1");
 }
 
 namespace {
@@ -495,7 +548,8 @@ CapabilityForecast forecast_capability(const CapabilityOptions& o) {
   } else if (f.tilt_systematic == 0.0 && f.tilt_sigma == 0.0) {
     f.deepest.kind = DeepestBore::Kind::any_depth;
   } else {
-    double lo = 0.0, f_lo = at_mouth, hi = h, f_hi = excess(h);
+    // From the given depth, at least 1 mm: a bounded number of doublings to the cap.
+    double lo = 0.0, f_lo = at_mouth, hi = std::max(h, 1.0), f_hi = excess(hi);
     while (!(f_hi > 0.0) && hi < depth_cap) {
       lo = hi;
       f_lo = f_hi;

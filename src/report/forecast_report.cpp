@@ -11,8 +11,10 @@
 namespace cylzone {
 namespace {
 
-/// A share as a percentage with four significant digits ("0.2700 %", "1.566e-05 %").
+/// A share as a percentage with four significant digits ("0.27 %", "1.566e-05 %"). Shares
+/// below 1e-10 are below the integration's accuracy and read "< 1e-08 %".
 std::string percent(double share) {
+  if (share > 0.0 && share < 1e-10) return "< 1e-08 %";
   char buffer[48];
   std::snprintf(buffer, sizeof buffer, "%.4g %%", 100.0 * share);
   return buffer;

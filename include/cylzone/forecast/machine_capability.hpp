@@ -48,8 +48,9 @@
 ///    mouth radius hypot(|b_x| + 3 s_x, |b_y| + 3 s_y), tilt |theta_sys| + 3 sqrt(2) sigma_t,
 ///    bottom radius = mouth radius + h * worst tilt, full depth = the larger;
 ///  * statistical: the median and the `coverage` quantile (default 99.73 %) of the distribution,
-///    computed by numerical integration of the normal density over a disk (adaptive
-///    Gauss-Kronrod 7-15 with the inner direction in closed form through erfc, to 1e-12);
+///    computed by numerical integration of the normal density over a disk (globally adaptive
+///    Gauss-Kronrod 7-15 with the inner direction in closed form through erfc, to 1e-12;
+///    docs/forecast.md, "Numerical method");
 ///  * share outside: P(2 max(|e_top|, |e_bot|) > T_pos) and P(h |theta| > T_perp), exact up to
 ///    the quadrature's 1e-12 (no Monte Carlo: the tests check it against one).
 ///
