@@ -111,7 +111,12 @@ std::string format_forecast_table(const CapabilityOptions& o, const CapabilityFo
       break;
   }
   out << "Forecast: " << verdict_text(f.verdict) << " at depth " << u.text(o.depth) << "\n\n";
-  out << safety_caution << '\n';
+  // The caution in lines of at most 100 columns, cut at spaces (it holds no longer word).
+  std::string rest(safety_caution);
+  for (std::size_t cut; rest.size() > 100 && (cut = rest.rfind(' ', 100)) != std::string::npos;
+       rest.erase(0, cut + 1))
+    out << rest.substr(0, cut) << '\n';
+  out << rest << '\n';
   return out.str();
 }
 
