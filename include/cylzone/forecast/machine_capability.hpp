@@ -38,8 +38,8 @@
 ///     over the feature's full length; from memory for the clauses).
 ///  6. Perpendicularity (diameter zone perpendicular to A, free to shift): a straight axis tilted
 ///     by theta over depth h fits in a cylinder of diameter h tan|theta|, taken as h |theta|
-///     (small angles; the difference is below 1e-12 h at 1 mm/m). Position of the mouth does
-///     not enter. |theta| is Rice (Rayleigh when theta_sys = 0) distributed.
+///     (small angles: tan t - t = t^3 / 3 is below 4e-10 h at 1 mm/m). Position of the mouth
+///     does not enter. |theta| is Rice (Rayleigh when theta_sys = 0) distributed.
 ///  7. No material-condition bonus: the forecast is for the stated (RFS) zone, conservative at
 ///     MMC. No measurement uncertainty and no thermal drift are modelled.
 ///
@@ -63,7 +63,8 @@
 ///  * marginal: in between. The forecast's verdict is the worse of position and perpendicularity.
 /// The deepest bore is the largest depth at which both shares stay within
 /// `share_limit_capable`: both shares grow monotonically with depth (item 5: for h' > h,
-/// |e_top + h theta| <= max(|e_top|, |e_top + h' theta|) by convexity), so bisection finds it.
+/// |e_top + h theta| <= max(|e_top|, |e_top + h' theta|) by convexity), so a bracketing
+/// root finder (regula falsi, Illinois) finds it.
 ///
 /// The function is pure: no IO, no state, no threads. Invalid options throw InputError whose
 /// key names the option (e.g. "x.repeatability") and whose file is empty.
@@ -101,7 +102,7 @@ struct CapabilityOptions {
   double position_tolerance = 0.0;  ///< diameter zone, mm, > 0
   std::optional<double> perpendicularity_tolerance;  ///< diameter zone, mm, > 0 when given
   SystematicPlacement systematic = SystematicPlacement::worst_corner;
-  double coverage = 0.9973;               ///< probability of the statistical quantile, (0, 1)
+  double coverage = 0.9973;               ///< probability of the statistical quantile, [0.5, 1)
   double share_limit_capable = 0.0027;    ///< can hold at or below this share outside
   double share_limit_marginal = 0.0455;   ///< cannot hold above this share outside
 };

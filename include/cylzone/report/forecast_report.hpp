@@ -1,8 +1,8 @@
 #pragma once
 /// \file forecast_report.hpp
-/// Reports of the machine-capability forecast (`cylzone forecast`, forecast/machine_capability.hpp):
-/// a table for people and one JSON object (schema cylzone-forecast-1, docs/forecast.md). Both
-/// carry the safety caution. Lengths in `unit` (mm: 4 decimals, inch: 5, as ReportUnits),
+/// Reports of the machine-capability forecast (`cylzone forecast`,
+/// forecast/machine_capability.hpp): a table for people and one JSON object (schema
+/// cylzone-forecast-1, docs/forecast.md). Both carry the safety caution. Lengths in `unit` (mm: 4 decimals, inch: 5, as ReportUnits),
 /// tilts in µm/m, shares as fractions in JSON and percent in the table.
 
 #include <string>
