@@ -31,9 +31,14 @@ bool utf8_locale() {
 }
 
 std::vector<std::filesystem::path> plan_inputs(const PartPlan& plan) {
+  // A feature that takes its points from the [scan] names no file of its own; the scan's
+  // cloud is then an input like any point file.
   std::vector<std::filesystem::path> inputs{plan.file};
-  for (const PlanDatum& d : plan.datums) inputs.push_back(d.points);
-  for (const PlanBore& b : plan.bores) inputs.push_back(b.points);
+  if (plan.scan) inputs.push_back(plan.scan->points);
+  for (const PlanDatum& d : plan.datums)
+    if (!d.from_scan()) inputs.push_back(d.points);
+  for (const PlanBore& b : plan.bores)
+    if (!b.from_scan()) inputs.push_back(b.points);
   return inputs;
 }
 

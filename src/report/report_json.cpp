@@ -8,6 +8,7 @@
 #include "cylzone/decide/bore_characteristics.hpp"
 #include "cylzone/report/audit_report.hpp"
 #include "cylzone/report/fit_report.hpp"
+#include "cylzone/report/forecast_report.hpp"
 #include "cylzone/report/report.hpp"
 #include "cylzone/report/report_reader.hpp"
 #include "cylzone/version.hpp"
@@ -973,6 +974,75 @@ std::string format_audit_json(const AuditReport& r) {
             {"verdict", verdict}};
   // Ids and verdict words are the summary's bytes: invalid UTF-8 is replaced, never thrown.
   return j.dump(2, ' ', false, json::error_handler_t::replace) + "\n";
+}
+
+// -------------------------------------------------------------- `cylzone forecast` JSON
+
+std::string format_forecast_json(const CapabilityOptions& o, const CapabilityForecast& f,
+                                 LengthUnit unit) {
+  const ReportUnits u(unit);
+  const auto axis = [&](const AxisPositioning& a, double sigma, double bias) {
+    return json{{"accuracy", u.length(a.accuracy)},
+                {"repeatability", u.length(a.repeatability)},
+                {"sigma", u.length(sigma)},
+                {"systematic", u.length(bias)}};
+  };
+  const auto figures = [&](const DiameterFigures& d) {
+    return json{{"worst_case", u.length(d.worst_case)},
+                {"median", u.length(d.median)},
+                {"quantile", u.length(d.quantile)},
+                {"law", std::string(radial_law_name(d.law))}};
+  };
+  const auto tolerance = [&](const ToleranceForecast& t) {
+    return json{{"tolerance", u.length(t.tolerance)},
+                {"systematic", u.length(t.systematic)},
+                {"systematic_exceeds", t.systematic_exceeds},
+                {"share_outside", t.share_outside},
+                {"verdict", std::string(capability_verdict_name(t.verdict))}};
+  };
+  json tilts = json::array();
+  for (const TiltSource& t : o.tilts)
+    tilts.push_back({{"name", t.name},
+                     {"systematic_um_per_m", t.systematic * 1e6},
+                     {"random_sigma_um_per_m", t.random * 1e6}});
+  json j;
+  j["schema"] = std::string(forecast_schema);
+  j["tool"] = std::string("cylzone ") + version_string;
+  j["caution"] = std::string(safety_caution);
+  j["units"] = std::string(u.name());
+  j["inputs"] = {
+      {"depth", u.length(o.depth)},
+      {"position_tolerance", u.length(o.position_tolerance)},
+      {"perpendicularity_tolerance", o.perpendicularity_tolerance
+                                         ? json(u.length(*o.perpendicularity_tolerance))
+                                         : json(nullptr)},
+      {"systematic_placement",
+       o.systematic == SystematicPlacement::worst_corner ? "worst-corner" : "centred"},
+      {"coverage", o.coverage},
+      {"share_limit_capable", o.share_limit_capable},
+      {"share_limit_marginal", o.share_limit_marginal},
+      {"tilts", tilts}};
+  j["model"] = {{"x", axis(o.x, f.sigma_x, f.bias_x)},
+                {"y", axis(o.y, f.sigma_y, f.bias_y)},
+                {"tilt_systematic_um_per_m", f.tilt_systematic * 1e6},
+                {"tilt_sigma_um_per_m", f.tilt_sigma * 1e6}};
+  j["position"] = {{"top", figures(f.top)},
+                   {"bottom", figures(f.bottom)},
+                   {"full_depth", figures(f.full_depth)},
+                   {"decision", tolerance(f.position)}};
+  j["perpendicularity"] = {
+      {"figures", figures(f.perpendicularity)},
+      {"decision", f.perpendicularity_forecast ? tolerance(*f.perpendicularity_forecast)
+                                               : json(nullptr)}};
+  const char* kind = f.deepest.kind == DeepestBore::Kind::at_depth    ? "at-depth"
+                     : f.deepest.kind == DeepestBore::Kind::any_depth ? "any-depth"
+                                                                      : "none";
+  j["deepest_bore"] = {
+      {"kind", kind},
+      {"depth", f.deepest.kind == DeepestBore::Kind::at_depth ? json(u.length(f.deepest.depth))
+                                                             : json(nullptr)}};
+  j["verdict"] = std::string(capability_verdict_name(f.verdict));
+  return j.dump(2) + "\n";
 }
 
 }  // namespace cylzone

@@ -200,6 +200,8 @@ struct PlanBore {
   /// Whether the points come from the plan's [scan] rather than a file of the bore's own.
   bool from_scan() const noexcept { return points.empty(); }
   PlanLocation where;
+  /// Sampling thresholds: the bore's own `sampling` table, else the plan-wide [sampling].
+  PlanSampling sampling;
 };
 
 // ---- One cloud of the whole part (docs/plan.md, "[scan]").
@@ -217,8 +219,6 @@ struct PlanScan {
   /// features that take scan points (register_to_nominal) before segmenting.
   bool register_placement = false;
   PlanLocation where;
-  /// Sampling thresholds: the bore's own `sampling` table, else the plan-wide [sampling].
-  PlanSampling sampling;
 };
 
 // ---- Part identity and plausibility warnings (docs/plan.md, "[part]").

@@ -1,0 +1,238 @@
+// `cylzone forecast`: can a machine tool hold a bore's position and perpendicularity over its
+// full depth? Parses the machine's ISO 230-2 figures and the bore's tolerances, runs the
+// library's forecast (forecast/machine_capability.hpp) and prints the table and, on request,
+// the JSON object (written atomically, io/atomic_write.hpp).
+// Exit 0: can hold; 1: cannot hold; 3: marginal; 2: argument error.
+#include <cmath>
+#include <iostream>
+#include <memory>
+#include <optional>
+#include <sstream>
+#include <stdexcept>
+#include <string>
+#include <utility>
+#include <vector>
+
+#include "cli/commands.hpp"
+#include "cylzone/core/errors.hpp"
+#include "cylzone/forecast/machine_capability.hpp"
+#include "cylzone/io/atomic_write.hpp"
+#include "cylzone/report/forecast_report.hpp"
+
+namespace cylzone::cli {
+namespace {
+
+struct ForecastArguments {
+  double x_accuracy = 0.0, x_repeatability = 0.0;
+  double y_accuracy = 0.0, y_repeatability = 0.0;
+  double squareness = 0.0;                    // µm/m
+  std::vector<double> tilt_systematic;        // µm/m each
+  std::vector<double> tilt_random;            // µm/m each
+  double depth = 0.0;
+  double position_tolerance = 0.0;
+  std::optional<double> perpendicularity_tolerance;
+  std::string systematic = "worst";
+  double coverage = 99.73;          // percent
+  double capable_share = 0.27;      // percent
+  double marginal_share = 4.55;     // percent
+  std::string units = "mm";
+  std::string json;
+  bool quiet = false;
+};
+
+// Plausibility bounds, in mm and µm/m: values beyond them are typing or unit mistakes
+// (micrometres typed into a millimetre field, a tolerance in the wrong unit), not machines.
+constexpr double most_positioning_mm = 1.0;
+constexpr double most_depth_mm = 10000.0;
+constexpr double most_tolerance_mm = 5.0;
+constexpr double most_tilt_um_per_m = 10000.0;  // 10 mm/m, 0.57 degrees
+
+std::string number(double v) {
+  std::ostringstream s;
+  s << v;
+  return s.str();
+}
+
+/// A length option in the given unit, in mm. Values beyond `most_mm` are refused as unit
+/// mistakes here; signs and finiteness are the library's checks (validate_capability_options).
+double length_mm(double value, double mm_per_unit, const std::string& option, double most_mm) {
+  const double mm = value * mm_per_unit;
+  if (mm > most_mm)
+    throw std::invalid_argument(option + ": " + number(value) + " is implausible (more than " +
+                                number(most_mm / mm_per_unit) +
+                                "); check the unit (--units, lengths in mm by default)");
+  return mm;
+}
+
+/// A tilt in µm/m as a slope.
+double slope(double um_per_m, const std::string& option) {
+  if (um_per_m > most_tilt_um_per_m)
+    throw std::invalid_argument(option + ": " + number(um_per_m) +
+                                " um/m is implausible (more than 10000 um/m = 0.57 degrees)");
+  return um_per_m * 1e-6;
+}
+
+/// A percentage as a fraction.
+double share(double percent, const std::string& option) {
+  if (!(percent > 0.0 && percent < 100.0))
+    throw std::invalid_argument(option + ": must lie between 0 and 100 percent, got " +
+                                number(percent));
+  return percent / 100.0;
+}
+
+/// The options with, for each tilt source, the command-line option it came from.
+struct ParsedOptions {
+  CapabilityOptions options;
+  std::vector<std::string> tilt_options;
+};
+
+ParsedOptions capability_options(const ForecastArguments& a) {
+  const auto unit = parse_unit(a.units);
+  if (!unit) throw std::invalid_argument("--units: expected mm or inch, got '" + a.units + "'");
+  const double k = millimetres_per(*unit);
+  ParsedOptions parsed;
+  CapabilityOptions& o = parsed.options;
+  o.x.accuracy = length_mm(a.x_accuracy, k, "--x-accuracy", most_positioning_mm);
+  o.x.repeatability = length_mm(a.x_repeatability, k, "--x-repeatability", most_positioning_mm);
+  o.y.accuracy = length_mm(a.y_accuracy, k, "--y-accuracy", most_positioning_mm);
+  o.y.repeatability = length_mm(a.y_repeatability, k, "--y-repeatability", most_positioning_mm);
+  const auto add_tilt = [&](TiltSource t, const char* option) {
+    o.tilts.push_back(std::move(t));
+    parsed.tilt_options.emplace_back(option);
+  };
+  if (a.squareness != 0.0)
+    add_tilt({"squareness of the feed axis to the table", slope(a.squareness, "--squareness"),
+              0.0},
+             "--squareness");
+  for (std::size_t i = 0; i < a.tilt_systematic.size(); ++i)
+    add_tilt({"systematic tilt " + std::to_string(i + 1),
+              slope(a.tilt_systematic[i], "--tilt-systematic"), 0.0},
+             "--tilt-systematic");
+  for (std::size_t i = 0; i < a.tilt_random.size(); ++i)
+    add_tilt({"random tilt " + std::to_string(i + 1), 0.0,
+              slope(a.tilt_random[i], "--tilt-random")},
+             "--tilt-random");
+  o.depth = length_mm(a.depth, k, "--depth", most_depth_mm);
+  o.position_tolerance =
+      length_mm(a.position_tolerance, k, "--position-tolerance", most_tolerance_mm);
+  if (a.perpendicularity_tolerance)
+    o.perpendicularity_tolerance = length_mm(*a.perpendicularity_tolerance, k,
+                                             "--perpendicularity-tolerance", most_tolerance_mm);
+  if (a.systematic != "worst" && a.systematic != "none")
+    throw std::invalid_argument("--systematic: expected worst or none, got '" + a.systematic +
+                                "'");
+  o.systematic = a.systematic == "worst" ? SystematicPlacement::worst_corner
+                                         : SystematicPlacement::centred;
+  o.coverage = share(a.coverage, "--coverage");
+  o.share_limit_capable = share(a.capable_share, "--capable-share");
+  o.share_limit_marginal = share(a.marginal_share, "--marginal-share");
+  return parsed;
+}
+
+/// The library's checks, with its option keys turned into the command line's option names.
+void validate(const ParsedOptions& parsed) {
+  try {
+    validate_capability_options(parsed.options);
+  } catch (const InputError& e) {
+    std::string option = "--" + e.key();
+    if (e.key() == "share_limit_capable") option = "--capable-share";
+    if (e.key() == "share_limit_marginal") option = "--marginal-share";
+    if (e.key().rfind("tilts[", 0) == 0)
+      option = parsed.tilt_options.at(std::stoul(e.key().substr(6)));
+    for (char& c : option)
+      if (c == '.' || c == '_') c = '-';
+    throw std::invalid_argument(option + ": " + e.problem());
+  }
+}
+
+int run_forecast(const ForecastArguments& args) {
+  const ParsedOptions parsed = capability_options(args);
+  validate(parsed);
+  const CapabilityOptions& options = parsed.options;
+  const LengthUnit unit = *parse_unit(args.units);
+  std::vector<OutputTarget> targets;
+  if (!args.json.empty()) targets.push_back({args.json, "--json"});
+  validate_outputs(targets, {});  // before the computation: a bad path costs nothing
+
+  const CapabilityForecast forecast = forecast_capability(options);
+
+  std::vector<OutputFile> files;
+  if (!args.json.empty())
+    files.push_back({targets.front(), format_forecast_json(options, forecast, unit)});
+  write_outputs(files, {}, std::cout);
+  ForecastTableOptions table;
+  table.unit = unit;
+  table.unicode = utf8_locale();
+  const bool json_on_stdout = !args.json.empty() && is_standard_output(args.json);
+  if (!args.quiet)
+    (json_on_stdout ? std::cerr : std::cout) << format_forecast_table(options, forecast, table);
+  switch (forecast.verdict) {
+    case CapabilityVerdict::can_hold: return exit_success;
+    case CapabilityVerdict::cannot_hold: return exit_nonconforming;
+    case CapabilityVerdict::marginal: return exit_not_proven;
+  }
+  return exit_nonconforming;
+}
+
+}  // namespace
+
+void add_forecast_command(CLI::App& app, CommandResult& result) {
+  auto a = std::make_shared<ForecastArguments>();
+  CLI::App* c = app.add_subcommand(
+      "forecast",
+      "Forecast whether a machine tool can hold a bore's position and perpendicularity over "
+      "its full depth, from ISO 230-2 positioning figures and the feed axis' tilt "
+      "(docs/forecast.md)");
+  c->add_option("--x-accuracy", a->x_accuracy,
+                "X positioning accuracy A (ISO 230-2, the full band), length unit")
+      ->required();
+  c->add_option("--x-repeatability", a->x_repeatability,
+                "X bidirectional repeatability R (ISO 230-2, R = 4 s), length unit, > 0")
+      ->required();
+  c->add_option("--y-accuracy", a->y_accuracy, "Y positioning accuracy A, length unit")
+      ->required();
+  c->add_option("--y-repeatability", a->y_repeatability, "Y repeatability R, length unit, > 0")
+      ->required();
+  c->add_option("--squareness", a->squareness,
+                "squareness of the feed axis to the table, um/m (systematic tilt)");
+  c->add_option("--tilt-systematic", a->tilt_systematic,
+                "another systematic tilt source (deflection, ...), um/m; repeatable")
+      ->allow_extra_args(false);
+  c->add_option("--tilt-random", a->tilt_random,
+                "a random tilt source (drill walk, ...), standard deviation per direction, um/m; "
+                "repeatable")
+      ->allow_extra_args(false);
+  c->add_option("--depth", a->depth, "bore depth, length unit")->required();
+  c->add_option("--position-tolerance", a->position_tolerance,
+                "position tolerance, diameter zone, length unit")
+      ->required();
+  c->add_option("--perpendicularity-tolerance", a->perpendicularity_tolerance,
+                "perpendicularity tolerance to the table (datum A), diameter zone, length unit");
+  c->add_option("--systematic", a->systematic,
+                "worst: the bore at the worst corner of the systematic band +-(A - R)/2; none: "
+                "the systematic positioning error is compensated")
+      ->capture_default_str();
+  c->add_option("--coverage", a->coverage, "probability of the statistical figures, percent")
+      ->capture_default_str();
+  c->add_option("--capable-share", a->capable_share,
+                "can hold when at most this percentage of bores is expected outside a zone")
+      ->capture_default_str();
+  c->add_option("--marginal-share", a->marginal_share,
+                "cannot hold when more than this percentage is expected outside a zone")
+      ->capture_default_str();
+  c->add_option("--units", a->units, "length unit of every length option and the output: mm or "
+                                     "inch")
+      ->capture_default_str();
+  c->add_option("--json", a->json,
+                "write the forecast as one JSON object to this file ('-': standard output)");
+  c->add_flag("--quiet", a->quiet, "do not print the table");
+  c->footer(
+      "Lengths in --units (mm by default); tilts in um/m (1 um/m = 1 um per metre of depth). "
+      "Plausibility: positioning figures above 1 mm, a depth above 10 m, tolerances above 5 mm "
+      "and tilts above 10000 um/m are refused as unit mistakes.\n"
+      "Exit codes: 0 can hold, 1 cannot hold, 3 marginal, 2 argument error (one 'cylzone: "
+      "error:' line, no file written).");
+  c->callback([a, &result]() { result.run = [a]() { return run_forecast(*a); }; });
+}
+
+}  // namespace cylzone::cli

@@ -1,0 +1,123 @@
+// The table of the machine-capability forecast (`cylzone forecast`). Its JSON twin is in
+// report_json.cpp, with everything else that speaks JSON.
+#include "cylzone/report/forecast_report.hpp"
+
+#include <cstdio>
+#include <sstream>
+
+#include "cylzone/report/report_model.hpp"
+#include "cylzone/version.hpp"
+
+namespace cylzone {
+namespace {
+
+/// A share as a percentage with four significant digits ("0.27 %", "1.566e-05 %"). Shares
+/// below 1e-10 are below the integration's accuracy and read "< 1e-08 %".
+std::string percent(double share) {
+  if (share > 0.0 && share < 1e-10) return "< 1e-08 %";
+  char buffer[48];
+  std::snprintf(buffer, sizeof buffer, "%.4g %%", 100.0 * share);
+  return buffer;
+}
+
+std::string verdict_text(CapabilityVerdict v) {
+  switch (v) {
+    case CapabilityVerdict::can_hold: return "can hold";
+    case CapabilityVerdict::marginal: return "MARGINAL";
+    case CapabilityVerdict::cannot_hold: return "CANNOT HOLD";
+  }
+  return "CANNOT HOLD";
+}
+
+std::string padded(std::string text, std::size_t width) {
+  if (text.size() < width) text.append(width - text.size(), ' ');
+  return text;
+}
+
+std::string right(const std::string& text, std::size_t width) {
+  return text.size() < width ? std::string(width - text.size(), ' ') + text : text;
+}
+
+}  // namespace
+
+std::string format_forecast_table(const CapabilityOptions& o, const CapabilityForecast& f,
+                                  const ForecastTableOptions& table) {
+  const ReportUnits u(table.unit);
+  const std::string per_m = table.unicode ? "µm/m" : "um/m";
+  const std::string sigma = table.unicode ? "σ" : "sigma";
+  const auto slope = [](double value) { return ReportUnits::fixed(value * 1e6, 1); };
+  std::ostringstream out;
+  out << "cylzone " << version_string << " forecast: machine capability for a bore "
+      << u.text(o.depth) << " deep (values in " << u.name() << ", tilts in " << per_m << ")\n\n";
+
+  out << "Machine (ISO 230-2: A accuracy band, R repeatability; s = R / 4; b systematic, "
+      << (o.systematic == SystematicPlacement::worst_corner ? "worst corner" : "compensated")
+      << ")\n";
+  out << "  axis        A          R          s          b\n";
+  const auto axis_row = [&](const char* name, const AxisPositioning& a, double s, double b) {
+    out << "  " << padded(name, 6) << right(u.text(a.accuracy), 9) << "  "
+        << right(u.text(a.repeatability), 9) << "  " << right(u.text(s), 9) << "  "
+        << right(u.text(b), 9) << '\n';
+  };
+  axis_row("X", o.x, f.sigma_x, f.bias_x);
+  axis_row("Y", o.y, f.sigma_y, f.bias_y);
+  for (const TiltSource& t : o.tilts)
+    out << "  tilt  " << (t.name.empty() ? std::string("(unnamed)") : t.name) << ": systematic "
+        << slope(t.systematic) << ", random " << sigma << ' ' << slope(t.random) << " " << per_m
+        << '\n';
+  out << "  tilt in all: systematic " << slope(f.tilt_systematic) << " " << per_m
+      << " (aligned with b), random " << sigma << ' ' << slope(f.tilt_sigma) << " " << per_m
+      << " per direction\n\n";
+
+  const std::string q = ReportUnits::fixed(100.0 * f.coverage, 2) + " %";
+  out << "Forecast (worst case: systematic + 3 " << sigma << " on every component)\n";
+  out << "  " << padded("", 28) << right("worst case", 11) << right("median", 11)
+      << right(q, 11) << "  law\n";
+  const auto figure_row = [&](const std::string& name, const DiameterFigures& d) {
+    out << "  " << padded(name, 28) << right(u.text(d.worst_case), 11)
+        << right(u.text(d.median), 11) << right(u.text(d.quantile), 11) << "  "
+        << radial_law_name(d.law) << '\n';
+  };
+  figure_row("position at the mouth", f.top);
+  figure_row("position at the bottom", f.bottom);
+  figure_row("position over full depth", f.full_depth);
+  figure_row("perpendicularity", f.perpendicularity);
+  out << '\n';
+
+  out << "  tolerance            limit   systematic   share outside   verdict\n";
+  const auto tolerance_row = [&](const std::string& name, const ToleranceForecast& t) {
+    out << "  " << padded(name, 16) << right(u.text(t.tolerance), 10)
+        << right(u.text(t.systematic), 13) << right(percent(t.share_outside), 16) << "   "
+        << verdict_text(t.verdict) << (t.systematic_exceeds ? " (systematic part alone)" : "")
+        << '\n';
+  };
+  tolerance_row("position", f.position);
+  if (f.perpendicularity_forecast) tolerance_row("perpendicularity", *f.perpendicularity_forecast);
+  out << "  can hold: share outside <= " << percent(o.share_limit_capable)
+      << "; cannot hold: share above " << percent(o.share_limit_marginal)
+      << "\n  or the systematic part alone outside the zone\n\n";
+
+  out << "Deepest bore that holds (share outside <= " << percent(o.share_limit_capable) << "): ";
+  switch (f.deepest.kind) {
+    case DeepestBore::Kind::at_depth: out << u.text(f.deepest.depth) << '\n'; break;
+    case DeepestBore::Kind::any_depth:
+      out << (f.tilt_systematic == 0.0 && f.tilt_sigma == 0.0
+                  ? std::string("any depth (no tilt source)")
+                  : "deeper than " + u.text(1e6))
+          << '\n';
+      break;
+    case DeepestBore::Kind::none:
+      out << "none (the mouth alone exceeds the share)\n";
+      break;
+  }
+  out << "Forecast: " << verdict_text(f.verdict) << " at depth " << u.text(o.depth) << "\n\n";
+  // The caution in lines of at most 100 columns, cut at spaces (it holds no longer word).
+  std::string rest(safety_caution);
+  for (std::size_t cut; rest.size() > 100 && (cut = rest.rfind(' ', 100)) != std::string::npos;
+       rest.erase(0, cut + 1))
+    out << rest.substr(0, cut) << '\n';
+  out << rest << '\n';
+  return out.str();
+}
+
+}  // namespace cylzone
