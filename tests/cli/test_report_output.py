@@ -143,6 +143,17 @@ with tempfile.TemporaryDirectory() as tmp:
     else:
         failures.append("--csv - --json FILE: JSON not written")
 
+# A whole-part scan is an input like any point file: a report over it is refused, the cloud
+# stays as it was (the plan's features name no files of their own there).
+SCAN_PLAN = os.path.join(os.path.dirname(PLAN), "plan-scan.toml")
+SCAN = os.path.join(os.path.dirname(PLAN), "scan", "manifold-scan.csv")
+if os.path.exists(SCAN_PLAN):
+    before = open(SCAN, "rb").read()
+    refused("--json over the scan", run("check", SCAN_PLAN, "--json", SCAN), "over an input file")
+    check(open(SCAN, "rb").read() == before, "the scan cloud was changed")
+else:
+    failures.append(f"{SCAN_PLAN} is missing")
+
 if failures:
     print("\n".join(failures))
     sys.exit(1)
