@@ -13,6 +13,7 @@
 #include <utility>
 #include <vector>
 
+#include "cli/check_batch.hpp"
 #include "cli/commands.hpp"
 #include "cylzone/check/part_check.hpp"
 #include "cylzone/io/atomic_write.hpp"
@@ -28,6 +29,11 @@ struct CheckArguments {
   std::string json;
   std::string csv;
   std::string html;
+  bool html_given = false;  ///< --html appeared (a batch takes it as a flag, without a file)
+  // A batch (docs/batch.md): part folders, a list file of them, the output folder.
+  std::vector<std::string> parts;
+  std::string parts_list;
+  std::string out;
   bool no_sensitivity = false;
   bool quiet = false;
   std::size_t threads = hardware_threads();
@@ -93,6 +99,30 @@ int run_check(const CheckArguments& args) {
   const PartIdentity given = part_identity(args);  // argument errors before any file is read
   const std::optional<bool> neighbour = switch_value(args.neighbour_filter, "--neighbour-filter");
   const std::optional<bool> residual = switch_value(args.residual_rejection, "--residual-rejection");
+  if (!args.parts.empty() || !args.parts_list.empty()) {
+    if (!args.json.empty() || !args.csv.empty())
+      throw std::invalid_argument("--parts: each part's reports go to --out DIR; "
+                                  "--json and --csv are for one part");
+    if (!args.html.empty())
+      throw std::invalid_argument("--html: with --parts it takes no file (each part's HTML "
+                                  "report goes to --out DIR)");
+    BatchRun run;
+    run.plan = args.plan;
+    run.parts = args.parts;
+    run.parts_list = args.parts_list;
+    run.out = args.out;
+    run.html = args.html_given;
+    run.quiet = args.quiet;
+    run.sensitivity = !args.no_sensitivity;
+    run.threads = args.threads;
+    run.given = given;
+    run.neighbour_filter = neighbour;
+    run.residual_rejection = residual;
+    return run_check_batch(run);
+  }
+  if (!args.out.empty()) throw std::invalid_argument("--out: only with --parts or --parts-list");
+  if (args.html_given && args.html.empty())
+    throw std::invalid_argument("--html: give the file to write the HTML report to");
   PartPlan plan = read_plan(args.plan);
   override_outlier_stages(plan, neighbour, residual);
   // The command line overrides the plan's [part] table field by field.
@@ -150,9 +180,20 @@ void add_check_command(CLI::App& app, CommandResult& result) {
                     "write the complete report as JSON to this file ('-': standard output)");
   check->add_option("--csv", args->csv,
                     "write one CSV row per characteristic to this file ('-': standard output)");
-  check->add_option("--html", args->html,
-                    "write the report for people (one self-contained HTML file with figures "
-                    "per bore, printable) to this file");
+  CLI::Option* html = check->add_option(
+      "--html", args->html,
+      "write the report for people (one self-contained HTML file with figures per bore, "
+      "printable) to this file; with --parts, a flag: one such file per part in --out");
+  html->expected(0, 1);
+  check->add_option("--parts", args->parts,
+                    "check many parts against the plan: one folder per part, the plan's point "
+                    "paths looked up in it, the folder's name the serial (docs/batch.md)")
+      ->allow_extra_args(true);
+  check->add_option("--parts-list", args->parts_list,
+                    "a text file naming the part folders, one per line ('#' comments)");
+  check->add_option("--out", args->out,
+                    "with --parts: the folder for each part's reports, batch.csv and "
+                    "batch-summary.json (created when missing)");
   check->add_flag("--no-sensitivity", args->no_sensitivity,
                   "skip re-evaluating with the other associations of datum A");
   check->add_flag("--quiet", args->quiet,
@@ -181,7 +222,8 @@ void add_check_command(CLI::App& app, CommandResult& result) {
                     "KEY=VALUE free text, repeatable (operator, machine, order, ...); replaces "
                     "the plan's note of the same key")
       ->allow_extra_args(false);
-  check->callback([args, &result]() {
+  check->callback([args, html, &result]() {
+    args->html_given = html->count() > 0;
     result.context = args->plan + ": ";
     result.run = [args]() { return run_check(*args); };
   });

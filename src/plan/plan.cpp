@@ -98,7 +98,7 @@ PlanLocation PlanLocation::at(std::string_view name) const {
   return location;
 }
 
-PartPlan read_plan(const std::filesystem::path& file) {
+PartPlan read_plan(const std::filesystem::path& file, bool check_files) {
   std::error_code ec;
   const std::filesystem::file_status status = std::filesystem::status(file, ec);
   if (!std::filesystem::exists(status))
@@ -109,7 +109,7 @@ PartPlan read_plan(const std::filesystem::path& file) {
   if (!in) throw InputError(file.string(), 0, "cannot open the plan file for reading");
   std::string text((std::istreambuf_iterator<char>(in)), std::istreambuf_iterator<char>());
   if (in.bad()) throw InputError(file.string(), 0, "error while reading the plan file");
-  return parse_plan(text, file, true);
+  return parse_plan(text, file, check_files);
 }
 
 }  // namespace cylzone

@@ -4,6 +4,7 @@
 #include <sstream>
 
 #include "cylzone/report/audit_report.hpp"
+#include "cylzone/report/batch_report.hpp"
 #include "cylzone/report/report.hpp"
 
 namespace cylzone {
@@ -160,6 +161,75 @@ std::string format_audit_csv(const AuditReport& r) {
     out << csv_field(r.plan_name) << ',' << csv_field(id) << ",unmatched bore,no,"
         << std::string(28, ',') << csv_field("the summary does not give this bore") << ','
         << u.name() << ',' << caution << ',' << identity << ",,,\n";
+  return out.str();
+}
+
+// The batch's CSV (batch_report.hpp): the per-part CSV's header and rows as format_csv wrote
+// them, with the part's folder, decision and input digests appended, so one renderer defines
+// the characteristic columns for a part alone and for a batch alike.
+std::string format_batch_csv(const BatchIdentity& identity,
+                             const std::vector<BatchPartRecord>& records,
+                             const std::vector<std::string>& part_csv) {
+  // The header of the per-part CSV: from a model without characteristics when no part ran.
+  const ReportModel no_part;
+  std::string header = format_csv(no_part);
+  for (const std::string& text : part_csv)
+    if (!text.empty()) header = text;
+  header = header.substr(0, header.find('\n'));
+  std::vector<std::string> columns;
+  for (std::size_t start = 0;;) {  // the header's names hold no comma or quote
+    const std::size_t comma = header.find(',', start);
+    columns.push_back(header.substr(start, comma - start));
+    if (comma == std::string::npos) break;
+    start = comma + 1;
+  }
+  const auto column = [&](std::string_view name) {
+    return static_cast<std::size_t>(std::find(columns.begin(), columns.end(), name) -
+                                    columns.begin());
+  };
+  std::ostringstream out;
+  out << header << ",folder,part_verdict,plan_sha256,points_sha256,inputs_sha256\n";
+  for (std::size_t k = 0; k < records.size(); ++k) {
+    const BatchPartRecord& r = records[k];
+    std::string inputs;
+    for (const InputRecord& in : r.inputs)
+      inputs += (inputs.empty() ? "" : "; ") + in.role + '=' + in.sha256;
+    const std::string part_fields = csv_field(r.part.folder.string()) + ',' +
+                                    (r.evaluated() ? std::string(verdict_name(r.verdict))
+                                                   : std::string("failed")) +
+                                    ',' + identity.plan_sha256 + ',';
+    if (!r.evaluated()) {
+      std::vector<std::string> fields(columns.size());
+      const auto set = [&](std::string_view name, std::string value) {
+        if (const std::size_t c = column(name); c < fields.size()) fields[c] = std::move(value);
+      };
+      set("part", csv_field(identity.plan_name));
+      set("caution", csv_field(safety_caution));
+      set("part_id", csv_field(identity.part.id));
+      set("serial", csv_field(r.part.serial));
+      set("timestamp", csv_field(identity.part.timestamp));
+      set("notes", csv_field(identity.part.notes_text()));
+      set("units", std::string(unit_name(identity.unit)));
+      set("status", "not evaluated");
+      set("reason", csv_field(r.error));
+      for (std::size_t c = 0; c < fields.size(); ++c) out << (c ? "," : "") << fields[c];
+      out << ',' << part_fields << ',' << csv_field(inputs) << '\n';
+      continue;
+    }
+    // Rows in the model's order: one per characteristic (format_csv).
+    const std::string& text = part_csv[k];
+    std::size_t start = text.find('\n') + 1;
+    for (const Characteristic& c : r.characteristics) {
+      const std::size_t end = text.find('\n', start);
+      if (end == std::string::npos) break;
+      const InputRecord* points = nullptr;
+      for (const InputRecord& in : r.inputs)
+        if (in.role == "bore " + c.feature) points = &in;
+      out << text.substr(start, end - start) << ',' << part_fields
+          << (points ? points->sha256 : std::string()) << ',' << csv_field(inputs) << '\n';
+      start = end + 1;
+    }
+  }
   return out.str();
 }
 

@@ -7,6 +7,7 @@
 #include "cylzone/core/errors.hpp"
 #include "cylzone/decide/bore_characteristics.hpp"
 #include "cylzone/report/audit_report.hpp"
+#include "cylzone/report/batch_report.hpp"
 #include "cylzone/report/fit_report.hpp"
 #include "cylzone/report/forecast_report.hpp"
 #include "cylzone/report/report.hpp"
@@ -1042,6 +1043,78 @@ std::string format_forecast_json(const CapabilityOptions& o, const CapabilityFor
       {"depth", f.deepest.kind == DeepestBore::Kind::at_depth ? json(u.length(f.deepest.depth))
                                                              : json(nullptr)}};
   j["verdict"] = std::string(capability_verdict_name(f.verdict));
+  return j.dump(2) + "\n";
+}
+
+// batch-summary.json (batch_report.hpp, docs/report-schema.md): lengths in the plan's unit.
+std::string format_batch_summary_json(const BatchIdentity& identity,
+                                      const std::vector<BatchPartRecord>& records,
+                                      const BatchSummary& s) {
+  const ReportUnits u(identity.unit);
+  json j;
+  j["schema"] = std::string(batch_schema);
+  j["tool"] = {{"name", "cylzone"}, {"version", version_string}};
+  j["caution"] = std::string(safety_caution);
+  j["plan"] = {{"name", identity.plan_name}, {"file", identity.plan_file.string()},
+               {"sha256", identity.plan_sha256}, {"units", std::string(u.name())}};
+  j["part"] = part_json(identity.part);
+  json parts = json::array();
+  for (const BatchPartRecord& r : records) {
+    json inputs = json::array();
+    for (const InputRecord& in : r.inputs)
+      inputs.push_back({{"role", in.role}, {"path", in.path.string()}, {"sha256", in.sha256}});
+    parts.push_back({{"serial", r.part.serial},
+                     {"folder", r.part.folder.string()},
+                     {"status", r.evaluated() ? "evaluated" : "failed"},
+                     {"verdict", r.evaluated() ? json(std::string(verdict_name(r.verdict)))
+                                               : json(nullptr)},
+                     {"reason", r.evaluated() ? json(nullptr) : json(r.error)},
+                     {"inputs", inputs}});
+  }
+  j["parts"] = parts;
+  j["counts"] = {{"parts", s.parts},
+                 {"evaluated", s.evaluated},
+                 {"failed", s.failed.size()},
+                 {"conforming", s.conforming},
+                 {"not_conforming", s.not_conforming},
+                 {"not_proven", s.not_proven}};
+  json characteristics = json::array();
+  for (const CharacteristicTally& t : s.characteristics) {
+    json worst = nullptr;
+    if (t.worst_part)
+      worst = {{"serial", records[*t.worst_part].part.serial},
+               {"value", u.length(t.worst_value)},
+               {"allowed", u.length(t.worst_allowed)},
+               {"margin", u.length(t.worst_margin)}};
+    characteristics.push_back({{"id", t.id},
+                               {"feature", t.feature},
+                               {"name", t.name},
+                               {"conforming", t.conforming},
+                               {"not_conforming", t.not_conforming},
+                               {"not_proven", t.not_proven},
+                               {"worst", worst}});
+  }
+  j["characteristics"] = characteristics;
+  const auto spread = [&](const DeviationSpread& d, double height) {
+    const auto optional = [](const std::optional<double>& v) { return v ? json(*v) : json(nullptr); };
+    return json{{"z", u.length(height)},
+                {"count", d.count},
+                {"mean", {{"dx", u.length(d.mean.x())}, {"dy", u.length(d.mean.y())}}},
+                {"standard_deviation",
+                 {{"dx", u.length(d.standard_deviation.x())},
+                  {"dy", u.length(d.standard_deviation.y())}}},
+                {"mean_radial", u.length(d.mean_radial)},
+                {"t_squared", optional(d.t_squared)},
+                {"p_value", optional(d.p_value)},
+                {"systematic", d.systematic},
+                {"note", d.note}};
+  };
+  json positions = json::array();
+  for (const PositionSpread& p : s.positions)
+    positions.push_back({{"bore", p.bore},
+                         {"top", spread(p.top, p.top_height)},
+                         {"bottom", spread(p.bottom, p.bottom_height)}});
+  j["positions"] = {{"significance", s.significance}, {"bores", positions}};
   return j.dump(2) + "\n";
 }
 

@@ -275,8 +275,10 @@ void override_outlier_stages(PartPlan& plan, std::optional<bool> neighbour_filte
 /// and every rule of validate_plan (unknown datum, negative or zero tolerance, a modifier on a
 /// datum that is not a feature of size, a bore with no tolerance, duplicate bore ids,
 /// ball-centre points without a tip diameter, values beyond the plan's bounds, and so on).
-/// Messages quote user text escaped and bounded (quoted_for_message).
-PartPlan read_plan(const std::filesystem::path& file);
+/// Messages quote user text escaped and bounded (quoted_for_message). With `check_files`
+/// false, point files are not required to exist beside the plan (a batch looks them up in each
+/// part's folder: check/batch.hpp).
+PartPlan read_plan(const std::filesystem::path& file, bool check_files = true);
 
 /// Same, from text; `file` names it in messages and is the base for relative paths.
 /// With `check_files` false, point files are not required to exist (for tests of the parser).
