@@ -4,6 +4,7 @@
 // Exit 0: every summary verdict stands; 1: one is overturned; 2: input error; 3: not decided.
 #include <iostream>
 #include <memory>
+#include <optional>
 #include <stdexcept>
 #include <string>
 #include <utility>
@@ -32,6 +33,7 @@ struct AuditArguments {
   double same_plane_tolerance = 0.0;  ///< in the plan's unit; 0: the plan's or the default
   std::string json;
   std::string csv;
+  std::string html;
   bool quiet = false;
   std::size_t threads = hardware_threads();
   std::string time;
@@ -79,6 +81,12 @@ int run_audit(const AuditArguments& args) {
   std::vector<std::pair<OutputTarget, Renderer>> outputs;
   if (!args.json.empty()) outputs.push_back({{args.json, "--json"}, &format_audit_json});
   if (!args.csv.empty()) outputs.push_back({{args.csv, "--csv"}, &format_audit_csv});
+  if (!args.html.empty()) {
+    // A document for a browser, not a stream for a pipe: a file only.
+    if (is_standard_output(args.html))
+      throw std::invalid_argument("--html: '-' is not allowed: the HTML report goes to a file");
+    outputs.push_back({{args.html, "--html"}, &format_audit_html});
+  }
   std::vector<OutputTarget> targets;
   for (const auto& output : outputs) targets.push_back(output.first);
   std::vector<std::filesystem::path> inputs = plan_inputs(plan);
@@ -116,6 +124,9 @@ int run_audit(const AuditArguments& args) {
   for (const BoreResult& b : evaluation.bores)
     for (const std::string& w : b.warnings) report.warnings.push_back("bore " + b.id + ": " + w);
   report.audit = audit_summary(plan, evaluation, summary, options);
+  for (const BoreResult& b : evaluation.bores)  // the HTML page's side views
+    if (std::optional<DepthProfile> depth = deciding_depth_profile(b))
+      report.axes.push_back({b.id, std::move(*depth), b.probed_top, b.probed_bottom});
 
   std::vector<OutputFile> files;
   for (const auto& [target, render] : outputs) files.push_back({target, render(report)});
@@ -160,6 +171,9 @@ void add_audit_command(CLI::App& app, CommandResult& result) {
                     "write the audit as JSON to this file ('-': standard output)");
   audit->add_option("--csv", args->csv,
                     "write one CSV row per bore to this file ('-': standard output)");
+  audit->add_option("--html", args->html,
+                    "write the audit for people (one self-contained HTML file with a side view "
+                    "per bore, printable) to this file");
   audit->add_flag("--quiet", args->quiet, "do not print the table");
   audit
       ->add_option("--threads", args->threads,

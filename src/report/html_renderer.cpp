@@ -14,9 +14,12 @@
 #include <vector>
 
 #include "cylzone/report/report.hpp"
+#include "report/detail/html_page.hpp"
 
 namespace cylzone {
-namespace {
+// The page frame, style and figure helpers are shared with the audit's page (audit_html.cpp)
+// through report/detail/html_page.hpp; the rest stays private to this file.
+namespace html {
 
 // ------------------------------------------------------------------ text
 
@@ -169,12 +172,6 @@ std::string verdict_span(Verdict v) {
 
 // ------------------------------------------------------------------ figures
 
-/// The zone diameters a bore's figures draw: stated tolerance and allowed (with bonus).
-struct ZoneSizes {
-  double stated = 0.0;
-  double allowed = 0.0;
-};
-
 ZoneSizes zone_sizes(const ReportModel& m, const DepthProfile& d) {
   ZoneSizes z;
   z.allowed = d.allowed;
@@ -312,8 +309,12 @@ void top_view(std::ostream& out, const ReportModel& m, const BoreSummary& b,
 /// passes the radius, which one plane alone may not show).
 void side_views(std::ostream& out, const ReportModel& m, const BoreSummary& b,
                 const DepthProfile& d) {
-  const ReportUnits& u = m.units;
-  const ZoneSizes z = zone_sizes(m, d);
+  side_views(out, m.units, zone_sizes(m, d), b.probed_top, b.probed_bottom, d, {});
+}
+
+void side_views(std::ostream& out, const ReportUnits& u, const ZoneSizes& z, double probed_top_h,
+                double probed_bottom_h, const DepthProfile& d,
+                const std::vector<SideViewMark>& marks) {
   constexpr double width = 110.0, top_y = 10.0, room_y = 64.0, panel_w = 28.0, half = 13.5,
                    left = 13.0, gap = 2.5;
   const double upper = std::max(d.range_top, d.range_bottom);
@@ -393,6 +394,12 @@ void side_views(std::ostream& out, const ReportModel& m, const BoreSummary& b,
       out << "\"/>";
     }
     if (d.exit) exit_marker(out, x_of(value(*d.exit, p)), y_of(d.exit->height), d.exit->height);
+    // Another system's centre at its plane: an open diamond.
+    for (const SideViewMark& mark : marks) {
+      const double x = x_of(value(mark.deviation, p)), y = y_of(mark.deviation.height);
+      out << "<path class=\"mark\" d=\"M" << at(x) << ' ' << at(y - 1.4) << "l1.4 1.4l-1.4 1.4"
+          << "l-1.4 -1.4z\" fill=\"#fff\" stroke=\"#000\" stroke-width=\"0.35\"/>";
+    }
     out << "</g>";
   }
   // Datum A and the exit height across all panels.
@@ -401,13 +408,19 @@ void side_views(std::ostream& out, const ReportModel& m, const BoreSummary& b,
     out << "<path d=\"M" << at(left) << ' ' << at(y_of(0.0)) << "H" << at(right)
         << "\" stroke=\"#000\" stroke-width=\"0.25\"/><text x=\"" << at(right + 0.8) << "\" y=\""
         << at(y_of(0.0) + 0.9) << "\">A</text>";
+  for (const SideViewMark& mark : marks)
+    out << "<path class=\"mark-level\" d=\"M" << at(left) << ' ' << at(y_of(mark.deviation.height))
+        << "H" << at(right) << "\" stroke=\"#000\" stroke-width=\"0.25\" "
+        << "stroke-dasharray=\"2 0.8\"/><text x=\"" << at(left + 0.6) << "\" y=\""
+        << at(y_of(mark.deviation.height) + 2.4) << "\" font-size=\"2\">" << esc(mark.label)
+        << "</text>";
   if (d.exit)
     out << "<path class=\"exit-level\" d=\"M" << at(left) << ' ' << at(y_of(d.exit->height)) << "H"
         << at(right) << "\" stroke=\"#000\" stroke-width=\"0.25\" "
         << "stroke-dasharray=\"0.4 0.6\"/>";
   // The band the probe covered, beside the panels: beyond it the axis is extrapolated.
-  const double probed_top = std::clamp(std::max(b.probed_top, b.probed_bottom), lower, upper);
-  const double probed_bottom = std::clamp(std::min(b.probed_top, b.probed_bottom), lower, upper);
+  const double probed_top = std::clamp(std::max(probed_top_h, probed_bottom_h), lower, upper);
+  const double probed_bottom = std::clamp(std::min(probed_top_h, probed_bottom_h), lower, upper);
   out << "<rect class=\"probed\" x=\"" << at(right + 3.5) << "\" y=\"" << at(y_of(probed_top))
       << "\" width=\"1.2\" height=\"" << at((probed_top - probed_bottom) * depth_scale)
       << "\" fill=\"#aaaaaa\"/>";
@@ -755,12 +768,12 @@ void sensitivity_section(std::ostream& out, const ReportModel& m) {
   out << "</section>";
 }
 
-void inputs_section(std::ostream& out, const ReportModel& m) {
+void inputs_section(std::ostream& out, const std::vector<InputRecord>& inputs) {
   out << "<section id=\"inputs\"><h2>Inputs</h2><table><thead><tr><th>role</th><th>file</th>"
          "<th>points</th><th>SHA-256 (FIPS 180-4) of the bytes read</th></tr></thead><tbody>";
-  for (const InputRecord& in : m.inputs)
+  for (const InputRecord& in : inputs)
     out << "<tr><td>" << esc(in.role) << "</td><td>" << esc(in.path.string())
-        << "</td><td class=\"num\">" << (in.role == "plan" ? "" : std::to_string(in.points))
+        << "</td><td class=\"num\">" << (in.role == "plan" || in.role == "summary" ? "" : std::to_string(in.points))
         << "</td><td class=\"hash\">" << esc(in.sha256) << "</td></tr>";
   out << "</tbody></table></section>";
 }
@@ -798,15 +811,27 @@ void methods_section(std::ostream& out, const ReportModel& m) {
          "</ul></section>";
 }
 
-}  // namespace
+void page_open(std::ostream& out, std::string_view title) {
+  out << "<!DOCTYPE html>\n<html lang=\"en\"><head><meta charset=\"utf-8\">"
+         "<meta name=\"viewport\" content=\"width=device-width, initial-scale=1\">"
+         "<title>"
+      << esc(title) << "</title><style>" << style << "</style></head><body>\n";
+}
+
+void page_close(std::ostream& out) {
+  out << "\n<footer><p class=\"caution\">" << esc(safety_caution)
+      << "</p><p class=\"note\">Signed off by: ____________________ &nbsp; date: ____________"
+      << "</p></footer>\n</body></html>\n";
+}
+
+}  // namespace html
+
+using namespace html;
 
 std::string format_html(const ReportModel& m) {
   const ReportUnits& u = m.units;
   std::ostringstream out;
-  out << "<!DOCTYPE html>\n<html lang=\"en\"><head><meta charset=\"utf-8\">"
-         "<meta name=\"viewport\" content=\"width=device-width, initial-scale=1\">"
-         "<title>cylzone check: "
-      << esc(m.plan_name) << "</title><style>" << style << "</style></head><body>\n";
+  page_open(out, "cylzone check: " + m.plan_name);
   out << "<header><h1>Bore inspection report</h1><p><strong>" << esc(m.plan_name)
       << "</strong><br>plan " << esc(m.plan_file.filename().string()) << ", values in "
       << esc(u.name()) << ", cylzone " << esc(m.tool_version) << "</p>";
@@ -857,16 +882,14 @@ std::string format_html(const ReportModel& m) {
     out << '\n';
   }
   sensitivity_section(out, m);
-  inputs_section(out, m);
+  inputs_section(out, m.inputs);
   methods_section(out, m);
   if (!m.warnings.empty()) {
     out << "<section id=\"warnings\"><h2>Warnings</h2><ul>";
     for (const std::string& w : m.warnings) out << "<li>" << esc(w) << "</li>";
     out << "</ul></section>";
   }
-  out << "\n<footer><p class=\"caution\">" << esc(safety_caution)
-      << "</p><p class=\"note\">Signed off by: ____________________ &nbsp; date: ____________"
-      << "</p></footer>\n</body></html>\n";
+  page_close(out);
   return out.str();
 }
 

@@ -83,6 +83,13 @@ DatumSummary size_datum_summary(const SizeDatumResult& s) {
 
 }  // namespace
 
+std::optional<DepthProfile> deciding_depth_profile(const BoreResult& b, std::size_t samples) {
+  if (b.position_with_mobility)
+    return depth_profile(*b.position_with_mobility, b.id + "/position/mobility", samples);
+  if (b.position) return depth_profile(*b.position, b.id + "/position", samples);
+  return std::nullopt;
+}
+
 std::optional<AxisDeviation> exit_deviation(const DepthProfile& profile) {
   if (!profile.leaves_zone_at || profile.samples.empty()) return std::nullopt;
   return deviation_at(profile.samples, *profile.leaves_zone_at);
@@ -305,11 +312,7 @@ ReportModel make_report_model(const PartCheckResult& r, const ReportModelOptions
     s.depth_source = b.depth_source;
     s.tilt_rad = b.tilt.angle_rad;
     s.tilt_azimuth_deg = b.tilt.azimuth_deg;
-    if (b.position_with_mobility)
-      s.depth = depth_profile(*b.position_with_mobility, b.id + "/position/mobility",
-                              options.depth_samples);
-    else if (b.position)
-      s.depth = depth_profile(*b.position, b.id + "/position", options.depth_samples);
+    s.depth = deciding_depth_profile(b, options.depth_samples);
     if (b.position_with_mobility) s.mobility = in_report_unit(b.mobility_reason, m.units);
     if (b.virtual_condition &&
         (b.virtual_condition_with_mobility ||

@@ -19,6 +19,14 @@ namespace cylzone {
 /// The schema identifier of the audit's JSON report.
 inline constexpr std::string_view audit_report_schema = "cylzone-audit-1";
 
+/// A bore's axis along the depth, for the audit's HTML page (its side view). Lengths in mm.
+struct AuditAxisView {
+  std::string bore;
+  DepthProfile depth;  ///< deciding_depth_profile (report_model.hpp)
+  double probed_top = 0.0;
+  double probed_bottom = 0.0;
+};
+
 /// What every audit report says. Lengths in mm; `units` converts them (the plan's unit).
 struct AuditReport {
   std::string tool_version;
@@ -31,11 +39,19 @@ struct AuditReport {
   bool summary_deviations = true;   ///< dx/dy columns (else x/y coordinates)
   std::vector<std::string> warnings;  ///< the evaluation's and the plan's warnings
   AuditResult audit;
+  /// The audited bores' axes for the HTML page's side views (any order; a bore without one
+  /// has no figure). The table, JSON and CSV do not use them.
+  std::vector<AuditAxisView> axes;
 };
 
 std::string format_audit_table(const AuditReport& report, const TableOptions& options = {});
 std::string format_audit_json(const AuditReport& report);
 /// One row per audited bore, then one per unmatched row or bore (finding "unmatched").
 std::string format_audit_csv(const AuditReport& report);
+/// The audit as one self-contained HTML page in the check report's style (docs/html-report.md,
+/// "The audit page"): the summary's figures beside cylzone's at the same plane, the finding per
+/// bore, per bore a side view of the axis against its zone over the depth with the summary's
+/// plane and centre marked, the inputs with their digests, the caution.
+std::string format_audit_html(const AuditReport& report);
 
 }  // namespace cylzone

@@ -89,6 +89,12 @@ struct DepthProfile {
 /// make_report_model and the JSON reader fill DepthProfile::exit with it.
 std::optional<AxisDeviation> exit_deviation(const DepthProfile& profile);
 
+/// The axis along the evaluated range of the position that decides bore `b` (after datum
+/// mobility when the frame may move, else in the frame as built), sampled at `samples` heights
+/// (a derived median line: its section centres), with its exit point; empty without a position.
+/// make_report_model fills BoreSummary::depth with it; the audit's page draws it.
+std::optional<DepthProfile> deciding_depth_profile(const BoreResult& b, std::size_t samples = 11);
+
 /// One datum feature as the reports summarise it. Lengths in mm.
 struct DatumSummary {
   char label = 'A';
