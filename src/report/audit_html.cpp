@@ -115,7 +115,8 @@ std::string format_audit_html(const AuditReport& r) {
   // ---- one section per bore: the reason and the side view with the summary's plane marked.
   for (const BoreAudit& b : a.bores) {
     out << "<section class=\"audit-bore\" id=\"audit-" << (&b - a.bores.data()) + 1
-        << "\"><h3>Bore " << esc(b.id) << ": " << finding_span(b) << "</h3><p>"
+        << "\" data-bore=\"" << esc(b.id) << "\" data-finding=\""
+        << esc(summary_finding_name(b.finding)) << "\"><h3>Bore " << esc(b.id) << ": " << finding_span(b) << "</h3><p>"
         << esc(b.reason) << "</p>";
     if (b.leaves_zone_at)
       out << "<p class=\"note\">The axis leaves its zone at z = "
