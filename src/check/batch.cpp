@@ -159,8 +159,7 @@ std::vector<BatchPartRecord> check_batch(const PartPlan& plan, const std::vector
       record.part = parts[k];
       record.error = e.what();
     }
-    if (record.error.empty() == false && record.error.size() > 1000)
-      record.error = record.error.substr(0, 997) + "...";
+    if (record.error.size() > 1000) record.error = record.error.substr(0, 997) + "...";
     if (on_progress) {
       const std::lock_guard<std::mutex> lock(progress_mutex);
       on_progress(++done, parts.size());
