@@ -240,6 +240,12 @@ with tempfile.TemporaryDirectory() as tmp:
     one_error_line(run("check", PLAN, "--parts-list", empty_list, "--out", out), "empty list",
                    "empty.txt", "no folder")
     one_error_line(run("check", PLAN, "--out", out), "--out without --parts", "--out")
+    one_error_line(run("check", PLAN, "--parts", folders[0], "--out", out, "--html", "x.html"),
+                   "--html FILE in a batch", "--html")
+    one_error_line(run("check", PLAN, "--parts", folders[0], "--out", out, "--serial", "S"),
+                   "--serial in a batch", "--serial")
+    one_error_line(run("check", PLAN, "--parts", folders[0], "--out", os.path.join(tmp, "no", "out")),
+                   "--out's parent missing", "out")
     # A report never overwrites an input: a part folder named "P1" with --out its points folder
     # would write P1.csv over the bore's point file. Refused before anything is evaluated.
     p1 = os.path.join(tmp, "parts", "P1")
