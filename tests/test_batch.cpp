@@ -102,6 +102,8 @@ TEST_CASE("batch_parts names each part by its folder and refuses bad folders") {
   REQUIRE(parts.size() == 2);
   CHECK(parts[0].serial == "SN-1");
   CHECK(parts[1].serial == "SN-2");  // a trailing separator does not hide the name
+  CHECK(batch_parts({root / "SN-1" / "."})[0].serial == "SN-1");
+  CHECK(batch_parts({root / "other" / "SN-1" / ".." / ".." / "SN-2"})[0].serial == "SN-2");
 
   CHECK_THROWS_WITH(batch_parts({root / "SN-1", root / "other" / "SN-1"}),
                     Catch::Contains("SN-1") && Catch::Contains("already"));

@@ -54,9 +54,11 @@ std::vector<BatchPart> batch_parts(const std::vector<fs::path>& folders) {
       throw InputError(folder.string(), 0, "part folder does not exist");
     if (!fs::is_directory(status))
       throw InputError(folder.string(), 0, "is not a folder: a part is a folder of point files");
-    // The folder's own name, also for "." or "parts/S17/": resolved first.
-    const fs::path canonical = fs::weakly_canonical(folder, ec);
-    const std::string serial = (ec ? folder : canonical).filename().string();
+    // The folder's own name, also for "." or "parts/S17/" (lexically: a symbolic link keeps
+    // its own name, the one the user sees).
+    fs::path named = fs::absolute(folder, ec).lexically_normal();
+    if (named.filename().empty()) named = named.parent_path();
+    const std::string serial = named.filename().string();
     if (serial.empty() || serial == "." || serial == "..")
       throw InputError(folder.string(), 0, "a part folder must have a name: it is the serial");
     if (!printable_line(serial) || serial.size() > 200)

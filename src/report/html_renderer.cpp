@@ -773,7 +773,8 @@ void inputs_section(std::ostream& out, const std::vector<InputRecord>& inputs) {
          "<th>points</th><th>SHA-256 (FIPS 180-4) of the bytes read</th></tr></thead><tbody>";
   for (const InputRecord& in : inputs)
     out << "<tr><td>" << esc(in.role) << "</td><td>" << esc(in.path.string())
-        << "</td><td class=\"num\">" << (in.role == "plan" || in.role == "summary" ? "" : std::to_string(in.points))
+        << "</td><td class=\"num\">"
+        << (in.role == "plan" || in.role == "summary" ? "" : std::to_string(in.points))
         << "</td><td class=\"hash\">" << esc(in.sha256) << "</td></tr>";
   out << "</tbody></table></section>";
 }

@@ -29,7 +29,8 @@ struct BatchPart {
 };
 
 /// The parts in the given folders, in the order given. A part's serial is the last name of its
-/// folder (after resolving "." and symbolic links). Throws InputError naming the folder for one
+/// folder, taken lexically from its absolute path ("." is the working folder's name; a symbolic
+/// link keeps its own name). Throws InputError naming the folder for one
 /// that does not exist or is not a folder, whose name is not one printable line of at most 200
 /// bytes, or whose serial another folder of the batch already has (reports are named by it).
 std::vector<BatchPart> batch_parts(const std::vector<std::filesystem::path>& folders);
