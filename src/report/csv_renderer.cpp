@@ -1,6 +1,7 @@
 // The CSV report: one row per characteristic (RFC 4180 quoting), the model's characteristics in
 // order. Columns are documented in docs/report-schema.md; new columns are appended at the end so
 // readers that index columns by position keep working.
+#include <algorithm>
 #include <sstream>
 
 #include "cylzone/report/audit_report.hpp"
