@@ -156,6 +156,15 @@ with tempfile.TemporaryDirectory() as tmp:
                       f"P1 {end}: mean {mean} far from the offset {SYSTEMATIC_UM * 1e-3}")
                 check(s["systematic"], f"P1 {end}: systematic offset not found ({s['note']})")
 
+    # ---- the thread count changes no byte of any output (same --time).
+    serial_out = os.path.join(tmp, "out-serial")
+    p = run("check", PLAN, "--parts-list", listing, "--out", serial_out, "--time", TIME,
+            "--threads", "1", "--quiet")
+    for name in ["batch.csv", "batch-summary.json"] + [s + ".json" for s in reports]:
+        check(open(os.path.join(out, name), "rb").read() == open(os.path.join(serial_out, name), "rb").read(),
+              f"{name} differs between --threads 2 and --threads 1")
+    check(p.stdout == "", "--quiet printed the summary")
+
     # ---- tallies: counts per characteristic equal the per-part reports' verdicts.
     for t in summary["characteristics"]:
         verdicts = [next(c for c in r["characteristics"] if c["id"] == t["id"])["verdict"]
