@@ -9,7 +9,6 @@
 #include <cmath>
 #include <filesystem>
 #include <iostream>
-#include <mutex>
 #include <stdexcept>
 
 #include "cli/commands.hpp"
