@@ -265,6 +265,7 @@ struct Output {
   double value = 0.0;
   double ambiguity = 0.0;
   double ambiguity_range = 0.0;
+  double axis_range = 0.0;
   std::string ambiguity_source;
 };
 
@@ -322,12 +323,64 @@ std::vector<double> estimated_sigmas(const PartPlan& plan, const PartEvaluation&
   return sigma;
 }
 
+/// Smallest distance of `points` (3 x n) from the line through `a` and `b`.
+double smallest_distance(const Eigen::Matrix3Xd& points, const Eigen::Vector3d& a,
+                         const Eigen::Vector3d& b) {
+  const Eigen::Vector3d w = (b - a).normalized();
+  double best = std::numeric_limits<double>::infinity();
+  for (Eigen::Index j = 0; j < points.cols(); ++j)
+    best = std::min(best, (points.col(j) - a).cross(w).squaredNorm());
+  return std::sqrt(best);
+}
+
+/// How far the axis of a maximum-inscribed cylinder can move at either end of its extent while
+/// its radius falls by at most `tolerance`: for each end and 16 directions perpendicular to the
+/// axis (the other end held), the largest displacement d with r0 - r(d) <= tolerance, r(d) the
+/// largest cylinder about the moved axis clear of the points (their smallest distance from it),
+/// found by doubling then 50 bisection steps. The maximum over ends and directions. A
+/// cylinder whose contacts hold it at both ends moves by about `tolerance`; one decided by a
+/// single level (a bore probed at two levels) tilts about that level, its radius falling only
+/// as r theta^2 / 2, so its far end moves by L sqrt(2 tolerance / r): micrometres for
+/// tolerance 1e-8 mm (the near-optimal set of docs/chebyshev.md with a coarser tolerance).
+double near_optimal_axis_range(const CylinderFit& envelope, const Eigen::Matrix3Xd& points,
+                               double tolerance) {
+  if (points.cols() == 0 || !(tolerance > 0.0)) return 0.0;
+  const Eigen::Vector3d w = envelope.axis.direction;
+  const Eigen::Vector3d ends[2] = {envelope.axis.point + envelope.extent_min * w,
+                                   envelope.axis.point + envelope.extent_max * w};
+  const Eigen::Matrix3d basis = detail::basis_from_direction(w);
+  const double r0 = smallest_distance(points, ends[0], ends[1]);
+  constexpr double two_pi = 6.283185307179586476925286766559;
+  double range = 0.0;
+  for (int end = 0; end < 2; ++end)
+    for (int k = 0; k < 16; ++k) {
+      const double angle = two_pi * k / 16.0;
+      const Eigen::Vector3d step = std::cos(angle) * basis.col(0) + std::sin(angle) * basis.col(1);
+      const auto drop = [&](double d) {
+        Eigen::Vector3d moved[2] = {ends[0], ends[1]};
+        moved[end] += d * step;
+        return r0 - smallest_distance(points, moved[0], moved[1]);
+      };
+      double lo = 0.0, hi = 1e-9;
+      while (hi < 1.0 && drop(hi) <= tolerance) {
+        lo = hi;
+        hi *= 2.0;
+      }
+      for (int i = 0; i < 50 && hi - lo > 1e-12; ++i) {
+        const double mid = 0.5 * (lo + hi);
+        (drop(mid) <= tolerance ? lo : hi) = mid;
+      }
+      range = std::max(range, lo);
+    }
+  return range;
+}
+
 /// The ambiguity of the axis a characteristic's value rests on, and the range it gives the
 /// value. Only the actual mating envelope (a Chebyshev element) can be ambiguous among the
 /// axes a bore's figures use; datum B's and C's related envelopes move the frame, hence the
 /// position (not the perpendicularity to A).
 void set_ambiguity(Output& out, std::string_view kind, const BoreResult& b, const PlanBore& plan,
-                   const PartPlan& part, const PartEvaluation& nominal) {
+                   const PartPlan& part, const PartEvaluation& nominal, double axis_range) {
   const bool position = kind == "position" || kind == "position/mobility";
   const bool perpendicularity = kind == "perpendicularity";
   const bool boundary = kind == "virtual-condition" && b.virtual_condition &&
@@ -335,8 +388,9 @@ void set_ambiguity(Output& out, std::string_view kind, const BoreResult& b, cons
   if (!position && !perpendicularity && !boundary) return;
   std::string source;
   double axis = 0.0;
-  if (b.axis_method == BoreAxisMethod::mating_envelope && b.mating_envelope.ambiguity > 0.0) {
-    axis = b.mating_envelope.ambiguity;
+  if (b.axis_method == BoreAxisMethod::mating_envelope &&
+      std::max(b.mating_envelope.ambiguity, axis_range) > 0.0) {
+    axis = std::max(b.mating_envelope.ambiguity, axis_range);
     source = "actual mating envelope";
   }
   double frame = 0.0;
@@ -389,6 +443,21 @@ MonteCarloSummary monte_carlo_uncertainty(const PartPlan& plan, const PartInputs
   for (std::size_t i = 0; i < nominal.bores.size(); ++i) {
     const BoreResult& b = nominal.bores[i];
     if (!b.evaluated()) continue;
+    // The envelope's near-optimal range, on the bore's points kept by the prepare stage, in
+    // the datum frame (before tip compensation, which shifts every distance by the tip radius
+    // to first order and so leaves the range as it is).
+    double axis_range = 0.0;
+    if (b.axis_method == BoreAxisMethod::mating_envelope) {
+      const std::vector<std::size_t>& kept =
+          nominal.preparation[plan.datums.size() + i].record.kept;
+      Eigen::Matrix3Xd points(3, static_cast<Eigen::Index>(kept.size()));
+      for (std::size_t j = 0; j < kept.size(); ++j)
+        points.col(static_cast<Eigen::Index>(j)) = inputs.bores[i].points.col(
+            static_cast<Eigen::Index>(kept[j]));
+      axis_range = near_optimal_axis_range(
+          b.mating_envelope, nominal.datums.frame.points_to_frame(points),
+          options.near_optimal_tolerance);
+    }
     for (const Characteristic& c : bore_characteristics(b, plan.bores[i])) {
       if (!c.not_evaluated.empty()) continue;
       Output o;
@@ -396,7 +465,8 @@ MonteCarloSummary monte_carlo_uncertainty(const PartPlan& plan, const PartInputs
       o.id = c.id;
       o.value = c.value;
       set_ambiguity(o, std::string_view(c.id).substr(b.id.size() + 1), b, plan.bores[i], plan,
-                    nominal);
+                    nominal, axis_range);
+      o.axis_range = axis_range;
       outputs.push_back(std::move(o));
     }
   }
@@ -493,6 +563,7 @@ MonteCarloSummary monte_carlo_uncertainty(const PartPlan& plan, const PartInputs
     u.failed_trials = failed[o];
     u.ambiguity = outputs[o].ambiguity;
     u.ambiguity_range = outputs[o].ambiguity_range;
+    u.axis_range = outputs[o].axis_range;
     u.interval = {stats[o].shortest.low - u.ambiguity_range,
                   stats[o].shortest.high + u.ambiguity_range};
     u.kind = IntervalKind::shortest;

@@ -106,8 +106,14 @@ struct MonteCarloOptions {
   std::uint64_t seed = 1;
   double coverage = 0.95;  ///< p of the coverage intervals
   /// Ambiguity (range the figure can take over equally good axes) at or above this fraction of
-  /// the standard uncertainty counts as comparable: the spread then measures tie-breaking.
-  double tie_breaking_ratio = 0.5;
+  /// the standard uncertainty counts as comparable (the same order of magnitude): the spread
+  /// then measures tie-breaking as much as the part.
+  double tie_breaking_ratio = 0.2;
+  /// The objective tolerance of the weak-determination probe, mm: how far the actual mating
+  /// envelope's axis can move while its diameter changes by at most this much (1e-8 mm: the
+  /// level at which independent solvers agree on an envelope's size while their axes may
+  /// differ by micrometres on a weakly determined bore).
+  double near_optimal_tolerance = 1e-8;
   /// The evaluation's options for the unperturbed run; the trials use them with the lean
   /// profile (lean_profile). Its `threads` is ignored: `threads` below bounds everything.
   EvaluationOptions evaluation;
@@ -154,10 +160,16 @@ struct CharacteristicUncertainty {
   /// The reported interval: the shortest, widened by `ambiguity_range` at both ends.
   CoverageInterval interval;
   IntervalKind kind = IntervalKind::shortest;
-  /// The unperturbed Chebyshev fit's ambiguity the figure rests on (mm, CylinderFit::ambiguity
-  /// of the actual mating envelope for an axis-based figure); 0 for least-squares or median
-  /// line axes and for figures that are a fit's objective (size, cylindricity).
+  /// How far the axis the figure rests on can move at its ends among near-optimal axes, mm:
+  /// the larger of the unperturbed actual mating envelope's CylinderFit::ambiguity and
+  /// `axis_range`, plus the moves datum B's and C's envelopes give the frame (position only,
+  /// C's scaled by the bore's distance from B over C's). 0 for least-squares or median line
+  /// axes and for figures that are a fit's objective (size, cylindricity).
   double ambiguity = 0.0;
+  /// The weak-determination probe: how far the actual mating envelope's axis can move at either
+  /// end while its diameter changes by at most MonteCarloOptions::near_optimal_tolerance; set
+  /// on every characteristic of a bore whose toleranced axis is that envelope.
+  double axis_range = 0.0;
   /// How far the figure can move over the equally good axes, mm: 2 x ambiguity for a figure
   /// that is a diameter about the axis (position, perpendicularity, virtual-condition
   /// clearance), 0 otherwise.
