@@ -339,15 +339,12 @@ TEST_CASE("monte carlo: position near zero is Rayleigh, off zero Rice (cases for
       out[2] = r.position->top.offset.y();
     };
     MonteCarloSummary summary;
-    const std::vector<OutputStatistics> s = propagate(3, model, options, summary);
-    // The trials' diameters again, for the quantiles (the same streams: trial t, seed 11).
-    std::vector<double> d(summary.trials);
-    std::vector<double> out(3);
-    for (std::size_t t = 0; t < summary.trials; ++t) {
-      std::mt19937_64 rng(trial_seed(11, t));
-      model(rng, out);
-      d[t] = out[0];
-    }
+    std::vector<std::vector<double>> samples;
+    const std::vector<OutputStatistics> s =
+        propagate(3, model, options, summary, nullptr, &samples);
+    REQUIRE(samples.size() == 3);
+    std::vector<double> d = samples[0];
+    REQUIRE(d.size() == summary.trials);
     std::sort(d.begin(), d.end());
     const auto q = [&](double p) { return d[static_cast<std::size_t>(p * (d.size() - 1))]; };
     text << offset_in_u << ' ' << u << ' ' << summary.trials << ' ' << s[0].mean << ' '

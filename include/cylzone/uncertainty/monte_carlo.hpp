@@ -221,13 +221,16 @@ MonteCarloSummary monte_carlo_uncertainty(const PartPlan& plan, const PartInputs
 /// `out` (one value per output, NaN when not evaluated in that trial) from the random stream
 /// of that trial. Runs the trials as `options` say (fixed or adaptive, seed, threads, coverage;
 /// the probing and evaluation options are not used). Returns one OutputStatistics per output
-/// and sets `summary`'s status, message, seed, trials, batches. Deterministic for a seed
-/// whatever `threads`: `trial` must depend only on its random stream.
+/// and sets `summary`'s status, message, seed, trials, batches, failed_trials (trials with no
+/// output evaluated). `failed`, when given, receives each output's count of trials without a
+/// value; `samples` each output's values by trial (NaN where not evaluated). Deterministic for a
+/// seed whatever `threads`: `trial` must depend only on its random stream.
 using TrialModel = std::function<void(std::mt19937_64& rng, std::vector<double>& out)>;
 std::vector<OutputStatistics> propagate(std::size_t outputs, const TrialModel& trial,
                                         const MonteCarloOptions& options,
                                         MonteCarloSummary& summary,
-                                        std::vector<std::size_t>* failed = nullptr);
+                                        std::vector<std::size_t>* failed = nullptr,
+                                        std::vector<std::vector<double>>* samples = nullptr);
 
 /// The seed of trial `trial` of a study seeded `seed`: splitmix64 (Steele, Lea & Flood, OOPSLA
 /// 2014) of the seed mixed with splitmix64 of the trial index.
