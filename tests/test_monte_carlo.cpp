@@ -64,28 +64,30 @@ struct Part {
 };
 
 Part part_abc(std::vector<PlanBore> bores, std::vector<PointCloud> clouds) {
-  const std::vector<double> deep = {-2.0, -8.0, -14.0, -20.0, -26.0};
   Part p;
   p.plan.file = "in-memory plan";
-  PlanDatum a;
-  a.label = 'A';
-  a.kind = FeatureKind::plane;
-  a.material_side = Eigen::Vector3d(0.0, 0.0, -1.0);
-  PlanDatum b;
-  b.label = 'B';
-  b.kind = FeatureKind::bore;
-  b.size = SizeLimits{19.99, 20.04};
-  PlanDatum c;
-  c.label = 'C';
-  c.kind = FeatureKind::bore;
-  c.basic_location = Eigen::Vector2d(60.0, 0.0);
-  c.size = SizeLimits{7.99, 8.03};
-  p.plan.datums = {a, b, c};
-  p.inputs.datums = {plane_a(), rings(0.0, 0.0, 0.0, 10.01, deep, 24),
-                     rings(60.0, 0.0, 0.0, 4.005, deep, 16)};
+  cylzone::testing::AbcDatums datums =
+      cylzone::testing::abc_datums({-2.0, -8.0, -14.0, -20.0, -26.0}, 24, 16);
+  p.plan.datums = std::move(datums.plans);
+  p.inputs.datums = std::move(datums.clouds);
   p.plan.bores = std::move(bores);
   p.inputs.bores = std::move(clouds);
   return p;
+}
+
+/// `bore` evaluated on `points` (datum frame) with every coordinate perturbed by a normal error
+/// of `sigma`, drawn from `rng` point by point (x, y, z); a lean evaluation, one thread.
+BoreResult perturbed_bore(const PlanBore& bore, const Eigen::Matrix3Xd& points, double sigma,
+                          std::mt19937_64& rng) {
+  BoreEvaluationOptions evaluation;
+  evaluation.fit.assess_ambiguity = false;
+  evaluation.fit.threads = 1;
+  evaluation.stray_screen = false;
+  evaluation.two_point_sizes = false;
+  Eigen::Matrix3Xd perturbed = points;
+  for (Eigen::Index j = 0; j < perturbed.cols(); ++j)
+    for (int k = 0; k < 3; ++k) perturbed(k, j) += sigma * standard_normal(rng);
+  return evaluate_bore(bore, perturbed, evaluation);
 }
 
 /// Two rings of `per_ring` points, centres on the axis through (x, y) parallel to z, at z1 and
@@ -257,21 +259,13 @@ TEST_CASE("monte carlo: an axis from two probed levels follows the law of propag
   const int n = 24;
   const PointCloud cloud = two_levels(31.0, 19.0, z1, 5.0, z2, 5.0, n);
   PlanBore bore = plan_bore("Q", 31.0, 19.0, BoreAxisMethod::least_squares);
-  BoreEvaluationOptions evaluation;
-  evaluation.fit.assess_ambiguity = false;
-  evaluation.fit.threads = 1;
-  evaluation.stray_screen = false;
-  evaluation.two_point_sizes = false;
   const std::vector<double> heights = {0.0, z1, -15.0, z2, -40.0};
   MonteCarloOptions options;
   options.trials = 3000;
   options.seed = 2026;
   options.threads = 2;
   const TrialModel model = [&](std::mt19937_64& rng, std::vector<double>& out) {
-    Eigen::Matrix3Xd points = cloud.points;
-    for (Eigen::Index j = 0; j < points.cols(); ++j)
-      for (int k = 0; k < 3; ++k) points(k, j) += sigma * standard_normal(rng);
-    const BoreResult r = evaluate_bore(bore, points, evaluation);
+    const BoreResult r = perturbed_bore(bore, cloud.points, sigma, rng);
     for (std::size_t i = 0; i < heights.size(); ++i) {
       const Eigen::Vector2d offset = r.axis_in_zone.at_zero + heights[i] * r.axis_in_zone.slope;
       out[2 * i] = offset.x();
@@ -320,20 +314,12 @@ TEST_CASE("monte carlo: position near zero is Rayleigh, off zero Rice (cases for
     const PointCloud cloud =
         rings(30.0 + offset_in_u * u, 20.0, 0.0, 5.0, {-4.0, -10.0, -16.0, -22.0, -28.0},
               per_ring);
-    BoreEvaluationOptions evaluation;
-    evaluation.fit.assess_ambiguity = false;
-    evaluation.fit.threads = 1;
-    evaluation.stray_screen = false;
-    evaluation.two_point_sizes = false;
     MonteCarloOptions options;
     options.trials = 4000;
     options.seed = 11;
     options.threads = 2;
     const TrialModel model = [&](std::mt19937_64& rng, std::vector<double>& out) {
-      Eigen::Matrix3Xd points = cloud.points;
-      for (Eigen::Index j = 0; j < points.cols(); ++j)
-        for (int k = 0; k < 3; ++k) points(k, j) += sigma * standard_normal(rng);
-      const BoreResult r = evaluate_bore(bore, points, evaluation);
+      const BoreResult r = perturbed_bore(bore, cloud.points, sigma, rng);
       out[0] = r.position->value;
       out[1] = r.position->top.offset.x();
       out[2] = r.position->top.offset.y();
