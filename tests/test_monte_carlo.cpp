@@ -224,6 +224,33 @@ TEST_CASE("monte carlo: adaptive stopping rule of JCGM 101 7.9 on a normal outpu
   CHECK(std::abs(s[0].shortest.high - (3.0 + 1.959964 * 0.02)) < 0.003);
 }
 
+TEST_CASE("monte carlo: trials without a value are counted, not averaged", "[monte-carlo]") {
+  // Output 0 is missing (NaN) in every odd trial, output 1 in none; a trial with no output at
+  // all does not occur. The statistics of output 0 are those of its even trials alone.
+  MonteCarloOptions options;
+  options.trials = 40;
+  options.threads = 2;
+  const TrialModel model = [](std::mt19937_64& rng, std::vector<double>& out) {
+    const double z = standard_normal(rng);
+    out[1] = z;
+    if (rng() % 2 == 0) out[0] = z;
+  };
+  MonteCarloSummary summary;
+  std::vector<std::size_t> failed;
+  std::vector<std::vector<double>> samples;
+  const std::vector<OutputStatistics> s =
+      propagate(2, model, options, summary, &failed, &samples);
+  std::vector<double> kept;
+  for (double v : samples[0])
+    if (std::isfinite(v)) kept.push_back(v);
+  CHECK(failed[0] == 40 - kept.size());
+  CHECK(failed[1] == 0);
+  CHECK(summary.failed_trials == 0);
+  CHECK(s[0].trials == kept.size());
+  CHECK(s[0].mean == Approx(std::accumulate(kept.begin(), kept.end(), 0.0) / kept.size()));
+  CHECK(s[1].trials == 40);
+}
+
 TEST_CASE("monte carlo: bad options are refused", "[monte-carlo]") {
   MonteCarloOptions options;
   MonteCarloSummary summary;

@@ -307,9 +307,12 @@ void uncertainty_lines(std::ostream& out, const ReportModel& m, std::size_t widt
   out << pad("id", 28) << pad_left("value", w) << pad_left("u", w) << pad_left("low", w)
       << pad_left("high", w) << pad_left("ambiguity", w + 1) << '\n';
   for (const CharacteristicUncertainty& c : s.characteristics) {
+    // Fewer than two trials evaluated it: no figure (its note says why).
+    const bool has = c.statistics.trials >= 2;
+    const auto figure = [&](double mm) { return has ? u.text(mm) : std::string("-"); };
     out << pad(c.id, 28) << pad_left(u.text(c.value), w)
-        << pad_left(u.text(c.statistics.standard_uncertainty), w)
-        << pad_left(u.text(c.interval.low), w) << pad_left(u.text(c.interval.high), w)
+        << pad_left(figure(c.statistics.standard_uncertainty), w)
+        << pad_left(figure(c.interval.low), w) << pad_left(figure(c.interval.high), w)
         << pad_left(c.ambiguity > 0.0 ? u.text(c.ambiguity) : std::string("-"), w + 1)
         << (c.tie_breaking ? "  !" : "") << '\n';
   }
