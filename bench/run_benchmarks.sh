@@ -56,7 +56,7 @@ if [ -x "$reader" ]; then
   "$reader"
 fi
 
-for extra in bench_fit_chebyshev bench_stray_points bench_evaluate_part; do
+for extra in bench_fit_chebyshev bench_stray_points bench_evaluate_part bench_monte_carlo; do
   if [ -x "$build/bench/$extra" ]; then
     echo
     echo "$extra"

@@ -36,7 +36,6 @@
 
 using namespace cylzone;
 using cylzone::testing::expect_input_error;
-using cylzone::testing::plane_a;
 using cylzone::testing::rings;
 
 namespace {
@@ -79,22 +78,9 @@ struct Part {
 Part part(double t1_noise = 0.0) {
   Part p;
   p.plan.file = "in-memory plan";
-  PlanDatum a;
-  a.label = 'A';
-  a.kind = FeatureKind::plane;
-  a.material_side = Eigen::Vector3d(0.0, 0.0, -1.0);
-  PlanDatum b;
-  b.label = 'B';
-  b.kind = FeatureKind::bore;
-  b.size = SizeLimits{19.99, 20.04};
-  PlanDatum c;
-  c.label = 'C';
-  c.kind = FeatureKind::bore;
-  c.basic_location = Eigen::Vector2d(60.0, 0.0);
-  c.size = SizeLimits{7.99, 8.03};
-  p.plan.datums = {a, b, c};
-  p.inputs.datums = {plane_a(), rings(0.0, 0.0, 0.0, 10.01, deep, 36),
-                     rings(60.0, 0.0, 0.0, 4.005, deep)};
+  cylzone::testing::AbcDatums datums = cylzone::testing::abc_datums(deep);
+  p.plan.datums = std::move(datums.plans);
+  p.inputs.datums = std::move(datums.clouds);
   p.plan.bores = {bore("T1", 30.0, 20.0, 0.05), bore("T2", -30.0, 25.0, 0.2),
                   bore("T3", 10.0, -40.0, 0.05)};
   p.inputs.bores = {

@@ -3,6 +3,7 @@
 // io/atomic_write.hpp).
 // Exit 0: all conform; 1: something does not conform; 2: input error; 3: not proven.
 #include <cctype>
+#include <cstdint>
 #include <cstdlib>
 #include <ctime>
 #include <iostream>
@@ -20,6 +21,7 @@
 #include "cylzone/plan/plan.hpp"
 #include "cylzone/report/report.hpp"
 #include "cylzone/report/report_model.hpp"
+#include "cylzone/uncertainty/monte_carlo.hpp"
 
 namespace cylzone::cli {
 namespace {
@@ -45,7 +47,66 @@ struct CheckArguments {
   // settings and every feature's own; empty: as the plan says.
   std::string neighbour_filter;
   std::string residual_rejection;
+  // The Monte Carlo study (uncertainty/monte_carlo.hpp): off unless asked; the others override
+  // the plan's [uncertainty] table and need --uncertainty.
+  bool uncertainty = false;
+  std::string trials;         ///< a whole number or "adaptive"; empty: the plan's, else 2000
+  std::optional<std::uint64_t> seed;
+  std::string probing_sigma;  ///< a length in the plan's unit or "estimated"; empty: the plan's
 };
+
+/// The study's options: the plan's [uncertainty] table, then the command line.
+MonteCarloOptions uncertainty_options(const CheckArguments& args, const PartPlan& plan) {
+  MonteCarloOptions options;
+  options.threads = args.threads;
+  options.probing = ProbingModel::estimated;
+  options.trials = std::size_t{2000};
+  if (const std::optional<PlanUncertainty>& p = plan.uncertainty) {
+    if (p->probing_sigma) {
+      options.probing = ProbingModel::sigma;
+      options.probing_sigma = *p->probing_sigma;
+    }
+    if (p->mpe_a && p->mpe_k) options.length_error = LengthError{*p->mpe_a, *p->mpe_k};
+    if (p->adaptive) options.trials.reset();
+    if (p->trials) options.trials = *p->trials;
+    if (p->seed) options.seed = *p->seed;
+  }
+  if (args.trials == "adaptive") {
+    options.trials.reset();
+  } else if (!args.trials.empty()) {
+    std::size_t used = 0;
+    unsigned long long n = 0;
+    try {
+      n = std::stoull(args.trials, &used);
+    } catch (const std::exception&) {
+      used = 0;
+    }
+    if (used != args.trials.size() || args.trials.front() == '-' || n < 2 || n > 10000000)
+      throw std::invalid_argument("--trials: expected a whole number from 2 to 10000000 or "
+                                  "adaptive, got '" + args.trials.substr(0, 40) + "'");
+    options.trials = static_cast<std::size_t>(n);
+  }
+  if (args.seed) options.seed = *args.seed;
+  if (args.probing_sigma == "estimated") {
+    options.probing = ProbingModel::estimated;
+  } else if (!args.probing_sigma.empty()) {
+    std::size_t used = 0;
+    double value = 0.0;
+    try {
+      value = std::stod(args.probing_sigma, &used);
+    } catch (const std::exception&) {
+      used = 0;
+    }
+    const double mm = value * millimetres_per(plan.unit);
+    if (used != args.probing_sigma.size() || !(mm > 0.0) || mm > 1.0)
+      throw std::invalid_argument(
+          "--probing-sigma: expected a length above 0 and at most 1 mm in the plan's unit, or "
+          "estimated, got '" + args.probing_sigma.substr(0, 40) + "'");
+    options.probing = ProbingModel::sigma;
+    options.probing_sigma = mm;
+  }
+  return options;
+}
 
 /// "on" / "off" of an outlier-stage option, or empty when the option was not given.
 std::optional<bool> switch_value(const std::string& text, const std::string& option) {
@@ -106,6 +167,9 @@ int run_check(const CheckArguments& args) {
     if (!args.html.empty())
       throw std::invalid_argument("--html: with --parts it takes no file (each part's HTML "
                                   "report goes to --out DIR)");
+    if (args.uncertainty || !args.trials.empty() || args.seed || !args.probing_sigma.empty())
+      throw std::invalid_argument("--uncertainty: not with --parts (the Monte Carlo study runs "
+                                  "on one part: check that part alone)");
     BatchRun run;
     run.plan = args.plan;
     run.parts = args.parts;
@@ -143,11 +207,25 @@ int run_check(const CheckArguments& args) {
   for (const auto& output : outputs) targets.push_back(output.first);
   validate_outputs(targets, plan_inputs(plan));
 
+  if (!args.uncertainty && (!args.trials.empty() || args.seed || !args.probing_sigma.empty()))
+    throw std::invalid_argument(
+        "--trials, --seed and --probing-sigma set up the Monte Carlo study: add --uncertainty");
+  const std::optional<MonteCarloOptions> study =
+      args.uncertainty ? std::optional<MonteCarloOptions>(uncertainty_options(args, plan))
+                       : std::nullopt;
+
   CheckOptions options;
   options.sensitivity = !args.no_sensitivity;
   options.evaluation.threads = args.threads;
-  const PartCheckResult result = check_part(plan, options);
-  const ReportModel model = make_report_model(result, model_options);
+  // Each input is read once; the study perturbs the same points in memory.
+  const PartInputs part_inputs = load_part_inputs(plan);
+  const PartCheckResult result = check_part(plan, part_inputs, options);
+  ReportModel model = make_report_model(result, model_options);
+  if (study) {
+    MonteCarloOptions mc = *study;
+    mc.evaluation = options.evaluation;
+    model.uncertainty = monte_carlo_uncertainty(plan, part_inputs, mc);
+  }
 
   std::vector<std::filesystem::path> inputs;
   for (const InputRecord& input : result.inputs) inputs.push_back(input.path);
@@ -222,6 +300,20 @@ void add_check_command(CLI::App& app, CommandResult& result) {
                     "KEY=VALUE free text, repeatable (operator, machine, order, ...); replaces "
                     "the plan's note of the same key")
       ->allow_extra_args(false);
+  check->add_flag("--uncertainty", args->uncertainty,
+                  "estimate every figure's measurement uncertainty by Monte Carlo (JCGM 101): "
+                  "perturb every raw point, datums included, and run the whole evaluation per "
+                  "trial (docs/uncertainty.md); off by default");
+  check->add_option("--trials", args->trials,
+                    "with --uncertainty: the number of trials, or adaptive (JCGM 101 7.9); "
+                    "default: the plan's [uncertainty] trials, else 2000");
+  check->add_option("--seed", args->seed,
+                    "with --uncertainty: the random seed (results are identical for a seed "
+                    "whatever --threads); default: the plan's, else 1");
+  check->add_option("--probing-sigma", args->probing_sigma,
+                    "with --uncertainty: the isotropic probing sigma per coordinate in the "
+                    "plan's unit, or estimated (each feature's least-squares residual RMS); "
+                    "default: the plan's [uncertainty] probing_sigma, else estimated");
   check->callback([args, html, &result]() {
     args->html_given = html->count() > 0;
     result.context = args->plan + ": ";

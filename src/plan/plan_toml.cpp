@@ -120,7 +120,7 @@ bool contains(const std::array<std::string_view, N>& names, std::string_view nam
 // Key sets of each table (docs/plan.md lists them with their meaning).
 constexpr auto kRootKeys =
     keys("format", "name", "units", "probe", "section_gap", "datum", "bore", "part", "sampling", "scan",
-         "audit");
+         "audit", "uncertainty");
 // One cloud of the whole part, segmented among the features (docs/plan.md, "[scan]").
 constexpr auto kScanKeys =
     keys("points", "band", "margin", "normal_agreement", "placement", "register");
@@ -155,6 +155,7 @@ constexpr auto kPerpendicularityKeys =
 constexpr auto kPartKeys = keys("id", "serial", "time", "notes");
 constexpr auto kSamplingKeys = keys("min_section_points", "min_coverage", "max_magnification");
 constexpr auto kAuditKeys = keys("summary", "units", "same_plane_tolerance", "columns");
+constexpr auto kUncertaintyKeys = keys("probing_sigma", "mpe_a", "mpe_k", "trials", "seed");
 
 enum class ToleranceKind { position, perpendicularity };
 
@@ -210,6 +211,7 @@ class PlanParser {
     if (const toml::node* sampling = root.get("sampling"))
       plan.sampling = read_sampling(*sampling, "sampling");
     if (const toml::node* audit = root.get("audit")) plan.audit = read_audit(*audit);
+    if (const toml::node* u = root.get("uncertainty")) plan.uncertainty = read_uncertainty(*u);
     // The plan-wide section gap and sampling thresholds are the defaults of every bore that
     // gives none.
     for (PlanBore& bore : plan.bores) {
@@ -919,6 +921,69 @@ class PlanParser {
       }
     }
     return audit;
+  }
+
+  // ------------------------------------------------------------------ [uncertainty]
+
+  /// The Monte Carlo study's defaults (docs/uncertainty.md): lengths in the plan's unit, each
+  /// within its bounds here (a sigma above 0 and at most 1 mm, A at least 0 and at most 1 mm,
+  /// K above 0, A and K together, trials from 2 to 10^7 or "adaptive", a seed from 0 to
+  /// 2^63 - 1).
+  PlanUncertainty read_uncertainty(const toml::node& node) const {
+    const toml::table& table = as_table(node, "uncertainty", "an [uncertainty] table");
+    check_keys(table, "uncertainty", kUncertaintyKeys, "in [uncertainty]");
+    PlanUncertainty u;
+    u.line = line_of(table);
+    const auto length = [&](const char* name, const std::string& expected, bool zero_allowed) {
+      const toml::node& value = *table.get(name);
+      const std::string key = std::string("uncertainty.") + name;
+      const double mm = read_length(value, key, expected);
+      if (!(zero_allowed ? mm >= 0.0 : mm > 0.0) || mm > 1.0)
+        fail(line_of(value), key,
+             std::string("expected a length ") + (zero_allowed ? "of at least 0" : "above 0") +
+                 " and at most 1 mm, found " + plan_number_text(mm / mm_per_unit_));
+      return mm;
+    };
+    if (table.get("probing_sigma"))
+      u.probing_sigma = length("probing_sigma", "the probing sigma (a number)", false);
+    if (table.get("mpe_a")) u.mpe_a = length("mpe_a", "the length error's A (a number)", true);
+    if (const toml::node* k = table.get("mpe_k")) {
+      const double value = read_number(*k, "uncertainty.mpe_k", "the length error's K (a number)");
+      if (!(value > 0.0) || !std::isfinite(value))
+        fail(line_of(*k), "uncertainty.mpe_k",
+             "expected K above 0 (E = A + L/K), found " + plan_number_text(value));
+      u.mpe_k = value;
+    }
+    if (u.mpe_a.has_value() != u.mpe_k.has_value())
+      fail(u.line, u.mpe_a ? "uncertainty.mpe_k" : "uncertainty.mpe_a",
+           "the length error E = A + L/K needs both mpe_a and mpe_k");
+    if (const toml::node* trials = table.get("trials")) {
+      if (const auto* word = trials->as_string()) {
+        if (word->get() != "adaptive")
+          fail(line_of(*trials), "uncertainty.trials",
+               "unknown trial count " + quoted_for_message(word->get()) +
+                   ": expected a whole number or \"adaptive\"");
+        u.adaptive = true;
+      } else if (const auto* count = trials->as_integer()) {
+        if (count->get() < 2 || count->get() > 10000000)
+          fail(line_of(*trials), "uncertainty.trials",
+               "expected 2 to 10000000 trials, found " + std::to_string(count->get()));
+        u.trials = static_cast<std::size_t>(count->get());
+      } else {
+        fail(line_of(*trials), "uncertainty.trials",
+             "expected a whole number or \"adaptive\", found " + type_text(*trials));
+      }
+    }
+    if (const toml::node* seed = table.get("seed")) {
+      const auto* value = seed->as_integer();
+      if (!value)
+        fail(line_of(*seed), "uncertainty.seed", "expected a whole number, found " + type_text(*seed));
+      if (value->get() < 0)
+        fail(line_of(*seed), "uncertainty.seed",
+             "the seed must not be negative (found " + std::to_string(value->get()) + ")");
+      u.seed = static_cast<std::uint64_t>(value->get());
+    }
+    return u;
   }
 
   std::string read_time(const toml::node& node) const {

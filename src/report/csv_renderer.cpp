@@ -40,6 +40,12 @@ std::string sampling_fields(const BoreSummary* bore, const ReportUnits& u) {
          ReportUnits::fixed(s.worst_section_coverage_deg, 1) + ',' + csv_field(warnings);
 }
 
+/// An uncertainty figure: two decimals more than the report's lengths (u is often below their
+/// last digit).
+std::string uncertainty_text(double mm, const ReportUnits& u) {
+  return ReportUnits::fixed(u.length(mm), u.decimals() + 2);
+}
+
 }  // namespace
 
 std::string format_csv(const ReportModel& m) {
@@ -55,7 +61,10 @@ std::string format_csv(const ReportModel& m) {
          ",probed_span,evaluated_length,extrapolation_top,extrapolation_bottom,tilt_magnification,"
          "sections,section_points_min,section_points_median,coverage_deg,"
          "worst_section_coverage_deg,sampling_warnings,"
-         "scan_points,scan_angular_coverage_deg,scan_probed_depth,scan_nominal_depth\n";
+         "scan_points,scan_angular_coverage_deg,scan_probed_depth,scan_nominal_depth"
+         // The Monte Carlo study's u and reported interval, only when one was run (the report
+         // without it keeps its columns exactly); empty for a characteristic it has no figure of.
+      << (m.uncertainty ? ",u,interval_low,interval_high\n" : "\n");
   // Identity columns, the same on every row: rows of many parts can be told apart.
   const std::string identity = csv_field(m.part.id) + ',' + csv_field(m.part.serial) + ',' +
                                csv_field(m.part.timestamp) + ',' +
@@ -80,9 +89,19 @@ std::string format_csv(const ReportModel& m) {
     // What the bore took from a whole-part scan; empty when it has a point file of its own.
     if (const FeatureSegmentation* f = m.segmentation_of("bore " + c.feature))
       out << f->points << ',' << ReportUnits::fixed(*f->angular_coverage_deg, 1) << ','
-          << u.text(f->probed_span) << ',' << u.text(f->nominal_span) << '\n';
+          << u.text(f->probed_span) << ',' << u.text(f->nominal_span);
     else
-      out << ",,,\n";
+      out << ",,,";
+    if (m.uncertainty) {
+      const CharacteristicUncertainty* mc = find_uncertainty(*m.uncertainty, c.id);
+      if (mc && mc->statistics.trials >= 2)
+        out << ',' << uncertainty_text(mc->statistics.standard_uncertainty, u) << ','
+            << uncertainty_text(mc->interval.low, u) << ','
+            << uncertainty_text(mc->interval.high, u);
+      else
+        out << ",,,";
+    }
+    out << '\n';
   }
   return out.str();
 }

@@ -548,6 +548,63 @@ json segmentation_json(const ReportModel& m) {
           {"features", features}};
 }
 
+namespace {
+
+/// The Monte Carlo study (uncertainty/monte_carlo.hpp; docs/report-schema.md, "uncertainty"):
+/// the model, the run (trials, seed, status) and per characteristic id its u, reported
+/// interval (kind named), both intervals, the trials and the fit's ambiguity.
+json uncertainty_json(const MonteCarloSummary& s, const ReportModel& m) {
+  const ReportUnits& u = m.units;
+  const auto interval = [&](const CoverageInterval& i) {
+    return json::array({u.length(i.low), u.length(i.high)});
+  };
+  json sigma = json::array();
+  for (std::size_t k = 0; k < s.feature_sigma.size(); ++k)
+    sigma.push_back({{"role", k + 1 < m.inputs.size() ? json(m.inputs[k + 1].role) : json(nullptr)},
+                     {"sigma", u.length(s.feature_sigma[k])}});
+  json characteristics = json::object();
+  for (const CharacteristicUncertainty& c : s.characteristics) {
+    const bool has = c.statistics.trials >= 2;
+    characteristics[c.id] = {
+        {"value", u.length(c.value)},
+        {"mean", has ? json(u.length(c.statistics.mean)) : json(nullptr)},
+        {"u", has ? json(u.length(c.statistics.standard_uncertainty)) : json(nullptr)},
+        {"interval", has ? interval(c.interval) : json(nullptr)},
+        {"kind", std::string(interval_kind_name(c.kind))},
+        {"probabilistically_symmetric", has ? interval(c.statistics.symmetric) : json(nullptr)},
+        {"shortest", has ? interval(c.statistics.shortest) : json(nullptr)},
+        {"trials", c.statistics.trials},
+        {"failed_trials", c.failed_trials},
+        {"seed", s.seed},
+        {"ambiguity", u.length(c.ambiguity)},
+        {"axis_range", u.length(c.axis_range)},
+        {"interval_widening", u.length(c.ambiguity_range)},
+        {"tie_breaking", c.tie_breaking},
+        {"note", text_or_null(c.note)}};
+  }
+  json length_error = nullptr;
+  if (s.length_error)
+    length_error = {{"a", u.length(s.length_error->a)}, {"k", s.length_error->k},
+                    {"length", u.length(s.length)}};
+  return {{"method", "Monte Carlo propagation of distributions (JCGM 101:2008)"},
+          {"status", std::string(monte_carlo_status_name(s.status))},
+          {"message", s.message},
+          {"seed", s.seed},
+          {"trials", s.trials},
+          {"adaptive", s.adaptive},
+          {"batches", s.batches},
+          {"coverage", s.coverage},
+          {"probing_model", std::string(probing_model_name(s.probing))},
+          {"feature_sigma", sigma},
+          {"length_error", length_error},
+          {"failed_trials", s.failed_trials},
+          {"characteristics", characteristics},
+          {"warnings", s.warnings},
+          {"caution", std::string(safety_caution)}};
+}
+
+}  // namespace
+
 std::string format_json(const ReportModel& m) {
   if (!m.evaluation)
     throw std::invalid_argument("format_json: the model has no evaluation (it was read back)");
@@ -589,6 +646,7 @@ std::string format_json(const ReportModel& m) {
   j["segmentation"] = segmentation_json(m);
   j["verdict"] = std::string(verdict_name(m.verdict));
   j["warnings"] = m.warnings;
+  if (m.uncertainty) j["uncertainty"] = uncertainty_json(*m.uncertainty, m);
   return j.dump(2) + "\n";
 }
 

@@ -282,6 +282,48 @@ struct SensitivityColumn {
 
 }  // namespace
 
+namespace {
+
+/// The Monte Carlo study's section (uncertainty/monte_carlo.hpp): per characteristic the
+/// standard uncertainty u, the reported 95 % interval and the axis' ambiguity; the notes
+/// below it say where the interval was widened and where the spread measures tie-breaking.
+void uncertainty_lines(std::ostream& out, const ReportModel& m, std::size_t width) {
+  const MonteCarloSummary& s = *m.uncertainty;
+  const ReportUnits& u = m.units;
+  const int w = 10;
+  std::string model = s.probing == ProbingModel::sigma
+                          ? "isotropic probing sigma " +
+                                u.text(s.feature_sigma.empty() ? 0.0 : s.feature_sigma.front())
+                          : std::string("probing sigma estimated per feature from its "
+                                        "least-squares residuals");
+  if (s.length_error)
+    model += ", length error E = A + L/K (A " + u.text(s.length_error->a) + ", K " +
+             ReportUnits::fixed(s.length_error->k, 1) + ", L " + u.text(s.length) + ")";
+  out << "\nMeasurement uncertainty (Monte Carlo, JCGM 101:2008; "
+      << ReportUnits::fixed(100.0 * s.coverage, 0) << " % shortest interval)\n";
+  out << wrapped("  ", model + "; " + s.message + "; status " +
+                           std::string(monte_carlo_status_name(s.status)),
+                 width, 4);
+  out << pad("id", 28) << pad_left("value", w) << pad_left("u", w) << pad_left("low", w)
+      << pad_left("high", w) << pad_left("ambiguity", w + 1) << '\n';
+  for (const CharacteristicUncertainty& c : s.characteristics) {
+    // Fewer than two trials evaluated it: no figure (its note says why).
+    const bool has = c.statistics.trials >= 2;
+    const auto figure = [&](double mm) { return has ? u.text(mm) : std::string("-"); };
+    out << pad(c.id, 28) << pad_left(u.text(c.value), w)
+        << pad_left(figure(c.statistics.standard_uncertainty), w)
+        << pad_left(figure(c.interval.low), w) << pad_left(figure(c.interval.high), w)
+        << pad_left(c.ambiguity > 0.0 ? u.text(c.ambiguity) : std::string("-"), w + 1)
+        << (c.tie_breaking ? "  !" : "") << '\n';
+  }
+  for (const CharacteristicUncertainty& c : s.characteristics)
+    if (!c.note.empty()) out << wrapped("  " + c.id + ": ", in_report_unit(c.note, u), width, 6);
+  for (const std::string& warning : s.warnings)
+    out << wrapped("warning: uncertainty: ", warning, width, 4);
+}
+
+}  // namespace
+
 std::string format_table(const ReportModel& m, const TableOptions& options) {
   const ReportUnits& u = m.units;
   const Symbols sym(options.unicode);
@@ -501,6 +543,8 @@ std::string format_table(const ReportModel& m, const TableOptions& options) {
     out << "\nShortened above:\n";
     shorten.list(out);
   }
+
+  if (m.uncertainty) uncertainty_lines(out, m, options.width);
 
   if (m.points_prepared()) preparation_lines(out, m, options.width);
 

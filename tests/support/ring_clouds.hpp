@@ -9,6 +9,7 @@
 #include <vector>
 
 #include "cylzone/io/point_cloud.hpp"
+#include "cylzone/plan/plan.hpp"
 
 namespace cylzone::testing {
 
@@ -46,6 +47,36 @@ inline PointCloud rings(double x, double y, double slope, double radius,
       cloud.points.col(n++) = centre + r * (std::cos(angle) * u + std::sin(angle) * v);
     }
   return cloud;
+}
+
+/// The datum features of a part whose frame is the measurement frame: A the plane z = 0 (material
+/// below, plane_a), B a bore of diameter 20.02 at the origin, C a bore of diameter 8.01 at
+/// (60, 0), both probed in rings at `depths`; plans (A, B, C) and clouds in that order.
+struct AbcDatums {
+  std::vector<PlanDatum> plans;
+  std::vector<PointCloud> clouds;
+};
+
+inline AbcDatums abc_datums(const std::vector<double>& depths, int b_per_ring = 36,
+                            int c_per_ring = 24) {
+  AbcDatums d;
+  PlanDatum a;
+  a.label = 'A';
+  a.kind = FeatureKind::plane;
+  a.material_side = Eigen::Vector3d(0.0, 0.0, -1.0);
+  PlanDatum b;
+  b.label = 'B';
+  b.kind = FeatureKind::bore;
+  b.size = SizeLimits{19.99, 20.04};
+  PlanDatum c;
+  c.label = 'C';
+  c.kind = FeatureKind::bore;
+  c.basic_location = Eigen::Vector2d(60.0, 0.0);
+  c.size = SizeLimits{7.99, 8.03};
+  d.plans = {a, b, c};
+  d.clouds = {plane_a(), rings(0.0, 0.0, 0.0, 10.01, depths, b_per_ring),
+              rings(60.0, 0.0, 0.0, 4.005, depths, c_per_ring)};
+  return d;
 }
 
 }  // namespace cylzone::testing

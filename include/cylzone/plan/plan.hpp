@@ -18,6 +18,7 @@
 #include <filesystem>
 #include <functional>
 #include <map>
+#include <cstdint>
 #include <optional>
 #include <string>
 #include <string_view>
@@ -235,6 +236,20 @@ struct PlanPart {
   PlanLocation where;  ///< the [part] table (empty key when the plan has none)
 };
 
+/// The optional `[uncertainty]` table (docs/plan.md, docs/uncertainty.md): the defaults of
+/// `cylzone check --uncertainty`. Lengths in mm (converted from the plan's unit when read).
+struct PlanUncertainty {
+  std::size_t line = 0;
+  /// Isotropic probing sigma per coordinate; empty: estimated from each feature's least-squares
+  /// residuals.
+  std::optional<double> probing_sigma;
+  std::optional<double> mpe_a;  ///< E = A + L/K: A in mm (given with mpe_k)
+  std::optional<double> mpe_k;  ///< K: L in mm, L/K in micrometres
+  std::optional<std::size_t> trials;  ///< empty: not given; see `adaptive`
+  bool adaptive = false;              ///< trials = "adaptive"
+  std::optional<std::uint64_t> seed;
+};
+
 struct PartPlan {
   std::filesystem::path file;
   /// SHA-256 (lower-case hex) of exactly the plan text that was parsed, for the input records.
@@ -261,6 +276,8 @@ struct PartPlan {
   PlanSampling sampling;
   /// The optional `[audit]` table: how `cylzone audit` reads another system's summary.
   std::optional<PlanAudit> audit;
+  /// The optional `[uncertainty]` table: the Monte Carlo study's defaults.
+  std::optional<PlanUncertainty> uncertainty;
 
   const PlanDatum* datum(char label) const noexcept;
 };

@@ -26,6 +26,7 @@
 #include "cylzone/evaluate/axis_zone.hpp"
 #include "cylzone/evaluate/bore_evaluation.hpp"
 #include "cylzone/evaluate/surface_map.hpp"
+#include "cylzone/uncertainty/monte_carlo.hpp"
 
 namespace cylzone {
 
@@ -205,6 +206,10 @@ struct ReportModel {
   /// geometry, stray points). Not owned: it must outlive the model. Null in a model read back
   /// from JSON (report_reader.hpp), which carries the summary only.
   const PartCheckResult* evaluation = nullptr;
+  /// The Monte Carlo study (uncertainty/monte_carlo.hpp), when one was run (`check
+  /// --uncertainty`); lengths in mm like every figure, converted by the renderers. Absent, the
+  /// reports are as without the stage.
+  std::optional<MonteCarloSummary> uncertainty;
 
   /// The characteristic with this id, or null.
   const Characteristic* find(std::string_view id) const noexcept;
