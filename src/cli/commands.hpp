@@ -54,5 +54,6 @@ void add_fit_command(CLI::App& app, CommandResult& result);
 void add_check_command(CLI::App& app, CommandResult& result);
 void add_audit_command(CLI::App& app, CommandResult& result);
 void add_forecast_command(CLI::App& app, CommandResult& result);
+void add_advise_command(CLI::App& app, CommandResult& result);
 
 }  // namespace cylzone::cli

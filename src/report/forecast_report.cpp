@@ -1,6 +1,8 @@
-// The table of the machine-capability forecast (`cylzone forecast`). Its JSON twin is in
-// report_json.cpp, with everything else that speaks JSON.
+// The tables of the machine-capability forecast (`cylzone forecast`) and of the probing advice
+// (`cylzone advise`). Their JSON twins are in report_json.cpp, with everything else that speaks
+// JSON.
 #include "cylzone/report/forecast_report.hpp"
+#include "cylzone/report/probing_report.hpp"
 
 #include <cstdio>
 #include <sstream>
@@ -36,6 +38,15 @@ std::string padded(std::string text, std::size_t width) {
 
 std::string right(const std::string& text, std::size_t width) {
   return text.size() < width ? std::string(width - text.size(), ' ') + text : text;
+}
+
+/// The caution in lines of at most 100 columns, cut at spaces (it holds no longer word).
+void put_caution(std::ostream& out) {
+  std::string rest(safety_caution);
+  for (std::size_t cut; rest.size() > 100 && (cut = rest.rfind(' ', 100)) != std::string::npos;
+       rest.erase(0, cut + 1))
+    out << rest.substr(0, cut) << '\n';
+  out << rest << '\n';
 }
 
 }  // namespace
@@ -111,12 +122,103 @@ std::string format_forecast_table(const CapabilityOptions& o, const CapabilityFo
       break;
   }
   out << "Forecast: " << verdict_text(f.verdict) << " at depth " << u.text(o.depth) << "\n\n";
-  // The caution in lines of at most 100 columns, cut at spaces (it holds no longer word).
-  std::string rest(safety_caution);
-  for (std::size_t cut; rest.size() > 100 && (cut = rest.rfind(' ', 100)) != std::string::npos;
-       rest.erase(0, cut + 1))
-    out << rest.substr(0, cut) << '\n';
-  out << rest << '\n';
+  put_caution(out);
+  return out.str();
+}
+
+
+// ---------------------------------------------------------------- `cylzone advise`
+
+namespace {
+
+std::string pattern_text(const ProbingPattern& p, const ReportUnits& u, const std::string& deg) {
+  std::string heights;
+  for (std::size_t i = 0; i < p.section_heights.size(); ++i)
+    heights += (i ? ", " : "") + u.text(p.section_heights[i]);
+  std::string text = std::to_string(p.section_heights.size()) + " sections x " +
+                     std::to_string(p.points_per_section) + " points = " +
+                     std::to_string(p.total_points()) + ", arc " +
+                     ReportUnits::fixed(p.arc_deg, 1) + deg;
+  if (p.arc_deg < 360.0) text += " centred at " + ReportUnits::fixed(p.arc_centre_deg, 1) + deg;
+  return text + "; at " + heights;
+}
+
+void put_prediction(std::ostream& out, const ProbingAdviceOptions& o, const ProbingPrediction& p,
+                    const ReportUnits& u, const ProbingTableOptions& table) {
+  const std::string deg = table.unicode ? "°" : " deg";
+  const std::string urad = table.unicode ? "µrad" : "urad";
+  out << "  pattern: " << pattern_text(p.pattern, u, deg) << '\n';
+  if (p.status == PredictionStatus::undetermined) {
+    out << "  UNDETERMINED: " << p.message << "\n";
+    return;
+  }
+  out << "  tilt magnification "
+      << (p.magnification ? ReportUnits::fixed(*p.magnification, 2) : std::string("-"))
+      << ", u(tilt) " << ReportUnits::fixed(p.u_tilt * 1e6, 2) << ' ' << urad
+      << " per direction, " << p.trials << " trials\n";
+  out << "  " << padded("", 26) << right("height", 10) << right("u(x)", 9) << right("u(y)", 9)
+      << right("mean", 9) << right("sd", 9) << right("95 %", 9) << '\n';
+  const auto end_row = [&](const char* name, const EndPrediction& e) {
+    out << "  " << padded(name, 26) << right(u.text(e.height), 10) << right(u.text(e.u_x), 9)
+        << right(u.text(e.u_y), 9) << right(u.text(e.position.mean), 9)
+        << right(u.text(e.position.standard_deviation), 9)
+        << right(u.text(e.position.quantile95), 9) << '\n';
+  };
+  const auto figure_row = [&](const char* name, const SimulatedFigure& f) {
+    out << "  " << padded(name, 26) << right("", 28) << right(u.text(f.mean), 9)
+        << right(u.text(f.standard_deviation), 9) << right(u.text(f.quantile95), 9) << '\n';
+  };
+  end_row("position at the top", p.top);
+  end_row("position at the bottom", p.bottom);
+  figure_row("position over full depth", p.full_depth);
+  figure_row("perpendicularity", p.perpendicularity);
+  const auto decision = [&](const char* name, const FigureUncertainty& f) {
+    out << "  " << padded(name, 18) << "U = " << u.text(f.expanded) << " of "
+        << u.text(f.tolerance) << " = " << percent(f.share) << " of the tolerance (target <= "
+        << percent(o.target_share) << "): " << (f.meets_target ? "meets" : "DOES NOT MEET")
+        << '\n';
+  };
+  decision("position", p.position);
+  if (p.perpendicularity_uncertainty) decision("perpendicularity", *p.perpendicularity_uncertainty);
+}
+
+}  // namespace
+
+std::string format_probing_table(const ProbingAdviceOptions& o, const ProbingAdvice& a,
+                                 const ProbingTableOptions& table) {
+  const ReportUnits u(table.unit);
+  std::ostringstream out;
+  out << "cylzone " << version_string << " advise: probing a bore of diameter "
+      << u.text(o.diameter) << ", range " << u.text(o.range_top) << " .. "
+      << u.text(o.range_bottom) << " (values in " << u.name() << ")\n";
+  out << "probing sigma " << u.text(o.probing_sigma) << " per coordinate (3-D), axis "
+      << axis_method_name(o.axis_method) << ", seed " << o.seed << '\n'
+      << "figures of a perfect bore at true position: mean, sd and 95 % quantile of the "
+         "positional diameter;\nU = the larger of the 95 % quantile and k = 2 linear "
+         "propagation\n\n";
+  out << "Candidate\n";
+  put_prediction(out, o, a.candidate, u, table);
+  out << "Candidate: " << (a.candidate.meets_target ? "meets the target" : "DOES NOT MEET the target")
+      << "\n\n";
+  if (a.search) {
+    const ProbingSearch& s = *a.search;
+    out << "Smallest pattern meeting the target (sections over the usable depth "
+        << u.text(o.usable_top.value_or(o.range_top)) << " .. "
+        << u.text(o.usable_bottom.value_or(o.range_bottom)) << ", ends first; "
+        << s.candidates_tried << " candidates tried)\n";
+    if (s.smallest) {
+      put_prediction(out, o, *s.smallest, u, table);
+      if (s.previous) {
+        out << "The one before it in the search order does not meet the target:\n";
+        put_prediction(out, o, *s.previous, u, table);
+      }
+    } else {
+      out << "  none: no pattern of up to " << o.max_sections << " sections and "
+          << o.points_ladder.back() << " points per section meets the target\n";
+    }
+    out << '\n';
+  }
+  put_caution(out);
   return out.str();
 }
 

@@ -9,6 +9,7 @@
 #include "cylzone/report/audit_report.hpp"
 #include "cylzone/report/fit_report.hpp"
 #include "cylzone/report/forecast_report.hpp"
+#include "cylzone/report/probing_report.hpp"
 #include "cylzone/report/report.hpp"
 #include "cylzone/report/report_reader.hpp"
 #include "cylzone/version.hpp"
@@ -1042,6 +1043,93 @@ std::string format_forecast_json(const CapabilityOptions& o, const CapabilityFor
       {"depth", f.deepest.kind == DeepestBore::Kind::at_depth ? json(u.length(f.deepest.depth))
                                                              : json(nullptr)}};
   j["verdict"] = std::string(capability_verdict_name(f.verdict));
+  return j.dump(2) + "\n";
+}
+
+// -------------------------------------------------------------- `cylzone advise` JSON
+
+namespace {
+
+json probing_prediction_json(const ProbingPrediction& p, const ReportUnits& u) {
+  json heights = json::array();
+  for (double h : p.pattern.section_heights) heights.push_back(u.length(h));
+  json j;
+  j["pattern"] = {{"section_heights", heights},
+                  {"points_per_section", p.pattern.points_per_section},
+                  {"arc_deg", p.pattern.arc_deg},
+                  {"arc_centre_deg", p.pattern.arc_centre_deg},
+                  {"total_points", p.pattern.total_points()}};
+  j["status"] = p.status == PredictionStatus::predicted ? "predicted" : "undetermined";
+  j["message"] = text_or_null(p.message);
+  if (p.status == PredictionStatus::undetermined) return j;
+  const auto figure = [&](const SimulatedFigure& f) {
+    return json{{"mean", u.length(f.mean)},
+                {"standard_deviation", u.length(f.standard_deviation)},
+                {"quantile95", u.length(f.quantile95)}};
+  };
+  const auto end = [&](const EndPrediction& e) {
+    return json{{"height", u.length(e.height)},
+                {"u_x", u.length(e.u_x)},
+                {"u_y", u.length(e.u_y)},
+                {"position", figure(e.position)}};
+  };
+  const auto decision = [&](const FigureUncertainty& f) {
+    return json{{"tolerance", u.length(f.tolerance)},
+                {"expanded", u.length(f.expanded)},
+                {"share", f.share},
+                {"meets_target", f.meets_target}};
+  };
+  j["trials"] = p.trials;
+  j["magnification"] = p.magnification ? json(*p.magnification) : json(nullptr);
+  j["u_tilt_urad"] = p.u_tilt * 1e6;
+  j["top"] = end(p.top);
+  j["bottom"] = end(p.bottom);
+  j["full_depth"] = figure(p.full_depth);
+  j["perpendicularity"] = figure(p.perpendicularity);
+  j["position_uncertainty"] = decision(p.position);
+  j["perpendicularity_uncertainty"] = p.perpendicularity_uncertainty
+                                          ? decision(*p.perpendicularity_uncertainty)
+                                          : json(nullptr);
+  j["meets_target"] = p.meets_target;
+  return j;
+}
+
+}  // namespace
+
+std::string format_probing_json(const ProbingAdviceOptions& o, const ProbingAdvice& a,
+                                LengthUnit unit) {
+  const ReportUnits u(unit);
+  json j;
+  j["schema"] = std::string(probing_advice_schema);
+  j["tool"] = std::string("cylzone ") + version_string;
+  j["caution"] = std::string(safety_caution);
+  j["units"] = std::string(u.name());
+  j["inputs"] = {
+      {"diameter", u.length(o.diameter)},
+      {"range_top", u.length(o.range_top)},
+      {"range_bottom", u.length(o.range_bottom)},
+      {"usable_top", u.length(o.usable_top.value_or(o.range_top))},
+      {"usable_bottom", u.length(o.usable_bottom.value_or(o.range_bottom))},
+      {"position_tolerance", u.length(o.position_tolerance)},
+      {"perpendicularity_tolerance", o.perpendicularity_tolerance
+                                         ? json(u.length(*o.perpendicularity_tolerance))
+                                         : json(nullptr)},
+      {"axis_method", std::string(axis_method_name(o.axis_method))},
+      {"probing_sigma", u.length(o.probing_sigma)},
+      {"trials", o.trials},
+      {"seed", o.seed},
+      {"target_share", o.target_share}};
+  j["candidate"] = probing_prediction_json(a.candidate, u);
+  if (a.search) {
+    const ProbingSearch& s = *a.search;
+    j["search"] = {
+        {"candidates_tried", s.candidates_tried},
+        {"smallest", s.smallest ? probing_prediction_json(*s.smallest, u) : json(nullptr)},
+        {"previous", s.previous ? probing_prediction_json(*s.previous, u) : json(nullptr)}};
+  } else {
+    j["search"] = nullptr;
+  }
+  j["meets_target"] = a.candidate.meets_target;
   return j.dump(2) + "\n";
 }
 
