@@ -16,6 +16,7 @@
 #include "cylzone/evaluate/sampling_coverage.hpp"
 #include "cylzone/fit/fit_cylinder.hpp"
 #include "detail/parallel.hpp"
+#include "forecast/detail/sample_statistics.hpp"
 
 namespace cylzone {
 namespace {
@@ -89,35 +90,9 @@ Eigen::Matrix3Xd ideal_points(const ProbingPattern& p, double radius) {
 
 // ---- Statistics.
 
-struct Moments {
-  double mean = 0.0;
-  double sd = 0.0;
-};
-
-/// Mean and sample standard deviation, summed in trial order (deterministic).
-Moments moments(const std::vector<double>& v) {
-  Moments m;
-  for (double x : v) m.mean += x;
-  m.mean /= static_cast<double>(v.size());
-  double ss = 0.0;
-  for (double x : v) ss += (x - m.mean) * (x - m.mean);
-  m.sd = std::sqrt(ss / static_cast<double>(v.size() - 1));
-  return m;
-}
-
-/// The p quantile by linear interpolation between order statistics (Hyndman & Fan 1996,
-/// definition 7).
-double quantile(std::vector<double> v, double p) {
-  std::sort(v.begin(), v.end());
-  const double at = p * static_cast<double>(v.size() - 1);
-  const std::size_t i = static_cast<std::size_t>(std::floor(at));
-  if (i + 1 >= v.size()) return v.back();
-  return v[i] + (at - static_cast<double>(i)) * (v[i + 1] - v[i]);
-}
-
 SimulatedFigure figure(const std::vector<double>& v) {
-  const Moments m = moments(v);
-  return {m.mean, m.sd, quantile(v, 0.95)};
+  const detail::SampleMoments m = detail::sample_moments(v);
+  return {m.mean, m.sd, detail::sample_quantile(v, 0.95)};
 }
 
 FigureUncertainty uncertainty(double tolerance, double expanded, double target_share) {
@@ -289,8 +264,8 @@ ProbingPrediction simulate(const ProbingAdviceOptions& o, const ProbingPattern& 
   const auto end = [&](double height, auto offset) {
     EndPrediction e;
     e.height = height;
-    e.u_x = moments(collect([&](const TrialResult& r) { return offset(r).x(); })).sd;
-    e.u_y = moments(collect([&](const TrialResult& r) { return offset(r).y(); })).sd;
+    e.u_x = detail::sample_moments(collect([&](const TrialResult& r) { return offset(r).x(); })).sd;
+    e.u_y = detail::sample_moments(collect([&](const TrialResult& r) { return offset(r).y(); })).sd;
     e.position = figure(collect([&](const TrialResult& r) { return 2.0 * offset(r).norm(); }));
     return e;
   };
@@ -298,8 +273,8 @@ ProbingPrediction simulate(const ProbingAdviceOptions& o, const ProbingPattern& 
   out.bottom = end(o.range_bottom, [](const TrialResult& r) { return r.bottom; });
   out.full_depth = figure(collect([](const TrialResult& r) { return r.full_depth; }));
   out.perpendicularity = figure(collect([](const TrialResult& r) { return r.perpendicularity; }));
-  const double u_sx = moments(collect([](const TrialResult& r) { return r.slope.x(); })).sd;
-  const double u_sy = moments(collect([](const TrialResult& r) { return r.slope.y(); })).sd;
+  const double u_sx = detail::sample_moments(collect([](const TrialResult& r) { return r.slope.x(); })).sd;
+  const double u_sy = detail::sample_moments(collect([](const TrialResult& r) { return r.slope.y(); })).sd;
   out.u_tilt = std::max(u_sx, u_sy);
 
   // Expanded uncertainties (header, "Figures"): the larger of the perfect bore's 95 % quantile

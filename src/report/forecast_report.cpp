@@ -4,6 +4,7 @@
 #include "cylzone/report/forecast_report.hpp"
 #include "cylzone/report/probing_report.hpp"
 
+#include <cmath>
 #include <cstdio>
 #include <sstream>
 
@@ -40,19 +41,72 @@ std::string right(const std::string& text, std::size_t width) {
   return text.size() < width ? std::string(width - text.size(), ' ') + text : text;
 }
 
-/// The caution in lines of at most 100 columns, cut at spaces (it holds no longer word).
-void put_caution(std::ostream& out) {
-  std::string rest(safety_caution);
-  for (std::size_t cut; rest.size() > 100 && (cut = rest.rfind(' ', 100)) != std::string::npos;
-       rest.erase(0, cut + 1))
-    out << rest.substr(0, cut) << '\n';
+/// `text` in lines of at most 100 columns, cut at spaces, every line after the first indented
+/// by `indent` spaces.
+void put_wrapped(std::ostream& out, std::string rest, std::size_t indent = 0) {
+  const std::string pad(indent, ' ');
+  std::size_t width = 100;
+  for (std::size_t cut; rest.size() > width && (cut = rest.rfind(' ', width)) != std::string::npos;
+       rest.erase(0, cut + 1), width = 100 - indent)
+    out << rest.substr(0, cut) << '\n' << pad;
   out << rest << '\n';
+}
+
+/// The caution in lines of at most 100 columns (it holds no longer word).
+void put_caution(std::ostream& out) { put_wrapped(out, std::string(safety_caution)); }
+
+}  // namespace
+
+namespace {
+
+/// "k of n = share (CI lo .. hi)".
+std::string count_text(std::size_t k, std::size_t n, const BinomialInterval& ci, int pct) {
+  return std::to_string(k) + " of " + std::to_string(n) + " = " +
+         percent(static_cast<double>(k) / static_cast<double>(n)) + " (" + std::to_string(pct) +
+         " % interval " + percent(ci.lower) + " .. " + percent(ci.upper) + ")";
+}
+
+void put_comparison(std::ostream& out, const ForecastComparison& c, const ReportUnits& u,
+                    const std::string& sigma) {
+  const int pct = static_cast<int>(std::lround(100.0 * c.confidence));
+  out << "Compared with measured parts (" << c.bores
+      << " bores; full-depth position against the stated zone " << u.text(c.tolerance)
+      << ", no bonus)\n";
+  out << "  " << padded("", 26) << right("observed", 11) << right("forecast", 11) << '\n';
+  const auto row = [&](const char* name, double observed, double forecast) {
+    out << "  " << padded(name, 26) << right(u.text(observed), 11) << right(u.text(forecast), 11)
+        << '\n';
+  };
+  row("mean", c.observed_mean, c.forecast.mean);
+  row("standard deviation", c.observed_sd, c.forecast.standard_deviation);
+  row("95 % quantile", c.observed_quantile95, c.forecast.quantile95);
+  out << "  outside the zone: " << count_text(c.outside, c.bores, c.outside_interval, pct)
+      << "; forecast " << percent(c.predicted_share) << '\n';
+  out << "  above the forecast's 95 % quantile: "
+      << count_text(c.above_quantile, c.bores, c.above_interval, pct) << "; expected 5 %\n";
+  if (c.x && c.y) {
+    out << "  at the mouth (" << c.with_mouth << " bores)   observed mean  observed " << sigma
+        << "   forecast b   forecast s\n";
+    const auto axis = [&](const char* name, const MouthAxisComparison& a) {
+      out << "    " << padded(name, 24) << right(u.text(a.observed_mean), 13)
+          << right(u.text(a.observed_sd), 13) << right(u.text(a.forecast_systematic), 13)
+          << right(u.text(a.forecast_sigma), 13) << '\n';
+    };
+    axis("dx", *c.x);
+    axis("dy", *c.y);
+  }
+  if (c.depth_mismatches > 0)
+    out << "  note: " << c.depth_mismatches
+        << " bores were evaluated over a range more than 1 % off the forecast's depth\n";
+  put_wrapped(out, "Finding: " + c.finding, 4);
+  out << '\n';
 }
 
 }  // namespace
 
 std::string format_forecast_table(const CapabilityOptions& o, const CapabilityForecast& f,
-                                  const ForecastTableOptions& table) {
+                                  const ForecastTableOptions& table,
+                                  const ForecastComparison* comparison) {
   const ReportUnits u(table.unit);
   const std::string per_m = table.unicode ? "µm/m" : "um/m";
   const std::string sigma = table.unicode ? "σ" : "sigma";
@@ -122,6 +176,7 @@ std::string format_forecast_table(const CapabilityOptions& o, const CapabilityFo
       break;
   }
   out << "Forecast: " << verdict_text(f.verdict) << " at depth " << u.text(o.depth) << "\n\n";
+  if (comparison) put_comparison(out, *comparison, u, sigma);
   put_caution(out);
   return out.str();
 }

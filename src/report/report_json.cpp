@@ -980,7 +980,7 @@ std::string format_audit_json(const AuditReport& r) {
 // -------------------------------------------------------------- `cylzone forecast` JSON
 
 std::string format_forecast_json(const CapabilityOptions& o, const CapabilityForecast& f,
-                                 LengthUnit unit) {
+                                 LengthUnit unit, const ForecastComparison* comparison) {
   const ReportUnits u(unit);
   const auto axis = [&](const AxisPositioning& a, double sigma, double bias) {
     return json{{"accuracy", u.length(a.accuracy)},
@@ -1043,6 +1043,42 @@ std::string format_forecast_json(const CapabilityOptions& o, const CapabilityFor
       {"depth", f.deepest.kind == DeepestBore::Kind::at_depth ? json(u.length(f.deepest.depth))
                                                              : json(nullptr)}};
   j["verdict"] = std::string(capability_verdict_name(f.verdict));
+  if (comparison) {
+    const ForecastComparison& c = *comparison;
+    const auto interval = [](const BinomialInterval& b) {
+      return json{{"lower", b.lower}, {"upper", b.upper}};
+    };
+    const auto mouth = [&](const std::optional<MouthAxisComparison>& a) {
+      if (!a) return json(nullptr);
+      return json{{"observed_mean", u.length(a->observed_mean)},
+                  {"observed_sd", u.length(a->observed_sd)},
+                  {"forecast_systematic", u.length(a->forecast_systematic)},
+                  {"forecast_sigma", u.length(a->forecast_sigma)}};
+    };
+    j["comparison"] = {
+        {"bores", c.bores},
+        {"confidence", c.confidence},
+        {"tolerance", u.length(c.tolerance)},
+        {"observed", {{"mean", u.length(c.observed_mean)},
+                      {"standard_deviation", u.length(c.observed_sd)},
+                      {"quantile95", u.length(c.observed_quantile95)}}},
+        {"forecast", {{"mean", u.length(c.forecast.mean)},
+                      {"standard_deviation", u.length(c.forecast.standard_deviation)},
+                      {"quantile95", u.length(c.forecast.quantile95)}}},
+        {"outside", {{"count", c.outside},
+                     {"share", static_cast<double>(c.outside) / static_cast<double>(c.bores)},
+                     {"interval", interval(c.outside_interval)},
+                     {"predicted_share", c.predicted_share}}},
+        {"above_forecast_quantile95", {{"count", c.above_quantile},
+                                       {"share", static_cast<double>(c.above_quantile) /
+                                                     static_cast<double>(c.bores)},
+                                       {"interval", interval(c.above_interval)},
+                                       {"expected_share", 0.05}}},
+        {"mouth", {{"bores", c.with_mouth}, {"x", mouth(c.x)}, {"y", mouth(c.y)}}},
+        {"depth_mismatches", c.depth_mismatches},
+        {"performance", std::string(machine_performance_name(c.performance))},
+        {"finding", c.finding}};
+  }
   return j.dump(2) + "\n";
 }
 
