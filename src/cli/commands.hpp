@@ -21,7 +21,8 @@ inline constexpr int exit_not_proven = 3;
 inline constexpr std::string_view exit_code_help =
     "Exit codes: 0 every characteristic conforms (fit: success), 1 a characteristic does not "
     "conform, 2 input or argument error, 3 conformance not proven. audit: 0 every summary "
-    "verdict stands, 1 one is overturned, 3 a bore could not be decided.";
+    "verdict stands, 1 one is overturned, 3 a bore could not be decided. advise: 0 the "
+    "candidate pattern meets the target, 1 it does not.";
 
 /// `text` as one printable line of at most `limit` bytes: control characters become '?', a
 /// longer text is cut and ends in "...". Error messages may quote file contents or arguments.
