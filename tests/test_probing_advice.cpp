@@ -11,12 +11,14 @@
 //    recomputes them);
 //  * the search's own contract (the order, the first that meets the target, the one before);
 //  * determinism: the same bits for 1 and 2 threads (the threads option's contract).
+#include <Eigen/Geometry>
 #include <catch2/catch.hpp>
 #include <cmath>
 #include <cstdlib>
 #include <fstream>
 
 #include "cylzone/core/errors.hpp"
+#include "cylzone/evaluate/bore_evaluation.hpp"
 #include "cylzone/forecast/probing_advice.hpp"
 #include "cylzone/report/probing_report.hpp"
 
@@ -231,6 +233,76 @@ TEST_CASE("every output of the advice carries the caution") {
   const std::string caution = "do not replace, the approved inspection procedure";
   CHECK(format_probing_table(o, a).find(caution) != std::string::npos);
   CHECK(format_probing_json(o, a, LengthUnit::millimetre).find(caution) != std::string::npos);
+}
+
+namespace {
+
+/// Points of a perfect bore (diameter 12, true position (40, 25), tilted 0.2 mrad) probed at
+/// `levels` (heights from A), `n` points per level spread over `arc_deg` (both ends probed when
+/// partial), evaluated as `check` does.
+BoreResult probed_bore(const std::vector<double>& levels, std::size_t n, double arc_deg) {
+  PlanBore plan;
+  plan.id = "H1";
+  plan.basic_location = {40.0, 25.0};
+  plan.size = SizeLimits{12.000, 12.018};
+  plan.depth_top = 0.0;
+  plan.depth_bottom = -40.0;
+  plan.axis = BoreAxisMethod::least_squares;
+  PlanTolerance t;
+  t.tolerance = 0.02;
+  t.datums = {{'A', MaterialBoundary::rmb}, {'B', MaterialBoundary::rmb}};
+  plan.position = t;
+  t.tolerance = 0.01;
+  plan.perpendicularity = t;
+  const double pi = 3.14159265358979323846;
+  const Eigen::Vector3d w = Eigen::Vector3d(2e-4, 0.0, 1.0).normalized();
+  const Eigen::Vector3d u = (Eigen::Vector3d::UnitX() - w.x() * w).normalized(), v = w.cross(u);
+  Eigen::Matrix3Xd points(3, static_cast<Eigen::Index>(levels.size() * n));
+  Eigen::Index k = 0;
+  for (double z : levels)
+    for (std::size_t i = 0; i < n; ++i) {
+      const double a = arc_deg >= 360.0 ? 2.0 * pi * i / n + 0.3
+                                         : (arc_deg * i / (n - 1) - arc_deg / 2.0) * pi / 180.0;
+      points.col(k++) = Eigen::Vector3d(40.0, 25.0, 0.0) + z * w + 6.0 * (std::cos(a) * u + std::sin(a) * v);
+    }
+  return evaluate_bore(plan, points);
+}
+
+}  // namespace
+
+TEST_CASE("the pattern a measured bore was probed with comes from its sampling record") {
+  const BoreResult full = probed_bore({-3.0, -20.0, -37.0}, 10, 360.0);
+  ProbingAdviceOptions base;
+  base.trials = 100;
+  const auto o = measured_bore_probing(full, 0.001, base);
+  REQUIRE(o);
+  REQUIRE(o->pattern.section_heights.size() == 3);
+  // The levels as probed (heights from A along the nominal direction; the 0.2 mrad tilt moves
+  // them by less than 1e-5 mm), the points per level, the full circle.
+  CHECK(o->pattern.section_heights[0] == Approx(-37.0).margin(1e-3));
+  CHECK(o->pattern.section_heights[2] == Approx(-3.0).margin(1e-3));
+  CHECK(o->pattern.points_per_section == 10);
+  CHECK(o->pattern.arc_deg == 360.0);
+  CHECK(o->range_top == 0.0);
+  CHECK(o->range_bottom == -40.0);
+  CHECK(o->position_tolerance == 0.02);
+  CHECK(*o->perpendicularity_tolerance == 0.01);
+  CHECK(o->diameter == Approx(12.0).margin(1e-9));
+  // A 200 degree arc is recognised as one (the evaluation's inscribed cylinder needs more than
+  // 180 degrees).
+  const auto partial = measured_bore_probing(probed_bore({-3.0, -37.0}, 12, 200.0), 0.001, base);
+  REQUIRE(partial);
+  CHECK(partial->pattern.arc_deg == Approx(200.0).margin(0.5));
+  // The prediction runs on that pattern.
+  const auto p = predict_measured_bore(full, 0.001, base);
+  REQUIRE(p);
+  CHECK(p->status == PredictionStatus::predicted);
+  CHECK(p->probing_sigma == 0.001);
+  CHECK(p->position.tolerance == 0.02);
+  // One level only: no pattern to predict.
+  const BoreResult one_level = probed_bore({-3.0, -3.0001}, 10, 360.0);
+  const bool predicted = measured_bore_probing(one_level, 0.001, base).has_value();
+  CHECK_FALSE(predicted);
 }
 
 // Cases for tests/reference/crosscheck_probing.py: the simulated positional diameter of a

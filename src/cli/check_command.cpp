@@ -3,6 +3,7 @@
 // io/atomic_write.hpp).
 // Exit 0: all conform; 1: something does not conform; 2: input error; 3: not proven.
 #include <cctype>
+#include <cmath>
 #include <cstdlib>
 #include <ctime>
 #include <iostream>
@@ -15,6 +16,7 @@
 
 #include "cli/commands.hpp"
 #include "cylzone/check/part_check.hpp"
+#include "cylzone/forecast/probing_advice.hpp"
 #include "cylzone/io/atomic_write.hpp"
 #include "cylzone/plan/plan.hpp"
 #include "cylzone/report/report.hpp"
@@ -39,6 +41,9 @@ struct CheckArguments {
   // settings and every feature's own; empty: as the plan says.
   std::string neighbour_filter;
   std::string residual_rejection;
+  /// The CMM's probing sigma (plan unit): predict each bore's uncertainty for the pattern
+  /// probed (forecast/probing_advice.hpp). Empty: no prediction.
+  std::optional<double> probing_sigma;
 };
 
 /// "on" / "off" of an outlier-stage option, or empty when the option was not given.
@@ -93,8 +98,17 @@ int run_check(const CheckArguments& args) {
   const PartIdentity given = part_identity(args);  // argument errors before any file is read
   const std::optional<bool> neighbour = switch_value(args.neighbour_filter, "--neighbour-filter");
   const std::optional<bool> residual = switch_value(args.residual_rejection, "--residual-rejection");
+  if (args.probing_sigma && !(*args.probing_sigma > 0.0 && std::isfinite(*args.probing_sigma)))
+    throw std::invalid_argument("--probing-sigma: must be a finite number greater than zero");
   PartPlan plan = read_plan(args.plan);
   override_outlier_stages(plan, neighbour, residual);
+  std::optional<double> probing_sigma;  // mm
+  if (args.probing_sigma) {
+    probing_sigma = *args.probing_sigma * millimetres_per(plan.unit);
+    if (*probing_sigma > 0.5)
+      throw std::invalid_argument("--probing-sigma: more than 0.5 mm is implausible; it is in "
+                                  "the plan's length unit");
+  }
   // The command line overrides the plan's [part] table field by field.
   model_options.part = merged_identity(plan.part, given);
   if (model_options.part.timestamp.empty()) model_options.part.timestamp = utc_now();
@@ -117,7 +131,16 @@ int run_check(const CheckArguments& args) {
   options.sensitivity = !args.no_sensitivity;
   options.evaluation.threads = args.threads;
   const PartCheckResult result = check_part(plan, options);
-  const ReportModel model = make_report_model(result, model_options);
+  ReportModel model = make_report_model(result, model_options);
+  if (probing_sigma) {
+    // The prediction for the pattern each bore was probed with (docs/probing-advice.md).
+    ProbingAdviceOptions base;
+    base.threads = args.threads;
+    for (BoreSummary& summary : model.bores)
+      for (const BoreResult& bore : result.bores)
+        if (bore.id == summary.id)
+          summary.probing_prediction = predict_measured_bore(bore, *probing_sigma, base);
+  }
 
   std::vector<std::filesystem::path> inputs;
   for (const InputRecord& input : result.inputs) inputs.push_back(input.path);
@@ -177,6 +200,10 @@ void add_check_command(CLI::App& app, CommandResult& result) {
                     "on|off: remove points beyond 5 robust sigma of the least-squares residuals, "
                     "refitting until stable (overrides the plan's probe.residual_rejection)")
       ->check(CLI::IsMember({"on", "off"}));
+  check->add_option("--probing-sigma", args->probing_sigma,
+                    "predict each bore's position and perpendicularity uncertainty for the "
+                    "pattern probed, from the CMM's probing sigma per coordinate (plan length "
+                    "unit; docs/probing-advice.md)");
   check->add_option("--note", args->notes,
                     "KEY=VALUE free text, repeatable (operator, machine, order, ...); replaces "
                     "the plan's note of the same key")

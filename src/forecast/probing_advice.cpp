@@ -199,6 +199,7 @@ namespace {
 ProbingPrediction simulate(const ProbingAdviceOptions& o, const ProbingPattern& pattern) {
   ProbingPrediction out;
   out.pattern = pattern;
+  out.probing_sigma = o.probing_sigma;
   out.trials = o.trials;
   const double radius = o.diameter / 2.0;
   const Eigen::Matrix3Xd ideal = ideal_points(pattern, radius);
@@ -336,6 +337,58 @@ ProbingSearch search_probing_pattern(const ProbingAdviceOptions& options) {
     last = std::move(prediction);
   }
   return search;
+}
+
+std::optional<ProbingAdviceOptions> measured_bore_probing(const BoreResult& bore,
+                                                          double probing_sigma,
+                                                          const ProbingAdviceOptions& base) {
+  if (!bore.evaluated() || !bore.position || !bore.sampling) return std::nullopt;
+  const SamplingCoverage& s = *bore.sampling;
+  if (s.sections.size() < 2) return std::nullopt;
+  ProbingAdviceOptions o = base;
+  o.diameter = bore.least_squares.diameter();
+  o.range_top = bore.position->range_top;
+  o.range_bottom = bore.position->range_bottom;
+  o.position_tolerance = bore.position->spec.tolerance;
+  o.perpendicularity_tolerance.reset();
+  if (bore.perpendicularity) o.perpendicularity_tolerance = bore.perpendicularity->spec.tolerance;
+  o.axis_method = bore.axis_method == BoreAxisMethod::mating_envelope
+                      ? BoreAxisMethod::mating_envelope
+                      : BoreAxisMethod::least_squares;
+  o.probing_sigma = probing_sigma;
+  // The evaluation reports its sections at the zone's heights (its height axis is the nominal
+  // direction from the true position on A: bore_evaluation.cpp, sampling_coverage.hpp).
+  ProbingPattern p;
+  std::vector<std::size_t> counts;
+  for (const SectionSampling& section : s.sections) {
+    p.section_heights.push_back(section.height);
+    counts.push_back(section.points);
+  }
+  std::sort(counts.begin(), counts.end());
+  p.points_per_section = std::max<std::size_t>(3, counts[counts.size() / 2]);
+  const double step = 360.0 / static_cast<double>(p.points_per_section);
+  const double gap = 360.0 - s.worst_section_coverage_deg;
+  p.arc_deg = gap <= 1.5 * step ? 360.0 : std::max(1.0, s.worst_section_coverage_deg);
+  p.arc_centre_deg = 0.0;
+  o.pattern = std::move(p);
+  return o;
+}
+
+std::optional<ProbingPrediction> predict_measured_bore(const BoreResult& bore,
+                                                       double probing_sigma,
+                                                       const ProbingAdviceOptions& base) {
+  const std::optional<ProbingAdviceOptions> options = measured_bore_probing(bore, probing_sigma, base);
+  if (!options) return std::nullopt;
+  try {
+    return predict_probing(*options);
+  } catch (const InputError& e) {
+    ProbingPrediction p;
+    p.pattern = options->pattern;
+    p.probing_sigma = probing_sigma;
+    p.status = PredictionStatus::undetermined;
+    p.message = "the probed pattern cannot be simulated: " + e.key() + ": " + e.problem();
+    return p;
+  }
 }
 
 ProbingAdvice advise_probing(const ProbingAdviceOptions& options, bool search) {

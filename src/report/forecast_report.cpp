@@ -4,6 +4,7 @@
 #include "cylzone/report/forecast_report.hpp"
 #include "cylzone/report/probing_report.hpp"
 
+#include <algorithm>
 #include <cmath>
 #include <cstdio>
 #include <sstream>
@@ -274,6 +275,51 @@ std::string format_probing_table(const ProbingAdviceOptions& o, const ProbingAdv
     out << '\n';
   }
   put_caution(out);
+  return out.str();
+}
+
+std::string format_probing_predictions(const ReportModel& m, bool unicode) {
+  if (std::none_of(m.bores.begin(), m.bores.end(),
+                   [](const BoreSummary& b) { return b.probing_prediction.has_value(); }))
+    return {};
+  const ReportUnits& u = m.units;
+  const std::string deg = unicode ? "°" : " deg";
+  double sigma = 0.0;
+  for (const BoreSummary& b : m.bores)
+    if (b.probing_prediction) sigma = b.probing_prediction->probing_sigma;
+  std::ostringstream out;
+  out << "\nProbing prediction for the pattern probed (probing sigma " << u.text(sigma)
+      << " per coordinate; U: expanded uncertainty\nof a perfect bore's figure, "
+         "docs/probing-advice.md; % of the stated tolerance)\n";
+  out << padded("bore", 6) << right("pattern", 10) << right("arc", 10) << right("u top", 9)
+      << right("u bottom", 9) << right("position", 10) << right("U", 9) << right("%", 8)
+      << right("perp.", 10) << right("U", 9) << right("%", 8) << '\n';
+  for (const BoreSummary& b : m.bores) {
+    if (!b.probing_prediction) continue;
+    const ProbingPrediction& p = *b.probing_prediction;
+    out << padded(b.id, 6)
+        << right(std::to_string(p.pattern.section_heights.size()) + " x " +
+                     std::to_string(p.pattern.points_per_section),
+                 10)
+        << right(ReportUnits::fixed(p.pattern.arc_deg, 0) + deg, 10);
+    if (p.status == PredictionStatus::undetermined) {
+      out << "  " << p.message << '\n';
+      continue;
+    }
+    const auto measured = [&](const std::string& id) {
+      const Characteristic* c = m.find(b.id + id);
+      return c && c->not_evaluated.empty() ? u.text(c->value) : std::string("-");
+    };
+    out << right(u.text(std::max(p.top.u_x, p.top.u_y)), 9)
+        << right(u.text(std::max(p.bottom.u_x, p.bottom.u_y)), 9)
+        << right(measured("/position"), 10) << right(u.text(p.position.expanded), 9)
+        << right(ReportUnits::fixed(100.0 * p.position.share, 1), 8);
+    if (p.perpendicularity_uncertainty)
+      out << right(measured("/perpendicularity"), 10)
+          << right(u.text(p.perpendicularity_uncertainty->expanded), 9)
+          << right(ReportUnits::fixed(100.0 * p.perpendicularity_uncertainty->share, 1), 8);
+    out << '\n';
+  }
   return out.str();
 }
 

@@ -205,6 +205,52 @@ json sampling_json(const SamplingCoverage& s, const ReportUnits& u) {
           {"warnings", s.warnings}};
 }
 
+/// A probing prediction (`cylzone advise`, `check --probing-sigma`).
+json probing_prediction_json(const ProbingPrediction& p, const ReportUnits& u) {
+  json heights = json::array();
+  for (double h : p.pattern.section_heights) heights.push_back(u.length(h));
+  json j;
+  j["pattern"] = {{"section_heights", heights},
+                  {"points_per_section", p.pattern.points_per_section},
+                  {"arc_deg", p.pattern.arc_deg},
+                  {"arc_centre_deg", p.pattern.arc_centre_deg},
+                  {"total_points", p.pattern.total_points()}};
+  j["probing_sigma"] = u.length(p.probing_sigma);
+  j["status"] = p.status == PredictionStatus::predicted ? "predicted" : "undetermined";
+  j["message"] = text_or_null(p.message);
+  if (p.status == PredictionStatus::undetermined) return j;
+  const auto figure = [&](const SimulatedFigure& f) {
+    return json{{"mean", u.length(f.mean)},
+                {"standard_deviation", u.length(f.standard_deviation)},
+                {"quantile95", u.length(f.quantile95)}};
+  };
+  const auto end = [&](const EndPrediction& e) {
+    return json{{"height", u.length(e.height)},
+                {"u_x", u.length(e.u_x)},
+                {"u_y", u.length(e.u_y)},
+                {"position", figure(e.position)}};
+  };
+  const auto decision = [&](const FigureUncertainty& f) {
+    return json{{"tolerance", u.length(f.tolerance)},
+                {"expanded", u.length(f.expanded)},
+                {"share", f.share},
+                {"meets_target", f.meets_target}};
+  };
+  j["trials"] = p.trials;
+  j["magnification"] = p.magnification ? json(*p.magnification) : json(nullptr);
+  j["u_tilt_urad"] = p.u_tilt * 1e6;
+  j["top"] = end(p.top);
+  j["bottom"] = end(p.bottom);
+  j["full_depth"] = figure(p.full_depth);
+  j["perpendicularity"] = figure(p.perpendicularity);
+  j["position_uncertainty"] = decision(p.position);
+  j["perpendicularity_uncertainty"] = p.perpendicularity_uncertainty
+                                          ? decision(*p.perpendicularity_uncertainty)
+                                          : json(nullptr);
+  j["meets_target"] = p.meets_target;
+  return j;
+}
+
 json bore_json(const BoreResult& b, const BoreSummary& s, const BoreSensitivity* sens,
                const ReportModel& m) {
   const ReportUnits& u = m.units;
@@ -316,6 +362,8 @@ json bore_json(const BoreResult& b, const BoreSummary& s, const BoreSensitivity*
   j["depth_profile"] = depth_json(s.depth, u);
   j["stray_points"] = stray_json(b.stray_points, m, "bore " + b.id);
   j["sampling"] = s.sampling ? sampling_json(*s.sampling, u) : json(nullptr);
+  // Only with `check --probing-sigma`: without it the report is as before.
+  if (s.probing_prediction) j["probing_prediction"] = probing_prediction_json(*s.probing_prediction, u);
   j["warnings"] = s.warnings;
   return j;
 }
@@ -1086,49 +1134,6 @@ std::string format_forecast_json(const CapabilityOptions& o, const CapabilityFor
 
 namespace {
 
-json probing_prediction_json(const ProbingPrediction& p, const ReportUnits& u) {
-  json heights = json::array();
-  for (double h : p.pattern.section_heights) heights.push_back(u.length(h));
-  json j;
-  j["pattern"] = {{"section_heights", heights},
-                  {"points_per_section", p.pattern.points_per_section},
-                  {"arc_deg", p.pattern.arc_deg},
-                  {"arc_centre_deg", p.pattern.arc_centre_deg},
-                  {"total_points", p.pattern.total_points()}};
-  j["status"] = p.status == PredictionStatus::predicted ? "predicted" : "undetermined";
-  j["message"] = text_or_null(p.message);
-  if (p.status == PredictionStatus::undetermined) return j;
-  const auto figure = [&](const SimulatedFigure& f) {
-    return json{{"mean", u.length(f.mean)},
-                {"standard_deviation", u.length(f.standard_deviation)},
-                {"quantile95", u.length(f.quantile95)}};
-  };
-  const auto end = [&](const EndPrediction& e) {
-    return json{{"height", u.length(e.height)},
-                {"u_x", u.length(e.u_x)},
-                {"u_y", u.length(e.u_y)},
-                {"position", figure(e.position)}};
-  };
-  const auto decision = [&](const FigureUncertainty& f) {
-    return json{{"tolerance", u.length(f.tolerance)},
-                {"expanded", u.length(f.expanded)},
-                {"share", f.share},
-                {"meets_target", f.meets_target}};
-  };
-  j["trials"] = p.trials;
-  j["magnification"] = p.magnification ? json(*p.magnification) : json(nullptr);
-  j["u_tilt_urad"] = p.u_tilt * 1e6;
-  j["top"] = end(p.top);
-  j["bottom"] = end(p.bottom);
-  j["full_depth"] = figure(p.full_depth);
-  j["perpendicularity"] = figure(p.perpendicularity);
-  j["position_uncertainty"] = decision(p.position);
-  j["perpendicularity_uncertainty"] = p.perpendicularity_uncertainty
-                                          ? decision(*p.perpendicularity_uncertainty)
-                                          : json(nullptr);
-  j["meets_target"] = p.meets_target;
-  return j;
-}
 
 }  // namespace
 

@@ -165,6 +165,39 @@ with tempfile.TemporaryDirectory() as tmp:
     expect_error("json into a missing folder", BASE + ["--json", os.path.join(tmp, "no", "f.json")], "f.json")
     check("no temporary files", sorted(os.listdir(tmp)) == ["advice.json"], os.listdir(tmp))
 
+# --- check --probing-sigma: the prediction for the pattern each demo bore was probed with, beside
+# the measured figures; off by default (the report is then as before).
+ROOT = os.path.dirname(os.path.dirname(os.path.dirname(os.path.abspath(__file__))))
+PLAN = os.path.join(ROOT, "point-clouds", "valve-manifold", "plan.toml")
+code, out, err = run(["check", PLAN, "--json", "-", "--quiet", "--no-sensitivity"])
+plain = parsed("check plain", out)
+if plain:
+    check("check: no prediction by default", all("probing_prediction" not in b for b in plain["bores"]))
+code, out, err = run(["check", PLAN, "--json", "-", "--no-sensitivity", "--probing-sigma", "0.001",
+                      "--threads", "2"])
+check("check --probing-sigma: exit code as without", code == 1, f"{code} {err[-300:]}")
+j = parsed("check --probing-sigma", out)
+if j:
+    for b in j["bores"]:
+        p = b.get("probing_prediction")
+        if p is None:
+            failures.append(f"check --probing-sigma: {b['id']} has no prediction")
+            continue
+        s = b["sampling"]
+        check(f"{b['id']}: sections as sampled", len(p["pattern"]["section_heights"]) == len(s["sections"]),
+              (p["pattern"], len(s["sections"])))
+        check(f"{b['id']}: points as sampled", p["pattern"]["points_per_section"] == s["section_points_median"],
+              (p["pattern"], s["section_points_median"]))
+        check(f"{b['id']}: heights as sampled",
+              all(abs(h - sec["z"]) < 1e-9 for h, sec in zip(p["pattern"]["section_heights"], s["sections"])),
+              p["pattern"])
+        check(f"{b['id']}: predicted", p["status"] == "predicted" and p["probing_sigma"] == 0.001, p["status"])
+        check(f"{b['id']}: tolerance", abs(p["position_uncertainty"]["tolerance"] - b["position"]["tolerance"]) < 1e-12)
+check("check --probing-sigma: table section", "Probing prediction for the pattern probed" in err
+      and CAUTION in err, err[-800:])
+expect_error("check --probing-sigma zero", ["check", PLAN, "--probing-sigma", "0"], "--probing-sigma")
+expect_error("check --probing-sigma in um", ["check", PLAN, "--probing-sigma", "1"], "--probing-sigma")
+
 if failures:
     print("\n".join(failures))
     sys.exit(1)

@@ -74,6 +74,7 @@
 #include <vector>
 
 #include "cylzone/core/threads.hpp"
+#include "cylzone/evaluate/bore_evaluation.hpp"
 #include "cylzone/plan/plan.hpp"
 
 namespace cylzone {
@@ -145,6 +146,7 @@ struct ProbingPrediction {
   ProbingPattern pattern;
   PredictionStatus status = PredictionStatus::predicted;
   std::string message;  ///< why undetermined; empty otherwise
+  double probing_sigma = 0.0;  ///< mm, as given
   std::size_t trials = 0;
   EndPrediction top;
   EndPrediction bottom;
@@ -189,5 +191,27 @@ ProbingAdvice advise_probing(const ProbingAdviceOptions& options, bool search);
 
 /// `k` heights evenly spread over [bottom, top], top first; k >= 2.
 std::vector<double> evenly_spread_sections(double top, double bottom, std::size_t k);
+
+/// The prediction's options for a measured bore (`check --probing-sigma`): the pattern actually
+/// probed, as the bore's sampling record found it (sampling_coverage.hpp): the sections'
+/// heights (the evaluation reports them along the zone's nominal direction from A), the median
+/// points per section, and the arc: the full circle when the worst section's largest gap is at most 1.5
+/// times the even step 360 / n, else that section's coverage, centred on the bore's zone u
+/// axis (the figures do not depend on where a full arc starts; a partial arc's direction is
+/// not recorded and is taken as u). The diameter is the least-squares cylinder's, the range
+/// and tolerances the position's (and the perpendicularity's tolerance when it has one); a
+/// derived median line is predicted as the least-squares axis (the line through the sections'
+/// least-squares centres, the same to first order for full sections). Empty when the bore was
+/// not evaluated, has no position tolerance or no sampling record, or fewer than 2 sections.
+std::optional<ProbingAdviceOptions> measured_bore_probing(const BoreResult& bore,
+                                                          double probing_sigma,
+                                                          const ProbingAdviceOptions& base = {});
+
+/// The prediction for a measured bore's pattern (measured_bore_probing); empty where that is.
+/// A pattern the prediction refuses (e.g. sections far outside a projected zone's range) gives
+/// an undetermined prediction with the reason, not an exception.
+std::optional<ProbingPrediction> predict_measured_bore(const BoreResult& bore,
+                                                       double probing_sigma,
+                                                       const ProbingAdviceOptions& base = {});
 
 }  // namespace cylzone

@@ -10,6 +10,7 @@
 
 #include "cylzone/core/units.hpp"
 #include "cylzone/forecast/probing_advice.hpp"
+#include "cylzone/report/report_model.hpp"
 
 namespace cylzone {
 
@@ -23,6 +24,11 @@ struct ProbingTableOptions {
 
 std::string format_probing_table(const ProbingAdviceOptions& options, const ProbingAdvice& advice,
                                  const ProbingTableOptions& table = {});
+
+/// The `check` table's section for `check --probing-sigma`: per bore the pattern probed, the
+/// predicted expanded uncertainties beside the measured position and perpendicularity
+/// (ReportModel's BoreSummary::probing_prediction). Empty when no bore has a prediction.
+std::string format_probing_predictions(const ReportModel& model, bool unicode);
 
 /// One JSON object, indented by two, ending with a line break.
 std::string format_probing_json(const ProbingAdviceOptions& options, const ProbingAdvice& advice,
