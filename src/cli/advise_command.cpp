@@ -51,29 +51,15 @@ constexpr double most_depth_mm = 10000.0;
 constexpr double most_tolerance_mm = 5.0;
 constexpr double most_sigma_mm = 0.5;
 
-std::string number(double v) {
-  std::ostringstream s;
-  s << v;
-  return s.str();
-}
-
-double length_mm(double value, double mm_per_unit, const std::string& option, double most_mm) {
-  const double mm = value * mm_per_unit;
-  if (mm > most_mm)
-    throw std::invalid_argument(option + ": " + number(value) + " is implausible (more than " +
-                                number(most_mm / mm_per_unit) +
-                                "); check the unit (--units, lengths in mm by default)");
-  return mm;
-}
 
 double depth_mm(double value, double k, const std::string& option, double depth) {
   if (!(value >= 0.0))
     throw std::invalid_argument(option + ": depths are measured down from the mouth and may "
-                                         "not be negative, got " + number(value));
-  const double mm = length_mm(value, k, option, most_depth_mm);
+                                         "not be negative, got " + number_text(value));
+  const double mm = option_length_mm(value, k, option, most_depth_mm);
   if (mm > depth)
-    throw std::invalid_argument(option + ": " + number(value) + " lies below the bore's depth " +
-                                number(depth / k));
+    throw std::invalid_argument(option + ": " + number_text(value) + " lies below the bore's depth " +
+                                number_text(depth / k));
   return mm;
 }
 
@@ -82,8 +68,8 @@ ProbingAdviceOptions advice_options(const AdviseArguments& a) {
   if (!unit) throw std::invalid_argument("--units: expected mm or inch, got '" + a.units + "'");
   const double k = millimetres_per(*unit);
   ProbingAdviceOptions o;
-  o.diameter = length_mm(a.diameter, k, "--diameter", most_diameter_mm);
-  const double depth = length_mm(a.depth, k, "--depth", most_depth_mm);
+  o.diameter = option_length_mm(a.diameter, k, "--diameter", most_diameter_mm);
+  const double depth = option_length_mm(a.depth, k, "--depth", most_depth_mm);
   if (!(depth > 0.0)) throw std::invalid_argument("--depth: must be greater than zero");
   o.range_top = 0.0;
   o.range_bottom = -depth;
@@ -98,16 +84,16 @@ ProbingAdviceOptions advice_options(const AdviseArguments& a) {
                                   "second (bottom)");
   }
   o.position_tolerance =
-      length_mm(a.position_tolerance, k, "--position-tolerance", most_tolerance_mm);
+      option_length_mm(a.position_tolerance, k, "--position-tolerance", most_tolerance_mm);
   if (a.perpendicularity_tolerance)
-    o.perpendicularity_tolerance = length_mm(*a.perpendicularity_tolerance, k,
+    o.perpendicularity_tolerance = option_length_mm(*a.perpendicularity_tolerance, k,
                                              "--perpendicularity-tolerance", most_tolerance_mm);
   const auto method = parse_axis_method(a.axis);
   if (!method || *method == BoreAxisMethod::median_line)
     throw std::invalid_argument("--axis: expected least-squares or mating-envelope, got '" +
                                 a.axis + "'");
   o.axis_method = *method;
-  o.probing_sigma = length_mm(a.sigma, k, "--sigma", most_sigma_mm);
+  o.probing_sigma = option_length_mm(a.sigma, k, "--sigma", most_sigma_mm);
   if (!a.sections.empty() && a.section_count != 0)
     throw std::invalid_argument("--sections and --section-count: give one of them");
   if (!a.sections.empty()) {
@@ -128,7 +114,7 @@ ProbingAdviceOptions advice_options(const AdviseArguments& a) {
   o.seed = a.seed;
   o.threads = a.threads;
   if (!(a.target > 0.0 && a.target <= 100.0))
-    throw std::invalid_argument("--target: must lie in (0, 100] percent, got " + number(a.target));
+    throw std::invalid_argument("--target: must lie in (0, 100] percent, got " + number_text(a.target));
   o.target_share = a.target / 100.0;
   return o;
 }

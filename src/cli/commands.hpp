@@ -28,6 +28,15 @@ inline constexpr std::string_view exit_code_help =
 /// longer text is cut and ends in "...". Error messages may quote file contents or arguments.
 std::string one_line(std::string_view text, std::size_t limit = 400);
 
+/// `value` as the shortest text `std::ostream` gives ("0.008", "1e+06"), for messages.
+std::string number_text(double value);
+
+/// A length option given in a unit of `mm_per_unit` mm, in mm. A value beyond `most_mm` is
+/// refused (std::invalid_argument naming `option`) as a unit or typing mistake; signs and
+/// finiteness are the library's checks.
+double option_length_mm(double value, double mm_per_unit, const std::string& option,
+                        double most_mm);
+
 /// The run's time in UTC, ISO 8601 ("2026-12-02T17:40:00Z").
 std::string utc_now();
 

@@ -54,27 +54,11 @@ constexpr double most_depth_mm = 10000.0;
 constexpr double most_tolerance_mm = 5.0;
 constexpr double most_tilt_um_per_m = 10000.0;  // 10 mm/m, 0.57 degrees
 
-std::string number(double v) {
-  std::ostringstream s;
-  s << v;
-  return s.str();
-}
-
-/// A length option in the given unit, in mm. Values beyond `most_mm` are refused as unit
-/// mistakes here; signs and finiteness are the library's checks (validate_capability_options).
-double length_mm(double value, double mm_per_unit, const std::string& option, double most_mm) {
-  const double mm = value * mm_per_unit;
-  if (mm > most_mm)
-    throw std::invalid_argument(option + ": " + number(value) + " is implausible (more than " +
-                                number(most_mm / mm_per_unit) +
-                                "); check the unit (--units, lengths in mm by default)");
-  return mm;
-}
 
 /// A tilt in µm/m as a slope.
 double slope(double um_per_m, const std::string& option) {
   if (um_per_m > most_tilt_um_per_m)
-    throw std::invalid_argument(option + ": " + number(um_per_m) +
+    throw std::invalid_argument(option + ": " + number_text(um_per_m) +
                                 " um/m is implausible (more than 10000 um/m = 0.57 degrees)");
   return um_per_m * 1e-6;
 }
@@ -83,7 +67,7 @@ double slope(double um_per_m, const std::string& option) {
 double share(double percent, const std::string& option) {
   if (!(percent > 0.0 && percent < 100.0))
     throw std::invalid_argument(option + ": must lie between 0 and 100 percent, got " +
-                                number(percent));
+                                number_text(percent));
   return percent / 100.0;
 }
 
@@ -99,10 +83,10 @@ ParsedOptions capability_options(const ForecastArguments& a) {
   const double k = millimetres_per(*unit);
   ParsedOptions parsed;
   CapabilityOptions& o = parsed.options;
-  o.x.accuracy = length_mm(a.x_accuracy, k, "--x-accuracy", most_positioning_mm);
-  o.x.repeatability = length_mm(a.x_repeatability, k, "--x-repeatability", most_positioning_mm);
-  o.y.accuracy = length_mm(a.y_accuracy, k, "--y-accuracy", most_positioning_mm);
-  o.y.repeatability = length_mm(a.y_repeatability, k, "--y-repeatability", most_positioning_mm);
+  o.x.accuracy = option_length_mm(a.x_accuracy, k, "--x-accuracy", most_positioning_mm);
+  o.x.repeatability = option_length_mm(a.x_repeatability, k, "--x-repeatability", most_positioning_mm);
+  o.y.accuracy = option_length_mm(a.y_accuracy, k, "--y-accuracy", most_positioning_mm);
+  o.y.repeatability = option_length_mm(a.y_repeatability, k, "--y-repeatability", most_positioning_mm);
   const auto add_tilt = [&](TiltSource t, const char* option) {
     o.tilts.push_back(std::move(t));
     parsed.tilt_options.emplace_back(option);
@@ -119,11 +103,11 @@ ParsedOptions capability_options(const ForecastArguments& a) {
     add_tilt({"random tilt " + std::to_string(i + 1), 0.0,
               slope(a.tilt_random[i], "--tilt-random")},
              "--tilt-random");
-  o.depth = length_mm(a.depth, k, "--depth", most_depth_mm);
+  o.depth = option_length_mm(a.depth, k, "--depth", most_depth_mm);
   o.position_tolerance =
-      length_mm(a.position_tolerance, k, "--position-tolerance", most_tolerance_mm);
+      option_length_mm(a.position_tolerance, k, "--position-tolerance", most_tolerance_mm);
   if (a.perpendicularity_tolerance)
-    o.perpendicularity_tolerance = length_mm(*a.perpendicularity_tolerance, k,
+    o.perpendicularity_tolerance = option_length_mm(*a.perpendicularity_tolerance, k,
                                              "--perpendicularity-tolerance", most_tolerance_mm);
   if (a.systematic != "worst" && a.systematic != "none")
     throw std::invalid_argument("--systematic: expected worst or none, got '" + a.systematic +
