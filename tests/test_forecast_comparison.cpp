@@ -51,7 +51,8 @@ struct DrawnBore {
 DrawnBore draw(const CapabilityForecast& f, double depth, std::mt19937_64& engine, double scale) {
   std::normal_distribution<double> n(0.0, 1.0);
   DrawnBore b;
-  b.top = scale * Eigen::Vector2d(f.bias_x + f.sigma_x * n(engine), f.bias_y + f.sigma_y * n(engine));
+  b.top =
+      scale * Eigen::Vector2d(f.bias_x + f.sigma_x * n(engine), f.bias_y + f.sigma_y * n(engine));
   // Systematic tilt along +X without a bias (machine_capability.hpp, item 4).
   b.bottom = b.top + scale * depth * Eigen::Vector2d(f.tilt_systematic, 0.0);
   return b;
@@ -105,7 +106,8 @@ std::vector<ObservedBore> measured(const CapabilityOptions& o, std::size_t parts
     REQUIRE(bores.size() == per_part);
     for (std::size_t i = 0; i < per_part; ++i) {
       // What was written is what is read: the deciding position and the mouth's deviation.
-      CHECK(bores[i].position == Approx(2.0 * std::max(drawn[i].top.norm(), drawn[i].bottom.norm())).margin(1e-12));
+      CHECK(bores[i].position ==
+            Approx(2.0 * std::max(drawn[i].top.norm(), drawn[i].bottom.norm())).margin(1e-12));
       REQUIRE(bores[i].mouth);
       CHECK((*bores[i].mouth - drawn[i].top).norm() < 1e-12);
       CHECK(*bores[i].range_length == Approx(60.0));
@@ -180,7 +182,9 @@ TEST_CASE("forecast moments of the full-depth diameter: against a simulation of 
   CHECK(m.quantile95 == Approx(d[static_cast<std::size_t>(0.95 * n)]).epsilon(0.01));
 }
 
-TEST_CASE("measured parts drawn from the model agree with the forecast and worse or better ones are found") {
+TEST_CASE(
+    "measured parts drawn from the model agree with the forecast and worse or better ones are "
+    "found") {
   const CapabilityOptions o = worked_example();
   const CapabilityForecast f = forecast_capability(o);
 
@@ -226,8 +230,8 @@ TEST_CASE("only the bores named are compared") {
   const CapabilityOptions o = worked_example();
   const CapabilityForecast f = forecast_capability(o);
   std::mt19937_64 engine(5);
-  const PartCheckResult r = part_with({draw(f, 60.0, engine, 1.0), draw(f, 60.0, engine, 1.0)},
-                                      o.position_tolerance);
+  const PartCheckResult r =
+      part_with({draw(f, 60.0, engine, 1.0), draw(f, 60.0, engine, 1.0)}, o.position_tolerance);
   const ReportModel back = read_report_json(format_json(make_report_model(r)), "p.json");
   std::size_t skipped = 0;
   const auto only = observed_bores(back, "p.json", {"H2"}, skipped);

@@ -87,13 +87,15 @@ TEST_CASE("the positional diameter of a perfect bore follows the Rayleigh law") 
   // Rayleigh with scale u (per-axis standard uncertainty): mean u sqrt(pi/2), 95 % quantile
   // u sqrt(-2 ln 0.05); the positional diameter is twice the radius (from memory, see above).
   const double pi = 3.14159265358979323846;
-  for (const auto& [end, z] : {std::pair{&p.top, o.range_top}, std::pair{&p.bottom, o.range_bottom}}) {
+  for (const auto& [end, z] :
+       {std::pair{&p.top, o.range_top}, std::pair{&p.bottom, o.range_bottom}}) {
     const double u = linear_u(o.probing_sigma, 8, z1, z2, z);
     INFO("height " << z << ", u " << u);
     // Mean of N Rayleigh samples: relative error sqrt((4 - pi) / pi) / sqrt(N) = 0.8 % at
     // N = 4000; the 95 % quantile's about 1.2 % (common practice); 4 % and 5 % allowed.
     CHECK(end->position.mean == Approx(2.0 * u * std::sqrt(pi / 2.0)).epsilon(0.04));
-    CHECK(end->position.quantile95 == Approx(2.0 * u * std::sqrt(-2.0 * std::log(0.05))).epsilon(0.05));
+    CHECK(end->position.quantile95 ==
+          Approx(2.0 * u * std::sqrt(-2.0 * std::log(0.05))).epsilon(0.05));
     CHECK(2.0 * std::sqrt(-2.0 * std::log(0.05)) == Approx(4.895).margin(5e-4));
   }
   // Perpendicularity of a perfect bore: L |tilt|, Rayleigh with scale L u(tilt).
@@ -104,11 +106,12 @@ TEST_CASE("the positional diameter of a perfect bore follows the Rayleigh law") 
         Approx(length * u_slope * std::sqrt(-2.0 * std::log(0.05))).epsilon(0.05));
   // Over the full depth the worse end decides: never below either end's figure, trial by trial,
   // so neither is its quantile.
-  CHECK(p.full_depth.quantile95 >= std::max(p.top.position.quantile95, p.bottom.position.quantile95));
+  CHECK(p.full_depth.quantile95 >=
+        std::max(p.top.position.quantile95, p.bottom.position.quantile95));
   // The expanded uncertainty is the larger of the quantile and 4 u at the worse end.
-  CHECK(p.position.expanded == Approx(std::max(p.full_depth.quantile95,
-                                               4.0 * std::max({p.top.u_x, p.top.u_y,
-                                                               p.bottom.u_x, p.bottom.u_y}))));
+  CHECK(p.position.expanded ==
+        Approx(std::max(p.full_depth.quantile95,
+                        4.0 * std::max({p.top.u_x, p.top.u_y, p.bottom.u_x, p.bottom.u_y}))));
   CHECK(p.position.share == Approx(p.position.expanded / o.position_tolerance));
 }
 
@@ -262,8 +265,9 @@ BoreResult probed_bore(const std::vector<double>& levels, std::size_t n, double 
   for (double z : levels)
     for (std::size_t i = 0; i < n; ++i) {
       const double a = arc_deg >= 360.0 ? 2.0 * pi * i / n + 0.3
-                                         : (arc_deg * i / (n - 1) - arc_deg / 2.0) * pi / 180.0;
-      points.col(k++) = Eigen::Vector3d(40.0, 25.0, 0.0) + z * w + 6.0 * (std::cos(a) * u + std::sin(a) * v);
+                                        : (arc_deg * i / (n - 1) - arc_deg / 2.0) * pi / 180.0;
+      points.col(k++) =
+          Eigen::Vector3d(40.0, 25.0, 0.0) + z * w + 6.0 * (std::cos(a) * u + std::sin(a) * v);
     }
   return evaluate_bore(plan, points);
 }

@@ -51,15 +51,16 @@ constexpr double most_depth_mm = 10000.0;
 constexpr double most_tolerance_mm = 5.0;
 constexpr double most_sigma_mm = 0.5;
 
-
 double depth_mm(double value, double k, const std::string& option, double depth) {
   if (!(value >= 0.0))
-    throw std::invalid_argument(option + ": depths are measured down from the mouth and may "
-                                         "not be negative, got " + number_text(value));
+    throw std::invalid_argument(option +
+                                ": depths are measured down from the mouth and may "
+                                "not be negative, got " +
+                                number_text(value));
   const double mm = option_length_mm(value, k, option, most_depth_mm);
   if (mm > depth)
-    throw std::invalid_argument(option + ": " + number_text(value) + " lies below the bore's depth " +
-                                number_text(depth / k));
+    throw std::invalid_argument(option + ": " + number_text(value) +
+                                " lies below the bore's depth " + number_text(depth / k));
   return mm;
 }
 
@@ -80,14 +81,15 @@ ProbingAdviceOptions advice_options(const AdviseArguments& a) {
     o.usable_top = -depth_mm(a.usable[0], k, "--usable", depth);
     o.usable_bottom = -depth_mm(a.usable[1], k, "--usable", depth);
     if (!(*o.usable_top > *o.usable_bottom))
-      throw std::invalid_argument("--usable: the first depth (top) must be smaller than the "
-                                  "second (bottom)");
+      throw std::invalid_argument(
+          "--usable: the first depth (top) must be smaller than the "
+          "second (bottom)");
   }
   o.position_tolerance =
       option_length_mm(a.position_tolerance, k, "--position-tolerance", most_tolerance_mm);
   if (a.perpendicularity_tolerance)
-    o.perpendicularity_tolerance = option_length_mm(*a.perpendicularity_tolerance, k,
-                                             "--perpendicularity-tolerance", most_tolerance_mm);
+    o.perpendicularity_tolerance = option_length_mm(
+        *a.perpendicularity_tolerance, k, "--perpendicularity-tolerance", most_tolerance_mm);
   const auto method = parse_axis_method(a.axis);
   if (!method || *method == BoreAxisMethod::median_line)
     throw std::invalid_argument("--axis: expected least-squares or mating-envelope, got '" +
@@ -97,15 +99,15 @@ ProbingAdviceOptions advice_options(const AdviseArguments& a) {
   if (!a.sections.empty() && a.section_count != 0)
     throw std::invalid_argument("--sections and --section-count: give one of them");
   if (!a.sections.empty()) {
-    for (double s : a.sections) o.pattern.section_heights.push_back(-depth_mm(s, k, "--sections", depth));
+    for (double s : a.sections)
+      o.pattern.section_heights.push_back(-depth_mm(s, k, "--sections", depth));
   } else {
     const std::size_t count = a.section_count == 0 ? 2 : a.section_count;
     if (count < 2 || count > 1000)
       throw std::invalid_argument("--section-count: must lie between 2 and 1000, got " +
                                   std::to_string(count));
-    o.pattern.section_heights = evenly_spread_sections(o.usable_top.value_or(o.range_top),
-                                                       o.usable_bottom.value_or(o.range_bottom),
-                                                       count);
+    o.pattern.section_heights = evenly_spread_sections(
+        o.usable_top.value_or(o.range_top), o.usable_bottom.value_or(o.range_bottom), count);
   }
   o.pattern.points_per_section = a.points;
   o.pattern.arc_deg = a.arc;
@@ -114,7 +116,8 @@ ProbingAdviceOptions advice_options(const AdviseArguments& a) {
   o.seed = a.seed;
   o.threads = a.threads;
   if (!(a.target > 0.0 && a.target <= 100.0))
-    throw std::invalid_argument("--target: must lie in (0, 100] percent, got " + number_text(a.target));
+    throw std::invalid_argument("--target: must lie in (0, 100] percent, got " +
+                                number_text(a.target));
   o.target_share = a.target / 100.0;
   return o;
 }

@@ -106,8 +106,9 @@ int run_check(const CheckArguments& args) {
   if (args.probing_sigma) {
     probing_sigma = *args.probing_sigma * millimetres_per(plan.unit);
     if (*probing_sigma > 0.5)
-      throw std::invalid_argument("--probing-sigma: more than 0.5 mm is implausible; it is in "
-                                  "the plan's length unit");
+      throw std::invalid_argument(
+          "--probing-sigma: more than 0.5 mm is implausible; it is in "
+          "the plan's length unit");
   }
   // The command line overrides the plan's [part] table field by field.
   model_options.part = merged_identity(plan.part, given);

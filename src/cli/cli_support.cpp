@@ -22,8 +22,8 @@ double option_length_mm(double value, double mm_per_unit, const std::string& opt
                         double most_mm) {
   const double mm = value * mm_per_unit;
   if (mm > most_mm)
-    throw std::invalid_argument(option + ": " + number_text(value) +
-                                " is implausible (more than " + number_text(most_mm / mm_per_unit) +
+    throw std::invalid_argument(option + ": " + number_text(value) + " is implausible (more than " +
+                                number_text(most_mm / mm_per_unit) +
                                 "); check the unit (--units, lengths in mm by default)");
   return mm;
 }

@@ -17,12 +17,12 @@
 
 #include "cli/commands.hpp"
 #include "cylzone/core/errors.hpp"
-#include "cylzone/forecast/machine_capability.hpp"
 #include "cylzone/forecast/forecast_comparison.hpp"
+#include "cylzone/forecast/machine_capability.hpp"
 #include "cylzone/io/atomic_write.hpp"
 #include "cylzone/io/load.hpp"
-#include "cylzone/report/report_reader.hpp"
 #include "cylzone/report/forecast_report.hpp"
+#include "cylzone/report/report_reader.hpp"
 
 namespace cylzone::cli {
 namespace {
@@ -43,8 +43,8 @@ struct ForecastArguments {
   std::string units = "mm";
   std::string json;
   bool quiet = false;
-  std::vector<std::string> compare;       // JSON reports of measured parts
-  std::vector<std::string> compare_bores; // only these bores; empty: every bore
+  std::vector<std::string> compare;        // JSON reports of measured parts
+  std::vector<std::string> compare_bores;  // only these bores; empty: every bore
 };
 
 // Plausibility bounds, in mm and µm/m: values beyond them are typing or unit mistakes
@@ -53,7 +53,6 @@ constexpr double most_positioning_mm = 1.0;
 constexpr double most_depth_mm = 10000.0;
 constexpr double most_tolerance_mm = 5.0;
 constexpr double most_tilt_um_per_m = 10000.0;  // 10 mm/m, 0.57 degrees
-
 
 /// A tilt in µm/m as a slope.
 double slope(double um_per_m, const std::string& option) {
@@ -84,9 +83,11 @@ ParsedOptions capability_options(const ForecastArguments& a) {
   ParsedOptions parsed;
   CapabilityOptions& o = parsed.options;
   o.x.accuracy = option_length_mm(a.x_accuracy, k, "--x-accuracy", most_positioning_mm);
-  o.x.repeatability = option_length_mm(a.x_repeatability, k, "--x-repeatability", most_positioning_mm);
+  o.x.repeatability =
+      option_length_mm(a.x_repeatability, k, "--x-repeatability", most_positioning_mm);
   o.y.accuracy = option_length_mm(a.y_accuracy, k, "--y-accuracy", most_positioning_mm);
-  o.y.repeatability = option_length_mm(a.y_repeatability, k, "--y-repeatability", most_positioning_mm);
+  o.y.repeatability =
+      option_length_mm(a.y_repeatability, k, "--y-repeatability", most_positioning_mm);
   const auto add_tilt = [&](TiltSource t, const char* option) {
     o.tilts.push_back(std::move(t));
     parsed.tilt_options.emplace_back(option);
@@ -107,8 +108,8 @@ ParsedOptions capability_options(const ForecastArguments& a) {
   o.position_tolerance =
       option_length_mm(a.position_tolerance, k, "--position-tolerance", most_tolerance_mm);
   if (a.perpendicularity_tolerance)
-    o.perpendicularity_tolerance = option_length_mm(*a.perpendicularity_tolerance, k,
-                                             "--perpendicularity-tolerance", most_tolerance_mm);
+    o.perpendicularity_tolerance = option_length_mm(
+        *a.perpendicularity_tolerance, k, "--perpendicularity-tolerance", most_tolerance_mm);
   if (a.systematic != "worst" && a.systematic != "none")
     throw std::invalid_argument("--systematic: expected worst or none, got '" + a.systematic +
                                 "'");

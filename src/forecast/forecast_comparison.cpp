@@ -108,9 +108,12 @@ ForecastMoments full_depth_moments(const CapabilityOptions& options) {
 
 std::string_view machine_performance_name(MachinePerformance p) noexcept {
   switch (p) {
-    case MachinePerformance::as_forecast: return "as-forecast";
-    case MachinePerformance::better_than_forecast: return "better-than-forecast";
-    case MachinePerformance::worse_than_forecast: return "worse-than-forecast";
+    case MachinePerformance::as_forecast:
+      return "as-forecast";
+    case MachinePerformance::better_than_forecast:
+      return "better-than-forecast";
+    case MachinePerformance::worse_than_forecast:
+      return "worse-than-forecast";
   }
   return "as-forecast";
 }

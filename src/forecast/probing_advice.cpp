@@ -4,12 +4,11 @@
 // docs/probing-advice.md.
 #include "cylzone/forecast/probing_advice.hpp"
 
+#include <Eigen/Core>
 #include <algorithm>
 #include <cmath>
 #include <string>
 #include <utility>
-
-#include <Eigen/Core>
 
 #include "cylzone/core/errors.hpp"
 #include "cylzone/evaluate/axis_zone.hpp"
@@ -84,7 +83,8 @@ Eigen::Matrix3Xd ideal_points(const ProbingPattern& p, double radius) {
   Eigen::Matrix3Xd points(3, static_cast<Eigen::Index>(p.total_points()));
   Eigen::Index k = 0;
   for (double h : p.section_heights)
-    for (double a : angles) points.col(k++) = Eigen::Vector3d(radius * std::cos(a), radius * std::sin(a), h);
+    for (double a : angles)
+      points.col(k++) = Eigen::Vector3d(radius * std::cos(a), radius * std::sin(a), h);
   return points;
 }
 
@@ -188,8 +188,7 @@ void validate_probing_options(const ProbingAdviceOptions& o) {
   if (o.points_ladder.empty()) fail("points_ladder", "needs at least one entry");
   for (std::size_t n : o.points_ladder)
     if (n < 3 || n > 100000) fail("points_ladder", "every entry must lie in [3, 100000]");
-  if (o.max_sections < 2 || o.max_sections > 1000)
-    fail("max_sections", "must lie in [2, 1000]");
+  if (o.max_sections < 2 || o.max_sections > 1000) fail("max_sections", "must lie in [2, 1000]");
   validate_pattern(o.pattern, o);
 }
 
@@ -212,8 +211,8 @@ ProbingPrediction simulate(const ProbingAdviceOptions& o, const ProbingPattern& 
     nominal.direction = Eigen::Vector3d::UnitZ();
     SamplingOptions sampling;
     sampling.section_heights = pattern.section_heights;
-    out.magnification = sampling_coverage(ideal, nominal, o.range_top, o.range_bottom, sampling)
-                            .magnification;
+    out.magnification =
+        sampling_coverage(ideal, nominal, o.range_top, o.range_bottom, sampling).magnification;
   }
 
   FitOptions fit;
@@ -227,29 +226,30 @@ ProbingPrediction simulate(const ProbingAdviceOptions& o, const ProbingPattern& 
   constexpr std::size_t chunk = 32;  // fixed by the data, never by the thread count
   const std::size_t chunks = (o.trials + chunk - 1) / chunk;
   std::vector<std::string> failures(chunks);
-  detail::parallel_for(chunks, std::max<std::size_t>(1, o.threads), [&](std::size_t c, std::size_t) {
-    Eigen::Matrix3Xd points(3, ideal.cols());
-    for (std::size_t t = c * chunk; t < std::min(o.trials, (c + 1) * chunk); ++t) {
-      SplitMix64 rng(trial_seed(o.seed, t));
-      for (Eigen::Index j = 0; j < ideal.cols(); ++j)
-        for (int r = 0; r < 3; ++r) points(r, j) = ideal(r, j) + o.probing_sigma * rng.normal();
-      try {
-        const CylinderFit f = o.axis_method == BoreAxisMethod::mating_envelope
-                                  ? fit_cylinder_maximum_inscribed(points, fit)
-                                  : fit_cylinder_least_squares(points, fit);
-        const StraightAxis axis = StraightAxis::from_axis(f.axis, zone);
-        TrialResult& r = results[t];
-        r.top = axis.at(o.range_top).offset;
-        r.bottom = axis.at(o.range_bottom).offset;
-        r.slope = axis.slope;
-        r.full_depth = position_over_range(axis, o.range_top, o.range_bottom);
-        r.perpendicularity = perpendicularity_over_range(axis, o.range_top, o.range_bottom);
-      } catch (const FitError& e) {
-        failures[c] = "trial " + std::to_string(t + 1) + ": " + e.what();
-        return;
-      }
-    }
-  });
+  detail::parallel_for(
+      chunks, std::max<std::size_t>(1, o.threads), [&](std::size_t c, std::size_t) {
+        Eigen::Matrix3Xd points(3, ideal.cols());
+        for (std::size_t t = c * chunk; t < std::min(o.trials, (c + 1) * chunk); ++t) {
+          SplitMix64 rng(trial_seed(o.seed, t));
+          for (Eigen::Index j = 0; j < ideal.cols(); ++j)
+            for (int r = 0; r < 3; ++r) points(r, j) = ideal(r, j) + o.probing_sigma * rng.normal();
+          try {
+            const CylinderFit f = o.axis_method == BoreAxisMethod::mating_envelope
+                                      ? fit_cylinder_maximum_inscribed(points, fit)
+                                      : fit_cylinder_least_squares(points, fit);
+            const StraightAxis axis = StraightAxis::from_axis(f.axis, zone);
+            TrialResult& r = results[t];
+            r.top = axis.at(o.range_top).offset;
+            r.bottom = axis.at(o.range_bottom).offset;
+            r.slope = axis.slope;
+            r.full_depth = position_over_range(axis, o.range_top, o.range_bottom);
+            r.perpendicularity = perpendicularity_over_range(axis, o.range_top, o.range_bottom);
+          } catch (const FitError& e) {
+            failures[c] = "trial " + std::to_string(t + 1) + ": " + e.what();
+            return;
+          }
+        }
+      });
   for (const std::string& f : failures)
     if (!f.empty()) {
       out.status = PredictionStatus::undetermined;
@@ -274,23 +274,23 @@ ProbingPrediction simulate(const ProbingAdviceOptions& o, const ProbingPattern& 
   out.bottom = end(o.range_bottom, [](const TrialResult& r) { return r.bottom; });
   out.full_depth = figure(collect([](const TrialResult& r) { return r.full_depth; }));
   out.perpendicularity = figure(collect([](const TrialResult& r) { return r.perpendicularity; }));
-  const double u_sx = detail::sample_moments(collect([](const TrialResult& r) { return r.slope.x(); })).sd;
-  const double u_sy = detail::sample_moments(collect([](const TrialResult& r) { return r.slope.y(); })).sd;
+  const double u_sx =
+      detail::sample_moments(collect([](const TrialResult& r) { return r.slope.x(); })).sd;
+  const double u_sy =
+      detail::sample_moments(collect([](const TrialResult& r) { return r.slope.y(); })).sd;
   out.u_tilt = std::max(u_sx, u_sy);
 
   // Expanded uncertainties (header, "Figures"): the larger of the perfect bore's 95 % quantile
   // and k = 2 times the linear propagation for a bore far from true position.
   const double u_end = std::max({out.top.u_x, out.top.u_y, out.bottom.u_x, out.bottom.u_y});
-  out.position = uncertainty(o.position_tolerance,
-                             std::max(out.full_depth.quantile95, 2.0 * 2.0 * u_end),
-                             o.target_share);
+  out.position = uncertainty(
+      o.position_tolerance, std::max(out.full_depth.quantile95, 2.0 * 2.0 * u_end), o.target_share);
   out.meets_target = out.position.meets_target;
   if (o.perpendicularity_tolerance) {
     const double length = o.range_top - o.range_bottom;
-    out.perpendicularity_uncertainty =
-        uncertainty(*o.perpendicularity_tolerance,
-                    std::max(out.perpendicularity.quantile95, 2.0 * length * out.u_tilt),
-                    o.target_share);
+    out.perpendicularity_uncertainty = uncertainty(
+        *o.perpendicularity_tolerance,
+        std::max(out.perpendicularity.quantile95, 2.0 * length * out.u_tilt), o.target_share);
     out.meets_target = out.meets_target && out.perpendicularity_uncertainty->meets_target;
   }
   return out;
@@ -315,10 +315,12 @@ std::vector<ProbingPattern> probing_search_order(const ProbingAdviceOptions& o) 
       order.push_back(std::move(p));
     }
   // By total points, then fewer sections (more points where the tilt is best fixed).
-  std::stable_sort(order.begin(), order.end(), [](const ProbingPattern& a, const ProbingPattern& b) {
-    if (a.total_points() != b.total_points()) return a.total_points() < b.total_points();
-    return a.section_heights.size() < b.section_heights.size();
-  });
+  std::stable_sort(order.begin(), order.end(),
+                   [](const ProbingPattern& a, const ProbingPattern& b) {
+                     if (a.total_points() != b.total_points())
+                       return a.total_points() < b.total_points();
+                     return a.section_heights.size() < b.section_heights.size();
+                   });
   return order;
 }
 
@@ -374,10 +376,10 @@ std::optional<ProbingAdviceOptions> measured_bore_probing(const BoreResult& bore
   return o;
 }
 
-std::optional<ProbingPrediction> predict_measured_bore(const BoreResult& bore,
-                                                       double probing_sigma,
+std::optional<ProbingPrediction> predict_measured_bore(const BoreResult& bore, double probing_sigma,
                                                        const ProbingAdviceOptions& base) {
-  const std::optional<ProbingAdviceOptions> options = measured_bore_probing(bore, probing_sigma, base);
+  const std::optional<ProbingAdviceOptions> options =
+      measured_bore_probing(bore, probing_sigma, base);
   if (!options) return std::nullopt;
   try {
     return predict_probing(*options);

@@ -2,13 +2,13 @@
 // (`cylzone advise`). Their JSON twins are in report_json.cpp, with everything else that speaks
 // JSON.
 #include "cylzone/report/forecast_report.hpp"
-#include "cylzone/report/probing_report.hpp"
 
 #include <algorithm>
 #include <cmath>
 #include <cstdio>
 #include <sstream>
 
+#include "cylzone/report/probing_report.hpp"
 #include "cylzone/report/report_model.hpp"
 #include "cylzone/version.hpp"
 
@@ -182,7 +182,6 @@ std::string format_forecast_table(const CapabilityOptions& o, const CapabilityFo
   return out.str();
 }
 
-
 // ---------------------------------------------------------------- `cylzone advise`
 
 namespace {
@@ -192,8 +191,8 @@ std::string pattern_text(const ProbingPattern& p, const ReportUnits& u, const st
   for (std::size_t i = 0; i < p.section_heights.size(); ++i)
     heights += (i ? ", " : "") + u.text(p.section_heights[i]);
   std::string text = std::to_string(p.section_heights.size()) + " sections x " +
-                     std::to_string(p.points_per_section) + " points = " +
-                     std::to_string(p.total_points()) + ", arc " +
+                     std::to_string(p.points_per_section) +
+                     " points = " + std::to_string(p.total_points()) + ", arc " +
                      ReportUnits::fixed(p.arc_deg, 1) + deg;
   if (p.arc_deg < 360.0) text += " centred at " + ReportUnits::fixed(p.arc_centre_deg, 1) + deg;
   return text + "; at " + heights;
@@ -210,8 +209,8 @@ void put_prediction(std::ostream& out, const ProbingAdviceOptions& o, const Prob
   }
   out << "  tilt magnification "
       << (p.magnification ? ReportUnits::fixed(*p.magnification, 2) : std::string("-"))
-      << ", u(tilt) " << ReportUnits::fixed(p.u_tilt * 1e6, 2) << ' ' << urad
-      << " per direction, " << p.trials << " trials\n";
+      << ", u(tilt) " << ReportUnits::fixed(p.u_tilt * 1e6, 2) << ' ' << urad << " per direction, "
+      << p.trials << " trials\n";
   out << "  " << padded("", 26) << right("height", 10) << right("u(x)", 9) << right("u(y)", 9)
       << right("mean", 9) << right("sd", 9) << right("95 %", 9) << '\n';
   const auto end_row = [&](const char* name, const EndPrediction& e) {
@@ -229,10 +228,9 @@ void put_prediction(std::ostream& out, const ProbingAdviceOptions& o, const Prob
   figure_row("position over full depth", p.full_depth);
   figure_row("perpendicularity", p.perpendicularity);
   const auto decision = [&](const char* name, const FigureUncertainty& f) {
-    out << "  " << padded(name, 18) << "U = " << u.text(f.expanded) << " of "
-        << u.text(f.tolerance) << " = " << percent(f.share) << " of the tolerance (target <= "
-        << percent(o.target_share) << "): " << (f.meets_target ? "meets" : "DOES NOT MEET")
-        << '\n';
+    out << "  " << padded(name, 18) << "U = " << u.text(f.expanded) << " of " << u.text(f.tolerance)
+        << " = " << percent(f.share) << " of the tolerance (target <= " << percent(o.target_share)
+        << "): " << (f.meets_target ? "meets" : "DOES NOT MEET") << '\n';
   };
   decision("position", p.position);
   if (p.perpendicularity_uncertainty) decision("perpendicularity", *p.perpendicularity_uncertainty);
@@ -245,8 +243,8 @@ std::string format_probing_table(const ProbingAdviceOptions& o, const ProbingAdv
   const ReportUnits u(table.unit);
   std::ostringstream out;
   out << "cylzone " << version_string << " advise: probing a bore of diameter "
-      << u.text(o.diameter) << ", range " << u.text(o.range_top) << " .. "
-      << u.text(o.range_bottom) << " (values in " << u.name() << ")\n";
+      << u.text(o.diameter) << ", range " << u.text(o.range_top) << " .. " << u.text(o.range_bottom)
+      << " (values in " << u.name() << ")\n";
   out << "probing sigma " << u.text(o.probing_sigma) << " per coordinate (3-D), axis "
       << axis_method_name(o.axis_method) << ", seed " << o.seed << '\n'
       << "figures of a perfect bore at true position: mean, sd and 95 % quantile of the "
@@ -254,8 +252,8 @@ std::string format_probing_table(const ProbingAdviceOptions& o, const ProbingAdv
          "propagation\n\n";
   out << "Candidate\n";
   put_prediction(out, o, a.candidate, u, table);
-  out << "Candidate: " << (a.candidate.meets_target ? "meets the target" : "DOES NOT MEET the target")
-      << "\n\n";
+  out << "Candidate: "
+      << (a.candidate.meets_target ? "meets the target" : "DOES NOT MEET the target") << "\n\n";
   if (a.search) {
     const ProbingSearch& s = *a.search;
     out << "Smallest pattern meeting the target (sections over the usable depth "

@@ -244,9 +244,8 @@ json probing_prediction_json(const ProbingPrediction& p, const ReportUnits& u) {
   j["full_depth"] = figure(p.full_depth);
   j["perpendicularity"] = figure(p.perpendicularity);
   j["position_uncertainty"] = decision(p.position);
-  j["perpendicularity_uncertainty"] = p.perpendicularity_uncertainty
-                                          ? decision(*p.perpendicularity_uncertainty)
-                                          : json(nullptr);
+  j["perpendicularity_uncertainty"] =
+      p.perpendicularity_uncertainty ? decision(*p.perpendicularity_uncertainty) : json(nullptr);
   j["meets_target"] = p.meets_target;
   return j;
 }
@@ -363,7 +362,8 @@ json bore_json(const BoreResult& b, const BoreSummary& s, const BoreSensitivity*
   j["stray_points"] = stray_json(b.stray_points, m, "bore " + b.id);
   j["sampling"] = s.sampling ? sampling_json(*s.sampling, u) : json(nullptr);
   // Only with `check --probing-sigma`: without it the report is as before.
-  if (s.probing_prediction) j["probing_prediction"] = probing_prediction_json(*s.probing_prediction, u);
+  if (s.probing_prediction)
+    j["probing_prediction"] = probing_prediction_json(*s.probing_prediction, u);
   j["warnings"] = s.warnings;
   return j;
 }
@@ -1107,21 +1107,24 @@ std::string format_forecast_json(const CapabilityOptions& o, const CapabilityFor
         {"bores", c.bores},
         {"confidence", c.confidence},
         {"tolerance", u.length(c.tolerance)},
-        {"observed", {{"mean", u.length(c.observed_mean)},
-                      {"standard_deviation", u.length(c.observed_sd)},
-                      {"quantile95", u.length(c.observed_quantile95)}}},
-        {"forecast", {{"mean", u.length(c.forecast.mean)},
-                      {"standard_deviation", u.length(c.forecast.standard_deviation)},
-                      {"quantile95", u.length(c.forecast.quantile95)}}},
-        {"outside", {{"count", c.outside},
-                     {"share", static_cast<double>(c.outside) / static_cast<double>(c.bores)},
-                     {"interval", interval(c.outside_interval)},
-                     {"predicted_share", c.predicted_share}}},
-        {"above_forecast_quantile95", {{"count", c.above_quantile},
-                                       {"share", static_cast<double>(c.above_quantile) /
-                                                     static_cast<double>(c.bores)},
-                                       {"interval", interval(c.above_interval)},
-                                       {"expected_share", 0.05}}},
+        {"observed",
+         {{"mean", u.length(c.observed_mean)},
+          {"standard_deviation", u.length(c.observed_sd)},
+          {"quantile95", u.length(c.observed_quantile95)}}},
+        {"forecast",
+         {{"mean", u.length(c.forecast.mean)},
+          {"standard_deviation", u.length(c.forecast.standard_deviation)},
+          {"quantile95", u.length(c.forecast.quantile95)}}},
+        {"outside",
+         {{"count", c.outside},
+          {"share", static_cast<double>(c.outside) / static_cast<double>(c.bores)},
+          {"interval", interval(c.outside_interval)},
+          {"predicted_share", c.predicted_share}}},
+        {"above_forecast_quantile95",
+         {{"count", c.above_quantile},
+          {"share", static_cast<double>(c.above_quantile) / static_cast<double>(c.bores)},
+          {"interval", interval(c.above_interval)},
+          {"expected_share", 0.05}}},
         {"mouth", {{"bores", c.with_mouth}, {"x", mouth(c.x)}, {"y", mouth(c.y)}}},
         {"depth_mismatches", c.depth_mismatches},
         {"performance", std::string(machine_performance_name(c.performance))},
@@ -1132,11 +1135,6 @@ std::string format_forecast_json(const CapabilityOptions& o, const CapabilityFor
 
 // -------------------------------------------------------------- `cylzone advise` JSON
 
-namespace {
-
-
-}  // namespace
-
 std::string format_probing_json(const ProbingAdviceOptions& o, const ProbingAdvice& a,
                                 LengthUnit unit) {
   const ReportUnits u(unit);
@@ -1145,21 +1143,20 @@ std::string format_probing_json(const ProbingAdviceOptions& o, const ProbingAdvi
   j["tool"] = std::string("cylzone ") + version_string;
   j["caution"] = std::string(safety_caution);
   j["units"] = std::string(u.name());
-  j["inputs"] = {
-      {"diameter", u.length(o.diameter)},
-      {"range_top", u.length(o.range_top)},
-      {"range_bottom", u.length(o.range_bottom)},
-      {"usable_top", u.length(o.usable_top.value_or(o.range_top))},
-      {"usable_bottom", u.length(o.usable_bottom.value_or(o.range_bottom))},
-      {"position_tolerance", u.length(o.position_tolerance)},
-      {"perpendicularity_tolerance", o.perpendicularity_tolerance
-                                         ? json(u.length(*o.perpendicularity_tolerance))
-                                         : json(nullptr)},
-      {"axis_method", std::string(axis_method_name(o.axis_method))},
-      {"probing_sigma", u.length(o.probing_sigma)},
-      {"trials", o.trials},
-      {"seed", o.seed},
-      {"target_share", o.target_share}};
+  j["inputs"] = {{"diameter", u.length(o.diameter)},
+                 {"range_top", u.length(o.range_top)},
+                 {"range_bottom", u.length(o.range_bottom)},
+                 {"usable_top", u.length(o.usable_top.value_or(o.range_top))},
+                 {"usable_bottom", u.length(o.usable_bottom.value_or(o.range_bottom))},
+                 {"position_tolerance", u.length(o.position_tolerance)},
+                 {"perpendicularity_tolerance", o.perpendicularity_tolerance
+                                                    ? json(u.length(*o.perpendicularity_tolerance))
+                                                    : json(nullptr)},
+                 {"axis_method", std::string(axis_method_name(o.axis_method))},
+                 {"probing_sigma", u.length(o.probing_sigma)},
+                 {"trials", o.trials},
+                 {"seed", o.seed},
+                 {"target_share", o.target_share}};
   j["candidate"] = probing_prediction_json(a.candidate, u);
   if (a.search) {
     const ProbingSearch& s = *a.search;

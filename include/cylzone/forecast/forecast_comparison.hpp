@@ -45,8 +45,8 @@ namespace cylzone {
 struct ObservedBore {
   std::string source;  ///< the report it came from
   std::string bore;
-  double position = 0.0;  ///< full-depth positional diameter
-  std::optional<double> range_length;  ///< the evaluated range's length, when the report has it
+  double position = 0.0;                 ///< full-depth positional diameter
+  std::optional<double> range_length;    ///< the evaluated range's length, when the report has it
   std::optional<Eigen::Vector2d> mouth;  ///< (dx, dy) at the top of the range
 };
 
@@ -63,8 +63,7 @@ struct BinomialInterval {
 
 /// The Clopper-Pearson interval of `events` in `trials` at `confidence` (two-sided, equal
 /// tails): lower = 0 for no event, upper = 1 when every trial is one. trials > 0.
-BinomialInterval clopper_pearson(std::size_t events, std::size_t trials,
-                                 double confidence = 0.95);
+BinomialInterval clopper_pearson(std::size_t events, std::size_t trials, double confidence = 0.95);
 
 /// Moments of the forecast's full-depth positional diameter (mm).
 struct ForecastMoments {
@@ -88,18 +87,18 @@ struct MouthAxisComparison {
 struct ForecastComparison {
   std::size_t bores = 0;
   double observed_mean = 0.0;
-  double observed_sd = 0.0;  ///< 0 for one bore
+  double observed_sd = 0.0;          ///< 0 for one bore
   double observed_quantile95 = 0.0;  ///< Hyndman & Fan definition 7
   ForecastMoments forecast;
-  double tolerance = 0.0;           ///< the forecast's stated position tolerance
-  std::size_t outside = 0;          ///< bores with position > tolerance
-  double predicted_share = 0.0;     ///< the forecast's share outside
+  double tolerance = 0.0;        ///< the forecast's stated position tolerance
+  std::size_t outside = 0;       ///< bores with position > tolerance
+  double predicted_share = 0.0;  ///< the forecast's share outside
   BinomialInterval outside_interval;
-  std::size_t above_quantile = 0;   ///< bores above forecast.quantile95
-  BinomialInterval above_interval;  ///< against 0.05
-  std::size_t with_mouth = 0;       ///< bores that gave (dx, dy) at the mouth
+  std::size_t above_quantile = 0;           ///< bores above forecast.quantile95
+  BinomialInterval above_interval;          ///< against 0.05
+  std::size_t with_mouth = 0;               ///< bores that gave (dx, dy) at the mouth
   std::optional<MouthAxisComparison> x, y;  ///< with at least 2 such bores
-  std::size_t depth_mismatches = 0;  ///< bores whose range differs from the depth by > 1 %
+  std::size_t depth_mismatches = 0;         ///< bores whose range differs from the depth by > 1 %
   double confidence = 0.95;
   MachinePerformance performance = MachinePerformance::as_forecast;
   std::string finding;  ///< one sentence for people

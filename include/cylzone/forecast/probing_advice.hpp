@@ -88,9 +88,7 @@ struct ProbingPattern {
   double arc_deg = 360.0;              ///< arc each section's points span, (0, 360]
   double arc_centre_deg = 0.0;         ///< direction of the arc's middle, from the zone's u axis
 
-  std::size_t total_points() const noexcept {
-    return section_heights.size() * points_per_section;
-  }
+  std::size_t total_points() const noexcept { return section_heights.size() * points_per_section; }
 };
 
 struct ProbingAdviceOptions {
@@ -110,9 +108,9 @@ struct ProbingAdviceOptions {
   std::size_t trials = 2000;   ///< Monte Carlo trials, >= 100
   std::uint64_t seed = 1;
   std::size_t threads = hardware_threads();
-  double target_share = 0.1;   ///< the expanded uncertainty's largest share of a tolerance
+  double target_share = 0.1;  ///< the expanded uncertainty's largest share of a tolerance
   std::vector<std::size_t> points_ladder = {4, 6, 8, 12, 16, 24, 36};  ///< for the search
-  std::size_t max_sections = 9;  ///< for the search, >= 2
+  std::size_t max_sections = 9;                                        ///< for the search, >= 2
 };
 
 /// One simulated figure (mm): a positional diameter or a perpendicularity.
@@ -125,8 +123,8 @@ struct SimulatedFigure {
 /// The fitted axis at one end of the range.
 struct EndPrediction {
   double height = 0.0;
-  double u_x = 0.0;  ///< standard uncertainty of the offset along the zone's u (x) axis, mm
-  double u_y = 0.0;  ///< along v (y), mm
+  double u_x = 0.0;          ///< standard uncertainty of the offset along the zone's u (x) axis, mm
+  double u_y = 0.0;          ///< along v (y), mm
   SimulatedFigure position;  ///< the single-plane positional diameter at this height
 };
 
@@ -138,21 +136,21 @@ struct FigureUncertainty {
 };
 
 enum class PredictionStatus {
-  predicted,      ///< every trial was fitted
-  undetermined    ///< the pattern cannot determine the bore (a fit failed): see `message`
+  predicted,    ///< every trial was fitted
+  undetermined  ///< the pattern cannot determine the bore (a fit failed): see `message`
 };
 
 struct ProbingPrediction {
   ProbingPattern pattern;
   PredictionStatus status = PredictionStatus::predicted;
-  std::string message;  ///< why undetermined; empty otherwise
+  std::string message;         ///< why undetermined; empty otherwise
   double probing_sigma = 0.0;  ///< mm, as given
   std::size_t trials = 0;
   EndPrediction top;
   EndPrediction bottom;
-  SimulatedFigure full_depth;        ///< positional diameter over the full depth
-  SimulatedFigure perpendicularity;  ///< L |tilt|
-  double u_tilt = 0.0;               ///< standard uncertainty of the tilt per direction, rad
+  SimulatedFigure full_depth;           ///< positional diameter over the full depth
+  SimulatedFigure perpendicularity;     ///< L |tilt|
+  double u_tilt = 0.0;                  ///< standard uncertainty of the tilt per direction, rad
   std::optional<double> magnification;  ///< sampling_coverage.hpp's; empty for one level
   FigureUncertainty position;
   std::optional<FigureUncertainty> perpendicularity_uncertainty;
@@ -195,8 +193,8 @@ std::vector<double> evenly_spread_sections(double top, double bottom, std::size_
 /// The prediction's options for a measured bore (`check --probing-sigma`): the pattern actually
 /// probed, as the bore's sampling record found it (sampling_coverage.hpp): the sections'
 /// heights (the evaluation reports them along the zone's nominal direction from A), the median
-/// points per section, and the arc: the full circle when the worst section's largest gap is at most 1.5
-/// times the even step 360 / n, else that section's coverage, centred on the bore's zone u
+/// points per section, and the arc: the full circle when the worst section's largest gap is at
+/// most 1.5 times the even step 360 / n, else that section's coverage, centred on the bore's zone u
 /// axis (the figures do not depend on where a full arc starts; a partial arc's direction is
 /// not recorded and is taken as u). The diameter is the least-squares cylinder's, the range
 /// and tolerances the position's (and the perpendicularity's tolerance when it has one); a
@@ -210,8 +208,7 @@ std::optional<ProbingAdviceOptions> measured_bore_probing(const BoreResult& bore
 /// The prediction for a measured bore's pattern (measured_bore_probing); empty where that is.
 /// A pattern the prediction refuses (e.g. sections far outside a projected zone's range) gives
 /// an undetermined prediction with the reason, not an exception.
-std::optional<ProbingPrediction> predict_measured_bore(const BoreResult& bore,
-                                                       double probing_sigma,
+std::optional<ProbingPrediction> predict_measured_bore(const BoreResult& bore, double probing_sigma,
                                                        const ProbingAdviceOptions& base = {});
 
 }  // namespace cylzone
