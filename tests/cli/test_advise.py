@@ -10,54 +10,17 @@ Usage: /usr/bin/python3 test_advise.py PATH_TO_CYLZONE
 import json
 import math
 import os
-import subprocess
-import sys
 import tempfile
 
-CLI = sys.argv[1]
-failures = []
+
+from cli_harness import check, expect_error, failures, finish, run, with_option
+
 CAUTION = "do not replace, the approved inspection procedure"
 
 # A 10 mm bore 60 deep, probed in two sections 2 and 58 below the mouth, 8 points each.
 BASE = ["advise", "--diameter", "10", "--depth", "60", "--position-tolerance", "0.025",
         "--perpendicularity-tolerance", "0.015", "--sigma", "0.001", "--sections", "2,58",
         "--points", "8", "--trials", "3000", "--seed", "7"]
-
-
-def run(args):
-    p = subprocess.run([CLI, *args], capture_output=True, text=True, timeout=300)
-    return p.returncode, p.stdout, p.stderr
-
-
-def check(name, condition, detail=""):
-    if not condition:
-        failures.append(f"{name}: {detail}")
-
-
-def with_option(args, option, value):
-    args = list(args)
-    if option in args:
-        args[args.index(option) + 1] = value
-    else:
-        args += [option, value]
-    return args
-
-
-def expect_error(name, args, *fragments):
-    code, out, err = run(args)
-    lines = [l for l in err.splitlines() if l.strip()]
-    problems = []
-    if code != 2:
-        problems.append(f"exit code {code}, expected 2")
-    if out.strip():
-        problems.append(f"stdout not empty: {out[:80]!r}")
-    if len(lines) != 1 or not lines[0].startswith("cylzone: error: ") or len(lines[0]) > 1000:
-        problems.append(f"expected one bounded 'cylzone: error:' line, got {err[:300]!r}")
-    for f in fragments:
-        if f not in err:
-            problems.append(f"stderr lacks {f!r}: {err.strip()[:300]!r}")
-    if problems:
-        failures.append(f"{name}: " + "; ".join(problems))
 
 
 def parsed(name, out):
@@ -198,7 +161,4 @@ check("check --probing-sigma: table section", "Probing prediction for the patter
 expect_error("check --probing-sigma zero", ["check", PLAN, "--probing-sigma", "0"], "--probing-sigma")
 expect_error("check --probing-sigma in um", ["check", PLAN, "--probing-sigma", "1"], "--probing-sigma")
 
-if failures:
-    print("\n".join(failures))
-    sys.exit(1)
-print("advise CLI: all checks passed")
+finish("advise CLI")

@@ -8,12 +8,11 @@ Usage: /usr/bin/python3 test_forecast.py PATH_TO_CYLZONE
 import json
 import math
 import os
-import subprocess
-import sys
 import tempfile
 
-CLI = sys.argv[1]
-failures = []
+
+from cli_harness import check, expect_error, failures, finish, run, with_option
+
 CAUTION = "do not replace, the approved inspection procedure"
 
 # The worked example of docs/forecast.md: A = R = 8 um, 50 um/m squareness, 60 mm deep.
@@ -21,43 +20,6 @@ WORKED = ["forecast", "--x-accuracy", "0.008", "--x-repeatability", "0.008",
           "--y-accuracy", "0.008", "--y-repeatability", "0.008", "--squareness", "50",
           "--depth", "60", "--position-tolerance", "0.025",
           "--perpendicularity-tolerance", "0.006"]
-
-
-def run(args):
-    p = subprocess.run([CLI, *args], capture_output=True, text=True, timeout=120)
-    return p.returncode, p.stdout, p.stderr
-
-
-def check(name, condition, detail=""):
-    if not condition:
-        failures.append(f"{name}: {detail}")
-
-
-def with_option(args, option, value):
-    """WORKED with `option` set to `value` (replaced when present, else appended)."""
-    args = list(args)
-    if option in args:
-        args[args.index(option) + 1] = value
-    else:
-        args += [option, value]
-    return args
-
-
-def expect_error(name, args, *fragments):
-    code, out, err = run(args)
-    lines = [l for l in err.splitlines() if l.strip()]
-    problems = []
-    if code != 2:
-        problems.append(f"exit code {code}, expected 2")
-    if out.strip():
-        problems.append(f"stdout not empty: {out[:80]!r}")
-    if len(lines) != 1 or not lines[0].startswith("cylzone: error: ") or len(lines[0]) > 1000:
-        problems.append(f"expected one bounded 'cylzone: error:' line, got {err[:300]!r}")
-    for f in fragments:
-        if f not in err:
-            problems.append(f"stderr lacks {f!r}: {err.strip()[:300]!r}")
-    if problems:
-        failures.append(f"{name}: " + "; ".join(problems))
 
 
 # --- the worked example: table, exit code 0, figures worked by hand
@@ -236,7 +198,4 @@ with tempfile.TemporaryDirectory() as tmp:
     with open(files[0]) as f:
         check("compare: report intact", f.read() == before)
 
-if failures:
-    print("\n".join(failures))
-    sys.exit(1)
-print("forecast CLI: all checks passed")
+finish("forecast CLI")
