@@ -3,6 +3,7 @@
 // io/atomic_write.hpp).
 // Exit 0: all conform; 1: something does not conform; 2: input error; 3: not proven.
 #include <cctype>
+#include <cmath>
 #include <cstdint>
 #include <cstdlib>
 #include <ctime>
@@ -17,6 +18,7 @@
 #include "cli/check_batch.hpp"
 #include "cli/commands.hpp"
 #include "cylzone/check/part_check.hpp"
+#include "cylzone/forecast/probing_advice.hpp"
 #include "cylzone/io/atomic_write.hpp"
 #include "cylzone/plan/plan.hpp"
 #include "cylzone/report/report.hpp"
@@ -53,6 +55,9 @@ struct CheckArguments {
   std::string trials;         ///< a whole number or "adaptive"; empty: the plan's, else 2000
   std::optional<std::uint64_t> seed;
   std::string probing_sigma;  ///< a length in the plan's unit or "estimated"; empty: the plan's
+  /// --predict-probing: the CMM's probing sigma (plan unit) to predict each bore's uncertainty
+  /// for the pattern probed (forecast/probing_advice.hpp). Empty: no prediction.
+  std::optional<double> predict_sigma;
 };
 
 /// The study's options: the plan's [uncertainty] table, then the command line.
@@ -170,6 +175,8 @@ int run_check(const CheckArguments& args) {
     if (args.uncertainty || !args.trials.empty() || args.seed || !args.probing_sigma.empty())
       throw std::invalid_argument("--uncertainty: not with --parts (the Monte Carlo study runs "
                                   "on one part: check that part alone)");
+    if (args.predict_sigma)
+      throw std::invalid_argument("--predict-probing: not with --parts (check one part alone)");
     BatchRun run;
     run.plan = args.plan;
     run.parts = args.parts;
@@ -187,8 +194,18 @@ int run_check(const CheckArguments& args) {
   if (!args.out.empty()) throw std::invalid_argument("--out: only with --parts or --parts-list");
   if (args.html_given && args.html.empty())
     throw std::invalid_argument("--html: give the file to write the HTML report to");
+  if (args.predict_sigma && !(*args.predict_sigma > 0.0 && std::isfinite(*args.predict_sigma)))
+    throw std::invalid_argument("--predict-probing: must be a finite number greater than zero");
   PartPlan plan = read_plan(args.plan);
   override_outlier_stages(plan, neighbour, residual);
+  std::optional<double> predict_sigma;  // mm
+  if (args.predict_sigma) {
+    predict_sigma = *args.predict_sigma * millimetres_per(plan.unit);
+    if (*predict_sigma > 0.5)
+      throw std::invalid_argument(
+          "--predict-probing: more than 0.5 mm is implausible; it is in "
+          "the plan's length unit");
+  }
   // The command line overrides the plan's [part] table field by field.
   model_options.part = merged_identity(plan.part, given);
   if (model_options.part.timestamp.empty()) model_options.part.timestamp = utc_now();
@@ -225,6 +242,15 @@ int run_check(const CheckArguments& args) {
     MonteCarloOptions mc = *study;
     mc.evaluation = options.evaluation;
     model.uncertainty = monte_carlo_uncertainty(plan, part_inputs, mc);
+  }
+  if (predict_sigma) {
+    // The prediction for the pattern each bore was probed with (docs/probing-advice.md).
+    ProbingAdviceOptions base;
+    base.threads = args.threads;
+    for (BoreSummary& summary : model.bores)
+      for (const BoreResult& bore : result.bores)
+        if (bore.id == summary.id)
+          summary.probing_prediction = predict_measured_bore(bore, *predict_sigma, base);
   }
 
   std::vector<std::filesystem::path> inputs;
@@ -296,6 +322,10 @@ void add_check_command(CLI::App& app, CommandResult& result) {
                     "on|off: remove points beyond 5 robust sigma of the least-squares residuals, "
                     "refitting until stable (overrides the plan's probe.residual_rejection)")
       ->check(CLI::IsMember({"on", "off"}));
+  check->add_option("--predict-probing", args->predict_sigma,
+                    "predict each bore's position and perpendicularity uncertainty for the "
+                    "pattern probed, from the CMM's probing sigma per coordinate (plan length "
+                    "unit; docs/probing-advice.md)");
   check->add_option("--note", args->notes,
                     "KEY=VALUE free text, repeatable (operator, machine, order, ...); replaces "
                     "the plan's note of the same key")

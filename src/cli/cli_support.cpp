@@ -3,12 +3,30 @@
 #include <cctype>
 #include <cstdlib>
 #include <ctime>
+#include <sstream>
+#include <stdexcept>
 #include <string>
 
 #include "cli/commands.hpp"
 #include "cylzone/plan/plan.hpp"
 
 namespace cylzone::cli {
+
+std::string number_text(double value) {
+  std::ostringstream s;
+  s << value;
+  return s.str();
+}
+
+double option_length_mm(double value, double mm_per_unit, const std::string& option,
+                        double most_mm) {
+  const double mm = value * mm_per_unit;
+  if (mm > most_mm)
+    throw std::invalid_argument(option + ": " + number_text(value) + " is implausible (more than " +
+                                number_text(most_mm / mm_per_unit) +
+                                "); check the unit (--units, lengths in mm by default)");
+  return mm;
+}
 
 std::string utc_now() {
   const std::time_t now = std::time(nullptr);

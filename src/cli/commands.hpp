@@ -21,11 +21,21 @@ inline constexpr int exit_not_proven = 3;
 inline constexpr std::string_view exit_code_help =
     "Exit codes: 0 every characteristic conforms (fit: success), 1 a characteristic does not "
     "conform, 2 input or argument error, 3 conformance not proven. audit: 0 every summary "
-    "verdict stands, 1 one is overturned, 3 a bore could not be decided.";
+    "verdict stands, 1 one is overturned, 3 a bore could not be decided. advise: 0 the "
+    "candidate pattern meets the target, 1 it does not.";
 
 /// `text` as one printable line of at most `limit` bytes: control characters become '?', a
 /// longer text is cut and ends in "...". Error messages may quote file contents or arguments.
 std::string one_line(std::string_view text, std::size_t limit = 400);
+
+/// `value` as the shortest text `std::ostream` gives ("0.008", "1e+06"), for messages.
+std::string number_text(double value);
+
+/// A length option given in a unit of `mm_per_unit` mm, in mm. A value beyond `most_mm` is
+/// refused (std::invalid_argument naming `option`) as a unit or typing mistake; signs and
+/// finiteness are the library's checks.
+double option_length_mm(double value, double mm_per_unit, const std::string& option,
+                        double most_mm);
 
 /// The run's time in UTC, ISO 8601 ("2026-12-02T17:40:00Z").
 std::string utc_now();
@@ -54,5 +64,6 @@ void add_fit_command(CLI::App& app, CommandResult& result);
 void add_check_command(CLI::App& app, CommandResult& result);
 void add_audit_command(CLI::App& app, CommandResult& result);
 void add_forecast_command(CLI::App& app, CommandResult& result);
+void add_advise_command(CLI::App& app, CommandResult& result);
 
 }  // namespace cylzone::cli

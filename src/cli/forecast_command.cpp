@@ -2,6 +2,8 @@
 // full depth? Parses the machine's ISO 230-2 figures and the bore's tolerances, runs the
 // library's forecast (forecast/machine_capability.hpp) and prints the table and, on request,
 // the JSON object (written atomically, io/atomic_write.hpp).
+// With --compare, the bores of measured parts' JSON reports are set beside the forecast
+// (forecast/forecast_comparison.hpp).
 // Exit 0: can hold; 1: cannot hold; 3: marginal; 2: argument error.
 #include <cmath>
 #include <iostream>
@@ -15,9 +17,12 @@
 
 #include "cli/commands.hpp"
 #include "cylzone/core/errors.hpp"
+#include "cylzone/forecast/forecast_comparison.hpp"
 #include "cylzone/forecast/machine_capability.hpp"
 #include "cylzone/io/atomic_write.hpp"
+#include "cylzone/io/load.hpp"
 #include "cylzone/report/forecast_report.hpp"
+#include "cylzone/report/report_reader.hpp"
 
 namespace cylzone::cli {
 namespace {
@@ -38,6 +43,8 @@ struct ForecastArguments {
   std::string units = "mm";
   std::string json;
   bool quiet = false;
+  std::vector<std::string> compare;        // JSON reports of measured parts
+  std::vector<std::string> compare_bores;  // only these bores; empty: every bore
 };
 
 // Plausibility bounds, in mm and µm/m: values beyond them are typing or unit mistakes
@@ -47,27 +54,10 @@ constexpr double most_depth_mm = 10000.0;
 constexpr double most_tolerance_mm = 5.0;
 constexpr double most_tilt_um_per_m = 10000.0;  // 10 mm/m, 0.57 degrees
 
-std::string number(double v) {
-  std::ostringstream s;
-  s << v;
-  return s.str();
-}
-
-/// A length option in the given unit, in mm. Values beyond `most_mm` are refused as unit
-/// mistakes here; signs and finiteness are the library's checks (validate_capability_options).
-double length_mm(double value, double mm_per_unit, const std::string& option, double most_mm) {
-  const double mm = value * mm_per_unit;
-  if (mm > most_mm)
-    throw std::invalid_argument(option + ": " + number(value) + " is implausible (more than " +
-                                number(most_mm / mm_per_unit) +
-                                "); check the unit (--units, lengths in mm by default)");
-  return mm;
-}
-
 /// A tilt in µm/m as a slope.
 double slope(double um_per_m, const std::string& option) {
   if (um_per_m > most_tilt_um_per_m)
-    throw std::invalid_argument(option + ": " + number(um_per_m) +
+    throw std::invalid_argument(option + ": " + number_text(um_per_m) +
                                 " um/m is implausible (more than 10000 um/m = 0.57 degrees)");
   return um_per_m * 1e-6;
 }
@@ -76,7 +66,7 @@ double slope(double um_per_m, const std::string& option) {
 double share(double percent, const std::string& option) {
   if (!(percent > 0.0 && percent < 100.0))
     throw std::invalid_argument(option + ": must lie between 0 and 100 percent, got " +
-                                number(percent));
+                                number_text(percent));
   return percent / 100.0;
 }
 
@@ -92,10 +82,12 @@ ParsedOptions capability_options(const ForecastArguments& a) {
   const double k = millimetres_per(*unit);
   ParsedOptions parsed;
   CapabilityOptions& o = parsed.options;
-  o.x.accuracy = length_mm(a.x_accuracy, k, "--x-accuracy", most_positioning_mm);
-  o.x.repeatability = length_mm(a.x_repeatability, k, "--x-repeatability", most_positioning_mm);
-  o.y.accuracy = length_mm(a.y_accuracy, k, "--y-accuracy", most_positioning_mm);
-  o.y.repeatability = length_mm(a.y_repeatability, k, "--y-repeatability", most_positioning_mm);
+  o.x.accuracy = option_length_mm(a.x_accuracy, k, "--x-accuracy", most_positioning_mm);
+  o.x.repeatability =
+      option_length_mm(a.x_repeatability, k, "--x-repeatability", most_positioning_mm);
+  o.y.accuracy = option_length_mm(a.y_accuracy, k, "--y-accuracy", most_positioning_mm);
+  o.y.repeatability =
+      option_length_mm(a.y_repeatability, k, "--y-repeatability", most_positioning_mm);
   const auto add_tilt = [&](TiltSource t, const char* option) {
     o.tilts.push_back(std::move(t));
     parsed.tilt_options.emplace_back(option);
@@ -112,12 +104,12 @@ ParsedOptions capability_options(const ForecastArguments& a) {
     add_tilt({"random tilt " + std::to_string(i + 1), 0.0,
               slope(a.tilt_random[i], "--tilt-random")},
              "--tilt-random");
-  o.depth = length_mm(a.depth, k, "--depth", most_depth_mm);
+  o.depth = option_length_mm(a.depth, k, "--depth", most_depth_mm);
   o.position_tolerance =
-      length_mm(a.position_tolerance, k, "--position-tolerance", most_tolerance_mm);
+      option_length_mm(a.position_tolerance, k, "--position-tolerance", most_tolerance_mm);
   if (a.perpendicularity_tolerance)
-    o.perpendicularity_tolerance = length_mm(*a.perpendicularity_tolerance, k,
-                                             "--perpendicularity-tolerance", most_tolerance_mm);
+    o.perpendicularity_tolerance = option_length_mm(
+        *a.perpendicularity_tolerance, k, "--perpendicularity-tolerance", most_tolerance_mm);
   if (a.systematic != "worst" && a.systematic != "none")
     throw std::invalid_argument("--systematic: expected worst or none, got '" + a.systematic +
                                 "'");
@@ -145,27 +137,57 @@ void validate(const ParsedOptions& parsed) {
   }
 }
 
+/// The measured bores of every report given to --compare (each file read once), in the order
+/// given. Throws InputError naming the file for an unreadable or malformed report, and
+/// std::invalid_argument when no bore is left to compare.
+std::vector<ObservedBore> measured_bores(const ForecastArguments& args) {
+  std::vector<ObservedBore> bores;
+  std::size_t skipped = 0;
+  for (const std::string& file : args.compare) {
+    const LoadedFile loaded = load(file);
+    const ReportModel report = read_report_json(loaded.bytes(), file);
+    std::vector<ObservedBore> more = observed_bores(report, file, args.compare_bores, skipped);
+    bores.insert(bores.end(), more.begin(), more.end());
+  }
+  if (bores.empty())
+    throw std::invalid_argument(
+        "--compare: no evaluated bore with a position tolerance" +
+        std::string(args.compare_bores.empty() ? "" : " among the --compare-bore names") +
+        " in the " + std::to_string(args.compare.size()) + " report(s)" +
+        (skipped ? " (" + std::to_string(skipped) + " not evaluated)" : std::string()));
+  return bores;
+}
+
 int run_forecast(const ForecastArguments& args) {
   const ParsedOptions parsed = capability_options(args);
   validate(parsed);
   const CapabilityOptions& options = parsed.options;
   const LengthUnit unit = *parse_unit(args.units);
+  if (!args.compare_bores.empty() && args.compare.empty())
+    throw std::invalid_argument("--compare-bore: needs --compare REPORT.json");
   std::vector<OutputTarget> targets;
   if (!args.json.empty()) targets.push_back({args.json, "--json"});
-  validate_outputs(targets, {});  // before the computation: a bad path costs nothing
+  // Before the computation: a bad path costs nothing; never over a report being compared.
+  const std::vector<std::filesystem::path> inputs(args.compare.begin(), args.compare.end());
+  validate_outputs(targets, inputs);
 
   const CapabilityForecast forecast = forecast_capability(options);
+  std::optional<ForecastComparison> comparison;
+  if (!args.compare.empty())
+    comparison = compare_with_forecast(options, forecast, measured_bores(args));
+  const ForecastComparison* compared = comparison ? &*comparison : nullptr;
 
   std::vector<OutputFile> files;
   if (!args.json.empty())
-    files.push_back({targets.front(), format_forecast_json(options, forecast, unit)});
-  write_outputs(files, {}, std::cout);
+    files.push_back({targets.front(), format_forecast_json(options, forecast, unit, compared)});
+  write_outputs(files, inputs, std::cout);
   ForecastTableOptions table;
   table.unit = unit;
   table.unicode = utf8_locale();
   const bool json_on_stdout = !args.json.empty() && is_standard_output(args.json);
   if (!args.quiet)
-    (json_on_stdout ? std::cerr : std::cout) << format_forecast_table(options, forecast, table);
+    (json_on_stdout ? std::cerr : std::cout)
+        << format_forecast_table(options, forecast, table, compared);
   switch (forecast.verdict) {
     case CapabilityVerdict::can_hold: return exit_success;
     case CapabilityVerdict::cannot_hold: return exit_nonconforming;
@@ -226,12 +248,19 @@ void add_forecast_command(CLI::App& app, CommandResult& result) {
   c->add_option("--json", a->json,
                 "write the forecast as one JSON object to this file ('-': standard output)");
   c->add_flag("--quiet", a->quiet, "do not print the table");
+  c->add_option("--compare", a->compare,
+                "JSON reports of measured parts (cylzone check --json): compare their bores' "
+                "full-depth positions with the forecast (docs/forecast.md)");
+  c->add_option("--compare-bore", a->compare_bores,
+                "compare only this bore of each report; repeatable (default: every bore)")
+      ->allow_extra_args(false);
   c->footer(
       "Lengths in --units (mm by default); tilts in um/m (1 um/m = 1 um per metre of depth). "
       "Plausibility: positioning figures above 1 mm, a depth above 10 m, tolerances above 5 mm "
       "and tilts above 10000 um/m are refused as unit mistakes.\n"
       "Exit codes: 0 can hold, 1 cannot hold, 3 marginal, 2 argument error (one 'cylzone: "
-      "error:' line, no file written).");
+      "error:' line, no file written); with --compare the exit code is still the forecast's: "
+      "the comparison's finding is in the table and the JSON.");
   c->callback([a, &result]() { result.run = [a]() { return run_forecast(*a); }; });
 }
 

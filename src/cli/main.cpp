@@ -21,12 +21,13 @@ int main(int argc, char** argv) {
   cylzone::cli::add_fit_command(app, result);
   cylzone::cli::add_audit_command(app, result);
   cylzone::cli::add_forecast_command(app, result);
+  cylzone::cli::add_advise_command(app, result);
   // CLI11 reports a mistyped command as "a subcommand is required": name it instead.
   if (argc > 1 && argv[1][0] != '-' && app.get_subcommands([&](CLI::App* sub) {
         return sub->get_name() == argv[1];
       }).empty()) {
     std::cerr << "cylzone: error: unknown command '" << cylzone::cli::one_line(argv[1], 100)
-              << "' (expected check, fit, audit or forecast; cylzone --help lists them)\n";
+              << "' (expected check, fit, audit, forecast or advise; cylzone --help lists them)\n";
     return cylzone::cli::exit_input_error;
   }
   try {

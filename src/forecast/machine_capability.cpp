@@ -466,6 +466,24 @@ struct DepthModel {
 
 }  // namespace
 
+namespace {
+
+/// The unit direction of the systematic tilt: along the bias (the worst direction, header item
+/// 4), along +X without one.
+std::pair<double, double> tilt_direction(const CapabilityForecast& f) {
+  const double bias = std::hypot(f.bias_x, f.bias_y);
+  return bias > 0.0 ? std::pair{f.bias_x / bias, f.bias_y / bias} : std::pair{1.0, 0.0};
+}
+
+}  // namespace
+
+double full_depth_probability(const CapabilityForecast& f, double depth, double diameter) {
+  const auto [ux, uy] = tilt_direction(f);
+  return both_ends_probability(f.bias_x, f.bias_y, f.sigma_x, f.sigma_y,
+                               depth * f.tilt_systematic * ux, depth * f.tilt_systematic * uy,
+                               depth * f.tilt_sigma, 0.5 * diameter);
+}
+
 CapabilityForecast forecast_capability(const CapabilityOptions& o) {
   validate_capability_options(o);
   CapabilityForecast f;
@@ -484,8 +502,7 @@ CapabilityForecast forecast_capability(const CapabilityOptions& o) {
   f.tilt_sigma = std::sqrt(variance);
   const double h = o.depth;
   const double bias = std::hypot(f.bias_x, f.bias_y);
-  // The systematic tilt points along the bias (the worst direction), along +X without one.
-  const double ux = bias > 0.0 ? f.bias_x / bias : 1.0, uy = bias > 0.0 ? f.bias_y / bias : 0.0;
+  const auto [ux, uy] = tilt_direction(f);
   const DepthModel model{f.sigma_x, f.sigma_y, f.bias_x, f.bias_y, ux, uy,
                          f.tilt_systematic, f.tilt_sigma, 0.5 * o.position_tolerance,
                          o.perpendicularity_tolerance};
@@ -505,10 +522,7 @@ CapabilityForecast forecast_capability(const CapabilityOptions& o) {
   disk_figures(bottom_x, bottom_y, std::hypot(f.sigma_x, tau), std::hypot(f.sigma_y, tau),
                o.coverage, 2.0, f.bottom);
   {
-    const auto cdf = [&](double r) {
-      return both_ends_probability(f.bias_x, f.bias_y, f.sigma_x, f.sigma_y,
-                                   h * f.tilt_systematic * ux, h * f.tilt_systematic * uy, tau, r);
-    };
+    const auto cdf = [&](double r) { return full_depth_probability(f, h, 2.0 * r); };
     const double scale = 0.5 * f.bottom.quantile + sigma_window * std::max(f.sigma_x, f.sigma_y);
     f.full_depth.median = 2.0 * quantile(cdf, 0.5, scale);
     f.full_depth.quantile = 2.0 * quantile(cdf, o.coverage, scale);

@@ -10,6 +10,7 @@
 #include "cylzone/report/batch_report.hpp"
 #include "cylzone/report/fit_report.hpp"
 #include "cylzone/report/forecast_report.hpp"
+#include "cylzone/report/probing_report.hpp"
 #include "cylzone/report/report.hpp"
 #include "cylzone/report/report_reader.hpp"
 #include "cylzone/version.hpp"
@@ -205,6 +206,51 @@ json sampling_json(const SamplingCoverage& s, const ReportUnits& u) {
           {"warnings", s.warnings}};
 }
 
+/// A probing prediction (`cylzone advise`, `check --predict-probing`).
+json probing_prediction_json(const ProbingPrediction& p, const ReportUnits& u) {
+  json heights = json::array();
+  for (double h : p.pattern.section_heights) heights.push_back(u.length(h));
+  json j;
+  j["pattern"] = {{"section_heights", heights},
+                  {"points_per_section", p.pattern.points_per_section},
+                  {"arc_deg", p.pattern.arc_deg},
+                  {"arc_centre_deg", p.pattern.arc_centre_deg},
+                  {"total_points", p.pattern.total_points()}};
+  j["probing_sigma"] = u.length(p.probing_sigma);
+  j["status"] = p.status == PredictionStatus::predicted ? "predicted" : "undetermined";
+  j["message"] = text_or_null(p.message);
+  if (p.status == PredictionStatus::undetermined) return j;
+  const auto figure = [&](const SimulatedFigure& f) {
+    return json{{"mean", u.length(f.mean)},
+                {"standard_deviation", u.length(f.standard_deviation)},
+                {"quantile95", u.length(f.quantile95)}};
+  };
+  const auto end = [&](const EndPrediction& e) {
+    return json{{"height", u.length(e.height)},
+                {"u_x", u.length(e.u_x)},
+                {"u_y", u.length(e.u_y)},
+                {"position", figure(e.position)}};
+  };
+  const auto decision = [&](const FigureUncertainty& f) {
+    return json{{"tolerance", u.length(f.tolerance)},
+                {"expanded", u.length(f.expanded)},
+                {"share", f.share},
+                {"meets_target", f.meets_target}};
+  };
+  j["trials"] = p.trials;
+  j["magnification"] = p.magnification ? json(*p.magnification) : json(nullptr);
+  j["u_tilt_urad"] = p.u_tilt * 1e6;
+  j["top"] = end(p.top);
+  j["bottom"] = end(p.bottom);
+  j["full_depth"] = figure(p.full_depth);
+  j["perpendicularity"] = figure(p.perpendicularity);
+  j["position_uncertainty"] = decision(p.position);
+  j["perpendicularity_uncertainty"] =
+      p.perpendicularity_uncertainty ? decision(*p.perpendicularity_uncertainty) : json(nullptr);
+  j["meets_target"] = p.meets_target;
+  return j;
+}
+
 json bore_json(const BoreResult& b, const BoreSummary& s, const BoreSensitivity* sens,
                const ReportModel& m) {
   const ReportUnits& u = m.units;
@@ -316,6 +362,9 @@ json bore_json(const BoreResult& b, const BoreSummary& s, const BoreSensitivity*
   j["depth_profile"] = depth_json(s.depth, u);
   j["stray_points"] = stray_json(b.stray_points, m, "bore " + b.id);
   j["sampling"] = s.sampling ? sampling_json(*s.sampling, u) : json(nullptr);
+  // Only with `check --predict-probing`: without it the report is as before.
+  if (s.probing_prediction)
+    j["probing_prediction"] = probing_prediction_json(*s.probing_prediction, u);
   j["warnings"] = s.warnings;
   return j;
 }
@@ -1038,7 +1087,7 @@ std::string format_audit_json(const AuditReport& r) {
 // -------------------------------------------------------------- `cylzone forecast` JSON
 
 std::string format_forecast_json(const CapabilityOptions& o, const CapabilityForecast& f,
-                                 LengthUnit unit) {
+                                 LengthUnit unit, const ForecastComparison* comparison) {
   const ReportUnits u(unit);
   const auto axis = [&](const AxisPositioning& a, double sigma, double bias) {
     return json{{"accuracy", u.length(a.accuracy)},
@@ -1101,6 +1150,83 @@ std::string format_forecast_json(const CapabilityOptions& o, const CapabilityFor
       {"depth", f.deepest.kind == DeepestBore::Kind::at_depth ? json(u.length(f.deepest.depth))
                                                              : json(nullptr)}};
   j["verdict"] = std::string(capability_verdict_name(f.verdict));
+  if (comparison) {
+    const ForecastComparison& c = *comparison;
+    const auto interval = [](const BinomialInterval& b) {
+      return json{{"lower", b.lower}, {"upper", b.upper}};
+    };
+    const auto mouth = [&](const std::optional<MouthAxisComparison>& a) {
+      if (!a) return json(nullptr);
+      return json{{"observed_mean", u.length(a->observed_mean)},
+                  {"observed_sd", u.length(a->observed_sd)},
+                  {"forecast_systematic", u.length(a->forecast_systematic)},
+                  {"forecast_sigma", u.length(a->forecast_sigma)}};
+    };
+    j["comparison"] = {
+        {"bores", c.bores},
+        {"confidence", c.confidence},
+        {"tolerance", u.length(c.tolerance)},
+        {"observed",
+         {{"mean", u.length(c.observed_mean)},
+          {"standard_deviation", u.length(c.observed_sd)},
+          {"quantile95", u.length(c.observed_quantile95)}}},
+        {"forecast",
+         {{"mean", u.length(c.forecast.mean)},
+          {"standard_deviation", u.length(c.forecast.standard_deviation)},
+          {"quantile95", u.length(c.forecast.quantile95)}}},
+        {"outside",
+         {{"count", c.outside},
+          {"share", static_cast<double>(c.outside) / static_cast<double>(c.bores)},
+          {"interval", interval(c.outside_interval)},
+          {"predicted_share", c.predicted_share}}},
+        {"above_forecast_quantile95",
+         {{"count", c.above_quantile},
+          {"share", static_cast<double>(c.above_quantile) / static_cast<double>(c.bores)},
+          {"interval", interval(c.above_interval)},
+          {"expected_share", 0.05}}},
+        {"mouth", {{"bores", c.with_mouth}, {"x", mouth(c.x)}, {"y", mouth(c.y)}}},
+        {"depth_mismatches", c.depth_mismatches},
+        {"performance", std::string(machine_performance_name(c.performance))},
+        {"finding", c.finding}};
+  }
+  return j.dump(2) + "\n";
+}
+
+// -------------------------------------------------------------- `cylzone advise` JSON
+
+std::string format_probing_json(const ProbingAdviceOptions& o, const ProbingAdvice& a,
+                                LengthUnit unit) {
+  const ReportUnits u(unit);
+  json j;
+  j["schema"] = std::string(probing_advice_schema);
+  j["tool"] = std::string("cylzone ") + version_string;
+  j["caution"] = std::string(safety_caution);
+  j["units"] = std::string(u.name());
+  j["inputs"] = {{"diameter", u.length(o.diameter)},
+                 {"range_top", u.length(o.range_top)},
+                 {"range_bottom", u.length(o.range_bottom)},
+                 {"usable_top", u.length(o.usable_top.value_or(o.range_top))},
+                 {"usable_bottom", u.length(o.usable_bottom.value_or(o.range_bottom))},
+                 {"position_tolerance", u.length(o.position_tolerance)},
+                 {"perpendicularity_tolerance", o.perpendicularity_tolerance
+                                                    ? json(u.length(*o.perpendicularity_tolerance))
+                                                    : json(nullptr)},
+                 {"axis_method", std::string(axis_method_name(o.axis_method))},
+                 {"probing_sigma", u.length(o.probing_sigma)},
+                 {"trials", o.trials},
+                 {"seed", o.seed},
+                 {"target_share", o.target_share}};
+  j["candidate"] = probing_prediction_json(a.candidate, u);
+  if (a.search) {
+    const ProbingSearch& s = *a.search;
+    j["search"] = {
+        {"candidates_tried", s.candidates_tried},
+        {"smallest", s.smallest ? probing_prediction_json(*s.smallest, u) : json(nullptr)},
+        {"previous", s.previous ? probing_prediction_json(*s.previous, u) : json(nullptr)}};
+  } else {
+    j["search"] = nullptr;
+  }
+  j["meets_target"] = a.candidate.meets_target;
   return j.dump(2) + "\n";
 }
 

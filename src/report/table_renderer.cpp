@@ -7,6 +7,7 @@
 #include <vector>
 
 #include "cylzone/report/audit_report.hpp"
+#include "cylzone/report/probing_report.hpp"
 #include "cylzone/report/report.hpp"
 #include "cylzone/version.hpp"
 
@@ -461,6 +462,7 @@ std::string format_table(const ReportModel& m, const TableOptions& options) {
 
   // Sampling adequacy: what the axis rests on against the range it is judged over.
   sampling_lines(out, m, bore_w, sym, shorten);
+  out << format_probing_predictions(m, options.unicode);  // check --predict-probing only
 
   // The study's columns come from the first bore it has rows for (a bore not evaluated has none).
   const auto studied = std::find_if(m.sensitivity.begin(), m.sensitivity.end(),

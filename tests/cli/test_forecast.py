@@ -8,12 +8,11 @@ Usage: /usr/bin/python3 test_forecast.py PATH_TO_CYLZONE
 import json
 import math
 import os
-import subprocess
-import sys
 import tempfile
 
-CLI = sys.argv[1]
-failures = []
+
+from cli_harness import check, expect_error, failures, finish, run, with_option
+
 CAUTION = "do not replace, the approved inspection procedure"
 
 # The worked example of docs/forecast.md: A = R = 8 um, 50 um/m squareness, 60 mm deep.
@@ -21,43 +20,6 @@ WORKED = ["forecast", "--x-accuracy", "0.008", "--x-repeatability", "0.008",
           "--y-accuracy", "0.008", "--y-repeatability", "0.008", "--squareness", "50",
           "--depth", "60", "--position-tolerance", "0.025",
           "--perpendicularity-tolerance", "0.006"]
-
-
-def run(args):
-    p = subprocess.run([CLI, *args], capture_output=True, text=True, timeout=120)
-    return p.returncode, p.stdout, p.stderr
-
-
-def check(name, condition, detail=""):
-    if not condition:
-        failures.append(f"{name}: {detail}")
-
-
-def with_option(args, option, value):
-    """WORKED with `option` set to `value` (replaced when present, else appended)."""
-    args = list(args)
-    if option in args:
-        args[args.index(option) + 1] = value
-    else:
-        args += [option, value]
-    return args
-
-
-def expect_error(name, args, *fragments):
-    code, out, err = run(args)
-    lines = [l for l in err.splitlines() if l.strip()]
-    problems = []
-    if code != 2:
-        problems.append(f"exit code {code}, expected 2")
-    if out.strip():
-        problems.append(f"stdout not empty: {out[:80]!r}")
-    if len(lines) != 1 or not lines[0].startswith("cylzone: error: ") or len(lines[0]) > 1000:
-        problems.append(f"expected one bounded 'cylzone: error:' line, got {err[:300]!r}")
-    for f in fragments:
-        if f not in err:
-            problems.append(f"stderr lacks {f!r}: {err.strip()[:300]!r}")
-    if problems:
-        failures.append(f"{name}: " + "; ".join(problems))
 
 
 # --- the worked example: table, exit code 0, figures worked by hand
@@ -152,7 +114,88 @@ with tempfile.TemporaryDirectory() as tmp:
     expect_error("json onto a folder", WORKED + ["--json", tmp], "directory")
     check("no temporary files", sorted(os.listdir(tmp)) == ["forecast.json"], os.listdir(tmp))
 
-if failures:
-    print("\n".join(failures))
-    sys.exit(1)
-print("forecast CLI: all checks passed")
+# --- --compare: measured parts' JSON reports against the forecast. The demo's report is
+# written once; copies get known full-depth positions and mouth deviations, so the observed
+# figures are known: mean and 95th percentile by numpy (numpy.percentile's default is
+# definition 7 of Hyndman & Fan), the Clopper-Pearson interval by scipy.stats.beta.
+import numpy as np
+from scipy import stats
+
+ROOT = os.path.dirname(os.path.dirname(os.path.dirname(os.path.abspath(__file__))))
+with tempfile.TemporaryDirectory() as tmp:
+    demo = os.path.join(tmp, "demo.json")
+    code, out, err = run(["check", os.path.join(ROOT, "point-clouds", "valve-manifold", "plan.toml"),
+                          "--json", demo, "--csv", os.path.join(tmp, "demo.csv"), "--quiet",
+                          "--time", "2026-12-02T17:29:13Z", "--no-sensitivity"])
+    check("compare: demo report written", code in (0, 1) and os.path.exists(demo), f"{code} {err}")
+    with open(demo) as f:
+        report = json.load(f)
+    rng = np.random.default_rng(3)
+    known, mouths, files = [], [], []
+    for part in range(6):
+        r = json.loads(json.dumps(report))
+        for c in r["characteristics"]:
+            if c["id"].endswith("/position"):
+                c["value"] = float(rng.uniform(0.002, 0.034))
+                known.append((c["feature"], c["value"]))
+        for b in r["bores"]:
+            if b.get("depth_profile"):
+                dx, dy = rng.normal(0.0, 0.003, 2)
+                b["depth_profile"]["samples"][0]["dx"] = float(dx)
+                b["depth_profile"]["samples"][0]["dy"] = float(dy)
+                mouths.append((b["id"], dx, dy))
+        name = os.path.join(tmp, f"part{part}.json")
+        with open(name, "w") as f:
+            json.dump(r, f)
+        files.append(name)
+    code, out, err = run(WORKED + ["--compare", *files, "--json", "-"])
+    check("compare: exit code is the forecast's", code == 0, f"{code} {err[:300]}")
+    try:
+        c = json.loads(out)["comparison"]
+    except (ValueError, KeyError) as e:
+        c = None
+        failures.append(f"compare: no comparison object: {e}: {out[:200]!r}")
+    if c:
+        values = np.array([v for _, v in known])
+        n = len(values)
+        check("compare: bores", c["bores"] == n, c["bores"])
+        check("compare: mean", abs(c["observed"]["mean"] - values.mean()) < 1e-12, c["observed"])
+        check("compare: sd", abs(c["observed"]["standard_deviation"] - values.std(ddof=1)) < 1e-12)
+        check("compare: 95th percentile", abs(c["observed"]["quantile95"] - np.percentile(values, 95)) < 1e-12)
+        k = int((values > 0.025).sum())
+        check("compare: outside", c["outside"]["count"] == k, (c["outside"], k))
+        lo = 0.0 if k == 0 else stats.beta.ppf(0.025, k, n - k + 1)
+        hi = 1.0 if k == n else stats.beta.ppf(0.975, k + 1, n - k)
+        check("compare: Clopper-Pearson", abs(c["outside"]["interval"]["lower"] - lo) < 1e-9
+              and abs(c["outside"]["interval"]["upper"] - hi) < 1e-9, (c["outside"], lo, hi))
+        dx = np.array([m[1] for m in mouths])
+        check("compare: mouth dx mean", abs(c["mouth"]["x"]["observed_mean"] - dx.mean()) < 1e-12, c["mouth"])
+        # Uniform positions up to 0.034 against a forecast whose 95 % quantile is 0.017: worse.
+        check("compare: worse", c["performance"] == "worse-than-forecast", c["performance"])
+        check("compare: depth mismatches (P3, P5, P6 are not 60 deep)", c["depth_mismatches"] == 3 * 6,
+              c["depth_mismatches"])
+    check("compare: table on stderr", "Compared with measured parts" in err and "WORSE" in err
+          and CAUTION in err, err[-600:])
+    # Only P1 and P2.
+    code, out, err = run(WORKED + ["--compare", *files, "--compare-bore", "P1", "--compare-bore", "P2",
+                                   "--json", "-", "--quiet"])
+    try:
+        check("compare-bore: two per report", json.loads(out)["comparison"]["bores"] == 12)
+    except (ValueError, KeyError) as e:
+        failures.append(f"compare-bore: {e}: {out[:200]!r}")
+    # Errors: a malformed report (named), a missing file, no bore left, the JSON over a report.
+    broken = os.path.join(tmp, "broken.json")
+    with open(broken, "w") as f:
+        f.write('{"schema": "cylzone-report-1", "bores": [')
+    expect_error("compare: malformed report", WORKED + ["--compare", broken], "broken.json")
+    expect_error("compare: missing report", WORKED + ["--compare", os.path.join(tmp, "none.json")], "none.json")
+    expect_error("compare: no such bore", WORKED + ["--compare", files[0], "--compare-bore", "Q9"],
+                 "--compare", "--compare-bore")
+    expect_error("compare-bore without compare", WORKED + ["--compare-bore", "P1"], "--compare-bore")
+    with open(files[0]) as f:
+        before = f.read()
+    expect_error("compare: json over a report", WORKED + ["--compare", files[0], "--json", files[0]], "part0.json")
+    with open(files[0]) as f:
+        check("compare: report intact", f.read() == before)
+
+finish("forecast CLI")

@@ -187,4 +187,9 @@ double disk_probability(double mean_x, double mean_y, double sigma_x, double sig
 double both_ends_probability(double mean_x, double mean_y, double sigma_x, double sigma_y,
                              double shift_x, double shift_y, double tau, double radius);
 
+/// P(2 max(|e_top|, |e_bot|) <= diameter): the CDF of the full-depth positional diameter of a
+/// bore `depth` deep under the model's parameters in `forecast` (header items 3-5), the law
+/// behind full_depth's median and quantile.
+double full_depth_probability(const CapabilityForecast& forecast, double depth, double diameter);
+
 }  // namespace cylzone

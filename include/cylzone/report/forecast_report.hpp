@@ -9,6 +9,7 @@
 #include <string_view>
 
 #include "cylzone/core/units.hpp"
+#include "cylzone/forecast/forecast_comparison.hpp"
 #include "cylzone/forecast/machine_capability.hpp"
 
 namespace cylzone {
@@ -21,12 +22,16 @@ struct ForecastTableOptions {
   bool unicode = false;  ///< "µm/m" and "σ" rather than "um/m" and "sigma"
 };
 
+/// `comparison`, when given, adds the section comparing the forecast with measured parts
+/// (forecast_comparison.hpp) and the JSON's `comparison` object.
 std::string format_forecast_table(const CapabilityOptions& options,
                                   const CapabilityForecast& forecast,
-                                  const ForecastTableOptions& table = {});
+                                  const ForecastTableOptions& table = {},
+                                  const ForecastComparison* comparison = nullptr);
 
 /// One JSON object, indented by two, ending with a line break.
 std::string format_forecast_json(const CapabilityOptions& options,
-                                 const CapabilityForecast& forecast, LengthUnit unit);
+                                 const CapabilityForecast& forecast, LengthUnit unit,
+                                 const ForecastComparison* comparison = nullptr);
 
 }  // namespace cylzone

@@ -26,6 +26,7 @@
 #include "cylzone/evaluate/axis_zone.hpp"
 #include "cylzone/evaluate/bore_evaluation.hpp"
 #include "cylzone/evaluate/surface_map.hpp"
+#include "cylzone/forecast/probing_advice.hpp"
 #include "cylzone/uncertainty/monte_carlo.hpp"
 
 namespace cylzone {
@@ -144,6 +145,9 @@ struct BoreSummary {
   /// (evaluate/surface_map.hpp), for the HTML report's map. Empty when not evaluated and in a
   /// model read back from JSON.
   std::optional<SurfaceMap> surface;
+  /// The uncertainty predicted for the pattern actually probed (`check --predict-probing`,
+  /// forecast/probing_advice.hpp: predict_measured_bore); empty unless asked for.
+  std::optional<ProbingPrediction> probing_prediction;
   bool evaluated() const noexcept { return not_evaluated.empty(); }
 };
 
