@@ -39,6 +39,9 @@ struct CheckArguments {
   // settings and every feature's own; empty: as the plan says.
   std::string neighbour_filter;
   std::string residual_rejection;
+  /// "simple", "iso-14253-1" or "guard-band": overrides the plan's [decision].rule; empty: as
+  /// the plan says.
+  std::string decision_rule;
 };
 
 /// "on" / "off" of an outlier-stage option, or empty when the option was not given.
@@ -95,6 +98,8 @@ int run_check(const CheckArguments& args) {
   const std::optional<bool> residual = switch_value(args.residual_rejection, "--residual-rejection");
   PartPlan plan = read_plan(args.plan);
   override_outlier_stages(plan, neighbour, residual);
+  if (!args.decision_rule.empty())
+    override_decision_rule(plan, *parse_decision_rule_word(args.decision_rule));
   // The command line overrides the plan's [part] table field by field.
   model_options.part = merged_identity(plan.part, given);
   if (model_options.part.timestamp.empty()) model_options.part.timestamp = utc_now();
@@ -177,6 +182,12 @@ void add_check_command(CLI::App& app, CommandResult& result) {
                     "on|off: remove points beyond 5 robust sigma of the least-squares residuals, "
                     "refitting until stable (overrides the plan's probe.residual_rejection)")
       ->check(CLI::IsMember({"on", "off"}));
+  check->add_option("--decision-rule", args->decision_rule,
+                    "simple|iso-14253-1|guard-band: how a value is compared with its limit "
+                    "(ISO 14253-1: conformance proven inside the zone reduced by U, "
+                    "non-conformance beyond it enlarged by U, else not proven; overrides the "
+                    "plan's [decision].rule)")
+      ->check(CLI::IsMember({"simple", "iso-14253-1", "guard-band"}));
   check->add_option("--note", args->notes,
                     "KEY=VALUE free text, repeatable (operator, machine, order, ...); replaces "
                     "the plan's note of the same key")

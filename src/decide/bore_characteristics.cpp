@@ -35,6 +35,19 @@ Characteristic position_characteristic(const BoreResult& bore, const PositionRes
               p.spec.tolerance, p.bonus, p.allowed, Comparison::at_most, decisive);
 }
 
+/// The rule's stated uncertainty attached to every characteristic of its kind, then each
+/// decided by the one decision function.
+void decide_all(std::vector<Characteristic>& out, const DecisionRule& rule) {
+  for (Characteristic& c : out) {
+    const std::optional<CharacteristicKind> kind = characteristic_kind(c);
+    if (!c.uncertainty && kind && rule.stated_uncertainty[*kind])
+      c.uncertainty = ExpandedUncertainty{
+          *rule.stated_uncertainty[*kind], rule.coverage_factor,
+          "stated budget ([decision].uncertainty)"};
+    apply_decision(c, rule);
+  }
+}
+
 }  // namespace
 
 std::string tolerance_reference(const PlanTolerance& spec) {
@@ -125,10 +138,7 @@ std::vector<Characteristic> bore_characteristics(const BoreResult& b, const Deci
       out.back().not_evaluated = b.mobility_not_evaluated;
     }
   }
-  for (Characteristic& c : out) {
-    c.verdict = decide(c, rule);
-    c.rule = rule.kind;
-  }
+  decide_all(out, rule);
   return out;
 }
 
@@ -185,10 +195,7 @@ std::vector<Characteristic> bore_characteristics(const BoreResult& b, const Plan
         virtual_condition(spec.condition, FeatureKind::bore, *plan.size, spec.tolerance),
         spec.condition == MaterialCondition::lmc ? Comparison::at_most : Comparison::at_least);
   }
-  for (Characteristic& c : out) {
-    c.verdict = decide(c, rule);
-    c.rule = rule.kind;
-  }
+  decide_all(out, rule);
   return out;
 }
 

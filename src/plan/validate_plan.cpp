@@ -44,6 +44,7 @@ class PlanRules {
     check_bores();
     check_scan();
     check_part_identity();
+    check_decision();
     return std::move(warnings_);
   }
 
@@ -565,6 +566,95 @@ class PlanRules {
     warnings_.push_back(at.key +
                         (at.line > 0 ? " (line " + std::to_string(at.line) + ")" : std::string()) +
                         ": " + finding->message);
+  }
+
+  /// The [decision] table (docs/plan.md, rules 34 to 37; docs/evaluation.md, "Decision rules").
+  void check_decision() {
+    const DecisionRule& rule = plan_.decision.rule;
+    PlanLocation at = plan_.decision.where;
+    if (at.key.empty()) at.key = "decision";
+    // Where a per-kind value was written: its own line, or the line of a single guard band.
+    const auto where = [&](const std::string& table, CharacteristicKind kind) {
+      const std::string name = table + "." + std::string(characteristic_kind_word(kind));
+      return at.lines.count(name) || !at.lines.count(table) ? at.at(name) : at.at(table);
+    };
+    constexpr CharacteristicKind kinds[] = {
+        CharacteristicKind::position, CharacteristicKind::perpendicularity,
+        CharacteristicKind::size, CharacteristicKind::form, CharacteristicKind::virtual_condition};
+    for (CharacteristicKind kind : kinds) {
+      const std::string word(characteristic_kind_word(kind));
+      if (const auto& g = rule.guard_band[kind])
+        margin_in_bounds(*g, where("guard_band", kind), "the guard band for " + word);
+      if (const auto& u = rule.stated_uncertainty[kind])
+        margin_in_bounds(*u, where("uncertainty", kind), "the expanded uncertainty U of " + word);
+    }
+    // k = 2 gives about 95 % coverage for a normal distribution (GUM, ISO/IEC Guide 98-3, 6.3;
+    // common practice); below 1 the interval covers less than one standard uncertainty.
+    if (!(rule.coverage_factor >= 1.0 && rule.coverage_factor <= 10.0))
+      fail(at.at("uncertainty.k"), "the coverage factor k must be from 1 to 10 (found " +
+                                        plan_number_text(rule.coverage_factor) + ")");
+    if (rule.kind == DecisionRuleKind::guard_band && !rule.guard_band.any())
+      fail(at.at("rule"),
+           "rule = \"guard-band\" needs the agreed guard band: give guard_band (a length, or a "
+           "table by kind)");
+    // Against every bore's tolerance of each kind: a guard band wider than half the tolerance
+    // leaves less than half the zone to accept (for a size, no acceptance zone at all) and is
+    // refused as a likely typing error; a U above the tolerance is warned (no value of the kind
+    // can then be proven to conform under the ISO 14253-1 rule). A zero tolerance at MMC or
+    // LMC is all bonus and is not compared.
+    for (CharacteristicKind kind : kinds) {
+      const auto& g = rule.guard_band[kind];
+      const auto& u = rule.stated_uncertainty[kind];
+      if (!g && !u) continue;
+      const std::string word(characteristic_kind_word(kind));
+      std::size_t exceeded = 0;
+      std::string first;
+      for (const PlanBore& bore : plan_.bores) {
+        const std::optional<double> t = kind_tolerance(bore, kind);
+        if (!t || !(*t > 0.0)) continue;
+        if (g && *g > 0.5 * *t)
+          fail(where("guard_band", kind),
+               "the guard band " + shown(*g) + " " + unit_ + " for " + word +
+                   " is more than half of bore " + quoted_for_message(bore.id) + "'s " + word +
+                   " tolerance " + shown(*t) + " " + unit_ +
+                   ": the acceptance zone would keep less than half of it");
+        if (u && *u > *t && exceeded++ == 0)
+          first = "bore " + quoted_for_message(bore.id) + "'s " + word + " tolerance " + shown(*t) +
+                  " " + unit_;
+      }
+      if (exceeded > 0) {
+        const PlanLocation w = where("uncertainty", kind);
+        warnings_.push_back(
+            w.key + (w.line > 0 ? " (line " + std::to_string(w.line) + ")" : std::string()) +
+            ": the expanded uncertainty " + shown(*u) + " " + unit_ + " exceeds " + first +
+            (exceeded > 1 ? " (and " + std::to_string(exceeded - 1) + " more)" : std::string()) +
+            ": under the ISO 14253-1 rule no such value can be proven to conform");
+      }
+    }
+  }
+
+  void margin_in_bounds(double value, const PlanLocation& at, const std::string& what) const {
+    if (!(value >= 0.0)) fail(at, what + " must not be negative (found " + shown(value) + ")");
+    below_tolerance_ceiling(value, at, what);
+  }
+
+  /// The tolerance a guard band or U of `kind` is compared with, mm: the stated zone, or for a
+  /// size the span between its limits; none for a virtual condition (a boundary, not a zone).
+  static std::optional<double> kind_tolerance(const PlanBore& bore, CharacteristicKind kind) {
+    switch (kind) {
+      case CharacteristicKind::position:
+        if (bore.position) return bore.position->tolerance;
+        break;
+      case CharacteristicKind::perpendicularity:
+        if (bore.perpendicularity) return bore.perpendicularity->tolerance;
+        break;
+      case CharacteristicKind::size:
+        if (bore.size) return bore.size->upper - bore.size->lower;
+        break;
+      case CharacteristicKind::form: return bore.cylindricity;
+      case CharacteristicKind::virtual_condition: break;
+    }
+    return std::nullopt;
   }
 
   /// The part's identity ends up in CSV cells, a table header and JSON: one printable line each.

@@ -53,7 +53,11 @@ std::string format_csv(const ReportModel& m) {
          ",probed_span,evaluated_length,extrapolation_top,extrapolation_bottom,tilt_magnification,"
          "sections,section_points_min,section_points_median,coverage_deg,"
          "worst_section_coverage_deg,sampling_warnings,"
-         "scan_points,scan_angular_coverage_deg,scan_probed_depth,scan_nominal_depth\n";
+         "scan_points,scan_angular_coverage_deg,scan_probed_depth,scan_nominal_depth"
+         // The decision rule (decide/characteristic.hpp): `allowed` is the effective tolerance
+         // (after bonus); U and k empty when U was not evaluated.
+         ",rule,expanded_uncertainty,coverage_factor,acceptance_limit,rejection_limit,"
+         "uncertainty_source,rule_note\n";
   // Identity columns, the same on every row: rows of many parts can be told apart.
   const std::string identity = csv_field(m.part.id) + ',' + csv_field(m.part.serial) + ',' +
                                csv_field(m.part.timestamp) + ',' +
@@ -78,9 +82,15 @@ std::string format_csv(const ReportModel& m) {
     // What the bore took from a whole-part scan; empty when it has a point file of its own.
     if (const FeatureSegmentation* f = m.segmentation_of("bore " + c.feature))
       out << f->points << ',' << ReportUnits::fixed(*f->angular_coverage_deg, 1) << ','
-          << u.text(f->probed_span) << ',' << u.text(f->nominal_span) << '\n';
+          << u.text(f->probed_span) << ',' << u.text(f->nominal_span);
     else
-      out << ",,,\n";
+      out << ",,,";
+    const std::optional<ExpandedUncertainty>& un = c.uncertainty;
+    out << ',' << csv_field(decision_rule_name(c.rule)) << ','
+        << (un ? u.text(un->expanded) : std::string()) << ','
+        << (un ? ReportUnits::fixed(un->coverage_factor, 2) : std::string()) << ','
+        << u.text(c.acceptance_limit) << ',' << u.text(c.rejection_limit) << ','
+        << (un ? csv_field(un->source) : std::string()) << ',' << csv_field(c.rule_note) << '\n';
   }
   return out.str();
 }
