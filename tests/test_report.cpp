@@ -205,17 +205,21 @@ TEST_CASE("CSV: RFC 4180 quoting, four decimals in mm, one row per characteristi
         "probed_span,evaluated_length,extrapolation_top,extrapolation_bottom,tilt_magnification,"
         "sections,section_points_min,section_points_median,coverage_deg,"
         "worst_section_coverage_deg,sampling_warnings,"
-        "scan_points,scan_angular_coverage_deg,scan_probed_depth,scan_nominal_depth");
+        "scan_points,scan_angular_coverage_deg,scan_probed_depth,scan_nominal_depth,"
+        "rule,expanded_uncertainty,coverage_factor,acceptance_limit,rejection_limit,"
+        "uncertainty_source,rule_note");
+  // Simple acceptance, no U: both limits are the allowed value (decide/characteristic.hpp).
+  const std::string decision = ",simple acceptance,,,0.0900,0.0900,,";
   CHECK(first ==
         "\"Bracket, \"\"first\"\" article, rev B\",H1,\"position, frame fixed\",A|B(M) MMC,"
         "0.1000,0.0800,0.0100,0.0900,<=,does not conform,no,mm,H1/position," + caution +
-            ",,,,,plan depth,evaluated,,0" + ",,,,,,,,,,," + ",,,,");  // no sampling measured, no scan: empty
+            ",,,,,plan depth,evaluated,,0" + ",,,,,,,,,,," + ",,,," + decision);  // no sampling measured, no scan: empty
   CHECK(second ==
         "\"Bracket, \"\"first\"\" article, rev B\",H1,\"position, datum mobility\",A|B(M) MMC,"
         "0.0850,0.0800,0.0100,0.0900,<=,conforms,yes,mm,H1/position/mobility," + caution +
-            ",,,,,plan depth,evaluated,,0" + ",,,,,,,,,,," + ",,,,");
+            ",,,,,plan depth,evaluated,,0" + ",,,,,,,,,,," + ",,,," + decision);
   const std::vector<std::string> fields = csv_fields(second);
-  REQUIRE(fields.size() == 37);
+  REQUIRE(fields.size() == 44);
   CHECK(fields[0] == "Bracket, \"first\" article, rev B");
   CHECK(fields[13] == safety_caution);
 }
