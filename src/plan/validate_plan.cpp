@@ -583,8 +583,13 @@ class PlanRules {
         CharacteristicKind::size, CharacteristicKind::form, CharacteristicKind::virtual_condition};
     for (CharacteristicKind kind : kinds) {
       const std::string word(characteristic_kind_word(kind));
-      if (const auto& g = rule.guard_band[kind])
-        margin_in_bounds(*g, where("guard_band", kind), "the guard band for " + word);
+      if (const auto& g = rule.guard_band[kind]) {
+        // One band for every kind is named as written, once.
+        const PlanLocation w = where("guard_band", kind);
+        const bool own = w.key.size() > word.size() &&
+                         w.key.compare(w.key.size() - word.size(), word.size(), word) == 0;
+        margin_in_bounds(*g, w, own ? "the guard band for " + word : "the guard band");
+      }
       if (const auto& u = rule.stated_uncertainty[kind])
         margin_in_bounds(*u, where("uncertainty", kind), "the expanded uncertainty U of " + word);
     }
