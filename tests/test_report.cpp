@@ -710,3 +710,80 @@ TEST_CASE("sampling adequacy: JSON round trip, CSV's appended columns, one table
     CHECK(table.find(" 8.00 ") != std::string::npos);
   }
 }
+
+TEST_CASE("decision rule in the reports: U, k, rule and limits in JSON (read back), CSV, table, HTML") {
+  // ISO 14253-1:2017 default rule (decide/characteristic.hpp): H1's moved position 0.085 against
+  // 0.090 with U = 0.006 lies between 0.084 and 0.096: not proven; the mating envelope 11.9953
+  // is below 12.000 - 0.002: non-conformance proven.
+  PartCheckResult r = result_with_size(LengthUnit::millimetre);
+  DecisionRule rule;
+  rule.kind = DecisionRuleKind::iso_14253_1;
+  rule.stated_uncertainty[CharacteristicKind::position] = 0.006;
+  rule.stated_uncertainty[CharacteristicKind::size] = 0.002;
+  r.characteristics = bore_characteristics(r.bores.front(), rule);
+  r.verdict = combine(r.characteristics);
+  const ReportModel written = make_report_model(r);
+  const Characteristic* moved = written.find("H1/position/mobility");
+  REQUIRE(moved);
+  CHECK(moved->verdict == Verdict::not_proven);
+
+  const std::string json = format_json(written);
+  CHECK(json.find("\"effective_tolerance\": 0.09") != std::string::npos);
+  CHECK(json.find("\"rule\": \"ISO 14253-1\"") != std::string::npos);
+  const ReportModel read = read_report_json(json, "report.json");
+  REQUIRE(read.characteristics.size() == written.characteristics.size());
+  for (std::size_t k = 0; k < read.characteristics.size(); ++k) {
+    const Characteristic& a = written.characteristics[k];
+    const Characteristic& b = read.characteristics[k];
+    INFO(a.id);
+    CHECK(b.rule == a.rule);
+    CHECK(b.rule_note == a.rule_note);
+    CHECK(b.acceptance_limit == a.acceptance_limit);  // mm: shortest round-trip decimals
+    CHECK(b.rejection_limit == a.rejection_limit);
+    REQUIRE(b.uncertainty.has_value() == a.uncertainty.has_value());
+    if (a.uncertainty) {
+      CHECK(b.uncertainty->expanded == a.uncertainty->expanded);
+      CHECK(b.uncertainty->coverage_factor == a.uncertainty->coverage_factor);
+      CHECK(b.uncertainty->source == a.uncertainty->source);
+    }
+  }
+  // The cylindricity has no stated U: simple acceptance, and the JSON says why.
+  const Characteristic* form = read.find("H1/cylindricity");
+  REQUIRE(form);
+  CHECK(form->rule == DecisionRuleKind::simple_acceptance);
+  CHECK(form->rule_note == "U not evaluated: simple acceptance");
+  CHECK(format_csv(read) == format_csv(written));
+
+  // CSV: the decision columns appended last (docs/report-schema.md).
+  const std::string csv = format_csv(written);
+  CHECK(csv.find(",ISO 14253-1,0.0060,2.00,0.0840,0.0960,stated budget ([decision].uncertainty),\n") !=
+        std::string::npos);
+  CHECK(csv.find(",simple acceptance,,,0.0050,0.0050,,U not evaluated: simple acceptance\n") !=
+        std::string::npos);
+
+  // Table: U and the rule on each row, and a legend, only when a rule or a U is present.
+  const std::string table = format_table(written);
+  CHECK(table.find("ISO 14253-1: accept <= 0.0840, reject > 0.0960") != std::string::npos);
+  CHECK(table.find("ISO 14253-1: accept >= 12.0020, reject < 11.9980") != std::string::npos);
+  CHECK(table.find("simple acceptance (U not evaluated)") != std::string::npos);
+  CHECK(table.find("Decision rule: ISO 14253-1") != std::string::npos);
+  CHECK(format_table(result_with_size(LengthUnit::millimetre)).find("Decision rule") ==
+        std::string::npos);
+
+  // HTML: the characteristic table carries U (k) and the rule with its limits.
+  const std::string html = format_html(written);
+  CHECK(html.find("<th>U (k)</th><th>decision rule</th>") != std::string::npos);
+  CHECK(html.find("0.0060 (2.00)") != std::string::npos);
+  CHECK(html.find("accept &lt;= 0.0840, reject &gt; 0.0960") != std::string::npos);
+
+  // The reader refuses an unknown rule and a negative U, naming the JSON path.
+  std::string unknown = json;
+  unknown.replace(unknown.find("\"ISO 14253-1\""), 13, "\"lenient\"");
+  CHECK_THROWS_WITH(read_report_json(unknown, "r.json"),
+                    Catch::Matchers::Contains("rule") && Catch::Matchers::Contains("unknown decision rule 'lenient'"));
+  std::string negative = json;
+  negative.replace(negative.find("\"expanded\": 0.006"), 17, "\"expanded\": -0.006");
+  CHECK_THROWS_WITH(read_report_json(negative, "r.json"),
+                    Catch::Matchers::Contains("uncertainty.expanded") &&
+                        Catch::Matchers::Contains("must not be negative"));
+}
