@@ -763,8 +763,10 @@ TEST_CASE("decision rule in the reports: U, k, rule and limits in JSON (read bac
 
   // Table: U and the rule on each row, and a legend, only when a rule or a U is present.
   const std::string table = format_table(written);
-  CHECK(table.find("ISO 14253-1: accept <= 0.0840, reject > 0.0960") != std::string::npos);
-  CHECK(table.find("ISO 14253-1: accept >= 12.0020, reject < 11.9980") != std::string::npos);
+  // U, then the acceptance limit: 0.090 - 0.006 for the position, 12.000 + 0.002 for the
+  // lower size limit (ISO 14253-1:2017 logic).
+  CHECK(table.find("0.0060   0.0840  ISO 14253-1\n") != std::string::npos);
+  CHECK(table.find("0.0020  12.0020  ISO 14253-1\n") != std::string::npos);
   CHECK(table.find("simple acceptance (U not evaluated)") != std::string::npos);
   CHECK(table.find("Decision rule: ISO 14253-1") != std::string::npos);
   CHECK(format_table(result_with_size(LengthUnit::millimetre)).find("Decision rule") ==

@@ -297,9 +297,9 @@ std::string decision_legend(const ReportModel& m) {
   std::string text = "Decision rule: ";
   for (std::size_t k = 0; k < rules.size(); ++k) text += (k ? ", " : "") + rules[k];
   text += ". 'allowed' is the effective tolerance (after bonus). ISO 14253-1 (ISO 14253-1:2017 "
-          "default rule): conformance is proven inside the allowed limit reduced by U, "
-          "non-conformance beyond it enlarged by U, in between not proven; a guard band g "
-          "narrows and widens the limit by g the same way. U: expanded uncertainty";
+          "default rule): conformance is proven up to 'accept', the allowed limit reduced by U, "
+          "non-conformance beyond the allowed limit enlarged by U, in between not proven; a "
+          "guard band g moves both by g instead. U: expanded uncertainty";
   if (sources.empty()) text += " (none known)";
   else {
     text += " (";
@@ -349,20 +349,19 @@ std::string format_table(const ReportModel& m, const TableOptions& options) {
     rule_shown = rule_shown || c.rule != DecisionRuleKind::simple_acceptance ||
                  c.uncertainty.has_value() || !c.rule_note.empty();
   constexpr std::size_t verdict_w = 19;
-  if (rule_shown) out << std::string(verdict_w - 7, ' ') << pad_left("U", w) << "  rule";
+  if (rule_shown)
+    out << std::string(verdict_w - 7, ' ') << pad_left("U", w) << pad_left("accept", w)
+        << "  rule";
   out << '\n';
+  // U, the acceptance limit (the rejection limit mirrors it about `allowed`: legend) and the
+  // rule in force, with the reason when simple acceptance stood in for the rule asked for.
   const auto rule_columns = [&](const Characteristic& c, std::size_t verdict_columns) {
     if (!rule_shown) return std::string();
     std::string text = std::string(verdict_w - std::min(verdict_w - 1, verdict_columns), ' ');
     text += pad_left(c.uncertainty ? u.text(c.uncertainty->expanded) : std::string(sym.none), w);
+    text += pad_left(u.text(c.acceptance_limit), w);
     text += "  " + std::string(decision_rule_name(c.rule));
-    // The fallback says why: no guarded decision was made.
     if (!c.rule_note.empty()) text += " (" + c.rule_note.substr(0, c.rule_note.find(':')) + ")";
-    if (c.rule != DecisionRuleKind::simple_acceptance) {
-      const bool upper = c.comparison == Comparison::at_most;
-      text += ": accept " + std::string(upper ? "<= " : ">= ") + u.text(c.acceptance_limit) +
-              ", reject " + (upper ? "> " : "< ") + u.text(c.rejection_limit);
-    }
     return text;
   };
   std::string previous;

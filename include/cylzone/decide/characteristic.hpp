@@ -50,8 +50,9 @@ std::string_view comparison_symbol(Comparison comparison) noexcept;
 ///
 /// ISO 14253-1:2017 (clause 5 and its default rule, from memory for the clause numbers): the
 /// uncertainty counts against whoever proves, the supplier proving conformance, the customer
-/// non-conformance; a guard band of g = U is that default rule. ISO/IEC Guide 98-4 (JCGM
-/// 106:2012) describes acceptance zones reduced by a guard band the same way.
+/// non-conformance; a guard band of g = U is that default rule. ASME B89.7.3.1-2001 (guard bands
+/// agreed between the parties) and ISO/IEC Guide 98-4 (JCGM 106:2012, acceptance zones) describe
+/// guard bands the same way (from memory).
 enum class DecisionRuleKind {
   /// The value against the limit alone, uncertainty not counted (ISO 14253-1:2017 calls this
   /// simple acceptance when agreed; from memory).
@@ -69,7 +70,7 @@ std::optional<DecisionRuleKind> parse_decision_rule_word(std::string_view word) 
 /// The reverse of decision_rule_name (for reading reports back).
 std::optional<DecisionRuleKind> parse_decision_rule_name(std::string_view name) noexcept;
 
-/// The expanded uncertainty U of a characteristic's value (ISO/IEC Guide 98-3, GUM, section 6):
+/// The expanded uncertainty U of a characteristic's value (JCGM 100:2008, GUM, section 6):
 /// U = k u for a stated budget, or the half-width of a coverage interval (a Monte Carlo study,
 /// JCGM 101:2008), with k the coverage factor that goes with it.
 struct ExpandedUncertainty {
