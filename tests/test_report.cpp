@@ -774,7 +774,9 @@ TEST_CASE("decision rule in the reports: U, k, rule and limits in JSON (read bac
 
   // HTML: the characteristic table carries U (k) and the rule with its limits.
   const std::string html = format_html(written);
-  CHECK(html.find("<th>U (k)</th><th>decision rule</th>") != std::string::npos);
+  CHECK(html.find("<th>U (k), decision rule</th>") != std::string::npos);
+  CHECK(format_html(make_report_model(result_with_size(LengthUnit::millimetre)))
+            .find("<th>U (k), decision rule</th>") == std::string::npos);
   CHECK(html.find("0.0060 (2.00)") != std::string::npos);
   CHECK(html.find("accept &lt;= 0.0840, reject &gt; 0.0960") != std::string::npos);
 

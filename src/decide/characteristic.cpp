@@ -37,10 +37,6 @@ std::string_view decision_rule_word(DecisionRuleKind kind) noexcept {
 namespace {
 constexpr DecisionRuleKind kRules[] = {DecisionRuleKind::simple_acceptance,
                                        DecisionRuleKind::iso_14253_1, DecisionRuleKind::guard_band};
-constexpr CharacteristicKind kKinds[] = {CharacteristicKind::position,
-                                         CharacteristicKind::perpendicularity,
-                                         CharacteristicKind::size, CharacteristicKind::form,
-                                         CharacteristicKind::virtual_condition};
 }  // namespace
 
 std::optional<DecisionRuleKind> parse_decision_rule_word(std::string_view word) noexcept {
@@ -67,7 +63,7 @@ std::string_view characteristic_kind_word(CharacteristicKind kind) noexcept {
 }
 
 std::optional<CharacteristicKind> parse_characteristic_kind_word(std::string_view word) noexcept {
-  for (CharacteristicKind kind : kKinds)
+  for (CharacteristicKind kind : characteristic_kinds)
     if (characteristic_kind_word(kind) == word) return kind;
   return std::nullopt;
 }
@@ -139,6 +135,13 @@ void apply_decision(Characteristic& c, const DecisionRule& rule) {
   c.acceptance_limit = limits.acceptance;
   c.rejection_limit = limits.rejection;
   c.rule_note = limits.note;
+}
+
+bool decision_details_shown(const std::vector<Characteristic>& characteristics) noexcept {
+  for (const Characteristic& c : characteristics)
+    if (c.rule != DecisionRuleKind::simple_acceptance || c.uncertainty || !c.rule_note.empty())
+      return true;
+  return false;
 }
 
 Verdict combine(const std::vector<Characteristic>& characteristics) noexcept {

@@ -578,10 +578,7 @@ class PlanRules {
       const std::string name = table + "." + std::string(characteristic_kind_word(kind));
       return at.lines.count(name) || !at.lines.count(table) ? at.at(name) : at.at(table);
     };
-    constexpr CharacteristicKind kinds[] = {
-        CharacteristicKind::position, CharacteristicKind::perpendicularity,
-        CharacteristicKind::size, CharacteristicKind::form, CharacteristicKind::virtual_condition};
-    for (CharacteristicKind kind : kinds) {
+    for (CharacteristicKind kind : characteristic_kinds) {
       const std::string word(characteristic_kind_word(kind));
       if (const auto& g = rule.guard_band[kind]) {
         // One band for every kind is named as written, once.
@@ -607,7 +604,7 @@ class PlanRules {
     // refused as a likely typing error; a U above the tolerance is warned (no value of the kind
     // can then be proven to conform under the ISO 14253-1 rule). A zero tolerance at MMC or
     // LMC is all bonus and is not compared.
-    for (CharacteristicKind kind : kinds) {
+    for (CharacteristicKind kind : characteristic_kinds) {
       const auto& g = rule.guard_band[kind];
       const auto& u = rule.stated_uncertainty[kind];
       if (!g && !u) continue;

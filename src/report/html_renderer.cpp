@@ -591,8 +591,12 @@ void characteristic_rows(std::ostream& out, const ReportModel& m,
   out << "<table "
          "class=\"characteristics\"><thead><tr><th>characteristic</th><th>reference</th><th>value</"
          "th><th></th><th>limit</th>"
-         "<th>bonus</th><th>allowed</th><th>verdict</th><th>U (k)</th><th>decision rule</th>"
-         "</tr></thead><tbody>";
+         "<th>bonus</th><th>allowed</th><th>verdict</th>";
+  // The decision rule's column, only when a rule other than simple acceptance, a U or a
+  // fallback note is present (a plan without [decision] keeps the page as it was).
+  const bool rule_shown = decision_details_shown(m.characteristics);
+  if (rule_shown) out << "<th>U (k), decision rule</th>";
+  out << "</tr></thead><tbody>";
   bool comparison_only = false;
   for (const Characteristic& c : rows) {
     const bool evaluated = c.not_evaluated.empty();
@@ -611,13 +615,18 @@ void characteristic_rows(std::ostream& out, const ReportModel& m,
     if (!evaluated) out << "<br><span class=\"note\">" << esc(c.not_evaluated) << "</span>";
     // The decision rule (decide/characteristic.hpp): U with k, the rule, its limits, and why
     // simple acceptance stood in when it did.
-    out << "</td><td class=\"num\">";
+    out << "</td>";
+    if (!rule_shown) {
+      out << "</tr>";
+      continue;
+    }
+    out << "<td>";
     if (c.uncertainty)
-      out << u.text(c.uncertainty->expanded) << " (" << ReportUnits::fixed(c.uncertainty->coverage_factor, 2)
-          << ")";
+      out << u.text(c.uncertainty->expanded) << " ("
+          << ReportUnits::fixed(c.uncertainty->coverage_factor, 2) << ")";
     else
       out << "\u2014";
-    out << "</td><td>" << esc(decision_rule_name(c.rule));
+    out << "<br>" << esc(decision_rule_name(c.rule));
     if (c.rule != DecisionRuleKind::simple_acceptance) {
       const bool upper = c.comparison == Comparison::at_most;
       out << "<br><span class=\"note\">accept " << esc(upper ? "<= " : ">= ")

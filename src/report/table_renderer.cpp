@@ -344,10 +344,7 @@ std::string format_table(const ReportModel& m, const TableOptions& options) {
       << pad_left("allowed", w) << "   verdict";
   // The decision rule's columns, only when a rule other than simple acceptance was asked for or
   // a U is known (a plan without [decision] keeps the table as it was).
-  bool rule_shown = false;
-  for (const Characteristic& c : m.characteristics)
-    rule_shown = rule_shown || c.rule != DecisionRuleKind::simple_acceptance ||
-                 c.uncertainty.has_value() || !c.rule_note.empty();
+  const bool rule_shown = decision_details_shown(m.characteristics);
   constexpr std::size_t verdict_w = 19;
   if (rule_shown)
     out << std::string(verdict_w - 7, ' ') << pad_left("U", w) << pad_left("accept", w)

@@ -84,6 +84,9 @@ struct ExpandedUncertainty {
 /// Which entry of a per-kind table (a stated budget, guard bands) a characteristic takes.
 enum class CharacteristicKind { position, perpendicularity, size, form, virtual_condition };
 inline constexpr std::size_t characteristic_kind_count = 5;
+inline constexpr std::array<CharacteristicKind, characteristic_kind_count> characteristic_kinds = {
+    CharacteristicKind::position, CharacteristicKind::perpendicularity, CharacteristicKind::size,
+    CharacteristicKind::form, CharacteristicKind::virtual_condition};
 /// The plan's words: "position", "perpendicularity", "size", "form", "virtual_condition".
 std::string_view characteristic_kind_word(CharacteristicKind kind) noexcept;
 std::optional<CharacteristicKind> parse_characteristic_kind_word(std::string_view word) noexcept;
@@ -171,6 +174,11 @@ Verdict decide(const Characteristic& characteristic, const DecisionRule& rule = 
 
 /// Decides `characteristic` in place: its verdict, the rule in force, the limits and the note.
 void apply_decision(Characteristic& characteristic, const DecisionRule& rule);
+
+/// Whether a report must show the decision rule's details for these characteristics: any has a
+/// rule other than simple acceptance, a known U, or a note that simple acceptance stood in.
+/// Without them the reports read as they did before decision rules existed.
+bool decision_details_shown(const std::vector<Characteristic>& characteristics) noexcept;
 
 /// The decision of a feature or a part from its characteristics' verdicts (already decided):
 /// does_not_conform when any decisive one does not conform, else not_proven when any decisive
