@@ -355,3 +355,25 @@ TEST_CASE("bore characteristics take the rule's stated U per kind", "[decide][ru
   CHECK_FALSE(form->rule_note.empty());
   CHECK(combine(cs) == Verdict::not_proven);
 }
+
+TEST_CASE("a bore's own stated U replaces the budget's for that bore", "[decide][rules]") {
+  BoreResult b;
+  b.id = "P3";
+  b.position = position(0.0306, 0.025, 0.0098);  // allowed 0.0348
+  PlanBore plan;
+  plan.id = "P3";
+  plan.uncertainty[CharacteristicKind::position] = 0.003;
+  DecisionRule rule = rule_of(DecisionRuleKind::iso_14253_1);
+  rule.stated_uncertainty[CharacteristicKind::position] = 0.005;
+  // Budget U 0.005: 0.0306 > 0.0348 - 0.005, not proven; the bore's U 0.003: 0.0306 <= 0.0318,
+  // conforms (ISO 14253-1:2017 logic).
+  CHECK(find_characteristic(bore_characteristics(b, rule), "P3/position")->verdict ==
+        Verdict::not_proven);
+  const std::vector<Characteristic> own = bore_characteristics(b, plan, rule);
+  const Characteristic* p = find_characteristic(own, "P3/position");
+  REQUIRE(p);
+  REQUIRE(p->uncertainty);
+  CHECK(p->uncertainty->expanded == 0.003);
+  CHECK(p->uncertainty->source == "stated budget (bore P3)");
+  CHECK(p->verdict == Verdict::conforms);
+}

@@ -1267,3 +1267,23 @@ TEST_CASE("a stated U larger than a tolerance of its kind is warned, not refused
                       std::to_string(line_of(text, "uncertainty =")) + ")") &&
                  Contains("0.009 mm exceeds bore \"P2\"'s form tolerance 0.008 mm"));
 }
+
+TEST_CASE("a bore's own stated uncertainty, bounded and warned like the plan's", "[plan][decision]") {
+  const std::string text = replaced(
+      with_decision("rule = \"iso-14253-1\"\nuncertainty = { position = 0.0015 }\n"),
+      "perpendicularity = { tolerance = 0.010 }",
+      "perpendicularity = { tolerance = 0.010 }\nuncertainty = { position = 0.003, perpendicularity = 0.012 }");
+  const PartPlan plan = parse_plan(text, kPlanFile, false);
+  CHECK(*plan.bores[0].uncertainty[CharacteristicKind::position] == 0.003);
+  CHECK(*plan.bores[0].uncertainty[CharacteristicKind::perpendicularity] == 0.012);
+  CHECK_FALSE(plan.bores[1].uncertainty.any());
+  // 0.012 above P1's perpendicularity tolerance 0.010: warned (docs/plan.md, rule 37).
+  REQUIRE(plan.warnings.size() == 1);
+  CHECK_THAT(plan.warnings[0], Contains("bore[P1].uncertainty.perpendicularity") &&
+                                   Contains("exceeds the bore's perpendicularity tolerance 0.01 mm"));
+  check_error(replaced(kBase, "cylindricity = 0.008", "cylindricity = 0.008\nuncertainty = { form = -1 }"),
+              "uncertainty =", "bore[P2].uncertainty.form",
+              "the expanded uncertainty U of form must not be negative");
+  check_error(replaced(kBase, "cylindricity = 0.008", "cylindricity = 0.008\nuncertainty = { form = 0.001, k = 2 }"),
+              "uncertainty =", "bore[P2].uncertainty.k", "unknown key in bore[P2].uncertainty");
+}

@@ -362,7 +362,8 @@ std::vector<BoreSensitivity> association_sensitivity(const PartPlan& plan,
       if (!moved[i].evaluated()) continue;  // skipped: see below
       AssociationSensitivity row;
       row.association = method;
-      const std::vector<Characteristic> decided = bore_characteristics(moved[i], rule);
+      const std::vector<Characteristic> decided =
+          bore_characteristics(moved[i], plan.bores[i], rule);
       if (const Characteristic* p = deciding_position(decided, moved[i].id)) {
         row.position = p->value;
         row.position_verdict = p->verdict;

@@ -145,7 +145,7 @@ constexpr auto kDatumCAnyKeys = keys("feature", "points", "basic", "size", "mmb"
 constexpr auto kBoreKeys =
     keys("id", "points", "basic", "direction", "depth", "size", "axis", "section_gap",
          "position", "perpendicularity", "cylindricity", "axis_direction", "probe",
-         "nominal_size", "sampling");
+         "nominal_size", "sampling", "uncertainty");
 constexpr auto kSizeKeys = keys("lower", "upper");
 constexpr auto kDepthKeys = keys("top", "bottom");
 constexpr auto kPositionKeys = keys("tolerance", "modifier", "datums", "projected",
@@ -609,6 +609,8 @@ class PlanParser {
       bore.probe = read_probe_table(*probe, path + ".probe");
     if (const toml::node* sampling = table.get("sampling"))
       bore.sampling = read_sampling(*sampling, path + ".sampling");
+    if (const toml::node* budget = table.get("uncertainty"))
+      bore.uncertainty = read_kind_lengths(*budget, path + ".uncertainty", kKindKeys);
     return bore;
   }
 

@@ -404,6 +404,7 @@ class PlanRules {
     if (bore.size) check_size(*bore.size, at.at("size"));
     if (bore.section_gap) positive_length(*bore.section_gap, at.at("section_gap"), "the section gap");
     check_sampling(bore.sampling, at, "sampling");
+    check_bore_uncertainty(bore, at);
     // ---- axis_direction (docs/plan.md): a value the reader knows; a derived median line is
     // made of section centres and has no single direction to hold.
     if (bore.axis_direction != AxisDirection::fitted &&
@@ -632,6 +633,23 @@ class PlanRules {
             (exceeded > 1 ? " (and " + std::to_string(exceeded - 1) + " more)" : std::string()) +
             ": under the ISO 14253-1 rule no such value can be proven to conform");
       }
+    }
+  }
+
+  /// A bore's own stated U (docs/plan.md, rules 34 and 37, for the bore alone).
+  void check_bore_uncertainty(const PlanBore& bore, const PlanLocation& at) const {
+    for (CharacteristicKind kind : characteristic_kinds) {
+      const auto& u = bore.uncertainty[kind];
+      if (!u) continue;
+      const std::string word(characteristic_kind_word(kind));
+      const PlanLocation w = at.at("uncertainty." + word);
+      margin_in_bounds(*u, w, "the expanded uncertainty U of " + word);
+      const std::optional<double> t = kind_tolerance(bore, kind);
+      if (t && *t > 0.0 && *u > *t)
+        warnings_.push_back(w.key + (w.line > 0 ? " (line " + std::to_string(w.line) + ")" : std::string()) +
+                            ": the expanded uncertainty " + shown(*u) + " " + unit_ +
+                            " exceeds the bore's " + word + " tolerance " + shown(*t) + " " + unit_ +
+                            ": under the ISO 14253-1 rule no such value can be proven to conform");
     }
   }
 

@@ -48,6 +48,7 @@ std::vector<Characteristic> bore_characteristics(const BoreResult& bore,
 /// the frame move, "<bore>/perpendicularity", "<bore>/size/lower", "<bore>/size/upper",
 /// "<bore>/cylindricity", "<bore>/virtual-condition"), each not proven with the bore's reason
 /// in Characteristic::not_evaluated; tolerances and limits from the plan, no bonus.
+/// The bore's own stated uncertainty (PlanBore::uncertainty) replaces the rule's, kind by kind.
 std::vector<Characteristic> bore_characteristics(const BoreResult& bore, const PlanBore& plan,
                                                  const DecisionRule& rule = {});
 

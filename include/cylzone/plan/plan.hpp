@@ -203,6 +203,9 @@ struct PlanBore {
   PlanLocation where;
   /// Sampling thresholds: the bore's own `sampling` table, else the plan-wide [sampling].
   PlanSampling sampling;
+  /// The bore's own stated expanded uncertainty per kind (plan key `uncertainty`, mm): each
+  /// value given replaces the [decision] budget's for this bore (bore_characteristics).
+  PerKindLength uncertainty;
 };
 
 // ---- One cloud of the whole part (docs/plan.md, "[scan]").
