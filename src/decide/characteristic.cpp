@@ -71,9 +71,9 @@ std::optional<CharacteristicKind> parse_characteristic_kind_word(std::string_vie
 std::optional<CharacteristicKind> characteristic_kind(const Characteristic& c) {
   // The id is "<feature>/<kind>[/<qualifier>]" (the file comment of characteristic.hpp).
   std::string_view id = c.id;
-  if (!c.feature.empty() && id.size() > c.feature.size() && id.substr(0, c.feature.size()) == c.feature &&
-      id[c.feature.size()] == '/')
-    id.remove_prefix(c.feature.size() + 1);
+  const std::size_t f = c.feature.size();
+  if (f > 0 && id.size() > f && id.substr(0, f) == c.feature && id[f] == '/')
+    id.remove_prefix(f + 1);
   else if (const std::size_t slash = id.find('/'); slash != std::string_view::npos)
     id.remove_prefix(slash + 1);
   const std::string_view kind = id.substr(0, id.find('/'));

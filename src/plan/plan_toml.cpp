@@ -911,9 +911,11 @@ class PlanParser {
       }
     }
     if (const toml::node* budget = table.get("uncertainty")) {
-      rule.stated_uncertainty = read_kind_lengths(*budget, "decision.uncertainty", kUncertaintyKeys);
+      rule.stated_uncertainty =
+          read_kind_lengths(*budget, "decision.uncertainty", kUncertaintyKeys);
       if (const toml::node* k = budget->as_table()->get("k"))
-        rule.coverage_factor = read_number(*k, "decision.uncertainty.k", "a coverage factor (a number)");
+        rule.coverage_factor =
+            read_number(*k, "decision.uncertainty.k", "a coverage factor (a number)");
     }
     return decision;
   }
@@ -928,7 +930,8 @@ class PlanParser {
     PerKindLength lengths;
     for (auto&& [key, value] : table)
       if (const auto kind = parse_characteristic_kind_word(key.str()))
-        lengths[*kind] = read_length(value, path + "." + std::string(key.str()), "a length (a number)");
+        lengths[*kind] =
+            read_length(value, path + "." + std::string(key.str()), "a length (a number)");
     return lengths;
   }
 

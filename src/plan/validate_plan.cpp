@@ -21,6 +21,9 @@ namespace {
 using detail::plan_number_text;
 
 constexpr double pi = 3.14159265358979323846;
+/// Why a stated U above a tolerance is warned about (docs/plan.md, rule 37).
+constexpr const char* kNoConformance =
+    "under the ISO 14253-1 rule no such value can be proven to conform";
 
 /// Checks one plan; holds the file name and unit that every message needs.
 class PlanRules {
@@ -51,6 +54,13 @@ class PlanRules {
  private:
   [[noreturn]] void fail(const PlanLocation& at, const std::string& problem) const {
     throw InputError(file_name_, at.line, problem, at.key);
+  }
+
+  /// A plausibility warning: "key (line N): message", the line left out for a plan built in code.
+  void warn(const PlanLocation& at, const std::string& message) const {
+    warnings_.push_back(at.key +
+                        (at.line > 0 ? " (line " + std::to_string(at.line) + ")" : std::string()) +
+                        ": " + message);
   }
 
   /// A length as written in the plan (its unit), for messages.
@@ -564,9 +574,7 @@ class PlanRules {
     if (!finding) return;
     const PlanLocation at = tolerance_location(t, bore_at, name).at("tolerance");
     if (finding->error) fail(at, finding->message);
-    warnings_.push_back(at.key +
-                        (at.line > 0 ? " (line " + std::to_string(at.line) + ")" : std::string()) +
-                        ": " + finding->message);
+    warn(at, finding->message);
   }
 
   /// The [decision] table (docs/plan.md, rules 34 to 37; docs/evaluation.md, "Decision rules").
@@ -626,12 +634,11 @@ class PlanRules {
                   " " + unit_;
       }
       if (exceeded > 0) {
-        const PlanLocation w = where("uncertainty", kind);
-        warnings_.push_back(
-            w.key + (w.line > 0 ? " (line " + std::to_string(w.line) + ")" : std::string()) +
-            ": the expanded uncertainty " + shown(*u) + " " + unit_ + " exceeds " + first +
-            (exceeded > 1 ? " (and " + std::to_string(exceeded - 1) + " more)" : std::string()) +
-            ": under the ISO 14253-1 rule no such value can be proven to conform");
+        warn(where("uncertainty", kind),
+             "the expanded uncertainty " + shown(*u) + " " + unit_ + " exceeds " + first +
+                 (exceeded > 1 ? " (and " + std::to_string(exceeded - 1) + " more)"
+                               : std::string()) +
+                 ": " + kNoConformance);
       }
     }
   }
@@ -646,10 +653,8 @@ class PlanRules {
       margin_in_bounds(*u, w, "the expanded uncertainty U of " + word);
       const std::optional<double> t = kind_tolerance(bore, kind);
       if (t && *t > 0.0 && *u > *t)
-        warnings_.push_back(w.key + (w.line > 0 ? " (line " + std::to_string(w.line) + ")" : std::string()) +
-                            ": the expanded uncertainty " + shown(*u) + " " + unit_ +
-                            " exceeds the bore's " + word + " tolerance " + shown(*t) + " " + unit_ +
-                            ": under the ISO 14253-1 rule no such value can be proven to conform");
+        warn(w, "the expanded uncertainty " + shown(*u) + " " + unit_ + " exceeds the bore's " +
+                    word + " tolerance " + shown(*t) + " " + unit_ + ": " + kNoConformance);
     }
   }
 

@@ -291,7 +291,8 @@ std::string decision_legend(const ReportModel& m) {
   for (const Characteristic& c : m.characteristics) {
     add(rules, std::string(decision_rule_name(c.rule)));
     if (c.uncertainty)
-      add(sources, c.uncertainty->source + ", k = " + ReportUnits::fixed(c.uncertainty->coverage_factor, 2));
+      add(sources,
+          c.uncertainty->source + ", k = " + ReportUnits::fixed(c.uncertainty->coverage_factor, 2));
     fallback = fallback || !c.rule_note.empty();
   }
   std::string text = "Decision rule: ";

@@ -76,8 +76,8 @@ std::optional<DecisionRuleKind> parse_decision_rule_name(std::string_view name) 
 struct ExpandedUncertainty {
   double expanded = 0.0;         ///< U, mm, >= 0
   double coverage_factor = 2.0;  ///< k (about 95 % coverage for a normal distribution)
-  /// Where U came from, one printable line, e.g. "stated budget ([decision].uncertainty.position)"
-  /// or "Monte Carlo, 10000 trials".
+  /// Where U came from, one printable line, e.g. "stated budget ([decision].uncertainty)",
+  /// "stated budget (bore P3)" or, from a Monte Carlo study, its trial count and coverage.
   std::string source;
 };
 
@@ -121,6 +121,7 @@ struct DecisionRule {
   PerKindLength stated_uncertainty;
   double coverage_factor = 2.0;
 };
+
 struct Characteristic {
   std::string id;         ///< stable identity, see the file comment
   std::string feature;    ///< the bore's or datum's id, e.g. "P2"
