@@ -142,3 +142,238 @@ TEST_CASE("bore characteristics: stable ids, decisive flags, Rule #1 size limits
   CHECK(size_reason(no_pairs, "P2") ==
         "minimum material envelope 10.0160 exceeds the upper limit 10.0150");
 }
+
+// ---- Decision rules (decide/characteristic.hpp; docs/evaluation.md, "Decision rules").
+//
+// ISO 14253-1:2017 (clause 5 and its default rule; from memory for the clause numbers): with an
+// expanded uncertainty U, conformance is proven when the measured value lies in the
+// specification zone reduced by U at the limit, non-conformance when it lies outside the zone
+// enlarged by U; in between neither is proven. Simple acceptance compares with the limit alone;
+// a guard band g agreed between customer and supplier moves both thresholds by g instead of U
+// (ISO/IEC Guide 98-4, JCGM 106:2012, acceptance zones with guard bands; from memory).
+
+namespace {
+
+constexpr double eps = 1e-6;  // far beyond the rounding slack (1e-12), far below U
+
+Characteristic with_u(Characteristic c, double expanded) {
+  c.uncertainty = ExpandedUncertainty{expanded, 2.0, "test budget"};
+  return c;
+}
+
+Characteristic lower_limit(double value, double limit) {
+  Characteristic c;
+  c.id = "H1/size/lower";
+  c.feature = "H1";
+  c.value = value;
+  c.tolerance = c.allowed = limit;
+  c.comparison = Comparison::at_least;
+  return c;
+}
+
+DecisionRule rule_of(DecisionRuleKind kind) {
+  DecisionRule r;
+  r.kind = kind;
+  return r;
+}
+
+}  // namespace
+
+TEST_CASE("ISO 14253-1 default rule: an upper limit at T - U, T and T + U", "[decide][rules]") {
+  // T = 0.030 (a position zone), U = 0.004 (k = 2). ISO 14253-1:2017 logic: accept at or below
+  // T - U = 0.026, reject above T + U = 0.034, not proven between (both ends of the band included
+  // in "not proven" beyond the acceptance limit, the rejection limit itself not proven).
+  const DecisionRule iso = rule_of(DecisionRuleKind::iso_14253_1);
+  const double T = 0.030, U = 0.004;
+  CHECK(decide(with_u(zone(T - U - eps, T), U), iso) == Verdict::conforms);
+  CHECK(decide(with_u(zone(T - U, T), U), iso) == Verdict::conforms);
+  CHECK(decide(with_u(zone(T - U / 2, T), U), iso) == Verdict::not_proven);
+  CHECK(decide(with_u(zone(T, T), U), iso) == Verdict::not_proven);
+  CHECK(decide(with_u(zone(T + U / 2, T), U), iso) == Verdict::not_proven);
+  CHECK(decide(with_u(zone(T + U, T), U), iso) == Verdict::not_proven);
+  CHECK(decide(with_u(zone(T + U + eps, T), U), iso) == Verdict::does_not_conform);
+  // The bonus enlarges the limit first (ASME Y14.5-2018; common practice): T + bonus is the
+  // effective tolerance U is applied to. 0.030 + 0.005 - 0.004 = 0.031.
+  CHECK(decide(with_u(zone(0.031 - eps, T, 0.005), U), iso) == Verdict::conforms);
+  CHECK(decide(with_u(zone(0.031 + eps, T, 0.005), U), iso) == Verdict::not_proven);
+
+  Characteristic c = with_u(zone(T, T), U);
+  apply_decision(c, iso);
+  CHECK(c.verdict == Verdict::not_proven);
+  CHECK(c.rule == DecisionRuleKind::iso_14253_1);
+  CHECK(c.acceptance_limit == Approx(T - U));
+  CHECK(c.rejection_limit == Approx(T + U));
+  CHECK(c.rule_note.empty());
+}
+
+TEST_CASE("ISO 14253-1 default rule: a lower limit at L + U, L and L - U", "[decide][rules]") {
+  // A lower limit of size L = 12.000, U = 0.002: the zone lies above L, so it is reduced to
+  // L + U for acceptance and enlarged to L - U for rejection (ISO 14253-1:2017 logic).
+  const DecisionRule iso = rule_of(DecisionRuleKind::iso_14253_1);
+  const double L = 12.000, U = 0.002;
+  CHECK(decide(with_u(lower_limit(L + U + eps, L), U), iso) == Verdict::conforms);
+  CHECK(decide(with_u(lower_limit(L + U, L), U), iso) == Verdict::conforms);
+  CHECK(decide(with_u(lower_limit(L + U / 2, L), U), iso) == Verdict::not_proven);
+  CHECK(decide(with_u(lower_limit(L, L), U), iso) == Verdict::not_proven);
+  CHECK(decide(with_u(lower_limit(L - U, L), U), iso) == Verdict::not_proven);
+  CHECK(decide(with_u(lower_limit(L - U - eps, L), U), iso) == Verdict::does_not_conform);
+  Characteristic c = with_u(lower_limit(L, L), U);
+  apply_decision(c, iso);
+  CHECK(c.acceptance_limit == Approx(L + U));
+  CHECK(c.rejection_limit == Approx(L - U));
+}
+
+TEST_CASE("simple acceptance ignores U: only the limit itself decides", "[decide][rules]") {
+  // ISO 14253-1:2017 allows simple acceptance when agreed (from memory): conforms up to T,
+  // does not conform beyond; never not proven, whatever U is known.
+  const DecisionRule simple = rule_of(DecisionRuleKind::simple_acceptance);
+  const double T = 0.030, U = 0.004;
+  for (double v : {T - U - eps, T - U, T - U / 2, T})
+    CHECK(decide(with_u(zone(v, T), U), simple) == Verdict::conforms);
+  for (double v : {T + eps, T + U, T + U + eps})
+    CHECK(decide(with_u(zone(v, T), U), simple) == Verdict::does_not_conform);
+  const double L = 12.000;
+  CHECK(decide(with_u(lower_limit(L, L), U), simple) == Verdict::conforms);
+  CHECK(decide(with_u(lower_limit(L - eps, L), U), simple) == Verdict::does_not_conform);
+  Characteristic c = with_u(zone(T, T), U);
+  apply_decision(c, simple);
+  CHECK(c.acceptance_limit == T);
+  CHECK(c.rejection_limit == T);
+  CHECK(c.uncertainty->expanded == U);  // shown, not counted
+}
+
+TEST_CASE("guard band: acceptance within T - g, rejection beyond T + g", "[decide][rules]") {
+  // An agreed guard band g (JCGM 106:2012, guarded acceptance and rejection; from memory):
+  // g replaces U in the thresholds, whatever U is known.
+  DecisionRule banded = rule_of(DecisionRuleKind::guard_band);
+  const double T = 0.030, g = 0.003;
+  banded.guard_band[CharacteristicKind::position] = g;
+  banded.guard_band[CharacteristicKind::size] = 0.001;
+  CHECK(decide(with_u(zone(T - g - eps, T), 0.004), banded) == Verdict::conforms);
+  CHECK(decide(zone(T - g, T), banded) == Verdict::conforms);
+  CHECK(decide(zone(T - g + eps, T), banded) == Verdict::not_proven);
+  CHECK(decide(zone(T, T), banded) == Verdict::not_proven);
+  CHECK(decide(zone(T + g, T), banded) == Verdict::not_proven);
+  CHECK(decide(zone(T + g + eps, T), banded) == Verdict::does_not_conform);
+  // Lower limit with its kind's band (size: 0.001).
+  CHECK(decide(lower_limit(12.001, 12.0), banded) == Verdict::conforms);
+  CHECK(decide(lower_limit(12.0005, 12.0), banded) == Verdict::not_proven);
+  CHECK(decide(lower_limit(11.999 - eps, 12.0), banded) == Verdict::does_not_conform);
+
+  // A guard band of U is the ISO 14253-1 default rule (ISO 14253-1:2017; from memory): the
+  // same verdict everywhere across the band.
+  DecisionRule as_u = rule_of(DecisionRuleKind::guard_band);
+  const double U = 0.004;
+  as_u.guard_band[CharacteristicKind::position] = U;
+  for (double v = T - 2 * U; v <= T + 2 * U; v += U / 8)
+    CHECK(decide(with_u(zone(v, T), U), as_u) ==
+          decide(with_u(zone(v, T), U), rule_of(DecisionRuleKind::iso_14253_1)));
+
+  // A kind without a band falls back to simple acceptance, and says so.
+  Characteristic form;
+  form.id = "H1/cylindricity";
+  form.feature = "H1";
+  form.value = form.tolerance = form.allowed = 0.008;
+  apply_decision(form, banded);
+  CHECK(form.verdict == Verdict::conforms);
+  CHECK(form.rule == DecisionRuleKind::simple_acceptance);
+  CHECK_THAT(form.rule_note, Catch::Matchers::Contains("no guard band"));
+}
+
+TEST_CASE("the ISO rule without a known U falls back to simple acceptance, marked", "[decide][rules]") {
+  // docs/evaluation.md: a row decided without U must never read as a guarded decision.
+  const DecisionRule iso = rule_of(DecisionRuleKind::iso_14253_1);
+  Characteristic on = zone(0.030, 0.030);
+  apply_decision(on, iso);
+  CHECK(on.verdict == Verdict::conforms);
+  CHECK(on.rule == DecisionRuleKind::simple_acceptance);
+  CHECK(on.rule_note == "U not evaluated: simple acceptance");
+  Characteristic beyond = zone(0.030 + eps, 0.030);
+  apply_decision(beyond, iso);
+  CHECK(beyond.verdict == Verdict::does_not_conform);
+  // A characteristic not evaluated proves nothing under any rule.
+  for (DecisionRuleKind kind : {DecisionRuleKind::simple_acceptance, DecisionRuleKind::iso_14253_1,
+                                DecisionRuleKind::guard_band}) {
+    Characteristic missing = with_u(zone(0.0, 0.030), 0.001);
+    missing.not_evaluated = "no points";
+    CHECK(decide(missing, rule_of(kind)) == Verdict::not_proven);
+  }
+}
+
+TEST_CASE("rule words and kinds: names round trip, ids map to kinds", "[decide][rules]") {
+  for (DecisionRuleKind kind : {DecisionRuleKind::simple_acceptance, DecisionRuleKind::iso_14253_1,
+                                DecisionRuleKind::guard_band}) {
+    CHECK(parse_decision_rule_word(decision_rule_word(kind)) == kind);
+    CHECK(parse_decision_rule_name(decision_rule_name(kind)) == kind);
+  }
+  CHECK_FALSE(parse_decision_rule_word("strict"));
+  CHECK(decision_rule_word(DecisionRuleKind::iso_14253_1) == "iso-14253-1");
+  const auto kind_of = [](const std::string& feature, const std::string& id) {
+    Characteristic c;
+    c.feature = feature;
+    c.id = id;
+    return characteristic_kind(c);
+  };
+  CHECK(kind_of("P2", "P2/position/mobility") == CharacteristicKind::position);
+  CHECK(kind_of("P2", "P2/size/lower/two-point") == CharacteristicKind::size);
+  CHECK(kind_of("P2", "P2/cylindricity") == CharacteristicKind::form);
+  CHECK(kind_of("P2", "P2/virtual-condition") == CharacteristicKind::virtual_condition);
+  CHECK(kind_of("A/1", "A/1/perpendicularity") == CharacteristicKind::perpendicularity);
+  CHECK_FALSE(kind_of("P2", "P2/flatness"));
+}
+
+TEST_CASE("bore characteristics take the rule's stated U per kind", "[decide][rules]") {
+  BoreResult b;
+  b.id = "P3";
+  b.position = position(0.0306, 0.025, 0.0098);  // allowed 0.0348
+  b.size.limits = SizeLimits{12.000, 12.018};
+  b.size.mating_envelope = 12.0098;
+  b.size.minimum_material_envelope = 12.0152;
+  b.form.cylindricity = 0.0062;
+  b.form.tolerance = 0.008;
+  DecisionRule rule = rule_of(DecisionRuleKind::iso_14253_1);
+  rule.stated_uncertainty[CharacteristicKind::position] = 0.005;
+  rule.stated_uncertainty[CharacteristicKind::size] = 0.0008;
+  rule.coverage_factor = 2.5;
+  const std::vector<Characteristic> cs = bore_characteristics(b, rule);
+  const Characteristic* p = find_characteristic(cs, "P3/position");
+  REQUIRE(p);
+  REQUIRE(p->uncertainty);
+  CHECK(p->uncertainty->expanded == 0.005);
+  CHECK(p->uncertainty->coverage_factor == 2.5);
+  CHECK_THAT(p->uncertainty->source, Catch::Matchers::Contains("stated budget"));
+  // 0.0306 lies between 0.0348 - 0.005 and 0.0348 + 0.005: not proven (ISO 14253-1 logic).
+  CHECK(p->verdict == Verdict::not_proven);
+  CHECK(p->acceptance_limit == Approx(0.0348 - 0.005));
+  const Characteristic* lower = find_characteristic(cs, "P3/size/lower");
+  REQUIRE(lower);
+  CHECK(lower->verdict == Verdict::conforms);  // 12.0098 >= 12.0008
+  const Characteristic* form = find_characteristic(cs, "P3/cylindricity");
+  REQUIRE(form);
+  CHECK_FALSE(form->uncertainty);  // no U stated for form: simple acceptance, marked
+  CHECK(form->rule == DecisionRuleKind::simple_acceptance);
+  CHECK_FALSE(form->rule_note.empty());
+  CHECK(combine(cs) == Verdict::not_proven);
+}
+
+TEST_CASE("a bore's own stated U replaces the budget's for that bore", "[decide][rules]") {
+  BoreResult b;
+  b.id = "P3";
+  b.position = position(0.0306, 0.025, 0.0098);  // allowed 0.0348
+  PlanBore plan;
+  plan.id = "P3";
+  plan.uncertainty[CharacteristicKind::position] = 0.003;
+  DecisionRule rule = rule_of(DecisionRuleKind::iso_14253_1);
+  rule.stated_uncertainty[CharacteristicKind::position] = 0.005;
+  // Budget U 0.005: 0.0306 > 0.0348 - 0.005, not proven; the bore's U 0.003: 0.0306 <= 0.0318,
+  // conforms (ISO 14253-1:2017 logic).
+  CHECK(find_characteristic(bore_characteristics(b, rule), "P3/position")->verdict ==
+        Verdict::not_proven);
+  const std::vector<Characteristic> own = bore_characteristics(b, plan, rule);
+  const Characteristic* p = find_characteristic(own, "P3/position");
+  REQUIRE(p);
+  REQUIRE(p->uncertainty);
+  CHECK(p->uncertainty->expanded == 0.003);
+  CHECK(p->uncertainty->source == "stated budget (bore P3)");
+  CHECK(p->verdict == Verdict::conforms);
+}

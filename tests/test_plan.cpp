@@ -1157,3 +1157,133 @@ TEST_CASE("sampling thresholds: plan-wide [sampling], overridden per bore, value
   check_error(replaced(kBase, "units = \"mm\"", "units = \"mm\"\n[sampling]\nmin_coverage = \"half\"\n"),
               "min_coverage", "sampling.min_coverage", "expected an angle in degrees (a number), found a string");
 }
+
+namespace {
+/// kBase with a [decision] table of `body` after the units.
+std::string with_decision(const std::string& body) {
+  return replaced(kBase, "units = \"mm\"", "units = \"mm\"\n[decision]\n" + body);
+}
+}  // namespace
+
+TEST_CASE("the [decision] table: rule, guard band, stated uncertainty budget", "[plan][decision]") {
+  // Without the table: simple acceptance and no U, as before the table existed.
+  const PartPlan plain = parse_plan(kBase, kPlanFile, false);
+  CHECK(plain.decision.rule.kind == DecisionRuleKind::simple_acceptance);
+  CHECK_FALSE(plain.decision.rule.stated_uncertainty.any());
+  CHECK_FALSE(plain.decision.rule.guard_band.any());
+
+  // A stated budget per kind with its coverage factor (a laboratory's uncertainty budget,
+  // GUM 6.2; common practice), lengths in the plan's unit.
+  const PartPlan iso = parse_plan(
+      with_decision("rule = \"iso-14253-1\"\nuncertainty = { position = 0.0015, "
+                    "perpendicularity = 0.001, size = 0.0008, form = 0.0005, k = 2 }\n"),
+      kPlanFile, false);
+  const DecisionRule& r = iso.decision.rule;
+  CHECK(r.kind == DecisionRuleKind::iso_14253_1);
+  CHECK(*r.stated_uncertainty[CharacteristicKind::position] == 0.0015);
+  CHECK(*r.stated_uncertainty[CharacteristicKind::perpendicularity] == 0.001);
+  CHECK(*r.stated_uncertainty[CharacteristicKind::size] == 0.0008);
+  CHECK(*r.stated_uncertainty[CharacteristicKind::form] == 0.0005);
+  CHECK_FALSE(r.stated_uncertainty[CharacteristicKind::virtual_condition]);
+  CHECK(r.coverage_factor == 2.0);
+  CHECK(iso.warnings.empty());
+
+  // One guard band for every kind, converted from inch (1 in = 25.4 mm exactly; common
+  // practice); a table of guard bands by kind.
+  const std::string inch = replaced(
+      replaced(replaced(kBase, "units = \"mm\"", "units = \"inch\"\n[decision]\nrule = \"guard-band\"\nguard_band = 0.0001\n"),
+               "size = { lower = 12.000, upper = 12.018 }", "size = { lower = 0.4724, upper = 0.4731 }"),
+      "tolerance = 0.025,", "tolerance = 0.001,");
+  const PartPlan banded = parse_plan(
+      replaced(replaced(replaced(inch, "tolerance = 0.010", "tolerance = 0.0004"),
+                        "size = { lower = 19.990, upper = 20.011 }",
+                        "size = { lower = 0.787, upper = 0.7878 }"),
+               "size = { lower = 8.000, upper = 8.015 }", "size = { lower = 0.315, upper = 0.3156 }"),
+      kPlanFile, false);
+  for (const auto& g : banded.decision.rule.guard_band.values) CHECK(*g == Approx(0.00254));
+  const PartPlan per_kind = parse_plan(
+      with_decision("rule = \"guard-band\"\nguard_band = { position = 0.002, size = 0.001 }\n"),
+      kPlanFile, false);
+  CHECK(*per_kind.decision.rule.guard_band[CharacteristicKind::position] == 0.002);
+  CHECK(*per_kind.decision.rule.guard_band[CharacteristicKind::size] == 0.001);
+  CHECK_FALSE(per_kind.decision.rule.guard_band[CharacteristicKind::form]);
+
+  // The command line's rule over the plan's; a guard band rule needs a stated band.
+  PartPlan switched = iso;
+  override_decision_rule(switched, DecisionRuleKind::simple_acceptance);
+  CHECK(switched.decision.rule.kind == DecisionRuleKind::simple_acceptance);
+  CHECK_THROWS_WITH(override_decision_rule(switched, DecisionRuleKind::guard_band),
+                    Contains("--decision-rule guard-band") && Contains("no guard band"));
+}
+
+TEST_CASE("the [decision] table's errors name the line and key", "[plan][decision]") {
+  check_error(with_decision("rule = \"strict\"\n"), "rule =", "decision.rule",
+              "unknown decision rule \"strict\": expected \"simple\", \"iso-14253-1\" or "
+              "\"guard-band\"");
+  check_error(with_decision("rule = \"simple\"\nguardband = 0.001\n"), "guardband",
+              "decision.guardband", "unknown key in [decision]");
+  check_error(with_decision("uncertainty = { position = 0.001, forms = 0.001 }\n"), "forms",
+              "decision.uncertainty.forms", "unknown key in decision.uncertainty");
+  check_error(with_decision("uncertainty = { position = -0.001 }\n"), "uncertainty =",
+              "decision.uncertainty.position", "must not be negative (found -0.001)");
+  check_error(with_decision("uncertainty = { size = nan }\n"), "uncertainty =",
+              "decision.uncertainty.size", "expected a length (a number), found nan");
+  check_error(with_decision("uncertainty = { size = 150 }\n"), "uncertainty =",
+              "decision.uncertainty.size", "exceeds the plan's ceiling of 100 mm");
+  check_error(with_decision("uncertainty = { size = 0.001, k = 0.5 }\n"), "uncertainty =",
+              "decision.uncertainty.k", "coverage factor k must be from 1 to 10 (found 0.5)");
+  check_error(with_decision("guard_band = -0.001\n"), "guard_band", "decision.guard_band",
+              "the guard band must not be negative (found -0.001)");
+  check_error(with_decision("guard_band = { form = -0.001 }\n"), "guard_band",
+              "decision.guard_band.form", "the guard band for form must not be negative");
+  check_error(with_decision("guard_band = \"wide\"\n"), "guard_band", "decision.guard_band",
+              "expected a length (a number) or a table by kind");
+  // A guard band rule with no band to apply.
+  check_error(with_decision("rule = \"guard-band\"\n"), "rule =", "decision.rule",
+              "needs the agreed guard band");
+  // P1's perpendicularity zone is 0.010: a guard band of 0.006 leaves 0.004 of it to accept,
+  // less than half (docs/plan.md, rule 36).
+  check_error(with_decision("rule = \"guard-band\"\nguard_band = { perpendicularity = 0.006 }\n"),
+              "guard_band", "decision.guard_band.perpendicularity",
+              "the guard band 0.006 mm for perpendicularity is more than half of bore \"P1\"'s "
+              "perpendicularity tolerance 0.01 mm");
+  // The size's span 12.000..12.018 is 0.018: 0.010 on each side leaves no acceptance zone.
+  check_error(with_decision("guard_band = { size = 0.010 }\n"), "guard_band",
+              "decision.guard_band.size", "is more than half of bore \"P1\"'s size tolerance");
+  // A zero tolerance at MMC is all bonus: not compared (P1's position here).
+  CHECK_NOTHROW(parse_plan(replaced(with_decision("guard_band = { position = 0.010 }\n"),
+                                    "tolerance = 0.025,", "tolerance = 0,"),
+                           kPlanFile, false));
+}
+
+TEST_CASE("a stated U larger than a tolerance of its kind is warned, not refused", "[plan][decision]") {
+  // U above the tolerance: under the ISO 14253-1:2017 default rule no value can be proven to
+  // conform (the acceptance zone is empty), which a plan may state knowingly.
+  const std::string text = with_decision("rule = \"iso-14253-1\"\nuncertainty = { form = 0.009 }\n");
+  const PartPlan plan = parse_plan(text, kPlanFile, false);
+  REQUIRE(plan.warnings.size() == 1);
+  CHECK_THAT(plan.warnings[0],
+             Contains("decision.uncertainty.form (line " +
+                      std::to_string(line_of(text, "uncertainty =")) + ")") &&
+                 Contains("0.009 mm exceeds bore \"P2\"'s form tolerance 0.008 mm"));
+}
+
+TEST_CASE("a bore's own stated uncertainty, bounded and warned like the plan's", "[plan][decision]") {
+  const std::string text = replaced(
+      with_decision("rule = \"iso-14253-1\"\nuncertainty = { position = 0.0015 }\n"),
+      "perpendicularity = { tolerance = 0.010 }",
+      "perpendicularity = { tolerance = 0.010 }\nuncertainty = { position = 0.003, perpendicularity = 0.012 }");
+  const PartPlan plan = parse_plan(text, kPlanFile, false);
+  CHECK(*plan.bores[0].uncertainty[CharacteristicKind::position] == 0.003);
+  CHECK(*plan.bores[0].uncertainty[CharacteristicKind::perpendicularity] == 0.012);
+  CHECK_FALSE(plan.bores[1].uncertainty.any());
+  // 0.012 above P1's perpendicularity tolerance 0.010: warned (docs/plan.md, rule 37).
+  REQUIRE(plan.warnings.size() == 1);
+  CHECK_THAT(plan.warnings[0], Contains("bore[P1].uncertainty.perpendicularity") &&
+                                   Contains("exceeds the bore's perpendicularity tolerance 0.01 mm"));
+  check_error(replaced(kBase, "cylindricity = 0.008", "cylindricity = 0.008\nuncertainty = { form = -1 }"),
+              "uncertainty =", "bore[P2].uncertainty.form",
+              "the expanded uncertainty U of form must not be negative");
+  check_error(replaced(kBase, "cylindricity = 0.008", "cylindricity = 0.008\nuncertainty = { form = 0.001, k = 2 }"),
+              "uncertainty =", "bore[P2].uncertainty.k", "unknown key in bore[P2].uncertainty");
+}

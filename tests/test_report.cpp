@@ -205,17 +205,21 @@ TEST_CASE("CSV: RFC 4180 quoting, four decimals in mm, one row per characteristi
         "probed_span,evaluated_length,extrapolation_top,extrapolation_bottom,tilt_magnification,"
         "sections,section_points_min,section_points_median,coverage_deg,"
         "worst_section_coverage_deg,sampling_warnings,"
-        "scan_points,scan_angular_coverage_deg,scan_probed_depth,scan_nominal_depth");
+        "scan_points,scan_angular_coverage_deg,scan_probed_depth,scan_nominal_depth,"
+        "rule,expanded_uncertainty,coverage_factor,acceptance_limit,rejection_limit,"
+        "uncertainty_source,rule_note");
+  // Simple acceptance, no U: both limits are the allowed value (decide/characteristic.hpp).
+  const std::string decision = ",simple acceptance,,,0.0900,0.0900,,";
   CHECK(first ==
         "\"Bracket, \"\"first\"\" article, rev B\",H1,\"position, frame fixed\",A|B(M) MMC,"
         "0.1000,0.0800,0.0100,0.0900,<=,does not conform,no,mm,H1/position," + caution +
-            ",,,,,plan depth,evaluated,,0" + ",,,,,,,,,,," + ",,,,");  // no sampling measured, no scan: empty
+            ",,,,,plan depth,evaluated,,0" + ",,,,,,,,,,," + ",,,," + decision);  // no sampling measured, no scan: empty
   CHECK(second ==
         "\"Bracket, \"\"first\"\" article, rev B\",H1,\"position, datum mobility\",A|B(M) MMC,"
         "0.0850,0.0800,0.0100,0.0900,<=,conforms,yes,mm,H1/position/mobility," + caution +
-            ",,,,,plan depth,evaluated,,0" + ",,,,,,,,,,," + ",,,,");
+            ",,,,,plan depth,evaluated,,0" + ",,,,,,,,,,," + ",,,," + decision);
   const std::vector<std::string> fields = csv_fields(second);
-  REQUIRE(fields.size() == 37);
+  REQUIRE(fields.size() == 44);
   CHECK(fields[0] == "Bracket, \"first\" article, rev B");
   CHECK(fields[13] == safety_caution);
 }
@@ -705,4 +709,85 @@ TEST_CASE("sampling adequacy: JSON round trip, CSV's appended columns, one table
     CHECK(table.find("Sampling (probed span") != std::string::npos);
     CHECK(table.find(" 8.00 ") != std::string::npos);
   }
+}
+
+TEST_CASE("decision rule in the reports: U, k, rule and limits in JSON (read back), CSV, table, HTML") {
+  // ISO 14253-1:2017 default rule (decide/characteristic.hpp): H1's moved position 0.085 against
+  // 0.090 with U = 0.006 lies between 0.084 and 0.096: not proven; the mating envelope 11.9953
+  // is below 12.000 - 0.002: non-conformance proven.
+  PartCheckResult r = result_with_size(LengthUnit::millimetre);
+  DecisionRule rule;
+  rule.kind = DecisionRuleKind::iso_14253_1;
+  rule.stated_uncertainty[CharacteristicKind::position] = 0.006;
+  rule.stated_uncertainty[CharacteristicKind::size] = 0.002;
+  r.characteristics = bore_characteristics(r.bores.front(), rule);
+  r.verdict = combine(r.characteristics);
+  const ReportModel written = make_report_model(r);
+  const Characteristic* moved = written.find("H1/position/mobility");
+  REQUIRE(moved);
+  CHECK(moved->verdict == Verdict::not_proven);
+
+  const std::string json = format_json(written);
+  CHECK(json.find("\"effective_tolerance\": 0.09") != std::string::npos);
+  CHECK(json.find("\"rule\": \"ISO 14253-1\"") != std::string::npos);
+  const ReportModel read = read_report_json(json, "report.json");
+  REQUIRE(read.characteristics.size() == written.characteristics.size());
+  for (std::size_t k = 0; k < read.characteristics.size(); ++k) {
+    const Characteristic& a = written.characteristics[k];
+    const Characteristic& b = read.characteristics[k];
+    INFO(a.id);
+    CHECK(b.rule == a.rule);
+    CHECK(b.rule_note == a.rule_note);
+    CHECK(b.acceptance_limit == a.acceptance_limit);  // mm: shortest round-trip decimals
+    CHECK(b.rejection_limit == a.rejection_limit);
+    REQUIRE(b.uncertainty.has_value() == a.uncertainty.has_value());
+    if (a.uncertainty) {
+      CHECK(b.uncertainty->expanded == a.uncertainty->expanded);
+      CHECK(b.uncertainty->coverage_factor == a.uncertainty->coverage_factor);
+      CHECK(b.uncertainty->source == a.uncertainty->source);
+    }
+  }
+  // The cylindricity has no stated U: simple acceptance, and the JSON says why.
+  const Characteristic* form = read.find("H1/cylindricity");
+  REQUIRE(form);
+  CHECK(form->rule == DecisionRuleKind::simple_acceptance);
+  CHECK(form->rule_note == "U not evaluated: simple acceptance");
+  CHECK(format_csv(read) == format_csv(written));
+
+  // CSV: the decision columns appended last (docs/report-schema.md).
+  const std::string csv = format_csv(written);
+  CHECK(csv.find(",ISO 14253-1,0.0060,2.00,0.0840,0.0960,stated budget ([decision].uncertainty),\n") !=
+        std::string::npos);
+  CHECK(csv.find(",simple acceptance,,,0.0050,0.0050,,U not evaluated: simple acceptance\n") !=
+        std::string::npos);
+
+  // Table: U and the rule on each row, and a legend, only when a rule or a U is present.
+  const std::string table = format_table(written);
+  // U, then the acceptance limit: 0.090 - 0.006 for the position, 12.000 + 0.002 for the
+  // lower size limit (ISO 14253-1:2017 logic).
+  CHECK(table.find("0.0060   0.0840  ISO 14253-1\n") != std::string::npos);
+  CHECK(table.find("0.0020  12.0020  ISO 14253-1\n") != std::string::npos);
+  CHECK(table.find("simple acceptance (U not evaluated)") != std::string::npos);
+  CHECK(table.find("Decision rule: ISO 14253-1") != std::string::npos);
+  CHECK(format_table(result_with_size(LengthUnit::millimetre)).find("Decision rule") ==
+        std::string::npos);
+
+  // HTML: the characteristic table carries U (k) and the rule with its limits.
+  const std::string html = format_html(written);
+  CHECK(html.find("<th>U (k), decision rule</th>") != std::string::npos);
+  CHECK(format_html(make_report_model(result_with_size(LengthUnit::millimetre)))
+            .find("<th>U (k), decision rule</th>") == std::string::npos);
+  CHECK(html.find("0.0060 (2.00)") != std::string::npos);
+  CHECK(html.find("accept &lt;= 0.0840, reject &gt; 0.0960") != std::string::npos);
+
+  // The reader refuses an unknown rule and a negative U, naming the JSON path.
+  std::string unknown = json;
+  unknown.replace(unknown.find("\"ISO 14253-1\""), 13, "\"lenient\"");
+  CHECK_THROWS_WITH(read_report_json(unknown, "r.json"),
+                    Catch::Matchers::Contains("rule") && Catch::Matchers::Contains("unknown decision rule 'lenient'"));
+  std::string negative = json;
+  negative.replace(negative.find("\"expanded\": 0.006"), 17, "\"expanded\": -0.006");
+  CHECK_THROWS_WITH(read_report_json(negative, "r.json"),
+                    Catch::Matchers::Contains("uncertainty.expanded") &&
+                        Catch::Matchers::Contains("must not be negative"));
 }

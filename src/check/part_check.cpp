@@ -362,7 +362,8 @@ std::vector<BoreSensitivity> association_sensitivity(const PartPlan& plan,
       if (!moved[i].evaluated()) continue;  // skipped: see below
       AssociationSensitivity row;
       row.association = method;
-      const std::vector<Characteristic> decided = bore_characteristics(moved[i], rule);
+      const std::vector<Characteristic> decided =
+          bore_characteristics(moved[i], plan.bores[i], rule);
       if (const Characteristic* p = deciding_position(decided, moved[i].id)) {
         row.position = p->value;
         row.position_verdict = p->verdict;
@@ -402,12 +403,13 @@ PartCheckResult check_part(const PartPlan& plan, const PartInputs& inputs,
   result.plan = plan;
   result.inputs = inputs.records;
   result.scan = inputs.scan;
+  const DecisionRule& rule = options.decision ? *options.decision : plan.decision.rule;
   PartEvaluation evaluation = evaluate_part(plan, inputs, options.evaluation);
   // Plan and data must describe the same part: refuse what would be meaningless, warn the rest.
   check_plausibility(plan, inputs, evaluation);
   if (options.sensitivity)
     result.sensitivity =
-        association_sensitivity(plan, inputs, evaluation, options.evaluation, options.decision);
+        association_sensitivity(plan, inputs, evaluation, options.evaluation, rule);
   result.datums = std::move(evaluation.datums);
   result.bores = std::move(evaluation.bores);
   result.warnings = std::move(evaluation.warnings);
@@ -416,7 +418,7 @@ PartCheckResult check_part(const PartPlan& plan, const PartInputs& inputs,
   // Decide: every characteristic of every bore, by the one decision function.
   // A bore not evaluated gives its characteristics as not proven (bore_characteristics).
   for (std::size_t i = 0; i < result.bores.size(); ++i)
-    for (Characteristic& c : bore_characteristics(result.bores[i], plan.bores[i], options.decision))
+    for (Characteristic& c : bore_characteristics(result.bores[i], plan.bores[i], rule))
       result.characteristics.push_back(std::move(c));
   result.verdict = combine(result.characteristics);
   return result;

@@ -106,6 +106,7 @@ int run_audit(const AuditArguments& args) {
   check_plausibility(plan, part, evaluation);
   AuditOptions options;
   options.same_plane_tolerance = audit.same_plane_tolerance.value_or(default_same_plane_tolerance);
+  options.rule = plan.decision.rule;  // the plan's [decision]: the same rule as `check`
 
   AuditReport report;
   report.tool_version = version_string;

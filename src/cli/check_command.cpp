@@ -58,6 +58,9 @@ struct CheckArguments {
   /// --predict-probing: the CMM's probing sigma (plan unit) to predict each bore's uncertainty
   /// for the pattern probed (forecast/probing_advice.hpp). Empty: no prediction.
   std::optional<double> predict_sigma;
+  /// "simple", "iso-14253-1" or "guard-band": overrides the plan's [decision].rule; empty: as
+  /// the plan says.
+  std::string decision_rule;
 };
 
 /// The study's options: the plan's [uncertainty] table, then the command line.
@@ -206,6 +209,8 @@ int run_check(const CheckArguments& args) {
           "--predict-probing: more than 0.5 mm is implausible; it is in "
           "the plan's length unit");
   }
+  if (!args.decision_rule.empty())
+    override_decision_rule(plan, *parse_decision_rule_word(args.decision_rule));
   // The command line overrides the plan's [part] table field by field.
   model_options.part = merged_identity(plan.part, given);
   if (model_options.part.timestamp.empty()) model_options.part.timestamp = utc_now();
@@ -326,6 +331,12 @@ void add_check_command(CLI::App& app, CommandResult& result) {
                     "predict each bore's position and perpendicularity uncertainty for the "
                     "pattern probed, from the CMM's probing sigma per coordinate (plan length "
                     "unit; docs/probing-advice.md)");
+  check->add_option("--decision-rule", args->decision_rule,
+                    "simple|iso-14253-1|guard-band: how a value is compared with its limit "
+                    "(ISO 14253-1: conformance proven inside the zone reduced by U, "
+                    "non-conformance beyond it enlarged by U, else not proven; overrides the "
+                    "plan's [decision].rule)")
+      ->check(CLI::IsMember({"simple", "iso-14253-1", "guard-band"}));
   check->add_option("--note", args->notes,
                     "KEY=VALUE free text, repeatable (operator, machine, order, ...); replaces "
                     "the plan's note of the same key")

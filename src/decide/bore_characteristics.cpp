@@ -35,6 +35,27 @@ Characteristic position_characteristic(const BoreResult& bore, const PositionRes
               p.spec.tolerance, p.bonus, p.allowed, Comparison::at_most, decisive);
 }
 
+/// The stated uncertainty attached to every characteristic of its kind that has none (the
+/// bore's own, else the rule's budget), then each decided by the one decision function.
+void decide_all(std::vector<Characteristic>& out, const DecisionRule& rule,
+                const PlanBore* plan = nullptr) {
+  for (Characteristic& c : out) {
+    const std::optional<CharacteristicKind> kind = characteristic_kind(c);
+    if (!c.uncertainty && kind) {
+      if (plan && plan->uncertainty[*kind])
+        c.uncertainty = ExpandedUncertainty{*plan->uncertainty[*kind], rule.coverage_factor,
+                                            "stated budget (bore " + plan->id + ")"};
+      else if (rule.stated_uncertainty[*kind])
+        c.uncertainty = ExpandedUncertainty{*rule.stated_uncertainty[*kind], rule.coverage_factor,
+                                            "stated budget ([decision].uncertainty)"};
+    }
+    apply_decision(c, rule);
+  }
+}
+
+/// The rows of an evaluated bore, not yet decided.
+std::vector<Characteristic> evaluated_rows(const BoreResult& b);
+
 }  // namespace
 
 std::string tolerance_reference(const PlanTolerance& spec) {
@@ -46,10 +67,18 @@ std::string tolerance_reference(const PlanTolerance& spec) {
 }
 
 std::vector<Characteristic> bore_characteristics(const BoreResult& b, const DecisionRule& rule) {
-  std::vector<Characteristic> out;
   if (!b.evaluated())
     throw std::invalid_argument("bore_characteristics: bore " + b.id +
                                 " was not evaluated; pass its plan to list its characteristics");
+  std::vector<Characteristic> out = evaluated_rows(b);
+  decide_all(out, rule);
+  return out;
+}
+
+namespace {
+
+std::vector<Characteristic> evaluated_rows(const BoreResult& b) {
+  std::vector<Characteristic> out;
   if (b.position) {
     const std::string name = b.position->projected ? "position (projected zone)" : "position";
     if (!b.mobility_not_evaluated.empty()) {
@@ -125,16 +154,18 @@ std::vector<Characteristic> bore_characteristics(const BoreResult& b, const Deci
       out.back().not_evaluated = b.mobility_not_evaluated;
     }
   }
-  for (Characteristic& c : out) {
-    c.verdict = decide(c, rule);
-    c.rule = rule.kind;
-  }
   return out;
 }
 
+}  // namespace
+
 std::vector<Characteristic> bore_characteristics(const BoreResult& b, const PlanBore& plan,
                                                  const DecisionRule& rule) {
-  if (b.evaluated()) return bore_characteristics(b, rule);
+  if (b.evaluated()) {
+    std::vector<Characteristic> out = evaluated_rows(b);
+    decide_all(out, rule, &plan);
+    return out;
+  }
   // Not evaluated: one row per characteristic the plan asks for, with the ids an evaluated
   // bore would have (the two-point lower-limit row depends on the points and is left out),
   // each not proven with the reason. Tolerances and limits come from the plan; no bonus is
@@ -185,10 +216,7 @@ std::vector<Characteristic> bore_characteristics(const BoreResult& b, const Plan
         virtual_condition(spec.condition, FeatureKind::bore, *plan.size, spec.tolerance),
         spec.condition == MaterialCondition::lmc ? Comparison::at_most : Comparison::at_least);
   }
-  for (Characteristic& c : out) {
-    c.verdict = decide(c, rule);
-    c.rule = rule.kind;
-  }
+  decide_all(out, rule, &plan);
   return out;
 }
 

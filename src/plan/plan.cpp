@@ -2,6 +2,8 @@
 // validate_plan.cpp.
 #include "cylzone/plan/plan.hpp"
 
+#include <stdexcept>
+
 #include <fstream>
 #include <iterator>
 #include <system_error>
@@ -71,6 +73,14 @@ ProbeSettings resolved_probe(const ProbeSettings& plan_wide, const ProbeOverride
   if (own.neighbour_filter) s.neighbour_filter = *own.neighbour_filter;
   if (own.residual_rejection) s.residual_rejection = *own.residual_rejection;
   return s;
+}
+
+void override_decision_rule(PartPlan& plan, DecisionRuleKind rule) {
+  // The same requirement validate_plan holds the plan's own rule to (docs/plan.md, rule 35).
+  if (rule == DecisionRuleKind::guard_band && !plan.decision.rule.guard_band.any())
+    throw std::invalid_argument(
+        "--decision-rule guard-band: the plan states no guard band ([decision].guard_band)");
+  plan.decision.rule.kind = rule;
 }
 
 void override_outlier_stages(PartPlan& plan, std::optional<bool> neighbour_filter,

@@ -120,7 +120,7 @@ bool contains(const std::array<std::string_view, N>& names, std::string_view nam
 // Key sets of each table (docs/plan.md lists them with their meaning).
 constexpr auto kRootKeys =
     keys("format", "name", "units", "probe", "section_gap", "datum", "bore", "part", "sampling", "scan",
-         "audit", "uncertainty");
+         "audit", "uncertainty", "decision");
 // One cloud of the whole part, segmented among the features (docs/plan.md, "[scan]").
 constexpr auto kScanKeys =
     keys("points", "band", "margin", "normal_agreement", "placement", "register");
@@ -145,7 +145,7 @@ constexpr auto kDatumCAnyKeys = keys("feature", "points", "basic", "size", "mmb"
 constexpr auto kBoreKeys =
     keys("id", "points", "basic", "direction", "depth", "size", "axis", "section_gap",
          "position", "perpendicularity", "cylindricity", "axis_direction", "probe",
-         "nominal_size", "sampling");
+         "nominal_size", "sampling", "uncertainty");
 constexpr auto kSizeKeys = keys("lower", "upper");
 constexpr auto kDepthKeys = keys("top", "bottom");
 constexpr auto kPositionKeys = keys("tolerance", "modifier", "datums", "projected",
@@ -156,6 +156,12 @@ constexpr auto kPartKeys = keys("id", "serial", "time", "notes");
 constexpr auto kSamplingKeys = keys("min_section_points", "min_coverage", "max_magnification");
 constexpr auto kAuditKeys = keys("summary", "units", "same_plane_tolerance", "columns");
 constexpr auto kUncertaintyKeys = keys("probing_sigma", "mpe_a", "mpe_k", "trials", "seed");
+constexpr auto kDecisionKeys = keys("rule", "guard_band", "uncertainty");
+// The kinds of characteristic_kind_word, and the coverage factor of a stated budget.
+constexpr auto kKindKeys = keys("position", "perpendicularity", "size", "form",
+                                "virtual_condition");
+constexpr auto kStatedUncertaintyKeys = keys("position", "perpendicularity", "size", "form",
+                                       "virtual_condition", "k");
 
 enum class ToleranceKind { position, perpendicularity };
 
@@ -212,6 +218,7 @@ class PlanParser {
       plan.sampling = read_sampling(*sampling, "sampling");
     if (const toml::node* audit = root.get("audit")) plan.audit = read_audit(*audit);
     if (const toml::node* u = root.get("uncertainty")) plan.uncertainty = read_uncertainty(*u);
+    if (const toml::node* decision = root.get("decision")) plan.decision = read_decision(*decision);
     // The plan-wide section gap and sampling thresholds are the defaults of every bore that
     // gives none.
     for (PlanBore& bore : plan.bores) {
@@ -604,6 +611,8 @@ class PlanParser {
       bore.probe = read_probe_table(*probe, path + ".probe");
     if (const toml::node* sampling = table.get("sampling"))
       bore.sampling = read_sampling(*sampling, path + ".sampling");
+    if (const toml::node* budget = table.get("uncertainty"))
+      bore.uncertainty = read_kind_lengths(*budget, path + ".uncertainty", kKindKeys);
     return bore;
   }
 
@@ -877,6 +886,55 @@ class PlanParser {
       for (auto& entry : written) part.notes.push_back(std::move(entry.second));
     }
     return part;
+  }
+
+  // ------------------------------------------------------------------ [decision]
+
+  /// The decision rule (decide/characteristic.hpp): its word, the guard band (one length for
+  /// every kind, or a table by kind) and the stated expanded uncertainty by kind with its
+  /// coverage factor `k`. Lengths in the plan's unit; validate_plan checks their bounds.
+  PlanDecision read_decision(const toml::node& node) const {
+    const toml::table& table = as_table(node, "decision", "a [decision] table");
+    check_keys(table, "decision", kDecisionKeys, "in [decision]");
+    PlanDecision decision;
+    decision.where = location_of(table, "decision");
+    DecisionRule& rule = decision.rule;
+    if (const toml::node* word = table.get("rule"))
+      rule.kind = read_word(*word, "decision.rule", "decision rule",
+                            "\"simple\", \"iso-14253-1\" or \"guard-band\"",
+                            parse_decision_rule_word);
+    if (const toml::node* band = table.get("guard_band")) {
+      if (band->is_table())
+        rule.guard_band = read_kind_lengths(*band, "decision.guard_band", kKindKeys);
+      else {
+        const double g = read_length(*band, "decision.guard_band",
+                                     "a length (a number) or a table by kind { position = ... }");
+        for (auto& value : rule.guard_band.values) value = g;
+      }
+    }
+    if (const toml::node* budget = table.get("uncertainty")) {
+      rule.stated_uncertainty =
+          read_kind_lengths(*budget, "decision.uncertainty", kStatedUncertaintyKeys);
+      if (const toml::node* k = budget->as_table()->get("k"))
+        rule.coverage_factor =
+            read_number(*k, "decision.uncertainty.k", "a coverage factor (a number)");
+    }
+    return decision;
+  }
+
+  /// A table of lengths by characteristic kind, e.g. { position = 0.0015, size = 0.0008 }.
+  template <std::size_t N>
+  PerKindLength read_kind_lengths(const toml::node& node, const std::string& path,
+                                  const std::array<std::string_view, N>& allowed) const {
+    const toml::table& table =
+        as_table(node, path, "a table by kind { position = ..., size = ..., ... }");
+    check_keys(table, path, allowed, "in " + path);
+    PerKindLength lengths;
+    for (auto&& [key, value] : table)
+      if (const auto kind = parse_characteristic_kind_word(key.str()))
+        lengths[*kind] =
+            read_length(value, path + "." + std::string(key.str()), "a length (a number)");
+    return lengths;
   }
 
   // ------------------------------------------------------------------ [audit]

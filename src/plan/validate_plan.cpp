@@ -21,6 +21,9 @@ namespace {
 using detail::plan_number_text;
 
 constexpr double pi = 3.14159265358979323846;
+/// Why a stated U above a tolerance is warned about (docs/plan.md, rule 37).
+constexpr const char* kNoConformance =
+    "under the ISO 14253-1 rule no such value can be proven to conform";
 
 /// Checks one plan; holds the file name and unit that every message needs.
 class PlanRules {
@@ -44,12 +47,20 @@ class PlanRules {
     check_bores();
     check_scan();
     check_part_identity();
+    check_decision();
     return std::move(warnings_);
   }
 
  private:
   [[noreturn]] void fail(const PlanLocation& at, const std::string& problem) const {
     throw InputError(file_name_, at.line, problem, at.key);
+  }
+
+  /// A plausibility warning: "key (line N): message", the line left out for a plan built in code.
+  void warn(const PlanLocation& at, const std::string& message) const {
+    warnings_.push_back(at.key +
+                        (at.line > 0 ? " (line " + std::to_string(at.line) + ")" : std::string()) +
+                        ": " + message);
   }
 
   /// A length as written in the plan (its unit), for messages.
@@ -403,6 +414,7 @@ class PlanRules {
     if (bore.size) check_size(*bore.size, at.at("size"));
     if (bore.section_gap) positive_length(*bore.section_gap, at.at("section_gap"), "the section gap");
     check_sampling(bore.sampling, at, "sampling");
+    check_bore_uncertainty(bore, at);
     // ---- axis_direction (docs/plan.md): a value the reader knows; a derived median line is
     // made of section centres and has no single direction to hold.
     if (bore.axis_direction != AxisDirection::fitted &&
@@ -562,9 +574,112 @@ class PlanRules {
     if (!finding) return;
     const PlanLocation at = tolerance_location(t, bore_at, name).at("tolerance");
     if (finding->error) fail(at, finding->message);
-    warnings_.push_back(at.key +
-                        (at.line > 0 ? " (line " + std::to_string(at.line) + ")" : std::string()) +
-                        ": " + finding->message);
+    warn(at, finding->message);
+  }
+
+  /// The [decision] table (docs/plan.md, rules 34 to 37; docs/evaluation.md, "Decision rules").
+  void check_decision() {
+    const DecisionRule& rule = plan_.decision.rule;
+    PlanLocation at = plan_.decision.where;
+    if (at.key.empty()) at.key = "decision";
+    // Where a per-kind value was written: its own line, or the line of a single guard band.
+    const auto where = [&](const std::string& table, CharacteristicKind kind) {
+      const std::string name = table + "." + std::string(characteristic_kind_word(kind));
+      return at.lines.count(name) || !at.lines.count(table) ? at.at(name) : at.at(table);
+    };
+    for (CharacteristicKind kind : characteristic_kinds) {
+      const std::string word(characteristic_kind_word(kind));
+      if (const auto& g = rule.guard_band[kind]) {
+        // One band for every kind is named as written, once.
+        const PlanLocation w = where("guard_band", kind);
+        const bool own = w.key.size() > word.size() &&
+                         w.key.compare(w.key.size() - word.size(), word.size(), word) == 0;
+        margin_in_bounds(*g, w, own ? "the guard band for " + word : "the guard band");
+      }
+      if (const auto& u = rule.stated_uncertainty[kind])
+        margin_in_bounds(*u, where("uncertainty", kind), "the expanded uncertainty U of " + word);
+    }
+    // k = 2 gives about 95 % coverage for a normal distribution (GUM, ISO/IEC Guide 98-3, 6.3;
+    // common practice); below 1 the interval covers less than one standard uncertainty.
+    if (!(rule.coverage_factor >= 1.0 && rule.coverage_factor <= 10.0))
+      fail(at.at("uncertainty.k"), "the coverage factor k must be from 1 to 10 (found " +
+                                        plan_number_text(rule.coverage_factor) + ")");
+    if (rule.kind == DecisionRuleKind::guard_band && !rule.guard_band.any())
+      fail(at.at("rule"),
+           "rule = \"guard-band\" needs the agreed guard band: give guard_band (a length, or a "
+           "table by kind)");
+    // Against every bore's tolerance of each kind: a guard band wider than half the tolerance
+    // leaves less than half the zone to accept (for a size, no acceptance zone at all) and is
+    // refused as a likely typing error; a U above the tolerance is warned (no value of the kind
+    // can then be proven to conform under the ISO 14253-1 rule). A zero tolerance at MMC or
+    // LMC is all bonus and is not compared.
+    for (CharacteristicKind kind : characteristic_kinds) {
+      const auto& g = rule.guard_band[kind];
+      const auto& u = rule.stated_uncertainty[kind];
+      if (!g && !u) continue;
+      const std::string word(characteristic_kind_word(kind));
+      std::size_t exceeded = 0;
+      std::string first;
+      for (const PlanBore& bore : plan_.bores) {
+        const std::optional<double> t = kind_tolerance(bore, kind);
+        if (!t || !(*t > 0.0)) continue;
+        if (g && *g > 0.5 * *t)
+          fail(where("guard_band", kind),
+               "the guard band " + shown(*g) + " " + unit_ + " for " + word +
+                   " is more than half of bore " + quoted_for_message(bore.id) + "'s " + word +
+                   " tolerance " + shown(*t) + " " + unit_ +
+                   ": the acceptance zone would keep less than half of it");
+        if (u && *u > *t && exceeded++ == 0)
+          first = "bore " + quoted_for_message(bore.id) + "'s " + word + " tolerance " + shown(*t) +
+                  " " + unit_;
+      }
+      if (exceeded > 0) {
+        warn(where("uncertainty", kind),
+             "the expanded uncertainty " + shown(*u) + " " + unit_ + " exceeds " + first +
+                 (exceeded > 1 ? " (and " + std::to_string(exceeded - 1) + " more)"
+                               : std::string()) +
+                 ": " + kNoConformance);
+      }
+    }
+  }
+
+  /// A bore's own stated U (docs/plan.md, rules 34 and 37, for the bore alone).
+  void check_bore_uncertainty(const PlanBore& bore, const PlanLocation& at) const {
+    for (CharacteristicKind kind : characteristic_kinds) {
+      const auto& u = bore.uncertainty[kind];
+      if (!u) continue;
+      const std::string word(characteristic_kind_word(kind));
+      const PlanLocation w = at.at("uncertainty." + word);
+      margin_in_bounds(*u, w, "the expanded uncertainty U of " + word);
+      const std::optional<double> t = kind_tolerance(bore, kind);
+      if (t && *t > 0.0 && *u > *t)
+        warn(w, "the expanded uncertainty " + shown(*u) + " " + unit_ + " exceeds the bore's " +
+                    word + " tolerance " + shown(*t) + " " + unit_ + ": " + kNoConformance);
+    }
+  }
+
+  void margin_in_bounds(double value, const PlanLocation& at, const std::string& what) const {
+    if (!(value >= 0.0)) fail(at, what + " must not be negative (found " + shown(value) + ")");
+    below_tolerance_ceiling(value, at, what);
+  }
+
+  /// The tolerance a guard band or U of `kind` is compared with, mm: the stated zone, or for a
+  /// size the span between its limits; none for a virtual condition (a boundary, not a zone).
+  static std::optional<double> kind_tolerance(const PlanBore& bore, CharacteristicKind kind) {
+    switch (kind) {
+      case CharacteristicKind::position:
+        if (bore.position) return bore.position->tolerance;
+        break;
+      case CharacteristicKind::perpendicularity:
+        if (bore.perpendicularity) return bore.perpendicularity->tolerance;
+        break;
+      case CharacteristicKind::size:
+        if (bore.size) return bore.size->upper - bore.size->lower;
+        break;
+      case CharacteristicKind::form: return bore.cylindricity;
+      case CharacteristicKind::virtual_condition: break;
+    }
+    return std::nullopt;
   }
 
   /// The part's identity ends up in CSV cells, a table header and JSON: one printable line each.

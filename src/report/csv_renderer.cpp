@@ -62,6 +62,10 @@ std::string format_csv(const ReportModel& m) {
          "sections,section_points_min,section_points_median,coverage_deg,"
          "worst_section_coverage_deg,sampling_warnings,"
          "scan_points,scan_angular_coverage_deg,scan_probed_depth,scan_nominal_depth"
+         // The decision rule (decide/characteristic.hpp): `allowed` is the effective tolerance
+         // (after bonus); U and k empty when U was not evaluated.
+         ",rule,expanded_uncertainty,coverage_factor,acceptance_limit,rejection_limit,"
+         "uncertainty_source,rule_note"
          // The Monte Carlo study's u and reported interval, only when one was run (the report
          // without it keeps its columns exactly); empty for a characteristic it has no figure of.
       << (m.uncertainty ? ",u,interval_low,interval_high\n" : "\n");
@@ -92,6 +96,12 @@ std::string format_csv(const ReportModel& m) {
           << u.text(f->probed_span) << ',' << u.text(f->nominal_span);
     else
       out << ",,,";
+    const std::optional<ExpandedUncertainty>& un = c.uncertainty;
+    out << ',' << csv_field(decision_rule_name(c.rule)) << ','
+        << (un ? u.text(un->expanded) : std::string()) << ','
+        << (un ? ReportUnits::fixed(un->coverage_factor, 2) : std::string()) << ','
+        << u.text(c.acceptance_limit) << ',' << u.text(c.rejection_limit) << ','
+        << (un ? csv_field(un->source) : std::string()) << ',' << csv_field(c.rule_note);
     if (m.uncertainty) {
       const CharacteristicUncertainty* mc = find_uncertainty(*m.uncertainty, c.id);
       if (mc && mc->statistics.trials >= 2)

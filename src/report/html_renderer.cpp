@@ -604,7 +604,12 @@ void characteristic_rows(std::ostream& out, const ReportModel& m,
   out << "<table "
          "class=\"characteristics\"><thead><tr><th>characteristic</th><th>reference</th><th>value</"
          "th><th></th><th>limit</th>"
-         "<th>bonus</th><th>allowed</th><th>verdict</th></tr></thead><tbody>";
+         "<th>bonus</th><th>allowed</th><th>verdict</th>";
+  // The decision rule's column, only when a rule other than simple acceptance, a U or a
+  // fallback note is present (a plan without [decision] keeps the page as it was).
+  const bool rule_shown = decision_details_shown(m.characteristics);
+  if (rule_shown) out << "<th>U (k), decision rule</th>";
+  out << "</tr></thead><tbody>";
   bool comparison_only = false;
   for (const Characteristic& c : rows) {
     const bool evaluated = c.not_evaluated.empty();
@@ -621,6 +626,27 @@ void characteristic_rows(std::ostream& out, const ReportModel& m,
       out << verdict_span(c.verdict);
     }
     if (!evaluated) out << "<br><span class=\"note\">" << esc(c.not_evaluated) << "</span>";
+    // The decision rule (decide/characteristic.hpp): U with k, the rule, its limits, and why
+    // simple acceptance stood in when it did.
+    out << "</td>";
+    if (!rule_shown) {
+      out << "</tr>";
+      continue;
+    }
+    out << "<td>";
+    if (c.uncertainty)
+      out << u.text(c.uncertainty->expanded) << " ("
+          << ReportUnits::fixed(c.uncertainty->coverage_factor, 2) << ")";
+    else
+      out << "\u2014";
+    out << "<br>" << esc(decision_rule_name(c.rule));
+    if (c.rule != DecisionRuleKind::simple_acceptance) {
+      const bool upper = c.comparison == Comparison::at_most;
+      out << "<br><span class=\"note\">accept " << esc(upper ? "<= " : ">= ")
+          << u.text(c.acceptance_limit) << ", reject " << esc(upper ? "> " : "< ")
+          << u.text(c.rejection_limit) << "</span>";
+    }
+    if (!c.rule_note.empty()) out << "<br><span class=\"note\">" << esc(c.rule_note) << "</span>";
     out << "</td></tr>";
   }
   out << "</tbody></table>";
@@ -804,7 +830,12 @@ void methods_section(std::ostream& out, const ReportModel& m) {
   }
   if (!rules.empty())
     out << "<li>Decision rule: " << esc(rules)
-        << ": the value against its allowed limit (ISO 14253-1:2017).</li>";
+        << ". 'allowed' is the effective tolerance (after bonus). Simple acceptance: the value "
+           "against it alone. ISO 14253-1 (the ISO 14253-1:2017 default): conformance proven "
+           "inside the limit reduced by the expanded uncertainty U, non-conformance beyond it "
+           "enlarged by U, in between not proven; a guard band g agreed between customer and "
+           "supplier narrows and widens the limit by g the same way (JCGM 106:2012). A row "
+           "with 'U not evaluated' was decided by simple acceptance: no guarded decision.</li>";
   out << "<li>Figures: deviations magnified by the round factor that fits the wider of the zone "
          "and the axis in the view; the surface map averages the least-squares cylinder "
          "residuals (Forbes 1989) per cell, in round micrometre classes symmetric about zero, "

@@ -1,6 +1,7 @@
 // Everything JSON in the library (nlohmann-json stays in this file): the part report writer
 // (schema cylzone-report-1, docs/report-schema.md), its reader, and the `cylzone fit` object
 // (docs/fit-json.md). Keep each in step with its document.
+#include <cmath>
 #include <nlohmann/json.hpp>
 #include <stdexcept>
 
@@ -172,7 +173,16 @@ json characteristic_json(const Characteristic& c, const ReportUnits& u) {
           {"comparison", std::string(comparison_symbol(c.comparison))},
           {"decisive", c.decisive},
           {"verdict", std::string(verdict_name(c.verdict))},
-          {"rule", std::string(decision_rule_name(c.rule))}};
+          {"rule", std::string(decision_rule_name(c.rule))},
+          // The decision rule's inputs and limits (docs/evaluation.md, "Decision rules").
+          {"effective_tolerance", u.length(c.allowed)},
+          {"uncertainty", c.uncertainty ? json{{"expanded", u.length(c.uncertainty->expanded)},
+                                               {"k", c.uncertainty->coverage_factor},
+                                               {"source", c.uncertainty->source}}
+                                        : json(nullptr)},
+          {"acceptance_limit", u.length(c.acceptance_limit)},
+          {"rejection_limit", u.length(c.rejection_limit)},
+          {"rule_note", text_or_null(c.rule_note)}};
 }
 
 /// A bore's sampling adequacy (docs/report-schema.md, "sampling"): heights along the nominal
@@ -838,8 +848,29 @@ ReportModel read_report_json(std::string_view bytes, const std::string& source) 
     c.decisive = in.boolean(o, path, "decisive");
     c.verdict = in.verdict(o, path, "verdict");
     const std::string rule = in.text(o, path, "rule");
-    if (rule != decision_rule_name(DecisionRuleKind::simple_acceptance))
-      in.fail(path + ".rule", "unknown decision rule '" + rule + "'");
+    const std::optional<DecisionRuleKind> kind = parse_decision_rule_name(rule);
+    if (!kind) in.fail(path + ".rule", "unknown decision rule '" + rule + "'");
+    c.rule = *kind;
+    // The rule's inputs and limits; a report written before they existed: no U, both limits
+    // the allowed value (simple acceptance).
+    c.acceptance_limit = c.rejection_limit = c.allowed;
+    if (o.contains("acceptance_limit")) c.acceptance_limit = mm(o, path, "acceptance_limit");
+    if (o.contains("rejection_limit")) c.rejection_limit = mm(o, path, "rejection_limit");
+    if (o.contains("effective_tolerance") &&
+        std::abs(mm(o, path, "effective_tolerance") - c.allowed) > 1e-9 * (1 + std::abs(c.allowed)))
+      in.fail(path + ".effective_tolerance", "differs from 'allowed'");
+    c.rule_note = in.text_or_empty(o, path, "rule_note");
+    if (o.contains("uncertainty") && !o["uncertainty"].is_null()) {
+      const std::string at = path + ".uncertainty";
+      const json& uo = o["uncertainty"];
+      ExpandedUncertainty un;
+      un.expanded = mm(uo, at, "expanded");
+      un.coverage_factor = in.number(uo, at, "k");
+      un.source = in.text(uo, at, "source");
+      if (!(un.expanded >= 0.0)) in.fail(at + ".expanded", "must not be negative");
+      if (!(un.coverage_factor > 0.0)) in.fail(at + ".k", "must be greater than zero");
+      c.uncertainty = std::move(un);
+    }
     m.characteristics.push_back(std::move(c));
   }
 

@@ -281,6 +281,40 @@ struct SensitivityColumn {
   std::vector<std::string> cells;  ///< one per bore
 };
 
+/// The legend of the decision rule's columns: the rules in force, where U came from and what
+/// a fallback to simple acceptance means (docs/evaluation.md, "Decision rules").
+std::string decision_legend(const ReportModel& m) {
+  std::vector<std::string> rules, sources;
+  bool fallback = false;
+  const auto add = [](std::vector<std::string>& list, std::string text) {
+    if (std::find(list.begin(), list.end(), text) == list.end()) list.push_back(std::move(text));
+  };
+  for (const Characteristic& c : m.characteristics) {
+    add(rules, std::string(decision_rule_name(c.rule)));
+    if (c.uncertainty)
+      add(sources,
+          c.uncertainty->source + ", k = " + ReportUnits::fixed(c.uncertainty->coverage_factor, 2));
+    fallback = fallback || !c.rule_note.empty();
+  }
+  std::string text = "Decision rule: ";
+  for (std::size_t k = 0; k < rules.size(); ++k) text += (k ? ", " : "") + rules[k];
+  text += ". 'allowed' is the effective tolerance (after bonus). ISO 14253-1 (ISO 14253-1:2017 "
+          "default rule): conformance is proven up to 'accept', the allowed limit reduced by U, "
+          "non-conformance beyond the allowed limit enlarged by U, in between not proven; a "
+          "guard band g moves both by g instead. U: expanded uncertainty";
+  if (sources.empty()) text += " (none known)";
+  else {
+    text += " (";
+    for (std::size_t k = 0; k < sources.size(); ++k) text += (k ? "; " : "") + sources[k];
+    text += ")";
+  }
+  text += ".";
+  if (fallback)
+    text += " A row marked 'U not evaluated' or 'no guard band' was decided by simple "
+            "acceptance: no guarded decision was made for it.";
+  return text + "\n";
+}
+
 }  // namespace
 
 namespace {
@@ -351,7 +385,26 @@ std::string format_table(const ReportModel& m, const TableOptions& options) {
   reference_w += 2;
   out << pad("bore", feature_w) << pad("characteristic", name_w) << pad("reference", reference_w)
       << pad_left("value", w) << "    " << pad_left("limit", w) << pad_left("bonus", w)
-      << pad_left("allowed", w) << "   verdict\n";
+      << pad_left("allowed", w) << "   verdict";
+  // The decision rule's columns, only when a rule other than simple acceptance was asked for or
+  // a U is known (a plan without [decision] keeps the table as it was).
+  const bool rule_shown = decision_details_shown(m.characteristics);
+  constexpr std::size_t verdict_w = 19;
+  if (rule_shown)
+    out << std::string(verdict_w - 7, ' ') << pad_left("U", w) << pad_left("accept", w)
+        << "  rule";
+  out << '\n';
+  // U, the acceptance limit (the rejection limit mirrors it about `allowed`: legend) and the
+  // rule in force, with the reason when simple acceptance stood in for the rule asked for.
+  const auto rule_columns = [&](const Characteristic& c, std::size_t verdict_columns) {
+    if (!rule_shown) return std::string();
+    std::string text = std::string(verdict_w - std::min(verdict_w - 1, verdict_columns), ' ');
+    text += pad_left(c.uncertainty ? u.text(c.uncertainty->expanded) : std::string(sym.none), w);
+    text += pad_left(u.text(c.acceptance_limit), w);
+    text += "  " + std::string(decision_rule_name(c.rule));
+    if (!c.rule_note.empty()) text += " (" + c.rule_note.substr(0, c.rule_note.find(':')) + ")";
+    return text;
+  };
   std::string previous;
   bool footnote = false;
   // A bore's rows not evaluated show no value; their reasons follow the bore's rows, once each.
@@ -375,7 +428,8 @@ std::string format_table(const ReportModel& m, const TableOptions& options) {
           << pad(shorten(c.reference, reference_cap), reference_w) << pad_left(sym.none, w)
           << ' ' << comparison_symbol(c.comparison) << ' ' << pad_left(u.text(c.tolerance), w)
           << pad_left(u.text(c.bonus), w) << pad_left(u.text(c.allowed), w) << "   "
-          << (c.decisive ? "not evaluated" : "(not evaluated)*") << '\n';
+          << (c.decisive ? "not evaluated" : "(not evaluated)*")
+          << rule_columns(c, c.decisive ? 13 : 16) << '\n';
       footnote = footnote || !c.decisive;
       continue;
     }
@@ -389,12 +443,13 @@ std::string format_table(const ReportModel& m, const TableOptions& options) {
         << pad(shorten(c.reference, reference_cap), reference_w) << pad_left(u.text(c.value), w)
         << ' ' << comparison_symbol(c.comparison) << ' ' << pad_left(u.text(c.tolerance), w)
         << pad_left(u.text(c.bonus), w) << pad_left(u.text(c.allowed), w) << "   " << verdict
-        << '\n';
+        << rule_columns(c, columns(verdict)) << '\n';
   }
   flush_reasons();
   if (footnote)
     out << "\n* shown for comparison: the datum reference lets the frame move, and the "
            "'datum mobility' row decides.\n";
+  if (rule_shown) out << '\n' << wrapped("", decision_legend(m), options.width, 2);
 
   // Along the depth: what single-plane summaries hide.
   const std::size_t bore_w = std::max<std::size_t>(8, std::min(feature_w, feature_cap + 2));

@@ -150,19 +150,23 @@ def compare(plan_path, pts, vec, labels, folder, name):
     if p.returncode != 1:
         return
     seg = json.load(open(out_json))["segmentation"]
-    # The CSV's scan columns (the last four) and the table's section say the same as the JSON.
+    # The CSV's scan columns (four in a row, found by name: later columns are appended after
+    # them) and the table's section say the same as the JSON.
     with open(out_csv, newline="") as f:
         rows = list(csv.reader(f))
     head = rows[0]
-    check(head[-4:] == ["scan_points", "scan_angular_coverage_deg", "scan_probed_depth",
-                        "scan_nominal_depth"], f"{name}: CSV header ends {head[-4:]}")
+    at = head.index("scan_points") if "scan_points" in head else len(head)
+    scan = slice(at, at + 4)
+    check(head[scan] == ["scan_points", "scan_angular_coverage_deg", "scan_probed_depth",
+                         "scan_nominal_depth"], f"{name}: CSV scan columns {head[scan]}")
     by_role = {f["role"]: f for f in seg["features"]}
     for row in rows[1:]:
         f = by_role.get("bore " + row[head.index("bore")])
-        check(f is not None and row[-4] == str(f["points"])
-              and row[-3] == f"{f['angular_coverage_deg']:.1f}"
-              and row[-2] == f"{f['probed_depth']:.4f}" and row[-1] == f"{f['nominal_depth']:.4f}",
-              f"{name}: CSV scan columns {row[-4:]} for {row[1]}")
+        cells = row[scan]
+        check(f is not None and len(cells) == 4 and cells[0] == str(f["points"])
+              and cells[1] == f"{f['angular_coverage_deg']:.1f}"
+              and cells[2] == f"{f['probed_depth']:.4f}" and cells[3] == f"{f['nominal_depth']:.4f}",
+              f"{name}: CSV scan columns {cells} for {row[1]}")
     check("Scan segmentation: " in p.stdout, f"{name}: the table has no segmentation section")
     expected, unassigned = segment(plan, pts, vec)
     check(seg["unassigned"] == unassigned, f"{name}: unassigned {seg['unassigned']} != numpy {unassigned}")

@@ -23,7 +23,9 @@ struct CheckOptions {
   /// evaluation.
   bool sensitivity = true;
   EvaluationOptions evaluation;
-  DecisionRule decision;  ///< how every characteristic is decided (decide stage)
+  /// How every characteristic is decided (decide stage); empty: the plan's [decision]
+  /// (PartPlan::decision: simple acceptance without one).
+  std::optional<DecisionRule> decision;
 };
 
 struct PartCheckResult {

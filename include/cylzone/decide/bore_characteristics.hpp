@@ -31,7 +31,9 @@
 namespace cylzone {
 
 /// Every characteristic of an evaluated `bore` in the order above (those its plan does not
-/// tolerance are left out), each decided under `rule`. A bore whose direction was held at the
+/// tolerance are left out), each decided under `rule` (apply_decision), after the rule's stated
+/// uncertainty for its kind (DecisionRule::stated_uncertainty, with its coverage factor) is
+/// attached to it. A bore whose direction was held at the
 /// nominal one (BoreResult::direction_held) has its perpendicularity not evaluated
 /// (direction_held_reason); a bore whose pattern could not be evaluated as a whole
 /// (BoreResult::mobility_not_evaluated) has its "position/mobility" row not evaluated and its
@@ -46,6 +48,7 @@ std::vector<Characteristic> bore_characteristics(const BoreResult& bore,
 /// the frame move, "<bore>/perpendicularity", "<bore>/size/lower", "<bore>/size/upper",
 /// "<bore>/cylindricity", "<bore>/virtual-condition"), each not proven with the bore's reason
 /// in Characteristic::not_evaluated; tolerances and limits from the plan, no bonus.
+/// The bore's own stated uncertainty (PlanBore::uncertainty) replaces the rule's, kind by kind.
 std::vector<Characteristic> bore_characteristics(const BoreResult& bore, const PlanBore& plan,
                                                  const DecisionRule& rule = {});
 

@@ -25,6 +25,7 @@
 #include <utility>
 #include <vector>
 
+#include "cylzone/decide/characteristic.hpp"
 #include "cylzone/plan/audit_plan.hpp"
 #include "cylzone/plan/tolerance_types.hpp"
 #include "cylzone/core/units.hpp"
@@ -203,6 +204,9 @@ struct PlanBore {
   PlanLocation where;
   /// Sampling thresholds: the bore's own `sampling` table, else the plan-wide [sampling].
   PlanSampling sampling;
+  /// The bore's own stated expanded uncertainty per kind (plan key `uncertainty`, mm): each
+  /// value given replaces the [decision] budget's for this bore (bore_characteristics).
+  PerKindLength uncertainty;
 };
 
 // ---- One cloud of the whole part (docs/plan.md, "[scan]").
@@ -250,6 +254,16 @@ struct PlanUncertainty {
   std::optional<std::uint64_t> seed;
 };
 
+// ---- The decision rule (docs/plan.md, "[decision]"; decide/characteristic.hpp).
+
+/// The plan's optional [decision] table: the rule every characteristic is decided by, the
+/// agreed guard bands and the laboratory's stated expanded uncertainty per kind (mm). Without
+/// the table: simple acceptance, no U.
+struct PlanDecision {
+  DecisionRule rule;
+  PlanLocation where;  ///< the [decision] table (empty key when the plan has none)
+};
+
 struct PartPlan {
   std::filesystem::path file;
   /// SHA-256 (lower-case hex) of exactly the plan text that was parsed, for the input records.
@@ -278,6 +292,8 @@ struct PartPlan {
   std::optional<PlanAudit> audit;
   /// The optional `[uncertainty]` table: the Monte Carlo study's defaults.
   std::optional<PlanUncertainty> uncertainty;
+  /// The `[decision]` table: the decision rule, guard bands, stated uncertainties.
+  PlanDecision decision;
 
   const PlanDatum* datum(char label) const noexcept;
 };
@@ -286,6 +302,11 @@ struct PartPlan {
 /// command line overrides the plan). An empty optional leaves the stage as the plan says.
 void override_outlier_stages(PartPlan& plan, std::optional<bool> neighbour_filter,
                              std::optional<bool> residual_rejection);
+
+/// The command line's `--decision-rule` over the plan's [decision].rule, checked as the plan's
+/// rule is (a guard band rule needs a stated guard band; validate_plan). Throws
+/// std::invalid_argument naming the option when the plan cannot support the rule.
+void override_decision_rule(PartPlan& plan, DecisionRuleKind rule);
 
 /// Reads and validates a plan (validate_plan). Throws InputError (file, line, key, problem) on
 /// any error: syntax, unknown or missing keys, values of the wrong type, a missing point file,

@@ -67,6 +67,10 @@ std::optional<ZoneShareFinding> zone_share_finding(const std::string& name, doub
 ///    unless `wide_zone_intended`, one wider than plan_tolerance_share_warning of it warned;
 ///  * the [part] identity: printable one-line texts within plan_identity_text_limit, note keys
 ///    of letters, digits, '_', '-', '.', each once.
+///  * the [decision] table: stated U and guard bands not negative and below
+///    plan_tolerance_limit, a coverage factor from 1 to 10, a guard band rule with a guard band,
+///    no guard band wider than half a bore's tolerance of its kind; a U above such a tolerance
+///    is a warning (docs/plan.md, rules 34 to 37).
 /// Sets `plan.warnings` to the plausibility warnings (replacing any earlier ones).
 void validate_plan(PartPlan& plan);
 
