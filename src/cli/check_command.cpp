@@ -241,13 +241,19 @@ int run_check(const CheckArguments& args) {
   options.evaluation.threads = args.threads;
   // Each input is read once; the study perturbs the same points in memory.
   const PartInputs part_inputs = load_part_inputs(plan);
-  const PartCheckResult result = check_part(plan, part_inputs, options);
-  ReportModel model = make_report_model(result, model_options);
+  PartCheckResult result = check_part(plan, part_inputs, options);
+  std::optional<MonteCarloSummary> uncertainty;
   if (study) {
     MonteCarloOptions mc = *study;
     mc.evaluation = options.evaluation;
-    model.uncertainty = monte_carlo_uncertainty(plan, part_inputs, mc);
+    uncertainty = monte_carlo_uncertainty(plan, part_inputs, mc);
+    // The study's U is what the plan's decision rule counts (ISO 14253-1: conformance proven
+    // inside the zone reduced by U); under simple acceptance it is shown, not counted.
+    decide_with_study(result.characteristics, *uncertainty, plan.decision.rule);
+    result.verdict = combine(result.characteristics);
   }
+  ReportModel model = make_report_model(result, model_options);
+  model.uncertainty = std::move(uncertainty);
   if (predict_sigma) {
     // The prediction for the pattern each bore was probed with (docs/probing-advice.md).
     ProbingAdviceOptions base;

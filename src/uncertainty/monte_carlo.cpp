@@ -609,6 +609,20 @@ std::optional<double> expanded_uncertainty(const MonteCarloSummary& summary, std
   return k * u->statistics.standard_uncertainty;
 }
 
+void decide_with_study(std::vector<Characteristic>& characteristics,
+                       const MonteCarloSummary& summary, const DecisionRule& rule) {
+  for (Characteristic& c : characteristics) {
+    const CharacteristicUncertainty* u = find_uncertainty(summary, c.id);
+    if (!u || u->statistics.trials < 2 || !c.not_evaluated.empty()) continue;
+    c.uncertainty = ExpandedUncertainty{
+        rule.coverage_factor * u->statistics.standard_uncertainty + u->ambiguity_range,
+        rule.coverage_factor,
+        "Monte Carlo, " + std::to_string(u->statistics.trials) + " trials, seed " +
+            std::to_string(summary.seed)};
+    apply_decision(c, rule);
+  }
+}
+
 const CharacteristicUncertainty* find_uncertainty(const MonteCarloSummary& summary,
                                                   std::string_view id) noexcept {
   for (const CharacteristicUncertainty& u : summary.characteristics)

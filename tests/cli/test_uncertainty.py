@@ -86,10 +86,25 @@ with tempfile.TemporaryDirectory() as tmp:
                       if x["id"] == cid))
         same = runs["1"][0]["uncertainty"]["characteristics"] == u["characteristics"]
         check("1 and 2 threads give the same numbers", same)
-        # Everything else of the report is as without the study.
+        # Everything else of the report is as without the study; each characteristic gains
+        # the study's U (k u + the widening over equally good axes), shown but not counted
+        # under the demo's simple acceptance, so no verdict or limit moves.
         for key in plain:
-            if key != "part":
+            if key not in ("part", "characteristics"):
                 check(f"report key {key} unchanged", plain[key] == report[key])
+        for before, after in zip(plain["characteristics"], report["characteristics"]):
+            cid = after["id"]
+            check(f"{cid}: only U added",
+                  {k: v for k, v in before.items() if k != "uncertainty"} ==
+                  {k: v for k, v in after.items() if k != "uncertainty"})
+            mc = u["characteristics"].get(cid)
+            if mc is not None:
+                expected = 2.0 * mc["u"] + mc["interval_widening"]
+                got = after["uncertainty"]
+                check(f"{cid}: U = 2 u + widening",
+                      got is not None and abs(got["expanded"] - expected) <= 1e-12 and
+                      got["k"] == 2 and got["source"].startswith("Monte Carlo, 12 trials"),
+                      f"{got} vs {expected}")
     rows = list(csv.reader(io.StringIO(csv_text)))
     header = rows[0]
     check("CSV columns appended at the end", header[:len(plain_header)] == plain_header and
@@ -100,6 +115,32 @@ with tempfile.TemporaryDirectory() as tmp:
             check(f"CSV u of {row[header.index('id')]}", float(row[header.index("u")]) > 0)
     check("table section", "Measurement uncertainty (Monte Carlo, JCGM 101:2008" in table)
     check("table caution", CAUTION.split(",")[0] in table)
+
+    # ISO 14253-1:2017 with the study's U: conformance proven at or below allowed - U,
+    # non-conformance beyond allowed + U (upper limits; mirrored for lower ones), otherwise not
+    # proven; each verdict recomputed here from value, allowed and U, and the exit code from
+    # them (1: a proven non-conformance, else 3: something not proven, else 0).
+    j = os.path.join(tmp, "iso.json")
+    code, _, err = run(["check", DEMO, *TIME, "--uncertainty", "--trials", "12", "--seed", "5",
+                        "--decision-rule", "iso-14253-1", "--no-sensitivity", "--json", j])
+    iso = json.load(open(j)) if os.path.exists(j) else {"characteristics": []}
+    verdicts = []
+    for c in iso["characteristics"]:
+        if c["status"] != "evaluated" or c["uncertainty"] is None:
+            continue
+        U, allowed, value = c["uncertainty"]["expanded"], c["allowed"], c["value"]
+        sign = -1.0 if c["comparison"] == "<=" else 1.0
+        inside = (value <= allowed - U + 1e-12) if sign < 0 else (value >= allowed + U - 1e-12)
+        outside = (value > allowed + U + 1e-12) if sign < 0 else (value < allowed - U - 1e-12)
+        expected = "conforms" if inside else "does not conform" if outside else "not proven"
+        check(f"ISO 14253-1 {c['id']}", c["verdict"] == expected and c["rule"] == "ISO 14253-1",
+              f"{c['verdict']} / {c['rule']}, expected {expected} (value {value}, allowed "
+              f"{allowed}, U {U})")
+        if c["decisive"]:
+            verdicts.append(expected)
+    check("ISO 14253-1: rows with the study's U", len(verdicts) > 10, str(len(verdicts)))
+    want = 1 if "does not conform" in verdicts else 3 if "not proven" in verdicts else 0
+    check("ISO 14253-1: exit code from the verdicts", code == want, f"{code} vs {want}: {err[:200]}")
 
     # The plan's [uncertainty] table: read, then overridden by the command line.
     folder = os.path.join(tmp, "part")

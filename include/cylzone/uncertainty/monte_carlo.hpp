@@ -61,6 +61,7 @@
 #include "cylzone/check/evaluate_part.hpp"
 #include "cylzone/check/part_inputs.hpp"
 #include "cylzone/core/threads.hpp"
+#include "cylzone/decide/characteristic.hpp"
 #include "cylzone/plan/plan.hpp"
 
 namespace cylzone {
@@ -245,6 +246,17 @@ double standard_normal(std::mt19937_64& rng) noexcept;
 /// a decision rule (ISO 14253-1); empty when the study has no such id.
 std::optional<double> expanded_uncertainty(const MonteCarloSummary& summary, std::string_view id,
                                            double k = 2.0);
+
+/// Decides `characteristics` again with the uncertainty `summary` evaluated for this part
+/// (ISO 14253-1 through decide/characteristic.hpp's one decision function). Each characteristic
+/// the study has a figure of (at least 2 trials) gets U = k u + `ambiguity_range`, k =
+/// `rule.coverage_factor`: the expanded uncertainty of JCGM 100:2008 section 6 plus the spread
+/// over equally good axes, which a tie-break hides from the trials (docs/uncertainty.md,
+/// "Decisions"). It replaces a stated budget's U for that characteristic (this part's own
+/// evaluation is the better knowledge); the others keep theirs. The caller combines the
+/// verdicts again (combine()).
+void decide_with_study(std::vector<Characteristic>& characteristics,
+                       const MonteCarloSummary& summary, const DecisionRule& rule);
 
 /// The entry of `id`, or nullptr.
 const CharacteristicUncertainty* find_uncertainty(const MonteCarloSummary& summary,
