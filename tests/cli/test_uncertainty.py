@@ -13,39 +13,20 @@ import io
 import json
 import os
 import shutil
-import subprocess
 import sys
 import tempfile
 
+from cli_harness import check, expect_error, finish
+from cli_harness import run as run_cli
+
 CLI, DEMO = sys.argv[1], sys.argv[2]
-failures = []
 CAUTION = "do not replace, the approved inspection procedure"
 TIME = ["--time", "2026-12-03T00:00:00Z"]
 
 
 def run(args):
-    p = subprocess.run([CLI, *args], capture_output=True, text=True, timeout=600)
-    return p.returncode, p.stdout, p.stderr
-
-
-def check(name, condition, detail=""):
-    if not condition:
-        failures.append(f"{name}: {detail}")
-
-
-def expect_error(name, args, *fragments):
-    code, out, err = run(args)
-    lines = [l for l in err.splitlines() if l.strip()]
-    problems = []
-    if code != 2:
-        problems.append(f"exit code {code}, expected 2")
-    if len(lines) != 1 or not lines[0].startswith("cylzone: error: ") or len(lines[0]) > 1000:
-        problems.append(f"expected one bounded 'cylzone: error:' line, got {err[:300]!r}")
-    for f in fragments:
-        if f not in err:
-            problems.append(f"stderr lacks {f!r}: {err.strip()[:300]!r}")
-    if problems:
-        failures.append(f"{name}: " + "; ".join(problems))
+    # The study runs thousands of evaluations in some cases: a longer limit than the harness's.
+    return run_cli(args, timeout=600)
 
 
 with tempfile.TemporaryDirectory() as tmp:
@@ -177,7 +158,4 @@ with tempfile.TemporaryDirectory() as tmp:
     expect_error("bad --probing-sigma", ["check", DEMO, "--uncertainty", "--probing-sigma", "-2"],
                  "--probing-sigma")
 
-if failures:
-    print("\n".join(failures))
-    sys.exit(1)
-print("uncertainty: the command line's study agrees with its contract")
+finish("uncertainty: the command line's study agrees with its contract")
