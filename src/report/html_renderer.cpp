@@ -686,6 +686,147 @@ void datum_section(std::ostream& out, const ReportModel& m) {
          "meets A, x clocked by C; depths inside the material are negative.</p></section>";
 }
 
+/// An uncertainty figure in the report's unit: two decimals more than the report's lengths (a
+/// standard uncertainty is often below their last digit), as in the CSV.
+std::string fine_text(const ReportUnits& u, double mm) {
+  return ReportUnits::fixed(u.length(mm), u.decimals() + 2);
+}
+
+/// The decision rules in force over `characteristics`, by name, in order of first use.
+std::string rules_in_force(const std::vector<Characteristic>& characteristics) {
+  std::string rules;
+  for (const Characteristic& c : characteristics) {
+    const std::string r(decision_rule_name(c.rule));
+    if (rules.find(r) == std::string::npos) rules += (rules.empty() ? "" : ", ") + r;
+  }
+  return rules;
+}
+
+/// The Monte Carlo study (uncertainty/monte_carlo.hpp, JCGM 101:2008): how it was run, the
+/// probing model with each feature's sigma, and per characteristic its value, u, the U that
+/// decided it (Characteristic::uncertainty), the reported coverage interval and its kind, the
+/// widening over equally good axes and the tie-breaking note. Present only when the study ran.
+void uncertainty_section(std::ostream& out, const ReportModel& m) {
+  if (!m.uncertainty) return;
+  const MonteCarloSummary& s = *m.uncertainty;
+  const ReportUnits& u = m.units;
+  const std::string unit(u.name());
+  out << "<section id=\"uncertainty\" data-trials=\"" << s.trials << "\" data-seed=\"" << s.seed
+      << "\"><h2>Measurement uncertainty</h2><table class=\"study\"><tbody>"
+      << "<tr><th>method</th><td>Monte Carlo propagation of distributions through the whole "
+         "chain (JCGM 101:2008): every raw point perturbed, prepared, fitted and evaluated "
+         "again per trial</td></tr>"
+      << "<tr><th>trials</th><td>" << s.trials
+      << (s.adaptive ? " (adaptive, " + std::to_string(s.batches) + " batches)"
+                     : std::string(" (fixed)"))
+      << (s.failed_trials > 0 ? ", " + std::to_string(s.failed_trials) + " could not be evaluated"
+                              : std::string())
+      << "</td></tr><tr><th>seed</th><td>" << s.seed << "</td></tr>"
+      << "<tr><th>status</th><td>" << esc(monte_carlo_status_name(s.status)) << ": "
+      << esc(s.message) << "</td></tr>"
+      << "<tr><th>coverage</th><td>" << ReportUnits::fixed(100.0 * s.coverage, 0)
+      << " % coverage intervals from the sorted trial values</td></tr>"
+      << "<tr><th>probing model</th><td>"
+      << (s.probing == ProbingModel::sigma
+              ? "one isotropic sigma per coordinate, as given"
+              : "sigma estimated per feature: RMS residual of its own least-squares fit")
+      << "</td></tr><tr><th>length error</th><td>";
+  if (s.length_error)
+    out << "E = A + L/K, A " << u.text(s.length_error->a) << ' ' << esc(unit) << ", K "
+        << ReportUnits::fixed(s.length_error->k, 1) << ", L " << u.text(s.length) << ' '
+        << esc(unit) << " (a systematic scale error per trial)";
+  else
+    out << "not modelled";
+  out << "</td></tr></tbody></table>";
+  if (!s.feature_sigma.empty()) {
+    out << "<table class=\"feature-sigma\"><thead><tr><th>feature</th><th>sigma ("
+        << esc(unit) << ")</th></tr></thead><tbody>";
+    // The study's features are the inputs after the plan, in order (datums, then bores).
+    for (std::size_t k = 0; k < s.feature_sigma.size(); ++k)
+      out << "<tr><td>"
+          << esc(k + 1 < m.inputs.size() ? m.inputs[k + 1].role
+                                         : "feature " + std::to_string(k + 1))
+          << "</td><td class=\"num\">" << fine_text(u, s.feature_sigma[k]) << "</td></tr>";
+    out << "</tbody></table>";
+  }
+  out << "<table class=\"characteristics uncertainty\"><thead><tr><th>characteristic</th>"
+         "<th>value</th><th>u</th><th>U (k)</th><th>interval</th><th>kind</th>"
+         "<th>widened by</th><th>note</th></tr></thead><tbody>";
+  for (const CharacteristicUncertainty& c : s.characteristics) {
+    const bool has = c.statistics.trials >= 2;  // fewer: no figure (the note says why)
+    const Characteristic* decided = m.find(c.id);
+    out << "<tr data-id=\"" << esc(c.id) << "\"><td>" << esc(c.id) << "</td><td class=\"num\">"
+        << u.text(c.value) << "</td><td class=\"num\">"
+        << (has ? fine_text(u, c.statistics.standard_uncertainty) : "\u2014")
+        << "</td><td class=\"num\">";
+    if (decided && decided->uncertainty)
+      out << u.text(decided->uncertainty->expanded) << " ("
+          << ReportUnits::fixed(decided->uncertainty->coverage_factor, 2) << ")";
+    else
+      out << "\u2014";
+    out << "</td><td class=\"num\">";
+    if (has)
+      out << "[" << fine_text(u, c.interval.low) << ", " << fine_text(u, c.interval.high) << "]";
+    else
+      out << "\u2014";
+    out << "</td><td>" << esc(interval_kind_name(c.kind)) << "</td><td class=\"num\">"
+        << (c.ambiguity_range > 0.0 ? fine_text(u, c.ambiguity_range) : "\u2014")
+        << "</td><td>" << (c.tie_breaking ? "<strong>tie-breaking:</strong> " : "")
+        << esc(in_report_unit(c.note, u)) << "</td></tr>";
+  }
+  out << "</tbody></table><p class=\"note\">u: standard uncertainty (the trials' standard "
+         "deviation, JCGM 101:2008 7.6); U: the expanded uncertainty that decided the row, k u "
+         "plus the widening over equally good axes; interval: the reported "
+      << ReportUnits::fixed(100.0 * s.coverage, 0)
+      << " % coverage interval of the kind named (JCGM 101:2008 7.7), widened at both ends by "
+         "the range the figure can take over equally good axes. Lengths in "
+      << esc(unit) << ".</p>";
+  if (!s.warnings.empty()) {
+    out << "<ul class=\"note\">";
+    for (const std::string& w : s.warnings) out << "<li>" << esc(in_report_unit(w, u)) << "</li>";
+    out << "</ul>";
+  }
+  out << "</section>";
+}
+
+/// The probing prediction of one bore (`check --predict-probing`, forecast/probing_advice.hpp):
+/// the pattern actually probed, the uncertainty a perfect bore's figures would have with it,
+/// beside the measured figures. Nothing when it was not asked for.
+void prediction_table(std::ostream& out, const ReportModel& m, const BoreSummary& b) {
+  if (!b.probing_prediction) return;
+  const ProbingPrediction& p = *b.probing_prediction;
+  const ReportUnits& u = m.units;
+  out << "<table class=\"prediction\" data-bore=\"" << esc(b.id) << "\"><caption>Probing "
+      << "prediction for the pattern probed: " << p.pattern.section_heights.size()
+      << " sections \u00d7 " << p.pattern.points_per_section << " points over "
+      << ReportUnits::fixed(p.pattern.arc_deg, 0) << "\u00b0, probing sigma "
+      << fine_text(u, p.probing_sigma) << ' ' << esc(u.name());
+  if (p.status == PredictionStatus::undetermined) {
+    out << "</caption><tbody><tr><td>undetermined: " << esc(p.message)
+        << "</td></tr></tbody></table>";
+    return;
+  }
+  out << ", " << p.trials << " trials</caption><thead><tr><th>figure</th><th>measured</th>"
+         "<th>U predicted</th><th>% of tolerance</th><th>target</th></tr></thead><tbody>";
+  const auto row = [&](const char* name, const std::string& id, const FigureUncertainty& f) {
+    const Characteristic* c = m.find(b.id + id);
+    out << "<tr><td>" << name << "</td><td class=\"num\">"
+        << (c && c->not_evaluated.empty() ? u.text(c->value) : "\u2014")
+        << "</td><td class=\"num\">" << u.text(f.expanded) << "</td><td class=\"num\">"
+        << ReportUnits::fixed(100.0 * f.share, 1) << "</td><td>"
+        << (f.meets_target ? "met" : "<strong>not met</strong>") << "</td></tr>";
+  };
+  row("position", "/position", p.position);
+  if (p.perpendicularity_uncertainty)
+    row("perpendicularity", "/perpendicularity", *p.perpendicularity_uncertainty);
+  out << "</tbody></table><p class=\"note\">Predicted standard uncertainty of the axis: "
+      << fine_text(u, std::max(p.top.u_x, p.top.u_y)) << " at the top (z "
+      << height_text(u, p.top.height) << "), " << fine_text(u, std::max(p.bottom.u_x, p.bottom.u_y))
+      << " at the bottom (z " << height_text(u, p.bottom.height) << "), tilt "
+      << ReportUnits::fixed(p.u_tilt * 1e6, 1)
+      << " \u00b5rad per direction (docs/probing-advice.md).</p>";
+}
+
 void bore_section(std::ostream& out, const ReportModel& m, const BoreSummary& b,
                   std::size_t index) {
   const ReportUnits& u = m.units;
@@ -719,6 +860,7 @@ void bore_section(std::ostream& out, const ReportModel& m, const BoreSummary& b,
       out << "<p class=\"note\">Datum mobility: " << esc(b.mobility) << "</p>";
     if (!b.boundary.empty())
       out << "<p class=\"note\">Virtual condition: " << esc(b.boundary) << "</p>";
+    prediction_table(out, m, b);
   }
   // One figure set per bore, also when there is nothing to draw (it says why).
   out << "<div class=\"figure-set\" data-bore=\"" << esc(b.id) << "\">";
@@ -805,6 +947,7 @@ void inputs_section(std::ostream& out, const std::vector<InputRecord>& inputs) {
   out << "</tbody></table></section>";
 }
 
+
 void methods_section(std::ostream& out, const ReportModel& m) {
   out << "<section id=\"methods\"><h2>Methods</h2><ul>";
   if (!m.datums.empty() && !m.datums.front().association.empty())
@@ -823,11 +966,7 @@ void methods_section(std::ostream& out, const ReportModel& m) {
          "cylinder perpendicular to A holding it over the bore's depth.</li>"
          "<li>Size: actual mating envelope and two-point sizes (ISO 14405-1); form: "
          "minimum-zone cylindricity (ISO 12180-1).</li>";
-  std::string rules;
-  for (const Characteristic& c : m.characteristics) {
-    const std::string r(decision_rule_name(c.rule));
-    if (rules.find(r) == std::string::npos) rules += (rules.empty() ? "" : ", ") + r;
-  }
+  const std::string rules = rules_in_force(m.characteristics);
   if (!rules.empty())
     out << "<li>Decision rule: " << esc(rules)
         << ". 'allowed' is the effective tolerance (after bonus). Simple acceptance: the value "
@@ -882,7 +1021,17 @@ std::string format_html(const ReportModel& m) {
   out << "<p class=\"part-verdict\">Part verdict: " << verdict_span(m.verdict);
   if (m.verdict == Verdict::does_not_conform)
     out << " (" << failing << " of " << m.bores.size() << " bores)";
-  out << "</p><p class=\"caution\">" << esc(safety_caution) << "</p></header>\n";
+  out << "</p>";
+  // The decision rule beside the verdict it set, when one other than simple acceptance, a U or
+  // a fallback is present (decision_details_shown); a plan without [decision] reads as before.
+  if (decision_details_shown(m.characteristics))
+    out << "<p class=\"decision-rule\">Decision rule in force: <strong>"
+        << esc(rules_in_force(m.characteristics)) << "</strong>"
+        << (m.uncertainty ? "; U from this part's Monte Carlo study (section Measurement "
+                            "uncertainty)"
+                          : "")
+        << ". Each row's acceptance and rejection limits are in its bore's table.</p>";
+  out << "<p class=\"caution\">" << esc(safety_caution) << "</p></header>\n";
 
   // Summary: one line per bore, then every characteristic.
   out << "<section id=\"summary\"><h2>Bores</h2><table><thead><tr><th>bore</th><th>verdict</th>"
@@ -914,6 +1063,7 @@ std::string format_html(const ReportModel& m) {
     out << '\n';
   }
   sensitivity_section(out, m);
+  uncertainty_section(out, m);
   inputs_section(out, m.inputs);
   methods_section(out, m);
   if (!m.warnings.empty()) {
