@@ -456,9 +456,10 @@ TEST_CASE("HTML: the uncertainty study, the rule in force with its limits, the p
   CHECK(row.find("0.0029 (2.00)") != std::string::npos);
   CHECK(row.find("[0.048900, 0.054100]") != std::string::npos);
   CHECK(row.find("<td>shortest</td>") != std::string::npos);
-  CHECK(row.find("<td class=\"num\">0.000400</td>") != std::string::npos);
-  CHECK(row.find("<strong>tie-breaking:</strong> interval widened by 0.0004 mm") !=
+  CHECK(row.find("<td class=\"num\">0.000400 !</td>") != std::string::npos);
+  CHECK(study.find("<li data-id=\"P2/position\">P2/position: <strong>! tie-breaking:</strong>") !=
         std::string::npos);
+  CHECK(study.find("axes as much as the part; interval widened by 0.0004 mm") != std::string::npos);
   CHECK(study.find("study &lt;warning&gt; &amp; more") != std::string::npos);
   // The rule in force beside the part verdict, and each row's limits in the bore's table:
   // ISO 14253-1:2017 (from memory) accepts at or inside allowed - U and rejects beyond
@@ -469,11 +470,22 @@ TEST_CASE("HTML: the uncertainty study, the rule in force with its limits, the p
   const std::string bore = between(html, "<section class=\"bore\"", "</section>");
   CHECK(bore.find("accept &lt;= " + ReportUnits::fixed(allowed - expanded, 4) + ", reject &gt; " +
                   ReportUnits::fixed(allowed + expanded, 4)) != std::string::npos);
+  // The top view draws both limits as rings at the stated magnification: radius = limit / 2 x M.
+  const std::string top = between(html, "<figure class=\"top-view\"", "</figure>");
+  const double magnification = attribute(top, "<figure", "data-magnification");
+  CHECK(attribute(top, "class=\"limit-accept\"", "r") ==
+        Approx((allowed - expanded) / 2 * magnification).margin(0.005));  // 0.01 mm of paper
+  CHECK(attribute(top, "class=\"limit-reject\"", "r") ==
+        Approx((allowed + expanded) / 2 * magnification).margin(0.005));
+  CHECK(top.find("accept \u00d8" + ReportUnits::fixed(allowed - expanded, 4) + ", reject \u00d8" +
+                 ReportUnits::fixed(allowed + expanded, 4) + " (ISO 14253-1)") !=
+        std::string::npos);
   // The prediction, one table in the bore's section: the pattern, U and its share recomputed.
   CHECK(occurrences(html, "<table class=\"prediction\"") == 1);
   const std::string prediction = between(bore, "<table class=\"prediction\"", "</table>");
-  CHECK(prediction.find("3 sections \u00d7 8 points over 360\u00b0, probing sigma 0.001000 mm, "
-                        "2000 trials") != std::string::npos);
+  CHECK(bore.find("<strong>Probing prediction</strong> for the pattern probed: 3 sections \u00d7 "
+                  "8 points over 360\u00b0, probing sigma 0.001000 mm, 2000 trials.") !=
+        std::string::npos);
   CHECK(prediction.find("<td class=\"num\">0.0042</td><td class=\"num\">" +
                         ReportUnits::fixed(100.0 * 0.0042 / stated, 1) +
                         "</td><td><strong>not met</strong>") != std::string::npos);
@@ -490,6 +502,7 @@ TEST_CASE("HTML without a study, a rule or a prediction has none of their parts"
   CHECK(html.find("id=\"uncertainty\"") == std::string::npos);
   CHECK(html.find("Decision rule in force") == std::string::npos);
   CHECK(html.find("class=\"prediction\"") == std::string::npos);
+  CHECK(html.find("limit-accept") == std::string::npos);
 }
 
 TEST_CASE("JSON reader: the study and the prediction read back render the same HTML and CSV") {

@@ -224,8 +224,19 @@ constexpr const char* svg_open =
 void top_view(std::ostream& out, const ReportModel& m, const BoreSummary& b,
               const DepthProfile& d) {
   const ZoneSizes z = zone_sizes(m, d);
-  constexpr double width = 72.0, height = 84.0, cx = 36.0, cy = 31.0, room = 26.0;
-  const double magnification = magnification_for(figure_extent(d, z), room);
+  // The decision rule's limits as rings about the zone when a rule other than simple acceptance
+  // decided the position (ISO 14253-1 or a guard band): conformance is proven while the axis
+  // stays inside the inner ring over the whole range, non-conformance once it passes the outer.
+  const Characteristic* decided = m.find(d.characteristic_id);
+  const bool guarded = decided && decided->not_evaluated.empty() &&
+                       decided->rule != DecisionRuleKind::simple_acceptance &&
+                       decided->comparison == Comparison::at_most &&
+                       std::abs(decided->rejection_limit - decided->acceptance_limit) > 1e-12;
+  constexpr double width = 72.0, cx = 36.0, cy = 31.0, room = 26.0;
+  const double height = guarded ? 88.0 : 84.0;
+  const double extent = std::max(figure_extent(d, z),
+                                 guarded ? decided->rejection_limit / 2.0 : 0.0);
+  const double magnification = magnification_for(extent, room);
   const auto px = [&](const AxisDeviation& s) { return cx + s.offset.x() * magnification; };
   const auto py = [&](const AxisDeviation& s) { return cy - s.offset.y() * magnification; };
   out << "<figure class=\"top-view\" data-magnification=\"" << ReportUnits::fixed(magnification, 0)
@@ -247,6 +258,15 @@ void top_view(std::ostream& out, const ReportModel& m, const BoreSummary& b,
     out << "<circle class=\"zone-stated\" cx=\"" << at(cx) << "\" cy=\"" << at(cy) << "\" r=\""
         << at(z.stated / 2 * magnification)
         << "\" fill=\"none\" stroke=\"#000\" stroke-width=\"0.3\" stroke-dasharray=\"1.2 0.8\"/>";
+  if (guarded)
+    for (const auto& [kind, limit] : {std::pair<const char*, double>{"accept",
+                                                                     decided->acceptance_limit},
+                                      {"reject", decided->rejection_limit}})
+      if (limit > 0.0)
+        out << "<circle class=\"limit-" << kind << "\" cx=\"" << at(cx) << "\" cy=\"" << at(cy)
+            << "\" r=\"" << at(limit / 2 * magnification)
+            << "\" fill=\"none\" stroke=\"#000\" stroke-width=\"0.25\" "
+               "stroke-dasharray=\"0.3 0.6\"/>";
   // The axis from the top of the range to the bottom, with a mark at every sampled height.
   if (!d.samples.empty()) {
     out << "<polyline class=\"axis-trace\" fill=\"none\" stroke=\"#000\" stroke-width=\"0.6\" "
@@ -290,6 +310,11 @@ void top_view(std::ostream& out, const ReportModel& m, const BoreSummary& b,
     out << "<path d=\"M3.7 79.7l2.6 2.6m0 -2.6l-2.6 2.6\" stroke=\"#000\" stroke-width=\"0.5\"/>"
         << "<text x=\"9\" y=\"81.9\">leaves the zone at z = " << height_text(u, d.exit->height)
         << "</text>";
+  if (guarded)
+    out << "<path d=\"M2.5 85h5\" stroke=\"#000\" stroke-width=\"0.25\" stroke-dasharray=\"0.3 "
+           "0.6\"/><text class=\"limits\" x=\"9\" y=\"85.9\">accept \u00d8"
+        << u.text(decided->acceptance_limit) << ", reject \u00d8" << u.text(decided->rejection_limit)
+        << " (" << esc(decision_rule_name(decided->rule)) << ")</text>";
   out << "</g></svg>";
   // Where the dots are: the section centres of a median line, else evenly spaced heights.
   std::string dots = "dots at the section centres";
@@ -300,7 +325,11 @@ void top_view(std::ostream& out, const ReportModel& m, const BoreSummary& b,
            " " + std::string(u.name()) + " of depth";
   out << "<figcaption>Top view into the bore (x right, y up): the axis from the top of the "
          "evaluated range (\u25cb) to its bottom (\u25a0), "
-      << dots << ", inside the position zone. Deviations magnified " << ratio_text(magnification)
+      << dots << ", inside the position zone"
+      << (guarded ? "; dotted rings: the decision rule's acceptance (inner) and rejection (outer) "
+                    "limits"
+                  : "")
+      << ". Deviations magnified " << ratio_text(magnification)
       << " on paper printed at 100 %.</figcaption></figure>";
 }
 
@@ -633,7 +662,8 @@ void characteristic_rows(std::ostream& out, const ReportModel& m,
       out << "</tr>";
       continue;
     }
-    out << "<td>";
+    // Wide enough for "accept <= 10.0143," on one line beside the verdicts, which do not wrap.
+    out << "<td style=\"min-width:26mm\">";
     if (c.uncertainty)
       out << u.text(c.uncertainty->expanded) << " ("
           << ReportUnits::fixed(c.uncertainty->coverage_factor, 2) << ")";
@@ -751,7 +781,7 @@ void uncertainty_section(std::ostream& out, const ReportModel& m) {
   }
   out << "<table class=\"characteristics uncertainty\"><thead><tr><th>characteristic</th>"
          "<th>value</th><th>u</th><th>U (k)</th><th>interval</th><th>kind</th>"
-         "<th>widened by</th><th>note</th></tr></thead><tbody>";
+         "<th>widened by</th></tr></thead><tbody>";
   for (const CharacteristicUncertainty& c : s.characteristics) {
     const bool has = c.statistics.trials >= 2;  // fewer: no figure (the note says why)
     const Characteristic* decided = m.find(c.id);
@@ -771,10 +801,23 @@ void uncertainty_section(std::ostream& out, const ReportModel& m) {
       out << "\u2014";
     out << "</td><td>" << esc(interval_kind_name(c.kind)) << "</td><td class=\"num\">"
         << (c.ambiguity_range > 0.0 ? fine_text(u, c.ambiguity_range) : "\u2014")
-        << "</td><td>" << (c.tie_breaking ? "<strong>tie-breaking:</strong> " : "")
-        << esc(in_report_unit(c.note, u)) << "</td></tr>";
+        << (c.tie_breaking ? " !" : "") << "</td></tr>";
   }
-  out << "</tbody></table><p class=\"note\">u: standard uncertainty (the trials' standard "
+  out << "</tbody></table>";
+  // The notes under the table, by id (a column would be too narrow for them).
+  bool notes = false;
+  for (const CharacteristicUncertainty& c : s.characteristics) {
+    if (c.note.empty() && !c.tie_breaking) continue;
+    out << (notes ? "" : "<ul class=\"note study-notes\">") << "<li data-id=\"" << esc(c.id)
+        << "\">" << esc(c.id) << ": "
+        << (c.tie_breaking ? "<strong>! tie-breaking:</strong> the spread measures the "
+                             "solver's choice among equally good axes as much as the part; "
+                           : "")
+        << esc(in_report_unit(c.note, u)) << "</li>";
+    notes = true;
+  }
+  if (notes) out << "</ul>";
+  out << "<p class=\"note\">u: standard uncertainty (the trials' standard "
          "deviation, JCGM 101:2008 7.6); U: the expanded uncertainty that decided the row, k u "
          "plus the widening over equally good axes; interval: the reported "
       << ReportUnits::fixed(100.0 * s.coverage, 0)
@@ -796,17 +839,17 @@ void prediction_table(std::ostream& out, const ReportModel& m, const BoreSummary
   if (!b.probing_prediction) return;
   const ProbingPrediction& p = *b.probing_prediction;
   const ReportUnits& u = m.units;
-  out << "<table class=\"prediction\" data-bore=\"" << esc(b.id) << "\"><caption>Probing "
-      << "prediction for the pattern probed: " << p.pattern.section_heights.size()
+  out << "<p class=\"note\"><strong>Probing prediction</strong> for the pattern probed: "
+      << p.pattern.section_heights.size()
       << " sections \u00d7 " << p.pattern.points_per_section << " points over "
       << ReportUnits::fixed(p.pattern.arc_deg, 0) << "\u00b0, probing sigma "
       << fine_text(u, p.probing_sigma) << ' ' << esc(u.name());
   if (p.status == PredictionStatus::undetermined) {
-    out << "</caption><tbody><tr><td>undetermined: " << esc(p.message)
-        << "</td></tr></tbody></table>";
+    out << "; undetermined: " << esc(p.message) << "</p>";
     return;
   }
-  out << ", " << p.trials << " trials</caption><thead><tr><th>figure</th><th>measured</th>"
+  out << ", " << p.trials << " trials.</p><table class=\"prediction\" data-bore=\""
+      << esc(b.id) << "\"><thead><tr><th>figure</th><th>measured</th>"
          "<th>U predicted</th><th>% of tolerance</th><th>target</th></tr></thead><tbody>";
   const auto row = [&](const char* name, const std::string& id, const FigureUncertainty& f) {
     const Characteristic* c = m.find(b.id + id);
