@@ -663,7 +663,7 @@ void characteristic_rows(std::ostream& out, const ReportModel& m,
       continue;
     }
     // Wide enough for "accept <= 10.0143," on one line beside the verdicts, which do not wrap.
-    out << "<td style=\"min-width:26mm\">";
+    out << "<td style=\"min-width:34mm\">";
     if (c.uncertainty)
       out << u.text(c.uncertainty->expanded) << " ("
           << ReportUnits::fixed(c.uncertainty->coverage_factor, 2) << ")";
