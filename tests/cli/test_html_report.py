@@ -18,6 +18,7 @@ missing is a failure, not a skip: the README's test command installs it.
 
 Usage: /usr/bin/python3 test_html_report.py PATH_TO_CYLZONE PLAN ARTEFACT_DIR
 """
+import csv
 import json
 import os
 import re
@@ -211,12 +212,34 @@ if os.path.exists(studied_html):
     os.remove(studied_html)
 with tempfile.TemporaryDirectory() as tmp:
     report = os.path.join(tmp, "report.json")
+    table = os.path.join(tmp, "report.csv")
     p = run("check", PLAN, "--uncertainty", "--trials", "12", "--decision-rule", "iso-14253-1",
-            "--predict-probing", "0.001", "--json", report, "--html", studied_html,
-            "--time", "2026-01-01T00:00:00Z")
+            "--predict-probing", "0.001", "--json", report, "--csv", table, "--html",
+            studied_html, "--time", "2026-01-01T00:00:00Z")
     check(p.returncode in (1, 3), f"studied check: exit {p.returncode}; {p.stderr[:300]}")
     with open(report, encoding="utf-8") as f:
         studied = json.load(f)
+    # The CSV: the prediction's columns last, after the study's, each row's from its bore's
+    # prediction in the JSON of the same run (docs/report-schema.md).
+    with open(table, encoding="utf-8", newline="") as f:
+        rows = list(csv.DictReader(f))
+    with open(table, encoding="utf-8", newline="") as f:
+        header = next(csv.reader(f))
+    check(header[-13:-10] == ["u", "interval_low", "interval_high"] and
+          header[-10] == "prediction_status" and header[-1] == "prediction_meets_target",
+          f"CSV: the prediction's columns are not last: {header[-13:]}")
+    by_bore = {b["id"]: b.get("probing_prediction") for b in studied["bores"]}
+    for r in rows:
+        pp = by_bore.get(r["bore"])
+        if not pp or pp["status"] != "predicted":
+            continue
+        u = pp["position_uncertainty"]
+        got = (r["prediction_sections"], r["prediction_points_per_section"],
+               r["prediction_position_expanded"], r["prediction_position_share"])
+        want = (str(len(pp["pattern"]["section_heights"])),
+                str(pp["pattern"]["points_per_section"]), f"{u['expanded']:.4f}",
+                f"{100 * u['share']:.1f}")
+        check(got == want, f"CSV {r['id']}: prediction {got}, JSON {want}")
 p = chromium("--dump-dom", "file://" + studied_html)
 dom = p.stdout
 check("<body" in dom, f"studied report: no DOM dumped; chromium said: {p.stderr[-500:]}")
