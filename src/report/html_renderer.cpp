@@ -1070,8 +1070,8 @@ std::string format_html(const ReportModel& m) {
   if (decision_details_shown(m.characteristics))
     out << "<p class=\"decision-rule\">Decision rule in force: <strong>"
         << esc(rules_in_force(m.characteristics)) << "</strong>"
-        << (m.uncertainty ? "; U from this part's Monte Carlo study (section Measurement "
-                            "uncertainty)"
+        << (m.uncertainty ? "; U from this part's Monte Carlo study (<a "
+                            "href=\"#uncertainty\">Measurement uncertainty</a>)"
                           : "")
         << ". Each row's acceptance and rejection limits are in its bore's table.</p>";
   out << "<p class=\"caution\">" << esc(safety_caution) << "</p></header>\n";
