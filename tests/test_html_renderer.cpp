@@ -351,3 +351,242 @@ TEST_CASE("HTML in inch: lengths and heights in inch, figure deviations in micro
   CHECK(attribute(top, "<figure", "data-magnification") == 1000.0);
   CHECK(top.find(">10 \u00b5m<") != std::string::npos);
 }
+
+namespace {
+
+/// A Monte Carlo study of the tilted bore's position as monte_carlo_uncertainty reports one
+/// (uncertainty/monte_carlo.hpp), its numbers chosen by the test: u = 1.23 um, the shortest
+/// interval widened by 0.4 um at both ends (twice an ambiguity of 0.2 um), a length error.
+MonteCarloSummary position_study(double value) {
+  MonteCarloSummary s;
+  s.status = MonteCarloStatus::converged;
+  s.message = "12 trials (fixed), seed 7";
+  s.seed = 7;
+  s.trials = 12;
+  s.coverage = 0.95;
+  s.probing = ProbingModel::sigma;
+  s.feature_sigma = {0.0012};
+  s.length_error = LengthError{0.0015, 333.0};
+  s.length = 120.5;
+  CharacteristicUncertainty c;
+  c.id = "P2/position";
+  c.value = value;
+  c.statistics.mean = 0.0514;
+  c.statistics.standard_uncertainty = 0.00123;
+  c.statistics.symmetric = {0.0491, 0.0536};
+  c.statistics.shortest = {0.0493, 0.0537};
+  c.statistics.trials = 12;
+  c.ambiguity = 0.0002;
+  c.ambiguity_range = 0.0004;
+  c.interval = {0.0489, 0.0541};
+  c.tie_breaking = true;
+  c.note = "interval widened by 0.0004 mm over equally good axes";
+  s.characteristics.push_back(c);
+  s.warnings.push_back("study <warning> & more");
+  return s;
+}
+
+/// A probing prediction for the bore (forecast/probing_advice.hpp), numbers chosen by the test.
+ProbingPrediction bore_prediction() {
+  ProbingPrediction p;
+  p.pattern.section_heights = {-2.0, -30.0, -58.0};
+  p.pattern.points_per_section = 8;
+  p.pattern.arc_deg = 360.0;
+  p.probing_sigma = 0.001;
+  p.trials = 2000;
+  p.top = {-2.0, 0.0011, 0.0009, {0.0021, 0.0011, 0.0040}};
+  p.bottom = {-58.0, 0.0013, 0.0012, {0.0025, 0.0013, 0.0047}};
+  p.full_depth = {0.0030, 0.0014, 0.0056};
+  p.perpendicularity = {0.0012, 0.0006, 0.0024};
+  p.u_tilt = 3.2e-5;
+  p.magnification = 1.07;
+  p.position = {stated, 0.0042, 0.0042 / stated, false};
+  p.meets_target = false;
+  return p;
+}
+
+/// The tilted bore decided by the ISO 14253-1 rule with the study's U, with its prediction.
+struct StudiedPart {
+  PartCheckResult result;
+  ReportModel model;
+};
+
+void make_studied(StudiedPart& part) {
+  part.result = tilted_bore_result();
+  const MonteCarloSummary study = position_study(part.result.bores.front().position->value);
+  DecisionRule rule;
+  rule.kind = DecisionRuleKind::iso_14253_1;
+  decide_with_study(part.result.characteristics, study, rule);
+  part.result.verdict = combine(part.result.characteristics);
+  part.model = make_report_model(part.result);
+  part.model.uncertainty = study;
+  part.model.bores.front().probing_prediction = bore_prediction();
+}
+
+}  // namespace
+
+TEST_CASE("HTML: the uncertainty study, the rule in force with its limits, the prediction") {
+  StudiedPart part;
+  make_studied(part);
+  const ReportModel& m = part.model;
+  const std::string html = format_html(m);
+  // The study's section, once, with how it was run (the model's own numbers).
+  REQUIRE(occurrences(html, "<section id=\"uncertainty\"") == 1);
+  const std::string study = between(html, "<section id=\"uncertainty\"", "</section>");
+  CHECK(study.find("JCGM 101:2008") != std::string::npos);
+  CHECK(study.find("data-trials=\"12\" data-seed=\"7\"") != std::string::npos);
+  CHECK(study.find("<tr><th>trials</th><td>12 (fixed)</td></tr>") != std::string::npos);
+  CHECK(study.find("<tr><th>seed</th><td>7</td></tr>") != std::string::npos);
+  CHECK(study.find("converged: 12 trials (fixed), seed 7") != std::string::npos);
+  CHECK(study.find("E = A + L/K, A 0.0015 mm, K 333.0, L 120.5000 mm") != std::string::npos);
+  CHECK(study.find("<tr><td>bore P2</td><td class=\"num\">0.001200</td></tr>") !=
+        std::string::npos);
+  // Per characteristic: value, u, U (k), the interval and its kind, the widening, the note.
+  // U = k u + the widening over equally good axes (docs/uncertainty.md, "Decisions"), recomputed
+  // here: 2 x 0.00123 + 0.0004 = 0.00286, 0.0029 at the report's four decimals.
+  const Characteristic* position = m.find("P2/position");
+  REQUIRE(position);
+  REQUIRE(position->uncertainty);
+  CHECK(position->uncertainty->expanded == Approx(2 * 0.00123 + 0.0004).margin(1e-15));
+  const std::string row = between(study, "<tr data-id=\"P2/position\">", "</tr>");
+  const double value = 2 * bottom_offset.norm();  // the test's own axis: 2 |offset at bottom|
+  CHECK(row.find("<td class=\"num\">" + ReportUnits::fixed(value, 4) + "</td>") !=
+        std::string::npos);
+  CHECK(row.find("<td class=\"num\">0.001230</td>") != std::string::npos);
+  CHECK(row.find("0.0029 (2.00)") != std::string::npos);
+  CHECK(row.find("[0.048900, 0.054100]") != std::string::npos);
+  CHECK(row.find("<td>shortest</td>") != std::string::npos);
+  CHECK(row.find("<td class=\"num\">0.000400 !</td>") != std::string::npos);
+  CHECK(study.find("<li data-id=\"P2/position\">P2/position: <strong>! tie-breaking:</strong>") !=
+        std::string::npos);
+  CHECK(study.find("axes as much as the part; interval widened by 0.0004 mm") != std::string::npos);
+  CHECK(study.find("study &lt;warning&gt; &amp; more") != std::string::npos);
+  // The rule in force beside the part verdict, and each row's limits in the bore's table:
+  // ISO 14253-1:2017 (from memory) accepts at or inside allowed - U and rejects beyond
+  // allowed + U, recomputed from the test's tolerance and bonus.
+  const std::string header = between(html, "<header>", "</header>");
+  CHECK(header.find("Decision rule in force: <strong>ISO 14253-1</strong>") != std::string::npos);
+  const double allowed = stated + bonus, expanded = 2 * 0.00123 + 0.0004;
+  const std::string bore = between(html, "<section class=\"bore\"", "</section>");
+  CHECK(bore.find("accept &lt;= " + ReportUnits::fixed(allowed - expanded, 4) + ", reject &gt; " +
+                  ReportUnits::fixed(allowed + expanded, 4)) != std::string::npos);
+  // The top view draws both limits as rings at the stated magnification: radius = limit / 2 x M.
+  const std::string top = between(html, "<figure class=\"top-view\"", "</figure>");
+  const double magnification = attribute(top, "<figure", "data-magnification");
+  CHECK(attribute(top, "class=\"limit-accept\"", "r") ==
+        Approx((allowed - expanded) / 2 * magnification).margin(0.005));  // 0.01 mm of paper
+  CHECK(attribute(top, "class=\"limit-reject\"", "r") ==
+        Approx((allowed + expanded) / 2 * magnification).margin(0.005));
+  CHECK(top.find("accept \u00d8" + ReportUnits::fixed(allowed - expanded, 4) + ", reject \u00d8" +
+                 ReportUnits::fixed(allowed + expanded, 4) + " (ISO 14253-1)") !=
+        std::string::npos);
+  // The prediction, one table in the bore's section: the pattern, U and its share recomputed.
+  CHECK(occurrences(html, "<table class=\"prediction\"") == 1);
+  const std::string prediction = between(bore, "<table class=\"prediction\"", "</table>");
+  CHECK(bore.find("<strong>Probing prediction</strong> for the pattern probed: 3 sections \u00d7 "
+                  "8 points over 360\u00b0, probing sigma 0.001000 mm, 2000 trials.") !=
+        std::string::npos);
+  CHECK(prediction.find("<td class=\"num\">0.0042</td><td class=\"num\">" +
+                        ReportUnits::fixed(100.0 * 0.0042 / stated, 1) +
+                        "</td><td><strong>not met</strong>") != std::string::npos);
+  CHECK(bore.find("0.001100 at the top (z \u22122.00), 0.001300 at the bottom (z \u221258.00), "
+                  "tilt 32.0 \u00b5rad") != std::string::npos);
+  // Verdicts still in words, the caution top and foot, nothing scripted.
+  CHECK(html.find("\u2718 does not conform") != std::string::npos);
+  CHECK(occurrences(html, std::string(safety_caution)) == 2);
+  CHECK(html.find("<script") == std::string::npos);
+}
+
+TEST_CASE("HTML without a study, a rule or a prediction has none of their parts") {
+  const std::string html = format_html(make_report_model(tilted_bore_result()));
+  CHECK(html.find("id=\"uncertainty\"") == std::string::npos);
+  CHECK(html.find("Decision rule in force") == std::string::npos);
+  CHECK(html.find("class=\"prediction\"") == std::string::npos);
+  CHECK(html.find("limit-accept") == std::string::npos);
+}
+
+TEST_CASE("JSON reader: the study and the prediction read back render the same HTML and CSV") {
+  StudiedPart part;
+  make_studied(part);
+  const ReportModel& m = part.model;
+  const ReportModel back = read_report_json(format_json(m), "report.json");
+  REQUIRE(back.uncertainty);
+  const MonteCarloSummary& a = *m.uncertainty;
+  const MonteCarloSummary& b = *back.uncertainty;
+  CHECK(b.status == a.status);
+  CHECK(b.message == a.message);
+  CHECK(b.seed == a.seed);
+  CHECK(b.trials == a.trials);
+  CHECK(b.coverage == a.coverage);
+  CHECK(b.feature_sigma == a.feature_sigma);  // mm: shortest round-trip decimals
+  REQUIRE(b.length_error);
+  CHECK(b.length_error->a == a.length_error->a);
+  CHECK(b.length_error->k == a.length_error->k);
+  CHECK(b.length == a.length);
+  REQUIRE(b.characteristics.size() == 1);
+  const CharacteristicUncertainty& ca = a.characteristics.front();
+  const CharacteristicUncertainty& cb = b.characteristics.front();
+  CHECK(cb.id == ca.id);
+  CHECK(cb.statistics.standard_uncertainty == ca.statistics.standard_uncertainty);
+  CHECK(cb.interval.low == ca.interval.low);
+  CHECK(cb.interval.high == ca.interval.high);
+  CHECK(cb.statistics.shortest.low == ca.statistics.shortest.low);
+  CHECK(cb.statistics.symmetric.high == ca.statistics.symmetric.high);
+  CHECK(cb.ambiguity_range == ca.ambiguity_range);
+  CHECK(cb.tie_breaking == ca.tie_breaking);
+  CHECK(cb.note == ca.note);
+  REQUIRE(back.bores.front().probing_prediction);
+  const ProbingPrediction& pa = *m.bores.front().probing_prediction;
+  const ProbingPrediction& pb = *back.bores.front().probing_prediction;
+  CHECK(pb.pattern.section_heights == pa.pattern.section_heights);
+  CHECK(pb.pattern.points_per_section == pa.pattern.points_per_section);
+  CHECK(pb.position.expanded == pa.position.expanded);
+  CHECK(pb.position.share == pa.position.share);
+  CHECK(pb.u_tilt == Approx(pa.u_tilt).epsilon(1e-14));  // written in urad
+  CHECK(pb.bottom.u_y == pa.bottom.u_y);
+  // The same study section, prediction table, rule line and CSV from the model read back.
+  const std::string html = format_html(m), html_back = format_html(back);
+  for (const auto& [from, to] : {std::pair<std::string, std::string>{"<section id=\"uncertainty\"",
+                                                                     "</section>"},
+                                 {"<table class=\"prediction\"", "</p>"},
+                                 {"<p class=\"decision-rule\">", "</p>"}})
+    CHECK(between(html_back, from, to) == between(html, from, to));
+  CHECK(format_csv(back) == format_csv(m));
+
+  // A broken entry is refused with its JSON path.
+  std::string broken = format_json(m);
+  broken.replace(broken.find("\"probing_model\": \"sigma\""), 24, "\"probing_model\": \"guess\"");
+  CHECK_THROWS_WITH(read_report_json(broken, "r.json"),
+                    Catch::Matchers::Contains("uncertainty.probing_model") &&
+                        Catch::Matchers::Contains("unknown probing model"));
+  std::string total = format_json(m);
+  total.replace(total.find("\"total_points\": 24"), 18, "\"total_points\": 25");
+  CHECK_THROWS_WITH(read_report_json(total, "r.json"),
+                    Catch::Matchers::Contains("probing_prediction.pattern.total_points"));
+}
+
+TEST_CASE("CSV: the probing prediction's columns appended last, only when it ran") {
+  StudiedPart part;
+  make_studied(part);
+  const std::string csv = format_csv(part.model);
+  const std::string header = csv.substr(0, csv.find('\n'));
+  // After the study's columns (docs/report-schema.md), at the end.
+  const std::string tail =
+      ",u,interval_low,interval_high,prediction_status,prediction_sections,"
+      "prediction_points_per_section,prediction_arc_deg,prediction_sigma,"
+      "prediction_position_expanded,prediction_position_share,"
+      "prediction_perpendicularity_expanded,prediction_perpendicularity_share,"
+      "prediction_meets_target";
+  CHECK(header.size() >= tail.size());
+  CHECK(header.compare(header.size() - tail.size(), tail.size(), tail) == 0);
+  // The row of P2/position: the model's own numbers, the share recomputed as U / tolerance.
+  const std::size_t at = csv.find(",P2/position,");
+  REQUIRE(at != std::string::npos);
+  const std::string row = csv.substr(at, csv.find('\n', at) - at);
+  CHECK(row.find(",predicted,3,8,360.0,0.001000,0.0042," +
+                 ReportUnits::fixed(100.0 * 0.0042 / stated, 1) + ",,,no") !=
+        std::string::npos);
+  // Without a prediction the columns are absent (the report keeps its columns exactly).
+  const std::string plain = format_csv(make_report_model(tilted_bore_result()));
+  CHECK(plain.find("prediction_") == std::string::npos);
+}

@@ -46,6 +46,26 @@ std::string uncertainty_text(double mm, const ReportUnits& u) {
   return ReportUnits::fixed(u.length(mm), u.decimals() + 2);
 }
 
+/// The probing prediction's key figures for a row's bore (forecast/probing_advice.hpp): status,
+/// pattern, sigma, the predicted U of position and perpendicularity with their shares of the
+/// tolerance, and whether every figure meets the target; empty fields without a prediction.
+std::string prediction_fields(const BoreSummary* bore, const ReportUnits& u) {
+  constexpr std::size_t columns = 10;
+  if (!bore || !bore->probing_prediction) return std::string(columns, ',');
+  const ProbingPrediction& p = *bore->probing_prediction;
+  const bool known = p.status == PredictionStatus::predicted;
+  const auto share = [](double s) { return ReportUnits::fixed(100.0 * s, 1); };
+  const std::optional<FigureUncertainty>& q = p.perpendicularity_uncertainty;
+  return std::string(",") + (known ? "predicted" : "undetermined") + ',' +
+         std::to_string(p.pattern.section_heights.size()) + ',' +
+         std::to_string(p.pattern.points_per_section) + ',' +
+         ReportUnits::fixed(p.pattern.arc_deg, 1) + ',' + uncertainty_text(p.probing_sigma, u) +
+         ',' + (known ? u.text(p.position.expanded) : "") + ',' +
+         (known ? share(p.position.share) : "") + ',' +
+         (known && q ? u.text(q->expanded) : "") + ',' + (known && q ? share(q->share) : "") +
+         ',' + (known ? (p.meets_target ? "yes" : "no") : "");
+}
+
 }  // namespace
 
 std::string format_csv(const ReportModel& m) {
@@ -53,6 +73,9 @@ std::string format_csv(const ReportModel& m) {
   // RFC 4180 has no comment lines, so the safety caution travels as a column of every row: a
   // row copied or filtered on its own still carries it.
   const std::string caution = csv_field(safety_caution);
+  const bool predicted =
+      std::any_of(m.bores.begin(), m.bores.end(),
+                  [](const BoreSummary& b) { return b.probing_prediction.has_value(); });
   std::ostringstream out;
   out << "part,bore,characteristic,reference,value,tolerance,bonus,allowed,comparison,verdict,"
          "decisive,units,id,caution,part_id,serial,timestamp,notes,range_source,status,reason,outliers_removed"
@@ -68,7 +91,15 @@ std::string format_csv(const ReportModel& m) {
          "uncertainty_source,rule_note"
          // The Monte Carlo study's u and reported interval, only when one was run (the report
          // without it keeps its columns exactly); empty for a characteristic it has no figure of.
-      << (m.uncertainty ? ",u,interval_low,interval_high\n" : "\n");
+      << (m.uncertainty ? ",u,interval_low,interval_high" : "")
+      // The probing prediction of the row's bore, only when one was asked for (`check
+      // --predict-probing`); empty for a bore without one.
+      << (predicted ? ",prediction_status,prediction_sections,prediction_points_per_section,"
+                      "prediction_arc_deg,prediction_sigma,prediction_position_expanded,"
+                      "prediction_position_share,prediction_perpendicularity_expanded,"
+                      "prediction_perpendicularity_share,prediction_meets_target"
+                    : "")
+      << '\n';
   // Identity columns, the same on every row: rows of many parts can be told apart.
   const std::string identity = csv_field(m.part.id) + ',' + csv_field(m.part.serial) + ',' +
                                csv_field(m.part.timestamp) + ',' +
@@ -111,6 +142,7 @@ std::string format_csv(const ReportModel& m) {
       else
         out << ",,,";
     }
+    if (predicted) out << prediction_fields(m.bore(c.feature), u);
     out << '\n';
   }
   return out.str();

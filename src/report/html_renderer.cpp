@@ -224,8 +224,19 @@ constexpr const char* svg_open =
 void top_view(std::ostream& out, const ReportModel& m, const BoreSummary& b,
               const DepthProfile& d) {
   const ZoneSizes z = zone_sizes(m, d);
-  constexpr double width = 72.0, height = 84.0, cx = 36.0, cy = 31.0, room = 26.0;
-  const double magnification = magnification_for(figure_extent(d, z), room);
+  // The decision rule's limits as rings about the zone when a rule other than simple acceptance
+  // decided the position (ISO 14253-1 or a guard band): conformance is proven while the axis
+  // stays inside the inner ring over the whole range, non-conformance once it passes the outer.
+  const Characteristic* decided = m.find(d.characteristic_id);
+  const bool guarded = decided && decided->not_evaluated.empty() &&
+                       decided->rule != DecisionRuleKind::simple_acceptance &&
+                       decided->comparison == Comparison::at_most &&
+                       std::abs(decided->rejection_limit - decided->acceptance_limit) > 1e-12;
+  constexpr double width = 72.0, cx = 36.0, cy = 31.0, room = 26.0;
+  const double height = guarded ? 88.0 : 84.0;
+  const double extent = std::max(figure_extent(d, z),
+                                 guarded ? decided->rejection_limit / 2.0 : 0.0);
+  const double magnification = magnification_for(extent, room);
   const auto px = [&](const AxisDeviation& s) { return cx + s.offset.x() * magnification; };
   const auto py = [&](const AxisDeviation& s) { return cy - s.offset.y() * magnification; };
   out << "<figure class=\"top-view\" data-magnification=\"" << ReportUnits::fixed(magnification, 0)
@@ -247,6 +258,15 @@ void top_view(std::ostream& out, const ReportModel& m, const BoreSummary& b,
     out << "<circle class=\"zone-stated\" cx=\"" << at(cx) << "\" cy=\"" << at(cy) << "\" r=\""
         << at(z.stated / 2 * magnification)
         << "\" fill=\"none\" stroke=\"#000\" stroke-width=\"0.3\" stroke-dasharray=\"1.2 0.8\"/>";
+  if (guarded)
+    for (const auto& [kind, limit] : {std::pair<const char*, double>{"accept",
+                                                                     decided->acceptance_limit},
+                                      {"reject", decided->rejection_limit}})
+      if (limit > 0.0)
+        out << "<circle class=\"limit-" << kind << "\" cx=\"" << at(cx) << "\" cy=\"" << at(cy)
+            << "\" r=\"" << at(limit / 2 * magnification)
+            << "\" fill=\"none\" stroke=\"#000\" stroke-width=\"0.25\" "
+               "stroke-dasharray=\"0.3 0.6\"/>";
   // The axis from the top of the range to the bottom, with a mark at every sampled height.
   if (!d.samples.empty()) {
     out << "<polyline class=\"axis-trace\" fill=\"none\" stroke=\"#000\" stroke-width=\"0.6\" "
@@ -290,6 +310,11 @@ void top_view(std::ostream& out, const ReportModel& m, const BoreSummary& b,
     out << "<path d=\"M3.7 79.7l2.6 2.6m0 -2.6l-2.6 2.6\" stroke=\"#000\" stroke-width=\"0.5\"/>"
         << "<text x=\"9\" y=\"81.9\">leaves the zone at z = " << height_text(u, d.exit->height)
         << "</text>";
+  if (guarded)
+    out << "<path d=\"M2.5 85h5\" stroke=\"#000\" stroke-width=\"0.25\" stroke-dasharray=\"0.3 "
+           "0.6\"/><text class=\"limits\" x=\"9\" y=\"85.9\">accept \u00d8"
+        << u.text(decided->acceptance_limit) << ", reject \u00d8" << u.text(decided->rejection_limit)
+        << " (" << esc(decision_rule_name(decided->rule)) << ")</text>";
   out << "</g></svg>";
   // Where the dots are: the section centres of a median line, else evenly spaced heights.
   std::string dots = "dots at the section centres";
@@ -300,7 +325,11 @@ void top_view(std::ostream& out, const ReportModel& m, const BoreSummary& b,
            " " + std::string(u.name()) + " of depth";
   out << "<figcaption>Top view into the bore (x right, y up): the axis from the top of the "
          "evaluated range (\u25cb) to its bottom (\u25a0), "
-      << dots << ", inside the position zone. Deviations magnified " << ratio_text(magnification)
+      << dots << ", inside the position zone"
+      << (guarded ? "; dotted rings: the decision rule's acceptance (inner) and rejection (outer) "
+                    "limits"
+                  : "")
+      << ". Deviations magnified " << ratio_text(magnification)
       << " on paper printed at 100 %.</figcaption></figure>";
 }
 
@@ -633,7 +662,8 @@ void characteristic_rows(std::ostream& out, const ReportModel& m,
       out << "</tr>";
       continue;
     }
-    out << "<td>";
+    // Wide enough for "accept <= 10.0143," on one line beside the verdicts, which do not wrap.
+    out << "<td style=\"min-width:34mm\">";
     if (c.uncertainty)
       out << u.text(c.uncertainty->expanded) << " ("
           << ReportUnits::fixed(c.uncertainty->coverage_factor, 2) << ")";
@@ -686,6 +716,160 @@ void datum_section(std::ostream& out, const ReportModel& m) {
          "meets A, x clocked by C; depths inside the material are negative.</p></section>";
 }
 
+/// An uncertainty figure in the report's unit: two decimals more than the report's lengths (a
+/// standard uncertainty is often below their last digit), as in the CSV.
+std::string fine_text(const ReportUnits& u, double mm) {
+  return ReportUnits::fixed(u.length(mm), u.decimals() + 2);
+}
+
+/// The decision rules in force over `characteristics`, by name, in order of first use.
+std::string rules_in_force(const std::vector<Characteristic>& characteristics) {
+  std::string rules;
+  for (const Characteristic& c : characteristics) {
+    const std::string r(decision_rule_name(c.rule));
+    if (rules.find(r) == std::string::npos) rules += (rules.empty() ? "" : ", ") + r;
+  }
+  return rules;
+}
+
+/// The Monte Carlo study (uncertainty/monte_carlo.hpp, JCGM 101:2008): how it was run, the
+/// probing model with each feature's sigma, and per characteristic its value, u, the U that
+/// decided it (Characteristic::uncertainty), the reported coverage interval and its kind, the
+/// widening over equally good axes and the tie-breaking note. Present only when the study ran.
+void uncertainty_section(std::ostream& out, const ReportModel& m) {
+  if (!m.uncertainty) return;
+  const MonteCarloSummary& s = *m.uncertainty;
+  const ReportUnits& u = m.units;
+  const std::string unit(u.name());
+  out << "<section id=\"uncertainty\" data-trials=\"" << s.trials << "\" data-seed=\"" << s.seed
+      << "\"><h2>Measurement uncertainty</h2><table class=\"study\"><tbody>"
+      << "<tr><th>method</th><td>Monte Carlo propagation of distributions through the whole "
+         "chain (JCGM 101:2008): every raw point perturbed, prepared, fitted and evaluated "
+         "again per trial</td></tr>"
+      << "<tr><th>trials</th><td>" << s.trials
+      << (s.adaptive ? " (adaptive, " + std::to_string(s.batches) + " batches)"
+                     : std::string(" (fixed)"))
+      << (s.failed_trials > 0 ? ", " + std::to_string(s.failed_trials) + " could not be evaluated"
+                              : std::string())
+      << "</td></tr><tr><th>seed</th><td>" << s.seed << "</td></tr>"
+      << "<tr><th>status</th><td>" << esc(monte_carlo_status_name(s.status)) << ": "
+      << esc(s.message) << "</td></tr>"
+      << "<tr><th>coverage</th><td>" << ReportUnits::fixed(100.0 * s.coverage, 0)
+      << " % coverage intervals from the sorted trial values</td></tr>"
+      << "<tr><th>probing model</th><td>"
+      << (s.probing == ProbingModel::sigma
+              ? "one isotropic sigma per coordinate, as given"
+              : "sigma estimated per feature: RMS residual of its own least-squares fit")
+      << "</td></tr><tr><th>length error</th><td>";
+  if (s.length_error)
+    out << "E = A + L/K, A " << u.text(s.length_error->a) << ' ' << esc(unit) << ", K "
+        << ReportUnits::fixed(s.length_error->k, 1) << ", L " << u.text(s.length) << ' '
+        << esc(unit) << " (a systematic scale error per trial)";
+  else
+    out << "not modelled";
+  out << "</td></tr></tbody></table>";
+  if (!s.feature_sigma.empty()) {
+    out << "<table class=\"feature-sigma\"><thead><tr><th>feature</th><th>sigma ("
+        << esc(unit) << ")</th></tr></thead><tbody>";
+    // The study's features are the inputs after the plan, in order (datums, then bores).
+    for (std::size_t k = 0; k < s.feature_sigma.size(); ++k)
+      out << "<tr><td>"
+          << esc(k + 1 < m.inputs.size() ? m.inputs[k + 1].role
+                                         : "feature " + std::to_string(k + 1))
+          << "</td><td class=\"num\">" << fine_text(u, s.feature_sigma[k]) << "</td></tr>";
+    out << "</tbody></table>";
+  }
+  out << "<table class=\"characteristics uncertainty\"><thead><tr><th>characteristic</th>"
+         "<th>value</th><th>u</th><th>U (k)</th><th>interval</th><th>kind</th>"
+         "<th>widened by</th></tr></thead><tbody>";
+  for (const CharacteristicUncertainty& c : s.characteristics) {
+    const bool has = c.statistics.trials >= 2;  // fewer: no figure (the note says why)
+    const Characteristic* decided = m.find(c.id);
+    out << "<tr data-id=\"" << esc(c.id) << "\"><td>" << esc(c.id) << "</td><td class=\"num\">"
+        << u.text(c.value) << "</td><td class=\"num\">"
+        << (has ? fine_text(u, c.statistics.standard_uncertainty) : "\u2014")
+        << "</td><td class=\"num\">";
+    if (decided && decided->uncertainty)
+      out << u.text(decided->uncertainty->expanded) << " ("
+          << ReportUnits::fixed(decided->uncertainty->coverage_factor, 2) << ")";
+    else
+      out << "\u2014";
+    out << "</td><td class=\"num\">";
+    if (has)
+      out << "[" << fine_text(u, c.interval.low) << ", " << fine_text(u, c.interval.high) << "]";
+    else
+      out << "\u2014";
+    out << "</td><td>" << esc(interval_kind_name(c.kind)) << "</td><td class=\"num\">"
+        << (c.ambiguity_range > 0.0 ? fine_text(u, c.ambiguity_range) : "\u2014")
+        << (c.tie_breaking ? " !" : "") << "</td></tr>";
+  }
+  out << "</tbody></table>";
+  // The notes under the table, by id (a column would be too narrow for them).
+  bool notes = false;
+  for (const CharacteristicUncertainty& c : s.characteristics) {
+    if (c.note.empty() && !c.tie_breaking) continue;
+    out << (notes ? "" : "<ul class=\"note study-notes\">") << "<li data-id=\"" << esc(c.id)
+        << "\">" << esc(c.id) << ": "
+        << (c.tie_breaking ? "<strong>! tie-breaking:</strong> the spread measures the "
+                             "solver's choice among equally good axes as much as the part; "
+                           : "")
+        << esc(in_report_unit(c.note, u)) << "</li>";
+    notes = true;
+  }
+  if (notes) out << "</ul>";
+  out << "<p class=\"note\">u: standard uncertainty (the trials' standard "
+         "deviation, JCGM 101:2008 7.6); U: the expanded uncertainty that decided the row, k u "
+         "plus the widening over equally good axes; interval: the reported "
+      << ReportUnits::fixed(100.0 * s.coverage, 0)
+      << " % coverage interval of the kind named (JCGM 101:2008 7.7), widened at both ends by "
+         "the range the figure can take over equally good axes. Lengths in "
+      << esc(unit) << ".</p>";
+  if (!s.warnings.empty()) {
+    out << "<ul class=\"note\">";
+    for (const std::string& w : s.warnings) out << "<li>" << esc(in_report_unit(w, u)) << "</li>";
+    out << "</ul>";
+  }
+  out << "</section>";
+}
+
+/// The probing prediction of one bore (`check --predict-probing`, forecast/probing_advice.hpp):
+/// the pattern actually probed, the uncertainty a perfect bore's figures would have with it,
+/// beside the measured figures. Nothing when it was not asked for.
+void prediction_table(std::ostream& out, const ReportModel& m, const BoreSummary& b) {
+  if (!b.probing_prediction) return;
+  const ProbingPrediction& p = *b.probing_prediction;
+  const ReportUnits& u = m.units;
+  out << "<p class=\"note\"><strong>Probing prediction</strong> for the pattern probed: "
+      << p.pattern.section_heights.size()
+      << " sections \u00d7 " << p.pattern.points_per_section << " points over "
+      << ReportUnits::fixed(p.pattern.arc_deg, 0) << "\u00b0, probing sigma "
+      << fine_text(u, p.probing_sigma) << ' ' << esc(u.name());
+  if (p.status == PredictionStatus::undetermined) {
+    out << "; undetermined: " << esc(p.message) << "</p>";
+    return;
+  }
+  out << ", " << p.trials << " trials.</p><table class=\"prediction\" data-bore=\""
+      << esc(b.id) << "\"><thead><tr><th>figure</th><th>measured</th>"
+         "<th>U predicted</th><th>% of tolerance</th><th>target</th></tr></thead><tbody>";
+  const auto row = [&](const char* name, const std::string& id, const FigureUncertainty& f) {
+    const Characteristic* c = m.find(b.id + id);
+    out << "<tr><td>" << name << "</td><td class=\"num\">"
+        << (c && c->not_evaluated.empty() ? u.text(c->value) : "\u2014")
+        << "</td><td class=\"num\">" << u.text(f.expanded) << "</td><td class=\"num\">"
+        << ReportUnits::fixed(100.0 * f.share, 1) << "</td><td>"
+        << (f.meets_target ? "met" : "<strong>not met</strong>") << "</td></tr>";
+  };
+  row("position", "/position", p.position);
+  if (p.perpendicularity_uncertainty)
+    row("perpendicularity", "/perpendicularity", *p.perpendicularity_uncertainty);
+  out << "</tbody></table><p class=\"note\">Predicted standard uncertainty of the axis: "
+      << fine_text(u, std::max(p.top.u_x, p.top.u_y)) << " at the top (z "
+      << height_text(u, p.top.height) << "), " << fine_text(u, std::max(p.bottom.u_x, p.bottom.u_y))
+      << " at the bottom (z " << height_text(u, p.bottom.height) << "), tilt "
+      << ReportUnits::fixed(p.u_tilt * 1e6, 1)
+      << " \u00b5rad per direction (docs/probing-advice.md).</p>";
+}
+
 void bore_section(std::ostream& out, const ReportModel& m, const BoreSummary& b,
                   std::size_t index) {
   const ReportUnits& u = m.units;
@@ -719,6 +903,7 @@ void bore_section(std::ostream& out, const ReportModel& m, const BoreSummary& b,
       out << "<p class=\"note\">Datum mobility: " << esc(b.mobility) << "</p>";
     if (!b.boundary.empty())
       out << "<p class=\"note\">Virtual condition: " << esc(b.boundary) << "</p>";
+    prediction_table(out, m, b);
   }
   // One figure set per bore, also when there is nothing to draw (it says why).
   out << "<div class=\"figure-set\" data-bore=\"" << esc(b.id) << "\">";
@@ -805,6 +990,7 @@ void inputs_section(std::ostream& out, const std::vector<InputRecord>& inputs) {
   out << "</tbody></table></section>";
 }
 
+
 void methods_section(std::ostream& out, const ReportModel& m) {
   out << "<section id=\"methods\"><h2>Methods</h2><ul>";
   if (!m.datums.empty() && !m.datums.front().association.empty())
@@ -823,11 +1009,7 @@ void methods_section(std::ostream& out, const ReportModel& m) {
          "cylinder perpendicular to A holding it over the bore's depth.</li>"
          "<li>Size: actual mating envelope and two-point sizes (ISO 14405-1); form: "
          "minimum-zone cylindricity (ISO 12180-1).</li>";
-  std::string rules;
-  for (const Characteristic& c : m.characteristics) {
-    const std::string r(decision_rule_name(c.rule));
-    if (rules.find(r) == std::string::npos) rules += (rules.empty() ? "" : ", ") + r;
-  }
+  const std::string rules = rules_in_force(m.characteristics);
   if (!rules.empty())
     out << "<li>Decision rule: " << esc(rules)
         << ". 'allowed' is the effective tolerance (after bonus). Simple acceptance: the value "
@@ -882,7 +1064,17 @@ std::string format_html(const ReportModel& m) {
   out << "<p class=\"part-verdict\">Part verdict: " << verdict_span(m.verdict);
   if (m.verdict == Verdict::does_not_conform)
     out << " (" << failing << " of " << m.bores.size() << " bores)";
-  out << "</p><p class=\"caution\">" << esc(safety_caution) << "</p></header>\n";
+  out << "</p>";
+  // The decision rule beside the verdict it set, when one other than simple acceptance, a U or
+  // a fallback is present (decision_details_shown); a plan without [decision] reads as before.
+  if (decision_details_shown(m.characteristics))
+    out << "<p class=\"decision-rule\">Decision rule in force: <strong>"
+        << esc(rules_in_force(m.characteristics)) << "</strong>"
+        << (m.uncertainty ? "; U from this part's Monte Carlo study (<a "
+                            "href=\"#uncertainty\">Measurement uncertainty</a>)"
+                          : "")
+        << ". Each row's acceptance and rejection limits are in its bore's table.</p>";
+  out << "<p class=\"caution\">" << esc(safety_caution) << "</p></header>\n";
 
   // Summary: one line per bore, then every characteristic.
   out << "<section id=\"summary\"><h2>Bores</h2><table><thead><tr><th>bore</th><th>verdict</th>"
@@ -914,6 +1106,7 @@ std::string format_html(const ReportModel& m) {
     out << '\n';
   }
   sensitivity_section(out, m);
+  uncertainty_section(out, m);
   inputs_section(out, m.inputs);
   methods_section(out, m);
   if (!m.warnings.empty()) {

@@ -1,6 +1,7 @@
 // Everything JSON in the library (nlohmann-json stays in this file): the part report writer
 // (schema cylzone-report-1, docs/report-schema.md), its reader, and the `cylzone fit` object
 // (docs/fit-json.md). Keep each in step with its document.
+#include <algorithm>
 #include <cmath>
 #include <nlohmann/json.hpp>
 #include <stdexcept>
@@ -724,6 +725,169 @@ bool not_evaluated(const ReportReader& in, const json& object, const std::string
   return status == "not evaluated";
 }
 
+namespace {
+
+/// probing_prediction_json read back (docs/report-schema.md, "probing_prediction"): every
+/// figure the writer wrote, lengths back in mm, so a report read back renders the same tables.
+ProbingPrediction read_probing_prediction(const ReportReader& in, const json& o,
+                                          const std::string& path, const ReportUnits& u) {
+  const auto mm = [&](const json& object, const std::string& at, const char* name) {
+    return u.millimetres(in.number(object, at, name));
+  };
+  ProbingPrediction p;
+  const std::string pp = path + ".pattern";
+  const json& pattern = in.key(o, path, "pattern");
+  const json& heights = in.array(pattern, pp, "section_heights");
+  for (std::size_t k = 0; k < heights.size(); ++k) {
+    if (!heights[k].is_number())
+      in.fail(pp + ".section_heights[" + std::to_string(k) + "]", "expected a number");
+    p.pattern.section_heights.push_back(u.millimetres(heights[k].get<double>()));
+  }
+  p.pattern.points_per_section = in.count(pattern, pp, "points_per_section");
+  p.pattern.arc_deg = in.number(pattern, pp, "arc_deg");
+  p.pattern.arc_centre_deg = in.number(pattern, pp, "arc_centre_deg");
+  if (in.count(pattern, pp, "total_points") != p.pattern.total_points())
+    in.fail(pp + ".total_points", "does not match the sections times the points per section");
+  p.probing_sigma = mm(o, path, "probing_sigma");
+  const std::string status = in.text(o, path, "status");
+  if (status == "predicted")
+    p.status = PredictionStatus::predicted;
+  else if (status == "undetermined")
+    p.status = PredictionStatus::undetermined;
+  else
+    in.fail(path + ".status", "unknown status " + quoted_for_message(status) +
+                                  " (expected \"predicted\" or \"undetermined\")");
+  p.message = in.text_or_empty(o, path, "message");
+  if (p.status == PredictionStatus::undetermined) return p;
+  const auto figure = [&](const json& object, const std::string& at, const char* name) {
+    const json& f = in.key(object, at, name);
+    const std::string fp = ReportReader::join(at, name);
+    return SimulatedFigure{mm(f, fp, "mean"), mm(f, fp, "standard_deviation"),
+                           mm(f, fp, "quantile95")};
+  };
+  const auto end = [&](const char* name) {
+    const json& e = in.key(o, path, name);
+    const std::string ep = ReportReader::join(path, name);
+    return EndPrediction{mm(e, ep, "height"), mm(e, ep, "u_x"), mm(e, ep, "u_y"),
+                         figure(e, ep, "position")};
+  };
+  const auto decision = [&](const json& f, const std::string& fp) {
+    return FigureUncertainty{mm(f, fp, "tolerance"), mm(f, fp, "expanded"),
+                             in.number(f, fp, "share"), in.boolean(f, fp, "meets_target")};
+  };
+  p.trials = in.count(o, path, "trials");
+  p.magnification = in.number_or_null(o, path, "magnification");
+  p.u_tilt = in.number(o, path, "u_tilt_urad") * 1e-6;
+  p.top = end("top");
+  p.bottom = end("bottom");
+  p.full_depth = figure(o, path, "full_depth");
+  p.perpendicularity = figure(o, path, "perpendicularity");
+  p.position = decision(in.key(o, path, "position_uncertainty"), path + ".position_uncertainty");
+  const json& q = in.key(o, path, "perpendicularity_uncertainty");
+  if (!q.is_null())
+    p.perpendicularity_uncertainty = decision(q, path + ".perpendicularity_uncertainty");
+  p.meets_target = in.boolean(o, path, "meets_target");
+  return p;
+}
+
+/// uncertainty_json read back (docs/report-schema.md, "uncertainty"). The characteristics are
+/// an object keyed by id, which does not keep order: they are put back in the order of the
+/// report's characteristics (the check's order), any other id after them.
+MonteCarloSummary read_uncertainty(const ReportReader& in, const json& o, const ReportModel& m) {
+  const ReportUnits& u = m.units;
+  const std::string path = "uncertainty";
+  const auto mm = [&](const json& object, const std::string& at, const char* name) {
+    return u.millimetres(in.number(object, at, name));
+  };
+  const auto interval = [&](const json& object, const std::string& at,
+                            const char* name) -> std::optional<CoverageInterval> {
+    const json& a = in.key(object, at, name);
+    if (a.is_null()) return std::nullopt;
+    if (!a.is_array() || a.size() != 2 || !a[0].is_number() || !a[1].is_number())
+      in.fail(ReportReader::join(at, name), "expected [low, high]");
+    const CoverageInterval i{u.millimetres(a[0].get<double>()),
+                             u.millimetres(a[1].get<double>())};
+    if (!(i.low <= i.high)) in.fail(ReportReader::join(at, name), "low is above high");
+    return i;
+  };
+  MonteCarloSummary s;
+  const std::string status = in.text(o, path, "status");
+  bool known = false;
+  for (MonteCarloStatus candidate :
+       {MonteCarloStatus::converged, MonteCarloStatus::not_converged, MonteCarloStatus::failed})
+    if (status == monte_carlo_status_name(candidate)) {
+      s.status = candidate;
+      known = true;
+    }
+  if (!known) in.fail(path + ".status", "unknown status " + quoted_for_message(status));
+  s.message = in.text(o, path, "message");
+  s.seed = in.count(o, path, "seed");
+  s.trials = in.count(o, path, "trials");
+  s.adaptive = in.boolean(o, path, "adaptive");
+  s.batches = in.count(o, path, "batches");
+  s.coverage = in.number(o, path, "coverage");
+  if (!(s.coverage > 0.0 && s.coverage < 1.0)) in.fail(path + ".coverage", "outside (0, 1)");
+  const std::string model = in.text(o, path, "probing_model");
+  if (model == probing_model_name(ProbingModel::sigma))
+    s.probing = ProbingModel::sigma;
+  else if (model == probing_model_name(ProbingModel::estimated))
+    s.probing = ProbingModel::estimated;
+  else
+    in.fail(path + ".probing_model", "unknown probing model " + quoted_for_message(model) +
+                                         " (expected \"sigma\" or \"estimated\")");
+  const json& sigma = in.array(o, path, "feature_sigma");
+  for (std::size_t k = 0; k < sigma.size(); ++k)
+    s.feature_sigma.push_back(
+        mm(sigma[k], path + ".feature_sigma[" + std::to_string(k) + "]", "sigma"));
+  const json& length_error = in.key(o, path, "length_error");
+  if (!length_error.is_null()) {
+    const std::string lp = path + ".length_error";
+    s.length_error = LengthError{mm(length_error, lp, "a"), in.number(length_error, lp, "k")};
+    s.length = mm(length_error, lp, "length");
+  }
+  s.failed_trials = in.count(o, path, "failed_trials");
+  const json& characteristics = in.key(o, path, "characteristics");
+  if (!characteristics.is_object()) in.fail(path + ".characteristics", "expected an object");
+  std::vector<std::string> ids;
+  for (const Characteristic& c : m.characteristics)
+    if (characteristics.contains(c.id)) ids.push_back(c.id);
+  for (const auto& item : characteristics.items())
+    if (std::find(ids.begin(), ids.end(), item.key()) == ids.end()) ids.push_back(item.key());
+  for (const std::string& id : ids) {
+    const std::string at = path + ".characteristics." + id;
+    const json& co = characteristics.at(id);
+    CharacteristicUncertainty c;
+    c.id = id;
+    c.value = mm(co, at, "value");
+    c.statistics.trials = in.count(co, at, "trials");
+    if (const std::optional<CoverageInterval> i = interval(co, at, "interval")) {
+      c.statistics.mean = mm(co, at, "mean");
+      c.statistics.standard_uncertainty = mm(co, at, "u");
+      c.interval = *i;
+      c.statistics.symmetric = interval(co, at, "probabilistically_symmetric").value_or(*i);
+      c.statistics.shortest = interval(co, at, "shortest").value_or(*i);
+    }
+    const std::string kind = in.text(co, at, "kind");
+    if (kind == interval_kind_name(IntervalKind::shortest))
+      c.kind = IntervalKind::shortest;
+    else if (kind == interval_kind_name(IntervalKind::probabilistically_symmetric))
+      c.kind = IntervalKind::probabilistically_symmetric;
+    else
+      in.fail(at + ".kind", "unknown interval kind " + quoted_for_message(kind));
+    c.failed_trials = in.count(co, at, "failed_trials");
+    c.ambiguity = mm(co, at, "ambiguity");
+    c.axis_range = mm(co, at, "axis_range");
+    c.ambiguity_range = mm(co, at, "interval_widening");
+    c.tie_breaking = in.boolean(co, at, "tie_breaking");
+    c.note = in.text_or_empty(co, at, "note");
+    s.characteristics.push_back(std::move(c));
+  }
+  s.warnings = in.texts(o, path, "warnings");
+  return s;
+}
+
+}  // namespace
+
 ReportModel read_report_json(std::string_view bytes, const std::string& source) {
   json j;
   try {
@@ -963,11 +1127,18 @@ ReportModel read_report_json(std::string_view bytes, const std::string& source) 
       c.warnings = in.texts(so, sp, "warnings");
       b.sampling = std::move(c);
     }
+    // The probing prediction (`check --predict-probing`): absent without it.
+    if (o.contains("probing_prediction") && !o.at("probing_prediction").is_null())
+      b.probing_prediction =
+          read_probing_prediction(in, o.at("probing_prediction"), path + ".probing_prediction", u);
     b.warnings = in.texts(o, path, "warnings");
     m.bores.push_back(std::move(b));
   }
   m.verdict = in.verdict(j, "", "verdict");
   m.warnings = in.texts(j, "", "warnings");
+  // The Monte Carlo study (`check --uncertainty`): absent without it.
+  if (j.contains("uncertainty") && !j.at("uncertainty").is_null())
+    m.uncertainty = read_uncertainty(in, j.at("uncertainty"), m);
   return m;
 }
 

@@ -6,6 +6,9 @@ Renders the report with Debian's chromium, headless and without network, then ch
 * the DOM chromium built (--dump-dom): one figure set per bore of the JSON report of the same
   run, in order, each with its three figures; the safety caution; no script element and no
   script error on the console; P2's exit mark at the height the JSON gives;
+* with --uncertainty, --decision-rule iso-14253-1 and --predict-probing: the study's section,
+  the rule beside the verdict, each row's limits and one prediction table per bore, as the JSON
+  of the same run gives them, and no script error;
 * printing: on Letter and on A4 every bore's section takes one page of its own;
 * the command line: the HTML is committed with the other reports as one set, '-' and an input
   file are refused with one error line and exit code 2.
@@ -15,6 +18,7 @@ missing is a failure, not a skip: the README's test command installs it.
 
 Usage: /usr/bin/python3 test_html_report.py PATH_TO_CYLZONE PLAN ARTEFACT_DIR
 """
+import csv
 import json
 import os
 import re
@@ -198,6 +202,91 @@ check(all(abs(z - exit_z) < 1e-4 for z in marks), f"P2 exit marks at {marks}, JS
 # Bores that stay inside have no exit mark.
 p1 = dom[dom.find('data-bore="P1"'):]
 check('class="exit"' not in p1[:p1.find("</section>")], "P1 stays inside but has an exit mark")
+
+# ---- With a Monte Carlo study, the ISO 14253-1 rule and the probing prediction: the study's
+# section, the rule beside the verdict with each row's limits, one prediction table per bore
+# predicted, every figure as the JSON of the same run gives it (the report's own numbers,
+# formatted as docs/html-report.md says: lengths to 4 decimals in mm, u and intervals to 6).
+studied_html = os.path.join(ARTEFACTS, "demo-study-report.html")
+if os.path.exists(studied_html):
+    os.remove(studied_html)
+with tempfile.TemporaryDirectory() as tmp:
+    report = os.path.join(tmp, "report.json")
+    table = os.path.join(tmp, "report.csv")
+    p = run("check", PLAN, "--uncertainty", "--trials", "12", "--decision-rule", "iso-14253-1",
+            "--predict-probing", "0.001", "--json", report, "--csv", table, "--html",
+            studied_html, "--time", "2026-01-01T00:00:00Z")
+    check(p.returncode in (1, 3), f"studied check: exit {p.returncode}; {p.stderr[:300]}")
+    with open(report, encoding="utf-8") as f:
+        studied = json.load(f)
+    # The CSV: the prediction's columns last, after the study's, each row's from its bore's
+    # prediction in the JSON of the same run (docs/report-schema.md).
+    with open(table, encoding="utf-8", newline="") as f:
+        rows = list(csv.DictReader(f))
+    with open(table, encoding="utf-8", newline="") as f:
+        header = next(csv.reader(f))
+    check(header[-13:-10] == ["u", "interval_low", "interval_high"] and
+          header[-10] == "prediction_status" and header[-1] == "prediction_meets_target",
+          f"CSV: the prediction's columns are not last: {header[-13:]}")
+    by_bore = {b["id"]: b.get("probing_prediction") for b in studied["bores"]}
+    for r in rows:
+        pp = by_bore.get(r["bore"])
+        if not pp or pp["status"] != "predicted":
+            continue
+        u = pp["position_uncertainty"]
+        got = (r["prediction_sections"], r["prediction_points_per_section"],
+               r["prediction_position_expanded"], r["prediction_position_share"])
+        want = (str(len(pp["pattern"]["section_heights"])),
+                str(pp["pattern"]["points_per_section"]), f"{u['expanded']:.4f}",
+                f"{100 * u['share']:.1f}")
+        check(got == want, f"CSV {r['id']}: prediction {got}, JSON {want}")
+p = chromium("--dump-dom", "file://" + studied_html)
+dom = p.stdout
+check("<body" in dom, f"studied report: no DOM dumped; chromium said: {p.stderr[-500:]}")
+console = [l for l in p.stderr.splitlines() if "CONSOLE" in l or "Uncaught" in l]
+check(not console, f"studied report: console messages: {console[:3]}")
+check("<script" not in dom, "studied report: the DOM holds a script element")
+check(dom.count(studied["caution"]) == 2, "studied report: the caution is not at top and foot")
+study = studied.get("uncertainty") or {}
+sections = re.findall(r'<section id="uncertainty" data-trials="(\d+)" data-seed="(\d+)">', dom)
+check(sections == [(str(study.get("trials")), str(study.get("seed")))],
+      f"study sections {sections}, JSON trials {study.get('trials')} seed {study.get('seed')}")
+block = dom[dom.find('<section id="uncertainty"'):]
+block = block[:block.find("</section>")]
+for cid, c in (study.get("characteristics") or {}).items():
+    row = re.search(r'<tr data-id="' + re.escape(cid) + r'">(.*?)</tr>', block)
+    check(row is not None, f"study: no row for {cid}")
+    if row is None or c["u"] is None:
+        continue
+    cells = re.findall(r"<td[^>]*>(.*?)</td>", row.group(1))
+    check(cells[1] == f"{c['value']:.4f}", f"study {cid}: value {cells[1]}, JSON {c['value']}")
+    check(cells[2] == f"{c['u']:.6f}", f"study {cid}: u {cells[2]}, JSON {c['u']}")
+    low, high = c["interval"]
+    check(cells[4] == f"[{low:.6f}, {high:.6f}]", f"study {cid}: interval {cells[4]}")
+    check(cells[5] == c["kind"], f"study {cid}: kind {cells[5]}, JSON {c['kind']}")
+check('<p class="decision-rule">Decision rule in force: <strong>ISO 14253-1' in dom,
+      "studied report: the rule in force is not stated beside the verdict")
+# Each row decided by ISO 14253-1 shows its acceptance and rejection limits (JSON's, rounded).
+for c in studied["characteristics"]:
+    if c["rule"] != "ISO 14253-1":
+        continue
+    at_most = c["comparison"] == "<="
+    text = (f"accept {'&lt;=' if at_most else '&gt;='} {c['acceptance_limit']:.4f}, "
+            f"reject {'&gt;' if at_most else '&lt;'} {c['rejection_limit']:.4f}")
+    check(text in dom, f"{c['id']}: limits {text!r} not in the characteristic table")
+predicted = [b["id"] for b in studied["bores"] if b.get("probing_prediction")]
+check(len(predicted) == len(bores), f"predictions for {predicted}, bores {bores}")
+tables = re.findall(r'<table class="prediction" data-bore="([^"]*)">', dom)
+check(tables == predicted, f"prediction tables {tables}, JSON predictions {predicted}")
+for b in studied["bores"]:
+    pp = b.get("probing_prediction")
+    if not pp or pp["status"] != "predicted":
+        continue
+    t = dom[dom.find(f'<table class="prediction" data-bore="{b["id"]}">'):]
+    t = t[:t.find("</table>")]
+    u = pp["position_uncertainty"]
+    cell = f'<td class="num">{u["expanded"]:.4f}</td><td class="num">{100 * u["share"]:.1f}</td>'
+    check(cell in t, f"{b['id']}: prediction's position U and share {cell!r} not in its table")
 
 # ---- Print: every bore's section starts a page and fits on it, on Letter and on A4. The
 # document as written leaves the paper to the printer (@page without a size); a copy with the
