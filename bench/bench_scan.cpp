@@ -10,7 +10,8 @@
 //                                                cloud read and hashed, segmented, every feature
 //                                                evaluated; prints the phases and the peak
 //                                                resident size (getrusage); --phases then
-//                                                times reading and segmenting alone
+//                                                times each load step alone: load, SHA-256,
+//                                                parse, bands, copy out (CPU ns per point)
 //
 // Run `run` under /usr/bin/time -v for the maximum resident set size as the system reports it
 // (bench/run_benchmarks.sh does). The default profile is the lean one (figures only: no
