@@ -10,7 +10,8 @@
 //                                                cloud read and hashed, segmented, every feature
 //                                                evaluated; prints the phases and the peak
 //                                                resident size (getrusage); --phases then
-//                                                times reading and segmenting alone
+//                                                times each load step alone: load, SHA-256,
+//                                                parse, bands, copy out (CPU ns per point)
 //
 // Run `run` under /usr/bin/time -v for the maximum resident set size as the system reports it
 // (bench/run_benchmarks.sh does). The default profile is the lean one (figures only: no
@@ -32,7 +33,10 @@
 #include <vector>
 
 #include "cylzone/check/part_check.hpp"
+#include "cylzone/check/part_inputs.hpp"
+#include "cylzone/io/load.hpp"
 #include "cylzone/io/read_points.hpp"
+#include "io/detail/file_digest.hpp"  // the SHA-256 the load stage takes
 #include "cylzone/plan/plan.hpp"
 
 namespace fs = std::filesystem;
@@ -204,16 +208,45 @@ int run(const fs::path& dir, bool full, std::size_t threads, bool phases) {
   std::printf("  peak resident after reading and segmenting: %.1f MB\n", loaded_peak_kb / 1024.0);
   std::printf("  part verdict: %s\n", std::string(cylzone::verdict_name(result.verdict)).c_str());
   if (!phases) return 0;
-  // The first phase broken down, after the peak above was taken: reading alone, segmenting
-  // alone (the figures above stay alive, so the process's peak grows: not for /usr/bin/time).
-  double cpu = cpu_seconds();
-  const cylzone::PointCloud cloud = cylzone::read_points(plan.scan->points);
-  const double read = cpu_seconds() - cpu;
-  cpu = cpu_seconds();
-  const cylzone::SegmentedScan segmented = cylzone::segment_part_scan(plan, cloud, "");
-  const double segment = cpu_seconds() - cpu;
-  std::printf("  of which (cpu): read %.3f s, segment and copy out %.3f s (%.1f ns per point)\n",
-              read, segment, 1e9 * segment / static_cast<double>(cloud.size()));
+  // The first phase broken down stage by stage, after the peak above was taken (the figures
+  // above stay alive, so the process's peak grows: not for /usr/bin/time). Each stage on the
+  // previous stage's output, as load_part_inputs runs them.
+  const double n = static_cast<double>(inputs.scan->points);
+  struct Stage {
+    const char* name;
+    double wall, cpu;
+  };
+  std::vector<Stage> stages;
+  auto timed = [&](const char* name, auto&& step) {
+    const auto wall = std::chrono::steady_clock::now();
+    const double cpu = cpu_seconds();
+    step();
+    stages.push_back({name, seconds_since(wall), cpu_seconds() - cpu});
+  };
+  cylzone::LoadedFile loaded_file;
+  std::string digest;
+  cylzone::PointCloud cloud;
+  cylzone::SegmentedScan segmented;
+  timed("load (read the bytes)", [&] { loaded_file = cylzone::load(plan.scan->points); });
+  timed("hash (SHA-256)", [&] { digest = cylzone::detail::sha256_of_bytes(loaded_file.bytes()); });
+  timed("parse", [&] {
+    cylzone::ReadOptions read;
+    read.unit = plan.unit;
+    cloud = cylzone::parse_points(loaded_file.bytes(), plan.scan->points.string(),
+                                  cylzone::format_from_extension(plan.scan->points), read);
+  });
+  loaded_file = cylzone::LoadedFile();
+  cylzone::SegmentationResult bands;
+  timed("segment (bands only)", [&] {
+    bands = cylzone::segment_scan(cloud, plan.scan->placement, cylzone::scan_surfaces(plan),
+                                  plan.scan->segment);
+  });
+  timed("split (copy out)", [&] { (void)cylzone::split_cloud(cloud, bands); });
+  timed("segment_part_scan", [&] { segmented = cylzone::segment_part_scan(plan, cloud, digest); });
+  std::printf("  load stage by stage (segment_part_scan = segment + split + records)\n");
+  std::printf("  %-24s %8s %8s %10s\n", "stage", "wall s", "cpu s", "cpu ns/pt");
+  for (const Stage& s : stages)
+    std::printf("  %-24s %8.3f %8.3f %10.1f\n", s.name, s.wall, s.cpu, 1e9 * s.cpu / n);
   return segmented.clouds.empty() ? 1 : 0;
 }
 

@@ -75,6 +75,8 @@ if [ -x "$scan" ]; then
   if [ -x /usr/bin/time ]; then
     /usr/bin/time -v "$scan" run "$tmp/scan" --threads "$(nproc)" 2> "$tmp/scan-time.txt"
     grep -E "Maximum resident set size|Elapsed \(wall clock\)" "$tmp/scan-time.txt"
+    # The load stage step by step (its own run: the breakdown keeps figures alive).
+    "$scan" run "$tmp/scan" --threads "$(nproc)" --phases | sed -n '/load stage by stage/,$p'
   else
     "$scan" run "$tmp/scan" --threads "$(nproc)"
   fi

@@ -196,3 +196,37 @@ TEST_CASE("the least-squares cylinder is bit-identical for 1 and 3 threads", "[p
   // And it is the reference cylinder (null-space construction: the least-squares solution).
   CHECK(testing::angle_between_lines(a.axis.direction, tilted_axis().direction) < 1e-9);
 }
+
+TEST_CASE("prepare_feature taking the cloud over gives the copy's result bit for bit",
+          "[prepare]") {
+  // Reference: the const& form on the same data (the definition of the overload). Ball centres
+  // with vectors, both outlier stages and the screen, so every step that reads the cloud runs.
+  ReferenceSet set = make_lobed_cylinder(tilted_axis(), 6.005, -1.0, -49.0, 13, 48, 2.0 * um, 11.0);
+  set.points.col(77) -= 40.0 * um * set.normals.col(77);
+  PointCloud cloud = cloud_of(set.points - 0.5 * set.normals);  // centres of a 1 mm ball
+  cloud.vectors = -set.normals;  // into the hole's axis: the approach sense, as files give it
+  cloud.lines.resize(cloud.size());
+  std::iota(cloud.lines.begin(), cloud.lines.end(), std::size_t{3});
+  PrepareOptions options;
+  options.fit.axis_hint = tilted_axis().direction;
+  ProbeTipOptions tip;
+  tip.tip_diameter = 1.0;
+  options.probe_tip = tip;
+  options.outliers.neighbour_filter = true;
+  options.outliers.residual_rejection = true;
+  const PreparedFeature copied = prepare_feature(FeatureKind::bore, cloud, options);
+  const PreparedFeature taken = prepare_feature(FeatureKind::bore, PointCloud(cloud), options);
+  REQUIRE(copied.cloud.size() > 0);
+  CHECK(taken.cloud.points == copied.cloud.points);
+  CHECK(taken.cloud.vectors == copied.cloud.vectors);
+  CHECK(taken.cloud.lines == copied.cloud.lines);
+  CHECK(taken.record.kept == copied.record.kept);
+  CHECK(taken.record.outliers.removed_count() == copied.record.outliers.removed_count());
+  REQUIRE(taken.record.stray_points.points.size() == copied.record.stray_points.points.size());
+  for (std::size_t k = 0; k < taken.record.stray_points.points.size(); ++k)
+    CHECK(taken.record.stray_points.points[k].excess ==
+          copied.record.stray_points.points[k].excess);
+  // The compensation moved the centres out to the surface (0.5 mm), so the copy is not the input.
+  const auto from = static_cast<Eigen::Index>(copied.record.kept.front());
+  CHECK((copied.cloud.points.col(0) - cloud.points.col(from)).norm() == Approx(0.5).margin(0.01));
+}

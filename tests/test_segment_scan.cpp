@@ -160,6 +160,58 @@ TEST_CASE("segment_scan: each point goes to the band it was built in, after the 
   }
 }
 
+TEST_CASE("split_cloud: each piece is the cloud's own points, vectors and lines, in order") {
+  // Reference: the definition (a feature's points exactly as a file of them would give), checked
+  // column by column against the indices the segmentation took; the consuming form must give
+  // the same bits and release the indices.
+  const std::vector<NominalSurface> surfaces = two_surfaces();
+  const NominalSurface& bore = surfaces[0];
+  const auto [u, v] = basis(bore.direction);
+  std::vector<Eigen::Vector3d> pts, normals;
+  for (int i = 0; i < 300; ++i) {
+    // Interleaved: wall, plane, a stray point, in turn.
+    const double phi = 0.37 * i, t = -35.0 + 0.1 * i;
+    const Eigen::Vector3d radial = std::cos(phi) * u + std::sin(phi) * v;
+    if (i % 3 == 0) {
+      pts.push_back(bore.origin + t * bore.direction + (bore.radius + 0.01 * std::sin(i)) * radial);
+      normals.push_back(radial);
+    } else if (i % 3 == 1) {
+      pts.push_back(Eigen::Vector3d(-40.0 + 0.5 * i, 30.0, 0.02 * std::cos(i)));
+      normals.push_back(Eigen::Vector3d::UnitZ());
+    } else {
+      pts.push_back(Eigen::Vector3d(500.0 + i, 0.0, 0.0));
+      normals.push_back(Eigen::Vector3d::UnitX());
+    }
+  }
+  const RigidPlacement placement = some_placement();
+  const PointCloud cloud = in_scanner(pts, normals, placement);
+  SegmentationResult r = segment_scan(cloud, placement, surfaces, {});
+  REQUIRE(r.surfaces[0].indices.size() == 100);
+  REQUIRE(r.surfaces[1].indices.size() == 100);
+  const std::vector<PointCloud> pieces = split_cloud(cloud, r);
+  REQUIRE(pieces.size() == 2);
+  for (std::size_t s = 0; s < 2; ++s) {
+    const std::vector<std::size_t>& idx = r.surfaces[s].indices;
+    REQUIRE(pieces[s].size() == idx.size());
+    REQUIRE(pieces[s].has_vectors());
+    REQUIRE(pieces[s].lines.size() == idx.size());
+    for (std::size_t k = 0; k < idx.size(); ++k) {
+      const auto at = static_cast<Eigen::Index>(k), from = static_cast<Eigen::Index>(idx[k]);
+      CHECK(pieces[s].points.col(at) == cloud.points.col(from));
+      CHECK(pieces[s].vectors.col(at) == cloud.vectors.col(from));
+      CHECK(pieces[s].lines[k] == cloud.lines[idx[k]]);
+    }
+  }
+  const std::vector<PointCloud> consumed = split_cloud(cloud, std::move(r));
+  REQUIRE(consumed.size() == 2);
+  for (std::size_t s = 0; s < 2; ++s) {
+    CHECK(consumed[s].points == pieces[s].points);
+    CHECK(consumed[s].vectors == pieces[s].vectors);
+    CHECK(consumed[s].lines == pieces[s].lines);
+    CHECK(r.surfaces[s].indices.empty());  // released once copied  // NOLINT(bugprone-use-after-move)
+  }
+}
+
 TEST_CASE("segment_scan: nearest surface wins, exact ties go to the first, normals must agree") {
   // Two coaxial-free cylinders whose bands overlap: radius 5 about x = 0 and radius 5 about
   // x = 10.3; a point at x = 5.15 on the line between the axes is 0.15 from both (a tie).

@@ -283,11 +283,22 @@ PartEvaluation evaluate_part(const PartPlan& plan, const PartInputs& inputs,
         in_frame.lines = inputs.bores[i].lines;
         PrepareOptions prepare = bore_prepare_options(bore, per_bore);
         apply_probe_settings(resolved_probe(plan.probe, bore.probe), prepare);
-        const PreparedFeature prepared = prepare_feature(FeatureKind::bore, in_frame, prepare);
-        result.preparation[first_bore + i].record = prepared.record;
-        BoreResult evaluated = evaluate_bore(BoreInput{bore, prepared}, per_bore);
+        // The frame's copy is taken over and the record moved out (also when the bore cannot
+        // be evaluated) rather than copied: a bore's points are held once while it is prepared
+        // and evaluated, not twice, and its kept-column map not twice either.
+        PreparedFeature prepared =
+            prepare_feature(FeatureKind::bore, std::move(in_frame), prepare);
+        PrepareRecord& record = result.preparation[first_bore + i].record;
+        BoreResult evaluated;
+        try {
+          evaluated = evaluate_bore(BoreInput{bore, prepared}, per_bore);
+        } catch (...) {
+          record = std::move(prepared.record);
+          throw;
+        }
         for (std::string& w : preparation_warnings(prepared.record))
           evaluated.warnings.push_back(std::move(w));
+        record = std::move(prepared.record);
         return evaluated;
       });
     } catch (const FitError& e) {

@@ -122,7 +122,7 @@ SegmentedScan segment_part_scan(const PartPlan& plan, const PointCloud& cloud,
     }
     record.placement = record.registration->placement;
   }
-  const SegmentationResult result = segment_scan(cloud, record.placement, surfaces, options);
+  SegmentationResult result = segment_scan(cloud, record.placement, surfaces, options);
 
   record.path = scan.points;
   record.sha256 = sha256;
@@ -171,7 +171,8 @@ SegmentedScan segment_part_scan(const PartPlan& plan, const PointCloud& cloud,
     f.nominal_span = segment.nominal_span;
     record.features.push_back(std::move(f));
   }
-  out.clouds = split_cloud(cloud, result);
+  // Consumed: each feature's indices are released once its points are copied.
+  out.clouds = split_cloud(cloud, std::move(result));
   return out;
 }
 

@@ -66,8 +66,13 @@ ContactSide contact_side_of(FeatureKind kind) {
 
 PreparedFeature prepare_feature(FeatureKind kind, const PointCloud& cloud,
                                 const PrepareOptions& options) {
+  return prepare_feature(kind, PointCloud(cloud), options);
+}
+
+PreparedFeature prepare_feature(FeatureKind kind, PointCloud&& cloud,
+                                const PrepareOptions& options) {
   PreparedFeature prepared;
-  prepared.cloud = cloud;
+  prepared.cloud = std::move(cloud);
 
   // ---- 1. Probe-tip compensation of ball centres.
   if (options.probe_tip) {
@@ -77,7 +82,7 @@ PreparedFeature prepare_feature(FeatureKind kind, const PointCloud& cloud,
     ProbeTipOptions tip = *options.probe_tip;
     tip.fit = options.fit;
     tip.outward = options.outward;
-    CompensatedPoints compensated = compensate_probe_tip(kind, cloud, tip);
+    CompensatedPoints compensated = compensate_probe_tip(kind, prepared.cloud, tip);
     prepared.cloud = std::move(compensated.cloud);
     prepared.record.probe_tip = compensated.record;
   }

@@ -97,33 +97,47 @@ double bounded_distance(const NominalSurface& s, const Eigen::Vector3d& q) {
 
 }  // namespace
 
-std::vector<PointCloud> split_cloud(const PointCloud& cloud, const SegmentationResult& segments) {
-  // One pass over the cloud in its order, each point copied to its surface's cloud: the reads
-  // stream through memory once, however the features' points are interleaved in the file.
-  constexpr std::uint32_t none = std::numeric_limits<std::uint32_t>::max();
-  std::vector<std::uint32_t> owner(cloud.size(), none);
-  const std::size_t count = segments.surfaces.size();
-  std::vector<PointCloud> out(count);
+namespace {
+
+/// The cloud's points `indices` (ascending) as a cloud of their own, with their vectors and
+/// file lines. The reads go forward through the cloud, so they stream through memory however
+/// the features' points are interleaved in the file; no cloud-sized bookkeeping is allocated.
+PointCloud gather(const PointCloud& cloud, const std::vector<std::size_t>& indices) {
+  const auto n = static_cast<Eigen::Index>(indices.size());
   const bool vectors = cloud.has_vectors();
   const bool lines = cloud.lines.size() == cloud.size();
-  for (std::size_t k = 0; k < count; ++k) {
-    const auto n = static_cast<Eigen::Index>(segments.surfaces[k].indices.size());
-    out[k].source = cloud.source;
-    out[k].file_unit = cloud.file_unit;
-    out[k].points.resize(3, n);
-    if (vectors) out[k].vectors.resize(3, n);
-    if (lines) out[k].lines.resize(static_cast<std::size_t>(n));
-    for (std::size_t i : segments.surfaces[k].indices) owner[i] = static_cast<std::uint32_t>(k);
-  }
-  std::vector<Eigen::Index> next(count, 0);
-  for (std::size_t i = 0; i < owner.size(); ++i) {
-    if (owner[i] == none) continue;
-    PointCloud& to = out[owner[i]];
-    const Eigen::Index at = next[owner[i]]++;
+  PointCloud out;
+  out.source = cloud.source;
+  out.file_unit = cloud.file_unit;
+  out.points.resize(3, n);
+  if (vectors) out.vectors.resize(3, n);
+  if (lines) out.lines.resize(indices.size());
+  for (Eigen::Index at = 0; at < n; ++at) {
+    const std::size_t i = indices[static_cast<std::size_t>(at)];
     const auto from = static_cast<Eigen::Index>(i);
-    to.points.col(at) = cloud.points.col(from);
-    if (vectors) to.vectors.col(at) = cloud.vectors.col(from);
-    if (lines) to.lines[static_cast<std::size_t>(at)] = cloud.lines[i];
+    out.points.col(at) = cloud.points.col(from);
+    if (vectors) out.vectors.col(at) = cloud.vectors.col(from);
+    if (lines) out.lines[static_cast<std::size_t>(at)] = cloud.lines[i];
+  }
+  return out;
+}
+
+}  // namespace
+
+std::vector<PointCloud> split_cloud(const PointCloud& cloud, const SegmentationResult& segments) {
+  std::vector<PointCloud> out;
+  out.reserve(segments.surfaces.size());
+  for (const SurfaceSegment& segment : segments.surfaces)
+    out.push_back(gather(cloud, segment.indices));
+  return out;
+}
+
+std::vector<PointCloud> split_cloud(const PointCloud& cloud, SegmentationResult&& segments) {
+  std::vector<PointCloud> out;
+  out.reserve(segments.surfaces.size());
+  for (SurfaceSegment& segment : segments.surfaces) {
+    out.push_back(gather(cloud, segment.indices));
+    std::vector<std::size_t>().swap(segment.indices);  // released: the memory goes to the next
   }
   return out;
 }

@@ -88,6 +88,11 @@ struct PreparedFeature {
 PreparedFeature prepare_feature(FeatureKind kind, const PointCloud& cloud,
                                 const PrepareOptions& options = {});
 
+/// As above, taking `cloud` over: the prepared cloud is built in its storage instead of a copy
+/// (a large scan's feature is then held once, not twice, while it is prepared).
+PreparedFeature prepare_feature(FeatureKind kind, PointCloud&& cloud,
+                                const PrepareOptions& options = {});
+
 /// Writes one feature's raw-point settings (plan.hpp: resolved_probe) into `options`:
 /// compensation by half the tip diameter when its points are ball centres, and the outlier
 /// stages it turns on (with their default constants).

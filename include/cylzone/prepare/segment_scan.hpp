@@ -149,7 +149,13 @@ RegistrationResult register_to_nominal(const PointCloud& cloud, const RigidPlace
 
 /// Each surface's points as a cloud of their own (with their vectors and file lines, when
 /// present), in the cloud's own coordinates and order: the feature's points exactly as a file
-/// of them would give. One pass over the cloud.
+/// of them would give. One forward pass over the cloud per surface, reading only its points;
+/// nothing cloud-sized is allocated besides the copies.
 std::vector<PointCloud> split_cloud(const PointCloud& cloud, const SegmentationResult& segments);
+
+/// As above, consuming `segments`: each surface's indices are released as soon as its points
+/// are copied, so the peak holds the cloud, its copy and the indices not yet copied (a whole-
+/// part scan's load stage). The surfaces' other fields are left as they were.
+std::vector<PointCloud> split_cloud(const PointCloud& cloud, SegmentationResult&& segments);
 
 }  // namespace cylzone
