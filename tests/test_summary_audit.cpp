@@ -109,6 +109,8 @@ std::string fixed(double v, int decimals = 4) {
   return out.str();
 }
 
+// The audit a bore refers into must outlive the reference: no temporaries.
+const BoreAudit& audit_of(AuditResult&&, const std::string&) = delete;
 const BoreAudit& audit_of(const AuditResult& r, const std::string& id) {
   for (const BoreAudit& b : r.bores)
     if (b.id == id) return b;
@@ -220,7 +222,8 @@ TEST_CASE("two depths: the line through them over the full depth", "[audit]") {
   SECTION("two rows") {
     const std::string text = "id,z,dx,dy,verdict\nT1,0.0,0.0100,0.0000,pass\nT1,-20.0," +
                              fixed(bottom) + ",0.0000,pass\n";
-    const BoreAudit& t1 = audit_of(audit_summary(p.plan, e, summary(text)), "T1");
+    const AuditResult r = audit_summary(p.plan, e, summary(text));
+    const BoreAudit& t1 = audit_of(r, "T1");
     REQUIRE(t1.centres.size() == 2);
     REQUIRE(t1.two_depth_position);
     // The line through the two centres reaches -0.046 at z = -28 (closed form).
@@ -230,7 +233,8 @@ TEST_CASE("two depths: the line through them over the full depth", "[audit]") {
   SECTION("one row with a second column set") {
     const std::string text =
         "id,z,dx,dy,z2,dx2,dy2\nT1,0.0,0.0100,0.0000,-20.0," + fixed(bottom) + ",0.0000\n";
-    const BoreAudit& t1 = audit_of(audit_summary(p.plan, e, summary(text)), "T1");
+    const AuditResult r = audit_summary(p.plan, e, summary(text));
+    const BoreAudit& t1 = audit_of(r, "T1");
     REQUIRE(t1.two_depth_position);
     CHECK(*t1.two_depth_position == Approx(0.092).margin(2e-4));
   }
