@@ -138,6 +138,15 @@ const Characteristic* deciding_position(const std::vector<Characteristic>& chara
   return find_characteristic(characteristics, bore_id + "/position");
 }
 
+/// A copy of a bore's result without its boundary points: the association study reports
+/// position and perpendicularity only (no boundary search), and every alternative frame's
+/// copies are alive at once, so a dense scan's points are not held once per association.
+BoreResult without_boundary_points(const BoreResult& bore) {
+  BoreResult copy = bore;
+  copy.boundary_points = Eigen::Matrix3Xd();
+  return copy;
+}
+
 /// Every evaluation starts from datum A, a plane; check_part asks before loading anything.
 void require_datum_a(const PartPlan& plan) {
   if (plan.datums.empty() || plan.datums.front().kind != FeatureKind::plane)
@@ -345,7 +354,7 @@ std::vector<BoreSensitivity> association_sensitivity(const PartPlan& plan,
   detail::parallel_for(methods.size(), workers, [&](std::size_t m, std::size_t) {
     std::vector<BoreResult>& moved = moved_by_method[m];
     if (methods[m] == a.association) {
-      moved = nominal.bores;
+      for (const BoreResult& bore : nominal.bores) moved.push_back(without_boundary_points(bore));
     } else {
       DatumFrameOptions frame = alternative;
       frame.a_association = methods[m];
@@ -359,8 +368,8 @@ std::vector<BoreSensitivity> association_sensitivity(const PartPlan& plan,
       const Eigen::Vector3d translation = g.rotation * (f.origin - g.origin);
       for (std::size_t i = 0; i < plan.bores.size(); ++i)
         moved.push_back(nominal.bores[i].evaluated()
-                            ? moved_to_frame(nominal.bores[i], plan.bores[i], rotation,
-                                             translation)
+                            ? moved_to_frame(without_boundary_points(nominal.bores[i]),
+                                             plan.bores[i], rotation, translation)
                             : nominal.bores[i]);
       // The study reports position and perpendicularity only: no boundary search.
       apply_mobility(plan, other, moved, options.mobility, false);

@@ -459,6 +459,15 @@ FitOptions free_axis_options(const PlanBore& bore, const FitOptions& fit,
   return free_axis;
 }
 
+/// Frees the per-point residual values of a bore's fits and section circles
+/// (BoreEvaluationOptions::residuals_kept_up_to); rms and form stay.
+void release_point_residuals(BoreResult& result) {
+  for (CylinderFit* fit : {&result.least_squares, &result.mating_envelope, &result.related_envelope,
+                           &result.minimum_material, &result.minimum_zone})
+    fit->residuals.values = Eigen::VectorXd();
+  for (SectionCircle& s : result.sections) s.circle.residuals.values = Eigen::VectorXd();
+}
+
 }  // namespace
 
 PrepareOptions bore_prepare_options(const PlanBore& bore, const BoreEvaluationOptions& options) {
@@ -696,6 +705,7 @@ BoreResult evaluate_bore(const BoreInput& input, const BoreEvaluationOptions& op
     }
     result.virtual_condition = vc;
   }
+  if (static_cast<std::size_t>(n) > options.residuals_kept_up_to) release_point_residuals(result);
   return result;
 }
 

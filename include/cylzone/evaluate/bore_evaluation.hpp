@@ -244,6 +244,14 @@ struct BoreEvaluationOptions {
   SamplingThresholds sampling;
   /// The grid of BoreResult::surface_map.
   SurfaceMapOptions surface_map;
+  /// Per-point residuals kept in the result: the values of the five cylinders' residuals and
+  /// of the section circles' (Residuals::values) stay when the bore has at most this many
+  /// points, and are released once every figure is computed otherwise (rms and form stay).
+  /// Every figure is computed from all points first, and no report reads the values (the
+  /// surface map is their bounded form), so a 5,000,000-point scan does not hold 40 bytes a
+  /// point per bore once evaluated. The default keeps them for every probed bore (hundreds to
+  /// thousands of points) and releases them for dense scans.
+  std::size_t residuals_kept_up_to = 50000;
 };
 
 /// One bore's specification paired with its prepared points, in the datum frame. Both are
