@@ -12,6 +12,12 @@
 //                                                resident size (getrusage); --phases then
 //                                                times each load step alone: load, SHA-256,
 //                                                parse, bands, copy out (CPU ns per point)
+//   bench_scan run DIR --stages                  then times the evaluation stage by stage on
+//                                                one thread, through the public stage
+//                                                functions as evaluate_part calls them: the
+//                                                datum frame, then each bore prepared and
+//                                                evaluated in the frame (CPU ns per point, to
+//                                                see which stage is not linear in points)
 //
 // Run `run` under /usr/bin/time -v for the maximum resident set size as the system reports it
 // (bench/run_benchmarks.sh does). The default profile is the lean one (figures only: no
@@ -34,6 +40,10 @@
 
 #include "cylzone/check/part_check.hpp"
 #include "cylzone/check/part_inputs.hpp"
+#include "cylzone/datum/datum_frame.hpp"
+#include "cylzone/evaluate/bore_evaluation.hpp"
+#include "cylzone/fit/fit_plane.hpp"
+#include "cylzone/prepare/prepare.hpp"
 #include "cylzone/io/load.hpp"
 #include "cylzone/io/read_points.hpp"
 #include "io/detail/file_digest.hpp"  // the SHA-256 the load stage takes
@@ -170,7 +180,57 @@ int generate(const fs::path& dir, std::size_t n, bool ply) {
   return 0;
 }
 
-int run(const fs::path& dir, bool full, std::size_t threads, bool phases) {
+/// The evaluation stage by stage on one thread, as evaluate_part runs it (the bench plan has no
+/// probe compensation, so the datums' prepared points are the loaded ones): the datum frame,
+/// then each bore taken into the frame, prepared and evaluated. CPU seconds and ns per point.
+void time_stages(const cylzone::PartPlan& plan, const cylzone::PartInputs& inputs, bool full) {
+  cylzone::BoreEvaluationOptions bore_options;
+  bore_options.fit.threads = bore_options.stray_points.threads = 1;
+  bore_options.fit.assess_ambiguity = bore_options.two_point_sizes = bore_options.stray_screen =
+      full;
+  std::printf("  evaluation stage by stage, one thread (profile %s)\n", full ? "full" : "lean");
+  std::printf("  %-24s %9s %8s %10s\n", "stage", "points", "cpu s", "cpu ns/pt");
+  const auto report = [](const std::string& name, double points, double cpu) {
+    std::printf("  %-24s %9.0f %8.3f %10.1f\n", name.c_str(), points, cpu, 1e9 * cpu / points);
+  };
+  double cpu = cpu_seconds();
+  std::vector<const Eigen::Matrix3Xd*> bore_points;
+  for (const cylzone::PointCloud& c : inputs.bores) bore_points.push_back(&c.points);
+  const Eigen::Vector3d into = cylzone::infer_material_side(
+      cylzone::fit_plane_least_squares(inputs.datums.front().points, bore_options.fit),
+      bore_points);
+  std::vector<cylzone::DatumInput> datums;
+  double datum_points = 0.0;
+  for (std::size_t k = 0; k < plan.datums.size(); ++k) {
+    datums.push_back({plan.datums[k], inputs.datums[k]});
+    datum_points += static_cast<double>(inputs.datums[k].size());
+  }
+  cylzone::DatumFrameOptions frame_options;
+  frame_options.fit = bore_options.fit;
+  frame_options.stray_screen = full;
+  frame_options.stray_points = bore_options.stray_points;
+  const cylzone::DatumFrameResult frame =
+      cylzone::establish_datum_frame(datums, into, frame_options);
+  report("datum frame", datum_points, cpu_seconds() - cpu);
+  double all_cpu = 0.0, all_points = 0.0;
+  for (std::size_t i = 0; i < plan.bores.size(); ++i) {
+    cpu = cpu_seconds();
+    cylzone::PointCloud in_frame;
+    in_frame.points = frame.frame.points_to_frame(inputs.bores[i].points);
+    const cylzone::PreparedFeature prepared = cylzone::prepare_feature(
+        cylzone::FeatureKind::bore, std::move(in_frame),
+        cylzone::bore_prepare_options(plan.bores[i], bore_options));
+    (void)cylzone::evaluate_bore(cylzone::BoreInput{plan.bores[i], prepared}, bore_options);
+    const double used = cpu_seconds() - cpu;
+    const double points = static_cast<double>(inputs.bores[i].size());
+    report("bore " + plan.bores[i].id, points, used);
+    all_cpu += used;
+    all_points += points;
+  }
+  report("bores together", all_points, all_cpu);
+}
+
+int run(const fs::path& dir, bool full, std::size_t threads, bool phases, bool by_stage) {
   const auto start = std::chrono::steady_clock::now();
   const double cpu_start = cpu_seconds();
   const cylzone::PartPlan plan = cylzone::read_plan(dir / "plan.toml");
@@ -207,6 +267,7 @@ int run(const fs::path& dir, bool full, std::size_t threads, bool phases) {
                   (24.0 * static_cast<double>(inputs.scan->points) / 1048576.0));
   std::printf("  peak resident after reading and segmenting: %.1f MB\n", loaded_peak_kb / 1024.0);
   std::printf("  part verdict: %s\n", std::string(cylzone::verdict_name(result.verdict)).c_str());
+  if (by_stage) time_stages(plan, inputs, full);
   if (!phases) return 0;
   // The first phase broken down stage by stage, after the peak above was taken (the figures
   // above stay alive, so the process's peak grows: not for /usr/bin/time). Each stage on the
@@ -269,15 +330,16 @@ int main(int argc, char** argv) {
       return 0;
     }
     if (argc >= 3 && std::strcmp(argv[1], "run") == 0) {
-      bool full = false, phases = false;
+      bool full = false, phases = false, stages = false;
       std::size_t threads = 1;
       for (int i = 3; i < argc; ++i) {
         if (std::strcmp(argv[i], "--full") == 0) full = true;
         if (std::strcmp(argv[i], "--phases") == 0) phases = true;
+        if (std::strcmp(argv[i], "--stages") == 0) stages = true;
         if (std::strcmp(argv[i], "--threads") == 0 && i + 1 < argc)
           threads = std::strtoull(argv[++i], nullptr, 10);
       }
-      return run(argv[2], full, threads, phases);
+      return run(argv[2], full, threads, phases, stages);
     }
   } catch (const std::exception& e) {
     std::fprintf(stderr, "bench_scan: %s\n", e.what());
@@ -285,6 +347,6 @@ int main(int argc, char** argv) {
   }
   std::fprintf(stderr,
                "usage: bench_scan generate DIR [POINTS] [ply|csv] | bench_scan read DIR | "
-               "bench_scan run DIR [--full] [--threads N] [--phases]\n");
+               "bench_scan run DIR [--full] [--threads N] [--phases] [--stages]\n");
   return 2;
 }

@@ -16,6 +16,7 @@
 
 #include <Eigen/Geometry>
 #include <cmath>
+#include <limits>
 #include <random>
 
 #include "cylzone/evaluate/bore_evaluation.hpp"
@@ -441,6 +442,71 @@ TEST_CASE("a scanned cloud without levels is cut into slabs", "[bore_evaluation]
   plan.section_gap = 1.0;
   const BoreResult coarse = evaluate_bore(plan, points, options);
   CHECK(coarse.sections.size() == 40);  // ceil(39.5 / 1.0)
+}
+
+TEST_CASE("a dense bore: blocks of boundary points, residuals released above the cap",
+          "[bore_evaluation]") {
+  // 20,000 points on an exact cylinder of radius 4 about the true-position axis shifted by
+  // (3, -4) um: more boundary points than one 4096-column block. References: the closed-form
+  // radial distances of the moved points (the frame motion written out), and the same bore
+  // evaluated with the residuals kept.
+  std::mt19937_64 rng(8191);
+  std::uniform_real_distribution<double> angle(0.0, 2 * pi);
+  const Eigen::Vector2d basic(20.0, -15.0);
+  const Eigen::Vector3d centre(20.003, -15.004, 0.0);
+  const double radius = 4.0;
+  const int n = 20000;
+  Eigen::Matrix3Xd points(3, n);
+  for (int i = 0; i < n; ++i) {
+    const double t = -0.5 - 39.5 * i / (n - 1.0), a = angle(rng);
+    points.col(i) = centre + Eigen::Vector3d(radius * std::cos(a), radius * std::sin(a), t);
+  }
+  PlanBore plan;
+  plan.id = "D1";
+  plan.basic_location = basic;
+  plan.size = SizeLimits{7.995, 8.010};
+  plan.depth_top = 0.0;
+  plan.depth_bottom = -40.0;
+  plan.position = tolerance(0.020, MaterialCondition::mmc);
+  const BoreResult r = evaluate_bore(plan, points);
+  REQUIRE(r.virtual_condition.has_value());
+  REQUIRE(r.boundary_points.cols() == n);  // every point lies within the depth
+  CHECK(r.least_squares.residuals.values.size() == n);  // 20,000 <= the default cap
+
+  FrameMotion motion;
+  motion.shift = {0.002, -0.001};
+  motion.rotation_rad = 1.5e-4;
+  const VirtualConditionResult vc = virtual_condition_after_frame_motion(r, motion);
+  // Closed form: the moved frame's coordinates R^T (p - s); the true-position axis is the
+  // vertical line through `basic` there, so a point's radial distance is a 2D distance.
+  const double c = std::cos(motion.rotation_rad), sn = std::sin(motion.rotation_rad);
+  double nearest = std::numeric_limits<double>::infinity();
+  for (int i = 0; i < n; ++i) {
+    const double x = points(0, i) - motion.shift.x(), y = points(1, i) - motion.shift.y();
+    nearest = std::min(nearest, std::hypot(c * x + sn * y - basic.x(), -sn * x + c * y - basic.y()));
+  }
+  REQUIRE_FALSE(vc.conservative);
+  CHECK(vc.clearance == Approx(2.0 * nearest).margin(1e-12));
+
+  // Above the cap the values go and nothing else changes.
+  BoreEvaluationOptions lean;
+  lean.residuals_kept_up_to = 1000;
+  const BoreResult released = evaluate_bore(plan, points, lean);
+  for (const CylinderFit* f : {&released.least_squares, &released.mating_envelope,
+                               &released.related_envelope, &released.minimum_material,
+                               &released.minimum_zone})
+    CHECK(f->residuals.values.size() == 0);
+  for (const SectionCircle& section : released.sections)
+    CHECK(section.circle.residuals.values.size() == 0);
+  CHECK(released.least_squares.residuals.rms == r.least_squares.residuals.rms);
+  CHECK(released.minimum_zone.residuals.form == r.minimum_zone.residuals.form);
+  CHECK(released.position->value == r.position->value);
+  CHECK(released.size.mating_envelope == r.size.mating_envelope);
+  CHECK(released.size.two_point_min == r.size.two_point_min);
+  CHECK(released.form.cylindricity == r.form.cylindricity);
+  CHECK(released.virtual_condition->clearance == r.virtual_condition->clearance);
+  CHECK(released.surface_map.mean == r.surface_map.mean);
+  CHECK(virtual_condition_after_frame_motion(released, motion).clearance == vc.clearance);
 }
 
 TEST_CASE("an inclined bore is evaluated along its nominal direction", "[bore_evaluation]") {

@@ -299,6 +299,34 @@ TEST_CASE("a pattern with one bore not evaluated: mobility rows not proven, fixe
   CHECK(boundary->not_evaluated == mmc.bores[0].mobility_not_evaluated);
 }
 
+TEST_CASE("a bore's boundary points are kept only where a moved frame measures them again",
+          "[check][memory]") {
+  // Q1..Q3 at MMC. With B at MMB the frame may shift and the boundary search measures every
+  // bore's points again: they are kept. With B at RMB the frame is fixed: they are released
+  // once the bore is evaluated, and the virtual condition is the one evaluate_bore finds on
+  // all the points (the frame here is the measurement frame; reference: the bore alone).
+  for (const MaterialBoundary boundary : {MaterialBoundary::mmb, MaterialBoundary::rmb}) {
+    const bool mobile = boundary == MaterialBoundary::mmb;
+    Part p = part_abc(boundary);
+    add_bores(p, mobile ? ab_mmb_c : abc, rings(-30.0, 25.005, 0.0002, 4.01, deep));
+    for (PlanBore& b : p.plan.bores) b.position->condition = MaterialCondition::mmc;
+    const PartEvaluation e = evaluate_part(p.plan, p.inputs, quick());
+    for (std::size_t i = 0; i < e.bores.size(); ++i) {
+      const BoreResult& b = e.bores[i];
+      INFO("bore " << b.id << (mobile ? ", B at MMB" : ", B at RMB"));
+      REQUIRE(b.virtual_condition.has_value());
+      CHECK((b.boundary_points.cols() > 0) == mobile);
+      CHECK(b.virtual_condition_with_mobility.has_value() == mobile);
+      BoreEvaluationOptions alone;
+      alone.fit.assess_ambiguity = false;
+      const BoreResult reference = evaluate_bore(p.plan.bores[i], p.inputs.bores[i].points, alone);
+      REQUIRE(reference.boundary_points.cols() > 0);
+      CHECK(b.virtual_condition->clearance ==
+            Approx(reference.virtual_condition->clearance).margin(1e-12));
+    }
+  }
+}
+
 TEST_CASE("a datum feature that cannot be evaluated stops the evaluation, naming the datum",
           "[check][partial]") {
   // Every bore's zone is located in the frame all the datums build: nothing can be evaluated.

@@ -275,6 +275,20 @@ PartEvaluation evaluate_part(const PartPlan& plan, const PartInputs& inputs,
   BoreEvaluationOptions per_bore = stage;
   per_bore.fit.threads = per_bore.stray_points.threads = std::max<std::size_t>(1, threads / workers);
   result.bores.resize(plan.bores.size());
+  // A bore's boundary points (BoreResult::boundary_points) are measured again only by the
+  // boundary search of a datum reference that leaves the frame mobile (apply_mobility); with
+  // the frame fixed they are released once the bore is evaluated, so that a dense scan's bores
+  // do not stay in memory as copies.
+  std::vector<char> keeps_boundary_points(plan.bores.size(), 0);
+  {
+    const PlanDatum* c = plan.datum('C');
+    for (std::size_t i = 0; i < plan.bores.size(); ++i)
+      keeps_boundary_points[i] =
+          plan.bores[i].position &&
+          mobility_of(plan.bores[i].position->datums, result.datums,
+                      c ? c->basic_location : std::nullopt)
+              .any();
+  }
   const std::size_t first_bore = result.preparation.size();
   for (const PlanBore& bore : plan.bores) result.preparation.push_back({"bore " + bore.id, {}});
   detail::parallel_for(plan.bores.size(), workers, [&](std::size_t i, std::size_t) {
@@ -307,6 +321,7 @@ PartEvaluation evaluate_part(const PartPlan& plan, const PartInputs& inputs,
         }
         for (std::string& w : preparation_warnings(prepared.record))
           evaluated.warnings.push_back(std::move(w));
+        if (!keeps_boundary_points[i]) evaluated.boundary_points = Eigen::Matrix3Xd();
         record = std::move(prepared.record);
         return evaluated;
       });

@@ -57,6 +57,21 @@ Eigen::Matrix3Xd local_coordinates(const Eigen::Matrix3Xd& points, const Eigen::
   return basis.transpose() * (points.colwise() - origin);
 }
 
+void local_coordinates_into(const Eigen::Matrix3Xd& points, const Eigen::Vector3d& origin,
+                            const Eigen::Matrix3d& basis, Eigen::Matrix3Xd& local) {
+  // Each column is the same three products and two sums whichever block it falls in (the
+  // expression is local_coordinates' own, so Eigen picks the same kernels); test_fit_support
+  // checks the bits across block edges.
+  constexpr Eigen::Index block = 4096;
+  const Eigen::Index n = points.cols();
+  local.resize(3, n);
+  for (Eigen::Index start = 0; start < n; start += block) {
+    const Eigen::Index len = std::min(block, n - start);
+    local.middleCols(start, len).noalias() =
+        basis.transpose() * (points.middleCols(start, len).colwise() - origin);
+  }
+}
+
 Eigen::Matrix2Xd planar_coordinates(const Eigen::Matrix3Xd& points, const Eigen::Vector3d& origin,
                                     const Eigen::Matrix3d& basis) {
   return basis.leftCols<2>().transpose() * (points.colwise() - origin);

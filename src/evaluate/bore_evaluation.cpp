@@ -459,6 +459,25 @@ FitOptions free_axis_options(const PlanBore& bore, const FitOptions& fit,
   return free_axis;
 }
 
+/// Columns per block where a dense bore's points are taken into zone coordinates: a block's
+/// copy is small (96 kB) where one of the whole bore would be 24 bytes a point, and every
+/// column is the same products whichever block it falls in (detail::local_coordinates_into).
+constexpr Eigen::Index zone_block = 4096;
+
+/// Heights of the points along the zone's w axis (row 2 of basis^T (p - origin)), computed a
+/// block at a time: the bits of the whole product, without its 3 x n copy.
+Eigen::VectorXd zone_heights(const Eigen::Matrix3Xd& points, const ZoneFrame& zone) {
+  Eigen::VectorXd heights(points.cols());
+  Eigen::Matrix3Xd block, local;
+  for (Eigen::Index start = 0; start < points.cols(); start += zone_block) {
+    const Eigen::Index len = std::min(zone_block, points.cols() - start);
+    block = points.middleCols(start, len);
+    detail::local_coordinates_into(block, zone.origin, zone.basis, local);
+    heights.segment(start, len) = local.row(2).transpose();
+  }
+  return heights;
+}
+
 /// Frees the per-point residual values of a bore's fits and section circles
 /// (BoreEvaluationOptions::residuals_kept_up_to); rms and form stay.
 void release_point_residuals(BoreResult& result) {
@@ -582,9 +601,9 @@ BoreResult evaluate_bore(const BoreInput& input, const BoreEvaluationOptions& op
 
   // ---- 3. Zone frame; 4. the probed extent and the bore's own depth range.
   result.zone = ZoneFrame::at(bore.basic_location, w);
-  const Eigen::Matrix3Xd local = result.zone.basis.transpose() * (points.colwise() - result.zone.origin);
-  result.probed_top = local.row(2).maxCoeff();
-  result.probed_bottom = local.row(2).minCoeff();
+  const Eigen::VectorXd zone_height = zone_heights(points, result.zone);
+  result.probed_top = zone_height.maxCoeff();
+  result.probed_bottom = zone_height.minCoeff();
   const auto [own_top, own_bottom] = own_range(bore, result);
   result.depth_source = own_range_source(bore);
 
@@ -673,7 +692,7 @@ BoreResult evaluate_bore(const BoreInput& input, const BoreEvaluationOptions& op
       if (!result.position->projected) {
         std::vector<Eigen::Index> kept;
         for (Eigen::Index i = 0; i < n; ++i) {
-          const double h = local(2, i);
+          const double h = zone_height(i);
           if (h > own_top + range_slack || h < own_bottom - range_slack) continue;
           kept.push_back(i);
         }
@@ -730,13 +749,19 @@ VirtualConditionResult virtual_condition_after_frame_motion(const BoreResult& bo
   if (!p.projected) {
     if (bore.boundary_points.cols() == 0)
       throw FitError("bore " + bore.id + ": no point lies within the depth range");
-    const Eigen::Matrix3Xd moved = r_t * (bore.boundary_points.colwise() - shift);
-    const Eigen::Matrix3Xd local = bore.zone.basis.transpose() * (moved.colwise() - bore.zone.origin);
+    // Block by block (zone_block), not one 3 x n copy per motion: the same bits per point.
     d.nearest = std::numeric_limits<double>::infinity();
-    for (Eigen::Index i = 0; i < local.cols(); ++i) {
-      const double radial = local.col(i).head<2>().norm();
-      d.nearest = std::min(d.nearest, radial);
-      d.farthest = std::max(d.farthest, radial);
+    const Eigen::Matrix3Xd& all = bore.boundary_points;
+    for (Eigen::Index start = 0; start < all.cols(); start += zone_block) {
+      const Eigen::Index len = std::min(zone_block, all.cols() - start);
+      const Eigen::Matrix3Xd moved = r_t * (all.middleCols(start, len).colwise() - shift);
+      const Eigen::Matrix3Xd local =
+          bore.zone.basis.transpose() * (moved.colwise() - bore.zone.origin);
+      for (Eigen::Index i = 0; i < local.cols(); ++i) {
+        const double radial = local.col(i).head<2>().norm();
+        d.nearest = std::min(d.nearest, radial);
+        d.farthest = std::max(d.farthest, radial);
+      }
     }
   }
   const detail::BoundaryClearance clearance =

@@ -27,6 +27,14 @@ double tilt_scale_of(const Eigen::Matrix3Xd& points, const Eigen::Vector3d& cent
 
 }  // namespace
 
+ModelPoints ModelPoints::subset(const std::vector<Eigen::Index>& indices) const {
+  bool all = static_cast<Eigen::Index>(indices.size()) == view_->cols();
+  for (std::size_t k = 0; all && k < indices.size(); ++k)
+    all = indices[k] == static_cast<Eigen::Index>(k);
+  if (all) return *this;
+  return ModelPoints(Eigen::Matrix3Xd((*view_)(Eigen::all, indices)));
+}
+
 CircleZoneModel::CircleZoneModel(Eigen::Matrix2Xd points, const Eigen::Vector2d& start_centre)
     : points_(std::move(points)), centre_(start_centre) {
   centroid_ = points_.cols() > 0 ? Eigen::Vector2d(points_.rowwise().mean())
@@ -82,10 +90,10 @@ Eigen::VectorXd CircleZoneModel::step_to(const ZoneModel& other) const {
   return dynamic_cast<const CircleZoneModel&>(other).centre_ - centre_;
 }
 
-AxisZoneModel::AxisZoneModel(Eigen::Matrix3Xd points, const Axis& start)
-    : points_(std::move(points)) {
-  centroid_ = detail::centroid(points_);
-  tilt_scale_ = tilt_scale_of(points_, centroid_);
+AxisZoneModel::AxisZoneModel(const Eigen::Matrix3Xd& points, const Axis& start)
+    : points_(points) {
+  centroid_ = detail::centroid(*points_);
+  tilt_scale_ = tilt_scale_of(*points_, centroid_);
   set_frame(start.point, start.direction);
 }
 
@@ -94,7 +102,7 @@ void AxisZoneModel::set_frame(const Eigen::Vector3d& point_on_axis,
   const Eigen::Vector3d w = direction.normalized();
   origin_ = point_on_axis + (centroid_ - point_on_axis).dot(w) * w;
   basis_ = basis_from_direction(w);
-  local_ = local_coordinates(points_, origin_, basis_);
+  local_coordinates_into(*points_, origin_, basis_, local_);
 }
 
 void AxisZoneModel::evaluate(const Eigen::VectorXd& step, Eigen::VectorXd& distances,
@@ -136,7 +144,7 @@ void AxisZoneModel::move(const Eigen::VectorXd& step) {
 
 std::unique_ptr<ZoneModel> AxisZoneModel::subset(const std::vector<Eigen::Index>& indices) const {
   std::unique_ptr<AxisZoneModel> copy(new AxisZoneModel());
-  copy->points_ = points_(Eigen::all, indices);
+  copy->points_ = points_.subset(indices);
   copy->centroid_ = centroid_;
   copy->tilt_scale_ = tilt_scale_;
   copy->origin_ = origin_;
@@ -184,16 +192,17 @@ Eigen::VectorXd AxisZoneModel::step_to(const ZoneModel& other) const {
   return step;
 }
 
-PlaneZoneModel::PlaneZoneModel(Eigen::Matrix3Xd points, const Eigen::Vector3d& start_normal)
-    : points_(std::move(points)) {
-  centroid_ = detail::centroid(points_);
-  tilt_scale_ = tilt_scale_of(points_, centroid_);
+PlaneZoneModel::PlaneZoneModel(const Eigen::Matrix3Xd& points,
+                               const Eigen::Vector3d& start_normal)
+    : points_(points) {
+  centroid_ = detail::centroid(*points_);
+  tilt_scale_ = tilt_scale_of(*points_, centroid_);
   set_frame(start_normal);
 }
 
 void PlaneZoneModel::set_frame(const Eigen::Vector3d& normal) {
   basis_ = basis_from_direction(normal);
-  local_ = local_coordinates(points_, centroid_, basis_);
+  local_coordinates_into(*points_, centroid_, basis_, local_);
 }
 
 Eigen::Matrix2d PlaneZoneModel::box() const {
@@ -250,7 +259,7 @@ void PlaneZoneModel::evaluate(const Eigen::VectorXd& step, Eigen::VectorXd& dist
 
 std::unique_ptr<ZoneModel> PlaneZoneModel::subset(const std::vector<Eigen::Index>& indices) const {
   std::unique_ptr<PlaneZoneModel> copy(new PlaneZoneModel());
-  copy->points_ = points_(Eigen::all, indices);
+  copy->points_ = points_.subset(indices);
   copy->centroid_ = centroid_;
   copy->tilt_scale_ = tilt_scale_;
   copy->basis_ = basis_;

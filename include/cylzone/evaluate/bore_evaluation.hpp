@@ -180,7 +180,9 @@ struct BoreResult {
   std::optional<PerpendicularityResult> perpendicularity;
   std::optional<VirtualConditionResult> virtual_condition;
   /// On the true position, not projected: the bore's points within the evaluated depth (datum
-  /// frame), which a moved frame's boundary check measures again. Empty otherwise.
+  /// frame), which a moved frame's boundary check measures again. Empty otherwise, and empty
+  /// in evaluate_part's results when the bore's datum reference leaves the frame fixed (no
+  /// moved frame will measure them: they are released once the bore is evaluated).
   Eigen::Matrix3Xd boundary_points;
   /// The virtual condition on the true position re-evaluated after the allowed frame motion
   /// that best clears the boundaries of every bore with the same datum reference (simultaneous

@@ -121,14 +121,37 @@ class CircleZoneModel final : public ZoneModel {
   Eigen::Matrix2Xd local_;  // points_ - centre_
 };
 
+/// The points of an axis or plane zone model: the caller's, borrowed for the fit (they must
+/// outlive the model and every subset of all of them), or a subset's own copy. A model of a
+/// 1,500,000-point face then holds its local coordinates only, not a second copy of the points,
+/// and the engine's copies of the whole model (subset of all points) share them. Copies share.
+class ModelPoints {
+ public:
+  ModelPoints() = default;
+  explicit ModelPoints(const Eigen::Matrix3Xd& borrowed) : view_(&borrowed) {}
+  explicit ModelPoints(Eigen::Matrix3Xd&& owned)
+      : owned_(std::make_shared<const Eigen::Matrix3Xd>(std::move(owned))), view_(owned_.get()) {}
+  const Eigen::Matrix3Xd& operator*() const noexcept { return *view_; }
+  const Eigen::Matrix3Xd* operator->() const noexcept { return view_; }
+  /// The columns `indices`: these points shared when they are all of them in order, a copy of
+  /// those columns otherwise.
+  ModelPoints subset(const std::vector<Eigen::Index>& indices) const;
+
+ private:
+  std::shared_ptr<const Eigen::Matrix3Xd> owned_;
+  const Eigen::Matrix3Xd* view_ = nullptr;
+};
+
 /// Orthogonal distances of points in space from a straight axis (cylinders, and lines for
 /// straightness). Parameters in the frame (u, v, w = axis) at the foot of the centroid:
 /// [shift_u, shift_v, L tilt_u, L tilt_v], the axis through (shift, 0) along (tilt, 1), with L
 /// the data's size (Forbes, NPL DITC 140/89, the same parametrisation as the least-squares fit).
 class AxisZoneModel final : public ZoneModel {
  public:
-  AxisZoneModel(Eigen::Matrix3Xd points, const Axis& start);
-  Eigen::Index point_count() const override { return points_.cols(); }
+  /// `points` are borrowed (ModelPoints): they must outlive the model.
+  AxisZoneModel(const Eigen::Matrix3Xd& points, const Axis& start);
+  AxisZoneModel(Eigen::Matrix3Xd&&, const Axis&) = delete;
+  Eigen::Index point_count() const override { return points_->cols(); }
   int parameter_count() const override { return 4; }
   void evaluate(const Eigen::VectorXd& step, Eigen::VectorXd& distances,
                 Eigen::MatrixXd* gradients) const override;
@@ -147,7 +170,7 @@ class AxisZoneModel final : public ZoneModel {
   AxisZoneModel() = default;  // for subset()
   void set_frame(const Eigen::Vector3d& point_on_axis, const Eigen::Vector3d& direction);
 
-  Eigen::Matrix3Xd points_;
+  ModelPoints points_;
   Eigen::Vector3d centroid_;
   double tilt_scale_ = 1.0;
   Eigen::Vector3d origin_;
@@ -159,8 +182,10 @@ class AxisZoneModel final : public ZoneModel {
 /// [L slope_u, L slope_v]; the plane's offset is absorbed by the zone bounds.
 class PlaneZoneModel final : public ZoneModel {
  public:
-  PlaneZoneModel(Eigen::Matrix3Xd points, const Eigen::Vector3d& start_normal);
-  Eigen::Index point_count() const override { return points_.cols(); }
+  /// `points` are borrowed (ModelPoints): they must outlive the model.
+  PlaneZoneModel(const Eigen::Matrix3Xd& points, const Eigen::Vector3d& start_normal);
+  PlaneZoneModel(Eigen::Matrix3Xd&&, const Eigen::Vector3d&) = delete;
+  Eigen::Index point_count() const override { return points_->cols(); }
   int parameter_count() const override { return 2; }
   void evaluate(const Eigen::VectorXd& step, Eigen::VectorXd& distances,
                 Eigen::MatrixXd* gradients) const override;
@@ -181,7 +206,7 @@ class PlaneZoneModel final : public ZoneModel {
   /// Lowest (column 0) and highest (column 1) in-plane coordinates of the points.
   Eigen::Matrix2d box() const;
 
-  Eigen::Matrix3Xd points_;
+  ModelPoints points_;
   Eigen::Vector3d centroid_;
   double tilt_scale_ = 1.0;
   Eigen::Matrix3d basis_;
