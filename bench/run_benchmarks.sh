@@ -74,7 +74,10 @@ if [ -x "$scan" ]; then
   "$scan" generate "$tmp/scan" 5000000 ply > /dev/null
   if [ -x /usr/bin/time ]; then
     /usr/bin/time -v "$scan" run "$tmp/scan" --threads "$(nproc)" 2> "$tmp/scan-time.txt"
-    grep -E "Maximum resident set size|Elapsed \(wall clock\)" "$tmp/scan-time.txt"
+    grep -E "Maximum resident set size|Elapsed \(wall clock\)|User time|System time" \
+      "$tmp/scan-time.txt"
+    # The evaluation stage by stage on one thread (ns a point: which stage is not linear).
+    "$scan" run "$tmp/scan" --threads "$(nproc)" --stages | sed -n '/stage by stage/,$p'
     # The load stage step by step (its own run: the breakdown keeps figures alive).
     "$scan" run "$tmp/scan" --threads "$(nproc)" --phases | sed -n '/load stage by stage/,$p'
   else
