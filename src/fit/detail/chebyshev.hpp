@@ -229,6 +229,11 @@ struct ZoneOptions {
   /// of squared residuals about a free offset (a radius; a plane's offset), or, off, of the
   /// distances themselves (a line: its points' distances from it).
   bool residuals_about_offset = true;
+  /// The solver of the descent's linear programmes (FitOptions::lp_solver); the ambiguity walks
+  /// always use Clp. With `dense`, a programme the dense solver fails on is solved by Clp.
+  LpSolver lp_solver = LpSolver::clp;
+  /// Iterations per dense programme; 0 picks 50 + 4 x its constraints (a guard, not a tuning).
+  int dense_iteration_limit = 0;
 };
 
 enum class ZoneStatus { converged, iteration_limit, unbounded };
@@ -255,6 +260,8 @@ struct ZoneSummary {
   /// The optimum was not proven unique and the element is the tie-break's choice in its
   /// near-optimal set (the least sum of squared residuals), not the descent's.
   bool tie_broken = false;
+  /// Linear programmes the dense solver failed on and Clp solved (ZoneOptions::lp_solver).
+  int lp_fallbacks = 0;
 };
 
 /// Runs the sequential linear programme from the model's current element; on return the model
