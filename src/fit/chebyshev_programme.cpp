@@ -389,7 +389,24 @@ bool ZoneProgramme::solve_dense(const Eigen::VectorXd& d, const Eigen::MatrixXd&
   // Stationarity in y: balance_k + mu_k s_k = 0 with the bound s_k y_k <= 1, mu_k >= 0.
   for (int k = 0; k < p_; ++k)
     basis[filled++] = balance(k) > 0.0 ? DenseLp::lower_bound(k) : DenseLp::upper_bound(k);
-  if (!dense_.set_basis(basis)) return false;
+  // A warm start: the previous programme's optimal basis, where all its rows are present and its
+  // multipliers (which depend on the gradients only) are still non-negative. Consecutive
+  // programmes of a descent are at nearby elements and mostly share their contacts.
+  DenseLp::Id warm[DenseLp::max_columns];
+  bool warm_ok = static_cast<int>(dense_basis_.size()) == columns_;
+  for (int j = 0; warm_ok && j < columns_; ++j) {
+    const BasisEntry& e = dense_basis_[static_cast<std::size_t>(j)];
+    if (!e.row) {
+      warm[j] = e.bound;
+      continue;
+    }
+    const auto at = std::find_if(rows.begin(), rows.end(), [&](const Constraint& c) {
+      return c.point == e.constraint.point && c.side == e.constraint.side;
+    });
+    warm_ok = at != rows.end();
+    if (warm_ok) warm[j] = static_cast<DenseLp::Id>(at - rows.begin());
+  }
+  if (!(warm_ok && dense_.set_basis(warm)) && !dense_.set_basis(basis)) return false;
   if (dense_.solve() != DenseLp::Status::optimal) return false;
   // Constraint generation, resumed from the previous optimal basis.
   for (;;) {
@@ -404,6 +421,17 @@ bool ZoneProgramme::solve_dense(const Eigen::VectorXd& d, const Eigen::MatrixXd&
   const double objective = dense_.objective();
   if (!(objective <= 1e-9)) return false;
 
+  dense_basis_.clear();
+  for (int j = 0; j < columns_; ++j) {
+    const DenseLp::Id id = dense_.basis()[j];
+    BasisEntry e;
+    e.row = DenseLp::is_row(id);
+    if (e.row)
+      e.constraint = rows[static_cast<std::size_t>(id)];
+    else
+      e.bound = id;
+    dense_basis_.push_back(e);
+  }
   // The basis rows are the binding ones (in row order, as Clp lists them).
   std::vector<std::pair<DenseLp::Id, double>> active;
   for (int j = 0; j < columns_; ++j)

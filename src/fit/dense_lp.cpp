@@ -26,7 +26,7 @@ void DenseLp::reset(const Vector& cost, const Vector& lower, const Vector& upper
   upper_ = upper;
   x_.setZero(cost.size());
   lambda_.setZero(cost.size());
-  a_.clear();
+  for (std::vector<double>& column : a_) column.clear();
   rhs_.clear();
   inv_norm_.clear();
   in_basis_.clear();
@@ -37,7 +37,7 @@ DenseLp::Id DenseLp::add_row(const double* a, double b) {
   const int n = columns();
   double norm2 = 0.0;
   for (int k = 0; k < n; ++k) {
-    a_.push_back(a[k]);
+    a_[k].push_back(a[k]);
     norm2 += a[k] * a[k];
   }
   rhs_.push_back(b);
@@ -49,9 +49,9 @@ DenseLp::Id DenseLp::add_row(const double* a, double b) {
 void DenseLp::normal(Id id, double* a, double& b) const {
   const int n = columns();
   if (is_row(id)) {
-    const double* row = a_.data() + static_cast<std::size_t>(id) * static_cast<std::size_t>(n);
-    std::copy(row, row + n, a);
-    b = rhs_[static_cast<std::size_t>(id)];
+    const auto i = static_cast<std::size_t>(id);
+    for (int k = 0; k < n; ++k) a[k] = a_[k][i];
+    b = rhs_[i];
     return;
   }
   std::fill(a, a + n, 0.0);
@@ -103,7 +103,7 @@ bool DenseLp::set_basis(const Id* basis) {
   return (lambda_.array() >= -options_.dual_tolerance).all();
 }
 
-bool DenseLp::entering(bool bland, Id& q) const {
+bool DenseLp::entering(bool bland, Id& q) {
   const int n = columns();
   const double tolerance = options_.feasibility_tolerance;
   double best = 0.0;
@@ -137,16 +137,21 @@ bool DenseLp::entering(bool bland, Id& q) const {
   // Under Bland's rule the bounds (which come first in its order) are chosen before any row,
   // and among rows the first violated one.
   if (bland && found) return true;
+  // The rows' violations a_i.x - b_i, column by column (contiguous, vectorisable).
   const std::size_t m = rows();
-  const double* row = a_.data();
-  for (std::size_t i = 0; i < m; ++i, row += n) {
-    if (in_basis_[i]) continue;
-    double v = -rhs_[i];
-    for (int k = 0; k < n; ++k) v += row[k] * x_(k);
-    if (v > tolerance) {
-      consider(static_cast<Id>(i), v * inv_norm_[i]);
-      if (bland) return true;
-    }
+  violation_.resize(m);
+  double* v = violation_.data();
+  const double* b = rhs_.data();
+  for (std::size_t i = 0; i < m; ++i) v[i] = -b[i];
+  for (int k = 0; k < n; ++k) {
+    const double xk = x_(k);
+    const double* column = a_[k].data();
+    for (std::size_t i = 0; i < m; ++i) v[i] += column[i] * xk;
+  }
+  for (std::size_t i = 0; i < m; ++i) {
+    if (!(v[i] > tolerance) || in_basis_[i]) continue;
+    consider(static_cast<Id>(i), v[i] * inv_norm_[i]);
+    if (bland) return true;
   }
   return found;
 }

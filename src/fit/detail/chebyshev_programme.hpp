@@ -128,6 +128,14 @@ class ZoneProgramme {
   std::vector<Constraint> binding_;                  // binding rows of the previous solve
   std::vector<double> multipliers_;                  // and their multipliers
   DenseLp dense_;                                    // its storage is reused between solves
+  /// The last dense optimum's basis (a row by its point and side, or a bound of a column): the
+  /// next programme, at a nearby element, starts from it when it is still dual feasible.
+  struct BasisEntry {
+    bool row = false;
+    Constraint constraint{0, Side::upper};
+    DenseLp::Id bound = 0;
+  };
+  std::vector<BasisEntry> dense_basis_;
   int fallbacks_ = 0;
 };
 

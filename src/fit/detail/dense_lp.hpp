@@ -100,12 +100,13 @@ class DenseLp {
   /// Normal and right-hand side of a constraint.
   void normal(Id id, double* a, double& b) const;
   /// Most violated constraint not in the basis (Bland: the least violated index); false if none.
-  bool entering(bool bland, Id& q) const;
+  bool entering(bool bland, Id& q);
 
   Options options_;
   Vector cost_, lower_, upper_, x_, lambda_;
-  std::vector<double> a_;          // rows, row-major, columns() per row
+  std::vector<double> a_[max_columns];  // the rows' coefficients, column by column
   std::vector<double> rhs_;        // b_i
+  std::vector<double> violation_;  // a_i.x - b_i, scratch of entering()
   std::vector<double> inv_norm_;   // 1 / |a_i|
   std::vector<unsigned char> in_basis_;  // per row
   Id basis_[max_columns] = {};
