@@ -54,11 +54,13 @@ void ZoneProgramme::initial_rows(const Eigen::VectorXd& d, const std::vector<Eig
     }
   };
   if (cand.size() <= options_.full_set_limit) {
+    rows.reserve(rows.size() + cand.size());
     for (Eigen::Index i : cand) take(i);
     return;
   }
   // The points nearest the bound ...
   const std::size_t k = std::min(options_.working_points_per_side, cand.size());
+  rows.reserve(rows.size() + 2 * k + 1 + binding_.size());
   std::vector<Eigen::Index> order(cand);
   auto more_extreme = [&](Eigen::Index a, Eigen::Index b) {
     return side == Side::upper ? d(a) > d(b) : d(a) < d(b);
@@ -361,6 +363,7 @@ bool ZoneProgramme::solve_dense(const Eigen::VectorXd& d, const Eigen::MatrixXd&
   if (upper_col_ >= 0) cost(upper_col_) = 1.0;   // min R' (- r')
   if (lower_col_ >= 0) cost(lower_col_) = -1.0;  // max r'
   dense_.reset(cost, lower, upper);
+  dense_.reserve(rows.size());
 
   // The first basis: the most extreme row of each side present, and the balancing box bounds.
   DenseLp::Id basis[DenseLp::max_columns];

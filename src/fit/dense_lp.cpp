@@ -33,6 +33,13 @@ void DenseLp::reset(const Vector& cost, const Vector& lower, const Vector& upper
   iterations_ = 0;
 }
 
+void DenseLp::reserve(std::size_t rows) {
+  for (int k = 0; k < columns(); ++k) a_[k].reserve(rows);
+  rhs_.reserve(rows);
+  inv_norm_.reserve(rows);
+  in_basis_.reserve(rows);
+}
+
 DenseLp::Id DenseLp::add_row(const double* a, double b) {
   const int n = columns();
   double norm2 = 0.0;
@@ -100,7 +107,9 @@ bool DenseLp::set_basis(const Id* basis) {
     if (is_row(id)) in_basis_[static_cast<std::size_t>(id)] = 1;
   }
   if (!refresh()) return false;
-  return (lambda_.array() >= -options_.dual_tolerance).all();
+  // A start must be dual feasible to rounding: a multiplier clearly below 0 would stay there
+  // wherever its w_j stays <= 0 (only the ratio test keeps lambda >= 0).
+  return (lambda_.array() >= -options_.start_tolerance).all();
 }
 
 bool DenseLp::entering(bool bland, Id& q) {
@@ -182,10 +191,12 @@ DenseLp::Status DenseLp::solve() {
     for (int j = 0; j < n; ++j)
       if (w(j) > pivot) least = std::min(least, std::max(lambda_(j), 0.0) / w(j));
     if (!(least < infinity)) return Status::failed;  // dual unbounded: the rows are infeasible
+    // Only exact ties: a leaving constraint of a larger ratio would drive the least one's
+    // multiplier negative (by the difference times its w), and the basis would stop being dual
+    // feasible. Exact ties are the degenerate case (several lambda_j = 0).
     int leave = -1;
-    const double tie = least + 1e-12 * (1.0 + least);
     for (int j = 0; j < n; ++j) {
-      if (!(w(j) > pivot) || std::max(lambda_(j), 0.0) / w(j) > tie) continue;
+      if (!(w(j) > pivot) || std::max(lambda_(j), 0.0) / w(j) > least) continue;
       if (leave < 0) {
         leave = j;
       } else if (bland ? rank_of(basis_[j], n) < rank_of(basis_[leave], n)

@@ -60,8 +60,10 @@ class DenseLp {
     double feasibility_tolerance = 1e-10;
     /// Ratio-test entries w_j at or below this are not pivots.
     double pivot_tolerance = 1e-9;
-    /// Multipliers below -this make a start (or a result) dual infeasible.
+    /// Multipliers below -this make a result dual infeasible (a failure) ...
     double dual_tolerance = 1e-9;
+    /// ... and below -this a start (set_basis): rounding only.
+    double start_tolerance = 1e-13;
     /// Zero-length steps in a row before Bland's rule takes over.
     int stall_limit = 8;
     /// Iterations per solve(); 0: 50 + 4 x (rows + 2 x columns).
@@ -74,6 +76,8 @@ class DenseLp {
   /// Starts a new programme of cost.size() <= max_columns columns with the given bounds (may
   /// be infinite) and no rows; keeps the row storage's capacity.
   void reset(const Vector& cost, const Vector& lower, const Vector& upper);
+  /// Room for this many rows in all (no allocation while adding up to them).
+  void reserve(std::size_t rows);
   /// Appends the row a.x <= b (a: columns() coefficients) and returns its index.
   Id add_row(const double* a, double b);
   int columns() const noexcept { return static_cast<int>(cost_.size()); }
