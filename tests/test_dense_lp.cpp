@@ -22,10 +22,8 @@
 #include <vector>
 
 #include "case_file.hpp"
-#include "cylzone/fit/fit_circle.hpp"
 #include "cylzone/fit/fit_cylinder.hpp"
-#include "cylzone/fit/fit_line.hpp"
-#include "cylzone/fit/fit_plane.hpp"
+#include "cylzone/fit/fit_element.hpp"
 #include "fit/detail/chebyshev_programme.hpp"
 #include "fit/detail/dense_lp.hpp"
 #include "reference_data.hpp"
@@ -168,12 +166,6 @@ bool unique_vertex(const Programme& prog, const Solved& s) {
 }
 
 // ------------------------------------------------------------------ fits
-
-struct FitPair {
-  double clp_radius, dense_radius, clp_form, dense_form, axis_gap;
-  int fallbacks;
-  std::string message;
-};
 
 /// Largest distance between two axes at the ends [t0, t1] of the extent (from a's point).
 double axis_gap(const Axis& a, const Axis& b, double t0, double t1) {
@@ -344,45 +336,40 @@ TEST_CASE("Chebyshev fits give the same figures with the dense solver as with Cl
   // Reference data with known elements (null-space sets, Forbes & Minh 2012), noisy sets where
   // the Chebyshev element moves away from the least-squares start, and a 3,000-point bore that
   // needs constraint generation. Widths and radii agree with the Clp path to 1e-12 mm, axes to
-  // 1e-10 mm at the ends, and the dense solver never needs its fall-back here.
+  // 1e-10 mm at the ends (centres, for circles), normals to 1e-12 rad, and the dense solver
+  // never needs its fall-back here.
   FitOptions clp_options, dense_options;
   dense_options.lp_solver = LpSolver::dense;
-  const FitMethod methods[] = {FitMethod::minimum_zone, FitMethod::maximum_inscribed,
-                               FitMethod::minimum_circumscribed};
-  auto check_cylinders = [&](const Eigen::Matrix3Xd& points, const FitOptions& base) {
+  // Every Chebyshev method of the element, through the run-time dispatch, with either solver.
+  auto check_same = [&](Element element, const Eigen::Matrix3Xd& points, const FitOptions& base) {
+    std::vector<FitMethod> methods = {FitMethod::minimum_zone};
+    if (element == Element::circle || element == Element::cylinder)
+      methods = {FitMethod::minimum_zone, FitMethod::maximum_inscribed,
+                 FitMethod::minimum_circumscribed};
     for (FitMethod method : methods) {
       FitOptions a = base, b = base;
       a.lp_solver = LpSolver::clp;
       b.lp_solver = LpSolver::dense;
-      auto fit = [&](const FitOptions& o) {
-        return method == FitMethod::minimum_zone       ? fit_cylinder_minimum_zone(points, o)
-               : method == FitMethod::maximum_inscribed ? fit_cylinder_maximum_inscribed(points, o)
-                                                        : fit_cylinder_minimum_circumscribed(points, o);
-      };
-      const CylinderFit x = fit(a), y = fit(b);
-      INFO(method_name(method) << ": " << x.summary.message << " / " << y.summary.message);
-      CHECK(std::abs(x.radius - y.radius) <= 1e-12);
+      const ElementFit x = fit_element(element, method, points, {}, a);
+      const ElementFit y = fit_element(element, method, points, {}, b);
+      INFO(element_name(element) << " " << method_name(method) << ": " << x.summary.message
+                                 << " / " << y.summary.message);
       CHECK(std::abs(x.residuals.form - y.residuals.form) <= 1e-12);
-      CHECK(axis_gap(x.axis, y.axis, x.extent_min, x.extent_max) <= 1e-10);
-      CHECK(x.ambiguity == Approx(y.ambiguity).margin(1e-12));
+      if (x.radius) CHECK(std::abs(*x.radius - *y.radius) <= 1e-12);
+      if (x.axis)
+        CHECK(axis_gap(*x.axis, *y.axis, x.extent_min.value_or(0.0), x.extent_max.value_or(0.0)) <=
+              1e-10);
+      if (x.normal) CHECK(x.normal->cross(*y.normal).norm() <= 1e-12);  // radians
+      if (x.ambiguity) CHECK(*x.ambiguity == Approx(*y.ambiguity).margin(1e-12));
       CHECK(y.summary.lp_fallbacks == 0);
       CHECK(y.summary.status == FitStatus::converged);
     }
   };
+  auto check_cylinders = [&](const Eigen::Matrix3Xd& points, const FitOptions& base) {
+    check_same(Element::cylinder, points, base);
+  };
   auto check_circles = [&](const Eigen::Matrix3Xd& points) {
-    for (FitMethod method : methods) {
-      auto fit = [&](const FitOptions& o) {
-        return method == FitMethod::minimum_zone       ? fit_circle_minimum_zone(points, o)
-               : method == FitMethod::maximum_inscribed ? fit_circle_maximum_inscribed(points, o)
-                                                        : fit_circle_minimum_circumscribed(points, o);
-      };
-      const CircleFit x = fit(clp_options), y = fit(dense_options);
-      INFO(method_name(method) << ": " << x.summary.message << " / " << y.summary.message);
-      CHECK(std::abs(x.radius - y.radius) <= 1e-12);
-      CHECK(std::abs(x.residuals.form - y.residuals.form) <= 1e-12);
-      CHECK((x.centre - y.centre).norm() <= 1e-10);
-      CHECK(y.summary.lp_fallbacks == 0);
-    }
+    check_same(Element::circle, points, clp_options);
   };
 
   SECTION("three-lobed cylinder: the known element (Forbes & Minh 2012)") {
@@ -429,17 +416,11 @@ TEST_CASE("Chebyshev fits give the same figures with the dense solver as with Cl
   SECTION("flatness and straightness") {
     const Eigen::Vector3d point(4.0, -3.0, 12.0);
     const Eigen::Vector3d normal = direction_from_angles(20.0, 200.0);
-    const Eigen::Matrix3Xd plane = make_plane_reference(point, normal, 60.0, 40.0, 500, 0.01, 17).points;
-    const PlaneFit px = fit_plane_minimum_zone(plane, clp_options);
-    const PlaneFit py = fit_plane_minimum_zone(plane, dense_options);
-    CHECK(std::abs(px.residuals.form - py.residuals.form) <= 1e-12);
-    CHECK(py.summary.lp_fallbacks == 0);
+    check_same(Element::plane, make_plane_reference(point, normal, 60.0, 40.0, 500, 0.01, 17).points,
+               clp_options);
     const Axis line_axis{{-5.0, 2.0, 7.0}, direction_from_angles(60.0, 15.0)};
-    const Eigen::Matrix3Xd line = make_line_reference(line_axis, 0.0, 80.0, 300, 0.005, 23).points;
-    const LineFit lx = fit_line_minimum_zone(line, clp_options);
-    const LineFit ly = fit_line_minimum_zone(line, dense_options);
-    CHECK(std::abs(lx.residuals.form - ly.residuals.form) <= 1e-12);
-    CHECK(ly.summary.lp_fallbacks == 0);
+    check_same(Element::line, make_line_reference(line_axis, 0.0, 80.0, 300, 0.005, 23).points,
+               clp_options);
   }
 }
 
