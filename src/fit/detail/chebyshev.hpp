@@ -10,7 +10,8 @@
 //   minimum zone            min R - r  s.t.  r <= d_i + g_i.x <= R
 //   maximum inscribed       max r      s.t.  d_i + g_i.x >= r
 //   minimum circumscribed   min R      s.t.  d_i + g_i.x <= R
-// inside a box trust region |x_k| <= Delta with COIN-OR Clp, accepts or rejects the step on
+// inside a box trust region |x_k| <= Delta with COIN-OR Clp (or, where ZoneOptions::lp_solver
+// asks, the dense dual simplex of fit/detail/dense_lp.hpp), accepts or rejects the step on
 // the true (nonlinear) objective, adapts Delta and re-linearises at the new element. Because
 // the linearisation is exact to first order at x = 0, a point where the linear programme
 // predicts no improvement is a first-order Chebyshev optimum of the orthogonal distances
