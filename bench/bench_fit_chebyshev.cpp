@@ -19,7 +19,12 @@
 // minimum zone is flat across the plane of the bend, so that the tie-break settles it (line
 // "minimum-zone/bent").
 //
-//   bench_fit_chebyshev [--sizes 1000,10000,...] [--runs N]
+// Each Chebyshev line is printed once per linear-programme solver (column "lp": Clp, the
+// default, and the dense dual simplex, FitOptions::lp_solver; docs/chebyshev.md, "Solvers");
+// `--solver clp` or `--solver dense` prints one, `--lean` turns the uniqueness assessment off as
+// the Monte Carlo trials do.
+//
+//   bench_fit_chebyshev [--sizes 1000,10000,...] [--runs N] [--solver clp|dense|both] [--lean]
 #include <Eigen/Geometry>
 #include <algorithm>
 #include <chrono>
@@ -113,6 +118,8 @@ double median(std::vector<double> v) {
 int main(int argc, char** argv) {
   std::vector<Eigen::Index> sizes = {1000, 10000, 100000};
   int runs = 5;
+  std::vector<cylzone::LpSolver> solvers = {cylzone::LpSolver::clp, cylzone::LpSolver::dense};
+  bool lean = false;
   for (int i = 1; i < argc; ++i) {
     if (!std::strcmp(argv[i], "--sizes") && i + 1 < argc) {
       sizes.clear();
@@ -120,56 +127,82 @@ int main(int argc, char** argv) {
         sizes.push_back(std::atol(s));
     } else if (!std::strcmp(argv[i], "--runs") && i + 1 < argc) {
       runs = std::max(1, std::atoi(argv[++i]));
+    } else if (!std::strcmp(argv[i], "--solver") && i + 1 < argc) {
+      const std::string which = argv[++i];
+      if (which == "clp") solvers = {cylzone::LpSolver::clp};
+      else if (which == "dense") solvers = {cylzone::LpSolver::dense};
+    } else if (!std::strcmp(argv[i], "--lean")) {
+      lean = true;
     } else {
-      std::fprintf(stderr, "usage: bench_fit_chebyshev [--sizes N,N,...] [--runs N]\n");
+      std::fprintf(stderr,
+                   "usage: bench_fit_chebyshev [--sizes N,N,...] [--runs N] "
+                   "[--solver clp|dense|both] [--lean]\n");
       return 2;
     }
   }
 
-  using Fit = std::function<cylzone::CylinderFit(const Eigen::Matrix3Xd&)>;
-  const Fit inscribed = [](const Eigen::Matrix3Xd& p) {
-    return cylzone::fit_cylinder_maximum_inscribed(p);
+  using Fit = std::function<cylzone::CylinderFit(const Eigen::Matrix3Xd&, const cylzone::FitOptions&)>;
+  const Fit inscribed = [](const Eigen::Matrix3Xd& p, const cylzone::FitOptions& o) {
+    return cylzone::fit_cylinder_maximum_inscribed(p, o);
+  };
+  const Fit zone = [](const Eigen::Matrix3Xd& p, const cylzone::FitOptions& o) {
+    return cylzone::fit_cylinder_minimum_zone(p, o);
   };
   struct Method {
     const char* name;
     Fit fit;
     int bore;  // 0 the lobed bore, 1 with the rolling construction, 2 the bent bore
+    bool chebyshev;
   };
   const std::vector<Method> methods = {
-      {"least-squares", [](const Eigen::Matrix3Xd& p) { return cylzone::fit_cylinder_least_squares(p); }, 0},
-      {"minimum-zone", [](const Eigen::Matrix3Xd& p) { return cylzone::fit_cylinder_minimum_zone(p); }, 0},
-      {"max-inscribed", inscribed, 0},
+      {"least-squares",
+       [](const Eigen::Matrix3Xd& p, const cylzone::FitOptions& o) {
+         return cylzone::fit_cylinder_least_squares(p, o);
+       },
+       0, false},
+      {"minimum-zone", zone, 0, true},
+      {"max-inscribed", inscribed, 0, true},
       {"min-circumscribed",
-       [](const Eigen::Matrix3Xd& p) { return cylzone::fit_cylinder_minimum_circumscribed(p); }, 0},
-      {"max-inscribed/roll", inscribed, 1},
-      {"max-inscribed/bent", inscribed, 2},
-      {"minimum-zone/bent", [](const Eigen::Matrix3Xd& p) { return cylzone::fit_cylinder_minimum_zone(p); }, 2},
+       [](const Eigen::Matrix3Xd& p, const cylzone::FitOptions& o) {
+         return cylzone::fit_cylinder_minimum_circumscribed(p, o);
+       },
+       0, true},
+      {"max-inscribed/roll", inscribed, 1, true},
+      {"max-inscribed/bent", inscribed, 2, true},
+      {"minimum-zone/bent", zone, 2, true},
   };
 
-  std::printf("%9s  %-18s %10s %10s %10s %5s %10s  %s\n", "points", "method", "best ms",
+  std::printf("%9s  %-18s %-5s %10s %10s %10s %5s %10s  %s\n", "points", "method", "lp", "best ms",
               "median ms", "cpu ms", "iter", "amb mm", "form mm / message");
   for (Eigen::Index n : sizes) {
     const Eigen::Matrix3Xd lobed = make_lobed_bore(n, 42);
     const Eigen::Matrix3Xd rolling = make_rolling_bore(n, 42);
     const Eigen::Matrix3Xd bent = make_bent_bore(n);
-    for (const auto& [name, fit, bore] : methods) {
-      const Eigen::Matrix3Xd& points = bore == 2 ? bent : bore == 1 ? rolling : lobed;
-      std::vector<double> wall;
-      cylzone::CylinderFit last;
-      const double cpu0 = process_cpu_ms();
-      for (int r = 0; r < runs; ++r) {
-        const auto t0 = std::chrono::steady_clock::now();
-        last = fit(points);
-        wall.push_back(std::chrono::duration<double, std::milli>(
-                           std::chrono::steady_clock::now() - t0)
-                           .count());
+    for (const auto& [name, fit, bore, chebyshev] : methods)
+      for (const cylzone::LpSolver solver : solvers) {
+        if (!chebyshev && solver != solvers.front()) continue;  // least squares has no LP
+        const Eigen::Matrix3Xd& points = bore == 2 ? bent : bore == 1 ? rolling : lobed;
+        cylzone::FitOptions options;
+        options.lp_solver = solver;
+        options.assess_ambiguity = !lean;
+        std::vector<double> wall;
+        cylzone::CylinderFit last;
+        const double cpu0 = process_cpu_ms();
+        for (int r = 0; r < runs; ++r) {
+          const auto t0 = std::chrono::steady_clock::now();
+          last = fit(points, options);
+          wall.push_back(std::chrono::duration<double, std::milli>(
+                             std::chrono::steady_clock::now() - t0)
+                             .count());
+        }
+        const double cpu = (process_cpu_ms() - cpu0) / runs;
+        std::printf("%9ld  %-18s %-5s %10.3f %10.3f %10.3f %5d %10.6f  %.9f / %s\n",
+                    static_cast<long>(n), name,
+                    !chebyshev ? "-" : solver == cylzone::LpSolver::dense ? "dense" : "clp",
+                    *std::min_element(wall.begin(), wall.end()), median(wall), cpu,
+                    last.summary.iterations, last.ambiguity, last.residuals.form,
+                    last.summary.message.c_str());
       }
-      const double cpu = (process_cpu_ms() - cpu0) / runs;
-      std::printf("%9ld  %-18s %10.2f %10.2f %10.2f %5d %10.6f  %.6f / %s\n", static_cast<long>(n),
-                  name, *std::min_element(wall.begin(), wall.end()), median(wall), cpu,
-                  last.summary.iterations, last.ambiguity, last.residuals.form,
-                  last.summary.message.c_str());
-    }
   }
   return 0;
 }

@@ -160,6 +160,9 @@ TEST_CASE("three-lobed circle: minimum zone, inscribed and circumscribed are kno
        Axis{{1500.0, -2300.0, 800.0}, direction_from_angles(80.0, -20.0)}},
   };
   const double r = 12.5, eps = 0.004;
+  // Either solver of the linear programmes (docs/chebyshev.md, "Solvers").
+  FitOptions options;
+  options.lp_solver = GENERATE(LpSolver::clp, LpSolver::dense);
   for (const Case& c : cases) {
     SECTION(c.name) {
       const ReferenceSet lobed = make_lobed_cylinder(c.axis, r, 0.0, 0.0, 1, 36, eps, 10.0);
@@ -169,7 +172,7 @@ TEST_CASE("three-lobed circle: minimum zone, inscribed and circumscribed are kno
       // The start is genuinely displaced, so each fit has to move.
       REQUIRE((ls.centre - c.axis.point).norm() > 1e-4);
 
-      const CircleFit mz = fit_circle_minimum_zone(points);
+      const CircleFit mz = fit_circle_minimum_zone(points, options);
       CHECK(mz.summary.method == FitMethod::minimum_zone);
       CHECK(mz.summary.status == FitStatus::converged);
       CHECK(mz.residuals.form == Approx(2.0 * eps).margin(agreement));
@@ -178,13 +181,13 @@ TEST_CASE("three-lobed circle: minimum zone, inscribed and circumscribed are kno
       CHECK(sine_between(mz.normal, c.axis.direction) < 1e-12);
       CHECK(mz.covariance.matrix.size() == 0);
 
-      const CircleFit mi = fit_circle_maximum_inscribed(points);
+      const CircleFit mi = fit_circle_maximum_inscribed(points, options);
       CHECK(mi.summary.method == FitMethod::maximum_inscribed);
       CHECK(mi.radius == Approx(r - eps).margin(agreement));
       CHECK((mi.centre - c.axis.point).norm() < agreement);
       CHECK(mi.residuals.values.minCoeff() == Approx(0.0).margin(1e-12));
 
-      const CircleFit mc = fit_circle_minimum_circumscribed(points);
+      const CircleFit mc = fit_circle_minimum_circumscribed(points, options);
       CHECK(mc.summary.method == FitMethod::minimum_circumscribed);
       CHECK(mc.radius == Approx(r + eps).margin(agreement));
       CHECK((mc.centre - c.axis.point).norm() < agreement);
@@ -328,6 +331,9 @@ TEST_CASE("three-lobed cylinder: cylindricity and both mating envelopes are know
        Axis{{-1200.0, 2600.0, 1750.0}, direction_from_angles(90.0, 45.0)}},
   };
   const double r = 6.0, eps = 0.003, t0 = -15.0, t1 = 25.0;
+  // Either solver of the linear programmes (docs/chebyshev.md, "Solvers").
+  FitOptions options;
+  options.lp_solver = GENERATE(LpSolver::clp, LpSolver::dense);
   for (const Case& c : cases) {
     SECTION(c.name) {
       const ReferenceSet lobed = make_lobed_cylinder(c.axis, r, t0, t1, 7, 24, eps, 5.0);
@@ -338,7 +344,7 @@ TEST_CASE("three-lobed cylinder: cylindricity and both mating envelopes are know
       const CylinderFit ls = fit_cylinder_least_squares(points);
       REQUIRE(axis_separation(ls.axis, c.axis, t0, t1) > 1e-4);
 
-      const CylinderFit mz = fit_cylinder_minimum_zone(points);
+      const CylinderFit mz = fit_cylinder_minimum_zone(points, options);
       CHECK(mz.summary.method == FitMethod::minimum_zone);
       CHECK(mz.summary.status == FitStatus::converged);
       CHECK(mz.residuals.form == Approx(2.0 * eps).margin(agreement));
@@ -346,12 +352,12 @@ TEST_CASE("three-lobed cylinder: cylindricity and both mating envelopes are know
       CHECK(axis_separation(mz.axis, c.axis, t0, t1) < agreement);
       CHECK(mz.covariance.matrix.size() == 0);
 
-      const CylinderFit mi = fit_cylinder_maximum_inscribed(points);
+      const CylinderFit mi = fit_cylinder_maximum_inscribed(points, options);
       CHECK(mi.summary.status == FitStatus::converged);
       CHECK(mi.radius == Approx(r - eps).margin(agreement));
       CHECK(axis_separation(mi.axis, c.axis, t0, t1) < agreement);
 
-      const CylinderFit mc = fit_cylinder_minimum_circumscribed(points);
+      const CylinderFit mc = fit_cylinder_minimum_circumscribed(points, options);
       CHECK(mc.summary.status == FitStatus::converged);
       CHECK(mc.radius == Approx(r + eps).margin(agreement));
       CHECK(axis_separation(mc.axis, c.axis, t0, t1) < agreement);
@@ -512,10 +518,13 @@ TEST_CASE("constraint generation returns the optimum of the full linear programm
   const double scale = (noisy.points.colwise() - centroid).colwise().norm().maxCoeff();
   const Axis start{axis.point + Eigen::Vector3d(0.01, -0.02, 0.0),
                    (axis.direction + Eigen::Vector3d(0.001, 0.0, -0.0005)).normalized()};
+  // Either solver of the linear programmes (docs/chebyshev.md, "Solvers").
+  const LpSolver solver = GENERATE(LpSolver::clp, LpSolver::dense);
   for (auto objective : {detail::ZoneObjective::minimum_zone,
                          detail::ZoneObjective::maximum_inscribed,
                          detail::ZoneObjective::minimum_circumscribed}) {
     detail::ZoneOptions options;
+    options.lp_solver = solver;
     options.scale = scale;
     options.initial_trust_radius = 0.02;
     options.location_limit = scale;

@@ -352,9 +352,10 @@ void explore_optima(ZoneModel& model, ZoneObjective objective, const ZoneOptions
     ++descents;
     Stationary next{from.subset(all), {}, ZoneProgramme(objective, options, n, p), false};
     next.model->move(step);
-    if (descend(*next.model, objective, options, next.programme, next.d, summary,
-                summary.ambiguity_programmes, next.polished) == ZoneStatus::converged)
-      pending.push_back(std::move(next));
+    const ZoneStatus status = descend(*next.model, objective, options, next.programme, next.d,
+                                      summary, summary.ambiguity_programmes, next.polished);
+    summary.lp_fallbacks += next.programme.fallbacks();
+    if (status == ZoneStatus::converged) pending.push_back(std::move(next));
   };
   try {
     while (!pending.empty()) {
@@ -542,6 +543,13 @@ void explore_optima(ZoneModel& model, ZoneObjective objective, const ZoneOptions
   }
 }
 
+/// "; 2 linear programmes solved by Clp after the dense solver failed", or nothing.
+std::string fallback_note(int fallbacks) {
+  if (fallbacks == 0) return "";
+  return "; " + std::to_string(fallbacks) + " linear programme" + (fallbacks == 1 ? "" : "s") +
+         " solved by Clp after the dense solver failed";
+}
+
 }  // namespace
 
 ZoneSummary solve_zone(ZoneModel& model, ZoneObjective objective, const ZoneOptions& options) {
@@ -553,6 +561,7 @@ ZoneSummary solve_zone(ZoneModel& model, ZoneObjective objective, const ZoneOpti
       descend(model, objective, options, programme, d, summary, summary.iterations, polished);
   if (summary.status == ZoneStatus::converged && options.assess_ambiguity)
     explore_optima(model, objective, options, programme, d, summary, polished);
+  summary.lp_fallbacks += programme.fallbacks();
   // The polish may have run earlier, but the message reports how the final element was found.
 
   summary.distances = std::move(d);
@@ -582,6 +591,7 @@ ZoneSummary solve_zone(ZoneModel& model, ZoneObjective objective, const ZoneOpti
       summary.message = "unbounded after " + std::to_string(summary.iterations) + " iterations";
       break;
   }
+  summary.message += fallback_note(summary.lp_fallbacks);
   return summary;
 }
 
@@ -591,6 +601,7 @@ ZoneOptions zone_options(const FitOptions& options, double scale, double start_f
   z.step_tolerance = options.step_tolerance;
   z.scale = scale;
   z.assess_ambiguity = options.assess_ambiguity;
+  z.lp_solver = options.lp_solver;
   // The Chebyshev element lies within about the least-squares residual span of the start.
   z.initial_trust_radius = start_form > 0.0 ? start_form : 0.0;
   return z;
@@ -613,6 +624,7 @@ FitSummary zone_fit_summary(FitMethod method, const ZoneSummary& zone, std::size
   s.iterations = zone.iterations;
   s.point_count = point_count;
   s.message = zone.message;
+  s.lp_fallbacks = zone.lp_fallbacks;
   return s;
 }
 

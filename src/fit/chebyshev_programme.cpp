@@ -54,11 +54,13 @@ void ZoneProgramme::initial_rows(const Eigen::VectorXd& d, const std::vector<Eig
     }
   };
   if (cand.size() <= options_.full_set_limit) {
+    rows.reserve(rows.size() + cand.size());
     for (Eigen::Index i : cand) take(i);
     return;
   }
   // The points nearest the bound ...
   const std::size_t k = std::min(options_.working_points_per_side, cand.size());
+  rows.reserve(rows.size() + 2 * k + 1 + binding_.size());
   std::vector<Eigen::Index> order(cand);
   auto more_extreme = [&](Eigen::Index a, Eigen::Index b) {
     return side == Side::upper ? d(a) > d(b) : d(a) < d(b);
@@ -234,44 +236,49 @@ void ZoneProgramme::load(ClpSimplex& lp, const RowBlock& block, double reach,
                  block.lower.data(), block.upper.data());
 }
 
+std::vector<Constraint> ZoneProgramme::violated_rows(const double* x, const Eigen::VectorXd& d,
+                                                    const Eigen::MatrixXd& g, double u0,
+                                                    double l0, double delta) {
+  constexpr double violation_tolerance = 1e-9;  // in units of Delta, above the solvers' tolerance
+  const std::size_t max_added = std::max<std::size_t>(64, 2 * options_.working_points_per_side);
+  Eigen::VectorXd y(p_), moved(n_);
+  std::vector<std::pair<double, Constraint>> violated;
+  for (int k = 0; k < p_; ++k) y(k) = x[k];
+  moved.noalias() = g * y;
+  for (Eigen::Index i = 0; i < n_; ++i) {
+    const auto s = static_cast<std::size_t>(i);
+    if (upper_col_ >= 0 && !in_upper_[s]) {
+      const double excess = (d(i) - u0) / delta + moved(i) - x[upper_col_];
+      if (excess > violation_tolerance) violated.push_back({excess, {i, Side::upper}});
+    }
+    if (lower_col_ >= 0 && !in_lower_[s]) {
+      const double excess = x[lower_col_] - ((d(i) - l0) / delta + moved(i));
+      if (excess > violation_tolerance) violated.push_back({excess, {i, Side::lower}});
+    }
+  }
+  const std::size_t take = std::min(max_added, violated.size());
+  std::partial_sort(violated.begin(), violated.begin() + static_cast<std::ptrdiff_t>(take),
+                    violated.end(), [](const auto& a, const auto& b) { return a.first > b.first; });
+  std::vector<Constraint> added;
+  added.reserve(take);
+  for (std::size_t j = 0; j < take; ++j) {
+    const Constraint& c = violated[j].second;
+    (c.side == Side::upper ? in_upper_ : in_lower_)[static_cast<std::size_t>(c.point)] = 1;
+    added.push_back(c);
+  }
+  return added;
+}
+
 // Constraint generation: check every point against the step, add the violated rows (worst
 // first) and re-solve from the previous basis with the dual simplex, until none is violated.
 // The relaxation's optimum is then feasible, hence optimal, for the full programme.
 void ZoneProgramme::add_violated_rows(ClpSimplex& lp, const Eigen::VectorXd& d,
                                       const Eigen::MatrixXd& g, double u0, double l0,
                                       double delta, std::vector<Constraint>& rows) {
-  constexpr double violation_tolerance = 1e-9;  // in units of Delta, above Clp's tolerance
-  const std::size_t max_added = std::max<std::size_t>(64, 2 * options_.working_points_per_side);
-  Eigen::VectorXd y(p_), moved(n_);
-  std::vector<std::pair<double, Constraint>> violated;
   for (;;) {
-    const double* x = lp.primalColumnSolution();
-    for (int k = 0; k < p_; ++k) y(k) = x[k];
-    moved.noalias() = g * y;
-    violated.clear();
-    for (Eigen::Index i = 0; i < n_; ++i) {
-      const auto s = static_cast<std::size_t>(i);
-      if (upper_col_ >= 0 && !in_upper_[s]) {
-        const double excess = (d(i) - u0) / delta + moved(i) - x[upper_col_];
-        if (excess > violation_tolerance) violated.push_back({excess, {i, Side::upper}});
-      }
-      if (lower_col_ >= 0 && !in_lower_[s]) {
-        const double excess = x[lower_col_] - ((d(i) - l0) / delta + moved(i));
-        if (excess > violation_tolerance) violated.push_back({excess, {i, Side::lower}});
-      }
-    }
-    if (violated.empty()) return;
-    const std::size_t take = std::min(max_added, violated.size());
-    std::partial_sort(violated.begin(), violated.begin() + static_cast<std::ptrdiff_t>(take),
-                      violated.end(),
-                      [](const auto& a, const auto& b) { return a.first > b.first; });
-    std::vector<Constraint> added;
-    added.reserve(take);
-    for (std::size_t j = 0; j < take; ++j) {
-      const Constraint& c = violated[j].second;
-      (c.side == Side::upper ? in_upper_ : in_lower_)[static_cast<std::size_t>(c.point)] = 1;
-      added.push_back(c);
-    }
+    const std::vector<Constraint> added =
+        violated_rows(lp.primalColumnSolution(), d, g, u0, l0, delta);
+    if (added.empty()) return;
     const RowBlock more = make_rows(d, g, u0, l0, delta, added);
     lp.addRows(more.count(), more.lower.data(), more.upper.data(), more.starts.data(),
                more.columns.data(), more.elements.data());
@@ -282,6 +289,16 @@ void ZoneProgramme::add_violated_rows(ClpSimplex& lp, const Eigen::VectorXd& d,
 
 LinearStep ZoneProgramme::solve(const Eigen::VectorXd& d, const Eigen::MatrixXd& g,
                                 double delta) {
+  if (options_.lp_solver == LpSolver::dense) {
+    LinearStep result;
+    if (solve_dense(d, g, delta, result)) return result;
+    ++fallbacks_;
+  }
+  return solve_clp(d, g, delta);
+}
+
+LinearStep ZoneProgramme::solve_clp(const Eigen::VectorXd& d, const Eigen::MatrixXd& g,
+                                    double delta) {
   const double u0 = d.maxCoeff(), l0 = d.minCoeff();
   const Eigen::VectorXd g_l1 = g.cwiseAbs().rowwise().sum();
   std::vector<Constraint> rows = first_rows(d, g_l1, delta);
@@ -305,6 +322,135 @@ LinearStep ZoneProgramme::solve(const Eigen::VectorXd& d, const Eigen::MatrixXd&
   result.predicted = std::max(0.0, -delta * lp.objectiveValue());
   result.rows = rows.size();
   return result;
+}
+
+void ZoneProgramme::add_dense_row(const Constraint& c, const Eigen::VectorXd& d,
+                                  const Eigen::MatrixXd& g, double u0, double l0, double delta) {
+  double a[DenseLp::max_columns] = {};
+  if (c.side == Side::upper) {  // g_i.y - R' <= -(d_i - U0)/Delta
+    for (int k = 0; k < p_; ++k) a[k] = g(c.point, k);
+    a[upper_col_] = -1.0;
+    dense_.add_row(a, -(d(c.point) - u0) / delta);
+  } else {  // g_i.y - r' >= -(d_i - L0)/Delta, i.e. -g_i.y + r' <= (d_i - L0)/Delta
+    for (int k = 0; k < p_; ++k) a[k] = -g(c.point, k);
+    a[lower_col_] = 1.0;
+    dense_.add_row(a, (d(c.point) - l0) / delta);
+  }
+}
+
+// The programme of solve_clp with the dense dual simplex: the same working set and constraint
+// generation, the same variables, bounds and costs, so the same optimum. The dual simplex needs
+// a dual-feasible first basis, and this programme has an obvious one: the extreme points' rows
+// (the top for R', the bottom for r', each with multiplier 1, as their columns' costs require)
+// and, for every step variable, the box bound on the side that balances those rows' gradients:
+// the multipliers are then 1 and |sum of the rows' g_k|, all non-negative.
+bool ZoneProgramme::solve_dense(const Eigen::VectorXd& d, const Eigen::MatrixXd& g, double delta,
+                                LinearStep& result) {
+  if (columns_ > DenseLp::max_columns) return false;
+  const double u0 = d.maxCoeff(), l0 = d.minCoeff();
+  const Eigen::VectorXd g_l1 = g.cwiseAbs().rowwise().sum();
+  std::vector<Constraint> rows = first_rows(d, g_l1, delta);
+  // As in load(): the bound columns' box is never active (twice the reach of the rows).
+  const double reach = 2.0 * g_l1.maxCoeff() + 1.0;
+  DenseLp::Vector cost = DenseLp::Vector::Zero(columns_);
+  DenseLp::Vector lower = DenseLp::Vector::Constant(columns_, -1.0);
+  DenseLp::Vector upper = DenseLp::Vector::Constant(columns_, 1.0);
+  for (int col : {upper_col_, lower_col_})
+    if (col >= 0) {
+      lower(col) = -reach;
+      upper(col) = reach;
+    }
+  if (upper_col_ >= 0) cost(upper_col_) = 1.0;   // min R' (- r')
+  if (lower_col_ >= 0) cost(lower_col_) = -1.0;  // max r'
+  dense_.reset(cost, lower, upper);
+  dense_.reserve(rows.size());
+
+  // The first basis: the most extreme row of each side present, and the balancing box bounds.
+  DenseLp::Id basis[DenseLp::max_columns];
+  int filled = 0;
+  Eigen::VectorXd balance = Eigen::VectorXd::Zero(p_);  // sum of the basis rows' y-normals
+  long top = -1, bottom = -1;
+  for (std::size_t r = 0; r < rows.size(); ++r) {
+    const Constraint& c = rows[r];
+    add_dense_row(c, d, g, u0, l0, delta);
+    if (c.side == Side::upper && (top < 0 || d(c.point) > d(rows[static_cast<std::size_t>(top)].point)))
+      top = static_cast<long>(r);
+    if (c.side == Side::lower &&
+        (bottom < 0 || d(c.point) < d(rows[static_cast<std::size_t>(bottom)].point)))
+      bottom = static_cast<long>(r);
+  }
+  if (upper_col_ >= 0) {
+    if (top < 0) return false;
+    basis[filled++] = top;
+    balance += g.row(rows[static_cast<std::size_t>(top)].point).transpose();
+  }
+  if (lower_col_ >= 0) {
+    if (bottom < 0) return false;
+    basis[filled++] = bottom;
+    balance -= g.row(rows[static_cast<std::size_t>(bottom)].point).transpose();
+  }
+  // Stationarity in y: balance_k + mu_k s_k = 0 with the bound s_k y_k <= 1, mu_k >= 0.
+  for (int k = 0; k < p_; ++k)
+    basis[filled++] = balance(k) > 0.0 ? DenseLp::lower_bound(k) : DenseLp::upper_bound(k);
+  // A warm start: the previous programme's optimal basis, where all its rows are present and its
+  // multipliers (which depend on the gradients only) are still non-negative. Consecutive
+  // programmes of a descent are at nearby elements and mostly share their contacts.
+  DenseLp::Id warm[DenseLp::max_columns];
+  bool warm_ok = static_cast<int>(dense_basis_.size()) == columns_;
+  for (int j = 0; warm_ok && j < columns_; ++j) {
+    const BasisEntry& e = dense_basis_[static_cast<std::size_t>(j)];
+    if (!e.row) {
+      warm[j] = e.bound;
+      continue;
+    }
+    const auto at = std::find_if(rows.begin(), rows.end(), [&](const Constraint& c) {
+      return c.point == e.constraint.point && c.side == e.constraint.side;
+    });
+    warm_ok = at != rows.end();
+    if (warm_ok) warm[j] = static_cast<DenseLp::Id>(at - rows.begin());
+  }
+  if (!(warm_ok && dense_.set_basis(warm)) && !dense_.set_basis(basis)) return false;
+  if (dense_.solve() != DenseLp::Status::optimal) return false;
+  // Constraint generation, resumed from the previous optimal basis.
+  for (;;) {
+    const std::vector<Constraint> added = violated_rows(dense_.x().data(), d, g, u0, l0, delta);
+    if (added.empty()) break;
+    for (const Constraint& c : added) add_dense_row(c, d, g, u0, l0, delta);
+    rows.insert(rows.end(), added.begin(), added.end());
+    if (dense_.solve() != DenseLp::Status::optimal) return false;
+  }
+  // As for Clp (run_simplex): the current element is feasible with objective 0, so an optimum
+  // above that is a failure, not a property of the data.
+  const double objective = dense_.objective();
+  if (!(objective <= 1e-9)) return false;
+
+  dense_basis_.clear();
+  for (int j = 0; j < columns_; ++j) {
+    const DenseLp::Id id = dense_.basis()[j];
+    BasisEntry e;
+    e.row = DenseLp::is_row(id);
+    if (e.row)
+      e.constraint = rows[static_cast<std::size_t>(id)];
+    else
+      e.bound = id;
+    dense_basis_.push_back(e);
+  }
+  // The basis rows are the binding ones (in row order, as Clp lists them).
+  std::vector<std::pair<DenseLp::Id, double>> active;
+  for (int j = 0; j < columns_; ++j)
+    if (DenseLp::is_row(dense_.basis()[j]))
+      active.push_back({dense_.basis()[j], std::max(0.0, dense_.multipliers()(j))});
+  std::sort(active.begin(), active.end());
+  binding_.clear();
+  multipliers_.clear();
+  for (const auto& [row, lambda] : active) {
+    binding_.push_back(rows[static_cast<std::size_t>(row)]);
+    multipliers_.push_back(lambda);
+  }
+  result.step = delta * Eigen::Map<const Eigen::VectorXd>(dense_.x().data(), p_);
+  result.predicted = std::max(0.0, -delta * objective);
+  result.rows = rows.size();
+  return true;
 }
 
 Eigen::VectorXd ZoneProgramme::farthest_step(const Eigen::VectorXd& d, const Eigen::MatrixXd& g,

@@ -505,6 +505,7 @@ MonteCarloSummary monte_carlo_uncertainty(const PartPlan& plan, const PartInputs
 
   EvaluationOptions lean = options.evaluation;
   lean.threads = 1;  // the trials run in parallel; one evaluation per thread
+  lean.bore.fit.lp_solver = LpSolver::dense;  // Chebyshev fits: no Clp set-up per programme
   const bool two_point = lean.profile.two_point_sizes;
   lean.profile = lean_profile();
   lean.profile.two_point_sizes = two_point;

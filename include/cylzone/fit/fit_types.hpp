@@ -58,6 +58,14 @@ enum class FitStatus {
   iteration_limit  ///< stopped at max_iterations; the element is the best found, not proven optimal
 };
 
+/// The solver of the Chebyshev fits' linear programmes (docs/chebyshev.md, "Solvers"). Both solve
+/// the same programmes to the same optimum; figures agree to rounding (1e-12 mm), not bit for bit.
+enum class LpSolver {
+  clp,   ///< COIN-OR Clp's dual simplex: the default, and the reference
+  dense  ///< a dense dual simplex for these small programmes, many times cheaper per programme;
+         ///< a programme it cannot solve is solved by Clp (FitSummary::lp_fallbacks)
+};
+
 struct FitOptions {
   int max_iterations = 100;
   /// Convergence when a parameter step is below this fraction of the data's size (its largest
@@ -83,6 +91,8 @@ struct FitOptions {
   bool assess_ambiguity = true;
   /// Threads a fit may run at once (core/threads.hpp); results do not depend on it.
   std::size_t threads = hardware_threads();
+  /// Chebyshev fits: the linear programmes' solver. Repeated trials (Monte Carlo) use `dense`.
+  LpSolver lp_solver = LpSolver::clp;
 };
 
 /// Ceres-style summary: what happened, in one line, plus warnings a user must see.
@@ -93,6 +103,9 @@ struct FitSummary {
   std::size_t point_count = 0;
   std::string message;                ///< one line, e.g. "converged in 6 iterations (start 2 of 4)"
   std::vector<std::string> warnings;  ///< e.g. "points cover only 84.0 degrees of arc"
+  /// Chebyshev fits with LpSolver::dense: linear programmes the dense solver reported it could
+  /// not solve, which Clp then solved (0 otherwise).
+  int lp_fallbacks = 0;
 };
 
 struct Residuals {

@@ -10,7 +10,8 @@
 //   minimum zone            min R - r  s.t.  r <= d_i + g_i.x <= R
 //   maximum inscribed       max r      s.t.  d_i + g_i.x >= r
 //   minimum circumscribed   min R      s.t.  d_i + g_i.x <= R
-// inside a box trust region |x_k| <= Delta with COIN-OR Clp, accepts or rejects the step on
+// inside a box trust region |x_k| <= Delta with COIN-OR Clp (or, where ZoneOptions::lp_solver
+// asks, the dense dual simplex of fit/detail/dense_lp.hpp), accepts or rejects the step on
 // the true (nonlinear) objective, adapts Delta and re-linearises at the new element. Because
 // the linearisation is exact to first order at x = 0, a point where the linear programme
 // predicts no improvement is a first-order Chebyshev optimum of the orthogonal distances
@@ -254,6 +255,11 @@ struct ZoneOptions {
   /// of squared residuals about a free offset (a radius; a plane's offset), or, off, of the
   /// distances themselves (a line: its points' distances from it).
   bool residuals_about_offset = true;
+  /// The solver of the descent's linear programmes (FitOptions::lp_solver); the ambiguity walks
+  /// always use Clp. With `dense`, a programme the dense solver fails on is solved by Clp.
+  LpSolver lp_solver = LpSolver::clp;
+  /// Iterations per dense programme; 0 picks 50 + 4 x its constraints (a guard, not a tuning).
+  int dense_iteration_limit = 0;
 };
 
 enum class ZoneStatus { converged, iteration_limit, unbounded };
@@ -280,6 +286,8 @@ struct ZoneSummary {
   /// The optimum was not proven unique and the element is the tie-break's choice in its
   /// near-optimal set (the least sum of squared residuals), not the descent's.
   bool tie_broken = false;
+  /// Linear programmes the dense solver failed on and Clp solved (ZoneOptions::lp_solver).
+  int lp_fallbacks = 0;
 };
 
 /// Runs the sequential linear programme from the model's current element; on return the model

@@ -1,13 +1,16 @@
 #pragma once
 // Private to the fit stage: the linear programme of one step of the Chebyshev engine
-// (fit/detail/chebyshev.hpp), solved with COIN-OR Clp. Only chebyshev_programme.cpp includes
-// Clp; the engine's driver and its uniqueness walks see this interface alone.
+// (fit/detail/chebyshev.hpp), solved with COIN-OR Clp or, when ZoneOptions::lp_solver asks, with
+// the dense dual simplex of fit/detail/dense_lp.hpp (Clp again where that one fails). Only
+// chebyshev_programme.cpp includes Clp; the engine's driver and its uniqueness walks see this
+// interface alone.
 
 #include <Eigen/Core>
 #include <cstddef>
 #include <vector>
 
 #include "fit/detail/chebyshev.hpp"
+#include "fit/detail/dense_lp.hpp"
 
 class ClpSimplex;
 
@@ -25,6 +28,12 @@ inline double true_objective(ZoneObjective o, const Eigen::VectorXd& d) {
     case ZoneObjective::minimum_circumscribed: return d.maxCoeff();
   }
   return 0.0;
+}
+
+inline DenseLp::Options dense_options(const ZoneOptions& options) {
+  DenseLp::Options dense;
+  dense.max_iterations = options.dense_iteration_limit;
+  return dense;
 }
 
 enum class Side { upper, lower };
@@ -52,7 +61,7 @@ struct RowBlock;
 class ZoneProgramme {
  public:
   ZoneProgramme(ZoneObjective objective, const ZoneOptions& options, Eigen::Index n, int p)
-      : objective_(objective), options_(options), n_(n), p_(p) {
+      : objective_(objective), options_(options), n_(n), p_(p), dense_(dense_options(options)) {
     int col = p_;
     if (uses_upper(objective_)) upper_col_ = col++;
     if (uses_lower(objective_)) lower_col_ = col++;
@@ -60,6 +69,10 @@ class ZoneProgramme {
   }
 
   LinearStep solve(const Eigen::VectorXd& d, const Eigen::MatrixXd& g, double delta);
+
+  /// Programmes solve() passed to Clp because the dense solver reported failure
+  /// (ZoneOptions::lp_solver == dense only).
+  int fallbacks() const noexcept { return fallbacks_; }
 
   /// Rows binding at the last solution, and their multipliers (|dual|; they sum to 1 per side).
   const std::vector<Constraint>& binding() const noexcept { return binding_; }
@@ -92,6 +105,19 @@ class ZoneProgramme {
   void add_violated_rows(ClpSimplex& lp, const Eigen::VectorXd& d, const Eigen::MatrixXd& g,
                          double u0, double l0, double delta, std::vector<Constraint>& rows);
   void run_simplex(ClpSimplex& lp) const;
+  LinearStep solve_clp(const Eigen::VectorXd& d, const Eigen::MatrixXd& g, double delta);
+  /// The same programme with the dense solver; false (binding rows untouched) if it failed.
+  bool solve_dense(const Eigen::VectorXd& d, const Eigen::MatrixXd& g, double delta,
+                   LinearStep& result);
+  /// Constraint generation's check: the rows outside the working set that the solution x
+  /// (y, then the bound columns) violates, worst first, at most a round's worth; they are
+  /// marked members of the working set.
+  std::vector<Constraint> violated_rows(const double* x, const Eigen::VectorXd& d,
+                                        const Eigen::MatrixXd& g, double u0, double l0,
+                                        double delta);
+  /// One row in the dense solver's form a.(y, R', r') <= b.
+  void add_dense_row(const Constraint& c, const Eigen::VectorXd& d, const Eigen::MatrixXd& g,
+                     double u0, double l0, double delta);
 
   ZoneObjective objective_;
   ZoneOptions options_;
@@ -101,6 +127,16 @@ class ZoneProgramme {
   std::vector<unsigned char> in_upper_, in_lower_;  // membership in the current working set
   std::vector<Constraint> binding_;                  // binding rows of the previous solve
   std::vector<double> multipliers_;                  // and their multipliers
+  DenseLp dense_;                                    // its storage is reused between solves
+  /// The last dense optimum's basis (a row by its point and side, or a bound of a column): the
+  /// next programme, at a nearby element, starts from it when it is still dual feasible.
+  struct BasisEntry {
+    bool row = false;
+    Constraint constraint{0, Side::upper};
+    DenseLp::Id bound = 0;
+  };
+  std::vector<BasisEntry> dense_basis_;
+  int fallbacks_ = 0;
 };
 
 }  // namespace cylzone::detail::zone_lp

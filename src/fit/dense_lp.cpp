@@ -1,0 +1,222 @@
+// The dense dual simplex for the Chebyshev engine's small programmes (fit/detail/dense_lp.hpp
+// states the method and its sources).
+#include "fit/detail/dense_lp.hpp"
+
+#include <Eigen/LU>
+#include <algorithm>
+#include <cmath>
+#include <limits>
+
+namespace cylzone::detail::zone_lp {
+
+namespace {
+
+constexpr double infinity = std::numeric_limits<double>::infinity();
+
+/// A fixed order of all constraints (bounds of column 0, 1, ..., then rows) for Bland's rule.
+long rank_of(DenseLp::Id id, int columns) {
+  return DenseLp::is_row(id) ? 2L * columns + id : -1 - id;
+}
+
+}  // namespace
+
+void DenseLp::reset(const Vector& cost, const Vector& lower, const Vector& upper) {
+  cost_ = cost;
+  lower_ = lower;
+  upper_ = upper;
+  x_.setZero(cost.size());
+  lambda_.setZero(cost.size());
+  for (std::vector<double>& column : a_) column.clear();
+  rhs_.clear();
+  inv_norm_.clear();
+  in_basis_.clear();
+  iterations_ = 0;
+}
+
+void DenseLp::reserve(std::size_t rows) {
+  for (int k = 0; k < columns(); ++k) a_[k].reserve(rows);
+  rhs_.reserve(rows);
+  inv_norm_.reserve(rows);
+  in_basis_.reserve(rows);
+}
+
+DenseLp::Id DenseLp::add_row(const double* a, double b) {
+  const int n = columns();
+  double norm2 = 0.0;
+  for (int k = 0; k < n; ++k) {
+    a_[k].push_back(a[k]);
+    norm2 += a[k] * a[k];
+  }
+  rhs_.push_back(b);
+  inv_norm_.push_back(norm2 > 0.0 ? 1.0 / std::sqrt(norm2) : 0.0);
+  in_basis_.push_back(0);
+  return static_cast<Id>(rhs_.size() - 1);
+}
+
+void DenseLp::normal(Id id, double* a, double& b) const {
+  const int n = columns();
+  if (is_row(id)) {
+    const auto i = static_cast<std::size_t>(id);
+    for (int k = 0; k < n; ++k) a[k] = a_[k][i];
+    b = rhs_[i];
+    return;
+  }
+  std::fill(a, a + n, 0.0);
+  const Id bound = -1 - id;  // 2k (upper) or 2k + 1 (lower)
+  const int k = static_cast<int>(bound / 2);
+  if (bound % 2 == 0) {  // x_k <= upper_k
+    a[k] = 1.0;
+    b = upper_(k);
+  } else {  // -x_k <= -lower_k
+    a[k] = -1.0;
+    b = -lower_(k);
+  }
+}
+
+bool DenseLp::refresh() {
+  const int n = columns();
+  Matrix basis(n, n);
+  Vector rhs(n);
+  double a[max_columns];
+  for (int j = 0; j < n; ++j) {
+    normal(basis_[j], a, rhs(j));
+    if (!std::isfinite(rhs(j))) return false;  // an infinite bound cannot be active
+    for (int k = 0; k < n; ++k) basis(j, k) = a[k];
+  }
+  const Eigen::FullPivLU<Matrix> lu(basis);
+  // Full pivoting puts the pivots on the diagonal in decreasing magnitude: the ratio of the last
+  // to the first bounds how nearly dependent the active normals are.
+  const double largest = std::abs(lu.matrixLU()(0, 0));
+  const double smallest = std::abs(lu.matrixLU()(n - 1, n - 1));
+  if (!(largest > 0.0) || !(smallest > 1e-12 * largest)) return false;
+  inverse_ = lu.inverse();
+  x_.noalias() = inverse_ * rhs;
+  lambda_.noalias() = -(inverse_.transpose() * cost_);
+  return x_.allFinite() && lambda_.allFinite();
+}
+
+bool DenseLp::set_basis(const Id* basis) {
+  const int n = columns();
+  std::fill(in_basis_.begin(), in_basis_.end(), 0);
+  for (int j = 0; j < n; ++j) {
+    const Id id = basis[j];
+    if (is_row(id) ? static_cast<std::size_t>(id) >= rows() : -1 - id >= 2L * n) return false;
+    for (int i = 0; i < j; ++i)
+      if (basis[i] == id) return false;
+    basis_[j] = id;
+    if (is_row(id)) in_basis_[static_cast<std::size_t>(id)] = 1;
+  }
+  if (!refresh()) return false;
+  // A start must be dual feasible to rounding: a multiplier clearly below 0 would stay there
+  // wherever its w_j stays <= 0 (only the ratio test keeps lambda >= 0).
+  return (lambda_.array() >= -options_.start_tolerance).all();
+}
+
+bool DenseLp::entering(bool bland, Id& q) {
+  const int n = columns();
+  const double tolerance = options_.feasibility_tolerance;
+  double best = 0.0;
+  long best_rank = std::numeric_limits<long>::max();
+  bool found = false;
+  auto consider = [&](Id id, double score) {
+    if (bland) {
+      const long r = rank_of(id, n);
+      if (r < best_rank) {
+        best_rank = r;
+        q = id;
+        found = true;
+      }
+    } else if (score > best) {
+      best = score;
+      q = id;
+      found = true;
+    }
+  };
+  auto basic = [&](Id id) {
+    for (int j = 0; j < n; ++j)
+      if (basis_[j] == id) return true;
+    return false;
+  };
+  for (int k = 0; k < n; ++k) {
+    if (x_(k) - upper_(k) > tolerance && !basic(upper_bound(k)))
+      consider(upper_bound(k), x_(k) - upper_(k));
+    if (lower_(k) - x_(k) > tolerance && !basic(lower_bound(k)))
+      consider(lower_bound(k), lower_(k) - x_(k));
+  }
+  // Under Bland's rule the bounds (which come first in its order) are chosen before any row,
+  // and among rows the first violated one.
+  if (bland && found) return true;
+  // The rows' violations a_i.x - b_i, column by column (contiguous, vectorisable).
+  const std::size_t m = rows();
+  violation_.resize(m);
+  double* v = violation_.data();
+  const double* b = rhs_.data();
+  for (std::size_t i = 0; i < m; ++i) v[i] = -b[i];
+  for (int k = 0; k < n; ++k) {
+    const double xk = x_(k);
+    const double* column = a_[k].data();
+    for (std::size_t i = 0; i < m; ++i) v[i] += column[i] * xk;
+  }
+  for (std::size_t i = 0; i < m; ++i) {
+    if (!(v[i] > tolerance) || in_basis_[i]) continue;
+    consider(static_cast<Id>(i), v[i] * inv_norm_[i]);
+    if (bland) return true;
+  }
+  return found;
+}
+
+DenseLp::Status DenseLp::solve() {
+  const int n = columns();
+  if (n <= 0 || n > max_columns) return Status::failed;
+  const int limit = options_.max_iterations > 0
+                        ? options_.max_iterations
+                        : 50 + 4 * static_cast<int>(std::min<std::size_t>(rows() + 2 * n, 1u << 20));
+  // The basis set (or the previous optimum) is current; rows added since do not change it.
+  if (!refresh()) return Status::failed;
+  int stalls = 0;
+  bool bland = false;
+  double a[max_columns];
+  Vector w(n);
+  for (;;) {
+    Id q = 0;
+    if (!entering(bland, q)) break;
+    if (++iterations_ > limit) return Status::failed;
+    double b = 0.0;
+    normal(q, a, b);
+    const Eigen::Map<const Vector> aq(a, n);
+    w.noalias() = inverse_.transpose() * aq;  // B^T w = a_q
+    // Ratio test: lambda - t w >= 0; the least ratio over w_j > 0 leaves.
+    const double pivot = options_.pivot_tolerance * std::max(1.0, w.cwiseAbs().maxCoeff());
+    double least = infinity;
+    for (int j = 0; j < n; ++j)
+      if (w(j) > pivot) least = std::min(least, std::max(lambda_(j), 0.0) / w(j));
+    if (!(least < infinity)) return Status::failed;  // dual unbounded: the rows are infeasible
+    // Only exact ties: a leaving constraint of a larger ratio would drive the least one's
+    // multiplier negative (by the difference times its w), and the basis would stop being dual
+    // feasible. Exact ties are the degenerate case (several lambda_j = 0).
+    int leave = -1;
+    for (int j = 0; j < n; ++j) {
+      if (!(w(j) > pivot) || std::max(lambda_(j), 0.0) / w(j) > least) continue;
+      if (leave < 0) {
+        leave = j;
+      } else if (bland ? rank_of(basis_[j], n) < rank_of(basis_[leave], n)
+                       : w(j) > w(leave)) {  // the largest pivot among ties, for stability
+        leave = j;
+      }
+    }
+    const double before = objective();
+    if (is_row(basis_[leave])) in_basis_[static_cast<std::size_t>(basis_[leave])] = 0;
+    basis_[leave] = q;
+    if (is_row(q)) in_basis_[static_cast<std::size_t>(q)] = 1;
+    if (!refresh()) return Status::failed;
+    if (objective() > before + 1e-14 * (1.0 + std::abs(before))) {
+      stalls = 0;
+    } else if (++stalls >= options_.stall_limit) {
+      bland = true;
+    }
+  }
+  if (!(lambda_.array() >= -options_.dual_tolerance).all()) return Status::failed;
+  return Status::optimal;
+}
+
+}  // namespace cylzone::detail::zone_lp

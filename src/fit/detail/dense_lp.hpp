@@ -1,0 +1,121 @@
+#pragma once
+// Private to the fit stage: a small dense linear-programme solver for the Chebyshev engine's
+// programmes (fit/detail/chebyshev_programme.hpp), which have a handful of columns (at most
+// max_columns: the step's 2 or 4 parameters and one or two zone bounds) and up to a few hundred
+// rows. COIN-OR Clp solves them too, but its fixed cost per programme (model load,
+// factorisation, pricing set-up, allocation) is many times the work such a programme needs;
+// repeated fits (Monte Carlo trials) pay it thousands of times.
+//
+// Method: the dual simplex method on the inequality form
+//     minimise c.x  subject to  a_i.x <= b_i (rows),  lower_k <= x_k <= upper_k (bounds),
+// in the space of the columns. A basis is a set of `columns` active constraints (rows or
+// bounds) with linearly independent normals; its vertex x solves B x = b_B and its multipliers
+// solve B^T lambda = -c. The basis is dual feasible when lambda >= 0. Each iteration takes the
+// most violated constraint q (violation over the norm of its normal) into the basis and lets
+// the basic constraint j leave that keeps lambda >= 0 (the ratio test on w = B^-T a_q: the least
+// lambda_j / w_j over w_j > 0); the objective c.x never decreases. When no constraint is
+// violated the vertex is primal feasible, hence optimal. This is the dual simplex method
+// (Chvatal, Linear Programming, Freeman 1983, ch. 10; Nocedal & Wright, Numerical Optimization,
+// 2nd ed. 2006, sec. 13.6, from memory for the sections) written for the dual of the
+// inequality form, where every basis is a small square matrix: bounds are constraints like
+// rows (so it is a bounded-variable method without a separate bound logic), and rows added
+// after a solve leave the basis dual feasible, so that `solve` resumes from the previous
+// optimal basis, which is what constraint generation needs.
+//
+// Anti-cycling: a step of zero length (a dual-degenerate basis: some lambda_j = 0) does not
+// raise the objective; after a run of such steps the choice of both the entering and the
+// leaving constraint switches to the least index (Bland's rule, for the dual simplex as in
+// Chvatal ch. 10, from memory), which cannot cycle.
+//
+// The basis is factorised afresh (full-pivoting LU of at most max_columns^2 entries) at every
+// iteration and the vertex and multipliers recomputed from it, so rounding does not accumulate.
+// Storage is fixed-size (the basis) or reused between programmes (the rows), so a pivot
+// allocates nothing. The solver is honest about failure: a singular basis, no admissible
+// leaving constraint, an iteration limit, a non-finite value, or a start that is not dual
+// feasible give Status::failed, and the caller falls back to Clp.
+
+#include <Eigen/Core>
+#include <cstddef>
+#include <vector>
+
+namespace cylzone::detail::zone_lp {
+
+class DenseLp {
+ public:
+  static constexpr int max_columns = 8;
+  using Vector = Eigen::Matrix<double, Eigen::Dynamic, 1, 0, max_columns, 1>;
+  using Matrix = Eigen::Matrix<double, Eigen::Dynamic, Eigen::Dynamic, 0, max_columns, max_columns>;
+
+  enum class Status { optimal, failed };
+
+  /// A constraint's identifier: a row index (>= 0), or a bound of column k: upper_bound(k),
+  /// lower_bound(k) (negative).
+  using Id = long;
+  static constexpr Id upper_bound(int k) noexcept { return -1 - 2 * static_cast<Id>(k); }
+  static constexpr Id lower_bound(int k) noexcept { return -2 - 2 * static_cast<Id>(k); }
+  static constexpr bool is_row(Id id) noexcept { return id >= 0; }
+
+  struct Options {
+    /// A constraint is violated when a.x - b exceeds this (the rows are in scaled units).
+    double feasibility_tolerance = 1e-10;
+    /// Ratio-test entries w_j at or below this are not pivots.
+    double pivot_tolerance = 1e-9;
+    /// Multipliers below -this make a result dual infeasible (a failure) ...
+    double dual_tolerance = 1e-9;
+    /// ... and below -this a start (set_basis): rounding only.
+    double start_tolerance = 1e-13;
+    /// Zero-length steps in a row before Bland's rule takes over.
+    int stall_limit = 8;
+    /// Iterations per solve(); 0: 50 + 4 x (rows + 2 x columns).
+    int max_iterations = 0;
+  };
+
+  DenseLp() = default;
+  explicit DenseLp(const Options& options) : options_(options) {}
+
+  /// Starts a new programme of cost.size() <= max_columns columns with the given bounds (may
+  /// be infinite) and no rows; keeps the row storage's capacity.
+  void reset(const Vector& cost, const Vector& lower, const Vector& upper);
+  /// Room for this many rows in all (no allocation while adding up to them).
+  void reserve(std::size_t rows);
+  /// Appends the row a.x <= b (a: columns() coefficients) and returns its index.
+  Id add_row(const double* a, double b);
+  int columns() const noexcept { return static_cast<int>(cost_.size()); }
+  std::size_t rows() const noexcept { return rhs_.size(); }
+
+  /// Sets the starting basis: columns() constraints whose normals are independent and whose
+  /// multipliers are non-negative (dual feasible). False (and nothing solved) otherwise.
+  bool set_basis(const Id* basis);
+  /// Runs the dual simplex from the current basis (the one set, or the previous optimum, with
+  /// any rows added since) until no constraint is violated.
+  Status solve();
+
+  /// The vertex, the objective c.x, and the basis with its multipliers (lambda >= 0; a row's
+  /// multiplier is the magnitude of its dual value), valid after solve() returned optimal.
+  const Vector& x() const noexcept { return x_; }
+  double objective() const noexcept { return cost_.dot(x_); }
+  const Id* basis() const noexcept { return basis_; }
+  const Vector& multipliers() const noexcept { return lambda_; }
+  int iterations() const noexcept { return iterations_; }
+
+ private:
+  /// Factorises the basis and recomputes x_ and lambda_; false if it is singular.
+  bool refresh();
+  /// Normal and right-hand side of a constraint.
+  void normal(Id id, double* a, double& b) const;
+  /// Most violated constraint not in the basis (Bland: the least violated index); false if none.
+  bool entering(bool bland, Id& q);
+
+  Options options_;
+  Vector cost_, lower_, upper_, x_, lambda_;
+  std::vector<double> a_[max_columns];  // the rows' coefficients, column by column
+  std::vector<double> rhs_;        // b_i
+  std::vector<double> violation_;  // a_i.x - b_i, scratch of entering()
+  std::vector<double> inv_norm_;   // 1 / |a_i|
+  std::vector<unsigned char> in_basis_;  // per row
+  Id basis_[max_columns] = {};
+  Matrix inverse_;  // B^-1 of the current basis
+  int iterations_ = 0;
+};
+
+}  // namespace cylzone::detail::zone_lp
