@@ -160,31 +160,54 @@ double polar_angle(double x, double y) noexcept {
 
 ArcCoverage::ArcCoverage(std::size_t expected_points)
     : exact_(expected_points <= coverage_buckets) {
-  const std::size_t buckets = exact_ ? std::max<std::size_t>(expected_points, 1) : coverage_buckets;
-  per_unit_ = static_cast<double>(buckets) / (exact_ ? two_pi : 4.0);
+  // Exact range: 1.5 buckets per point (see the header: then no gap within a bucket can be the
+  // largest); beyond it a fixed 2^15.
+  const std::size_t buckets =
+      exact_ ? std::max<std::size_t>(2, expected_points + (expected_points + 1) / 2)
+             : coverage_buckets;
+  per_unit_ = static_cast<double>(buckets) / 4.0;
   // Interleaved (low, high) pairs: one cache line per update.
   bounds_.resize(2 * buckets);
   for (std::size_t b = 0; b < buckets; ++b) {
     bounds_[2 * b] = std::numeric_limits<double>::infinity();
     bounds_[2 * b + 1] = -std::numeric_limits<double>::infinity();
   }
+  if (exact_) ends_.resize(buckets);
 }
 
 void ArcCoverage::merge(const ArcCoverage& other) {
   if (other.bounds_.size() != bounds_.size() || other.exact_ != exact_)
     throw std::invalid_argument("ArcCoverage::merge: different bucket layouts");
   for (std::size_t k = 0; k < bounds_.size(); k += 2) {
+    if (exact_) {
+      const Ends& e = other.ends_[k / 2];
+      if (other.bounds_[k] < bounds_[k]) {
+        ends_[k / 2].low_x = e.low_x;
+        ends_[k / 2].low_y = e.low_y;
+      }
+      if (other.bounds_[k + 1] > bounds_[k + 1]) {
+        ends_[k / 2].high_x = e.high_x;
+        ends_[k / 2].high_y = e.high_y;
+      }
+    }
     bounds_[k] = std::min(bounds_[k], other.bounds_[k]);
     bounds_[k + 1] = std::max(bounds_[k + 1], other.bounds_[k + 1]);
   }
   count_ += other.count_;
 }
 
+namespace {
+/// The libm angle of (x, y) in [0, 2 pi], as the largest gap of sorted angles takes it.
+double libm_angle(double x, double y) {
+  const double a = std::atan2(y, x);
+  return a < 0.0 ? a + two_pi : a;
+}
+}  // namespace
+
 double ArcCoverage::degrees() const {
   if (count_ < 2) return 0.0;
-  // Gaps between neighbouring non-empty buckets (and the wrap-around gap), in stored units.
-  const double period = exact_ ? two_pi : 4.0;
-  double first = 0.0, previous = 0.0, largest_stored = 0.0;
+  // Pseudo-gaps between neighbouring non-empty buckets (and the wrap-around gap).
+  double first = 0.0, previous = 0.0, largest_pseudo = 0.0;
   bool seen = false;
   for (std::size_t k = 0; k < bounds_.size(); k += 2) {
     if (!(bounds_[k] <= bounds_[k + 1])) continue;  // empty bucket
@@ -192,28 +215,48 @@ double ArcCoverage::degrees() const {
       first = bounds_[k];
       seen = true;
     } else {
-      largest_stored = std::max(largest_stored, bounds_[k] - previous);
+      largest_pseudo = std::max(largest_pseudo, bounds_[k] - previous);
     }
     previous = bounds_[k + 1];
   }
-  const double wrap_stored = first + period - previous;
-  largest_stored = std::max(largest_stored, wrap_stored);
-  if (exact_) return (two_pi - largest_stored) * 360.0 / two_pi;
-  // Diamond angles: a true gap lies between 1 and 2 times its pseudo-gap (the slope of the true
-  // angle against the pseudo-angle is within [1, 2]), so only gaps of at least half the largest
-  // pseudo-gap can be the largest true gap; only their ends are converted.
-  const double candidate = 0.5 * largest_stored;
+  const double wrap_pseudo = first + 4.0 - previous;
+  largest_pseudo = std::max(largest_pseudo, wrap_pseudo);
+  // A true gap lies between 1 and 2 times its pseudo-gap (the slope of the true angle against
+  // the pseudo-angle is within [1, 2]), so only gaps of at least half the largest pseudo-gap
+  // can be the largest true gap (less a margin for the pseudo-angles' rounding); only their
+  // ends are converted.
+  const double candidate = 0.5 * largest_pseudo - 1e-12;
   double largest = 0.0;
   seen = false;
+  std::size_t first_bucket = 0, previous_bucket = 0;
   for (std::size_t k = 0; k < bounds_.size(); k += 2) {
     if (!(bounds_[k] <= bounds_[k + 1])) continue;
-    if (seen && bounds_[k] - previous >= candidate)
-      largest = std::max(largest, true_angle(bounds_[k]) - true_angle(previous));
+    if (!seen) {
+      first_bucket = k / 2;
+    } else if (bounds_[k] - previous >= candidate) {
+      if (exact_) {
+        const Ends& low = ends_[previous_bucket];
+        const Ends& high = ends_[k / 2];
+        largest = std::max(largest, libm_angle(high.low_x, high.low_y) -
+                                        libm_angle(low.high_x, low.high_y));
+      } else {
+        largest = std::max(largest, true_angle(bounds_[k]) - true_angle(previous));
+      }
+    }
     seen = true;
     previous = bounds_[k + 1];
+    previous_bucket = k / 2;
   }
-  if (wrap_stored >= candidate)
-    largest = std::max(largest, true_angle(first) + two_pi - true_angle(previous));
+  if (wrap_pseudo >= candidate) {
+    if (exact_) {
+      const Ends& low = ends_[previous_bucket];
+      const Ends& high = ends_[first_bucket];
+      largest = std::max(largest, libm_angle(high.low_x, high.low_y) + two_pi -
+                                      libm_angle(low.high_x, low.high_y));
+    } else {
+      largest = std::max(largest, true_angle(first) + two_pi - true_angle(previous));
+    }
+  }
   return (two_pi - largest) * 360.0 / two_pi;
 }
 
