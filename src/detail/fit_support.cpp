@@ -206,18 +206,19 @@ double libm_angle(double x, double y) {
 
 double ArcCoverage::degrees() const {
   if (count_ < 2) return 0.0;
-  // Pseudo-gaps between neighbouring non-empty buckets (and the wrap-around gap).
-  double first = 0.0, previous = 0.0, largest_pseudo = 0.0;
-  bool seen = false;
-  for (std::size_t k = 0; k < bounds_.size(); k += 2) {
-    if (!(bounds_[k] <= bounds_[k + 1])) continue;  // empty bucket
-    if (!seen) {
-      first = bounds_[k];
-      seen = true;
-    } else {
-      largest_pseudo = std::max(largest_pseudo, bounds_[k] - previous);
-    }
-    previous = bounds_[k + 1];
+  const std::size_t buckets = bounds_.size() / 2;
+  const double* bound = bounds_.data();
+  std::size_t first_bucket = 0;
+  while (!(bound[2 * first_bucket] <= bound[2 * first_bucket + 1])) ++first_bucket;
+  // Pseudo-gaps between neighbouring non-empty buckets (and the wrap-around gap). About half
+  // the buckets are empty, at random: selects, not branches.
+  const double first = bound[2 * first_bucket];
+  double previous = bound[2 * first_bucket + 1], largest_pseudo = 0.0;
+  for (std::size_t k = first_bucket + 1; k < buckets; ++k) {
+    const double low = bound[2 * k], high = bound[2 * k + 1];
+    const bool filled = low <= high;
+    largest_pseudo = filled ? std::max(largest_pseudo, low - previous) : largest_pseudo;
+    previous = filled ? high : previous;
   }
   const double wrap_pseudo = first + 4.0 - previous;
   largest_pseudo = std::max(largest_pseudo, wrap_pseudo);
@@ -226,37 +227,28 @@ double ArcCoverage::degrees() const {
   // can be the largest true gap (less a margin for the pseudo-angles' rounding); only their
   // ends are converted.
   const double candidate = 0.5 * largest_pseudo - 1e-12;
+  // The true gap from the highest point of bucket `below` to the lowest of `above`, whose angle
+  // is taken `turn` (0 or 2 pi) further round.
+  const auto true_gap = [&](std::size_t below, std::size_t above, double below_pseudo,
+                            double above_pseudo, double turn) {
+    if (!exact_) return true_angle(above_pseudo) + turn - true_angle(below_pseudo);
+    const Ends& low = ends_[below];
+    const Ends& high = ends_[above];
+    return libm_angle(high.low_x, high.low_y) + turn - libm_angle(low.high_x, low.high_y);
+  };
   double largest = 0.0;
-  seen = false;
-  std::size_t first_bucket = 0, previous_bucket = 0;
-  for (std::size_t k = 0; k < bounds_.size(); k += 2) {
-    if (!(bounds_[k] <= bounds_[k + 1])) continue;
-    if (!seen) {
-      first_bucket = k / 2;
-    } else if (bounds_[k] - previous >= candidate) {
-      if (exact_) {
-        const Ends& low = ends_[previous_bucket];
-        const Ends& high = ends_[k / 2];
-        largest = std::max(largest, libm_angle(high.low_x, high.low_y) -
-                                        libm_angle(low.high_x, low.high_y));
-      } else {
-        largest = std::max(largest, true_angle(bounds_[k]) - true_angle(previous));
-      }
-    }
-    seen = true;
-    previous = bounds_[k + 1];
-    previous_bucket = k / 2;
+  previous = bound[2 * first_bucket + 1];
+  std::size_t previous_bucket = first_bucket;
+  for (std::size_t k = first_bucket + 1; k < buckets; ++k) {
+    const double low = bound[2 * k], high = bound[2 * k + 1];
+    const bool filled = low <= high;
+    if (filled && low - previous >= candidate)  // rare: predicted
+      largest = std::max(largest, true_gap(previous_bucket, k, previous, low, 0.0));
+    previous = filled ? high : previous;
+    previous_bucket = filled ? k : previous_bucket;
   }
-  if (wrap_pseudo >= candidate) {
-    if (exact_) {
-      const Ends& low = ends_[previous_bucket];
-      const Ends& high = ends_[first_bucket];
-      largest = std::max(largest, libm_angle(high.low_x, high.low_y) + two_pi -
-                                      libm_angle(low.high_x, low.high_y));
-    } else {
-      largest = std::max(largest, true_angle(first) + two_pi - true_angle(previous));
-    }
-  }
+  if (wrap_pseudo >= candidate)
+    largest = std::max(largest, true_gap(previous_bucket, first_bucket, previous, first, two_pi));
   return (two_pi - largest) * 360.0 / two_pi;
 }
 

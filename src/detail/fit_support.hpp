@@ -96,17 +96,16 @@ class ArcCoverage {
         std::min(bounds_.size() / 2 - 1, static_cast<std::size_t>(a * per_unit_));
     double* pair = bounds_.data() + 2 * b;
     if (exact_) {
+      // Selects, not branches: the first point of a bucket sets both ends, later ones one or
+      // none, in no predictable pattern.
       Ends& e = ends_[b];
-      if (a < pair[0]) {
-        pair[0] = a;
-        e.low_x = x;
-        e.low_y = y;
-      }
-      if (a > pair[1]) {
-        pair[1] = a;
-        e.high_x = x;
-        e.high_y = y;
-      }
+      const bool lower = a < pair[0], higher = a > pair[1];
+      pair[0] = lower ? a : pair[0];
+      e.low_x = lower ? x : e.low_x;
+      e.low_y = lower ? y : e.low_y;
+      pair[1] = higher ? a : pair[1];
+      e.high_x = higher ? x : e.high_x;
+      e.high_y = higher ? y : e.high_y;
     } else {
       pair[0] = std::min(pair[0], a);
       pair[1] = std::max(pair[1], a);
@@ -118,11 +117,9 @@ class ArcCoverage {
   double degrees() const;
 
  private:
-  /// The points at a bucket's lowest and highest pseudo-angle (exact range only). Left
-  /// uninitialised on construction: read only for buckets that received a point.
+  /// The points at a bucket's lowest and highest pseudo-angle (exact range only).
   struct Ends {
-    Ends() {}  // NOLINT: no zeroing of a buffer the pseudo-angles guard
-    double low_x, low_y, high_x, high_y;
+    double low_x = 0.0, low_y = 0.0, high_x = 0.0, high_y = 0.0;
   };
   bool exact_;
   std::size_t count_ = 0;
