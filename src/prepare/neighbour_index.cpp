@@ -251,8 +251,19 @@ void NeighbourIndex::Tree::search(const Slab& slab, const double* q, OrderedNear
       const std::size_t count = std::min(right - left, leaf_points);
       for (std::size_t j = 0; j < count; ++j)
         distance[j] = squared_distance(q, x[left + j], y[left + j], z[left + j]);
-      for (std::size_t j = 0; j < count; ++j)
+      // Those within the current k-th distance, gathered without a branch per point (whether
+      // a point passes is unpredictable), then offered in order.
+      std::uint32_t passing[leaf_points];
+      std::size_t passed = 0;
+      const double worst = nearest.worstDist();
+      for (std::size_t j = 0; j < count; ++j) {
+        passing[passed] = static_cast<std::uint32_t>(j);
+        passed += distance[j] < worst ? 1 : 0;
+      }
+      for (std::size_t c = 0; c < passed; ++c) {
+        const std::size_t j = passing[c];
         if (distance[j] < nearest.worstDist()) nearest.addPoint(distance[j], global[left + j]);
+      }
       for (std::size_t j = left + count; j < right; ++j) {  // a leaf larger than asked for
         const double d = squared_distance(q, x[j], y[j], z[j]);
         if (d < nearest.worstDist()) nearest.addPoint(d, global[j]);
