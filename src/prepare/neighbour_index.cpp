@@ -24,11 +24,9 @@ constexpr std::size_t leaf_points = 24;
 class SlabPoints {
  public:
   SlabPoints(const double* const* axes, std::size_t count)
-      : x_(axes[0]), y_(axes[1]), z_(axes[2]), count_(count) {}
+      : axes_{axes[0], axes[1], axes[2]}, count_(count) {}
   std::size_t kdtree_get_point_count() const { return count_; }
-  double kdtree_get_pt(std::uint32_t local, std::size_t dim) const {
-    return (dim == 0 ? x_ : dim == 1 ? y_ : z_)[local];
-  }
+  double kdtree_get_pt(std::uint32_t local, std::size_t dim) const { return axes_[dim][local]; }
   // No precomputed bounding box: nanoflann computes it while building.
   template <class Box>
   bool kdtree_get_bbox(Box&) const {
@@ -36,7 +34,7 @@ class SlabPoints {
   }
 
  private:
-  const double *x_, *y_, *z_;
+  const double* axes_[3];
   std::size_t count_;
 };
 
