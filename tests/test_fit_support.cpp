@@ -192,6 +192,19 @@ TEST_CASE("angular coverage agrees with sorting libm angles", "[fit_support]") {
       sets.emplace_back(x, y);
     }
     sets.push_back({{1.0, 0.0, -1.0, 0.0, 2.0}, {0.0, 1.0, 0.0, -1.0, 0.0}});
+    // Directions just below and just above the +x axis (atan2 just below 2 pi and just above
+    // 0), as a rotated section gives them: they lie at opposite ends of the angle range.
+    for (const double tiny : {-1e-17, 1e-17, -1e-300, -0.0}) {
+      std::vector<double> x, y;
+      for (int i = 0; i < 36; ++i) {
+        x.push_back(5.0 * std::cos(2 * pi * i / 36));
+        y.push_back(i == 0 ? tiny : 5.0 * std::sin(2 * pi * i / 36));
+      }
+      sets.emplace_back(x, y);
+      x.resize(20);  // and an arc of 190 degrees starting there
+      y.resize(20);
+      sets.emplace_back(x, y);
+    }
     for (const auto& [x, y] : sets) {
       const double got = detail::angular_coverage_deg(planar_points(x, y), Eigen::Vector3d::Zero(),
                                                       Eigen::Matrix3d::Identity());

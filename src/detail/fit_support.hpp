@@ -90,8 +90,17 @@ class ArcCoverage {
     // each half-plane: p for x >= 0, 2 - p for x < 0, plus 4 below zero. Written with
     // copysign, not branches: random quadrants would mispredict (3x slower, measured).
     const double p = y / (std::abs(x) + std::abs(y));
-    double a = 1.0 - std::copysign(1.0, x) * (1.0 - p);
-    a += 2.0 - 2.0 * std::copysign(1.0, a);
+    double a;
+    if (exact_) {
+      // Selects, not arithmetic on p: 1 - (1 - p) would round a tiny negative p (a direction
+      // just below the +x axis, atan2 just below 2 pi) to +0, the other end of the circle from
+      // the atan2 angle its bucket's end is converted to.
+      a = std::signbit(x) ? 2.0 - p : p;
+      a = a < 0.0 ? a + 4.0 : a;
+    } else {
+      a = 1.0 - std::copysign(1.0, x) * (1.0 - p);
+      a += 2.0 - 2.0 * std::copysign(1.0, a);
+    }
     const std::size_t b =
         std::min(bounds_.size() / 2 - 1, static_cast<std::size_t>(a * per_unit_));
     double* pair = bounds_.data() + 2 * b;
