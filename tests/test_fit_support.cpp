@@ -194,7 +194,7 @@ TEST_CASE("angular coverage agrees with sorting libm angles", "[fit_support]") {
     sets.push_back({{1.0, 0.0, -1.0, 0.0, 2.0}, {0.0, 1.0, 0.0, -1.0, 0.0}});
     // Directions just below and just above the +x axis (atan2 just below 2 pi and just above
     // 0), as a rotated section gives them: they lie at opposite ends of the angle range.
-    for (const double tiny : {-1e-17, 1e-17, -1e-300, -0.0}) {
+    for (const double tiny : {-1e-17, 1e-17, -1e-300, -5e-324, 5e-324, -0.0}) {
       std::vector<double> x, y;
       for (int i = 0; i < 36; ++i) {
         x.push_back(5.0 * std::cos(2 * pi * i / 36));

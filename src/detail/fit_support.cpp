@@ -198,9 +198,16 @@ void ArcCoverage::merge(const ArcCoverage& other) {
 
 namespace {
 /// The libm angle of (x, y) in [0, 2 pi], as the largest gap of sorted angles takes it.
-double libm_angle(double x, double y) {
-  const double a = std::atan2(y, x);
-  return a < 0.0 ? a + two_pi : a;
+/// The libm angle of (x, y) in [0, 2 pi], as the largest gap of sorted angles takes it, kept on
+/// the side of the +x axis its pseudo-angle `diamond` puts it: a direction within rounding of
+/// the axis may have its pseudo-angle at one end of [0, 4] and its atan2 at the other end of
+/// [0, 2 pi] (a subnormal offset), which would make a gap a full turn too wide.
+double libm_angle(double x, double y, double diamond) {
+  double a = std::atan2(y, x);
+  a = a < 0.0 ? a + two_pi : a;
+  if (diamond < 1.0 && a > 1.5 * 3.14159265358979323846) return a - two_pi;
+  if (diamond > 3.0 && a < 0.5 * 3.14159265358979323846) return a + two_pi;
+  return a;
 }
 }  // namespace
 
@@ -234,7 +241,8 @@ double ArcCoverage::degrees() const {
     if (!exact_) return true_angle(above_pseudo) + turn - true_angle(below_pseudo);
     const Ends& low = ends_[below];
     const Ends& high = ends_[above];
-    return libm_angle(high.low_x, high.low_y) + turn - libm_angle(low.high_x, low.high_y);
+    return libm_angle(high.low_x, high.low_y, above_pseudo) + turn -
+           libm_angle(low.high_x, low.high_y, below_pseudo);
   };
   double largest = 0.0;
   previous = bound[2 * first_bucket + 1];
