@@ -8,11 +8,17 @@
 // points); best and median wall clock and the best CPU time (all threads together) are printed.
 // The screen runs on StrayPointOptions::threads (default: the machine's cores) and once more on
 // one thread (column 1thread), whose report must be identical.
+// A second table splits the one-thread screen into its parts, each timed alone: building the
+// neighbour index, the k-nearest queries of every point (in the index's locality order, as the
+// screen visits them), and the rest (medians, MAD, flagging) as the difference. The queries'
+// own cost bounds what any faster median or statistics pass can gain. The parts are CPU times
+// (they do not count the waits of a loaded machine).
 //
 // Usage: bench_stray_points [--sizes 10000,100000,1000000]
 #include <Eigen/Geometry>
 #include <algorithm>
 #include <cmath>
+#include <cstdint>
 #include <cstdio>
 #include <cstdlib>
 #include <random>
@@ -22,6 +28,7 @@
 
 #include "cylzone/evaluate/bore_evaluation.hpp"
 #include "cylzone/fit/fit_cylinder.hpp"
+#include "cylzone/prepare/neighbour_index.hpp"
 #include "cylzone/prepare/stray_points.hpp"
 #include "bench_timing.hpp"
 
@@ -74,9 +81,14 @@ int main(int argc, char** argv) {
   plan.basic_location = {40.0, 25.0};
   plan.size = cylzone::SizeLimits{10.0, 10.015};
   std::printf("# stray-point screen (k = 8), least-squares cylinder and evaluate_bore; ms\n");
-  std::printf("# %9s %9s %9s %9s %9s %9s %9s %11s %11s %11s %7s\n", "points", "screen", "median",
-              "ns/point", "cpu", "1thread", "shuffled", "ls_cylinder", "evaluate", "eval_median",
-              "share");
+  std::printf("# %9s %9s %9s %9s %9s %9s %9s %9s %11s %11s %11s %7s\n", "points", "screen",
+              "median", "ns/point", "cpu", "1thread", "1t_ns/pt", "shuffled", "ls_cylinder",
+              "evaluate", "eval_median", "share");
+  struct Parts {
+    std::size_t n;
+    double screen_ms, index_ms, queries_ms;
+  };
+  std::vector<Parts> parts;
   for (const std::size_t n : sizes) {
     const Eigen::Matrix3Xd points = scanned_bore(n);
     const int runs = n >= 1000000 ? 3 : 7;
@@ -118,13 +130,36 @@ int main(int argc, char** argv) {
         runs, [&] { cylzone::find_stray_points(shuffled, shuffled_residuals); });
     cylzone::BoreResult bore;
     const Timing bore_time = time_runs(runs, [&] { bore = cylzone::evaluate_bore(plan, points); });
-    std::printf("  %9zu %9.2f %9.2f %9.1f %9.2f %9.2f %9.2f %11.2f %11.2f %11.2f %6.0f%%   (%zu flagged)\n",
+    std::printf("  %9zu %9.2f %9.2f %9.1f %9.2f %9.2f %9.1f %9.2f %11.2f %11.2f %11.2f %6.0f%%   (%zu flagged)\n",
                 n, screen_time.best_ms, screen_time.median_ms,
                 1e6 * screen_time.best_ms / static_cast<double>(n), screen_time.best_cpu_ms,
-                serial_time.best_ms, shuffled_time.best_ms, fit_time.best_ms, bore_time.best_ms, bore_time.median_ms,
+                serial_time.best_ms, 1e6 * serial_time.best_ms / static_cast<double>(n),
+                shuffled_time.best_ms, fit_time.best_ms, bore_time.best_ms, bore_time.median_ms,
                 100.0 * screen_time.best_ms / bore_time.best_ms, report.points.size());
+    // The one-thread screen's parts, each alone.
+    const Timing index_time = time_runs(runs, [&] { cylzone::NeighbourIndex index(points, 1); });
+    const cylzone::NeighbourIndex index(points, 1);
+    std::size_t found = 0;
+    const Timing query_time = time_runs(runs, [&] {
+      cylzone::NeighbourIndex::Query query(8);
+      found = 0;
+      for (const std::uint32_t i : index.locality_order()) found += query.of_point(index, i).size();
+    });
+    if (found != 8 * n) {
+      std::fprintf(stderr, "bench_stray_points: %zu neighbours for %zu points\n", found, n);
+      return 1;
+    }
+    parts.push_back({n, serial_time.best_cpu_ms, index_time.best_cpu_ms, query_time.best_cpu_ms});
+  }
+  std::printf("# one thread, each part alone: best CPU time of the runs, ns per point\n");
+  std::printf("# %9s %9s %9s %9s %9s\n", "points", "screen", "index", "queries", "rest");
+  for (const Parts& p : parts) {
+    const double per = 1e6 / static_cast<double>(p.n);
+    std::printf("  %9zu %9.1f %9.1f %9.1f %9.1f\n", p.n, per * p.screen_ms, per * p.index_ms,
+                per * p.queries_ms, per * (p.screen_ms - p.index_ms - p.queries_ms));
   }
   std::printf("# shuffled = the screen on the same cloud in random order; share = screen best /\n"
-              "# evaluate_bore best (evaluate_bore includes the screen)\n");
+              "# evaluate_bore best (evaluate_bore includes the screen); rest = screen - index -\n"
+              "# queries (medians, MAD, checks, flagging)\n");
   return 0;
 }

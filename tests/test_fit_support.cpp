@@ -157,6 +157,60 @@ TEST_CASE("angular coverage agrees with sorting libm angles", "[fit_support]") {
       }
     }
   }
+  SECTION("exact range: the sorted libm angles' largest gap, also for patterns and repeats") {
+    // Reference: coverage_by_sorting (std::atan2 and std::sort, the definition itself). Cases
+    // where the pseudo-angle's slope factor matters: equally spaced patterns (every gap a
+    // candidate), the same angles repeated on rows at several radii (a CMM's levels), a
+    // pattern with one wide gap, points on the coordinate axes.
+    std::vector<std::pair<std::vector<double>, std::vector<double>>> sets;
+    for (const int n : {3, 12, 30, 360, 1000, 32768}) {
+      std::vector<double> x, y;
+      for (int i = 0; i < n; ++i) {
+        x.push_back(std::cos(2 * pi * i / n));
+        y.push_back(std::sin(2 * pi * i / n));
+      }
+      sets.emplace_back(x, y);
+    }
+    {
+      std::vector<double> x, y;
+      for (int row = 0; row < 7; ++row)
+        for (int i = 0; i < 30; ++i) {
+          const double a = 2 * pi * i / 30 + 0.1 * row;
+          x.push_back((5.0 + 0.001 * row) * std::cos(a));
+          y.push_back((5.0 + 0.001 * row) * std::sin(a));
+        }
+      sets.emplace_back(x, y);
+    }
+    {
+      std::vector<double> x, y;
+      for (int row = 0; row < 9; ++row)
+        for (int i = 0; i < 40; ++i) {  // 40 points over 300 degrees, the same on every row
+          const double a = 0.3 + 300.0 * pi / 180 * i / 39;
+          x.push_back((2.0 + row) * std::cos(a));
+          y.push_back((2.0 + row) * std::sin(a));
+        }
+      sets.emplace_back(x, y);
+    }
+    sets.push_back({{1.0, 0.0, -1.0, 0.0, 2.0}, {0.0, 1.0, 0.0, -1.0, 0.0}});
+    // Directions just below and just above the +x axis (atan2 just below 2 pi and just above
+    // 0), as a rotated section gives them: they lie at opposite ends of the angle range.
+    for (const double tiny : {-1e-17, 1e-17, -1e-300, -5e-324, 5e-324, -0.0}) {
+      std::vector<double> x, y;
+      for (int i = 0; i < 36; ++i) {
+        x.push_back(5.0 * std::cos(2 * pi * i / 36));
+        y.push_back(i == 0 ? tiny : 5.0 * std::sin(2 * pi * i / 36));
+      }
+      sets.emplace_back(x, y);
+      x.resize(20);  // and an arc of 190 degrees starting there
+      y.resize(20);
+      sets.emplace_back(x, y);
+    }
+    for (const auto& [x, y] : sets) {
+      const double got = detail::angular_coverage_deg(planar_points(x, y), Eigen::Vector3d::Zero(),
+                                                      Eigen::Matrix3d::Identity());
+      CHECK(got == Approx(coverage_by_sorting(x, y)).margin(1e-12));
+    }
+  }
   SECTION("large sets: exact when the largest gap exceeds 0.014 degrees, else within it") {
     for (const double arc_deg : {90.0, 300.0, 359.9, 360.0}) {
       std::vector<double> x, y;
@@ -201,6 +255,20 @@ TEST_CASE("angular coverage agrees with sorting libm angles", "[fit_support]") {
     first.merge(second);
     CHECK(first.degrees() == whole.degrees());
     CHECK(whole.degrees() == Approx(4.0 * 180 / pi).margin(0.014));
+  }
+  SECTION("merging in the exact range equals one accumulator and the sorted angles") {
+    detail::ArcCoverage whole(3000), first(3000), second(3000);
+    std::vector<double> x, y;
+    for (int i = 0; i < 3000; ++i) {
+      const double a = 5.0 * unit(rng);  // 286 degrees of arc
+      x.push_back(std::cos(a));
+      y.push_back(std::sin(a));
+      whole.add(x.back(), y.back());
+      (i < 1700 ? first : second).add(x.back(), y.back());
+    }
+    first.merge(second);
+    CHECK(first.degrees() == whole.degrees());
+    CHECK(whole.degrees() == Approx(coverage_by_sorting(x, y)).margin(1e-12));
   }
 }
 

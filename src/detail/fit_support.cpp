@@ -175,60 +175,103 @@ double polar_angle(double x, double y) noexcept {
 
 ArcCoverage::ArcCoverage(std::size_t expected_points)
     : exact_(expected_points <= coverage_buckets) {
-  const std::size_t buckets = exact_ ? std::max<std::size_t>(expected_points, 1) : coverage_buckets;
-  per_unit_ = static_cast<double>(buckets) / (exact_ ? two_pi : 4.0);
+  // Exact range: 1.5 buckets per point (see the header: then no gap within a bucket can be the
+  // largest); beyond it a fixed 2^15.
+  const std::size_t buckets =
+      exact_ ? std::max<std::size_t>(2, expected_points + (expected_points + 1) / 2)
+             : coverage_buckets;
+  per_unit_ = static_cast<double>(buckets) / 4.0;
   // Interleaved (low, high) pairs: one cache line per update.
   bounds_.resize(2 * buckets);
   for (std::size_t b = 0; b < buckets; ++b) {
     bounds_[2 * b] = std::numeric_limits<double>::infinity();
     bounds_[2 * b + 1] = -std::numeric_limits<double>::infinity();
   }
+  if (exact_) ends_.resize(buckets);
 }
 
 void ArcCoverage::merge(const ArcCoverage& other) {
   if (other.bounds_.size() != bounds_.size() || other.exact_ != exact_)
     throw std::invalid_argument("ArcCoverage::merge: different bucket layouts");
   for (std::size_t k = 0; k < bounds_.size(); k += 2) {
+    if (exact_) {
+      const Ends& e = other.ends_[k / 2];
+      if (other.bounds_[k] < bounds_[k]) {
+        ends_[k / 2].low_x = e.low_x;
+        ends_[k / 2].low_y = e.low_y;
+      }
+      if (other.bounds_[k + 1] > bounds_[k + 1]) {
+        ends_[k / 2].high_x = e.high_x;
+        ends_[k / 2].high_y = e.high_y;
+      }
+    }
     bounds_[k] = std::min(bounds_[k], other.bounds_[k]);
     bounds_[k + 1] = std::max(bounds_[k + 1], other.bounds_[k + 1]);
   }
   count_ += other.count_;
 }
 
+namespace {
+/// The libm angle of (x, y) in [0, 2 pi], as the largest gap of sorted angles takes it.
+/// The libm angle of (x, y) in [0, 2 pi], as the largest gap of sorted angles takes it, kept on
+/// the side of the +x axis its pseudo-angle `diamond` puts it: a direction within rounding of
+/// the axis may have its pseudo-angle at one end of [0, 4] and its atan2 at the other end of
+/// [0, 2 pi] (a subnormal offset), which would make a gap a full turn too wide.
+double libm_angle(double x, double y, double diamond) {
+  double a = std::atan2(y, x);
+  a = a < 0.0 ? a + two_pi : a;
+  if (diamond < 1.0 && a > 1.5 * 3.14159265358979323846) return a - two_pi;
+  if (diamond > 3.0 && a < 0.5 * 3.14159265358979323846) return a + two_pi;
+  return a;
+}
+}  // namespace
+
 double ArcCoverage::degrees() const {
   if (count_ < 2) return 0.0;
-  // Gaps between neighbouring non-empty buckets (and the wrap-around gap), in stored units.
-  const double period = exact_ ? two_pi : 4.0;
-  double first = 0.0, previous = 0.0, largest_stored = 0.0;
-  bool seen = false;
-  for (std::size_t k = 0; k < bounds_.size(); k += 2) {
-    if (!(bounds_[k] <= bounds_[k + 1])) continue;  // empty bucket
-    if (!seen) {
-      first = bounds_[k];
-      seen = true;
-    } else {
-      largest_stored = std::max(largest_stored, bounds_[k] - previous);
-    }
-    previous = bounds_[k + 1];
+  const std::size_t buckets = bounds_.size() / 2;
+  const double* bound = bounds_.data();
+  std::size_t first_bucket = 0;
+  while (!(bound[2 * first_bucket] <= bound[2 * first_bucket + 1])) ++first_bucket;
+  // Pseudo-gaps between neighbouring non-empty buckets (and the wrap-around gap). About half
+  // the buckets are empty, at random: selects, not branches.
+  const double first = bound[2 * first_bucket];
+  double previous = bound[2 * first_bucket + 1], largest_pseudo = 0.0;
+  for (std::size_t k = first_bucket + 1; k < buckets; ++k) {
+    const double low = bound[2 * k], high = bound[2 * k + 1];
+    const bool filled = low <= high;
+    largest_pseudo = filled ? std::max(largest_pseudo, low - previous) : largest_pseudo;
+    previous = filled ? high : previous;
   }
-  const double wrap_stored = first + period - previous;
-  largest_stored = std::max(largest_stored, wrap_stored);
-  if (exact_) return (two_pi - largest_stored) * 360.0 / two_pi;
-  // Diamond angles: a true gap lies between 1 and 2 times its pseudo-gap (the slope of the true
-  // angle against the pseudo-angle is within [1, 2]), so only gaps of at least half the largest
-  // pseudo-gap can be the largest true gap; only their ends are converted.
-  const double candidate = 0.5 * largest_stored;
+  const double wrap_pseudo = first + 4.0 - previous;
+  largest_pseudo = std::max(largest_pseudo, wrap_pseudo);
+  // A true gap lies between 1 and 2 times its pseudo-gap (the slope of the true angle against
+  // the pseudo-angle is within [1, 2]), so only gaps of at least half the largest pseudo-gap
+  // can be the largest true gap (less a margin for the pseudo-angles' rounding); only their
+  // ends are converted.
+  const double candidate = 0.5 * largest_pseudo - 1e-12;
+  // The true gap from the highest point of bucket `below` to the lowest of `above`, whose angle
+  // is taken `turn` (0 or 2 pi) further round.
+  const auto true_gap = [&](std::size_t below, std::size_t above, double below_pseudo,
+                            double above_pseudo, double turn) {
+    if (!exact_) return true_angle(above_pseudo) + turn - true_angle(below_pseudo);
+    const Ends& low = ends_[below];
+    const Ends& high = ends_[above];
+    return libm_angle(high.low_x, high.low_y, above_pseudo) + turn -
+           libm_angle(low.high_x, low.high_y, below_pseudo);
+  };
   double largest = 0.0;
-  seen = false;
-  for (std::size_t k = 0; k < bounds_.size(); k += 2) {
-    if (!(bounds_[k] <= bounds_[k + 1])) continue;
-    if (seen && bounds_[k] - previous >= candidate)
-      largest = std::max(largest, true_angle(bounds_[k]) - true_angle(previous));
-    seen = true;
-    previous = bounds_[k + 1];
+  previous = bound[2 * first_bucket + 1];
+  std::size_t previous_bucket = first_bucket;
+  for (std::size_t k = first_bucket + 1; k < buckets; ++k) {
+    const double low = bound[2 * k], high = bound[2 * k + 1];
+    const bool filled = low <= high;
+    if (filled && low - previous >= candidate)  // rare: predicted
+      largest = std::max(largest, true_gap(previous_bucket, k, previous, low, 0.0));
+    previous = filled ? high : previous;
+    previous_bucket = filled ? k : previous_bucket;
   }
-  if (wrap_stored >= candidate)
-    largest = std::max(largest, true_angle(first) + two_pi - true_angle(previous));
+  if (wrap_pseudo >= candidate)
+    largest = std::max(largest, true_gap(previous_bucket, first_bucket, previous, first, two_pi));
   return (two_pi - largest) * 360.0 / two_pi;
 }
 

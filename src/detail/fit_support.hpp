@@ -75,34 +75,56 @@ double angular_coverage_deg(const Eigen::Matrix3Xd& points, const Eigen::Vector3
 /// angular gap. O(n), no sort: the maximum-gap bucket method (Gonzalez 1975; Preparata & Shamos,
 /// Computational Geometry, 1985, 6.4): with n angles in n equal buckets the largest gap is at
 /// least one bucket wide, so it runs between neighbouring non-empty buckets and only each
-/// bucket's lowest and highest angle is kept. Up to 2^15 points (as announced to the
-/// constructor) the angles are exact atan2 values and the result is exact. Beyond that, a cheap
-/// monotone pseudo-angle (the "diamond angle" y / (|x| + |y|) per half-plane) fills 2^15 buckets
-/// (512 KB, cache-resident) and only the buckets' extremes are converted to true angles: exact
-/// whenever the largest gap is at least 0.014 degrees (a bucket's widest true span: the
-/// pseudo-angle's slope varies by a factor 2), otherwise within that.
+/// bucket's lowest and highest angle is kept. Points are bucketed by a cheap monotone
+/// pseudo-angle, the "diamond angle" y / (|x| + |y|) per half-plane, whose slope against the
+/// true angle varies by a factor 2: a true gap lies between 1 and 2 times its pseudo-gap, so
+/// only the gaps of at least half the largest pseudo-gap are converted to true angles.
+/// Up to 2^15 points (as announced to the constructor) there are 1.5 buckets per point, no
+/// gap inside a bucket can be the largest (at most 2 x 4 / 1.5n < 2 pi / n), each bucket
+/// keeps its extreme points themselves, and the candidates' ends are exact atan2 angles: the
+/// result is the sorted libm angles' largest gap (to the rounding of the pseudo-angle, which
+/// could only swap two directions within about 1e-16 rad of each other). Beyond that, 2^15
+/// buckets (512 KB, cache-resident) keep only pseudo-angles, converted back to true angles:
+/// exact whenever the largest gap is at least 0.014 degrees (a bucket's widest true span),
+/// otherwise within that.
 class ArcCoverage {
  public:
   explicit ArcCoverage(std::size_t expected_points);
   void add(double x, double y) {  // inline: it runs once per point in the fits' final passes
     if (x == 0.0 && y == 0.0) return;  // a point on the axis has no angle
+    // The "diamond angle" in [0, 4]: p = y / (|x| + |y|) is monotone in the true angle on
+    // each half-plane: p for x >= 0, 2 - p for x < 0, plus 4 below zero. Written with
+    // copysign, not branches: random quadrants would mispredict (3x slower, measured).
+    const double p = y / (std::abs(x) + std::abs(y));
     double a;
     if (exact_) {
-      a = std::atan2(y, x);
-      if (a < 0.0) a += 2.0 * 3.14159265358979323846;
+      // Selects, not arithmetic on p: 1 - (1 - p) would round a tiny negative p (a direction
+      // just below the +x axis, atan2 just below 2 pi) to +0, the other end of the circle from
+      // the atan2 angle its bucket's end is converted to.
+      a = std::signbit(x) ? 2.0 - p : p;
+      a = a < 0.0 ? a + 4.0 : a;
     } else {
-      // The "diamond angle" in [0, 4]: p = y / (|x| + |y|) is monotone in the true angle on
-      // each half-plane: p for x >= 0, 2 - p for x < 0, plus 4 below zero. Written with
-      // copysign, not branches: random quadrants would mispredict (3x slower, measured).
-      const double p = y / (std::abs(x) + std::abs(y));
       a = 1.0 - std::copysign(1.0, x) * (1.0 - p);
       a += 2.0 - 2.0 * std::copysign(1.0, a);
     }
     const std::size_t b =
         std::min(bounds_.size() / 2 - 1, static_cast<std::size_t>(a * per_unit_));
     double* pair = bounds_.data() + 2 * b;
-    pair[0] = std::min(pair[0], a);
-    pair[1] = std::max(pair[1], a);
+    if (exact_) {
+      // Selects, not branches: the first point of a bucket sets both ends, later ones one or
+      // none, in no predictable pattern.
+      Ends& e = ends_[b];
+      const bool lower = a < pair[0], higher = a > pair[1];
+      pair[0] = lower ? a : pair[0];
+      e.low_x = lower ? x : e.low_x;
+      e.low_y = lower ? y : e.low_y;
+      pair[1] = higher ? a : pair[1];
+      e.high_x = higher ? x : e.high_x;
+      e.high_y = higher ? y : e.high_y;
+    } else {
+      pair[0] = std::min(pair[0], a);
+      pair[1] = std::max(pair[1], a);
+    }
     ++count_;
   }
   /// Adds the points of `other` (built with the same expected_points), e.g. from another thread.
@@ -110,10 +132,15 @@ class ArcCoverage {
   double degrees() const;
 
  private:
+  /// The points at a bucket's lowest and highest pseudo-angle (exact range only).
+  struct Ends {
+    double low_x = 0.0, low_y = 0.0, high_x = 0.0, high_y = 0.0;
+  };
   bool exact_;
   std::size_t count_ = 0;
-  double per_unit_;            // buckets per radian (exact) or per pseudo-angle unit
-  std::vector<double> bounds_;  // lowest and highest angle of each bucket, interleaved
+  double per_unit_;             // buckets per pseudo-angle unit
+  std::vector<double> bounds_;  // lowest and highest pseudo-angle of each bucket, interleaved
+  std::vector<Ends> ends_;      // exact range: their points
 };
 
 /// Throws FitError "a <element> needs at least <needed> points, got <n>" when n < needed.

@@ -15,27 +15,43 @@ namespace cylzone {
 namespace detail {
 namespace {
 
-// Centred copy statistics of a 2D set: centroid, the largest distance from it, and the spread
-// perpendicular to the principal direction (for the collinearity test).
+// Centred statistics of a 2D set, gathered in one pass: centroid, the largest distance from it,
+// the spread perpendicular to the principal direction (for the collinearity test) and the
+// normal equations of the algebraic (Kasa) circle on the centred points.
 struct PlanarSpread {
   Eigen::Vector2d centroid;
   double scale = 0.0;
   double along_rms = 0.0;    // rms along the principal direction
   double across_rms = 0.0;   // rms perpendicular to it
+  Eigen::Matrix3d ata;       // sum a a^T with a = (x, y, 1), centred coordinates
+  Eigen::Vector3d atb;       // sum a b with b = -(x^2 + y^2)
 };
 
 PlanarSpread planar_spread(const Eigen::Matrix2Xd& uv) {
   PlanarSpread s;
   const double n = static_cast<double>(uv.cols());
   s.centroid = uv.rowwise().mean();
-  double xx = 0, xy = 0, yy = 0;
+  // The distinct sums of a a^T and a b only (a a^T is symmetric; the products with a's constant
+  // 1 are exact), and the largest squared distance with one square root at the end (sqrt is
+  // monotone and correctly rounded, so that is the largest distance to the bit).
+  double xx = 0, xy = 0, yy = 0, sx = 0, sy = 0, bx = 0, by = 0, b = 0, largest2 = 0;
   for (Eigen::Index i = 0; i < uv.cols(); ++i) {
     const double x = uv(0, i) - s.centroid.x(), y = uv(1, i) - s.centroid.y();
+    const double r2 = x * x + y * y;
     xx += x * x;
     xy += x * y;
     yy += y * y;
-    s.scale = std::max(s.scale, std::sqrt(x * x + y * y));
+    sx += x;
+    sy += y;
+    const double minus_r2 = -r2;
+    bx += x * minus_r2;
+    by += y * minus_r2;
+    b += minus_r2;
+    largest2 = std::max(largest2, r2);
   }
+  s.scale = std::sqrt(largest2);
+  s.ata << xx, xy, sx, xy, yy, sy, sx, sy, n;
+  s.atb << bx, by, b;
   Eigen::Matrix2d m;
   m << xx, xy, xy, yy;
   const Eigen::SelfAdjointEigenSolver<Eigen::Matrix2d> eigen(m, Eigen::EigenvaluesOnly);
@@ -56,15 +72,7 @@ Circle2dFit fit_circle_2d_algebraic(const Eigen::Matrix2Xd& uv) {
                    " mm); a circle needs points not on one line");
   // Kasa: minimise sum (x^2 + y^2 + D x + E y + F)^2 over (D, E, F), a linear problem, on the
   // centred points (centring keeps the normal equations well scaled).
-  Eigen::Matrix3d ata = Eigen::Matrix3d::Zero();
-  Eigen::Vector3d atb = Eigen::Vector3d::Zero();
-  for (Eigen::Index i = 0; i < uv.cols(); ++i) {
-    const double x = uv(0, i) - spread.centroid.x(), y = uv(1, i) - spread.centroid.y();
-    const Eigen::Vector3d a(x, y, 1.0);
-    ata.noalias() += a * a.transpose();
-    atb += a * -(x * x + y * y);
-  }
-  const Eigen::Vector3d def = ata.ldlt().solve(atb);
+  const Eigen::Vector3d def = spread.ata.ldlt().solve(spread.atb);
   Circle2dFit fit;
   const Eigen::Vector2d c(-0.5 * def(0), -0.5 * def(1));
   const double r2 = c.squaredNorm() - def(2);

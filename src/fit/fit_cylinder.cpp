@@ -410,7 +410,9 @@ FinalPass final_pass(const Eigen::Matrix3Xd& points, const Axis& axis, const Eig
       detail::worker_count(static_cast<std::size_t>(chunks), pass_threads(n, options));
   // Coverage keeps a per-bin min/max, which any grouping of the points gives alike: one per
   // worker, merged.
-  std::vector<detail::ArcCoverage> coverage(workers, detail::ArcCoverage(static_cast<std::size_t>(n)));
+  std::vector<detail::ArcCoverage> coverage;
+  coverage.reserve(workers);
+  for (std::size_t w = 0; w < workers; ++w) coverage.emplace_back(static_cast<std::size_t>(n));
   const PassFrame frame{basis, axis.point, radius};
   const FinishFunction finish = select_kernels().finish;
   detail::parallel_for(static_cast<std::size_t>(chunks), workers, [&](std::size_t chunk, std::size_t w) {

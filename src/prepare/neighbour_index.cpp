@@ -14,19 +14,19 @@
 namespace cylzone {
 namespace {
 
-/// Leaf size of the KD-tree: the screen's time is flat (within 5%) from 12 to 32 (measured).
-constexpr std::size_t leaf_points = 16;
+/// Leaf size of the KD-tree. With the leaves' distances computed together (Tree::search), 24
+/// costs the screen about 5% less than 16, 32 the same as 24, 8 and 48 more (measured,
+/// bench/bench_stray_points.cpp, 10^6 points).
+constexpr std::size_t leaf_points = 24;
 
 /// nanoflann dataset adaptor over the points of one slab (see Tree): the slab's own copy of
-/// its coordinates, 3 per point; a tree refers to them by their position in that copy.
+/// its coordinates, one array per axis; a tree refers to them by their position in that copy.
 class SlabPoints {
  public:
-  SlabPoints(const double* coords, std::size_t count) : coords_(coords), count_(count) {}
+  SlabPoints(const double* const* axes, std::size_t count)
+      : axes_{axes[0], axes[1], axes[2]}, count_(count) {}
   std::size_t kdtree_get_point_count() const { return count_; }
-  double kdtree_get_pt(std::uint32_t local, std::size_t dim) const {
-    return coords_[3 * static_cast<std::size_t>(local) + dim];
-  }
-  const double* point(std::uint32_t local) const { return coords_ + 3 * static_cast<std::size_t>(local); }
+  double kdtree_get_pt(std::uint32_t local, std::size_t dim) const { return axes_[dim][local]; }
   // No precomputed bounding box: nanoflann computes it while building.
   template <class Box>
   bool kdtree_get_bbox(Box&) const {
@@ -34,30 +34,29 @@ class SlabPoints {
   }
 
  private:
-  const double* coords_;
+  const double* axes_[3];
   std::size_t count_;
 };
 
-/// Squared Euclidean distance in 3D: nanoflann's L2_Simple_Adaptor with its loop over the
-/// dimensions written out (the loop was a third of the query time), summed in the same order,
-/// so the same bits.
+/// Squared Euclidean distance in 3D from query `a` to point (x, y, z), summed in a fixed order.
+inline double squared_distance(const double* a, double x, double y, double z) {
+  const double d0 = a[0] - x, d1 = a[1] - y, d2 = a[2] - z;
+  double sum = d0 * d0;
+  sum += d1 * d1;
+  sum += d2 * d2;
+  return sum;
+}
+
+/// nanoflann's distance type: the tree is only built by nanoflann (its searches are not used,
+/// see Tree::search), so only the construction's needs are met.
 struct Metric {
   using ElementType = double;
   using DistanceType = double;
-  explicit Metric(const SlabPoints& points) : points(points) {}
-  double evalMetric(const double* a, std::uint32_t b, std::size_t /*dim = 3*/) const {
-    const double* p = points.point(b);
-    const double d0 = a[0] - p[0], d1 = a[1] - p[1], d2 = a[2] - p[2];
-    double sum = d0 * d0;
-    sum += d1 * d1;
-    sum += d2 * d2;
-    return sum;
-  }
+  explicit Metric(const SlabPoints&) {}
   template <class U, class V>
   double accum_dist(const U a, const V b, std::size_t) const {
     return (a - b) * (a - b);
   }
-  const SlabPoints& points;
 };
 using KdTree = nanoflann::KDTreeSingleIndexAdaptor<Metric, SlabPoints, 3, std::uint32_t>;
 
@@ -115,30 +114,10 @@ class OrderedNearest {
   std::vector<std::uint32_t> index_;
 };
 
-/// A slab's tree reports its own (local) indices; the shared result set orders by the global
-/// index, so the neighbours found are the same however the points are split into slabs.
-class SlabResult {
- public:
-  using DistanceType = double;
-  using IndexType = std::uint32_t;
-  using CountType = std::size_t;
-  SlabResult(OrderedNearest& nearest, const std::uint32_t* global)
-      : nearest_(nearest), global_(global) {}
-  std::size_t size() const { return nearest_.size(); }
-  bool full() const { return nearest_.full(); }
-  double worstDist() const { return nearest_.worstDist(); }
-  bool addPoint(double distance, std::uint32_t local) {
-    return nearest_.addPoint(distance, global_[local]);
-  }
-
- private:
-  OrderedNearest& nearest_;
-  const std::uint32_t* global_;
-};
-
 /// Points per slab (see Tree): a slab's tree is built by one thread, and a few slabs per thread
-/// keep the threads evenly loaded. Fixed, so the slabs depend on the data alone.
-constexpr std::size_t slab_points = 1u << 17;
+/// keep the threads evenly loaded (2^16 rather than 2^17: smaller trees build and search about
+/// 5% faster, measured on 10^6 points). Fixed, so the slabs depend on the data alone.
+constexpr std::size_t slab_points = 1u << 16;
 constexpr std::size_t most_slabs = 64;
 
 }  // namespace
@@ -161,11 +140,13 @@ struct NeighbourIndex::Tree {
   }
   struct Slab {
     std::vector<std::uint32_t> global;  ///< the slab's points (global indices), in tree order
-    std::vector<double> coords;         ///< their coordinates, 3 per point, in the same order
+    std::vector<double> axis[3];        ///< their x, y and z coordinates, in the same order
     double low = 0.0, high = 0.0;       ///< extent of its points along the cut direction
     std::unique_ptr<SlabPoints> dataset;
     std::unique_ptr<KdTree> tree;       ///< null for an empty slab
   };
+  /// Offers `nearest` the points of `slab` that can be among the nearest to `q` (see search).
+  static void search(const Slab& slab, const double* q, OrderedNearest& nearest);
   const double* data;
   std::size_t size;
   std::size_t axis = 0;
@@ -212,29 +193,101 @@ NeighbourIndex::Tree::Tree(const Eigen::Matrix3Xd& points, std::size_t threads)
       slab.high = std::max(slab.high, c);
     }
     const std::size_t m = slab.global.size();
-    std::vector<double> coords(3 * m);
+    std::vector<double> axes[3];
+    for (std::vector<double>& a : axes) a.resize(m);
     for (std::size_t j = 0; j < m; ++j)
-      std::copy_n(data + 3 * static_cast<std::size_t>(slab.global[j]), 3, coords.data() + 3 * j);
-    slab.dataset = std::make_unique<SlabPoints>(coords.data(), m);
+      for (std::size_t d = 0; d < 3; ++d)
+        axes[d][j] = data[3 * static_cast<std::size_t>(slab.global[j]) + d];
+    const double* built[3] = {axes[0].data(), axes[1].data(), axes[2].data()};
+    slab.dataset = std::make_unique<SlabPoints>(built, m);
     slab.tree = std::make_unique<KdTree>(3, *slab.dataset,
                                          nanoflann::KDTreeSingleIndexAdaptorParams(leaf_points));
     // Renumber the slab's points in the tree's order (a node covers a range of that order, so
     // the tree stays valid with the identity permutation): a leaf's points are then adjacent
     // in memory and a query reads them without an index in between, whatever the input order.
     std::vector<std::uint32_t> global(m);
-    slab.coords.resize(3 * m);
+    for (std::vector<double>& a : slab.axis) a.resize(m);
     for (std::size_t j = 0; j < m; ++j) {
       const std::uint32_t local = slab.tree->vAcc[j];
       global[j] = slab.global[local];
-      std::copy_n(coords.data() + 3 * static_cast<std::size_t>(local), 3, slab.coords.data() + 3 * j);
+      for (std::size_t d = 0; d < 3; ++d) slab.axis[d][j] = axes[d][local];
       slab.tree->vAcc[j] = static_cast<std::uint32_t>(j);
     }
     slab.global = std::move(global);
-    *slab.dataset = SlabPoints(slab.coords.data(), m);
+    const double* kept[3] = {slab.axis[0].data(), slab.axis[1].data(), slab.axis[2].data()};
+    *slab.dataset = SlabPoints(kept, m);
   });
   order.reserve(size);
   for (const Slab& slab : slabs)
     order.insert(order.end(), slab.global.begin(), slab.global.end());
+}
+
+/// The k-nearest search of one slab's tree. nanoflann builds the tree; the search is written
+/// here over its nodes because a query's time goes into the leaves: a leaf's distances are
+/// computed together from the per-axis arrays (the compiler vectorises them) before any is
+/// offered to `nearest`, in the same arithmetic as one at a time, so the same bits. A subtree
+/// is skipped only when the squared distance from q to its box, summed like a point's, exceeds
+/// the current worst distance: each term is at most the corresponding term of any point inside
+/// (rounding is monotone), so no point that could enter the result is skipped, and the
+/// neighbours found are exactly the (distance, index) nearest.
+void NeighbourIndex::Tree::search(const Slab& slab, const double* q, OrderedNearest& nearest) {
+  using Node = KdTree::Node;
+  const double* const x = slab.axis[0].data();
+  const double* const y = slab.axis[1].data();
+  const double* const z = slab.axis[2].data();
+  const std::uint32_t* const global = slab.global.data();
+  // gap[d]: q's offset from the current node's box along axis d (0 inside), as q - bound.
+  double gap[3];
+  for (int d = 0; d < 3; ++d) {
+    const auto& box = slab.tree->root_bbox[static_cast<std::size_t>(d)];
+    gap[d] = q[d] < box.low ? q[d] - box.low : q[d] > box.high ? q[d] - box.high : 0.0;
+  }
+  const auto descend = [&](const auto& self, const Node* node) -> void {
+    if (node->child1 == nullptr && node->child2 == nullptr) {
+      const std::size_t left = node->node_type.lr.left, right = node->node_type.lr.right;
+      double distance[leaf_points];
+      const std::size_t count = std::min(right - left, leaf_points);
+      for (std::size_t j = 0; j < count; ++j)
+        distance[j] = squared_distance(q, x[left + j], y[left + j], z[left + j]);
+      // Those within the current k-th distance, gathered without a branch per point (whether
+      // a point passes is unpredictable), then offered in order.
+      std::uint32_t passing[leaf_points];
+      std::size_t passed = 0;
+      const double worst = nearest.worstDist();
+      for (std::size_t j = 0; j < count; ++j) {
+        passing[passed] = static_cast<std::uint32_t>(j);
+        passed += distance[j] < worst ? 1 : 0;
+      }
+      for (std::size_t c = 0; c < passed; ++c) {
+        const std::size_t j = passing[c];
+        if (distance[j] < nearest.worstDist()) nearest.addPoint(distance[j], global[left + j]);
+      }
+      for (std::size_t j = left + count; j < right; ++j) {  // a leaf larger than asked for
+        const double d = squared_distance(q, x[j], y[j], z[j]);
+        if (d < nearest.worstDist()) nearest.addPoint(d, global[j]);
+      }
+      return;
+    }
+    // child1 holds the points with coordinate <= divlow along divfeat, child2 those >= divhigh.
+    const int axis = node->node_type.sub.divfeat;
+    const double value = q[axis];
+    const double low = node->node_type.sub.divlow, high = node->node_type.sub.divhigh;
+    const bool first_low = (value - low) + (value - high) < 0.0;
+    self(self, first_low ? node->child1 : node->child2);
+    const Node* other = first_low ? node->child2 : node->child1;
+    const double kept = gap[axis];
+    if (first_low) {
+      if (value < high) gap[axis] = value - high;
+    } else {
+      if (value > low) gap[axis] = value - low;
+    }
+    double bound = gap[0] * gap[0];
+    bound += gap[1] * gap[1];
+    bound += gap[2] * gap[2];
+    if (bound <= nearest.worstDist()) self(self, other);
+    gap[axis] = kept;
+  };
+  descend(descend, slab.tree->root_node);
 }
 
 struct NeighbourIndex::Query::Buffers {
@@ -272,10 +325,7 @@ const std::vector<std::uint32_t>& NeighbourIndex::Query::of_point(const Neighbou
   b.nearest.clear();
   b.found.clear();
   const double* q = tree.data + 3 * i;
-  const auto search = [&](const Tree::Slab& slab) {
-    SlabResult result(b.nearest, slab.global.data());
-    slab.tree->findNeighbors(result, q, nanoflann::SearchParams());
-  };
+  const auto search = [&](const Tree::Slab& slab) { Tree::search(slab, q, b.nearest); };
   const std::size_t own = tree.slab_of(q);
   search(tree.slabs[own]);
   // Outwards on each side while a slab can still hold a point within the k-th distance.
