@@ -12,6 +12,8 @@
 #include <Eigen/Geometry>
 #include <algorithm>
 #include <cmath>
+#include <cstdio>
+#include <filesystem>
 #include <fstream>
 #include <limits>
 #include <map>
@@ -368,7 +370,62 @@ TEST_CASE("[scan] plan: reading, and every rule names its key") {
   CHECK_THAT(problem_of(plan_head() + scan + a +
                         "[datum.B]\nfeature = \"bore\"\npoints = \"b.csv\"\n"
                         "[datum.C]\nfeature = \"slot\"\nbasic = [50, 0]\n" + bore),
-             Catch::Contains("key 'datum.C.points': datum C as a slot takes no points from [scan]"));
+             Catch::Contains("key 'datum.C.nominal_size': datum C takes its points from [scan] "
+                             "and needs its nominal width"));
+  // A plane, slot or tab C from the scan: its nominal face (docs/plan.md, rules 31 and 38).
+  const std::string b_file = "[datum.B]\nfeature = \"bore\"\npoints = \"b.csv\"\n";
+  CHECK_THAT(problem_of(plan_head() + scan + a + b_file +
+                        "[datum.C]\nfeature = \"slot\"\nbasic = [50, 0]\nnominal_size = 6\n"
+                        "depth = { top = 0, bottom = -8 }\n" + bore),
+             Catch::Contains("key 'datum.C.span': datum C as a slot takes its points from [scan] "
+                             "and needs the nominal length of its face"));
+  CHECK_THAT(problem_of(plan_head() + scan + a + b_file +
+                        "[datum.C]\nfeature = \"tab\"\nbasic = [50, 0]\nnominal_size = 6\n"
+                        "span = [40, 60]\n" + bore),
+             Catch::Contains("key 'datum.C.depth': a feature that takes its points from [scan] "
+                             "needs its nominal z range"));
+  CHECK_THAT(problem_of(plan_head() + scan + a + b_file +
+                        "[datum.C]\nfeature = \"plane\"\noutward_normal = [1, 0]\n"
+                        "span = [-10, 10]\ndepth = { top = -1, bottom = -9 }\n" + bore),
+             Catch::Contains("key 'datum.C.offset': datum C as a plane takes its points from "
+                             "[scan] and needs its nominal face"));
+  CHECK_THAT(problem_of(plan_head() + scan + a + b_file +
+                        "[datum.C]\nfeature = \"plane\"\noutward_normal = [1, 0]\n"
+                        "offset = 60\nspan = [10, -10]\ndepth = { top = -1, bottom = -9 }\n" +
+                        bore),
+             Catch::Contains("key 'datum.C.span': the span of C's face must be [low, high]"));
+  CHECK_THAT(problem_of(plan_head() + scan + a + b_file +
+                        "[datum.C]\nfeature = \"plane\"\noutward_normal = [1, 0]\n"
+                        "offset = 2e5\nspan = [-10, 10]\ndepth = { top = -1, bottom = -9 }\n" +
+                        bore),
+             Catch::Contains("key 'datum.C.offset'"));
+  CHECK_THAT(problem_of(plan_head() + scan + a + b_file +
+                        "[datum.C]\nfeature = \"plane\"\noutward_normal = [1, 0]\n"
+                        "offset = \"far\"\nspan = [-10, 10]\ndepth = { top = -1, bottom = -9 }\n" +
+                        bore),
+             Catch::Contains("key 'datum.C.offset'"));
+  CHECK_THAT(problem_of(plan_head() + scan + a + b_file +
+                        "[datum.C]\nfeature = \"bore\"\nbasic = [50, 0]\nnominal_size = 6\n"
+                        "span = [40, 60]\ndepth = { top = 0, bottom = -8 }\n" + bore),
+             Catch::Contains("key 'datum.C.span': unknown key for datum C as a bore"));
+  {
+    const PartPlan slot = parse_plan(
+        plan_head() + scan + a + b_file +
+            "[datum.C]\nfeature = \"slot\"\nbasic = [0, -45]\nsize = { lower = 6, upper = 6.03 }\n"
+            "span = [35, 55]\ndepth = { top = 0, bottom = -8 }\n" + bore,
+        "/tmp/scan-plan.toml", false);
+    // The faces at +-3.0075 (the middle of the width's limits, halved) from the centre plane
+    // x = 0 (basic toward -y): left of the centre line looking from B toward C is +x.
+    const std::vector<NominalSurface> faces = scan_surfaces(slot);
+    REQUIRE(faces.size() == 4);
+    CHECK(faces[1].name == "datum C left face");
+    CHECK(faces[1].origin.isApprox(Eigen::Vector3d(3.0075, 0, 0)));
+    CHECK(faces[2].origin.isApprox(Eigen::Vector3d(-3.0075, 0, 0)));
+    CHECK(std::abs(faces[1].direction.x()) == Approx(1.0));
+    CHECK(faces[1].u_axis.isApprox(Eigen::Vector3d(0, -1, 0)));
+    CHECK(faces[1].u_low == 35.0);
+    CHECK(faces[1].v_low == -8.0);
+  }
   CHECK_THAT(problem_of(plan_head() + scan + "[datum.A]\nfeature = \"plane\"\npoints = \"a.csv\"\n" +
                         "[[bore]]\nid = \"P1\"\npoints = \"p.csv\"\nbasic = [20, 20]\n"
                         "position = { tolerance = 0.03, datums = \"A\" }\n"),
@@ -580,4 +637,180 @@ TEST_CASE("demo scan: a placement off by more than the band, registered, takes e
   const double ls_tilt = g["datums"]["A"]["least_squares_plane_tilt_rad"].get<double>();
   CHECK(angle == Approx(ls_tilt).margin(2e-6));
   CHECK((back - middle).norm() < 0.005);
+}
+
+namespace {
+
+/// A generated part (the test's own construction, in the part's nominal frame): face A (z = 0,
+/// a 2 um crown below it) over [-30, 110] x [-60, 70] without its holes; bore B (20 mm, lobed 2
+/// um, z in [-28, -2]) at the origin; bore P1 (10 mm) at (40, 30), its axis tilted by 0.1 mrad
+/// and off by 3 um; datum C either a side face x = 110 (a plane, outward normal +x) or a
+/// keyway 6.02 mm wide from B toward -y (a slot, faces at x = +-3.01, y in [-53, -37]); and
+/// points of faces no feature names (the block's other sides), which must be left over. The
+/// cloud is moved into "machine" coordinates by a rigid motion M; the plan's placement is M^-1.
+struct GeneratedPart {
+  std::vector<std::pair<std::string, Eigen::Vector3d>> rows;  // feature (or "none"), point
+};
+
+GeneratedPart generated_part(bool slot) {
+  GeneratedPart part;
+  const auto add = [&](const std::string& feature, const Eigen::Vector3d& p) {
+    part.rows.emplace_back(feature, p);
+  };
+  const auto in_hole = [&](double x, double y) {
+    return std::hypot(x, y) < 12.0 || std::hypot(x - 40.0, y - 30.0) < 7.0 ||
+           (slot && std::abs(x) < 5.0 && y < -33.0);
+  };
+  for (double x = -30.0; x <= 110.0; x += 5.0)
+    for (double y = -60.0; y <= 70.0; y += 5.0)
+      if (!in_hole(x, y))
+        add("datum A", {x, y, -2e-3 * (1.0 - std::cos(0.05 * x) * std::cos(0.07 * y))});
+  for (int level = 0; level < 6; ++level)
+    for (int k = 0; k < 16; ++k) {
+      const double t = 2.0 * kPi * k / 16.0 + 0.1 * level, z = -2.0 - 5.2 * level;
+      const double r = 10.004 + 0.002 * std::cos(3.0 * t);
+      add("datum B", {r * std::cos(t), r * std::sin(t), z});
+      const double z1 = -2.0 - 7.0 * level;
+      const double r1 = 5.006 + 0.001 * std::sin(2.0 * t);
+      add("bore P1", {40.003 + 1e-4 * z1 + r1 * std::cos(t), 30.0 + r1 * std::sin(t), z1});
+    }
+  for (int i = 0; i < 9; ++i)
+    for (int j = 0; j < 4; ++j) {
+      const double u = slot ? 37.0 + 2.0 * i : -20.0 + 10.0 * i, z = -2.0 - (slot ? 2.0 : 5.0) * j;
+      const double form = 1.5e-3 * std::sin(0.7 * i + 1.3 * j);
+      if (slot) {
+        add("datum C", {3.01 + form, -u, z});
+        add("datum C", {-3.01 - form, -u - 0.5, z});
+      } else {
+        add("datum C", {110.0 + form, u, z});
+      }
+    }
+  for (int i = 0; i < 20; ++i)  // the other sides of the block: nobody's points
+    add("none", {-30.0 + 7.0 * i, 75.0, -3.0 - 2.0 * (i % 5)});
+  // A fixed shuffle (the test's own), so that each feature's rows are spread over the cloud.
+  std::mt19937 random(20261203);
+  for (std::size_t i = part.rows.size() - 1; i > 0; --i)
+    std::swap(part.rows[i], part.rows[random() % (i + 1)]);
+  return part;
+}
+
+RigidPlacement machine_motion() {
+  RigidPlacement m;
+  m.rotation = Eigen::AngleAxisd(0.8, Eigen::Vector3d(0.2, -0.9, 0.4).normalized()).toRotationMatrix();
+  m.translation = Eigen::Vector3d(312.5, -140.25, 88.0);
+  return m;
+}
+
+std::string point_row(const Eigen::Vector3d& p) {
+  char text[96];
+  std::snprintf(text, sizeof text, "%.9f,%.9f,%.9f\n", p.x(), p.y(), p.z());
+  return text;
+}
+
+/// Writes the part as per-feature files and as one scan (the very same text for each point)
+/// with both plans; returns {per-feature plan, scan plan}.
+std::pair<std::filesystem::path, std::filesystem::path> write_generated_part(
+    const std::string& name, bool slot) {
+  const std::filesystem::path dir = std::filesystem::temp_directory_path() / name;
+  std::filesystem::create_directories(dir);
+  const GeneratedPart part = generated_part(slot);
+  const RigidPlacement m = machine_motion();
+  std::map<std::string, std::string> files;
+  std::string scan = "x,y,z\n";
+  for (const auto& [feature, p] : part.rows) {
+    const std::string row = point_row(m.rotation * p + m.translation);
+    scan += row;
+    files[feature] += row;
+  }
+  const auto write = [&](const std::string& file, const std::string& text) {
+    std::ofstream(dir / file) << text;
+  };
+  write("scan.csv", scan);
+  for (const auto& [feature, text] : files)
+    if (feature != "none") write(feature.substr(feature.find(' ') + 1) + ".csv", "x,y,z\n" + text);
+  // The placement maps the machine's coordinates into the part's: M^-1.
+  const Eigen::Matrix3d R = m.rotation.transpose();
+  const Eigen::Vector3d t = -(R * m.translation);
+  std::string placement = "placement = [\n";
+  char text[200];
+  for (int i = 0; i < 3; ++i) {
+    std::snprintf(text, sizeof text, "  [%.17g, %.17g, %.17g, %.17g],\n", R(i, 0), R(i, 1),
+                  R(i, 2), t[i]);
+    placement += text;
+  }
+  placement += "  [0, 0, 0, 1]]\n";
+  const std::string c_files =
+      slot ? "[datum.C]\nfeature = \"slot\"\nbasic = [0, -45]\npoints = \"C.csv\"\n"
+           : "[datum.C]\nfeature = \"plane\"\noutward_normal = [1, 0]\npoints = \"C.csv\"\n";
+  const std::string c_scan =
+      slot ? "[datum.C]\nfeature = \"slot\"\nbasic = [0, -45]\nnominal_size = 6.02\n"
+             "span = [35, 55]\ndepth = { top = 0, bottom = -8 }\n"
+           : "[datum.C]\nfeature = \"plane\"\noutward_normal = [1, 0]\noffset = 110\n"
+             "span = [-25, 65]\ndepth = { top = -1, bottom = -19 }\n";
+  const std::string bore =
+      "[[bore]]\nid = \"P1\"\nbasic = [40, 30]\nsize = { lower = 10, upper = 10.02 }\n"
+      "position = { tolerance = 0.05, modifier = \"MMC\", datums = \"A|B|C\" }\n"
+      "perpendicularity = { tolerance = 0.02 }\n";
+  write("plan.toml", plan_head() +
+                         "[datum.A]\nfeature = \"plane\"\npoints = \"A.csv\"\n"
+                         "[datum.B]\nfeature = \"bore\"\npoints = \"B.csv\"\n" +
+                         c_files + bore + "points = \"P1.csv\"\ndepth = { top = 0, bottom = -40 }\n");
+  write("plan-scan.toml",
+        plan_head() + "[scan]\npoints = \"scan.csv\"\nband = 0.2\n" + placement +
+            "[datum.A]\nfeature = \"plane\"\nextent = { x = [-32, 112], y = [-62, 72] }\n"
+            "[datum.B]\nfeature = \"bore\"\nnominal_size = 20\ndepth = { top = 0, bottom = -30 }\n" +
+            c_scan + bore + "nominal_size = 10\ndepth = { top = 0, bottom = -40 }\n");
+  return {dir / "plan.toml", dir / "plan-scan.toml"};
+}
+
+/// Same points, same answer: the scan's features hold exactly the files' points, and every
+/// figure agrees to 1e-9 mm.
+void same_as_files(const std::filesystem::path& files_plan, const std::filesystem::path& scan_plan) {
+  const PartPlan by_files_plan = read_plan(files_plan);
+  const PartPlan by_scan_plan = read_plan(scan_plan);
+  const PartInputs files = load_part_inputs(by_files_plan);
+  const PartInputs scan = load_part_inputs(by_scan_plan);
+  REQUIRE(scan.scan);
+  CHECK(scan.scan->unassigned == 20);
+  for (std::size_t k = 0; k < files.datums.size(); ++k) {
+    INFO("datum " << by_files_plan.datums[k].label);
+    CHECK(scan.datums[k].points == files.datums[k].points);
+  }
+  CHECK(scan.bores[0].points == files.bores[0].points);
+  const PartCheckResult a = check_part(by_files_plan, files);
+  const PartCheckResult b = check_part(by_scan_plan, scan);
+  REQUIRE(a.characteristics.size() == b.characteristics.size());
+  REQUIRE(!a.characteristics.empty());
+  for (std::size_t i = 0; i < a.characteristics.size(); ++i) {
+    INFO(a.characteristics[i].id);
+    CHECK(b.characteristics[i].id == a.characteristics[i].id);
+    CHECK(b.characteristics[i].value == Approx(a.characteristics[i].value).margin(1e-9));
+    CHECK(b.characteristics[i].allowed == Approx(a.characteristics[i].allowed).margin(1e-9));
+    CHECK(b.characteristics[i].verdict == a.characteristics[i].verdict);
+  }
+}
+
+}  // namespace
+
+TEST_CASE("generated part: a plane C from the scan gives the per-feature files' points and figures") {
+  const auto [files, scan] = write_generated_part("cylzone-scanreg-plane-c", false);
+  same_as_files(files, scan);
+  const PartInputs inputs = load_part_inputs(read_plan(scan));
+  CHECK(inputs.scan->features[2].role == "datum C");
+  CHECK(inputs.scan->features[2].points == 36);
+  CHECK(inputs.scan->features[2].face_points.empty());
+}
+
+TEST_CASE("generated part: a slot C from the scan gives each face its points, the datum both") {
+  const auto [files, scan] = write_generated_part("cylzone-scanreg-slot-c", true);
+  same_as_files(files, scan);
+  const PartInputs inputs = load_part_inputs(read_plan(scan));
+  const FeatureSegmentation& c = inputs.scan->features[2];
+  CHECK(c.role == "datum C");
+  CHECK(c.points == 72);
+  CHECK(c.face_points == std::vector<std::size_t>{36, 36});
+  // The datum's cloud is its two faces' points in the cloud's order, as a file of them is.
+  const InputRecord& record = inputs.records[3];
+  CHECK(record.role == "datum C");
+  CHECK(std::is_sorted(record.point_lines.begin(), record.point_lines.end()));
 }

@@ -582,6 +582,7 @@ json segmentation_json(const ReportModel& m) {
   json features = json::array();
   for (const FeatureSegmentation& f : s.features) {
     json one = {{"role", f.role}, {"points", f.points}};
+    if (!f.face_points.empty()) one["face_points"] = f.face_points;  // a slot's or tab's faces
     if (f.is_cylinder()) {
       one["angular_coverage_deg"] = *f.angular_coverage_deg;
       one["probed_depth"] = u.length(f.probed_span);
