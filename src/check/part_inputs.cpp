@@ -174,7 +174,29 @@ SegmentedScan segment_part_scan(const PartPlan& plan, const PointCloud& cloud,
   SegmentedScan out;
   ScanSegmentation& record = out.record;
   record.placement = scan.placement;
-  if (scan.register_placement) {
+  if (scan.find_placement) {
+    // No placement given: found from the cloud and the nominal datum features alone, then
+    // refined as `register` does (find_placement).
+    std::vector<NominalSurface> datums;
+    for (const NominalSurface& s : surfaces)
+      if (s.name.rfind("datum ", 0) == 0) datums.push_back(s);
+    PlacementSearchOptions search;
+    search.segment = options;
+    PlacementSearchResult found = find_placement(cloud, datums, search);
+    const PlanLocation at = scan.where.at("placement");
+    if (found.status != PlacementSearchResult::Status::found)
+      throw InputError(plan.file.string(), at.line,
+                       "the scan " + quoted_for_message(scan.points.string()) +
+                           " cannot be placed from the nominal datum features alone: " +
+                           found.message +
+                           "; give a rough placement in [scan] (placement = a 4x4 matrix or "
+                           "{ rotation, translation })",
+                       at.key);
+    record.registration = found.registration;
+    record.placement = found.registration.placement;
+    record.search = PlacementSearchSummary{found.hypotheses, found.inliers,
+                                           found.runner_up_inliers, found.runner_up_distance};
+  } else if (scan.register_placement) {
     // The rough placement refined on the datum features alone (they define the frame the
     // nominal geometry is given in); then every feature is segmented with it.
     std::vector<NominalSurface> datums;

@@ -674,9 +674,20 @@ class PlanParser {
           read_number(*agreement, "scan.normal_agreement", "an angle in degrees (a number)");
     const std::string expected =
         "the placement of the cloud in the part's coordinates: a 4x4 matrix [[...], [...], "
-        "[...], [0, 0, 0, 1]] or { rotation = [[...], [...], [...]], translation = [x, y, z] }";
-    const toml::node& placement = require(table, "scan", "placement", expected);
-    scan.placement = read_placement(placement, "scan.placement", expected);
+        "[...], [0, 0, 0, 1]], { rotation = [[...], [...], [...]], translation = [x, y, z] } or "
+        "\"find\"";
+    // No placement, or "find": found from the cloud and the nominal datums (find_placement).
+    const toml::node* placement = table.get("placement");
+    if (!placement) {
+      scan.find_placement = true;
+    } else if (const auto* word = placement->as_string()) {
+      if (word->get() != "find")
+        fail(line_of(*placement), "scan.placement",
+             "unknown placement " + quoted_for_message(word->get()) + ": expected " + expected);
+      scan.find_placement = true;
+    } else {
+      scan.placement = read_placement(*placement, "scan.placement", expected);
+    }
     scan.register_placement = read_switch(table, "scan", "register").value_or(false);
     return scan;
   }

@@ -257,6 +257,19 @@ class PlanRules {
            "the normal agreement is an angle in degrees greater than 0 and at most 90 (found " +
                plan_number_text(agreement) + ")");
     check_placement(scan.placement, at.at("placement"));
+    if (scan.find_placement) {
+      // Finding a placement needs the whole frame's nominal features from the scan: A's plane,
+      // B's axis on it, and C to clock it (docs/plan.md, rule 39).
+      for (const char label : {'A', 'B', 'C'}) {
+        const PlanDatum* d = plan_.datum(label);
+        if (!d || !d->from_scan())
+          fail(at.at("placement"),
+               std::string("without a placement (or with placement = \"find\") the scan is "
+                           "placed by the nominal datum features A, B and C, and datum ") +
+                   label + (d ? " names its own points file" : " is not defined") +
+                   ": give a rough placement, a 4x4 matrix or { rotation, translation }");
+      }
+    }
     bool datum = false;
     for (const PlanDatum& d : plan_.datums) datum = datum || d.from_scan();
     if (scan.register_placement && !datum)

@@ -41,6 +41,14 @@ struct FeatureSegmentation {
   bool is_cylinder() const noexcept { return angular_coverage_deg.has_value(); }
 };
 
+/// How a placement was found from nothing (plan [scan] without a placement; find_placement).
+struct PlacementSearchSummary {
+  std::size_t hypotheses = 0;         ///< placements tried
+  std::size_t inliers = 0;            ///< the best one's sample points within the band
+  std::size_t runner_up_inliers = 0;  ///< the best placement elsewhere: its points
+  double runner_up_distance = 0.0;    ///< mm: how far that one puts the part (0: none)
+};
+
 /// The record of a whole-part scan and how it was segmented.
 struct ScanSegmentation {
   std::filesystem::path path;
@@ -52,8 +60,10 @@ struct ScanSegmentation {
   std::vector<FeatureSegmentation> features;  ///< datums then bores taking scan points
   /// The placement the segmentation used: the plan's, or the registered one.
   RigidPlacement placement;
-  /// With the plan's `register = true`: how the placement was refined.
+  /// With the plan's `register = true`, or a placement found: how the placement was refined.
   std::optional<RegistrationResult> registration;
+  /// The placement found from the cloud and the nominal datums (no placement in the plan).
+  std::optional<PlacementSearchSummary> search;
 };
 
 /// A part's measured inputs, in the plan's order.

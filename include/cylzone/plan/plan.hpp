@@ -234,6 +234,9 @@ struct PlanScan {
   /// Plan key `register`: refine `placement` by registering the cloud to the nominal datum
   /// features that take scan points (register_to_nominal) before segmenting.
   bool register_placement = false;
+  /// No placement in the plan, or `placement = "find"`: the placement is found from the cloud
+  /// and the nominal datum features A, B and C alone (find_placement), `placement` unused.
+  bool find_placement = false;
   PlanLocation where;
 };
 
