@@ -814,3 +814,183 @@ TEST_CASE("generated part: a slot C from the scan gives each face its points, th
   CHECK(record.role == "datum C");
   CHECK(std::is_sorted(record.point_lines.begin(), record.point_lines.end()));
 }
+
+namespace {
+
+/// The scan's `feature` column: each feature's file lines (the generator's truth).
+std::map<std::string, std::vector<std::size_t>> demo_scan_truth() {
+  std::ifstream in(demo_dir + "scan/manifold-scan.csv");
+  std::string row;
+  std::getline(in, row);
+  std::map<std::string, std::vector<std::size_t>> truth;
+  for (std::size_t line = 2; std::getline(in, row); ++line)
+    truth[row.substr(row.rfind(',') + 1)].push_back(line);
+  return truth;
+}
+
+/// The plan-scan.toml demo with no placement (placement = "find").
+PartPlan demo_without_placement(const std::string& replace_from = {},
+                                const std::string& replace_to = {}) {
+  std::ifstream in(demo_dir + "plan-scan.toml");
+  std::stringstream text;
+  text << in.rdbuf();
+  std::string plan = text.str();
+  const std::size_t from = plan.find("placement = [");
+  const std::size_t to = plan.find("\n]\n", from);
+  REQUIRE(from != std::string::npos);
+  REQUIRE(to != std::string::npos);
+  plan.replace(from, to + 3 - from, "placement = \"find\"\n");
+  if (!replace_from.empty()) {
+    REQUIRE(plan.find(replace_from) != std::string::npos);
+    plan.replace(plan.find(replace_from), replace_from.size(), replace_to);
+  }
+  return parse_plan(plan, demo_dir + "plan-scan-find.toml");
+}
+
+std::string load_problem(const PartPlan& plan, const PointCloud& cloud) {
+  try {
+    segment_part_scan(plan, cloud, "");
+  } catch (const InputError& e) {
+    return e.what();
+  }
+  return "no error";
+}
+
+}  // namespace
+
+TEST_CASE("demo scan: no placement, moved anywhere: the same points per feature, the same figures") {
+  // Results never depend on how the part sat on the machine: the demo scan moved by random
+  // rigid motions (axes anywhere, angles up to 180 degrees, metres away) and placed by
+  // find_placement from the nominal datums alone must give every feature exactly the rows the
+  // generator wrote for it (the scan's `feature` column) and every figure of plan-scan.toml
+  // (its given placement) to 1e-9 mm.
+  const PartPlan given = read_plan(demo_dir + "plan-scan.toml");
+  const PartPlan plan = demo_without_placement();
+  REQUIRE(plan.scan->find_placement);
+  const PointCloud cloud = read_points(plan.scan->points);
+  const std::map<std::string, std::vector<std::size_t>> truth = demo_scan_truth();
+  const PartCheckResult by_given = check_part(given);
+  std::mt19937 random(7031);
+  std::uniform_real_distribution<double> unit(-1.0, 1.0);
+  std::vector<RigidPlacement> found;
+  for (int trial = 0; trial < 4; ++trial) {
+    const Eigen::Vector3d axis = Eigen::Vector3d(unit(random), unit(random), unit(random)).normalized();
+    const double angle = kPi * (0.5 + 0.5 * unit(random));
+    const Eigen::Matrix3d R = Eigen::AngleAxisd(angle, axis).toRotationMatrix();
+    const Eigen::Vector3d t(3000.0 * unit(random), 3000.0 * unit(random), 3000.0 * unit(random));
+    INFO("trial " << trial << ": " << angle << " rad about " << axis.transpose());
+    PointCloud moved = cloud;
+    moved.points = (R * cloud.points).colwise() + t;
+    moved.vectors = R * cloud.vectors;
+    PartPlan moved_plan = plan;
+    for (PlanDatum& d : moved_plan.datums)
+      if (d.material_side) d.material_side = R * *d.material_side;
+    const SegmentedScan scan = segment_part_scan(moved_plan, moved, "");
+    REQUIRE(scan.record.search);
+    PartInputs inputs;
+    inputs.records.push_back({"plan", moved_plan.file, "", 0, {}});
+    for (std::size_t k = 0; k < scan.clouds.size(); ++k) {
+      INFO(scan.record.features[k].role);
+      CHECK(scan.clouds[k].lines == truth.at(scan.record.features[k].role));
+      (k < moved_plan.datums.size() ? inputs.datums : inputs.bores).push_back(scan.clouds[k]);
+    }
+    inputs.scan = scan.record;
+    const PartCheckResult by_found = check_part(moved_plan, inputs);
+    REQUIRE(by_found.characteristics.size() == by_given.characteristics.size());
+    for (std::size_t i = 0; i < by_given.characteristics.size(); ++i) {
+      INFO(by_given.characteristics[i].id);
+      CHECK(by_found.characteristics[i].value ==
+            Approx(by_given.characteristics[i].value).margin(1e-9));
+      CHECK(by_found.characteristics[i].verdict == by_given.characteristics[i].verdict);
+    }
+    // The placement found, taken back through the motion: the same for every motion.
+    RigidPlacement back = scan.record.placement;
+    back.translation += back.rotation * t;
+    back.rotation = back.rotation * R;
+    found.push_back(back);
+  }
+  for (const RigidPlacement& p : found) {
+    const Eigen::Vector3d corner(150.0, 80.0, -64.0);
+    CHECK(((p.rotation * corner + p.translation) -
+           (found[0].rotation * corner + found[0].translation)).norm() < 1e-6);
+  }
+  // The order of the points decides nothing: the cloud reversed gives the same placement.
+  PointCloud reversed = cloud;
+  reversed.points = cloud.points.rowwise().reverse();
+  reversed.vectors = cloud.vectors.rowwise().reverse();
+  reversed.lines.assign(cloud.lines.rbegin(), cloud.lines.rend());
+  const SegmentedScan forward = segment_part_scan(plan, cloud, "");
+  const SegmentedScan backward = segment_part_scan(plan, reversed, "");
+  CHECK((forward.record.placement.rotation - backward.record.placement.rotation).norm() < 1e-12);
+  CHECK((forward.record.placement.translation - backward.record.placement.translation).norm() <
+        1e-9);
+}
+
+TEST_CASE("no placement: symmetric nominal datums are refused, naming the two placements") {
+  // A keyway C whose nominal faces reach across B's axis ([-55, 55]) and a face A whose extent
+  // is symmetric about B: a half turn about B's axis maps the nominal datums onto themselves,
+  // so two placements fit the scan equally and put the part differently. Nothing may choose.
+  const auto [files, scan_plan] = write_generated_part("cylzone-scanreg-symmetric", true);
+  const std::filesystem::path dir = files.parent_path();
+  const std::string datums =
+      "[datum.A]\nfeature = \"plane\"\nextent = { x = [-120, 120], y = [-70, 70] }\n"
+      "[datum.B]\nfeature = \"bore\"\nnominal_size = 20\ndepth = { top = 0, bottom = -30 }\n"
+      "[datum.C]\nfeature = \"slot\"\nbasic = [0, -45]\nnominal_size = 6.02\n";
+  const std::string bore =
+      "[[bore]]\nid = \"P1\"\nbasic = [40, 30]\nnominal_size = 10\n"
+      "depth = { top = 0, bottom = -40 }\nposition = { tolerance = 0.05, datums = \"A|B|C\" }\n";
+  std::ofstream(dir / "plan-symmetric.toml")
+      << plan_head() << "[scan]\npoints = \"scan.csv\"\nband = 0.2\n" << datums
+      << "span = [-55, 55]\ndepth = { top = 0, bottom = -8 }\n" << bore;
+  std::ofstream(dir / "plan-one-sided.toml")
+      << plan_head() << "[scan]\npoints = \"scan.csv\"\nband = 0.2\n" << datums
+      << "span = [35, 55]\ndepth = { top = 0, bottom = -8 }\n" << bore;
+  try {
+    load_part_inputs(read_plan(dir / "plan-symmetric.toml"));
+    FAIL("no error");
+  } catch (const InputError& e) {
+    const std::string what = e.what();
+    CHECK_THAT(what, Catch::Contains("key 'scan.placement'"));
+    CHECK_THAT(what, Catch::Contains("the nominal datum features are symmetric: two placements "
+                                     "fit equally"));
+    CHECK_THAT(what, Catch::Contains("give a rough placement"));
+  }
+  // The keyway on one side of B only: one placement, the same points as the plan with the
+  // placement given (the generator's M^-1).
+  const PartInputs found = load_part_inputs(read_plan(dir / "plan-one-sided.toml"));
+  const PartInputs given = load_part_inputs(read_plan(scan_plan));
+  REQUIRE(found.records.size() == given.records.size());
+  for (std::size_t k = 1; k < found.records.size(); ++k) {
+    INFO(found.records[k].role);
+    CHECK(found.records[k].point_lines == given.records[k].point_lines);
+  }
+}
+
+TEST_CASE("no placement: a scan that fits no placement is an error naming the best rms") {
+  const PointCloud cloud = read_points(demo_dir + "scan/manifold-scan.csv");
+  // Datum C moved to where the part has no hole, and datum B given a size no bore has.
+  for (const auto& [from, to] :
+       {std::pair<std::string, std::string>{"basic = [120.0, 0.0]", "basic = [60.0, -30.0]"},
+        {"size = { lower = 20.000, upper = 20.021 }", "size = { lower = 16.000, upper = 16.021 }"}}) {
+    INFO(to);
+    const std::string what = load_problem(demo_without_placement(from, to), cloud);
+    CHECK_THAT(what, Catch::Contains("key 'scan.placement': the scan cannot be placed by the "
+                                     "nominal datums alone: no placement fits: the best of"));
+    CHECK_THAT(what, Catch::Contains("tried (rms "));
+    CHECK_THAT(what, Catch::Contains("give a rough placement"));
+  }
+  // Finding a placement needs A, B and C from the scan; an unknown word is refused.
+  const std::string a = "[datum.A]\nfeature = \"plane\"\nextent = { x = [-10, 90], y = [-5, 50] }\n";
+  const std::string b =
+      "[datum.B]\nfeature = \"bore\"\nnominal_size = 20\ndepth = { top = 0, bottom = -30 }\n";
+  const std::string bore =
+      "[[bore]]\nid = \"P1\"\nbasic = [20, 20]\nnominal_size = 10\n"
+      "depth = { top = 0, bottom = -30 }\nposition = { tolerance = 0.03, datums = \"A|B\" }\n";
+  CHECK_THAT(problem_of(plan_head() + "[scan]\npoints = \"c.csv\"\nband = 0.2\n" + a + b + bore),
+             Catch::Contains("key 'scan.placement': without a placement (or with placement = "
+                             "\"find\") the scan is placed by the nominal datum features A, B "
+                             "and C, and datum C is not defined"));
+  CHECK_THAT(problem_of(plan_head() + "[scan]\npoints = \"c.csv\"\nband = 0.2\n"
+                                      "placement = \"guess\"\n" + a + b + bore),
+             Catch::Contains("key 'scan.placement': unknown placement \"guess\""));
+}

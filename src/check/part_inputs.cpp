@@ -186,11 +186,8 @@ SegmentedScan segment_part_scan(const PartPlan& plan, const PointCloud& cloud,
     const PlanLocation at = scan.where.at("placement");
     if (found.status != PlacementSearchResult::Status::found)
       throw InputError(plan.file.string(), at.line,
-                       "the scan " + quoted_for_message(scan.points.string()) +
-                           " cannot be placed from the nominal datum features alone: " +
-                           found.message +
-                           "; give a rough placement in [scan] (placement = a 4x4 matrix or "
-                           "{ rotation, translation })",
+                       "the scan cannot be placed by the nominal datums alone: " +
+                           found.message + "; give a rough placement (a 4x4 matrix)",
                        at.key);
     record.registration = found.registration;
     record.placement = found.registration.placement;

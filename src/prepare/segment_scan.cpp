@@ -491,8 +491,8 @@ PlacementSearchResult find_placement(const PointCloud& cloud,
 
   if (candidates.empty()) {
     result.status = PlacementSearchResult::Status::no_match;
-    result.message = "no hypothesis could be formed: the scan shows no plane with a circle of "
-                     "datum B's nominal radius on its walls within B's depth";
+    result.message = "no placement to try: the scan shows no plane with walls of datum B's "
+                     "nominal radius within B's depth";
     return result;
   }
   // Best first: every datum surface taking points, then the most points in the bands, then the
@@ -515,25 +515,22 @@ PlacementSearchResult find_placement(const PointCloud& cloud,
     break;
   }
   const std::string best_text = std::to_string(best.inliers) + " of " + std::to_string(S) +
-                                " sample points within the band, rms " +
-                                mm_text(best.registration.rms);
-  if (!best.every_surface || !(best.registration.rms <= options.acceptance_rms_share * band)) {
+                                " sample points within the band";
+  if (!best.every_surface) {
     result.status = PlacementSearchResult::Status::no_match;
-    result.message = "no placement fits the nominal datum features: the best of " +
-                     std::to_string(result.hypotheses) + " hypotheses has " + best_text +
-                     (best.every_surface ? "" : " and leaves a datum surface without points") +
-                     " (best rms " + mm_text(best.registration.rms) + ", accepted up to " +
-                     mm_text(options.acceptance_rms_share * band) + ")";
+    result.message = "no placement fits: the best of " + std::to_string(result.hypotheses) +
+                     " tried (rms " + mm_text(best.registration.rms) + ") has " + best_text +
+                     " and leaves a datum surface without any";
     return result;
   }
-  if (result.runner_up_distance > 0.0 && candidates.size() > 1 &&
+  if (result.runner_up_distance > 0.0 &&
       static_cast<double>(result.runner_up_inliers) >=
           options.ambiguity_share * static_cast<double>(best.inliers)) {
     result.status = PlacementSearchResult::Status::ambiguous;
-    result.message = "the nominal datum features are symmetric: two placements fit the scan "
-                     "equally well (" + std::to_string(best.inliers) + " and " +
+    result.message = "the nominal datum features are symmetric: two placements fit equally (" +
+                     std::to_string(best.inliers) + " and " +
                      std::to_string(result.runner_up_inliers) +
-                     " sample points within the band) but put the part up to " +
+                     " sample points in the bands) but put the part up to " +
                      mm_text(result.runner_up_distance) + " apart";
     return result;
   }
@@ -553,12 +550,50 @@ PlacementSearchResult find_placement(const PointCloud& cloud,
   last.segment = segment;
   last.max_points = std::max<std::size_t>(1, chosen.size());
   result.registration = register_to_nominal(refine_cloud, best.registration.placement, datums, last);
+  result.best_rms = result.registration.rms;
   if (result.registration.free_directions > 0) {
     result.status = PlacementSearchResult::Status::underdetermined;
     result.message = "the nominal datum features leave " +
                      std::to_string(result.registration.free_directions) +
-                     " direction(s) of motion free, so they cannot place the scan";
+                     " direction(s) of motion free";
     return result;
+  }
+  // Accepted when every datum surface holds enough points closely: a surface matched to the
+  // wrong feature (another radius, another face) keeps only stray points spread over the band,
+  // whose rms is about band / sqrt(3), and a cylinder only short arcs where two circles cross.
+  // C's few points alone fix the turn about B's axis, so they are not enough: at least
+  // `min_points` on each surface, a cylinder's covering `min_coverage_deg` about its axis.
+  const SegmentationResult taken =
+      segment_scan(refine_cloud, result.registration.placement, datums, segment);
+  for (std::size_t k = 0; k < datums.size(); ++k) {
+    double squares = 0.0;
+    for (std::size_t i : taken.surfaces[k].indices) {
+      const double d =
+          bounded_distance(datums[k], placed_point(refine_cloud, result.registration.placement, i));
+      squares += d * d;
+    }
+    const std::size_t n = taken.surfaces[k].indices.size();
+    const double rms = n > 0 ? std::sqrt(squares / static_cast<double>(n))
+                             : std::numeric_limits<double>::infinity();
+    const double coverage = taken.surfaces[k].angular_coverage_deg.value_or(360.0);
+    if (n < options.min_points || !(rms <= options.acceptance_rms_share * band) ||
+        coverage < options.min_coverage_deg) {
+      result.status = PlacementSearchResult::Status::no_match;
+      const bool arc = taken.surfaces[k].angular_coverage_deg.has_value();
+      result.message = "no placement fits: the best of " + std::to_string(result.hypotheses) +
+                       " tried (rms " + mm_text(result.best_rms) + ") leaves " + datums[k].name +
+                       " " + std::to_string(n) + " points" +
+                       (n > 0 ? ", rms " + mm_text(rms) : std::string()) +
+                       (arc ? ", " + std::to_string(static_cast<int>(coverage)) + " deg around"
+                            : std::string()) +
+                       " (needed: " + std::to_string(options.min_points) + ", " +
+                       mm_text(options.acceptance_rms_share * band) +
+                       (arc ? ", " + std::to_string(static_cast<int>(options.min_coverage_deg)) +
+                                  " deg"
+                            : std::string()) +
+                       ")";
+      return result;
+    }
   }
   result.status = PlacementSearchResult::Status::found;
   result.message = "placement found from " + std::to_string(result.hypotheses) +

@@ -166,6 +166,10 @@ struct PlacementSearchOptions {
   /// The found placement is accepted when every datum surface takes points and the rms
   /// distance of the points in the datums' bands is at most this share of the band.
   double acceptance_rms_share = 1.0 / 3.0;
+  /// ... and holds at least this many points, a cylinder covering at least this arc about
+  /// its axis (degrees).
+  std::size_t min_points = 8;
+  double min_coverage_deg = 90.0;
 };
 
 struct PlacementSearchResult {
