@@ -280,6 +280,17 @@ namespace {
 
 const std::string demo_dir = std::string(CYLZONE_SOURCE_DIR) + "/point-clouds/valve-manifold/";
 
+/// The scan's `feature` column: each feature's file lines (the generator's truth).
+std::map<std::string, std::vector<std::size_t>> demo_scan_truth() {
+  std::ifstream in(demo_dir + "scan/manifold-scan.csv");
+  std::string row;
+  std::getline(in, row);
+  std::map<std::string, std::vector<std::size_t>> truth;
+  for (std::size_t line = 2; std::getline(in, row); ++line)
+    truth[row.substr(row.rfind(',') + 1)].push_back(line);
+  return truth;
+}
+
 std::string plan_head() {
   return "format = \"cylzone-plan-1\"\nname = \"scan test\"\nunits = \"mm\"\n";
 }
@@ -384,26 +395,23 @@ TEST_CASE("[scan] plan: reading, and every rule names its key") {
                         "span = [40, 60]\n" + bore),
              Catch::Contains("key 'datum.C.depth': a feature that takes its points from [scan] "
                              "needs its nominal z range"));
-  CHECK_THAT(problem_of(plan_head() + scan + a + b_file +
-                        "[datum.C]\nfeature = \"plane\"\noutward_normal = [1, 0]\n"
-                        "span = [-10, 10]\ndepth = { top = -1, bottom = -9 }\n" + bore),
+  // A plane C with the given keys besides its feature and outward normal.
+  const auto plane_c = [&](const std::string& keys) {
+    return problem_of(plan_head() + scan + a + b_file +
+                      "[datum.C]\nfeature = \"plane\"\noutward_normal = [1, 0]\n" + keys + bore);
+  };
+  CHECK_THAT(plane_c("span = [-10, 10]\ndepth = { top = -1, bottom = -9 }\n"),
              Catch::Contains("key 'datum.C.offset': datum C as a plane takes its points from "
                              "[scan] and needs its nominal face"));
-  CHECK_THAT(problem_of(plan_head() + scan + a + b_file +
-                        "[datum.C]\nfeature = \"plane\"\noutward_normal = [1, 0]\n"
-                        "offset = 60\nspan = [10, -10]\ndepth = { top = -1, bottom = -9 }\n" +
-                        bore),
+  CHECK_THAT(plane_c("offset = 60\nspan = [10, -10]\ndepth = { top = -1, bottom = -9 }\n"),
              Catch::Contains("key 'datum.C.span': the span of C's face must be [low, high]"));
-  CHECK_THAT(problem_of(plan_head() + scan + a + b_file +
-                        "[datum.C]\nfeature = \"plane\"\noutward_normal = [1, 0]\n"
-                        "offset = 2e5\nspan = [-10, 10]\ndepth = { top = -1, bottom = -9 }\n" +
-                        bore),
+  CHECK_THAT(plane_c("offset = 2e5\nspan = [-10, 10]\ndepth = { top = -1, bottom = -9 }\n"),
              Catch::Contains("key 'datum.C.offset'"));
-  CHECK_THAT(problem_of(plan_head() + scan + a + b_file +
-                        "[datum.C]\nfeature = \"plane\"\noutward_normal = [1, 0]\n"
-                        "offset = \"far\"\nspan = [-10, 10]\ndepth = { top = -1, bottom = -9 }\n" +
-                        bore),
+  CHECK_THAT(plane_c("offset = \"far\"\nspan = [-10, 10]\ndepth = { top = -1, bottom = -9 }\n"),
              Catch::Contains("key 'datum.C.offset'"));
+  CHECK_THAT(plane_c("offset = 60\nspan = [-10, 10]\n"),
+             Catch::Contains("key 'datum.C.depth': a feature that takes its points from [scan] "
+                             "needs its nominal z range"));
   CHECK_THAT(problem_of(plan_head() + scan + a + b_file +
                         "[datum.C]\nfeature = \"bore\"\nbasic = [50, 0]\nnominal_size = 6\n"
                         "span = [40, 60]\ndepth = { top = 0, bottom = -8 }\n" + bore),
@@ -588,12 +596,7 @@ TEST_CASE("demo scan: a placement off by more than the band, registered, takes e
   p.rotation = E * p.rotation;
   p.translation = E * p.translation + Eigen::Vector3d(0.25, -0.2, 0.1);
 
-  std::ifstream in(demo_dir + "scan/manifold-scan.csv");
-  std::string row;
-  std::getline(in, row);
-  std::map<std::string, std::vector<std::size_t>> truth;
-  for (std::size_t line = 2; std::getline(in, row); ++line)
-    truth[row.substr(row.rfind(',') + 1)].push_back(line);
+  const std::map<std::string, std::vector<std::size_t>> truth = demo_scan_truth();
   const auto all_rows_taken = [&](const PartInputs& inputs) {
     for (const InputRecord& record : inputs.records)
       if (record.role != "plan" && record.point_lines != truth.at(record.role)) return false;
@@ -816,17 +819,6 @@ TEST_CASE("generated part: a slot C from the scan gives each face its points, th
 }
 
 namespace {
-
-/// The scan's `feature` column: each feature's file lines (the generator's truth).
-std::map<std::string, std::vector<std::size_t>> demo_scan_truth() {
-  std::ifstream in(demo_dir + "scan/manifold-scan.csv");
-  std::string row;
-  std::getline(in, row);
-  std::map<std::string, std::vector<std::size_t>> truth;
-  for (std::size_t line = 2; std::getline(in, row); ++line)
-    truth[row.substr(row.rfind(',') + 1)].push_back(line);
-  return truth;
-}
 
 /// The plan-scan.toml demo with no placement (placement = "find").
 PartPlan demo_without_placement(const std::string& replace_from = {},
