@@ -158,6 +158,14 @@ std::vector<NominalSurface> surfaces_of(const std::vector<ScanFeature>& features
   return surfaces;
 }
 
+/// The datum features' surfaces (A, B, then C's), which the placement is found or refined on.
+std::vector<NominalSurface> datum_surfaces(const std::vector<NominalSurface>& surfaces) {
+  std::vector<NominalSurface> datums;
+  for (const NominalSurface& s : surfaces)
+    if (s.name.rfind("datum ", 0) == 0) datums.push_back(s);
+  return datums;
+}
+
 }  // namespace
 
 std::vector<NominalSurface> scan_surfaces(const PartPlan& plan) {
@@ -177,9 +185,7 @@ SegmentedScan segment_part_scan(const PartPlan& plan, const PointCloud& cloud,
   if (scan.find_placement) {
     // No placement given: found from the cloud and the nominal datum features alone, then
     // refined as `register` does (find_placement).
-    std::vector<NominalSurface> datums;
-    for (const NominalSurface& s : surfaces)
-      if (s.name.rfind("datum ", 0) == 0) datums.push_back(s);
+    const std::vector<NominalSurface> datums = datum_surfaces(surfaces);
     PlacementSearchOptions search;
     search.segment = options;
     PlacementSearchResult found = find_placement(cloud, datums, search);
@@ -196,9 +202,7 @@ SegmentedScan segment_part_scan(const PartPlan& plan, const PointCloud& cloud,
   } else if (scan.register_placement) {
     // The rough placement refined on the datum features alone (they define the frame the
     // nominal geometry is given in); then every feature is segmented with it.
-    std::vector<NominalSurface> datums;
-    for (const NominalSurface& s : surfaces)
-      if (s.name.rfind("datum ", 0) == 0) datums.push_back(s);
+    const std::vector<NominalSurface> datums = datum_surfaces(surfaces);
     RegistrationOptions registration;
     registration.segment = options;
     try {
