@@ -986,3 +986,33 @@ TEST_CASE("no placement: a scan that fits no placement is an error naming the be
                                       "placement = \"guess\"\n" + a + b + bore),
              Catch::Contains("key 'scan.placement': unknown placement \"guess\""));
 }
+
+TEST_CASE("find_placement: too few points, or no datum C, is refused with a status, not a crash") {
+  // Three datum surfaces: A, B (radius 10, z in [-30, 0]), C (radius 4 at x = 120).
+  NominalSurface a;
+  a.kind = NominalSurface::Kind::plane;
+  a.name = "datum A";
+  a.u_low = -20.0;
+  a.u_high = 140.0;
+  a.v_low = -20.0;
+  a.v_high = 40.0;
+  NominalSurface b;
+  b.name = "datum B";
+  b.radius = 10.0;
+  b.low = -30.0;
+  NominalSurface c = b;
+  c.name = "datum C";
+  c.origin = Eigen::Vector3d(120.0, 0.0, 0.0);
+  c.radius = 4.0;
+  PointCloud few;
+  few.points = Eigen::Matrix3Xd::Random(3, 3);
+  PlacementSearchOptions options;
+  options.segment.band = 0.1;
+  const PlacementSearchResult none = find_placement(few, {a, b, c}, options);
+  CHECK(none.status == PlacementSearchResult::Status::no_match);
+  CHECK_THAT(none.message, Catch::Contains("no placement to try"));
+  const PlacementSearchResult free = find_placement(few, {a, b}, options);
+  CHECK(free.status == PlacementSearchResult::Status::underdetermined);
+  CHECK_THAT(free.message, Catch::Contains("leave the rotation about B's axis free"));
+  CHECK_THROWS_AS(find_placement(few, {b, a, c}, options), std::invalid_argument);
+}

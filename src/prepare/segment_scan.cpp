@@ -164,6 +164,7 @@ PointCloud oriented_sample(const PointCloud& cloud, std::size_t most) {
     }
   } else {
     const std::vector<std::size_t> dense = ranked_sample(cloud, std::max<std::size_t>(most, 100000));
+    if (dense.size() < 4) return out;  // too few points for a neighbourhood
     Eigen::Matrix3Xd at(3, static_cast<Eigen::Index>(dense.size()));
     for (std::size_t k = 0; k < dense.size(); ++k)
       at.col(static_cast<Eigen::Index>(k)) = cloud.points.col(static_cast<Eigen::Index>(dense[k]));
