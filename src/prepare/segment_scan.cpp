@@ -492,8 +492,12 @@ PlacementSearchResult find_placement(const PointCloud& cloud,
 
   if (candidates.empty()) {
     result.status = PlacementSearchResult::Status::no_match;
-    result.message = "no placement to try: the scan shows no plane with walls of datum B's "
-                     "nominal radius within B's depth";
+    result.message = std::string("no placement to try: the scan shows no plane with walls of "
+                                 "datum B's nominal radius within B's depth") +
+                     (cloud.has_vectors()
+                          ? ""
+                          : " (the cloud has no vectors: normals from 12 nearest neighbours "
+                            "need a dense scan, not points probed in rings)");
     return result;
   }
   // Best first: every datum surface taking points, then the most points in the bands, then the
