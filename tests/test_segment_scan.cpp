@@ -1016,3 +1016,72 @@ TEST_CASE("find_placement: too few points, or no datum C, is refused with a stat
   CHECK_THAT(free.message, Catch::Contains("leave the rotation about B's axis free"));
   CHECK_THROWS_AS(find_placement(few, {b, a, c}, options), std::invalid_argument);
 }
+
+TEST_CASE("find_placement: a dense scan without vectors is placed by estimated normals") {
+  // The test's own scanner-like cloud (uniform random points, 1 um noise): face A (z = 0,
+  // x in [-20, 140], y in [-20, 75], clear of the holes), bore B (20 mm, 30 deep) at the origin,
+  // bore C (8 mm, 20 deep) at (120, 0), two bores of 10 and 12 mm, a side face; no vectors, in
+  // a scanner pose M. The placement found must be M^-1 to the noise, and segment the cloud as
+  // M^-1 does (the generator's truth, PCA normals: Hoppe et al. 1992).
+  struct Hole { double x, y, d, depth; };
+  const std::vector<Hole> holes = {{0, 0, 20, 30}, {120, 0, 8, 20}, {25, 25, 10, 60}, {85, 55, 12, 56}};
+  std::mt19937 random(424242);
+  std::uniform_real_distribution<double> unit(0.0, 1.0);
+  std::normal_distribution<double> noise(0.0, 0.001);
+  std::vector<Eigen::Vector3d> points;
+  for (int i = 0; i < 40000; ++i) {
+    const double pick = unit(random);
+    if (pick < 0.35) {
+      const Eigen::Vector3d p(-20 + 160 * unit(random), -20 + 95 * unit(random), noise(random));
+      bool clear = true;
+      for (const Hole& h : holes) clear = clear && std::hypot(p.x() - h.x, p.y() - h.y) > h.d / 2 + 1;
+      if (clear) points.push_back(p);
+    } else if (pick < 0.95) {
+      const Hole& h = holes[static_cast<std::size_t>(4 * unit(random)) % 4];
+      const double phi = 2 * kPi * unit(random), r = h.d / 2 + noise(random);
+      points.emplace_back(h.x + r * std::cos(phi), h.y + r * std::sin(phi),
+                          -1.0 - (h.depth - 2.0) * unit(random));
+    } else {
+      points.emplace_back(-30.0, -30 + 115 * unit(random), -3 - 60 * unit(random));
+    }
+  }
+  RigidPlacement truth;  // scanner -> part; the cloud is made in its inverse (in_scanner)
+  truth.rotation = Eigen::AngleAxisd(2.4, Eigen::Vector3d(-0.3, 0.8, 0.5).normalized()).toRotationMatrix();
+  truth.translation = Eigen::Vector3d(-812.0, 1430.5, 96.25);
+  const PointCloud cloud = in_scanner(points, {}, truth);
+  NominalSurface a;
+  a.kind = NominalSurface::Kind::plane;
+  a.name = "datum A";
+  a.u_low = -20.0;
+  a.u_high = 140.0;
+  a.v_low = -20.0;
+  a.v_high = 75.0;
+  std::vector<NominalSurface> datums = {a};
+  for (std::size_t k = 0; k < 2; ++k) {
+    NominalSurface s;
+    s.name = k == 0 ? "datum B" : "datum C";
+    s.origin = Eigen::Vector3d(holes[k].x, holes[k].y, 0.0);
+    s.radius = holes[k].d / 2;
+    s.low = -holes[k].depth;
+    datums.push_back(s);
+  }
+  PlacementSearchOptions options;
+  options.segment.band = 0.05;
+  const PlacementSearchResult found = find_placement(cloud, datums, options);
+  INFO(found.message);
+  REQUIRE(found.status == PlacementSearchResult::Status::found);
+  double most = 0.0;
+  for (const Eigen::Vector3d& p : points)
+    most = std::max(most, (found.registration.placement.rotation *
+                               (truth.rotation.transpose() * (p - truth.translation)) +
+                           found.registration.placement.translation - p)
+                              .norm());
+  CHECK(most < 0.005);
+  const SegmentationResult by_found =
+      segment_scan(cloud, found.registration.placement, datums, options.segment);
+  const SegmentationResult by_truth = segment_scan(cloud, truth, datums, options.segment);
+  for (std::size_t k = 0; k < datums.size(); ++k) {
+    INFO(datums[k].name);
+    CHECK(by_found.surfaces[k].indices == by_truth.surfaces[k].indices);
+  }
+}
