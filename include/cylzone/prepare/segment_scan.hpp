@@ -4,7 +4,8 @@
 /// pin's cylinder, a datum plane) takes the points that lie within a band about it.
 ///
 /// Method (docs/methods.md, "Segmenting a whole-part scan"). The cloud is first mapped into the
-/// part's nominal coordinates by a rough placement p' = R p + t (a rigid motion). A point is a
+/// part's nominal coordinates by a rough placement p' = R p + t (a rigid motion): the plan's,
+/// refined by register_to_nominal, or found from nothing by find_placement. A point is a
 /// candidate of a surface when
 ///  * cylinder (axis through `origin` along unit `direction`, radius R, axial parameter
 ///    s = direction . (p' - origin) in [s_low - margin, s_high + margin]):
