@@ -873,7 +873,8 @@ TEST_CASE("datum C as a slot or a tab", "[plan][slot]") {
     check_error(replaced(slot, "basic = [0.0, -45.0]", "basic = [0.0, -45.0]\n"
                                                         "outward_normal = [0, -1]"),
                 "outward_normal", "datum.C.outward_normal",
-                "unknown key for datum C as a slot (allowed: feature, points, basic, size, mmb, probe)");
+                "unknown key for datum C as a slot (allowed: feature, points, basic, size, mmb, probe, "
+                "nominal_size, depth, span)");
     check_error(replaced(tab, "basic = [0.0, -45.0]", "basic = [0.0, -45.0]\n"
                                                        "material_side = [0, 1, 0]"),
                 "material_side", "datum.C.material_side", "unknown key for datum C as a tab");

@@ -12,6 +12,8 @@
 #include <Eigen/Geometry>
 #include <algorithm>
 #include <cmath>
+#include <cstdio>
+#include <filesystem>
 #include <fstream>
 #include <limits>
 #include <map>
@@ -278,6 +280,17 @@ namespace {
 
 const std::string demo_dir = std::string(CYLZONE_SOURCE_DIR) + "/point-clouds/valve-manifold/";
 
+/// The scan's `feature` column: each feature's file lines (the generator's truth).
+std::map<std::string, std::vector<std::size_t>> demo_scan_truth() {
+  std::ifstream in(demo_dir + "scan/manifold-scan.csv");
+  std::string row;
+  std::getline(in, row);
+  std::map<std::string, std::vector<std::size_t>> truth;
+  for (std::size_t line = 2; std::getline(in, row); ++line)
+    truth[row.substr(row.rfind(',') + 1)].push_back(line);
+  return truth;
+}
+
 std::string plan_head() {
   return "format = \"cylzone-plan-1\"\nname = \"scan test\"\nunits = \"mm\"\n";
 }
@@ -368,7 +381,59 @@ TEST_CASE("[scan] plan: reading, and every rule names its key") {
   CHECK_THAT(problem_of(plan_head() + scan + a +
                         "[datum.B]\nfeature = \"bore\"\npoints = \"b.csv\"\n"
                         "[datum.C]\nfeature = \"slot\"\nbasic = [50, 0]\n" + bore),
-             Catch::Contains("key 'datum.C.points': datum C as a slot takes no points from [scan]"));
+             Catch::Contains("key 'datum.C.nominal_size': datum C takes its points from [scan] "
+                             "and needs its nominal width"));
+  // A plane, slot or tab C from the scan: its nominal face (docs/plan.md, rules 31 and 38).
+  const std::string b_file = "[datum.B]\nfeature = \"bore\"\npoints = \"b.csv\"\n";
+  CHECK_THAT(problem_of(plan_head() + scan + a + b_file +
+                        "[datum.C]\nfeature = \"slot\"\nbasic = [50, 0]\nnominal_size = 6\n"
+                        "depth = { top = 0, bottom = -8 }\n" + bore),
+             Catch::Contains("key 'datum.C.span': datum C as a slot takes its points from [scan] "
+                             "and needs the nominal length of its face"));
+  CHECK_THAT(problem_of(plan_head() + scan + a + b_file +
+                        "[datum.C]\nfeature = \"tab\"\nbasic = [50, 0]\nnominal_size = 6\n"
+                        "span = [40, 60]\n" + bore),
+             Catch::Contains("key 'datum.C.depth': a feature that takes its points from [scan] "
+                             "needs its nominal z range"));
+  // A plane C with the given keys besides its feature and outward normal.
+  const auto plane_c = [&](const std::string& keys) {
+    return problem_of(plan_head() + scan + a + b_file +
+                      "[datum.C]\nfeature = \"plane\"\noutward_normal = [1, 0]\n" + keys + bore);
+  };
+  CHECK_THAT(plane_c("span = [-10, 10]\ndepth = { top = -1, bottom = -9 }\n"),
+             Catch::Contains("key 'datum.C.offset': datum C as a plane takes its points from "
+                             "[scan] and needs its nominal face"));
+  CHECK_THAT(plane_c("offset = 60\nspan = [10, -10]\ndepth = { top = -1, bottom = -9 }\n"),
+             Catch::Contains("key 'datum.C.span': the span of C's face must be [low, high]"));
+  CHECK_THAT(plane_c("offset = 2e5\nspan = [-10, 10]\ndepth = { top = -1, bottom = -9 }\n"),
+             Catch::Contains("key 'datum.C.offset'"));
+  CHECK_THAT(plane_c("offset = \"far\"\nspan = [-10, 10]\ndepth = { top = -1, bottom = -9 }\n"),
+             Catch::Contains("key 'datum.C.offset'"));
+  CHECK_THAT(plane_c("offset = 60\nspan = [-10, 10]\n"),
+             Catch::Contains("key 'datum.C.depth': a feature that takes its points from [scan] "
+                             "needs its nominal z range"));
+  CHECK_THAT(problem_of(plan_head() + scan + a + b_file +
+                        "[datum.C]\nfeature = \"bore\"\nbasic = [50, 0]\nnominal_size = 6\n"
+                        "span = [40, 60]\ndepth = { top = 0, bottom = -8 }\n" + bore),
+             Catch::Contains("key 'datum.C.span': unknown key for datum C as a bore"));
+  {
+    const PartPlan slot = parse_plan(
+        plan_head() + scan + a + b_file +
+            "[datum.C]\nfeature = \"slot\"\nbasic = [0, -45]\nsize = { lower = 6, upper = 6.03 }\n"
+            "span = [35, 55]\ndepth = { top = 0, bottom = -8 }\n" + bore,
+        "/tmp/scan-plan.toml", false);
+    // The faces at +-3.0075 (the middle of the width's limits, halved) from the centre plane
+    // x = 0 (basic toward -y): left of the centre line looking from B toward C is +x.
+    const std::vector<NominalSurface> faces = scan_surfaces(slot);
+    REQUIRE(faces.size() == 4);
+    CHECK(faces[1].name == "datum C left face");
+    CHECK(faces[1].origin.isApprox(Eigen::Vector3d(3.0075, 0, 0)));
+    CHECK(faces[2].origin.isApprox(Eigen::Vector3d(-3.0075, 0, 0)));
+    CHECK(std::abs(faces[1].direction.x()) == Approx(1.0));
+    CHECK(faces[1].u_axis.isApprox(Eigen::Vector3d(0, -1, 0)));
+    CHECK(faces[1].u_low == 35.0);
+    CHECK(faces[1].v_low == -8.0);
+  }
   CHECK_THAT(problem_of(plan_head() + scan + "[datum.A]\nfeature = \"plane\"\npoints = \"a.csv\"\n" +
                         "[[bore]]\nid = \"P1\"\npoints = \"p.csv\"\nbasic = [20, 20]\n"
                         "position = { tolerance = 0.03, datums = \"A\" }\n"),
@@ -531,12 +596,7 @@ TEST_CASE("demo scan: a placement off by more than the band, registered, takes e
   p.rotation = E * p.rotation;
   p.translation = E * p.translation + Eigen::Vector3d(0.25, -0.2, 0.1);
 
-  std::ifstream in(demo_dir + "scan/manifold-scan.csv");
-  std::string row;
-  std::getline(in, row);
-  std::map<std::string, std::vector<std::size_t>> truth;
-  for (std::size_t line = 2; std::getline(in, row); ++line)
-    truth[row.substr(row.rfind(',') + 1)].push_back(line);
+  const std::map<std::string, std::vector<std::size_t>> truth = demo_scan_truth();
   const auto all_rows_taken = [&](const PartInputs& inputs) {
     for (const InputRecord& record : inputs.records)
       if (record.role != "plan" && record.point_lines != truth.at(record.role)) return false;
@@ -580,4 +640,448 @@ TEST_CASE("demo scan: a placement off by more than the band, registered, takes e
   const double ls_tilt = g["datums"]["A"]["least_squares_plane_tilt_rad"].get<double>();
   CHECK(angle == Approx(ls_tilt).margin(2e-6));
   CHECK((back - middle).norm() < 0.005);
+}
+
+namespace {
+
+/// A generated part (the test's own construction, in the part's nominal frame): face A (z = 0,
+/// a 2 um crown below it) over [-30, 110] x [-60, 70] without its holes; bore B (20 mm, lobed 2
+/// um, z in [-28, -2]) at the origin; bore P1 (10 mm) at (40, 30), its axis tilted by 0.1 mrad
+/// and off by 3 um; datum C either a side face x = 110 (a plane, outward normal +x) or a
+/// keyway 6.02 mm wide from B toward -y (a slot, faces at x = +-3.01, y in [-53, -37]); and
+/// points of faces no feature names (the block's other sides), which must be left over. The
+/// cloud is moved into "machine" coordinates by a rigid motion M; the plan's placement is M^-1.
+struct GeneratedPart {
+  std::vector<std::pair<std::string, Eigen::Vector3d>> rows;  // feature (or "none"), point
+};
+
+GeneratedPart generated_part(bool slot) {
+  GeneratedPart part;
+  const auto add = [&](const std::string& feature, const Eigen::Vector3d& p) {
+    part.rows.emplace_back(feature, p);
+  };
+  const auto in_hole = [&](double x, double y) {
+    return std::hypot(x, y) < 12.0 || std::hypot(x - 40.0, y - 30.0) < 7.0 ||
+           (slot && std::abs(x) < 5.0 && y < -33.0);
+  };
+  for (double x = -30.0; x <= 110.0; x += 5.0)
+    for (double y = -60.0; y <= 70.0; y += 5.0)
+      if (!in_hole(x, y))
+        add("datum A", {x, y, -2e-3 * (1.0 - std::cos(0.05 * x) * std::cos(0.07 * y))});
+  for (int level = 0; level < 6; ++level)
+    for (int k = 0; k < 16; ++k) {
+      const double t = 2.0 * kPi * k / 16.0 + 0.1 * level, z = -2.0 - 5.2 * level;
+      const double r = 10.004 + 0.002 * std::cos(3.0 * t);
+      add("datum B", {r * std::cos(t), r * std::sin(t), z});
+      const double z1 = -2.0 - 7.0 * level;
+      const double r1 = 5.006 + 0.001 * std::sin(2.0 * t);
+      add("bore P1", {40.003 + 1e-4 * z1 + r1 * std::cos(t), 30.0 + r1 * std::sin(t), z1});
+    }
+  for (int i = 0; i < 9; ++i)
+    for (int j = 0; j < 4; ++j) {
+      const double u = slot ? 37.0 + 2.0 * i : -20.0 + 10.0 * i, z = -2.0 - (slot ? 2.0 : 5.0) * j;
+      const double form = 1.5e-3 * std::sin(0.7 * i + 1.3 * j);
+      if (slot) {
+        add("datum C", {3.01 + form, -u, z});
+        add("datum C", {-3.01 - form, -u - 0.5, z});
+      } else {
+        add("datum C", {110.0 + form, u, z});
+      }
+    }
+  for (int i = 0; i < 20; ++i)  // the other sides of the block: nobody's points
+    add("none", {-30.0 + 7.0 * i, 75.0, -3.0 - 2.0 * (i % 5)});
+  // A fixed shuffle (the test's own), so that each feature's rows are spread over the cloud.
+  std::mt19937 random(20261203);
+  for (std::size_t i = part.rows.size() - 1; i > 0; --i)
+    std::swap(part.rows[i], part.rows[random() % (i + 1)]);
+  return part;
+}
+
+RigidPlacement machine_motion() {
+  RigidPlacement m;
+  m.rotation = Eigen::AngleAxisd(0.8, Eigen::Vector3d(0.2, -0.9, 0.4).normalized()).toRotationMatrix();
+  m.translation = Eigen::Vector3d(312.5, -140.25, 88.0);
+  return m;
+}
+
+std::string point_row(const Eigen::Vector3d& p) {
+  char text[96];
+  std::snprintf(text, sizeof text, "%.9f,%.9f,%.9f\n", p.x(), p.y(), p.z());
+  return text;
+}
+
+/// Writes the part as per-feature files and as one scan (the very same text for each point)
+/// with both plans; returns {per-feature plan, scan plan}.
+std::pair<std::filesystem::path, std::filesystem::path> write_generated_part(
+    const std::string& name, bool slot) {
+  const std::filesystem::path dir = std::filesystem::temp_directory_path() / name;
+  std::filesystem::create_directories(dir);
+  const GeneratedPart part = generated_part(slot);
+  const RigidPlacement m = machine_motion();
+  std::map<std::string, std::string> files;
+  std::string scan = "x,y,z\n";
+  for (const auto& [feature, p] : part.rows) {
+    const std::string row = point_row(m.rotation * p + m.translation);
+    scan += row;
+    files[feature] += row;
+  }
+  const auto write = [&](const std::string& file, const std::string& text) {
+    std::ofstream(dir / file) << text;
+  };
+  write("scan.csv", scan);
+  for (const auto& [feature, text] : files)
+    if (feature != "none") write(feature.substr(feature.find(' ') + 1) + ".csv", "x,y,z\n" + text);
+  // The placement maps the machine's coordinates into the part's: M^-1.
+  const Eigen::Matrix3d R = m.rotation.transpose();
+  const Eigen::Vector3d t = -(R * m.translation);
+  std::string placement = "placement = [\n";
+  char text[200];
+  for (int i = 0; i < 3; ++i) {
+    std::snprintf(text, sizeof text, "  [%.17g, %.17g, %.17g, %.17g],\n", R(i, 0), R(i, 1),
+                  R(i, 2), t[i]);
+    placement += text;
+  }
+  placement += "  [0, 0, 0, 1]]\n";
+  const std::string c_files =
+      slot ? "[datum.C]\nfeature = \"slot\"\nbasic = [0, -45]\npoints = \"C.csv\"\n"
+           : "[datum.C]\nfeature = \"plane\"\noutward_normal = [1, 0]\npoints = \"C.csv\"\n";
+  const std::string c_scan =
+      slot ? "[datum.C]\nfeature = \"slot\"\nbasic = [0, -45]\nnominal_size = 6.02\n"
+             "span = [35, 55]\ndepth = { top = 0, bottom = -8 }\n"
+           : "[datum.C]\nfeature = \"plane\"\noutward_normal = [1, 0]\noffset = 110\n"
+             "span = [-25, 65]\ndepth = { top = -1, bottom = -19 }\n";
+  const std::string bore =
+      "[[bore]]\nid = \"P1\"\nbasic = [40, 30]\nsize = { lower = 10, upper = 10.02 }\n"
+      "position = { tolerance = 0.05, modifier = \"MMC\", datums = \"A|B|C\" }\n"
+      "perpendicularity = { tolerance = 0.02 }\n";
+  write("plan.toml", plan_head() +
+                         "[datum.A]\nfeature = \"plane\"\npoints = \"A.csv\"\n"
+                         "[datum.B]\nfeature = \"bore\"\npoints = \"B.csv\"\n" +
+                         c_files + bore + "points = \"P1.csv\"\ndepth = { top = 0, bottom = -40 }\n");
+  write("plan-scan.toml",
+        plan_head() + "[scan]\npoints = \"scan.csv\"\nband = 0.2\n" + placement +
+            "[datum.A]\nfeature = \"plane\"\nextent = { x = [-32, 112], y = [-62, 72] }\n"
+            "[datum.B]\nfeature = \"bore\"\nnominal_size = 20\ndepth = { top = 0, bottom = -30 }\n" +
+            c_scan + bore + "nominal_size = 10\ndepth = { top = 0, bottom = -40 }\n");
+  return {dir / "plan.toml", dir / "plan-scan.toml"};
+}
+
+/// Same points, same answer: the scan's features hold exactly the files' points, and every
+/// figure agrees to 1e-9 mm.
+void same_as_files(const std::filesystem::path& files_plan, const std::filesystem::path& scan_plan) {
+  const PartPlan by_files_plan = read_plan(files_plan);
+  const PartPlan by_scan_plan = read_plan(scan_plan);
+  const PartInputs files = load_part_inputs(by_files_plan);
+  const PartInputs scan = load_part_inputs(by_scan_plan);
+  REQUIRE(scan.scan);
+  CHECK(scan.scan->unassigned == 20);
+  for (std::size_t k = 0; k < files.datums.size(); ++k) {
+    INFO("datum " << by_files_plan.datums[k].label);
+    CHECK(scan.datums[k].points == files.datums[k].points);
+  }
+  CHECK(scan.bores[0].points == files.bores[0].points);
+  const PartCheckResult a = check_part(by_files_plan, files);
+  const PartCheckResult b = check_part(by_scan_plan, scan);
+  REQUIRE(a.characteristics.size() == b.characteristics.size());
+  REQUIRE(!a.characteristics.empty());
+  for (std::size_t i = 0; i < a.characteristics.size(); ++i) {
+    INFO(a.characteristics[i].id);
+    CHECK(b.characteristics[i].id == a.characteristics[i].id);
+    CHECK(b.characteristics[i].value == Approx(a.characteristics[i].value).margin(1e-9));
+    CHECK(b.characteristics[i].allowed == Approx(a.characteristics[i].allowed).margin(1e-9));
+    CHECK(b.characteristics[i].verdict == a.characteristics[i].verdict);
+  }
+}
+
+}  // namespace
+
+TEST_CASE("generated part: a plane C from the scan gives the per-feature files' points and figures") {
+  const auto [files, scan] = write_generated_part("cylzone-scanreg-plane-c", false);
+  same_as_files(files, scan);
+  const PartInputs inputs = load_part_inputs(read_plan(scan));
+  CHECK(inputs.scan->features[2].role == "datum C");
+  CHECK(inputs.scan->features[2].points == 36);
+  CHECK(inputs.scan->features[2].face_points.empty());
+}
+
+TEST_CASE("generated part: a slot C from the scan gives each face its points, the datum both") {
+  const auto [files, scan] = write_generated_part("cylzone-scanreg-slot-c", true);
+  same_as_files(files, scan);
+  const PartInputs inputs = load_part_inputs(read_plan(scan));
+  const FeatureSegmentation& c = inputs.scan->features[2];
+  CHECK(c.role == "datum C");
+  CHECK(c.points == 72);
+  CHECK(c.face_points == std::vector<std::size_t>{36, 36});
+  // The datum's cloud is its two faces' points in the cloud's order, as a file of them is.
+  const InputRecord& record = inputs.records[3];
+  CHECK(record.role == "datum C");
+  CHECK(std::is_sorted(record.point_lines.begin(), record.point_lines.end()));
+}
+
+namespace {
+
+/// The plan-scan.toml demo with no placement (placement = "find").
+PartPlan demo_without_placement(const std::string& replace_from = {},
+                                const std::string& replace_to = {}) {
+  std::ifstream in(demo_dir + "plan-scan.toml");
+  std::stringstream text;
+  text << in.rdbuf();
+  std::string plan = text.str();
+  const std::size_t from = plan.find("placement = [");
+  const std::size_t to = plan.find("\n]\n", from);
+  REQUIRE(from != std::string::npos);
+  REQUIRE(to != std::string::npos);
+  plan.replace(from, to + 3 - from, "placement = \"find\"\n");
+  if (!replace_from.empty()) {
+    REQUIRE(plan.find(replace_from) != std::string::npos);
+    plan.replace(plan.find(replace_from), replace_from.size(), replace_to);
+  }
+  return parse_plan(plan, demo_dir + "plan-scan-find.toml");
+}
+
+std::string load_problem(const PartPlan& plan, const PointCloud& cloud) {
+  try {
+    segment_part_scan(plan, cloud, "");
+  } catch (const InputError& e) {
+    return e.what();
+  }
+  return "no error";
+}
+
+}  // namespace
+
+TEST_CASE("demo scan: no placement, moved anywhere: the same points per feature, the same figures") {
+  // Results never depend on how the part sat on the machine: the demo scan moved by random
+  // rigid motions (axes anywhere, angles up to 180 degrees, metres away) and placed by
+  // find_placement from the nominal datums alone must give every feature exactly the rows the
+  // generator wrote for it (the scan's `feature` column) and every figure of plan-scan.toml
+  // (its given placement) to 1e-9 mm.
+  const PartPlan given = read_plan(demo_dir + "plan-scan.toml");
+  const PartPlan plan = demo_without_placement();
+  REQUIRE(plan.scan->find_placement);
+  const PointCloud cloud = read_points(plan.scan->points);
+  const std::map<std::string, std::vector<std::size_t>> truth = demo_scan_truth();
+  const PartCheckResult by_given = check_part(given);
+  std::mt19937 random(7031);
+  std::uniform_real_distribution<double> unit(-1.0, 1.0);
+  std::vector<RigidPlacement> found;
+  for (int trial = 0; trial < 4; ++trial) {
+    const Eigen::Vector3d axis = Eigen::Vector3d(unit(random), unit(random), unit(random)).normalized();
+    const double angle = kPi * (0.5 + 0.5 * unit(random));
+    const Eigen::Matrix3d R = Eigen::AngleAxisd(angle, axis).toRotationMatrix();
+    const Eigen::Vector3d t(3000.0 * unit(random), 3000.0 * unit(random), 3000.0 * unit(random));
+    INFO("trial " << trial << ": " << angle << " rad about " << axis.transpose());
+    PointCloud moved = cloud;
+    moved.points = (R * cloud.points).colwise() + t;
+    moved.vectors = R * cloud.vectors;
+    PartPlan moved_plan = plan;
+    for (PlanDatum& d : moved_plan.datums)
+      if (d.material_side) d.material_side = R * *d.material_side;
+    const SegmentedScan scan = segment_part_scan(moved_plan, moved, "");
+    REQUIRE(scan.record.search);
+    PartInputs inputs;
+    inputs.records.push_back({"plan", moved_plan.file, "", 0, {}});
+    for (std::size_t k = 0; k < scan.clouds.size(); ++k) {
+      INFO(scan.record.features[k].role);
+      CHECK(scan.clouds[k].lines == truth.at(scan.record.features[k].role));
+      (k < moved_plan.datums.size() ? inputs.datums : inputs.bores).push_back(scan.clouds[k]);
+    }
+    inputs.scan = scan.record;
+    const PartCheckResult by_found = check_part(moved_plan, inputs);
+    REQUIRE(by_found.characteristics.size() == by_given.characteristics.size());
+    for (std::size_t i = 0; i < by_given.characteristics.size(); ++i) {
+      INFO(by_given.characteristics[i].id);
+      CHECK(by_found.characteristics[i].value ==
+            Approx(by_given.characteristics[i].value).margin(1e-9));
+      CHECK(by_found.characteristics[i].verdict == by_given.characteristics[i].verdict);
+    }
+    // The placement found, taken back through the motion: the same for every motion.
+    RigidPlacement back = scan.record.placement;
+    back.translation += back.rotation * t;
+    back.rotation = back.rotation * R;
+    found.push_back(back);
+  }
+  for (const RigidPlacement& p : found) {
+    const Eigen::Vector3d corner(150.0, 80.0, -64.0);
+    CHECK(((p.rotation * corner + p.translation) -
+           (found[0].rotation * corner + found[0].translation)).norm() < 1e-6);
+  }
+  // The order of the points decides nothing: the cloud reversed gives the same placement.
+  PointCloud reversed = cloud;
+  reversed.points = cloud.points.rowwise().reverse();
+  reversed.vectors = cloud.vectors.rowwise().reverse();
+  reversed.lines.assign(cloud.lines.rbegin(), cloud.lines.rend());
+  const SegmentedScan forward = segment_part_scan(plan, cloud, "");
+  const SegmentedScan backward = segment_part_scan(plan, reversed, "");
+  CHECK((forward.record.placement.rotation - backward.record.placement.rotation).norm() < 1e-12);
+  CHECK((forward.record.placement.translation - backward.record.placement.translation).norm() <
+        1e-9);
+}
+
+TEST_CASE("no placement: symmetric nominal datums are refused, naming the two placements") {
+  // A keyway C whose nominal faces reach across B's axis ([-55, 55]) and a face A whose extent
+  // is symmetric about B: a half turn about B's axis maps the nominal datums onto themselves,
+  // so two placements fit the scan equally and put the part differently. Nothing may choose.
+  const auto [files, scan_plan] = write_generated_part("cylzone-scanreg-symmetric", true);
+  const std::filesystem::path dir = files.parent_path();
+  const std::string datums =
+      "[datum.A]\nfeature = \"plane\"\nextent = { x = [-120, 120], y = [-70, 70] }\n"
+      "[datum.B]\nfeature = \"bore\"\nnominal_size = 20\ndepth = { top = 0, bottom = -30 }\n"
+      "[datum.C]\nfeature = \"slot\"\nbasic = [0, -45]\nnominal_size = 6.02\n";
+  const std::string bore =
+      "[[bore]]\nid = \"P1\"\nbasic = [40, 30]\nnominal_size = 10\n"
+      "depth = { top = 0, bottom = -40 }\nposition = { tolerance = 0.05, datums = \"A|B|C\" }\n";
+  std::ofstream(dir / "plan-symmetric.toml")
+      << plan_head() << "[scan]\npoints = \"scan.csv\"\nband = 0.2\n" << datums
+      << "span = [-55, 55]\ndepth = { top = 0, bottom = -8 }\n" << bore;
+  std::ofstream(dir / "plan-one-sided.toml")
+      << plan_head() << "[scan]\npoints = \"scan.csv\"\nband = 0.2\n" << datums
+      << "span = [35, 55]\ndepth = { top = 0, bottom = -8 }\n" << bore;
+  try {
+    load_part_inputs(read_plan(dir / "plan-symmetric.toml"));
+    FAIL("no error");
+  } catch (const InputError& e) {
+    const std::string what = e.what();
+    CHECK_THAT(what, Catch::Contains("key 'scan.placement'"));
+    CHECK_THAT(what, Catch::Contains("the nominal datum features are symmetric: two placements "
+                                     "fit equally"));
+    CHECK_THAT(what, Catch::Contains("give a rough placement"));
+  }
+  // The keyway on one side of B only: one placement, the same points as the plan with the
+  // placement given (the generator's M^-1).
+  const PartInputs found = load_part_inputs(read_plan(dir / "plan-one-sided.toml"));
+  const PartInputs given = load_part_inputs(read_plan(scan_plan));
+  REQUIRE(found.records.size() == given.records.size());
+  for (std::size_t k = 1; k < found.records.size(); ++k) {
+    INFO(found.records[k].role);
+    CHECK(found.records[k].point_lines == given.records[k].point_lines);
+  }
+}
+
+TEST_CASE("no placement: a scan that fits no placement is an error naming the best rms") {
+  const PointCloud cloud = read_points(demo_dir + "scan/manifold-scan.csv");
+  // Datum C moved to where the part has no hole, and datum B given a size no bore has.
+  for (const auto& [from, to] :
+       {std::pair<std::string, std::string>{"basic = [120.0, 0.0]", "basic = [60.0, -30.0]"},
+        {"size = { lower = 20.000, upper = 20.021 }", "size = { lower = 16.000, upper = 16.021 }"}}) {
+    INFO(to);
+    const std::string what = load_problem(demo_without_placement(from, to), cloud);
+    CHECK_THAT(what, Catch::Contains("key 'scan.placement': the scan cannot be placed by the "
+                                     "nominal datums alone: no placement fits: the best of"));
+    CHECK_THAT(what, Catch::Contains("tried (rms "));
+    CHECK_THAT(what, Catch::Contains("give a rough placement"));
+  }
+  // Finding a placement needs A, B and C from the scan; an unknown word is refused.
+  const std::string a = "[datum.A]\nfeature = \"plane\"\nextent = { x = [-10, 90], y = [-5, 50] }\n";
+  const std::string b =
+      "[datum.B]\nfeature = \"bore\"\nnominal_size = 20\ndepth = { top = 0, bottom = -30 }\n";
+  const std::string bore =
+      "[[bore]]\nid = \"P1\"\nbasic = [20, 20]\nnominal_size = 10\n"
+      "depth = { top = 0, bottom = -30 }\nposition = { tolerance = 0.03, datums = \"A|B\" }\n";
+  CHECK_THAT(problem_of(plan_head() + "[scan]\npoints = \"c.csv\"\nband = 0.2\n" + a + b + bore),
+             Catch::Contains("key 'scan.placement': without a placement (or with placement = "
+                             "\"find\") the scan is placed by the nominal datum features A, B "
+                             "and C, and datum C is not defined"));
+  CHECK_THAT(problem_of(plan_head() + "[scan]\npoints = \"c.csv\"\nband = 0.2\n"
+                                      "placement = \"guess\"\n" + a + b + bore),
+             Catch::Contains("key 'scan.placement': unknown placement \"guess\""));
+}
+
+TEST_CASE("find_placement: too few points, or no datum C, is refused with a status, not a crash") {
+  // Three datum surfaces: A, B (radius 10, z in [-30, 0]), C (radius 4 at x = 120).
+  NominalSurface a;
+  a.kind = NominalSurface::Kind::plane;
+  a.name = "datum A";
+  a.u_low = -20.0;
+  a.u_high = 140.0;
+  a.v_low = -20.0;
+  a.v_high = 40.0;
+  NominalSurface b;
+  b.name = "datum B";
+  b.radius = 10.0;
+  b.low = -30.0;
+  NominalSurface c = b;
+  c.name = "datum C";
+  c.origin = Eigen::Vector3d(120.0, 0.0, 0.0);
+  c.radius = 4.0;
+  PointCloud few;
+  few.points = Eigen::Matrix3Xd::Random(3, 3);
+  PlacementSearchOptions options;
+  options.segment.band = 0.1;
+  const PlacementSearchResult none = find_placement(few, {a, b, c}, options);
+  CHECK(none.status == PlacementSearchResult::Status::no_match);
+  CHECK_THAT(none.message, Catch::Contains("no placement to try"));
+  const PlacementSearchResult free = find_placement(few, {a, b}, options);
+  CHECK(free.status == PlacementSearchResult::Status::underdetermined);
+  CHECK_THAT(free.message, Catch::Contains("leave the rotation about B's axis free"));
+  CHECK_THROWS_AS(find_placement(few, {b, a, c}, options), std::invalid_argument);
+}
+
+TEST_CASE("find_placement: a dense scan without vectors is placed by estimated normals") {
+  // The test's own scanner-like cloud (uniform random points, 1 um noise): face A (z = 0,
+  // x in [-20, 140], y in [-20, 75], clear of the holes), bore B (20 mm, 30 deep) at the origin,
+  // bore C (8 mm, 20 deep) at (120, 0), two bores of 10 and 12 mm, a side face; no vectors, in
+  // a scanner pose M. The placement found must be M^-1 to the noise, and segment the cloud as
+  // M^-1 does (the generator's truth, PCA normals: Hoppe et al. 1992).
+  struct Hole { double x, y, d, depth; };
+  const std::vector<Hole> holes = {{0, 0, 20, 30}, {120, 0, 8, 20}, {25, 25, 10, 60}, {85, 55, 12, 56}};
+  std::mt19937 random(424242);
+  std::uniform_real_distribution<double> unit(0.0, 1.0);
+  std::normal_distribution<double> noise(0.0, 0.001);
+  std::vector<Eigen::Vector3d> points;
+  for (int i = 0; i < 40000; ++i) {
+    const double pick = unit(random);
+    if (pick < 0.35) {
+      const Eigen::Vector3d p(-20 + 160 * unit(random), -20 + 95 * unit(random), noise(random));
+      bool clear = true;
+      for (const Hole& h : holes) clear = clear && std::hypot(p.x() - h.x, p.y() - h.y) > h.d / 2 + 1;
+      if (clear) points.push_back(p);
+    } else if (pick < 0.95) {
+      const Hole& h = holes[static_cast<std::size_t>(4 * unit(random)) % 4];
+      const double phi = 2 * kPi * unit(random), r = h.d / 2 + noise(random);
+      points.emplace_back(h.x + r * std::cos(phi), h.y + r * std::sin(phi),
+                          -1.0 - (h.depth - 2.0) * unit(random));
+    } else {
+      points.emplace_back(-30.0, -30 + 115 * unit(random), -3 - 60 * unit(random));
+    }
+  }
+  RigidPlacement truth;  // scanner -> part; the cloud is made in its inverse (in_scanner)
+  truth.rotation = Eigen::AngleAxisd(2.4, Eigen::Vector3d(-0.3, 0.8, 0.5).normalized()).toRotationMatrix();
+  truth.translation = Eigen::Vector3d(-812.0, 1430.5, 96.25);
+  const PointCloud cloud = in_scanner(points, {}, truth);
+  NominalSurface a;
+  a.kind = NominalSurface::Kind::plane;
+  a.name = "datum A";
+  a.u_low = -20.0;
+  a.u_high = 140.0;
+  a.v_low = -20.0;
+  a.v_high = 75.0;
+  std::vector<NominalSurface> datums = {a};
+  for (std::size_t k = 0; k < 2; ++k) {
+    NominalSurface s;
+    s.name = k == 0 ? "datum B" : "datum C";
+    s.origin = Eigen::Vector3d(holes[k].x, holes[k].y, 0.0);
+    s.radius = holes[k].d / 2;
+    s.low = -holes[k].depth;
+    datums.push_back(s);
+  }
+  PlacementSearchOptions options;
+  options.segment.band = 0.05;
+  const PlacementSearchResult found = find_placement(cloud, datums, options);
+  INFO(found.message);
+  REQUIRE(found.status == PlacementSearchResult::Status::found);
+  double most = 0.0;
+  for (const Eigen::Vector3d& p : points)
+    most = std::max(most, (found.registration.placement.rotation *
+                               (truth.rotation.transpose() * (p - truth.translation)) +
+                           found.registration.placement.translation - p)
+                              .norm());
+  CHECK(most < 0.005);
+  const SegmentationResult by_found =
+      segment_scan(cloud, found.registration.placement, datums, options.segment);
+  const SegmentationResult by_truth = segment_scan(cloud, truth, datums, options.segment);
+  for (std::size_t k = 0; k < datums.size(); ++k) {
+    INFO(datums[k].name);
+    CHECK(by_found.surfaces[k].indices == by_truth.surfaces[k].indices);
+  }
 }

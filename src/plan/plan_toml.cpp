@@ -132,16 +132,18 @@ constexpr auto kDatumAKeys =
     keys("feature", "points", "association", "material_side", "probe", "extent");
 constexpr auto kDatumBKeys =
     keys("feature", "points", "size", "mmb", "probe", "nominal_size", "depth");
-// A bore or pin C may take its points from a [scan] and then gives its nominal size and depth;
-// a slot or tab cannot (its nominal faces are not in the plan).
+// A datum C may take its points from a [scan] and then gives its nominal shape: a bore or pin
+// its nominal size and depth, a slot or tab its nominal width, depth and span along the centre
+// plane, a plane its offset from B's axis, depth and span.
 constexpr auto kDatumCSizeKeys =
     keys("feature", "points", "basic", "size", "mmb", "probe", "nominal_size", "depth");
-constexpr auto kDatumCWidthKeys = keys("feature", "points", "basic", "size", "mmb", "probe");
-constexpr auto kDatumCPlaneKeys =
-    keys("feature", "points", "outward_normal", "material_side", "probe");
+constexpr auto kDatumCWidthKeys =
+    keys("feature", "points", "basic", "size", "mmb", "probe", "nominal_size", "depth", "span");
+constexpr auto kDatumCPlaneKeys = keys("feature", "points", "outward_normal", "material_side",
+                                       "probe", "offset", "depth", "span");
 constexpr auto kDatumCAnyKeys = keys("feature", "points", "basic", "size", "mmb",
                                      "outward_normal", "material_side", "probe", "nominal_size",
-                                     "depth");
+                                     "depth", "offset", "span");
 constexpr auto kBoreKeys =
     keys("id", "points", "basic", "direction", "depth", "size", "axis", "section_gap",
          "position", "perpendicularity", "cylindricity", "axis_direction", "probe",
@@ -511,6 +513,14 @@ class PlanParser {
     if (const toml::node* depth = table.get("depth"))
       std::tie(d.depth_top, d.depth_bottom) = read_depth(*depth, path + ".depth");
     if (const toml::node* extent = table.get("extent")) read_extent(*extent, path + ".extent", d);
+    if (const toml::node* offset = table.get("offset"))
+      d.offset = read_length(*offset, path + ".offset",
+                             "the distance of C's face from B's axis along its outward normal "
+                             "(a number)");
+    if (const toml::node* span = table.get("span"))
+      d.span = read_vector<2>(*span, path + ".span",
+                              "the range [low, high] of C's face along the face (2 numbers)") *
+               mm_per_unit_;
 
     if (label == 'C' && d.kind != FeatureKind::plane) {
       // A bore or pin C is located by its axis; a slot or tab by its centre on A, whose
@@ -664,9 +674,20 @@ class PlanParser {
           read_number(*agreement, "scan.normal_agreement", "an angle in degrees (a number)");
     const std::string expected =
         "the placement of the cloud in the part's coordinates: a 4x4 matrix [[...], [...], "
-        "[...], [0, 0, 0, 1]] or { rotation = [[...], [...], [...]], translation = [x, y, z] }";
-    const toml::node& placement = require(table, "scan", "placement", expected);
-    scan.placement = read_placement(placement, "scan.placement", expected);
+        "[...], [0, 0, 0, 1]], { rotation = [[...], [...], [...]], translation = [x, y, z] } or "
+        "\"find\"";
+    // No placement, or "find": found from the cloud and the nominal datums (find_placement).
+    const toml::node* placement = table.get("placement");
+    if (!placement) {
+      scan.find_placement = true;
+    } else if (const auto* word = placement->as_string()) {
+      if (word->get() != "find")
+        fail(line_of(*placement), "scan.placement",
+             "unknown placement " + quoted_for_message(word->get()) + ": expected " + expected);
+      scan.find_placement = true;
+    } else {
+      scan.placement = read_placement(*placement, "scan.placement", expected);
+    }
     scan.register_placement = read_switch(table, "scan", "register").value_or(false);
     return scan;
   }

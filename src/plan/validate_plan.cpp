@@ -257,6 +257,19 @@ class PlanRules {
            "the normal agreement is an angle in degrees greater than 0 and at most 90 (found " +
                plan_number_text(agreement) + ")");
     check_placement(scan.placement, at.at("placement"));
+    if (scan.find_placement) {
+      // Finding a placement needs the whole frame's nominal features from the scan: A's plane,
+      // B's axis on it, and C to clock it (docs/plan.md, rule 39).
+      for (const char label : {'A', 'B', 'C'}) {
+        const PlanDatum* d = plan_.datum(label);
+        if (!d || !d->from_scan())
+          fail(at.at("placement"),
+               std::string("without a placement (or with placement = \"find\") the scan is "
+                           "placed by the nominal datum features A, B and C, and datum ") +
+                   label + (d ? " names its own points file" : " is not defined") +
+                   ": give a rough placement, a 4x4 matrix or { rotation, translation }");
+      }
+    }
     bool datum = false;
     for (const PlanDatum& d : plan_.datums) datum = datum || d.from_scan();
     if (scan.register_placement && !datum)
@@ -285,21 +298,25 @@ class PlanRules {
     bounded_location(p.translation, at, "the placement's translation");
   }
 
-  /// What segmenting a scan needs of a datum: its nominal shape. A plane C, slot or tab has no
-  /// nominal offset in the plan, so it names its own point file.
+  /// A [low, high] range of a nominal shape (`extent.x`, `span`): bounded, low < high.
+  void check_range(const Eigen::Vector2d& range, const PlanLocation& key,
+                   const std::string& what) const {
+    bounded_location(range, key, what);
+    if (!(range[0] < range[1]))
+      fail(key, what + " must be [low, high] with low < high (found [" + shown(range[0]) + ", " +
+                    shown(range[1]) + "])");
+  }
+
+  /// What segmenting a scan needs of a datum: its nominal shape (docs/plan.md, "[scan]").
   void check_nominal_datum(const PlanDatum& d, const PlanLocation& at) const {
     if (d.nominal_size) positive_length(*d.nominal_size, at.at("nominal_size"), "the nominal size");
     check_depth(d.depth_top, d.depth_bottom, at, false);
-    if (d.extent_x || d.extent_y) {
-      for (const auto& [range, name] : {std::pair{d.extent_x, "x"}, std::pair{d.extent_y, "y"}}) {
-        const PlanLocation key = at.at(std::string("extent.") + name);
-        bounded_location(*range, key, std::string("the extent in ") + name);
-        if (!((*range)[0] < (*range)[1]))
-          fail(key, std::string("the extent in ") + name +
-                        " must be [low, high] with low < high (found [" + shown((*range)[0]) +
-                        ", " + shown((*range)[1]) + "])");
-      }
-    }
+    for (const auto& [range, name] : {std::pair{d.extent_x, "x"}, std::pair{d.extent_y, "y"}})
+      if (range)
+        check_range(*range, at.at(std::string("extent.") + name),
+                    std::string("the extent in ") + name);
+    if (d.span) check_range(*d.span, at.at("span"), "the span of C's face");
+    if (d.offset) bounded_length(*d.offset, at.at("offset"), "the offset of C's face");
     if (!plan_.scan || !d.from_scan()) return;
     const std::string name = std::string("datum ") + d.label;
     if (d.kind == FeatureKind::plane && d.label == 'A') {
@@ -309,14 +326,25 @@ class PlanRules {
                               "(in the frame), or its own points");
       return;
     }
-    if (d.kind != FeatureKind::bore && d.kind != FeatureKind::pin)
-      fail(at.at("points"), name + " as a " + std::string(feature_kind_name(d.kind)) +
-                                " takes no points from [scan] (its nominal offset is not in the "
-                                "plan): give its own points file");
-    if (!d.nominal_size && !d.size)
+    const bool width = d.kind == FeatureKind::slot || d.kind == FeatureKind::tab;
+    const std::string kind(feature_kind_name(d.kind));
+    if (d.kind == FeatureKind::plane) {
+      // A plane C: the face n . p = offset, over `span` along it and `depth` in z.
+      if (!d.offset)
+        fail(at.at("offset"), name + " as a plane takes its points from [scan] and needs its "
+                                     "nominal face: give offset = ..., the distance of the face "
+                                     "from B's axis along outward_normal");
+    } else if (!d.nominal_size && !d.size) {
       fail(at.at("nominal_size"),
-           name + " takes its points from [scan] and needs its nominal size: give "
-                  "nominal_size = ... or size = { lower = ..., upper = ... }");
+           name + " takes its points from [scan] and needs its nominal " +
+               (width ? "width" : "size") +
+               ": give nominal_size = ... or size = { lower = ..., upper = ... }");
+    }
+    if ((d.kind == FeatureKind::plane || width) && !d.span)
+      fail(at.at("span"), name + " as a " + kind +
+                              " takes its points from [scan] and needs the nominal length of its "
+                              "face: give span = [low, high], along the face parallel to A " +
+                              (width ? "(from B's axis toward basic)" : "(across outward_normal)"));
     check_depth(d.depth_top, d.depth_bottom, at, true);
   }
 

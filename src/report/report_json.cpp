@@ -579,9 +579,15 @@ json segmentation_json(const ReportModel& m) {
     registration = {{"iterations", r->iterations}, {"converged", r->converged},
                     {"points", r->points}, {"rms", u.length(r->rms)},
                     {"free_directions", r->free_directions}};
+  json search = nullptr;  // the placement found from the datums alone (no placement given)
+  if (const std::optional<PlacementSearchSummary>& f = s.search)
+    search = {{"hypotheses", f->hypotheses}, {"inliers", f->inliers},
+              {"runner_up_inliers", f->runner_up_inliers},
+              {"runner_up_distance", u.length(f->runner_up_distance)}};
   json features = json::array();
   for (const FeatureSegmentation& f : s.features) {
     json one = {{"role", f.role}, {"points", f.points}};
+    if (!f.face_points.empty()) one["face_points"] = f.face_points;  // a slot's or tab's faces
     if (f.is_cylinder()) {
       one["angular_coverage_deg"] = *f.angular_coverage_deg;
       one["probed_depth"] = u.length(f.probed_span);
@@ -605,6 +611,7 @@ json segmentation_json(const ReportModel& m) {
           {"normal_agreement_deg", s.options.normal_agreement_deg},
           {"normals_used", s.used_vectors},
           {"registration", registration},
+          {"placement_search", search},
           {"features", features}};
 }
 

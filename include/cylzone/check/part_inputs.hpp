@@ -35,7 +35,18 @@ struct FeatureSegmentation {
   std::optional<double> angular_coverage_deg;
   double probed_span = 0.0;   ///< cylinders: axial span of the points taken
   double nominal_span = 0.0;  ///< cylinders: the nominal depth (plan `depth`, along the axis)
+  /// A slot or tab: the points of its left and right face (seen from outside the material,
+  /// looking from B toward C); `points` is their sum. Empty for other features.
+  std::vector<std::size_t> face_points;
   bool is_cylinder() const noexcept { return angular_coverage_deg.has_value(); }
+};
+
+/// How a placement was found from nothing (plan [scan] without a placement; find_placement).
+struct PlacementSearchSummary {
+  std::size_t hypotheses = 0;         ///< placements tried
+  std::size_t inliers = 0;            ///< the best one's sample points within the band
+  std::size_t runner_up_inliers = 0;  ///< the best placement elsewhere: its points
+  double runner_up_distance = 0.0;    ///< mm: how far that one puts the part (0: none)
 };
 
 /// The record of a whole-part scan and how it was segmented.
@@ -49,8 +60,10 @@ struct ScanSegmentation {
   std::vector<FeatureSegmentation> features;  ///< datums then bores taking scan points
   /// The placement the segmentation used: the plan's, or the registered one.
   RigidPlacement placement;
-  /// With the plan's `register = true`: how the placement was refined.
+  /// With the plan's `register = true`, or a placement found: how the placement was refined.
   std::optional<RegistrationResult> registration;
+  /// The placement found from the cloud and the nominal datums (no placement in the plan).
+  std::optional<PlacementSearchSummary> search;
 };
 
 /// A part's measured inputs, in the plan's order.
@@ -70,14 +83,18 @@ struct PartInputs {
 /// (`nominal_size`, else the middle of `size`) about the axis through the origin (B) or its
 /// basic location (C), perpendicular to A, over its `depth`; a bore that of its nominal size
 /// about its true-position axis along `direction`, over its `depth` (z converted to the length
-/// along the axis). Each surface is named by its role ("datum A", "bore P3").
+/// along the axis); a plane C the rectangle of its face n . p = `offset` (n its outward normal)
+/// over `span` and `depth`; a slot or tab C its two faces at +-width/2 (`nominal_size`, else the
+/// middle of `size`) from the centre plane through B's axis toward `basic`, over `span` and
+/// `depth`. Each surface is named by its role ("datum A", "bore P3"; a slot's faces "datum C
+/// left face", "datum C right face").
 std::vector<NominalSurface> scan_surfaces(const PartPlan& plan);
 
 /// A scan segmented among the plan's features.
 struct SegmentedScan {
   ScanSegmentation record;
-  /// Each feature's points in scan_surfaces' order (split_cloud: the same points, vectors and
-  /// file lines as the cloud, in the cloud's order).
+  /// Each feature's points, datums then bores (split_cloud: the same points, vectors and file
+  /// lines as the cloud, in the cloud's order); a slot's or tab's two faces make one cloud.
   std::vector<PointCloud> clouds;
 };
 

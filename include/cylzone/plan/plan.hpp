@@ -147,12 +147,23 @@ struct PlanDatum {
   // ---- Nominal shape, for a datum that takes its points from the plan's [scan] (`points`
   // empty then). A bore or pin B or C: its nominal size (`nominal_size`, else the middle of
   // `size`) and its z range (`depth`); its axis is perpendicular to A through the origin (B) or
-  // `basic_location` (C). Datum A: the rectangle it covers on the plane z = 0 (`extent`).
+  // `basic_location` (C). Datum A: the rectangle it covers on the plane z = 0 (`extent`). A
+  // plane C: `offset`, `span`, `depth`; a slot or tab C: its nominal width, `span`, `depth`.
   std::optional<double> nominal_size;  ///< mm
   std::optional<double> depth_top;     ///< z in the frame, mm
   std::optional<double> depth_bottom;
   std::optional<Eigen::Vector2d> extent_x;  ///< datum A: [low, high] of x in the frame, mm
   std::optional<Eigen::Vector2d> extent_y;  ///< datum A: [low, high] of y in the frame, mm
+  /// A plane C from the scan (plan key `offset`): the signed distance, mm, from B's axis (the
+  /// origin) to C's nominal face along its `outward_normal`; the face is the plane
+  /// n . p = offset, n = (outward_normal, 0).
+  std::optional<double> offset;
+  /// A plane, slot or tab C from the scan (plan key `span`): the face's [low, high] range, mm,
+  /// along the face and parallel to A. A plane C: along z x n from the foot of the origin on
+  /// the face; a slot or tab: along the direction of `basic` from B's axis. Its z range is
+  /// `depth`; a slot's or tab's width is `nominal_size` (else the middle of `size`): two faces
+  /// at +-width/2 from the centre plane through B's axis toward `basic`.
+  std::optional<Eigen::Vector2d> span;
   /// Whether the points come from the plan's [scan] rather than a file of the datum's own.
   bool from_scan() const noexcept { return points.empty(); }
   PlanLocation where;
@@ -223,6 +234,9 @@ struct PlanScan {
   /// Plan key `register`: refine `placement` by registering the cloud to the nominal datum
   /// features that take scan points (register_to_nominal) before segmenting.
   bool register_placement = false;
+  /// No placement in the plan, or `placement = "find"`: the placement is found from the cloud
+  /// and the nominal datum features A, B and C alone (find_placement), `placement` unused.
+  bool find_placement = false;
   PlanLocation where;
 };
 

@@ -4,7 +4,8 @@
 /// pin's cylinder, a datum plane) takes the points that lie within a band about it.
 ///
 /// Method (docs/methods.md, "Segmenting a whole-part scan"). The cloud is first mapped into the
-/// part's nominal coordinates by a rough placement p' = R p + t (a rigid motion). A point is a
+/// part's nominal coordinates by a rough placement p' = R p + t (a rigid motion): the plan's,
+/// refined by register_to_nominal, or found from nothing by find_placement. A point is a
 /// candidate of a surface when
 ///  * cylinder (axis through `origin` along unit `direction`, radius R, axial parameter
 ///    s = direction . (p' - origin) in [s_low - margin, s_high + margin]):
@@ -146,6 +147,77 @@ struct RegistrationResult {
 RegistrationResult register_to_nominal(const PointCloud& cloud, const RigidPlacement& rough,
                                        const std::vector<NominalSurface>& surfaces,
                                        const RegistrationOptions& options = {});
+
+// ---- Finding a placement from nothing (plan key [scan] placement = "find", or none).
+
+struct PlacementSearchOptions {
+  /// The band of the final correspondences, the margin and the normal agreement: the plan's.
+  SegmentOptions segment;
+  /// Points that vote for the hypotheses (chosen by their rank of distance from the cloud's
+  /// centroid, so that the choice depends on neither the pose nor the order of the points).
+  std::size_t sample_points = 2000;
+  /// Points of the final refinement (chosen the same way; register_to_nominal on them).
+  std::size_t refine_points = 200000;
+  /// Distinct planes tried as datum A, and circles tried as datum B's axis on each.
+  std::size_t plane_candidates = 6;
+  std::size_t centre_candidates = 3;
+  /// A second placement that puts the part elsewhere and holds at least this share of the
+  /// best one's points within the band makes the result ambiguous (the datums' symmetry).
+  double ambiguity_share = 0.95;
+  /// The found placement is accepted when every datum surface takes points and the rms
+  /// distance of the points in the datums' bands is at most this share of the band.
+  double acceptance_rms_share = 1.0 / 3.0;
+  /// ... and holds at least this many points, a cylinder covering at least this arc about
+  /// its axis (degrees).
+  std::size_t min_points = 8;
+  double min_coverage_deg = 90.0;
+};
+
+struct PlacementSearchResult {
+  enum class Status {
+    found,            ///< one placement fits clearly best
+    ambiguous,        ///< two placements putting the part differently fit (almost) equally
+    underdetermined,  ///< the datum features leave a direction of motion free
+    no_match          ///< no hypothesis fits: `best_rms` says how far the best one is
+  };
+  Status status = Status::no_match;
+  std::string message;  ///< one line: what was found, or why nothing was
+  RegistrationResult registration;  ///< the best placement, refined (status found)
+  std::size_t hypotheses = 0;  ///< placements tried (plane x side x circle x clocking)
+  std::size_t inliers = 0;     ///< sample points within the band of a datum surface, best
+  double best_rms = std::numeric_limits<double>::infinity();  ///< mm, best hypothesis
+  /// The runner-up that put the part elsewhere: its sample points in the bands, and how far it
+  /// moves the corners of the datums' nominal box from the best (mm).
+  std::size_t runner_up_inliers = 0;
+  double runner_up_distance = 0.0;
+};
+
+/// Finds the placement of `cloud` in the part's nominal coordinates from the cloud and the
+/// nominal datum features alone: `datums` as scan_surfaces gives them, datum A (the plane
+/// z = 0), datum B (a cylinder about the z axis), then datum C's surface(s). A plane-and-axis
+/// correspondence search (the hypothesise-and-verify scheme of RANSAC, Fischler & Bolles,
+/// Commun. ACM 24(6), 1981, made exhaustive and deterministic; the circle votes of the Hough
+/// transform, Duda & Hart, Commun. ACM 15(1), 1972):
+///  1. oriented sample points: the cloud's vectors, or the normal of the least-squares plane
+///     through each point's 12 nearest neighbours (NeighbourIndex);
+///  2. datum A: every sample point's tangent plane is a hypothesis, supported by the sample
+///     points on it with agreeing normals; the best distinct planes are refitted by least
+///     squares to their support; each is tried with either side out of the material;
+///  3. datum B: the points on walls perpendicular to the plane, within B's depth, vote for the
+///     centre of a circle of B's nominal radius (each point at the radius along its normal,
+///     both senses); the densest distinct centres are B's axis;
+///  4. the rotation about B's axis: datum C's surfaces turned through a full circle in steps
+///     of a fraction of the capture band, scored by the wall points near them with agreeing
+///     normals; the distinct peaks are candidates;
+///  5. each candidate refined by iterative closest point on the sample (register_to_nominal,
+///     bands from the capture band down to the plan's), scored by the sample points within the
+///     band of a datum surface, then its rms; the best refined on up to `refine_points`.
+/// Everything is decided by the data: the samples by rank of distance from the centroid, ties
+/// by that rank, never by the cloud's pose or the order of its points. Pure: no IO, no state.
+/// Throws std::invalid_argument for options out of range or fewer than 3 datum surfaces.
+PlacementSearchResult find_placement(const PointCloud& cloud,
+                                     const std::vector<NominalSurface>& datums,
+                                     const PlacementSearchOptions& options = {});
 
 /// Each surface's points as a cloud of their own (with their vectors and file lines, when
 /// present), in the cloud's own coordinates and order: the feature's points exactly as a file
