@@ -233,6 +233,22 @@ std::vector<OutputStatistics> propagate(std::size_t outputs, const TrialModel& t
                                         std::vector<std::size_t>* failed = nullptr,
                                         std::vector<std::vector<double>>* samples = nullptr);
 
+/// The engine under propagate, for a model that keeps per-worker scratch or draws from its own
+/// generator: `trial(t, worker, out)` fills `out` for trial t (0-based over the whole run) on
+/// worker `worker` (below max(1, options.threads); one trial at a time per worker, so a buffer
+/// per worker needs no lock). Everything else as propagate; deterministic for a seed whatever
+/// `threads` when `trial`'s values depend only on t (not on the worker or on earlier trials).
+/// The adaptive procedure (JCGM 101 7.9) is this function's: every adaptive simulation of the
+/// library (the part study, the probing prediction) stops by it.
+using IndexedTrialModel =
+    std::function<void(std::size_t trial, std::size_t worker, std::vector<double>& out)>;
+std::vector<OutputStatistics> propagate_indexed(std::size_t outputs,
+                                                const IndexedTrialModel& trial,
+                                                const MonteCarloOptions& options,
+                                                MonteCarloSummary& summary,
+                                                std::vector<std::size_t>* failed = nullptr,
+                                                std::vector<std::vector<double>>* samples = nullptr);
+
 /// The seed of trial `trial` of a study seeded `seed`: splitmix64 (Steele, Lea & Flood, OOPSLA
 /// 2014) of the seed mixed with splitmix64 of the trial index.
 std::uint64_t trial_seed(std::uint64_t seed, std::uint64_t trial) noexcept;
