@@ -79,21 +79,7 @@ MonteCarloOptions uncertainty_options(const CheckArguments& args, const PartPlan
     if (p->trials) options.trials = *p->trials;
     if (p->seed) options.seed = *p->seed;
   }
-  if (args.trials == "adaptive") {
-    options.trials.reset();
-  } else if (!args.trials.empty()) {
-    std::size_t used = 0;
-    unsigned long long n = 0;
-    try {
-      n = std::stoull(args.trials, &used);
-    } catch (const std::exception&) {
-      used = 0;
-    }
-    if (used != args.trials.size() || args.trials.front() == '-' || n < 2 || n > 10000000)
-      throw std::invalid_argument("--trials: expected a whole number from 2 to 10000000 or "
-                                  "adaptive, got '" + args.trials.substr(0, 40) + "'");
-    options.trials = static_cast<std::size_t>(n);
-  }
+  if (!args.trials.empty()) options.trials = trial_count_option(args.trials, "--trials", 2);
   if (args.seed) options.seed = *args.seed;
   if (args.probing_sigma == "estimated") {
     options.probing = ProbingModel::estimated;
@@ -229,9 +215,15 @@ int run_check(const CheckArguments& args) {
   for (const auto& output : outputs) targets.push_back(output.first);
   validate_outputs(targets, plan_inputs(plan));
 
-  if (!args.uncertainty && (!args.trials.empty() || args.seed || !args.probing_sigma.empty()))
+  if (!args.uncertainty && (args.seed || !args.probing_sigma.empty() ||
+                            (!args.trials.empty() && !predict_sigma)))
     throw std::invalid_argument(
-        "--trials, --seed and --probing-sigma set up the Monte Carlo study: add --uncertainty");
+        "--trials, --seed and --probing-sigma set up the Monte Carlo study: add --uncertainty "
+        "(--trials also sets the --predict-probing simulation's)");
+  // The probing prediction's trials: --trials when given (at least 100), else its own default.
+  std::optional<std::optional<std::size_t>> predict_trials;
+  if (predict_sigma && !args.trials.empty())
+    predict_trials = trial_count_option(args.trials, "--trials", 100);
   const std::optional<MonteCarloOptions> study =
       args.uncertainty ? std::optional<MonteCarloOptions>(uncertainty_options(args, plan))
                        : std::nullopt;
@@ -258,6 +250,12 @@ int run_check(const CheckArguments& args) {
     // The prediction for the pattern each bore was probed with (docs/probing-advice.md).
     ProbingAdviceOptions base;
     base.threads = args.threads;
+    if (predict_trials) {
+      if (*predict_trials)
+        base.trials = **predict_trials;
+      else
+        base.adaptive = probing_adaptive_trials();
+    }
     for (BoreSummary& summary : model.bores)
       for (const BoreResult& bore : result.bores)
         if (bore.id == summary.id)
@@ -353,7 +351,8 @@ void add_check_command(CLI::App& app, CommandResult& result) {
                   "trial (docs/uncertainty.md); off by default");
   check->add_option("--trials", args->trials,
                     "with --uncertainty: the number of trials, or adaptive (JCGM 101 7.9); "
-                    "default: the plan's [uncertainty] trials, else 2000");
+                    "default: the plan's [uncertainty] trials, else 2000; with "
+                    "--predict-probing also the prediction's (at least 100; default 2000)");
   check->add_option("--seed", args->seed,
                     "with --uncertainty: the random seed (results are identical for a seed "
                     "whatever --threads); default: the plan's, else 1");
