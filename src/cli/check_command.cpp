@@ -58,6 +58,7 @@ struct CheckArguments {
   /// --predict-probing: the CMM's probing sigma (plan unit) to predict each bore's uncertainty
   /// for the pattern probed (forecast/probing_advice.hpp). Empty: no prediction.
   std::optional<double> predict_sigma;
+  std::string predict_trials;  ///< the prediction's: a whole number or "adaptive"; empty: 2000
   /// "simple", "iso-14253-1" or "guard-band": overrides the plan's [decision].rule; empty: as
   /// the plan says.
   std::string decision_rule;
@@ -215,15 +216,15 @@ int run_check(const CheckArguments& args) {
   for (const auto& output : outputs) targets.push_back(output.first);
   validate_outputs(targets, plan_inputs(plan));
 
-  if (!args.uncertainty && (args.seed || !args.probing_sigma.empty() ||
-                            (!args.trials.empty() && !predict_sigma)))
+  if (!args.uncertainty && (!args.trials.empty() || args.seed || !args.probing_sigma.empty()))
     throw std::invalid_argument(
-        "--trials, --seed and --probing-sigma set up the Monte Carlo study: add --uncertainty "
-        "(--trials also sets the --predict-probing simulation's)");
-  // The probing prediction's trials: --trials when given (at least 100), else its own default.
+        "--trials, --seed and --probing-sigma set up the Monte Carlo study: add --uncertainty");
+  // The probing prediction's trials: --predict-trials when given, else its own default.
+  if (!args.predict_trials.empty() && !predict_sigma)
+    throw std::invalid_argument("--predict-trials: only with --predict-probing");
   std::optional<std::optional<std::size_t>> predict_trials;
-  if (predict_sigma && !args.trials.empty())
-    predict_trials = trial_count_option(args.trials, "--trials", 100);
+  if (!args.predict_trials.empty())
+    predict_trials = trial_count_option(args.predict_trials, "--predict-trials", 100);
   const std::optional<MonteCarloOptions> study =
       args.uncertainty ? std::optional<MonteCarloOptions>(uncertainty_options(args, plan))
                        : std::nullopt;
@@ -335,6 +336,9 @@ void add_check_command(CLI::App& app, CommandResult& result) {
                     "predict each bore's position and perpendicularity uncertainty for the "
                     "pattern probed, from the CMM's probing sigma per coordinate (plan length "
                     "unit; docs/probing-advice.md)");
+  check->add_option("--predict-trials", args->predict_trials,
+                    "with --predict-probing: the prediction's trials per bore (at least 100), or "
+                    "adaptive (JCGM 101 7.9, as advise --trials adaptive); default 2000");
   check->add_option("--decision-rule", args->decision_rule,
                     "simple|iso-14253-1|guard-band: how a value is compared with its limit "
                     "(ISO 14253-1: conformance proven inside the zone reduced by U, "
@@ -351,8 +355,7 @@ void add_check_command(CLI::App& app, CommandResult& result) {
                   "trial (docs/uncertainty.md); off by default");
   check->add_option("--trials", args->trials,
                     "with --uncertainty: the number of trials, or adaptive (JCGM 101 7.9); "
-                    "default: the plan's [uncertainty] trials, else 2000; with "
-                    "--predict-probing also the prediction's (at least 100; default 2000)");
+                    "default: the plan's [uncertainty] trials, else 2000");
   check->add_option("--seed", args->seed,
                     "with --uncertainty: the random seed (results are identical for a seed "
                     "whatever --threads); default: the plan's, else 1");

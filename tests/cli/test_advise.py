@@ -172,18 +172,19 @@ j = parsed("advise --trials 1000", out)
 if j:
     c = j["candidate"]
     check("fixed: as asked", not c["adaptive"] and c["trials"] == 1000 and c["batches"] == 1, c["trials"])
-# The check's prediction takes --trials the same way (a fixed count here: the demo's bores are
+# The check's prediction takes --predict-trials the same way (a fixed count here: the demo's bores are
 # predicted on their mating envelopes, and an adaptive run is minutes on a shared machine).
 code, out, err = run(["check", PLAN, "--json", "-", "--no-sensitivity", "--predict-probing", "0.001",
-                      "--trials", "300", "--threads", "2"])
-j = parsed("check --predict-probing --trials 300", out)
+                      "--predict-trials", "300", "--threads", "2"])
+j = parsed("check --predict-probing --predict-trials 300", out)
 if j:
     for b in j["bores"]:
         p = b.get("probing_prediction") or {}
         check(f"{b['id']}: prediction with the trials asked", p.get("trials") == 300 and
               p.get("adaptive") is False and "uncertainty" not in j, (p.get("trials"), p.get("adaptive")))
-expect_error("check --predict-probing --trials 50", ["check", PLAN, "--predict-probing", "0.001", "--trials", "50"],
-             "--trials")
+expect_error("check --predict-trials 50", ["check", PLAN, "--predict-probing", "0.001", "--predict-trials", "50"],
+             "--predict-trials")
+expect_error("check --predict-trials alone", ["check", PLAN, "--predict-trials", "adaptive"], "--predict-trials")
 expect_error("advise --trials many", with_option(BASE, "--trials", "many"), "--trials")
 expect_error("check --predict-probing zero", ["check", PLAN, "--predict-probing", "0"], "--predict-probing")
 expect_error("check --predict-probing in um", ["check", PLAN, "--predict-probing", "1"], "--predict-probing")
