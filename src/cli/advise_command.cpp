@@ -219,7 +219,7 @@ void add_advise_command(CLI::App& app, CommandResult& result) {
       ->capture_default_str();
   c->add_option("--trials", a->trials,
                 "Monte Carlo trials per pattern (>= 100), or adaptive (JCGM 101 7.9: batches "
-                "of 2000 until every figure is stable to 2 significant digits of its u)")
+                "of 2000 until every figure is stable to 1 significant digit of its u)")
       ->capture_default_str();
   c->add_option("--seed", a->seed, "seed of the simulation (the same seed, the same figures)")
       ->capture_default_str();

@@ -124,8 +124,10 @@ struct MonteCarloOptions {
 /// The profile a trial runs with: no ambiguity walks (the element is the first optimum reached,
 /// the same as with them whenever it is unique; the unperturbed fit's ambiguity is reported
 /// instead), no stray-point screen (it reports suspect points and changes no figure), two-point
-/// sizes kept (the upper size limit is decided on them). The sensitivity study and plausibility
-/// checks are not part of evaluate_part and are not run.
+/// sizes kept (the upper size limit is decided on them), no result that no characteristic reads
+/// (EvaluationProfile::unread_results: e.g. the minimum-zone cylinder of a bore without a
+/// cylindricity tolerance, the sampling record; every characteristic's value is the same bits).
+/// The sensitivity study and plausibility checks are not part of evaluate_part and are not run.
 EvaluationProfile lean_profile();
 
 /// A coverage interval [low, high], mm.
