@@ -19,6 +19,7 @@
 #include "case_file.hpp"
 #include "cylzone/check/evaluate_part.hpp"
 #include "cylzone/check/part_inputs.hpp"
+#include "cylzone/decide/bore_characteristics.hpp"
 #include "cylzone/evaluate/bore_evaluation.hpp"
 #include "cylzone/plan/plan.hpp"
 #include "cylzone/uncertainty/monte_carlo.hpp"
@@ -556,4 +557,54 @@ TEST_CASE("monte carlo: the demo moved rigidly gives the same uncertainties", "[
     }
   }
   WARN("largest difference after the motion: " << worst << " mm");
+}
+
+TEST_CASE("monte carlo: the lean profile gives every characteristic's value bit for bit",
+          "[monte-carlo]") {
+  // The trial profile skips what no characteristic reads (EvaluationProfile::unread_results:
+  // fits no figure rests on, the sampling record, the surface map); the characteristics the
+  // study records must be those of the full evaluation, bit for bit. Checked on the demo as
+  // planned, without two-point sizes (the upper limit then rests on the minimum material
+  // envelope) and with every position tolerance at LMC (bonus and boundary from the minimum
+  // material envelope). Reference: the full evaluation itself (the profile's contract).
+  const PartPlan demo = read_plan(std::filesystem::path(CYLZONE_SOURCE_DIR) /
+                                  "point-clouds/valve-manifold/plan.toml");
+  const PartInputs inputs = load_part_inputs(demo);
+  PartPlan lmc = demo;
+  for (PlanBore& b : lmc.bores)
+    if (b.position && b.size) b.position->condition = MaterialCondition::lmc;
+  using Variant = std::pair<const PartPlan*, bool>;  // the plan, two-point sizes
+  for (const auto& [plan, two_point] :
+       {Variant{&demo, true}, Variant{&demo, false}, Variant{&lmc, true}}) {
+    EvaluationOptions full;
+    full.threads = 1;
+    full.profile.ambiguity = false;  // as in the trials: the element is the same
+    full.profile.two_point_sizes = two_point;
+    EvaluationOptions lean = full;
+    lean.profile.unread_results = false;
+    const PartEvaluation a = evaluate_part(*plan, inputs, full);
+    const PartEvaluation b = evaluate_part(*plan, inputs, lean);
+    REQUIRE(a.bores.size() == b.bores.size());
+    std::size_t compared = 0;
+    for (std::size_t i = 0; i < a.bores.size(); ++i) {
+      REQUIRE(a.bores[i].evaluated() == b.bores[i].evaluated());
+      if (!a.bores[i].evaluated()) continue;
+      const std::vector<Characteristic> x = bore_characteristics(a.bores[i], plan->bores[i]);
+      const std::vector<Characteristic> y = bore_characteristics(b.bores[i], plan->bores[i]);
+      REQUIRE(x.size() == y.size());
+      for (std::size_t k = 0; k < x.size(); ++k) {
+        INFO(x[k].id << (two_point ? "" : ", no two-point sizes"));
+        CHECK(x[k].id == y[k].id);
+        CHECK(x[k].value == y[k].value);
+        CHECK(x[k].allowed == y[k].allowed);
+        CHECK(x[k].not_evaluated == y[k].not_evaluated);
+        ++compared;
+      }
+      // The skipped results are really skipped where nothing reads them.
+      if (!plan->bores[i].cylindricity)
+        CHECK(b.bores[i].minimum_zone.summary.point_count == 0);
+      CHECK(!b.bores[i].sampling);
+    }
+    CHECK(compared > 30);
+  }
 }

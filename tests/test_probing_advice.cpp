@@ -16,6 +16,7 @@
 #include <cmath>
 #include <cstdlib>
 #include <fstream>
+#include <tuple>
 
 #include "cylzone/core/errors.hpp"
 #include "cylzone/evaluate/bore_evaluation.hpp"
@@ -133,6 +134,76 @@ TEST_CASE("the prediction is the same bits for any thread count and reproducible
   CHECK(predict_probing(o).full_depth.standard_deviation == one.full_depth.standard_deviation);
   o.seed += 1;
   CHECK(predict_probing(o).full_depth.mean != one.full_depth.mean);
+}
+
+TEST_CASE("adaptive trials stop by JCGM 101 7.9 and agree with a long fixed run") {
+  // The adaptive procedure of JCGM 101:2008 7.9 (from memory for the section; the study's
+  // engine, tested against the criterion recomputed independently in test_monte_carlo.cpp):
+  // after it stops, each figure is its limit to within the numerical tolerance delta of the
+  // figure's standard deviation stated to the prediction's one significant digit (7.9.2: u =
+  // c x 10^l, delta = 10^l / 2). Reference: a fixed run of 100,000 trials, whose own Monte
+  // Carlo error (2 sd / sqrt(N), common practice) is added to the bound.
+  ProbingAdviceOptions o = two_sections(8, -2.0, -48.0);
+  o.adaptive = probing_adaptive_trials();
+  const ProbingPrediction a = predict_probing(o);
+  REQUIRE(a.status == PredictionStatus::predicted);
+  CHECK(a.adaptive);
+  CHECK(a.converged);
+  CHECK(a.batches >= 2);
+  CHECK(a.trials == a.batches * 2000);  // batches of J = 100 / (1 - 0.95)
+  CHECK(a.trials < 200000);
+  o.threads = 1;  // the same stop and bits on one thread
+  const ProbingPrediction one = predict_probing(o);
+  CHECK(one.trials == a.trials);
+  CHECK(one.full_depth.quantile95 == a.full_depth.quantile95);
+  CHECK(one.top.u_x == a.top.u_x);
+
+  ProbingAdviceOptions fixed = two_sections(8, -2.0, -48.0);
+  fixed.trials = 100000;
+  const ProbingPrediction l = predict_probing(fixed);
+  REQUIRE(!l.adaptive);
+  REQUIRE(l.trials == 100000);
+  const auto delta = [](double u) {  // JCGM 101 7.9.2 with one significant digit
+    return 0.5 * std::pow(10.0, std::floor(std::log10(u)));
+  };
+  const double n = static_cast<double>(l.trials);
+  const auto agrees = [&](const char* name, double adaptive, double reference, double u) {
+    INFO(name << ": adaptive " << adaptive << ", fixed " << reference << ", u " << u);
+    CHECK(std::abs(adaptive - reference) <= delta(u) + 2.0 * u / std::sqrt(n));
+  };
+  for (const auto& [name, x, y] :
+       {std::tuple{"u_x at the top", a.top.u_x, l.top.u_x},
+        std::tuple{"u_y at the top", a.top.u_y, l.top.u_y},
+        std::tuple{"u_x at the bottom", a.bottom.u_x, l.bottom.u_x},
+        std::tuple{"u_y at the bottom", a.bottom.u_y, l.bottom.u_y}})
+    agrees(name, x, y, y);
+  for (const auto& [name, x, y] :
+       {std::tuple{"full depth", a.full_depth, l.full_depth},
+        std::tuple{"perpendicularity", a.perpendicularity, l.perpendicularity},
+        std::tuple{"position at the top", a.top.position, l.top.position},
+        std::tuple{"position at the bottom", a.bottom.position, l.bottom.position}}) {
+    agrees(name, x.mean, y.mean, y.standard_deviation);
+    agrees(name, x.standard_deviation, y.standard_deviation, y.standard_deviation);
+    agrees(name, x.quantile95, y.quantile95, y.standard_deviation);
+  }
+  // A fixed count stays available and is what it was asked for.
+  CHECK(l.converged);
+  CHECK(l.batches == 1);
+}
+
+TEST_CASE("adaptive options are checked with the option named") {
+  ProbingAdviceOptions o = two_sections(8, -2.0, -48.0);
+  o.adaptive = probing_adaptive_trials();
+  o.adaptive->significant_digits = 0;
+  CHECK_THROWS_AS(validate_probing_options(o), InputError);
+  o.adaptive = probing_adaptive_trials();
+  o.adaptive->batch = 10;
+  try {
+    validate_probing_options(o);
+    FAIL("a batch of 10 trials was accepted");
+  } catch (const InputError& e) {
+    CHECK(e.key() == "adaptive.batch");
+  }
 }
 
 TEST_CASE("the maximum inscribed axis is simulated with the project's mating-envelope fit") {

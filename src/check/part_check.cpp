@@ -161,6 +161,7 @@ BoreEvaluationOptions stage_options(const EvaluationOptions& options, std::size_
   bore.fit.assess_ambiguity = options.profile.ambiguity;
   bore.two_point_sizes = options.profile.two_point_sizes;
   bore.stray_screen = options.profile.stray_screen;
+  bore.unread_results = options.profile.unread_results;
   bore.stray_points.threads = threads;
   return bore;
 }

@@ -35,7 +35,7 @@ struct AdviseArguments {
   std::size_t points = 8;
   double arc = 360.0;
   double arc_centre = 0.0;
-  std::size_t trials = 2000;
+  std::string trials = "2000";  // a whole number or "adaptive"
   std::uint64_t seed = 1;
   std::size_t threads = hardware_threads();
   double target = 10.0;  // percent
@@ -112,7 +112,10 @@ ProbingAdviceOptions advice_options(const AdviseArguments& a) {
   o.pattern.points_per_section = a.points;
   o.pattern.arc_deg = a.arc;
   o.pattern.arc_centre_deg = a.arc_centre;
-  o.trials = a.trials;
+  if (const std::optional<std::size_t> n = trial_count_option(a.trials, "--trials", 100))
+    o.trials = *n;
+  else
+    o.adaptive = probing_adaptive_trials();
   o.seed = a.seed;
   o.threads = a.threads;
   if (!(a.target > 0.0 && a.target <= 100.0))
@@ -214,7 +217,9 @@ void add_advise_command(CLI::App& app, CommandResult& result) {
   c->add_option("--arc-centre", a->arc_centre,
                 "direction of the arc's middle from the x axis, degrees")
       ->capture_default_str();
-  c->add_option("--trials", a->trials, "Monte Carlo trials per pattern (>= 100)")
+  c->add_option("--trials", a->trials,
+                "Monte Carlo trials per pattern (>= 100), or adaptive (JCGM 101 7.9: batches "
+                "of 2000 until every figure is stable to 1 significant digit of its u)")
       ->capture_default_str();
   c->add_option("--seed", a->seed, "seed of the simulation (the same seed, the same figures)")
       ->capture_default_str();

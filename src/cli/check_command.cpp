@@ -58,6 +58,7 @@ struct CheckArguments {
   /// --predict-probing: the CMM's probing sigma (plan unit) to predict each bore's uncertainty
   /// for the pattern probed (forecast/probing_advice.hpp). Empty: no prediction.
   std::optional<double> predict_sigma;
+  std::string predict_trials;  ///< the prediction's: a whole number or "adaptive"; empty: 2000
   /// "simple", "iso-14253-1" or "guard-band": overrides the plan's [decision].rule; empty: as
   /// the plan says.
   std::string decision_rule;
@@ -79,21 +80,7 @@ MonteCarloOptions uncertainty_options(const CheckArguments& args, const PartPlan
     if (p->trials) options.trials = *p->trials;
     if (p->seed) options.seed = *p->seed;
   }
-  if (args.trials == "adaptive") {
-    options.trials.reset();
-  } else if (!args.trials.empty()) {
-    std::size_t used = 0;
-    unsigned long long n = 0;
-    try {
-      n = std::stoull(args.trials, &used);
-    } catch (const std::exception&) {
-      used = 0;
-    }
-    if (used != args.trials.size() || args.trials.front() == '-' || n < 2 || n > 10000000)
-      throw std::invalid_argument("--trials: expected a whole number from 2 to 10000000 or "
-                                  "adaptive, got '" + args.trials.substr(0, 40) + "'");
-    options.trials = static_cast<std::size_t>(n);
-  }
+  if (!args.trials.empty()) options.trials = trial_count_option(args.trials, "--trials", 2);
   if (args.seed) options.seed = *args.seed;
   if (args.probing_sigma == "estimated") {
     options.probing = ProbingModel::estimated;
@@ -232,6 +219,12 @@ int run_check(const CheckArguments& args) {
   if (!args.uncertainty && (!args.trials.empty() || args.seed || !args.probing_sigma.empty()))
     throw std::invalid_argument(
         "--trials, --seed and --probing-sigma set up the Monte Carlo study: add --uncertainty");
+  // The probing prediction's trials: --predict-trials when given, else its own default.
+  if (!args.predict_trials.empty() && !predict_sigma)
+    throw std::invalid_argument("--predict-trials: only with --predict-probing");
+  std::optional<std::optional<std::size_t>> predict_trials;
+  if (!args.predict_trials.empty())
+    predict_trials = trial_count_option(args.predict_trials, "--predict-trials", 100);
   const std::optional<MonteCarloOptions> study =
       args.uncertainty ? std::optional<MonteCarloOptions>(uncertainty_options(args, plan))
                        : std::nullopt;
@@ -258,6 +251,12 @@ int run_check(const CheckArguments& args) {
     // The prediction for the pattern each bore was probed with (docs/probing-advice.md).
     ProbingAdviceOptions base;
     base.threads = args.threads;
+    if (predict_trials) {
+      if (*predict_trials)
+        base.trials = **predict_trials;
+      else
+        base.adaptive = probing_adaptive_trials();
+    }
     for (BoreSummary& summary : model.bores)
       for (const BoreResult& bore : result.bores)
         if (bore.id == summary.id)
@@ -337,6 +336,9 @@ void add_check_command(CLI::App& app, CommandResult& result) {
                     "predict each bore's position and perpendicularity uncertainty for the "
                     "pattern probed, from the CMM's probing sigma per coordinate (plan length "
                     "unit; docs/probing-advice.md)");
+  check->add_option("--predict-trials", args->predict_trials,
+                    "with --predict-probing: the prediction's trials per bore (at least 100), or "
+                    "adaptive (JCGM 101 7.9, as advise --trials adaptive); default 2000");
   check->add_option("--decision-rule", args->decision_rule,
                     "simple|iso-14253-1|guard-band: how a value is compared with its limit "
                     "(ISO 14253-1: conformance proven inside the zone reduced by U, "

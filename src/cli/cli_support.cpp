@@ -18,6 +18,23 @@ std::string number_text(double value) {
   return s.str();
 }
 
+std::optional<std::size_t> trial_count_option(const std::string& text, const std::string& option,
+                                              std::size_t least) {
+  if (text == "adaptive") return std::nullopt;
+  std::size_t used = 0;
+  unsigned long long n = 0;
+  try {
+    n = std::stoull(text, &used);
+  } catch (const std::exception&) {
+    used = 0;
+  }
+  if (text.empty() || used != text.size() || text.front() == '-' || n < least || n > 10000000)
+    throw std::invalid_argument(option + ": expected a whole number from " +
+                                std::to_string(least) + " to 10000000 or adaptive, got '" +
+                                one_line(text, 40) + "'");
+  return static_cast<std::size_t>(n);
+}
+
 double option_length_mm(double value, double mm_per_unit, const std::string& option,
                         double most_mm) {
   const double mm = value * mm_per_unit;

@@ -3,7 +3,9 @@
 // sets `result.run` to the action that runs after parsing succeeded.
 #include <CLI/CLI.hpp>
 #include <filesystem>
+#include <cstddef>
 #include <functional>
+#include <optional>
 #include <vector>
 #include <string>
 #include <string_view>
@@ -36,6 +38,12 @@ std::string number_text(double value);
 /// finiteness are the library's checks.
 double option_length_mm(double value, double mm_per_unit, const std::string& option,
                         double most_mm);
+
+/// A trial-count option (`option`, e.g. "--trials"): a whole number from `least` to 10000000,
+/// or "adaptive" (JCGM 101 7.9), which gives empty. Anything else is refused
+/// (std::invalid_argument naming the option and quoting the text).
+std::optional<std::size_t> trial_count_option(const std::string& text, const std::string& option,
+                                              std::size_t least);
 
 /// The run's time in UTC, ISO 8601 ("2026-12-02T17:40:00Z").
 std::string utc_now();

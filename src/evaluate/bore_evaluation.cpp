@@ -523,15 +523,28 @@ BoreResult evaluate_bore(const BoreInput& input, const BoreEvaluationOptions& op
   result.direction_held = bore.axis_direction == AxisDirection::nominal;
   FitOptions related = free_axis;
   related.fixed_direction = w;
+  // What the characteristics read (BoreEvaluationOptions::unread_results): the rest is
+  // skipped when asked.
+  const bool all = options.unread_results;
+  const auto at = [](const std::optional<PlanTolerance>& t, MaterialCondition c) {
+    return t && t->condition == c;
+  };
+  const bool lmc = at(bore.position, MaterialCondition::lmc) ||
+                   at(bore.perpendicularity, MaterialCondition::lmc);
+  const bool want_related = all || (!at(bore.position, MaterialCondition::mmc) &&
+                                    at(bore.perpendicularity, MaterialCondition::mmc));
+  const bool have_minimum_material = all || lmc || !options.two_point_sizes;
   for_bore(bore, [&] {
     result.least_squares = fit_cylinder_least_squares(points, free_axis);
     // Unrelated actual mating envelope of a hole: the largest inscribed cylinder, free axis.
     result.mating_envelope = fit_cylinder_maximum_inscribed(points, free_axis);
     // Related actual mating envelope, constrained in orientation to the nominal direction.
-    result.related_envelope = fit_cylinder_maximum_inscribed(points, related);
+    if (want_related) result.related_envelope = fit_cylinder_maximum_inscribed(points, related);
     // Actual minimum material envelope of a hole: the smallest circumscribed cylinder.
-    result.minimum_material = fit_cylinder_minimum_circumscribed(points, free_axis);
-    result.minimum_zone = fit_cylinder_minimum_zone(points, free_axis);
+    if (have_minimum_material)
+      result.minimum_material = fit_cylinder_minimum_circumscribed(points, free_axis);
+    if (all || bore.cylindricity)
+      result.minimum_zone = fit_cylinder_minimum_zone(points, free_axis);
   });
   take_warnings(warnings, "least-squares cylinder", result.least_squares.summary);
   take_warnings(warnings, "actual mating envelope", result.mating_envelope.summary);
@@ -609,7 +622,7 @@ BoreResult evaluate_bore(const BoreInput& input, const BoreEvaluationOptions& op
 
   // The unrolled surface for the report: the least-squares residuals already computed (one
   // per point, finite: checked_bore), binned.
-  if (result.least_squares.residuals.values.size() == n)
+  if (all && result.least_squares.residuals.values.size() == n)
     result.surface_map = radial_deviation_map(points, result.least_squares.residuals.values,
                                               result.least_squares.axis, result.zone,
                                               options.surface_map);
@@ -622,7 +635,7 @@ BoreResult evaluate_bore(const BoreInput& input, const BoreEvaluationOptions& op
   // and shown in the report's depth table; beyond the plan's threshold it is warned about with
   // the factor it magnifies a tilt error by. Heights along the nominal direction (those of the
   // range); the sections the evaluation cut and the angles about the least-squares axis.
-  {
+  if (all) {
     SamplingOptions sampling;
     const SamplingThresholds& given = options.sampling;
     sampling.thresholds.min_section_points =
@@ -645,7 +658,6 @@ BoreResult evaluate_bore(const BoreInput& input, const BoreEvaluationOptions& op
     for (const std::string& warning : result.sampling->warnings) warnings.push_back(warning);
   }
   const double mating_size = result.mating_envelope.diameter();
-  const double minimum_material_size = result.minimum_material.diameter();
 
   // ---- 7. Size per Rule #1 (ASME Y14.5-2018 5.8, from memory) with two-point local sizes.
   SizeResult& size = result.size;
@@ -653,11 +665,17 @@ BoreResult evaluate_bore(const BoreInput& input, const BoreEvaluationOptions& op
   size.least_squares = result.least_squares.diameter();
   size.mating_envelope = mating_size;
   size.related_mating_envelope = result.related_envelope.diameter();
-  size.minimum_material_envelope = minimum_material_size;
   const TwoPointSizes local_sizes =
       options.two_point_sizes ? two_point_sizes(points, ls_height, order, result.sections, ls_axis,
                                                 section_plan.half_thickness)
                               : TwoPointSizes{};
+  // Without two-point sizes the upper limit rests on the minimum material envelope.
+  if (!have_minimum_material && local_sizes.count == 0) {
+    result.minimum_material =
+        for_bore(bore, [&] { return fit_cylinder_minimum_circumscribed(points, free_axis); });
+    take_warnings(warnings, "minimum material envelope", result.minimum_material.summary);
+  }
+  size.minimum_material_envelope = result.minimum_material.diameter();
   size.two_point_count = local_sizes.count;
   size.two_point_min = local_sizes.min;
   size.two_point_max = local_sizes.max;

@@ -7,6 +7,8 @@
 #include <Eigen/Core>
 #include <algorithm>
 #include <cmath>
+#include <limits>
+#include <mutex>
 #include <string>
 #include <utility>
 
@@ -14,7 +16,6 @@
 #include "cylzone/evaluate/axis_zone.hpp"
 #include "cylzone/evaluate/sampling_coverage.hpp"
 #include "cylzone/fit/fit_cylinder.hpp"
-#include "detail/parallel.hpp"
 #include "forecast/detail/sample_statistics.hpp"
 
 namespace cylzone {
@@ -59,7 +60,7 @@ class SplitMix64 {
 
 /// The seed of trial `t`: splitmix64 of (seed, t), so a trial's draws do not depend on which
 /// thread runs it or on the other trials.
-std::uint64_t trial_seed(std::uint64_t seed, std::size_t t) {
+std::uint64_t advice_trial_seed(std::uint64_t seed, std::size_t t) {
   return mix64(mix64(seed) ^ (static_cast<std::uint64_t>(t) + 0x9e3779b97f4a7c15ULL));
 }
 
@@ -109,13 +110,13 @@ double usable_bottom(const ProbingAdviceOptions& o) {
   return o.usable_bottom.value_or(o.range_bottom);
 }
 
-/// What one trial gives.
-struct TrialResult {
-  Eigen::Vector2d top = Eigen::Vector2d::Zero();
-  Eigen::Vector2d bottom = Eigen::Vector2d::Zero();
-  Eigen::Vector2d slope = Eigen::Vector2d::Zero();
-  double full_depth = 0.0;
-  double perpendicularity = 0.0;
+/// What one trial gives: its outputs, in this order, for the Monte Carlo engine.
+enum TrialOutput : std::size_t {
+  top_x, top_y, bottom_x, bottom_y,  // the fitted axis's offset at the ends of the range
+  slope_x, slope_y,                  // its tilt
+  top_position, bottom_position,     // 2 x the offset's length at each end
+  full_depth, perpendicularity,      // the figures over the range
+  trial_outputs
 };
 
 void validate_pattern(const ProbingPattern& p, const ProbingAdviceOptions& o) {
@@ -183,6 +184,14 @@ void validate_probing_options(const ProbingAdviceOptions& o) {
   positive(o.probing_sigma, "probing_sigma");
   if (o.trials < 100) fail("trials", "must be at least 100");
   if (o.trials > 10000000) fail("trials", "must be at most 10000000");
+  if (o.adaptive) {
+    const AdaptiveTrials& a = *o.adaptive;
+    if (a.significant_digits < 1 || a.significant_digits > 4)
+      fail("adaptive.significant_digits", "must lie in [1, 4]");
+    if (a.batch != 0 && a.batch < 100) fail("adaptive.batch", "must be 0 (J) or at least 100");
+    if (a.max_trials < 2 * std::max<std::size_t>(a.batch, 100) || a.max_trials > 10000000)
+      fail("adaptive.max_trials", "must hold two batches and be at most 10000000");
+  }
   if (!(std::isfinite(o.target_share) && o.target_share > 0.0 && o.target_share <= 1.0))
     fail("target_share", "must lie in (0, 1]");
   if (o.points_ladder.empty()) fail("points_ladder", "needs at least one entry");
@@ -222,63 +231,79 @@ ProbingPrediction simulate(const ProbingAdviceOptions& o, const ProbingPattern& 
   // only cost time (fit_cylinder.hpp, CylinderFit::ambiguity).
   fit.assess_ambiguity = false;
 
-  std::vector<TrialResult> results(o.trials);
-  constexpr std::size_t chunk = 32;  // fixed by the data, never by the thread count
-  const std::size_t chunks = (o.trials + chunk - 1) / chunk;
-  std::vector<std::string> failures(chunks);
-  detail::parallel_for(
-      chunks, std::max<std::size_t>(1, o.threads), [&](std::size_t c, std::size_t) {
-        Eigen::Matrix3Xd points(3, ideal.cols());
-        for (std::size_t t = c * chunk; t < std::min(o.trials, (c + 1) * chunk); ++t) {
-          SplitMix64 rng(trial_seed(o.seed, t));
-          for (Eigen::Index j = 0; j < ideal.cols(); ++j)
-            for (int r = 0; r < 3; ++r) points(r, j) = ideal(r, j) + o.probing_sigma * rng.normal();
-          try {
-            const CylinderFit f = o.axis_method == BoreAxisMethod::mating_envelope
-                                      ? fit_cylinder_maximum_inscribed(points, fit)
-                                      : fit_cylinder_least_squares(points, fit);
-            const StraightAxis axis = StraightAxis::from_axis(f.axis, zone);
-            TrialResult& r = results[t];
-            r.top = axis.at(o.range_top).offset;
-            r.bottom = axis.at(o.range_bottom).offset;
-            r.slope = axis.slope;
-            r.full_depth = position_over_range(axis, o.range_top, o.range_bottom);
-            r.perpendicularity = perpendicularity_over_range(axis, o.range_top, o.range_bottom);
-          } catch (const FitError& e) {
-            failures[c] = "trial " + std::to_string(t + 1) + ": " + e.what();
-            return;
-          }
-        }
-      });
-  for (const std::string& f : failures)
-    if (!f.empty()) {
-      out.status = PredictionStatus::undetermined;
-      out.message = "the pattern cannot determine the bore: " + f;
-      return out;
+  // The trials run through the study's engine (uncertainty/monte_carlo.hpp): a fixed count or
+  // its adaptive procedure (JCGM 101 7.9); each trial draws from its own generator, seeded from
+  // (seed, t), and perturbs into its worker's buffer.
+  MonteCarloOptions engine;
+  engine.seed = o.seed;
+  engine.threads = std::max<std::size_t>(1, o.threads);
+  engine.trials = o.trials;
+  if (o.adaptive) {
+    engine.trials.reset();
+    engine.adaptive = *o.adaptive;
+  }
+  std::vector<Eigen::Matrix3Xd> buffers(engine.threads, Eigen::Matrix3Xd(3, ideal.cols()));
+  std::mutex failure_lock;
+  std::size_t first_failure = std::numeric_limits<std::size_t>::max();
+  std::string failure;
+  const IndexedTrialModel trial = [&](std::size_t t, std::size_t worker, std::vector<double>& r) {
+    SplitMix64 rng(advice_trial_seed(o.seed, t));
+    Eigen::Matrix3Xd& points = buffers[worker];
+    for (Eigen::Index j = 0; j < ideal.cols(); ++j)
+      for (int k = 0; k < 3; ++k) points(k, j) = ideal(k, j) + o.probing_sigma * rng.normal();
+    try {
+      const CylinderFit f = o.axis_method == BoreAxisMethod::mating_envelope
+                                ? fit_cylinder_maximum_inscribed(points, fit)
+                                : fit_cylinder_least_squares(points, fit);
+      const StraightAxis axis = StraightAxis::from_axis(f.axis, zone);
+      const Eigen::Vector2d top = axis.at(o.range_top).offset;
+      const Eigen::Vector2d bottom = axis.at(o.range_bottom).offset;
+      r[top_x] = top.x();
+      r[top_y] = top.y();
+      r[bottom_x] = bottom.x();
+      r[bottom_y] = bottom.y();
+      r[slope_x] = axis.slope.x();
+      r[slope_y] = axis.slope.y();
+      r[top_position] = 2.0 * top.norm();
+      r[bottom_position] = 2.0 * bottom.norm();
+      r[full_depth] = position_over_range(axis, o.range_top, o.range_bottom);
+      r[perpendicularity] = perpendicularity_over_range(axis, o.range_top, o.range_bottom);
+    } catch (const FitError& e) {
+      // The first failing trial is reported, whichever thread met it.
+      const std::lock_guard<std::mutex> hold(failure_lock);
+      if (t < first_failure) {
+        first_failure = t;
+        failure = "trial " + std::to_string(t + 1) + ": " + e.what();
+      }
     }
-
-  std::vector<double> v(o.trials);
-  const auto collect = [&](auto get) {
-    for (std::size_t t = 0; t < o.trials; ++t) v[t] = get(results[t]);
-    return v;
   };
-  const auto end = [&](double height, auto offset) {
+  MonteCarloSummary run;
+  std::vector<std::vector<double>> samples;
+  propagate_indexed(trial_outputs, trial, engine, run, nullptr, &samples);
+  out.trials = run.trials;
+  out.adaptive = run.adaptive;
+  out.batches = run.batches;
+  out.converged = run.status != MonteCarloStatus::not_converged;
+  if (!failure.empty()) {
+    out.status = PredictionStatus::undetermined;
+    out.message = "the pattern cannot determine the bore: " + failure;
+    return out;
+  }
+
+  const auto sd = [&](TrialOutput k) { return detail::sample_moments(samples[k]).sd; };
+  const auto end = [&](double height, TrialOutput x, TrialOutput y, TrialOutput position) {
     EndPrediction e;
     e.height = height;
-    e.u_x = detail::sample_moments(collect([&](const TrialResult& r) { return offset(r).x(); })).sd;
-    e.u_y = detail::sample_moments(collect([&](const TrialResult& r) { return offset(r).y(); })).sd;
-    e.position = figure(collect([&](const TrialResult& r) { return 2.0 * offset(r).norm(); }));
+    e.u_x = sd(x);
+    e.u_y = sd(y);
+    e.position = figure(samples[position]);
     return e;
   };
-  out.top = end(o.range_top, [](const TrialResult& r) { return r.top; });
-  out.bottom = end(o.range_bottom, [](const TrialResult& r) { return r.bottom; });
-  out.full_depth = figure(collect([](const TrialResult& r) { return r.full_depth; }));
-  out.perpendicularity = figure(collect([](const TrialResult& r) { return r.perpendicularity; }));
-  const double u_sx =
-      detail::sample_moments(collect([](const TrialResult& r) { return r.slope.x(); })).sd;
-  const double u_sy =
-      detail::sample_moments(collect([](const TrialResult& r) { return r.slope.y(); })).sd;
-  out.u_tilt = std::max(u_sx, u_sy);
+  out.top = end(o.range_top, top_x, top_y, top_position);
+  out.bottom = end(o.range_bottom, bottom_x, bottom_y, bottom_position);
+  out.full_depth = figure(samples[full_depth]);
+  out.perpendicularity = figure(samples[perpendicularity]);
+  out.u_tilt = std::max(sd(slope_x), sd(slope_y));
 
   // Expanded uncertainties (header, "Figures"): the larger of the perfect bore's 95 % quantile
   // and k = 2 times the linear propagation for a bore far from true position.
@@ -297,6 +322,12 @@ ProbingPrediction simulate(const ProbingAdviceOptions& o, const ProbingPattern& 
 }
 
 }  // namespace
+
+AdaptiveTrials probing_adaptive_trials() {
+  AdaptiveTrials a;
+  a.significant_digits = 1;
+  return a;
+}
 
 ProbingPrediction predict_probing(const ProbingAdviceOptions& options) {
   validate_probing_options(options);

@@ -210,7 +210,11 @@ void put_prediction(std::ostream& out, const ProbingAdviceOptions& o, const Prob
   out << "  tilt magnification "
       << (p.magnification ? ReportUnits::fixed(*p.magnification, 2) : std::string("-"))
       << ", u(tilt) " << ReportUnits::fixed(p.u_tilt * 1e6, 2) << ' ' << urad << " per direction, "
-      << p.trials << " trials\n";
+      << p.trials << " trials"
+      << (p.adaptive ? std::string(" (adaptive, JCGM 101 7.9") +
+                           (p.converged ? ")" : ": not converged within the trial limit)")
+                     : std::string())
+      << '\n';
   out << "  " << padded("", 26) << right("height", 10) << right("u(x)", 9) << right("u(y)", 9)
       << right("mean", 9) << right("sd", 9) << right("95 %", 9) << '\n';
   const auto end_row = [&](const char* name, const EndPrediction& e) {

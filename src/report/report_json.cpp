@@ -249,6 +249,9 @@ json probing_prediction_json(const ProbingPrediction& p, const ReportUnits& u) {
                 {"meets_target", f.meets_target}};
   };
   j["trials"] = p.trials;
+  j["adaptive"] = p.adaptive;
+  j["batches"] = p.batches;
+  j["converged"] = p.converged;
   j["magnification"] = p.magnification ? json(*p.magnification) : json(nullptr);
   j["u_tilt_urad"] = p.u_tilt * 1e6;
   j["top"] = end(p.top);
@@ -783,6 +786,12 @@ ProbingPrediction read_probing_prediction(const ReportReader& in, const json& o,
                              in.number(f, fp, "share"), in.boolean(f, fp, "meets_target")};
   };
   p.trials = in.count(o, path, "trials");
+  // Written since the adaptive trial count; absent in older reports (a fixed count).
+  if (o.contains("adaptive")) {
+    p.adaptive = in.boolean(o, path, "adaptive");
+    p.batches = in.count(o, path, "batches");
+    p.converged = in.boolean(o, path, "converged");
+  }
   p.magnification = in.number_or_null(o, path, "magnification");
   p.u_tilt = in.number(o, path, "u_tilt_urad") * 1e-6;
   p.top = end("top");
@@ -1422,7 +1431,7 @@ std::string format_probing_json(const ProbingAdviceOptions& o, const ProbingAdvi
                                                     : json(nullptr)},
                  {"axis_method", std::string(axis_method_name(o.axis_method))},
                  {"probing_sigma", u.length(o.probing_sigma)},
-                 {"trials", o.trials},
+                 {"trials", o.adaptive ? json("adaptive") : json(o.trials)},
                  {"seed", o.seed},
                  {"target_share", o.target_share}};
   j["candidate"] = probing_prediction_json(a.candidate, u);

@@ -91,6 +91,7 @@ EvaluationProfile lean_profile() {
   profile.ambiguity = false;
   profile.stray_screen = false;
   profile.two_point_sizes = true;
+  profile.unread_results = false;
   return profile;
 }
 
@@ -144,6 +145,21 @@ std::vector<OutputStatistics> propagate(std::size_t outputs, const TrialModel& t
                                         MonteCarloSummary& summary,
                                         std::vector<std::size_t>* failed,
                                         std::vector<std::vector<double>>* samples) {
+  return propagate_indexed(
+      outputs,
+      [&](std::size_t t, std::size_t, std::vector<double>& out) {
+        std::mt19937_64 rng(trial_seed(options.seed, t));
+        trial(rng, out);
+      },
+      options, summary, failed, samples);
+}
+
+std::vector<OutputStatistics> propagate_indexed(std::size_t outputs,
+                                                const IndexedTrialModel& trial,
+                                                const MonteCarloOptions& options,
+                                                MonteCarloSummary& summary,
+                                                std::vector<std::size_t>* failed,
+                                                std::vector<std::vector<double>>* samples) {
   validate(options);
   summary.seed = options.seed;
   summary.coverage = options.coverage;
@@ -156,10 +172,12 @@ std::vector<OutputStatistics> propagate(std::size_t outputs, const TrialModel& t
     for (auto& v : values) v.resize(run + count, nan);
     std::vector<char> dead(count, 0);
     const std::size_t first = run;
-    detail::parallel_for(count, options.threads, [&](std::size_t c, std::size_t) {
-      std::mt19937_64 rng(trial_seed(options.seed, first + c));
-      std::vector<double> out(outputs, nan);
-      trial(rng, out);
+    // One output buffer per worker, reset per trial.
+    std::vector<std::vector<double>> buffers(std::max<std::size_t>(1, options.threads));
+    detail::parallel_for(count, options.threads, [&](std::size_t c, std::size_t worker) {
+      std::vector<double>& out = buffers[worker];
+      out.assign(outputs, nan);
+      trial(first + c, worker, out);
       bool any = outputs == 0;
       for (std::size_t o = 0; o < outputs; ++o) {
         values[o][first + c] = out[o];
@@ -510,10 +528,12 @@ MonteCarloSummary monte_carlo_uncertainty(const PartPlan& plan, const PartInputs
   lean.profile = lean_profile();
   lean.profile.two_point_sizes = two_point;
 
-  const TrialModel trial = [&](std::mt19937_64& rng, std::vector<double>& out) {
-    PartInputs perturbed;
-    perturbed.datums = inputs.datums;
-    perturbed.bores = inputs.bores;
+  // One perturbed copy of the inputs per worker, made once: a trial overwrites its points in
+  // place from the unperturbed ones (no cloud is allocated per trial).
+  std::vector<PartInputs> perturbed(std::max<std::size_t>(1, options.threads), inputs);
+  const IndexedTrialModel trial = [&](std::size_t t, std::size_t worker, std::vector<double>& out) {
+    std::mt19937_64 rng(trial_seed(options.seed, t));
+    PartInputs& mine = perturbed[worker];
     // The systematic scale error first, then each feature's points in order (x, y, z of the
     // datum frame per point): a fixed order of draws.
     double s = 0.0;
@@ -522,22 +542,25 @@ MonteCarloSummary monte_carlo_uncertainty(const PartPlan& plan, const PartInputs
       s = (2.0 * u - 1.0) * scale_bound;
     }
     std::size_t feature = 0;
-    for (auto* group : {&perturbed.datums, &perturbed.bores})
-      for (PointCloud& cloud : *group) {
+    for (const auto& [from, into] : {std::pair{&inputs.datums, &mine.datums},
+                                     std::pair{&inputs.bores, &mine.bores}})
+      for (std::size_t k = 0; k < from->size(); ++k) {
+        const Eigen::Matrix3Xd& original = (*from)[k].points;
+        Eigen::Matrix3Xd& points = (*into)[k].points;
         const double sigma = summary.feature_sigma[feature++];
-        for (Eigen::Index j = 0; j < cloud.points.cols(); ++j) {
+        for (Eigen::Index j = 0; j < original.cols(); ++j) {
           Eigen::Vector3d e;
           e.x() = standard_normal(rng);
           e.y() = standard_normal(rng);
           e.z() = standard_normal(rng);
-          Eigen::Vector3d p = cloud.points.col(j);
+          Eigen::Vector3d p = original.col(j);
           if (s != 0.0) p = centroid + (1.0 + s) * (p - centroid);
-          cloud.points.col(j) = p + sigma * (to_measurement * e);
+          points.col(j) = p + sigma * (to_measurement * e);
         }
       }
     PartEvaluation e;
     try {
-      e = evaluate_part(plan, perturbed, lean);
+      e = evaluate_part(plan, mine, lean);
     } catch (const std::exception&) {
       return;  // every output stays NaN: the trial is counted as failed
     }
@@ -556,7 +579,7 @@ MonteCarloSummary monte_carlo_uncertainty(const PartPlan& plan, const PartInputs
 
   std::vector<std::size_t> failed;
   const std::vector<OutputStatistics> stats =
-      propagate(outputs.size(), trial, options, summary, &failed);
+      propagate_indexed(outputs.size(), trial, options, summary, &failed);
 
   for (std::size_t o = 0; o < outputs.size(); ++o) {
     CharacteristicUncertainty u;

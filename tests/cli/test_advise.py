@@ -158,6 +158,34 @@ if j:
         check(f"{b['id']}: tolerance", abs(p["position_uncertainty"]["tolerance"] - b["position"]["tolerance"]) < 1e-12)
 check("check --predict-probing: table section", "Probing prediction for the pattern probed" in err
       and CAUTION in err, err[-800:])
+# --trials adaptive: the JCGM 101 7.9 procedure of the Monte Carlo study, the trials used reported
+# (whole batches of J = 2000), the same in the check's prediction; a fixed count stays as before.
+code, out, err = run(with_option(BASE, "--trials", "adaptive") + ["--no-search", "--json", "-", "--quiet"])
+j = parsed("advise --trials adaptive", out)
+if j:
+    c = j["candidate"]
+    check("adaptive: inputs say adaptive", j["inputs"]["trials"] == "adaptive", j["inputs"]["trials"])
+    check("adaptive: converged in whole batches", c["adaptive"] and c["converged"] and
+          c["batches"] >= 2 and c["trials"] == 2000 * c["batches"], (c["trials"], c["batches"]))
+code, out, err = run(with_option(BASE, "--trials", "1000") + ["--no-search", "--json", "-", "--quiet"])
+j = parsed("advise --trials 1000", out)
+if j:
+    c = j["candidate"]
+    check("fixed: as asked", not c["adaptive"] and c["trials"] == 1000 and c["batches"] == 1, c["trials"])
+# The check's prediction takes --predict-trials the same way (a fixed count here: the demo's bores are
+# predicted on their mating envelopes, and an adaptive run is minutes on a shared machine).
+code, out, err = run(["check", PLAN, "--json", "-", "--no-sensitivity", "--predict-probing", "0.001",
+                      "--predict-trials", "300", "--threads", "2"])
+j = parsed("check --predict-probing --predict-trials 300", out)
+if j:
+    for b in j["bores"]:
+        p = b.get("probing_prediction") or {}
+        check(f"{b['id']}: prediction with the trials asked", p.get("trials") == 300 and
+              p.get("adaptive") is False and "uncertainty" not in j, (p.get("trials"), p.get("adaptive")))
+expect_error("check --predict-trials 50", ["check", PLAN, "--predict-probing", "0.001", "--predict-trials", "50"],
+             "--predict-trials")
+expect_error("check --predict-trials alone", ["check", PLAN, "--predict-trials", "adaptive"], "--predict-trials")
+expect_error("advise --trials many", with_option(BASE, "--trials", "many"), "--trials")
 expect_error("check --predict-probing zero", ["check", PLAN, "--predict-probing", "0"], "--predict-probing")
 expect_error("check --predict-probing in um", ["check", PLAN, "--predict-probing", "1"], "--predict-probing")
 

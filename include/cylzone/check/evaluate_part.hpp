@@ -34,6 +34,9 @@ struct EvaluationProfile {
   bool stray_screen = true;
   /// Two-point (actual local) sizes of every bore (BoreEvaluationOptions::two_point_sizes).
   bool two_point_sizes = true;
+  /// Results no characteristic reads: fits no figure rests on, the sampling record, the
+  /// surface map (BoreEvaluationOptions::unread_results).
+  bool unread_results = true;
 };
 
 struct EvaluationOptions {

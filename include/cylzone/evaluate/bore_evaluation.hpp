@@ -241,6 +241,13 @@ struct BoreEvaluationOptions {
   bool two_point_sizes = true;
   /// The prepare stage evaluate_bore(plan, points) runs (bore_prepare_options).
   bool stray_screen = true;
+  /// Compute results no characteristic of the bore reads (decide/bore_characteristics.hpp).
+  /// Off (Monte Carlo trials), evaluate_bore skips, leaving them default: the minimum-zone
+  /// cylinder when the plan gives no cylindricity tolerance; the related mating envelope
+  /// unless a perpendicularity-only virtual condition at MMC rests on it; the minimum material
+  /// envelope unless an LMC tolerance or the upper size limit (no two-point sizes) rests on it;
+  /// the sampling record and the surface map. Every characteristic's value is the same bits.
+  bool unread_results = true;
   StrayPointOptions stray_points;
   /// Sampling thresholds where the plan gives none (PlanBore::sampling).
   SamplingThresholds sampling;

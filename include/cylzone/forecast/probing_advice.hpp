@@ -24,8 +24,12 @@
 ///     the maximum inscribed cylinder, the plan's axis methods) and evaluates the fitted axis
 ///     as the evaluate stage does (axis_zone.hpp: StraightAxis::from_axis, position_over_range,
 ///     perpendicularity_over_range) over the evaluated range [range_bottom, range_top].
-///  5. Monte Carlo (JCGM 101:2008, propagation of distributions; its adaptive stopping rule is
-///     not used: the number of trials is given). Trial t draws from its own generator, seeded
+///  5. Monte Carlo (JCGM 101:2008, propagation of distributions), a fixed number of trials or
+///     adaptive: batches until the mean, the standard deviation and both ends of the shortest
+///     95 % interval of every simulated quantity (the offsets and positional diameters at both
+///     ends, the slopes, the full-depth position, the perpendicularity) are stable within the
+///     numerical tolerance of section 7.9, by the Monte Carlo study's own procedure
+///     (uncertainty/monte_carlo.hpp, propagate_indexed). Trial t draws from its own generator, seeded
 ///     by splitmix64 of (seed, t) (Steele, Lea & Flood, "Fast splittable pseudorandom number
 ///     generators", OOPSLA 2014), normal deviates by the Box-Muller transform (Box & Muller,
 ///     Ann. Math. Stat. 29, 1958): the result is the same bits for any thread count and any
@@ -76,6 +80,7 @@
 #include "cylzone/core/threads.hpp"
 #include "cylzone/evaluate/bore_evaluation.hpp"
 #include "cylzone/plan/plan.hpp"
+#include "cylzone/uncertainty/monte_carlo.hpp"
 
 namespace cylzone {
 
@@ -105,7 +110,10 @@ struct ProbingAdviceOptions {
   BoreAxisMethod axis_method = BoreAxisMethod::least_squares;
   double probing_sigma = 0.0;  ///< standard deviation of each coordinate of a probed point, mm
   ProbingPattern pattern;      ///< the candidate pattern
-  std::size_t trials = 2000;   ///< Monte Carlo trials, >= 100
+  std::size_t trials = 2000;   ///< Monte Carlo trials, >= 100 (fixed count)
+  /// Adaptive trial count (JCGM 101:2008 7.9, the study's rule: monte_carlo.hpp) instead of
+  /// `trials`; its batch must be at least 100 when given (0: J = 2000).
+  std::optional<AdaptiveTrials> adaptive;
   std::uint64_t seed = 1;
   std::size_t threads = hardware_threads();
   double target_share = 0.1;  ///< the expanded uncertainty's largest share of a tolerance
@@ -145,7 +153,12 @@ struct ProbingPrediction {
   PredictionStatus status = PredictionStatus::predicted;
   std::string message;         ///< why undetermined; empty otherwise
   double probing_sigma = 0.0;  ///< mm, as given
-  std::size_t trials = 0;
+  std::size_t trials = 0;      ///< trials run (fixed, or where the adaptive rule stopped)
+  bool adaptive = false;       ///< the trial count was adaptive (JCGM 101 7.9)
+  std::size_t batches = 0;     ///< adaptive: batches run
+  /// Adaptive: the stopping rule was met before AdaptiveTrials::max_trials (always true for a
+  /// fixed count).
+  bool converged = true;
   EndPrediction top;
   EndPrediction bottom;
   SimulatedFigure full_depth;           ///< positional diameter over the full depth
@@ -170,6 +183,14 @@ struct ProbingAdvice {
   ProbingPrediction candidate;  ///< the given pattern
   std::optional<ProbingSearch> search;
 };
+
+/// The adaptive rule's settings for a prediction (the command line's `--trials adaptive`):
+/// batches of J = 2000, at most 200,000 trials, and the numerical tolerance of the standard
+/// deviation stated to ONE significant digit (JCGM 101 7.9.2 names 1 or 2 as usual). A pattern is
+/// chosen by comparing U with a share of the tolerance, which one digit decides; two digits ask
+/// the mean offset of a perfect bore (zero) for a tolerance of u / 20 to u / 200, tens of
+/// thousands of trials to 10^5 and more per pattern.
+AdaptiveTrials probing_adaptive_trials();
 
 /// Checks the options; throws InputError naming the option as its key.
 void validate_probing_options(const ProbingAdviceOptions& options);

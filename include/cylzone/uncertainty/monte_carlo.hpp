@@ -124,8 +124,10 @@ struct MonteCarloOptions {
 /// The profile a trial runs with: no ambiguity walks (the element is the first optimum reached,
 /// the same as with them whenever it is unique; the unperturbed fit's ambiguity is reported
 /// instead), no stray-point screen (it reports suspect points and changes no figure), two-point
-/// sizes kept (the upper size limit is decided on them). The sensitivity study and plausibility
-/// checks are not part of evaluate_part and are not run.
+/// sizes kept (the upper size limit is decided on them), no result that no characteristic reads
+/// (EvaluationProfile::unread_results: e.g. the minimum-zone cylinder of a bore without a
+/// cylindricity tolerance, the sampling record; every characteristic's value is the same bits).
+/// The sensitivity study and plausibility checks are not part of evaluate_part and are not run.
 EvaluationProfile lean_profile();
 
 /// A coverage interval [low, high], mm.
@@ -232,6 +234,22 @@ std::vector<OutputStatistics> propagate(std::size_t outputs, const TrialModel& t
                                         MonteCarloSummary& summary,
                                         std::vector<std::size_t>* failed = nullptr,
                                         std::vector<std::vector<double>>* samples = nullptr);
+
+/// The engine under propagate, for a model that keeps per-worker scratch or draws from its own
+/// generator: `trial(t, worker, out)` fills `out` for trial t (0-based over the whole run) on
+/// worker `worker` (below max(1, options.threads); one trial at a time per worker, so a buffer
+/// per worker needs no lock). Everything else as propagate; deterministic for a seed whatever
+/// `threads` when `trial`'s values depend only on t (not on the worker or on earlier trials).
+/// The adaptive procedure (JCGM 101 7.9) is this function's: every adaptive simulation of the
+/// library (the part study, the probing prediction) stops by it.
+using IndexedTrialModel =
+    std::function<void(std::size_t trial, std::size_t worker, std::vector<double>& out)>;
+std::vector<OutputStatistics> propagate_indexed(std::size_t outputs,
+                                                const IndexedTrialModel& trial,
+                                                const MonteCarloOptions& options,
+                                                MonteCarloSummary& summary,
+                                                std::vector<std::size_t>* failed = nullptr,
+                                                std::vector<std::vector<double>>* samples = nullptr);
 
 /// The seed of trial `trial` of a study seeded `seed`: splitmix64 (Steele, Lea & Flood, OOPSLA
 /// 2014) of the seed mixed with splitmix64 of the trial index.
