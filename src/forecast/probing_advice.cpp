@@ -230,6 +230,9 @@ ProbingPrediction simulate(const ProbingAdviceOptions& o, const ProbingPattern& 
   // Noisy points have a unique optimum almost surely; the walks that look for others would
   // only cost time (fit_cylinder.hpp, CylinderFit::ambiguity).
   fit.assess_ambiguity = false;
+  // Thousands of small programmes: the dense solver avoids Clp's set-up per programme and
+  // falls back to Clp where it fails (docs/chebyshev.md, "Solvers").
+  fit.lp_solver = LpSolver::dense;
 
   // The trials run through the study's engine (uncertainty/monte_carlo.hpp): a fixed count or
   // its adaptive procedure (JCGM 101 7.9); each trial draws from its own generator, seeded from
