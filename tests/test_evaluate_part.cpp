@@ -327,6 +327,36 @@ TEST_CASE("a bore's boundary points are kept only where a moved frame measures t
   }
 }
 
+TEST_CASE("datum clouds: only those preparation changed are held again", "[check][memory]") {
+  // A datum passed unchanged is read from the inputs (no second copy of a dense face); one
+  // whose points preparation changes (here datum A's residual rejection after the fit, which
+  // removes an injected spike) is held as prepared. The frame is built from exactly those
+  // points: the same frame as the one built from the prepared cloud directly.
+  Part p = part_abc(MaterialBoundary::rmb);
+  add_bores(p, abc, rings(-30.0, 25.005, 0.0002, 4.01, deep));
+  const PartEvaluation plain = evaluate_part(p.plan, p.inputs, quick());
+  REQUIRE(plain.datum_clouds.size() == p.plan.datums.size());
+  for (std::size_t k = 0; k < p.plan.datums.size(); ++k) {
+    CHECK(plain.datum_clouds[k].points.cols() == 0);
+    CHECK(&datum_cloud_used(plain, p.inputs, k) == &p.inputs.datums[k]);
+  }
+
+  // A spike 0.5 mm off datum A's face: removed by the residual stage (docs/methods.md).
+  Part spiked = p;
+  Eigen::Matrix3Xd& a = spiked.inputs.datums[0].points;
+  const Eigen::Index n = a.cols();
+  a.conservativeResize(3, n + 1);
+  a.col(n) = a.col(0) + 0.5 * Eigen::Vector3d::UnitZ();
+  spiked.plan.datums[0].probe.residual_rejection = true;
+  const PartEvaluation e = evaluate_part(spiked.plan, spiked.inputs, quick());
+  REQUIRE(e.datum_clouds[0].points.cols() == n);
+  CHECK(&datum_cloud_used(e, spiked.inputs, 0) == &e.datum_clouds[0]);
+  CHECK(&datum_cloud_used(e, spiked.inputs, 1) == &spiked.inputs.datums[1]);
+  // Reference: the plain run on the clean points, where A's face is the same points.
+  CHECK(e.datums.frame.origin.isApprox(plain.datums.frame.origin, 1e-12));
+  CHECK((e.datums.frame.rotation - plain.datums.frame.rotation).norm() < 1e-12);
+}
+
 TEST_CASE("a datum feature that cannot be evaluated stops the evaluation, naming the datum",
           "[check][partial]") {
   // Every bore's zone is located in the frame all the datums build: nothing can be evaluated.

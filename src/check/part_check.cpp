@@ -186,15 +186,17 @@ std::vector<FrameAnchor> frame_anchors(const PartPlan& plan, const PartInputs& i
   return anchors;
 }
 
-std::vector<DatumInput> datum_inputs(const PartPlan& plan, const std::vector<PointCloud>& clouds) {
+std::vector<DatumInput> datum_inputs(const PartPlan& plan, const PartEvaluation& evaluation,
+                                     const PartInputs& inputs) {
   std::vector<DatumInput> datums;
   for (std::size_t k = 0; k < plan.datums.size(); ++k)
-    datums.push_back({plan.datums[k], clouds[k]});
+    datums.push_back({plan.datums[k], datum_cloud_used(evaluation, inputs, k)});
   return datums;
 }
 
 /// Raw datum points: compensated and cleared of outliers as the plan asks, before the frame
-/// is built (prepare.hpp). A datum of surface points with no outlier stage is passed unchanged.
+/// is built (prepare.hpp). A datum of surface points with no outlier stage is passed unchanged:
+/// its slot stays empty (PartEvaluation::datum_clouds, datum_cloud_used) rather than a copy.
 /// `into_material` is A's material side, which orients A (and C when the plan gives its side)
 /// and starts B's and C's axes (held perpendicular to A in the frame).
 std::vector<PointCloud> prepared_datums(const PartPlan& plan, const PartInputs& inputs,
@@ -202,7 +204,7 @@ std::vector<PointCloud> prepared_datums(const PartPlan& plan, const PartInputs& 
                                         const BoreEvaluationOptions& stage,
                                         std::vector<FeaturePreparation>& records,
                                         std::vector<std::string>& warnings) {
-  std::vector<PointCloud> clouds = inputs.datums;
+  std::vector<PointCloud> clouds(plan.datums.size());
   for (std::size_t k = 0; k < plan.datums.size(); ++k) {
     const PlanDatum& d = plan.datums[k];
     const std::string role = std::string("datum ") + d.label;
@@ -220,7 +222,11 @@ std::vector<PointCloud> prepared_datums(const PartPlan& plan, const PartInputs& 
       options.outward = -*d.material_side;
     apply_probe_settings(settings, options);
     PreparedFeature prepared =
-        for_feature(role, [&] { return prepare_feature(d.kind, clouds[k], options); });
+        for_feature(role, [&] { return prepare_feature(d.kind, inputs.datums[k], options); });
+    // An empty slot means "unchanged" (datum_cloud_used): preparation that leaves no points
+    // must not read as the raw points.
+    if (prepared.cloud.points.cols() == 0)
+      throw FitError(role + ": no points are left after compensation and outlier rejection");
     clouds[k] = std::move(prepared.cloud);
     record.record = std::move(prepared.record);
     for (const std::string& w : preparation_warnings(record.record))
@@ -265,7 +271,7 @@ PartEvaluation evaluate_part(const PartPlan& plan, const PartInputs& inputs,
   DatumFrameOptions frame = frame_options(stage);
   frame.anchors = frame_anchors(plan, inputs);
   result.datums =
-      establish_datum_frame(datum_inputs(plan, result.datum_clouds), result.material_side, frame);
+      establish_datum_frame(datum_inputs(plan, result, inputs), result.material_side, frame);
   result.datums.a.material_side_inferred = inferred;
   if (inferred)
     result.warnings.push_back("material side of datum A inferred from the bores' points");
@@ -375,7 +381,7 @@ std::vector<BoreSensitivity> association_sensitivity(const PartPlan& plan,
       DatumFrameOptions frame = alternative;
       frame.a_association = methods[m];
       const DatumFrameResult other = establish_datum_frame(
-          datum_inputs(plan, nominal.datum_clouds.empty() ? inputs.datums : nominal.datum_clouds),
+          datum_inputs(plan, nominal, inputs),
           nominal.material_side, frame);
       // q_other = R_o (R^T q + o - o_o): the rigid motion from this frame to the other.
       const DatumFrame& f = nominal.datums.frame;

@@ -300,16 +300,17 @@ double pooled_rms(const std::vector<std::pair<double, std::size_t>>& parts) {
 }
 
 /// Sigma per feature for the `estimated` model: the RMS residual of the feature's own
-/// least-squares fit on its prepared points (datums: PartEvaluation::datum_clouds; bores: the
+/// least-squares fit on its prepared points (datums: datum_cloud_used(); bores: the
 /// bore's least-squares cylinder).
-std::vector<double> estimated_sigmas(const PartPlan& plan, const PartEvaluation& nominal,
+std::vector<double> estimated_sigmas(const PartPlan& plan, const PartInputs& inputs,
+                                     const PartEvaluation& nominal,
                                      std::vector<std::string>& warnings) {
   std::vector<double> sigma;
   FitOptions fit;
   fit.threads = 1;
   for (std::size_t k = 0; k < plan.datums.size(); ++k) {
     const PlanDatum& d = plan.datums[k];
-    const Eigen::Matrix3Xd& points = nominal.datum_clouds[k].points;
+    const Eigen::Matrix3Xd& points = datum_cloud_used(nominal, inputs, k).points;
     switch (d.kind) {
       case FeatureKind::plane:
         sigma.push_back(fit_plane_least_squares(points, fit).residuals.rms);
@@ -495,7 +496,7 @@ MonteCarloSummary monte_carlo_uncertainty(const PartPlan& plan, const PartInputs
   const std::size_t features = inputs.datums.size() + inputs.bores.size();
   summary.feature_sigma = options.probing == ProbingModel::sigma
                               ? std::vector<double>(features, options.probing_sigma)
-                              : estimated_sigmas(plan, nominal, summary.warnings);
+                              : estimated_sigmas(plan, inputs, nominal, summary.warnings);
   const Eigen::Matrix3d to_measurement = nominal.datums.frame.rotation.transpose();
   Eigen::Vector3d centroid = Eigen::Vector3d::Zero();
   double length = 0.0;

@@ -66,10 +66,21 @@ struct PartEvaluation {
   std::vector<std::string> warnings;
   /// Every datum, then every bore, in plan order.
   std::vector<FeaturePreparation> preparation;
-  /// The datum clouds the frame was built from (plan order), after compensation and outlier
-  /// rejection: association_sensitivity builds its frames from the same points.
+  /// The datum clouds preparation changed (plan order), after compensation and outlier
+  /// rejection; a datum passed unchanged has an empty cloud here, so that a dense scan's datum
+  /// faces are not held twice. Read them through datum_cloud_used().
   std::vector<PointCloud> datum_clouds;
 };
+
+/// The points datum `k`'s frame was built from: the prepared cloud when preparation changed
+/// it, else `inputs.datums[k]` (the inputs `evaluation` was computed from). The association
+/// study and the uncertainty study build their frames from the same points.
+inline const PointCloud& datum_cloud_used(const PartEvaluation& evaluation,
+                                          const PartInputs& inputs, std::size_t k) {
+  return k < evaluation.datum_clouds.size() && evaluation.datum_clouds[k].points.cols() > 0
+             ? evaluation.datum_clouds[k]
+             : inputs.datums.at(k);
+}
 
 /// Evaluates the part. `inputs` must hold one cloud per plan datum and per plan bore, in plan
 /// order (as load_part_inputs gives them; they may also be built in memory).
