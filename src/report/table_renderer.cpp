@@ -167,8 +167,20 @@ void segmentation_lines(std::ostream& out, const ReportModel& m, const Symbols& 
                                      : std::string(", no normals")) +
                      "; " + std::to_string(s.unassigned) + " points within no feature's band",
                  width, 4);
+  if (const std::optional<PlacementSearchSummary>& f = s.search)
+    out << wrapped("  placement found from the cloud and the nominal datum features: ",
+                   std::to_string(f->hypotheses) +
+                       (f->hypotheses == 1 ? " placement" : " placements") +
+                       " tried, the best with " +
+                       std::to_string(f->inliers) + " sample points within the band" +
+                       (f->runner_up_distance > 0.0
+                            ? "; the best elsewhere (" + u.text(f->runner_up_distance) + " " +
+                                  std::string(u.name()) + " away) " +
+                                  std::to_string(f->runner_up_inliers)
+                            : std::string()),
+                   width, 4);
   if (const std::optional<RegistrationResult>& r = s.registration)
-    out << wrapped("  placement registered to the datum features: ",
+    out << wrapped(s.search ? "  found placement refined: " : "  placement registered to the datum features: ",
                    std::to_string(r->iterations) + " iterations" +
                        (r->converged ? "" : " (not converged)") + ", " +
                        std::to_string(r->points) + " points, rms " + u.text(r->rms) + " " +
