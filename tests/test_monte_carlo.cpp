@@ -426,6 +426,15 @@ TEST_CASE("monte carlo: the same seed gives the same bits on 1 and 2 threads", "
   CHECK(one.seed == 99);
   CHECK(one.trials == 24);
   CHECK(one.failed_trials == 0);
+  // The trials' Chebyshev fits run on the dense solver: the same fits in every trial (the same
+  // profile on the same plan: a multiple of the trials, at least each bore's mating envelope),
+  // counted the same on any thread count, and no programme of this well-posed part needs Clp
+  // (the dense solver's contract, docs/chebyshev.md "Solvers").
+  CHECK(one.chebyshev_fits == two.chebyshev_fits);
+  CHECK(one.lp_fallbacks == two.lp_fallbacks);
+  CHECK(one.chebyshev_fits % one.trials == 0);
+  CHECK(one.chebyshev_fits >= one.trials * p.plan.bores.size());
+  CHECK(one.lp_fallbacks == 0);
   // Another seed draws other errors.
   options.seed = 100;
   const MonteCarloSummary other = monte_carlo_uncertainty(p.plan, p.inputs, options);

@@ -668,6 +668,8 @@ json uncertainty_json(const MonteCarloSummary& s, const ReportModel& m) {
           {"feature_sigma", sigma},
           {"length_error", length_error},
           {"failed_trials", s.failed_trials},
+          {"chebyshev_fits", s.chebyshev_fits},
+          {"lp_fallbacks", s.lp_fallbacks},
           {"characteristics", characteristics},
           {"warnings", s.warnings},
           {"caution", std::string(safety_caution)}};
@@ -862,6 +864,9 @@ MonteCarloSummary read_uncertainty(const ReportReader& in, const json& o, const 
     s.length = mm(length_error, lp, "length");
   }
   s.failed_trials = in.count(o, path, "failed_trials");
+  // Reports written before these counts existed leave them at 0.
+  if (o.contains("chebyshev_fits")) s.chebyshev_fits = in.count(o, path, "chebyshev_fits");
+  if (o.contains("lp_fallbacks")) s.lp_fallbacks = in.count(o, path, "lp_fallbacks");
   const json& characteristics = in.key(o, path, "characteristics");
   if (!characteristics.is_object()) in.fail(path + ".characteristics", "expected an object");
   std::vector<std::string> ids;

@@ -351,6 +351,11 @@ void uncertainty_lines(std::ostream& out, const ReportModel& m, std::size_t widt
   out << wrapped("  ", model + "; " + s.message + "; status " +
                            std::string(monte_carlo_status_name(s.status)),
                  width, 4);
+  out << wrapped("  ", std::to_string(s.chebyshev_fits) +
+                           " Chebyshev fits in the trials on the dense solver; " +
+                           std::to_string(s.lp_fallbacks) +
+                           " of their linear programmes fell back to Clp",
+                 width, 4);
   out << pad("id", 28) << pad_left("value", w) << pad_left("u", w) << pad_left("low", w)
       << pad_left("high", w) << pad_left("ambiguity", w + 1) << '\n';
   for (const CharacteristicUncertainty& c : s.characteristics) {

@@ -6,6 +6,7 @@
 #include "cylzone/uncertainty/monte_carlo.hpp"
 
 #include <algorithm>
+#include <utility>
 #include <cmath>
 #include <limits>
 #include <numeric>
@@ -94,6 +95,31 @@ EvaluationProfile lean_profile() {
   profile.unread_results = false;
   return profile;
 }
+
+namespace {
+
+/// The Chebyshev fits an evaluation ran (the bores' envelopes and minimum zones and the datum
+/// features' fits other than least squares) and their programmes solved by Clp after the dense
+/// solver failed (FitSummary::lp_fallbacks).
+std::pair<std::size_t, std::size_t> chebyshev_fit_counts(const PartEvaluation& e) {
+  std::size_t fits = 0, fallbacks = 0;
+  const auto add = [&](const FitSummary& s) {
+    if (s.point_count == 0 || s.method == FitMethod::least_squares) return;
+    ++fits;
+    fallbacks += static_cast<std::size_t>(std::max(0, s.lp_fallbacks));
+  };
+  for (const BoreResult& b : e.bores)
+    for (const CylinderFit* f :
+         {&b.mating_envelope, &b.related_envelope, &b.minimum_material, &b.minimum_zone})
+      add(f->summary);
+  add(e.datums.a.plane.summary);
+  for (const auto* d : {&e.datums.b, &e.datums.c_feature})
+    if (*d) add((*d)->related_envelope.summary);
+  if (e.datums.c_plane) add(e.datums.c_plane->plane.summary);
+  return {fits, fallbacks};
+}
+
+}  // namespace
 
 std::uint64_t trial_seed(std::uint64_t seed, std::uint64_t trial) noexcept {
   return splitmix64(seed ^ splitmix64(trial));
@@ -529,6 +555,10 @@ MonteCarloSummary monte_carlo_uncertainty(const PartPlan& plan, const PartInputs
   lean.profile = lean_profile();
   lean.profile.two_point_sizes = two_point;
 
+  // Per worker: the trials' Chebyshev fits and the dense solver's fall-backs to Clp (summed
+  // after the loop; integers, so the sums are the same for any thread count).
+  std::vector<std::size_t> chebyshev_fits(std::max<std::size_t>(1, options.threads), 0);
+  std::vector<std::size_t> lp_fallbacks(chebyshev_fits.size(), 0);
   // One perturbed copy of the inputs per worker, made once: a trial overwrites its points in
   // place from the unperturbed ones (no cloud is allocated per trial).
   std::vector<PartInputs> perturbed(std::max<std::size_t>(1, options.threads), inputs);
@@ -565,6 +595,9 @@ MonteCarloSummary monte_carlo_uncertainty(const PartPlan& plan, const PartInputs
     } catch (const std::exception&) {
       return;  // every output stays NaN: the trial is counted as failed
     }
+    const auto [fits, fallbacks] = chebyshev_fit_counts(e);
+    chebyshev_fits[worker] += fits;
+    lp_fallbacks[worker] += fallbacks;
     std::size_t current = std::numeric_limits<std::size_t>::max();
     std::vector<Characteristic> rows;
     for (std::size_t o = 0; o < outputs.size(); ++o) {
@@ -581,6 +614,10 @@ MonteCarloSummary monte_carlo_uncertainty(const PartPlan& plan, const PartInputs
   std::vector<std::size_t> failed;
   const std::vector<OutputStatistics> stats =
       propagate_indexed(outputs.size(), trial, options, summary, &failed);
+  for (std::size_t w = 0; w < chebyshev_fits.size(); ++w) {
+    summary.chebyshev_fits += chebyshev_fits[w];
+    summary.lp_fallbacks += lp_fallbacks[w];
+  }
 
   for (std::size_t o = 0; o < outputs.size(); ++o) {
     CharacteristicUncertainty u;

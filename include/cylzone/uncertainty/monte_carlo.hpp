@@ -206,6 +206,11 @@ struct MonteCarloSummary {
   std::optional<LengthError> length_error;
   double length = 0.0;      ///< L of the length error, mm (0 without one)
   std::size_t failed_trials = 0;  ///< trials whose evaluation threw (a datum could not be built)
+  /// The trials' Chebyshev fits (bores' envelopes and minimum zones, datum features'), which
+  /// run on the dense linear-programme solver (docs/chebyshev.md, "Solvers"), and the
+  /// programmes of those fits the dense solver could not solve, solved by Clp instead.
+  std::size_t chebyshev_fits = 0;
+  std::size_t lp_fallbacks = 0;
   std::vector<CharacteristicUncertainty> characteristics;  ///< in the check's order
   std::vector<std::string> warnings;
 };
