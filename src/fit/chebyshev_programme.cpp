@@ -148,6 +148,10 @@ std::string scientific(double value) {
   return text;
 }
 
+/// The largest optimum either solver may return (in units of Delta): the current element is
+/// feasible with objective 0, so anything above this is a solver failure (run_simplex).
+constexpr double optimum_ceiling = 1e-9;
+
 }  // namespace
 
 // y = 0 with R' = r' = 0 is feasible with objective 0 (the extreme points' rows are present),
@@ -160,8 +164,7 @@ std::string scientific(double value) {
 // primal simplex and no perturbation, then with the dual simplex the same way; only if all
 // three fail is the programme reported, saying what the solver returned.
 void ZoneProgramme::run_simplex(ClpSimplex& lp) const {
-  constexpr double impossible = 1e-9;
-  auto solved = [&] { return lp.isProvenOptimal() && lp.objectiveValue() <= impossible; };
+  auto solved = [&] { return lp.isProvenOptimal() && lp.objectiveValue() <= optimum_ceiling; };
   try {
     lp.dual();
     if (!solved()) {
@@ -422,7 +425,7 @@ bool ZoneProgramme::solve_dense(const Eigen::VectorXd& d, const Eigen::MatrixXd&
   // As for Clp (run_simplex): the current element is feasible with objective 0, so an optimum
   // above that is a failure, not a property of the data.
   const double objective = dense_.objective();
-  if (!(objective <= 1e-9)) return false;
+  if (!(objective <= optimum_ceiling)) return false;
 
   dense_basis_.clear();
   for (int j = 0; j < columns_; ++j) {

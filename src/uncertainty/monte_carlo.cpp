@@ -6,11 +6,11 @@
 #include "cylzone/uncertainty/monte_carlo.hpp"
 
 #include <algorithm>
-#include <utility>
 #include <cmath>
 #include <limits>
 #include <numeric>
 #include <stdexcept>
+#include <utility>
 
 #include "cylzone/decide/bore_characteristics.hpp"
 #include "cylzone/fit/fit_cylinder.hpp"
@@ -557,8 +557,8 @@ MonteCarloSummary monte_carlo_uncertainty(const PartPlan& plan, const PartInputs
 
   // Per worker: the trials' Chebyshev fits and the dense solver's fall-backs to Clp (summed
   // after the loop; integers, so the sums are the same for any thread count).
-  std::vector<std::size_t> chebyshev_fits(std::max<std::size_t>(1, options.threads), 0);
-  std::vector<std::size_t> lp_fallbacks(chebyshev_fits.size(), 0);
+  std::vector<std::pair<std::size_t, std::size_t>> fit_counts(
+      std::max<std::size_t>(1, options.threads), {0, 0});
   // One perturbed copy of the inputs per worker, made once: a trial overwrites its points in
   // place from the unperturbed ones (no cloud is allocated per trial).
   std::vector<PartInputs> perturbed(std::max<std::size_t>(1, options.threads), inputs);
@@ -596,8 +596,8 @@ MonteCarloSummary monte_carlo_uncertainty(const PartPlan& plan, const PartInputs
       return;  // every output stays NaN: the trial is counted as failed
     }
     const auto [fits, fallbacks] = chebyshev_fit_counts(e);
-    chebyshev_fits[worker] += fits;
-    lp_fallbacks[worker] += fallbacks;
+    fit_counts[worker].first += fits;
+    fit_counts[worker].second += fallbacks;
     std::size_t current = std::numeric_limits<std::size_t>::max();
     std::vector<Characteristic> rows;
     for (std::size_t o = 0; o < outputs.size(); ++o) {
@@ -614,9 +614,9 @@ MonteCarloSummary monte_carlo_uncertainty(const PartPlan& plan, const PartInputs
   std::vector<std::size_t> failed;
   const std::vector<OutputStatistics> stats =
       propagate_indexed(outputs.size(), trial, options, summary, &failed);
-  for (std::size_t w = 0; w < chebyshev_fits.size(); ++w) {
-    summary.chebyshev_fits += chebyshev_fits[w];
-    summary.lp_fallbacks += lp_fallbacks[w];
+  for (const auto& [fits, fallbacks] : fit_counts) {
+    summary.chebyshev_fits += fits;
+    summary.lp_fallbacks += fallbacks;
   }
 
   for (std::size_t o = 0; o < outputs.size(); ++o) {
