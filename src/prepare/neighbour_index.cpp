@@ -60,6 +60,12 @@ struct Metric {
 };
 using KdTree = nanoflann::KDTreeSingleIndexAdaptor<Metric, SlabPoints, 3, std::uint32_t>;
 
+/// At least the next double above `d` >= 0 (0 included), without a libm call: d * epsilon is at
+/// least one unit in the last place of d, and rounding is monotone.
+inline double just_above(double d) {
+  return d + d * std::numeric_limits<double>::epsilon() + std::numeric_limits<double>::denorm_min();
+}
+
 /// The `capacity` nearest points in the strict order (squared distance, index), so that ties in
 /// distance go to the lower index whatever order the tree visits them in. nanoflann admits a
 /// candidate only when its distance is below worstDist() and skips a subtree farther than
@@ -74,14 +80,18 @@ class OrderedNearest {
   explicit OrderedNearest(std::size_t capacity)
       : capacity_(capacity), distance_(capacity), index_(capacity) {}
 
-  void clear() {
+  /// Empties the list. With a `bound`, only candidates nearer than it are admitted from the
+  /// start: an upper bound on the capacity-th distance (just_above of it, see below) prunes the
+  /// search at once and loses none of the nearest.
+  void clear(double bound = std::numeric_limits<double>::infinity()) {
     count_ = 0;
-    worst_ = std::numeric_limits<double>::infinity();
+    worst_ = bound;
   }
   std::size_t size() const { return count_; }
   bool full() const { return count_ == capacity_; }
   double worstDist() const { return worst_; }
   std::uint32_t index(std::size_t k) const { return index_[k]; }
+  double distance(std::size_t k) const { return distance_[k]; }
 
   bool addPoint(double distance, std::uint32_t index) {
     if (full() && !before(distance, index, distance_[capacity_ - 1], index_[capacity_ - 1]))
@@ -93,12 +103,7 @@ class OrderedNearest {
     }
     distance_[k] = distance;
     index_[k] = index;
-    if (full()) {
-      // At least the next double above the k-th distance (0 included), without a libm call.
-      const double d = distance_[capacity_ - 1];
-      worst_ = d + d * std::numeric_limits<double>::epsilon() +
-               std::numeric_limits<double>::denorm_min();
-    }
+    if (full()) worst_ = just_above(distance_[capacity_ - 1]);
     return true;  // keep searching: the search itself stops at worstDist()
   }
 
@@ -120,6 +125,33 @@ class OrderedNearest {
 constexpr std::size_t slab_points = 1u << 16;
 constexpr std::size_t most_slabs = 64;
 
+/// Offers `nearest` the points at positions [begin, end) of the per-axis arrays x, y, z (their
+/// indices in `global`) that are nearer to q than its current worst distance. The distances are
+/// computed together (the compiler vectorises them) before any is offered, in the same
+/// arithmetic as one at a time, so the same bits; those that pass are gathered without a branch
+/// per point (whether a point passes is unpredictable), then offered in order.
+inline void offer_range(const double* q, const double* x, const double* y, const double* z,
+                        const std::uint32_t* global, std::size_t begin, std::size_t end,
+                        OrderedNearest& nearest) {
+  for (; begin < end; begin += leaf_points) {
+    const std::size_t count = std::min(end - begin, leaf_points);
+    double distance[leaf_points];
+    for (std::size_t j = 0; j < count; ++j)
+      distance[j] = squared_distance(q, x[begin + j], y[begin + j], z[begin + j]);
+    std::uint32_t passing[leaf_points];
+    std::size_t passed = 0;
+    const double worst = nearest.worstDist();
+    for (std::size_t j = 0; j < count; ++j) {
+      passing[passed] = static_cast<std::uint32_t>(j);
+      passed += distance[j] < worst ? 1 : 0;
+    }
+    for (std::size_t c = 0; c < passed; ++c) {
+      const std::size_t j = passing[c];
+      if (distance[j] < nearest.worstDist()) nearest.addPoint(distance[j], global[begin + j]);
+    }
+  }
+}
+
 }  // namespace
 
 /// The points are cut into slabs of equal width across the direction of their largest extent
@@ -130,6 +162,10 @@ constexpr std::size_t most_slabs = 64;
 /// floating point too: the squared gap is one term of the rounded sum of squares). The
 /// neighbours are those of the whole cloud in (distance, index) order, so the split changes no
 /// result. Small clouds are one slab.
+///
+/// The coordinates are kept once, in the locality order (slab by slab, each slab in its tree's
+/// order, so a leaf is a range of positions), one array per axis; `order` maps a position to the
+/// point's index in the input.
 struct NeighbourIndex::Tree {
   Tree(const Eigen::Matrix3Xd& points, std::size_t threads);
   /// The slab a point falls in.
@@ -139,20 +175,39 @@ struct NeighbourIndex::Tree {
     return t <= 0.0 ? 0 : std::min(slabs.size() - 1, static_cast<std::size_t>(t));
   }
   struct Slab {
-    std::vector<std::uint32_t> global;  ///< the slab's points (global indices), in tree order
-    std::vector<double> axis[3];        ///< their x, y and z coordinates, in the same order
-    double low = 0.0, high = 0.0;       ///< extent of its points along the cut direction
+    std::size_t begin = 0, end = 0;  ///< its positions in the locality order
+    double low = 0.0, high = 0.0;    ///< extent of its points along the cut direction
     std::unique_ptr<SlabPoints> dataset;
-    std::unique_ptr<KdTree> tree;       ///< null for an empty slab
+    std::unique_ptr<KdTree> tree;  ///< null for an empty slab
   };
   /// Offers `nearest` the points of `slab` that can be among the nearest to `q` (see search).
-  static void search(const Slab& slab, const double* q, OrderedNearest& nearest);
+  void search(const Slab& slab, const double* q, OrderedNearest& nearest) const;
+  /// Searches slab `own` (q's), then the slabs on either side, outwards, while a slab's gap
+  /// along the cut direction is within the current worst distance.
+  void search_slabs(std::size_t own, const double* q, OrderedNearest& nearest) const {
+    search(slabs[own], q, nearest);
+    for (std::size_t s = own; s-- > 0;) {
+      const Slab& slab = slabs[s];
+      if (!slab.tree) continue;
+      const double gap = q[axis] - slab.high;
+      if (nearest.full() && gap * gap > nearest.worstDist()) break;
+      search(slab, q, nearest);
+    }
+    for (std::size_t s = own + 1; s < slabs.size(); ++s) {
+      const Slab& slab = slabs[s];
+      if (!slab.tree) continue;
+      const double gap = slab.low - q[axis];
+      if (nearest.full() && gap * gap > nearest.worstDist()) break;
+      search(slab, q, nearest);
+    }
+  }
   const double* data;
   std::size_t size;
   std::size_t axis = 0;
   double low = 0.0, per_width = 0.0;  ///< slab of coordinate c: floor((c - low) * per_width)
   std::vector<Slab> slabs;            ///< in order along the axis
-  std::vector<std::uint32_t> order;   ///< locality order: slab by slab, each in tree order
+  std::vector<std::uint32_t> order;   ///< locality order: the input index at each position
+  std::vector<double> axes[3];        ///< x, y and z at each position
 };
 
 NeighbourIndex::Tree::Tree(const Eigen::Matrix3Xd& points, std::size_t threads)
@@ -169,73 +224,77 @@ NeighbourIndex::Tree::Tree(const Eigen::Matrix3Xd& points, std::size_t threads)
     if (!(per_width > 0.0) || !std::isfinite(per_width)) count = 1;
   }
   slabs.resize(count);
+  order.resize(size);
+  for (std::vector<double>& a : axes) a.resize(size);
   if (count == 1) {
-    slabs[0].global.resize(size);
-    for (std::size_t i = 0; i < size; ++i) slabs[0].global[i] = static_cast<std::uint32_t>(i);
+    slabs[0].end = size;
+    for (std::size_t i = 0; i < size; ++i) order[i] = static_cast<std::uint32_t>(i);
   } else {
-    std::vector<std::uint32_t> slab_index(size), tally(count, 0);
+    // A counting sort by slab, stable: each slab's points in input order.
+    std::vector<std::uint32_t> slab_index(size);
+    std::vector<std::size_t> tally(count, 0);
     for (std::size_t i = 0; i < size; ++i) {
       slab_index[i] = static_cast<std::uint32_t>(slab_of(data + 3 * i));
       ++tally[slab_index[i]];
     }
-    for (std::size_t s = 0; s < count; ++s) slabs[s].global.reserve(tally[s]);
-    for (std::size_t i = 0; i < size; ++i)
-      slabs[slab_index[i]].global.push_back(static_cast<std::uint32_t>(i));
+    std::size_t at = 0;
+    for (std::size_t s = 0; s < count; ++s) {
+      slabs[s].begin = at;
+      at += tally[s];
+      slabs[s].end = at;
+    }
+    std::vector<std::size_t> next(count);
+    for (std::size_t s = 0; s < count; ++s) next[s] = slabs[s].begin;
+    for (std::size_t i = 0; i < size; ++i) order[next[slab_index[i]]++] = static_cast<std::uint32_t>(i);
   }
   detail::parallel_for(count, threads, [&](std::size_t s, std::size_t) {
     Slab& slab = slabs[s];
-    if (slab.global.empty()) return;
+    const std::size_t m = slab.end - slab.begin;
+    if (m == 0) return;
     slab.low = std::numeric_limits<double>::infinity();
     slab.high = -slab.low;
-    for (const std::uint32_t g : slab.global) {
-      const double c = data[3 * static_cast<std::size_t>(g) + axis];
-      slab.low = std::min(slab.low, c);
-      slab.high = std::max(slab.high, c);
-    }
-    const std::size_t m = slab.global.size();
-    std::vector<double> axes[3];
-    for (std::vector<double>& a : axes) a.resize(m);
-    for (std::size_t j = 0; j < m; ++j)
+    const std::vector<std::uint32_t> members(order.begin() + static_cast<std::ptrdiff_t>(slab.begin),
+                                             order.begin() + static_cast<std::ptrdiff_t>(slab.end));
+    std::vector<double> built_axes[3];
+    for (std::vector<double>& a : built_axes) a.resize(m);
+    for (std::size_t j = 0; j < m; ++j) {
       for (std::size_t d = 0; d < 3; ++d)
-        axes[d][j] = data[3 * static_cast<std::size_t>(slab.global[j]) + d];
-    const double* built[3] = {axes[0].data(), axes[1].data(), axes[2].data()};
+        built_axes[d][j] = data[3 * static_cast<std::size_t>(members[j]) + d];
+      slab.low = std::min(slab.low, built_axes[axis][j]);
+      slab.high = std::max(slab.high, built_axes[axis][j]);
+    }
+    const double* built[3] = {built_axes[0].data(), built_axes[1].data(), built_axes[2].data()};
     slab.dataset = std::make_unique<SlabPoints>(built, m);
     slab.tree = std::make_unique<KdTree>(3, *slab.dataset,
                                          nanoflann::KDTreeSingleIndexAdaptorParams(leaf_points));
     // Renumber the slab's points in the tree's order (a node covers a range of that order, so
     // the tree stays valid with the identity permutation): a leaf's points are then adjacent
     // in memory and a query reads them without an index in between, whatever the input order.
-    std::vector<std::uint32_t> global(m);
-    for (std::vector<double>& a : slab.axis) a.resize(m);
     for (std::size_t j = 0; j < m; ++j) {
       const std::uint32_t local = slab.tree->vAcc[j];
-      global[j] = slab.global[local];
-      for (std::size_t d = 0; d < 3; ++d) slab.axis[d][j] = axes[d][local];
+      order[slab.begin + j] = members[local];
+      for (std::size_t d = 0; d < 3; ++d) axes[d][slab.begin + j] = built_axes[d][local];
       slab.tree->vAcc[j] = static_cast<std::uint32_t>(j);
     }
-    slab.global = std::move(global);
-    const double* kept[3] = {slab.axis[0].data(), slab.axis[1].data(), slab.axis[2].data()};
+    const double* kept[3] = {axes[0].data() + slab.begin, axes[1].data() + slab.begin,
+                             axes[2].data() + slab.begin};
     *slab.dataset = SlabPoints(kept, m);
   });
-  order.reserve(size);
-  for (const Slab& slab : slabs)
-    order.insert(order.end(), slab.global.begin(), slab.global.end());
 }
 
 /// The k-nearest search of one slab's tree. nanoflann builds the tree; the search is written
-/// here over its nodes because a query's time goes into the leaves: a leaf's distances are
-/// computed together from the per-axis arrays (the compiler vectorises them) before any is
-/// offered to `nearest`, in the same arithmetic as one at a time, so the same bits. A subtree
-/// is skipped only when the squared distance from q to its box, summed like a point's, exceeds
-/// the current worst distance: each term is at most the corresponding term of any point inside
+/// here over its nodes because a query's time goes into the leaves (offer_range). A subtree is
+/// skipped only when the squared distance from q to its box, summed like a point's, exceeds the
+/// current worst distance: each term is at most the corresponding term of any point inside
 /// (rounding is monotone), so no point that could enter the result is skipped, and the
 /// neighbours found are exactly the (distance, index) nearest.
-void NeighbourIndex::Tree::search(const Slab& slab, const double* q, OrderedNearest& nearest) {
+void NeighbourIndex::Tree::search(const Slab& slab, const double* q,
+                                  OrderedNearest& nearest) const {
   using Node = KdTree::Node;
-  const double* const x = slab.axis[0].data();
-  const double* const y = slab.axis[1].data();
-  const double* const z = slab.axis[2].data();
-  const std::uint32_t* const global = slab.global.data();
+  const double* const x = axes[0].data() + slab.begin;
+  const double* const y = axes[1].data() + slab.begin;
+  const double* const z = axes[2].data() + slab.begin;
+  const std::uint32_t* const global = order.data() + slab.begin;
   // gap[d]: q's offset from the current node's box along axis d (0 inside), as q - bound.
   double gap[3];
   for (int d = 0; d < 3; ++d) {
@@ -244,28 +303,7 @@ void NeighbourIndex::Tree::search(const Slab& slab, const double* q, OrderedNear
   }
   const auto descend = [&](const auto& self, const Node* node) -> void {
     if (node->child1 == nullptr && node->child2 == nullptr) {
-      const std::size_t left = node->node_type.lr.left, right = node->node_type.lr.right;
-      double distance[leaf_points];
-      const std::size_t count = std::min(right - left, leaf_points);
-      for (std::size_t j = 0; j < count; ++j)
-        distance[j] = squared_distance(q, x[left + j], y[left + j], z[left + j]);
-      // Those within the current k-th distance, gathered without a branch per point (whether
-      // a point passes is unpredictable), then offered in order.
-      std::uint32_t passing[leaf_points];
-      std::size_t passed = 0;
-      const double worst = nearest.worstDist();
-      for (std::size_t j = 0; j < count; ++j) {
-        passing[passed] = static_cast<std::uint32_t>(j);
-        passed += distance[j] < worst ? 1 : 0;
-      }
-      for (std::size_t c = 0; c < passed; ++c) {
-        const std::size_t j = passing[c];
-        if (distance[j] < nearest.worstDist()) nearest.addPoint(distance[j], global[left + j]);
-      }
-      for (std::size_t j = left + count; j < right; ++j) {  // a leaf larger than asked for
-        const double d = squared_distance(q, x[j], y[j], z[j]);
-        if (d < nearest.worstDist()) nearest.addPoint(d, global[j]);
-      }
+      offer_range(q, x, y, z, global, node->node_type.lr.left, node->node_type.lr.right, nearest);
       return;
     }
     // child1 holds the points with coordinate <= divlow along divfeat, child2 those >= divhigh.
@@ -311,6 +349,23 @@ const std::vector<std::uint32_t>& NeighbourIndex::locality_order() const noexcep
   return tree_->order;
 }
 
+namespace {
+/// The k nearest of a (k + 1)-list that holds the query itself (input index `self`) normally
+/// first: with k + 1 or more coincident points of lower index it is absent, and then the first
+/// k are all at distance 0 from it anyway.
+template <class Out>
+void without_self(const OrderedNearest& nearest, std::uint32_t self, std::size_t k, Out out) {
+  std::size_t written = 0;
+  for (std::size_t j = 0; j < nearest.size() && written < k; ++j) {
+    const std::uint32_t other = nearest.index(j);
+    if (other == self) continue;
+    out(other);
+    ++written;
+  }
+}
+
+}  // namespace
+
 NeighbourIndex::Query::Query(std::size_t k) {
   if (k == 0) throw std::invalid_argument("NeighbourIndex::Query: k must be at least 1");
   buffers_ = std::make_unique<Buffers>(k);
@@ -325,32 +380,45 @@ const std::vector<std::uint32_t>& NeighbourIndex::Query::of_point(const Neighbou
   b.nearest.clear();
   b.found.clear();
   const double* q = tree.data + 3 * i;
-  const auto search = [&](const Tree::Slab& slab) { Tree::search(slab, q, b.nearest); };
-  const std::size_t own = tree.slab_of(q);
-  search(tree.slabs[own]);
-  // Outwards on each side while a slab can still hold a point within the k-th distance.
-  for (std::size_t s = own; s-- > 0;) {
-    const Tree::Slab& slab = tree.slabs[s];
-    if (!slab.tree) continue;
-    const double gap = q[tree.axis] - slab.high;
-    if (b.nearest.full() && gap * gap > b.nearest.worstDist()) break;
-    search(slab);
-  }
-  for (std::size_t s = own + 1; s < tree.slabs.size(); ++s) {
-    const Tree::Slab& slab = tree.slabs[s];
-    if (!slab.tree) continue;
-    const double gap = slab.low - q[tree.axis];
-    if (b.nearest.full() && gap * gap > b.nearest.worstDist()) break;
-    search(slab);
-  }
-  // The point itself is normally first; with k + 1 or more coincident points of lower index
-  // it is absent, and then the first k are all at distance 0 from it anyway.
-  for (std::size_t j = 0; j < b.nearest.size() && b.found.size() < b.k; ++j) {
-    const std::uint32_t other = b.nearest.index(j);
-    if (other == i) continue;
-    b.found.push_back(other);
-  }
+  tree.search_slabs(tree.slab_of(q), q, b.nearest);
+  without_self(b.nearest, static_cast<std::uint32_t>(i), b.k,
+               [&](std::uint32_t other) { b.found.push_back(other); });
   return b.found;
+}
+
+void NeighbourIndex::nearest_in_order(std::size_t k, std::size_t first, std::size_t last,
+                                      std::vector<std::uint32_t>& neighbours) const {
+  const Tree& tree = *tree_;
+  if (k == 0) throw std::invalid_argument("NeighbourIndex::nearest_in_order: k must be at least 1");
+  if (tree.size <= k)
+    throw std::invalid_argument("NeighbourIndex::nearest_in_order: " + std::to_string(tree.size) +
+                                " points for " + std::to_string(k) + " neighbours");
+  if (first > last || last > tree.size)
+    throw std::invalid_argument("NeighbourIndex::nearest_in_order: positions outside the index");
+  neighbours.resize((last - first) * k);
+  OrderedNearest nearest(k + 1);  // each list holds the point itself too (distance 0)
+  std::uint32_t* out = neighbours.data();
+  std::size_t slab = 0;
+  for (std::size_t p = first; p < last; ++p) {
+    const double q[3] = {tree.axes[0][p], tree.axes[1][p], tree.axes[2][p]};
+    // The previous point's k + 1 nearest are k + 1 distinct points near this one (consecutive
+    // positions are neighbours in the tree): the farthest of them bounds this point's (k+1)-th
+    // distance from above, so the search starts pruned, with fewer insertions, and finds the
+    // same points (OrderedNearest::clear).
+    double bound = std::numeric_limits<double>::infinity();
+    if (p > first) {
+      bound = 0.0;
+      for (std::size_t j = 0; j < nearest.size(); ++j) {
+        const double* o = tree.data + 3 * static_cast<std::size_t>(nearest.index(j));
+        bound = std::max(bound, squared_distance(q, o[0], o[1], o[2]));
+      }
+      bound = just_above(bound);
+    }
+    nearest.clear(bound);
+    while (tree.slabs[slab].end <= p) ++slab;
+    tree.search_slabs(slab, q, nearest);
+    without_self(nearest, tree.order[p], k, [&](std::uint32_t other) { *out++ = other; });
+  }
 }
 
 }  // namespace cylzone

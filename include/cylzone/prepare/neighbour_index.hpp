@@ -38,6 +38,18 @@ class NeighbourIndex {
   /// consecutive queries on the same nodes (much faster than file order for shuffled clouds).
   const std::vector<std::uint32_t>& locality_order() const noexcept;
 
+  /// The k nearest neighbours of the points at positions [first, last) of locality_order(),
+  /// exactly those Query::of_point gives (the point itself excluded, (distance, index) order),
+  /// written row by row to `neighbours` (resized to (last - first) x k input indices). For
+  /// screening a whole cloud: consecutive positions are neighbours in the tree, so each search
+  /// starts bounded by the previous point's k + 1 nearest (k + 1 distinct points: the farthest
+  /// of them bounds the (k+1)-th distance from above), which prunes it from the first node on
+  /// and changes no neighbour. No allocation per point; safe to call from several threads at
+  /// once. Throws std::invalid_argument when k is 0, the index holds k points or fewer, or the
+  /// positions are outside it.
+  void nearest_in_order(std::size_t k, std::size_t first, std::size_t last,
+                        std::vector<std::uint32_t>& neighbours) const;
+
   /// Reusable buffers for the queries of one thread (an index may serve several threads, each
   /// with its own Query).
   class Query {
