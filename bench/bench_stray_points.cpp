@@ -9,12 +9,16 @@
 // The screen runs on StrayPointOptions::threads (default: the machine's cores) and once more on
 // one thread (column 1thread), whose report must be identical.
 // A second table splits the one-thread screen into its parts, each timed alone: building the
-// neighbour index, the k-nearest queries of every point (in the index's locality order, as the
-// screen visits them), and the rest (medians, MAD, flagging) as the difference. The queries'
-// own cost bounds what any faster median or statistics pass can gain. The parts are CPU times
-// (they do not count the waits of a loaded machine).
+// neighbour index, the k-nearest queries of every point as the screen runs them
+// (NeighbourIndex::nearest_in_order over the locality order in chunks of 4096), the same
+// queries one at a time (Query::of_point, unbounded at the start), and the rest (medians, MAD,
+// flagging) as the screen minus index and queries. The queries' own cost bounds what any faster
+// median or statistics pass can gain. The parts are CPU times (they do not count the waits of a
+// loaded machine).
 //
-// Usage: bench_stray_points [--sizes 10000,100000,1000000]
+// Usage: bench_stray_points [--sizes 10000,100000,1000000] [--screen-only]
+//   --screen-only  skips the least-squares cylinder and evaluate_bore timings (the cylinder is
+//                  fitted once for the residuals), so large sizes run in a minute.
 #include <Eigen/Geometry>
 #include <algorithm>
 #include <cmath>
@@ -67,34 +71,42 @@ Eigen::Matrix3Xd scanned_bore(std::size_t count) {
 
 int main(int argc, char** argv) {
   std::vector<std::size_t> sizes = {10000, 100000, 1000000};
-  if (argc == 3 && std::string(argv[1]) == "--sizes") {
-    sizes.clear();
-    std::stringstream list(argv[2]);
-    std::string item;
-    while (std::getline(list, item, ',')) sizes.push_back(std::stoul(item));
-  } else if (argc != 1) {
-    std::fprintf(stderr, "usage: bench_stray_points [--sizes 10000,100000,1000000]\n");
-    return 2;
+  bool screen_only = false;
+  for (int a = 1; a < argc; ++a) {
+    const std::string arg = argv[a];
+    if (arg == "--sizes" && a + 1 < argc) {
+      sizes.clear();
+      std::stringstream list(argv[++a]);
+      std::string item;
+      while (std::getline(list, item, ',')) sizes.push_back(std::stoul(item));
+    } else if (arg == "--screen-only") {
+      screen_only = true;
+    } else {
+      std::fprintf(stderr,
+                   "usage: bench_stray_points [--sizes 10000,100000,1000000] [--screen-only]\n");
+      return 2;
+    }
   }
   cylzone::PlanBore plan;
   plan.id = "H1";
   plan.basic_location = {40.0, 25.0};
   plan.size = cylzone::SizeLimits{10.0, 10.015};
   std::printf("# stray-point screen (k = 8), least-squares cylinder and evaluate_bore; ms\n");
-  std::printf("# %9s %9s %9s %9s %9s %9s %9s %9s %11s %11s %11s %7s\n", "points", "screen",
-              "median", "ns/point", "cpu", "1thread", "1t_ns/pt", "shuffled", "ls_cylinder",
-              "evaluate", "eval_median", "share");
+  std::printf("# %9s %9s %9s %9s %9s %9s %9s %9s %9s %9s %11s %11s %11s %7s\n", "points",
+              "screen", "median", "ns/point", "cpu", "cpu_ns/pt", "1thread", "1t_ns/pt",
+              "1t_cpu/pt", "shuffled", "ls_cylinder", "evaluate", "eval_median", "share");
   struct Parts {
     std::size_t n;
-    double screen_ms, index_ms, queries_ms;
+    double screen_ms, index_ms, queries_ms, single_ms;
   };
   std::vector<Parts> parts;
   for (const std::size_t n : sizes) {
     const Eigen::Matrix3Xd points = scanned_bore(n);
     const int runs = n >= 1000000 ? 3 : 7;
     cylzone::CylinderFit fit;
-    const Timing fit_time =
-        time_runs(runs, [&] { fit = cylzone::fit_cylinder_least_squares(points); });
+    const Timing fit_time = time_runs(screen_only ? 1 : runs, [&] {
+      fit = cylzone::fit_cylinder_least_squares(points);
+    });
     cylzone::StrayPointReport report;
     const Timing screen_time = time_runs(
         runs, [&] { report = cylzone::find_stray_points(points, fit.residuals.values); });
@@ -129,37 +141,55 @@ int main(int argc, char** argv) {
     const Timing shuffled_time = time_runs(
         runs, [&] { cylzone::find_stray_points(shuffled, shuffled_residuals); });
     cylzone::BoreResult bore;
-    const Timing bore_time = time_runs(runs, [&] { bore = cylzone::evaluate_bore(plan, points); });
-    std::printf("  %9zu %9.2f %9.2f %9.1f %9.2f %9.2f %9.1f %9.2f %11.2f %11.2f %11.2f %6.0f%%   (%zu flagged)\n",
-                n, screen_time.best_ms, screen_time.median_ms,
-                1e6 * screen_time.best_ms / static_cast<double>(n), screen_time.best_cpu_ms,
-                serial_time.best_ms, 1e6 * serial_time.best_ms / static_cast<double>(n),
-                shuffled_time.best_ms, fit_time.best_ms, bore_time.best_ms, bore_time.median_ms,
-                100.0 * screen_time.best_ms / bore_time.best_ms, report.points.size());
+    Timing bore_time;
+    if (!screen_only)
+      bore_time = time_runs(runs, [&] { bore = cylzone::evaluate_bore(plan, points); });
+    const double per = 1e6 / static_cast<double>(n);  // ms -> ns per point
+    std::printf("  %9zu %9.2f %9.2f %9.1f %9.2f %9.1f %9.2f %9.1f %9.1f %9.2f %11.2f %11.2f %11.2f "
+                "%6.0f%%   (%zu flagged)\n",
+                n, screen_time.best_ms, screen_time.median_ms, per * screen_time.best_ms,
+                screen_time.best_cpu_ms, per * screen_time.best_cpu_ms, serial_time.best_ms,
+                per * serial_time.best_ms, per * serial_time.best_cpu_ms, shuffled_time.best_ms,
+                fit_time.best_ms, bore_time.best_ms, bore_time.median_ms,
+                screen_only ? 0.0 : 100.0 * screen_time.best_ms / bore_time.best_ms,
+                report.points.size());
     // The one-thread screen's parts, each alone.
     const Timing index_time = time_runs(runs, [&] { cylzone::NeighbourIndex index(points, 1); });
     const cylzone::NeighbourIndex index(points, 1);
-    std::size_t found = 0;
+    std::uint64_t found = 0, found_single = 0;
     const Timing query_time = time_runs(runs, [&] {
-      cylzone::NeighbourIndex::Query query(8);
+      std::vector<std::uint32_t> rows;
       found = 0;
-      for (const std::uint32_t i : index.locality_order()) found += query.of_point(index, i).size();
+      for (std::size_t first = 0; first < n; first += 4096) {
+        index.nearest_in_order(8, first, std::min(n, first + 4096), rows);
+        for (const std::uint32_t j : rows) found += j;
+      }
     });
-    if (found != 8 * n) {
-      std::fprintf(stderr, "bench_stray_points: %zu neighbours for %zu points\n", found, n);
+    const Timing single_time = time_runs(runs, [&] {
+      cylzone::NeighbourIndex::Query query(8);
+      found_single = 0;
+      for (const std::uint32_t i : index.locality_order())
+        for (const std::uint32_t j : query.of_point(index, i)) found_single += j;
+    });
+    if (found != found_single) {  // a checksum of the neighbours: both searches are exact
+      std::fprintf(stderr, "bench_stray_points: the batch and single searches differ\n");
       return 1;
     }
-    parts.push_back({n, serial_time.best_cpu_ms, index_time.best_cpu_ms, query_time.best_cpu_ms});
+    parts.push_back({n, serial_time.best_cpu_ms, index_time.best_cpu_ms, query_time.best_cpu_ms,
+                     single_time.best_cpu_ms});
   }
   std::printf("# one thread, each part alone: best CPU time of the runs, ns per point\n");
-  std::printf("# %9s %9s %9s %9s %9s\n", "points", "screen", "index", "queries", "rest");
+  std::printf("# %9s %9s %9s %9s %9s %9s\n", "points", "screen", "index", "queries", "rest",
+              "single");
   for (const Parts& p : parts) {
     const double per = 1e6 / static_cast<double>(p.n);
-    std::printf("  %9zu %9.1f %9.1f %9.1f %9.1f\n", p.n, per * p.screen_ms, per * p.index_ms,
-                per * p.queries_ms, per * (p.screen_ms - p.index_ms - p.queries_ms));
+    std::printf("  %9zu %9.1f %9.1f %9.1f %9.1f %9.1f\n", p.n, per * p.screen_ms, per * p.index_ms,
+                per * p.queries_ms, per * (p.screen_ms - p.index_ms - p.queries_ms),
+                per * p.single_ms);
   }
   std::printf("# shuffled = the screen on the same cloud in random order; share = screen best /\n"
               "# evaluate_bore best (evaluate_bore includes the screen); rest = screen - index -\n"
-              "# queries (medians, MAD, checks, flagging)\n");
+              "# queries (medians, MAD, checks, flagging); single = the same queries one at a\n"
+              "# time (Query::of_point); screen-only runs print 0 for ls_cylinder and evaluate\n");
   return 0;
 }
