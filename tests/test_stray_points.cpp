@@ -38,6 +38,7 @@
 #include "cylzone/prepare/neighbour_index.hpp"
 #include "cylzone/prepare/stray_points.hpp"
 #include "case_file.hpp"
+#include "prepare/detail/robust_scale.hpp"
 #include "datum_inputs.hpp"
 #include "reference_data.hpp"
 
@@ -706,4 +707,42 @@ TEST_CASE("write stray-point cases and answers for crosscheck_stray_points.py",
   const std::filesystem::path file =
       cylzone::testing::write_case_file("CYLZONE_STRAY_CASES", json.str());
   CHECK(std::filesystem::file_size(file) > 100000);
+}
+
+TEST_CASE("the screen's parallel median and MAD scale equal the definition by a full sort",
+          "[stray_points][robust_scale]") {
+  // Reference: the median by its definition (the middle of the sorted values, the mean of the
+  // two middle ones for an even count; common practice) and the MAD about it, from std::sort;
+  // the parallel radix selection must give the same bits for 1, 2 and 3 threads. Sizes above
+  // the parallel threshold (4 chunks of 2^16), odd and even, with ties, negative values and
+  // zeros of both signs.
+  const auto by_sort = [](std::vector<double> v) {
+    std::sort(v.begin(), v.end());
+    const std::size_t n = v.size();
+    return n % 2 == 1 ? v[n / 2] : 0.5 * (v[n / 2 - 1] + v[n / 2]);
+  };
+  std::mt19937_64 rng(89);
+  std::normal_distribution<double> normal(0.0, 1.0 * um);
+  for (const std::size_t n : {std::size_t{300001}, std::size_t{300000}, std::size_t{262145}}) {
+    std::vector<double> values(n);
+    for (std::size_t i = 0; i < n; ++i) values[i] = normal(rng);
+    for (std::size_t i = 0; i < n; i += 7) values[i] = std::round(values[i] / um) * um;  // ties
+    for (std::size_t i = 3; i < n; i += 101) values[i] = (i % 2 == 0) ? 0.0 : -0.0;
+    const double centre = by_sort(values);
+    std::vector<double> deviation(n);
+    for (std::size_t i = 0; i < n; ++i) deviation[i] = std::abs(values[i] - centre);
+    const double scale = detail::mad_to_sigma * by_sort(deviation);
+    for (const std::size_t threads : {std::size_t{1}, std::size_t{2}, std::size_t{3}}) {
+      INFO(n << " values, " << threads << " threads");
+      CHECK(detail::median_parallel(values, threads) == centre);
+      const detail::RobustSpread spread = detail::robust_spread(values, threads);
+      CHECK(spread.centre == centre);
+      CHECK(spread.scale == scale);
+      CHECK(spread.scale == detail::robust_spread(values).scale);
+    }
+  }
+  // Every value equal: one bucket holds all of them.
+  const std::vector<double> same(400000, -2.5e-3);
+  CHECK(detail::median_parallel(same, 2) == -2.5e-3);
+  CHECK(detail::robust_spread(same, 2).scale == 0.0);
 }

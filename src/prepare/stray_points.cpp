@@ -93,7 +93,7 @@ StrayPointReport find_stray_points(const Eigen::Matrix3Xd& points, const Eigen::
     local_excesses(index, residuals, k, first, last, nearest[w], local[w], excess);
   });
 
-  report.robust_scale = detail::robust_spread(excess).scale;
+  report.robust_scale = detail::robust_spread(excess, options.threads).scale;
   report.screened = static_cast<std::size_t>(n);
 
   const double limit = std::max(options.threshold * report.robust_scale, options.floor);

@@ -11,7 +11,10 @@
 
 #include <Eigen/Core>
 
+#include <cstring>
+
 #include "cylzone/prepare/neighbour_index.hpp"
+#include "detail/parallel.hpp"
 
 namespace cylzone::detail {
 
@@ -68,6 +71,85 @@ inline RobustSpread robust_spread(std::vector<double> values) {
   s.centre = median_in_place(values);
   for (double& v : values) v = std::abs(v - s.centre);
   s.scale = mad_to_sigma * median_in_place(values);
+  return s;
+}
+
+/// The median of `values` as median_in_place defines it (the same value; of two middle zeros
+/// the sign of the mean may differ, which no use of it sees: deviations are taken with abs),
+/// on up to `threads`
+/// threads: a radix selection (common practice) counts the values by the top 16 bits of an
+/// order-preserving integer key (per worker, summed: counts do not depend on the split), keeps
+/// only those in the bucket(s) holding the middle rank(s), and selects among them. Exact, so the
+/// result does not depend on the thread count. `values` must not be empty; it is not changed.
+inline double median_parallel(const std::vector<double>& values, std::size_t threads) {
+  const std::size_t n = values.size();
+  constexpr std::size_t chunk = std::size_t{1} << 16;
+  const std::size_t chunks = (n + chunk - 1) / chunk;
+  if (chunks < 4 || threads <= 1) {
+    std::vector<double> copy(values);
+    return median_in_place(copy);
+  }
+  // Finite doubles in the order of their keys: the sign bit set for non-negative values, every
+  // bit flipped for negative ones (-0 before +0, which compare equal as values).
+  const auto bucket = [](double v) {
+    std::uint64_t bits;
+    std::memcpy(&bits, &v, sizeof bits);
+    bits = (bits >> 63) != 0 ? ~bits : bits | (std::uint64_t{1} << 63);
+    return static_cast<std::size_t>(bits >> 48);
+  };
+  const std::size_t workers = worker_count(chunks, threads);
+  std::vector<std::vector<std::size_t>> tally(workers, std::vector<std::size_t>(std::size_t{1} << 16, 0));
+  parallel_for(chunks, threads, [&](std::size_t c, std::size_t w) {
+    std::vector<std::size_t>& t = tally[w];
+    for (std::size_t i = c * chunk, last = std::min(n, i + chunk); i < last; ++i) ++t[bucket(values[i])];
+  });
+  // The buckets of the middle ranks (adjacent ranks: any bucket between them is empty).
+  const std::size_t upper = n / 2, lower = n % 2 == 1 ? upper : upper - 1;
+  std::size_t below = 0, first = 0, last = 0, seen = 0;
+  bool found_lower = false;
+  for (std::size_t b = 0; b < (std::size_t{1} << 16); ++b) {
+    std::size_t count = 0;
+    for (const std::vector<std::size_t>& t : tally) count += t[b];
+    if (!found_lower && seen + count > lower) {
+      found_lower = true;
+      first = b;
+      below = seen;
+    }
+    if (seen + count > upper) {
+      last = b;
+      break;
+    }
+    seen += count;
+  }
+  std::vector<std::vector<double>> kept(workers);
+  parallel_for(chunks, threads, [&](std::size_t c, std::size_t w) {
+    for (std::size_t i = c * chunk, end = std::min(n, i + chunk); i < end; ++i) {
+      const std::size_t b = bucket(values[i]);
+      if (b >= first && b <= last) kept[w].push_back(values[i]);
+    }
+  });
+  std::vector<double> middle;
+  for (const std::vector<double>& k : kept) middle.insert(middle.end(), k.begin(), k.end());
+  // Ranks within `middle`: its values are those of global ranks [below, below + size).
+  const auto at = middle.begin() + static_cast<std::ptrdiff_t>(upper - below);
+  std::nth_element(middle.begin(), at, middle.end());
+  const double high = *at;
+  if (n % 2 == 1) return high;
+  const double low = *std::max_element(middle.begin(), at);  // lower <= upper - 1 >= below
+  return 0.5 * (low + high);
+}
+
+/// robust_spread on up to `threads` threads (median_parallel): the same centre and scale.
+inline RobustSpread robust_spread(const std::vector<double>& values, std::size_t threads) {
+  RobustSpread s;
+  s.centre = median_parallel(values, threads);
+  std::vector<double> deviation(values.size());
+  const std::size_t chunks = (values.size() + 4095) / 4096;
+  parallel_for(chunks, threads, [&](std::size_t c, std::size_t) {
+    for (std::size_t i = c * 4096, last = std::min(values.size(), i + 4096); i < last; ++i)
+      deviation[i] = std::abs(values[i] - s.centre);
+  });
+  s.scale = mad_to_sigma * median_parallel(deviation, threads);
   return s;
 }
 
