@@ -27,7 +27,10 @@
 /// with the scale taken over all points, so a smooth, spike-free surface sets it.
 ///
 /// The neighbours are found with a KD-tree (Bentley, Commun. ACM 18 (1975) 509-517; see
-/// NeighbourIndex), built once per screen: O(n log n) in all.
+/// NeighbourIndex), built once per screen: O(n log n) in all. The points are visited in the
+/// tree's order, each search bounded from the start by the previous point's neighbours
+/// (NeighbourIndex::nearest_in_order: the same neighbours), and the two medians of the scale
+/// are selected on the `threads` option; the report does not depend on the thread count.
 
 #include <Eigen/Core>
 #include <cstddef>
