@@ -35,12 +35,8 @@ void local_excesses(const NeighbourIndex& index, const Eigen::VectorXd& residual
   index.nearest_in_order(k, first, last, nearest);
   const std::vector<std::uint32_t>& order = index.locality_order();
   const std::uint32_t* row = nearest.data();
-  for (std::size_t p = first; p < last; ++p, row += k) {
-    local.resize(k);
-    for (std::size_t j = 0; j < k; ++j) local[j] = residuals(static_cast<Eigen::Index>(row[j]));
-    const std::uint32_t i = order[p];
-    excess[i] = residuals(static_cast<Eigen::Index>(i)) - detail::median_in_place(local);
-  }
+  for (std::size_t p = first; p < last; ++p, row += k)
+    excess[order[p]] = detail::excess_over(residuals, order[p], row, k, local);
 }
 
 void check_options(const StrayPointOptions& options) {

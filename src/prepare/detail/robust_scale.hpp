@@ -153,15 +153,25 @@ inline RobustSpread robust_spread(const std::vector<double>& values, std::size_t
   return s;
 }
 
+/// Residual i minus the median residual of its `count` neighbours (input indices);
+/// `buffer` is scratch space. count must be at least 1.
+inline double excess_over(const Eigen::VectorXd& residuals, std::size_t i,
+                          const std::uint32_t* neighbours, std::size_t count,
+                          std::vector<double>& buffer) {
+  buffer.resize(count);
+  for (std::size_t j = 0; j < count; ++j)
+    buffer[j] = residuals(static_cast<Eigen::Index>(neighbours[j]));
+  return residuals(static_cast<Eigen::Index>(i)) - median_in_place(buffer);
+}
+
 /// The local excess of point i (stray_points.hpp): its residual minus the median residual of
 /// its nearest neighbours in `index`, found with `query`; `buffer` is scratch space. The index
 /// must hold at least two points.
 inline double local_excess(const NeighbourIndex& index, NeighbourIndex::Query& query,
                            const Eigen::VectorXd& residuals, std::size_t i,
                            std::vector<double>& buffer) {
-  buffer.clear();
-  for (const std::uint32_t other : query.of_point(index, i)) buffer.push_back(residuals(other));
-  return residuals(static_cast<Eigen::Index>(i)) - median_in_place(buffer);
+  const std::vector<std::uint32_t>& nearest = query.of_point(index, i);
+  return excess_over(residuals, i, nearest.data(), nearest.size(), buffer);
 }
 
 }  // namespace cylzone::detail
