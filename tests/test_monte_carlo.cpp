@@ -695,6 +695,12 @@ TEST_CASE("monte carlo: the lean profile gives every characteristic's value bit 
         CHECK(b.bores[i].minimum_zone.summary.point_count == 0);
       CHECK(!b.bores[i].sampling);
     }
+    // A's flatness: computed in full, left 0 in the lean profile (the demo's A is a tangent
+    // plane, whose association does not give it).
+    CHECK(a.datums.a.flatness > 0.0);
+    CHECK(b.datums.a.flatness == 0.0);
+    CHECK(a.datums.frame.rotation == b.datums.frame.rotation);
+    CHECK(a.datums.frame.origin == b.datums.frame.origin);
     CHECK(compared > 30);
   }
 }
