@@ -266,6 +266,7 @@ double ArcCoverage::degrees() const {
     bool ranked;  // key set; otherwise always converted
   };
   std::vector<Candidate> candidates;
+  candidates.reserve(std::min<std::size_t>(count_, 256));  // a ring's gaps: one allocation
   previous = bound[2 * first_bucket + 1];
   std::size_t previous_bucket = first_bucket;
   for (std::size_t k = first_bucket + 1; k < buckets; ++k) {
