@@ -211,6 +211,41 @@ TEST_CASE("angular coverage agrees with sorting libm angles", "[fit_support]") {
       CHECK(got == Approx(coverage_by_sorting(x, y)).margin(1e-12));
     }
   }
+  SECTION("probed rings as a Monte Carlo trial perturbs them: the bits of every gap converted") {
+    // Evenly spaced rings make every gap a candidate; degrees() ranks them without
+    // trigonometry and converts only the leaders (fit_support.cpp). Reference: the largest gap
+    // of the sorted libm angles on [0, 2 pi), written as degrees() writes it, so the two must
+    // agree bit for bit. Rings of 8 to 60 points at 1 to 9 levels, angles jittered by 0 (the
+    // nominal pattern: ties within rounding) to 1e-3 rad (1 um to 5 um on a 5 mm radius).
+    constexpr double two_pi = 2 * pi;
+    std::normal_distribution<double> jitter;
+    int compared = 0;
+    for (const int per_ring : {8, 24, 60})
+      for (const int levels : {1, 4, 9})
+        for (const double spread : {0.0, 1e-6, 2e-4, 1e-3}) {
+          std::vector<double> x, y, a;
+          for (int level = 0; level < levels; ++level)
+            for (int i = 0; i < per_ring; ++i) {
+              const double angle = 2 * pi * i / per_ring + 0.01 * level + spread * jitter(rng);
+              x.push_back(5.0 * std::cos(angle));
+              y.push_back(5.0 * std::sin(angle));
+            }
+          for (std::size_t i = 0; i < x.size(); ++i) {
+            const double t = std::atan2(y[i], x[i]);
+            a.push_back(t < 0.0 ? t + two_pi : t);
+          }
+          std::sort(a.begin(), a.end());
+          double gap = a.front() + two_pi - a.back();
+          for (std::size_t i = 1; i < a.size(); ++i) gap = std::max(gap, a[i] - a[i - 1]);
+          const double expected = (two_pi - gap) * 360.0 / two_pi;
+          const double got = detail::angular_coverage_deg(
+              planar_points(x, y), Eigen::Vector3d::Zero(), Eigen::Matrix3d::Identity());
+          INFO(per_ring << " points a ring, " << levels << " levels, jitter " << spread);
+          CHECK(got == expected);
+          ++compared;
+        }
+    CHECK(compared == 36);
+  }
   SECTION("large sets: exact when the largest gap exceeds 0.014 degrees, else within it") {
     for (const double arc_deg : {90.0, 300.0, 359.9, 360.0}) {
       std::vector<double> x, y;

@@ -169,6 +169,66 @@ TEST_CASE("monte carlo: streams per trial, Box-Muller normals", "[monte-carlo]")
   CHECK(std::abs(m4 - 3.0) < 5.0 * std::sqrt(96.0 / n));
 }
 
+TEST_CASE("monte carlo: the polar method's normals", "[monte-carlo]") {
+  // standard_normals (Marsaglia & Bray 1964), which the study's perturbations draw from: the
+  // moments of the standard normal (mean 0, variance 1, skewness 0, kurtosis 3: textbook values)
+  // to within 5 standard errors of 200000 draws, taken in blocks of odd length (the last pair's
+  // second deviate dropped); the same seed gives the same bits; a block of 3 n is the stream
+  // the perturbation of n points draws. scipy.stats.kstest checks the law itself (the
+  // scipy_normal_deviates fixture below).
+  std::mt19937_64 rng(42);
+  const std::size_t n = 200001;  // 12 blocks of 15385 and one of 15381, all odd
+  std::vector<double> z(n);
+  for (std::size_t start = 0; start < n;) {
+    const std::size_t len = std::min<std::size_t>(15385, n - start);
+    standard_normals(rng, z.data() + start, len);
+    start += len;
+  }
+  double m1 = 0, m2 = 0, m3 = 0, m4 = 0;
+  for (double x : z) {
+    m1 += x;
+    m2 += x * x;
+    m3 += x * x * x;
+    m4 += x * x * x * x;
+  }
+  const double count = static_cast<double>(n);
+  m1 /= count;
+  m2 /= count;
+  m3 /= count;
+  m4 /= count;
+  CHECK(std::abs(m1) < 5.0 / std::sqrt(count));
+  CHECK(std::abs(m2 - 1.0) < 5.0 * std::sqrt(2.0 / count));
+  CHECK(std::abs(m3) < 5.0 * std::sqrt(15.0 / count));  // var of z^3: E z^6 = 15
+  CHECK(std::abs(m4 - 3.0) < 5.0 * std::sqrt(96.0 / count));
+  // The fraction beyond 1.959964 (two-sided 5 %, standard normal table value).
+  const double beyond =
+      static_cast<double>(std::count_if(z.begin(), z.end(),
+                                        [](double x) { return std::abs(x) > 1.959964; })) /
+      count;
+  CHECK(std::abs(beyond - 0.05) < 5.0 * std::sqrt(0.05 * 0.95 / count));
+  // Determinism: the same seed and block lengths give the same bits; an odd block drops one.
+  std::mt19937_64 a(7), b(7);
+  std::vector<double> x(7), y(8);
+  standard_normals(a, x.data(), x.size());
+  standard_normals(b, y.data(), y.size());
+  for (std::size_t i = 0; i < x.size(); ++i) CHECK(x[i] == y[i]);
+  CHECK(a() == b());  // 7 and 8 deviates consume the same four pairs
+}
+
+TEST_CASE("monte carlo: polar-method deviates (cases for scipy)", "[.][normal-cases]") {
+  // 100000 deviates of standard_normals from seed 20261203 in blocks of 3 x 101 (the draws of
+  // a feature of 101 points), written one a line; tests/reference/crosscheck_normal.py tests
+  // them against scipy.stats.norm (Kolmogorov-Smirnov, moments, quantiles).
+  std::mt19937_64 rng(20261203);
+  std::vector<double> z(100000);
+  for (std::size_t start = 0; start < z.size(); start += 303)
+    standard_normals(rng, z.data() + start, std::min<std::size_t>(303, z.size() - start));
+  std::ostringstream text;
+  text << std::setprecision(17) << "# standard normal deviates, polar method, seed 20261203\n";
+  for (double v : z) text << v << "\n";
+  cylzone::testing::write_case_file("CYLZONE_NORMAL_CASES", text.str());
+}
+
 TEST_CASE("monte carlo: adaptive stopping rule of JCGM 101 7.9 on a normal output",
           "[monte-carlo]") {
   // Output y = 3 + 0.02 z, z standard normal: u(y) = 0.02, the 95 % interval 3 +- 1.959964 u
@@ -575,16 +635,36 @@ TEST_CASE("monte carlo: the lean profile gives every characteristic's value bit 
   // study records must be those of the full evaluation, bit for bit. Checked on the demo as
   // planned, without two-point sizes (the upper limit then rests on the minimum material
   // envelope) and with every position tolerance at LMC (bonus and boundary from the minimum
-  // material envelope). Reference: the full evaluation itself (the profile's contract).
+  // material envelope). Reference: the full evaluation itself (the profile's contract). Also on
+  // the demo's points perturbed as a trial perturbs them (1 um per coordinate, two trials' draws
+  // of the polar method): the sections, two-point sizes and virtual-condition checks a trial
+  // computes again must give the full evaluation's figures on the points a trial sees.
   const PartPlan demo = read_plan(std::filesystem::path(CYLZONE_SOURCE_DIR) /
                                   "point-clouds/valve-manifold/plan.toml");
-  const PartInputs inputs = load_part_inputs(demo);
+  const PartInputs measured = load_part_inputs(demo);
+  std::vector<PartInputs> perturbed(2, measured);
+  for (std::size_t t = 0; t < perturbed.size(); ++t) {
+    std::mt19937_64 rng(trial_seed(11, t));
+    for (auto* group : {&perturbed[t].datums, &perturbed[t].bores})
+      for (PointCloud& cloud : *group) {
+        Eigen::Matrix3Xd e(3, cloud.points.cols());
+        standard_normals(rng, e.data(), static_cast<std::size_t>(e.size()));
+        cloud.points += 0.001 * e;
+      }
+  }
   PartPlan lmc = demo;
   for (PlanBore& b : lmc.bores)
     if (b.position && b.size) b.position->condition = MaterialCondition::lmc;
-  using Variant = std::pair<const PartPlan*, bool>;  // the plan, two-point sizes
-  for (const auto& [plan, two_point] :
-       {Variant{&demo, true}, Variant{&demo, false}, Variant{&lmc, true}}) {
+  struct Variant {
+    const PartPlan* plan;
+    bool two_point;  ///< two-point sizes
+    const PartInputs* inputs;
+  };
+  for (const auto& [plan, two_point, inputs_used] :
+       {Variant{&demo, true, &measured}, Variant{&demo, false, &measured},
+        Variant{&lmc, true, &measured}, Variant{&demo, true, &perturbed[0]},
+        Variant{&lmc, true, &perturbed[1]}}) {
+    const PartInputs& inputs = *inputs_used;
     EvaluationOptions full;
     full.threads = 1;
     full.profile.ambiguity = false;  // as in the trials: the element is the same
@@ -602,7 +682,8 @@ TEST_CASE("monte carlo: the lean profile gives every characteristic's value bit 
       const std::vector<Characteristic> y = bore_characteristics(b.bores[i], plan->bores[i]);
       REQUIRE(x.size() == y.size());
       for (std::size_t k = 0; k < x.size(); ++k) {
-        INFO(x[k].id << (two_point ? "" : ", no two-point sizes"));
+        INFO(x[k].id << (two_point ? "" : ", no two-point sizes")
+                     << (inputs_used == &measured ? "" : ", perturbed points"));
         CHECK(x[k].id == y[k].id);
         CHECK(x[k].value == y[k].value);
         CHECK(x[k].allowed == y[k].allowed);
@@ -614,6 +695,12 @@ TEST_CASE("monte carlo: the lean profile gives every characteristic's value bit 
         CHECK(b.bores[i].minimum_zone.summary.point_count == 0);
       CHECK(!b.bores[i].sampling);
     }
+    // A's flatness: computed in full, left 0 in the lean profile (the demo's A is a tangent
+    // plane, whose association does not give it).
+    CHECK(a.datums.a.flatness > 0.0);
+    CHECK(b.datums.a.flatness == 0.0);
+    CHECK(a.datums.frame.rotation == b.datums.frame.rotation);
+    CHECK(a.datums.frame.origin == b.datums.frame.origin);
     CHECK(compared > 30);
   }
 }

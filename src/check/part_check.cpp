@@ -171,6 +171,7 @@ DatumFrameOptions frame_options(const BoreEvaluationOptions& stage) {
   frame.fit = stage.fit;
   frame.stray_screen = stage.stray_screen;
   frame.stray_points = stage.stray_points;
+  frame.flatness = stage.unread_results;  // A's flatness: no bore characteristic reads it
   return frame;
 }
 

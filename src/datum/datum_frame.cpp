@@ -183,15 +183,18 @@ SizeDatumResult associate_size_datum(const PlanDatum& datum, const PointCloud& c
     notes.push_back(label_text(datum.label) + ": related mating envelope: " + warning);
   // Prepare (prepare.hpp): the stray-point screen on the residuals of the least-squares
   // cylinder held perpendicular to A; the datum axis rests on the envelope's contacts.
-  PrepareOptions screen = prepare;
-  screen.fit = held;
-  result.stray_points = prepare_feature(datum.kind, cloud, screen).record.stray_points;
-  const std::vector<std::size_t> contacts = suspect_contacts(
-      result.stray_points, result.related_envelope.residuals.values,
-      datum.kind == FeatureKind::pin ? ContactSide::highest : ContactSide::lowest);
-  note_stray_points(notes, datum.label, result.stray_points,
-                    {{contacts, "its related mating envelope",
-                      "the datum axis and its mating size rest on"}});
+  // Screen off (a Monte Carlo trial): no record, and no copy of the cloud to make one.
+  if (prepare.stray_screen) {
+    PrepareOptions screen = prepare;
+    screen.fit = held;
+    result.stray_points = prepare_feature(datum.kind, cloud, screen).record.stray_points;
+    const std::vector<std::size_t> contacts = suspect_contacts(
+        result.stray_points, result.related_envelope.residuals.values,
+        datum.kind == FeatureKind::pin ? ContactSide::highest : ContactSide::lowest);
+    note_stray_points(notes, datum.label, result.stray_points,
+                      {{contacts, "its related mating envelope",
+                        "the datum axis and its mating size rest on"}});
+  }
   result.size = datum.size;
   set_mmb_boundary(datum, result.mating_size, "size", "datum shift", result.boundary,
                    result.mmb_size, result.shift_allowance, notes);
@@ -337,6 +340,7 @@ ClockingPlaneResult associate_clocking_plane(const PlanDatum& datum, const Point
       std::to_string(line.contacts) + (line.contacts == 1 ? " contact point" : " contact points");
   // Prepare (prepare.hpp): the stray-point screen on the least-squares plane's residuals; the
   // clocking plane rests on its contacts (residual 0, all others below).
+  if (!prepare.stray_screen) return result;  // no record: no copy of the cloud to make one
   PrepareOptions screen = prepare;
   screen.fit = plain;
   screen.outward = plane.normal;
@@ -552,16 +556,20 @@ DatumFrameResult establish_datum_frame(const std::vector<DatumInput>& datums,
   });
   const bool zone_known = result.a.association == PlaneAssociation::tangent_minimax ||
                           result.a.association == PlaneAssociation::minimum_zone;
-  result.a.flatness = zone_known ? result.a.plane.residuals.form
-                                 : for_datum(a_datum.label, [&] {
-                                     return fit_plane_minimum_zone(cloud_of(0).points, plane_fit)
-                                         .residuals.form;
-                                   });
+  // Off (DatumFrameOptions::flatness): 0, as nothing will read it.
+  if (zone_known)
+    result.a.flatness = result.a.plane.residuals.form;
+  else if (options.flatness)
+    result.a.flatness = for_datum(a_datum.label, [&] {
+      return fit_plane_minimum_zone(cloud_of(0).points, plane_fit).residuals.form;
+    });
   const Eigen::Vector3d z = result.a.plane.normal;
   // Stray-point screen of A on its least-squares plane's residuals (stray_points.hpp). A
   // tangent plane rests on its highest points (residual 0); a minimax or minimum-zone plane is
   // set by the extremes on both sides; a least-squares plane has no contacts.
-  result.a.stray_points = for_datum(a_datum.label, [&] {
+  // Screen off (a Monte Carlo trial): an empty record, without the copy of A's cloud that
+  // prepare_feature would make to return one.
+  if (prepare.stray_screen) result.a.stray_points = for_datum(a_datum.label, [&] {
     PrepareOptions screen = prepare;
     screen.fit = plane_fit;
     screen.outward = z;

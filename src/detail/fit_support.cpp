@@ -259,19 +259,62 @@ double ArcCoverage::degrees() const {
     return libm_angle(high.low_x, high.low_y, above_pseudo) + turn -
            libm_angle(low.high_x, low.high_y, below_pseudo);
   };
-  double largest = 0.0;
+  struct Candidate {
+    std::size_t below, above;
+    double below_pseudo, above_pseudo, turn;
+    double key;   // monotone in the gap (exact range), below
+    bool ranked;  // key set; otherwise always converted
+  };
+  std::vector<Candidate> candidates;
+  candidates.reserve(std::min<std::size_t>(count_, 256));  // a ring's gaps: one allocation
   previous = bound[2 * first_bucket + 1];
   std::size_t previous_bucket = first_bucket;
   for (std::size_t k = first_bucket + 1; k < buckets; ++k) {
     const double low = bound[2 * k], high = bound[2 * k + 1];
     const bool filled = low <= high;
     if (filled && low - previous >= candidate)  // rare: predicted
-      largest = std::max(largest, true_gap(previous_bucket, k, previous, low, 0.0));
+      candidates.push_back({previous_bucket, k, previous, low, 0.0, 0.0, false});
     previous = filled ? high : previous;
     previous_bucket = filled ? k : previous_bucket;
   }
   if (wrap_pseudo >= candidate)
-    largest = std::max(largest, true_gap(previous_bucket, first_bucket, previous, first, two_pi));
+    candidates.push_back({previous_bucket, first_bucket, previous, first, two_pi, 0.0, false});
+  // Evenly spaced directions (a probed ring) make every gap a candidate, two atan2 each. In the
+  // exact range the candidates are first ranked without trigonometry: the gap from direction
+  // L to direction H turns by theta with (cos, sin) proportional to (L.H, L x H), and that
+  // vector's diamond angle is monotone in theta on [0, 2 pi) with slope between 1/2 and 1, off
+  // by rounding only (a few 1e-16). Only the candidates within `margin` of the largest key can
+  // hold the largest libm gap: if G_i <= G_j (libm, each within 2e-15 of its theta), then
+  // key_i - key_j <= 1e-14, far below the margin. A candidate whose pseudo-gap reaches 3 (a
+  // true gap possibly near 2 pi, where the diamond angle wraps) is not ranked but always
+  // converted, as is every candidate when there are two or fewer. So the result is the same
+  // bits as converting every candidate.
+  double best_key = -std::numeric_limits<double>::infinity();
+  if (exact_ && candidates.size() > 2) {
+    for (Candidate& c : candidates) {
+      const double pseudo_gap = c.above_pseudo + (c.turn > 0.0 ? 4.0 : 0.0) - c.below_pseudo;
+      if (pseudo_gap >= 3.0) continue;
+      const Ends& l = ends_[c.below];
+      const Ends& h = ends_[c.above];
+      const double along = l.high_x * h.low_x + l.high_y * h.low_y;
+      const double across = l.high_x * h.low_y - l.high_y * h.low_x;
+      const double p = across / (std::abs(along) + std::abs(across));
+      double key = std::signbit(along) ? 2.0 - p : p;
+      key = key < 0.0 ? key + 4.0 : key;
+      // A pseudo-gap below 3 is a true gap below 6 rad, a key below 3.775: one above 3.8 could
+      // only be a turn read the wrong way round (not seen; left unranked, to be safe).
+      if (key > 3.8) continue;
+      c.key = key;
+      c.ranked = true;
+      best_key = std::max(best_key, key);
+    }
+  }
+  constexpr double margin = 1e-12;
+  double largest = 0.0;
+  for (const Candidate& c : candidates)
+    if (!c.ranked || c.key >= best_key - margin)
+      largest = std::max(largest,
+                         true_gap(c.below, c.above, c.below_pseudo, c.above_pseudo, c.turn));
   return (two_pi - largest) * 360.0 / two_pi;
 }
 

@@ -197,7 +197,11 @@ TwoPointSizes two_point_sizes(const Eigen::Matrix3Xd& points, const std::vector<
   out.min = std::numeric_limits<double>::infinity();
   out.max = 0.0;
   const Eigen::Matrix3d basis = detail::basis_from_direction(axis.direction);
-  std::vector<std::pair<Eigen::Index, Eigen::Index>> pairs;
+  // Buffers shared by the sections (a Monte Carlo trial calls this for every bore).
+  Eigen::Matrix2Xd uv;
+  std::vector<std::pair<double, std::size_t>> by_angle;  // (angle, point of the section)
+  std::vector<double> sorted;
+  std::vector<std::size_t> opposite;
   for (const SectionCircle& section : sections) {
     // Points of the section: a contiguous run of the height-sorted order.
     const auto by_height = [&](Eigen::Index i, double h) { return heights[i] < h; };
@@ -209,23 +213,22 @@ TwoPointSizes two_point_sizes(const Eigen::Matrix3Xd& points, const std::vector<
                                  by_height);
     const std::size_t n = static_cast<std::size_t>(last - first);
     if (n < 2) continue;
-    Eigen::Matrix2Xd uv(2, static_cast<Eigen::Index>(n));
-    std::vector<double> angle(n);
+    uv.resize(2, static_cast<Eigen::Index>(n));
+    by_angle.resize(n);
     for (std::size_t k = 0; k < n; ++k) {
       uv.col(static_cast<Eigen::Index>(k)) =
           basis.leftCols<2>().transpose() * (points.col(first[k]) - section.circle.centre);
-      angle[k] = detail::polar_angle(uv(0, k), uv(1, k));
+      by_angle[k] = {detail::polar_angle(uv(0, k), uv(1, k)), k};
     }
-    std::vector<std::size_t> by_angle(n);
-    std::iota(by_angle.begin(), by_angle.end(), std::size_t{0});
-    std::sort(by_angle.begin(), by_angle.end(),
-              [&](std::size_t a, std::size_t b) { return angle[a] < angle[b]; });
-    std::vector<double> sorted(n);
-    for (std::size_t k = 0; k < n; ++k) sorted[k] = angle[by_angle[k]];
+    // Equal angles (coincident directions) in the order of the points.
+    std::sort(by_angle.begin(), by_angle.end());
+    sorted.resize(n);
+    for (std::size_t k = 0; k < n; ++k) sorted[k] = by_angle[k].first;
     const double acceptance = 0.5 * (2.0 * pi / static_cast<double>(n)) * (1.0 + 1e-9);
-    pairs.clear();
-    for (std::size_t i = 0; i < n; ++i) {
-      double target = angle[i] + pi;
+    // opposite[i]: the point nearest the direction opposite point i's, n when none is accepted.
+    opposite.assign(n, n);
+    for (const auto& [angle, i] : by_angle) {
+      double target = angle + pi;
       if (target >= 2.0 * pi) target -= 2.0 * pi;
       const std::size_t at =
           static_cast<std::size_t>(std::lower_bound(sorted.begin(), sorted.end(), target) -
@@ -237,20 +240,22 @@ TwoPointSizes two_point_sizes(const Eigen::Matrix3Xd& points, const std::vector<
         gap = std::min(gap, 2.0 * pi - gap);
         if (gap < best_gap) {
           best_gap = gap;
-          best = by_angle[candidate];
+          best = by_angle[candidate].second;
         }
       }
-      if (best == n || best == i || best_gap > acceptance) continue;
-      pairs.emplace_back(std::min<Eigen::Index>(i, best), std::max<Eigen::Index>(i, best));
+      if (best != i && best_gap <= acceptance) opposite[i] = best;
     }
-    std::sort(pairs.begin(), pairs.end());
-    pairs.erase(std::unique(pairs.begin(), pairs.end()), pairs.end());
-    for (const auto& [i, j] : pairs) {
-      const double size = (uv.col(i) - uv.col(j)).norm();
+    // Each pair once: {i, j} found from both ends is counted at its smaller index. The size is
+    // symmetric in the two points (the difference negated exactly), so the order is immaterial.
+    for (std::size_t i = 0; i < n; ++i) {
+      const std::size_t j = opposite[i];
+      if (j == n || (opposite[j] == i && j < i)) continue;
+      const double size = (uv.col(static_cast<Eigen::Index>(i)) -
+                           uv.col(static_cast<Eigen::Index>(j))).norm();
       out.min = std::min(out.min, size);
       out.max = std::max(out.max, size);
+      ++out.count;
     }
-    out.count += pairs.size();
   }
   if (out.count == 0) out.min = 0.0;
   return out;
@@ -423,7 +428,8 @@ bool surrounds_axis(const Eigen::Matrix3Xd& points, const std::vector<Eigen::Ind
     if (k == plan.heights.size() || (k > 0 && t - plan.heights[k - 1] < *it - t)) --k;
     if (plan.heights.empty() || std::abs(t - plan.heights[k]) > plan.half_thickness) continue;
     const Eigen::Vector3d q = basis.transpose() * (points.col(i) - axis.point);
-    angles[k].push_back(std::atan2(q.y(), q.x()));
+    // polar_angle: atan2 on [0, 2 pi) to 1e-15 rad at a fraction of its cost (fit_support.hpp).
+    angles[k].push_back(detail::polar_angle(q.x(), q.y()));
   }
   std::size_t counted = 0;
   for (std::vector<double>& a : angles) {

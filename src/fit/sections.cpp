@@ -31,9 +31,10 @@ SectionsResult fit_sections_least_squares(const Eigen::Matrix3Xd& points, const 
     members.clear();
     for (Eigen::Index i = 0; i < t.size(); ++i)
       if (std::abs(t(i) - h) <= options.half_thickness) members.push_back(i);
-    const std::string where = "section at height " + detail::format_number(h, 4) + " mm";
+    // Named only in a warning: formatting the height costs more than selecting the points.
+    const auto where = [h] { return "section at height " + detail::format_number(h, 4) + " mm"; };
     if (members.size() < std::max<std::size_t>(options.min_points, 3)) {
-      result.summary.warnings.push_back(where + " skipped: " + std::to_string(members.size()) +
+      result.summary.warnings.push_back(where() + " skipped: " + std::to_string(members.size()) +
                                         " points within +/-" +
                                         detail::format_number(options.half_thickness, 4) +
                                         " mm, at least " +
@@ -58,10 +59,10 @@ SectionsResult fit_sections_least_squares(const Eigen::Matrix3Xd& points, const 
                                            section.circle.summary.iterations);
       result.summary.point_count += members.size();
       for (const std::string& warning : section.circle.summary.warnings)
-        result.summary.warnings.push_back(where + ": " + warning);
+        result.summary.warnings.push_back(where() + ": " + warning);
       result.sections.push_back(std::move(section));
     } catch (const FitError& e) {
-      result.summary.warnings.push_back(where + " skipped: " + e.what());
+      result.summary.warnings.push_back(where() + " skipped: " + e.what());
     }
   }
   result.summary.message = std::to_string(result.sections.size()) + " of " +

@@ -133,6 +133,28 @@ double standard_normal(std::mt19937_64& rng) noexcept {
   return std::sqrt(-2.0 * std::log(u1)) * std::cos(two_pi * u2);
 }
 
+void standard_normals(std::mt19937_64& rng, double* out, std::size_t count) noexcept {
+  // Marsaglia & Bray, "A convenient method for generating normal variables", SIAM Review 6
+  // (1964): (x, y) uniform in the unit disc (rejection from the square, acceptance pi/4), s =
+  // x^2 + y^2; then x f and y f with f = sqrt(-2 ln s / s) are two independent standard normal
+  // deviates (exact, no approximation of the law). Both are used: per deviate 1.27 uniforms,
+  // half a logarithm and half a square root, against Box-Muller's two uniforms, a logarithm, a
+  // square root and a cosine (standard_normal).
+  std::size_t k = 0;
+  while (k < count) {
+    double x, y, s;
+    do {
+      // Uniforms on [-1, 1): the top 53 bits on [0, 2), exactly, minus one.
+      x = static_cast<double>(rng() >> 11) * 0x1.0p-52 - 1.0;
+      y = static_cast<double>(rng() >> 11) * 0x1.0p-52 - 1.0;
+      s = x * x + y * y;
+    } while (!(s < 1.0) || s == 0.0);
+    const double f = std::sqrt(-2.0 * std::log(s) / s);
+    out[k++] = x * f;
+    if (k < count) out[k++] = y * f;
+  }
+}
+
 OutputStatistics output_statistics(std::vector<double> values, double p) {
   if (values.size() < 2)
     throw std::invalid_argument("output_statistics: at least 2 values are needed");
@@ -560,8 +582,14 @@ MonteCarloSummary monte_carlo_uncertainty(const PartPlan& plan, const PartInputs
   std::vector<std::pair<std::size_t, std::size_t>> fit_counts(
       std::max<std::size_t>(1, options.threads), {0, 0});
   // One perturbed copy of the inputs per worker, made once: a trial overwrites its points in
-  // place from the unperturbed ones (no cloud is allocated per trial).
-  std::vector<PartInputs> perturbed(std::max<std::size_t>(1, options.threads), inputs);
+  // place from the unperturbed ones (no cloud is allocated per trial); and one buffer of normal
+  // deviates per worker, as long as the largest cloud's 3 n.
+  const std::size_t workers = std::max<std::size_t>(1, options.threads);
+  std::vector<PartInputs> perturbed(workers, inputs);
+  Eigen::Index largest = 0;
+  for (const auto* group : {&inputs.datums, &inputs.bores})
+    for (const PointCloud& cloud : *group) largest = std::max(largest, cloud.points.cols());
+  std::vector<Eigen::Matrix3Xd> deviates(workers, Eigen::Matrix3Xd(3, largest));
   const IndexedTrialModel trial = [&](std::size_t t, std::size_t worker, std::vector<double>& out) {
     std::mt19937_64 rng(trial_seed(options.seed, t));
     PartInputs& mine = perturbed[worker];
@@ -572,21 +600,22 @@ MonteCarloSummary monte_carlo_uncertainty(const PartPlan& plan, const PartInputs
       const double u = static_cast<double>(rng() >> 11) * 0x1.0p-53;
       s = (2.0 * u - 1.0) * scale_bound;
     }
+    // A feature's 3 n deviates are drawn at once (x, y, z of point 0, then of point 1, ...),
+    // the last pair's second value unused when 3 n is odd.
     std::size_t feature = 0;
+    Eigen::Matrix3Xd& draws = deviates[worker];
     for (const auto& [from, into] : {std::pair{&inputs.datums, &mine.datums},
                                      std::pair{&inputs.bores, &mine.bores}})
       for (std::size_t k = 0; k < from->size(); ++k) {
         const Eigen::Matrix3Xd& original = (*from)[k].points;
         Eigen::Matrix3Xd& points = (*into)[k].points;
         const double sigma = summary.feature_sigma[feature++];
-        for (Eigen::Index j = 0; j < original.cols(); ++j) {
-          Eigen::Vector3d e;
-          e.x() = standard_normal(rng);
-          e.y() = standard_normal(rng);
-          e.z() = standard_normal(rng);
+        const Eigen::Index n = original.cols();
+        standard_normals(rng, draws.data(), static_cast<std::size_t>(3 * n));
+        for (Eigen::Index j = 0; j < n; ++j) {
           Eigen::Vector3d p = original.col(j);
           if (s != 0.0) p = centroid + (1.0 + s) * (p - centroid);
-          points.col(j) = p + sigma * (to_measurement * e);
+          points.col(j) = p + sigma * (to_measurement * draws.col(j));
         }
       }
     PartEvaluation e;

@@ -35,7 +35,8 @@ struct EvaluationProfile {
   /// Two-point (actual local) sizes of every bore (BoreEvaluationOptions::two_point_sizes).
   bool two_point_sizes = true;
   /// Results no characteristic reads: fits no figure rests on, the sampling record, the
-  /// surface map (BoreEvaluationOptions::unread_results).
+  /// surface map (BoreEvaluationOptions::unread_results), datum A's minimum-zone flatness
+  /// (DatumFrameOptions::flatness).
   bool unread_results = true;
 };
 

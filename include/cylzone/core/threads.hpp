@@ -10,9 +10,12 @@
 
 namespace cylzone {
 
-/// The machine's hardware threads (std::thread::hardware_concurrency()), at least 1.
+/// The machine's hardware threads (std::thread::hardware_concurrency()), at least 1. Read once
+/// per process: glibc answers hardware_concurrency() by opening and reading sysfs files, and
+/// every default-constructed options struct asks (a Monte Carlo trial builds dozens of them).
 inline std::size_t hardware_threads() noexcept {
-  return std::max<std::size_t>(1, std::thread::hardware_concurrency());
+  static const std::size_t count = std::max<std::size_t>(1, std::thread::hardware_concurrency());
+  return count;
 }
 
 }  // namespace cylzone

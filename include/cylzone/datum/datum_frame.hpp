@@ -147,6 +147,10 @@ struct DatumFrameOptions {
   /// The prepare stage of each datum feature (prepare.hpp): the stray-point screen, on or off.
   bool stray_screen = true;
   StrayPointOptions stray_points;
+  /// A's flatness (PlaneDatumResult::flatness) when A's association does not give it: its
+  /// minimum-zone fit. Off (a Monte Carlo trial: no bore characteristic reads it), flatness is
+  /// left 0 unless the association is a minimax or minimum-zone plane; nothing else changes.
+  bool flatness = true;
 };
 
 /// One datum feature's specification paired with its points (measurement coordinates, as
