@@ -197,7 +197,8 @@ TwoPointSizes two_point_sizes(const Eigen::Matrix3Xd& points, const std::vector<
   out.min = std::numeric_limits<double>::infinity();
   out.max = 0.0;
   const Eigen::Matrix3d basis = detail::basis_from_direction(axis.direction);
-  std::vector<std::pair<Eigen::Index, Eigen::Index>> pairs;
+  std::vector<std::pair<double, std::size_t>> by_angle;
+  std::vector<std::size_t> partner;  // the point each one is paired with; n: none
   for (const SectionCircle& section : sections) {
     // Points of the section: a contiguous run of the height-sorted order.
     const auto by_height = [&](Eigen::Index i, double h) { return heights[i] < h; };
@@ -210,47 +211,55 @@ TwoPointSizes two_point_sizes(const Eigen::Matrix3Xd& points, const std::vector<
     const std::size_t n = static_cast<std::size_t>(last - first);
     if (n < 2) continue;
     Eigen::Matrix2Xd uv(2, static_cast<Eigen::Index>(n));
-    std::vector<double> angle(n);
+    // (angle, point), sorted by angle: std::sort meets the same comparisons as when it sorts
+    // the points' indices by their angles, hence gives the same order, ties included, with
+    // each angle beside its point.
+    by_angle.resize(n);
     for (std::size_t k = 0; k < n; ++k) {
       uv.col(static_cast<Eigen::Index>(k)) =
           basis.leftCols<2>().transpose() * (points.col(first[k]) - section.circle.centre);
-      angle[k] = detail::polar_angle(uv(0, k), uv(1, k));
+      by_angle[k] = {detail::polar_angle(uv(0, k), uv(1, k)), k};
     }
-    std::vector<std::size_t> by_angle(n);
-    std::iota(by_angle.begin(), by_angle.end(), std::size_t{0});
     std::sort(by_angle.begin(), by_angle.end(),
-              [&](std::size_t a, std::size_t b) { return angle[a] < angle[b]; });
-    std::vector<double> sorted(n);
-    for (std::size_t k = 0; k < n; ++k) sorted[k] = angle[by_angle[k]];
+              [](const auto& a, const auto& b) { return a.first < b.first; });
     const double acceptance = 0.5 * (2.0 * pi / static_cast<double>(n)) * (1.0 + 1e-9);
-    pairs.clear();
-    for (std::size_t i = 0; i < n; ++i) {
-      double target = angle[i] + pi;
+    // Each point's opposite direction, in the order of its angle: the targets rise, but for one
+    // wrap past 2 pi, so the first angle not below each (the lower bound) is found by a pointer
+    // that only moves forward and starts again at the wrap: one pass instead of a binary
+    // search per point, the same positions.
+    partner.assign(n, n);
+    std::size_t at = 0;
+    double previous = -std::numeric_limits<double>::infinity();
+    for (std::size_t p = 0; p < n; ++p) {
+      const std::size_t i = by_angle[p].second;
+      double target = by_angle[p].first + pi;
       if (target >= 2.0 * pi) target -= 2.0 * pi;
-      const std::size_t at =
-          static_cast<std::size_t>(std::lower_bound(sorted.begin(), sorted.end(), target) -
-                                   sorted.begin());
+      if (target < previous) at = 0;
+      previous = target;
+      while (at < n && by_angle[at].first < target) ++at;
       std::size_t best = n;
       double best_gap = std::numeric_limits<double>::infinity();
       for (std::size_t candidate : {at % n, (at + n - 1) % n}) {
-        double gap = std::abs(sorted[candidate] - target);
+        double gap = std::abs(by_angle[candidate].first - target);
         gap = std::min(gap, 2.0 * pi - gap);
         if (gap < best_gap) {
           best_gap = gap;
-          best = by_angle[candidate];
+          best = by_angle[candidate].second;
         }
       }
       if (best == n || best == i || best_gap > acceptance) continue;
-      pairs.emplace_back(std::min<Eigen::Index>(i, best), std::max<Eigen::Index>(i, best));
+      partner[i] = best;
     }
-    std::sort(pairs.begin(), pairs.end());
-    pairs.erase(std::unique(pairs.begin(), pairs.end()), pairs.end());
-    for (const auto& [i, j] : pairs) {
-      const double size = (uv.col(i) - uv.col(j)).norm();
+    // Every pair {i, partner[i]} once: a pair both points chose is counted from its lower one.
+    for (std::size_t i = 0; i < n; ++i) {
+      const std::size_t j = partner[i];
+      if (j == n || (j < i && partner[j] == i)) continue;
+      const double size =
+          (uv.col(static_cast<Eigen::Index>(i)) - uv.col(static_cast<Eigen::Index>(j))).norm();
       out.min = std::min(out.min, size);
       out.max = std::max(out.max, size);
+      ++out.count;
     }
-    out.count += pairs.size();
   }
   if (out.count == 0) out.min = 0.0;
   return out;
