@@ -586,7 +586,8 @@ DatumFrameResult establish_datum_frame(const std::vector<DatumInput>& datums,
                                  : for_datum(a_datum.label, [&] {
                                      return zone_of_a().residuals.form;
                                    });
-  // Its residual values are A's residuals again (or their negation): not held twice.
+  // Its residual values are released (one per point of A): a frame that associates A by the
+  // minimum zone computes them again (with_residuals), nothing else reads them.
   zone->residuals.values = Eigen::VectorXd();
   const Eigen::Vector3d z = result.a.plane.normal;
   // Stray-point screen of A on its least-squares plane's residuals (stray_points.hpp). A
