@@ -1,8 +1,6 @@
 // One malloc arena for every thread (cylzone/core/heap.hpp).
 #include "cylzone/core/heap.hpp"
 
-#include <cstdlib>  // defines __GLIBC__ (through <features.h>) where the C library is glibc
-
 #if defined(__GLIBC__)
 #include <malloc.h>
 #endif
