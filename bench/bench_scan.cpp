@@ -46,7 +46,6 @@
 #include <vector>
 
 #include "cylzone/check/part_check.hpp"
-#include "cylzone/core/heap.hpp"
 #include "cylzone/check/part_inputs.hpp"
 #include "cylzone/datum/datum_frame.hpp"
 #include "cylzone/evaluate/bore_evaluation.hpp"
@@ -380,7 +379,6 @@ int run(const fs::path& dir, bool full, std::size_t threads, bool phases, bool b
 }  // namespace
 
 int main(int argc, char** argv) {
-  cylzone::share_one_heap_arena();  // as the command-line tool does
   try {
     if (argc >= 3 && std::strcmp(argv[1], "generate") == 0) {
       const std::size_t n = argc > 3 ? std::strtoull(argv[3], nullptr, 10) : 5000000;

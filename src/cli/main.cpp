@@ -7,12 +7,9 @@
 
 #include "cli/commands.hpp"
 #include "cylzone/core/errors.hpp"
-#include "cylzone/core/heap.hpp"
 #include "cylzone/version.hpp"
 
 int main(int argc, char** argv) {
-  // Dense scans: the evaluation's threads reuse each other's freed point arrays (heap.hpp).
-  cylzone::share_one_heap_arena();
   // The name is fixed so the usage line never shows the path the binary was started from.
   CLI::App app{"cylzone: full-depth cylindrical-zone evaluation of bores from probe points",
                "cylzone"};
