@@ -12,6 +12,11 @@
 //                                                resident size (getrusage); --phases then
 //                                                times each load step alone: load, SHA-256,
 //                                                parse, bands, copy out (CPU ns per point)
+//   bench_scan run DIR --breakdown               instead: the check once per profile, each in a
+//                                                forked process of its own (wall, CPU and
+//                                                peak resident size of each): lean, lean plus
+//                                                one part of the full profile at a time, full;
+//                                                the peak includes the loaded inputs
 //   bench_scan run DIR --stages                  then times the evaluation stage by stage on
 //                                                one thread, through the public stage
 //                                                functions as evaluate_part calls them: the
@@ -24,6 +29,8 @@
 // ambiguity walks, no stray-point screen, no two-point sizes, no sensitivity study); --full
 // runs the whole check. Raw coordinate size = 24 bytes per point.
 #include <sys/resource.h>
+#include <sys/wait.h>
+#include <unistd.h>
 
 #include <Eigen/Geometry>
 #include <chrono>
@@ -230,7 +237,58 @@ void time_stages(const cylzone::PartPlan& plan, const cylzone::PartInputs& input
   report("bores together", all_points, all_cpu);
 }
 
-int run(const fs::path& dir, bool full, std::size_t threads, bool phases, bool by_stage) {
+/// The check under one profile in a child process (fork): its wall, CPU and peak resident
+/// size, the loaded inputs included, without the parent's later allocations. What each part of
+/// the full profile costs is its row minus the lean row.
+void time_profiles(const cylzone::PartPlan& plan, const cylzone::PartInputs& inputs,
+                   std::size_t threads) {
+  struct Profile {
+    const char* name;
+    bool ambiguity, stray, two_point, sensitivity;
+  };
+  const Profile profiles[] = {{"lean", false, false, false, false},
+                              {"lean + ambiguity", true, false, false, false},
+                              {"lean + stray screen", false, true, false, false},
+                              {"lean + two-point sizes", false, false, true, false},
+                              {"lean + association study", false, false, false, true},
+                              {"full", true, true, true, true}};
+  const double raw_mb = 24.0 * static_cast<double>(inputs.scan->points) / 1048576.0;
+  std::printf("  check by profile, each in a process of its own (threads %zu)\n", threads);
+  std::printf("  %-26s %8s %8s %9s %6s\n", "profile", "wall s", "cpu s", "peak MB", "x raw");
+  for (const Profile& p : profiles) {
+    std::fflush(stdout);
+    const pid_t child = fork();
+    if (child < 0) return;
+    if (child == 0) {
+      cylzone::CheckOptions options;
+      options.sensitivity = p.sensitivity;
+      options.evaluation.threads = threads;
+      options.evaluation.profile.ambiguity = p.ambiguity;
+      options.evaluation.profile.stray_screen = p.stray;
+      options.evaluation.profile.two_point_sizes = p.two_point;
+      rusage before{};
+      getrusage(RUSAGE_SELF, &before);
+      const auto start = std::chrono::steady_clock::now();
+      (void)cylzone::check_part(plan, inputs, options);
+      const double wall = seconds_since(start);
+      rusage after{};
+      getrusage(RUSAGE_SELF, &after);
+      const auto cpu = [](const rusage& u) {
+        return static_cast<double>(u.ru_utime.tv_sec + u.ru_stime.tv_sec) +
+               1e-6 * static_cast<double>(u.ru_utime.tv_usec + u.ru_stime.tv_usec);
+      };
+      std::printf("  %-26s %8.3f %8.3f %9.1f %6.2f\n", p.name, wall, cpu(after) - cpu(before),
+                  after.ru_maxrss / 1024.0, after.ru_maxrss / 1024.0 / raw_mb);
+      std::fflush(stdout);
+      _exit(0);
+    }
+    int status = 0;
+    waitpid(child, &status, 0);
+  }
+}
+
+int run(const fs::path& dir, bool full, std::size_t threads, bool phases, bool by_stage,
+        bool breakdown) {
   const auto start = std::chrono::steady_clock::now();
   const double cpu_start = cpu_seconds();
   const cylzone::PartPlan plan = cylzone::read_plan(dir / "plan.toml");
@@ -238,6 +296,13 @@ int run(const fs::path& dir, bool full, std::size_t threads, bool phases, bool b
   const double loaded = seconds_since(start);
   const double loaded_cpu = cpu_seconds() - cpu_start;
   const long loaded_peak_kb = peak_rss_kb();
+  if (breakdown) {  // before anything else is allocated, which the children would inherit
+    std::printf("# bench_scan: %zu points read and segmented in %.3f s wall, %.3f s cpu; peak "
+                "resident %.1f MB\n",
+                inputs.scan->points, loaded, loaded_cpu, loaded_peak_kb / 1024.0);
+    time_profiles(plan, inputs, threads);
+    return 0;
+  }
   cylzone::CheckOptions options;
   options.sensitivity = full;
   options.evaluation.threads = threads;
@@ -330,16 +395,17 @@ int main(int argc, char** argv) {
       return 0;
     }
     if (argc >= 3 && std::strcmp(argv[1], "run") == 0) {
-      bool full = false, phases = false, stages = false;
+      bool full = false, phases = false, stages = false, breakdown = false;
       std::size_t threads = 1;
       for (int i = 3; i < argc; ++i) {
         if (std::strcmp(argv[i], "--full") == 0) full = true;
         if (std::strcmp(argv[i], "--phases") == 0) phases = true;
         if (std::strcmp(argv[i], "--stages") == 0) stages = true;
+        if (std::strcmp(argv[i], "--breakdown") == 0) breakdown = true;
         if (std::strcmp(argv[i], "--threads") == 0 && i + 1 < argc)
           threads = std::strtoull(argv[++i], nullptr, 10);
       }
-      return run(argv[2], full, threads, phases, stages);
+      return run(argv[2], full, threads, phases, stages, breakdown);
     }
   } catch (const std::exception& e) {
     std::fprintf(stderr, "bench_scan: %s\n", e.what());
@@ -347,6 +413,6 @@ int main(int argc, char** argv) {
   }
   std::fprintf(stderr,
                "usage: bench_scan generate DIR [POINTS] [ply|csv] | bench_scan read DIR | "
-               "bench_scan run DIR [--full] [--threads N] [--phases] [--stages]\n");
+               "bench_scan run DIR [--full] [--threads N] [--phases] [--stages] [--breakdown]\n");
   return 2;
 }

@@ -43,6 +43,8 @@
 #include "cylzone/fit/fit_line.hpp"
 #include "cylzone/fit/fit_plane.hpp"
 #include "fit/detail/chebyshev.hpp"
+#include "fit/detail/chebyshev_programme.hpp"
+#include "fit/detail/chebyshev_uniqueness.hpp"
 
 using namespace cylzone;
 
@@ -487,4 +489,62 @@ TEST_CASE("write the bent bores with cylzone's inscribed and minimum-zone answer
   }
   json << "\n]}\n";
   cylzone::testing::write_case_file("CYLZONE_OPTIMUM_CASES", json.str());
+}
+
+TEST_CASE("walk ends keep the extreme distances: the objective and displacements of all of them",
+          "[chebyshev][optimum][ambiguity][scan]") {
+  // Reference: every point's distances at each walk's end, evaluated again on the whole model
+  // (what a walk end held before it kept their extremes only): the end's objective and the
+  // displacement of the model's reference points must be the same bits. Two flat optima,
+  // where the walks move far: the 5-point plane with mirror-image minimum zones of the test
+  // above probed 600 times over (3,000 points), and the bent bore's maximum-inscribed
+  // cylinder (1,584 points), each from its converged element.
+  Eigen::Matrix3Xd five(3, 5);
+  five << -10.0, 10.0, 0.0, 0.0, 0.0,  //
+      0.0, 0.0, 0.0, -10.0, 10.0,      //
+      0.0, 0.0, 1.0, 0.5, 0.5;
+  Eigen::Matrix3Xd face(3, 3000);
+  for (Eigen::Index k = 0; k < face.cols(); ++k) face.col(k) = five.col(k % 5);
+  const Eigen::Matrix3Xd bore = bent_bore(2.0);
+  const PlaneFit start_plane = fit_plane_least_squares(face);
+  const CylinderFit start_axis = fit_cylinder_least_squares(bore);
+  detail::PlaneZoneModel plane(face, start_plane.normal);
+  detail::AxisZoneModel axis(bore, start_axis.axis);
+  const struct {
+    const char* name;
+    detail::ZoneModel* model;
+    detail::ZoneObjective objective;
+    double scale, form;
+  } cases[] = {{"plane, minimum zone", &plane, detail::ZoneObjective::minimum_zone, 20.0,
+                start_plane.residuals.form},
+               {"bent bore, maximum inscribed", &axis, detail::ZoneObjective::maximum_inscribed,
+                40.0, start_axis.residuals.form}};
+  for (const auto& c : cases) {
+    INFO(c.name);
+    FitOptions fit;
+    fit.assess_ambiguity = false;  // the element only: the walks are taken below
+    const detail::ZoneOptions options = detail::zone_options(fit, c.scale, c.form);
+    REQUIRE(detail::solve_zone(*c.model, c.objective, options).status ==
+            detail::ZoneStatus::converged);
+    Eigen::VectorXd d;
+    c.model->evaluate(Eigen::VectorXd::Zero(c.model->parameter_count()), d, nullptr);
+    int programmes = 0;
+    double farthest = 0.0;
+    for (const double allowance : {0.0, 1e-6 * c.scale}) {
+      const std::vector<detail::WalkEnd> ends =
+          detail::walk_ends(*c.model, c.objective, options, d, allowance, programmes);
+      REQUIRE(!ends.empty());
+      for (const detail::WalkEnd& e : ends) {
+        Eigen::VectorXd all;
+        c.model->evaluate(e.step, all, nullptr);
+        REQUIRE(e.distances.size() == 2);
+        CHECK(e.objective == detail::zone_lp::true_objective(c.objective, all));
+        const double kept = detail::largest_displacement(*c.model, e.step, e.distances, d);
+        CHECK(kept == detail::largest_displacement(*c.model, e.step, all, d));
+        farthest = std::max(farthest, kept);
+      }
+    }
+    CHECK(programmes > 0);
+    CHECK(farthest > 1e-6);  // the walks did move: the comparison is not of zero steps
+  }
 }

@@ -717,3 +717,91 @@ TEST_CASE("C slot or tab: leaning faces, wrong features and missing datums",
         Contains("datum B: a slot cannot be datum B"));
   }
 }
+
+// ================================================================ A's minimum zone, given
+
+namespace {
+
+// A dense generated face: 20,000 points over 120 x 90 with 2 um of uniform noise, placed by
+// the generic motion (a scan's datum face, smaller).
+Eigen::Matrix3Xd dense_face() {
+  std::mt19937_64 rng(31);
+  std::uniform_real_distribution<double> x(-60.0, 60.0), y(-45.0, 45.0), z(-0.002, 0.002);
+  Eigen::Matrix3Xd p(3, 20000);
+  for (Eigen::Index k = 0; k < p.cols(); ++k) p.col(k) << x(rng), y(rng), z(rng);
+  return generic_motion().apply(p);
+}
+
+// A face whose minimum zone is not unique (constructed here, the 5-point case of
+// test_chebyshev_optimum.cpp probed 600 times over: 3,000 points): A, B = (-+10, 0, 0),
+// C = (0, 0, 1), D, E = (0, -+10, 0.5) about q = (40, 25, -12). Heights z - a x - b y span
+// 1 + 10|a| for 10|b| <= 0.5, and the orthogonal width 1 / sqrt(1 + b^2) falls until D or E
+// reaches the top at |b| = 0.05: two mirror-image optima b = +-0.05 of equal width, so the
+// fit's ambiguity (how far its mid-plane can move among them) is about 1 mm at the corners.
+Eigen::Matrix3Xd ambiguous_face() {
+  Eigen::Matrix3Xd five(3, 5);
+  five << -10.0, 10.0, 0.0, 0.0, 0.0,  //
+      0.0, 0.0, 0.0, -10.0, 10.0,      //
+      0.0, 0.0, 1.0, 0.5, 0.5;
+  five.colwise() += Eigen::Vector3d(40.0, 25.0, -12.0);
+  Eigen::Matrix3Xd p(3, 3000);
+  for (Eigen::Index k = 0; k < p.cols(); ++k) p.col(k) = five.col(k % 5);
+  return generic_motion().apply(p);
+}
+
+}  // namespace
+
+TEST_CASE("a frame given A's minimum-zone plane equals the frame that fits it, bit for bit",
+          "[datum][frame][scan]") {
+  // Reference: the same frame fitting A's minimum zone itself (the computation the given plane
+  // replaces), for every association, on a dense face and on a face whose minimum zone is not
+  // unique. The given plane is the nominal frame's (tangent least squares), as the association
+  // study passes it on.
+  const Motion motion = generic_motion();
+  const Eigen::Vector3d side = motion.direction(-Eigen::Vector3d::UnitZ());
+  const std::vector<PlanDatum> datums = {plane_datum('A')};
+  for (const bool ambiguous : {false, true}) {
+    INFO((ambiguous ? "face with two mirror-image minimum zones" : "dense face"));
+    const Eigen::Matrix3Xd a = ambiguous ? ambiguous_face() : dense_face();
+    const PlaneFit zone = fit_plane_minimum_zone(a);
+    // The ambiguous face is what it claims: the fit warns that its mid-plane is not unique.
+    CHECK(zone.summary.warnings.empty() == !ambiguous);
+    const PointCloud face = cloud(a, "A.csv");
+    const DatumFrameResult nominal =
+        establish_datum_frame(test::paired(datums, {face}), side, DatumFrameOptions{});
+    REQUIRE(nominal.a.minimum_zone);
+    // Held without its residual values (form and rms kept): they are A's residuals again.
+    CHECK(nominal.a.minimum_zone->residuals.values.size() == 0);
+    CHECK(nominal.a.minimum_zone->residuals.form == zone.residuals.form);
+    CHECK(nominal.a.minimum_zone->normal == zone.normal);
+    CHECK(nominal.a.flatness == zone.residuals.form);
+    for (const PlaneAssociation method :
+         {PlaneAssociation::tangent_least_squares, PlaneAssociation::tangent_minimax,
+          PlaneAssociation::least_squares, PlaneAssociation::minimum_zone}) {
+      INFO(std::string(association_name(method)));
+      DatumFrameOptions fitted;
+      fitted.a_association = method;
+      DatumFrameOptions given = fitted;
+      given.a_minimum_zone = nominal.a.minimum_zone;
+      const DatumFrameResult f = establish_datum_frame(test::paired(datums, {face}), side, fitted);
+      const DatumFrameResult g = establish_datum_frame(test::paired(datums, {face}), side, given);
+      CHECK(g.frame.rotation == f.frame.rotation);
+      CHECK(g.frame.origin == f.frame.origin);
+      CHECK(g.a.plane.normal == f.a.plane.normal);
+      CHECK(g.a.plane.point == f.a.plane.point);
+      CHECK(g.a.plane.residuals.values == f.a.plane.residuals.values);
+      CHECK(g.a.plane.residuals.form == f.a.plane.residuals.form);
+      CHECK(g.a.plane.residuals.rms == f.a.plane.residuals.rms);
+      CHECK(g.a.plane.summary.message == f.a.plane.summary.message);
+      CHECK(g.a.plane.summary.warnings == f.a.plane.summary.warnings);
+      CHECK(g.a.flatness == f.a.flatness);
+      CHECK(g.notes == f.notes);
+    }
+  }
+  // A plane of other points is refused.
+  DatumFrameOptions wrong;
+  wrong.a_minimum_zone = fit_plane_minimum_zone(dense_face().leftCols(500));
+  CHECK_THROWS_AS(establish_datum_frame(test::paired(datums, {cloud(dense_face(), "A.csv")}),
+                                        side, wrong),
+                  std::invalid_argument);
+}

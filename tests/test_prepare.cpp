@@ -230,3 +230,62 @@ TEST_CASE("prepare_feature taking the cloud over gives the copy's result bit for
   const auto from = static_cast<Eigen::Index>(copied.record.kept.front());
   CHECK((copied.cloud.points.col(0) - cloud.points.col(from)).norm() == Approx(0.5).margin(0.01));
 }
+
+TEST_CASE("screen_feature gives prepare_feature's stray-point report without the copy",
+          "[prepare]") {
+  // Reference: prepare_feature's record on the same points (the definition screen_feature
+  // states), for a plane with a chip standing proud, a lobed bore with a pushed point and a
+  // slot given its residuals; the screen off and too few points give the empty report.
+  const Eigen::Vector3d normal = Eigen::Vector3d(0.05, -0.03, 1.0).normalized();
+  ReferenceSet face = make_plane_reference(Eigen::Vector3d(12.0, 7.0, -3.0), normal, 60.0, 40.0,
+                                           400, 1.0 * um, 7);
+  face.points.col(123) += 25.0 * um * normal;
+  ReferenceSet bore = make_lobed_cylinder(tilted_axis(), 6.005, -1.0, -49.0, 13, 48, 2.0 * um, 11.0);
+  bore.points.col(301) -= 20.0 * um * bore.normals.col(301);
+  PrepareOptions plane_options;
+  plane_options.outward = normal;
+  PrepareOptions bore_options;
+  bore_options.fit.axis_hint = tilted_axis().direction;
+  PrepareOptions slot_options;
+  slot_options.residuals = Eigen::VectorXd::Zero(bore.points.cols());
+  slot_options.residuals(40) = 0.05;
+  PrepareOptions off = bore_options;
+  off.stray_screen = false;
+  const PointCloud few = cloud_of(bore.points.leftCols(8));
+  const struct {
+    FeatureKind kind;
+    PointCloud cloud;
+    PrepareOptions options;
+  } cases[] = {{FeatureKind::plane, cloud_of(face.points), plane_options},
+               {FeatureKind::bore, cloud_of(bore.points), bore_options},
+               {FeatureKind::slot, cloud_of(bore.points), slot_options},
+               {FeatureKind::bore, cloud_of(bore.points), off},
+               {FeatureKind::bore, few, bore_options}};
+  std::size_t flagged = 0;
+  for (const auto& c : cases) {
+    const StrayPointReport expected = prepare_feature(c.kind, c.cloud, c.options).record.stray_points;
+    const StrayPointReport got = screen_feature(c.kind, c.cloud, c.options);
+    CHECK(got.screened == expected.screened);
+    CHECK(got.robust_scale == expected.robust_scale);
+    REQUIRE(got.points.size() == expected.points.size());
+    for (std::size_t k = 0; k < got.points.size(); ++k) {
+      CHECK(got.points[k].index == expected.points[k].index);
+      CHECK(got.points[k].residual == expected.points[k].residual);
+      CHECK(got.points[k].excess == expected.points[k].excess);
+    }
+    flagged += got.points.size();
+  }
+  CHECK(flagged == 3);  // the chip, the pushed point, the slot's spike: the reports are not empty
+
+  // What changes the points is prepare_feature's alone.
+  PrepareOptions filtered = bore_options;
+  filtered.outliers.neighbour_filter = true;
+  CHECK_THROWS_AS(screen_feature(FeatureKind::bore, cloud_of(bore.points), filtered),
+                  std::invalid_argument);
+  PrepareOptions tip = bore_options;
+  tip.probe_tip = ProbeTipOptions{};
+  CHECK_THROWS_AS(screen_feature(FeatureKind::bore, cloud_of(bore.points), tip),
+                  std::invalid_argument);
+  CHECK_THROWS_AS(screen_feature(FeatureKind::plane, cloud_of(face.points), PrepareOptions{}),
+                  std::invalid_argument);  // a plane without its outward direction
+}

@@ -373,6 +373,9 @@ std::vector<BoreSensitivity> association_sensitivity(const PartPlan& plan,
       frame_options(stage_options(options, std::max<std::size_t>(1, threads / workers)));
   alternative.stray_screen = false;
   alternative.anchors = frame_anchors(plan, inputs);
+  // Every association rests on, or measures flatness by, A's minimum-zone plane over the same
+  // points: the evaluation's is taken rather than fitted once per frame again.
+  alternative.a_minimum_zone = nominal.datums.a.minimum_zone;
   std::vector<std::vector<BoreResult>> moved_by_method(methods.size());
   detail::parallel_for(methods.size(), workers, [&](std::size_t m, std::size_t) {
     std::vector<BoreResult>& moved = moved_by_method[m];

@@ -113,21 +113,34 @@ void note_stray_points(std::vector<std::string>& notes, char label,
                   detail::stray_point_message(report, contacts, stray_closing));
 }
 
+// The minimum-zone plane `zone` of `points` with its residual values, recomputed by the fit's
+// own expression (fit_plane_minimum_zone) when they were released.
+PlaneFit with_residuals(const Eigen::Matrix3Xd& points, PlaneFit zone) {
+  if (zone.residuals.values.size() != points.cols())
+    zone.residuals = detail::make_residuals(
+        ((points.colwise() - zone.point).transpose() * zone.normal).eval());
+  return zone;
+}
+
 // Datum plane A by its association method; normal out of the material, residuals along it.
+// `zone_of_a` gives A's minimum-zone plane (fitted once per frame, or the caller's): the
+// minimum-zone and tangent minimax associations are built on it.
+template <class ZoneOfA>
 PlaneFit associate_plane(const Eigen::Matrix3Xd& points, PlaneAssociation method,
-                         const Eigen::Vector3d& material_side, const FitOptions& fit) {
+                         const Eigen::Vector3d& material_side, const FitOptions& fit,
+                         ZoneOfA&& zone_of_a) {
   switch (method) {
     case PlaneAssociation::tangent_least_squares:
       return fit_plane_tangent_least_squares(points, material_side, fit);
     case PlaneAssociation::tangent_minimax:
-      return fit_plane_tangent_minimax(points, material_side, fit);
+      return tangent_minimax_from_zone(points, zone_of_a(), material_side);
     case PlaneAssociation::least_squares:
     case PlaneAssociation::minimum_zone:
       break;
   }
   PlaneFit plane = method == PlaneAssociation::least_squares
                        ? fit_plane_least_squares(points, fit)
-                       : fit_plane_minimum_zone(points, fit);
+                       : with_residuals(points, zone_of_a());
   const Eigen::Vector3d side = detail::checked_direction(material_side, "the material side of A");
   const double cosine = plane.normal.dot(side);
   if (std::abs(cosine) < least_material_cosine)
@@ -183,11 +196,11 @@ SizeDatumResult associate_size_datum(const PlanDatum& datum, const PointCloud& c
     notes.push_back(label_text(datum.label) + ": related mating envelope: " + warning);
   // Prepare (prepare.hpp): the stray-point screen on the residuals of the least-squares
   // cylinder held perpendicular to A; the datum axis rests on the envelope's contacts.
-  // Screen off (a Monte Carlo trial): no record, and no copy of the cloud to make one.
+  // Screen off (a Monte Carlo trial): no record.
   if (prepare.stray_screen) {
     PrepareOptions screen = prepare;
     screen.fit = held;
-    result.stray_points = prepare_feature(datum.kind, cloud, screen).record.stray_points;
+    result.stray_points = screen_feature(datum.kind, cloud, screen);
     const std::vector<std::size_t> contacts = suspect_contacts(
         result.stray_points, result.related_envelope.residuals.values,
         datum.kind == FeatureKind::pin ? ContactSide::highest : ContactSide::lowest);
@@ -344,7 +357,7 @@ ClockingPlaneResult associate_clocking_plane(const PlanDatum& datum, const Point
   PrepareOptions screen = prepare;
   screen.fit = plain;
   screen.outward = plane.normal;
-  result.stray_points = prepare_feature(datum.kind, cloud, screen).record.stray_points;
+  result.stray_points = screen_feature(datum.kind, cloud, screen);
   note_stray_points(notes, datum.label, result.stray_points,
                     {{suspect_contacts(result.stray_points, plane.residuals.values,
                                        ContactSide::highest),
@@ -482,7 +495,7 @@ ClockingWidthResult associate_clocking_width(const PlanDatum& datum, const Point
     }
     PrepareOptions screen = prepare;
     screen.residuals = std::move(residuals);
-    result.stray_points = prepare_feature(datum.kind, cloud, screen).record.stray_points;
+    result.stray_points = screen_feature(datum.kind, cloud, screen);
     note_stray_points(notes, datum.label, result.stray_points,
                       {{suspect_contacts(result.stray_points, simulator_residuals,
                                          ContactSide::highest),
@@ -551,8 +564,25 @@ DatumFrameResult establish_datum_frame(const std::vector<DatumInput>& datums,
   FitOptions plane_fit = fit;
   plane_fit.fixed_direction.reset();
   plane_fit.axis_hint.reset();
+  // A's minimum-zone plane: the flatness, and the minimum-zone and tangent minimax
+  // associations, rest on it. The caller's when given (the same points and fit options: the
+  // association study's frames take the evaluation's), else fitted once, when first needed.
+  std::optional<PlaneFit>& zone = result.a.minimum_zone;
+  if (options.a_minimum_zone) {
+    if (options.a_minimum_zone->summary.point_count != cloud_of(0).size())
+      throw std::invalid_argument(
+          "establish_datum_frame: the given minimum-zone plane of A is of " +
+          std::to_string(options.a_minimum_zone->summary.point_count) + " points, A has " +
+          std::to_string(cloud_of(0).size()));
+    zone = options.a_minimum_zone;
+  }
+  const auto zone_of_a = [&]() -> const PlaneFit& {
+    if (!zone) zone = fit_plane_minimum_zone(cloud_of(0).points, plane_fit);
+    return *zone;
+  };
   result.a.plane = for_datum(a_datum.label, [&] {
-    return associate_plane(cloud_of(0).points, result.a.association, a_material_side, plane_fit);
+    return associate_plane(cloud_of(0).points, result.a.association, a_material_side, plane_fit,
+                           zone_of_a);
   });
   const bool zone_known = result.a.association == PlaneAssociation::tangent_minimax ||
                           result.a.association == PlaneAssociation::minimum_zone;
@@ -560,9 +590,10 @@ DatumFrameResult establish_datum_frame(const std::vector<DatumInput>& datums,
   if (zone_known)
     result.a.flatness = result.a.plane.residuals.form;
   else if (options.flatness)
-    result.a.flatness = for_datum(a_datum.label, [&] {
-      return fit_plane_minimum_zone(cloud_of(0).points, plane_fit).residuals.form;
-    });
+    result.a.flatness = for_datum(a_datum.label, [&] { return zone_of_a().residuals.form; });
+  // Its residual values are released (one per point of A): a frame that associates A by the
+  // minimum zone computes them again (with_residuals), nothing else reads them.
+  if (zone) zone->residuals.values = Eigen::VectorXd();
   const Eigen::Vector3d z = result.a.plane.normal;
   // Stray-point screen of A on its least-squares plane's residuals (stray_points.hpp). A
   // tangent plane rests on its highest points (residual 0); a minimax or minimum-zone plane is
@@ -573,7 +604,7 @@ DatumFrameResult establish_datum_frame(const std::vector<DatumInput>& datums,
     PrepareOptions screen = prepare;
     screen.fit = plane_fit;
     screen.outward = z;
-    return prepare_feature(a_datum.kind, cloud_of(0), screen).record.stray_points;
+    return screen_feature(a_datum.kind, cloud_of(0), screen);
   });
   {
     std::vector<std::size_t> contacts;

@@ -239,7 +239,11 @@ PlaneFit fit_plane_tangent_least_squares(const Eigen::Matrix3Xd& points,
 PlaneFit fit_plane_tangent_minimax(const Eigen::Matrix3Xd& points,
                                    const Eigen::Vector3d& material_side,
                                    const FitOptions& options) {
-  const PlaneFit zone = fit_plane_minimum_zone(points, options);
+  return tangent_minimax_from_zone(points, fit_plane_minimum_zone(points, options), material_side);
+}
+
+PlaneFit tangent_minimax_from_zone(const Eigen::Matrix3Xd& points, const PlaneFit& zone,
+                                   const Eigen::Vector3d& material_side) {
   const Eigen::Vector3d outward = oriented_outward<3>(zone.normal, material_side, "plane");
   const Eigen::VectorXd distances = (points.colwise() - zone.point).transpose() * outward;
   const double outermost = distances.maxCoeff();

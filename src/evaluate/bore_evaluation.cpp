@@ -200,8 +200,7 @@ TwoPointSizes two_point_sizes(const Eigen::Matrix3Xd& points, const std::vector<
   // Buffers shared by the sections (a Monte Carlo trial calls this for every bore).
   Eigen::Matrix2Xd uv;
   std::vector<std::pair<double, std::size_t>> by_angle;  // (angle, point of the section)
-  std::vector<double> sorted;
-  std::vector<std::size_t> opposite;
+  std::vector<std::size_t> partner;  // the point each one is paired with; n: none
   for (const SectionCircle& section : sections) {
     // Points of the section: a contiguous run of the height-sorted order.
     const auto by_height = [&](Eigen::Index i, double h) { return heights[i] < h; };
@@ -222,36 +221,40 @@ TwoPointSizes two_point_sizes(const Eigen::Matrix3Xd& points, const std::vector<
     }
     // Equal angles (coincident directions) in the order of the points.
     std::sort(by_angle.begin(), by_angle.end());
-    sorted.resize(n);
-    for (std::size_t k = 0; k < n; ++k) sorted[k] = by_angle[k].first;
     const double acceptance = 0.5 * (2.0 * pi / static_cast<double>(n)) * (1.0 + 1e-9);
-    // opposite[i]: the point nearest the direction opposite point i's, n when none is accepted.
-    opposite.assign(n, n);
-    for (const auto& [angle, i] : by_angle) {
-      double target = angle + pi;
+    // Each point's opposite direction, in the order of its angle: the targets rise, but for one
+    // wrap past 2 pi, so the first angle not below each (the lower bound) is found by a pointer
+    // that only moves forward and starts again at the wrap: one pass instead of a binary
+    // search per point, the same positions.
+    partner.assign(n, n);
+    std::size_t at = 0;
+    double previous = -std::numeric_limits<double>::infinity();
+    for (std::size_t p = 0; p < n; ++p) {
+      const std::size_t i = by_angle[p].second;
+      double target = by_angle[p].first + pi;
       if (target >= 2.0 * pi) target -= 2.0 * pi;
-      const std::size_t at =
-          static_cast<std::size_t>(std::lower_bound(sorted.begin(), sorted.end(), target) -
-                                   sorted.begin());
+      if (target < previous) at = 0;
+      previous = target;
+      while (at < n && by_angle[at].first < target) ++at;
       std::size_t best = n;
       double best_gap = std::numeric_limits<double>::infinity();
       for (std::size_t candidate : {at % n, (at + n - 1) % n}) {
-        double gap = std::abs(sorted[candidate] - target);
+        double gap = std::abs(by_angle[candidate].first - target);
         gap = std::min(gap, 2.0 * pi - gap);
         if (gap < best_gap) {
           best_gap = gap;
           best = by_angle[candidate].second;
         }
       }
-      if (best != i && best_gap <= acceptance) opposite[i] = best;
+      if (best == n || best == i || best_gap > acceptance) continue;
+      partner[i] = best;
     }
-    // Each pair once: {i, j} found from both ends is counted at its smaller index. The size is
-    // symmetric in the two points (the difference negated exactly), so the order is immaterial.
+    // Every pair {i, partner[i]} once: a pair both points chose is counted from its lower one.
     for (std::size_t i = 0; i < n; ++i) {
-      const std::size_t j = opposite[i];
-      if (j == n || (opposite[j] == i && j < i)) continue;
-      const double size = (uv.col(static_cast<Eigen::Index>(i)) -
-                           uv.col(static_cast<Eigen::Index>(j))).norm();
+      const std::size_t j = partner[i];
+      if (j == n || (j < i && partner[j] == i)) continue;
+      const double size =
+          (uv.col(static_cast<Eigen::Index>(i)) - uv.col(static_cast<Eigen::Index>(j))).norm();
       out.min = std::min(out.min, size);
       out.max = std::max(out.max, size);
       ++out.count;

@@ -253,13 +253,15 @@ std::vector<WalkEnd> walk_ends(const ZoneModel& model, ZoneObjective objective,
   const double limit = true_objective(objective, d) + std::max(allowance, objective_tolerance(options, d));
   const double resolution = displacement_resolution(options);
   std::vector<WalkEnd> ends;
+  Eigen::VectorXd at_end;  // every point's distances at a walk's end
   for (Eigen::Index row = 0; row < gauge.functionals.rows(); ++row)
     for (double sign : {1.0, -1.0}) {
       WalkEnd end;
       end.step = walk(model, objective, options, d, sign * gauge.functionals.row(row),
-                      sign * gauge.offset_weight, limit, resolution, allowance, end.distances,
+                      sign * gauge.offset_weight, limit, resolution, allowance, at_end,
                       programmes);
-      end.objective = true_objective(objective, end.distances);
+      end.objective = true_objective(objective, at_end);
+      end.distances = Eigen::Vector2d(at_end.minCoeff(), at_end.maxCoeff());
       ends.push_back(std::move(end));
     }
   return ends;

@@ -55,6 +55,15 @@ Eigen::VectorXd screening_residuals(FeatureKind kind, const PointCloud& cloud,
   return r;
 }
 
+/// Step 3, the stray-point screen of the (prepared) points, or an empty report when it is off
+/// or the points are too few.
+StrayPointReport screen_points(FeatureKind kind, const PointCloud& cloud,
+                               const PrepareOptions& options) {
+  if (!options.stray_screen || cloud.size() <= options.stray_points.neighbours) return {};
+  return find_stray_points(cloud.points, screening_residuals(kind, cloud, options),
+                           options.stray_points);
+}
+
 /// Where the feature's envelope touches its points (outlier_rejection.hpp): a hole's
 /// maximum-inscribed cylinder on the lowest residuals; a pin's minimum-circumscribed cylinder
 /// and a tangent plane (on the material side, residuals positive outward) on the highest.
@@ -122,12 +131,17 @@ PreparedFeature prepare_feature(FeatureKind kind, PointCloud&& cloud,
   }
 
   // ---- 3. The stray-point screen of the points kept.
-  if (!options.stray_screen || prepared.cloud.size() <= options.stray_points.neighbours)
-    return prepared;
-  prepared.record.stray_points = find_stray_points(
-      prepared.cloud.points, screening_residuals(kind, prepared.cloud, options),
-      options.stray_points);
+  prepared.record.stray_points = screen_points(kind, prepared.cloud, options);
   return prepared;
+}
+
+StrayPointReport screen_feature(FeatureKind kind, const PointCloud& cloud,
+                                const PrepareOptions& options) {
+  if (options.probe_tip || options.outliers.neighbour_filter || options.outliers.residual_rejection)
+    throw std::invalid_argument(
+        "screen_feature: the options change the points (compensation or an outlier stage); "
+        "use prepare_feature");
+  return screen_points(kind, cloud, options);
 }
 
 void apply_probe_settings(const ProbeSettings& settings, PrepareOptions& options) {

@@ -44,6 +44,11 @@ struct PlaneDatumResult {
   PlaneAssociation association = PlaneAssociation::tangent_least_squares;
   PlaneFit plane;  ///< measurement coordinates; normal out of the material
   double flatness = 0.0;  ///< minimum-zone flatness of the datum feature's points
+  /// The minimum-zone plane of the datum feature's points (fit_plane_minimum_zone, with the
+  /// frame's fit options) that `flatness` and a minimum-zone or tangent minimax association
+  /// rest on, its residual values released (form and rms kept): a further frame over the same
+  /// points takes it (DatumFrameOptions::a_minimum_zone) instead of fitting it again.
+  std::optional<PlaneFit> minimum_zone;
   bool material_side_inferred = false;
   /// Suspect points of the datum feature, screened against its least-squares plane's residuals
   /// along the outward normal (positive: standing proud of the surface). Reported only.
@@ -144,6 +149,11 @@ struct DatumFrameOptions {
   /// projected onto A, as the frame's note says.
   std::vector<FrameAnchor> anchors;
   FitOptions fit;  ///< its `threads` is the thread option of the frame's fits and screens
+  /// Datum A's minimum-zone plane as an earlier frame over the SAME points with the same `fit`
+  /// (threads aside) found it (PlaneDatumResult::minimum_zone): the frame uses it instead of
+  /// fitting it again, with the same bits (the association study builds four more frames on
+  /// a dense scan's face). Its point count must be A's (else std::invalid_argument).
+  std::optional<PlaneFit> a_minimum_zone;
   /// The prepare stage of each datum feature (prepare.hpp): the stray-point screen, on or off.
   bool stray_screen = true;
   StrayPointOptions stray_points;

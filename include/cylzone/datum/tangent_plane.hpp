@@ -32,4 +32,12 @@ PlaneFit fit_plane_tangent_minimax(const Eigen::Matrix3Xd& points,
                                    const Eigen::Vector3d& material_side,
                                    const FitOptions& options = {});
 
+/// The tangent minimax plane from the minimum-zone plane of the same points (`zone`, as
+/// fit_plane_minimum_zone gives it; its residual values are not read): the zone's outer plane.
+/// fit_plane_tangent_minimax(points, side, options) is this applied to
+/// fit_plane_minimum_zone(points, options), bit for bit; a caller that holds the zone already
+/// (the datum frame's flatness, the association study) does not fit it again.
+PlaneFit tangent_minimax_from_zone(const Eigen::Matrix3Xd& points, const PlaneFit& zone,
+                                   const Eigen::Vector3d& material_side);
+
 }  // namespace cylzone

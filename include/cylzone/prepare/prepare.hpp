@@ -93,6 +93,16 @@ PreparedFeature prepare_feature(FeatureKind kind, const PointCloud& cloud,
 PreparedFeature prepare_feature(FeatureKind kind, PointCloud&& cloud,
                                 const PrepareOptions& options = {});
 
+/// Step 3 of prepare_feature alone, on the caller's points: the stray-point report that
+/// prepare_feature(kind, cloud, options).record.stray_points gives when `options` ask for no
+/// compensation and no outlier stage (the points are then prepared unchanged), without the
+/// prepared copy of the points and its kept-column map (a datum frame screens a dense scan's
+/// face of 1,500,000 points, and only reads the report). Empty when the screen is off or the
+/// points are too few. Throws std::invalid_argument when `options` ask for compensation or an
+/// outlier stage, and as prepare_feature.
+StrayPointReport screen_feature(FeatureKind kind, const PointCloud& cloud,
+                                const PrepareOptions& options = {});
+
 /// Writes one feature's raw-point settings (plan.hpp: resolved_probe) into `options`:
 /// compensation by half the tip diameter when its points are ball centres, and the outlier
 /// stages it turns on (with their default constants).

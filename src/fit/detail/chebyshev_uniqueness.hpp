@@ -34,10 +34,15 @@ bool proven_unique(const ZoneModel& model, ZoneObjective objective, const ZoneOp
                    const zone_lp::ZoneProgramme& last, const Eigen::VectorXd& d, double allowance,
                    double& reach);
 
-/// The end of one walk along the near-optimal set: a step from the element, every point's
+/// The end of one walk along the near-optimal set: a step from the element, the extreme
 /// distances there and the true objective there.
 struct WalkEnd {
   Eigen::VectorXd step;
+  /// (lowest, highest) of every point's distances at the end: all that the true objective
+  /// (true_objective) and a model's displacements (ZoneModel::displacements: a plane's
+  /// mid-offset) read of them, so that they give the same bits as the whole vector would. The
+  /// whole vector is not kept: the walks of an optimum of a dense scan's face (eight, and as
+  /// many exploring ones) would each hold one distance per point.
   Eigen::VectorXd distances;
   double objective = 0.0;
 };
