@@ -87,6 +87,14 @@ std::string_view monte_carlo_status_name(MonteCarloStatus status) noexcept {
   return "failed";
 }
 
+std::string warm_start_text(const MonteCarloSummary& s) {
+  if (s.warm_fits == 0) return "every fit of the trials from its own start";
+  return std::to_string(s.warm_fits) + " fits of the trials started from the unperturbed ones: " +
+         std::to_string(s.warm_descents) +
+         " Chebyshev fits descended from there (their contacts changed), " +
+         std::to_string(s.warm_restarts) + " solved again from their own start";
+}
+
 EvaluationProfile lean_profile() {
   EvaluationProfile profile;
   profile.ambiguity = false;

@@ -226,6 +226,10 @@ struct MonteCarloSummary {
   std::vector<CharacteristicUncertainty> characteristics;  ///< in the check's order
   std::vector<std::string> warnings;
 };
+/// One line on how the trials' fits were started (MonteCarloSummary::warm_fits, ...), for the
+/// reports: "3200 fits started from the unperturbed ones: 1800 Chebyshev fits descended from
+/// there (their contacts changed), 0 solved again from their own start", or that none was.
+std::string warm_start_text(const MonteCarloSummary& summary);
 
 /// The whole-chain Monte Carlo study of a part: the unperturbed evaluation (options.evaluation,
 /// full profile) gives the values and the ambiguities, then each trial perturbs `inputs`,
