@@ -246,6 +246,14 @@ ZoneStatus descend(ZoneModel& model, ZoneObjective objective, const ZoneOptions&
       // Classical trust-region update (e.g. Nocedal & Wright, Numerical Optimization, ch. 4).
       if (ratio >= 0.01) {
         model.move(s.step);
+        // From an earlier element whose contacts changed, the first step is short and its
+        // programme's binding rows are likely the optimum's: Newton on them (kept only where
+        // valid, as above) lets the next programme certify the element instead of stepping
+        // again. Only for started fits, so a fit from its own start keeps its path.
+        if (options.from_start && iterations == 1 &&
+            polish_on_contacts(model, objective, programme.binding(), programme.multipliers(),
+                               scale))
+          summary.polished = true;
         model.evaluate(no_step, d, &g);
         f = true_objective(objective, d);
         programme_is_current = false;
