@@ -985,6 +985,13 @@ TEST_CASE("a Chebyshev cylinder started from an earlier fit ends on the known op
     CHECK(fit.radius == Approx(r - eps).margin(agreement));
     CHECK(axis_separation(fit.axis, axis, t0, t1) < agreement);
   }
+  SECTION("points in one cross-section are refused with a start as without one") {
+    const Eigen::Matrix3Xd level = make_lobed_cylinder(axis, r, 0.0, 0.0, 1, 24, eps).points;
+    FitOptions started = options;
+    started.start = fit_start(fit_cylinder_maximum_inscribed(first, options));
+    CHECK_THROWS_AS(fit_cylinder_maximum_inscribed(level, started), FitError);
+    CHECK_THROWS_AS(fit_cylinder_minimum_zone(level, started), FitError);
+  }
 }
 
 TEST_CASE("a started Chebyshev cylinder equals the fit from its own start on perturbed data",

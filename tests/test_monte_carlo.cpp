@@ -407,6 +407,30 @@ void require_same(const MonteCarloSummary& a, const MonteCarloSummary& b) {
   }
 }
 
+/// The largest difference of a figure (u, mean, both intervals, the reported interval's ends)
+/// between two studies of the same characteristics, each required below `tolerance`.
+double largest_difference(const MonteCarloSummary& a, const MonteCarloSummary& b,
+                          double tolerance) {
+  double worst = 0.0;
+  for (std::size_t i = 0; i < a.characteristics.size(); ++i) {
+    const CharacteristicUncertainty& x = a.characteristics[i];
+    const CharacteristicUncertainty& y = b.characteristics[i];
+    INFO(x.id);
+    CHECK(x.id == y.id);
+    for (const auto& [p, q] : {std::pair{x.statistics.standard_uncertainty,
+                                         y.statistics.standard_uncertainty},
+                               std::pair{x.interval.low, y.interval.low},
+                               std::pair{x.interval.high, y.interval.high},
+                               std::pair{x.statistics.mean, y.statistics.mean},
+                               std::pair{x.statistics.symmetric.low, y.statistics.symmetric.low},
+                               std::pair{x.statistics.symmetric.high, y.statistics.symmetric.high}}) {
+      worst = std::max(worst, std::abs(p - q));
+      CHECK(std::abs(p - q) < tolerance);
+    }
+  }
+  return worst;
+}
+
 }  // namespace
 
 TEST_CASE("monte carlo: the same seed gives the same bits on 1 and 2 threads", "[monte-carlo]") {
@@ -550,21 +574,7 @@ TEST_CASE("monte carlo: the demo moved rigidly gives the same uncertainties", "[
   REQUIRE(a.characteristics.size() == b.characteristics.size());
   REQUIRE(a.characteristics.size() > 20);
   CHECK(a.length == Approx(b.length).margin(1e-9));
-  double worst = 0.0;
-  for (std::size_t i = 0; i < a.characteristics.size(); ++i) {
-    const CharacteristicUncertainty& x = a.characteristics[i];
-    const CharacteristicUncertainty& y = b.characteristics[i];
-    INFO(x.id);
-    CHECK(x.id == y.id);
-    for (const auto& [p, q] : {std::pair{x.statistics.standard_uncertainty,
-                                         y.statistics.standard_uncertainty},
-                               std::pair{x.interval.low, y.interval.low},
-                               std::pair{x.interval.high, y.interval.high},
-                               std::pair{x.statistics.mean, y.statistics.mean}}) {
-      worst = std::max(worst, std::abs(p - q));
-      CHECK(std::abs(p - q) < 1e-9);
-    }
-  }
+  const double worst = largest_difference(a, b, 1e-9);
   WARN("largest difference after the motion: " << worst << " mm");
 }
 
@@ -641,23 +651,7 @@ TEST_CASE("monte carlo: trials started from the unperturbed fits give the same f
   require_same(warm, warm_one);  // the starts are shared read only: any thread count
   REQUIRE(cold.characteristics.size() == warm.characteristics.size());
   REQUIRE(cold.characteristics.size() > 20);
-  double worst = 0.0;
-  for (std::size_t i = 0; i < cold.characteristics.size(); ++i) {
-    const CharacteristicUncertainty& x = cold.characteristics[i];
-    const CharacteristicUncertainty& y = warm.characteristics[i];
-    INFO(x.id);
-    CHECK(x.id == y.id);
-    for (const auto& [p, q] : {std::pair{x.statistics.standard_uncertainty,
-                                         y.statistics.standard_uncertainty},
-                               std::pair{x.statistics.mean, y.statistics.mean},
-                               std::pair{x.interval.low, y.interval.low},
-                               std::pair{x.interval.high, y.interval.high},
-                               std::pair{x.statistics.symmetric.low, y.statistics.symmetric.low},
-                               std::pair{x.statistics.symmetric.high, y.statistics.symmetric.high}}) {
-      worst = std::max(worst, std::abs(p - q));
-      CHECK(std::abs(p - q) < 1e-9);
-    }
-  }
+  const double worst = largest_difference(cold, warm, 1e-9);
   WARN("largest difference with and without starts: " << worst << " mm");
   // Every bore fit of every trial was started (the least-squares and the Chebyshev cylinders
   // with a free axis), counted the same on any thread count; none without a start.

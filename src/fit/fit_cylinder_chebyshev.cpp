@@ -65,7 +65,7 @@ CylinderFit fit_fixed_direction(const Eigen::Matrix3Xd& points, const FitOptions
   const Eigen::Vector3d c = detail::centroid(points);
   const Eigen::Matrix3d basis = detail::basis_from_direction(direction);
   Eigen::Matrix2Xd uv = detail::planar_coordinates(points, c, basis);
-  if (options.start && points.cols() >= 3) {
+  if (options.start && points.cols() >= 3 && detail::planar_scale(uv) > 0.0) {
     // From the earlier axis's centre in this plane; no least-squares circle first.
     const Eigen::Vector2d centre = basis.leftCols<2>().transpose() * (options.start->axis.point - c);
     detail::ZoneOptions zone_options =
@@ -104,8 +104,14 @@ CylinderFit fit_cylinder_chebyshev(const Eigen::Matrix3Xd& points, const FitOpti
   if (options.fixed_direction) return fit_fixed_direction(points, options, method);
   if (options.start && points.cols() >= 5) {
     // From the earlier axis; no least-squares cylinder first (its multi-start search is the
-    // larger part of a small fit's cost).
-    const double scale = detail::data_scale(points, detail::centroid(points));
+    // larger part of a small fit's cost). Points that could not fix a cylinder (coincident, or
+    // in one cross-section: the least-squares start's checks) go to the fit's own start, which
+    // refuses them with the reason.
+    const Eigen::Vector3d c = detail::centroid(points);
+    const double scale = detail::data_scale(points, c);
+    const detail::PrincipalAxes axes = detail::principal_axes(points, c);
+    if (!(scale > 0.0) || axes.rms(0) <= detail::degenerate_spread_ratio * axes.rms(2))
+      return restarted(points, options, method);
     const detail::ZoneObjective objective = detail::zone_objective(method);
     detail::ZoneOptions zone_options = started_zone_options(options, scale, points.cols());
     if (objective == detail::ZoneObjective::maximum_inscribed) zone_options.location_limit = scale;

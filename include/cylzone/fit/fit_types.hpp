@@ -137,8 +137,10 @@ struct FitOptions {
   /// Chebyshev fits: the linear programmes' solver. Repeated trials (Monte Carlo) use `dense`.
   LpSolver lp_solver = LpSolver::clp;
   /// Start from an earlier fit of the same feature (FitStart): the same answer, fewer
-  /// iterations. Used by cylinders (least squares with a free axis, the Chebyshev cylinders)
-  /// and the minimum-zone plane; other fits ignore it. Empty: the fit's own start.
+  /// iterations. Used whole by cylinders (least squares with a free axis, the Chebyshev
+  /// cylinders) and the minimum-zone plane; the other Chebyshev fits (circles, lines) keep
+  /// their own start and only try its contacts first; least-squares fits other than the
+  /// cylinder ignore it. Empty: the fit's own start.
   std::optional<FitStart> start;
 };
 
