@@ -9,7 +9,9 @@
 // Last, the fits of one lean trial evaluation (the unperturbed points): which Chebyshev fits a
 // trial runs and their sequential-LP iterations.
 //
-// Usage: bench_monte_carlo [PLAN [TRIALS]]   (default: the demo part, 2000 trials)
+// Usage: bench_monte_carlo [PLAN [TRIALS [cold]]]   (default: the demo part, 2000 trials;
+// `cold`: every trial's fits from their own starts, MonteCarloOptions::warm_start off, the
+// figures before the starts from the unperturbed fits)
 #include <cstdio>
 #include <cstdlib>
 #include <string>
@@ -28,6 +30,7 @@ int main(int argc, char** argv) {
   const std::size_t trials = argc > 2 ? std::strtoul(argv[2], nullptr, 10) : 2000;
   const cylzone::PartPlan plan = cylzone::read_plan(file);
   const cylzone::PartInputs inputs = cylzone::load_part_inputs(plan);
+  const bool warm = !(argc > 3 && std::string(argv[3]) == "cold");
   const int runs = trials >= 1000 ? 1 : 3;
   std::printf("# monte_carlo_uncertainty on %s (%zu bores), %zu trials, sigma 0.001 mm\n",
               file.c_str(), plan.bores.size(), trials);
@@ -38,6 +41,7 @@ int main(int argc, char** argv) {
     cylzone::MonteCarloOptions options;
     options.trials = 2;
     options.threads = threads;
+    options.warm_start = warm;
     const cylzone::bench::Timing fixed = cylzone::bench::time_runs(
         runs, [&] { cylzone::monte_carlo_uncertainty(plan, inputs, options); });
     options.trials = trials;
@@ -60,6 +64,7 @@ int main(int argc, char** argv) {
   }
   std::printf("# %s; %zu characteristics, %zu trials failed\n", first.message.c_str(),
               first.characteristics.size(), first.failed_trials);
+  std::printf("# %s\n", cylzone::warm_start_text(first).c_str());
 
   // The fits one trial runs (lean profile, unperturbed points): SLP iterations of each.
   cylzone::EvaluationOptions lean;

@@ -903,3 +903,190 @@ TEST_CASE("a KKT-constructed flatness zone is proven unique", "[chebyshev][uniqu
   CHECK(plane.summary.warnings.empty());
   CHECK(plane.summary.message.find("not proven unique") == std::string::npos);
 }
+
+// ------------------------------------------------------------------ starts from earlier fits
+
+// FitOptions::start (fit_types.hpp): a fit started from an earlier fit of nearly the same points
+// must end on the optimum the closed-form construction gives, whichever way the start served:
+// the earlier contacts held (Newton on them, certified by one linear programme), the contacts
+// changed (the programmes descend from the earlier element), or the start led nowhere and the
+// fit was solved again from its own start. The references are the three-lobed cylinders
+// (Forbes & Minh 2012) and the KKT-constructed flatness sets above.
+TEST_CASE("a Chebyshev cylinder started from an earlier fit ends on the known optimum",
+          "[chebyshev][cylinder][start]") {
+  const Axis axis{{-20.0, 14.0, 35.0}, direction_from_angles(25.0, 130.0)};
+  const double r = 6.0, eps = 0.003, t0 = -15.0, t1 = 25.0;
+  FitOptions options;
+  options.lp_solver = GENERATE(LpSolver::clp, LpSolver::dense);
+  options.assess_ambiguity = GENERATE(false, true);
+  // The lobed set with one-sided clusters strictly inside the zone (as above), so that the
+  // least-squares start is off the optimum.
+  const auto lobed_set = [&](double radius, double e, double phase_deg) {
+    Eigen::Matrix3Xd points =
+        make_lobed_cylinder(axis, radius, t0, t1, 7, 24, e, phase_deg).points;
+    append_inside_zone(points, axis, radius, e, 0.8, 0.0, 40.0, t1 - 8.0, t1, 20);
+    append_inside_zone(points, axis, radius, e, -0.7, 170.0, 220.0, t0, t0 + 8.0, 20);
+    return points;
+  };
+  const Eigen::Matrix3Xd first = lobed_set(r, eps, 5.0);
+  using Fit = CylinderFit (*)(const Eigen::Matrix3Xd&, const FitOptions&);
+  struct Method {
+    const char* name;
+    Fit fit;
+    double lobes;  // the optimum's radius is r + lobes * eps
+  };
+  const Method methods[] = {{"minimum zone", fit_cylinder_minimum_zone, 0.0},
+                            {"maximum inscribed", fit_cylinder_maximum_inscribed, -1.0},
+                            {"minimum circumscribed", fit_cylinder_minimum_circumscribed, 1.0}};
+  for (const Method& m : methods) {
+    INFO(m.name);
+    const CylinderFit earlier = m.fit(first, options);
+    REQUIRE(earlier.summary.status == FitStatus::converged);
+    REQUIRE(!earlier.summary.contacts.empty());
+    FitOptions started = options;
+    started.start = fit_start(earlier);
+    SECTION(std::string(m.name) + ": the contacts hold") {
+      // Larger radius, deeper lobes, the same phase: the same points are the contacts.
+      const double r2 = r + 0.0004, eps2 = 0.0025;
+      const CylinderFit fit = m.fit(lobed_set(r2, eps2, 5.0), started);
+      // The inscribed and circumscribed optima rest on a regular vertex (5 weighted contacts
+      // for 4 + 1 unknowns), where Newton's method on the contacts places the element; the
+      // three-lobed zone is a degenerate vertex (every lobe's extreme on both sides is a
+      // contact), where it is not regular, and the first programme certifies the element
+      // from the start as it stands.
+      if (m.lobes != 0.0) CHECK(fit.summary.start == StartOutcome::held);
+      CHECK(fit.summary.start != StartOutcome::restarted);
+      CHECK(fit.summary.iterations == 1);
+      CHECK(fit.radius == Approx(r2 + m.lobes * eps2).margin(agreement));
+      CHECK(axis_separation(fit.axis, axis, t0, t1) < agreement);
+    }
+    SECTION(std::string(m.name) + ": the contacts change") {
+      // The lobes turned by 30 degrees and the points in reverse order: the earlier contacts'
+      // columns are other points now, off the optimum's contacts.
+      const Eigen::Matrix3Xd turned = lobed_set(r, eps, 35.0).rowwise().reverse();
+      const CylinderFit fit = m.fit(turned, started);
+      CHECK(fit.summary.start == StartOutcome::descended);
+      CHECK(fit.summary.status == FitStatus::converged);
+      CHECK(fit.radius == Approx(r + m.lobes * eps).margin(agreement));
+      CHECK(axis_separation(fit.axis, axis, t0, t1) < agreement);
+    }
+  }
+  SECTION("a start that leads nowhere is abandoned for the fit's own") {
+    // An earlier axis outside the points (shifted by twice the radius): the inscribed cylinder
+    // from there grows without bound, so the fit starts again from its least-squares cylinder.
+    FitStart far = fit_start(fit_cylinder_maximum_inscribed(first, options));
+    Eigen::Vector3d u, v;
+    perpendicular_pair(axis.direction, u, v);
+    far.axis.point += 2.0 * r * u;
+    FitOptions started = options;
+    started.start = far;
+    const CylinderFit fit = fit_cylinder_maximum_inscribed(first, started);
+    CHECK(fit.summary.start == StartOutcome::restarted);
+    CHECK(fit.radius == Approx(r - eps).margin(agreement));
+    CHECK(axis_separation(fit.axis, axis, t0, t1) < agreement);
+  }
+  SECTION("points in one cross-section are refused with a start as without one") {
+    const Eigen::Matrix3Xd level = make_lobed_cylinder(axis, r, 0.0, 0.0, 1, 24, eps).points;
+    FitOptions started = options;
+    started.start = fit_start(fit_cylinder_maximum_inscribed(first, options));
+    CHECK_THROWS_AS(fit_cylinder_maximum_inscribed(level, started), FitError);
+    CHECK_THROWS_AS(fit_cylinder_minimum_zone(level, started), FitError);
+  }
+}
+
+TEST_CASE("a started Chebyshev cylinder equals the fit from its own start on perturbed data",
+          "[chebyshev][cylinder][start]") {
+  // Generated bores with noise (uniform, so the contacts are distinct points), each perturbed
+  // again as a Monte Carlo trial does (normal, 0.5 um per coordinate). The start is the
+  // trial's own least-squares cylinder with the earlier fit's contacts (as the study passes
+  // it): the started fit must give the same element as the fit from its own start.
+  std::mt19937_64 rng(4242);
+  std::uniform_real_distribution<double> unit(0.0, 1.0);
+  std::normal_distribution<double> noise(0.0, 0.0005);
+  const Axis axis{{12.0, -7.5, -30.0}, direction_from_angles(4.0, 200.0)};
+  Eigen::Vector3d u, v;
+  perpendicular_pair(axis.direction, u, v);
+  FitOptions options;
+  options.lp_solver = LpSolver::dense;
+  options.assess_ambiguity = false;
+  options.axis_hint = axis.direction;
+  int held = 0, descended = 0;
+  for (int bore = 0; bore < 6; ++bore) {
+    const int n = 240;
+    Eigen::Matrix3Xd points(3, n);
+    for (int i = 0; i < n; ++i) {
+      const double a = 2.0 * pi * (i % 24) / 24.0 + 0.05 * unit(rng), t = -20.0 + 2.5 * (i / 24);
+      points.col(i) = axis.point + t * axis.direction +
+                      (5.0 + 0.004 * unit(rng)) * (std::cos(a) * u + std::sin(a) * v);
+    }
+    const CylinderFit ls0 = fit_cylinder_least_squares(points, options);
+    for (int trial = 0; trial < 4; ++trial) {
+      Eigen::Matrix3Xd moved = points;
+      for (Eigen::Index i = 0; i < n; ++i)
+        for (int k = 0; k < 3; ++k) moved(k, i) += noise(rng);
+      FitOptions ls_start = options;
+      ls_start.start = fit_start(ls0);
+      const CylinderFit ls = fit_cylinder_least_squares(moved, ls_start);
+      const CylinderFit ls_cold = fit_cylinder_least_squares(moved, options);
+      CHECK(ls.summary.start == StartOutcome::held);
+      CHECK(axis_separation(ls.axis, ls_cold.axis, -20.0, 2.5) < agreement);
+      CHECK(ls.radius == Approx(ls_cold.radius).margin(agreement));
+      for (FitMethod method : {FitMethod::minimum_zone, FitMethod::maximum_inscribed,
+                               FitMethod::minimum_circumscribed}) {
+        INFO(method_name(method) << ", bore " << bore << ", trial " << trial);
+        const auto fit = [&](const Eigen::Matrix3Xd& p, const FitOptions& o) {
+          return method == FitMethod::minimum_zone        ? fit_cylinder_minimum_zone(p, o)
+                 : method == FitMethod::maximum_inscribed ? fit_cylinder_maximum_inscribed(p, o)
+                                                          : fit_cylinder_minimum_circumscribed(p, o);
+        };
+        const CylinderFit earlier = fit(points, options);
+        FitOptions started = options;
+        started.start = fit_start(ls);
+        started.start->contacts = earlier.summary.contacts;
+        started.start->point_count = earlier.summary.point_count;
+        const CylinderFit warm = fit(moved, started);
+        const CylinderFit cold = fit(moved, options);
+        CHECK(warm.summary.status == FitStatus::converged);
+        CHECK(warm.radius == Approx(cold.radius).margin(agreement));
+        CHECK(axis_separation(warm.axis, cold.axis, -20.0, 2.5) < agreement);
+        CHECK(warm.residuals.form == Approx(cold.residuals.form).margin(agreement));
+        held += warm.summary.start == StartOutcome::held ? 1 : 0;
+        descended += warm.summary.start == StartOutcome::descended ? 1 : 0;
+      }
+    }
+  }
+  CHECK(held + descended == 6 * 4 * 3);  // none restarted
+}
+
+TEST_CASE("a minimum-zone plane started from an earlier fit ends on the known optimum",
+          "[chebyshev][plane][start]") {
+  const Eigen::Vector3d point(700.0, -350.0, 1200.0), normal = direction_from_angles(40.0, 15.0);
+  const std::vector<Eigen::Vector2d> upper = {{-30.0, -20.0}, {35.0, -15.0}, {5.0, 28.0}};
+  const std::vector<Eigen::Vector2d> lower = {{4.0, 3.0}};
+  FitOptions options;
+  options.lp_solver = GENERATE(LpSolver::clp, LpSolver::dense);
+  const PlaneFit earlier = fit_plane_minimum_zone(kkt_plane_set(point, normal, upper, lower,
+                                                                0.006, 300, 8), options);
+  REQUIRE(earlier.summary.contacts.size() == 4);
+  options.start = fit_start(earlier);
+  SECTION("the contacts hold: a thinner zone on the same contacts") {
+    const PlaneFit fit =
+        fit_plane_minimum_zone(kkt_plane_set(point, normal, upper, lower, 0.004, 300, 8), options);
+    CHECK(fit.summary.start == StartOutcome::held);
+    CHECK(fit.summary.iterations == 1);
+    CHECK(fit.residuals.form == Approx(0.008).margin(agreement));
+    CHECK(sine_between(fit.normal, normal) < agreement / 40.0);
+    CHECK(std::abs((fit.point - point).dot(normal)) < agreement);
+  }
+  SECTION("the contacts change: two and two on crossing segments, a tilted normal") {
+    const Eigen::Vector3d tilted = direction_from_angles(40.3, 15.2);
+    const PlaneFit fit = fit_plane_minimum_zone(
+        kkt_plane_set(point, tilted, {{-32.0, -5.0}, {30.0, 7.0}}, {{-3.0, 25.0}, {2.0, -26.0}},
+                      0.006, 300, 9),
+        options);
+    CHECK(fit.summary.start == StartOutcome::descended);
+    CHECK(fit.residuals.form == Approx(0.012).margin(agreement));
+    CHECK(sine_between(fit.normal, tilted) < agreement / 40.0);
+    CHECK(std::abs((fit.point - point).dot(tilted)) < agreement);
+  }
+}

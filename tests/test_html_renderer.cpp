@@ -368,6 +368,9 @@ MonteCarloSummary position_study(double value) {
   s.feature_sigma = {0.0012};
   s.length_error = LengthError{0.0015, 333.0};
   s.length = 120.5;
+  s.warm_fits = 96;
+  s.warm_descents = 40;
+  s.warm_restarts = 1;
   CharacteristicUncertainty c;
   c.id = "P2/position";
   c.value = value;
@@ -437,6 +440,9 @@ TEST_CASE("HTML: the uncertainty study, the rule in force with its limits, the p
   CHECK(study.find("data-trials=\"12\" data-seed=\"7\"") != std::string::npos);
   CHECK(study.find("<tr><th>trials</th><td>12 (fixed)</td></tr>") != std::string::npos);
   CHECK(study.find("<tr><th>seed</th><td>7</td></tr>") != std::string::npos);
+  CHECK(study.find("96 fits of the trials started from the unperturbed ones: 40 Chebyshev fits "
+                   "descended from there (their contacts changed), 1 solved again from their "
+                   "own start") != std::string::npos);
   CHECK(study.find("converged: 12 trials (fixed), seed 7") != std::string::npos);
   CHECK(study.find("E = A + L/K, A 0.0015 mm, K 333.0, L 120.5000 mm") != std::string::npos);
   CHECK(study.find("<tr><td>bore P2</td><td class=\"num\">0.001200</td></tr>") !=
@@ -523,6 +529,9 @@ TEST_CASE("JSON reader: the study and the prediction read back render the same H
   CHECK(b.length_error->a == a.length_error->a);
   CHECK(b.length_error->k == a.length_error->k);
   CHECK(b.length == a.length);
+  CHECK(b.warm_fits == a.warm_fits);
+  CHECK(b.warm_descents == a.warm_descents);
+  CHECK(b.warm_restarts == a.warm_restarts);
   REQUIRE(b.characteristics.size() == 1);
   const CharacteristicUncertainty& ca = a.characteristics.front();
   const CharacteristicUncertainty& cb = b.characteristics.front();

@@ -322,7 +322,12 @@ PartEvaluation evaluate_part(const PartPlan& plan, const PartInputs& inputs,
         PrepareRecord& record = result.preparation[first_bore + i].record;
         BoreResult evaluated;
         try {
-          evaluated = evaluate_bore(BoreInput{bore, prepared}, per_bore);
+          const BoreResult* start =
+              options.start && i < options.start->bores.size() &&
+                      options.start->bores[i].evaluated() && options.start->bores[i].id == bore.id
+                  ? &options.start->bores[i]
+                  : nullptr;
+          evaluated = evaluate_bore(BoreInput{bore, prepared, start}, per_bore);
         } catch (...) {
           record = std::move(prepared.record);
           throw;

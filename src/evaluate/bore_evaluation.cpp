@@ -543,17 +543,38 @@ BoreResult evaluate_bore(const BoreInput& input, const BoreEvaluationOptions& op
   const bool want_related = all || (!at(bore.position, MaterialCondition::mmc) &&
                                     at(bore.perpendicularity, MaterialCondition::mmc));
   const bool have_minimum_material = all || lmc || !options.two_point_sizes;
+  // With BoreInput::start (FitOptions::start): the least-squares cylinder starts from the
+  // earlier one; the Chebyshev cylinders with a free axis from this least-squares cylinder,
+  // which is the start they would compute for themselves (so their descent is the same), with
+  // their earlier counterparts' contacts to try first.
+  const auto from = [&](const FitOptions& fit, const CylinderFit BoreResult::*earlier) {
+    if (!input.start || (input.start->*earlier).summary.point_count == 0) return fit;
+    FitOptions started = fit;
+    if (earlier == &BoreResult::least_squares) {
+      started.start = fit_start(input.start->least_squares);
+    } else {
+      started.start = fit_start(result.least_squares);
+      started.start->contacts = (input.start->*earlier).summary.contacts;
+      started.start->point_count = (input.start->*earlier).summary.point_count;
+    }
+    return started;
+  };
   for_bore(bore, [&] {
-    result.least_squares = fit_cylinder_least_squares(points, free_axis);
+    result.least_squares =
+        fit_cylinder_least_squares(points, from(free_axis, &BoreResult::least_squares));
     // Unrelated actual mating envelope of a hole: the largest inscribed cylinder, free axis.
-    result.mating_envelope = fit_cylinder_maximum_inscribed(points, free_axis);
-    // Related actual mating envelope, constrained in orientation to the nominal direction.
+    result.mating_envelope =
+        fit_cylinder_maximum_inscribed(points, from(free_axis, &BoreResult::mating_envelope));
+    // Related actual mating envelope, constrained in orientation to the nominal direction
+    // (from its own start: a circle in the plane across the held direction, found anew).
     if (want_related) result.related_envelope = fit_cylinder_maximum_inscribed(points, related);
     // Actual minimum material envelope of a hole: the smallest circumscribed cylinder.
     if (have_minimum_material)
-      result.minimum_material = fit_cylinder_minimum_circumscribed(points, free_axis);
+      result.minimum_material = fit_cylinder_minimum_circumscribed(
+          points, from(free_axis, &BoreResult::minimum_material));
     if (all || bore.cylindricity)
-      result.minimum_zone = fit_cylinder_minimum_zone(points, free_axis);
+      result.minimum_zone =
+          fit_cylinder_minimum_zone(points, from(free_axis, &BoreResult::minimum_zone));
   });
   take_warnings(warnings, "least-squares cylinder", result.least_squares.summary);
   take_warnings(warnings, "actual mating envelope", result.mating_envelope.summary);

@@ -181,6 +181,31 @@ ZoneStatus descend(ZoneModel& model, ZoneObjective objective, const ZoneOptions&
   delta = std::min(std::max(delta, 10.0 * length_tolerance), largest_radius);
   const Eigen::VectorXd no_step = Eigen::VectorXd::Zero(p);
 
+  // A start from an earlier fit of nearly the same points: Newton's method on the optimality
+  // conditions of its contacts (polish_on_contacts, which keeps the result only where the
+  // multipliers stay non-negative, no other point crosses the zone and the objective is no
+  // worse). Where they still hold, the element is the optimum already and the first programme
+  // below certifies it; where they changed, the descent goes on from the earlier element.
+  bool start_polished = false;
+  if (options.from_start && !options.start_contacts.empty()) {
+    std::vector<Constraint> contacts;
+    std::vector<double> weights;
+    for (const FitContact& c : options.start_contacts) {
+      const Side side = c.outer ? Side::upper : Side::lower;
+      if (c.point >= static_cast<std::size_t>(model.point_count()) ||
+          (side == Side::upper ? !uses_upper(objective) : !uses_lower(objective))) {
+        contacts.clear();  // not this problem's contacts: start from the element alone
+        break;
+      }
+      contacts.push_back({static_cast<Eigen::Index>(c.point), side});
+      weights.push_back(c.multiplier);
+    }
+    if (!contacts.empty()) {
+      programme.seed(contacts);
+      start_polished = polish_on_contacts(model, objective, contacts, weights, scale);
+    }
+  }
+
   Eigen::VectorXd trial;
   Eigen::MatrixXd g;
   model.evaluate(no_step, d, &g);
@@ -210,6 +235,9 @@ ZoneStatus descend(ZoneModel& model, ZoneObjective objective, const ZoneOptions&
       // trust region and the distance to the optimum.)
       const double rounding =
           16.0 * std::numeric_limits<double>::epsilon() * std::max(scale, d.cwiseAbs().maxCoeff());
+      if (options.from_start && iterations == 1)
+        summary.start = start_polished && s.predicted <= rounding ? StartOutcome::held
+                                                                  : StartOutcome::descended;
       if (s.predicted <= rounding) break;
       model.evaluate(s.step, trial, nullptr);
       const double f_trial = true_objective(objective, trial);
@@ -218,6 +246,14 @@ ZoneStatus descend(ZoneModel& model, ZoneObjective objective, const ZoneOptions&
       // Classical trust-region update (e.g. Nocedal & Wright, Numerical Optimization, ch. 4).
       if (ratio >= 0.01) {
         model.move(s.step);
+        // From an earlier element whose contacts changed, the first step is short and its
+        // programme's binding rows are likely the optimum's: Newton on them (kept only where
+        // valid, as above) lets the next programme certify the element instead of stepping
+        // again. Only for started fits, so a fit from its own start keeps its path.
+        if (options.from_start && iterations == 1 &&
+            polish_on_contacts(model, objective, programme.binding(), programme.multipliers(),
+                               scale))
+          summary.polished = true;
         model.evaluate(no_step, d, &g);
         f = true_objective(objective, d);
         programme_is_current = false;
@@ -559,8 +595,22 @@ ZoneSummary solve_zone(ZoneModel& model, ZoneObjective objective, const ZoneOpti
   bool polished = false;
   summary.status =
       descend(model, objective, options, programme, d, summary, summary.iterations, polished);
-  if (summary.status == ZoneStatus::converged && options.assess_ambiguity)
+  if (summary.status == ZoneStatus::converged) {
+    // The contacts of the descent's element, for a later fit of nearly the same points
+    // (FitSummary::contacts); dropped below if the exploration reports another element.
+    for (std::size_t k = 0; k < programme.binding().size(); ++k) {
+      const Constraint& c = programme.binding()[k];
+      summary.contacts.push_back({static_cast<std::size_t>(c.point), c.side == Side::upper,
+                                  programme.multipliers()[k]});
+    }
+  }
+  if (options.from_start && summary.start == StartOutcome::none)
+    summary.start = StartOutcome::descended;  // stopped before a first programme
+  if (summary.status == ZoneStatus::converged && options.assess_ambiguity) {
+    const Eigen::VectorXd descended = d;
     explore_optima(model, objective, options, programme, d, summary, polished);
+    if (d.size() != descended.size() || d != descended) summary.contacts.clear();
+  }
   summary.lp_fallbacks += programme.fallbacks();
   // The polish may have run earlier, but the message reports how the final element was found.
 
@@ -580,7 +630,12 @@ ZoneSummary solve_zone(ZoneModel& model, ZoneObjective objective, const ZoneOpti
                                    " linear programmes measured its ambiguity"
                              : "") +
                         (summary.ambiguity_failure.empty() ? "" : "; ambiguity not assessed") +
-                        (options.assess_ambiguity ? "" : "; uniqueness not assessed (off)");
+                        (options.assess_ambiguity ? "" : "; uniqueness not assessed (off)") +
+                        (summary.start == StartOutcome::held
+                             ? "; started from an earlier element, whose contacts held"
+                         : summary.start == StartOutcome::descended
+                             ? "; started from an earlier element"
+                             : "");
       break;
     case ZoneStatus::iteration_limit:
       summary.message = "stopped at the iteration limit of " +
@@ -604,6 +659,10 @@ ZoneOptions zone_options(const FitOptions& options, double scale, double start_f
   z.lp_solver = options.lp_solver;
   // The Chebyshev element lies within about the least-squares residual span of the start.
   z.initial_trust_radius = start_form > 0.0 ? start_form : 0.0;
+  if (options.start) {
+    z.from_start = true;
+    z.start_contacts = options.start->contacts;
+  }
   return z;
 }
 
@@ -625,6 +684,8 @@ FitSummary zone_fit_summary(FitMethod method, const ZoneSummary& zone, std::size
   s.point_count = point_count;
   s.message = zone.message;
   s.lp_fallbacks = zone.lp_fallbacks;
+  s.contacts = zone.contacts;
+  s.start = zone.start;
   return s;
 }
 

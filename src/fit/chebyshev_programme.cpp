@@ -290,6 +290,19 @@ void ZoneProgramme::add_violated_rows(ClpSimplex& lp, const Eigen::VectorXd& d,
   }
 }
 
+void ZoneProgramme::seed(const std::vector<Constraint>& contacts) {
+  binding_ = contacts;
+  multipliers_.assign(contacts.size(), 0.0);
+  dense_basis_.clear();
+  if (static_cast<int>(contacts.size()) != columns_) return;
+  for (const Constraint& c : contacts) {
+    BasisEntry e;
+    e.row = true;
+    e.constraint = c;
+    dense_basis_.push_back(e);
+  }
+}
+
 LinearStep ZoneProgramme::solve(const Eigen::VectorXd& d, const Eigen::MatrixXd& g,
                                 double delta) {
   if (options_.lp_solver == LpSolver::dense) {

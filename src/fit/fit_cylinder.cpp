@@ -499,6 +499,46 @@ CylinderFit fit_free_axis(const Eigen::Matrix3Xd& points, const Eigen::Matrix3Xd
         2.0 * std::sqrt(3.0) * axes.rms(0),
         radius_in_plane(screen, centroid, axes.directions.col(0))));
 
+  if (options.start) {
+    // From an earlier fit of nearly the same points: Gauss-Newton from its axis and radius on
+    // all points, to the same convergence test; the screening of several starting axes below
+    // is what it saves. Where that does not converge to a cylinder, the screening decides.
+    try {
+      AxisState start;
+      start.direction = detail::canonical_direction(
+          detail::checked_direction(options.start->axis.direction, "start axis"),
+          options.axis_hint);
+      start.point = options.start->axis.point - centroid;
+      start.point -= start.point.dot(start.direction) * start.direction;
+      start.radius = options.start->radius;
+      GaussNewtonRun run = refine(points, centroid, start, scale, options);
+      if (run.outcome.status == FitStatus::converged && run.state.radius > 0.0 &&
+          std::isfinite(run.outcome.ssr)) {
+        require_axial_spread(screen, run.state, centroid, axes.rms(0),
+                             screened ? run.outcome.ssr * static_cast<double>(screen.cols()) /
+                                            static_cast<double>(points.cols())
+                                      : run.outcome.ssr);
+        CylinderFit fit =
+            make_result(points, centroid, run.state, run.outcome.normal_matrix, options);
+        fit.summary.status = run.outcome.status;
+        fit.summary.iterations = run.outcome.iterations;
+        fit.summary.start = StartOutcome::held;
+        fit.summary.message =
+            detail::iteration_message(run.outcome.status, run.outcome.iterations, options) +
+            " (started from an earlier fit)";
+        detail::warn_on_coverage(fit.summary, fit.angular_coverage_deg, options);
+        return fit;
+      }
+    } catch (const FitError&) {
+      // the screening below decides (and raises the error if the points cannot fix a cylinder)
+    }
+    FitOptions own = options;
+    own.start.reset();
+    CylinderFit fit = fit_free_axis(points, vectors, own);
+    fit.summary.start = StartOutcome::restarted;
+    return fit;
+  }
+
   std::vector<Eigen::Vector3d> directions = {axes.directions.col(2), axes.directions.col(1),
                                              axes.directions.col(0)};
   if (options.axis_hint) directions.push_back(detail::checked_direction(*options.axis_hint, "axis hint"));
@@ -618,6 +658,17 @@ CylinderFit fit_fixed_direction(const Eigen::Matrix3Xd& points, const FitOptions
 }
 
 }  // namespace
+
+FitStart fit_start(const CylinderFit& fit) {
+  FitStart start;
+  start.axis = fit.axis;
+  start.radius = fit.radius;
+  start.form = fit.residuals.form;
+  start.angular_coverage_deg = fit.angular_coverage_deg;
+  start.point_count = fit.summary.point_count;
+  start.contacts = fit.summary.contacts;
+  return start;
+}
 
 CylinderFit fit_cylinder_least_squares(const Eigen::Matrix3Xd& points, const FitOptions& options) {
   if (options.fixed_direction) return fit_fixed_direction(points, options);

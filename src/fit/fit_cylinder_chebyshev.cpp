@@ -34,6 +34,27 @@ CylinderFit cylinder_result(const Eigen::Matrix3Xd& points, const Axis& axis,
   return fit;
 }
 
+/// The options of a fit from its own start, after a start (FitOptions::start) failed to lead to
+/// a certified optimum: FitSummary::start says so.
+FitOptions own_start(const FitOptions& options) {
+  FitOptions own = options;
+  own.start.reset();
+  return own;
+}
+
+/// The zone options of a fit from an earlier element (FitOptions::start): its residual span as
+/// the first trust region (the optimum moved about as far as the points did), its contacts
+/// where the earlier fit had these points.
+detail::ZoneOptions started_zone_options(const FitOptions& options, double scale,
+                                         Eigen::Index point_count) {
+  detail::ZoneOptions z = detail::zone_options(options, scale, options.start->form);
+  if (options.start->point_count != static_cast<std::size_t>(point_count)) z.start_contacts.clear();
+  return z;
+}
+
+CylinderFit restarted(const Eigen::Matrix3Xd& points, const FitOptions& options,
+                      FitMethod method);
+
 // The axis is held: distances from it are the in-plane distances of the projections, so the
 // fit is a circle fit in the plane perpendicular to the direction.
 CylinderFit fit_fixed_direction(const Eigen::Matrix3Xd& points, const FitOptions& options,
@@ -44,6 +65,21 @@ CylinderFit fit_fixed_direction(const Eigen::Matrix3Xd& points, const FitOptions
   const Eigen::Vector3d c = detail::centroid(points);
   const Eigen::Matrix3d basis = detail::basis_from_direction(direction);
   Eigen::Matrix2Xd uv = detail::planar_coordinates(points, c, basis);
+  if (options.start && points.cols() >= 3 && detail::planar_scale(uv) > 0.0) {
+    // From the earlier axis's centre in this plane; no least-squares circle first.
+    const Eigen::Vector2d centre = basis.leftCols<2>().transpose() * (options.start->axis.point - c);
+    detail::ZoneOptions zone_options =
+        started_zone_options(options, detail::planar_scale(uv), points.cols());
+    if (objective == detail::ZoneObjective::maximum_inscribed)
+      zone_options.location_limit = zone_options.scale;
+    detail::require_enclosing_points(objective, "cylinder", options.start->angular_coverage_deg);
+    detail::CircleZoneModel model(uv, centre);
+    const detail::ZoneSummary zone = detail::solve_zone(model, objective, zone_options);
+    // Only a converged descent carries the certificate; otherwise the fit's own start decides.
+    if (zone.status != detail::ZoneStatus::converged) return restarted(points, options, method);
+    return cylinder_result(points, Axis{c + basis.leftCols<2>() * model.centre(), direction},
+                           zone, method, options);
+  }
   const detail::Circle2dFit start = detail::fit_circle_2d_least_squares(uv, options);
   const Eigen::ArrayXd start_residuals =
       (uv.colwise() - start.centre).colwise().norm().array() - start.radius;
@@ -66,6 +102,26 @@ CylinderFit fit_fixed_direction(const Eigen::Matrix3Xd& points, const FitOptions
 CylinderFit fit_cylinder_chebyshev(const Eigen::Matrix3Xd& points, const FitOptions& options,
                                    FitMethod method) {
   if (options.fixed_direction) return fit_fixed_direction(points, options, method);
+  if (options.start && points.cols() >= 5) {
+    // From the earlier axis; no least-squares cylinder first (its multi-start search is the
+    // larger part of a small fit's cost). Points that could not fix a cylinder (coincident, or
+    // in one cross-section: the least-squares start's checks) go to the fit's own start, which
+    // refuses them with the reason.
+    const Eigen::Vector3d c = detail::centroid(points);
+    const double scale = detail::data_scale(points, c);
+    const detail::PrincipalAxes axes = detail::principal_axes(points, c);
+    if (!(scale > 0.0) || axes.rms(0) <= detail::degenerate_spread_ratio * axes.rms(2))
+      return restarted(points, options, method);
+    const detail::ZoneObjective objective = detail::zone_objective(method);
+    detail::ZoneOptions zone_options = started_zone_options(options, scale, points.cols());
+    if (objective == detail::ZoneObjective::maximum_inscribed) zone_options.location_limit = scale;
+    detail::require_enclosing_points(objective, "cylinder", options.start->angular_coverage_deg);
+    detail::AxisZoneModel model(points, options.start->axis);
+    const detail::ZoneSummary zone = detail::solve_zone(model, objective, zone_options);
+    // Only a converged descent carries the certificate; otherwise the fit's own start decides.
+    if (zone.status != detail::ZoneStatus::converged) return restarted(points, options, method);
+    return cylinder_result(points, model.axis(), zone, method, options);
+  }
   // The least-squares cylinder checks the points (count, one cross-section) and is the start.
   const CylinderFit start = fit_cylinder_least_squares(points, options);
   const detail::ZoneObjective objective = detail::zone_objective(method);
@@ -81,6 +137,13 @@ CylinderFit fit_cylinder_chebyshev(const Eigen::Matrix3Xd& points, const FitOpti
   if (zone.status == detail::ZoneStatus::unbounded)
     detail::throw_unbounded_inscribed("cylinder", start.angular_coverage_deg);
   return cylinder_result(points, model.axis(), zone, method, options);
+}
+
+CylinderFit restarted(const Eigen::Matrix3Xd& points, const FitOptions& options,
+                      FitMethod method) {
+  CylinderFit fit = fit_cylinder_chebyshev(points, own_start(options), method);
+  fit.summary.start = StartOutcome::restarted;
+  return fit;
 }
 
 }  // namespace

@@ -43,4 +43,13 @@ PlaneFit fit_plane_least_squares(const Eigen::Matrix3Xd& points, const FitOption
   return fit;
 }
 
+FitStart fit_start(const PlaneFit& fit) {
+  FitStart start;
+  start.axis = Axis{fit.point, fit.normal};
+  start.form = fit.residuals.form;
+  start.point_count = fit.summary.point_count;
+  start.contacts = fit.summary.contacts;
+  return start;
+}
+
 }  // namespace cylzone

@@ -13,13 +13,28 @@
 namespace cylzone {
 
 PlaneFit fit_plane_minimum_zone(const Eigen::Matrix3Xd& points, const FitOptions& options) {
-  // The least-squares plane checks the points (count, collinearity) and is the start.
+  // The least-squares plane checks the points (count, collinearity) and is the start, unless
+  // an earlier fit's plane is given (FitOptions::start): then only its checks are used, and the
+  // zone starts from the earlier normal, its flatness as the first trust region and its
+  // contacts (docs/chebyshev.md). A start that does not lead to a converged descent (the same
+  // certificate) is abandoned for the least-squares one.
   const PlaneFit start = fit_plane_least_squares(points, options);
-  detail::PlaneZoneModel model(points, start.normal);
+  const bool started = options.start.has_value();
+  detail::PlaneZoneModel model(points, started ? options.start->axis.direction : start.normal);
   const double scale = detail::data_scale(points, model.centroid());
+  detail::ZoneOptions zone_options = detail::zone_options(
+      options, scale, started ? options.start->form : start.residuals.form);
+  if (started && options.start->point_count != static_cast<std::size_t>(points.cols()))
+    zone_options.start_contacts.clear();
   const detail::ZoneSummary zone =
-      detail::solve_zone(model, detail::ZoneObjective::minimum_zone,
-                         detail::zone_options(options, scale, start.residuals.form));
+      detail::solve_zone(model, detail::ZoneObjective::minimum_zone, zone_options);
+  if (started && zone.status != detail::ZoneStatus::converged) {
+    FitOptions own = options;
+    own.start.reset();
+    PlaneFit fit = fit_plane_minimum_zone(points, own);
+    fit.summary.start = StartOutcome::restarted;
+    return fit;
+  }
 
   // The reported plane is the mid-plane of the zone; its point is the centroid projected on it.
   const double mid = 0.5 * (zone.distances.maxCoeff() + zone.distances.minCoeff());

@@ -753,7 +753,7 @@ void uncertainty_section(std::ostream& out, const ReportModel& m) {
                               : std::string())
       << "</td></tr><tr><th>Chebyshev fits</th><td>" << s.chebyshev_fits
       << " in the trials, on the dense solver; " << s.lp_fallbacks
-      << " of their linear programmes fell back to Clp"
+      << " of their linear programmes fell back to Clp; " << esc(warm_start_text(s))
       << "</td></tr><tr><th>seed</th><td>" << s.seed << "</td></tr>"
       << "<tr><th>status</th><td>" << esc(monte_carlo_status_name(s.status)) << ": "
       << esc(s.message) << "</td></tr>"

@@ -670,6 +670,9 @@ json uncertainty_json(const MonteCarloSummary& s, const ReportModel& m) {
           {"failed_trials", s.failed_trials},
           {"chebyshev_fits", s.chebyshev_fits},
           {"lp_fallbacks", s.lp_fallbacks},
+          {"warm_fits", s.warm_fits},
+          {"warm_descents", s.warm_descents},
+          {"warm_restarts", s.warm_restarts},
           {"characteristics", characteristics},
           {"warnings", s.warnings},
           {"caution", std::string(safety_caution)}};
@@ -867,6 +870,10 @@ MonteCarloSummary read_uncertainty(const ReportReader& in, const json& o, const 
   // Reports written before these counts existed leave them at 0.
   if (o.contains("chebyshev_fits")) s.chebyshev_fits = in.count(o, path, "chebyshev_fits");
   if (o.contains("lp_fallbacks")) s.lp_fallbacks = in.count(o, path, "lp_fallbacks");
+  for (const auto& [key, count] : {std::pair{"warm_fits", &s.warm_fits},
+                                   std::pair{"warm_descents", &s.warm_descents},
+                                   std::pair{"warm_restarts", &s.warm_restarts}})
+    if (o.contains(key)) *count = in.count(o, path, key);
   const json& characteristics = in.key(o, path, "characteristics");
   if (!characteristics.is_object()) in.fail(path + ".characteristics", "expected an object");
   std::vector<std::string> ids;

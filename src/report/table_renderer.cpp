@@ -354,7 +354,7 @@ void uncertainty_lines(std::ostream& out, const ReportModel& m, std::size_t widt
   out << wrapped("  ", std::to_string(s.chebyshev_fits) +
                            " Chebyshev fits in the trials on the dense solver; " +
                            std::to_string(s.lp_fallbacks) +
-                           " of their linear programmes fell back to Clp",
+                           " of their linear programmes fell back to Clp; " + warm_start_text(s),
                  width, 4);
   out << pad("id", 28) << pad_left("value", w) << pad_left("u", w) << pad_left("low", w)
       << pad_left("high", w) << pad_left("ambiguity", w + 1) << '\n';

@@ -87,6 +87,14 @@ std::string_view monte_carlo_status_name(MonteCarloStatus status) noexcept {
   return "failed";
 }
 
+std::string warm_start_text(const MonteCarloSummary& s) {
+  if (s.warm_fits == 0) return "every fit of the trials from its own start";
+  return std::to_string(s.warm_fits) + " fits of the trials started from the unperturbed ones: " +
+         std::to_string(s.warm_descents) +
+         " Chebyshev fits descended from there (their contacts changed), " +
+         std::to_string(s.warm_restarts) + " solved again from their own start";
+}
+
 EvaluationProfile lean_profile() {
   EvaluationProfile profile;
   profile.ambiguity = false;
@@ -98,25 +106,35 @@ EvaluationProfile lean_profile() {
 
 namespace {
 
+/// What the trials' fits did (summed per worker, then over workers: integers, so the same for
+/// any thread count).
+struct FitCounts {
+  std::size_t chebyshev = 0, lp_fallbacks = 0;       // MonteCarloSummary::chebyshev_fits, ...
+  std::size_t warm = 0, descents = 0, restarts = 0;  // MonteCarloSummary::warm_fits, ...
+};
+
 /// The Chebyshev fits an evaluation ran (the bores' envelopes and minimum zones and the datum
 /// features' fits other than least squares) and their programmes solved by Clp after the dense
-/// solver failed (FitSummary::lp_fallbacks).
-std::pair<std::size_t, std::size_t> chebyshev_fit_counts(const PartEvaluation& e) {
-  std::size_t fits = 0, fallbacks = 0;
+/// solver failed (FitSummary::lp_fallbacks); the fits started from the unperturbed ones and
+/// how (FitSummary::start).
+void count_fits(const PartEvaluation& e, FitCounts& counts) {
   const auto add = [&](const FitSummary& s) {
-    if (s.point_count == 0 || s.method == FitMethod::least_squares) return;
-    ++fits;
-    fallbacks += static_cast<std::size_t>(std::max(0, s.lp_fallbacks));
+    if (s.point_count == 0) return;
+    counts.warm += s.start != StartOutcome::none ? 1 : 0;
+    counts.descents += s.start == StartOutcome::descended ? 1 : 0;
+    counts.restarts += s.start == StartOutcome::restarted ? 1 : 0;
+    if (s.method == FitMethod::least_squares) return;
+    ++counts.chebyshev;
+    counts.lp_fallbacks += static_cast<std::size_t>(std::max(0, s.lp_fallbacks));
   };
   for (const BoreResult& b : e.bores)
-    for (const CylinderFit* f :
-         {&b.mating_envelope, &b.related_envelope, &b.minimum_material, &b.minimum_zone})
+    for (const CylinderFit* f : {&b.least_squares, &b.mating_envelope, &b.related_envelope,
+                                 &b.minimum_material, &b.minimum_zone})
       add(f->summary);
   add(e.datums.a.plane.summary);
   for (const auto* d : {&e.datums.b, &e.datums.c_feature})
     if (*d) add((*d)->related_envelope.summary);
   if (e.datums.c_plane) add(e.datums.c_plane->plane.summary);
-  return {fits, fallbacks};
 }
 
 }  // namespace
@@ -576,11 +594,12 @@ MonteCarloSummary monte_carlo_uncertainty(const PartPlan& plan, const PartInputs
   const bool two_point = lean.profile.two_point_sizes;
   lean.profile = lean_profile();
   lean.profile.two_point_sizes = two_point;
+  // Every trial's fits start from the unperturbed evaluation's (read only, shared by the
+  // workers): fewer iterations to the same optima (docs/uncertainty.md, "Speed").
+  if (options.warm_start) lean.start = &nominal;
 
-  // Per worker: the trials' Chebyshev fits and the dense solver's fall-backs to Clp (summed
-  // after the loop; integers, so the sums are the same for any thread count).
-  std::vector<std::pair<std::size_t, std::size_t>> fit_counts(
-      std::max<std::size_t>(1, options.threads), {0, 0});
+  // Per worker: what the trials' fits did (FitCounts).
+  std::vector<FitCounts> fit_counts(std::max<std::size_t>(1, options.threads));
   // One perturbed copy of the inputs per worker, made once: a trial overwrites its points in
   // place from the unperturbed ones (no cloud is allocated per trial); and one buffer of normal
   // deviates per worker, as long as the largest cloud's 3 n.
@@ -624,9 +643,7 @@ MonteCarloSummary monte_carlo_uncertainty(const PartPlan& plan, const PartInputs
     } catch (const std::exception&) {
       return;  // every output stays NaN: the trial is counted as failed
     }
-    const auto [fits, fallbacks] = chebyshev_fit_counts(e);
-    fit_counts[worker].first += fits;
-    fit_counts[worker].second += fallbacks;
+    count_fits(e, fit_counts[worker]);
     std::size_t current = std::numeric_limits<std::size_t>::max();
     std::vector<Characteristic> rows;
     for (std::size_t o = 0; o < outputs.size(); ++o) {
@@ -643,9 +660,12 @@ MonteCarloSummary monte_carlo_uncertainty(const PartPlan& plan, const PartInputs
   std::vector<std::size_t> failed;
   const std::vector<OutputStatistics> stats =
       propagate_indexed(outputs.size(), trial, options, summary, &failed);
-  for (const auto& [fits, fallbacks] : fit_counts) {
-    summary.chebyshev_fits += fits;
-    summary.lp_fallbacks += fallbacks;
+  for (const FitCounts& c : fit_counts) {
+    summary.chebyshev_fits += c.chebyshev;
+    summary.lp_fallbacks += c.lp_fallbacks;
+    summary.warm_fits += c.warm;
+    summary.warm_descents += c.descents;
+    summary.warm_restarts += c.restarts;
   }
 
   for (std::size_t o = 0; o < outputs.size(); ++o) {

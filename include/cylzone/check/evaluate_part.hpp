@@ -40,6 +40,8 @@ struct EvaluationProfile {
   bool unread_results = true;
 };
 
+struct PartEvaluation;
+
 struct EvaluationOptions {
   /// Fits, sections and the stray-point screen's parameters, for datums and bores alike. Its
   /// `fit.threads`, `fit.assess_ambiguity`, `two_point_sizes`, `stray_screen` and
@@ -50,6 +52,12 @@ struct EvaluationOptions {
   /// The one thread option: every parallel loop of the evaluation (across bores, inside the
   /// fits, in the screen) runs on at most this many threads. Results do not depend on it.
   std::size_t threads = hardware_threads();
+  /// An evaluation of the same plan on nearly the same points (a Monte Carlo study's
+  /// unperturbed one), or null: every bore's cylinder fits start from that evaluation's
+  /// (BoreInput::start, FitOptions::start). The same figures to the fits' tolerance, fewer
+  /// iterations. Borrowed: it must outlive the call; read only, so callers on several threads
+  /// may share it.
+  const PartEvaluation* start = nullptr;
 };
 
 /// What the prepare stage did to one feature's points (prepare.hpp): compensation, removed

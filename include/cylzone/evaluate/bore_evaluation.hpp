@@ -268,6 +268,10 @@ struct BoreEvaluationOptions {
 struct BoreInput {
   const PlanBore& plan;
   const PreparedFeature& prepared;
+  /// The same bore's evaluation on nearly the same points (a Monte Carlo study's unperturbed
+  /// one), or null: each cylinder fit then starts from its counterpart there
+  /// (FitOptions::start), which changes the iterations, not the figures. Borrowed.
+  const BoreResult* start = nullptr;
 };
 
 /// Evaluates one prepared bore; the prepare record's suspect points are checked against the

@@ -62,4 +62,13 @@ CylinderFit fit_cylinder_maximum_inscribed(const Eigen::Matrix3Xd& points,
 CylinderFit fit_cylinder_minimum_circumscribed(const Eigen::Matrix3Xd& points,
                                                const FitOptions& options = {});
 
+/// The start a later fit of the same feature on nearly the same points takes from `fit`
+/// (FitOptions::start): its axis, radius, residual span, point count and contacts. With a
+/// start, the least-squares cylinder (free axis) iterates from it alone instead of screening
+/// several starting axes, and a Chebyshev cylinder (free or held direction) skips its
+/// least-squares start and first tries Newton's method on the earlier contacts; both end on
+/// their usual convergence test or optimality certificate and fall back to their own start
+/// otherwise (FitSummary::start says which happened).
+FitStart fit_start(const CylinderFit& fit);
+
 }  // namespace cylzone

@@ -24,4 +24,10 @@ PlaneFit fit_plane_least_squares(const Eigen::Matrix3Xd& points, const FitOption
 /// Chebyshev plane; starts from the least-squares plane.
 PlaneFit fit_plane_minimum_zone(const Eigen::Matrix3Xd& points, const FitOptions& options = {});
 
+/// The start a later minimum-zone fit of nearly the same points takes from `fit`
+/// (FitOptions::start): its point and normal, flatness, point count and contacts. The
+/// minimum-zone plane then starts from that normal and first tries Newton's method on the
+/// earlier contacts (fit_cylinder.hpp's fit_start says the same for cylinders).
+FitStart fit_start(const PlaneFit& fit);
+
 }  // namespace cylzone

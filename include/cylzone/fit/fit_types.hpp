@@ -66,6 +66,49 @@ enum class LpSolver {
          ///< a programme it cannot solve is solved by Clp (FitSummary::lp_fallbacks)
 };
 
+/// A straight line in space: a point on it and a unit direction.
+struct Axis {
+  Eigen::Vector3d point = Eigen::Vector3d::Zero();
+  Eigen::Vector3d direction = Eigen::Vector3d::UnitZ();
+};
+
+/// A point an optimum rests on: a binding constraint of a Chebyshev fit's final linear
+/// programme (docs/chebyshev.md).
+struct FitContact {
+  std::size_t point = 0;    ///< column of the points
+  bool outer = true;        ///< on the largest-distance side of the zone (else the smallest)
+  double multiplier = 0.0;  ///< its optimality (Lagrange) multiplier; they sum to 1 per side
+};
+
+/// Where a fit starts (FitOptions::start): an earlier fit of the same feature on nearly the
+/// same points, e.g. the unperturbed evaluation a Monte Carlo trial perturbs. A start changes
+/// the path, never the answer: the fit ends on the same convergence test (least squares) or the
+/// same optimality certificate (Chebyshev fits: the linear programme at the element predicts no
+/// improvement) as from its own start, and falls back to its own start whenever the earlier
+/// element does not lead there (FitSummary::start). Make one with fit_start() of the element.
+struct FitStart {
+  Axis axis;                  ///< cylinders and lines: the axis; planes: a point and the normal
+  double radius = 0.0;        ///< cylinders: the radius (least squares starts from it)
+  double form = 0.0;          ///< the residual span: a Chebyshev fit's first trust region
+  /// Degrees of arc the points cover about the axis: a maximum-inscribed cylinder from this
+  /// start refuses, as from its own, when below 180 (require_enclosing_points).
+  double angular_coverage_deg = 360.0;
+  std::size_t point_count = 0;  ///< the earlier fit's points: contacts are used only if equal
+  /// Chebyshev fits: the earlier optimum's contacts (FitSummary::contacts). Newton's method on
+  /// their optimality conditions places the element at once when they still hold.
+  std::vector<FitContact> contacts;
+};
+
+/// How a fit given FitOptions::start ran (FitSummary::start).
+enum class StartOutcome {
+  none,        ///< no start was given: the fit's own start
+  held,        ///< least squares: converged from the start; Chebyshev: the earlier contacts
+               ///< held (Newton on them gave the element the first linear programme certified)
+  descended,   ///< Chebyshev: the contacts changed; the linear programmes descended from the
+               ///< earlier element to the certified optimum
+  restarted    ///< the start did not lead to a certified optimum: solved from the fit's own start
+};
+
 struct FitOptions {
   int max_iterations = 100;
   /// Convergence when a parameter step is below this fraction of the data's size (its largest
@@ -93,6 +136,12 @@ struct FitOptions {
   std::size_t threads = hardware_threads();
   /// Chebyshev fits: the linear programmes' solver. Repeated trials (Monte Carlo) use `dense`.
   LpSolver lp_solver = LpSolver::clp;
+  /// Start from an earlier fit of the same feature (FitStart): the same answer, fewer
+  /// iterations. Used whole by cylinders (least squares with a free axis, the Chebyshev
+  /// cylinders) and the minimum-zone plane; the other Chebyshev fits (circles, lines) keep
+  /// their own start and only try its contacts first; least-squares fits other than the
+  /// cylinder ignore it. Empty: the fit's own start.
+  std::optional<FitStart> start;
 };
 
 /// Ceres-style summary: what happened, in one line, plus warnings a user must see.
@@ -106,18 +155,19 @@ struct FitSummary {
   /// Chebyshev fits with LpSolver::dense: linear programmes the dense solver reported it could
   /// not solve, which Clp then solved (0 otherwise).
   int lp_fallbacks = 0;
+  /// Chebyshev fits: the points the optimum rests on (the final linear programme's binding
+  /// constraints), when the element is the descent's own (empty after a tie-break among equally
+  /// good elements, and for least squares). A later fit of nearly the same points starts from
+  /// them (FitStart::contacts).
+  std::vector<FitContact> contacts;
+  /// How FitOptions::start served, if one was given.
+  StartOutcome start = StartOutcome::none;
 };
 
 struct Residuals {
   Eigen::VectorXd values;  ///< one per point, in the cloud's order
   double rms = 0.0;
   double form = 0.0;       ///< see file comment
-};
-
-/// A straight line in space: a point on it and a unit direction.
-struct Axis {
-  Eigen::Vector3d point = Eigen::Vector3d::Zero();
-  Eigen::Vector3d direction = Eigen::Vector3d::UnitZ();
 };
 
 /// Parameter covariance of a least-squares fit, sigma^2 (J^T J)^-1 with sigma^2 = SSR / (n - p),

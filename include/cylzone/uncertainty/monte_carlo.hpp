@@ -120,6 +120,10 @@ struct MonteCarloOptions {
   /// profile (lean_profile). Its `threads` is ignored: `threads` below bounds everything.
   EvaluationOptions evaluation;
   std::size_t threads = hardware_threads();
+  /// Each trial's bore fits start from the unperturbed evaluation's (EvaluationOptions::start):
+  /// the same figures to the fits' tolerance (about 1e-12 mm), fewer iterations
+  /// (docs/uncertainty.md, "Speed"). Off: every fit from its own start.
+  bool warm_start = true;
 };
 
 /// The profile a trial runs with: no ambiguity walks (the element is the first optimum reached,
@@ -212,9 +216,21 @@ struct MonteCarloSummary {
   /// programmes of those fits the dense solver could not solve, solved by Clp instead.
   std::size_t chebyshev_fits = 0;
   std::size_t lp_fallbacks = 0;
+  /// With MonteCarloOptions::warm_start, the trials' fits started from the unperturbed ones
+  /// (FitSummary::start): `warm_fits` in all; `warm_descents` Chebyshev fits whose contacts
+  /// changed, so that their linear programmes descended from the unperturbed element;
+  /// `warm_restarts` fits solved again from their own start because the unperturbed element
+  /// did not lead to a certified optimum (the full solve).
+  std::size_t warm_fits = 0;
+  std::size_t warm_descents = 0;
+  std::size_t warm_restarts = 0;
   std::vector<CharacteristicUncertainty> characteristics;  ///< in the check's order
   std::vector<std::string> warnings;
 };
+/// One line on how the trials' fits were started (MonteCarloSummary::warm_fits, ...), for the
+/// reports: "3200 fits started from the unperturbed ones: 1800 Chebyshev fits descended from
+/// there (their contacts changed), 0 solved again from their own start", or that none was.
+std::string warm_start_text(const MonteCarloSummary& summary);
 
 /// The whole-chain Monte Carlo study of a part: the unperturbed evaluation (options.evaluation,
 /// full profile) gives the values and the ambiguities, then each trial perturbs `inputs`,

@@ -260,6 +260,13 @@ struct ZoneOptions {
   LpSolver lp_solver = LpSolver::clp;
   /// Iterations per dense programme; 0 picks 50 + 4 x its constraints (a guard, not a tuning).
   int dense_iteration_limit = 0;
+  /// The model's element is an earlier fit's (FitOptions::start): ZoneSummary::start says how
+  /// it served. `start_contacts` are that fit's contacts (indices into this model's points):
+  /// Newton's method on their optimality conditions is tried before the first linear
+  /// programme, which then certifies the element when they still hold; they also seed the
+  /// first working set and the dense solver's first basis.
+  bool from_start = false;
+  std::vector<FitContact> start_contacts;
 };
 
 enum class ZoneStatus { converged, iteration_limit, unbounded };
@@ -288,6 +295,12 @@ struct ZoneSummary {
   bool tie_broken = false;
   /// Linear programmes the dense solver failed on and Clp solved (ZoneOptions::lp_solver).
   int lp_fallbacks = 0;
+  /// The final linear programme's binding rows (the contacts) when the returned element is the
+  /// descent's own; empty after a tie-break moved it, and unless converged.
+  std::vector<FitContact> contacts;
+  /// With ZoneOptions::from_start: held (the start contacts gave the element the first
+  /// programme certified) or descended; `none` otherwise.
+  StartOutcome start = StartOutcome::none;
 };
 
 /// Runs the sequential linear programme from the model's current element; on return the model

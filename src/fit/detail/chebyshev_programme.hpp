@@ -74,6 +74,11 @@ class ZoneProgramme {
   /// (ZoneOptions::lp_solver == dense only).
   int fallbacks() const noexcept { return fallbacks_; }
 
+  /// Before the first solve: an earlier optimum's contacts, likely binding again. They join the
+  /// first working set, and when they fill a basis (one per column) they are the dense
+  /// solver's first basis, used if dual feasible (else its usual first basis).
+  void seed(const std::vector<Constraint>& contacts);
+
   /// Rows binding at the last solution, and their multipliers (|dual|; they sum to 1 per side).
   const std::vector<Constraint>& binding() const noexcept { return binding_; }
   const std::vector<double>& multipliers() const noexcept { return multipliers_; }
