@@ -18,6 +18,18 @@
 
 namespace cylzone::detail {
 
+/// A fit again from its own start, after an earlier fit's (FitOptions::start) did not lead to
+/// its convergence test or certificate: `fit(options without the start)`, its summary marked
+/// StartOutcome::restarted.
+template <class Fit>
+auto fit_from_own_start(const FitOptions& options, Fit&& fit) {
+  FitOptions own = options;
+  own.start.reset();
+  auto result = fit(own);
+  result.summary.start = StartOutcome::restarted;
+  return result;
+}
+
 /// Mean of the columns. Throws FitError on an empty set.
 Eigen::Vector3d centroid(const Eigen::Matrix3Xd& points);
 

@@ -666,6 +666,13 @@ ZoneOptions zone_options(const FitOptions& options, double scale, double start_f
   return z;
 }
 
+ZoneOptions started_zone_options(const FitOptions& options, double scale,
+                                 Eigen::Index point_count) {
+  ZoneOptions z = zone_options(options, scale, options.start->form);
+  if (options.start->point_count != static_cast<std::size_t>(point_count)) z.start_contacts.clear();
+  return z;
+}
+
 double zone_radius(ZoneObjective objective, const Eigen::VectorXd& distances) {
   switch (objective) {
     case ZoneObjective::minimum_zone: return 0.5 * (distances.minCoeff() + distances.maxCoeff());

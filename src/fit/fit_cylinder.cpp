@@ -532,11 +532,8 @@ CylinderFit fit_free_axis(const Eigen::Matrix3Xd& points, const Eigen::Matrix3Xd
     } catch (const FitError&) {
       // the screening below decides (and raises the error if the points cannot fix a cylinder)
     }
-    FitOptions own = options;
-    own.start.reset();
-    CylinderFit fit = fit_free_axis(points, vectors, own);
-    fit.summary.start = StartOutcome::restarted;
-    return fit;
+    return detail::fit_from_own_start(
+        options, [&](const FitOptions& own) { return fit_free_axis(points, vectors, own); });
   }
 
   std::vector<Eigen::Vector3d> directions = {axes.directions.col(2), axes.directions.col(1),

@@ -34,24 +34,6 @@ CylinderFit cylinder_result(const Eigen::Matrix3Xd& points, const Axis& axis,
   return fit;
 }
 
-/// The options of a fit from its own start, after a start (FitOptions::start) failed to lead to
-/// a certified optimum: FitSummary::start says so.
-FitOptions own_start(const FitOptions& options) {
-  FitOptions own = options;
-  own.start.reset();
-  return own;
-}
-
-/// The zone options of a fit from an earlier element (FitOptions::start): its residual span as
-/// the first trust region (the optimum moved about as far as the points did), its contacts
-/// where the earlier fit had these points.
-detail::ZoneOptions started_zone_options(const FitOptions& options, double scale,
-                                         Eigen::Index point_count) {
-  detail::ZoneOptions z = detail::zone_options(options, scale, options.start->form);
-  if (options.start->point_count != static_cast<std::size_t>(point_count)) z.start_contacts.clear();
-  return z;
-}
-
 CylinderFit restarted(const Eigen::Matrix3Xd& points, const FitOptions& options,
                       FitMethod method);
 
@@ -69,7 +51,7 @@ CylinderFit fit_fixed_direction(const Eigen::Matrix3Xd& points, const FitOptions
     // From the earlier axis's centre in this plane; no least-squares circle first.
     const Eigen::Vector2d centre = basis.leftCols<2>().transpose() * (options.start->axis.point - c);
     detail::ZoneOptions zone_options =
-        started_zone_options(options, detail::planar_scale(uv), points.cols());
+        detail::started_zone_options(options, detail::planar_scale(uv), points.cols());
     if (objective == detail::ZoneObjective::maximum_inscribed)
       zone_options.location_limit = zone_options.scale;
     detail::require_enclosing_points(objective, "cylinder", options.start->angular_coverage_deg);
@@ -113,7 +95,8 @@ CylinderFit fit_cylinder_chebyshev(const Eigen::Matrix3Xd& points, const FitOpti
     if (!(scale > 0.0) || axes.rms(0) <= detail::degenerate_spread_ratio * axes.rms(2))
       return restarted(points, options, method);
     const detail::ZoneObjective objective = detail::zone_objective(method);
-    detail::ZoneOptions zone_options = started_zone_options(options, scale, points.cols());
+    detail::ZoneOptions zone_options =
+        detail::started_zone_options(options, scale, points.cols());
     if (objective == detail::ZoneObjective::maximum_inscribed) zone_options.location_limit = scale;
     detail::require_enclosing_points(objective, "cylinder", options.start->angular_coverage_deg);
     detail::AxisZoneModel model(points, options.start->axis);
@@ -141,9 +124,9 @@ CylinderFit fit_cylinder_chebyshev(const Eigen::Matrix3Xd& points, const FitOpti
 
 CylinderFit restarted(const Eigen::Matrix3Xd& points, const FitOptions& options,
                       FitMethod method) {
-  CylinderFit fit = fit_cylinder_chebyshev(points, own_start(options), method);
-  fit.summary.start = StartOutcome::restarted;
-  return fit;
+  return detail::fit_from_own_start(options, [&](const FitOptions& own) {
+    return fit_cylinder_chebyshev(points, own, method);
+  });
 }
 
 }  // namespace

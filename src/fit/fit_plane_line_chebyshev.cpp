@@ -22,19 +22,14 @@ PlaneFit fit_plane_minimum_zone(const Eigen::Matrix3Xd& points, const FitOptions
   const bool started = options.start.has_value();
   detail::PlaneZoneModel model(points, started ? options.start->axis.direction : start.normal);
   const double scale = detail::data_scale(points, model.centroid());
-  detail::ZoneOptions zone_options = detail::zone_options(
-      options, scale, started ? options.start->form : start.residuals.form);
-  if (started && options.start->point_count != static_cast<std::size_t>(points.cols()))
-    zone_options.start_contacts.clear();
+  const detail::ZoneOptions zone_options =
+      started ? detail::started_zone_options(options, scale, points.cols())
+              : detail::zone_options(options, scale, start.residuals.form);
   const detail::ZoneSummary zone =
       detail::solve_zone(model, detail::ZoneObjective::minimum_zone, zone_options);
-  if (started && zone.status != detail::ZoneStatus::converged) {
-    FitOptions own = options;
-    own.start.reset();
-    PlaneFit fit = fit_plane_minimum_zone(points, own);
-    fit.summary.start = StartOutcome::restarted;
-    return fit;
-  }
+  if (started && zone.status != detail::ZoneStatus::converged)
+    return detail::fit_from_own_start(
+        options, [&](const FitOptions& own) { return fit_plane_minimum_zone(points, own); });
 
   // The reported plane is the mid-plane of the zone; its point is the centroid projected on it.
   const double mid = 0.5 * (zone.distances.maxCoeff() + zone.distances.minCoeff());

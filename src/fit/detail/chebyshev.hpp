@@ -311,6 +311,12 @@ ZoneSummary solve_zone(ZoneModel& model, ZoneObjective objective, const ZoneOpti
 /// least-squares residual span) sets the first trust region.
 ZoneOptions zone_options(const FitOptions& options, double scale, double start_form);
 
+/// The zone options of a fit from an earlier element (FitOptions::start, which must be set): its
+/// residual span as the first trust region (the optimum moved about as far as the points did),
+/// its contacts only where the earlier fit had as many points (they are indices into them).
+ZoneOptions started_zone_options(const FitOptions& options, double scale,
+                                 Eigen::Index point_count);
+
 /// The associated size: mean of inner and outer radius (minimum zone), the smallest distance
 /// (maximum inscribed) or the largest (minimum circumscribed).
 double zone_radius(ZoneObjective objective, const Eigen::VectorXd& distances);
