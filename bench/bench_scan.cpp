@@ -292,7 +292,8 @@ int run(const fs::path& dir, bool full, std::size_t threads, bool phases, bool b
   const auto start = std::chrono::steady_clock::now();
   const double cpu_start = cpu_seconds();
   const cylzone::PartPlan plan = cylzone::read_plan(dir / "plan.toml");
-  const cylzone::PartInputs inputs = cylzone::load_part_inputs(plan);
+  const cylzone::PartInputs inputs =
+      cylzone::load_part_inputs(plan, cylzone::LoadOptions{threads});
   const double loaded = seconds_since(start);
   const double loaded_cpu = cpu_seconds() - cpu_start;
   const long loaded_peak_kb = peak_rss_kb();
@@ -364,11 +365,14 @@ int run(const fs::path& dir, bool full, std::size_t threads, bool phases, bool b
   loaded_file = cylzone::LoadedFile();
   cylzone::SegmentationResult bands;
   timed("segment (bands only)", [&] {
+    cylzone::SegmentOptions segment = plan.scan->segment;
+    segment.threads = threads;
     bands = cylzone::segment_scan(cloud, plan.scan->placement, cylzone::scan_surfaces(plan),
-                                  plan.scan->segment);
+                                  segment);
   });
-  timed("split (copy out)", [&] { (void)cylzone::split_cloud(cloud, bands); });
-  timed("segment_part_scan", [&] { segmented = cylzone::segment_part_scan(plan, cloud, digest); });
+  timed("split (copy out)", [&] { (void)cylzone::split_cloud(cloud, bands, threads); });
+  timed("segment_part_scan",
+        [&] { segmented = cylzone::segment_part_scan(plan, cloud, digest, threads); });
   std::printf("  load stage by stage (segment_part_scan = segment + split + records)\n");
   std::printf("  %-24s %8s %8s %10s\n", "stage", "wall s", "cpu s", "cpu ns/pt");
   for (const Stage& s : stages)

@@ -21,6 +21,8 @@
 #include <Eigen/Geometry>
 #include <cmath>
 #include <filesystem>
+#include <fstream>
+#include <sstream>
 #include <stdexcept>
 #include <string>
 #include <thread>
@@ -173,6 +175,79 @@ TEST_CASE("load_part_inputs records the digest of each file's bytes and its poin
     CHECK(r.points == inputs.bores[k].size());
     CHECK(r.points > 0);
   }
+}
+
+TEST_CASE("load_part_inputs gives the same inputs and digests for 1 and 2 threads",
+          "[check][load][threads]") {
+  // With two threads a file's SHA-256 runs beside its parse and a scan's segmentation on
+  // both: the points, vectors, file lines, records and the scan's record must be the same
+  // bits as one thread's, and each digest a second, independent read of the whole file's
+  // (sha256sum semantics). The per-feature demo plan and its whole-part scan plan.
+  for (const char* name : {"plan.toml", "plan-scan.toml"}) {
+    const PartPlan plan = read_plan(demo_plan.parent_path() / name);
+    const PartInputs one = load_part_inputs(plan, LoadOptions{1});
+    const PartInputs two = load_part_inputs(plan, LoadOptions{2});
+    const auto same_clouds = [](const std::vector<PointCloud>& a,
+                                const std::vector<PointCloud>& b) {
+      REQUIRE(a.size() == b.size());
+      for (std::size_t k = 0; k < a.size(); ++k) {
+        CHECK(a[k].size() > 0);
+        CHECK(a[k].points == b[k].points);
+        CHECK(a[k].vectors == b[k].vectors);
+        CHECK(a[k].lines == b[k].lines);
+      }
+    };
+    same_clouds(one.datums, two.datums);
+    same_clouds(one.bores, two.bores);
+    REQUIRE(one.records.size() == two.records.size());
+    for (std::size_t k = 0; k < one.records.size(); ++k) {
+      CHECK(one.records[k].role == two.records[k].role);
+      CHECK(one.records[k].sha256 == two.records[k].sha256);
+      CHECK(one.records[k].points == two.records[k].points);
+      CHECK(one.records[k].lines == two.records[k].lines);
+      if (k > 0) CHECK(two.records[k].sha256 == detail::sha256_of_file(two.records[k].path));
+    }
+    REQUIRE(one.scan.has_value() == two.scan.has_value());
+    if (one.scan) {
+      CHECK(one.scan->unassigned == two.scan->unassigned);
+      REQUIRE(one.scan->features.size() == two.scan->features.size());
+      for (std::size_t k = 0; k < one.scan->features.size(); ++k) {
+        CHECK(one.scan->features[k].points == two.scan->features[k].points);
+        CHECK(one.scan->features[k].angular_coverage_deg ==
+              two.scan->features[k].angular_coverage_deg);
+        CHECK(one.scan->features[k].probed_span == two.scan->features[k].probed_span);
+      }
+    }
+  }
+  // A file the parse refuses: the same error on two threads as on one.
+  const testing::TemporaryFolder folder("load-threads");
+  std::ifstream in(demo_plan);
+  std::stringstream text;
+  text << in.rdbuf();
+  std::string plan_text = text.str();
+  const std::filesystem::path bad = folder.write("bad.csv", "x,y,z\n1,2,3\n4,five,6\n");
+  const std::string datum_a = "\"points/datum-A.csv\"";
+  const std::size_t at = plan_text.find(datum_a);
+  REQUIRE(at != std::string::npos);
+  plan_text.replace(at, datum_a.size(), "\"" + bad.generic_string() + "\"");
+  for (std::size_t from = plan_text.find("\"points/"); from != std::string::npos;
+       from = plan_text.find("\"points/", from + 1))
+    plan_text.insert(from + 1, demo_plan.parent_path().generic_string() + "/");
+  const std::filesystem::path plan_file = folder.write("plan.toml", plan_text);
+  const PartPlan plan = read_plan(plan_file);
+  std::string message_one, message_two;
+  try {
+    (void)load_part_inputs(plan, LoadOptions{1});
+  } catch (const InputError& e) {
+    message_one = e.what();
+  }
+  try {
+    (void)load_part_inputs(plan, LoadOptions{2});
+  } catch (const InputError& e) {
+    message_two = e.what();
+  }
+  CHECK_THAT(message_one, Catch::Contains("bad.csv"));
+  CHECK(message_two == message_one);
 }
 
 TEST_CASE("evaluate_part gives the same bits for 1 and 2 threads", "[check][threads]") {

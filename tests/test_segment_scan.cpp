@@ -214,6 +214,136 @@ TEST_CASE("split_cloud: each piece is the cloud's own points, vectors and lines,
   }
 }
 
+TEST_CASE("segment_scan and split_cloud on threads: a point-by-point classification, any count") {
+  // Reference: the band rule of segment_scan.hpp applied point by point here, written from the
+  // header's statement (nearest surface within its band and range, exact ties to the first
+  // listed, vectors within the normal agreement). The cloud spans several of the pass's chunks
+  // (200,003 points, chunks of 65,536 fixed by the data), so the chunked pass, its merged
+  // azimuth buckets and axial ranges, and the chunked copies must give the same bits on 1, 2
+  // and 3 threads.
+  std::vector<NominalSurface> surfaces = two_surfaces();
+  NominalSurface twin = surfaces[0];  // overlapping bands: the nearest wins
+  twin.name = "bore Y";
+  twin.origin += Eigen::Vector3d(12.1, 0.0, 0.0);
+  surfaces.push_back(twin);
+  const NominalSurface& bore = surfaces[0];
+  const auto [u, v] = basis(bore.direction);
+  std::mt19937_64 rng(77);
+  std::uniform_real_distribution<double> unit(0.0, 1.0);
+  std::vector<Eigen::Vector3d> pts, normals;
+  const std::size_t n = 200003;
+  for (std::size_t i = 0; i < n; ++i) {
+    const double pick = unit(rng);
+    const NominalSurface& c = pick < 0.3 ? surfaces[0] : surfaces[2];
+    if (pick < 0.6) {
+      const double phi = 2 * kPi * unit(rng), t = -42.0 + 44.0 * unit(rng);
+      const Eigen::Vector3d radial = std::cos(phi) * u + std::sin(phi) * v;
+      pts.push_back(c.origin + t * c.direction + (c.radius - 0.3 + 0.6 * unit(rng)) * radial);
+      normals.push_back((radial + 0.8 * (unit(rng) - 0.5) * c.direction).normalized());
+    } else {
+      pts.push_back(Eigen::Vector3d(-55.0 + 180.0 * unit(rng), -65.0 + 110.0 * unit(rng),
+                                    -0.3 + 0.6 * unit(rng)));
+      normals.push_back(Eigen::Vector3d(0.6 * (unit(rng) - 0.5), 0.0, 1.0).normalized());
+    }
+  }
+  const RigidPlacement placement = some_placement();
+  SegmentOptions options;
+  options.band = 0.2;
+  options.margin = 0.5;
+  options.normal_agreement_deg = 12.0;
+  for (const bool with_vectors : {false, true}) {
+    const PointCloud cloud = in_scanner(pts, with_vectors ? normals : std::vector<Eigen::Vector3d>{},
+                                        placement);
+    // The reference, point by point.
+    std::vector<std::vector<std::size_t>> expected(surfaces.size());
+    std::size_t none = 0;
+    const double min_cos = std::cos(12.0 * kPi / 180.0);
+    for (std::size_t i = 0; i < n; ++i) {
+      const Eigen::Vector3d q = placement.rotation * cloud.points.col(static_cast<Eigen::Index>(i)) +
+                                placement.translation;
+      std::size_t best = surfaces.size();
+      double best_distance = 0.0;
+      for (std::size_t k = 0; k < surfaces.size(); ++k) {
+        const NominalSurface& s = surfaces[k];
+        const Eigen::Vector3d rel = q - s.origin;
+        double distance = 0.0;
+        Eigen::Vector3d normal = s.direction;
+        if (s.kind == NominalSurface::Kind::cylinder) {
+          const double axial = s.direction.dot(rel);
+          if (axial < s.low - 0.5 || axial > s.high + 0.5) continue;
+          const Eigen::Vector3d radial = rel - axial * s.direction;
+          distance = std::abs(radial.norm() - s.radius);
+          normal = radial.normalized();
+        } else {
+          distance = std::abs(s.direction.dot(rel));
+          const double a = s.u_axis.dot(rel), b = s.v_axis.dot(rel);
+          if (a < s.u_low - 0.5 || a > s.u_high + 0.5 || b < s.v_low - 0.5 || b > s.v_high + 0.5)
+            continue;
+        }
+        if (distance > 0.2) continue;
+        if (with_vectors) {
+          const Eigen::Vector3d w =
+              placement.rotation * cloud.vectors.col(static_cast<Eigen::Index>(i));
+          if (std::abs(w.dot(normal)) < min_cos * w.norm()) continue;
+        }
+        if (best == surfaces.size() || distance < best_distance) {
+          best = k;
+          best_distance = distance;
+        }
+      }
+      if (best == surfaces.size())
+        ++none;
+      else
+        expected[best].push_back(i);
+    }
+    SegmentOptions one = options;
+    one.threads = 1;
+    const SegmentationResult serial = segment_scan(cloud, placement, surfaces, one);
+    CHECK(serial.unassigned == none);
+    CHECK(serial.used_vectors == with_vectors);
+    for (std::size_t k = 0; k < surfaces.size(); ++k) {
+      CHECK(serial.surfaces[k].indices == expected[k]);
+      CHECK_FALSE(serial.surfaces[k].indices.empty());
+    }
+    const std::vector<PointCloud> serial_pieces = split_cloud(cloud, serial, 1);
+    for (const std::size_t threads : {2, 3}) {
+      SegmentOptions many = options;
+      many.threads = threads;
+      SegmentationResult r = segment_scan(cloud, placement, surfaces, many);
+      CHECK(r.unassigned == serial.unassigned);
+      for (std::size_t k = 0; k < surfaces.size(); ++k) {
+        CHECK(r.surfaces[k].indices == serial.surfaces[k].indices);
+        CHECK(r.surfaces[k].angular_coverage_deg == serial.surfaces[k].angular_coverage_deg);
+        CHECK(r.surfaces[k].probed_span == serial.surfaces[k].probed_span);
+        CHECK(r.surfaces[k].nominal_span == serial.surfaces[k].nominal_span);
+        CHECK(r.surfaces[k].nearest_distance == serial.surfaces[k].nearest_distance);
+      }
+      const std::vector<PointCloud> pieces = split_cloud(cloud, std::move(r), threads);
+      REQUIRE(pieces.size() == serial_pieces.size());
+      for (std::size_t k = 0; k < pieces.size(); ++k) {
+        CHECK(pieces[k].points == serial_pieces[k].points);
+        CHECK(pieces[k].vectors == serial_pieces[k].vectors);
+        CHECK(pieces[k].lines == serial_pieces[k].lines);
+      }
+    }
+    // The chunks' axial ranges merged: the extremes of the points taken (cylinders).
+    for (std::size_t k : {std::size_t{0}, std::size_t{2}}) {
+      double low = std::numeric_limits<double>::infinity(), high = -low;
+      for (std::size_t i : expected[k]) {
+        const Eigen::Vector3d q =
+            placement.rotation * cloud.points.col(static_cast<Eigen::Index>(i)) +
+            placement.translation;
+        const double axial = surfaces[k].direction.dot(q - surfaces[k].origin);
+        low = std::min(low, axial);
+        high = std::max(high, axial);
+      }
+      CHECK(serial.surfaces[k].probed_span == Approx(high - low).margin(1e-9));
+      REQUIRE(serial.surfaces[k].angular_coverage_deg);
+      CHECK(*serial.surfaces[k].angular_coverage_deg > 359.0);  // probed all round
+    }
+  }
+}
+
 TEST_CASE("segment_scan: nearest surface wins, exact ties go to the first, normals must agree") {
   // Two coaxial-free cylinders whose bands overlap: radius 5 about x = 0 and radius 5 about
   // x = 10.3; a point at x = 5.15 on the line between the axes is 0.15 from both (a tie).

@@ -445,7 +445,8 @@ std::vector<BoreSensitivity> association_sensitivity(const PartPlan& plan,
 
 PartCheckResult check_part(const PartPlan& plan, const CheckOptions& options) {
   require_datum_a(plan);
-  return check_part(plan, load_part_inputs(plan), options);
+  return check_part(plan, load_part_inputs(plan, LoadOptions{options.evaluation.threads}),
+                    options);
 }
 
 PartCheckResult check_part(const PartPlan& plan, const PartInputs& inputs,

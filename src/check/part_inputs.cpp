@@ -12,26 +12,37 @@
 
 #include "cylzone/core/errors.hpp"
 #include "cylzone/io/load.hpp"
+#include "detail/parallel.hpp"
 #include "io/detail/file_digest.hpp"
 
 namespace cylzone {
 namespace {
 
 /// Reads `file` once; returns the cloud and the digest of the very bytes parsed. The bytes are
-/// released before returning, so a large scan is not held twice while it is segmented.
+/// released before returning, so a large scan is not held twice while it is segmented. The
+/// digest (SHA-256 is sequential by construction) and the parse read the same bytes and
+/// nothing else, so with two threads they run side by side as two fixed chunks: the hash
+/// first, so an error is the one a serial run meets first (detail/parallel.hpp).
 std::pair<PointCloud, std::string> load_hashed(const std::filesystem::path& file,
-                                               const ReadOptions& read) {
+                                               const ReadOptions& read, std::size_t threads) {
   const LoadedFile loaded = load(file);
-  std::string digest = detail::sha256_of_bytes(loaded.bytes());
-  PointCloud cloud = parse_points(loaded.bytes(), file.string(),
-                                  read.format.value_or(format_from_extension(file)), read);
+  std::string digest;
+  PointCloud cloud;
+  detail::parallel_for(2, threads, [&](std::size_t chunk, std::size_t) {
+    if (chunk == 0)
+      digest = detail::sha256_of_bytes(loaded.bytes());
+    else
+      cloud = parse_points(loaded.bytes(), file.string(),
+                           read.format.value_or(format_from_extension(file)), read);
+  });
   return {std::move(cloud), std::move(digest)};
 }
 
 /// Reads `file` once; the digest is of the very bytes parsed.
 PointCloud load_and_record(const std::filesystem::path& file, const std::string& role,
-                           const ReadOptions& read, std::vector<InputRecord>& records) {
-  auto [cloud, digest] = load_hashed(file, read);
+                           const ReadOptions& read, std::size_t threads,
+                           std::vector<InputRecord>& records) {
+  auto [cloud, digest] = load_hashed(file, read, threads);
   records.push_back({role, file, std::move(digest), cloud.size(), cloud.lines});
   return std::move(cloud);
 }
@@ -173,12 +184,13 @@ std::vector<NominalSurface> scan_surfaces(const PartPlan& plan) {
 }
 
 SegmentedScan segment_part_scan(const PartPlan& plan, const PointCloud& cloud,
-                                const std::string& sha256) {
+                                const std::string& sha256, std::size_t threads) {
   const PlanScan& scan = *plan.scan;
   const std::vector<ScanFeature> features = scan_features(plan);
   const std::vector<NominalSurface> surfaces = surfaces_of(features);
   SegmentOptions options = scan.segment;
   options.margin = options.margin.value_or(options.band);
+  options.threads = std::max<std::size_t>(1, threads);
   SegmentedScan out;
   ScanSegmentation& record = out.record;
   record.placement = scan.placement;
@@ -280,11 +292,12 @@ SegmentedScan segment_part_scan(const PartPlan& plan, const PointCloud& cloud,
     merged.surfaces.push_back(std::move(together));
   }
   // Consumed: each feature's indices are released once its points are copied.
-  out.clouds = split_cloud(cloud, std::move(merged));
+  out.clouds = split_cloud(cloud, std::move(merged), options.threads);
   return out;
 }
 
-PartInputs load_part_inputs(const PartPlan& plan) {
+PartInputs load_part_inputs(const PartPlan& plan, const LoadOptions& options) {
+  const std::size_t threads = std::max<std::size_t>(1, options.threads);
   PartInputs inputs;
   inputs.records.push_back({"plan", plan.file, plan.sha256, 0, {}});
   ReadOptions read;
@@ -292,8 +305,8 @@ PartInputs load_part_inputs(const PartPlan& plan) {
   SegmentedScan scanned;
   if (plan.scan) {
     // The whole-part cloud: read and hashed once, segmented, then released.
-    auto [cloud, digest] = load_hashed(plan.scan->points, read);
-    scanned = segment_part_scan(plan, cloud, digest);
+    auto [cloud, digest] = load_hashed(plan.scan->points, read, threads);
+    scanned = segment_part_scan(plan, cloud, digest, threads);
   }
   std::size_t next = 0;  // the next feature taking scan points, datums then bores
   const auto take = [&](const std::string& role) {
@@ -306,13 +319,13 @@ PartInputs load_part_inputs(const PartPlan& plan) {
     const std::string role = std::string("datum ") + datum.label;
     inputs.datums.push_back(datum.from_scan()
                                 ? take(role)
-                                : load_and_record(datum.points, role, read, inputs.records));
+                                : load_and_record(datum.points, role, read, threads, inputs.records));
   }
   for (const PlanBore& bore : plan.bores) {
     const std::string role = "bore " + bore.id;
     inputs.bores.push_back(bore.from_scan()
                                ? take(role)
-                               : load_and_record(bore.points, role, read, inputs.records));
+                               : load_and_record(bore.points, role, read, threads, inputs.records));
   }
   if (plan.scan) inputs.scan = std::move(scanned.record);
   return inputs;

@@ -99,7 +99,7 @@ int run_audit(const AuditArguments& args) {
   read_options.default_unit = plan.unit;
   const SummaryTable summary = read_summary(summary_path, read_options);
 
-  const PartInputs part = load_part_inputs(plan);
+  const PartInputs part = load_part_inputs(plan, LoadOptions{args.threads});
   EvaluationOptions evaluation_options;
   evaluation_options.threads = args.threads;
   PartEvaluation evaluation = evaluate_part(plan, part, evaluation_options);

@@ -233,7 +233,7 @@ int run_check(const CheckArguments& args) {
   options.sensitivity = !args.no_sensitivity;
   options.evaluation.threads = args.threads;
   // Each input is read once; the study perturbs the same points in memory.
-  const PartInputs part_inputs = load_part_inputs(plan);
+  const PartInputs part_inputs = load_part_inputs(plan, LoadOptions{args.threads});
   PartCheckResult result = check_part(plan, part_inputs, options);
   std::optional<MonteCarloSummary> uncertainty;
   if (study) {

@@ -3,6 +3,7 @@
 
 #include "cylzone/prepare/neighbour_index.hpp"
 #include "detail/fit_support.hpp"
+#include "detail/parallel.hpp"
 
 #include <Eigen/Eigenvalues>
 #include <Eigen/Geometry>
@@ -14,6 +15,7 @@
 #include <cstdint>
 #include <cstdio>
 #include <limits>
+#include <memory>
 #include <stdexcept>
 #include <string>
 #include <utility>
@@ -22,6 +24,10 @@ namespace cylzone {
 namespace {
 
 constexpr double kPi = 3.14159265358979323846;
+
+/// Points per chunk of segment_scan's pass, fixed by the data alone (never by the thread
+/// count), so the chunks and the result are the same for any `threads`.
+constexpr std::size_t kSegmentChunk = std::size_t{1} << 16;
 
 /// An axis-aligned box in the part's coordinates that holds every candidate of a surface: a
 /// point outside it is rejected with six comparisons, so a point costs little per surface.
@@ -105,7 +111,10 @@ namespace {
 /// The cloud's points `indices` (ascending) as a cloud of their own, with their vectors and
 /// file lines. The reads go forward through the cloud, so they stream through memory however
 /// the features' points are interleaved in the file; no cloud-sized bookkeeping is allocated.
-PointCloud gather(const PointCloud& cloud, const std::vector<std::size_t>& indices) {
+/// Blocks of kSegmentChunk indices are copied on `threads` (pure copies into their own
+/// columns: the same result for any count).
+PointCloud gather(const PointCloud& cloud, const std::vector<std::size_t>& indices,
+                  std::size_t threads) {
   const auto n = static_cast<Eigen::Index>(indices.size());
   const bool vectors = cloud.has_vectors();
   const bool lines = cloud.lines.size() == cloud.size();
@@ -115,13 +124,18 @@ PointCloud gather(const PointCloud& cloud, const std::vector<std::size_t>& indic
   out.points.resize(3, n);
   if (vectors) out.vectors.resize(3, n);
   if (lines) out.lines.resize(indices.size());
-  for (Eigen::Index at = 0; at < n; ++at) {
-    const std::size_t i = indices[static_cast<std::size_t>(at)];
-    const auto from = static_cast<Eigen::Index>(i);
-    out.points.col(at) = cloud.points.col(from);
-    if (vectors) out.vectors.col(at) = cloud.vectors.col(from);
-    if (lines) out.lines[static_cast<std::size_t>(at)] = cloud.lines[i];
-  }
+  const std::size_t blocks = (indices.size() + kSegmentChunk - 1) / kSegmentChunk;
+  detail::parallel_for(blocks, threads, [&](std::size_t b, std::size_t) {
+    const auto first = static_cast<Eigen::Index>(b * kSegmentChunk);
+    const Eigen::Index last = std::min(n, first + static_cast<Eigen::Index>(kSegmentChunk));
+    for (Eigen::Index at = first; at < last; ++at) {
+      const std::size_t i = indices[static_cast<std::size_t>(at)];
+      const auto from = static_cast<Eigen::Index>(i);
+      out.points.col(at) = cloud.points.col(from);
+      if (vectors) out.vectors.col(at) = cloud.vectors.col(from);
+      if (lines) out.lines[static_cast<std::size_t>(at)] = cloud.lines[i];
+    }
+  });
   return out;
 }
 
@@ -606,19 +620,21 @@ PlacementSearchResult find_placement(const PointCloud& cloud,
   return result;
 }
 
-std::vector<PointCloud> split_cloud(const PointCloud& cloud, const SegmentationResult& segments) {
+std::vector<PointCloud> split_cloud(const PointCloud& cloud, const SegmentationResult& segments,
+                                    std::size_t threads) {
   std::vector<PointCloud> out;
   out.reserve(segments.surfaces.size());
   for (const SurfaceSegment& segment : segments.surfaces)
-    out.push_back(gather(cloud, segment.indices));
+    out.push_back(gather(cloud, segment.indices, threads));
   return out;
 }
 
-std::vector<PointCloud> split_cloud(const PointCloud& cloud, SegmentationResult&& segments) {
+std::vector<PointCloud> split_cloud(const PointCloud& cloud, SegmentationResult&& segments,
+                                    std::size_t threads) {
   std::vector<PointCloud> out;
   out.reserve(segments.surfaces.size());
   for (SurfaceSegment& segment : segments.surfaces) {
-    out.push_back(gather(cloud, segment.indices));
+    out.push_back(gather(cloud, segment.indices, threads));
     std::vector<std::size_t>().swap(segment.indices);  // released: the memory goes to the next
   }
   return out;
@@ -635,6 +651,8 @@ SegmentationResult segment_scan(const PointCloud& cloud, const RigidPlacement& p
     throw std::invalid_argument("segment_scan: the margin must be a finite length >= 0");
   if (!(options.normal_agreement_deg > 0.0 && options.normal_agreement_deg <= 90.0))
     throw std::invalid_argument("segment_scan: the normal agreement must be in (0, 90] degrees");
+  if (surfaces.size() >= std::numeric_limits<std::uint32_t>::max())
+    throw std::invalid_argument("segment_scan: too many surfaces");
 
   std::vector<Prepared> prepared;
   prepared.reserve(surfaces.size());
@@ -662,61 +680,113 @@ SegmentationResult segment_scan(const PointCloud& cloud, const RigidPlacement& p
   std::vector<double> s_min(surfaces.size(), std::numeric_limits<double>::infinity());
   std::vector<double> s_max(surfaces.size(), -std::numeric_limits<double>::infinity());
 
-  for (std::size_t i = 0; i < n; ++i) {
-    const Eigen::Vector3d q = R * cloud.points.col(static_cast<Eigen::Index>(i)) + t;
-    std::size_t best = surfaces.size();
-    double best_distance = 0.0;
-    for (std::size_t k = 0; k < prepared.size(); ++k) {
-      const Prepared& p = prepared[k];
-      if (!p.box.holds(q)) continue;
-      const NominalSurface& s = *p.s;
-      const Eigen::Vector3d rel = q - s.origin;
-      double distance = 0.0;
-      Eigen::Vector3d normal;
-      if (s.kind == NominalSurface::Kind::cylinder) {
-        const double axial = s.direction.dot(rel);
-        if (axial < p.low || axial > p.high) continue;
-        const Eigen::Vector3d radial = rel - axial * s.direction;
-        const double r = radial.norm();
-        distance = std::abs(r - s.radius);
-        if (distance > band) continue;
-        if (!result.used_vectors) {
-          normal = Eigen::Vector3d::Zero();
-        } else if (r > 0.0) {
-          normal = radial / r;
-        } else {
-          continue;  // on the axis: no surface normal to agree with
-        }
-      } else {
-        distance = std::abs(s.direction.dot(rel));
-        if (distance > band) continue;
-        const double u = s.u_axis.dot(rel), v = s.v_axis.dot(rel);
-        if (u < p.u_low || u > p.u_high || v < p.v_low || v > p.v_high) continue;
-        normal = s.direction;
-      }
-      if (result.used_vectors) {
-        const Eigen::Vector3d vector = R * cloud.vectors.col(static_cast<Eigen::Index>(i));
-        if (std::abs(vector.dot(normal)) < min_cos * vector.norm()) continue;
-      }
-      // Nearest surface wins; strict '<' keeps the first listed on an exact tie.
-      if (best == surfaces.size() || distance < best_distance) {
-        best = k;
-        best_distance = distance;
-      }
-    }
-    if (best == surfaces.size()) {
-      ++result.unassigned;
-      continue;
-    }
-    result.surfaces[best].indices.push_back(i);
-    const NominalSurface& s = surfaces[best];
-    if (s.kind != NominalSurface::Kind::cylinder) continue;
-    const Eigen::Vector3d rel = q - s.origin;
-    const double axial = s.direction.dot(rel);
-    s_min[best] = std::min(s_min[best], axial);
-    s_max[best] = std::max(s_max[best], axial);
-    coverage[best].add(frames[best].first.dot(rel), frames[best].second.dot(rel));
+  // The pass runs on the `threads` option in chunks of kSegmentChunk points fixed by the cloud
+  // alone (detail/parallel.hpp). Each point's surface is written to a label array (its own
+  // slot, so no order matters); each chunk counts its points per surface; the azimuth
+  // buckets and axial ranges are per worker and hold only minima and maxima, which merge to
+  // the same values in any order (the exact range of ArcCoverage, whose ties would depend on
+  // order, is used only below 2^15 points: one chunk). A second pass writes each chunk's
+  // indices at the offsets its counts give, so every surface's indices stay ascending: the
+  // same result, bit for bit, for any thread count.
+  const std::size_t none = surfaces.size();
+  const std::size_t chunks = (n + kSegmentChunk - 1) / kSegmentChunk;
+  const std::size_t workers = detail::worker_count(chunks, options.threads);
+  // Every label is written by the pass: not zero-filled first (that would touch each page twice).
+  std::unique_ptr<std::uint32_t[]> label(new std::uint32_t[n]);
+  std::vector<std::size_t> counts(chunks * (none + 1), 0);
+  std::vector<std::vector<double>> worker_min(workers, s_min), worker_max(workers, s_max);
+  std::vector<std::vector<detail::ArcCoverage>> worker_coverage(workers);
+  for (std::size_t w = 1; w < workers; ++w) {
+    for (const NominalSurface& s : surfaces)
+      worker_coverage[w].emplace_back(s.kind == NominalSurface::Kind::cylinder ? n : 1);
   }
+  detail::parallel_for(chunks, options.threads, [&](std::size_t c, std::size_t w) {
+    std::vector<detail::ArcCoverage>& arcs = w == 0 ? coverage : worker_coverage[w];
+    std::vector<double>& low = worker_min[w];
+    std::vector<double>& high = worker_max[w];
+    std::size_t* count = counts.data() + c * (none + 1);
+    const std::size_t end = std::min(n, (c + 1) * kSegmentChunk);
+    for (std::size_t i = c * kSegmentChunk; i < end; ++i) {
+      const Eigen::Vector3d q = R * cloud.points.col(static_cast<Eigen::Index>(i)) + t;
+      std::size_t best = none;
+      double best_distance = 0.0;
+      for (std::size_t k = 0; k < prepared.size(); ++k) {
+        const Prepared& p = prepared[k];
+        if (!p.box.holds(q)) continue;
+        const NominalSurface& s = *p.s;
+        const Eigen::Vector3d rel = q - s.origin;
+        double distance = 0.0;
+        Eigen::Vector3d normal;
+        if (s.kind == NominalSurface::Kind::cylinder) {
+          const double axial = s.direction.dot(rel);
+          if (axial < p.low || axial > p.high) continue;
+          const Eigen::Vector3d radial = rel - axial * s.direction;
+          const double r = radial.norm();
+          distance = std::abs(r - s.radius);
+          if (distance > band) continue;
+          if (!result.used_vectors) {
+            normal = Eigen::Vector3d::Zero();
+          } else if (r > 0.0) {
+            normal = radial / r;
+          } else {
+            continue;  // on the axis: no surface normal to agree with
+          }
+        } else {
+          distance = std::abs(s.direction.dot(rel));
+          if (distance > band) continue;
+          const double u = s.u_axis.dot(rel), v = s.v_axis.dot(rel);
+          if (u < p.u_low || u > p.u_high || v < p.v_low || v > p.v_high) continue;
+          normal = s.direction;
+        }
+        if (result.used_vectors) {
+          const Eigen::Vector3d vector = R * cloud.vectors.col(static_cast<Eigen::Index>(i));
+          if (std::abs(vector.dot(normal)) < min_cos * vector.norm()) continue;
+        }
+        // Nearest surface wins; strict '<' keeps the first listed on an exact tie.
+        if (best == none || distance < best_distance) {
+          best = k;
+          best_distance = distance;
+        }
+      }
+      label[i] = static_cast<std::uint32_t>(best);
+      ++count[best];
+      if (best == none) continue;
+      const NominalSurface& s = surfaces[best];
+      if (s.kind != NominalSurface::Kind::cylinder) continue;
+      const Eigen::Vector3d rel = q - s.origin;
+      const double axial = s.direction.dot(rel);
+      low[best] = std::min(low[best], axial);
+      high[best] = std::max(high[best], axial);
+      arcs[best].add(frames[best].first.dot(rel), frames[best].second.dot(rel));
+    }
+  });
+  for (std::size_t w = 0; w < workers; ++w)
+    for (std::size_t k = 0; k < none; ++k) {
+      s_min[k] = std::min(s_min[k], worker_min[w][k]);
+      s_max[k] = std::max(s_max[k], worker_max[w][k]);
+      if (w > 0 && surfaces[k].kind == NominalSurface::Kind::cylinder)
+        coverage[k].merge(worker_coverage[w][k]);
+    }
+  worker_coverage.clear();
+  // Each chunk's first position in each surface's indices: the counts of the chunks before it.
+  std::vector<std::size_t> total(none + 1, 0);
+  std::vector<std::size_t> offset(counts.size());
+  for (std::size_t c = 0; c < chunks; ++c)
+    for (std::size_t k = 0; k <= none; ++k) {
+      offset[c * (none + 1) + k] = total[k];
+      total[k] += counts[c * (none + 1) + k];
+    }
+  result.unassigned = total[none];
+  for (std::size_t k = 0; k < none; ++k) result.surfaces[k].indices.resize(total[k]);
+  detail::parallel_for(chunks, options.threads, [&](std::size_t c, std::size_t) {
+    std::size_t* at = offset.data() + c * (none + 1);
+    const std::size_t end = std::min(n, (c + 1) * kSegmentChunk);
+    for (std::size_t i = c * kSegmentChunk; i < end; ++i) {
+      const std::uint32_t k = label[i];
+      if (k != none) result.surfaces[k].indices[at[k]++] = i;
+    }
+  });
+  label.reset();
 
   for (std::size_t k = 0; k < surfaces.size(); ++k) {
     const NominalSurface& s = surfaces[k];

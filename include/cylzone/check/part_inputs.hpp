@@ -103,14 +103,23 @@ struct SegmentedScan {
 /// Throws InputError naming the plan file, the feature's line and key when a feature takes no
 /// point: the message gives the distance from its nominal surface to the nearest points of the
 /// cloud. Pure: no file is read.
+/// The band pass and the copies run on `threads` (SegmentOptions::threads): the same result
+/// for any count.
 SegmentedScan segment_part_scan(const PartPlan& plan, const PointCloud& cloud,
-                                const std::string& sha256);
+                                const std::string& sha256, std::size_t threads = 1);
+
+/// How the load stage runs. Nothing here changes what is read or any figure.
+struct LoadOptions {
+  /// The one `threads` option: a file's digest beside its parse, and a scan's segmentation
+  /// (segment_part_scan). Any count gives the same inputs, bit for bit.
+  std::size_t threads = 1;
+};
 
 /// Loads every datum's and bore's points (with vectors where the file has them) in the plan's
 /// unit: each file is read once and hashed from the same buffer it is parsed from. With a
 /// [scan], its cloud is read once too and segmented (segment_part_scan) among the features
 /// without a point file of their own. Throws InputError naming the file for a missing or
 /// unreadable file or bad data, and as segment_part_scan does.
-PartInputs load_part_inputs(const PartPlan& plan);
+PartInputs load_part_inputs(const PartPlan& plan, const LoadOptions& options = {});
 
 }  // namespace cylzone

@@ -25,7 +25,8 @@
 ///
 /// The indices taken keep the cloud's order, so a feature's points are exactly the cloud's
 /// points in the same order (same points, same answer as a per-feature file of them). Pure: no
-/// IO, no state, no threads.
+/// IO, no state; the pass over the points and split_cloud's copies run on the `threads` option
+/// in chunks fixed by the cloud alone, so the result is the same bits for any thread count.
 
 #include <Eigen/Core>
 #include <cstddef>
@@ -69,6 +70,9 @@ struct SegmentOptions {
   /// Degrees, (0, 90]: the largest angle between a point's vector and the surface normal, used
   /// when the cloud has vectors.
   double normal_agreement_deg = 30.0;
+  /// Threads for the pass over the points (the one `threads` option); any count gives the
+  /// same result. Not part of the method: reports leave it out.
+  std::size_t threads = 1;
 };
 
 /// What one surface took.
@@ -223,11 +227,15 @@ PlacementSearchResult find_placement(const PointCloud& cloud,
 /// present), in the cloud's own coordinates and order: the feature's points exactly as a file
 /// of them would give. One forward pass over the cloud per surface, reading only its points;
 /// nothing cloud-sized is allocated besides the copies.
-std::vector<PointCloud> split_cloud(const PointCloud& cloud, const SegmentationResult& segments);
+std::vector<PointCloud> split_cloud(const PointCloud& cloud, const SegmentationResult& segments,
+                                    std::size_t threads = 1);
 
 /// As above, consuming `segments`: each surface's indices are released as soon as its points
 /// are copied, so the peak holds the cloud, its copy and the indices not yet copied (a whole-
 /// part scan's load stage). The surfaces' other fields are left as they were.
-std::vector<PointCloud> split_cloud(const PointCloud& cloud, SegmentationResult&& segments);
+/// Each surface's copy runs on `threads` in blocks of indices fixed by the data (pure copies:
+/// the same result for any count).
+std::vector<PointCloud> split_cloud(const PointCloud& cloud, SegmentationResult&& segments,
+                                    std::size_t threads = 1);
 
 }  // namespace cylzone
