@@ -204,7 +204,7 @@ TEST_CASE("load_part_inputs gives the same inputs and digests for 1 and 2 thread
       CHECK(one.records[k].role == two.records[k].role);
       CHECK(one.records[k].sha256 == two.records[k].sha256);
       CHECK(one.records[k].points == two.records[k].points);
-      CHECK(one.records[k].lines == two.records[k].lines);
+      CHECK(one.records[k].point_lines == two.records[k].point_lines);
       if (k > 0) CHECK(two.records[k].sha256 == detail::sha256_of_file(two.records[k].path));
     }
     REQUIRE(one.scan.has_value() == two.scan.has_value());
