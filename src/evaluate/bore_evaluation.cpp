@@ -775,9 +775,10 @@ BoreResult evaluate_bore(const BoreInput& input, const BoreEvaluationOptions& op
       // whether they surround the mating envelope's axis is found once (a rigid motion of the
       // frame does not change it).
       if (!result.position->projected) {
+        const double top = own_top + range_slack, bottom = own_bottom - range_slack;
         const auto within = [&](Eigen::Index i) {
           const double h = zone_height(i);
-          return !(h > own_top + range_slack || h < own_bottom - range_slack);
+          return !(h > top || h < bottom);
         };
         // Counted first, so that the list is allocated once at its size.
         Eigen::Index count = 0;
