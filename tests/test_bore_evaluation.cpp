@@ -12,6 +12,7 @@
 //    here directly on the generating geometry, not with the library's helpers.
 
 #include <catch2/catch.hpp>
+#include <algorithm>
 #include <cstdio>
 
 #include <Eigen/Geometry>
@@ -507,6 +508,59 @@ TEST_CASE("a dense bore: blocks of boundary points, residuals released above the
   CHECK(released.virtual_condition->clearance == r.virtual_condition->clearance);
   CHECK(released.surface_map.mean == r.surface_map.mean);
   CHECK(virtual_condition_after_frame_motion(released, motion).clearance == vc.clearance);
+}
+
+TEST_CASE("a dense bore's residual values go as soon as they are read: the suspect-point warning "
+          "and every figure as with the values kept",
+          "[bore_evaluation][memory]") {
+  // A bore with one point pushed 20 um inward: the innermost point, so a contact of both mating
+  // envelopes (test_stray_points.cpp shows why, independently of the screen). Evaluated with
+  // the values kept (624 points, below the default cap) and released above a cap of 100: the
+  // envelopes' contacts, read from the values before they go, must name the same point.
+  PlanBore plan;
+  plan.id = "P1";
+  plan.basic_location = {40.0, 25.0};
+  plan.size = SizeLimits{12.000, 12.018};
+  plan.position = tolerance(0.030, MaterialCondition::mmc);
+  Axis axis;
+  axis.point = Eigen::Vector3d(40.006, 24.995, 0.0);
+  axis.direction = direction_from_angles(0.3e-3 * 180.0 / 3.14159265358979, 30.0);
+  testing::ReferenceSet set = make_lobed_cylinder(axis, 6.005, -1.0, -61.0, 13, 48, 0.002, 11.0);
+  const Eigen::Index spike = 7 * 48 + 29;
+  set.points.col(spike) -= 0.020 * set.normals.col(spike);
+  BoreEvaluationOptions released_options;
+  released_options.residuals_kept_up_to = 100;
+  const BoreResult kept = evaluate_bore(plan, set.points);
+  const BoreResult released = evaluate_bore(plan, set.points, released_options);
+  REQUIRE(kept.least_squares.residuals.values.size() == set.points.cols());
+  for (const CylinderFit* f : {&released.least_squares, &released.mating_envelope,
+                               &released.related_envelope, &released.minimum_material,
+                               &released.minimum_zone})
+    CHECK(f->residuals.values.size() == 0);
+  REQUIRE(released.stray_points.points.size() == 1);
+  CHECK(released.stray_points.points[0].index == static_cast<std::size_t>(spike));
+  const std::string number = "#" + std::to_string(spike + 1);
+  const auto warning = std::find_if(released.warnings.begin(), released.warnings.end(),
+                                    [](const std::string& w) {
+                                      return w.find("suspect point") != std::string::npos;
+                                    });
+  REQUIRE(warning != released.warnings.end());
+  CHECK_THAT(*warning, Contains("point " + number + " is a contact of the actual and the related "
+                                "mating envelopes"));
+  CHECK(released.warnings == kept.warnings);
+  CHECK(released.size.mating_envelope == kept.size.mating_envelope);
+  CHECK(released.size.related_mating_envelope == kept.size.related_mating_envelope);
+  CHECK(released.size.minimum_material_envelope == kept.size.minimum_material_envelope);
+  CHECK(released.size.two_point_min == kept.size.two_point_min);
+  CHECK(released.size.two_point_max == kept.size.two_point_max);
+  CHECK(released.form.cylindricity == kept.form.cylindricity);
+  CHECK(released.position->value == kept.position->value);
+  CHECK(released.virtual_condition->clearance == kept.virtual_condition->clearance);
+  CHECK(released.boundary_points == kept.boundary_points);
+  CHECK(released.surface_map.mean == kept.surface_map.mean);
+  CHECK(released.surface_map.count == kept.surface_map.count);
+  CHECK(released.probed_top == kept.probed_top);
+  CHECK(released.probed_bottom == kept.probed_bottom);
 }
 
 TEST_CASE("an inclined bore is evaluated along its nominal direction", "[bore_evaluation]") {

@@ -279,6 +279,47 @@ TEST_CASE("the sensitivity study gives the same bits for 1 and 3 threads", "[che
   }
 }
 
+TEST_CASE("evaluate_part releases the datum features' and the bores' residual values above the "
+          "cap and changes nothing else",
+          "[check][memory]") {
+  // Reference: the same evaluation with every value kept (the demo's features are far below
+  // the default cap), its values then cleared by hand: every other field must be the same bits.
+  const PartPlan plan = read_plan(demo_plan);
+  const PartInputs inputs = load_part_inputs(plan);
+  EvaluationOptions released_options;
+  released_options.bore.residuals_kept_up_to = 10;
+  PartEvaluation kept = evaluate_part(plan, inputs);
+  const PartEvaluation released = evaluate_part(plan, inputs, released_options);
+  REQUIRE(kept.datums.b.has_value());
+  CHECK(kept.datums.a.plane.residuals.values.size() ==
+        static_cast<Eigen::Index>(inputs.datums.front().size()));
+  CHECK(kept.datums.b->related_envelope.residuals.values.size() > 10);
+  CHECK(released.datums.a.plane.residuals.values.size() == 0);
+  CHECK(released.datums.b->related_envelope.residuals.values.size() == 0);
+  CHECK(released.datums.a.plane.residuals.rms == kept.datums.a.plane.residuals.rms);
+  CHECK(released.datums.a.plane.residuals.form == kept.datums.a.plane.residuals.form);
+  for (const BoreResult& bore : released.bores) {
+    INFO("bore " << bore.id);
+    CHECK(bore.least_squares.residuals.values.size() == 0);
+    CHECK(bore.mating_envelope.residuals.values.size() == 0);
+    CHECK(bore.minimum_zone.residuals.values.size() == 0);
+  }
+  const auto clear = [](CylinderFit& fit) { fit.residuals.values = Eigen::VectorXd(); };
+  kept.datums.a.plane.residuals.values = Eigen::VectorXd();
+  clear(kept.datums.b->related_envelope);
+  if (kept.datums.c_feature) clear(kept.datums.c_feature->related_envelope);
+  if (kept.datums.c_plane) kept.datums.c_plane->plane.residuals.values = Eigen::VectorXd();
+  for (BoreResult& bore : kept.bores)
+    for (CylinderFit* fit : {&bore.least_squares, &bore.mating_envelope, &bore.related_envelope,
+                             &bore.minimum_material, &bore.minimum_zone})
+      clear(*fit);
+  same_evaluation(kept, released);
+  for (std::size_t i = 0; i < kept.bores.size(); ++i) {
+    CHECK(kept.bores[i].surface_map.mean == released.bores[i].surface_map.mean);
+    CHECK(kept.bores[i].surface_map.count == released.bores[i].surface_map.count);
+  }
+}
+
 TEST_CASE("evaluate_part is re-entrant: two concurrent calls equal their serial results",
           "[check][threads]") {
   const PartPlan plan = read_plan(demo_plan);

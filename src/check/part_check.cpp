@@ -147,6 +147,22 @@ BoreResult without_boundary_points(const BoreResult& bore) {
   return copy;
 }
 
+/// Frees the per-point residual values of the datum features' associated elements once the
+/// frame is built, for a feature of more than `kept_up_to` points (as a bore's are:
+/// BoreEvaluationOptions::residuals_kept_up_to): they are read inside the frame only (its
+/// stray-point notes) and by no report, and a dense scan's face A would otherwise hold 8 bytes
+/// a point through every bore's evaluation. rms and form stay.
+void release_datum_residuals(DatumFrameResult& frame, std::size_t kept_up_to) {
+  const auto release = [&](Residuals& residuals) {
+    if (static_cast<std::size_t>(residuals.values.size()) > kept_up_to)
+      residuals.values = Eigen::VectorXd();
+  };
+  release(frame.a.plane.residuals);
+  if (frame.b) release(frame.b->related_envelope.residuals);
+  if (frame.c_feature) release(frame.c_feature->related_envelope.residuals);
+  if (frame.c_plane) release(frame.c_plane->plane.residuals);
+}
+
 /// Every evaluation starts from datum A, a plane; check_part asks before loading anything.
 void require_datum_a(const PartPlan& plan) {
   if (plan.datums.empty() || plan.datums.front().kind != FeatureKind::plane)
@@ -274,6 +290,7 @@ PartEvaluation evaluate_part(const PartPlan& plan, const PartInputs& inputs,
   result.datums =
       establish_datum_frame(datum_inputs(plan, result, inputs), result.material_side, frame);
   result.datums.a.material_side_inferred = inferred;
+  release_datum_residuals(result.datums, stage.residuals_kept_up_to);
   if (inferred)
     result.warnings.push_back("material side of datum A inferred from the bores' points");
 

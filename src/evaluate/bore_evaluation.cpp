@@ -559,50 +559,87 @@ BoreResult evaluate_bore(const BoreInput& input, const BoreEvaluationOptions& op
     }
     return started;
   };
+  // A dense bore's per-point residual values are released as soon as their last reader is done
+  // (BoreEvaluationOptions::residuals_kept_up_to), not when the bore is done: each fit's values
+  // would otherwise stay alive through the later fits, the sections and the boundary points,
+  // which is when two large bores evaluated at once set a scan's peak memory. rms and form
+  // stay; every reader below gets the same values as before.
+  const bool release_values = static_cast<std::size_t>(points.cols()) > options.residuals_kept_up_to;
+  const auto release = [&](CylinderFit& fit) {
+    if (release_values) fit.residuals.values = Eigen::VectorXd();
+  };
+  // The zone frame is the plan's (basic location, nominal direction): known before any fit.
+  result.zone = ZoneFrame::at(bore.basic_location, w);
+  // ---- Suspect points from the prepare record (prepare.hpp: the stray-point screen on the
+  // least-squares residuals). The mating envelopes rest on extreme points, so a suspect point
+  // that is one of their contacts is named: the size (and, for this axis method, the axis)
+  // then rest on it. Nothing is removed; every figure below uses all points. Each envelope's
+  // contacts are found as soon as it is fitted, from its residual values.
+  result.stray_points = input.prepared.record.stray_points;
+  const bool suspects = !result.stray_points.points.empty();
+  const auto contacts_of = [&](const CylinderFit& envelope) {
+    return suspect_contacts(result.stray_points, envelope.residuals.values, ContactSide::lowest);
+  };
+  std::vector<std::size_t> actual;
+  std::optional<std::vector<std::size_t>> related_contacts;
   for_bore(bore, [&] {
     result.least_squares =
         fit_cylinder_least_squares(points, from(free_axis, &BoreResult::least_squares));
+  });
+  // The unrolled surface for the report: the least-squares residuals just computed (one per
+  // point, finite: checked_bore), binned; no other step reads them.
+  if (all && result.least_squares.residuals.values.size() == points.cols())
+    result.surface_map = radial_deviation_map(points, result.least_squares.residuals.values,
+                                              result.least_squares.axis, result.zone,
+                                              options.surface_map);
+  release(result.least_squares);
+  for_bore(bore, [&] {
     // Unrelated actual mating envelope of a hole: the largest inscribed cylinder, free axis.
     result.mating_envelope =
         fit_cylinder_maximum_inscribed(points, from(free_axis, &BoreResult::mating_envelope));
+  });
+  if (suspects) actual = contacts_of(result.mating_envelope);
+  release(result.mating_envelope);
+  if (want_related) {
     // Related actual mating envelope, constrained in orientation to the nominal direction
     // (from its own start: a circle in the plane across the held direction, found anew).
-    if (want_related) result.related_envelope = fit_cylinder_maximum_inscribed(points, related);
+    for_bore(bore, [&] { result.related_envelope = fit_cylinder_maximum_inscribed(points, related); });
+    if (suspects) related_contacts = contacts_of(result.related_envelope);
+    release(result.related_envelope);
+  }
+  for_bore(bore, [&] {
     // Actual minimum material envelope of a hole: the smallest circumscribed cylinder.
     if (have_minimum_material)
       result.minimum_material = fit_cylinder_minimum_circumscribed(
           points, from(free_axis, &BoreResult::minimum_material));
+  });
+  release(result.minimum_material);
+  for_bore(bore, [&] {
     if (all || bore.cylindricity)
       result.minimum_zone =
           fit_cylinder_minimum_zone(points, from(free_axis, &BoreResult::minimum_zone));
   });
+  release(result.minimum_zone);
   take_warnings(warnings, "least-squares cylinder", result.least_squares.summary);
   take_warnings(warnings, "actual mating envelope", result.mating_envelope.summary);
   take_warnings(warnings, "related mating envelope", result.related_envelope.summary);
   take_warnings(warnings, "minimum material envelope", result.minimum_material.summary);
   take_warnings(warnings, "minimum-zone cylinder", result.minimum_zone.summary);
 
-  // ---- Suspect points from the prepare record (prepare.hpp: the stray-point screen on the
-  // least-squares residuals). The mating envelopes rest on extreme points, so a suspect point
-  // that is one of their contacts is named: the size (and, for this axis method, the axis)
-  // then rest on it. Nothing is removed; every figure below uses all points.
-  result.stray_points = input.prepared.record.stray_points;
-  if (!result.stray_points.points.empty()) {
-    const auto contacts_of = [&](const CylinderFit& envelope) {
-      return suspect_contacts(result.stray_points, envelope.residuals.values, ContactSide::lowest);
-    };
-    const std::vector<std::size_t> actual = contacts_of(result.mating_envelope);
-    const std::vector<std::size_t> related_contacts = contacts_of(result.related_envelope);
+  if (suspects) {
+    // An envelope not fitted has no residual values: its contacts are asked for here, as
+    // suspect_contacts rules for that case.
+    if (!related_contacts) related_contacts = contacts_of(result.related_envelope);
     const bool axis_rests = bore.axis == BoreAxisMethod::mating_envelope;
     std::vector<detail::SuspectContact> contacts;
-    if (!actual.empty() && actual == related_contacts) {
+    if (!actual.empty() && actual == *related_contacts) {
       contacts.push_back({actual, "the actual and the related mating envelopes",
                           axis_rests ? "the mating sizes and the axis rest on"
                                      : "the mating sizes rest on"});
     } else {
       contacts.push_back({actual, "the actual mating envelope",
                           axis_rests ? "the mating size and axis rest on" : "the mating size rests on"});
-      contacts.push_back({related_contacts, "the related mating envelope",
+      contacts.push_back({*related_contacts, "the related mating envelope",
                           "the related mating size rests on"});
     }
     warnings.push_back(detail::stray_point_message(result.stray_points, contacts,
@@ -621,19 +658,25 @@ BoreResult evaluate_bore(const BoreInput& input, const BoreEvaluationOptions& op
   std::sort(order.begin(), order.end(), [&](Eigen::Index a, Eigen::Index b) {
     return ls_height[static_cast<std::size_t>(a)] < ls_height[static_cast<std::size_t>(b)];
   });
-  std::vector<double> sorted_heights(order.size());
-  for (std::size_t k = 0; k < order.size(); ++k)
-    sorted_heights[k] = ls_height[static_cast<std::size_t>(order[k])];
-  const SectionPlan section_plan = for_bore(
-      bore, [&] { return plan_sections(points, ls_axis, sorted_heights, section_gap); });
+  const SectionPlan section_plan = [&] {
+    // The sorted heights serve the section plan only: freed once it is made.
+    std::vector<double> sorted_heights(order.size());
+    for (std::size_t k = 0; k < order.size(); ++k)
+      sorted_heights[k] = ls_height[static_cast<std::size_t>(order[k])];
+    return for_bore(bore,
+                    [&] { return plan_sections(points, ls_axis, sorted_heights, section_gap); });
+  }();
   SectionOptions section_options;
   section_options.half_thickness = section_plan.half_thickness;
   section_options.min_points = std::max<std::size_t>(3, options.min_section_points);
   section_options.fit = options.fit;
-  const SectionsResult sections = for_bore(bore, [&] {
+  SectionsResult sections = for_bore(bore, [&] {
     return fit_sections_least_squares(points, ls_axis, section_plan.heights, section_options);
   });
-  result.sections = sections.sections;
+  result.sections = std::move(sections.sections);
+  // No step reads the circles' residual values (their rms and form stay).
+  if (release_values)
+    for (SectionCircle& s : result.sections) s.circle.residuals.values = Eigen::VectorXd();
   for (const std::string& warning : sections.summary.warnings)
     warnings.push_back("sections: " + warning);
   if (result.sections.size() < 3)
@@ -642,20 +685,12 @@ BoreResult evaluate_bore(const BoreInput& input, const BoreEvaluationOptions& op
                        (bore.axis == BoreAxisMethod::median_line ? " and the median line" : "") +
                        " rest on few cross-sections");
 
-  // ---- 3. Zone frame; 4. the probed extent and the bore's own depth range.
-  result.zone = ZoneFrame::at(bore.basic_location, w);
-  const Eigen::VectorXd zone_height = zone_heights(points, result.zone);
+  // ---- 3. Zone frame (set above); 4. the probed extent and the bore's own depth range.
+  Eigen::VectorXd zone_height = zone_heights(points, result.zone);
   result.probed_top = zone_height.maxCoeff();
   result.probed_bottom = zone_height.minCoeff();
   const auto [own_top, own_bottom] = own_range(bore, result);
   result.depth_source = own_range_source(bore);
-
-  // The unrolled surface for the report: the least-squares residuals already computed (one
-  // per point, finite: checked_bore), binned.
-  if (all && result.least_squares.residuals.values.size() == n)
-    result.surface_map = radial_deviation_map(points, result.least_squares.residuals.values,
-                                              result.least_squares.axis, result.zone,
-                                              options.surface_map);
 
   // ---- 2., 5., 6., 10. The toleranced axis, position, perpendicularity, tilt.
   evaluate_in_zone(result, bore, options.fit);
@@ -699,11 +734,13 @@ BoreResult evaluate_bore(const BoreInput& input, const BoreEvaluationOptions& op
       options.two_point_sizes ? two_point_sizes(points, ls_height, order, result.sections, ls_axis,
                                                 section_plan.half_thickness)
                               : TwoPointSizes{};
+  std::vector<Eigen::Index>().swap(order);  // its last reader: freed before the boundary points
   // Without two-point sizes the upper limit rests on the minimum material envelope.
   if (!have_minimum_material && local_sizes.count == 0) {
     result.minimum_material =
         for_bore(bore, [&] { return fit_cylinder_minimum_circumscribed(points, free_axis); });
     take_warnings(warnings, "minimum material envelope", result.minimum_material.summary);
+    release(result.minimum_material);
   }
   size.minimum_material_envelope = result.minimum_material.diameter();
   size.two_point_count = local_sizes.count;
@@ -738,12 +775,19 @@ BoreResult evaluate_bore(const BoreInput& input, const BoreEvaluationOptions& op
       // whether they surround the mating envelope's axis is found once (a rigid motion of the
       // frame does not change it).
       if (!result.position->projected) {
-        std::vector<Eigen::Index> kept;
-        for (Eigen::Index i = 0; i < n; ++i) {
+        const double top = own_top + range_slack, bottom = own_bottom - range_slack;
+        const auto within = [&](Eigen::Index i) {
           const double h = zone_height(i);
-          if (h > own_top + range_slack || h < own_bottom - range_slack) continue;
-          kept.push_back(i);
-        }
+          return !(h > top || h < bottom);
+        };
+        // Counted first, so that the list is allocated once at its size.
+        Eigen::Index count = 0;
+        for (Eigen::Index i = 0; i < n; ++i) count += within(i) ? 1 : 0;
+        std::vector<Eigen::Index> kept;
+        kept.reserve(static_cast<std::size_t>(count));
+        for (Eigen::Index i = 0; i < n; ++i)
+          if (within(i)) kept.push_back(i);
+        zone_height = Eigen::VectorXd();  // its last reader
         if (kept.empty())
           throw FitError("bore " + bore.id + ": no point lies within the depth range " +
                          mm(own_bottom) + " to " + mm(own_top));
