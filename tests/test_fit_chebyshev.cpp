@@ -471,6 +471,105 @@ TEST_CASE("maximum-inscribed cylinder on one side of a bore is unbounded",
   }
 }
 
+TEST_CASE("without the reported coverage the elements are the same bits, short arcs refused",
+          "[chebyshev][coverage]") {
+  // FitOptions::result_coverage off (a Monte Carlo trial) leaves the reported coverage and the
+  // least-squares covariance out and nothing else: every element must be the bits of the fit
+  // with them (the computation it replaces), on full bores with noise (null-space deviations,
+  // tests/support/reference_data.hpp) and held or free axes; an inscribed element on an arc
+  // below 180 degrees must still be refused with the arc it covers (the arc the points were
+  // made on: 90 and 120 degrees).
+  const Axis axis{{0.3, -0.2, 1.0}, direction_from_angles(4.0, 25.0)};
+  const ReferenceSet bore = make_cylinder_reference(axis, 8.0, -10.0, 10.0, 6, 24, 360.0, 0.004, 5);
+  const ReferenceSet ring =
+      make_circle_reference({1.0, 2.0, 3.0}, direction_from_angles(3.0, 70.0), 6.0, 0.0, 360.0,
+                            40, 0.003, 9);
+  FitOptions quiet;
+  quiet.result_coverage = false;
+  const auto same_cylinder = [](const CylinderFit& a, const CylinderFit& b) {
+    CHECK(a.axis.point == b.axis.point);
+    CHECK(a.axis.direction == b.axis.direction);
+    CHECK(a.radius == b.radius);
+    CHECK(a.extent_min == b.extent_min);
+    CHECK(a.extent_max == b.extent_max);
+    CHECK(a.residuals.values == b.residuals.values);
+    CHECK(a.summary.iterations == b.summary.iterations);
+    CHECK(a.summary.contacts.size() == b.summary.contacts.size());
+  };
+  for (bool fixed : {false, true}) {
+    FitOptions full, off = quiet;
+    if (fixed) full.fixed_direction = off.fixed_direction = axis.direction;
+    using Fit = CylinderFit (*)(const Eigen::Matrix3Xd&, const FitOptions&);
+    for (const auto& [name, fit] :
+         {std::pair<const char*, Fit>{"least squares", &fit_cylinder_least_squares},
+          {"minimum zone", &fit_cylinder_minimum_zone},
+          {"maximum inscribed", &fit_cylinder_maximum_inscribed},
+          {"minimum circumscribed", &fit_cylinder_minimum_circumscribed}}) {
+      INFO(name << (fixed ? ", held direction" : ", free axis"));
+      const CylinderFit a = fit(bore.points, full);
+      const CylinderFit b = fit(bore.points, off);
+      same_cylinder(a, b);
+      CHECK(a.covariance.matrix.size() ==
+            (name == std::string("least squares") ? (fixed ? 9 : 25) : 0));
+      CHECK(b.covariance.matrix.size() == 0);
+      // The least-squares cylinder keeps its coverage (started fits rest on it); the others
+      // report none. The points go all round (144 random angles: the largest gap is far below
+      // 40 degrees).
+      CHECK(a.angular_coverage_deg > 320.0);
+      CHECK(b.angular_coverage_deg ==
+            (name == std::string("least squares") ? a.angular_coverage_deg : 0.0));
+    }
+  }
+  using CircleMethod = CircleFit (*)(const Eigen::Matrix3Xd&, const FitOptions&);
+  for (const auto& [name, fit] :
+       {std::pair<const char*, CircleMethod>{"least squares", &fit_circle_least_squares},
+        {"minimum zone", &fit_circle_minimum_zone},
+        {"maximum inscribed", &fit_circle_maximum_inscribed},
+        {"minimum circumscribed", &fit_circle_minimum_circumscribed}}) {
+    INFO("circle, " << name);
+    const CircleFit a = fit(ring.points, FitOptions{});
+    const CircleFit b = fit(ring.points, quiet);
+    CHECK(a.centre == b.centre);
+    CHECK(a.normal == b.normal);
+    CHECK(a.radius == b.radius);
+    CHECK(a.residuals.values == b.residuals.values);
+    CHECK(a.angular_coverage_deg > 270.0);  // 40 random angles all round
+    CHECK(b.angular_coverage_deg == 0.0);
+    CHECK(b.covariance.matrix.size() == 0);
+  }
+  // Short arcs: refused as with the coverage reported, naming the arc.
+  const ReferenceSet arc = make_circle_reference({5.0, 5.0, 0.0}, Eigen::Vector3d::UnitZ(), 10.0,
+                                                 0.0, 90.0, 30, 0.001, 3);
+  const ReferenceSet side =
+      make_cylinder_reference(Axis{}, 10.0, -10.0, 10.0, 5, 30, 120.0, 0.002, 11);
+  const auto refused_over = [](const std::function<void()>& fit, double arc_deg) {
+    try {
+      fit();
+      FAIL("no FitError for points on a " << arc_deg << " degree arc");
+    } catch (const FitError& e) {
+      const std::string what = e.what();
+      INFO(what);
+      CHECK_THAT(what, Catch::Contains("unbounded"));
+      const std::string covered = first_number_after(what, "cover only");
+      REQUIRE(!covered.empty());
+      CHECK(std::stod(covered) == Approx(arc_deg).margin(3.0));
+    }
+  };
+  refused_over([&] { fit_circle_maximum_inscribed(arc.points, quiet); }, 90.0);
+  refused_over([&] { fit_cylinder_maximum_inscribed(side.points, quiet); }, 120.0);
+  FitOptions held = quiet;
+  held.fixed_direction = Eigen::Vector3d::UnitZ();
+  refused_over([&] { fit_cylinder_maximum_inscribed(side.points, held); }, 120.0);
+  // The coverage warning is given with the coverage reported, not without.
+  const auto covers_warning = [](const FitSummary& s) {
+    for (const std::string& w : s.warnings)
+      if (w.find("cover only") != std::string::npos) return true;
+    return false;
+  };
+  CHECK(covers_warning(fit_cylinder_minimum_circumscribed(side.points).summary));
+  CHECK_FALSE(covers_warning(fit_cylinder_minimum_circumscribed(side.points, quiet).summary));
+}
+
 TEST_CASE("degenerate cylinders are refused", "[chebyshev][cylinder]") {
   // One cross-section: the axis direction is not determined.
   const ReferenceSet section = make_lobed_cylinder(
