@@ -568,8 +568,8 @@ TEST_CASE("without the reported coverage the elements are the same bits",
       if (w.find("cover only") != std::string::npos) return true;
     return false;
   };
-  CHECK(covers_warning(fit_cylinder_minimum_circumscribed(side.points).summary));
-  CHECK_FALSE(covers_warning(fit_cylinder_minimum_circumscribed(side.points, quiet).summary));
+  CHECK(covers_warning(fit_cylinder_least_squares(side.points, FitOptions{}).summary));
+  CHECK_FALSE(covers_warning(fit_cylinder_least_squares(side.points, quiet).summary));
 }
 
 TEST_CASE("degenerate cylinders are refused", "[chebyshev][cylinder]") {
