@@ -19,6 +19,8 @@
 #include <random>
 #include <regex>
 #include <string>
+#include <utility>
+#include <vector>
 
 #include "cylzone/core/errors.hpp"
 #include "cylzone/fit/fit_circle.hpp"
@@ -269,16 +271,23 @@ TEST_CASE("Chebyshev circles on asymmetric noise beat the least-squares circle",
 TEST_CASE("maximum-inscribed circle on a short arc is unbounded", "[chebyshev][circle]") {
   const ReferenceSet arc = make_circle_reference({5.0, 5.0, 0.0}, Eigen::Vector3d::UnitZ(), 10.0,
                                                  0.0, 90.0, 30, 0.001, 3);
-  try {
-    fit_circle_maximum_inscribed(arc.points);
-    FAIL("no FitError for a 90 degree arc");
-  } catch (const FitError& e) {
-    const std::string what = e.what();
-    INFO(what);
-    CHECK_THAT(what, Catch::Contains("unbounded"));
-    const std::string covered = first_number_after(what, "cover only");
-    REQUIRE(!covered.empty());
-    CHECK(std::stod(covered) == Approx(90.0).margin(1.0));
+  // Also without the reported coverage (FitOptions::result_coverage): the refusal rests on
+  // the start's coverage, measured either way.
+  for (bool reported : {true, false}) {
+    FitOptions options;
+    options.result_coverage = reported;
+    INFO((reported ? "coverage reported" : "coverage not reported"));
+    try {
+      fit_circle_maximum_inscribed(arc.points, options);
+      FAIL("no FitError for a 90 degree arc");
+    } catch (const FitError& e) {
+      const std::string what = e.what();
+      INFO(what);
+      CHECK_THAT(what, Catch::Contains("unbounded"));
+      const std::string covered = first_number_after(what, "cover only");
+      REQUIRE(!covered.empty());
+      CHECK(std::stod(covered) == Approx(90.0).margin(1.0));
+    }
   }
   // The other two are bounded on the same arc.
   CHECK_NOTHROW(fit_circle_minimum_circumscribed(arc.points));
@@ -453,10 +462,14 @@ TEST_CASE("maximum-inscribed cylinder on one side of a bore is unbounded",
           "[chebyshev][cylinder]") {
   const Axis axis{{0.0, 0.0, 0.0}, Eigen::Vector3d::UnitZ()};
   const ReferenceSet side = make_cylinder_reference(axis, 10.0, -10.0, 10.0, 5, 30, 120.0, 0.002, 11);
-  for (bool fixed : {false, true}) {
+  // With and without the reported coverage (FitOptions::result_coverage), as for circles.
+  for (int variant = 0; variant < 4; ++variant) {
+    const bool fixed = variant % 2 == 1;
     FitOptions options;
+    options.result_coverage = variant < 2;
     if (fixed) options.fixed_direction = Eigen::Vector3d::UnitZ();
-    INFO((fixed ? "fixed direction" : "free axis"));
+    INFO((fixed ? "fixed direction" : "free axis")
+         << (options.result_coverage ? "" : ", coverage not reported"));
     try {
       fit_cylinder_maximum_inscribed(side.points, options);
       FAIL("no FitError for points on a 120 degree arc");
@@ -469,6 +482,94 @@ TEST_CASE("maximum-inscribed cylinder on one side of a bore is unbounded",
       CHECK(std::stod(covered) == Approx(120.0).margin(3.0));
     }
   }
+}
+
+// The four fits of an element by name: least squares and the three Chebyshev methods.
+template <class Element>
+using FitOf = Element (*)(const Eigen::Matrix3Xd&, const FitOptions&);
+template <class Element>
+std::vector<std::pair<std::string, FitOf<Element>>> four_methods(FitOf<Element> ls,
+                                                                 FitOf<Element> zone,
+                                                                 FitOf<Element> inscribed,
+                                                                 FitOf<Element> circumscribed) {
+  return {{"least squares", ls},
+          {"minimum zone", zone},
+          {"maximum inscribed", inscribed},
+          {"minimum circumscribed", circumscribed}};
+}
+
+TEST_CASE("without the reported coverage the elements are the same bits",
+          "[chebyshev][coverage]") {
+  // FitOptions::result_coverage off (a Monte Carlo trial) leaves the reported coverage and the
+  // least-squares covariance out and nothing else: every element must be the bits of the fit
+  // with them (the computation it replaces), on full bores with noise (null-space deviations,
+  // tests/support/reference_data.hpp) and held or free axes. (An inscribed element on an arc
+  // below 180 degrees is still refused with the arc it covers: the tests of unbounded inscribed
+  // elements above.)
+  const Axis axis{{0.3, -0.2, 1.0}, direction_from_angles(4.0, 25.0)};
+  const ReferenceSet bore = make_cylinder_reference(axis, 8.0, -10.0, 10.0, 6, 24, 360.0, 0.004, 5);
+  const ReferenceSet ring =
+      make_circle_reference({1.0, 2.0, 3.0}, direction_from_angles(3.0, 70.0), 6.0, 0.0, 360.0,
+                            40, 0.003, 9);
+  FitOptions quiet;
+  quiet.result_coverage = false;
+  const auto same_cylinder = [](const CylinderFit& a, const CylinderFit& b) {
+    CHECK(a.axis.point == b.axis.point);
+    CHECK(a.axis.direction == b.axis.direction);
+    CHECK(a.radius == b.radius);
+    CHECK(a.extent_min == b.extent_min);
+    CHECK(a.extent_max == b.extent_max);
+    CHECK(a.residuals.values == b.residuals.values);
+    CHECK(a.summary.iterations == b.summary.iterations);
+    CHECK(a.summary.contacts.size() == b.summary.contacts.size());
+  };
+  for (bool fixed : {false, true}) {
+    FitOptions full, off = quiet;
+    if (fixed) full.fixed_direction = off.fixed_direction = axis.direction;
+    for (const auto& [name, fit] :
+         four_methods<CylinderFit>(&fit_cylinder_least_squares, &fit_cylinder_minimum_zone,
+                                   &fit_cylinder_maximum_inscribed,
+                                   &fit_cylinder_minimum_circumscribed)) {
+      INFO(name << (fixed ? ", held direction" : ", free axis"));
+      const CylinderFit a = fit(bore.points, full);
+      const CylinderFit b = fit(bore.points, off);
+      same_cylinder(a, b);
+      CHECK(a.covariance.matrix.size() ==
+            (name == "least squares" ? (fixed ? 9 : 25) : 0));
+      CHECK(b.covariance.matrix.size() == 0);
+      // The least-squares cylinder keeps its coverage (started fits rest on it); the others
+      // report none. The points go all round (144 random angles: the largest gap is far below
+      // 40 degrees).
+      CHECK(a.angular_coverage_deg > 320.0);
+      CHECK(b.angular_coverage_deg ==
+            (name == "least squares" ? a.angular_coverage_deg : 0.0));
+    }
+  }
+  for (const auto& [name, fit] :
+       four_methods<CircleFit>(&fit_circle_least_squares, &fit_circle_minimum_zone,
+                               &fit_circle_maximum_inscribed, &fit_circle_minimum_circumscribed)) {
+    INFO("circle, " << name);
+    const CircleFit a = fit(ring.points, FitOptions{});
+    const CircleFit b = fit(ring.points, quiet);
+    CHECK(a.centre == b.centre);
+    CHECK(a.normal == b.normal);
+    CHECK(a.radius == b.radius);
+    CHECK(a.residuals.values == b.residuals.values);
+    CHECK(a.angular_coverage_deg > 270.0);  // 40 random angles all round
+    CHECK(b.angular_coverage_deg == 0.0);
+    CHECK(b.covariance.matrix.size() == 0);
+  }
+  // The coverage warning (points on a 120 degree arc) is given with the coverage reported, not
+  // without.
+  const ReferenceSet side =
+      make_cylinder_reference(Axis{}, 10.0, -10.0, 10.0, 5, 30, 120.0, 0.002, 11);
+  const auto covers_warning = [](const FitSummary& s) {
+    for (const std::string& w : s.warnings)
+      if (w.find("cover only") != std::string::npos) return true;
+    return false;
+  };
+  CHECK(covers_warning(fit_cylinder_least_squares(side.points, FitOptions{}).summary));
+  CHECK_FALSE(covers_warning(fit_cylinder_least_squares(side.points, quiet).summary));
 }
 
 TEST_CASE("degenerate cylinders are refused", "[chebyshev][cylinder]") {

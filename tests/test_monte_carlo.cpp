@@ -641,8 +641,9 @@ TEST_CASE("monte carlo: the demo moved rigidly gives the same uncertainties", "[
 TEST_CASE("monte carlo: the lean profile gives every characteristic's value bit for bit",
           "[monte-carlo]") {
   // The trial profile skips what no characteristic reads (EvaluationProfile::unread_results:
-  // fits no figure rests on, the sampling record, the surface map); the characteristics the
-  // study records must be those of the full evaluation, bit for bit. Checked on the demo as
+  // fits no figure rests on, the sampling record, the surface map, the fits' reported coverage
+  // and covariance); the characteristics the study records must be those of the full
+  // evaluation, bit for bit. Checked on the demo as
   // planned, without two-point sizes (the upper limit then rests on the minimum material
   // envelope) and with every position tolerance at LMC (bonus and boundary from the minimum
   // material envelope). Reference: the full evaluation itself (the profile's contract). Also on
@@ -704,6 +705,20 @@ TEST_CASE("monte carlo: the lean profile gives every characteristic's value bit 
       if (!plan->bores[i].cylindricity)
         CHECK(b.bores[i].minimum_zone.summary.point_count == 0);
       CHECK(!b.bores[i].sampling);
+      // Nor the fits' reported coverage and covariance (FitOptions::result_coverage): the
+      // sections are the same circles without them.
+      CHECK(a.bores[i].mating_envelope.angular_coverage_deg > 0.0);
+      CHECK(b.bores[i].mating_envelope.angular_coverage_deg == 0.0);
+      REQUIRE(a.bores[i].sections.size() == b.bores[i].sections.size());
+      for (std::size_t k = 0; k < a.bores[i].sections.size(); ++k) {
+        const CircleFit& x = a.bores[i].sections[k].circle;
+        const CircleFit& y = b.bores[i].sections[k].circle;
+        CHECK(x.centre == y.centre);
+        CHECK(x.radius == y.radius);
+        CHECK(x.angular_coverage_deg > 0.0);
+        CHECK(y.angular_coverage_deg == 0.0);
+        CHECK(y.covariance.matrix.size() == 0);
+      }
     }
     // A's flatness: computed in full, left 0 in the lean profile (the demo's A is a tangent
     // plane, whose association does not give it).

@@ -346,7 +346,8 @@ Eigen::MatrixXd covariance_from_normal_matrix(const Eigen::MatrixXd& jtj, double
 }
 
 void warn_on_coverage(FitSummary& summary, double coverage_deg, const FitOptions& options) {
-  if (coverage_deg < options.coverage_warning_deg)
+  // FitOptions::result_coverage off: the coverage may not have been measured (left 0).
+  if (options.result_coverage && coverage_deg < options.coverage_warning_deg)
     summary.warnings.push_back("points cover only " + format_number(coverage_deg, 1) +
                                " degrees of arc; radius and centre are poorly determined");
 }

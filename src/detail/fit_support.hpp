@@ -162,7 +162,8 @@ void require_point_count(std::size_t n, std::size_t needed, const char* element)
 Eigen::MatrixXd covariance_from_normal_matrix(const Eigen::MatrixXd& jtj, double ssr,
                                               std::size_t n);
 
-/// Adds the coverage warning to `summary` when coverage < options.coverage_warning_deg.
+/// Adds the coverage warning to `summary` when coverage < options.coverage_warning_deg; none
+/// when FitOptions::result_coverage is off.
 void warn_on_coverage(FitSummary& summary, double coverage_deg, const FitOptions& options);
 
 /// Fixed-precision number for messages, e.g. format_number(0.12345, 4) == "0.1235".

@@ -155,10 +155,14 @@ CircleFit fit_circle_least_squares(const Eigen::Matrix3Xd& points, const FitOpti
   fit.centre = centroid + basis.leftCols<2>() * planar.centre;
   fit.residuals = detail::make_residuals(
       ((uv.colwise() - planar.centre).colwise().norm().array() - planar.radius).matrix().transpose());
-  fit.angular_coverage_deg = detail::angular_coverage_deg(points, fit.centre, basis);
-  fit.covariance.basis = basis;
-  fit.covariance.matrix =
-      detail::covariance_from_normal_matrix(planar.normal_matrix, planar.ssr, n);
+  // Reported only (FitOptions::result_coverage): a Chebyshev circle started from this one
+  // measures the coverage it rests on itself when it is off.
+  if (options.result_coverage) {
+    fit.angular_coverage_deg = detail::angular_coverage_deg(points, fit.centre, basis);
+    fit.covariance.basis = basis;
+    fit.covariance.matrix =
+        detail::covariance_from_normal_matrix(planar.normal_matrix, planar.ssr, n);
+  }
   fit.summary.method = FitMethod::least_squares;
   fit.summary.point_count = n;
   fit.summary.status = planar.status;

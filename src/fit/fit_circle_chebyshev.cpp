@@ -17,8 +17,13 @@ CircleFit fit_circle_chebyshev(const Eigen::Matrix3Xd& points, const FitOptions&
   // the starting element.
   const CircleFit start = fit_circle_least_squares(points, options);
   const detail::ZoneObjective objective = detail::zone_objective(method);
-  detail::require_enclosing_points(objective, "circle", start.angular_coverage_deg);
   const Eigen::Matrix3d basis = detail::basis_from_direction(start.normal);
+  // The start's coverage, which an inscribed circle's refusal rests on: the start's own when
+  // it reported one (FitOptions::result_coverage), else measured here the same way.
+  const double start_coverage =
+      options.result_coverage ? start.angular_coverage_deg
+                              : detail::angular_coverage_deg(points, start.centre, basis);
+  detail::require_enclosing_points(objective, "circle", start_coverage);
   Eigen::Matrix2Xd uv = detail::planar_coordinates(points, start.centre, basis);
   const double scale = detail::planar_scale(uv);
 
@@ -29,13 +34,14 @@ CircleFit fit_circle_chebyshev(const Eigen::Matrix3Xd& points, const FitOptions&
   detail::CircleZoneModel model(std::move(uv), Eigen::Vector2d::Zero());
   const detail::ZoneSummary zone = detail::solve_zone(model, objective, zone_options);
   if (zone.status == detail::ZoneStatus::unbounded)
-    detail::throw_unbounded_inscribed("circle", start.angular_coverage_deg);
+    detail::throw_unbounded_inscribed("circle", start_coverage);
 
   CircleFit fit;
   fit.normal = start.normal;
   fit.centre = start.centre + basis.leftCols<2>() * model.centre();
   fit.radius = detail::zone_radius(objective, zone.distances);
-  fit.angular_coverage_deg = detail::angular_coverage_deg(points, fit.centre, basis);
+  if (options.result_coverage)
+    fit.angular_coverage_deg = detail::angular_coverage_deg(points, fit.centre, basis);
   fit.residuals = detail::make_residuals(zone.distances.array() - fit.radius);
   fit.ambiguity = zone.ambiguity;
   fit.summary = detail::zone_fit_summary(method, zone, static_cast<std::size_t>(points.cols()));

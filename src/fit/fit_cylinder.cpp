@@ -444,9 +444,11 @@ CylinderFit make_result(const Eigen::Matrix3Xd& points, const Eigen::Vector3d& c
   fit.extent_max = pass.extent_max;
   fit.residuals = detail::make_residuals(std::move(pass.residuals));
   fit.angular_coverage_deg = pass.coverage_deg;
-  fit.covariance.basis = basis;
-  fit.covariance.matrix =
-      detail::covariance_from_normal_matrix(jtj, fit.residuals.values.squaredNorm(), n);
+  if (options.result_coverage) {  // reported only (FitOptions::result_coverage)
+    fit.covariance.basis = basis;
+    fit.covariance.matrix =
+        detail::covariance_from_normal_matrix(jtj, fit.residuals.values.squaredNorm(), n);
+  }
   fit.summary.method = FitMethod::least_squares;
   fit.summary.point_count = n;
   return fit;
@@ -642,8 +644,11 @@ CylinderFit fit_fixed_direction(const Eigen::Matrix3Xd& points, const FitOptions
   fit.extent_max = pass.extent_max;
   fit.residuals = detail::make_residuals(std::move(pass.residuals));
   fit.angular_coverage_deg = pass.coverage_deg;
-  fit.covariance.basis = basis;
-  fit.covariance.matrix = detail::covariance_from_normal_matrix(circle.normal_matrix, circle.ssr, n);
+  if (options.result_coverage) {  // reported only (FitOptions::result_coverage)
+    fit.covariance.basis = basis;
+    fit.covariance.matrix =
+        detail::covariance_from_normal_matrix(circle.normal_matrix, circle.ssr, n);
+  }
   fit.summary.method = FitMethod::least_squares;
   fit.summary.point_count = n;
   fit.summary.status = circle.status;

@@ -23,8 +23,11 @@ CylinderFit cylinder_result(const Eigen::Matrix3Xd& points, const Axis& axis,
                                     options.axis_hint);
   std::tie(fit.extent_min, fit.extent_max) = detail::axial_extent(points, fit.axis);
   fit.radius = detail::zone_radius(detail::zone_objective(method), zone.distances);
-  fit.angular_coverage_deg = detail::angular_coverage_deg(
-      points, fit.axis.point, detail::basis_from_direction(fit.axis.direction));
+  // Reported only (FitOptions::result_coverage): the refusal of an unbounded inscribed
+  // cylinder rests on its start's coverage, measured before the descent.
+  if (options.result_coverage)
+    fit.angular_coverage_deg = detail::angular_coverage_deg(
+        points, fit.axis.point, detail::basis_from_direction(fit.axis.direction));
   fit.residuals = detail::make_residuals(zone.distances.array() - fit.radius);
   // A held direction makes it a circle problem: the centre's displacement is the axis'.
   fit.ambiguity = zone.ambiguity;

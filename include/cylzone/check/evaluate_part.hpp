@@ -36,7 +36,8 @@ struct EvaluationProfile {
   bool two_point_sizes = true;
   /// Results no characteristic reads: fits no figure rests on, the sampling record, the
   /// surface map (BoreEvaluationOptions::unread_results), datum A's minimum-zone flatness
-  /// (DatumFrameOptions::flatness).
+  /// (DatumFrameOptions::flatness), the fits' reported coverage and covariance
+  /// (FitOptions::result_coverage).
   bool unread_results = true;
 };
 
@@ -44,8 +45,9 @@ struct PartEvaluation;
 
 struct EvaluationOptions {
   /// Fits, sections and the stray-point screen's parameters, for datums and bores alike. Its
-  /// `fit.threads`, `fit.assess_ambiguity`, `two_point_sizes`, `stray_screen` and
-  /// `stray_points.threads` are set from `threads` and `profile` by evaluate_part.
+  /// `fit.threads`, `fit.assess_ambiguity`, `fit.result_coverage`, `two_point_sizes`,
+  /// `stray_screen` and `stray_points.threads` are set from `threads` and `profile` by
+  /// evaluate_part.
   BoreEvaluationOptions bore;
   MobilityOptions mobility;
   EvaluationProfile profile;

@@ -123,6 +123,14 @@ struct FitOptions {
   bool use_point_vectors = true;
   /// A warning is added when the points cover less than this angle around a circle or cylinder.
   double coverage_warning_deg = 180.0;
+  /// Report the angular coverage of a Chebyshev cylinder or circle and of a least-squares
+  /// circle (their `angular_coverage_deg`, with the warning above) and the covariance of a
+  /// least-squares circle or cylinder. Off (a Monte Carlo trial's evaluation:
+  /// EvaluationProfile::unread_results), those results are left 0 and empty and no fit gives a
+  /// coverage warning: no figure reads them. What rests on coverage is measured either way (a
+  /// maximum-inscribed element is refused below 180 degrees from its start's coverage; a
+  /// least-squares cylinder always has its own, which a started fit reads through fit_start()).
+  bool result_coverage = true;
   /// Chebyshev fits (minimum zone, mating envelopes): when the optimum is not proven unique by
   /// its contacts, walk the near-optimal set to measure how far the element can move, and
   /// explore flat optima for other, equally good or better, local optima (docs/chebyshev.md,
