@@ -513,11 +513,15 @@ class Grid {
   /// offset from the face, in floating point too (rounding is monotone), and the other terms
   /// of its sum are >= 0.
   double outside_bound(const double* q, const std::int64_t* c, std::int64_t r) const {
+    double low[3], high[3];
+    for (int a = 0; a < 3; ++a) block_faces(c[a], r, a, low[a], high[a]);
+    return outside_of(q, low, high);
+  }
+  /// outside_bound for a block with faces `low` and `high` (block_faces).
+  static double outside_of(const double* q, const double* low, const double* high) {
     double bound = std::numeric_limits<double>::infinity();
     for (int a = 0; a < 3; ++a) {
-      double low, high;
-      block_faces(c[a], r, a, low, high);
-      double gap = std::min(q[a] - low, high - q[a]);
+      const double gap = std::min(q[a] - low[a], high[a] - q[a]);
       if (!(gap > 0.0)) return 0.0;
       bound = std::min(bound, gap * gap);
     }
@@ -649,6 +653,12 @@ bool gather_block(const Grid& g, const std::int64_t* c, std::int64_t r, std::siz
   return true;
 }
 
+/// Appends the point with input index `index` and its k nearest (s.top) to the chunk's output.
+void keep_found(GridScratch& s, std::uint32_t index, std::size_t k) {
+  s.points.push_back(index);
+  for (std::size_t j = 0; j < k; ++j) s.rows.push_back(s.id[s.top[j]]);
+}
+
 /// The k nearest of the gathered candidates to q in (distance, index) order, itself (slot
 /// s.self) excluded, among those within `bound` (an upper bound of the k-th distance, or
 /// infinity), into s.top; returns how many were found (k unless there are fewer candidates).
@@ -764,18 +774,10 @@ AllNearestSummary all_nearest(const Eigen::Matrix3Xd& points, std::size_t k, std
         }
         select_nearest(q, k, bound, s);
         previous = s.self;
-        double outside = std::numeric_limits<double>::infinity();
-        for (int a = 0; a < 3; ++a) {
-          const double gap = std::min(q[a] - low[a], high[a] - q[a]);
-          outside = gap > 0.0 ? std::min(outside, gap * gap) : 0.0;
-          if (outside == 0.0) break;
-        }
-        if (!(s.distance[s.top[k - 1]] < outside)) {
+        if (s.distance[s.top[k - 1]] < Grid::outside_of(q, low, high))
+          keep_found(s, g.order_[p], k);
+        else
           unsure.push_back(p);
-          continue;
-        }
-        s.points.push_back(g.order_[p]);
-        for (std::size_t j = 0; j < k; ++j) s.rows.push_back(s.id[s.top[j]]);
       }
     }
     if (!s.points.empty()) receive(w, s.points.size(), s.points.data(), s.rows.data());
@@ -803,12 +805,10 @@ AllNearestSummary all_nearest(const Eigen::Matrix3Xd& points, std::size_t k, std
         if (select_nearest(q, k, std::numeric_limits<double>::infinity(), s) < k) continue;
         done = s.distance[s.top[k - 1]] < g.outside_bound(q, at, r);
       }
-      if (!done) {
+      if (done)
+        keep_found(s, g.order_[p], k);
+      else
         left[chunk].push_back(g.order_[p]);
-        continue;
-      }
-      s.points.push_back(g.order_[p]);
-      for (std::size_t j = 0; j < k; ++j) s.rows.push_back(s.id[s.top[j]]);
     }
     if (!s.points.empty()) receive(w, s.points.size(), s.points.data(), s.rows.data());
   });
