@@ -8,13 +8,15 @@
 // points); best and median wall clock and the best CPU time (all threads together) are printed.
 // The screen runs on StrayPointOptions::threads (default: the machine's cores) and once more on
 // one thread (column 1thread), whose report must be identical.
-// A second table splits the one-thread screen into its parts, each timed alone: building the
-// neighbour index, the k-nearest queries of every point as the screen runs them
-// (NeighbourIndex::nearest_in_order over the locality order in chunks of 4096), the same
-// queries one at a time (Query::of_point, unbounded at the start), and the rest (medians, MAD,
-// flagging) as the screen minus index and queries. The queries' own cost bounds what any faster
-// median or statistics pass can gain. The parts are CPU times (they do not count the waits of a
-// loaded machine).
+// A second table splits the one-thread screen into its parts, each timed alone: every point's
+// k nearest as the screen finds them (all_nearest: the grid, the KD-tree for the points it does
+// not certify; with the share certified by the 3x3x3 block, by a wider block, by the tree),
+// and the rest (medians, MAD, flagging) as the screen minus that; then the KD-tree alone for
+// comparison: building the neighbour index, the queries of every point through it
+// (NeighbourIndex::nearest_in_order over the locality order in chunks of 4096), and the same
+// queries one at a time (Query::of_point, unbounded at the start). The neighbours' cost bounds
+// what any faster median or statistics pass can gain. The parts are CPU times (they do not
+// count the waits of a loaded machine).
 //
 // Usage: bench_stray_points [--sizes 10000,100000,1000000] [--screen-only]
 //   --screen-only  skips the least-squares cylinder and evaluate_bore timings (the cylinder is
@@ -97,7 +99,8 @@ int main(int argc, char** argv) {
               "1t_cpu/pt", "shuffled", "ls_cylinder", "evaluate", "eval_median", "share");
   struct Parts {
     std::size_t n;
-    double screen_ms, index_ms, queries_ms, single_ms;
+    double screen_ms, grid_ms, index_ms, queries_ms, single_ms;
+    cylzone::AllNearestSummary grid;
   };
   std::vector<Parts> parts;
   for (const std::size_t n : sizes) {
@@ -154,6 +157,16 @@ int main(int argc, char** argv) {
                 screen_only ? 0.0 : 100.0 * screen_time.best_ms / bore_time.best_ms,
                 report.points.size());
     // The one-thread screen's parts, each alone.
+    cylzone::AllNearestSummary grid;
+    std::uint64_t found_grid = 0;
+    const Timing grid_time = time_runs(runs, [&] {
+      found_grid = 0;
+      grid = cylzone::all_nearest(points, 8, 1,
+                                  [&](std::size_t, std::size_t count, const std::uint32_t*,
+                                      const std::uint32_t* rows) {
+                                    for (std::size_t j = 0; j < 8 * count; ++j) found_grid += rows[j];
+                                  });
+    });
     const Timing index_time = time_runs(runs, [&] { cylzone::NeighbourIndex index(points, 1); });
     const cylzone::NeighbourIndex index(points, 1);
     std::uint64_t found = 0, found_single = 0;
@@ -171,25 +184,29 @@ int main(int argc, char** argv) {
       for (const std::uint32_t i : index.locality_order())
         for (const std::uint32_t j : query.of_point(index, i)) found_single += j;
     });
-    if (found != found_single) {  // a checksum of the neighbours: both searches are exact
-      std::fprintf(stderr, "bench_stray_points: the batch and single searches differ\n");
+    if (found != found_single || found != found_grid) {  // a checksum: the searches are exact
+      std::fprintf(stderr, "bench_stray_points: the grid, batch and single searches differ\n");
       return 1;
     }
-    parts.push_back({n, serial_time.best_cpu_ms, index_time.best_cpu_ms, query_time.best_cpu_ms,
-                     single_time.best_cpu_ms});
+    parts.push_back({n, serial_time.best_cpu_ms, grid_time.best_cpu_ms, index_time.best_cpu_ms,
+                     query_time.best_cpu_ms, single_time.best_cpu_ms, grid});
   }
   std::printf("# one thread, each part alone: best CPU time of the runs, ns per point\n");
-  std::printf("# %9s %9s %9s %9s %9s %9s\n", "points", "screen", "index", "queries", "rest",
-              "single");
+  std::printf("# %9s %9s %9s %9s %7s %7s %7s %8s | %9s %9s %9s\n", "points", "screen", "nearest",
+              "rest", "grid%", "wider%", "tree%", "cell_mm", "index", "queries", "single");
   for (const Parts& p : parts) {
-    const double per = 1e6 / static_cast<double>(p.n);
-    std::printf("  %9zu %9.1f %9.1f %9.1f %9.1f %9.1f\n", p.n, per * p.screen_ms, per * p.index_ms,
-                per * p.queries_ms, per * (p.screen_ms - p.index_ms - p.queries_ms),
-                per * p.single_ms);
+    const double per = 1e6 / static_cast<double>(p.n), share = 100.0 / static_cast<double>(p.n);
+    std::printf("  %9zu %9.1f %9.1f %9.1f %7.3f %7.3f %7.3f %8.4f | %9.1f %9.1f %9.1f\n", p.n,
+                per * p.screen_ms, per * p.grid_ms, per * (p.screen_ms - p.grid_ms),
+                share * static_cast<double>(p.grid.certified),
+                share * static_cast<double>(p.grid.widened), share * static_cast<double>(p.grid.tree),
+                p.grid.cell, per * p.index_ms, per * p.queries_ms, per * p.single_ms);
   }
   std::printf("# shuffled = the screen on the same cloud in random order; share = screen best /\n"
-              "# evaluate_bore best (evaluate_bore includes the screen); rest = screen - index -\n"
-              "# queries (medians, MAD, checks, flagging); single = the same queries one at a\n"
-              "# time (Query::of_point); screen-only runs print 0 for ls_cylinder and evaluate\n");
+              "# evaluate_bore best (evaluate_bore includes the screen); nearest = all_nearest;\n"
+              "# rest = screen - nearest (medians, MAD, checks, flagging); grid%%, wider%%, tree%%\n"
+              "# = points answered by the 3x3x3 block, a wider block, the tree; index, queries =\n"
+              "# the KD-tree alone; single = its queries one at a time (Query::of_point);\n"
+              "# screen-only runs print 0 for ls_cylinder and evaluate\n");
   return 0;
 }

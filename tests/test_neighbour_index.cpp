@@ -195,3 +195,219 @@ TEST_CASE("nearest_in_order refuses what it cannot answer", "[neighbour_index]")
   index.nearest_in_order(8, 7, 7, out);
   CHECK(out.empty());
 }
+
+// ---------------------------------------------------------------------------------------------
+// all_nearest: the grid with certification, the KD-tree for the rest. Reference: the exhaustive
+// search above (the definition), and the KD-tree's single query (Query::of_point) on large
+// clouds where the exhaustive search of every point would be too slow.
+
+namespace {
+
+/// Every point's neighbours from all_nearest on `threads` threads, in input order; checks
+/// each point is handed over exactly once, and every row has k entries.
+std::vector<std::vector<std::uint32_t>> grid_rows(const Eigen::Matrix3Xd& points, std::size_t k,
+                                                  std::size_t threads,
+                                                  AllNearestSummary* summary = nullptr) {
+  const std::size_t n = static_cast<std::size_t>(points.cols());
+  std::vector<std::vector<std::uint32_t>> rows(n);
+  std::vector<int> seen(n, 0);
+  const AllNearestSummary s = all_nearest(
+      points, k, threads,
+      [&](std::size_t worker, std::size_t count, const std::uint32_t* at,
+          const std::uint32_t* found) {
+        CHECK(worker < std::max<std::size_t>(1, threads));
+        for (std::size_t j = 0; j < count; ++j) {
+          // Workers own disjoint points, so these writes never race.
+          ++seen[at[j]];
+          rows[at[j]].assign(found + j * k, found + (j + 1) * k);
+        }
+      });
+  CHECK(std::count(seen.begin(), seen.end(), 1) == static_cast<std::ptrdiff_t>(n));
+  CHECK(s.certified + s.widened + s.tree == n);
+  if (summary) *summary = s;
+  return rows;
+}
+
+/// all_nearest on one and two threads against the exhaustive search, every point.
+AllNearestSummary check_grid_exhaustive(const Eigen::Matrix3Xd& points, std::size_t k) {
+  AllNearestSummary summary;
+  const auto one = grid_rows(points, k, 1, &summary);
+  const auto two = grid_rows(points, k, 2);
+  for (Eigen::Index i = 0; i < points.cols(); ++i) {
+    const std::vector<std::uint32_t> expected = exhaustive(points, i, k);
+    INFO("point " << i << " at " << points.col(i).transpose() << ", cell " << summary.cell);
+    REQUIRE(one[static_cast<std::size_t>(i)] == expected);
+    REQUIRE(two[static_cast<std::size_t>(i)] == expected);
+  }
+  return summary;
+}
+
+/// A scanned bore: rows of `per_row` points `pitch` apart around a circle of radius 5, rows
+/// `pitch` apart, 1 um radial noise.
+Eigen::Matrix3Xd scanned_bore(Eigen::Index n, Eigen::Index per_row, double pitch, std::uint64_t seed) {
+  std::mt19937_64 rng(seed);
+  std::normal_distribution<double> noise(0.0, 0.001);
+  Eigen::Matrix3Xd points(3, n);
+  for (Eigen::Index i = 0; i < n; ++i) {
+    const double a = 2.0 * 3.14159265358979323846 * static_cast<double>(i % per_row) /
+                     static_cast<double>(per_row);
+    const double r = 5.0 + noise(rng);
+    points.col(i) = Eigen::Vector3d(40.0 + r * std::cos(a), 25.0 + r * std::sin(a),
+                                    -pitch * static_cast<double>(i / per_row));
+  }
+  return points;
+}
+
+}  // namespace
+
+TEST_CASE("all_nearest gives the exhaustive search's neighbours on uniform, clustered, planar "
+          "and cylindrical clouds",
+          "[neighbour_index][grid]") {
+  std::mt19937_64 rng(101);
+  std::uniform_real_distribution<double> unit(-1.0, 1.0);
+  std::normal_distribution<double> normal(0.0, 1.0);
+  const Eigen::Index n = 3000;
+  SECTION("uniform in a box") {
+    Eigen::Matrix3Xd points(3, n);
+    for (Eigen::Index i = 0; i < n; ++i)
+      points.col(i) = Eigen::Vector3d(120.0 + 5.0 * unit(rng), -40.0 + 3.0 * unit(rng), unit(rng));
+    const AllNearestSummary s = check_grid_exhaustive(points, 8);
+    CHECK(s.certified > static_cast<std::size_t>(n) / 2);  // the grid does the work
+    check_grid_exhaustive(points, 1);
+    check_grid_exhaustive(points, 30);
+  }
+  SECTION("clustered: tight blobs far apart, and a few lone points") {
+    Eigen::Matrix3Xd points(3, n);
+    for (Eigen::Index i = 0; i < n; ++i) {
+      const double centre = 50.0 * static_cast<double>(i % 7);
+      points.col(i) = Eigen::Vector3d(centre + 0.01 * normal(rng), 0.01 * normal(rng),
+                                      -centre + 0.01 * normal(rng));
+    }
+    for (Eigen::Index i = 0; i < 5; ++i) points.col(10 * i) = Eigen::Vector3d(25.0 * i, 30.0, 3.0);
+    const AllNearestSummary s = check_grid_exhaustive(points, 8);
+    CHECK(s.tree >= 5);  // the lone points are far from any 7x7x7 block's reach
+  }
+  SECTION("planar: a tilted face") {
+    const Eigen::Matrix3d turn = (Eigen::AngleAxisd(0.3, Eigen::Vector3d::UnitX()) *
+                                  Eigen::AngleAxisd(0.2, Eigen::Vector3d::UnitY()))
+                                     .toRotationMatrix();
+    Eigen::Matrix3Xd points(3, n);
+    for (Eigen::Index i = 0; i < n; ++i)
+      points.col(i) = turn * Eigen::Vector3d(20.0 * unit(rng), 10.0 * unit(rng), 0.0) +
+                      Eigen::Vector3d(5.0, 6.0, 7.0);
+    check_grid_exhaustive(points, 8);
+  }
+  SECTION("planar, axis-aligned: one coordinate the same for all points") {
+    Eigen::Matrix3Xd points(3, n);
+    for (Eigen::Index i = 0; i < n; ++i)
+      points.col(i) = Eigen::Vector3d(20.0 * unit(rng), 10.0 * unit(rng), 4.0);
+    check_grid_exhaustive(points, 8);
+  }
+  SECTION("a scanned bore (points on a cylindrical surface, rows and columns)") {
+    const AllNearestSummary s = check_grid_exhaustive(scanned_bore(4000, 314, 0.1, 103), 8);
+    CHECK(s.certified > 3000);
+  }
+  SECTION("a face and points 1.5 and 2.5 cells off it: certified by the wider blocks") {
+    Eigen::Matrix3Xd points(3, n);
+    for (Eigen::Index i = 0; i < n; ++i)
+      points.col(i) = Eigen::Vector3d(10.0 * unit(rng), 10.0 * unit(rng), 0.0);
+    AllNearestSummary face;
+    grid_rows(points, 8, 1, &face);
+    points.col(5) = Eigen::Vector3d(0.1, 0.2, 1.5 * face.cell);
+    points.col(6) = Eigen::Vector3d(-3.1, 2.2, -2.5 * face.cell);
+    const AllNearestSummary s = check_grid_exhaustive(points, 8);
+    INFO("cell " << s.cell << " on the face alone " << face.cell);
+    CHECK(s.widened >= 2);
+  }
+}
+
+TEST_CASE("all_nearest: exact ties, coincident points, cell edges, tiny clouds",
+          "[neighbour_index][grid]") {
+  SECTION("integer grid in a scrambled order: many equal distances") {
+    const int nx = 14, ny = 12, nz = 9;
+    const std::size_t n = static_cast<std::size_t>(nx) * ny * nz;
+    std::vector<std::uint32_t> slot(n);
+    for (std::size_t i = 0; i < n; ++i) slot[i] = static_cast<std::uint32_t>(i);
+    std::shuffle(slot.begin(), slot.end(), std::mt19937_64(107));
+    Eigen::Matrix3Xd points(3, static_cast<Eigen::Index>(n));
+    for (std::size_t g = 0; g < n; ++g)
+      points.col(slot[g]) = Eigen::Vector3d(-30.0 + static_cast<double>(g % nx),
+                                            static_cast<double>((g / nx) % ny),
+                                            7.0 + static_cast<double>(g / (nx * ny)));
+    check_grid_exhaustive(points, 8);
+    check_grid_exhaustive(points, 6);
+    check_grid_exhaustive(points, 26);
+  }
+  SECTION("coincident points: a pile larger than a block may hold, and small piles") {
+    std::mt19937_64 rng(109);
+    std::uniform_real_distribution<double> unit(0.0, 1.0);
+    Eigen::Matrix3Xd points(3, 2000);
+    for (Eigen::Index i = 0; i < points.cols(); ++i)
+      points.col(i) = Eigen::Vector3d(unit(rng), unit(rng), unit(rng));
+    for (Eigen::Index i = 100; i < 1900; i += 3) points.col(i) = Eigen::Vector3d(0.5, 0.5, 0.5);
+    for (Eigen::Index i = 0; i < 5; ++i) points.col(1990 + i) = points.col(7);
+    const AllNearestSummary s = check_grid_exhaustive(points, 8);
+    CHECK(s.tree >= 600);  // the pile's cell holds more candidates than the cap
+  }
+  SECTION("k + 1 coincident points, and k + 1 points in all") {
+    check_grid_exhaustive(Eigen::Vector3d(1.0, 2.0, 3.0).replicate(1, 9), 8);
+    std::mt19937_64 rng(113);
+    std::uniform_real_distribution<double> unit(-1.0, 1.0);
+    Eigen::Matrix3Xd points(3, 9);
+    for (Eigen::Index i = 0; i < 9; ++i) points.col(i) = Eigen::Vector3d(unit(rng), unit(rng), unit(rng));
+    check_grid_exhaustive(points, 8);
+    check_grid_exhaustive(points.leftCols(2), 1);
+  }
+  SECTION("points exactly on the cells' edges") {
+    // Half the points snapped down to multiples of the cell edge from the lowest corner. On a
+    // uniform cloud the grid keeps its first cell edge, (volume x (k + 1) / 2 / n)^(1/3) of the
+    // bounding box (about (k + 1) / 2 points per occupied cell), which snapping down does not
+    // change; the test checks that it was the edge snapped to.
+    std::mt19937_64 rng(127);
+    std::uniform_real_distribution<double> unit(0.0, 10.0);
+    const Eigen::Index n = 3000;
+    Eigen::Matrix3Xd points(3, n);
+    for (Eigen::Index i = 0; i < n; ++i)
+      points.col(i) = Eigen::Vector3d(unit(rng), unit(rng), 0.5 * unit(rng));
+    points.col(0) = points.rowwise().minCoeff();
+    points.col(1) = points.rowwise().maxCoeff();
+    const Eigen::Vector3d corner = points.col(0), extent = points.col(1) - corner;
+    const double cell = std::cbrt(extent(0) * extent(1) * extent(2) * 4.5 / static_cast<double>(n));
+    for (Eigen::Index i = 2; i < n; i += 2)
+      for (int a = 0; a < 3; ++a)
+        points(a, i) = corner(a) + cell * std::floor((points(a, i) - corner(a)) / cell);
+    const AllNearestSummary s = check_grid_exhaustive(points, 8);
+    CHECK(s.cell == cell);
+  }
+  SECTION("far from the origin: 1e6 mm") {
+    std::mt19937_64 rng(131);
+    std::uniform_real_distribution<double> unit(-1.0, 1.0);
+    Eigen::Matrix3Xd points(3, 2000);
+    for (Eigen::Index i = 0; i < points.cols(); ++i)
+      points.col(i) = Eigen::Vector3d(1e6 + unit(rng), -1e6 + unit(rng), 1e6 + 0.01 * unit(rng));
+    check_grid_exhaustive(points, 8);
+  }
+}
+
+TEST_CASE("all_nearest on a large scanned bore equals the KD-tree on one and two threads",
+          "[neighbour_index][grid]") {
+  const Eigen::Matrix3Xd points = scanned_bore(300000, 314, 0.1, 137);
+  const std::size_t k = 8;
+  AllNearestSummary summary;
+  const auto one = grid_rows(points, k, 1, &summary);
+  CHECK(grid_rows(points, k, 2) == one);
+  CHECK(summary.certified > 290000);
+  const NeighbourIndex index(points, 2);
+  NeighbourIndex::Query query(k);
+  std::size_t differ = 0;
+  for (Eigen::Index i = 0; i < points.cols(); ++i)
+    differ += query.of_point(index, static_cast<std::size_t>(i)) == one[static_cast<std::size_t>(i)] ? 0 : 1;
+  CHECK(differ == 0);
+}
+
+TEST_CASE("all_nearest refuses what it cannot answer", "[neighbour_index][grid]") {
+  const Eigen::Matrix3Xd points = Eigen::Matrix3Xd::Random(3, 20);
+  const auto ignore = [](std::size_t, std::size_t, const std::uint32_t*, const std::uint32_t*) {};
+  CHECK_THROWS_AS(all_nearest(points, 0, 1, ignore), std::invalid_argument);
+  CHECK_THROWS_AS(all_nearest(points, 20, 1, ignore), std::invalid_argument);
+}

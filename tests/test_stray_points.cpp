@@ -345,6 +345,22 @@ TEST_CASE("the screen of a large scanned bore is the same on one and on two thre
   for (const StrayPoint& p : a.points) flagged.push_back(p.index);
   std::sort(flagged.begin(), flagged.end());
   CHECK(flagged == spikes);
+
+  // Rigid-motion invariance (the library's rule): the same cloud turned and moved 1e6 mm away
+  // has other cells, other certified points and other rounding, yet the same neighbour sets
+  // (its distances differ by rounding only, far below the 1 um noise that separates near
+  // neighbours), so the same excesses, scale and flagged points.
+  const Eigen::Matrix3d turn = (Eigen::AngleAxisd(0.7, Eigen::Vector3d::UnitZ()) *
+                                Eigen::AngleAxisd(-1.1, Eigen::Vector3d::UnitX()))
+                                   .toRotationMatrix();
+  const Eigen::Matrix3Xd moved = (turn * points).colwise() + Eigen::Vector3d(1e6, -2e6, 5e5);
+  const StrayPointReport c = find_stray_points(moved, residuals, two);
+  CHECK(c.robust_scale == a.robust_scale);
+  REQUIRE(c.points.size() == a.points.size());
+  for (std::size_t j = 0; j < a.points.size(); ++j) {
+    CHECK(c.points[j].index == a.points[j].index);
+    CHECK(c.points[j].excess == a.points[j].excess);
+  }
 }
 
 TEST_CASE("too few points and bad arguments", "[stray_points]") {

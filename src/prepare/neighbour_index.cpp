@@ -422,3 +422,417 @@ void NeighbourIndex::nearest_in_order(std::size_t k, std::size_t first, std::siz
 }
 
 }  // namespace cylzone
+
+// ---------------------------------------------------------------------------------------------
+// all_nearest: a uniform grid first, the KD-tree only for the points the grid cannot certify.
+
+namespace cylzone {
+namespace {
+
+/// Largest block radius the grid searches (7x7x7 cells). Cell coordinates start at it, so every
+/// block's cells have non-negative coordinates and the packed keys of a row of cells are
+/// consecutive integers.
+constexpr std::int64_t widest = 3;
+
+/// Most candidates a block may hold before its points go to the KD-tree (a pile of coincident
+/// points would otherwise cost its count squared).
+std::size_t candidate_cap(std::size_t k) { return std::max<std::size_t>(512, 64 * (k + 1)); }
+
+/// Stable LSD radix sort of `keys` (each < 2^bits) by digits of at most 11 bits, `payload`
+/// carried along (common practice).
+void radix_sort(std::vector<std::uint64_t>& keys, std::vector<std::uint32_t>& payload, int bits) {
+  const std::size_t n = keys.size();
+  if (bits <= 0 || n < 2) return;
+  const int passes = (bits + 10) / 11;
+  const int width = (bits + passes - 1) / passes;
+  const std::uint64_t mask = (std::uint64_t{1} << width) - 1;
+  std::vector<std::uint64_t> keys_to(n);
+  std::vector<std::uint32_t> payload_to(n);
+  std::vector<std::size_t> start(static_cast<std::size_t>(mask) + 1);
+  for (int pass = 0; pass < passes; ++pass) {
+    const int shift = pass * width;
+    std::fill(start.begin(), start.end(), 0);
+    for (std::size_t i = 0; i < n; ++i) ++start[(keys[i] >> shift) & mask];
+    if (start[(keys[0] >> shift) & mask] == n) continue;  // one digit value: already in order
+    std::size_t sum = 0;
+    for (std::size_t& s : start) {
+      const std::size_t count = s;
+      s = sum;
+      sum += count;
+    }
+    for (std::size_t i = 0; i < n; ++i) {
+      const std::size_t at = start[(keys[i] >> shift) & mask]++;
+      keys_to[at] = keys[i];
+      payload_to[at] = payload[i];
+    }
+    keys.swap(keys_to);
+    payload.swap(payload_to);
+  }
+}
+
+/// The points bucketed into cubic cells of edge `cell`, ordered by cell (z, then y, then x,
+/// each cell's points in input order), the coordinates copied in that order, one array per
+/// axis. A cell's coordinate along an axis is floor((c - origin) / cell) + widest, computed as
+/// floor((c - origin) * inverse): non-decreasing in c, which is all the certification needs.
+class Grid {
+ public:
+  Grid(const Eigen::Matrix3Xd& points, std::size_t k);
+
+  std::int64_t coord(double v, int a) const {
+    return static_cast<std::int64_t>(std::floor((v - origin_[a]) * inverse_)) + widest;
+  }
+  std::uint64_t key(std::int64_t x, std::int64_t y, std::int64_t z) const {
+    return static_cast<std::uint64_t>((z * dims_[1] + y) * dims_[0] + x);
+  }
+  /// The first occupied cell whose key is at least `key`.
+  std::size_t cell_from(std::uint64_t key) const {
+    return static_cast<std::size_t>(
+        std::lower_bound(cell_key_.begin(), cell_key_.end(), key) - cell_key_.begin());
+  }
+  /// Planes bounding the block of cells [c - r, c + r] along axis a from outside: every point
+  /// whose cell coordinate is below c - r lies below `low`, every point above c + r above
+  /// `high` (checked through coord itself, so the rounding of the cell edges cannot break it).
+  void block_faces(std::int64_t c, std::int64_t r, int a, double& low, double& high) const {
+    low = origin_[a] + static_cast<double>(c - r - widest) * cell_;
+    high = origin_[a] + static_cast<double>(c + r + 1 - widest) * cell_;
+    // The edges as computed may round into the neighbouring cell: moved inwards by steps of
+    // at least one unit in the last place of (edge - origin) until they do not (the block is
+    // then unusable if that fails).
+    constexpr double inf = std::numeric_limits<double>::infinity();
+    const double unit = (std::abs(origin_[a]) + std::abs(low) + std::abs(high) + cell_) *
+                        std::numeric_limits<double>::epsilon();
+    int step = 0;
+    for (; step < 64 && coord(low, a) < c - r; ++step) low += unit;
+    if (step == 64) low = inf;
+    for (step = 0; step < 64 && coord(high, a) > c + r; ++step) high -= unit;
+    if (step == 64) high = -inf;
+  }
+  /// Squared distance from q to the outside of the block [c - r, c + r]^3 around cell c, as a
+  /// lower bound of the computed squared distance (squared_distance) of every point outside:
+  /// along the axis where such a point is beyond a face, its offset from q is at least q's
+  /// offset from the face, in floating point too (rounding is monotone), and the other terms
+  /// of its sum are >= 0.
+  double outside_bound(const double* q, const std::int64_t* c, std::int64_t r) const {
+    double low[3], high[3];
+    for (int a = 0; a < 3; ++a) block_faces(c[a], r, a, low[a], high[a]);
+    return outside_of(q, low, high);
+  }
+  /// outside_bound for a block with faces `low` and `high` (block_faces).
+  static double outside_of(const double* q, const double* low, const double* high) {
+    double bound = std::numeric_limits<double>::infinity();
+    for (int a = 0; a < 3; ++a) {
+      const double gap = std::min(q[a] - low[a], high[a] - q[a]);
+      if (!(gap > 0.0)) return 0.0;
+      bound = std::min(bound, gap * gap);
+    }
+    return bound;
+  }
+
+  double cell_ = 0.0, inverse_ = 0.0;
+  double origin_[3] = {0.0, 0.0, 0.0};
+  std::int64_t dims_[3] = {1, 1, 1};
+  std::vector<std::uint64_t> cell_key_;      ///< occupied cells, ascending
+  std::vector<std::uint32_t> cell_begin_;    ///< their first positions, and the end
+  std::vector<std::uint32_t> order_;         ///< position -> input index
+  std::vector<double> axes_[3];              ///< coordinates at each position
+
+ private:
+  /// Sets the cell edge (enlarged when an axis would need more than 2^20 cells) and sorts the
+  /// points by cell; returns the number of occupied cells.
+  std::size_t bucket(const Eigen::Matrix3Xd& points, double cell);
+  std::vector<std::uint64_t> sorted_keys_;
+  double extent_[3] = {0.0, 0.0, 0.0};
+  double top_[3] = {0.0, 0.0, 0.0};  ///< largest coordinate along each axis
+};
+
+Grid::Grid(const Eigen::Matrix3Xd& points, std::size_t k) {
+  const std::size_t n = static_cast<std::size_t>(points.cols());
+  for (int a = 0; a < 3; ++a) {
+    origin_[a] = points.row(a).minCoeff();
+    top_[a] = points.row(a).maxCoeff();
+    extent_[a] = top_[a] - origin_[a];
+  }
+  // Points per occupied cell aimed at: then a point's k nearest lie within about one cell
+  // edge, in a volume (k + 1 in a ball of radius 0.9 cell) as on a surface (in a disc of 0.8).
+  const double target = 0.5 * static_cast<double>(k + 1);
+  const double largest = std::max({extent_[0], extent_[1], extent_[2]});
+  double volume = 1.0;
+  for (const double e : extent_) volume *= std::max(e, 1e-3 * largest);
+  double cell = std::cbrt(volume * target / static_cast<double>(n));
+  if (!(cell > 0.0) || !std::isfinite(cell)) cell = 1.0;
+  // The points per occupied cell grow as cell^D, D the dimension of what the points sample
+  // (2 for a scanned surface, 3 for a volume): corrected once assuming D = 2, then with D
+  // measured from the two trials; the occupied cells, not the bounding box, set the density.
+  double cells = static_cast<double>(bucket(points, cell));
+  double per = static_cast<double>(n) / cells;
+  double last_cell = 0.0, last_per = 0.0;
+  for (int trial = 0; trial < 2 && (per > 1.6 * target || per < target / 1.6); ++trial) {
+    double dimension = 2.0;
+    if (trial > 0 && per != last_per && cell != last_cell)
+      dimension = std::clamp(std::log(per / last_per) / std::log(cell / last_cell), 1.0, 3.0);
+    last_cell = cell;
+    last_per = per;
+    cell *= std::clamp(std::pow(target / per, 1.0 / dimension), 0.125, 8.0);
+    cells = static_cast<double>(bucket(points, cell));
+    per = static_cast<double>(n) / cells;
+  }
+  // The occupied cells and where their points start.
+  cell_key_.clear();
+  cell_begin_.clear();
+  for (std::size_t p = 0; p < n; ++p)
+    if (p == 0 || sorted_keys_[p] != sorted_keys_[p - 1]) {
+      cell_key_.push_back(sorted_keys_[p]);
+      cell_begin_.push_back(static_cast<std::uint32_t>(p));
+    }
+  cell_begin_.push_back(static_cast<std::uint32_t>(n));
+  sorted_keys_ = {};
+  for (int a = 0; a < 3; ++a) {
+    axes_[a].resize(n);
+    for (std::size_t p = 0; p < n; ++p) axes_[a][p] = points(a, static_cast<Eigen::Index>(order_[p]));
+  }
+}
+
+std::size_t Grid::bucket(const Eigen::Matrix3Xd& points, double cell) {
+  constexpr double most = static_cast<double>(std::int64_t{1} << 20);
+  for (const double e : extent_) cell = std::max(cell, e / most);
+  cell_ = cell;
+  inverse_ = 1.0 / cell;
+  for (int a = 0; a < 3; ++a) dims_[a] = coord(top_[a], a) + widest + 1;
+  const std::size_t n = static_cast<std::size_t>(points.cols());
+  sorted_keys_.resize(n);
+  order_.resize(n);
+  for (std::size_t i = 0; i < n; ++i) {
+    const double* p = points.data() + 3 * i;
+    sorted_keys_[i] = key(coord(p[0], 0), coord(p[1], 1), coord(p[2], 2));
+    order_[i] = static_cast<std::uint32_t>(i);
+  }
+  const std::uint64_t top = key(dims_[0] - 1, dims_[1] - 1, dims_[2] - 1);
+  int bits = 0;
+  while (bits < 64 && (top >> bits) != 0) ++bits;
+  radix_sort(sorted_keys_, order_, bits);
+  std::size_t occupied = n > 0 ? 1 : 0;
+  for (std::size_t p = 1; p < n; ++p) occupied += sorted_keys_[p] != sorted_keys_[p - 1] ? 1 : 0;
+  return occupied;
+}
+
+/// One worker's buffers: a block's candidates (per-axis coordinates and input indices), the
+/// distances of one query to them, and the output of a chunk.
+struct GridScratch {
+  std::vector<double> x, y, z, distance;
+  std::vector<std::uint32_t> id, passing;
+  std::vector<std::uint32_t> top;  ///< candidate slots of the k nearest, in order
+  std::vector<std::uint32_t> points, rows, uncertain;
+  std::size_t self = 0;  ///< slot of the query's own point among the candidates
+};
+
+/// Gathers the points of the block of cells [c - r, c + r]^3 around cell coordinate `c` into
+/// `s` and notes the slot of the point at `position`; false when more than `cap` candidates.
+/// `starts`, when given, holds for each row of the block (z, then y) its first occupied cell
+/// at or after the row's start (as Grid::cell_from would find it).
+bool gather_block(const Grid& g, const std::int64_t* c, std::int64_t r, std::size_t position,
+                  std::size_t cap, GridScratch& s, const std::size_t* starts = nullptr) {
+  std::size_t m = 0;
+  s.self = std::numeric_limits<std::size_t>::max();
+  const std::size_t cells = g.cell_key_.size();
+  for (std::int64_t dz = -r; dz <= r; ++dz)
+    for (std::int64_t dy = -r; dy <= r; ++dy) {
+      const std::uint64_t low = g.key(c[0] - r, c[1] + dy, c[2] + dz);
+      std::size_t a = starts ? *starts++ : g.cell_from(low), b = a;
+      while (b < cells && g.cell_key_[b] <= low + static_cast<std::uint64_t>(2 * r)) ++b;
+      const std::size_t begin = g.cell_begin_[a], end = g.cell_begin_[b];
+      if (m + (end - begin) > cap) return false;
+      if (position >= begin && position < end) s.self = m + (position - begin);
+      for (std::size_t p = begin; p < end; ++p, ++m) {
+        s.x[m] = g.axes_[0][p];
+        s.y[m] = g.axes_[1][p];
+        s.z[m] = g.axes_[2][p];
+        s.id[m] = g.order_[p];
+      }
+    }
+  s.distance.resize(m);  // size = candidate count (capacity reserved)
+  return true;
+}
+
+/// Appends the point with input index `index` and its k nearest (s.top) to the chunk's output.
+void keep_found(GridScratch& s, std::uint32_t index, std::size_t k) {
+  s.points.push_back(index);
+  for (std::size_t j = 0; j < k; ++j) s.rows.push_back(s.id[s.top[j]]);
+}
+
+/// The k nearest of the gathered candidates to q in (distance, index) order, itself (slot
+/// s.self) excluded, among those within `bound` (an upper bound of the k-th distance, or
+/// infinity), into s.top; returns how many were found (k unless there are fewer candidates).
+std::size_t select_nearest(const double* q, std::size_t k, double bound, GridScratch& s) {
+  const std::size_t m = s.distance.size();
+  double* const d = s.distance.data();
+  for (std::size_t j = 0; j < m; ++j) d[j] = squared_distance(q, s.x[j], s.y[j], s.z[j]);
+  std::size_t passed = 0;
+  std::uint32_t* const passing = s.passing.data();
+  for (std::size_t j = 0; j < m; ++j) {
+    passing[passed] = static_cast<std::uint32_t>(j);
+    passed += d[j] <= bound ? 1 : 0;
+  }
+  std::size_t found = 0;
+  std::uint32_t* const top = s.top.data();
+  const std::uint32_t* const id = s.id.data();
+  const auto before = [&](std::uint32_t a, std::uint32_t b) {
+    return d[a] < d[b] || (d[a] == d[b] && id[a] < id[b]);
+  };
+  for (std::size_t c = 0; c < passed; ++c) {
+    const std::uint32_t j = passing[c];
+    if (j == s.self) continue;
+    if (found == k && !before(j, top[k - 1])) continue;
+    std::size_t at = found == k ? k - 1 : found++;
+    for (; at > 0 && before(j, top[at - 1]); --at) top[at] = top[at - 1];
+    top[at] = j;
+  }
+  return found;
+}
+
+}  // namespace
+
+AllNearestSummary all_nearest(const Eigen::Matrix3Xd& points, std::size_t k, std::size_t threads,
+                              const NearestReceiver& receive) {
+  const std::size_t n = static_cast<std::size_t>(points.cols());
+  if (k == 0) throw std::invalid_argument("all_nearest: k must be at least 1");
+  if (n <= k)
+    throw std::invalid_argument("all_nearest: " + std::to_string(n) + " points for " +
+                                std::to_string(k) + " neighbours");
+  if (static_cast<std::uint64_t>(n) > std::numeric_limits<std::uint32_t>::max())
+    throw std::invalid_argument("all_nearest: more than 2^32 - 1 points");
+  const Grid g(points, k);
+  AllNearestSummary summary;
+  summary.cell = g.cell_;
+  const std::size_t cap = candidate_cap(k);
+  const std::size_t cells = g.cell_key_.size();
+
+  // Chunks of whole cells, at least 4096 points each: fixed by the data alone.
+  std::vector<std::size_t> chunk_cell{0};
+  for (std::size_t c = 0; c < cells; ++c)
+    if (g.cell_begin_[c + 1] - g.cell_begin_[chunk_cell.back()] >= 4096 || c + 1 == cells)
+      chunk_cell.push_back(c + 1);
+  const std::size_t chunks = chunk_cell.size() - 1;
+  const std::size_t workers = std::max<std::size_t>(1, threads);
+  std::vector<GridScratch> scratch(workers);
+  for (GridScratch& s : scratch) {
+    s.distance.reserve(cap);
+    s.x.resize(cap);
+    s.y.resize(cap);
+    s.z.resize(cap);
+    s.id.resize(cap);
+    s.passing.resize(cap);
+    s.top.resize(k);
+  }
+  std::vector<std::vector<std::uint32_t>> uncertain(chunks);  // positions, per chunk
+
+  // The 3x3x3 block of each occupied cell, gathered once for all its points. Each search is
+  // bounded by the previous point of the cell's k nearest and itself (k + 1 distinct points of
+  // the same block, at least k of them not the query: the farthest bounds the k-th distance).
+  // The first key of each of the block's 9 rows of 3 cells, relative to the centre cell's key:
+  // it grows with the centre's key, so as the cells are visited in key order each row's first
+  // occupied cell is found by moving a cursor forward, not by a search.
+  std::int64_t row_offset[9];
+  for (std::int64_t dz = -1, o = 0; dz <= 1; ++dz)
+    for (std::int64_t dy = -1; dy <= 1; ++dy, ++o)
+      row_offset[o] = (dz * g.dims_[1] + dy) * g.dims_[0] - 1;
+  detail::parallel_for(chunks, threads, [&](std::size_t chunk, std::size_t w) {
+    GridScratch& s = scratch[w];
+    s.points.clear();
+    s.rows.clear();
+    std::vector<std::uint32_t>& unsure = uncertain[chunk];
+    std::size_t cursor[9];
+    for (int o = 0; o < 9; ++o)
+      cursor[o] = g.cell_from(static_cast<std::uint64_t>(
+          static_cast<std::int64_t>(g.cell_key_[chunk_cell[chunk]]) + row_offset[o]));
+    for (std::size_t c = chunk_cell[chunk]; c < chunk_cell[chunk + 1]; ++c) {
+      const std::uint32_t first = g.cell_begin_[c], last = g.cell_begin_[c + 1];
+      const double q0[3] = {g.axes_[0][first], g.axes_[1][first], g.axes_[2][first]};
+      const std::int64_t at[3] = {g.coord(q0[0], 0), g.coord(q0[1], 1), g.coord(q0[2], 2)};
+      for (int o = 0; o < 9; ++o) {
+        const std::uint64_t low =
+            static_cast<std::uint64_t>(static_cast<std::int64_t>(g.cell_key_[c]) + row_offset[o]);
+        while (cursor[o] < cells && g.cell_key_[cursor[o]] < low) ++cursor[o];
+      }
+      if (!gather_block(g, at, 1, first, cap, s, cursor) || s.distance.size() < k + 1) {
+        for (std::uint32_t p = first; p < last; ++p) unsure.push_back(p);
+        continue;
+      }
+      const std::size_t first_self = s.self;
+      double low[3], high[3];
+      for (int a = 0; a < 3; ++a) g.block_faces(at[a], 1, a, low[a], high[a]);
+      std::size_t previous = s.distance.size();  // slot of the previous point; none yet
+      for (std::uint32_t p = first; p < last; ++p) {
+        s.self = first_self + (p - first);
+        const double q[3] = {g.axes_[0][p], g.axes_[1][p], g.axes_[2][p]};
+        double bound = std::numeric_limits<double>::infinity();
+        if (previous < s.distance.size()) {
+          bound = squared_distance(q, s.x[previous], s.y[previous], s.z[previous]);
+          for (std::size_t j = 0; j < k; ++j) {
+            const std::uint32_t t = s.top[j];
+            bound = std::max(bound, squared_distance(q, s.x[t], s.y[t], s.z[t]));
+          }
+        }
+        select_nearest(q, k, bound, s);
+        previous = s.self;
+        if (s.distance[s.top[k - 1]] < Grid::outside_of(q, low, high))
+          keep_found(s, g.order_[p], k);
+        else
+          unsure.push_back(p);
+      }
+    }
+    if (!s.points.empty()) receive(w, s.points.size(), s.points.data(), s.rows.data());
+  });
+
+  // The points not certified: the 5x5x5 and 7x7x7 blocks, one point at a time.
+  std::vector<std::uint32_t> unsure;
+  for (const auto& u : uncertain) unsure.insert(unsure.end(), u.begin(), u.end());
+  summary.certified = n - unsure.size();
+  constexpr std::size_t per_chunk = 256;
+  const std::size_t wide_chunks = (unsure.size() + per_chunk - 1) / per_chunk;
+  std::vector<std::vector<std::uint32_t>> left(wide_chunks);  // input indices, per chunk
+  detail::parallel_for(wide_chunks, threads, [&](std::size_t chunk, std::size_t w) {
+    GridScratch& s = scratch[w];
+    s.points.clear();
+    s.rows.clear();
+    const std::size_t end = std::min(unsure.size(), (chunk + 1) * per_chunk);
+    for (std::size_t u = chunk * per_chunk; u < end; ++u) {
+      const std::uint32_t p = unsure[u];
+      const double q[3] = {g.axes_[0][p], g.axes_[1][p], g.axes_[2][p]};
+      const std::int64_t at[3] = {g.coord(q[0], 0), g.coord(q[1], 1), g.coord(q[2], 2)};
+      bool done = false;
+      for (std::int64_t r = 2; r <= widest && !done; ++r) {
+        if (!gather_block(g, at, r, p, cap, s)) break;
+        if (select_nearest(q, k, std::numeric_limits<double>::infinity(), s) < k) continue;
+        done = s.distance[s.top[k - 1]] < g.outside_bound(q, at, r);
+      }
+      if (done)
+        keep_found(s, g.order_[p], k);
+      else
+        left[chunk].push_back(g.order_[p]);
+    }
+    if (!s.points.empty()) receive(w, s.points.size(), s.points.data(), s.rows.data());
+  });
+
+  // The rest: the KD-tree over all points, built only now.
+  std::vector<std::uint32_t> rest;
+  for (const auto& l : left) rest.insert(rest.end(), l.begin(), l.end());
+  summary.tree = rest.size();
+  summary.widened = unsure.size() - rest.size();
+  if (rest.empty()) return summary;
+  const NeighbourIndex index(points, threads);
+  const std::size_t tree_chunks = (rest.size() + per_chunk - 1) / per_chunk;
+  std::vector<std::vector<std::uint32_t>> rows(workers);
+  detail::parallel_for(tree_chunks, threads, [&](std::size_t chunk, std::size_t w) {
+    NeighbourIndex::Query query(k);
+    rows[w].clear();
+    const std::size_t first = chunk * per_chunk, end = std::min(rest.size(), first + per_chunk);
+    for (std::size_t u = first; u < end; ++u) {
+      const std::vector<std::uint32_t>& found = query.of_point(index, rest[u]);
+      rows[w].insert(rows[w].end(), found.begin(), found.end());
+    }
+    receive(w, end - first, rest.data() + first, rows[w].data());
+  });
+  return summary;
+}
+
+}  // namespace cylzone

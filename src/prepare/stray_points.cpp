@@ -15,29 +15,11 @@
 #include "cylzone/core/errors.hpp"
 #include "cylzone/prepare/neighbour_index.hpp"
 #include "detail/fit_support.hpp"
-#include "detail/parallel.hpp"
 #include "prepare/detail/robust_scale.hpp"
 #include "prepare/detail/stray_point_message.hpp"
 
 namespace cylzone {
 namespace {
-
-/// Points per chunk of the screen's visit: fixed, so the chunks (and the result, which does not
-/// depend on them anyway) are the same for any thread count; below two chunks (a thread costs
-/// ~50 us, the screen ~0.65 us per point) it runs on the calling thread only.
-constexpr std::size_t chunk_points = 4096;
-
-/// excess[i] = residual_i - median of the residuals of its k nearest neighbours, for the points
-/// at positions [first, last) of the index's locality order; `nearest` and `local` are scratch.
-void local_excesses(const NeighbourIndex& index, const Eigen::VectorXd& residuals, std::size_t k,
-                    std::size_t first, std::size_t last, std::vector<std::uint32_t>& nearest,
-                    std::vector<double>& local, std::vector<double>& excess) {
-  index.nearest_in_order(k, first, last, nearest);
-  const std::vector<std::uint32_t>& order = index.locality_order();
-  const std::uint32_t* row = nearest.data();
-  for (std::size_t p = first; p < last; ++p, row += k)
-    excess[order[p]] = detail::excess_over(residuals, order[p], row, k, local);
-}
 
 void check_options(const StrayPointOptions& options) {
   if (options.neighbours == 0)
@@ -71,23 +53,17 @@ StrayPointReport find_stray_points(const Eigen::Matrix3Xd& points, const Eigen::
   const std::size_t k = options.neighbours;
   if (static_cast<std::size_t>(n) <= k) return report;  // fewer than k + 1 points
 
-  const NeighbourIndex index(points, options.threads);
   std::vector<double> excess(static_cast<std::size_t>(n));
-  // Points are visited in the tree's own order (its index permutation, leaf by leaf), so
-  // consecutive queries touch the same nodes whatever the input order: a shuffled cloud of 10^6
-  // points costs about 1.5x a scan-ordered one instead of 5x in input order (measured,
-  // bench/bench_stray_points.cpp). Each excess depends only on the data, so splitting the
-  // visit into chunks and the chunks between threads changes no result.
-  const std::size_t size = index.size();
-  const std::size_t chunks = (size + chunk_points - 1) / chunk_points;
-  const std::size_t workers = detail::worker_count(chunks, options.threads);
-  std::vector<std::vector<std::uint32_t>> nearest(workers);
-  std::vector<std::vector<double>> local(workers);
-  detail::parallel_for(chunks, options.threads, [&](std::size_t c, std::size_t w) {
-    const std::size_t first = c * chunk_points;
-    const std::size_t last = std::min(size, first + chunk_points);
-    local_excesses(index, residuals, k, first, last, nearest[w], local[w], excess);
-  });
+  // Every point's k nearest from the grid (the KD-tree only for the points it cannot certify),
+  // handed over in chunks on the `threads` option; each excess depends only on the data, so
+  // neither the chunks nor the threads change a result.
+  std::vector<std::vector<double>> local(std::max<std::size_t>(1, options.threads));
+  all_nearest(points, k, options.threads,
+              [&](std::size_t w, std::size_t count, const std::uint32_t* at,
+                  const std::uint32_t* rows) {
+                for (std::size_t j = 0; j < count; ++j, rows += k)
+                  excess[at[j]] = detail::excess_over(residuals, at[j], rows, k, local[w]);
+              });
 
   report.robust_scale = detail::robust_spread(excess, options.threads).scale;
   report.screened = static_cast<std::size_t>(n);

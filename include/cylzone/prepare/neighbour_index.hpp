@@ -11,6 +11,7 @@
 #include <Eigen/Core>
 #include <cstddef>
 #include <cstdint>
+#include <functional>
 #include <memory>
 #include <vector>
 
@@ -76,5 +77,38 @@ class NeighbourIndex {
   struct Tree;
   std::unique_ptr<Tree> tree_;
 };
+
+/// What all_nearest did: how many points the grid answered alone (certified in the 3x3x3
+/// block of cells around their own, or in the 5x5x5 or 7x7x7 block) and how many needed the
+/// KD-tree; the cell size chosen. For benchmarks and tests: the neighbours do not depend on it.
+struct AllNearestSummary {
+  std::size_t certified = 0;  ///< answered by the 3x3x3 block
+  std::size_t widened = 0;    ///< answered by a 5x5x5 or 7x7x7 block
+  std::size_t tree = 0;       ///< answered by the KD-tree (NeighbourIndex, built only then)
+  double cell = 0.0;          ///< edge of the cubic cells, mm
+};
+
+/// Receives the neighbours of `count` points: input indices `points[0..count)`, their k
+/// nearest row by row in `rows` (count x k, (distance, index) order, the point excluded).
+/// `worker` (< max(1, threads)) lets a receiver keep per-worker scratch; calls from different
+/// workers may run at once, and in any order.
+using NearestReceiver = std::function<void(std::size_t worker, std::size_t count,
+                                           const std::uint32_t* points, const std::uint32_t* rows)>;
+
+/// The k nearest neighbours of every column of `points` (3 x n, finite, k < n < 2^32), exactly
+/// those of NeighbourIndex::Query::of_point (the point itself excluded, (Euclidean distance,
+/// index) order), each point handed once to `receive`, on up to `threads` threads. Method: a
+/// uniform grid of cubic cells (cell-based fixed-radius search, Bentley, Stanat & Williams, Inf.
+/// Process. Lett. 6 (1977) 209-212), the cell size set from the points per occupied cell, so
+/// that a scanned surface (points on a 2-D manifold) and a volume both get a few points per
+/// cell. A point's k nearest among the points of the 3x3x3 cells around its own are certified
+/// exact when the k-th distance is below the squared distance from the point to the outside
+/// of that block (a floating-point lower bound of the distance of every point outside it); a
+/// point not certified is searched again in the 5x5x5 and 7x7x7 blocks, then with the KD-tree
+/// (NeighbourIndex), built only when some point needs it. The cells and their order depend on
+/// the data alone and the neighbours not even on them. Throws std::invalid_argument when k is 0
+/// or n <= k.
+AllNearestSummary all_nearest(const Eigen::Matrix3Xd& points, std::size_t k, std::size_t threads,
+                              const NearestReceiver& receive);
 
 }  // namespace cylzone

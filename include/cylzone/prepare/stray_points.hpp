@@ -26,11 +26,12 @@
 /// variant of the Hampel identifier (a local median reference, a MAD scale; common practice)
 /// with the scale taken over all points, so a smooth, spike-free surface sets it.
 ///
-/// The neighbours are found with a KD-tree (Bentley, Commun. ACM 18 (1975) 509-517; see
-/// NeighbourIndex), built once per screen: O(n log n) in all. The points are visited in the
-/// tree's order, each search bounded from the start by the previous point's neighbours
-/// (NeighbourIndex::nearest_in_order: the same neighbours), and the two medians of the scale
-/// are selected on the `threads` option; the report does not depend on the thread count.
+/// The neighbours are found by all_nearest (neighbour_index.hpp): a uniform grid of cells
+/// (Bentley, Stanat & Williams, Inf. Process. Lett. 6 (1977) 209-212) answers the points whose
+/// k nearest it can certify exact, the KD-tree (Bentley, Commun. ACM 18 (1975) 509-517) the
+/// rest, built only when some point needs it: the same neighbours either way. The neighbours
+/// and the two medians of the scale are found on the `threads` option; the report does not
+/// depend on the thread count.
 
 #include <Eigen/Core>
 #include <cstddef>
