@@ -82,6 +82,22 @@ void check_against_exhaustive(const Eigen::Matrix3Xd& points, std::size_t k) {
   }
 }
 
+/// A 14 x 12 x 9 integer lattice stored in an order scrambled by `seed`: many exactly equal
+/// distances, so the (distance, index) order decides which neighbours are taken.
+Eigen::Matrix3Xd scrambled_lattice(std::uint64_t seed) {
+  const int nx = 14, ny = 12, nz = 9;
+  const std::size_t n = static_cast<std::size_t>(nx) * ny * nz;
+  std::vector<std::uint32_t> slot(n);
+  for (std::size_t i = 0; i < n; ++i) slot[i] = static_cast<std::uint32_t>(i);
+  std::shuffle(slot.begin(), slot.end(), std::mt19937_64(seed));
+  Eigen::Matrix3Xd points(3, static_cast<Eigen::Index>(n));
+  for (std::size_t g = 0; g < n; ++g)
+    points.col(slot[g]) = Eigen::Vector3d(-30.0 + static_cast<double>(g % nx),
+                                          static_cast<double>((g / nx) % ny),
+                                          7.0 + static_cast<double>(g / (nx * ny)));
+  return points;
+}
+
 }  // namespace
 
 TEST_CASE("nearest_in_order gives the exhaustive search's neighbours on uniform, clustered and "
@@ -123,16 +139,7 @@ TEST_CASE("nearest_in_order gives the exhaustive search's neighbours on uniform,
 TEST_CASE("nearest_in_order breaks ties by the lower index and handles coincident points",
           "[neighbour_index]") {
   SECTION("an integer grid stored in a scrambled order: many equal distances") {
-    const int nx = 14, ny = 12, nz = 9;
-    const std::size_t n = static_cast<std::size_t>(nx) * ny * nz;
-    std::vector<std::uint32_t> slot(n);
-    for (std::size_t i = 0; i < n; ++i) slot[i] = static_cast<std::uint32_t>(i);
-    std::shuffle(slot.begin(), slot.end(), std::mt19937_64(73));
-    Eigen::Matrix3Xd points(3, static_cast<Eigen::Index>(n));
-    for (std::size_t g = 0; g < n; ++g)
-      points.col(slot[g]) = Eigen::Vector3d(-30.0 + static_cast<double>(g % nx),
-                                            static_cast<double>((g / nx) % ny),
-                                            7.0 + static_cast<double>(g / (nx * ny)));
+    const Eigen::Matrix3Xd points = scrambled_lattice(73);
     check_against_exhaustive(points, 8);
     check_against_exhaustive(points, 6);  // exactly the face neighbours inside the grid
   }
@@ -324,16 +331,7 @@ TEST_CASE("all_nearest gives the exhaustive search's neighbours on uniform, clus
 TEST_CASE("all_nearest: exact ties, coincident points, cell edges, tiny clouds",
           "[neighbour_index][grid]") {
   SECTION("integer grid in a scrambled order: many equal distances") {
-    const int nx = 14, ny = 12, nz = 9;
-    const std::size_t n = static_cast<std::size_t>(nx) * ny * nz;
-    std::vector<std::uint32_t> slot(n);
-    for (std::size_t i = 0; i < n; ++i) slot[i] = static_cast<std::uint32_t>(i);
-    std::shuffle(slot.begin(), slot.end(), std::mt19937_64(107));
-    Eigen::Matrix3Xd points(3, static_cast<Eigen::Index>(n));
-    for (std::size_t g = 0; g < n; ++g)
-      points.col(slot[g]) = Eigen::Vector3d(-30.0 + static_cast<double>(g % nx),
-                                            static_cast<double>((g / nx) % ny),
-                                            7.0 + static_cast<double>(g / (nx * ny)));
+    const Eigen::Matrix3Xd points = scrambled_lattice(107);
     check_grid_exhaustive(points, 8);
     check_grid_exhaustive(points, 6);
     check_grid_exhaustive(points, 26);

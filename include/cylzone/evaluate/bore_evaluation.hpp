@@ -255,11 +255,12 @@ struct BoreEvaluationOptions {
   SurfaceMapOptions surface_map;
   /// Per-point residuals kept in the result: the values of the five cylinders' residuals and
   /// of the section circles' (Residuals::values) stay when the bore has at most this many
-  /// points, and are released once every figure is computed otherwise (rms and form stay).
-  /// Every figure is computed from all points first, and no report reads the values (the
-  /// surface map is their bounded form), so a 5,000,000-point scan does not hold 40 bytes a
-  /// point per bore once evaluated. The default keeps them for every probed bore (hundreds to
-  /// thousands of points) and releases them for dense scans.
+  /// points; otherwise each array is released as soon as its last reader is done (the surface
+  /// map, the envelope's suspect contacts, the sections), well before the bore's evaluation
+  /// ends (rms and form stay). No report reads the values (the surface map is their bounded
+  /// form), so two dense bores evaluated at once do not hold 40 bytes a point each. The
+  /// default keeps them for every probed bore (hundreds to thousands of points) and releases
+  /// them for dense scans; evaluate_part does the same for the datum features' fits.
   std::size_t residuals_kept_up_to = 50000;
 };
 
