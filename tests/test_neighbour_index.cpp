@@ -82,6 +82,40 @@ void check_against_exhaustive(const Eigen::Matrix3Xd& points, std::size_t k) {
   }
 }
 
+/// Test clouds shared by the KD-tree's and the grid's tests, drawn from `rng`.
+Eigen::Matrix3Xd uniform_box(std::mt19937_64& rng, Eigen::Index n) {
+  std::uniform_real_distribution<double> unit(-1.0, 1.0);
+  Eigen::Matrix3Xd points(3, n);
+  for (Eigen::Index i = 0; i < n; ++i)
+    points.col(i) = Eigen::Vector3d(120.0 + 5.0 * unit(rng), -40.0 + 3.0 * unit(rng), unit(rng));
+  return points;
+}
+
+/// Seven tight blobs (0.01 sigma) 50 apart.
+Eigen::Matrix3Xd clustered_blobs(std::mt19937_64& rng, Eigen::Index n) {
+  std::normal_distribution<double> normal(0.0, 1.0);
+  Eigen::Matrix3Xd points(3, n);
+  for (Eigen::Index i = 0; i < n; ++i) {
+    const double centre = 50.0 * static_cast<double>(i % 7);
+    points.col(i) = Eigen::Vector3d(centre + 0.01 * normal(rng), 0.01 * normal(rng),
+                                    -centre + 0.01 * normal(rng));
+  }
+  return points;
+}
+
+/// A 40 x 20 face turned about x and y, as a scanned datum.
+Eigen::Matrix3Xd tilted_face(std::mt19937_64& rng, Eigen::Index n) {
+  std::uniform_real_distribution<double> unit(-1.0, 1.0);
+  const Eigen::Matrix3d turn = (Eigen::AngleAxisd(0.3, Eigen::Vector3d::UnitX()) *
+                                Eigen::AngleAxisd(0.2, Eigen::Vector3d::UnitY()))
+                                   .toRotationMatrix();
+  Eigen::Matrix3Xd points(3, n);
+  for (Eigen::Index i = 0; i < n; ++i)
+    points.col(i) = turn * Eigen::Vector3d(20.0 * unit(rng), 10.0 * unit(rng), 0.0) +
+                    Eigen::Vector3d(5.0, 6.0, 7.0);
+  return points;
+}
+
 /// A 14 x 12 x 9 integer lattice stored in an order scrambled by `seed`: many exactly equal
 /// distances, so the (distance, index) order decides which neighbours are taken.
 Eigen::Matrix3Xd scrambled_lattice(std::uint64_t seed) {
@@ -104,34 +138,18 @@ TEST_CASE("nearest_in_order gives the exhaustive search's neighbours on uniform,
           "planar clouds",
           "[neighbour_index]") {
   std::mt19937_64 rng(71);
-  std::uniform_real_distribution<double> unit(-1.0, 1.0);
-  std::normal_distribution<double> normal(0.0, 1.0);
   const Eigen::Index n = 2500;
   SECTION("uniform in a box, off the origin") {
-    Eigen::Matrix3Xd points(3, n);
-    for (Eigen::Index i = 0; i < n; ++i)
-      points.col(i) = Eigen::Vector3d(120.0 + 5.0 * unit(rng), -40.0 + 3.0 * unit(rng), unit(rng));
+    const Eigen::Matrix3Xd points = uniform_box(rng, n);
     check_against_exhaustive(points, 8);
     check_against_exhaustive(points, 1);
     check_against_exhaustive(points, 30);  // more than a tree leaf holds
   }
   SECTION("clustered: tight blobs far apart") {
-    Eigen::Matrix3Xd points(3, n);
-    for (Eigen::Index i = 0; i < n; ++i) {
-      const double centre = 50.0 * static_cast<double>(i % 7);
-      points.col(i) = Eigen::Vector3d(centre + 0.01 * normal(rng), 0.01 * normal(rng),
-                                      -centre + 0.01 * normal(rng));
-    }
-    check_against_exhaustive(points, 8);
+    check_against_exhaustive(clustered_blobs(rng, n), 8);
   }
   SECTION("planar: a tilted face, as a scanned datum") {
-    const Eigen::Matrix3d turn =
-        (Eigen::AngleAxisd(0.3, Eigen::Vector3d::UnitX()) * Eigen::AngleAxisd(0.2, Eigen::Vector3d::UnitY()))
-            .toRotationMatrix();
-    Eigen::Matrix3Xd points(3, n);
-    for (Eigen::Index i = 0; i < n; ++i)
-      points.col(i) = turn * Eigen::Vector3d(20.0 * unit(rng), 10.0 * unit(rng), 0.0) +
-                      Eigen::Vector3d(5.0, 6.0, 7.0);
+    const Eigen::Matrix3Xd points = tilted_face(rng, n);
     check_against_exhaustive(points, 8);
   }
 }
@@ -272,36 +290,22 @@ TEST_CASE("all_nearest gives the exhaustive search's neighbours on uniform, clus
           "[neighbour_index][grid]") {
   std::mt19937_64 rng(101);
   std::uniform_real_distribution<double> unit(-1.0, 1.0);
-  std::normal_distribution<double> normal(0.0, 1.0);
   const Eigen::Index n = 3000;
   SECTION("uniform in a box") {
-    Eigen::Matrix3Xd points(3, n);
-    for (Eigen::Index i = 0; i < n; ++i)
-      points.col(i) = Eigen::Vector3d(120.0 + 5.0 * unit(rng), -40.0 + 3.0 * unit(rng), unit(rng));
+    const Eigen::Matrix3Xd points = uniform_box(rng, n);
     const AllNearestSummary s = check_grid_exhaustive(points, 8);
     CHECK(s.certified > static_cast<std::size_t>(n) / 2);  // the grid does the work
     check_grid_exhaustive(points, 1);
     check_grid_exhaustive(points, 30);
   }
   SECTION("clustered: tight blobs far apart, and a few lone points") {
-    Eigen::Matrix3Xd points(3, n);
-    for (Eigen::Index i = 0; i < n; ++i) {
-      const double centre = 50.0 * static_cast<double>(i % 7);
-      points.col(i) = Eigen::Vector3d(centre + 0.01 * normal(rng), 0.01 * normal(rng),
-                                      -centre + 0.01 * normal(rng));
-    }
+    Eigen::Matrix3Xd points = clustered_blobs(rng, n);
     for (Eigen::Index i = 0; i < 5; ++i) points.col(10 * i) = Eigen::Vector3d(25.0 * i, 30.0, 3.0);
     const AllNearestSummary s = check_grid_exhaustive(points, 8);
     CHECK(s.tree >= 5);  // the lone points are far from any 7x7x7 block's reach
   }
   SECTION("planar: a tilted face") {
-    const Eigen::Matrix3d turn = (Eigen::AngleAxisd(0.3, Eigen::Vector3d::UnitX()) *
-                                  Eigen::AngleAxisd(0.2, Eigen::Vector3d::UnitY()))
-                                     .toRotationMatrix();
-    Eigen::Matrix3Xd points(3, n);
-    for (Eigen::Index i = 0; i < n; ++i)
-      points.col(i) = turn * Eigen::Vector3d(20.0 * unit(rng), 10.0 * unit(rng), 0.0) +
-                      Eigen::Vector3d(5.0, 6.0, 7.0);
+    const Eigen::Matrix3Xd points = tilted_face(rng, n);
     check_grid_exhaustive(points, 8);
   }
   SECTION("planar, axis-aligned: one coordinate the same for all points") {
