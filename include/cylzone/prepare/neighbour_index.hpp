@@ -41,8 +41,10 @@ class NeighbourIndex {
 
   /// The k nearest neighbours of the points at positions [first, last) of locality_order(),
   /// exactly those Query::of_point gives (the point itself excluded, (distance, index) order),
-  /// written row by row to `neighbours` (resized to (last - first) x k input indices). For
-  /// screening a whole cloud: consecutive positions are neighbours in the tree, so each search
+  /// written row by row to `neighbours` (resized to (last - first) x k input indices). The
+  /// tree's own search over a whole cloud (the stray-point screen takes all_nearest, below,
+  /// which is faster on dense clouds; bench_stray_points times the two against each other):
+  /// consecutive positions are neighbours in the tree, so each search
   /// starts bounded by the previous point's k + 1 nearest (k + 1 distinct points: the farthest
   /// of them bounds the (k+1)-th distance from above), which prunes it from the first node on
   /// and changes no neighbour. No allocation per point; safe to call from several threads at
