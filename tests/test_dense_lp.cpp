@@ -338,7 +338,8 @@ TEST_CASE("Chebyshev fits give the same figures with the dense solver as with Cl
   // needs constraint generation. Widths and radii agree with the Clp path to 1e-12 mm, axes to
   // 1e-10 mm at the ends (centres, for circles), normals to 1e-12 rad, and the dense solver
   // never needs its fall-back here.
-  FitOptions clp_options, dense_options;
+  const FitOptions clp_options{};  // the defaults: the Clp path
+  FitOptions dense_options;
   dense_options.lp_solver = LpSolver::dense;
   // Every Chebyshev method of the element, through the run-time dispatch, with either solver.
   auto check_same = [&](Element element, const Eigen::Matrix3Xd& points, const FitOptions& base) {
