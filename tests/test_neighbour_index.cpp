@@ -11,6 +11,7 @@
 
 #include <Eigen/Geometry>
 #include <algorithm>
+#include <cmath>
 #include <cstdint>
 #include <random>
 #include <stdexcept>
@@ -317,6 +318,19 @@ TEST_CASE("all_nearest gives the exhaustive search's neighbours on uniform, clus
   SECTION("a scanned bore (points on a cylindrical surface, rows and columns)") {
     const AllNearestSummary s = check_grid_exhaustive(scanned_bore(4000, 314, 0.1, 103), 8);
     CHECK(s.certified > 3000);
+  }
+  SECTION("density graded 400-fold, two populations interleaved: the k-th distance jumps") {
+    // Each point's selection is first bounded by the previous point's k-th distance plus a
+    // margin; here consecutive points of a cell often have k-th distances far apart, so that
+    // bound is too small (and must be abandoned) or far too large (and must still be exact).
+    Eigen::Matrix3Xd points(3, n);
+    for (Eigen::Index i = 0; i < n; ++i) {
+      const double x = std::exp(6.0 * (unit(rng) + 1.0) / 2.0);  // density falls as 1/x
+      const double z = i % 2 == 0 ? 0.0 : 0.05 * unit(rng);         // a face and a thin slab
+      points.col(i) = Eigen::Vector3d(x, 10.0 * unit(rng), z);
+    }
+    check_grid_exhaustive(points, 8);
+    check_grid_exhaustive(points, 3);
   }
   SECTION("a face and points 1.5 and 2.5 cells off it: certified by the wider blocks") {
     Eigen::Matrix3Xd points(3, n);

@@ -438,6 +438,11 @@ constexpr std::int64_t widest = 3;
 /// points would otherwise cost its count squared).
 std::size_t candidate_cap(std::size_t k) { return std::max<std::size_t>(512, 64 * (k + 1)); }
 
+/// all_nearest's first bound of a point's k-th squared distance is the previous point's times
+/// 1 + guess_margin (see there): large enough that it usually holds k candidates, small enough
+/// that few more pass it. Speed only: the neighbours do not depend on it.
+constexpr double guess_margin = 0.25;
+
 /// Stable LSD radix sort of `keys` (each < 2^bits) by digits of at most 11 bits, `payload`
 /// carried along (common practice).
 void radix_sort(std::vector<std::uint64_t>& keys, std::vector<std::uint32_t>& payload, int bits) {
@@ -659,13 +664,32 @@ void keep_found(GridScratch& s, std::uint32_t index, std::size_t k) {
   for (std::size_t j = 0; j < k; ++j) s.rows.push_back(s.id[s.top[j]]);
 }
 
-/// The k nearest of the gathered candidates to q in (distance, index) order, itself (slot
-/// s.self) excluded, among those within `bound` (an upper bound of the k-th distance, or
-/// infinity), into s.top; returns how many were found (k unless there are fewer candidates).
-std::size_t select_nearest(const double* q, std::size_t k, double bound, GridScratch& s) {
+/// Squared distances from q to every gathered candidate, into s.distance, in one loop the
+/// compiler vectorises (the same arithmetic as squared_distance one at a time, so the same bits).
+void candidate_distances(const double* q, GridScratch& s) {
   const std::size_t m = s.distance.size();
   double* const d = s.distance.data();
   for (std::size_t j = 0; j < m; ++j) d[j] = squared_distance(q, s.x[j], s.y[j], s.z[j]);
+}
+
+/// How many candidates other than the query's own point (slot s.self) lie within squared
+/// distance `t` (candidate_distances first). When at least k, t bounds the k-th distance from
+/// above: the k nearest in (distance, index) order all lie within it, whatever their indices.
+std::size_t count_within(const GridScratch& s, double t) {
+  const std::size_t m = s.distance.size();
+  const double* const d = s.distance.data();
+  std::size_t count = 0;
+  for (std::size_t j = 0; j < m; ++j) count += d[j] <= t ? 1 : 0;
+  return count - (s.self < m && d[s.self] <= t ? 1 : 0);
+}
+
+/// The k nearest of the gathered candidates in (distance, index) order (candidate_distances
+/// first), the query itself (slot s.self) excluded, among those within `bound` (an upper bound
+/// of the k-th distance, or infinity), into s.top; returns how many were found (k unless there
+/// are fewer candidates).
+std::size_t select_within(std::size_t k, double bound, GridScratch& s) {
+  const std::size_t m = s.distance.size();
+  const double* const d = s.distance.data();
   std::size_t passed = 0;
   std::uint32_t* const passing = s.passing.data();
   for (std::size_t j = 0; j < m; ++j) {
@@ -725,9 +749,16 @@ AllNearestSummary all_nearest(const Eigen::Matrix3Xd& points, std::size_t k, std
   }
   std::vector<std::vector<std::uint32_t>> uncertain(chunks);  // positions, per chunk
 
-  // The 3x3x3 block of each occupied cell, gathered once for all its points. Each search is
-  // bounded by the previous point of the cell's k nearest and itself (k + 1 distinct points of
-  // the same block, at least k of them not the query: the farthest bounds the k-th distance).
+  // The 3x3x3 block of each occupied cell, gathered once for all its points. A point's
+  // distances to all the block's candidates are computed in one loop; the k nearest are then
+  // selected among those within a bound of the k-th distance, so that few reach the ordered
+  // insertion. The bound tried first is the previous point's k-th squared distance plus a
+  // margin (neighbouring points have similar neighbourhoods); it is used only when counting
+  // shows at least k candidates other than the point within it (count_within), so it is a
+  // true upper bound whatever it is. Otherwise the bound is the previous point of the cell
+  // with its k nearest (k + 1 distinct points of the same block, at least k of them not the
+  // query: the farthest bounds the k-th distance), or none for a cell's first point. The
+  // bounds only prune: the neighbours are the same whichever is used.
   // The first key of each of the block's 9 rows of 3 cells, relative to the centre cell's key:
   // it grows with the centre's key, so as the cells are visited in key order each row's first
   // occupied cell is found by moving a cursor forward, not by a search.
@@ -740,6 +771,9 @@ AllNearestSummary all_nearest(const Eigen::Matrix3Xd& points, std::size_t k, std
     s.points.clear();
     s.rows.clear();
     std::vector<std::uint32_t>& unsure = uncertain[chunk];
+    // First guess of the k-th squared distance: the cell edge was chosen to hold about the
+    // k nearest (Grid::Grid).
+    double guess = g.cell_ * g.cell_;
     std::size_t cursor[9];
     for (int o = 0; o < 9; ++o)
       cursor[o] = g.cell_from(static_cast<std::uint64_t>(
@@ -764,16 +798,19 @@ AllNearestSummary all_nearest(const Eigen::Matrix3Xd& points, std::size_t k, std
       for (std::uint32_t p = first; p < last; ++p) {
         s.self = first_self + (p - first);
         const double q[3] = {g.axes_[0][p], g.axes_[1][p], g.axes_[2][p]};
-        double bound = std::numeric_limits<double>::infinity();
-        if (previous < s.distance.size()) {
-          bound = squared_distance(q, s.x[previous], s.y[previous], s.z[previous]);
-          for (std::size_t j = 0; j < k; ++j) {
-            const std::uint32_t t = s.top[j];
-            bound = std::max(bound, squared_distance(q, s.x[t], s.y[t], s.z[t]));
+        candidate_distances(q, s);
+        double bound = guess;
+        if (count_within(s, bound) < k) {
+          bound = std::numeric_limits<double>::infinity();
+          if (previous < s.distance.size()) {
+            bound = s.distance[previous];
+            for (std::size_t j = 0; j < k; ++j) bound = std::max(bound, s.distance[s.top[j]]);
           }
         }
-        select_nearest(q, k, bound, s);
+        select_within(k, bound, s);
         previous = s.self;
+        const double kth = s.distance[s.top[k - 1]];
+        guess = kth + guess_margin * kth;
         if (s.distance[s.top[k - 1]] < Grid::outside_of(q, low, high))
           keep_found(s, g.order_[p], k);
         else
@@ -802,7 +839,8 @@ AllNearestSummary all_nearest(const Eigen::Matrix3Xd& points, std::size_t k, std
       bool done = false;
       for (std::int64_t r = 2; r <= widest && !done; ++r) {
         if (!gather_block(g, at, r, p, cap, s)) break;
-        if (select_nearest(q, k, std::numeric_limits<double>::infinity(), s) < k) continue;
+        candidate_distances(q, s);
+        if (select_within(k, std::numeric_limits<double>::infinity(), s) < k) continue;
         done = s.distance[s.top[k - 1]] < g.outside_bound(q, at, r);
       }
       if (done)
