@@ -468,11 +468,14 @@ void radix_sort(std::vector<std::uint64_t>& keys, std::vector<std::uint32_t>& pa
   std::vector<std::size_t> start(chunks * digits);  // chunk c's counts, then starts, of digit d
   for (int pass = 0; pass < passes; ++pass) {
     const int shift = pass * width;
-    detail::parallel_for(chunks, threads, [&](std::size_t c, std::size_t) {
+    // Local copies in the loops: a store through a pointer of the same type family could
+    // otherwise alias the captured shift and force a reload per element.
+    detail::parallel_for(chunks, threads, [&, shift](std::size_t c, std::size_t) {
       std::size_t* const count = start.data() + c * digits;
+      const std::uint64_t* const from = keys.data();
       std::fill(count, count + digits, std::size_t{0});
       for (std::size_t i = c * setup_chunk, end = std::min(n, i + setup_chunk); i < end; ++i)
-        ++count[(keys[i] >> shift) & mask];
+        ++count[(from[i] >> shift) & mask];
     });
     const std::size_t first_digit = (keys[0] >> shift) & mask;
     std::size_t same = 0;
@@ -485,12 +488,17 @@ void radix_sort(std::vector<std::uint64_t>& keys, std::vector<std::uint32_t>& pa
         start[c * digits + d] = sum;
         sum += count;
       }
-    detail::parallel_for(chunks, threads, [&](std::size_t c, std::size_t) {
+    detail::parallel_for(chunks, threads, [&, shift](std::size_t c, std::size_t) {
       std::size_t* const next = start.data() + c * digits;
+      const std::uint64_t* const from = keys.data();
+      const std::uint32_t* const carried = payload.data();
+      std::uint64_t* const to = keys_to.data();
+      std::uint32_t* const carried_to = payload_to.data();
       for (std::size_t i = c * setup_chunk, end = std::min(n, i + setup_chunk); i < end; ++i) {
-        const std::size_t at = next[(keys[i] >> shift) & mask]++;
-        keys_to[at] = keys[i];
-        payload_to[at] = payload[i];
+        const std::uint64_t key = from[i];
+        const std::size_t at = next[(key >> shift) & mask]++;
+        to[at] = key;
+        carried_to[at] = carried[i];
       }
     });
     keys.swap(keys_to);
