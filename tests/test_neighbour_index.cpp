@@ -376,8 +376,8 @@ TEST_CASE("all_nearest: exact ties, coincident points, cell edges, tiny clouds",
   }
   SECTION("points exactly on the cells' edges") {
     // Half the points snapped down to multiples of the cell edge from the lowest corner. On a
-    // uniform cloud the grid keeps its first cell edge, (volume x (k + 1) / 2 / n)^(1/3) of the
-    // bounding box (about (k + 1) / 2 points per occupied cell), which snapping down does not
+    // uniform cloud the grid keeps its first cell edge, (volume x (k + 1) / 3 / n)^(1/3) of the
+    // bounding box (about (k + 1) / 3 points per occupied cell), which snapping down does not
     // change; the test checks that it was the edge snapped to.
     std::mt19937_64 rng(127);
     std::uniform_real_distribution<double> unit(0.0, 10.0);
@@ -388,7 +388,7 @@ TEST_CASE("all_nearest: exact ties, coincident points, cell edges, tiny clouds",
     points.col(0) = points.rowwise().minCoeff();
     points.col(1) = points.rowwise().maxCoeff();
     const Eigen::Vector3d corner = points.col(0), extent = points.col(1) - corner;
-    const double cell = std::cbrt(extent(0) * extent(1) * extent(2) * 4.5 / static_cast<double>(n));
+    const double cell = std::cbrt(extent(0) * extent(1) * extent(2) * 3.0 / static_cast<double>(n));
     for (Eigen::Index i = 2; i < n; i += 2)
       for (int a = 0; a < 3; ++a)
         points(a, i) = corner(a) + cell * std::floor((points(a, i) - corner(a)) / cell);
