@@ -393,6 +393,23 @@ TEST_CASE("too few points and bad arguments", "[stray_points]") {
   bad_residuals(9) = std::numeric_limits<double>::quiet_NaN();
   CHECK_THROWS_MATCHES(find_stray_points(set.points, bad_residuals), FitError,
                        Catch::Matchers::Message("point #10 has a non-finite residual"));
+  // A large cloud, checked in chunks of 2^16 points on two threads: the first bad point is
+  // the one named (the definition: a scan in file order), whichever thread meets which first.
+  {
+    const Eigen::Index large = 300000;
+    Eigen::Matrix3Xd many = Eigen::Matrix3Xd::Random(3, large);
+    Eigen::VectorXd many_residuals = Eigen::VectorXd::Zero(large);
+    many(0, 250000) = std::numeric_limits<double>::quiet_NaN();
+    many_residuals(200000) = std::numeric_limits<double>::infinity();
+    many(2, 70000) = -std::numeric_limits<double>::infinity();
+    StrayPointOptions two;
+    two.threads = 2;
+    CHECK_THROWS_MATCHES(find_stray_points(many, many_residuals, two), FitError,
+                         Catch::Matchers::Message("point #70001 has a non-finite coordinate"));
+    many(2, 70000) = 0.0;
+    CHECK_THROWS_MATCHES(find_stray_points(many, many_residuals, two), FitError,
+                         Catch::Matchers::Message("point #200001 has a non-finite residual"));
+  }
 
   // suspect_contacts: within 1e-6 mm of the extreme on the given side.
   StrayPointReport report;
