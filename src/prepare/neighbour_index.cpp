@@ -708,7 +708,8 @@ struct alignas(64) GridScratch {
   std::vector<std::uint32_t> id, passing;
   std::vector<std::uint32_t> top;  ///< candidate slots of the k nearest, in order
   std::vector<std::uint32_t> points, rows, uncertain;
-  std::size_t self = 0;  ///< slot of the query's own point among the candidates
+  std::size_t self = 0;    ///< slot of the query's own point among the candidates
+  std::size_t passed = 0;  ///< candidates kept in `passing` (keep_within)
 };
 
 /// Gathers the points of the block of cells [c - r, c + r]^3 around cell coordinate `c` into
@@ -753,37 +754,37 @@ void candidate_distances(const double* q, GridScratch& s) {
   for (std::size_t j = 0; j < m; ++j) d[j] = squared_distance(q, s.x[j], s.y[j], s.z[j]);
 }
 
-/// How many candidates other than the query's own point (slot s.self) lie within squared
-/// distance `t` (candidate_distances first). When at least k, t bounds the k-th distance from
-/// above: the k nearest in (distance, index) order all lie within it, whatever their indices.
-std::size_t count_within(const GridScratch& s, double t) {
+/// The slots of the candidates within squared distance `bound` (candidate_distances first)
+/// into s.passing, without a branch per candidate (whether one passes is unpredictable);
+/// returns how many of them are not the query's own point (slot s.self). When at least k,
+/// `bound` bounds the k-th distance from above: the k nearest in (distance, index) order all
+/// passed, whatever their indices.
+std::size_t keep_within(double bound, GridScratch& s) {
   const std::size_t m = s.distance.size();
   const double* const d = s.distance.data();
-  std::size_t count = 0;
-  for (std::size_t j = 0; j < m; ++j) count += d[j] <= t ? 1 : 0;
-  return count - (s.self < m && d[s.self] <= t ? 1 : 0);
-}
-
-/// The k nearest of the gathered candidates in (distance, index) order (candidate_distances
-/// first), the query itself (slot s.self) excluded, among those within `bound` (an upper bound
-/// of the k-th distance, or infinity), into s.top; returns how many were found (k unless there
-/// are fewer candidates).
-std::size_t select_within(std::size_t k, double bound, GridScratch& s) {
-  const std::size_t m = s.distance.size();
-  const double* const d = s.distance.data();
-  std::size_t passed = 0;
   std::uint32_t* const passing = s.passing.data();
+  std::size_t passed = 0;
   for (std::size_t j = 0; j < m; ++j) {
     passing[passed] = static_cast<std::uint32_t>(j);
     passed += d[j] <= bound ? 1 : 0;
   }
+  s.passed = passed;
+  return passed - (s.self < m && d[s.self] <= bound ? 1 : 0);
+}
+
+/// The k nearest of the candidates kept by keep_within in (distance, index) order, the query
+/// itself (slot s.self) excluded, into s.top by ordered insertion; returns how many were found
+/// (k unless fewer were kept).
+std::size_t select_kept(std::size_t k, GridScratch& s) {
+  const double* const d = s.distance.data();
+  const std::uint32_t* const passing = s.passing.data();
   std::size_t found = 0;
   std::uint32_t* const top = s.top.data();
   const std::uint32_t* const id = s.id.data();
   const auto before = [&](std::uint32_t a, std::uint32_t b) {
     return d[a] < d[b] || (d[a] == d[b] && id[a] < id[b]);
   };
-  for (std::size_t c = 0; c < passed; ++c) {
+  for (std::size_t c = 0; c < s.passed; ++c) {
     const std::uint32_t j = passing[c];
     if (j == s.self) continue;
     if (found == k && !before(j, top[k - 1])) continue;
@@ -834,9 +835,9 @@ AllNearestSummary all_nearest(const Eigen::Matrix3Xd& points, std::size_t k, std
   // distances to all the block's candidates are computed in one loop; the k nearest are then
   // selected among those within a bound of the k-th distance, so that few reach the ordered
   // insertion. The bound tried first is the previous point's k-th squared distance plus a
-  // margin (neighbouring points have similar neighbourhoods); it is used only when counting
-  // shows at least k candidates other than the point within it (count_within), so it is a
-  // true upper bound whatever it is. Otherwise the bound is the previous point of the cell
+  // margin (neighbouring points have similar neighbourhoods); it is used only when at least k
+  // candidates other than the point lie within it (keep_within), so it is a true upper bound
+  // whatever it is. Otherwise the bound is the previous point of the cell
   // with its k nearest (k + 1 distinct points of the same block, at least k of them not the
   // query: the farthest bounds the k-th distance), or none for a cell's first point. The
   // bounds only prune: the neighbours are the same whichever is used.
@@ -880,15 +881,15 @@ AllNearestSummary all_nearest(const Eigen::Matrix3Xd& points, std::size_t k, std
         s.self = first_self + (p - first);
         const double q[3] = {g.axes_[0][p], g.axes_[1][p], g.axes_[2][p]};
         candidate_distances(q, s);
-        double bound = guess;
-        if (count_within(s, bound) < k) {
-          bound = std::numeric_limits<double>::infinity();
+        if (keep_within(guess, s) < k) {
+          double bound = std::numeric_limits<double>::infinity();
           if (previous < s.distance.size()) {
             bound = s.distance[previous];
             for (std::size_t j = 0; j < k; ++j) bound = std::max(bound, s.distance[s.top[j]]);
           }
+          keep_within(bound, s);
         }
-        select_within(k, bound, s);
+        select_kept(k, s);
         previous = s.self;
         const double kth = s.distance[s.top[k - 1]];
         guess = kth + guess_margin * kth;
@@ -921,7 +922,8 @@ AllNearestSummary all_nearest(const Eigen::Matrix3Xd& points, std::size_t k, std
       for (std::int64_t r = 2; r <= widest && !done; ++r) {
         if (!gather_block(g, at, r, p, cap, s)) break;
         candidate_distances(q, s);
-        if (select_within(k, std::numeric_limits<double>::infinity(), s) < k) continue;
+        keep_within(std::numeric_limits<double>::infinity(), s);
+        if (select_kept(k, s) < k) continue;
         done = s.distance[s.top[k - 1]] < g.outside_bound(q, at, r);
       }
       if (done)
