@@ -11,6 +11,7 @@
 
 #include <Eigen/Geometry>
 #include <algorithm>
+#include <cmath>
 #include <cstdint>
 #include <random>
 #include <stdexcept>
@@ -318,6 +319,19 @@ TEST_CASE("all_nearest gives the exhaustive search's neighbours on uniform, clus
     const AllNearestSummary s = check_grid_exhaustive(scanned_bore(4000, 314, 0.1, 103), 8);
     CHECK(s.certified > 3000);
   }
+  SECTION("density graded 400-fold, two populations interleaved: the k-th distance jumps") {
+    // Each point's selection is first bounded by the previous point's k-th distance plus a
+    // margin; here consecutive points of a cell often have k-th distances far apart, so that
+    // bound is too small (and must be abandoned) or far too large (and must still be exact).
+    Eigen::Matrix3Xd points(3, n);
+    for (Eigen::Index i = 0; i < n; ++i) {
+      const double x = std::exp(6.0 * (unit(rng) + 1.0) / 2.0);  // density falls as 1/x
+      const double z = i % 2 == 0 ? 0.0 : 0.05 * unit(rng);         // a face and a thin slab
+      points.col(i) = Eigen::Vector3d(x, 10.0 * unit(rng), z);
+    }
+    check_grid_exhaustive(points, 8);
+    check_grid_exhaustive(points, 3);
+  }
   SECTION("a face and points 1.5 and 2.5 cells off it: certified by the wider blocks") {
     Eigen::Matrix3Xd points(3, n);
     for (Eigen::Index i = 0; i < n; ++i)
@@ -362,8 +376,8 @@ TEST_CASE("all_nearest: exact ties, coincident points, cell edges, tiny clouds",
   }
   SECTION("points exactly on the cells' edges") {
     // Half the points snapped down to multiples of the cell edge from the lowest corner. On a
-    // uniform cloud the grid keeps its first cell edge, (volume x (k + 1) / 2 / n)^(1/3) of the
-    // bounding box (about (k + 1) / 2 points per occupied cell), which snapping down does not
+    // uniform cloud the grid keeps its first cell edge, (volume x (k + 1) / 3 / n)^(1/3) of the
+    // bounding box (about (k + 1) / 3 points per occupied cell), which snapping down does not
     // change; the test checks that it was the edge snapped to.
     std::mt19937_64 rng(127);
     std::uniform_real_distribution<double> unit(0.0, 10.0);
@@ -374,7 +388,7 @@ TEST_CASE("all_nearest: exact ties, coincident points, cell edges, tiny clouds",
     points.col(0) = points.rowwise().minCoeff();
     points.col(1) = points.rowwise().maxCoeff();
     const Eigen::Vector3d corner = points.col(0), extent = points.col(1) - corner;
-    const double cell = std::cbrt(extent(0) * extent(1) * extent(2) * 4.5 / static_cast<double>(n));
+    const double cell = std::cbrt(extent(0) * extent(1) * extent(2) * 3.0 / static_cast<double>(n));
     for (Eigen::Index i = 2; i < n; i += 2)
       for (int a = 0; a < 3; ++a)
         points(a, i) = corner(a) + cell * std::floor((points(a, i) - corner(a)) / cell);
@@ -395,9 +409,12 @@ TEST_CASE("all_nearest on a large scanned bore equals the KD-tree on one and two
           "[neighbour_index][grid]") {
   const Eigen::Matrix3Xd points = scanned_bore(300000, 314, 0.1, 137);
   const std::size_t k = 8;
-  AllNearestSummary summary;
+  AllNearestSummary summary, two_summary;
   const auto one = grid_rows(points, k, 1, &summary);
-  CHECK(grid_rows(points, k, 2) == one);
+  // Two threads set the grid up in parallel (5 chunks of 2^16 points): the same cells.
+  CHECK(grid_rows(points, k, 2, &two_summary) == one);
+  CHECK(two_summary.cell == summary.cell);
+  CHECK(two_summary.certified == summary.certified);
   CHECK(summary.certified > 290000);
   const NeighbourIndex index(points, 2);
   NeighbourIndex::Query query(k);

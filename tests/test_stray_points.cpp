@@ -393,6 +393,23 @@ TEST_CASE("too few points and bad arguments", "[stray_points]") {
   bad_residuals(9) = std::numeric_limits<double>::quiet_NaN();
   CHECK_THROWS_MATCHES(find_stray_points(set.points, bad_residuals), FitError,
                        Catch::Matchers::Message("point #10 has a non-finite residual"));
+  // A large cloud, checked in chunks of 2^16 points on two threads: the first bad point is
+  // the one named (the definition: a scan in file order), whichever thread meets which first.
+  {
+    const Eigen::Index large = 300000;
+    Eigen::Matrix3Xd many = Eigen::Matrix3Xd::Random(3, large);
+    Eigen::VectorXd many_residuals = Eigen::VectorXd::Zero(large);
+    many(0, 250000) = std::numeric_limits<double>::quiet_NaN();
+    many_residuals(200000) = std::numeric_limits<double>::infinity();
+    many(2, 70000) = -std::numeric_limits<double>::infinity();
+    StrayPointOptions two;
+    two.threads = 2;
+    CHECK_THROWS_MATCHES(find_stray_points(many, many_residuals, two), FitError,
+                         Catch::Matchers::Message("point #70001 has a non-finite coordinate"));
+    many(2, 70000) = 0.0;
+    CHECK_THROWS_MATCHES(find_stray_points(many, many_residuals, two), FitError,
+                         Catch::Matchers::Message("point #200001 has a non-finite residual"));
+  }
 
   // suspect_contacts: within 1e-6 mm of the extreme on the given side.
   StrayPointReport report;
@@ -761,4 +778,44 @@ TEST_CASE("the screen's parallel median and MAD scale equal the definition by a 
   const std::vector<double> same(400000, -2.5e-3);
   CHECK(detail::median_parallel(same, 2) == -2.5e-3);
   CHECK(detail::robust_spread(same, 2).scale == 0.0);
+}
+
+TEST_CASE("the median of 8 neighbours (a pruned sorting network) equals the definition",
+          "[stray_points][robust_scale]") {
+  // Reference: the median by its definition, the mean of the 4th and 5th of the values sorted
+  // by std::sort (common practice). Exhaustive: every 0-1 input (the 0-1 principle: a
+  // comparator network that selects correctly on all of them does so on any input; Knuth,
+  // TAOCP vol. 3, section 5.3.4, from memory), every order of 8 distinct values, and values
+  // with ties and both signs of zero; through median_in_place and the screen's excess_over.
+  const auto by_sort = [](std::vector<double> v) {
+    std::sort(v.begin(), v.end());
+    return 0.5 * (v[3] + v[4]);
+  };
+  const auto check = [&](const std::vector<double>& values) {
+    std::vector<double> copy(values);
+    INFO(copy[0] << " " << copy[1] << " " << copy[2] << " " << copy[3] << " " << copy[4] << " "
+                 << copy[5] << " " << copy[6] << " " << copy[7]);
+    REQUIRE(detail::median_in_place(copy) == by_sort(values));
+    Eigen::VectorXd residuals(9);
+    for (Eigen::Index j = 0; j < 8; ++j) residuals(j) = values[static_cast<std::size_t>(j)];
+    residuals(8) = 1.0;
+    const std::uint32_t neighbours[8] = {0, 1, 2, 3, 4, 5, 6, 7};
+    std::vector<double> buffer;
+    REQUIRE(detail::excess_over(residuals, 8, neighbours, 8, buffer) == 1.0 - by_sort(values));
+  };
+  for (unsigned bits = 0; bits < 256; ++bits) {
+    std::vector<double> values(8);
+    for (std::size_t j = 0; j < 8; ++j) values[j] = (bits >> j) & 1u ? 1.0 : 0.0;
+    check(values);
+  }
+  std::vector<double> values = {-3.5, -1.0, -0.25, 0.0, 0.5, 2.0, 7.0, 11.0};
+  do {
+    check(values);
+  } while (std::next_permutation(values.begin(), values.end()));
+  std::mt19937_64 rng(97);
+  std::uniform_int_distribution<int> level(-3, 3);
+  for (int trial = 0; trial < 2000; ++trial) {
+    for (double& v : values) v = level(rng) == 0 ? (trial % 2 ? 0.0 : -0.0) : 0.5 * level(rng);
+    check(values);
+  }
 }

@@ -15,6 +15,7 @@
 #include "cylzone/core/errors.hpp"
 #include "cylzone/prepare/neighbour_index.hpp"
 #include "detail/fit_support.hpp"
+#include "detail/parallel.hpp"
 #include "prepare/detail/robust_scale.hpp"
 #include "prepare/detail/stray_point_message.hpp"
 
@@ -43,12 +44,20 @@ StrayPointReport find_stray_points(const Eigen::Matrix3Xd& points, const Eigen::
                                 " residuals for " + std::to_string(n) + " points");
   if (static_cast<std::uint64_t>(n) > std::numeric_limits<std::uint32_t>::max())
     throw std::invalid_argument("find_stray_points: more than 2^32 - 1 points");
-  for (Eigen::Index i = 0; i < n; ++i) {
-    if (!points.col(i).allFinite())
-      throw FitError("point #" + std::to_string(i + 1) + " has a non-finite coordinate");
-    if (!std::isfinite(residuals(i)))
-      throw FitError("point #" + std::to_string(i + 1) + " has a non-finite residual");
-  }
+  // The checks and the flagging below run in chunks of points fixed by the data on the
+  // `threads` option (detail/parallel.hpp): the lowest failing chunk's error is the one
+  // rethrown, so the first bad point is named, as by a serial scan.
+  constexpr Eigen::Index chunk = Eigen::Index{1} << 16;
+  const std::size_t chunks = static_cast<std::size_t>((n + chunk - 1) / chunk);
+  detail::parallel_for(chunks, options.threads, [&](std::size_t c, std::size_t) {
+    const Eigen::Index first = static_cast<Eigen::Index>(c) * chunk;
+    for (Eigen::Index i = first, end = std::min(n, first + chunk); i < end; ++i) {
+      if (!points.col(i).allFinite())
+        throw FitError("point #" + std::to_string(i + 1) + " has a non-finite coordinate");
+      if (!std::isfinite(residuals(i)))
+        throw FitError("point #" + std::to_string(i + 1) + " has a non-finite residual");
+    }
+  });
   StrayPointReport report;
   const std::size_t k = options.neighbours;
   if (static_cast<std::size_t>(n) <= k) return report;  // fewer than k + 1 points
@@ -69,11 +78,17 @@ StrayPointReport find_stray_points(const Eigen::Matrix3Xd& points, const Eigen::
   report.screened = static_cast<std::size_t>(n);
 
   const double limit = std::max(options.threshold * report.robust_scale, options.floor);
-  for (Eigen::Index i = 0; i < n; ++i) {
-    const double e = excess[static_cast<std::size_t>(i)];
-    if (std::abs(e) > limit)
-      report.points.push_back(StrayPoint{static_cast<std::size_t>(i), residuals(i), e});
-  }
+  std::vector<std::vector<StrayPoint>> flagged(chunks);  // per chunk, joined in chunk order
+  detail::parallel_for(chunks, options.threads, [&](std::size_t c, std::size_t) {
+    const Eigen::Index first = static_cast<Eigen::Index>(c) * chunk;
+    for (Eigen::Index i = first, end = std::min(n, first + chunk); i < end; ++i) {
+      const double e = excess[static_cast<std::size_t>(i)];
+      if (std::abs(e) > limit)
+        flagged[c].push_back(StrayPoint{static_cast<std::size_t>(i), residuals(i), e});
+    }
+  });
+  for (const std::vector<StrayPoint>& f : flagged)
+    report.points.insert(report.points.end(), f.begin(), f.end());
   std::sort(report.points.begin(), report.points.end(),
             [](const StrayPoint& a, const StrayPoint& b) {
               const double ea = std::abs(a.excess), eb = std::abs(b.excess);

@@ -23,27 +23,28 @@ namespace cylzone::detail {
 /// practice).
 constexpr double mad_to_sigma = 1.4826;
 
+/// Median of 8 values (v reordered): the mean of the 4th and 5th smallest, by the
+/// 19-comparator sorting network for 8 inputs (Knuth, TAOCP vol. 3, section 5.3.4, from memory;
+/// checked exhaustively by the 0-1 principle in tests/test_stray_points.cpp) less its two last
+/// comparators, (1,2) and (5,6), which move no value into or out of positions 3 and 4: those
+/// hold what any sort puts there, so the median is the same. Min and max without a branch.
+inline double median_of_8(double* v) {
+  static constexpr std::uint8_t network[17][2] = {
+      {0, 2}, {1, 3}, {4, 6}, {5, 7}, {0, 4}, {1, 5}, {2, 6}, {3, 7}, {0, 1},
+      {2, 3}, {4, 5}, {6, 7}, {2, 4}, {3, 5}, {1, 4}, {3, 6}, {3, 4}};
+  for (const auto& pair : network) {
+    const double low = std::min(v[pair[0]], v[pair[1]]);
+    v[pair[1]] = std::max(v[pair[0]], v[pair[1]]);
+    v[pair[0]] = low;
+  }
+  return 0.5 * (v[3] + v[4]);
+}
+
 /// Median of `values` (reordered in place); the mean of the two middle values for an even
 /// count. `values` must not be empty.
 inline double median_in_place(std::vector<double>& values) {
   const std::size_t n = values.size();
-  if (n == 8) {
-    // The default neighbourhood (k = 8): a 19-comparator sorting network (Knuth, TAOCP vol. 3,
-    // section 5.3.4, from memory; checked exhaustively by the 0-1 principle), min and max
-    // without a branch. The sorted values are those of any sort, so the median is the same.
-    static constexpr std::uint8_t network[19][2] = {
-        {0, 2}, {1, 3}, {4, 6}, {5, 7}, {0, 4}, {1, 5}, {2, 6}, {3, 7}, {0, 1}, {2, 3},
-        {4, 5}, {6, 7}, {2, 4}, {3, 5}, {1, 4}, {3, 6}, {1, 2}, {3, 4}, {5, 6}};
-    double v[8];
-    std::copy(values.begin(), values.end(), v);
-    for (const auto& pair : network) {
-      const double low = std::min(v[pair[0]], v[pair[1]]);
-      v[pair[1]] = std::max(v[pair[0]], v[pair[1]]);
-      v[pair[0]] = low;
-    }
-    std::copy(v, v + 8, values.begin());
-    return 0.5 * (v[3] + v[4]);
-  }
+  if (n == 8) return median_of_8(values.data());  // the default neighbourhood (k = 8)
   if (n <= 32) {
     // A neighbourhood: insertion sort is cheaper than selection at this size.
     for (std::size_t i = 1; i < n; ++i)
@@ -76,16 +77,17 @@ inline RobustSpread robust_spread(std::vector<double> values) {
 
 /// The median of `values` as median_in_place defines it (the same value; of two middle zeros
 /// the sign of the mean may differ, which no use of it sees: deviations are taken with abs),
-/// on up to `threads`
-/// threads: a radix selection (common practice) counts the values by the top 16 bits of an
-/// order-preserving integer key (per worker, summed: counts do not depend on the split), keeps
-/// only those in the bucket(s) holding the middle rank(s), and selects among them. Exact, so the
-/// result does not depend on the thread count. `values` must not be empty; it is not changed.
+/// on up to `threads` threads: from 4 x 2^16 values on, a radix selection (common practice)
+/// counts the values by the top 16 bits of an order-preserving integer key (per worker,
+/// summed: counts do not depend on the split), keeps only those in the bucket(s) holding the
+/// middle rank(s), and selects among them; on one thread too, where its two passes cost less
+/// than nth_element over all values. Exact, so the result does not depend on the thread count.
+/// `values` must not be empty; it is not changed.
 inline double median_parallel(const std::vector<double>& values, std::size_t threads) {
   const std::size_t n = values.size();
   constexpr std::size_t chunk = std::size_t{1} << 16;
   const std::size_t chunks = (n + chunk - 1) / chunk;
-  if (chunks < 4 || threads <= 1) {
+  if (chunks < 4) {
     std::vector<double> copy(values);
     return median_in_place(copy);
   }
@@ -158,6 +160,11 @@ inline RobustSpread robust_spread(const std::vector<double>& values, std::size_t
 inline double excess_over(const Eigen::VectorXd& residuals, std::size_t i,
                           const std::uint32_t* neighbours, std::size_t count,
                           std::vector<double>& buffer) {
+  if (count == 8) {  // the default neighbourhood: no buffer (median_in_place does the same)
+    double v[8];
+    for (std::size_t j = 0; j < 8; ++j) v[j] = residuals(static_cast<Eigen::Index>(neighbours[j]));
+    return residuals(static_cast<Eigen::Index>(i)) - median_of_8(v);
+  }
   buffer.resize(count);
   for (std::size_t j = 0; j < count; ++j)
     buffer[j] = residuals(static_cast<Eigen::Index>(neighbours[j]));
