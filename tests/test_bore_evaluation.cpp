@@ -127,15 +127,22 @@ LobedBore tilted_bore(double tilt = 3e-4) {
   return b;
 }
 
-}  // namespace
-
-TEST_CASE("tilted, offset, lobed bore: every figure against its closed form", "[bore_evaluation]") {
+/// tilted_bore() toleranced over its full depth: position 0.025 at MMC to A|B, perpendicularity
+/// 0.015 to A.
+LobedBore toleranced_bore() {
   LobedBore b = tilted_bore();
   b.plan.depth_top = 0.0;
   b.plan.depth_bottom = -64.0;
   b.plan.position = tolerance(0.025, MaterialCondition::mmc);
   b.plan.perpendicularity = tolerance(0.015);
   b.plan.perpendicularity->datums = {{'A', MaterialBoundary::rmb}};
+  return b;
+}
+
+}  // namespace
+
+TEST_CASE("tilted, offset, lobed bore: every figure against its closed form", "[bore_evaluation]") {
+  LobedBore b = toleranced_bore();
   b.plan.cylindricity = 0.005;
   const BoreResult r = evaluate_bore(b.plan, b.points);
   const TrueAxis zone = true_axis(b.plan.basic_location, Eigen::Vector3d::UnitZ());
@@ -847,12 +854,7 @@ TEST_CASE("evaluate_bore takes the preparation's least-squares cylinder only whe
   // Reference: the same evaluation with the preparation's cylinder removed, which fits it again
   // (the computation the passed-on fit replaces): every fit, figure and decided value agrees
   // bit for bit. A cylinder of other options is not taken: a marked one shows which is used.
-  LobedBore b = tilted_bore();
-  b.plan.depth_top = 0.0;
-  b.plan.depth_bottom = -64.0;
-  b.plan.position = tolerance(0.025, MaterialCondition::mmc);
-  b.plan.perpendicularity = tolerance(0.015);
-  b.plan.perpendicularity->datums = {{'A', MaterialBoundary::rmb}};
+  const LobedBore b = toleranced_bore();
   const BoreEvaluationOptions options;
   PointCloud cloud;
   cloud.points = b.points;

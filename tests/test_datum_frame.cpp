@@ -112,6 +112,13 @@ PlanDatum size_datum(char label, FeatureKind kind) {
   return d;
 }
 
+// Datums A (a plane), B (a bore) and C (a bore at basic location (55, 25)).
+std::vector<PlanDatum> a_b_c_bores() {
+  PlanDatum c = size_datum('C', FeatureKind::bore);
+  c.basic_location = Eigen::Vector2d(55.0, 25.0);
+  return {plane_datum('A'), size_datum('B', FeatureKind::bore), c};
+}
+
 // The frame must be the inverse of the motion that placed the part: rows of the rotation are
 // the part's axes in measurement coordinates, the origin is the part's origin.
 void check_frame_is_inverse(const DatumFrame& frame, const Motion& motion, double tolerance) {
@@ -126,12 +133,7 @@ void check_frame_is_inverse(const DatumFrame& frame, const Motion& motion, doubl
 TEST_CASE("frame from A, B bore and C bore is the inverse of the part's placement",
           "[datum][frame]") {
   const Motion motion = generic_motion();
-  const std::vector<PlanDatum> datums = {
-      plane_datum('A'), size_datum('B', FeatureKind::bore), [] {
-        PlanDatum c = size_datum('C', FeatureKind::bore);
-        c.basic_location = Eigen::Vector2d(55.0, 25.0);
-        return c;
-      }()};
+  const std::vector<PlanDatum> datums = a_b_c_bores();
   const std::vector<PointCloud> clouds = {
       cloud(motion.apply(face_a_points()), "A.csv"),
       cloud(motion.apply(lobed_feature(0.0, 0.0, 10.0, -40.0, -3.0, 0.004)), "B.csv"),
@@ -819,12 +821,7 @@ TEST_CASE("A's flatness fitted beside B and C: the serial order's bits and notes
   Eigen::Matrix3Xd a = dense_face();
   a.conservativeResize(3, a.cols() + 1);
   a.col(a.cols() - 1) = motion.apply(Eigen::Vector3d(20.0, 10.0, 0.5));
-  const std::vector<PlanDatum> datums = {
-      plane_datum('A'), size_datum('B', FeatureKind::bore), [] {
-        PlanDatum c = size_datum('C', FeatureKind::bore);
-        c.basic_location = Eigen::Vector2d(55.0, 25.0);
-        return c;
-      }()};
+  const std::vector<PlanDatum> datums = a_b_c_bores();
   const std::vector<PointCloud> clouds = {
       cloud(a, "A.csv"),
       cloud(motion.apply(lobed_feature(0.0, 0.0, 10.0, -40.0, -3.0, 0.004)), "B.csv"),
