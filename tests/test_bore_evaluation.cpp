@@ -127,15 +127,22 @@ LobedBore tilted_bore(double tilt = 3e-4) {
   return b;
 }
 
-}  // namespace
-
-TEST_CASE("tilted, offset, lobed bore: every figure against its closed form", "[bore_evaluation]") {
+/// tilted_bore() toleranced over its full depth: position 0.025 at MMC to A|B, perpendicularity
+/// 0.015 to A.
+LobedBore toleranced_bore() {
   LobedBore b = tilted_bore();
   b.plan.depth_top = 0.0;
   b.plan.depth_bottom = -64.0;
   b.plan.position = tolerance(0.025, MaterialCondition::mmc);
   b.plan.perpendicularity = tolerance(0.015);
   b.plan.perpendicularity->datums = {{'A', MaterialBoundary::rmb}};
+  return b;
+}
+
+}  // namespace
+
+TEST_CASE("tilted, offset, lobed bore: every figure against its closed form", "[bore_evaluation]") {
+  LobedBore b = toleranced_bore();
   b.plan.cylindricity = 0.005;
   const BoreResult r = evaluate_bore(b.plan, b.points);
   const TrueAxis zone = true_axis(b.plan.basic_location, Eigen::Vector3d::UnitZ());
@@ -839,4 +846,55 @@ TEST_CASE("two-point sizes of a densely probed bore are the exhaustive pairing's
   CHECK(r.size.two_point_count == count);
   CHECK(r.size.two_point_min == Approx(lo).margin(1e-12));
   CHECK(r.size.two_point_max == Approx(hi).margin(1e-12));
+}
+
+TEST_CASE("evaluate_bore takes the preparation's least-squares cylinder only when it is the "
+          "refit's, and then reports the refit's figures bit for bit",
+          "[bore_evaluation][prepare]") {
+  // Reference: the same evaluation with the preparation's cylinder removed, which fits it again
+  // (the computation the passed-on fit replaces): every fit, figure and decided value agrees
+  // bit for bit. A cylinder of other options is not taken: a marked one shows which is used.
+  const LobedBore b = toleranced_bore();
+  const BoreEvaluationOptions options;
+  PointCloud cloud;
+  cloud.points = b.points;
+  const PreparedFeature prepared =
+      prepare_feature(FeatureKind::bore, cloud, bore_prepare_options(b.plan, options));
+  REQUIRE(prepared.least_squares);
+  PreparedFeature refitted = prepared;
+  refitted.least_squares.reset();
+  const BoreResult passed = evaluate_bore(BoreInput{b.plan, prepared}, options);
+  const BoreResult refit = evaluate_bore(BoreInput{b.plan, refitted}, options);
+  CHECK(passed.least_squares.axis.point == refit.least_squares.axis.point);
+  CHECK(passed.least_squares.axis.direction == refit.least_squares.axis.direction);
+  CHECK(passed.least_squares.radius == refit.least_squares.radius);
+  CHECK(passed.least_squares.residuals.values == refit.least_squares.residuals.values);
+  CHECK(passed.least_squares.summary.message == refit.least_squares.summary.message);
+  CHECK(passed.mating_envelope.axis.point == refit.mating_envelope.axis.point);
+  CHECK(passed.axis.point == refit.axis.point);
+  CHECK(passed.axis.direction == refit.axis.direction);
+  CHECK(passed.size.least_squares == refit.size.least_squares);
+  CHECK(passed.warnings == refit.warnings);
+  const std::vector<Characteristic> p = bore_characteristics(passed);
+  const std::vector<Characteristic> r = bore_characteristics(refit);
+  REQUIRE(p.size() == r.size());
+  for (std::size_t k = 0; k < p.size(); ++k) {
+    INFO(p[k].id);
+    CHECK(p[k].id == r[k].id);
+    CHECK(p[k].value == r[k].value);
+    CHECK(p[k].verdict == r[k].verdict);
+  }
+
+  // A marked cylinder: taken with the evaluation's own options, refitted with others.
+  PreparedFeature marked = prepared;
+  marked.least_squares->fit.radius += 1.0;
+  CHECK(evaluate_bore(BoreInput{b.plan, marked}, options).least_squares.radius ==
+        refit.least_squares.radius + 1.0);
+  marked.least_squares->options.axis_hint = Eigen::Vector3d::UnitX();
+  CHECK(evaluate_bore(BoreInput{b.plan, marked}, options).least_squares.radius ==
+        refit.least_squares.radius);
+  marked.least_squares->options = bore_prepare_options(b.plan, options).fit;
+  marked.least_squares->options.step_tolerance *= 2.0;
+  CHECK(evaluate_bore(BoreInput{b.plan, marked}, options).least_squares.radius ==
+        refit.least_squares.radius);
 }

@@ -112,6 +112,13 @@ PlanDatum size_datum(char label, FeatureKind kind) {
   return d;
 }
 
+// Datums A (a plane), B (a bore) and C (a bore at basic location (55, 25)).
+std::vector<PlanDatum> a_b_c_bores() {
+  PlanDatum c = size_datum('C', FeatureKind::bore);
+  c.basic_location = Eigen::Vector2d(55.0, 25.0);
+  return {plane_datum('A'), size_datum('B', FeatureKind::bore), c};
+}
+
 // The frame must be the inverse of the motion that placed the part: rows of the rotation are
 // the part's axes in measurement coordinates, the origin is the part's origin.
 void check_frame_is_inverse(const DatumFrame& frame, const Motion& motion, double tolerance) {
@@ -126,12 +133,7 @@ void check_frame_is_inverse(const DatumFrame& frame, const Motion& motion, doubl
 TEST_CASE("frame from A, B bore and C bore is the inverse of the part's placement",
           "[datum][frame]") {
   const Motion motion = generic_motion();
-  const std::vector<PlanDatum> datums = {
-      plane_datum('A'), size_datum('B', FeatureKind::bore), [] {
-        PlanDatum c = size_datum('C', FeatureKind::bore);
-        c.basic_location = Eigen::Vector2d(55.0, 25.0);
-        return c;
-      }()};
+  const std::vector<PlanDatum> datums = a_b_c_bores();
   const std::vector<PointCloud> clouds = {
       cloud(motion.apply(face_a_points()), "A.csv"),
       cloud(motion.apply(lobed_feature(0.0, 0.0, 10.0, -40.0, -3.0, 0.004)), "B.csv"),
@@ -804,4 +806,64 @@ TEST_CASE("a frame given A's minimum-zone plane equals the frame that fits it, b
   CHECK_THROWS_AS(establish_datum_frame(test::paired(datums, {cloud(dense_face(), "A.csv")}),
                                         side, wrong),
                   std::invalid_argument);
+}
+
+TEST_CASE("A's flatness fitted beside B and C: the serial order's bits and notes for any "
+          "thread count",
+          "[datum][frame][scan]") {
+  // References: A's flatness is the minimum-zone fit of A's points alone (fit_plane_minimum_zone,
+  // the computation the frame ran before B); the notes keep the datums' order (A's stray-point
+  // note before B's and C's, as when each datum was associated and screened in turn); and the
+  // frame, every datum and every note are the same bits for 1, 2 and 3 threads (the flatness
+  // and B and C run side by side from 2 threads on). Face A carries one point standing 0.5 mm
+  // proud of the 4 um band of the others, so that its screen has a note to place.
+  const Motion motion = generic_motion();
+  Eigen::Matrix3Xd a = dense_face();
+  a.conservativeResize(3, a.cols() + 1);
+  a.col(a.cols() - 1) = motion.apply(Eigen::Vector3d(20.0, 10.0, 0.5));
+  const std::vector<PlanDatum> datums = a_b_c_bores();
+  const std::vector<PointCloud> clouds = {
+      cloud(a, "A.csv"),
+      cloud(motion.apply(lobed_feature(0.0, 0.0, 10.0, -40.0, -3.0, 0.004)), "B.csv"),
+      cloud(motion.apply(lobed_feature(55.0, 25.0, 4.0, -25.0, -3.0, 0.002, 10.0)), "C.csv")};
+  const Eigen::Vector3d into_material = motion.direction(-Eigen::Vector3d::UnitZ());
+  const PlaneFit zone = fit_plane_minimum_zone(a);
+
+  const auto frame_on = [&](std::size_t threads) {
+    DatumFrameOptions options;
+    options.fit.threads = options.stray_points.threads = threads;
+    return establish_datum_frame(test::paired(datums, clouds), into_material, options);
+  };
+  const DatumFrameResult one = frame_on(1);
+  CHECK(one.a.flatness == zone.residuals.form);
+  REQUIRE(one.a.minimum_zone);
+  CHECK(one.a.minimum_zone->normal == zone.normal);
+  CHECK(one.a.minimum_zone->point == zone.point);
+  // A's note first, then C's (B's lobed bore has none to give).
+  REQUIRE(one.notes.size() >= 2);
+  CHECK_THAT(one.notes.front(), Contains("datum A:") && Contains("suspect"));
+  CHECK_THAT(one.notes.back(), Contains("datum C (bore)"));
+  for (const std::size_t threads : {2u, 3u}) {
+    INFO("threads " << threads);
+    const DatumFrameResult r = frame_on(threads);
+    CHECK(r.frame.rotation == one.frame.rotation);
+    CHECK(r.frame.origin == one.frame.origin);
+    CHECK(r.a.plane.normal == one.a.plane.normal);
+    CHECK(r.a.plane.point == one.a.plane.point);
+    CHECK(r.a.flatness == one.a.flatness);
+    REQUIRE(r.a.minimum_zone);
+    CHECK(r.a.minimum_zone->normal == one.a.minimum_zone->normal);
+    REQUIRE(r.a.stray_points.points.size() == one.a.stray_points.points.size());
+    for (std::size_t k = 0; k < r.a.stray_points.points.size(); ++k) {
+      CHECK(r.a.stray_points.points[k].index == one.a.stray_points.points[k].index);
+      CHECK(r.a.stray_points.points[k].excess == one.a.stray_points.points[k].excess);
+    }
+    REQUIRE(r.b);
+    CHECK(r.b->related_envelope.axis.point == one.b->related_envelope.axis.point);
+    CHECK(r.b->related_envelope.radius == one.b->related_envelope.radius);
+    CHECK(r.b->axis_on_a == one.b->axis_on_a);
+    REQUIRE(r.c_feature);
+    CHECK(r.c_feature->axis_on_a == one.c_feature->axis_on_a);
+    CHECK(r.notes == one.notes);
+  }
 }

@@ -209,9 +209,8 @@ TEST_CASE("prepare_feature taking the cloud over gives the copy's result bit for
   std::iota(cloud.lines.begin(), cloud.lines.end(), std::size_t{3});
   PrepareOptions options;
   options.fit.axis_hint = tilted_axis().direction;
-  ProbeTipOptions tip;
-  tip.tip_diameter = 1.0;
-  options.probe_tip = tip;
+  options.probe_tip.emplace();  // built in place: copying a local one trips g++ 12's
+  options.probe_tip->tip_diameter = 1.0;  // -Wmaybe-uninitialized on its empty optionals
   options.outliers.neighbour_filter = true;
   options.outliers.residual_rejection = true;
   const PreparedFeature copied = prepare_feature(FeatureKind::bore, cloud, options);
@@ -288,4 +287,45 @@ TEST_CASE("screen_feature gives prepare_feature's stray-point report without the
                   std::invalid_argument);
   CHECK_THROWS_AS(screen_feature(FeatureKind::plane, cloud_of(face.points), PrepareOptions{}),
                   std::invalid_argument);  // a plane without its outward direction
+}
+
+TEST_CASE("the least-squares cylinder prepare keeps is a refit of its points, bit for bit",
+          "[prepare]") {
+  // Reference: fit_cylinder_least_squares on the prepared points with the same options (the fit
+  // the evaluation would run again); after outlier removal the points are the ones kept, so the
+  // refit is of the prepared cloud, not of the given one.
+  ReferenceSet set = make_lobed_cylinder(tilted_axis(), 6.005, -1.0, -49.0, 13, 48, 2.0 * um, 11.0);
+  set.points.col(301) -= 200.0 * um * set.normals.col(301);  // far enough to be removed
+  for (const bool remove : {false, true}) {
+    INFO((remove ? "outlier stages on" : "points as given"));
+    PrepareOptions options;
+    options.fit.axis_hint = tilted_axis().direction;
+    options.outliers.neighbour_filter = options.outliers.residual_rejection = remove;
+    const PreparedFeature prepared =
+        prepare_feature(FeatureKind::bore, cloud_of(set.points), options);
+    CHECK(prepared.cloud.points.cols() == set.points.cols() - (remove ? 1 : 0));
+    REQUIRE(prepared.least_squares);
+    const CylinderFit refit = fit_cylinder_least_squares(prepared.cloud.points, options.fit);
+    const CylinderFit& kept = prepared.least_squares->fit;
+    CHECK(kept.axis.point == refit.axis.point);
+    CHECK(kept.axis.direction == refit.axis.direction);
+    CHECK(kept.radius == refit.radius);
+    CHECK(kept.residuals.values == refit.residuals.values);
+    CHECK(kept.residuals.rms == refit.residuals.rms);
+    CHECK(kept.residuals.form == refit.residuals.form);
+    CHECK(kept.summary.iterations == refit.summary.iterations);
+    CHECK(kept.summary.message == refit.summary.message);
+    CHECK(kept.summary.warnings == refit.summary.warnings);
+    CHECK(kept.covariance.matrix == refit.covariance.matrix);
+    CHECK(prepared.least_squares->options.axis_hint == options.fit.axis_hint);
+  }
+  // None without a screen of its own element: screen off, too few points, a plane.
+  PrepareOptions off;
+  off.stray_screen = false;
+  CHECK(!prepare_feature(FeatureKind::bore, cloud_of(set.points), off).least_squares);
+  CHECK(!prepare_feature(FeatureKind::bore, cloud_of(set.points.leftCols(8)), PrepareOptions{})
+             .least_squares);
+  PrepareOptions plane;
+  plane.outward = Eigen::Vector3d::UnitZ();
+  CHECK(!prepare_feature(FeatureKind::plane, cloud_of(set.points), plane).least_squares);
 }

@@ -12,6 +12,7 @@
 #include <array>
 #include <cmath>
 #include <cstddef>
+#include <exception>
 #include <limits>
 #include <optional>
 #include <stdexcept>
@@ -26,6 +27,7 @@
 #include "cylzone/prepare/prepare.hpp"
 #include "datum/detail/clocking_width.hpp"
 #include "detail/fit_support.hpp"
+#include "detail/parallel.hpp"
 #include "prepare/detail/stray_point_message.hpp"
 #include "datum/detail/tangent_line.hpp"
 
@@ -152,6 +154,15 @@ PlaneFit associate_plane(const Eigen::Matrix3Xd& points, PlaneAssociation method
     plane.residuals.values = -plane.residuals.values;
   }
   return plane;
+}
+
+// The prepare options of the datum features' stray-point screens, on `threads` threads.
+PrepareOptions screen_options(const DatumFrameOptions& options, std::size_t threads) {
+  PrepareOptions prepare;
+  prepare.stray_screen = options.stray_screen;
+  prepare.stray_points = options.stray_points;
+  prepare.stray_points.threads = threads;
+  return prepare;
 }
 
 // Where the line through `axis` meets plane A.
@@ -548,9 +559,7 @@ DatumFrameResult establish_datum_frame(const std::vector<DatumInput>& datums,
   const FitOptions& fit = options.fit;
   // Each datum feature is prepared (prepare.hpp) as soon as the element its screen needs is
   // known: B's least-squares cylinder is held perpendicular to A, so A comes first.
-  PrepareOptions prepare;
-  prepare.stray_screen = options.stray_screen;
-  prepare.stray_points = options.stray_points;
+  const PrepareOptions prepare = screen_options(options, options.stray_points.threads);
   const auto cloud_of = [&](std::size_t k) -> const PointCloud& { return datums[k].points; };
 
   // ---- primary: plane A
@@ -586,15 +595,169 @@ DatumFrameResult establish_datum_frame(const std::vector<DatumInput>& datums,
   });
   const bool zone_known = result.a.association == PlaneAssociation::tangent_minimax ||
                           result.a.association == PlaneAssociation::minimum_zone;
-  // Off (DatumFrameOptions::flatness): 0, as nothing will read it.
-  if (zone_known)
-    result.a.flatness = result.a.plane.residuals.form;
-  else if (options.flatness)
-    result.a.flatness = for_datum(a_datum.label, [&] { return zone_of_a().residuals.form; });
-  // Its residual values are released (one per point of A): a frame that associates A by the
-  // minimum zone computes them again (with_residuals), nothing else reads them.
-  if (zone) zone->residuals.values = Eigen::VectorXd();
   const Eigen::Vector3d z = result.a.plane.normal;
+  // A's flatness (its minimum-zone fit) and datums B and C rest on A's associated plane
+  // alone, not on each other nor on A's stray-point screen: when the flatness needs a fit of
+  // its own, the two run side by side on the one thread budget (half each), each writing only
+  // its own results and B and C their notes, so every bit is the serial order's (no fit's
+  // result depends on its threads). A's screen and its note follow, the note placed before
+  // B's as in the serial order; failures are reported in that order too: the flatness's,
+  // then the screen's, then B's or C's.
+  const bool flatness_fit = !zone_known && options.flatness && !zone;
+  const std::size_t side_by_side = flatness_fit ? detail::worker_count(2, fit.threads) : 1;
+  FitOptions half_fit = fit;
+  half_fit.threads = std::max<std::size_t>(1, fit.threads / side_by_side);
+  FitOptions zone_fit = plane_fit;
+  zone_fit.threads = half_fit.threads;
+  const PrepareOptions half_prepare = screen_options(
+      options, std::max<std::size_t>(1, options.stray_points.threads / side_by_side));
+  Eigen::Vector3d origin;
+  Eigen::Vector3d x;
+  std::optional<std::size_t> no_b_note;  // replaced when anchors place the origin
+  std::exception_ptr b_or_c_failure;
+  const std::size_t notes_before_b = result.notes.size();
+  const auto associate_b_and_c = [&] {
+    const FitOptions& fit = half_fit;  // this task's share of the threads
+    const PrepareOptions& prepare = half_prepare;
+    // ---- secondary: bore or pin B, locating the origin
+    origin = result.a.plane.point.dot(z) * z;  // measurement origin projected on A
+    if (datums.size() >= 2) {
+      const PlanDatum& b_datum = datums[1].plan;
+      if (b_datum.kind == FeatureKind::plane)
+        throw FitError(label_text(b_datum.label) +
+                       ": a secondary datum plane is not supported; B must be a bore or a pin");
+      if (b_datum.kind == FeatureKind::slot || b_datum.kind == FeatureKind::tab)
+        throw FitError(label_text(b_datum.label) + ": a " +
+                       std::string(feature_kind_name(b_datum.kind)) +
+                       " cannot be datum B, which locates the origin with its axis; B must be a "
+                       "bore or a pin");
+      result.b = for_datum(b_datum.label, [&] {
+        return associate_size_datum(b_datum, cloud_of(1), result.a.plane, fit, prepare,
+                                    result.notes);
+      });
+      origin = result.b->axis_on_a;
+      result.translation_fixed = true;
+    }
+    if (datums.size() < 2) {
+      no_b_note = result.notes.size();
+      result.notes.push_back("no datum B: the origin is the measurement origin projected onto " +
+                             label_text(a_datum.label) + "; translation in A is not constrained");
+    }
+
+    // ---- tertiary: C, clocking the rotation about z
+    if (datums.size() == 3) {
+      const PlanDatum& c_datum = datums[2].plan;
+      if (c_datum.kind == FeatureKind::plane) {
+        if (!c_datum.outward_normal || !(c_datum.outward_normal->norm() > 0.0))
+          throw FitError(label_text(c_datum.label) +
+                         ": the basic direction of its outward normal is needed to clock the frame");
+        const std::optional<Eigen::Vector3d> b_axis =
+            result.b ? std::optional<Eigen::Vector3d>(result.b->axis_on_a) : std::nullopt;
+        result.c_plane = for_datum(c_datum.label, [&] {
+          return associate_clocking_plane(c_datum, cloud_of(2), result.a.plane, b_axis, fit,
+                                          prepare, result.notes);
+        });
+        x = clocked_x(in_plane_unit(result.c_plane->plane.normal, z), *c_datum.outward_normal, z);
+        result.notes.push_back(
+            label_text(c_datum.label) +
+            " (plane): tangent least-squares plane perpendicular to A; the frame is turned so its "
+            "outward normal has its basic direction");
+      } else if (c_datum.kind == FeatureKind::slot || c_datum.kind == FeatureKind::tab) {
+        const std::string kind(feature_kind_name(c_datum.kind));
+        if (!c_datum.basic_location || !(c_datum.basic_location->norm() > 0.0))
+          throw FitError(label_text(c_datum.label) +
+                         ": its basic location (away from B's axis) is needed to clock the frame");
+        result.c_width = for_datum(c_datum.label, [&] {
+          return associate_clocking_width(c_datum, cloud_of(2), result.a.plane, origin, fit,
+                                          prepare, result.notes);
+        });
+        x = clocked_x(in_plane_unit(result.c_width->centre_direction, z), *c_datum.basic_location,
+                      z);
+        // ASME Y14.5-2018: a tertiary datum feature of size at RMB, its simulator located by the
+        // datum axis B (from memory for the clause).
+        result.notes.push_back(
+            label_text(c_datum.label) + " (" + kind + "): its simulator, two parallel planes "
+            "perpendicular to A about a centre plane through B's axis, " +
+            (c_datum.kind == FeatureKind::slot ? "expands" : "contracts") +
+            " to the " + kind + " (related mating width); the frame is turned so the centre plane "
+            "runs from B in the direction of C's basic location");
+      } else {
+        if (!c_datum.basic_location || !(c_datum.basic_location->norm() > 0.0))
+          throw FitError(label_text(c_datum.label) +
+                         ": its basic location (away from B's axis) is needed to clock the frame");
+        result.c_feature = for_datum(c_datum.label, [&] {
+          return associate_size_datum(c_datum, cloud_of(2), result.a.plane, fit, prepare,
+                                      result.notes);
+        });
+        const Eigen::Vector3d towards_c = result.c_feature->axis_on_a - origin;
+        const Eigen::Vector3d in_a = towards_c - towards_c.dot(z) * z;
+        // Within the envelopes' own form of each other the direction from B to C is not fixed by
+        // the points; below 1e-9 of the data's size it is rounding.
+        const double b_form = result.b ? result.b->related_envelope.residuals.form : 0.0;
+        const double band =
+            std::max(b_form + result.c_feature->related_envelope.residuals.form,
+                     1e-9 * std::max(1.0, detail::data_scale(cloud_of(2).points,
+                                                            detail::centroid(cloud_of(2).points))));
+        if (in_a.norm() <= band)
+          throw FitError(label_text(c_datum.label) + ": its axis coincides with the axis of " +
+                         (result.b ? label_text(result.b->label) : std::string("the origin")) +
+                         " (" + detail::format_number(in_a.norm(), 6) +
+                         " mm apart on A), so it cannot clock the frame");
+        x = clocked_x(in_a.normalized(), *c_datum.basic_location, z);
+        // Common practice for a tertiary datum feature of size at RMB: it removes the rotation
+        // about the datum axis only; its distance from B is the part's, not the simulator's.
+        result.notes.push_back(
+            label_text(c_datum.label) + " (" + std::string(feature_kind_name(c_datum.kind)) +
+            "): clocks the frame only; the frame is turned so its axis lies in the direction of "
+            "its basic location from B, its distance from B is not used");
+      }
+      result.rotation_fixed = true;
+    } else if (const std::optional<AnchoredFreedoms> anchored =
+                   anchored_freedoms(options.anchors, result.a.plane, z, origin,
+                                     result.translation_fixed)) {
+      // The freedoms the datums leave are settled by the part's own features, so that nothing
+      // reported in the frame depends on the part's placement on the machine (DatumFrameOptions::
+      // anchors); the datum mobility still explores them.
+      x = anchored->x;
+      origin = anchored->origin;
+      if (no_b_note) result.notes.erase(result.notes.begin() + static_cast<std::ptrdiff_t>(*no_b_note));
+      result.notes.push_back(anchored->note);
+    } else {
+      const Eigen::Vector3d measurement_x = Eigen::Vector3d::UnitX();
+      const bool use_y = std::abs(measurement_x.dot(z)) > nearly_parallel_cosine;
+      x = in_plane_unit(use_y ? Eigen::Vector3d::UnitY() : measurement_x, z);
+      result.notes.push_back(std::string("no datum C: x is the measurement ") +
+                             (use_y ? "y" : "x") +
+                             " axis projected onto A; rotation about A's normal is not constrained");
+    }
+  };
+  detail::parallel_for(2, side_by_side, [&](std::size_t task, std::size_t) {
+    if (task == 1) {
+      try {
+        associate_b_and_c();
+      } catch (...) {
+        b_or_c_failure = std::current_exception();
+      }
+      return;
+    }
+    // Off (DatumFrameOptions::flatness): 0, as nothing will read it.
+    if (zone_known)
+      result.a.flatness = result.a.plane.residuals.form;
+    else if (flatness_fit)
+      result.a.flatness = for_datum(a_datum.label, [&] {
+        zone = fit_plane_minimum_zone(cloud_of(0).points, zone_fit);
+        return zone->residuals.form;
+      });
+    else if (options.flatness)
+      result.a.flatness = for_datum(a_datum.label, [&] { return zone_of_a().residuals.form; });
+    // Its residual values are released (one per point of A): a frame that associates A by the
+    // minimum zone computes them again (with_residuals), nothing else reads them.
+    if (zone) zone->residuals.values = Eigen::VectorXd();
+  });
+  // B's and C's notes are taken out, to follow A's screen's.
+  const std::vector<std::string> b_and_c_notes(
+      result.notes.begin() + static_cast<std::ptrdiff_t>(notes_before_b), result.notes.end());
+  result.notes.resize(notes_before_b);
   // Stray-point screen of A on its least-squares plane's residuals (stray_points.hpp). A
   // tangent plane rests on its highest points (residual 0); a minimax or minimum-zone plane is
   // set by the extremes on both sides; a least-squares plane has no contacts.
@@ -624,119 +787,8 @@ DatumFrameResult establish_datum_frame(const std::vector<DatumInput>& datums,
                         "the frame's orientation and height rest on"}});
   }
 
-  // ---- secondary: bore or pin B, locating the origin
-  Eigen::Vector3d origin = result.a.plane.point.dot(z) * z;  // measurement origin projected on A
-  if (datums.size() >= 2) {
-    const PlanDatum& b_datum = datums[1].plan;
-    if (b_datum.kind == FeatureKind::plane)
-      throw FitError(label_text(b_datum.label) +
-                     ": a secondary datum plane is not supported; B must be a bore or a pin");
-    if (b_datum.kind == FeatureKind::slot || b_datum.kind == FeatureKind::tab)
-      throw FitError(label_text(b_datum.label) + ": a " +
-                     std::string(feature_kind_name(b_datum.kind)) +
-                     " cannot be datum B, which locates the origin with its axis; B must be a "
-                     "bore or a pin");
-    result.b = for_datum(b_datum.label, [&] {
-      return associate_size_datum(b_datum, cloud_of(1), result.a.plane, fit, prepare,
-                                  result.notes);
-    });
-    origin = result.b->axis_on_a;
-    result.translation_fixed = true;
-  }
-  std::optional<std::size_t> no_b_note;  // replaced when anchors place the origin
-  if (datums.size() < 2) {
-    no_b_note = result.notes.size();
-    result.notes.push_back("no datum B: the origin is the measurement origin projected onto " +
-                           label_text(a_datum.label) + "; translation in A is not constrained");
-  }
-
-  // ---- tertiary: C, clocking the rotation about z
-  Eigen::Vector3d x;
-  if (datums.size() == 3) {
-    const PlanDatum& c_datum = datums[2].plan;
-    if (c_datum.kind == FeatureKind::plane) {
-      if (!c_datum.outward_normal || !(c_datum.outward_normal->norm() > 0.0))
-        throw FitError(label_text(c_datum.label) +
-                       ": the basic direction of its outward normal is needed to clock the frame");
-      const std::optional<Eigen::Vector3d> b_axis =
-          result.b ? std::optional<Eigen::Vector3d>(result.b->axis_on_a) : std::nullopt;
-      result.c_plane = for_datum(c_datum.label, [&] {
-        return associate_clocking_plane(c_datum, cloud_of(2), result.a.plane, b_axis, fit,
-                                        prepare, result.notes);
-      });
-      x = clocked_x(in_plane_unit(result.c_plane->plane.normal, z), *c_datum.outward_normal, z);
-      result.notes.push_back(
-          label_text(c_datum.label) +
-          " (plane): tangent least-squares plane perpendicular to A; the frame is turned so its "
-          "outward normal has its basic direction");
-    } else if (c_datum.kind == FeatureKind::slot || c_datum.kind == FeatureKind::tab) {
-      const std::string kind(feature_kind_name(c_datum.kind));
-      if (!c_datum.basic_location || !(c_datum.basic_location->norm() > 0.0))
-        throw FitError(label_text(c_datum.label) +
-                       ": its basic location (away from B's axis) is needed to clock the frame");
-      result.c_width = for_datum(c_datum.label, [&] {
-        return associate_clocking_width(c_datum, cloud_of(2), result.a.plane, origin, fit,
-                                        prepare, result.notes);
-      });
-      x = clocked_x(in_plane_unit(result.c_width->centre_direction, z), *c_datum.basic_location,
-                    z);
-      // ASME Y14.5-2018: a tertiary datum feature of size at RMB, its simulator located by the
-      // datum axis B (from memory for the clause).
-      result.notes.push_back(
-          label_text(c_datum.label) + " (" + kind + "): its simulator, two parallel planes "
-          "perpendicular to A about a centre plane through B's axis, " +
-          (c_datum.kind == FeatureKind::slot ? "expands" : "contracts") +
-          " to the " + kind + " (related mating width); the frame is turned so the centre plane "
-          "runs from B in the direction of C's basic location");
-    } else {
-      if (!c_datum.basic_location || !(c_datum.basic_location->norm() > 0.0))
-        throw FitError(label_text(c_datum.label) +
-                       ": its basic location (away from B's axis) is needed to clock the frame");
-      result.c_feature = for_datum(c_datum.label, [&] {
-        return associate_size_datum(c_datum, cloud_of(2), result.a.plane, fit, prepare,
-                                    result.notes);
-      });
-      const Eigen::Vector3d towards_c = result.c_feature->axis_on_a - origin;
-      const Eigen::Vector3d in_a = towards_c - towards_c.dot(z) * z;
-      // Within the envelopes' own form of each other the direction from B to C is not fixed by
-      // the points; below 1e-9 of the data's size it is rounding.
-      const double b_form = result.b ? result.b->related_envelope.residuals.form : 0.0;
-      const double band =
-          std::max(b_form + result.c_feature->related_envelope.residuals.form,
-                   1e-9 * std::max(1.0, detail::data_scale(cloud_of(2).points,
-                                                          detail::centroid(cloud_of(2).points))));
-      if (in_a.norm() <= band)
-        throw FitError(label_text(c_datum.label) + ": its axis coincides with the axis of " +
-                       (result.b ? label_text(result.b->label) : std::string("the origin")) +
-                       " (" + detail::format_number(in_a.norm(), 6) +
-                       " mm apart on A), so it cannot clock the frame");
-      x = clocked_x(in_a.normalized(), *c_datum.basic_location, z);
-      // Common practice for a tertiary datum feature of size at RMB: it removes the rotation
-      // about the datum axis only; its distance from B is the part's, not the simulator's.
-      result.notes.push_back(
-          label_text(c_datum.label) + " (" + std::string(feature_kind_name(c_datum.kind)) +
-          "): clocks the frame only; the frame is turned so its axis lies in the direction of "
-          "its basic location from B, its distance from B is not used");
-    }
-    result.rotation_fixed = true;
-  } else if (const std::optional<AnchoredFreedoms> anchored =
-                 anchored_freedoms(options.anchors, result.a.plane, z, origin,
-                                   result.translation_fixed)) {
-    // The freedoms the datums leave are settled by the part's own features, so that nothing
-    // reported in the frame depends on the part's placement on the machine (DatumFrameOptions::
-    // anchors); the datum mobility still explores them.
-    x = anchored->x;
-    origin = anchored->origin;
-    if (no_b_note) result.notes.erase(result.notes.begin() + static_cast<std::ptrdiff_t>(*no_b_note));
-    result.notes.push_back(anchored->note);
-  } else {
-    const Eigen::Vector3d measurement_x = Eigen::Vector3d::UnitX();
-    const bool use_y = std::abs(measurement_x.dot(z)) > nearly_parallel_cosine;
-    x = in_plane_unit(use_y ? Eigen::Vector3d::UnitY() : measurement_x, z);
-    result.notes.push_back(std::string("no datum C: x is the measurement ") +
-                           (use_y ? "y" : "x") +
-                           " axis projected onto A; rotation about A's normal is not constrained");
-  }
+  if (b_or_c_failure) std::rethrow_exception(b_or_c_failure);
+  result.notes.insert(result.notes.end(), b_and_c_notes.begin(), b_and_c_notes.end());
 
   result.frame.origin = origin;
   result.frame.rotation.row(0) = x.transpose();

@@ -103,12 +103,17 @@ TangentSolution<D> tangent_least_squares(const Points<D>& points, Vector<D> outw
   double previous_tilt = std::numeric_limits<double>::infinity();
   for (int iteration = 1;; ++iteration) {
     const Eigen::Matrix<double, D, D> basis = frame_at(outward);
-    const Points<D> local = basis.transpose() * (points.colwise() - centroid);
-    const Eigen::VectorXd heights = local.row(D - 1).transpose();
-    // Slopes are scaled by the data's size so that every unknown is a length.
+    // The local coordinates are released once the heights and the design are taken from them
+    // (a dense face's D x n copy, alive through the whole step otherwise).
+    Eigen::VectorXd heights;
     Eigen::MatrixXd design(n, unknowns);
-    design.col(0).setOnes();
-    for (int k = 0; k + 1 < D; ++k) design.col(k + 1) = local.row(k).transpose() / scale;
+    {
+      const Points<D> local = basis.transpose() * (points.colwise() - centroid);
+      heights = local.row(D - 1).transpose();
+      // Slopes are scaled by the data's size so that every unknown is a length.
+      design.col(0).setOnes();
+      for (int k = 0; k + 1 < D; ++k) design.col(k + 1) = local.row(k).transpose() / scale;
+    }
     const detail::LeastSquaresObjective objective(design, heights);
 
     std::vector<char> candidate(static_cast<std::size_t>(n), 0);

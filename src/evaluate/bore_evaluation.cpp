@@ -456,6 +456,19 @@ Eigen::Vector3d checked_bore(const PlanBore& bore, const Eigen::Matrix3Xd& point
   return nominal_direction(bore);
 }
 
+/// Whether a least-squares cylinder fitted with options `a` is the one options `b` fit on the
+/// same points: every option a fit reads is the same, and neither starts from an earlier fit
+/// (threads aside: no fit's result depends on them). A field added to FitOptions must be
+/// added here.
+bool same_least_squares_options(const FitOptions& a, const FitOptions& b) {
+  return a.max_iterations == b.max_iterations && a.step_tolerance == b.step_tolerance &&
+         a.axis_hint == b.axis_hint && a.fixed_direction == b.fixed_direction &&
+         a.use_point_vectors == b.use_point_vectors &&
+         a.coverage_warning_deg == b.coverage_warning_deg &&
+         a.result_coverage == b.result_coverage && a.assess_ambiguity == b.assess_ambiguity &&
+         a.lp_solver == b.lp_solver && !a.start && !b.start;
+}
+
 /// Fit options of a bore's associated cylinders: started from and signed by its nominal
 /// direction `w`; the direction free, or held at `w` when the plan says `axis_direction =
 /// "nominal"` (every cylinder fit and the sections then honour FitOptions::fixed_direction).
@@ -583,8 +596,15 @@ BoreResult evaluate_bore(const BoreInput& input, const BoreEvaluationOptions& op
   std::vector<std::size_t> actual;
   std::optional<std::vector<std::size_t>> related_contacts;
   for_bore(bore, [&] {
+    const FitOptions ls_options = from(free_axis, &BoreResult::least_squares);
+    // The preparation's cylinder when it is this fit: the same points (the prepared cloud)
+    // and the same options give the same bits, so it is taken rather than fitted again.
+    const std::optional<PreparedLeastSquares>& prepared = input.prepared.least_squares;
     result.least_squares =
-        fit_cylinder_least_squares(points, from(free_axis, &BoreResult::least_squares));
+        prepared && prepared->fit.summary.point_count == static_cast<std::size_t>(points.cols()) &&
+                same_least_squares_options(prepared->options, ls_options)
+            ? prepared->fit
+            : fit_cylinder_least_squares(points, ls_options);
   });
   // The unrolled surface for the report: the least-squares residuals just computed (one per
   // point, finite: checked_bore), binned; no other step reads them.

@@ -130,8 +130,18 @@ PreparedFeature prepare_feature(FeatureKind kind, PointCloud&& cloud,
     for (std::size_t i = 0; i < prepared.record.kept.size(); ++i) prepared.record.kept[i] = i;
   }
 
-  // ---- 3. The stray-point screen of the points kept.
-  prepared.record.stray_points = screen_points(kind, prepared.cloud, options);
+  // ---- 3. The stray-point screen of the points kept. A bore's or pin's least-squares cylinder
+  // on these final points is kept for the evaluation (PreparedFeature::least_squares): the
+  // screen reads its residuals, the evaluation the whole fit, of the same call.
+  if (options.stray_screen && prepared.cloud.size() > options.stray_points.neighbours &&
+      options.residuals.size() == 0 && (kind == FeatureKind::bore || kind == FeatureKind::pin)) {
+    CylinderFit fit = fit_cylinder_least_squares(prepared.cloud.points, options.fit);
+    prepared.record.stray_points =
+        find_stray_points(prepared.cloud.points, fit.residuals.values, options.stray_points);
+    prepared.least_squares = PreparedLeastSquares{std::move(fit), options.fit};
+  } else {
+    prepared.record.stray_points = screen_points(kind, prepared.cloud, options);
+  }
   return prepared;
 }
 

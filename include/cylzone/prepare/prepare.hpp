@@ -24,6 +24,7 @@
 #include <string>
 #include <vector>
 
+#include "cylzone/fit/fit_cylinder.hpp"
 #include "cylzone/fit/fit_types.hpp"
 #include "cylzone/io/point_cloud.hpp"
 #include "cylzone/plan/plan.hpp"
@@ -72,11 +73,22 @@ struct PrepareRecord {
   StrayPointReport stray_points;
 };
 
+/// A least-squares cylinder fitted by the preparation, and the options it was fitted with.
+struct PreparedLeastSquares {
+  CylinderFit fit;
+  FitOptions options;
+};
+
 struct PreparedFeature {
   /// The points the fits use: compensated when they were ball centres, without the removed
   /// outliers, in file order; `lines` follow the points.
   PointCloud cloud;
   PrepareRecord record;
+  /// A bore's or pin's least-squares cylinder on exactly `cloud.points` (no vectors), as the
+  /// stray-point screen fitted it with PrepareOptions::fit: a later fit of the same points with
+  /// the same options (evaluate_bore) takes it instead of fitting it again, the same bits.
+  /// Empty when the screen did not fit one (off, too few points, the caller's residuals).
+  std::optional<PreparedLeastSquares> least_squares;
 };
 
 /// Prepares one feature's `cloud` (3 x n, the coordinates the caller fits in). Deterministic,
