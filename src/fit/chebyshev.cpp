@@ -149,15 +149,23 @@ bool polish_on_contacts(ZoneModel& model, ZoneObjective objective,
   // Keep the refined element only if it is a valid zone at least as good as the current one.
   x = z.head(p);
   if (!settled || (z.tail(m).array() < 0.0).any()) return false;
-  if (current == nullptr) model.evaluate(Eigen::VectorXd::Zero(p), d, nullptr);
-  const double f_start = true_objective(objective, current != nullptr ? *current : d);
+  // The zone test first: where another point crosses it (the usual end of a start whose
+  // contacts changed), the current element's objective is not needed.
   model.evaluate(x, d, nullptr);
   const double rounding =
       64.0 * std::numeric_limits<double>::epsilon() * std::max(scale, d.cwiseAbs().maxCoeff());
   if (uses_upper(objective) && d.maxCoeff() > z(p) + rounding) return false;
   if (uses_lower(objective) && d.minCoeff() < z(p + side_index(Side::lower)) - rounding)
     return false;
-  if (true_objective(objective, d) > f_start + rounding) return false;
+  const double f_refined = true_objective(objective, d);
+  double f_start;
+  if (current != nullptr) {
+    f_start = true_objective(objective, *current);
+  } else {
+    model.evaluate(Eigen::VectorXd::Zero(p), d, nullptr);
+    f_start = true_objective(objective, d);
+  }
+  if (f_refined > f_start + rounding) return false;
   model.move(x);
   return true;
 }
