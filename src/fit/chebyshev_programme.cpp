@@ -340,17 +340,17 @@ LinearStep ZoneProgramme::solve_clp(const Eigen::VectorXd& d, const Eigen::Matri
   return result;
 }
 
-void ZoneProgramme::add_dense_row(const Constraint& c, const Eigen::VectorXd& d,
+void ZoneProgramme::set_dense_row(DenseLp::Id i, const Constraint& c, const Eigen::VectorXd& d,
                                   const Eigen::MatrixXd& g, double u0, double l0, double delta) {
   double a[DenseLp::max_columns] = {};
   if (c.side == Side::upper) {  // g_i.y - R' <= -(d_i - U0)/Delta
     for (int k = 0; k < p_; ++k) a[k] = g(c.point, k);
     a[upper_col_] = -1.0;
-    dense_.add_row(a, -(d(c.point) - u0) / delta);
+    dense_.set_row(i, a, -(d(c.point) - u0) / delta);
   } else {  // g_i.y - r' >= -(d_i - L0)/Delta, i.e. -g_i.y + r' <= (d_i - L0)/Delta
     for (int k = 0; k < p_; ++k) a[k] = -g(c.point, k);
     a[lower_col_] = 1.0;
-    dense_.add_row(a, (d(c.point) - l0) / delta);
+    dense_.set_row(i, a, (d(c.point) - l0) / delta);
   }
 }
 
@@ -386,9 +386,10 @@ bool ZoneProgramme::solve_dense(const Eigen::VectorXd& d, const Eigen::MatrixXd&
   int filled = 0;
   Eigen::VectorXd balance = Eigen::VectorXd::Zero(p_);  // sum of the basis rows' y-normals
   long top = -1, bottom = -1;
+  const DenseLp::Id first = dense_.append_rows(rows.size());
   for (std::size_t r = 0; r < rows.size(); ++r) {
     const Constraint& c = rows[r];
-    add_dense_row(c, d, g, u0, l0, delta);
+    set_dense_row(first + static_cast<DenseLp::Id>(r), c, d, g, u0, l0, delta);
     if (c.side == Side::upper && (top < 0 || d(c.point) > d(rows[static_cast<std::size_t>(top)].point)))
       top = static_cast<long>(r);
     if (c.side == Side::lower &&
@@ -431,7 +432,9 @@ bool ZoneProgramme::solve_dense(const Eigen::VectorXd& d, const Eigen::MatrixXd&
   for (;;) {
     const std::vector<Constraint> added = violated_rows(dense_.x().data(), d, g, u0, l0, delta);
     if (added.empty()) break;
-    for (const Constraint& c : added) add_dense_row(c, d, g, u0, l0, delta);
+    const DenseLp::Id next = dense_.append_rows(added.size());
+    for (std::size_t r = 0; r < added.size(); ++r)
+      set_dense_row(next + static_cast<DenseLp::Id>(r), added[r], d, g, u0, l0, delta);
     rows.insert(rows.end(), added.begin(), added.end());
     if (dense_.solve() != DenseLp::Status::optimal) return false;
   }

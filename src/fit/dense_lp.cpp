@@ -30,6 +30,7 @@ void DenseLp::reset(const Vector& cost, const Vector& lower, const Vector& upper
   rhs_.clear();
   inv_norm_.clear();
   in_basis_.clear();
+  factored_ = false;
   iterations_ = 0;
 }
 
@@ -41,16 +42,31 @@ void DenseLp::reserve(std::size_t rows) {
 }
 
 DenseLp::Id DenseLp::add_row(const double* a, double b) {
+  const Id i = append_rows(1);
+  set_row(i, a, b);
+  return i;
+}
+
+DenseLp::Id DenseLp::append_rows(std::size_t count) {
+  const std::size_t first = rhs_.size(), size = first + count;
+  for (int k = 0; k < columns(); ++k) a_[k].resize(size);
+  rhs_.resize(size);
+  inv_norm_.resize(size);
+  in_basis_.resize(size, 0);
+  return static_cast<Id>(first);
+}
+
+void DenseLp::set_row(Id i, const double* a, double b) {
+  const auto r = static_cast<std::size_t>(i);
   const int n = columns();
   double norm2 = 0.0;
   for (int k = 0; k < n; ++k) {
-    a_[k].push_back(a[k]);
+    a_[k][r] = a[k];
     norm2 += a[k] * a[k];
   }
-  rhs_.push_back(b);
-  inv_norm_.push_back(norm2 > 0.0 ? 1.0 / std::sqrt(norm2) : 0.0);
-  in_basis_.push_back(0);
-  return static_cast<Id>(rhs_.size() - 1);
+  rhs_[r] = b;
+  inv_norm_[r] = norm2 > 0.0 ? 1.0 / std::sqrt(norm2) : 0.0;
+  if (in_basis_[r]) factored_ = false;  // a basis row rewritten: factorise again
 }
 
 void DenseLp::normal(Id id, double* a, double& b) const {
@@ -74,6 +90,7 @@ void DenseLp::normal(Id id, double* a, double& b) const {
 }
 
 bool DenseLp::refresh() {
+  factored_ = false;
   const int n = columns();
   Matrix basis(n, n);
   Vector rhs(n);
@@ -92,11 +109,13 @@ bool DenseLp::refresh() {
   inverse_ = lu.inverse();
   x_.noalias() = inverse_ * rhs;
   lambda_.noalias() = -(inverse_.transpose() * cost_);
-  return x_.allFinite() && lambda_.allFinite();
+  factored_ = x_.allFinite() && lambda_.allFinite();
+  return factored_;
 }
 
 bool DenseLp::set_basis(const Id* basis) {
   const int n = columns();
+  factored_ = false;
   std::fill(in_basis_.begin(), in_basis_.end(), 0);
   for (int j = 0; j < n; ++j) {
     const Id id = basis[j];
@@ -171,8 +190,9 @@ DenseLp::Status DenseLp::solve() {
   const int limit = options_.max_iterations > 0
                         ? options_.max_iterations
                         : 50 + 4 * static_cast<int>(std::min<std::size_t>(rows() + 2 * n, 1u << 20));
-  // The basis set (or the previous optimum) is current; rows added since do not change it.
-  if (!refresh()) return Status::failed;
+  // The basis set (or the previous optimum) is current; rows added since do not change it, so
+  // its factorisation from set_basis or the last pivot stands (the same bits as a new one).
+  if (!factored_ && !refresh()) return Status::failed;
   int stalls = 0;
   bool bland = false;
   double a[max_columns];

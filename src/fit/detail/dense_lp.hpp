@@ -80,6 +80,13 @@ class DenseLp {
   void reserve(std::size_t rows);
   /// Appends the row a.x <= b (a: columns() coefficients) and returns its index.
   Id add_row(const double* a, double b);
+  /// Appends `count` rows at once, to be filled by set_row before the next solve(), and returns
+  /// the first one's index: one resize of each column instead of one append per coefficient
+  /// (a trial's programmes add thousands of rows).
+  Id append_rows(std::size_t count);
+  /// Sets row `i` (appended, or rewritten) to a.x <= b: the same row, bit for bit, as
+  /// add_row(a, b).
+  void set_row(Id i, const double* a, double b);
   int columns() const noexcept { return static_cast<int>(cost_.size()); }
   std::size_t rows() const noexcept { return rhs_.size(); }
 
@@ -115,6 +122,9 @@ class DenseLp {
   std::vector<unsigned char> in_basis_;  // per row
   Id basis_[max_columns] = {};
   Matrix inverse_;  // B^-1 of the current basis
+  // inverse_, x_ and lambda_ are refresh()'s of the current basis: solve() need not factorise
+  // it again (a pure function of the basis' constraints, which rows added since leave alone).
+  bool factored_ = false;
   int iterations_ = 0;
 };
 
