@@ -395,6 +395,23 @@ TEST_CASE("all_nearest: exact ties, coincident points, cell edges, tiny clouds",
     const AllNearestSummary s = check_grid_exhaustive(points, 8);
     CHECK(s.cell == cell);
   }
+  SECTION("a lattice shaken by 1e-9 and by 1e-6: distances distinct in double, equal or not "
+          "in float") {
+    // select_kept ranks the kept candidates by their distances rounded to float and falls
+    // back to ordered insertion on a tie in float: at 1e-9 mm on a 1 mm lattice most ties
+    // are float ties between distinct doubles (whose order the index must not decide), at
+    // 1e-6 mm the floats mostly differ.
+    for (const double shake : {1e-9, 1e-6}) {
+      std::mt19937_64 rng(139);
+      std::uniform_real_distribution<double> unit(-1.0, 1.0);
+      Eigen::Matrix3Xd points = scrambled_lattice(149);
+      for (Eigen::Index i = 0; i < points.cols(); ++i)
+        for (int a = 0; a < 3; ++a) points(a, i) += shake * unit(rng);
+      INFO("shaken by " << shake);
+      check_grid_exhaustive(points, 8);
+      check_grid_exhaustive(points, 5);
+    }
+  }
   SECTION("far from the origin: 1e6 mm") {
     std::mt19937_64 rng(131);
     std::uniform_real_distribution<double> unit(-1.0, 1.0);

@@ -7,6 +7,7 @@
 
 #include <algorithm>
 #include <cmath>
+#include <cstring>
 #include <limits>
 #include <stdexcept>
 #include <string>
@@ -768,17 +769,20 @@ void keep_found(GridScratch& s, std::uint32_t index, std::size_t k) {
 
 /// Squared distances from q to every gathered candidate, into s.distance, in one loop the
 /// compiler vectorises (the same arithmetic as squared_distance one at a time, so the same bits).
+/// The query's own slot (s.self) then gets a NaN, which no bound admits (keep_within): the
+/// point is excluded without a test per candidate.
 void candidate_distances(const double* q, GridScratch& s) {
   const std::size_t m = s.distance.size();
   double* const d = s.distance.data();
   for (std::size_t j = 0; j < m; ++j) d[j] = squared_distance(q, s.x[j], s.y[j], s.z[j]);
+  if (s.self < m) d[s.self] = std::numeric_limits<double>::quiet_NaN();
 }
 
 /// The slots of the candidates within squared distance `bound` (candidate_distances first)
 /// into s.passing, without a branch per candidate (whether one passes is unpredictable);
-/// returns how many of them are not the query's own point (slot s.self). When at least k,
-/// `bound` bounds the k-th distance from above: the k nearest in (distance, index) order all
-/// passed, whatever their indices.
+/// returns how many, the query's own point never among them (its distance is a NaN). When at
+/// least k, `bound` bounds the k-th distance from above: the k nearest in (distance, index)
+/// order all passed, whatever their indices.
 std::size_t keep_within(double bound, GridScratch& s) {
   const std::size_t m = s.distance.size();
   const double* const d = s.distance.data();
@@ -789,24 +793,62 @@ std::size_t keep_within(double bound, GridScratch& s) {
     passed += d[j] <= bound ? 1 : 0;
   }
   s.passed = passed;
-  return passed - (s.self < m && d[s.self] <= bound ? 1 : 0);
+  return passed;
 }
 
-/// The k nearest of the candidates kept by keep_within in (distance, index) order, the query
-/// itself (slot s.self) excluded, into s.top by ordered insertion; returns how many were found
-/// (k unless fewer were kept).
+/// Four floats, four 32-bit integers: one SSE register each on x86-64 (a compiler vector
+/// extension of g++ and clang; a comparison gives -1 where true, 0 where false).
+using Floats = float __attribute__((vector_size(16)));
+using Ints = std::int32_t __attribute__((vector_size(16)));
+
+/// Most kept candidates select_kept ranks by counting; more go to ordered insertion. Sixteen
+/// covers a scanned surface's kept candidates (about k + 1 at k = 8, bench_stray_points).
+constexpr std::size_t rank_most = 16;
+
+/// The k nearest of the candidates kept by keep_within in (distance, index) order into s.top
+/// (k + 1 slots, the last scratch); returns how many were found (k unless fewer were kept).
+/// Up to rank_most kept candidates are first ranked without a branch per comparison: each
+/// distance rounded to float (rounding is monotone: a float below another comes from a double
+/// below the other), candidate j's rank is the number of kept floats below its own, counted
+/// for all j at once in loops of fixed length the compiler vectorises (four floats an
+/// instruction). The ranks sum to kept (kept - 1) / 2 exactly when the floats are distinct (a
+/// group of g equal floats at rank r adds g r instead of g r + g (g - 1) / 2); then the doubles
+/// are in the same strict order, the ranks are the (distance, index) order itself, and
+/// candidate j goes to slot min(rank, k). Otherwise (a tie in float, in double or not, or more
+/// candidates) the kept ones go through ordered insertion, which compares indices on ties.
+/// Either way the same slots.
 std::size_t select_kept(std::size_t k, GridScratch& s) {
   const double* const d = s.distance.data();
   const std::uint32_t* const passing = s.passing.data();
-  std::size_t found = 0;
   std::uint32_t* const top = s.top.data();
+  const std::size_t kept = s.passed;
+  if (kept <= rank_most) {
+    float value[rank_most] = {};  // padding: the ranks of slots >= kept are not used
+    for (std::size_t c = 0; c < kept; ++c) value[c] = static_cast<float>(d[passing[c]]);
+    Floats near[rank_most / 4];
+    std::memcpy(near, value, sizeof near);
+    Ints below[rank_most / 4] = {};
+    for (std::size_t i = 0; i < kept; ++i) {
+      const Floats v = {value[i], value[i], value[i], value[i]};
+      for (std::size_t b = 0; b < rank_most / 4; ++b) below[b] -= v < near[b];  // true is -1
+    }
+    std::int32_t rank[rank_most];
+    std::memcpy(rank, below, sizeof rank);
+    std::size_t sum = 0;
+    for (std::size_t j = 0; j < kept; ++j) {
+      const auto r = static_cast<std::size_t>(rank[j]);
+      sum += r;
+      top[std::min(r, k)] = passing[j];
+    }
+    if (2 * sum == kept * (kept - (kept > 0 ? 1 : 0))) return std::min(kept, k);
+  }
+  std::size_t found = 0;
   const std::uint32_t* const id = s.id.data();
   const auto before = [&](std::uint32_t a, std::uint32_t b) {
     return d[a] < d[b] || (d[a] == d[b] && id[a] < id[b]);
   };
-  for (std::size_t c = 0; c < s.passed; ++c) {
+  for (std::size_t c = 0; c < kept; ++c) {
     const std::uint32_t j = passing[c];
-    if (j == s.self) continue;
     if (found == k && !before(j, top[k - 1])) continue;
     std::size_t at = found == k ? k - 1 : found++;
     for (; at > 0 && before(j, top[at - 1]); --at) top[at] = top[at - 1];
@@ -847,7 +889,7 @@ AllNearestSummary all_nearest(const Eigen::Matrix3Xd& points, std::size_t k, std
     s.z.resize(cap);
     s.id.resize(cap);
     s.passing.resize(cap);
-    s.top.resize(k);
+    s.top.resize(k + 1);
   }
   std::vector<std::vector<std::uint32_t>> uncertain(chunks);  // positions, per chunk
 
