@@ -441,6 +441,34 @@ TEST_CASE("all_nearest on a large scanned bore equals the KD-tree on one and two
   CHECK(differ == 0);
 }
 
+TEST_CASE("all_nearest on two dense clusters 10 m apart: a grid box of more than 2^32 cells",
+          "[neighbour_index][grid]") {
+  // The cell edge shrinks from the bounding box's guess by at most 8 per trial, two trials:
+  // clusters far apart then leave thousands of cells along each axis, and cell keys of more
+  // than 32 bits (sorted with the input indices apart, not packed in one word). The reference
+  // is the KD-tree's single query, itself checked against the exhaustive search above.
+  std::mt19937_64 rng(151);
+  std::uniform_real_distribution<double> unit(0.0, 1.0);
+  Eigen::Matrix3Xd points(3, 1 << 17);
+  for (Eigen::Index i = 0; i < points.cols(); ++i) {
+    const double corner = i % 2 == 0 ? 0.0 : 1e4;
+    points.col(i) = Eigen::Vector3d(corner + unit(rng), corner + unit(rng), corner + unit(rng));
+  }
+  const std::size_t k = 8;
+  AllNearestSummary summary;
+  const auto one = grid_rows(points, k, 1, &summary);
+  CHECK(grid_rows(points, k, 2) == one);
+  const Eigen::Vector3d extent = points.rowwise().maxCoeff() - points.rowwise().minCoeff();
+  INFO("cell " << summary.cell);
+  CHECK((extent / summary.cell).prod() > std::ldexp(1.0, 32));
+  const NeighbourIndex index(points, 2);
+  NeighbourIndex::Query query(k);
+  std::size_t differ = 0;
+  for (Eigen::Index i = 0; i < points.cols(); ++i)
+    differ += query.of_point(index, static_cast<std::size_t>(i)) == one[static_cast<std::size_t>(i)] ? 0 : 1;
+  CHECK(differ == 0);
+}
+
 TEST_CASE("all_nearest refuses what it cannot answer", "[neighbour_index][grid]") {
   const Eigen::Matrix3Xd points = Eigen::Matrix3Xd::Random(3, 20);
   const auto ignore = [](std::size_t, std::size_t, const std::uint32_t*, const std::uint32_t*) {};

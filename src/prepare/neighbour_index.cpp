@@ -450,25 +450,26 @@ constexpr std::size_t setup_chunk = std::size_t{1} << 16;
 
 std::size_t setup_chunks(std::size_t n) { return (n + setup_chunk - 1) / setup_chunk; }
 
-/// Stable LSD radix sort of `keys` (each < 2^bits) by digits of at most 11 bits, `payload`
-/// carried along (common practice), on up to `threads` threads: each pass counts the digits
-/// of every chunk, gives each (digit, chunk) its range of the output in that order, and
-/// scatters the chunks in parallel, so the output is that of the serial sort for any thread
-/// count.
-void radix_sort(std::vector<std::uint64_t>& keys, std::vector<std::uint32_t>& payload, int bits,
-                std::size_t threads) {
+/// Stable LSD radix sort of `keys` by their bits [low, low + bits) (the bits above are zero),
+/// by digits of at most 11 bits, `payload` carried along unless empty (common practice), on
+/// up to `threads` threads: each pass counts the digits of every chunk, gives each (digit,
+/// chunk) its range of the output in that order, and scatters the chunks in parallel, so the
+/// output is that of the serial sort for any thread count.
+void radix_sort(std::vector<std::uint64_t>& keys, std::vector<std::uint32_t>& payload, int low,
+                int bits, std::size_t threads) {
   const std::size_t n = keys.size();
   if (bits <= 0 || n < 2) return;
+  const bool carry = !payload.empty();
   const int passes = (bits + 10) / 11;
   const int width = (bits + passes - 1) / passes;
   const std::size_t digits = std::size_t{1} << width;
   const std::uint64_t mask = digits - 1;
   const std::size_t chunks = setup_chunks(n);
   std::vector<std::uint64_t> keys_to(n);
-  std::vector<std::uint32_t> payload_to(n);
+  std::vector<std::uint32_t> payload_to(carry ? n : 0);
   std::vector<std::size_t> start(chunks * digits);  // chunk c's counts, then starts, of digit d
   for (int pass = 0; pass < passes; ++pass) {
-    const int shift = pass * width;
+    const int shift = low + pass * width;
     // Local copies in the loops: a store through a pointer of the same type family could
     // otherwise alias the captured shift and force a reload per element.
     detail::parallel_for(chunks, threads, [&, shift](std::size_t c, std::size_t) {
@@ -499,7 +500,7 @@ void radix_sort(std::vector<std::uint64_t>& keys, std::vector<std::uint32_t>& pa
         const std::uint64_t key = from[i];
         const std::size_t at = next[(key >> shift) & mask]++;
         to[at] = key;
-        carried_to[at] = carried[i];
+        if (carry) carried_to[at] = carried[i];
       }
     });
     keys.swap(keys_to);
@@ -683,19 +684,37 @@ std::size_t Grid::bucket(const Eigen::Matrix3Xd& points, double cell, std::size_
   for (int a = 0; a < 3; ++a) dims_[a] = coord(top_[a], a) + widest + 1;
   const std::size_t n = static_cast<std::size_t>(points.cols());
   const std::size_t chunks = setup_chunks(n);
-  sorted_keys_.resize(n);
-  order_.resize(n);
-  detail::parallel_for(chunks, threads, [&](std::size_t c, std::size_t) {
-    for (std::size_t i = c * setup_chunk, end = std::min(n, i + setup_chunk); i < end; ++i) {
-      const double* p = points.data() + 3 * i;
-      sorted_keys_[i] = key(coord(p[0], 0), coord(p[1], 1), coord(p[2], 2));
-      order_[i] = static_cast<std::uint32_t>(i);
-    }
-  });
   const std::uint64_t top = key(dims_[0] - 1, dims_[1] - 1, dims_[2] - 1);
   int bits = 0;
   while (bits < 64 && (top >> bits) != 0) ++bits;
-  radix_sort(sorted_keys_, order_, bits, threads);
+  // Keys of 32 bits or fewer are sorted with the input index in the low 32 bits of the same
+  // word (n < 2^32): one array scattered per pass instead of two, a third less memory moved,
+  // the same stable order.
+  const bool packed = bits <= 32;
+  sorted_keys_.resize(n);
+  order_.resize(packed ? 0 : n);
+  detail::parallel_for(chunks, threads, [&](std::size_t c, std::size_t) {
+    for (std::size_t i = c * setup_chunk, end = std::min(n, i + setup_chunk); i < end; ++i) {
+      const double* p = points.data() + 3 * i;
+      const std::uint64_t at = key(coord(p[0], 0), coord(p[1], 1), coord(p[2], 2));
+      if (packed) {
+        sorted_keys_[i] = at << 32 | i;
+      } else {
+        sorted_keys_[i] = at;
+        order_[i] = static_cast<std::uint32_t>(i);
+      }
+    }
+  });
+  radix_sort(sorted_keys_, order_, packed ? 32 : 0, bits, threads);
+  if (packed) {
+    order_.resize(n);
+    detail::parallel_for(chunks, threads, [&](std::size_t c, std::size_t) {
+      for (std::size_t p = c * setup_chunk, end = std::min(n, p + setup_chunk); p < end; ++p) {
+        order_[p] = static_cast<std::uint32_t>(sorted_keys_[p]);
+        sorted_keys_[p] >>= 32;
+      }
+    });
+  }
   std::vector<std::size_t> occupied(chunks, 0);
   detail::parallel_for(chunks, threads, [&](std::size_t c, std::size_t) {
     for (std::size_t p = std::max<std::size_t>(1, c * setup_chunk),
