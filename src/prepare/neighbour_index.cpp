@@ -11,6 +11,7 @@
 #include <limits>
 #include <stdexcept>
 #include <string>
+#include <type_traits>
 
 namespace cylzone {
 namespace {
@@ -847,10 +848,17 @@ std::size_t select_kept(std::size_t k, GridScratch& s) {
     Floats near[rank_most / 4];
     std::memcpy(near, value, sizeof near);
     Ints below[rank_most / 4] = {};
-    for (std::size_t i = 0; i < kept; ++i) {
-      const Floats v = {value[i], value[i], value[i], value[i]};
-      for (std::size_t b = 0; b < rank_most / 4; ++b) below[b] -= v < near[b];  // true is -1
-    }
+    // Two vectors suffice for up to 8 candidates (a scanned surface at k = 8), four for more.
+    const auto count_below = [&](auto vectors) {
+      for (std::size_t i = 0; i < kept; ++i) {
+        const Floats v = {value[i], value[i], value[i], value[i]};
+        for (std::size_t b = 0; b < decltype(vectors)::value; ++b) below[b] -= v < near[b];  // true: -1
+      }
+    };
+    if (kept <= 8)
+      count_below(std::integral_constant<std::size_t, 2>{});
+    else
+      count_below(std::integral_constant<std::size_t, rank_most / 4>{});
     std::int32_t rank[rank_most];
     std::memcpy(rank, below, sizeof rank);
     std::size_t sum = 0;
