@@ -922,8 +922,8 @@ AllNearestSummary all_nearest(const Eigen::Matrix3Xd& points, std::size_t k, std
 
   // The 3x3x3 block of each occupied cell, gathered once for all its points. A point's
   // distances to all the block's candidates are computed in one loop; the k nearest are then
-  // selected among those within a bound of the k-th distance, so that few reach the ordered
-  // insertion. The bound tried first is the previous point's k-th squared distance plus a
+  // selected among those within a bound of the k-th distance, so that few reach the selection
+  // (select_kept). The bound tried first is the previous point's k-th squared distance plus a
   // margin (neighbouring points have similar neighbourhoods); it is used only when at least k
   // candidates other than the point lie within it (keep_within), so it is a true upper bound
   // whatever it is. Otherwise the bound is the previous point of the cell
