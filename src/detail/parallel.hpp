@@ -21,6 +21,20 @@ inline std::size_t worker_count(std::size_t chunks, std::size_t threads) {
   return std::max<std::size_t>(1, std::min(chunks, threads));
 }
 
+/// Runs run(w) for w in [0, workers) on as many threads (the caller's is worker 0), then
+/// rethrows the first exception in `failure` (the caller's slots, in chunk order).
+template <class Run>
+void run_workers(std::size_t workers, const Run& run,
+                 const std::vector<std::exception_ptr>& failure) {
+  std::vector<std::thread> pool;
+  pool.reserve(workers - 1);
+  for (std::size_t w = 1; w < workers; ++w) pool.emplace_back(run, w);
+  run(0);
+  for (std::thread& t : pool) t.join();
+  for (const std::exception_ptr& e : failure)
+    if (e) std::rethrow_exception(e);
+}
+
 /// Runs body(chunk, worker) for every chunk in [0, chunks), on worker_count(chunks, threads)
 /// threads (the caller's included). `worker` (0-based) lets a body keep per-worker scratch or
 /// an order-independent accumulation (e.g. a min/max). When bodies throw, the exception of the
@@ -43,13 +57,7 @@ void parallel_for(std::size_t chunks, std::size_t threads, Body&& body) {
       failure[w] = std::current_exception();
     }
   };
-  std::vector<std::thread> pool;
-  pool.reserve(workers - 1);
-  for (std::size_t w = 1; w < workers; ++w) pool.emplace_back(run, w);
-  run(0);
-  for (std::thread& t : pool) t.join();
-  for (const std::exception_ptr& e : failure)
-    if (e) std::rethrow_exception(e);
+  run_workers(workers, run, failure);
 }
 
 /// As parallel_for, for a few chunks of unequal cost (the bores of a part and a datum's screen):
@@ -81,13 +89,7 @@ void parallel_for_taken_in_order(std::size_t chunks, std::size_t threads, Body&&
       }
     }
   };
-  std::vector<std::thread> pool;
-  pool.reserve(workers - 1);
-  for (std::size_t w = 1; w < workers; ++w) pool.emplace_back(run, w);
-  run(0);
-  for (std::thread& t : pool) t.join();
-  for (const std::exception_ptr& e : failure)
-    if (e) std::rethrow_exception(e);
+  run_workers(workers, run, failure);
 }
 
 }  // namespace cylzone::detail
