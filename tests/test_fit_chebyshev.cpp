@@ -1007,6 +1007,30 @@ TEST_CASE("a KKT-constructed flatness zone is proven unique", "[chebyshev][uniqu
 
 // ------------------------------------------------------------------ starts from earlier fits
 
+/// The Chebyshev cylinder of `method` (not least squares).
+CylinderFit chebyshev_cylinder(FitMethod method, const Eigen::Matrix3Xd& p, const FitOptions& o) {
+  return method == FitMethod::minimum_zone        ? fit_cylinder_minimum_zone(p, o)
+         : method == FitMethod::maximum_inscribed ? fit_cylinder_maximum_inscribed(p, o)
+                                                  : fit_cylinder_minimum_circumscribed(p, o);
+}
+
+/// A bore of `n` points in rings of `per_ring` from `t0` along the axis every 2.5 mm, with
+/// uniform noise (up to 0.05 rad in angle, 4 um in radius, so the contacts are distinct points).
+Eigen::Matrix3Xd rough_bore(std::mt19937_64& rng, const Axis& axis, double radius, double t0,
+                            int per_ring, int n) {
+  std::uniform_real_distribution<double> unit(0.0, 1.0);
+  Eigen::Vector3d u, v;
+  perpendicular_pair(axis.direction, u, v);
+  Eigen::Matrix3Xd points(3, n);
+  for (int i = 0; i < n; ++i) {
+    const double a = 2.0 * pi * (i % per_ring) / per_ring + 0.05 * unit(rng);
+    const double t = t0 + 2.5 * (i / per_ring);
+    points.col(i) = axis.point + t * axis.direction +
+                    (radius + 0.004 * unit(rng)) * (std::cos(a) * u + std::sin(a) * v);
+  }
+  return points;
+}
+
 // FitOptions::start (fit_types.hpp): a fit started from an earlier fit of nearly the same points
 // must end on the optimum the closed-form construction gives, whichever way the start served:
 // the earlier contacts held (Newton on them, certified by one linear programme), the contacts
@@ -1102,11 +1126,8 @@ TEST_CASE("a started Chebyshev cylinder equals the fit from its own start on per
   // trial's own least-squares cylinder with the earlier fit's contacts (as the study passes
   // it): the started fit must give the same element as the fit from its own start.
   std::mt19937_64 rng(4242);
-  std::uniform_real_distribution<double> unit(0.0, 1.0);
   std::normal_distribution<double> noise(0.0, 0.0005);
   const Axis axis{{12.0, -7.5, -30.0}, direction_from_angles(4.0, 200.0)};
-  Eigen::Vector3d u, v;
-  perpendicular_pair(axis.direction, u, v);
   FitOptions options;
   options.lp_solver = LpSolver::dense;
   options.assess_ambiguity = false;
@@ -1114,12 +1135,7 @@ TEST_CASE("a started Chebyshev cylinder equals the fit from its own start on per
   int held = 0, descended = 0;
   for (int bore = 0; bore < 6; ++bore) {
     const int n = 240;
-    Eigen::Matrix3Xd points(3, n);
-    for (int i = 0; i < n; ++i) {
-      const double a = 2.0 * pi * (i % 24) / 24.0 + 0.05 * unit(rng), t = -20.0 + 2.5 * (i / 24);
-      points.col(i) = axis.point + t * axis.direction +
-                      (5.0 + 0.004 * unit(rng)) * (std::cos(a) * u + std::sin(a) * v);
-    }
+    const Eigen::Matrix3Xd points = rough_bore(rng, axis, 5.0, -20.0, 24, n);
     const CylinderFit ls0 = fit_cylinder_least_squares(points, options);
     for (int trial = 0; trial < 4; ++trial) {
       Eigen::Matrix3Xd moved = points;
@@ -1136,9 +1152,7 @@ TEST_CASE("a started Chebyshev cylinder equals the fit from its own start on per
                                FitMethod::minimum_circumscribed}) {
         INFO(method_name(method) << ", bore " << bore << ", trial " << trial);
         const auto fit = [&](const Eigen::Matrix3Xd& p, const FitOptions& o) {
-          return method == FitMethod::minimum_zone        ? fit_cylinder_minimum_zone(p, o)
-                 : method == FitMethod::maximum_inscribed ? fit_cylinder_maximum_inscribed(p, o)
-                                                          : fit_cylinder_minimum_circumscribed(p, o);
+          return chebyshev_cylinder(method, p, o);
         };
         const CylinderFit earlier = fit(points, options);
         FitOptions started = options;
@@ -1170,10 +1184,7 @@ TEST_CASE("a started Chebyshev cylinder tries Newton on the earlier contacts whe
   // same). Noise from 1e-8 mm (the contacts hold) to 1e-3 mm (they change, as in a Monte Carlo
   // trial at sigma 1 um), so both branches are exercised.
   std::mt19937_64 rng(9090);
-  std::uniform_real_distribution<double> unit(0.0, 1.0);
   const Axis axis{{3.0, 8.0, -12.0}, direction_from_angles(7.0, 40.0)};
-  Eigen::Vector3d u, v;
-  perpendicular_pair(axis.direction, u, v);
   FitOptions options;
   options.lp_solver = LpSolver::dense;
   options.assess_ambiguity = false;
@@ -1188,12 +1199,7 @@ TEST_CASE("a started Chebyshev cylinder tries Newton on the earlier contacts whe
   int held = 0, descended = 0;
   for (int bore = 0; bore < 3; ++bore) {
     const int n = 192;
-    Eigen::Matrix3Xd points(3, n);
-    for (int i = 0; i < n; ++i) {
-      const double a = 2.0 * pi * (i % 16) / 16.0 + 0.05 * unit(rng), t = -15.0 + 2.5 * (i / 16);
-      points.col(i) = axis.point + t * axis.direction +
-                      (4.0 + 0.004 * unit(rng)) * (std::cos(a) * u + std::sin(a) * v);
-    }
+    const Eigen::Matrix3Xd points = rough_bore(rng, axis, 4.0, -15.0, 16, n);
     for (double sigma : {1e-8, 1e-6, 1e-3}) {
       std::normal_distribution<double> noise(0.0, sigma);
       Eigen::Matrix3Xd moved = points;
@@ -1203,9 +1209,7 @@ TEST_CASE("a started Chebyshev cylinder tries Newton on the earlier contacts whe
                                FitMethod::minimum_circumscribed}) {
         INFO(method_name(method) << ", bore " << bore << ", sigma " << sigma);
         const auto fit = [&](const Eigen::Matrix3Xd& p, const FitOptions& o) {
-          return method == FitMethod::minimum_zone        ? fit_cylinder_minimum_zone(p, o)
-                 : method == FitMethod::maximum_inscribed ? fit_cylinder_maximum_inscribed(p, o)
-                                                          : fit_cylinder_minimum_circumscribed(p, o);
+          return chebyshev_cylinder(method, p, o);
         };
         const CylinderFit earlier = fit(points, options);
         REQUIRE(!earlier.summary.contacts.empty());
