@@ -1005,6 +1005,50 @@ TEST_CASE("a KKT-constructed flatness zone is proven unique", "[chebyshev][uniqu
   CHECK(plane.summary.message.find("not proven unique") == std::string::npos);
 }
 
+TEST_CASE("the axis-zone distances' loop gives the bits of the vector expression",
+          "[chebyshev][cylinder][model]") {
+  // detail::axis_distances (AxisZoneModel::evaluate) computes d = |(q - a) x m| / |m| and its
+  // gradients in one plain loop; the reference is the same formula in Eigen's vector
+  // operations (Forbes, NPL DITC 140/89, as the model documents it), compared bit for bit
+  // (the loop must keep every operation and its order; IEEE 754 arithmetic, no reassociation).
+  std::mt19937_64 rng(31337);
+  std::uniform_real_distribution<double> unit(-1.0, 1.0);
+  const int n = 301;
+  Eigen::Matrix3Xd local(3, n);
+  for (int i = 0; i < n; ++i)
+    local.col(i) = Eigen::Vector3d(6.0 * unit(rng), 6.0 * unit(rng), 40.0 * unit(rng));
+  local.col(7) = Eigen::Vector3d(0.0, 0.0, 3.0);  // on the axis at zero step: the gradient's 0
+  const double tilt_scale = 40.0;
+  for (int trial = 0; trial < 50; ++trial) {
+    Eigen::VectorXd step = Eigen::VectorXd::Zero(4);
+    if (trial > 0)
+      step << 0.01 * unit(rng), 0.01 * unit(rng), 0.02 * unit(rng), 0.02 * unit(rng);
+    Eigen::VectorXd d, d_only;
+    Eigen::MatrixXd g;
+    detail::axis_distances(local, tilt_scale, step, d, &g);
+    detail::axis_distances(local, tilt_scale, step, d_only, nullptr);
+    const double bu = step(2) / tilt_scale, bv = step(3) / tilt_scale;
+    const Eigen::Vector3d a(step(0), step(1), 0.0), m(bu, bv, 1.0);
+    const double s = m.norm(), inv_l = 1.0 / tilt_scale;
+    int differ = 0;
+    for (int i = 0; i < n; ++i) {
+      const Eigen::Vector3d w = local.col(i) - a;
+      const Eigen::Vector3d c = w.cross(m);
+      const double cn = c.norm();
+      const double k = (cn > 0.0 ? 1.0 / cn : 0.0) / s;
+      const double expected[5] = {
+          cn / s, k * (c.y() - bv * c.z()), k * (-c.x() + bu * c.z()),
+          (k * (w.z() * c.y() - w.y() * c.z()) - cn * bu / (s * s * s)) * inv_l,
+          (k * (-w.z() * c.x() + w.x() * c.z()) - cn * bv / (s * s * s)) * inv_l};
+      const double got[5] = {d(i), g(i, 0), g(i, 1), g(i, 2), g(i, 3)};
+      for (int j = 0; j < 5; ++j) differ += got[j] == expected[j] ? 0 : 1;
+      differ += d_only(i) == d(i) ? 0 : 1;
+    }
+    INFO("step " << step.transpose());
+    CHECK(differ == 0);
+  }
+}
+
 // ------------------------------------------------------------------ starts from earlier fits
 
 /// The Chebyshev cylinder of `method` (not least squares).
