@@ -808,6 +808,18 @@ TEST_CASE("a frame given A's minimum-zone plane equals the frame that fits it, b
                   std::invalid_argument);
 }
 
+// A dense face A with one point standing 0.5 mm proud of the 4 um band of the others (so
+// that its stray-point screen has a note to place), a lobed bore B and a lobed bore C, moved by
+// `motion`.
+std::vector<PointCloud> proud_a_b_c(const Motion& motion) {
+  Eigen::Matrix3Xd a = dense_face();
+  a.conservativeResize(3, a.cols() + 1);
+  a.col(a.cols() - 1) = motion.apply(Eigen::Vector3d(20.0, 10.0, 0.5));
+  return {cloud(a, "A.csv"),
+          cloud(motion.apply(lobed_feature(0.0, 0.0, 10.0, -40.0, -3.0, 0.004)), "B.csv"),
+          cloud(motion.apply(lobed_feature(55.0, 25.0, 4.0, -25.0, -3.0, 0.002, 10.0)), "C.csv")};
+}
+
 TEST_CASE("A's flatness fitted beside B and C: the serial order's bits and notes for any "
           "thread count",
           "[datum][frame][scan]") {
@@ -818,16 +830,10 @@ TEST_CASE("A's flatness fitted beside B and C: the serial order's bits and notes
   // and B and C run side by side from 2 threads on). Face A carries one point standing 0.5 mm
   // proud of the 4 um band of the others, so that its screen has a note to place.
   const Motion motion = generic_motion();
-  Eigen::Matrix3Xd a = dense_face();
-  a.conservativeResize(3, a.cols() + 1);
-  a.col(a.cols() - 1) = motion.apply(Eigen::Vector3d(20.0, 10.0, 0.5));
   const std::vector<PlanDatum> datums = a_b_c_bores();
-  const std::vector<PointCloud> clouds = {
-      cloud(a, "A.csv"),
-      cloud(motion.apply(lobed_feature(0.0, 0.0, 10.0, -40.0, -3.0, 0.004)), "B.csv"),
-      cloud(motion.apply(lobed_feature(55.0, 25.0, 4.0, -25.0, -3.0, 0.002, 10.0)), "C.csv")};
+  const std::vector<PointCloud> clouds = proud_a_b_c(motion);
   const Eigen::Vector3d into_material = motion.direction(-Eigen::Vector3d::UnitZ());
-  const PlaneFit zone = fit_plane_minimum_zone(a);
+  const PlaneFit zone = fit_plane_minimum_zone(clouds[0].points);
 
   const auto frame_on = [&](std::size_t threads) {
     DatumFrameOptions options;
@@ -866,4 +872,53 @@ TEST_CASE("A's flatness fitted beside B and C: the serial order's bits and notes
     CHECK(r.c_feature->axis_on_a == one.c_feature->axis_on_a);
     CHECK(r.notes == one.notes);
   }
+}
+
+TEST_CASE("A's screen left to screen_datum_a: the frame that screens A itself, bit for bit",
+          "[datum][frame][scan]") {
+  // Reference: the frame's own screen of A (the computation screen_datum_a takes off the frame,
+  // for evaluate_part to run beside the bores): its report (every flagged point's index,
+  // residual and excess, the robust scale, the count) and the notes in the same order (A's
+  // first), for the screen on 1 and 2 threads. Face A carries one point 0.5 mm proud of the
+  // 4 um band of the others, so that there is a note to place before C's.
+  const Motion motion = generic_motion();
+  const std::vector<PlanDatum> datums = a_b_c_bores();
+  const std::vector<PointCloud> clouds = proud_a_b_c(motion);
+  const Eigen::Vector3d into_material = motion.direction(-Eigen::Vector3d::UnitZ());
+  DatumFrameOptions options;
+  options.fit.threads = options.stray_points.threads = 2;
+  const DatumFrameResult own = establish_datum_frame(test::paired(datums, clouds), into_material,
+                                                     options);
+  REQUIRE(!own.a.stray_points.points.empty());
+  for (const std::size_t threads : {1u, 2u}) {
+    INFO("the deferred screen on " << threads << " threads");
+    DatumFrameOptions deferred = options;
+    deferred.defer_a_screen = true;
+    DatumFrameResult r = establish_datum_frame(test::paired(datums, clouds), into_material,
+                                               deferred);
+    // Until screened: no record of A's screen, no note of it; the rest is already the frame's.
+    CHECK(r.a.stray_points.screened == 0);
+    CHECK(r.notes.size() + 1 == own.notes.size());
+    CHECK(r.frame.rotation == own.frame.rotation);
+    CHECK(r.frame.origin == own.frame.origin);
+    deferred.fit.threads = deferred.stray_points.threads = threads;
+    screen_datum_a(clouds[0], r, deferred);
+    CHECK(r.a.stray_points.screened == own.a.stray_points.screened);
+    CHECK(r.a.stray_points.robust_scale == own.a.stray_points.robust_scale);
+    REQUIRE(r.a.stray_points.points.size() == own.a.stray_points.points.size());
+    for (std::size_t k = 0; k < r.a.stray_points.points.size(); ++k) {
+      CHECK(r.a.stray_points.points[k].index == own.a.stray_points.points[k].index);
+      CHECK(r.a.stray_points.points[k].residual == own.a.stray_points.points[k].residual);
+      CHECK(r.a.stray_points.points[k].excess == own.a.stray_points.points[k].excess);
+    }
+    CHECK(r.notes == own.notes);
+    CHECK_THAT(r.notes.front(), Contains("datum A:") && Contains("suspect"));
+  }
+  // A's residual values released: the note's contacts cannot be found, so it is refused.
+  DatumFrameOptions deferred = options;
+  deferred.defer_a_screen = true;
+  DatumFrameResult released =
+      establish_datum_frame(test::paired(datums, clouds), into_material, deferred);
+  released.a.plane.residuals.values = Eigen::VectorXd();
+  CHECK_THROWS_AS(screen_datum_a(clouds[0], released, deferred), std::invalid_argument);
 }

@@ -66,3 +66,56 @@ TEST_CASE("parallel_for rethrows the lowest failing chunk's exception, as the se
     }
   }
 }
+
+using cylzone::detail::parallel_for_taken_in_order;
+
+TEST_CASE("parallel_for_taken_in_order visits every chunk once; its slots are the serial bits",
+          "[parallel]") {
+  // Reference: the serial loop over the same chunks, each chunk's result in its own slot.
+  for (const std::size_t chunks : {0u, 1u, 2u, 9u, 200u})
+    for (const std::size_t threads : {1u, 2u, 3u, 8u}) {
+      INFO(chunks << " chunks, " << threads << " threads");
+      std::vector<std::atomic<int>> visits(chunks);
+      std::vector<double> slot(chunks, 0.0), serial(chunks, 0.0);
+      const auto work = [](std::size_t c) {
+        double s = 0.0;
+        for (std::size_t i = 0; i < 50 * (c % 7 + 1); ++i) s += std::sin(static_cast<double>(c + i));
+        return s;
+      };
+      std::atomic<std::size_t> largest_worker{0};
+      parallel_for_taken_in_order(chunks, threads, [&](std::size_t c, std::size_t w) {
+        ++visits[c];
+        slot[c] = work(c);
+        std::size_t seen = largest_worker.load();
+        while (w > seen && !largest_worker.compare_exchange_weak(seen, w)) {
+        }
+      });
+      for (std::size_t c = 0; c < chunks; ++c) serial[c] = work(c);
+      for (std::size_t c = 0; c < chunks; ++c) {
+        REQUIRE(visits[c] == 1);
+        CHECK(slot[c] == serial[c]);
+      }
+      CHECK(largest_worker < worker_count(chunks, threads));
+    }
+}
+
+TEST_CASE("parallel_for_taken_in_order rethrows the lowest failing chunk's exception",
+          "[parallel]") {
+  // Reference: the serial loop throws at chunk 3 first. With threads, chunk 10 may fail before
+  // the slow chunk 3 does; 3 is still the one rethrown.
+  for (const std::size_t threads : {1u, 2u, 4u}) {
+    INFO(threads << " threads");
+    try {
+      parallel_for_taken_in_order(12, threads, [](std::size_t c, std::size_t) {
+        if (c == 3) {
+          volatile double s = 0.0;
+          for (int i = 0; i < 2000000; ++i) s = s + 1.0;
+        }
+        if (c == 7 || c == 3 || c == 10) throw std::runtime_error(std::to_string(c));
+      });
+      FAIL("no exception");
+    } catch (const std::runtime_error& e) {
+      CHECK(std::string(e.what()) == "3");
+    }
+  }
+}

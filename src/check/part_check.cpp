@@ -152,12 +152,13 @@ BoreResult without_boundary_points(const BoreResult& bore) {
 /// BoreEvaluationOptions::residuals_kept_up_to): they are read inside the frame only (its
 /// stray-point notes) and by no report, and a dense scan's face A would otherwise hold 8 bytes
 /// a point through every bore's evaluation. rms and form stay.
-void release_datum_residuals(DatumFrameResult& frame, std::size_t kept_up_to) {
+void release_datum_residuals(DatumFrameResult& frame, std::size_t kept_up_to,
+                             bool a_too = true) {
   const auto release = [&](Residuals& residuals) {
     if (static_cast<std::size_t>(residuals.values.size()) > kept_up_to)
       residuals.values = Eigen::VectorXd();
   };
-  release(frame.a.plane.residuals);
+  if (a_too) release(frame.a.plane.residuals);
   if (frame.b) release(frame.b->related_envelope.residuals);
   if (frame.c_feature) release(frame.c_feature->related_envelope.residuals);
   if (frame.c_plane) release(frame.c_plane->plane.residuals);
@@ -288,16 +289,23 @@ PartEvaluation evaluate_part(const PartPlan& plan, const PartInputs& inputs,
                       result.warnings);
   DatumFrameOptions frame = frame_options(stage);
   frame.anchors = frame_anchors(plan, inputs);
-  result.datums =
-      establish_datum_frame(datum_inputs(plan, result, inputs), result.material_side, frame);
+  // A's stray-point screen is the frame's longest step on a dense face and nothing in the
+  // frame the bores use depends on it: it runs below, beside the bores (screen_datum_a).
+  frame.defer_a_screen = frame.stray_screen;
+  const std::vector<DatumInput> datums = datum_inputs(plan, result, inputs);
+  result.datums = establish_datum_frame(datums, result.material_side, frame);
   result.datums.a.material_side_inferred = inferred;
-  release_datum_residuals(result.datums, stage.residuals_kept_up_to);
+  // A's residual values are read by its screen's note, and released after it.
+  release_datum_residuals(result.datums, stage.residuals_kept_up_to, !frame.defer_a_screen);
   if (inferred)
     result.warnings.push_back("material side of datum A inferred from the bores' points");
 
-  // Bores in parallel, one chunk each, each result in its own slot: the same bits for any
-  // thread count. The threads left over go to each bore's own fits.
-  const std::size_t workers = detail::worker_count(plan.bores.size(), threads);
+  // Bores in parallel, one chunk each (A's screen, when deferred, the chunk before them), each
+  // result in its own slot: the same bits for any thread count. The chunks are taken in order
+  // as workers come free (parallel_for_taken_in_order): they differ in cost. The threads left
+  // over go to each bore's own fits (and A's screen).
+  const std::size_t a_screen = frame.defer_a_screen ? 1 : 0;
+  const std::size_t workers = detail::worker_count(a_screen + plan.bores.size(), threads);
   BoreEvaluationOptions per_bore = stage;
   per_bore.fit.threads = per_bore.stray_points.threads = std::max<std::size_t>(1, threads / workers);
   result.bores.resize(plan.bores.size());
@@ -317,7 +325,19 @@ PartEvaluation evaluate_part(const PartPlan& plan, const PartInputs& inputs,
   }
   const std::size_t first_bore = result.preparation.size();
   for (const PlanBore& bore : plan.bores) result.preparation.push_back({"bore " + bore.id, {}});
-  detail::parallel_for(plan.bores.size(), workers, [&](std::size_t i, std::size_t) {
+  DatumFrameOptions a_screen_options = frame;
+  a_screen_options.fit.threads = a_screen_options.stray_points.threads = per_bore.fit.threads;
+  detail::parallel_for_taken_in_order(a_screen + plan.bores.size(), workers, [&](std::size_t task,
+                                                                                 std::size_t) {
+    if (task < a_screen) {
+      // Writes only A's record, residuals and the frame's notes, which no bore reads.
+      screen_datum_a(datums.front().points, result.datums, a_screen_options);
+      if (static_cast<std::size_t>(result.datums.a.plane.residuals.values.size()) >
+          stage.residuals_kept_up_to)
+        result.datums.a.plane.residuals.values = Eigen::VectorXd();
+      return;
+    }
+    const std::size_t i = task - a_screen;
     const PlanBore& bore = plan.bores[i];
     // A bore whose geometry cannot be evaluated (FitError) does not stop the others: it is
     // reported as not evaluated. InputError (the plan is wrong) still stops the check.

@@ -520,6 +520,41 @@ ClockingWidthResult associate_clocking_width(const PlanDatum& datum, const Point
   return result;
 }
 
+// Stray-point screen of A on its least-squares plane's residuals (stray_points.hpp), and its
+// note, placed first among `notes`: A's association writes no note, so in the frame's serial
+// order A's comes before B's and C's. A tangent plane rests on its highest points (residual 0);
+// a minimax or minimum-zone plane is set by the extremes on both sides; a least-squares plane
+// has no contacts. Screen off (a Monte Carlo trial): an empty record, without the copy of A's
+// cloud that prepare_feature would make to return one.
+void screen_plane_a(const PointCloud& cloud, const DatumFrameOptions& options,
+                    PlaneDatumResult& a, std::vector<std::string>& notes) {
+  const PrepareOptions prepare = screen_options(options, options.stray_points.threads);
+  if (prepare.stray_screen) a.stray_points = for_datum(a.label, [&] {
+    PrepareOptions screen = prepare;
+    screen.fit = options.fit;
+    screen.fit.fixed_direction.reset();
+    screen.fit.axis_hint.reset();
+    screen.outward = a.plane.normal;
+    return screen_feature(FeatureKind::plane, cloud, screen);
+  });
+  std::vector<std::size_t> contacts;
+  const Eigen::VectorXd& r = a.plane.residuals.values;
+  const auto add = [&](ContactSide side) {
+    for (std::size_t i : suspect_contacts(a.stray_points, r, side))
+      if (std::find(contacts.begin(), contacts.end(), i) == contacts.end()) contacts.push_back(i);
+  };
+  if (a.association != PlaneAssociation::least_squares) add(ContactSide::highest);
+  if (a.association == PlaneAssociation::tangent_minimax ||
+      a.association == PlaneAssociation::minimum_zone)
+    add(ContactSide::lowest);
+  std::vector<std::string> note;
+  note_stray_points(note, a.label, a.stray_points,
+                    {{contacts, "the " + std::string(association_name(a.association)) +
+                                    " datum plane",
+                      "the frame's orientation and height rest on"}});
+  notes.insert(notes.begin(), note.begin(), note.end());
+}
+
 }  // namespace
 
 Eigen::Vector3d infer_material_side(const PlaneFit& a_least_squares,
@@ -757,35 +792,12 @@ DatumFrameResult establish_datum_frame(const std::vector<DatumInput>& datums,
   // B's and C's notes are taken out, to follow A's screen's.
   const std::vector<std::string> b_and_c_notes(
       result.notes.begin() + static_cast<std::ptrdiff_t>(notes_before_b), result.notes.end());
-  result.notes.resize(notes_before_b);
-  // Stray-point screen of A on its least-squares plane's residuals (stray_points.hpp). A
-  // tangent plane rests on its highest points (residual 0); a minimax or minimum-zone plane is
-  // set by the extremes on both sides; a least-squares plane has no contacts.
-  // Screen off (a Monte Carlo trial): an empty record, without the copy of A's cloud that
-  // prepare_feature would make to return one.
-  if (prepare.stray_screen) result.a.stray_points = for_datum(a_datum.label, [&] {
-    PrepareOptions screen = prepare;
-    screen.fit = plane_fit;
-    screen.outward = z;
-    return screen_feature(a_datum.kind, cloud_of(0), screen);
-  });
-  {
-    std::vector<std::size_t> contacts;
-    const Eigen::VectorXd& r = result.a.plane.residuals.values;
-    const auto add = [&](ContactSide side) {
-      for (std::size_t i : suspect_contacts(result.a.stray_points, r, side))
-        if (std::find(contacts.begin(), contacts.end(), i) == contacts.end()) contacts.push_back(i);
-    };
-    if (result.a.association != PlaneAssociation::least_squares) add(ContactSide::highest);
-    if (result.a.association == PlaneAssociation::tangent_minimax ||
-        result.a.association == PlaneAssociation::minimum_zone)
-      add(ContactSide::lowest);
-    note_stray_points(result.notes, a_datum.label, result.a.stray_points,
-                      {{contacts,
-                        "the " + std::string(association_name(result.a.association)) +
-                            " datum plane",
-                        "the frame's orientation and height rest on"}});
-  }
+  result.notes.resize(notes_before_b);  // none: A's association writes no note
+  // A's screen and its note (before B's and C's, as in the serial order), unless the caller
+  // runs it later (DatumFrameOptions::defer_a_screen); not when B or C failed, so that a
+  // failure of A's screen is still reported before theirs.
+  if (!options.defer_a_screen || b_or_c_failure)
+    screen_plane_a(cloud_of(0), options, result.a, result.notes);
 
   if (b_or_c_failure) std::rethrow_exception(b_or_c_failure);
   result.notes.insert(result.notes.end(), b_and_c_notes.begin(), b_and_c_notes.end());
@@ -795,6 +807,15 @@ DatumFrameResult establish_datum_frame(const std::vector<DatumInput>& datums,
   result.frame.rotation.row(1) = z.cross(x).transpose();
   result.frame.rotation.row(2) = z.transpose();
   return result;
+}
+
+void screen_datum_a(const PointCloud& a_points, DatumFrameResult& frame,
+                    const DatumFrameOptions& options) {
+  if (static_cast<std::size_t>(frame.a.plane.residuals.values.size()) != a_points.size())
+    throw std::invalid_argument(
+        "screen_datum_a: A's plane has " + std::to_string(frame.a.plane.residuals.values.size()) +
+        " residual values for " + std::to_string(a_points.size()) + " points");
+  screen_plane_a(a_points, options, frame.a, frame.notes);
 }
 
 }  // namespace cylzone

@@ -176,6 +176,22 @@ bool polish_on_contacts(ZoneModel& model, ZoneObjective objective,
 
 namespace {
 
+/// Whether a programme's binding rows that carry weight (multiplier > 1e-12, the rows
+/// polish_on_contacts works on) are, as a set of points and sides, the start's contacts that
+/// carry weight. Orders may differ (a programme lists its rows in row order).
+bool same_contacts(const std::vector<Constraint>& rows, const std::vector<double>& multipliers,
+                   const std::vector<Constraint>& start, const std::vector<double>& weights) {
+  std::vector<std::pair<Eigen::Index, int>> a, b;
+  for (std::size_t k = 0; k < rows.size(); ++k)
+    if (multipliers[k] > 1e-12) a.push_back({rows[k].point, rows[k].side == Side::upper ? 0 : 1});
+  for (std::size_t k = 0; k < start.size(); ++k)
+    if (weights[k] > 1e-12) b.push_back({start[k].point, start[k].side == Side::upper ? 0 : 1});
+  if (a.size() != b.size()) return false;
+  std::sort(a.begin(), a.end());
+  std::sort(b.begin(), b.end());
+  return a == b;
+}
+
 /// One descent of the sequential linear programme from the model's current element to a
 /// first-order stationary element (or the iteration limit, or an escape of a maximum-inscribed
 /// element from the points' hull), finished by the Newton refinement on its contacts. On return
@@ -198,26 +214,22 @@ ZoneStatus descend(ZoneModel& model, ZoneObjective objective, const ZoneOptions&
   // conditions of its contacts (polish_on_contacts, which keeps the result only where the
   // multipliers stay non-negative, no other point crosses the zone and the objective is no
   // worse). Where they still hold, the element is the optimum already and the first programme
-  // below certifies it; where they changed, the descent goes on from the earlier element.
-  bool start_polished = false;
+  // certifies it; where they changed, the descent goes on from the earlier element.
+  std::vector<Constraint> start;
+  std::vector<double> start_weights;
   if (options.from_start && !options.start_contacts.empty()) {
-    std::vector<Constraint> contacts;
-    std::vector<double> weights;
     for (const FitContact& c : options.start_contacts) {
       const Side side = c.outer ? Side::upper : Side::lower;
       if (c.point >= static_cast<std::size_t>(model.point_count()) ||
           (side == Side::upper ? !uses_upper(objective) : !uses_lower(objective))) {
-        contacts.clear();  // not this problem's contacts: start from the element alone
+        start.clear();  // not this problem's contacts: start from the element alone
         break;
       }
-      contacts.push_back({static_cast<Eigen::Index>(c.point), side});
-      weights.push_back(c.multiplier);
-    }
-    if (!contacts.empty()) {
-      programme.seed(contacts);
-      start_polished = polish_on_contacts(model, objective, contacts, weights, scale);
+      start.push_back({static_cast<Eigen::Index>(c.point), side});
+      start_weights.push_back(c.multiplier);
     }
   }
+  if (!start.empty()) programme.seed(start);
 
   Eigen::VectorXd trial;
   Eigen::MatrixXd g;
@@ -225,6 +237,46 @@ ZoneStatus descend(ZoneModel& model, ZoneObjective objective, const ZoneOptions&
   double f = true_objective(objective, d);
   const bool watch_location = objective == ZoneObjective::maximum_inscribed;
   auto escaped = [&] { return watch_location && model.location_offset() > options.location_limit; };
+
+  // The Newton step is paid for only where the start's contacts may still hold: the first
+  // programme, at the earlier element and seeded with them, is solved before it (it is the
+  // descent's first programme wherever the step fails, which changes neither the element nor
+  // the programme's inputs), and the step is tried where that programme's weighted binding rows
+  // are the start's weighted contacts (same_contacts). Otherwise the linearisation at the
+  // earlier element already finds other points on the zone, the contacts changed and the
+  // descent goes on from the programme's step. Where the step holds, the element moved: the
+  // programme is seeded again and solved at the new element, as without the test.
+  bool start_polished = false;
+  bool have_first = false;  // `first` is this element's programme (the descent's first)
+  LinearStep first;
+  if (!start.empty()) {
+    bool try_step = true;
+    if (!escaped() && options.max_iterations > 0) {
+      first = programme.solve(d, g, delta);
+      have_first = true;
+      try_step = same_contacts(programme.binding(), programme.multipliers(), start, start_weights);
+      if (!try_step) {
+        // A degenerate vertex (e.g. three-lobed data) has other bases of the same optimum: the
+        // start's contacts still hold where they are all extreme at the programme's step, to
+        // the linearisation's rounding.
+        const Eigen::VectorXd moved = d + g * first.step;
+        const double tolerance = 1e-9 * scale;
+        const double top = moved.maxCoeff(), bottom = moved.minCoeff();
+        try_step = true;
+        for (std::size_t k = 0; k < start.size() && try_step; ++k)
+          if (start_weights[k] > 1e-12)
+            try_step = start[k].side == Side::upper ? moved(start[k].point) >= top - tolerance
+                                                    : moved(start[k].point) <= bottom + tolerance;
+      }
+    }
+    if (try_step && polish_on_contacts(model, objective, start, start_weights, scale)) {
+      start_polished = true;
+      have_first = false;
+      programme.seed(start);
+      model.evaluate(no_step, d, &g);
+      f = true_objective(objective, d);
+    }
+  }
 
   ZoneStatus status = ZoneStatus::converged;
   bool programme_is_current = false;  // the last linear programme was set up at this element
@@ -239,7 +291,8 @@ ZoneStatus descend(ZoneModel& model, ZoneObjective objective, const ZoneOptions&
       }
       ++iterations;
       ++programmes;
-      const LinearStep s = programme.solve(d, g, delta);
+      const LinearStep s = have_first ? first : programme.solve(d, g, delta);
+      have_first = false;
       programme_is_current = true;
       summary.largest_working_set = std::max(summary.largest_working_set, s.rows);
       // No predicted improvement beyond the rounding of the distances themselves: the

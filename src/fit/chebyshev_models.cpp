@@ -105,34 +105,58 @@ void AxisZoneModel::set_frame(const Eigen::Vector3d& point_on_axis,
   local_coordinates_into(*points_, origin_, basis_, local_);
 }
 
-void AxisZoneModel::evaluate(const Eigen::VectorXd& step, Eigen::VectorXd& distances,
-                             Eigen::MatrixXd* gradients) const {
+void axis_distances(const Eigen::Matrix3Xd& local, double tilt_scale, const Eigen::VectorXd& step,
+                    Eigen::VectorXd& distances, Eigen::MatrixXd* gradients) {
   // The axis through a = (shift_u, shift_v, 0) along m = (b_u, b_v, 1), b = tilt / L:
   // d = |(q - a) x m| / |m|. |c| with c = (q - a) x m keeps full precision where
   // |q - a|^2 - ((q - a).m)^2 / |m|^2 would cancel. Derivatives: dc/da_u = (0, 1, -b_v),
   // dc/da_v = (-1, 0, b_u), dc/db_u = (0, w_z, -w_y), dc/db_v = (-w_z, 0, w_x) with w = q - a,
   // and d|m|/db = b / |m|. At zero step they reduce to Forbes' (NPL DITC 140/89):
   // -(x, y)/d and -z (x, y)/d.
-  const double bu = step(2) / tilt_scale_, bv = step(3) / tilt_scale_;
-  const Eigen::Vector3d a(step(0), step(1), 0.0), m(bu, bv, 1.0);
+  const double bu = step(2) / tilt_scale, bv = step(3) / tilt_scale;
+  const Eigen::Vector3d m(bu, bv, 1.0);
   const double s = m.norm();
-  const double inv_l = 1.0 / tilt_scale_;
-  const Eigen::Index n = local_.cols();
+  const double inv_l = 1.0 / tilt_scale;
+  const Eigen::Index n = local.cols();
   distances.resize(n);
   if (gradients) gradients->resize(n, 4);
-  for (Eigen::Index i = 0; i < n; ++i) {
-    const Eigen::Vector3d w = local_.col(i) - a;
-    const Eigen::Vector3d c = w.cross(m);
-    const double cn = c.norm();
-    distances(i) = cn / s;
-    if (!gradients) continue;
-    const double k = inverse_or_zero(cn) / s;
-    auto& g = *gradients;
-    g(i, 0) = k * (c.y() - bv * c.z());
-    g(i, 1) = k * (-c.x() + bu * c.z());
-    g(i, 2) = (k * (w.z() * c.y() - w.y() * c.z()) - cn * bu / (s * s * s)) * inv_l;
-    g(i, 3) = (k * (-w.z() * c.x() + w.x() * c.z()) - cn * bv / (s * s * s)) * inv_l;
+  // One plain loop over the points' coordinates (3 per point) into the columns of the
+  // results: the same operations in the same order per point as Eigen's w = q - a, c = w x m
+  // and |c| = sqrt(c_x^2 + c_y^2 + c_z^2), summed left to right (tests/test_fit_chebyshev.cpp
+  // compares them bit for bit), without the temporaries, so the compiler can keep it in
+  // registers. No reassociation (no -ffast-math): the bits are the expression's.
+  const double au = step(0), av = step(1);
+  const double s3 = s * s * s;
+  const double* __restrict q = local.data();
+  double* __restrict out = distances.data();
+  if (!gradients) {
+    for (Eigen::Index i = 0; i < n; ++i) {
+      const double wx = q[3 * i] - au, wy = q[3 * i + 1] - av, wz = q[3 * i + 2] - 0.0;
+      const double cx = wy * 1.0 - wz * bv, cy = wz * bu - wx * 1.0, cz = wx * bv - wy * bu;
+      out[i] = std::sqrt(cx * cx + cy * cy + cz * cz) / s;
+    }
+    return;
   }
+  double* __restrict g0 = gradients->data();
+  double* __restrict g1 = g0 + n;
+  double* __restrict g2 = g0 + 2 * n;
+  double* __restrict g3 = g0 + 3 * n;
+  for (Eigen::Index i = 0; i < n; ++i) {
+    const double wx = q[3 * i] - au, wy = q[3 * i + 1] - av, wz = q[3 * i + 2] - 0.0;
+    const double cx = wy * 1.0 - wz * bv, cy = wz * bu - wx * 1.0, cz = wx * bv - wy * bu;
+    const double cn = std::sqrt(cx * cx + cy * cy + cz * cz);
+    out[i] = cn / s;
+    const double k = inverse_or_zero(cn) / s;
+    g0[i] = k * (cy - bv * cz);
+    g1[i] = k * (-cx + bu * cz);
+    g2[i] = (k * (wz * cy - wy * cz) - cn * bu / s3) * inv_l;
+    g3[i] = (k * (-wz * cx + wx * cz) - cn * bv / s3) * inv_l;
+  }
+}
+
+void AxisZoneModel::evaluate(const Eigen::VectorXd& step, Eigen::VectorXd& distances,
+                             Eigen::MatrixXd* gradients) const {
+  axis_distances(local_, tilt_scale_, step, distances, gradients);
 }
 
 void AxisZoneModel::move(const Eigen::VectorXd& step) {

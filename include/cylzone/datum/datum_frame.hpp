@@ -161,6 +161,12 @@ struct DatumFrameOptions {
   /// minimum-zone fit. Off (a Monte Carlo trial: no bore characteristic reads it), flatness is
   /// left 0 unless the association is a minimax or minimum-zone plane; nothing else changes.
   bool flatness = true;
+  /// A's stray-point screen left to the caller (screen_datum_a), who runs it alongside other
+  /// work (evaluate_part: beside the bores). The frame returned then has no A screen's record
+  /// nor note, and keeps A's plane residual values for it; nothing else in it depends on that
+  /// screen. When B or C fails the screen runs all the same, so that its failure is reported
+  /// first as without this option.
+  bool defer_a_screen = false;
 };
 
 /// One datum feature's specification paired with its points (measurement coordinates, as
@@ -200,5 +206,15 @@ Eigen::Vector3d infer_material_side(const PlaneFit& a_least_squares,
 DatumFrameResult establish_datum_frame(const std::vector<DatumInput>& datums,
                                        const Eigen::Vector3d& a_material_side,
                                        const DatumFrameOptions& options = {});
+
+/// Datum A's stray-point screen for a frame built with DatumFrameOptions::defer_a_screen: the
+/// same screen (stray_points.hpp, on A's least-squares plane's residuals) and the same note as
+/// the frame's own, placed first among `frame.notes` as there, so that the frame ends with the
+/// same bits as one that screened A itself (the screen's result does not depend on its threads,
+/// `options.stray_points.threads`). `a_points` are A's points the frame was built from; A's plane
+/// residual values must still be held (else std::invalid_argument). Throws FitError "datum A:
+/// ..." as the frame would. No IO, no state.
+void screen_datum_a(const PointCloud& a_points, DatumFrameResult& frame,
+                    const DatumFrameOptions& options);
 
 }  // namespace cylzone

@@ -143,6 +143,13 @@ class ModelPoints {
   const Eigen::Matrix3Xd* view_ = nullptr;
 };
 
+/// AxisZoneModel::evaluate on the points' coordinates `local` in the axis' frame (columns
+/// (u, v, w)): distances from the axis displaced by `step` ([shift_u, shift_v, L tilt_u,
+/// L tilt_v], L = `tilt_scale`) and, when asked, their gradients (n x 4). One loop over the
+/// points, the same operations per point as |(q - a) x m| / |m| in Eigen (bit for bit).
+void axis_distances(const Eigen::Matrix3Xd& local, double tilt_scale, const Eigen::VectorXd& step,
+                    Eigen::VectorXd& distances, Eigen::MatrixXd* gradients);
+
 /// Orthogonal distances of points in space from a straight axis (cylinders, and lines for
 /// straightness). Parameters in the frame (u, v, w = axis) at the foot of the centroid:
 /// [shift_u, shift_v, L tilt_u, L tilt_v], the axis through (shift, 0) along (tilt, 1), with L
