@@ -5,12 +5,69 @@
 
 #include <algorithm>
 #include <cmath>
+#include <numeric>
 #include <string>
 
 #include "cylzone/core/errors.hpp"
 #include "detail/fit_support.hpp"
+#include "fit/detail/section_members.hpp"
 
 namespace cylzone {
+
+namespace detail {
+SectionMembers section_members(const double* t, std::size_t n, const std::vector<double>& heights,
+                               double half) {
+  const std::size_t m = heights.size();
+  SectionMembers out;
+  out.start.assign(m + 1, 0);
+  const auto all_finite = [](const std::vector<double>& v) {
+    return std::all_of(v.begin(), v.end(), [](double x) { return std::isfinite(x); });
+  };
+  if (!std::isfinite(half) || !all_finite(heights) ||
+      !std::all_of(t, t + n, [](double x) { return std::isfinite(x); })) {
+    // The direct test of every pair (rare input: no run structure is relied on).
+    std::vector<std::vector<std::size_t>> lists(m);
+    for (std::size_t k = 0; k < m; ++k)
+      for (std::size_t i = 0; i < n; ++i)
+        if (std::abs(t[i] - heights[k]) <= half) lists[k].push_back(i);
+    for (std::size_t k = 0; k < m; ++k) {
+      out.start[k + 1] = out.start[k] + lists[k].size();
+      out.index.insert(out.index.end(), lists[k].begin(), lists[k].end());
+    }
+    return out;
+  }
+  // The heights in increasing order (equal heights in their given order), `sorted` their values.
+  std::vector<std::size_t> by_height(m);
+  std::iota(by_height.begin(), by_height.end(), std::size_t{0});
+  std::stable_sort(by_height.begin(), by_height.end(),
+                   [&](std::size_t a, std::size_t b) { return heights[a] < heights[b]; });
+  std::vector<double> sorted(m);
+  for (std::size_t j = 0; j < m; ++j) sorted[j] = heights[by_height[j]];
+  // The run of a point: from the first height with t - h <= half (t - h falls as h rises) while
+  // t - h >= -half; each pair is decided by the test itself.
+  const auto run_start = [&](double ti) {
+    return static_cast<std::size_t>(
+        std::partition_point(sorted.begin(), sorted.end(),
+                             [&](double h) { return ti - h > half; }) -
+        sorted.begin());
+  };
+  const auto for_each_member = [&](double ti, auto&& take) {
+    for (std::size_t j = run_start(ti); j < m && ti - sorted[j] >= -half; ++j)
+      if (std::abs(ti - sorted[j]) <= half) take(j);
+  };
+  // Counted first, then filled in increasing point order: each section's list is increasing.
+  std::vector<std::size_t> count(m + 1, 0);
+  for (std::size_t i = 0; i < n; ++i)
+    for_each_member(t[i], [&](std::size_t j) { ++count[by_height[j] + 1]; });
+  for (std::size_t k = 0; k < m; ++k) out.start[k + 1] = out.start[k] + count[k + 1];
+  out.index.resize(out.start[m]);
+  std::vector<std::size_t> next(out.start.begin(), out.start.end() - 1);
+  for (std::size_t i = 0; i < n; ++i)
+    for_each_member(t[i], [&](std::size_t j) { out.index[next[by_height[j]]++] = i; });
+  return out;
+}
+
+}  // namespace detail
 
 SectionsResult fit_sections_least_squares(const Eigen::Matrix3Xd& points, const Axis& axis,
                                           const std::vector<double>& heights,
@@ -26,15 +83,19 @@ SectionsResult fit_sections_least_squares(const Eigen::Matrix3Xd& points, const 
 
   SectionsResult result;
   result.summary.method = FitMethod::least_squares;
-  std::vector<Eigen::Index> members;
-  for (const double h : heights) {
-    members.clear();
-    for (Eigen::Index i = 0; i < t.size(); ++i)
-      if (std::abs(t(i) - h) <= options.half_thickness) members.push_back(i);
+  // Every section's points, in increasing order, from one search per point
+  // (detail::section_members): the same points, in the same order, as testing every point
+  // against every section.
+  const detail::SectionMembers all_members = detail::section_members(
+      t.data(), static_cast<std::size_t>(t.size()), heights, options.half_thickness);
+  for (std::size_t s = 0; s < heights.size(); ++s) {
+    const double h = heights[s];
+    const std::size_t* member = all_members.index.data() + all_members.start[s];
+    const std::size_t count = all_members.start[s + 1] - all_members.start[s];
     // Named only in a warning: formatting the height costs more than selecting the points.
     const auto where = [h] { return "section at height " + detail::format_number(h, 4) + " mm"; };
-    if (members.size() < std::max<std::size_t>(options.min_points, 3)) {
-      result.summary.warnings.push_back(where() + " skipped: " + std::to_string(members.size()) +
+    if (count < std::max<std::size_t>(options.min_points, 3)) {
+      result.summary.warnings.push_back(where() + " skipped: " + std::to_string(count) +
                                         " points within +/-" +
                                         detail::format_number(options.half_thickness, 4) +
                                         " mm, at least " +
@@ -42,9 +103,9 @@ SectionsResult fit_sections_least_squares(const Eigen::Matrix3Xd& points, const 
                                         " needed");
       continue;
     }
-    Eigen::Matrix3Xd selected(3, static_cast<Eigen::Index>(members.size()));
-    for (std::size_t k = 0; k < members.size(); ++k)
-      selected.col(static_cast<Eigen::Index>(k)) = points.col(members[k]);
+    Eigen::Matrix3Xd selected(3, static_cast<Eigen::Index>(count));
+    for (std::size_t k = 0; k < count; ++k)
+      selected.col(static_cast<Eigen::Index>(k)) = points.col(static_cast<Eigen::Index>(member[k]));
     try {
       SectionCircle section;
       section.height = h;
@@ -57,7 +118,7 @@ SectionsResult fit_sections_least_squares(const Eigen::Matrix3Xd& points, const 
         result.summary.status = FitStatus::iteration_limit;
       result.summary.iterations = std::max(result.summary.iterations,
                                            section.circle.summary.iterations);
-      result.summary.point_count += members.size();
+      result.summary.point_count += count;
       for (const std::string& warning : section.circle.summary.warnings)
         result.summary.warnings.push_back(where() + ": " + warning);
       result.sections.push_back(std::move(section));
