@@ -17,6 +17,7 @@
 #include "cylzone/evaluate/material_condition.hpp"
 #include "detail/fit_support.hpp"
 #include "evaluate/detail/boundary_clearance.hpp"
+#include "evaluate/detail/half_turn_gap.hpp"
 #include "prepare/detail/stray_point_message.hpp"
 
 namespace cylzone {
@@ -419,25 +420,52 @@ double section_gap_of(const PlanBore& bore, const BoreEvaluationOptions& options
 /// through it holds them all, that is when the largest angular gap between them, seen from it,
 /// is below 180 degrees. A section with fewer points cannot show it and is not counted; with
 /// none counted, the answer is no (the clearance is then the conservative envelope figure).
+/// Each section is first decided without angles (detail::HalfTurnGap, the same decision
+/// wherever it is clear); only a section it leaves undecided has its points' angles sorted.
 bool surrounds_axis(const Eigen::Matrix3Xd& points, const std::vector<Eigen::Index>& kept,
                     const Axis& axis, const std::vector<double>& ls_height,
                     const SectionPlan& plan) {
   const Eigen::Matrix3d basis = detail::basis_from_direction(axis.direction);
-  std::vector<std::vector<double>> angles(plan.heights.size());
-  for (Eigen::Index i : kept) {
+  const std::size_t none = plan.heights.size();
+  // The section of kept point i (`none`: in no section) and its coordinates about the axis.
+  const auto locate = [&](Eigen::Index i, Eigen::Vector3d& q) {
     const double t = ls_height[static_cast<std::size_t>(i)];
     const auto it = std::lower_bound(plan.heights.begin(), plan.heights.end(), t);
     std::size_t k = static_cast<std::size_t>(it - plan.heights.begin());
     if (k == plan.heights.size() || (k > 0 && t - plan.heights[k - 1] < *it - t)) --k;
-    if (plan.heights.empty() || std::abs(t - plan.heights[k]) > plan.half_thickness) continue;
-    const Eigen::Vector3d q = basis.transpose() * (points.col(i) - axis.point);
-    // polar_angle: atan2 on [0, 2 pi) to 1e-15 rad at a fraction of its cost (fit_support.hpp).
-    angles[k].push_back(detail::polar_angle(q.x(), q.y()));
+    if (plan.heights.empty() || std::abs(t - plan.heights[k]) > plan.half_thickness) return none;
+    q = basis.transpose() * (points.col(i) - axis.point);
+    return k;
+  };
+  std::vector<detail::HalfTurnGap> gaps(plan.heights.size());
+  Eigen::Vector3d q;
+  for (Eigen::Index i : kept) {
+    const std::size_t k = locate(i, q);
+    if (k != none) gaps[k].add(q.x(), q.y());
   }
   std::size_t counted = 0;
+  std::vector<char> undecided(plan.heights.size(), 0);
+  bool any_undecided = false;
+  for (std::size_t k = 0; k < gaps.size(); ++k) {
+    if (gaps[k].count() < 3) continue;
+    ++counted;
+    const detail::HalfTurnGap::Verdict v = gaps[k].verdict();
+    if (v == detail::HalfTurnGap::Verdict::not_below) return false;
+    if (v == detail::HalfTurnGap::Verdict::undecided) {
+      undecided[k] = 1;
+      any_undecided = true;
+    }
+  }
+  if (!any_undecided) return counted > 0;
+  // The sections left undecided: their points' angles, sorted, and the largest gap.
+  std::vector<std::vector<double>> angles(plan.heights.size());
+  for (Eigen::Index i : kept) {
+    const std::size_t k = locate(i, q);
+    // polar_angle: atan2 on [0, 2 pi) to 1e-15 rad at a fraction of its cost (fit_support.hpp).
+    if (k != none && undecided[k]) angles[k].push_back(detail::polar_angle(q.x(), q.y()));
+  }
   for (std::vector<double>& a : angles) {
     if (a.size() < 3) continue;
-    ++counted;
     std::sort(a.begin(), a.end());
     double gap = a.front() + 2.0 * pi - a.back();
     for (std::size_t j = 1; j < a.size(); ++j) gap = std::max(gap, a[j] - a[j - 1]);
