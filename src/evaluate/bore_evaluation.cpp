@@ -18,6 +18,7 @@
 #include "detail/fit_support.hpp"
 #include "evaluate/detail/boundary_clearance.hpp"
 #include "evaluate/detail/half_turn_gap.hpp"
+#include "evaluate/detail/height_order.hpp"
 #include "prepare/detail/stray_point_message.hpp"
 
 namespace cylzone {
@@ -141,7 +142,7 @@ struct SectionPlan {
 };
 
 SectionPlan plan_sections(const Eigen::Matrix3Xd& points, const Axis& axis,
-                          const std::vector<double>& sorted_heights, double gap) {
+                          const std::vector<detail::HeightKey>& by_height, double gap) {
   SectionPlan plan;
   std::vector<double> levels = find_section_levels(points, axis, gap);
   std::sort(levels.begin(), levels.end());
@@ -151,7 +152,8 @@ SectionPlan plan_sections(const Eigen::Matrix3Xd& points, const Axis& axis,
     // Span of every level: each point belongs to its nearest level.
     std::vector<double> lo(levels.size(), std::numeric_limits<double>::infinity());
     std::vector<double> hi(levels.size(), -std::numeric_limits<double>::infinity());
-    for (double t : sorted_heights) {
+    for (const detail::HeightKey& key : by_height) {
+      const double t = key.height;
       auto it = std::lower_bound(levels.begin(), levels.end(), t);
       std::size_t k = static_cast<std::size_t>(it - levels.begin());
       if (k == levels.size() || (k > 0 && t - levels[k - 1] < *it - t)) --k;
@@ -170,7 +172,7 @@ SectionPlan plan_sections(const Eigen::Matrix3Xd& points, const Axis& axis,
     return plan;
   }
   plan.slabs = true;
-  const double t0 = sorted_heights.front(), t1 = sorted_heights.back();
+  const double t0 = by_height.front().height, t1 = by_height.back().height;
   const std::size_t n = std::max<std::size_t>(1, static_cast<std::size_t>(std::ceil((t1 - t0) / gap)));
   const double thickness = (t1 - t0) / static_cast<double>(n);
   for (std::size_t k = 0; k < n; ++k) plan.heights.push_back(t0 + (k + 0.5) * thickness);
@@ -190,8 +192,8 @@ struct TwoPointSizes {
 /// when that direction is matched within half the mean angular spacing; the size is the
 /// distance of the two points in the section plane (the plane perpendicular to the section
 /// axis, so slabs of a scanned cloud do not add their thickness to the size).
-TwoPointSizes two_point_sizes(const Eigen::Matrix3Xd& points, const std::vector<double>& heights,
-                              const std::vector<Eigen::Index>& order,
+TwoPointSizes two_point_sizes(const Eigen::Matrix3Xd& points,
+                              const std::vector<detail::HeightKey>& order,
                               const std::vector<SectionCircle>& sections, const Axis& axis,
                               double half_thickness) {
   TwoPointSizes out;
@@ -204,7 +206,7 @@ TwoPointSizes two_point_sizes(const Eigen::Matrix3Xd& points, const std::vector<
   std::vector<std::size_t> partner;  // the point each one is paired with; n: none
   for (const SectionCircle& section : sections) {
     // Points of the section: a contiguous run of the height-sorted order.
-    const auto by_height = [&](Eigen::Index i, double h) { return heights[i] < h; };
+    const auto by_height = [](const detail::HeightKey& key, double h) { return key.height < h; };
     auto first = std::lower_bound(order.begin(), order.end(), section.height - half_thickness,
                                   by_height);
     auto last = std::lower_bound(first, order.end(),
@@ -217,7 +219,7 @@ TwoPointSizes two_point_sizes(const Eigen::Matrix3Xd& points, const std::vector<
     by_angle.resize(n);
     for (std::size_t k = 0; k < n; ++k) {
       uv.col(static_cast<Eigen::Index>(k)) =
-          basis.leftCols<2>().transpose() * (points.col(first[k]) - section.circle.centre);
+          basis.leftCols<2>().transpose() * (points.col(first[k].index) - section.circle.centre);
       by_angle[k] = {detail::polar_angle(uv(0, k), uv(1, k)), k};
     }
     // Equal angles (coincident directions) in the order of the points.
@@ -701,19 +703,10 @@ BoreResult evaluate_bore(const BoreInput& input, const BoreEvaluationOptions& op
   std::vector<double> ls_height(static_cast<std::size_t>(n));
   for (Eigen::Index i = 0; i < n; ++i)
     ls_height[static_cast<std::size_t>(i)] = ls_axis.direction.dot(points.col(i) - ls_axis.point);
-  std::vector<Eigen::Index> order(static_cast<std::size_t>(n));
-  std::iota(order.begin(), order.end(), Eigen::Index{0});
-  std::sort(order.begin(), order.end(), [&](Eigen::Index a, Eigen::Index b) {
-    return ls_height[static_cast<std::size_t>(a)] < ls_height[static_cast<std::size_t>(b)];
-  });
-  const SectionPlan section_plan = [&] {
-    // The sorted heights serve the section plan only: freed once it is made.
-    std::vector<double> sorted_heights(order.size());
-    for (std::size_t k = 0; k < order.size(); ++k)
-      sorted_heights[k] = ls_height[static_cast<std::size_t>(order[k])];
-    return for_bore(bore,
-                    [&] { return plan_sections(points, ls_axis, sorted_heights, section_gap); });
-  }();
+  // The points by height along it (detail::order_by_height: std::sort's order of the indices).
+  std::vector<detail::HeightKey> order = detail::order_by_height(ls_height);
+  const SectionPlan section_plan =
+      for_bore(bore, [&] { return plan_sections(points, ls_axis, order, section_gap); });
   SectionOptions section_options;
   section_options.half_thickness = section_plan.half_thickness;
   section_options.min_points = std::max<std::size_t>(3, options.min_section_points);
@@ -779,10 +772,10 @@ BoreResult evaluate_bore(const BoreInput& input, const BoreEvaluationOptions& op
   size.mating_envelope = mating_size;
   size.related_mating_envelope = result.related_envelope.diameter();
   const TwoPointSizes local_sizes =
-      options.two_point_sizes ? two_point_sizes(points, ls_height, order, result.sections, ls_axis,
+      options.two_point_sizes ? two_point_sizes(points, order, result.sections, ls_axis,
                                                 section_plan.half_thickness)
                               : TwoPointSizes{};
-  std::vector<Eigen::Index>().swap(order);  // its last reader: freed before the boundary points
+  std::vector<detail::HeightKey>().swap(order);  // its last reader: freed before the boundary points
   // Without two-point sizes the upper limit rests on the minimum material envelope.
   if (!have_minimum_material && local_sizes.count == 0) {
     result.minimum_material =
