@@ -11,6 +11,7 @@
 
 #include "cylzone/core/errors.hpp"
 #include "cylzone/fit/sections.hpp"
+#include "evaluate/detail/height_order.hpp"
 #include "fit/detail/section_members.hpp"
 #include "reference_data.hpp"
 
@@ -198,5 +199,41 @@ TEST_CASE("section membership by one search per point equals the test of every p
     check({-3.0, 0.0, 2.0}, {-inf, 2.0, -3.0}, inf);
     check({-3.0, 0.0, 2.0}, {}, 1.0);
     check({}, {1.0, 2.0}, 1.0);
+  }
+}
+
+TEST_CASE("levels of heights already sorted equal find_section_levels' to the bit",
+          "[sections]") {
+  // Reference: find_section_levels, which computes the heights along the axis and sorts them.
+  // The keys are the heights evaluate_bore computes (the same expression) sorted with their
+  // index (evaluate/detail/height_order.hpp). Levels at zero height mix -0.0 and +0.0.
+  std::mt19937_64 rng(99);
+  std::uniform_real_distribution<double> unit(-1.0, 1.0);
+  for (const Axis& axis : {Axis{{0.0, 0.0, 0.0}, {0.0, 0.0, 1.0}},
+                           Axis{{3.0, -2.0, 1.0}, {0.6, 0.0, 0.8}},
+                           Axis{{3.0, -2.0, 1.0}, {0.0, -1.0, 0.0}}}) {
+    Eigen::Matrix3Xd points(3, 4000);
+    for (Eigen::Index i = 0; i < points.cols(); ++i) {
+      const double level = static_cast<double>(i % 9 - 4) * 3.0;  // 9 levels, one at 0
+      const Eigen::Vector3d across(unit(rng), unit(rng), unit(rng));
+      const Eigen::Vector3d off = 8.0 * (across - across.dot(axis.direction) * axis.direction);
+      const double jitter = i % 9 == 4 ? 0.0 : 0.01 * unit(rng);
+      points.col(i) = axis.point + (level + jitter) * axis.direction + off;
+    }
+    REQUIRE(axis.direction / axis.direction.norm() == axis.direction);
+    std::vector<double> heights(static_cast<std::size_t>(points.cols()));
+    for (Eigen::Index i = 0; i < points.cols(); ++i)
+      heights[static_cast<std::size_t>(i)] = axis.direction.dot(points.col(i) - axis.point);
+    const std::vector<detail::HeightKey> keys = detail::order_by_height(heights);
+    for (const double gap : {0.5, 2.0, 10.0}) {
+      const std::vector<double> by_keys = detail::levels_of_sorted_heights(
+          keys.size(), [&](std::size_t k) { return keys[k].height; }, gap);
+      const std::vector<double> reference = find_section_levels(points, axis, gap);
+      REQUIRE(by_keys.size() == reference.size());
+      for (std::size_t k = 0; k < reference.size(); ++k) {
+        CHECK(by_keys[k] == reference[k]);
+        CHECK(std::signbit(by_keys[k]) == std::signbit(reference[k]));
+      }
+    }
   }
 }

@@ -6,6 +6,7 @@
 #include <Eigen/Geometry>
 #include <algorithm>
 #include <cmath>
+#include <cstring>
 #include <limits>
 #include <numeric>
 #include <string>
@@ -17,6 +18,7 @@
 #include "cylzone/evaluate/material_condition.hpp"
 #include "detail/fit_support.hpp"
 #include "evaluate/detail/boundary_clearance.hpp"
+#include "fit/detail/section_members.hpp"
 #include "evaluate/detail/half_turn_gap.hpp"
 #include "evaluate/detail/height_order.hpp"
 #include "prepare/detail/stray_point_message.hpp"
@@ -144,7 +146,17 @@ struct SectionPlan {
 SectionPlan plan_sections(const Eigen::Matrix3Xd& points, const Axis& axis,
                           const std::vector<detail::HeightKey>& by_height, double gap) {
   SectionPlan plan;
-  std::vector<double> levels = find_section_levels(points, axis, gap);
+  // find_section_levels sorts the heights along axis.direction / |axis.direction|; when that is
+  // axis.direction itself, to the bit, its heights are the ones sorted here (the same
+  // expression, evaluate_bore's ls_height), and the sorted keys give the same levels.
+  const double norm = axis.direction.norm();
+  const Eigen::Vector3d unit = axis.direction / norm;
+  std::vector<double> levels =
+      norm > 0.0 && std::isfinite(norm) &&
+              std::memcmp(unit.data(), axis.direction.data(), sizeof(double) * 3) == 0
+          ? detail::levels_of_sorted_heights(
+                by_height.size(), [&](std::size_t k) { return by_height[k].height; }, gap)
+          : find_section_levels(points, axis, gap);
   std::sort(levels.begin(), levels.end());
   bool scanned = levels.size() > max_probed_levels || levels.empty();
   double largest_deviation = 0.0;

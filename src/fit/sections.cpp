@@ -140,17 +140,7 @@ std::vector<double> find_section_levels(const Eigen::Matrix3Xd& points, const Ax
   for (Eigen::Index i = 0; i < points.cols(); ++i)
     t[static_cast<std::size_t>(i)] = w.dot(points.col(i) - axis.point);
   std::sort(t.begin(), t.end());
-  std::vector<double> levels;
-  std::size_t first = 0;
-  for (std::size_t i = 1; i <= t.size(); ++i) {
-    if (i == t.size() || t[i] - t[i - 1] > gap) {
-      double sum = 0.0;
-      for (std::size_t k = first; k < i; ++k) sum += t[k] - t[first];
-      levels.push_back(t[first] + sum / static_cast<double>(i - first));
-      first = i;
-    }
-  }
-  return levels;
+  return detail::levels_of_sorted_heights(t.size(), [&](std::size_t k) { return t[k]; }, gap);
 }
 
 }  // namespace cylzone
