@@ -51,19 +51,23 @@ SectionMembers section_members(const double* t, std::size_t n, const std::vector
                              [&](double h) { return ti - h > half; }) -
         sorted.begin());
   };
-  const auto for_each_member = [&](double ti, auto&& take) {
-    for (std::size_t j = run_start(ti); j < m && ti - sorted[j] >= -half; ++j)
+  // Each point's run is searched once; the second pass starts from where the first found it.
+  std::vector<std::size_t> first_of(n);
+  const auto for_each_member = [&](double ti, std::size_t j, auto&& take) {
+    for (; j < m && ti - sorted[j] >= -half; ++j)
       if (std::abs(ti - sorted[j]) <= half) take(j);
   };
   // Counted first, then filled in increasing point order: each section's list is increasing.
   std::vector<std::size_t> count(m + 1, 0);
-  for (std::size_t i = 0; i < n; ++i)
-    for_each_member(t[i], [&](std::size_t j) { ++count[by_height[j] + 1]; });
+  for (std::size_t i = 0; i < n; ++i) {
+    first_of[i] = run_start(t[i]);
+    for_each_member(t[i], first_of[i], [&](std::size_t j) { ++count[by_height[j] + 1]; });
+  }
   for (std::size_t k = 0; k < m; ++k) out.start[k + 1] = out.start[k] + count[k + 1];
   out.index.resize(out.start[m]);
   std::vector<std::size_t> next(out.start.begin(), out.start.end() - 1);
   for (std::size_t i = 0; i < n; ++i)
-    for_each_member(t[i], [&](std::size_t j) { out.index[next[by_height[j]]++] = i; });
+    for_each_member(t[i], first_of[i], [&](std::size_t j) { out.index[next[by_height[j]]++] = i; });
   return out;
 }
 
