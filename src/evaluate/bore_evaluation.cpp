@@ -19,6 +19,7 @@
 #include "detail/fit_support.hpp"
 #include "evaluate/detail/boundary_clearance.hpp"
 #include "fit/detail/section_members.hpp"
+#include "evaluate/detail/angle_order.hpp"
 #include "evaluate/detail/half_turn_gap.hpp"
 #include "evaluate/detail/height_order.hpp"
 #include "prepare/detail/stray_point_message.hpp"
@@ -216,6 +217,8 @@ TwoPointSizes two_point_sizes(const Eigen::Matrix3Xd& points,
   Eigen::Matrix2Xd uv;
   std::vector<std::pair<double, std::size_t>> by_angle;  // (angle, point of the section)
   std::vector<std::size_t> partner;  // the point each one is paired with; n: none
+  std::vector<std::pair<double, std::size_t>> sort_scratch;
+  std::vector<std::size_t> sort_start;
   for (const SectionCircle& section : sections) {
     // Points of the section: a contiguous run of the height-sorted order.
     const auto by_height = [](const detail::HeightKey& key, double h) { return key.height < h; };
@@ -234,8 +237,9 @@ TwoPointSizes two_point_sizes(const Eigen::Matrix3Xd& points,
           basis.leftCols<2>().transpose() * (points.col(first[k].index) - section.circle.centre);
       by_angle[k] = {detail::polar_angle(uv(0, k), uv(1, k)), k};
     }
-    // Equal angles (coincident directions) in the order of the points.
-    std::sort(by_angle.begin(), by_angle.end());
+    // Equal angles (coincident directions) in the order of the points (detail::sort_by_angle:
+    // std::sort's order, by buckets).
+    detail::sort_by_angle(by_angle, sort_start, sort_scratch);
     const double acceptance = 0.5 * (2.0 * pi / static_cast<double>(n)) * (1.0 + 1e-9);
     // Each point's opposite direction, in the order of its angle: the targets rise, but for one
     // wrap past 2 pi, so the first angle not below each (the lower bound) is found by a pointer
