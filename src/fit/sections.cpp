@@ -5,6 +5,8 @@
 
 #include <algorithm>
 #include <cmath>
+#include <cstdint>
+#include <limits>
 #include <numeric>
 #include <string>
 
@@ -51,8 +53,10 @@ SectionMembers section_members(const double* t, std::size_t n, const std::vector
                              [&](double h) { return ti - h > half; }) -
         sorted.begin());
   };
-  // Each point's run is searched once; the second pass starts from where the first found it.
-  std::vector<std::size_t> first_of(n);
+  // Each point's run is searched once; the second pass starts from where the first found it
+  // (4 bytes a point; heights beyond 2^32 - 1 sections search again).
+  const bool keep_first = m <= std::numeric_limits<std::uint32_t>::max();
+  std::vector<std::uint32_t> first_of(keep_first ? n : 0);
   const auto for_each_member = [&](double ti, std::size_t j, auto&& take) {
     for (; j < m && ti - sorted[j] >= -half; ++j)
       if (std::abs(ti - sorted[j]) <= half) take(j);
@@ -60,14 +64,16 @@ SectionMembers section_members(const double* t, std::size_t n, const std::vector
   // Counted first, then filled in increasing point order: each section's list is increasing.
   std::vector<std::size_t> count(m + 1, 0);
   for (std::size_t i = 0; i < n; ++i) {
-    first_of[i] = run_start(t[i]);
-    for_each_member(t[i], first_of[i], [&](std::size_t j) { ++count[by_height[j] + 1]; });
+    const std::size_t j = run_start(t[i]);
+    if (keep_first) first_of[i] = static_cast<std::uint32_t>(j);
+    for_each_member(t[i], j, [&](std::size_t k) { ++count[by_height[k] + 1]; });
   }
   for (std::size_t k = 0; k < m; ++k) out.start[k + 1] = out.start[k] + count[k + 1];
   out.index.resize(out.start[m]);
   std::vector<std::size_t> next(out.start.begin(), out.start.end() - 1);
   for (std::size_t i = 0; i < n; ++i)
-    for_each_member(t[i], first_of[i], [&](std::size_t j) { out.index[next[by_height[j]]++] = i; });
+    for_each_member(t[i], keep_first ? first_of[i] : run_start(t[i]),
+                    [&](std::size_t k) { out.index[next[by_height[k]]++] = i; });
   return out;
 }
 
@@ -80,7 +86,7 @@ SectionsResult fit_sections_least_squares(const Eigen::Matrix3Xd& points, const 
     throw FitError("section half thickness must be positive, got " +
                    detail::format_number(options.half_thickness, 6) + " mm");
   const Eigen::Vector3d w = detail::checked_direction(axis.direction, "section axis direction");
-  const Eigen::RowVectorXd t = w.transpose() * (points.colwise() - axis.point);
+  Eigen::RowVectorXd t = w.transpose() * (points.colwise() - axis.point);
   FitOptions circle_options = options.fit;
   circle_options.fixed_direction = w;
   if (!circle_options.axis_hint) circle_options.axis_hint = w;  // circle normals follow the axis
@@ -92,6 +98,7 @@ SectionsResult fit_sections_least_squares(const Eigen::Matrix3Xd& points, const 
   // against every section.
   const detail::SectionMembers all_members = detail::section_members(
       t.data(), static_cast<std::size_t>(t.size()), heights, options.half_thickness);
+  t = Eigen::RowVectorXd();  // its last reader
   for (std::size_t s = 0; s < heights.size(); ++s) {
     const double h = heights[s];
     const std::size_t* member = all_members.index.data() + all_members.start[s];
