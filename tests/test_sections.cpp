@@ -180,15 +180,19 @@ TEST_CASE("section membership by one search per point equals the test of every p
       check(t, heights, half);
     }
   }
-  SECTION("probed levels: unsorted and repeated heights") {
+  SECTION("probed levels: unsorted and repeated heights, more than 8 (the search) and fewer") {
     std::vector<double> t;
-    const std::vector<double> heights = {-4.0, -12.0, -8.0, -12.0, 0.0, -8.0 + 1e-12};
+    const std::vector<double> heights = {-4.0,  -12.0, -8.0, -12.0, 0.0, -8.0 + 1e-12,
+                                         -20.0, -16.0, -16.0, 4.0, -2.0};
     for (double h : heights)
       for (int i = 0; i < 40; ++i) t.push_back(h + 1e-4 * (i - 20));
     std::shuffle(t.begin(), t.end(), rng);
     check(t, heights, 1e-3);
     check(t, heights, 2e-3);
     check(t, heights, 4.0);  // each point in several sections
+    const std::vector<double> few(heights.begin(), heights.begin() + 6);
+    check(t, few, 1e-3);
+    check(t, few, 4.0);
   }
   SECTION("non-finite heights, points or half thickness take the direct test") {
     const double inf = std::numeric_limits<double>::infinity();

@@ -17,6 +17,12 @@
 namespace cylzone {
 
 namespace detail {
+namespace {
+/// Up to this many sections every point is tested against each (measured on the demo's probed
+/// bores, 3 to 6 levels: the search cost more there).
+constexpr std::size_t direct_sections = 8;
+}  // namespace
+
 SectionMembers section_members(const double* t, std::size_t n, const std::vector<double>& heights,
                                double half) {
   const std::size_t m = heights.size();
@@ -25,9 +31,10 @@ SectionMembers section_members(const double* t, std::size_t n, const std::vector
   const auto all_finite = [](const std::vector<double>& v) {
     return std::all_of(v.begin(), v.end(), [](double x) { return std::isfinite(x); });
   };
-  if (!std::isfinite(half) || !all_finite(heights) ||
+  // The direct test of every pair for a few sections (probed levels: cheaper than the search
+  // and its bookkeeping) and for non-finite input (no run structure is relied on).
+  if (m <= direct_sections || !std::isfinite(half) || !all_finite(heights) ||
       !std::all_of(t, t + n, [](double x) { return std::isfinite(x); })) {
-    // The direct test of every pair (rare input: no run structure is relied on).
     std::vector<std::vector<std::size_t>> lists(m);
     for (std::size_t k = 0; k < m; ++k)
       for (std::size_t i = 0; i < n; ++i)

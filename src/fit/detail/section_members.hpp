@@ -21,8 +21,8 @@ struct SectionMembers {
 /// decides it. Why one search per point is exact: for a fixed t, fl(t - h) does not increase as
 /// h increases (correctly rounded subtraction is monotone), so the sections a point belongs to
 /// are one run of the heights in increasing order; the run is found by a binary search and
-/// every member passes the test itself. Non-finite heights t, section heights or half (where t - h may be
-/// NaN inside the run) take the direct test of every pair instead.
+/// every member passes the test itself. Up to 8 sections, and for non-finite heights t, section
+/// heights or half (where t - h may be NaN inside the run), every pair is tested directly.
 SectionMembers section_members(const double* t, std::size_t n, const std::vector<double>& heights,
                                double half);
 
