@@ -5,10 +5,14 @@
 
 #include <Eigen/Geometry>
 #include <cmath>
+#include <limits>
+#include <random>
 #include <vector>
 
 #include "cylzone/core/errors.hpp"
 #include "cylzone/fit/sections.hpp"
+#include "evaluate/detail/height_order.hpp"
+#include "fit/detail/section_members.hpp"
 #include "reference_data.hpp"
 
 using namespace cylzone;
@@ -124,5 +128,116 @@ TEST_CASE("section membership, placement and skipped sections", "[sections]") {
     Axis no_direction = bore.axis;
     no_direction.direction.setZero();
     CHECK_THROWS_AS(fit_sections_least_squares(bore.points, no_direction, {8.0}), FitError);
+  }
+}
+
+namespace {
+// The computation section_members replaces: every point tested against every section, in
+// point order (each section's list increasing).
+std::vector<std::vector<std::size_t>> members_by_direct_test(const std::vector<double>& t,
+                                                             const std::vector<double>& heights,
+                                                             double half) {
+  std::vector<std::vector<std::size_t>> lists(heights.size());
+  for (std::size_t k = 0; k < heights.size(); ++k)
+    for (std::size_t i = 0; i < t.size(); ++i)
+      if (std::abs(t[i] - heights[k]) <= half) lists[k].push_back(i);
+  return lists;
+}
+
+std::vector<std::vector<std::size_t>> as_lists(const detail::SectionMembers& m) {
+  std::vector<std::vector<std::size_t>> lists(m.start.size() - 1);
+  for (std::size_t k = 0; k + 1 < m.start.size(); ++k)
+    lists[k].assign(m.index.begin() + static_cast<std::ptrdiff_t>(m.start[k]),
+                    m.index.begin() + static_cast<std::ptrdiff_t>(m.start[k + 1]));
+  return lists;
+}
+}  // namespace
+
+TEST_CASE("section membership by one search per point equals the test of every pair",
+          "[sections]") {
+  // Reference: the direct test |t - h| <= half of every point against every section (the loop
+  // fit_sections_least_squares ran before), same lists in the same order.
+  std::mt19937_64 rng(20261204);
+  std::uniform_real_distribution<double> height(-30.0, 5.0);
+  const auto check = [](const std::vector<double>& t, const std::vector<double>& heights,
+                        double half) {
+    const detail::SectionMembers m = detail::section_members(t.data(), t.size(), heights, half);
+    REQUIRE(m.start.size() == heights.size() + 1);
+    CHECK(as_lists(m) == members_by_direct_test(t, heights, half));
+  };
+  SECTION("slabs of a scan, points on the slab boundaries and sections overlapping") {
+    for (int trial = 0; trial < 20; ++trial) {
+      std::vector<double> t(5000);
+      for (double& x : t) x = height(rng);
+      // Evenly spaced slabs; half exactly half the spacing (boundary points in two sections)
+      // or wider (overlap) or narrower (gaps).
+      const double spacing = 35.0 / 23.0;
+      std::vector<double> heights;
+      for (int k = 0; k < 23; ++k) heights.push_back(-30.0 + (k + 0.5) * spacing);
+      for (int k = 0; k < 23; ++k) t.push_back(heights[k] + 0.5 * spacing);  // on a boundary
+      for (int k = 0; k < 23; ++k) t.push_back(std::nextafter(heights[k] - 0.5 * spacing, 0.0));
+      const double half = (trial % 3 == 0 ? 0.5 : trial % 3 == 1 ? 0.9 : 0.2) * spacing;
+      check(t, heights, half);
+    }
+  }
+  SECTION("probed levels: unsorted and repeated heights, more than 8 (the search) and fewer") {
+    std::vector<double> t;
+    const std::vector<double> heights = {-4.0,  -12.0, -8.0, -12.0, 0.0, -8.0 + 1e-12,
+                                         -20.0, -16.0, -16.0, 4.0, -2.0};
+    for (double h : heights)
+      for (int i = 0; i < 40; ++i) t.push_back(h + 1e-4 * (i - 20));
+    std::shuffle(t.begin(), t.end(), rng);
+    check(t, heights, 1e-3);
+    check(t, heights, 2e-3);
+    check(t, heights, 4.0);  // each point in several sections
+    const std::vector<double> few(heights.begin(), heights.begin() + 6);
+    check(t, few, 1e-3);
+    check(t, few, 4.0);
+  }
+  SECTION("non-finite heights, points or half thickness take the direct test") {
+    const double inf = std::numeric_limits<double>::infinity();
+    const double nan = std::numeric_limits<double>::quiet_NaN();
+    const std::vector<double> t = {-inf, -3.0, 0.0, 2.0, inf, nan};
+    check(t, {-3.0, inf, nan, -inf, 2.0}, 1.0);
+    check(t, {-3.0, inf, -inf, 2.0}, inf);
+    check({-3.0, 0.0, 2.0}, {-inf, 2.0, -3.0}, inf);
+    check({-3.0, 0.0, 2.0}, {}, 1.0);
+    check({}, {1.0, 2.0}, 1.0);
+  }
+}
+
+TEST_CASE("levels of heights already sorted equal find_section_levels' to the bit",
+          "[sections]") {
+  // Reference: find_section_levels, which computes the heights along the axis and sorts them.
+  // The keys are the heights evaluate_bore computes (the same expression) sorted with their
+  // index (evaluate/detail/height_order.hpp). Levels at zero height mix -0.0 and +0.0.
+  std::mt19937_64 rng(99);
+  std::uniform_real_distribution<double> unit(-1.0, 1.0);
+  for (const Axis& axis : {Axis{{0.0, 0.0, 0.0}, {0.0, 0.0, 1.0}},
+                           Axis{{3.0, -2.0, 1.0}, {0.6, 0.0, 0.8}},
+                           Axis{{3.0, -2.0, 1.0}, {0.0, -1.0, 0.0}}}) {
+    Eigen::Matrix3Xd points(3, 4000);
+    for (Eigen::Index i = 0; i < points.cols(); ++i) {
+      const double level = static_cast<double>(i % 9 - 4) * 3.0;  // 9 levels, one at 0
+      const Eigen::Vector3d across(unit(rng), unit(rng), unit(rng));
+      const Eigen::Vector3d off = 8.0 * (across - across.dot(axis.direction) * axis.direction);
+      const double jitter = i % 9 == 4 ? 0.0 : 0.01 * unit(rng);
+      points.col(i) = axis.point + (level + jitter) * axis.direction + off;
+    }
+    REQUIRE(axis.direction / axis.direction.norm() == axis.direction);
+    std::vector<double> heights(static_cast<std::size_t>(points.cols()));
+    for (Eigen::Index i = 0; i < points.cols(); ++i)
+      heights[static_cast<std::size_t>(i)] = axis.direction.dot(points.col(i) - axis.point);
+    const std::vector<detail::HeightKey> keys = detail::order_by_height(heights);
+    for (const double gap : {0.5, 2.0, 10.0}) {
+      const std::vector<double> by_keys = detail::levels_of_sorted_heights(
+          keys.size(), [&](std::size_t k) { return keys[k].height; }, gap);
+      const std::vector<double> reference = find_section_levels(points, axis, gap);
+      REQUIRE(by_keys.size() == reference.size());
+      for (std::size_t k = 0; k < reference.size(); ++k) {
+        CHECK(by_keys[k] == reference[k]);
+        CHECK(std::signbit(by_keys[k]) == std::signbit(reference[k]));
+      }
+    }
   }
 }

@@ -7,6 +7,9 @@
 #include <stdexcept>
 
 #include "cylzone/evaluate/surface_map.hpp"
+#include "evaluate/detail/angle_column.hpp"
+
+#include <random>
 
 using namespace cylzone;
 
@@ -137,4 +140,39 @@ TEST_CASE("surface map: bad arguments are refused") {
   CHECK(empty.mean.size() == 72 * 40);
   CHECK(empty.points == 0);
   CHECK(empty.largest_cell_magnitude() == 0.0);
+}
+
+TEST_CASE("angle column from polar_angle equals the atan2 column it replaces", "[surface_map]") {
+  // Reference: the map's definition, atan2 in degrees on [0, 360) binned into equal columns
+  // (detail::angle_column_by_atan2, the loop radial_deviation_map ran before). Directions at
+  // random, exactly on and a few ulps around every column edge (where the fall-back acts),
+  // on the axes, and the zero vector.
+  std::mt19937_64 rng(360);
+  std::uniform_real_distribution<double> unit(-1.0, 1.0);
+  const double pi = 3.14159265358979323846;
+  std::size_t compared = 0;
+  for (const std::size_t cells : {std::size_t{1}, std::size_t{7}, std::size_t{72}, std::size_t{360},
+                                  std::size_t{1000}, std::size_t{100000}}) {
+    std::vector<std::pair<double, double>> directions;
+    for (int k = 0; k < 3000; ++k) directions.push_back({unit(rng), unit(rng)});
+    for (std::size_t k = 0; k <= std::min<std::size_t>(cells, 400); ++k) {
+      const double theta = 2.0 * pi * static_cast<double>(k) / static_cast<double>(cells);
+      double x = 9.0 * std::cos(theta), y = 9.0 * std::sin(theta);
+      for (int step = 0; step < 3; ++step) {
+        directions.push_back({x, y});
+        directions.push_back({std::nextafter(x, 0.0), std::nextafter(y, 1.0)});
+        x = std::nextafter(x, -1.0);
+        y = std::nextafter(y, -1.0);
+      }
+    }
+    for (const auto& d : std::vector<std::pair<double, double>>{
+             {1.0, 0.0}, {1.0, -0.0}, {1.0, -1e-300}, {0.0, 1.0}, {-1.0, 0.0}, {-1.0, -0.0},
+             {0.0, -1.0}, {0.0, 0.0}, {-0.0, -0.0}, {2.0, std::nextafter(0.0, -1.0)}})
+      directions.push_back(d);
+    for (const auto& [x, y] : directions) {
+      CHECK(detail::angle_column(x, y, cells) == detail::angle_column_by_atan2(x, y, cells));
+      ++compared;
+    }
+  }
+  CHECK(compared > 18000);
 }

@@ -6,6 +6,7 @@
 #include <Eigen/Geometry>
 #include <algorithm>
 #include <cmath>
+#include <cstring>
 #include <limits>
 #include <numeric>
 #include <string>
@@ -17,6 +18,10 @@
 #include "cylzone/evaluate/material_condition.hpp"
 #include "detail/fit_support.hpp"
 #include "evaluate/detail/boundary_clearance.hpp"
+#include "fit/detail/section_members.hpp"
+#include "evaluate/detail/angle_order.hpp"
+#include "evaluate/detail/half_turn_gap.hpp"
+#include "evaluate/detail/height_order.hpp"
 #include "prepare/detail/stray_point_message.hpp"
 
 namespace cylzone {
@@ -140,9 +145,19 @@ struct SectionPlan {
 };
 
 SectionPlan plan_sections(const Eigen::Matrix3Xd& points, const Axis& axis,
-                          const std::vector<double>& sorted_heights, double gap) {
+                          const std::vector<detail::HeightKey>& by_height, double gap) {
   SectionPlan plan;
-  std::vector<double> levels = find_section_levels(points, axis, gap);
+  // find_section_levels sorts the heights along axis.direction / |axis.direction|; when that is
+  // axis.direction itself, to the bit, its heights are the ones sorted here (the same
+  // expression, evaluate_bore's ls_height), and the sorted keys give the same levels.
+  const double norm = axis.direction.norm();
+  const Eigen::Vector3d unit = axis.direction / norm;
+  std::vector<double> levels =
+      norm > 0.0 && std::isfinite(norm) &&
+              std::memcmp(unit.data(), axis.direction.data(), sizeof(double) * 3) == 0
+          ? detail::levels_of_sorted_heights(
+                by_height.size(), [&](std::size_t k) { return by_height[k].height; }, gap)
+          : find_section_levels(points, axis, gap);
   std::sort(levels.begin(), levels.end());
   bool scanned = levels.size() > max_probed_levels || levels.empty();
   double largest_deviation = 0.0;
@@ -150,7 +165,8 @@ SectionPlan plan_sections(const Eigen::Matrix3Xd& points, const Axis& axis,
     // Span of every level: each point belongs to its nearest level.
     std::vector<double> lo(levels.size(), std::numeric_limits<double>::infinity());
     std::vector<double> hi(levels.size(), -std::numeric_limits<double>::infinity());
-    for (double t : sorted_heights) {
+    for (const detail::HeightKey& key : by_height) {
+      const double t = key.height;
       auto it = std::lower_bound(levels.begin(), levels.end(), t);
       std::size_t k = static_cast<std::size_t>(it - levels.begin());
       if (k == levels.size() || (k > 0 && t - levels[k - 1] < *it - t)) --k;
@@ -169,7 +185,7 @@ SectionPlan plan_sections(const Eigen::Matrix3Xd& points, const Axis& axis,
     return plan;
   }
   plan.slabs = true;
-  const double t0 = sorted_heights.front(), t1 = sorted_heights.back();
+  const double t0 = by_height.front().height, t1 = by_height.back().height;
   const std::size_t n = std::max<std::size_t>(1, static_cast<std::size_t>(std::ceil((t1 - t0) / gap)));
   const double thickness = (t1 - t0) / static_cast<double>(n);
   for (std::size_t k = 0; k < n; ++k) plan.heights.push_back(t0 + (k + 0.5) * thickness);
@@ -189,8 +205,8 @@ struct TwoPointSizes {
 /// when that direction is matched within half the mean angular spacing; the size is the
 /// distance of the two points in the section plane (the plane perpendicular to the section
 /// axis, so slabs of a scanned cloud do not add their thickness to the size).
-TwoPointSizes two_point_sizes(const Eigen::Matrix3Xd& points, const std::vector<double>& heights,
-                              const std::vector<Eigen::Index>& order,
+TwoPointSizes two_point_sizes(const Eigen::Matrix3Xd& points,
+                              const std::vector<detail::HeightKey>& order,
                               const std::vector<SectionCircle>& sections, const Axis& axis,
                               double half_thickness) {
   TwoPointSizes out;
@@ -201,9 +217,11 @@ TwoPointSizes two_point_sizes(const Eigen::Matrix3Xd& points, const std::vector<
   Eigen::Matrix2Xd uv;
   std::vector<std::pair<double, std::size_t>> by_angle;  // (angle, point of the section)
   std::vector<std::size_t> partner;  // the point each one is paired with; n: none
+  std::vector<std::pair<double, std::size_t>> sort_scratch;
+  std::vector<std::size_t> sort_start;
   for (const SectionCircle& section : sections) {
     // Points of the section: a contiguous run of the height-sorted order.
-    const auto by_height = [&](Eigen::Index i, double h) { return heights[i] < h; };
+    const auto by_height = [](const detail::HeightKey& key, double h) { return key.height < h; };
     auto first = std::lower_bound(order.begin(), order.end(), section.height - half_thickness,
                                   by_height);
     auto last = std::lower_bound(first, order.end(),
@@ -216,11 +234,12 @@ TwoPointSizes two_point_sizes(const Eigen::Matrix3Xd& points, const std::vector<
     by_angle.resize(n);
     for (std::size_t k = 0; k < n; ++k) {
       uv.col(static_cast<Eigen::Index>(k)) =
-          basis.leftCols<2>().transpose() * (points.col(first[k]) - section.circle.centre);
+          basis.leftCols<2>().transpose() * (points.col(first[k].index) - section.circle.centre);
       by_angle[k] = {detail::polar_angle(uv(0, k), uv(1, k)), k};
     }
-    // Equal angles (coincident directions) in the order of the points.
-    std::sort(by_angle.begin(), by_angle.end());
+    // Equal angles (coincident directions) in the order of the points (detail::sort_by_angle:
+    // std::sort's order, by buckets).
+    detail::sort_by_angle(by_angle, sort_start, sort_scratch);
     const double acceptance = 0.5 * (2.0 * pi / static_cast<double>(n)) * (1.0 + 1e-9);
     // Each point's opposite direction, in the order of its angle: the targets rise, but for one
     // wrap past 2 pi, so the first angle not below each (the lower bound) is found by a pointer
@@ -419,25 +438,52 @@ double section_gap_of(const PlanBore& bore, const BoreEvaluationOptions& options
 /// through it holds them all, that is when the largest angular gap between them, seen from it,
 /// is below 180 degrees. A section with fewer points cannot show it and is not counted; with
 /// none counted, the answer is no (the clearance is then the conservative envelope figure).
+/// Each section is first decided without angles (detail::HalfTurnGap, the same decision
+/// wherever it is clear); only a section it leaves undecided has its points' angles sorted.
 bool surrounds_axis(const Eigen::Matrix3Xd& points, const std::vector<Eigen::Index>& kept,
                     const Axis& axis, const std::vector<double>& ls_height,
                     const SectionPlan& plan) {
   const Eigen::Matrix3d basis = detail::basis_from_direction(axis.direction);
-  std::vector<std::vector<double>> angles(plan.heights.size());
-  for (Eigen::Index i : kept) {
+  const std::size_t none = plan.heights.size();
+  // The section of kept point i (`none`: in no section) and its coordinates about the axis.
+  const auto locate = [&](Eigen::Index i, Eigen::Vector3d& q) {
     const double t = ls_height[static_cast<std::size_t>(i)];
     const auto it = std::lower_bound(plan.heights.begin(), plan.heights.end(), t);
     std::size_t k = static_cast<std::size_t>(it - plan.heights.begin());
     if (k == plan.heights.size() || (k > 0 && t - plan.heights[k - 1] < *it - t)) --k;
-    if (plan.heights.empty() || std::abs(t - plan.heights[k]) > plan.half_thickness) continue;
-    const Eigen::Vector3d q = basis.transpose() * (points.col(i) - axis.point);
-    // polar_angle: atan2 on [0, 2 pi) to 1e-15 rad at a fraction of its cost (fit_support.hpp).
-    angles[k].push_back(detail::polar_angle(q.x(), q.y()));
+    if (plan.heights.empty() || std::abs(t - plan.heights[k]) > plan.half_thickness) return none;
+    q = basis.transpose() * (points.col(i) - axis.point);
+    return k;
+  };
+  std::vector<detail::HalfTurnGap> gaps(plan.heights.size());
+  Eigen::Vector3d q;
+  for (Eigen::Index i : kept) {
+    const std::size_t k = locate(i, q);
+    if (k != none) gaps[k].add(q.x(), q.y());
   }
   std::size_t counted = 0;
+  std::vector<char> undecided(plan.heights.size(), 0);
+  bool any_undecided = false;
+  for (std::size_t k = 0; k < gaps.size(); ++k) {
+    if (gaps[k].count() < 3) continue;
+    ++counted;
+    const detail::HalfTurnGap::Verdict v = gaps[k].verdict();
+    if (v == detail::HalfTurnGap::Verdict::not_below) return false;
+    if (v == detail::HalfTurnGap::Verdict::undecided) {
+      undecided[k] = 1;
+      any_undecided = true;
+    }
+  }
+  if (!any_undecided) return counted > 0;
+  // The sections left undecided: their points' angles, sorted, and the largest gap.
+  std::vector<std::vector<double>> angles(plan.heights.size());
+  for (Eigen::Index i : kept) {
+    const std::size_t k = locate(i, q);
+    // polar_angle: atan2 on [0, 2 pi) to 1e-15 rad at a fraction of its cost (fit_support.hpp).
+    if (k != none && undecided[k]) angles[k].push_back(detail::polar_angle(q.x(), q.y()));
+  }
   for (std::vector<double>& a : angles) {
     if (a.size() < 3) continue;
-    ++counted;
     std::sort(a.begin(), a.end());
     double gap = a.front() + 2.0 * pi - a.back();
     for (std::size_t j = 1; j < a.size(); ++j) gap = std::max(gap, a[j] - a[j - 1]);
@@ -673,19 +719,10 @@ BoreResult evaluate_bore(const BoreInput& input, const BoreEvaluationOptions& op
   std::vector<double> ls_height(static_cast<std::size_t>(n));
   for (Eigen::Index i = 0; i < n; ++i)
     ls_height[static_cast<std::size_t>(i)] = ls_axis.direction.dot(points.col(i) - ls_axis.point);
-  std::vector<Eigen::Index> order(static_cast<std::size_t>(n));
-  std::iota(order.begin(), order.end(), Eigen::Index{0});
-  std::sort(order.begin(), order.end(), [&](Eigen::Index a, Eigen::Index b) {
-    return ls_height[static_cast<std::size_t>(a)] < ls_height[static_cast<std::size_t>(b)];
-  });
-  const SectionPlan section_plan = [&] {
-    // The sorted heights serve the section plan only: freed once it is made.
-    std::vector<double> sorted_heights(order.size());
-    for (std::size_t k = 0; k < order.size(); ++k)
-      sorted_heights[k] = ls_height[static_cast<std::size_t>(order[k])];
-    return for_bore(bore,
-                    [&] { return plan_sections(points, ls_axis, sorted_heights, section_gap); });
-  }();
+  // The points by height along it (detail::order_by_height: std::sort's order of the indices).
+  std::vector<detail::HeightKey> order = detail::order_by_height(ls_height);
+  const SectionPlan section_plan =
+      for_bore(bore, [&] { return plan_sections(points, ls_axis, order, section_gap); });
   SectionOptions section_options;
   section_options.half_thickness = section_plan.half_thickness;
   section_options.min_points = std::max<std::size_t>(3, options.min_section_points);
@@ -751,10 +788,10 @@ BoreResult evaluate_bore(const BoreInput& input, const BoreEvaluationOptions& op
   size.mating_envelope = mating_size;
   size.related_mating_envelope = result.related_envelope.diameter();
   const TwoPointSizes local_sizes =
-      options.two_point_sizes ? two_point_sizes(points, ls_height, order, result.sections, ls_axis,
+      options.two_point_sizes ? two_point_sizes(points, order, result.sections, ls_axis,
                                                 section_plan.half_thickness)
                               : TwoPointSizes{};
-  std::vector<Eigen::Index>().swap(order);  // its last reader: freed before the boundary points
+  std::vector<detail::HeightKey>().swap(order);  // its last reader: freed before the boundary points
   // Without two-point sizes the upper limit rests on the minimum material envelope.
   if (!have_minimum_material && local_sizes.count == 0) {
     result.minimum_material =

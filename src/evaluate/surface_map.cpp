@@ -6,6 +6,9 @@
 #include <algorithm>
 #include <cmath>
 #include <stdexcept>
+#include <vector>
+
+#include "evaluate/detail/angle_column.hpp"
 
 namespace cylzone {
 
@@ -44,12 +47,13 @@ SurfaceMap radial_deviation_map(const Eigen::Matrix3Xd& points, const Eigen::Vec
   const Eigen::Vector3d w = zone.basis.col(2);
 
   const Eigen::Index n = points.cols();
-  Eigen::VectorXd height(n), angle(n);
+  Eigen::VectorXd height(n);
+  // The angle column (detail::angle_column: atan2's column, from polar_angle off the edges).
+  std::vector<std::size_t> column(static_cast<std::size_t>(n));
   for (Eigen::Index i = 0; i < n; ++i) {
     const Eigen::Vector3d q = points.col(i) - axis.point;
-    double a = std::atan2(q.dot(v), q.dot(u)) * (180.0 / 3.14159265358979323846);
-    if (a < 0.0) a += 360.0;
-    angle[i] = a >= 360.0 ? 0.0 : a;  // -0 rounding up to 360
+    column[static_cast<std::size_t>(i)] =
+        detail::angle_column(q.dot(u), q.dot(v), options.angle_cells);
     height[i] = w.dot(points.col(i) - zone.origin);
   }
   map.top = height.maxCoeff();
@@ -57,20 +61,15 @@ SurfaceMap radial_deviation_map(const Eigen::Matrix3Xd& points, const Eigen::Vec
   map.smallest = deviations.minCoeff();
   map.largest = deviations.maxCoeff();
   const double span = map.top - map.bottom;
-  const auto clamp_index = [](double x, std::size_t cells) {
-    if (!(x > 0.0)) return std::size_t{0};
-    return std::min(static_cast<std::size_t>(x), cells - 1);
-  };
   for (Eigen::Index i = 0; i < n; ++i) {
-    const std::size_t column = clamp_index(
-        angle[i] / 360.0 * static_cast<double>(options.angle_cells), options.angle_cells);
     // One level (span 0) puts every point in the first row.
     const std::size_t row =
         span > 0.0
-            ? clamp_index((map.top - height[i]) / span * static_cast<double>(options.depth_cells),
-                          options.depth_cells)
+            ? detail::clamp_cell(
+                  (map.top - height[i]) / span * static_cast<double>(options.depth_cells),
+                  options.depth_cells)
             : 0;
-    const std::size_t cell = row * options.angle_cells + column;
+    const std::size_t cell = row * options.angle_cells + column[static_cast<std::size_t>(i)];
     map.mean[cell] += deviations[i];
     ++map.count[cell];
   }

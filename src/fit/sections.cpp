@@ -5,12 +5,85 @@
 
 #include <algorithm>
 #include <cmath>
+#include <cstdint>
+#include <limits>
+#include <numeric>
 #include <string>
 
 #include "cylzone/core/errors.hpp"
 #include "detail/fit_support.hpp"
+#include "fit/detail/section_members.hpp"
 
 namespace cylzone {
+
+namespace detail {
+namespace {
+/// Up to this many sections every point is tested against each: on the demo's probed bores
+/// (a few levels each) the search and its bookkeeping took more instructions (callgrind).
+constexpr std::size_t direct_sections = 8;
+}  // namespace
+
+SectionMembers section_members(const double* t, std::size_t n, const std::vector<double>& heights,
+                               double half) {
+  const std::size_t m = heights.size();
+  SectionMembers out;
+  out.start.assign(m + 1, 0);
+  const auto all_finite = [](const std::vector<double>& v) {
+    return std::all_of(v.begin(), v.end(), [](double x) { return std::isfinite(x); });
+  };
+  // The direct test of every pair for a few sections (probed levels: cheaper than the search
+  // and its bookkeeping) and for non-finite input (no run structure is relied on).
+  if (m <= direct_sections || !std::isfinite(half) || !all_finite(heights) ||
+      !std::all_of(t, t + n, [](double x) { return std::isfinite(x); })) {
+    // Section by section, into the one list (as the loop this replaces: one pass a section).
+    out.index.reserve(n);
+    for (std::size_t k = 0; k < m; ++k) {
+      for (std::size_t i = 0; i < n; ++i)
+        if (std::abs(t[i] - heights[k]) <= half) out.index.push_back(i);
+      out.start[k + 1] = out.index.size();
+    }
+    return out;
+  }
+  // The heights in increasing order (equal heights in their given order), `sorted` their values.
+  std::vector<std::size_t> by_height(m);
+  std::iota(by_height.begin(), by_height.end(), std::size_t{0});
+  std::stable_sort(by_height.begin(), by_height.end(),
+                   [&](std::size_t a, std::size_t b) { return heights[a] < heights[b]; });
+  std::vector<double> sorted(m);
+  for (std::size_t j = 0; j < m; ++j) sorted[j] = heights[by_height[j]];
+  // The run of a point: from the first height with t - h <= half (t - h falls as h rises) while
+  // t - h >= -half; each pair is decided by the test itself.
+  const auto run_start = [&](double ti) {
+    return static_cast<std::size_t>(
+        std::partition_point(sorted.begin(), sorted.end(),
+                             [&](double h) { return ti - h > half; }) -
+        sorted.begin());
+  };
+  // Each point's run is searched once; the second pass starts from where the first found it
+  // (4 bytes a point; heights beyond 2^32 - 1 sections search again).
+  const bool keep_first = m <= std::numeric_limits<std::uint32_t>::max();
+  std::vector<std::uint32_t> first_of(keep_first ? n : 0);
+  const auto for_each_member = [&](double ti, std::size_t j, auto&& take) {
+    for (; j < m && ti - sorted[j] >= -half; ++j)
+      if (std::abs(ti - sorted[j]) <= half) take(j);
+  };
+  // Counted first, then filled in increasing point order: each section's list is increasing.
+  std::vector<std::size_t> count(m + 1, 0);
+  for (std::size_t i = 0; i < n; ++i) {
+    const std::size_t j = run_start(t[i]);
+    if (keep_first) first_of[i] = static_cast<std::uint32_t>(j);
+    for_each_member(t[i], j, [&](std::size_t k) { ++count[by_height[k] + 1]; });
+  }
+  for (std::size_t k = 0; k < m; ++k) out.start[k + 1] = out.start[k] + count[k + 1];
+  out.index.resize(out.start[m]);
+  std::vector<std::size_t> next(out.start.begin(), out.start.end() - 1);
+  for (std::size_t i = 0; i < n; ++i)
+    for_each_member(t[i], keep_first ? first_of[i] : run_start(t[i]),
+                    [&](std::size_t k) { out.index[next[by_height[k]]++] = i; });
+  return out;
+}
+
+}  // namespace detail
 
 SectionsResult fit_sections_least_squares(const Eigen::Matrix3Xd& points, const Axis& axis,
                                           const std::vector<double>& heights,
@@ -19,22 +92,27 @@ SectionsResult fit_sections_least_squares(const Eigen::Matrix3Xd& points, const 
     throw FitError("section half thickness must be positive, got " +
                    detail::format_number(options.half_thickness, 6) + " mm");
   const Eigen::Vector3d w = detail::checked_direction(axis.direction, "section axis direction");
-  const Eigen::RowVectorXd t = w.transpose() * (points.colwise() - axis.point);
+  Eigen::RowVectorXd t = w.transpose() * (points.colwise() - axis.point);
   FitOptions circle_options = options.fit;
   circle_options.fixed_direction = w;
   if (!circle_options.axis_hint) circle_options.axis_hint = w;  // circle normals follow the axis
 
   SectionsResult result;
   result.summary.method = FitMethod::least_squares;
-  std::vector<Eigen::Index> members;
-  for (const double h : heights) {
-    members.clear();
-    for (Eigen::Index i = 0; i < t.size(); ++i)
-      if (std::abs(t(i) - h) <= options.half_thickness) members.push_back(i);
+  // Every section's points, in increasing order, from one search per point
+  // (detail::section_members): the same points, in the same order, as testing every point
+  // against every section.
+  const detail::SectionMembers all_members = detail::section_members(
+      t.data(), static_cast<std::size_t>(t.size()), heights, options.half_thickness);
+  t = Eigen::RowVectorXd();  // its last reader
+  for (std::size_t s = 0; s < heights.size(); ++s) {
+    const double h = heights[s];
+    const std::size_t* member = all_members.index.data() + all_members.start[s];
+    const std::size_t count = all_members.start[s + 1] - all_members.start[s];
     // Named only in a warning: formatting the height costs more than selecting the points.
     const auto where = [h] { return "section at height " + detail::format_number(h, 4) + " mm"; };
-    if (members.size() < std::max<std::size_t>(options.min_points, 3)) {
-      result.summary.warnings.push_back(where() + " skipped: " + std::to_string(members.size()) +
+    if (count < std::max<std::size_t>(options.min_points, 3)) {
+      result.summary.warnings.push_back(where() + " skipped: " + std::to_string(count) +
                                         " points within +/-" +
                                         detail::format_number(options.half_thickness, 4) +
                                         " mm, at least " +
@@ -42,9 +120,9 @@ SectionsResult fit_sections_least_squares(const Eigen::Matrix3Xd& points, const 
                                         " needed");
       continue;
     }
-    Eigen::Matrix3Xd selected(3, static_cast<Eigen::Index>(members.size()));
-    for (std::size_t k = 0; k < members.size(); ++k)
-      selected.col(static_cast<Eigen::Index>(k)) = points.col(members[k]);
+    Eigen::Matrix3Xd selected(3, static_cast<Eigen::Index>(count));
+    for (std::size_t k = 0; k < count; ++k)
+      selected.col(static_cast<Eigen::Index>(k)) = points.col(static_cast<Eigen::Index>(member[k]));
     try {
       SectionCircle section;
       section.height = h;
@@ -57,7 +135,7 @@ SectionsResult fit_sections_least_squares(const Eigen::Matrix3Xd& points, const 
         result.summary.status = FitStatus::iteration_limit;
       result.summary.iterations = std::max(result.summary.iterations,
                                            section.circle.summary.iterations);
-      result.summary.point_count += members.size();
+      result.summary.point_count += count;
       for (const std::string& warning : section.circle.summary.warnings)
         result.summary.warnings.push_back(where() + ": " + warning);
       result.sections.push_back(std::move(section));
@@ -79,17 +157,7 @@ std::vector<double> find_section_levels(const Eigen::Matrix3Xd& points, const Ax
   for (Eigen::Index i = 0; i < points.cols(); ++i)
     t[static_cast<std::size_t>(i)] = w.dot(points.col(i) - axis.point);
   std::sort(t.begin(), t.end());
-  std::vector<double> levels;
-  std::size_t first = 0;
-  for (std::size_t i = 1; i <= t.size(); ++i) {
-    if (i == t.size() || t[i] - t[i - 1] > gap) {
-      double sum = 0.0;
-      for (std::size_t k = first; k < i; ++k) sum += t[k] - t[first];
-      levels.push_back(t[first] + sum / static_cast<double>(i - first));
-      first = i;
-    }
-  }
-  return levels;
+  return detail::levels_of_sorted_heights(t.size(), [&](std::size_t k) { return t[k]; }, gap);
 }
 
 }  // namespace cylzone
