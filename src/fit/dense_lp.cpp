@@ -5,6 +5,7 @@
 #include <Eigen/LU>
 #include <algorithm>
 #include <cmath>
+#include <cstring>
 #include <limits>
 
 namespace cylzone::detail::zone_lp {
@@ -18,7 +19,75 @@ long rank_of(DenseLp::Id id, int columns) {
   return DenseLp::is_row(id) ? 2L * columns + id : -1 - id;
 }
 
+/// Row i's score in price_rows: true (and q, best set) if it is taken.
+inline bool take_row(const RowView& rows, std::size_t i, double v, double tolerance, bool first,
+                     double& best, long& q) {
+  if (!(v > tolerance) || rows.in_basis[i]) return false;
+  const double score = v * rows.inv_norm[i];
+  if (!first && !(score > best)) return false;
+  best = score;
+  q = static_cast<long>(i);
+  return true;
+}
+
+/// price_rows for N columns (N a compile-time constant: the column loop unrolled).
+template <int N>
+bool price_rows_fixed(const RowView& rows, const double* x, double tolerance, bool first,
+                      double& best, long& q) {
+  const double* const* a = rows.columns;
+  const double* b = rows.rhs;
+  const std::size_t m = rows.m;
+  bool found = false;
+  std::size_t i = 0;
+#if defined(__GNUC__)
+  // Two rows per operation: the lanes hold rows i and i + 1, each the scalar loop's roundings.
+  typedef double Pair __attribute__((vector_size(16)));
+  Pair xs[N];
+  for (int k = 0; k < N; ++k) xs[k] = Pair{x[k], x[k]};
+  for (; i + 2 <= m; i += 2) {
+    Pair v;
+    std::memcpy(&v, b + i, sizeof v);
+    v = -v;
+    for (int k = 0; k < N; ++k) {
+      Pair ak;
+      std::memcpy(&ak, a[k] + i, sizeof ak);
+      v += ak * xs[k];
+    }
+    if (!(v[0] > tolerance) && !(v[1] > tolerance)) continue;
+    for (std::size_t l = 0; l < 2; ++l)
+      if (take_row(rows, i + l, v[l], tolerance, first, best, q)) {
+        if (first) return true;
+        found = true;
+      }
+  }
+#endif
+  for (; i < m; ++i) {
+    double v = -b[i];
+    for (int k = 0; k < N; ++k) v += a[k][i] * x[k];
+    if (take_row(rows, i, v, tolerance, first, best, q)) {
+      if (first) return true;
+      found = true;
+    }
+  }
+  return found;
+}
+
 }  // namespace
+
+bool price_rows(const RowView& rows, const double* x, double tolerance, bool first, double& best,
+                long& q) {
+  switch (rows.n) {
+    case 1: return price_rows_fixed<1>(rows, x, tolerance, first, best, q);
+    case 2: return price_rows_fixed<2>(rows, x, tolerance, first, best, q);
+    case 3: return price_rows_fixed<3>(rows, x, tolerance, first, best, q);
+    case 4: return price_rows_fixed<4>(rows, x, tolerance, first, best, q);
+    case 5: return price_rows_fixed<5>(rows, x, tolerance, first, best, q);
+    case 6: return price_rows_fixed<6>(rows, x, tolerance, first, best, q);
+    case 7: return price_rows_fixed<7>(rows, x, tolerance, first, best, q);
+    case 8: return price_rows_fixed<8>(rows, x, tolerance, first, best, q);
+    default: return false;
+  }
+}
 
 void DenseLp::reset(const Vector& cost, const Vector& lower, const Vector& upper) {
   cost_ = cost;
@@ -106,7 +175,9 @@ bool DenseLp::refresh() {
   const double largest = std::abs(lu.matrixLU()(0, 0));
   const double smallest = std::abs(lu.matrixLU()(n - 1, n - 1));
   if (!(largest > 0.0) || !(smallest > 1e-12 * largest)) return false;
-  inverse_ = lu.inverse();
+  inverse_.resize(n, n);
+  inverse_from_full_piv_lu(lu.matrixLU(), lu.permutationP().indices(),
+                           lu.permutationQ().indices(), inverse_);
   x_.noalias() = inverse_ * rhs;
   lambda_.noalias() = -(inverse_.transpose() * cost_);
   factored_ = x_.allFinite() && lambda_.allFinite();
@@ -165,23 +236,11 @@ bool DenseLp::entering(bool bland, Id& q) {
   // Under Bland's rule the bounds (which come first in its order) are chosen before any row,
   // and among rows the first violated one.
   if (bland && found) return true;
-  // The rows' violations a_i.x - b_i, column by column (contiguous, vectorisable).
-  const std::size_t m = rows();
-  violation_.resize(m);
-  double* v = violation_.data();
-  const double* b = rhs_.data();
-  for (std::size_t i = 0; i < m; ++i) v[i] = -b[i];
-  for (int k = 0; k < n; ++k) {
-    const double xk = x_(k);
-    const double* column = a_[k].data();
-    for (std::size_t i = 0; i < m; ++i) v[i] += column[i] * xk;
-  }
-  for (std::size_t i = 0; i < m; ++i) {
-    if (!(v[i] > tolerance) || in_basis_[i]) continue;
-    consider(static_cast<Id>(i), v[i] * inv_norm_[i]);
-    if (bland) return true;
-  }
-  return found;
+  const double* columns[max_columns];
+  for (int k = 0; k < n; ++k) columns[k] = a_[k].data();
+  const RowView view{columns, n, rhs_.data(), inv_norm_.data(), in_basis_.data(), rows()};
+  if (bland) return price_rows(view, x_.data(), tolerance, true, best, q);
+  return price_rows(view, x_.data(), tolerance, false, best, q) || found;
 }
 
 DenseLp::Status DenseLp::solve() {

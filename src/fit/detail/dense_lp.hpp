@@ -35,10 +35,93 @@
 // feasible give Status::failed, and the caller falls back to Clp.
 
 #include <Eigen/Core>
+#include <algorithm>
 #include <cstddef>
 #include <vector>
 
 namespace cylzone::detail::zone_lp {
+
+/// The inverse of an invertible n x n matrix (n <= 8) from its full-pivoting LU P A Q = L U:
+/// `lu` is FullPivLU::matrixLU() (L unit lower and U upper in one matrix), `p` and `q` the
+/// permutations' indices. The same operations in the same order as Eigen 3.4's
+/// FullPivLU::inverse() (its solve of the identity: c = P I, the unit lower then the upper
+/// triangular solve in place, rows put back by Q), which runs them through the blocked
+/// triangular solver (TriangularSolverMatrix.h: panels of max(mr, nr) = 4 columns, each solved
+/// by substitution, the rows after it updated by the GEBP kernel with one sum per element,
+/// accumulated from zero in column order, then subtracted; U's diagonal applied as a multiple
+/// of its reciprocal), so the same bits, without the blocked solver's packing and set-up, which
+/// cost most of a pivot of the dense solver. Requires every pivot non-zero (rank n).
+/// tests/test_dense_lp.cpp compares it bit for bit with FullPivLU::inverse().
+template <typename LuMatrix, typename PIndices, typename QIndices, typename Out>
+void inverse_from_full_piv_lu(const LuMatrix& lu, const PIndices& p, const QIndices& q, Out& out) {
+  constexpr int panel = 4;  // Eigen 3.4's SmallPanelWidth for double: max(mr, nr) = 4
+  const int n = static_cast<int>(lu.rows());
+  double c[8][8];  // c[j][i]: column j, row i (column-major, as Eigen's)
+  for (int j = 0; j < n; ++j)
+    for (int i = 0; i < n; ++i) c[j][i] = 0.0;
+  for (int i = 0; i < n; ++i) c[i][p(i)] = 1.0;  // c = P I: row p(i) of c is row i of I
+  // L x = c, L unit lower: panels from the top.
+  for (int k1 = 0; k1 < n; k1 += panel) {
+    const int width = std::min(n - k1, panel);
+    for (int k = 0; k < width; ++k) {
+      const int i = k1 + k;
+      for (int j = 0; j < n; ++j) {
+        const double b = c[j][i];
+        for (int r = i + 1; r < k1 + width; ++r) c[j][r] -= b * lu(r, i);
+      }
+    }
+    for (int j = 0; j < n; ++j)
+      for (int r = k1 + width; r < n; ++r) {
+        double sum = 0.0;
+        for (int k = k1; k < k1 + width; ++k) sum += lu(r, k) * c[j][k];
+        c[j][r] -= sum;
+      }
+  }
+  // U x = c: panels from the bottom.
+  for (int k1 = 0; k1 < n; k1 += panel) {
+    const int width = std::min(n - k1, panel);
+    for (int k = 0; k < width; ++k) {
+      const int i = n - k1 - k - 1;
+      const int first = i - (width - k - 1);
+      const double a = 1.0 / lu(i, i);
+      for (int j = 0; j < n; ++j) {
+        c[j][i] *= a;
+        const double b = c[j][i];
+        for (int r = first; r < i; ++r) c[j][r] -= b * lu(r, i);
+      }
+    }
+    const int start = n - k1 - width;  // the panel's first column; rows 0 .. start - 1 follow
+    for (int j = 0; j < n; ++j)
+      for (int r = 0; r < start; ++r) {
+        double sum = 0.0;
+        for (int k = start; k < start + width; ++k) sum += lu(r, k) * c[j][k];
+        c[j][r] -= sum;
+      }
+  }
+  for (int i = 0; i < n; ++i)
+    for (int j = 0; j < n; ++j) out(q(i), j) = c[j][i];
+}
+
+/// The rows of a programme as the dense solver stores them: column k's coefficients at
+/// columns[k][i], b_i at rhs[i], 1 / |a_i| at inv_norm[i], in_basis[i] non-zero for a basic row.
+struct RowView {
+  const double* const* columns = nullptr;
+  int n = 0;
+  const double* rhs = nullptr;
+  const double* inv_norm = nullptr;
+  const unsigned char* in_basis = nullptr;
+  std::size_t m = 0;
+};
+
+/// The dense solver's row pricing: among the rows not in the basis whose violation
+/// v_i = a_i.x - b_i (computed as -b_i + a_i0 x_0 + a_i1 x_1 + ..., in column order) exceeds
+/// `tolerance`, the one of largest v_i / |a_i| above `best` (the first of equal ones), which
+/// sets `best` and `q`; with `first`, the first violated row whatever its score. True if a row
+/// was taken. Two rows per operation where the compiler offers vectors of two doubles (g++,
+/// clang): each row's violation is the same sequence of roundings as the scalar loop's, so
+/// the same bits and the same choice (tests/test_dense_lp.cpp compares it with that loop).
+bool price_rows(const RowView& rows, const double* x, double tolerance, bool first, double& best,
+                long& q);
 
 class DenseLp {
  public:
@@ -117,7 +200,6 @@ class DenseLp {
   Vector cost_, lower_, upper_, x_, lambda_;
   std::vector<double> a_[max_columns];  // the rows' coefficients, column by column
   std::vector<double> rhs_;        // b_i
-  std::vector<double> violation_;  // a_i.x - b_i, scratch of entering()
   std::vector<double> inv_norm_;   // 1 / |a_i|
   std::vector<unsigned char> in_basis_;  // per row
   Id basis_[max_columns] = {};
