@@ -95,7 +95,7 @@ void DenseLp::reset(const Vector& cost, const Vector& lower, const Vector& upper
   upper_ = upper;
   x_.setZero(cost.size());
   lambda_.setZero(cost.size());
-  for (std::vector<double>& column : a_) column.clear();
+  for (Column& column : a_) column.clear();
   rhs_.clear();
   inv_norm_.clear();
   in_basis_.clear();
@@ -123,19 +123,6 @@ DenseLp::Id DenseLp::append_rows(std::size_t count) {
   inv_norm_.resize(size);
   in_basis_.resize(size, 0);
   return static_cast<Id>(first);
-}
-
-void DenseLp::set_row(Id i, const double* a, double b) {
-  const auto r = static_cast<std::size_t>(i);
-  const int n = columns();
-  double norm2 = 0.0;
-  for (int k = 0; k < n; ++k) {
-    a_[k][r] = a[k];
-    norm2 += a[k] * a[k];
-  }
-  rhs_[r] = b;
-  inv_norm_[r] = norm2 > 0.0 ? 1.0 / std::sqrt(norm2) : 0.0;
-  if (in_basis_[r]) factored_ = false;  // a basis row rewritten: factorise again
 }
 
 void DenseLp::normal(Id id, double* a, double& b) const {

@@ -36,7 +36,11 @@
 
 #include <Eigen/Core>
 #include <algorithm>
+#include <cmath>
 #include <cstddef>
+#include <memory>
+#include <new>
+#include <utility>
 #include <vector>
 
 namespace cylzone::detail::zone_lp {
@@ -101,6 +105,28 @@ void inverse_from_full_piv_lu(const LuMatrix& lu, const PIndices& p, const QIndi
   for (int i = 0; i < n; ++i)
     for (int j = 0; j < n; ++j) out(q(i), j) = c[j][i];
 }
+
+/// An allocator whose value-less construct leaves a double as it is: the row storage grows by
+/// resize() without the zero fill that set_row would overwrite at once (a trial's programmes
+/// append thousands of rows).
+template <typename T>
+struct UnfilledAllocator : std::allocator<T> {
+  template <typename U>
+  struct rebind {
+    using other = UnfilledAllocator<U>;
+  };
+  UnfilledAllocator() = default;
+  template <typename U>
+  UnfilledAllocator(const UnfilledAllocator<U>&) noexcept {}
+  template <typename U>
+  void construct(U* p) noexcept {
+    ::new (static_cast<void*>(p)) U;
+  }
+  template <typename U, typename... Args>
+  void construct(U* p, Args&&... args) {
+    ::new (static_cast<void*>(p)) U(std::forward<Args>(args)...);
+  }
+};
 
 /// The rows of a programme as the dense solver stores them: column k's coefficients at
 /// columns[k][i], b_i at rhs[i], 1 / |a_i| at inv_norm[i], in_basis[i] non-zero for a basic row.
@@ -169,7 +195,18 @@ class DenseLp {
   Id append_rows(std::size_t count);
   /// Sets row `i` (appended, or rewritten) to a.x <= b: the same row, bit for bit, as
   /// add_row(a, b).
-  void set_row(Id i, const double* a, double b);
+  void set_row(Id i, const double* a, double b) {
+    const auto r = static_cast<std::size_t>(i);
+    const int n = columns();
+    double norm2 = 0.0;
+    for (int k = 0; k < n; ++k) {
+      a_[k][r] = a[k];
+      norm2 += a[k] * a[k];
+    }
+    rhs_[r] = b;
+    inv_norm_[r] = norm2 > 0.0 ? 1.0 / std::sqrt(norm2) : 0.0;
+    if (in_basis_[r]) factored_ = false;  // a basis row rewritten: factorise again
+  }
   int columns() const noexcept { return static_cast<int>(cost_.size()); }
   std::size_t rows() const noexcept { return rhs_.size(); }
 
@@ -198,9 +235,11 @@ class DenseLp {
 
   Options options_;
   Vector cost_, lower_, upper_, x_, lambda_;
-  std::vector<double> a_[max_columns];  // the rows' coefficients, column by column
-  std::vector<double> rhs_;        // b_i
-  std::vector<double> inv_norm_;   // 1 / |a_i|
+  // Appended rows are unset until set_row (UnfilledAllocator): solve() reads only set rows.
+  using Column = std::vector<double, UnfilledAllocator<double>>;
+  Column a_[max_columns];  // the rows' coefficients, column by column
+  Column rhs_;             // b_i
+  Column inv_norm_;        // 1 / |a_i|
   std::vector<unsigned char> in_basis_;  // per row
   Id basis_[max_columns] = {};
   Matrix inverse_;  // B^-1 of the current basis
