@@ -18,6 +18,7 @@
 #include <cmath>
 #include <cstring>
 #include <iomanip>
+#include <limits>
 #include <random>
 #include <sstream>
 #include <string>
@@ -35,6 +36,7 @@ using namespace cylzone::testing;
 using detail::ZoneObjective;
 using detail::ZoneOptions;
 using detail::zone_lp::DenseLp;
+using detail::zone_lp::full_piv_lu_in_place;
 using detail::zone_lp::inverse_from_full_piv_lu;
 using detail::zone_lp::Side;
 using detail::zone_lp::ZoneProgramme;
@@ -301,10 +303,10 @@ TEST_CASE("dense LP: rows appended in a batch and a kept factorisation give the 
   }
 }
 
-TEST_CASE("the basis inverse from the full-pivoting LU has the bits of FullPivLU::inverse()",
+TEST_CASE("the basis factor and inverse have the bits of FullPivLU and its inverse()",
           "[dense-lp]") {
-  // The computation it replaces: Eigen 3.4's FullPivLU<Matrix>::inverse() (its blocked solve of
-  // the identity), on the same factorisation. Bases of the dense solver's kind: rows of random
+  // The computations they replace: Eigen 3.4's FullPivLU<Matrix> (computeInPlace) and its
+  // inverse() (its blocked solve of the identity), on the same factorisation. Bases of the dense solver's kind: rows of random
   // normals and scales, bound rows (a unit vector, +1 or -1), rows with exact zeros, nearly
   // dependent rows, for every size 1 to max_columns. Every entry must match bit for bit
   // (memcmp: signed zeros too).
@@ -333,10 +335,30 @@ TEST_CASE("the basis inverse from the full-pivoting LU has the bits of FullPivLU
       }
     }
     const Eigen::FullPivLU<Matrix> lu(basis);
+    // The factorisation itself: the same factor and permutations, in the top left block of a
+    // fixed 8 x 8 matrix as refresh() holds the basis.
+    Eigen::Matrix<double, DenseLp::max_columns, DenseLp::max_columns> factor;
+    factor.setConstant(std::numeric_limits<double>::quiet_NaN());
+    factor.topLeftCorner(n, n) = basis;
+    int p[DenseLp::max_columns], q[DenseLp::max_columns];
+    const bool regular = full_piv_lu_in_place(factor, n, p, q);
+    CHECK(regular == (lu.nonzeroPivots() == n));
+    if (regular) {
+      bool same_factor = true;
+      for (int i = 0; i < n; ++i) {
+        same_factor = same_factor && p[i] == lu.permutationP().indices()(i) &&
+                      q[i] == lu.permutationQ().indices()(i);
+        for (int k = 0; k < n; ++k)
+          same_factor = same_factor &&
+                        std::memcmp(&factor(i, k), &lu.matrixLU()(i, k), sizeof(double)) == 0;
+      }
+      INFO("trial " << trial << ", n = " << n);
+      CHECK(same_factor);
+    }
     if (lu.rank() < n) continue;
     const Matrix expected = lu.inverse();
     Matrix inverse(n, n);
-    inverse_from_full_piv_lu(lu.matrixLU(), lu.permutationP().indices(),
+    inverse_from_full_piv_lu(lu.matrixLU(), n, lu.permutationP().indices(),
                              lu.permutationQ().indices(), inverse);
     bool same = true;
     for (int i = 0; i < n; ++i)

@@ -2,7 +2,6 @@
 // states the method and its sources).
 #include "fit/detail/dense_lp.hpp"
 
-#include <Eigen/LU>
 #include <algorithm>
 #include <cmath>
 #include <cstring>
@@ -148,7 +147,8 @@ void DenseLp::normal(Id id, double* a, double& b) const {
 bool DenseLp::refresh() {
   factored_ = false;
   const int n = columns();
-  Matrix basis(n, n);
+  // Fixed storage (the compile-time stride of 8), the top left n x n block used.
+  Eigen::Matrix<double, max_columns, max_columns> basis;
   Vector rhs(n);
   double a[max_columns];
   for (int j = 0; j < n; ++j) {
@@ -156,15 +156,16 @@ bool DenseLp::refresh() {
     if (!std::isfinite(rhs(j))) return false;  // an infinite bound cannot be active
     for (int k = 0; k < n; ++k) basis(j, k) = a[k];
   }
-  const Eigen::FullPivLU<Matrix> lu(basis);
+  int p[max_columns], q[max_columns];
+  if (!full_piv_lu_in_place(basis, n, p, q)) return false;
   // Full pivoting puts the pivots on the diagonal in decreasing magnitude: the ratio of the last
   // to the first bounds how nearly dependent the active normals are.
-  const double largest = std::abs(lu.matrixLU()(0, 0));
-  const double smallest = std::abs(lu.matrixLU()(n - 1, n - 1));
+  const double largest = std::abs(basis(0, 0));
+  const double smallest = std::abs(basis(n - 1, n - 1));
   if (!(largest > 0.0) || !(smallest > 1e-12 * largest)) return false;
   inverse_.resize(n, n);
-  inverse_from_full_piv_lu(lu.matrixLU(), lu.permutationP().indices(),
-                           lu.permutationQ().indices(), inverse_);
+  inverse_from_full_piv_lu(
+      basis, n, [&](int i) { return p[i]; }, [&](int i) { return q[i]; }, inverse_);
   x_.noalias() = inverse_ * rhs;
   lambda_.noalias() = -(inverse_.transpose() * cost_);
   factored_ = x_.allFinite() && lambda_.allFinite();

@@ -46,7 +46,7 @@
 namespace cylzone::detail::zone_lp {
 
 /// The inverse of an invertible n x n matrix (n <= 8) from its full-pivoting LU P A Q = L U:
-/// `lu` is FullPivLU::matrixLU() (L unit lower and U upper in one matrix), `p` and `q` the
+/// `lu` (its top left n x n block) is FullPivLU::matrixLU() (L unit lower and U upper in one matrix), `p` and `q` the
 /// permutations' indices. The same operations in the same order as Eigen 3.4's
 /// FullPivLU::inverse() (its solve of the identity: c = P I, the unit lower then the upper
 /// triangular solve in place, rows put back by Q), which runs them through the blocked
@@ -57,9 +57,9 @@ namespace cylzone::detail::zone_lp {
 /// cost most of a pivot of the dense solver. Requires every pivot non-zero (rank n).
 /// tests/test_dense_lp.cpp compares it bit for bit with FullPivLU::inverse().
 template <typename LuMatrix, typename PIndices, typename QIndices, typename Out>
-void inverse_from_full_piv_lu(const LuMatrix& lu, const PIndices& p, const QIndices& q, Out& out) {
+void inverse_from_full_piv_lu(const LuMatrix& lu, int n, const PIndices& p, const QIndices& q,
+                              Out& out) {
   constexpr int panel = 4;  // Eigen 3.4's SmallPanelWidth for double: max(mr, nr) = 4
-  const int n = static_cast<int>(lu.rows());
   double c[8][8];  // c[j][i]: column j, row i (column-major, as Eigen's)
   for (int j = 0; j < n; ++j)
     for (int i = 0; i < n; ++i) c[j][i] = 0.0;
@@ -104,6 +104,54 @@ void inverse_from_full_piv_lu(const LuMatrix& lu, const PIndices& p, const QIndi
   }
   for (int i = 0; i < n; ++i)
     for (int j = 0; j < n; ++j) out(q(i), j) = c[j][i];
+}
+
+/// The full-pivoting LU P A Q = L U of an n x n matrix (n <= 8; the top left block of `a`) in
+/// place: on return `a` holds
+/// L (unit lower, below the diagonal) and U, and row i of P A Q is row p[i] of A, column j is
+/// column q[j]. The same operations in the same order as Eigen 3.4's
+/// FullPivLU::computeInPlace() (Golub & Van Loan, Matrix Computations, 4th ed. 2013, sec.
+/// 3.4.9, from memory for the section): at step k the pivot is the entry of largest magnitude
+/// in the remaining corner, the first in column-major order among equal ones; whole rows and
+/// columns are swapped, the column below the pivot divided by it, and the corner updated by
+/// a_ij -= a_ik a_kj; the permutations are the transpositions composed as Eigen composes them.
+/// So the same factor and pivots, bit for bit, without the set-up of Eigen's general class
+/// (its l1 norm, permutation objects, threshold). False (a unfinished) when a pivot is zero.
+/// tests/test_dense_lp.cpp compares it with FullPivLU bit for bit.
+template <typename Square>
+bool full_piv_lu_in_place(Square& a, int n, int* p, int* q) {
+  int row_swap[8], col_swap[8];
+  for (int k = 0; k < n; ++k) {
+    // The pivot: visited column by column, a later entry taken only when strictly larger.
+    int pr = k, pc = k;
+    double biggest = std::abs(a(k, k));
+    for (int j = k; j < n; ++j)
+      for (int i = (j == k ? k + 1 : k); i < n; ++i) {
+        const double v = std::abs(a(i, j));
+        if (v > biggest) {
+          biggest = v;
+          pr = i;
+          pc = j;
+        }
+      }
+    if (biggest == 0.0) return false;
+    row_swap[k] = pr;
+    col_swap[k] = pc;
+    if (pr != k)
+      for (int j = 0; j < n; ++j) std::swap(a(k, j), a(pr, j));
+    if (pc != k)
+      for (int i = 0; i < n; ++i) std::swap(a(i, k), a(i, pc));
+    const double pivot = a(k, k);
+    for (int i = k + 1; i < n; ++i) a(i, k) /= pivot;
+    for (int j = k + 1; j < n; ++j) {
+      const double akj = a(k, j);
+      for (int i = k + 1; i < n; ++i) a(i, j) -= akj * a(i, k);
+    }
+  }
+  for (int i = 0; i < n; ++i) p[i] = q[i] = i;
+  for (int k = n - 1; k >= 0; --k) std::swap(p[k], p[row_swap[k]]);
+  for (int k = 0; k < n; ++k) std::swap(q[k], q[col_swap[k]]);
+  return true;
 }
 
 /// An allocator whose value-less construct leaves a double as it is: the row storage grows by
