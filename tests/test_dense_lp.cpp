@@ -36,8 +36,6 @@ using namespace cylzone::testing;
 using detail::ZoneObjective;
 using detail::ZoneOptions;
 using detail::zone_lp::DenseLp;
-using detail::zone_lp::full_piv_lu_in_place;
-using detail::zone_lp::inverse_from_full_piv_lu;
 using detail::zone_lp::Side;
 using detail::zone_lp::ZoneProgramme;
 
@@ -301,74 +299,6 @@ TEST_CASE("dense LP: rows appended in a batch and a kept factorisation give the 
     }
     CHECK(batch.x().cwiseAbs().maxCoeff() <= 1.0 + 1e-9);
   }
-}
-
-TEST_CASE("the basis factor and inverse have the bits of FullPivLU and its inverse()",
-          "[dense-lp]") {
-  // The computations they replace: Eigen 3.4's FullPivLU<Matrix> (computeInPlace) and its
-  // inverse() (its blocked solve of the identity), on the same factorisation. Bases of the dense solver's kind: rows of random
-  // normals and scales, bound rows (a unit vector, +1 or -1), rows with exact zeros, nearly
-  // dependent rows, for every size 1 to max_columns. Every entry must match bit for bit
-  // (memcmp: signed zeros too).
-  using Matrix = DenseLp::Matrix;
-  std::mt19937_64 random(20261204);
-  std::normal_distribution<double> normal(0.0, 1.0);
-  std::uniform_int_distribution<int> kind(0, 5);
-  int compared = 0;
-  for (int trial = 0; trial < 4000; ++trial) {
-    const int n = 1 + trial % DenseLp::max_columns;
-    Matrix basis(n, n);
-    for (int j = 0; j < n; ++j) {
-      const int how = kind(random);
-      for (int k = 0; k < n; ++k) basis(j, k) = normal(random);
-      if (how == 0) {  // a bound: +-e_k
-        basis.row(j).setZero();
-        basis(j, static_cast<int>(random() % static_cast<unsigned>(n))) =
-            random() % 2 ? 1.0 : -1.0;
-      } else if (how == 1) {  // exact zeros
-        for (int k = 0; k < n; ++k)
-          if (random() % 2) basis(j, k) = 0.0;
-      } else if (how == 2) {  // another scale
-        basis.row(j) *= std::ldexp(1.0, static_cast<int>(random() % 40) - 20);
-      } else if (how == 3 && j > 0) {  // nearly a copy of the row before
-        basis.row(j) = basis.row(j - 1) + 1e-6 * basis.row(j);
-      }
-    }
-    const Eigen::FullPivLU<Matrix> lu(basis);
-    // The factorisation itself: the same factor and permutations, in the top left block of a
-    // fixed 8 x 8 matrix as refresh() holds the basis.
-    Eigen::Matrix<double, DenseLp::max_columns, DenseLp::max_columns> factor;
-    factor.setConstant(std::numeric_limits<double>::quiet_NaN());
-    factor.topLeftCorner(n, n) = basis;
-    int p[DenseLp::max_columns], q[DenseLp::max_columns];
-    const bool regular = full_piv_lu_in_place(factor, n, p, q);
-    CHECK(regular == (lu.nonzeroPivots() == n));
-    if (regular) {
-      bool same_factor = true;
-      for (int i = 0; i < n; ++i) {
-        same_factor = same_factor && p[i] == lu.permutationP().indices()(i) &&
-                      q[i] == lu.permutationQ().indices()(i);
-        for (int k = 0; k < n; ++k)
-          same_factor = same_factor &&
-                        std::memcmp(&factor(i, k), &lu.matrixLU()(i, k), sizeof(double)) == 0;
-      }
-      INFO("trial " << trial << ", n = " << n);
-      CHECK(same_factor);
-    }
-    if (lu.rank() < n) continue;
-    const Matrix expected = lu.inverse();
-    Matrix inverse(n, n);
-    inverse_from_full_piv_lu(lu.matrixLU(), n, lu.permutationP().indices(),
-                             lu.permutationQ().indices(), inverse);
-    bool same = true;
-    for (int i = 0; i < n; ++i)
-      for (int k = 0; k < n; ++k)
-        same = same && std::memcmp(&inverse(i, k), &expected(i, k), sizeof(double)) == 0;
-    INFO("trial " << trial << ", n = " << n);
-    CHECK(same);
-    ++compared;
-  }
-  CHECK(compared > 3500);
 }
 
 TEST_CASE("the dense solver's row pricing chooses as the plain loop over the rows",
