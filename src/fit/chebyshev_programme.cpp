@@ -340,28 +340,45 @@ LinearStep ZoneProgramme::solve_clp(const Eigen::VectorXd& d, const Eigen::Matri
   return result;
 }
 
-void ZoneProgramme::set_dense_rows(DenseLp::Id first, const Constraint* c, std::size_t count,
-                                   const Eigen::VectorXd& d, const Eigen::MatrixXd& g, double u0,
-                                   double l0, double delta) {
+template <int P, int N>
+void ZoneProgramme::set_dense_rows_of(DenseLp::Id first, const Constraint* c, std::size_t count,
+                                      const Eigen::VectorXd& d, const Eigen::MatrixXd& g,
+                                      double u0, double l0, double delta) {
   // One loop over the rows with the gradient columns' addresses held: the same coefficients and
   // right-hand sides, computed the same way, as one call per row.
+  const int p = P > 0 ? P : p_;
   const double* gk[DenseLp::max_columns] = {};
-  for (int k = 0; k < p_; ++k) gk[k] = g.data() + static_cast<std::ptrdiff_t>(k) * g.rows();
+  for (int k = 0; k < p; ++k) gk[k] = g.data() + static_cast<std::ptrdiff_t>(k) * g.rows();
   double a[DenseLp::max_columns] = {};
   for (std::size_t r = 0; r < count; ++r) {
     const Eigen::Index i = c[r].point;
     if (c[r].side == Side::upper) {  // g_i.y - R' <= -(d_i - U0)/Delta
-      for (int k = 0; k < p_; ++k) a[k] = gk[k][i];
+      for (int k = 0; k < p; ++k) a[k] = gk[k][i];
       a[upper_col_] = -1.0;
       if (lower_col_ >= 0) a[lower_col_] = 0.0;
-      dense_.set_row(first + static_cast<DenseLp::Id>(r), a, -(d(i) - u0) / delta);
+      dense_.set_row_of<N>(first + static_cast<DenseLp::Id>(r), a, -(d(i) - u0) / delta);
     } else {  // g_i.y - r' >= -(d_i - L0)/Delta, i.e. -g_i.y + r' <= (d_i - L0)/Delta
-      for (int k = 0; k < p_; ++k) a[k] = -gk[k][i];
+      for (int k = 0; k < p; ++k) a[k] = -gk[k][i];
       a[lower_col_] = 1.0;
       if (upper_col_ >= 0) a[upper_col_] = 0.0;
-      dense_.set_row(first + static_cast<DenseLp::Id>(r), a, (d(i) - l0) / delta);
+      dense_.set_row_of<N>(first + static_cast<DenseLp::Id>(r), a, (d(i) - l0) / delta);
     }
   }
+}
+
+void ZoneProgramme::set_dense_rows(DenseLp::Id first, const Constraint* c, std::size_t count,
+                                   const Eigen::VectorXd& d, const Eigen::MatrixXd& g, double u0,
+                                   double l0, double delta) {
+  // The shapes of the fits' programmes: an axis (4 step columns) or a circle's or plane's
+  // centre (2 or 3), with one or two zone bounds; any other shape by the general loop.
+  const int sides = columns_ - p_;
+  if (p_ == 4 && sides == 1) return set_dense_rows_of<4, 5>(first, c, count, d, g, u0, l0, delta);
+  if (p_ == 4 && sides == 2) return set_dense_rows_of<4, 6>(first, c, count, d, g, u0, l0, delta);
+  if (p_ == 3 && sides == 1) return set_dense_rows_of<3, 4>(first, c, count, d, g, u0, l0, delta);
+  if (p_ == 3 && sides == 2) return set_dense_rows_of<3, 5>(first, c, count, d, g, u0, l0, delta);
+  if (p_ == 2 && sides == 1) return set_dense_rows_of<2, 3>(first, c, count, d, g, u0, l0, delta);
+  if (p_ == 2 && sides == 2) return set_dense_rows_of<2, 4>(first, c, count, d, g, u0, l0, delta);
+  set_dense_rows_of<0, 0>(first, c, count, d, g, u0, l0, delta);
 }
 
 // The programme of solve_clp with the dense dual simplex: the same working set and constraint

@@ -125,6 +125,11 @@ class ZoneProgramme {
   void set_dense_rows(DenseLp::Id first, const Constraint* c, std::size_t count,
                       const Eigen::VectorXd& d, const Eigen::MatrixXd& g, double u0, double l0,
                       double delta);
+  /// set_dense_rows for P step columns and N columns in all (compile-time: loops unrolled).
+  template <int P, int N>
+  void set_dense_rows_of(DenseLp::Id first, const Constraint* c, std::size_t count,
+                         const Eigen::VectorXd& d, const Eigen::MatrixXd& g, double u0, double l0,
+                         double delta);
 
   ZoneObjective objective_;
   ZoneOptions options_;

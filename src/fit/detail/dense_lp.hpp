@@ -136,9 +136,12 @@ class DenseLp {
   Id append_rows(std::size_t count);
   /// Sets row `i` (appended, or rewritten) to a.x <= b: the same row, bit for bit, as
   /// add_row(a, b).
-  void set_row(Id i, const double* a, double b) {
+  void set_row(Id i, const double* a, double b) { set_row_of<0>(i, a, b); }
+  /// set_row for a programme of N = columns() columns: the loops unrolled, the same operations.
+  template <int N>
+  void set_row_of(Id i, const double* a, double b) {
     const auto r = static_cast<std::size_t>(i);
-    const int n = columns();
+    const int n = N > 0 ? N : columns();
     double norm2 = 0.0;
     for (int k = 0; k < n; ++k) {
       a_[k][r] = a[k];
