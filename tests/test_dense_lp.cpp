@@ -13,9 +13,12 @@
 #include <catch2/catch.hpp>
 
 #include <Eigen/Geometry>
+#include <Eigen/LU>
 #include <algorithm>
 #include <cmath>
+#include <cstring>
 #include <iomanip>
+#include <limits>
 #include <random>
 #include <sstream>
 #include <string>
@@ -295,6 +298,73 @@ TEST_CASE("dense LP: rows appended in a batch and a kept factorisation give the 
       CHECK(ax <= rhs[i] + 1e-9);
     }
     CHECK(batch.x().cwiseAbs().maxCoeff() <= 1.0 + 1e-9);
+  }
+}
+
+TEST_CASE("the dense solver's row pricing chooses as the plain loop over the rows",
+          "[dense-lp]") {
+  // The computation price_rows replaces (DenseLp::entering before): the violations
+  // v_i = -b_i + a_i0 x_0 + ... column by column in a scalar loop, then the first row of the
+  // largest v_i / |a_i| above the incoming best among the violated rows outside the basis (or
+  // the first violated one). Random rows of every width, odd and even counts, repeated rows
+  // (equal scores: the first must win), zero rows, basic rows, rows on the tolerance.
+  std::mt19937_64 random(20261205);
+  std::normal_distribution<double> normal(0.0, 1.0);
+  const double tolerance = 1e-10;
+  for (int trial = 0; trial < 3000; ++trial) {
+    const int n = 1 + trial % DenseLp::max_columns;
+    const std::size_t m = static_cast<std::size_t>(trial % 37);
+    std::vector<std::vector<double>> a(static_cast<std::size_t>(n), std::vector<double>(m));
+    std::vector<double> b(m), inv_norm(m), x(static_cast<std::size_t>(n));
+    std::vector<unsigned char> in_basis(m, 0);
+    for (double& xk : x) xk = normal(random);
+    for (std::size_t i = 0; i < m; ++i) {
+      const unsigned how = static_cast<unsigned>(random() % 8);
+      for (int k = 0; k < n; ++k)
+        a[static_cast<std::size_t>(k)][i] =
+            how == 0 && i > 0 ? a[static_cast<std::size_t>(k)][i - 1] : how == 1 ? 0.0 : normal(random);
+      b[i] = how == 0 && i > 0 ? b[i - 1] : normal(random);
+      if (how == 2) {  // exactly on the tolerance: v = tolerance is not a violation
+        double ax = -0.0;
+        for (int k = 0; k < n; ++k) ax += a[static_cast<std::size_t>(k)][i] * x[static_cast<std::size_t>(k)];
+        b[i] = ax - tolerance;
+      }
+      double norm2 = 0.0;
+      for (int k = 0; k < n; ++k) norm2 += a[static_cast<std::size_t>(k)][i] * a[static_cast<std::size_t>(k)][i];
+      inv_norm[i] = norm2 > 0.0 ? 1.0 / std::sqrt(norm2) : 0.0;
+      in_basis[i] = how == 3 ? 1 : 0;
+    }
+    const double* columns[DenseLp::max_columns];
+    for (int k = 0; k < n; ++k) columns[k] = a[static_cast<std::size_t>(k)].data();
+    const detail::zone_lp::RowView view{columns, n, b.data(), inv_norm.data(), in_basis.data(), m};
+    for (const bool first : {false, true}) {
+      const double start = trial % 3 == 0 ? 0.5 : 0.0;
+      // The reference: the loop price_rows replaces.
+      std::vector<double> v(m);
+      for (std::size_t i = 0; i < m; ++i) v[i] = -b[i];
+      for (int k = 0; k < n; ++k)
+        for (std::size_t i = 0; i < m; ++i) v[i] += a[static_cast<std::size_t>(k)][i] * x[static_cast<std::size_t>(k)];
+      double best_ref = start;
+      long q_ref = -7;
+      bool found_ref = false;
+      for (std::size_t i = 0; i < m; ++i) {
+        if (!(v[i] > tolerance) || in_basis[i]) continue;
+        const double score = v[i] * inv_norm[i];
+        if (first || score > best_ref) {
+          best_ref = score;
+          q_ref = static_cast<long>(i);
+          found_ref = true;
+          if (first) break;
+        }
+      }
+      double best = start;
+      long q = -7;
+      const bool found = detail::zone_lp::price_rows(view, x.data(), tolerance, first, best, q);
+      INFO("trial " << trial << ", n = " << n << ", m = " << m << ", first " << first);
+      CHECK(found == found_ref);
+      CHECK(q == q_ref);
+      CHECK(std::memcmp(&best, &best_ref, sizeof best) == 0);
+    }
   }
 }
 

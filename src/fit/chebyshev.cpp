@@ -18,6 +18,7 @@
 #include "detail/fit_support.hpp"
 #include "fit/detail/chebyshev_programme.hpp"
 #include "fit/detail/chebyshev_uniqueness.hpp"
+#include "fit/detail/small_lu.hpp"
 
 namespace cylzone::detail {
 
@@ -36,6 +37,29 @@ ZoneObjective zone_objective(FitMethod method) {
 // ------------------------------------------------------------------ contact polish
 
 namespace {
+
+/// dz = -J^-1 residual; false where J is singular as FullPivLU::isInvertible() decides. Up to
+/// small_lu_max_size unknowns by the small LU (fit/detail/small_lu.hpp: Eigen's FullPivLU's
+/// operations without its set-up, the same bits; tests/test_small_lu.cpp), above by FullPivLU.
+bool newton_step(const Eigen::MatrixXd& jacobian, const Eigen::VectorXd& residual,
+                 Eigen::VectorXd& dz) {
+  const int n = static_cast<int>(jacobian.rows());
+  if (n > small_lu_max_size) {
+    const Eigen::FullPivLU<Eigen::MatrixXd> lu(jacobian);
+    if (!lu.isInvertible()) return false;
+    dz = lu.solve(-residual);
+    return true;
+  }
+  Eigen::Matrix<double, small_lu_max_size, small_lu_max_size> factor;
+  factor.topLeftCorner(n, n) = jacobian;
+  int p[small_lu_max_size], q[small_lu_max_size];
+  if (!full_piv_lu_in_place(factor, n, p, q) || !full_piv_lu_invertible(factor, n)) return false;
+  double minus[small_lu_max_size];
+  for (int i = 0; i < n; ++i) minus[i] = -residual(i);
+  dz.resize(n);
+  full_piv_lu_solve(factor, n, p, q, minus, dz.data());
+  return true;
+}
 
 /// Where fewer contacts hold the optimum than there are unknowns (e.g. the smallest circle on
 /// two diametral points), the linear model is flat along the contacts' common tangent and the
@@ -109,6 +133,7 @@ bool polish_on_contacts(ZoneModel& model, ZoneObjective objective,
   std::vector<Eigen::MatrixXd> hessian(static_cast<std::size_t>(m), Eigen::MatrixXd(p, p));
   bool settled = false;
   Eigen::VectorXd x(p), e(p);  // allocated once: the loop below runs 2 p + 1 evaluations a pass
+  Eigen::VectorXd dz(unknowns);
   for (int iteration = 0; iteration < 30 && !settled; ++iteration) {
     x = z.head(p);
     for (int j = 0; j < p; ++j) {
@@ -138,9 +163,7 @@ bool polish_on_contacts(ZoneModel& model, ZoneObjective objective,
       jacobian.block(row, 0, 1, p) = g.row(k);
       jacobian(row, t) = -1.0;
     }
-    const Eigen::FullPivLU<Eigen::MatrixXd> lu(jacobian);
-    if (!lu.isInvertible()) return false;
-    const Eigen::VectorXd dz = lu.solve(-residual);
+    if (!newton_step(jacobian, residual, dz)) return false;
     if (!dz.allFinite() || dz.head(p).lpNorm<Eigen::Infinity>() > scale) return false;
     z += dz;
     settled = dz.head(p).lpNorm<Eigen::Infinity>() <= 1e-15 * scale;

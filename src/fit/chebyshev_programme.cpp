@@ -340,18 +340,45 @@ LinearStep ZoneProgramme::solve_clp(const Eigen::VectorXd& d, const Eigen::Matri
   return result;
 }
 
-void ZoneProgramme::set_dense_row(DenseLp::Id i, const Constraint& c, const Eigen::VectorXd& d,
-                                  const Eigen::MatrixXd& g, double u0, double l0, double delta) {
+template <int P, int N>
+void ZoneProgramme::set_dense_rows_of(DenseLp::Id first, const Constraint* c, std::size_t count,
+                                      const Eigen::VectorXd& d, const Eigen::MatrixXd& g,
+                                      double u0, double l0, double delta) {
+  // One loop over the rows with the gradient columns' addresses held: the same coefficients and
+  // right-hand sides, computed the same way, as one call per row.
+  const int p = P > 0 ? P : p_;
+  const double* gk[DenseLp::max_columns] = {};
+  for (int k = 0; k < p; ++k) gk[k] = g.data() + static_cast<std::ptrdiff_t>(k) * g.rows();
   double a[DenseLp::max_columns] = {};
-  if (c.side == Side::upper) {  // g_i.y - R' <= -(d_i - U0)/Delta
-    for (int k = 0; k < p_; ++k) a[k] = g(c.point, k);
-    a[upper_col_] = -1.0;
-    dense_.set_row(i, a, -(d(c.point) - u0) / delta);
-  } else {  // g_i.y - r' >= -(d_i - L0)/Delta, i.e. -g_i.y + r' <= (d_i - L0)/Delta
-    for (int k = 0; k < p_; ++k) a[k] = -g(c.point, k);
-    a[lower_col_] = 1.0;
-    dense_.set_row(i, a, (d(c.point) - l0) / delta);
+  for (std::size_t r = 0; r < count; ++r) {
+    const Eigen::Index i = c[r].point;
+    if (c[r].side == Side::upper) {  // g_i.y - R' <= -(d_i - U0)/Delta
+      for (int k = 0; k < p; ++k) a[k] = gk[k][i];
+      a[upper_col_] = -1.0;
+      if (lower_col_ >= 0) a[lower_col_] = 0.0;
+      dense_.set_row_of<N>(first + static_cast<DenseLp::Id>(r), a, -(d(i) - u0) / delta);
+    } else {  // g_i.y - r' >= -(d_i - L0)/Delta, i.e. -g_i.y + r' <= (d_i - L0)/Delta
+      for (int k = 0; k < p; ++k) a[k] = -gk[k][i];
+      a[lower_col_] = 1.0;
+      if (upper_col_ >= 0) a[upper_col_] = 0.0;
+      dense_.set_row_of<N>(first + static_cast<DenseLp::Id>(r), a, (d(i) - l0) / delta);
+    }
   }
+}
+
+void ZoneProgramme::set_dense_rows(DenseLp::Id first, const Constraint* c, std::size_t count,
+                                   const Eigen::VectorXd& d, const Eigen::MatrixXd& g, double u0,
+                                   double l0, double delta) {
+  // The shapes of the fits' programmes: an axis (4 step columns) or a circle's or plane's
+  // centre (2 or 3), with one or two zone bounds; any other shape by the general loop.
+  const int sides = columns_ - p_;
+  if (p_ == 4 && sides == 1) return set_dense_rows_of<4, 5>(first, c, count, d, g, u0, l0, delta);
+  if (p_ == 4 && sides == 2) return set_dense_rows_of<4, 6>(first, c, count, d, g, u0, l0, delta);
+  if (p_ == 3 && sides == 1) return set_dense_rows_of<3, 4>(first, c, count, d, g, u0, l0, delta);
+  if (p_ == 3 && sides == 2) return set_dense_rows_of<3, 5>(first, c, count, d, g, u0, l0, delta);
+  if (p_ == 2 && sides == 1) return set_dense_rows_of<2, 3>(first, c, count, d, g, u0, l0, delta);
+  if (p_ == 2 && sides == 2) return set_dense_rows_of<2, 4>(first, c, count, d, g, u0, l0, delta);
+  set_dense_rows_of<0, 0>(first, c, count, d, g, u0, l0, delta);
 }
 
 // The programme of solve_clp with the dense dual simplex: the same working set and constraint
@@ -387,9 +414,9 @@ bool ZoneProgramme::solve_dense(const Eigen::VectorXd& d, const Eigen::MatrixXd&
   Eigen::VectorXd balance = Eigen::VectorXd::Zero(p_);  // sum of the basis rows' y-normals
   long top = -1, bottom = -1;
   const DenseLp::Id first = dense_.append_rows(rows.size());
+  set_dense_rows(first, rows.data(), rows.size(), d, g, u0, l0, delta);
   for (std::size_t r = 0; r < rows.size(); ++r) {
     const Constraint& c = rows[r];
-    set_dense_row(first + static_cast<DenseLp::Id>(r), c, d, g, u0, l0, delta);
     if (c.side == Side::upper && (top < 0 || d(c.point) > d(rows[static_cast<std::size_t>(top)].point)))
       top = static_cast<long>(r);
     if (c.side == Side::lower &&
@@ -433,8 +460,7 @@ bool ZoneProgramme::solve_dense(const Eigen::VectorXd& d, const Eigen::MatrixXd&
     const std::vector<Constraint> added = violated_rows(dense_.x().data(), d, g, u0, l0, delta);
     if (added.empty()) break;
     const DenseLp::Id next = dense_.append_rows(added.size());
-    for (std::size_t r = 0; r < added.size(); ++r)
-      set_dense_row(next + static_cast<DenseLp::Id>(r), added[r], d, g, u0, l0, delta);
+    set_dense_rows(next, added.data(), added.size(), d, g, u0, l0, delta);
     rows.insert(rows.end(), added.begin(), added.end());
     if (dense_.solve() != DenseLp::Status::optimal) return false;
   }

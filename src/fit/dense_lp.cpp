@@ -2,9 +2,9 @@
 // states the method and its sources).
 #include "fit/detail/dense_lp.hpp"
 
-#include <Eigen/LU>
 #include <algorithm>
 #include <cmath>
+#include <cstring>
 #include <limits>
 
 namespace cylzone::detail::zone_lp {
@@ -18,7 +18,75 @@ long rank_of(DenseLp::Id id, int columns) {
   return DenseLp::is_row(id) ? 2L * columns + id : -1 - id;
 }
 
+/// Row i's score in price_rows: true (and q, best set) if it is taken.
+inline bool take_row(const RowView& rows, std::size_t i, double v, double tolerance, bool first,
+                     double& best, long& q) {
+  if (!(v > tolerance) || rows.in_basis[i]) return false;
+  const double score = v * rows.inv_norm[i];
+  if (!first && !(score > best)) return false;
+  best = score;
+  q = static_cast<long>(i);
+  return true;
+}
+
+/// price_rows for N columns (N a compile-time constant: the column loop unrolled).
+template <int N>
+bool price_rows_fixed(const RowView& rows, const double* x, double tolerance, bool first,
+                      double& best, long& q) {
+  const double* const* a = rows.columns;
+  const double* b = rows.rhs;
+  const std::size_t m = rows.m;
+  bool found = false;
+  std::size_t i = 0;
+#if defined(__GNUC__)
+  // Two rows per operation: the lanes hold rows i and i + 1, each the scalar loop's roundings.
+  typedef double Pair __attribute__((vector_size(16)));
+  Pair xs[N];
+  for (int k = 0; k < N; ++k) xs[k] = Pair{x[k], x[k]};
+  for (; i + 2 <= m; i += 2) {
+    Pair v;
+    std::memcpy(&v, b + i, sizeof v);
+    v = -v;
+    for (int k = 0; k < N; ++k) {
+      Pair ak;
+      std::memcpy(&ak, a[k] + i, sizeof ak);
+      v += ak * xs[k];
+    }
+    if (!(v[0] > tolerance) && !(v[1] > tolerance)) continue;
+    for (std::size_t l = 0; l < 2; ++l)
+      if (take_row(rows, i + l, v[l], tolerance, first, best, q)) {
+        if (first) return true;
+        found = true;
+      }
+  }
+#endif
+  for (; i < m; ++i) {
+    double v = -b[i];
+    for (int k = 0; k < N; ++k) v += a[k][i] * x[k];
+    if (take_row(rows, i, v, tolerance, first, best, q)) {
+      if (first) return true;
+      found = true;
+    }
+  }
+  return found;
+}
+
 }  // namespace
+
+bool price_rows(const RowView& rows, const double* x, double tolerance, bool first, double& best,
+                long& q) {
+  switch (rows.n) {
+    case 1: return price_rows_fixed<1>(rows, x, tolerance, first, best, q);
+    case 2: return price_rows_fixed<2>(rows, x, tolerance, first, best, q);
+    case 3: return price_rows_fixed<3>(rows, x, tolerance, first, best, q);
+    case 4: return price_rows_fixed<4>(rows, x, tolerance, first, best, q);
+    case 5: return price_rows_fixed<5>(rows, x, tolerance, first, best, q);
+    case 6: return price_rows_fixed<6>(rows, x, tolerance, first, best, q);
+    case 7: return price_rows_fixed<7>(rows, x, tolerance, first, best, q);
+    case 8: return price_rows_fixed<8>(rows, x, tolerance, first, best, q);
+    default: return false;
+  }
+}
 
 void DenseLp::reset(const Vector& cost, const Vector& lower, const Vector& upper) {
   cost_ = cost;
@@ -26,7 +94,7 @@ void DenseLp::reset(const Vector& cost, const Vector& lower, const Vector& upper
   upper_ = upper;
   x_.setZero(cost.size());
   lambda_.setZero(cost.size());
-  for (std::vector<double>& column : a_) column.clear();
+  for (Column& column : a_) column.clear();
   rhs_.clear();
   inv_norm_.clear();
   in_basis_.clear();
@@ -56,19 +124,6 @@ DenseLp::Id DenseLp::append_rows(std::size_t count) {
   return static_cast<Id>(first);
 }
 
-void DenseLp::set_row(Id i, const double* a, double b) {
-  const auto r = static_cast<std::size_t>(i);
-  const int n = columns();
-  double norm2 = 0.0;
-  for (int k = 0; k < n; ++k) {
-    a_[k][r] = a[k];
-    norm2 += a[k] * a[k];
-  }
-  rhs_[r] = b;
-  inv_norm_[r] = norm2 > 0.0 ? 1.0 / std::sqrt(norm2) : 0.0;
-  if (in_basis_[r]) factored_ = false;  // a basis row rewritten: factorise again
-}
-
 void DenseLp::normal(Id id, double* a, double& b) const {
   const int n = columns();
   if (is_row(id)) {
@@ -92,7 +147,8 @@ void DenseLp::normal(Id id, double* a, double& b) const {
 bool DenseLp::refresh() {
   factored_ = false;
   const int n = columns();
-  Matrix basis(n, n);
+  // Fixed storage (the compile-time stride of 8), the top left n x n block used.
+  Eigen::Matrix<double, max_columns, max_columns> basis;
   Vector rhs(n);
   double a[max_columns];
   for (int j = 0; j < n; ++j) {
@@ -100,13 +156,16 @@ bool DenseLp::refresh() {
     if (!std::isfinite(rhs(j))) return false;  // an infinite bound cannot be active
     for (int k = 0; k < n; ++k) basis(j, k) = a[k];
   }
-  const Eigen::FullPivLU<Matrix> lu(basis);
+  int p[max_columns], q[max_columns];
+  if (!full_piv_lu_in_place(basis, n, p, q)) return false;
   // Full pivoting puts the pivots on the diagonal in decreasing magnitude: the ratio of the last
   // to the first bounds how nearly dependent the active normals are.
-  const double largest = std::abs(lu.matrixLU()(0, 0));
-  const double smallest = std::abs(lu.matrixLU()(n - 1, n - 1));
+  const double largest = std::abs(basis(0, 0));
+  const double smallest = std::abs(basis(n - 1, n - 1));
   if (!(largest > 0.0) || !(smallest > 1e-12 * largest)) return false;
-  inverse_ = lu.inverse();
+  inverse_.resize(n, n);
+  inverse_from_full_piv_lu(
+      basis, n, [&](int i) { return p[i]; }, [&](int i) { return q[i]; }, inverse_);
   x_.noalias() = inverse_ * rhs;
   lambda_.noalias() = -(inverse_.transpose() * cost_);
   factored_ = x_.allFinite() && lambda_.allFinite();
@@ -165,23 +224,11 @@ bool DenseLp::entering(bool bland, Id& q) {
   // Under Bland's rule the bounds (which come first in its order) are chosen before any row,
   // and among rows the first violated one.
   if (bland && found) return true;
-  // The rows' violations a_i.x - b_i, column by column (contiguous, vectorisable).
-  const std::size_t m = rows();
-  violation_.resize(m);
-  double* v = violation_.data();
-  const double* b = rhs_.data();
-  for (std::size_t i = 0; i < m; ++i) v[i] = -b[i];
-  for (int k = 0; k < n; ++k) {
-    const double xk = x_(k);
-    const double* column = a_[k].data();
-    for (std::size_t i = 0; i < m; ++i) v[i] += column[i] * xk;
-  }
-  for (std::size_t i = 0; i < m; ++i) {
-    if (!(v[i] > tolerance) || in_basis_[i]) continue;
-    consider(static_cast<Id>(i), v[i] * inv_norm_[i]);
-    if (bland) return true;
-  }
-  return found;
+  const double* columns[max_columns];
+  for (int k = 0; k < n; ++k) columns[k] = a_[k].data();
+  const RowView view{columns, n, rhs_.data(), inv_norm_.data(), in_basis_.data(), rows()};
+  if (bland) return price_rows(view, x_.data(), tolerance, true, best, q);
+  return price_rows(view, x_.data(), tolerance, false, best, q) || found;
 }
 
 DenseLp::Status DenseLp::solve() {

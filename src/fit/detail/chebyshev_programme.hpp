@@ -120,9 +120,16 @@ class ZoneProgramme {
   std::vector<Constraint> violated_rows(const double* x, const Eigen::VectorXd& d,
                                         const Eigen::MatrixXd& g, double u0, double l0,
                                         double delta);
-  /// Row `i` (appended by DenseLp::append_rows) in the dense solver's form a.(y, R', r') <= b.
-  void set_dense_row(DenseLp::Id i, const Constraint& c, const Eigen::VectorXd& d,
-                     const Eigen::MatrixXd& g, double u0, double l0, double delta);
+  /// Rows first .. first + count - 1 (appended by DenseLp::append_rows) set to constraints
+  /// c[0 .. count - 1] in the dense solver's form a.(y, R', r') <= b.
+  void set_dense_rows(DenseLp::Id first, const Constraint* c, std::size_t count,
+                      const Eigen::VectorXd& d, const Eigen::MatrixXd& g, double u0, double l0,
+                      double delta);
+  /// set_dense_rows for P step columns and N columns in all (compile-time: loops unrolled).
+  template <int P, int N>
+  void set_dense_rows_of(DenseLp::Id first, const Constraint* c, std::size_t count,
+                         const Eigen::VectorXd& d, const Eigen::MatrixXd& g, double u0, double l0,
+                         double delta);
 
   ZoneObjective objective_;
   ZoneOptions options_;

@@ -35,10 +35,60 @@
 // feasible give Status::failed, and the caller falls back to Clp.
 
 #include <Eigen/Core>
+#include <algorithm>
+#include <cmath>
 #include <cstddef>
+#include <memory>
+#include <new>
+#include <utility>
 #include <vector>
 
+#include "fit/detail/small_lu.hpp"
+
 namespace cylzone::detail::zone_lp {
+
+/// An allocator whose value-less construct leaves a double as it is: the row storage grows by
+/// resize() without the zero fill that set_row would overwrite at once (a trial's programmes
+/// append thousands of rows).
+template <typename T>
+struct UnfilledAllocator : std::allocator<T> {
+  template <typename U>
+  struct rebind {
+    using other = UnfilledAllocator<U>;
+  };
+  UnfilledAllocator() = default;
+  template <typename U>
+  UnfilledAllocator(const UnfilledAllocator<U>&) noexcept {}
+  template <typename U>
+  void construct(U* p) noexcept {
+    ::new (static_cast<void*>(p)) U;
+  }
+  template <typename U, typename... Args>
+  void construct(U* p, Args&&... args) {
+    ::new (static_cast<void*>(p)) U(std::forward<Args>(args)...);
+  }
+};
+
+/// The rows of a programme as the dense solver stores them: column k's coefficients at
+/// columns[k][i], b_i at rhs[i], 1 / |a_i| at inv_norm[i], in_basis[i] non-zero for a basic row.
+struct RowView {
+  const double* const* columns = nullptr;
+  int n = 0;
+  const double* rhs = nullptr;
+  const double* inv_norm = nullptr;
+  const unsigned char* in_basis = nullptr;
+  std::size_t m = 0;
+};
+
+/// The dense solver's row pricing: among the rows not in the basis whose violation
+/// v_i = a_i.x - b_i (computed as -b_i + a_i0 x_0 + a_i1 x_1 + ..., in column order) exceeds
+/// `tolerance`, the one of largest v_i / |a_i| above `best` (the first of equal ones), which
+/// sets `best` and `q`; with `first`, the first violated row whatever its score. True if a row
+/// was taken. Two rows per operation where the compiler offers vectors of two doubles (g++,
+/// clang): each row's violation is the same sequence of roundings as the scalar loop's, so
+/// the same bits and the same choice (tests/test_dense_lp.cpp compares it with that loop).
+bool price_rows(const RowView& rows, const double* x, double tolerance, bool first, double& best,
+                long& q);
 
 class DenseLp {
  public:
@@ -86,7 +136,21 @@ class DenseLp {
   Id append_rows(std::size_t count);
   /// Sets row `i` (appended, or rewritten) to a.x <= b: the same row, bit for bit, as
   /// add_row(a, b).
-  void set_row(Id i, const double* a, double b);
+  void set_row(Id i, const double* a, double b) { set_row_of<0>(i, a, b); }
+  /// set_row for a programme of N = columns() columns: the loops unrolled, the same operations.
+  template <int N>
+  void set_row_of(Id i, const double* a, double b) {
+    const auto r = static_cast<std::size_t>(i);
+    const int n = N > 0 ? N : columns();
+    double norm2 = 0.0;
+    for (int k = 0; k < n; ++k) {
+      a_[k][r] = a[k];
+      norm2 += a[k] * a[k];
+    }
+    rhs_[r] = b;
+    inv_norm_[r] = norm2 > 0.0 ? 1.0 / std::sqrt(norm2) : 0.0;
+    if (in_basis_[r]) factored_ = false;  // a basis row rewritten: factorise again
+  }
   int columns() const noexcept { return static_cast<int>(cost_.size()); }
   std::size_t rows() const noexcept { return rhs_.size(); }
 
@@ -115,10 +179,11 @@ class DenseLp {
 
   Options options_;
   Vector cost_, lower_, upper_, x_, lambda_;
-  std::vector<double> a_[max_columns];  // the rows' coefficients, column by column
-  std::vector<double> rhs_;        // b_i
-  std::vector<double> violation_;  // a_i.x - b_i, scratch of entering()
-  std::vector<double> inv_norm_;   // 1 / |a_i|
+  // Appended rows are unset until set_row (UnfilledAllocator): solve() reads only set rows.
+  using Column = std::vector<double, UnfilledAllocator<double>>;
+  Column a_[max_columns];  // the rows' coefficients, column by column
+  Column rhs_;             // b_i
+  Column inv_norm_;        // 1 / |a_i|
   std::vector<unsigned char> in_basis_;  // per row
   Id basis_[max_columns] = {};
   Matrix inverse_;  // B^-1 of the current basis

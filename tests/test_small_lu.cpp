@@ -1,0 +1,123 @@
+// The small full-pivoting LU (src/fit/detail/small_lu.hpp). The reference is the computation it
+// replaces, Eigen 3.4's FullPivLU (Debian's libeigen3-dev): its factor, permutations,
+// invertibility, inverse() and solve() must come out bit for bit the same (memcmp: signed zeros
+// too) on random matrices of the kinds the fits factorise: rows of random normals and scales,
+// unit rows (a bound of the dense LP), exact zeros, nearly dependent rows.
+#include <catch2/catch.hpp>
+
+#include <Eigen/LU>
+#include <cstring>
+#include <limits>
+#include <random>
+
+#include "fit/detail/small_lu.hpp"
+
+using namespace cylzone::detail;
+
+namespace {
+
+constexpr int max_columns = 8;  // the dense LP solver's basis (DenseLp::max_columns)
+
+/// A random n x n matrix of the kinds above.
+template <typename Matrix>
+void random_rows(Matrix& basis, int n, std::mt19937_64& random) {
+  std::normal_distribution<double> normal(0.0, 1.0);
+  std::uniform_int_distribution<int> kind(0, 5);
+  for (int j = 0; j < n; ++j) {
+    const int how = kind(random);
+    for (int k = 0; k < n; ++k) basis(j, k) = normal(random);
+    if (how == 0) {  // a bound: +-e_k
+      basis.row(j).setZero();
+      basis(j, static_cast<int>(random() % static_cast<unsigned>(n))) =
+          random() % 2 ? 1.0 : -1.0;
+    } else if (how == 1) {  // exact zeros
+      for (int k = 0; k < n; ++k)
+        if (random() % 2) basis(j, k) = 0.0;
+    } else if (how == 2) {  // another scale
+      basis.row(j) *= std::ldexp(1.0, static_cast<int>(random() % 40) - 20);
+    } else if (how == 3 && j > 0) {  // nearly a copy of the row before
+      basis.row(j) = basis.row(j - 1) + 1e-6 * basis.row(j);
+    }
+  }
+}
+
+bool same_bits(double a, double b) { return std::memcmp(&a, &b, sizeof a) == 0; }
+
+}  // namespace
+
+TEST_CASE("the factor and inverse of small matrices have the bits of FullPivLU and inverse()",
+          "[small-lu]") {
+  // The dense LP solver's case: bases up to 8 x 8, held in the top left block of a fixed 8 x 8
+  // matrix.
+  using Matrix = Eigen::Matrix<double, Eigen::Dynamic, Eigen::Dynamic, 0, max_columns, max_columns>;
+  std::mt19937_64 random(20261204);
+  int compared = 0;
+  for (int trial = 0; trial < 4000; ++trial) {
+    const int n = 1 + trial % max_columns;
+    Matrix basis(n, n);
+    random_rows(basis, n, random);
+    const Eigen::FullPivLU<Matrix> lu(basis);
+    Eigen::Matrix<double, max_columns, max_columns> factor;
+    factor.setConstant(std::numeric_limits<double>::quiet_NaN());
+    factor.topLeftCorner(n, n) = basis;
+    int p[max_columns], q[max_columns];
+    const bool regular = full_piv_lu_in_place(factor, n, p, q);
+    INFO("trial " << trial << ", n = " << n);
+    CHECK(regular == (lu.nonzeroPivots() == n));
+    if (regular) {
+      bool same = true;
+      for (int i = 0; i < n; ++i) {
+        same = same && p[i] == lu.permutationP().indices()(i) &&
+               q[i] == lu.permutationQ().indices()(i);
+        for (int k = 0; k < n; ++k) same = same && same_bits(factor(i, k), lu.matrixLU()(i, k));
+      }
+      CHECK(same);
+      CHECK(full_piv_lu_invertible(factor, n) == lu.isInvertible());
+    }
+    if (!lu.isInvertible()) continue;
+    const Matrix expected = lu.inverse();
+    Matrix inverse(n, n);
+    inverse_from_full_piv_lu(lu.matrixLU(), n, lu.permutationP().indices(),
+                             lu.permutationQ().indices(), inverse);
+    bool same = true;
+    for (int i = 0; i < n; ++i)
+      for (int k = 0; k < n; ++k) same = same && same_bits(inverse(i, k), expected(i, k));
+    CHECK(same);
+    ++compared;
+  }
+  CHECK(compared > 3500);
+}
+
+TEST_CASE("the solve of small systems has the bits of FullPivLU::solve()", "[small-lu]") {
+  // Newton's method on a Chebyshev fit's contacts: Jacobians up to 16 x 16 (two panels of the
+  // triangular solves), dynamic in Eigen, in the top left block of a fixed 16 x 16 matrix here;
+  // right-hand sides with exact zeros (the solves skip them).
+  constexpr int size = small_lu_max_size;
+  std::mt19937_64 random(20261206);
+  std::normal_distribution<double> normal(0.0, 1.0);
+  int compared = 0;
+  for (int trial = 0; trial < 3000; ++trial) {
+    const int n = 1 + trial % size;
+    Eigen::MatrixXd a(n, n);
+    random_rows(a, n, random);
+    Eigen::VectorXd b(n);
+    for (int i = 0; i < n; ++i) b(i) = random() % 4 == 0 ? 0.0 : normal(random);
+    const Eigen::FullPivLU<Eigen::MatrixXd> lu(a);
+    Eigen::Matrix<double, size, size> factor;
+    factor.topLeftCorner(n, n) = a;
+    int p[size], q[size];
+    const bool regular = full_piv_lu_in_place(factor, n, p, q);
+    INFO("trial " << trial << ", n = " << n);
+    CHECK((regular && full_piv_lu_invertible(factor, n)) == lu.isInvertible());
+    if (!lu.isInvertible()) continue;
+    const Eigen::VectorXd expected = lu.solve(-b);
+    const Eigen::VectorXd minus_b = -b;
+    double x[size];
+    full_piv_lu_solve(factor, n, p, q, minus_b.data(), x);
+    bool same = true;
+    for (int i = 0; i < n; ++i) same = same && same_bits(x[i], expected(i));
+    CHECK(same);
+    ++compared;
+  }
+  CHECK(compared > 2500);
+}
