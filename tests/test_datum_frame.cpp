@@ -12,6 +12,7 @@
 #include <catch2/catch.hpp>
 #include <cmath>
 #include <cstdint>
+#include <memory>
 #include <random>
 #include <string>
 #include <vector>
@@ -921,4 +922,60 @@ TEST_CASE("A's screen left to screen_datum_a: the frame that screens A itself, b
       establish_datum_frame(test::paired(datums, clouds), into_material, deferred);
   released.a.plane.residuals.values = Eigen::VectorXd();
   CHECK_THROWS_AS(screen_datum_a(clouds[0], released, deferred), std::invalid_argument);
+}
+
+TEST_CASE("a frame given A's least-squares plane equals the frame that fits it, bit for bit",
+          "[datum][frame][scan]") {
+  // Reference: the same frame fitting A's least-squares plane itself (the computation the given
+  // plane replaces: the tangent plane's start, the least-squares association and A's screen
+  // each fitted it), with A's screen in the frame and deferred to screen_datum_a. Face A
+  // carries one point 0.5 mm proud of the others, so that the screen flags it and places a note.
+  const Motion motion = generic_motion();
+  const std::vector<PlanDatum> datums = a_b_c_bores();
+  const std::vector<PointCloud> clouds = proud_a_b_c(motion);
+  const Eigen::Vector3d into_material = motion.direction(-Eigen::Vector3d::UnitZ());
+  const auto least_squares = std::make_shared<const PlaneFit>(fit_plane_least_squares(clouds[0].points));
+  for (const PlaneAssociation method :
+       {PlaneAssociation::tangent_least_squares, PlaneAssociation::least_squares,
+        PlaneAssociation::minimum_zone}) {
+    for (const bool defer : {false, true}) {
+      INFO(std::string(association_name(method)) << (defer ? ", screen deferred" : ""));
+      DatumFrameOptions fitted;
+      fitted.a_association = method;
+      fitted.defer_a_screen = defer;
+      DatumFrameOptions given = fitted;
+      given.a_least_squares = least_squares;
+      DatumFrameResult f = establish_datum_frame(test::paired(datums, clouds), into_material, fitted);
+      DatumFrameResult g = establish_datum_frame(test::paired(datums, clouds), into_material, given);
+      if (defer) {
+        screen_datum_a(clouds[0], f, fitted);
+        screen_datum_a(clouds[0], g, given);
+      }
+      CHECK(g.frame.rotation == f.frame.rotation);
+      CHECK(g.frame.origin == f.frame.origin);
+      CHECK(g.a.plane.normal == f.a.plane.normal);
+      CHECK(g.a.plane.point == f.a.plane.point);
+      CHECK(g.a.plane.residuals.values == f.a.plane.residuals.values);
+      CHECK(g.a.plane.residuals.form == f.a.plane.residuals.form);
+      CHECK(g.a.plane.summary.message == f.a.plane.summary.message);
+      REQUIRE(g.b);
+      CHECK(g.b->axis_on_a == f.b->axis_on_a);
+      CHECK(g.a.stray_points.screened == f.a.stray_points.screened);
+      CHECK(g.a.stray_points.robust_scale == f.a.stray_points.robust_scale);
+      REQUIRE(!f.a.stray_points.points.empty());
+      REQUIRE(g.a.stray_points.points.size() == f.a.stray_points.points.size());
+      for (std::size_t k = 0; k < g.a.stray_points.points.size(); ++k) {
+        CHECK(g.a.stray_points.points[k].index == f.a.stray_points.points[k].index);
+        CHECK(g.a.stray_points.points[k].residual == f.a.stray_points.points[k].residual);
+        CHECK(g.a.stray_points.points[k].excess == f.a.stray_points.points[k].excess);
+      }
+      CHECK(g.notes == f.notes);
+    }
+  }
+  // A plane of other points is refused.
+  DatumFrameOptions wrong;
+  wrong.a_least_squares =
+      std::make_shared<const PlaneFit>(fit_plane_least_squares(clouds[0].points.leftCols(500)));
+  CHECK_THROWS_AS(establish_datum_frame(test::paired(datums, clouds), into_material, wrong),
+                  std::invalid_argument);
 }
