@@ -45,6 +45,7 @@
 #include "cylzone/core/errors.hpp"
 #include "datum/detail/constrained_least_squares.hpp"
 #include "detail/fit_support.hpp"
+#include "detail/local_blocks.hpp"
 #include "datum/detail/tangent_line.hpp"
 
 namespace cylzone {
@@ -104,11 +105,10 @@ TangentSolution<D> tangent_least_squares(const Points<D>& points, Vector<D> outw
   double previous_tilt = std::numeric_limits<double>::infinity();
   // The per-point arrays of a step are allocated once and overwritten by every step: on a
   // dense face each step's fresh arrays cost more in the system's zeroing of new pages than in
-  // the arithmetic that fills them. The local coordinates are taken a block at a time (each
-  // column the same products as the whole-cloud expression: detail::local_coordinates_into),
-  // so no D x n copy is held. Every value is computed by the same expression as before.
-  constexpr Eigen::Index local_block = 4096;
-  Points<D> local(D, std::min(local_block, n));
+  // the arithmetic that fills them. The local coordinates are taken a block at a time
+  // (detail/local_blocks.hpp: each column the same products as the whole-cloud expression), so
+  // no D x n copy is held. Every value is computed by the same expression as before.
+  Points<D> local;
   Eigen::VectorXd heights(n);
   Eigen::MatrixXd design(n, unknowns);
   design.col(0).setOnes();
@@ -124,15 +124,14 @@ TangentSolution<D> tangent_least_squares(const Points<D>& points, Vector<D> outw
   };
   for (int iteration = 1;; ++iteration) {
     const Eigen::Matrix<double, D, D> basis = frame_at(outward);
-    for (Eigen::Index start = 0; start < n; start += local_block) {
-      const Eigen::Index len = std::min(local_block, n - start);
-      local.leftCols(len).noalias() =
-          basis.transpose() * (points.middleCols(start, len).colwise() - centroid);
-      heights.segment(start, len) = local.row(D - 1).head(len).transpose();
-      // Slopes are scaled by the data's size so that every unknown is a length.
-      for (int k = 0; k + 1 < D; ++k)
-        design.col(k + 1).segment(start, len) = local.row(k).head(len).transpose() / scale;
-    }
+    detail::for_each_local_block<D>(
+        points, centroid, basis, local, [&](Eigen::Index start, const auto& block) {
+          const Eigen::Index len = block.cols();
+          heights.segment(start, len) = block.row(D - 1).transpose();
+          // Slopes are scaled by the data's size so that every unknown is a length.
+          for (int k = 0; k + 1 < D; ++k)
+            design.col(k + 1).segment(start, len) = block.row(k).transpose() / scale;
+        });
     const detail::LeastSquaresObjective objective(design, heights);
 
     if (n <= full_constraint_limit) {
