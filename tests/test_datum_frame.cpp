@@ -954,17 +954,24 @@ TEST_CASE("a frame given A's least-squares plane equals the frame that fits it, 
   const std::vector<PlanDatum>& datums = part.datums;
   const std::vector<PointCloud>& clouds = part.clouds;
   const Eigen::Vector3d& into_material = part.into_material;
+  // With its residual values, and without them (evaluate_part's: the tangent plane's start
+  // only; the least-squares association and the screen then fit their own).
   const auto least_squares = std::make_shared<const PlaneFit>(fit_plane_least_squares(clouds[0].points));
+  auto released = std::make_shared<PlaneFit>(*least_squares);
+  released->residuals.values = Eigen::VectorXd();
   for (const PlaneAssociation method :
        {PlaneAssociation::tangent_least_squares, PlaneAssociation::least_squares,
         PlaneAssociation::minimum_zone}) {
-    for (const bool defer : {false, true}) {
-      INFO(std::string(association_name(method)) << (defer ? ", screen deferred" : ""));
+    for (const int variant : {0, 1, 2, 3}) {
+      const bool defer = variant % 2 == 1;
+      const bool values = variant < 2;
+      INFO(std::string(association_name(method)) << (defer ? ", screen deferred" : "")
+                                                 << (values ? "" : ", values released"));
       DatumFrameOptions fitted;
       fitted.a_association = method;
       fitted.defer_a_screen = defer;
       DatumFrameOptions given = fitted;
-      given.a_least_squares = least_squares;
+      given.a_least_squares = values ? least_squares : released;
       DatumFrameResult f = establish_datum_frame(test::paired(datums, clouds), into_material, fitted);
       DatumFrameResult g = establish_datum_frame(test::paired(datums, clouds), into_material, given);
       if (defer) {

@@ -274,10 +274,13 @@ PartEvaluation evaluate_part(const PartPlan& plan, const PartInputs& inputs,
   // held, no hint; fit_plane_least_squares reads nothing else of them): fitted once here and
   // shared with the frame (DatumFrameOptions::a_least_squares) as the tangent plane's start,
   // the least-squares association and A's screen, which each fitted it again on a dense face.
+  // Its residual values are released before the frame (one value a point of A, held through
+  // the frame's busiest stage they would raise the run's peak): the frame then takes it as
+  // the tangent plane's start only, and A's screen fits its own beside the bores.
   FitOptions plane_fit = stage.fit;
   plane_fit.fixed_direction.reset();
   plane_fit.axis_hint.reset();
-  std::shared_ptr<const PlaneFit> a_least_squares;
+  std::shared_ptr<PlaneFit> a_least_squares;
 
   // Which side of A is material: from the plan, or the side the bores' points lie on.
   const PlanDatum& a = plan.datums.front();
@@ -291,7 +294,7 @@ PartEvaluation evaluate_part(const PartPlan& plan, const PartInputs& inputs,
       if (stage.fit.axis_hint)
         return infer_material_side(
             fit_plane_least_squares(inputs.datums.front().points, stage.fit), bore_points);
-      a_least_squares = std::make_shared<const PlaneFit>(
+      a_least_squares = std::make_shared<PlaneFit>(
           fit_plane_least_squares(inputs.datums.front().points, plane_fit));
       return infer_material_side(*a_least_squares, bore_points);
     });
@@ -314,12 +317,12 @@ PartEvaluation evaluate_part(const PartPlan& plan, const PartInputs& inputs,
   if (!a_least_squares && (a.association == PlaneAssociation::tangent_least_squares ||
                            a.association == PlaneAssociation::least_squares))
     a_least_squares = for_feature("datum A", [&] {
-      return std::make_shared<const PlaneFit>(
+      return std::make_shared<PlaneFit>(
           fit_plane_least_squares(datums.front().points.points, plane_fit));
     });
-  frame.a_least_squares = a_least_squares;
+  if (a_least_squares) a_least_squares->residuals.values = Eigen::VectorXd();
+  frame.a_least_squares = std::move(a_least_squares);
   result.datums = establish_datum_frame(datums, result.material_side, frame);
-  // Only A's deferred screen still reads it (a_screen_options below keeps its own share).
   frame.a_least_squares.reset();
   result.datums.a.material_side_inferred = inferred;
   // A's residual values are read by its screen's note, and released after it.
@@ -354,13 +357,11 @@ PartEvaluation evaluate_part(const PartPlan& plan, const PartInputs& inputs,
   for (const PlanBore& bore : plan.bores) result.preparation.push_back({"bore " + bore.id, {}});
   DatumFrameOptions a_screen_options = frame;
   a_screen_options.fit.threads = a_screen_options.stray_points.threads = per_bore.fit.threads;
-  a_screen_options.a_least_squares = std::move(a_least_squares);
   detail::parallel_for_taken_in_order(a_screen + plan.bores.size(), workers, [&](std::size_t task,
                                                                                  std::size_t) {
     if (task < a_screen) {
       // Writes only A's record, residuals and the frame's notes, which no bore reads.
       screen_datum_a(datums.front().points, result.datums, a_screen_options);
-      a_screen_options.a_least_squares.reset();  // its residual values: one per point of A
       if (static_cast<std::size_t>(result.datums.a.plane.residuals.values.size()) >
           stage.residuals_kept_up_to)
         result.datums.a.plane.residuals.values = Eigen::VectorXd();

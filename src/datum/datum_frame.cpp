@@ -525,18 +525,20 @@ ClockingWidthResult associate_clocking_width(const PlanDatum& datum, const Point
   return result;
 }
 
-// The caller's least-squares plane of A (DatumFrameOptions::a_least_squares) when given, with
-// its residual values; null when not given. Another point count is the caller's error.
-const PlaneFit* a_least_squares_of(const PointCloud& a_points, const DatumFrameOptions& options) {
+// The caller's least-squares plane of A (DatumFrameOptions::a_least_squares) when given and,
+// if `with_values`, holding its residual values; else null (the reader fits its own). Another
+// point count is the caller's error.
+const PlaneFit* a_least_squares_of(const PointCloud& a_points, const DatumFrameOptions& options,
+                                   bool with_values) {
   if (!options.a_least_squares) return nullptr;
   const PlaneFit& plane = *options.a_least_squares;
-  if (plane.summary.point_count != a_points.size() ||
-      static_cast<std::size_t>(plane.residuals.values.size()) != a_points.size())
+  if (plane.summary.point_count != a_points.size())
     throw std::invalid_argument(
         "establish_datum_frame: the given least-squares plane of A is of " +
-        std::to_string(plane.summary.point_count) + " points with " +
-        std::to_string(plane.residuals.values.size()) + " residual values, A has " +
+        std::to_string(plane.summary.point_count) + " points, A has " +
         std::to_string(a_points.size()));
+  if (with_values && static_cast<std::size_t>(plane.residuals.values.size()) != a_points.size())
+    return nullptr;
   return &plane;
 }
 
@@ -558,7 +560,7 @@ void screen_plane_a(const PointCloud& cloud, const DatumFrameOptions& options,
     // The caller's least-squares plane (the same fit as the screen's own, see
     // a_least_squares_of): its residuals turned as prepare turns its own plane's, so that a
     // point standing proud of the surface is positive.
-    if (const PlaneFit* own = a_least_squares_of(cloud, options)) {
+    if (const PlaneFit* own = a_least_squares_of(cloud, options, true)) {
       const bool turned = own->normal.dot(*screen.outward) < 0.0;
       screen.residuals = turned ? Eigen::VectorXd(-own->residuals.values) : own->residuals.values;
     }
@@ -651,7 +653,10 @@ DatumFrameResult establish_datum_frame(const std::vector<DatumInput>& datums,
     if (!zone) zone = fit_plane_minimum_zone(cloud_of(0).points, plane_fit);
     return *zone;
   };
-  const PlaneFit* a_least_squares = a_least_squares_of(cloud_of(0), options);
+  // The tangent plane's start needs the normal only; the least-squares association is the
+  // whole plane, residual values included.
+  const PlaneFit* a_least_squares = a_least_squares_of(
+      cloud_of(0), options, result.a.association == PlaneAssociation::least_squares);
   result.a.plane = for_datum(a_datum.label, [&] {
     return associate_plane(cloud_of(0).points, result.a.association, a_material_side, plane_fit,
                            zone_of_a, a_least_squares);

@@ -157,11 +157,12 @@ struct DatumFrameOptions {
   std::optional<PlaneFit> a_minimum_zone;
   /// Datum A's least-squares plane (fit_plane_least_squares) of the SAME points, fitted with
   /// `fit` less its fixed_direction and axis_hint (the options the frame fits A's planes
-  /// with), residual values included: the frame takes it as the tangent least-squares plane's
-  /// start, as the least-squares association and for A's screen (also screen_datum_a) instead
-  /// of fitting it again, with the same bits (evaluate_part fits it once, for the material side
-  /// too). Shared, not copied: it is one value per point of a dense face. Its point count must
-  /// be A's (else std::invalid_argument).
+  /// with): the frame takes it as the tangent least-squares plane's start and, when it holds
+  /// its residual values, as the least-squares association and for A's screen (also
+  /// screen_datum_a), instead of fitting it again, with the same bits (evaluate_part fits it
+  /// once, for the material side too, and releases its values). Shared, not copied: its values
+  /// are one per point of a dense face. Its point count must be A's (else
+  /// std::invalid_argument).
   std::shared_ptr<const PlaneFit> a_least_squares;
   /// The prepare stage of each datum feature (prepare.hpp): the stray-point screen, on or off.
   bool stray_screen = true;
