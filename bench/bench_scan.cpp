@@ -38,6 +38,7 @@
 #include <cstdio>
 #include <cstdlib>
 #include <cstring>
+#include <memory>
 #include <ctime>
 #include <filesystem>
 #include <fstream>
@@ -203,9 +204,10 @@ void time_stages(const cylzone::PartPlan& plan, const cylzone::PartInputs& input
   double cpu = cpu_seconds();
   std::vector<const Eigen::Matrix3Xd*> bore_points;
   for (const cylzone::PointCloud& c : inputs.bores) bore_points.push_back(&c.points);
-  const Eigen::Vector3d into = cylzone::infer_material_side(
-      cylzone::fit_plane_least_squares(inputs.datums.front().points, bore_options.fit),
-      bore_points);
+  // A's least-squares plane fitted once, for the material side and the frame (as evaluate_part).
+  const auto a_least_squares = std::make_shared<const cylzone::PlaneFit>(
+      cylzone::fit_plane_least_squares(inputs.datums.front().points, bore_options.fit));
+  const Eigen::Vector3d into = cylzone::infer_material_side(*a_least_squares, bore_points);
   std::vector<cylzone::DatumInput> datums;
   double datum_points = 0.0;
   for (std::size_t k = 0; k < plan.datums.size(); ++k) {
@@ -216,6 +218,7 @@ void time_stages(const cylzone::PartPlan& plan, const cylzone::PartInputs& input
   frame_options.fit = bore_options.fit;
   frame_options.stray_screen = full;
   frame_options.stray_points = bore_options.stray_points;
+  frame_options.a_least_squares = a_least_squares;
   const cylzone::DatumFrameResult frame =
       cylzone::establish_datum_frame(datums, into, frame_options);
   report("datum frame", datum_points, cpu_seconds() - cpu);

@@ -12,6 +12,7 @@
 #include <catch2/catch.hpp>
 #include <cmath>
 #include <cstdint>
+#include <memory>
 #include <random>
 #include <string>
 #include <vector>
@@ -753,6 +754,20 @@ Eigen::Matrix3Xd ambiguous_face() {
 
 }  // namespace
 
+// Two frames agree bit for bit in their placement and in datum A's associated plane (normal,
+// point, residual values, form, rms, the fit's message and warnings).
+void check_same_frame_and_a(const DatumFrameResult& got, const DatumFrameResult& want) {
+  CHECK(got.frame.rotation == want.frame.rotation);
+  CHECK(got.frame.origin == want.frame.origin);
+  CHECK(got.a.plane.normal == want.a.plane.normal);
+  CHECK(got.a.plane.point == want.a.plane.point);
+  CHECK(got.a.plane.residuals.values == want.a.plane.residuals.values);
+  CHECK(got.a.plane.residuals.form == want.a.plane.residuals.form);
+  CHECK(got.a.plane.residuals.rms == want.a.plane.residuals.rms);
+  CHECK(got.a.plane.summary.message == want.a.plane.summary.message);
+  CHECK(got.a.plane.summary.warnings == want.a.plane.summary.warnings);
+}
+
 TEST_CASE("a frame given A's minimum-zone plane equals the frame that fits it, bit for bit",
           "[datum][frame][scan]") {
   // Reference: the same frame fitting A's minimum zone itself (the computation the given plane
@@ -787,15 +802,7 @@ TEST_CASE("a frame given A's minimum-zone plane equals the frame that fits it, b
       given.a_minimum_zone = nominal.a.minimum_zone;
       const DatumFrameResult f = establish_datum_frame(test::paired(datums, {face}), side, fitted);
       const DatumFrameResult g = establish_datum_frame(test::paired(datums, {face}), side, given);
-      CHECK(g.frame.rotation == f.frame.rotation);
-      CHECK(g.frame.origin == f.frame.origin);
-      CHECK(g.a.plane.normal == f.a.plane.normal);
-      CHECK(g.a.plane.point == f.a.plane.point);
-      CHECK(g.a.plane.residuals.values == f.a.plane.residuals.values);
-      CHECK(g.a.plane.residuals.form == f.a.plane.residuals.form);
-      CHECK(g.a.plane.residuals.rms == f.a.plane.residuals.rms);
-      CHECK(g.a.plane.summary.message == f.a.plane.summary.message);
-      CHECK(g.a.plane.summary.warnings == f.a.plane.summary.warnings);
+      check_same_frame_and_a(g, f);
       CHECK(g.a.flatness == f.a.flatness);
       CHECK(g.notes == f.notes);
     }
@@ -874,6 +881,27 @@ TEST_CASE("A's flatness fitted beside B and C: the serial order's bits and notes
   }
 }
 
+// proud_a_b_c's part under the generic motion, with its datums and A's material side.
+struct ProudPart {
+  Motion motion = generic_motion();
+  std::vector<PlanDatum> datums = a_b_c_bores();
+  std::vector<PointCloud> clouds = proud_a_b_c(motion);
+  Eigen::Vector3d into_material = motion.direction(-Eigen::Vector3d::UnitZ());
+};
+
+// Two stray-point screens of the same points agree bit for bit: the count screened, the robust
+// scale and every flagged point's index, residual and excess.
+void check_same_screen(const StrayPointReport& got, const StrayPointReport& want) {
+  CHECK(got.screened == want.screened);
+  CHECK(got.robust_scale == want.robust_scale);
+  REQUIRE(got.points.size() == want.points.size());
+  for (std::size_t k = 0; k < got.points.size(); ++k) {
+    CHECK(got.points[k].index == want.points[k].index);
+    CHECK(got.points[k].residual == want.points[k].residual);
+    CHECK(got.points[k].excess == want.points[k].excess);
+  }
+}
+
 TEST_CASE("A's screen left to screen_datum_a: the frame that screens A itself, bit for bit",
           "[datum][frame][scan]") {
   // Reference: the frame's own screen of A (the computation screen_datum_a takes off the frame,
@@ -903,14 +931,7 @@ TEST_CASE("A's screen left to screen_datum_a: the frame that screens A itself, b
     CHECK(r.frame.origin == own.frame.origin);
     deferred.fit.threads = deferred.stray_points.threads = threads;
     screen_datum_a(clouds[0], r, deferred);
-    CHECK(r.a.stray_points.screened == own.a.stray_points.screened);
-    CHECK(r.a.stray_points.robust_scale == own.a.stray_points.robust_scale);
-    REQUIRE(r.a.stray_points.points.size() == own.a.stray_points.points.size());
-    for (std::size_t k = 0; k < r.a.stray_points.points.size(); ++k) {
-      CHECK(r.a.stray_points.points[k].index == own.a.stray_points.points[k].index);
-      CHECK(r.a.stray_points.points[k].residual == own.a.stray_points.points[k].residual);
-      CHECK(r.a.stray_points.points[k].excess == own.a.stray_points.points[k].excess);
-    }
+    check_same_screen(r.a.stray_points, own.a.stray_points);
     CHECK(r.notes == own.notes);
     CHECK_THAT(r.notes.front(), Contains("datum A:") && Contains("suspect"));
   }
@@ -921,4 +942,54 @@ TEST_CASE("A's screen left to screen_datum_a: the frame that screens A itself, b
       establish_datum_frame(test::paired(datums, clouds), into_material, deferred);
   released.a.plane.residuals.values = Eigen::VectorXd();
   CHECK_THROWS_AS(screen_datum_a(clouds[0], released, deferred), std::invalid_argument);
+}
+
+TEST_CASE("a frame given A's least-squares plane equals the frame that fits it, bit for bit",
+          "[datum][frame][scan]") {
+  // Reference: the same frame fitting A's least-squares plane itself (the computation the given
+  // plane replaces: the tangent plane's start, the least-squares association and A's screen
+  // each fitted it), with A's screen in the frame and deferred to screen_datum_a. Face A
+  // carries one point 0.5 mm proud of the others, so that the screen flags it and places a note.
+  const ProudPart part;
+  const std::vector<PlanDatum>& datums = part.datums;
+  const std::vector<PointCloud>& clouds = part.clouds;
+  const Eigen::Vector3d& into_material = part.into_material;
+  // With its residual values, and without them (evaluate_part's: the tangent plane's start
+  // only; the least-squares association and the screen then fit their own).
+  const auto least_squares = std::make_shared<const PlaneFit>(fit_plane_least_squares(clouds[0].points));
+  auto released = std::make_shared<PlaneFit>(*least_squares);
+  released->residuals.values = Eigen::VectorXd();
+  for (const PlaneAssociation method :
+       {PlaneAssociation::tangent_least_squares, PlaneAssociation::least_squares,
+        PlaneAssociation::minimum_zone}) {
+    for (const int variant : {0, 1, 2, 3}) {
+      const bool defer = variant % 2 == 1;
+      const bool values = variant < 2;
+      INFO(std::string(association_name(method)) << (defer ? ", screen deferred" : "")
+                                                 << (values ? "" : ", values released"));
+      DatumFrameOptions fitted;
+      fitted.a_association = method;
+      fitted.defer_a_screen = defer;
+      DatumFrameOptions given = fitted;
+      given.a_least_squares = values ? least_squares : released;
+      DatumFrameResult f = establish_datum_frame(test::paired(datums, clouds), into_material, fitted);
+      DatumFrameResult g = establish_datum_frame(test::paired(datums, clouds), into_material, given);
+      if (defer) {
+        screen_datum_a(clouds[0], f, fitted);
+        screen_datum_a(clouds[0], g, given);
+      }
+      check_same_frame_and_a(g, f);
+      REQUIRE(g.b);
+      CHECK(g.b->axis_on_a == f.b->axis_on_a);
+      REQUIRE(!f.a.stray_points.points.empty());
+      check_same_screen(g.a.stray_points, f.a.stray_points);
+      CHECK(g.notes == f.notes);
+    }
+  }
+  // A plane of other points is refused.
+  DatumFrameOptions wrong;
+  wrong.a_least_squares =
+      std::make_shared<const PlaneFit>(fit_plane_least_squares(clouds[0].points.leftCols(500)));
+  CHECK_THROWS_AS(establish_datum_frame(test::paired(datums, clouds), into_material, wrong),
+                  std::invalid_argument);
 }

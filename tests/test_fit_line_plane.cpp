@@ -6,10 +6,12 @@
 #include <Eigen/Geometry>
 #include <cmath>
 #include <limits>
+#include <random>
 
 #include "cylzone/core/errors.hpp"
 #include "cylzone/fit/fit_line.hpp"
 #include "cylzone/fit/fit_plane.hpp"
+#include "detail/fit_support.hpp"
 #include "reference_data.hpp"
 
 using namespace cylzone;
@@ -199,4 +201,36 @@ TEST_CASE("coordinates whose squares overflow are FitErrors, not NaN elements",
   with_nan(1, 7) = std::numeric_limits<double>::quiet_NaN();
   CHECK_THROWS_WITH(fit_plane_least_squares(with_nan), Contains("not finite"));
   CHECK_THROWS_WITH(fit_line_least_squares(with_nan), Contains("not finite"));
+}
+
+TEST_CASE("least-squares plane of a dense face: the bits of the whole-cloud computation",
+          "[fit][plane]") {
+  // Reference: the computation the blocks replace (detail/local_blocks.hpp): the whole cloud's
+  // local coordinates in one product, the normal matrix summed over them in order, the
+  // residuals their third row. 10,007 points cross two block edges.
+  std::mt19937_64 rng(10007);
+  std::uniform_real_distribution<double> x(-60.0, 60.0), y(-45.0, 45.0), z(-0.002, 0.002);
+  Eigen::Matrix3Xd local_points(3, 10007);
+  for (Eigen::Index k = 0; k < local_points.cols(); ++k)
+    local_points.col(k) << x(rng), y(rng), z(rng);
+  const Eigen::Matrix3d turn =
+      Eigen::AngleAxisd(0.4, Eigen::Vector3d(1.0, 2.0, -0.5).normalized()).toRotationMatrix();
+  const Eigen::Matrix3Xd points = (turn * local_points).colwise() + Eigen::Vector3d(-310.0, 45.5, 812.25);
+  const PlaneFit fit = fit_plane_least_squares(points);
+
+  const Eigen::Matrix3d basis = detail::basis_from_direction(fit.normal);
+  const Eigen::Matrix3Xd local = detail::local_coordinates(points, fit.point, basis);
+  Eigen::Matrix3d jtj = Eigen::Matrix3d::Zero();
+  for (Eigen::Index i = 0; i < local.cols(); ++i) {
+    const Eigen::Vector3d j(1.0, local(0, i), local(1, i));
+    jtj.noalias() += j * j.transpose();
+  }
+  const Eigen::VectorXd distance = local.row(2).transpose();
+  const Eigen::MatrixXd covariance = detail::covariance_from_normal_matrix(
+      jtj, distance.squaredNorm(), static_cast<std::size_t>(points.cols()));
+  CHECK(fit.residuals.values == distance);
+  CHECK(fit.covariance.basis == basis);
+  CHECK(fit.covariance.matrix == covariance);
+  // And the plane is the face's: its normal is the turned z axis (the noise is 2 um in z).
+  CHECK(std::abs(fit.normal.dot(turn.col(2))) == Approx(1.0).margin(1e-9));
 }

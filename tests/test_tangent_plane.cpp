@@ -23,6 +23,7 @@
 #include <filesystem>
 #include <random>
 #include <sstream>
+#include <stdexcept>
 #include <string>
 #include <vector>
 
@@ -180,6 +181,35 @@ TEST_CASE("tangent least-squares plane with constraint screening on a large clou
     const PlaneFit fit = fit_plane_tangent_least_squares(s.points, s.material_side);
     check_orthogonal_kkt(s.points, fit);
   }
+}
+
+TEST_CASE("tangent least-squares plane started from the caller's least-squares plane: the same "
+          "bits",
+          "[datum][tangent]") {
+  // Reference: the call that fits its own start (fit_plane_least_squares, the computation the
+  // caller's plane replaces when it fitted that plane already), on clouds below and above the
+  // screening limit and across the 4096-column blocks of the local coordinates.
+  for (const std::size_t n : {300u, 20000u}) {
+    for (const Surface& s : tangent_plane_cases(n)) {
+      INFO(s.name << ", " << n << " points");
+      const PlaneFit own = fit_plane_tangent_least_squares(s.points, s.material_side);
+      const PlaneFit given = fit_plane_tangent_least_squares(
+          s.points, s.material_side, fit_plane_least_squares(s.points), FitOptions{});
+      CHECK(given.normal == own.normal);
+      CHECK(given.point == own.point);
+      CHECK(given.residuals.values == own.residuals.values);
+      CHECK(given.residuals.form == own.residuals.form);
+      CHECK(given.residuals.rms == own.residuals.rms);
+      CHECK(given.summary.iterations == own.summary.iterations);
+      CHECK(given.summary.message == own.summary.message);
+    }
+  }
+  // A start of other points is refused.
+  const Surface s = tangent_plane_cases(300).front();
+  CHECK_THROWS_AS(fit_plane_tangent_least_squares(s.points, s.material_side,
+                                                  fit_plane_least_squares(s.points.leftCols(100)),
+                                                  FitOptions{}),
+                  std::invalid_argument);
 }
 
 TEST_CASE("tangent planes of exactly planar points are the plane", "[datum][tangent]") {

@@ -6,6 +6,7 @@
 
 #include <algorithm>
 #include <map>
+#include <memory>
 #include <stdexcept>
 #include <string>
 #include <utility>
@@ -269,6 +270,18 @@ PartEvaluation evaluate_part(const PartPlan& plan, const PartInputs& inputs,
   const BoreEvaluationOptions stage = stage_options(options, threads);
   PartEvaluation result;
 
+  // A's least-squares plane, with the options the frame fits A's planes with (no direction
+  // held, no hint; fit_plane_least_squares reads nothing else of them): fitted once here and
+  // shared with the frame (DatumFrameOptions::a_least_squares) as the tangent plane's start,
+  // the least-squares association and A's screen, which each fitted it again on a dense face.
+  // Its residual values are released before the frame (one value a point of A, held through
+  // the frame's busiest stage they would raise the run's peak): the frame then takes it as
+  // the tangent plane's start only, and A's screen fits its own beside the bores.
+  FitOptions plane_fit = stage.fit;
+  plane_fit.fixed_direction.reset();
+  plane_fit.axis_hint.reset();
+  std::shared_ptr<PlaneFit> a_least_squares;
+
   // Which side of A is material: from the plan, or the side the bores' points lie on.
   const PlanDatum& a = plan.datums.front();
   bool inferred = false;
@@ -278,8 +291,12 @@ PartEvaluation evaluate_part(const PartPlan& plan, const PartInputs& inputs,
     std::vector<const Eigen::Matrix3Xd*> bore_points;
     for (const PointCloud& cloud : inputs.bores) bore_points.push_back(&cloud.points);
     result.material_side = for_feature("datum A", [&] {
-      return infer_material_side(fit_plane_least_squares(inputs.datums.front().points, stage.fit),
-                                 bore_points);
+      if (stage.fit.axis_hint)
+        return infer_material_side(
+            fit_plane_least_squares(inputs.datums.front().points, stage.fit), bore_points);
+      a_least_squares = std::make_shared<PlaneFit>(
+          fit_plane_least_squares(inputs.datums.front().points, plane_fit));
+      return infer_material_side(*a_least_squares, bore_points);
     });
     inferred = true;
   }
@@ -293,7 +310,20 @@ PartEvaluation evaluate_part(const PartPlan& plan, const PartInputs& inputs,
   // frame the bores use depends on it: it runs below, beside the bores (screen_datum_a).
   frame.defer_a_screen = frame.stray_screen;
   const std::vector<DatumInput> datums = datum_inputs(plan, result, inputs);
+  // The plane above is of A's raw points: not the frame's when A was prepared. A tangent or
+  // least-squares association fits it first thing in the frame, so fitting it here instead
+  // fails (if at all) with the same message at the same point.
+  if (&datums.front().points != &inputs.datums.front()) a_least_squares.reset();
+  if (!a_least_squares && (a.association == PlaneAssociation::tangent_least_squares ||
+                           a.association == PlaneAssociation::least_squares))
+    a_least_squares = for_feature("datum A", [&] {
+      return std::make_shared<PlaneFit>(
+          fit_plane_least_squares(datums.front().points.points, plane_fit));
+    });
+  if (a_least_squares) a_least_squares->residuals.values = Eigen::VectorXd();
+  frame.a_least_squares = std::move(a_least_squares);
   result.datums = establish_datum_frame(datums, result.material_side, frame);
+  frame.a_least_squares.reset();
   result.datums.a.material_side_inferred = inferred;
   // A's residual values are read by its screen's note, and released after it.
   release_datum_residuals(result.datums, stage.residuals_kept_up_to, !frame.defer_a_screen);

@@ -126,23 +126,28 @@ PlaneFit with_residuals(const Eigen::Matrix3Xd& points, PlaneFit zone) {
 
 // Datum plane A by its association method; normal out of the material, residuals along it.
 // `zone_of_a` gives A's minimum-zone plane (fitted once per frame, or the caller's): the
-// minimum-zone and tangent minimax associations are built on it.
+// minimum-zone and tangent minimax associations are built on it. `least_squares`, when not
+// null, is A's least-squares plane with `fit` (the caller's, DatumFrameOptions::
+// a_least_squares): the tangent least-squares plane starts from it and the least-squares
+// association is it, rather than a fit of its own.
 template <class ZoneOfA>
 PlaneFit associate_plane(const Eigen::Matrix3Xd& points, PlaneAssociation method,
                          const Eigen::Vector3d& material_side, const FitOptions& fit,
-                         ZoneOfA&& zone_of_a) {
+                         ZoneOfA&& zone_of_a, const PlaneFit* least_squares) {
   switch (method) {
     case PlaneAssociation::tangent_least_squares:
-      return fit_plane_tangent_least_squares(points, material_side, fit);
+      return least_squares
+                 ? fit_plane_tangent_least_squares(points, material_side, *least_squares, fit)
+                 : fit_plane_tangent_least_squares(points, material_side, fit);
     case PlaneAssociation::tangent_minimax:
       return tangent_minimax_from_zone(points, zone_of_a(), material_side);
     case PlaneAssociation::least_squares:
     case PlaneAssociation::minimum_zone:
       break;
   }
-  PlaneFit plane = method == PlaneAssociation::least_squares
-                       ? fit_plane_least_squares(points, fit)
-                       : with_residuals(points, zone_of_a());
+  PlaneFit plane = method != PlaneAssociation::least_squares ? with_residuals(points, zone_of_a())
+                   : least_squares                            ? *least_squares
+                                                              : fit_plane_least_squares(points, fit);
   const Eigen::Vector3d side = detail::checked_direction(material_side, "the material side of A");
   const double cosine = plane.normal.dot(side);
   if (std::abs(cosine) < least_material_cosine)
@@ -520,6 +525,23 @@ ClockingWidthResult associate_clocking_width(const PlanDatum& datum, const Point
   return result;
 }
 
+// The caller's least-squares plane of A (DatumFrameOptions::a_least_squares) when given and,
+// if `with_values`, holding its residual values; else null (the reader fits its own). Another
+// point count is the caller's error.
+const PlaneFit* a_least_squares_of(const PointCloud& a_points, const DatumFrameOptions& options,
+                                   bool with_values) {
+  if (!options.a_least_squares) return nullptr;
+  const PlaneFit& plane = *options.a_least_squares;
+  if (plane.summary.point_count != a_points.size())
+    throw std::invalid_argument(
+        "establish_datum_frame: the given least-squares plane of A is of " +
+        std::to_string(plane.summary.point_count) + " points, A has " +
+        std::to_string(a_points.size()));
+  if (with_values && static_cast<std::size_t>(plane.residuals.values.size()) != a_points.size())
+    return nullptr;
+  return &plane;
+}
+
 // Stray-point screen of A on its least-squares plane's residuals (stray_points.hpp), and its
 // note, placed first among `notes`: A's association writes no note, so in the frame's serial
 // order A's comes before B's and C's. A tangent plane rests on its highest points (residual 0);
@@ -535,6 +557,13 @@ void screen_plane_a(const PointCloud& cloud, const DatumFrameOptions& options,
     screen.fit.fixed_direction.reset();
     screen.fit.axis_hint.reset();
     screen.outward = a.plane.normal;
+    // The caller's least-squares plane (the same fit as the screen's own, see
+    // a_least_squares_of): its residuals turned as prepare turns its own plane's, so that a
+    // point standing proud of the surface is positive.
+    if (const PlaneFit* own = a_least_squares_of(cloud, options, true)) {
+      const bool turned = own->normal.dot(*screen.outward) < 0.0;
+      screen.residuals = turned ? Eigen::VectorXd(-own->residuals.values) : own->residuals.values;
+    }
     return screen_feature(FeatureKind::plane, cloud, screen);
   });
   std::vector<std::size_t> contacts;
@@ -624,9 +653,13 @@ DatumFrameResult establish_datum_frame(const std::vector<DatumInput>& datums,
     if (!zone) zone = fit_plane_minimum_zone(cloud_of(0).points, plane_fit);
     return *zone;
   };
+  // The tangent plane's start needs the normal only; the least-squares association is the
+  // whole plane, residual values included.
+  const PlaneFit* a_least_squares = a_least_squares_of(
+      cloud_of(0), options, result.a.association == PlaneAssociation::least_squares);
   result.a.plane = for_datum(a_datum.label, [&] {
     return associate_plane(cloud_of(0).points, result.a.association, a_material_side, plane_fit,
-                           zone_of_a);
+                           zone_of_a, a_least_squares);
   });
   const bool zone_known = result.a.association == PlaneAssociation::tangent_minimax ||
                           result.a.association == PlaneAssociation::minimum_zone;

@@ -38,12 +38,14 @@
 #include <cstddef>
 #include <limits>
 #include <numeric>
+#include <stdexcept>
 #include <string>
 #include <vector>
 
 #include "cylzone/core/errors.hpp"
 #include "datum/detail/constrained_least_squares.hpp"
 #include "detail/fit_support.hpp"
+#include "detail/local_blocks.hpp"
 #include "datum/detail/tangent_line.hpp"
 
 namespace cylzone {
@@ -101,26 +103,41 @@ TangentSolution<D> tangent_least_squares(const Points<D>& points, Vector<D> outw
   Vector<D> on_plane = centroid;
   std::vector<char> previous_contact(static_cast<std::size_t>(n), 0);
   double previous_tilt = std::numeric_limits<double>::infinity();
+  // The per-point arrays of a step are allocated once and overwritten by every step: on a
+  // dense face each step's fresh arrays cost more in the system's zeroing of new pages than in
+  // the arithmetic that fills them. The local coordinates are taken a block at a time
+  // (detail/local_blocks.hpp: each column the same products as the whole-cloud expression), so
+  // no D x n copy is held. Every value is computed by the same expression as before.
+  Points<D> local;
+  Eigen::VectorXd heights(n);
+  Eigen::MatrixXd design(n, unknowns);
+  design.col(0).setOnes();
+  Eigen::VectorXd row_norm(n);
+  Eigen::VectorXd clearance(n);
+  std::vector<char> candidate(static_cast<std::size_t>(n));
+  std::vector<Eigen::Index> order(static_cast<std::size_t>(n > full_constraint_limit ? n : 0));
+  // Height of the plane x above each point (>= 0 when feasible): design x - heights, the
+  // product evaluated as Eigen evaluates it inside that expression.
+  const auto clearance_of = [&](const Eigen::VectorXd& x) {
+    clearance.noalias() = design * x;
+    clearance -= heights;
+  };
   for (int iteration = 1;; ++iteration) {
     const Eigen::Matrix<double, D, D> basis = frame_at(outward);
-    // The local coordinates are released once the heights and the design are taken from them
-    // (a dense face's D x n copy, alive through the whole step otherwise).
-    Eigen::VectorXd heights;
-    Eigen::MatrixXd design(n, unknowns);
-    {
-      const Points<D> local = basis.transpose() * (points.colwise() - centroid);
-      heights = local.row(D - 1).transpose();
-      // Slopes are scaled by the data's size so that every unknown is a length.
-      design.col(0).setOnes();
-      for (int k = 0; k + 1 < D; ++k) design.col(k + 1) = local.row(k).transpose() / scale;
-    }
+    detail::for_each_local_block<D>(
+        points, centroid, basis, local, [&](Eigen::Index start, const auto& block) {
+          const Eigen::Index len = block.cols();
+          heights.segment(start, len) = block.row(D - 1).transpose();
+          // Slopes are scaled by the data's size so that every unknown is a length.
+          for (int k = 0; k + 1 < D; ++k)
+            design.col(k + 1).segment(start, len) = block.row(k).transpose() / scale;
+        });
     const detail::LeastSquaresObjective objective(design, heights);
 
-    std::vector<char> candidate(static_cast<std::size_t>(n), 0);
     if (n <= full_constraint_limit) {
       std::fill(candidate.begin(), candidate.end(), char(1));
     } else {
-      std::vector<Eigen::Index> order(static_cast<std::size_t>(n));
+      std::fill(candidate.begin(), candidate.end(), char(0));
       std::iota(order.begin(), order.end(), Eigen::Index(0));
       std::nth_element(order.begin(), order.begin() + screened_candidates, order.end(),
                        [&](Eigen::Index a, Eigen::Index b) {
@@ -135,7 +152,7 @@ TangentSolution<D> tangent_least_squares(const Points<D>& points, Vector<D> outw
     // Start: the current plane moved out to the highest point, feasible for every point.
     Eigen::VectorXd x = Eigen::VectorXd::Zero(unknowns);
     x(0) = heights.maxCoeff();
-    const Eigen::VectorXd row_norm = design.rowwise().norm();
+    row_norm = design.rowwise().norm();
     for (;;) {
       std::vector<Eigen::Index> rows;
       for (Eigen::Index i = 0; i < n; ++i)
@@ -149,7 +166,7 @@ TangentSolution<D> tangent_least_squares(const Points<D>& points, Vector<D> outw
       }
       x = detail::solve_constrained_least_squares(objective, constraints, bounds, x, lsi).x;
       // Height of the plane above each point: must be >= 0 within the tolerance.
-      const Eigen::VectorXd clearance = design * x - heights;
+      clearance_of(x);
       bool violated = false;
       for (Eigen::Index i = 0; i < n; ++i) {
         if (clearance(i) < -lsi.feasibility_tolerance * row_norm(i)) {
@@ -166,7 +183,7 @@ TangentSolution<D> tangent_least_squares(const Points<D>& points, Vector<D> outw
     local_normal << -slope, 1.0;
     on_plane = centroid + x(0) * basis.col(D - 1);
     outward = (basis * local_normal).normalized();
-    const Eigen::VectorXd clearance = design * x - heights;
+    clearance_of(x);
     for (Eigen::Index i = 0; i < n; ++i)
       previous_contact[static_cast<std::size_t>(i)] =
           clearance(i) <= lsi.feasibility_tolerance * row_norm(i) ? 1 : 0;
@@ -224,9 +241,21 @@ PlaneFit fit_plane_tangent_least_squares(const Eigen::Matrix3Xd& points,
                                          const Eigen::Vector3d& material_side,
                                          const FitOptions& options) {
   // The least-squares plane checks the points (count, collinearity) and is the start.
-  const PlaneFit start = fit_plane_least_squares(points, options);
+  return fit_plane_tangent_least_squares(points, material_side,
+                                         fit_plane_least_squares(points, options), options);
+}
+
+PlaneFit fit_plane_tangent_least_squares(const Eigen::Matrix3Xd& points,
+                                         const Eigen::Vector3d& material_side,
+                                         const PlaneFit& least_squares,
+                                         const FitOptions& options) {
+  if (least_squares.summary.point_count != static_cast<std::size_t>(points.cols()))
+    throw std::invalid_argument(
+        "fit_plane_tangent_least_squares: the least-squares start is of " +
+        std::to_string(least_squares.summary.point_count) + " points, not " +
+        std::to_string(points.cols()));
   const TangentSolution<3> tangent = tangent_least_squares<3>(
-      points, oriented_outward<3>(start.normal, material_side, "plane"), options);
+      points, oriented_outward<3>(least_squares.normal, material_side, "plane"), options);
   PlaneFit fit;
   fit.point = tangent.point;
   fit.normal = tangent.normal;

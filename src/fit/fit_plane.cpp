@@ -4,6 +4,7 @@
 #include "cylzone/core/errors.hpp"
 #include "cylzone/fit/fit_plane.hpp"
 #include "detail/fit_support.hpp"
+#include "detail/local_blocks.hpp"
 
 namespace cylzone {
 
@@ -24,14 +25,20 @@ PlaneFit fit_plane_least_squares(const Eigen::Matrix3Xd& points, const FitOption
 
   // Local frame (u, v, w = normal) at the point: residual z_w - (offset_w + slope_u x_u +
   // slope_v y_v), so J rows are (1, x_u, y_v) up to sign.
+  // The local coordinates are read once each, a block at a time (detail/local_blocks.hpp: the
+  // same bits as the whole-cloud copy, which a dense face would allocate at every fit).
   const Eigen::Matrix3d basis = detail::basis_from_direction(fit.normal);
-  const Eigen::Matrix3Xd local = detail::local_coordinates(points, fit.point, basis);
+  Eigen::Matrix3Xd buffer;
   Eigen::Matrix3d jtj = Eigen::Matrix3d::Zero();
-  for (Eigen::Index i = 0; i < local.cols(); ++i) {
-    const Eigen::Vector3d j(1.0, local(0, i), local(1, i));
-    jtj.noalias() += j * j.transpose();
-  }
-  Eigen::VectorXd distance = local.row(2).transpose();
+  Eigen::VectorXd distance(points.cols());
+  detail::for_each_local_block<3>(
+      points, fit.point, basis, buffer, [&](Eigen::Index start, const auto& local) {
+        for (Eigen::Index i = 0; i < local.cols(); ++i) {
+          const Eigen::Vector3d j(1.0, local(0, i), local(1, i));
+          jtj.noalias() += j * j.transpose();
+        }
+        distance.segment(start, local.cols()) = local.row(2).transpose();
+      });
   const double ssr = distance.squaredNorm();
   fit.covariance.basis = basis;
   fit.covariance.matrix = detail::covariance_from_normal_matrix(jtj, ssr, n);

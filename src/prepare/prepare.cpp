@@ -36,16 +36,9 @@ Eigen::VectorXd element_residuals(FeatureKind kind, const Eigen::Matrix3Xd& poin
   return {};
 }
 
-/// Residuals for the stray-point screen: the caller's, or the element's.
+/// Residuals of the feature's own element for the stray-point screen (the caller gave none).
 Eigen::VectorXd screening_residuals(FeatureKind kind, const PointCloud& cloud,
                                     const PrepareOptions& options) {
-  if (options.residuals.size() > 0) {
-    if (options.residuals.size() != cloud.points.cols())
-      throw std::invalid_argument("prepare_feature: " + std::to_string(options.residuals.size()) +
-                                  " residuals for " + std::to_string(cloud.points.cols()) +
-                                  " points");
-    return options.residuals;
-  }
   if (kind == FeatureKind::plane && !options.outward)
     throw std::invalid_argument("prepare_feature: a plane needs its outward direction");
   Eigen::VectorXd r = element_residuals(kind, cloud.points, options);
@@ -60,6 +53,14 @@ Eigen::VectorXd screening_residuals(FeatureKind kind, const PointCloud& cloud,
 StrayPointReport screen_points(FeatureKind kind, const PointCloud& cloud,
                                const PrepareOptions& options) {
   if (!options.stray_screen || cloud.size() <= options.stray_points.neighbours) return {};
+  // The caller's residuals are read where they are: a dense face's are one value a point.
+  if (options.residuals.size() > 0) {
+    if (options.residuals.size() != cloud.points.cols())
+      throw std::invalid_argument("prepare_feature: " + std::to_string(options.residuals.size()) +
+                                  " residuals for " + std::to_string(cloud.points.cols()) +
+                                  " points");
+    return find_stray_points(cloud.points, options.residuals, options.stray_points);
+  }
   return find_stray_points(cloud.points, screening_residuals(kind, cloud, options),
                            options.stray_points);
 }

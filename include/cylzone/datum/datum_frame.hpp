@@ -12,6 +12,7 @@
 ///  * y = z cross x (right-handed). Depths inside the material are negative z.
 
 #include <Eigen/Core>
+#include <memory>
 #include <optional>
 #include <string>
 #include <vector>
@@ -154,6 +155,15 @@ struct DatumFrameOptions {
   /// fitting it again, with the same bits (the association study builds four more frames on
   /// a dense scan's face). Its point count must be A's (else std::invalid_argument).
   std::optional<PlaneFit> a_minimum_zone;
+  /// Datum A's least-squares plane (fit_plane_least_squares) of the SAME points, fitted with
+  /// `fit` less its fixed_direction and axis_hint (the options the frame fits A's planes
+  /// with): the frame takes it as the tangent least-squares plane's start and, when it holds
+  /// its residual values, as the least-squares association and for A's screen (also
+  /// screen_datum_a), instead of fitting it again, with the same bits (evaluate_part fits it
+  /// once, for the material side too, and releases its values). Shared, not copied: its values
+  /// are one per point of a dense face. Its point count must be A's (else
+  /// std::invalid_argument).
+  std::shared_ptr<const PlaneFit> a_least_squares;
   /// The prepare stage of each datum feature (prepare.hpp): the stray-point screen, on or off.
   bool stray_screen = true;
   StrayPointOptions stray_points;

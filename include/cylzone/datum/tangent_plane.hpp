@@ -28,6 +28,15 @@ PlaneFit fit_plane_tangent_least_squares(const Eigen::Matrix3Xd& points,
                                          const Eigen::Vector3d& material_side,
                                          const FitOptions& options = {});
 
+/// As above, started from `least_squares`, the points' least-squares plane as
+/// fit_plane_least_squares(points, options) returns it (the caller fitted it already, e.g. for
+/// the material side): the same bits as the call above, which fits it itself. Its point count
+/// must be the points' (else std::invalid_argument).
+PlaneFit fit_plane_tangent_least_squares(const Eigen::Matrix3Xd& points,
+                                         const Eigen::Vector3d& material_side,
+                                         const PlaneFit& least_squares,
+                                         const FitOptions& options = {});
+
 PlaneFit fit_plane_tangent_minimax(const Eigen::Matrix3Xd& points,
                                    const Eigen::Vector3d& material_side,
                                    const FitOptions& options = {});
