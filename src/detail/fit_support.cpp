@@ -1,4 +1,5 @@
 #include "detail/fit_support.hpp"
+#include "detail/local_blocks.hpp"
 
 #include <Eigen/Eigenvalues>
 #include <Eigen/Geometry>
@@ -61,8 +62,8 @@ void local_coordinates_into(const Eigen::Matrix3Xd& points, const Eigen::Vector3
                             const Eigen::Matrix3d& basis, Eigen::Matrix3Xd& local) {
   // Each column is the same three products and two sums whichever block it falls in (the
   // expression is local_coordinates' own, so Eigen picks the same kernels); test_fit_support
-  // checks the bits across block edges.
-  constexpr Eigen::Index block = 4096;
+  // checks the bits across block edges. The block width is the one for_each_local_block uses.
+  constexpr Eigen::Index block = local_block_columns;
   const Eigen::Index n = points.cols();
   local.resize(3, n);
   for (Eigen::Index start = 0; start < n; start += block) {
