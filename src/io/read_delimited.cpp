@@ -16,7 +16,6 @@
 #include "cylzone/core/errors.hpp"
 #include "cylzone/io/read_points.hpp"
 #include "io/detail/delimited_text.hpp"
-#include "io/detail/page_hints.hpp"
 #include "io/detail/text_parsing.hpp"
 
 namespace cylzone {
@@ -296,11 +295,9 @@ PointCloud parse_delimited_unguarded(std::string_view text, const std::string& s
   // Upper bound on the number of points: the number of lines from the first data line on.
   const std::size_t capacity = count_lines(line.begin, end);
   Eigen::Matrix3Xd points(3, static_cast<Eigen::Index>(capacity));
-  detail::prefer_huge_pages(points.data(), sizeof(double) * 3 * capacity);
   Eigen::Matrix3Xd vectors;
   if (columns.has_vectors) {
     vectors.resize(3, static_cast<Eigen::Index>(capacity));
-    detail::prefer_huge_pages(vectors.data(), sizeof(double) * 3 * capacity);
   }
   const double scale = millimetres_per(options.unit);
   const int used_roles = columns.has_vectors ? 6 : 3;

@@ -18,7 +18,6 @@
 
 #include "cylzone/core/errors.hpp"
 #include "io/detail/mesh_scan.hpp"
-#include "io/detail/page_hints.hpp"
 #include "io/detail/text_parsing.hpp"
 
 namespace cylzone::detail {
@@ -444,11 +443,9 @@ ScanResult scan_ply(std::string_view bytes, const std::string& source) {
   }
 
   Eigen::Matrix3Xd points(3, static_cast<Eigen::Index>(vertex.count));
-  prefer_huge_pages(points.data(), sizeof(double) * 3 * vertex.count);
   Eigen::Matrix3Xd normals;
   if (layout.has_normals) {
     normals.resize(3, static_cast<Eigen::Index>(vertex.count));
-    prefer_huge_pages(normals.data(), sizeof(double) * 3 * vertex.count);
   }
   const int roles = layout.has_normals ? 6 : 3;
   std::vector<int> role_lookup(vertex.properties.size(), -1);

@@ -13,7 +13,6 @@
 #include "cylzone/core/errors.hpp"
 #include "cylzone/io/load.hpp"
 #include "cylzone/io/read_points.hpp"
-#include "io/detail/page_hints.hpp"
 #include "io/detail/read_mesh.hpp"
 
 namespace cylzone {
@@ -63,7 +62,6 @@ LoadedFile load(const std::filesystem::path& file) {
   const auto expected = std::filesystem::file_size(file, ec);
   const std::size_t capacity = ec ? 0 : static_cast<std::size_t>(expected);
   loaded.data_.reset(new char[capacity > 0 ? capacity : 1]);
-  detail::prefer_huge_pages(loaded.data_.get(), capacity);
   loaded.size_ = std::fread(loaded.data_.get(), 1, capacity, stream.get());
   // The size can change between stat and read (a file still being written): read to the end.
   char chunk[65536];
