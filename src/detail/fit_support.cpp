@@ -146,9 +146,20 @@ double true_angle(double diamond) {
 }
 }  // namespace
 
+namespace {
+constexpr double pi = 3.14159265358979323846;
+constexpr double tan_pi_8 = 0.41421356237309504880;  // sqrt(2) - 1
+// atan(s) = s sum_k (-1)^k w^k / (2k + 1), w = s^2; alternating, so the remainder after k = 17
+// is below w^18 / 37 <= 4.5e-16 (relative) for w <= tan^2(pi/8) = 0.1716.
+constexpr int atan_terms = 18;
+constexpr std::array<double, atan_terms> atan_coefficient = [] {
+  std::array<double, atan_terms> c{};
+  for (int k = 0; k < atan_terms; ++k) c[k] = (k % 2 == 0 ? 1.0 : -1.0) / (2 * k + 1);
+  return c;
+}();
+}  // namespace
+
 double polar_angle(double x, double y) noexcept {
-  constexpr double pi = 3.14159265358979323846;
-  constexpr double tan_pi_8 = 0.41421356237309504880;  // sqrt(2) - 1
   const double ax = std::abs(x), ay = std::abs(y);
   const double big = std::max(ax, ay);
   if (big == 0.0) return 0.0;
@@ -157,21 +168,54 @@ double polar_angle(double x, double y) noexcept {
   const bool upper = t > tan_pi_8;
   const double s = upper ? (t - 1.0) / (t + 1.0) : t;
   const double w = s * s;
-  // atan(s) = s sum_k (-1)^k w^k / (2k + 1); alternating, so the remainder after k = 17 is below
-  // w^18 / 37 <= 4.5e-16 (relative) for w <= tan^2(pi/8) = 0.1716.
-  static constexpr int terms = 18;
-  static constexpr std::array<double, terms> coefficient = [] {
-    std::array<double, terms> c{};
-    for (int k = 0; k < terms; ++k) c[k] = (k % 2 == 0 ? 1.0 : -1.0) / (2 * k + 1);
-    return c;
-  }();
-  double series = coefficient[terms - 1];
-  for (int k = terms - 2; k >= 0; --k) series = coefficient[k] + w * series;
+  double series = atan_coefficient[atan_terms - 1];
+  for (int k = atan_terms - 2; k >= 0; --k) series = atan_coefficient[k] + w * series;
   double a = s * series + (upper ? pi / 4.0 : 0.0);
   if (ay > ax) a = pi / 2.0 - a;
   if (x < 0.0) a = pi - a;
   if (y < 0.0) a = 2.0 * pi - a;
   return a;
+}
+
+void polar_angles(const double* xy, std::size_t n, double* angle) noexcept {
+  // Two lanes (the x86-64 baseline's SSE2 width; portable vector extensions of GCC and Clang):
+  // each lane runs polar_angle's operations in its order, IEEE-rounded the same (no
+  // contraction into fused multiply-adds: the baseline has none), and each branch becomes a
+  // select, so every lane is polar_angle's result to the bit (test_fit_support checks it).
+  typedef double Lane2 __attribute__((vector_size(16)));
+  using Mask2 = decltype(Lane2{} < Lane2{});  // a comparison's lanes: all ones or zero
+  const auto select = [](Mask2 m, Lane2 a, Lane2 b) {
+    return reinterpret_cast<Lane2>((m & reinterpret_cast<Mask2>(a)) |
+                                   (~m & reinterpret_cast<Mask2>(b)));
+  };
+  const auto splat = [](double v) { return Lane2{v, v}; };
+  const Mask2 magnitude = ~reinterpret_cast<Mask2>(splat(-0.0));  // all bits but the sign
+  const Lane2 zero = splat(0.0), one = splat(1.0);
+  std::size_t k = 0;
+  for (; k + 2 <= n; k += 2) {
+    const Lane2 x = {xy[2 * k], xy[2 * k + 2]}, y = {xy[2 * k + 1], xy[2 * k + 3]};
+    const Lane2 ax = reinterpret_cast<Lane2>(reinterpret_cast<Mask2>(x) & magnitude);  // std::abs
+    const Lane2 ay = reinterpret_cast<Lane2>(reinterpret_cast<Mask2>(y) & magnitude);
+    const Lane2 big = select(ax < ay, ay, ax);    // std::max(ax, ay)
+    const Lane2 small = select(ay < ax, ay, ax);  // std::min(ax, ay)
+    const Mask2 centre = big == zero;
+    // The centre's lanes divide by one (no 0/0) and are set to 0 at the end, as polar_angle
+    // returns early there.
+    const Lane2 t = small / select(centre, one, big);
+    const Mask2 upper = t > splat(tan_pi_8);
+    const Lane2 s = select(upper, (t - one) / (t + one), t);
+    const Lane2 w = s * s;
+    Lane2 series = splat(atan_coefficient[atan_terms - 1]);
+    for (int j = atan_terms - 2; j >= 0; --j) series = splat(atan_coefficient[j]) + w * series;
+    Lane2 a = s * series + select(upper, splat(pi / 4.0), zero);
+    a = select(ay > ax, splat(pi / 2.0) - a, a);
+    a = select(x < zero, splat(pi) - a, a);
+    a = select(y < zero, splat(2.0 * pi) - a, a);
+    a = select(centre, zero, a);
+    angle[k] = a[0];
+    angle[k + 1] = a[1];
+  }
+  for (; k < n; ++k) angle[k] = polar_angle(xy[2 * k], xy[2 * k + 1]);
 }
 
 ArcCoverage::ArcCoverage(std::size_t expected_points)

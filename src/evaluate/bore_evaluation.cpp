@@ -216,6 +216,7 @@ TwoPointSizes two_point_sizes(const Eigen::Matrix3Xd& points,
   // Buffers shared by the sections (a Monte Carlo trial calls this for every bore).
   Eigen::Matrix2Xd uv;
   std::vector<std::pair<double, std::size_t>> by_angle;  // (angle, point of the section)
+  std::vector<double> angle;                              // of the points, in section order
   std::vector<std::size_t> partner;  // the point each one is paired with; n: none
   std::vector<std::pair<double, std::size_t>> sort_scratch;
   std::vector<std::size_t> sort_start;
@@ -232,11 +233,13 @@ TwoPointSizes two_point_sizes(const Eigen::Matrix3Xd& points,
     if (n < 2) continue;
     uv.resize(2, static_cast<Eigen::Index>(n));
     by_angle.resize(n);
-    for (std::size_t k = 0; k < n; ++k) {
+    angle.resize(n);
+    for (std::size_t k = 0; k < n; ++k)
       uv.col(static_cast<Eigen::Index>(k)) =
           basis.leftCols<2>().transpose() * (points.col(first[k].index) - section.circle.centre);
-      by_angle[k] = {detail::polar_angle(uv(0, k), uv(1, k)), k};
-    }
+    // detail::polar_angles: polar_angle's bits, two points at a time.
+    detail::polar_angles(uv.data(), n, angle.data());
+    for (std::size_t k = 0; k < n; ++k) by_angle[k] = {angle[k], k};
     // Equal angles (coincident directions) in the order of the points (detail::sort_by_angle:
     // std::sort's order, by buckets).
     detail::sort_by_angle(by_angle, sort_start, sort_scratch);
@@ -257,7 +260,8 @@ TwoPointSizes two_point_sizes(const Eigen::Matrix3Xd& points,
       while (at < n && by_angle[at].first < target) ++at;
       std::size_t best = n;
       double best_gap = std::numeric_limits<double>::infinity();
-      for (std::size_t candidate : {at % n, (at + n - 1) % n}) {
+      // The lower bound and its predecessor, cyclically (at is in [0, n]; no division).
+      for (std::size_t candidate : {at == n ? 0 : at, (at == 0 ? n : at) - 1}) {
         double gap = std::abs(by_angle[candidate].first - target);
         gap = std::min(gap, 2.0 * pi - gap);
         if (gap < best_gap) {
