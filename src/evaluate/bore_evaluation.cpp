@@ -22,6 +22,7 @@
 #include "evaluate/detail/angle_order.hpp"
 #include "evaluate/detail/half_turn_gap.hpp"
 #include "evaluate/detail/height_order.hpp"
+#include "evaluate/detail/nearest_level.hpp"
 #include "prepare/detail/stray_point_message.hpp"
 
 namespace cylzone {
@@ -165,11 +166,12 @@ SectionPlan plan_sections(const Eigen::Matrix3Xd& points, const Axis& axis,
     // Span of every level: each point belongs to its nearest level.
     std::vector<double> lo(levels.size(), std::numeric_limits<double>::infinity());
     std::vector<double> hi(levels.size(), -std::numeric_limits<double>::infinity());
+    // The heights come in increasing order: the nearest level by a cursor moving forward
+    // (detail::NearestLevelCursor: nearest_level's index without a binary search per point).
+    detail::NearestLevelCursor nearest(levels);
     for (const detail::HeightKey& key : by_height) {
       const double t = key.height;
-      auto it = std::lower_bound(levels.begin(), levels.end(), t);
-      std::size_t k = static_cast<std::size_t>(it - levels.begin());
-      if (k == levels.size() || (k > 0 && t - levels[k - 1] < *it - t)) --k;
+      const std::size_t k = nearest(t);
       lo[k] = std::min(lo[k], t);
       hi[k] = std::max(hi[k], t);
       largest_deviation = std::max(largest_deviation, std::abs(t - levels[k]));
@@ -451,11 +453,10 @@ bool surrounds_axis(const Eigen::Matrix3Xd& points, const std::vector<Eigen::Ind
   const std::size_t none = plan.heights.size();
   // The section of kept point i (`none`: in no section) and its coordinates about the axis.
   const auto locate = [&](Eigen::Index i, Eigen::Vector3d& q) {
+    if (plan.heights.empty()) return none;
     const double t = ls_height[static_cast<std::size_t>(i)];
-    const auto it = std::lower_bound(plan.heights.begin(), plan.heights.end(), t);
-    std::size_t k = static_cast<std::size_t>(it - plan.heights.begin());
-    if (k == plan.heights.size() || (k > 0 && t - plan.heights[k - 1] < *it - t)) --k;
-    if (plan.heights.empty() || std::abs(t - plan.heights[k]) > plan.half_thickness) return none;
+    const std::size_t k = detail::nearest_level(plan.heights, t);
+    if (std::abs(t - plan.heights[k]) > plan.half_thickness) return none;
     q = basis.transpose() * (points.col(i) - axis.point);
     return k;
   };

@@ -11,6 +11,7 @@
 #include "cylzone/core/errors.hpp"
 #include "cylzone/fit/sections.hpp"
 #include "detail/fit_support.hpp"
+#include "evaluate/detail/nearest_level.hpp"
 
 namespace cylzone {
 namespace {
@@ -20,14 +21,6 @@ std::string mm(double value) { return detail::format_number(value, 4); }
 /// Coverages (degrees) this close count as equal when the worst section is named: far above
 /// the rounding of an angle (1e-13 degrees) and far below anything a report prints.
 constexpr double worst_tie_deg = 1e-9;
-
-/// Index of the height in `sorted` nearest to t (sorted non-empty).
-std::size_t nearest(const std::vector<double>& sorted, double t) {
-  const auto it = std::lower_bound(sorted.begin(), sorted.end(), t);
-  std::size_t k = static_cast<std::size_t>(it - sorted.begin());
-  if (k == sorted.size() || (k > 0 && t - sorted[k - 1] < *it - t)) --k;
-  return k;
-}
 
 void add_warnings(SamplingCoverage& s, const SamplingOptions& options) {
   const SamplingThresholds& limit = options.thresholds;
@@ -121,7 +114,7 @@ SamplingCoverage sampling_coverage(const Eigen::Matrix3Xd& points, const Axis& a
   std::vector<std::size_t> counts(heights.size(), 0);
   for (std::size_t i = 0; i < n; ++i) {
     const double t = local(2, static_cast<Eigen::Index>(i));
-    const std::size_t k = nearest(heights, t);
+    const std::size_t k = detail::nearest_level(heights, t);
     if (std::abs(t - heights[k]) > half) continue;
     section_of[i] = k;
     ++counts[k];
