@@ -75,3 +75,36 @@ TEST_CASE("the forward cursor gives nearest_level's index for increasing heights
   CHECK(compared > 400000);
   CHECK(differing == 0);
 }
+
+TEST_CASE("the hinted search gives nearest_level's index in any order of heights",
+          "[nearest_level]") {
+  // The computation it replaces in surrounds_axis: a binary search per point (nearest_level).
+  // Heights in runs of one level (probed rings), in random order, on the levels and halfway.
+  std::mt19937_64 rng(29);
+  std::uniform_real_distribution<double> u(-50.0, 50.0);
+  std::uniform_int_distribution<int> count(1, 12);
+  std::size_t differing = 0, compared = 0;
+  for (int trial = 0; trial < 2000; ++trial) {
+    std::vector<double> levels(static_cast<std::size_t>(count(rng)));
+    for (double& l : levels) l = std::round(u(rng));
+    std::sort(levels.begin(), levels.end());
+    levels.erase(std::unique(levels.begin(), levels.end()), levels.end());
+    std::vector<double> heights;
+    for (double l : levels)  // a ring per level, then scattered heights
+      for (int k = 0; k < 20; ++k) heights.push_back(l + 0.01 * u(rng));
+    for (int k = 0; k < 100; ++k) heights.push_back(u(rng) * 1.2);
+    for (std::size_t k = 0; k < levels.size(); ++k) {
+      heights.push_back(levels[k]);
+      if (k > 0) heights.push_back(0.5 * (levels[k - 1] + levels[k]));
+    }
+    heights.push_back(levels.front() - 100.0);
+    heights.push_back(levels.back() + 100.0);
+    detail::NearestLevelHint hinted(levels);
+    for (double t : heights) {
+      differing += hinted(t) != detail::nearest_level(levels, t);
+      ++compared;
+    }
+  }
+  CHECK(compared > 200000);
+  CHECK(differing == 0);
+}

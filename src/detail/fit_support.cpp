@@ -310,20 +310,41 @@ double ArcCoverage::degrees() const {
     double key;   // monotone in the gap (exact range), below
     bool ranked;  // key set; otherwise always converted
   };
-  std::vector<Candidate> candidates;
-  candidates.reserve(std::min<std::size_t>(count_, 256));  // a ring's gaps: one allocation
+  // The candidates in order of their gaps round the circle: the first `inline_candidates` on
+  // the stack, more (a ring of many evenly spaced points) moved to the heap. The fits call this
+  // at every step of their iterations on a few dozen points, where an allocation per call cost
+  // more than the rest of the count.
+  constexpr std::size_t inline_candidates = 64;
+  std::array<Candidate, inline_candidates> fixed;
+  std::vector<Candidate> grown;
+  std::size_t candidate_count = 0;
+  const auto push = [&](const Candidate& c) {
+    if (candidate_count < inline_candidates) {
+      fixed[candidate_count] = c;
+    } else {
+      if (grown.empty()) {
+        grown.reserve(std::min<std::size_t>(count_, 4 * inline_candidates));
+        grown.assign(fixed.begin(), fixed.end());
+      }
+      grown.push_back(c);
+    }
+    ++candidate_count;
+  };
   previous = bound[2 * first_bucket + 1];
   std::size_t previous_bucket = first_bucket;
   for (std::size_t k = first_bucket + 1; k < buckets; ++k) {
     const double low = bound[2 * k], high = bound[2 * k + 1];
     const bool filled = low <= high;
     if (filled && low - previous >= candidate)  // rare: predicted
-      candidates.push_back({previous_bucket, k, previous, low, 0.0, 0.0, false});
+      push({previous_bucket, k, previous, low, 0.0, 0.0, false});
     previous = filled ? high : previous;
     previous_bucket = filled ? k : previous_bucket;
   }
   if (wrap_pseudo >= candidate)
-    candidates.push_back({previous_bucket, first_bucket, previous, first, two_pi, 0.0, false});
+    push({previous_bucket, first_bucket, previous, first, two_pi, 0.0, false});
+  Candidate* const candidates_begin =
+      candidate_count <= inline_candidates ? fixed.data() : grown.data();
+  Candidate* const candidates_end = candidates_begin + candidate_count;
   // Evenly spaced directions (a probed ring) make every gap a candidate, two atan2 each. In the
   // exact range the candidates are first ranked without trigonometry: the gap from direction
   // L to direction H turns by theta with (cos, sin) proportional to (L.H, L x H), and that
@@ -335,8 +356,9 @@ double ArcCoverage::degrees() const {
   // converted, as is every candidate when there are two or fewer. So the result is the same
   // bits as converting every candidate.
   double best_key = -std::numeric_limits<double>::infinity();
-  if (exact_ && candidates.size() > 2) {
-    for (Candidate& c : candidates) {
+  if (exact_ && candidate_count > 2) {
+    for (Candidate* c_at = candidates_begin; c_at != candidates_end; ++c_at) {
+      Candidate& c = *c_at;
       const double pseudo_gap = c.above_pseudo + (c.turn > 0.0 ? 4.0 : 0.0) - c.below_pseudo;
       if (pseudo_gap >= 3.0) continue;
       const Ends& l = ends_[c.below];
@@ -356,10 +378,10 @@ double ArcCoverage::degrees() const {
   }
   constexpr double margin = 1e-12;
   double largest = 0.0;
-  for (const Candidate& c : candidates)
-    if (!c.ranked || c.key >= best_key - margin)
+  for (const Candidate* c = candidates_begin; c != candidates_end; ++c)
+    if (!c->ranked || c->key >= best_key - margin)
       largest = std::max(largest,
-                         true_gap(c.below, c.above, c.below_pseudo, c.above_pseudo, c.turn));
+                         true_gap(c->below, c->above, c->below_pseudo, c->above_pseudo, c->turn));
   return (two_pi - largest) * 360.0 / two_pi;
 }
 

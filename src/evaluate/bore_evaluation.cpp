@@ -452,10 +452,13 @@ bool surrounds_axis(const Eigen::Matrix3Xd& points, const std::vector<Eigen::Ind
   const Eigen::Matrix3d basis = detail::basis_from_direction(axis.direction);
   const std::size_t none = plan.heights.size();
   // The section of kept point i (`none`: in no section) and its coordinates about the axis.
+  // The points come in their order in the data, ring by ring when probed: the nearest level is
+  // first tried where the previous point's was (detail::NearestLevelHint: nearest_level's index).
+  detail::NearestLevelHint nearest(plan.heights);
   const auto locate = [&](Eigen::Index i, Eigen::Vector3d& q) {
     if (plan.heights.empty()) return none;
     const double t = ls_height[static_cast<std::size_t>(i)];
-    const std::size_t k = detail::nearest_level(plan.heights, t);
+    const std::size_t k = nearest(t);
     if (std::abs(t - plan.heights[k]) > plan.half_thickness) return none;
     q = basis.transpose() * (points.col(i) - axis.point);
     return k;

@@ -42,4 +42,26 @@ class NearestLevelCursor {
   std::size_t bound_ = 0;
 };
 
+/// nearest_level that first tries the previous call's lower bound: points that come level by
+/// level (a probed ring after ring, in the file's order) find it at once. A position b is the
+/// lower bound of t exactly when the level before it is below t and the one at it is not (the
+/// levels being sorted, so are all before and after), so the check, not a guess, decides;
+/// otherwise the binary search runs. The same index as nearest_level for any order of calls.
+class NearestLevelHint {
+ public:
+  explicit NearestLevelHint(const std::vector<double>& levels) : levels_(levels) {}
+  std::size_t operator()(double t) {
+    const bool bound = (bound_ == 0 || levels_[bound_ - 1] < t) &&
+                       (bound_ == levels_.size() || !(levels_[bound_] < t));
+    if (!bound)
+      bound_ = static_cast<std::size_t>(std::lower_bound(levels_.begin(), levels_.end(), t) -
+                                        levels_.begin());
+    return nearest_from_bound(levels_, bound_, t);
+  }
+
+ private:
+  const std::vector<double>& levels_;
+  std::size_t bound_ = 0;
+};
+
 }  // namespace cylzone::detail
