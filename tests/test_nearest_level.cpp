@@ -6,7 +6,9 @@
 #include <algorithm>
 #include <cmath>
 #include <cstddef>
+#include <cstdint>
 #include <random>
+#include <utility>
 #include <vector>
 
 #include "evaluate/detail/nearest_level.hpp"
@@ -21,6 +23,57 @@ std::size_t nearest_by_scan(const std::vector<double>& levels, double t) {
   for (std::size_t k = 1; k < levels.size(); ++k)
     if (std::abs(t - levels[k]) <= std::abs(t - levels[best])) best = k;
   return best;
+}
+
+/// A random level set for the trials below: 1 to 12 distinct integers in [-50, 50] (exact
+/// halfway points between them).
+std::vector<double> random_levels(std::mt19937_64& rng) {
+  std::uniform_real_distribution<double> u(-50.0, 50.0);
+  std::uniform_int_distribution<int> count(1, 12);
+  std::vector<double> levels(static_cast<std::size_t>(count(rng)));
+  for (double& l : levels) l = std::round(u(rng));
+  std::sort(levels.begin(), levels.end());
+  levels.erase(std::unique(levels.begin(), levels.end()), levels.end());
+  return levels;
+}
+
+/// The adversarial heights of a level set: on each level, halfway between neighbours, far
+/// below the first and far above the last.
+void add_edge_heights(const std::vector<double>& levels, std::vector<double>& heights) {
+  for (std::size_t k = 0; k < levels.size(); ++k) {
+    heights.push_back(levels[k]);
+    heights.push_back(levels[k]);
+    if (k > 0) heights.push_back(0.5 * (levels[k - 1] + levels[k]));
+  }
+  heights.push_back(levels.front() - 100.0);
+  heights.push_back(levels.back() + 100.0);
+}
+/// Over 2000 random level sets, the indices `Finder` (constructed on the levels, then called on
+/// each height in turn) gives against nearest_level's binary search: heights in a ring per
+/// level (rings = true), 100 scattered ones and the edge heights, sorted when `sorted`.
+/// Returns {differing, compared}.
+template <class Finder>
+std::pair<std::size_t, std::size_t> against_binary_search(std::uint64_t seed, bool rings,
+                                                          bool sorted) {
+  std::mt19937_64 rng(seed);
+  std::uniform_real_distribution<double> u(-50.0, 50.0);
+  std::size_t differing = 0, compared = 0;
+  for (int trial = 0; trial < 2000; ++trial) {
+    const std::vector<double> levels = random_levels(rng);
+    std::vector<double> heights;
+    if (rings)
+      for (double l : levels)
+        for (int k = 0; k < 20; ++k) heights.push_back(l + 0.01 * u(rng));
+    for (int k = 0; k < 100; ++k) heights.push_back(u(rng) * 1.2);
+    add_edge_heights(levels, heights);
+    if (sorted) std::sort(heights.begin(), heights.end());
+    Finder find(levels);
+    for (double t : heights) {
+      differing += find(t) != detail::nearest_level(levels, t);
+      ++compared;
+    }
+  }
+  return {differing, compared};
 }
 }  // namespace
 
@@ -44,67 +97,21 @@ TEST_CASE("nearest_level is the nearest level, a tie to the upper one", "[neares
 
 TEST_CASE("the forward cursor gives nearest_level's index for increasing heights",
           "[nearest_level]") {
-  // The computation it replaces: a binary search per point (nearest_level). Random level sets
-  // and sorted heights, with adversarial ones mixed in: heights on the levels, halfway between
-  // two, equal heights in runs, below the first and above the last level, a single level.
-  std::mt19937_64 rng(17);
-  std::uniform_real_distribution<double> u(-50.0, 50.0);
-  std::uniform_int_distribution<int> count(1, 12);
-  std::size_t differing = 0, compared = 0;
-  for (int trial = 0; trial < 2000; ++trial) {
-    std::vector<double> levels(static_cast<std::size_t>(count(rng)));
-    for (double& l : levels) l = std::round(u(rng));  // integers: exact halfway points
-    std::sort(levels.begin(), levels.end());
-    levels.erase(std::unique(levels.begin(), levels.end()), levels.end());
-    std::vector<double> heights;
-    for (int k = 0; k < 200; ++k) heights.push_back(u(rng) * 1.2);
-    for (std::size_t k = 0; k < levels.size(); ++k) {
-      heights.push_back(levels[k]);
-      heights.push_back(levels[k]);
-      if (k > 0) heights.push_back(0.5 * (levels[k - 1] + levels[k]));
-    }
-    heights.push_back(levels.front() - 100.0);
-    heights.push_back(levels.back() + 100.0);
-    std::sort(heights.begin(), heights.end());
-    detail::NearestLevelCursor cursor(levels);
-    for (double t : heights) {
-      differing += cursor(t) != detail::nearest_level(levels, t);
-      ++compared;
-    }
-  }
-  CHECK(compared > 400000);
+  // The computation it replaces in plan_sections: a binary search per point (nearest_level),
+  // on sorted heights with adversarial ones mixed in: on the levels (equal heights in runs),
+  // halfway between two, below the first and above the last level, a single level.
+  const auto [differing, compared] =
+      against_binary_search<detail::NearestLevelCursor>(17, false, true);
+  CHECK(compared > 200000);
   CHECK(differing == 0);
 }
 
 TEST_CASE("the hinted search gives nearest_level's index in any order of heights",
           "[nearest_level]") {
-  // The computation it replaces in surrounds_axis: a binary search per point (nearest_level).
-  // Heights in runs of one level (probed rings), in random order, on the levels and halfway.
-  std::mt19937_64 rng(29);
-  std::uniform_real_distribution<double> u(-50.0, 50.0);
-  std::uniform_int_distribution<int> count(1, 12);
-  std::size_t differing = 0, compared = 0;
-  for (int trial = 0; trial < 2000; ++trial) {
-    std::vector<double> levels(static_cast<std::size_t>(count(rng)));
-    for (double& l : levels) l = std::round(u(rng));
-    std::sort(levels.begin(), levels.end());
-    levels.erase(std::unique(levels.begin(), levels.end()), levels.end());
-    std::vector<double> heights;
-    for (double l : levels)  // a ring per level, then scattered heights
-      for (int k = 0; k < 20; ++k) heights.push_back(l + 0.01 * u(rng));
-    for (int k = 0; k < 100; ++k) heights.push_back(u(rng) * 1.2);
-    for (std::size_t k = 0; k < levels.size(); ++k) {
-      heights.push_back(levels[k]);
-      if (k > 0) heights.push_back(0.5 * (levels[k - 1] + levels[k]));
-    }
-    heights.push_back(levels.front() - 100.0);
-    heights.push_back(levels.back() + 100.0);
-    detail::NearestLevelHint hinted(levels);
-    for (double t : heights) {
-      differing += hinted(t) != detail::nearest_level(levels, t);
-      ++compared;
-    }
-  }
+  // The computation it replaces in surrounds_axis: a binary search per point (nearest_level),
+  // on heights ring by ring (a probed bore in its file's order), then scattered at random.
+  const auto [differing, compared] =
+      against_binary_search<detail::NearestLevelHint>(29, true, false);
   CHECK(compared > 200000);
   CHECK(differing == 0);
 }
