@@ -112,9 +112,12 @@ SamplingCoverage sampling_coverage(const Eigen::Matrix3Xd& points, const Axis& a
   std::sort(heights.begin(), heights.end());
   std::vector<std::size_t> section_of(n, heights.size());
   std::vector<std::size_t> counts(heights.size(), 0);
+  // Points come ring by ring or line by line in a file: the nearest level is first tried where
+  // the previous point's was (detail::NearestLevelHint: nearest_level's index, checked).
+  detail::NearestLevelHint nearest(heights);
   for (std::size_t i = 0; i < n; ++i) {
     const double t = local(2, static_cast<Eigen::Index>(i));
-    const std::size_t k = detail::nearest_level(heights, t);
+    const std::size_t k = nearest(t);
     if (std::abs(t - heights[k]) > half) continue;
     section_of[i] = k;
     ++counts[k];
