@@ -26,9 +26,7 @@ inline void sort_by_angle(std::vector<std::pair<double, std::size_t>>& pairs,
   constexpr double two_pi = 6.283185307179586476925286766559;
   constexpr std::size_t crowded = 32;
   const std::size_t n = pairs.size();
-  // Below 16 pairs std::sort is an insertion sort already; a probed ring's section (a few
-  // dozen points) is bucketed.
-  if (n < 16) {
+  if (n < 64) {
     std::sort(pairs.begin(), pairs.end());
     return;
   }
