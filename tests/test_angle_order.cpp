@@ -21,8 +21,9 @@ TEST_CASE("angles sorted by buckets equal std::sort of the pairs", "[angle_order
   std::vector<std::size_t> start;
   std::vector<std::pair<double, std::size_t>> scratch;
   std::size_t cases = 0;
-  for (const std::size_t n : {std::size_t{3}, std::size_t{63}, std::size_t{64}, std::size_t{500},
-                              std::size_t{5000}}) {
+  for (const std::size_t n : {std::size_t{3}, std::size_t{15}, std::size_t{16}, std::size_t{17},
+                              std::size_t{30}, std::size_t{36}, std::size_t{63}, std::size_t{64},
+                              std::size_t{500}, std::size_t{5000}}) {
     for (int kind = 0; kind < 5; ++kind) {
       std::vector<std::pair<double, std::size_t>> pairs;
       for (std::size_t k = 0; k < n; ++k) {
@@ -53,5 +54,5 @@ TEST_CASE("angles sorted by buckets equal std::sort of the pairs", "[angle_order
       ++cases;
     }
   }
-  CHECK(cases == 25);
+  CHECK(cases == 50);
 }

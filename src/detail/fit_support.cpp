@@ -146,9 +146,20 @@ double true_angle(double diamond) {
 }
 }  // namespace
 
+namespace {
+constexpr double pi = 3.14159265358979323846;
+constexpr double tan_pi_8 = 0.41421356237309504880;  // sqrt(2) - 1
+// atan(s) = s sum_k (-1)^k w^k / (2k + 1), w = s^2; alternating, so the remainder after k = 17
+// is below w^18 / 37 <= 4.5e-16 (relative) for w <= tan^2(pi/8) = 0.1716.
+constexpr int atan_terms = 18;
+constexpr std::array<double, atan_terms> atan_coefficient = [] {
+  std::array<double, atan_terms> c{};
+  for (int k = 0; k < atan_terms; ++k) c[k] = (k % 2 == 0 ? 1.0 : -1.0) / (2 * k + 1);
+  return c;
+}();
+}  // namespace
+
 double polar_angle(double x, double y) noexcept {
-  constexpr double pi = 3.14159265358979323846;
-  constexpr double tan_pi_8 = 0.41421356237309504880;  // sqrt(2) - 1
   const double ax = std::abs(x), ay = std::abs(y);
   const double big = std::max(ax, ay);
   if (big == 0.0) return 0.0;
@@ -157,21 +168,54 @@ double polar_angle(double x, double y) noexcept {
   const bool upper = t > tan_pi_8;
   const double s = upper ? (t - 1.0) / (t + 1.0) : t;
   const double w = s * s;
-  // atan(s) = s sum_k (-1)^k w^k / (2k + 1); alternating, so the remainder after k = 17 is below
-  // w^18 / 37 <= 4.5e-16 (relative) for w <= tan^2(pi/8) = 0.1716.
-  static constexpr int terms = 18;
-  static constexpr std::array<double, terms> coefficient = [] {
-    std::array<double, terms> c{};
-    for (int k = 0; k < terms; ++k) c[k] = (k % 2 == 0 ? 1.0 : -1.0) / (2 * k + 1);
-    return c;
-  }();
-  double series = coefficient[terms - 1];
-  for (int k = terms - 2; k >= 0; --k) series = coefficient[k] + w * series;
+  double series = atan_coefficient[atan_terms - 1];
+  for (int k = atan_terms - 2; k >= 0; --k) series = atan_coefficient[k] + w * series;
   double a = s * series + (upper ? pi / 4.0 : 0.0);
   if (ay > ax) a = pi / 2.0 - a;
   if (x < 0.0) a = pi - a;
   if (y < 0.0) a = 2.0 * pi - a;
   return a;
+}
+
+void polar_angles(const double* xy, std::size_t n, double* angle) noexcept {
+  // Two lanes (the x86-64 baseline's SSE2 width; portable vector extensions of GCC and Clang):
+  // each lane runs polar_angle's operations in its order, IEEE-rounded the same (no
+  // contraction into fused multiply-adds: the baseline has none), and each branch becomes a
+  // select, so every lane is polar_angle's result to the bit (test_fit_support checks it).
+  typedef double Lane2 __attribute__((vector_size(16)));
+  using Mask2 = decltype(Lane2{} < Lane2{});  // a comparison's lanes: all ones or zero
+  const auto select = [](Mask2 m, Lane2 a, Lane2 b) {
+    return reinterpret_cast<Lane2>((m & reinterpret_cast<Mask2>(a)) |
+                                   (~m & reinterpret_cast<Mask2>(b)));
+  };
+  const auto splat = [](double v) { return Lane2{v, v}; };
+  const Mask2 magnitude = ~reinterpret_cast<Mask2>(splat(-0.0));  // all bits but the sign
+  const Lane2 zero = splat(0.0), one = splat(1.0);
+  std::size_t k = 0;
+  for (; k + 2 <= n; k += 2) {
+    const Lane2 x = {xy[2 * k], xy[2 * k + 2]}, y = {xy[2 * k + 1], xy[2 * k + 3]};
+    const Lane2 ax = reinterpret_cast<Lane2>(reinterpret_cast<Mask2>(x) & magnitude);  // std::abs
+    const Lane2 ay = reinterpret_cast<Lane2>(reinterpret_cast<Mask2>(y) & magnitude);
+    const Lane2 big = select(ax < ay, ay, ax);    // std::max(ax, ay)
+    const Lane2 small = select(ay < ax, ay, ax);  // std::min(ax, ay)
+    const Mask2 centre = big == zero;
+    // The centre's lanes divide by one (no 0/0) and are set to 0 at the end, as polar_angle
+    // returns early there.
+    const Lane2 t = small / select(centre, one, big);
+    const Mask2 upper = t > splat(tan_pi_8);
+    const Lane2 s = select(upper, (t - one) / (t + one), t);
+    const Lane2 w = s * s;
+    Lane2 series = splat(atan_coefficient[atan_terms - 1]);
+    for (int j = atan_terms - 2; j >= 0; --j) series = splat(atan_coefficient[j]) + w * series;
+    Lane2 a = s * series + select(upper, splat(pi / 4.0), zero);
+    a = select(ay > ax, splat(pi / 2.0) - a, a);
+    a = select(x < zero, splat(pi) - a, a);
+    a = select(y < zero, splat(2.0 * pi) - a, a);
+    a = select(centre, zero, a);
+    angle[k] = a[0];
+    angle[k + 1] = a[1];
+  }
+  for (; k < n; ++k) angle[k] = polar_angle(xy[2 * k], xy[2 * k + 1]);
 }
 
 ArcCoverage::ArcCoverage(std::size_t expected_points)
@@ -266,20 +310,41 @@ double ArcCoverage::degrees() const {
     double key;   // monotone in the gap (exact range), below
     bool ranked;  // key set; otherwise always converted
   };
-  std::vector<Candidate> candidates;
-  candidates.reserve(std::min<std::size_t>(count_, 256));  // a ring's gaps: one allocation
+  // The candidates in order of their gaps round the circle: the first `inline_candidates` on
+  // the stack, more (a ring of many evenly spaced points) moved to the heap. The fits call this
+  // at every step of their iterations on a few dozen points, where an allocation per call cost
+  // more than the rest of the count.
+  constexpr std::size_t inline_candidates = 64;
+  std::array<Candidate, inline_candidates> fixed;
+  std::vector<Candidate> grown;
+  std::size_t candidate_count = 0;
+  const auto push = [&](const Candidate& c) {
+    if (candidate_count < inline_candidates) {
+      fixed[candidate_count] = c;
+    } else {
+      if (grown.empty()) {
+        grown.reserve(std::min<std::size_t>(count_, 4 * inline_candidates));
+        grown.assign(fixed.begin(), fixed.end());
+      }
+      grown.push_back(c);
+    }
+    ++candidate_count;
+  };
   previous = bound[2 * first_bucket + 1];
   std::size_t previous_bucket = first_bucket;
   for (std::size_t k = first_bucket + 1; k < buckets; ++k) {
     const double low = bound[2 * k], high = bound[2 * k + 1];
     const bool filled = low <= high;
     if (filled && low - previous >= candidate)  // rare: predicted
-      candidates.push_back({previous_bucket, k, previous, low, 0.0, 0.0, false});
+      push({previous_bucket, k, previous, low, 0.0, 0.0, false});
     previous = filled ? high : previous;
     previous_bucket = filled ? k : previous_bucket;
   }
   if (wrap_pseudo >= candidate)
-    candidates.push_back({previous_bucket, first_bucket, previous, first, two_pi, 0.0, false});
+    push({previous_bucket, first_bucket, previous, first, two_pi, 0.0, false});
+  Candidate* const candidates_begin =
+      candidate_count <= inline_candidates ? fixed.data() : grown.data();
+  Candidate* const candidates_end = candidates_begin + candidate_count;
   // Evenly spaced directions (a probed ring) make every gap a candidate, two atan2 each. In the
   // exact range the candidates are first ranked without trigonometry: the gap from direction
   // L to direction H turns by theta with (cos, sin) proportional to (L.H, L x H), and that
@@ -291,8 +356,9 @@ double ArcCoverage::degrees() const {
   // converted, as is every candidate when there are two or fewer. So the result is the same
   // bits as converting every candidate.
   double best_key = -std::numeric_limits<double>::infinity();
-  if (exact_ && candidates.size() > 2) {
-    for (Candidate& c : candidates) {
+  if (exact_ && candidate_count > 2) {
+    for (Candidate* c_at = candidates_begin; c_at != candidates_end; ++c_at) {
+      Candidate& c = *c_at;
       const double pseudo_gap = c.above_pseudo + (c.turn > 0.0 ? 4.0 : 0.0) - c.below_pseudo;
       if (pseudo_gap >= 3.0) continue;
       const Ends& l = ends_[c.below];
@@ -312,10 +378,10 @@ double ArcCoverage::degrees() const {
   }
   constexpr double margin = 1e-12;
   double largest = 0.0;
-  for (const Candidate& c : candidates)
-    if (!c.ranked || c.key >= best_key - margin)
+  for (const Candidate* c = candidates_begin; c != candidates_end; ++c)
+    if (!c->ranked || c->key >= best_key - margin)
       largest = std::max(largest,
-                         true_gap(c.below, c.above, c.below_pseudo, c.above_pseudo, c.turn));
+                         true_gap(c->below, c->above, c->below_pseudo, c->above_pseudo, c->turn));
   return (two_pi - largest) * 360.0 / two_pi;
 }
 

@@ -211,6 +211,11 @@ std::string iteration_message(FitStatus status, int iterations, const FitOptions
 /// reduction, then the Taylor series of atan on |s| <= tan(pi/8) (remainder below 2e-16).
 double polar_angle(double x, double y) noexcept;
 
+/// polar_angle of n directions, given interleaved (x0, y0, x1, y1, ...) as a 2 x n column-major
+/// matrix stores them, into angle[0 .. n): the same bits as polar_angle on each, two at a time
+/// (the per-point cost of a section's angles in the two-point sizes).
+void polar_angles(const double* xy, std::size_t n, double* angle) noexcept;
+
 /// Outcome of gauss_newton().
 template <int P>
 struct GaussNewtonResult {

@@ -22,6 +22,7 @@
 #include "evaluate/detail/angle_order.hpp"
 #include "evaluate/detail/half_turn_gap.hpp"
 #include "evaluate/detail/height_order.hpp"
+#include "evaluate/detail/nearest_level.hpp"
 #include "prepare/detail/stray_point_message.hpp"
 
 namespace cylzone {
@@ -165,11 +166,12 @@ SectionPlan plan_sections(const Eigen::Matrix3Xd& points, const Axis& axis,
     // Span of every level: each point belongs to its nearest level.
     std::vector<double> lo(levels.size(), std::numeric_limits<double>::infinity());
     std::vector<double> hi(levels.size(), -std::numeric_limits<double>::infinity());
+    // The heights come in increasing order: the nearest level by a cursor moving forward
+    // (detail::NearestLevelCursor: nearest_level's index without a binary search per point).
+    detail::NearestLevelCursor nearest(levels);
     for (const detail::HeightKey& key : by_height) {
       const double t = key.height;
-      auto it = std::lower_bound(levels.begin(), levels.end(), t);
-      std::size_t k = static_cast<std::size_t>(it - levels.begin());
-      if (k == levels.size() || (k > 0 && t - levels[k - 1] < *it - t)) --k;
+      const std::size_t k = nearest(t);
       lo[k] = std::min(lo[k], t);
       hi[k] = std::max(hi[k], t);
       largest_deviation = std::max(largest_deviation, std::abs(t - levels[k]));
@@ -216,6 +218,7 @@ TwoPointSizes two_point_sizes(const Eigen::Matrix3Xd& points,
   // Buffers shared by the sections (a Monte Carlo trial calls this for every bore).
   Eigen::Matrix2Xd uv;
   std::vector<std::pair<double, std::size_t>> by_angle;  // (angle, point of the section)
+  std::vector<double> angle;                              // of the points, in section order
   std::vector<std::size_t> partner;  // the point each one is paired with; n: none
   std::vector<std::pair<double, std::size_t>> sort_scratch;
   std::vector<std::size_t> sort_start;
@@ -232,11 +235,13 @@ TwoPointSizes two_point_sizes(const Eigen::Matrix3Xd& points,
     if (n < 2) continue;
     uv.resize(2, static_cast<Eigen::Index>(n));
     by_angle.resize(n);
-    for (std::size_t k = 0; k < n; ++k) {
+    angle.resize(n);
+    for (std::size_t k = 0; k < n; ++k)
       uv.col(static_cast<Eigen::Index>(k)) =
           basis.leftCols<2>().transpose() * (points.col(first[k].index) - section.circle.centre);
-      by_angle[k] = {detail::polar_angle(uv(0, k), uv(1, k)), k};
-    }
+    // detail::polar_angles: polar_angle's bits, two points at a time.
+    detail::polar_angles(uv.data(), n, angle.data());
+    for (std::size_t k = 0; k < n; ++k) by_angle[k] = {angle[k], k};
     // Equal angles (coincident directions) in the order of the points (detail::sort_by_angle:
     // std::sort's order, by buckets).
     detail::sort_by_angle(by_angle, sort_start, sort_scratch);
@@ -257,7 +262,8 @@ TwoPointSizes two_point_sizes(const Eigen::Matrix3Xd& points,
       while (at < n && by_angle[at].first < target) ++at;
       std::size_t best = n;
       double best_gap = std::numeric_limits<double>::infinity();
-      for (std::size_t candidate : {at % n, (at + n - 1) % n}) {
+      // The lower bound and its predecessor, cyclically (at is in [0, n]; no division).
+      for (std::size_t candidate : {at == n ? 0 : at, (at == 0 ? n : at) - 1}) {
         double gap = std::abs(by_angle[candidate].first - target);
         gap = std::min(gap, 2.0 * pi - gap);
         if (gap < best_gap) {
@@ -446,12 +452,14 @@ bool surrounds_axis(const Eigen::Matrix3Xd& points, const std::vector<Eigen::Ind
   const Eigen::Matrix3d basis = detail::basis_from_direction(axis.direction);
   const std::size_t none = plan.heights.size();
   // The section of kept point i (`none`: in no section) and its coordinates about the axis.
+  // The points come in their order in the data, ring by ring when probed: the nearest level is
+  // first tried where the previous point's was (detail::NearestLevelHint: nearest_level's index).
+  detail::NearestLevelHint nearest(plan.heights);
   const auto locate = [&](Eigen::Index i, Eigen::Vector3d& q) {
+    if (plan.heights.empty()) return none;
     const double t = ls_height[static_cast<std::size_t>(i)];
-    const auto it = std::lower_bound(plan.heights.begin(), plan.heights.end(), t);
-    std::size_t k = static_cast<std::size_t>(it - plan.heights.begin());
-    if (k == plan.heights.size() || (k > 0 && t - plan.heights[k - 1] < *it - t)) --k;
-    if (plan.heights.empty() || std::abs(t - plan.heights[k]) > plan.half_thickness) return none;
+    const std::size_t k = nearest(t);
+    if (std::abs(t - plan.heights[k]) > plan.half_thickness) return none;
     q = basis.transpose() * (points.col(i) - axis.point);
     return k;
   };

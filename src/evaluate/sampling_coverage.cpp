@@ -11,6 +11,7 @@
 #include "cylzone/core/errors.hpp"
 #include "cylzone/fit/sections.hpp"
 #include "detail/fit_support.hpp"
+#include "evaluate/detail/nearest_level.hpp"
 
 namespace cylzone {
 namespace {
@@ -20,14 +21,6 @@ std::string mm(double value) { return detail::format_number(value, 4); }
 /// Coverages (degrees) this close count as equal when the worst section is named: far above
 /// the rounding of an angle (1e-13 degrees) and far below anything a report prints.
 constexpr double worst_tie_deg = 1e-9;
-
-/// Index of the height in `sorted` nearest to t (sorted non-empty).
-std::size_t nearest(const std::vector<double>& sorted, double t) {
-  const auto it = std::lower_bound(sorted.begin(), sorted.end(), t);
-  std::size_t k = static_cast<std::size_t>(it - sorted.begin());
-  if (k == sorted.size() || (k > 0 && t - sorted[k - 1] < *it - t)) --k;
-  return k;
-}
 
 void add_warnings(SamplingCoverage& s, const SamplingOptions& options) {
   const SamplingThresholds& limit = options.thresholds;
@@ -119,9 +112,12 @@ SamplingCoverage sampling_coverage(const Eigen::Matrix3Xd& points, const Axis& a
   std::sort(heights.begin(), heights.end());
   std::vector<std::size_t> section_of(n, heights.size());
   std::vector<std::size_t> counts(heights.size(), 0);
+  // Points come ring by ring or line by line in a file: the nearest level is first tried where
+  // the previous point's was (detail::NearestLevelHint: nearest_level's index, checked).
+  detail::NearestLevelHint nearest(heights);
   for (std::size_t i = 0; i < n; ++i) {
     const double t = local(2, static_cast<Eigen::Index>(i));
-    const std::size_t k = nearest(heights, t);
+    const std::size_t k = nearest(t);
     if (std::abs(t - heights[k]) > half) continue;
     section_of[i] = k;
     ++counts[k];

@@ -1,0 +1,111 @@
+// Tests of the nearest-level assignment (src/evaluate/detail/nearest_level.hpp). Reference: a
+// linear scan of every level for the nearest (the definition: smallest |t - level|, a tie to
+// the upper level), and the binary-search path the forward cursor replaces in plan_sections.
+#include <catch2/catch.hpp>
+
+#include <algorithm>
+#include <cmath>
+#include <cstddef>
+#include <cstdint>
+#include <random>
+#include <utility>
+#include <vector>
+
+#include "evaluate/detail/nearest_level.hpp"
+
+using namespace cylzone;
+
+namespace {
+/// The definition, by scanning every level: the smallest distance, the upper one of a tie
+/// (levels distinct).
+std::size_t nearest_by_scan(const std::vector<double>& levels, double t) {
+  std::size_t best = 0;
+  for (std::size_t k = 1; k < levels.size(); ++k)
+    if (std::abs(t - levels[k]) <= std::abs(t - levels[best])) best = k;
+  return best;
+}
+
+/// A random level set for the trials below: 1 to 12 distinct integers in [-50, 50] (exact
+/// halfway points between them).
+std::vector<double> random_levels(std::mt19937_64& rng) {
+  std::uniform_real_distribution<double> u(-50.0, 50.0);
+  std::uniform_int_distribution<int> count(1, 12);
+  std::vector<double> levels(static_cast<std::size_t>(count(rng)));
+  for (double& l : levels) l = std::round(u(rng));
+  std::sort(levels.begin(), levels.end());
+  levels.erase(std::unique(levels.begin(), levels.end()), levels.end());
+  return levels;
+}
+
+/// The adversarial heights of a level set: on each level, halfway between neighbours, far
+/// below the first and far above the last.
+void add_edge_heights(const std::vector<double>& levels, std::vector<double>& heights) {
+  for (std::size_t k = 0; k < levels.size(); ++k) {
+    heights.push_back(levels[k]);
+    heights.push_back(levels[k]);
+    if (k > 0) heights.push_back(0.5 * (levels[k - 1] + levels[k]));
+  }
+  heights.push_back(levels.front() - 100.0);
+  heights.push_back(levels.back() + 100.0);
+}
+/// Over 2000 random level sets, the indices `Finder` (constructed on the levels, then called on
+/// each height in turn) gives against nearest_level's binary search: heights in a ring per
+/// level (rings = true), 100 scattered ones and the edge heights, sorted when `sorted`.
+/// Returns {differing, compared}.
+template <class Finder>
+std::pair<std::size_t, std::size_t> against_binary_search(std::uint64_t seed, bool rings,
+                                                          bool sorted) {
+  std::mt19937_64 rng(seed);
+  std::uniform_real_distribution<double> u(-50.0, 50.0);
+  std::size_t differing = 0, compared = 0;
+  for (int trial = 0; trial < 2000; ++trial) {
+    const std::vector<double> levels = random_levels(rng);
+    std::vector<double> heights;
+    if (rings)
+      for (double l : levels)
+        for (int k = 0; k < 20; ++k) heights.push_back(l + 0.01 * u(rng));
+    for (int k = 0; k < 100; ++k) heights.push_back(u(rng) * 1.2);
+    add_edge_heights(levels, heights);
+    if (sorted) std::sort(heights.begin(), heights.end());
+    Finder find(levels);
+    for (double t : heights) {
+      differing += find(t) != detail::nearest_level(levels, t);
+      ++compared;
+    }
+  }
+  return {differing, compared};
+}
+}  // namespace
+
+TEST_CASE("nearest_level is the nearest level, a tie to the upper one", "[nearest_level]") {
+  const std::vector<double> levels = {-3.0, -1.0, 0.0, 2.0, 5.0};
+  CHECK(detail::nearest_level(levels, -10.0) == 0);  // below every level
+  CHECK(detail::nearest_level(levels, 10.0) == 4);   // above every level
+  CHECK(detail::nearest_level(levels, -2.0) == 1);   // halfway: the upper
+  CHECK(detail::nearest_level(levels, 1.0) == 3);    // halfway: the upper
+  CHECK(detail::nearest_level(levels, 0.9) == 2);
+  CHECK(detail::nearest_level(levels, 2.0) == 3);  // on a level
+  std::mt19937_64 rng(3);
+  std::uniform_real_distribution<double> u(-6.0, 6.0);
+  std::size_t differing = 0;
+  for (int k = 0; k < 20000; ++k) {
+    const double t = u(rng);
+    differing += detail::nearest_level(levels, t) != nearest_by_scan(levels, t);
+  }
+  CHECK(differing == 0);
+}
+
+TEST_CASE("the forward cursor and the hinted search give nearest_level's index",
+          "[nearest_level]") {
+  // The computations they replace: a binary search per point (nearest_level). The cursor (in
+  // plan_sections) on sorted heights with adversarial ones mixed in: on the levels (equal
+  // heights in runs), halfway between two, below the first and above the last level, a single
+  // level; the hinted search (in surrounds_axis and sampling_coverage) on heights ring by ring
+  // (a probed bore in its file's order), then scattered at random.
+  const auto cursor = against_binary_search<detail::NearestLevelCursor>(17, false, true);
+  const auto hinted = against_binary_search<detail::NearestLevelHint>(29, true, false);
+  CHECK(cursor.second > 200000);
+  CHECK(cursor.first == 0);
+  CHECK(hinted.second > 200000);
+  CHECK(hinted.first == 0);
+}
