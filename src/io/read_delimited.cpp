@@ -195,6 +195,8 @@ const char* parse_plain_record(const char* p, const char* const end, Separator s
     if (f > 0) {
       if (blanks) {
         if (p == end || !detail::is_blank(*p)) return nullptr;
+      } else if (p != end && *p == mark) {  // the usual case: the mark right after the number
+        ++p;
       } else {
         skip_blanks();
         if (p == end || *p != mark) return nullptr;

@@ -112,7 +112,7 @@ inline const char* parse_short_decimal(const char* first, const char* last, doub
   }
   if (significant_digits > 19) return nullptr;  // the significand may have wrapped
   if (!any_digit) return nullptr;  // ".", "-", "inf", "nan", "": from_chars decides
-  if (p != last && (*p == 'e' || *p == 'E')) {
+  if (p != last && (*p | 0x20) == 'e') {  // 'e' or 'E' (ASCII case bit)
     const char* q = p + 1;
     bool exponent_negative = false;
     if (q != last && (*q == '-' || *q == '+')) {
