@@ -5,12 +5,14 @@
 // Method (Clinger 1990, "How to read floating point numbers accurately", PLDI '90, the "fast
 // path"): a decimal w x 10^q whose significand w is at most 2^53 and whose |q| is at most 22 is
 // the quotient or product of two doubles that are both exact (every integer up to 2^53 is a
-// double, and so is every power of ten up to 10^22, since 5^22 < 2^53). IEEE 754 (section 4.3)
-// rounds one multiplication or division correctly, so w * 10^q (or w / 10^-q) is the correctly
-// rounded value of the decimal: the very double std::from_chars returns (C++17 [charconv.from.
-// chars]: the value is rounded as strtod would in round-to-nearest, i.e. correctly). This relies
-// on binary64 arithmetic without excess precision (FLT_EVAL_METHOD 0, as on x86-64 with SSE2 and
-// AArch64) in the default rounding mode, which the project never changes.
+// double, and so is every power of ten up to 10^22, since 5^22 < 2^53). IEEE 754-2008 clause 5.1
+// computes one multiplication or division as if exactly and then rounds it, so w * 10^q (or
+// w / 10^-q) is the correctly rounded value of the decimal (to nearest, ties to even): the very
+// double that libstdc++'s std::from_chars returns (it rounds correctly, as glibc's strtod does;
+// C++17 [charconv.from.chars] itself allows either neighbour, so the tests check both against
+// each other). This relies on binary64 arithmetic without excess precision (FLT_EVAL_METHOD 0,
+// as on x86-64 with SSE2 and AArch64) in the default rounding mode, which the project never
+// changes.
 //
 // Only the plain form is taken: an optional '-', digits with an optional '.', an optional
 // exponent ('e' or 'E', optional sign, at least one digit), at most 19 significant digits. For
@@ -18,9 +20,13 @@
 // no digits at all) the function returns nullptr and the caller asks std::from_chars, so the
 // two together accept exactly what from_chars accepts and give the same bits and end pointer.
 
+#include <cfloat>
 #include <cstddef>
 #include <cstdint>
 #include <cstring>
+
+// One rounding per operation is what makes the fast path exact (see above).
+static_assert(FLT_EVAL_METHOD == 0, "the decimal fast path needs double arithmetic without excess precision");
 
 namespace cylzone::detail {
 
@@ -33,10 +39,10 @@ inline constexpr bool short_decimal_swar = false;
 #endif
 
 /// The run of decimal digits at the start of the 8 bytes at `p` (all readable): its length
-/// (0 to 8) and value. SIMD within a register (common practice; the digit test and the
-/// three-multiply conversion as in Lemire 2021, "Number parsing at a gigabyte per second",
-/// Software: Practice and Experience 51(8), section 6): a byte is a digit when b ^ '0' <= 9; the
-/// run is shifted to the top of the word so the bytes below it read as leading zeros.
+/// (0 to 8) and value. SIMD within a register (common practice; the conversion of eight digits
+/// with three multiplications as in Lemire 2021, "Number parsing at a gigabyte per second",
+/// Software: Practice and Experience 51(8)): a byte is a digit when b ^ '0' <= 9; the run is
+/// shifted to the top of the word so the bytes below it read as leading zeros.
 inline unsigned eight_digit_run(const char* p, std::uint64_t& run_value) noexcept {
   std::uint64_t chunk = 0;
   std::memcpy(&chunk, p, sizeof chunk);
