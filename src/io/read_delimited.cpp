@@ -1,6 +1,7 @@
 // Delimited text point files (CSV, semicolon-, tab- or space-separated). The whole text is in
-// memory; lines and fields are walked with pointers (memchr for line ends) and numbers parsed
-// with std::from_chars, so no per-line allocation happens and the locale never matters.
+// memory; plain records are read in one pass straight from it, other lines walked with pointers
+// (memchr for line ends), and numbers parsed by the exact fast path of short_decimal.hpp or else
+// std::from_chars, so no per-line allocation happens and the locale never matters.
 #include <Eigen/Core>
 #include <algorithm>
 #include <array>
