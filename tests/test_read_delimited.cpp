@@ -3,6 +3,7 @@
 #include <catch2/catch.hpp>
 
 #include <algorithm>
+#include <array>
 
 #include <cmath>
 #include <cstdint>
@@ -16,6 +17,7 @@
 
 #include "cylzone/core/errors.hpp"
 #include "cylzone/io/read_points.hpp"
+#include "io/detail/delimited_text.hpp"
 #include "io/detail/text_parsing.hpp"
 #include "expect_input_error.hpp"
 #include "temporary_folder.hpp"
@@ -395,4 +397,95 @@ TEST_CASE("format_from_extension", "[read][delimited]") {
   CHECK(cylzone::format_from_extension("points.csv") == PointFileFormat::delimited_text);
   CHECK(cylzone::format_from_extension("points") == PointFileFormat::delimited_text);
   CHECK(cylzone::format_from_extension("ply") == PointFileFormat::delimited_text);
+}
+
+// ====================================================================== plain records and the rest
+
+TEST_CASE("the line-feed count agrees with std::count at every length and alignment",
+          "[read][delimited]") {
+  // Reference: std::count over the same bytes (the computation count_line_feeds replaces).
+  std::mt19937_64 rng(4099);
+  std::uniform_int_distribution<int> byte(0, 255);
+  std::string text(70000, ' ');
+  for (char& c : text) c = byte(rng) < 64 ? '\n' : static_cast<char>(byte(rng));
+  text.replace(20000, 9000, 9000, '\n');  // a run long enough to fill the byte counters (255 x 16)
+  for (std::size_t start = 0; start < 17; ++start)
+    for (const std::size_t length : {0, 1, 15, 16, 17, 31, 255 * 16, 255 * 16 + 1, 4093, 60001}) {
+      const char* first = text.data() + start;
+      CHECK(cylzone::detail::count_line_feeds(first, first + length) ==
+            static_cast<std::size_t>(std::count(first, first + length, '\n')));
+    }
+  const std::string feeds(255 * 16 * 3 + 5, '\n');
+  CHECK(cylzone::detail::count_line_feeds(feeds.data(), feeds.data() + feeds.size()) == feeds.size());
+}
+
+TEST_CASE("plain records among decorated lines: strtod's values and the right line numbers",
+          "[read][delimited]") {
+  // Plain records are read straight from the text; every other line (CRLF, blanks around fields,
+  // comments, quotes, '+', long mantissas, blank and comment-only lines) through the content-line
+  // path. Random mixes of both must give strtod's value of every field (C library, correctly
+  // rounded; the reference the number tests use) and the file line of every point, and a bad
+  // line anywhere must be reported with its own line number.
+  std::mt19937_64 rng(31337);
+  std::uniform_real_distribution<double> coordinate(-500.0, 500.0);
+  std::uniform_int_distribution<int> pick(0, 11);
+  std::uniform_int_distribution<int> precision(1, 17);
+  for (int file = 0; file < 60; ++file) {
+    const char separator = ",;\t "[file % 4];
+    const bool ignored_column = file % 3 == 0;  // a fourth column that is not a coordinate
+    std::string text = separator == ' ' ? "x y z" : std::string("x") + separator + "y" + separator + "z";
+    if (ignored_column) text += separator == ' ' ? std::string(" label") : std::string(1, separator) + "label";
+    text += "\n";
+    std::size_t line_number = 1;
+    std::vector<std::array<double, 3>> expected;
+    std::vector<std::size_t> expected_lines;
+    for (int row = 0; row < 400; ++row) {
+      const int decoration = pick(rng);
+      if (decoration == 0) {
+        text += (row % 2 ? "# a comment\n" : "  \t \r\n");
+        ++line_number;
+        continue;
+      }
+      std::array<double, 3> values{};
+      std::string line = decoration == 1 ? " \t" : "";
+      for (int k = 0; k < 3; ++k) {
+        std::string field = printf_text("%.*g", precision(rng), coordinate(rng));
+        if (decoration == 2 && k == 1 && field[0] != '-') field = "+" + field;
+        if (decoration == 3 && k == 2 && separator != ' ') field = "\"" + field + "\"";
+        if (decoration == 4 && k == 0 && field.find('e') == std::string::npos)
+          field += "00000000000000000000001";  // over 19 digits: from_chars' path
+        values[static_cast<std::size_t>(k)] = strtod_reference(field[0] == '"' ? field.substr(1, field.size() - 2) : field);
+        if (k > 0) line += separator;
+        // (blanks inside tab-separated fields would make the tabs mere blanks)
+        if (decoration == 5 && separator != ' ' && separator != '\t') line += ' ';
+        line += field;
+      }
+      if (ignored_column) line += std::string(1, separator) + (decoration == 6 && separator != '\t' ? "a b" : "tag7");
+      if (decoration == 7) line += "   # trailing note";
+      if (decoration == 8) line += "\r";
+      if (decoration == 9) line += " \t";
+      if (separator == ' ' && ignored_column && decoration == 6) continue;  // "a b" would be 2 fields
+      text += line + "\n";
+      ++line_number;
+      expected.push_back(values);
+      expected_lines.push_back(line_number);
+    }
+    INFO("file " << file << " separator '" << separator << "'");
+    const PointCloud cloud = parse(text);
+    REQUIRE(cloud.size() == expected.size());
+    REQUIRE(cloud.lines == expected_lines);
+    for (std::size_t i = 0; i < expected.size(); ++i)
+      for (int k = 0; k < 3; ++k)
+        REQUIRE(bits(cloud.points(k, static_cast<Eigen::Index>(i))) == bits(expected[i][static_cast<std::size_t>(k)]));
+
+    // One bad field on a random data line: that line is named, whatever path its neighbours took.
+    const std::size_t victim = expected_lines[static_cast<std::size_t>(file * 7) % expected_lines.size()];
+    std::size_t start = 0;
+    for (std::size_t l = 1; l < victim; ++l) start = text.find('\n', start) + 1;
+    std::string broken = text;
+    std::string bad = std::string("1e999") + separator + "2" + separator + "3";
+    if (ignored_column) bad += std::string(1, separator) + "tag";
+    broken.replace(start, text.find('\n', start) - start, bad);
+    expect_parse_error(broken, victim, "field 1");
+  }
 }

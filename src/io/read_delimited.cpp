@@ -1,6 +1,7 @@
 // Delimited text point files (CSV, semicolon-, tab- or space-separated). The whole text is in
-// memory; lines and fields are walked with pointers (memchr for line ends) and numbers parsed
-// with std::from_chars, so no per-line allocation happens and the locale never matters.
+// memory; plain records are read in one pass straight from it, other lines walked with pointers
+// (memchr for line ends), and numbers parsed by the exact fast path of short_decimal.hpp or else
+// std::from_chars, so no per-line allocation happens and the locale never matters.
 #include <Eigen/Core>
 #include <algorithm>
 #include <array>
@@ -16,6 +17,7 @@
 #include "cylzone/core/errors.hpp"
 #include "cylzone/io/read_points.hpp"
 #include "io/detail/delimited_text.hpp"
+#include "io/detail/short_decimal.hpp"
 #include "io/detail/text_parsing.hpp"
 
 namespace cylzone {
@@ -162,50 +164,69 @@ Columns columns_without_header(std::size_t field_count, const Line& line,
 }
 
 std::size_t count_lines(const char* begin, const char* end) {
-  return static_cast<std::size_t>(std::count(begin, end, '\n')) + 1;
+  return detail::count_line_feeds(begin, end) + 1;
 }
 
-/// The common case of a data line, parsed in one pass without splitting it: every used field a
-/// plain number as std::from_chars reads it (and finite), fields separated as the file's
-/// separator says. Returns false on anything else; the caller then parses the line again with
+/// The common case of a data line, read in one pass straight from the text at `p` (the start of
+/// a raw line), without first finding its end or splitting it: every used field a plain number
+/// as std::from_chars reads it (and finite), fields separated as the file's separator says, the
+/// line ended by LF (or the end of the text) after optional blanks. Returns the start of the next
+/// line, or nullptr on anything else (a comment, a blank or empty line, a quoted field, a bad
+/// field, a wrong field count); the caller then takes the line through ContentLines and
 /// parse_fields(), which gives the same values wherever both accept a line and the precise
-/// message where it does not. The two-tier scheme halves the reading time of large files.
-bool parse_plain_line(const Line& line, Separator separator,
-                      const std::vector<int>& role_of_field, double* values) {
-  const char* p = line.begin;
-  const char* const e = line.end;
+/// message where it does not. Only what ContentLines would strip anyway (leading and trailing
+/// blanks, CR before LF) is skipped here, so both see the same fields. Numbers go through the
+/// exact fast path of short_decimal.hpp first, then std::from_chars (the same bits).
+const char* parse_plain_record(const char* p, const char* const end, Separator separator,
+                               const std::vector<int>& role_of_field, double* values) {
   const bool blanks = separator == Separator::whitespace;
-  // With blanks as separator no character is the mark; '\n' never occurs inside a line.
+  // With blanks as separator no character is the mark; '\n' ends the line before any mark.
   const char mark = separator == Separator::comma       ? ','
                     : separator == Separator::semicolon ? ';'
                     : separator == Separator::tab       ? '\t'
                                                         : '\n';
+  const auto skip_blanks = [&p, end, mark] {
+    // Every blank is a control character or space: one compare passes digits and signs.
+    while (p != end && static_cast<unsigned char>(*p) <= ' ' && detail::is_blank(*p) && *p != mark)
+      ++p;
+  };
+  skip_blanks();
   const std::size_t count = role_of_field.size();
   for (std::size_t f = 0; f < count; ++f) {
     if (f > 0) {
       if (blanks) {
-        if (p == e || !detail::is_blank(*p)) return false;
+        if (p == end || !detail::is_blank(*p)) return nullptr;
+      } else if (p != end && *p == mark) {  // the usual case: the mark right after the number
+        ++p;
       } else {
-        while (p != e && detail::is_blank(*p) && *p != mark) ++p;
-        if (p == e || *p != mark) return false;
+        skip_blanks();
+        if (p == end || *p != mark) return nullptr;
         ++p;
       }
-      while (p != e && detail::is_blank(*p) && *p != mark) ++p;
+      skip_blanks();
     }
     const int role = role_of_field[f];
     if (role >= 0) {
+      // A number never holds '\n' or '#', so reading up to the end of the text stays in the line.
+      if (const char* stop = detail::parse_short_decimal(p, end, values[role])) {
+        p = stop;
+        continue;
+      }
       double value = 0.0;
-      const auto [end, ec] = std::from_chars(p, e, value);
-      if (ec != std::errc() || !std::isfinite(value)) return false;
+      const auto [stop, ec] = std::from_chars(p, end, value);
+      if (ec != std::errc() || !std::isfinite(value)) return nullptr;
       values[role] = value;
-      p = end;
-    } else if (blanks) {
-      while (p != e && !detail::is_blank(*p)) ++p;
+      p = stop;
     } else {
-      while (p != e && *p != mark) ++p;
+      // An ignored column: its text up to the separator; a comment or the line end inside it is
+      // left to the content-line path.
+      while (p != end && *p != '\n' && *p != '#' && (blanks ? !detail::is_blank(*p) : *p != mark))
+        ++p;
     }
   }
-  return p == e;
+  skip_blanks();
+  if (p == end) return end;
+  return *p == '\n' ? p + 1 : nullptr;
 }
 
 /// Any data line: split into fields, checked against the column layout and parsed with
@@ -310,32 +331,39 @@ PointCloud parse_delimited_unguarded(std::string_view text, const std::string& s
   std::vector<std::size_t> point_lines;  // file line of each point, for reports
   point_lines.reserve(capacity);
   Eigen::Index n = 0;
+  // `line` is the first data line. Each content line that is not a plain record goes through
+  // split_fields() and parse_fields(); the plain records after it are read straight from the
+  // text, in file order, so the first bad line is still the one reported.
   do {
     double values[6];
-    if (!parse_plain_line(line, separator, role_of_field, values)) {
-      split_fields(line, separator, fields);
-      parse_fields(fields, line, separator, columns, header_line, source, values);
+    split_fields(line, separator, fields);
+    parse_fields(fields, line, separator, columns, header_line, source, values);
+    std::size_t line_number = line.number;
+    for (;;) {
+      for (int r = 0; r < 3; ++r) {
+        const double mm = values[r] * scale;
+        if (!std::isfinite(mm))
+          throw InputError(source, line_number,
+                           "field " + std::to_string(columns.field_of_role[static_cast<std::size_t>(r)] + 1) +
+                               " is out of the range of a double after conversion to mm");
+        points(r, n) = mm;
+      }
+      if (columns.has_vectors) {
+        // Scale by the largest component first so neither overflow nor underflow can spoil the
+        // norm of a vector written with huge or tiny components.
+        const double largest =
+            std::max({std::abs(values[3]), std::abs(values[4]), std::abs(values[5])});
+        if (largest == 0.0)
+          throw InputError(source, line_number, "vector (i j k) has zero length");
+        const Eigen::Vector3d v = Eigen::Vector3d(values[3], values[4], values[5]) / largest;
+        vectors.col(n) = v / v.norm();
+      }
+      point_lines.push_back(line_number);
+      ++n;
+      const char* next = parse_plain_record(lines.position(), end, separator, role_of_field, values);
+      if (!next) break;
+      line_number = lines.skip_line(next);
     }
-    for (int r = 0; r < 3; ++r) {
-      const double mm = values[r] * scale;
-      if (!std::isfinite(mm))
-        throw InputError(source, line.number,
-                         "field " + std::to_string(columns.field_of_role[static_cast<std::size_t>(r)] + 1) +
-                             " is out of the range of a double after conversion to mm");
-      points(r, n) = mm;
-    }
-    if (columns.has_vectors) {
-      // Scale by the largest component first so neither overflow nor underflow can spoil the
-      // norm of a vector written with huge or tiny components.
-      const double largest =
-          std::max({std::abs(values[3]), std::abs(values[4]), std::abs(values[5])});
-      if (largest == 0.0)
-        throw InputError(source, line.number, "vector (i j k) has zero length");
-      const Eigen::Vector3d v = Eigen::Vector3d(values[3], values[4], values[5]) / largest;
-      vectors.col(n) = v / v.norm();
-    }
-    point_lines.push_back(line.number);
-    ++n;
   } while (lines.next(line));
 
   PointCloud cloud;

@@ -11,11 +11,14 @@
 #include <string_view>
 #include <system_error>
 
+#include "io/detail/short_decimal.hpp"
+
 namespace cylzone::detail {
 
 enum class NumberStatus { ok, not_a_number, not_finite, out_of_range };
 
-/// Parses all of [first, last) as a decimal floating-point number with std::from_chars, which is
+/// Parses all of [first, last) as a decimal floating-point number with std::from_chars (after its
+/// exact fast path, short_decimal.hpp, which gives the same bits), which is
 /// locale-independent and correctly rounded, so it gives the same double as the C library's
 /// strtod in the "C" locale. Two differences from bare from_chars make it match strtod on the
 /// inputs a text file can hold: one leading '+' is accepted, and a value below the smallest
@@ -29,6 +32,12 @@ inline NumberStatus parse_number(const char* first, const char* last, double& va
     if (start == last || *start == '-' || *start == '+') return NumberStatus::not_a_number;
   }
   double parsed = 0.0;
+  // The exact fast path gives from_chars' bits and end wherever it answers (short_decimal.hpp).
+  if (const char* end = parse_short_decimal(start, last, parsed)) {
+    if (end != last) return NumberStatus::not_a_number;
+    value = parsed;
+    return NumberStatus::ok;
+  }
   const auto [end, ec] = std::from_chars(start, last, parsed, std::chars_format::general);
   if (ec == std::errc::invalid_argument || end != last) return NumberStatus::not_a_number;
   if (ec == std::errc::result_out_of_range) {
