@@ -270,6 +270,8 @@ ZoneStatus descend(ZoneModel& model, ZoneObjective objective, const ZoneOptions&
   std::vector<Constraint> start;
   std::vector<double> start_weights;
   if (options.from_start && !options.start_contacts.empty()) {
+    start.reserve(options.start_contacts.size());
+    start_weights.reserve(options.start_contacts.size());
     for (const FitContact& c : options.start_contacts) {
       const Side side = c.outer ? Side::upper : Side::lower;
       if (c.point >= static_cast<std::size_t>(model.point_count()) ||
