@@ -86,7 +86,7 @@ struct PolishScratch {
   std::vector<Eigen::Index> indices;
   Eigen::VectorXd z, d, d_plus, d_minus, residual, x, e, dz, all;
   Eigen::MatrixXd g, g_plus, g_minus, jacobian;
-  std::vector<Eigen::MatrixXd> hessian;
+  std::vector<double> hessian;
 };
 
 bool polish_on_contacts(ZoneModel& model, ZoneObjective objective,
@@ -149,15 +149,21 @@ bool polish_on_contacts(ZoneModel& model, ZoneObjective objective,
   Eigen::MatrixXd& jacobian = scratch.jacobian;
   residual.resize(unknowns);
   jacobian.resize(unknowns, unknowns);
-  // Every column of each contact's Hessian is written in every iteration before it is read.
-  std::vector<Eigen::MatrixXd>& hessian = scratch.hessian;
-  if (hessian.size() < static_cast<std::size_t>(m)) hessian.resize(static_cast<std::size_t>(m));
-  for (int k = 0; k < m; ++k) hessian[static_cast<std::size_t>(k)].resize(p, p);
+  // Each contact's p x p Hessian, column-major, one after the other (contact k's at k p p):
+  // every entry is written in every iteration before it is read.
+  const std::size_t pp = static_cast<std::size_t>(p) * static_cast<std::size_t>(p);
+  std::vector<double>& hessian = scratch.hessian;
+  hessian.resize(static_cast<std::size_t>(m) * pp);
   bool settled = false;
   // Reused: the loop below runs 2 p + 1 evaluations a pass.
   Eigen::VectorXd &x = scratch.x, &e = scratch.e, &dz = scratch.dz;
   x.resize(p);
   e.resize(p);
+  // The system is assembled by plain loops over its entries: the same products and sums, in
+  // the same order, as the Eigen block expressions they replaced (J_xx += (s lambda) H_k,
+  // r_x += (s lambda) g_k, H_k's column j = (g+ - g-) / (2 h)), without their set-up on
+  // blocks of a few entries.
+  const Eigen::Index u = unknowns;
   for (int iteration = 0; iteration < 30 && !settled; ++iteration) {
     x = z.head(p);
     for (int j = 0; j < p; ++j) {
@@ -166,26 +172,33 @@ bool polish_on_contacts(ZoneModel& model, ZoneObjective objective,
       local->evaluate(e, d_plus, &g_plus);
       e(j) -= 2.0 * h;
       local->evaluate(e, d_minus, &g_minus);
-      for (int k = 0; k < m; ++k)
-        hessian[static_cast<std::size_t>(k)].col(j) =
-            (g_plus.row(k) - g_minus.row(k)).transpose() / (2.0 * h);
+      const double two_h = 2.0 * h;
+      for (int k = 0; k < m; ++k) {
+        double* column = hessian.data() + static_cast<std::size_t>(k) * pp +
+                         static_cast<std::size_t>(j) * static_cast<std::size_t>(p);
+        for (int i = 0; i < p; ++i) column[i] = (g_plus(k, i) - g_minus(k, i)) / two_h;
+      }
     }
     local->evaluate(x, d, &g);
     residual.setZero();
     jacobian.setZero();
+    double* J = jacobian.data();
     for (int s = 0; s < sides; ++s) residual(p + s) = -1.0;
     for (int k = 0; k < m; ++k) {
       const Side side = active[static_cast<std::size_t>(k)].side;
       const double lambda = z(p + sides + k), sg = sign(side);
       const int row = p + sides + k, t = p + side_index(side);
-      residual.head(p) += sg * lambda * g.row(k).transpose();
+      const double w = sg * lambda;
+      for (int i = 0; i < p; ++i) residual(i) += w * g(k, i);
       residual(t) += lambda;
       residual(row) = d(k) - z(t);
-      jacobian.topLeftCorner(p, p) += sg * lambda * hessian[static_cast<std::size_t>(k)];
-      jacobian.block(0, row, p, 1) = sg * g.row(k).transpose();
-      jacobian(t, row) = 1.0;
-      jacobian.block(row, 0, 1, p) = g.row(k);
-      jacobian(row, t) = -1.0;
+      const double* hk = hessian.data() + static_cast<std::size_t>(k) * pp;
+      for (int c = 0; c < p; ++c)
+        for (int r = 0; r < p; ++r) J[r + c * u] += w * hk[r + c * p];
+      for (int i = 0; i < p; ++i) J[i + row * u] = sg * g(k, i);
+      J[t + row * u] = 1.0;
+      for (int i = 0; i < p; ++i) J[row + i * u] = g(k, i);
+      J[row + t * u] = -1.0;
     }
     if (!newton_step(jacobian, residual, dz)) return false;
     if (!dz.allFinite() || dz.head(p).lpNorm<Eigen::Infinity>() > scale) return false;
