@@ -3,9 +3,10 @@
 //
 // MT19937-64, the 64-bit Mersenne Twister (M. Matsumoto, T. Nishimura, "Mersenne twister: a
 // 623-dimensionally equidistributed uniform pseudo-random number generator", ACM TOMACS 8
-// (1998); the 64-bit parameters of T. Nishimura, ACM TOMACS 10 (2000)) with the parameters,
-// seeding and output of std::mt19937_64 (C++ [rand.eng.mers], [rand.predef]): the same sequence
-// for the same seed, so the study's draws, and its published figures, are those of that engine.
+// (1998); the 64-bit parameters of T. Nishimura, ACM TOMACS 10 (2000); citations from memory)
+// with the parameters, seeding and output of std::mt19937_64 (C++ [rand.eng.mers],
+// [rand.predef]): the same sequence for the same seed, so the study's draws, and its published
+// figures, are those of that engine.
 // The difference is where the work is done: the state is twisted a block of 312 words at a
 // time, as the standard library also does, and the whole block is tempered at once into an
 // output buffer (a loop without branches that the compiler vectorises), instead of tempering
