@@ -37,11 +37,17 @@ void ZoneProgramme::candidates(const Eigen::VectorXd& d, const Eigen::VectorXd& 
     d.minCoeff(&extreme);
   const double reach = g_l1(extreme);
   const double bound = d(extreme);
-  out.clear();
+  // Every index is written at the next free place and kept by advancing the count: the same
+  // list, in the same order, without a branch or a growth check per point.
+  out.resize(static_cast<std::size_t>(n_));
+  Eigen::Index* kept = out.data();
+  std::size_t count = 0;
   for (Eigen::Index i = 0; i < n_; ++i) {
     const double gap = side == Side::upper ? bound - d(i) : d(i) - bound;
-    if (gap <= delta * (g_l1(i) + reach) * (1.0 + 1e-9) + 1e-300) out.push_back(i);
+    kept[count] = i;
+    count += gap <= delta * (g_l1(i) + reach) * (1.0 + 1e-9) + 1e-300 ? 1 : 0;
   }
+  out.resize(count);
 }
 
 void ZoneProgramme::initial_rows(const Eigen::VectorXd& d, const std::vector<Eigen::Index>& cand,
@@ -54,8 +60,19 @@ void ZoneProgramme::initial_rows(const Eigen::VectorXd& d, const std::vector<Eig
     }
   };
   if (cand.size() <= options_.full_set_limit) {
-    rows.reserve(rows.size() + cand.size());
-    for (Eigen::Index i : cand) take(i);
+    // take() for every candidate, the rows written in place (at most one per candidate).
+    const std::size_t base = rows.size();
+    rows.resize(base + cand.size());
+    Constraint* out = rows.data() + base;
+    std::size_t added = 0;
+    for (Eigen::Index i : cand) {
+      unsigned char& in = member[static_cast<std::size_t>(i)];
+      if (!in) {
+        in = 1;
+        out[added++] = {i, side};
+      }
+    }
+    rows.resize(base + added);
     return;
   }
   // The points nearest the bound ...
