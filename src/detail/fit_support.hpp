@@ -236,7 +236,7 @@ struct GaussNewtonResult {
 template <int P, class State, class Evaluate, class Apply>
 GaussNewtonResult<P> gauss_newton(State& state, Evaluate&& evaluate, Apply&& apply,
                                   const Eigen::Matrix<double, P, 1>& step_weights, double scale,
-                                  const FitOptions& options, const std::string& singular_message);
+                                  const FitOptions& options, const char* singular_message);
 
 /// True when the Jacobi-scaled normal matrix has a reciprocal condition number below 1e-14
 /// (or a zero or non-finite diagonal): the parameters are not determined by the points.
@@ -271,7 +271,7 @@ bool normal_matrix_is_singular(const Eigen::MatrixBase<Derived>& jtj) {
 template <int P, class State, class Evaluate, class Apply>
 GaussNewtonResult<P> gauss_newton(State& state, Evaluate&& evaluate, Apply&& apply,
                                   const Eigen::Matrix<double, P, 1>& step_weights, double scale,
-                                  const FitOptions& options, const std::string& singular_message) {
+                                  const FitOptions& options, const char* singular_message) {
   using Matrix = Eigen::Matrix<double, P, P>;
   using Vector = Eigen::Matrix<double, P, 1>;
   // A sum of n squares carries a relative rounding error of order n * eps at worst; a predicted

@@ -77,10 +77,22 @@ bool newton_step(const Eigen::MatrixXd& jacobian, const Eigen::VectorXd& residua
 /// has them, are the distances of every point at the model's current element (zero step): the
 /// objective to beat is taken from them instead of evaluating every point a second time (the
 /// same bits: the distances do not depend on whether gradients were asked for).
+/// The polish's working storage, owned by the caller (one per descent) and reused by its
+/// polishes so that repeated ones of the same shape allocate nothing. Every entry is cleared,
+/// resized or overwritten before it is read: a polish's result does not depend on it.
+struct PolishScratch {
+  std::vector<Constraint> active;
+  std::vector<double> weight;
+  std::vector<Eigen::Index> indices;
+  Eigen::VectorXd z, d, d_plus, d_minus, residual, x, e, dz, all;
+  Eigen::MatrixXd g, g_plus, g_minus, jacobian;
+  std::vector<double> hessian;
+};
+
 bool polish_on_contacts(ZoneModel& model, ZoneObjective objective,
                         const std::vector<Constraint>& contacts,
                         const std::vector<double>& multipliers, double scale,
-                        const Eigen::VectorXd* current = nullptr) {
+                        PolishScratch& scratch, const Eigen::VectorXd* current = nullptr) {
   const int p = model.parameter_count();
   const int sides = (uses_upper(objective) ? 1 : 0) + (uses_lower(objective) ? 1 : 0);
   auto side_index = [&](Side side) { return side == Side::upper || sides == 1 ? 0 : 1; };
@@ -88,9 +100,12 @@ bool polish_on_contacts(ZoneModel& model, ZoneObjective objective,
 
   // Only contacts that carry weight define the optimum; they are worked on in a model of their
   // own points (column k of it is contact k), so each Newton iteration costs O(contacts).
-  std::vector<Constraint> active;
-  std::vector<double> weight;
-  std::vector<Eigen::Index> indices;
+  std::vector<Constraint>& active = scratch.active;
+  std::vector<double>& weight = scratch.weight;
+  std::vector<Eigen::Index>& indices = scratch.indices;
+  active.clear();
+  weight.clear();
+  indices.clear();
   for (std::size_t k = 0; k < contacts.size(); ++k)
     if (multipliers[k] > 1e-12) {
       active.push_back(contacts[k]);
@@ -112,9 +127,10 @@ bool polish_on_contacts(ZoneModel& model, ZoneObjective objective,
   // Unknowns z = [x (p), t (one per side), lambda (one per contact)], started at the current
   // element, the contacts' mean distance per side and the programme's multipliers.
   const Eigen::Index unknowns = p + sides + m;
-  Eigen::VectorXd z = Eigen::VectorXd::Zero(unknowns);
-  Eigen::VectorXd d, d_plus, d_minus;
-  Eigen::MatrixXd g, g_plus, g_minus;
+  Eigen::VectorXd& z = scratch.z;
+  z.setZero(unknowns);
+  Eigen::VectorXd &d = scratch.d, &d_plus = scratch.d_plus, &d_minus = scratch.d_minus;
+  Eigen::MatrixXd &g = scratch.g, &g_plus = scratch.g_plus, &g_minus = scratch.g_minus;
   local->evaluate(z.head(p), d, nullptr);
   for (int s = 0; s < sides; ++s) {
     double sum = 0.0, count = 0.0;
@@ -128,12 +144,26 @@ bool polish_on_contacts(ZoneModel& model, ZoneObjective objective,
   for (int k = 0; k < m; ++k) z(p + sides + k) = weight[static_cast<std::size_t>(k)];
 
   const double h = 1e-6 * scale;  // central-difference step for the Hessians
-  Eigen::VectorXd residual(unknowns);
-  Eigen::MatrixXd jacobian(unknowns, unknowns);
-  std::vector<Eigen::MatrixXd> hessian(static_cast<std::size_t>(m), Eigen::MatrixXd(p, p));
+  // Both set to zero at the top of every iteration before they are filled.
+  Eigen::VectorXd& residual = scratch.residual;
+  Eigen::MatrixXd& jacobian = scratch.jacobian;
+  residual.resize(unknowns);
+  jacobian.resize(unknowns, unknowns);
+  // Each contact's p x p Hessian, column-major, one after the other (contact k's at k p p):
+  // every entry is written in every iteration before it is read.
+  const std::size_t pp = static_cast<std::size_t>(p) * static_cast<std::size_t>(p);
+  std::vector<double>& hessian = scratch.hessian;
+  hessian.resize(static_cast<std::size_t>(m) * pp);
   bool settled = false;
-  Eigen::VectorXd x(p), e(p);  // allocated once: the loop below runs 2 p + 1 evaluations a pass
-  Eigen::VectorXd dz(unknowns);
+  // Reused: the loop below runs 2 p + 1 evaluations a pass.
+  Eigen::VectorXd &x = scratch.x, &e = scratch.e, &dz = scratch.dz;
+  x.resize(p);
+  e.resize(p);
+  // The system is assembled by plain loops over its entries: the same products and sums, in
+  // the same order, as the Eigen block expressions they replaced (J_xx += (s lambda) H_k,
+  // r_x += (s lambda) g_k, H_k's column j = (g+ - g-) / (2 h)), without their set-up on
+  // blocks of a few entries.
+  const Eigen::Index u = unknowns;
   for (int iteration = 0; iteration < 30 && !settled; ++iteration) {
     x = z.head(p);
     for (int j = 0; j < p; ++j) {
@@ -142,26 +172,33 @@ bool polish_on_contacts(ZoneModel& model, ZoneObjective objective,
       local->evaluate(e, d_plus, &g_plus);
       e(j) -= 2.0 * h;
       local->evaluate(e, d_minus, &g_minus);
-      for (int k = 0; k < m; ++k)
-        hessian[static_cast<std::size_t>(k)].col(j) =
-            (g_plus.row(k) - g_minus.row(k)).transpose() / (2.0 * h);
+      const double two_h = 2.0 * h;
+      for (int k = 0; k < m; ++k) {
+        double* column = hessian.data() + static_cast<std::size_t>(k) * pp +
+                         static_cast<std::size_t>(j) * static_cast<std::size_t>(p);
+        for (int i = 0; i < p; ++i) column[i] = (g_plus(k, i) - g_minus(k, i)) / two_h;
+      }
     }
     local->evaluate(x, d, &g);
     residual.setZero();
     jacobian.setZero();
+    double* J = jacobian.data();
     for (int s = 0; s < sides; ++s) residual(p + s) = -1.0;
     for (int k = 0; k < m; ++k) {
       const Side side = active[static_cast<std::size_t>(k)].side;
       const double lambda = z(p + sides + k), sg = sign(side);
       const int row = p + sides + k, t = p + side_index(side);
-      residual.head(p) += sg * lambda * g.row(k).transpose();
+      const double w = sg * lambda;
+      for (int i = 0; i < p; ++i) residual(i) += w * g(k, i);
       residual(t) += lambda;
       residual(row) = d(k) - z(t);
-      jacobian.topLeftCorner(p, p) += sg * lambda * hessian[static_cast<std::size_t>(k)];
-      jacobian.block(0, row, p, 1) = sg * g.row(k).transpose();
-      jacobian(t, row) = 1.0;
-      jacobian.block(row, 0, 1, p) = g.row(k);
-      jacobian(row, t) = -1.0;
+      const double* hk = hessian.data() + static_cast<std::size_t>(k) * pp;
+      for (int c = 0; c < p; ++c)
+        for (int r = 0; r < p; ++r) J[r + c * u] += w * hk[r + c * p];
+      for (int i = 0; i < p; ++i) J[i + row * u] = sg * g(k, i);
+      J[t + row * u] = 1.0;
+      for (int i = 0; i < p; ++i) J[row + i * u] = g(k, i);
+      J[row + t * u] = -1.0;
     }
     if (!newton_step(jacobian, residual, dz)) return false;
     if (!dz.allFinite() || dz.head(p).lpNorm<Eigen::Infinity>() > scale) return false;
@@ -174,19 +211,22 @@ bool polish_on_contacts(ZoneModel& model, ZoneObjective objective,
   if (!settled || (z.tail(m).array() < 0.0).any()) return false;
   // The zone test first: where another point crosses it (the usual end of a start whose
   // contacts changed), the current element's objective is not needed.
-  model.evaluate(x, d, nullptr);
+  // Every point's distances in a vector of their own (the local model's stay m long).
+  Eigen::VectorXd& all = scratch.all;
+  model.evaluate(x, all, nullptr);
   const double rounding =
-      64.0 * std::numeric_limits<double>::epsilon() * std::max(scale, d.cwiseAbs().maxCoeff());
-  if (uses_upper(objective) && d.maxCoeff() > z(p) + rounding) return false;
-  if (uses_lower(objective) && d.minCoeff() < z(p + side_index(Side::lower)) - rounding)
+      64.0 * std::numeric_limits<double>::epsilon() * std::max(scale, all.cwiseAbs().maxCoeff());
+  if (uses_upper(objective) && all.maxCoeff() > z(p) + rounding) return false;
+  if (uses_lower(objective) && all.minCoeff() < z(p + side_index(Side::lower)) - rounding)
     return false;
-  const double f_refined = true_objective(objective, d);
+  const double f_refined = true_objective(objective, all);
   double f_start;
   if (current != nullptr) {
     f_start = true_objective(objective, *current);
   } else {
-    model.evaluate(Eigen::VectorXd::Zero(p), d, nullptr);
-    f_start = true_objective(objective, d);
+    e.setZero(p);  // the current element: no step
+    model.evaluate(e, all, nullptr);
+    f_start = true_objective(objective, all);
   }
   if (f_refined > f_start + rounding) return false;
   model.move(x);
@@ -205,6 +245,8 @@ namespace {
 bool same_contacts(const std::vector<Constraint>& rows, const std::vector<double>& multipliers,
                    const std::vector<Constraint>& start, const std::vector<double>& weights) {
   std::vector<std::pair<Eigen::Index, int>> a, b;
+  a.reserve(rows.size());
+  b.reserve(start.size());
   for (std::size_t k = 0; k < rows.size(); ++k)
     if (multipliers[k] > 1e-12) a.push_back({rows[k].point, rows[k].side == Side::upper ? 0 : 1});
   for (std::size_t k = 0; k < start.size(); ++k)
@@ -241,6 +283,8 @@ ZoneStatus descend(ZoneModel& model, ZoneObjective objective, const ZoneOptions&
   std::vector<Constraint> start;
   std::vector<double> start_weights;
   if (options.from_start && !options.start_contacts.empty()) {
+    start.reserve(options.start_contacts.size());
+    start_weights.reserve(options.start_contacts.size());
     for (const FitContact& c : options.start_contacts) {
       const Side side = c.outer ? Side::upper : Side::lower;
       if (c.point >= static_cast<std::size_t>(model.point_count()) ||
@@ -254,6 +298,7 @@ ZoneStatus descend(ZoneModel& model, ZoneObjective objective, const ZoneOptions&
   }
   if (!start.empty()) programme.seed(start);
 
+  PolishScratch scratch;  // shared by this descent's polishes
   Eigen::VectorXd trial;
   Eigen::MatrixXd g;
   model.evaluate(no_step, d, &g);
@@ -292,7 +337,7 @@ ZoneStatus descend(ZoneModel& model, ZoneObjective objective, const ZoneOptions&
                                                     : moved(start[k].point) <= bottom + tolerance;
       }
     }
-    if (try_step && polish_on_contacts(model, objective, start, start_weights, scale)) {
+    if (try_step && polish_on_contacts(model, objective, start, start_weights, scale, scratch)) {
       start_polished = true;
       have_first = false;
       programme.seed(start);
@@ -341,7 +386,7 @@ ZoneStatus descend(ZoneModel& model, ZoneObjective objective, const ZoneOptions&
         // again. Only for started fits, so a fit from its own start keeps its path.
         if (options.from_start && iterations == 1 &&
             polish_on_contacts(model, objective, programme.binding(), programme.multipliers(),
-                               scale))
+                               scale, scratch))
           summary.polished = true;
         model.evaluate(no_step, d, &g);
         f = true_objective(objective, d);
@@ -358,7 +403,7 @@ ZoneStatus descend(ZoneModel& model, ZoneObjective objective, const ZoneOptions&
         // model is flat along their tangent): solving the optimality conditions on the
         // programme's contacts ends that slow approach at once when the contacts are right.
         if (polish_on_contacts(model, objective, programme.binding(), programme.multipliers(),
-                               scale, &d)) {
+                               scale, scratch, &d)) {
           model.evaluate(no_step, d, &g);
           f = true_objective(objective, d);
           programme_is_current = false;
@@ -373,7 +418,7 @@ ZoneStatus descend(ZoneModel& model, ZoneObjective objective, const ZoneOptions&
   if (status == ZoneStatus::converged) {
     if (!programme_is_current) programme.solve(d, g, std::max(delta, 10.0 * length_tolerance));
     if (polish_on_contacts(model, objective, programme.binding(), programme.multipliers(),
-                           scale, &d)) {
+                           scale, scratch, &d)) {
       model.evaluate(no_step, d, nullptr);
       summary.polished = true;
       polished_at_end = true;

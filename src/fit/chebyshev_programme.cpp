@@ -37,11 +37,17 @@ void ZoneProgramme::candidates(const Eigen::VectorXd& d, const Eigen::VectorXd& 
     d.minCoeff(&extreme);
   const double reach = g_l1(extreme);
   const double bound = d(extreme);
-  out.clear();
+  // Every index is written at the next free place and kept by advancing the count: the same
+  // list, in the same order, without a branch or a growth check per point.
+  out.resize(static_cast<std::size_t>(n_));
+  Eigen::Index* kept = out.data();
+  std::size_t count = 0;
   for (Eigen::Index i = 0; i < n_; ++i) {
     const double gap = side == Side::upper ? bound - d(i) : d(i) - bound;
-    if (gap <= delta * (g_l1(i) + reach) * (1.0 + 1e-9) + 1e-300) out.push_back(i);
+    kept[count] = i;
+    count += gap <= delta * (g_l1(i) + reach) * (1.0 + 1e-9) + 1e-300 ? 1 : 0;
   }
+  out.resize(count);
 }
 
 void ZoneProgramme::initial_rows(const Eigen::VectorXd& d, const std::vector<Eigen::Index>& cand,
@@ -54,14 +60,26 @@ void ZoneProgramme::initial_rows(const Eigen::VectorXd& d, const std::vector<Eig
     }
   };
   if (cand.size() <= options_.full_set_limit) {
-    rows.reserve(rows.size() + cand.size());
-    for (Eigen::Index i : cand) take(i);
+    // take() for every candidate, the rows written in place (at most one per candidate).
+    const std::size_t base = rows.size();
+    rows.resize(base + cand.size());
+    Constraint* out = rows.data() + base;
+    std::size_t added = 0;
+    for (Eigen::Index i : cand) {
+      unsigned char& in = member[static_cast<std::size_t>(i)];
+      if (!in) {
+        in = 1;
+        out[added++] = {i, side};
+      }
+    }
+    rows.resize(base + added);
     return;
   }
   // The points nearest the bound ...
   const std::size_t k = std::min(options_.working_points_per_side, cand.size());
   rows.reserve(rows.size() + 2 * k + 1 + binding_.size());
-  std::vector<Eigen::Index> order(cand);
+  std::vector<Eigen::Index>& order = order_;
+  order.assign(cand.begin(), cand.end());
   auto more_extreme = [&](Eigen::Index a, Eigen::Index b) {
     return side == Side::upper ? d(a) > d(b) : d(a) < d(b);
   };
@@ -76,12 +94,13 @@ void ZoneProgramme::initial_rows(const Eigen::VectorXd& d, const std::vector<Eig
     if (c.side == side) take(c.point);
 }
 
-std::vector<Constraint> ZoneProgramme::first_rows(const Eigen::VectorXd& d,
-                                                  const Eigen::VectorXd& g_l1, double delta) {
+void ZoneProgramme::first_rows(const Eigen::VectorXd& d, const Eigen::VectorXd& g_l1,
+                               double delta, std::vector<Constraint>& rows) {
   in_upper_.assign(static_cast<std::size_t>(n_), 0);
   in_lower_.assign(static_cast<std::size_t>(n_), 0);
-  std::vector<Constraint> rows;
-  std::vector<Eigen::Index> cand;
+  rows.clear();
+  std::vector<Eigen::Index>& cand = cand_;
+  cand.reserve(static_cast<std::size_t>(n_));
   if (upper_col_ >= 0) {
     candidates(d, g_l1, delta, Side::upper, cand);
     initial_rows(d, cand, Side::upper, rows);
@@ -90,7 +109,6 @@ std::vector<Constraint> ZoneProgramme::first_rows(const Eigen::VectorXd& d,
     candidates(d, g_l1, delta, Side::lower, cand);
     initial_rows(d, cand, Side::lower, rows);
   }
-  return rows;
 }
 
 RowBlock ZoneProgramme::make_rows(const Eigen::VectorXd& d, const Eigen::MatrixXd& g, double u0,
@@ -239,13 +257,18 @@ void ZoneProgramme::load(ClpSimplex& lp, const RowBlock& block, double reach,
                  block.lower.data(), block.upper.data());
 }
 
-std::vector<Constraint> ZoneProgramme::violated_rows(const double* x, const Eigen::VectorXd& d,
-                                                    const Eigen::MatrixXd& g, double u0,
-                                                    double l0, double delta) {
+const std::vector<Constraint>& ZoneProgramme::violated_rows(const double* x,
+                                                           const Eigen::VectorXd& d,
+                                                           const Eigen::MatrixXd& g, double u0,
+                                                           double l0, double delta) {
   constexpr double violation_tolerance = 1e-9;  // in units of Delta, above the solvers' tolerance
   const std::size_t max_added = std::max<std::size_t>(64, 2 * options_.working_points_per_side);
-  Eigen::VectorXd y(p_), moved(n_);
-  std::vector<std::pair<double, Constraint>> violated;
+  Eigen::VectorXd& y = y_;
+  Eigen::VectorXd& moved = moved_;
+  y.resize(p_);
+  moved.resize(n_);
+  std::vector<std::pair<double, Constraint>>& violated = violated_;
+  violated.clear();
   for (int k = 0; k < p_; ++k) y(k) = x[k];
   moved.noalias() = g * y;
   for (Eigen::Index i = 0; i < n_; ++i) {
@@ -262,8 +285,8 @@ std::vector<Constraint> ZoneProgramme::violated_rows(const double* x, const Eige
   const std::size_t take = std::min(max_added, violated.size());
   std::partial_sort(violated.begin(), violated.begin() + static_cast<std::ptrdiff_t>(take),
                     violated.end(), [](const auto& a, const auto& b) { return a.first > b.first; });
-  std::vector<Constraint> added;
-  added.reserve(take);
+  std::vector<Constraint>& added = added_;
+  added.clear();
   for (std::size_t j = 0; j < take; ++j) {
     const Constraint& c = violated[j].second;
     (c.side == Side::upper ? in_upper_ : in_lower_)[static_cast<std::size_t>(c.point)] = 1;
@@ -279,7 +302,7 @@ void ZoneProgramme::add_violated_rows(ClpSimplex& lp, const Eigen::VectorXd& d,
                                       const Eigen::MatrixXd& g, double u0, double l0,
                                       double delta, std::vector<Constraint>& rows) {
   for (;;) {
-    const std::vector<Constraint> added =
+    const std::vector<Constraint>& added =
         violated_rows(lp.primalColumnSolution(), d, g, u0, l0, delta);
     if (added.empty()) return;
     const RowBlock more = make_rows(d, g, u0, l0, delta, added);
@@ -317,7 +340,8 @@ LinearStep ZoneProgramme::solve_clp(const Eigen::VectorXd& d, const Eigen::Matri
                                     double delta) {
   const double u0 = d.maxCoeff(), l0 = d.minCoeff();
   const Eigen::VectorXd g_l1 = g.cwiseAbs().rowwise().sum();
-  std::vector<Constraint> rows = first_rows(d, g_l1, delta);
+  std::vector<Constraint> rows;
+  first_rows(d, g_l1, delta, rows);
   ClpSimplex lp;
   load(lp, make_rows(d, g, u0, l0, delta, rows), 2.0 * g_l1.maxCoeff() + 1.0, 0);
   run_simplex(lp);
@@ -391,8 +415,11 @@ bool ZoneProgramme::solve_dense(const Eigen::VectorXd& d, const Eigen::MatrixXd&
                                 LinearStep& result) {
   if (columns_ > DenseLp::max_columns) return false;
   const double u0 = d.maxCoeff(), l0 = d.minCoeff();
-  const Eigen::VectorXd g_l1 = g.cwiseAbs().rowwise().sum();
-  std::vector<Constraint> rows = first_rows(d, g_l1, delta);
+  // The same expression as solve_clp's, evaluated into the programme's scratch.
+  Eigen::VectorXd& g_l1 = g_l1_;
+  g_l1 = g.cwiseAbs().rowwise().sum();
+  std::vector<Constraint>& rows = rows_;
+  first_rows(d, g_l1, delta, rows);
   // As in load(): the bound columns' box is never active (twice the reach of the rows).
   const double reach = 2.0 * g_l1.maxCoeff() + 1.0;
   DenseLp::Vector cost = DenseLp::Vector::Zero(columns_);
@@ -411,7 +438,8 @@ bool ZoneProgramme::solve_dense(const Eigen::VectorXd& d, const Eigen::MatrixXd&
   // The first basis: the most extreme row of each side present, and the balancing box bounds.
   DenseLp::Id basis[DenseLp::max_columns];
   int filled = 0;
-  Eigen::VectorXd balance = Eigen::VectorXd::Zero(p_);  // sum of the basis rows' y-normals
+  // Sum of the basis rows' y-normals (at most max_columns entries: no allocation).
+  DenseLp::Vector balance = DenseLp::Vector::Zero(p_);
   long top = -1, bottom = -1;
   const DenseLp::Id first = dense_.append_rows(rows.size());
   set_dense_rows(first, rows.data(), rows.size(), d, g, u0, l0, delta);
@@ -457,7 +485,8 @@ bool ZoneProgramme::solve_dense(const Eigen::VectorXd& d, const Eigen::MatrixXd&
   if (dense_.solve() != DenseLp::Status::optimal) return false;
   // Constraint generation, resumed from the previous optimal basis.
   for (;;) {
-    const std::vector<Constraint> added = violated_rows(dense_.x().data(), d, g, u0, l0, delta);
+    const std::vector<Constraint>& added =
+        violated_rows(dense_.x().data(), d, g, u0, l0, delta);
     if (added.empty()) break;
     const DenseLp::Id next = dense_.append_rows(added.size());
     set_dense_rows(next, added.data(), added.size(), d, g, u0, l0, delta);
@@ -481,14 +510,20 @@ bool ZoneProgramme::solve_dense(const Eigen::VectorXd& d, const Eigen::MatrixXd&
     dense_basis_.push_back(e);
   }
   // The basis rows are the binding ones (in row order, as Clp lists them).
-  std::vector<std::pair<DenseLp::Id, double>> active;
+  std::pair<DenseLp::Id, double> active[DenseLp::max_columns];
+  int active_count = 0;
   for (int j = 0; j < columns_; ++j)
     if (DenseLp::is_row(dense_.basis()[j]))
-      active.push_back({dense_.basis()[j], std::max(0.0, dense_.multipliers()(j))});
-  std::sort(active.begin(), active.end());
+      active[active_count++] = {dense_.basis()[j], std::max(0.0, dense_.multipliers()(j))};
+  // In row order (the rows of a basis are distinct, so the order is unique); by insertion: at
+  // most max_columns entries.
+  for (int j = 1; j < active_count; ++j)
+    for (int i = j; i > 0 && active[i].first < active[i - 1].first; --i)
+      std::swap(active[i], active[i - 1]);
   binding_.clear();
   multipliers_.clear();
-  for (const auto& [row, lambda] : active) {
+  for (int j = 0; j < active_count; ++j) {
+    const auto& [row, lambda] = active[j];
     binding_.push_back(rows[static_cast<std::size_t>(row)]);
     multipliers_.push_back(lambda);
   }
@@ -503,7 +538,8 @@ Eigen::VectorXd ZoneProgramme::farthest_step(const Eigen::VectorXd& d, const Eig
                                              double offset_weight, double allowance) {
   const double u0 = d.maxCoeff(), l0 = d.minCoeff();
   const Eigen::VectorXd g_l1 = g.cwiseAbs().rowwise().sum();
-  std::vector<Constraint> rows = first_rows(d, g_l1, delta);
+  std::vector<Constraint> rows;
+  first_rows(d, g_l1, delta, rows);
   ClpSimplex lp;
   // Columns: the programme's own, then z_k >= |y_k| (k < p) for the penalty.
   load(lp, make_rows(d, g, u0, l0, delta, rows), 2.0 * g_l1.maxCoeff() + 1.0, p_);

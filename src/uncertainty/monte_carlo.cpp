@@ -17,6 +17,7 @@
 #include "cylzone/fit/fit_plane.hpp"
 #include "detail/fit_support.hpp"
 #include "detail/parallel.hpp"
+#include "uncertainty/detail/twister.hpp"
 
 namespace cylzone {
 namespace {
@@ -151,7 +152,12 @@ double standard_normal(std::mt19937_64& rng) noexcept {
   return std::sqrt(-2.0 * std::log(u1)) * std::cos(two_pi * u2);
 }
 
-void standard_normals(std::mt19937_64& rng, double* out, std::size_t count) noexcept {
+namespace {
+
+/// standard_normals for any engine with the output of std::mt19937_64 (the study's trials use
+/// detail::Twister64, the same sequence drawn faster).
+template <class Engine>
+void polar_normals(Engine& rng, double* out, std::size_t count) noexcept {
   // Marsaglia & Bray, "A convenient method for generating normal variables", SIAM Review 6
   // (1964): (x, y) uniform in the unit disc (rejection from the square, acceptance pi/4), s =
   // x^2 + y^2; then x f and y f with f = sqrt(-2 ln s / s) are two independent standard normal
@@ -171,6 +177,16 @@ void standard_normals(std::mt19937_64& rng, double* out, std::size_t count) noex
     out[k++] = x * f;
     if (k < count) out[k++] = y * f;
   }
+}
+
+}  // namespace
+
+void standard_normals(std::mt19937_64& rng, double* out, std::size_t count) noexcept {
+  polar_normals(rng, out, count);
+}
+
+void standard_normals(detail::Twister64& rng, double* out, std::size_t count) noexcept {
+  polar_normals(rng, out, count);
 }
 
 OutputStatistics output_statistics(std::vector<double> values, double p) {
@@ -610,7 +626,8 @@ MonteCarloSummary monte_carlo_uncertainty(const PartPlan& plan, const PartInputs
     for (const PointCloud& cloud : *group) largest = std::max(largest, cloud.points.cols());
   std::vector<Eigen::Matrix3Xd> deviates(workers, Eigen::Matrix3Xd(3, largest));
   const IndexedTrialModel trial = [&](std::size_t t, std::size_t worker, std::vector<double>& out) {
-    std::mt19937_64 rng(trial_seed(options.seed, t));
+    // The sequence of std::mt19937_64 seeded so (detail/twister.hpp), drawn a block at a time.
+    detail::Twister64 rng(trial_seed(options.seed, t));
     PartInputs& mine = perturbed[worker];
     // The systematic scale error first, then each feature's points in order (x, y, z of the
     // datum frame per point): a fixed order of draws.

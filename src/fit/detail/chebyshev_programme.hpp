@@ -7,6 +7,7 @@
 
 #include <Eigen/Core>
 #include <cstddef>
+#include <utility>
 #include <vector>
 
 #include "fit/detail/chebyshev.hpp"
@@ -98,9 +99,10 @@ class ZoneProgramme {
                   std::vector<Eigen::Index>& out) const;
   void initial_rows(const Eigen::VectorXd& d, const std::vector<Eigen::Index>& cand, Side side,
                     std::vector<Constraint>& rows);
-  /// The first working set of a programme at this element (resets the membership flags).
-  std::vector<Constraint> first_rows(const Eigen::VectorXd& d, const Eigen::VectorXd& g_l1,
-                                     double delta);
+  /// The first working set of a programme at this element, into `rows` (cleared first; resets
+  /// the membership flags).
+  void first_rows(const Eigen::VectorXd& d, const Eigen::VectorXd& g_l1, double delta,
+                  std::vector<Constraint>& rows);
   RowBlock make_rows(const Eigen::VectorXd& d, const Eigen::MatrixXd& g, double u0, double l0,
                      double delta, const std::vector<Constraint>& rows) const;
   /// Loads the rows, the box and the zone objective's costs, with `extra_columns` columns in
@@ -116,10 +118,11 @@ class ZoneProgramme {
                    LinearStep& result);
   /// Constraint generation's check: the rows outside the working set that the solution x
   /// (y, then the bound columns) violates, worst first, at most a round's worth; they are
-  /// marked members of the working set.
-  std::vector<Constraint> violated_rows(const double* x, const Eigen::VectorXd& d,
-                                        const Eigen::MatrixXd& g, double u0, double l0,
-                                        double delta);
+  /// marked members of the working set. The list is the programme's scratch (added_), valid
+  /// until the next call.
+  const std::vector<Constraint>& violated_rows(const double* x, const Eigen::VectorXd& d,
+                                               const Eigen::MatrixXd& g, double u0, double l0,
+                                               double delta);
   /// Rows first .. first + count - 1 (appended by DenseLp::append_rows) set to constraints
   /// c[0 .. count - 1] in the dense solver's form a.(y, R', r') <= b.
   void set_dense_rows(DenseLp::Id first, const Constraint* c, std::size_t count,
@@ -149,6 +152,14 @@ class ZoneProgramme {
   };
   std::vector<BasisEntry> dense_basis_;
   int fallbacks_ = 0;
+  // Scratch of solve(), kept between the programmes of one fit (a descent solves 2-3) so that
+  // only the first allocates: the working set and its candidates, the rows' |g_i|_1, the
+  // constraint generation's check. Contents never carry from one solve to the next (each is
+  // cleared or overwritten before it is read), so a solve's result does not depend on them.
+  std::vector<Eigen::Index> cand_, order_;
+  std::vector<Constraint> rows_, added_;
+  std::vector<std::pair<double, Constraint>> violated_;
+  Eigen::VectorXd g_l1_, y_, moved_;
 };
 
 }  // namespace cylzone::detail::zone_lp
