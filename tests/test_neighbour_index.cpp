@@ -13,12 +13,16 @@
 #include <algorithm>
 #include <cmath>
 #include <cstdint>
+#include <cstring>
+#include <iterator>
+#include <limits>
 #include <random>
 #include <stdexcept>
 #include <utility>
 #include <vector>
 
 #include "cylzone/prepare/neighbour_index.hpp"
+#include "prepare/detail/compact_within.hpp"
 
 using namespace cylzone;
 
@@ -480,4 +484,114 @@ TEST_CASE("all_nearest refuses what it cannot answer", "[neighbour_index][grid]"
   const auto ignore = [](std::size_t, std::size_t, const std::uint32_t*, const std::uint32_t*) {};
   CHECK_THROWS_AS(all_nearest(points, 0, 1, ignore), std::invalid_argument);
   CHECK_THROWS_AS(all_nearest(points, 20, 1, ignore), std::invalid_argument);
+}
+
+TEST_CASE("compact_within keeps the slots the one-at-a-time loop keeps, in the same order",
+          "[neighbour_index][grid]") {
+  // References: the loop it replaced (compact_within_serial, all_nearest's keep_within before
+  // the four-a-step form) and the definition itself, every j with d[j] <= bound in increasing
+  // order (an IEEE comparison, false for a NaN; common practice). Values drawn from a few
+  // levels so that many equal the bound exactly, with NaNs (the query's own slot) and
+  // infinities; every length 0 to 67 covers each remainder of the four-a-step loop.
+  std::mt19937_64 random(20261204);
+  const double levels[] = {0.0, 1e-300, 0.25, 0.5, 0.5, 1.0, 2.0, 1e300,
+                           std::numeric_limits<double>::infinity(),
+                           std::numeric_limits<double>::quiet_NaN()};
+  const double bounds[] = {-1.0, 0.0, 0.25, 0.5, 0.7, 1.0, 1e300,
+                           std::numeric_limits<double>::infinity(),
+                           std::numeric_limits<double>::quiet_NaN()};
+  std::size_t cases = 0, kept_some = 0, kept_all = 0;
+  for (int trial = 0; trial < 40; ++trial)
+    for (std::size_t m = 0; m < 68; ++m) {
+      std::vector<double> d(m);
+      for (double& v : d) v = levels[random() % std::size(levels)];
+      if (trial % 3 == 1)  // continuous values too, as the screen's distances are
+        for (double& v : d) v = std::ldexp(static_cast<double>(random() >> 11), -53);
+      for (const double bound : bounds) {
+        std::vector<std::uint32_t> fast(m + detail::compact_slack, 7u), serial(m, 7u);
+        const std::size_t n_fast = detail::compact_within(d.data(), m, bound, fast.data());
+        const std::size_t n_serial =
+            detail::compact_within_serial(d.data(), 0, m, bound, serial.data());
+        std::vector<std::uint32_t> definition;
+        for (std::size_t j = 0; j < m; ++j)
+          if (d[j] <= bound) definition.push_back(static_cast<std::uint32_t>(j));
+        INFO("m " << m << ", bound " << bound << ", trial " << trial);
+        REQUIRE(n_fast == n_serial);
+        REQUIRE(n_fast == definition.size());
+        fast.resize(n_fast);
+        serial.resize(n_serial);
+        CHECK(fast == serial);
+        CHECK(fast == definition);
+        ++cases;
+        kept_some += n_fast > 0 && n_fast < m ? 1 : 0;
+        kept_all += m > 0 && n_fast == m ? 1 : 0;
+      }
+    }
+  // The cases exercise partial and full selections, not only empty ones.
+  CHECK(cases == 40 * 68 * std::size(bounds));
+  CHECK(kept_some > cases / 4);
+  CHECK(kept_all > 0);
+}
+
+TEST_CASE("distances_within: the same distances, bit for bit, and slots as the loops it replaced",
+          "[neighbour_index][grid]") {
+  // Reference: the one-at-a-time loops all_nearest ran before (squared_distance per candidate,
+  // then compact_within_serial), and the definition of the slots (every j with d[j] <= bound
+  // in increasing order). Candidates around the query at scales from 1e-9 to 1e6 mm (so that
+  // the sums round), coincident with it, and with one NaN coordinate (the query's own slot,
+  // as all_nearest marks it); the AVX2 path is checked where this processor has it (reported).
+  std::mt19937_64 random(4122026);
+  std::uniform_real_distribution<double> unit(-1.0, 1.0);
+  const bool avx2 = detail::distances_within_uses_avx2();
+  WARN("AVX2 path " << (avx2 ? "checked" : "not available on this processor"));
+  std::size_t cases = 0, kept_some = 0;
+  for (int trial = 0; trial < 60; ++trial)
+    for (std::size_t m = 0; m < 70; m += 1 + static_cast<std::size_t>(trial % 3)) {
+      const double scale = std::pow(10.0, -9 + trial % 16);
+      const double q[3] = {1e3 * unit(random), 1e3 * unit(random), unit(random)};
+      std::vector<double> x(m), y(m), z(m);
+      for (std::size_t j = 0; j < m; ++j) {
+        x[j] = q[0] + scale * unit(random);
+        y[j] = q[1] + scale * unit(random);
+        z[j] = q[2] + scale * unit(random);
+        if (random() % 7 == 0) x[j] = q[0], y[j] = q[1], z[j] = q[2];
+      }
+      if (m > 0) x[random() % m] = std::numeric_limits<double>::quiet_NaN();
+      std::vector<double> reference(m);
+      for (std::size_t j = 0; j < m; ++j)
+        reference[j] = detail::squared_distance(q, x[j], y[j], z[j]);
+      std::vector<double> sorted = reference;
+      std::sort(sorted.begin(), sorted.end());  // NaN placement irrelevant: a middle value
+      const double bounds[] = {0.0, m > 0 ? sorted[m / 2] : 1.0, scale * scale,
+                               std::numeric_limits<double>::infinity()};
+      for (const double bound : bounds) {
+        std::vector<std::uint32_t> want(m, 0u);
+        want.resize(detail::compact_within_serial(reference.data(), 0, m, bound, want.data()));
+        std::vector<std::uint32_t> definition;
+        for (std::size_t j = 0; j < m; ++j)
+          if (reference[j] <= bound) definition.push_back(static_cast<std::uint32_t>(j));
+        REQUIRE(want == definition);
+        using Path = std::size_t (*)(const double*, const double*, const double*, const double*,
+                                     std::size_t, double, double*, std::uint32_t*);
+        std::vector<Path> paths = {&detail::distances_within, &detail::distances_within_sse2};
+#if defined(CYLZONE_HAVE_AVX2_PATH)
+        if (avx2) paths.push_back(&detail::distances_within_avx2);
+#endif
+        for (std::size_t path = 0; path < paths.size(); ++path) {
+          std::vector<double> d(m, -1.0);
+          std::vector<std::uint32_t> got(m + detail::compact_slack, 7u);
+          got.resize(paths[path](q, x.data(), y.data(), z.data(), m, bound, d.data(), got.data()));
+          INFO("path " << path << ", m " << m << ", trial " << trial << ", bound " << bound);
+          CHECK(got == want);
+          bool same_bits = true;
+          for (std::size_t j = 0; j < m; ++j)
+            same_bits = same_bits && (std::memcmp(&d[j], &reference[j], sizeof(double)) == 0 ||
+                                      (std::isnan(d[j]) && std::isnan(reference[j])));
+          CHECK(same_bits);
+        }
+        ++cases;
+        kept_some += !want.empty() && want.size() + 1 < m ? 1 : 0;
+      }
+    }
+  CHECK(kept_some > cases / 4);
 }

@@ -4,6 +4,7 @@
 #include <nanoflann.hpp>
 
 #include "detail/parallel.hpp"
+#include "prepare/detail/compact_within.hpp"
 
 #include <algorithm>
 #include <cmath>
@@ -40,14 +41,7 @@ class SlabPoints {
   std::size_t count_;
 };
 
-/// Squared Euclidean distance in 3D from query `a` to point (x, y, z), summed in a fixed order.
-inline double squared_distance(const double* a, double x, double y, double z) {
-  const double d0 = a[0] - x, d1 = a[1] - y, d2 = a[2] - z;
-  double sum = d0 * d0;
-  sum += d1 * d1;
-  sum += d2 * d2;
-  return sum;
-}
+using detail::squared_distance;  // dx^2 + dy^2 + dz^2 in that order (compact_within.hpp)
 
 /// nanoflann's distance type: the tree is only built by nanoflann (its searches are not used,
 /// see Tree::search), so only the construction's needs are met.
@@ -787,33 +781,34 @@ void keep_found(GridScratch& s, std::uint32_t index, std::size_t k) {
   ++s.kept;
 }
 
-/// Squared distances from q to every gathered candidate, into s.distance, in one loop the
-/// compiler vectorises (the same arithmetic as squared_distance one at a time, so the same bits).
-/// The query's own slot (s.self) then gets a NaN, which no bound admits (keep_within): the
-/// point is excluded without a test per candidate.
-void candidate_distances(const double* q, GridScratch& s) {
+/// Squared distances from q to every gathered candidate into s.distance, and the slots of
+/// those within squared distance `bound` into s.passing, in one pass (detail::distances_within:
+/// four candidates a step in AVX2 where the processor has it, else the SSE2 loops; the same
+/// arithmetic as squared_distance one at a time, so the same bits). The query's own slot
+/// (s.self) has its x coordinate replaced by a NaN for the pass, so its distance is a NaN,
+/// which no bound admits: the point is excluded without a test per candidate. Returns how many
+/// passed; when at least k, `bound` bounds the k-th distance from above (see keep_within).
+std::size_t distances_within(const double* q, double bound, GridScratch& s) {
   const std::size_t m = s.distance.size();
-  double* const d = s.distance.data();
-  for (std::size_t j = 0; j < m; ++j) d[j] = squared_distance(q, s.x[j], s.y[j], s.z[j]);
-  if (s.self < m) d[s.self] = std::numeric_limits<double>::quiet_NaN();
+  const bool own = s.self < m;
+  const double x = own ? s.x[s.self] : 0.0;
+  if (own) s.x[s.self] = std::numeric_limits<double>::quiet_NaN();
+  s.passed = detail::distances_within(q, s.x.data(), s.y.data(), s.z.data(), m, bound,
+                                      s.distance.data(), s.passing.data());
+  if (own) s.x[s.self] = x;
+  return s.passed;
 }
 
-/// The slots of the candidates within squared distance `bound` (candidate_distances first)
+/// The slots of the candidates within squared distance `bound` (distances_within first)
 /// into s.passing, without a branch per candidate (whether one passes is unpredictable);
 /// returns how many, the query's own point never among them (its distance is a NaN). When at
 /// least k, `bound` bounds the k-th distance from above: the k nearest in (distance, index)
 /// order all passed, whatever their indices.
+/// Four candidates a step (detail/compact_within.hpp: SSE2 comparisons and a packing table),
+/// the same slots in the same order as one at a time.
 std::size_t keep_within(double bound, GridScratch& s) {
-  const std::size_t m = s.distance.size();
-  const double* const d = s.distance.data();
-  std::uint32_t* const passing = s.passing.data();
-  std::size_t passed = 0;
-  for (std::size_t j = 0; j < m; ++j) {
-    passing[passed] = static_cast<std::uint32_t>(j);
-    passed += d[j] <= bound ? 1 : 0;
-  }
-  s.passed = passed;
-  return passed;
+  s.passed = detail::compact_within(s.distance.data(), s.distance.size(), bound, s.passing.data());
+  return s.passed;
 }
 
 /// Four floats, four 32-bit integers: one SSE register each on x86-64 (a compiler vector
@@ -915,7 +910,7 @@ AllNearestSummary all_nearest(const Eigen::Matrix3Xd& points, std::size_t k, std
     s.y.resize(cap);
     s.z.resize(cap);
     s.id.resize(cap);
-    s.passing.resize(cap);
+    s.passing.resize(cap + detail::compact_slack);
     s.top.resize(k + 1);
   }
   std::vector<std::vector<std::uint32_t>> uncertain(chunks);  // positions, per chunk
@@ -968,8 +963,7 @@ AllNearestSummary all_nearest(const Eigen::Matrix3Xd& points, std::size_t k, std
       for (std::uint32_t p = first; p < last; ++p) {
         s.self = first_self + (p - first);
         const double q[3] = {g.axes_[0][p], g.axes_[1][p], g.axes_[2][p]};
-        candidate_distances(q, s);
-        if (keep_within(guess, s) < k) {
+        if (distances_within(q, guess, s) < k) {
           double bound = std::numeric_limits<double>::infinity();
           if (previous < s.distance.size()) {
             bound = s.distance[previous];
@@ -1008,8 +1002,7 @@ AllNearestSummary all_nearest(const Eigen::Matrix3Xd& points, std::size_t k, std
       bool done = false;
       for (std::int64_t r = 2; r <= widest && !done; ++r) {
         if (!gather_block(g, at, r, p, cap, s)) break;
-        candidate_distances(q, s);
-        keep_within(std::numeric_limits<double>::infinity(), s);
+        distances_within(q, std::numeric_limits<double>::infinity(), s);
         if (select_kept(k, s) < k) continue;
         done = s.distance[s.top[k - 1]] < g.outside_bound(q, at, r);
       }
