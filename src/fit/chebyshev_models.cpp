@@ -105,6 +105,52 @@ void AxisZoneModel::set_frame(const Eigen::Vector3d& point_on_axis,
   local_coordinates_into(*points_, origin_, basis_, local_);
 }
 
+namespace {
+
+/// The axis-zone distances' loop (axis_distances). With AtZero the step is +0.0 in every
+/// entry, so a_u = a_v = b_u = b_v = +0.0 and |m| = |m|^3 = 1.0 exactly: the kernel is
+/// instantiated with those literals in the same expressions, and the compiler drops only what
+/// IEEE 754 makes an identity (x * 1.0, x / 1.0, x - 0.0 give x for every x, signed zeros
+/// included; x * 0.0 and x + 0.0 are kept). The bits are the general kernel's; the zero step
+/// (every descent's linearisation at the current element) is spared four divisions a point.
+template <bool AtZero>
+void axis_kernel(const double* __restrict q, Eigen::Index n, double au, double av, double bu,
+                 double bv, double s, double inv_l, double* __restrict out,
+                 double* __restrict g0) {
+  if constexpr (AtZero) {
+    au = av = bu = bv = 0.0;
+    s = 1.0;
+  }
+  const double s3 = AtZero ? 1.0 : s * s * s;
+  if (!g0) {
+    for (Eigen::Index i = 0; i < n; ++i) {
+      const double wx = q[3 * i] - au, wy = q[3 * i + 1] - av, wz = q[3 * i + 2] - 0.0;
+      const double cx = wy * 1.0 - wz * bv, cy = wz * bu - wx * 1.0, cz = wx * bv - wy * bu;
+      out[i] = std::sqrt(cx * cx + cy * cy + cz * cz) / s;
+    }
+    return;
+  }
+  double* __restrict g1 = g0 + n;
+  double* __restrict g2 = g0 + 2 * n;
+  double* __restrict g3 = g0 + 3 * n;
+  for (Eigen::Index i = 0; i < n; ++i) {
+    const double wx = q[3 * i] - au, wy = q[3 * i + 1] - av, wz = q[3 * i + 2] - 0.0;
+    const double cx = wy * 1.0 - wz * bv, cy = wz * bu - wx * 1.0, cz = wx * bv - wy * bu;
+    const double cn = std::sqrt(cx * cx + cy * cy + cz * cz);
+    out[i] = cn / s;
+    const double k = inverse_or_zero(cn) / s;
+    g0[i] = k * (cy - bv * cz);
+    g1[i] = k * (-cx + bu * cz);
+    g2[i] = (k * (wz * cy - wy * cz) - cn * bu / s3) * inv_l;
+    g3[i] = (k * (-wz * cx + wx * cz) - cn * bv / s3) * inv_l;
+  }
+}
+
+/// +0.0 exactly (not -0.0): the only zero for which the literal 0.0 gives the same bits.
+inline bool positive_zero(double x) { return x == 0.0 && !std::signbit(x); }
+
+}  // namespace
+
 void axis_distances(const Eigen::Matrix3Xd& local, double tilt_scale, const Eigen::VectorXd& step,
                     Eigen::VectorXd& distances, Eigen::MatrixXd* gradients) {
   // The axis through a = (shift_u, shift_v, 0) along m = (b_u, b_v, 1), b = tilt / L:
@@ -126,32 +172,14 @@ void axis_distances(const Eigen::Matrix3Xd& local, double tilt_scale, const Eige
   // compares them bit for bit), without the temporaries, so the compiler can keep it in
   // registers. No reassociation (no -ffast-math): the bits are the expression's.
   const double au = step(0), av = step(1);
-  const double s3 = s * s * s;
-  const double* __restrict q = local.data();
-  double* __restrict out = distances.data();
-  if (!gradients) {
-    for (Eigen::Index i = 0; i < n; ++i) {
-      const double wx = q[3 * i] - au, wy = q[3 * i + 1] - av, wz = q[3 * i + 2] - 0.0;
-      const double cx = wy * 1.0 - wz * bv, cy = wz * bu - wx * 1.0, cz = wx * bv - wy * bu;
-      out[i] = std::sqrt(cx * cx + cy * cy + cz * cz) / s;
-    }
-    return;
-  }
-  double* __restrict g0 = gradients->data();
-  double* __restrict g1 = g0 + n;
-  double* __restrict g2 = g0 + 2 * n;
-  double* __restrict g3 = g0 + 3 * n;
-  for (Eigen::Index i = 0; i < n; ++i) {
-    const double wx = q[3 * i] - au, wy = q[3 * i + 1] - av, wz = q[3 * i + 2] - 0.0;
-    const double cx = wy * 1.0 - wz * bv, cy = wz * bu - wx * 1.0, cz = wx * bv - wy * bu;
-    const double cn = std::sqrt(cx * cx + cy * cy + cz * cz);
-    out[i] = cn / s;
-    const double k = inverse_or_zero(cn) / s;
-    g0[i] = k * (cy - bv * cz);
-    g1[i] = k * (-cx + bu * cz);
-    g2[i] = (k * (wz * cy - wy * cz) - cn * bu / s3) * inv_l;
-    g3[i] = (k * (-wz * cx + wx * cz) - cn * bv / s3) * inv_l;
-  }
+  double* g0 = gradients ? gradients->data() : nullptr;
+  // b = +0.0 / L is +0.0 for L > 0 (tilt_scale_of never gives less) and |(0, 0, 1)| is 1.0.
+  const bool at_zero = positive_zero(au) && positive_zero(av) && positive_zero(bu) &&
+                       positive_zero(bv) && s == 1.0;
+  if (at_zero)
+    axis_kernel<true>(local.data(), n, au, av, bu, bv, s, inv_l, distances.data(), g0);
+  else
+    axis_kernel<false>(local.data(), n, au, av, bu, bv, s, inv_l, distances.data(), g0);
 }
 
 void AxisZoneModel::evaluate(const Eigen::VectorXd& step, Eigen::VectorXd& distances,
