@@ -1,5 +1,4 @@
 #include "detail/fit_support.hpp"
-#include "detail/local_blocks.hpp"
 
 #include <Eigen/Eigenvalues>
 #include <Eigen/Geometry>
@@ -60,16 +59,26 @@ Eigen::Matrix3Xd local_coordinates(const Eigen::Matrix3Xd& points, const Eigen::
 
 void local_coordinates_into(const Eigen::Matrix3Xd& points, const Eigen::Vector3d& origin,
                             const Eigen::Matrix3d& basis, Eigen::Matrix3Xd& local) {
-  // Each column is the same three products and two sums whichever block it falls in (the
-  // expression is local_coordinates' own, so Eigen picks the same kernels); test_fit_support
-  // checks the bits across block edges. The block width is the one for_each_local_block uses.
-  constexpr Eigen::Index block = local_block_columns;
+  // One plain loop, the operations of local_coordinates' product in its order: Eigen evaluates
+  // basis^T (p - origin) with a fixed 3 x 3 factor coefficient by coefficient, w = p - origin
+  // and then (b_0k w_0 + b_1k w_1) + b_2k w_2 for row k (column k of the basis), with w
+  // recomputed for every row. Here w is formed once a point and the rows follow from it: the
+  // same roundings (no FMA contraction: the build has no -mfma, and no -ffast-math), so the
+  // same bits, signed zeros included (test_fit_support compares them with local_coordinates,
+  // bit for bit, across sizes and with zero coordinates).
   const Eigen::Index n = points.cols();
   local.resize(3, n);
-  for (Eigen::Index start = 0; start < n; start += block) {
-    const Eigen::Index len = std::min(block, n - start);
-    local.middleCols(start, len).noalias() =
-        basis.transpose() * (points.middleCols(start, len).colwise() - origin);
+  const double b00 = basis(0, 0), b10 = basis(1, 0), b20 = basis(2, 0);
+  const double b01 = basis(0, 1), b11 = basis(1, 1), b21 = basis(2, 1);
+  const double b02 = basis(0, 2), b12 = basis(1, 2), b22 = basis(2, 2);
+  const double ox = origin.x(), oy = origin.y(), oz = origin.z();
+  const double* __restrict p = points.data();
+  double* __restrict out = local.data();
+  for (Eigen::Index i = 0; i < n; ++i) {
+    const double wx = p[3 * i] - ox, wy = p[3 * i + 1] - oy, wz = p[3 * i + 2] - oz;
+    out[3 * i] = (b00 * wx + b10 * wy) + b20 * wz;
+    out[3 * i + 1] = (b01 * wx + b11 * wy) + b21 * wz;
+    out[3 * i + 2] = (b02 * wx + b12 * wy) + b22 * wz;
   }
 }
 
