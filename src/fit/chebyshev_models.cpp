@@ -2,6 +2,9 @@
 // the points to a circle, an axis and a plane, and their gradients with respect to a local
 // parametrisation in length units; the engine never sees which element it is fitting.
 #include <Eigen/Geometry>
+#if defined(__SSE2__)
+#include <emmintrin.h>
+#endif
 #include <algorithm>
 #include <cmath>
 #include <memory>
@@ -133,7 +136,32 @@ void axis_kernel(const double* __restrict q, Eigen::Index n, double au, double a
   double* __restrict g1 = g0 + n;
   double* __restrict g2 = g0 + 2 * n;
   double* __restrict g3 = g0 + 3 * n;
-  for (Eigen::Index i = 0; i < n; ++i) {
+  Eigen::Index i = 0;
+#if defined(__SSE2__)
+  // Two points per operation: lane l holds point i + l and takes each of the scalar loop's
+  // operations in its order (SSE2's add, sub, mul, div and sqrt round each lane as the scalar
+  // instruction does), so the lanes hold the scalar loop's bits; inverse_or_zero is the
+  // quotient masked where cn > 0 fails (0 and NaN give 0, as in the scalar test).
+  {
+    const __m128d vau = _mm_set1_pd(au), vav = _mm_set1_pd(av), vbu = _mm_set1_pd(bu),
+                  vbv = _mm_set1_pd(bv), vs = _mm_set1_pd(s), vs3 = _mm_set1_pd(s3),
+                  vl = _mm_set1_pd(inv_l), one = _mm_set1_pd(1.0), zero = _mm_set1_pd(0.0);
+    for (; i + 2 <= n; i += 2) {
+      const double* p = q + 3 * i;
+      const __m128d wx = _mm_set_pd(p[3], p[0]) - vau, wy = _mm_set_pd(p[4], p[1]) - vav,
+                    wz = _mm_set_pd(p[5], p[2]) - zero;
+      const __m128d cx = wy * one - wz * vbv, cy = wz * vbu - wx * one, cz = wx * vbv - wy * vbu;
+      const __m128d cn = _mm_sqrt_pd(cx * cx + cy * cy + cz * cz);
+      _mm_storeu_pd(out + i, cn / vs);
+      const __m128d k = _mm_and_pd(one / cn, _mm_cmpgt_pd(cn, zero)) / vs;
+      _mm_storeu_pd(g0 + i, k * (cy - vbv * cz));
+      _mm_storeu_pd(g1 + i, k * (-cx + vbu * cz));
+      _mm_storeu_pd(g2 + i, (k * (wz * cy - wy * cz) - cn * vbu / vs3) * vl);
+      _mm_storeu_pd(g3 + i, (k * (-wz * cx + wx * cz) - cn * vbv / vs3) * vl);
+    }
+  }
+#endif
+  for (; i < n; ++i) {
     const double wx = q[3 * i] - au, wy = q[3 * i + 1] - av, wz = q[3 * i + 2] - 0.0;
     const double cx = wy * 1.0 - wz * bv, cy = wz * bu - wx * 1.0, cz = wx * bv - wy * bu;
     const double cn = std::sqrt(cx * cx + cy * cy + cz * cz);
