@@ -14,6 +14,7 @@
 #include <Eigen/Geometry>
 #include <catch2/catch.hpp>
 #include <cmath>
+#include <cstring>
 #include <functional>
 #include <limits>
 #include <random>
@@ -1018,10 +1019,21 @@ TEST_CASE("the axis-zone distances' loop gives the bits of the vector expression
   for (int i = 0; i < n; ++i)
     local.col(i) = Eigen::Vector3d(6.0 * unit(rng), 6.0 * unit(rng), 40.0 * unit(rng));
   local.col(7) = Eigen::Vector3d(0.0, 0.0, 3.0);  // on the axis at zero step: the gradient's 0
+  // Signed zeros among the coordinates: the zero step's kernel (literal 0.0 and 1.0 for a, b
+  // and |m|) must give them the general expression's bits, the sign of a zero included.
+  local.col(8) = Eigen::Vector3d(-0.0, 2.5, -4.0);
+  local.col(9) = Eigen::Vector3d(1.5, -0.0, 7.0);
+  local.col(10) = Eigen::Vector3d(-0.0, -0.0, -0.0);
+  local.col(11) = Eigen::Vector3d(0.0, -0.0, 5.0);
+  local.col(12) = Eigen::Vector3d(-0.0, 3.0, 0.0);
   const double tilt_scale = 40.0;
+  // Trials 0-2: the zero step (+0.0 everywhere, the special kernel) and steps with -0.0
+  // entries (the general kernel, whose a - q and b products differ in a zero's sign).
   for (int trial = 0; trial < 50; ++trial) {
     Eigen::VectorXd step = Eigen::VectorXd::Zero(4);
-    if (trial > 0)
+    if (trial == 1) step << -0.0, -0.0, -0.0, -0.0;
+    if (trial == 2) step << 0.0, -0.0, 0.0, -0.0;
+    if (trial > 2)
       step << 0.01 * unit(rng), 0.01 * unit(rng), 0.02 * unit(rng), 0.02 * unit(rng);
     Eigen::VectorXd d, d_only;
     Eigen::MatrixXd g;
@@ -1041,7 +1053,8 @@ TEST_CASE("the axis-zone distances' loop gives the bits of the vector expression
           (k * (w.z() * c.y() - w.y() * c.z()) - cn * bu / (s * s * s)) * inv_l,
           (k * (-w.z() * c.x() + w.x() * c.z()) - cn * bv / (s * s * s)) * inv_l};
       const double got[5] = {d(i), g(i, 0), g(i, 1), g(i, 2), g(i, 3)};
-      for (int j = 0; j < 5; ++j) differ += got[j] == expected[j] ? 0 : 1;
+      for (int j = 0; j < 5; ++j)
+        differ += std::memcmp(&got[j], &expected[j], sizeof(double)) == 0 ? 0 : 1;
       differ += d_only(i) == d(i) ? 0 : 1;
     }
     INFO("step " << step.transpose());

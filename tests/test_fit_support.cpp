@@ -525,29 +525,44 @@ TEST_CASE("finiteness checks refuse overflowing and non-finite data in words",
                     Contains("not finite"));
 }
 
-// local_coordinates_into replaces a model's local coordinates in place, block by block; every
-// figure of a dense scan must keep its bits, so it must equal local_coordinates exactly, for
-// sizes that fall on, just past and short of the 4096-column blocks (a few columns left over
-// take Eigen's small-product path). Reference: local_coordinates itself (one product).
+// local_coordinates_into replaces a model's local coordinates in place with a plain loop;
+// every figure of a dense scan must keep its bits, so it must equal local_coordinates exactly
+// (Eigen's product, the reference: its coefficient-wise evaluation of the fixed 3 x 3 factor),
+// signed zeros included (memcmp, not ==), for sizes short of and past Eigen's small-product
+// threshold and past the 4096-column blocks other callers use, with points at the origin and
+// with -0.0 coordinates against a basis with zero and negative entries.
 TEST_CASE("local_coordinates_into gives the bits of local_coordinates", "[fit_support]") {
   std::mt19937_64 rng(4097);
   std::uniform_real_distribution<double> coordinate(-250.0, 250.0);
-  const Eigen::Matrix3d basis =
+  const Eigen::Matrix3d rotated =
       Eigen::AngleAxisd(0.7, Eigen::Vector3d(0.3, -0.5, 0.8).normalized()).toRotationMatrix();
-  const Eigen::Vector3d origin(12.25, -7.5, 301.125);
-  for (const Eigen::Index n : {Eigen::Index{0}, Eigen::Index{1}, Eigen::Index{13},
-                               Eigen::Index{4095}, Eigen::Index{4096}, Eigen::Index{4097},
-                               Eigen::Index{4096 + 13}, Eigen::Index{10000}}) {
-    Eigen::Matrix3Xd points(3, n);
-    for (Eigen::Index i = 0; i < n; ++i)
-      points.col(i) = Eigen::Vector3d(coordinate(rng), coordinate(rng), coordinate(rng));
-    const Eigen::Matrix3Xd expected = detail::local_coordinates(points, origin, basis);
-    Eigen::Matrix3Xd local = Eigen::Matrix3Xd::Constant(3, 5, 1.0);  // resized and overwritten
-    detail::local_coordinates_into(points, origin, basis, local);
-    INFO("n = " << n);
-    REQUIRE(local.cols() == n);
-    CHECK(local == expected);
-    detail::local_coordinates_into(points, origin, basis, local);  // in place, same size
-    CHECK(local == expected);
+  Eigen::Matrix3d signs;  // a column of negative entries, a column with -0.0 entries
+  signs << -0.6, -0.0, 0.8, -0.8, -1.0, 0.6, -0.0, -0.0, 0.0;
+  for (const Eigen::Matrix3d& basis : {rotated, signs}) {
+    for (const Eigen::Vector3d& origin :
+         {Eigen::Vector3d(12.25, -7.5, 301.125), Eigen::Vector3d(0.0, 0.0, 0.0)}) {
+      for (const Eigen::Index n : {Eigen::Index{0}, Eigen::Index{1}, Eigen::Index{13},
+                                   Eigen::Index{14}, Eigen::Index{4095}, Eigen::Index{4096},
+                                   Eigen::Index{4097}, Eigen::Index{4096 + 13},
+                                   Eigen::Index{10000}}) {
+        Eigen::Matrix3Xd points(3, n);
+        for (Eigen::Index i = 0; i < n; ++i)
+          points.col(i) = Eigen::Vector3d(coordinate(rng), coordinate(rng), coordinate(rng));
+        if (n > 2) {
+          points.col(0) = origin;  // w = +0.0: the products take the basis' signs
+          points.col(1) = Eigen::Vector3d(-0.0, origin.y(), -0.0);
+          points.col(n - 1) = Eigen::Vector3d(origin.x(), -0.0, origin.z());
+        }
+        const Eigen::Matrix3Xd expected = detail::local_coordinates(points, origin, basis);
+        Eigen::Matrix3Xd local = Eigen::Matrix3Xd::Constant(3, 5, 1.0);  // resized, overwritten
+        detail::local_coordinates_into(points, origin, basis, local);
+        INFO("n = " << n << ", origin " << origin.transpose());
+        REQUIRE(local.cols() == n);
+        const auto bytes = static_cast<std::size_t>(3 * n) * sizeof(double);
+        CHECK((n == 0 || std::memcmp(local.data(), expected.data(), bytes) == 0));
+        detail::local_coordinates_into(points, origin, basis, local);  // in place, same size
+        CHECK((n == 0 || std::memcmp(local.data(), expected.data(), bytes) == 0));
+      }
+    }
   }
 }

@@ -1,5 +1,8 @@
 #include "detail/fit_support.hpp"
-#include "detail/local_blocks.hpp"
+
+#if defined(__SSE2__)
+#include <emmintrin.h>
+#endif
 
 #include <Eigen/Eigenvalues>
 #include <Eigen/Geometry>
@@ -60,16 +63,50 @@ Eigen::Matrix3Xd local_coordinates(const Eigen::Matrix3Xd& points, const Eigen::
 
 void local_coordinates_into(const Eigen::Matrix3Xd& points, const Eigen::Vector3d& origin,
                             const Eigen::Matrix3d& basis, Eigen::Matrix3Xd& local) {
-  // Each column is the same three products and two sums whichever block it falls in (the
-  // expression is local_coordinates' own, so Eigen picks the same kernels); test_fit_support
-  // checks the bits across block edges. The block width is the one for_each_local_block uses.
-  constexpr Eigen::Index block = local_block_columns;
+  // One plain loop, the operations of local_coordinates' product in its order: Eigen evaluates
+  // basis^T (p - origin) with a fixed 3 x 3 factor coefficient by coefficient, w = p - origin
+  // and then (b_0k w_0 + b_1k w_1) + b_2k w_2 for row k (column k of the basis), with w
+  // recomputed for every row. Here w is formed once a point and the rows follow from it: the
+  // same roundings (no FMA contraction: the build has no -mfma, and no -ffast-math), so the
+  // same bits, signed zeros included (test_fit_support compares them with local_coordinates,
+  // bit for bit, across sizes and with zero coordinates).
   const Eigen::Index n = points.cols();
   local.resize(3, n);
-  for (Eigen::Index start = 0; start < n; start += block) {
-    const Eigen::Index len = std::min(block, n - start);
-    local.middleCols(start, len).noalias() =
-        basis.transpose() * (points.middleCols(start, len).colwise() - origin);
+  const double b00 = basis(0, 0), b10 = basis(1, 0), b20 = basis(2, 0);
+  const double b01 = basis(0, 1), b11 = basis(1, 1), b21 = basis(2, 1);
+  const double b02 = basis(0, 2), b12 = basis(1, 2), b22 = basis(2, 2);
+  const double ox = origin.x(), oy = origin.y(), oz = origin.z();
+  const double* __restrict p = points.data();
+  double* __restrict out = local.data();
+  Eigen::Index i = 0;
+#if defined(__SSE2__)
+  {
+    // Two points per operation: lane l holds point i + l and takes the scalar loop's
+    // operations in its order (SSE2 rounds each lane as the scalar instruction does).
+    const __m128d vb00 = _mm_set1_pd(b00), vb10 = _mm_set1_pd(b10), vb20 = _mm_set1_pd(b20),
+                  vb01 = _mm_set1_pd(b01), vb11 = _mm_set1_pd(b11), vb21 = _mm_set1_pd(b21),
+                  vb02 = _mm_set1_pd(b02), vb12 = _mm_set1_pd(b12), vb22 = _mm_set1_pd(b22),
+                  vox = _mm_set1_pd(ox), voy = _mm_set1_pd(oy), voz = _mm_set1_pd(oz);
+    for (; i + 2 <= n; i += 2) {
+      const double* a = p + 3 * i;
+      const __m128d wx = _mm_set_pd(a[3], a[0]) - vox, wy = _mm_set_pd(a[4], a[1]) - voy,
+                    wz = _mm_set_pd(a[5], a[2]) - voz;
+      const __m128d u = (vb00 * wx + vb10 * wy) + vb20 * wz;
+      const __m128d v = (vb01 * wx + vb11 * wy) + vb21 * wz;
+      const __m128d w = (vb02 * wx + vb12 * wy) + vb22 * wz;
+      double* o = out + 3 * i;
+      // (u0, v0, w0, u1, v1, w1): the columns of the two points.
+      _mm_storeu_pd(o, _mm_unpacklo_pd(u, v));
+      _mm_storeu_pd(o + 2, _mm_shuffle_pd(w, u, 2));  // (w0, u1)
+      _mm_storeu_pd(o + 4, _mm_unpackhi_pd(v, w));
+    }
+  }
+#endif
+  for (; i < n; ++i) {
+    const double wx = p[3 * i] - ox, wy = p[3 * i + 1] - oy, wz = p[3 * i + 2] - oz;
+    out[3 * i] = (b00 * wx + b10 * wy) + b20 * wz;
+    out[3 * i + 1] = (b01 * wx + b11 * wy) + b21 * wz;
+    out[3 * i + 2] = (b02 * wx + b12 * wy) + b22 * wz;
   }
 }
 

@@ -53,7 +53,7 @@ Eigen::Vector3d canonical_direction(const Eigen::Vector3d& direction,
 Eigen::Matrix3Xd local_coordinates(const Eigen::Matrix3Xd& points, const Eigen::Vector3d& origin,
                                    const Eigen::Matrix3d& basis);
 
-/// local_coordinates written into `local` (resized to 3 x n) block by block, with no
+/// local_coordinates written into `local` (resized to 3 x n) in one pass, with no
 /// temporary of the whole cloud beside it: the Chebyshev models replace their local
 /// coordinates of a large face in place at every step. The same bits as local_coordinates.
 void local_coordinates_into(const Eigen::Matrix3Xd& points, const Eigen::Vector3d& origin,

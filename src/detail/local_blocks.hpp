@@ -5,8 +5,8 @@
 // out) need not hold the whole D x n matrix: on a dense face that copy is freshly allocated
 // and its pages zeroed by the system at every call. Each column is the same products and sums
 // whichever block it falls in (the expression is detail::local_coordinates' own, so Eigen picks
-// the same kernels; tests/test_fit_support.cpp checks detail::local_coordinates_into, the
-// same blocks, bit for bit across block edges).
+// the same kernels; tests/test_fit_support.cpp checks detail::local_coordinates_into, a plain
+// loop of the same operations, bit for bit against it).
 
 #include <Eigen/Core>
 #include <algorithm>

@@ -2,6 +2,9 @@
 // the points to a circle, an axis and a plane, and their gradients with respect to a local
 // parametrisation in length units; the engine never sees which element it is fitting.
 #include <Eigen/Geometry>
+#if defined(__SSE2__)
+#include <emmintrin.h>
+#endif
 #include <algorithm>
 #include <cmath>
 #include <memory>
@@ -105,6 +108,93 @@ void AxisZoneModel::set_frame(const Eigen::Vector3d& point_on_axis,
   local_coordinates_into(*points_, origin_, basis_, local_);
 }
 
+namespace {
+
+/// The axis-zone distances' loop (axis_distances). With AtZero the step is +0.0 in every
+/// entry, so a_u = a_v = b_u = b_v = +0.0 and |m| = |m|^3 = 1.0 exactly: the kernel is
+/// instantiated with those literals in the same expressions, and the compiler drops only what
+/// IEEE 754 makes an identity (x * 1.0, x / 1.0, x - 0.0 give x for every x, signed zeros
+/// included; x * 0.0 and x + 0.0 are kept). The bits are the general kernel's; the zero step
+/// (every descent's linearisation at the current element) is spared four divisions a point.
+template <bool AtZero>
+void axis_kernel(const double* __restrict q, Eigen::Index n, double au, double av, double bu,
+                 double bv, double s, double inv_l, double* __restrict out,
+                 double* __restrict g0) {
+  if constexpr (AtZero) {
+    au = av = bu = bv = 0.0;
+    s = 1.0;
+  }
+  const double s3 = AtZero ? 1.0 : s * s * s;
+  if (!g0) {
+    Eigen::Index i = 0;
+#if defined(__SSE2__)
+    {  // two points per operation, as in the gradients' loop below
+      const __m128d vau = _mm_set1_pd(au), vav = _mm_set1_pd(av), vbu = _mm_set1_pd(bu),
+                    vbv = _mm_set1_pd(bv), vs = _mm_set1_pd(s), one = _mm_set1_pd(1.0),
+                    zero = _mm_set1_pd(0.0);
+      for (; i + 2 <= n; i += 2) {
+        const double* p = q + 3 * i;
+        const __m128d wx = _mm_set_pd(p[3], p[0]) - vau, wy = _mm_set_pd(p[4], p[1]) - vav,
+                      wz = _mm_set_pd(p[5], p[2]) - zero;
+        const __m128d cx = wy * one - wz * vbv, cy = wz * vbu - wx * one,
+                      cz = wx * vbv - wy * vbu;
+        _mm_storeu_pd(out + i, _mm_sqrt_pd(cx * cx + cy * cy + cz * cz) / vs);
+      }
+    }
+#endif
+    for (; i < n; ++i) {
+      const double wx = q[3 * i] - au, wy = q[3 * i + 1] - av, wz = q[3 * i + 2] - 0.0;
+      const double cx = wy * 1.0 - wz * bv, cy = wz * bu - wx * 1.0, cz = wx * bv - wy * bu;
+      out[i] = std::sqrt(cx * cx + cy * cy + cz * cz) / s;
+    }
+    return;
+  }
+  double* __restrict g1 = g0 + n;
+  double* __restrict g2 = g0 + 2 * n;
+  double* __restrict g3 = g0 + 3 * n;
+  Eigen::Index i = 0;
+#if defined(__SSE2__)
+  // Two points per operation: lane l holds point i + l and takes each of the scalar loop's
+  // operations in its order (SSE2's add, sub, mul, div and sqrt round each lane as the scalar
+  // instruction does), so the lanes hold the scalar loop's bits; inverse_or_zero is the
+  // quotient masked where cn > 0 fails (0 and NaN give 0, as in the scalar test).
+  {
+    const __m128d vau = _mm_set1_pd(au), vav = _mm_set1_pd(av), vbu = _mm_set1_pd(bu),
+                  vbv = _mm_set1_pd(bv), vs = _mm_set1_pd(s), vs3 = _mm_set1_pd(s3),
+                  vl = _mm_set1_pd(inv_l), one = _mm_set1_pd(1.0), zero = _mm_set1_pd(0.0);
+    for (; i + 2 <= n; i += 2) {
+      const double* p = q + 3 * i;
+      const __m128d wx = _mm_set_pd(p[3], p[0]) - vau, wy = _mm_set_pd(p[4], p[1]) - vav,
+                    wz = _mm_set_pd(p[5], p[2]) - zero;
+      const __m128d cx = wy * one - wz * vbv, cy = wz * vbu - wx * one, cz = wx * vbv - wy * vbu;
+      const __m128d cn = _mm_sqrt_pd(cx * cx + cy * cy + cz * cz);
+      _mm_storeu_pd(out + i, cn / vs);
+      const __m128d k = _mm_and_pd(one / cn, _mm_cmpgt_pd(cn, zero)) / vs;
+      _mm_storeu_pd(g0 + i, k * (cy - vbv * cz));
+      _mm_storeu_pd(g1 + i, k * (-cx + vbu * cz));
+      _mm_storeu_pd(g2 + i, (k * (wz * cy - wy * cz) - cn * vbu / vs3) * vl);
+      _mm_storeu_pd(g3 + i, (k * (-wz * cx + wx * cz) - cn * vbv / vs3) * vl);
+    }
+  }
+#endif
+  for (; i < n; ++i) {
+    const double wx = q[3 * i] - au, wy = q[3 * i + 1] - av, wz = q[3 * i + 2] - 0.0;
+    const double cx = wy * 1.0 - wz * bv, cy = wz * bu - wx * 1.0, cz = wx * bv - wy * bu;
+    const double cn = std::sqrt(cx * cx + cy * cy + cz * cz);
+    out[i] = cn / s;
+    const double k = inverse_or_zero(cn) / s;
+    g0[i] = k * (cy - bv * cz);
+    g1[i] = k * (-cx + bu * cz);
+    g2[i] = (k * (wz * cy - wy * cz) - cn * bu / s3) * inv_l;
+    g3[i] = (k * (-wz * cx + wx * cz) - cn * bv / s3) * inv_l;
+  }
+}
+
+/// +0.0 exactly (not -0.0): the only zero for which the literal 0.0 gives the same bits.
+inline bool positive_zero(double x) { return x == 0.0 && !std::signbit(x); }
+
+}  // namespace
+
 void axis_distances(const Eigen::Matrix3Xd& local, double tilt_scale, const Eigen::VectorXd& step,
                     Eigen::VectorXd& distances, Eigen::MatrixXd* gradients) {
   // The axis through a = (shift_u, shift_v, 0) along m = (b_u, b_v, 1), b = tilt / L:
@@ -126,32 +216,14 @@ void axis_distances(const Eigen::Matrix3Xd& local, double tilt_scale, const Eige
   // compares them bit for bit), without the temporaries, so the compiler can keep it in
   // registers. No reassociation (no -ffast-math): the bits are the expression's.
   const double au = step(0), av = step(1);
-  const double s3 = s * s * s;
-  const double* __restrict q = local.data();
-  double* __restrict out = distances.data();
-  if (!gradients) {
-    for (Eigen::Index i = 0; i < n; ++i) {
-      const double wx = q[3 * i] - au, wy = q[3 * i + 1] - av, wz = q[3 * i + 2] - 0.0;
-      const double cx = wy * 1.0 - wz * bv, cy = wz * bu - wx * 1.0, cz = wx * bv - wy * bu;
-      out[i] = std::sqrt(cx * cx + cy * cy + cz * cz) / s;
-    }
-    return;
-  }
-  double* __restrict g0 = gradients->data();
-  double* __restrict g1 = g0 + n;
-  double* __restrict g2 = g0 + 2 * n;
-  double* __restrict g3 = g0 + 3 * n;
-  for (Eigen::Index i = 0; i < n; ++i) {
-    const double wx = q[3 * i] - au, wy = q[3 * i + 1] - av, wz = q[3 * i + 2] - 0.0;
-    const double cx = wy * 1.0 - wz * bv, cy = wz * bu - wx * 1.0, cz = wx * bv - wy * bu;
-    const double cn = std::sqrt(cx * cx + cy * cy + cz * cz);
-    out[i] = cn / s;
-    const double k = inverse_or_zero(cn) / s;
-    g0[i] = k * (cy - bv * cz);
-    g1[i] = k * (-cx + bu * cz);
-    g2[i] = (k * (wz * cy - wy * cz) - cn * bu / s3) * inv_l;
-    g3[i] = (k * (-wz * cx + wx * cz) - cn * bv / s3) * inv_l;
-  }
+  double* g0 = gradients ? gradients->data() : nullptr;
+  // b = +0.0 / L is +0.0 for L > 0 (tilt_scale_of never gives less) and |(0, 0, 1)| is 1.0.
+  const bool at_zero = positive_zero(au) && positive_zero(av) && positive_zero(bu) &&
+                       positive_zero(bv) && s == 1.0;
+  if (at_zero)
+    axis_kernel<true>(local.data(), n, au, av, bu, bv, s, inv_l, distances.data(), g0);
+  else
+    axis_kernel<false>(local.data(), n, au, av, bu, bv, s, inv_l, distances.data(), g0);
 }
 
 void AxisZoneModel::evaluate(const Eigen::VectorXd& step, Eigen::VectorXd& distances,
