@@ -61,6 +61,18 @@ bool newton_step(const Eigen::MatrixXd& jacobian, const Eigen::VectorXd& residua
   return true;
 }
 
+/// The polish's working storage, owned by the caller (one per descent) and reused by its
+/// polishes so that repeated ones of the same shape allocate nothing. Every entry is cleared,
+/// resized or overwritten before it is read: a polish's result does not depend on it.
+struct PolishScratch {
+  std::vector<Constraint> active;
+  std::vector<double> weight;
+  std::vector<Eigen::Index> indices;
+  Eigen::VectorXd z, d, d_plus, d_minus, residual, x, e, dz, all;
+  Eigen::MatrixXd g, g_plus, g_minus, jacobian;
+  std::vector<double> hessian;
+};
+
 /// Where fewer contacts hold the optimum than there are unknowns (e.g. the smallest circle on
 /// two diametral points), the linear model is flat along the contacts' common tangent and the
 /// true objective varies only quadratically there, so comparing objective values cannot place
@@ -76,19 +88,8 @@ bool newton_step(const Eigen::MatrixXd& jacobian, const Eigen::VectorXd& residua
 /// worse: otherwise the element from the linear programmes stands. `current`, where the caller
 /// has them, are the distances of every point at the model's current element (zero step): the
 /// objective to beat is taken from them instead of evaluating every point a second time (the
-/// same bits: the distances do not depend on whether gradients were asked for).
-/// The polish's working storage, owned by the caller (one per descent) and reused by its
-/// polishes so that repeated ones of the same shape allocate nothing. Every entry is cleared,
-/// resized or overwritten before it is read: a polish's result does not depend on it.
-struct PolishScratch {
-  std::vector<Constraint> active;
-  std::vector<double> weight;
-  std::vector<Eigen::Index> indices;
-  Eigen::VectorXd z, d, d_plus, d_minus, residual, x, e, dz, all;
-  Eigen::MatrixXd g, g_plus, g_minus, jacobian;
-  std::vector<double> hessian;
-};
-
+/// same bits: the distances do not depend on whether gradients were asked for). `scratch` is
+/// the caller's PolishScratch (above).
 bool polish_on_contacts(ZoneModel& model, ZoneObjective objective,
                         const std::vector<Constraint>& contacts,
                         const std::vector<double>& multipliers, double scale,

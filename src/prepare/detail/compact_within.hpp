@@ -140,8 +140,7 @@ inline std::size_t distances_within(const double* q, const double* x, const doub
                                     const double* z, std::size_t m, double bound, double* d,
                                     std::uint32_t* passing) {
 #if defined(CYLZONE_HAVE_AVX2_PATH)
-  if (__builtin_cpu_supports("avx2"))
-    return distances_within_avx2(q, x, y, z, m, bound, d, passing);
+  if (distances_within_uses_avx2()) return distances_within_avx2(q, x, y, z, m, bound, d, passing);
 #endif
   return distances_within_sse2(q, x, y, z, m, bound, d, passing);
 }
