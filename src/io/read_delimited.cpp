@@ -17,6 +17,7 @@
 #include "cylzone/core/errors.hpp"
 #include "cylzone/io/read_points.hpp"
 #include "io/detail/delimited_text.hpp"
+#include "io/detail/populate_pages.hpp"
 #include "io/detail/short_decimal.hpp"
 #include "io/detail/text_parsing.hpp"
 
@@ -315,10 +316,14 @@ PointCloud parse_delimited_unguarded(std::string_view text, const std::string& s
 
   // Upper bound on the number of points: the number of lines from the first data line on.
   const std::size_t capacity = count_lines(line.begin, end);
+  // Filled line by line below (all but the lines that hold no record): the pages in one call
+  // each, not one fault each (io/detail/populate_pages.hpp; no byte changes).
   Eigen::Matrix3Xd points(3, static_cast<Eigen::Index>(capacity));
+  detail::populate_for_write(points.data(), sizeof(double) * static_cast<std::size_t>(points.size()));
   Eigen::Matrix3Xd vectors;
   if (columns.has_vectors) {
     vectors.resize(3, static_cast<Eigen::Index>(capacity));
+    detail::populate_for_write(vectors.data(), sizeof(double) * static_cast<std::size_t>(vectors.size()));
   }
   const double scale = millimetres_per(options.unit);
   const int used_roles = columns.has_vectors ? 6 : 3;
@@ -330,6 +335,7 @@ PointCloud parse_delimited_unguarded(std::string_view text, const std::string& s
 
   std::vector<std::size_t> point_lines;  // file line of each point, for reports
   point_lines.reserve(capacity);
+  detail::populate_for_write(point_lines.data(), sizeof(std::size_t) * capacity);
   Eigen::Index n = 0;
   // `line` is the first data line. Each content line that is not a plain record goes through
   // split_fields() and parse_fields(); the plain records after it are read straight from the

@@ -27,6 +27,7 @@
 
 #include "cylzone/core/errors.hpp"
 #include "io/detail/mesh_scan.hpp"
+#include "io/detail/populate_pages.hpp"
 #include "io/detail/read_mesh.hpp"
 #include "io/detail/text_parsing.hpp"
 
@@ -151,6 +152,8 @@ void check_agreement(const Eigen::Matrix3Xd& scanned, const Eigen::Matrix3Xd& na
 Eigen::Matrix3Xd unit_normals(const Eigen::Matrix3Xd& normals, const ScanResult& scan,
                               const std::string& source) {
   Eigen::Matrix3Xd unit(3, normals.cols());
+  // Every column is written below: its pages in one call (populate_pages.hpp).
+  populate_for_write(unit.data(), sizeof(double) * static_cast<std::size_t>(unit.size()));
   for (Eigen::Index i = 0; i < normals.cols(); ++i) {
     const Eigen::Vector3d v = normals.col(i);
     // The vertex's name only when it is needed: a string per vertex would cost more than the

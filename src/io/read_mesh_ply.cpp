@@ -18,6 +18,7 @@
 
 #include "cylzone/core/errors.hpp"
 #include "io/detail/mesh_scan.hpp"
+#include "io/detail/populate_pages.hpp"
 #include "io/detail/text_parsing.hpp"
 
 namespace cylzone::detail {
@@ -442,10 +443,14 @@ ScanResult scan_ply(std::string_view bytes, const std::string& source) {
     least += item * element.count;
   }
 
+  // Every vertex's coordinates (and normal) are written below: the pages in one call each, not
+  // one fault each (populate_pages.hpp; no byte changes).
   Eigen::Matrix3Xd points(3, static_cast<Eigen::Index>(vertex.count));
+  populate_for_write(points.data(), sizeof(double) * static_cast<std::size_t>(points.size()));
   Eigen::Matrix3Xd normals;
   if (layout.has_normals) {
     normals.resize(3, static_cast<Eigen::Index>(vertex.count));
+    populate_for_write(normals.data(), sizeof(double) * static_cast<std::size_t>(normals.size()));
   }
   const int roles = layout.has_normals ? 6 : 3;
   std::vector<int> role_lookup(vertex.properties.size(), -1);

@@ -13,6 +13,7 @@
 #include "cylzone/core/errors.hpp"
 #include "cylzone/io/load.hpp"
 #include "cylzone/io/read_points.hpp"
+#include "io/detail/populate_pages.hpp"
 #include "io/detail/read_mesh.hpp"
 
 namespace cylzone {
@@ -62,6 +63,8 @@ LoadedFile load(const std::filesystem::path& file) {
   const auto expected = std::filesystem::file_size(file, ec);
   const std::size_t capacity = ec ? 0 : static_cast<std::size_t>(expected);
   loaded.data_.reset(new char[capacity > 0 ? capacity : 1]);
+  // fread() fills the whole buffer: its pages in one call, not one fault each (populate_pages.hpp).
+  detail::populate_for_write(loaded.data_.get(), capacity);
   loaded.size_ = std::fread(loaded.data_.get(), 1, capacity, stream.get());
   // The size can change between stat and read (a file still being written): read to the end.
   char chunk[65536];
