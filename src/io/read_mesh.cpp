@@ -24,10 +24,10 @@
 #include <cstdio>
 #include <new>
 #include <string>
+#include <utility>
 
 #include "cylzone/core/errors.hpp"
 #include "io/detail/mesh_scan.hpp"
-#include "io/detail/populate_pages.hpp"
 #include "io/detail/read_mesh.hpp"
 #include "io/detail/text_parsing.hpp"
 
@@ -147,13 +147,12 @@ void check_agreement(const Eigen::Matrix3Xd& scanned, const Eigen::Matrix3Xd& na
                              " by the structure scan" + scan.openmesh_limits);
 }
 
-/// Unit vectors from raw normals; a normal that is not finite or has no length is refused,
+/// Unit vectors from raw normals, normalised in place (each column is read whole before it is
+/// written, so the result is the one a separate output matrix would hold, without a second
+/// fresh array of the cloud's size); a normal that is not finite or has no length is refused,
 /// naming the vertex and what is wrong with it.
-Eigen::Matrix3Xd unit_normals(const Eigen::Matrix3Xd& normals, const ScanResult& scan,
+Eigen::Matrix3Xd unit_normals(Eigen::Matrix3Xd normals, const ScanResult& scan,
                               const std::string& source) {
-  Eigen::Matrix3Xd unit(3, normals.cols());
-  // Every column is written below: its pages in one call (populate_pages.hpp).
-  populate_for_write(unit.data(), sizeof(double) * static_cast<std::size_t>(unit.size()));
   for (Eigen::Index i = 0; i < normals.cols(); ++i) {
     const Eigen::Vector3d v = normals.col(i);
     // The vertex's name only when it is needed: a string per vertex would cost more than the
@@ -166,9 +165,9 @@ Eigen::Matrix3Xd unit_normals(const Eigen::Matrix3Xd& normals, const ScanResult&
     if (largest == 0.0)
       throw InputError(source, line_of(scan, i), item() + " has a zero-length normal (0 0 0)");
     const Eigen::Vector3d scaled = v / largest;
-    unit.col(i) = scaled / scaled.norm();
+    normals.col(i) = scaled / scaled.norm();
   }
-  return unit;
+  return normals;
 }
 
 
@@ -215,10 +214,15 @@ PointCloud read_mesh_unguarded(std::string_view content, PointFileFormat format,
   // Vertex normals: the scan's doubles where it read them (PLY, ASCII OFF), otherwise
   // OpenMesh's (OBJ, where normals attach to vertices through the faces).
   if (scan.normals) {
-    cloud.vectors = unit_normals(*scan.normals, scan, source);
-    if (mesh.normals) check_agreement(*scan.normals, *mesh.normals, scan, "normal", source);
+    if (mesh.normals) {
+      // The raw normals are compared after normalising (a bad normal is named first): a copy.
+      cloud.vectors = unit_normals(*scan.normals, scan, source);
+      check_agreement(*scan.normals, *mesh.normals, scan, "normal", source);
+    } else {
+      cloud.vectors = unit_normals(std::move(*scan.normals), scan, source);
+    }
   } else if (scan.openmesh_normals_usable && mesh.normals) {
-    cloud.vectors = unit_normals(*mesh.normals, scan, source);
+    cloud.vectors = unit_normals(std::move(*mesh.normals), scan, source);
   }
   if (options.unit != LengthUnit::millimetre) {
     cloud.points *= millimetres_per(options.unit);
