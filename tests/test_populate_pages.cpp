@@ -113,6 +113,12 @@ TEST_CASE("populate_for_write makes exactly the whole pages inside the range res
   const std::size_t pages = populate_threshold_bytes / page + 8;
   FreshMapping fresh(pages * page);
   REQUIRE(fresh.data != nullptr);
+  // The two pages at each end are made read-only: separate mappings, so the kernel's choice of
+  // folio size cannot make them resident through a fault in the middle, and a write-populate
+  // that named any of them would fail as a whole (madvise(2): EFAULT/ENOMEM), leaving the middle
+  // unpopulated too.
+  REQUIRE(::mprotect(fresh.data, 2 * page, PROT_READ) == 0);
+  REQUIRE(::mprotect(fresh.data + (pages - 2) * page, 2 * page, PROT_READ) == 0);
   // Nothing touched yet.
   for (const bool r : resident_pages(fresh.data, fresh.size)) REQUIRE_FALSE(r);
   // A range that starts 100 bytes into page 1 and ends 100 bytes into page pages-2: pages 2 to
