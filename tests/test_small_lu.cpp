@@ -88,6 +88,54 @@ TEST_CASE("the factor and inverse of small matrices have the bits of FullPivLU a
   CHECK(compared > 3500);
 }
 
+namespace {
+
+/// full_piv_lu_in_place<N> and inverse_from_full_piv_lu<N> (n a compile-time constant, as the
+/// dense LP's bases of 4 to 6 columns use them) against Eigen's FullPivLU and inverse().
+template <int N>
+int compare_fixed_size(std::mt19937_64& random) {
+  using Matrix = Eigen::Matrix<double, Eigen::Dynamic, Eigen::Dynamic, 0, max_columns, max_columns>;
+  int compared = 0;
+  for (int trial = 0; trial < 1500; ++trial) {
+    Matrix basis(N, N);
+    random_rows(basis, N, random);
+    const Eigen::FullPivLU<Matrix> lu(basis);
+    Eigen::Matrix<double, max_columns, max_columns> factor;
+    factor.setConstant(std::numeric_limits<double>::quiet_NaN());
+    factor.topLeftCorner(N, N) = basis;
+    int p[max_columns], q[max_columns];
+    const bool regular = full_piv_lu_in_place<N>(factor, N, p, q);
+    INFO("trial " << trial << ", n = " << N);
+    REQUIRE(regular == (lu.nonzeroPivots() == N));
+    if (!regular || !lu.isInvertible()) continue;
+    bool same = true;
+    for (int i = 0; i < N; ++i) {
+      same = same && p[i] == lu.permutationP().indices()(i) &&
+             q[i] == lu.permutationQ().indices()(i);
+      for (int k = 0; k < N; ++k) same = same && same_bits(factor(i, k), lu.matrixLU()(i, k));
+    }
+    const Matrix expected = lu.inverse();
+    Matrix inverse(N, N);
+    inverse_from_full_piv_lu<N>(
+        factor, N, [&](int i) { return p[i]; }, [&](int i) { return q[i]; }, inverse);
+    for (int i = 0; i < N; ++i)
+      for (int k = 0; k < N; ++k) same = same && same_bits(inverse(i, k), expected(i, k));
+    CHECK(same);
+    ++compared;
+  }
+  return compared;
+}
+
+}  // namespace
+
+TEST_CASE("the factor and inverse at a compile-time size have the bits of FullPivLU",
+          "[small-lu]") {
+  std::mt19937_64 random(4056);
+  CHECK(compare_fixed_size<4>(random) > 1200);
+  CHECK(compare_fixed_size<5>(random) > 1200);
+  CHECK(compare_fixed_size<6>(random) > 1200);
+}
+
 TEST_CASE("the solve of small systems has the bits of FullPivLU::solve()", "[small-lu]") {
   // Newton's method on a Chebyshev fit's contacts: Jacobians up to 16 x 16 (two panels of the
   // triangular solves), dynamic in Eigen, in the top left block of a fixed 16 x 16 matrix here;
