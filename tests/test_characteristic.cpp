@@ -2,6 +2,9 @@
 // characteristics with their stable ids (decide/bore_characteristics.hpp).
 #include <catch2/catch.hpp>
 #include <cmath>
+#include <cstring>
+#include <string>
+#include <vector>
 
 #include "cylzone/decide/bore_characteristics.hpp"
 #include "cylzone/decide/characteristic.hpp"
@@ -141,6 +144,77 @@ TEST_CASE("bore characteristics: stable ids, decisive flags, Rule #1 size limits
   CHECK(upper->verdict == Verdict::does_not_conform);
   CHECK(size_reason(no_pairs, "P2") ==
         "minimum material envelope 10.0160 exceeds the upper limit 10.0150");
+}
+
+// characteristic_figures is the rows of bore_characteristics without their texts (the Monte
+// Carlo trials read only the values): the same kinds in the same order, the values bit for bit
+// (memcmp, so a signed zero counts) and the same evaluated flags, on bores that take every
+// branch of the list: with and without mobility, a pattern not evaluated, a held direction, no
+// opposed pairs, a boundary moved, fixed and perpendicular, a bore not evaluated. The reference
+// is the computation the trials used before (bore_characteristics and find_characteristic).
+TEST_CASE("characteristic figures: the rows' kinds, values and flags without the texts",
+          "[decide]") {
+  const auto agree = [](const BoreResult& b, std::size_t expected_rows) {
+    std::vector<CharacteristicFigure> figures{{"stale", 1.0, false}};  // cleared first
+    characteristic_figures(b, figures);
+    const std::vector<Characteristic> rows =
+        b.evaluated() ? bore_characteristics(b) : std::vector<Characteristic>{};
+    REQUIRE(figures.size() == rows.size());
+    CHECK(rows.size() == expected_rows);
+    for (std::size_t k = 0; k < rows.size(); ++k) {
+      INFO(rows[k].id);
+      CHECK(b.id + "/" + std::string(figures[k].kind) == rows[k].id);
+      CHECK(std::memcmp(&figures[k].value, &rows[k].value, sizeof(double)) == 0);
+      CHECK(figures[k].evaluated == rows[k].not_evaluated.empty());
+      const Characteristic* found = find_characteristic(rows, rows[k].id);
+      REQUIRE(found);
+      CHECK(std::memcmp(&found->value, &figures[k].value, sizeof(double)) == 0);
+    }
+  };
+  BoreResult b;
+  b.id = "P2";
+  b.position = position(0.0514, 0.030, 0.0029);
+  b.position->projected = true;
+  b.perpendicularity = PerpendicularityResult{};
+  b.perpendicularity->spec.condition = MaterialCondition::mmc;
+  b.perpendicularity->value = -0.0;  // a signed zero must come through as it is
+  b.size.limits = SizeLimits{10.000, 10.015};
+  b.size.mating_envelope = 10.0029;
+  b.size.two_point_min = 9.9990;
+  b.size.two_point_max = 10.0074;
+  b.size.two_point_count = 12;
+  b.size.minimum_material_envelope = 10.0160;
+  b.form.cylindricity = 0.004;
+  b.form.tolerance = 0.003;
+  b.virtual_condition = VirtualConditionResult{};
+  b.virtual_condition->clearance = 0.0021;
+  b.virtual_condition->boundary = 9.97;
+  agree(b, 7);
+
+  b.position_with_mobility = position(0.0300, 0.030, 0.0029);
+  b.virtual_condition_with_mobility = VirtualConditionResult{};
+  b.virtual_condition_with_mobility->clearance = 0.0033;
+  b.virtual_condition_with_mobility->condition = MaterialCondition::lmc;
+  agree(b, 8);
+
+  // A pattern member not evaluated: the mobility row and the boundary on true position are
+  // not evaluated (value 0), the fixed frame's position shown.
+  b.mobility_not_evaluated = "P5 was not evaluated";
+  b.virtual_condition_with_mobility.reset();
+  agree(b, 8);
+
+  // A held direction: perpendicularity not evaluated; no opposed pairs; a boundary
+  // perpendicular to A (free in location) keeps its clearance.
+  b.direction_held = true;
+  b.size.two_point_count = 0;
+  b.virtual_condition->on_true_position = false;
+  agree(b, 7);
+
+  BoreResult bare;
+  bare.id = "P9";
+  agree(bare, 0);
+  bare.not_evaluated = "no points";
+  agree(bare, 0);
 }
 
 // ---- Decision rules (decide/characteristic.hpp; docs/evaluation.md, "Decision rules").

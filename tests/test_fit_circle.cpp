@@ -6,10 +6,12 @@
 #include <Eigen/Geometry>
 #include <cmath>
 #include <cstdio>
+#include <cstring>
 
 #include "cylzone/core/errors.hpp"
 #include "cylzone/fit/fit_circle.hpp"
 #include "fit/detail/circle_2d.hpp"
+#include "detail/fit_support.hpp"
 #include "reference_data.hpp"
 
 using namespace cylzone;
@@ -124,6 +126,93 @@ TEST_CASE("2D least-squares circle and its algebraic start", "[circle][least_squ
   FitOptions one;
   one.max_iterations = 1;
   CHECK(detail::fit_circle_2d_least_squares(uv, one).status == FitStatus::iteration_limit);
+}
+
+namespace {
+
+/// The 2D least-squares circle as it was computed before its normal equations were summed
+/// entry by entry and its centroid and scale taken from the algebraic start's pass: the
+/// reference fit_circle_2d_least_squares must reproduce bit for bit.
+detail::Circle2dFit previous_least_squares(const Eigen::Matrix2Xd& uv, const FitOptions& options) {
+  const detail::Circle2dFit start = detail::fit_circle_2d_algebraic(uv);
+  const Eigen::Vector2d origin = uv.rowwise().mean();
+  const double scale = (uv.colwise() - origin).colwise().norm().maxCoeff();
+  Eigen::Vector3d state(start.centre.x() - origin.x(), start.centre.y() - origin.y(),
+                        start.radius);
+  auto evaluate = [&](const Eigen::Vector3d& p, Eigen::Matrix3d& jtj, Eigen::Vector3d& jtr) {
+    jtj.setZero();
+    jtr.setZero();
+    double ssr = 0.0;
+    for (Eigen::Index i = 0; i < uv.cols(); ++i) {
+      const double dx = uv(0, i) - origin.x() - p(0), dy = uv(1, i) - origin.y() - p(1);
+      const double rho = std::sqrt(dx * dx + dy * dy);
+      const double d = rho - p(2);
+      const double inv = rho > 0.0 ? 1.0 / rho : 0.0;
+      const Eigen::Vector3d j(-dx * inv, -dy * inv, -1.0);
+      jtj.noalias() += j * j.transpose();
+      jtr += j * d;
+      ssr += d * d;
+    }
+    return ssr;
+  };
+  auto apply = [](const Eigen::Vector3d& p, const Eigen::Vector3d& step) {
+    return Eigen::Vector3d(p + step);
+  };
+  const auto outcome = detail::gauss_newton<3>(state, evaluate, apply, Eigen::Vector3d::Ones(),
+                                               scale, options, "not determined");
+  detail::Circle2dFit fit;
+  fit.centre = origin + state.head<2>();
+  fit.radius = state(2);
+  fit.ssr = outcome.ssr;
+  fit.normal_matrix = outcome.normal_matrix;
+  fit.status = outcome.status;
+  fit.iterations = outcome.iterations;
+  return fit;
+}
+
+bool same_bits(const double* a, const double* b, std::size_t count) {
+  return std::memcmp(a, b, count * sizeof(double)) == 0;
+}
+
+}  // namespace
+
+TEST_CASE("2D least-squares circle: the same bits as the full outer-product accumulation",
+          "[circle][least_squares]") {
+  // Null-space reference arcs (as above) of several spans, radii and distances from the origin,
+  // one with a point repeated and one with a point on the start centre's neighbourhood, and
+  // short iteration limits: every figure of the fit compared with the previous computation by
+  // memcmp (signed zeros count).
+  struct Arc {
+    Eigen::Vector2d centre;
+    double radius, start_deg, span_deg;
+    int count;
+    double amplitude;
+  };
+  const Arc arcs[] = {{{2000.5, -300.25}, 4.0, 10.0, 150.0, 30, 0.0005},
+                      {{0.0, 0.0}, 6.0, 0.0, 360.0, 48, 0.002},
+                      {{-12.0, 7.5}, 0.8, 200.0, 60.0, 9, 0.0001},
+                      {{150.0, 150.0}, 40.0, -45.0, 300.0, 200, 0.01},
+                      {{3.0, -4.0}, 12.0, 90.0, 20.0, 12, 0.0}};
+  int seed = 11;
+  for (const Arc& arc : arcs)
+    for (const int limit : {1, 2, 50}) {
+      const ReferenceSet set = make_circle_reference(
+          {arc.centre.x(), arc.centre.y(), 0.0}, Eigen::Vector3d::UnitZ(), arc.radius,
+          arc.start_deg, arc.span_deg, arc.count, arc.amplitude, seed++);
+      Eigen::Matrix2Xd uv = set.points.topRows<2>();
+      if (limit == 2) uv.col(1) = uv.col(0);  // a repeated point
+      FitOptions options;
+      options.max_iterations = limit;
+      const detail::Circle2dFit mine = detail::fit_circle_2d_least_squares(uv, options);
+      const detail::Circle2dFit previous = previous_least_squares(uv, options);
+      INFO("radius " << arc.radius << ", span " << arc.span_deg << ", limit " << limit);
+      CHECK(same_bits(mine.centre.data(), previous.centre.data(), 2));
+      CHECK(same_bits(&mine.radius, &previous.radius, 1));
+      CHECK(same_bits(&mine.ssr, &previous.ssr, 1));
+      CHECK(same_bits(mine.normal_matrix.data(), previous.normal_matrix.data(), 9));
+      CHECK(mine.status == previous.status);
+      CHECK(mine.iterations == previous.iterations);
+    }
 }
 
 TEST_CASE("degenerate circles are FitErrors", "[circle][least_squares][degenerate]") {

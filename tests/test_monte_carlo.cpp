@@ -240,6 +240,38 @@ TEST_CASE("monte carlo: the trials' engine is std::mt19937_64's sequence", "[mon
   CHECK(differ == 0);
 }
 
+TEST_CASE("monte carlo: the engine's block, four words per AVX2 operation, is the baseline's",
+          "[monte-carlo]") {
+  // twister_refill_avx2 and twister_refill_baseline are one body of integer loops built for two
+  // processors: from the same state (random words from std::mt19937_64, and the states a
+  // seeded engine passes through) both must leave the same state and the same output block,
+  // word by word. The test above checks the dispatched one against std::mt19937_64 itself.
+  using cylzone::detail::twister_words;
+#if defined(__GNUC__) && defined(__x86_64__)
+  if (!__builtin_cpu_supports("avx2")) {
+    WARN("this processor has no AVX2: only the baseline block is run");
+    return;
+  }
+  std::mt19937_64 words(20261204);
+  std::size_t compared = 0;
+  for (int round = 0; round < 200; ++round) {
+    std::uint64_t base_state[twister_words], avx2_state[twister_words];
+    std::uint64_t base_out[twister_words], avx2_out[twister_words];
+    for (std::size_t i = 0; i < twister_words; ++i)
+      base_state[i] = round == 0 ? 0 : round == 1 ? ~std::uint64_t{0} : words();
+    std::memcpy(avx2_state, base_state, sizeof base_state);
+    for (int block = 0; block < 3; ++block) {  // the states the recurrence passes through
+      cylzone::detail::twister_refill_baseline(base_state, base_out);
+      cylzone::detail::twister_refill_avx2(avx2_state, avx2_out);
+      REQUIRE(std::memcmp(base_state, avx2_state, sizeof base_state) == 0);
+      REQUIRE(std::memcmp(base_out, avx2_out, sizeof base_out) == 0);
+      compared += twister_words;
+    }
+  }
+  CHECK(compared == 200 * 3 * twister_words);
+#endif
+}
+
 TEST_CASE("monte carlo: the trials' deviates are those drawn from std::mt19937_64",
           "[monte-carlo]") {
   // The trials draw standard_normals from detail::Twister64 where they drew from

@@ -43,6 +43,32 @@ void random_rows(Matrix& basis, int n, std::mt19937_64& random) {
 
 bool same_bits(double a, double b) { return std::memcmp(&a, &b, sizeof a) == 0; }
 
+/// full_piv_lu_in_place<N> and inverse_from_full_piv_lu<N> (n a compile-time constant, as the
+/// dense LP's bases of 4 to 6 columns use them) on `basis` against the run-time size's
+/// `factor`, permutations and regularity, and the inverses from both, bit for bit.
+template <int N, class Basis, class Factor>
+bool fixed_size_agrees(const Basis& basis, const Factor& factor, const int* p, const int* q,
+                       bool regular) {
+  Eigen::Matrix<double, max_columns, max_columns> fixed;
+  fixed.setConstant(std::numeric_limits<double>::quiet_NaN());
+  fixed.topLeftCorner(N, N) = basis;
+  int fp[max_columns], fq[max_columns];
+  if (full_piv_lu_in_place<N>(fixed, N, fp, fq) != regular) return false;
+  if (!regular) return true;
+  bool same = true;
+  for (int i = 0; i < N; ++i) {
+    same = same && fp[i] == p[i] && fq[i] == q[i];
+    for (int k = 0; k < N; ++k) same = same && same_bits(fixed(i, k), factor(i, k));
+  }
+  if (!same || !full_piv_lu_invertible(fixed, N)) return same;
+  Eigen::Matrix<double, N, N> at_compile_time, at_run_time;
+  const auto pi = [&](int i) { return fp[i]; };
+  const auto qi = [&](int i) { return fq[i]; };
+  inverse_from_full_piv_lu<N>(fixed, N, pi, qi, at_compile_time);
+  inverse_from_full_piv_lu(fixed, N, pi, qi, at_run_time);
+  return std::memcmp(at_compile_time.data(), at_run_time.data(), sizeof(double) * N * N) == 0;
+}
+
 }  // namespace
 
 TEST_CASE("the factor and inverse of small matrices have the bits of FullPivLU and inverse()",
@@ -64,6 +90,10 @@ TEST_CASE("the factor and inverse of small matrices have the bits of FullPivLU a
     const bool regular = full_piv_lu_in_place(factor, n, p, q);
     INFO("trial " << trial << ", n = " << n);
     CHECK(regular == (lu.nonzeroPivots() == n));
+    // The dense LP's sizes also at compile time: the same bits as at run time.
+    if (n == 4) CHECK(fixed_size_agrees<4>(basis, factor, p, q, regular));
+    if (n == 5) CHECK(fixed_size_agrees<5>(basis, factor, p, q, regular));
+    if (n == 6) CHECK(fixed_size_agrees<6>(basis, factor, p, q, regular));
     if (regular) {
       bool same = true;
       for (int i = 0; i < n; ++i) {

@@ -77,63 +77,88 @@ std::vector<Characteristic> bore_characteristics(const BoreResult& b, const Deci
 
 namespace {
 
-std::vector<Characteristic> evaluated_rows(const BoreResult& b) {
-  std::vector<Characteristic> out;
+/// Every row of an evaluated bore, in the order of the header's table, given to `emit` as
+/// (kind, value, not_evaluated, build): the kind (the id after "<bore>/", a literal), the value
+/// the row reports, why it is not evaluated (empty when it is) and a callable building the
+/// row's Characteristic with its texts. The one list behind evaluated_rows (the reports) and
+/// characteristic_figures (the Monte Carlo trials, which read the values only and so never
+/// call `build`: no strings per trial).
+template <class Emit>
+void each_evaluated_row(const BoreResult& b, Emit&& emit) {
   if (b.position) {
-    const std::string name = b.position->projected ? "position (projected zone)" : "position";
+    const auto name = [&b](const char* suffix) {
+      return std::string(b.position->projected ? "position (projected zone)" : "position") +
+             suffix;
+    };
     if (!b.mobility_not_evaluated.empty()) {
       // The pattern's simultaneous requirement cannot be evaluated without every member: the
       // fixed frame's figure is shown, the mobility row is not proven.
-      out.push_back(position_characteristic(b, *b.position, "position", name + ", frame fixed",
-                                            false));
-      Characteristic m = position_characteristic(b, *b.position, "position/mobility",
-                                                 name + ", datum mobility", true);
-      m.value = 0.0;
-      m.not_evaluated = b.mobility_not_evaluated;
-      out.push_back(std::move(m));
+      emit("position", b.position->value, std::string_view(), [&] {
+        return position_characteristic(b, *b.position, "position", name(", frame fixed"),
+                                       false);
+      });
+      emit("position/mobility", 0.0, std::string_view(b.mobility_not_evaluated), [&] {
+        return position_characteristic(b, *b.position, "position/mobility",
+                                       name(", datum mobility"), true);
+      });
     } else if (b.position_with_mobility) {
-      out.push_back(position_characteristic(b, *b.position, "position", name + ", frame fixed",
-                                            false));
-      out.push_back(position_characteristic(b, *b.position_with_mobility, "position/mobility",
-                                            name + ", datum mobility", true));
+      emit("position", b.position->value, std::string_view(), [&] {
+        return position_characteristic(b, *b.position, "position", name(", frame fixed"),
+                                       false);
+      });
+      emit("position/mobility", b.position_with_mobility->value, std::string_view(), [&] {
+        return position_characteristic(b, *b.position_with_mobility, "position/mobility",
+                                       name(", datum mobility"), true);
+      });
     } else {
-      out.push_back(position_characteristic(b, *b.position, "position", name, true));
+      emit("position", b.position->value, std::string_view(), [&] {
+        return position_characteristic(b, *b.position, "position", name(""), true);
+      });
     }
   }
   if (b.perpendicularity) {
     const PerpendicularityResult& p = *b.perpendicularity;
-    std::string reference = "A";
-    if (p.spec.condition != MaterialCondition::rfs)
-      reference += " " + std::string(condition_name(p.spec.condition));
-    out.push_back(make(b, "perpendicularity", "perpendicularity", reference, p.value,
-                       p.spec.tolerance, p.bonus, p.allowed, Comparison::at_most));
     // An axis held at the nominal direction is perpendicular to A by construction: its
     // perpendicularity would restate the plan, not measure the part.
-    if (b.direction_held) {
-      out.back().value = 0.0;
-      out.back().not_evaluated = std::string(direction_held_reason);
-    }
+    emit("perpendicularity", b.direction_held ? 0.0 : p.value,
+         b.direction_held ? direction_held_reason : std::string_view(), [&] {
+           std::string reference = "A";
+           if (p.spec.condition != MaterialCondition::rfs)
+             reference += " " + std::string(condition_name(p.spec.condition));
+           return make(b, "perpendicularity", "perpendicularity", reference, p.value,
+                       p.spec.tolerance, p.bonus, p.allowed, Comparison::at_most);
+         });
   }
   if (b.size.limits) {
     const SizeLimits& l = *b.size.limits;
     // Rule #1 (ASME Y14.5-2018): the envelope of perfect form at MMC must fit, and every actual
     // local size must lie within the limits.
-    out.push_back(make(b, "size/lower", "size, mating envelope", "lower limit",
-                       b.size.mating_envelope, l.lower, 0.0, l.lower, Comparison::at_least));
+    emit("size/lower", b.size.mating_envelope, std::string_view(), [&] {
+      return make(b, "size/lower", "size, mating envelope", "lower limit",
+                  b.size.mating_envelope, l.lower, 0.0, l.lower, Comparison::at_least);
+    });
     if (b.size.two_point_count > 0) {
-      out.push_back(make(b, "size/lower/two-point", "size, smallest two-point", "lower limit",
-                         b.size.two_point_min, l.lower, 0.0, l.lower, Comparison::at_least));
-      out.push_back(make(b, "size/upper", "size, largest two-point", "upper limit",
-                         b.size.two_point_max, l.upper, 0.0, l.upper, Comparison::at_most));
+      emit("size/lower/two-point", b.size.two_point_min, std::string_view(), [&] {
+        return make(b, "size/lower/two-point", "size, smallest two-point", "lower limit",
+                    b.size.two_point_min, l.lower, 0.0, l.lower, Comparison::at_least);
+      });
+      emit("size/upper", b.size.two_point_max, std::string_view(), [&] {
+        return make(b, "size/upper", "size, largest two-point", "upper limit",
+                    b.size.two_point_max, l.upper, 0.0, l.upper, Comparison::at_most);
+      });
     } else {
-      out.push_back(make(b, "size/upper", "size, minimum material envelope", "upper limit",
-                         b.size.minimum_material_envelope, l.upper, 0.0, l.upper,
-                         Comparison::at_most));
+      emit("size/upper", b.size.minimum_material_envelope, std::string_view(), [&] {
+        return make(b, "size/upper", "size, minimum material envelope", "upper limit",
+                    b.size.minimum_material_envelope, l.upper, 0.0, l.upper,
+                    Comparison::at_most);
+      });
     }
   }
   if (b.form.tolerance)
-    out.push_back(make(b, "cylindricity", "cylindricity", "", b.form.cylindricity,
-                       *b.form.tolerance, 0.0, *b.form.tolerance, Comparison::at_most));
+    emit("cylindricity", b.form.cylindricity, std::string_view(), [&] {
+      return make(b, "cylindricity", "cylindricity", "", b.form.cylindricity, *b.form.tolerance,
+                  0.0, *b.form.tolerance, Comparison::at_most);
+    });
   if (b.virtual_condition) {
     // With datum mobility the boundary decides after its own best frame motion (one row, the
     // same id: the fixed frame's figure would depend on how the part sat on the machine when
@@ -141,19 +166,31 @@ std::vector<Characteristic> evaluated_rows(const BoreResult& b) {
     const bool moved = b.virtual_condition_with_mobility.has_value();
     const VirtualConditionResult& v = moved ? *b.virtual_condition_with_mobility
                                             : *b.virtual_condition;
-    out.push_back(make(b, "virtual-condition", "virtual condition",
+    // A pattern with a member not evaluated has no shared motion for its boundaries either:
+    // the fixed frame's clearance would depend on how the part sat on the machine.
+    const bool unshared = v.on_true_position && !b.mobility_not_evaluated.empty();
+    emit("virtual-condition", unshared ? 0.0 : v.clearance,
+         unshared ? std::string_view(b.mobility_not_evaluated) : std::string_view(), [&] {
+           return make(b, "virtual-condition", "virtual condition",
                        moved ? "true position, moved"
                              : v.on_true_position ? "on true position" : "perpendicular to A",
                        v.clearance, v.boundary, 0.0, v.boundary,
                        v.condition == MaterialCondition::lmc ? Comparison::at_most
-                                                             : Comparison::at_least));
-    // A pattern with a member not evaluated has no shared motion for its boundaries either:
-    // the fixed frame's clearance would depend on how the part sat on the machine.
-    if (v.on_true_position && !b.mobility_not_evaluated.empty()) {
-      out.back().value = 0.0;
-      out.back().not_evaluated = b.mobility_not_evaluated;
-    }
+                                                             : Comparison::at_least);
+         });
   }
+}
+
+std::vector<Characteristic> evaluated_rows(const BoreResult& b) {
+  std::vector<Characteristic> out;
+  each_evaluated_row(b, [&out](std::string_view, double value, std::string_view not_evaluated,
+                               const auto& build) {
+    out.push_back(build());
+    if (!not_evaluated.empty()) {
+      out.back().value = value;
+      out.back().not_evaluated = std::string(not_evaluated);
+    }
+  });
   return out;
 }
 
@@ -218,6 +255,15 @@ std::vector<Characteristic> bore_characteristics(const BoreResult& b, const Plan
   }
   decide_all(out, rule, &plan);
   return out;
+}
+
+void characteristic_figures(const BoreResult& bore, std::vector<CharacteristicFigure>& out) {
+  out.clear();
+  if (!bore.evaluated()) return;
+  each_evaluated_row(bore, [&out](std::string_view kind, double value,
+                                  std::string_view not_evaluated, const auto&) {
+    out.push_back(CharacteristicFigure{kind, value, not_evaluated.empty()});
+  });
 }
 
 std::string boundary_reason(const BoreResult& bore) {

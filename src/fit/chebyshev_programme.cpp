@@ -342,6 +342,7 @@ void ZoneProgramme::seed(const std::vector<Constraint>& contacts) {
   multipliers_.assign(contacts.size(), 0.0);
   dense_basis_.clear();
   if (static_cast<int>(contacts.size()) != columns_) return;
+  dense_basis_.reserve(contacts.size());  // one allocation, not a growth by doubling
   for (const Constraint& c : contacts) {
     BasisEntry e;
     e.row = true;

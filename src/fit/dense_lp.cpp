@@ -144,6 +144,28 @@ void DenseLp::normal(Id id, double* a, double& b) const {
   }
 }
 
+namespace {
+
+/// The inverse of an n x n basis (its top left block, factored in place) into `inverse`; false
+/// where it is singular or too nearly so. N = n where the caller knows it at compile time (the
+/// small LU's loops unrolled, the same operations: the same bits), else 0.
+template <int N, class Basis>
+bool invert_basis(Basis& basis, int n, DenseLp::Matrix& inverse) {
+  int p[DenseLp::max_columns], q[DenseLp::max_columns];
+  if (!full_piv_lu_in_place<N>(basis, n, p, q)) return false;
+  // Full pivoting puts the pivots on the diagonal in decreasing magnitude: the ratio of the last
+  // to the first bounds how nearly dependent the active normals are.
+  const double largest = std::abs(basis(0, 0));
+  const double smallest = std::abs(basis(n - 1, n - 1));
+  if (!(largest > 0.0) || !(smallest > 1e-12 * largest)) return false;
+  inverse.resize(n, n);
+  inverse_from_full_piv_lu<N>(
+      basis, n, [&](int i) { return p[i]; }, [&](int i) { return q[i]; }, inverse);
+  return true;
+}
+
+}  // namespace
+
 bool DenseLp::refresh() {
   factored_ = false;
   const int n = columns();
@@ -156,16 +178,16 @@ bool DenseLp::refresh() {
     if (!std::isfinite(rhs(j))) return false;  // an infinite bound cannot be active
     for (int k = 0; k < n; ++k) basis(j, k) = a[k];
   }
-  int p[max_columns], q[max_columns];
-  if (!full_piv_lu_in_place(basis, n, p, q)) return false;
-  // Full pivoting puts the pivots on the diagonal in decreasing magnitude: the ratio of the last
-  // to the first bounds how nearly dependent the active normals are.
-  const double largest = std::abs(basis(0, 0));
-  const double smallest = std::abs(basis(n - 1, n - 1));
-  if (!(largest > 0.0) || !(smallest > 1e-12 * largest)) return false;
-  inverse_.resize(n, n);
-  inverse_from_full_piv_lu(
-      basis, n, [&](int i) { return p[i]; }, [&](int i) { return q[i]; }, inverse_);
+  // The cylinders' programmes have 5 or 6 columns (4 parameters and one or two zone sides), the
+  // planes' 4.
+  bool inverted;
+  switch (n) {
+    case 4: inverted = invert_basis<4>(basis, n, inverse_); break;
+    case 5: inverted = invert_basis<5>(basis, n, inverse_); break;
+    case 6: inverted = invert_basis<6>(basis, n, inverse_); break;
+    default: inverted = invert_basis<0>(basis, n, inverse_); break;
+  }
+  if (!inverted) return false;
   x_.noalias() = inverse_ * rhs;
   lambda_.noalias() = -(inverse_.transpose() * cost_);
   factored_ = x_.allFinite() && lambda_.allFinite();

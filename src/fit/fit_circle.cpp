@@ -62,9 +62,10 @@ PlanarSpread planar_spread(const Eigen::Matrix2Xd& uv) {
 
 }  // namespace
 
-Circle2dFit fit_circle_2d_algebraic(const Eigen::Matrix2Xd& uv) {
-  require_point_count(static_cast<std::size_t>(uv.cols()), 3, "circle");
-  const PlanarSpread spread = planar_spread(uv);
+namespace {
+
+/// fit_circle_2d_algebraic from the set's spread (planar_spread(uv)).
+Circle2dFit algebraic_from_spread(const Eigen::Matrix2Xd& uv, const PlanarSpread& spread) {
   if (spread.across_rms <= degenerate_spread_ratio * spread.along_rms)
     throw FitError("the points lie on a straight line (rms " +
                    format_number(spread.across_rms, 9) + " mm off it over " +
@@ -82,29 +83,54 @@ Circle2dFit fit_circle_2d_algebraic(const Eigen::Matrix2Xd& uv) {
   return fit;
 }
 
+}  // namespace
+
+Circle2dFit fit_circle_2d_algebraic(const Eigen::Matrix2Xd& uv) {
+  require_point_count(static_cast<std::size_t>(uv.cols()), 3, "circle");
+  return algebraic_from_spread(uv, planar_spread(uv));
+}
+
 Circle2dFit fit_circle_2d_least_squares(const Eigen::Matrix2Xd& uv, const FitOptions& options) {
-  const Circle2dFit start = fit_circle_2d_algebraic(uv);
+  require_point_count(static_cast<std::size_t>(uv.cols()), 3, "circle");
+  const PlanarSpread spread = planar_spread(uv);
+  const Circle2dFit start = algebraic_from_spread(uv, spread);
   // Work in coordinates centred at the start centre's neighbourhood: subtract the centroid so
-  // parts far from the origin keep full precision.
-  const Eigen::Vector2d origin = uv.rowwise().mean();
-  const double scale = (uv.colwise() - origin).colwise().norm().maxCoeff();
+  // parts far from the origin keep full precision. Both are the spread's: its centroid is
+  // uv.rowwise().mean(), and its scale the largest |q_i - centroid| (the largest square, then
+  // one square root: sqrt is monotone and correctly rounded, so that is the largest norm to
+  // the bit, for the finite points a fit is given).
+  const Eigen::Vector2d origin = spread.centroid;
+  const double scale = spread.scale;
   Eigen::Vector3d state(start.centre.x() - origin.x(), start.centre.y() - origin.y(),
                         start.radius);
-  // d_i = |q_i - c| - r, J_i = (-(q_i - c)/|q_i - c|, -1) (Forbes 1989, 2D circle).
+  // d_i = |q_i - c| - r, J_i = (-(q_i - c)/|q_i - c|, -1) (Forbes 1989, 2D circle). J^T J
+  // and J^T d summed entry by entry: J^T J is symmetric (j_a j_b = j_b j_a exactly), and the
+  // products with J's last column -1 are exact (-j_0, -j_1, 1, -d), so each sum is the same
+  // sequence of roundings as the full outer product's J^T J += j j^T, J^T d += j d, with 10
+  // sums a point instead of 12 and no product by -1 (tests/test_fit_circle.cpp compares the
+  // two bit for bit).
   auto evaluate = [&](const Eigen::Vector3d& p, Eigen::Matrix3d& jtj, Eigen::Vector3d& jtr) {
-    jtj.setZero();
-    jtr.setZero();
-    double ssr = 0.0;
+    double s00 = 0.0, s01 = 0.0, s11 = 0.0, s02 = 0.0, s12 = 0.0, s22 = 0.0;
+    double r0 = 0.0, r1 = 0.0, r2 = 0.0, ssr = 0.0;
     for (Eigen::Index i = 0; i < uv.cols(); ++i) {
       const double dx = uv(0, i) - origin.x() - p(0), dy = uv(1, i) - origin.y() - p(1);
       const double rho = std::sqrt(dx * dx + dy * dy);
       const double d = rho - p(2);
       const double inv = rho > 0.0 ? 1.0 / rho : 0.0;
-      const Eigen::Vector3d j(-dx * inv, -dy * inv, -1.0);
-      jtj.noalias() += j * j.transpose();
-      jtr += j * d;
+      const double j0 = -dx * inv, j1 = -dy * inv;
+      s00 += j0 * j0;
+      s01 += j0 * j1;
+      s11 += j1 * j1;
+      s02 += -j0;
+      s12 += -j1;
+      s22 += 1.0;
+      r0 += j0 * d;
+      r1 += j1 * d;
+      r2 += -d;
       ssr += d * d;
     }
+    jtj << s00, s01, s02, s01, s11, s12, s02, s12, s22;
+    jtr << r0, r1, r2;
     return ssr;
   };
   auto apply = [](const Eigen::Vector3d& p, const Eigen::Vector3d& step) {

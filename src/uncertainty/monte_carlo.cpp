@@ -364,6 +364,7 @@ namespace {
 struct Output {
   std::size_t bore = 0;
   std::string id;
+  std::string kind;  // the id after "<bore>/", as characteristic_figures gives it
   double value = 0.0;
   double ambiguity = 0.0;
   double ambiguity_range = 0.0;
@@ -566,9 +567,9 @@ MonteCarloSummary monte_carlo_uncertainty(const PartPlan& plan, const PartInputs
       Output o;
       o.bore = i;
       o.id = c.id;
+      o.kind = c.id.substr(b.id.size() + 1);
       o.value = c.value;
-      set_ambiguity(o, std::string_view(c.id).substr(b.id.size() + 1), b, plan.bores[i], plan,
-                    nominal, axis_range);
+      set_ambiguity(o, o.kind, b, plan.bores[i], plan, nominal, axis_range);
       o.axis_range = axis_range;
       outputs.push_back(std::move(o));
     }
@@ -625,6 +626,9 @@ MonteCarloSummary monte_carlo_uncertainty(const PartPlan& plan, const PartInputs
   for (const auto* group : {&inputs.datums, &inputs.bores})
     for (const PointCloud& cloud : *group) largest = std::max(largest, cloud.points.cols());
   std::vector<Eigen::Matrix3Xd> deviates(workers, Eigen::Matrix3Xd(3, largest));
+  // Per worker: a bore's figures (characteristic_figures: the values without the ids, names
+  // and references, which the trials never read), cleared per bore.
+  std::vector<std::vector<CharacteristicFigure>> figure_buffers(workers);
   const IndexedTrialModel trial = [&](std::size_t t, std::size_t worker, std::vector<double>& out) {
     // The sequence of std::mt19937_64 seeded so (detail/twister.hpp), drawn a block at a time.
     detail::Twister64 rng(trial_seed(options.seed, t));
@@ -662,15 +666,19 @@ MonteCarloSummary monte_carlo_uncertainty(const PartPlan& plan, const PartInputs
     }
     count_fits(e, fit_counts[worker]);
     std::size_t current = std::numeric_limits<std::size_t>::max();
-    std::vector<Characteristic> rows;
+    std::vector<CharacteristicFigure>& figures = figure_buffers[worker];
     for (std::size_t o = 0; o < outputs.size(); ++o) {
       const std::size_t i = outputs[o].bore;
       if (i != current) {
-        rows = bore_characteristics(e.bores[i], plan.bores[i]);
+        characteristic_figures(e.bores[i], figures);
         current = i;
       }
-      const Characteristic* c = find_characteristic(rows, outputs[o].id);
-      if (c && c->not_evaluated.empty()) out[o] = c->value;
+      // The first row of the output's kind, as find_characteristic takes the first of its id.
+      for (const CharacteristicFigure& f : figures)
+        if (f.kind == outputs[o].kind) {
+          if (f.evaluated) out[o] = f.value;
+          break;
+        }
     }
   };
 

@@ -52,6 +52,22 @@ std::vector<Characteristic> bore_characteristics(const BoreResult& bore,
 std::vector<Characteristic> bore_characteristics(const BoreResult& bore, const PlanBore& plan,
                                                  const DecisionRule& rule = {});
 
+/// A characteristic's figure without its texts: its kind (the id after "<bore>/", e.g.
+/// "size/upper"; static storage), its value, and whether it was evaluated
+/// (Characteristic::not_evaluated empty).
+struct CharacteristicFigure {
+  std::string_view kind;
+  double value = 0.0;
+  bool evaluated = true;
+};
+
+/// The figures of `bore`'s characteristics into `out` (cleared first, its capacity reused): for
+/// an evaluated bore the kinds, values and evaluated flags of the rows bore_characteristics
+/// lists, in its order, from the same list of rows, but without building any id, name or
+/// reference; nothing for a bore not evaluated (all of whose rows are not evaluated). For
+/// readers of values only, thousands of times (the Monte Carlo trials).
+void characteristic_figures(const BoreResult& bore, std::vector<CharacteristicFigure>& out);
+
 /// The reason a perpendicularity is not evaluated when the axis direction is held.
 inline constexpr std::string_view direction_held_reason =
     "direction held at nominal (axis_direction = \"nominal\"): the axis is perpendicular by "

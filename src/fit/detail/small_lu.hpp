@@ -34,8 +34,11 @@ constexpr int small_lu_max_size = 16;
 /// a_ij -= a_ik a_kj; the permutations are the transpositions composed as Eigen composes them.
 /// So the same factor and pivots, bit for bit, without the set-up of Eigen's general class
 /// (its l1 norm, permutation objects, threshold). False (a unfinished) when a pivot is zero.
-template <typename Square>
-bool full_piv_lu_in_place(Square& a, int n, int* p, int* q) {
+/// N > 0: n is N, a compile-time constant, so the compiler can unroll the loops (the same
+/// operations in the same order: the same bits; the dense LP's bases of 4 to 6 columns).
+template <int N = 0, typename Square>
+bool full_piv_lu_in_place(Square& a, int n_given, int* p, int* q) {
+  const int n = N > 0 ? N : n_given;
   int row_swap[small_lu_max_size], col_swap[small_lu_max_size];
   for (int k = 0; k < n; ++k) {
     // The pivot: visited column by column, a later entry taken only when strictly larger.
@@ -79,10 +82,12 @@ bool full_piv_lu_in_place(Square& a, int n, int* p, int* q) {
 /// by substitution, the rows after it updated by the GEBP kernel with one sum per element,
 /// accumulated from zero in column order, then subtracted; U's diagonal applied as a multiple
 /// of its reciprocal), so the same bits, without the blocked solver's packing and set-up, which
-/// cost most of a pivot of the dense solver. Requires every pivot non-zero (rank n).
-template <typename LuMatrix, typename PIndices, typename QIndices, typename Out>
-void inverse_from_full_piv_lu(const LuMatrix& lu, int n, const PIndices& p, const QIndices& q,
-                              Out& out) {
+/// cost most of a pivot of the dense solver. Requires every pivot non-zero (rank n). N > 0: n
+/// is N, a compile-time constant (as for full_piv_lu_in_place).
+template <int N = 0, typename LuMatrix, typename PIndices, typename QIndices, typename Out>
+void inverse_from_full_piv_lu(const LuMatrix& lu, int n_given, const PIndices& p,
+                              const QIndices& q, Out& out) {
+  const int n = N > 0 ? N : n_given;
   constexpr int panel = 4;  // Eigen 3.4's SmallPanelWidth for double: max(mr, nr) = 4
   double c[small_lu_max_size][small_lu_max_size];  // c[j][i]: column j, row i (column-major, as Eigen's)
   for (int j = 0; j < n; ++j)
