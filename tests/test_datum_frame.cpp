@@ -11,6 +11,7 @@
 #include <algorithm>
 #include <catch2/catch.hpp>
 #include <cmath>
+#include <cstring>
 #include <cstdint>
 #include <memory>
 #include <random>
@@ -947,8 +948,8 @@ TEST_CASE("A's screen left to screen_datum_a: the frame that screens A itself, b
 TEST_CASE("a frame given A's least-squares plane equals the frame that fits it, bit for bit",
           "[datum][frame][scan]") {
   // Reference: the same frame fitting A's least-squares plane itself (the computation the given
-  // plane replaces: the tangent plane's start, the least-squares association and A's screen
-  // each fitted it), with A's screen in the frame and deferred to screen_datum_a. Face A
+  // plane replaces: the tangent plane's start, the least-squares association, A's screen and
+  // the start of A's minimum-zone plane, the flatness, each fitted it), with A's screen in the frame and deferred to screen_datum_a. Face A
   // carries one point 0.5 mm proud of the others, so that the screen flags it and places a note.
   const ProudPart part;
   const std::vector<PlanDatum>& datums = part.datums;
@@ -979,6 +980,16 @@ TEST_CASE("a frame given A's least-squares plane equals the frame that fits it, 
         screen_datum_a(clouds[0], g, given);
       }
       check_same_frame_and_a(g, f);
+      // A's flatness: its minimum-zone plane started from the given plane (with or without
+      // its values) rather than from a least-squares fit of its own.
+      CHECK(std::memcmp(&g.a.flatness, &f.a.flatness, sizeof(double)) == 0);
+      CHECK(f.a.flatness > 0.0);
+      REQUIRE(g.a.minimum_zone.has_value() == f.a.minimum_zone.has_value());
+      if (f.a.minimum_zone) {
+        CHECK(g.a.minimum_zone->normal == f.a.minimum_zone->normal);
+        CHECK(g.a.minimum_zone->point == f.a.minimum_zone->point);
+        CHECK(g.a.minimum_zone->residuals.form == f.a.minimum_zone->residuals.form);
+      }
       REQUIRE(g.b);
       CHECK(g.b->axis_on_a == f.b->axis_on_a);
       REQUIRE(!f.a.stray_points.points.empty());

@@ -234,3 +234,46 @@ TEST_CASE("least-squares plane of a dense face: the bits of the whole-cloud comp
   // And the plane is the face's: its normal is the turned z axis (the noise is 2 um in z).
   CHECK(std::abs(fit.normal.dot(turn.col(2))) == Approx(1.0).margin(1e-9));
 }
+
+TEST_CASE("minimum-zone plane from the caller's least-squares plane: the bits of the one that "
+          "fits it", "[plane][minimum_zone]") {
+  // Reference: fit_plane_minimum_zone(points, options), which fits the least-squares plane as
+  // its start (the computation the given plane replaces). A tilted, off-origin face of 20,000
+  // noisy points; the given plane with and without its residual values; without a start and
+  // with an earlier fit's start (FitOptions::start) that converges, and one that does not
+  // (the restart from the least-squares plane).
+  std::mt19937_64 rng(99);
+  std::uniform_real_distribution<double> u(-30.0, 30.0);
+  std::normal_distribution<double> noise(0.0, 0.002);
+  const Eigen::Matrix3d turn =
+      Eigen::AngleAxisd(0.4, Eigen::Vector3d(0.3, -1.0, 0.2).normalized()).toRotationMatrix();
+  Eigen::Matrix3Xd face(3, 20000);
+  for (Eigen::Index i = 0; i < face.cols(); ++i)
+    face.col(i) = turn * Eigen::Vector3d(u(rng), u(rng), noise(rng)) + Eigen::Vector3d(5, -7, 11);
+  FitOptions options;
+  const PlaneFit least_squares = fit_plane_least_squares(face, options);
+  PlaneFit released = least_squares;
+  released.residuals.values = Eigen::VectorXd();
+  FitOptions converging = options, restarting = options;
+  converging.start = fit_start(fit_plane_minimum_zone(face.leftCols(19000), options));
+  restarting.start = converging.start;
+  restarting.start->axis.direction = turn * Eigen::Vector3d(0.0, 0.3, 1.0).normalized();
+  restarting.start->form = 1e-9;
+  for (const FitOptions* with : {&options, &converging, &restarting}) {
+    const PlaneFit want = fit_plane_minimum_zone(face, *with);
+    for (const PlaneFit* given : {&least_squares, static_cast<const PlaneFit*>(&released)}) {
+      const PlaneFit got = fit_plane_minimum_zone(face, *given, *with);
+      CHECK(got.normal == want.normal);
+      CHECK(got.point == want.point);
+      CHECK(got.residuals.values == want.residuals.values);
+      CHECK(got.residuals.form == want.residuals.form);
+      REQUIRE(got.summary.contacts.size() == want.summary.contacts.size());
+      for (std::size_t k = 0; k < want.summary.contacts.size(); ++k) {
+        CHECK(got.summary.contacts[k].point == want.summary.contacts[k].point);
+        CHECK(got.summary.contacts[k].multiplier == want.summary.contacts[k].multiplier);
+      }
+      CHECK(got.summary.start == want.summary.start);
+      CHECK(got.summary.iterations == want.summary.iterations);
+    }
+  }
+}

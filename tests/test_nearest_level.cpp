@@ -109,3 +109,44 @@ TEST_CASE("the forward cursor and the hinted search give nearest_level's index",
   CHECK(hinted.second > 200000);
   CHECK(hinted.first == 0);
 }
+
+TEST_CASE("the hinted search on evenly spaced slabs, heights in no order: nearest_level's index",
+          "[nearest_level]") {
+  // A scanned bore's slabs (t0 + (k + 0.5) x thickness, as plan_sections cuts them, so their
+  // spacing is even only to the rounding) with its points in no order of height: the previous
+  // point's bound rarely holds and the evenly spaced guess (detail::EvenGuess) is tried before
+  // the binary search. Reference: nearest_level's binary search (on the scattered heights and
+  // the adversarial ones: on a level, just below one, halfway, beyond the ends); and the guess
+  // itself against std::lower_bound on the scattered heights, to show it is the path taken.
+  std::mt19937_64 rng(4711);
+  std::uniform_real_distribution<double> u(0.0, 1.0);
+  std::size_t differing = 0, compared = 0, guessed = 0, scattered = 0;
+  for (int trial = 0; trial < 300; ++trial) {
+    const std::size_t m = 1 + static_cast<std::size_t>(u(rng) * 150.0);
+    const double t0 = -60.0 * u(rng), thickness = 0.05 + u(rng);
+    std::vector<double> levels;
+    for (std::size_t k = 0; k < m; ++k)
+      levels.push_back(t0 + (static_cast<double>(k) + 0.5) * thickness);
+    std::vector<double> heights;
+    const double span = static_cast<double>(m) * thickness;
+    for (int k = 0; k < 500; ++k) heights.push_back(t0 - 0.1 * span + 1.2 * span * u(rng));
+    const detail::EvenGuess guess(levels.data(), levels.size());
+    for (double t : heights) {  // the scattered heights: how often the guess is the bound
+      guessed += guess.lower_bound(t) ==
+                 static_cast<std::size_t>(std::lower_bound(levels.begin(), levels.end(), t) -
+                                          levels.begin());
+      ++scattered;
+    }
+    add_edge_heights(levels, heights);
+    for (double l : levels) heights.push_back(std::nextafter(l, -1e300));
+    std::shuffle(heights.begin(), heights.end(), rng);
+    detail::NearestLevelHint hinted(levels);
+    for (double t : heights) {
+      differing += hinted(t) != detail::nearest_level(levels, t);
+      ++compared;
+    }
+  }
+  CHECK(compared > 150000);
+  CHECK(differing == 0);
+  CHECK(guessed > scattered * 99 / 100);  // the guess is right nearly always on slabs
+}

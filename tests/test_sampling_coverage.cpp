@@ -15,16 +15,23 @@
 #include <catch2/catch.hpp>
 
 #include <Eigen/Geometry>
+#include <algorithm>
 #include <cmath>
 #include <cstdio>
 #include <cstdlib>
+#include <cstring>
 #include <fstream>
+#include <limits>
 #include <random>
 #include <string>
+#include <utility>
+#include <vector>
 
 #include "cylzone/core/errors.hpp"
 #include "cylzone/evaluate/bore_evaluation.hpp"
 #include "cylzone/evaluate/sampling_coverage.hpp"
+#include "detail/fit_support.hpp"
+#include "evaluate/detail/nearest_level.hpp"
 #include "reference_data.hpp"
 
 using namespace cylzone;
@@ -235,6 +242,102 @@ TEST_CASE("the sections given by the evaluation and a separate height axis", "[s
   CHECK(shifted.span_bottom == Approx(-29.0).margin(1e-9));
   CHECK(shifted.sections[0].height == Approx(-23.0).margin(1e-9));
   CHECK(*shifted.magnification == Approx(1.0).epsilon(1e-12));
+}
+
+namespace {
+
+/// The computation the section coverages replace in sampling_coverage: every section's
+/// ArcCoverage alive at once, each point added to its section's in the order of the data. The
+/// coverage (degrees) of each section, sorted by height along `axis`, and its point count.
+std::vector<std::pair<std::size_t, double>> sections_point_by_point(
+    const Eigen::Matrix3Xd& points, const Axis& axis, std::vector<double> heights, double half) {
+  const Eigen::Vector3d w = detail::checked_direction(axis.direction, "axis");
+  const Eigen::Matrix3Xd local =
+      detail::local_coordinates(points, axis.point, detail::basis_from_direction(w));
+  std::sort(heights.begin(), heights.end());
+  const std::size_t n = static_cast<std::size_t>(points.cols());
+  std::vector<std::size_t> section_of(n, heights.size());
+  std::vector<std::size_t> counts(heights.size(), 0);
+  for (std::size_t i = 0; i < n; ++i) {
+    const double t = local(2, static_cast<Eigen::Index>(i));
+    const std::size_t k = detail::nearest_level(heights, t);
+    if (std::abs(t - heights[k]) > half) continue;
+    section_of[i] = k;
+    ++counts[k];
+  }
+  std::vector<detail::ArcCoverage> arcs;
+  for (std::size_t c : counts) arcs.emplace_back(c);
+  for (std::size_t i = 0; i < n; ++i)
+    if (section_of[i] < heights.size())
+      arcs[section_of[i]].add(local(0, static_cast<Eigen::Index>(i)),
+                              local(1, static_cast<Eigen::Index>(i)));
+  std::vector<std::pair<std::size_t, double>> out;
+  for (std::size_t k = 0; k < heights.size(); ++k) out.emplace_back(counts[k], arcs[k].degrees());
+  return out;
+}
+
+}  // namespace
+
+TEST_CASE("each section's coverage from its own points, one section at a time: the bits of all "
+          "sections accumulated point by point", "[sampling]") {
+  std::mt19937_64 rng(1234);
+  std::uniform_real_distribution<double> unit(0.0, 1.0);
+  const Axis axis = off_origin_axis();
+  const Eigen::Vector3d w = axis.direction.normalized();
+  const Eigen::Matrix3d basis = detail::basis_from_direction(w);
+  for (const std::size_t n : {std::size_t{500}, std::size_t{20000}, std::size_t{90000}}) {
+    // A scanned wall in the data's own order (random heights and angles), radius 5 +- 0.01;
+    // every tenth point repeats an earlier one's direction at another radius in the same slab
+    // (equal pseudo-angles in one section: which of them a bucket keeps depends on the order).
+    Eigen::Matrix3Xd points(3, static_cast<Eigen::Index>(n));
+    std::vector<double> along(n), angle(n);
+    for (std::size_t i = 0; i < n; ++i) {
+      const bool repeat = i % 10 == 9;
+      along[i] = repeat ? along[i - 5] : -40.0 * unit(rng);
+      angle[i] = repeat ? angle[i - 5] : 2.0 * pi * unit(rng);
+      const double r = repeat ? 4.5 : 5.0 + 0.01 * (unit(rng) - 0.5);
+      points.col(static_cast<Eigen::Index>(i)) =
+          axis.point + basis * Eigen::Vector3d(r * std::cos(angle[i]), r * std::sin(angle[i]),
+                                               along[i]);
+    }
+    // Slabs 0.8 mm apart, 0.3 mm thick on each side (points between them in none), some
+    // empty beyond the wall's ends, given out of order.
+    std::vector<double> heights;
+    for (double h = -42.0; h <= 1.0; h += 0.8) heights.push_back(h);
+    std::shuffle(heights.begin(), heights.end(), rng);
+    SamplingOptions options;
+    options.section_heights = heights;
+    options.section_half_thickness = 0.3;
+    const SamplingCoverage s = sampling_coverage(points, axis, 0.0, -40.0, options);
+    const std::vector<std::pair<std::size_t, double>> reference =
+        sections_point_by_point(points, axis, heights, 0.3);
+    REQUIRE(s.sections.size() == reference.size());
+    bool same = true;
+    std::size_t counted = 0;
+    for (std::size_t k = 0; k < reference.size(); ++k) {
+      // The axis' own heights are the reported ones (no height axis): order kept.
+      same = same && s.sections[k].points == reference[k].first &&
+             std::memcmp(&s.sections[k].coverage_deg, &reference[k].second, sizeof(double)) == 0;
+      counted += reference[k].first;
+    }
+    CHECK(same);
+    CHECK(counted > n / 2);  // most points are in a section, not all
+    CHECK(counted < n);
+    // The probed levels found by the function itself (no sections given), each point in its
+    // nearest level: 4 rings of the points' own heights.
+    Eigen::Matrix3Xd rings = points.leftCols(std::min<Eigen::Index>(400, points.cols()));
+    for (Eigen::Index i = 0; i < rings.cols(); ++i)
+      rings.col(i) += w * (-10.0 * static_cast<double>(i % 4) - w.dot(rings.col(i) - axis.point));
+    const SamplingCoverage levels = sampling_coverage(rings, axis, 0.0, -40.0);
+    const std::vector<std::pair<std::size_t, double>> level_reference = sections_point_by_point(
+        rings, axis, find_section_levels(rings, axis, 0.5), std::numeric_limits<double>::infinity());
+    REQUIRE(levels.sections.size() == level_reference.size());
+    for (std::size_t k = 0; k < level_reference.size(); ++k) {
+      CHECK(levels.sections[k].points == level_reference[k].first);
+      CHECK(std::memcmp(&levels.sections[k].coverage_deg, &level_reference[k].second,
+                        sizeof(double)) == 0);
+    }
+  }
 }
 
 TEST_CASE("sampling figures do not depend on how the part sat on the machine", "[sampling][invariance]") {

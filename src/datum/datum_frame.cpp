@@ -649,8 +649,16 @@ DatumFrameResult establish_datum_frame(const std::vector<DatumInput>& datums,
           std::to_string(cloud_of(0).size()));
     zone = options.a_minimum_zone;
   }
+  // Its start is the caller's least-squares plane of A when given (its normal and form, with
+  // or without its values: the same plane fit_plane_minimum_zone would fit first), not a fit
+  // of A's points again.
+  const PlaneFit* zone_start = a_least_squares_of(cloud_of(0), options, false);
+  const auto minimum_zone_of_a = [&](const FitOptions& with) {
+    return zone_start ? fit_plane_minimum_zone(cloud_of(0).points, *zone_start, with)
+                      : fit_plane_minimum_zone(cloud_of(0).points, with);
+  };
   const auto zone_of_a = [&]() -> const PlaneFit& {
-    if (!zone) zone = fit_plane_minimum_zone(cloud_of(0).points, plane_fit);
+    if (!zone) zone = minimum_zone_of_a(plane_fit);
     return *zone;
   };
   // The tangent plane's start needs the normal only; the least-squares association is the
@@ -813,7 +821,7 @@ DatumFrameResult establish_datum_frame(const std::vector<DatumInput>& datums,
       result.a.flatness = result.a.plane.residuals.form;
     else if (flatness_fit)
       result.a.flatness = for_datum(a_datum.label, [&] {
-        zone = fit_plane_minimum_zone(cloud_of(0).points, zone_fit);
+        zone = minimum_zone_of_a(zone_fit);
         return zone->residuals.form;
       });
     else if (options.flatness)

@@ -13,12 +13,19 @@
 namespace cylzone {
 
 PlaneFit fit_plane_minimum_zone(const Eigen::Matrix3Xd& points, const FitOptions& options) {
-  // The least-squares plane checks the points (count, collinearity) and is the start, unless
-  // an earlier fit's plane is given (FitOptions::start): then only its checks are used, and the
-  // zone starts from the earlier normal, its flatness as the first trust region and its
-  // contacts (docs/chebyshev.md). A start that does not lead to a converged descent (the same
-  // certificate) is abandoned for the least-squares one.
-  const PlaneFit start = fit_plane_least_squares(points, options);
+  // The least-squares plane checks the points (count, collinearity) and is the start.
+  return fit_plane_minimum_zone(points, fit_plane_least_squares(points, options), options);
+}
+
+PlaneFit fit_plane_minimum_zone(const Eigen::Matrix3Xd& points, const PlaneFit& least_squares,
+                                const FitOptions& options) {
+  // The least-squares plane (the caller's, of these points with these options: it has checked
+  // them) is the start, unless an earlier fit's plane is given (FitOptions::start): then only
+  // its checks are used, and the zone starts from the earlier normal, its flatness as the first
+  // trust region and its contacts (docs/chebyshev.md). A start that does not lead to a
+  // converged descent (the same certificate) is abandoned for the least-squares one. Only the
+  // normal and the form of the least-squares plane are read (not its residual values).
+  const PlaneFit& start = least_squares;
   const bool started = options.start.has_value();
   detail::PlaneZoneModel model(points, started ? options.start->axis.direction : start.normal);
   const double scale = detail::data_scale(points, model.centroid());
@@ -29,7 +36,8 @@ PlaneFit fit_plane_minimum_zone(const Eigen::Matrix3Xd& points, const FitOptions
       detail::solve_zone(model, detail::ZoneObjective::minimum_zone, zone_options);
   if (started && zone.status != detail::ZoneStatus::converged)
     return detail::fit_from_own_start(
-        options, [&](const FitOptions& own) { return fit_plane_minimum_zone(points, own); });
+        options,
+        [&](const FitOptions& own) { return fit_plane_minimum_zone(points, least_squares, own); });
 
   // The reported plane is the mid-plane of the zone; its point is the centroid projected on it.
   const double mid = 0.5 * (zone.distances.maxCoeff() + zone.distances.minCoeff());

@@ -11,6 +11,7 @@
 #include <string>
 
 #include "cylzone/core/errors.hpp"
+#include "detail/even_guess.hpp"
 #include "detail/fit_support.hpp"
 #include "fit/detail/section_members.hpp"
 
@@ -53,7 +54,13 @@ SectionMembers section_members(const double* t, std::size_t n, const std::vector
   for (std::size_t j = 0; j < m; ++j) sorted[j] = heights[by_height[j]];
   // The run of a point: from the first height with t - h <= half (t - h falls as h rises) while
   // t - h >= -half; each pair is decided by the test itself.
+  // First tried where evenly spaced heights (a scanned bore's slabs) would put it: j is the
+  // run start exactly when the height before it is wholly below (t - h > half) and the one at
+  // it is not, as partition_point decides; otherwise the binary search runs.
+  const detail::EvenGuess guess(sorted.data(), m);
   const auto run_start = [&](double ti) {
+    const std::size_t j = guess.lower_bound(ti - half);
+    if ((j == 0 || ti - sorted[j - 1] > half) && (j == m || !(ti - sorted[j] > half))) return j;
     return static_cast<std::size_t>(
         std::partition_point(sorted.begin(), sorted.end(),
                              [&](double h) { return ti - h > half; }) -

@@ -157,7 +157,8 @@ struct DatumFrameOptions {
   std::optional<PlaneFit> a_minimum_zone;
   /// Datum A's least-squares plane (fit_plane_least_squares) of the SAME points, fitted with
   /// `fit` less its fixed_direction and axis_hint (the options the frame fits A's planes
-  /// with): the frame takes it as the tangent least-squares plane's start and, when it holds
+  /// with): the frame takes it as the tangent least-squares plane's and A's minimum-zone
+  /// plane's start (fit_plane_minimum_zone from a least-squares plane) and, when it holds
   /// its residual values, as the least-squares association and for A's screen (also
   /// screen_datum_a), instead of fitting it again, with the same bits (evaluate_part fits it
   /// once, for the material side too, and releases its values). Shared, not copied: its values

@@ -23,6 +23,11 @@ PlaneFit fit_plane_least_squares(const Eigen::Matrix3Xd& points, const FitOption
 
 /// Chebyshev plane; starts from the least-squares plane.
 PlaneFit fit_plane_minimum_zone(const Eigen::Matrix3Xd& points, const FitOptions& options = {});
+/// The same, from the caller's least-squares plane of the SAME points fitted with the same
+/// options (fit_plane_least_squares(points, options); its normal and form are read, not its
+/// residual values): the same bits as the overload above, without fitting it again.
+PlaneFit fit_plane_minimum_zone(const Eigen::Matrix3Xd& points, const PlaneFit& least_squares,
+                                const FitOptions& options);
 
 /// The start a later minimum-zone fit of nearly the same points takes from `fit`
 /// (FitOptions::start): its point and normal, flatness, point count and contacts. The

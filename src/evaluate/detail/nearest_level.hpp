@@ -9,8 +9,11 @@
 // would (common practice; test_nearest_level compares the two).
 
 #include <algorithm>
+#include <cmath>
 #include <cstddef>
 #include <vector>
+
+#include "detail/even_guess.hpp"
 
 namespace cylzone::detail {
 
@@ -47,20 +50,31 @@ class NearestLevelCursor {
 /// lower bound of t exactly when the level before it is below t and the one at it is not (the
 /// levels being sorted, so are all before and after), so the check, not a guess, decides;
 /// otherwise the binary search runs. The same index as nearest_level for any order of calls.
+/// Before the binary search, the position evenly spaced levels would give is tried, checked the
+/// same way (detail::EvenGuess): a scanned bore's slabs are evenly spaced and its points come
+/// in no order of height, where the previous point's bound rarely holds.
 class NearestLevelHint {
  public:
-  explicit NearestLevelHint(const std::vector<double>& levels) : levels_(levels) {}
+  explicit NearestLevelHint(const std::vector<double>& levels)
+      : levels_(levels), guess_(levels.data(), levels.size()) {}
   std::size_t operator()(double t) {
-    const bool bound = (bound_ == 0 || levels_[bound_ - 1] < t) &&
-                       (bound_ == levels_.size() || !(levels_[bound_] < t));
-    if (!bound)
-      bound_ = static_cast<std::size_t>(std::lower_bound(levels_.begin(), levels_.end(), t) -
-                                        levels_.begin());
+    if (!is_bound(bound_, t)) {
+      const std::size_t guess = guess_.lower_bound(t);
+      bound_ = is_bound(guess, t)
+                   ? guess
+                   : static_cast<std::size_t>(
+                         std::lower_bound(levels_.begin(), levels_.end(), t) - levels_.begin());
+    }
     return nearest_from_bound(levels_, bound_, t);
   }
 
  private:
+  /// Whether b is std::lower_bound's position of t: every level before it below t, none from it.
+  bool is_bound(std::size_t b, double t) const {
+    return (b == 0 || levels_[b - 1] < t) && (b == levels_.size() || !(levels_[b] < t));
+  }
   const std::vector<double>& levels_;
+  EvenGuess guess_;
   std::size_t bound_ = 0;
 };
 
