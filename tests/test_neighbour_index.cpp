@@ -456,6 +456,40 @@ TEST_CASE("all_nearest on a large scanned bore equals the KD-tree on one and two
   CHECK(rows_differing_from_tree(points, k, one) == 0);
 }
 
+TEST_CASE("all_nearest with the previous point's guess widened and the wider blocks bounded by "
+          "the narrower block's k-th distance: the exhaustive search's neighbours",
+          "[neighbour_index][grid]") {
+  // A point whose guess (the previous point's k-th distance plus 25 %) holds fewer than k
+  // candidates has it widened in proportion to the shortfall, at most twice, before the
+  // previous point's k + 1 nearest (or no bound) decide; a point the 3x3x3 block does not
+  // certify is searched in the 5x5x5 (7x7x7) block only among the candidates within the
+  // 3x3x3 (5x5x5) block's k-th distance, not among all. Both replace unbounded or looser
+  // selections; the neighbours must stay the definition's. Here the rows of a scanned bore
+  // are alternately 0.05 and 0.4 mm apart (points 0.1 mm apart along a row), so consecutive
+  // points' k-th distances differ several-fold, and every 37th point stands off the surface
+  // by 0.15 to 0.6 mm, beyond the 3x3x3 block's reach but within the 7x7x7 block's.
+  std::mt19937_64 rng(173);
+  std::uniform_real_distribution<double> unit(0.0, 1.0);
+  const Eigen::Index n = 3000, per_row = 314;
+  Eigen::Matrix3Xd points(3, n);
+  double z = 0.0;
+  for (Eigen::Index i = 0; i < n; ++i) {
+    const Eigen::Index row = i / per_row;
+    if (i > 0 && i % per_row == 0) z -= row % 2 == 0 ? 0.4 : 0.05;
+    const double a = 2.0 * 3.14159265358979323846 * static_cast<double>(i % per_row) /
+                     static_cast<double>(per_row);
+    const double r = 5.0 + 0.001 * unit(rng) + (i % 37 == 0 ? 0.15 + 0.45 * unit(rng) : 0.0);
+    points.col(i) = Eigen::Vector3d(40.0 + r * std::cos(a), 25.0 + r * std::sin(a), z);
+  }
+  const AllNearestSummary s = check_grid_exhaustive(points, 8);
+  INFO("cell " << s.cell << ", certified " << s.certified << ", widened " << s.widened
+               << ", tree " << s.tree);
+  CHECK(s.widened >= 20);  // the bounded wider blocks answer points
+  CHECK(s.tree == 0);
+  check_grid_exhaustive(points, 3);
+  check_grid_exhaustive(points, 20);
+}
+
 TEST_CASE("all_nearest on two dense clusters 10 m apart: a grid box of more than 2^32 cells",
           "[neighbour_index][grid]") {
   // The cell edge shrinks from the bounding box's guess by at most 8 per trial, two trials:

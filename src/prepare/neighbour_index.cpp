@@ -811,6 +811,24 @@ std::size_t keep_within(double bound, GridScratch& s) {
   return s.passed;
 }
 
+/// When fewer than k candidates lie within `guess` (distances_within), widens it up to twice in
+/// proportion to the shortfall (on a surface the count grows about as the squared distance)
+/// and keeps the candidates within the first widened bound holding k (keep_within), so that
+/// few more than k reach select_kept; `fallback` (infinity, or a distance with at least k
+/// candidates other than the point within it) when neither does or it is the tighter. Any
+/// bound holding k candidates bounds the k-th distance from above: the neighbours do not
+/// depend on which is taken.
+void widen_guess(double guess, double fallback, std::size_t k, GridScratch& s) {
+  for (int step = 0; step < 2; ++step) {
+    const double scale =
+        std::min(4.0, static_cast<double>(k + 1) / static_cast<double>(std::max<std::size_t>(1, s.passed)));
+    guess *= scale;
+    if (!(guess < fallback)) break;
+    if (keep_within(guess, s) >= k) return;
+  }
+  keep_within(fallback, s);
+}
+
 /// Four floats, four 32-bit integers: one SSE register each on x86-64 (a compiler vector
 /// extension of g++ and clang; a comparison gives -1 where true, 0 where false).
 using Floats = float __attribute__((vector_size(16)));
@@ -913,7 +931,14 @@ AllNearestSummary all_nearest(const Eigen::Matrix3Xd& points, std::size_t k, std
     s.passing.resize(cap + detail::compact_slack);
     s.top.resize(k + 1);
   }
-  std::vector<std::vector<std::uint32_t>> uncertain(chunks);  // positions, per chunk
+  // The points the 3x3x3 block does not certify, per chunk: each with the k-th squared distance
+  // found in that block (infinity when none was), an upper bound of its k-th distance in any
+  // wider block (which holds the same k points at the same computed distances).
+  struct Unsure {
+    std::uint32_t position;
+    double bound;
+  };
+  std::vector<std::vector<Unsure>> uncertain(chunks);
 
   // The 3x3x3 block of each occupied cell, gathered once for all its points. A point's
   // distances to all the block's candidates are computed in one loop; the k nearest are then
@@ -935,7 +960,7 @@ AllNearestSummary all_nearest(const Eigen::Matrix3Xd& points, std::size_t k, std
   detail::parallel_for(chunks, threads, [&](std::size_t chunk, std::size_t w) {
     GridScratch& s = scratch[w];
     start_output(s, g.cell_begin_[chunk_cell[chunk + 1]] - g.cell_begin_[chunk_cell[chunk]], k);
-    std::vector<std::uint32_t>& unsure = uncertain[chunk];
+    std::vector<Unsure>& unsure = uncertain[chunk];
     // First guess of the k-th squared distance: the cell edge was chosen to hold about the
     // k nearest (Grid::Grid).
     double guess = g.cell_ * g.cell_;
@@ -953,7 +978,8 @@ AllNearestSummary all_nearest(const Eigen::Matrix3Xd& points, std::size_t k, std
         while (cursor[o] < cells && g.cell_key_[cursor[o]] < low) ++cursor[o];
       }
       if (!gather_block(g, at, 1, first, cap, s, cursor) || s.distance.size() < k + 1) {
-        for (std::uint32_t p = first; p < last; ++p) unsure.push_back(p);
+        for (std::uint32_t p = first; p < last; ++p)
+          unsure.push_back({p, std::numeric_limits<double>::infinity()});
         continue;
       }
       const std::size_t first_self = s.self;
@@ -969,23 +995,23 @@ AllNearestSummary all_nearest(const Eigen::Matrix3Xd& points, std::size_t k, std
             bound = s.distance[previous];
             for (std::size_t j = 0; j < k; ++j) bound = std::max(bound, s.distance[s.top[j]]);
           }
-          keep_within(bound, s);
+          widen_guess(guess, bound, k, s);
         }
         select_kept(k, s);
         previous = s.self;
         const double kth = s.distance[s.top[k - 1]];
         guess = kth + guess_margin * kth;
-        if (s.distance[s.top[k - 1]] < Grid::outside_of(q, low, high))
+        if (kth < Grid::outside_of(q, low, high))
           keep_found(s, g.order_[p], k);
         else
-          unsure.push_back(p);
+          unsure.push_back({p, kth});
       }
     }
     if (s.kept > 0) receive(w, s.kept, s.points.data(), s.rows.data());
   });
 
   // The points not certified: the 5x5x5 and 7x7x7 blocks, one point at a time.
-  std::vector<std::uint32_t> unsure;
+  std::vector<Unsure> unsure;
   for (const auto& u : uncertain) unsure.insert(unsure.end(), u.begin(), u.end());
   summary.certified = n - unsure.size();
   constexpr std::size_t per_chunk = 256;
@@ -996,15 +1022,19 @@ AllNearestSummary all_nearest(const Eigen::Matrix3Xd& points, std::size_t k, std
     const std::size_t end = std::min(unsure.size(), (chunk + 1) * per_chunk);
     start_output(s, end - chunk * per_chunk, k);
     for (std::size_t u = chunk * per_chunk; u < end; ++u) {
-      const std::uint32_t p = unsure[u];
+      const std::uint32_t p = unsure[u].position;
       const double q[3] = {g.axes_[0][p], g.axes_[1][p], g.axes_[2][p]};
       const std::int64_t at[3] = {g.coord(q[0], 0), g.coord(q[1], 1), g.coord(q[2], 2)};
+      // Only the candidates within the narrower block's k-th distance can be among the k
+      // nearest (at least k of them pass: that block's k nearest), so few reach the selection.
+      double bound = unsure[u].bound;
       bool done = false;
       for (std::int64_t r = 2; r <= widest && !done; ++r) {
         if (!gather_block(g, at, r, p, cap, s)) break;
-        distances_within(q, std::numeric_limits<double>::infinity(), s);
+        distances_within(q, bound, s);
         if (select_kept(k, s) < k) continue;
-        done = s.distance[s.top[k - 1]] < g.outside_bound(q, at, r);
+        bound = s.distance[s.top[k - 1]];
+        done = bound < g.outside_bound(q, at, r);
       }
       if (done)
         keep_found(s, g.order_[p], k);
