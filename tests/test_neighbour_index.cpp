@@ -475,7 +475,8 @@ TEST_CASE("all_nearest with the previous point's guess widened and the wider blo
     const Eigen::Index row = i / 314;
     points(2, i) = -0.05 * static_cast<double>((row + 1) / 2) - 0.4 * static_cast<double>(row / 2);
     if (i % 37 != 0) continue;
-    const Eigen::Vector2d radial = (points.col(i).head<2>() - Eigen::Vector2d(40.0, 25.0)).normalized();
+    const Eigen::Vector2d radial =
+        (points.col(i).head<2>() - Eigen::Vector2d(40.0, 25.0)).normalized();
     points.col(i).head<2>() += (0.15 + 0.45 * unit(rng)) * radial;
   }
   const AllNearestSummary s = check_grid_exhaustive(points, 8);

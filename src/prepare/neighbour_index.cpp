@@ -854,9 +854,8 @@ std::size_t keep_within(double bound, GridScratch& s) {
 /// depend on which is taken.
 void widen_guess(double guess, double fallback, std::size_t k, GridScratch& s) {
   for (int step = 0; step < 2; ++step) {
-    const double scale =
-        std::min(4.0, static_cast<double>(k + 1) / static_cast<double>(std::max<std::size_t>(1, s.passed)));
-    guess *= scale;
+    const std::size_t held = std::max<std::size_t>(1, s.passed);
+    guess *= std::min(4.0, static_cast<double>(k + 1) / static_cast<double>(held));
     if (!(guess < fallback)) break;
     if (keep_within(guess, s) >= k) return;
   }
