@@ -456,6 +456,38 @@ TEST_CASE("all_nearest on a large scanned bore equals the KD-tree on one and two
   CHECK(rows_differing_from_tree(points, k, one) == 0);
 }
 
+TEST_CASE("all_nearest with the previous point's guess widened and the wider blocks bounded by "
+          "the narrower block's k-th distance: the exhaustive search's neighbours",
+          "[neighbour_index][grid]") {
+  // A point whose guess (the previous point's k-th distance plus 25 %) holds fewer than k
+  // candidates has it widened in proportion to the shortfall, at most twice, before the
+  // previous point's k + 1 nearest (or no bound) decide; a point the 3x3x3 block does not
+  // certify is searched in the 5x5x5 (7x7x7) block only among the candidates within the
+  // 3x3x3 (5x5x5) block's k-th distance, not among all. Both replace unbounded or looser
+  // selections; the neighbours must stay the definition's. Here the rows of a scanned bore
+  // are alternately 0.05 and 0.4 mm apart (points 0.1 mm apart along a row), so consecutive
+  // points' k-th distances differ several-fold, and every 37th point stands off the surface
+  // by 0.15 to 0.6 mm, beyond the 3x3x3 block's reach but within the 7x7x7 block's.
+  Eigen::Matrix3Xd points = scanned_bore(3000, 314, 0.1, 173);
+  std::mt19937_64 rng(179);
+  std::uniform_real_distribution<double> unit(0.0, 1.0);
+  for (Eigen::Index i = 0; i < points.cols(); ++i) {
+    const Eigen::Index row = i / 314;
+    points(2, i) = -0.05 * static_cast<double>((row + 1) / 2) - 0.4 * static_cast<double>(row / 2);
+    if (i % 37 != 0) continue;
+    const Eigen::Vector2d radial =
+        (points.col(i).head<2>() - Eigen::Vector2d(40.0, 25.0)).normalized();
+    points.col(i).head<2>() += (0.15 + 0.45 * unit(rng)) * radial;
+  }
+  const AllNearestSummary s = check_grid_exhaustive(points, 8);
+  INFO("cell " << s.cell << ", certified " << s.certified << ", widened " << s.widened
+               << ", tree " << s.tree);
+  CHECK(s.widened >= 20);  // the bounded wider blocks answer points
+  CHECK(s.tree == 0);  // none left to the tree: a bound too tight would send them there
+  check_grid_exhaustive(points, 3);
+  check_grid_exhaustive(points, 20);
+}
+
 TEST_CASE("all_nearest on two dense clusters 10 m apart: a grid box of more than 2^32 cells",
           "[neighbour_index][grid]") {
   // The cell edge shrinks from the bounding box's guess by at most 8 per trial, two trials:

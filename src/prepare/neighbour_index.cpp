@@ -532,6 +532,25 @@ class Grid {
     return static_cast<std::size_t>(
         std::lower_bound(cell_key_.begin(), cell_key_.end(), key) - cell_key_.begin());
   }
+  /// The same cell as cell_from(key), given `hint` with every occupied cell before it keyed
+  /// below `key`: an exponential search forward from the hint (Bentley & Yao, Inf. Process.
+  /// Lett. 5 (1976) 82-87, from memory), then the binary search within the last step. A
+  /// block's rows are visited in increasing key order, so each row starts its search where the
+  /// previous row ended, a few cells away, instead of over all occupied cells.
+  std::size_t cell_from(std::uint64_t key, std::size_t hint) const {
+    const std::size_t cells = cell_key_.size();
+    std::size_t low = hint, high = hint, step = 1;
+    while (high < cells && cell_key_[high] < key) {  // every cell up to `high` is keyed below
+      low = high + 1;
+      high += step;
+      step *= 2;
+    }
+    const auto first = cell_key_.begin();
+    return static_cast<std::size_t>(
+        std::lower_bound(first + static_cast<std::ptrdiff_t>(low),
+                         first + static_cast<std::ptrdiff_t>(std::min(high, cells)), key) -
+        first);
+  }
   /// Planes bounding the block of cells [c - r, c + r] along axis a from outside: every point
   /// whose cell coordinate is below c - r lies below `low`, every point above c + r above
   /// `high` (checked through coord itself, so the rounding of the cell edges cannot break it).
@@ -732,6 +751,7 @@ struct alignas(64) GridScratch {
   std::vector<std::uint32_t> top;  ///< candidate slots of the k nearest, in order
   std::vector<std::uint32_t> points, rows, uncertain;
   std::size_t self = 0;    ///< slot of the query's own point among the candidates
+  std::size_t m = 0;       ///< candidates gathered (gather_block); `distance` holds the cap
   std::size_t passed = 0;  ///< candidates kept in `passing` (keep_within)
   std::size_t kept = 0;    ///< points of the chunk's output written so far (keep_found)
 };
@@ -745,11 +765,19 @@ bool gather_block(const Grid& g, const std::int64_t* c, std::int64_t r, std::siz
   std::size_t m = 0;
   s.self = std::numeric_limits<std::size_t>::max();
   const std::size_t cells = g.cell_key_.size();
+  // Without `starts`: the first row's cell by a binary search over all cells, each later one
+  // from where the previous row ended (a row's keys are below the next row's: a row spans
+  // 2r + 1 < dims_[0] keys).
+  bool searched = false;
+  std::size_t after = 0;  // every occupied cell before it is keyed below the next row
   for (std::int64_t dz = -r; dz <= r; ++dz)
     for (std::int64_t dy = -r; dy <= r; ++dy) {
       const std::uint64_t low = g.key(c[0] - r, c[1] + dy, c[2] + dz);
-      std::size_t a = starts ? *starts++ : g.cell_from(low), b = a;
+      std::size_t a = starts ? *starts++ : searched ? g.cell_from(low, after) : g.cell_from(low);
+      searched = true;
+      std::size_t b = a;
       while (b < cells && g.cell_key_[b] <= low + static_cast<std::uint64_t>(2 * r)) ++b;
+      after = b;
       const std::size_t begin = g.cell_begin_[a], end = g.cell_begin_[b];
       if (m + (end - begin) > cap) return false;
       if (position >= begin && position < end) s.self = m + (position - begin);
@@ -760,7 +788,7 @@ bool gather_block(const Grid& g, const std::int64_t* c, std::int64_t r, std::siz
         s.id[m] = g.order_[p];
       }
     }
-  s.distance.resize(m);  // size = candidate count (capacity reserved)
+  s.m = m;  // a count, not a resize: growing the vector zero-filled it block after block
   return true;
 }
 
@@ -777,7 +805,13 @@ void start_output(GridScratch& s, std::size_t count, std::size_t k) {
 void keep_found(GridScratch& s, std::uint32_t index, std::size_t k) {
   s.points[s.kept] = index;
   std::uint32_t* const row = s.rows.data() + s.kept * k;
-  for (std::size_t j = 0; j < k; ++j) row[j] = s.id[s.top[j]];
+  const std::uint32_t* const id = s.id.data();
+  const std::uint32_t* const top = s.top.data();
+  if (k == 8) {  // the screen's k: a loop of fixed length, unrolled
+    for (std::size_t j = 0; j < 8; ++j) row[j] = id[top[j]];
+  } else {
+    for (std::size_t j = 0; j < k; ++j) row[j] = id[top[j]];
+  }
   ++s.kept;
 }
 
@@ -789,7 +823,7 @@ void keep_found(GridScratch& s, std::uint32_t index, std::size_t k) {
 /// which no bound admits: the point is excluded without a test per candidate. Returns how many
 /// passed; when at least k, `bound` bounds the k-th distance from above (see keep_within).
 std::size_t distances_within(const double* q, double bound, GridScratch& s) {
-  const std::size_t m = s.distance.size();
+  const std::size_t m = s.m;
   const bool own = s.self < m;
   const double x = own ? s.x[s.self] : 0.0;
   if (own) s.x[s.self] = std::numeric_limits<double>::quiet_NaN();
@@ -807,8 +841,25 @@ std::size_t distances_within(const double* q, double bound, GridScratch& s) {
 /// Four candidates a step (detail/compact_within.hpp: SSE2 comparisons and a packing table),
 /// the same slots in the same order as one at a time.
 std::size_t keep_within(double bound, GridScratch& s) {
-  s.passed = detail::compact_within(s.distance.data(), s.distance.size(), bound, s.passing.data());
+  s.passed = detail::compact_within(s.distance.data(), s.m, bound, s.passing.data());
   return s.passed;
+}
+
+/// When fewer than k candidates lie within `guess` (distances_within), widens it up to twice in
+/// proportion to the shortfall (on a surface the count grows about as the squared distance)
+/// and keeps the candidates within the first widened bound holding k (keep_within), so that
+/// few more than k reach select_kept; `fallback` (infinity, or a distance with at least k
+/// candidates other than the point within it) when neither does or it is the tighter. Any
+/// bound holding k candidates bounds the k-th distance from above: the neighbours do not
+/// depend on which is taken.
+void widen_guess(double guess, double fallback, std::size_t k, GridScratch& s) {
+  for (int step = 0; step < 2; ++step) {
+    const std::size_t held = std::max<std::size_t>(1, s.passed);
+    guess *= std::min(4.0, static_cast<double>(k + 1) / static_cast<double>(held));
+    if (!(guess < fallback)) break;
+    if (keep_within(guess, s) >= k) return;
+  }
+  keep_within(fallback, s);
 }
 
 /// Four floats, four 32-bit integers: one SSE register each on x86-64 (a compiler vector
@@ -905,7 +956,7 @@ AllNearestSummary all_nearest(const Eigen::Matrix3Xd& points, std::size_t k, std
   const std::size_t workers = std::max<std::size_t>(1, threads);
   std::vector<GridScratch> scratch(workers);
   for (GridScratch& s : scratch) {
-    s.distance.reserve(cap);
+    s.distance.resize(cap);
     s.x.resize(cap);
     s.y.resize(cap);
     s.z.resize(cap);
@@ -913,7 +964,14 @@ AllNearestSummary all_nearest(const Eigen::Matrix3Xd& points, std::size_t k, std
     s.passing.resize(cap + detail::compact_slack);
     s.top.resize(k + 1);
   }
-  std::vector<std::vector<std::uint32_t>> uncertain(chunks);  // positions, per chunk
+  // The points the 3x3x3 block does not certify, per chunk: each with the k-th squared distance
+  // found in that block (infinity when none was), an upper bound of its k-th distance in any
+  // wider block (which holds the same k points at the same computed distances).
+  struct Unsure {
+    std::uint32_t position;
+    double bound;
+  };
+  std::vector<std::vector<Unsure>> uncertain(chunks);
 
   // The 3x3x3 block of each occupied cell, gathered once for all its points. A point's
   // distances to all the block's candidates are computed in one loop; the k nearest are then
@@ -935,7 +993,7 @@ AllNearestSummary all_nearest(const Eigen::Matrix3Xd& points, std::size_t k, std
   detail::parallel_for(chunks, threads, [&](std::size_t chunk, std::size_t w) {
     GridScratch& s = scratch[w];
     start_output(s, g.cell_begin_[chunk_cell[chunk + 1]] - g.cell_begin_[chunk_cell[chunk]], k);
-    std::vector<std::uint32_t>& unsure = uncertain[chunk];
+    std::vector<Unsure>& unsure = uncertain[chunk];
     // First guess of the k-th squared distance: the cell edge was chosen to hold about the
     // k nearest (Grid::Grid).
     double guess = g.cell_ * g.cell_;
@@ -952,40 +1010,41 @@ AllNearestSummary all_nearest(const Eigen::Matrix3Xd& points, std::size_t k, std
             static_cast<std::uint64_t>(static_cast<std::int64_t>(g.cell_key_[c]) + row_offset[o]);
         while (cursor[o] < cells && g.cell_key_[cursor[o]] < low) ++cursor[o];
       }
-      if (!gather_block(g, at, 1, first, cap, s, cursor) || s.distance.size() < k + 1) {
-        for (std::uint32_t p = first; p < last; ++p) unsure.push_back(p);
+      if (!gather_block(g, at, 1, first, cap, s, cursor) || s.m < k + 1) {
+        for (std::uint32_t p = first; p < last; ++p)
+          unsure.push_back({p, std::numeric_limits<double>::infinity()});
         continue;
       }
       const std::size_t first_self = s.self;
       double low[3], high[3];
       for (int a = 0; a < 3; ++a) g.block_faces(at[a], 1, a, low[a], high[a]);
-      std::size_t previous = s.distance.size();  // slot of the previous point; none yet
+      std::size_t previous = s.m;  // slot of the previous point; none yet
       for (std::uint32_t p = first; p < last; ++p) {
         s.self = first_self + (p - first);
         const double q[3] = {g.axes_[0][p], g.axes_[1][p], g.axes_[2][p]};
         if (distances_within(q, guess, s) < k) {
           double bound = std::numeric_limits<double>::infinity();
-          if (previous < s.distance.size()) {
+          if (previous < s.m) {
             bound = s.distance[previous];
             for (std::size_t j = 0; j < k; ++j) bound = std::max(bound, s.distance[s.top[j]]);
           }
-          keep_within(bound, s);
+          widen_guess(guess, bound, k, s);
         }
         select_kept(k, s);
         previous = s.self;
         const double kth = s.distance[s.top[k - 1]];
         guess = kth + guess_margin * kth;
-        if (s.distance[s.top[k - 1]] < Grid::outside_of(q, low, high))
+        if (kth < Grid::outside_of(q, low, high))
           keep_found(s, g.order_[p], k);
         else
-          unsure.push_back(p);
+          unsure.push_back({p, kth});
       }
     }
     if (s.kept > 0) receive(w, s.kept, s.points.data(), s.rows.data());
   });
 
   // The points not certified: the 5x5x5 and 7x7x7 blocks, one point at a time.
-  std::vector<std::uint32_t> unsure;
+  std::vector<Unsure> unsure;
   for (const auto& u : uncertain) unsure.insert(unsure.end(), u.begin(), u.end());
   summary.certified = n - unsure.size();
   constexpr std::size_t per_chunk = 256;
@@ -996,15 +1055,19 @@ AllNearestSummary all_nearest(const Eigen::Matrix3Xd& points, std::size_t k, std
     const std::size_t end = std::min(unsure.size(), (chunk + 1) * per_chunk);
     start_output(s, end - chunk * per_chunk, k);
     for (std::size_t u = chunk * per_chunk; u < end; ++u) {
-      const std::uint32_t p = unsure[u];
+      const std::uint32_t p = unsure[u].position;
       const double q[3] = {g.axes_[0][p], g.axes_[1][p], g.axes_[2][p]};
       const std::int64_t at[3] = {g.coord(q[0], 0), g.coord(q[1], 1), g.coord(q[2], 2)};
+      // Only the candidates within the narrower block's k-th distance can be among the k
+      // nearest (at least k of them pass: that block's k nearest), so few reach the selection.
+      double bound = unsure[u].bound;
       bool done = false;
       for (std::int64_t r = 2; r <= widest && !done; ++r) {
         if (!gather_block(g, at, r, p, cap, s)) break;
-        distances_within(q, std::numeric_limits<double>::infinity(), s);
+        distances_within(q, bound, s);
         if (select_kept(k, s) < k) continue;
-        done = s.distance[s.top[k - 1]] < g.outside_bound(q, at, r);
+        bound = s.distance[s.top[k - 1]];
+        done = bound < g.outside_bound(q, at, r);
       }
       if (done)
         keep_found(s, g.order_[p], k);
