@@ -7,10 +7,13 @@
 #include <Eigen/Geometry>
 #include <algorithm>
 #include <cmath>
+#include <cstring>
+#include <string>
 #include <vector>
 #include <random>
 
 #include "cylzone/core/errors.hpp"
+#include "cylzone/fit/fit_circle.hpp"
 #include "cylzone/fit/fit_cylinder.hpp"
 #include "reference_data.hpp"
 
@@ -317,5 +320,135 @@ TEST_CASE("a least-squares cylinder started from an earlier fit converges to the
     const CylinderFit again = fit_cylinder_least_squares(set.points, limited);
     CHECK(again.summary.start == StartOutcome::restarted);
     check_against(again, moved, 10.002, 1e-9);
+  }
+}
+
+namespace {
+
+bool same_bits(const double* a, const double* b, std::size_t n) {
+  return std::memcmp(a, b, n * sizeof(double)) == 0;
+}
+
+// Everything a fit reports but its message, bit for bit (what FitOptions::result_messages must
+// leave alone).
+void check_same_but_message(const FitSummary& a, const FitSummary& b) {
+  CHECK(a.method == b.method);
+  CHECK(a.status == b.status);
+  CHECK(a.iterations == b.iterations);
+  CHECK(a.point_count == b.point_count);
+  CHECK(a.warnings == b.warnings);
+  CHECK(a.lp_fallbacks == b.lp_fallbacks);
+  CHECK(a.start == b.start);
+  REQUIRE(a.contacts.size() == b.contacts.size());
+  for (std::size_t k = 0; k < a.contacts.size(); ++k) {
+    CHECK(a.contacts[k].point == b.contacts[k].point);
+    CHECK(a.contacts[k].outer == b.contacts[k].outer);
+    CHECK(same_bits(&a.contacts[k].multiplier, &b.contacts[k].multiplier, 1));
+  }
+}
+
+void check_same_but_message(const CylinderFit& a, const CylinderFit& b) {
+  CHECK(same_bits(a.axis.point.data(), b.axis.point.data(), 3));
+  CHECK(same_bits(a.axis.direction.data(), b.axis.direction.data(), 3));
+  const double fa[] = {a.radius, a.extent_min, a.extent_max, a.angular_coverage_deg,
+                       a.ambiguity, a.residuals.rms, a.residuals.form};
+  const double fb[] = {b.radius, b.extent_min, b.extent_max, b.angular_coverage_deg,
+                       b.ambiguity, b.residuals.rms, b.residuals.form};
+  CHECK(same_bits(fa, fb, 7));
+  REQUIRE(a.residuals.values.size() == b.residuals.values.size());
+  CHECK(same_bits(a.residuals.values.data(), b.residuals.values.data(),
+                  static_cast<std::size_t>(a.residuals.values.size())));
+  check_same_but_message(a.summary, b.summary);
+}
+
+void check_same_but_message(const CircleFit& a, const CircleFit& b) {
+  CHECK(same_bits(a.centre.data(), b.centre.data(), 3));
+  CHECK(same_bits(a.normal.data(), b.normal.data(), 3));
+  const double fa[] = {a.radius, a.angular_coverage_deg, a.ambiguity, a.residuals.rms,
+                       a.residuals.form};
+  const double fb[] = {b.radius, b.angular_coverage_deg, b.ambiguity, b.residuals.rms,
+                       b.residuals.form};
+  CHECK(same_bits(fa, fb, 5));
+  REQUIRE(a.residuals.values.size() == b.residuals.values.size());
+  CHECK(same_bits(a.residuals.values.data(), b.residuals.values.data(),
+                  static_cast<std::size_t>(a.residuals.values.size())));
+  check_same_but_message(a.summary, b.summary);
+}
+
+// The least-squares message as iteration_message and the cylinder fits composed it before the
+// option (the reports' text): the status and counts, then the fit's own note.
+std::string iteration_text(const FitSummary& s, int max_iterations) {
+  if (s.status == FitStatus::converged)
+    return "converged in " + std::to_string(s.iterations) +
+           (s.iterations == 1 ? " iteration" : " iterations");
+  return "stopped at the iteration limit (" + std::to_string(max_iterations) +
+         "); the element is the best found, not proven optimal";
+}
+
+}  // namespace
+
+TEST_CASE("FitOptions::result_messages off leaves the message empty and every figure the same",
+          "[cylinder][summary]") {
+  // Reference: the same fit with the messages on (the default), bit for bit; with them on, the
+  // text is the one the reports have always shown (iteration_text above; Chebyshev fits: the
+  // wording of solve_zone's summary, checked by its opening words and the LP count).
+  const Axis truth{{1.0, -2.0, 0.5}, Eigen::Vector3d(0.1, 0.05, 1.0).normalized()};
+  const ReferenceSet set = make_cylinder_reference(truth, 8.0, 0.0, 24.0, 6, 30, 360.0, 0.002, 21);
+  for (const int limit : {100, 1}) {  // converged, and stopped at the iteration limit
+    FitOptions on;
+    on.max_iterations = limit;
+    FitOptions off = on;
+    off.result_messages = false;
+    INFO("iteration limit " << limit);
+    {
+      const CylinderFit a = fit_cylinder_least_squares(set.points, on);
+      const CylinderFit b = fit_cylinder_least_squares(set.points, off);
+      check_same_but_message(a, b);
+      CHECK(b.summary.message.empty());
+      CHECK_THAT(a.summary.message,
+                 Catch::StartsWith(iteration_text(a.summary, limit) + " (start "));
+      // Started from the fit itself: the started path's message.
+      FitOptions started_on = on, started_off = off;
+      started_on.start = started_off.start = fit_start(a);
+      const CylinderFit c = fit_cylinder_least_squares(set.points, started_on);
+      const CylinderFit d = fit_cylinder_least_squares(set.points, started_off);
+      check_same_but_message(c, d);
+      CHECK(d.summary.message.empty());
+      if (c.summary.start == StartOutcome::held)
+        CHECK(c.summary.message == iteration_text(c.summary, limit) + " (started from an earlier fit)");
+      // The axis direction fixed: the circle-in-a-plane path.
+      FitOptions fixed_on = on, fixed_off = off;
+      fixed_on.fixed_direction = fixed_off.fixed_direction = truth.direction;
+      const CylinderFit e = fit_cylinder_least_squares(set.points, fixed_on);
+      const CylinderFit f = fit_cylinder_least_squares(set.points, fixed_off);
+      check_same_but_message(e, f);
+      CHECK(f.summary.message.empty());
+      CHECK(e.summary.message == iteration_text(e.summary, limit) + " (axis direction fixed)");
+    }
+    for (const auto fit : {&fit_cylinder_minimum_zone, &fit_cylinder_maximum_inscribed,
+                           &fit_cylinder_minimum_circumscribed}) {
+      const CylinderFit a = fit(set.points, on);
+      const CylinderFit b = fit(set.points, off);
+      check_same_but_message(a, b);
+      CHECK(b.summary.message.empty());
+      const std::string opening =
+          a.summary.status == FitStatus::converged
+              ? "converged in " + std::to_string(a.summary.iterations) + " linear programmes"
+              : "stopped at the iteration limit of " + std::to_string(limit) +
+                    "; the element is the best found, not proven optimal";
+      CHECK_THAT(a.summary.message, Catch::StartsWith(opening));
+    }
+    // A circle from one level of the set.
+    const Eigen::Matrix3Xd ring = set.points.leftCols(30);
+    const CircleFit a = fit_circle_least_squares(ring, on);
+    const CircleFit b = fit_circle_least_squares(ring, off);
+    check_same_but_message(a, b);
+    CHECK(b.summary.message.empty());
+    CHECK(a.summary.message == iteration_text(a.summary, limit));
+    const CircleFit c = fit_circle_minimum_zone(ring, on);
+    const CircleFit d = fit_circle_minimum_zone(ring, off);
+    check_same_but_message(c, d);
+    CHECK(d.summary.message.empty());
+    CHECK_FALSE(c.summary.message.empty());
   }
 }

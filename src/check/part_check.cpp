@@ -178,6 +178,7 @@ BoreEvaluationOptions stage_options(const EvaluationOptions& options, std::size_
   bore.fit.threads = threads;
   bore.fit.assess_ambiguity = options.profile.ambiguity;
   bore.fit.result_coverage = options.profile.unread_results;
+  bore.fit.result_messages = options.profile.unread_results;
   bore.two_point_sizes = options.profile.two_point_sizes;
   bore.stray_screen = options.profile.stray_screen;
   bore.unread_results = options.profile.unread_results;

@@ -519,7 +519,8 @@ bool same_least_squares_options(const FitOptions& a, const FitOptions& b) {
          a.axis_hint == b.axis_hint && a.fixed_direction == b.fixed_direction &&
          a.use_point_vectors == b.use_point_vectors &&
          a.coverage_warning_deg == b.coverage_warning_deg &&
-         a.result_coverage == b.result_coverage && a.assess_ambiguity == b.assess_ambiguity &&
+         a.result_coverage == b.result_coverage && a.result_messages == b.result_messages &&
+         a.assess_ambiguity == b.assess_ambiguity &&
          a.lp_solver == b.lp_solver && !a.start && !b.start;
 }
 

@@ -756,6 +756,7 @@ ZoneSummary solve_zone(ZoneModel& model, ZoneObjective objective, const ZoneOpti
   // The polish may have run earlier, but the message reports how the final element was found.
 
   summary.distances = std::move(d);
+  if (!options.message) return summary;  // FitOptions::result_messages off: nobody reads it
   const std::string rows = std::to_string(summary.largest_working_set);
   switch (summary.status) {
     case ZoneStatus::converged:
@@ -797,6 +798,7 @@ ZoneOptions zone_options(const FitOptions& options, double scale, double start_f
   z.step_tolerance = options.step_tolerance;
   z.scale = scale;
   z.assess_ambiguity = options.assess_ambiguity;
+  z.message = options.result_messages;
   z.lp_solver = options.lp_solver;
   // The Chebyshev element lies within about the least-squares residual span of the start.
   z.initial_trust_radius = start_form > 0.0 ? start_form : 0.0;

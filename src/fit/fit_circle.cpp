@@ -193,7 +193,8 @@ CircleFit fit_circle_least_squares(const Eigen::Matrix3Xd& points, const FitOpti
   fit.summary.point_count = n;
   fit.summary.status = planar.status;
   fit.summary.iterations = planar.iterations;
-  fit.summary.message = detail::iteration_message(planar.status, planar.iterations, options);
+  if (options.result_messages)
+    fit.summary.message = detail::iteration_message(planar.status, planar.iterations, options);
   detail::warn_on_coverage(fit.summary, fit.angular_coverage_deg, options);
   return fit;
 }

@@ -525,9 +525,10 @@ CylinderFit fit_free_axis(const Eigen::Matrix3Xd& points, const Eigen::Matrix3Xd
         fit.summary.status = run.outcome.status;
         fit.summary.iterations = run.outcome.iterations;
         fit.summary.start = StartOutcome::held;
-        fit.summary.message =
-            detail::iteration_message(run.outcome.status, run.outcome.iterations, options) +
-            " (started from an earlier fit)";
+        if (options.result_messages)
+          fit.summary.message =
+              detail::iteration_message(run.outcome.status, run.outcome.iterations, options) +
+              " (started from an earlier fit)";
         detail::warn_on_coverage(fit.summary, fit.angular_coverage_deg, options);
         return fit;
       }
@@ -615,11 +616,11 @@ CylinderFit fit_free_axis(const Eigen::Matrix3Xd& points, const Eigen::Matrix3Xd
   CylinderFit fit = make_result(points, centroid, best.state, best.outcome.normal_matrix, options);
   fit.summary.status = best.outcome.status;
   fit.summary.iterations = iterations;
-  fit.summary.message = detail::iteration_message(best.outcome.status, iterations, options) +
-                        " (start " + std::to_string(best_start + 1) + " of " +
-                        std::to_string(directions.size()) +
-                        (screened ? ", screened on " + std::to_string(screening_points) + " points)"
-                                  : ")");
+  if (options.result_messages)
+    fit.summary.message =
+        detail::iteration_message(best.outcome.status, iterations, options) + " (start " +
+        std::to_string(best_start + 1) + " of " + std::to_string(directions.size()) +
+        (screened ? ", screened on " + std::to_string(screening_points) + " points)" : ")");
   detail::warn_on_coverage(fit.summary, fit.angular_coverage_deg, options);
   return fit;
 }
@@ -653,8 +654,9 @@ CylinderFit fit_fixed_direction(const Eigen::Matrix3Xd& points, const FitOptions
   fit.summary.point_count = n;
   fit.summary.status = circle.status;
   fit.summary.iterations = circle.iterations;
-  fit.summary.message = detail::iteration_message(circle.status, circle.iterations, options) +
-                        " (axis direction fixed)";
+  if (options.result_messages)
+    fit.summary.message = detail::iteration_message(circle.status, circle.iterations, options) +
+                          " (axis direction fixed)";
   detail::warn_on_coverage(fit.summary, fit.angular_coverage_deg, options);
   return fit;
 }

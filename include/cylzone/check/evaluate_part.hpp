@@ -37,7 +37,7 @@ struct EvaluationProfile {
   /// Results no characteristic reads: fits no figure rests on, the sampling record, the
   /// surface map (BoreEvaluationOptions::unread_results), datum A's minimum-zone flatness
   /// (DatumFrameOptions::flatness), the fits' reported coverage and covariance
-  /// (FitOptions::result_coverage).
+  /// (FitOptions::result_coverage) and their summaries' messages (FitOptions::result_messages).
   bool unread_results = true;
 };
 

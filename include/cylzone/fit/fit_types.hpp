@@ -131,6 +131,10 @@ struct FitOptions {
   /// maximum-inscribed element is refused below 180 degrees from its start's coverage; a
   /// least-squares cylinder always has its own, which a started fit reads through fit_start()).
   bool result_coverage = true;
+  /// Write the summary's one-line account (FitSummary::message). Off (a Monte Carlo trial's
+  /// evaluation: EvaluationProfile::unread_results), it is left empty: no figure reads it, and a
+  /// trial's fits would otherwise compose dozens of strings. Nothing else changes.
+  bool result_messages = true;
   /// Chebyshev fits (minimum zone, mating envelopes): when the optimum is not proven unique by
   /// its contacts, walk the near-optimal set to measure how far the element can move, and
   /// explore flat optima for other, equally good or better, local optima (docs/chebyshev.md,
@@ -158,7 +162,9 @@ struct FitSummary {
   FitStatus status = FitStatus::converged;
   int iterations = 0;
   std::size_t point_count = 0;
-  std::string message;                ///< one line, e.g. "converged in 6 iterations (start 2 of 4)"
+  /// One line, e.g. "converged in 6 iterations (start 2 of 4)"; empty for the least-squares and
+  /// Chebyshev cylinders and circles when FitOptions::result_messages is off.
+  std::string message;
   std::vector<std::string> warnings;  ///< e.g. "points cover only 84.0 degrees of arc"
   /// Chebyshev fits with LpSolver::dense: linear programmes the dense solver reported it could
   /// not solve, which Clp then solved (0 otherwise).

@@ -258,6 +258,8 @@ struct ZoneOptions {
   double exploration_allowance = 1e-10;
   /// Off: uniqueness is neither proven nor measured (FitOptions::assess_ambiguity).
   bool assess_ambiguity = true;
+  /// Off: ZoneSummary::message is left empty (FitOptions::result_messages).
+  bool message = true;
   /// The tie-break's secondary objective (docs/chebyshev.md, "Non-unique optima", 5): the sum
   /// of squared residuals about a free offset (a radius; a plane's offset), or, off, of the
   /// distances themselves (a line: its points' distances from it).
