@@ -45,9 +45,9 @@ struct PartEvaluation;
 
 struct EvaluationOptions {
   /// Fits, sections and the stray-point screen's parameters, for datums and bores alike. Its
-  /// `fit.threads`, `fit.assess_ambiguity`, `fit.result_coverage`, `two_point_sizes`,
-  /// `stray_screen` and `stray_points.threads` are set from `threads` and `profile` by
-  /// evaluate_part.
+  /// `fit.threads`, `fit.assess_ambiguity`, `fit.result_coverage`, `fit.result_messages`,
+  /// `two_point_sizes`, `stray_screen` and `stray_points.threads` are set from `threads` and
+  /// `profile` by evaluate_part.
   BoreEvaluationOptions bore;
   MobilityOptions mobility;
   EvaluationProfile profile;
