@@ -622,6 +622,38 @@ TEST_CASE("monte carlo: the same seed gives the same bits on 1 and 2 threads", "
   CHECK(!expanded_uncertainty(one, "Q9/position"));
 }
 
+TEST_CASE("monte carlo: a study on the caller's unperturbed evaluation gives the same bits",
+          "[monte-carlo]") {
+  // A check evaluates the part for its own report and hands that evaluation to the study
+  // (check_command.cpp): the study must then give what it gives evaluating the part itself,
+  // whatever thread count the caller's evaluation ran on, and the estimated sigmas (read from
+  // the unperturbed fits) must be the same too.
+  const Part p = small_part(BoreAxisMethod::mating_envelope);
+  MonteCarloOptions options;
+  options.trials = 16;
+  options.seed = 7;
+  options.threads = 2;
+  options.probing = ProbingModel::estimated;
+  const MonteCarloSummary own = monte_carlo_uncertainty(p.plan, p.inputs, options);
+  EvaluationOptions one_thread = options.evaluation;
+  one_thread.threads = 1;
+  const PartEvaluation nominal = evaluate_part(p.plan, p.inputs, one_thread);
+  const MonteCarloSummary given = monte_carlo_uncertainty(p.plan, p.inputs, nominal, options);
+  REQUIRE(own.status == MonteCarloStatus::converged);
+  REQUIRE(own.characteristics.size() >= 2 * 4);
+  require_same(own, given);
+  CHECK(own.feature_sigma == given.feature_sigma);
+  CHECK(own.warm_fits == given.warm_fits);
+  for (std::size_t i = 0; i < own.characteristics.size(); ++i)
+    CHECK(own.characteristics[i].value == given.characteristics[i].value);
+  // An evaluation of another plan (one bore fewer) is refused, not indexed past its end.
+  const Part q = part_abc({plan_bore("Q1", 30.0, 20.0, BoreAxisMethod::mating_envelope)},
+                          {p.inputs.bores[0]});
+  const PartEvaluation other = evaluate_part(q.plan, q.inputs, one_thread);
+  CHECK_THROWS_AS(monte_carlo_uncertainty(p.plan, p.inputs, other, options),
+                  std::invalid_argument);
+}
+
 TEST_CASE("monte carlo: the length error scales the part", "[monte-carlo]") {
   // With a probing sigma far below the length error, the size's u is that of a rectangular
   // scale factor on [-E/L, E/L]: u(D) = D (E / L) / sqrt(3) (JCGM 100:2008 4.3.7, rectangular

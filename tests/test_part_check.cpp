@@ -502,4 +502,17 @@ TEST_CASE("check_part is load_part_inputs, evaluate_part, the sensitivity study 
   CheckOptions without;
   without.sensitivity = false;
   CHECK(check_part(plan, without).sensitivity.empty());
+
+  // On an evaluation the caller made (and may hand to the uncertainty study as well): the same
+  // result, characteristic by characteristic.
+  const PartCheckResult given = check_part(plan, inputs, evaluation, CheckOptions{});
+  REQUIRE(given.characteristics.size() == checked.characteristics.size());
+  for (std::size_t i = 0; i < given.characteristics.size(); ++i) {
+    INFO(checked.characteristics[i].id);
+    CHECK(given.characteristics[i].id == checked.characteristics[i].id);
+    CHECK(given.characteristics[i].value == checked.characteristics[i].value);
+    CHECK(given.characteristics[i].verdict == checked.characteristics[i].verdict);
+  }
+  CHECK(given.verdict == checked.verdict);
+  CHECK(given.sensitivity.size() == checked.sensitivity.size());
 }

@@ -520,12 +520,16 @@ PartCheckResult check_part(const PartPlan& plan, const CheckOptions& options) {
 
 PartCheckResult check_part(const PartPlan& plan, const PartInputs& inputs,
                            const CheckOptions& options) {
+  return check_part(plan, inputs, evaluate_part(plan, inputs, options.evaluation), options);
+}
+
+PartCheckResult check_part(const PartPlan& plan, const PartInputs& inputs,
+                           PartEvaluation evaluation, const CheckOptions& options) {
   PartCheckResult result;
   result.plan = plan;
   result.inputs = inputs.records;
   result.scan = inputs.scan;
   const DecisionRule& rule = options.decision ? *options.decision : plan.decision.rule;
-  PartEvaluation evaluation = evaluate_part(plan, inputs, options.evaluation);
   // Plan and data must describe the same part: refuse what would be meaningless, warn the rest.
   check_plausibility(plan, inputs, evaluation);
   if (options.sensitivity)

@@ -234,12 +234,15 @@ int run_check(const CheckArguments& args) {
   options.evaluation.threads = args.threads;
   // Each input is read once; the study perturbs the same points in memory.
   const PartInputs part_inputs = load_part_inputs(plan, LoadOptions{args.threads});
-  PartCheckResult result = check_part(plan, part_inputs, options);
+  // The part is evaluated once: the check takes a copy when the study needs the evaluation too.
+  PartEvaluation evaluation = evaluate_part(plan, part_inputs, options.evaluation);
+  PartCheckResult result = check_part(
+      plan, part_inputs, study ? PartEvaluation(evaluation) : std::move(evaluation), options);
   std::optional<MonteCarloSummary> uncertainty;
   if (study) {
     MonteCarloOptions mc = *study;
     mc.evaluation = options.evaluation;
-    uncertainty = monte_carlo_uncertainty(plan, part_inputs, mc);
+    uncertainty = monte_carlo_uncertainty(plan, part_inputs, evaluation, mc);
     // The study's U is what the plan's decision rule counts (ISO 14253-1: conformance proven
     // inside the zone reduced by U); under simple acceptance it is shown, not counted.
     decide_with_study(result.characteristics, *uncertainty, plan.decision.rule);

@@ -520,10 +520,8 @@ void set_ambiguity(Output& out, std::string_view kind, const BoreResult& b, cons
   out.ambiguity_source = source;
 }
 
-}  // namespace
-
-MonteCarloSummary monte_carlo_uncertainty(const PartPlan& plan, const PartInputs& inputs,
-                                          const MonteCarloOptions& options) {
+/// The study's options: the engine's (validate) and the error model's.
+void validate_study(const MonteCarloOptions& options) {
   validate(options);
   if (options.probing == ProbingModel::sigma &&
       !(options.probing_sigma > 0.0 && std::isfinite(options.probing_sigma)))
@@ -533,16 +531,34 @@ MonteCarloSummary monte_carlo_uncertainty(const PartPlan& plan, const PartInputs
         std::isfinite(options.length_error->k) && std::isfinite(options.length_error->a)))
     throw std::invalid_argument(
         "monte carlo: the length error needs A >= 0 and K > 0 (E = A + L/K)");
+}
+
+}  // namespace
+
+MonteCarloSummary monte_carlo_uncertainty(const PartPlan& plan, const PartInputs& inputs,
+                                          const MonteCarloOptions& options) {
+  validate_study(options);  // before the evaluation: bad options cost nothing
+  // The unperturbed evaluation: values, ambiguities, the frame the errors are drawn in.
+  EvaluationOptions full = options.evaluation;
+  full.threads = std::max<std::size_t>(1, options.threads);
+  return monte_carlo_uncertainty(plan, inputs, evaluate_part(plan, inputs, full), options);
+}
+
+MonteCarloSummary monte_carlo_uncertainty(const PartPlan& plan, const PartInputs& inputs,
+                                          const PartEvaluation& nominal,
+                                          const MonteCarloOptions& options) {
+  validate_study(options);
+  if (nominal.bores.size() != plan.bores.size() ||
+      nominal.preparation.size() != plan.datums.size() + plan.bores.size())
+    throw std::invalid_argument(
+        "monte carlo: the unperturbed evaluation is not one of this plan (bores or features "
+        "differ)");
 
   MonteCarloSummary summary;
   summary.probing = options.probing;
   summary.length_error = options.length_error;
 
-  // ---- The unperturbed evaluation: values, ambiguities, the frame the errors are drawn in.
-  EvaluationOptions full = options.evaluation;
-  full.threads = std::max<std::size_t>(1, options.threads);
-  const PartEvaluation nominal = evaluate_part(plan, inputs, full);
-
+  // ---- From the unperturbed evaluation: values, ambiguities, the frame the errors are drawn in.
   std::vector<Output> outputs;
   for (std::size_t i = 0; i < nominal.bores.size(); ++i) {
     const BoreResult& b = nominal.bores[i];

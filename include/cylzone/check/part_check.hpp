@@ -60,4 +60,11 @@ PartCheckResult check_part(const PartPlan& plan, const CheckOptions& options = {
 PartCheckResult check_part(const PartPlan& plan, const PartInputs& inputs,
                            const CheckOptions& options = {});
 
+/// The same on an evaluation already made: `evaluation` must be evaluate_part(plan, inputs,
+/// options.evaluation). For a caller that also hands that evaluation to a study (the Monte Carlo
+/// study of uncertainty/monte_carlo.hpp) so the part is evaluated once: pass a copy, or move it
+/// in when nothing else needs it. Throws as check_plausibility does.
+PartCheckResult check_part(const PartPlan& plan, const PartInputs& inputs,
+                           PartEvaluation evaluation, const CheckOptions& options = {});
+
 }  // namespace cylzone

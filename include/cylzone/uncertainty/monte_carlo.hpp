@@ -242,6 +242,14 @@ std::string warm_start_text(const MonteCarloSummary& summary);
 MonteCarloSummary monte_carlo_uncertainty(const PartPlan& plan, const PartInputs& inputs,
                                           const MonteCarloOptions& options = {});
 
+/// The same study on an unperturbed evaluation the caller has already made:
+/// `nominal` must be evaluate_part(plan, inputs, options.evaluation) (any `threads`: the result
+/// does not depend on it), as a check computes it for its own report. The study then does not
+/// evaluate the part a second time; every figure is the same as the overload above gives.
+MonteCarloSummary monte_carlo_uncertainty(const PartPlan& plan, const PartInputs& inputs,
+                                          const PartEvaluation& nominal,
+                                          const MonteCarloOptions& options = {});
+
 /// The generic engine behind monte_carlo_uncertainty, for any model: `trial(rng, out)` fills
 /// `out` (one value per output, NaN when not evaluated in that trial) from the random stream
 /// of that trial. Runs the trials as `options` say (fixed or adaptive, seed, threads, coverage;
