@@ -5,6 +5,7 @@
 
 #include <Eigen/Geometry>
 #include <cmath>
+#include <cstring>
 #include <limits>
 #include <random>
 #include <vector>
@@ -87,6 +88,44 @@ TEST_CASE("section circles reproduce the known centres of a bent bore", "[sectio
     CHECK(s.circle.normal.dot(bore.axis.direction) > 0.0);  // normals follow the axis
     CHECK((s.circle.centre - bore.axis.point).dot(bore.axis.direction) ==
           Approx(bore.heights[k]).margin(1e-9));
+  }
+}
+
+TEST_CASE("sections without the summary's account: the same circles and warnings",
+          "[sections][least_squares]") {
+  // FitOptions::result_messages off (a Monte Carlo trial) leaves the summary's one-line account
+  // empty and changes nothing else: every circle compared by its bits with the account on,
+  // with skipped sections (too few points, an empty level) among fitted ones.
+  const BentBore bore = make_bent_bore();
+  std::vector<double> heights = bore.heights;
+  heights.insert(heights.begin() + 2, 11.0);  // between two levels: no points
+  heights.push_back(100.0);                   // beyond the bore
+  SectionOptions on;
+  on.half_thickness = 0.5;
+  SectionOptions off = on;
+  off.fit.result_messages = false;
+  const SectionsResult a = fit_sections_least_squares(bore.points, bore.axis, heights, on);
+  const SectionsResult b = fit_sections_least_squares(bore.points, bore.axis, heights, off);
+  CHECK_THAT(a.summary.message, Contains("5 of 7 sections"));
+  CHECK(b.summary.message.empty());
+  CHECK(a.summary.warnings == b.summary.warnings);
+  CHECK(a.summary.warnings.size() == 2);
+  CHECK(a.summary.point_count == b.summary.point_count);
+  CHECK(a.summary.iterations == b.summary.iterations);
+  REQUIRE(a.sections.size() == 5);
+  REQUIRE(b.sections.size() == a.sections.size());
+  const auto same = [](const auto& x, const auto& y) {
+    return std::memcmp(x.data(), y.data(), sizeof(double) * static_cast<std::size_t>(x.size())) == 0;
+  };
+  for (std::size_t k = 0; k < a.sections.size(); ++k) {
+    const CircleFit& x = a.sections[k].circle;
+    const CircleFit& y = b.sections[k].circle;
+    CHECK(a.sections[k].height == b.sections[k].height);
+    CHECK(same(x.centre, y.centre));
+    CHECK(same(x.normal, y.normal));
+    CHECK(std::memcmp(&x.radius, &y.radius, sizeof(double)) == 0);
+    CHECK(same(x.residuals.values, y.residuals.values));
+    CHECK(x.residuals.values.size() == 36);
   }
 }
 
