@@ -20,6 +20,14 @@ namespace cylzone {
 namespace detail {
 namespace {
 
+#if defined(__SSE2__)
+/// The two lanes of v, low first.
+void split_lanes(__m128d v, double& low, double& high) {
+  low = _mm_cvtsd_f64(v);
+  high = _mm_cvtsd_f64(_mm_unpackhi_pd(v, v));
+}
+#endif
+
 // Centred statistics of a 2D set, gathered in one pass: centroid, the largest distance from it,
 // whether the set lies on a straight line (the collinearity test, with the spread along and
 // across the principal direction where it was needed) and the normal equations of the
@@ -65,16 +73,9 @@ PlanarSpread planar_spread(const Eigen::Matrix2Xd& uv) {
       b += minus_r2;
       largest2 = std::max(largest2, r2);
     }
-    double lanes[2];
-    _mm_storeu_pd(lanes, squares);
-    xx = lanes[0];
-    yy = lanes[1];
-    _mm_storeu_pd(lanes, sums);
-    sx = lanes[0];
-    sy = lanes[1];
-    _mm_storeu_pd(lanes, moments);
-    bx = lanes[0];
-    by = lanes[1];
+    split_lanes(squares, xx, yy);
+    split_lanes(sums, sx, sy);
+    split_lanes(moments, bx, by);
   }
 #endif
   for (; i < count; ++i) {
@@ -193,16 +194,9 @@ Circle2dFit fit_circle_2d_least_squares(const Eigen::Matrix2Xd& uv, const FitOpt
         r2 -= d;
         ssr += d * d;
       }
-      double lanes[2];
-      _mm_storeu_pd(lanes, squares);
-      s00 = lanes[0];
-      s11 = lanes[1];
-      _mm_storeu_pd(lanes, sums);
-      s02 = lanes[0];
-      s12 = lanes[1];
-      _mm_storeu_pd(lanes, moments);
-      r0 = lanes[0];
-      r1 = lanes[1];
+      split_lanes(squares, s00, s11);
+      split_lanes(sums, s02, s12);
+      split_lanes(moments, r0, r1);
     }
 #endif
     for (; i < count; ++i) {
