@@ -233,6 +233,27 @@ TEST_CASE("section membership by one search per point equals the test of every p
     check(t, few, 1e-3);
     check(t, few, 4.0);
   }
+  SECTION("the direct test of a few sections: odd and even counts, boundaries, signed zeros") {
+    // Up to 8 sections every pair is tested, two points at a time: every count of points from
+    // 0 to 9 and 1001 (a last point alone), points exactly on a boundary and next to it.
+    const std::vector<double> heights = {0.0, -5.0, 2.5, -0.0, 7.25, -5.0, 1e-300, 3.0};
+    for (std::size_t m = 1; m <= heights.size(); ++m) {
+      const std::vector<double> some(heights.begin(), heights.begin() + m);
+      for (const std::size_t n : {0, 1, 2, 3, 4, 5, 6, 7, 8, 9, 1001}) {
+        std::vector<double> t(n);
+        for (std::size_t i = 0; i < n; ++i) {
+          const double base = some[i % m];
+          t[i] = i % 5 == 0   ? base + 0.75
+                 : i % 5 == 1 ? std::nextafter(base - 0.75, -1e9)
+                 : i % 5 == 2 ? -0.0
+                 : i % 5 == 3 ? 0.0
+                              : height(rng);
+        }
+        check(t, some, 0.75);
+        check(t, some, 0.0);
+      }
+    }
+  }
   SECTION("non-finite heights, points or half thickness take the direct test") {
     const double inf = std::numeric_limits<double>::infinity();
     const double nan = std::numeric_limits<double>::quiet_NaN();

@@ -10,6 +10,10 @@
 #include <numeric>
 #include <string>
 
+#if defined(__SSE2__)
+#include <emmintrin.h>
+#endif
+
 #include "cylzone/core/errors.hpp"
 #include "detail/even_guess.hpp"
 #include "detail/fit_support.hpp"
@@ -39,8 +43,24 @@ SectionMembers section_members(const double* t, std::size_t n, const std::vector
     // Section by section, into the one list (as the loop this replaces: one pass a section).
     out.index.reserve(n);
     for (std::size_t k = 0; k < m; ++k) {
-      for (std::size_t i = 0; i < n; ++i)
-        if (std::abs(t[i] - heights[k]) <= half) out.index.push_back(i);
+      const double h = heights[k];
+      std::size_t i = 0;
+#if defined(__SSE2__)
+      // Two points per test: each lane's t - h, its absolute value (the sign bit cleared, as
+      // std::abs) and <= half (false for NaN, as the scalar comparison) decide exactly as the
+      // scalar test; most pairs are not members, and those cost one mask test for two points.
+      const __m128d level = _mm_set1_pd(h), limit = _mm_set1_pd(half);
+      const __m128d magnitude = _mm_castsi128_pd(_mm_set1_epi64x(0x7fffffffffffffff));
+      for (; i + 2 <= n; i += 2) {
+        const __m128d gap = _mm_and_pd(_mm_sub_pd(_mm_loadu_pd(t + i), level), magnitude);
+        const int in = _mm_movemask_pd(_mm_cmple_pd(gap, limit));
+        if (in == 0) continue;
+        if (in & 1) out.index.push_back(i);
+        if (in & 2) out.index.push_back(i + 1);
+      }
+#endif
+      for (; i < n; ++i)
+        if (std::abs(t[i] - h) <= half) out.index.push_back(i);
       out.start[k + 1] = out.index.size();
     }
     return out;
