@@ -61,8 +61,9 @@ PlanarSpread planar_spread(const Eigen::Matrix2Xd& uv) {
     // copy of that loop).
     const __m128d centre = _mm_loadu_pd(s.centroid.data());
     __m128d squares = _mm_setzero_pd(), sums = _mm_setzero_pd(), moments = _mm_setzero_pd();
-    for (; i < count; ++i) {
-      const __m128d p = _mm_sub_pd(_mm_loadu_pd(q + 2 * i), centre);  // (x, y)
+    // A pointer, not an index, walks the points (fewer instructions a point).
+    for (const double *a = q, *end = q + 2 * count; a != end; a += 2) {
+      const __m128d p = _mm_sub_pd(_mm_loadu_pd(a), centre);  // (x, y)
       const __m128d p2 = _mm_mul_pd(p, p);                              // (x x, y y)
       const double r2 = _mm_cvtsd_f64(p2) + _mm_cvtsd_f64(_mm_unpackhi_pd(p2, p2));
       squares = _mm_add_pd(squares, p2);
@@ -73,6 +74,7 @@ PlanarSpread planar_spread(const Eigen::Matrix2Xd& uv) {
       b += minus_r2;
       largest2 = std::max(largest2, r2);
     }
+    i = count;
     split_lanes(squares, xx, yy);
     split_lanes(sums, sx, sy);
     split_lanes(moments, bx, by);
@@ -180,8 +182,8 @@ Circle2dFit fit_circle_2d_least_squares(const Eigen::Matrix2Xd& uv, const FitOpt
       const __m128d centre = _mm_set_pd(p(1), p(0));
       const __m128d sign = _mm_set1_pd(-0.0);
       __m128d squares = _mm_setzero_pd(), sums = _mm_setzero_pd(), moments = _mm_setzero_pd();
-      for (; i < count; ++i) {
-        const __m128d dxy = _mm_sub_pd(_mm_sub_pd(_mm_loadu_pd(q + 2 * i), offset), centre);
+      for (const double *a = q, *end = q + 2 * count; a != end; a += 2) {
+        const __m128d dxy = _mm_sub_pd(_mm_sub_pd(_mm_loadu_pd(a), offset), centre);
         const __m128d d2 = _mm_mul_pd(dxy, dxy);
         const double rho = std::sqrt(_mm_cvtsd_f64(d2) + _mm_cvtsd_f64(_mm_unpackhi_pd(d2, d2)));
         const double d = rho - p(2);
@@ -194,6 +196,7 @@ Circle2dFit fit_circle_2d_least_squares(const Eigen::Matrix2Xd& uv, const FitOpt
         r2 -= d;
         ssr += d * d;
       }
+      i = count;
       split_lanes(squares, s00, s11);
       split_lanes(sums, s02, s12);
       split_lanes(moments, r0, r1);
