@@ -4,6 +4,7 @@
 #include <catch2/catch.hpp>
 
 #include <Eigen/Geometry>
+#include <algorithm>
 #include <cmath>
 #include <cstring>
 #include <limits>
@@ -264,6 +265,53 @@ TEST_CASE("section membership by one search per point equals the test of every p
     check({-3.0, 0.0, 2.0}, {}, 1.0);
     check({}, {1.0, 2.0}, 1.0);
   }
+}
+
+TEST_CASE("a section's members one, two and four points at a time: the scalar test's",
+          "[sections]") {
+  // Reference: the test |t - h| <= half of every point in turn (the loop of the direct path
+  // before it took points in lanes). Every lane width this processor runs, every point count
+  // from 0 to 9 and 1001, points on and next to the boundaries, signed zeros, infinities and
+  // NaN among the points, and zero, infinite and NaN half thicknesses.
+  const double inf = std::numeric_limits<double>::infinity();
+  const double nan = std::numeric_limits<double>::quiet_NaN();
+  std::mt19937_64 rng(77);
+  std::uniform_real_distribution<double> height(-3.0, 3.0);
+  std::vector<detail::MemberLanes> widths = {detail::MemberLanes::scalar};
+  if (detail::member_lanes() != detail::MemberLanes::scalar) widths.push_back(detail::MemberLanes::sse2);
+  if (detail::member_lanes() == detail::MemberLanes::avx2) widths.push_back(detail::MemberLanes::avx2);
+  int members = 0;
+  for (const double h : {0.0, -0.0, 1.25, -inf, nan})
+    for (const double half : {0.5, 0.0, inf, nan})
+      for (const std::size_t n : {0, 1, 2, 3, 4, 5, 6, 7, 8, 9, 1001}) {
+        std::vector<double> t(n);
+        for (std::size_t i = 0; i < n; ++i) {
+          const double base = std::isfinite(h) ? h : 0.0;
+          const double b = std::isfinite(half) ? half : 1.0;
+          switch (i % 7) {
+            case 0: t[i] = base + b; break;
+            case 1: t[i] = std::nextafter(base - b, -inf); break;
+            case 2: t[i] = -0.0; break;
+            case 3: t[i] = i % 2 ? inf : -inf; break;
+            case 4: t[i] = i % 3 ? nan : 0.0; break;
+            default: t[i] = height(rng);
+          }
+        }
+        std::vector<std::size_t> expected;
+        for (std::size_t i = 0; i < n; ++i)
+          if (std::abs(t[i] - h) <= half) expected.push_back(i);
+        members += static_cast<int>(expected.size());
+        for (const detail::MemberLanes lanes : widths) {
+          std::vector<std::size_t> got = {7};  // appended after what the list holds
+          detail::append_members(t.data(), n, h, half, lanes, got);
+          INFO("h " << h << ", half " << half << ", n " << n << ", lanes "
+                    << static_cast<int>(lanes));
+          REQUIRE(got.size() == expected.size() + 1);
+          CHECK(got.front() == 7);
+          CHECK(std::equal(expected.begin(), expected.end(), got.begin() + 1));
+        }
+      }
+  CHECK(members > 1000);  // the cases have members, not only empty lists
 }
 
 TEST_CASE("levels of heights already sorted equal find_section_levels' to the bit",
