@@ -21,10 +21,15 @@ namespace detail {
 namespace {
 
 #if defined(__SSE2__)
-/// The two lanes of v, low first.
-void split_lanes(__m128d v, double& low, double& high) {
-  low = _mm_cvtsd_f64(v);
-  high = _mm_cvtsd_f64(_mm_unpackhi_pd(v, v));
+/// The two lanes of each of three paired sums, low first: a's into a0, a1, b's, c's.
+void split_lanes(__m128d a, __m128d b, __m128d c, double& a0, double& a1, double& b0, double& b1,
+                 double& c0, double& c1) {
+  a0 = _mm_cvtsd_f64(a);
+  a1 = _mm_cvtsd_f64(_mm_unpackhi_pd(a, a));
+  b0 = _mm_cvtsd_f64(b);
+  b1 = _mm_cvtsd_f64(_mm_unpackhi_pd(b, b));
+  c0 = _mm_cvtsd_f64(c);
+  c1 = _mm_cvtsd_f64(_mm_unpackhi_pd(c, c));
 }
 #endif
 
@@ -75,9 +80,7 @@ PlanarSpread planar_spread(const Eigen::Matrix2Xd& uv) {
       largest2 = std::max(largest2, r2);
     }
     i = count;
-    split_lanes(squares, xx, yy);
-    split_lanes(sums, sx, sy);
-    split_lanes(moments, bx, by);
+    split_lanes(squares, sums, moments, xx, yy, sx, sy, bx, by);
   }
 #endif
   for (; i < count; ++i) {
@@ -197,9 +200,7 @@ Circle2dFit fit_circle_2d_least_squares(const Eigen::Matrix2Xd& uv, const FitOpt
         ssr += d * d;
       }
       i = count;
-      split_lanes(squares, s00, s11);
-      split_lanes(sums, s02, s12);
-      split_lanes(moments, r0, r1);
+      split_lanes(squares, sums, moments, s00, s11, s02, s12, r0, r1);
     }
 #endif
     for (; i < count; ++i) {
