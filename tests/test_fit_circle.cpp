@@ -130,11 +130,55 @@ TEST_CASE("2D least-squares circle and its algebraic start", "[circle][least_squ
 
 namespace {
 
+/// The algebraic (Kasa) start as it was computed before its sums were taken two lanes at a
+/// time and before the collinearity test's eigenvalues were skipped where a bound decides it:
+/// a scalar pass of the centred sums, the 2 x 2 eigenvalues always, the normal equations
+/// solved by LDLT. fit_circle_2d_algebraic must reproduce it bit for bit, and its error.
+detail::Circle2dFit previous_algebraic(const Eigen::Matrix2Xd& uv) {
+  detail::require_point_count(static_cast<std::size_t>(uv.cols()), 3, "circle");
+  const double n = static_cast<double>(uv.cols());
+  const Eigen::Vector2d centroid = uv.rowwise().mean();
+  double xx = 0, xy = 0, yy = 0, sx = 0, sy = 0, bx = 0, by = 0, b = 0, largest2 = 0;
+  for (Eigen::Index i = 0; i < uv.cols(); ++i) {
+    const double x = uv(0, i) - centroid.x(), y = uv(1, i) - centroid.y();
+    const double r2 = x * x + y * y;
+    xx += x * x;
+    xy += x * y;
+    yy += y * y;
+    sx += x;
+    sy += y;
+    const double minus_r2 = -r2;
+    bx += x * minus_r2;
+    by += y * minus_r2;
+    b += minus_r2;
+    largest2 = std::max(largest2, r2);
+  }
+  Eigen::Matrix2d m;
+  m << xx, xy, xy, yy;
+  const Eigen::SelfAdjointEigenSolver<Eigen::Matrix2d> eigen(m, Eigen::EigenvaluesOnly);
+  const double across = std::sqrt(std::max(0.0, eigen.eigenvalues()(0)) / n);
+  const double along = std::sqrt(std::max(0.0, eigen.eigenvalues()(1)) / n);
+  if (across <= detail::degenerate_spread_ratio * along)
+    throw FitError("the points lie on a straight line (rms " + detail::format_number(across, 9) +
+                   " mm off it over " + detail::format_number(2.0 * std::sqrt(largest2), 6) +
+                   " mm); a circle needs points not on one line");
+  Eigen::Matrix3d ata;
+  ata << xx, xy, sx, xy, yy, sy, sx, sy, n;
+  const Eigen::Vector3d def = ata.ldlt().solve(Eigen::Vector3d(bx, by, b));
+  detail::Circle2dFit fit;
+  const Eigen::Vector2d c(-0.5 * def(0), -0.5 * def(1));
+  const double r2 = c.squaredNorm() - def(2);
+  fit.centre = centroid + c;
+  fit.radius = r2 > 0.0 ? std::sqrt(r2) : (uv.colwise() - fit.centre).colwise().norm().mean();
+  return fit;
+}
+
 /// The 2D least-squares circle as it was computed before its normal equations were summed
-/// entry by entry and its centroid and scale taken from the algebraic start's pass: the
-/// reference fit_circle_2d_least_squares must reproduce bit for bit.
+/// entry by entry (and two lanes at a time) and its centroid and scale taken from the
+/// algebraic start's pass: the reference fit_circle_2d_least_squares must reproduce bit for
+/// bit.
 detail::Circle2dFit previous_least_squares(const Eigen::Matrix2Xd& uv, const FitOptions& options) {
-  const detail::Circle2dFit start = detail::fit_circle_2d_algebraic(uv);
+  const detail::Circle2dFit start = previous_algebraic(uv);
   const Eigen::Vector2d origin = uv.rowwise().mean();
   const double scale = (uv.colwise() - origin).colwise().norm().maxCoeff();
   Eigen::Vector3d state(start.centre.x() - origin.x(), start.centre.y() - origin.y(),
@@ -188,11 +232,17 @@ TEST_CASE("2D least-squares circle: the same bits as the full outer-product accu
     int count;
     double amplitude;
   };
+  // Also: three points, an arc so short that the collinearity bound leaves the test to the
+  // eigenvalues, a circle far from the origin, one of 2,000 points.
   const Arc arcs[] = {{{2000.5, -300.25}, 4.0, 10.0, 150.0, 30, 0.0005},
                       {{0.0, 0.0}, 6.0, 0.0, 360.0, 48, 0.002},
                       {{-12.0, 7.5}, 0.8, 200.0, 60.0, 9, 0.0001},
                       {{150.0, 150.0}, 40.0, -45.0, 300.0, 200, 0.01},
-                      {{3.0, -4.0}, 12.0, 90.0, 20.0, 12, 0.0}};
+                      {{3.0, -4.0}, 12.0, 90.0, 20.0, 12, 0.0},
+                      {{1.0, 2.0}, 5.0, 30.0, 90.0, 3, 0.0},
+                      {{-7.0, 11.0}, 25.0, 60.0, 0.5, 20, 0.0},
+                      {{-84000.0, 61000.0}, 9.5, 0.0, 350.0, 40, 0.001},
+                      {{0.25, -0.5}, 18.0, 0.0, 360.0, 2000, 0.003}};
   int seed = 11;
   for (const Arc& arc : arcs)
     for (const int limit : {1, 2, 50}) {
@@ -203,9 +253,14 @@ TEST_CASE("2D least-squares circle: the same bits as the full outer-product accu
       if (limit == 2) uv.col(1) = uv.col(0);  // a repeated point
       FitOptions options;
       options.max_iterations = limit;
+      INFO("radius " << arc.radius << ", span " << arc.span_deg << ", limit " << limit);
+      if (limit == 2 && arc.count == 3) continue;  // two distinct points: no circle
       const detail::Circle2dFit mine = detail::fit_circle_2d_least_squares(uv, options);
       const detail::Circle2dFit previous = previous_least_squares(uv, options);
-      INFO("radius " << arc.radius << ", span " << arc.span_deg << ", limit " << limit);
+      const detail::Circle2dFit start = detail::fit_circle_2d_algebraic(uv);
+      const detail::Circle2dFit previous_start = previous_algebraic(uv);
+      CHECK(same_bits(start.centre.data(), previous_start.centre.data(), 2));
+      CHECK(same_bits(&start.radius, &previous_start.radius, 1));
       CHECK(same_bits(mine.centre.data(), previous.centre.data(), 2));
       CHECK(same_bits(&mine.radius, &previous.radius, 1));
       CHECK(same_bits(&mine.ssr, &previous.ssr, 1));
@@ -250,4 +305,42 @@ TEST_CASE("circles on coordinates whose powers overflow are FitErrors, not NaN e
   const CircleFit unit = fit_circle_least_squares(set.points);
   const CircleFit large = fit_circle_least_squares(1e60 * set.points);
   CHECK(large.radius == Approx(1e60 * unit.radius).epsilon(1e-9));
+}
+
+TEST_CASE("2D algebraic start: the collinearity test decides as the eigenvalues always did",
+          "[circle][least_squares][degenerate]") {
+  // Sets on a line, and off it by a relative 1e-15 .. 1e-3 (around the test's threshold and the
+  // bound that skips the eigenvalues): the same outcome as the reference copy, the same bits or
+  // the same message (which quotes the rms across and the extent).
+  const auto outcome = [](auto&& fit, const Eigen::Matrix2Xd& uv) -> std::string {
+    try {
+      const detail::Circle2dFit f = fit(uv);
+      char text[80];
+      std::snprintf(text, sizeof text, "%a %a %a", f.centre.x(), f.centre.y(), f.radius);
+      return text;
+    } catch (const FitError& e) {
+      return e.what();
+    }
+  };
+  int tested_lines = 0, tested_circles = 0;
+  for (const double bump : {0.0, 1e-15, 1e-12, 1e-9, 1e-7, 1e-6, 1e-5, 1e-3}) {
+    for (const int count : {3, 4, 11, 60}) {
+      Eigen::Matrix2Xd uv(2, count);
+      for (int i = 0; i < count; ++i) {
+        const double s = static_cast<double>(i) / (count - 1);
+        // A line through (3, -2) at 30 degrees, 40 mm long, its middle point moved across it.
+        const double across = (i == count / 2) ? bump * 40.0 : 0.0;
+        uv.col(i) = Eigen::Vector2d(3.0, -2.0) + 40.0 * s * Eigen::Vector2d(0.8660254037844386, 0.5) +
+                    across * Eigen::Vector2d(-0.5, 0.8660254037844386);
+      }
+      const std::string mine = outcome(&detail::fit_circle_2d_algebraic, uv);
+      const std::string previous = outcome(&previous_algebraic, uv);
+      INFO("bump " << bump << ", " << count << " points");
+      CHECK(mine == previous);
+      (mine.find("straight line") != std::string::npos ? tested_lines : tested_circles)++;
+    }
+  }
+  // Both outcomes occur (the cases straddle the threshold).
+  CHECK(tested_lines > 0);
+  CHECK(tested_circles > 0);
 }

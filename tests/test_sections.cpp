@@ -4,7 +4,9 @@
 #include <catch2/catch.hpp>
 
 #include <Eigen/Geometry>
+#include <algorithm>
 #include <cmath>
+#include <cstring>
 #include <limits>
 #include <random>
 #include <vector>
@@ -87,6 +89,44 @@ TEST_CASE("section circles reproduce the known centres of a bent bore", "[sectio
     CHECK(s.circle.normal.dot(bore.axis.direction) > 0.0);  // normals follow the axis
     CHECK((s.circle.centre - bore.axis.point).dot(bore.axis.direction) ==
           Approx(bore.heights[k]).margin(1e-9));
+  }
+}
+
+TEST_CASE("sections without the summary's account: the same circles and warnings",
+          "[sections][least_squares]") {
+  // FitOptions::result_messages off (a Monte Carlo trial) leaves the summary's one-line account
+  // empty and changes nothing else: every circle compared by its bits with the account on,
+  // with skipped sections (too few points, an empty level) among fitted ones.
+  const BentBore bore = make_bent_bore();
+  std::vector<double> heights = bore.heights;
+  heights.insert(heights.begin() + 2, 11.0);  // between two levels: no points
+  heights.push_back(100.0);                   // beyond the bore
+  SectionOptions on;
+  on.half_thickness = 0.5;
+  SectionOptions off = on;
+  off.fit.result_messages = false;
+  const SectionsResult a = fit_sections_least_squares(bore.points, bore.axis, heights, on);
+  const SectionsResult b = fit_sections_least_squares(bore.points, bore.axis, heights, off);
+  CHECK_THAT(a.summary.message, Contains("5 of 7 sections"));
+  CHECK(b.summary.message.empty());
+  CHECK(a.summary.warnings == b.summary.warnings);
+  CHECK(a.summary.warnings.size() == 2);
+  CHECK(a.summary.point_count == b.summary.point_count);
+  CHECK(a.summary.iterations == b.summary.iterations);
+  REQUIRE(a.sections.size() == 5);
+  REQUIRE(b.sections.size() == a.sections.size());
+  const auto same = [](const auto& x, const auto& y) {
+    return std::memcmp(x.data(), y.data(), sizeof(double) * static_cast<std::size_t>(x.size())) == 0;
+  };
+  for (std::size_t k = 0; k < a.sections.size(); ++k) {
+    const CircleFit& x = a.sections[k].circle;
+    const CircleFit& y = b.sections[k].circle;
+    CHECK(a.sections[k].height == b.sections[k].height);
+    CHECK(same(x.centre, y.centre));
+    CHECK(same(x.normal, y.normal));
+    CHECK(std::memcmp(&x.radius, &y.radius, sizeof(double)) == 0);
+    CHECK(same(x.residuals.values, y.residuals.values));
+    CHECK(x.residuals.values.size() == 36);
   }
 }
 
@@ -194,6 +234,27 @@ TEST_CASE("section membership by one search per point equals the test of every p
     check(t, few, 1e-3);
     check(t, few, 4.0);
   }
+  SECTION("the direct test of a few sections: odd and even counts, boundaries, signed zeros") {
+    // Up to 8 sections every pair is tested, two points at a time: every count of points from
+    // 0 to 9 and 1001 (a last point alone), points exactly on a boundary and next to it.
+    const std::vector<double> heights = {0.0, -5.0, 2.5, -0.0, 7.25, -5.0, 1e-300, 3.0};
+    for (std::size_t m = 1; m <= heights.size(); ++m) {
+      const std::vector<double> some(heights.begin(), heights.begin() + m);
+      for (const std::size_t n : {0, 1, 2, 3, 4, 5, 6, 7, 8, 9, 1001}) {
+        std::vector<double> t(n);
+        for (std::size_t i = 0; i < n; ++i) {
+          const double base = some[i % m];
+          t[i] = i % 5 == 0   ? base + 0.75
+                 : i % 5 == 1 ? std::nextafter(base - 0.75, -1e9)
+                 : i % 5 == 2 ? -0.0
+                 : i % 5 == 3 ? 0.0
+                              : height(rng);
+        }
+        check(t, some, 0.75);
+        check(t, some, 0.0);
+      }
+    }
+  }
   SECTION("non-finite heights, points or half thickness take the direct test") {
     const double inf = std::numeric_limits<double>::infinity();
     const double nan = std::numeric_limits<double>::quiet_NaN();
@@ -204,6 +265,53 @@ TEST_CASE("section membership by one search per point equals the test of every p
     check({-3.0, 0.0, 2.0}, {}, 1.0);
     check({}, {1.0, 2.0}, 1.0);
   }
+}
+
+TEST_CASE("a section's members one, two and four points at a time: the scalar test's",
+          "[sections]") {
+  // Reference: the test |t - h| <= half of every point in turn (the loop of the direct path
+  // before it took points in lanes). Every lane width this processor runs, every point count
+  // from 0 to 9 and 1001, points on and next to the boundaries, signed zeros, infinities and
+  // NaN among the points, and zero, infinite and NaN half thicknesses.
+  const double inf = std::numeric_limits<double>::infinity();
+  const double nan = std::numeric_limits<double>::quiet_NaN();
+  std::mt19937_64 rng(77);
+  std::uniform_real_distribution<double> height(-3.0, 3.0);
+  std::vector<detail::MemberLanes> widths = {detail::MemberLanes::scalar};
+  if (detail::member_lanes() != detail::MemberLanes::scalar) widths.push_back(detail::MemberLanes::sse2);
+  if (detail::member_lanes() == detail::MemberLanes::avx2) widths.push_back(detail::MemberLanes::avx2);
+  int members = 0;
+  for (const double h : {0.0, -0.0, 1.25, -inf, nan})
+    for (const double half : {0.5, 0.0, inf, nan})
+      for (const std::size_t n : {0, 1, 2, 3, 4, 5, 6, 7, 8, 9, 1001}) {
+        std::vector<double> t(n);
+        for (std::size_t i = 0; i < n; ++i) {
+          const double base = std::isfinite(h) ? h : 0.0;
+          const double b = std::isfinite(half) ? half : 1.0;
+          switch (i % 7) {
+            case 0: t[i] = base + b; break;
+            case 1: t[i] = std::nextafter(base - b, -inf); break;
+            case 2: t[i] = -0.0; break;
+            case 3: t[i] = i % 2 ? inf : -inf; break;
+            case 4: t[i] = i % 3 ? nan : 0.0; break;
+            default: t[i] = height(rng);
+          }
+        }
+        std::vector<std::size_t> expected;
+        for (std::size_t i = 0; i < n; ++i)
+          if (std::abs(t[i] - h) <= half) expected.push_back(i);
+        members += static_cast<int>(expected.size());
+        for (const detail::MemberLanes lanes : widths) {
+          std::vector<std::size_t> got = {7};  // appended after what the list holds
+          detail::append_members(t.data(), n, h, half, lanes, got);
+          INFO("h " << h << ", half " << half << ", n " << n << ", lanes "
+                    << static_cast<int>(lanes));
+          REQUIRE(got.size() == expected.size() + 1);
+          CHECK(got.front() == 7);
+          CHECK(std::equal(expected.begin(), expected.end(), got.begin() + 1));
+        }
+      }
+  CHECK(members > 1000);  // the cases have members, not only empty lists
 }
 
 TEST_CASE("levels of heights already sorted equal find_section_levels' to the bit",

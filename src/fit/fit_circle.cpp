@@ -3,8 +3,13 @@
 // J. Res. NIST 103(6), section on 3D circles).
 #include <Eigen/Cholesky>
 #include <Eigen/Eigenvalues>
+#include <algorithm>
 #include <cmath>
 #include <string>
+
+#if defined(__SSE2__)
+#include <emmintrin.h>
+#endif
 
 #include "cylzone/core/errors.hpp"
 #include "cylzone/fit/fit_circle.hpp"
@@ -15,14 +20,29 @@ namespace cylzone {
 namespace detail {
 namespace {
 
+#if defined(__SSE2__)
+/// The two lanes of each of three paired sums, low first: a's into a0, a1, b's, c's.
+void split_lanes(__m128d a, __m128d b, __m128d c, double& a0, double& a1, double& b0, double& b1,
+                 double& c0, double& c1) {
+  a0 = _mm_cvtsd_f64(a);
+  a1 = _mm_cvtsd_f64(_mm_unpackhi_pd(a, a));
+  b0 = _mm_cvtsd_f64(b);
+  b1 = _mm_cvtsd_f64(_mm_unpackhi_pd(b, b));
+  c0 = _mm_cvtsd_f64(c);
+  c1 = _mm_cvtsd_f64(_mm_unpackhi_pd(c, c));
+}
+#endif
+
 // Centred statistics of a 2D set, gathered in one pass: centroid, the largest distance from it,
-// the spread perpendicular to the principal direction (for the collinearity test) and the
-// normal equations of the algebraic (Kasa) circle on the centred points.
+// whether the set lies on a straight line (the collinearity test, with the spread along and
+// across the principal direction where it was needed) and the normal equations of the
+// algebraic (Kasa) circle on the centred points.
 struct PlanarSpread {
   Eigen::Vector2d centroid;
   double scale = 0.0;
-  double along_rms = 0.0;    // rms along the principal direction
-  double across_rms = 0.0;   // rms perpendicular to it
+  bool on_a_line = false;    // across_rms <= degenerate_spread_ratio * along_rms
+  double along_rms = 0.0;    // rms along the principal direction (0 when not needed)
+  double across_rms = 0.0;   // rms perpendicular to it (0 when not needed)
   Eigen::Matrix3d ata;       // sum a a^T with a = (x, y, 1), centred coordinates
   Eigen::Vector3d atb;       // sum a b with b = -(x^2 + y^2)
 };
@@ -35,8 +55,36 @@ PlanarSpread planar_spread(const Eigen::Matrix2Xd& uv) {
   // 1 are exact), and the largest squared distance with one square root at the end (sqrt is
   // monotone and correctly rounded, so that is the largest distance to the bit).
   double xx = 0, xy = 0, yy = 0, sx = 0, sy = 0, bx = 0, by = 0, b = 0, largest2 = 0;
-  for (Eigen::Index i = 0; i < uv.cols(); ++i) {
-    const double x = uv(0, i) - s.centroid.x(), y = uv(1, i) - s.centroid.y();
+  const Eigen::Index count = uv.cols();
+  const double* q = uv.data();
+  Eigen::Index i = 0;
+#if defined(__SSE2__)
+  {
+    // The x and y sums of a point side by side in the two lanes of one SSE2 operation: each
+    // lane rounds as the scalar instruction does, and every sum takes its terms in the same
+    // order as the scalar loop below, so the same bits (test_fit_circle compares them with a
+    // copy of that loop).
+    const __m128d centre = _mm_loadu_pd(s.centroid.data());
+    __m128d squares = _mm_setzero_pd(), sums = _mm_setzero_pd(), moments = _mm_setzero_pd();
+    // A pointer, not an index, walks the points (fewer instructions a point).
+    for (const double *a = q, *end = q + 2 * count; a != end; a += 2) {
+      const __m128d p = _mm_sub_pd(_mm_loadu_pd(a), centre);  // (x, y)
+      const __m128d p2 = _mm_mul_pd(p, p);                              // (x x, y y)
+      const double r2 = _mm_cvtsd_f64(p2) + _mm_cvtsd_f64(_mm_unpackhi_pd(p2, p2));
+      squares = _mm_add_pd(squares, p2);
+      xy += _mm_cvtsd_f64(p) * _mm_cvtsd_f64(_mm_unpackhi_pd(p, p));
+      sums = _mm_add_pd(sums, p);
+      const double minus_r2 = -r2;
+      moments = _mm_add_pd(moments, _mm_mul_pd(p, _mm_set1_pd(minus_r2)));
+      b += minus_r2;
+      largest2 = std::max(largest2, r2);
+    }
+    i = count;
+    split_lanes(squares, sums, moments, xx, yy, sx, sy, bx, by);
+  }
+#endif
+  for (; i < count; ++i) {
+    const double x = q[2 * i] - s.centroid.x(), y = q[2 * i + 1] - s.centroid.y();
     const double r2 = x * x + y * y;
     xx += x * x;
     xy += x * y;
@@ -52,11 +100,22 @@ PlanarSpread planar_spread(const Eigen::Matrix2Xd& uv) {
   s.scale = std::sqrt(largest2);
   s.ata << xx, xy, sx, xy, yy, sy, sx, sy, n;
   s.atb << bx, by, b;
+  // The collinearity test compares the scatter matrix's eigenvalues, lambda_0 <= lambda_1. Its
+  // determinant bounds the smaller one: lambda_0 = det / lambda_1 >= det / trace. Where the
+  // computed det is at least 1e-6 trace^2 (its rounding is a few eps trace^2), lambda_0 is at
+  // least about 1e-6 lambda_1, far above the test's 1e-20 and above the eigensolver's error
+  // (eps times the matrix norm, Golub and Van Loan, Matrix Computations, 4th ed., 2013, 8.1.2
+  // and 8.3): the test fails whatever the solver returns, so it is not run (only the message
+  // of a set on a line reads the two rms). A full circle's det / trace^2 is about 1/4; NaN or
+  // overflowed sums fail this bound and take the solver.
+  const double trace = xx + yy;
+  if (xx * yy - xy * xy > 1e-6 * (trace * trace)) return s;
   Eigen::Matrix2d m;
   m << xx, xy, xy, yy;
   const Eigen::SelfAdjointEigenSolver<Eigen::Matrix2d> eigen(m, Eigen::EigenvaluesOnly);
   s.across_rms = std::sqrt(std::max(0.0, eigen.eigenvalues()(0)) / n);
   s.along_rms = std::sqrt(std::max(0.0, eigen.eigenvalues()(1)) / n);
+  s.on_a_line = s.across_rms <= degenerate_spread_ratio * s.along_rms;
   return s;
 }
 
@@ -66,7 +125,7 @@ namespace {
 
 /// fit_circle_2d_algebraic from the set's spread (planar_spread(uv)).
 Circle2dFit algebraic_from_spread(const Eigen::Matrix2Xd& uv, const PlanarSpread& spread) {
-  if (spread.across_rms <= degenerate_spread_ratio * spread.along_rms)
+  if (spread.on_a_line)
     throw FitError("the points lie on a straight line (rms " +
                    format_number(spread.across_rms, 9) + " mm off it over " +
                    format_number(2.0 * spread.scale, 6) +
@@ -106,14 +165,46 @@ Circle2dFit fit_circle_2d_least_squares(const Eigen::Matrix2Xd& uv, const FitOpt
   // d_i = |q_i - c| - r, J_i = (-(q_i - c)/|q_i - c|, -1) (Forbes 1989, 2D circle). J^T J
   // and J^T d summed entry by entry: J^T J is symmetric (j_a j_b = j_b j_a exactly), and the
   // products with J's last column -1 are exact (-j_0, -j_1, 1, -d), so each sum is the same
-  // sequence of roundings as the full outer product's J^T J += j j^T, J^T d += j d, with 10
-  // sums a point instead of 12 and no product by -1 (tests/test_fit_circle.cpp compares the
-  // two bit for bit).
+  // sequence of roundings as the full outer product's J^T J += j j^T, J^T d += j d, with 9
+  // sums a point instead of 12 and no product by -1: the sum of 1.0 a point is the point
+  // count, exactly (below 2^53) (tests/test_fit_circle.cpp compares the two bit for bit).
+  const Eigen::Index count = uv.cols();
+  const double* q = uv.data();
   auto evaluate = [&](const Eigen::Vector3d& p, Eigen::Matrix3d& jtj, Eigen::Vector3d& jtr) {
-    double s00 = 0.0, s01 = 0.0, s11 = 0.0, s02 = 0.0, s12 = 0.0, s22 = 0.0;
+    double s00 = 0.0, s01 = 0.0, s11 = 0.0, s02 = 0.0, s12 = 0.0;
     double r0 = 0.0, r1 = 0.0, r2 = 0.0, ssr = 0.0;
-    for (Eigen::Index i = 0; i < uv.cols(); ++i) {
-      const double dx = uv(0, i) - origin.x() - p(0), dy = uv(1, i) - origin.y() - p(1);
+    Eigen::Index i = 0;
+#if defined(__SSE2__)
+    {
+      // The x and y terms of a point side by side in the two lanes of one SSE2 operation
+      // (dx, dy; j0, j1; s00, s11; s02, s12; r0, r1): each lane rounds as the scalar
+      // instruction does and every sum takes its terms in the scalar loop's order, so the same
+      // bits (-dx * inv is (-dx) * inv, and s + (-j) is s - j, exactly; test_fit_circle
+      // compares every figure with a copy of the scalar computation).
+      const __m128d offset = _mm_set_pd(origin.y(), origin.x());
+      const __m128d centre = _mm_set_pd(p(1), p(0));
+      const __m128d sign = _mm_set1_pd(-0.0);
+      __m128d squares = _mm_setzero_pd(), sums = _mm_setzero_pd(), moments = _mm_setzero_pd();
+      for (const double *a = q, *end = q + 2 * count; a != end; a += 2) {
+        const __m128d dxy = _mm_sub_pd(_mm_sub_pd(_mm_loadu_pd(a), offset), centre);
+        const __m128d d2 = _mm_mul_pd(dxy, dxy);
+        const double rho = std::sqrt(_mm_cvtsd_f64(d2) + _mm_cvtsd_f64(_mm_unpackhi_pd(d2, d2)));
+        const double d = rho - p(2);
+        const double inv = rho > 0.0 ? 1.0 / rho : 0.0;
+        const __m128d j = _mm_mul_pd(_mm_xor_pd(dxy, sign), _mm_set1_pd(inv));  // (j0, j1)
+        squares = _mm_add_pd(squares, _mm_mul_pd(j, j));
+        s01 += _mm_cvtsd_f64(j) * _mm_cvtsd_f64(_mm_unpackhi_pd(j, j));
+        sums = _mm_sub_pd(sums, j);
+        moments = _mm_add_pd(moments, _mm_mul_pd(j, _mm_set1_pd(d)));
+        r2 -= d;
+        ssr += d * d;
+      }
+      i = count;
+      split_lanes(squares, sums, moments, s00, s11, s02, s12, r0, r1);
+    }
+#endif
+    for (; i < count; ++i) {
+      const double dx = q[2 * i] - origin.x() - p(0), dy = q[2 * i + 1] - origin.y() - p(1);
       const double rho = std::sqrt(dx * dx + dy * dy);
       const double d = rho - p(2);
       const double inv = rho > 0.0 ? 1.0 / rho : 0.0;
@@ -123,12 +214,12 @@ Circle2dFit fit_circle_2d_least_squares(const Eigen::Matrix2Xd& uv, const FitOpt
       s11 += j1 * j1;
       s02 += -j0;
       s12 += -j1;
-      s22 += 1.0;
       r0 += j0 * d;
       r1 += j1 * d;
       r2 += -d;
       ssr += d * d;
     }
+    const double s22 = static_cast<double>(count);
     jtj << s00, s01, s02, s01, s11, s12, s02, s12, s22;
     jtr << r0, r1, r2;
     return ssr;

@@ -10,6 +10,19 @@
 
 namespace cylzone::detail {
 
+/// How append_members tests the points: one at a time, two (SSE2) or four (AVX2) per step.
+enum class MemberLanes { scalar, sse2, avx2 };
+
+/// The widest MemberLanes this processor runs (scalar where the build has no x86 lanes).
+MemberLanes member_lanes();
+
+/// Appends to `index`, in increasing order, the points i < n with std::abs(t[i] - h) <= half,
+/// exactly as that test decides (the lanes compute t - h, clear the sign bit as std::abs does,
+/// and compare with <= half, false for NaN, as the scalar test; the remaining points one at
+/// a time). `lanes` no wider than member_lanes().
+void append_members(const double* t, std::size_t n, double h, double half, MemberLanes lanes,
+                    std::vector<std::size_t>& index);
+
 /// Every section's points as one list: section k's are index[start[k] .. start[k + 1]), in
 /// increasing order.
 struct SectionMembers {
