@@ -50,10 +50,27 @@ bool newton_step(const Eigen::MatrixXd& jacobian, const Eigen::VectorXd& residua
     dz = lu.solve(-residual);
     return true;
   }
-  Eigen::Matrix<double, small_lu_max_size, small_lu_max_size> factor;
+  using Factor = Eigen::Matrix<double, small_lu_max_size, small_lu_max_size>;
+  Factor factor;
   factor.topLeftCorner(n, n) = jacobian;
   int p[small_lu_max_size], q[small_lu_max_size];
-  if (!full_piv_lu_in_place(factor, n, p, q) || !full_piv_lu_invertible(factor, n)) return false;
+  // The contacts' systems have p + sides + contacts unknowns: 6 to 12 for an axis (4
+  // parameters), fewer for a plane or circle. With n known at compile time the LU's loops are
+  // unrolled (the same operations in the same order: the same bits, tests/test_small_lu.cpp).
+  bool factored;
+  switch (n) {
+    case 4: factored = full_piv_lu_in_place<4>(factor, n, p, q); break;
+    case 5: factored = full_piv_lu_in_place<5>(factor, n, p, q); break;
+    case 6: factored = full_piv_lu_in_place<6>(factor, n, p, q); break;
+    case 7: factored = full_piv_lu_in_place<7>(factor, n, p, q); break;
+    case 8: factored = full_piv_lu_in_place<8>(factor, n, p, q); break;
+    case 9: factored = full_piv_lu_in_place<9>(factor, n, p, q); break;
+    case 10: factored = full_piv_lu_in_place<10>(factor, n, p, q); break;
+    case 11: factored = full_piv_lu_in_place<11>(factor, n, p, q); break;
+    case 12: factored = full_piv_lu_in_place<12>(factor, n, p, q); break;
+    default: factored = full_piv_lu_in_place(factor, n, p, q); break;
+  }
+  if (!factored || !full_piv_lu_invertible(factor, n)) return false;
   double minus[small_lu_max_size];
   for (int i = 0; i < n; ++i) minus[i] = -residual(i);
   dz.resize(n);
