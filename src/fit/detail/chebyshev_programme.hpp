@@ -123,16 +123,22 @@ class ZoneProgramme {
   const std::vector<Constraint>& violated_rows(const double* x, const Eigen::VectorXd& d,
                                                const Eigen::MatrixXd& g, double u0, double l0,
                                                double delta);
+  /// Where the rows (c, count) were set, the first of the upper rows of largest d and the
+  /// first of the lower rows of least d (their places in c; -1 where that side has none).
+  struct ExtremeRows {
+    long top = -1, bottom = -1;
+  };
   /// Rows first .. first + count - 1 (appended by DenseLp::append_rows) set to constraints
-  /// c[0 .. count - 1] in the dense solver's form a.(y, R', r') <= b.
+  /// c[0 .. count - 1] in the dense solver's form a.(y, R', r') <= b; with `extremes`, the
+  /// extreme rows found in the same pass (the first basis' rows).
   void set_dense_rows(DenseLp::Id first, const Constraint* c, std::size_t count,
                       const Eigen::VectorXd& d, const Eigen::MatrixXd& g, double u0, double l0,
-                      double delta);
+                      double delta, ExtremeRows* extremes = nullptr);
   /// set_dense_rows for P step columns and N columns in all (compile-time: loops unrolled).
   template <int P, int N>
   void set_dense_rows_of(DenseLp::Id first, const Constraint* c, std::size_t count,
                          const Eigen::VectorXd& d, const Eigen::MatrixXd& g, double u0, double l0,
-                         double delta);
+                         double delta, ExtremeRows* extremes);
 
   ZoneObjective objective_;
   ZoneOptions options_;
