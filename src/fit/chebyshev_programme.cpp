@@ -41,6 +41,24 @@ void release(std::vector<T>& v) {
 void release(Eigen::VectorXd& v) { v.resize(0); }
 }  // namespace
 
+void row_l1_norms(const Eigen::MatrixXd& g, Eigen::VectorXd& out) {
+  const Eigen::Index n = g.rows(), p = g.cols();
+  // Above 4 columns Eigen's vectorised partial reduction adds them in pairs (its four-way
+  // unrolled loop), another order: that expression itself then.
+  if (p == 0 || p > 4) {
+    out = g.cwiseAbs().rowwise().sum();
+    return;
+  }
+  out.resize(n);
+  double* __restrict o = out.data();
+  const double* column = g.data();
+  for (Eigen::Index i = 0; i < n; ++i) o[i] = std::abs(column[i]);
+  for (Eigen::Index k = 1; k < p; ++k) {
+    column = g.data() + k * n;
+    for (Eigen::Index i = 0; i < n; ++i) o[i] += std::abs(column[i]);
+  }
+}
+
 // A row can bind (or be violated) only when (U0 - d_i)/Delta <= |g_i|_1 + |g_top|_1 (the top
 // point's row is always present, so R' >= g_top.y >= -|g_top|_1, and |g_i.y| <= |g_i|_1): rows
 // outside that band are redundant for this programme and are left out (likewise below).
@@ -457,9 +475,9 @@ bool ZoneProgramme::solve_dense(const Eigen::VectorXd& d, const Eigen::MatrixXd&
                                 LinearStep& result) {
   if (columns_ > DenseLp::max_columns) return false;
   const double u0 = d.maxCoeff(), l0 = d.minCoeff();
-  // The same expression as solve_clp's, evaluated into the programme's scratch.
+  // The sums of solve_clp's expression (row_l1_norms), into the programme's scratch.
   Eigen::VectorXd& g_l1 = g_l1_;
-  g_l1 = g.cwiseAbs().rowwise().sum();
+  row_l1_norms(g, g_l1);
   std::vector<Constraint>& rows = rows_;
   first_rows(d, g_l1, delta, rows);
   // As in load(): the bound columns' box is never active (twice the reach of the rows).

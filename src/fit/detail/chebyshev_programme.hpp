@@ -53,6 +53,14 @@ struct LinearStep {
 /// Rows of the programme in row-major (CSR) form, as Clp takes them (defined with the solver).
 struct RowBlock;
 
+/// Each row's |g_i|_1 into `out`: the sums of g.cwiseAbs().rowwise().sum(), which Eigen
+/// forms, up to 4 columns (every programme's step: 2 to 4 parameters), for each row from its
+/// first entry, adding the others in column order; here column by column over all rows (one
+/// contiguous pass per column, which the compiler vectorises), each row's sum the same
+/// sequence of roundings. Wider matrices by Eigen's expression (it pairs columns there).
+/// tests/test_dense_lp.cpp compares both bit for bit.
+void row_l1_norms(const Eigen::MatrixXd& g, Eigen::VectorXd& out);
+
 /// The linearised problem at one element, in scaled variables y = x / Delta (|y_k| <= 1) and
 /// bounds R' = (R - U0) / Delta, r' = (r - L0) / Delta, with U0, L0 the current largest and
 /// smallest distance. Every row then reads  (d_i - U0)/Delta + g_i.y <= R'  (upper) or
