@@ -418,6 +418,13 @@ void ZoneProgramme::set_dense_rows_of(DenseLp::Id first, const Constraint* c, st
   // right-hand sides, computed the same way, as one call per row. The extreme rows are the
   // first of largest (least) d in row order: a later row only where strictly beyond.
   const int p = P > 0 ? P : p_;
+  // The bound columns follow the step's: at a compile-time shape their places are constants
+  // (P, and P + 1 where both bounds are columns), so the constant entries fold into the row's
+  // norm (the same products and sums in the same order).
+  constexpr bool shaped = P > 0 && N > 0;
+  const int uc = shaped ? P : upper_col_;
+  const int lc = shaped ? (N == P + 2 ? P + 1 : P) : lower_col_;
+  const bool both = shaped ? N == P + 2 : upper_col_ >= 0 && lower_col_ >= 0;
   const double* gk[DenseLp::max_columns] = {};
   for (int k = 0; k < p; ++k) gk[k] = g.data() + static_cast<std::ptrdiff_t>(k) * g.rows();
   double a[DenseLp::max_columns] = {};
@@ -428,8 +435,8 @@ void ZoneProgramme::set_dense_rows_of(DenseLp::Id first, const Constraint* c, st
     const double di = d(i);
     if (c[r].side == Side::upper) {  // g_i.y - R' <= -(d_i - U0)/Delta
       for (int k = 0; k < p; ++k) a[k] = gk[k][i];
-      a[upper_col_] = -1.0;
-      if (lower_col_ >= 0) a[lower_col_] = 0.0;
+      a[uc] = -1.0;
+      if (both) a[lc] = 0.0;
       dense_.set_row_of<N>(first + static_cast<DenseLp::Id>(r), a, -(di - u0) / delta);
       if (top < 0 || di > top_d) {
         top = static_cast<long>(r);
@@ -437,8 +444,8 @@ void ZoneProgramme::set_dense_rows_of(DenseLp::Id first, const Constraint* c, st
       }
     } else {  // g_i.y - r' >= -(d_i - L0)/Delta, i.e. -g_i.y + r' <= (d_i - L0)/Delta
       for (int k = 0; k < p; ++k) a[k] = -gk[k][i];
-      a[lower_col_] = 1.0;
-      if (upper_col_ >= 0) a[upper_col_] = 0.0;
+      a[lc] = 1.0;
+      if (both) a[uc] = 0.0;
       dense_.set_row_of<N>(first + static_cast<DenseLp::Id>(r), a, (di - l0) / delta);
       if (bottom < 0 || di < bottom_d) {
         bottom = static_cast<long>(r);
