@@ -368,6 +368,41 @@ TEST_CASE("the dense solver's row pricing chooses as the plain loop over the row
   }
 }
 
+TEST_CASE("the rows' l1 norms have the bits of Eigen's row-wise sum of magnitudes",
+          "[dense-lp]") {
+  // Reference: Eigen's g.cwiseAbs().rowwise().sum(), the expression row_l1_norms replaces in
+  // the dense programme (memcmp: signed zeros, infinities and NaN included), for 1 to 8
+  // columns and 0 to 301 rows (odd and even), entries of mixed scales and exact ties.
+  std::mt19937_64 rng(20261209);
+  std::normal_distribution<double> gauss(0.0, 1.0);
+  int compared = 0;
+  for (int trial = 0; trial < 400; ++trial) {
+    const Eigen::Index n = static_cast<Eigen::Index>(rng() % 302);
+    const Eigen::Index p = 1 + static_cast<Eigen::Index>(trial % 8);
+    Eigen::MatrixXd g(n, p);
+    for (Eigen::Index i = 0; i < n; ++i)
+      for (Eigen::Index k = 0; k < p; ++k) {
+        switch (rng() % 8) {
+          case 0: g(i, k) = -0.0; break;
+          case 1: g(i, k) = 0.1; break;  // ties, inexact in binary
+          case 2: g(i, k) = std::ldexp(gauss(rng), static_cast<int>(rng() % 120) - 60); break;
+          default: g(i, k) = gauss(rng);
+        }
+      }
+    if (n > 0 && trial % 10 == 0) g(0, 0) = std::numeric_limits<double>::infinity();
+    if (n > 1 && trial % 10 == 1) g(1, p - 1) = std::numeric_limits<double>::quiet_NaN();
+    const Eigen::VectorXd expected = g.cwiseAbs().rowwise().sum();
+    Eigen::VectorXd sums(3);  // resized by the call
+    detail::zone_lp::row_l1_norms(g, sums);
+    REQUIRE(sums.size() == n);
+    INFO("trial " << trial << ": " << n << " rows, " << p << " columns");
+    CHECK(std::memcmp(sums.data(), expected.data(), sizeof(double) * static_cast<std::size_t>(n)) ==
+          0);
+    ++compared;
+  }
+  CHECK(compared == 400);
+}
+
 TEST_CASE("dense LP: infeasible rows end in failure", "[dense-lp]") {
   // x <= -1 and x >= 1 cannot both hold: the dual simplex finds no leaving constraint.
   DenseLp lp;
@@ -459,6 +494,76 @@ TEST_CASE("dense LP: random programmes of the engine's shape agree with Clp",
   // The comparison of steps must not be vacuous, nor the degenerate programmes absent.
   CHECK(unique > total / 3);
   CHECK(degenerate > 100);
+}
+
+TEST_CASE("dense LP: a seeded first basis is used only where its rows are in the working set",
+          "[dense-lp][chebyshev]") {
+  // A seed (the contacts of an earlier optimum) is the dense solver's first basis only where
+  // every seeded row is in the programme's working set. A seed with a row outside it (a point
+  // far from its zone bound at a small trust region) must leave the programme exactly as
+  // unseeded (the extreme rows' first basis: the same bits); a seed of the programme's own
+  // optimal rows must reach Clp's optimum (the reference, as above).
+  std::mt19937_64 rng(20261207);
+  int absent = 0, present = 0;
+  for (int trial = 0; trial < 300; ++trial)
+    for (ZoneObjective objective : {ZoneObjective::minimum_zone, ZoneObjective::maximum_inscribed,
+                                    ZoneObjective::minimum_circumscribed}) {
+      Programme prog = random_programme(rng, trial, objective);
+      // Every candidate in the working set (no seeded rows joined to it), and a trust region
+      // small enough that the far side's points are no candidates of the near side.
+      if (prog.d.size() > 400 || prog.d.size() < 12) continue;
+      prog.delta = 1e-3 * std::max(prog.d.maxCoeff() - prog.d.minCoeff(), 1e-6);
+      const int columns = columns_of(prog);
+      const Side side =
+          objective == ZoneObjective::maximum_inscribed ? Side::lower : Side::upper;
+      Eigen::Index far = 0;  // the point farthest from that side's bound
+      if (side == Side::upper)
+        prog.d.minCoeff(&far);
+      else
+        prog.d.maxCoeff(&far);
+      ZoneOptions options;
+      options.lp_solver = LpSolver::dense;
+      const Solved plain = solve_with(prog, LpSolver::dense);
+      INFO("trial " << trial << " " << prog.kind << " n " << prog.d.size() << " objective "
+                    << static_cast<int>(objective));
+      REQUIRE(plain.fallbacks == 0);
+
+      // The far point's row at a random place among other points' rows.
+      std::vector<detail::zone_lp::Constraint> seed;
+      const int at = static_cast<int>(rng() % static_cast<unsigned>(columns));
+      for (int j = 0; j < columns; ++j) {
+        const Eigen::Index point =
+            j == at ? far : static_cast<Eigen::Index>((far + 1 + j) % prog.d.size());
+        seed.push_back({point, side});
+      }
+      ZoneProgramme seeded(objective, options, prog.d.size(), static_cast<int>(prog.g.cols()));
+      seeded.seed(seed);
+      const detail::zone_lp::LinearStep s = seeded.solve(prog.d, prog.g, prog.delta);
+      CHECK(seeded.fallbacks() == 0);
+      CHECK(std::memcmp(s.step.data(), plain.step.step.data(),
+                        sizeof(double) * static_cast<std::size_t>(s.step.size())) == 0);
+      CHECK(std::memcmp(&s.predicted, &plain.step.predicted, sizeof(double)) == 0);
+      CHECK(seeded.multipliers() == plain.multipliers);
+      bool same_rows = seeded.binding().size() == plain.binding.size();
+      for (std::size_t j = 0; same_rows && j < plain.binding.size(); ++j)
+        same_rows = seeded.binding()[j].point == plain.binding[j].point &&
+                    seeded.binding()[j].side == plain.binding[j].side;
+      CHECK(same_rows);
+      ++absent;
+
+      // The optimum's own rows, where they fill a basis: the warm start from them.
+      if (static_cast<int>(plain.binding.size()) != columns) continue;
+      ZoneProgramme warm(objective, options, prog.d.size(), static_cast<int>(prog.g.cols()));
+      warm.seed(plain.binding);
+      const detail::zone_lp::LinearStep w = warm.solve(prog.d, prog.g, prog.delta);
+      const Solved clp = solve_with(prog, LpSolver::clp);
+      CHECK(warm.fallbacks() == 0);
+      CHECK(std::abs(w.predicted - clp.step.predicted) / prog.delta <=
+            1e-12 * std::max(1.0, clp.step.predicted / prog.delta));
+      ++present;
+    }
+  CHECK(absent > 300);
+  CHECK(present > 50);
 }
 
 // ------------------------------------------------------------------ fits with either solver

@@ -1328,3 +1328,55 @@ TEST_CASE("a minimum-zone plane started from an earlier fit ends on the known op
     CHECK(std::abs((fit.point - point).dot(tilted)) < agreement);
   }
 }
+
+TEST_CASE("an axis-zone model given the centroid and scale is the model that computes them",
+          "[chebyshev]") {
+  // The fits pass the centroid and data_scale they already hold (fit_cylinder_chebyshev); the
+  // reference is the constructor that computes both itself: the same distances and gradients,
+  // bit for bit (memcmp), at the start and after steps, on bores of several shapes and on
+  // coincident points (scale 0: tilts in units of 1).
+  std::mt19937_64 rng(20261208);
+  std::normal_distribution<double> gauss(0.0, 1.0);
+  int compared = 0;
+  for (int trial = 0; trial < 40; ++trial) {
+    const Eigen::Index n = 5 + static_cast<Eigen::Index>(rng() % 300);
+    Eigen::Matrix3Xd points(3, n);
+    const bool coincident = trial % 10 == 9;
+    for (Eigen::Index i = 0; i < n; ++i) {
+      const double a = 2.0 * 3.14159265358979323846 * static_cast<double>(i) /
+                       static_cast<double>(n);
+      points.col(i) = coincident ? Eigen::Vector3d(1.0, -2.0, 3.0)
+                                 : Eigen::Vector3d(100.0 + (5.0 + 0.01 * gauss(rng)) * std::cos(a),
+                                                   -40.0 + (5.0 + 0.01 * gauss(rng)) * std::sin(a),
+                                                   20.0 * gauss(rng));
+    }
+    const Axis start{Eigen::Vector3d(100.0 + 0.1 * gauss(rng), -40.0, 0.0),
+                     Eigen::Vector3d(0.01 * gauss(rng), 0.01 * gauss(rng), 1.0).normalized()};
+    const Eigen::Vector3d c = detail::centroid(points);
+    const double scale = detail::data_scale(points, c);
+    if (coincident) CHECK(scale == 0.0);
+    detail::AxisZoneModel own(points, start);
+    detail::AxisZoneModel given(points, start, c, scale);
+    for (int step = 0; step < 4; ++step) {
+      Eigen::VectorXd x = Eigen::VectorXd::Zero(4);
+      if (step > 0)
+        for (int k = 0; k < 4; ++k) x(k) = 1e-3 * gauss(rng);
+      Eigen::VectorXd d_own, d_given;
+      Eigen::MatrixXd g_own, g_given;
+      own.evaluate(x, d_own, &g_own);
+      given.evaluate(x, d_given, &g_given);
+      REQUIRE(d_own.size() == n);
+      REQUIRE(d_given.size() == n);
+      CHECK(std::memcmp(d_own.data(), d_given.data(), sizeof(double) * n) == 0);
+      CHECK(std::memcmp(g_own.data(), g_given.data(), sizeof(double) * 4 * n) == 0);
+      const Axis a = own.axis(), b = given.axis();
+      CHECK(std::memcmp(a.point.data(), b.point.data(), sizeof(double) * 3) == 0);
+      CHECK(std::memcmp(a.direction.data(), b.direction.data(), sizeof(double) * 3) == 0);
+      CHECK(own.location_offset() == given.location_offset());
+      own.move(x);  // the next step from the moved element
+      given.move(x);
+      ++compared;
+    }
+  }
+  CHECK(compared == 160);
+}

@@ -38,26 +38,47 @@ ZoneObjective zone_objective(FitMethod method) {
 
 namespace {
 
-/// dz = -J^-1 residual; false where J is singular as FullPivLU::isInvertible() decides. Up to
-/// small_lu_max_size unknowns by the small LU (fit/detail/small_lu.hpp: Eigen's FullPivLU's
-/// operations without its set-up, the same bits; tests/test_small_lu.cpp), above by FullPivLU.
-bool newton_step(const Eigen::MatrixXd& jacobian, const Eigen::VectorXd& residual,
-                 Eigen::VectorXd& dz) {
-  const int n = static_cast<int>(jacobian.rows());
-  if (n > small_lu_max_size) {
-    const Eigen::FullPivLU<Eigen::MatrixXd> lu(jacobian);
-    if (!lu.isInvertible()) return false;
-    dz = lu.solve(-residual);
-    return true;
-  }
-  Eigen::Matrix<double, small_lu_max_size, small_lu_max_size> factor;
-  factor.topLeftCorner(n, n) = jacobian;
+/// The Jacobian's storage up to small_lu_max_size unknowns: assembled in place in its top left
+/// block (column stride small_lu_max_size) and factorised there.
+using SmallFactor = Eigen::Matrix<double, small_lu_max_size, small_lu_max_size>;
+
+/// dz = -J^-1 residual for the n x n Jacobian in the top left block of `factor` (n <=
+/// small_lu_max_size), factorised in place; false where J is singular as
+/// FullPivLU::isInvertible() decides. The small LU (fit/detail/small_lu.hpp) runs Eigen's
+/// FullPivLU's operations without its set-up: the same bits (tests/test_small_lu.cpp).
+bool small_newton_step(SmallFactor& factor, int n, const Eigen::VectorXd& residual,
+                       Eigen::VectorXd& dz) {
   int p[small_lu_max_size], q[small_lu_max_size];
-  if (!full_piv_lu_in_place(factor, n, p, q) || !full_piv_lu_invertible(factor, n)) return false;
+  // The contacts' systems have p + sides + contacts unknowns: 6 to 12 for an axis (4
+  // parameters), fewer for a plane or circle. With n known at compile time the LU's loops are
+  // unrolled (the same operations in the same order: the same bits, tests/test_small_lu.cpp).
+  bool factored;
+  switch (n) {
+    case 4: factored = full_piv_lu_in_place<4>(factor, n, p, q); break;
+    case 5: factored = full_piv_lu_in_place<5>(factor, n, p, q); break;
+    case 6: factored = full_piv_lu_in_place<6>(factor, n, p, q); break;
+    case 7: factored = full_piv_lu_in_place<7>(factor, n, p, q); break;
+    case 8: factored = full_piv_lu_in_place<8>(factor, n, p, q); break;
+    case 9: factored = full_piv_lu_in_place<9>(factor, n, p, q); break;
+    case 10: factored = full_piv_lu_in_place<10>(factor, n, p, q); break;
+    case 11: factored = full_piv_lu_in_place<11>(factor, n, p, q); break;
+    case 12: factored = full_piv_lu_in_place<12>(factor, n, p, q); break;
+    default: factored = full_piv_lu_in_place(factor, n, p, q); break;
+  }
+  if (!factored || !full_piv_lu_invertible(factor, n)) return false;
   double minus[small_lu_max_size];
   for (int i = 0; i < n; ++i) minus[i] = -residual(i);
   dz.resize(n);
   full_piv_lu_solve(factor, n, p, q, minus, dz.data());
+  return true;
+}
+
+/// dz = -J^-1 residual above small_lu_max_size unknowns, by Eigen's FullPivLU.
+bool large_newton_step(const Eigen::MatrixXd& jacobian, const Eigen::VectorXd& residual,
+                       Eigen::VectorXd& dz) {
+  const Eigen::FullPivLU<Eigen::MatrixXd> lu(jacobian);
+  if (!lu.isInvertible()) return false;
+  dz = lu.solve(-residual);
   return true;
 }
 
@@ -69,7 +90,8 @@ struct PolishScratch {
   std::vector<double> weight;
   std::vector<Eigen::Index> indices;
   Eigen::VectorXd z, d, d_plus, d_minus, residual, x, e, dz, all;
-  Eigen::MatrixXd g, g_plus, g_minus, jacobian;
+  Eigen::MatrixXd g, g_plus, g_minus, jacobian;  // jacobian: above small_lu_max_size only
+  SmallFactor factor;                             // the Jacobian up to small_lu_max_size
   std::vector<double> hessian;
 };
 
@@ -152,9 +174,13 @@ bool polish_on_contacts(ZoneModel& model, ZoneObjective objective,
   const double h = 1e-6 * scale;  // central-difference step for the Hessians
   // Both set to zero at the top of every iteration before they are filled.
   Eigen::VectorXd& residual = scratch.residual;
+  // The Jacobian in the small factor's top left block (column stride small_lu_max_size),
+  // factorised where it is assembled; a larger one in a matrix of its own for FullPivLU.
+  const bool small = unknowns <= small_lu_max_size;
   Eigen::MatrixXd& jacobian = scratch.jacobian;
   residual.resize(unknowns);
-  jacobian.resize(unknowns, unknowns);
+  if (!small) jacobian.resize(unknowns, unknowns);
+  const Eigen::Index stride = small ? Eigen::Index(small_lu_max_size) : unknowns;
   // Each contact's p x p Hessian, column-major, one after the other (contact k's at k p p):
   // every entry is written in every iteration before it is read.
   const std::size_t pp = static_cast<std::size_t>(p) * static_cast<std::size_t>(p);
@@ -187,8 +213,8 @@ bool polish_on_contacts(ZoneModel& model, ZoneObjective objective,
     }
     local->evaluate(x, d, &g);
     residual.setZero();
-    jacobian.setZero();
-    double* J = jacobian.data();
+    double* J = small ? scratch.factor.data() : jacobian.data();
+    for (Eigen::Index c = 0; c < unknowns; ++c) std::fill(J + c * stride, J + c * stride + u, 0.0);
     for (int s = 0; s < sides; ++s) residual(p + s) = -1.0;
     for (int k = 0; k < m; ++k) {
       const Side side = active[static_cast<std::size_t>(k)].side;
@@ -200,13 +226,15 @@ bool polish_on_contacts(ZoneModel& model, ZoneObjective objective,
       residual(row) = d(k) - z(t);
       const double* hk = hessian.data() + static_cast<std::size_t>(k) * pp;
       for (int c = 0; c < p; ++c)
-        for (int r = 0; r < p; ++r) J[r + c * u] += w * hk[r + c * p];
-      for (int i = 0; i < p; ++i) J[i + row * u] = sg * g(k, i);
-      J[t + row * u] = 1.0;
-      for (int i = 0; i < p; ++i) J[row + i * u] = g(k, i);
-      J[row + t * u] = -1.0;
+        for (int r = 0; r < p; ++r) J[r + c * stride] += w * hk[r + c * p];
+      for (int i = 0; i < p; ++i) J[i + row * stride] = sg * g(k, i);
+      J[t + row * stride] = 1.0;
+      for (int i = 0; i < p; ++i) J[row + i * stride] = g(k, i);
+      J[row + t * stride] = -1.0;
     }
-    if (!newton_step(jacobian, residual, dz)) return false;
+    if (!(small ? small_newton_step(scratch.factor, static_cast<int>(unknowns), residual, dz)
+                : large_newton_step(jacobian, residual, dz)))
+      return false;
     if (!dz.allFinite() || dz.head(p).lpNorm<Eigen::Infinity>() > scale) return false;
     z += dz;
     settled = dz.head(p).lpNorm<Eigen::Infinity>() <= 1e-15 * scale;

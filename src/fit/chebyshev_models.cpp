@@ -23,9 +23,9 @@ namespace {
 inline double inverse_or_zero(double x) { return x > 0.0 ? 1.0 / x : 0.0; }
 
 // The size used to turn tilts into lengths: the data's extent, never zero.
+double tilt_scale_from(double data_scale) { return data_scale > 0.0 ? data_scale : 1.0; }
 double tilt_scale_of(const Eigen::Matrix3Xd& points, const Eigen::Vector3d& centroid) {
-  const double s = data_scale(points, centroid);
-  return s > 0.0 ? s : 1.0;
+  return tilt_scale_from(data_scale(points, centroid));
 }
 
 }  // namespace
@@ -97,6 +97,12 @@ AxisZoneModel::AxisZoneModel(const Eigen::Matrix3Xd& points, const Axis& start)
     : points_(points) {
   centroid_ = detail::centroid(*points_);
   tilt_scale_ = tilt_scale_of(*points_, centroid_);
+  set_frame(start.point, start.direction);
+}
+
+AxisZoneModel::AxisZoneModel(const Eigen::Matrix3Xd& points, const Axis& start,
+                             const Eigen::Vector3d& centroid, double data_scale)
+    : points_(points), centroid_(centroid), tilt_scale_(tilt_scale_from(data_scale)) {
   set_frame(start.point, start.direction);
 }
 

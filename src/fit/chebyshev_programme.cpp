@@ -41,6 +41,24 @@ void release(std::vector<T>& v) {
 void release(Eigen::VectorXd& v) { v.resize(0); }
 }  // namespace
 
+void row_l1_norms(const Eigen::MatrixXd& g, Eigen::VectorXd& out) {
+  const Eigen::Index n = g.rows(), p = g.cols();
+  // Above 4 columns Eigen's vectorised partial reduction adds them in pairs (its four-way
+  // unrolled loop), another order: that expression itself then.
+  if (p == 0 || p > 4) {
+    out = g.cwiseAbs().rowwise().sum();
+    return;
+  }
+  out.resize(n);
+  double* __restrict o = out.data();
+  const double* column = g.data();
+  for (Eigen::Index i = 0; i < n; ++i) o[i] = std::abs(column[i]);
+  for (Eigen::Index k = 1; k < p; ++k) {
+    column = g.data() + k * n;
+    for (Eigen::Index i = 0; i < n; ++i) o[i] += std::abs(column[i]);
+  }
+}
+
 // A row can bind (or be violated) only when (U0 - d_i)/Delta <= |g_i|_1 + |g_top|_1 (the top
 // point's row is always present, so R' >= g_top.y >= -|g_top|_1, and |g_i.y| <= |g_i|_1): rows
 // outside that band are redundant for this programme and are left out (likewise below).
@@ -394,42 +412,64 @@ LinearStep ZoneProgramme::solve_clp(const Eigen::VectorXd& d, const Eigen::Matri
 template <int P, int N>
 void ZoneProgramme::set_dense_rows_of(DenseLp::Id first, const Constraint* c, std::size_t count,
                                       const Eigen::VectorXd& d, const Eigen::MatrixXd& g,
-                                      double u0, double l0, double delta) {
+                                      double u0, double l0, double delta,
+                                      ExtremeRows* extremes) {
   // One loop over the rows with the gradient columns' addresses held: the same coefficients and
-  // right-hand sides, computed the same way, as one call per row.
+  // right-hand sides, computed the same way, as one call per row. The extreme rows are the
+  // first of largest (least) d in row order: a later row only where strictly beyond.
   const int p = P > 0 ? P : p_;
+  // The bound columns follow the step's: at a compile-time shape their places are constants
+  // (P, and P + 1 where both bounds are columns), so the constant entries fold into the row's
+  // norm (the same products and sums in the same order).
+  constexpr bool shaped = P > 0 && N > 0;
+  const int uc = shaped ? P : upper_col_;
+  const int lc = shaped ? (N == P + 2 ? P + 1 : P) : lower_col_;
+  const bool both = shaped ? N == P + 2 : upper_col_ >= 0 && lower_col_ >= 0;
   const double* gk[DenseLp::max_columns] = {};
   for (int k = 0; k < p; ++k) gk[k] = g.data() + static_cast<std::ptrdiff_t>(k) * g.rows();
   double a[DenseLp::max_columns] = {};
+  long top = -1, bottom = -1;
+  double top_d = 0.0, bottom_d = 0.0;
   for (std::size_t r = 0; r < count; ++r) {
     const Eigen::Index i = c[r].point;
+    const double di = d(i);
     if (c[r].side == Side::upper) {  // g_i.y - R' <= -(d_i - U0)/Delta
       for (int k = 0; k < p; ++k) a[k] = gk[k][i];
-      a[upper_col_] = -1.0;
-      if (lower_col_ >= 0) a[lower_col_] = 0.0;
-      dense_.set_row_of<N>(first + static_cast<DenseLp::Id>(r), a, -(d(i) - u0) / delta);
+      a[uc] = -1.0;
+      if (both) a[lc] = 0.0;
+      dense_.set_row_of<N>(first + static_cast<DenseLp::Id>(r), a, -(di - u0) / delta);
+      if (top < 0 || di > top_d) {
+        top = static_cast<long>(r);
+        top_d = di;
+      }
     } else {  // g_i.y - r' >= -(d_i - L0)/Delta, i.e. -g_i.y + r' <= (d_i - L0)/Delta
       for (int k = 0; k < p; ++k) a[k] = -gk[k][i];
-      a[lower_col_] = 1.0;
-      if (upper_col_ >= 0) a[upper_col_] = 0.0;
-      dense_.set_row_of<N>(first + static_cast<DenseLp::Id>(r), a, (d(i) - l0) / delta);
+      a[lc] = 1.0;
+      if (both) a[uc] = 0.0;
+      dense_.set_row_of<N>(first + static_cast<DenseLp::Id>(r), a, (di - l0) / delta);
+      if (bottom < 0 || di < bottom_d) {
+        bottom = static_cast<long>(r);
+        bottom_d = di;
+      }
     }
   }
+  if (extremes) *extremes = {top, bottom};
 }
 
 void ZoneProgramme::set_dense_rows(DenseLp::Id first, const Constraint* c, std::size_t count,
                                    const Eigen::VectorXd& d, const Eigen::MatrixXd& g, double u0,
-                                   double l0, double delta) {
+                                   double l0, double delta, ExtremeRows* extremes) {
   // The shapes of the fits' programmes: an axis (4 step columns) or a circle's or plane's
   // centre (2 or 3), with one or two zone bounds; any other shape by the general loop.
   const int sides = columns_ - p_;
-  if (p_ == 4 && sides == 1) return set_dense_rows_of<4, 5>(first, c, count, d, g, u0, l0, delta);
-  if (p_ == 4 && sides == 2) return set_dense_rows_of<4, 6>(first, c, count, d, g, u0, l0, delta);
-  if (p_ == 3 && sides == 1) return set_dense_rows_of<3, 4>(first, c, count, d, g, u0, l0, delta);
-  if (p_ == 3 && sides == 2) return set_dense_rows_of<3, 5>(first, c, count, d, g, u0, l0, delta);
-  if (p_ == 2 && sides == 1) return set_dense_rows_of<2, 3>(first, c, count, d, g, u0, l0, delta);
-  if (p_ == 2 && sides == 2) return set_dense_rows_of<2, 4>(first, c, count, d, g, u0, l0, delta);
-  set_dense_rows_of<0, 0>(first, c, count, d, g, u0, l0, delta);
+  auto set = &ZoneProgramme::set_dense_rows_of<0, 0>;
+  if (p_ == 4) set = sides == 1 ? &ZoneProgramme::set_dense_rows_of<4, 5>
+                                : &ZoneProgramme::set_dense_rows_of<4, 6>;
+  if (p_ == 3) set = sides == 1 ? &ZoneProgramme::set_dense_rows_of<3, 4>
+                                : &ZoneProgramme::set_dense_rows_of<3, 5>;
+  if (p_ == 2) set = sides == 1 ? &ZoneProgramme::set_dense_rows_of<2, 3>
+                                : &ZoneProgramme::set_dense_rows_of<2, 4>;
+  (this->*set)(first, c, count, d, g, u0, l0, delta, extremes);
 }
 
 // The programme of solve_clp with the dense dual simplex: the same working set and constraint
@@ -442,9 +482,9 @@ bool ZoneProgramme::solve_dense(const Eigen::VectorXd& d, const Eigen::MatrixXd&
                                 LinearStep& result) {
   if (columns_ > DenseLp::max_columns) return false;
   const double u0 = d.maxCoeff(), l0 = d.minCoeff();
-  // The same expression as solve_clp's, evaluated into the programme's scratch.
+  // The sums of solve_clp's expression (row_l1_norms), into the programme's scratch.
   Eigen::VectorXd& g_l1 = g_l1_;
-  g_l1 = g.cwiseAbs().rowwise().sum();
+  row_l1_norms(g, g_l1);
   std::vector<Constraint>& rows = rows_;
   first_rows(d, g_l1, delta, rows);
   // As in load(): the bound columns' box is never active (twice the reach of the rows).
@@ -467,17 +507,10 @@ bool ZoneProgramme::solve_dense(const Eigen::VectorXd& d, const Eigen::MatrixXd&
   int filled = 0;
   // Sum of the basis rows' y-normals (at most max_columns entries: no allocation).
   DenseLp::Vector balance = DenseLp::Vector::Zero(p_);
-  long top = -1, bottom = -1;
   const DenseLp::Id first = dense_.append_rows(rows.size());
-  set_dense_rows(first, rows.data(), rows.size(), d, g, u0, l0, delta);
-  for (std::size_t r = 0; r < rows.size(); ++r) {
-    const Constraint& c = rows[r];
-    if (c.side == Side::upper && (top < 0 || d(c.point) > d(rows[static_cast<std::size_t>(top)].point)))
-      top = static_cast<long>(r);
-    if (c.side == Side::lower &&
-        (bottom < 0 || d(c.point) < d(rows[static_cast<std::size_t>(bottom)].point)))
-      bottom = static_cast<long>(r);
-  }
+  ExtremeRows extremes;  // found while the rows are set
+  set_dense_rows(first, rows.data(), rows.size(), d, g, u0, l0, delta, &extremes);
+  const long top = extremes.top, bottom = extremes.bottom;
   if (upper_col_ >= 0) {
     if (top < 0) return false;
     basis[filled++] = top;
@@ -502,6 +535,11 @@ bool ZoneProgramme::solve_dense(const Eigen::VectorXd& d, const Eigen::MatrixXd&
       warm[j] = e.bound;
       continue;
     }
+    // A row is in the working set exactly where its point is marked a member on its side, so
+    // the search (which would run through every row to fail) is made only where it finds it.
+    const auto& member = e.constraint.side == Side::upper ? in_upper_ : in_lower_;
+    warm_ok = member[static_cast<std::size_t>(e.constraint.point)] != 0;
+    if (!warm_ok) break;
     const auto at = std::find_if(rows.begin(), rows.end(), [&](const Constraint& c) {
       return c.point == e.constraint.point && c.side == e.constraint.side;
     });

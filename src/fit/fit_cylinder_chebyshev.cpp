@@ -15,12 +15,12 @@
 namespace cylzone {
 namespace {
 
-CylinderFit cylinder_result(const Eigen::Matrix3Xd& points, const Axis& axis,
-                            const detail::ZoneSummary& zone, FitMethod method,
+/// `centroid`: detail::centroid(points), which every caller has already computed.
+CylinderFit cylinder_result(const Eigen::Matrix3Xd& points, const Eigen::Vector3d& centroid,
+                            const Axis& axis, const detail::ZoneSummary& zone, FitMethod method,
                             const FitOptions& options) {
   CylinderFit fit;
-  fit.axis = detail::canonical_axis(axis.point, axis.direction, detail::centroid(points),
-                                    options.axis_hint);
+  fit.axis = detail::canonical_axis(axis.point, axis.direction, centroid, options.axis_hint);
   std::tie(fit.extent_min, fit.extent_max) = detail::axial_extent(points, fit.axis);
   fit.radius = detail::zone_radius(detail::zone_objective(method), zone.distances);
   // Reported only (FitOptions::result_coverage): the refusal of an unbounded inscribed
@@ -62,7 +62,7 @@ CylinderFit fit_fixed_direction(const Eigen::Matrix3Xd& points, const FitOptions
     const detail::ZoneSummary zone = detail::solve_zone(model, objective, zone_options);
     // Only a converged descent carries the certificate; otherwise the fit's own start decides.
     if (zone.status != detail::ZoneStatus::converged) return restarted(points, options, method);
-    return cylinder_result(points, Axis{c + basis.leftCols<2>() * model.centre(), direction},
+    return cylinder_result(points, c, Axis{c + basis.leftCols<2>() * model.centre(), direction},
                            zone, method, options);
   }
   const detail::Circle2dFit start = detail::fit_circle_2d_least_squares(uv, options);
@@ -80,8 +80,8 @@ CylinderFit fit_fixed_direction(const Eigen::Matrix3Xd& points, const FitOptions
   const detail::ZoneSummary zone = detail::solve_zone(model, objective, zone_options);
   if (zone.status == detail::ZoneStatus::unbounded)
     detail::throw_unbounded_inscribed("cylinder", start_coverage);
-  return cylinder_result(points, Axis{c + basis.leftCols<2>() * model.centre(), direction}, zone,
-                         method, options);
+  return cylinder_result(points, c, Axis{c + basis.leftCols<2>() * model.centre(), direction},
+                         zone, method, options);
 }
 
 CylinderFit fit_cylinder_chebyshev(const Eigen::Matrix3Xd& points, const FitOptions& options,
@@ -102,27 +102,28 @@ CylinderFit fit_cylinder_chebyshev(const Eigen::Matrix3Xd& points, const FitOpti
         detail::started_zone_options(options, scale, points.cols());
     if (objective == detail::ZoneObjective::maximum_inscribed) zone_options.location_limit = scale;
     detail::require_enclosing_points(objective, "cylinder", options.start->angular_coverage_deg);
-    detail::AxisZoneModel model(points, options.start->axis);
+    detail::AxisZoneModel model(points, options.start->axis, c, scale);
     const detail::ZoneSummary zone = detail::solve_zone(model, objective, zone_options);
     // Only a converged descent carries the certificate; otherwise the fit's own start decides.
     if (zone.status != detail::ZoneStatus::converged) return restarted(points, options, method);
-    return cylinder_result(points, model.axis(), zone, method, options);
+    return cylinder_result(points, c, model.axis(), zone, method, options);
   }
   // The least-squares cylinder checks the points (count, one cross-section) and is the start.
   const CylinderFit start = fit_cylinder_least_squares(points, options);
   const detail::ZoneObjective objective = detail::zone_objective(method);
   detail::require_enclosing_points(objective, "cylinder", start.angular_coverage_deg);
-  const double scale = detail::data_scale(points, detail::centroid(points));
+  const Eigen::Vector3d c = detail::centroid(points);
+  const double scale = detail::data_scale(points, c);
 
   detail::ZoneOptions zone_options = detail::zone_options(options, scale, start.residuals.form);
   // An axis farther than `scale` from the centroid is outside the hull of the points projected
   // along it; shifting it away then increases every distance: the problem is unbounded.
   if (objective == detail::ZoneObjective::maximum_inscribed) zone_options.location_limit = scale;
-  detail::AxisZoneModel model(points, start.axis);
+  detail::AxisZoneModel model(points, start.axis, c, scale);
   const detail::ZoneSummary zone = detail::solve_zone(model, objective, zone_options);
   if (zone.status == detail::ZoneStatus::unbounded)
     detail::throw_unbounded_inscribed("cylinder", start.angular_coverage_deg);
-  return cylinder_result(points, model.axis(), zone, method, options);
+  return cylinder_result(points, c, model.axis(), zone, method, options);
 }
 
 CylinderFit restarted(const Eigen::Matrix3Xd& points, const FitOptions& options,

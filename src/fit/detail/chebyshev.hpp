@@ -159,6 +159,11 @@ class AxisZoneModel final : public ZoneModel {
   /// `points` are borrowed (ModelPoints): they must outlive the model.
   AxisZoneModel(const Eigen::Matrix3Xd& points, const Axis& start);
   AxisZoneModel(Eigen::Matrix3Xd&&, const Axis&) = delete;
+  /// The same model where the caller already holds the points' centroid (detail::centroid)
+  /// and data_scale(points, centroid): they are not computed a second time.
+  AxisZoneModel(const Eigen::Matrix3Xd& points, const Axis& start,
+                const Eigen::Vector3d& centroid, double data_scale);
+  AxisZoneModel(Eigen::Matrix3Xd&&, const Axis&, const Eigen::Vector3d&, double) = delete;
   Eigen::Index point_count() const override { return points_->cols(); }
   int parameter_count() const override { return 4; }
   void evaluate(const Eigen::VectorXd& step, Eigen::VectorXd& distances,

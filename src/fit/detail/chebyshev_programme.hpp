@@ -53,6 +53,14 @@ struct LinearStep {
 /// Rows of the programme in row-major (CSR) form, as Clp takes them (defined with the solver).
 struct RowBlock;
 
+/// Each row's |g_i|_1 into `out`: the sums of g.cwiseAbs().rowwise().sum(), which Eigen
+/// forms, up to 4 columns (every programme's step: 2 to 4 parameters), for each row from its
+/// first entry, adding the others in column order; here column by column over all rows (one
+/// contiguous pass per column, which the compiler vectorises), each row's sum the same
+/// sequence of roundings. Wider matrices by Eigen's expression (it pairs columns there).
+/// tests/test_dense_lp.cpp compares both bit for bit.
+void row_l1_norms(const Eigen::MatrixXd& g, Eigen::VectorXd& out);
+
 /// The linearised problem at one element, in scaled variables y = x / Delta (|y_k| <= 1) and
 /// bounds R' = (R - U0) / Delta, r' = (r - L0) / Delta, with U0, L0 the current largest and
 /// smallest distance. Every row then reads  (d_i - U0)/Delta + g_i.y <= R'  (upper) or
@@ -123,16 +131,22 @@ class ZoneProgramme {
   const std::vector<Constraint>& violated_rows(const double* x, const Eigen::VectorXd& d,
                                                const Eigen::MatrixXd& g, double u0, double l0,
                                                double delta);
+  /// Where the rows (c, count) were set, the first of the upper rows of largest d and the
+  /// first of the lower rows of least d (their places in c; -1 where that side has none).
+  struct ExtremeRows {
+    long top = -1, bottom = -1;
+  };
   /// Rows first .. first + count - 1 (appended by DenseLp::append_rows) set to constraints
-  /// c[0 .. count - 1] in the dense solver's form a.(y, R', r') <= b.
+  /// c[0 .. count - 1] in the dense solver's form a.(y, R', r') <= b; with `extremes`, the
+  /// extreme rows found in the same pass (the first basis' rows).
   void set_dense_rows(DenseLp::Id first, const Constraint* c, std::size_t count,
                       const Eigen::VectorXd& d, const Eigen::MatrixXd& g, double u0, double l0,
-                      double delta);
+                      double delta, ExtremeRows* extremes = nullptr);
   /// set_dense_rows for P step columns and N columns in all (compile-time: loops unrolled).
   template <int P, int N>
   void set_dense_rows_of(DenseLp::Id first, const Constraint* c, std::size_t count,
                          const Eigen::VectorXd& d, const Eigen::MatrixXd& g, double u0, double l0,
-                         double delta);
+                         double delta, ExtremeRows* extremes);
 
   ZoneObjective objective_;
   ZoneOptions options_;

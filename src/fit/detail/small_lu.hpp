@@ -34,25 +34,28 @@ constexpr int small_lu_max_size = 16;
 /// a_ij -= a_ik a_kj; the permutations are the transpositions composed as Eigen composes them.
 /// So the same factor and pivots, bit for bit, without the set-up of Eigen's general class
 /// (its l1 norm, permutation objects, threshold). False (a unfinished) when a pivot is zero.
-/// N > 0: n is N, a compile-time constant, so the compiler can unroll the loops (the same
-/// operations in the same order: the same bits; the dense LP's bases of 4 to 6 columns).
+/// The search for step k + 1's pivot runs inside step k's update of the corner (one pass over
+/// it instead of two; the same entries compared in the same order). N > 0: n is N, a
+/// compile-time constant, so the compiler can unroll the loops (the same operations in the
+/// same order: the same bits; the dense LP's bases of 4 to 6 columns).
 template <int N = 0, typename Square>
 bool full_piv_lu_in_place(Square& a, int n_given, int* p, int* q) {
   const int n = N > 0 ? N : n_given;
+  if (n <= 0) return true;  // nothing to factorise
   int row_swap[small_lu_max_size], col_swap[small_lu_max_size];
-  for (int k = 0; k < n; ++k) {
-    // The pivot: visited column by column, a later entry taken only when strictly larger.
-    int pr = k, pc = k;
-    double biggest = std::abs(a(k, k));
-    for (int j = k; j < n; ++j)
-      for (int i = (j == k ? k + 1 : k); i < n; ++i) {
-        const double v = std::abs(a(i, j));
-        if (v > biggest) {
-          biggest = v;
-          pr = i;
-          pc = j;
-        }
+  // The first pivot: visited column by column, a later entry taken only when strictly larger.
+  int pr = 0, pc = 0;
+  double biggest = std::abs(a(0, 0));
+  for (int j = 0; j < n; ++j)
+    for (int i = (j == 0 ? 1 : 0); i < n; ++i) {
+      const double v = std::abs(a(i, j));
+      if (v > biggest) {
+        biggest = v;
+        pr = i;
+        pc = j;
       }
+    }
+  for (int k = 0; k < n; ++k) {
     if (biggest == 0.0) return false;
     row_swap[k] = pr;
     col_swap[k] = pc;
@@ -62,9 +65,38 @@ bool full_piv_lu_in_place(Square& a, int n_given, int* p, int* q) {
       for (int i = 0; i < n; ++i) std::swap(a(i, k), a(i, pc));
     const double pivot = a(k, k);
     for (int i = k + 1; i < n; ++i) a(i, k) /= pivot;
-    for (int j = k + 1; j < n; ++j) {
+    if (k + 1 == n) break;
+    // The rank-one update of the corner and the next step's pivot search in one pass: the
+    // search visits the updated corner in the order of a separate pass after the update
+    // (column by column, (k+1, k+1) first, a later entry taken only when strictly larger),
+    // and each entry's update reads only row k and column k, which the pass leaves alone, so
+    // the same values, the same comparisons and the same pivots.
+    const int next = k + 1;
+    pr = pc = next;
+    {
+      const double akj = a(k, next);
+      a(next, next) -= akj * a(next, k);
+      biggest = std::abs(a(next, next));
+      for (int i = next + 1; i < n; ++i) {
+        a(i, next) -= akj * a(i, k);
+        const double v = std::abs(a(i, next));
+        if (v > biggest) {
+          biggest = v;
+          pr = i;
+        }
+      }
+    }
+    for (int j = next + 1; j < n; ++j) {
       const double akj = a(k, j);
-      for (int i = k + 1; i < n; ++i) a(i, j) -= akj * a(i, k);
+      for (int i = next; i < n; ++i) {
+        a(i, j) -= akj * a(i, k);
+        const double v = std::abs(a(i, j));
+        if (v > biggest) {
+          biggest = v;
+          pr = i;
+          pc = j;
+        }
+      }
     }
   }
   for (int i = 0; i < n; ++i) p[i] = q[i] = i;
