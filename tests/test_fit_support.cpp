@@ -889,3 +889,43 @@ TEST_CASE("make_residuals decides as with the pass over every value", "[fit_supp
   CHECK(thrown > 100);  // both outcomes were exercised
   CHECK(kept > 100);
 }
+
+TEST_CASE("ArcCoverage moved, grown in a vector and merged gives the sorted angles' coverage",
+          "[fit_support]") {
+  // ArcCoverage's arrays are written once (the bounds) or by a bucket's first point (its
+  // ends) instead of zero-filled first; the prepare stage keeps them in a vector grown by
+  // emplace_back (moved at every growth) and merges per-worker ones. Reference: 360 minus the
+  // largest gap of the sorted libm angles (coverage_by_sorting), exact in this range, on
+  // arcs from 20 to 359 degrees, few and many points, sparse buckets and buckets hit twice.
+  std::mt19937_64 rng(8);
+  std::uniform_real_distribution<double> unit(0.0, 1.0);
+  std::vector<detail::ArcCoverage> arcs;  // no reserve: every growth moves them
+  std::vector<std::vector<double>> xs, ys;
+  for (int k = 0; k < 40; ++k) {
+    const std::size_t n = 2 + static_cast<std::size_t>(k * k * 3);
+    const double arc = (20.0 + 339.0 * unit(rng)) * pi / 180.0;
+    arcs.emplace_back(n);
+    xs.emplace_back();
+    ys.emplace_back();
+    for (std::size_t i = 0; i < n; ++i) {
+      const double a = arc * unit(rng) + (k % 3 == 0 ? 2.0 : 0.0);
+      const double r = 0.5 + unit(rng);
+      xs.back().push_back(r * std::cos(a));
+      ys.back().push_back(r * std::sin(a));
+    }
+  }
+  for (std::size_t k = 0; k < arcs.size(); ++k)
+    for (std::size_t i = 0; i < xs[k].size(); ++i) arcs[k].add(xs[k][i], ys[k][i]);
+  for (std::size_t k = 0; k < arcs.size(); ++k) {
+    INFO("set " << k);
+    CHECK(arcs[k].degrees() == Approx(coverage_by_sorting(xs[k], ys[k])).margin(1e-12));
+    // Split between two accumulators, merged into one of them (its empty buckets take the
+    // other's ends), then moved.
+    detail::ArcCoverage first(xs[k].size()), second(xs[k].size());
+    for (std::size_t i = 0; i < xs[k].size(); ++i)
+      (i % 3 == 0 ? first : second).add(xs[k][i], ys[k][i]);
+    first.merge(second);
+    const detail::ArcCoverage moved = std::move(first);
+    CHECK(moved.degrees() == arcs[k].degrees());
+  }
+}

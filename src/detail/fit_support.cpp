@@ -264,20 +264,21 @@ ArcCoverage::ArcCoverage(std::size_t expected_points)
   const std::size_t buckets =
       exact_ ? std::max<std::size_t>(2, expected_points + (expected_points + 1) / 2)
              : coverage_buckets;
+  buckets_ = buckets;
   per_unit_ = static_cast<double>(buckets) / 4.0;
   // Interleaved (low, high) pairs: one cache line per update.
-  bounds_.resize(2 * buckets);
+  bounds_.reset(new double[2 * buckets]);
   for (std::size_t b = 0; b < buckets; ++b) {
     bounds_[2 * b] = std::numeric_limits<double>::infinity();
     bounds_[2 * b + 1] = -std::numeric_limits<double>::infinity();
   }
-  if (exact_) ends_.resize(buckets);
+  if (exact_) ends_.reset(new Ends[buckets]);
 }
 
 void ArcCoverage::merge(const ArcCoverage& other) {
-  if (other.bounds_.size() != bounds_.size() || other.exact_ != exact_)
+  if (other.buckets_ != buckets_ || other.exact_ != exact_)
     throw std::invalid_argument("ArcCoverage::merge: different bucket layouts");
-  for (std::size_t k = 0; k < bounds_.size(); k += 2) {
+  for (std::size_t k = 0; k < 2 * buckets_; k += 2) {
     if (exact_) {
       const Ends& e = other.ends_[k / 2];
       if (other.bounds_[k] < bounds_[k]) {
@@ -312,8 +313,8 @@ double libm_angle(double x, double y, double diamond) {
 
 double ArcCoverage::degrees() const {
   if (count_ < 2) return 0.0;
-  const std::size_t buckets = bounds_.size() / 2;
-  const double* bound = bounds_.data();
+  const std::size_t buckets = buckets_;
+  const double* bound = bounds_.get();
   std::size_t first_bucket = 0;
   while (!(bound[2 * first_bucket] <= bound[2 * first_bucket + 1])) ++first_bucket;
   // Pseudo-gaps between neighbouring non-empty buckets (and the wrap-around gap). About half
