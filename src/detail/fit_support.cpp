@@ -535,19 +535,20 @@ PrincipalAxes principal_axes(const Eigen::Matrix3Xd& points, const Eigen::Vector
   Eigen::Index i = 0;
 #if defined(__SSE2__)
   {
-    const __m128d v00 = _mm_set1_pd(t00), v01 = _mm_set1_pd(t01), v02 = _mm_set1_pd(t02),
-                  v10 = _mm_set1_pd(t10), v11 = _mm_set1_pd(t11), v12 = _mm_set1_pd(t12),
-                  v20 = _mm_set1_pd(t20), v21 = _mm_set1_pd(t21), v22 = _mm_set1_pd(t22),
-                  vcx = _mm_set1_pd(cx), vcy = _mm_set1_pd(cy), vcz = _mm_set1_pd(cz);
+    // The coefficients and the centre, one per register in both lanes.
+    __m128d t[3][3];
+    for (int k = 0; k < 3; ++k)
+      for (int j = 0; j < 3; ++j) t[k][j] = _mm_set1_pd(dt(k, j));
+    const __m128d c[3] = {_mm_set1_pd(cx), _mm_set1_pd(cy), _mm_set1_pd(cz)};
     for (; i + 2 <= n; i += 2) {
       const double* a = p + 3 * i;
-      const __m128d dx = _mm_set_pd(a[3], a[0]) - vcx, dy = _mm_set_pd(a[4], a[1]) - vcy,
-                    dz = _mm_set_pd(a[5], a[2]) - vcz;
-      const __m128d u = (v00 * dx + v01 * dy) + v02 * dz;
-      const __m128d v = (v10 * dx + v11 * dy) + v12 * dz;
-      const __m128d w = v20 * dx + (v21 * dy + v22 * dz);
+      __m128d d[3];  // coordinate j of points i and i + 1, less the centre's
+      for (int j = 0; j < 3; ++j) d[j] = _mm_set_pd(a[3 + j], a[j]) - c[j];
+      const __m128d u = (t[0][0] * d[0] + t[0][1] * d[1]) + t[0][2] * d[2];
+      const __m128d v = (t[1][0] * d[0] + t[1][1] * d[1]) + t[1][2] * d[2];
+      const __m128d w = t[2][0] * d[0] + (t[2][1] * d[1] + t[2][2] * d[2]);
       const __m128d uu = u * u, vv = v * v, ww = w * w;
-      const __m128d r2 = (dx * dx + dy * dy) + dz * dz;
+      const __m128d r2 = (d[0] * d[0] + d[1] * d[1]) + d[2] * d[2];
       s0 = (s0 + uu[0]) + uu[1];
       s1 = (s1 + vv[0]) + vv[1];
       s2 = (s2 + ww[0]) + ww[1];
