@@ -12,6 +12,7 @@
 #include <catch2/catch.hpp>
 #include <cmath>
 #include <cstdint>
+#include <cstring>
 #include <random>
 #include <vector>
 
@@ -164,4 +165,45 @@ TEST_CASE("constrained least squares fails clearly", "[datum][lsi][errors]") {
                     Contains("2 rows for 3 unknowns"));
   CHECK_THROWS_AS(detail::solve_constrained_least_squares(objective, p.c.leftCols(2), p.d, p.start),
                   FitError);
+}
+
+TEST_CASE("the solver's slacks in their own storage are Eigen's d - C x, bit for bit",
+          "[constrained_least_squares]") {
+  // solve_constrained_least_squares forms the slacks d - C x of every step as d copied into
+  // the slacks' storage and C x subtracted in place (noalias), and C p into one buffer, where
+  // it evaluated the expressions into temporaries before. Reference: those expressions,
+  // compared with memcmp (signed zeros count), on the tangent planes' shapes (m x 3, m x 2)
+  // and others, m from 1 (Eigen's dot-product case) to past its blocking, with exact zeros,
+  // -0.0 (also as d where C x is -0.0) and mixed magnitudes.
+  std::mt19937_64 rng(41);
+  std::normal_distribution<double> g;
+  int compared = 0;
+  for (const Eigen::Index cols : {1, 2, 3, 4, 6}) {
+    for (const Eigen::Index m : {1, 2, 3, 4, 5, 7, 8, 9, 16, 17, 73, 145, 168, 1001}) {
+      for (int rep = 0; rep < 4; ++rep) {
+        Eigen::MatrixXd c(m, cols);
+        Eigen::VectorXd d(m), x(cols);
+        for (Eigen::Index i = 0; i < m; ++i) {
+          d(i) = rep >= 2 && i % 3 == 0 ? -0.0
+                                         : g(rng) * std::pow(10.0, static_cast<double>(i % 7) - 3.0);
+          for (Eigen::Index j = 0; j < cols; ++j)
+            c(i, j) = (i + j) % 5 == 0 ? (rep == 1 ? -0.0 : 0.0) : g(rng);
+          if (rep == 3 && i % 2 == 0) c.row(i).setZero();  // C x = +-0 against d = -0
+        }
+        for (Eigen::Index j = 0; j < cols; ++j) x(j) = (rep == 1 && j == 0) ? -0.0 : g(rng);
+        if (rep == 3) x = -x.cwiseAbs();  // zero rows give -0.0 products
+        const Eigen::VectorXd reference = d - c * x;
+        Eigen::VectorXd slack(m);
+        slack = d;
+        slack.noalias() -= c * x;
+        CHECK(std::memcmp(slack.data(), reference.data(), sizeof(double) * m) == 0);
+        Eigen::VectorXd cp(m);
+        cp.noalias() = c * x;
+        const Eigen::VectorXd cp_reference = c * x;
+        CHECK(std::memcmp(cp.data(), cp_reference.data(), sizeof(double) * m) == 0);
+        ++compared;
+      }
+    }
+  }
+  CHECK(compared == 5 * 14 * 4);
 }

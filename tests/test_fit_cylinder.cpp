@@ -452,3 +452,98 @@ TEST_CASE("FitOptions::result_messages off leaves the message empty and every fi
     CHECK_FALSE(c.summary.message.empty());
   }
 }
+
+TEST_CASE("fit_cylinder_least_squares_axis is the full fit's axis, bit for bit, and its errors",
+          "[cylinder][least_squares]") {
+  // Reference: fit_cylinder_least_squares itself (the axis-only entry skips only the pass at the
+  // solution: residuals, extent, coverage). Null-space reference sets (Forbes & Minh 2012) of
+  // varied arcs, depths, point counts and noise, with and without point vectors, a hint, a
+  // start, an iteration limit and a fixed direction; and the degenerate sets that throw.
+  const auto same_axis = [](const Axis& a, const Axis& b) {
+    return same_bits(a.point.data(), b.point.data(), 3) &&
+           same_bits(a.direction.data(), b.direction.data(), 3);
+  };
+  int compared = 0;
+  std::uint64_t seed = 5;
+  for (const double arc : {360.0, 200.0, 120.0}) {
+    for (const int levels : {2, 3, 7}) {
+      for (const int per_level : {3, 11, 40}) {
+        const Axis truth{{-12.0 + levels, 30.0, 4.0 * per_level},
+                         direction_from_angles(5.0 * levels, 30.0 + arc)};
+        const ReferenceSet set = make_cylinder_reference(truth, 6.0, -10.0, 20.0, levels,
+                                                         per_level, arc, 0.003, ++seed);
+        if (set.points.cols() < 5) continue;
+        FitOptions options;
+        FitOptions hinted;
+        hinted.axis_hint = -truth.direction;
+        FitOptions limited;
+        limited.max_iterations = 1;
+        FitOptions fixed;
+        fixed.fixed_direction = truth.direction;
+        for (const FitOptions* o : {&options, &hinted, &limited, &fixed}) {
+          for (const bool with_vectors : {false, true}) {
+            std::string full_error, axis_error;
+            Axis full_axis, axis;
+            try {
+              full_axis = with_vectors ? fit_cylinder_least_squares(set.points, set.normals, *o).axis
+                                       : fit_cylinder_least_squares(set.points, *o).axis;
+            } catch (const FitError& e) {
+              full_error = e.what();
+            }
+            try {
+              axis = with_vectors ? fit_cylinder_least_squares_axis(set.points, set.normals, *o)
+                                  : fit_cylinder_least_squares_axis(set.points, *o);
+            } catch (const FitError& e) {
+              axis_error = e.what();
+            }
+            REQUIRE(axis_error == full_error);
+            if (full_error.empty()) {
+              REQUIRE(same_axis(axis, full_axis));
+              ++compared;
+            }
+          }
+        }
+        // Started from the full fit of a slightly moved copy (the started path, held).
+        try {
+          FitOptions started;
+          started.start = fit_start(fit_cylinder_least_squares(
+              (set.points.colwise() + Eigen::Vector3d(0.002, -0.001, 0.0)).eval()));
+          REQUIRE(same_axis(fit_cylinder_least_squares_axis(set.points, started),
+                            fit_cylinder_least_squares(set.points, started).axis));
+          ++compared;
+        } catch (const FitError&) {
+          CHECK_THROWS_AS(fit_cylinder_least_squares(set.points), FitError);
+        }
+      }
+    }
+  }
+  CHECK(compared > 200);
+
+  // The errors: one cross-section, coincident points, too few, vectors of another count,
+  // coordinates whose powers overflow.
+  const Eigen::Vector3d w = direction_from_angles(20.0, 30.0);
+  const ReferenceSet ring =
+      make_circle_reference({100.0, 200.0, 300.0}, w, 10.0, 0.0, 360.0, 36, 0.0, 1);
+  Eigen::Matrix3Xd same(3, 6);
+  same.colwise() = Eigen::Vector3d(1, 2, 3);
+  const Axis axis{{15.0, -4.0, 2.0}, direction_from_angles(25.0, 110.0)};
+  const ReferenceSet set = make_cylinder_reference(axis, 8.0, -20.0, 20.0, 5, 24, 360.0, 0.002, 6);
+  for (const Eigen::Matrix3Xd& bad :
+       {ring.points, same, Eigen::Matrix3Xd(set.points.leftCols(4)), Eigen::Matrix3Xd(1e200 * set.points)}) {
+    std::string full_error, axis_error;
+    try {
+      fit_cylinder_least_squares(bad);
+    } catch (const FitError& e) {
+      full_error = e.what();
+    }
+    try {
+      fit_cylinder_least_squares_axis(bad);
+    } catch (const FitError& e) {
+      axis_error = e.what();
+    }
+    CHECK(!full_error.empty());
+    CHECK(axis_error == full_error);
+  }
+  CHECK_THROWS_WITH(fit_cylinder_least_squares_axis(set.points, set.normals.leftCols(5)),
+                    Contains("5 point vectors for 120 points"));
+}

@@ -703,3 +703,229 @@ TEST_CASE("local_coordinates_into gives the bits of local_coordinates", "[fit_su
     }
   }
 }
+
+// scatter_matrix, principal_axes and make_residuals run in every fit of every trial; their
+// passes were rewritten (SSE2 lanes, one pass fewer) without changing a bit of what they
+// return. The references are the previous code, kept here: scatter_matrix's six scalar sums,
+// principal_axes' projection through Eigen's (D^T d).cwiseAbs2() and d.squaredNorm(), and
+// make_residuals' test with allFinite(). Compared with memcmp, so signed zeros count.
+namespace {
+
+Eigen::Matrix3d reference_scatter_matrix(const Eigen::Matrix3Xd& points,
+                                         const Eigen::Vector3d& centre) {
+  double xx = 0, xy = 0, xz = 0, yy = 0, yz = 0, zz = 0;
+  for (Eigen::Index i = 0; i < points.cols(); ++i) {
+    const double x = points(0, i) - centre.x();
+    const double y = points(1, i) - centre.y();
+    const double z = points(2, i) - centre.z();
+    xx += x * x;
+    xy += x * y;
+    xz += x * z;
+    yy += y * y;
+    yz += y * z;
+    zz += z * z;
+  }
+  Eigen::Matrix3d s;
+  s << xx, xy, xz, xy, yy, yz, xz, yz, zz;
+  return s;
+}
+
+detail::PrincipalAxes reference_principal_axes(const Eigen::Matrix3Xd& points,
+                                               const Eigen::Vector3d& centre) {
+  detail::PrincipalAxes axes;
+  const Eigen::SelfAdjointEigenSolver<Eigen::Matrix3d> eigen(
+      reference_scatter_matrix(points, centre));
+  axes.directions = eigen.eigenvectors();
+  Eigen::Vector3d sum2 = Eigen::Vector3d::Zero();
+  double scale2 = 0.0;
+  const Eigen::Matrix3d dt = axes.directions.transpose();
+  for (Eigen::Index i = 0; i < points.cols(); ++i) {
+    const Eigen::Vector3d d = points.col(i) - centre;
+    sum2 += (dt * d).cwiseAbs2();
+    scale2 = std::max(scale2, d.squaredNorm());
+  }
+  const double n = static_cast<double>(std::max<Eigen::Index>(points.cols(), 1));
+  axes.rms = (sum2 / n).cwiseSqrt();
+  axes.scale = std::sqrt(scale2);
+  return axes;
+}
+
+// Outcome of make_residuals or of the previous test: thrown, or the figures.
+struct ResidualsOutcome {
+  bool thrown = false;
+  double rms = 0.0, form = 0.0;
+};
+
+ResidualsOutcome reference_make_residuals(const Eigen::VectorXd& values) {
+  ResidualsOutcome o;
+  if (values.size() > 0) {
+    o.rms = std::sqrt(values.squaredNorm() / static_cast<double>(values.size()));
+    o.form = values.maxCoeff() - values.minCoeff();
+  }
+  o.thrown = !values.allFinite() || !std::isfinite(o.rms) || !std::isfinite(o.form);
+  return o;
+}
+
+template <class T>
+bool same_bits(const T& a, const T& b) {
+  return std::memcmp(&a, &b, sizeof(T)) == 0;
+}
+
+// Test clouds: a bore-like ring with noise, a near-plane, a near-line, points on the centre,
+// -0.0 coordinates, coincident points, odd and even sizes, far from the origin.
+Eigen::Matrix3Xd varied_cloud(std::mt19937_64& rng, int kind, Eigen::Index n) {
+  std::normal_distribution<double> g;
+  std::uniform_real_distribution<double> u(-1.0, 1.0);
+  Eigen::Matrix3Xd p(3, n);
+  const Eigen::Vector3d offset(u(rng) * 400.0, u(rng) * 300.0, u(rng) * 100.0);
+  for (Eigen::Index i = 0; i < n; ++i) {
+    const double t = u(rng) * 3.14159265358979323846;
+    switch (kind % 6) {
+      case 0:  // a bore: radius 5, 40 deep, micrometre noise
+        p.col(i) = offset + Eigen::Vector3d(5.0 * std::cos(t), 5.0 * std::sin(t), 40.0 * u(rng)) +
+                   1e-3 * Eigen::Vector3d(g(rng), g(rng), g(rng));
+        break;
+      case 1:  // nearly a plane
+        p.col(i) = offset + Eigen::Vector3d(50.0 * u(rng), 30.0 * u(rng), 1e-9 * g(rng));
+        break;
+      case 2:  // nearly a line
+        p.col(i) = offset + Eigen::Vector3d(1e-10 * g(rng), 1e-10 * g(rng), 20.0 * u(rng));
+        break;
+      case 3:  // exact zeros and signed zeros about the origin
+        p.col(i) = Eigen::Vector3d(i % 3 == 0 ? -0.0 : u(rng), i % 4 == 0 ? 0.0 : g(rng),
+                                   i % 5 == 0 ? -0.0 : g(rng));
+        break;
+      case 4:  // coincident points
+        p.col(i) = offset;
+        break;
+      default:  // a cloud of all scales
+        p.col(i) = Eigen::Vector3d(g(rng) * std::pow(10.0, 6 * u(rng)), g(rng) * 1e-3, g(rng) * 1e3);
+    }
+  }
+  return p;
+}
+
+}  // namespace
+
+TEST_CASE("scatter_matrix and principal_axes give the previous computation's bits",
+          "[fit_support]") {
+  std::mt19937_64 rng(20261204);
+  int compared = 0;
+  for (int kind = 0; kind < 6; ++kind) {
+    for (Eigen::Index n : {0, 1, 2, 3, 4, 5, 7, 8, 33, 64, 145, 211, 290, 1001}) {
+      for (int rep = 0; rep < 4; ++rep) {
+        const Eigen::Matrix3Xd p = varied_cloud(rng, kind, n);
+        // The centroid, and a centre that is not the centroid (every caller passes a centre).
+        const Eigen::Vector3d c = n > 0 ? detail::centroid(p) : Eigen::Vector3d::Zero();
+        for (const Eigen::Vector3d& centre : {c, Eigen::Vector3d(c + Eigen::Vector3d(0.5, -0.0, 2.0))}) {
+          const Eigen::Matrix3d s = detail::scatter_matrix(p, centre);
+          const Eigen::Matrix3d s_ref = reference_scatter_matrix(p, centre);
+          REQUIRE(std::memcmp(s.data(), s_ref.data(), sizeof(double) * 9) == 0);
+          const detail::PrincipalAxes a = detail::principal_axes(p, centre);
+          const detail::PrincipalAxes a_ref = reference_principal_axes(p, centre);
+          REQUIRE(std::memcmp(a.directions.data(), a_ref.directions.data(), sizeof(double) * 9) == 0);
+          REQUIRE(std::memcmp(a.rms.data(), a_ref.rms.data(), sizeof(double) * 3) == 0);
+          REQUIRE(same_bits(a.scale, a_ref.scale));
+          ++compared;
+        }
+      }
+    }
+  }
+  CHECK(compared == 6 * 14 * 4 * 2);
+  // A non-finite coordinate: the same NaN or infinity where the old code had one.
+  Eigen::Matrix3Xd p = varied_cloud(rng, 0, 9);
+  const Eigen::Vector3d c = detail::centroid(p);
+  p(1, 4) = std::numeric_limits<double>::infinity();
+  const Eigen::Matrix3d s = detail::scatter_matrix(p, c);
+  const Eigen::Matrix3d s_ref = reference_scatter_matrix(p, c);
+  CHECK(std::memcmp(s.data(), s_ref.data(), sizeof(double) * 9) == 0);
+}
+
+TEST_CASE("make_residuals decides as with the pass over every value", "[fit_support]") {
+  std::mt19937_64 rng(77);
+  std::normal_distribution<double> g;
+  const double inf = std::numeric_limits<double>::infinity();
+  const double nan = std::numeric_limits<double>::quiet_NaN();
+  const double big = std::numeric_limits<double>::max();
+  int thrown = 0, kept = 0;
+  for (Eigen::Index n : {0, 1, 2, 3, 4, 5, 6, 7, 8, 9, 31, 64, 211}) {
+    for (int trial = 0; trial < 40; ++trial) {
+      Eigen::VectorXd v(n);
+      for (Eigen::Index i = 0; i < n; ++i) v(i) = g(rng) * 1e-3;
+      if (n > 0) {
+        const auto at = static_cast<Eigen::Index>(rng() % static_cast<std::uint64_t>(n));
+        switch (trial % 10) {
+          case 1: v(at) = nan; break;
+          case 2: v(at) = inf; break;
+          case 3: v(at) = -inf; break;
+          case 4: v(at) = 1e200; break;  // finite, but its square overflows
+          case 5: v(at) = big; v((at + 1) % n) = -big; break;  // the form overflows
+          case 6: v(at) = -0.0; break;
+          case 7: v.setZero(); break;
+          case 8: v(at) = inf; v((at + 1) % n) = -inf; break;
+          default: break;
+        }
+      }
+      const ResidualsOutcome ref = reference_make_residuals(v);
+      ResidualsOutcome got;
+      try {
+        const Residuals r = detail::make_residuals(v);
+        got.rms = r.rms;
+        got.form = r.form;
+        REQUIRE(r.values.size() == n);
+      } catch (const FitError&) {
+        got.thrown = true;
+      }
+      REQUIRE(got.thrown == ref.thrown);
+      if (!ref.thrown) {
+        REQUIRE(same_bits(got.rms, ref.rms));
+        REQUIRE(same_bits(got.form, ref.form));
+        ++kept;
+      } else {
+        ++thrown;
+      }
+    }
+  }
+  CHECK(thrown > 100);  // both outcomes were exercised
+  CHECK(kept > 100);
+}
+
+TEST_CASE("ArcCoverage moved, grown in a vector and merged gives the sorted angles' coverage",
+          "[fit_support]") {
+  // ArcCoverage's arrays are written once (the bounds) or by a bucket's first point (its
+  // ends) instead of zero-filled first; the prepare stage keeps them in a vector grown by
+  // emplace_back (moved at every growth) and merges per-worker ones. Reference: 360 minus the
+  // largest gap of the sorted libm angles (coverage_by_sorting), exact in this range, on
+  // arcs from 20 to 359 degrees, few and many points, sparse buckets and buckets hit twice.
+  std::mt19937_64 rng(8);
+  std::uniform_real_distribution<double> unit(0.0, 1.0);
+  std::vector<detail::ArcCoverage> arcs;  // no reserve: every growth moves them
+  std::vector<std::vector<double>> xs, ys;
+  for (int k = 0; k < 40; ++k) {
+    const std::size_t n = 2 + static_cast<std::size_t>(k * k * 3);
+    const double arc = (20.0 + 339.0 * unit(rng)) * pi / 180.0;
+    arcs.emplace_back(n);
+    xs.emplace_back();
+    ys.emplace_back();
+    for (std::size_t i = 0; i < n; ++i) {
+      const double a = arc * unit(rng) + (k % 3 == 0 ? 2.0 : 0.0);
+      const double r = 0.5 + unit(rng);
+      xs.back().push_back(r * std::cos(a));
+      ys.back().push_back(r * std::sin(a));
+    }
+  }
+  for (std::size_t k = 0; k < arcs.size(); ++k)
+    for (std::size_t i = 0; i < xs[k].size(); ++i) arcs[k].add(xs[k][i], ys[k][i]);
+  for (std::size_t k = 0; k < arcs.size(); ++k) {
+    INFO("set " << k);
+    CHECK(arcs[k].degrees() == Approx(coverage_by_sorting(xs[k], ys[k])).margin(1e-12));
+    // Split between two accumulators, merged into one of them (its empty buckets take the
+    // other's ends), then moved.
+    detail::ArcCoverage first(xs[k].size()), second(xs[k].size());
+    for (std::size_t i = 0; i < xs[k].size(); ++i)
+      (i % 3 == 0 ? first : second).add(xs[k][i], ys[k][i]);
+    first.merge(second);
+    const detail::ArcCoverage moved = std::move(first);
+    CHECK(moved.degrees() == arcs[k].degrees());
+  }
+}

@@ -128,13 +128,23 @@ ConstrainedLeastSquaresSolution solve_constrained_least_squares(
   const double tau = options.feasibility_tolerance;
 
   Eigen::VectorXd x = feasible_start;
-  Eigen::VectorXd slack = bounds - constraints * x;
-  // Rounding allowance of a slack computed from d_i and c_i x.
-  const auto rounding = [&](Eigen::Index i, const Eigen::VectorXd& at) {
-    return 16.0 * eps * (std::abs(bounds(i)) + row_norm(i) * at.norm());
+  // The slacks d - C x. Eigen evaluates that expression as d copied, then C x subtracted by
+  // its matrix-vector kernel with the factor -1 (its rewriting of "a - product"), in a
+  // temporary because the assignment might alias; here the same two steps in the slacks' own
+  // storage: the same values without a temporary per step.
+  Eigen::VectorXd slack(m);
+  const auto set_slack = [&]() {
+    slack = bounds;
+    slack.noalias() -= constraints * x;
+  };
+  set_slack();
+  // Rounding allowance of a slack computed from d_i and c_i x (|x| taken once, not per row).
+  const double start_norm = x.norm();
+  const auto rounding = [&](Eigen::Index i) {
+    return 16.0 * eps * (std::abs(bounds(i)) + row_norm(i) * start_norm);
   };
   for (Eigen::Index i = 0; i < m; ++i) {
-    if (slack(i) < -(tau * row_norm(i) + rounding(i, x)))
+    if (slack(i) < -(tau * row_norm(i) + rounding(i)))
       throw FitError("constrained least squares: the starting point violates constraint " +
                      std::to_string(i) + " by " + std::to_string(-slack(i)));
   }
@@ -144,6 +154,7 @@ ConstrainedLeastSquaresSolution solve_constrained_least_squares(
   bool at_subspace_minimum = false;
   ConstrainedLeastSquaresSolution solution;
   Eigen::VectorXd lambda;
+  Eigen::VectorXd cp(m);  // C p of a step, in one buffer for every step
 
   for (int iteration = 0;; ++iteration) {
     if (iteration > options.max_iterations)
@@ -191,7 +202,7 @@ ConstrainedLeastSquaresSolution solve_constrained_least_squares(
     // Ratio test, two passes (Harris 1973): first the longest step that keeps every constraint
     // within its tolerance, then among the constraints reached by then the one crossed most
     // steeply, which is the best conditioned to add to the working set.
-    const Eigen::VectorXd cp = constraints * p;
+    cp.noalias() = constraints * p;
     const double p_norm = p.norm();
     double alpha_limit = 1.0;
     for (Eigen::Index i = 0; i < m; ++i) {
@@ -222,7 +233,7 @@ ConstrainedLeastSquaresSolution solve_constrained_least_squares(
       working[static_cast<std::size_t>(blocking)] = 1;
       at_subspace_minimum = false;
     }
-    slack = bounds - constraints * x;
+    set_slack();
   }
 
   solution.x = x;

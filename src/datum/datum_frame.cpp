@@ -90,10 +90,11 @@ std::optional<double> own_axis_angle_deg(const PointCloud& cloud, const Eigen::V
   free.fixed_direction.reset();
   free.axis_hint = z;
   try {
-    const CylinderFit cylinder = cloud.has_vectors()
-                                     ? fit_cylinder_least_squares(cloud.points, cloud.vectors, free)
-                                     : fit_cylinder_least_squares(cloud.points, free);
-    return angle_deg(cylinder.axis.direction, z);
+    // Only the axis is read: no residual pass or coverage (the same axis and errors).
+    const Axis axis = cloud.has_vectors()
+                          ? fit_cylinder_least_squares_axis(cloud.points, cloud.vectors, free)
+                          : fit_cylinder_least_squares_axis(cloud.points, free);
+    return angle_deg(axis.direction, z);
   } catch (const FitError&) {
   }
   try {

@@ -116,6 +116,12 @@ TangentSolution<D> tangent_least_squares(const Points<D>& points, Vector<D> outw
   Eigen::VectorXd clearance(n);
   std::vector<char> candidate(static_cast<std::size_t>(n));
   std::vector<Eigen::Index> order(static_cast<std::size_t>(n > full_constraint_limit ? n : 0));
+  // A solve's candidate rows and their constraints, kept across the solves of the fit (the
+  // same entries as fresh ones each time; resized only when the count changes).
+  std::vector<Eigen::Index> rows;
+  rows.reserve(static_cast<std::size_t>(n));
+  Eigen::MatrixXd constraints;
+  Eigen::VectorXd bounds;
   // Height of the plane x above each point (>= 0 when feasible): design x - heights, the
   // product evaluated as Eigen evaluates it inside that expression.
   const auto clearance_of = [&](const Eigen::VectorXd& x) {
@@ -154,12 +160,12 @@ TangentSolution<D> tangent_least_squares(const Points<D>& points, Vector<D> outw
     x(0) = heights.maxCoeff();
     row_norm = design.rowwise().norm();
     for (;;) {
-      std::vector<Eigen::Index> rows;
+      rows.clear();
       for (Eigen::Index i = 0; i < n; ++i)
         if (candidate[static_cast<std::size_t>(i)]) rows.push_back(i);
       const auto m = static_cast<Eigen::Index>(rows.size());
-      Eigen::MatrixXd constraints(m, unknowns);
-      Eigen::VectorXd bounds(m);
+      constraints.resize(m, unknowns);
+      bounds.resize(m);
       for (Eigen::Index k = 0; k < m; ++k) {
         constraints.row(k) = -design.row(rows[static_cast<std::size_t>(k)]);
         bounds(k) = -heights(rows[static_cast<std::size_t>(k)]);

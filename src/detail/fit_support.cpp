@@ -156,8 +156,10 @@ Residuals make_residuals(Eigen::VectorXd values) {
   }
   // Every fit's residuals pass through here, and a non-finite element (centre, axis, normal,
   // radius) makes them non-finite too: this is where a fit that overflowed is stopped, rather
-  // than reported as a number or a null.
-  if (!values.allFinite() || !std::isfinite(r.rms) || !std::isfinite(r.form))
+  // than reported as a number or a null. A non-finite value makes its square, and so the sum
+  // of squares and the rms, NaN or infinite (the squares are never negative, so no infinity
+  // cancels): the rms test decides for every value, with no pass of its own over them.
+  if (!std::isfinite(r.rms) || !std::isfinite(r.form))
     throw FitError(
         "coordinates too large: the residuals overflow double precision (or a coordinate is "
         "not finite); the element cannot be determined");
@@ -262,20 +264,21 @@ ArcCoverage::ArcCoverage(std::size_t expected_points)
   const std::size_t buckets =
       exact_ ? std::max<std::size_t>(2, expected_points + (expected_points + 1) / 2)
              : coverage_buckets;
+  buckets_ = buckets;
   per_unit_ = static_cast<double>(buckets) / 4.0;
   // Interleaved (low, high) pairs: one cache line per update.
-  bounds_.resize(2 * buckets);
+  bounds_.reset(new double[2 * buckets]);
   for (std::size_t b = 0; b < buckets; ++b) {
     bounds_[2 * b] = std::numeric_limits<double>::infinity();
     bounds_[2 * b + 1] = -std::numeric_limits<double>::infinity();
   }
-  if (exact_) ends_.resize(buckets);
+  if (exact_) ends_.reset(new Ends[buckets]);
 }
 
 void ArcCoverage::merge(const ArcCoverage& other) {
-  if (other.bounds_.size() != bounds_.size() || other.exact_ != exact_)
+  if (other.buckets_ != buckets_ || other.exact_ != exact_)
     throw std::invalid_argument("ArcCoverage::merge: different bucket layouts");
-  for (std::size_t k = 0; k < bounds_.size(); k += 2) {
+  for (std::size_t k = 0; k < 2 * buckets_; k += 2) {
     if (exact_) {
       const Ends& e = other.ends_[k / 2];
       if (other.bounds_[k] < bounds_[k]) {
@@ -310,8 +313,8 @@ double libm_angle(double x, double y, double diamond) {
 
 double ArcCoverage::degrees() const {
   if (count_ < 2) return 0.0;
-  const std::size_t buckets = bounds_.size() / 2;
-  const double* bound = bounds_.data();
+  const std::size_t buckets = buckets_;
+  const double* bound = bounds_.get();
   std::size_t first_bucket = 0;
   while (!(bound[2 * first_bucket] <= bound[2 * first_bucket + 1])) ++first_bucket;
   // Pseudo-gaps between neighbouring non-empty buckets (and the wrap-around gap). About half
@@ -463,12 +466,38 @@ std::string format_number(double value, int decimals) {
 }
 
 Eigen::Matrix3d scatter_matrix(const Eigen::Matrix3Xd& points, const Eigen::Vector3d& centre) {
-  // Six independent sums of the upper triangle; one pass, no centred copy of the points.
+  // Six independent sums of the upper triangle; one pass, no centred copy of the points. Each
+  // sum adds its products in point order; with SSE2 the six sums ride in three registers of
+  // two (xx, xy), (xz, yy), (yz, zz), each lane the scalar loop's multiplication and addition
+  // (SSE2 rounds each lane as the scalar instruction does), so the same bits.
   double xx = 0, xy = 0, xz = 0, yy = 0, yz = 0, zz = 0;
-  for (Eigen::Index i = 0; i < points.cols(); ++i) {
-    const double x = points(0, i) - centre.x();
-    const double y = points(1, i) - centre.y();
-    const double z = points(2, i) - centre.z();
+  const Eigen::Index n = points.cols();
+  const double* p = points.data();
+  const double cx = centre.x(), cy = centre.y(), cz = centre.z();
+  Eigen::Index i = 0;
+#if defined(__SSE2__)
+  {
+    const __m128d cxy = _mm_set_pd(cy, cx), cz2 = _mm_set1_pd(cz);
+    __m128d xx_xy = _mm_setzero_pd(), xz_yy = _mm_setzero_pd(), yz_zz = _mm_setzero_pd();
+    for (; i < n; ++i) {
+      const __m128d d = _mm_sub_pd(_mm_loadu_pd(p + 3 * i), cxy);  // (x, y)
+      const __m128d z = _mm_sub_pd(_mm_load1_pd(p + 3 * i + 2), cz2);  // (z, z)
+      xx_xy = _mm_add_pd(xx_xy, _mm_mul_pd(_mm_unpacklo_pd(d, d), d));       // x (x, y)
+      xz_yy = _mm_add_pd(xz_yy, _mm_mul_pd(d, _mm_move_sd(d, z)));           // (x, y) (z, y)
+      yz_zz = _mm_add_pd(yz_zz, _mm_mul_pd(_mm_shuffle_pd(d, z, 1), z));     // (y, z) z
+    }
+    xx = _mm_cvtsd_f64(xx_xy);
+    xy = _mm_cvtsd_f64(_mm_unpackhi_pd(xx_xy, xx_xy));
+    xz = _mm_cvtsd_f64(xz_yy);
+    yy = _mm_cvtsd_f64(_mm_unpackhi_pd(xz_yy, xz_yy));
+    yz = _mm_cvtsd_f64(yz_zz);
+    zz = _mm_cvtsd_f64(_mm_unpackhi_pd(yz_zz, yz_zz));
+  }
+#endif
+  for (; i < n; ++i) {
+    const double x = p[3 * i] - cx;
+    const double y = p[3 * i + 1] - cy;
+    const double z = p[3 * i + 2] - cz;
     xx += x * x;
     xy += x * y;
     xz += x * z;
@@ -488,16 +517,57 @@ PrincipalAxes principal_axes(const Eigen::Matrix3Xd& points, const Eigen::Vector
   // The eigenvalues resolve a spread only down to ~sqrt(eps) of the largest; the eigenvectors
   // are accurate to ~eps, so the spreads are measured by projecting the points on them (an
   // exactly planar or collinear set then shows rounding-level spread, as it must).
-  Eigen::Vector3d sum2 = Eigen::Vector3d::Zero();
-  double scale2 = 0.0;
+  // The operations of Eigen's (D^T d).cwiseAbs2() and d.squaredNorm() for d = p - centre, in
+  // their order: the projections on the first two directions as (t_k0 d0 + t_k1 d1) + t_k2 d2,
+  // on the third as t_20 d0 + (t_21 d1 + t_22 d2) (Eigen's vectorised rows, then its scalar
+  // sum of the last), |d|^2 as (d0^2 + d1^2) + d2^2; each spread summed in point order and the
+  // largest |d|^2 kept as std::max keeps it. Two points per SSE2 operation (each lane rounds as
+  // the scalar instruction does), so the same bits as the Eigen expressions
+  // (test_fit_support compares them with a copy of that code).
   const Eigen::Matrix3d dt = axes.directions.transpose();
-  for (Eigen::Index i = 0; i < points.cols(); ++i) {
-    const Eigen::Vector3d d = points.col(i) - centre;
-    sum2 += (dt * d).cwiseAbs2();
-    scale2 = std::max(scale2, d.squaredNorm());
+  const double t00 = dt(0, 0), t01 = dt(0, 1), t02 = dt(0, 2);
+  const double t10 = dt(1, 0), t11 = dt(1, 1), t12 = dt(1, 2);
+  const double t20 = dt(2, 0), t21 = dt(2, 1), t22 = dt(2, 2);
+  const double cx = centre.x(), cy = centre.y(), cz = centre.z();
+  const Eigen::Index n = points.cols();
+  const double* p = points.data();
+  double s0 = 0.0, s1 = 0.0, s2 = 0.0, scale2 = 0.0;
+  Eigen::Index i = 0;
+#if defined(__SSE2__)
+  {
+    // The coefficients and the centre, one per register in both lanes.
+    __m128d t[3][3];
+    for (int k = 0; k < 3; ++k)
+      for (int j = 0; j < 3; ++j) t[k][j] = _mm_set1_pd(dt(k, j));
+    const __m128d c[3] = {_mm_set1_pd(cx), _mm_set1_pd(cy), _mm_set1_pd(cz)};
+    for (; i + 2 <= n; i += 2) {
+      const double* a = p + 3 * i;
+      __m128d d[3];  // coordinate j of points i and i + 1, less the centre's
+      for (int j = 0; j < 3; ++j) d[j] = _mm_set_pd(a[3 + j], a[j]) - c[j];
+      const __m128d u = (t[0][0] * d[0] + t[0][1] * d[1]) + t[0][2] * d[2];
+      const __m128d v = (t[1][0] * d[0] + t[1][1] * d[1]) + t[1][2] * d[2];
+      const __m128d w = t[2][0] * d[0] + (t[2][1] * d[1] + t[2][2] * d[2]);
+      const __m128d uu = u * u, vv = v * v, ww = w * w;
+      const __m128d r2 = (d[0] * d[0] + d[1] * d[1]) + d[2] * d[2];
+      s0 = (s0 + uu[0]) + uu[1];
+      s1 = (s1 + vv[0]) + vv[1];
+      s2 = (s2 + ww[0]) + ww[1];
+      scale2 = std::max(std::max(scale2, r2[0]), r2[1]);
+    }
   }
-  const double n = static_cast<double>(std::max<Eigen::Index>(points.cols(), 1));
-  axes.rms = (sum2 / n).cwiseSqrt();
+#endif
+  for (; i < n; ++i) {
+    const double dx = p[3 * i] - cx, dy = p[3 * i + 1] - cy, dz = p[3 * i + 2] - cz;
+    const double u = (t00 * dx + t01 * dy) + t02 * dz;
+    const double v = (t10 * dx + t11 * dy) + t12 * dz;
+    const double w = t20 * dx + (t21 * dy + t22 * dz);
+    s0 += u * u;
+    s1 += v * v;
+    s2 += w * w;
+    scale2 = std::max(scale2, (dx * dx + dy * dy) + dz * dz);
+  }
+  const double count = static_cast<double>(std::max<Eigen::Index>(n, 1));
+  axes.rms = (Eigen::Vector3d(s0, s1, s2) / count).cwiseSqrt();
   axes.scale = std::sqrt(scale2);
   return axes;
 }

@@ -8,6 +8,7 @@
 #include <algorithm>
 #include <cmath>
 #include <cstddef>
+#include <memory>
 #include <optional>
 #include <string>
 #include <utility>
@@ -119,9 +120,8 @@ class ArcCoverage {
       a = 1.0 - std::copysign(1.0, x) * (1.0 - p);
       a += 2.0 - 2.0 * std::copysign(1.0, a);
     }
-    const std::size_t b =
-        std::min(bounds_.size() / 2 - 1, static_cast<std::size_t>(a * per_unit_));
-    double* pair = bounds_.data() + 2 * b;
+    const std::size_t b = std::min(buckets_ - 1, static_cast<std::size_t>(a * per_unit_));
+    double* pair = bounds_.get() + 2 * b;
     if (exact_) {
       // Selects, not branches: the first point of a bucket sets both ends, later ones one or
       // none, in no predictable pattern.
@@ -144,15 +144,21 @@ class ArcCoverage {
   double degrees() const;
 
  private:
-  /// The points at a bucket's lowest and highest pseudo-angle (exact range only).
+  /// The points at a bucket's lowest and highest pseudo-angle (exact range only). Left
+  /// unwritten until the bucket's first point, which sets all four (its pseudo-angle is below
+  /// the empty bucket's +inf and above its -inf); only filled buckets' ends are ever read.
   struct Ends {
-    double low_x = 0.0, low_y = 0.0, high_x = 0.0, high_y = 0.0;
+    double low_x, low_y, high_x, high_y;
   };
   bool exact_;
   std::size_t count_ = 0;
-  double per_unit_;             // buckets per pseudo-angle unit
-  std::vector<double> bounds_;  // lowest and highest pseudo-angle of each bucket, interleaved
-  std::vector<Ends> ends_;      // exact range: their points
+  std::size_t buckets_;
+  double per_unit_;  // buckets per pseudo-angle unit
+  // Lowest and highest pseudo-angle of each bucket, interleaved, and (exact range) their
+  // points: arrays written once by the constructor (bounds) or by the first point (ends), not
+  // zero-filled first, which cost more than the fill itself in a small fit's final pass.
+  std::unique_ptr<double[]> bounds_;
+  std::unique_ptr<Ends[]> ends_;
 };
 
 /// Throws FitError "a <element> needs at least <needed> points, got <n>" when n < needed.

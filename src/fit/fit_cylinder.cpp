@@ -431,13 +431,32 @@ FinalPass final_pass(const Eigen::Matrix3Xd& points, const Axis& axis, const Eig
   return f;
 }
 
+/// What a fit computes at its solution: everything (the fit), or the axis alone
+/// (fit_cylinder_least_squares_axis: no residual pass, coverage, covariance or messages).
+enum class FitResult { full, axis_only };
+
+/// True when no residual at the solution can overflow in make_residuals (its rms or form): each
+/// |rho_i - r| <= |p_i - centroid| + |axis point - centroid| + |r| <= B, with B the data's
+/// `scale` + |state.point| + |r| (state.point is relative to the centroid and the axis point
+/// is its foot, no farther), so n (2B)^2 finite bounds the sum of squares, a factor 4 above
+/// any rounding. Then make_residuals cannot throw, and an axis-only result skips it with the
+/// same outcome; otherwise the residuals are computed, and refused, as in the full fit.
+bool residuals_bounded(const AxisState& state, double scale, Eigen::Index n) {
+  const double bound = 2.0 * (scale + state.point.norm() + std::abs(state.radius));
+  return std::isfinite(bound * bound * static_cast<double>(std::max<Eigen::Index>(n, 1)));
+}
+
 CylinderFit make_result(const Eigen::Matrix3Xd& points, const Eigen::Vector3d& centroid,
-                        const AxisState& state, const Matrix5d& jtj, const FitOptions& options) {
+                        const AxisState& state, const Matrix5d& jtj, double scale,
+                        const FitOptions& options, FitResult result) {
   CylinderFit fit;
   const std::size_t n = static_cast<std::size_t>(points.cols());
   fit.axis = detail::canonical_axis(centroid + state.point, state.direction, centroid,
                                     options.axis_hint);
   fit.radius = state.radius;
+  fit.summary.method = FitMethod::least_squares;
+  fit.summary.point_count = n;
+  if (result == FitResult::axis_only && residuals_bounded(state, scale, points.cols())) return fit;
   const Eigen::Matrix3d basis = detail::basis_from_direction(fit.axis.direction);
   FinalPass pass = final_pass(points, fit.axis, basis, fit.radius, options);
   fit.extent_min = pass.extent_min;
@@ -449,8 +468,6 @@ CylinderFit make_result(const Eigen::Matrix3Xd& points, const Eigen::Vector3d& c
     fit.covariance.matrix =
         detail::covariance_from_normal_matrix(jtj, fit.residuals.values.squaredNorm(), n);
   }
-  fit.summary.method = FitMethod::least_squares;
-  fit.summary.point_count = n;
   return fit;
 }
 
@@ -482,7 +499,7 @@ void require_axial_spread(const Eigen::Matrix3Xd& screen, const AxisState& state
 }
 
 CylinderFit fit_free_axis(const Eigen::Matrix3Xd& points, const Eigen::Matrix3Xd* vectors,
-                          const FitOptions& options) {
+                          const FitOptions& options, FitResult result = FitResult::full) {
   const auto n = static_cast<std::size_t>(points.cols());
   detail::require_point_count(n, 5, "cylinder");
   const Eigen::Vector3d centroid = detail::centroid(points);
@@ -520,11 +537,12 @@ CylinderFit fit_free_axis(const Eigen::Matrix3Xd& points, const Eigen::Matrix3Xd
                              screened ? run.outcome.ssr * static_cast<double>(screen.cols()) /
                                             static_cast<double>(points.cols())
                                       : run.outcome.ssr);
-        CylinderFit fit =
-            make_result(points, centroid, run.state, run.outcome.normal_matrix, options);
+        CylinderFit fit = make_result(points, centroid, run.state, run.outcome.normal_matrix,
+                                      scale, options, result);
         fit.summary.status = run.outcome.status;
         fit.summary.iterations = run.outcome.iterations;
         fit.summary.start = StartOutcome::held;
+        if (result == FitResult::axis_only) return fit;
         if (options.result_messages)
           fit.summary.message =
               detail::iteration_message(run.outcome.status, run.outcome.iterations, options) +
@@ -536,7 +554,7 @@ CylinderFit fit_free_axis(const Eigen::Matrix3Xd& points, const Eigen::Matrix3Xd
       // the screening below decides (and raises the error if the points cannot fix a cylinder)
     }
     return detail::fit_from_own_start(
-        options, [&](const FitOptions& own) { return fit_free_axis(points, vectors, own); });
+        options, [&](const FitOptions& own) { return fit_free_axis(points, vectors, own, result); });
   }
 
   std::vector<Eigen::Vector3d> directions = {axes.directions.col(2), axes.directions.col(1),
@@ -613,9 +631,11 @@ CylinderFit fit_free_axis(const Eigen::Matrix3Xd& points, const Eigen::Matrix3Xd
   if (!(best.state.radius > 0.0))
     throw FitError("no least-squares cylinder exists for these points (the radius tends to zero)");
 
-  CylinderFit fit = make_result(points, centroid, best.state, best.outcome.normal_matrix, options);
+  CylinderFit fit = make_result(points, centroid, best.state, best.outcome.normal_matrix, scale,
+                                options, result);
   fit.summary.status = best.outcome.status;
   fit.summary.iterations = iterations;
+  if (result == FitResult::axis_only) return fit;
   if (options.result_messages)
     fit.summary.message =
         detail::iteration_message(best.outcome.status, iterations, options) + " (start " +
@@ -687,6 +707,20 @@ CylinderFit fit_cylinder_least_squares(const Eigen::Matrix3Xd& points,
                    std::to_string(points.cols()) + " points");
   if (options.fixed_direction) return fit_fixed_direction(points, options);
   return fit_free_axis(points, &vectors, options);
+}
+
+Axis fit_cylinder_least_squares_axis(const Eigen::Matrix3Xd& points, const FitOptions& options) {
+  if (options.fixed_direction) return fit_fixed_direction(points, options).axis;
+  return fit_free_axis(points, nullptr, options, FitResult::axis_only).axis;
+}
+
+Axis fit_cylinder_least_squares_axis(const Eigen::Matrix3Xd& points,
+                                     const Eigen::Matrix3Xd& vectors, const FitOptions& options) {
+  if (vectors.cols() != 0 && vectors.cols() != points.cols())
+    throw FitError("got " + std::to_string(vectors.cols()) + " point vectors for " +
+                   std::to_string(points.cols()) + " points");
+  if (options.fixed_direction) return fit_fixed_direction(points, options).axis;
+  return fit_free_axis(points, &vectors, options, FitResult::axis_only).axis;
 }
 
 }  // namespace cylzone

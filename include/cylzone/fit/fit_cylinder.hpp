@@ -51,6 +51,16 @@ CylinderFit fit_cylinder_least_squares(const Eigen::Matrix3Xd& points,
                                        const Eigen::Matrix3Xd& vectors,
                                        const FitOptions& options = {});
 
+/// The axis of fit_cylinder_least_squares(points[, vectors], options), the same bits, and the
+/// same FitError where the fit throws, without the pass at the solution that measures the
+/// residuals, axial extent and angular coverage (nor the covariance, message or warnings): for
+/// a caller that reads only the axis, e.g. a datum feature's orientation to A.
+Axis fit_cylinder_least_squares_axis(const Eigen::Matrix3Xd& points,
+                                     const FitOptions& options = {});
+Axis fit_cylinder_least_squares_axis(const Eigen::Matrix3Xd& points,
+                                     const Eigen::Matrix3Xd& vectors,
+                                     const FitOptions& options = {});
+
 /// Cylindricity: two coaxial cylinders of least radial separation; radius = mean of the two.
 CylinderFit fit_cylinder_minimum_zone(const Eigen::Matrix3Xd& points,
                                       const FitOptions& options = {});
