@@ -907,20 +907,10 @@ VirtualConditionResult virtual_condition_after_frame_motion(const BoreResult& bo
   if (!p.projected) {
     if (bore.boundary_points.cols() == 0)
       throw FitError("bore " + bore.id + ": no point lies within the depth range");
-    // Block by block (zone_block), not one 3 x n copy per motion: the same bits per point.
+    // Point by point, with no moved or local copy of the points (the same bits per point).
     d.nearest = std::numeric_limits<double>::infinity();
-    const Eigen::Matrix3Xd& all = bore.boundary_points;
-    for (Eigen::Index start = 0; start < all.cols(); start += zone_block) {
-      const Eigen::Index len = std::min(zone_block, all.cols() - start);
-      const Eigen::Matrix3Xd moved = r_t * (all.middleCols(start, len).colwise() - shift);
-      const Eigen::Matrix3Xd local =
-          bore.zone.basis.transpose() * (moved.colwise() - bore.zone.origin);
-      for (Eigen::Index i = 0; i < local.cols(); ++i) {
-        const double radial = local.col(i).head<2>().norm();
-        d.nearest = std::min(d.nearest, radial);
-        d.farthest = std::max(d.farthest, radial);
-      }
-    }
+    detail::radial_range_after_motion(bore.boundary_points, r_t, shift, bore.zone.basis,
+                                      bore.zone.origin, d.nearest, d.farthest);
   }
   const detail::BoundaryClearance clearance =
       detail::boundary_clearance(at_mmc, p.projected, vc.envelope_surrounded, d);
