@@ -64,7 +64,8 @@ TEST_CASE("the boundary points' radial range after a motion is the products' to 
       if (i % 89 == 3) points(2, i) = -0.0;
       if (i % 83 == 2) points(0, i) = 0.0;
     }
-    // The motions a trial and the boundary search make: none (rotation 0, shift 0), small
+    // The motions a trial and the boundary search make: none (rotation 0, shift 0: the path
+    // without the rotation's products, on points with zero and -0.0 coordinates), small
     // rotations and shifts, and large ones; -0.0 shifts.
     double rotation = 0.0;
     Eigen::Vector3d shift = Eigen::Vector3d::Zero();
@@ -104,6 +105,33 @@ TEST_CASE("the boundary points' radial range after a motion is the products' to 
   }
   CHECK(compared == 600);
 
+  SECTION("no motion, zeros of both signs everywhere: the products' distances") {
+    // The path without the rotation rests on a zero's sign never reaching u^2 + v^2: points
+    // and origins made of +0.0, -0.0 and small integers, bases from the axes and tilted.
+    std::mt19937_64 zr(99);
+    std::uniform_int_distribution<int> pick(0, 4);
+    const double values[] = {0.0, -0.0, 1.0, -2.0, 0.0};
+    std::size_t same = 0, total = 0;
+    for (int t = 0; t < 300; ++t) {
+      Eigen::Matrix3Xd p(3, 40);
+      for (Eigen::Index i = 0; i < p.size(); ++i) p.data()[i] = values[pick(zr)];
+      const Eigen::Vector3d origin(values[pick(zr)], values[pick(zr)], values[pick(zr)]);
+      const Eigen::Matrix3d basis =
+          t % 2 == 0 ? Eigen::Matrix3d::Identity()
+                     : detail::basis_from_direction(Eigen::Vector3d(values[pick(zr)], 0.25, 1.0));
+      const Eigen::Vector3d shift =
+          t % 3 == 0 ? Eigen::Vector3d(-0.0, -0.0, -0.0) : Eigen::Vector3d::Zero();
+      double ref_near = 0.0, ref_far = 0.0, near = std::numeric_limits<double>::infinity(),
+             far = 0.0;
+      reference_radial_range(p, Eigen::Matrix3d::Identity(), shift, basis, origin, ref_near,
+                             ref_far);
+      detail::radial_range_after_motion(p, Eigen::Matrix3d::Identity(), shift, basis, origin,
+                                        near, far);
+      same += same_bits(near, ref_near) && same_bits(far, ref_far);
+      ++total;
+    }
+    CHECK(same == total);
+  }
   SECTION("no points leave the starting values") {
     double near = std::numeric_limits<double>::infinity(), far = 0.0;
     detail::radial_range_after_motion(Eigen::Matrix3Xd(3, 0), Eigen::Matrix3d::Identity(),

@@ -57,6 +57,21 @@ inline void radial_range_after_motion(const Eigen::Matrix3Xd& points, const Eige
   const double ox = zone_origin.x(), oy = zone_origin.y(), oz = zone_origin.z();
   const double* p = points.data();
   const Eigen::Index n = points.cols();
+  if (r_t == Eigen::Matrix3d::Identity() && shift == Eigen::Vector3d::Zero()) {
+    // No motion (evaluate_bore's own clearance, every MMC bore of every trial): the moved
+    // point is the point up to the sign of a zero coordinate (x - 0 = x, 1 x = x, x + 0 = x
+    // for x != 0), and a zero's sign changes only the sign of zero terms and sums after it,
+    // never u^2 + v^2: the same distances without the rotation's products.
+    for (Eigen::Index i = 0; i < n; ++i, p += 3) {
+      const double vx = p[0] - ox, vy = p[1] - oy, vz = p[2] - oz;
+      const double u = (b00 * vx + b10 * vy) + b20 * vz;
+      const double v = (b01 * vx + b11 * vy) + b21 * vz;
+      const double radial = std::sqrt(u * u + v * v);
+      nearest = std::min(nearest, radial);
+      farthest = std::max(farthest, radial);
+    }
+    return;
+  }
   for (Eigen::Index i = 0; i < n; ++i, p += 3) {
     const double wx = p[0] - sx, wy = p[1] - sy, wz = p[2] - sz;
     const double mx = (r00 * wx + r01 * wy) + r02 * wz;
