@@ -17,19 +17,15 @@ namespace cylzone::detail {
 /// rotation (p - origin) for every column p of `points`, into `out` (resized; not `points`).
 inline void points_to_frame_into(const Eigen::Matrix3Xd& points, const Eigen::Matrix3d& rotation,
                                  const Eigen::Vector3d& origin, Eigen::Matrix3Xd& out) {
-  const Eigen::Index n = points.cols();
-  out.resize(3, n);
-  const double r00 = rotation(0, 0), r01 = rotation(0, 1), r02 = rotation(0, 2);
-  const double r10 = rotation(1, 0), r11 = rotation(1, 1), r12 = rotation(1, 2);
-  const double r20 = rotation(2, 0), r21 = rotation(2, 1), r22 = rotation(2, 2);
-  const double ox = origin.x(), oy = origin.y(), oz = origin.z();
-  const double* __restrict p = points.data();
-  double* __restrict q = out.data();
-  for (Eigen::Index i = 0; i < n; ++i, p += 3, q += 3) {
-    const double wx = p[0] - ox, wy = p[1] - oy, wz = p[2] - oz;
-    q[0] = (r00 * wx + r01 * wy) + r02 * wz;
-    q[1] = (r10 * wx + r11 * wy) + r12 * wz;
-    q[2] = r20 * wx + (r21 * wy + r22 * wz);  // Eigen's reduction order, row 2
+  // Local copies: no store into `out` can change them, so they stay in registers.
+  const Eigen::Matrix3d r = rotation;
+  const Eigen::Vector3d o = origin;
+  out.resize(3, points.cols());
+  for (Eigen::Index i = 0; i < points.cols(); ++i) {
+    const double wx = points(0, i) - o.x(), wy = points(1, i) - o.y(), wz = points(2, i) - o.z();
+    out(0, i) = (r(0, 0) * wx + r(0, 1) * wy) + r(0, 2) * wz;
+    out(1, i) = (r(1, 0) * wx + r(1, 1) * wy) + r(1, 2) * wz;
+    out(2, i) = r(2, 0) * wx + (r(2, 1) * wy + r(2, 2) * wz);  // Eigen's reduction order, row 2
   }
 }
 
