@@ -150,3 +150,33 @@ TEST_CASE("the hinted search on evenly spaced slabs, heights in no order: neares
   CHECK(differing == 0);
   CHECK(guessed > scattered * 99 / 100);  // the guess is right nearly always on slabs
 }
+
+TEST_CASE("the hinted search on rings whose heights straddle their levels: nearest_level's index",
+          "[nearest_level]") {
+  // A probed bore in its file's order: ring after ring, each point's height just above or just
+  // below its ring's level at random (form and tilt), so that the bound of consecutive points
+  // moves by one place, up or down; the first and last levels included (bounds 0 and m), and
+  // rings visited upward, downward and in random order. Reference: nearest_level.
+  std::mt19937_64 rng(60221);
+  std::uniform_real_distribution<double> u(0.0, 1.0);
+  std::size_t differing = 0, compared = 0;
+  for (int trial = 0; trial < 1000; ++trial) {
+    const std::size_t m = 1 + static_cast<std::size_t>(u(rng) * 9.0);
+    std::vector<double> levels;
+    for (std::size_t k = 0; k < m; ++k) levels.push_back(-60.0 + 7.5 * static_cast<double>(k) + u(rng));
+    std::vector<std::size_t> rings(m);
+    for (std::size_t k = 0; k < m; ++k) rings[k] = k;
+    if (trial % 3 == 1) std::reverse(rings.begin(), rings.end());
+    if (trial % 3 == 2) std::shuffle(rings.begin(), rings.end(), rng);
+    detail::NearestLevelHint hinted(levels);
+    for (std::size_t k : rings)
+      for (int i = 0; i < 40; ++i) {
+        const double jitter = (u(rng) < 0.5 ? -1.0 : 1.0) * 1e-3 * u(rng);
+        const double t = i % 13 == 0 ? levels[k] : levels[k] + jitter;  // some exactly on it
+        differing += hinted(t) != detail::nearest_level(levels, t);
+        ++compared;
+      }
+  }
+  CHECK(compared > 150000);
+  CHECK(differing == 0);
+}

@@ -19,6 +19,7 @@
 #include "cylzone/prepare/prepare.hpp"
 #include "detail/fit_support.hpp"
 #include "detail/parallel.hpp"
+#include "check/detail/frame_points.hpp"
 
 namespace cylzone {
 namespace {
@@ -375,7 +376,9 @@ PartEvaluation evaluate_part(const PartPlan& plan, const PartInputs& inputs,
     try {
       result.bores[i] = for_feature("bore " + bore.id, [&] {
         PointCloud in_frame;
-        in_frame.points = result.datums.frame.points_to_frame(inputs.bores[i].points);
+        // DatumFrame::points_to_frame's bits, written in place (detail/frame_points.hpp).
+        detail::points_to_frame_into(inputs.bores[i].points, result.datums.frame.rotation,
+                                     result.datums.frame.origin, in_frame.points);
         if (inputs.bores[i].has_vectors())
           in_frame.vectors = result.datums.frame.rotation * inputs.bores[i].vectors;
         in_frame.source = inputs.bores[i].source;

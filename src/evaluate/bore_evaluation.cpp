@@ -23,6 +23,7 @@
 #include "evaluate/detail/half_turn_gap.hpp"
 #include "evaluate/detail/height_order.hpp"
 #include "evaluate/detail/nearest_level.hpp"
+#include "evaluate/detail/zone_height.hpp"
 #include "prepare/detail/stray_point_message.hpp"
 
 namespace cylzone {
@@ -536,22 +537,11 @@ FitOptions free_axis_options(const PlanBore& bore, const FitOptions& fit,
   return free_axis;
 }
 
-/// Columns per block where a dense bore's points are taken into zone coordinates: a block's
-/// copy is small (96 kB) where one of the whole bore would be 24 bytes a point, and every
-/// column is the same products whichever block it falls in (detail::local_coordinates_into).
-constexpr Eigen::Index zone_block = 4096;
-
-/// Heights of the points along the zone's w axis (row 2 of basis^T (p - origin)), computed a
-/// block at a time: the bits of the whole product, without its 3 x n copy.
+/// Heights of the points along the zone's w axis (row 2 of basis^T (p - origin)): the bits of
+/// the whole product, without its 3 x n copy (detail::zone_heights_into).
 Eigen::VectorXd zone_heights(const Eigen::Matrix3Xd& points, const ZoneFrame& zone) {
-  Eigen::VectorXd heights(points.cols());
-  Eigen::Matrix3Xd block, local;
-  for (Eigen::Index start = 0; start < points.cols(); start += zone_block) {
-    const Eigen::Index len = std::min(zone_block, points.cols() - start);
-    block = points.middleCols(start, len);
-    detail::local_coordinates_into(block, zone.origin, zone.basis, local);
-    heights.segment(start, len) = local.row(2).transpose();
-  }
+  Eigen::VectorXd heights;
+  detail::zone_heights_into(points, zone.origin, zone.basis, heights);
   return heights;
 }
 
@@ -907,20 +897,10 @@ VirtualConditionResult virtual_condition_after_frame_motion(const BoreResult& bo
   if (!p.projected) {
     if (bore.boundary_points.cols() == 0)
       throw FitError("bore " + bore.id + ": no point lies within the depth range");
-    // Block by block (zone_block), not one 3 x n copy per motion: the same bits per point.
+    // Point by point, with no moved or local copy of the points (the same bits per point).
     d.nearest = std::numeric_limits<double>::infinity();
-    const Eigen::Matrix3Xd& all = bore.boundary_points;
-    for (Eigen::Index start = 0; start < all.cols(); start += zone_block) {
-      const Eigen::Index len = std::min(zone_block, all.cols() - start);
-      const Eigen::Matrix3Xd moved = r_t * (all.middleCols(start, len).colwise() - shift);
-      const Eigen::Matrix3Xd local =
-          bore.zone.basis.transpose() * (moved.colwise() - bore.zone.origin);
-      for (Eigen::Index i = 0; i < local.cols(); ++i) {
-        const double radial = local.col(i).head<2>().norm();
-        d.nearest = std::min(d.nearest, radial);
-        d.farthest = std::max(d.farthest, radial);
-      }
-    }
+    detail::radial_range_after_motion(bore.boundary_points, r_t, shift, bore.zone.basis,
+                                      bore.zone.origin, d.nearest, d.farthest);
   }
   const detail::BoundaryClearance clearance =
       detail::boundary_clearance(at_mmc, p.projected, vc.envelope_surrounded, d);

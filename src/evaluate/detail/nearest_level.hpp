@@ -49,7 +49,8 @@ class NearestLevelCursor {
 /// level (a probed ring after ring, in the file's order) find it at once. A position b is the
 /// lower bound of t exactly when the level before it is below t and the one at it is not (the
 /// levels being sorted, so are all before and after), so the check, not a guess, decides;
-/// otherwise the binary search runs. The same index as nearest_level for any order of calls.
+/// otherwise the places next to it are checked the same way (a ring's heights straddle its
+/// level), then the binary search runs. The same index as nearest_level for any order of calls.
 /// Before the binary search, the position evenly spaced levels would give is tried, checked the
 /// same way (detail::EvenGuess): a scanned bore's slabs are evenly spaced and its points come
 /// in no order of height, where the previous point's bound rarely holds.
@@ -59,6 +60,17 @@ class NearestLevelHint {
       : levels_(levels), guess_(levels.data(), levels.size()) {}
   std::size_t operator()(double t) {
     if (!is_bound(bound_, t)) {
+      // A probed ring's heights straddle its level (form, tilt, noise), so between two points
+      // of one ring the bound moves by one place, up or down: both are checked (the same
+      // check) before the guess, whose ceil costs more.
+      if (bound_ < levels_.size() && is_bound(bound_ + 1, t)) {
+        ++bound_;
+        return nearest_from_bound(levels_, bound_, t);
+      }
+      if (bound_ > 0 && is_bound(bound_ - 1, t)) {
+        --bound_;
+        return nearest_from_bound(levels_, bound_, t);
+      }
       const std::size_t guess = guess_.lower_bound(t);
       bound_ = is_bound(guess, t)
                    ? guess
