@@ -15,6 +15,7 @@
 #include <vector>
 
 #include "cylzone/core/errors.hpp"
+#include "detail/sse2_lanes.hpp"
 
 namespace cylzone::detail {
 
@@ -486,12 +487,7 @@ Eigen::Matrix3d scatter_matrix(const Eigen::Matrix3Xd& points, const Eigen::Vect
       xz_yy = _mm_add_pd(xz_yy, _mm_mul_pd(d, _mm_move_sd(d, z)));           // (x, y) (z, y)
       yz_zz = _mm_add_pd(yz_zz, _mm_mul_pd(_mm_shuffle_pd(d, z, 1), z));     // (y, z) z
     }
-    xx = _mm_cvtsd_f64(xx_xy);
-    xy = _mm_cvtsd_f64(_mm_unpackhi_pd(xx_xy, xx_xy));
-    xz = _mm_cvtsd_f64(xz_yy);
-    yy = _mm_cvtsd_f64(_mm_unpackhi_pd(xz_yy, xz_yy));
-    yz = _mm_cvtsd_f64(yz_zz);
-    zz = _mm_cvtsd_f64(_mm_unpackhi_pd(yz_zz, yz_zz));
+    split_lanes(xx_xy, xz_yy, yz_zz, xx, xy, xz, yy, yz, zz);
   }
 #endif
   for (; i < n; ++i) {

@@ -13,25 +13,13 @@
 
 #include "cylzone/core/errors.hpp"
 #include "cylzone/fit/fit_circle.hpp"
+#include "detail/sse2_lanes.hpp"
 #include "fit/detail/circle_2d.hpp"
 #include "detail/fit_support.hpp"
 
 namespace cylzone {
 namespace detail {
 namespace {
-
-#if defined(__SSE2__)
-/// The two lanes of each of three paired sums, low first: a's into a0, a1, b's, c's.
-void split_lanes(__m128d a, __m128d b, __m128d c, double& a0, double& a1, double& b0, double& b1,
-                 double& c0, double& c1) {
-  a0 = _mm_cvtsd_f64(a);
-  a1 = _mm_cvtsd_f64(_mm_unpackhi_pd(a, a));
-  b0 = _mm_cvtsd_f64(b);
-  b1 = _mm_cvtsd_f64(_mm_unpackhi_pd(b, b));
-  c0 = _mm_cvtsd_f64(c);
-  c1 = _mm_cvtsd_f64(_mm_unpackhi_pd(c, c));
-}
-#endif
 
 // Centred statistics of a 2D set, gathered in one pass: centroid, the largest distance from it,
 // whether the set lies on a straight line (the collinearity test, with the spread along and
