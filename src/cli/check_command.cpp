@@ -234,12 +234,15 @@ int run_check(const CheckArguments& args) {
   options.evaluation.threads = args.threads;
   // Each input is read once; the study perturbs the same points in memory.
   const PartInputs part_inputs = load_part_inputs(plan, LoadOptions{args.threads});
-  // The part is evaluated once: the check takes a copy when the study needs the evaluation too.
-  PartEvaluation evaluation = evaluate_part(plan, part_inputs, options.evaluation);
-  PartCheckResult result = check_part(
-      plan, part_inputs, study ? PartEvaluation(evaluation) : std::move(evaluation), options);
+  // The part is evaluated once: with the study, the check takes a copy of the evaluation the
+  // study starts from (a part a study is run on is small); without, check_part evaluates it.
+  PartCheckResult result;
   std::optional<MonteCarloSummary> uncertainty;
-  if (study) {
+  if (!study) {
+    result = check_part(plan, part_inputs, options);
+  } else {
+    const PartEvaluation evaluation = evaluate_part(plan, part_inputs, options.evaluation);
+    result = check_part(plan, part_inputs, evaluation, options);
     MonteCarloOptions mc = *study;
     mc.evaluation = options.evaluation;
     uncertainty = monte_carlo_uncertainty(plan, part_inputs, evaluation, mc);
