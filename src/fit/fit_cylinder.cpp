@@ -694,33 +694,38 @@ FitStart fit_start(const CylinderFit& fit) {
   return start;
 }
 
-CylinderFit fit_cylinder_least_squares(const Eigen::Matrix3Xd& points, const FitOptions& options) {
+namespace {
+
+/// The four entry points' one dispatch: the point vectors' count checked, then the fixed or
+/// the free axis (`result`: everything, or the axis alone).
+CylinderFit least_squares(const Eigen::Matrix3Xd& points, const Eigen::Matrix3Xd* vectors,
+                          const FitOptions& options, FitResult result) {
+  if (vectors && vectors->cols() != 0 && vectors->cols() != points.cols())
+    throw FitError("got " + std::to_string(vectors->cols()) + " point vectors for " +
+                   std::to_string(points.cols()) + " points");
   if (options.fixed_direction) return fit_fixed_direction(points, options);
-  return fit_free_axis(points, nullptr, options);
+  return fit_free_axis(points, vectors, options, result);
+}
+
+}  // namespace
+
+CylinderFit fit_cylinder_least_squares(const Eigen::Matrix3Xd& points, const FitOptions& options) {
+  return least_squares(points, nullptr, options, FitResult::full);
 }
 
 CylinderFit fit_cylinder_least_squares(const Eigen::Matrix3Xd& points,
                                        const Eigen::Matrix3Xd& vectors,
                                        const FitOptions& options) {
-  if (vectors.cols() != 0 && vectors.cols() != points.cols())
-    throw FitError("got " + std::to_string(vectors.cols()) + " point vectors for " +
-                   std::to_string(points.cols()) + " points");
-  if (options.fixed_direction) return fit_fixed_direction(points, options);
-  return fit_free_axis(points, &vectors, options);
+  return least_squares(points, &vectors, options, FitResult::full);
 }
 
 Axis fit_cylinder_least_squares_axis(const Eigen::Matrix3Xd& points, const FitOptions& options) {
-  if (options.fixed_direction) return fit_fixed_direction(points, options).axis;
-  return fit_free_axis(points, nullptr, options, FitResult::axis_only).axis;
+  return least_squares(points, nullptr, options, FitResult::axis_only).axis;
 }
 
 Axis fit_cylinder_least_squares_axis(const Eigen::Matrix3Xd& points,
                                      const Eigen::Matrix3Xd& vectors, const FitOptions& options) {
-  if (vectors.cols() != 0 && vectors.cols() != points.cols())
-    throw FitError("got " + std::to_string(vectors.cols()) + " point vectors for " +
-                   std::to_string(points.cols()) + " points");
-  if (options.fixed_direction) return fit_fixed_direction(points, options).axis;
-  return fit_free_axis(points, &vectors, options, FitResult::axis_only).axis;
+  return least_squares(points, &vectors, options, FitResult::axis_only).axis;
 }
 
 }  // namespace cylzone
